@@ -1,0 +1,17 @@
+"""The one exception type for robot descriptions that cannot be loaded."""
+
+from __future__ import annotations
+
+__all__ = ["RobotDescriptionError"]
+
+
+class RobotDescriptionError(ValueError):
+    """A robot description file is missing, malformed or inconsistent.
+
+    ``problems`` lists every finding as ``"<file>:<line>: <field>: <message>"``
+    (line omitted where unknown); ``str(error)`` joins them, one per line.
+    """
+
+    def __init__(self, problems: list[str]) -> None:
+        self.problems = list(problems)
+        super().__init__("\n".join(self.problems))

@@ -1,0 +1,201 @@
+"""The robot model: a serial chain of joints with limits, capsules, flange and tool.
+
+Every joint is a fixed transform from its parent frame (``origin``, the pose of
+the joint frame in the parent link frame at zero joint value) followed by a
+motion about a unit ``axis`` given in the joint frame: a rotation for revolute
+joints, a translation for prismatic joints. Link frame ``i`` is the joint frame
+after the motion of joint ``i``; link frame ``0`` is the robot base frame.
+The flange (ISO 9787 mechanical interface) is a fixed transform from the last
+link frame, the default tool (TCP) a fixed transform from the flange.
+
+All values are SI (m, rad, s). Robot descriptions are loaded by
+:mod:`posebridge.robot.toml_format` and :mod:`posebridge.robot.urdf`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import Literal
+
+import numpy as np
+
+from posebridge.units import BoolArray, FloatArray
+
+JointKind = Literal["revolute", "prismatic"]
+
+__all__ = ["Capsule", "Joint", "JointKind", "Robot"]
+
+
+@dataclass(frozen=True, eq=False)
+class Joint:
+    """One joint of a serial chain (SI units).
+
+    Attributes
+    ----------
+    name : str
+    kind : "revolute" or "prismatic"
+    origin : array, shape (4, 4)
+        Pose of the joint frame in the parent link frame at zero joint value.
+    axis : array, shape (3,)
+        Unit motion axis in the joint frame.
+    lower, upper : float
+        Position limits, rad or m. For ``continuous`` joints these are the
+        range used for sampling and maps (one turn), not a limit.
+    velocity_max : float
+        rad/s or m/s.
+    acceleration_max : float
+        rad/s^2 or m/s^2.
+    continuous : bool
+        A revolute joint without position limits.
+    """
+
+    name: str
+    kind: JointKind
+    origin: FloatArray
+    axis: FloatArray
+    lower: float
+    upper: float
+    velocity_max: float
+    acceleration_max: float
+    continuous: bool = False
+
+
+@dataclass(frozen=True, eq=False)
+class Capsule:
+    """A collision capsule fixed to one link: all points within ``radius`` of a segment.
+
+    Attributes
+    ----------
+    name : str
+    link : int
+        0 for the base link, ``i`` for the link moved by joint ``i`` (1-based).
+    start, end : array, shape (3,)
+        Segment end points in the link frame, m.
+    radius : float
+        m.
+    """
+
+    name: str
+    link: int
+    start: FloatArray
+    end: FloatArray
+    radius: float
+
+
+@dataclass(frozen=True, eq=False)
+class Robot:
+    """A serial robot arm (SI units).
+
+    Attributes
+    ----------
+    name : str
+        Library name, e.g. ``"pb-arm6"``.
+    kind : str
+        Family label from the description (e.g. ``"six_axis"``); analytic
+        solvers decide applicability from the geometry, not from this label.
+    joints : tuple of Joint
+    T_link_flange : array, shape (4, 4)
+        Flange pose in the last link frame.
+    T_flange_tool : array, shape (4, 4)
+        Default tool (TCP) pose in the flange frame.
+    capsules : tuple of Capsule
+    description : str
+    source : str
+        File the robot was loaded from, or ``""``.
+    notes : tuple of str
+        Non-fatal remarks from loading (e.g. ignored mesh references).
+    """
+
+    name: str
+    kind: str
+    joints: tuple[Joint, ...]
+    T_link_flange: FloatArray
+    T_flange_tool: FloatArray
+    capsules: tuple[Capsule, ...] = ()
+    description: str = ""
+    source: str = ""
+    notes: tuple[str, ...] = field(default=())
+
+    @property
+    def dof(self) -> int:
+        """Number of joints ``n``."""
+        return len(self.joints)
+
+    @cached_property
+    def joint_names(self) -> tuple[str, ...]:
+        return tuple(joint.name for joint in self.joints)
+
+    @cached_property
+    def origins(self) -> FloatArray:
+        """Joint origins, shape (n, 4, 4)."""
+        return np.stack([joint.origin for joint in self.joints]).astype(np.float64)
+
+    @cached_property
+    def axes(self) -> FloatArray:
+        """Unit joint axes in their joint frames, shape (n, 3)."""
+        return np.stack([joint.axis for joint in self.joints]).astype(np.float64)
+
+    @cached_property
+    def prismatic(self) -> BoolArray:
+        """Prismatic-joint mask, shape (n,)."""
+        return np.array([joint.kind == "prismatic" for joint in self.joints], dtype=bool)
+
+    @cached_property
+    def continuous(self) -> BoolArray:
+        """Continuous (unlimited revolute) joint mask, shape (n,)."""
+        return np.array([joint.continuous for joint in self.joints], dtype=bool)
+
+    @cached_property
+    def lower(self) -> FloatArray:
+        """Lower position limits, shape (n,), rad or m."""
+        return np.array([joint.lower for joint in self.joints], dtype=np.float64)
+
+    @cached_property
+    def upper(self) -> FloatArray:
+        """Upper position limits, shape (n,), rad or m."""
+        return np.array([joint.upper for joint in self.joints], dtype=np.float64)
+
+    @cached_property
+    def velocity_max(self) -> FloatArray:
+        """Velocity limits, shape (n,), rad/s or m/s."""
+        return np.array([joint.velocity_max for joint in self.joints], dtype=np.float64)
+
+    @cached_property
+    def acceleration_max(self) -> FloatArray:
+        """Acceleration limits, shape (n,), rad/s^2 or m/s^2."""
+        return np.array([joint.acceleration_max for joint in self.joints], dtype=np.float64)
+
+    @cached_property
+    def T_link_tool(self) -> FloatArray:
+        """Default tool pose in the last link frame, shape (4, 4)."""
+        return self.T_link_flange @ self.T_flange_tool
+
+    @cached_property
+    def motion_table(self) -> FloatArray:
+        """Per-joint coefficients for fast forward kinematics, shape (n, 33).
+
+        For joint ``i`` with origin rotation ``A``, origin translation ``o``
+        and unit axis ``a`` (``K`` its cross-product matrix), Rodrigues'
+        formula gives ``A @ Rot(a, q) = C + cos(q) P + sin(q) B`` with
+        ``C = A a a^T``, ``P = A - C`` and ``B = A K``. Row layout:
+        ``P`` (9, row-major), ``B`` (9), ``C`` (9), ``o`` (3), ``A a`` (3).
+        A prismatic joint moves by ``q A a`` and keeps rotation ``P + C = A``.
+        """
+        table = np.empty((self.dof, 33))
+        for i, (origin, axis) in enumerate(zip(self.origins, self.axes, strict=True)):
+            A = origin[:3, :3]
+            K = np.array(
+                [[0.0, -axis[2], axis[1]], [axis[2], 0.0, -axis[0]], [-axis[1], axis[0], 0.0]]
+            )
+            C = A @ np.outer(axis, axis)
+            table[i, 0:9] = (A - C).ravel()
+            table[i, 9:18] = (A @ K).ravel()
+            table[i, 18:27] = C.ravel()
+            table[i, 27:30] = origin[:3, 3]
+            table[i, 30:33] = A @ axis
+        return table
+
+    def mid_configuration(self) -> FloatArray:
+        """Centre of the joint-range box, shape (n,)."""
+        return 0.5 * (self.lower + self.upper)
