@@ -1,0 +1,1 @@
+"""Workspace and joint-space maps: reach, sections, obstacle maps."""
