@@ -1,11 +1,819 @@
-"""URDF import (being written)."""
+"""URDF import and export (ROS URDF specification, an open standard).
 
+Import (:func:`load_robot_urdf`, :func:`parse_robot_urdf`) takes the serial
+chain between a base link and a tip link of the URDF tree:
+
+* Defaults: the base is the root link, the tip the single leaf below it; with
+  several leaves the caller must name one (the error lists the candidates).
+* ``revolute`` and ``prismatic`` joints need ``<limit lower upper velocity>``
+  (``lower``/``upper`` default to 0 as in the specification, so a joint
+  without them is refused as locked); ``effort`` is not used and not
+  required. ``continuous`` joints need ``<limit velocity>``; their range for
+  sampling and maps is one turn, -pi..pi (:attr:`Joint.continuous` is set).
+* URDF has no acceleration limits: every joint gets
+  ``acceleration_max = DEFAULT_ACCELERATION_PER_S * velocity_max`` (full speed
+  reached in a quarter second) and :attr:`Robot.notes` says so.
+* ``fixed`` joints are merged: into the next moving joint's origin, or after
+  the last moving joint into the flange. The robot base frame is the base
+  link's frame, the flange the tip link's frame, the default tool the
+  identity.
+* ``<origin rpy>`` is roll about fixed X, then pitch about fixed Y, then yaw
+  about fixed Z, ``R = Rz(y) Ry(p) Rx(r)``. ``<axis>`` defaults to (1, 0, 0).
+  The specification says the axis "should be normalized" without saying what
+  a reader does otherwise; like pinocchio's reader we normalise a non-unit
+  axis (and add a note); a zero axis is refused.
+* Refused with :class:`RobotDescriptionError` naming the joint: ``mimic``,
+  ``floating`` and ``planar`` joints on the chain, a link with two parent
+  joints (closed loop), joints that form a cycle, several root links.
+  Such joints off the chain are ignored and reported in the notes.
+* Collision geometry of the chain's links becomes :class:`Capsule` objects
+  where it maps: ``<sphere>`` exactly (zero-length capsule), ``<capsule radius
+  length>`` exactly (length of the cylindrical part, the common extension),
+  ``<cylinder>`` approximately (a capsule with the same radius and segment
+  length, i.e. half-spheres added at both ends). Boxes and meshes are
+  ignored; mesh references (``package://`` or files) are listed in the
+  notes, never opened.
+* The XML is read with defusedxml (no DTD, no entity expansion, no external
+  references), at most :data:`MAX_URDF_BYTES`; every problem is reported as
+  ``file:line: field: message``.
+
+Export (:func:`urdf_from_robot`) writes a robot as URDF with links ``base``,
+``link_<joint>``, ``flange`` and ``tool``; capsules become cylinders or
+spheres (so that importing the file again gives the same capsules).
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+import xml.sax
+import xml.sax.handler
+import xml.sax.xmlreader
+from dataclasses import dataclass, field
 from pathlib import Path
+from xml.sax.saxutils import quoteattr
 
-from posebridge.robot.model import Robot
+import defusedxml
+import defusedxml.sax
+import numpy as np
+
+from posebridge.robot.errors import RobotDescriptionError
+from posebridge.robot.model import Capsule, Joint, JointKind, Robot
+from posebridge.transforms import (
+    rotation_matrix_about_axis,
+    rpy_from_rotation_matrix,
+    transform_from_position_rpy,
+)
+from posebridge.units import FloatArray
+
+__all__ = [
+    "DEFAULT_ACCELERATION_PER_S",
+    "MAX_URDF_BYTES",
+    "load_robot_urdf",
+    "parse_robot_urdf",
+    "urdf_from_robot",
+]
+
+MAX_URDF_BYTES = 5_000_000
+"""Largest URDF file accepted, bytes."""
+
+DEFAULT_ACCELERATION_PER_S = 4.0
+"""Acceleration limit given to imported joints, as a multiple of their velocity limit, 1/s."""
+
+_AXIS_TOLERANCE = 1e-9
+_MOVING_TYPES = ("revolute", "continuous", "prismatic")
+_KNOWN_TYPES = (*_MOVING_TYPES, "fixed", "floating", "planar")
+_LISTED_NAMES = 12
+
+
+# --------------------------------------------------------------------------- XML
+
+
+@dataclass
+class _Element:
+    """One XML element with the line it starts on."""
+
+    tag: str
+    attrib: dict[str, str]
+    line: int
+    children: list[_Element] = field(default_factory=list)
+
+    def find(self, tag: str) -> _Element | None:
+        return next((child for child in self.children if child.tag == tag), None)
+
+    def findall(self, tag: str) -> list[_Element]:
+        return [child for child in self.children if child.tag == tag]
+
+    def walk(self) -> list[_Element]:
+        """This element and all below it, document order."""
+        found = [self]
+        for child in self.children:
+            found.extend(child.walk())
+        return found
+
+
+class _TreeBuilder(xml.sax.handler.ContentHandler):
+    """SAX handler building :class:`_Element` trees with line numbers."""
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.root: _Element | None = None
+        self._stack: list[_Element] = []
+        self._where: xml.sax.xmlreader.Locator | None = None
+
+    def setDocumentLocator(self, locator: xml.sax.xmlreader.Locator) -> None:  # noqa: N802
+        self._where = locator
+
+    def startElement(self, name: str, attrs: xml.sax.xmlreader.AttributesImpl) -> None:  # noqa: N802
+        line = self._where.getLineNumber() if self._where is not None else 0
+        element = _Element(name, dict(attrs.items()), line or 0)
+        if self._stack:
+            self._stack[-1].children.append(element)
+        else:
+            self.root = element
+        self._stack.append(element)
+
+    def endElement(self, name: str) -> None:  # noqa: N802
+        self._stack.pop()
+
+
+def _read_xml(data: bytes, path: str) -> _Element:
+    """Parse XML safely (defusedxml SAX reader: DTDs, entities and external references refused)."""
+    if len(data) > MAX_URDF_BYTES:
+        raise RobotDescriptionError(
+            [f"{path}: file is {len(data)} bytes; URDF files are limited to {MAX_URDF_BYTES}"]
+        )
+    builder = _TreeBuilder()
+    try:
+        defusedxml.sax.parseString(
+            data, builder, forbid_dtd=True, forbid_entities=True, forbid_external=True
+        )
+    except xml.sax.SAXParseException as error:
+        raise RobotDescriptionError(
+            [f"{path}:{error.getLineNumber()}: xml: not well-formed XML: {error.getMessage()}"]
+        ) from error
+    except defusedxml.DTDForbidden as error:
+        raise RobotDescriptionError(
+            [f"{path}: xml: document type declarations (DTD) are refused: {error}"]
+        ) from error
+    except defusedxml.DefusedXmlException as error:
+        raise RobotDescriptionError(
+            [f"{path}: xml: entity declarations and external references are refused: {error}"]
+        ) from error
+    if builder.root is None:
+        raise RobotDescriptionError([f"{path}: xml: empty document"])
+    return builder.root
+
+
+# ----------------------------------------------------------------------- parsing
+
+
+@dataclass
+class _Problems:
+    path: str
+    items: list[str] = field(default_factory=list)
+
+    def add(self, line: int, where: str, message: str) -> None:
+        location = f"{self.path}:{line}" if line else self.path
+        self.items.append(f"{location}: {where}: {message}")
+
+
+@dataclass
+class _CollisionSpec:
+    name: str
+    kind: str
+    origin: FloatArray
+    radius: float
+    length: float
+    filename: str
+
+
+@dataclass
+class _LinkSpec:
+    name: str
+    line: int
+    collisions: list[_CollisionSpec]
+
+
+@dataclass
+class _JointSpec:
+    name: str
+    kind: str
+    line: int
+    parent: str
+    child: str
+    origin: FloatArray
+    axis: FloatArray
+    axis_length: float
+    lower: float
+    upper: float
+    velocity: float
+    has_mimic: bool
+
+
+def _numbers(
+    problems: _Problems, text: str | None, count: int, line: int, where: str
+) -> list[float] | None:
+    """``count`` whitespace-separated finite numbers from an attribute value."""
+    if text is None:
+        problems.add(line, where, f"missing; expected {count} number(s)")
+        return None
+    parts = text.split()
+    try:
+        values = [float(part) for part in parts]
+    except ValueError:
+        problems.add(line, where, f"expected {count} number(s), got {text!r}")
+        return None
+    if len(values) != count or not all(math.isfinite(v) for v in values):
+        problems.add(line, where, f"expected {count} finite number(s), got {text!r}")
+        return None
+    return values
+
+
+def _parse_origin(problems: _Problems, parent: _Element, where: str) -> FloatArray:
+    """``<origin xyz rpy>`` (both default to zeros) as a transform, shape (4, 4)."""
+    element = parent.find("origin")
+    if element is None:
+        return np.eye(4)
+    xyz = _numbers(
+        problems, element.attrib.get("xyz", "0 0 0"), 3, element.line, f"{where}.origin.xyz"
+    )
+    rpy = _numbers(
+        problems, element.attrib.get("rpy", "0 0 0"), 3, element.line, f"{where}.origin.rpy"
+    )
+    if xyz is None or rpy is None:
+        return np.eye(4)
+    return transform_from_position_rpy(xyz, rpy)
+
+
+def _parse_collision(
+    problems: _Problems, element: _Element, link: str, index: int, count: int
+) -> _CollisionSpec | None:
+    default_name = link if count == 1 else f"{link}_{index + 1}"
+    name = element.attrib.get("name") or default_name
+    where = f"link[{link}].collision[{index}]"
+    origin = _parse_origin(problems, element, where)
+    geometry = element.find("geometry")
+    shape = geometry.children[0] if geometry is not None and geometry.children else None
+    if shape is None:
+        problems.add(element.line, f"{where}.geometry", "missing geometry")
+        return None
+    radius = length = 0.0
+    if shape.tag in ("cylinder", "capsule", "sphere"):
+        number = _numbers(
+            problems, shape.attrib.get("radius"), 1, shape.line, f"{where}.{shape.tag}.radius"
+        )
+        if number is None:
+            return None
+        radius = number[0]
+        if radius <= 0.0:
+            problems.add(shape.line, f"{where}.{shape.tag}.radius", f"must be > 0, got {radius:g}")
+            return None
+    if shape.tag in ("cylinder", "capsule"):
+        number = _numbers(
+            problems, shape.attrib.get("length"), 1, shape.line, f"{where}.{shape.tag}.length"
+        )
+        if number is None:
+            return None
+        length = number[0]
+        if length < 0.0:
+            problems.add(shape.line, f"{where}.{shape.tag}.length", f"must be >= 0, got {length:g}")
+            return None
+    return _CollisionSpec(name, shape.tag, origin, radius, length, shape.attrib.get("filename", ""))
+
+
+def _parse_link(problems: _Problems, element: _Element) -> _LinkSpec | None:
+    name = element.attrib.get("name", "").strip()
+    if not name:
+        problems.add(element.line, "link", "missing name attribute")
+        return None
+    raw = element.findall("collision")
+    collisions = [_parse_collision(problems, c, name, i, len(raw)) for i, c in enumerate(raw)]
+    return _LinkSpec(name, element.line, [c for c in collisions if c is not None])
+
+
+def _parse_limit(
+    problems: _Problems, joint: _Element, kind: str, where: str
+) -> tuple[float, float, float]:
+    """``<limit lower upper velocity>`` of a moving joint: (lower, upper, velocity), SI.
+
+    ``lower`` and ``upper`` default to 0 (URDF specification); a continuous
+    joint gets -pi..pi. Zeros are returned for joints that do not move.
+    """
+    if kind not in _MOVING_TYPES:
+        return 0.0, 0.0, 0.0
+    limit = joint.find("limit")
+    if limit is None:
+        expected = 'velocity="..."' if kind == "continuous" else "lower, upper and velocity"
+        problems.add(joint.line, f"{where}.limit", f"missing <limit .../>; expected {expected}")
+        return 0.0, 0.0, 0.0
+    found = _numbers(
+        problems, limit.attrib.get("velocity"), 1, limit.line, f"{where}.limit.velocity"
+    )
+    velocity = found[0] if found is not None else 0.0
+    if found is not None and velocity <= 0.0:
+        problems.add(limit.line, f"{where}.limit.velocity", f"must be > 0, got {velocity:g}")
+    if kind == "continuous":
+        return -math.pi, math.pi, velocity
+    bounds = [
+        _numbers(problems, limit.attrib.get(key, "0"), 1, limit.line, f"{where}.limit.{key}")
+        for key in ("lower", "upper")
+    ]
+    if bounds[0] is None or bounds[1] is None:
+        return 0.0, 0.0, velocity
+    lower, upper = bounds[0][0], bounds[1][0]
+    if lower >= upper:
+        missing = [key for key in ("lower", "upper") if key not in limit.attrib]
+        hint = f" ({' and '.join(missing)} missing: URDF default 0)" if missing else ""
+        problems.add(
+            limit.line,
+            f"{where}.limit.lower",
+            f"lower ({lower:g}) must be less than upper ({upper:g}){hint}",
+        )
+    return lower, upper, velocity
+
+
+def _parse_joint(problems: _Problems, element: _Element) -> _JointSpec | None:
+    name = element.attrib.get("name", "").strip()
+    if not name:
+        problems.add(element.line, "joint", "missing name attribute")
+        return None
+    where = f"joint[{name}]"
+    kind = element.attrib.get("type", "")
+    if kind not in _KNOWN_TYPES:
+        problems.add(
+            element.line,
+            f"{where}.type",
+            f"expected one of {', '.join(_KNOWN_TYPES)}, got {kind!r}",
+        )
+        return None
+    links = {}
+    for role in ("parent", "child"):
+        tag = element.find(role)
+        link = tag.attrib.get("link", "").strip() if tag is not None else ""
+        if not link:
+            problems.add(element.line, f"{where}.{role}", f'missing <{role} link="..."/>')
+        links[role] = link
+    origin = _parse_origin(problems, element, where)
+    axis = np.array([1.0, 0.0, 0.0])
+    axis_length = 1.0
+    axis_element = element.find("axis")
+    if axis_element is not None and kind in _MOVING_TYPES:
+        values = _numbers(
+            problems, axis_element.attrib.get("xyz"), 3, axis_element.line, f"{where}.axis.xyz"
+        )
+        if values is not None:
+            axis_length = float(np.linalg.norm(values))
+            if axis_length < _AXIS_TOLERANCE:
+                problems.add(
+                    axis_element.line, f"{where}.axis.xyz", "zero vector; expected a direction"
+                )
+            else:
+                axis = np.array(values) / axis_length
+    lower, upper, velocity = _parse_limit(problems, element, kind, where)
+    return _JointSpec(
+        name=name,
+        kind=kind,
+        line=element.line,
+        parent=links["parent"],
+        child=links["child"],
+        origin=origin,
+        axis=axis,
+        axis_length=axis_length,
+        lower=lower,
+        upper=upper,
+        velocity=velocity,
+        has_mimic=element.find("mimic") is not None,
+    )
+
+
+def _listed(names: list[str]) -> str:
+    shown = ", ".join(names[:_LISTED_NAMES])
+    return shown + (f", ... ({len(names)} in all)" if len(names) > _LISTED_NAMES else "")
+
+
+def _unknown_link(problems: _Problems, role: str, name: str, links: dict[str, _LinkSpec]) -> None:
+    close = difflib.get_close_matches(name, list(links), n=1)
+    hint = f" (did you mean {close[0]!r}?)" if close else ""
+    problems.add(0, role, f"unknown link {name!r}{hint}; links: {_listed(list(links))}")
+
+
+def _select_chain(
+    problems: _Problems,
+    links: dict[str, _LinkSpec],
+    joints: list[_JointSpec],
+    base_link: str | None,
+    tip_link: str | None,
+) -> tuple[str, str, list[_JointSpec]]:
+    """Joints from the base link down to the tip link (the URDF tree checked on the way)."""
+    parent_joint: dict[str, _JointSpec] = {}
+    children: dict[str, list[_JointSpec]] = {name: [] for name in links}
+    for joint in joints:
+        for role, link in (("parent", joint.parent), ("child", joint.child)):
+            if link not in links:
+                problems.add(
+                    joint.line, f"joint[{joint.name}].{role}", f"link {link!r} is not declared"
+                )
+        if joint.child in parent_joint:
+            other = parent_joint[joint.child]
+            problems.add(
+                joint.line,
+                f"joint[{joint.name}]",
+                f"link {joint.child!r} already has parent joint {other.name!r} (line {other.line}):"
+                " closed kinematic loops are not supported",
+            )
+            continue
+        parent_joint[joint.child] = joint
+        if joint.parent in children:
+            children[joint.parent].append(joint)
+    if problems.items:
+        raise RobotDescriptionError(problems.items)
+    roots = [name for name in links if name not in parent_joint]
+    if len(roots) != 1:
+        message = (
+            f"several root links ({_listed(roots)}); a URDF is one tree"
+            if roots
+            else "no root link: the joints form a cycle"
+        )
+        problems.add(0, "robot", message)
+        raise RobotDescriptionError(problems.items)
+    base = base_link if base_link is not None else roots[0]
+    if base not in links:
+        _unknown_link(problems, "base_link", base, links)
+    if tip_link is not None and tip_link not in links:
+        _unknown_link(problems, "tip_link", tip_link, links)
+    if problems.items:
+        raise RobotDescriptionError(problems.items)
+    if tip_link is None:
+        leaves: list[str] = []
+        stack = [base]
+        while stack:
+            link = stack.pop()
+            below = children[link]
+            if not below and link != base:
+                leaves.append(link)
+            stack.extend(joint.child for joint in below)
+        if len(leaves) != 1:
+            reason = "has no links below it" if not leaves else "has several leaf links below it"
+            problems.add(
+                0,
+                "tip_link",
+                f"base link {base!r} {reason}; choose the tip link"
+                + (f" among: {_listed(sorted(leaves))}" if leaves else ""),
+            )
+            raise RobotDescriptionError(problems.items)
+        tip = leaves[0]
+    else:
+        tip = tip_link
+    chain: list[_JointSpec] = []
+    link = tip
+    seen = {tip}
+    while link != base:
+        if link not in parent_joint:
+            problems.add(0, "tip_link", f"tip link {tip!r} is not below base link {base!r}")
+            raise RobotDescriptionError(problems.items)
+        joint = parent_joint[link]
+        chain.append(joint)
+        link = joint.parent
+        if link in seen:
+            problems.add(joint.line, f"joint[{joint.name}]", "the joints form a cycle")
+            raise RobotDescriptionError(problems.items)
+        seen.add(link)
+    chain.reverse()
+    return base, tip, chain
+
+
+def _capsules_of_link(
+    link: _LinkSpec, index: int, T_internal_link: FloatArray, notes: dict[str, list[str]]
+) -> list[Capsule]:
+    """Capsules of one URDF link's collisions, in internal link frame ``index``."""
+    capsules = []
+    for collision in link.collisions:
+        if collision.kind not in ("cylinder", "capsule", "sphere"):
+            notes["ignored_geometry"].append(f"{collision.kind} on {link.name}")
+            continue
+        if collision.kind == "cylinder":
+            notes["cylinders"].append(link.name)
+        T = T_internal_link @ collision.origin
+        half = np.array([0.0, 0.0, 0.5 * collision.length])
+        start = T[:3, :3] @ -half + T[:3, 3]
+        end = T[:3, :3] @ half + T[:3, 3]
+        capsules.append(Capsule(collision.name, index, start, end, collision.radius))
+    return capsules
+
+
+def parse_robot_urdf(
+    text: str | bytes,
+    path: str = "<string>",
+    base_link: str | None = None,
+    tip_link: str | None = None,
+    *,
+    kind: str = "urdf",
+) -> Robot:
+    """Build a :class:`Robot` from URDF text: the serial chain from ``base_link`` to ``tip_link``.
+
+    Parameters
+    ----------
+    text : str or bytes
+        The URDF document (bytes keep the encoding named in the XML declaration).
+    path : str
+        File name used in messages and stored as :attr:`Robot.source`.
+    base_link, tip_link : str, optional
+        Chain ends; default the root link and the single leaf below the base.
+    kind : str, keyword-only
+        Family label stored as :attr:`Robot.kind`.
+
+    Returns
+    -------
+    Robot
+        Joints in chain order, flange = tip link frame, tool = identity,
+        remarks in :attr:`Robot.notes`.
+
+    Raises
+    ------
+    RobotDescriptionError
+        Malformed XML or URDF, unsupported joints on the chain, unknown or
+        ambiguous chain ends; every problem as ``file:line: field: message``.
+    """
+    data = text.encode("utf-8") if isinstance(text, str) else text
+    root = _read_xml(data, path)
+    problems = _Problems(path)
+    if root.tag != "robot":
+        problems.add(root.line, "robot", f"root element must be <robot>, got <{root.tag}>")
+        raise RobotDescriptionError(problems.items)
+    if any(element.tag.startswith("xacro:") for element in root.walk()):
+        problems.add(root.line, "robot", "contains xacro macros; expand the file with xacro first")
+        raise RobotDescriptionError(problems.items)
+    name = root.attrib.get("name", "").strip()
+    if not name:
+        problems.add(root.line, "robot.name", "missing name attribute on <robot>")
+
+    links: dict[str, _LinkSpec] = {}
+    for element in root.findall("link"):
+        link = _parse_link(problems, element)
+        if link is None:
+            continue
+        if link.name in links:
+            problems.add(
+                link.line,
+                f"link[{link.name}]",
+                f"duplicate link name (first on line {links[link.name].line})",
+            )
+            continue
+        links[link.name] = link
+    joints: list[_JointSpec] = []
+    joint_lines: dict[str, int] = {}
+    for element in root.findall("joint"):
+        joint = _parse_joint(problems, element)
+        if joint is None:
+            continue
+        if joint.name in joint_lines:
+            problems.add(
+                joint.line,
+                f"joint[{joint.name}]",
+                f"duplicate joint name (first on line {joint_lines[joint.name]})",
+            )
+            continue
+        joint_lines[joint.name] = joint.line
+        joints.append(joint)
+    if not links:
+        problems.add(root.line, "robot", "no <link> elements")
+    if problems.items:
+        raise RobotDescriptionError(problems.items)
+
+    base, tip, chain = _select_chain(problems, links, joints, base_link, tip_link)
+    for joint in chain:
+        where = f"joint[{joint.name}]"
+        if joint.kind in ("floating", "planar"):
+            problems.add(
+                joint.line,
+                f"{where}.type",
+                f"{joint.kind} joints are not supported in a serial arm chain",
+            )
+        if joint.has_mimic:
+            problems.add(
+                joint.line, f"{where}.mimic", "mimic joints are not supported in the chain"
+            )
+    moving = [joint for joint in chain if joint.kind in _MOVING_TYPES]
+    if not moving and not problems.items:
+        problems.add(0, "robot", f"no moving joint between base link {base!r} and tip link {tip!r}")
+    if problems.items:
+        raise RobotDescriptionError(problems.items)
+
+    notes: dict[str, list[str]] = {"ignored_geometry": [], "cylinders": []}
+    robot_joints: list[Joint] = []
+    capsules = _capsules_of_link(links[base], 0, np.eye(4), notes)
+    T_pending = np.eye(4)
+    for joint in chain:
+        if joint.kind == "fixed":
+            T_pending = T_pending @ joint.origin
+            capsules += _capsules_of_link(links[joint.child], len(robot_joints), T_pending, notes)
+            continue
+        joint_kind: JointKind = "prismatic" if joint.kind == "prismatic" else "revolute"
+        robot_joints.append(
+            Joint(
+                name=joint.name,
+                kind=joint_kind,
+                origin=T_pending @ joint.origin,
+                axis=joint.axis,
+                lower=joint.lower,
+                upper=joint.upper,
+                velocity_max=joint.velocity,
+                acceleration_max=DEFAULT_ACCELERATION_PER_S * joint.velocity,
+                continuous=joint.kind == "continuous",
+            )
+        )
+        T_pending = np.eye(4)
+        capsules += _capsules_of_link(links[joint.child], len(robot_joints), T_pending, notes)
+
+    return Robot(
+        name=name,
+        kind=kind,
+        joints=tuple(robot_joints),
+        T_link_flange=T_pending,
+        T_flange_tool=np.eye(4),
+        capsules=tuple(capsules),
+        description=f"Imported from URDF: chain {base} -> {tip}",
+        source=path,
+        notes=_notes(root, chain, joints, notes),
+    )
+
+
+def _notes(
+    root: _Element, chain: list[_JointSpec], joints: list[_JointSpec], notes: dict[str, list[str]]
+) -> tuple[str, ...]:
+    """Non-fatal remarks about what the import assumed or left out."""
+    out = [
+        "URDF has no acceleration limits: each joint's acceleration limit is set to "
+        f"{DEFAULT_ACCELERATION_PER_S:g} x its velocity limit per second"
+    ]
+    for joint in chain:
+        if joint.kind in _MOVING_TYPES and abs(joint.axis_length - 1.0) > _AXIS_TOLERANCE:
+            out.append(
+                f"joint {joint.name!r}: axis of length {joint.axis_length:.6g} normalised to unit length"
+            )
+    meshes = [m.attrib.get("filename", "") for m in root.walk() if m.tag == "mesh"]
+    if meshes:
+        out.append(
+            f"{len(meshes)} mesh reference(s) ignored (meshes are not loaded): {_listed(meshes)}"
+        )
+    if notes["cylinders"]:
+        out.append(
+            "collision cylinders turned into capsules of the same radius and length (an "
+            "approximation: the capsule adds a half-sphere at each end) on links: "
+            + _listed(sorted(set(notes["cylinders"])))
+        )
+    if notes["ignored_geometry"]:
+        out.append(
+            "collision geometry without a capsule equivalent ignored: "
+            + _listed(notes["ignored_geometry"])
+        )
+    on_chain = {joint.name for joint in chain}
+    off_chain = [j.name for j in joints if j.name not in on_chain]
+    if off_chain:
+        out.append(f"joints outside the selected chain ignored: {_listed(off_chain)}")
+    return tuple(out)
 
 
 def load_robot_urdf(
-    path: str | Path, base_link: str | None = None, tip_link: str | None = None
+    path: str | Path,
+    base_link: str | None = None,
+    tip_link: str | None = None,
+    *,
+    kind: str = "urdf",
 ) -> Robot:
-    raise NotImplementedError
+    """Load the serial chain of a URDF file (at most :data:`MAX_URDF_BYTES`).
+
+    See :func:`parse_robot_urdf` for the parameters and the rules.
+    """
+    path = Path(path)
+    try:
+        size = path.stat().st_size
+        if size > MAX_URDF_BYTES:
+            raise RobotDescriptionError(
+                [f"{path}: file is {size} bytes; URDF files are limited to {MAX_URDF_BYTES}"]
+            )
+        data = path.read_bytes()
+    except OSError as error:
+        raise RobotDescriptionError([f"{path}: cannot read: {error.strerror or error}"]) from error
+    return parse_robot_urdf(data, str(path), base_link, tip_link, kind=kind)
+
+
+# ------------------------------------------------------------------------ export
+
+
+def _number_text(values: FloatArray | list[float]) -> str:
+    """Shortest text that reads back as the same float64 values."""
+    return " ".join(repr(float(v) + 0.0) for v in np.ravel(values))  # + 0.0 turns -0.0 into 0.0
+
+
+def _origin_element(T: FloatArray) -> str:
+    rpy = rpy_from_rotation_matrix(T[:3, :3])
+    return f'<origin xyz="{_number_text(T[:3, 3])}" rpy="{_number_text(rpy)}"/>'
+
+
+def _capsule_collision(capsule: Capsule) -> str:
+    """A capsule as URDF collision: a cylinder along its segment, or a sphere if it has none."""
+    segment = capsule.end - capsule.start
+    length = float(np.linalg.norm(segment))
+    centre = 0.5 * (capsule.start + capsule.end)
+    if length == 0.0:
+        geometry = f'<sphere radius="{_number_text([capsule.radius])}"/>'
+        R = np.eye(3)
+    else:
+        direction = segment / length
+        # rotation taking z onto the segment direction (about z x direction)
+        normal = np.cross([0.0, 0.0, 1.0], direction)
+        sin_angle = float(np.linalg.norm(normal))
+        angle = math.atan2(sin_angle, float(direction[2]))
+        axis = normal / sin_angle if sin_angle > 1e-12 else np.array([1.0, 0.0, 0.0])
+        R = rotation_matrix_about_axis(axis, angle)
+        geometry = (
+            f'<cylinder radius="{_number_text([capsule.radius])}" '
+            f'length="{_number_text([length])}"/>'
+        )
+    T = np.eye(4)
+    T[:3, :3] = R
+    T[:3, 3] = centre
+    return (
+        f"    <collision name={quoteattr(capsule.name)}>\n"
+        f"      {_origin_element(T)}\n"
+        f"      <geometry>{geometry}</geometry>\n"
+        "    </collision>\n"
+    )
+
+
+def _unique(name: str, taken: set[str]) -> str:
+    while name in taken:
+        name += "_"
+    taken.add(name)
+    return name
+
+
+def urdf_from_robot(robot: Robot) -> str:
+    """URDF text of a robot: links ``base``, ``link_<joint>``, ``flange``, ``tool``.
+
+    Joint origins are written as xyz + fixed-axis rpy, capsules as collision
+    cylinders (spheres for zero-length capsules). URDF has no acceleration
+    limits, so they are lost; ``effort`` is written as 0 (unknown).
+    Importing the result with ``tip_link="flange"`` gives back the same
+    kinematics and capsules (with ``tool`` as tip, the tool becomes the flange).
+
+    Parameters
+    ----------
+    robot : Robot
+
+    Returns
+    -------
+    urdf : str
+    """
+    link_names = ["base"] + [f"link_{joint.name}" for joint in robot.joints]
+    taken = {joint.name for joint in robot.joints}
+    flange_mount = _unique("flange_mount", taken)
+    tool_mount = _unique("tool_mount", taken)
+    by_link: dict[int, list[Capsule]] = {}
+    for capsule in robot.capsules:
+        by_link.setdefault(capsule.link, []).append(capsule)
+    parts = [
+        '<?xml version="1.0"?>\n',
+        f"<!-- {robot.dof}-joint robot exported by posebridge; SI units; "
+        "acceleration limits are not part of URDF -->\n",
+        f"<robot name={quoteattr(robot.name)}>\n",
+    ]
+    for index, link in enumerate(link_names):
+        collisions = "".join(_capsule_collision(c) for c in by_link.get(index, []))
+        parts.append(
+            f"  <link name={quoteattr(link)}>\n{collisions}  </link>\n"
+            if collisions
+            else f"  <link name={quoteattr(link)}/>\n"
+        )
+    parts += ['  <link name="flange"/>\n', '  <link name="tool"/>\n']
+    for index, joint in enumerate(robot.joints):
+        kind = "continuous" if joint.continuous else joint.kind
+        bounds = (
+            ""
+            if joint.continuous
+            else f'lower="{_number_text([joint.lower])}" upper="{_number_text([joint.upper])}" '
+        )
+        parts.append(
+            f"  <joint name={quoteattr(joint.name)} type={quoteattr(kind)}>\n"
+            f"    <parent link={quoteattr(link_names[index])}/>\n"
+            f"    <child link={quoteattr(link_names[index + 1])}/>\n"
+            f"    {_origin_element(joint.origin)}\n"
+            f'    <axis xyz="{_number_text(joint.axis)}"/>\n'
+            f'    <limit {bounds}velocity="{_number_text([joint.velocity_max])}" effort="0"/>\n'
+            "  </joint>\n"
+        )
+    for mount, parent, child, T in (
+        (flange_mount, link_names[-1], "flange", robot.T_link_flange),
+        (tool_mount, "flange", "tool", robot.T_flange_tool),
+    ):
+        parts.append(
+            f'  <joint name={quoteattr(mount)} type="fixed">\n'
+            f"    <parent link={quoteattr(parent)}/>\n"
+            f'    <child link="{child}"/>\n'
+            f"    {_origin_element(T)}\n"
+            "  </joint>\n"
+        )
+    parts.append("</robot>\n")
+    return "".join(parts)
