@@ -1,0 +1,770 @@
+"""The result of inverse kinematics, shared by every IK solver (analytic and numerical).
+
+For ``N`` target poses a solver returns :class:`IkSolutions` with ``M``
+solution slots per pose. Every slot holds one joint configuration (or NaN when
+empty), whether it reaches the pose within the requested tolerance
+(``valid``), whether it is inside the joint limits, its arm branch labels and
+the whole extra turns of joints whose range exceeds one revolution.
+
+Slots in each row are sorted: valid and within limits first, then valid but
+outside limits, then empty; inside each group by the weighted joint distance
+to the seed when a seed was given, otherwise by a stable branch order (front
+before back, up/left before down/right, positive before negative, then fewer
+turns). :func:`finish_solutions` turns raw candidates of any solver into this
+form (turn variants, limit flags, order); the numba row kernel
+:func:`finish_row` does the same inside the analytic kernels.
+
+Turn variants: a revolute joint value ``v`` is first wrapped to (-pi, pi];
+``turns = k`` means ``v + 2 pi k`` is stored. Without ``all_turns`` each
+candidate appears once with the ``k`` nearest the seed among the values inside
+the limits (nearest zero without a seed; the value nearest the range when no
+turn fits). With ``all_turns`` every in-limit ``k`` of every joint gives its
+own slot. Continuous joints have no limits: only the nearest turn is given.
+
+Seed distance: ``sum_j ((q_j - seed_j) / v_max_j)^2``, the squared joint
+distance weighted by each joint's speed limit, so that metres and radians are
+comparable (a time-like measure; common practice, no source).
+
+Branch label values (see :mod:`posebridge.kinematics.branches` for the
+definitions in words): ``+1`` front / up (left for planar arms) / positive,
+``-1`` back / down (right) / negative, ``0`` not applicable or undefined
+(singular).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numba as nb
+import numpy as np
+import numpy.typing as npt
+
+from posebridge.kinematics.fk import PARALLEL_THRESHOLD, KinematicsInputError
+from posebridge.robot.model import Robot
+from posebridge.units import BoolArray, FloatArray
+
+__all__ = [
+    "JOINT_CONTINUOUS",
+    "JOINT_PRISMATIC",
+    "JOINT_REVOLUTE",
+    "LABEL_SCHEMES",
+    "REASON_CODES",
+    "REASON_NO_WITHIN_LIMITS",
+    "REASON_ORIENTATION",
+    "REASON_OUT_OF_REACH",
+    "IkSolutions",
+    "Int8Array",
+    "Int16Array",
+    "check_seed",
+    "check_target_poses",
+    "finish_row",
+    "finish_solutions",
+    "joint_modes",
+    "joint_weights",
+    "reasons_from_codes",
+    "slots_per_candidate",
+    "turn_variant_counts",
+]
+
+Int8Array = npt.NDArray[np.int8]
+Int16Array = npt.NDArray[np.int16]
+
+REASON_OUT_OF_REACH = "out of reach"
+REASON_ORIENTATION = "orientation not reachable"
+REASON_NO_WITHIN_LIMITS = "outside joint limits on every branch"
+REASON_CODES = ("", REASON_OUT_OF_REACH, REASON_ORIENTATION, REASON_NO_WITHIN_LIMITS)
+"""Reason text by code: 0 solved, 1 out of reach, 2 orientation not reachable,
+3 valid only outside the joint limits. Kernels write codes, :func:`reasons_from_codes`
+turns them into text."""
+
+JOINT_PRISMATIC = 0
+JOINT_REVOLUTE = 1
+JOINT_CONTINUOUS = 2
+
+_TWO_PI = 2.0 * np.pi
+_TURN_SLACK = 1e-12
+"""Turns (fractions of 2 pi) by which a value may pass a limit and still count as inside."""
+
+LABEL_SCHEMES = ("arm", "planar", "none")
+"""``"arm"``: shoulder front/back, elbow up/down, wrist positive/negative (six- and
+seven-axis arms); ``"planar"``: elbow left/right only (planar arms, SCARA);
+``"none"``: no branches (gantry)."""
+
+_SHOULDER_WORDS = {1: "front", -1: "back", 0: "shoulder on axis 1"}
+_ELBOW_WORDS = {1: "up", -1: "down", 0: "elbow in line"}
+_PLANAR_ELBOW_WORDS = {1: "left", -1: "right", 0: "elbow in line"}
+_WRIST_WORDS = {1: "positive", -1: "negative", 0: "wrist straight"}
+
+
+@dataclass(frozen=True, eq=False)
+class IkSolutions:
+    """All IK solutions for N target poses, M solution slots per pose (SI units).
+
+    Attributes
+    ----------
+    q : array, shape (N, M, n)
+        Joint values (rad or m); NaN in empty slots.
+    valid : array of bool, shape (N, M)
+        The slot holds a solution that reaches the pose within tolerance (on
+        the controlled pose components, see ``ignored_components``).
+    within_limits : array of bool, shape (N, M)
+        The solution is inside every joint's position limits (False for empty
+        slots).
+    shoulder : array of int8, shape (N, M)
+        +1 front, -1 back, 0 not applicable or undefined (singular).
+    elbow : array of int8, shape (N, M)
+        +1 up, -1 down (planar arms and SCARA: +1 left, -1 right), 0 not
+        applicable or undefined.
+    wrist : array of int8, shape (N, M)
+        +1 positive, -1 negative, 0 not applicable or singular.
+    turns : array of int16, shape (N, M, n)
+        Whole extra turns (multiples of 2 pi) added to joints whose range
+        exceeds one revolution, relative to the value wrapped to (-pi, pi].
+    reason : tuple of str, length N
+        ``""`` where a valid solution within limits exists, otherwise why not:
+        ``"out of reach"``, ``"orientation not reachable"``, ``"outside joint
+        limits on every branch"`` or a solver-specific explanation.
+    ignored_components : tuple of str
+        Pose components the arm does not control (from ``"x", "y", "z",
+        "roll", "pitch", "yaw"``), e.g. ``("z", "roll", "pitch")`` for a
+        planar 2R arm in the x-y plane.
+    method : str
+        Solver and published method, e.g. ``"analytic: ortho-parallel,
+        Brandstötter et al. 2014"``.
+    joint_names : tuple of str
+        Joint names for labels; ``j1..jn`` when empty.
+    label_scheme : str
+        One of :data:`LABEL_SCHEMES`; decides the words of :meth:`branch_label`.
+    """
+
+    q: FloatArray
+    valid: BoolArray
+    within_limits: BoolArray
+    shoulder: Int8Array
+    elbow: Int8Array
+    wrist: Int8Array
+    turns: Int16Array
+    reason: tuple[str, ...]
+    ignored_components: tuple[str, ...]
+    method: str
+    joint_names: tuple[str, ...] = ()
+    label_scheme: str = "arm"
+
+    def __post_init__(self) -> None:
+        if self.q.ndim != 3:
+            raise ValueError(f"IkSolutions.q: expected shape (N, M, n), got {self.q.shape}")
+        N, M, n = self.q.shape
+        for name in ("valid", "within_limits", "shoulder", "elbow", "wrist"):
+            shape = getattr(self, name).shape
+            if shape != (N, M):
+                raise ValueError(f"IkSolutions.{name}: expected shape {(N, M)}, got {shape}")
+        if self.turns.shape != (N, M, n):
+            raise ValueError(
+                f"IkSolutions.turns: expected shape {(N, M, n)}, got {self.turns.shape}"
+            )
+        if len(self.reason) != N:
+            raise ValueError(f"IkSolutions.reason: expected {N} entries, got {len(self.reason)}")
+        if self.joint_names and len(self.joint_names) != n:
+            raise ValueError(
+                f"IkSolutions.joint_names: expected {n} names, got {len(self.joint_names)}"
+            )
+        if self.label_scheme not in LABEL_SCHEMES:
+            raise ValueError(
+                f"IkSolutions.label_scheme: expected one of {LABEL_SCHEMES}, got {self.label_scheme!r}"
+            )
+
+    @property
+    def n_poses(self) -> int:
+        """Number of target poses ``N``."""
+        return int(self.q.shape[0])
+
+    @property
+    def n_slots(self) -> int:
+        """Number of solution slots per pose ``M``."""
+        return int(self.q.shape[1])
+
+    def branch_label(self, i: int, m: int) -> str:
+        """Plain-words branch of slot ``m`` of pose ``i``.
+
+        Examples: ``"front, up, positive"``, ``"back, down, negative, j6 +1 turn"``,
+        ``"left"`` (planar arm), ``"j4 -1 turn"`` (gantry). Empty slots give ``""``.
+        """
+        if not np.all(np.isfinite(self.q[i, m])):
+            return ""
+        words: list[str] = []
+        if self.label_scheme == "arm":
+            words.append(_SHOULDER_WORDS[int(self.shoulder[i, m])])
+            words.append(_ELBOW_WORDS[int(self.elbow[i, m])])
+            words.append(_WRIST_WORDS[int(self.wrist[i, m])])
+        elif self.label_scheme == "planar":
+            words.append(_PLANAR_ELBOW_WORDS[int(self.elbow[i, m])])
+        names = self.joint_names or tuple(f"j{k + 1}" for k in range(self.q.shape[2]))
+        for k, count in enumerate(self.turns[i, m]):
+            if count != 0:
+                plural = "" if abs(int(count)) == 1 else "s"
+                words.append(f"{names[k]} {int(count):+d} turn{plural}")
+        return ", ".join(words)
+
+    def valid_solutions(self, i: int) -> list[int]:
+        """Slot indices ``m`` of pose ``i`` that hold a valid solution, in stored order."""
+        return [int(m) for m in np.flatnonzero(self.valid[i])]
+
+
+def joint_modes(robot: Robot) -> Int8Array:
+    """Per-joint turn handling: :data:`JOINT_PRISMATIC`, :data:`JOINT_REVOLUTE` or :data:`JOINT_CONTINUOUS`.
+
+    Returns
+    -------
+    modes : array of int8, shape (n,)
+    """
+    modes = np.full(robot.dof, JOINT_REVOLUTE, dtype=np.int8)
+    modes[robot.continuous] = JOINT_CONTINUOUS
+    modes[robot.prismatic] = JOINT_PRISMATIC
+    return modes
+
+
+def joint_weights(robot: Robot) -> FloatArray:
+    """Seed-distance weights ``1 / v_max`` per joint (s/rad or s/m), shape (n,).
+
+    Joints without a positive finite speed limit get weight 1.
+    """
+    v = robot.velocity_max
+    ok = np.isfinite(v) & (v > 0.0)
+    return np.where(ok, 1.0 / np.where(ok, v, 1.0), 1.0)
+
+
+def turn_variant_counts(robot: Robot) -> npt.NDArray[np.int64]:
+    """Largest number of 2 pi variants of one joint value inside the limits, shape (n,).
+
+    ``floor((upper - lower) / 2 pi) + 1`` for limited revolute joints, 1 for
+    prismatic and continuous joints.
+    """
+    counts = np.ones(robot.dof, dtype=np.int64)
+    limited = joint_modes(robot) == JOINT_REVOLUTE
+    span = (robot.upper - robot.lower)[limited] / _TWO_PI
+    counts[limited] = np.floor(span + _TURN_SLACK).astype(np.int64) + 1
+    return counts
+
+
+def slots_per_candidate(robot: Robot, all_turns: bool) -> int:
+    """Output slots needed per raw candidate: 1, or the product of :func:`turn_variant_counts`."""
+    return int(np.prod(turn_variant_counts(robot))) if all_turns else 1
+
+
+def check_target_poses(T_base_tool: npt.ArrayLike) -> FloatArray:
+    """Validate target poses and return them as C-contiguous float64, shape (N, 4, 4).
+
+    Raises
+    ------
+    KinematicsInputError
+        Wrong shape, non-finite values, or a rotation block that is not orthonormal.
+    """
+    T = np.ascontiguousarray(T_base_tool, dtype=np.float64)
+    if T.ndim != 3 or T.shape[1:] != (4, 4):
+        raise KinematicsInputError(f"target poses: expected shape (N, 4, 4), got {T.shape}")
+    if not np.all(np.isfinite(T)):
+        raise KinematicsInputError("target poses: contain NaN or infinite values")
+    R = T[:, :3, :3]
+    deviation = np.abs(R @ np.swapaxes(R, -1, -2) - np.eye(3)).max(initial=0.0)
+    if deviation > 1e-6:
+        raise KinematicsInputError(
+            f"target poses: rotation blocks are not orthonormal (max |R R^T - I| = {deviation:.3g} > 1e-6)"
+        )
+    if np.any(np.linalg.det(R) < 0.0):
+        raise KinematicsInputError("target poses: a rotation block has determinant -1")
+    return T
+
+
+def check_seed(robot: Robot, seed: npt.ArrayLike | None, n_poses: int) -> tuple[FloatArray, bool]:
+    """Seed configurations broadcast to every pose.
+
+    Parameters
+    ----------
+    robot : Robot
+    seed : array-like, shape (n,) or (N, n), or None
+    n_poses : int
+        ``N``.
+
+    Returns
+    -------
+    seed : array, shape (N, n)
+        Zeros when no seed is given.
+    has_seed : bool
+    """
+    if seed is None:
+        return np.zeros((n_poses, robot.dof)), False
+    array = np.asarray(seed, dtype=np.float64)
+    if array.ndim == 1:
+        array = array[None, :]
+    if array.ndim != 2 or array.shape[1] != robot.dof or array.shape[0] not in (1, n_poses):
+        raise KinematicsInputError(
+            f"seed: expected shape ({robot.dof},) or ({n_poses}, {robot.dof}), got {np.shape(seed)}"
+        )
+    if not np.all(np.isfinite(array)):
+        raise KinematicsInputError("seed: contains NaN or infinite values")
+    return np.ascontiguousarray(np.broadcast_to(array, (n_poses, robot.dof))), True
+
+
+def reasons_from_codes(codes: npt.NDArray[np.int8]) -> tuple[str, ...]:
+    """Reason texts of :data:`REASON_CODES` for an array of codes, shape (N,)."""
+    return tuple(np.asarray(REASON_CODES, dtype=object)[codes].tolist())
+
+
+@nb.njit(cache=True, inline="always")
+def _wrap_angle(v):
+    """``v`` wrapped to (-pi, pi]."""
+    return v - 2.0 * np.pi * np.ceil((v - np.pi) / (2.0 * np.pi))
+
+
+@nb.njit(cache=True, inline="always")
+def _turn_bounds(base, lower, upper):
+    """Smallest and largest ``k`` with ``base + 2 pi k`` inside [lower, upper] (kmin > kmax if none)."""
+    two_pi = 2.0 * np.pi
+    kmin = np.ceil((lower - base) / two_pi - 1e-12)
+    kmax = np.floor((upper - base) / two_pi + 1e-12)
+    return int(kmin), int(kmax)
+
+
+@nb.njit(cache=True, inline="always")
+def _nearest_turn(base, seed, lower, upper, mode):
+    """Turn count ``k`` of the representative nearest ``seed`` (see module docstring)."""
+    two_pi = 2.0 * np.pi
+    k = int(np.floor((seed - base) / two_pi + 0.5))
+    if mode == 2:
+        return k
+    kmin, kmax = _turn_bounds(base, lower, upper)
+    if kmin <= kmax:
+        return min(max(k, kmin), kmax)
+    below = lower - (base + two_pi * kmax)
+    above = base + two_pi * kmin - upper
+    return kmax if below <= above else kmin
+
+
+@nb.njit(cache=True, inline="always")
+def _rank(label):
+    """Stable branch order of one label: +1 first, then 0, then -1."""
+    return 1 - label
+
+
+@nb.njit(cache=True, inline="always")
+def _slot_after(a, b, key, M):
+    """Slot code ``a`` sorts after ``b``: group (code >= M), then key, then index."""
+    group_a = a >= M
+    group_b = b >= M
+    if group_a != group_b:
+        return group_a
+    ia = a % M
+    ib = b % M
+    if key[ia] != key[ib]:
+        return key[ia] > key[ib]
+    return ia > ib
+
+
+@nb.njit(cache=True, inline="always")
+def finish_row(
+    q_raw,
+    ok_raw,
+    sh_raw,
+    el_raw,
+    wr_raw,
+    seed,
+    has_seed,
+    lower,
+    upper,
+    modes,
+    weights,
+    all_turns,
+    scratch_q,
+    scratch_turns,
+    scratch_labels,
+    scratch_key,
+    scratch_order,
+    out_q,
+    out_valid,
+    out_within,
+    out_sh,
+    out_el,
+    out_wr,
+    out_turns,
+):
+    """Turn variants, limit flags and slot order for the candidates of one pose.
+
+    ``q_raw`` (M0, n) holds raw candidates (revolute values in any turn),
+    ``ok_raw`` (M0,) marks those that reach the pose; ``sh_raw``, ``el_raw``,
+    ``wr_raw`` (M0,) are their branch labels. Outputs have ``M`` slots (M0, or
+    M0 times the product of turn variants with ``all_turns``); the scratch
+    arrays have shapes (M, n) float, (M, n) int16, (M, 3) int8, (M,) float and
+    (M,) int64. Returns 0 if a valid in-limit slot exists, 1 if valid slots
+    exist only outside the limits, 2 if no slot is valid.
+    """
+    n = q_raw.shape[1]
+    M = out_q.shape[0]
+    two_pi = 2.0 * np.pi
+    count = 0
+    for r in range(q_raw.shape[0]):
+        if not ok_raw[r]:
+            continue
+        n_variants = 1
+        if all_turns:
+            for j in range(n):
+                if modes[j] == 1:
+                    kmin, kmax = _turn_bounds(_wrap_angle(q_raw[r, j]), lower[j], upper[j])
+                    if kmax >= kmin:
+                        n_variants *= kmax - kmin + 1
+        for v in range(n_variants):
+            if count >= M:
+                break
+            code = v
+            within = True
+            total_turns = 0
+            for j in range(n):
+                value = q_raw[r, j]
+                k = 0
+                if modes[j] != 0:
+                    base = _wrap_angle(value)
+                    k = _nearest_turn(base, seed[j], lower[j], upper[j], modes[j])
+                    if all_turns and modes[j] == 1:
+                        kmin, kmax = _turn_bounds(base, lower[j], upper[j])
+                        if kmax >= kmin:
+                            width = kmax - kmin + 1
+                            k = kmin + code % width
+                            code //= width
+                    value = base + two_pi * k
+                if modes[j] != 2 and (value < lower[j] - 1e-12 or value > upper[j] + 1e-12):
+                    within = False
+                scratch_q[count, j] = value
+                scratch_turns[count, j] = k
+                total_turns += abs(k)
+            scratch_labels[count, 0] = sh_raw[r]
+            scratch_labels[count, 1] = el_raw[r]
+            scratch_labels[count, 2] = wr_raw[r]
+            if has_seed:
+                distance = 0.0
+                for j in range(n):
+                    d = (scratch_q[count, j] - seed[j]) * weights[j]
+                    distance += d * d
+                secondary = distance
+            else:
+                secondary = (
+                    9.0 * _rank(sh_raw[r]) + 3.0 * _rank(el_raw[r]) + _rank(wr_raw[r])
+                ) * 1000.0 + total_turns
+            scratch_key[count] = secondary
+            scratch_order[count] = count if within else count + M
+            count += 1
+    # insertion sort by (group, key, index); in-limit slots are coded i, others i + M
+    for a in range(1, count):
+        item = scratch_order[a]
+        b = a - 1
+        while b >= 0 and _slot_after(scratch_order[b], item, scratch_key, M):
+            scratch_order[b + 1] = scratch_order[b]
+            b -= 1
+        scratch_order[b + 1] = item
+    status = 2
+    for m in range(M):
+        if m < count:
+            src = scratch_order[m] % M
+            within = scratch_order[m] < M
+            for j in range(n):
+                out_q[m, j] = scratch_q[src, j]
+                out_turns[m, j] = scratch_turns[src, j]
+            out_valid[m] = True
+            out_within[m] = within
+            out_sh[m] = scratch_labels[src, 0]
+            out_el[m] = scratch_labels[src, 1]
+            out_wr[m] = scratch_labels[src, 2]
+            if within:
+                status = 0
+            elif status == 2:
+                status = 1
+        else:
+            for j in range(n):
+                out_q[m, j] = np.nan
+                out_turns[m, j] = 0
+            out_valid[m] = False
+            out_within[m] = False
+            out_sh[m] = 0
+            out_el[m] = 0
+            out_wr[m] = 0
+    return status
+
+
+_FINISH_BLOCK = 256
+"""Poses per block of the parallel finishing driver (one scratch allocation per block)."""
+
+
+@nb.njit(cache=True, inline="always")
+def _finish_block(
+    start,
+    stop,
+    q_raw,
+    ok_raw,
+    labels_raw,
+    seed,
+    has_seed,
+    lower,
+    upper,
+    modes,
+    weights,
+    all_turns,
+    out_q,
+    out_valid,
+    out_within,
+    out_sh,
+    out_el,
+    out_wr,
+    out_turns,
+    status,
+):
+    M = out_q.shape[1]
+    n = out_q.shape[2]
+    scratch_q = np.empty((M, n))
+    scratch_turns = np.empty((M, n), dtype=np.int16)
+    scratch_labels = np.empty((M, 3), dtype=np.int8)
+    scratch_key = np.empty(M)
+    scratch_order = np.empty(M, dtype=np.int64)
+    for i in range(start, stop):
+        status[i] = finish_row(
+            q_raw[i],
+            ok_raw[i],
+            labels_raw[i, :, 0],
+            labels_raw[i, :, 1],
+            labels_raw[i, :, 2],
+            seed[i],
+            has_seed,
+            lower,
+            upper,
+            modes,
+            weights,
+            all_turns,
+            scratch_q,
+            scratch_turns,
+            scratch_labels,
+            scratch_key,
+            scratch_order,
+            out_q[i],
+            out_valid[i],
+            out_within[i],
+            out_sh[i],
+            out_el[i],
+            out_wr[i],
+            out_turns[i],
+        )
+
+
+@nb.njit(cache=True)
+def _finish_serial(
+    q_raw,
+    ok_raw,
+    labels_raw,
+    seed,
+    has_seed,
+    lower,
+    upper,
+    modes,
+    weights,
+    all_turns,
+    out_q,
+    out_valid,
+    out_within,
+    out_sh,
+    out_el,
+    out_wr,
+    out_turns,
+    status,
+):
+    _finish_block(
+        0,
+        q_raw.shape[0],
+        q_raw,
+        ok_raw,
+        labels_raw,
+        seed,
+        has_seed,
+        lower,
+        upper,
+        modes,
+        weights,
+        all_turns,
+        out_q,
+        out_valid,
+        out_within,
+        out_sh,
+        out_el,
+        out_wr,
+        out_turns,
+        status,
+    )
+
+
+@nb.njit(cache=True, parallel=True)
+def _finish_parallel(
+    q_raw,
+    ok_raw,
+    labels_raw,
+    seed,
+    has_seed,
+    lower,
+    upper,
+    modes,
+    weights,
+    all_turns,
+    out_q,
+    out_valid,
+    out_within,
+    out_sh,
+    out_el,
+    out_wr,
+    out_turns,
+    status,
+):
+    N = q_raw.shape[0]
+    n_blocks = (N + _FINISH_BLOCK - 1) // _FINISH_BLOCK
+    for b in nb.prange(n_blocks):
+        stop = min(N, (b + 1) * _FINISH_BLOCK)
+        _finish_block(
+            b * _FINISH_BLOCK,
+            stop,
+            q_raw,
+            ok_raw,
+            labels_raw,
+            seed,
+            has_seed,
+            lower,
+            upper,
+            modes,
+            weights,
+            all_turns,
+            out_q,
+            out_valid,
+            out_within,
+            out_sh,
+            out_el,
+            out_wr,
+            out_turns,
+            status,
+        )
+
+
+def finish_solutions(
+    robot: Robot,
+    q_raw: npt.ArrayLike,
+    ok: npt.ArrayLike,
+    *,
+    labels: tuple[npt.ArrayLike, npt.ArrayLike, npt.ArrayLike] | None = None,
+    seed: npt.ArrayLike | None = None,
+    all_turns: bool = False,
+    unreachable_reason: str | Sequence[str] = REASON_OUT_OF_REACH,
+    ignored_components: tuple[str, ...] = (),
+    method: str,
+    label_scheme: str = "arm",
+) -> IkSolutions:
+    """Build an :class:`IkSolutions` from raw IK candidates of any solver.
+
+    Applies the module's turn rule, flags joint limits, empties candidates
+    that do not reach the pose and orders the slots (module docstring).
+
+    Parameters
+    ----------
+    robot : Robot
+    q_raw : array-like, shape (N, M0, n)
+        Candidate configurations (SI); revolute values in any turn.
+    ok : array-like of bool, shape (N, M0)
+        The candidate reaches its pose within tolerance; others are dropped.
+    labels : (shoulder, elbow, wrist), each array-like of int8, shape (N, M0), optional
+        Branch labels; computed with
+        :func:`posebridge.kinematics.branches.label_branches` if omitted.
+    seed : array-like, shape (n,) or (N, n), optional
+    all_turns : bool
+        One slot per in-limit turn variant instead of one per candidate.
+    unreachable_reason : str or sequence of N str
+        Reason for poses without any valid candidate.
+    ignored_components, method, label_scheme
+        Copied into the result (see :class:`IkSolutions`).
+
+    Returns
+    -------
+    IkSolutions
+        ``M = M0 * slots_per_candidate(robot, all_turns)`` slots per pose.
+    """
+    q = np.ascontiguousarray(q_raw, dtype=np.float64)
+    if q.ndim != 3 or q.shape[2] != robot.dof:
+        raise KinematicsInputError(
+            f"candidates: expected shape (N, M0, {robot.dof}), got {q.shape}"
+        )
+    N, M0, n = q.shape
+    ok_array = np.ascontiguousarray(np.broadcast_to(np.asarray(ok, dtype=bool), (N, M0)))
+    ok_array = ok_array & np.all(np.isfinite(q), axis=2)
+    if labels is None:
+        from posebridge.kinematics.branches import label_branches
+
+        label_array = np.zeros((N, M0, 3), dtype=np.int8)
+        flat = q.reshape(N * M0, n)
+        keep = ok_array.reshape(N * M0)
+        if np.any(keep):
+            sh, el, wr = label_branches(robot, flat[keep])
+            label_array.reshape(N * M0, 3)[keep] = np.stack([sh, el, wr], axis=1)
+    else:
+        label_array = np.ascontiguousarray(
+            np.stack(
+                [np.broadcast_to(np.asarray(x, dtype=np.int8), (N, M0)) for x in labels], axis=2
+            )
+        )
+    seed_array, has_seed = check_seed(robot, seed, N)
+    M = M0 * slots_per_candidate(robot, all_turns)
+    out_q = np.empty((N, M, n))
+    out_valid = np.empty((N, M), dtype=bool)
+    out_within = np.empty((N, M), dtype=bool)
+    out_sh = np.empty((N, M), dtype=np.int8)
+    out_el = np.empty((N, M), dtype=np.int8)
+    out_wr = np.empty((N, M), dtype=np.int8)
+    out_turns = np.empty((N, M, n), dtype=np.int16)
+    status = np.empty(N, dtype=np.int8)
+    kernel = _finish_parallel if N >= PARALLEL_THRESHOLD else _finish_serial
+    kernel(
+        q,
+        ok_array,
+        label_array,
+        seed_array,
+        has_seed,
+        robot.lower,
+        robot.upper,
+        joint_modes(robot),
+        joint_weights(robot),
+        all_turns,
+        out_q,
+        out_valid,
+        out_within,
+        out_sh,
+        out_el,
+        out_wr,
+        out_turns,
+        status,
+    )
+    unreachable = (
+        [unreachable_reason] * N
+        if isinstance(unreachable_reason, str)
+        else list(unreachable_reason)
+    )
+    if len(unreachable) != N:
+        raise KinematicsInputError(
+            f"unreachable_reason: expected {N} entries, got {len(unreachable)}"
+        )
+    reason = tuple(
+        "" if code == 0 else REASON_NO_WITHIN_LIMITS if code == 1 else unreachable[i]
+        for i, code in enumerate(status.tolist())
+    )
+    return IkSolutions(
+        q=out_q,
+        valid=out_valid,
+        within_limits=out_within,
+        shoulder=out_sh,
+        elbow=out_el,
+        wrist=out_wr,
+        turns=out_turns,
+        reason=reason,
+        ignored_components=ignored_components,
+        method=method,
+        joint_names=robot.joint_names,
+        label_scheme=label_scheme,
+    )
