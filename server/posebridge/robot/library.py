@@ -1,7 +1,9 @@
 """Bundled robot library and the one entry point for loading a robot.
 
-``load_robot(spec)`` accepts a bundled robot name (``pb-arm6``) or a path to a
-``.toml`` (posebridge format) or ``.urdf`` file.
+``load_robot(spec)`` accepts a bundled robot name (``pb-arm6``), a path to a
+``.toml`` (posebridge format) or ``.urdf`` file, or the bare file name of a
+bundled description (``pb-arm6.urdf``) when no such file is in the working
+folder.
 """
 
 from __future__ import annotations
@@ -49,6 +51,12 @@ def bundled_robots() -> list[BundledRobot]:
 def load_robot(spec: str | Path) -> Robot:
     """Load a bundled robot by name, or a robot file by path (.toml or .urdf).
 
+    A bare file name (no folder) that does not exist in the working folder is
+    looked up in the bundled robots/ folder, so ``load_robot("pb-arm6.urdf")``
+    loads the bundled URDF version. URDF files load with their default chain
+    (root link to the single leaf); use
+    :func:`posebridge.robot.urdf.load_robot_urdf` to choose other links.
+
     Raises
     ------
     RobotDescriptionError
@@ -57,6 +65,9 @@ def load_robot(spec: str | Path) -> Robot:
     path = Path(spec)
     suffix = path.suffix.lower()
     if suffix in (".toml", ".urdf"):
+        bundled = data_folder("robots") / path.name
+        if not path.is_file() and path.name == str(spec) and bundled.is_file():
+            path = bundled
         if not path.is_file():
             raise RobotDescriptionError([f"{path}: no such robot file"])
         return load_robot_toml(path) if suffix == ".toml" else load_robot_urdf(path)

@@ -56,18 +56,32 @@ class _Problems:
     items: list[str] = field(default_factory=list)
 
     def add(
-        self, where: str, message: str, *, block: str = "", index: int = 0, key: str = ""
+        self, where: str, message: str, *, block: str | None = None, index: int = 0, key: str = ""
     ) -> None:
-        line = _find_line(self.text, block, index, key) if block else None
+        """Record a problem; ``block`` names the table it is in (``""`` for the top level)."""
+        line = _find_line(self.text, block, index, key) if block is not None else None
         location = f"{self.path}:{line}" if line else self.path
         self.items.append(f"{location}: {where}: {message}")
 
 
 def _find_line(text: str, table: str, index: int, key: str) -> int | None:
-    """1-based line of ``key`` inside the ``index``-th ``[table]``/``[[table]]`` block."""
-    header = re.compile(r"^\s*\[\[?\s*" + re.escape(table) + r"\s*\]\]?\s*(#.*)?$")
+    """1-based line of ``key`` inside the ``index``-th ``[table]``/``[[table]]`` block.
+
+    ``table == ""`` is the top level: the key before the first table header,
+    else the first header of a table named ``key``.
+    """
     any_header = re.compile(r"^\s*\[")
+    key_pattern = re.compile(r"(^|[\s{,.])" + re.escape(key) + r"\s*=")
     lines = text.splitlines()
+    if not table:
+        for number, line in enumerate(lines, start=1):
+            if any_header.match(line):
+                break
+            if key_pattern.search(line):
+                return number
+        named = re.compile(r"^\s*\[\[?\s*" + re.escape(key) + r"\s*[\].]")
+        return next((n for n, line in enumerate(lines, start=1) if named.match(line)), None)
+    header = re.compile(r"^\s*\[\[?\s*" + re.escape(table) + r"\s*\]\]?\s*(#.*)?$")
     starts = [i for i, line in enumerate(lines) if header.match(line)]
     if index >= len(starts):
         return None
@@ -77,9 +91,23 @@ def _find_line(text: str, table: str, index: int, key: str) -> int | None:
     for offset, line in enumerate(lines[start + 1 :], start=start + 1):
         if any_header.match(line):
             break
-        if re.search(r"(^|[\s{,])" + re.escape(key) + r"\s*=", line):
+        if key_pattern.search(line):
             return offset + 1
     return start + 1
+
+
+_UNIT_TOKENS = frozenset(
+    {"m", "mm", "cm", "um", "km", "in", "inch", "ft", "deg", "degree", "degrees"}
+    | {"rad", "radian", "radians", "s", "s2", "sec", "ms", "rpm", "turn", "turns"}
+)
+
+
+def _quantity(key: str) -> str:
+    """Key without its unit suffix: ``velocity_deg_s`` -> ``velocity``."""
+    tokens = key.split("_")
+    while len(tokens) > 1 and tokens[-1] in _UNIT_TOKENS:
+        tokens.pop()
+    return "_".join(tokens)
 
 
 def _unknown_keys(
@@ -93,10 +121,12 @@ def _unknown_keys(
     for key in mapping:
         if key in allowed:
             continue
-        stem = key.rsplit("_", 1)[0] if "_" in key else key
-        same_stem = [a for a in allowed if a.startswith(stem + "_") or a == stem]
-        if same_stem and key not in allowed:
-            message = f"unknown key {key!r}: wrong unit suffix, expected {sorted(same_stem)[0]!r}"
+        same_quantity = sorted(a for a in allowed if _quantity(a) == _quantity(key))
+        if same_quantity:
+            message = (
+                f"unknown key {key!r}: wrong unit suffix, expected {same_quantity[0]!r}"
+                " (lengths in mm, angles in deg, time in s)"
+            )
         else:
             close = difflib.get_close_matches(key, sorted(allowed), n=1)
             hint = f" (did you mean {close[0]!r}?)" if close else ""
@@ -160,7 +190,9 @@ def _parse_limits(
 ) -> tuple[float, float, float, float]:
     keys = _LIMIT_KEYS[kind]
     if not isinstance(table, dict):
-        problems.add(where, f"missing limits table; expected keys {', '.join(keys)}", **loc)
+        problems.add(
+            where, f"missing limits table; expected keys {', '.join(keys)}", key="limits", **loc
+        )
         return (0.0, 0.0, 1.0, 1.0)
     _unknown_keys(problems, table, keys, where, **loc)
     required = keys[2:] if continuous else keys
@@ -168,7 +200,7 @@ def _parse_limits(
     for key in keys:
         if key not in table:
             if key in required:
-                problems.add(f"{where}.{key}", f"missing limit {key!r}", **loc)
+                problems.add(f"{where}.{key}", f"missing limit {key!r}", key="limits", **loc)
             continue
         if continuous and key in keys[:2]:
             problems.add(
@@ -224,7 +256,10 @@ def _parse_joint(problems: _Problems, raw: Any, index: int, convention: str) -> 
     continuous = raw.get("continuous", False)
     if not isinstance(continuous, bool) or (continuous and kind != "revolute"):
         problems.add(
-            f"{where}.continuous", "expected true/false, and only for revolute joints", **loc
+            f"{where}.continuous",
+            f"expected true/false, and only for revolute joints, got {continuous!r}",
+            key="continuous",
+            **loc,
         )
         continuous = False
     limits = _parse_limits(problems, raw.get("limits"), kind, continuous, f"{where}.limits", **loc)
@@ -244,14 +279,17 @@ def _parse_joint(problems: _Problems, raw: Any, index: int, convention: str) -> 
         table = raw.get("dh")
         if not isinstance(table, dict):
             problems.add(
-                f"{where}.dh", f"missing dh row; expected keys {', '.join(sorted(_DH_KEYS))}", **loc
+                f"{where}.dh",
+                f"missing dh row; expected keys {', '.join(sorted(_DH_KEYS))}",
+                key="dh",
+                **loc,
             )
             return None
         _unknown_keys(problems, table, _DH_KEYS, f"{where}.dh", **loc)
         values: dict[str, float] = {}
         for key in sorted(_DH_KEYS):
             if key not in table:
-                problems.add(f"{where}.dh.{key}", f"missing DH value {key!r}", **loc)
+                problems.add(f"{where}.dh.{key}", f"missing DH value {key!r}", key="dh", **loc)
                 continue
             number = _number(problems, table[key], f"{where}.dh.{key}", key=key, **loc)
             if number is not None:
@@ -274,7 +312,9 @@ def _parse_joint(problems: _Problems, raw: Any, index: int, convention: str) -> 
             )
         origin = _pose(problems, raw.get("origin", {}), f"{where}.origin", _ORIGIN_KEYS, **loc)
         if "axis" not in raw:
-            problems.add(f"{where}.axis", "missing joint axis (unit vector [x, y, z])", **loc)
+            problems.add(
+                f"{where}.axis", "missing joint axis (unit vector [x, y, z])", key="axis", **loc
+            )
         else:
             vector = _vector3(problems, raw["axis"], f"{where}.axis", key="axis", **loc)
             if vector is not None:
@@ -293,16 +333,29 @@ def _parse_joint(problems: _Problems, raw: Any, index: int, convention: str) -> 
     return _JointSpec(name, kind, bool(continuous), origin, axis, dh, limits)
 
 
+@dataclass
+class _CapsuleSpec:
+    """A validated [[capsule]] table, still in the file's units and link frame."""
+
+    name: str
+    link: int
+    start_mm: FloatArray
+    end_mm: FloatArray
+    radius_mm: float
+
+
 def _parse_capsule(
-    problems: _Problems, raw: Any, index: int, link_index: dict[str, int], T_dh: list[FloatArray]
-) -> Capsule | None:
+    problems: _Problems, raw: Any, index: int, link_index: dict[str, int]
+) -> _CapsuleSpec | None:
     loc: dict[str, Any] = {"block": "capsule", "index": index}
     where = f"capsule[{index}]"
     if not isinstance(raw, dict):
         problems.add(where, "expected a [[capsule]] table", **loc)
         return None
     _unknown_keys(problems, raw, _CAPSULE_KEYS, where, **loc)
-    name = raw.get("name", f"capsule{index + 1}")
+    name = _string(
+        problems, raw.get("name", f"capsule{index + 1}"), f"{where}.name", key="name", **loc
+    )
     link_name = raw.get("link")
     if link_name not in link_index:
         problems.add(
@@ -311,20 +364,32 @@ def _parse_capsule(
             key="link",
             **loc,
         )
-        return None
     start = _vector3(problems, raw.get("start_mm"), f"{where}.start_mm", key="start_mm", **loc)
     end = _vector3(problems, raw.get("end_mm"), f"{where}.end_mm", key="end_mm", **loc)
     radius = _number(problems, raw.get("radius_mm"), f"{where}.radius_mm", key="radius_mm", **loc)
     if radius is not None and radius <= 0.0:
         problems.add(f"{where}.radius_mm", f"must be > 0, got {radius:g}", key="radius_mm", **loc)
         return None
-    if start is None or end is None or radius is None:
+    if (
+        name is None
+        or link_name not in link_index
+        or start is None
+        or end is None
+        or radius is None
+    ):
         return None
-    link = link_index[link_name]
-    T = T_dh[link - 1] if link > 0 else np.eye(4)
-    start_m = T[:3, :3] @ m_from_mm(start) + T[:3, 3]
-    end_m = T[:3, :3] @ m_from_mm(end) + T[:3, 3]
-    return Capsule(str(name), link, start_m, end_m, float(m_from_mm(radius)))
+    return _CapsuleSpec(name, link_index[link_name], start, end, radius)
+
+
+def _capsule_in_link_frame(spec: _CapsuleSpec, T_dh: list[FloatArray]) -> Capsule:
+    """Capsule in SI in the internal link frame (``T_dh``: convention link frame in it)."""
+    T = T_dh[spec.link - 1] if spec.link > 0 else np.eye(4)
+    start = T[:3, :3] @ m_from_mm(spec.start_mm) + T[:3, 3]
+    end = T[:3, :3] @ m_from_mm(spec.end_mm) + T[:3, 3]
+    return Capsule(spec.name, spec.link, start, end, float(m_from_mm(spec.radius_mm)))
+
+
+_TOML_ERROR_LINE = re.compile(r"^(?P<message>.*?)\s*\(at line (?P<line>\d+), column \d+\)$")
 
 
 def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
@@ -338,17 +403,24 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as error:
-        raise RobotDescriptionError([f"{path}: not valid TOML: {error}"]) from error
+        found = _TOML_ERROR_LINE.match(str(error))
+        location = f"{path}:{found['line']}" if found else path
+        reason = found["message"] if found else str(error)
+        raise RobotDescriptionError([f"{location}: toml: not valid TOML: {reason}"]) from error
     problems = _Problems(path, text)
-    _unknown_keys(problems, data, _TOP_KEYS, "")
+    _unknown_keys(problems, data, _TOP_KEYS, "", block="")
     version = data.get("schema_version", SCHEMA_VERSION)
     if version != SCHEMA_VERSION:
-        problems.add("schema_version", f"expected {SCHEMA_VERSION}, got {version!r}")
+        problems.add(
+            "schema_version",
+            f"expected {SCHEMA_VERSION}, got {version!r}",
+            block="",
+            key="schema_version",
+        )
     meta = data.get("robot")
     if not isinstance(meta, dict):
-        raise RobotDescriptionError(
-            [f"{path}: robot: missing [robot] table with name, kind, convention"]
-        )
+        problems.add("robot", "missing [robot] table with name, kind, convention")
+        raise RobotDescriptionError(problems.items)
     _unknown_keys(problems, meta, _ROBOT_KEYS, "robot", block="robot")
     name = _string(problems, meta.get("name"), "robot.name", block="robot", key="name")
     kind = _string(problems, meta.get("kind"), "robot.kind", block="robot", key="kind")
@@ -364,15 +436,36 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
 
     raw_joints = data.get("joint")
     if not isinstance(raw_joints, list) or not raw_joints:
-        problems.add("joint", "expected at least one [[joint]] table")
+        problems.add("joint", "expected at least one [[joint]] table", block="", key="joint")
         raise RobotDescriptionError(problems.items)
     specs = [_parse_joint(problems, raw, i, convention) for i, raw in enumerate(raw_joints)]
-    names = [s.name for s in specs if s is not None]
-    for duplicate in sorted({n for n in names if names.count(n) > 1}):
-        problems.add("joint", f"duplicate joint name {duplicate!r}")
+    raw_names = [
+        raw.get("name", f"j{i + 1}") if isinstance(raw, dict) else None
+        for i, raw in enumerate(raw_joints)
+    ]
+    for i, joint_name in enumerate(raw_names):
+        if joint_name is not None and joint_name in raw_names[:i]:
+            problems.add(
+                f"joint[{i}].name",
+                f"duplicate joint name {joint_name!r} (also joint[{raw_names.index(joint_name)}])",
+                block="joint",
+                index=i,
+                key="name",
+            )
     flange = _pose(problems, data.get("flange", {}), "flange", _ORIGIN_KEYS, block="flange")
-    tool_table = data.get("tool", {})
-    tool = _pose(problems, tool_table, "tool", _TOOL_KEYS, block="tool")
+    tool = _pose(problems, data.get("tool", {}), "tool", _TOOL_KEYS, block="tool")
+    link_index = {"base": 0} | {
+        str(joint_name): i + 1
+        for i, joint_name in enumerate(raw_names)
+        if isinstance(joint_name, str)
+    }
+    raw_capsules = data.get("capsule", [])
+    if not isinstance(raw_capsules, list):
+        problems.add("capsule", "expected [[capsule]] tables", block="", key="capsule")
+        raw_capsules = []
+    capsule_specs = [
+        _parse_capsule(problems, raw, i, link_index) for i, raw in enumerate(raw_capsules)
+    ]
     if problems.items or any(s is None for s in specs):
         raise RobotDescriptionError(problems.items)
     valid_specs = [s for s in specs if s is not None]
@@ -404,16 +497,6 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
         )
         for s, origin, axis in zip(valid_specs, origins, axes, strict=True)
     )
-    link_index = {"base": 0} | {s.name: i + 1 for i, s in enumerate(valid_specs)}
-    raw_capsules = data.get("capsule", [])
-    if not isinstance(raw_capsules, list):
-        problems.add("capsule", "expected [[capsule]] tables")
-        raw_capsules = []
-    capsules = [
-        _parse_capsule(problems, raw, i, link_index, T_dh) for i, raw in enumerate(raw_capsules)
-    ]
-    if problems.items:
-        raise RobotDescriptionError(problems.items)
     assert name is not None and kind is not None
     return Robot(
         name=name,
@@ -421,7 +504,7 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
         joints=joints,
         T_link_flange=flange,
         T_flange_tool=tool,
-        capsules=tuple(c for c in capsules if c is not None),
+        capsules=tuple(_capsule_in_link_frame(c, T_dh) for c in capsule_specs if c is not None),
         description=str(meta.get("description", "")),
         source=path,
     )
