@@ -437,6 +437,22 @@ def _select_chain(
         )
         problems.add(0, "robot", message)
         raise RobotDescriptionError(problems.items)
+    reached = {roots[0]}
+    stack = [roots[0]]
+    while stack:
+        for joint in children[stack.pop()]:
+            if joint.child not in reached:
+                reached.add(joint.child)
+                stack.append(joint.child)
+    cut_off = [name for name in links if name not in reached]
+    if cut_off:
+        problems.add(
+            0,
+            "robot",
+            f"links not below the root link {roots[0]!r} (their joints form a cycle): "
+            + _listed(cut_off),
+        )
+        raise RobotDescriptionError(problems.items)
     base = base_link if base_link is not None else roots[0]
     if base not in links:
         _unknown_link(problems, "base_link", base, links)
@@ -467,18 +483,13 @@ def _select_chain(
         tip = tip_link
     chain: list[_JointSpec] = []
     link = tip
-    seen = {tip}
-    while link != base:
+    while link != base:  # ends: every link is below the single root (checked above)
         if link not in parent_joint:
             problems.add(0, "tip_link", f"tip link {tip!r} is not below base link {base!r}")
             raise RobotDescriptionError(problems.items)
         joint = parent_joint[link]
         chain.append(joint)
         link = joint.parent
-        if link in seen:
-            problems.add(joint.line, f"joint[{joint.name}]", "the joints form a cycle")
-            raise RobotDescriptionError(problems.items)
-        seen.add(link)
     chain.reverse()
     return base, tip, chain
 
