@@ -213,6 +213,14 @@ def test_pool_workers_run_the_initializer(pool: LocalPoolExecutor) -> None:
     assert pool.map_chunks(os.getpid, [()] * 2)[0] != os.getpid()
 
 
+def test_serial_executor_runs_kernels_on_one_thread() -> None:
+    # one worker means one core: numba's per-thread count is 1 inside, restored after
+    before = numba.get_num_threads()
+    with SerialExecutor() as serial:
+        assert serial.map_chunks(numba.get_num_threads, [()]) == [1]
+    assert numba.get_num_threads() == before
+
+
 # --- factory and lifecycle --------------------------------------------------------------
 
 

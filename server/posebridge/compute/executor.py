@@ -36,8 +36,8 @@ Decisions
   present at connection time; numba's thread count there is the cluster's
   own setting (start Dask workers with ``NUMBA_NUM_THREADS=1`` if chunks are
   larger than :data:`posebridge.kinematics.fk.PARALLEL_THRESHOLD`).
-  The serial executor runs no initializer: it must not change the calling
-  process.
+  The serial executor runs no initializer (it must not change the calling
+  process) but runs numba kernels on one thread while it works.
 - **Scheduling.** At most ``2 * workers`` chunks are in flight, so workers
   stay busy while results come back, memory stays bounded and cancelling
   stops the scheduling of new chunks at once. ``progress(done, total)``
@@ -229,7 +229,12 @@ def _map_on_futures(
 
 
 class SerialExecutor:
-    """Runs the chunks one after another in the calling process (one worker)."""
+    """Runs the chunks one after another in the calling process (one worker).
+
+    While it runs, numba kernels use one thread (numba's thread count is
+    per calling thread and is restored afterwards), so it is a true
+    one-core baseline for speed-up figures.
+    """
 
     def __init__(self) -> None:
         self._closed = False
@@ -277,12 +282,17 @@ class SerialExecutor:
         _check_chunks(chunks)
         total = len(chunks)
         results = []
-        for done, chunk in enumerate(chunks):
-            if cancel is not None and cancel.is_set():
-                raise ComputationCancelled(done, total)
-            results.append(function(*chunk))
-            if progress is not None:
-                progress(done + 1, total)
+        threads = numba.get_num_threads()
+        numba.set_num_threads(1)
+        try:
+            for done, chunk in enumerate(chunks):
+                if cancel is not None and cancel.is_set():
+                    raise ComputationCancelled(done, total)
+                results.append(function(*chunk))
+                if progress is not None:
+                    progress(done + 1, total)
+        finally:
+            numba.set_num_threads(threads)
         return results
 
     def close(self) -> None:
