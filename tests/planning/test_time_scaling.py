@@ -350,7 +350,8 @@ def test_joint_move_synchronised_within_limits(data, n: int, jerk_limited: bool)
     # each joint within its own limits
     assert np.all(np.max(np.abs(samples.velocity), axis=0) <= v_max * (1 + 1e-12))
     assert np.all(np.max(np.abs(samples.acceleration), axis=0) <= a_max * (1 + 1e-12))
-    # straight line in joint space: q - q_start is parallel to q_end - q_start
+    # straight line in joint space: q - q_start is parallel to q_end - q_start (the move is
+    # defined as q_start + c s(t); common practice, no source)
     delta = q_end - q_start
     moved = samples.position - q_start
     cross = moved[:, :, None] * delta[None, None, :] - moved[:, None, :] * delta[None, :, None]
