@@ -1,0 +1,502 @@
+"""A cell resolved into world-frame SI arrays for computation.
+
+:func:`resolve_scene` loads the robot, composes every frame into the world
+(fixture parent chains, targets on fixtures, approach poses, waypoints) and
+packs the shapes into plain arrays:
+
+* boxes and keep-out zones: ``T_world`` (B, 4, 4) of the box centre frame and
+  ``half_extents`` (B, 3), m;
+* cylinders and the pedestal: ``T_world`` (C, 4, 4) of the centre frame, axis
+  along local z, ``radius`` (C,) and ``half_length`` (C,), m;
+* tool capsules in the flange frame: ``start``/``end`` (T, 3) and ``radius`` (T,), m.
+
+Poses compose as ``T_world_child = T_world_parent @ T_parent_child``
+(homogeneous transforms, Lynch & Park, Modern Robotics, sec. 3.3.1).
+All values are SI (m, rad); conversions go through :mod:`posebridge.units`
+and :mod:`posebridge.transforms`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Literal
+
+import numpy as np
+import numpy.typing as npt
+
+from posebridge.cell.model import (
+    BoxFixture,
+    Branch,
+    Cell,
+    CellFileError,
+    CylinderFixture,
+    MotionPath,
+)
+from posebridge.kinematics.fk import fk_tool
+from posebridge.robot.errors import RobotDescriptionError
+from posebridge.robot.library import load_robot
+from posebridge.robot.model import Robot
+from posebridge.robot.toml_format import parse_robot_toml
+from posebridge.transforms import transform_from_position_rpy
+from posebridge.units import BoolArray, FloatArray, joints_si_from_user, m_from_mm
+
+__all__ = [
+    "BoxSet",
+    "CapsuleSet",
+    "CylinderSet",
+    "ResolvedPath",
+    "Scene",
+    "TargetSet",
+    "WaypointSource",
+    "resolve_scene",
+]
+
+IntArray = npt.NDArray[np.int64]
+WaypointSource = Literal["target", "pose", "joints"]
+
+
+@dataclass(frozen=True, eq=False)
+class BoxSet:
+    """Oriented boxes, centred on their frames.
+
+    Attributes
+    ----------
+    names : tuple of str, length B
+    T_world : array, shape (B, 4, 4)
+        Pose of each box's centre frame in the world.
+    half_extents : array, shape (B, 3)
+        Half side lengths along the box's x, y, z, m.
+    """
+
+    names: tuple[str, ...]
+    T_world: FloatArray
+    half_extents: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class CylinderSet:
+    """Solid cylinders, centred on their frames, axis along local z.
+
+    Attributes
+    ----------
+    names : tuple of str, length C
+    T_world : array, shape (C, 4, 4)
+    radius : array, shape (C,)
+        m.
+    half_length : array, shape (C,)
+        Half the length along local z, m.
+    """
+
+    names: tuple[str, ...]
+    T_world: FloatArray
+    radius: FloatArray
+    half_length: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class CapsuleSet:
+    """Capsules (points within ``radius`` of a segment) in one frame.
+
+    Attributes
+    ----------
+    names : tuple of str, length T
+    start, end : array, shape (T, 3)
+        Segment end points, m.
+    radius : array, shape (T,)
+        m.
+    """
+
+    names: tuple[str, ...]
+    start: FloatArray
+    end: FloatArray
+    radius: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class TargetSet:
+    """Targets as world-frame tool poses.
+
+    Attributes
+    ----------
+    names : tuple of str, length K
+    fixtures : tuple of str, length K
+        Fixture each target is attached to (``"world"`` for none).
+    T_world_target : array, shape (K, 4, 4)
+        Required tool (TCP) pose in the world.
+    approach_offset : array, shape (K,)
+        Back-off distance along the target's tool z axis, m (0: none).
+    T_world_approach : array, shape (K, 4, 4)
+        ``T_world_target @ Trans(0, 0, -approach_offset)``.
+    branches : tuple of (Branch or None), length K
+        Required arm branch in plain words; ``None`` where any branch will do.
+    """
+
+    names: tuple[str, ...]
+    fixtures: tuple[str, ...]
+    T_world_target: FloatArray
+    approach_offset: FloatArray
+    T_world_approach: FloatArray
+    branches: tuple[Branch | None, ...]
+
+    def index(self, name: str) -> int:
+        """Position of the target called ``name`` (``KeyError`` if absent)."""
+        try:
+            return self.names.index(name)
+        except ValueError:
+            raise KeyError(name) from None
+
+
+@dataclass(frozen=True, eq=False)
+class ResolvedPath:
+    """One path with every waypoint resolved to a world-frame tool pose.
+
+    Attributes
+    ----------
+    name : str
+    sources : tuple of {"target", "pose", "joints"}, length W
+        How each waypoint was given.
+    target_index : array of int64, shape (W,)
+        Index into :attr:`Scene.targets`, -1 for pose and joint waypoints.
+    approach : array of bool, shape (W,)
+        The waypoint is its target's approach pose.
+    T_world_tool : array, shape (W, 4, 4)
+        Tool pose of every waypoint in the world; for joint waypoints the
+        forward kinematics of their joint values with the cell's tool.
+    q : array, shape (W, n)
+        Joint values (rad, m) where given, NaN elsewhere.
+    joints_given : array of bool, shape (W,)
+    linear : array of bool, shape (W,)
+        Linear move (else joint move) into the waypoint.
+    linear_speed : array, shape (W,)
+        m/s for linear moves, NaN for joint moves.
+    speed_percent : array, shape (W,)
+        Percent of the joints' velocity limits for joint moves, NaN for linear moves.
+    blend_radius : array, shape (W,)
+        m.
+    """
+
+    name: str
+    sources: tuple[WaypointSource, ...]
+    target_index: IntArray
+    approach: BoolArray
+    T_world_tool: FloatArray
+    q: FloatArray
+    joints_given: BoolArray
+    linear: BoolArray
+    linear_speed: FloatArray
+    speed_percent: FloatArray
+    blend_radius: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class Scene:
+    """A cell resolved for computation (SI units, world frame).
+
+    Attributes
+    ----------
+    cell : Cell
+        The source cell.
+    robot : Robot
+    T_world_base : array, shape (4, 4)
+        Robot base frame in the world (on top of the pedestal).
+    tool_name : str
+    T_flange_tool : array, shape (4, 4)
+        Tool (TCP) pose in the flange frame.
+    tool_capsules : CapsuleSet
+        Tool collision capsules in the flange frame.
+    fixture_names : tuple of str, length F
+        Every fixture in file order, frames included.
+    T_world_fixture : array, shape (F, 4, 4)
+    boxes : BoxSet
+        Box fixtures.
+    cylinders : CylinderSet
+        Cylinder fixtures.
+    keep_outs : BoxSet
+        Keep-out zones.
+    pedestal : CylinderSet
+        The pedestal under the robot (empty without one). Kept apart from the
+        fixtures because the robot's base links sit on it.
+    floor_height : float
+        World z of the floor, m.
+    targets : TargetSet
+    paths : tuple of ResolvedPath
+    """
+
+    cell: Cell
+    robot: Robot
+    T_world_base: FloatArray
+    tool_name: str
+    T_flange_tool: FloatArray
+    tool_capsules: CapsuleSet
+    fixture_names: tuple[str, ...]
+    T_world_fixture: FloatArray
+    boxes: BoxSet
+    cylinders: CylinderSet
+    keep_outs: BoxSet
+    pedestal: CylinderSet
+    floor_height: float
+    targets: TargetSet
+    paths: tuple[ResolvedPath, ...]
+
+
+def _pose_si(position_mm: npt.ArrayLike, rpy_deg: npt.ArrayLike) -> FloatArray:
+    """Transforms from positions (mm) and fixed-axis X-Y-Z rpy (deg), shape (..., 4, 4)."""
+    return transform_from_position_rpy(m_from_mm(position_mm), rpy_deg, degrees=True)
+
+
+def _translation_z(distance: npt.ArrayLike) -> FloatArray:
+    """Pure translations along z by ``distance`` (m), shape (..., 4, 4)."""
+    distance = np.asarray(distance, dtype=np.float64)
+    offset = np.zeros(distance.shape + (3,))
+    offset[..., 2] = distance
+    return transform_from_position_rpy(offset, np.zeros_like(offset))
+
+
+def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
+    """The cell's robot: bundled name, file relative to the cell file, or embedded TOML."""
+    source = cell.robot
+    try:
+        if source.name is not None:
+            return load_robot(source.name)
+        if source.toml is not None:
+            return parse_robot_toml(source.toml, "robot.toml")
+        assert source.file is not None
+        file = Path(source.file)
+        if not file.is_absolute():
+            if cell_path is None:
+                raise CellFileError(
+                    [
+                        f"robot.file: relative path {source.file!r} needs the cell file's folder; "
+                        "give cell_path or an absolute path"
+                    ]
+                )
+            file = Path(cell_path).parent / file
+        return load_robot(file)
+    except RobotDescriptionError as error:
+        if source.toml is not None:  # problems already start with "robot.toml:<line>"
+            raise CellFileError(error.problems) from error
+        field = "name" if source.name is not None else "file"
+        raise CellFileError([f"robot.{field}: {problem}" for problem in error.problems]) from error
+
+
+def _fixture_frames(cell: Cell) -> FloatArray:
+    """World poses of all fixtures through their parent chains, shape (F, 4, 4).
+
+    Level by level: fixtures without a parent first, then their children.
+    """
+    count = len(cell.fixtures)
+    if count == 0:
+        return np.zeros((0, 4, 4))
+    local = _pose_si(
+        [fixture.position_mm for fixture in cell.fixtures],
+        [fixture.rpy_deg for fixture in cell.fixtures],
+    )
+    index_of = {fixture.name: i for i, fixture in enumerate(cell.fixtures)}
+    parent = np.array(
+        [-1 if f.parent is None else index_of[f.parent] for f in cell.fixtures], dtype=np.int64
+    )
+    world = np.empty_like(local)
+    done = parent < 0
+    world[done] = local[done]
+    while not np.all(done):
+        ready = ~done & (parent >= 0) & done[np.maximum(parent, 0)]
+        if not np.any(ready):
+            raise CellFileError(["fixtures: parent chains form a cycle"])
+        world[ready] = world[parent[ready]] @ local[ready]
+        done = done | ready
+    return world
+
+
+def _box_set(names: list[str], T_world: FloatArray, size_mm: list[tuple[float, ...]]) -> BoxSet:
+    return BoxSet(
+        names=tuple(names),
+        T_world=T_world.reshape(-1, 4, 4),
+        half_extents=0.5 * m_from_mm(np.reshape(size_mm, (-1, 3))),
+    )
+
+
+def _resolve_targets(
+    cell: Cell, fixture_index: dict[str, int], T_world_fixture: FloatArray
+) -> TargetSet:
+    targets = cell.targets
+    frames = np.concatenate([T_world_fixture, np.eye(4)[None]])
+    world = len(T_world_fixture)
+    frame_index = [fixture_index.get(target.fixture, world) for target in targets]
+    T_frame_target = _pose_si(
+        np.reshape([target.position_mm for target in targets], (-1, 3)),
+        np.reshape([target.rpy_deg for target in targets], (-1, 3)),
+    )
+    T_world_target = frames[frame_index].reshape(-1, 4, 4) @ T_frame_target
+    offset = m_from_mm([target.approach_offset_mm for target in targets])
+    return TargetSet(
+        names=tuple(target.name for target in targets),
+        fixtures=tuple(target.fixture for target in targets),
+        T_world_target=T_world_target,
+        approach_offset=offset,
+        T_world_approach=T_world_target @ _translation_z(-offset),
+        branches=tuple(target.branch for target in targets),
+    )
+
+
+def _joint_count_problems(cell: Cell, robot: Robot) -> list[str]:
+    """Joint waypoints whose number of values differs from the robot's joints."""
+    return [
+        f"paths[{p}].waypoints[{w}].joints_deg: expected {robot.dof} values for robot "
+        f"{robot.name!r}, got {len(waypoint.joints_deg)}"
+        for p, path in enumerate(cell.paths)
+        for w, waypoint in enumerate(path.waypoints)
+        if waypoint.joints_deg is not None and len(waypoint.joints_deg) != robot.dof
+    ]
+
+
+def _resolve_path(
+    path: MotionPath,
+    robot: Robot,
+    T_world_base: FloatArray,
+    T_flange_tool: FloatArray,
+    targets: TargetSet,
+) -> ResolvedPath:
+    waypoints = path.waypoints
+    count = len(waypoints)
+    n = robot.dof
+    sources: list[WaypointSource] = []
+    target_index = np.full(count, -1, dtype=np.int64)
+    approach = np.array([wp.approach for wp in waypoints], dtype=bool)
+    T_world_tool = np.empty((count, 4, 4))
+    q = np.full((count, n), np.nan)
+    for w, waypoint in enumerate(waypoints):
+        if waypoint.target is not None:
+            sources.append("target")
+            k = targets.index(waypoint.target)
+            target_index[w] = k
+            table = targets.T_world_approach if waypoint.approach else targets.T_world_target
+            T_world_tool[w] = table[k]
+        elif waypoint.pose is not None:
+            sources.append("pose")
+            T_world_tool[w] = _pose_si(waypoint.pose.position_mm, waypoint.pose.rpy_deg)
+        else:
+            assert waypoint.joints_deg is not None  # exactly one kind, see Waypoint
+            sources.append("joints")
+            q[w] = joints_si_from_user(waypoint.joints_deg, robot.prismatic)
+    joints_given = np.array([source == "joints" for source in sources], dtype=bool)
+    if np.any(joints_given):
+        T_world_tool[joints_given] = T_world_base @ fk_tool(robot, q[joints_given], T_flange_tool)
+    linear = np.array([wp.motion == "linear" for wp in waypoints], dtype=bool)
+    return ResolvedPath(
+        name=path.name,
+        sources=tuple(sources),
+        target_index=target_index,
+        approach=approach,
+        T_world_tool=T_world_tool,
+        q=q,
+        joints_given=joints_given,
+        linear=linear,
+        linear_speed=m_from_mm(
+            [np.nan if wp.speed_mm_s is None else wp.speed_mm_s for wp in waypoints]
+        ),
+        speed_percent=np.array(
+            [np.nan if wp.speed_percent is None else wp.speed_percent for wp in waypoints],
+            dtype=np.float64,
+        ),
+        blend_radius=m_from_mm([wp.blend_mm for wp in waypoints]),
+    )
+
+
+def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
+    """Resolve a validated cell into world-frame SI arrays.
+
+    Parameters
+    ----------
+    cell : Cell
+    cell_path : str or Path, optional
+        The cell file; a relative ``robot.file`` is resolved against its folder.
+
+    Returns
+    -------
+    Scene
+
+    Raises
+    ------
+    CellFileError
+        The robot cannot be loaded, or a waypoint's joint values do not match
+        the robot's number of joints.
+    """
+    robot = _load_cell_robot(cell, None if cell_path is None else Path(cell_path))
+    problems = _joint_count_problems(cell, robot)
+    if problems:
+        raise CellFileError(problems)
+    base = cell.base
+    T_world_foot = _pose_si(base.position_mm, base.rpy_deg)
+    pedestal_height = float(m_from_mm(base.pedestal_height_mm))
+    T_world_base = T_world_foot @ _translation_z(pedestal_height)
+    if pedestal_height > 0.0 and base.pedestal_radius_mm is not None:
+        pedestal = CylinderSet(
+            names=("pedestal",),
+            T_world=(T_world_foot @ _translation_z(0.5 * pedestal_height))[None],
+            radius=m_from_mm([base.pedestal_radius_mm]),
+            half_length=np.array([0.5 * pedestal_height]),
+        )
+    else:
+        pedestal = CylinderSet((), np.zeros((0, 4, 4)), np.zeros(0), np.zeros(0))
+
+    tool = cell.tool
+    if tool is None:
+        tool_name = "robot default tool"
+        T_flange_tool = robot.T_flange_tool.copy()
+        capsules = CapsuleSet((), np.zeros((0, 3)), np.zeros((0, 3)), np.zeros(0))
+    else:
+        tool_name = tool.name
+        T_flange_tool = _pose_si(tool.tcp.position_mm, tool.tcp.rpy_deg)
+        capsules = CapsuleSet(
+            names=tuple(c.name for c in tool.capsules),
+            start=m_from_mm(np.reshape([c.start_mm for c in tool.capsules], (-1, 3))),
+            end=m_from_mm(np.reshape([c.end_mm for c in tool.capsules], (-1, 3))),
+            radius=m_from_mm([c.radius_mm for c in tool.capsules]),
+        )
+
+    T_world_fixture = _fixture_frames(cell)
+    fixture_index = {fixture.name: i for i, fixture in enumerate(cell.fixtures)}
+    boxes = [(i, f) for i, f in enumerate(cell.fixtures) if isinstance(f, BoxFixture)]
+    cylinders = [(i, f) for i, f in enumerate(cell.fixtures) if isinstance(f, CylinderFixture)]
+    box_set = _box_set(
+        [f.name for _, f in boxes],
+        T_world_fixture[[i for i, _ in boxes]],
+        [f.size_mm for _, f in boxes],
+    )
+    cylinder_set = CylinderSet(
+        names=tuple(f.name for _, f in cylinders),
+        T_world=T_world_fixture[[i for i, _ in cylinders]].reshape(-1, 4, 4),
+        radius=m_from_mm([f.radius_mm for _, f in cylinders]),
+        half_length=0.5 * m_from_mm([f.height_mm for _, f in cylinders]),
+    )
+    zones = cell.keep_outs
+    keep_outs = _box_set(
+        [zone.name for zone in zones],
+        _pose_si(
+            np.reshape([z.position_mm for z in zones], (-1, 3)),
+            np.reshape([z.rpy_deg for z in zones], (-1, 3)),
+        ),
+        [zone.size_mm for zone in zones],
+    )
+    targets = _resolve_targets(cell, fixture_index, T_world_fixture)
+    paths = tuple(
+        _resolve_path(path, robot, T_world_base, T_flange_tool, targets) for path in cell.paths
+    )
+    return Scene(
+        cell=cell,
+        robot=robot,
+        T_world_base=T_world_base,
+        tool_name=tool_name,
+        T_flange_tool=T_flange_tool,
+        tool_capsules=capsules,
+        fixture_names=tuple(fixture.name for fixture in cell.fixtures),
+        T_world_fixture=T_world_fixture,
+        boxes=box_set,
+        cylinders=cylinder_set,
+        keep_outs=keep_outs,
+        pedestal=pedestal,
+        floor_height=float(m_from_mm(cell.floor_height_mm)),
+        targets=targets,
+        paths=paths,
+    )
