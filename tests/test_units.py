@@ -50,7 +50,7 @@ def test_shapes_are_kept() -> None:
     assert np.ndim(m_from_mm(3)) == 0
 
 
-@settings(derandomize=True, max_examples=200, deadline=None)
+@settings(derandomize=True, max_examples=200, deadline=500)
 @given(value=finite)
 def test_round_trips(value: float) -> None:
     assert mm_from_m(m_from_mm(value)) == pytest.approx(value, rel=1e-15, abs=1e-300)

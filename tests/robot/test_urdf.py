@@ -444,10 +444,13 @@ def test_collision_geometry_to_capsules_and_notes() -> None:
     np.testing.assert_allclose(by_name["root"].start, [0, 0, 0.1])
     np.testing.assert_allclose(by_name["root"].end, [0, 0, 0.1])
     assert by_name["root"].link == 0 and by_name["root"].radius == 0.2
-    # cylinder along the collision frame's z, here turned onto x by pitch = 90 deg (URDF rpy)
+    # URDF specification: a cylinder is centred on its origin along z; pitch = 90 deg turns z
+    # onto x, so the 0.4 m axis runs from x = 0.1 - 0.2 to 0.1 + 0.2 (worked by hand)
     np.testing.assert_allclose(by_name["upper"].start, [-0.1, 0, 0], atol=1e-15)
     np.testing.assert_allclose(by_name["upper"].end, [0.3, 0, 0], atol=1e-15)
     assert by_name["upper"].link == 1
+    # <capsule radius length>: length of the cylindrical part, centred on the collision
+    # origin along its z axis (as for <cylinder>; common extension, from memory)
     np.testing.assert_allclose(by_name["grip"].start, [0, 0, 0.25])
     np.testing.assert_allclose(by_name["grip"].end, [0, 0, 0.35])
     notes = "\n".join(robot.notes)
