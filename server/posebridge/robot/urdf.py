@@ -185,7 +185,6 @@ class _CollisionSpec:
     origin: FloatArray
     radius: float
     length: float
-    filename: str
 
 
 @dataclass
@@ -279,7 +278,7 @@ def _parse_collision(
         if length < 0.0:
             problems.add(shape.line, f"{where}.{shape.tag}.length", f"must be >= 0, got {length:g}")
             return None
-    return _CollisionSpec(name, shape.tag, origin, radius, length, shape.attrib.get("filename", ""))
+    return _CollisionSpec(name, shape.tag, origin, radius, length)
 
 
 def _parse_link(problems: _Problems, element: _Element) -> _LinkSpec | None:
