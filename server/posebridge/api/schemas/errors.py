@@ -1,0 +1,31 @@
+"""The one error body every failing API call returns."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from pydantic import BaseModel, ConfigDict
+
+__all__ = ["ErrorMessage", "error_responses"]
+
+
+# Body of every 4xx/5xx answer.
+class ErrorMessage(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    detail: str
+
+
+_DESCRIPTIONS = {
+    403: "Not allowed on this server",
+    404: "Not found",
+    422: "Invalid request: the message names the field and what was expected",
+    500: "Internal error",
+}
+
+
+def error_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
+    """OpenAPI ``responses`` entries for the given error statuses."""
+    return {
+        status: {"model": ErrorMessage, "description": _DESCRIPTIONS[status]} for status in statuses
+    }

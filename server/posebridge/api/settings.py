@@ -1,0 +1,44 @@
+"""Server settings: one immutable object, built on first use, never at import."""
+
+from __future__ import annotations
+
+from functools import cache
+from pathlib import Path
+
+from pydantic import BaseModel, ConfigDict, Field
+
+__all__ = ["Settings", "get_settings"]
+
+
+class Settings(BaseModel):
+    """What one running posebridge server serves and allows.
+
+    Attributes
+    ----------
+    robot : str
+        Robot the page opens with: a bundled name or a .toml/.urdf path.
+    cell_path : Path or None
+        Cell file the server was started with, if any.
+    robot_cache_size : int
+        Loaded robots kept in memory (least recently used are dropped).
+    robot_paths_allowed : bool
+        Requests may name robot files by path; off when the server is shared
+        beyond this machine, so remote viewers cannot make it read local files.
+    warm_up : bool
+        Compile and run the kinematics kernels once at start-up, so the first
+        request from the page is as fast as the rest.
+    """
+
+    model_config = ConfigDict(frozen=True, extra="forbid")
+
+    robot: str = Field(default="pb-arm6", min_length=1, max_length=1000)
+    cell_path: Path | None = None
+    robot_cache_size: int = Field(default=8, ge=1, le=256)
+    robot_paths_allowed: bool = True
+    warm_up: bool = True
+
+
+@cache
+def get_settings() -> Settings:
+    """The default settings, built once on first call."""
+    return Settings()

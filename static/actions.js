@@ -1,0 +1,85 @@
+// Edits of the page state. Views call these; linking.js reacts to the
+// resulting state changes by asking the server for FK or IK.
+
+/**
+ * Actions bound to one store.
+ * @param {{store: ReturnType<import("./state.js").createStore>}} options
+ */
+export function createActions({ store }) {
+  const get = store.get;
+
+  function setTarget(target, { inputAt = performance.now() } = {}) {
+    store.update({ target, targetInputAt: inputAt }, { reason: "target" });
+  }
+
+  /** Move the target position by `steps` nudge steps along axis 0, 1 or 2 (x, y, z). */
+  function nudgeTarget(axis, steps, { inputAt = performance.now() } = {}) {
+    const { target, stepMm } = get();
+    if (!target) {
+      return;
+    }
+    const position = [...target.position_mm];
+    position[axis] += steps * stepMm;
+    setTarget({ ...target, position_mm: position }, { inputAt });
+  }
+
+  function setJoints(joints, { reason = "joints" } = {}) {
+    store.update({ joints }, { reason });
+  }
+
+  function setJoint(index, value) {
+    const joints = [...get().joints];
+    joints[index] = value;
+    setJoints(joints);
+  }
+
+  /** Take an IK solution: the arm moves onto it and follows its branch from now on. */
+  function selectSolution(solution) {
+    store.update(
+      { joints: [...solution.joints_deg], selectedBranch: solution.branch },
+      { reason: "solution" },
+    );
+  }
+
+  /** Put the target on the current tool pose. */
+  function targetFromTool() {
+    const { fk } = get();
+    if (fk) {
+      setTarget({ position_mm: [...fk.position_mm], rpy_deg: [...fk.rpy_deg] });
+    }
+  }
+
+  function setMapJoints(pair) {
+    store.update({ mapJoints: pair });
+  }
+
+  function setStep({ stepMm = get().stepMm, stepDeg = get().stepDeg } = {}) {
+    store.update({ stepMm, stepDeg });
+  }
+
+  function setSnap(snap) {
+    store.update({ snap });
+  }
+
+  function setFollow(follow) {
+    store.update({ follow });
+  }
+
+  function setStatus(level, message) {
+    store.update({ status: { level, message } });
+  }
+
+  return {
+    setTarget,
+    nudgeTarget,
+    setJoints,
+    setJoint,
+    selectSolution,
+    targetFromTool,
+    setMapJoints,
+    setStep,
+    setSnap,
+    setFollow,
+    setStatus,
+  };
+}

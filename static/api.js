@@ -1,0 +1,137 @@
+// The only module that talks to the server. Every call checks response.ok and
+// turns an error answer into an ApiError carrying the server's "detail" text.
+
+/** An answer with an error status; `detail` is the server's message. */
+export class ApiError extends Error {
+  constructor({ status, detail, path }) {
+    super(detail);
+    this.name = "ApiError";
+    this.status = status;
+    this.detail = detail;
+    this.path = path;
+  }
+}
+
+/**
+ * Client of the posebridge HTTP API.
+ * @param {{baseUrl?: string}} options
+ */
+export function createApiClient({ baseUrl = "" } = {}) {
+  async function request(path, { method = "GET", body = undefined, signal = undefined } = {}) {
+    let response;
+    try {
+      response = await fetch(baseUrl + path, {
+        method,
+        headers: body === undefined ? undefined : { "content-type": "application/json" },
+        body: body === undefined ? undefined : JSON.stringify(body),
+        signal,
+      });
+    } catch (error) {
+      if (error.name === "AbortError") {
+        throw error;
+      }
+      throw new ApiError({ status: 0, detail: `server not reachable (${error.message})`, path });
+    }
+    let payload = null;
+    try {
+      payload = await response.json();
+    } catch {
+      payload = null;
+    }
+    if (!response.ok) {
+      const detail =
+        payload && typeof payload.detail === "string"
+          ? payload.detail
+          : `${response.status} ${response.statusText}`.trim();
+      throw new ApiError({ status: response.status, detail, path });
+    }
+    return payload;
+  }
+
+  return {
+    health: () => request("/api/health"),
+    listRobots: () => request("/api/robots"),
+    robotModel: (robot) => request(`/api/robots/model?robot=${encodeURIComponent(robot)}`),
+    fk: (body, { signal } = {}) => request("/api/fk", { method: "POST", body, signal }),
+    ik: (body, { signal } = {}) => request("/api/ik", { method: "POST", body, signal }),
+  };
+}
+
+/**
+ * Latest-only request channel for interactive edits (drags, sliders).
+ *
+ * At most one request is in flight; edits arriving meanwhile replace each
+ * other, and only the newest is sent when the current one returns, no sooner
+ * than `minIntervalMs` after the previous send (about one display frame).
+ * Every request carries a sequence number: an answer older than one already
+ * applied is dropped, and `cancel()` aborts the request in flight.
+ *
+ * @param {{send: Function, onResult: Function, onError: Function, minIntervalMs?: number}} options
+ */
+export function createLatestChannel({ send, onResult, onError, minIntervalMs = 16 }) {
+  let sequence = 0;
+  let applied = 0;
+  let pending = null;
+  let inFlight = null;
+  let timer = null;
+  let lastSentAt = -Infinity;
+
+  function request(payload, meta = {}) {
+    sequence += 1;
+    pending = { payload, meta, sequence };
+    schedule();
+    return sequence;
+  }
+
+  function schedule() {
+    if (inFlight || timer !== null || pending === null) {
+      return;
+    }
+    const wait = lastSentAt + minIntervalMs - performance.now();
+    if (wait > 0) {
+      timer = setTimeout(() => {
+        timer = null;
+        schedule();
+      }, wait);
+      return;
+    }
+    flush();
+  }
+
+  async function flush() {
+    const job = pending;
+    pending = null;
+    const controller = new AbortController();
+    inFlight = controller;
+    lastSentAt = performance.now();
+    try {
+      const result = await send(job.payload, { signal: controller.signal });
+      if (!controller.signal.aborted && job.sequence > applied) {
+        applied = job.sequence;
+        onResult(result, job.meta, job.payload);
+      }
+    } catch (error) {
+      if (error.name !== "AbortError" && job.sequence > applied) {
+        applied = job.sequence;
+        onError(error, job.meta, job.payload);
+      }
+    } finally {
+      inFlight = null;
+      schedule();
+    }
+  }
+
+  function cancel() {
+    pending = null;
+    applied = sequence;
+    if (timer !== null) {
+      clearTimeout(timer);
+      timer = null;
+    }
+    if (inFlight) {
+      inFlight.abort();
+    }
+  }
+
+  return { request, cancel };
+}

@@ -1,0 +1,145 @@
+// Links the two halves: joint edits ask the server for forward kinematics,
+// target edits ask for inverse kinematics, and the arm follows the target on
+// the selected branch. Requests go through latest-only channels (api.js), so
+// a drag sends at most one request per frame and stale answers are dropped.
+
+import { createLatestChannel } from "./api.js";
+
+/** Squared distance between two joint vectors. */
+function jointDistance(a, b) {
+  return a.reduce((sum, value, i) => sum + (value - b[i]) ** 2, 0);
+}
+
+/** The solution to follow: same branch words nearest the current joints, else nothing. */
+export function followSolution({ solutions, branch, joints }) {
+  const candidates = solutions.filter((s) => s.branch === branch);
+  if (candidates.length === 0) {
+    return null;
+  }
+  return candidates.reduce((best, s) =>
+    jointDistance(s.joints_deg, joints) < jointDistance(best.joints_deg, joints) ? s : best,
+  );
+}
+
+/** The solution nearest the current joints (used to find the arm's own branch). */
+export function nearestSolution({ solutions, joints }) {
+  if (solutions.length === 0) {
+    return null;
+  }
+  return solutions.reduce((best, s) =>
+    jointDistance(s.joints_deg, joints) < jointDistance(best.joints_deg, joints) ? s : best,
+  );
+}
+
+function ikSummary(result) {
+  const total = result.solutions.length;
+  const within = result.solutions.filter((s) => s.within_limits).length;
+  if (total === 0) {
+    return { level: "warn", message: `Target not reachable: ${result.reason || "no solution"}` };
+  }
+  const ignored = result.ignored_components.length
+    ? `; not controlled: ${result.ignored_components.join(", ")}`
+    : "";
+  const level = within === 0 ? "warn" : "info";
+  return { level, message: `${total} solution${total === 1 ? "" : "s"}, ${within} within limits${ignored}` };
+}
+
+/**
+ * Wire the store to the server.
+ * @param {{store: object, actions: object, api: object}} options
+ * @returns {{loadRobot: (spec: string) => Promise<void>}}
+ */
+export function createLinking({ store, actions, api }) {
+  let targetFromNextFk = false;
+
+  const fkChannel = createLatestChannel({
+    send: (payload, options) => api.fk(payload, options),
+    onResult: (result, meta, payload) => {
+      const fk = { ...result.configurations[0], capsules: result.capsules, frameNames: result.frame_names };
+      store.update({ fk, fkJoints: payload.joints_deg }, { reason: "fk" });
+      if (targetFromNextFk) {
+        targetFromNextFk = false;
+        actions.targetFromTool();
+      }
+    },
+    onError: (error) => actions.setStatus("error", error.message),
+  });
+
+  const ikChannel = createLatestChannel({
+    send: (payload, options) => api.ik(payload, options),
+    onResult: (result, meta, payload) => {
+      const state = store.get();
+      store.update({ ik: { result, target: payload.pose, inputAt: meta.inputAt } }, { reason: "ik" });
+      const summary = ikSummary(result);
+      if (state.follow && result.solutions.length > 0) {
+        const chosen =
+          state.selectedBranch === null
+            ? nearestSolution({ solutions: result.solutions, joints: state.joints })
+            : followSolution({
+                solutions: result.solutions,
+                branch: state.selectedBranch,
+                joints: state.joints,
+              });
+        if (chosen) {
+          store.update(
+            { joints: [...chosen.joints_deg], selectedBranch: chosen.branch },
+            { reason: "follow" },
+          );
+        } else {
+          summary.level = "warn";
+          summary.message = `Target not reachable on branch "${state.selectedBranch}"; ${summary.message}`;
+        }
+      }
+      actions.setStatus(summary.level, summary.message);
+    },
+    onError: (error) => actions.setStatus("error", error.message),
+  });
+
+  store.subscribe(
+    (state) => {
+      if (state.robot && state.joints.length === state.robot.dof) {
+        fkChannel.request({ robot: state.robot.robot, joints_deg: state.joints });
+      }
+    },
+    { keys: ["joints"] },
+  );
+
+  store.subscribe(
+    (state) => {
+      if (state.robot && state.target) {
+        const payload = { robot: state.robot.robot, pose: state.target, seed_deg: state.joints };
+        ikChannel.request(payload, { inputAt: state.targetInputAt });
+      }
+    },
+    { keys: ["target"] },
+  );
+
+  async function loadRobot(spec) {
+    fkChannel.cancel();
+    ikChannel.cancel();
+    actions.setStatus("info", `Loading ${spec}…`);
+    try {
+      const robot = await api.robotModel(spec);
+      targetFromNextFk = true;
+      const mapJoints = robot.dof >= 3 ? [1, 2] : [0, Math.min(1, robot.dof - 1)];
+      store.update(
+        {
+          robot,
+          fk: null,
+          fkJoints: null,
+          ik: null,
+          target: null,
+          selectedBranch: null,
+          mapJoints,
+          joints: [...robot.home_joints],
+        },
+        { reason: "robot" },
+      );
+      actions.setStatus("info", `${robot.name}: ${robot.description}`);
+    } catch (error) {
+      actions.setStatus("error", error.message);
+    }
+  }
+
+  return { loadRobot };
+}

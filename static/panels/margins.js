@@ -1,0 +1,70 @@
+// Limit margin bars: where each joint sits in its range and how far it is from
+// the nearer limit, in the joint's unit.
+
+import { element } from "./fields.js";
+import { formatJoint } from "../units.js";
+
+const WARN_FRACTION = 0.1;
+
+/** "ok", "warn" (within 10 % of the range of a limit; common practice, no source) or "bad" (outside). */
+export function marginLevel(margin, span) {
+  if (margin === null) {
+    return "ok";
+  }
+  if (margin < 0) {
+    return "bad";
+  }
+  return margin / span < WARN_FRACTION ? "warn" : "ok";
+}
+
+/**
+ * @param {{container: HTMLElement, store: object}} options
+ */
+export function createMarginsPanel({ container, store }) {
+  const grid = element("div", { className: "pb-margins", attributes: { id: "margin-bars" } });
+  container.append(grid);
+
+  function render() {
+    const { robot, fk } = store.get();
+    if (!robot || !fk) {
+      return;
+    }
+    const values = store.get().fkJoints;
+    grid.replaceChildren(
+      ...robot.joints.flatMap((joint, index) => {
+        const span = joint.upper - joint.lower;
+        const margin = fk.limit_margins[index];
+        const level = marginLevel(margin, span);
+        const position = Math.min(1, Math.max(0, (values[index] - joint.lower) / span));
+        const track = element("div", {
+          className: "pb-track",
+          attributes: {
+            role: "meter",
+            "aria-label": `${joint.name} position in its range`,
+            "aria-valuemin": String(joint.lower),
+            "aria-valuemax": String(joint.upper),
+            "aria-valuenow": String(values[index]),
+          },
+        });
+        // the filled part spans from the nearer limit to the joint value
+        const fill = element("div", { className: "pb-fill", attributes: { "data-level": level } });
+        const nearLower = values[index] - joint.lower <= joint.upper - values[index];
+        fill.style.left = nearLower ? "0%" : `${100 * position}%`;
+        fill.style.width = nearLower ? `${100 * position}%` : `${100 * (1 - position)}%`;
+        const tick = element("div", { className: "pb-tick" });
+        tick.style.left = `calc(${100 * position}% - 1px)`;
+        track.append(fill, tick);
+        const text =
+          margin === null ? "no limit" : `${formatJoint(margin, joint.unit)}${margin < 0 ? " beyond" : ""}`;
+        return [
+          element("span", { text: joint.name }),
+          track,
+          element("span", { className: "pb-margin-text", text, attributes: { "data-level": level } }),
+        ];
+      }),
+    );
+  }
+
+  store.subscribe(render, { keys: ["robot", "fk"] });
+  return { render };
+}

@@ -1,0 +1,78 @@
+// Target pose panel: typed position (mm) and orientation (deg), nudge step,
+// snapping, and whether the arm follows the target.
+
+import { element, numberField, showValue } from "./fields.js";
+
+const STEPS_MM = [1, 5, 10, 25, 50, 100];
+const STEPS_DEG = [1, 5, 15, 45];
+const NAMES = ["x", "y", "z", "roll", "pitch", "yaw"];
+
+/**
+ * @param {{container: HTMLElement, store: object, actions: object}} options
+ */
+export function createTargetPanel({ container, store, actions }) {
+  const fields = NAMES.map((name, index) =>
+    numberField({
+      name,
+      unit: index < 3 ? "mm" : "deg",
+      id: `target-${name}`,
+      onCommit: (value) => {
+        const { target } = store.get();
+        if (!target) {
+          return;
+        }
+        const position = [...target.position_mm];
+        const rpy = [...target.rpy_deg];
+        if (index < 3) {
+          position[index] = value;
+        } else {
+          rpy[index - 3] = value;
+        }
+        actions.setTarget({ position_mm: position, rpy_deg: rpy });
+      },
+    }),
+  );
+
+  const stepMm = element("select", { attributes: { id: "step-mm", "aria-label": "Position step" } });
+  stepMm.append(...STEPS_MM.map((step) => new Option(`${step} mm`, String(step))));
+  stepMm.addEventListener("change", () => actions.setStep({ stepMm: Number(stepMm.value) }));
+  const stepDeg = element("select", { attributes: { id: "step-deg", "aria-label": "Angle step" } });
+  stepDeg.append(...STEPS_DEG.map((step) => new Option(`${step} deg`, String(step))));
+  stepDeg.addEventListener("change", () => actions.setStep({ stepDeg: Number(stepDeg.value) }));
+
+  const snap = element("input", { attributes: { type: "checkbox", id: "snap" } });
+  snap.addEventListener("change", () => actions.setSnap(snap.checked));
+  const follow = element("input", { attributes: { type: "checkbox", id: "follow" } });
+  follow.addEventListener("change", () => actions.setFollow(follow.checked));
+  const fromTool = element("button", { text: "Target ← tool", attributes: { type: "button", id: "target-from-tool" } });
+  fromTool.title = "Put the target on the current tool pose";
+  fromTool.addEventListener("click", () => actions.targetFromTool());
+
+  container.append(
+    element("div", { className: "pb-fields" }, fields.map((field) => field.label)),
+    element("div", { className: "pb-controls" }, [
+      element("label", { text: "Step " }, [stepMm]),
+      element("label", { text: "Angle step " }, [stepDeg]),
+      element("label", {}, [snap, " Snap drags to the step grid"]),
+      element("label", {}, [follow, " Arm follows the target"]),
+      fromTool,
+    ]),
+  );
+
+  function render() {
+    const { target, stepMm: mm, stepDeg: deg, snap: snapOn, follow: followOn } = store.get();
+    if (target) {
+      [...target.position_mm, ...target.rpy_deg].forEach((value, index) =>
+        showValue(fields[index].input, value, index < 3 ? 1 : 2),
+      );
+    }
+    stepMm.value = String(mm);
+    stepDeg.value = String(deg);
+    snap.checked = snapOn;
+    follow.checked = followOn;
+  }
+
+  store.subscribe(render, { keys: ["target", "stepMm", "stepDeg", "snap", "follow"] });
+  render();
+  return { render };
+}

@@ -1,0 +1,80 @@
+// The single store of the page: the robot, the current joint values, the
+// target pose (the selected waypoint), the latest kinematics answers and the
+// view choices. Views read it and subscribe; edits go through actions.js.
+
+/**
+ * State fields:
+ *   robots          library entries from /api/robots
+ *   robot           robot model from /api/robots/model (joints, limits, units, bounds)
+ *   joints          current joint values, boundary units (deg, mm)
+ *   fk              forward kinematics of `joints` (one FkConfiguration) or null
+ *   fkJoints        the joint values `fk` belongs to
+ *   target          {position_mm: [x, y, z], rpy_deg: [r, p, y]} or null
+ *   targetInputAt   performance.now() of the input event that last moved the target
+ *   ik              {result, target, inputAt} of the latest inverse kinematics answer, or null
+ *   selectedBranch  branch words of the solution the arm follows, or null
+ *   follow          the arm follows the target on the selected branch
+ *   mapJoints       [i, j]: joint indices on the joint map's horizontal and vertical axes
+ *   stepMm          nudge step and snapping grid for positions, mm
+ *   stepDeg         nudge step for angles, deg
+ *   snap            snap dragged positions to the step grid
+ *   status          {level: "info" | "warn" | "error", message}
+ */
+export function initialState() {
+  return {
+    robots: [],
+    robot: null,
+    joints: [],
+    fk: null,
+    fkJoints: null,
+    target: null,
+    targetInputAt: 0,
+    ik: null,
+    selectedBranch: null,
+    follow: true,
+    mapJoints: [0, 1],
+    stepMm: 10,
+    stepDeg: 5,
+    snap: false,
+    status: { level: "info", message: "Loading…" },
+  };
+}
+
+/**
+ * A store with subscribe/notify.
+ * @param {{initial: object}} options
+ */
+export function createStore({ initial }) {
+  let state = Object.freeze({ ...initial });
+  const listeners = new Set();
+
+  function get() {
+    return state;
+  }
+
+  /** Merge `patch`; listeners whose keys changed are called with (state, {changed, reason}). */
+  function update(patch, { reason = "" } = {}) {
+    const changed = Object.keys(patch).filter((key) => !Object.is(state[key], patch[key]));
+    if (changed.length === 0) {
+      return;
+    }
+    state = Object.freeze({ ...state, ...patch });
+    for (const listener of [...listeners]) {
+      if (listener.keys === null || listener.keys.some((key) => changed.includes(key))) {
+        listener.callback(state, { changed, reason });
+      }
+    }
+  }
+
+  /**
+   * Call `callback(state, info)` after updates touching `keys` (all updates when null).
+   * Returns the function that unsubscribes.
+   */
+  function subscribe(callback, { keys = null } = {}) {
+    const listener = { callback, keys };
+    listeners.add(listener);
+    return () => listeners.delete(listener);
+  }
+
+  return { get, update, subscribe };
+}

@@ -1,0 +1,43 @@
+// Units and number formatting at the page boundary: millimetres and degrees,
+// with the unit written beside every number shown.
+
+export const LENGTH_UNIT = "mm";
+export const ANGLE_UNIT = "deg";
+
+/** Fixed-decimal text of a number, "–" when missing or not finite. */
+export function formatNumber(value, { decimals = 1 } = {}) {
+  if (value === null || value === undefined || !Number.isFinite(value)) {
+    return "–";
+  }
+  const text = value.toFixed(decimals);
+  // avoid "-0.0"
+  return Number(text) === 0 ? (0).toFixed(decimals) : text;
+}
+
+/** "123.4 mm" */
+export function formatLength(valueMm, { decimals = 1 } = {}) {
+  return `${formatNumber(valueMm, { decimals })} ${LENGTH_UNIT}`;
+}
+
+/** "12.3 deg" */
+export function formatAngle(valueDeg, { decimals = 1 } = {}) {
+  return `${formatNumber(valueDeg, { decimals })} ${ANGLE_UNIT}`;
+}
+
+/** A joint value with its own unit ("deg" for revolute, "mm" for prismatic). */
+export function formatJoint(value, unit, { decimals = 1 } = {}) {
+  return `${formatNumber(value, { decimals })} ${unit}`;
+}
+
+/** Round to the nearest multiple of step (no change when step is not positive). */
+export function snapToStep(value, step) {
+  if (!(step > 0)) {
+    return value;
+  }
+  return Math.round(value / step) * step;
+}
+
+/** Clamp into [lower, upper]. */
+export function clamp(value, lower, upper) {
+  return Math.min(upper, Math.max(lower, value));
+}

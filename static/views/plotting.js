@@ -1,0 +1,141 @@
+// Shared plotly helpers for the 2D views: figure defaults and the conversion
+// between mouse position and data coordinates used by dragging.
+
+/* global Plotly */
+
+export const PLOT_CONFIG = Object.freeze({
+  displayModeBar: false,
+  responsive: true,
+  scrollZoom: false,
+  doubleClick: false,
+});
+
+const FONT = { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 12 };
+
+/** Layout of a 2D view with fixed ranges; plotly's own zoom and pan are off. */
+export function layout2d({ xTitle, yTitle, xRange, yRange, equalAspect = false, palette }) {
+  const axis = (title, range) => ({
+    title: { text: title, standoff: 4 },
+    range,
+    fixedrange: true,
+    zeroline: true,
+    zerolinecolor: palette.rule,
+    gridcolor: "#eceff2",
+    linecolor: palette.rule,
+    ticks: "outside",
+    ticklen: 3,
+    mirror: true,
+  });
+  const yaxis = axis(yTitle, yRange);
+  if (equalAspect) {
+    // equal scale on both axes; plotly widens the shorter range to fill the plot area
+    yaxis.scaleanchor = "x";
+    yaxis.scaleratio = 1;
+  }
+  const xaxis = axis(xTitle, xRange);
+  return {
+    margin: { l: 58, r: 12, t: 10, b: 42 },
+    xaxis,
+    yaxis,
+    dragmode: false,
+    hovermode: false,
+    showlegend: false,
+    font: FONT,
+    paper_bgcolor: "rgba(0,0,0,0)",
+    plot_bgcolor: "#fbfcfd",
+  };
+}
+
+/** The plot-area rectangle of a 2D figure, in client pixels. */
+function plotArea(figure) {
+  const cover = figure.querySelector(".nsewdrag");
+  if (cover) {
+    return cover.getBoundingClientRect();
+  }
+  const size = figure._fullLayout._size;
+  const box = figure.getBoundingClientRect();
+  return { left: box.left + size.l, top: box.top + size.t, width: size.w, height: size.h };
+}
+
+function ranges(figure) {
+  const full = figure._fullLayout;
+  return { x: full.xaxis.range, y: full.yaxis.range };
+}
+
+/**
+ * Data coordinates under a pointer event, and whether it is inside the plot area.
+ * @returns {{x: number, y: number, inside: boolean}}
+ */
+export function dataFromPointer(figure, event) {
+  const area = plotArea(figure);
+  const { x: xr, y: yr } = ranges(figure);
+  const u = (event.clientX - area.left) / area.width;
+  const v = (event.clientY - area.top) / area.height;
+  return {
+    x: xr[0] + u * (xr[1] - xr[0]),
+    y: yr[1] + v * (yr[0] - yr[1]),
+    inside: u >= 0 && u <= 1 && v >= 0 && v <= 1,
+  };
+}
+
+/** Client pixel position of a data point. */
+export function pointerFromData(figure, x, y) {
+  const area = plotArea(figure);
+  const { x: xr, y: yr } = ranges(figure);
+  return {
+    clientX: area.left + ((x - xr[0]) / (xr[1] - xr[0])) * area.width,
+    clientY: area.top + ((yr[1] - y) / (yr[1] - yr[0])) * area.height,
+  };
+}
+
+/**
+ * Pointer dragging on a 2D figure.
+ *
+ * `onPress(point, event)` decides whether a press starts a drag (return true);
+ * `onMove(point, event)` follows the pointer while pressed; `onRelease()` ends it.
+ * Points are data coordinates from dataFromPointer.
+ */
+export function attachDrag({ figure, onPress, onMove, onRelease = () => {} }) {
+  let dragging = false;
+  figure.addEventListener(
+    "pointerdown",
+    (event) => {
+      if (event.button !== 0 || !figure._fullLayout) {
+        return;
+      }
+      const point = dataFromPointer(figure, event);
+      if (!point.inside || !onPress(point, event)) {
+        return;
+      }
+      dragging = true;
+      figure.setPointerCapture(event.pointerId);
+      event.preventDefault();
+      event.stopPropagation();
+    },
+    { capture: true },
+  );
+  figure.addEventListener(
+    "pointermove",
+    (event) => {
+      if (dragging) {
+        onMove(dataFromPointer(figure, event), event);
+        event.stopPropagation();
+      }
+    },
+    { capture: true },
+  );
+  const end = (event) => {
+    if (dragging) {
+      dragging = false;
+      figure.releasePointerCapture(event.pointerId);
+      onRelease();
+    }
+  };
+  figure.addEventListener("pointerup", end, { capture: true });
+  figure.addEventListener("pointercancel", end, { capture: true });
+}
+
+/** Draw or redraw a figure (plotly diffing keeps it cheap). */
+export function draw(figure, data, layout) {
+  return Plotly.react(figure, data, layout, PLOT_CONFIG);
+}

@@ -1,0 +1,214 @@
+// A 2D orthographic view of the cell: plan (x-y, seen from above) or
+// elevation (x-z, seen from the -y side). The arm's capsules project to
+// stadium outlines; the target can be dragged, typed (target panel) or nudged
+// with the keyboard.
+
+import { attachDrag, draw, layout2d, pointerFromData } from "./plotting.js";
+import { frameScheduler } from "./frame.js";
+import { matrixFromRpyDeg, column } from "../rotation.js";
+import { snapToStep } from "../units.js";
+
+const AXIS_NAMES = ["x", "y", "z"];
+const GRAB_RADIUS_PX = 18;
+const STADIUM_STEPS = 10;
+const APPROACH_LENGTH_MM = 120;
+
+/**
+ * Outline of the orthographic projection of a capsule onto a plane: the
+ * projected segment swept by a disc of the capsule's radius (a "stadium").
+ */
+export function stadiumOutline([ax, ay], [bx, by], radius) {
+  const dx = bx - ax;
+  const dy = by - ay;
+  const heading = Math.hypot(dx, dy) > 1e-9 ? Math.atan2(dy, dx) : 0;
+  const xs = [];
+  const ys = [];
+  for (let k = 0; k <= STADIUM_STEPS; k += 1) {
+    const angle = heading - Math.PI / 2 + (Math.PI * k) / STADIUM_STEPS;
+    xs.push(bx + radius * Math.cos(angle));
+    ys.push(by + radius * Math.sin(angle));
+  }
+  for (let k = 0; k <= STADIUM_STEPS; k += 1) {
+    const angle = heading + Math.PI / 2 + (Math.PI * k) / STADIUM_STEPS;
+    xs.push(ax + radius * Math.cos(angle));
+    ys.push(ay + radius * Math.sin(angle));
+  }
+  xs.push(xs[0]);
+  ys.push(ys[0]);
+  return { xs, ys };
+}
+
+function paddedRange(lower, upper, pad) {
+  return [lower - pad, upper + pad];
+}
+
+/**
+ * @param {{element: HTMLElement, store: object, actions: object, palette: object,
+ *          axes: [number, number], depthAxis: number, viewerSide: 1 | -1}} options
+ *   axes: indices of the horizontal and vertical data axes (0 x, 1 y, 2 z);
+ *   depthAxis: the viewing direction's axis; viewerSide: the viewer sits on its
+ *   positive (1) or negative (-1) side. Farther capsules are drawn first.
+ */
+export function createProjectionView({ element, store, actions, palette, axes, depthAxis, viewerSide }) {
+  const [h, v] = axes;
+  const third = [0, 1, 2].find((k) => k !== h && k !== v);
+  let dragging = false;
+
+  function ranges(robot) {
+    const [low, high] = robot.bounds_mm;
+    const pad = 0.12 * Math.max(high[0] - low[0], high[1] - low[1], high[2] - low[2], 200);
+    return { x: paddedRange(low[h], high[h], pad), y: paddedRange(low[v], high[v], pad) };
+  }
+
+  function robotTraces(fk) {
+    const order = fk.capsule_segments_mm
+      .map((segment, index) => ({
+        index,
+        depth: (viewerSide * (segment[0][depthAxis] + segment[1][depthAxis])) / 2,
+      }))
+      .sort((a, b) => a.depth - b.depth);
+    const xs = [];
+    const ys = [];
+    for (const { index } of order) {
+      const [start, end] = fk.capsule_segments_mm[index];
+      const outline = stadiumOutline([start[h], start[v]], [end[h], end[v]], fk.capsules[index].radius_mm);
+      xs.push(...outline.xs, null);
+      ys.push(...outline.ys, null);
+    }
+    const frames = fk.frames_position_mm;
+    return [
+      {
+        name: "arm",
+        x: xs,
+        y: ys,
+        mode: "lines",
+        fill: "toself",
+        fillcolor: "rgba(143, 166, 184, 0.55)",
+        line: { color: palette["robot-edge"], width: 1 },
+        connectgaps: false,
+      },
+      {
+        name: "chain",
+        x: frames.map((p) => p[h]),
+        y: frames.map((p) => p[v]),
+        mode: "lines+markers",
+        line: { color: palette.ink, width: 1.5 },
+        marker: { size: 4, color: palette.ink },
+      },
+      {
+        name: "TCP",
+        x: [fk.position_mm[h]],
+        y: [fk.position_mm[v]],
+        mode: "markers",
+        marker: { size: 9, symbol: "circle-open", color: palette.tool, line: { width: 2 } },
+      },
+    ];
+  }
+
+  function targetTraces(target) {
+    const approach = column(matrixFromRpyDeg(target.rpy_deg), 2);
+    const [px, py] = [target.position_mm[h], target.position_mm[v]];
+    return [
+      {
+        name: "target approach",
+        x: [px, px + APPROACH_LENGTH_MM * approach[h]],
+        y: [py, py + APPROACH_LENGTH_MM * approach[v]],
+        mode: "lines",
+        line: { color: palette.target, width: 2, dash: "dot" },
+      },
+      {
+        name: "target",
+        x: [px],
+        y: [py],
+        mode: "markers",
+        marker: {
+          size: 15,
+          symbol: "diamond",
+          color: palette.target,
+          line: { color: "#ffffff", width: 1.5 },
+        },
+      },
+    ];
+  }
+
+  function render() {
+    const { robot, fk, target } = store.get();
+    if (!robot) {
+      return;
+    }
+    const range = ranges(robot);
+    const data = [];
+    if (fk && fk.capsules) {
+      data.push(...robotTraces(fk));
+    }
+    if (target) {
+      data.push(...targetTraces(target));
+    }
+    const layout = layout2d({
+      xTitle: `${AXIS_NAMES[h]} (mm)`,
+      yTitle: `${AXIS_NAMES[v]} (mm)`,
+      xRange: range.x,
+      yRange: range.y,
+      equalAspect: true,
+      palette,
+    });
+    layout.uirevision = robot.robot;
+    draw(element, data, layout);
+  }
+
+  const requestRender = frameScheduler({ render });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "target"] });
+
+  function movedTarget(point) {
+    const { target, snap, stepMm } = store.get();
+    const position = [...target.position_mm];
+    position[h] = snap ? snapToStep(point.x, stepMm) : point.x;
+    position[v] = snap ? snapToStep(point.y, stepMm) : point.y;
+    return { ...target, position_mm: position };
+  }
+
+  attachDrag({
+    figure: element,
+    onPress: (point, event) => {
+      const { target } = store.get();
+      if (!target) {
+        return false;
+      }
+      const marker = pointerFromData(element, target.position_mm[h], target.position_mm[v]);
+      const near =
+        Math.hypot(marker.clientX - event.clientX, marker.clientY - event.clientY) <= GRAB_RADIUS_PX;
+      if (near) {
+        dragging = true;
+        element.focus({ preventScroll: true });
+      }
+      return near;
+    },
+    onMove: (point, event) => {
+      if (dragging) {
+        actions.setTarget(movedTarget(point), { inputAt: event.timeStamp });
+      }
+    },
+    onRelease: () => {
+      dragging = false;
+    },
+  });
+
+  const KEYS = {
+    ArrowRight: [h, 1],
+    ArrowLeft: [h, -1],
+    ArrowUp: [v, 1],
+    ArrowDown: [v, -1],
+    PageUp: [third, 1],
+    PageDown: [third, -1],
+  };
+  element.addEventListener("keydown", (event) => {
+    const move = KEYS[event.key];
+    if (!move) {
+      return;
+    }
+    event.preventDefault();
+    actions.nudgeTarget(move[0], move[1] * (event.shiftKey ? 10 : 1), { inputAt: event.timeStamp });
+  });
+
+  return { render };
+}

@@ -1,0 +1,223 @@
+// The 3D cell view: the arm as capsule meshes, its kinematic chain, the tool
+// (TCP) and target triads, the base frame and the floor.
+
+import { draw } from "./plotting.js";
+import { frameScheduler } from "./frame.js";
+import { column, matrixFromQuaternion, matrixFromRpyDeg } from "../rotation.js";
+
+const RING_STEPS = 14;
+const CAP_RINGS = 3;
+const TRIAD_LENGTH_MM = 100;
+
+function sub(a, b) {
+  return [a[0] - b[0], a[1] - b[1], a[2] - b[2]];
+}
+
+function cross(a, b) {
+  return [a[1] * b[2] - a[2] * b[1], a[2] * b[0] - a[0] * b[2], a[0] * b[1] - a[1] * b[0]];
+}
+
+function normalized(a) {
+  const length = Math.hypot(...a);
+  return length > 1e-12 ? a.map((c) => c / length) : null;
+}
+
+/** Two unit vectors perpendicular to w and to each other. */
+function perpendicularPair(w) {
+  const helper = Math.abs(w[2]) < 0.9 ? [0, 0, 1] : [1, 0, 0];
+  const u = normalized(cross(w, helper));
+  return [u, cross(w, u)];
+}
+
+/**
+ * Triangle mesh of a capsule (cylinder with hemispherical caps) appended to
+ * `mesh` = {x, y, z, i, j, k}.
+ */
+export function appendCapsuleMesh(mesh, start, end, radius) {
+  const w = normalized(sub(end, start)) || [0, 0, 1];
+  const [u, v] = perpendicularPair(w);
+  // ring latitude angles from the start pole to the end pole
+  const rings = [];
+  for (let r = 0; r <= CAP_RINGS; r += 1) {
+    rings.push({ centre: start, angle: -Math.PI / 2 + (r * Math.PI) / (2 * CAP_RINGS) });
+  }
+  for (let r = 0; r <= CAP_RINGS; r += 1) {
+    rings.push({ centre: end, angle: (r * Math.PI) / (2 * CAP_RINGS) });
+  }
+  const first = mesh.x.length;
+  for (const { centre, angle } of rings) {
+    const along = radius * Math.sin(angle);
+    const across = radius * Math.cos(angle);
+    for (let s = 0; s < RING_STEPS; s += 1) {
+      const phi = (2 * Math.PI * s) / RING_STEPS;
+      const [c, d] = [Math.cos(phi) * across, Math.sin(phi) * across];
+      mesh.x.push(centre[0] + along * w[0] + c * u[0] + d * v[0]);
+      mesh.y.push(centre[1] + along * w[1] + c * u[1] + d * v[1]);
+      mesh.z.push(centre[2] + along * w[2] + c * u[2] + d * v[2]);
+    }
+  }
+  for (let r = 0; r < rings.length - 1; r += 1) {
+    for (let s = 0; s < RING_STEPS; s += 1) {
+      const a = first + r * RING_STEPS + s;
+      const b = first + r * RING_STEPS + ((s + 1) % RING_STEPS);
+      const c = a + RING_STEPS;
+      const d = b + RING_STEPS;
+      mesh.i.push(a, b);
+      mesh.j.push(b, d);
+      mesh.k.push(c, c);
+    }
+  }
+}
+
+function triadTraces({ origin, rotation, name, palette, dash = "solid", width = 5 }) {
+  const colours = [palette["axis-x"], palette["axis-y"], palette["axis-z"]];
+  return colours.map((colour, k) => {
+    const axis = column(rotation, k);
+    return {
+      type: "scatter3d",
+      mode: "lines",
+      name: `${name} ${"xyz"[k]}`,
+      x: [origin[0], origin[0] + TRIAD_LENGTH_MM * axis[0]],
+      y: [origin[1], origin[1] + TRIAD_LENGTH_MM * axis[1]],
+      z: [origin[2], origin[2] + TRIAD_LENGTH_MM * axis[2]],
+      line: { color: colour, width, dash },
+      hoverinfo: "skip",
+      showlegend: false,
+    };
+  });
+}
+
+function cubeRanges(bounds) {
+  const [low, high] = bounds;
+  const centre = [0, 1, 2].map((k) => (low[k] + high[k]) / 2);
+  const half = 0.6 * Math.max(high[0] - low[0], high[1] - low[1], high[2] - low[2], 400);
+  return centre.map((c) => [c - half, c + half]);
+}
+
+/**
+ * @param {{element: HTMLElement, store: object, palette: object}} options
+ */
+export function createSceneView({ element, store, palette }) {
+  function render() {
+    const { robot, fk, target } = store.get();
+    if (!robot) {
+      return;
+    }
+    const range = cubeRanges(robot.bounds_mm);
+    const floorZ = Math.min(0, robot.bounds_mm[0][2]);
+    const [fx, fy] = [range[0], range[1]];
+    const data = [
+      {
+        type: "mesh3d",
+        name: "floor",
+        x: [fx[0], fx[1], fx[1], fx[0]],
+        y: [fy[0], fy[0], fy[1], fy[1]],
+        z: [floorZ, floorZ, floorZ, floorZ],
+        i: [0, 0],
+        j: [1, 2],
+        k: [2, 3],
+        color: "#dfe5ea",
+        opacity: 0.5,
+        hoverinfo: "skip",
+        showlegend: false,
+      },
+      ...triadTraces({ origin: [0, 0, 0], rotation: matrixFromRpyDeg([0, 0, 0]), name: "base", palette, width: 3 }),
+    ];
+    if (fk && fk.capsules) {
+      const mesh = { x: [], y: [], z: [], i: [], j: [], k: [] };
+      fk.capsule_segments_mm.forEach(([start, end], index) =>
+        appendCapsuleMesh(mesh, start, end, fk.capsules[index].radius_mm),
+      );
+      const frames = fk.frames_position_mm;
+      data.push(
+        {
+          type: "mesh3d",
+          name: "arm",
+          ...mesh,
+          color: palette.robot,
+          opacity: 1,
+          flatshading: false,
+          lighting: { ambient: 0.55, diffuse: 0.7, specular: 0.15, roughness: 0.6 },
+          lightposition: { x: 2000, y: -3000, z: 5000 },
+          hoverinfo: "skip",
+          showlegend: false,
+        },
+        {
+          type: "scatter3d",
+          mode: "lines+markers",
+          name: "chain",
+          x: frames.map((p) => p[0]),
+          y: frames.map((p) => p[1]),
+          z: frames.map((p) => p[2]),
+          line: { color: palette.ink, width: 3 },
+          marker: { size: 2.5, color: palette.ink },
+          hoverinfo: "skip",
+          showlegend: false,
+        },
+        {
+          type: "scatter3d",
+          mode: "markers",
+          name: "TCP",
+          x: [fk.position_mm[0]],
+          y: [fk.position_mm[1]],
+          z: [fk.position_mm[2]],
+          marker: { size: 4, color: palette.tool },
+          hovertemplate: "TCP<br>x %{x:.1f} mm<br>y %{y:.1f} mm<br>z %{z:.1f} mm<extra></extra>",
+          showlegend: false,
+        },
+        ...triadTraces({ origin: fk.position_mm, rotation: matrixFromQuaternion(fk.quaternion_wxyz), name: "TCP", palette }),
+      );
+    }
+    if (target) {
+      data.push(
+        {
+          type: "scatter3d",
+          mode: "markers",
+          name: "target",
+          x: [target.position_mm[0]],
+          y: [target.position_mm[1]],
+          z: [target.position_mm[2]],
+          marker: { size: 6, symbol: "diamond", color: palette.target },
+          hovertemplate: "target<br>x %{x:.1f} mm<br>y %{y:.1f} mm<br>z %{z:.1f} mm<extra></extra>",
+          showlegend: false,
+        },
+        ...triadTraces({
+          origin: target.position_mm,
+          rotation: matrixFromRpyDeg(target.rpy_deg),
+          name: "target",
+          palette,
+          dash: "dash",
+          width: 3,
+        }),
+      );
+    }
+    const axis = (title, r) => ({
+      title: { text: title },
+      range: r,
+      backgroundcolor: "#f7f9fa",
+      gridcolor: "#dde3e8",
+      zerolinecolor: "#b9c3cb",
+      showspikes: false,
+    });
+    const layout = {
+      margin: { l: 0, r: 0, t: 0, b: 0 },
+      showlegend: false,
+      paper_bgcolor: "rgba(0,0,0,0)",
+      font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
+      uirevision: robot.robot,
+      scene: {
+        xaxis: axis("x (mm)", range[0]),
+        yaxis: axis("y (mm)", range[1]),
+        zaxis: axis("z (mm)", range[2]),
+        aspectmode: "cube",
+        camera: { eye: { x: 1.3, y: -1.45, z: 0.75 }, center: { x: 0, y: 0, z: -0.12 }, up: { x: 0, y: 0, z: 1 } },
+        uirevision: robot.robot,
+      },
+    };
+    draw(element, data, layout);
+  }
+
+  const requestRender = frameScheduler({ render });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "target"] });
+  return { render };
+}
