@@ -21,6 +21,7 @@ import numpy.typing as npt
 
 from posebridge.kinematics.chain_kernels import chain_step, write_pose
 from posebridge.robot.model import Robot
+from posebridge.transforms import TransformError, check_transform
 from posebridge.units import FloatArray
 
 __all__ = [
@@ -30,6 +31,7 @@ __all__ = [
     "fk_flange",
     "fk_frames",
     "fk_tool",
+    "tool_tail",
 ]
 
 PARALLEL_THRESHOLD = 2048
@@ -118,10 +120,23 @@ def _frames_parallel(q, table, prismatic, tail_flange, tail_tool, out):
         _frames_one(q[k], table, prismatic, tail_flange, tail_tool, out[k])
 
 
-def _tail(robot: Robot, T_flange_tool: npt.ArrayLike | None) -> FloatArray:
+def tool_tail(robot: Robot, T_flange_tool: npt.ArrayLike | None) -> FloatArray:
+    """Tool pose in the last link frame, shape (4, 4): the robot's default or ``T_flange_tool``.
+
+    Raises
+    ------
+    KinematicsInputError
+        ``T_flange_tool`` is not a finite rigid transform of shape (4, 4).
+    """
     if T_flange_tool is None:
         return robot.T_link_tool
-    return robot.T_link_flange @ np.asarray(T_flange_tool, dtype=np.float64)
+    try:
+        tool = check_transform(T_flange_tool)
+    except TransformError as error:
+        raise KinematicsInputError(f"T_flange_tool: {error}") from error
+    if tool.shape != (4, 4):
+        raise KinematicsInputError(f"T_flange_tool: expected shape (4, 4), got {tool.shape}")
+    return robot.T_link_flange @ tool
 
 
 def fk_tool(
@@ -151,7 +166,7 @@ def fk_tool(
     q = check_configurations(robot, q)
     out = np.empty((q.shape[0], 4, 4))
     kernel = _tool_parallel if q.shape[0] >= PARALLEL_THRESHOLD else _tool_serial
-    kernel(q, robot.motion_table, robot.prismatic, _tail(robot, T_flange_tool), out)
+    kernel(q, robot.motion_table, robot.prismatic, tool_tail(robot, T_flange_tool), out)
     return out
 
 
@@ -196,7 +211,7 @@ def fk_frames(
         robot.motion_table,
         robot.prismatic,
         robot.T_link_flange,
-        _tail(robot, T_flange_tool),
+        tool_tail(robot, T_flange_tool),
         out,
     )
     return out

@@ -19,7 +19,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.kinematics.chain_kernels import chain_step, write_pose
-from posebridge.kinematics.fk import PARALLEL_THRESHOLD, check_configurations
+from posebridge.kinematics.fk import PARALLEL_THRESHOLD, check_configurations, tool_tail
 from posebridge.robot.model import Robot
 from posebridge.units import FloatArray
 
@@ -94,11 +94,7 @@ def _jacobian(
     robot: Robot, q: npt.ArrayLike, T_flange_tool: npt.ArrayLike | None, in_tool_frame: bool
 ) -> FloatArray:
     q = check_configurations(robot, q)
-    tail = (
-        robot.T_link_tool
-        if T_flange_tool is None
-        else robot.T_link_flange @ np.asarray(T_flange_tool)
-    )
+    tail = tool_tail(robot, T_flange_tool)
     N = q.shape[0]
     T_out = np.empty((N, 4, 4))
     J_out = np.empty((N, 6, robot.dof))
