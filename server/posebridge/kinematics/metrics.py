@@ -81,7 +81,7 @@ def manipulability_yoshikawa(J: npt.ArrayLike) -> FloatArray:
     """Yoshikawa's manipulability measure of a batch of Jacobians.
 
     ``w = sqrt(det(J J^T))`` for ``m <= n`` (Yoshikawa 1985, "Manipulability
-    of robotic mechanisms", Int. J. Robotics Research 4(2), eq. 6), the volume
+    of robotic mechanisms", Int. J. Robotics Research 4(2)), the volume
     factor of the velocity ellipsoid; it equals the product of the ``m``
     singular values. For ``m > n`` (fewer joints than task rows, e.g. a
     planar arm's 3-row position Jacobian) ``det(J J^T)`` is identically zero,
