@@ -1,0 +1,10 @@
+"""The one exception type for bad input to the workspace and joint-space maps."""
+
+from __future__ import annotations
+
+__all__ = ["SpacesInputError"]
+
+
+class SpacesInputError(ValueError):
+    """A map request with a bad argument: unknown joint, grid too large, a robot
+    outside the family a function handles; the message names the argument."""
