@@ -12,7 +12,7 @@ to the seed when a seed was given, otherwise by a stable branch order (front
 before back, up/left before down/right, positive before negative, then fewer
 turns). :func:`finish_solutions` turns raw candidates of any solver into this
 form (turn variants, limit flags, order); the numba row kernel
-:func:`finish_row` does the same inside the analytic kernels.
+:func:`finish_rows` does the same inside the analytic kernels.
 
 Turn variants: a revolute joint value ``v`` is first wrapped to (-pi, pi];
 ``turns = k`` means ``v + 2 pi k`` is stored. Without ``all_turns`` each
@@ -48,6 +48,7 @@ __all__ = [
     "JOINT_CONTINUOUS",
     "JOINT_PRISMATIC",
     "JOINT_REVOLUTE",
+    "JOINT_REVOLUTE_ONE_TURN",
     "LABEL_SCHEMES",
     "REASON_CODES",
     "REASON_NO_WITHIN_LIMITS",
@@ -58,9 +59,12 @@ __all__ = [
     "Int16Array",
     "check_seed",
     "check_target_poses",
-    "finish_row",
+    "BLOCK_SIZE",
+    "finish_rows",
+    "empty_outputs",
     "finish_solutions",
     "joint_modes",
+    "joint_table",
     "joint_weights",
     "reasons_from_codes",
     "slots_per_candidate",
@@ -80,9 +84,15 @@ turns them into text."""
 
 JOINT_PRISMATIC = 0
 JOINT_REVOLUTE = 1
+"""Revolute joint whose range reaches outside (-pi, pi] (turn variants possible)."""
 JOINT_CONTINUOUS = 2
+JOINT_REVOLUTE_ONE_TURN = 3
+"""Revolute joint whose range lies inside (-pi, pi]: only the wrapped value can be in limits."""
 
 _TWO_PI = 2.0 * np.pi
+BLOCK_SIZE = 256
+"""Poses per block in the parallel IK drivers (one scratch allocation per block)."""
+_ORTHONORMAL_TOLERANCE = 1e-6
 _TURN_SLACK = 1e-12
 """Turns (fractions of 2 pi) by which a value may pass a limit and still count as inside."""
 
@@ -212,13 +222,14 @@ class IkSolutions:
 
 
 def joint_modes(robot: Robot) -> Int8Array:
-    """Per-joint turn handling: :data:`JOINT_PRISMATIC`, :data:`JOINT_REVOLUTE` or :data:`JOINT_CONTINUOUS`.
+    """Per-joint turn handling, one of the ``JOINT_*`` constants.
 
     Returns
     -------
     modes : array of int8, shape (n,)
     """
     modes = np.full(robot.dof, JOINT_REVOLUTE, dtype=np.int8)
+    modes[(robot.lower > -np.pi) & (robot.upper <= np.pi)] = JOINT_REVOLUTE_ONE_TURN
     modes[robot.continuous] = JOINT_CONTINUOUS
     modes[robot.prismatic] = JOINT_PRISMATIC
     return modes
@@ -232,6 +243,19 @@ def joint_weights(robot: Robot) -> FloatArray:
     v = robot.velocity_max
     ok = np.isfinite(v) & (v > 0.0)
     return np.where(ok, 1.0 / np.where(ok, v, 1.0), 1.0)
+
+
+def joint_table(robot: Robot) -> FloatArray:
+    """Per-joint kernel inputs ``[lower, upper, mode, weight]``, shape (n, 4).
+
+    ``mode`` from :func:`joint_modes`, ``weight`` from :func:`joint_weights`.
+    """
+    return np.ascontiguousarray(
+        np.stack(
+            [robot.lower, robot.upper, joint_modes(robot).astype(np.float64), joint_weights(robot)],
+            axis=1,
+        )
+    )
 
 
 def turn_variant_counts(robot: Robot) -> npt.NDArray[np.int64]:
@@ -263,17 +287,40 @@ def check_target_poses(T_base_tool: npt.ArrayLike) -> FloatArray:
     T = np.ascontiguousarray(T_base_tool, dtype=np.float64)
     if T.ndim != 3 or T.shape[1:] != (4, 4):
         raise KinematicsInputError(f"target poses: expected shape (N, 4, 4), got {T.shape}")
-    if not np.all(np.isfinite(T)):
+    deviation, determinant, finite = _pose_checks(T)
+    if not finite:
         raise KinematicsInputError("target poses: contain NaN or infinite values")
-    R = T[:, :3, :3]
-    deviation = np.abs(R @ np.swapaxes(R, -1, -2) - np.eye(3)).max(initial=0.0)
-    if deviation > 1e-6:
+    if deviation > _ORTHONORMAL_TOLERANCE:
         raise KinematicsInputError(
-            f"target poses: rotation blocks are not orthonormal (max |R R^T - I| = {deviation:.3g} > 1e-6)"
+            f"target poses: rotation blocks are not orthonormal (max |R R^T - I| = {deviation:.3g} > {_ORTHONORMAL_TOLERANCE:g})"
         )
-    if np.any(np.linalg.det(R) < 0.0):
+    if determinant < 0.0:
         raise KinematicsInputError("target poses: a rotation block has determinant -1")
     return T
+
+
+@nb.njit(cache=True)
+def _pose_checks(T):
+    """Largest ``|R R^T - I|``, smallest ``det R`` and whether all entries are finite."""
+    deviation = 0.0
+    determinant = np.inf
+    finite = True
+    for i in range(T.shape[0]):
+        for r in range(4):
+            for c in range(4):
+                if not np.isfinite(T[i, r, c]):
+                    finite = False
+        for r in range(3):
+            for c in range(3):
+                dot = T[i, r, 0] * T[i, c, 0] + T[i, r, 1] * T[i, c, 1] + T[i, r, 2] * T[i, c, 2]
+                deviation = max(deviation, abs(dot - (1.0 if r == c else 0.0)))
+        det = (
+            T[i, 0, 0] * (T[i, 1, 1] * T[i, 2, 2] - T[i, 1, 2] * T[i, 2, 1])
+            - T[i, 0, 1] * (T[i, 1, 0] * T[i, 2, 2] - T[i, 1, 2] * T[i, 2, 0])
+            + T[i, 0, 2] * (T[i, 1, 0] * T[i, 2, 1] - T[i, 1, 1] * T[i, 2, 0])
+        )
+        determinant = min(determinant, det)
+    return deviation, determinant, finite
 
 
 def check_seed(robot: Robot, seed: npt.ArrayLike | None, n_poses: int) -> tuple[FloatArray, bool]:
@@ -308,21 +355,23 @@ def check_seed(robot: Robot, seed: npt.ArrayLike | None, n_poses: int) -> tuple[
 
 def reasons_from_codes(codes: npt.NDArray[np.int8]) -> tuple[str, ...]:
     """Reason texts of :data:`REASON_CODES` for an array of codes, shape (N,)."""
+    if not np.any(codes):
+        return ("",) * codes.shape[0]
     return tuple(np.asarray(REASON_CODES, dtype=object)[codes].tolist())
 
 
 @nb.njit(cache=True, inline="always")
 def _wrap_angle(v):
     """``v`` wrapped to (-pi, pi]."""
-    return v - 2.0 * np.pi * np.ceil((v - np.pi) / (2.0 * np.pi))
+    return v - 2.0 * np.pi * np.ceil((v - np.pi) * (0.5 / np.pi))
 
 
 @nb.njit(cache=True, inline="always")
 def _turn_bounds(base, lower, upper):
     """Smallest and largest ``k`` with ``base + 2 pi k`` inside [lower, upper] (kmin > kmax if none)."""
-    two_pi = 2.0 * np.pi
-    kmin = np.ceil((lower - base) / two_pi - 1e-12)
-    kmax = np.floor((upper - base) / two_pi + 1e-12)
+    inverse_two_pi = 0.5 / np.pi
+    kmin = np.ceil((lower - base) * inverse_two_pi - 1e-12)
+    kmax = np.floor((upper - base) * inverse_two_pi + 1e-12)
     return int(kmin), int(kmax)
 
 
@@ -330,8 +379,8 @@ def _turn_bounds(base, lower, upper):
 def _nearest_turn(base, seed, lower, upper, mode):
     """Turn count ``k`` of the representative nearest ``seed`` (see module docstring)."""
     two_pi = 2.0 * np.pi
-    k = int(np.floor((seed - base) / two_pi + 0.5))
-    if mode == 2:
+    k = int(np.floor((seed - base) * (0.5 / np.pi) + 0.5))
+    if mode == 2.0:
         return k
     kmin, kmax = _turn_bounds(base, lower, upper)
     if kmin <= kmax:
@@ -347,303 +396,217 @@ def _rank(label):
     return 1 - label
 
 
-@nb.njit(cache=True, inline="always")
-def _slot_after(a, b, key, M):
-    """Slot code ``a`` sorts after ``b``: group (code >= M), then key, then index."""
-    group_a = a >= M
-    group_b = b >= M
-    if group_a != group_b:
-        return group_a
-    ia = a % M
-    ib = b % M
-    if key[ia] != key[ib]:
-        return key[ia] > key[ib]
-    return ia > ib
-
-
-@nb.njit(cache=True, inline="always")
-def finish_row(
-    q_raw,
-    ok_raw,
-    sh_raw,
-    el_raw,
-    wr_raw,
-    seed,
-    has_seed,
-    lower,
-    upper,
-    modes,
-    weights,
-    all_turns,
-    scratch_q,
-    scratch_turns,
-    scratch_labels,
-    scratch_key,
-    scratch_order,
-    out_q,
-    out_valid,
-    out_within,
-    out_sh,
-    out_el,
-    out_wr,
-    out_turns,
-):
-    """Turn variants, limit flags and slot order for the candidates of one pose.
-
-    ``q_raw`` (M0, n) holds raw candidates (revolute values in any turn),
-    ``ok_raw`` (M0,) marks those that reach the pose; ``sh_raw``, ``el_raw``,
-    ``wr_raw`` (M0,) are their branch labels. Outputs have ``M`` slots (M0, or
-    M0 times the product of turn variants with ``all_turns``); the scratch
-    arrays have shapes (M, n) float, (M, n) int16, (M, 3) int8, (M,) float and
-    (M,) int64. Returns 0 if a valid in-limit slot exists, 1 if valid slots
-    exist only outside the limits, 2 if no slot is valid.
-    """
-    n = q_raw.shape[1]
-    M = out_q.shape[0]
-    two_pi = 2.0 * np.pi
-    count = 0
-    for r in range(q_raw.shape[0]):
-        if not ok_raw[r]:
-            continue
-        n_variants = 1
-        if all_turns:
-            for j in range(n):
-                if modes[j] == 1:
-                    kmin, kmax = _turn_bounds(_wrap_angle(q_raw[r, j]), lower[j], upper[j])
-                    if kmax >= kmin:
-                        n_variants *= kmax - kmin + 1
-        for v in range(n_variants):
-            if count >= M:
-                break
-            code = v
-            within = True
-            total_turns = 0
-            for j in range(n):
-                value = q_raw[r, j]
-                k = 0
-                if modes[j] != 0:
-                    base = _wrap_angle(value)
-                    k = _nearest_turn(base, seed[j], lower[j], upper[j], modes[j])
-                    if all_turns and modes[j] == 1:
-                        kmin, kmax = _turn_bounds(base, lower[j], upper[j])
-                        if kmax >= kmin:
-                            width = kmax - kmin + 1
-                            k = kmin + code % width
-                            code //= width
-                    value = base + two_pi * k
-                if modes[j] != 2 and (value < lower[j] - 1e-12 or value > upper[j] + 1e-12):
-                    within = False
-                scratch_q[count, j] = value
-                scratch_turns[count, j] = k
-                total_turns += abs(k)
-            scratch_labels[count, 0] = sh_raw[r]
-            scratch_labels[count, 1] = el_raw[r]
-            scratch_labels[count, 2] = wr_raw[r]
-            if has_seed:
-                distance = 0.0
-                for j in range(n):
-                    d = (scratch_q[count, j] - seed[j]) * weights[j]
-                    distance += d * d
-                secondary = distance
-            else:
-                secondary = (
-                    9.0 * _rank(sh_raw[r]) + 3.0 * _rank(el_raw[r]) + _rank(wr_raw[r])
-                ) * 1000.0 + total_turns
-            scratch_key[count] = secondary
-            scratch_order[count] = count if within else count + M
-            count += 1
-    # insertion sort by (group, key, index); in-limit slots are coded i, others i + M
-    for a in range(1, count):
-        item = scratch_order[a]
-        b = a - 1
-        while b >= 0 and _slot_after(scratch_order[b], item, scratch_key, M):
-            scratch_order[b + 1] = scratch_order[b]
-            b -= 1
-        scratch_order[b + 1] = item
-    status = 2
-    for m in range(M):
-        if m < count:
-            src = scratch_order[m] % M
-            within = scratch_order[m] < M
-            for j in range(n):
-                out_q[m, j] = scratch_q[src, j]
-                out_turns[m, j] = scratch_turns[src, j]
-            out_valid[m] = True
-            out_within[m] = within
-            out_sh[m] = scratch_labels[src, 0]
-            out_el[m] = scratch_labels[src, 1]
-            out_wr[m] = scratch_labels[src, 2]
-            if within:
-                status = 0
-            elif status == 2:
-                status = 1
-        else:
-            for j in range(n):
-                out_q[m, j] = np.nan
-                out_turns[m, j] = 0
-            out_valid[m] = False
-            out_within[m] = False
-            out_sh[m] = 0
-            out_el[m] = 0
-            out_wr[m] = 0
-    return status
-
-
-_FINISH_BLOCK = 256
-"""Poses per block of the parallel finishing driver (one scratch allocation per block)."""
-
-
-@nb.njit(cache=True, inline="always")
-def _finish_block(
+@nb.njit(cache=True)
+def finish_rows(
     start,
     stop,
-    q_raw,
-    ok_raw,
-    labels_raw,
+    raw_offset,
+    raw_q,
+    raw_ok,
+    raw_labels,
+    raw_reason,
     seed,
     has_seed,
-    lower,
-    upper,
-    modes,
-    weights,
+    joints,
     all_turns,
-    out_q,
-    out_valid,
-    out_within,
-    out_sh,
-    out_el,
-    out_wr,
-    out_turns,
-    status,
+    out,
 ):
+    """Turn variants, limit flags, slot order and reason codes for poses ``start..stop-1``.
+
+    Pose ``i``'s raw candidates are row ``i - raw_offset`` of ``raw_q``
+    (B, M0, n; revolute values in any turn), ``raw_ok`` (B, M0) marks those
+    that reach the pose, ``raw_labels`` (B, M0, 3) holds their shoulder, elbow
+    and wrist labels and ``raw_reason`` (B,) the reason code to report if none
+    reaches it. ``seed`` is (N, n), ``joints`` is :func:`joint_table`. ``out``
+    is :func:`empty_outputs` (N rows, M slots: M0, or M0 times the product of
+    turn variants with ``all_turns``); row ``i`` is written, with reason code
+    0 (solved), 3 (valid only outside the limits) or ``raw_reason``.
+
+    One call handles a block of poses: every array argument costs a
+    reference-count update per call, so nothing here is called per pose with
+    arrays.
+    """
+    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_turns, codes = out
+    n = raw_q.shape[2]
     M = out_q.shape[1]
-    n = out_q.shape[2]
-    scratch_q = np.empty((M, n))
-    scratch_turns = np.empty((M, n), dtype=np.int16)
-    scratch_labels = np.empty((M, 3), dtype=np.int8)
-    scratch_key = np.empty(M)
-    scratch_order = np.empty(M, dtype=np.int64)
+    two_pi = 2.0 * np.pi
+    value = np.empty((M, n))
+    turns = np.empty((M, n), dtype=np.int16)
+    labels = np.empty((M, 3), dtype=np.int8)
+    group = np.empty(M, dtype=np.int8)
+    key = np.empty(M)
+    order = np.empty(M, dtype=np.int64)
     for i in range(start, stop):
-        status[i] = finish_row(
-            q_raw[i],
-            ok_raw[i],
-            labels_raw[i, :, 0],
-            labels_raw[i, :, 1],
-            labels_raw[i, :, 2],
-            seed[i],
-            has_seed,
-            lower,
-            upper,
-            modes,
-            weights,
-            all_turns,
-            scratch_q,
-            scratch_turns,
-            scratch_labels,
-            scratch_key,
-            scratch_order,
-            out_q[i],
-            out_valid[i],
-            out_within[i],
-            out_sh[i],
-            out_el[i],
-            out_wr[i],
-            out_turns[i],
-        )
+        row = i - raw_offset
+        count = 0
+        for r in range(raw_q.shape[1]):
+            if not raw_ok[row, r]:
+                continue
+            n_variants = 1
+            if all_turns:
+                for j in range(n):
+                    if joints[j, 2] == 1.0:
+                        kmin, kmax = _turn_bounds(
+                            _wrap_angle(raw_q[row, r, j]), joints[j, 0], joints[j, 1]
+                        )
+                        if kmax >= kmin:
+                            n_variants *= kmax - kmin + 1
+            for variant in range(n_variants):
+                if count >= M:
+                    break
+                code = variant
+                within = True
+                total_turns = 0
+                distance = 0.0
+                for j in range(n):
+                    v = raw_q[row, r, j]
+                    lower = joints[j, 0]
+                    upper = joints[j, 1]
+                    mode = joints[j, 2]
+                    k = 0
+                    if mode == 3.0:
+                        v = v if -np.pi < v <= np.pi else _wrap_angle(v)
+                        if v < lower or v > upper:
+                            k = _nearest_turn(v, seed[i, j], lower, upper, mode)
+                            v += two_pi * k
+                    elif mode != 0.0:
+                        base = v if -np.pi < v <= np.pi else _wrap_angle(v)
+                        if has_seed:
+                            k = int(np.floor((seed[i, j] - base) * (0.5 / np.pi) + 0.5))
+                        v = base + two_pi * k
+                        if mode == 1.0 and (all_turns or v < lower or v > upper):
+                            k = _nearest_turn(base, seed[i, j], lower, upper, mode)
+                        if all_turns and mode == 1.0:
+                            kmin, kmax = _turn_bounds(base, lower, upper)
+                            if kmax >= kmin:
+                                width = kmax - kmin + 1
+                                k = kmin + code % width
+                                code //= width
+                        v = base + two_pi * k
+                    if mode != 2.0 and (v < lower - 1e-12 or v > upper + 1e-12):
+                        within = False
+                    value[count, j] = v
+                    turns[count, j] = k
+                    total_turns += abs(k)
+                    if has_seed:
+                        d = (v - seed[i, j]) * joints[j, 3]
+                        distance += d * d
+                sh = raw_labels[row, r, 0]
+                el = raw_labels[row, r, 1]
+                wr = raw_labels[row, r, 2]
+                labels[count, 0] = sh
+                labels[count, 1] = el
+                labels[count, 2] = wr
+                group[count] = 0 if within else 1
+                if has_seed:
+                    key[count] = distance
+                else:
+                    key[count] = 1000.0 * (9 * _rank(sh) + 3 * _rank(el) + _rank(wr)) + total_turns
+                order[count] = count
+                count += 1
+        # insertion sort by (group, key, index); group 0 is in limits, 1 outside
+        for a in range(1, count):
+            item = order[a]
+            b = a - 1
+            while b >= 0:
+                other = order[b]
+                if group[other] != group[item]:
+                    after = group[other] > group[item]
+                elif key[other] != key[item]:
+                    after = key[other] > key[item]
+                else:
+                    after = other > item
+                if not after:
+                    break
+                order[b + 1] = other
+                b -= 1
+            order[b + 1] = item
+        codes[i] = raw_reason[row]
+        for m in range(M):
+            if m < count:
+                src = order[m]
+                for j in range(n):
+                    out_q[i, m, j] = value[src, j]
+                    out_turns[i, m, j] = turns[src, j]
+                out_valid[i, m] = True
+                out_within[i, m] = group[src] == 0
+                out_sh[i, m] = labels[src, 0]
+                out_el[i, m] = labels[src, 1]
+                out_wr[i, m] = labels[src, 2]
+                if group[src] == 0:
+                    codes[i] = 0
+                elif codes[i] != 0:
+                    codes[i] = 3
+            else:
+                for j in range(n):
+                    out_q[i, m, j] = np.nan
+                    out_turns[i, m, j] = 0
+                out_valid[i, m] = False
+                out_within[i, m] = False
+                out_sh[i, m] = 0
+                out_el[i, m] = 0
+                out_wr[i, m] = 0
 
 
 @nb.njit(cache=True)
-def _finish_serial(
-    q_raw,
-    ok_raw,
-    labels_raw,
-    seed,
-    has_seed,
-    lower,
-    upper,
-    modes,
-    weights,
-    all_turns,
-    out_q,
-    out_valid,
-    out_within,
-    out_sh,
-    out_el,
-    out_wr,
-    out_turns,
-    status,
-):
-    _finish_block(
+def _finish_serial(raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_turns, out):
+    finish_rows(
         0,
-        q_raw.shape[0],
-        q_raw,
-        ok_raw,
-        labels_raw,
+        raw_q.shape[0],
+        0,
+        raw_q,
+        raw_ok,
+        raw_labels,
+        raw_reason,
         seed,
         has_seed,
-        lower,
-        upper,
-        modes,
-        weights,
+        joints,
         all_turns,
-        out_q,
-        out_valid,
-        out_within,
-        out_sh,
-        out_el,
-        out_wr,
-        out_turns,
-        status,
+        out,
     )
 
 
 @nb.njit(cache=True, parallel=True)
-def _finish_parallel(
-    q_raw,
-    ok_raw,
-    labels_raw,
-    seed,
-    has_seed,
-    lower,
-    upper,
-    modes,
-    weights,
-    all_turns,
-    out_q,
-    out_valid,
-    out_within,
-    out_sh,
-    out_el,
-    out_wr,
-    out_turns,
-    status,
-):
-    N = q_raw.shape[0]
-    n_blocks = (N + _FINISH_BLOCK - 1) // _FINISH_BLOCK
+def _finish_parallel(raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_turns, out):
+    N = raw_q.shape[0]
+    n_blocks = (N + BLOCK_SIZE - 1) // BLOCK_SIZE
     for b in nb.prange(n_blocks):
-        stop = min(N, (b + 1) * _FINISH_BLOCK)
-        _finish_block(
-            b * _FINISH_BLOCK,
+        stop = min(N, (b + 1) * BLOCK_SIZE)
+        finish_rows(
+            b * BLOCK_SIZE,
             stop,
-            q_raw,
-            ok_raw,
-            labels_raw,
+            0,
+            raw_q,
+            raw_ok,
+            raw_labels,
+            raw_reason,
             seed,
             has_seed,
-            lower,
-            upper,
-            modes,
-            weights,
+            joints,
             all_turns,
-            out_q,
-            out_valid,
-            out_within,
-            out_sh,
-            out_el,
-            out_wr,
-            out_turns,
-            status,
+            out,
         )
+
+
+def empty_outputs(
+    N: int, M: int, n: int
+) -> tuple[
+    FloatArray, BoolArray, BoolArray, Int8Array, Int8Array, Int8Array, Int16Array, Int8Array
+]:
+    """Output arrays of a solver kernel: q, valid, within, shoulder, elbow, wrist, turns, codes.
+
+    Shapes (N, M, n), (N, M) x 5, (N, M, n), (N,).
+    """
+    return (
+        np.empty((N, M, n)),
+        np.empty((N, M), dtype=bool),
+        np.empty((N, M), dtype=bool),
+        np.empty((N, M), dtype=np.int8),
+        np.empty((N, M), dtype=np.int8),
+        np.empty((N, M), dtype=np.int8),
+        np.empty((N, M, n), dtype=np.int16),
+        np.empty(N, dtype=np.int8),
+    )
 
 
 def finish_solutions(
@@ -712,35 +675,21 @@ def finish_solutions(
         )
     seed_array, has_seed = check_seed(robot, seed, N)
     M = M0 * slots_per_candidate(robot, all_turns)
-    out_q = np.empty((N, M, n))
-    out_valid = np.empty((N, M), dtype=bool)
-    out_within = np.empty((N, M), dtype=bool)
-    out_sh = np.empty((N, M), dtype=np.int8)
-    out_el = np.empty((N, M), dtype=np.int8)
-    out_wr = np.empty((N, M), dtype=np.int8)
-    out_turns = np.empty((N, M, n), dtype=np.int16)
-    status = np.empty(N, dtype=np.int8)
+    out = empty_outputs(N, M, n)
+    unreachable_code = np.ones(N, dtype=np.int8)
     kernel = _finish_parallel if N >= PARALLEL_THRESHOLD else _finish_serial
     kernel(
         q,
         ok_array,
         label_array,
+        unreachable_code,
         seed_array,
         has_seed,
-        robot.lower,
-        robot.upper,
-        joint_modes(robot),
-        joint_weights(robot),
+        joint_table(robot),
         all_turns,
-        out_q,
-        out_valid,
-        out_within,
-        out_sh,
-        out_el,
-        out_wr,
-        out_turns,
-        status,
+        out,
     )
+    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_turns, codes = out
     unreachable = (
         [unreachable_reason] * N
         if isinstance(unreachable_reason, str)
@@ -751,8 +700,8 @@ def finish_solutions(
             f"unreachable_reason: expected {N} entries, got {len(unreachable)}"
         )
     reason = tuple(
-        "" if code == 0 else REASON_NO_WITHIN_LIMITS if code == 1 else unreachable[i]
-        for i, code in enumerate(status.tolist())
+        "" if code == 0 else REASON_NO_WITHIN_LIMITS if code == 3 else unreachable[i]
+        for i, code in enumerate(codes.tolist())
     )
     return IkSolutions(
         q=out_q,
