@@ -198,7 +198,8 @@ class IkSolutions:
         """Plain-words branch of slot ``m`` of pose ``i``.
 
         Examples: ``"front, up, positive"``, ``"back, down, negative, j6 +1 turn"``,
-        ``"left"`` (planar arm), ``"j4 -1 turn"`` (gantry). Empty slots give ``""``.
+        ``"left"`` (planar arm), ``"c -1 turn"`` or ``"single branch"`` (gantry).
+        Empty slots give ``""``.
         """
         if not np.all(np.isfinite(self.q[i, m])):
             return ""
@@ -214,7 +215,7 @@ class IkSolutions:
             if count != 0:
                 plural = "" if abs(int(count)) == 1 else "s"
                 words.append(f"{names[k]} {int(count):+d} turn{plural}")
-        return ", ".join(words)
+        return ", ".join(words) if words else "single branch"
 
     def valid_solutions(self, i: int) -> list[int]:
         """Slot indices ``m`` of pose ``i`` that hold a valid solution, in stored order."""

@@ -49,7 +49,7 @@ from posebridge.kinematics.branches import (
     shoulder_label,
     wrist_label,
 )
-from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_flange, fk_frames
+from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_flange, fk_frames, tool_tail
 from posebridge.kinematics.ik_types import (
     BLOCK_SIZE,
     IkSolutions,
@@ -563,7 +563,7 @@ def solve_ortho_parallel(
     T = check_target_poses(T_base_tool)
     N = T.shape[0]
     seed_array, has_seed = check_seed(robot, seed, N)
-    T_flange = robot.T_flange_tool if T_flange_tool is None else np.asarray(T_flange_tool, float)
+    T_flange = invert_transform(robot.T_link_flange) @ tool_tail(robot, T_flange_tool)
     F = np.eye(4)
     F[:3, :3] = geometry.R_end_flange
     G = np.ascontiguousarray(invert_transform(F @ T_flange))

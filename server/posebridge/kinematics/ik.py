@@ -1,0 +1,195 @@
+"""Inverse kinematics: every solution of a batch of tool poses, whatever the arm.
+
+:func:`solve_ik_all` picks the solver from the robot's geometry (never from
+its ``kind`` label), in this order:
+
+1. six-axis ortho-parallel arm with a spherical wrist: closed form of
+   Brandstötter et al. (2014), :mod:`posebridge.kinematics.ik_analytic.ortho_parallel`;
+2. planar 2R / 3R arm in the base x-y plane, :mod:`~posebridge.kinematics.ik_analytic.planar`;
+3. SCARA, :mod:`~posebridge.kinematics.ik_analytic.scara`;
+4. gantry (three linear axes, optional tool rotation), :mod:`~posebridge.kinematics.ik_analytic.gantry`;
+5. any other serial chain: multi-start numerical IK, :mod:`posebridge.kinematics.ik_numeric`.
+
+Each analytic family accepts a robot only after checking its own canonical
+forward kinematics against :func:`posebridge.kinematics.fk.fk_flange`.
+:func:`ik_solver` does this choice once; keep the returned solver for
+repeated calls on the same robot (e.g. while dragging a target).
+
+The result, slot order, turn variants and branch labels are described in
+:mod:`posebridge.kinematics.ik_types` and :mod:`posebridge.kinematics.branches`.
+Analytic solvers reach the orientation exactly (spherical wrist, heading
+joint), so ``orientation_tolerance_rad`` only matters for the numerical solver.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy.typing as npt
+
+from posebridge.kinematics.fk import KinematicsInputError
+from posebridge.kinematics.ik_analytic.gantry import GantryGeometry, solve_gantry
+from posebridge.kinematics.ik_analytic.ortho_parallel import (
+    OrthoParallelGeometry,
+    solve_ortho_parallel,
+)
+from posebridge.kinematics.ik_analytic.planar import PlanarGeometry, solve_planar
+from posebridge.kinematics.ik_analytic.scara import ScaraGeometry
+from posebridge.kinematics.ik_numeric import solve_ik_numeric
+from posebridge.kinematics.ik_types import IkSolutions
+from posebridge.robot.model import Robot
+
+__all__ = ["IkSolver", "ik_solver", "solve_ik_all"]
+
+
+@dataclass(frozen=True, eq=False)
+class IkSolver:
+    """The IK solver chosen for one robot.
+
+    Attributes
+    ----------
+    robot : Robot
+    family : str
+        ``"ortho_parallel"``, ``"planar"``, ``"scara"``, ``"gantry"`` or ``"numeric"``.
+    geometry : OrthoParallelGeometry, PlanarGeometry, GantryGeometry or None
+        Extracted parameters of the analytic family (None for ``"numeric"``).
+    """
+
+    robot: Robot
+    family: str
+    geometry: OrthoParallelGeometry | PlanarGeometry | GantryGeometry | None
+
+    def solve(
+        self,
+        T_base_tool: npt.ArrayLike,
+        *,
+        T_flange_tool: npt.ArrayLike | None = None,
+        seed: npt.ArrayLike | None = None,
+        all_turns: bool = False,
+        position_tolerance_m: float = 1e-6,
+        orientation_tolerance_rad: float = 1e-6,
+    ) -> IkSolutions:
+        """Every IK solution of each pose; parameters as :func:`solve_ik_all`."""
+        tolerance = _positive(position_tolerance_m, "position_tolerance_m")
+        orientation = _positive(orientation_tolerance_rad, "orientation_tolerance_rad")
+        geometry = self.geometry
+        if isinstance(geometry, OrthoParallelGeometry):
+            return solve_ortho_parallel(
+                self.robot,
+                geometry,
+                T_base_tool,
+                T_flange_tool=T_flange_tool,
+                seed=seed,
+                all_turns=all_turns,
+                position_tolerance_m=tolerance,
+            )
+        if isinstance(geometry, PlanarGeometry):
+            return solve_planar(
+                self.robot,
+                geometry,
+                T_base_tool,
+                T_flange_tool=T_flange_tool,
+                seed=seed,
+                all_turns=all_turns,
+                position_tolerance_m=tolerance,
+            )
+        if isinstance(geometry, GantryGeometry):
+            return solve_gantry(
+                self.robot,
+                geometry,
+                T_base_tool,
+                T_flange_tool=T_flange_tool,
+                seed=seed,
+                all_turns=all_turns,
+            )
+        return solve_ik_numeric(
+            self.robot,
+            T_base_tool,
+            T_flange_tool=T_flange_tool,
+            seed=seed,
+            position_tolerance_m=tolerance,
+            orientation_tolerance_rad=orientation,
+            all_turns=all_turns,
+        )
+
+
+def _positive(value: float, name: str) -> float:
+    number = float(value)
+    if not math.isfinite(number) or number <= 0.0:
+        raise KinematicsInputError(f"{name}: expected a positive finite number, got {value!r}")
+    return number
+
+
+def ik_solver(robot: Robot) -> IkSolver:
+    """Choose the IK solver for ``robot`` from its geometry (module docstring)."""
+    opw = OrthoParallelGeometry.from_robot(robot)
+    if opw is not None:
+        return IkSolver(robot, "ortho_parallel", opw)
+    planar = PlanarGeometry.from_robot(robot)
+    if planar is not None:
+        return IkSolver(robot, "planar", planar)
+    scara = ScaraGeometry.from_robot(robot)
+    if scara is not None:
+        return IkSolver(robot, "scara", scara)
+    gantry = GantryGeometry.from_robot(robot)
+    if gantry is not None:
+        return IkSolver(robot, "gantry", gantry)
+    return IkSolver(robot, "numeric", None)
+
+
+def solve_ik_all(
+    robot: Robot,
+    T_base_tool: npt.ArrayLike,
+    *,
+    T_flange_tool: npt.ArrayLike | None = None,
+    seed: npt.ArrayLike | None = None,
+    all_turns: bool = False,
+    position_tolerance_m: float = 1e-6,
+    orientation_tolerance_rad: float = 1e-6,
+) -> IkSolutions:
+    """Every IK solution of each target pose, with branch labels, limits and turn variants.
+
+    Parameters
+    ----------
+    robot : Robot
+    T_base_tool : array-like, shape (N, 4, 4)
+        Target tool (TCP) poses in the robot base frame, SI.
+    T_flange_tool : array-like, shape (4, 4), optional
+        Tool pose in the flange frame; the robot's default tool if omitted.
+    seed : array-like, shape (n,) or (N, n), optional
+        Reference configuration(s): valid slots are ordered by weighted joint
+        distance to it, turn representatives are the ones nearest to it, and
+        free joints at singularities take its values.
+    all_turns : bool
+        One slot for every in-limit 2 pi variant of joints whose range
+        exceeds one revolution, instead of the one nearest the seed (or zero).
+    position_tolerance_m, orientation_tolerance_rad : float
+        A valid solution reaches the target within these.
+
+    Returns
+    -------
+    IkSolutions
+        See :mod:`posebridge.kinematics.ik_types`.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from posebridge.robot.library import load_robot
+    >>> from posebridge.kinematics.fk import fk_tool
+    >>> robot = load_robot("pb-arm6")
+    >>> target = fk_tool(robot, [[0.1, 0.2, -0.3, 0.4, 0.5, 0.6]])
+    >>> result = solve_ik_all(robot, target)
+    >>> result.method
+    'analytic: ortho-parallel, Brandstötter et al. 2014'
+    >>> result.branch_label(0, 0)
+    'front, up, positive'
+    """
+    return ik_solver(robot).solve(
+        T_base_tool,
+        T_flange_tool=T_flange_tool,
+        seed=seed,
+        all_turns=all_turns,
+        position_tolerance_m=position_tolerance_m,
+        orientation_tolerance_rad=orientation_tolerance_rad,
+    )
