@@ -52,7 +52,7 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.kinematics.fk import check_configurations, fk_frames
+from posebridge.kinematics.fk import KinematicsInputError, check_configurations, fk_frames
 from posebridge.kinematics.ik_types import Int8Array
 from posebridge.robot.model import Robot
 from posebridge.units import FloatArray
@@ -60,7 +60,9 @@ from posebridge.units import FloatArray
 __all__ = [
     "LABEL_TOLERANCE_M",
     "LABEL_TOLERANCE_RAD",
+    "ArmPlanePoints",
     "BranchGeometry",
+    "arm_plane_points",
     "branch_geometry",
     "elbow_label",
     "label_branches",
@@ -206,6 +208,57 @@ def _arm_points(
     )
 
 
+@dataclass(frozen=True, eq=False)
+class ArmPlanePoints:
+    """Shoulder, elbow and wrist centre in arm-plane coordinates (forward, up), m.
+
+    Attributes
+    ----------
+    shoulder, elbow, wrist_centre : arrays, shape (N, 2)
+        Points projected into the arm plane, measured from axis 1 along the
+        forward and up directions (module docstring).
+    """
+
+    shoulder: FloatArray
+    elbow: FloatArray
+    wrist_centre: FloatArray
+
+
+def arm_plane_points(
+    robot: Robot, q: npt.ArrayLike, geometry: BranchGeometry | None = None
+) -> ArmPlanePoints:
+    """Shoulder, elbow and wrist centre of six- and seven-axis arms in the arm plane.
+
+    Parameters
+    ----------
+    robot : Robot
+        An arm of the ``"arm"`` label scheme.
+    q : array-like, shape (N, n)
+    geometry : BranchGeometry, optional
+        ``branch_geometry(robot)``, computed if omitted.
+
+    Returns
+    -------
+    ArmPlanePoints
+    """
+    q = check_configurations(robot, q)
+    geometry = branch_geometry(robot) if geometry is None else geometry
+    if geometry.scheme != "arm":
+        raise KinematicsInputError(
+            f"robot {robot.name!r}: shoulder, elbow and wrist centre are defined for six- and "
+            f"seven-axis arms only (label scheme {geometry.scheme!r})"
+        )
+    p1, a1, a2, s, e, w = _arm_points(robot, geometry, q)
+    forward = geometry.forward_sign * _unit(np.cross(a2, a1))
+    up = geometry.up_sign * a1
+
+    def plane(point: FloatArray) -> FloatArray:
+        d = point - p1
+        return np.stack([np.einsum("ki,ki->k", d, forward), np.einsum("ki,ki->k", d, up)], axis=1)
+
+    return ArmPlanePoints(plane(s), plane(e), plane(w))
+
+
 def branch_geometry(robot: Robot) -> BranchGeometry:
     """Label scheme, joints and direction signs of a robot's branch labels.
 
@@ -271,17 +324,8 @@ def label_branches(robot: Robot, q: npt.ArrayLike) -> tuple[Int8Array, Int8Array
     elbow = np.zeros(N, dtype=np.int8)
     wrist = np.zeros(N, dtype=np.int8)
     if geometry.scheme == "arm":
-        p1, a1, a2, s, e, w = _arm_points(robot, geometry, q)
-        forward = geometry.forward_sign * _unit(np.cross(a2, a1))
-        up = geometry.up_sign * a1
-
-        def plane(point: FloatArray) -> FloatArray:
-            d = point - p1
-            return np.stack(
-                [np.einsum("ki,ki->k", d, forward), np.einsum("ki,ki->k", d, up)], axis=1
-            )
-
-        s2, e2, w2 = plane(s), plane(e), plane(w)
+        points = arm_plane_points(robot, q, geometry)
+        s2, e2, w2 = points.shoulder, points.elbow, points.wrist_centre
         reach_vector = w2 - s2
         elbow_vector = e2 - s2
         cross = reach_vector[:, 0] * elbow_vector[:, 1] - reach_vector[:, 1] * elbow_vector[:, 0]
