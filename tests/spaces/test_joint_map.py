@@ -1,0 +1,265 @@
+"""Tests of posebridge.spaces.joint_map and posebridge.spaces.scene_geometry on the demo cell.
+
+Collision states are checked against python-fcl (``fcl.distance`` with signed distance)
+for capsules against boxes and cylinders, against the closed form of a capsule above a
+plane for the floor, and against densely sampled capsule axes for capsule pairs (fcl's
+GJK capsule-capsule distance was seen off by up to 2e-4 m here, too coarse near contact).
+"""
+
+from __future__ import annotations
+
+import json
+import threading
+
+import fcl
+import numpy as np
+import pytest
+
+from posebridge.cell.files import load_cell
+from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.compute import ComputationCancelled, SerialExecutor
+from posebridge.geometry.clearance import ClearanceScene, capsule_segments_world
+from posebridge.geometry.shapes import BOX, CYLINDER, FLOOR
+from posebridge.resources import data_folder
+from posebridge.spaces.errors import SpacesInputError
+from posebridge.spaces.joint_map import joint_map
+from posebridge.spaces.scene_geometry import scene_clearance
+
+DEMO = data_folder("robots") / "demo-cell.json"
+BOUNDARY_M = 2e-3
+"""Cells whose reference distance is within this of zero are too close to the boundary
+for two independent distance codes to be compared by sign (GJK/EPA tolerance in fcl)."""
+
+
+@pytest.fixture(scope="module")
+def demo() -> tuple[Scene, ClearanceScene]:
+    scene = resolve_scene(load_cell(DEMO), DEMO)
+    return scene, scene_clearance(scene)
+
+
+def test_obstacle_order_and_names_follow_the_cell_file(demo) -> None:
+    _, clearance = demo
+    cell = json.loads(DEMO.read_text(encoding="utf-8"))
+    # Documented order: box fixtures, cylinder fixtures, keep-out zones, pedestal, floor.
+    expected = (
+        [f["name"] for f in cell["fixtures"] if f["shape"] == "box"]
+        + [f["name"] for f in cell["fixtures"] if f["shape"] == "cylinder"]
+        + [zone["name"] for zone in cell["keep_outs"]]
+        + ["pedestal", "floor"]
+    )
+    assert list(clearance.obstacles.names) == expected
+
+
+def test_map_covers_exactly_the_joint_range_box(demo) -> None:
+    _, clearance = demo
+    robot = clearance.arm.robot
+    hold = np.radians([10.0, 0.0, 0.0, 0.0, 30.0, 0.0])
+    result = joint_map(clearance, (1, 2), hold, resolution=(40, 30))
+    # The joint space of a serial arm with independent limits is the box of the joint
+    # ranges (common practice, no source): the grid spans [lower, upper] of the chosen joints.
+    np.testing.assert_array_equal(result.lower, robot.lower[[1, 2]])
+    np.testing.assert_array_equal(result.upper, robot.upper[[1, 2]])
+    for axis, lo, hi, cells in zip(result.axes, result.lower, result.upper, (40, 30), strict=True):
+        width = (hi - lo) / cells
+        # Cell centres lower + (i + 1/2) width (definition of the grid, module docstring).
+        np.testing.assert_allclose(axis, lo + (np.arange(cells) + 0.5) * width, atol=1e-12)
+        assert axis[0] - width / 2 == pytest.approx(lo) and axis[-1] + width / 2 == pytest.approx(
+            hi
+        )
+    q = result.configurations()
+    assert q.shape == (40, 30, 6)
+    np.testing.assert_array_equal(
+        q[..., [0, 3, 4, 5]], np.broadcast_to(hold[[0, 3, 4, 5]], (40, 30, 4))
+    )
+    # pb-arm6 limits j2 -95..155 deg, j3 -200..80 deg (robots/pb-arm6.toml).
+    np.testing.assert_allclose(result.lower_user, [-95.0, -200.0])
+    np.testing.assert_allclose(result.upper_user, [155.0, 80.0])
+
+
+def _capsule_object(a: np.ndarray, b: np.ndarray, radius: float) -> fcl.CollisionObject:
+    axis = b - a
+    length = float(np.linalg.norm(axis))
+    z = axis / length if length > 0 else np.array([0.0, 0.0, 1.0])
+    helper = np.eye(3)[np.argmin(np.abs(z))]
+    x = np.cross(helper, z)
+    x /= np.linalg.norm(x)
+    R = np.stack([x, np.cross(z, x), z], axis=1)
+    return fcl.CollisionObject(fcl.Capsule(radius, length), fcl.Transform(R, 0.5 * (a + b)))
+
+
+def _obstacle_object(clearance: ClearanceScene, o: int) -> fcl.CollisionObject:
+    obstacles = clearance.obstacles
+    kind = obstacles.kind[o]
+    params = obstacles.params[o]
+    if kind == BOX:
+        geometry = fcl.Box(*(2.0 * params))
+    else:
+        assert kind == CYLINDER
+        geometry = fcl.Cylinder(params[0], 2.0 * params[1])
+    return fcl.CollisionObject(
+        geometry, fcl.Transform(obstacles.rotation[o], obstacles.translation[o])
+    )
+
+
+def _signed(a: fcl.CollisionObject, b: fcl.CollisionObject) -> float:
+    request = fcl.DistanceRequest(enable_signed_distance=True)
+    return float(fcl.distance(a, b, request, fcl.DistanceResult()))
+
+
+def _sampled_axis_distance(first: np.ndarray, second: np.ndarray) -> float:
+    """Smallest distance between sampled points of two segments, shape (2, 3) each.
+
+    33 evenly spaced points per segment, refined four times over four spacings around the
+    closest pair; the squared distance is convex in the two segment parameters, so each
+    refined grid holds the minimiser. Final spacing about 2e-5 m, error below 1e-8 m here.
+    """
+    s_range = t_range = (0.0, 1.0)
+    best = np.inf
+    for _ in range(5):
+        s = np.linspace(*s_range, 33)
+        t = np.linspace(*t_range, 33)
+        a = first[0] + s[:, None] * (first[1] - first[0])
+        b = second[0] + t[:, None] * (second[1] - second[0])
+        d = np.linalg.norm(a[:, None, :] - b[None, :, :], axis=2)
+        i, j = np.unravel_index(np.argmin(d), d.shape)
+        best = float(d[i, j])
+        ds, dt = 2 * (s[1] - s[0]), 2 * (t[1] - t[0])
+        s_range = (max(s[i] - ds, 0.0), min(s[i] + ds, 1.0))
+        t_range = (max(t[j] - dt, 0.0), min(t[j] + dt, 1.0))
+    return best
+
+
+def reference_distances(clearance: ClearanceScene, q: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Per-obstacle signed distances from python-fcl (floor: closed form) and self distances from
+    sampled capsule axes, shapes (N, k) and (N,)."""
+    arm = clearance.arm
+    segments = capsule_segments_world(arm, q, clearance.T_world_base)
+    k = clearance.obstacles.count
+    per_obstacle = np.full((q.shape[0], k), np.inf)
+    self_distance = np.full(q.shape[0], np.inf)
+    solids = {
+        o: _obstacle_object(clearance, o) for o in range(k) if clearance.obstacles.kind[o] != FLOOR
+    }
+    for n in range(q.shape[0]):
+        capsules = [
+            _capsule_object(segments[n, c, 0], segments[n, c, 1], arm.radius[c])
+            for c in range(arm.count)
+        ]
+        for o in range(k):
+            for c in np.flatnonzero(clearance.pair_mask[:, o]):
+                if clearance.obstacles.kind[o] == FLOOR:
+                    # Capsule above the plane z = h: lowest end point's height minus the radius.
+                    d = (
+                        segments[n, c, :, 2].min()
+                        - arm.radius[c]
+                        - clearance.obstacles.params[o, 0]
+                    )
+                else:
+                    d = _signed(capsules[c], solids[o])
+                per_obstacle[n, o] = min(per_obstacle[n, o], d)
+        for i, j in clearance.self_pairs:
+            self_distance[n] = min(
+                self_distance[n],
+                _sampled_axis_distance(segments[n, i], segments[n, j])
+                - arm.radius[i]
+                - arm.radius[j],
+            )
+    return per_obstacle, self_distance
+
+
+def test_collision_cells_agree_with_fcl(demo) -> None:
+    _, clearance = demo
+    hold = np.radians([10.0, 0.0, 0.0, 0.0, 30.0, 0.0])
+    result = joint_map(clearance, (1, 2), hold, resolution=64)
+    colliding = ~result.free
+    assert 0.05 < colliding.mean() < 0.95  # the sample below has both kinds
+    rng = np.random.default_rng(2)
+    cells = np.concatenate(
+        [
+            rng.choice(np.flatnonzero(colliding.ravel()), 60, replace=False),
+            rng.choice(np.flatnonzero(~colliding.ravel()), 60, replace=False),
+        ]
+    )
+    q = result.configurations().reshape(-1, 6)[cells]
+    per_obstacle, self_distance = reference_distances(clearance, q)
+    nearest = per_obstacle.min(axis=1)
+    decided = np.abs(nearest) > BOUNDARY_M
+    assert decided.sum() > 100
+    # python-fcl signed distance: in collision exactly where the distance is negative.
+    np.testing.assert_array_equal(
+        result.obstacle.ravel()[cells][decided] >= 0, nearest[decided] < 0.0
+    )
+    decided_self = np.abs(self_distance) > BOUNDARY_M
+    np.testing.assert_array_equal(
+        result.self_collision.ravel()[cells][decided_self], self_distance[decided_self] < 0.0
+    )
+    # Separation distances agree with the references (fcl GJK converges to about 1e-6 m).
+    reference = np.minimum(nearest, self_distance)
+    free = reference > 0.0
+    assert free.sum() > 40
+    np.testing.assert_allclose(result.clearance.ravel()[cells][free], reference[free], atol=1e-5)
+    # The label is the obstacle with the smallest fcl distance where the two nearest differ clearly.
+    ordered = np.sort(per_obstacle, axis=1)
+    clear_label = (ordered[:, 0] < -BOUNDARY_M) & (ordered[:, 1] - ordered[:, 0] > BOUNDARY_M)
+    np.testing.assert_array_equal(
+        result.obstacle.ravel()[cells][clear_label], np.argmin(per_obstacle, axis=1)[clear_label]
+    )
+    # Every obstacle marked colliding in a cell has a negative fcl distance (or is at the boundary).
+    hits = result.colliding.reshape(-1, result.colliding_obstacles.shape[0])[cells]
+    hit_distance = per_obstacle[:, result.colliding_obstacles]
+    assert np.all(hit_distance[hits] < BOUNDARY_M)
+    assert np.all(hits[hit_distance < -BOUNDARY_M])
+
+
+def test_three_joint_map_through_an_executor_equals_in_process(demo) -> None:
+    _, clearance = demo
+    hold = np.radians([0.0, 0.0, 0.0, 0.0, 30.0, 0.0])
+    calls: list[tuple[int, int]] = []
+    direct = joint_map(clearance, (0, 1, 2), hold, resolution=(12, 40, 80))
+    with SerialExecutor() as executor:
+        chunked = joint_map(
+            clearance,
+            (0, 1, 2),
+            hold,
+            resolution=(12, 40, 80),
+            executor=executor,
+            progress=lambda done, total: calls.append((done, total)),
+        )
+    assert chunked.shape == (12, 40, 80)
+    # Same cells, same kernel: the chunked result equals the in-process one exactly.
+    for name in ("obstacle", "self_collision", "clearance", "colliding_obstacles", "colliding"):
+        np.testing.assert_array_equal(getattr(chunked, name), getattr(direct, name))
+    assert calls[-1] == (2, 2) and len(calls) == 2  # 38 400 cells in chunks of 32 768
+
+
+def test_cancel_stops_the_map(demo) -> None:
+    _, clearance = demo
+    cancel = threading.Event()
+    cancel.set()
+    with pytest.raises(ComputationCancelled, match="cancelled after 0 of"):
+        joint_map(clearance, (0, 1), np.zeros(6), resolution=16, cancel=cancel)
+
+
+@pytest.mark.parametrize(
+    ("joints", "resolution", "message"),
+    [
+        ((1,), 16, "expected 2 or 3 joint indices"),
+        ((1, 1), 16, "expected distinct indices in 0..5"),
+        ((1, 6), 16, "expected distinct indices in 0..5"),
+        ((1, 2), 513, "expected 2 cell counts in 2..512"),
+        ((0, 1, 2), 129, "expected 3 cell counts in 2..128"),
+        ((0, 1), (16, 16, 16), "expected 2 cell counts"),
+    ],
+)
+def test_bad_requests_are_refused(demo, joints, resolution, message) -> None:
+    _, clearance = demo
+    with pytest.raises(SpacesInputError, match=message):
+        joint_map(clearance, joints, np.zeros(6), resolution=resolution)
+
+
+def test_bad_held_values_are_refused(demo) -> None:
+    _, clearance = demo
+    with pytest.raises(
+        SpacesInputError, match=r"q_hold: expected 6 finite joint values, got shape \(5,\)"
+    ):
+        joint_map(clearance, (0, 1), np.zeros(5), resolution=8)
