@@ -1,6 +1,8 @@
 // Edits of the page state. Views call these; linking.js reacts to the
 // resulting state changes by asking the server for FK or IK.
 
+import { branchOf } from "./branches.js";
+
 /**
  * Actions bound to one store.
  * @param {{store: ReturnType<import("./state.js").createStore>}} options
@@ -36,7 +38,7 @@ export function createActions({ store }) {
   /** Take an IK solution: the arm moves onto it and follows its branch from now on. */
   function selectSolution(solution) {
     store.update(
-      { joints: [...solution.joints_deg], selectedBranch: solution.branch },
+      { joints: [...solution.joints_deg], selectedBranch: branchOf(solution) },
       { reason: "solution" },
     );
   }
@@ -65,6 +67,10 @@ export function createActions({ store }) {
     store.update({ follow });
   }
 
+  function setDragging(dragging) {
+    store.update({ dragging });
+  }
+
   function setStatus(level, message) {
     store.update({ status: { level, message } });
   }
@@ -80,6 +86,7 @@ export function createActions({ store }) {
     setStep,
     setSnap,
     setFollow,
+    setDragging,
     setStatus,
   };
 }

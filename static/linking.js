@@ -4,32 +4,7 @@
 // a drag sends at most one request per frame and stale answers are dropped.
 
 import { createLatestChannel } from "./api.js";
-
-/** Squared distance between two joint vectors. */
-function jointDistance(a, b) {
-  return a.reduce((sum, value, i) => sum + (value - b[i]) ** 2, 0);
-}
-
-/** The solution to follow: same branch words nearest the current joints, else nothing. */
-export function followSolution({ solutions, branch, joints }) {
-  const candidates = solutions.filter((s) => s.branch === branch);
-  if (candidates.length === 0) {
-    return null;
-  }
-  return candidates.reduce((best, s) =>
-    jointDistance(s.joints_deg, joints) < jointDistance(best.joints_deg, joints) ? s : best,
-  );
-}
-
-/** The solution nearest the current joints (used to find the arm's own branch). */
-export function nearestSolution({ solutions, joints }) {
-  if (solutions.length === 0) {
-    return null;
-  }
-  return solutions.reduce((best, s) =>
-    jointDistance(s.joints_deg, joints) < jointDistance(best.joints_deg, joints) ? s : best,
-  );
-}
+import { branchOf, followSolution, nearestSolution } from "./branches.js";
 
 function ikSummary(result) {
   const total = result.solutions.length;
@@ -82,12 +57,12 @@ export function createLinking({ store, actions, api }) {
               });
         if (chosen) {
           store.update(
-            { joints: [...chosen.joints_deg], selectedBranch: chosen.branch },
+            { joints: [...chosen.joints_deg], selectedBranch: branchOf(chosen) },
             { reason: "follow" },
           );
         } else {
           summary.level = "warn";
-          summary.message = `Target not reachable on branch "${state.selectedBranch}"; ${summary.message}`;
+          summary.message = `Target not reachable on branch "${state.selectedBranch.label}"; ${summary.message}`;
         }
       }
       actions.setStatus(summary.level, summary.message);

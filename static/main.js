@@ -30,13 +30,32 @@ async function start() {
     onRobotChosen: (spec) => linking.loadRobot(spec),
   });
   createSceneView({ element: byId("scene3d"), store, palette });
-  createProjectionView({ element: byId("plan"), store, actions, palette, axes: [0, 1], depthAxis: 2, viewerSide: 1 });
-  createProjectionView({ element: byId("elevation"), store, actions, palette, axes: [0, 2], depthAxis: 1, viewerSide: -1 });
+  createProjectionView({
+    element: byId("plan"),
+    overlay: byId("plan-overlay"),
+    store,
+    actions,
+    palette,
+    axes: [0, 1],
+    depthAxis: 2,
+    viewerSide: 1,
+  });
+  createProjectionView({
+    element: byId("elevation"),
+    overlay: byId("elevation-overlay"),
+    store,
+    actions,
+    palette,
+    axes: [0, 2],
+    depthAxis: 1,
+    viewerSide: -1,
+  });
   createTargetPanel({ container: byId("target-panel"), store, actions });
   createToolPanel({ container: byId("tool-panel"), store });
   createJointMapView({
     element: byId("joint-map"),
     note: byId("map-note"),
+    legend: byId("map-legend"),
     header: byId("map-pair"),
     store,
     actions,

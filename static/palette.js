@@ -27,7 +27,7 @@ export function branchStyle(palette, { shoulder, elbow, wrist }) {
   }
   const signs = [shoulder, elbow, wrist];
   if (signs.some((s) => s === 0) && !(shoulder === 0 && wrist === 0)) {
-    return { color: palette["branch-singular"], symbol: "circle-open", glyph: "○", key: "singular" };
+    return { color: palette["branch-singular"], symbol: "circle-x", glyph: "⊗", key: "singular" };
   }
   const index = (shoulder < 0 ? 4 : 0) + (elbow < 0 ? 2 : 0) + (wrist < 0 ? 1 : 0);
   return {

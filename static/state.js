@@ -12,8 +12,9 @@
  *   target          {position_mm: [x, y, z], rpy_deg: [r, p, y]} or null
  *   targetInputAt   performance.now() of the input event that last moved the target
  *   ik              {result, target, inputAt} of the latest inverse kinematics answer, or null
- *   selectedBranch  branch words of the solution the arm follows, or null
+ *   selectedBranch  {label, shoulder, elbow, wrist} of the branch the arm follows, or null
  *   follow          the arm follows the target on the selected branch
+ *   dragging        a pointer drag is in progress in a 2D view
  *   mapJoints       [i, j]: joint indices on the joint map's horizontal and vertical axes
  *   stepMm          nudge step and snapping grid for positions, mm
  *   stepDeg         nudge step for angles, deg
@@ -32,6 +33,7 @@ export function initialState() {
     ik: null,
     selectedBranch: null,
     follow: true,
+    dragging: false,
     mapJoints: [0, 1],
     stepMm: 10,
     stepDeg: 5,

@@ -14,7 +14,7 @@ export function createSolutionsPanel({ container, store, actions, palette }) {
 
   function isCurrent(solution, { joints, selectedBranch }) {
     return (
-      solution.branch === selectedBranch &&
+      selectedBranch !== null && solution.branch === selectedBranch.label &&
       solution.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6)
     );
   }

@@ -1,16 +1,33 @@
-// Coalesces redraw requests to at most one per display frame.
+// Redraw scheduling: at most one redraw per display frame, and optionally no
+// more often than a minimum interval, so heavy views (3D) do not hold up the
+// light ones while the user drags.
 
-/** Returns `request()`: calls `render()` once on the next animation frame. */
-export function frameScheduler({ render }) {
+/**
+ * Returns `request()`: calls `render()` on an animation frame, at most once per
+ * frame and no sooner than `minIntervalMs` after the previous call; the last
+ * request is always honoured. `minIntervalMs` may be a function, read each time.
+ */
+export function frameScheduler({ render, minIntervalMs = 0 }) {
+  const interval = typeof minIntervalMs === "function" ? minIntervalMs : () => minIntervalMs;
   let scheduled = false;
+  let lastRenderAt = -Infinity;
+
+  function run() {
+    const wait = lastRenderAt + interval() - performance.now();
+    if (wait > 0) {
+      setTimeout(() => requestAnimationFrame(run), wait);
+      return;
+    }
+    scheduled = false;
+    lastRenderAt = performance.now();
+    render();
+  }
+
   return function request() {
     if (scheduled) {
       return;
     }
     scheduled = true;
-    requestAnimationFrame(() => {
-      scheduled = false;
-      render();
-    });
+    requestAnimationFrame(run);
   };
 }

@@ -28,12 +28,14 @@ function paddedRange(joint) {
 }
 
 /**
- * @param {{element: HTMLElement, note: HTMLElement, header: HTMLElement, store: object,
- *          actions: object, palette: object}} options
- *   header: where the joint pair selectors go; note: the slice explanation.
+ * @param {{element: HTMLElement, note: HTMLElement, legend: HTMLElement, header: HTMLElement,
+ *          store: object, actions: object, palette: object}} options
+ *   header: where the joint pair selectors go; note: the slice explanation;
+ *   legend: the branch legend (HTML, so that it costs no plot redraw).
  */
-export function createJointMapView({ element, note, header, store, actions, palette }) {
+export function createJointMapView({ element, note, legend, header, store, actions, palette }) {
   let lastRenderedIk = null;
+  let legendKey = null;
   const selectors = [0, 1].map((slot) => {
     const label = document.createElement("label");
     label.className = "pb-hint";
@@ -66,8 +68,7 @@ export function createJointMapView({ element, note, header, store, actions, pale
     });
   }
 
-  function solutionTraces({ ik, mapJoints, selectedBranch, joints }) {
-    const [a, b] = mapJoints;
+  function solutionGroups(ik) {
     const groups = new Map();
     ik.result.solutions.forEach((solution, index) => {
       const style = branchStyle(palette, solution);
@@ -78,7 +79,12 @@ export function createJointMapView({ element, note, header, store, actions, pale
       }
       groups.get(key).points.push({ solution, index });
     });
-    const traces = [...groups.values()].map(({ style, words, points }) => ({
+    return [...groups.values()];
+  }
+
+  function solutionTraces({ ik, mapJoints, selectedBranch, joints }, groups) {
+    const [a, b] = mapJoints;
+    const traces = groups.map(({ style, words, points }) => ({
       type: "scatter",
       mode: "markers",
       name: words,
@@ -95,7 +101,7 @@ export function createJointMapView({ element, note, header, store, actions, pale
       meta: { role: "ik-solutions" },
     }));
     const selected = ik.result.solutions.find(
-      (s) => s.branch === selectedBranch && s.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6),
+      (s) => selectedBranch !== null && s.branch === selectedBranch.label && s.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6),
     );
     if (selected) {
       traces.push({
@@ -122,9 +128,11 @@ export function createJointMapView({ element, note, header, store, actions, pale
     const [a, b] = mapJoints;
     const [ja, jb] = [robot.joints[a], robot.joints[b]];
     const data = [];
-    if (ik && ik.result.solutions.length > 0) {
-      data.push(...solutionTraces(state));
+    const groups = ik ? solutionGroups(ik) : [];
+    if (groups.length > 0) {
+      data.push(...solutionTraces(state, groups));
     }
+    renderLegend(groups);
     data.push({
       type: "scatter",
       mode: "markers",
@@ -141,19 +149,6 @@ export function createJointMapView({ element, note, header, store, actions, pale
       yRange: paddedRange(jb),
       palette,
     });
-    layout.margin = { l: 58, r: 12, t: 10, b: 42 };
-    layout.showlegend = true;
-    layout.legend = {
-      orientation: "h",
-      x: 0,
-      y: -0.14,
-      yanchor: "top",
-      title: { text: "Branch (shoulder, elbow, wrist); ✛ current configuration", side: "top" },
-      itemclick: false,
-      itemdoubleclick: false,
-      font: { size: 12 },
-    };
-    layout.margin.b = 90;
     layout.shapes = [
       {
         type: "rect",
@@ -224,6 +219,29 @@ export function createJointMapView({ element, note, header, store, actions, pale
     }
   }
 
+  function renderLegend(groups) {
+    const key = groups.map((group) => `${group.style.key}|${group.words}`).join(";");
+    if (key === legendKey) {
+      return;
+    }
+    legendKey = key;
+    const entries = groups.map(({ style, words }) => {
+      const glyph = document.createElement("span");
+      glyph.className = "pb-swatch";
+      glyph.textContent = style.glyph;
+      glyph.style.color = style.color;
+      const entry = document.createElement("span");
+      entry.append(glyph, ` ${words}`);
+      return entry;
+    });
+    const title = document.createElement("span");
+    title.className = "pb-legend-title";
+    title.textContent = groups.length ? "Branch (shoulder, elbow, wrist):" : "No solution for the target";
+    const current = document.createElement("span");
+    current.textContent = "✛ current configuration";
+    legend.replaceChildren(title, ...entries, current);
+  }
+
   function sliceNote({ robot, joints, mapJoints }) {
     const others = robot.joints
       .map((joint, index) => ({ joint, index }))
@@ -270,6 +288,7 @@ export function createJointMapView({ element, note, header, store, actions, pale
 
   attachDrag({
     figure: element,
+    onDragging: (active) => actions.setDragging(active),
     onPress: (point, event) => {
       if (!store.get().robot) {
         return false;

@@ -93,9 +93,10 @@ export function pointerFromData(figure, x, y) {
  *
  * `onPress(point, event)` decides whether a press starts a drag (return true);
  * `onMove(point, event)` follows the pointer while pressed; `onRelease()` ends it.
- * Points are data coordinates from dataFromPointer.
+ * `onDragging(active)` is told when a drag starts and ends. Points are data
+ * coordinates from dataFromPointer.
  */
-export function attachDrag({ figure, onPress, onMove, onRelease = () => {} }) {
+export function attachDrag({ figure, onPress, onMove, onRelease = () => {}, onDragging = () => {} }) {
   let dragging = false;
   figure.addEventListener(
     "pointerdown",
@@ -108,6 +109,7 @@ export function attachDrag({ figure, onPress, onMove, onRelease = () => {} }) {
         return;
       }
       dragging = true;
+      onDragging(true);
       figure.setPointerCapture(event.pointerId);
       event.preventDefault();
       event.stopPropagation();
@@ -129,6 +131,7 @@ export function attachDrag({ figure, onPress, onMove, onRelease = () => {} }) {
       dragging = false;
       figure.releasePointerCapture(event.pointerId);
       onRelease();
+      onDragging(false);
     }
   };
   figure.addEventListener("pointerup", end, { capture: true });

@@ -1,7 +1,9 @@
 // A 2D orthographic view of the cell: plan (x-y, seen from above) or
 // elevation (x-z, seen from the -y side). The arm's capsules project to
 // stadium outlines; the target can be dragged, typed (target panel) or nudged
-// with the keyboard.
+// with the keyboard. The target is drawn on an SVG layer above the plot, so
+// moving it costs no plot redraw; the arm is redrawn at most every
+// ARM_REDRAW_MS while it follows a drag.
 
 import { attachDrag, draw, layout2d, pointerFromData } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
@@ -12,6 +14,8 @@ const AXIS_NAMES = ["x", "y", "z"];
 const GRAB_RADIUS_PX = 18;
 const STADIUM_STEPS = 10;
 const APPROACH_LENGTH_MM = 120;
+const ARM_REDRAW_MS = 80;
+const SVG = "http://www.w3.org/2000/svg";
 
 /**
  * Outline of the orthographic projection of a capsule onto a plane: the
@@ -43,13 +47,22 @@ function paddedRange(lower, upper, pad) {
 }
 
 /**
- * @param {{element: HTMLElement, store: object, actions: object, palette: object,
+ * @param {{element: HTMLElement, overlay: SVGElement, store: object, actions: object, palette: object,
  *          axes: [number, number], depthAxis: number, viewerSide: 1 | -1}} options
  *   axes: indices of the horizontal and vertical data axes (0 x, 1 y, 2 z);
  *   depthAxis: the viewing direction's axis; viewerSide: the viewer sits on its
  *   positive (1) or negative (-1) side. Farther capsules are drawn first.
  */
-export function createProjectionView({ element, store, actions, palette, axes, depthAxis, viewerSide }) {
+export function createProjectionView({
+  element,
+  overlay,
+  store,
+  actions,
+  palette,
+  axes,
+  depthAxis,
+  viewerSide,
+}) {
   const [h, v] = axes;
   const third = [0, 1, 2].find((k) => k !== h && k !== v);
   let dragging = false;
@@ -105,34 +118,40 @@ export function createProjectionView({ element, store, actions, palette, axes, d
     ];
   }
 
-  function targetTraces(target) {
-    const approach = column(matrixFromRpyDeg(target.rpy_deg), 2);
+  const approach = document.createElementNS(SVG, "line");
+  approach.setAttribute("class", "pb-target-approach");
+  const mark = document.createElementNS(SVG, "path");
+  mark.setAttribute("class", "pb-target-mark");
+  mark.setAttribute("d", "M 0 -9 L 9 0 L 0 9 L -9 0 Z");
+  overlay.append(approach, mark);
+
+  /** Place the target diamond and its approach line (tool z axis) on the overlay. */
+  function placeTarget() {
+    const { target } = store.get();
+    const ready = target && element._fullLayout && element.querySelector(".nsewdrag");
+    overlay.style.display = ready ? "" : "none";
+    if (!ready) {
+      return;
+    }
+    const box = overlay.getBoundingClientRect();
+    const axis = column(matrixFromRpyDeg(target.rpy_deg), 2);
     const [px, py] = [target.position_mm[h], target.position_mm[v]];
-    return [
-      {
-        name: "target approach",
-        x: [px, px + APPROACH_LENGTH_MM * approach[h]],
-        y: [py, py + APPROACH_LENGTH_MM * approach[v]],
-        mode: "lines",
-        line: { color: palette.target, width: 2, dash: "dot" },
-      },
-      {
-        name: "target",
-        x: [px],
-        y: [py],
-        mode: "markers",
-        marker: {
-          size: 15,
-          symbol: "diamond",
-          color: palette.target,
-          line: { color: "#ffffff", width: 1.5 },
-        },
-      },
-    ];
+    const at = pointerFromData(element, px, py);
+    const tip = pointerFromData(
+      element,
+      px + APPROACH_LENGTH_MM * axis[h],
+      py + APPROACH_LENGTH_MM * axis[v],
+    );
+    const [x, y] = [at.clientX - box.left, at.clientY - box.top];
+    mark.setAttribute("transform", `translate(${x.toFixed(1)} ${y.toFixed(1)})`);
+    approach.setAttribute("x1", x.toFixed(1));
+    approach.setAttribute("y1", y.toFixed(1));
+    approach.setAttribute("x2", (tip.clientX - box.left).toFixed(1));
+    approach.setAttribute("y2", (tip.clientY - box.top).toFixed(1));
   }
 
   function render() {
-    const { robot, fk, target } = store.get();
+    const { robot, fk } = store.get();
     if (!robot) {
       return;
     }
@@ -140,9 +159,6 @@ export function createProjectionView({ element, store, actions, palette, axes, d
     const data = [];
     if (fk && fk.capsules) {
       data.push(...robotTraces(fk));
-    }
-    if (target) {
-      data.push(...targetTraces(target));
     }
     const layout = layout2d({
       xTitle: `${AXIS_NAMES[h]} (mm)`,
@@ -153,11 +169,13 @@ export function createProjectionView({ element, store, actions, palette, axes, d
       palette,
     });
     layout.uirevision = robot.robot;
-    draw(element, data, layout);
+    draw(element, data, layout).then(placeTarget);
   }
 
-  const requestRender = frameScheduler({ render });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "target"] });
+  const requestRender = frameScheduler({ render, minIntervalMs: ARM_REDRAW_MS });
+  store.subscribe(requestRender, { keys: ["robot", "fk"] });
+  store.subscribe(placeTarget, { keys: ["target"] });
+  new ResizeObserver(placeTarget).observe(element);
 
   function movedTarget(point) {
     const { target, snap, stepMm } = store.get();
@@ -169,6 +187,7 @@ export function createProjectionView({ element, store, actions, palette, axes, d
 
   attachDrag({
     figure: element,
+    onDragging: (active) => actions.setDragging(active),
     onPress: (point, event) => {
       const { target } = store.get();
       if (!target) {

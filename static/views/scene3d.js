@@ -8,6 +8,10 @@ import { column, matrixFromQuaternion, matrixFromRpyDeg } from "../rotation.js";
 const RING_STEPS = 14;
 const CAP_RINGS = 3;
 const TRIAD_LENGTH_MM = 100;
+// The 3D view is the costliest redraw (WebGL, often software-rendered): while
+// the user drags in a 2D view it is redrawn at most this often, and in full
+// when the drag ends, so the dragged views stay responsive.
+const SCENE_REDRAW_WHILE_DRAGGING_MS = 400;
 
 function sub(a, b) {
   return [a[0] - b[0], a[1] - b[1], a[2] - b[2]];
@@ -217,7 +221,10 @@ export function createSceneView({ element, store, palette }) {
     draw(element, data, layout);
   }
 
-  const requestRender = frameScheduler({ render });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "target"] });
+  const requestRender = frameScheduler({
+    render,
+    minIntervalMs: () => (store.get().dragging ? SCENE_REDRAW_WHILE_DRAGGING_MS : 0),
+  });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging"] });
   return { render };
 }

@@ -1,0 +1,19 @@
+"""Liveness of the server."""
+
+from __future__ import annotations
+
+from importlib.metadata import version
+
+from fastapi import APIRouter
+
+from posebridge.api.schemas.health import HealthResult
+
+__all__ = ["router"]
+
+router = APIRouter(prefix="/api/health", tags=["health"])
+
+
+@router.get("", summary="Server is up")
+def read_health() -> HealthResult:
+    """Answers as soon as the server accepts requests."""
+    return HealthResult(status="ok", version=version("posebridge"))

@@ -1,0 +1,52 @@
+"""Forward and inverse kinematics of one robot."""
+
+from __future__ import annotations
+
+from fastapi import APIRouter
+
+from posebridge.api.deps import RobotsDep
+from posebridge.api.schemas.errors import error_responses
+from posebridge.api.schemas.kinematics import (
+    FkRequest,
+    FkResult,
+    IkRequest,
+    IkResult,
+    fk_result,
+    ik_result,
+    joints_si_from_request,
+    pose_transform,
+    tool_transform,
+)
+from posebridge.kinematics.ik import solve_ik_all
+
+__all__ = ["router"]
+
+router = APIRouter(prefix="/api", tags=["kinematics"])
+
+
+@router.post("/fk", summary="Forward kinematics", responses=error_responses(403, 422))
+def compute_fk(request: FkRequest, robots: RobotsDep) -> FkResult:
+    """TCP pose, manipulability, limit margins and drawing geometry per joint configuration."""
+    robot = robots.get(request.robot)
+    q = joints_si_from_request(robot, request.joints_deg)
+    return fk_result(robot, q, T_flange_tool=tool_transform(request.tool), spec=request.robot)
+
+
+@router.post("/ik", summary="Inverse kinematics", responses=error_responses(403, 422))
+def compute_ik(request: IkRequest, robots: RobotsDep) -> IkResult:
+    """Every solution of one tool pose on every arm branch, or the reason there is none."""
+    robot = robots.get(request.robot)
+    T_flange_tool = tool_transform(request.tool)
+    seed = (
+        None
+        if request.seed_deg is None
+        else joints_si_from_request(robot, [request.seed_deg], field="seed_deg")[0]
+    )
+    solutions = solve_ik_all(
+        robot,
+        pose_transform(request.pose),
+        T_flange_tool=T_flange_tool,
+        seed=seed,
+        all_turns=request.all_turns,
+    )
+    return ik_result(robot, solutions, T_flange_tool=T_flange_tool, spec=request.robot)

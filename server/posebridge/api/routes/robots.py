@@ -1,0 +1,42 @@
+"""The bundled robot library and robot model descriptions."""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, Query
+
+from posebridge.api.deps import RobotsDep, SettingsDep
+from posebridge.api.schemas.errors import error_responses
+from posebridge.api.schemas.robots import (
+    RobotList,
+    RobotModel,
+    robot_model_from_robot,
+    robot_summary_from_bundled,
+)
+from posebridge.robot.library import bundled_robots
+
+__all__ = ["router"]
+
+router = APIRouter(prefix="/api/robots", tags=["robots"])
+
+
+@router.get("", summary="List the bundled robots")
+def list_robots(settings: SettingsDep) -> RobotList:
+    """Every bundled robot description, sorted by name, and the robot the page opens with."""
+    return RobotList(
+        robots=[robot_summary_from_bundled(bundled) for bundled in bundled_robots()],
+        default_robot=settings.robot,
+    )
+
+
+@router.get("/model", summary="Describe one robot", responses=error_responses(403, 422))
+def read_robot_model(
+    robots: RobotsDep,
+    robot: Annotated[
+        str,
+        Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
+    ],
+) -> RobotModel:
+    """Joints with limits and units, default tool, home configuration and drawing bounds."""
+    return robot_model_from_robot(robots.get(robot), robot)

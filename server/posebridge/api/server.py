@@ -1,0 +1,149 @@
+"""Serving the app with uvicorn: ``posebridge serve`` and in-process servers for tests and bench.
+
+The server binds the loopback interface by default. Any other address makes
+the dashboard reachable from other machines, so it is refused unless the
+caller asks to share explicitly.
+"""
+
+from __future__ import annotations
+
+import ipaddress
+import socket
+import threading
+from collections.abc import Iterator
+from contextlib import contextmanager
+from pathlib import Path
+
+import uvicorn
+
+from posebridge.api.app import create_app
+from posebridge.api.settings import Settings
+
+__all__ = ["ServerConfigError", "background_server", "is_loopback", "run_server"]
+
+_START_TIMEOUT_S = 60.0
+
+
+class ServerConfigError(ValueError):
+    """The server cannot be started as asked (address, port, files)."""
+
+
+def is_loopback(host: str) -> bool:
+    """Whether ``host`` names this machine only (``localhost``, 127.0.0.0/8, ``::1``)."""
+    if host.lower() == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host.strip("[]")).is_loopback
+    except ValueError:
+        return False
+
+
+def _bind(host: str, port: int) -> socket.socket:
+    """A listening-ready TCP socket bound to ``host:port`` (port 0 picks a free port)."""
+    try:
+        family, kind, proto, _, address = socket.getaddrinfo(
+            host.strip("[]"), port, type=socket.SOCK_STREAM
+        )[0]
+        sock = socket.socket(family, kind, proto)
+        sock.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
+        sock.bind(address)
+    except OSError as error:
+        raise ServerConfigError(
+            f"cannot listen on {host}:{port}: {error.strerror or error}"
+        ) from error
+    sock.set_inheritable(True)
+    return sock
+
+
+def _url(host: str, sock: socket.socket) -> str:
+    port = sock.getsockname()[1]
+    shown = f"[{host.strip('[]')}]" if ":" in host else host
+    return f"http://{shown}:{port}/"
+
+
+def _uvicorn_server(settings: Settings, log_level: str) -> uvicorn.Server:
+    config = uvicorn.Config(create_app(settings), log_level=log_level, lifespan="on")
+    return uvicorn.Server(config)
+
+
+def run_server(
+    host: str = "127.0.0.1",
+    port: int = 8000,
+    cell_path: Path | None = None,
+    *,
+    robot: str = "pb-arm6",
+    share: bool = False,
+    log_level: str = "warning",
+) -> None:
+    """Serve the dashboard until interrupted; prints the URL and opens nothing.
+
+    Parameters
+    ----------
+    host : str
+        Address to bind; loopback only unless ``share``.
+    port : int
+        TCP port; 0 picks a free one.
+    cell_path : Path, optional
+        Cell file to open.
+    robot : str
+        Robot the page opens with (bundled name or .toml/.urdf path).
+    share : bool
+        Allow a non-loopback ``host``. Robot files are then not read from
+        paths sent by the page.
+    log_level : str
+        uvicorn log level.
+
+    Raises
+    ------
+    ServerConfigError
+        Non-loopback host without ``share``, missing cell file, or the
+        address cannot be bound.
+    """
+    if not share and not is_loopback(host):
+        raise ServerConfigError(
+            f"host: {host!r} is not a loopback address; the dashboard would be reachable from "
+            "other machines. Use 127.0.0.1 (default), or pass share to serve it on purpose"
+        )
+    if cell_path is not None and not Path(cell_path).is_file():
+        raise ServerConfigError(f"cell: no such file {str(cell_path)!r}")
+    settings = Settings(robot=robot, cell_path=cell_path, robot_paths_allowed=not share)
+    sock = _bind(host, port)
+    print(f"posebridge is serving on {_url(host, sock)}  (Ctrl+C stops it)", flush=True)
+    if share:
+        print("sharing: anyone who can reach this address can use the dashboard", flush=True)
+    _uvicorn_server(settings, log_level).run(sockets=[sock])
+
+
+@contextmanager
+def background_server(
+    settings: Settings | None = None, *, host: str = "127.0.0.1"
+) -> Iterator[str]:
+    """Run the app on a free loopback port in a thread; yields its base URL (ending in ``/``).
+
+    For tests and ``posebridge bench``. The server stops when the block ends.
+
+    Raises
+    ------
+    ServerConfigError
+        ``host`` is not a loopback address, or the server did not start.
+    """
+    if not is_loopback(host):
+        raise ServerConfigError(f"host: background servers bind loopback only, got {host!r}")
+    sock = _bind(host, 0)
+    server = _uvicorn_server(settings or Settings(), "warning")
+    thread = threading.Thread(
+        target=server.run, kwargs={"sockets": [sock]}, name="posebridge-server", daemon=True
+    )
+    thread.start()
+    try:
+        waited = 0.0
+        while not server.started:
+            if not thread.is_alive() or waited > _START_TIMEOUT_S:
+                raise ServerConfigError("the background server did not start")
+            thread.join(0.05)
+            waited += 0.05
+        yield _url(host, sock)
+    finally:
+        server.should_exit = True
+        thread.join(timeout=10)
+        sock.close()

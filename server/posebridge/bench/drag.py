@@ -1,0 +1,200 @@
+"""Drag-to-update round trip of the dashboard, measured in a headless browser.
+
+One sample: the pointer moves the target in the plan view; the page records
+the time from that input event (its ``timeStamp``) to the moment the joint map
+has drawn the inverse kinematics markers for the new target (the page's
+``posebridge:ik-rendered`` event). Samples are taken one after another, so
+each includes the request, the solver, the answer and the redraw.
+
+Needs the ``playwright`` Python package and a Chromium binary (Debian's
+``chromium`` package by default); no browser is downloaded.
+"""
+
+from __future__ import annotations
+
+import math
+import shutil
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+__all__ = [
+    "CHROMIUM_ARGS",
+    "CHROMIUM_PATH",
+    "bench_drag",
+    "chromium_available",
+    "launch_chromium",
+    "measure_drag_roundtrip",
+    "plan_marker_position",
+]
+
+CHROMIUM_PATH = Path("/usr/bin/chromium")
+CHROMIUM_ARGS = (
+    "--headless",
+    "--no-sandbox",
+    "--disable-gpu",
+    "--no-first-run",
+    "--disable-background-networking",
+    "--disable-component-update",
+    "--disable-sync",
+)
+_VIEWPORT = {"width": 1600, "height": 1250}
+_READY_TIMEOUT_MS = 60_000
+_SAMPLE_TIMEOUT_MS = 5_000
+_DRAG_RADIUS_PX = 8.0
+
+_READY_SCRIPT = """() => {
+  const state = window.posebridge && window.posebridge.getState();
+  return Boolean(state && state.fk && state.ik && state.target);
+}"""
+
+# Client pixel position of the target marker in the plan view.
+_MARKER_SCRIPT = """() => {
+  const figure = document.getElementById("plan");
+  const target = window.posebridge.getState().target;
+  const area = figure.querySelector(".nsewdrag").getBoundingClientRect();
+  const xr = figure._fullLayout.xaxis.range;
+  const yr = figure._fullLayout.yaxis.range;
+  return {
+    x: area.left + ((target.position_mm[0] - xr[0]) / (xr[1] - xr[0])) * area.width,
+    y: area.top + ((yr[1] - target.position_mm[1]) / (yr[1] - yr[0])) * area.height,
+  };
+}"""
+
+# Resolves with the detail of the next ik-rendered event, or null after a timeout.
+_ARM_SCRIPT = """(timeoutMs) => {
+  window.__posebridgeNextRender = new Promise((resolve) => {
+    const timer = setTimeout(() => resolve(null), timeoutMs);
+    document.addEventListener("posebridge:ik-rendered", (event) => {
+      clearTimeout(timer);
+      resolve(event.detail);
+    }, { once: true });
+  });
+}"""
+
+
+def chromium_available(executable: Path = CHROMIUM_PATH) -> bool:
+    """Whether the Chromium binary and the playwright package are both present."""
+    try:
+        import playwright.sync_api  # noqa: F401
+    except ImportError:
+        return False
+    return executable.is_file() or shutil.which(str(executable)) is not None
+
+
+def launch_chromium(playwright: Any, *, executable: Path = CHROMIUM_PATH) -> Any:
+    """Start headless Chromium from ``executable`` with the project's fixed flags."""
+    return playwright.chromium.launch(executable_path=str(executable), args=list(CHROMIUM_ARGS))
+
+
+def plan_marker_position(page: Any) -> tuple[float, float]:
+    """Client pixel position of the target marker in the plan view of an open page."""
+    point = page.evaluate(_MARKER_SCRIPT)
+    return float(point["x"]), float(point["y"])
+
+
+def measure_drag_roundtrip(
+    base_url: str,
+    samples: int = 50,
+    *,
+    executable: Path = CHROMIUM_PATH,
+    browser: Any | None = None,
+) -> dict[str, float]:
+    """Drag the plan-view target ``samples`` times and time each input-to-markers update.
+
+    Parameters
+    ----------
+    base_url : str
+        The dashboard's address, e.g. ``http://127.0.0.1:8000/``.
+    samples : int
+        Number of pointer moves, each waited for before the next.
+    executable : Path
+        Chromium binary, started here unless ``browser`` is given.
+    browser : playwright Browser, optional
+        An already running browser (sync API) to open the page in.
+
+    Returns
+    -------
+    dict
+        ``samples`` (completed), ``missed`` (moves with no update within
+        5 s), and ``p50_ms``, ``p95_ms``, ``max_ms``, ``mean_ms`` of the
+        round trip in milliseconds (NaN when no sample completed).
+    """
+    if browser is not None:
+        return _summary(*_drag_samples(browser, base_url, samples))
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        started = launch_chromium(playwright, executable=executable)
+        try:
+            return _summary(*_drag_samples(started, base_url, samples))
+        finally:
+            started.close()
+
+
+def _drag_samples(browser: Any, base_url: str, samples: int) -> tuple[list[float], int]:
+    """Round-trip times (ms) of ``samples`` sequential drag moves, and the count of moves missed."""
+    times: list[float] = []
+    missed = 0
+    page = browser.new_page(viewport=_VIEWPORT)
+    try:
+        page.goto(base_url)
+        page.wait_for_function(_READY_SCRIPT, timeout=_READY_TIMEOUT_MS)
+        x0, y0 = plan_marker_position(page)
+        page.mouse.move(x0, y0)
+        page.mouse.down()
+        for k in range(samples):
+            angle = 2.0 * math.pi * (k + 1) / max(samples, 1)
+            page.evaluate(_ARM_SCRIPT, _SAMPLE_TIMEOUT_MS)
+            page.mouse.move(
+                x0 + _DRAG_RADIUS_PX * math.sin(angle),
+                y0 - _DRAG_RADIUS_PX * (1.0 - math.cos(angle)),
+            )
+            detail = page.evaluate("() => window.__posebridgeNextRender")
+            if detail is None:
+                missed += 1
+            else:
+                times.append(float(detail["elapsedMs"]))
+        page.mouse.up()
+    finally:
+        page.close()
+    return times, missed
+
+
+def _summary(times: list[float], missed: int) -> dict[str, float]:
+    if not times:
+        nan = float("nan")
+        return {
+            "samples": 0.0,
+            "missed": float(missed),
+            "p50_ms": nan,
+            "p95_ms": nan,
+            "max_ms": nan,
+            "mean_ms": nan,
+        }
+    values = np.asarray(times)
+    return {
+        "samples": float(values.size),
+        "missed": float(missed),
+        "p50_ms": float(np.percentile(values, 50)),
+        "p95_ms": float(np.percentile(values, 95)),
+        "max_ms": float(values.max()),
+        "mean_ms": float(values.mean()),
+    }
+
+
+def bench_drag(quick: bool) -> dict[str, float]:
+    """Drag round trip on the six-axis demo robot against a loopback server started here.
+
+    Returns ``drag_roundtrip_p95_ms`` and ``drag_roundtrip_p50_ms`` (NaN
+    without Chromium or playwright). Target: p95 at most 50 ms.
+    """
+    from posebridge.api.server import background_server
+    from posebridge.api.settings import Settings
+
+    if not chromium_available():
+        return {"drag_roundtrip_p95_ms": math.nan, "drag_roundtrip_p50_ms": math.nan}
+    with background_server(Settings(robot="pb-arm6")) as url:
+        result = measure_drag_roundtrip(url, 20 if quick else 50)
+    return {"drag_roundtrip_p95_ms": result["p95_ms"], "drag_roundtrip_p50_ms": result["p50_ms"]}

@@ -1,0 +1,119 @@
+"""GET /api/robots and GET /api/robots/model.
+
+Expected values are read from the robot description files themselves with
+``tomllib`` (the bundled TOML files are the source of the limits).
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from collections.abc import Callable
+from pathlib import Path
+
+import httpx
+import pytest
+from fastapi import FastAPI
+
+from posebridge.resources import data_folder
+
+pytestmark = pytest.mark.anyio
+
+
+def _description(name: str) -> dict:
+    with (data_folder("robots") / f"{name}.toml").open("rb") as handle:
+        return tomllib.load(handle)
+
+
+async def test_list_robots(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/robots")
+    assert response.status_code == 200
+    body = response.json()
+    files = sorted(data_folder("robots").glob("*.toml"))
+    expected = sorted(tomllib.loads(path.read_text())["robot"]["name"] for path in files)
+    assert [entry["name"] for entry in body["robots"]] == expected
+    assert body["default_robot"] == "pb-arm6"
+
+
+async def test_list_robots_default_from_settings(make_app: Callable[..., FastAPI]) -> None:
+    transport = httpx.ASGITransport(app=make_app(robot="pb-planar2r"))
+    async with httpx.AsyncClient(transport=transport, base_url="http://testserver") as session:
+        response = await session.get("/api/robots")
+    assert response.status_code == 200
+    assert response.json()["default_robot"] == "pb-planar2r"
+
+
+async def test_read_robot_model(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/robots/model", params={"robot": "pb-planar2r"})
+    assert response.status_code == 200
+    body = response.json()
+    joints = _description("pb-planar2r")["joint"]
+    assert body["dof"] == len(joints) == 2
+    for given, expected in zip(body["joints"], joints, strict=True):
+        assert given["name"] == expected["name"]
+        assert given["unit"] == "deg"
+        assert given["lower"] == pytest.approx(expected["limits"]["min_deg"])
+        assert given["upper"] == pytest.approx(expected["limits"]["max_deg"])
+        assert given["velocity_max"] == pytest.approx(expected["limits"]["velocity_deg_s"])
+    # centre of the joint box: (lower + upper) / 2 per joint (closed form)
+    assert body["home_joints"] == pytest.approx(
+        [(j["limits"]["min_deg"] + j["limits"]["max_deg"]) / 2 for j in joints]
+    )
+    # links 400 mm and 300 mm in the x-y plane: every point lies within 700 mm of the base
+    # (closed form: reach of a planar 2R arm is l1 + l2)
+    low, high = body["bounds_mm"]
+    assert max(abs(v) for v in low + high) <= 700.0 + 1e-6
+
+
+async def test_read_robot_model_prismatic_units(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/robots/model", params={"robot": "pb-gantry3"})
+    assert response.status_code == 200
+    body = response.json()
+    for given, expected in zip(body["joints"], _description("pb-gantry3")["joint"], strict=True):
+        key = "min_mm" if expected["type"] == "prismatic" else "min_deg"
+        assert given["unit"] == ("mm" if expected["type"] == "prismatic" else "deg")
+        assert given["lower"] == pytest.approx(expected["limits"][key])
+
+
+async def test_read_robot_model_unknown(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/robots/model", params={"robot": "pb-nothing"})
+    assert response.status_code == 422
+    names = ", ".join(sorted(p.stem for p in data_folder("robots").glob("*.toml")))
+    assert response.json() == {
+        "detail": f"unknown robot 'pb-nothing'; bundled robots: {names}, or give a .toml/.urdf path"
+    }
+
+
+async def test_read_robot_model_missing_file(client: httpx.AsyncClient, tmp_path: Path) -> None:
+    path = tmp_path / "absent.toml"
+    response = await client.get("/api/robots/model", params={"robot": str(path)})
+    assert response.status_code == 422
+    assert response.json() == {"detail": f"{path}: no such robot file"}
+
+
+async def test_read_robot_model_from_path(client: httpx.AsyncClient) -> None:
+    path = data_folder("robots") / "pb-arm6.urdf"
+    response = await client.get("/api/robots/model", params={"robot": str(path)})
+    assert response.status_code == 200
+    body = response.json()
+    assert body["robot"] == str(path)
+    # j1 limit in the URDF file: +-2.9670597 rad = +-170 deg (file header and TOML twin)
+    assert body["joints"][0]["upper"] == pytest.approx(math.degrees(2.9670597283903604))
+
+
+async def test_read_robot_model_path_not_allowed(make_app: Callable[..., FastAPI]) -> None:
+    transport = httpx.ASGITransport(app=make_app(robot_paths_allowed=False))
+    path = str(data_folder("robots") / "pb-arm6.toml")
+    async with httpx.AsyncClient(transport=transport, base_url="http://testserver") as session:
+        response = await session.get("/api/robots/model", params={"robot": path})
+    assert response.status_code == 403
+    assert response.json() == {
+        "detail": "robot: file paths are not accepted by this server, give a bundled robot "
+        f"name (got {path!r})"
+    }
+
+
+async def test_read_robot_model_missing_query(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/robots/model")
+    assert response.status_code == 422
+    assert response.json() == {"detail": "robot: Field required"}

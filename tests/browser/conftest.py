@@ -1,0 +1,113 @@
+"""Browser test fixtures: a loopback server in a thread and Debian's headless Chromium.
+
+The tests are skipped when /usr/bin/chromium (or playwright) is missing,
+unless POSEBRIDGE_REQUIRE_BROWSER=1, which turns the skip into a failure.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from posebridge.api.server import background_server
+from posebridge.api.settings import Settings
+from posebridge.bench.drag import CHROMIUM_PATH, chromium_available, launch_chromium
+
+ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts"
+VIEWPORT = {"width": 1600, "height": 1250}
+
+
+@pytest.fixture(scope="session", autouse=True)
+def _require_chromium() -> None:
+    if chromium_available():
+        return
+    message = f"headless Chromium not available ({CHROMIUM_PATH} or the playwright package missing)"
+    if os.environ.get("POSEBRIDGE_REQUIRE_BROWSER") == "1":
+        pytest.fail(message + " and POSEBRIDGE_REQUIRE_BROWSER=1")
+    pytest.skip(message + "; install Debian's chromium package to run the browser tests")
+
+
+@pytest.fixture(scope="session")
+def artifacts() -> Path:
+    ARTIFACTS.mkdir(parents=True, exist_ok=True)
+    return ARTIFACTS
+
+
+@pytest.fixture(scope="session")
+def server_url() -> Iterator[str]:
+    """Base URL (ending in /) of a dashboard serving the six-axis demo arm on loopback."""
+    with background_server(Settings(robot="pb-arm6")) as url:
+        yield url
+
+
+@pytest.fixture(scope="session")
+def browser() -> Iterator[Any]:
+    from playwright.sync_api import sync_playwright
+
+    with sync_playwright() as playwright:
+        instance = launch_chromium(playwright)
+        yield instance
+        instance.close()
+
+
+@dataclass
+class PageProblems:
+    """Console errors, uncaught page errors and failed or refused requests seen by a page."""
+
+    console_errors: list[str] = field(default_factory=list)
+    page_errors: list[str] = field(default_factory=list)
+    failed_requests: list[str] = field(default_factory=list)
+    requested_urls: list[str] = field(default_factory=list)
+
+
+# The page has answered everything: IK for the current target, FK for the current joints.
+_SETTLED_SCRIPT = """() => {
+  const state = window.posebridge && window.posebridge.getState();
+  if (!state || !state.fk || !state.ik || !state.target) return false;
+  const a = state.ik.target.position_mm, b = state.target.position_mm;
+  return a.every((v, k) => v === b[k]) && state.fkJoints === state.joints;
+}"""
+
+
+@dataclass
+class OpenPage:
+    """A loaded dashboard page, what went wrong on it, and the server's base URL."""
+
+    page: Any
+    problems: PageProblems
+    base_url: str
+
+    def wait_settled(self, timeout_ms: int = 30_000) -> None:
+        """Wait until the page has FK for its joints and IK for its target."""
+        self.page.wait_for_function(_SETTLED_SCRIPT, timeout=timeout_ms)
+
+
+@pytest.fixture
+def open_page(browser: Any, server_url: str) -> Iterator[OpenPage]:
+    """The dashboard loaded and settled (FK and IK answered for the opening pose)."""
+    page = browser.new_page(viewport=VIEWPORT)
+    problems = PageProblems()
+    page.on(
+        "console", lambda m: problems.console_errors.append(m.text) if m.type == "error" else None
+    )
+    page.on("pageerror", lambda error: problems.page_errors.append(str(error)))
+    page.on("requestfailed", lambda request: problems.failed_requests.append(request.url))
+    page.on(
+        "response",
+        lambda response: (
+            problems.failed_requests.append(f"{response.status} {response.url}")
+            if response.status >= 400
+            else None
+        ),
+    )
+    page.on("request", lambda request: problems.requested_urls.append(request.url))
+    page.goto(server_url)
+    opened = OpenPage(page=page, problems=problems, base_url=server_url)
+    opened.wait_settled(timeout_ms=60_000)
+    yield opened
+    page.close()
