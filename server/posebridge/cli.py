@@ -1,0 +1,398 @@
+"""The ``posebridge`` command line: the front door to every computation.
+
+Values at this boundary are millimetres and degrees (prismatic joints in mm).
+Exit codes: 0 success, 1 findings (an unreachable pose, a failed check),
+2 bad input (one line on stderr, never a traceback), 3 internal error.
+"""
+
+from __future__ import annotations
+
+import argparse
+import csv
+import json
+import math
+import os
+import sys
+import traceback
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from posebridge.units import FloatArray
+
+__all__ = ["main"]
+
+SAFETY_CAUTION = (
+    "Safety: posebridge is a kinematic planning aid, not a safety function. Carry out the risk "
+    "assessment per ISO 10218-2, size safeguard distances per ISO 13855, verify every program on "
+    "the real controller at reduced speed; local codes and qualified practice prevail."
+)
+MAX_CSV_ROWS = 1_000_000
+DEFAULT_CELL = "demo-cell.json"
+
+EXIT_OK = 0
+EXIT_FINDINGS = 1
+EXIT_BAD_INPUT = 2
+EXIT_INTERNAL = 3
+
+
+class InputError(ValueError):
+    """Bad command-line input; the message is printed as one line."""
+
+
+# ---------------------------------------------------------------- parsing
+
+
+def _parse_numbers(text: str, what: str, count: int | None = None) -> list[float]:
+    """Comma-separated finite numbers, e.g. ``"0, -20, 20, 0, 90, 0"``."""
+    parts = [p.strip() for p in text.split(",")]
+    values: list[float] = []
+    for index, part in enumerate(parts, start=1):
+        try:
+            value = float(part)
+        except ValueError:
+            raise InputError(f"{what}: value {index} {part!r} is not a number") from None
+        if not math.isfinite(value):
+            raise InputError(f"{what}: value {index} {part!r} is not a finite number")
+        values.append(value)
+    if count is not None and len(values) != count:
+        raise InputError(f"{what}: expected {count} comma-separated values, got {len(values)}")
+    return values
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def _read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray:
+    """Rows of numbers, with an optional header naming ``columns`` in any order.
+
+    Returns
+    -------
+    values : array, shape (rows, len(columns)), in the order of ``columns``
+    """
+    try:
+        with open(path, newline="", encoding="utf-8") as handle:
+            rows = [row for row in csv.reader(handle) if row and any(cell.strip() for cell in row)]
+    except OSError as error:
+        raise InputError(f"{path}: cannot read: {error.strerror or error}") from error
+    except UnicodeDecodeError as error:
+        raise InputError(f"{path}: not UTF-8 text") from error
+    if not rows:
+        raise InputError(f"{path}: no rows")
+    if len(rows) > MAX_CSV_ROWS:
+        raise InputError(f"{path}: {len(rows)} rows; at most {MAX_CSV_ROWS} are accepted")
+    order = list(range(len(columns)))
+    first_line = 1
+    header = [cell.strip() for cell in rows[0]]
+    if not all(_is_number(cell) for cell in header):
+        missing = [c for c in columns if c not in header]
+        if missing:
+            raise InputError(
+                f"{path}:1: header lacks column(s) {', '.join(missing)}; expected {', '.join(columns)}"
+            )
+        order = [header.index(c) for c in columns]
+        rows = rows[1:]
+        first_line = 2
+    values = np.empty((len(rows), len(columns)))
+    width = len(header)
+    for r, row in enumerate(rows):
+        line = first_line + r
+        if len(row) != width:
+            raise InputError(f"{path}:{line}: expected {width} values, got {len(row)}")
+        for c, source in enumerate(order):
+            cell = row[source].strip()
+            try:
+                value = float(cell)
+            except ValueError:
+                raise InputError(f"{path}:{line}: {what} {cell!r} is not a number") from None
+            if not math.isfinite(value):
+                raise InputError(f"{path}:{line}: {what} {cell!r} is not a finite number")
+            values[r, c] = value
+    return values
+
+
+def _print_json(data: Any) -> None:
+    json.dump(data, sys.stdout, indent=2, allow_nan=False)
+    sys.stdout.write("\n")
+
+
+def _format_row(values: Sequence[float], digits: int = 3) -> str:
+    return ", ".join(f"{round(v, digits) + 0.0:.{digits}f}" for v in values)
+
+
+# ---------------------------------------------------------------- commands
+
+
+def _cmd_robots(args: argparse.Namespace) -> int:
+    from posebridge.robot.library import bundled_robots, load_robot
+    from posebridge.spaces.reach import reach_m
+    from posebridge.units import mm_from_m
+
+    entries = []
+    for bundled in bundled_robots():
+        robot = load_robot(bundled.path)
+        entries.append(
+            {
+                "name": bundled.name,
+                "joints": robot.dof,
+                "kind": bundled.kind,
+                "reach_mm": round(float(mm_from_m(reach_m(robot))), 1),
+                "description": bundled.description,
+            }
+        )
+    if args.json:
+        _print_json(entries)
+        return EXIT_OK
+    print(f"{'name':<16} {'joints':>6}  {'kind':<12} {'reach_mm':>9}  description")
+    for e in entries:
+        print(
+            f"{e['name']:<16} {e['joints']:>6}  {e['kind']:<12} {e['reach_mm']:>9.1f}  {e['description']}"
+        )
+    return EXIT_OK
+
+
+def _tool_from_argument(text: str | None) -> FloatArray | None:
+    from posebridge.transforms import transform_from_position_rpy
+    from posebridge.units import m_from_mm
+
+    if text is None:
+        return None
+    values = _parse_numbers(text, "--tool", 6)
+    return transform_from_position_rpy(m_from_mm(values[:3]), values[3:], degrees=True)
+
+
+def _cmd_fk(args: argparse.Namespace) -> int:
+    from posebridge.api.schemas.kinematics import fk_result
+    from posebridge.robot.library import load_robot
+    from posebridge.units import joints_si_from_user
+
+    robot = load_robot(args.robot)
+    if args.joints_file:
+        joints_user = _read_numeric_csv(args.joints_file, robot.joint_names, "joint value")
+    else:
+        joints_user = np.array([_parse_numbers(args.joints, "--joints", robot.dof)])
+    q = joints_si_from_user(joints_user, robot.prismatic)
+    result = fk_result(robot, q, T_flange_tool=_tool_from_argument(args.tool), spec=args.robot)
+    entries = []
+    for values, configuration in zip(joints_user, result.configurations, strict=True):
+        entry = {"joints_deg": values.tolist()}
+        entry.update(
+            configuration.model_dump(
+                mode="json", exclude={"frames_position_mm", "capsule_segments_mm"}
+            )
+        )
+        entries.append(entry)
+    if args.json:
+        _print_json(entries if args.joints_file else entries[0])
+        return EXIT_OK
+    units = result.joint_units
+    for entry in entries:
+        print(f"joints ({', '.join(units)}): {_format_row(entry['joints_deg'])}")
+        print(f"  position_mm:     {_format_row(entry['position_mm'])}")
+        print(f"  rpy_deg:         {_format_row(entry['rpy_deg'])}")
+        print(f"  quaternion_wxyz: {_format_row(entry['quaternion_wxyz'], 6)}")
+        print(f"  manipulability:  {entry['manipulability']:.6g}")
+        margins = entry["limit_margins"]
+        print(
+            "  limit margins:   "
+            + ", ".join(
+                f"{name} {'-' if m is None else f'{m:.2f}'} {unit}"
+                for name, m, unit in zip(result.joint_names, margins, units, strict=True)
+            )
+        )
+    return EXIT_OK
+
+
+def _cmd_ik(args: argparse.Namespace) -> int:
+    from posebridge.api.schemas.kinematics import ik_result
+    from posebridge.kinematics.ik import solve_ik_all
+    from posebridge.robot.library import load_robot
+    from posebridge.transforms import transform_from_position_rpy
+    from posebridge.units import joints_si_from_user, m_from_mm
+
+    robot = load_robot(args.robot)
+    if args.poses_file:
+        poses = _read_numeric_csv(
+            args.poses_file,
+            ("x_mm", "y_mm", "z_mm", "roll_deg", "pitch_deg", "yaw_deg"),
+            "pose value",
+        )
+    else:
+        poses = np.array([_parse_numbers(args.pose, "--pose", 6)])
+    T = transform_from_position_rpy(m_from_mm(poses[:, :3]), poses[:, 3:], degrees=True)
+    seed = None
+    if args.seed is not None:
+        seed = joints_si_from_user(_parse_numbers(args.seed, "--seed", robot.dof), robot.prismatic)
+    tool = _tool_from_argument(args.tool)
+    solutions = solve_ik_all(robot, T, T_flange_tool=tool, seed=seed, all_turns=args.all_turns)
+    results = [
+        ik_result(robot, solutions, i, T_flange_tool=tool, spec=args.robot)
+        for i in range(len(poses))
+    ]
+    unreachable = any(not r.solutions for r in results)
+    if args.json:
+        dumped = [r.model_dump(mode="json") for r in results]
+        _print_json(dumped if args.poses_file else dumped[0])
+        return EXIT_FINDINGS if unreachable else EXIT_OK
+    for pose, result in zip(poses, results, strict=True):
+        print(f"pose (x, y, z mm; roll, pitch, yaw deg): {_format_row(pose)}")
+        if result.ignored_components:
+            print(f"  not controlled by this arm (ignored): {', '.join(result.ignored_components)}")
+        if not result.solutions:
+            print(f"  no solution: {result.reason}")
+            continue
+        if result.reason:
+            print(f"  note: {result.reason}")
+        for s in result.solutions:
+            flag = "within limits" if s.within_limits else "OUTSIDE LIMITS"
+            print(
+                f"  [{s.branch}] {_format_row(s.joints_deg, 2)}  ({flag}; "
+                f"manipulability {s.manipulability:.4g})"
+            )
+    return EXIT_FINDINGS if unreachable else EXIT_OK
+
+
+def _cmd_serve(args: argparse.Namespace) -> int:
+    from posebridge.api.server import run_server
+
+    run_server(
+        host=args.host,
+        port=args.port,
+        cell_path=Path(args.cell) if args.cell else None,
+        share=args.share,
+    )
+    return EXIT_OK
+
+
+def _cmd_bench(args: argparse.Namespace) -> int:
+    from posebridge.bench.runner import run_benchmarks
+
+    figures = run_benchmarks(quick=args.quick, progress=None if args.json else _bench_progress)
+    if args.json:
+        _print_json({k: (v if math.isfinite(v) else None) for k, v in figures.items()})
+        return EXIT_OK
+    width = max(len(k) for k in figures)
+    for key, value in figures.items():
+        print(f"{key:<{width}}  {value:,.4g}")
+    return EXIT_OK
+
+
+def _bench_progress(name: str) -> None:
+    print(f"measuring {name} ...", file=sys.stderr, flush=True)
+
+
+# ---------------------------------------------------------------- parser
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser with every subcommand."""
+    parser = argparse.ArgumentParser(
+        prog="posebridge",
+        description="Robot work-cell layout and troubleshooting in Cartesian and joint space. "
+        "Lengths in mm, angles in deg (prismatic joints in mm); orientation as roll, pitch, yaw "
+        "about fixed X, Y, Z.",
+        epilog=SAFETY_CAUTION,
+    )
+    sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    serve = sub.add_parser("serve", help="run the web dashboard (loopback only unless --share)")
+    serve.add_argument("--cell", help="cell file (default: the bundled demo cell)")
+    serve.add_argument("--host", default="127.0.0.1", help="address to bind (default 127.0.0.1)")
+    serve.add_argument("--port", type=int, default=8000, help="port (default 8000, 0 = any free)")
+    serve.add_argument(
+        "--share", action="store_true", help="allow a non-loopback bind for a read-only review"
+    )
+    serve.set_defaults(run=_cmd_serve)
+
+    robots = sub.add_parser("robots", help="list the bundled robots")
+    robots.add_argument("--json", action="store_true", help="print JSON")
+    robots.set_defaults(run=_cmd_robots)
+
+    fk = sub.add_parser("fk", help="forward kinematics: tool pose of joint values")
+    fk.add_argument("robot", help="bundled robot name or .toml/.urdf path")
+    source = fk.add_mutually_exclusive_group(required=True)
+    source.add_argument(
+        "--joints", help='joint values, e.g. "0,-20,20,0,90,0" (deg; mm for prismatic)'
+    )
+    source.add_argument(
+        "--joints-file", help="CSV, one configuration per row, optional header of joint names"
+    )
+    fk.add_argument(
+        "--tool", help='tool in the flange frame "x,y,z,roll,pitch,yaw" (default: the robot\'s)'
+    )
+    fk.add_argument("--json", action="store_true", help="print JSON")
+    fk.set_defaults(run=_cmd_fk)
+
+    ik = sub.add_parser("ik", help="inverse kinematics: every joint solution of a tool pose")
+    ik.add_argument("robot", help="bundled robot name or .toml/.urdf path")
+    target = ik.add_mutually_exclusive_group(required=True)
+    target.add_argument(
+        "--pose", help='tool pose in the base frame "x,y,z,roll,pitch,yaw" (mm, deg)'
+    )
+    target.add_argument(
+        "--poses-file",
+        help="CSV, one pose per row: x_mm,y_mm,z_mm,roll_deg,pitch_deg,yaw_deg (header optional)",
+    )
+    ik.add_argument(
+        "--seed", help="joint values to sort solutions by closeness (deg; mm for prismatic)"
+    )
+    ik.add_argument(
+        "--all-turns", action="store_true", help="list every extra turn of joints beyond +-180 deg"
+    )
+    ik.add_argument(
+        "--tool", help='tool in the flange frame "x,y,z,roll,pitch,yaw" (default: the robot\'s)'
+    )
+    ik.add_argument("--json", action="store_true", help="print JSON")
+    ik.set_defaults(run=_cmd_ik)
+
+    bench = sub.add_parser("bench", help="measure throughput and speed ratios")
+    bench.add_argument("--quick", action="store_true", help="smaller problems, same keys")
+    bench.add_argument("--json", action="store_true", help="print one flat JSON object of numbers")
+    bench.set_defaults(run=_cmd_bench)
+    return parser
+
+
+def _input_error_types() -> tuple[type[BaseException], ...]:
+    from posebridge.kinematics.fk import KinematicsInputError
+    from posebridge.robot.errors import RobotDescriptionError
+    from posebridge.transforms import TransformError
+
+    return (InputError, RobotDescriptionError, KinematicsInputError, TransformError)
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    """Run the command line; returns the exit code."""
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    run: Callable[[argparse.Namespace], int] = args.run
+    try:
+        return run(args)
+    except _input_error_types() as error:
+        problems = [line.strip() for line in str(error).splitlines() if line.strip()]
+        print(
+            f"posebridge {args.command}: {'; '.join(problems) or type(error).__name__}",
+            file=sys.stderr,
+        )
+        return EXIT_BAD_INPUT
+    except KeyboardInterrupt:
+        print("posebridge: interrupted", file=sys.stderr)
+        return EXIT_BAD_INPUT
+    except Exception as error:  # noqa: BLE001 - the CLI reports, never shows a traceback by default
+        if os.environ.get("POSEBRIDGE_DEBUG"):
+            traceback.print_exc()
+        print(
+            f"posebridge {args.command}: internal error: {type(error).__name__}: {error}",
+            file=sys.stderr,
+        )
+        return EXIT_INTERNAL
+
+
+if __name__ == "__main__":
+    sys.exit(main())
