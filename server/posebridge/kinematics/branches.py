@@ -70,8 +70,12 @@ __all__ = [
     "wrist_label",
 ]
 
-LABEL_TOLERANCE_M = 1e-9
-"""Distances (m) below this make the shoulder or elbow label undefined (0)."""
+LABEL_TOLERANCE_M = 1e-7
+"""Distances (m) below this make the shoulder or elbow label undefined (0).
+
+Larger than rounding: near a stretched elbow the closed-form elbow angle comes
+from ``sqrt(1 - cos^2)``, which turns a rounding error of 1e-16 in the cosine
+into about 1e-8 in the sine."""
 
 LABEL_TOLERANCE_RAD = 1e-9
 """A wrist bend within this angle (rad) of 0 or pi makes the wrist label undefined (0)."""

@@ -522,7 +522,7 @@ def finish_rows(
                 order[b + 1] = other
                 b -= 1
             order[b + 1] = item
-        codes[i] = raw_reason[row]
+        codes[i] = raw_reason[row] if count == 0 else (0 if group[order[0]] == 0 else 3)
         for m in range(M):
             if m < count:
                 src = order[m]
@@ -534,10 +534,6 @@ def finish_rows(
                 out_sh[i, m] = labels[src, 0]
                 out_el[i, m] = labels[src, 1]
                 out_wr[i, m] = labels[src, 2]
-                if group[src] == 0:
-                    codes[i] = 0
-                elif codes[i] != 0:
-                    codes[i] = 3
             else:
                 for j in range(n):
                     out_q[i, m, j] = np.nan
