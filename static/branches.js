@@ -46,3 +46,12 @@ export function branchOf(solution) {
     wrist: solution.wrist,
   };
 }
+
+/** Heading for a list of solutions: which parts of the arm their branch words name. */
+export function branchHeading(solutions) {
+  const armWords = solutions.some((s) => s.shoulder !== 0 || s.wrist !== 0);
+  if (armWords) {
+    return "Branch (shoulder, elbow, wrist)";
+  }
+  return solutions.some((s) => s.elbow !== 0) ? "Branch (elbow)" : "Solution";
+}

@@ -2,6 +2,7 @@
 // smallest margin and manipulability. Selecting a row moves the arm onto it.
 
 import { element } from "./fields.js";
+import { branchHeading } from "../branches.js";
 import { branchStyle } from "../palette.js";
 import { formatJoint, formatNumber } from "../units.js";
 
@@ -65,7 +66,7 @@ export function createSolutionsPanel({ container, store, actions, palette }) {
       return row;
     });
     const head = element("tr", {}, [
-      element("th", { text: "Branch (shoulder, elbow, wrist)" }),
+      element("th", { text: branchHeading(solutions) }),
       element("th", { text: "Within limits" }),
       element("th", { text: "Smallest limit margin" }),
       element("th", { text: "Manipulability" }),

@@ -5,6 +5,7 @@
 
 import { attachDrag, draw, layout2d, pointerFromData } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
+import { branchHeading } from "../branches.js";
 import { branchStyle } from "../palette.js";
 import { clamp, formatJoint } from "../units.js";
 
@@ -18,13 +19,20 @@ export function branchWords(branch) {
     .join(", ");
 }
 
+function solutionValues(ik, index) {
+  return ik ? ik.result.solutions.map((solution) => solution.joints_deg[index]) : [];
+}
+
 function axisTitle(joint) {
   return `${joint.name} (${joint.unit})`;
 }
 
-function paddedRange(joint) {
-  const pad = 0.04 * (joint.upper - joint.lower);
-  return [joint.lower - pad, joint.upper + pad];
+/** Axis range: the joint's limits, widened to show solutions outside them, plus a margin. */
+function paddedRange(joint, values) {
+  const lower = Math.min(joint.lower, ...values);
+  const upper = Math.max(joint.upper, ...values);
+  const pad = 0.04 * (upper - lower);
+  return [lower - pad, upper + pad];
 }
 
 /**
@@ -132,7 +140,7 @@ export function createJointMapView({ element, note, legend, header, store, actio
     if (groups.length > 0) {
       data.push(...solutionTraces(state, groups));
     }
-    renderLegend(groups);
+    renderLegend(groups, ik ? ik.result.solutions : []);
     data.push({
       type: "scatter",
       mode: "markers",
@@ -145,8 +153,8 @@ export function createJointMapView({ element, note, legend, header, store, actio
     const layout = layout2d({
       xTitle: axisTitle(ja),
       yTitle: axisTitle(jb),
-      xRange: paddedRange(ja),
-      yRange: paddedRange(jb),
+      xRange: paddedRange(ja, solutionValues(ik, a)),
+      yRange: paddedRange(jb, solutionValues(ik, b)),
       palette,
     });
     layout.shapes = [
@@ -219,8 +227,9 @@ export function createJointMapView({ element, note, legend, header, store, actio
     }
   }
 
-  function renderLegend(groups) {
-    const key = groups.map((group) => `${group.style.key}|${group.words}`).join(";");
+  function renderLegend(groups, solutions) {
+    const heading = groups.length ? `${branchHeading(solutions)}:` : "No solution for the target";
+    const key = heading + groups.map((group) => `${group.style.key}|${group.words}`).join(";");
     if (key === legendKey) {
       return;
     }
@@ -236,7 +245,7 @@ export function createJointMapView({ element, note, legend, header, store, actio
     });
     const title = document.createElement("span");
     title.className = "pb-legend-title";
-    title.textContent = groups.length ? "Branch (shoulder, elbow, wrist):" : "No solution for the target";
+    title.textContent = heading;
     const current = document.createElement("span");
     current.textContent = "✛ current configuration";
     legend.replaceChildren(title, ...entries, current);
