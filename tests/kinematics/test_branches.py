@@ -1,0 +1,136 @@
+"""Tests of posebridge.kinematics.branches (plain-word branch labels of any arm).
+
+References: pinocchio joint placements of robots/pb-arm6.urdf with the label
+definitions re-implemented here in numpy, and closed forms from the robot
+files written beside the checks.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from posebridge.kinematics.branches import branch_geometry, label_branches
+from posebridge.kinematics.fk import KinematicsInputError
+from posebridge.resources import data_folder
+from posebridge.robot.library import load_robot
+
+URDF_PATH = data_folder("robots") / "pb-arm6.urdf"
+
+
+def test_pb_arm6_hand_cases() -> None:
+    robot = load_robot("pb-arm6")
+    q3_stretched = np.arctan2(-0.64, 0.11)
+    q = np.array(
+        [
+            [0, 0, 0, 0, 0.5, 0],
+            [0, 0, 0, 0, -0.5, 0],
+            [0, 0, 0, 0, 0, 0],
+            [np.pi, 0, -np.pi, 0, 0.5, 0],
+            [0, 0, q3_stretched - 0.2, 0, 0.5, 0],
+            [0, 0, q3_stretched + 0.2, 0, 0.5, 0],
+        ]
+    )
+    shoulder, elbow, wrist = label_branches(robot, q)
+    # robots/pb-arm6.toml at q = 0: wrist centre 150 + 300 + 340 mm in front of axis 1
+    # (front), elbow (axis 3) above the line from the shoulder to the wrist centre
+    # (forearm horizontal, upper arm vertical: up); joint 5 at +-0.5 rad: positive/negative;
+    # at 0 the wrist is straight (0)
+    assert shoulder.tolist()[:3] == [1, 1, 1]
+    assert elbow.tolist()[:3] == [1, 1, 1]
+    assert wrist.tolist()[:3] == [1, -1, 0]
+    # joint 1 at 180 deg and the forearm pointing backwards (q3 = -180 deg): the wrist
+    # centre is 640 - 150 mm behind axis 1 in the turned arm plane: back
+    assert shoulder[3] == -1
+    # closed form: the forearm (640 mm along, 110 mm above axis 3) lines up with the
+    # upper arm at q3 = atan2(-0.64, 0.11); beyond it (more negative) the elbow is down
+    assert elbow[4] == -1 and elbow[5] == 1
+
+
+def _pin_labels(q: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The module docstring's definitions, computed from pinocchio joint placements."""
+    pin = pytest.importorskip("pinocchio")
+    model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
+    data = model.createData()
+
+    def placements(row: np.ndarray):
+        # joint origins (oMi) and joint axes in the world frame (angular rows of the joint
+        # Jacobian in the world frame, pinocchio's computeJointJacobians)
+        J = pin.computeJointJacobians(model, data, row)
+        points = {model.names[j]: data.oMi[j].translation.copy() for j in range(1, model.njoints)}
+        axes = {
+            model.names[j]: J[3:, model.joints[j].idx_v].copy() for j in range(1, model.njoints)
+        }
+        return points, axes
+
+    points0, axes0 = placements(np.zeros(6))
+    forward0 = np.cross(axes0["j2"], axes0["j1"])
+    forward_sign = 1.0 if (points0["j5"] - points0["j1"]) @ forward0 > 0 else -1.0
+    up_sign = 1.0 if points0["j2"] @ axes0["j1"] > 0 else -1.0
+    shoulder, elbow, wrist = [], [], []
+    for row in q:
+        points, axes = placements(row)
+        forward = forward_sign * np.cross(axes["j2"], axes["j1"])
+        forward /= np.linalg.norm(forward)
+        up = up_sign * axes["j1"]
+
+        def plane(p, points=points, forward=forward, up=up):
+            d = p - points["j1"]
+            return np.array([d @ forward, d @ up])
+
+        s, e, w = plane(points["j2"]), plane(points["j3"]), plane(points["j5"])
+        front = np.sign(w[0])
+        shoulder.append(front)
+        v, u = w - s, e - s
+        elbow.append(np.sign(front * (v[0] * u[1] - v[1] * u[0])))
+        wrist.append(np.sign(np.sin(row[4])))
+    return np.array(shoulder), np.array(elbow), np.array(wrist)
+
+
+def test_pb_arm6_labels_match_pinocchio_geometry() -> None:
+    if not URDF_PATH.is_file():
+        pytest.skip("robots/pb-arm6.urdf not present")
+    robot = load_robot("pb-arm6")
+    q = np.random.default_rng(11).uniform(robot.lower, robot.upper, size=(300, 6))
+    expected = _pin_labels(q)
+    labels = label_branches(robot, q)
+    # reference: pinocchio joint placements (robots/pb-arm6.urdf, a file with different
+    # joint frames and axis signs than the TOML) with the definitions re-implemented above
+    for got, want in zip(labels, expected, strict=True):
+        np.testing.assert_array_equal(got, want)
+
+
+def test_planar_two_link_left_and_right() -> None:
+    robot = load_robot("pb-planar2r")
+    q = np.array([[0.3, 0.8], [0.3, -0.8], [1.0, 0.0], [-2.0, 2.5]])
+    shoulder, elbow, wrist = label_branches(robot, q)
+    # closed form: cross(flange, elbow) . z = -l1 l2 sin(q2), so the elbow is left of the
+    # line to the flange (+1) when q2 < 0, right (-1) when q2 > 0, in line when q2 = 0
+    assert elbow.tolist() == [-1, 1, 0, -1]
+    assert not shoulder.any() and not wrist.any()
+    assert branch_geometry(robot).scheme == "planar"
+
+
+def test_seven_axis_wrist_is_joint_6() -> None:
+    robot = load_robot("pb-arm7")
+    q = np.zeros((3, 7))
+    q[:, 5] = [0.4, -0.4, 0.0]
+    q[:, 3] = -1.0
+    _, _, wrist = label_branches(robot, q)
+    # robots/pb-arm7.toml (modified DH, alpha -90 then +90 around joint 6): axes 5 and 7
+    # are parallel at q6 = 0, so the wrist bend is q6 itself
+    assert wrist.tolist() == [1, -1, 0]
+    assert branch_geometry(robot).wrist_joint == 5
+
+
+def test_gantry_has_no_branches() -> None:
+    robot = load_robot("pb-gantry3")
+    labels = label_branches(robot, np.zeros((2, 4)))
+    assert branch_geometry(robot).scheme == "none"
+    for values in labels:
+        assert values.tolist() == [0, 0]
+
+
+def test_bad_shape_is_refused() -> None:
+    with pytest.raises(KinematicsInputError, match=r"expected shape \(N, 6\)"):
+        label_branches(load_robot("pb-arm6"), np.zeros((2, 5)))
