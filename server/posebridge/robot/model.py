@@ -105,6 +105,8 @@ class Robot:
         File the robot was loaded from, or ``""``.
     notes : tuple of str
         Non-fatal remarks from loading (e.g. ignored mesh references).
+    home : array, shape (n,), optional
+        The description's home configuration (rad, m); see :meth:`home_configuration`.
     """
 
     name: str
@@ -116,6 +118,7 @@ class Robot:
     description: str = ""
     source: str = ""
     notes: tuple[str, ...] = field(default=())
+    home: FloatArray | None = None
 
     @property
     def dof(self) -> int:
@@ -199,3 +202,9 @@ class Robot:
     def mid_configuration(self) -> FloatArray:
         """Centre of the joint-range box, shape (n,)."""
         return 0.5 * (self.lower + self.upper)
+
+    def home_configuration(self) -> FloatArray:
+        """The description's home configuration, else the centre of the joint-range box, shape (n,)."""
+        return (
+            self.mid_configuration() if self.home is None else np.array(self.home, dtype=np.float64)
+        )

@@ -25,7 +25,7 @@ from posebridge.robot.dh import DhConvention, DhRow, split_dh_chain
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.robot.model import Capsule, Joint, JointKind, Robot
 from posebridge.transforms import transform_from_position_rpy
-from posebridge.units import FloatArray, m_from_mm, rad_from_deg
+from posebridge.units import FloatArray, joints_si_from_user, m_from_mm, rad_from_deg
 
 __all__ = ["MAX_DESCRIPTION_BYTES", "load_robot_toml", "parse_robot_toml"]
 
@@ -34,7 +34,7 @@ SCHEMA_VERSION = 1
 _UNIT_TOLERANCE = 1e-6
 
 _TOP_KEYS = {"schema_version", "robot", "joint", "flange", "tool", "capsule"}
-_ROBOT_KEYS = {"name", "kind", "description", "convention"}
+_ROBOT_KEYS = {"name", "kind", "description", "convention", "home_deg"}
 _JOINT_KEYS = {"name", "type", "continuous", "dh", "origin", "axis", "limits"}
 _DH_KEYS = {"a_mm", "alpha_deg", "d_mm", "theta_deg"}
 _ORIGIN_KEYS = {"xyz_mm", "rpy_deg"}
@@ -392,6 +392,28 @@ def _capsule_in_link_frame(spec: _CapsuleSpec, T_dh: list[FloatArray]) -> Capsul
 _TOML_ERROR_LINE = re.compile(r"^(?P<message>.*?)\s*\(at line (?P<line>\d+), column \d+\)$")
 
 
+def _parse_home(problems: _Problems, value: Any, n_joints: int) -> FloatArray | None:
+    """``robot.home_deg``: one value per joint (deg; mm for prismatic joints), optional."""
+    if value is None:
+        return None
+    where = "robot.home_deg"
+    if not isinstance(value, list) or len(value) != n_joints:
+        problems.add(
+            where,
+            f"expected a list of {n_joints} numbers (one per joint), got {value!r}",
+            block="robot",
+            key="home_deg",
+        )
+        return None
+    numbers = [
+        _number(problems, v, f"{where}[{i}]", block="robot", key="home_deg")
+        for i, v in enumerate(value)
+    ]
+    if any(n is None for n in numbers):
+        return None
+    return np.array(numbers, dtype=np.float64)
+
+
 def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
     """Build a :class:`Robot` from the text of a posebridge robot TOML file.
 
@@ -466,9 +488,24 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
     capsule_specs = [
         _parse_capsule(problems, raw, i, link_index) for i, raw in enumerate(raw_capsules)
     ]
+    home_user = _parse_home(problems, meta.get("home_deg"), len(raw_joints))
     if problems.items or any(s is None for s in specs):
         raise RobotDescriptionError(problems.items)
     valid_specs = [s for s in specs if s is not None]
+    home = None
+    if home_user is not None:
+        prismatic = np.array([s.kind == "prismatic" for s in valid_specs])
+        home = joints_si_from_user(home_user, prismatic)
+        for i, s in enumerate(valid_specs):
+            if not s.continuous and not s.limits_si[0] <= home[i] <= s.limits_si[1]:
+                problems.add(
+                    f"robot.home_deg[{i}]",
+                    f"home value {home_user[i]:g} of joint {s.name!r} is outside its limits",
+                    block="robot",
+                    key="home_deg",
+                )
+        if problems.items:
+            raise RobotDescriptionError(problems.items)
 
     if convention in ("dh_standard", "dh_modified"):
         dh_convention: DhConvention = (
@@ -507,6 +544,7 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
         capsules=tuple(_capsule_in_link_frame(c, T_dh) for c in capsule_specs if c is not None),
         description=str(meta.get("description", "")),
         source=path,
+        home=home,
     )
 
 
