@@ -1,0 +1,61 @@
+"""Self-collision pair selection: non-adjacent links, minus pairs touching in every sample.
+
+References: counting closed forms; a triangle-inequality argument for a pair
+that always overlaps; the independent segment-segment enumeration of the
+``reference`` fixture (conftest.py) on the same samples.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from posebridge.geometry.clearance import capsule_segments_world
+from posebridge.geometry.self_pairs import non_adjacent_pairs, self_collision_pairs
+from posebridge.geometry.shapes import ArmCapsules
+from posebridge.robot.model import Capsule
+
+
+def test_non_adjacent_pairs_of_six_axis_arm(robot) -> None:
+    """pb-arm6: one capsule on each of links 0..6, so C(7, 2) - 6 adjacent = 15 pairs
+    (closed form); a tool capsule on link 6 adds one pair with each of links 0..4 (5)."""
+    model = robot("pb-arm6")
+    pairs = non_adjacent_pairs(ArmCapsules.from_robot(model))
+    assert len(pairs) == 15  # closed form (docstring)
+    links = ArmCapsules.from_robot(model).link
+    assert np.all(np.abs(links[pairs[:, 0]] - links[pairs[:, 1]]) > 1)
+    tool = Capsule("pointer", 6, np.zeros(3), np.array([0.0, 0.0, 0.1]), 0.02)
+    assert len(non_adjacent_pairs(ArmCapsules.from_robot(model, [tool]))) == 20  # 15 + 5
+
+
+def test_pair_in_contact_everywhere_is_left_out(robot, reference) -> None:
+    """A tool sphere of radius 0.3 m at the flange origin always overlaps the forearm capsule.
+
+    Triangle inequality: the flange origin is 0.1 m from the wrist centre, which
+    is 0.04 m beyond the forearm segment's end (0.34 vs 0.30 m along link 4's
+    x axis), so the axis distance is at most 0.14 m < 0.3 + 0.075 m of radii.
+    Every other non-adjacent pair is kept exactly when it is apart in some
+    sample (reference segment-segment enumeration on the same seeded samples).
+    """
+    model = robot("pb-arm6")
+    arm = ArmCapsules.from_robot(model, [Capsule("ball", 6, np.zeros(3), np.zeros(3), 0.3)])
+    kept = {tuple(pair) for pair in self_collision_pairs(arm, samples=300, seed=7)}
+    ball = arm.names.index("ball")
+    forearm = arm.names.index("forearm")
+    assert (forearm, ball) not in kept  # triangle inequality (docstring)
+    q = np.random.default_rng(7).uniform(model.lower, model.upper, (300, model.dof))
+    segments = capsule_segments_world(arm, q, np.eye(4))
+    for i, j in non_adjacent_pairs(arm):
+        axis = reference.segment_segment_distance(
+            segments[:, i, 0], segments[:, i, 1], segments[:, j, 0], segments[:, j, 1]
+        )
+        apart_somewhere = np.any(axis - arm.radius[i] - arm.radius[j] >= 0.0)
+        assert ((i, j) in kept) == apart_somewhere  # reference enumeration
+
+
+def test_pairs_are_reproducible_and_checked(robot) -> None:
+    arm = ArmCapsules.from_robot(robot("pb-arm6"))
+    first = self_collision_pairs(arm, samples=50, seed=3)
+    np.testing.assert_array_equal(first, self_collision_pairs(arm, samples=50, seed=3))
+    with pytest.raises(ValueError, match="samples: expected at least 1, got 0"):
+        self_collision_pairs(arm, samples=0)
