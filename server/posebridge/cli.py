@@ -261,13 +261,10 @@ def _cmd_ik(args: argparse.Namespace) -> int:
 
 def _cmd_serve(args: argparse.Namespace) -> int:
     from posebridge.api.server import run_server
+    from posebridge.resources import data_folder
 
-    run_server(
-        host=args.host,
-        port=args.port,
-        cell_path=Path(args.cell) if args.cell else None,
-        share=args.share,
-    )
+    cell_path = Path(args.cell) if args.cell else data_folder("robots") / DEFAULT_CELL
+    run_server(host=args.host, port=args.port, cell_path=cell_path, share=args.share)
     return EXIT_OK
 
 
@@ -360,11 +357,18 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _input_error_types() -> tuple[type[BaseException], ...]:
+    from posebridge.api.server import ServerConfigError
     from posebridge.kinematics.fk import KinematicsInputError
     from posebridge.robot.errors import RobotDescriptionError
     from posebridge.transforms import TransformError
 
-    return (InputError, RobotDescriptionError, KinematicsInputError, TransformError)
+    return (
+        InputError,
+        RobotDescriptionError,
+        KinematicsInputError,
+        TransformError,
+        ServerConfigError,
+    )
 
 
 def main(argv: Sequence[str] | None = None) -> int:
