@@ -33,7 +33,7 @@ export function createMarginsPanel({ container, store }) {
     grid.replaceChildren(
       ...robot.joints.flatMap((joint, index) => {
         const span = joint.upper - joint.lower;
-        const margin = fk.limit_margins[index];
+        const margin = fk.limit_margins_deg[index];
         const level = marginLevel(margin, span);
         const position = Math.min(1, Math.max(0, (values[index] - joint.lower) / span));
         const track = element("div", {

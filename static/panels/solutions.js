@@ -39,9 +39,9 @@ export function createSolutionsPanel({ container, store, actions, palette }) {
       const swatch = element("span", { className: "pb-swatch", text: style.glyph });
       swatch.style.color = style.color;
       const margin =
-        solution.min_margin === null
+        solution.min_margin_deg === null
           ? "no limits"
-          : `${formatJoint(solution.min_margin, solution.min_margin_unit)} (${solution.min_margin_joint})`;
+          : `${formatJoint(solution.min_margin_deg, solution.min_margin_unit)} (${solution.min_margin_joint})`;
       const row = element(
         "tr",
         {

@@ -8,6 +8,7 @@ robots/pb-arm6.urdf, the same arm written as URDF.
 from __future__ import annotations
 
 import math
+import tomllib
 
 import httpx
 import numpy as np
@@ -74,7 +75,7 @@ async def test_compute_fk_planar2r(client: httpx.AsyncClient) -> None:
         expected_margins = [
             min(q - lo, hi - q) for q, (lo, hi) in zip((t1, t2), PLANAR_LIMITS_DEG, strict=True)
         ]
-        assert result["limit_margins"] == pytest.approx(expected_margins, abs=1e-9)
+        assert result["limit_margins_deg"] == pytest.approx(expected_margins, abs=1e-9)
         # frame origins: base, joint 1 at the base, joint 2 at the end of link 1, flange = tool = tip
         elbow = [L1_MM * math.cos(math.radians(t1)), L1_MM * math.sin(math.radians(t1)), 0.0]
         np.testing.assert_allclose(
@@ -285,6 +286,19 @@ async def test_compute_ik_arm6_solutions_reach_pose(client: httpx.AsyncClient) -
         np.testing.assert_allclose(reached.rotation, start.rotation, atol=1e-6)
     # the starting configuration is one of them (same branch, no turn ambiguity within limits)
     assert any(np.allclose(s["joints_deg"], q_start, atol=1e-4) for s in body["solutions"])
+    # smallest limit margin: per joint m = min(q - lower, upper - q) (common practice, no
+    # source), the joint with the smallest m / (upper - lower) named; limits from the TOML file
+    with (data_folder("robots") / "pb-arm6.toml").open("rb") as handle:
+        joints = tomllib.load(handle)["joint"]
+    lower = np.array([j["limits"]["min_deg"] for j in joints])
+    upper = np.array([j["limits"]["max_deg"] for j in joints])
+    for solution in body["solutions"]:
+        q = np.array(solution["joints_deg"])
+        margin = np.minimum(q - lower, upper - q)
+        k = int(np.argmin(margin / (upper - lower)))
+        assert solution["min_margin_deg"] == pytest.approx(margin[k], abs=1e-6)
+        assert solution["min_margin_joint"] == joints[k]["name"]
+        assert solution["min_margin_unit"] == "deg"
 
 
 async def test_compute_ik_out_of_reach(client: httpx.AsyncClient) -> None:

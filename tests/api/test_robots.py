@@ -55,10 +55,8 @@ async def test_read_robot_model(client: httpx.AsyncClient) -> None:
         assert given["lower"] == pytest.approx(expected["limits"]["min_deg"])
         assert given["upper"] == pytest.approx(expected["limits"]["max_deg"])
         assert given["velocity_max"] == pytest.approx(expected["limits"]["velocity_deg_s"])
-    # centre of the joint box: (lower + upper) / 2 per joint (closed form)
-    assert body["home_joints"] == pytest.approx(
-        [(j["limits"]["min_deg"] + j["limits"]["max_deg"]) / 2 for j in joints]
-    )
+    # the description's own home configuration (the TOML file is the source)
+    assert body["home_joints"] == pytest.approx(_description("pb-planar2r")["robot"]["home_deg"])
     # links 400 mm and 300 mm in the x-y plane: every point lies within 700 mm of the base
     # (closed form: reach of a planar 2R arm is l1 + l2)
     low, high = body["bounds_mm"]

@@ -94,9 +94,11 @@ class IkSolution(BaseModel):
     wrist: int = Field(ge=-1, le=1, description="+1 positive, -1 negative, 0 straight or n/a.")
     turns: list[int] = Field(description="Whole extra turns per joint.")
     within_limits: bool
-    min_margin: float | None = Field(
-        description="Distance to the nearest limit of the joint closest to a limit (as a "
-        "fraction of its range), in that joint's unit; null if every joint is continuous."
+    min_margin_deg: float | None = Field(
+        description="Distance to the nearer limit of the joint closest to a limit (as a "
+        "fraction of its range): degrees for a revolute joint, millimetres for a prismatic "
+        "joint (the convention of joints_deg; see min_margin_unit); null if every joint is "
+        "continuous."
     )
     min_margin_joint: str | None = Field(description="That joint's name.")
     min_margin_unit: str | None = Field(description="That joint's unit, deg or mm.")
@@ -195,9 +197,10 @@ class FkConfiguration(BaseModel):
     quaternion_wxyz: list[float] = Field(description="TCP orientation, [w, x, y, z], w >= 0.")
     rpy_deg: list[float] = Field(description="TCP orientation. " + _RPY_DESCRIPTION)
     manipulability: float = Field(description=_MANIPULABILITY_DESCRIPTION)
-    limit_margins: list[float | None] = Field(
-        description="Per joint, distance to the nearer position limit in the joint's unit "
-        "(see joint_units); negative outside the range, null for a continuous joint."
+    limit_margins_deg: list[float | None] = Field(
+        description="Per joint, distance to the nearer position limit: degrees for revolute "
+        "joints, millimetres for prismatic joints (the convention of joints_deg; see "
+        "joint_units); negative outside the range, null for a continuous joint."
     )
     frames_position_mm: list[list[float]] = Field(
         description="Origins of the frames named in frame_names, base frame."
@@ -300,7 +303,7 @@ def fk_result(
             quaternion_wxyz=quaternion[k].tolist(),
             rpy_deg=rpy_deg[k].tolist(),
             manipulability=float(w[k]),
-            limit_margins=margins[k],
+            limit_margins_deg=margins[k],
             frames_position_mm=frames_mm[k].tolist(),
             capsule_segments_mm=segments_mm[k].tolist(),
         )
@@ -375,7 +378,7 @@ def ik_result(
                     wrist=int(solutions.wrist[index, m]),
                     turns=[int(t) for t in solutions.turns[index, m]],
                     within_limits=bool(solutions.within_limits[index, m]),
-                    min_margin=float(margin_user[row, joint]) if has_limits else None,
+                    min_margin_deg=float(margin_user[row, joint]) if has_limits else None,
                     min_margin_joint=robot.joint_names[joint] if has_limits else None,
                     min_margin_unit=units[joint] if has_limits else None,
                     manipulability=float(w[row]),

@@ -83,7 +83,8 @@ class RobotModel(BaseModel):
     joints: list[JointDescription]
     tool: ToolDescription = Field(description="Default tool in the flange frame.")
     home_joints: list[float] = Field(
-        description="Centre of the joint ranges, per joint in its `unit`."
+        description="The description's home configuration, else the centre of the joint "
+        "ranges, per joint in its `unit`."
     )
     bounds_mm: list[list[float]] = Field(
         description="Axis-aligned box [[x, y, z] min, [x, y, z] max] in the base frame, mm, "
@@ -135,7 +136,7 @@ def robot_model_from_robot(robot: Robot, spec: str) -> RobotModel:
         dof=robot.dof,
         joints=joints,
         tool=tool,
-        home_joints=joints_user_from_si(robot.mid_configuration(), robot.prismatic).tolist(),
+        home_joints=joints_user_from_si(robot.home_configuration(), robot.prismatic).tolist(),
         bounds_mm=mm_from_m(_bounds_m(robot)).tolist(),
         notes=list(robot.notes),
     )
