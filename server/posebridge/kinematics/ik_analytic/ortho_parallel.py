@@ -65,7 +65,7 @@ from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform
 from posebridge.units import FloatArray
 
-__all__ = ["METHOD", "OrthoParallelGeometry", "solve_ortho_parallel"]
+__all__ = ["METHOD", "OrthoParallelGeometry", "fast_atan2", "solve_ortho_parallel"]
 
 METHOD = "analytic: ortho-parallel, Brandstötter et al. 2014"
 
@@ -118,6 +118,12 @@ class OrthoParallelGeometry:
         ``o_i``, rad: ``θ_i = s_i q_i + o_i``.
     R_end_flange : array, shape (3, 3)
         Constant rotation from the canonical end frame to the robot's flange.
+    shoulder_factor, up_factor : float
+        +1 or -1: canonical arm-plane coordinates (x along the arm, z up) times
+        these give the forward and up coordinates of
+        :mod:`posebridge.kinematics.branches` (``forward_sign s1 s2`` and ``up_sign s1``).
+    wrist_straight : float
+        Joint 5 value with a straight wrist (:class:`~posebridge.kinematics.branches.BranchGeometry`).
     """
 
     a1: float
@@ -130,6 +136,9 @@ class OrthoParallelGeometry:
     signs: FloatArray
     offsets: FloatArray
     R_end_flange: FloatArray
+    shoulder_factor: float
+    up_factor: float
+    wrist_straight: float
 
     @classmethod
     def from_robot(cls, robot: Robot) -> OrthoParallelGeometry | None:
@@ -231,6 +240,7 @@ class OrthoParallelGeometry:
         X5 = c5_ * X4 - s5_ * Z3
         Z5 = s5_ * X4 + c5_ * Z3
         R_end_zero = np.stack([X5, Y4, Z5], axis=1)
+        labels = branch_geometry(robot)
         return cls(
             a1=a1,
             a2=a2,
@@ -242,6 +252,9 @@ class OrthoParallelGeometry:
             signs=signs,
             offsets=np.arctan2(np.sin(offsets), np.cos(offsets)),
             R_end_flange=R_end_zero.T @ flange[:3, :3],
+            shoulder_factor=labels.forward_sign * signs[0] * signs[1],
+            up_factor=labels.up_sign * signs[0],
+            wrist_straight=labels.wrist_straight,
         )
 
     def canonical_angles(self, q: npt.ArrayLike) -> FloatArray:
@@ -272,6 +285,64 @@ class OrthoParallelGeometry:
         T[:, :3, 3] = centre + self.c4 * R[:, :, 2]
         T[:, 3, 3] = 1.0
         return T
+
+
+# Coefficients of atan(u) / u as a polynomial in u^2 for |u| <= tan(pi/8): a
+# Chebyshev least-squares fit of degree 10 (numpy.polynomial.chebyshev.chebfit at
+# 2000 Chebyshev nodes, reference values from numpy.arctan in long double),
+# converted to the power basis; largest error 1.6e-16 on that interval.
+_ATAN_COEFFICIENTS = (
+    1.0,
+    -0.3333333333332859,
+    0.199999999989374,
+    -0.14285714188970247,
+    0.11111106530195895,
+    -0.0909078144289922,
+    0.07690072256814573,
+    -0.06641261027743744,
+    0.056936639230433704,
+    -0.043631749610050445,
+    0.021317379635111103,
+)
+_TAN_PI_8 = 0.41421356237309503
+
+
+@nb.njit(cache=True, inline="always")
+def fast_atan2(y, x):
+    """Four-quadrant arctangent, within 1e-15 of ``numpy.arctan2`` and faster in kernels.
+
+    Range reduction to ``t = min(|x|, |y|) / max(|x|, |y|)``, then
+    ``atan(t) = pi/4 + atan((t - 1) / (t + 1))`` above tan(pi/8) (Cody and
+    Waite, *Software Manual for the Elementary Functions*, 1980, ch. 17), a
+    polynomial evaluated in Estrin's scheme, and the quadrant from the signs
+    (signed zeros as ``numpy.arctan2``). Zero and non-finite arguments are
+    passed to ``numpy.arctan2``.
+    """
+    c = _ATAN_COEFFICIENTS
+    ax = abs(x)
+    ay = abs(y)
+    swap = ay > ax
+    mx = ay if swap else ax
+    mn = ax if swap else ay
+    if mx == 0.0 or not mx < np.inf:
+        return np.arctan2(y, x)
+    t = mn / mx
+    big = t > _TAN_PI_8
+    u = (t - 1.0) / (t + 1.0) if big else t
+    z = u * u
+    z2 = z * z
+    z4 = z2 * z2
+    low = (c[0] + c[1] * z) + (c[2] + c[3] * z) * z2
+    middle = (c[4] + c[5] * z) + (c[6] + c[7] * z) * z2
+    high = (c[8] + c[9] * z) + c[10] * z2
+    r = u * (low + middle * z4 + high * (z4 * z4))
+    if big:
+        r += 0.25 * np.pi
+    if swap:
+        r = 0.5 * np.pi - r
+    if x < 0.0 or (x == 0.0 and np.signbit(x)):
+        r = np.pi - r
+    return -r if (y < 0.0 or (y == 0.0 and np.signbit(y))) else r
 
 
 @nb.njit(cache=True)
@@ -322,11 +393,16 @@ def _raw_solutions(
                 theta1 = signs[0] * seed[i, 0] + offsets[0] + (0.0 if branch1 == 0 else np.pi)
                 c_1 = np.cos(theta1)
                 s_1 = np.sin(theta1)
+            elif branch1 == 1 and b == 0.0:
+                # no lateral offset: the back solution is the front one turned by pi
+                theta1 -= np.pi
+                c_1 = -c_1
+                s_1 = -s_1
             else:
                 # Rz(θ1) (σX, b) = r/h (cx, cy)
                 c_1 = (cx * sigma * X + cy * b) / (r * h)
                 s_1 = (cy * sigma * X - cx * b) / (r * h)
-                theta1 = np.arctan2(s_1, c_1)
+                theta1 = fast_atan2(s_1, c_1)
             wl_x = c_1 * cx + s_1 * cy
             wl_y = -s_1 * cx + c_1 * cy
             u = wl_x - a1
@@ -364,7 +440,7 @@ def _raw_solutions(
                 # θ2 = atan2(u, v) - atan2(Q, P)
                 y2 = u * P - v * Q
                 x2 = v * P + u * Q
-                theta2 = np.arctan2(y2, x2)
+                theta2 = fast_atan2(y2, x2)
                 D = s_len * reached
                 if D > 1e-12:
                     s2 = y2 / D
@@ -385,17 +461,17 @@ def _raw_solutions(
                 M21 = s23 * A01 + c23 * R21
                 M22 = s23 * A02 + c23 * R22
                 sin5 = np.sqrt(M02 * M02 + A12 * A12)
-                theta5 = np.arctan2(sin5, M22)
+                theta5 = fast_atan2(sin5, M22)
                 singular = sin5 < _WRIST_SINGULAR_SIN
                 if singular:
                     theta4 = signs[3] * seed[i, 3] + offsets[3]
                     if M22 > 0.0:
-                        theta6 = np.arctan2(A10, M00) - theta4
+                        theta6 = fast_atan2(A10, M00) - theta4
                     else:
-                        theta6 = theta4 + np.arctan2(A10, -M00)
+                        theta6 = theta4 + fast_atan2(A10, -M00)
                 else:
-                    theta4 = np.arctan2(A12, M02)
-                    theta6 = np.arctan2(M21, -M20)
+                    theta4 = fast_atan2(A12, M02)
+                    theta6 = fast_atan2(M21, -M20)
                 q1 = signs[0] * (theta1 - offsets[0])
                 q2 = signs[1] * (theta2 - offsets[1])
                 q3 = signs[2] * (theta3 - offsets[2])
@@ -489,16 +565,15 @@ def _solve_parallel(T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, 
         )
 
 
-def _kernel_parameters(robot: Robot, geometry: OrthoParallelGeometry, G: FloatArray) -> FloatArray:
+def _kernel_parameters(geometry: OrthoParallelGeometry, G: FloatArray) -> FloatArray:
     """Packed parameters of the kernel, shape (16,).
 
-    ``[a1, a2, b, c1, c2, c3, c4, k, psi, K_shoulder, K_up, wrist_straight,
-    centre_to_tcp, shoulder_radius, cos psi, sin psi]`` with
-    ``k = hypot(a2, c3)`` (wrist centre to axis 3), ``psi = atan2(a2, c3)``; ``K_shoulder`` and ``K_up`` turn canonical arm-plane
-    coordinates into those of :mod:`posebridge.kinematics.branches`.
+    ``[a1, a2, b, c1, c2, c3, c4, k, psi, shoulder_factor, up_factor,
+    wrist_straight, centre_to_tcp, shoulder_radius, cos psi, sin psi]`` with
+    ``k = hypot(a2, c3)`` (wrist centre to axis 3) and ``psi = atan2(a2, c3)``;
+    ``centre_to_tcp`` is the distance from the wrist centre to the TCP and
+    ``shoulder_radius`` that of axis 2 from axis 1.
     """
-    labels = branch_geometry(robot)
-    s = geometry.signs
     k = float(np.hypot(geometry.a2, geometry.c3))
     G_inverse = invert_transform(G)
     centre_to_tcp = float(np.linalg.norm(G_inverse[:3, 3] + np.array([0.0, 0.0, geometry.c4])))
@@ -511,11 +586,11 @@ def _kernel_parameters(robot: Robot, geometry: OrthoParallelGeometry, G: FloatAr
             geometry.c2,
             geometry.c3,
             geometry.c4,
-            np.hypot(geometry.a2, geometry.c3),
+            k,
             np.arctan2(geometry.a2, geometry.c3),
-            labels.forward_sign * s[0] * s[1],
-            labels.up_sign * s[0],
-            labels.wrist_straight,
+            geometry.shoulder_factor,
+            geometry.up_factor,
+            geometry.wrist_straight,
             centre_to_tcp,
             np.hypot(geometry.a1, geometry.b),
             geometry.c3 / k,
@@ -567,7 +642,7 @@ def solve_ortho_parallel(
     F = np.eye(4)
     F[:3, :3] = geometry.R_end_flange
     G = np.ascontiguousarray(invert_transform(F @ T_flange))
-    prm = _kernel_parameters(robot, geometry, G)
+    prm = _kernel_parameters(geometry, G)
     M = 8 * slots_per_candidate(robot, all_turns)
     out = empty_outputs(N, M, 6)
     kernel = _solve_parallel if N >= PARALLEL_THRESHOLD else _solve_serial
