@@ -37,7 +37,7 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.geometry.distance import _obstacle_record, _segment_obstacle, _segment_segment
+from posebridge.geometry.distance import _capsule_capsule, _capsule_obstacle, _obstacle_record
 from posebridge.geometry.shapes import (
     FLOOR,
     ArmCapsules,
@@ -81,8 +81,10 @@ class ClearanceResult:
     is_self : array of bool, shape (N,)
         The closest pair is a capsule-capsule (self) pair.
     witness : array, shape (N, 2, 3)
-        Closest points in the world: on ``capsule``'s surface, then on the
-        other shape's surface (NaN when there is no pair).
+        Closest points in the world, ``capsule``'s then the other shape's,
+        ``|witness[:, 0] - witness[:, 1]| = |distance|`` (on the surfaces
+        unless in penetration, see :mod:`posebridge.geometry.distance`; NaN
+        when there is no pair).
     """
 
     distance: FloatArray
@@ -185,30 +187,16 @@ def _obstacle_pair(c, o, A, B, radius, kind, rotation, translation, params, need
     (see :func:`posebridge.geometry.distance._segment_obstacle`).
     """
     kind_o, R, t, prm = _obstacle_record(o, kind, rotation, translation, params)
-    r = radius[c]
-    sd, p, q, n = _segment_obstacle(
+    return _capsule_obstacle(
         (A[c, 0], A[c, 1], A[c, 2]),
         (B[c, 0], B[c, 1], B[c, 2]),
+        radius[c],
         kind_o,
         R,
         t,
         prm,
-        needed_below + r,
+        needed_below,
     )
-    return sd - r, (p[0] - r * n[0], p[1] - r * n[1], p[2] - r * n[2]), q
-
-
-@nb.njit(cache=True)
-def _capsule_capsule(a1, b1, r1, a2, b2, r2):
-    """Signed distance of two capsules and their witness points (values only)."""
-    d, c1, c2 = _segment_segment(a1, b1, a2, b2)
-    if d > 0.0:
-        n = ((c1[0] - c2[0]) / d, (c1[1] - c2[1]) / d, (c1[2] - c2[2]) / d)
-    else:
-        n = (0.0, 0.0, 1.0)
-    w1 = (c1[0] - r1 * n[0], c1[1] - r1 * n[1], c1[2] - r1 * n[2])
-    w2 = (c2[0] + r2 * n[0], c2[1] + r2 * n[1], c2[2] + r2 * n[2])
-    return d - r1 - r2, w1, w2
 
 
 @nb.njit(cache=True, inline="always")

@@ -551,6 +551,38 @@ def _segment_obstacle(a, b, kind, R, t, params, needed_below):
     return sd, _to_world_point(p, R, t), _to_world_point(q, R, t), _to_world_vector(n, R)
 
 
+@nb.njit(cache=True, inline="always")
+def _capsule_obstacle(a, b, radius, kind, R, t, params, needed_below):
+    """Capsule (segment ``a b``, ``radius``) against one obstacle: ``(distance, w_capsule, w_obstacle)``.
+
+    ``distance = sd - radius``; the capsule witness is ``p - radius n`` (module
+    docstring). ``needed_below`` as :func:`_segment_obstacle`, for the capsule.
+    """
+    sd, p, q, n = _segment_obstacle(a, b, kind, R, t, params, needed_below + radius)
+    return (
+        sd - radius,
+        (p[0] - radius * n[0], p[1] - radius * n[1], p[2] - radius * n[2]),
+        q,
+    )
+
+
+@nb.njit(cache=True)
+def _capsule_capsule(a1, b1, r1, a2, b2, r2):
+    """Two capsules: ``(distance, w_1, w_2)``, the axis distance minus both radii.
+
+    The witnesses sit on the surfaces along the axes' common normal (any
+    direction when the axes touch).
+    """
+    d, c1, c2 = _segment_segment(a1, b1, a2, b2)
+    if d > 0.0:
+        n = ((c1[0] - c2[0]) / d, (c1[1] - c2[1]) / d, (c1[2] - c2[2]) / d)
+    else:
+        n = (0.0, 0.0, 1.0)
+    w1 = (c1[0] - r1 * n[0], c1[1] - r1 * n[1], c1[2] - r1 * n[2])
+    w2 = (c2[0] + r2 * n[0], c2[1] + r2 * n[1], c2[2] + r2 * n[2])
+    return d - r1 - r2, w1, w2
+
+
 @nb.njit(cache=True)
 def _point_obstacle(x, kind, R, t, params):
     """Signed distance of world point ``x`` to one obstacle: ``(sd, q)`` with ``q`` in the world."""
@@ -598,19 +630,20 @@ def _capsule_obstacle_many(
 ):
     kind_o, R, t, prm = _obstacle_record(o, kind, rotation, translation, params)
     for k in range(start.shape[0]):
-        sd, p, q, n = _segment_obstacle(
+        d, w_capsule, w_obstacle = _capsule_obstacle(
             (start[k, 0], start[k, 1], start[k, 2]),
             (end[k, 0], end[k, 1], end[k, 2]),
+            radius[k],
             kind_o,
             R,
             t,
             prm,
             math.inf,
         )
-        distance[k] = sd - radius[k]
+        distance[k] = d
         for i in range(3):
-            witness[k, 0, i] = p[i] - radius[k] * n[i]
-            witness[k, 1, i] = q[i]
+            witness[k, 0, i] = w_capsule[i]
+            witness[k, 1, i] = w_obstacle[i]
 
 
 # --- public wrappers ----------------------------------------------------------------------
