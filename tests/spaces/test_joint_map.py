@@ -19,11 +19,12 @@ from posebridge.cell.files import load_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.compute import ComputationCancelled, SerialExecutor
 from posebridge.geometry.clearance import ClearanceScene, capsule_segments_world
-from posebridge.geometry.shapes import BOX, CYLINDER, FLOOR
+from posebridge.geometry.shapes import BOX, CYLINDER, FLOOR, ArmCapsules, Box, Floor, ObstacleSet
 from posebridge.resources import data_folder
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.joint_map import joint_map
 from posebridge.spaces.scene_geometry import scene_clearance
+from posebridge.transforms import transform_from_position_rpy
 
 DEMO = data_folder("robots") / "demo-cell.json"
 BOUNDARY_M = 2e-3
@@ -263,3 +264,46 @@ def test_bad_held_values_are_refused(demo) -> None:
         SpacesInputError, match=r"q_hold: expected 6 finite joint values, got shape \(5,\)"
     ):
         joint_map(clearance, (0, 1), np.zeros(5), resolution=8)
+
+
+def test_gantry_map_in_mm_matches_the_closed_form(robot) -> None:
+    gantry = robot("pb-gantry3")
+    box = Box(
+        "hanging-box", transform_from_position_rpy([1.0, 0.75, 1.2], [0, 0, 0]), np.full(3, 0.1)
+    )
+    clearance = ClearanceScene.build(
+        ArmCapsules.from_robot(gantry),
+        ObstacleSet.from_shapes([box, Floor(0.0)]),
+        np.eye(4),
+        self_pairs=np.empty((0, 2)),
+    )
+    hold = np.array([0.0, 0.75, 0.0, 0.3])
+    result = joint_map(clearance, (0, 2), hold, resolution=(200, 80))
+    # Prismatic axes at the boundary in mm: x 0..2000 mm, z 0..800 mm (robots/pb-gantry3.toml),
+    # 10 mm cells with centres at 5, 15, ... mm.
+    np.testing.assert_allclose(result.lower_user, [0.0, 0.0])
+    np.testing.assert_allclose(result.upper_user, [2000.0, 800.0])
+    np.testing.assert_allclose(result.axes_user[0], 5.0 + 10.0 * np.arange(200))
+    np.testing.assert_allclose(result.axes_user[1], 5.0 + 10.0 * np.arange(80))
+    # Two vertical capsules (robots/pb-gantry3.toml: x origin at 1.8 m, z axis pointing down):
+    # the ram, radius 60 mm, from (x, y, 1.8 - z) to (x, y, 1.65 - z) m, and the head, radius
+    # 45 mm, from 1.65 - z to 1.62 - z m. Distance of a vertical segment to an axis-aligned box,
+    # axis by axis (Ericson 2004, sec. 5.1.3, point-AABB), minimum over the two capsules.
+    x, z = np.meshgrid(*result.axes, indexing="ij")
+    dx = np.maximum(np.abs(x - 1.0) - 0.1, 0.0)
+
+    def capsule_distance(top: np.ndarray, bottom: np.ndarray, radius: float) -> np.ndarray:
+        dz = np.maximum.reduce([1.1 - top, bottom - 1.3, np.zeros_like(top)])
+        return np.hypot(dx, dz) - radius
+
+    distance = np.minimum(
+        capsule_distance(1.8 - z, 1.65 - z, 0.06), capsule_distance(1.65 - z, 1.62 - z, 0.045)
+    )
+    decided = np.abs(distance) > 1e-3
+    np.testing.assert_array_equal((result.obstacle == 0)[decided], (distance < 0.0)[decided])
+    # Clearance also counts the floor: the head's lowest point is 1.62 - z - 0.045 m high.
+    nearest = np.minimum(distance, 1.575 - z)
+    free = distance > 0.0
+    np.testing.assert_allclose(result.clearance[free], nearest[free], atol=1e-9)
+    assert result.obstacle_names == ("hanging-box", "floor")
+    assert 0 < np.count_nonzero(result.obstacle == 0) < result.obstacle.size

@@ -17,6 +17,7 @@ from posebridge.spaces.planar_boundary import (
     planar_reachable,
     planar_region_area,
 )
+from posebridge.spaces.workspace import sample_workspace
 
 JOINT = """
 [[joint]]
@@ -114,13 +115,14 @@ def test_limited_elbow_narrows_the_radii(robot) -> None:
 
 
 @pytest.mark.parametrize("name", ["pb-planar2r", "pb-planar3r"])
-def test_every_sampled_configuration_is_inside(robot, name: str) -> None:
+def test_every_sampled_point_is_inside(robot, name: str) -> None:
     arm = robot(name)
     chain = PlanarChain.from_robot(arm)
-    rng = np.random.default_rng(3)
-    q = rng.uniform(arm.lower, arm.upper, size=(20_000, arm.dof))
-    # Definition of the reachable region: the image of the joint-range box (common practice, no source).
-    assert planar_reachable(chain, fk_tool(arm, q)[:, :2, 3]).all()
+    cloud = sample_workspace(arm, 20_000, rng_seed=3)
+    # Definition of the reachable region: the image of the joint-range box (common practice,
+    # no source), so every point of the sampled workspace cloud lies in it.
+    assert planar_reachable(chain, cloud.position[:, :2]).all()
+    np.testing.assert_allclose(cloud.position[:, 2], chain.height, atol=1e-12)
 
 
 def test_points_beyond_the_stretched_arm_are_outside(robot) -> None:
