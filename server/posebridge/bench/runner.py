@@ -1,0 +1,42 @@
+"""Collects every benchmark module into one flat mapping of named figures."""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import NamedTuple
+
+from posebridge.bench.clearance import bench_clearance
+from posebridge.bench.drag import bench_drag
+from posebridge.bench.ik_analytic import bench_ik_analytic
+from posebridge.bench.ik_numeric import bench_ik_numeric
+from posebridge.bench.kinematics import bench_kinematics
+from posebridge.bench.maps import bench_maps
+
+__all__ = ["BENCHMARKS", "run_benchmarks"]
+
+
+class Benchmark(NamedTuple):
+    name: str
+    run: Callable[[bool], dict[str, float]]
+
+
+BENCHMARKS: tuple[Benchmark, ...] = (
+    Benchmark("forward kinematics and Jacobian", bench_kinematics),
+    Benchmark("analytic inverse kinematics", bench_ik_analytic),
+    Benchmark("numerical inverse kinematics", bench_ik_numeric),
+    Benchmark("clearance", bench_clearance),
+    Benchmark("joint-space and reach maps", bench_maps),
+    Benchmark("dashboard drag round trip", bench_drag),
+)
+
+
+def run_benchmarks(
+    *, quick: bool, progress: Callable[[str], None] | None = None
+) -> dict[str, float]:
+    """Run every benchmark in order; ``progress(name)`` is called before each."""
+    figures: dict[str, float] = {}
+    for benchmark in BENCHMARKS:
+        if progress is not None:
+            progress(benchmark.name)
+        figures.update(benchmark.run(quick))
+    return figures
