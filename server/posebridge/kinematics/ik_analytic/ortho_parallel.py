@@ -32,10 +32,16 @@ and the wrist-flip twin is dropped. With the wrist centre on axis 1 (``b = 0``)
 θ1 is free and taken from the seed (0 without); both shoulder labels are 0.
 At a stretched or folded elbow the two elbow solutions coincide and only one
 is kept.
+
+Kernel layout (speed): each block of poses runs three passes, the arm geometry
+(branchy, scalar), all arctangents of the block in one vectorised loop
+(:func:`atan2_many`), and the assembly of joint values, followed by the
+slot finishing of :func:`posebridge.kinematics.ik_types.finish_rows`.
 """
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numba as nb
@@ -65,7 +71,7 @@ from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform
 from posebridge.units import FloatArray
 
-__all__ = ["METHOD", "OrthoParallelGeometry", "fast_atan2", "solve_ortho_parallel"]
+__all__ = ["METHOD", "OrthoParallelGeometry", "atan2_many", "solve_ortho_parallel"]
 
 METHOD = "analytic: ortho-parallel, Brandstötter et al. 2014"
 
@@ -306,64 +312,82 @@ _ATAN_COEFFICIENTS = (
 )
 _TAN_PI_8 = 0.41421356237309503
 
+_ANGLES = 20
+"""Arctangent pairs per pose: θ1 (2), β = acos(cos β) as atan2(sin β, cos β) (2),
+θ2 (4 arm solutions), θ4, θ5, θ6 (3 per arm solution)."""
 
-@nb.njit(cache=True, inline="always")
-def fast_atan2(y, x):
-    """Four-quadrant arctangent, within 1e-15 of ``numpy.arctan2`` and faster in kernels.
+
+@nb.njit(cache=True, error_model="numpy")
+def atan2_many(y, x, out):
+    """``out = arctan2(y, x)`` for finite 1-D arrays, written to vectorise (SIMD).
 
     Range reduction to ``t = min(|x|, |y|) / max(|x|, |y|)``, then
     ``atan(t) = pi/4 + atan((t - 1) / (t + 1))`` above tan(pi/8) (Cody and
-    Waite, *Software Manual for the Elementary Functions*, 1980, ch. 17), a
-    polynomial evaluated in Estrin's scheme, and the quadrant from the signs
-    (signed zeros as ``numpy.arctan2``). Zero and non-finite arguments are
-    passed to ``numpy.arctan2``.
+    Waite, *Software Manual for the Elementary Functions*, 1980, ch. 17), the
+    fitted polynomial in Estrin's scheme, and the quadrant from the signs;
+    signed zeros as ``numpy.arctan2``. Branch-free, so the compiler turns the
+    loop into vector instructions: one arctangent costs about as much as a
+    multiplication chain instead of a library call. Agrees with
+    ``numpy.arctan2`` to 1e-15.
     """
     c = _ATAN_COEFFICIENTS
-    ax = abs(x)
-    ay = abs(y)
-    swap = ay > ax
-    mx = ay if swap else ax
-    mn = ax if swap else ay
-    if mx == 0.0 or not mx < np.inf:
-        return np.arctan2(y, x)
-    t = mn / mx
-    big = t > _TAN_PI_8
-    u = (t - 1.0) / (t + 1.0) if big else t
-    z = u * u
-    z2 = z * z
-    z4 = z2 * z2
-    low = (c[0] + c[1] * z) + (c[2] + c[3] * z) * z2
-    middle = (c[4] + c[5] * z) + (c[6] + c[7] * z) * z2
-    high = (c[8] + c[9] * z) + c[10] * z2
-    r = u * (low + middle * z4 + high * (z4 * z4))
-    if big:
-        r += 0.25 * np.pi
-    if swap:
-        r = 0.5 * np.pi - r
-    if x < 0.0 or (x == 0.0 and np.signbit(x)):
-        r = np.pi - r
-    return -r if (y < 0.0 or (y == 0.0 and np.signbit(y))) else r
+    for k in range(y.shape[0]):
+        xv = x[k]
+        yv = y[k]
+        ax = abs(xv)
+        ay = abs(yv)
+        largest = max(ax, ay)
+        t = min(ax, ay) / largest if largest > 0.0 else 0.0
+        big = t > _TAN_PI_8
+        u = (t - 1.0) / (t + 1.0) if big else t
+        z = u * u
+        z2 = z * z
+        z4 = z2 * z2
+        low = (c[0] + c[1] * z) + (c[2] + c[3] * z) * z2
+        middle = (c[4] + c[5] * z) + (c[6] + c[7] * z) * z2
+        high = (c[8] + c[9] * z) + c[10] * z2
+        r = u * (low + middle * z4 + high * (z4 * z4))
+        r = r + 0.25 * np.pi if big else r
+        r = 0.5 * np.pi - r if ay > ax else r
+        r = np.pi - r if math.copysign(1.0, xv) < 0.0 else r
+        out[k] = math.copysign(r, yv)
 
 
 @nb.njit(cache=True)
-def _raw_solutions(
-    start, stop, T, G, prm, signs, offsets, seed, tol_pos, raw_q, raw_ok, raw_labels, raw_reason
+def _arm_candidates(
+    start,
+    stop,
+    T,
+    G,
+    prm,
+    signs,
+    offsets,
+    seed,
+    tol_pos,
+    pair_y,
+    pair_x,
+    arm_ok,
+    arm_mode,
+    arm_labels,
+    raw_reason,
 ):
-    """The eight candidate solutions of poses ``start..stop-1`` (into rows ``i - start``).
+    """Position part and wrist matrices of poses ``start..stop-1`` (rows ``i - start``).
 
-    ``raw_q`` (B, 8, 6) receives joint values (any turn), ``raw_ok`` (B, 8)
-    whether each candidate reaches the pose, ``raw_labels`` (B, 8, 3) its
-    branch labels and ``raw_reason`` (B,) the reason code if none reaches it:
-    1 (out of reach) when the tool point is farther from every shoulder
-    position than the stretched arm plus the wrist-to-tool distance, else 2
-    (orientation not reachable). Sines and cosines of θ1, θ2 and θ23 follow
-    from the arm-plane vectors algebraically (angle-difference identities), so
-    each candidate costs one arctangent per joint and each elbow pair one
-    arccosine.
+    For each of the four arm solutions (θ1 front/back times two elbows) writes
+    whether it reaches the pose and is not a duplicate (``arm_ok`` (B, 4)), its
+    shoulder and elbow labels (``arm_labels`` (B, 4, 2)), the wrist case
+    (``arm_mode``: 0 regular, 1 singular with θ5 = 0, 2 singular with θ5 = pi)
+    and the arctangent argument pairs of every angle (``pair_y``, ``pair_x``
+    (B, 20), layout in :data:`_ANGLES`). ``raw_reason`` (B,) gets the reason
+    code if no arm solution reaches the pose: 1 (out of reach) when the tool
+    point is farther from every shoulder position than the stretched arm plus
+    the wrist-to-tool distance, else 2 (orientation not reachable). Sines and
+    cosines of θ1, θ2 and θ23 follow from the arm-plane vectors algebraically
+    (angle-difference identities), so no angle is needed here.
     """
     a1, b, c1, c2, c4 = prm[0], prm[2], prm[3], prm[4], prm[6]
-    k, psi, cos_psi, sin_psi = prm[7], prm[8], prm[14], prm[15]
-    K_sh, K_elbow, straight = prm[9], prm[9] * prm[10], prm[11]
+    k, cos_psi, sin_psi = prm[7], prm[14], prm[15]
+    K_sh, K_elbow = prm[9], prm[9] * prm[10]
     for i in range(start, stop):
         row = i - start
         # canonical end frame: T_end = T_tool @ G
@@ -387,6 +411,9 @@ def _raw_solutions(
         h = np.sqrt(X * X + b * b)
         # wrist centre on axis 1: θ1 is free, taken from the seed
         free_theta1 = r < LABEL_TOLERANCE_M
+        reached_any = False
+        c_1 = 1.0
+        s_1 = 0.0
         for branch1 in range(2):
             sigma = 1.0 if branch1 == 0 else -1.0
             if free_theta1:
@@ -395,14 +422,14 @@ def _raw_solutions(
                 s_1 = np.sin(theta1)
             elif branch1 == 1 and b == 0.0:
                 # no lateral offset: the back solution is the front one turned by pi
-                theta1 -= np.pi
                 c_1 = -c_1
                 s_1 = -s_1
             else:
                 # Rz(θ1) (σX, b) = r/h (cx, cy)
                 c_1 = (cx * sigma * X + cy * b) / (r * h)
                 s_1 = (cy * sigma * X - cx * b) / (r * h)
-                theta1 = fast_atan2(s_1, c_1)
+            pair_y[row, branch1] = s_1
+            pair_x[row, branch1] = c_1
             wl_x = c_1 * cx + s_1 * cy
             wl_y = -s_1 * cx + c_1 * cy
             u = wl_x - a1
@@ -416,8 +443,9 @@ def _raw_solutions(
             residual = np.sqrt(plane_gap * plane_gap + (b - wl_y) * (b - wl_y))
             shoulder = shoulder_label(K_sh * wl_x)
             side = 1.0 if shoulder == 0 else float(shoulder)
-            beta_plus = np.arccos(cb)
             sb_plus = np.sqrt(max(1.0 - cb * cb, 0.0))
+            pair_y[row, 2 + branch1] = sb_plus
+            pair_x[row, 2 + branch1] = cb
             P = c2 + k * cb
             # rows 0 and 1 of A = Rz(-θ1) R (row 2 is R's)
             A00 = c_1 * R00 + s_1 * R10
@@ -426,26 +454,30 @@ def _raw_solutions(
             A10 = -s_1 * R00 + c_1 * R10
             A12 = -s_1 * R02 + c_1 * R12
             for branch2 in range(2):
-                slot = 4 * branch1 + 2 * branch2
+                arm = 2 * branch1 + branch2
                 sb = sb_plus if branch2 == 0 else -sb_plus
                 Q = k * sb
                 elbow = elbow_label(side, K_elbow * c2 * Q * s_len / max(reached, 1e-300), s_len)
                 duplicate = (branch1 == 1 and shoulder == 0 and not free_theta1) or (
                     branch2 == 1 and elbow == 0
                 )
-                if duplicate or residual > tol_pos:
-                    raw_ok[row, slot] = False
-                    raw_ok[row, slot + 1] = False
+                arm_ok[row, arm] = not duplicate and residual <= tol_pos
+                arm_labels[row, arm, 0] = shoulder
+                arm_labels[row, arm, 1] = elbow
+                if not arm_ok[row, arm]:
                     continue
+                reached_any = True
                 # θ2 = atan2(u, v) - atan2(Q, P)
                 y2 = u * P - v * Q
                 x2 = v * P + u * Q
-                theta2 = fast_atan2(y2, x2)
+                pair_y[row, 4 + arm] = y2
+                pair_x[row, 4 + arm] = x2
                 D = s_len * reached
                 if D > 1e-12:
                     s2 = y2 / D
                     c2_ = x2 / D
                 else:
+                    theta2 = np.arctan2(y2, x2)
                     s2 = np.sin(theta2)
                     c2_ = np.cos(theta2)
                 # θ23 = θ2 + β - ψ
@@ -453,7 +485,6 @@ def _raw_solutions(
                 c2b = c2_ * cb - s2 * sb
                 s23 = s2b * cos_psi - c2b * sin_psi
                 c23 = c2b * cos_psi + s2b * sin_psi
-                theta3 = (beta_plus if branch2 == 0 else -beta_plus) - psi
                 # M = Ry(-θ23) A
                 M00 = c23 * A00 - s23 * R20
                 M02 = c23 * A02 - s23 * R22
@@ -461,60 +492,151 @@ def _raw_solutions(
                 M21 = s23 * A01 + c23 * R21
                 M22 = s23 * A02 + c23 * R22
                 sin5 = np.sqrt(M02 * M02 + A12 * A12)
-                theta5 = fast_atan2(sin5, M22)
-                singular = sin5 < _WRIST_SINGULAR_SIN
-                if singular:
-                    theta4 = signs[3] * seed[i, 3] + offsets[3]
-                    if M22 > 0.0:
-                        theta6 = fast_atan2(A10, M00) - theta4
-                    else:
-                        theta6 = theta4 + fast_atan2(A10, -M00)
+                base = 8 + 3 * arm
+                pair_y[row, base + 1] = sin5
+                pair_x[row, base + 1] = M22
+                if sin5 >= _WRIST_SINGULAR_SIN:
+                    arm_mode[row, arm] = 0
+                    pair_y[row, base] = A12
+                    pair_x[row, base] = M02
+                    pair_y[row, base + 2] = M21
+                    pair_x[row, base + 2] = -M20
+                elif M22 > 0.0:
+                    # θ5 = 0: the angle of the pair is θ4 + θ6
+                    arm_mode[row, arm] = 1
+                    pair_y[row, base + 2] = A10
+                    pair_x[row, base + 2] = M00
                 else:
-                    theta4 = fast_atan2(A12, M02)
-                    theta6 = fast_atan2(M21, -M20)
-                q1 = signs[0] * (theta1 - offsets[0])
-                q2 = signs[1] * (theta2 - offsets[1])
-                q3 = signs[2] * (theta3 - offsets[2])
-                for flip in range(2):
-                    s = slot + flip
-                    if flip == 1 and singular:
-                        raw_ok[row, s] = False
-                        continue
-                    raw_ok[row, s] = True
-                    raw_q[row, s, 0] = q1
-                    raw_q[row, s, 1] = q2
-                    raw_q[row, s, 2] = q3
-                    if flip == 0:
-                        raw_q[row, s, 3] = signs[3] * (theta4 - offsets[3])
-                        raw_q[row, s, 4] = signs[4] * (theta5 - offsets[4])
-                        raw_q[row, s, 5] = signs[5] * (theta6 - offsets[5])
-                    else:
-                        raw_q[row, s, 3] = signs[3] * (theta4 + np.pi - offsets[3])
-                        raw_q[row, s, 4] = signs[4] * (-theta5 - offsets[4])
-                        raw_q[row, s, 5] = signs[5] * (theta6 + np.pi - offsets[5])
-                    raw_labels[row, s, 0] = shoulder
-                    raw_labels[row, s, 1] = elbow
-                    raw_labels[row, s, 2] = wrist_label(raw_q[row, s, 4], straight)
+                    # θ5 = pi: the angle of the pair is θ6 - θ4
+                    arm_mode[row, arm] = 2
+                    pair_y[row, base + 2] = A10
+                    pair_x[row, base + 2] = -M00
         raw_reason[row] = 0
-        reached_any = False
-        for slot in range(8):
-            reached_any = reached_any or raw_ok[row, slot]
         if not reached_any:
             d_min = np.hypot(np.hypot(T[i, 0, 3], T[i, 1, 3]) - prm[13], T[i, 2, 3] - c1)
             raw_reason[row] = 1 if d_min > c2 + k + prm[12] + tol_pos else 2
 
 
 @nb.njit(cache=True)
+def _assemble(
+    start,
+    stop,
+    prm,
+    signs,
+    offsets,
+    seed,
+    angles,
+    arm_ok,
+    arm_mode,
+    arm_labels,
+    raw_q,
+    raw_ok,
+    raw_labels,
+):
+    """Joint values and labels of the eight candidates from the computed angles.
+
+    Each arm solution gives two wrists, ``(θ4, θ5, θ6)`` and
+    ``(θ4 + pi, -θ5, θ6 + pi)``; at a wrist singularity only the first, with
+    θ4 from the seed. ``θ3 = ±β - ψ``. Joint values ``q_i = s_i (θ_i - o_i)``.
+    """
+    psi, straight = prm[8], prm[11]
+    for i in range(start, stop):
+        row = i - start
+        for arm in range(4):
+            slot = 2 * arm
+            if not arm_ok[row, arm]:
+                raw_ok[row, slot] = False
+                raw_ok[row, slot + 1] = False
+                continue
+            branch1 = arm // 2
+            beta = angles[row, 2 + branch1]
+            theta1 = angles[row, branch1]
+            theta2 = angles[row, 4 + arm]
+            theta3 = (beta if arm % 2 == 0 else -beta) - psi
+            base = 8 + 3 * arm
+            theta5 = angles[row, base + 1]
+            mode = arm_mode[row, arm]
+            if mode == 0:
+                theta4 = angles[row, base]
+                theta6 = angles[row, base + 2]
+            else:
+                theta4 = signs[3] * seed[i, 3] + offsets[3]
+                if mode == 1:
+                    theta6 = angles[row, base + 2] - theta4
+                else:
+                    theta6 = theta4 + angles[row, base + 2]
+            for flip in range(2):
+                s = slot + flip
+                if flip == 1 and mode != 0:
+                    raw_ok[row, s] = False
+                    continue
+                raw_ok[row, s] = True
+                raw_q[row, s, 0] = signs[0] * (theta1 - offsets[0])
+                raw_q[row, s, 1] = signs[1] * (theta2 - offsets[1])
+                raw_q[row, s, 2] = signs[2] * (theta3 - offsets[2])
+                if flip == 0:
+                    raw_q[row, s, 3] = signs[3] * (theta4 - offsets[3])
+                    raw_q[row, s, 4] = signs[4] * (theta5 - offsets[4])
+                    raw_q[row, s, 5] = signs[5] * (theta6 - offsets[5])
+                else:
+                    raw_q[row, s, 3] = signs[3] * (theta4 + np.pi - offsets[3])
+                    raw_q[row, s, 4] = signs[4] * (-theta5 - offsets[4])
+                    raw_q[row, s, 5] = signs[5] * (theta6 + np.pi - offsets[5])
+                raw_labels[row, s, 0] = arm_labels[row, arm, 0]
+                raw_labels[row, s, 1] = arm_labels[row, arm, 1]
+                raw_labels[row, s, 2] = wrist_label(raw_q[row, s, 4], straight)
+
+
+@nb.njit(cache=True)
 def _solve_block(
     start, stop, T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_turns, out
 ):
+    """Candidates (three passes: arm geometry, arctangents, assembly), then slot finishing."""
     B = stop - start
+    pair_y = np.zeros((B, _ANGLES))
+    pair_x = np.zeros((B, _ANGLES))
+    angles = np.empty((B, _ANGLES))
+    arm_ok = np.zeros((B, 4), dtype=np.bool_)
+    arm_mode = np.zeros((B, 4), dtype=np.int8)
+    arm_labels = np.zeros((B, 4, 2), dtype=np.int8)
     raw_q = np.empty((B, 8, 6))
     raw_ok = np.zeros((B, 8), dtype=np.bool_)
     raw_labels = np.zeros((B, 8, 3), dtype=np.int8)
     raw_reason = np.empty(B, dtype=np.int8)
-    _raw_solutions(
-        start, stop, T, G, prm, signs, offsets, seed, tol_pos, raw_q, raw_ok, raw_labels, raw_reason
+    _arm_candidates(
+        start,
+        stop,
+        T,
+        G,
+        prm,
+        signs,
+        offsets,
+        seed,
+        tol_pos,
+        pair_y,
+        pair_x,
+        arm_ok,
+        arm_mode,
+        arm_labels,
+        raw_reason,
+    )
+    atan2_many(
+        pair_y.reshape(B * _ANGLES), pair_x.reshape(B * _ANGLES), angles.reshape(B * _ANGLES)
+    )
+    _assemble(
+        start,
+        stop,
+        prm,
+        signs,
+        offsets,
+        seed,
+        angles,
+        arm_ok,
+        arm_mode,
+        arm_labels,
+        raw_q,
+        raw_ok,
+        raw_labels,
     )
     finish_rows(
         start,
