@@ -11,10 +11,12 @@ Reach map (a voxel "reachability map", Zacharias, Borst, Hirzinger 2007,
     directions in the world, by default the 26 directions of
     :func:`tool_directions`; a direction counts as reachable when
     :func:`posebridge.kinematics.ik.solve_ik_all` finds a valid solution
-    inside the joint limits. The map holds the number of reachable
-    directions per voxel, which ones (bit mask), and the best Yoshikawa
-    manipulability of the TCP's translational Jacobian rows over all those
-    solutions (:func:`translational_manipulability`).
+    inside the joint limits (its solver is chosen once per map with
+    :func:`posebridge.kinematics.ik.ik_solver` and sent with every chunk).
+    The map holds the number of reachable directions per voxel, which ones
+    (bit mask), and the best Yoshikawa manipulability of the TCP's
+    translational Jacobian rows over all those solutions
+    (:func:`translational_manipulability`).
 
 Roll about the tool axis
     A direction fixes the tool z axis only. Its roll is sampled at ``rolls``
@@ -53,7 +55,7 @@ from scipy.optimize import minimize
 
 from posebridge.compute import Executor, ProgressCallback, SerialExecutor, split_range
 from posebridge.kinematics.fk import fk_tool
-from posebridge.kinematics.ik import solve_ik_all
+from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import jacobian_rows, manipulability_yoshikawa
 from posebridge.robot.model import Robot
@@ -345,7 +347,7 @@ def translational_manipulability(
 
 
 def _reach_chunk(
-    robot: Robot,
+    solver: IkSolver,
     T_base_world: FloatArray,
     T_flange_tool: FloatArray,
     rotations: FloatArray,
@@ -373,8 +375,9 @@ def _reach_chunk(
     T_world_tool[..., :3, :3] = rotations[None]
     T_world_tool[..., :3, 3] = points[active][:, None, None, :]
     T_world_tool[..., 3, 3] = 1.0
-    solutions = solve_ik_all(
-        robot, (T_base_world @ T_world_tool).reshape(-1, 4, 4), T_flange_tool=T_flange_tool
+    robot = solver.robot
+    solutions = solver.solve(
+        (T_base_world @ T_world_tool).reshape(-1, 4, 4), T_flange_tool=T_flange_tool
     )
     ok = solutions.valid & solutions.within_limits
     reached = ok.any(axis=1).reshape(V, D, rolls).any(axis=2)
@@ -467,9 +470,10 @@ def reach_map(
             )
         lower, upper = box[0], box[1]
     axes = _grid_axes(lower, upper, size)
+    solver = ik_solver(robot)
     shape = (axes[0].shape[0], axes[1].shape[0], axes[2].shape[0])
     chunks = [
-        (robot, invert_transform(world_base), tail, rotations, axes, centre, radius_bound, a, b)
+        (solver, invert_transform(world_base), tail, rotations, axes, centre, radius_bound, a, b)
         for a, b in split_range(int(np.prod(shape)), CHUNK_VOXELS)
     ]
     runner: Executor = SerialExecutor() if executor is None else executor
