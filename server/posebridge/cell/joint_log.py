@@ -1,0 +1,248 @@
+"""Controller joint logs: CSV files of joint values, one configuration per row.
+
+Format (our own, kept plain so any controller export can be massaged into it):
+
+* UTF-8 text, comma-separated, at most :data:`MAX_LOG_BYTES` bytes and
+  :data:`MAX_LOG_ROWS` data rows;
+* line 1 is the header: the robot's joint names, each exactly once, in any
+  order, plus an optional ``time_s`` column (seconds);
+* every further non-blank line is one row: finite numbers, degrees for
+  revolute joints and millimetres for prismatic joints; ``time_s`` must
+  increase strictly from row to row.
+
+Every problem is reported with its line (and column) number:
+``"demo-log.csv: line 7, column 3 (j2): expected a number, got 'abc'"``.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import math
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import numpy.typing as npt
+
+from posebridge.robot.model import Robot
+from posebridge.units import FloatArray, joints_si_from_user
+
+__all__ = [
+    "MAX_LOG_BYTES",
+    "MAX_LOG_ROWS",
+    "TIME_COLUMN",
+    "JointLog",
+    "JointLogError",
+    "parse_joint_log",
+    "read_joint_log",
+]
+
+MAX_LOG_ROWS = 200_000
+"""Most data rows in one log."""
+MAX_LOG_BYTES = 64 * 1024 * 1024
+"""Largest log file, bytes."""
+TIME_COLUMN = "time_s"
+"""Name of the optional time column (seconds)."""
+
+IntArray = npt.NDArray[np.int64]
+
+
+class JointLogError(ValueError):
+    """A joint log cannot be read; the message names the file, line and column."""
+
+
+@dataclass(frozen=True, eq=False)
+class JointLog:
+    """Joint values of a controller log in SI units.
+
+    Attributes
+    ----------
+    source : str
+        File name, or the label given for pasted text.
+    joint_names : tuple of str
+        The robot's joint names (the columns of ``q``).
+    q : array, shape (N, n)
+        Joint values, rad or m, in the robot's joint order.
+    time_s : array, shape (N,), or None
+        Time of each row, s; None without a ``time_s`` column.
+    line : array of int64, shape (N,)
+        Line of each row in the file (the header is line 1).
+    """
+
+    source: str
+    joint_names: tuple[str, ...]
+    q: FloatArray
+    time_s: FloatArray | None
+    line: IntArray
+
+    @property
+    def count(self) -> int:
+        """Number of rows ``N``."""
+        return int(self.q.shape[0])
+
+
+def _header(fields: list[str], robot: Robot, where: str) -> tuple[list[int], int]:
+    """Column of each robot joint and of the time (-1 without), from the header fields."""
+    names = [field.strip() for field in fields]
+    expected = f"the joint names of robot {robot.name!r} ({', '.join(robot.joint_names)})"
+    column_of: dict[str, int] = {}
+    for c, name in enumerate(names):
+        place = f"{where}line 1, column {c + 1}"
+        if name in column_of:
+            raise JointLogError(f"{place}: duplicate column {name!r}")
+        if name != TIME_COLUMN and name not in robot.joint_names:
+            stem = name.rsplit("_", 1)[0]
+            if stem in robot.joint_names and name != stem:
+                raise JointLogError(
+                    f"{place}: unknown column {name!r}; write the joint name only ({stem!r}), "
+                    "values are degrees (millimetres for prismatic joints)"
+                )
+            raise JointLogError(
+                f"{place}: unknown column {name!r}; expected {expected} and optionally {TIME_COLUMN}"
+            )
+        column_of[name] = c
+    missing = [name for name in robot.joint_names if name not in column_of]
+    if missing:
+        raise JointLogError(
+            f"{where}line 1: missing column{'s' if len(missing) > 1 else ''} "
+            f"{', '.join(repr(m) for m in missing)}; expected {expected}"
+        )
+    return [column_of[name] for name in robot.joint_names], column_of.get(TIME_COLUMN, -1)
+
+
+def _bad_value(text: str, line: int, column: int, name: str, where: str) -> JointLogError:
+    place = f"{where}line {line}, column {column + 1} ({name})"
+    try:
+        value = float(text)
+    except ValueError:
+        shown = text.strip()
+        return JointLogError(
+            f"{place}: expected a number, got {shown!r}" if shown else f"{place}: empty value"
+        )
+    return JointLogError(f"{place}: expected a finite number, got {value!r}")
+
+
+def parse_joint_log(text: str, robot: Robot, *, source: str = "") -> JointLog:
+    """Read a joint log from CSV text (format in the module docstring).
+
+    Parameters
+    ----------
+    text : str
+    robot : Robot
+        Gives the expected joint names and units.
+    source : str, keyword-only
+        Name used in messages (a file name, or e.g. ``"pasted log"``).
+
+    Returns
+    -------
+    JointLog
+
+    Raises
+    ------
+    JointLogError
+        The message names the line and column of the first problem.
+    """
+    where = f"{source}: " if source else ""
+    reader = csv.reader(io.StringIO(text.removeprefix("\ufeff")))
+    header: list[str] | None = None
+    rows: list[list[str]] = []
+    lines: list[int] = []
+    for fields in reader:
+        line = reader.line_num
+        if not fields or all(not field.strip() for field in fields):
+            continue
+        if header is None:
+            if line != 1:
+                raise JointLogError(f"{where}line 1: expected the header row of joint names")
+            header = fields
+            joint_columns, time_column = _header(header, robot, where)
+            continue
+        if len(fields) != len(header):
+            raise JointLogError(
+                f"{where}line {line}: expected {len(header)} values "
+                f"({', '.join(h.strip() for h in header)}), got {len(fields)}"
+            )
+        if len(rows) == MAX_LOG_ROWS:
+            raise JointLogError(
+                f"{where}line {line}: more than {MAX_LOG_ROWS} data rows (the limit)"
+            )
+        rows.append(fields)
+        lines.append(line)
+    if header is None:
+        raise JointLogError(
+            f"{where}line 1: expected the header row of joint names, got an empty file"
+        )
+    if not rows:
+        raise JointLogError(f"{where}no data rows after the header")
+    names = [h.strip() for h in header]
+    try:
+        values = np.array(rows, dtype=np.float64)
+        suspects = np.flatnonzero(~np.all(np.isfinite(values), axis=1)).tolist()
+    except ValueError:
+        values = None
+        suspects = list(range(len(rows)))
+    for r in suspects:
+        for c, field in enumerate(rows[r]):
+            try:
+                number = float(field)
+            except ValueError:
+                number = math.nan
+            if not math.isfinite(number):
+                raise _bad_value(field, lines[r], c, names[c], where)
+    if values is None:  # numpy refused a field that Python's float() reads
+        values = np.array([[float(field) for field in row] for row in rows], dtype=np.float64)
+    time_s = None
+    if time_column >= 0:
+        time_s = values[:, time_column].copy()
+        steps = np.flatnonzero(np.diff(time_s) <= 0.0)
+        if steps.size:
+            r = int(steps[0]) + 1
+            raise JointLogError(
+                f"{where}line {lines[r]}, column {time_column + 1} ({TIME_COLUMN}): time must "
+                f"increase from row to row (previous {time_s[r - 1]:g} s, got {time_s[r]:g} s)"
+            )
+    q = joints_si_from_user(values[:, joint_columns], robot.prismatic)
+    return JointLog(
+        source=source,
+        joint_names=robot.joint_names,
+        q=q,
+        time_s=time_s,
+        line=np.asarray(lines, dtype=np.int64),
+    )
+
+
+def read_joint_log(path: str | Path, robot: Robot) -> JointLog:
+    """Read a joint log file (format in the module docstring; at most :data:`MAX_LOG_BYTES`).
+
+    Parameters
+    ----------
+    path : str or Path
+    robot : Robot
+
+    Returns
+    -------
+    JointLog
+
+    Raises
+    ------
+    JointLogError
+        Unreadable, too large, not UTF-8, or a problem on a line (named).
+    """
+    path = Path(path)
+    try:
+        with path.open("rb") as handle:
+            raw = handle.read(MAX_LOG_BYTES + 1)
+    except OSError as error:
+        raise JointLogError(f"{path}: cannot read: {error.strerror or error}") from error
+    if len(raw) > MAX_LOG_BYTES:
+        raise JointLogError(
+            f"{path}: file is larger than {MAX_LOG_BYTES} bytes, the limit for logs"
+        )
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as error:
+        raise JointLogError(
+            f"{path}: not UTF-8 text ({error.reason} at byte {error.start})"
+        ) from error
+    return parse_joint_log(text, robot, source=str(path))
