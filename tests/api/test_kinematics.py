@@ -16,6 +16,7 @@ import pinocchio as pin
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from scipy.spatial.transform import Rotation
 
 from posebridge.api.schemas.kinematics import MAX_CONFIGURATIONS
 from posebridge.resources import data_folder
@@ -326,3 +327,29 @@ async def test_compute_ik_missing_pose(client: httpx.AsyncClient) -> None:
     response = await client.post("/api/ik", json={"robot": "pb-planar2r"})
     assert response.status_code == 422
     assert response.json() == {"detail": "pose: Field required"}
+
+
+async def test_compute_fk_ik_placed_base(client: httpx.AsyncClient) -> None:
+    q = [20.0, 30.0, -40.0, 30.0, 50.0, -20.0]
+    base = {"position_mm": [100.0, 200.0, 400.0], "rpy_deg": [0.0, 0.0, 90.0]}
+    local = await client.post("/api/fk", json={"robot": "pb-arm6", "joints_deg": q})
+    placed = await client.post("/api/fk", json={"robot": "pb-arm6", "joints_deg": q, "base": base})
+    assert local.status_code == placed.status_code == 200
+    here = local.json()["configurations"][0]
+    there = placed.json()["configurations"][0]
+    # x_world = R_world_base x_base + p_world_base; R from scipy (fixed-axis xyz, degrees)
+    R = Rotation.from_euler("xyz", base["rpy_deg"], degrees=True)
+    assert there["position_mm"] == pytest.approx(
+        R.apply(here["position_mm"]) + np.array(base["position_mm"]), abs=1e-9
+    )
+    np.testing.assert_allclose(
+        there["frames_position_mm"],
+        R.apply(here["frames_position_mm"]) + np.array(base["position_mm"]),
+        atol=1e-9,
+    )
+    assert there["limit_margins_deg"] == here["limit_margins_deg"]
+    pose = {"position_mm": there["position_mm"], "rpy_deg": there["rpy_deg"]}
+    ik = await client.post("/api/ik", json={"robot": "pb-arm6", "pose": pose, "base": base})
+    assert ik.status_code == 200
+    # the world pose of q, solved with the same base, has q among its solutions
+    assert any(np.allclose(s["joints_deg"], q, atol=1e-4) for s in ik.json()["solutions"])

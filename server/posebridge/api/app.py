@@ -6,27 +6,35 @@ installed plotly package, so the page works with the network off.
 
 from __future__ import annotations
 
-from collections.abc import AsyncIterator
+from collections.abc import AsyncIterator, Awaitable, Callable
 from contextlib import asynccontextmanager
 from importlib.metadata import version
 from importlib.resources import files
 from pathlib import Path
 
 from fastapi import FastAPI, Request
-from fastapi.responses import FileResponse, HTMLResponse
+from fastapi.responses import FileResponse, HTMLResponse, JSONResponse, Response
 from fastapi.staticfiles import StaticFiles
 from fastapi.templating import Jinja2Templates
 
+from posebridge.api.cell_store import CellStore
 from posebridge.api.errors import install_error_handlers
+from posebridge.api.jobs import JobManager
 from posebridge.api.robot_cache import RobotCache
-from posebridge.api.routes import health, kinematics, robots
+from posebridge.api.routes import cells, health, jobs, kinematics, maps, robots
 from posebridge.api.schemas.kinematics import fk_result, ik_result
 from posebridge.api.settings import Settings, get_settings
-from posebridge.kinematics.fk import fk_tool
+from posebridge.cell.model import CellFileError
+from posebridge.kinematics.fk import KinematicsInputError, fk_tool
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.resources import data_folder
+from posebridge.spaces.errors import SpacesInputError
+from posebridge.spaces.joint_map import joint_map
 
 __all__ = ["create_app", "plotly_script_path"]
+
+_JOB_INPUT_ERRORS = (SpacesInputError, KinematicsInputError, CellFileError)
+"""Errors of a job that are the request's fault: their message is the job's detail."""
 
 
 def plotly_script_path() -> Path:
@@ -34,12 +42,33 @@ def plotly_script_path() -> Path:
     return Path(str(files("plotly") / "package_data" / "plotly.min.js"))
 
 
-def _warm_up(cache: RobotCache, robot_spec: str) -> None:
-    """Run FK and IK once on the opening robot so numba kernels are compiled before the first request."""
-    robot = cache.get(robot_spec)
-    q = robot.mid_configuration()[None, :]
-    fk_result(robot, q)
-    ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
+def _warm_up(cache: RobotCache, robot_spec: str, cells: CellStore) -> None:
+    """Run FK, IK and a tiny joint map once so numba kernels are loaded before the first request."""
+    for robot in (cache.get(robot_spec), cells.read().scene.robot):
+        q = robot.home_configuration()[None, :]
+        fk_result(robot, q)
+        ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
+    snapshot = cells.read()
+    joint_map(snapshot.clearance, [0, 1], snapshot.scene.robot.home_configuration(), resolution=2)
+
+
+def _limit_request_size(app: FastAPI, limit: int) -> None:
+    """Refuse request bodies larger than ``limit`` bytes (by their Content-Length) with 413."""
+
+    @app.middleware("http")
+    async def limit_size(
+        request: Request, call_next: Callable[[Request], Awaitable[Response]]
+    ) -> Response:
+        length = request.headers.get("content-length", "")
+        if length.isdigit() and int(length) > limit:
+            return JSONResponse(
+                status_code=413,
+                content={
+                    "detail": f"request body: {int(length)} bytes is more than this server "
+                    f"accepts ({limit} bytes)"
+                },
+            )
+        return await call_next(request)
 
 
 def create_app(settings: Settings | None = None) -> FastAPI:
@@ -58,8 +87,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:
         if settings.warm_up:
-            _warm_up(robot_cache, settings.robot)
+            _warm_up(robot_cache, settings.robot, app.state.cells)
         yield
+        app.state.jobs.close()
 
     app = FastAPI(
         title="posebridge",
@@ -75,9 +105,20 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     )
     app.state.settings = settings
     app.state.robots = robot_cache
+    app.state.cells = CellStore(settings.cell_path)
+    app.state.jobs = JobManager(expected_errors=_JOB_INPUT_ERRORS)
     install_error_handlers(app)
-    for module in (health, robots, kinematics):
-        app.include_router(module.router)
+    _limit_request_size(app, settings.max_request_bytes)
+    routers = [
+        health.router,
+        robots.router,
+        kinematics.router,
+        cells.router,
+        maps.router,
+        jobs.router,
+    ]
+    for router in routers:
+        app.include_router(router)
 
     templates = Jinja2Templates(directory=data_folder("templates"))
     plotly_script = plotly_script_path()

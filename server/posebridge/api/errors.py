@@ -16,6 +16,7 @@ from fastapi.responses import JSONResponse
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from posebridge.api.robot_cache import RobotPathNotAllowedError
+from posebridge.cell.model import CellFileError
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.transforms import TransformError
@@ -63,6 +64,12 @@ async def _on_bad_input(_: Request, error: Exception) -> JSONResponse:
     return _json_error(422, str(error))
 
 
+async def _on_cell_file(_: Request, error: Exception) -> JSONResponse:
+    assert isinstance(error, CellFileError)
+    prefix = f"{error.source}: " if error.source else ""
+    return _json_error(422, prefix + "; ".join(error.problems))
+
+
 async def _on_not_allowed(_: Request, error: Exception) -> JSONResponse:
     return _json_error(403, str(error))
 
@@ -77,5 +84,6 @@ def install_error_handlers(app: FastAPI) -> None:
     app.add_exception_handler(StarletteHTTPException, _on_http)
     for bad_input in (RobotDescriptionError, KinematicsInputError, TransformError):
         app.add_exception_handler(bad_input, _on_bad_input)
+    app.add_exception_handler(CellFileError, _on_cell_file)
     app.add_exception_handler(RobotPathNotAllowedError, _on_not_allowed)
     app.add_exception_handler(Exception, _on_unexpected)

@@ -37,7 +37,13 @@ class RobotCache:
         self._size = size
         self._paths_allowed = paths_allowed
         self._robots: OrderedDict[tuple[str, float], Robot] = OrderedDict()
+        self._pinned: dict[str, Robot] = {}
         self._lock = threading.Lock()
+
+    def pin(self, spec: str, robot: Robot) -> None:
+        """Serve ``robot`` under ``spec`` until pinned again (the cell's robot); never dropped."""
+        with self._lock:
+            self._pinned[spec] = robot
 
     def get(self, spec: str) -> Robot:
         """The robot for ``spec``, loaded on first use.
@@ -49,6 +55,10 @@ class RobotCache:
         RobotPathNotAllowedError
             ``spec`` is a file path and paths are not allowed.
         """
+        with self._lock:
+            pinned = self._pinned.get(spec)
+        if pinned is not None:
+            return pinned
         key = (spec, self._modification_time(spec))
         with self._lock:
             robot = self._robots.get(key)

@@ -27,6 +27,9 @@ class Settings(BaseModel):
     warm_up : bool
         Compile and run the kinematics kernels once at start-up, so the first
         request from the page is as fast as the rest.
+    max_request_bytes : int
+        Largest request body accepted (HTTP 413 beyond); a cell file may be
+        up to 20 MB.
     """
 
     model_config = ConfigDict(frozen=True, extra="forbid")
@@ -36,6 +39,7 @@ class Settings(BaseModel):
     robot_cache_size: int = Field(default=8, ge=1, le=256)
     robot_paths_allowed: bool = True
     warm_up: bool = True
+    max_request_bytes: int = Field(default=21_000_000, ge=1_000, le=1_000_000_000)
 
 
 @cache

@@ -11,6 +11,7 @@ from posebridge.api.schemas.kinematics import (
     FkResult,
     IkRequest,
     IkResult,
+    base_transform,
     fk_result,
     ik_result,
     joints_si_from_request,
@@ -29,7 +30,13 @@ def compute_fk(request: FkRequest, robots: RobotsDep) -> FkResult:
     """TCP pose, manipulability, limit margins and drawing geometry per joint configuration."""
     robot = robots.get(request.robot)
     q = joints_si_from_request(robot, request.joints_deg)
-    return fk_result(robot, q, T_flange_tool=tool_transform(request.tool), spec=request.robot)
+    return fk_result(
+        robot,
+        q,
+        T_flange_tool=tool_transform(request.tool),
+        spec=request.robot,
+        T_world_base=base_transform(request.base),
+    )
 
 
 @router.post("/ik", summary="Inverse kinematics", responses=error_responses(403, 422))
@@ -44,7 +51,7 @@ def compute_ik(request: IkRequest, robots: RobotsDep) -> IkResult:
     )
     solutions = solve_ik_all(
         robot,
-        pose_transform(request.pose),
+        pose_transform(request.pose, request.base),
         T_flange_tool=T_flange_tool,
         seed=seed,
         all_turns=request.all_turns,

@@ -19,7 +19,11 @@ class ErrorMessage(BaseModel):
 _DESCRIPTIONS = {
     403: "Not allowed on this server",
     404: "Not found",
+    412: "The cell was changed elsewhere since the If-Match version was read; nothing changed",
+    413: "Request too large: the message names the limit",
     422: "Invalid request: the message names the field and what was expected",
+    428: "If-Match header required",
+    429: "Too many requests or running jobs from this client: try again shortly",
     500: "Internal error",
 }
 

@@ -18,6 +18,7 @@ from posebridge.kinematics.ik_types import IkSolutions
 from posebridge.kinematics.metrics import limit_margins, manipulability
 from posebridge.robot.model import Robot
 from posebridge.transforms import (
+    invert_transform,
     quaternion_from_rotation_matrix,
     rpy_from_rotation_matrix,
     transform_from_position_rpy,
@@ -43,6 +44,7 @@ __all__ = [
     "IkSolution",
     "Pose",
     "ToolOffset",
+    "base_transform",
     "fk_result",
     "ik_result",
     "joints_si_from_request",
@@ -137,7 +139,7 @@ class ToolOffset(BaseModel):
     rpy_deg: Vector3 = Field(description=_RPY_DESCRIPTION)
 
 
-# A tool pose in the robot base frame.
+# A pose: a tool pose in the robot base frame, or (as ``base``) the robot base in the world.
 class Pose(BaseModel):
     model_config = ConfigDict(extra="forbid", strict=True)
 
@@ -159,6 +161,12 @@ class FkRequest(BaseModel):
         + " A list of configurations, or one configuration (read as a list of one)."
     )
     tool: ToolOffset | None = Field(default=None, description="Tool in the flange frame.")
+    base: Pose | None = Field(
+        default=None,
+        description="Robot base frame in the world (a placed robot in a cell). Given, every "
+        "pose and drawing position in the request and the answer is in the world frame; "
+        "omitted, in the robot base frame.",
+    )
 
 
 # Inverse kinematics of one tool pose: every solution, on every arm branch.
@@ -166,8 +174,14 @@ class IkRequest(BaseModel):
     model_config = ConfigDict(extra="forbid", strict=True)
 
     robot: RobotSpec
-    pose: Pose = Field(description="Tool (TCP) pose in the robot base frame.")
+    pose: Pose = Field(description="Tool (TCP) pose in the robot base frame (world if base).")
     tool: ToolOffset | None = Field(default=None, description="Tool in the flange frame.")
+    base: Pose | None = Field(
+        default=None,
+        description="Robot base frame in the world (a placed robot in a cell). Given, every "
+        "pose and drawing position in the request and the answer is in the world frame; "
+        "omitted, in the robot base frame.",
+    )
     seed_deg: JointVector | None = Field(
         default=None,
         description="Joint values to sort solutions by nearness (and to pick turns); "
@@ -193,7 +207,9 @@ class CapsuleShape(BaseModel):
 class FkConfiguration(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
-    position_mm: list[float] = Field(description="TCP position in the base frame.")
+    position_mm: list[float] = Field(
+        description="TCP position in the base frame (world frame if the request gave base)."
+    )
     quaternion_wxyz: list[float] = Field(description="TCP orientation, [w, x, y, z], w >= 0.")
     rpy_deg: list[float] = Field(description="TCP orientation. " + _RPY_DESCRIPTION)
     manipulability: float = Field(description=_MANIPULABILITY_DESCRIPTION)
@@ -267,7 +283,12 @@ def _capsule_segments_mm(robot: Robot, frames: FloatArray) -> FloatArray:
 
 
 def fk_result(
-    robot: Robot, q: npt.ArrayLike, *, T_flange_tool: npt.ArrayLike | None = None, spec: str = ""
+    robot: Robot,
+    q: npt.ArrayLike,
+    *,
+    T_flange_tool: npt.ArrayLike | None = None,
+    spec: str = "",
+    T_world_base: npt.ArrayLike | None = None,
 ) -> FkResult:
     """Forward kinematics result of joint configurations, for the API and the command line.
 
@@ -280,6 +301,9 @@ def fk_result(
         Tool in the flange frame; the robot's default tool if omitted.
     spec : str
         How the robot was named (bundled name or path); ``robot.name`` if empty.
+    T_world_base : array-like, shape (4, 4), optional
+        Robot base in the world; poses and drawing geometry are then world
+        values (``T_world_x = T_world_base @ T_base_x``).
 
     Returns
     -------
@@ -289,6 +313,8 @@ def fk_result(
     """
     q_checked = check_configurations(robot, q)
     frames = fk_frames(robot, q_checked, T_flange_tool)
+    if T_world_base is not None:
+        frames = np.asarray(T_world_base, dtype=np.float64) @ frames
     T_tool = frames[:, -1]
     position_mm = mm_from_m(T_tool[:, :3, 3])
     quaternion = quaternion_from_rotation_matrix(T_tool[:, :3, :3])
@@ -322,11 +348,28 @@ def fk_result(
     )
 
 
-def pose_transform(pose: Pose) -> FloatArray:
-    """``T_base_tool`` of a requested pose, shape (1, 4, 4)."""
-    return transform_from_position_rpy(
+def pose_transform(pose: Pose, base: Pose | None = None) -> FloatArray:
+    """``T_base_tool`` of a requested pose, shape (1, 4, 4).
+
+    With ``base`` (the robot base in the world) the pose is a world pose:
+    ``T_base_tool = inv(T_world_base) @ T_world_tool``.
+    """
+    T = transform_from_position_rpy(
         m_from_mm(pose.position_mm), np.asarray(pose.rpy_deg), degrees=True
     )[None]
+    T_world_base = base_transform(base)
+    if T_world_base is None:
+        return T
+    return invert_transform(T_world_base) @ T
+
+
+def base_transform(base: Pose | None) -> FloatArray | None:
+    """``T_world_base`` of a requested robot base pose, shape (4, 4), or None (base = world)."""
+    if base is None:
+        return None
+    return transform_from_position_rpy(
+        m_from_mm(base.position_mm), np.asarray(base.rpy_deg), degrees=True
+    )
 
 
 def ik_result(

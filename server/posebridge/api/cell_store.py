@@ -1,0 +1,147 @@
+"""The cell a server works on: read, replaced or edited under a content-version check.
+
+A server started with a cell file reads and saves that file
+(:func:`posebridge.cell.files.save_cell`: atomic, with a ``.bak`` of the
+previous version). Without one it works on the bundled demo cell held in
+memory: edits are kept for the life of the server and never written to the
+package's own files.
+
+Every change names the content version (ETag, :func:`posebridge.cell.files.cell_etag`)
+it was made from; a change made from an older version is refused with
+:class:`~posebridge.cell.files.CellConflictError`, so two pages editing the
+same cell never overwrite each other silently. Changes are serialised by a
+lock (``save_cell`` itself does not make check-and-rename one step).
+"""
+
+from __future__ import annotations
+
+import threading
+from collections.abc import Callable
+from dataclasses import dataclass
+from functools import cached_property
+from pathlib import Path
+
+from posebridge.cell.files import CellConflictError, cell_etag, load_cell, save_cell
+from posebridge.cell.model import Cell, validate_cell
+from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.geometry.clearance import ClearanceScene
+from posebridge.resources import data_folder
+from posebridge.spaces.scene_geometry import scene_clearance
+
+__all__ = ["DEMO_CELL_FILE", "CellSnapshot", "CellStore"]
+
+DEMO_CELL_FILE = "demo-cell.json"
+"""The bundled demo cell in the robots folder."""
+
+
+@dataclass(frozen=True, eq=False)
+class CellSnapshot:
+    """One content version of the cell and its resolved scene.
+
+    Attributes
+    ----------
+    cell : Cell
+    etag : str
+        Content version (SHA-256 of the canonical JSON).
+    scene : Scene
+        The cell resolved into world-frame SI arrays.
+    path : Path or None
+        The cell file, or None for the in-memory demo cell.
+    """
+
+    cell: Cell
+    etag: str
+    scene: Scene
+    path: Path | None
+
+    @cached_property
+    def clearance(self) -> ClearanceScene:
+        """The scene's arm, obstacles and pairs for clearance queries (built on first use)."""
+        return scene_clearance(self.scene)
+
+
+class CellStore:
+    """The server's cell, with content-version checked changes.
+
+    Parameters
+    ----------
+    path : Path, optional
+        Cell file to read and save; the bundled demo cell in memory if omitted.
+    """
+
+    def __init__(self, path: Path | None) -> None:
+        self._path = None if path is None else Path(path)
+        self._lock = threading.Lock()
+        self._snapshot: CellSnapshot | None = None
+        self._mtime_ns: int | None = None
+
+    @property
+    def path(self) -> Path | None:
+        """The cell file, or None for the in-memory demo cell."""
+        return self._path
+
+    def _file_mtime(self) -> int | None:
+        if self._path is None:
+            return None
+        try:
+            return self._path.stat().st_mtime_ns
+        except OSError:
+            return None
+
+    def _snapshot_of(self, cell: Cell) -> CellSnapshot:
+        return CellSnapshot(
+            cell=cell, etag=cell_etag(cell), scene=resolve_scene(cell, self._path), path=self._path
+        )
+
+    def read(self) -> CellSnapshot:
+        """The current cell; the file is read again when it changed on disk.
+
+        Raises
+        ------
+        CellFileError
+            The file cannot be read or is not a valid cell.
+        """
+        with self._lock:
+            return self._read_locked()
+
+    def _read_locked(self) -> CellSnapshot:
+        mtime = self._file_mtime()
+        if self._snapshot is not None and (self._path is None or mtime == self._mtime_ns):
+            return self._snapshot
+        source = data_folder("robots") / DEMO_CELL_FILE if self._path is None else self._path
+        self._snapshot = self._snapshot_of(load_cell(source))
+        self._mtime_ns = mtime
+        return self._snapshot
+
+    def replace(self, cell: Cell, expected_etag: str) -> CellSnapshot:
+        """Replace the whole cell, if it is still at content version ``expected_etag``.
+
+        Raises
+        ------
+        CellConflictError
+            The cell has another content version now (edited elsewhere).
+        CellFileError
+            The new cell is invalid (its robot cannot be loaded, joint counts).
+        OSError
+            The file cannot be written; it is then unchanged.
+        """
+        return self.edit(lambda _: cell, expected_etag)
+
+    def edit(self, change: Callable[[Cell], Cell], expected_etag: str) -> CellSnapshot:
+        """Apply ``change`` to the cell at content version ``expected_etag`` and keep the result.
+
+        ``change`` gets the current cell and returns the edited one (it is
+        validated again). Errors as :meth:`replace`; ``KeyError`` and
+        ``ValueError`` raised by ``change`` pass through unchanged.
+        """
+        with self._lock:
+            current = self._read_locked()
+            if current.etag != expected_etag:
+                raise CellConflictError(str(self._path or "demo cell"), expected_etag, current.etag)
+            edited = validate_cell(change(current.cell).model_dump(mode="json", exclude_none=True))
+            snapshot = self._snapshot_of(edited)
+            if self._path is not None:
+                save_cell(edited, self._path, expected_etag=expected_etag)
+                self._mtime_ns = self._file_mtime()
+            self._snapshot = snapshot
+            return snapshot

@@ -1,0 +1,221 @@
+"""The server's cell: read it, replace it, move a target, a fixture or the robot base.
+
+Every change carries the content version it was made from in the
+``If-Match`` header (the ``etag`` of the last answer); a change made from an
+older version gets 412 and changes nothing, so edits from two pages never
+overwrite each other silently. A missing ``If-Match`` gets 428.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import numpy as np
+from fastapi import APIRouter, Header, HTTPException, Path, Response
+
+from posebridge.api.cell_store import CellSnapshot
+from posebridge.api.deps import CellsDep, RobotsDep
+from posebridge.api.robot_cache import RobotCache
+from posebridge.api.schemas.cells import (
+    BaseEdit,
+    CellDocument,
+    FixtureEdit,
+    TargetEdit,
+    cell_document,
+)
+from posebridge.api.schemas.errors import error_responses
+from posebridge.cell.files import CellConflictError
+from posebridge.cell.model import Cell, Target
+from posebridge.cell.scene import Scene
+from posebridge.transforms import (
+    invert_transform,
+    rpy_from_rotation_matrix,
+    transform_from_position_rpy,
+)
+from posebridge.units import m_from_mm, mm_from_m
+
+__all__ = ["cell_robot_spec", "router"]
+
+router = APIRouter(prefix="/api/cell", tags=["cell"])
+
+IfMatch = Annotated[
+    str | None,
+    Header(
+        max_length=200,
+        description="The etag of the cell version the change was made from (quotes optional).",
+    ),
+]
+Name = Annotated[str, Path(min_length=1, max_length=100)]
+
+_CHANGE_ERRORS = error_responses(404, 412, 422, 428)
+
+
+def cell_robot_spec(snapshot: CellSnapshot, robots: RobotCache) -> str:
+    """Robot name for the kinematics routes: the bundled name, else the cell's robot pinned in the cache."""
+    source = snapshot.cell.robot
+    if source.name is not None:
+        return source.name
+    spec = f"cell:{snapshot.scene.robot.name}"
+    robots.pin(spec, snapshot.scene.robot)
+    return spec
+
+
+def _answer(snapshot: CellSnapshot, robots: RobotCache, response: Response) -> CellDocument:
+    response.headers["ETag"] = f'"{snapshot.etag}"'
+    return cell_document(snapshot, cell_robot_spec(snapshot, robots))
+
+
+def _expected_etag(if_match: str | None) -> str:
+    if if_match is None or not if_match.strip():
+        raise HTTPException(
+            status_code=428,
+            detail="If-Match: required; send the etag of the cell version you edited "
+            "(from GET /api/cell)",
+        )
+    value = if_match.strip()
+    if value.startswith("W/"):
+        value = value[2:]
+    return value.strip('"')
+
+
+def _conflict(error: CellConflictError) -> HTTPException:
+    now = (
+        "it can no longer be read"
+        if error.actual_etag is None
+        else f"it is now at version {error.actual_etag}"
+    )
+    return HTTPException(
+        status_code=412,
+        detail=f"If-Match: the cell was changed elsewhere since version {error.expected_etag} "
+        f"was read ({now}); reload the cell and apply the edit again",
+    )
+
+
+@router.get("", summary="Read the cell", responses=error_responses(422))
+def read_cell(cells: CellsDep, robots: RobotsDep, response: Response) -> CellDocument:
+    """The cell file content, its content version (also the ETag header) and its drawing."""
+    return _answer(cells.read(), robots, response)
+
+
+@router.put("", summary="Replace the cell", responses=error_responses(412, 422, 428))
+def replace_cell(
+    cell: Cell, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch = None
+) -> CellDocument:
+    """Replace the whole cell; saved atomically with a .bak of the previous file."""
+    expected = _expected_etag(if_match)
+    try:
+        snapshot = cells.replace(cell, expected)
+    except CellConflictError as error:
+        raise _conflict(error) from error
+    return _answer(snapshot, robots, response)
+
+
+def _moved(position_mm: list[float] | None, rpy_deg: list[float] | None) -> dict[str, object]:
+    """The pose fields an edit changes, as the cell model stores them."""
+    update: dict[str, object] = {}
+    if position_mm is not None:
+        update["position_mm"] = tuple(position_mm)
+    if rpy_deg is not None:
+        update["rpy_deg"] = tuple(rpy_deg)
+    return update
+
+
+def _target_in_fixture(scene: Scene, target: Target, edit: TargetEdit) -> dict[str, object]:
+    """The edited target pose in its fixture's frame: ``T_fixture_target = inv(T_world_fixture) T_world_target``."""
+    if edit.frame == "fixture" or target.fixture == "world":
+        return _moved(edit.position_mm, edit.rpy_deg)
+    k = scene.targets.index(target.name)
+    old = scene.targets.T_world_target[k]
+    position = m_from_mm(edit.position_mm) if edit.position_mm is not None else old[:3, 3]
+    if edit.rpy_deg is not None:
+        T_world = transform_from_position_rpy(position, np.asarray(edit.rpy_deg), degrees=True)
+    else:
+        T_world = old.copy()
+        T_world[:3, 3] = position
+    T_world_fixture = scene.T_world_fixture[scene.fixture_names.index(target.fixture)]
+    T_local = invert_transform(T_world_fixture) @ T_world
+    return {
+        "position_mm": tuple(float(v) for v in mm_from_m(T_local[:3, 3])),
+        "rpy_deg": tuple(float(v) for v in rpy_from_rotation_matrix(T_local[:3, :3], degrees=True)),
+    }
+
+
+def _unknown(kind: str, name: str) -> HTTPException:
+    return HTTPException(status_code=404, detail=f"{kind}: no {kind} named {name!r} in the cell")
+
+
+@router.patch("/targets/{name}", summary="Move a target", responses=_CHANGE_ERRORS)
+def move_target(
+    name: Name,
+    edit: TargetEdit,
+    cells: CellsDep,
+    robots: RobotsDep,
+    response: Response,
+    if_match: IfMatch = None,
+) -> CellDocument:
+    """New tool pose of one target, given in the world (default) or in its fixture's frame."""
+    expected = _expected_etag(if_match)
+    current = cells.read()
+    names = [target.name for target in current.cell.targets]
+    if name not in names:
+        raise _unknown("target", name)
+    index = names.index(name)
+    update = _target_in_fixture(current.scene, current.cell.targets[index], edit)
+
+    def change(cell: Cell) -> Cell:
+        targets = list(cell.targets)
+        targets[index] = targets[index].model_copy(update=update)
+        return cell.model_copy(update={"targets": targets})
+
+    try:
+        snapshot = cells.edit(change, expected)
+    except CellConflictError as error:
+        raise _conflict(error) from error
+    return _answer(snapshot, robots, response)
+
+
+@router.patch("/fixtures/{name}", summary="Move a fixture", responses=_CHANGE_ERRORS)
+def move_fixture(
+    name: Name,
+    edit: FixtureEdit,
+    cells: CellsDep,
+    robots: RobotsDep,
+    response: Response,
+    if_match: IfMatch = None,
+) -> CellDocument:
+    """New pose of one fixture in its parent's frame (the world without a parent); its children and targets move with it."""
+    expected = _expected_etag(if_match)
+    names = [fixture.name for fixture in cells.read().cell.fixtures]
+    if name not in names:
+        raise _unknown("fixture", name)
+    index = names.index(name)
+    update = _moved(edit.position_mm, edit.rpy_deg)
+
+    def change(cell: Cell) -> Cell:
+        fixtures = list(cell.fixtures)
+        fixtures[index] = fixtures[index].model_copy(update=update)
+        return cell.model_copy(update={"fixtures": fixtures})
+
+    try:
+        snapshot = cells.edit(change, expected)
+    except CellConflictError as error:
+        raise _conflict(error) from error
+    return _answer(snapshot, robots, response)
+
+
+@router.patch("/base", summary="Move the robot base", responses=error_responses(412, 422, 428))
+def move_base(
+    edit: BaseEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch = None
+) -> CellDocument:
+    """New pedestal foot pose in the world; the robot and its pedestal move with it."""
+    expected = _expected_etag(if_match)
+    update = _moved(edit.position_mm, edit.rpy_deg)
+
+    def change(cell: Cell) -> Cell:
+        return cell.model_copy(update={"base": cell.base.model_copy(update=update)})
+
+    try:
+        snapshot = cells.edit(change, expected)
+    except CellConflictError as error:
+        raise _conflict(error) from error
+    return _answer(snapshot, robots, response)

@@ -1,0 +1,298 @@
+"""The cell as the page reads and edits it: the file content, its version and a drawing of it.
+
+The drawing (:class:`SceneDrawing`) is the resolved scene in world
+millimetres and degrees: every shape's centre pose and size, targets as tool
+poses, path waypoints as tool poses. Orientations are roll, pitch, yaw in
+degrees about fixed X, Y, Z: R = Rz(yaw) Ry(pitch) Rx(roll).
+"""
+
+from __future__ import annotations
+
+from typing import Annotated, Any, Literal
+
+from pydantic import BaseModel, ConfigDict, Field
+
+from posebridge.api.cell_store import CellSnapshot
+from posebridge.cell.model import MAX_COORDINATE_MM, Branch, Cell
+from posebridge.cell.scene import BoxSet, CylinderSet, Scene
+from posebridge.transforms import rpy_from_rotation_matrix
+from posebridge.units import FloatArray, joints_user_from_si, mm_from_m
+
+__all__ = [
+    "BaseDrawing",
+    "BaseEdit",
+    "CellDocument",
+    "FixtureEdit",
+    "PathDrawing",
+    "SceneDrawing",
+    "ShapeDrawing",
+    "TargetDrawing",
+    "TargetEdit",
+    "ToolDrawing",
+    "WaypointDrawing",
+    "cell_document",
+]
+
+_RPY = "Roll, pitch, yaw in degrees about fixed X, Y, Z: R = Rz(yaw) Ry(pitch) Rx(roll)."
+Coordinate = Annotated[
+    float, Field(allow_inf_nan=False, ge=-MAX_COORDINATE_MM, le=MAX_COORDINATE_MM)
+]
+Angle = Annotated[float, Field(allow_inf_nan=False, ge=-360.0, le=360.0)]
+Position = Annotated[list[Coordinate], Field(min_length=3, max_length=3)]
+Rpy = Annotated[list[Angle], Field(min_length=3, max_length=3, description=_RPY)]
+
+
+# One solid of the cell (fixture, keep-out zone or pedestal), centred on its world pose.
+class ShapeDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    role: Literal["fixture", "keep_out", "pedestal"]
+    shape: Literal["box", "cylinder"]
+    position_mm: list[float] = Field(description="Centre in the world.")
+    rpy_deg: list[float] = Field(description="Orientation in the world. " + _RPY)
+    size_mm: list[float] | None = Field(
+        description="Box side lengths along its x, y, z; null for a cylinder."
+    )
+    radius_mm: float | None = Field(description="Cylinder radius; null for a box.")
+    height_mm: float | None = Field(description="Cylinder length along its z; null for a box.")
+
+
+# A target as a world tool pose, with its approach position.
+class TargetDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    fixture: str = Field(description="Fixture the target is attached to, or world.")
+    position_mm: list[float] = Field(description="Tool (TCP) position in the world.")
+    rpy_deg: list[float] = Field(description="Tool orientation in the world. " + _RPY)
+    approach_position_mm: list[float] = Field(
+        description="Approach position (backed off along the tool z axis), world."
+    )
+    branch: Branch | None = Field(description="Required arm branch; null where any will do.")
+
+
+# One path waypoint as a world tool pose.
+class WaypointDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    source: Literal["target", "pose", "joints"]
+    target: str | None = Field(description="Target name for a target waypoint.")
+    approach: bool
+    position_mm: list[float] = Field(description="Tool position in the world.")
+    rpy_deg: list[float] = Field(description="Tool orientation in the world. " + _RPY)
+    joints_deg: list[float] | None = Field(
+        description="Given joint values (deg; mm for prismatic joints), null otherwise."
+    )
+    motion: Literal["joint", "linear"] = Field(description="Move into this waypoint.")
+
+
+# A path: its waypoints in order.
+class PathDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    waypoints: list[WaypointDrawing]
+
+
+# The robot's placement: pedestal foot and base frame in the world.
+class BaseDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    position_mm: list[float] = Field(description="Robot base frame origin in the world.")
+    rpy_deg: list[float] = Field(description="Robot base frame orientation. " + _RPY)
+    foot_position_mm: list[float] = Field(description="Pedestal foot in the world.")
+
+
+# A tool collision capsule in the flange frame.
+class ToolCapsuleDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    start_mm: list[float]
+    end_mm: list[float]
+    radius_mm: float
+
+
+# The mounted tool: TCP in the flange frame and its capsules.
+class ToolDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    position_mm: list[float] = Field(description="TCP position in the flange frame.")
+    rpy_deg: list[float] = Field(description="TCP orientation in the flange frame. " + _RPY)
+    capsules: list[ToolCapsuleDrawing]
+
+
+# The resolved cell, in world millimetres and degrees, for drawing.
+class SceneDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    base: BaseDrawing
+    tool: ToolDrawing
+    floor_height_mm: float
+    shapes: list[ShapeDrawing]
+    targets: list[TargetDrawing]
+    paths: list[PathDrawing]
+
+
+# The server's cell: file content, content version and drawing.
+class CellDocument(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    etag: str = Field(description="Content version; send it as If-Match with every change.")
+    path: str | None = Field(description="The cell file; null for the in-memory demo cell.")
+    saved_to_file: bool = Field(description="Changes are saved to the file (else kept in memory).")
+    robot: str = Field(description="Robot name to use with /api/fk, /api/ik and /api/robots/model.")
+    cell: Cell
+    scene: SceneDrawing
+
+
+# Move a target: new tool pose in the world (or in its fixture's frame).
+class TargetEdit(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    position_mm: Position | None = None
+    rpy_deg: Rpy | None = None
+    frame: Literal["world", "fixture"] = Field(
+        default="world", description="Frame of the given pose: the world or the target's fixture."
+    )
+
+
+# Move a fixture: new pose in its parent's frame (the world without a parent).
+class FixtureEdit(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    position_mm: Position | None = None
+    rpy_deg: Rpy | None = None
+
+
+# Move the robot: new pedestal foot pose in the world.
+class BaseEdit(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    position_mm: Position | None = None
+    rpy_deg: Rpy | None = None
+
+
+def _pose_mm_deg(T: FloatArray) -> tuple[list[Any], list[Any]]:
+    """Position (mm) and rpy (deg) of transforms, shape (..., 4, 4) -> lists."""
+    return (
+        mm_from_m(T[..., :3, 3]).tolist(),
+        rpy_from_rotation_matrix(T[..., :3, :3], degrees=True).tolist(),
+    )
+
+
+def _boxes(boxes: BoxSet, role: Literal["fixture", "keep_out"]) -> list[ShapeDrawing]:
+    positions, rpys = _pose_mm_deg(boxes.T_world)
+    sizes = mm_from_m(2.0 * boxes.half_extents).tolist()
+    return [
+        ShapeDrawing(
+            name=name,
+            role=role,
+            shape="box",
+            position_mm=positions[k],
+            rpy_deg=rpys[k],
+            size_mm=sizes[k],
+            radius_mm=None,
+            height_mm=None,
+        )
+        for k, name in enumerate(boxes.names)
+    ]
+
+
+def _cylinders(cylinders: CylinderSet, role: Literal["fixture", "pedestal"]) -> list[ShapeDrawing]:
+    positions, rpys = _pose_mm_deg(cylinders.T_world)
+    radius = mm_from_m(cylinders.radius).tolist()
+    height = mm_from_m(2.0 * cylinders.half_length).tolist()
+    return [
+        ShapeDrawing(
+            name=name,
+            role=role,
+            shape="cylinder",
+            position_mm=positions[k],
+            rpy_deg=rpys[k],
+            size_mm=None,
+            radius_mm=radius[k],
+            height_mm=height[k],
+        )
+        for k, name in enumerate(cylinders.names)
+    ]
+
+
+def scene_drawing(scene: Scene) -> SceneDrawing:
+    """The drawing of a resolved scene in world mm and deg."""
+    base_position, base_rpy = _pose_mm_deg(scene.T_world_base)
+    foot = scene.cell.base.position_mm
+    tool_position, tool_rpy = _pose_mm_deg(scene.T_flange_tool)
+    capsules = scene.tool_capsules
+    targets = scene.targets
+    positions, rpys = _pose_mm_deg(targets.T_world_target)
+    approach = mm_from_m(targets.T_world_approach[:, :3, 3]).tolist()
+    paths = []
+    for path in scene.paths:
+        wp_positions, wp_rpys = _pose_mm_deg(path.T_world_tool)
+        q_user = joints_user_from_si(path.q, scene.robot.prismatic)
+        waypoints = [
+            WaypointDrawing(
+                source=source,
+                target=None if path.target_index[w] < 0 else targets.names[path.target_index[w]],
+                approach=bool(path.approach[w]),
+                position_mm=wp_positions[w],
+                rpy_deg=wp_rpys[w],
+                joints_deg=q_user[w].tolist() if path.joints_given[w] else None,
+                motion="linear" if path.linear[w] else "joint",
+            )
+            for w, source in enumerate(path.sources)
+        ]
+        paths.append(PathDrawing(name=path.name, waypoints=waypoints))
+    return SceneDrawing(
+        base=BaseDrawing(
+            position_mm=base_position, rpy_deg=base_rpy, foot_position_mm=[float(v) for v in foot]
+        ),
+        tool=ToolDrawing(
+            name=scene.tool_name,
+            position_mm=tool_position,
+            rpy_deg=tool_rpy,
+            capsules=[
+                ToolCapsuleDrawing(
+                    name=name,
+                    start_mm=mm_from_m(capsules.start[k]).tolist(),
+                    end_mm=mm_from_m(capsules.end[k]).tolist(),
+                    radius_mm=float(mm_from_m(capsules.radius[k])),
+                )
+                for k, name in enumerate(capsules.names)
+            ],
+        ),
+        floor_height_mm=float(mm_from_m(scene.floor_height)),
+        shapes=[
+            *_boxes(scene.boxes, "fixture"),
+            *_cylinders(scene.cylinders, "fixture"),
+            *_boxes(scene.keep_outs, "keep_out"),
+            *_cylinders(scene.pedestal, "pedestal"),
+        ],
+        targets=[
+            TargetDrawing(
+                name=name,
+                fixture=targets.fixtures[k],
+                position_mm=positions[k],
+                rpy_deg=rpys[k],
+                approach_position_mm=approach[k],
+                branch=targets.branches[k],
+            )
+            for k, name in enumerate(targets.names)
+        ],
+        paths=paths,
+    )
+
+
+def cell_document(snapshot: CellSnapshot, robot_spec: str) -> CellDocument:
+    """The answer of the cell routes for one content version."""
+    return CellDocument(
+        etag=snapshot.etag,
+        path=None if snapshot.path is None else str(snapshot.path),
+        saved_to_file=snapshot.path is not None,
+        robot=robot_spec,
+        cell=snapshot.cell,
+        scene=scene_drawing(snapshot.scene),
+    )

@@ -1,0 +1,117 @@
+"""Joint-space obstacle maps over two or three joints, computed as jobs for the current cell.
+
+Grid values are flat lists in C order over the grid shape: the first chosen
+joint varies slowest. Joint values are degrees for revolute joints and
+millimetres for prismatic joints, as everywhere at this interface.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field
+
+from posebridge.api.schemas.kinematics import MAX_JOINTS, Finite
+from posebridge.robot.model import Robot
+from posebridge.spaces.joint_map import JointMap
+from posebridge.units import joint_unit_labels, joints_user_from_si, mm_from_m
+
+__all__ = [
+    "MAX_MAP_CELLS_2",
+    "MAX_MAP_CELLS_3",
+    "JointMapRequest",
+    "JointMapResult",
+    "joint_map_result",
+]
+
+MAX_MAP_CELLS_2 = 256 * 256
+"""Most cells of a two-joint map computed by the server."""
+MAX_MAP_CELLS_3 = 48 * 48 * 48
+"""Most cells of a three-joint map computed by the server."""
+
+_JOINTS = "Revolute joints in degrees, prismatic joints in millimetres, in the robot's joint order."
+
+
+# A joint-space map over two or three joints of the cell's robot.
+class JointMapRequest(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    joints: Annotated[
+        list[Annotated[int, Field(ge=0, lt=MAX_JOINTS)]], Field(min_length=2, max_length=3)
+    ] = Field(description="Chosen joint indices (0-based), distinct.")
+    hold_deg: Annotated[list[Finite], Field(min_length=1, max_length=MAX_JOINTS)] = Field(
+        description="The configuration the map is a slice through; the chosen joints are swept. "
+        + _JOINTS
+    )
+    resolution: int = Field(
+        default=96,
+        ge=2,
+        le=256,
+        description="Cells per axis; at most 256 for two joints and 48 for three.",
+    )
+    threshold_mm: float = Field(
+        default=0.0,
+        ge=0.0,
+        le=1000.0,
+        allow_inf_nan=False,
+        description="A clearance below this counts as a collision, mm.",
+    )
+
+
+# A joint-space obstacle map: per cell the nearest colliding obstacle, self collision, clearance.
+class JointMapResult(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    cell_etag: str = Field(description="Content version of the cell the map was computed for.")
+    joints: list[int]
+    joint_names: list[str]
+    joint_units: list[str]
+    shape: list[int] = Field(description="Cells along each chosen joint.")
+    axes_deg: list[list[float]] = Field(description="Cell-centre values per chosen joint.")
+    lower_deg: list[float] = Field(description="Limit box lower corner of the chosen joints.")
+    upper_deg: list[float] = Field(description="Limit box upper corner of the chosen joints.")
+    hold_deg: list[float] = Field(
+        description="The configuration the map slices through. " + _JOINTS
+    )
+    threshold_mm: float
+    obstacle_names: list[str] = Field(
+        description="Obstacles of the cell; obstacle values index this."
+    )
+    obstacle: list[int] = Field(
+        description="Per cell (flat, C order): the colliding obstacle nearest the arm, -1 if none."
+    )
+    self_collision: list[bool] = Field(description="Per cell: the arm touches itself.")
+    clearance_mm: list[float] | None = Field(
+        description="Per cell: the smallest clearance to any obstacle or to the arm itself, mm "
+        "(negative: penetration; capped at 1e6); two-joint maps only, null for three."
+    )
+    colliding_obstacles: list[str] = Field(
+        description="Obstacles in collision somewhere on the map."
+    )
+
+
+def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> JointMapResult:
+    """The answer for a computed :class:`~posebridge.spaces.joint_map.JointMap`."""
+    prismatic = joint_map.prismatic
+    clearance = None
+    if len(joint_map.joints) == 2:
+        values = np.round(mm_from_m(np.minimum(joint_map.clearance, 1e3)), 1)
+        clearance = values.ravel().tolist()
+    return JointMapResult(
+        cell_etag=cell_etag,
+        joints=list(joint_map.joints),
+        joint_names=list(joint_map.joint_names),
+        joint_units=joint_unit_labels(prismatic),
+        shape=list(joint_map.shape),
+        axes_deg=[axis.tolist() for axis in joint_map.axes_user],
+        lower_deg=joint_map.lower_user.tolist(),
+        upper_deg=joint_map.upper_user.tolist(),
+        hold_deg=joints_user_from_si(joint_map.q_hold, robot.prismatic).tolist(),
+        threshold_mm=float(mm_from_m(joint_map.threshold_m)),
+        obstacle_names=list(joint_map.obstacle_names),
+        obstacle=joint_map.obstacle.ravel().astype(int).tolist(),
+        self_collision=joint_map.self_collision.ravel().tolist(),
+        clearance_mm=clearance,
+        colliding_obstacles=[joint_map.obstacle_names[k] for k in joint_map.colliding_obstacles],
+    )

@@ -1,0 +1,230 @@
+"""GET/PUT /api/cell and the small edits (target, fixture, base), with content-version checks.
+
+World poses are recomputed here with scipy's Rotation (fixed-axis X-Y-Z
+roll-pitch-yaw, scipy ``from_euler("xyz")``) and plain 4x4 products, the
+composition T_world_child = T_world_parent @ T_parent_child (Lynch & Park,
+Modern Robotics, sec. 3.3.1).
+"""
+
+from __future__ import annotations
+
+import json
+import shutil
+from collections.abc import AsyncIterator, Callable
+from pathlib import Path
+
+import httpx
+import numpy as np
+import pytest
+from fastapi import FastAPI
+from scipy.spatial.transform import Rotation
+
+from posebridge.cell.files import backup_path, cell_etag, load_cell
+from posebridge.resources import data_folder
+
+pytestmark = pytest.mark.anyio
+
+DEMO = data_folder("robots") / "demo-cell.json"
+
+
+def _pose(position_mm: list[float], rpy_deg: list[float]) -> np.ndarray:
+    T = np.eye(4)
+    T[:3, :3] = Rotation.from_euler("xyz", rpy_deg, degrees=True).as_matrix()
+    T[:3, 3] = position_mm
+    return T
+
+
+def _fixture_world(cell: dict, name: str) -> np.ndarray:
+    fixture = next(f for f in cell["fixtures"] if f["name"] == name)
+    local = _pose(fixture["position_mm"], fixture.get("rpy_deg", [0, 0, 0]))
+    parent = fixture.get("parent")
+    return local if parent is None else _fixture_world(cell, parent) @ local
+
+
+@pytest.fixture
+def cell_file(tmp_path: Path) -> Path:
+    path = tmp_path / "cell.json"
+    shutil.copyfile(DEMO, path)
+    return path
+
+
+@pytest.fixture
+async def file_app(make_app: Callable[..., FastAPI], cell_file: Path) -> FastAPI:
+    return make_app(cell_path=cell_file)
+
+
+def _client(app: FastAPI) -> httpx.AsyncClient:
+    return httpx.AsyncClient(transport=httpx.ASGITransport(app=app), base_url="http://testserver")
+
+
+@pytest.fixture
+async def file_client(file_app: FastAPI) -> AsyncIterator[httpx.AsyncClient]:
+    async with _client(file_app) as session:
+        yield session
+
+
+async def test_read_cell_demo(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/cell")
+    assert response.status_code == 200
+    body = response.json()
+    # content version: cell_etag of the bundled file (posebridge.cell.files, tested in tests/cell)
+    assert body["etag"] == cell_etag(load_cell(DEMO))
+    assert response.headers["etag"] == f'"{body["etag"]}"'
+    assert body["path"] is None and body["saved_to_file"] is False
+    assert body["robot"] == "pb-arm6"
+    raw = json.loads(DEMO.read_text())
+    assert body["cell"]["title"] == raw["title"]
+    scene = body["scene"]
+    # base frame on top of the pedestal: foot + height along the foot's z (closed form)
+    assert scene["base"]["position_mm"] == pytest.approx(
+        np.add(raw["base"]["position_mm"], [0, 0, raw["base"]["pedestal_height_mm"]])
+    )
+    roles = {shape["name"]: shape["role"] for shape in scene["shapes"]}
+    assert roles["fence-rear"] == "keep_out" and roles["pedestal"] == "pedestal"
+    assert roles["press-bed"] == "fixture"
+    frames = [f["name"] for f in raw["fixtures"] if f["shape"] == "frame"]
+    assert not set(frames) & set(roles)  # frames have no geometry
+    # a target on a rotated fixture chain (gauge yawed -131 deg): scipy composition
+    probe = next(t for t in raw["targets"] if t["name"] == "gauge-probe")
+    expected = _fixture_world(raw, probe["fixture"]) @ _pose(probe["position_mm"], probe["rpy_deg"])
+    drawn = next(t for t in scene["targets"] if t["name"] == "gauge-probe")
+    assert drawn["position_mm"] == pytest.approx(expected[:3, 3], abs=1e-9)
+    drawn_R = Rotation.from_euler("xyz", drawn["rpy_deg"], degrees=True).as_matrix()
+    np.testing.assert_allclose(drawn_R, expected[:3, :3], atol=1e-9)
+    # approach: backed off along the tool z axis by approach_offset_mm
+    back = expected @ _pose([0, 0, -probe["approach_offset_mm"]], [0, 0, 0])
+    assert drawn["approach_position_mm"] == pytest.approx(back[:3, 3], abs=1e-9)
+    # a box keeps its size; paths keep their waypoint count
+    bed = next(s for s in scene["shapes"] if s["name"] == "press-bed")
+    assert bed["size_mm"] == [700.0, 900.0, 800.0]
+    assert [len(p["waypoints"]) for p in scene["paths"]] == [
+        len(p["waypoints"]) for p in raw["paths"]
+    ]
+
+
+async def test_move_target_world_frame(file_client: httpx.AsyncClient, cell_file: Path) -> None:
+    etag = (await file_client.get("/api/cell")).json()["etag"]
+    goal = [150.0, 820.0, 470.0]
+    response = await file_client.patch(
+        "/api/cell/targets/rack-low-1", json={"position_mm": goal}, headers={"If-Match": etag}
+    )
+    assert response.status_code == 200, response.text
+    body = response.json()
+    assert body["etag"] != etag
+    drawn = next(t for t in body["scene"]["targets"] if t["name"] == "rack-low-1")
+    assert drawn["position_mm"] == pytest.approx(goal, abs=1e-9)
+    # the file stores the pose in the fixture's frame: inv(T_world_fixture) @ p_world
+    saved = json.loads(cell_file.read_text())
+    target = next(t for t in saved["targets"] if t["name"] == "rack-low-1")
+    local = np.linalg.inv(_fixture_world(saved, target["fixture"])) @ np.append(goal, 1.0)
+    assert target["position_mm"] == pytest.approx(local[:3], abs=1e-9)
+    # the previous file is kept as .bak (save_cell's backup)
+    assert json.loads(backup_path(cell_file).read_text()) == json.loads(DEMO.read_text())
+
+
+async def test_replace_cell_conflict_two_clients(file_app: FastAPI, cell_file: Path) -> None:
+    async with _client(file_app) as first, _client(file_app) as second:
+        seen_first = (await first.get("/api/cell")).json()
+        seen_second = (await second.get("/api/cell")).json()
+        assert seen_first["etag"] == seen_second["etag"]
+        moved = await first.patch(
+            "/api/cell/base",
+            json={"position_mm": [100.0, -50.0, 0.0]},
+            headers={"If-Match": seen_first["etag"]},
+        )
+        assert moved.status_code == 200
+        after_first = cell_file.read_bytes()
+        edited = {**seen_second["cell"], "title": "edited in the second tab"}
+        refused = await second.put(
+            "/api/cell", json=edited, headers={"If-Match": f'"{seen_second["etag"]}"'}
+        )
+        assert refused.status_code == 412
+        assert refused.json()["detail"] == (
+            f"If-Match: the cell was changed elsewhere since version {seen_second['etag']} was "
+            f"read (it is now at version {moved.json()['etag']}); reload the cell and apply the "
+            "edit again"
+        )
+        assert cell_file.read_bytes() == after_first  # nothing written
+        # after reloading, the second tab's edit goes through
+        fresh = (await second.get("/api/cell")).json()
+        accepted = await second.put(
+            "/api/cell",
+            json={**fresh["cell"], "title": "edited in the second tab"},
+            headers={"If-Match": fresh["etag"]},
+        )
+        assert accepted.status_code == 200
+        assert json.loads(cell_file.read_text())["title"] == "edited in the second tab"
+        assert json.loads(cell_file.read_text())["base"]["position_mm"] == [100.0, -50.0, 0.0]
+
+
+async def test_replace_cell_without_if_match(client: httpx.AsyncClient) -> None:
+    cell = (await client.get("/api/cell")).json()["cell"]
+    response = await client.put("/api/cell", json=cell)
+    assert response.status_code == 428
+    assert response.json()["detail"] == (
+        "If-Match: required; send the etag of the cell version you edited (from GET /api/cell)"
+    )
+
+
+async def test_replace_cell_invalid(client: httpx.AsyncClient) -> None:
+    seen = (await client.get("/api/cell")).json()
+    cell = {**seen["cell"], "robot": {"name": "no-such-robot"}}
+    response = await client.put("/api/cell", json=cell, headers={"If-Match": seen["etag"]})
+    assert response.status_code == 422
+    assert response.json()["detail"].startswith("robot.name: ")
+    assert (await client.get("/api/cell")).json()["etag"] == seen["etag"]
+
+
+async def test_move_target_unknown(client: httpx.AsyncClient) -> None:
+    etag = (await client.get("/api/cell")).json()["etag"]
+    response = await client.patch(
+        "/api/cell/targets/nowhere", json={"position_mm": [0, 0, 0]}, headers={"If-Match": etag}
+    )
+    assert response.status_code == 404
+    assert response.json()["detail"] == "target: no target named 'nowhere' in the cell"
+
+
+async def test_move_fixture_moves_its_targets(client: httpx.AsyncClient) -> None:
+    seen = (await client.get("/api/cell")).json()
+    before = {t["name"]: t["position_mm"] for t in seen["scene"]["targets"]}
+    response = await client.patch(
+        "/api/cell/fixtures/rack",
+        json={"position_mm": [300.0, 1000.0, 0.0]},
+        headers={"If-Match": seen["etag"]},
+    )
+    assert response.status_code == 200
+    after = {t["name"]: t["position_mm"] for t in response.json()["scene"]["targets"]}
+    # the rack frame moved +50 mm in x without rotation: its shelves' targets move with it
+    assert after["rack-low-1"] == pytest.approx(np.add(before["rack-low-1"], [50, 0, 0]))
+    assert after["press-load"] == pytest.approx(before["press-load"])
+
+
+async def test_move_base_in_memory_cell(client: httpx.AsyncClient) -> None:
+    seen = (await client.get("/api/cell")).json()
+    response = await client.patch(
+        "/api/cell/base",
+        json={"position_mm": [10.0, 20.0, 0.0], "rpy_deg": [0.0, 0.0, 90.0]},
+        headers={"If-Match": seen["etag"]},
+    )
+    assert response.status_code == 200
+    base = response.json()["scene"]["base"]
+    # robot base = foot moved up by the 400 mm pedestal along the foot's z (closed form)
+    assert base["position_mm"] == pytest.approx([10.0, 20.0, 400.0])
+    assert base["rpy_deg"][2] == pytest.approx(90.0)
+    # kept in memory for the life of the server
+    assert (await client.get("/api/cell")).json()["etag"] == response.json()["etag"]
+    stale = await client.patch(
+        "/api/cell/base", json={"position_mm": [0.0, 0.0, 0.0]}, headers={"If-Match": seen["etag"]}
+    )
+    assert stale.status_code == 412
+
+
+async def test_request_too_large(make_app: Callable[..., FastAPI]) -> None:
+    async with _client(make_app(max_request_bytes=1000)) as session:
+        cell = json.loads(DEMO.read_text())
+        response = await session.put("/api/cell", json=cell, headers={"If-Match": "x"})
+    assert response.status_code == 413
+    length = int(response.request.headers["content-length"])
+    assert response.json()["detail"] == (
+        f"request body: {length} bytes is more than this server accepts (1000 bytes)"
+    )

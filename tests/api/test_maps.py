@@ -1,0 +1,125 @@
+"""POST /api/maps/joint and the job routes: progress, result, cancel, caps, per-client limits.
+
+The map itself comes from posebridge.spaces.joint_map (checked against
+python-fcl in tests/spaces/test_joint_map.py); here the answer is compared
+cell by cell with a direct call of that function on the same cell.
+"""
+
+from __future__ import annotations
+
+import asyncio
+from typing import Any
+
+import httpx
+import numpy as np
+import pytest
+
+from posebridge.api.jobs import MAX_ACTIVE_PER_CLIENT
+from posebridge.cell import load_cell, resolve_scene
+from posebridge.resources import data_folder
+from posebridge.spaces.joint_map import joint_map
+from posebridge.spaces.scene_geometry import scene_clearance
+from posebridge.units import joints_si_from_user
+
+pytestmark = pytest.mark.anyio
+
+HOLD = [0.0, 10.0, -20.0, 0.0, 55.0, 0.0]
+
+
+async def _finished(client: httpx.AsyncClient, job_id: str) -> dict[str, Any]:
+    for _ in range(600):
+        status = (await client.get(f"/api/jobs/{job_id}")).json()
+        if status["state"] not in ("queued", "running"):
+            return status
+        await asyncio.sleep(0.1)
+    raise AssertionError("job did not finish in 60 s")
+
+
+async def test_start_joint_map_two_joints(client: httpx.AsyncClient) -> None:
+    response = await client.post(
+        "/api/maps/joint", json={"joints": [1, 2], "hold_deg": HOLD, "resolution": 24}
+    )
+    assert response.status_code == 202
+    started = response.json()
+    assert started["kind"] == "joint-map" and started["result"] is None
+    status = await _finished(client, started["id"])
+    assert status["state"] == "done", status["detail"]
+    result = status["result"]
+    assert result["shape"] == [24, 24]
+    assert result["joint_names"] == ["j2", "j3"]
+    scene = resolve_scene(load_cell(data_folder("robots") / "demo-cell.json"))
+    q = joints_si_from_user(np.array(HOLD), scene.robot.prismatic)
+    expected = joint_map(scene_clearance(scene), [1, 2], q, resolution=24)
+    assert result["obstacle"] == expected.obstacle.ravel().tolist()
+    assert result["self_collision"] == expected.self_collision.ravel().tolist()
+    # clearance in mm, rounded to 0.1 mm
+    np.testing.assert_allclose(
+        result["clearance_mm"], 1000.0 * np.minimum(expected.clearance.ravel(), 1.0), atol=0.051
+    )
+    # cell centres of 24 equal cells over j2's range -95..155 deg (robots/pb-arm6.toml)
+    assert result["axes_deg"][0][0] == pytest.approx(-95.0 + 250.0 / 48)
+    assert status["done"] == status["total"] >= 1
+
+
+async def test_start_joint_map_three_joints(client: httpx.AsyncClient) -> None:
+    response = await client.post(
+        "/api/maps/joint", json={"joints": [0, 1, 2], "hold_deg": HOLD, "resolution": 8}
+    )
+    assert response.status_code == 202
+    status = await _finished(client, response.json()["id"])
+    assert status["state"] == "done", status["detail"]
+    result = status["result"]
+    assert result["shape"] == [8, 8, 8]
+    assert len(result["obstacle"]) == 8**3
+    assert result["clearance_mm"] is None
+
+
+async def test_start_joint_map_too_large(client: httpx.AsyncClient) -> None:
+    response = await client.post(
+        "/api/maps/joint", json={"joints": [0, 1, 2], "hold_deg": HOLD, "resolution": 64}
+    )
+    assert response.status_code == 413
+    assert response.json()["detail"] == (
+        "resolution: a 3-joint map of 64 cells per axis has 262144 cells; "
+        "this server computes at most 110592"
+    )
+
+
+async def test_start_joint_map_bad_joints(client: httpx.AsyncClient) -> None:
+    response = await client.post("/api/maps/joint", json={"joints": [1, 1], "hold_deg": HOLD})
+    assert response.status_code == 422
+    assert response.json()["detail"] == (
+        "joints: expected distinct indices in 0..5 for robot 'pb-arm6', got [1, 1]"
+    )
+    response = await client.post("/api/maps/joint", json={"joints": [0, 1], "hold_deg": [0.0]})
+    assert response.status_code == 422
+    assert response.json()["detail"].startswith("hold_deg[0]: expected 6 values")
+
+
+async def test_cancel_queued_job_and_client_limit(client: httpx.AsyncClient) -> None:
+    body = {"joints": [1, 2], "hold_deg": HOLD, "resolution": 256}
+    ids = []
+    for _ in range(MAX_ACTIVE_PER_CLIENT):
+        response = await client.post("/api/maps/joint", json=body)
+        assert response.status_code == 202
+        ids.append(response.json()["id"])
+    refused = await client.post("/api/maps/joint", json=body)
+    assert refused.status_code == 429
+    assert refused.json()["detail"] == (
+        f"jobs: {MAX_ACTIVE_PER_CLIENT} jobs of this client are queued or running (at most "
+        f"{MAX_ACTIVE_PER_CLIENT}); cancel one or wait for it to finish"
+    )
+    # one worker runs the jobs in turn: the last one is still queued and never starts
+    cancelled = await client.post(f"/api/jobs/{ids[-1]}/cancel")
+    assert cancelled.status_code == 200
+    assert cancelled.json()["state"] == "cancelled"
+    for job_id in ids[:-1]:
+        await client.post(f"/api/jobs/{job_id}/cancel")
+        assert (await _finished(client, job_id))["state"] in ("cancelled", "done")
+    assert (await _finished(client, ids[-1]))["result"] is None
+
+
+async def test_read_job_unknown(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/jobs/abc123")
+    assert response.status_code == 404
+    assert response.json()["detail"] == "job: no job 'abc123' (unknown, or finished long ago)"
