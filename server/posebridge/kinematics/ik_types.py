@@ -11,7 +11,7 @@ outside limits, then empty; inside each group by the weighted joint distance
 to the seed when a seed was given, otherwise by a stable branch order (front
 before back, up/left before down/right, positive before negative, then fewer
 turns). :func:`finish_solutions` turns raw candidates of any solver into this
-form (turn variants, limit flags, order); the numba row kernel
+form (turn variants, limit flags, order); the numba block kernel
 :func:`finish_rows` does the same inside the analytic kernels.
 
 Turn variants: a revolute joint value ``v`` is first wrapped to (-pi, pi];
