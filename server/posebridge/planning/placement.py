@@ -1,0 +1,889 @@
+"""Base placement: score candidate robot base poses over a grid and rank them.
+
+A candidate moves the robot's foot (the pedestal's floor point) to world
+``(x, y)`` at the cell's current foot height, turns it to ``yaw`` about the
+world z axis (keeping the current roll and pitch) and puts the robot on a
+pedestal of the given height: ``T_world_base = Trans(x, y, z) Rz(yaw)
+Ry(pitch) Rx(roll) Trans(0, 0, h)``. The pedestal moves with the robot.
+
+For every candidate and every target (its pose and, with an approach offset,
+its approach pose) the analytic IK (:func:`posebridge.kinematics.ik.ik_solver`,
+all candidates of a chunk in one call) gives up to eight solutions, one per
+branch. A solution **counts** when it reaches the pose, is inside the joint
+limits, matches the target's required branch and is collision-free
+(clearance at least ``collision_margin_mm`` to fixtures, keep-outs, pedestal
+and floor, and no self contact; :func:`posebridge.geometry.clearance.collision_batch`).
+A target is **reached on a branch** (shoulder x elbow x wrist, 8 branches)
+when its pose and its approach pose both have a counting solution on that
+branch (a singular label 0 matches either side). The candidate's branch is
+the one reaching the most targets (ties: the stable order front before
+back, up before down, positive before negative); the **reach fraction** is
+that count over the number of targets.
+
+Quality of the reached targets on that branch, each term in [0, 1]:
+
+* margin: twice the smallest joint-limit margin fraction (1 at mid-range, 0
+  at a limit; :func:`posebridge.kinematics.metrics.limit_margins`);
+* dexterity: the smallest inverse condition number of the TCP position
+  Jacobian (scale-free; the Yoshikawa manipulability is reported beside it);
+* clearance: the share of reached targets whose configuration keeps at least
+  ``clearance_goal_mm`` from every obstacle (one early-exit check at that
+  threshold; the exact clearance is computed for the ranked candidates only).
+
+``score = reach_fraction + quality / (2 K)`` with ``quality`` the mean of
+the three terms and ``K`` the number of targets: quality orders candidates
+that reach the same number of targets, and never outweighs one more target.
+
+**Cycle time estimate** (for speed): the sum over the cell's paths, given
+when every Cartesian waypoint of every path is reached on the candidate's
+branch: joint moves as synchronised trapezoids between the chosen
+configurations (:func:`posebridge.planning.cycle_time.joint_move_durations`),
+linear moves as trapezoids in TCP path length at the requested speed and
+:data:`~posebridge.planning.cycle_time.DEFAULT_LINEAR_ACCELERATION_M_S2`
+(no joint-limit cap and no continuity check along the line, unlike
+:func:`posebridge.planning.path_check.check_path`), blends ignored.
+
+Collision checks per candidate: the arm against the pedestal and the floor,
+and against itself, depends only on the configuration and the pedestal
+height, so it runs in one batch per chunk; against fixtures and keep-outs
+one batch per candidate (its base pose). The pedestal's own footprint is not
+checked against the fixtures (the robot's base capsules are).
+
+Chunks of :data:`CHUNK_CANDIDATES` candidates (fixed by the grid alone, one
+pedestal height per chunk) run through an executor
+(:mod:`posebridge.compute`) with progress and cancellation; results are the
+same whichever executor runs them.
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import numpy.typing as npt
+
+from posebridge.cell.clearance import cell_arm, clearance_scene
+from posebridge.cell.scene import Scene
+from posebridge.compute import ComputationCancelled, Executor, ProgressCallback, warm_worker
+from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
+from posebridge.geometry.self_pairs import non_adjacent_pairs
+from posebridge.geometry.shapes import (
+    ArmCapsules,
+    Box,
+    Cylinder,
+    Floor,
+    ObstacleSet,
+    default_pair_mask,
+)
+from posebridge.kinematics.branches import branch_geometry
+from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_tool
+from posebridge.kinematics.ik import IkSolver, ik_solver
+from posebridge.kinematics.jacobian import jacobian_base
+from posebridge.kinematics.metrics import (
+    inverse_condition_number,
+    jacobian_rows,
+    limit_margins,
+    manipulability_yoshikawa,
+)
+from posebridge.planning.cycle_time import (
+    DEFAULT_LINEAR_ACCELERATION_M_S2,
+    joint_move_durations,
+)
+from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.path_sampling import branch_requirement
+from posebridge.planning.reports import (
+    PlacementCandidateReport,
+    PlacementGridReport,
+    PlacementReport,
+    TargetPlacementReport,
+)
+from posebridge.planning.time_scaling import trapezoidal_profile
+from posebridge.robot.library import load_robot
+from posebridge.transforms import (
+    invert_transform,
+    rotation_matrix_from_rpy,
+)
+from posebridge.units import (
+    BoolArray,
+    FloatArray,
+    deg_from_rad,
+    joints_user_from_si,
+    m_from_mm,
+    mm_from_m,
+    rad_from_deg,
+)
+
+__all__ = [
+    "BRANCHES",
+    "CHUNK_CANDIDATES",
+    "MAX_CANDIDATES",
+    "PlacementGrid",
+    "PlacementResult",
+    "search_base_placement",
+    "warm_placement_worker",
+]
+
+CHUNK_CANDIDATES = 500
+"""Candidate base poses per executor chunk (about 0.1 to 0.3 s on one core for ten targets)."""
+MAX_CANDIDATES = 1_000_000
+"""Largest grid accepted."""
+BRANCHES = np.array([(s, e, w) for s in (1, -1) for e in (1, -1) for w in (1, -1)], dtype=np.int8)
+"""The eight branches (shoulder, elbow, wrist) in the stable order, shape (8, 3)."""
+_BRANCH_WORDS = (("front", "back"), ("up", "down"), ("positive", "negative"))
+
+
+@dataclass(frozen=True)
+class PlacementGrid:
+    """Candidate base poses: the product of the axes (SI units).
+
+    Attributes
+    ----------
+    x, y : array, shape (nx,), (ny,)
+        World position of the robot's foot, m.
+    yaw : array, shape (nyaw,)
+        Base yaw about world z, rad.
+    height : array, shape (nheights,)
+        Pedestal height, m (>= 0).
+    """
+
+    x: FloatArray
+    y: FloatArray
+    yaw: FloatArray
+    height: FloatArray
+
+    @property
+    def shape(self) -> tuple[int, int, int, int]:
+        """``(ny, nx, nyaw, nheights)``."""
+        return (self.y.shape[0], self.x.shape[0], self.yaw.shape[0], self.height.shape[0])
+
+    @property
+    def size(self) -> int:
+        """Number of candidates."""
+        return int(np.prod(self.shape))
+
+    @classmethod
+    def from_user(
+        cls,
+        x_mm: npt.ArrayLike,
+        y_mm: npt.ArrayLike,
+        yaw_deg: npt.ArrayLike,
+        height_mm: npt.ArrayLike,
+    ) -> PlacementGrid:
+        """A grid from boundary units (mm, deg), each axis a 1-D list of values."""
+        axes = {}
+        for name, values in (
+            ("x_mm", x_mm),
+            ("y_mm", y_mm),
+            ("yaw_deg", yaw_deg),
+            ("height_mm", height_mm),
+        ):
+            array = np.atleast_1d(np.asarray(values, dtype=np.float64))
+            if array.ndim != 1 or array.size == 0 or not np.all(np.isfinite(array)):
+                raise PlanningInputError(f"{name}: expected a non-empty list of finite numbers")
+            axes[name] = array
+        if np.any(axes["height_mm"] < 0.0):
+            raise PlanningInputError("height_mm: expected pedestal heights >= 0")
+        grid = cls(
+            x=m_from_mm(axes["x_mm"]),
+            y=m_from_mm(axes["y_mm"]),
+            yaw=rad_from_deg(axes["yaw_deg"]),
+            height=m_from_mm(axes["height_mm"]),
+        )
+        if grid.size > MAX_CANDIDATES:
+            raise PlanningInputError(
+                f"grid: {grid.size} candidates, more than the {MAX_CANDIDATES} accepted"
+            )
+        return grid
+
+    @classmethod
+    def around(
+        cls,
+        scene: Scene,
+        *,
+        half_width_mm: float = 1000.0,
+        count: int = 21,
+        yaw_count: int = 8,
+    ) -> PlacementGrid:
+        """The default grid: ``count x count`` positions within ``half_width_mm`` of the current
+        foot, ``yaw_count`` yaws evenly around the turn from the current yaw, the current pedestal."""
+        if count < 1 or yaw_count < 1:
+            raise PlanningInputError("count, yaw_count: expected integers >= 1")
+        base = scene.cell.base
+        offsets = np.linspace(-half_width_mm, half_width_mm, count) if count > 1 else np.zeros(1)
+        yaw = base.rpy_deg[2] + 360.0 * np.arange(yaw_count) / yaw_count
+        return cls.from_user(
+            base.position_mm[0] + offsets,
+            base.position_mm[1] + offsets,
+            (yaw + 180.0) % 360.0 - 180.0,
+            [base.pedestal_height_mm],
+        )
+
+
+@dataclass(frozen=True, eq=False)
+class PlacementResult:
+    """Scores of every candidate (grid arrays of shape ``(ny, nx, nyaw, nheights)``) and the ranking.
+
+    Attributes
+    ----------
+    grid : PlacementGrid
+    target_names : tuple of str, length K
+    score, reach_fraction : array, grid shape
+    branch : array of int8, grid shape
+        Index into :data:`BRANCHES` of each candidate's branch.
+    min_margin_fraction, inverse_condition, manipulability, clearance_share : array, grid shape
+        Quality terms over the reached targets (NaN where none is reached).
+    cycle_time : array, grid shape
+        s; NaN where a path is not reached on the candidate's branch.
+    reached : array of bool, grid shape + (K,)
+    q : array, grid shape + (K, n)
+        Configuration of each reached target on the candidate's branch (NaN elsewhere).
+    order : array of int64, shape (C,)
+        Flat (C-order) candidate indices, best first (score, then index).
+    report : PlacementReport
+        The JSON-ready report (top candidates with details, full grid).
+    """
+
+    grid: PlacementGrid
+    target_names: tuple[str, ...]
+    score: FloatArray
+    reach_fraction: FloatArray
+    branch: npt.NDArray[np.int8]
+    min_margin_fraction: FloatArray
+    inverse_condition: FloatArray
+    manipulability: FloatArray
+    clearance_share: FloatArray
+    cycle_time: FloatArray
+    reached: BoolArray
+    q: FloatArray
+    order: npt.NDArray[np.int64]
+    report: PlacementReport
+
+
+@dataclass(frozen=True, eq=False)
+class _Problem:
+    """Everything a chunk needs (picklable)."""
+
+    solver: IkSolver
+    arm: ArmCapsules
+    self_pairs: npt.NDArray[np.int64]
+    environment: ObstacleSet
+    environment_mask: BoolArray
+    T_flange_tool: FloatArray
+    T_world_pose: FloatArray  # (P, 4, 4)
+    target_pose: npt.NDArray[np.int64]  # (K,)
+    approach_pose: npt.NDArray[np.int64]  # (K,), -1: none
+    requirement: npt.NDArray[np.int8]  # (P, 3)
+    foot_z: float
+    R_foot: FloatArray  # roll and pitch, (3, 3) before yaw
+    pedestal_radius: float  # 0: no pedestal
+    floor_height: float
+    margin: float
+    clearance_goal: float
+    joint_ends: npt.NDArray[np.int64]  # (J, 2): pose index, -1 for given joints
+    joint_given: FloatArray  # (J, 2, n)
+    joint_percent: FloatArray  # (J,)
+    joint_path: npt.NDArray[np.int64]  # (J,)
+    linear_time: FloatArray  # (paths,)
+    path_poses: tuple[npt.NDArray[np.int64], ...]
+
+
+def _base_poses(
+    problem: _Problem, grid: PlacementGrid, h: int, start: int, stop: int
+) -> FloatArray:
+    """``T_world_base`` of flat candidates ``start..stop`` of the (ny, nx, nyaw) grid at height ``h``."""
+    iy, ix, iyaw = np.unravel_index(np.arange(start, stop), grid.shape[:3])
+    yaw = grid.yaw[iyaw]
+    c, s = np.cos(yaw), np.sin(yaw)
+    Rz = np.zeros((yaw.shape[0], 3, 3))
+    Rz[:, 0, 0], Rz[:, 0, 1], Rz[:, 1, 0], Rz[:, 1, 1], Rz[:, 2, 2] = c, -s, s, c, 1.0
+    T = np.tile(np.eye(4), (yaw.shape[0], 1, 1))
+    T[:, :3, :3] = Rz @ problem.R_foot
+    T[:, :3, 3] = (
+        np.stack([grid.x[ix], grid.y[iy], np.full(yaw.shape[0], problem.foot_z)], axis=1)
+        + T[:, :3, 2] * grid.height[h]
+    )
+    return T
+
+
+def _own_scenes(problem: _Problem, height: float) -> tuple[ClearanceScene, ClearanceScene]:
+    """Arm against pedestal and floor (base frame), and arm against itself, for one pedestal height."""
+    shapes: list[Box | Cylinder | Floor] = []
+    if problem.pedestal_radius > 0.0 and height > 0.0:
+        T = np.eye(4)
+        T[2, 3] = -0.5 * height
+        shapes.append(Cylinder("pedestal", T, problem.pedestal_radius, 0.5 * height))
+    shapes.append(Floor(problem.floor_height - problem.foot_z - height))
+    obstacles = ObstacleSet.from_shapes(shapes)
+    mask = default_pair_mask(problem.arm, obstacles)
+    mask[problem.arm.link == 0, :] = False  # the robot stands on both
+    support = ClearanceScene.build(
+        problem.arm, obstacles, np.eye(4), self_pairs=np.empty((0, 2)), pair_mask=mask
+    )
+    own = ClearanceScene.build(
+        problem.arm,
+        obstacles,
+        np.eye(4),
+        self_pairs=problem.self_pairs,
+        pair_mask=np.zeros_like(mask),
+    )
+    return support, own
+
+
+def _placement_chunk(
+    problem: _Problem, grid: PlacementGrid, h: int, start: int, stop: int
+) -> tuple[FloatArray, ...]:
+    """Score the flat candidates ``start..stop`` at pedestal height ``h`` (one executor chunk).
+
+    Returns
+    -------
+    tuple of arrays
+        reached count (C,), branch (C,), margin fraction, inverse condition,
+        manipulability, clearance share, cycle time (C,), reached (C, K),
+        q (C, K, n).
+    """
+    T_world_base = _base_poses(problem, grid, h, start, stop)
+    C = T_world_base.shape[0]
+    P = problem.T_world_pose.shape[0]
+    n = problem.arm.robot.dof
+    T_base_pose = invert_transform(T_world_base)[:, None] @ problem.T_world_pose[None]
+    ik = problem.solver.solve(T_base_pose.reshape(-1, 4, 4), T_flange_tool=problem.T_flange_tool)
+    M = ik.n_slots
+    labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2).reshape(C, P, M, 3)
+    required = problem.requirement[None, :, None, :]
+    allowed = (ik.valid & ik.within_limits).reshape(C, P, M) & np.all(
+        (required == 0) | (labels == 0) | (labels == required), axis=3
+    )
+    q = ik.q.reshape(C, P, M, n)
+    free = np.zeros((C, P, M), dtype=bool)
+    clear = np.zeros((C, P, M), dtype=bool)
+    index = np.nonzero(allowed)
+    if index[0].size:
+        support, own = _own_scenes(problem, float(grid.height[h]))
+        q_allowed = q[index]
+        ok = ~collision_batch(support, q_allowed, threshold_m=problem.margin)
+        ok &= ~collision_batch(own, q_allowed, threshold_m=0.0)
+        good = ~collision_batch(support, q_allowed, threshold_m=problem.clearance_goal)
+        bounds = np.searchsorted(index[0], np.arange(C + 1))
+        for c in range(C):
+            span = slice(bounds[c], bounds[c + 1])
+            if span.start == span.stop:
+                continue
+            scene = ClearanceScene(
+                problem.arm,
+                problem.environment,
+                T_world_base[c],
+                np.empty((0, 2), dtype=np.int64),
+                problem.environment_mask,
+            )
+            candidates = np.flatnonzero(ok[span]) + span.start
+            if candidates.size:
+                hit = collision_batch(scene, q_allowed[candidates], threshold_m=problem.margin)
+                ok[candidates[hit]] = False
+                fine = candidates[~hit]
+                fine = fine[good[fine]]
+                if fine.size:
+                    far = ~collision_batch(
+                        scene, q_allowed[fine], threshold_m=problem.clearance_goal
+                    )
+                    clear[index[0][fine[far]], index[1][fine[far]], index[2][fine[far]]] = True
+        free[index] = ok
+    on_branch = np.all(
+        (labels[..., None, :] == 0) | (labels[..., None, :] == BRANCHES), axis=4
+    )  # (C, P, M, 8)
+    counting = free[..., None] & on_branch
+    pose_ok = np.any(counting, axis=2)  # (C, P, 8)
+    target_ok = pose_ok[:, problem.target_pose]
+    has_approach = problem.approach_pose >= 0
+    target_ok[:, has_approach] &= pose_ok[:, problem.approach_pose[has_approach]]
+    counts = target_ok.sum(axis=1)  # (C, 8)
+    branch = np.argmax(counts, axis=1)
+    rows = np.arange(C)
+    reached = target_ok[rows, :, branch]  # (C, K)
+    slot = np.argmax(counting[rows, :, :, branch], axis=2)  # (C, P) first counting slot
+    pose_reached = pose_ok[rows, :, branch]
+    q_pose = np.where(pose_reached[..., None], q[rows[:, None], np.arange(P), slot], np.nan)
+    q_target = np.where(reached[..., None], q_pose[:, problem.target_pose], np.nan)
+    clear_target = clear[rows[:, None], problem.target_pose, slot[:, problem.target_pose]]
+    margin = np.full((C,), np.nan)
+    condition = np.full((C,), np.nan)
+    manip = np.full((C,), np.nan)
+    share = np.full((C,), np.nan)
+    if np.any(reached):
+        robot = problem.arm.robot
+        flat = q_target[reached]
+        fraction = limit_margins(robot, flat).min_fraction
+        J = jacobian_rows(jacobian_base(robot, flat, problem.T_flange_tool), "position")
+        per = np.full(reached.shape, np.inf)
+        for values, out, reduce in (
+            (fraction, margin, np.min),
+            (inverse_condition_number(J), condition, np.min),
+            (manipulability_yoshikawa(J), manip, np.min),
+        ):
+            per[:] = np.inf
+            per[reached] = values
+            some = reached.any(axis=1)
+            out[some] = reduce(per[some], axis=1)
+        counted = reached.sum(axis=1)
+        share = np.where(
+            counted > 0, (clear_target & reached).sum(axis=1) / np.maximum(counted, 1), np.nan
+        )
+    cycle = _cycle_times(problem, q_pose, pose_reached)
+    return (
+        counts[rows, branch].astype(np.float64),
+        branch.astype(np.float64),
+        margin,
+        condition,
+        manip,
+        share,
+        cycle,
+        reached,
+        q_target,
+    )
+
+
+def _cycle_times(problem: _Problem, q_pose: FloatArray, pose_reached: BoolArray) -> FloatArray:
+    """Cycle time estimate per candidate (module docstring), s; NaN where a path is not reached."""
+    C = q_pose.shape[0]
+    total = np.full(C, float(problem.linear_time.sum()))
+    for poses in problem.path_poses:
+        if poses.size:
+            total[~np.all(pose_reached[:, poses], axis=1)] = np.nan
+    robot = problem.arm.robot
+    for j in range(problem.joint_ends.shape[0]):
+        ends = []
+        for side in range(2):
+            p = problem.joint_ends[j, side]
+            ends.append(
+                np.broadcast_to(problem.joint_given[j, side], (C, robot.dof))
+                if p < 0
+                else q_pose[:, p]
+            )
+        finite = np.all(np.isfinite(ends[0]) & np.isfinite(ends[1]), axis=1)
+        duration = np.full(C, np.nan)
+        if np.any(finite):
+            duration[finite] = joint_move_durations(
+                ends[0][finite],
+                ends[1][finite],
+                robot.velocity_max,
+                robot.acceleration_max,
+                problem.joint_percent[j],
+            )
+        total += duration
+    return total
+
+
+def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem:
+    """Poses, requirements, path structure and obstacles of the search (module docstring)."""
+    targets = scene.targets
+    if len(targets.names) == 0:
+        raise PlanningInputError("targets: the cell has no targets to place the robot for")
+    poses: list[FloatArray] = []
+    requirement: list[npt.NDArray[np.int8]] = []
+    target_pose, approach_pose = [], []
+    key: dict[tuple[int, bool], int] = {}
+    for k in range(len(targets.names)):
+        required = branch_requirement(targets.branches[k])
+        key[(k, False)] = len(poses)
+        target_pose.append(len(poses))
+        poses.append(targets.T_world_target[k])
+        requirement.append(required)
+        if targets.approach_offset[k] > 0.0:
+            key[(k, True)] = len(poses)
+            approach_pose.append(len(poses))
+            poses.append(targets.T_world_approach[k])
+            requirement.append(required)
+        else:
+            key[(k, True)] = len(poses) - 1
+            approach_pose.append(-1)
+    n = scene.robot.dof
+    joint_ends: list[tuple[int, int]] = []
+    joint_given: list[FloatArray] = []
+    joint_percent: list[float] = []
+    joint_path: list[int] = []
+    linear_time: list[float] = []
+    path_poses: list[npt.NDArray[np.int64]] = []
+    for index, path in enumerate(scene.paths):
+        pose_of: list[int] = []
+        used: list[int] = []
+        for w, source in enumerate(path.sources):
+            if source == "joints":
+                pose_of.append(-1)
+            elif source == "target":
+                pose_of.append(key[(int(path.target_index[w]), bool(path.approach[w]))])
+            else:
+                pose_of.append(len(poses))
+                poses.append(path.T_world_tool[w])
+                requirement.append(np.zeros(3, dtype=np.int8))
+            if pose_of[-1] >= 0:
+                used.append(pose_of[-1])
+        path_poses.append(np.array(sorted(set(used)), dtype=np.int64))
+        linear = 0.0
+        for w in range(1, len(path.sources)):
+            if path.linear[w]:
+                length = float(
+                    np.linalg.norm(path.T_world_tool[w, :3, 3] - path.T_world_tool[w - 1, :3, 3])
+                )
+                linear += trapezoidal_profile(
+                    length, float(path.linear_speed[w]), DEFAULT_LINEAR_ACCELERATION_M_S2
+                ).duration
+            else:
+                joint_ends.append((pose_of[w - 1], pose_of[w]))
+                joint_given.append(np.stack([path.q[w - 1], path.q[w]]))
+                joint_percent.append(float(path.speed_percent[w]))
+                joint_path.append(index)
+        linear_time.append(linear)
+    full = clearance_scene(scene)
+    environment_count = (
+        len(scene.boxes.names) + len(scene.cylinders.names) + len(scene.keep_outs.names)
+    )
+    obstacles = full.obstacles
+    environment = ObstacleSet(
+        names=obstacles.names[:environment_count],
+        kind=obstacles.kind[:environment_count].copy(),
+        rotation=obstacles.rotation[:environment_count].copy(),
+        translation=obstacles.translation[:environment_count].copy(),
+        params=obstacles.params[:environment_count].copy(),
+    )
+    base = scene.cell.base
+    roll, pitch, _ = base.rpy_deg
+    arm = cell_arm(scene)
+    return _Problem(
+        solver=ik_solver(scene.robot),
+        arm=arm,
+        self_pairs=full.self_pairs,
+        environment=environment,
+        environment_mask=default_pair_mask(arm, environment),
+        T_flange_tool=scene.T_flange_tool,
+        T_world_pose=np.ascontiguousarray(poses),
+        target_pose=np.array(target_pose, dtype=np.int64),
+        approach_pose=np.array(approach_pose, dtype=np.int64),
+        requirement=np.array(requirement, dtype=np.int8),
+        foot_z=float(m_from_mm(base.position_mm[2])),
+        R_foot=rotation_matrix_from_rpy([roll, pitch, 0.0], degrees=True),
+        pedestal_radius=(
+            0.0 if base.pedestal_radius_mm is None else float(m_from_mm(base.pedestal_radius_mm))
+        ),
+        floor_height=scene.floor_height,
+        margin=margin_m,
+        clearance_goal=clearance_goal_m,
+        joint_ends=np.array(joint_ends, dtype=np.int64).reshape(-1, 2),
+        joint_given=np.array(joint_given).reshape(-1, 2, n),
+        joint_percent=np.array(joint_percent),
+        joint_path=np.array(joint_path, dtype=np.int64),
+        linear_time=np.array(linear_time),
+        path_poses=tuple(path_poses),
+    )
+
+
+def _run_in_process(
+    chunks: list[tuple[Any, ...]],
+    progress: ProgressCallback | None,
+    cancel: threading.Event | None,
+) -> list[tuple[FloatArray, ...]]:
+    """The chunks in this process (numba threads inside each); progress and cancel as an executor."""
+    results = []
+    for done, chunk in enumerate(chunks):
+        if cancel is not None and cancel.is_set():
+            raise ComputationCancelled(done, len(chunks))
+        results.append(_placement_chunk(*chunk))
+        if progress is not None:
+            progress(done + 1, len(chunks))
+    return results
+
+
+def _optional(value: float, scale: float = 1.0) -> float | None:
+    return float(value) * scale if math.isfinite(value) else None
+
+
+def _branch_words(index: int, scheme: str) -> str:
+    """Plain words of branch ``index`` of :data:`BRANCHES` for a label scheme."""
+    shoulder, elbow, wrist = (int(v) for v in BRANCHES[index])
+    if scheme == "planar":
+        return "left" if elbow > 0 else "right"
+    if scheme != "arm":
+        return "single branch"
+    return ", ".join(
+        words[0 if v > 0 else 1]
+        for words, v in zip(_BRANCH_WORDS, (shoulder, elbow, wrist), strict=True)
+    )
+
+
+def search_base_placement(
+    scene: Scene,
+    grid: PlacementGrid | None = None,
+    *,
+    executor: Executor | None = None,
+    progress: ProgressCallback | None = None,
+    cancel: threading.Event | None = None,
+    top: int = 10,
+    collision_margin_mm: float = 0.0,
+    clearance_goal_mm: float = 50.0,
+) -> PlacementResult:
+    """Score every candidate base pose of ``grid`` and rank them (module docstring).
+
+    Parameters
+    ----------
+    scene : Scene
+        The cell; its targets, paths, fixtures, keep-outs, pedestal radius and tool.
+    grid : PlacementGrid, optional
+        Candidates; :meth:`PlacementGrid.around` (±1 m, 21 x 21 positions,
+        8 yaws, the current pedestal) if omitted.
+    executor : Executor, optional, keyword-only
+        Runs the chunks; without one they run in this process.
+    progress : callable, optional, keyword-only
+        ``progress(done, total)`` in chunks.
+    cancel : threading.Event, optional, keyword-only
+    top : int, keyword-only
+        Candidates reported with per-target details (1..1000).
+    collision_margin_mm : float, keyword-only
+        Clearance to obstacles a counting solution keeps (>= 0).
+    clearance_goal_mm : float, keyword-only
+        Clearance that counts as comfortable in the quality term.
+
+    Returns
+    -------
+    PlacementResult
+
+    Raises
+    ------
+    PlanningInputError
+        No targets, or bad arguments.
+    posebridge.compute.ComputationCancelled
+        ``cancel`` was set.
+    """
+    if isinstance(top, bool) or not isinstance(top, int) or not 1 <= top <= 1000:
+        raise PlanningInputError(f"top: expected an integer from 1 to 1000, got {top!r}")
+    if not math.isfinite(collision_margin_mm) or collision_margin_mm < 0.0:
+        raise PlanningInputError(
+            f"collision_margin_mm: expected a finite number >= 0, got {collision_margin_mm!r}"
+        )
+    if not math.isfinite(clearance_goal_mm) or clearance_goal_mm < collision_margin_mm:
+        raise PlanningInputError(
+            "clearance_goal_mm: expected a finite number not below collision_margin_mm, "
+            f"got {clearance_goal_mm!r}"
+        )
+    grid = PlacementGrid.around(scene) if grid is None else grid
+    problem = _problem(
+        scene, float(m_from_mm(collision_margin_mm)), float(m_from_mm(clearance_goal_mm))
+    )
+    ny, nx, nyaw, nh = grid.shape
+    per_height = ny * nx * nyaw
+    chunks = [
+        (problem, grid, h, start, min(start + CHUNK_CANDIDATES, per_height))
+        for h in range(nh)
+        for start in range(0, per_height, CHUNK_CANDIDATES)
+    ]
+    if executor is None:
+        results = _run_in_process(chunks, progress, cancel)
+    else:
+        results = executor.map_chunks(_placement_chunk, chunks, progress=progress, cancel=cancel)
+    K = len(scene.targets.names)
+    n = scene.robot.dof
+    by_height: list[list[tuple[FloatArray, ...]]] = [[] for _ in range(nh)]
+    for chunk, result in zip(chunks, results, strict=True):
+        by_height[chunk[2]].append(result)
+
+    def gather(field: int, tail: tuple[int, ...] = ()) -> npt.NDArray[Any]:
+        layers = [np.concatenate([r[field] for r in rows]) for rows in by_height]
+        return np.stack(layers, axis=1).reshape((ny, nx, nyaw, nh) + tail)
+
+    count = gather(0)
+    branch = gather(1).astype(np.int8)
+    margin, condition, manip, share, cycle = (gather(i) for i in range(2, 7))
+    reached = gather(7, (K,)).astype(bool)
+    q = gather(8, (K, n))
+    fraction = count / K
+    terms = np.stack([2.0 * margin, condition, share], axis=-1)
+    quality = np.where(
+        count > 0, np.nanmean(np.where(count[..., None] > 0, terms, 0.0), axis=-1), 0.0
+    )
+    score = fraction + np.clip(quality, 0.0, 1.0) / (2.0 * K)
+    flat_score = score.reshape(-1)
+    order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
+    report = _report(
+        scene, grid, problem, score, fraction, branch, margin, manip, cycle, reached, q, order, top
+    )
+    return PlacementResult(
+        grid=grid,
+        target_names=scene.targets.names,
+        score=score,
+        reach_fraction=fraction,
+        branch=branch,
+        min_margin_fraction=margin,
+        inverse_condition=condition,
+        manipulability=manip,
+        clearance_share=share,
+        cycle_time=cycle,
+        reached=reached,
+        q=q,
+        order=order,
+        report=report,
+    )
+
+
+def _report(
+    scene: Scene,
+    grid: PlacementGrid,
+    problem: _Problem,
+    score: FloatArray,
+    fraction: FloatArray,
+    branch: npt.NDArray[np.int8],
+    margin: FloatArray,
+    manip: FloatArray,
+    cycle: FloatArray,
+    reached: BoolArray,
+    q: FloatArray,
+    order: npt.NDArray[np.int64],
+    top: int,
+) -> PlacementReport:
+    """The JSON-ready report: top candidates with exact per-target clearance, and the grid."""
+    robot = scene.robot
+    scheme = branch_geometry(robot).scheme
+    shape = grid.shape
+    best = []
+    for rank, flat in enumerate(order[:top].tolist(), start=1):
+        iy, ix, iyaw, ih = np.unravel_index(flat, shape)
+        idx = (iy, ix, iyaw, ih)
+        q_c = q[idx]
+        margins = limit_margins(robot, np.nan_to_num(q_c)).margin.min(axis=1)
+        jac = jacobian_rows(
+            jacobian_base(robot, np.nan_to_num(q_c), problem.T_flange_tool), "position"
+        )
+        w = manipulability_yoshikawa(jac)
+        clearance = _candidate_clearance(scene, problem, grid, flat, q_c)
+        targets = [
+            TargetPlacementReport(
+                name=name,
+                reached=bool(reached[idx][k]),
+                reason=""
+                if reached[idx][k]
+                else "not reached on this branch within limits and free",
+                joints_deg=(
+                    joints_user_from_si(q_c[k], robot.prismatic).tolist()
+                    if reached[idx][k]
+                    else None
+                ),
+                min_margin_deg=_optional(float(deg_from_rad(margins[k])))
+                if reached[idx][k]
+                else None,
+                manipulability=float(w[k]) if reached[idx][k] else None,
+                clearance_mm=_optional(float(mm_from_m(clearance[k]))) if reached[idx][k] else None,
+            )
+            for k, name in enumerate(scene.targets.names)
+        ]
+        reached_clearance = clearance[reached[idx]]
+        best.append(
+            PlacementCandidateReport(
+                rank=rank,
+                x_mm=float(mm_from_m(grid.x[ix])),
+                y_mm=float(mm_from_m(grid.y[iy])),
+                yaw_deg=float(deg_from_rad(grid.yaw[iyaw])),
+                pedestal_height_mm=float(mm_from_m(grid.height[ih])),
+                score=float(score[idx]),
+                reach_fraction=float(fraction[idx]),
+                targets_reached=int(reached[idx].sum()),
+                branch=_branch_words(int(branch[idx]), scheme) if reached[idx].any() else "",
+                min_margin_deg=(
+                    _optional(float(deg_from_rad(margins[reached[idx]].min())))
+                    if reached[idx].any()
+                    else None
+                ),
+                manipulability=_optional(float(manip[idx])),
+                min_clearance_mm=(
+                    _optional(float(mm_from_m(reached_clearance.min())))
+                    if reached_clearance.size
+                    else None
+                ),
+                cycle_time_s=_optional(float(cycle[idx])),
+                targets=targets,
+            )
+        )
+    current = _current_score(scene, grid, score)
+    return PlacementReport(
+        robot=robot.name,
+        targets=list(scene.targets.names),
+        candidates_evaluated=grid.size,
+        best=best,
+        grid=PlacementGridReport(
+            x_mm=mm_from_m(grid.x).tolist(),
+            y_mm=mm_from_m(grid.y).tolist(),
+            yaw_deg=deg_from_rad(grid.yaw).tolist(),
+            pedestal_height_mm=mm_from_m(grid.height).tolist(),
+            score=score.tolist(),
+            reach_fraction=fraction.tolist(),
+        ),
+        score_note=(
+            "score = reach fraction + quality / (2 K); quality = mean of limit margin, "
+            "position-Jacobian inverse condition and share of targets with comfortable clearance"
+        ),
+        cycle_time_note=(
+            "estimate: joint moves as synchronised trapezoids between the chosen configurations, "
+            "linear moves at the requested speed without joint-limit cap, blends ignored"
+        ),
+        current_score=current,
+    )
+
+
+def _candidate_clearance(
+    scene: Scene, problem: _Problem, grid: PlacementGrid, flat: int, q: FloatArray
+) -> FloatArray:
+    """Exact clearance to fixtures, keep-outs, pedestal and floor of one candidate's target configurations, shape (K,)."""
+    iy, ix, iyaw, ih = np.unravel_index(flat, grid.shape)
+    local = int(np.ravel_multi_index((iy, ix, iyaw), grid.shape[:3]))
+    T_world_base = _base_poses(problem, grid, int(ih), local, local + 1)[0]
+    out = np.full(q.shape[0], np.nan)
+    rows = np.all(np.isfinite(q), axis=1)
+    if not np.any(rows):
+        return out
+    support, _ = _own_scenes(problem, float(grid.height[ih]))
+    environment = ClearanceScene.build(
+        problem.arm,
+        problem.environment,
+        T_world_base,
+        self_pairs=np.empty((0, 2)),
+        pair_mask=problem.environment_mask,
+    )
+    out[rows] = np.minimum(
+        clearance_batch(environment, q[rows]).distance, clearance_batch(support, q[rows]).distance
+    )
+    return out
+
+
+def _current_score(scene: Scene, grid: PlacementGrid, score: FloatArray) -> float | None:
+    """Score of the grid point at the cell's current base pose, if the grid holds it."""
+    base = scene.cell.base
+    match = []
+    for axis, value in (
+        (grid.y, float(m_from_mm(base.position_mm[1]))),
+        (grid.x, float(m_from_mm(base.position_mm[0]))),
+        (
+            np.mod(grid.yaw + np.pi, 2 * np.pi),
+            float(np.mod(rad_from_deg(base.rpy_deg[2]) + np.pi, 2 * np.pi)),
+        ),
+        (grid.height, float(m_from_mm(base.pedestal_height_mm))),
+    ):
+        hit = np.flatnonzero(np.abs(axis - value) < 1e-9)
+        if hit.size == 0:
+            return None
+        match.append(int(hit[0]))
+    return float(score[tuple(match)])
+
+
+def warm_placement_worker() -> None:
+    """Worker initializer for placement sweeps: :func:`posebridge.compute.warm_worker`, then
+    the analytic IK of a six-axis arm and the collision kernels, on a batch below and one at
+    :data:`~posebridge.kinematics.fk.PARALLEL_THRESHOLD` (both drivers loaded from numba's cache)."""
+    warm_worker()
+    robot = load_robot("pb-arm6")
+    arm = ArmCapsules.from_robot(robot)
+    obstacles = ObstacleSet.from_shapes([Floor(-1.0)])
+    scene = ClearanceScene.build(arm, obstacles, np.eye(4), self_pairs=non_adjacent_pairs(arm))
+    solver = ik_solver(robot)
+    for count in (1, PARALLEL_THRESHOLD):
+        q = np.tile(robot.home_configuration(), (count, 1))
+        solver.solve(fk_tool(robot, q))
+        collision_batch(scene, q)
+        clearance_batch(scene, q)
