@@ -1,0 +1,461 @@
+"""Results of the checks users run on a cell, in boundary units (mm, deg), ready for JSON.
+
+One family of pydantic models, shared by the command line (``posebridge
+check``, ``posebridge diagnose``; ``--json`` dumps them with
+``model_dump(mode="json")``, the plain output renders them with
+:mod:`posebridge.cell.report_text`) and the HTTP API, so both print the same
+fields:
+
+* :class:`TargetCheckReport` from :func:`posebridge.cell.checks.check_targets`;
+* :class:`PoseDiagnosis` from :func:`posebridge.cell.diagnosis.diagnose_pose`;
+* :class:`LogDiagnosis` from :func:`posebridge.cell.diagnosis.diagnose_log`.
+
+Units are in the field names. Joint values, margins and speeds are degrees
+(deg/s) for revolute joints and millimetres (mm/s) for prismatic joints; the
+``unit`` or ``joint_units`` fields say which. Orientations are roll-pitch-yaw
+about fixed X, then Y, then Z (``R = Rz(yaw) Ry(pitch) Rx(roll)``) and
+quaternions ``[w, x, y, z]``. Distances are signed: negative is the
+penetration depth. ``null`` stands for "not applicable" (a continuous joint
+has no margin, an arm without capsules no clearance).
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field
+
+__all__ = [
+    "MAX_LISTED_EVENTS",
+    "BranchCoverage",
+    "BranchFlip",
+    "BranchReport",
+    "ClosestPair",
+    "ConsistentBranch",
+    "Finding",
+    "JointExtreme",
+    "JointMargin",
+    "LogDiagnosis",
+    "LogRows",
+    "NearTarget",
+    "ObjectDistance",
+    "PoseCheck",
+    "PoseDiagnosis",
+    "PoseFrame",
+    "QualityThresholds",
+    "RowStretch",
+    "RowValue",
+    "Severity",
+    "SingularityProximity",
+    "TargetCheck",
+    "TargetCheckReport",
+    "VelocityCheck",
+    "VelocityJump",
+    "WorstRow",
+]
+
+MAX_LISTED_EVENTS = 100
+"""Most events of one kind (flips, jumps, stretches) listed in a log diagnosis; counts are exact."""
+
+Severity = Literal["error", "warning", "info"]
+PartKind = Literal["fixture", "keep-out", "pedestal", "floor", "self"]
+PoseKind = Literal["target", "approach"]
+
+_RPY = "Roll, pitch, yaw in degrees about fixed X, Y, Z: R = Rz(yaw) Ry(pitch) Rx(roll)."
+_JOINTS = "Joint values: degrees for revolute joints, millimetres for prismatic joints."
+_MANIPULABILITY = (
+    "Yoshikawa manipulability sqrt(det(Jv Jv^T)) of the TCP's translational Jacobian in SI "
+    "units (m^k per rad^k, k = min(3, joints)); 0 at a singularity."
+)
+
+
+class _Result(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+
+# The warning thresholds and score references of the checks (parameters and part of every result).
+class QualityThresholds(_Result):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+    # common practice, no source
+    limit_margin_deg: float = Field(
+        default=5.0, gt=0, description="Warn when a revolute joint is closer than this to a limit."
+    )
+    # common practice, no source
+    limit_margin_mm: float = Field(
+        default=10.0,
+        gt=0,
+        description="Warn when a prismatic joint is closer than this to a limit.",
+    )
+    # common practice, no source
+    clearance_mm: float = Field(
+        default=25.0, gt=0, description="Warn when the arm or tool is closer than this to anything."
+    )
+    # common practice, no source
+    wrist_deg: float = Field(
+        default=10.0, gt=0, description="Near the wrist singularity: wrist bend from straight."
+    )
+    # common practice, no source
+    elbow_deg: float = Field(
+        default=5.0, gt=0, description="Near the elbow singularity: elbow from stretched or folded."
+    )
+    # common practice, no source
+    shoulder_mm: float = Field(
+        default=50.0,
+        gt=0,
+        description="Near the shoulder singularity: wrist centre from the plane through axis 1 "
+        "parallel to axis 2.",
+    )
+    # common practice, no source
+    score_margin_fraction: float = Field(
+        default=0.10,
+        gt=0,
+        le=0.5,
+        description="Branch score: a limit margin of this fraction of the joint's range counts in full.",
+    )
+    # common practice, no source
+    score_clearance_mm: float = Field(
+        default=100.0, gt=0, description="Branch score: this clearance counts in full."
+    )
+    # common practice, no source
+    score_singularity_ratio: float = Field(
+        default=3.0,
+        ge=1,
+        description="Branch score: this multiple of the singularity thresholds counts in full.",
+    )
+
+
+# Closest pair of the arm and the cell (or of two arm capsules).
+class ClosestPair(_Result):
+    distance_mm: float = Field(description="Signed distance; negative is the penetration depth.")
+    capsule: str = Field(description="Arm or tool capsule.")
+    other: str = Field(description="Obstacle name, or the second capsule for a self pair.")
+    other_kind: PartKind
+    capsule_point_mm: list[float] = Field(description="Closest point on the capsule, world frame.")
+    other_point_mm: list[float] = Field(description="Closest point on the other, world frame.")
+
+
+# Clearance to one obstacle of the cell.
+class ObjectDistance(_Result):
+    name: str
+    kind: PartKind
+    distance_mm: float = Field(description="Signed distance; negative is the penetration depth.")
+
+
+# Distance of one joint to its position limits.
+class JointMargin(_Result):
+    joint: str
+    unit: str = Field(description="deg or mm")
+    value: float
+    lower: float | None = Field(description="null for a continuous joint")
+    upper: float | None
+    margin: float | None = Field(description="Distance to the nearer limit; negative outside.")
+    margin_fraction: float | None = Field(description="margin / (upper - lower); 0.5 mid-range.")
+    nearer_limit: Literal["lower", "upper"] | None
+
+
+# How far a configuration is from the wrist, elbow and shoulder singularities.
+class SingularityProximity(_Result):
+    kind: Literal["wrist", "elbow", "shoulder", "none"] = Field(
+        description="The nearest kind below its threshold, or none."
+    )
+    wrist_bend_deg: float = Field(description="Wrist bend from straight (0..90).")
+    elbow_deg: float = Field(description="Elbow angle from stretched or folded (0..90).")
+    shoulder_mm: float = Field(
+        description="Wrist centre from the plane through axis 1 parallel to axis 2."
+    )
+    near_wrist: bool
+    near_elbow: bool
+    near_shoulder: bool
+
+
+# One inverse-kinematics solution of a pose, with its quality.
+class BranchReport(_Result):
+    branch: str = Field(description="Shoulder, elbow and wrist words, then any extra joint turns.")
+    shoulder: int = Field(ge=-1, le=1, description="+1 front, -1 back, 0 undefined or n/a.")
+    elbow: int = Field(ge=-1, le=1, description="+1 up (left), -1 down (right), 0 undefined.")
+    wrist: int = Field(ge=-1, le=1, description="+1 positive, -1 negative, 0 straight or n/a.")
+    turns: list[int] = Field(description="Whole extra turns per joint.")
+    joints_deg: list[float] = Field(description=_JOINTS)
+    within_limits: bool
+    min_margin: float | None = Field(
+        description="Margin of the joint nearest a limit (by fraction of range), in its unit."
+    )
+    min_margin_unit: str | None
+    min_margin_joint: str | None
+    min_margin_fraction: float | None
+    manipulability: float = Field(description=_MANIPULABILITY)
+    singularity: SingularityProximity | None = Field(
+        description="null for arms other than six- and seven-axis arms."
+    )
+    clearance_mm: float | None = Field(
+        description="Smallest of the two below; null: nothing checked."
+    )
+    collision_free: bool
+    closest_environment: ClosestPair | None = Field(description="Closest obstacle of the cell.")
+    closest_self: ClosestPair | None = Field(description="Closest pair of the arm's own capsules.")
+    matches_required_branch: bool
+    usable: bool = Field(description="Within limits, collision-free and on the required branch.")
+    score: float | None = Field(
+        description="Recommendation score in [0, 1] of usable branches (see score_rule)."
+    )
+
+
+# The check of one pose: a target, or its approach pose.
+class PoseCheck(_Result):
+    kind: PoseKind
+    position_mm: list[float] = Field(description="TCP position in the world.")
+    rpy_deg: list[float] = Field(description="TCP orientation in the world. " + _RPY)
+    reachable: bool = Field(description="A usable branch exists.")
+    reason: str = Field(description="Empty when reachable, else why not.")
+    branches: list[BranchReport]
+    recommended: int | None = Field(description="Index into branches of the recommended one.")
+    recommended_branch: str | None
+
+
+# The check of one target of the cell.
+class TargetCheck(_Result):
+    name: str
+    fixture: str
+    required_branch: str | None = Field(description="Required shoulder/elbow/wrist words, if any.")
+    approach_offset_mm: float
+    reachable: bool = Field(
+        description="The target is reachable and so is its approach pose on the same branch."
+    )
+    usable_branches: list[str] = Field(
+        description="Shoulder/elbow/wrist branches with a usable solution (target and approach)."
+    )
+    target: PoseCheck
+    approach: PoseCheck | None = Field(description="null when the approach offset is 0.")
+
+
+# Which targets one shoulder/elbow/wrist branch reaches, clear of the cell.
+class BranchCoverage(_Result):
+    branch: str
+    shoulder: int
+    elbow: int
+    wrist: int
+    targets_clear: list[str]
+    targets_breaking: list[str]
+
+
+# Is there one branch on which every target (and approach pose) is reachable and clear?
+class ConsistentBranch(_Result):
+    consistent: bool
+    branch: str | None = Field(description="The branch covering the most targets (first of ties).")
+    breaking_targets: list[str] = Field(description="Targets that branch does not reach clear.")
+    coverage: list[BranchCoverage] = Field(description="Every branch, most targets first.")
+
+
+# One finding of a check.
+class Finding(_Result):
+    severity: Severity
+    code: str = Field(
+        description="unreachable, branch-limited, approach-branch, limit-margin, outside-limits, "
+        "clearance, collision, singularity, inconsistent-branch, consistent-branch, branch-flip, "
+        "velocity, velocity-skipped"
+    )
+    target: str | None = Field(description="Target name, or null for the cell or a log.")
+    pose: PoseKind | None = None
+    branch: str | None = Field(default=None, description="Branch the finding is about.")
+    row: int | None = Field(default=None, description="Log row (0-based data row).")
+    message: str
+    value: float | None = None
+    unit: str | None = None
+    threshold: float | None = None
+
+
+# Target check of a whole cell.
+class TargetCheckReport(_Result):
+    cell: str = Field(description="Cell title.")
+    robot: str
+    tool: str
+    joint_names: list[str]
+    joint_units: list[str]
+    thresholds: QualityThresholds
+    score_rule: str
+    targets: list[TargetCheck]
+    consistent_branch: ConsistentBranch
+    findings: list[Finding] = Field(description="Errors first, then warnings, then info.")
+    reachable_count: int
+    error_count: int
+    warning_count: int
+    info_count: int
+
+
+# A tool pose in one frame.
+class PoseFrame(_Result):
+    position_mm: list[float]
+    rpy_deg: list[float] = Field(description=_RPY)
+    quaternion_wxyz: list[float] = Field(description="[w, x, y, z], w >= 0.")
+
+
+# How close a pose is to a target or approach pose of the cell.
+class NearTarget(_Result):
+    name: str
+    pose: PoseKind
+    distance_mm: float = Field(description="TCP position distance.")
+    angle_deg: float = Field(description="Rotation angle between the two orientations.")
+
+
+# Diagnosis of one joint configuration in the cell.
+class PoseDiagnosis(_Result):
+    robot: str
+    tool: str
+    joint_names: list[str]
+    joint_units: list[str]
+    joints_deg: list[float] = Field(description=_JOINTS)
+    tcp_world: PoseFrame
+    tcp_base: PoseFrame
+    branch: str
+    shoulder: int
+    elbow: int
+    wrist: int
+    within_limits: bool
+    margins: list[JointMargin]
+    min_margin_joint: str | None
+    min_margin_fraction: float | None
+    manipulability: float = Field(description=_MANIPULABILITY)
+    singularity: SingularityProximity | None
+    clearance_mm: float | None
+    collision_free: bool
+    closest: ClosestPair | None = Field(description="Closest pair overall (cell or self).")
+    closest_environment: ClosestPair | None
+    closest_self: ClosestPair | None
+    closest_objects: list[ObjectDistance] = Field(description="Nearest obstacles, nearest first.")
+    nearest_targets: list[NearTarget] = Field(description="Nearest target poses, nearest first.")
+    branches: list[BranchReport] = Field(
+        description="Every IK solution of this TCP pose (all turns within limits)."
+    )
+    input_branch: int | None = Field(
+        description="Index into branches of the solution equal to the input joints."
+    )
+    findings: list[Finding]
+
+
+# One row of a log picked for a reason.
+class RowValue(_Result):
+    row: int = Field(description="0-based data row.")
+    line: int = Field(description="Line in the file (the header is line 1).")
+    time_s: float | None
+    value: float
+    unit: str
+    detail: str
+
+
+# The row where one joint comes closest to a limit.
+class JointExtreme(_Result):
+    joint: str
+    unit: str
+    row: int
+    line: int
+    time_s: float | None
+    value: float
+    margin: float
+    margin_fraction: float
+    nearer_limit: Literal["lower", "upper"]
+
+
+# Consecutive rows sharing a condition (e.g. near the wrist singularity).
+class RowStretch(_Result):
+    condition: str = Field(
+        description="collision, low clearance, outside limits, low limit margin, near wrist "
+        "singularity, near elbow singularity, near shoulder singularity"
+    )
+    first_row: int
+    last_row: int
+    first_line: int
+    last_line: int
+    start_time_s: float | None
+    end_time_s: float | None
+    extreme_row: int = Field(description="The row where the condition is strongest.")
+    extreme_value: float
+    unit: str
+    detail: str
+
+
+# A change of arm branch between consecutive rows.
+class BranchFlip(_Result):
+    row: int = Field(description="The row after the change.")
+    line: int
+    time_s: float | None
+    part: Literal["shoulder", "elbow", "wrist"]
+    before: str
+    after: str
+
+
+# A joint change between consecutive rows faster than the joint's velocity limit.
+class VelocityJump(_Result):
+    row: int = Field(description="The second row of the pair.")
+    line: int
+    time_from_s: float
+    time_to_s: float
+    joint: str
+    unit: str
+    change: float = Field(description="Joint change between the rows, deg or mm.")
+    speed: float = Field(description="Change over time, deg/s or mm/s.")
+    limit: float = Field(description="Velocity limit, deg/s or mm/s.")
+    ratio: float = Field(description="speed / limit")
+
+
+# The velocity check of a log (needs a time_s column).
+class VelocityCheck(_Result):
+    checked: bool
+    reason: str = Field(description="Why the check was skipped; empty when it ran.")
+    jump_count: int
+    jumps: list[VelocityJump] = Field(description=f"At most {MAX_LISTED_EVENTS}, by row.")
+
+
+# The single row a user should look at first.
+class WorstRow(_Result):
+    row: int
+    line: int
+    time_s: float | None
+    rule: str = Field(description="How the worst row is chosen.")
+    reason: str = Field(description="Why this row.")
+    diagnosis: PoseDiagnosis
+
+
+# Per-row values of a log, one list per quantity (for plots).
+class LogRows(_Result):
+    line: list[int]
+    time_s: list[float] | None
+    tcp_position_mm: list[list[float]] = Field(description="TCP position in the world.")
+    branch: list[str] = Field(description="Shoulder, elbow, wrist words.")
+    margins: list[list[float | None]] = Field(description="Per row, per joint margin (unit).")
+    min_margin_fraction: list[float | None]
+    manipulability: list[float]
+    singularity: list[str] | None
+    wrist_bend_deg: list[float] | None
+    elbow_deg: list[float] | None
+    shoulder_mm: list[float] | None
+    clearance_mm: list[float | None]
+    closest: list[str] = Field(description="Closest pair as 'capsule – other'.")
+
+
+# Diagnosis of a controller joint log in the cell.
+class LogDiagnosis(_Result):
+    source: str
+    robot: str
+    tool: str
+    joint_names: list[str]
+    joint_units: list[str]
+    row_count: int
+    duration_s: float | None
+    thresholds: QualityThresholds
+    smallest_margins: list[JointExtreme] = Field(
+        description="Per joint with limits, its worst row."
+    )
+    min_clearance: RowValue | None
+    min_manipulability: RowValue
+    closest_singularity: RowValue | None = Field(
+        description="Row with the smallest distance-to-threshold ratio over the three kinds."
+    )
+    stretches: list[RowStretch] = Field(description=f"At most {MAX_LISTED_EVENTS} per condition.")
+    stretch_counts: dict[str, int]
+    branch_flip_count: int
+    branch_flips: list[BranchFlip] = Field(description=f"At most {MAX_LISTED_EVENTS}, by row.")
+    velocity: VelocityCheck
+    worst_row: WorstRow
+    findings: list[Finding]
+    rows: LogRows | None = Field(description="Per-row values; null when not requested.")
