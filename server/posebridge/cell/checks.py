@@ -1,0 +1,549 @@
+"""The target check: can the robot reach every target of the cell, on which branch, how well?
+
+:func:`check_targets` solves inverse kinematics for every target and every
+approach pose (targets with an approach offset) with all turn variants
+(:func:`posebridge.kinematics.ik.solve_ik_all`), evaluates every solution in
+one batch (:func:`posebridge.cell.quality.evaluate_configurations`: limit
+margins, manipulability, singularity, clearance) and decides per pose:
+
+* **usable** solution: within the joint limits, collision-free (clearance to
+  the cell and to the arm itself >= 0) and on the target's required branch;
+* **reachable**: a usable solution exists; otherwise the reason, checked in
+  this order: out of reach / orientation not reachable (from IK), outside
+  joint limits on every branch, required branch unavailable (no in-limit
+  solution on it), every in-limit branch collides;
+* **recommended** solution: the usable one with the highest
+  :func:`~posebridge.cell.quality.branch_score` (rule in
+  :data:`~posebridge.cell.quality.SCORE_RULE`), preferring, for a target, the
+  shoulder/elbow/wrist branches on which its approach pose is usable too; the
+  approach pose's recommendation is then taken on the target's branch when
+  it can be (a straight approach move cannot change branch).
+
+Branches are compared by their shoulder/elbow/wrist labels; a label 0 (exactly
+singular) is compatible with either sign. The **consistent branch** analysis
+asks, for each of the robot's branches (eight for six- and seven-axis arms,
+two for planar arms, one otherwise), which targets are usable on it with
+their approach poses; the cell is consistent when one branch covers all.
+
+Findings (:class:`~posebridge.cell.reports.Finding`) are errors (a target or
+approach pose not reachable, a joint outside its limits, a collision),
+warnings (limit margin, clearance, singularity below the thresholds of
+:class:`~posebridge.cell.reports.QualityThresholds` on the recommended
+solution and on the cell's common branch; an approach pose off the target's
+branch; no consistent branch) and info (a target reachable on one
+shoulder/elbow pair only; the consistent branch).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import product
+
+import numpy as np
+
+from posebridge.cell.model import Branch
+from posebridge.cell.quality import (
+    SCORE_RULE,
+    ConfigurationQuality,
+    branch_report,
+    branch_score,
+    branch_words,
+    evaluate_configurations,
+    full_branch_words,
+    part_word,
+    quality_findings,
+)
+from posebridge.cell.reports import (
+    BranchCoverage,
+    ConsistentBranch,
+    Finding,
+    PoseCheck,
+    PoseKind,
+    QualityThresholds,
+    TargetCheck,
+    TargetCheckReport,
+)
+from posebridge.cell.scene import Scene
+from posebridge.kinematics.branches import branch_geometry
+from posebridge.kinematics.ik import solve_ik_all
+from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS
+from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
+from posebridge.units import BoolArray, joint_unit_labels, mm_from_m
+
+__all__ = [
+    "REASON_ALL_COLLIDE",
+    "REASON_REQUIRED_BRANCH",
+    "check_targets",
+    "required_branch_words",
+]
+
+REASON_REQUIRED_BRANCH = "required branch unavailable"
+REASON_ALL_COLLIDE = "every in-limit branch collides"
+
+Triple = tuple[int, int, int]
+
+_SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
+_WANTED = {
+    "shoulder": {"front": 1, "back": -1},
+    "elbow": {"up": 1, "down": -1},
+    "wrist": {"positive": 1, "negative": -1},
+}
+
+
+def required_branch_words(branch: Branch | None) -> str | None:
+    """The required branch in words, e.g. ``"front, up"`` (None when any branch will do)."""
+    if branch is None:
+        return None
+    words = [w for w in (branch.shoulder, branch.elbow, branch.wrist) if w is not None]
+    return ", ".join(words) if words else None
+
+
+def _compatible(a: Triple, b: Triple) -> bool:
+    """Same branch, with a 0 label (exactly singular) compatible with either sign."""
+    return all(x == y or x == 0 or y == 0 for x, y in zip(a, b, strict=True))
+
+
+def _robot_branches(scheme: str) -> list[Triple]:
+    """Every branch of a label scheme, in the stable order (front, up, positive first)."""
+    if scheme == "arm":
+        return [(s, e, w) for s, e, w in product((1, -1), repeat=3)]
+    if scheme == "planar":
+        return [(0, 1, 0), (0, -1, 0)]
+    return [(0, 0, 0)]
+
+
+@dataclass(frozen=True, eq=False)
+class _Pose:
+    """One checked pose (a target or its approach pose) and its IK solutions.
+
+    Attributes
+    ----------
+    kind : "target" or "approach"
+    target : int
+        Index of the target in the scene.
+    number : int
+        Index of the pose in the IK batch.
+    slots : list of int
+        Indices into the evaluated batch of its valid IK solutions, in IK order.
+    reason_ik : str
+        The IK's reason when no solution is valid within limits.
+    """
+
+    kind: PoseKind
+    target: int
+    number: int
+    slots: list[int]
+    reason_ik: str
+
+
+def _triple(quality: ConfigurationQuality, k: int) -> Triple:
+    return (int(quality.shoulder[k]), int(quality.elbow[k]), int(quality.wrist[k]))
+
+
+class _Checker:
+    """The target check of one scene (module docstring); :meth:`run` builds the report."""
+
+    def __init__(self, scene: Scene, thresholds: QualityThresholds) -> None:
+        self.scene = scene
+        self.thresholds = thresholds
+        self.robot = scene.robot
+        self.scheme = branch_geometry(scene.robot).scheme
+        targets = scene.targets
+        entries: list[tuple[PoseKind, int]] = []
+        for i in range(len(targets.names)):
+            entries.append(("target", i))
+            if targets.approach_offset[i] > 0.0:
+                entries.append(("approach", i))
+        self.T_world = np.array(
+            [
+                (targets.T_world_target if kind == "target" else targets.T_world_approach)[i]
+                for kind, i in entries
+            ]
+        ).reshape(-1, 4, 4)
+        solutions = solve_ik_all(
+            self.robot,
+            invert_transform(scene.T_world_base) @ self.T_world,
+            T_flange_tool=scene.T_flange_tool,
+            all_turns=True,
+        )
+        pose_index, slot_index = np.nonzero(solutions.valid)
+        self.slot_turns = solutions.turns[pose_index, slot_index]
+        self.poses = [
+            _Pose(kind, i, p, np.flatnonzero(pose_index == p).tolist(), solutions.reason[p])
+            for p, (kind, i) in enumerate(entries)
+        ]
+        self.quality = evaluate_configurations(
+            scene, solutions.q[pose_index, slot_index].reshape(-1, self.robot.dof), thresholds
+        )
+        self.score = branch_score(self.quality)
+        self.matches = self._matches(pose_index)
+        self.usable = self.quality.within_limits & self.quality.collision_free & self.matches
+        self.findings: list[Finding] = []
+
+    def _matches(self, pose_index: np.ndarray) -> BoolArray:
+        """Whether each solution is on its target's required branch, shape (S,)."""
+        quality = self.quality
+        labels = {"shoulder": quality.shoulder, "elbow": quality.elbow, "wrist": quality.wrist}
+        matches = np.ones(quality.count, dtype=bool)
+        for p, pose in enumerate(self.poses):
+            required = self.scene.targets.branches[pose.target]
+            if required is None:
+                continue
+            rows = pose_index == p
+            for part, words in _WANTED.items():
+                word = getattr(required, part)
+                if word is None:
+                    continue
+                if self.scheme != "arm":
+                    matches[rows] = False
+                else:
+                    matches[rows] &= labels[part][rows] == words[word]
+        return matches
+
+    # --- one pose --------------------------------------------------------------------
+
+    def _reason(self, pose: _Pose) -> str:
+        slots = np.asarray(pose.slots, dtype=np.int64)
+        if slots.size == 0:
+            return pose.reason_ik
+        within = self.quality.within_limits[slots]
+        if not np.any(within):
+            return REASON_NO_WITHIN_LIMITS
+        if not np.any(within & self.matches[slots]):
+            return REASON_REQUIRED_BRANCH
+        if not np.any(self.usable[slots]):
+            return REASON_ALL_COLLIDE
+        return ""
+
+    def _best(self, slots: list[int], keep: BoolArray | None = None) -> int | None:
+        """Highest-scored slot among ``slots`` (where ``keep``), first of ties; None if empty."""
+        candidates = [k for k in slots if keep is None or keep[k]]
+        if not candidates:
+            return None
+        scores = self.score[candidates]
+        return candidates[int(np.argmax(scores))]
+
+    def _usable_triples(self, pose: _Pose) -> list[Triple]:
+        return list(dict.fromkeys(_triple(self.quality, k) for k in pose.slots if self.usable[k]))
+
+    def _pose_check(self, pose: _Pose, recommended: int | None) -> PoseCheck:
+        quality = self.quality
+        rpy = rpy_from_rotation_matrix(self.T_world[pose.number, :3, :3], degrees=True)
+        reports = [
+            branch_report(
+                quality,
+                k,
+                branch=full_branch_words(quality, k, self.slot_turns[k]),
+                turns=self.slot_turns[k],
+                matches_required_branch=bool(self.matches[k]),
+                score=float(self.score[k]) if self.usable[k] else None,
+            )
+            for k in pose.slots
+        ]
+        index = None if recommended is None else pose.slots.index(recommended)
+        return PoseCheck(
+            kind=pose.kind,
+            position_mm=mm_from_m(self.T_world[pose.number, :3, 3]).tolist(),
+            rpy_deg=rpy.tolist(),
+            reachable=recommended is not None,
+            reason=self._reason(pose),
+            branches=reports,
+            recommended=index,
+            recommended_branch=None if index is None else reports[index].branch,
+        )
+
+    # --- findings ---------------------------------------------------------------------
+
+    def _add_quality(self, k: int, name: str, kind: PoseKind, context: str) -> None:
+        branch = full_branch_words(self.quality, k, self.slot_turns[k])
+        self.findings.extend(
+            quality_findings(
+                self.quality, k, target=name, pose=kind, branch=branch, context=context
+            )
+        )
+
+    def _unreachable(self, pose: _Pose, name: str) -> None:
+        reason = self._reason(pose)
+        detail = ""
+        slots = pose.slots
+        if reason == REASON_REQUIRED_BRANCH:
+            required = required_branch_words(self.scene.targets.branches[pose.target])
+            within = [
+                branch_words(self.scheme, *_triple(self.quality, k))
+                for k in slots
+                if self.quality.within_limits[k]
+            ]
+            detail = (
+                f": required {required}; within limits only on {'; '.join(dict.fromkeys(within))}"
+            )
+        elif reason == REASON_ALL_COLLIDE:
+            keep = self.quality.within_limits & self.matches
+            best = self._best(slots, keep)
+            if best is not None:
+                detail = (
+                    f" (best branch {full_branch_words(self.quality, best, self.slot_turns[best])}"
+                    f" has clearance {float(mm_from_m(self.quality.clearance[best])):.1f} mm)"
+                )
+        what = "target" if pose.kind == "target" else "approach pose"
+        self.findings.append(
+            Finding(
+                severity="error",
+                code="unreachable",
+                target=name,
+                pose=pose.kind,
+                message=f"{what} not reachable: {reason}{detail}",
+            )
+        )
+
+    def _branch_limited(self, pose: _Pose, name: str) -> None:
+        """Info when every in-limit solution shares one shoulder and elbow (wrist may vary)."""
+        if self.scheme == "none":
+            return
+        within = [k for k in pose.slots if self.quality.within_limits[k]]
+        arms = {(int(self.quality.shoulder[k]), int(self.quality.elbow[k])) for k in within}
+        if len(arms) != 1 or len(_robot_branches(self.scheme)) < 2:
+            return
+        shoulder, elbow = next(iter(arms))
+        if self.scheme == "arm":
+            wrists = sorted({int(self.quality.wrist[k]) for k in within}, reverse=True)
+            signs = ", ".join(part_word("arm", "wrist", w) for w in wrists)
+            words = (
+                f"the shoulder {part_word('arm', 'shoulder', shoulder)} and the elbow "
+                f"{part_word('arm', 'elbow', elbow)} (wrist: {signs})"
+            )
+        else:
+            words = f"the elbow {part_word(self.scheme, 'elbow', elbow)}"
+        self.findings.append(
+            Finding(
+                severity="info",
+                code="branch-limited",
+                target=name,
+                pose="target",
+                message=f"within the joint limits only with {words}",
+            )
+        )
+
+    # --- the whole check ----------------------------------------------------------------
+
+    def _on_branch(self, triple: Triple) -> BoolArray:
+        """Solutions compatible with ``triple`` (a 0 label matches either sign), shape (S,)."""
+        labels = np.stack([self.quality.shoulder, self.quality.elbow, self.quality.wrist], axis=1)
+        wanted = np.asarray(triple)
+        return np.all((labels == wanted) | (labels == 0) | (wanted == 0), axis=1)
+
+    def _on_any(self, triples: list[Triple]) -> BoolArray:
+        mask = np.zeros(self.quality.count, dtype=bool)
+        for triple in triples:
+            mask |= self._on_branch(triple)
+        return mask
+
+    def _choose(
+        self, target: _Pose, approach: _Pose | None, triples: list[Triple]
+    ) -> tuple[int | None, int | None]:
+        """Recommended target and approach solutions (module docstring)."""
+        keep = self.usable & self._on_any(triples) if triples else self.usable
+        best_target = self._best(target.slots, keep)
+        if approach is None:
+            return best_target, None
+        if best_target is None:
+            return None, self._best(approach.slots, self.usable)
+        own = _triple(self.quality, best_target)
+        best_approach = self._best(approach.slots, self.usable & self._on_branch(own))
+        if best_approach is None:
+            best_approach = self._best(approach.slots, self.usable)
+            if best_approach is not None:
+                self.findings.append(
+                    Finding(
+                        severity="warning",
+                        code="approach-branch",
+                        target=self.scene.targets.names[target.target],
+                        pose="approach",
+                        branch=full_branch_words(
+                            self.quality, best_target, self.slot_turns[best_target]
+                        ),
+                        message="approach pose not reachable on the target's recommended "
+                        "branch; a straight approach move would have to change branch",
+                    )
+                )
+        return best_target, best_approach
+
+    def _pose_findings(self, pose: _Pose, best: int | None, name: str) -> None:
+        """Unreachable error, or the quality findings of the recommended solution."""
+        if best is not None:
+            words = full_branch_words(self.quality, best, self.slot_turns[best])
+            self._add_quality(best, name, pose.kind, f"on recommended branch {words}: ")
+            return
+        self._unreachable(pose, name)
+        fallback = self._best(pose.slots, self.quality.within_limits & self.matches)
+        if fallback is not None:
+            words = full_branch_words(self.quality, fallback, self.slot_turns[fallback])
+            self._add_quality(fallback, name, pose.kind, f"on the best in-limit branch {words}: ")
+
+    def _common_findings(
+        self, target: _Pose, best: int | None, common: Triple | None, common_words: str
+    ) -> None:
+        """Quality findings on the cell's common branch where it differs from the recommended one."""
+        if common is None or best is None or _compatible(_triple(self.quality, best), common):
+            return
+        on_common = self._best(target.slots, self.usable & self._on_branch(common))
+        if on_common is not None:
+            name = self.scene.targets.names[target.target]
+            self._add_quality(
+                on_common, name, "target", f"on the cell's common branch {common_words}: "
+            )
+
+    def run(self) -> TargetCheckReport:
+        scene = self.scene
+        names = scene.targets.names
+        by_target: dict[int, dict[str, _Pose]] = {}
+        for pose in self.poses:
+            by_target.setdefault(pose.target, {})[pose.kind] = pose
+        usable_triples: dict[int, list[Triple]] = {}
+        for i in range(len(names)):
+            triples = self._usable_triples(by_target[i]["target"])
+            approach = by_target[i].get("approach")
+            if approach is not None:
+                reached = self._usable_triples(approach)
+                triples = [t for t in triples if any(_compatible(t, a) for a in reached)]
+            usable_triples[i] = triples
+        chosen = {
+            i: self._choose(by_target[i]["target"], by_target[i].get("approach"), usable_triples[i])
+            for i in range(len(names))
+        }
+        coverage = self._coverage(usable_triples)
+        common = next(
+            (
+                (row.shoulder, row.elbow, row.wrist)
+                for row in coverage.coverage[:1]
+                if row.targets_clear
+            ),
+            None,
+        )
+        checks: list[TargetCheck] = []
+        for i, name in enumerate(names):
+            target = by_target[i]["target"]
+            approach = by_target[i].get("approach")
+            best_target, best_approach = chosen[i]
+            self._pose_findings(target, best_target, name)
+            if approach is not None:
+                self._pose_findings(approach, best_approach, name)
+            self._branch_limited(target, name)
+            self._common_findings(target, best_target, common, coverage.branch or "")
+            checks.append(
+                TargetCheck(
+                    name=name,
+                    fixture=scene.targets.fixtures[i],
+                    required_branch=required_branch_words(scene.targets.branches[i]),
+                    approach_offset_mm=float(mm_from_m(scene.targets.approach_offset[i])),
+                    reachable=bool(usable_triples[i]),
+                    usable_branches=[branch_words(self.scheme, *t) for t in usable_triples[i]],
+                    target=self._pose_check(target, best_target),
+                    approach=None
+                    if approach is None
+                    else self._pose_check(approach, best_approach),
+                )
+            )
+        self._coverage_findings(coverage, len(names))
+        findings = sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity])
+        return TargetCheckReport(
+            cell=scene.cell.title,
+            robot=self.robot.name,
+            tool=scene.tool_name,
+            joint_names=list(self.robot.joint_names),
+            joint_units=joint_unit_labels(self.robot.prismatic),
+            thresholds=self.thresholds,
+            score_rule=SCORE_RULE,
+            targets=checks,
+            consistent_branch=coverage,
+            findings=findings,
+            reachable_count=sum(check.reachable for check in checks),
+            error_count=sum(f.severity == "error" for f in findings),
+            warning_count=sum(f.severity == "warning" for f in findings),
+            info_count=sum(f.severity == "info" for f in findings),
+        )
+
+    def _coverage(self, usable_triples: dict[int, list[Triple]]) -> ConsistentBranch:
+        names = self.scene.targets.names
+        rows = []
+        for triple in _robot_branches(self.scheme):
+            clear = [
+                names[i]
+                for i in range(len(names))
+                if any(_compatible(triple, t) for t in usable_triples[i])
+            ]
+            rows.append(
+                BranchCoverage(
+                    branch=branch_words(self.scheme, *triple),
+                    shoulder=triple[0],
+                    elbow=triple[1],
+                    wrist=triple[2],
+                    targets_clear=clear,
+                    targets_breaking=[n for n in names if n not in clear],
+                )
+            )
+        rows.sort(key=lambda row: -len(row.targets_clear))
+        best = rows[0] if rows and names else None
+        return ConsistentBranch(
+            consistent=best is not None and not best.targets_breaking,
+            branch=None if best is None else best.branch,
+            breaking_targets=[] if best is None else best.targets_breaking,
+            coverage=rows,
+        )
+
+    def _coverage_findings(self, coverage: ConsistentBranch, count: int) -> None:
+        if count == 0:
+            self.findings.append(
+                Finding(
+                    severity="info",
+                    code="consistent-branch",
+                    target=None,
+                    message="the cell has no targets",
+                )
+            )
+            return
+        if coverage.consistent:
+            every = [row.branch for row in coverage.coverage if not row.targets_breaking]
+            self.findings.append(
+                Finding(
+                    severity="info",
+                    code="consistent-branch",
+                    target=None,
+                    branch=coverage.branch,
+                    message="every target and approach pose is reachable and clear on one branch: "
+                    + "; ".join(every),
+                )
+            )
+            return
+        best = coverage.coverage[0]
+        self.findings.append(
+            Finding(
+                severity="warning",
+                code="inconsistent-branch",
+                target=None,
+                branch=best.branch,
+                message=f"no single branch reaches every target clear; {best.branch} reaches "
+                f"{len(best.targets_clear)} of {count}, not: {', '.join(best.targets_breaking)}",
+                value=float(len(best.targets_clear)),
+                unit="targets",
+                threshold=float(count),
+            )
+        )
+
+
+def check_targets(scene: Scene, thresholds: QualityThresholds | None = None) -> TargetCheckReport:
+    """Check every target (and approach pose) of a cell: reach, branches, quality, consistency.
+
+    Method in the module docstring.
+
+    Parameters
+    ----------
+    scene : Scene
+    thresholds : QualityThresholds, optional
+        Warning thresholds and score references; the documented defaults if omitted.
+
+    Returns
+    -------
+    TargetCheckReport
+        Boundary units (mm, deg).
+    """
+    return _Checker(scene, QualityThresholds() if thresholds is None else thresholds).run()
