@@ -1,0 +1,786 @@
+"""Diagnosis of joint values in a cell: one configuration, or a whole controller log.
+
+:func:`diagnose_pose` answers "where was the robot and what was it close
+to?" for one configuration: TCP pose in the world and the base frame, branch,
+limit margins, manipulability, singularity distances, clearance with the
+closest obstacles named, the nearest targets, and every other IK solution of
+the same TCP pose (with the input's own solution marked).
+
+:func:`diagnose_log` does the same for every row of a
+:class:`~posebridge.cell.joint_log.JointLog` at once
+(:func:`~posebridge.cell.quality.evaluate_configurations` runs on the whole
+batch) and then looks along the rows: each joint's smallest margin, the
+minimum clearance and manipulability, the closest approach to a singularity,
+stretches of rows in a condition (collision, low clearance, outside limits,
+low limit margin, near a singularity), branch flips between consecutive rows
+and joint changes faster than the velocity limits (needs ``time_s``). The
+single **worst row** follows :data:`WORST_ROW_RULE`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+import numpy.typing as npt
+
+from posebridge.cell.clearance import (
+    CellClearance,
+    clearance_scene,
+    obstacle_kinds,
+    obstacle_names,
+)
+from posebridge.cell.joint_log import JointLog
+from posebridge.cell.quality import (
+    ConfigurationQuality,
+    branch_report,
+    branch_words,
+    closest_pair_model,
+    evaluate_configurations,
+    full_branch_words,
+    joint_margins_model,
+    margin_thresholds,
+    part_word,
+    proximity_ratio,
+    quality_findings,
+    singularity_model,
+    turn_counts,
+)
+from posebridge.cell.reports import (
+    MAX_LISTED_EVENTS,
+    BranchFlip,
+    Finding,
+    JointExtreme,
+    LogDiagnosis,
+    LogRows,
+    NearTarget,
+    ObjectDistance,
+    PoseDiagnosis,
+    PoseFrame,
+    PoseKind,
+    QualityThresholds,
+    RowStretch,
+    RowValue,
+    VelocityCheck,
+    VelocityJump,
+    WorstRow,
+)
+from posebridge.cell.scene import Scene
+from posebridge.geometry.clearance import clearance_per_obstacle_batch
+from posebridge.kinematics.fk import KinematicsInputError, check_configurations
+from posebridge.kinematics.ik import solve_ik_all
+from posebridge.transforms import (
+    quaternion_from_rotation_matrix,
+    rotation_vector_from_rotation_matrix,
+    rpy_from_rotation_matrix,
+)
+from posebridge.units import (
+    BoolArray,
+    FloatArray,
+    deg_from_rad,
+    joint_unit_labels,
+    joints_user_from_si,
+    m_from_mm,
+    mm_from_m,
+)
+
+__all__ = [
+    "AT_TARGET_DEG",
+    "AT_TARGET_MM",
+    "CLOSEST_OBJECTS",
+    "INPUT_MATCH_TOLERANCE",
+    "NEAREST_TARGETS",
+    "VELOCITY_TOLERANCE",
+    "WORST_ROW_RULE",
+    "diagnose_log",
+    "diagnose_pose",
+]
+
+CLOSEST_OBJECTS = 5
+"""Obstacles listed in :attr:`PoseDiagnosis.closest_objects`."""
+NEAREST_TARGETS = 3
+"""Target and approach poses listed in :attr:`PoseDiagnosis.nearest_targets`."""
+AT_TARGET_MM = 1.0
+AT_TARGET_DEG = 1.0
+"""A TCP within both of these of a target pose is reported as at that target."""
+INPUT_MATCH_TOLERANCE = 1e-5
+"""An IK solution within this (rad or m, every joint) of the input is the input's own."""
+VELOCITY_TOLERANCE = 0.01
+"""A joint change counts as too fast above ``(1 + this) * velocity limit``: a 1 % allowance
+for the rounding of logged values (common practice, no source)."""
+
+WORST_ROW_RULE = (
+    "The row with the deepest collision; if no row collides, the row farthest outside a joint "
+    "limit (by fraction of the joint's range); if every row is within limits, the second row "
+    "of the fastest joint change above its velocity limit; otherwise the row closest to a "
+    "warning: smallest of clearance, limit margin and singularity distance each divided by its "
+    "warning threshold. Ties go to the earliest row."
+)
+
+_SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
+
+
+def _frame(T: FloatArray) -> PoseFrame:
+    """A pose (4, 4), m, as position mm, rpy deg and quaternion."""
+    return PoseFrame(
+        position_mm=mm_from_m(T[:3, 3]).tolist(),
+        rpy_deg=rpy_from_rotation_matrix(T[:3, :3], degrees=True).tolist(),
+        quaternion_wxyz=quaternion_from_rotation_matrix(T[:3, :3]).tolist(),
+    )
+
+
+def _pair_label(clearance: CellClearance, k: int) -> str:
+    capsule, other, _ = clearance.pair(k)
+    return f"{capsule} – {other}" if capsule else ""
+
+
+def _overall_pair(quality: ConfigurationQuality, k: int) -> CellClearance:
+    """The clearance (environment or self) holding configuration ``k``'s closest pair."""
+    if quality.self_clearance.distance[k] < quality.environment.distance[k]:
+        return quality.self_clearance
+    return quality.environment
+
+
+def _nearest_targets(scene: Scene, T_world_tool: FloatArray) -> list[NearTarget]:
+    """Target and approach poses nearest the TCP, by position distance."""
+    targets = scene.targets
+    has_approach = targets.approach_offset > 0.0
+    poses = np.concatenate([targets.T_world_target, targets.T_world_approach[has_approach]])
+    names = list(targets.names) + [n for n, a in zip(targets.names, has_approach, strict=True) if a]
+    kinds: list[PoseKind] = ["target"] * len(targets.names)
+    kinds += ["approach"] * int(has_approach.sum())
+    if not names:
+        return []
+    distance = np.linalg.norm(poses[:, :3, 3] - T_world_tool[:3, 3], axis=1)
+    relative = np.swapaxes(poses[:, :3, :3], 1, 2) @ T_world_tool[:3, :3]
+    angle = np.linalg.norm(rotation_vector_from_rotation_matrix(relative, degrees=True), axis=1)
+    order = np.argsort(distance, kind="stable")[:NEAREST_TARGETS]
+    return [
+        NearTarget(
+            name=names[i],
+            pose=kinds[i],
+            distance_mm=float(mm_from_m(distance[i])),
+            angle_deg=float(angle[i]),
+        )
+        for i in order
+    ]
+
+
+def _closest_objects(scene: Scene, q: FloatArray) -> list[ObjectDistance]:
+    """The obstacles nearest configuration ``q`` (1, n), nearest first."""
+    distance = clearance_per_obstacle_batch(clearance_scene(scene), q).distance[0]
+    names = obstacle_names(scene)
+    kinds = obstacle_kinds(scene)
+    order = [o for o in np.argsort(distance, kind="stable") if np.isfinite(distance[o])]
+    return [
+        ObjectDistance(name=names[o], kind=kinds[o], distance_mm=float(mm_from_m(distance[o])))
+        for o in order[:CLOSEST_OBJECTS]
+    ]
+
+
+def _single(scene: Scene, q: npt.ArrayLike) -> FloatArray:
+    array = np.asarray(q, dtype=np.float64)
+    if array.ndim == 1:
+        array = array[None]
+    if array.shape[0] != 1:
+        raise KinematicsInputError(
+            f"joint values: expected one configuration of {scene.robot.dof} values, got shape "
+            f"{np.shape(q)}"
+        )
+    return check_configurations(scene.robot, array)
+
+
+def diagnose_pose(
+    scene: Scene, q: npt.ArrayLike, thresholds: QualityThresholds | None = None
+) -> PoseDiagnosis:
+    """Everything about one joint configuration in the cell (module docstring).
+
+    Parameters
+    ----------
+    scene : Scene
+    q : array-like, shape (n,) or (1, n)
+        Joint values, rad or m (convert user input with
+        :func:`posebridge.units.joints_si_from_user`).
+    thresholds : QualityThresholds, optional
+
+    Returns
+    -------
+    PoseDiagnosis
+        Boundary units (mm, deg). ``input_branch`` is null when no IK
+        solution equals the input (a joint outside its limits by whole turns).
+    """
+    robot = scene.robot
+    q = _single(scene, q)
+    quality = evaluate_configurations(scene, q, thresholds)
+    T_base_tool = quality.T_base_tool
+    solutions = solve_ik_all(
+        robot, T_base_tool, T_flange_tool=scene.T_flange_tool, seed=q[0], all_turns=True
+    )
+    slots = solutions.valid_solutions(0)
+    branches = []
+    input_branch = None
+    if slots:
+        others = evaluate_configurations(scene, solutions.q[0, slots], quality.thresholds)
+        for row, m in enumerate(slots):
+            branches.append(
+                branch_report(
+                    others,
+                    row,
+                    branch=full_branch_words(others, row, solutions.turns[0, m]),
+                    turns=solutions.turns[0, m],
+                )
+            )
+        gap = np.max(np.abs(others.q - q), axis=1)
+        if gap.min() <= INPUT_MATCH_TOLERANCE:
+            input_branch = int(np.argmin(gap))
+    findings = quality_findings(quality, 0)
+    nearest = _nearest_targets(scene, quality.T_world_tool[0])
+    if nearest and nearest[0].distance_mm <= AT_TARGET_MM and nearest[0].angle_deg <= AT_TARGET_DEG:
+        findings.append(
+            Finding(
+                severity="info",
+                code="at-target",
+                target=nearest[0].name,
+                pose=nearest[0].pose,
+                message=f"the TCP is at {nearest[0].pose} {nearest[0].name!r} "
+                f"({nearest[0].distance_mm:.2f} mm, {nearest[0].angle_deg:.2f} deg)",
+            )
+        )
+    margins = quality.margins
+    joint = int(margins.min_joint[0])
+    clearance = float(mm_from_m(quality.clearance[0]))
+    turns = turn_counts(robot, q)[0]
+    return PoseDiagnosis(
+        robot=robot.name,
+        tool=scene.tool_name,
+        joint_names=list(robot.joint_names),
+        joint_units=joint_unit_labels(robot.prismatic),
+        joints_deg=joints_user_from_si(q[0], robot.prismatic).tolist(),
+        tcp_world=_frame(quality.T_world_tool[0]),
+        tcp_base=_frame(T_base_tool[0]),
+        branch=full_branch_words(quality, 0, turns),
+        shoulder=int(quality.shoulder[0]),
+        elbow=int(quality.elbow[0]),
+        wrist=int(quality.wrist[0]),
+        within_limits=bool(quality.within_limits[0]),
+        margins=joint_margins_model(quality, 0),
+        min_margin_joint=robot.joint_names[joint] if joint >= 0 else None,
+        min_margin_fraction=float(margins.min_fraction[0]) if joint >= 0 else None,
+        manipulability=float(quality.manipulability[0]),
+        singularity=singularity_model(quality, 0),
+        clearance_mm=clearance if np.isfinite(clearance) else None,
+        collision_free=bool(quality.collision_free[0]),
+        closest=closest_pair_model(_overall_pair(quality, 0), 0),
+        closest_environment=closest_pair_model(quality.environment, 0),
+        closest_self=closest_pair_model(quality.self_clearance, 0),
+        closest_objects=_closest_objects(scene, q),
+        nearest_targets=nearest,
+        branches=branches,
+        input_branch=input_branch,
+        findings=sorted(findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+    )
+
+
+# --- logs -------------------------------------------------------------------------------------
+
+
+class _Rows:
+    """Row references of a log: 0-based row, file line and time."""
+
+    def __init__(self, log: JointLog) -> None:
+        self.line = log.line
+        self.time_s = log.time_s
+
+    def time(self, row: int) -> float | None:
+        return None if self.time_s is None else float(self.time_s[row])
+
+    def value(self, row: int, value: float, unit: str, detail: str) -> RowValue:
+        return RowValue(
+            row=row,
+            line=int(self.line[row]),
+            time_s=self.time(row),
+            value=value,
+            unit=unit,
+            detail=detail,
+        )
+
+
+def _stretches(mask: BoolArray) -> tuple[npt.NDArray[np.intp], npt.NDArray[np.intp]]:
+    """First and last row of every run of True in ``mask`` (N,), in order."""
+    edges = np.diff(mask.astype(np.int8), prepend=np.int8(0), append=np.int8(0))
+    return np.flatnonzero(edges == 1), np.flatnonzero(edges == -1) - 1
+
+
+class _LogDiagnoser:
+    """One log diagnosis (module docstring); :meth:`run` builds the result."""
+
+    def __init__(self, scene: Scene, log: JointLog, thresholds: QualityThresholds) -> None:
+        if tuple(log.joint_names) != scene.robot.joint_names:
+            raise KinematicsInputError(
+                f"joint log {log.source!r}: its joints ({', '.join(log.joint_names)}) are not "
+                f"those of robot {scene.robot.name!r} ({', '.join(scene.robot.joint_names)})"
+            )
+        self.scene = scene
+        self.log = log
+        self.robot = scene.robot
+        self.quality = evaluate_configurations(scene, log.q, thresholds)
+        self.thresholds = self.quality.thresholds
+        self.rows = _Rows(log)
+        self.units = joint_unit_labels(self.robot.prismatic)
+        self.findings: list[Finding] = []
+        self.stretches: list[RowStretch] = []
+        self.stretch_counts: dict[str, int] = {}
+        self.fastest: tuple[int, int, float] | None = None
+        """Row, joint and speed-to-limit ratio of the fastest over-limit change."""
+
+    # --- single rows ------------------------------------------------------------------------
+
+    def _smallest_margins(self) -> list[JointExtreme]:
+        robot = self.robot
+        margins = self.quality.margins
+        margin_user = joints_user_from_si(margins.margin, robot.prismatic)
+        value_user = joints_user_from_si(self.log.q, robot.prismatic)
+        extremes = []
+        for j in np.flatnonzero(~robot.continuous):
+            row = int(np.argmin(margins.margin[:, j]))
+            lower = margins.to_lower[row, j] <= margins.to_upper[row, j]
+            extremes.append(
+                JointExtreme(
+                    joint=robot.joint_names[j],
+                    unit=self.units[j],
+                    row=row,
+                    line=int(self.log.line[row]),
+                    time_s=self.rows.time(row),
+                    value=float(value_user[row, j]),
+                    margin=float(margin_user[row, j]),
+                    margin_fraction=float(margins.fraction[row, j]),
+                    nearer_limit="lower" if lower else "upper",
+                )
+            )
+        return extremes
+
+    def _min_clearance(self) -> RowValue | None:
+        clearance = self.quality.clearance
+        row = int(np.argmin(clearance))
+        if not np.isfinite(clearance[row]):
+            return None
+        pairs = _overall_pair(self.quality, row)
+        return self.rows.value(row, float(mm_from_m(clearance[row])), "mm", _pair_label(pairs, row))
+
+    def _singularity_terms(self) -> list[tuple[str, FloatArray, FloatArray, str, str]]:
+        """``(kind, distance in its unit, ratio to threshold, unit, wording)`` of each kind."""
+        report = self.quality.singularity
+        if report is None:
+            return []
+        t = report.thresholds
+        return [
+            (
+                "wrist",
+                deg_from_rad(report.wrist_rad),
+                report.wrist_rad / t.wrist_rad,
+                "deg",
+                "wrist bend from straight",
+            ),
+            (
+                "elbow",
+                deg_from_rad(report.elbow_rad),
+                report.elbow_rad / t.elbow_rad,
+                "deg",
+                "elbow from stretched or folded",
+            ),
+            (
+                "shoulder",
+                mm_from_m(report.shoulder_m),
+                report.shoulder_m / t.shoulder_m,
+                "mm",
+                "wrist centre from the plane of axis 1",
+            ),
+        ]
+
+    def _closest_singularity(self) -> RowValue | None:
+        terms = self._singularity_terms()
+        if not terms:
+            return None
+        ratios = np.stack([term[2] for term in terms])
+        row = int(np.argmin(ratios.min(axis=0)))
+        kind, distance, _, unit, wording = terms[int(np.argmin(ratios[:, row]))]
+        return self.rows.value(
+            row, float(distance[row]), unit, f"{kind}: {wording} {distance[row]:.1f} {unit}"
+        )
+
+    # --- stretches ----------------------------------------------------------------------------
+
+    def _add_stretches(
+        self,
+        condition: str,
+        mask: BoolArray,
+        strength: FloatArray,
+        value_of: Callable[[int], tuple[float, str, str]],
+        severity: str,
+    ) -> None:
+        """Record the runs of ``mask``; the extreme row of each minimises ``strength``."""
+        first, last = _stretches(mask)
+        self.stretch_counts[condition] = int(first.size)
+        for a, b in zip(first[:MAX_LISTED_EVENTS], last[:MAX_LISTED_EVENTS], strict=True):
+            extreme = int(a + np.argmin(strength[a : b + 1]))
+            value, unit, detail = value_of(extreme)
+            stretch = RowStretch(
+                condition=condition,
+                first_row=int(a),
+                last_row=int(b),
+                first_line=int(self.log.line[a]),
+                last_line=int(self.log.line[b]),
+                start_time_s=self.rows.time(int(a)),
+                end_time_s=self.rows.time(int(b)),
+                extreme_row=extreme,
+                extreme_value=value,
+                unit=unit,
+                detail=detail,
+            )
+            self.stretches.append(stretch)
+            where = f"rows {a}-{b} (lines {stretch.first_line}-{stretch.last_line}"
+            if stretch.start_time_s is not None:
+                where += f", t {stretch.start_time_s:g}-{stretch.end_time_s:g} s"
+            self.findings.append(
+                Finding(
+                    severity=severity,  # type: ignore[arg-type]  # error or warning
+                    code=condition.replace(" ", "-"),
+                    target=None,
+                    row=extreme,
+                    message=f"{condition} in {where}): {detail}",
+                    value=value,
+                    unit=unit,
+                )
+            )
+
+    def _condition_stretches(self) -> None:
+        quality = self.quality
+        robot = self.robot
+        t = self.thresholds
+        clearance = quality.clearance
+        limit_m = float(m_from_mm(t.clearance_mm))
+
+        def clearance_value(row: int) -> tuple[float, str, str]:
+            mm = float(mm_from_m(clearance[row]))
+            return mm, "mm", f"{_pair_label(_overall_pair(quality, row), row)} at {mm:.1f} mm"
+
+        self._add_stretches("collision", clearance < 0.0, clearance, clearance_value, "error")
+        self._add_stretches(
+            "low clearance",
+            (clearance >= 0.0) & (clearance < limit_m),
+            clearance,
+            clearance_value,
+            "warning",
+        )
+        margins = quality.margins
+        limited = ~robot.continuous
+        scaled = np.full(margins.margin.shape, np.inf)
+        scaled[:, limited] = margins.margin[:, limited] / margin_thresholds(robot, t)[limited]
+        worst_joint = np.argmin(scaled, axis=1)
+        rows = np.arange(quality.count)
+        margin_user = joints_user_from_si(margins.margin, robot.prismatic)
+
+        def margin_value(row: int) -> tuple[float, str, str]:
+            j = int(worst_joint[row])
+            value = float(margin_user[row, j])
+            side = "lower" if margins.to_lower[row, j] <= margins.to_upper[row, j] else "upper"
+            return (
+                value,
+                self.units[j],
+                (f"{robot.joint_names[j]} {value:.1f} {self.units[j]} from its {side} limit"),
+            )
+
+        outside = ~quality.within_limits
+        self._add_stretches(
+            "outside limits", outside, scaled[rows, worst_joint], margin_value, "error"
+        )
+        self._add_stretches(
+            "low limit margin",
+            ~outside & (scaled[rows, worst_joint] < 1.0),
+            scaled[rows, worst_joint],
+            margin_value,
+            "warning",
+        )
+        report = quality.singularity
+        if report is None:
+            return
+        near = {
+            "wrist": report.near_wrist,
+            "elbow": report.near_elbow,
+            "shoulder": report.near_shoulder,
+        }
+        for kind, distance, ratio, unit, wording in self._singularity_terms():
+
+            def singular_value(
+                row: int, distance: FloatArray = distance, unit: str = unit, wording: str = wording
+            ) -> tuple[float, str, str]:
+                return float(distance[row]), unit, f"{wording} {distance[row]:.1f} {unit}"
+
+            self._add_stretches(
+                f"near {kind} singularity", near[kind], ratio, singular_value, "warning"
+            )
+
+    # --- between rows -------------------------------------------------------------------------
+
+    def _branch_flips(self) -> tuple[int, list[BranchFlip]]:
+        quality = self.quality
+        scheme = quality.scheme
+        parts = {"arm": ("shoulder", "elbow", "wrist"), "planar": ("elbow",)}.get(scheme, ())
+        flips: list[tuple[int, str, int, int]] = []
+        for part in parts:
+            labels = getattr(quality, part)
+            defined = np.flatnonzero(labels != 0)
+            changed = np.flatnonzero(labels[defined[1:]] != labels[defined[:-1]])
+            flips.extend(
+                (int(defined[c + 1]), part, int(labels[defined[c]]), int(labels[defined[c + 1]]))
+                for c in changed
+            )
+        flips.sort()
+
+        listed = [
+            BranchFlip(
+                row=row,
+                line=int(self.log.line[row]),
+                time_s=self.rows.time(row),
+                part=part,  # type: ignore[arg-type]  # shoulder, elbow or wrist
+                before=part_word(scheme, part, before),
+                after=part_word(scheme, part, after),
+            )
+            for row, part, before, after in flips[:MAX_LISTED_EVENTS]
+        ]
+        for flip in listed:
+            when = "" if flip.time_s is None else f", t {flip.time_s:g} s"
+            self.findings.append(
+                Finding(
+                    severity="warning",
+                    code="branch-flip",
+                    target=None,
+                    row=flip.row,
+                    message=f"{flip.part} branch changes from {flip.before} to {flip.after} at "
+                    f"row {flip.row} (line {flip.line}{when}): the arm passed a singularity",
+                )
+            )
+        return len(flips), listed
+
+    def _velocity(self) -> VelocityCheck:
+        robot = self.robot
+        time_s = self.log.time_s
+        if time_s is None:
+            reason = "skipped: the log has no time_s column"
+            self.findings.append(
+                Finding(severity="info", code="velocity-skipped", target=None, message=reason)
+            )
+            return VelocityCheck(checked=False, reason=reason, jump_count=0, jumps=[])
+        if self.quality.count < 2:
+            return VelocityCheck(checked=True, reason="", jump_count=0, jumps=[])
+        limit = robot.velocity_max
+        has_limit = np.isfinite(limit) & (limit > 0.0)
+        change = np.diff(self.log.q, axis=0)
+        dt = np.diff(time_s)
+        speed = np.abs(change) / dt[:, None]
+        over = (speed > (1.0 + VELOCITY_TOLERANCE) * np.where(has_limit, limit, np.inf)) & has_limit
+        pair, joint = np.nonzero(over)
+        if pair.size:
+            ratio = np.where(over, speed / np.where(has_limit, limit, 1.0), 0.0)
+            p, j = np.unravel_index(int(np.argmax(ratio)), ratio.shape)
+            self.fastest = (int(p) + 1, int(j), float(ratio[p, j]))
+        change_user = joints_user_from_si(change, robot.prismatic)
+        speed_user = joints_user_from_si(speed, robot.prismatic)
+        limit_user = joints_user_from_si(np.where(has_limit, limit, 0.0), robot.prismatic)
+        jumps = []
+        for p, j in zip(pair[:MAX_LISTED_EVENTS], joint[:MAX_LISTED_EVENTS], strict=True):
+            row = int(p) + 1
+            jump = VelocityJump(
+                row=row,
+                line=int(self.log.line[row]),
+                time_from_s=float(time_s[row - 1]),
+                time_to_s=float(time_s[row]),
+                joint=robot.joint_names[j],
+                unit=self.units[j],
+                change=float(change_user[p, j]),
+                speed=float(speed_user[p, j]),
+                limit=float(limit_user[j]),
+                ratio=float(speed[p, j] / limit[j]),
+            )
+            jumps.append(jump)
+            self.findings.append(
+                Finding(
+                    severity="error",
+                    code="velocity",
+                    target=None,
+                    row=row,
+                    message=f"{jump.joint} changes by {jump.change:+.1f} {jump.unit} between "
+                    f"t {jump.time_from_s:g} s and {jump.time_to_s:g} s (line {jump.line}): "
+                    f"{jump.speed:.0f} {jump.unit}/s, above its limit {jump.limit:g} {jump.unit}/s",
+                    value=jump.speed,
+                    unit=f"{jump.unit}/s",
+                    threshold=jump.limit,
+                )
+            )
+        return VelocityCheck(checked=True, reason="", jump_count=int(pair.size), jumps=jumps)
+
+    # --- worst row ----------------------------------------------------------------------------
+
+    def _worst_row(self) -> tuple[int, str]:
+        quality = self.quality
+        clearance = quality.clearance
+        if np.any(clearance < 0.0):
+            row = int(np.argmin(clearance))
+            pair = _pair_label(_overall_pair(quality, row), row)
+            return row, f"deepest collision: {pair} overlap by {-mm_from_m(clearance[row]):.1f} mm"
+        margins = quality.margins
+        if not np.all(quality.within_limits):
+            row = int(np.argmin(margins.min_fraction))
+            j = int(margins.min_joint[row])
+            value = float(joints_user_from_si(margins.margin[row], self.robot.prismatic)[j])
+            return row, (
+                f"farthest outside a limit: {self.robot.joint_names[j]} {-value:.1f} "
+                f"{self.units[j]} beyond it"
+            )
+        if self.fastest is not None:
+            row, j, ratio = self.fastest
+            return row, (
+                f"fastest change above a velocity limit: {self.robot.joint_names[j]} at "
+                f"{ratio:.2f} times its limit"
+            )
+        proximity = proximity_ratio(quality)
+        row = int(np.argmin(proximity))
+        return row, (
+            f"closest to a warning threshold ({proximity[row]:.2f} times the threshold distance)"
+        )
+
+    # --- per-row columns ---------------------------------------------------------------------
+
+    def _columns(self) -> LogRows:
+        quality = self.quality
+        robot = self.robot
+        continuous = robot.continuous
+        margin_user = joints_user_from_si(quality.margins.margin, robot.prismatic)
+        margins = [
+            [None if continuous[j] else value for j, value in enumerate(row)]
+            for row in margin_user.tolist()
+        ]
+        fraction = quality.margins.min_fraction
+        codes = (quality.shoulder + 1) * 9 + (quality.elbow + 1) * 3 + (quality.wrist + 1)
+        table = np.array(
+            [
+                branch_words(quality.scheme, s, e, w)
+                for s in (-1, 0, 1)
+                for e in (-1, 0, 1)
+                for w in (-1, 0, 1)
+            ],
+            dtype=object,
+        )
+        use_self = quality.self_clearance.distance < quality.environment.distance
+        closest = np.where(
+            use_self,
+            self._pair_names(quality.self_clearance),
+            self._pair_names(quality.environment),
+        )
+        clearance = mm_from_m(quality.clearance)
+        report = quality.singularity
+        return LogRows(
+            line=self.log.line.tolist(),
+            time_s=None if self.log.time_s is None else self.log.time_s.tolist(),
+            tcp_position_mm=mm_from_m(quality.T_world_tool[:, :3, 3]).tolist(),
+            branch=table[codes.astype(np.int64)].tolist(),
+            margins=margins,
+            min_margin_fraction=[None if not np.isfinite(v) else v for v in fraction.tolist()],
+            manipulability=quality.manipulability.tolist(),
+            singularity=None if report is None else list(report.label),
+            wrist_bend_deg=None if report is None else deg_from_rad(report.wrist_rad).tolist(),
+            elbow_deg=None if report is None else deg_from_rad(report.elbow_rad).tolist(),
+            shoulder_mm=None if report is None else mm_from_m(report.shoulder_m).tolist(),
+            clearance_mm=[None if not np.isfinite(v) else v for v in clearance.tolist()],
+            closest=closest.tolist(),
+        )
+
+    @staticmethod
+    def _pair_names(clearance: CellClearance) -> npt.NDArray[np.object_]:
+        """``"capsule – other"`` per row ("" where nothing was checked), vectorised by lookup."""
+        capsules = np.array([*clearance.capsule_names, ""], dtype=object)
+        others = np.array([*clearance.obstacle_names, ""], dtype=object)
+        is_self = clearance.is_self
+        other = np.where(
+            is_self,
+            capsules[np.where(is_self, clearance.other, -1)],
+            others[np.where(is_self, -1, clearance.other)],
+        )
+        label = capsules[clearance.capsule] + " – " + other
+        return np.where(clearance.capsule >= 0, label, "")
+
+    def run(self, include_rows: bool) -> LogDiagnosis:
+        robot = self.robot
+        quality = self.quality
+        self._condition_stretches()
+        flip_count, flips = self._branch_flips()
+        velocity = self._velocity()
+        worst, reason = self._worst_row()
+        time_s = self.log.time_s
+        manipulability_row = int(np.argmin(quality.manipulability))
+        return LogDiagnosis(
+            source=self.log.source,
+            robot=robot.name,
+            tool=self.scene.tool_name,
+            joint_names=list(robot.joint_names),
+            joint_units=self.units,
+            row_count=quality.count,
+            duration_s=None if time_s is None else float(time_s[-1] - time_s[0]),
+            thresholds=self.thresholds,
+            smallest_margins=self._smallest_margins(),
+            min_clearance=self._min_clearance(),
+            min_manipulability=self.rows.value(
+                manipulability_row,
+                float(quality.manipulability[manipulability_row]),
+                "m^3",
+                "Yoshikawa manipulability of the translational Jacobian",
+            ),
+            closest_singularity=self._closest_singularity(),
+            stretches=self.stretches,
+            stretch_counts=self.stretch_counts,
+            branch_flip_count=flip_count,
+            branch_flips=flips,
+            velocity=velocity,
+            worst_row=WorstRow(
+                row=worst,
+                line=int(self.log.line[worst]),
+                time_s=self.rows.time(worst),
+                rule=WORST_ROW_RULE,
+                reason=reason,
+                diagnosis=diagnose_pose(self.scene, self.log.q[worst], self.thresholds),
+            ),
+            findings=sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+            rows=self._columns() if include_rows else None,
+        )
+
+
+def diagnose_log(
+    scene: Scene,
+    log: JointLog,
+    thresholds: QualityThresholds | None = None,
+    *,
+    include_rows: bool = True,
+) -> LogDiagnosis:
+    """Diagnose every row of a joint log in the cell, and what happens between rows.
+
+    Method in the module docstring; every per-row quantity is computed for
+    all rows at once.
+
+    Parameters
+    ----------
+    scene : Scene
+    log : JointLog
+        From :func:`posebridge.cell.joint_log.read_joint_log`; its joints
+        must be the scene robot's.
+    thresholds : QualityThresholds, optional
+    include_rows : bool, keyword-only
+        Add the per-row values (:class:`~posebridge.cell.reports.LogRows`).
+
+    Returns
+    -------
+    LogDiagnosis
+        Boundary units (mm, deg).
+    """
+    return _LogDiagnoser(scene, log, QualityThresholds() if thresholds is None else thresholds).run(
+        include_rows
+    )
