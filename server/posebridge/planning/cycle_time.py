@@ -213,8 +213,8 @@ def joint_move_durations(
     span = np.max(np.abs(delta), axis=1)
     moving = span > 0.0
     share = np.abs(delta) / np.where(moving, span, 1.0)[:, None]
-    V = 1.0 / np.maximum(np.max(share / v, axis=1), 1e-300)
-    A = 1.0 / np.maximum(np.max(share / a, axis=1), 1e-300)
+    V = 1.0 / np.where(moving, np.max(share / v, axis=1), 1.0)
+    A = 1.0 / np.where(moving, np.max(share / a, axis=1), 1.0)
     cruise = span >= V * V / A
     duration = np.where(cruise, span / V + V / A, 2.0 * np.sqrt(np.where(moving, span, 0.0) / A))
     return np.where(moving, duration, 0.0) / k
