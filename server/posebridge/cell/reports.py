@@ -251,9 +251,12 @@ class ConsistentBranch(_Result):
 class Finding(_Result):
     severity: Severity
     code: str = Field(
-        description="unreachable, branch-limited, approach-branch, limit-margin, outside-limits, "
-        "clearance, collision, singularity, inconsistent-branch, consistent-branch, branch-flip, "
-        "velocity, velocity-skipped"
+        description="Target check: unreachable, approach-branch, branch-limited, "
+        "consistent-branch, inconsistent-branch; any configuration: outside-limits, "
+        "limit-margin, collision, clearance, singularity, at-target; logs (stretches of rows): "
+        "collision, low-clearance, outside-limits, low-limit-margin, near-wrist-singularity, "
+        "near-elbow-singularity, near-shoulder-singularity; logs (between rows): branch-flip, "
+        "velocity, velocity-skipped."
     )
     target: str | None = Field(description="Target name, or null for the cell or a log.")
     pose: PoseKind | None = None
