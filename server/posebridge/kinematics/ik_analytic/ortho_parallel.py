@@ -16,9 +16,10 @@ wrist centre is
 and the end frame is ``Rz(θ1) Ry(θ23) Rz(θ4) Ry(θ5) Rz(θ6)`` with its origin
 ``c4`` beyond C along its z axis. The position part gives two values of θ1
 (wrist centre in front of or behind axis 1) and for each two elbow solutions
-(law of cosines in the arm plane; θ2 is taken with the two-argument
-arctangent, which is the paper's expression written without a second arccos);
-the orientation part gives two wrists each, eight solutions in all.
+(law of cosines in the arm plane; the elbow angle ``β = θ3 + atan2(a2, c3)``
+is the paper's arccos, evaluated as ``atan2(sqrt(1 - cos²β), cos β)``, and θ2
+the difference of two arctangents, equivalent to the paper's arccos form); the
+orientation part gives two wrists each, eight solutions in all.
 
 A robot description is rarely in canonical form. :class:`OrthoParallelGeometry`
 extracts the parameters from the joint axes at zero together with per-joint
