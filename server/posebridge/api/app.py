@@ -17,11 +17,12 @@ from fastapi.responses import FileResponse, HTMLResponse, JSONResponse, Response
 from fastapi.staticfiles import StaticFiles
 from fastapi.templating import Jinja2Templates
 
+from posebridge.api.auth import install_review_access
 from posebridge.api.cell_store import CellStore
 from posebridge.api.errors import install_error_handlers
 from posebridge.api.jobs import JobManager
 from posebridge.api.robot_cache import RobotCache
-from posebridge.api.routes import cells, health, jobs, kinematics, maps, robots
+from posebridge.api.routes import cells, health, jobs, kinematics, maps, reviews, robots
 from posebridge.api.schemas.kinematics import fk_result, ik_result
 from posebridge.api.settings import Settings, get_settings
 from posebridge.cell.model import CellFileError
@@ -109,6 +110,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.state.jobs = JobManager(expected_errors=_JOB_INPUT_ERRORS)
     install_error_handlers(app)
     _limit_request_size(app, settings.max_request_bytes)
+    install_review_access(app)
     routers = [
         health.router,
         robots.router,
@@ -116,6 +118,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         cells.router,
         maps.router,
         jobs.router,
+        reviews.router,
     ]
     for router in routers:
         app.include_router(router)
