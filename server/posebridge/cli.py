@@ -259,6 +259,54 @@ def _cmd_ik(args: argparse.Namespace) -> int:
     return EXIT_FINDINGS if unreachable else EXIT_OK
 
 
+def _load_scene(cell_argument: str) -> Any:
+    from posebridge.cell import load_cell, resolve_scene
+
+    path = Path(cell_argument)
+    return resolve_scene(load_cell(path), path)
+
+
+def _exit_for_findings(findings: Sequence[Any]) -> int:
+    """1 when any finding is an error or a warning, else 0 (info findings do not count)."""
+    return EXIT_FINDINGS if any(f.severity in ("error", "warning") for f in findings) else EXIT_OK
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from posebridge.cell.checks import check_targets
+    from posebridge.cell.report_text import render_target_check
+
+    report = check_targets(_load_scene(args.cell))
+    if args.json:
+        _print_json(report.model_dump(mode="json"))
+    else:
+        print(render_target_check(report))
+    return _exit_for_findings(report.findings)
+
+
+def _cmd_diagnose(args: argparse.Namespace) -> int:
+    from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
+    from posebridge.cell.joint_log import read_joint_log
+    from posebridge.cell.report_text import render_log_diagnosis, render_pose_diagnosis
+    from posebridge.units import joints_si_from_user
+
+    scene = _load_scene(args.cell)
+    robot = scene.robot
+    if args.log:
+        log_result = diagnose_log(scene, read_joint_log(args.log, robot), include_rows=args.json)
+        if args.json:
+            _print_json(log_result.model_dump(mode="json"))
+        else:
+            print(render_log_diagnosis(log_result))
+        return _exit_for_findings(log_result.findings)
+    q = joints_si_from_user(_parse_numbers(args.joints, "--joints", robot.dof), robot.prismatic)
+    pose_result = diagnose_pose(scene, q)
+    if args.json:
+        _print_json(pose_result.model_dump(mode="json"))
+    else:
+        print(render_pose_diagnosis(pose_result))
+    return _exit_for_findings(pose_result.findings)
+
+
 def _cmd_serve(args: argparse.Namespace) -> int:
     from posebridge.api.server import run_server
     from posebridge.resources import data_folder
@@ -349,6 +397,23 @@ def build_parser() -> argparse.ArgumentParser:
     ik.add_argument("--json", action="store_true", help="print JSON")
     ik.set_defaults(run=_cmd_ik)
 
+    check = sub.add_parser("check", help="check every target of a cell (exit 1 on findings)")
+    check.add_argument("cell", help="cell file (JSON)")
+    check.add_argument("--json", action="store_true", help="print JSON")
+    check.set_defaults(run=_cmd_check)
+
+    diagnose = sub.add_parser("diagnose", help="diagnose a fault pose or a logged run in a cell")
+    diagnose.add_argument("cell", help="cell file (JSON)")
+    what = diagnose.add_mutually_exclusive_group(required=True)
+    what.add_argument(
+        "--joints", help='joint values, e.g. "0,-20,20,0,90,0" (deg; mm for prismatic)'
+    )
+    what.add_argument(
+        "--log", help="CSV log: header of joint names (optional time_s column), deg/mm"
+    )
+    diagnose.add_argument("--json", action="store_true", help="print JSON")
+    diagnose.set_defaults(run=_cmd_diagnose)
+
     bench = sub.add_parser("bench", help="measure throughput and speed ratios")
     bench.add_argument("--quick", action="store_true", help="smaller problems, same keys")
     bench.add_argument("--json", action="store_true", help="print one flat JSON object of numbers")
@@ -358,6 +423,9 @@ def build_parser() -> argparse.ArgumentParser:
 
 def _input_error_types() -> tuple[type[BaseException], ...]:
     from posebridge.api.server import ServerConfigError
+    from posebridge.cell.files import CellConflictError
+    from posebridge.cell.joint_log import JointLogError
+    from posebridge.cell.model import CellFileError
     from posebridge.kinematics.fk import KinematicsInputError
     from posebridge.robot.errors import RobotDescriptionError
     from posebridge.transforms import TransformError
@@ -368,6 +436,9 @@ def _input_error_types() -> tuple[type[BaseException], ...]:
         KinematicsInputError,
         TransformError,
         ServerConfigError,
+        CellFileError,
+        CellConflictError,
+        JointLogError,
     )
 
 
