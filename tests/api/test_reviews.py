@@ -20,6 +20,7 @@ import httpx
 import pytest
 from fastapi import FastAPI
 
+from posebridge.api import server
 from posebridge.api.app import create_app
 from posebridge.api.auth import ACCESS_COOKIE, REVIEWER_CAPS, enable_review_sharing
 from posebridge.api.settings import Settings
@@ -497,3 +498,44 @@ async def test_sharing_keeps_only_the_digest(shared_app: FastAPI, token: str) ->
     access = shared_app.state.review_access
     assert access.token_digest == hashlib.sha256(token.encode()).digest()
     assert token not in repr(vars(access))
+
+
+def test_run_server_share_prints_review_link_once(
+    monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str], cell_file: Path
+) -> None:
+    started: list[str | None] = []
+
+    class NotServing:
+        def __init__(self, review_token: str | None) -> None:
+            self.review_token = review_token
+
+        def run(self, sockets: list[Any]) -> None:
+            started.append(self.review_token)
+            for sock in sockets:
+                sock.close()
+
+    monkeypatch.setattr(
+        server, "_uvicorn_server", lambda settings, log_level, token=None: NotServing(token)
+    )
+    server.run_server(host="127.0.0.1", port=0, cell_path=cell_file, share=True)
+    [token] = started
+    assert token is not None
+    lines = capsys.readouterr().out.splitlines()
+    links = [line for line in lines if "?token=" in line]
+    assert len(links) == 1
+    assert links[0].strip().endswith(f"/?token={token}")
+    assert sum(token in line for line in lines) == 1  # printed once, nowhere else
+
+    server.run_server(host="127.0.0.1", port=0, cell_path=cell_file)
+    assert started[-1] is None  # not shared: no token
+    assert "?token=" not in capsys.readouterr().out
+
+
+def test_background_server_shared_for_review(cell_file: Path, token: str) -> None:
+    settings = Settings(warm_up=False, cell_path=cell_file)
+    with server.background_server(settings, review_token=token) as url:
+        owner = httpx.get(url + "api/reviews/access", timeout=10)
+        reviewer = httpx.get(url + "api/reviews/access", headers=_bearer(token), timeout=10)
+    assert owner.json()["role"] == "owner"
+    assert owner.json()["shared"] is True
+    assert reviewer.json()["role"] == "reviewer"

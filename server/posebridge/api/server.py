@@ -2,7 +2,9 @@
 
 The server binds the loopback interface by default. Any other address makes
 the dashboard reachable from other machines, so it is refused unless the
-caller asks to share explicitly.
+caller asks to share explicitly. A shared server makes a fresh review token,
+prints the review link once and keeps only the token's digest: other
+machines then need the link and get read-only access (:mod:`posebridge.api.auth`).
 """
 
 from __future__ import annotations
@@ -17,7 +19,9 @@ from pathlib import Path
 import uvicorn
 
 from posebridge.api.app import create_app
+from posebridge.api.auth import enable_review_sharing
 from posebridge.api.settings import Settings
+from posebridge.review.access import new_review_token, review_link
 
 __all__ = ["ServerConfigError", "background_server", "is_loopback", "run_server"]
 
@@ -61,9 +65,21 @@ def _url(host: str, sock: socket.socket) -> str:
     return f"http://{shown}:{port}/"
 
 
-def _uvicorn_server(settings: Settings, log_level: str) -> uvicorn.Server:
-    config = uvicorn.Config(create_app(settings), log_level=log_level, lifespan="on")
+def _uvicorn_server(
+    settings: Settings, log_level: str, review_token: str | None = None
+) -> uvicorn.Server:
+    app = create_app(settings)
+    if review_token is not None:
+        enable_review_sharing(app, review_token)
+    config = uvicorn.Config(app, log_level=log_level, lifespan="on")
     return uvicorn.Server(config)
+
+
+def _review_base_url(host: str, sock: socket.socket) -> str:
+    """The page URL to give reviewers: the machine's name when bound to every interface."""
+    if host.strip("[]") in ("0.0.0.0", "::", ""):
+        return f"http://{socket.gethostname()}:{sock.getsockname()[1]}/"
+    return _url(host, sock)
 
 
 def run_server(
@@ -88,8 +104,9 @@ def run_server(
     robot : str
         Robot the page opens with (bundled name or .toml/.urdf path).
     share : bool
-        Allow a non-loopback ``host``. Robot files are then not read from
-        paths sent by the page.
+        Allow a non-loopback ``host`` for a read-only review: a fresh review
+        token is made and the review link printed once. Robot files are then
+        not read from paths sent by the page.
     log_level : str
         uvicorn log level.
 
@@ -107,20 +124,27 @@ def run_server(
     if cell_path is not None and not Path(cell_path).is_file():
         raise ServerConfigError(f"cell: no such file {str(cell_path)!r}")
     settings = Settings(robot=robot, cell_path=cell_path, robot_paths_allowed=not share)
+    review_token = new_review_token() if share else None
     sock = _bind(host, port)
     print(f"posebridge is serving on {_url(host, sock)}  (Ctrl+C stops it)", flush=True)
-    if share:
-        print("sharing: anyone who can reach this address can use the dashboard", flush=True)
-    _uvicorn_server(settings, log_level).run(sockets=[sock])
+    if review_token is not None:
+        print(
+            "shared for a read-only review; give reviewers this link (shown only now, "
+            "a new one at every start):",
+            flush=True,
+        )
+        print(f"  {review_link(_review_base_url(host, sock), review_token)}", flush=True)
+    _uvicorn_server(settings, log_level, review_token).run(sockets=[sock])
 
 
 @contextmanager
 def background_server(
-    settings: Settings | None = None, *, host: str = "127.0.0.1"
+    settings: Settings | None = None, *, host: str = "127.0.0.1", review_token: str | None = None
 ) -> Iterator[str]:
     """Run the app on a free loopback port in a thread; yields its base URL (ending in ``/``).
 
     For tests and ``posebridge bench``. The server stops when the block ends.
+    With ``review_token`` the app is shared for review with that token.
 
     Raises
     ------
@@ -130,7 +154,7 @@ def background_server(
     if not is_loopback(host):
         raise ServerConfigError(f"host: background servers bind loopback only, got {host!r}")
     sock = _bind(host, 0)
-    server = _uvicorn_server(settings or Settings(), "warning")
+    server = _uvicorn_server(settings or Settings(), "warning", review_token)
     thread = threading.Thread(
         target=server.run, kwargs={"sockets": [sock]}, name="posebridge-server", daemon=True
     )
