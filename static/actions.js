@@ -10,8 +10,9 @@ import { branchOf } from "./branches.js";
 export function createActions({ store }) {
   const get = store.get;
 
-  function setTarget(target, { inputAt = performance.now() } = {}) {
-    store.update({ target, targetInputAt: inputAt }, { reason: "target" });
+  /** Move the target. reason "target" marks a user edit (saved into the cell); others are not saved. */
+  function setTarget(target, { inputAt = performance.now(), reason = "target" } = {}) {
+    store.update({ target, targetInputAt: inputAt }, { reason });
   }
 
   /** Move the target position by `steps` nudge steps along axis 0, 1 or 2 (x, y, z). */
@@ -55,6 +56,15 @@ export function createActions({ store }) {
     store.update({ mapJoints: pair });
   }
 
+  function setMap3Joints(triple) {
+    store.update({ map3Joints: triple });
+  }
+
+  /** Select a cell target or path waypoint; cellsync.js moves the target onto it. */
+  function select(selection) {
+    store.update({ selection }, { reason: "select" });
+  }
+
   function setStep({ stepMm = get().stepMm, stepDeg = get().stepDeg } = {}) {
     store.update({ stepMm, stepDeg });
   }
@@ -83,6 +93,8 @@ export function createActions({ store }) {
     selectSolution,
     targetFromTool,
     setMapJoints,
+    setMap3Joints,
+    select,
     setStep,
     setSnap,
     setFollow,

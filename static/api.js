@@ -17,15 +17,17 @@ export class ApiError extends Error {
  * @param {{baseUrl?: string}} options
  */
 export function createApiClient({ baseUrl = "" } = {}) {
-  async function request(path, { method = "GET", body = undefined, signal = undefined } = {}) {
+  async function request(path, { method = "GET", body = undefined, signal = undefined, ifMatch = undefined } = {}) {
+    const headers = {};
+    if (body !== undefined) {
+      headers["content-type"] = "application/json";
+    }
+    if (ifMatch !== undefined) {
+      headers["if-match"] = `"${ifMatch}"`;
+    }
     let response;
     try {
-      response = await fetch(baseUrl + path, {
-        method,
-        headers: body === undefined ? undefined : { "content-type": "application/json" },
-        body: body === undefined ? undefined : JSON.stringify(body),
-        signal,
-      });
+      response = await fetch(baseUrl + path, { method, headers, body: body === undefined ? undefined : JSON.stringify(body), signal });
     } catch (error) {
       if (error.name === "AbortError") {
         throw error;
@@ -54,6 +56,16 @@ export function createApiClient({ baseUrl = "" } = {}) {
     robotModel: (robot) => request(`/api/robots/model?robot=${encodeURIComponent(robot)}`),
     fk: (body, { signal } = {}) => request("/api/fk", { method: "POST", body, signal }),
     ik: (body, { signal } = {}) => request("/api/ik", { method: "POST", body, signal }),
+    readCell: () => request("/api/cell"),
+    replaceCell: (cell, etag) => request("/api/cell", { method: "PUT", body: cell, ifMatch: etag }),
+    moveTarget: (name, body, etag) =>
+      request(`/api/cell/targets/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
+    moveFixture: (name, body, etag) =>
+      request(`/api/cell/fixtures/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
+    moveBase: (body, etag) => request("/api/cell/base", { method: "PATCH", body, ifMatch: etag }),
+    startJointMap: (body) => request("/api/maps/joint", { method: "POST", body }),
+    readJob: (id, { signal } = {}) => request(`/api/jobs/${encodeURIComponent(id)}`, { signal }),
+    cancelJob: (id) => request(`/api/jobs/${encodeURIComponent(id)}/cancel`, { method: "POST" }),
   };
 }
 
@@ -134,4 +146,41 @@ export function createLatestChannel({ send, onResult, onError, minIntervalMs = 1
   }
 
   return { request, cancel };
+}
+
+/**
+ * Run a server job to its end: poll its progress every `pollMs`, report it,
+ * and resolve with the finished job (state done, failed or cancelled).
+ * `cancel()` of the returned handle asks the server to stop the job.
+ *
+ * @param {{api: object, start: () => Promise<object>, onProgress?: Function, pollMs?: number}} options
+ * @returns {{done: Promise<object>, cancel: () => void}}
+ */
+export function runJob({ api, start, onProgress = () => {}, pollMs = 150 }) {
+  let jobId = null;
+  let stopped = false;
+  const done = (async () => {
+    let job = await start();
+    jobId = job.id;
+    if (stopped) {
+      job = await api.cancelJob(jobId);
+    }
+    onProgress(job);
+    while (job.state === "queued" || job.state === "running") {
+      await new Promise((resolve) => setTimeout(resolve, pollMs));
+      job = await api.readJob(jobId);
+      onProgress(job);
+    }
+    return job;
+  })();
+  function cancel() {
+    if (stopped) {
+      return;
+    }
+    stopped = true;
+    if (jobId !== null) {
+      api.cancelJob(jobId).catch(() => {});
+    }
+  }
+  return { done, cancel };
 }

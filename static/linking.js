@@ -2,6 +2,8 @@
 // target edits ask for inverse kinematics, and the arm follows the target on
 // the selected branch. Requests go through latest-only channels (api.js), so
 // a drag sends at most one request per frame and stale answers are dropped.
+// While the page shows the cell, requests carry the cell's robot base and
+// tool, so every pose is a world pose.
 
 import { createLatestChannel } from "./api.js";
 import { branchOf, followSolution, nearestSolution } from "./branches.js";
@@ -24,6 +26,18 @@ function ikSummary(result) {
  * @param {{store: object, actions: object, api: object}} options
  * @returns {{loadRobot: (spec: string) => Promise<void>}}
  */
+/** The cell's base pose and tool for kinematics requests, when the page shows the cell. */
+export function cellFrames(state) {
+  if (!state.cellActive || !state.cell) {
+    return {};
+  }
+  const { base, tool } = state.cell.scene;
+  return {
+    base: { position_mm: base.position_mm, rpy_deg: base.rpy_deg },
+    tool: { position_mm: tool.position_mm, rpy_deg: tool.rpy_deg },
+  };
+}
+
 export function createLinking({ store, actions, api }) {
   let targetFromNextFk = false;
 
@@ -73,7 +87,7 @@ export function createLinking({ store, actions, api }) {
   store.subscribe(
     (state) => {
       if (state.robot && state.joints.length === state.robot.dof) {
-        fkChannel.request({ robot: state.robot.robot, joints_deg: state.joints });
+        fkChannel.request({ robot: state.robot.robot, joints_deg: state.joints, ...cellFrames(state) });
       }
     },
     { keys: ["joints"] },
@@ -82,35 +96,50 @@ export function createLinking({ store, actions, api }) {
   store.subscribe(
     (state) => {
       if (state.robot && state.target) {
-        const payload = { robot: state.robot.robot, pose: state.target, seed_deg: state.joints };
+        const payload = { robot: state.robot.robot, pose: state.target, seed_deg: state.joints, ...cellFrames(state) };
         ikChannel.request(payload, { inputAt: state.targetInputAt });
       }
     },
     { keys: ["target"] },
   );
 
-  async function loadRobot(spec) {
+  /**
+   * Load a robot. With `cellActive` the page shows the cell (its robot, base
+   * and tool) and `onLoaded` runs once the model is in the store (cellsync
+   * selects a target there); otherwise the robot stands alone at the world
+   * origin and the target starts on its home tool pose.
+   */
+  async function loadRobot(spec, { cellActive = false, onLoaded = null } = {}) {
     fkChannel.cancel();
     ikChannel.cancel();
     actions.setStatus("info", `Loading ${spec}…`);
     try {
       const robot = await api.robotModel(spec);
-      targetFromNextFk = true;
+      targetFromNextFk = onLoaded === null;
       const mapJoints = robot.dof >= 3 ? [1, 2] : [0, Math.min(1, robot.dof - 1)];
+      const map3Joints = robot.dof >= 3 ? [0, 1, 2] : null;
       store.update(
         {
           robot,
+          cellActive,
           fk: null,
           fkJoints: null,
           ik: null,
           target: null,
           selectedBranch: null,
           mapJoints,
+          map3Joints,
+          jointMap: null,
+          jointMap3: null,
+          pathCurve: null,
           joints: [...robot.home_joints],
         },
         { reason: "robot" },
       );
       actions.setStatus("info", `${robot.name}: ${robot.description}`);
+      if (onLoaded) {
+        onLoaded();
+      }
     } catch (error) {
       actions.setStatus("error", error.message);
     }

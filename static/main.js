@@ -2,12 +2,17 @@
 
 import { createApiClient } from "./api.js";
 import { createActions } from "./actions.js";
+import { createCellSync } from "./cellsync.js";
 import { createLinking } from "./linking.js";
+import { createMaps } from "./maps.js";
+import { createPathCurve } from "./pathcurve.js";
 import { readPalette } from "./palette.js";
 import { createStore, initialState } from "./state.js";
 import { createJointMapView } from "./views/jointmap.js";
+import { createJointSpaceView } from "./views/jointspace3d.js";
 import { createProjectionView } from "./views/projection.js";
 import { createSceneView } from "./views/scene3d.js";
+import { createCellPanel } from "./panels/cell.js";
 import { createHeader } from "./panels/header.js";
 import { createJointsPanel } from "./panels/joints.js";
 import { createMarginsPanel } from "./panels/margins.js";
@@ -21,14 +26,22 @@ async function start() {
   const api = createApiClient();
   const palette = readPalette();
   const linking = createLinking({ store, actions, api });
+  const cellSync = createCellSync({ store, actions, api, linking });
+  const maps = createMaps({ store, api, actions });
+  createPathCurve({ store, api });
   const byId = (id) => document.getElementById(id);
 
+  const showRobot = (spec) => {
+    const { cell } = store.get();
+    return cell && spec === cell.robot ? cellSync.loadCell() : linking.loadRobot(spec);
+  };
   createHeader({
     select: byId("robot-select"),
     status: byId("status"),
     store,
-    onRobotChosen: (spec) => linking.loadRobot(spec),
+    onRobotChosen: showRobot,
   });
+  createCellPanel({ container: byId("cell-panel"), store, actions, onShowCell: () => cellSync.loadCell() });
   createSceneView({ element: byId("scene3d"), store, palette });
   createProjectionView({
     element: byId("plan"),
@@ -57,6 +70,16 @@ async function start() {
     note: byId("map-note"),
     legend: byId("map-legend"),
     header: byId("map-pair"),
+    progress: byId("map-progress-row"),
+    store,
+    actions,
+    palette,
+    onCancelMap: () => maps.cancel("2d"),
+  });
+  createJointSpaceView({
+    element: byId("joint-space-3d"),
+    header: byId("map3-joints"),
+    note: byId("map3-note"),
     store,
     actions,
     palette,
@@ -71,7 +94,7 @@ async function start() {
   try {
     const library = await api.listRobots();
     store.update({ robots: library.robots });
-    await linking.loadRobot(document.body.dataset.defaultRobot || library.default_robot);
+    await cellSync.loadCell();
   } catch (error) {
     actions.setStatus("error", error.message);
   }

@@ -5,7 +5,15 @@ const NAMES = [
   "branch-1", "branch-2", "branch-3", "branch-4", "branch-5", "branch-6", "branch-7", "branch-8",
   "branch-singular", "axis-x", "axis-y", "axis-z", "robot", "robot-edge", "target", "tool",
   "limit-box", "ok", "warn", "bad", "ink", "ink-muted", "rule",
+  "region-1", "region-2", "region-3", "region-4", "region-5", "region-6", "region-7", "region-8",
 ];
+
+const REGION_COUNT = 8;
+
+/** Fill colour of the obstacle with index `index` in the cell's obstacle list (cycling). */
+export function regionColour(palette, index) {
+  return palette[`region-${(Math.max(0, index) % REGION_COUNT) + 1}`];
+}
 
 /** Map of palette names (without the "--pb-" prefix) to colour strings. */
 export function readPalette({ element = document.documentElement } = {}) {

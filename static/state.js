@@ -1,6 +1,7 @@
-// The single store of the page: the robot, the current joint values, the
-// target pose (the selected waypoint), the latest kinematics answers and the
-// view choices. Views read it and subscribe; edits go through actions.js.
+// The single store of the page: the cell, the robot, the current joint
+// values, the target pose (the selected target or waypoint), the latest
+// kinematics answers, the joint-space maps and the view choices. Views read it
+// and subscribe; edits go through actions.js.
 
 /**
  * State fields:
@@ -20,6 +21,16 @@
  *   stepDeg         nudge step for angles, deg
  *   snap            snap dragged positions to the step grid
  *   status          {level: "info" | "warn" | "error", message}
+ *   cell            the server's cell (GET /api/cell answer: etag, robot, cell, scene) or null
+ *   cellActive      the page shows the cell: its robot is loaded, poses are world poses
+ *   selection       {kind: "target", name, path?} | {kind: "waypoint", path, index} | null
+ *   cellSave        {state: "saved" | "unsaved" | "saving" | "conflict" | "error", message}
+ *   jointMap        finished two-joint map (JointMapResult) or null
+ *   jointMapJob     {state, done, total, detail} of the two-joint map being computed, or null
+ *   map3Joints      [i, j, k]: joints of the 3D joint-space view
+ *   jointMap3       finished three-joint map or null
+ *   jointMap3Job    like jointMapJob, for the three-joint map
+ *   pathCurve       {path, points: [joints...], branch} joint values along the selected path, or null
  */
 export function initialState() {
   return {
@@ -39,6 +50,16 @@ export function initialState() {
     stepDeg: 5,
     snap: false,
     status: { level: "info", message: "Loading…" },
+    cell: null,
+    cellActive: false,
+    selection: null,
+    cellSave: { state: "saved", message: "" },
+    jointMap: null,
+    jointMapJob: null,
+    map3Joints: [0, 1, 2],
+    jointMap3: null,
+    jointMap3Job: null,
+    pathCurve: null,
   };
 }
 

@@ -1,15 +1,24 @@
 // The joint map: a plane through joint space over two chosen joints, with the
-// joint-limit box, the current configuration and a marker for every inverse
-// kinematics solution of the target, styled by arm branch. Clicking or
-// dragging sets the two joints; clicking a marker takes that solution.
+// cell's obstacle regions (one colour per obstacle, self collision hatched
+// dark, clearance shaded grey), the joint-limit box, the current
+// configuration and a marker for every inverse kinematics solution of the
+// target, styled by arm branch. Clicking or dragging sets the two joints;
+// clicking a marker takes that solution.
+//
+// The regions are drawn in full only when a new map arrives; markers and the
+// current configuration are restyled in place, so a drag costs one small
+// update per answer.
+
+/* global Plotly */
 
 import { attachDrag, draw, layout2d, pointerFromData } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { branchHeading } from "../branches.js";
-import { branchStyle } from "../palette.js";
+import { branchStyle, regionColour } from "../palette.js";
 import { clamp, formatJoint } from "../units.js";
 
 const PICK_RADIUS_PX = 12;
+const CLEARANCE_SHADE_MM = 300;
 
 /** Branch words without the turn counts (turn variants share a legend entry). */
 export function branchWords(branch) {
@@ -17,10 +26,6 @@ export function branchWords(branch) {
     .split(", ")
     .filter((part) => !/ [+-]\d+ turns?$/.test(part))
     .join(", ");
-}
-
-function solutionValues(ik, index) {
-  return ik ? ik.result.solutions.map((solution) => solution.joints_deg[index]) : [];
 }
 
 function axisTitle(joint) {
@@ -35,15 +40,80 @@ function paddedRange(joint, values) {
   return [lower - pad, upper + pad];
 }
 
+function within(range, values) {
+  return values.every((value) => value >= range[0] && value <= range[1]);
+}
+
+/**
+ * A grid of a two-joint map as heatmap rows: z[row][col] with the first chosen
+ * joint along the columns (flat values are C order, first joint slowest).
+ */
+export function gridRows(map, flat, value) {
+  const [na, nb] = map.shape;
+  const rows = [];
+  for (let ib = 0; ib < nb; ib += 1) {
+    const row = new Array(na);
+    for (let ia = 0; ia < na; ia += 1) {
+      row[ia] = value(flat[ia * nb + ib]);
+    }
+    rows.push(row);
+  }
+  return rows;
+}
+
+/** Heatmap traces of a two-joint map: clearance shading, one region per obstacle, self collision. */
+export function regionTraces(map, palette) {
+  const [xs, ys] = map.axes_deg;
+  const base = { type: "heatmap", x: xs, y: ys, showscale: false, hoverinfo: "skip", zsmooth: false };
+  const traces = [];
+  if (map.clearance_mm) {
+    traces.push({
+      ...base,
+      name: "clearance",
+      z: gridRows(map, map.clearance_mm, (mm) => Math.max(0, Math.min(mm, CLEARANCE_SHADE_MM))),
+      zmin: 0,
+      zmax: CLEARANCE_SHADE_MM,
+      colorscale: [[0, "#c4ccd3"], [1, "rgba(251, 252, 253, 0)"]],
+    });
+  }
+  map.colliding_obstacles.forEach((name) => {
+    const index = map.obstacle_names.indexOf(name);
+    const colour = regionColour(palette, index);
+    traces.push({
+      ...base,
+      name,
+      z: gridRows(map, map.obstacle, (k) => (k === index ? 1 : null)),
+      colorscale: [[0, colour], [1, colour]],
+      opacity: 0.85,
+      meta: { role: "obstacle", obstacle: name },
+    });
+  });
+  if (map.self_collision.some(Boolean)) {
+    traces.push({
+      ...base,
+      name: "self collision",
+      z: gridRows(map, map.self_collision, (hit) => (hit ? 1 : null)),
+      colorscale: [[0, palette.ink], [1, palette.ink]],
+      opacity: 0.22,
+      meta: { role: "self" },
+    });
+  }
+  return traces;
+}
+
 /**
  * @param {{element: HTMLElement, note: HTMLElement, legend: HTMLElement, header: HTMLElement,
- *          store: object, actions: object, palette: object}} options
+ *          progress: HTMLElement, store: object, actions: object, palette: object, onCancelMap: Function}} options
  *   header: where the joint pair selectors go; note: the slice explanation;
- *   legend: the branch legend (HTML, so that it costs no plot redraw).
+ *   legend: the branch and region legend (HTML, so that it costs no plot redraw);
+ *   progress: where the map computation's progress and cancel button go.
  */
-export function createJointMapView({ element, note, legend, header, store, actions, palette }) {
+export function createJointMapView({ element, note, legend, header, progress, store, actions, palette, onCancelMap }) {
   let lastRenderedIk = null;
   let legendKey = null;
+  let baseKey = null;
+  let dynamicStart = 0;
+  let ranges = null;
   const selectors = [0, 1].map((slot) => {
     const label = document.createElement("label");
     label.className = "pb-hint";
@@ -63,6 +133,19 @@ export function createJointMapView({ element, note, legend, header, store, actio
     return select;
   });
 
+  const bar = document.createElement("progress");
+  bar.max = 1;
+  bar.value = 0;
+  bar.id = "map-progress";
+  const barText = document.createElement("span");
+  barText.className = "pb-hint";
+  const cancel = document.createElement("button");
+  cancel.type = "button";
+  cancel.textContent = "Cancel";
+  cancel.id = "map-cancel";
+  cancel.addEventListener("click", () => onCancelMap());
+  progress.append(bar, barText, cancel);
+
   function updateSelectors({ robot, mapJoints }) {
     selectors.forEach((select, slot) => {
       const names = robot.joints.map((joint) => joint.name).join(",");
@@ -76,87 +159,81 @@ export function createJointMapView({ element, note, legend, header, store, actio
     });
   }
 
-  function solutionGroups(ik) {
-    const groups = new Map();
-    ik.result.solutions.forEach((solution, index) => {
-      const style = branchStyle(palette, solution);
-      const words = branchWords(solution.branch) || "single branch";
-      const key = `${style.key}|${words}`;
-      if (!groups.has(key)) {
-        groups.set(key, { style, words, points: [] });
-      }
-      groups.get(key).points.push({ solution, index });
-    });
-    return [...groups.values()];
+  function currentMap({ jointMap, mapJoints, cellActive }) {
+    if (!cellActive || !jointMap || jointMap.joints[0] !== mapJoints[0] || jointMap.joints[1] !== mapJoints[1]) {
+      return null;
+    }
+    return jointMap;
   }
 
-  function solutionTraces({ ik, mapJoints, selectedBranch, joints }, groups) {
+  /** The moving traces: solution markers, selected-solution ring, current configuration, crosshair. */
+  function dynamicTraces({ ik, mapJoints, selectedBranch, joints, robot }) {
     const [a, b] = mapJoints;
-    const traces = groups.map(({ style, words, points }) => ({
-      type: "scatter",
-      mode: "markers",
-      name: words,
-      legendgroup: words,
-      x: points.map((p) => p.solution.joints_deg[a]),
-      y: points.map((p) => p.solution.joints_deg[b]),
-      customdata: points.map((p) => p.index),
-      marker: {
-        size: 14,
-        color: style.color,
-        symbol: points.map((p) => (p.solution.within_limits ? style.symbol : `${style.symbol}-open`)),
-        line: { color: "#ffffff", width: 1 },
-      },
-      meta: { role: "ik-solutions" },
-    }));
-    const selected = ik.result.solutions.find(
+    const solutions = ik ? ik.result.solutions : [];
+    const styles = solutions.map((solution) => branchStyle(palette, solution));
+    const selected = solutions.find(
       (s) => selectedBranch !== null && s.branch === selectedBranch.label && s.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6),
     );
-    if (selected) {
-      traces.push({
+    const [ja, jb] = [robot.joints[a], robot.joints[b]];
+    return [
+      {
+        type: "scatter",
+        mode: "markers",
+        name: "solutions",
+        x: solutions.map((s) => s.joints_deg[a]),
+        y: solutions.map((s) => s.joints_deg[b]),
+        customdata: solutions.map((_, index) => index),
+        marker: {
+          size: 14,
+          color: styles.map((style) => style.color),
+          symbol: solutions.map((s, k) => (s.within_limits ? styles[k].symbol : `${styles[k].symbol}-open`)),
+          line: { color: "#ffffff", width: 1 },
+        },
+        meta: { role: "ik-solutions" },
+      },
+      {
         type: "scatter",
         mode: "markers",
         name: "selected solution",
-        x: [selected.joints_deg[a]],
-        y: [selected.joints_deg[b]],
+        x: selected ? [selected.joints_deg[a]] : [],
+        y: selected ? [selected.joints_deg[b]] : [],
         marker: { size: 24, symbol: "circle-open", color: palette.ink, line: { width: 2 } },
-        showlegend: false,
         hoverinfo: "skip",
-      });
-    }
-    return traces;
+      },
+      {
+        type: "scatter",
+        mode: "lines",
+        name: "crosshair",
+        x: [joints[a], joints[a], null, ja.lower - 1e4, ja.upper + 1e4],
+        y: [jb.lower - 1e4, jb.upper + 1e4, null, joints[b], joints[b]],
+        line: { color: palette.ink, width: 0.6, dash: "dot" },
+        hoverinfo: "skip",
+      },
+      {
+        type: "scatter",
+        mode: "markers",
+        name: "current configuration",
+        x: [joints[a]],
+        y: [joints[b]],
+        marker: { size: 16, symbol: "cross-thin-open", color: palette.ink, line: { width: 2.5 } },
+        meta: { role: "current" },
+      },
+    ];
   }
 
-  function render() {
-    const state = store.get();
-    const { robot, joints, ik, mapJoints } = state;
-    if (!robot || joints.length !== robot.dof) {
-      return;
-    }
-    updateSelectors(state);
+  function fullRender(state, dynamic) {
+    const { robot, mapJoints } = state;
     const [a, b] = mapJoints;
     const [ja, jb] = [robot.joints[a], robot.joints[b]];
-    const data = [];
-    const groups = ik ? solutionGroups(ik) : [];
-    if (groups.length > 0) {
-      data.push(...solutionTraces(state, groups));
-    }
-    renderLegend(groups, ik ? ik.result.solutions : []);
-    data.push({
-      type: "scatter",
-      mode: "markers",
-      name: "current configuration",
-      x: [joints[a]],
-      y: [joints[b]],
-      marker: { size: 16, symbol: "cross-thin-open", color: palette.ink, line: { width: 2.5 } },
-      showlegend: false,
-    });
-    const layout = layout2d({
-      xTitle: axisTitle(ja),
-      yTitle: axisTitle(jb),
-      xRange: paddedRange(ja, solutionValues(ik, a)),
-      yRange: paddedRange(jb, solutionValues(ik, b)),
-      palette,
-    });
+    const map = currentMap(state);
+    const data = map ? regionTraces(map, palette) : [];
+    dynamicStart = data.length;
+    data.push(...dynamic);
+    ranges = {
+      x: paddedRange(ja, dynamic[0].x),
+      y: paddedRange(jb, dynamic[0].y),
+    };
+    const layout = layout2d({ xTitle: axisTitle(ja), yTitle: axisTitle(jb), xRange: ranges.x, yRange: ranges.y, palette });
     layout.shapes = [
       {
         type: "rect",
@@ -167,30 +244,7 @@ export function createJointMapView({ element, note, legend, header, store, actio
         y0: jb.lower,
         y1: jb.upper,
         line: { color: palette["limit-box"], width: 1.5, dash: "dash" },
-        fillcolor: "rgba(0, 114, 178, 0.04)",
-        layer: "below",
-      },
-      {
-        type: "line",
-        xref: "x",
-        yref: "paper",
-        x0: joints[a],
-        x1: joints[a],
-        y0: 0,
-        y1: 1,
-        line: { color: palette.ink, width: 0.6, dash: "dot" },
-        layer: "below",
-      },
-      {
-        type: "line",
-        xref: "paper",
-        yref: "y",
-        x0: 0,
-        x1: 1,
-        y0: joints[b],
-        y1: joints[b],
-        line: { color: palette.ink, width: 0.6, dash: "dot" },
-        layer: "below",
+        layer: "above",
       },
     ];
     layout.annotations = [
@@ -207,40 +261,80 @@ export function createJointMapView({ element, note, legend, header, store, actio
       },
     ];
     layout.uirevision = `${robot.robot}|${a}|${b}`;
-    draw(element, data, layout);
-    note.textContent = sliceNote(state);
+    return draw(element, data, layout);
+  }
+
+  function render() {
+    const state = store.get();
+    const { robot, joints, ik, mapJoints } = state;
+    if (!robot || joints.length !== robot.dof) {
+      return;
+    }
+    updateSelectors(state);
+    const dynamic = dynamicTraces(state);
+    const map = currentMap(state);
+    const key = `${robot.robot}|${mapJoints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}` : "no map"}`;
+    let drawn;
+    if (key !== baseKey || !element.data || !ranges || !within(ranges.x, dynamic[0].x) || !within(ranges.y, dynamic[0].y)) {
+      baseKey = key;
+      drawn = fullRender(state, dynamic);
+    } else {
+      const update = {
+        x: dynamic.map((trace) => trace.x),
+        y: dynamic.map((trace) => trace.y),
+        customdata: dynamic.map((trace) => trace.customdata),
+        "marker.color": dynamic.map((trace, k) => (k === 0 ? trace.marker.color : undefined)),
+        "marker.symbol": dynamic.map((trace, k) => (k === 0 ? trace.marker.symbol : undefined)),
+      };
+      drawn = Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
+    }
+    renderLegend(ik ? ik.result.solutions : [], map);
+    note.textContent = sliceNote(state, map);
     if (ik && ik !== lastRenderedIk) {
       lastRenderedIk = ik;
-      const renderedAt = performance.now();
-      element.dispatchEvent(
-        new CustomEvent("posebridge:ik-rendered", {
-          bubbles: true,
-          detail: {
-            inputAt: ik.inputAt,
-            renderedAt,
-            elapsedMs: renderedAt - ik.inputAt,
-            target: ik.target,
-            solutionCount: ik.result.solutions.length,
-          },
-        }),
-      );
+      drawn.then(() => {
+        const renderedAt = performance.now();
+        element.dispatchEvent(
+          new CustomEvent("posebridge:ik-rendered", {
+            bubbles: true,
+            detail: {
+              inputAt: ik.inputAt,
+              renderedAt,
+              elapsedMs: renderedAt - ik.inputAt,
+              target: ik.target,
+              solutionCount: ik.result.solutions.length,
+            },
+          }),
+        );
+      });
     }
   }
 
-  function renderLegend(groups, solutions) {
-    const heading = groups.length ? `${branchHeading(solutions)}:` : "No solution for the target";
-    const key = heading + groups.map((group) => `${group.style.key}|${group.words}`).join(";");
+  function renderLegend(solutions, map) {
+    const groups = new Map();
+    for (const solution of solutions) {
+      const style = branchStyle(palette, solution);
+      const words = branchWords(solution.branch) || "single branch";
+      groups.set(`${style.key}|${words}`, { style, words });
+    }
+    const heading = groups.size ? `${branchHeading(solutions)}:` : "No solution for the target";
+    const regions = map ? map.colliding_obstacles : [];
+    const selfHit = map ? map.self_collision.some(Boolean) : false;
+    const key = heading + [...groups.keys()].join(";") + regions.join(";") + selfHit;
     if (key === legendKey) {
       return;
     }
     legendKey = key;
-    const entries = groups.map(({ style, words }) => {
+    const swatch = (text, colour, className = "pb-swatch") => {
       const glyph = document.createElement("span");
-      glyph.className = "pb-swatch";
-      glyph.textContent = style.glyph;
-      glyph.style.color = style.color;
+      glyph.className = className;
+      glyph.textContent = text;
+      glyph.style.color = colour;
+      return glyph;
+    };
+    const entries = [...groups.values()].map(({ style, words }) => {
       const entry = document.createElement("span");
-      entry.append(glyph, ` ${words}`);
+      entry.append(swatch(style.glyph, style.color), ` ${words}`);
       return entry;
     });
     const title = document.createElement("span");
@@ -248,24 +342,56 @@ export function createJointMapView({ element, note, legend, header, store, actio
     title.textContent = heading;
     const current = document.createElement("span");
     current.textContent = "✛ current configuration";
-    legend.replaceChildren(title, ...entries, current);
+    const regionEntries = regions.map((name) => {
+      const entry = document.createElement("span");
+      entry.className = "pb-region";
+      entry.append(swatch("■", regionColour(palette, map.obstacle_names.indexOf(name))), ` ${name}`);
+      return entry;
+    });
+    if (selfHit) {
+      const entry = document.createElement("span");
+      entry.append(swatch("■", "rgba(29, 39, 48, 0.45)"), " self collision");
+      regionEntries.push(entry);
+    }
+    const regionTitle = document.createElement("span");
+    regionTitle.className = "pb-legend-title";
+    regionTitle.textContent = regions.length || selfHit ? "In collision with:" : map ? "No collision on this slice" : "";
+    legend.replaceChildren(title, ...entries, current, regionTitle, ...regionEntries);
   }
 
-  function sliceNote({ robot, joints, mapJoints }) {
+  function sliceNote({ robot, joints, mapJoints, cellActive }, map) {
     const others = robot.joints
       .map((joint, index) => ({ joint, index }))
       .filter(({ index }) => !mapJoints.includes(index))
       .map(({ joint, index }) => `${joint.name} ${formatJoint(joints[index], joint.unit)}`);
     const held = others.length ? ` with ${others.join(", ")} held` : "";
+    const regions = !cellActive
+      ? " Obstacle regions are shown for the cell's robot."
+      : map
+        ? " Coloured cells collide with the named object; grey shading darkens as the clearance falls below 300 mm."
+        : " Obstacle regions are being computed.";
     return (
       `A slice through the current configuration${held}. ` +
       "Solution markers sit at each solution's own values of the two mapped joints; " +
-      "their other joints differ from the slice. Open markers are outside the joint limits."
+      "their other joints differ from the slice, so a marker inside a region may still be free. " +
+      `Open markers are outside the joint limits.${regions}`
     );
   }
 
+  function renderProgress() {
+    const job = store.get().jointMapJob;
+    const busy = job && (job.state === "queued" || job.state === "running");
+    progress.hidden = !busy;
+    if (busy) {
+      bar.value = job.total ? job.done / job.total : 0;
+      barText.textContent = job.total ? `Computing the map: ${job.done} of ${job.total} parts` : "Computing the map…";
+    }
+  }
+
   const requestRender = frameScheduler({ render });
-  store.subscribe(requestRender, { keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch"] });
+  store.subscribe(requestRender, { keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive"] });
+  store.subscribe(renderProgress, { keys: ["jointMapJob"] });
+  renderProgress();
 
   function pickSolution(event) {
     const { ik, mapJoints } = store.get();

@@ -3,10 +3,16 @@
 // stadium outlines; the target can be dragged, typed (target panel) or nudged
 // with the keyboard. The target is drawn on an SVG layer above the plot, so
 // moving it costs no plot redraw; the arm is redrawn at most every
-// ARM_REDRAW_MS while it follows a drag.
+// ARM_REDRAW_MS while it follows a drag, by restyling its own traces only.
+// The cell's solids are drawn as outlines (keep-out zones dashed), the other
+// targets as small markers (click one to select it) and paths as polylines.
+
+/* global Plotly */
 
 import { attachDrag, draw, layout2d, pointerFromData } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
+import { projectedOutline } from "./shapes.js";
+import { viewBounds } from "./scene3d.js";
 import { matrixFromRpyDeg, column } from "../rotation.js";
 import { snapToStep } from "../units.js";
 
@@ -67,14 +73,55 @@ export function createProjectionView({
   const third = [0, 1, 2].find((k) => k !== h && k !== v);
   let dragging = false;
 
-  function ranges(robot) {
-    const [low, high] = robot.bounds_mm;
+  function ranges(state) {
+    const [low, high] = viewBounds(state);
     const pad = 0.12 * Math.max(high[0] - low[0], high[1] - low[1], high[2] - low[2], 200);
     return { x: paddedRange(low[h], high[h], pad), y: paddedRange(low[v], high[v], pad) };
   }
 
+  function cellTraces(scene) {
+    const traces = [];
+    const styles = {
+      fixture: { fill: "toself", fillcolor: "rgba(200, 191, 174, 0.45)", line: { color: "#8a7f6c", width: 1 } },
+      pedestal: { fill: "toself", fillcolor: "rgba(74, 93, 107, 0.35)", line: { color: palette["robot-edge"], width: 1 } },
+      keep_out: { fill: "toself", fillcolor: "rgba(213, 94, 0, 0.06)", line: { color: palette.bad, width: 1, dash: "dash" } },
+    };
+    for (const role of ["keep_out", "fixture", "pedestal"]) {
+      const xs = [];
+      const ys = [];
+      for (const shape of scene.shapes.filter((s) => s.role === role)) {
+        const outline = projectedOutline(shape, h, v);
+        xs.push(...outline.xs, null);
+        ys.push(...outline.ys, null);
+      }
+      if (xs.length) {
+        traces.push({ name: role, x: xs, y: ys, mode: "lines", connectgaps: false, hoverinfo: "skip", ...styles[role] });
+      }
+    }
+    for (const path of scene.paths) {
+      traces.push({
+        name: `path ${path.name}`,
+        x: path.waypoints.map((w) => w.position_mm[h]),
+        y: path.waypoints.map((w) => w.position_mm[v]),
+        mode: "lines",
+        line: { color: palette["ink-muted"], width: 1, dash: "dot" },
+        hoverinfo: "skip",
+      });
+    }
+    traces.push({
+      name: "cell targets",
+      x: scene.targets.map((target) => target.position_mm[h]),
+      y: scene.targets.map((target) => target.position_mm[v]),
+      mode: "markers",
+      marker: { size: 7, symbol: "diamond-open", color: palette.target, line: { width: 1.5 } },
+      meta: { role: "cell-targets" },
+    });
+    return traces;
+  }
+
   function robotTraces(fk) {
-    const order = fk.capsule_segments_mm
+    const segments = fk ? fk.capsule_segments_mm : [];
+    const order = segments
       .map((segment, index) => ({
         index,
         depth: (viewerSide * (segment[0][depthAxis] + segment[1][depthAxis])) / 2,
@@ -88,7 +135,8 @@ export function createProjectionView({
       xs.push(...outline.xs, null);
       ys.push(...outline.ys, null);
     }
-    const frames = fk.frames_position_mm;
+    const frames = fk ? fk.frames_position_mm : [];
+    const tcp = fk ? [fk.position_mm] : [];
     return [
       {
         name: "arm",
@@ -110,8 +158,8 @@ export function createProjectionView({
       },
       {
         name: "TCP",
-        x: [fk.position_mm[h]],
-        y: [fk.position_mm[v]],
+        x: tcp.map((p) => p[h]),
+        y: tcp.map((p) => p[v]),
         mode: "markers",
         marker: { size: 9, symbol: "circle-open", color: palette.tool, line: { width: 2 } },
       },
@@ -150,16 +198,27 @@ export function createProjectionView({
     approach.setAttribute("y2", (tip.clientY - box.top).toFixed(1));
   }
 
+  let staticKey = null;
+  let armStart = 0;
+
   function render() {
-    const { robot, fk } = store.get();
+    const state = store.get();
+    const { robot, fk, cell, cellActive } = state;
     if (!robot) {
       return;
     }
-    const range = ranges(robot);
-    const data = [];
-    if (fk && fk.capsules) {
-      data.push(...robotTraces(fk));
+    const arm = robotTraces(fk && fk.capsules ? fk : null);
+    const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}`;
+    if (key === staticKey && element.data) {
+      const update = { x: arm.map((trace) => trace.x), y: arm.map((trace) => trace.y) };
+      Plotly.restyle(element, update, arm.map((_, k) => armStart + k)).then(placeTarget);
+      return;
     }
+    staticKey = key;
+    const range = ranges(state);
+    const data = cellActive && cell ? cellTraces(cell.scene) : [];
+    armStart = data.length;
+    data.push(...arm);
     const layout = layout2d({
       xTitle: `${AXIS_NAMES[h]} (mm)`,
       yTitle: `${AXIS_NAMES[v]} (mm)`,
@@ -168,12 +227,12 @@ export function createProjectionView({
       equalAspect: true,
       palette,
     });
-    layout.uirevision = robot.robot;
+    layout.uirevision = `${robot.robot}|${cellActive}`;
     draw(element, data, layout).then(placeTarget);
   }
 
   const requestRender = frameScheduler({ render, minIntervalMs: ARM_REDRAW_MS });
-  store.subscribe(requestRender, { keys: ["robot", "fk"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive"] });
   store.subscribe(placeTarget, { keys: ["target"] });
   new ResizeObserver(placeTarget).observe(element);
 
@@ -189,9 +248,21 @@ export function createProjectionView({
     figure: element,
     onDragging: (active) => actions.setDragging(active),
     onPress: (point, event) => {
-      const { target } = store.get();
+      const { target, cell, cellActive } = store.get();
       if (!target) {
         return false;
+      }
+      if (cellActive && cell) {
+        const hit = cell.scene.targets.find((other) => {
+          const at = pointerFromData(element, other.position_mm[h], other.position_mm[v]);
+          return Math.hypot(at.clientX - event.clientX, at.clientY - event.clientY) <= 6;
+        });
+        const grabbed = pointerFromData(element, target.position_mm[h], target.position_mm[v]);
+        const onSelected = Math.hypot(grabbed.clientX - event.clientX, grabbed.clientY - event.clientY) <= 6;
+        if (hit && !onSelected) {
+          actions.select({ kind: "target", name: hit.name });
+          return false;
+        }
       }
       const marker = pointerFromData(element, target.position_mm[h], target.position_mm[v]);
       const near =

@@ -1,8 +1,14 @@
-// The 3D cell view: the arm as capsule meshes, its kinematic chain, the tool
-// (TCP) and target triads, the base frame and the floor.
+// The 3D cell view: the cell's fixtures, keep-out zones (translucent) and
+// pedestal, its targets as small triads and its paths as polylines, the arm as
+// capsule meshes with its kinematic chain, the tool (TCP) and target triads,
+// the base frame and the floor. The cell is drawn in full only when it
+// changes; arm and target moves restyle their own traces.
+
+/* global Plotly */
 
 import { draw } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
+import { appendShapeMesh, sceneBounds } from "./shapes.js";
 import { column, matrixFromQuaternion, matrixFromRpyDeg } from "../rotation.js";
 
 const RING_STEPS = 14;
@@ -73,7 +79,7 @@ export function appendCapsuleMesh(mesh, start, end, radius) {
   }
 }
 
-function triadTraces({ origin, rotation, name, palette, dash = "solid", width = 5 }) {
+function triadTraces({ origin, rotation, name, palette, dash = "solid", width = 5, length = TRIAD_LENGTH_MM }) {
   const colours = [palette["axis-x"], palette["axis-y"], palette["axis-z"]];
   return colours.map((colour, k) => {
     const axis = column(rotation, k);
@@ -81,9 +87,9 @@ function triadTraces({ origin, rotation, name, palette, dash = "solid", width = 
       type: "scatter3d",
       mode: "lines",
       name: `${name} ${"xyz"[k]}`,
-      x: [origin[0], origin[0] + TRIAD_LENGTH_MM * axis[0]],
-      y: [origin[1], origin[1] + TRIAD_LENGTH_MM * axis[1]],
-      z: [origin[2], origin[2] + TRIAD_LENGTH_MM * axis[2]],
+      x: [origin[0], origin[0] + length * axis[0]],
+      y: [origin[1], origin[1] + length * axis[1]],
+      z: [origin[2], origin[2] + length * axis[2]],
       line: { color: colour, width, dash },
       hoverinfo: "skip",
       showlegend: false,
@@ -98,18 +104,101 @@ function cubeRanges(bounds) {
   return centre.map((c) => [c - half, c + half]);
 }
 
+/** Bounds of the robot (its base-frame bounds moved to the cell's base) and the cell. */
+export function viewBounds({ robot, cell, cellActive }) {
+  if (!cellActive || !cell) {
+    return robot.bounds_mm;
+  }
+  const offset = cell.scene.base.position_mm;
+  const [low, high] = robot.bounds_mm.map((corner) => corner.map((v, k) => v + offset[k]));
+  const scene = sceneBounds(cell.scene);
+  if (!scene) {
+    return [low, high];
+  }
+  return [low.map((v, k) => Math.min(v, scene[0][k])), high.map((v, k) => Math.max(v, scene[1][k]))];
+}
+
+function meshTrace(name, shapes, style) {
+  const mesh = { x: [], y: [], z: [], i: [], j: [], k: [] };
+  shapes.forEach((shape) => appendShapeMesh(mesh, shape));
+  return { type: "mesh3d", name, ...mesh, flatshading: true, hoverinfo: "skip", showlegend: false, ...style };
+}
+
+/** Small triads of every target, one trace per axis colour (segments split by nulls). */
+function targetTriads(targets, palette) {
+  const colours = [palette["axis-x"], palette["axis-y"], palette["axis-z"]];
+  return colours.map((colour, k) => {
+    const xs = [];
+    const ys = [];
+    const zs = [];
+    for (const target of targets) {
+      const axis = column(matrixFromRpyDeg(target.rpy_deg), k);
+      const o = target.position_mm;
+      xs.push(o[0], o[0] + 50 * axis[0], null);
+      ys.push(o[1], o[1] + 50 * axis[1], null);
+      zs.push(o[2], o[2] + 50 * axis[2], null);
+    }
+    return { type: "scatter3d", mode: "lines", name: `targets ${"xyz"[k]}`, x: xs, y: ys, z: zs, line: { color: colour, width: 3 }, hoverinfo: "skip", showlegend: false };
+  });
+}
+
+function cellTraces(scene, palette) {
+  const traces = [];
+  const fixtures = scene.shapes.filter((s) => s.role === "fixture");
+  const keepOuts = scene.shapes.filter((s) => s.role === "keep_out");
+  const pedestal = scene.shapes.filter((s) => s.role === "pedestal");
+  if (fixtures.length) {
+    traces.push(meshTrace("fixtures", fixtures, { color: "#c8bfae", opacity: 1, lighting: { ambient: 0.6, diffuse: 0.6 } }));
+  }
+  if (pedestal.length) {
+    traces.push(meshTrace("pedestal", pedestal, { color: palette["robot-edge"], opacity: 1 }));
+  }
+  if (keepOuts.length) {
+    traces.push(meshTrace("keep-out zones", keepOuts, { color: palette.bad, opacity: 0.12 }));
+  }
+  if (scene.targets.length) {
+    traces.push(...targetTriads(scene.targets, palette), {
+      type: "scatter3d",
+      mode: "markers",
+      name: "cell targets",
+      x: scene.targets.map((t) => t.position_mm[0]),
+      y: scene.targets.map((t) => t.position_mm[1]),
+      z: scene.targets.map((t) => t.position_mm[2]),
+      text: scene.targets.map((t) => t.name),
+      marker: { size: 3, color: palette.target },
+      hovertemplate: "%{text}<extra></extra>",
+      showlegend: false,
+    });
+  }
+  for (const path of scene.paths) {
+    traces.push({
+      type: "scatter3d",
+      mode: "lines",
+      name: `path ${path.name}`,
+      x: path.waypoints.map((w) => w.position_mm[0]),
+      y: path.waypoints.map((w) => w.position_mm[1]),
+      z: path.waypoints.map((w) => w.position_mm[2]),
+      line: { color: palette["ink-muted"], width: 2, dash: "dash" },
+      hoverinfo: "skip",
+      showlegend: false,
+    });
+  }
+  return traces;
+}
+
 /**
  * @param {{element: HTMLElement, store: object, palette: object}} options
  */
 export function createSceneView({ element, store, palette }) {
-  function render() {
-    const { robot, fk, target } = store.get();
-    if (!robot) {
-      return;
-    }
-    const range = cubeRanges(robot.bounds_mm);
-    const floorZ = Math.min(0, robot.bounds_mm[0][2]);
+  let staticKey = null;
+  let dynamicStart = 0;
+
+  function staticTraces(state) {
+    const { robot, cell, cellActive } = state;
+    const range = cubeRanges(viewBounds(state));
+    const floorZ = cellActive && cell ? cell.scene.floor_height_mm : Math.min(0, robot.bounds_mm[0][2]);
     const [fx, fy] = [range[0], range[1]];
+    const base = cellActive && cell ? cell.scene.base : { position_mm: [0, 0, 0], rpy_deg: [0, 0, 0] };
     const data = [
       {
         type: "mesh3d",
@@ -125,76 +214,81 @@ export function createSceneView({ element, store, palette }) {
         hoverinfo: "skip",
         showlegend: false,
       },
-      ...triadTraces({ origin: [0, 0, 0], rotation: matrixFromRpyDeg([0, 0, 0]), name: "base", palette, width: 3 }),
+      ...triadTraces({ origin: base.position_mm, rotation: matrixFromRpyDeg(base.rpy_deg), name: "base", palette, width: 3 }),
     ];
+    if (cellActive && cell) {
+      data.push(...cellTraces(cell.scene, palette));
+    }
+    return { data, range };
+  }
+
+  /** The traces that move: arm, chain, TCP and its triad, target and its triad (fixed count). */
+  function dynamicTraces({ fk, target }) {
+    const hidden = { x: [], y: [], z: [] };
+    const arm = { x: [], y: [], z: [], i: [], j: [], k: [] };
     if (fk && fk.capsules) {
-      const mesh = { x: [], y: [], z: [], i: [], j: [], k: [] };
-      fk.capsule_segments_mm.forEach(([start, end], index) =>
-        appendCapsuleMesh(mesh, start, end, fk.capsules[index].radius_mm),
-      );
-      const frames = fk.frames_position_mm;
-      data.push(
-        {
-          type: "mesh3d",
-          name: "arm",
-          ...mesh,
-          color: palette.robot,
-          opacity: 1,
-          flatshading: false,
-          lighting: { ambient: 0.55, diffuse: 0.7, specular: 0.15, roughness: 0.6 },
-          lightposition: { x: 2000, y: -3000, z: 5000 },
-          hoverinfo: "skip",
-          showlegend: false,
-        },
-        {
-          type: "scatter3d",
-          mode: "lines+markers",
-          name: "chain",
-          x: frames.map((p) => p[0]),
-          y: frames.map((p) => p[1]),
-          z: frames.map((p) => p[2]),
-          line: { color: palette.ink, width: 3 },
-          marker: { size: 2.5, color: palette.ink },
-          hoverinfo: "skip",
-          showlegend: false,
-        },
-        {
-          type: "scatter3d",
-          mode: "markers",
-          name: "TCP",
-          x: [fk.position_mm[0]],
-          y: [fk.position_mm[1]],
-          z: [fk.position_mm[2]],
-          marker: { size: 4, color: palette.tool },
-          hovertemplate: "TCP<br>x %{x:.1f} mm<br>y %{y:.1f} mm<br>z %{z:.1f} mm<extra></extra>",
-          showlegend: false,
-        },
-        ...triadTraces({ origin: fk.position_mm, rotation: matrixFromQuaternion(fk.quaternion_wxyz), name: "TCP", palette }),
-      );
+      fk.capsule_segments_mm.forEach(([start, end], index) => appendCapsuleMesh(arm, start, end, fk.capsules[index].radius_mm));
     }
-    if (target) {
-      data.push(
-        {
-          type: "scatter3d",
-          mode: "markers",
-          name: "target",
-          x: [target.position_mm[0]],
-          y: [target.position_mm[1]],
-          z: [target.position_mm[2]],
-          marker: { size: 6, symbol: "diamond", color: palette.target },
-          hovertemplate: "target<br>x %{x:.1f} mm<br>y %{y:.1f} mm<br>z %{z:.1f} mm<extra></extra>",
-          showlegend: false,
-        },
-        ...triadTraces({
-          origin: target.position_mm,
-          rotation: matrixFromRpyDeg(target.rpy_deg),
-          name: "target",
-          palette,
-          dash: "dash",
-          width: 3,
-        }),
-      );
-    }
+    const frames = fk ? fk.frames_position_mm : [];
+    const tcp = fk ? fk.position_mm : null;
+    return [
+      {
+        type: "mesh3d",
+        name: "arm",
+        ...arm,
+        color: palette.robot,
+        opacity: 1,
+        flatshading: false,
+        lighting: { ambient: 0.55, diffuse: 0.7, specular: 0.15, roughness: 0.6 },
+        lightposition: { x: 2000, y: -3000, z: 5000 },
+        hoverinfo: "skip",
+        showlegend: false,
+      },
+      {
+        type: "scatter3d",
+        mode: "lines+markers",
+        name: "chain",
+        x: frames.map((p) => p[0]),
+        y: frames.map((p) => p[1]),
+        z: frames.map((p) => p[2]),
+        line: { color: palette.ink, width: 3 },
+        marker: { size: 2.5, color: palette.ink },
+        hoverinfo: "skip",
+        showlegend: false,
+      },
+      {
+        type: "scatter3d",
+        mode: "markers",
+        name: "TCP",
+        ...(tcp ? { x: [tcp[0]], y: [tcp[1]], z: [tcp[2]] } : hidden),
+        marker: { size: 4, color: palette.tool },
+        hovertemplate: "TCP<br>x %{x:.1f} mm<br>y %{y:.1f} mm<br>z %{z:.1f} mm<extra></extra>",
+        showlegend: false,
+      },
+      ...(fk
+        ? triadTraces({ origin: fk.position_mm, rotation: matrixFromQuaternion(fk.quaternion_wxyz), name: "TCP", palette })
+        : triadTraces({ origin: [0, 0, 0], rotation: matrixFromRpyDeg([0, 0, 0]), name: "TCP", palette }).map((trace) => ({ ...trace, ...hidden }))),
+      {
+        type: "scatter3d",
+        mode: "markers",
+        name: "target",
+        ...(target ? { x: [target.position_mm[0]], y: [target.position_mm[1]], z: [target.position_mm[2]] } : hidden),
+        marker: { size: 6, symbol: "diamond", color: palette.target },
+        hovertemplate: "target<br>x %{x:.1f} mm<br>y %{y:.1f} mm<br>z %{z:.1f} mm<extra></extra>",
+        showlegend: false,
+      },
+      ...triadTraces({
+        origin: target ? target.position_mm : [0, 0, 0],
+        rotation: matrixFromRpyDeg(target ? target.rpy_deg : [0, 0, 0]),
+        name: "target",
+        palette,
+        dash: "dash",
+        width: 3,
+      }).map((trace) => (target ? trace : { ...trace, ...hidden })),
+    ];
+  }
+
+  function layoutFor(state, range) {
     const axis = (title, r) => ({
       title: { text: title },
       range: r,
@@ -203,28 +297,51 @@ export function createSceneView({ element, store, palette }) {
       zerolinecolor: "#b9c3cb",
       showspikes: false,
     });
-    const layout = {
+    const revision = `${state.robot.robot}|${state.cellActive}`;
+    return {
       margin: { l: 0, r: 0, t: 0, b: 0 },
       showlegend: false,
       paper_bgcolor: "rgba(0,0,0,0)",
       font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
-      uirevision: robot.robot,
+      uirevision: revision,
       scene: {
         xaxis: axis("x (mm)", range[0]),
         yaxis: axis("y (mm)", range[1]),
         zaxis: axis("z (mm)", range[2]),
         aspectmode: "cube",
         camera: { eye: { x: 1.3, y: -1.45, z: 0.75 }, center: { x: 0, y: 0, z: -0.12 }, up: { x: 0, y: 0, z: 1 } },
-        uirevision: robot.robot,
+        uirevision: revision,
       },
     };
-    draw(element, data, layout);
+  }
+
+  function render() {
+    const state = store.get();
+    if (!state.robot) {
+      return;
+    }
+    const key = `${state.robot.robot}|${state.cellActive}|${state.cell ? state.cell.etag : ""}`;
+    const dynamic = dynamicTraces(state);
+    if (key !== staticKey || !element.data) {
+      const { data, range } = staticTraces(state);
+      dynamicStart = data.length;
+      staticKey = key;
+      draw(element, [...data, ...dynamic], layoutFor(state, range));
+      return;
+    }
+    // only the moving traces: one restyle, the cell's meshes are left alone
+    // (an undefined entry leaves that trace's attribute as it is)
+    const update = {};
+    for (const name of ["x", "y", "z", "i", "j", "k"]) {
+      update[name] = dynamic.map((trace) => trace[name]);
+    }
+    Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
   }
 
   const requestRender = frameScheduler({
     render,
     minIntervalMs: () => (store.get().dragging ? SCENE_REDRAW_WHILE_DRAGGING_MS : 0),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive"] });
   return { render };
 }

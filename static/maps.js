@@ -1,0 +1,117 @@
+// Joint-space obstacle maps of the cell: the two-joint map under the joint map
+// view and the three-joint map of the 3D joint-space view. A map is a slice
+// through the current configuration, so it is computed again (as a server job,
+// debounced) when the mapped joints, the held joints or the cell change. No
+// map is started while a drag is in progress; the newest request replaces an
+// older one still running (which is cancelled).
+
+import { runJob } from "./api.js";
+
+const DEBOUNCE_MS = 350;
+const HOLD_TOLERANCE = 0.05; // deg or mm: held joints closer than this count as unchanged
+export const RESOLUTION_2 = 96;
+export const RESOLUTION_3 = 24;
+
+/** Whether a map still describes the state: same cell, same joints, same held values. */
+export function mapIsCurrent(map, { cell, joints }, chosen) {
+  if (!map || !cell || map.cell_etag !== cell.etag) {
+    return false;
+  }
+  if (map.joints.length !== chosen.length || map.joints.some((j, k) => j !== chosen[k])) {
+    return false;
+  }
+  return joints.every((value, index) => chosen.includes(index) || Math.abs(value - map.hold_deg[index]) <= HOLD_TOLERANCE);
+}
+
+/**
+ * @param {{store: object, api: object, actions: object}} options
+ * @returns {{cancel: (slot: "2d" | "3d") => void}}
+ */
+export function createMaps({ store, api, actions }) {
+  const slots = {
+    "2d": { mapKey: "jointMap", jobKey: "jointMapJob", chosen: (s) => s.mapJoints, resolution: RESOLUTION_2, timer: null, running: null },
+    "3d": { mapKey: "jointMap3", jobKey: "jointMap3Job", chosen: (s) => s.map3Joints, resolution: RESOLUTION_3, timer: null, running: null },
+  };
+
+  function wanted(slot, state) {
+    const chosen = slot.chosen(state);
+    return (
+      state.cellActive && state.robot && chosen && state.joints.length === state.robot.dof &&
+      !mapIsCurrent(state[slot.mapKey], state, chosen)
+    );
+  }
+
+  async function compute(slot) {
+    slot.timer = null;
+    const state = store.get();
+    if (state.dragging || !wanted(slot, state)) {
+      return;
+    }
+    if (slot.running) {
+      slot.running.cancel();
+    }
+    const body = { joints: [...slot.chosen(state)], hold_deg: [...state.joints], resolution: slot.resolution };
+    const handle = runJob({
+      api,
+      start: () => api.startJointMap(body),
+      onProgress: (job) => {
+        if (slot.running === handle) {
+          store.update({ [slot.jobKey]: { state: job.state, done: job.done, total: job.total, detail: job.detail } });
+        }
+      },
+    });
+    slot.running = handle;
+    try {
+      const job = await handle.done;
+      if (slot.running !== handle) {
+        return;
+      }
+      slot.running = null;
+      if (job.state === "done") {
+        store.update({ [slot.mapKey]: job.result, [slot.jobKey]: null });
+      } else if (job.state === "failed") {
+        store.update({ [slot.jobKey]: { state: "failed", done: 0, total: 0, detail: job.detail } });
+        actions.setStatus("error", `Joint map: ${job.detail}`);
+      }
+    } catch (error) {
+      if (slot.running === handle) {
+        slot.running = null;
+        store.update({ [slot.jobKey]: { state: "failed", done: 0, total: 0, detail: error.message } });
+        actions.setStatus("warn", `Joint map: ${error.message}`);
+      }
+    }
+  }
+
+  function schedule(slot) {
+    if (slot.timer !== null) {
+      clearTimeout(slot.timer);
+    }
+    slot.timer = setTimeout(() => compute(slot), DEBOUNCE_MS);
+  }
+
+  store.subscribe(
+    (state) => {
+      for (const slot of Object.values(slots)) {
+        if (wanted(slot, state)) {
+          schedule(slot);
+        }
+      }
+    },
+    { keys: ["joints", "mapJoints", "map3Joints", "cell", "cellActive", "dragging"] },
+  );
+
+  function cancel(name) {
+    const slot = slots[name];
+    if (slot.running) {
+      slot.running.cancel();
+      slot.running = null;
+    }
+    if (slot.timer !== null) {
+      clearTimeout(slot.timer);
+      slot.timer = null;
+    }
+    store.update({ [slot.jobKey]: { state: "cancelled", done: 0, total: 0, detail: "" } });
+  }
+
+  return { cancel };
+}

@@ -1,0 +1,227 @@
+// The 3D joint-space view, twin of the Cartesian 3D view: three chosen joints
+// as axes (deg, or mm for prismatic joints), the obstacle region as the
+// centres of colliding cells of a three-joint map (one colour per obstacle),
+// the joint-limit box as a wire box, the inverse kinematics solutions of the
+// target by branch, the current configuration, and the selected path's
+// configurations joined in order.
+
+/* global Plotly */
+
+import { draw } from "./plotting.js";
+import { frameScheduler } from "./frame.js";
+import { branchStyle, regionColour } from "../palette.js";
+
+const REDRAW_WHILE_DRAGGING_MS = 300;
+
+/** Wire box edges over the limit box of three joints, as one polyline with null breaks. */
+export function wireBox(lower, upper) {
+  const corner = (bits) => bits.map((bit, k) => (bit ? upper[k] : lower[k]));
+  const edges = [];
+  for (let a = 0; a < 8; a += 1) {
+    for (let k = 0; k < 3; k += 1) {
+      const b = a | (1 << k);
+      if (b !== a) {
+        edges.push([a, b]);
+      }
+    }
+  }
+  const xs = [];
+  const ys = [];
+  const zs = [];
+  for (const [a, b] of edges) {
+    const p = corner([a & 1, (a >> 1) & 1, (a >> 2) & 1]);
+    const q = corner([b & 1, (b >> 1) & 1, (b >> 2) & 1]);
+    xs.push(p[0], q[0], null);
+    ys.push(p[1], q[1], null);
+    zs.push(p[2], q[2], null);
+  }
+  return { x: xs, y: ys, z: zs };
+}
+
+/** Occupied cell centres of a three-joint map, grouped by obstacle: [{name, x, y, z}]. */
+export function voxelGroups(map) {
+  const [na, nb, nc] = map.shape;
+  const [xa, xb, xc] = map.axes_deg;
+  const groups = new Map();
+  map.obstacle.forEach((k, flat) => {
+    if (k < 0) {
+      return;
+    }
+    if (!groups.has(k)) {
+      groups.set(k, { index: k, name: map.obstacle_names[k], x: [], y: [], z: [] });
+    }
+    const group = groups.get(k);
+    const ic = flat % nc;
+    const ib = Math.floor(flat / nc) % nb;
+    const ia = Math.floor(flat / (nb * nc)) % na;
+    group.x.push(xa[ia]);
+    group.y.push(xb[ib]);
+    group.z.push(xc[ic]);
+  });
+  return [...groups.values()];
+}
+
+/**
+ * @param {{element: HTMLElement, header: HTMLElement, note: HTMLElement, store: object,
+ *          actions: object, palette: object}} options
+ */
+export function createJointSpaceView({ element, header, note, store, actions, palette }) {
+  let baseKey = null;
+  let dynamicStart = 0;
+  const selectors = [0, 1, 2].map((slot) => {
+    const label = document.createElement("label");
+    label.className = "pb-hint";
+    label.textContent = `${"xyz"[slot]} `;
+    const select = document.createElement("select");
+    select.setAttribute("aria-label", `Joint on the ${"xyz"[slot]} axis of the 3D joint view`);
+    select.addEventListener("change", () => {
+      const triple = [...store.get().map3Joints];
+      const value = Number(select.value);
+      const clash = triple.indexOf(value);
+      if (clash >= 0 && clash !== slot) {
+        triple[clash] = triple[slot];
+      }
+      triple[slot] = value;
+      actions.setMap3Joints(triple);
+    });
+    label.append(select);
+    header.append(label);
+    return select;
+  });
+
+  function currentMap({ jointMap3, map3Joints, cellActive }) {
+    if (!cellActive || !jointMap3 || jointMap3.joints.some((j, k) => j !== map3Joints[k])) {
+      return null;
+    }
+    return jointMap3;
+  }
+
+  function dynamicTraces({ ik, joints, map3Joints, pathCurve }) {
+    const [a, b, c] = map3Joints;
+    const solutions = ik ? ik.result.solutions : [];
+    const styles = solutions.map((solution) => branchStyle(palette, solution));
+    const points = pathCurve ? pathCurve.points : [];
+    return [
+      {
+        type: "scatter3d",
+        mode: "lines+markers",
+        name: "path",
+        x: points.map((q) => q[a]),
+        y: points.map((q) => q[b]),
+        z: points.map((q) => q[c]),
+        line: { color: palette["ink-muted"], width: 4 },
+        marker: { size: 2.5, color: palette["ink-muted"] },
+        hoverinfo: "skip",
+      },
+      {
+        type: "scatter3d",
+        mode: "markers",
+        name: "solutions",
+        x: solutions.map((s) => s.joints_deg[a]),
+        y: solutions.map((s) => s.joints_deg[b]),
+        z: solutions.map((s) => s.joints_deg[c]),
+        text: solutions.map((s) => s.branch || "single branch"),
+        marker: { size: 6, color: styles.map((style) => style.color), symbol: solutions.map((s) => (s.within_limits ? "diamond" : "diamond-open")) },
+        hovertemplate: "%{text}<extra></extra>",
+        meta: { role: "ik-solutions" },
+      },
+      {
+        type: "scatter3d",
+        mode: "markers",
+        name: "current configuration",
+        x: [joints[a]],
+        y: [joints[b]],
+        z: [joints[c]],
+        marker: { size: 5, color: palette.ink, symbol: "cross" },
+        hoverinfo: "skip",
+      },
+    ];
+  }
+
+  function render() {
+    const state = store.get();
+    const { robot, joints, map3Joints } = state;
+    if (!robot || !map3Joints || joints.length !== robot.dof) {
+      element.hidden = !map3Joints;
+      return;
+    }
+    selectors.forEach((select, slot) => {
+      const names = robot.joints.map((joint) => joint.name).join(",");
+      if (select.dataset.names !== names) {
+        select.replaceChildren(...robot.joints.map((joint, index) => new Option(`${joint.name} (${joint.unit})`, String(index))));
+        select.dataset.names = names;
+      }
+      select.value = String(map3Joints[slot]);
+    });
+    const map = currentMap(state);
+    const dynamic = dynamicTraces(state);
+    const key = `${robot.robot}|${map3Joints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}` : "none"}`;
+    if (key === baseKey && element.data) {
+      const update = { x: dynamic.map((t) => t.x), y: dynamic.map((t) => t.y), z: dynamic.map((t) => t.z) };
+      update["marker.color"] = dynamic.map((t, k) => (k === 1 ? t.marker.color : undefined));
+      update["marker.symbol"] = dynamic.map((t, k) => (k === 1 ? t.marker.symbol : undefined));
+      update.text = dynamic.map((t, k) => (k === 1 ? t.text : undefined));
+      Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
+      return;
+    }
+    baseKey = key;
+    const chosen = map3Joints.map((index) => robot.joints[index]);
+    const box = wireBox(chosen.map((j) => j.lower), chosen.map((j) => j.upper));
+    const data = [
+      { type: "scatter3d", mode: "lines", name: "joint limits", ...box, line: { color: palette["limit-box"], width: 3 }, hoverinfo: "skip" },
+    ];
+    if (map) {
+      for (const group of voxelGroups(map)) {
+        data.push({
+          type: "scatter3d",
+          mode: "markers",
+          name: group.name,
+          x: group.x,
+          y: group.y,
+          z: group.z,
+          marker: { size: 2.5, color: regionColour(palette, group.index), opacity: 0.5, symbol: "square" },
+          hovertemplate: `${group.name}<extra></extra>`,
+          meta: { role: "obstacle", obstacle: group.name },
+        });
+      }
+    }
+    dynamicStart = data.length;
+    data.push(...dynamic);
+    const axis = (joint) => ({
+      title: { text: `${joint.name} (${joint.unit})` },
+      range: [joint.lower - 0.04 * (joint.upper - joint.lower), joint.upper + 0.04 * (joint.upper - joint.lower)],
+      backgroundcolor: "#f7f9fa",
+      gridcolor: "#dde3e8",
+      showspikes: false,
+    });
+    const revision = `${robot.robot}|${map3Joints.join(",")}`;
+    draw(element, data, {
+      margin: { l: 0, r: 0, t: 0, b: 0 },
+      showlegend: false,
+      paper_bgcolor: "rgba(0,0,0,0)",
+      font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
+      uirevision: revision,
+      scene: {
+        xaxis: axis(chosen[0]),
+        yaxis: axis(chosen[1]),
+        zaxis: axis(chosen[2]),
+        aspectmode: "cube",
+        camera: { eye: { x: 1.5, y: -1.5, z: 0.9 } },
+        uirevision: revision,
+      },
+    });
+    const others = robot.joints.filter((_, index) => !map3Joints.includes(index)).map((joint) => joint.name);
+    note.textContent = map
+      ? `Points are colliding cells of a ${map.shape.join(" × ")} grid (self collision not shown), a slice with ${others.join(", ")} held at the current values.`
+      : state.cellActive
+        ? "The obstacle region is being computed."
+        : "Obstacle regions are shown for the cell's robot.";
+  }
+
+  const requestRender = frameScheduler({
+    render,
+    minIntervalMs: () => (store.get().dragging ? REDRAW_WHILE_DRAGGING_MS : 0),
+  });
+  store.subscribe(requestRender, { keys: ["robot", "joints", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive"] });
+  return { render };
+}
