@@ -12,8 +12,7 @@ its ``kind`` label), in this order:
 
 Each analytic family accepts a robot only after checking its own canonical
 forward kinematics against :func:`posebridge.kinematics.fk.fk_flange`.
-:func:`ik_solver` does this choice once; keep the returned solver for
-repeated calls on the same robot (e.g. while dragging a target).
+:func:`ik_solver` makes this choice once per robot object and remembers it.
 
 The result, slot order, turn variants and branch labels are described in
 :mod:`posebridge.kinematics.ik_types` and :mod:`posebridge.kinematics.branches`.
@@ -24,6 +23,7 @@ joint), so ``orientation_tolerance_rad`` only matters for the numerical solver.
 from __future__ import annotations
 
 import math
+import weakref
 from dataclasses import dataclass
 
 import numpy.typing as npt
@@ -121,8 +121,22 @@ def _positive(value: float, name: str) -> float:
     return number
 
 
+_SOLVERS: weakref.WeakKeyDictionary[Robot, IkSolver] = weakref.WeakKeyDictionary()
+"""Solver chosen per robot object. Robots are immutable, so the choice (a pure
+function of the robot, costing a geometry extraction and its FK verification)
+is kept as long as the robot object lives."""
+
+
 def ik_solver(robot: Robot) -> IkSolver:
-    """Choose the IK solver for ``robot`` from its geometry (module docstring)."""
+    """The IK solver for ``robot``, chosen from its geometry (module docstring) once per robot."""
+    solver = _SOLVERS.get(robot)
+    if solver is None:
+        solver = _choose_solver(robot)
+        _SOLVERS[robot] = solver
+    return solver
+
+
+def _choose_solver(robot: Robot) -> IkSolver:
     opw = OrthoParallelGeometry.from_robot(robot)
     if opw is not None:
         return IkSolver(robot, "ortho_parallel", opw)

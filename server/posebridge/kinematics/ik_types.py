@@ -15,11 +15,16 @@ form (turn variants, limit flags, order); the numba block kernel
 :func:`finish_rows` does the same inside the analytic kernels.
 
 Turn variants: a revolute joint value ``v`` is first wrapped to (-pi, pi];
-``turns = k`` means ``v + 2 pi k`` is stored. Without ``all_turns`` each
-candidate appears once with the ``k`` nearest the seed among the values inside
-the limits (nearest zero without a seed; the value nearest the range when no
-turn fits). With ``all_turns`` every in-limit ``k`` of every joint gives its
-own slot. Continuous joints have no limits: only the nearest turn is given.
+``v + 2 pi k`` is stored. Without ``all_turns`` each candidate appears once
+with the ``k`` nearest the seed among the values inside the limits (nearest
+zero without a seed; the value nearest the range when no turn fits). With
+``all_turns`` every in-limit ``k`` of every joint gives its own slot.
+Continuous joints have no limits: only the nearest turn is given. The
+reported ``turns`` count whole revolutions away from the revolution centred
+on the joint's range, ``round((q - (lower + upper) / 2) / 2 pi)``: a joint
+whose range spans at most one revolution (e.g. -200..80 deg) always reports
+0, and only joints with more than one revolution of range can show turns.
+Continuous joints count from zero.
 
 Seed distance: ``sum_j ((q_j - seed_j) / v_max_j)^2``, the squared joint
 distance weighted by each joint's speed limit, so that metres and radians are
@@ -486,6 +491,11 @@ def finish_rows(
                         v = base + two_pi * k
                     if mode != 2.0 and (v < lower - 1e-12 or v > upper + 1e-12):
                         within = False
+                    if mode == 1.0:
+                        # reported turns count from the revolution centred on the range
+                        k = int(np.floor((v - 0.5 * (lower + upper)) / two_pi + 0.5))
+                    elif mode == 3.0:
+                        k = 0
                     value[count, j] = v
                     turns[count, j] = k
                     total_turns += abs(k)
