@@ -251,6 +251,7 @@ async def test_replace_cell_owner_allowed_when_shared(
     "headers",
     [
         {"Host": "attacker.example:8000"},
+        {"Host": ""},
         {"X-Forwarded-For": "203.0.113.9"},
         {"Forwarded": "for=203.0.113.9"},
     ],
@@ -264,11 +265,18 @@ async def test_loopback_through_proxy_or_foreign_name_is_not_owner(
     assert response.json() == {"detail": NO_TOKEN}
 
 
-@pytest.mark.parametrize("base_url", ["http://localhost:8000", "http://[::1]:8000"])
+@pytest.mark.parametrize(
+    ("address", "base_url"),
+    [
+        ("::1", "http://localhost:8000"),
+        ("::1", "http://[::1]:8000"),
+        ("::ffff:127.0.0.1", "http://127.0.0.1:8000"),  # IPv4-mapped (RFC 4291, sec. 2.5.5.2)
+    ],
+)
 async def test_loopback_names_are_owner(
-    shared_app: FastAPI, clients: ClientFactory, base_url: str
+    shared_app: FastAPI, clients: ClientFactory, address: str, base_url: str
 ) -> None:
-    local = clients(shared_app, client=("::1", 5000), base_url=base_url)
+    local = clients(shared_app, client=(address, 5000), base_url=base_url)
     response = await local.get("/api/reviews/access")
     assert response.status_code == 200
     assert response.json()["role"] == "owner"

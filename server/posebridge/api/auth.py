@@ -137,10 +137,14 @@ def enable_review_sharing(app: FastAPI, token: str) -> None:
 
 
 def _is_loopback_address(host: str) -> bool:
+    """Whether ``host`` is a loopback IP address, IPv4-mapped IPv6 forms included."""
     try:
-        return ipaddress.ip_address(host.strip("[]")).is_loopback
+        address = ipaddress.ip_address(host.strip("[]"))
     except ValueError:
         return False
+    if isinstance(address, ipaddress.IPv6Address) and address.ipv4_mapped is not None:
+        return address.ipv4_mapped.is_loopback
+    return address.is_loopback
 
 
 def _host_name(host_header: str) -> str:

@@ -71,7 +71,8 @@ def _uvicorn_server(
     app = create_app(settings)
     if review_token is not None:
         enable_review_sharing(app, review_token)
-    config = uvicorn.Config(app, log_level=log_level, lifespan="on")
+    # the peer address decides who is the owner: never take it from forwarding headers
+    config = uvicorn.Config(app, log_level=log_level, lifespan="on", proxy_headers=False)
     return uvicorn.Server(config)
 
 
