@@ -246,6 +246,7 @@ def _track_nearest(q, ok, q_start, weights, choice):
 
     ``q`` (S, M, n), ``ok`` (S, M), ``q_start`` (n,), ``weights`` (n,); writes
     ``choice`` (S,), -1 where no slot is allowed (the previous choice carries on).
+    Each sample depends on the one before, so there is no parallel driver.
     """
     S, M, n = q.shape
     previous = q_start.copy()
