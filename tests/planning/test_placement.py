@@ -75,6 +75,20 @@ def test_fraction_follows_the_reach_annulus() -> None:
     assert np.allclose(result.reach_fraction[..., 0, 0], expected, atol=1e-12)
 
 
+def test_unreached_targets_say_why() -> None:
+    scene = circle_cell()
+    grid = grid_around_centre(5, 50.0)
+    result = search_base_placement(scene, grid, top=grid.size)
+    targets = scene.targets.T_world_target[:, :2, 3]
+    for candidate in result.report.best:
+        base = np.array([candidate.x_mm, candidate.y_mm]) / 1000.0
+        distance = np.hypot(*(targets - base).T)
+        for target, d in zip(candidate.targets, distance, strict=True):
+            # closed form: beyond l1 + l2 = 0.7 m the planar arm cannot reach (law of cosines)
+            assert target.reached == bool(reachable(np.array([d]))[0])
+            assert target.reason == ("" if target.reached else "pose out of reach")
+
+
 def test_best_base_is_the_circle_centre() -> None:
     scene = circle_cell()
     result = search_base_placement(scene, grid_around_centre(11, 20.0))

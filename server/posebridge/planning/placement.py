@@ -754,13 +754,12 @@ def _report(
         )
         w = manipulability_yoshikawa(jac)
         clearance = _candidate_clearance(scene, problem, grid, flat, q_c)
+        reasons = _target_reasons(problem, grid, flat, int(branch[idx]))
         targets = [
             TargetPlacementReport(
                 name=name,
                 reached=bool(reached[idx][k]),
-                reason=""
-                if reached[idx][k]
-                else "not reached on this branch within limits and free",
+                reason="" if reached[idx][k] else reasons[k],
                 joints_deg=(
                     joints_user_from_si(q_c[k], robot.prismatic).tolist()
                     if reached[idx][k]
@@ -850,6 +849,71 @@ def _candidate_clearance(
         clearance_batch(environment, q[rows]).distance, clearance_batch(support, q[rows]).distance
     )
     return out
+
+
+def _target_reasons(problem: _Problem, grid: PlacementGrid, flat: int, branch: int) -> list[str]:
+    """Why each target of one candidate is not reached (``""`` where it is), shape (K,).
+
+    The first failing test of its pose or approach pose, in the order of the
+    module docstring: reach, joint limits, required branch, collision (the
+    nearest shape named), the candidate's branch.
+    """
+    iy, ix, iyaw, ih = np.unravel_index(flat, grid.shape)
+    local = int(np.ravel_multi_index((iy, ix, iyaw), grid.shape[:3]))
+    T_world_base = _base_poses(problem, grid, int(ih), local, local + 1)[0]
+    T_base_pose = invert_transform(T_world_base) @ problem.T_world_pose
+    ik = problem.solver.solve(T_base_pose, T_flange_tool=problem.T_flange_tool)
+    labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2)
+    required = problem.requirement[:, None, :]
+    matches = np.all((required == 0) | (labels == 0) | (labels == required), axis=2)
+    allowed = ik.valid & ik.within_limits & matches
+    support, own = _own_scenes(problem, float(grid.height[ih]))
+    environment = ClearanceScene.build(
+        problem.arm,
+        problem.environment,
+        T_world_base,
+        self_pairs=np.empty((0, 2)),
+        pair_mask=problem.environment_mask,
+    )
+    on_branch = np.all((labels == 0) | (labels == BRANCHES[branch]), axis=2)
+    reasons = []
+    for k in range(problem.target_pose.shape[0]):
+        poses = [int(problem.target_pose[k])]
+        if problem.approach_pose[k] >= 0:
+            poses.append(int(problem.approach_pose[k]))
+        reason = ""
+        for p in poses:
+            what = "approach pose" if p != poses[0] else "pose"
+            if not np.any(ik.valid[p]):
+                reason = f"{what} out of reach"
+            elif not np.any(ik.valid[p] & ik.within_limits[p]):
+                reason = f"{what} outside the joint limits on every branch"
+            elif not np.any(allowed[p]):
+                reason = f"{what} not reachable on the required branch"
+            else:
+                q = ik.q[p][allowed[p]]
+                scenes = (support, environment, own)
+                results = [clearance_batch(c, q) for c in scenes]
+                margins = (problem.margin, problem.margin, 0.0)
+                slack = np.stack([r.distance - m for r, m in zip(results, margins, strict=True)])
+                free = np.all(slack >= 0.0, axis=0)
+                if not np.any(free):
+                    best = int(np.argmax(slack.min(axis=0)))  # the least colliding solution
+                    which = int(np.argmin(slack[:, best]))
+                    result = results[which]
+                    names = (
+                        scenes[which].arm.names
+                        if result.is_self[best]
+                        else scenes[which].obstacles.names
+                    )
+                    other = names[int(result.other[best])]
+                    reason = f"{what} in collision on every allowed branch (nearest: {other})"
+                elif not np.any(free & on_branch[p][allowed[p]]):
+                    reason = f"{what} reachable only on another branch than the candidate's"
+            if reason:
+                break
+        reasons.append(reason)
+    return reasons
 
 
 def _current_score(scene: Scene, grid: PlacementGrid, score: FloatArray) -> float | None:
