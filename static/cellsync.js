@@ -15,7 +15,7 @@ export function branchFromRequirement(branch) {
   if (!branch) {
     return null;
   }
-  const words = ["shoulder", "elbow", "wrist"].filter((part) => branch[part]).map((part) => `${part} ${branch[part]}`);
+  const words = ["shoulder", "elbow", "wrist"].filter((part) => branch[part]).map((part) => branch[part]);
   return {
     label: words.join(", "),
     shoulder: branch.shoulder ? SIGNS[branch.shoulder] : 0,

@@ -22,19 +22,31 @@ from posebridge.api.cell_store import CellStore
 from posebridge.api.errors import install_error_handlers
 from posebridge.api.jobs import JobManager
 from posebridge.api.robot_cache import RobotCache
-from posebridge.api.routes import cells, health, jobs, kinematics, maps, reviews, robots
+from posebridge.api.routes import (
+    cells,
+    checks,
+    health,
+    jobs,
+    kinematics,
+    maps,
+    placement,
+    reviews,
+    robots,
+)
 from posebridge.api.schemas.kinematics import fk_result, ik_result
 from posebridge.api.settings import Settings, get_settings
+from posebridge.cell.checks import check_targets
 from posebridge.cell.model import CellFileError
 from posebridge.kinematics.fk import KinematicsInputError, fk_tool
 from posebridge.kinematics.ik import solve_ik_all
+from posebridge.planning.errors import PlanningInputError
 from posebridge.resources import data_folder
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.joint_map import joint_map
 
 __all__ = ["create_app", "plotly_script_path"]
 
-_JOB_INPUT_ERRORS = (SpacesInputError, KinematicsInputError, CellFileError)
+_JOB_INPUT_ERRORS = (SpacesInputError, KinematicsInputError, CellFileError, PlanningInputError)
 """Errors of a job that are the request's fault: their message is the job's detail."""
 
 
@@ -44,13 +56,16 @@ def plotly_script_path() -> Path:
 
 
 def _warm_up(cache: RobotCache, robot_spec: str, cells: CellStore) -> None:
-    """Run FK, IK and a tiny joint map once so numba kernels are loaded before the first request."""
+    """Run FK, IK, a tiny joint map and the target check once, so numba kernels are loaded
+    before the first request."""
     for robot in (cache.get(robot_spec), cells.read().scene.robot):
         q = robot.home_configuration()[None, :]
         fk_result(robot, q)
         ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
     snapshot = cells.read()
     joint_map(snapshot.clearance, [0, 1], snapshot.scene.robot.home_configuration(), resolution=2)
+    if snapshot.scene.targets.names:
+        check_targets(snapshot.scene)
 
 
 def _limit_request_size(app: FastAPI, limit: int) -> None:
@@ -116,7 +131,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         robots.router,
         kinematics.router,
         cells.router,
+        checks.router,
         maps.router,
+        placement.router,
         jobs.router,
         reviews.router,
     ]

@@ -16,8 +16,10 @@ from fastapi.responses import JSONResponse
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from posebridge.api.robot_cache import RobotPathNotAllowedError
+from posebridge.cell.joint_log import JointLogError
 from posebridge.cell.model import CellFileError
 from posebridge.kinematics.fk import KinematicsInputError
+from posebridge.planning.errors import PlanningInputError
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.transforms import TransformError
 
@@ -82,7 +84,13 @@ def install_error_handlers(app: FastAPI) -> None:
     """Register the JSON error handlers on ``app``."""
     app.add_exception_handler(RequestValidationError, _on_validation)
     app.add_exception_handler(StarletteHTTPException, _on_http)
-    for bad_input in (RobotDescriptionError, KinematicsInputError, TransformError):
+    for bad_input in (
+        RobotDescriptionError,
+        KinematicsInputError,
+        TransformError,
+        JointLogError,
+        PlanningInputError,
+    ):
         app.add_exception_handler(bad_input, _on_bad_input)
     app.add_exception_handler(CellFileError, _on_cell_file)
     app.add_exception_handler(RobotPathNotAllowedError, _on_not_allowed)

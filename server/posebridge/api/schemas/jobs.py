@@ -8,11 +8,12 @@ from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.api.jobs import Job
 from posebridge.api.schemas.maps import JointMapResult
+from posebridge.planning.reports import PlacementReport
 
 __all__ = ["JobResult", "JobStatus", "job_status"]
 
-JobResult = JointMapResult
-"""Results a job can carry."""
+JobResult = JointMapResult | PlacementReport
+"""Results a job can carry: a joint map, or a base placement ranking."""
 
 
 # A job: what it computes, how far it is, and its result when done.

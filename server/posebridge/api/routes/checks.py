@@ -1,0 +1,78 @@
+"""Checks of the server's cell: targets, paths, one pose, a controller log.
+
+The answers are the check modules' own result models, the same the command
+line prints with ``--json``.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from fastapi import APIRouter, HTTPException, Path
+
+from posebridge.api.deps import CellsDep
+from posebridge.api.schemas.checks import (
+    MAX_LOG_ROWS,
+    LogDiagnosisRequest,
+    PoseDiagnosisRequest,
+)
+from posebridge.api.schemas.errors import error_responses
+from posebridge.api.schemas.kinematics import joints_si_from_request
+from posebridge.cell.checks import check_targets
+from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
+from posebridge.cell.joint_log import parse_joint_log
+from posebridge.cell.reports import LogDiagnosis, PoseDiagnosis, TargetCheckReport
+from posebridge.planning.path_check import check_path
+from posebridge.planning.reports import PathCheckReport
+
+__all__ = ["router"]
+
+router = APIRouter(prefix="/api/cell", tags=["checks"])
+
+
+@router.get("/check", summary="Check every target", responses=error_responses(422))
+def read_target_check(cells: CellsDep) -> TargetCheckReport:
+    """Per target: reachable or why not, usable branches, recommended branch; the branch
+    consistent over all targets; findings, errors first."""
+    return check_targets(cells.read().scene)
+
+
+@router.get(
+    "/paths/{name}/check", summary="Check a path and time it", responses=error_responses(404, 422)
+)
+def read_path_check(
+    name: Annotated[str, Path(min_length=1, max_length=100)], cells: CellsDep
+) -> PathCheckReport:
+    """Sampled check of every segment (reach, continuity, limits, singularities, clearance,
+    speed) with the cycle time per segment; findings tied to segment and position."""
+    scene = cells.read().scene
+    names = [path.name for path in scene.paths]
+    if name not in names:
+        raise HTTPException(status_code=404, detail=f"path: no path named {name!r} in the cell")
+    return check_path(scene, names.index(name))
+
+
+@router.post("/diagnose/pose", summary="Diagnose one pose", responses=error_responses(422))
+def diagnose_joint_pose(body: PoseDiagnosisRequest, cells: CellsDep) -> PoseDiagnosis:
+    """TCP pose, branch, margins, singularity, clearance with the closest object, nearest
+    targets and the other branches of the same tool pose."""
+    scene = cells.read().scene
+    q = joints_si_from_request(scene.robot, [body.joints_deg])
+    return diagnose_pose(scene, q[0])
+
+
+@router.post(
+    "/diagnose/log", summary="Diagnose a controller log", responses=error_responses(413, 422)
+)
+def diagnose_joint_log(body: LogDiagnosisRequest, cells: CellsDep) -> LogDiagnosis:
+    """Row-by-row values (margins, clearance, manipulability), the worst row, branch flips,
+    velocity jumps and findings."""
+    rows = body.csv.count("\n")
+    if rows > MAX_LOG_ROWS + 1:
+        raise HTTPException(
+            status_code=413,
+            detail=f"csv: {rows} lines, more than the {MAX_LOG_ROWS} rows diagnosed per request",
+        )
+    scene = cells.read().scene
+    log = parse_joint_log(body.csv, scene.robot, source=body.source)
+    return diagnose_log(scene, log)

@@ -1,0 +1,74 @@
+"""Base placement search over a grid of candidate base poses, computed as a job."""
+
+from __future__ import annotations
+
+import threading
+from collections.abc import Callable
+
+from fastapi import APIRouter, HTTPException, Request
+
+from posebridge.api.deps import CellsDep, JobsDep
+from posebridge.api.jobs import JobLimitError
+from posebridge.api.routes.maps import client_key, started
+from posebridge.api.schemas.checks import MAX_PLACEMENT_CANDIDATES, PlacementRequest
+from posebridge.api.schemas.errors import error_responses
+from posebridge.api.schemas.jobs import JobStatus, job_status
+from posebridge.planning.placement import PlacementGrid, search_base_placement
+from posebridge.planning.reports import PlacementReport
+
+__all__ = ["router"]
+
+router = APIRouter(prefix="/api/placement", tags=["placement"])
+
+
+@router.post(
+    "",
+    summary="Start a base placement search",
+    status_code=202,
+    responses=error_responses(413, 422, 429),
+)
+def start_placement(
+    body: PlacementRequest, request: Request, cells: CellsDep, jobs: JobsDep
+) -> JobStatus:
+    """Score candidate base poses around the current one (positions, yaws, pedestal heights)
+    and rank them. Answers at once with the job; poll ``GET /api/jobs/{id}``."""
+    heights = 1 if body.heights_mm is None else len(body.heights_mm)
+    candidates = body.count * body.count * body.yaw_count * heights
+    if candidates > MAX_PLACEMENT_CANDIDATES:
+        raise HTTPException(
+            status_code=413,
+            detail=f"grid: {body.count} x {body.count} positions x {body.yaw_count} yaws x "
+            f"{heights} heights = {candidates} candidates; this server searches at most "
+            f"{MAX_PLACEMENT_CANDIDATES}",
+        )
+    scene = cells.read().scene
+    around = PlacementGrid.around(
+        scene, half_width_mm=body.half_width_mm, count=body.count, yaw_count=body.yaw_count
+    )
+    grid = (
+        around
+        if body.heights_mm is None
+        else PlacementGrid(
+            x=around.x,
+            y=around.y,
+            yaw=around.yaw,
+            height=PlacementGrid.from_user([0.0], [0.0], [0.0], body.heights_mm).height,
+        )
+    )
+
+    def work(progress: Callable[[int, int], None], cancel: threading.Event) -> PlacementReport:
+        return search_base_placement(
+            scene,
+            grid,
+            progress=progress,
+            cancel=cancel,
+            top=body.top,
+            collision_margin_mm=body.collision_margin_mm,
+            clearance_goal_mm=max(body.clearance_goal_mm, body.collision_margin_mm),
+        ).report
+
+    try:
+        job = jobs.start("placement", client_key(request), work)
+    except JobLimitError as error:
+        raise started(error) from error
+    return job_status(job)

@@ -1,0 +1,77 @@
+"""Requests of the cell checks: one pose, a controller log, base placement.
+
+The answers are the result models of the checks themselves
+(:mod:`posebridge.cell.reports` and :mod:`posebridge.planning.reports`),
+shared with the command line.
+"""
+
+from __future__ import annotations
+
+from typing import Annotated
+
+from pydantic import BaseModel, ConfigDict, Field
+
+from posebridge.api.schemas.kinematics import MAX_JOINTS, Finite
+
+__all__ = [
+    "MAX_LOG_CHARS",
+    "MAX_LOG_ROWS",
+    "MAX_PLACEMENT_CANDIDATES",
+    "LogDiagnosisRequest",
+    "PlacementRequest",
+    "PoseDiagnosisRequest",
+]
+
+MAX_LOG_CHARS = 5_000_000
+"""Longest log text accepted (characters)."""
+MAX_LOG_ROWS = 50_000
+"""Most log rows diagnosed in one request."""
+MAX_PLACEMENT_CANDIDATES = 20_000
+"""Most candidate base poses of one placement search."""
+
+
+# One joint configuration to diagnose in the cell.
+class PoseDiagnosisRequest(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    joints_deg: Annotated[list[Finite], Field(min_length=1, max_length=MAX_JOINTS)] = Field(
+        description="Joint values: revolute joints in degrees, prismatic joints in millimetres."
+    )
+
+
+# A controller log (CSV text) to diagnose row by row in the cell.
+class LogDiagnosisRequest(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    csv: str = Field(
+        min_length=1,
+        max_length=MAX_LOG_CHARS,
+        description="CSV text: a header of joint names (optionally time_s), then one row of "
+        "joint values per line (deg; mm for prismatic joints).",
+    )
+    source: str = Field(default="pasted log", max_length=200, description="Name shown in messages.")
+
+
+# A base placement search around the current base.
+class PlacementRequest(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    half_width_mm: float = Field(
+        default=1000.0,
+        gt=0.0,
+        le=10_000.0,
+        allow_inf_nan=False,
+        description="Candidate foot positions within this distance of the current one, in x and y.",
+    )
+    count: int = Field(default=21, ge=1, le=101, description="Positions along x and along y.")
+    yaw_count: int = Field(default=8, ge=1, le=72, description="Yaws evenly around the turn.")
+    heights_mm: (
+        Annotated[
+            list[Annotated[float, Field(ge=0.0, le=5000.0, allow_inf_nan=False)]],
+            Field(min_length=1, max_length=10),
+        ]
+        | None
+    ) = Field(default=None, description="Pedestal heights; the current one if omitted.")
+    top: int = Field(default=10, ge=1, le=50, description="Candidates listed with details.")
+    collision_margin_mm: float = Field(default=0.0, ge=0.0, le=500.0, allow_inf_nan=False)
+    clearance_goal_mm: float = Field(default=50.0, ge=0.0, le=1000.0, allow_inf_nan=False)

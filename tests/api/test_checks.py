@@ -1,0 +1,155 @@
+"""Cell checks over HTTP: targets, paths, one pose, a controller log, base placement.
+
+The checks themselves are tested in tests/cell and tests/planning; here the
+HTTP answers are compared with direct calls of the same functions on the same
+cell, with facts read from the cell and log files, and with /api/fk (checked
+against pinocchio in test_kinematics.py).
+"""
+
+from __future__ import annotations
+
+import asyncio
+import json
+from typing import Any
+
+import httpx
+import numpy as np
+import pytest
+
+from posebridge.api.schemas.checks import MAX_LOG_ROWS, MAX_PLACEMENT_CANDIDATES
+from posebridge.cell import load_cell, resolve_scene
+from posebridge.cell.diagnosis import diagnose_log
+from posebridge.cell.joint_log import read_joint_log
+from posebridge.resources import data_folder
+
+pytestmark = pytest.mark.anyio
+
+ROBOTS = data_folder("robots")
+
+
+async def test_read_target_check(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/cell/check")
+    assert response.status_code == 200
+    body = response.json()
+    raw = json.loads((ROBOTS / "demo-cell.json").read_text())
+    assert [t["name"] for t in body["targets"]] == [t["name"] for t in raw["targets"]]
+    # required branches as written in the cell file, shoulder, elbow, wrist words in order
+    required = {t["name"]: t.get("branch") for t in raw["targets"]}
+    for target in body["targets"]:
+        words = required[target["name"]]
+        expected = (
+            None
+            if words is None
+            else ", ".join(words[part] for part in ("shoulder", "elbow", "wrist") if part in words)
+        )
+        assert target["required_branch"] == expected
+    assert body["reachable_count"] == sum(t["reachable"] for t in body["targets"])
+
+
+async def test_read_path_check(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/cell/paths/load-press/check")
+    assert response.status_code == 200
+    body = response.json()
+    raw = json.loads((ROBOTS / "demo-cell.json").read_text())
+    path = next(p for p in raw["paths"] if p["name"] == "load-press")
+    # one segment between each pair of consecutive waypoints (closed form: W - 1)
+    assert len(body["waypoints"]) == len(path["waypoints"])
+    assert len(body["segments"]) == len(path["waypoints"]) - 1
+    durations = [s["duration_s"] for s in body["segments"]]
+    if body["cycle_time_s"] is not None and None not in durations:
+        # no blends on this path: the cycle is the sum of the segment times
+        assert body["cycle_time_s"] == pytest.approx(sum(durations), rel=1e-9)
+
+
+async def test_read_path_check_unknown(client: httpx.AsyncClient) -> None:
+    response = await client.get("/api/cell/paths/nowhere/check")
+    assert response.status_code == 404
+    assert response.json()["detail"] == "path: no path named 'nowhere' in the cell"
+
+
+async def test_diagnose_pose(client: httpx.AsyncClient) -> None:
+    q = [10.0, 20.0, -30.0, 5.0, 60.0, -15.0]
+    response = await client.post("/api/cell/diagnose/pose", json={"joints_deg": q})
+    assert response.status_code == 200
+    body = response.json()
+    scene = (await client.get("/api/cell")).json()["scene"]
+    fk = await client.post(
+        "/api/fk",
+        json={
+            "robot": "pb-arm6",
+            "joints_deg": q,
+            "base": {k: scene["base"][k] for k in ("position_mm", "rpy_deg")},
+            "tool": {k: scene["tool"][k] for k in ("position_mm", "rpy_deg")},
+        },
+    )
+    expected = fk.json()["configurations"][0]["position_mm"]
+    assert body["tcp_world"]["position_mm"] == pytest.approx(expected, abs=1e-6)
+    assert body["joints_deg"] == pytest.approx(q)
+
+
+async def test_diagnose_pose_wrong_count(client: httpx.AsyncClient) -> None:
+    response = await client.post("/api/cell/diagnose/pose", json={"joints_deg": [0.0, 1.0]})
+    assert response.status_code == 422
+    assert response.json()["detail"].startswith("joints_deg[0]: expected 6 values")
+
+
+async def test_diagnose_log_demo(client: httpx.AsyncClient) -> None:
+    text = (ROBOTS / "demo-log.csv").read_text()
+    response = await client.post("/api/cell/diagnose/log", json={"csv": text, "source": "demo"})
+    assert response.status_code == 200
+    body = response.json()
+    assert body["row_count"] == len(text.strip().splitlines()) - 1  # header + one line per row
+    scene = resolve_scene(load_cell(ROBOTS / "demo-cell.json"))
+    expected = diagnose_log(scene, read_joint_log(ROBOTS / "demo-log.csv", scene.robot))
+    assert body["worst_row"]["row"] == expected.worst_row.row
+    assert body["worst_row"]["reason"] == expected.worst_row.reason
+    assert len(body["rows"]["manipulability"]) == body["row_count"]
+
+
+async def test_diagnose_log_too_long(client: httpx.AsyncClient) -> None:
+    text = "j1,j2,j3,j4,j5,j6\n" + "0,0,0,0,0,0\n" * (MAX_LOG_ROWS + 5)
+    response = await client.post("/api/cell/diagnose/log", json={"csv": text})
+    assert response.status_code == 413
+    assert response.json()["detail"] == (
+        f"csv: {MAX_LOG_ROWS + 6} lines, more than the {MAX_LOG_ROWS} rows diagnosed per request"
+    )
+
+
+async def test_diagnose_log_bad_header(client: httpx.AsyncClient) -> None:
+    response = await client.post("/api/cell/diagnose/log", json={"csv": "a,b\n1,2\n"})
+    assert response.status_code == 422
+    assert "a" in response.json()["detail"]
+
+
+async def _finished(client: httpx.AsyncClient, job_id: str) -> dict[str, Any]:
+    for _ in range(600):
+        status = (await client.get(f"/api/jobs/{job_id}")).json()
+        if status["state"] not in ("queued", "running"):
+            return status
+        await asyncio.sleep(0.1)
+    raise AssertionError("job did not finish in 60 s")
+
+
+async def test_start_placement(client: httpx.AsyncClient) -> None:
+    response = await client.post(
+        "/api/placement", json={"half_width_mm": 200.0, "count": 3, "yaw_count": 2, "top": 3}
+    )
+    assert response.status_code == 202
+    status = await _finished(client, response.json()["id"])
+    assert status["state"] == "done", status["detail"]
+    report = status["result"]
+    # 3 x 3 positions x 2 yaws x 1 height (closed form)
+    assert report["candidates_evaluated"] == 18
+    assert report["grid"]["x_mm"] == pytest.approx([-200.0, 0.0, 200.0])  # demo foot at 0, 0
+    scores = [c["score"] for c in report["best"]]
+    assert scores == sorted(scores, reverse=True)
+    assert np.max(report["grid"]["score"]) == pytest.approx(scores[0])
+
+
+async def test_start_placement_too_large(client: httpx.AsyncClient) -> None:
+    response = await client.post("/api/placement", json={"count": 101, "yaw_count": 72})
+    assert response.status_code == 413
+    assert response.json()["detail"] == (
+        "grid: 101 x 101 positions x 72 yaws x 1 heights = 734472 candidates; this server "
+        f"searches at most {MAX_PLACEMENT_CANDIDATES}"
+    )
