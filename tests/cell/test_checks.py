@@ -353,3 +353,32 @@ def test_report_round_trips_and_renders(report) -> None:
         assert check.name in text
     assert f"{report.error_count} errors" in text
     assert all(line == line.rstrip() for line in text.splitlines())
+
+
+def _move_reject_bin(x_mm: float, y_mm: float):
+    def change(d: dict) -> None:
+        (bin_,) = [f for f in d["fixtures"] if f["name"] == "reject-bin"]
+        bin_["position_mm"] = [x_mm, y_mm, bin_["position_mm"][2]]
+
+    return change
+
+
+def test_demo_reject_drop_breaks_the_common_branch_until_the_bin_moves(report) -> None:
+    (bin_,) = [f for f in RAW["fixtures"] if f["name"] == "reject-bin"]
+    (drop,) = [t for t in RAW["targets"] if t["name"] == "reject-drop"]
+    # closed form: azimuth of the target about joint 1 (base at the world origin, no rotation,
+    # read from the cell file); on the front shoulder joint 1 must turn to it, and pb-arm6.toml
+    # limits j1 to +-170 deg
+    x = bin_["position_mm"][0] + drop["position_mm"][0]
+    y = bin_["position_mm"][1] + drop["position_mm"][1]
+    assert abs(np.degrees(np.arctan2(y, x))) > 170.0
+    coverage = report.consistent_branch
+    assert not coverage.consistent
+    assert coverage.breaking_targets == ["reject-drop"]
+    (check,) = [t for t in report.targets if t.name == "reject-drop"]
+    assert check.usable_branches and all(b.startswith("back") for b in check.usable_branches)
+
+    # the fix the cell notes suggest: the bin round to the side (azimuth 128 deg, inside +-170)
+    fixed = check_targets(variant(_move_reject_bin(-550.0, 700.0)))
+    assert fixed.consistent_branch.consistent
+    assert fixed.consistent_branch.breaking_targets == []
