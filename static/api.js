@@ -64,6 +64,11 @@ export function createApiClient({ baseUrl = "" } = {}) {
       request(`/api/cell/fixtures/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
     moveBase: (body, etag) => request("/api/cell/base", { method: "PATCH", body, ifMatch: etag }),
     startJointMap: (body) => request("/api/maps/joint", { method: "POST", body }),
+    targetCheck: () => request("/api/cell/check"),
+    pathCheck: (name) => request(`/api/cell/paths/${encodeURIComponent(name)}/check`),
+    diagnosePose: (joints) => request("/api/cell/diagnose/pose", { method: "POST", body: { joints_deg: joints } }),
+    diagnoseLog: (csv, source) => request("/api/cell/diagnose/log", { method: "POST", body: { csv, source } }),
+    startPlacement: (body) => request("/api/placement", { method: "POST", body }),
     readJob: (id, { signal } = {}) => request(`/api/jobs/${encodeURIComponent(id)}`, { signal }),
     cancelJob: (id) => request(`/api/jobs/${encodeURIComponent(id)}/cancel`, { method: "POST" }),
   };

@@ -157,6 +157,23 @@ export function createCellSync({ store, actions, api, linking }) {
 
   store.subscribe(applySelection, { keys: ["selection"] });
 
+  // a new cell version may have moved the selected target (its fixture moved): follow it
+  store.subscribe(
+    (state) => {
+      const target = selectedTarget(state);
+      if (!state.cellActive || !target || !state.target || pending !== null || state.dragging) {
+        return;
+      }
+      const moved = [...target.position_mm, ...target.rpy_deg].some(
+        (value, k) => Math.abs(value - [...state.target.position_mm, ...state.target.rpy_deg][k]) > 1e-6,
+      );
+      if (moved) {
+        actions.setTarget({ position_mm: [...target.position_mm], rpy_deg: [...target.rpy_deg] }, { reason: "select-target" });
+      }
+    },
+    { keys: ["cell"] },
+  );
+
   async function reloadCell() {
     const document = await api.readCell();
     store.update({ cell: document });
@@ -172,5 +189,21 @@ export function createCellSync({ store, actions, api, linking }) {
     await linking.loadRobot(document.robot, { cellActive: true, onLoaded });
   }
 
-  return { loadCell, reloadCell };
+  /** Move the robot's base (placement): saved into the cell at once. */
+  async function moveBase(edit) {
+    const { cell } = store.get();
+    try {
+      const document = await api.moveBase(edit, cell.etag);
+      store.update({ cell: document, cellSave: { state: "saved", message: "Saved the base" } });
+    } catch (error) {
+      if (error instanceof ApiError && error.status === 412) {
+        actions.setStatus("warn", "The cell was changed elsewhere; it was reloaded and the base was not moved.");
+        await reloadCell();
+      } else {
+        actions.setStatus("error", `Moving the base: ${error.message}`);
+      }
+    }
+  }
+
+  return { loadCell, reloadCell, moveBase };
 }

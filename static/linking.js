@@ -109,6 +109,23 @@ export function createLinking({ store, actions, api }) {
    * selects a target there); otherwise the robot stands alone at the world
    * origin and the target starts on its home tool pose.
    */
+  // a new cell version may move the base or change the tool: ask again for both
+  store.subscribe(
+    (state) => {
+      if (!state.cellActive || !state.robot || state.joints.length !== state.robot.dof) {
+        return;
+      }
+      fkChannel.request({ robot: state.robot.robot, joints_deg: state.joints, ...cellFrames(state) });
+      if (state.target) {
+        ikChannel.request(
+          { robot: state.robot.robot, pose: state.target, seed_deg: state.joints, ...cellFrames(state) },
+          { inputAt: performance.now() },
+        );
+      }
+    },
+    { keys: ["cell"] },
+  );
+
   async function loadRobot(spec, { cellActive = false, onLoaded = null } = {}) {
     fkChannel.cancel();
     ikChannel.cancel();

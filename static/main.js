@@ -13,6 +13,10 @@ import { createJointSpaceView } from "./views/jointspace3d.js";
 import { createProjectionView } from "./views/projection.js";
 import { createSceneView } from "./views/scene3d.js";
 import { createCellPanel } from "./panels/cell.js";
+import { createPathPanel } from "./panels/path.js";
+import { createPlacementPanel } from "./panels/placement.js";
+import { createPoseCheckPanel } from "./panels/posecheck.js";
+import { createTargetCheckPanel } from "./panels/targetcheck.js";
 import { createHeader } from "./panels/header.js";
 import { createJointsPanel } from "./panels/joints.js";
 import { createMarginsPanel } from "./panels/margins.js";
@@ -87,6 +91,17 @@ async function start() {
   createSolutionsPanel({ container: byId("solutions-panel"), store, actions, palette });
   createJointsPanel({ container: byId("joints-panel"), store, actions });
   createMarginsPanel({ container: byId("margins-panel"), store });
+  createTargetCheckPanel({ container: byId("target-check-panel"), store, actions, api });
+  createPoseCheckPanel({ container: byId("pose-check-panel"), store, actions, api, palette });
+  createPathPanel({ container: byId("path-panel"), store, actions, api });
+  createPlacementPanel({
+    container: byId("placement-panel"),
+    store,
+    actions,
+    api,
+    palette,
+    onMoveBase: (edit) => cellSync.moveBase(edit),
+  });
 
   // read-only handle for debugging and the browser tests
   window.posebridge = Object.freeze({ getState: store.get });

@@ -31,6 +31,11 @@
  *   jointMap3       finished three-joint map or null
  *   jointMap3Job    like jointMapJob, for the three-joint map
  *   pathCurve       {path, points: [joints...], branch} joint values along the selected path, or null
+ *   targetCheck     {etag, report} of the latest target check (TargetCheckReport) or null
+ *   poseCheck       the latest pose diagnosis (PoseDiagnosis) or null
+ *   logCheck        the latest log diagnosis (LogDiagnosis) or null
+ *   pathReport      {etag, report} of the latest path check (PathCheckReport) or null
+ *   placement       the latest base placement ranking (PlacementReport) or null
  */
 export function initialState() {
   return {
@@ -60,6 +65,11 @@ export function initialState() {
     jointMap3: null,
     jointMap3Job: null,
     pathCurve: null,
+    targetCheck: null,
+    poseCheck: null,
+    logCheck: null,
+    pathReport: null,
+    placement: null,
   };
 }
 

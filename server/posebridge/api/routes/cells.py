@@ -207,9 +207,11 @@ def move_fixture(
 def move_base(
     edit: BaseEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch = None
 ) -> CellDocument:
-    """New pedestal foot pose in the world; the robot and its pedestal move with it."""
+    """New pedestal foot pose in the world (and pedestal height); the robot moves with it."""
     expected = _expected_etag(if_match)
     update = _moved(edit.position_mm, edit.rpy_deg)
+    if edit.pedestal_height_mm is not None:
+        update["pedestal_height_mm"] = edit.pedestal_height_mm
 
     def change(cell: Cell) -> Cell:
         return cell.model_copy(update={"base": cell.base.model_copy(update=update)})

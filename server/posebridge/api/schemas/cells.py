@@ -167,12 +167,15 @@ class FixtureEdit(BaseModel):
     rpy_deg: Rpy | None = None
 
 
-# Move the robot: new pedestal foot pose in the world.
+# Move the robot: new pedestal foot pose in the world, and optionally a new pedestal height.
 class BaseEdit(BaseModel):
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Position | None = None
     rpy_deg: Rpy | None = None
+    pedestal_height_mm: float | None = Field(
+        default=None, ge=0.0, le=MAX_COORDINATE_MM, allow_inf_nan=False
+    )
 
 
 def _pose_mm_deg(T: FloatArray) -> tuple[list[Any], list[Any]]:

@@ -1,0 +1,260 @@
+// Pose check panel: paste joint values (one pose) or a CSV controller log, or
+// load a log file, and see it diagnosed in the cell. A pose shows its TCP,
+// branch, margins, singularity, clearance with the closest object, nearest
+// targets and the other branches. A log shows a timeline of the smallest
+// limit margin, the clearance and the manipulability per row, with the worst
+// row highlighted and branch flips and velocity jumps marked; the scrub bar
+// and the play button move the arm through the log on both sides.
+
+/* global Plotly */
+
+import { element } from "./fields.js";
+import { PLOT_CONFIG } from "../views/plotting.js";
+import { formatLength, formatNumber } from "../units.js";
+
+const PLAY_STEP_MS = 60;
+
+/** Joint values per row of a CSV log, in the robot's joint order (a header names the joints). */
+export function parseLogJoints(text, jointNames) {
+  const lines = text.split(/\r?\n/).filter((line) => line.trim() !== "");
+  const header = lines[0].split(",").map((name) => name.trim());
+  const columns = jointNames.map((name) => header.indexOf(name));
+  return lines.slice(1).map((line) => {
+    const values = line.split(",");
+    return columns.map((column) => Number(values[column]));
+  });
+}
+
+/** Whether pasted text is a log (a header line naming a joint) rather than one pose. */
+export function looksLikeLog(text, jointNames) {
+  const first = text.trim().split(/\r?\n/)[0] || "";
+  return jointNames.some((name) => first.split(",").map((s) => s.trim()).includes(name));
+}
+
+/** Numbers of a pasted pose: separated by commas, semicolons or spaces. */
+export function parsePose(text) {
+  return text.trim().split(/[\s,;]+/).filter(Boolean).map(Number);
+}
+
+/**
+ * @param {{container: HTMLElement, store: object, actions: object, api: object, palette: object}} options
+ */
+export function createPoseCheckPanel({ container, store, actions, api, palette }) {
+  const input = element("textarea", {
+    attributes: { id: "pose-input", rows: "3", "aria-label": "Joint values, or a CSV log with a header of joint names", placeholder: "Joint values (deg; mm for prismatic joints), e.g. 10, 20, -30, 0, 60, 0 — or paste a CSV log" },
+  });
+  const check = element("button", { text: "Diagnose", attributes: { type: "button", id: "pose-check" } });
+  const current = element("button", { text: "Use the arm's joints", attributes: { type: "button", id: "pose-current" } });
+  const file = element("input", { attributes: { type: "file", id: "log-file", accept: ".csv,text/csv", "aria-label": "Load a CSV log" } });
+  const result = element("div", { attributes: { id: "pose-result" } });
+  const timeline = element("div", { className: "pb-plot pb-plot-timeline", attributes: { id: "log-timeline" } });
+  const scrub = element("input", { attributes: { type: "range", id: "log-scrub", min: "0", max: "0", step: "1", "aria-label": "Log row" } });
+  const play = element("button", { text: "Play", attributes: { type: "button", id: "log-play" } });
+  const rowText = element("output", { attributes: { id: "log-row" } });
+  const player = element("div", { className: "pb-controls", attributes: { id: "log-player" } }, [play, scrub, rowText]);
+  container.append(
+    input,
+    element("div", { className: "pb-controls" }, [check, current, element("label", { text: "Log file " }, [file])]),
+    result,
+    timeline,
+    player,
+  );
+  player.hidden = true;
+  timeline.hidden = true;
+  let logJoints = [];
+  let playing = null;
+  let clickBound = false;
+
+  function jointNames() {
+    const { robot } = store.get();
+    return robot ? robot.joints.map((joint) => joint.name) : [];
+  }
+
+  async function diagnose(text, source) {
+    const { robot, cellActive } = store.get();
+    if (!robot || !cellActive) {
+      actions.setStatus("warn", "The pose check works on the cell's robot: show the cell first.");
+      return;
+    }
+    try {
+      if (looksLikeLog(text, jointNames())) {
+        const log = await api.diagnoseLog(text, source);
+        logJoints = parseLogJoints(text, jointNames());
+        store.update({ logCheck: log, poseCheck: null });
+      } else {
+        const joints = parsePose(text);
+        const pose = await api.diagnosePose(joints);
+        store.update({ poseCheck: pose, logCheck: null });
+      }
+    } catch (error) {
+      result.replaceChildren(element("p", { className: "pb-error", text: error.message }));
+    }
+  }
+
+  check.addEventListener("click", () => diagnose(input.value, "pasted log"));
+  current.addEventListener("click", () => {
+    input.value = store.get().joints.map((v) => formatNumber(v, { decimals: 2 })).join(", ");
+    diagnose(input.value, "pasted pose");
+  });
+  file.addEventListener("change", async () => {
+    const chosen = file.files[0];
+    if (chosen) {
+      diagnose(await chosen.text(), chosen.name);
+    }
+  });
+
+  function closestText(closest) {
+    return closest ? `${formatLength(closest.distance_mm)} (${closest.capsule} – ${closest.other})` : "–";
+  }
+
+  function poseView(pose) {
+    const lines = [
+      ["TCP (world)", `${pose.tcp_world.position_mm.map((v) => formatNumber(v)).join(", ")} mm; rpy ${pose.tcp_world.rpy_deg.map((v) => formatNumber(v)).join(", ")} deg`],
+      ["Branch", pose.branch || "–"],
+      ["Within limits", pose.within_limits ? "yes" : "no"],
+      ["Smallest margin", pose.min_margin_joint ? `${pose.min_margin_joint} (${formatNumber(100 * pose.min_margin_fraction, { decimals: 0 })} % of its range)` : "–"],
+      ["Singularity", pose.singularity ? `${pose.singularity.kind}; wrist bend ${formatNumber(pose.singularity.wrist_bend_deg)} deg` : "–"],
+      ["Manipulability", formatNumber(pose.manipulability, { decimals: 4 })],
+      ["Clearance", closestText(pose.closest)],
+      ["Nearest target", pose.nearest_targets.length ? `${pose.nearest_targets[0].name} (${formatLength(pose.nearest_targets[0].distance_mm)}, ${formatNumber(pose.nearest_targets[0].angle_deg)} deg)` : "–"],
+      ["Other branches", pose.branches.map((b) => `${b.branch}${b.usable ? "" : " (not usable)"}`).join("; ") || "–"],
+    ];
+    const rows = lines.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));
+    const show = element("button", { text: "Move the arm here", attributes: { type: "button", id: "pose-show" } });
+    show.addEventListener("click", () => actions.setJoints([...pose.joints_deg], { reason: "pose-check" }));
+    return [element("table", { className: "pb-facts", attributes: { id: "pose-facts" } }, rows), show, findingList(pose.findings)];
+  }
+
+  function findingList(findings) {
+    return element("ul", { className: "pb-findings" }, findings.map((f) =>
+      element("li", { attributes: { "data-severity": f.severity } }, [element("span", { className: "pb-severity", text: f.severity }), ` ${f.message}`]),
+    ));
+  }
+
+  function moveToRow(row) {
+    const joints = logJoints[row];
+    if (joints && joints.every(Number.isFinite)) {
+      scrub.value = String(row);
+      rowText.textContent = `row ${row}`;
+      actions.setJoints([...joints], { reason: "log" });
+      if (timeline.data) {
+        Plotly.relayout(timeline, { "shapes[1].x0": row, "shapes[1].x1": row });
+      }
+    }
+  }
+
+  function drawTimeline(log) {
+    const rows = log.rows;
+    const x = rows.line.map((_, k) => k);
+    const worst = log.worst_row.row;
+    const marginPercent = rows.min_margin_fraction.map((v) => (v === null ? null : 100 * v));
+    const traces = [
+      { x, y: marginPercent, name: "smallest limit margin (% of range)", yaxis: "y", line: { color: palette["branch-1"] } },
+      { x, y: rows.clearance_mm, name: "clearance (mm)", yaxis: "y2", line: { color: palette["branch-3"] } },
+      { x, y: rows.manipulability, name: "manipulability", yaxis: "y3", line: { color: palette["branch-5"] } },
+      {
+        x: log.branch_flips.map((flip) => flip.row),
+        y: log.branch_flips.map(() => 0),
+        yaxis: "y3",
+        mode: "markers",
+        name: "branch flip",
+        marker: { symbol: "triangle-up", size: 10, color: palette.warn },
+        text: log.branch_flips.map((flip) => `${flip.part}: ${flip.before} → ${flip.after}`),
+        hovertemplate: "%{text}<extra>row %{x}</extra>",
+      },
+      {
+        x: log.velocity.jumps.map((jump) => jump.row),
+        y: log.velocity.jumps.map(() => 0),
+        yaxis: "y2",
+        mode: "markers",
+        name: "velocity jump",
+        marker: { symbol: "x", size: 9, color: palette.bad },
+        text: log.velocity.jumps.map((jump) => `${jump.joint} ${formatNumber(jump.ratio, { decimals: 1 })}× its limit`),
+        hovertemplate: "%{text}<extra>row %{x}</extra>",
+      },
+    ].map((trace) => ({ type: "scatter", mode: "lines", ...trace }));
+    const axis = (domain, title) => ({ domain, title: { text: title, font: { size: 10 } }, zeroline: true, gridcolor: "#eceff2" });
+    Plotly.react(
+      timeline,
+      traces,
+      {
+        margin: { l: 56, r: 10, t: 8, b: 34 },
+        showlegend: true,
+        legend: { orientation: "h", y: -0.22, font: { size: 10 } },
+        xaxis: { title: { text: "log row" }, range: [0, Math.max(1, x.length - 1)] },
+        yaxis: axis([0.7, 1], "margin %"),
+        yaxis2: axis([0.36, 0.64], "clear. mm"),
+        yaxis3: axis([0, 0.3], "manip."),
+        shapes: [
+          { type: "rect", xref: "x", yref: "paper", x0: worst - 0.5, x1: worst + 0.5, y0: 0, y1: 1, fillcolor: "rgba(213, 94, 0, 0.25)", line: { width: 0 } },
+          { type: "line", xref: "x", yref: "paper", x0: 0, x1: 0, y0: 0, y1: 1, line: { color: palette.ink, width: 1 } },
+        ],
+        annotations: [{ xref: "x", yref: "paper", x: worst, y: 1, yanchor: "bottom", text: `worst row ${worst}`, showarrow: false, font: { size: 10, color: palette.bad } }],
+        font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
+        paper_bgcolor: "rgba(0,0,0,0)",
+      },
+      PLOT_CONFIG,
+    );
+    if (!clickBound) {
+      clickBound = true;
+      timeline.on("plotly_click", (event) => {
+        if (event.points.length) {
+          moveToRow(Math.round(event.points[0].x));
+        }
+      });
+    }
+  }
+
+  function logView(log) {
+    const worst = log.worst_row;
+    const facts = [
+      ["Rows", `${log.row_count}${log.duration_s ? ` over ${formatNumber(log.duration_s, { decimals: 2 })} s` : ""}`],
+      ["Worst row", `row ${worst.row} (line ${worst.line}): ${worst.reason}`],
+      ["Smallest clearance", log.min_clearance ? `${formatLength(log.min_clearance.value)} at row ${log.min_clearance.row}` : "–"],
+      ["Branch flips", String(log.branch_flip_count)],
+      ["Velocity jumps", log.velocity.checked ? String(log.velocity.jump_count) : `not checked: ${log.velocity.reason}`],
+    ];
+    const rows = facts.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));
+    const jump = element("button", { text: "Go to the worst row", attributes: { type: "button", id: "log-worst" } });
+    jump.addEventListener("click", () => moveToRow(worst.row));
+    return [element("table", { className: "pb-facts", attributes: { id: "log-facts", "data-worst-row": String(worst.row) } }, rows), jump, findingList(log.findings)];
+  }
+
+  play.addEventListener("click", () => {
+    if (playing !== null) {
+      clearInterval(playing);
+      playing = null;
+      play.textContent = "Play";
+      return;
+    }
+    play.textContent = "Pause";
+    playing = setInterval(() => {
+      const next = Number(scrub.value) + 1;
+      if (next > Number(scrub.max)) {
+        clearInterval(playing);
+        playing = null;
+        play.textContent = "Play";
+        return;
+      }
+      moveToRow(next);
+    }, PLAY_STEP_MS);
+  });
+  scrub.addEventListener("input", () => moveToRow(Number(scrub.value)));
+
+  function render() {
+    const { poseCheck, logCheck } = store.get();
+    timeline.hidden = !logCheck;
+    player.hidden = !logCheck;
+    if (poseCheck) {
+      result.replaceChildren(...poseView(poseCheck));
+    } else if (logCheck) {
+      result.replaceChildren(...logView(logCheck));
+      scrub.max = String(Math.max(0, logCheck.row_count - 1));
+      drawTimeline(logCheck);
+      moveToRow(logCheck.worst_row.row);
+    }
+  }
+
+  store.subscribe(render, { keys: ["poseCheck", "logCheck"] });
+  return { render };
+}
