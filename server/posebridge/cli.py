@@ -199,7 +199,7 @@ def _cmd_fk(args: argparse.Namespace) -> int:
         print(f"  rpy_deg:         {_format_row(entry['rpy_deg'])}")
         print(f"  quaternion_wxyz: {_format_row(entry['quaternion_wxyz'], 6)}")
         print(f"  manipulability:  {entry['manipulability']:.6g}")
-        margins = entry["limit_margins"]
+        margins = entry["limit_margins_deg"]
         print(
             "  limit margins:   "
             + ", ".join(
@@ -305,6 +305,236 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
     else:
         print(render_pose_diagnosis(pose_result))
     return _exit_for_findings(pose_result.findings)
+
+
+class _ProgressBar:
+    """A one-line progress bar on stderr, ``progress(done, total)`` style."""
+
+    def __init__(self, label: str, *, enabled: bool) -> None:
+        self.label = label
+        self.enabled = enabled and sys.stderr.isatty()
+
+    def __call__(self, done: int, total: int) -> None:
+        if not self.enabled or total <= 0:
+            return
+        width = 30
+        filled = int(width * done / total)
+        sys.stderr.write(f"\r{self.label} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+
+def _executor(args: argparse.Namespace) -> Any:
+    from posebridge.compute import make_executor
+
+    return make_executor(scheduler=args.scheduler, workers=args.workers)
+
+
+def _parse_range(text: str, what: str) -> FloatArray:
+    """``"start:stop:count"`` (inclusive, evenly spaced) or a single value."""
+    parts = text.split(":")
+    if len(parts) == 1:
+        return np.array(_parse_numbers(parts[0], what, 1))
+    if len(parts) != 3:
+        raise InputError(f"{what}: expected START:STOP:COUNT or one value, got {text!r}")
+    start, stop = _parse_numbers(parts[0], what, 1)[0], _parse_numbers(parts[1], what, 1)[0]
+    try:
+        count = int(parts[2])
+    except ValueError:
+        raise InputError(f"{what}: COUNT {parts[2]!r} is not a whole number") from None
+    if not 1 <= count <= 1000:
+        raise InputError(f"{what}: COUNT must be 1..1000, got {count}")
+    return np.linspace(start, stop, count)
+
+
+def _parse_grid(text: str) -> dict[str, FloatArray]:
+    """``"x_mm=-1000:1000:21 y_mm=-1000:1000:21 yaw_deg=0:315:8 height_mm=400"``."""
+    allowed = ("x_mm", "y_mm", "yaw_deg", "height_mm")
+    grid: dict[str, FloatArray] = {}
+    for item in text.replace(",", " ").split():
+        key, sep, value = item.partition("=")
+        if not sep or key not in allowed:
+            raise InputError(
+                f"--grid: expected items KEY=START:STOP:COUNT with KEY in {', '.join(allowed)}, got {item!r}"
+            )
+        grid[key] = _parse_range(value, f"--grid {key}")
+    return grid
+
+
+def _cmd_reach(args: argparse.Namespace) -> int:
+    from posebridge.robot.library import load_robot
+    from posebridge.spaces.workspace import reach_map
+    from posebridge.units import m_from_mm, mm_from_m
+
+    robot = load_robot(args.robot)
+    if not 5.0 <= args.voxel_mm <= 1000.0:
+        raise InputError(f"--voxel-mm: expected 5..1000, got {args.voxel_mm:g}")
+    with _executor(args) as executor:
+        result = reach_map(
+            robot,
+            voxel_size_m=float(m_from_mm(args.voxel_mm)),
+            executor=executor,
+            progress=_ProgressBar("reach map", enabled=not args.json),
+        )
+    directions = result.directions.shape[0]
+    reachable = int(np.count_nonzero(result.count))
+    every = int(np.count_nonzero(result.count == directions))
+    voxel_m3 = result.voxel_size**3
+    summary = {
+        "robot": args.robot,
+        "voxel_mm": float(mm_from_m(result.voxel_size)),
+        "tool_directions": directions,
+        "shape": list(result.count.shape),
+        "voxels_reachable_any_direction": reachable,
+        "voxels_reachable_every_direction": every,
+        "volume_any_direction_m3": reachable * voxel_m3,
+        "volume_every_direction_m3": every * voxel_m3,
+    }
+    if args.json:
+        summary |= {
+            "x_mm": mm_from_m(result.x).tolist(),
+            "y_mm": mm_from_m(result.y).tolist(),
+            "z_mm": mm_from_m(result.z).tolist(),
+            "count": result.count.tolist(),
+            "best_manipulability": np.round(result.best_manipulability, 6).tolist(),
+        }
+        _print_json(summary)
+        return EXIT_OK
+    for key, value in summary.items():
+        print(f"{key:<34} {value}")
+    return EXIT_OK
+
+
+def _cmd_jointmap(args: argparse.Namespace) -> int:
+    from posebridge.api.schemas.maps import joint_map_result
+    from posebridge.cell import load_cell, resolve_scene
+    from posebridge.cell.clearance import clearance_scene
+    from posebridge.cell.files import cell_etag
+    from posebridge.spaces.joint_map import joint_map
+    from posebridge.units import joint_unit_labels, joints_si_from_user
+
+    cell = load_cell(args.cell)
+    scene = resolve_scene(cell, Path(args.cell))
+    robot = scene.robot
+    names = [n.strip() for n in args.joints.split(",")]
+    unknown = [n for n in names if n not in robot.joint_names]
+    if unknown or len(names) not in (2, 3):
+        raise InputError(
+            f"--joints: expected 2 or 3 of {', '.join(robot.joint_names)}, got {args.joints!r}"
+        )
+    q_hold = (
+        joints_si_from_user(_parse_numbers(args.hold, "--hold", robot.dof), robot.prismatic)
+        if args.hold
+        else robot.home_configuration()
+    )
+    with _executor(args) as executor:
+        computed = joint_map(
+            clearance_scene(scene),
+            [robot.joint_names.index(n) for n in names],
+            q_hold,
+            resolution=args.resolution,
+            executor=executor,
+            progress=_ProgressBar("joint map", enabled=not args.json),
+        )
+    result = joint_map_result(computed, robot, cell_etag(cell))
+    if args.json:
+        _print_json(result.model_dump(mode="json"))
+        return EXIT_OK
+    total = int(np.prod(result.shape))
+    free = sum(
+        1 for o, sc in zip(result.obstacle, result.self_collision, strict=True) if o < 0 and not sc
+    )
+    print(
+        f"joint map over {', '.join(names)} ({' x '.join(map(str, result.shape))} cells), other joints held at"
+    )
+    print(f"  {_format_row(result.hold_deg, 2)} ({', '.join(joint_unit_labels(robot.prismatic))})")
+    print(f"free cells: {free} of {total} ({100.0 * free / total:.1f} %)")
+    for name in result.colliding_obstacles:
+        k = result.obstacle_names.index(name)
+        print(f"  in collision with {name}: {sum(1 for o in result.obstacle if o == k)} cells")
+    print(f"  self-collision: {sum(result.self_collision)} cells")
+    return EXIT_OK
+
+
+def _cmd_paths(args: argparse.Namespace) -> int:
+    from posebridge.planning.path_check import check_path
+    from posebridge.planning.reports import render_path_check
+
+    scene = _load_scene(args.cell)
+    names = [p.name for p in scene.paths]
+    if args.path is not None and args.path not in names:
+        raise InputError(f"unknown path {args.path!r}; the cell has: {', '.join(names) or 'none'}")
+    chosen = [i for i, name in enumerate(names) if args.path in (None, name)]
+    reports = [check_path(scene, i, resolution_mm=args.resolution_mm) for i in chosen]
+    if args.json:
+        _print_json([r.model_dump(mode="json") for r in reports])
+    else:
+        print("\n\n".join(render_path_check(r) for r in reports))
+    return EXIT_FINDINGS if any(not r.ok for r in reports) else EXIT_OK
+
+
+def _cmd_plan(args: argparse.Namespace) -> int:
+    from posebridge.planning.reports import render_joint_plan
+    from posebridge.planning.rrt import plan_joint_move
+    from posebridge.units import joints_si_from_user
+
+    scene = _load_scene(args.cell)
+    robot = scene.robot
+    start = joints_si_from_user(_parse_numbers(args.start, "--from", robot.dof), robot.prismatic)
+    goal = joints_si_from_user(_parse_numbers(args.goal, "--to", robot.dof), robot.prismatic)
+    report = plan_joint_move(scene, start, goal, seed=args.seed, time_limit_s=args.time_limit_s)
+    if args.json:
+        _print_json(report.model_dump(mode="json"))
+    else:
+        print(render_joint_plan(report))
+    return EXIT_OK if report.status in ("solved", "direct") else EXIT_FINDINGS
+
+
+def _cmd_place(args: argparse.Namespace) -> int:
+    from posebridge.planning.placement import PlacementGrid, search_base_placement
+    from posebridge.planning.reports import render_placement
+    from posebridge.units import deg_from_rad, mm_from_m
+
+    scene = _load_scene(args.cell)
+    grid = None
+    if args.grid:
+        around = PlacementGrid.around(scene)
+        given = _parse_grid(args.grid)
+        grid = PlacementGrid.from_user(
+            given.get("x_mm", mm_from_m(around.x)),
+            given.get("y_mm", mm_from_m(around.y)),
+            given.get("yaw_deg", deg_from_rad(around.yaw)),
+            given.get("height_mm", mm_from_m(around.height)),
+        )
+    with _executor(args) as executor:
+        result = search_base_placement(
+            scene,
+            grid,
+            executor=executor,
+            progress=_ProgressBar("base placement", enabled=not args.json),
+            top=args.top,
+        )
+    if args.json:
+        _print_json(result.report.model_dump(mode="json"))
+    else:
+        print(render_placement(result.report, top=args.top))
+    return EXIT_OK
+
+
+def _cmd_report(args: argparse.Namespace) -> int:
+    from posebridge.report import write_report
+
+    write_report(Path(args.cell), Path(args.output))
+    print(f"review report written to {args.output}")
+    return EXIT_OK
+
+
+def _cmd_schema(args: argparse.Namespace) -> int:
+    from posebridge.cell import cell_json_schema
+
+    _print_json(cell_json_schema())
+    return EXIT_OK
 
 
 def _cmd_serve(args: argparse.Namespace) -> int:
@@ -414,6 +644,84 @@ def build_parser() -> argparse.ArgumentParser:
     diagnose.add_argument("--json", action="store_true", help="print JSON")
     diagnose.set_defaults(run=_cmd_diagnose)
 
+    def add_executor_options(command: argparse.ArgumentParser) -> None:
+        command.add_argument(
+            "--workers", type=int, help="local worker processes (default: one per core)"
+        )
+        command.add_argument(
+            "--scheduler", help="use an existing Dask cluster, e.g. tcp://HOST:8786"
+        )
+
+    reach = sub.add_parser("reach", help="voxel reach map: reachable tool directions per voxel")
+    reach.add_argument("robot", help="bundled robot name or .toml/.urdf path")
+    reach.add_argument("--voxel-mm", type=float, default=50.0, help="voxel edge (default 50 mm)")
+    add_executor_options(reach)
+    reach.add_argument("--json", action="store_true", help="print JSON with the whole grid")
+    reach.set_defaults(run=_cmd_reach)
+
+    jointmap = sub.add_parser(
+        "jointmap", help="joint-space obstacle map over 2 or 3 joints of a cell"
+    )
+    jointmap.add_argument("cell", help="cell file (JSON)")
+    jointmap.add_argument(
+        "--joints", default="j2,j3", help="joint names, e.g. j2,j3 (default) or j1,j2,j3"
+    )
+    jointmap.add_argument(
+        "--hold", help="values of every joint; the mapped ones are ignored (default: home)"
+    )
+    jointmap.add_argument(
+        "--resolution", type=int, default=128, help="cells per joint (2 joints <= 512, 3 <= 128)"
+    )
+    add_executor_options(jointmap)
+    jointmap.add_argument("--json", action="store_true", help="print JSON with the whole grid")
+    jointmap.set_defaults(run=_cmd_jointmap)
+
+    paths = sub.add_parser(
+        "paths", help="check the cell's paths and their cycle time (exit 1 on errors)"
+    )
+    paths.add_argument("cell", help="cell file (JSON)")
+    paths.add_argument("path", nargs="?", help="one path by name (default: all)")
+    paths.add_argument(
+        "--resolution-mm", type=float, default=5.0, help="sampling step of linear moves"
+    )
+    paths.add_argument("--json", action="store_true", help="print JSON")
+    paths.set_defaults(run=_cmd_paths)
+
+    plan = sub.add_parser(
+        "plan", help="collision-free joint move between two configurations (RRT-Connect)"
+    )
+    plan.add_argument("cell", help="cell file (JSON)")
+    plan.add_argument(
+        "--from", dest="start", required=True, help="start joint values (deg; mm for prismatic)"
+    )
+    plan.add_argument(
+        "--to", dest="goal", required=True, help="goal joint values (deg; mm for prismatic)"
+    )
+    plan.add_argument("--seed", type=int, default=1, help="random seed (same seed, same path)")
+    plan.add_argument("--time-limit-s", type=float, default=5.0, help="planning time limit")
+    plan.add_argument("--json", action="store_true", help="print JSON")
+    plan.set_defaults(run=_cmd_plan)
+
+    place = sub.add_parser("place", help="search base placements and rank them")
+    place.add_argument("cell", help="cell file (JSON)")
+    place.add_argument(
+        "--grid",
+        help='candidates, e.g. "x_mm=-1000:1000:21 y_mm=-1000:1000:21 yaw_deg=0:315:8 height_mm=400" '
+        "(default: +-1 m around the current base, 21 x 21 x 8 yaws)",
+    )
+    place.add_argument("--top", type=int, default=10, help="candidates to list (default 10)")
+    add_executor_options(place)
+    place.add_argument("--json", action="store_true", help="print JSON with the whole score grid")
+    place.set_defaults(run=_cmd_place)
+
+    report = sub.add_parser("report", help="write a self-contained HTML review report")
+    report.add_argument("cell", help="cell file (JSON)")
+    report.add_argument("-o", "--output", required=True, help="output .html file")
+    report.set_defaults(run=_cmd_report)
+
+    schema = sub.add_parser("schema", help="print the JSON Schema of cell files")
+    schema.set_defaults(run=_cmd_schema)
+
     bench = sub.add_parser("bench", help="measure throughput and speed ratios")
     bench.add_argument("--quick", action="store_true", help="smaller problems, same keys")
     bench.add_argument("--json", action="store_true", help="print one flat JSON object of numbers")
@@ -426,8 +734,12 @@ def _input_error_types() -> tuple[type[BaseException], ...]:
     from posebridge.cell.files import CellConflictError
     from posebridge.cell.joint_log import JointLogError
     from posebridge.cell.model import CellFileError
+    from posebridge.compute import ComputationCancelled, ExecutorError
     from posebridge.kinematics.fk import KinematicsInputError
+    from posebridge.planning.errors import PlanningInputError
+    from posebridge.report import ReportError
     from posebridge.robot.errors import RobotDescriptionError
+    from posebridge.spaces.errors import SpacesInputError
     from posebridge.transforms import TransformError
 
     return (
@@ -439,13 +751,43 @@ def _input_error_types() -> tuple[type[BaseException], ...]:
         CellFileError,
         CellConflictError,
         JointLogError,
+        PlanningInputError,
+        SpacesInputError,
+        ReportError,
+        ExecutorError,
+        ComputationCancelled,
     )
+
+
+_VALUE_OPTIONS = ("--joints", "--pose", "--seed", "--tool", "--from", "--to", "--hold")
+"""Options whose value is a comma-separated list that often starts with a minus sign."""
+
+
+def _attach_negative_values(argv: Sequence[str]) -> list[str]:
+    """``--joints -10,20`` -> ``--joints=-10,20`` so argparse does not read ``-10,20`` as an option."""
+    joined: list[str] = []
+    index = 0
+    while index < len(argv):
+        token = argv[index]
+        following = argv[index + 1] if index + 1 < len(argv) else None
+        if (
+            token in _VALUE_OPTIONS
+            and following is not None
+            and following.startswith("-")
+            and following[1:2] in "0123456789."
+        ):
+            joined.append(f"{token}={following}")
+            index += 2
+            continue
+        joined.append(token)
+        index += 1
+    return joined
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     """Run the command line; returns the exit code."""
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_attach_negative_values(sys.argv[1:] if argv is None else argv))
     run: Callable[[argparse.Namespace], int] = args.run
     try:
         return run(args)
