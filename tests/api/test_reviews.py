@@ -292,6 +292,41 @@ async def test_compute_fk_reviewer_allowed(
     assert response.status_code == 200
 
 
+async def test_diagnose_pose_reviewer_allowed(
+    shared_app: FastAPI, token: str, clients: ClientFactory
+) -> None:
+    reviewer = clients(shared_app, headers=_bearer(token))
+    response = await reviewer.post(
+        "/api/cell/diagnose/pose", json={"joints_deg": [0, 0, 0, 0, 30, 0]}
+    )
+    assert response.status_code == 200
+
+
+async def test_path_check_reviewer_rate_capped(
+    shared_app: FastAPI, token: str, clients: ClientFactory
+) -> None:
+    reviewer = clients(shared_app, headers=_bearer(token))
+    burst = REVIEWER_CAPS["check"].burst
+    for _ in range(burst):  # an unknown path answers at once, but counts as a check
+        assert (await reviewer.get("/api/cell/paths/no-such-path/check")).status_code == 404
+    refused = await reviewer.get("/api/cell/paths/no-such-path/check")
+    assert refused.status_code == 429
+    assert refused.json()["detail"].startswith("too many check requests from this address")
+    assert (await reviewer.get("/api/cell")).status_code == 200  # plain reads go on
+
+
+async def test_placement_job_reviewer_rate_capped(
+    shared_app: FastAPI, token: str, clients: ClientFactory
+) -> None:
+    reviewer = clients(shared_app, headers=_bearer(token))
+    burst = REVIEWER_CAPS["heavy"].burst
+    for _ in range(burst):  # an invalid request starts no job, but counts
+        assert (await reviewer.post("/api/placement", json={"no": "such field"})).status_code == 422
+    refused = await reviewer.post("/api/placement", json={"no": "such field"})
+    assert refused.status_code == 429
+    assert refused.json()["detail"].startswith("too many heavy requests from this address")
+
+
 async def test_add_comment_reviewer(
     shared_app: FastAPI, token: str, cell_file: Path, clients: ClientFactory
 ) -> None:

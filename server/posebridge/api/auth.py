@@ -18,10 +18,10 @@ serve --share``), every request is one of:
 * anyone else — 401; a wrong token is 401 wherever it comes from.
 
 A reviewer is read-only. Allowed: ``GET``/``HEAD``/``OPTIONS`` of anything;
-the ``POST``s of :data:`REVIEWER_ACTIONS` — read-only computations
-(forward/inverse kinematics; checks and maps that change nothing but cost
-CPU are added there with the ``"compute"`` or the stricter ``"heavy"`` cap)
-and adding a comment; and leaving review mode. Every other request — a
+the requests of :data:`REVIEWER_ACTIONS` — read-only computations that
+change nothing but cost CPU (kinematics, target and path checks, pose and
+log diagnosis, joint maps and base placement jobs), each under a rate cap
+stricter the costlier it is — and adding a comment; and leaving review mode. Every other request — a
 cell ``PUT``/``PATCH``, resolving a comment, anything not listed — is 403
 whatever the route, so a new write route is refused to reviewers until it
 is listed.
@@ -77,26 +77,35 @@ MAX_BODY_BYTES_OWNER: Final = 16_000_000
 REVIEWER_CAPS: Final[dict[str, RateCap]] = {
     "read": RateCap(per_second=20.0, burst=300),
     "compute": RateCap(per_second=20.0, burst=60),
-    "heavy": RateCap(per_second=0.1, burst=3),
+    "check": RateCap(per_second=1.0, burst=10),
+    "heavy": RateCap(per_second=0.25, burst=8),
     "comment": RateCap(per_second=0.2, burst=5),
     "refused": RateCap(per_second=1.0, burst=20),
 }
 """Rate caps per client address and kind of request (token bucket, see
 :class:`posebridge.review.access.RateLimiter`). ``read``: GET/HEAD/OPTIONS;
-``compute``/``heavy``: listed read-only computations; ``comment``: new
-comments; ``refused``: 401 and 403 answers to non-owners."""
+``compute``: fast read-only computations (FK, IK, one pose); ``check``:
+checks that take up to a second (targets, a path, a log); ``heavy``: jobs
+(maps, base placement; the job manager adds its own per-client limits);
+``comment``: new comments; ``refused``: 401 and 403 answers to non-owners."""
 
 REVIEWER_ACTIONS: Final[dict[tuple[str, str], str]] = {
     ("POST", "/api/fk"): "compute",
     ("POST", "/api/ik"): "compute",
+    ("GET", "/api/cell/check"): "check",
+    ("GET", "/api/cell/paths/{name}/check"): "check",
+    ("POST", "/api/cell/diagnose/pose"): "compute",
+    ("POST", "/api/cell/diagnose/log"): "check",
     ("POST", "/api/maps/joint"): "heavy",
+    ("POST", "/api/placement"): "heavy",
     ("POST", "/api/jobs/{job_id}/cancel"): "compute",
     ("POST", "/api/reviews/comments"): "comment",
     ("DELETE", "/api/reviews/session"): "read",
 }
-"""Requests other than GET/HEAD/OPTIONS a reviewer may make, by method and
-route path template (``{name}`` stands for one path segment), with their
-rate-cap kind. Everything else is 403."""
+"""Requests a reviewer may make beyond plain reads, and costly reads, by method
+and route path template (``{name}`` stands for one path segment), with their
+rate-cap kind. Any other GET/HEAD/OPTIONS is a ``read``; any other request
+is 403."""
 
 
 def _path_pattern(template: str) -> re.Pattern[str]:
@@ -272,12 +281,10 @@ class ReviewAccessMiddleware:
     def _reviewer_kind(scope: Scope) -> str | None:
         """Rate-cap kind of a reviewer's request, None when reviewers may not make it."""
         method = scope["method"]
-        if method in _SAFE_METHODS:
-            return "read"
         for (allowed_method, pattern), kind in _REVIEWER_PATTERNS:
             if method == allowed_method and pattern.fullmatch(scope["path"]):
                 return kind
-        return None
+        return "read" if method in _SAFE_METHODS else None
 
     async def _refused(
         self,
