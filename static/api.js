@@ -71,6 +71,12 @@ export function createApiClient({ baseUrl = "" } = {}) {
     startPlacement: (body) => request("/api/placement", { method: "POST", body }),
     readJob: (id, { signal } = {}) => request(`/api/jobs/${encodeURIComponent(id)}`, { signal }),
     cancelJob: (id) => request(`/api/jobs/${encodeURIComponent(id)}/cancel`, { method: "POST" }),
+    reviewAccess: () => request("/api/reviews/access"),
+    leaveReview: () => request("/api/reviews/session", { method: "DELETE" }),
+    listComments: () => request("/api/reviews/comments"),
+    addComment: (body) => request("/api/reviews/comments", { method: "POST", body }),
+    resolveComment: (id, resolved) =>
+      request(`/api/reviews/comments/${encodeURIComponent(id)}`, { method: "PATCH", body: { resolved } }),
   };
 }
 

@@ -23,6 +23,7 @@ import { createMarginsPanel } from "./panels/margins.js";
 import { createSolutionsPanel } from "./panels/solutions.js";
 import { createTargetPanel } from "./panels/target.js";
 import { createToolPanel } from "./panels/tool.js";
+import { startReview } from "./review.js";
 
 async function start() {
   const store = createStore({ initial: initialState() });
@@ -107,6 +108,7 @@ async function start() {
   window.posebridge = Object.freeze({ getState: store.get });
 
   try {
+    await startReview({ store, api, banner: byId("review-banner"), commentsContainer: byId("comments-panel") });
     const library = await api.listRobots();
     store.update({ robots: library.robots });
     await cellSync.loadCell();
