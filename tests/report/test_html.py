@@ -13,7 +13,9 @@ from __future__ import annotations
 
 import html as html_text
 import json
+import os
 import shutil
+import stat
 from html.parser import HTMLParser
 from pathlib import Path
 from typing import Any
@@ -246,3 +248,21 @@ def test_write_report_refuses_missing_folder(demo_cell: Path, tmp_path: Path) ->
     missing = tmp_path / "nowhere" / "review.html"
     with pytest.raises(ReportError, match="^output: folder .* does not exist$"):
         write_report(demo_cell, missing)
+
+
+def test_write_report_mode_follows_umask(demo_cell: Path, tmp_path: Path) -> None:
+    previous = os.umask(0o022)
+    try:
+        output = write_report(demo_cell, tmp_path / "review.html", map_resolution=8)
+    finally:
+        os.umask(previous)
+    # POSIX open(2): a new file gets mode 0o666 & ~umask = 0o644 (readable by others)
+    assert stat.S_IMODE(output.stat().st_mode) == 0o644
+
+
+def test_report_refuses_unreadable_comment_file(tmp_path: Path) -> None:
+    cell = tmp_path / "cell.json"
+    shutil.copy(data_folder("robots") / "demo-cell.json", cell)
+    comments_path_for(cell).write_text("not a database " * 200)
+    with pytest.raises(ReportError, match="^comments: .*not a readable comment database"):
+        build_report(cell, map_resolution=8)

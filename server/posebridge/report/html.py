@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import os
 import re
-import tempfile
+import secrets
 from collections.abc import Sequence
 from dataclasses import dataclass
 from datetime import UTC, datetime
@@ -36,7 +36,12 @@ from posebridge.planning.path_check import check_path
 from posebridge.planning.reports import PathCheckReport, SegmentReport
 from posebridge.report.figures import TargetMarker, cartesian_figures, joint_map_figure
 from posebridge.resources import data_folder
-from posebridge.review.comments import Comment, CommentStore, comments_path_for
+from posebridge.review.comments import (
+    Comment,
+    CommentStorageError,
+    CommentStore,
+    comments_path_for,
+)
 from posebridge.spaces.joint_map import joint_map
 from posebridge.spaces.scene_geometry import scene_clearance
 from posebridge.units import FloatArray, joints_si_from_user, joints_user_from_si
@@ -372,6 +377,13 @@ def _comment_rows(comments: list[Comment]) -> list[dict[str, Any]]:
     ]
 
 
+def _comments(cell_path: Path) -> list[Comment]:
+    try:
+        return CommentStore(comments_path_for(cell_path)).list_comments()
+    except CommentStorageError as error:
+        raise ReportError(f"comments: {error}") from error
+
+
 def build_report(
     cell_path: str | Path,
     *,
@@ -402,9 +414,8 @@ def build_report(
     CellFileError
         The cell file cannot be read or is invalid.
     ReportError
-        ``map_joints`` does not name two joints of the robot.
-    CommentStorageError
-        The comment file exists but cannot be read.
+        ``map_joints`` does not name two joints of the robot, or the
+        cell's comment file exists but cannot be read.
     """
     path = Path(cell_path)
     scene = resolve_scene(load_cell(path), path)
@@ -433,7 +444,7 @@ def build_report(
         targets=_targets_section(check),
         paths=_paths_section([check_path(scene, p) for p in range(len(scene.paths))]),
         joint_map=map_section,
-        comments=_comment_rows(CommentStore(comments_path_for(path)).list_comments()),
+        comments=_comment_rows(_comments(path)),
         figures=figures,
         plotly_js=Markup(plotly_script()),
     )
@@ -466,10 +477,10 @@ def write_report(
     if not output.parent.is_dir():
         raise ReportError(f"output: folder {str(output.parent)!r} does not exist")
     text = build_report(cell_path, map_joints=map_joints, map_resolution=map_resolution)
+    temporary = output.with_name(f".{output.name}.{secrets.token_hex(6)}.tmp")
     try:
-        handle, temporary = tempfile.mkstemp(
-            prefix=f".{output.name}.", suffix=".tmp", dir=output.parent
-        )
+        # created like any new file (mode 0o666 less the umask), never over an existing one
+        handle = os.open(temporary, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o666)
         try:
             with os.fdopen(handle, "w", encoding="utf-8") as stream:
                 stream.write(text)
