@@ -123,6 +123,11 @@ def _print_json(data: Any) -> None:
     sys.stdout.write("\n")
 
 
+def _finite_or_none(values: FloatArray) -> Any:
+    """Nested lists of ``values`` with NaN/inf as ``None`` (JSON has no NaN)."""
+    return np.where(np.isfinite(values), values, None).tolist()
+
+
 def _format_row(values: Sequence[float], digits: int = 3) -> str:
     return ", ".join(f"{round(v, digits) + 0.0:.{digits}f}" for v in values)
 
@@ -397,7 +402,7 @@ def _cmd_reach(args: argparse.Namespace) -> int:
             "y_mm": mm_from_m(result.y).tolist(),
             "z_mm": mm_from_m(result.z).tolist(),
             "count": result.count.tolist(),
-            "best_manipulability": np.round(result.best_manipulability, 6).tolist(),
+            "best_manipulability": _finite_or_none(np.round(result.best_manipulability, 6)),
         }
         _print_json(summary)
         return EXIT_OK

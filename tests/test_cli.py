@@ -1,0 +1,242 @@
+"""The command line contract: commands, JSON fields, exit codes and one-line errors.
+
+Commands run in-process through ``posebridge.cli.main``; values are checked
+against closed forms, pinocchio and the cell file read directly.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from pathlib import Path
+
+import jsonschema
+import numpy as np
+import pinocchio as pin
+import pytest
+
+from posebridge.cli import main
+from posebridge.resources import data_folder
+
+ROBOTS = data_folder("robots")
+DEMO_CELL = str(ROBOTS / "demo-cell.json")
+DEMO_LOG = str(ROBOTS / "demo-log.csv")
+
+
+def run(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, str, str]:
+    code = main(list(argv))
+    captured = capsys.readouterr()
+    return code, captured.out, captured.err
+
+
+def run_json(capsys: pytest.CaptureFixture[str], *argv: str) -> tuple[int, object]:
+    code, out, err = run(capsys, *argv, "--json")
+    assert err == ""
+    return code, json.loads(out)
+
+
+def test_help_carries_the_safety_caution(capsys: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(SystemExit) as exit_info:
+        main(["--help"])
+    out = capsys.readouterr().out
+    assert exit_info.value.code == 0
+    for phrase in ("not a safety function", "ISO 10218-2", "ISO 13855", "reduced speed"):
+        assert phrase in " ".join(out.split())
+
+
+def test_robots_lists_the_bundled_library(capsys: pytest.CaptureFixture[str]) -> None:
+    code, robots = run_json(capsys, "robots")
+    assert code == 0
+    by_name = {r["name"]: r for r in robots}
+    assert set(by_name) >= {
+        "pb-planar2r",
+        "pb-planar3r",
+        "pb-arm6",
+        "pb-arm6-offset",
+        "pb-scara4",
+        "pb-gantry3",
+        "pb-arm7",
+    }
+    # closed form: a planar 2R arm reaches l1 + l2 = 400 + 300 mm (pb-planar2r.toml)
+    assert by_name["pb-planar2r"]["reach_mm"] == pytest.approx(700.0, abs=0.1)
+    assert by_name["pb-arm7"]["joints"] == 7  # pb-arm7.toml has seven [[joint]] tables
+
+
+def test_fk_planar2r_matches_the_closed_form(capsys: pytest.CaptureFixture[str]) -> None:
+    code, result = run_json(capsys, "fk", "pb-planar2r", "--joints", "30,60")
+    assert code == 0
+    t1, t2 = math.radians(30), math.radians(60)
+    # closed form of the planar 2R arm, l1 = 400 mm, l2 = 300 mm (pb-planar2r.toml)
+    x = 400 * math.cos(t1) + 300 * math.cos(t1 + t2)
+    y = 400 * math.sin(t1) + 300 * math.sin(t1 + t2)
+    assert result["position_mm"] == pytest.approx([x, y, 0.0], abs=1e-9)
+    assert result["rpy_deg"] == pytest.approx([0.0, 0.0, 90.0], abs=1e-9)
+    # Yoshikawa 1985, planar 2R: w = l1 l2 |sin t2| (in m^2)
+    assert result["manipulability"] == pytest.approx(0.4 * 0.3 * math.sin(t2), rel=1e-9)
+    # margins to the limits of pb-planar2r.toml: j1 -180..180, j2 -150..150
+    assert result["limit_margins_deg"] == pytest.approx([150.0, 90.0])
+    assert result["quaternion_wxyz"] == pytest.approx(
+        [math.cos(math.pi / 4), 0, 0, math.sin(math.pi / 4)]
+    )
+
+
+def test_fk_joints_file_gives_one_entry_per_row(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    csv_file = tmp_path / "joints.csv"
+    csv_file.write_text("j2,j1\n0,0\n90,0\n0,-90\n", encoding="utf-8")
+    code, rows = run_json(capsys, "fk", "pb-planar2r", "--joints-file", str(csv_file))
+    assert code == 0
+    # header order j2, j1 is mapped by name; closed form positions of the 2R arm
+    expected = [[700.0, 0.0], [400.0, 300.0], [0.0, -700.0]]
+    assert [r["position_mm"][:2] for r in rows] == [pytest.approx(e, abs=1e-9) for e in expected]
+
+
+def test_ik_arm6_solutions_reach_the_pose_per_pinocchio(capsys: pytest.CaptureFixture[str]) -> None:
+    pose = [1000.0, 200.0, 700.0, 180.0, 10.0, 30.0]
+    code, result = run_json(capsys, "ik", "pb-arm6", "--pose", ",".join(map(str, pose)))
+    assert code == 0
+    assert result["solutions"] and result["reason"] == ""
+    model = pin.buildModelFromXML((ROBOTS / "pb-arm6.urdf").read_text(encoding="utf-8"))
+    data = model.createData()
+    tool_z_m = 0.120  # default tool of pb-arm6.toml: 120 mm along the flange z axis
+    for solution in result["solutions"]:
+        assert set(solution) >= {
+            "joints_deg",
+            "branch",
+            "within_limits",
+            "min_margin_deg",
+            "manipulability",
+        }
+        pin.framesForwardKinematics(model, data, np.radians(solution["joints_deg"]))
+        flange = data.oMf[model.getFrameId("flange")]
+        tcp_mm = 1000 * (flange.translation + tool_z_m * flange.rotation[:, 2])
+        # pinocchio FK of the URDF: the TCP sits at the requested position
+        assert tcp_mm == pytest.approx(pose[:3], abs=1e-6)
+
+
+def test_ik_unreachable_pose_exits_1_with_a_reason(capsys: pytest.CaptureFixture[str]) -> None:
+    code, result = run_json(capsys, "ik", "pb-planar2r", "--pose", "900,0,0,0,0,0")
+    # closed form: 900 mm > l1 + l2 = 700 mm
+    assert code == 1
+    assert result["solutions"] == []
+    assert "out of reach" in result["reason"]
+
+
+def test_ik_planar2r_gives_both_elbow_branches(capsys: pytest.CaptureFixture[str]) -> None:
+    code, result = run_json(capsys, "ik", "pb-planar2r", "--pose", "500,200,0,0,0,0")
+    assert code == 0
+    # law of cosines: cos t2 = (r^2 - l1^2 - l2^2) / (2 l1 l2), both signs of t2
+    r2 = 500.0**2 + 200.0**2
+    t2 = math.degrees(math.acos((r2 - 400.0**2 - 300.0**2) / (2 * 400.0 * 300.0)))
+    assert sorted(s["joints_deg"][1] for s in result["solutions"]) == pytest.approx([-t2, t2])
+    assert set(result["ignored_components"]) >= {"z", "roll", "pitch"}
+
+
+@pytest.mark.parametrize(
+    ("argv", "message"),
+    [
+        (["fk", "pb-arm6", "--joints", "1,2,3"], "expected 6 comma-separated values, got 3"),
+        (["fk", "pb-arm6", "--joints", "1,2,3,4,5,nan"], "value 6 'nan' is not a finite number"),
+        (["fk", "pb-arm6", "--joints", "1,2,x,4,5,6"], "value 3 'x' is not a number"),
+        (["fk", "no-such-robot", "--joints", "0"], "unknown robot 'no-such-robot'"),
+        (["ik", "pb-arm6", "--pose", "1,2,3"], "expected 6 comma-separated values, got 3"),
+        (["check", "/nonexistent/cell.json"], "/nonexistent/cell.json"),
+        (["diagnose", DEMO_CELL, "--joints", "0,0"], "expected 6 comma-separated values, got 2"),
+        (["place", DEMO_CELL, "--grid", "z_mm=1"], "--grid: expected items KEY=START:STOP:COUNT"),
+        (["serve", "--host", "0.0.0.0"], "not a loopback address"),
+    ],
+)
+def test_bad_input_prints_one_line_and_exits_2(
+    capsys: pytest.CaptureFixture[str], argv: list[str], message: str
+) -> None:
+    code, out, err = run(capsys, *argv)
+    assert code == 2
+    assert out == ""
+    assert err.count("\n") == 1 and message in err  # our own contract: one line, no traceback
+    assert "Traceback" not in err
+
+
+def test_broken_robot_file_exits_2(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    broken = tmp_path / "broken.toml"
+    broken.write_text("[robot\nname = 1\n", encoding="utf-8")
+    code, _, err = run(capsys, "fk", str(broken), "--joints", "0")
+    assert code == 2
+    assert err.startswith("posebridge fk: ") and str(broken) in err and err.count("\n") == 1
+
+
+def test_check_demo_exits_1_and_names_the_branch_breaking_target(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    code, report = run_json(capsys, "check", DEMO_CELL)
+    assert code == 1  # the demo carries warnings by design (cell notes)
+    raw = json.loads(Path(DEMO_CELL).read_text(encoding="utf-8"))
+    assert [t["name"] for t in report["targets"]] == [t["name"] for t in raw["targets"]]
+    assert report["consistent_branch"]["breaking_targets"] == ["reject-drop"]
+
+
+def test_diagnose_log_finds_the_velocity_jump(capsys: pytest.CaptureFixture[str]) -> None:
+    code, result = run_json(capsys, "diagnose", DEMO_CELL, "--log", DEMO_LOG)
+    assert code == 1
+    rows = np.loadtxt(DEMO_LOG, delimiter=",", skiprows=1)
+    speed = np.abs(np.diff(rows[:, 4])) / np.diff(rows[:, 0])
+    # closed form from the CSV: j4 speed between consecutive rows vs 300 deg/s (pb-arm6.toml)
+    (jump_rows,) = np.nonzero(speed > 300.0 * 1.01)
+    assert result["velocity"]["checked"]
+    assert [j["row"] for j in result["velocity"]["jumps"]] == [int(r) + 1 for r in jump_rows]
+
+
+def test_paths_report_the_demo_collision(capsys: pytest.CaptureFixture[str]) -> None:
+    code, reports = run_json(capsys, "paths", DEMO_CELL, "unload-to-conveyor")
+    assert code == 1
+    (report,) = reports
+    assert not report["ok"]
+    assert any(f["kind"] == "collision" for f in report["findings"])
+    # the total is the sum of the segment times (our own contract)
+    assert report["cycle_time_s"] == pytest.approx(sum(s["duration_s"] for s in report["segments"]))
+
+
+def test_place_small_grid(capsys: pytest.CaptureFixture[str]) -> None:
+    code, report = run_json(
+        capsys,
+        "place",
+        DEMO_CELL,
+        "--grid",
+        "x_mm=-200:200:3 y_mm=0 yaw_deg=0",
+        "--workers",
+        "1",
+        "--top",
+        "2",
+    )
+    assert code == 0
+    assert len(report["best"]) == 2
+    assert report["grid"]["x_mm"] == pytest.approx([-200.0, 0.0, 200.0])
+    assert report["best"][0]["score"] >= report["best"][1]["score"]
+
+
+def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None:
+    code, result = run_json(
+        capsys, "jointmap", DEMO_CELL, "--joints", "j2,j3", "--resolution", "16", "--workers", "1"
+    )
+    assert code == 0 and result["shape"] == [16, 16]
+    # the limit box of pb-arm6.toml: j2 -95..155, j3 -200..80 deg
+    assert result["lower_deg"] == pytest.approx([-95.0, -200.0])
+    assert result["upper_deg"] == pytest.approx([155.0, 80.0])
+    code, reach = run_json(capsys, "reach", "pb-planar2r", "--voxel-mm", "100", "--workers", "1")
+    assert code == 0 and reach["tool_directions"] == 26
+    code, plan = run_json(
+        capsys, "plan", DEMO_CELL, "--from", "60,-20,20,0,90,0", "--to", "-60,-20,20,0,90,0"
+    )
+    assert code == 0 and plan["status"] in ("solved", "direct")
+
+
+def test_report_and_schema(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    output = tmp_path / "review.html"
+    code, out, _ = run(capsys, "report", DEMO_CELL, "-o", str(output))
+    assert code == 0 and output.is_file()
+    html = output.read_text(encoding="utf-8")
+    assert "ISO 13855" in html and "<script src=" not in html
+    code, out, _ = run(capsys, "schema")
+    assert code == 0
+    # jsonschema (independent validator) accepts the demo cell against the printed schema
+    jsonschema.validate(json.loads(Path(DEMO_CELL).read_text(encoding="utf-8")), json.loads(out))
