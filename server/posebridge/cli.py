@@ -125,7 +125,9 @@ def _print_json(data: Any) -> None:
 
 def _finite_or_none(values: FloatArray) -> Any:
     """Nested lists of ``values`` with NaN/inf as ``None`` (JSON has no NaN)."""
-    return np.where(np.isfinite(values), values, None).tolist()
+    cells = values.astype(object)
+    cells[~np.isfinite(values)] = None
+    return cells.tolist()
 
 
 def _format_row(values: Sequence[float], digits: int = 3) -> str:
