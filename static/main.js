@@ -50,6 +50,7 @@ async function start() {
   createSceneView({ element: byId("scene3d"), store, palette });
   createProjectionView({
     element: byId("plan"),
+    base: byId("plan-base"),
     overlay: byId("plan-overlay"),
     store,
     actions,
@@ -60,6 +61,7 @@ async function start() {
   });
   createProjectionView({
     element: byId("elevation"),
+    base: byId("elevation-base"),
     overlay: byId("elevation-overlay"),
     store,
     actions,
@@ -72,6 +74,7 @@ async function start() {
   createToolPanel({ container: byId("tool-panel"), store });
   createJointMapView({
     element: byId("joint-map"),
+    base: byId("joint-map-base"),
     note: byId("map-note"),
     legend: byId("map-legend"),
     header: byId("map-pair"),

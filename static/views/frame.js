@@ -5,14 +5,20 @@
 /**
  * Returns `request()`: calls `render()` on an animation frame, at most once per
  * frame and no sooner than `minIntervalMs` after the previous call; the last
- * request is always honoured. `minIntervalMs` may be a function, read each time.
+ * request is always honoured. `minIntervalMs` may be a function, read each
+ * time. While `hold()` is true nothing is drawn; the next `request()` after it
+ * turns false draws (views on hold ask again when the hold ends).
  */
-export function frameScheduler({ render, minIntervalMs = 0 }) {
+export function frameScheduler({ render, minIntervalMs = 0, hold = () => false }) {
   const interval = typeof minIntervalMs === "function" ? minIntervalMs : () => minIntervalMs;
   let scheduled = false;
   let lastRenderAt = -Infinity;
 
   function run() {
+    if (hold()) {
+      scheduled = false;
+      return;
+    }
     const wait = lastRenderAt + interval() - performance.now();
     if (wait > 0) {
       setTimeout(() => requestAnimationFrame(run), wait);

@@ -5,13 +5,14 @@
 // target, styled by arm branch. Clicking or dragging sets the two joints;
 // clicking a marker takes that solution.
 //
-// The regions are drawn in full only when a new map arrives; markers and the
-// current configuration are restyled in place, so a drag costs one small
-// update per answer.
+// The regions, axes and limit box are a base figure drawn only when a new map
+// arrives; markers and the current configuration are a light top figure over
+// it (same plot area) restyled in place, so a drag costs one small update per
+// answer and never redraws the regions.
 
 /* global Plotly */
 
-import { attachDrag, draw, layout2d, pointerFromData } from "./plotting.js";
+import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { branchHeading } from "../branches.js";
 import { branchStyle, regionColour } from "../palette.js";
@@ -102,18 +103,19 @@ export function regionTraces(map, palette) {
 }
 
 /**
- * @param {{element: HTMLElement, note: HTMLElement, legend: HTMLElement, header: HTMLElement,
+ * @param {{element: HTMLElement, base: HTMLElement, note: HTMLElement, legend: HTMLElement, header: HTMLElement,
  *          progress: HTMLElement, store: object, actions: object, palette: object, onCancelMap: Function}} options
+ *   element: the top figure (markers, events); base: the figure under it (axes, regions);
  *   header: where the joint pair selectors go; note: the slice explanation;
  *   legend: the branch and region legend (HTML, so that it costs no plot redraw);
  *   progress: where the map computation's progress and cancel button go.
  */
-export function createJointMapView({ element, note, legend, header, progress, store, actions, palette, onCancelMap }) {
+export function createJointMapView({ element, base, note, legend, header, progress, store, actions, palette, onCancelMap }) {
   let lastRenderedIk = null;
   let legendKey = null;
   let baseKey = null;
-  let dynamicStart = 0;
   let ranges = null;
+  let drawnInputs = null;
   const selectors = [0, 1].map((slot) => {
     const label = document.createElement("label");
     label.className = "pb-hint";
@@ -227,8 +229,6 @@ export function createJointMapView({ element, note, legend, header, progress, st
     const [ja, jb] = [robot.joints[a], robot.joints[b]];
     const map = currentMap(state);
     const data = map ? regionTraces(map, palette) : [];
-    dynamicStart = data.length;
-    data.push(...dynamic);
     ranges = {
       x: paddedRange(ja, dynamic[0].x),
       y: paddedRange(jb, dynamic[0].y),
@@ -261,7 +261,8 @@ export function createJointMapView({ element, note, legend, header, progress, st
       },
     ];
     layout.uirevision = `${robot.robot}|${a}|${b}`;
-    return draw(element, data, layout);
+    draw(base, data, layout);
+    return draw(element, dynamic, topLayout(layout));
   }
 
   function render() {
@@ -270,6 +271,11 @@ export function createJointMapView({ element, note, legend, header, progress, st
     if (!robot || joints.length !== robot.dof) {
       return;
     }
+    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive];
+    if (drawnInputs && inputs.every((value, k) => value === drawnInputs[k])) {
+      return; // already drawn (an answer drawn at once, then its frame request)
+    }
+    drawnInputs = inputs;
     updateSelectors(state);
     const dynamic = dynamicTraces(state);
     const map = currentMap(state);
@@ -286,7 +292,7 @@ export function createJointMapView({ element, note, legend, header, progress, st
         "marker.color": dynamic.map((trace, k) => (k === 0 ? trace.marker.color : undefined)),
         "marker.symbol": dynamic.map((trace, k) => (k === 0 ? trace.marker.symbol : undefined)),
       };
-      drawn = Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
+      drawn = Plotly.restyle(element, update, dynamic.map((_, k) => k));
     }
     renderLegend(ik ? ik.result.solutions : [], map);
     note.textContent = sliceNote(state, map);
@@ -390,6 +396,9 @@ export function createJointMapView({ element, note, legend, header, progress, st
 
   const requestRender = frameScheduler({ render });
   store.subscribe(requestRender, { keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive"] });
+  // a new inverse kinematics answer is drawn at once, not on the next frame: it is
+  // what a drag waits for (the update is a small restyle of the top figure)
+  store.subscribe(render, { keys: ["ik"] });
   store.subscribe(renderProgress, { keys: ["jointMapJob"] });
   renderProgress();
 

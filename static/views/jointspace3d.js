@@ -11,7 +11,6 @@ import { draw } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { branchStyle, regionColour } from "../palette.js";
 
-const REDRAW_WHILE_DRAGGING_MS = 300;
 
 /** Wire box edges over the limit box of three joints, as one polyline with null breaks. */
 export function wireBox(lower, upper) {
@@ -218,10 +217,10 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
         : "Obstacle regions are shown for the cell's robot.";
   }
 
-  const requestRender = frameScheduler({
-    render,
-    minIntervalMs: () => (store.get().dragging ? REDRAW_WHILE_DRAGGING_MS : 0),
+  // like the Cartesian 3D view, not redrawn during a drag; once when it ends
+  const requestRender = frameScheduler({ render, hold: () => store.get().dragging });
+  store.subscribe(requestRender, {
+    keys: ["robot", "joints", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging"],
   });
-  store.subscribe(requestRender, { keys: ["robot", "joints", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive"] });
   return { render };
 }

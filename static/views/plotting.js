@@ -138,6 +138,35 @@ export function attachDrag({ figure, onPress, onMove, onRelease = () => {}, onDr
   figure.addEventListener("pointercancel", end, { capture: true });
 }
 
+/**
+ * Layout of the light top figure of a layered 2D view: the same plot area,
+ * ranges and aspect as the base figure under it, but transparent and without
+ * axes, grid or titles, so only its few moving traces are drawn. Restyling
+ * them then redraws nothing of the base (whose regions and outlines are
+ * costly to draw).
+ */
+export function topLayout(layout) {
+  const bare = (axis) => ({
+    ...axis,
+    title: { text: "" },
+    showgrid: false,
+    zeroline: false,
+    showline: false,
+    showticklabels: false,
+    ticks: "",
+    mirror: false,
+  });
+  return {
+    ...layout,
+    xaxis: bare(layout.xaxis),
+    yaxis: bare(layout.yaxis),
+    shapes: [],
+    annotations: [],
+    paper_bgcolor: "rgba(0,0,0,0)",
+    plot_bgcolor: "rgba(0,0,0,0)",
+  };
+}
+
 /** Draw or redraw a figure (plotly diffing keeps it cheap). */
 export function draw(figure, data, layout) {
   return Plotly.react(figure, data, layout, PLOT_CONFIG);

@@ -3,13 +3,15 @@
 // stadium outlines; the target can be dragged, typed (target panel) or nudged
 // with the keyboard. The target is drawn on an SVG layer above the plot, so
 // moving it costs no plot redraw; the arm is redrawn at most every
-// ARM_REDRAW_MS while it follows a drag, by restyling its own traces only.
+// ARM_REDRAW_MS while it follows a drag, by restyling its own traces only:
+// they live in a light top figure over a base figure holding the axes and the
+// cell (two layers with the same plot area), so a restyle redraws no outline.
 // The cell's solids are drawn as outlines (keep-out zones dashed), the other
 // targets as small markers (click one to select it) and paths as polylines.
 
 /* global Plotly */
 
-import { attachDrag, draw, layout2d, pointerFromData } from "./plotting.js";
+import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { projectedOutline } from "./shapes.js";
 import { viewBounds } from "./scene3d.js";
@@ -21,6 +23,9 @@ const GRAB_RADIUS_PX = 18;
 const STADIUM_STEPS = 10;
 const APPROACH_LENGTH_MM = 120;
 const ARM_REDRAW_MS = 80;
+// while a target is dragged the arm follows less often: the drag's own update
+// (target and solution markers) comes first
+const ARM_REDRAW_WHILE_DRAGGING_MS = 250;
 const SVG = "http://www.w3.org/2000/svg";
 
 /**
@@ -53,14 +58,16 @@ function paddedRange(lower, upper, pad) {
 }
 
 /**
- * @param {{element: HTMLElement, overlay: SVGElement, store: object, actions: object, palette: object,
- *          axes: [number, number], depthAxis: number, viewerSide: 1 | -1}} options
+ * @param {{element: HTMLElement, base: HTMLElement, overlay: SVGElement, store: object, actions: object,
+ *          palette: object, axes: [number, number], depthAxis: number, viewerSide: 1 | -1}} options
+ *   element: the top figure (arm, events); base: the figure under it (axes, cell).
  *   axes: indices of the horizontal and vertical data axes (0 x, 1 y, 2 z);
  *   depthAxis: the viewing direction's axis; viewerSide: the viewer sits on its
  *   positive (1) or negative (-1) side. Farther capsules are drawn first.
  */
 export function createProjectionView({
   element,
+  base,
   overlay,
   store,
   actions,
@@ -199,7 +206,6 @@ export function createProjectionView({
   }
 
   let staticKey = null;
-  let armStart = 0;
 
   function render() {
     const state = store.get();
@@ -211,14 +217,12 @@ export function createProjectionView({
     const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}`;
     if (key === staticKey && element.data) {
       const update = { x: arm.map((trace) => trace.x), y: arm.map((trace) => trace.y) };
-      Plotly.restyle(element, update, arm.map((_, k) => armStart + k)).then(placeTarget);
+      Plotly.restyle(element, update, arm.map((_, k) => k)).then(placeTarget);
       return;
     }
     staticKey = key;
     const range = ranges(state);
     const data = cellActive && cell ? cellTraces(cell.scene) : [];
-    armStart = data.length;
-    data.push(...arm);
     const layout = layout2d({
       xTitle: `${AXIS_NAMES[h]} (mm)`,
       yTitle: `${AXIS_NAMES[v]} (mm)`,
@@ -228,10 +232,14 @@ export function createProjectionView({
       palette,
     });
     layout.uirevision = `${robot.robot}|${cellActive}`;
-    draw(element, data, layout).then(placeTarget);
+    draw(base, data, layout);
+    draw(element, arm, topLayout(layout)).then(placeTarget);
   }
 
-  const requestRender = frameScheduler({ render, minIntervalMs: ARM_REDRAW_MS });
+  const requestRender = frameScheduler({
+    render,
+    minIntervalMs: () => (store.get().dragging ? ARM_REDRAW_WHILE_DRAGGING_MS : ARM_REDRAW_MS),
+  });
   store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive"] });
   store.subscribe(placeTarget, { keys: ["target"] });
   new ResizeObserver(placeTarget).observe(element);

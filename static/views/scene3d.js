@@ -15,9 +15,8 @@ const RING_STEPS = 14;
 const CAP_RINGS = 3;
 const TRIAD_LENGTH_MM = 100;
 // The 3D view is the costliest redraw (WebGL, often software-rendered): while
-// the user drags in a 2D view it is redrawn at most this often, and in full
-// when the drag ends, so the dragged views stay responsive.
-const SCENE_REDRAW_WHILE_DRAGGING_MS = 400;
+// the user drags in a 2D view it is not redrawn at all, and it is redrawn
+// once when the drag ends, so the dragged views stay responsive.
 
 function sub(a, b) {
   return [a[0] - b[0], a[1] - b[1], a[2] - b[2]];
@@ -338,10 +337,7 @@ export function createSceneView({ element, store, palette }) {
     Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
   }
 
-  const requestRender = frameScheduler({
-    render,
-    minIntervalMs: () => (store.get().dragging ? SCENE_REDRAW_WHILE_DRAGGING_MS : 0),
-  });
+  const requestRender = frameScheduler({ render, hold: () => store.get().dragging });
   store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive"] });
   return { render };
 }

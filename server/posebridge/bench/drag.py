@@ -4,7 +4,9 @@ One sample: the pointer moves the target in the plan view; the page records
 the time from that input event (its ``timeStamp``) to the moment the joint map
 has drawn the inverse kinematics markers for the new target (the page's
 ``posebridge:ik-rendered`` event). Samples are taken one after another, so
-each includes the request, the solver, the answer and the redraw.
+each includes the request, the solver, the answer and the redraw. Sampling
+starts once the page has settled (on a cell: joint maps and target check
+drawn).
 
 Needs the ``playwright`` Python package and a Chromium binary (Debian's
 ``chromium`` package by default); no browser is downloaded.
@@ -44,9 +46,12 @@ _READY_TIMEOUT_MS = 60_000
 _SAMPLE_TIMEOUT_MS = 5_000
 _DRAG_RADIUS_PX = 8.0
 
+# Ready: FK and IK answered, and on a cell the joint maps and the target check drawn,
+# so the samples time the drag itself rather than the page still loading.
 _READY_SCRIPT = """() => {
   const state = window.posebridge && window.posebridge.getState();
-  return Boolean(state && state.fk && state.ik && state.target);
+  if (!state || !state.fk || !state.ik || !state.target) return false;
+  return !state.cellActive || Boolean(state.jointMap && state.jointMap3 && state.targetCheck);
 }"""
 
 # Client pixel position of the target marker in the plan view.
