@@ -1,22 +1,30 @@
 """Browser test fixtures: a loopback server in a thread and Debian's headless Chromium.
 
+The server works on a copy of the demo cell in a temporary folder, put back
+to the demo's content before every test, so edits made by one test never
+reach the next.
+
 The tests are skipped when /usr/bin/chromium (or playwright) is missing,
 unless POSEBRIDGE_REQUIRE_BROWSER=1, which turns the skip into a failure.
 """
 
 from __future__ import annotations
 
+import json
 import os
+import shutil
 from collections.abc import Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+import httpx
 import pytest
 
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
 from posebridge.bench.drag import CHROMIUM_PATH, chromium_available, launch_chromium
+from posebridge.resources import data_folder
 
 ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts"
 VIEWPORT = {"width": 1600, "height": 1250}
@@ -38,11 +46,33 @@ def artifacts() -> Path:
     return ARTIFACTS
 
 
+DEMO_CELL = data_folder("robots") / "demo-cell.json"
+
+
 @pytest.fixture(scope="session")
-def server_url() -> Iterator[str]:
-    """Base URL (ending in /) of a dashboard serving the six-axis demo arm on loopback."""
-    with background_server(Settings(robot="pb-arm6")) as url:
+def cell_path(tmp_path_factory: pytest.TempPathFactory) -> Path:
+    """The cell file the test server reads and saves: a copy of the demo cell."""
+    path = tmp_path_factory.mktemp("cell") / "cell.json"
+    shutil.copyfile(DEMO_CELL, path)
+    return path
+
+
+@pytest.fixture(scope="session")
+def server_url(cell_path: Path) -> Iterator[str]:
+    """Base URL (ending in /) of a dashboard serving the demo cell (six-axis arm) on loopback."""
+    with background_server(Settings(robot="pb-arm6", cell_path=cell_path)) as url:
         yield url
+
+
+def reset_cell(base_url: str) -> dict[str, Any]:
+    """Put the demo cell's content back through the API; returns the GET /api/cell answer."""
+    api = base_url.rstrip("/")
+    etag = httpx.get(api + "/api/cell", timeout=30).json()["etag"]
+    demo = json.loads(DEMO_CELL.read_text())
+    response = httpx.put(api + "/api/cell", json=demo, headers={"If-Match": etag}, timeout=30)
+    assert response.status_code == 200, response.text
+    document: dict[str, Any] = response.json()
+    return document
 
 
 @pytest.fixture(scope="session")
@@ -89,7 +119,8 @@ class OpenPage:
 
 @pytest.fixture
 def open_page(browser: Any, server_url: str) -> Iterator[OpenPage]:
-    """The dashboard loaded and settled (FK and IK answered for the opening pose)."""
+    """The dashboard loaded on the demo cell and settled (FK and IK answered for the opening pose)."""
+    reset_cell(server_url)
     page = browser.new_page(viewport=VIEWPORT)
     problems = PageProblems()
     page.on(

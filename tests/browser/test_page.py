@@ -1,8 +1,8 @@
 """The dashboard in headless Chromium: loading, linking of the two halves, timing.
 
 Computed values shown by the page are compared with answers of the HTTP API
-for the same inputs, and those answers are checked against pinocchio and
-closed forms in tests/api/test_kinematics.py.
+for the same inputs (with the cell's robot base and tool), and those answers
+are checked against pinocchio and closed forms in tests/api/test_kinematics.py.
 """
 
 from __future__ import annotations
@@ -39,6 +39,15 @@ TCP_3D = """() => {
 }"""
 
 
+def _cell_frames(base_url: str) -> dict[str, Any]:
+    """The cell's robot base and tool, as the page sends them with FK and IK requests."""
+    scene = httpx.get(base_url.rstrip("/") + "/api/cell", timeout=30).json()["scene"]
+    return {
+        "base": {k: scene["base"][k] for k in ("position_mm", "rpy_deg")},
+        "tool": {k: scene["tool"][k] for k in ("position_mm", "rpy_deg")},
+    }
+
+
 def _api(base_url: str, path: str, body: dict[str, Any]) -> dict[str, Any]:
     response = httpx.post(base_url.rstrip("/") + path, json=body, timeout=30)
     assert response.status_code == 200, response.text
@@ -51,7 +60,11 @@ def _sorted_pairs(pairs: list[list[float]]) -> np.ndarray:
 
 def test_load_page(open_page: Any, artifacts: Path) -> None:
     page, problems = open_page.page, open_page.problems
-    page.screenshot(path=str(artifacts / "page-pb-arm6.png"), full_page=True)
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState(); return s.jointMap && s.targetCheck; }",
+        timeout=60_000,
+    )
+    page.screenshot(path=str(artifacts / "page-demo-cell.png"), full_page=True)
     assert problems.console_errors == []
     assert problems.page_errors == []
     assert problems.failed_requests == []
@@ -62,16 +75,44 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
     )
     assert "not a safety function" in page.inner_text("footer")
     assert page.get_attribute("#status", "data-level") != "error"
+    # the demo cell is drawn: its solids in 3D, its targets in the plan, listed in the cell panel
+    names = page.evaluate("() => document.getElementById('scene3d').data.map((t) => t.name)")
+    assert {"fixtures", "keep-out zones", "pedestal"} <= set(names)
+    cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+    plan_targets = page.evaluate(
+        "() => document.getElementById('plan-base').data.find((t) => t.name === 'cell targets').x"
+    )
+    assert plan_targets == [t["position_mm"][0] for t in cell["scene"]["targets"]]
+    assert page.locator("#cell-items [role=option]").count() == len(cell["scene"]["targets"]) + sum(
+        len(p["waypoints"]) for p in cell["scene"]["paths"]
+    )
+    # the joint map's regions name obstacles of the cell (GET /api/cell lists the shapes)
+    regions = page.evaluate(
+        "() => document.getElementById('joint-map-base').data"
+        ".filter((t) => t.meta && t.meta.role === 'obstacle').map((t) => t.meta.obstacle)"
+    )
+    shapes = {s["name"] for s in cell["scene"]["shapes"]} | {"floor"}
+    assert regions and set(regions) <= shapes
+    # the opening selection is the first target, and the page's target is its world pose
+    state = page.evaluate(STATE)
+    first = cell["scene"]["targets"][0]
+    assert state["selection"] == {"kind": "target", "name": first["name"]}
+    assert state["target"]["position_mm"] == pytest.approx(first["position_mm"], abs=1e-9)
 
 
 def test_drag_plan_target_updates_joint_map(open_page: Any, artifacts: Path) -> None:
     page = open_page.page
     before = page.evaluate(STATE)["target"]["position_mm"]
+    name = page.evaluate(STATE)["selection"]["name"]
     x0, y0 = plan_marker_position(page)
     page.mouse.move(x0, y0)
     page.mouse.down()
-    page.mouse.move(x0 - 10, y0 - 6, steps=5)
-    page.mouse.up()
+    with page.expect_response(
+        lambda r: r.request.method == "PATCH" and "/api/cell/targets/" in r.url, timeout=30_000
+    ) as saved:
+        page.mouse.move(x0 - 10, y0 - 6, steps=5)
+        page.mouse.up()
+    assert saved.value.status == 200
     open_page.wait_settled()
     state = page.evaluate(STATE)
     after = state["target"]["position_mm"]
@@ -81,7 +122,7 @@ def test_drag_plan_target_updates_joint_map(open_page: Any, artifacts: Path) -> 
     expected = _api(
         open_page.base_url,
         "/api/ik",
-        {"robot": "pb-arm6", "pose": state["target"]},
+        {"robot": "pb-arm6", "pose": state["target"], **_cell_frames(open_page.base_url)},
     )
     a, b = state["mapJoints"]
     api_pairs = [[s["joints_deg"][a], s["joints_deg"][b]] for s in expected["solutions"]]
@@ -91,6 +132,10 @@ def test_drag_plan_target_updates_joint_map(open_page: Any, artifacts: Path) -> 
     )
     page.screenshot(path=str(artifacts / "page-after-drag.png"), full_page=True)
     assert open_page.problems.console_errors == []
+    # the move was saved into the cell: the server's target is where the page put it
+    cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+    saved_target = next(t for t in cell["scene"]["targets"] if t["name"] == name)
+    assert saved_target["position_mm"] == pytest.approx(after, abs=1e-6)
 
 
 def test_click_joint_map_moves_tool(open_page: Any) -> None:
@@ -115,7 +160,11 @@ def test_click_joint_map_moves_tool(open_page: Any) -> None:
     # the clicked point, to within the pixel resolution of the map (about 1 deg per pixel here)
     assert joints[a] == pytest.approx(goal[0], abs=1.5)
     assert joints[b] == pytest.approx(goal[1], abs=1.5)
-    expected = _api(open_page.base_url, "/api/fk", {"robot": "pb-arm6", "joints_deg": joints})
+    expected = _api(
+        open_page.base_url,
+        "/api/fk",
+        {"robot": "pb-arm6", "joints_deg": joints, **_cell_frames(open_page.base_url)},
+    )
     np.testing.assert_allclose(
         page.evaluate(TCP_3D), expected["configurations"][0]["position_mm"], atol=1e-9
     )
@@ -144,7 +193,9 @@ def test_select_solution_row_moves_arm(open_page: Any) -> None:
     for index, value in enumerate(solutions[choice]["joints_deg"]):
         assert float(page.input_value(f"#joint-value-{index}")) == pytest.approx(value, abs=0.051)
     expected = _api(
-        open_page.base_url, "/api/fk", {"robot": "pb-arm6", "joints_deg": state["joints"]}
+        open_page.base_url,
+        "/api/fk",
+        {"robot": "pb-arm6", "joints_deg": state["joints"], **_cell_frames(open_page.base_url)},
     )
     np.testing.assert_allclose(
         page.evaluate(TCP_3D), expected["configurations"][0]["position_mm"], atol=1e-9

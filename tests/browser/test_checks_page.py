@@ -1,0 +1,199 @@
+"""The checks on the page: log diagnosis, base placement, fixing a branch-inconsistent target.
+
+Expected values come from the Python API run in the test on the same cell
+file the server reads (posebridge.cell.diagnosis, posebridge.cell.checks,
+tested in tests/cell), and from the files themselves (the demo log's rows).
+"""
+
+from __future__ import annotations
+
+import csv
+import json
+from pathlib import Path
+from typing import Any
+
+import httpx
+import numpy as np
+import pytest
+
+from posebridge.bench.drag import plan_marker_position
+from posebridge.cell import load_cell, resolve_scene
+from posebridge.cell.checks import check_targets
+from posebridge.cell.diagnosis import diagnose_log
+from posebridge.cell.joint_log import read_joint_log
+from posebridge.cell.model import validate_cell
+from posebridge.resources import data_folder
+
+STATE = "() => window.posebridge.getState()"
+DEMO_LOG = data_folder("robots") / "demo-log.csv"
+
+PIXEL_OF = """([id, x, y]) => {
+  const figure = document.getElementById(id);
+  const area = figure.querySelector(".nsewdrag").getBoundingClientRect();
+  const xr = figure._fullLayout.xaxis.range, yr = figure._fullLayout.yaxis.range;
+  return [area.left + ((x - xr[0]) / (xr[1] - xr[0])) * area.width,
+          area.top + ((yr[1] - y) / (yr[1] - yr[0])) * area.height];
+}"""
+
+
+def test_pose_check_flags_worst_log_row(open_page: Any, cell_path: Path, artifacts: Path) -> None:
+    page = open_page.page
+    page.set_input_files("#log-file", str(DEMO_LOG))
+    page.wait_for_function("() => window.posebridge.getState().logCheck", timeout=30_000)
+    scene = resolve_scene(load_cell(cell_path))
+    expected = diagnose_log(scene, read_joint_log(DEMO_LOG, scene.robot))
+    assert page.get_attribute("#log-facts", "data-worst-row") == str(expected.worst_row.row)
+    assert expected.worst_row.reason in page.inner_text("#log-facts")
+    # the timeline highlights the worst row, and the arm is moved onto it
+    shapes = page.evaluate("() => document.getElementById('log-timeline').layout.shapes")
+    assert shapes[0]["x0"] < expected.worst_row.row < shapes[0]["x1"]
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState(); return s.fkJoints === s.joints; }"
+    )
+    with DEMO_LOG.open(newline="") as handle:
+        rows = list(csv.DictReader(handle))
+    names = [joint.name for joint in scene.robot.joints]
+    worst = [float(rows[expected.worst_row.row][name]) for name in names]
+    assert page.evaluate(STATE)["joints"] == pytest.approx(worst)
+    # the scrub bar moves the arm through the log
+    page.fill("#log-scrub", "0")
+    page.dispatch_event("#log-scrub", "input")
+    assert page.evaluate(STATE)["joints"] == pytest.approx([float(rows[0][n]) for n in names])
+    page.screenshot(path=str(artifacts / "page-log-check.png"), full_page=True)
+    assert open_page.problems.console_errors == []
+
+
+def test_placement_moves_base(open_page: Any, cell_path: Path, artifacts: Path) -> None:
+    page = open_page.page
+    page.fill("#place-width", "300")
+    page.fill("#place-count", "3")
+    page.fill("#place-yaws", "2")
+    page.click("#place-run")
+    page.wait_for_function("() => window.posebridge.getState().placement", timeout=60_000)
+    best = page.evaluate(STATE)["placement"]["best"][0]
+    # 3 x 3 positions x 2 yaws around the demo foot (closed form)
+    assert page.evaluate(STATE)["placement"]["candidates_evaluated"] == 18
+    with page.expect_response(
+        lambda r: r.request.method == "PATCH" and r.url.endswith("/api/cell/base"), timeout=30_000
+    ) as moved:
+        page.click("#place-candidates li:first-child")
+    assert moved.value.status == 200
+    page.wait_for_function(
+        "(etag) => { const s = window.posebridge.getState(); return s.cell.etag === etag"
+        " && s.fkJoints === s.joints; }",
+        arg=moved.value.json()["etag"],
+        timeout=30_000,
+    )
+    saved = json.loads(cell_path.read_text())
+    assert saved["base"]["position_mm"][:2] == pytest.approx([best["x_mm"], best["y_mm"]])
+    assert saved["base"]["rpy_deg"][2] == pytest.approx(best["yaw_deg"])
+    # the arm is drawn on its new base: the chain starts at the base frame
+    state = page.evaluate(STATE)
+    assert state["fk"]["frames_position_mm"][0] == pytest.approx(
+        state["cell"]["scene"]["base"]["position_mm"], abs=1e-6
+    )
+    page.screenshot(path=str(artifacts / "page-placement.png"), full_page=True)
+    assert open_page.problems.console_errors == []
+
+
+def _moved_cell(data: dict[str, Any], name: str, world_xy: tuple[float, float]) -> dict[str, Any]:
+    """The cell with target ``name`` moved in world x, y (z and orientation kept), in its
+    fixture's frame: p_fixture = inv(T_world_fixture) p_world (Lynch & Park, sec. 3.3.1)."""
+    scene = resolve_scene(validate_cell(data))
+    k = scene.targets.index(name)
+    fixture = scene.targets.fixtures[k]
+    world = scene.targets.T_world_target[k][:3, 3].copy()
+    world[:2] = np.asarray(world_xy) / 1000.0
+    moved = json.loads(json.dumps(data))
+    target = next(t for t in moved["targets"] if t["name"] == name)
+    T = (
+        np.eye(4)
+        if fixture == "world"
+        else scene.T_world_fixture[scene.fixture_names.index(fixture)]
+    )
+    local = np.linalg.inv(T) @ np.append(world, 1.0)
+    target["position_mm"] = [1000.0 * float(v) for v in local[:3]]
+    return moved
+
+
+def _consistent(data: dict[str, Any]) -> bool:
+    return check_targets(resolve_scene(validate_cell(data))).consistent_branch.consistent
+
+
+def test_fix_branch_inconsistent_target(open_page: Any, cell_path: Path, artifacts: Path) -> None:
+    page = open_page.page
+    data = load_cell(cell_path).model_dump(mode="json", exclude_none=True)
+    report = check_targets(resolve_scene(validate_cell(data)))
+    scene = resolve_scene(validate_cell(data))
+    offsets = [(dx, dy) for dy in (-400, -300, 300, 400, -200, 200) for dx in (0, -200, 200)]
+    if report.consistent_branch.consistent:
+        # make one target inconsistent first (through the API, as another user would)
+        name = scene.targets.names[-1]
+        x0, y0 = 1000.0 * scene.targets.T_world_target[-1][:2, 3]
+        broken = next(
+            _moved_cell(data, name, (x0 + dx, y0 + dy))
+            for dx, dy in offsets
+            if not _consistent(_moved_cell(data, name, (x0 + dx, y0 + dy)))
+        )
+        etag = page.evaluate(STATE)["cell"]["etag"]
+        put = httpx.put(
+            open_page.base_url + "api/cell", json=broken, headers={"If-Match": etag}, timeout=30
+        )
+        assert put.status_code == 200, put.text
+        data = broken
+        page.reload()
+        open_page.wait_settled()
+    else:
+        name = report.consistent_branch.breaking_targets[0]
+    # the goal: a point on the plan's 10 mm snap grid where the common branch reaches every target
+    scene = resolve_scene(validate_cell(data))
+    k = scene.targets.index(name)
+    x0, y0 = 1000.0 * scene.targets.T_world_target[k][:2, 3]
+    goal = next(
+        (round(x0 + dx, -1), round(y0 + dy, -1))
+        for dx, dy in offsets
+        if _consistent(_moved_cell(data, name, (round(x0 + dx, -1), round(y0 + dy, -1))))
+    )
+    page.click(f"#cell-target-{name}")
+    page.wait_for_function(
+        "(name) => { const s = window.posebridge.getState();"
+        " return s.selection && s.selection.name === name && s.targetCheck"
+        " && s.targetCheck.etag === s.cell.etag; }",
+        arg=name,
+        timeout=30_000,
+    )
+    assert page.get_attribute("#target-check-summary", "data-consistent") == "false"
+    assert (
+        page.get_attribute(f"#target-check-table tr[data-target='{name}']", "data-breaking")
+        == "true"
+    )
+    page.check("#snap")
+    x, y = plan_marker_position(page)
+    gx, gy = page.evaluate(PIXEL_OF, ["plan", *goal])
+    page.mouse.move(x, y)
+    page.mouse.down()
+    with page.expect_response(
+        lambda r: r.request.method == "PATCH" and "/api/cell/targets/" in r.url, timeout=30_000
+    ) as saved:
+        page.mouse.move(gx, gy, steps=8)
+        page.mouse.up()
+    assert saved.value.status == 200
+    etag = saved.value.json()["etag"]
+    page.wait_for_function(
+        "(etag) => { const s = window.posebridge.getState(); return s.targetCheck"
+        " && s.targetCheck.etag === etag; }",
+        arg=etag,
+        timeout=30_000,
+    )
+    # the target sits on the goal (snapped), and the finding is gone
+    moved = next(t for t in saved.value.json()["scene"]["targets"] if t["name"] == name)
+    assert moved["position_mm"][:2] == pytest.approx(list(goal), abs=1e-6)
+    assert page.get_attribute("#target-check-summary", "data-consistent") == "true"
+    assert (
+        page.get_attribute(f"#target-check-table tr[data-target='{name}']", "data-breaking")
+        == "false"
+    )
+    # the saved cell, checked in Python, agrees
+    assert check_targets(resolve_scene(load_cell(cell_path))).consistent_branch.consistent
+    page.screenshot(path=str(artifacts / "page-target-fixed.png"), full_page=True)
+    assert open_page.problems.console_errors == []
