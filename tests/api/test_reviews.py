@@ -440,8 +440,10 @@ async def test_add_comment_bad_author(
     assert response.json()["detail"].startswith("author: expected 1 to 80 characters")
 
 
-async def test_comments_need_a_cell_file(clients: ClientFactory) -> None:
-    app = create_app(Settings(warm_up=False))
+@pytest.mark.parametrize("bundled_file", [False, True])
+async def test_comments_need_a_cell_file(clients: ClientFactory, bundled_file: bool) -> None:
+    cell_path = data_folder("robots") / "demo-cell.json" if bundled_file else None
+    app = create_app(Settings(warm_up=False, cell_path=cell_path))
     owner = clients(app, client=("127.0.0.1", 5000), base_url=OWNER_URL)
     for response in (
         await owner.get("/api/reviews/comments"),
@@ -449,8 +451,10 @@ async def test_comments_need_a_cell_file(clients: ClientFactory) -> None:
     ):
         assert response.status_code == 409
         assert response.json()["detail"].startswith(
-            "comments: this server works on the bundled demo cell in memory"
+            "comments: this server works on the bundled demo cell;"
         )
+    assert (await owner.get("/api/reviews/access")).json()["comments_enabled"] is False
+    assert not comments_path_for(data_folder("robots") / "demo-cell.json").exists()
 
 
 async def test_add_comment_rate_capped(

@@ -7,12 +7,14 @@ only the owner marks them resolved. Access rules: :mod:`posebridge.api.auth`.
 
 from __future__ import annotations
 
+from pathlib import Path
 from typing import Annotated
 
 from fastapi import APIRouter, Depends, HTTPException, Request, Response
 from fastapi import Path as PathParam
 
 from posebridge.api.auth import ACCESS_COOKIE, OwnerOnly, ReviewRoleDep
+from posebridge.api.cell_store import CellStore
 from posebridge.api.deps import CellsDep
 from posebridge.api.schemas.reviews import (
     CommentCreateRequest,
@@ -24,6 +26,7 @@ from posebridge.api.schemas.reviews import (
     pin_found,
     review_error_responses,
 )
+from posebridge.resources import data_folder
 from posebridge.review.comments import (
     CommentInputError,
     CommentNotFoundError,
@@ -38,15 +41,27 @@ __all__ = ["router"]
 router = APIRouter(prefix="/api/reviews", tags=["reviews"])
 
 _NO_FILE = (
-    "comments: this server works on the bundled demo cell in memory; start it with a cell "
-    "file (posebridge serve --cell FILE) to collect comments"
+    "comments: this server works on the bundled demo cell; start it with a cell file of "
+    "your own (posebridge serve --cell FILE) to collect comments"
 )
 
 
-def _comment_store(cells: CellsDep) -> CommentStore:
+def _comments_file(cells: CellStore) -> Path | None:
+    """The comment file of the server's cell; None for the bundled demo cell, whose
+    folder belongs to the installed package and is not written to."""
     if cells.path is None:
+        return None
+    cell = cells.path.resolve()
+    if cell.parent == data_folder("robots").resolve():
+        return None
+    return comments_path_for(cell)
+
+
+def _comment_store(cells: CellsDep) -> CommentStore:
+    path = _comments_file(cells)
+    if path is None:
         raise HTTPException(status_code=409, detail=_NO_FILE)
-    return CommentStore(comments_path_for(cells.path))
+    return CommentStore(path)
 
 
 CommentsDep = Annotated[CommentStore, Depends(_comment_store)]
@@ -64,7 +79,7 @@ def read_access(request: Request, role: ReviewRoleDep, cells: CellsDep) -> Revie
         role=role,
         shared=request.app.state.review_access is not None,
         can_edit=role == "owner",
-        comments_enabled=cells.path is not None,
+        comments_enabled=_comments_file(cells) is not None,
         cell_file=None if cells.path is None else cells.path.name,
     )
 

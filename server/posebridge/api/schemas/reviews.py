@@ -56,7 +56,8 @@ class ReviewAccessResult(BaseModel):
     shared: bool = Field(description="The server is shared for review (posebridge serve --share).")
     can_edit: bool = Field(description="The cell may be changed by this client.")
     comments_enabled: bool = Field(
-        description="Comments can be stored: the server works on a cell file."
+        description="Comments can be stored: the server works on a cell file of the user's "
+        "own (not the bundled demo cell)."
     )
     cell_file: str | None = Field(description="File name of the cell, null for the in-memory demo.")
 
