@@ -240,3 +240,19 @@ def test_report_and_schema(capsys: pytest.CaptureFixture[str], tmp_path: Path) -
     assert code == 0
     # jsonschema (independent validator) accepts the demo cell against the printed schema
     jsonschema.validate(json.loads(Path(DEMO_CELL).read_text(encoding="utf-8")), json.loads(out))
+
+
+def test_demo_working_copy_leaves_the_bundled_cell_alone(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from posebridge.resources import demo_working_folder
+
+    monkeypatch.setenv("XDG_DATA_HOME", str(tmp_path))
+    folder = demo_working_folder()
+    assert folder == tmp_path / "posebridge" / "demo"
+    copy = folder / "demo-cell.json"
+    assert copy.read_bytes() == Path(DEMO_CELL).read_bytes()
+    copy.write_text("{}", encoding="utf-8")  # an edited copy is kept, not overwritten
+    demo_working_folder()
+    assert copy.read_text(encoding="utf-8") == "{}"
+    assert (folder / "demo-log.csv").read_bytes() == Path(DEMO_LOG).read_bytes()

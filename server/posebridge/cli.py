@@ -546,9 +546,13 @@ def _cmd_schema(args: argparse.Namespace) -> int:
 
 def _cmd_serve(args: argparse.Namespace) -> int:
     from posebridge.api.server import run_server
-    from posebridge.resources import data_folder
+    from posebridge.resources import demo_working_folder
 
-    cell_path = Path(args.cell) if args.cell else data_folder("robots") / DEFAULT_CELL
+    if args.cell:
+        cell_path = Path(args.cell)
+    else:
+        cell_path = demo_working_folder() / DEFAULT_CELL
+        print(f"demo cell: working copy {cell_path} (delete it to start afresh)")
     run_server(host=args.host, port=args.port, cell_path=cell_path, share=args.share)
     return EXIT_OK
 
@@ -585,7 +589,9 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
     serve = sub.add_parser("serve", help="run the web dashboard (loopback only unless --share)")
-    serve.add_argument("--cell", help="cell file (default: the bundled demo cell)")
+    serve.add_argument(
+        "--cell", help="cell file (default: a working copy of the bundled demo cell)"
+    )
     serve.add_argument("--host", default="127.0.0.1", help="address to bind (default 127.0.0.1)")
     serve.add_argument("--port", type=int, default=8000, help="port (default 8000, 0 = any free)")
     serve.add_argument(

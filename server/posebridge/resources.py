@@ -6,9 +6,14 @@ install or a source checkout they are the top-level folders of the repository.
 
 from __future__ import annotations
 
+import os
+import shutil
 from pathlib import Path
 
-__all__ = ["data_folder"]
+__all__ = ["DEMO_FILES", "data_folder", "demo_working_folder"]
+
+DEMO_FILES = ("demo-cell.json", "demo-log.csv")
+"""The bundled demo cell and its invented controller log."""
 
 _PACKAGE = Path(__file__).resolve().parent
 
@@ -25,3 +30,21 @@ def data_folder(name: str) -> Path:
     if repository.is_dir():
         return repository
     raise FileNotFoundError(f"bundled folder {name!r} not found in {packaged} or {repository}")
+
+
+def demo_working_folder() -> Path:
+    """A writable folder holding a working copy of the demo files, created on first use.
+
+    ``$XDG_DATA_HOME/posebridge/demo`` (``~/.local/share/posebridge/demo`` by
+    default). Edits made in the dashboard go to these copies, never to the
+    bundled originals; a missing file is copied again, an existing one is kept
+    (delete it to start afresh).
+    """
+    base = Path(os.environ.get("XDG_DATA_HOME") or Path.home() / ".local" / "share")
+    folder = base / "posebridge" / "demo"
+    folder.mkdir(parents=True, exist_ok=True)
+    for name in DEMO_FILES:
+        copy = folder / name
+        if not copy.exists():
+            shutil.copyfile(data_folder("robots") / name, copy)
+    return folder
