@@ -37,3 +37,12 @@ export function frameScheduler({ render, minIntervalMs = 0, hold = () => false }
     requestAnimationFrame(run);
   };
 }
+
+/**
+ * Whether the page has its kinematics answers for the current joints (and
+ * target): the heavy 3D views wait for this, so their first WebGL draw does
+ * not hold up the requests and the light views on load.
+ */
+export function kinematicsSettled({ robot, fk, fkJoints, joints }) {
+  return Boolean(robot && fk && fkJoints === joints);
+}

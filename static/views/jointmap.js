@@ -387,7 +387,8 @@ export function createJointMapView({ element, base, note, legend, header, progre
   function renderProgress() {
     const job = store.get().jointMapJob;
     const busy = job && (job.state === "queued" || job.state === "running");
-    progress.hidden = !busy;
+    // kept in the layout (only made invisible), so the map below never jumps
+    progress.style.visibility = busy ? "visible" : "hidden";
     if (busy) {
       bar.value = job.total ? job.done / job.total : 0;
       barText.textContent = job.total ? `Computing the map: ${job.done} of ${job.total} parts` : "Computing the map…";

@@ -8,7 +8,7 @@
 /* global Plotly */
 
 import { draw } from "./plotting.js";
-import { frameScheduler } from "./frame.js";
+import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { branchStyle, regionColour } from "../palette.js";
 
 
@@ -178,7 +178,7 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
           x: group.x,
           y: group.y,
           z: group.z,
-          marker: { size: 2.5, color: regionColour(palette, group.index), opacity: 0.5, symbol: "square" },
+          marker: { size: 2, color: regionColour(palette, group.index), symbol: "square" },
           hovertemplate: `${group.name}<extra></extra>`,
           meta: { role: "obstacle", obstacle: group.name },
         });
@@ -218,9 +218,12 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
   }
 
   // like the Cartesian 3D view, not redrawn during a drag; once when it ends
-  const requestRender = frameScheduler({ render, hold: () => store.get().dragging });
+  const requestRender = frameScheduler({
+    render,
+    hold: () => store.get().dragging || !kinematicsSettled(store.get()),
+  });
   store.subscribe(requestRender, {
-    keys: ["robot", "joints", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging"],
+    keys: ["robot", "joints", "fk", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging"],
   });
   return { render };
 }

@@ -7,7 +7,7 @@
 /* global Plotly */
 
 import { draw } from "./plotting.js";
-import { frameScheduler } from "./frame.js";
+import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { appendShapeMesh, sceneBounds } from "./shapes.js";
 import { column, matrixFromQuaternion, matrixFromRpyDeg } from "../rotation.js";
 
@@ -337,7 +337,10 @@ export function createSceneView({ element, store, palette }) {
     Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
   }
 
-  const requestRender = frameScheduler({ render, hold: () => store.get().dragging });
+  const requestRender = frameScheduler({
+    render,
+    hold: () => store.get().dragging || !kinematicsSettled(store.get()),
+  });
   store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive"] });
   return { render };
 }
