@@ -16,9 +16,8 @@ def test_turns_count_from_the_revolution_centred_on_the_range() -> None:
     result = solve_ik_all(robot, fk_tool(robot, q), all_turns=True)
     valid = result.valid & result.within_limits
     mid = 0.5 * (robot.lower + robot.upper)
-    # closed form of the documented rule: turns = sign(d) floor((|d| + pi) / 2 pi), d = q - mid
-    d = result.q - mid
-    expected = np.sign(d) * np.floor((np.abs(d) + np.pi - 1e-9) / (2 * np.pi))
+    # closed form of the documented rule: turns = floor((q - mid) / 2 pi + 1/2)
+    expected = np.floor((result.q - mid) / (2 * np.pi) + 0.5)
     assert np.array_equal(result.turns[valid], expected[valid].astype(np.int16))
     # j3 spans -200..80 deg, less than one revolution: never a turn (closed form of the rule)
     assert not np.any(result.turns[valid][:, 2])
@@ -26,14 +25,15 @@ def test_turns_count_from_the_revolution_centred_on_the_range() -> None:
     assert np.any(result.turns[valid][:, 5] != 0)
 
 
-def test_half_a_turn_is_no_turn() -> None:
+def test_values_a_turn_apart_never_share_a_label() -> None:
     robot = load_robot("pb-arm6")
     q = np.radians([[0.0, -20.0, 20.0, 0.0, 60.0, 180.0]])
-    result = solve_ik_all(robot, fk_tool(robot, q), seed=q[0])
-    # the generating configuration comes first (seed distance 0); j6 = 180 deg sits exactly
-    # half a turn from the centre of its -360..360 deg range: no turn by the documented rule
-    assert np.allclose(result.q[0, 0], q[0], atol=1e-9)
-    assert not np.any(result.turns[0, 0])
+    result = solve_ik_all(robot, fk_tool(robot, q), all_turns=True)
+    slots = result.valid_solutions(0)
+    labels = [result.branch_label(0, m) for m in slots]
+    # j6 = +180 and -180 deg are the same angle a turn apart (range -360..360 in pb-arm6.toml):
+    # both are listed, with different turn counts, so every label names one solution
+    assert len(set(labels)) == len(labels)
 
 
 def test_solver_choice_is_made_once_per_robot() -> None:

@@ -21,9 +21,9 @@ zero without a seed; the value nearest the range when no turn fits). With
 ``all_turns`` every in-limit ``k`` of every joint gives its own slot.
 Continuous joints have no limits: only the nearest turn is given. The
 reported ``turns`` count whole revolutions away from the revolution centred
-on the joint's range: with ``d = q - (lower + upper) / 2``, ``turns =
-sign(d) floor((|d| + pi) / 2 pi)`` (so exactly half a turn either side is
-still no turn): a joint
+on the joint's range, ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)`` (the
+half-open window [centre - pi, centre + pi) is turn 0, so two values a turn
+apart never share a count): a joint
 whose range spans at most one revolution (e.g. -200..80 deg) always reports
 0, and only joints with more than one revolution of range can show turns.
 Continuous joints count from zero.
@@ -494,12 +494,9 @@ def finish_rows(
                     if mode != 2.0 and (v < lower - 1e-12 or v > upper + 1e-12):
                         within = False
                     if mode == 1.0:
-                        # reported turns count from the revolution centred on the range;
-                        # exactly half a turn either side still counts as no turn
-                        d = v - 0.5 * (lower + upper)
-                        k = int(np.floor((abs(d) + np.pi - 1e-9) / two_pi))
-                        if d < 0.0:
-                            k = -k
+                        # reported turns count from the revolution centred on the range,
+                        # the half-open window [centre - pi, centre + pi)
+                        k = int(np.floor((v - 0.5 * (lower + upper)) / two_pi + 0.5))
                     elif mode == 3.0:
                         k = 0
                     value[count, j] = v
