@@ -1,0 +1,53 @@
+"""README promises that must hold: the set-up commands, the test command CI runs, the examples."""
+
+from __future__ import annotations
+
+import json
+import re
+import tomllib
+from pathlib import Path
+
+from posebridge.cell import resolve_scene, validate_cell
+from posebridge.robot.toml_format import parse_robot_toml
+
+ROOT = Path(__file__).resolve().parent.parent
+README = (ROOT / "README.md").read_text(encoding="utf-8")
+
+
+def _code_blocks(language: str) -> list[str]:
+    return re.findall(r"```" + language + r"\n(.*?)```", README, flags=re.S)
+
+
+def test_readme_starts_with_the_job_then_two_set_up_commands() -> None:
+    body = README.split("\n", 1)[1].strip()
+    first_paragraph = body.split("\n\n", 1)[0]
+    for user in ("cell designers", "shift engineers", "reviewed with a client"):
+        assert user in first_paragraph
+    commands = [block.strip() for block in _code_blocks("")][:2]
+    assert commands[0].endswith("posebridge serve")
+    assert commands[1].endswith("pytest")
+    assert "<!-- test command -->" in README.split(commands[1])[0].rsplit("```", 1)[0][-40:]
+
+
+def test_readme_carries_the_safety_caution() -> None:
+    text = " ".join(README.split())
+    for phrase in ("not a safety function", "ISO 10218-2", "ISO 13855", "reduced speed"):
+        assert phrase in text
+
+
+def test_ci_runs_the_readme_test_command() -> None:
+    ci = (ROOT / ".ci" / "run").read_text(encoding="utf-8")
+    assert "<!-- test command -->" in ci and 'bash -c "$test_command"' in ci
+
+
+def test_readme_cell_example_is_a_valid_cell() -> None:
+    (example,) = _code_blocks("json")
+    scene = resolve_scene(validate_cell(json.loads(example)))
+    assert scene.targets.names == ("pick",)
+
+
+def test_readme_robot_example_parses() -> None:
+    (example,) = _code_blocks("toml")
+    tomllib.loads(example)  # valid TOML as printed
+    robot = parse_robot_toml(example, "README.md")
+    assert robot.joint_names == ("j1",)
