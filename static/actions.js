@@ -77,8 +77,9 @@ export function createActions({ store }) {
     store.update({ follow });
   }
 
-  function setDragging(dragging) {
-    store.update({ dragging });
+  /** A pointer drag started or ended; `kind` says what is dragged ("target" or "joints"). */
+  function setDragging(dragging, kind = "target") {
+    store.update({ dragging, dragKind: dragging ? kind : null });
   }
 
   function setStatus(level, message) {

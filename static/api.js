@@ -85,7 +85,8 @@ export function createApiClient({ baseUrl = "" } = {}) {
  *
  * At most one request is in flight; edits arriving meanwhile replace each
  * other, and only the newest is sent when the current one returns, no sooner
- * than `minIntervalMs` after the previous send (about one display frame).
+ * than `minIntervalMs` after the previous send (about one display frame;
+ * a function is read at each send, so the interval can follow the page's state).
  * Every request carries a sequence number: an answer older than one already
  * applied is dropped, and `cancel()` aborts the request in flight.
  *
@@ -110,7 +111,8 @@ export function createLatestChannel({ send, onResult, onError, minIntervalMs = 1
     if (inFlight || timer !== null || pending === null) {
       return;
     }
-    const wait = lastSentAt + minIntervalMs - performance.now();
+    const interval = typeof minIntervalMs === "function" ? minIntervalMs() : minIntervalMs;
+    const wait = lastSentAt + interval - performance.now();
     if (wait > 0) {
       timer = setTimeout(() => {
         timer = null;

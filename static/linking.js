@@ -38,10 +38,16 @@ export function cellFrames(state) {
   };
 }
 
+const FK_WHILE_DRAGGING_MS = 120;
+
 export function createLinking({ store, actions, api }) {
   let targetFromNextFk = false;
 
+  // while a target is dragged, forward kinematics (the arm's drawing, margins) is
+  // asked for at most every FK_WHILE_DRAGGING_MS: the inverse kinematics answers
+  // the drag waits for then do not queue behind it
   const fkChannel = createLatestChannel({
+    minIntervalMs: () => (store.get().dragKind === "target" ? FK_WHILE_DRAGGING_MS : 16),
     send: (payload, options) => api.fk(payload, options),
     onResult: (result, meta, payload) => {
       const fk = { ...result.configurations[0], capsules: result.capsules, frameNames: result.frame_names };
@@ -58,8 +64,11 @@ export function createLinking({ store, actions, api }) {
     send: (payload, options) => api.ik(payload, options),
     onResult: (result, meta, payload) => {
       const state = store.get();
-      store.update({ ik: { result, target: payload.pose, inputAt: meta.inputAt } }, { reason: "ik" });
+      const ik = { result, target: payload.pose, inputAt: meta.inputAt };
       const summary = ikSummary(result);
+      // the answer and the arm following it go into the store in one update, so
+      // the views redraw once per answer
+      const patch = { ik };
       if (state.follow && result.solutions.length > 0) {
         const chosen =
           state.selectedBranch === null
@@ -70,15 +79,14 @@ export function createLinking({ store, actions, api }) {
                 joints: state.joints,
               });
         if (chosen) {
-          store.update(
-            { joints: [...chosen.joints_deg], selectedBranch: branchOf(chosen) },
-            { reason: "follow" },
-          );
+          patch.joints = [...chosen.joints_deg];
+          patch.selectedBranch = branchOf(chosen);
         } else {
           summary.level = "warn";
           summary.message = `Target not reachable on branch "${state.selectedBranch.label}"; ${summary.message}`;
         }
       }
+      store.update(patch, { reason: "ik" });
       actions.setStatus(summary.level, summary.message);
     },
     onError: (error) => actions.setStatus("error", error.message),

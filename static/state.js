@@ -16,6 +16,7 @@
  *   selectedBranch  {label, shoulder, elbow, wrist} of the branch the arm follows, or null
  *   follow          the arm follows the target on the selected branch
  *   dragging        a pointer drag is in progress in a 2D view
+ *   dragKind        what is dragged: "target" (plan, elevation) or "joints" (joint map), or null
  *   mapJoints       [i, j]: joint indices on the joint map's horizontal and vertical axes
  *   stepMm          nudge step and snapping grid for positions, mm
  *   stepDeg         nudge step for angles, deg
@@ -50,6 +51,7 @@ export function initialState() {
     selectedBranch: null,
     follow: true,
     dragging: false,
+    dragKind: null,
     mapJoints: [0, 1],
     stepMm: 10,
     stepDeg: 5,

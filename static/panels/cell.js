@@ -31,6 +31,7 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
   const list = element("div", { className: "pb-cell-list", attributes: { id: "cell-items", role: "listbox", "aria-label": "Targets and path waypoints" } });
   container.append(element("div", { className: "pb-controls" }, [info, saveState, back]), list);
   let builtFor = null;
+  let markedFor = null;
 
   function item({ text, detail, selection, id }) {
     const row = element("div", { className: "pb-cell-item", attributes: { role: "option", tabindex: "0", id, "aria-selected": "false" } }, [
@@ -86,14 +87,18 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
     saveState.dataset.state = cellSave.state;
     back.hidden = cellActive;
     const key = `${cell.etag}|${cellActive}`;
-    if (builtFor !== key) {
+    const rebuilt = builtFor !== key;
+    if (rebuilt) {
       build(cell);
       builtFor = key;
     }
     list.classList.toggle("pb-disabled", !cellActive);
     const selected = JSON.stringify(selection);
-    for (const row of list.querySelectorAll(".pb-cell-item")) {
-      row.setAttribute("aria-selected", String(row.dataset.key === selected));
+    if (selected !== markedFor || rebuilt) {
+      markedFor = selected;
+      for (const row of list.querySelectorAll(".pb-cell-item")) {
+        row.setAttribute("aria-selected", String(row.dataset.key === selected));
+      }
     }
   }
 

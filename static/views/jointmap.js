@@ -433,7 +433,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
 
   attachDrag({
     figure: element,
-    onDragging: (active) => actions.setDragging(active),
+    onDragging: (active) => actions.setDragging(active, "joints"),
     onPress: (point, event) => {
       if (!store.get().robot) {
         return false;

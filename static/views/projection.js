@@ -254,7 +254,7 @@ export function createProjectionView({
 
   attachDrag({
     figure: element,
-    onDragging: (active) => actions.setDragging(active),
+    onDragging: (active) => actions.setDragging(active, "target"),
     onPress: (point, event) => {
       const { target, cell, cellActive } = store.get();
       if (!target) {
