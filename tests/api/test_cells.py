@@ -228,3 +228,26 @@ async def test_request_too_large(make_app: Callable[..., FastAPI]) -> None:
     assert response.json()["detail"] == (
         f"request body: {length} bytes is more than this server accepts (1000 bytes)"
     )
+
+
+async def test_move_fixture_unknown(client: httpx.AsyncClient) -> None:
+    etag = (await client.get("/api/cell")).json()["etag"]
+    response = await client.patch(
+        "/api/cell/fixtures/nowhere", json={"position_mm": [0, 0, 0]}, headers={"If-Match": etag}
+    )
+    assert response.status_code == 404
+    assert response.json()["detail"] == "fixture: no fixture named 'nowhere' in the cell"
+
+
+async def test_move_base_pedestal_height(client: httpx.AsyncClient) -> None:
+    etag = (await client.get("/api/cell")).json()["etag"]
+    response = await client.patch(
+        "/api/cell/base", json={"pedestal_height_mm": 550.0}, headers={"If-Match": etag}
+    )
+    assert response.status_code == 200
+    body = response.json()
+    # robot base = foot + pedestal height along z (closed form); the pedestal solid follows
+    assert body["scene"]["base"]["position_mm"] == pytest.approx([0.0, 0.0, 550.0])
+    pedestal = next(s for s in body["scene"]["shapes"] if s["role"] == "pedestal")
+    assert pedestal["height_mm"] == pytest.approx(550.0)
+    assert pedestal["position_mm"][2] == pytest.approx(275.0)

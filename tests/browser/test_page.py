@@ -248,3 +248,42 @@ def test_measure_drag_roundtrip(browser: Any, server_url: str, artifacts: Path) 
     # every drag produced a marker update (timing itself is reported, never asserted)
     assert result["samples"] == samples
     assert result["missed"] == 0
+
+
+def test_two_pages_conflict_detected(open_page: Any, browser: Any) -> None:
+    first = open_page.page
+    second = browser.new_page(viewport={"width": 1600, "height": 1250})
+    try:
+        second.goto(open_page.base_url)
+        second.wait_for_function(
+            "() => { const s = window.posebridge && window.posebridge.getState();"
+            " return s && s.cell && s.ik && s.fkJoints === s.joints; }",
+            timeout=60_000,
+        )
+        seen = second.evaluate(STATE)["cell"]["etag"]
+        # the first page moves the target and saves it
+        with first.expect_response(
+            lambda r: r.request.method == "PATCH" and "/api/cell/targets/" in r.url
+        ) as saved_first:
+            first.focus("#plan")
+            first.keyboard.press("ArrowUp")
+        assert saved_first.value.status == 200
+        # the second page, still at the old version, is refused and reloads the cell
+        with second.expect_response(
+            lambda r: r.request.method == "PATCH" and "/api/cell/targets/" in r.url
+        ) as saved_second:
+            second.focus("#plan")
+            second.keyboard.press("ArrowDown")
+        assert saved_second.value.status == 412
+        second.wait_for_function(
+            "(etag) => window.posebridge.getState().cell.etag === etag",
+            arg=saved_first.value.json()["etag"],
+            timeout=30_000,
+        )
+        assert second.get_attribute("#cell-save", "data-state") == "conflict"
+        assert "not saved" in second.inner_text("#cell-save")
+        # the server kept the first page's move (nothing was overwritten)
+        cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+        assert cell["etag"] == saved_first.value.json()["etag"] != seen
+    finally:
+        second.close()
