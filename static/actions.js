@@ -73,6 +73,10 @@ export function createActions({ store }) {
     store.update({ snap });
   }
 
+  function setShowReach(showReach) {
+    store.update({ showReach });
+  }
+
   function setFollow(follow) {
     store.update({ follow });
   }
@@ -99,6 +103,7 @@ export function createActions({ store }) {
     setStep,
     setSnap,
     setFollow,
+    setShowReach,
     setDragging,
     setStatus,
   };

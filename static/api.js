@@ -64,6 +64,7 @@ export function createApiClient({ baseUrl = "" } = {}) {
       request(`/api/cell/fixtures/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
     moveBase: (body, etag) => request("/api/cell/base", { method: "PATCH", body, ifMatch: etag }),
     startJointMap: (body) => request("/api/maps/joint", { method: "POST", body }),
+    startReachSection: (body) => request("/api/maps/reach-section", { method: "POST", body }),
     targetCheck: () => request("/api/cell/check"),
     pathCheck: (name) => request(`/api/cell/paths/${encodeURIComponent(name)}/check`),
     diagnosePose: (joints) => request("/api/cell/diagnose/pose", { method: "POST", body: { joints_deg: joints } }),

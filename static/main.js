@@ -6,6 +6,7 @@ import { createCellSync } from "./cellsync.js";
 import { createLinking } from "./linking.js";
 import { createMaps } from "./maps.js";
 import { createPathCurve } from "./pathcurve.js";
+import { createReachSections } from "./reach.js";
 import { readPalette } from "./palette.js";
 import { createStore, initialState } from "./state.js";
 import { createJointMapView } from "./views/jointmap.js";
@@ -34,6 +35,7 @@ async function start() {
   const cellSync = createCellSync({ store, actions, api, linking });
   const maps = createMaps({ store, api, actions });
   createPathCurve({ store, api });
+  createReachSections({ store, api, actions });
   const byId = (id) => document.getElementById(id);
 
   const showRobot = (spec) => {
@@ -57,6 +59,7 @@ async function start() {
     palette,
     axes: [0, 1],
     depthAxis: 2,
+    reachKey: "reachPlan",
     viewerSide: 1,
   });
   createProjectionView({
@@ -68,6 +71,7 @@ async function start() {
     palette,
     axes: [0, 2],
     depthAxis: 1,
+    reachKey: "reachElevation",
     viewerSide: -1,
   });
   createTargetPanel({ container: byId("target-panel"), store, actions });

@@ -37,6 +37,9 @@
  *   logCheck        the latest log diagnosis (LogDiagnosis) or null
  *   pathReport      {etag, report} of the latest path check (PathCheckReport) or null
  *   placement       the latest base placement ranking (PlacementReport) or null
+ *   showReach       draw reach sections under the plan and the elevation
+ *   reachPlan       horizontal reach section at the target (ReachSectionResult + requested_mm) or null
+ *   reachElevation  vertical reach section at the target, or null
  */
 export function initialState() {
   return {
@@ -72,6 +75,9 @@ export function initialState() {
     logCheck: null,
     pathReport: null,
     placement: null,
+    showReach: false,
+    reachPlan: null,
+    reachElevation: null,
   };
 }
 

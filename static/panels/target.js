@@ -44,6 +44,8 @@ export function createTargetPanel({ container, store, actions }) {
   snap.addEventListener("change", () => actions.setSnap(snap.checked));
   const follow = element("input", { attributes: { type: "checkbox", id: "follow" } });
   follow.addEventListener("change", () => actions.setFollow(follow.checked));
+  const reach = element("input", { attributes: { type: "checkbox", id: "show-reach" } });
+  reach.addEventListener("change", () => actions.setShowReach(reach.checked));
   const fromTool = element("button", { text: "Target ← tool", attributes: { type: "button", id: "target-from-tool" } });
   fromTool.title = "Put the target on the current tool pose";
   fromTool.addEventListener("click", () => actions.targetFromTool());
@@ -55,6 +57,7 @@ export function createTargetPanel({ container, store, actions }) {
       element("label", { text: "Angle step " }, [stepDeg]),
       element("label", {}, [snap, " Snap drags to the step grid"]),
       element("label", {}, [follow, " Arm follows the target"]),
+      element("label", { attributes: { title: "Tool directions reached per cell, in slices through the target" } }, [reach, " Reach in plan and elevation"]),
       fromTool,
     ]),
   );
@@ -70,9 +73,10 @@ export function createTargetPanel({ container, store, actions }) {
     stepDeg.value = String(deg);
     snap.checked = snapOn;
     follow.checked = followOn;
+    reach.checked = store.get().showReach;
   }
 
-  store.subscribe(render, { keys: ["target", "stepMm", "stepDeg", "snap", "follow"] });
+  store.subscribe(render, { keys: ["target", "stepMm", "stepDeg", "snap", "follow", "showReach"] });
   render();
   return { render };
 }

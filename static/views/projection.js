@@ -60,7 +60,8 @@ function paddedRange(lower, upper, pad) {
 /**
  * @param {{element: HTMLElement, base: HTMLElement, overlay: SVGElement, store: object, actions: object,
  *          palette: object, axes: [number, number], depthAxis: number, viewerSide: 1 | -1}} options
- *   element: the top figure (arm, events); base: the figure under it (axes, cell).
+ *   element: the top figure (arm, events); base: the figure under it (axes, cell);
+ *   reachKey: the store key of this view's reach section (drawn under the cell when shown).
  *   axes: indices of the horizontal and vertical data axes (0 x, 1 y, 2 z);
  *   depthAxis: the viewing direction's axis; viewerSide: the viewer sits on its
  *   positive (1) or negative (-1) side. Farther capsules are drawn first.
@@ -75,6 +76,7 @@ export function createProjectionView({
   axes,
   depthAxis,
   viewerSide,
+  reachKey,
 }) {
   const [h, v] = axes;
   const third = [0, 1, 2].find((k) => k !== h && k !== v);
@@ -84,6 +86,23 @@ export function createProjectionView({
     const [low, high] = viewBounds(state);
     const pad = 0.12 * Math.max(high[0] - low[0], high[1] - low[1], high[2] - low[2], 200);
     return { x: paddedRange(low[h], high[h], pad), y: paddedRange(low[v], high[v], pad) };
+  }
+
+  function reachTrace(section) {
+    return {
+      type: "heatmap",
+      name: "reach",
+      x: section.u_mm,
+      y: section.v_mm,
+      z: section.count.map((row) => row.map((count) => (count > 0 ? count / section.directions : null))),
+      zmin: 0,
+      zmax: 1,
+      colorscale: [[0, "rgba(0, 158, 115, 0.12)"], [1, "rgba(0, 158, 115, 0.55)"]],
+      showscale: false,
+      hoverinfo: "skip",
+      zsmooth: false,
+      meta: { role: "reach", value_mm: section.value_mm },
+    };
   }
 
   function cellTraces(scene) {
@@ -214,7 +233,8 @@ export function createProjectionView({
       return;
     }
     const arm = robotTraces(fk && fk.capsules ? fk : null);
-    const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}`;
+    const reach = state.showReach && state[reachKey] ? state[reachKey] : null;
+    const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}|${reach ? `${reach.cell_etag}|${reach.requested_mm}` : "none"}`;
     if (key === staticKey && element.data) {
       const update = { x: arm.map((trace) => trace.x), y: arm.map((trace) => trace.y) };
       Plotly.restyle(element, update, arm.map((_, k) => k)).then(placeTarget);
@@ -222,7 +242,10 @@ export function createProjectionView({
     }
     staticKey = key;
     const range = ranges(state);
-    const data = cellActive && cell ? cellTraces(cell.scene) : [];
+    const data = reach && cellActive ? [reachTrace(reach)] : [];
+    if (cellActive && cell) {
+      data.push(...cellTraces(cell.scene));
+    }
     const layout = layout2d({
       xTitle: `${AXIS_NAMES[h]} (mm)`,
       yTitle: `${AXIS_NAMES[v]} (mm)`,
@@ -240,7 +263,7 @@ export function createProjectionView({
     render,
     minIntervalMs: () => (store.get().dragging ? ARM_REDRAW_WHILE_DRAGGING_MS : ARM_REDRAW_MS),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey] });
   store.subscribe(placeTarget, { keys: ["target"] });
   new ResizeObserver(placeTarget).observe(element);
 

@@ -123,3 +123,29 @@ async def test_read_job_unknown(client: httpx.AsyncClient) -> None:
     response = await client.get("/api/jobs/abc123")
     assert response.status_code == 404
     assert response.json()["detail"] == "job: no job 'abc123' (unknown, or finished long ago)"
+
+
+async def test_start_reach_section(client: httpx.AsyncClient) -> None:
+    response = await client.post(
+        "/api/maps/reach-section", json={"axis": "z", "value_mm": 700.0, "voxel_mm": 200.0}
+    )
+    assert response.status_code == 202
+    status = await _finished(client, response.json()["id"])
+    assert status["state"] == "done", status["detail"]
+    result = status["result"]
+    # 26 tool directions: a cube's 6 faces, 12 edges and 8 corners (closed form)
+    assert result["directions"] == 26
+    counts = np.array(result["count"])
+    assert counts.shape == (len(result["v_mm"]), len(result["u_mm"]))
+    assert counts.min() >= 0 and counts.max() <= 26 and counts.max() > 0
+    assert (result["u_axis"], result["v_axis"]) == ("x", "y")
+    # the slice is the voxel-centre layer nearest the asked height, within half a voxel
+    assert abs(result["value_mm"] - 700.0) <= 100.0
+
+
+async def test_start_reach_section_too_fine(client: httpx.AsyncClient) -> None:
+    response = await client.post(
+        "/api/maps/reach-section", json={"axis": "y", "value_mm": 0.0, "voxel_mm": 20.0}
+    )
+    assert response.status_code == 413
+    assert response.json()["detail"].startswith("voxel_mm: 20 mm cells over this robot's reach")

@@ -50,6 +50,7 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/cell/fixtures/{name}",
         "/api/cell/base",
         "/api/maps/joint",
+        "/api/maps/reach-section",
         "/api/cell/check",
         "/api/cell/paths/{name}/check",
         "/api/cell/diagnose/pose",

@@ -1,10 +1,11 @@
-"""Joint-space obstacle maps of the cell's robot, computed as jobs."""
+"""Joint-space obstacle maps and Cartesian reach sections of the cell's robot, computed as jobs."""
 
 from __future__ import annotations
 
 import threading
 from collections.abc import Callable
 
+import numpy as np
 from fastapi import APIRouter, HTTPException, Request
 
 from posebridge.api.deps import CellsDep, JobsDep
@@ -15,11 +16,21 @@ from posebridge.api.schemas.kinematics import joints_si_from_request
 from posebridge.api.schemas.maps import (
     MAX_MAP_CELLS_2,
     MAX_MAP_CELLS_3,
+    MAX_SECTION_CELLS,
     JointMapRequest,
     JointMapResult,
+    ReachSectionRequest,
+    ReachSectionResult,
     joint_map_result,
+    reach_section_result,
 )
 from posebridge.spaces.joint_map import joint_map
+from posebridge.spaces.workspace import (
+    reach_map,
+    reach_section,
+    tcp_distance_bound,
+    tool_directions,
+)
 from posebridge.units import m_from_mm
 
 __all__ = ["client_key", "router", "started"]
@@ -83,6 +94,61 @@ def start_joint_map(
 
     try:
         job = jobs.start("joint-map", client_key(request), work)
+    except JobLimitError as error:
+        raise started(error) from error
+    return job_status(job)
+
+
+@router.post(
+    "/reach-section",
+    summary="Start a reach section",
+    status_code=202,
+    responses=error_responses(413, 422, 429),
+)
+def start_reach_section(
+    body: ReachSectionRequest, request: Request, cells: CellsDep, jobs: JobsDep
+) -> JobStatus:
+    """How many tool directions the cell's robot reaches in each cell of one slice (world
+    frame, the cell's base and tool), over the square around the base that holds its reach.
+
+    Answers at once with the job; poll ``GET /api/jobs/{id}`` for the result.
+    """
+    snapshot = cells.read()
+    scene = snapshot.scene
+    voxel = float(m_from_mm(body.voxel_mm))
+    # the bound is a tight lower bound of the farthest TCP distance: add a margin of 5 %
+    reach = (
+        1.05 * tcp_distance_bound(scene.robot, np.zeros(3), T_flange_tool=scene.T_flange_tool)
+        + voxel
+    )
+    centre = scene.T_world_base[:3, 3]
+    cells_per_axis = int(2.0 * reach / voxel) + 2
+    if cells_per_axis**2 > MAX_SECTION_CELLS:
+        raise HTTPException(
+            status_code=413,
+            detail=f"voxel_mm: {body.voxel_mm:g} mm cells over this robot's reach make "
+            f"{cells_per_axis**2} cells; this server computes at most {MAX_SECTION_CELLS}",
+        )
+    value = float(m_from_mm(body.value_mm))
+    k = 2 if body.axis == "z" else 1
+    box = np.stack([centre - reach, centre + reach])
+    box[:, k] = [value - 0.5 * voxel, value + 0.5 * voxel]
+
+    def work(progress: Callable[[int, int], None], cancel: threading.Event) -> ReachSectionResult:
+        computed = reach_map(
+            scene.robot,
+            voxel_size_m=voxel,
+            T_world_base=scene.T_world_base,
+            T_flange_tool=scene.T_flange_tool,
+            box_m=box,
+            progress=progress,
+            cancel=cancel,
+        )
+        section = reach_section(computed, axis=body.axis, value_m=value)
+        return reach_section_result(section, tool_directions().shape[0], snapshot.etag)
+
+    try:
+        job = jobs.start("reach-section", client_key(request), work)
     except JobLimitError as error:
         raise started(error) from error
     return job_status(job)

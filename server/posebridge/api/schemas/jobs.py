@@ -7,13 +7,13 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.api.jobs import Job
-from posebridge.api.schemas.maps import JointMapResult
+from posebridge.api.schemas.maps import JointMapResult, ReachSectionResult
 from posebridge.planning.reports import PlacementReport
 
 __all__ = ["JobResult", "JobStatus", "job_status"]
 
-JobResult = JointMapResult | PlacementReport
-"""Results a job can carry: a joint map, or a base placement ranking."""
+JobResult = JointMapResult | ReachSectionResult | PlacementReport
+"""Results a job can carry: a joint map, a reach section or a base placement ranking."""
 
 
 # A job: what it computes, how far it is, and its result when done.

@@ -7,7 +7,7 @@ millimetres for prismatic joints, as everywhere at this interface.
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Literal
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
@@ -15,20 +15,28 @@ from pydantic import BaseModel, ConfigDict, Field
 from posebridge.api.schemas.kinematics import MAX_JOINTS, Finite
 from posebridge.robot.model import Robot
 from posebridge.spaces.joint_map import JointMap
+from posebridge.spaces.workspace import ReachSection
 from posebridge.units import joint_unit_labels, joints_user_from_si, mm_from_m
 
 __all__ = [
     "MAX_MAP_CELLS_2",
     "MAX_MAP_CELLS_3",
+    "MAX_SECTION_CELLS",
     "JointMapRequest",
     "JointMapResult",
+    "ReachSectionRequest",
+    "ReachSectionResult",
     "joint_map_result",
+    "reach_section_result",
 ]
 
 MAX_MAP_CELLS_2 = 256 * 256
 """Most cells of a two-joint map computed by the server."""
 MAX_MAP_CELLS_3 = 48 * 48 * 48
 """Most cells of a three-joint map computed by the server."""
+
+MAX_SECTION_CELLS = 100 * 100
+"""Most cells of a reach section computed by the server."""
 
 _JOINTS = "Revolute joints in degrees, prismatic joints in millimetres, in the robot's joint order."
 
@@ -114,4 +122,55 @@ def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> Joint
         self_collision=joint_map.self_collision.ravel().tolist(),
         clearance_mm=clearance,
         colliding_obstacles=[joint_map.obstacle_names[k] for k in joint_map.colliding_obstacles],
+    )
+
+
+# A slice of the robot's reach through the cell, for the plan or the elevation.
+class ReachSectionRequest(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    axis: Literal["z", "y"] = Field(
+        description="Normal of the slice: z for a horizontal slice (plan), y for a vertical "
+        "slice seen from the side (elevation)."
+    )
+    value_mm: float = Field(
+        ge=-100_000.0,
+        le=100_000.0,
+        allow_inf_nan=False,
+        description="World coordinate of the slice.",
+    )
+    voxel_mm: float = Field(
+        default=100.0, ge=20.0, le=1000.0, allow_inf_nan=False, description="Cell size."
+    )
+
+
+# How many tool directions reach each cell of a slice through the cell, world frame.
+class ReachSectionResult(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    cell_etag: str
+    axis: Literal["z", "y"]
+    value_mm: float = Field(description="World coordinate of the slice (a voxel-centre layer).")
+    u_axis: str = Field(description="World axis along the columns.")
+    v_axis: str = Field(description="World axis along the rows.")
+    u_mm: list[float]
+    v_mm: list[float]
+    directions: int = Field(description="Tool directions tried per cell.")
+    count: list[list[int]] = Field(description="Reached directions per cell, rows v, columns u.")
+
+
+def reach_section_result(
+    section: ReachSection, directions: int, cell_etag: str
+) -> ReachSectionResult:
+    """The answer for a computed :class:`~posebridge.spaces.workspace.ReachSection`."""
+    return ReachSectionResult(
+        cell_etag=cell_etag,
+        axis="z" if section.axis == "z" else "y",
+        value_mm=float(section.value_mm),
+        u_axis=section.u_axis,
+        v_axis=section.v_axis,
+        u_mm=section.u_mm.tolist(),
+        v_mm=section.v_mm.tolist(),
+        directions=directions,
+        count=section.count.astype(int).tolist(),
     )
