@@ -18,7 +18,7 @@ export function createPathCurve({ store, api }) {
     const mine = generation;
     const state = store.get();
     const { cell, selection, cellActive, robot } = state;
-    const name = selection && (selection.kind === "waypoint" ? selection.path : selection.path || null);
+    const name = selection ? selection.path || null : null;
     const path = cellActive && cell && name ? cell.scene.paths.find((p) => p.name === name) : null;
     if (!path || !robot) {
       store.update({ pathCurve: null });
