@@ -11,6 +11,7 @@ from posebridge.bench.ik_analytic import bench_ik_analytic
 from posebridge.bench.ik_numeric import bench_ik_numeric
 from posebridge.bench.kinematics import bench_kinematics
 from posebridge.bench.maps import bench_maps
+from posebridge.bench.placement import bench_placement
 
 __all__ = ["BENCHMARKS", "run_benchmarks"]
 
@@ -26,6 +27,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("numerical inverse kinematics", bench_ik_numeric),
     Benchmark("clearance", bench_clearance),
     Benchmark("joint-space and reach maps", bench_maps),
+    Benchmark("base placement", bench_placement),
     Benchmark("dashboard drag round trip", bench_drag),
 )
 
