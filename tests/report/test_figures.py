@@ -13,6 +13,7 @@ import shutil
 import numpy as np
 import pytest
 
+from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.report.figures import (
@@ -26,7 +27,6 @@ from posebridge.report.figures import (
 )
 from posebridge.resources import data_folder
 from posebridge.spaces.joint_map import joint_map
-from posebridge.spaces.scene_geometry import scene_clearance
 from posebridge.transforms import transform_from_position_rpy
 from posebridge.units import mm_from_m
 
@@ -149,7 +149,7 @@ def test_targets_in_every_view(demo_scene: Scene) -> None:
 
 def test_joint_map_figure_categories(demo_scene: Scene) -> None:
     q = demo_scene.robot.home_configuration()
-    computed = joint_map(scene_clearance(demo_scene), (1, 2), q, resolution=24)
+    computed = joint_map(clearance_scene(demo_scene), (1, 2), q, resolution=24)
     figure = joint_map_figure(computed, np.degrees(q))
     heatmap = figure["data"][0]
     z = np.array(heatmap["z"]).T  # the figure holds rows along the vertical joint

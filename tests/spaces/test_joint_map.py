@@ -1,4 +1,4 @@
-"""Tests of posebridge.spaces.joint_map and posebridge.spaces.scene_geometry on the demo cell.
+"""Tests of posebridge.spaces.joint_map and posebridge.cell.clearance on the demo cell.
 
 Collision states are checked against python-fcl (``fcl.distance`` with signed distance)
 for capsules against boxes and cylinders, against the closed form of a capsule above a
@@ -15,6 +15,7 @@ import fcl
 import numpy as np
 import pytest
 
+from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.compute import ComputationCancelled, SerialExecutor
@@ -23,7 +24,6 @@ from posebridge.geometry.shapes import BOX, CYLINDER, FLOOR, ArmCapsules, Box, F
 from posebridge.resources import data_folder
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.joint_map import joint_map
-from posebridge.spaces.scene_geometry import scene_clearance
 from posebridge.transforms import transform_from_position_rpy
 
 DEMO = data_folder("robots") / "demo-cell.json"
@@ -35,7 +35,7 @@ for two independent distance codes to be compared by sign (GJK/EPA tolerance in 
 @pytest.fixture(scope="module")
 def demo() -> tuple[Scene, ClearanceScene]:
     scene = resolve_scene(load_cell(DEMO), DEMO)
-    return scene, scene_clearance(scene)
+    return scene, clearance_scene(scene)
 
 
 def test_obstacle_order_and_names_follow_the_cell_file(demo) -> None:

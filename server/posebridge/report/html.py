@@ -29,6 +29,7 @@ from jinja2 import Environment, FileSystemLoader, select_autoescape
 from markupsafe import Markup
 
 from posebridge.cell.checks import check_targets
+from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.reports import BranchReport, TargetCheck, TargetCheckReport
 from posebridge.cell.scene import Scene, resolve_scene
@@ -43,7 +44,6 @@ from posebridge.review.comments import (
     comments_path_for,
 )
 from posebridge.spaces.joint_map import joint_map
-from posebridge.spaces.scene_geometry import scene_clearance
 from posebridge.units import FloatArray, joints_si_from_user, joints_user_from_si
 
 __all__ = [
@@ -346,7 +346,7 @@ def _joint_map_section(
     resolution: int,
     markers: list[TargetMarker],
 ) -> tuple[dict[str, str], dict[str, Any]]:
-    computed = joint_map(scene_clearance(scene), pair, q_shown, resolution=resolution)
+    computed = joint_map(clearance_scene(scene), pair, q_shown, resolution=resolution)
     shown_user = joints_user_from_si(q_shown, scene.robot.prismatic)
     names = scene.robot.joint_names
     held = [k for k in range(scene.robot.dof) if k not in pair]

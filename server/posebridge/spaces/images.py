@@ -412,7 +412,7 @@ def cartesian_image(
     ----------
     arm : ArmCapsules
         The robot's capsules with the tool's (e.g.
-        :func:`posebridge.spaces.scene_geometry.scene_arm`).
+        :func:`posebridge.cell.clearance.cell_arm`).
     q : array-like, shape (N, n)
         Joint values, rad or m.
     T_world_base : array-like, shape (4, 4), optional

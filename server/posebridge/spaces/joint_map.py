@@ -274,7 +274,7 @@ def joint_map(
     ----------
     scene : ClearanceScene
         Arm, obstacles and pairs, e.g. from
-        :func:`posebridge.spaces.scene_geometry.scene_clearance`.
+        :func:`posebridge.cell.clearance.clearance_scene`.
     joints : sequence of int, length 2 or 3
         Chosen joint indices (0-based).
     q_hold : array-like, shape (n,)
