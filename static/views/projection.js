@@ -200,28 +200,34 @@ export function createProjectionView({
   overlay.append(approach, mark);
 
   /** Place the target diamond and its approach line (tool z axis) on the overlay. */
+  /**
+   * Place the target diamond and its approach line (tool z axis) on the overlay.
+   * Positions come from the figure's own plot-area size and ranges (the overlay
+   * covers the figure exactly), so a drag reads no layout from the page.
+   */
   function placeTarget() {
     const { target } = store.get();
-    const ready = target && element._fullLayout && element.querySelector(".nsewdrag");
+    const full = element._fullLayout;
+    const ready = target && full && full._size && full.xaxis && full.yaxis;
     overlay.style.display = ready ? "" : "none";
     if (!ready) {
       return;
     }
-    const box = overlay.getBoundingClientRect();
+    const { l, t, w, h: height } = full._size;
+    const [xr, yr] = [full.xaxis.range, full.yaxis.range];
+    const toOverlay = (x, y) => [
+      l + ((x - xr[0]) / (xr[1] - xr[0])) * w,
+      t + ((yr[1] - y) / (yr[1] - yr[0])) * height,
+    ];
     const axis = column(matrixFromRpyDeg(target.rpy_deg), 2);
     const [px, py] = [target.position_mm[h], target.position_mm[v]];
-    const at = pointerFromData(element, px, py);
-    const tip = pointerFromData(
-      element,
-      px + APPROACH_LENGTH_MM * axis[h],
-      py + APPROACH_LENGTH_MM * axis[v],
-    );
-    const [x, y] = [at.clientX - box.left, at.clientY - box.top];
+    const [x, y] = toOverlay(px, py);
+    const [tx, ty] = toOverlay(px + APPROACH_LENGTH_MM * axis[h], py + APPROACH_LENGTH_MM * axis[v]);
     mark.setAttribute("transform", `translate(${x.toFixed(1)} ${y.toFixed(1)})`);
     approach.setAttribute("x1", x.toFixed(1));
     approach.setAttribute("y1", y.toFixed(1));
-    approach.setAttribute("x2", (tip.clientX - box.left).toFixed(1));
-    approach.setAttribute("y2", (tip.clientY - box.top).toFixed(1));
+    approach.setAttribute("x2", tx.toFixed(1));
+    approach.setAttribute("y2", ty.toFixed(1));
   }
 
   let staticKey = null;
