@@ -16,9 +16,9 @@ import pytest
 
 from posebridge.api.jobs import MAX_ACTIVE_PER_CLIENT
 from posebridge.cell import load_cell, resolve_scene
+from posebridge.cell.clearance import clearance_scene
 from posebridge.resources import data_folder
 from posebridge.spaces.joint_map import joint_map
-from posebridge.spaces.scene_geometry import scene_clearance
 from posebridge.units import joints_si_from_user
 
 pytestmark = pytest.mark.anyio
@@ -49,7 +49,7 @@ async def test_start_joint_map_two_joints(client: httpx.AsyncClient) -> None:
     assert result["joint_names"] == ["j2", "j3"]
     scene = resolve_scene(load_cell(data_folder("robots") / "demo-cell.json"))
     q = joints_si_from_user(np.array(HOLD), scene.robot.prismatic)
-    expected = joint_map(scene_clearance(scene), [1, 2], q, resolution=24)
+    expected = joint_map(clearance_scene(scene), [1, 2], q, resolution=24)
     assert result["obstacle"] == expected.obstacle.ravel().tolist()
     assert result["self_collision"] == expected.self_collision.ravel().tolist()
     # clearance in mm, rounded to 0.1 mm

@@ -21,12 +21,12 @@ from dataclasses import dataclass
 from functools import cached_property
 from pathlib import Path
 
+from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import CellConflictError, cell_etag, load_cell, save_cell
 from posebridge.cell.model import Cell, validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.geometry.clearance import ClearanceScene
 from posebridge.resources import data_folder
-from posebridge.spaces.scene_geometry import scene_clearance
 
 __all__ = ["DEMO_CELL_FILE", "CellSnapshot", "CellStore"]
 
@@ -57,7 +57,7 @@ class CellSnapshot:
     @cached_property
     def clearance(self) -> ClearanceScene:
         """The scene's arm, obstacles and pairs for clearance queries (built on first use)."""
-        return scene_clearance(self.scene)
+        return clearance_scene(self.scene)
 
 
 class CellStore:
