@@ -61,7 +61,7 @@ from posebridge.cell.clearance import clearance_scene, clearance_to_cell
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.geometry.clearance import ClearanceScene, collision_batch
 from posebridge.geometry.shapes import ArmCapsules
-from posebridge.kinematics.fk import fk_tool
+from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_tool
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
 from posebridge.planning.reports import JointPlanReport, PlanStatus
@@ -369,6 +369,9 @@ def plan_joint_move(
     margin = float(m_from_mm(safety_margin_mm))
     cell = clearance_scene(scene)
     levers = lever_arms(cell.arm)
+    # compile (or load) the serial and parallel collision kernels before the planning clock starts,
+    # so a first run after installation is not cut short by the time limit
+    collision_batch(cell, np.repeat(start[None], PARALLEL_THRESHOLD, axis=0), threshold_m=margin)
     t0 = time.perf_counter()
     checker = _Checker(
         cell,
