@@ -3,6 +3,11 @@
 A pose is carried as a 3x3 rotation ``R`` and a translation ``p`` (the top 3x4
 block of a homogeneous transform). ``row`` is one row of
 :attr:`posebridge.robot.model.Robot.motion_table`.
+
+The Jacobian column formula (Siciliano, Sciavicco, Villani, Oriolo,
+*Robotics: Modelling, Planning and Control*, eq. 3.30) is written once here,
+in :func:`pose_and_jacobian`, for :mod:`posebridge.kinematics.jacobian` and
+:mod:`posebridge.kinematics.ik_numeric`.
 """
 
 from __future__ import annotations
@@ -10,7 +15,7 @@ from __future__ import annotations
 import numba as nb
 import numpy as np
 
-__all__ = ["chain_step", "write_pose"]
+__all__ = ["chain_step", "pose_and_jacobian", "write_pose"]
 
 
 @nb.njit(cache=True, inline="always")
@@ -73,3 +78,64 @@ def write_pose(R, p, tail, out):
     out[3, 1] = 0.0
     out[3, 2] = 0.0
     out[3, 3] = 1.0
+
+
+@nb.njit(cache=True, inline="always")
+def pose_and_jacobian(
+    q, table, prismatic, axes, tail, in_tool_frame, R, p, R2, p2, w, origin, T_out, J_out
+):
+    """Tool pose ``T_out`` (4, 4) and geometric Jacobian ``J_out`` (6, n) of one configuration.
+
+    Column ``j`` is ``[w_j x (p_tool - p_j); w_j]`` for a revolute joint and
+    ``[w_j; 0]`` for a prismatic one, with ``w_j`` the joint axis and ``p_j``
+    a point on it in the base frame (Siciliano et al., eq. 3.30); with
+    ``in_tool_frame`` both halves are rotated into the tool frame
+    (``R_base_tool^T @ vector``). ``R`` (3, 3), ``p`` (3,), ``R2``, ``p2``,
+    ``w`` (n, 3) and ``origin`` (n, 3) are scratch arrays (their contents on
+    entry do not matter), so a caller in a loop allocates them once.
+    """
+    n = q.shape[0]
+    for r in range(3):
+        for c in range(3):
+            R[r, c] = 1.0 if r == c else 0.0
+        p[r] = 0.0
+    for j in range(n):
+        chain_step(R, p, table[j], prismatic[j], q[j], R2, p2)
+        R[:, :] = R2
+        p[:] = p2
+        for r in range(3):
+            w[j, r] = R[r, 0] * axes[j, 0] + R[r, 1] * axes[j, 1] + R[r, 2] * axes[j, 2]
+            origin[j, r] = p[r]
+    write_pose(R, p, tail, T_out)
+    px = T_out[0, 3]
+    py = T_out[1, 3]
+    pz = T_out[2, 3]
+    for j in range(n):
+        wx = w[j, 0]
+        wy = w[j, 1]
+        wz = w[j, 2]
+        if prismatic[j]:
+            vx, vy, vz = wx, wy, wz
+            ax, ay, az = 0.0, 0.0, 0.0
+        else:
+            dx = px - origin[j, 0]
+            dy = py - origin[j, 1]
+            dz = pz - origin[j, 2]
+            vx = wy * dz - wz * dy
+            vy = wz * dx - wx * dz
+            vz = wx * dy - wy * dx
+            ax, ay, az = wx, wy, wz
+        if in_tool_frame:
+            J_out[0, j] = T_out[0, 0] * vx + T_out[1, 0] * vy + T_out[2, 0] * vz
+            J_out[1, j] = T_out[0, 1] * vx + T_out[1, 1] * vy + T_out[2, 1] * vz
+            J_out[2, j] = T_out[0, 2] * vx + T_out[1, 2] * vy + T_out[2, 2] * vz
+            J_out[3, j] = T_out[0, 0] * ax + T_out[1, 0] * ay + T_out[2, 0] * az
+            J_out[4, j] = T_out[0, 1] * ax + T_out[1, 1] * ay + T_out[2, 1] * az
+            J_out[5, j] = T_out[0, 2] * ax + T_out[1, 2] * ay + T_out[2, 2] * az
+        else:
+            J_out[0, j] = vx
+            J_out[1, j] = vy
+            J_out[2, j] = vz
+            J_out[3, j] = ax
+            J_out[4, j] = ay
+            J_out[5, j] = az

@@ -7,7 +7,8 @@ Levenberg-Marquardt method", IEEE Trans. Robotics 27(5):
     dq = (J^T J + (E + b) I)^-1 J^T e,    E = |e|^2 / 2,
 
 with ``J`` the geometric Jacobian of the TCP in the base frame
-(:mod:`posebridge.kinematics.jacobian`) and ``e = [p_target - p;
+(:func:`posebridge.kinematics.chain_kernels.pose_and_jacobian`, the kernel of
+:mod:`posebridge.kinematics.jacobian`) and ``e = [p_target - p;
 log(R_target R^T)]`` the position error (m) and the rotation-vector
 orientation error (rad, Lynch & Park, Modern Robotics, sec. 3.2.3.3), both
 weighted 1. The damping ``E + b`` is large far from the target (a short
@@ -50,7 +51,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.kinematics.branches import branch_geometry
-from posebridge.kinematics.chain_kernels import chain_step
+from posebridge.kinematics.chain_kernels import pose_and_jacobian
 from posebridge.kinematics.fk import KinematicsInputError, tool_tail
 from posebridge.kinematics.ik_types import (
     REASON_OUT_OF_REACH,
@@ -98,55 +99,9 @@ _STALL_STEP = 1e-12
 
 
 @nb.njit(cache=True, inline="always")
-def _pose_and_jacobian(q, table, prismatic, axes, tail, R, p, R2, p2, w, origin, R_tool, p_tool, J):
-    """Tool pose ``(R_tool, p_tool)`` and geometric Jacobian ``J`` (6, n) in the base frame.
-
-    Same chain product and column formula as
-    :mod:`posebridge.kinematics.jacobian` (Siciliano et al., eq. 3.30), on
-    preallocated scratch arrays.
-    """
-    n = q.shape[0]
-    for r in range(3):
-        for c in range(3):
-            R[r, c] = 1.0 if r == c else 0.0
-        p[r] = 0.0
-    for j in range(n):
-        chain_step(R, p, table[j], prismatic[j], q[j], R2, p2)
-        R[:, :] = R2
-        p[:] = p2
-        for r in range(3):
-            w[j, r] = R[r, 0] * axes[j, 0] + R[r, 1] * axes[j, 1] + R[r, 2] * axes[j, 2]
-            origin[j, r] = p[r]
-    for r in range(3):
-        for c in range(3):
-            R_tool[r, c] = R[r, 0] * tail[0, c] + R[r, 1] * tail[1, c] + R[r, 2] * tail[2, c]
-        p_tool[r] = R[r, 0] * tail[0, 3] + R[r, 1] * tail[1, 3] + R[r, 2] * tail[2, 3] + p[r]
-    for j in range(n):
-        wx = w[j, 0]
-        wy = w[j, 1]
-        wz = w[j, 2]
-        if prismatic[j]:
-            J[0, j] = wx
-            J[1, j] = wy
-            J[2, j] = wz
-            J[3, j] = 0.0
-            J[4, j] = 0.0
-            J[5, j] = 0.0
-        else:
-            dx = p_tool[0] - origin[j, 0]
-            dy = p_tool[1] - origin[j, 1]
-            dz = p_tool[2] - origin[j, 2]
-            J[0, j] = wy * dz - wz * dy
-            J[1, j] = wz * dx - wx * dz
-            J[2, j] = wx * dy - wy * dx
-            J[3, j] = wx
-            J[4, j] = wy
-            J[5, j] = wz
-
-
-@nb.njit(cache=True, inline="always")
-def _pose_error(R_target, p_target, R, p, e):
-    """``e = [p_target - p; log(R_target R^T)]``, the rotation part as a rotation vector.
+def _pose_error(R_target, p_target, T, e):
+    """``e = [p_target - p; log(R_target R^T)]`` for the pose ``T = [R | p]`` (4, 4),
+    the rotation part as a rotation vector.
 
     Matrix logarithm (Lynch & Park, Modern Robotics, sec. 3.2.3.3):
     ``theta = atan2(|a| / 2, (tr M - 1) / 2)`` with ``a`` the skew part of
@@ -154,16 +109,16 @@ def _pose_error(R_target, p_target, R, p, e):
     symmetric part, ``u u^T = ((M + M^T) / 2 - cos(theta) I) / (1 - cos(theta))``.
     """
     for r in range(3):
-        e[r] = p_target[r] - p[r]
-    m00 = R_target[0, 0] * R[0, 0] + R_target[0, 1] * R[0, 1] + R_target[0, 2] * R[0, 2]
-    m01 = R_target[0, 0] * R[1, 0] + R_target[0, 1] * R[1, 1] + R_target[0, 2] * R[1, 2]
-    m02 = R_target[0, 0] * R[2, 0] + R_target[0, 1] * R[2, 1] + R_target[0, 2] * R[2, 2]
-    m10 = R_target[1, 0] * R[0, 0] + R_target[1, 1] * R[0, 1] + R_target[1, 2] * R[0, 2]
-    m11 = R_target[1, 0] * R[1, 0] + R_target[1, 1] * R[1, 1] + R_target[1, 2] * R[1, 2]
-    m12 = R_target[1, 0] * R[2, 0] + R_target[1, 1] * R[2, 1] + R_target[1, 2] * R[2, 2]
-    m20 = R_target[2, 0] * R[0, 0] + R_target[2, 1] * R[0, 1] + R_target[2, 2] * R[0, 2]
-    m21 = R_target[2, 0] * R[1, 0] + R_target[2, 1] * R[1, 1] + R_target[2, 2] * R[1, 2]
-    m22 = R_target[2, 0] * R[2, 0] + R_target[2, 1] * R[2, 1] + R_target[2, 2] * R[2, 2]
+        e[r] = p_target[r] - T[r, 3]
+    m00 = R_target[0, 0] * T[0, 0] + R_target[0, 1] * T[0, 1] + R_target[0, 2] * T[0, 2]
+    m01 = R_target[0, 0] * T[1, 0] + R_target[0, 1] * T[1, 1] + R_target[0, 2] * T[1, 2]
+    m02 = R_target[0, 0] * T[2, 0] + R_target[0, 1] * T[2, 1] + R_target[0, 2] * T[2, 2]
+    m10 = R_target[1, 0] * T[0, 0] + R_target[1, 1] * T[0, 1] + R_target[1, 2] * T[0, 2]
+    m11 = R_target[1, 0] * T[1, 0] + R_target[1, 1] * T[1, 1] + R_target[1, 2] * T[1, 2]
+    m12 = R_target[1, 0] * T[2, 0] + R_target[1, 1] * T[2, 1] + R_target[1, 2] * T[2, 2]
+    m20 = R_target[2, 0] * T[0, 0] + R_target[2, 1] * T[0, 1] + R_target[2, 2] * T[0, 2]
+    m21 = R_target[2, 0] * T[1, 0] + R_target[2, 1] * T[1, 1] + R_target[2, 2] * T[1, 2]
+    m22 = R_target[2, 0] * T[2, 0] + R_target[2, 1] * T[2, 1] + R_target[2, 2] * T[2, 2]
     ax = m21 - m12
     ay = m02 - m20
     az = m10 - m01
@@ -282,8 +237,7 @@ def _solve_one(
     p2 = np.empty(3)
     w = np.empty((n, 3))
     origin = np.empty((n, 3))
-    R_tool = np.empty((3, 3))
-    p_tool = np.empty(3)
+    T = np.empty((4, 4))
     J = np.empty((6, n))
     e = np.empty(6)
     H = np.empty((n, n))
@@ -308,10 +262,8 @@ def _solve_one(
         position_error = np.inf
         orientation_error = np.inf
         for iteration in range(_EXTENSION * max_iterations + 1):
-            _pose_and_jacobian(
-                q, table, prismatic, axes, tail, R, p, R2, p2, w, origin, R_tool, p_tool, J
-            )
-            _pose_error(R_target, p_target, R_tool, p_tool, e)
+            pose_and_jacobian(q, table, prismatic, axes, tail, False, R, p, R2, p2, w, origin, T, J)
+            _pose_error(R_target, p_target, T, e)
             position_error = np.sqrt(e[0] * e[0] + e[1] * e[1] + e[2] * e[2])
             orientation_error = np.sqrt(e[3] * e[3] + e[4] * e[4] + e[5] * e[5])
             energy = 0.5 * (position_error * position_error + orientation_error * orientation_error)

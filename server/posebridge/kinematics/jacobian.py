@@ -5,8 +5,9 @@ The geometric Jacobian maps joint velocities to the tool's spatial velocity
 ``i`` is ``[w_i x (p_tool - p_i); w_i]`` for a revolute joint and
 ``[w_i; 0]`` for a prismatic joint, with ``w_i`` the joint axis and ``p_i``
 a point on it, both in the base frame (Siciliano, Sciavicco, Villani, Oriolo,
-*Robotics: Modelling, Planning and Control*, eq. 3.30). Row order matches
-pinocchio's ``[linear; angular]``.
+*Robotics: Modelling, Planning and Control*, eq. 3.30; the kernel is
+:func:`posebridge.kinematics.chain_kernels.pose_and_jacobian`). Row order
+matches pinocchio's ``[linear; angular]``.
 
 ``jacobian_base`` expresses both vectors in the base frame (pinocchio's
 ``LOCAL_WORLD_ALIGNED``), ``jacobian_tool`` in the tool frame (``LOCAL``).
@@ -18,7 +19,7 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.kinematics.chain_kernels import chain_step, write_pose
+from posebridge.kinematics.chain_kernels import pose_and_jacobian
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, check_configurations, tool_tail
 from posebridge.robot.model import Robot
 from posebridge.units import FloatArray
@@ -29,53 +30,22 @@ __all__ = ["jacobian_base", "jacobian_tool"]
 @nb.njit(cache=True, inline="always")
 def _jacobian_one(q, table, prismatic, axes, tail, in_tool_frame, T_out, J_out):
     n = q.shape[0]
-    R = np.eye(3)
-    p = np.zeros(3)
-    R2 = np.empty((3, 3))
-    p2 = np.empty(3)
-    w = np.empty((n, 3))
-    origin = np.empty((n, 3))
-    for j in range(n):
-        chain_step(R, p, table[j], prismatic[j], q[j], R2, p2)
-        R[:, :] = R2
-        p[:] = p2
-        for r in range(3):
-            w[j, r] = R[r, 0] * axes[j, 0] + R[r, 1] * axes[j, 1] + R[r, 2] * axes[j, 2]
-            origin[j, r] = p[r]
-    write_pose(R, p, tail, T_out)
-    px = T_out[0, 3]
-    py = T_out[1, 3]
-    pz = T_out[2, 3]
-    for j in range(n):
-        wx = w[j, 0]
-        wy = w[j, 1]
-        wz = w[j, 2]
-        if prismatic[j]:
-            vx, vy, vz = wx, wy, wz
-            ax, ay, az = 0.0, 0.0, 0.0
-        else:
-            dx = px - origin[j, 0]
-            dy = py - origin[j, 1]
-            dz = pz - origin[j, 2]
-            vx = wy * dz - wz * dy
-            vy = wz * dx - wx * dz
-            vz = wx * dy - wy * dx
-            ax, ay, az = wx, wy, wz
-        if in_tool_frame:
-            # rotate both halves into the tool frame: R_base_tool^T @ vector
-            J_out[0, j] = T_out[0, 0] * vx + T_out[1, 0] * vy + T_out[2, 0] * vz
-            J_out[1, j] = T_out[0, 1] * vx + T_out[1, 1] * vy + T_out[2, 1] * vz
-            J_out[2, j] = T_out[0, 2] * vx + T_out[1, 2] * vy + T_out[2, 2] * vz
-            J_out[3, j] = T_out[0, 0] * ax + T_out[1, 0] * ay + T_out[2, 0] * az
-            J_out[4, j] = T_out[0, 1] * ax + T_out[1, 1] * ay + T_out[2, 1] * az
-            J_out[5, j] = T_out[0, 2] * ax + T_out[1, 2] * ay + T_out[2, 2] * az
-        else:
-            J_out[0, j] = vx
-            J_out[1, j] = vy
-            J_out[2, j] = vz
-            J_out[3, j] = ax
-            J_out[4, j] = ay
-            J_out[5, j] = az
+    pose_and_jacobian(
+        q,
+        table,
+        prismatic,
+        axes,
+        tail,
+        in_tool_frame,
+        np.empty((3, 3)),
+        np.empty(3),
+        np.empty((3, 3)),
+        np.empty(3),
+        np.empty((n, 3)),
+        np.empty((n, 3)),
+        T_out,
+        J_out,
+    )
 
 
 @nb.njit(cache=True)
