@@ -75,11 +75,17 @@ __all__ = [
     "joint_weights",
     "reasons_from_codes",
     "slots_per_candidate",
+    "solutions_from_outputs",
     "turn_variant_counts",
 ]
 
 Int8Array = npt.NDArray[np.int8]
 Int16Array = npt.NDArray[np.int16]
+KernelOutputs = tuple[
+    FloatArray, BoolArray, BoolArray, Int8Array, Int8Array, Int8Array, Int16Array, Int8Array
+]
+"""Output arrays of a solver kernel (:func:`empty_outputs`): q, valid, within, shoulder,
+elbow, wrist, turns, reason codes."""
 
 REASON_OUT_OF_REACH = "out of reach"
 REASON_ORIENTATION = "orientation not reachable"
@@ -598,11 +604,7 @@ def _finish_parallel(raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, join
         )
 
 
-def empty_outputs(
-    N: int, M: int, n: int
-) -> tuple[
-    FloatArray, BoolArray, BoolArray, Int8Array, Int8Array, Int8Array, Int16Array, Int8Array
-]:
+def empty_outputs(N: int, M: int, n: int) -> KernelOutputs:
     """Output arrays of a solver kernel: q, valid, within, shoulder, elbow, wrist, turns, codes.
 
     Shapes (N, M, n), (N, M) x 5, (N, M, n), (N,).
@@ -616,6 +618,37 @@ def empty_outputs(
         np.empty((N, M), dtype=np.int8),
         np.empty((N, M, n), dtype=np.int16),
         np.empty(N, dtype=np.int8),
+    )
+
+
+def solutions_from_outputs(
+    robot: Robot,
+    out: KernelOutputs,
+    reason: tuple[str, ...],
+    *,
+    ignored_components: tuple[str, ...] = (),
+    method: str,
+    label_scheme: str = "arm",
+) -> IkSolutions:
+    """The :class:`IkSolutions` held by the filled output arrays of :func:`empty_outputs`.
+
+    ``reason`` (N entries) replaces the kernel's reason codes (the last array);
+    the other arguments are copied into the result.
+    """
+    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_turns, _ = out
+    return IkSolutions(
+        q=out_q,
+        valid=out_valid,
+        within_limits=out_within,
+        shoulder=out_sh,
+        elbow=out_el,
+        wrist=out_wr,
+        turns=out_turns,
+        reason=reason,
+        ignored_components=ignored_components,
+        method=method,
+        joint_names=robot.joint_names,
+        label_scheme=label_scheme,
     )
 
 
@@ -699,7 +732,7 @@ def finish_solutions(
         all_turns,
         out,
     )
-    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_turns, codes = out
+    codes = out[7]
     unreachable = (
         [unreachable_reason] * N
         if isinstance(unreachable_reason, str)
@@ -713,17 +746,11 @@ def finish_solutions(
         "" if code == 0 else REASON_NO_WITHIN_LIMITS if code == 3 else unreachable[i]
         for i, code in enumerate(codes.tolist())
     )
-    return IkSolutions(
-        q=out_q,
-        valid=out_valid,
-        within_limits=out_within,
-        shoulder=out_sh,
-        elbow=out_el,
-        wrist=out_wr,
-        turns=out_turns,
-        reason=reason,
+    return solutions_from_outputs(
+        robot,
+        out,
+        reason,
         ignored_components=ignored_components,
         method=method,
-        joint_names=robot.joint_names,
         label_scheme=label_scheme,
     )

@@ -67,6 +67,7 @@ from posebridge.kinematics.ik_types import (
     joint_table,
     reasons_from_codes,
     slots_per_candidate,
+    solutions_from_outputs,
 )
 from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform
@@ -782,18 +783,4 @@ def solve_ortho_parallel(
         all_turns,
         out,
     )
-    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_turns, codes = out
-    return IkSolutions(
-        q=out_q,
-        valid=out_valid,
-        within_limits=out_within,
-        shoulder=out_sh,
-        elbow=out_el,
-        wrist=out_wr,
-        turns=out_turns,
-        reason=reasons_from_codes(codes),
-        ignored_components=(),
-        method=METHOD,
-        joint_names=robot.joint_names,
-        label_scheme="arm",
-    )
+    return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=METHOD)
