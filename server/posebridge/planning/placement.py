@@ -104,6 +104,7 @@ from posebridge.planning.time_scaling import trapezoidal_profile
 from posebridge.robot.library import load_robot
 from posebridge.transforms import (
     invert_transform,
+    rotation_matrix_about_z,
     rotation_matrix_from_rpy,
 )
 from posebridge.units import (
@@ -296,11 +297,8 @@ def _base_poses(
     """``T_world_base`` of flat candidates ``start..stop`` of the (ny, nx, nyaw) grid at height ``h``."""
     iy, ix, iyaw = np.unravel_index(np.arange(start, stop), grid.shape[:3])
     yaw = grid.yaw[iyaw]
-    c, s = np.cos(yaw), np.sin(yaw)
-    Rz = np.zeros((yaw.shape[0], 3, 3))
-    Rz[:, 0, 0], Rz[:, 0, 1], Rz[:, 1, 0], Rz[:, 1, 1], Rz[:, 2, 2] = c, -s, s, c, 1.0
     T = np.tile(np.eye(4), (yaw.shape[0], 1, 1))
-    T[:, :3, :3] = Rz @ problem.R_foot
+    T[:, :3, :3] = rotation_matrix_about_z(yaw) @ problem.R_foot
     T[:, :3, 3] = (
         np.stack([grid.x[ix], grid.y[iy], np.full(yaw.shape[0], problem.foot_z)], axis=1)
         + T[:, :3, 2] * grid.height[h]

@@ -32,6 +32,7 @@ from posebridge.kinematics.ik_types import (
     finish_solutions,
 )
 from posebridge.robot.model import Robot
+from posebridge.transforms import rotation_matrix_about_z
 from posebridge.units import FloatArray
 
 __all__ = ["METHOD", "GantryGeometry", "solve_gantry"]
@@ -43,13 +44,6 @@ _VERIFY_TOLERANCE = 1e-9
 _VERIFY_SAMPLES = 64
 _SMALLEST_SINGULAR_VALUE = 1e-6
 _Z = np.array([0.0, 0.0, 1.0])
-
-
-def _rz(angle: FloatArray) -> FloatArray:
-    c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros(angle.shape + (3, 3))
-    R[..., 0, 0], R[..., 0, 1], R[..., 1, 0], R[..., 1, 1], R[..., 2, 2] = c, -s, s, c, 1.0
-    return R
 
 
 @dataclass(frozen=True)
@@ -112,7 +106,7 @@ class GantryGeometry:
         """Flange poses by the gantry model (module docstring), shape (N, 4, 4)."""
         q = np.asarray(q, dtype=np.float64)
         rho = self.rotation_sign * q[:, 3] if q.shape[1] == 4 else np.zeros(q.shape[0])
-        Rz = _rz(rho)
+        Rz = rotation_matrix_about_z(rho)
         offset = self.T_flange_zero[:3, 3] - self.rotation_point
         T = np.zeros((q.shape[0], 4, 4))
         T[:, :3, :3] = Rz @ self.T_flange_zero[:3, :3]
@@ -162,7 +156,9 @@ def solve_gantry(
         M = T[:, :3, :3] @ T_tcp0[:3, :3].T
         rho = np.arctan2(M[:, 1, 0] - M[:, 0, 1], M[:, 0, 0] + M[:, 1, 1])
         q_raw[:, 0, 3] = geometry.rotation_sign * rho
-        swing = (_rz(rho) - np.eye(3)) @ (T_tcp0[:3, 3] - geometry.rotation_point)
+        swing = (rotation_matrix_about_z(rho) - np.eye(3)) @ (
+            T_tcp0[:3, 3] - geometry.rotation_point
+        )
     else:
         swing = np.zeros((N, 3))
     rhs = T[:, :3, 3] - T_tcp0[:3, 3] - swing

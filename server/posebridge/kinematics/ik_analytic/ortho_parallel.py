@@ -70,7 +70,7 @@ from posebridge.kinematics.ik_types import (
     solutions_from_outputs,
 )
 from posebridge.robot.model import Robot
-from posebridge.transforms import invert_transform
+from posebridge.transforms import invert_transform, rotation_matrix_about_z
 from posebridge.units import FloatArray
 
 __all__ = ["METHOD", "OrthoParallelGeometry", "atan2_many", "solve_ortho_parallel"]
@@ -89,13 +89,6 @@ _WRIST_SINGULAR_SIN = 1e-8
 """``|sin θ5|`` below which θ4 and θ6 are split by the seed. The balance point of
 the rounding error of the regular formulas (about 1e-16 / |sin θ5|) and the
 error of splitting by the seed (about 2 pi |sin θ5|); both stay below 1e-7 rad."""
-
-
-def _rz(angle: FloatArray) -> FloatArray:
-    c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros(angle.shape + (3, 3))
-    R[..., 0, 0], R[..., 0, 1], R[..., 1, 0], R[..., 1, 1], R[..., 2, 2] = c, -s, s, c, 1.0
-    return R
 
 
 def _ry(angle: FloatArray) -> FloatArray:
@@ -285,8 +278,8 @@ class OrthoParallelGeometry:
             ],
             axis=-1,
         )
-        R1 = _rz(t1)
-        R = R1 @ _ry(t23) @ _rz(t4) @ _ry(t5) @ _rz(t6)
+        R1 = rotation_matrix_about_z(t1)
+        R = R1 @ _ry(t23) @ rotation_matrix_about_z(t4) @ _ry(t5) @ rotation_matrix_about_z(t6)
         centre = np.einsum("kij,kj->ki", R1, local)
         T = np.zeros((theta.shape[0], 4, 4))
         T[:, :3, :3] = R @ self.R_end_flange

@@ -49,6 +49,7 @@ from posebridge.kinematics.ik_types import (
     finish_solutions,
 )
 from posebridge.robot.model import Robot
+from posebridge.transforms import rotation_matrix_about_z
 from posebridge.units import FloatArray
 
 __all__ = ["METHOD", "PlanarGeometry", "solve_planar"]
@@ -65,13 +66,6 @@ def _rz2(angle: FloatArray, v: FloatArray) -> FloatArray:
     """Rotate planar vectors ``v`` (2,) by ``angle`` (N,); result (N, 2)."""
     c, s = np.cos(angle), np.sin(angle)
     return np.stack([c * v[0] - s * v[1], s * v[0] + c * v[1]], axis=-1)
-
-
-def _rz3(angle: FloatArray) -> FloatArray:
-    c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros(angle.shape + (3, 3))
-    R[..., 0, 0], R[..., 0, 1], R[..., 1, 0], R[..., 1, 1], R[..., 2, 2] = c, -s, s, c, 1.0
-    return R
 
 
 @dataclass(frozen=True)
@@ -164,7 +158,7 @@ class PlanarGeometry:
             position[:, :2] += _rz2(rotation, (chain[j + 1] - chain[j])[:2])
             position[:, 2] += chain[j + 1, 2] - chain[j, 2]
         T = np.zeros((N, 4, 4))
-        T[:, :3, :3] = _rz3(rotation) @ self.T_flange_zero[:3, :3]
+        T[:, :3, :3] = rotation_matrix_about_z(rotation) @ self.T_flange_zero[:3, :3]
         T[:, :3, 3] = position
         T[:, 3, 3] = 1.0
         return T
