@@ -55,6 +55,7 @@ import multiprocessing
 import os
 import pickle
 import threading
+from abc import ABC, abstractmethod
 from collections.abc import Callable, Sequence
 from concurrent.futures.process import BrokenProcessPool
 from types import TracebackType
@@ -143,6 +144,13 @@ class Executor(Protocol):
     ) -> None: ...
 
 
+def _check_count(name: str, value: object, minimum: int) -> int:
+    """``value`` if it is an integer (not a bool) of at least ``minimum``, else ExecutorError."""
+    if isinstance(value, bool) or not isinstance(value, int) or value < minimum:
+        raise ExecutorError(f"{name}: expected an integer >= {minimum}, got {value!r}")
+    return value
+
+
 def split_range(total: int, chunk_size: int) -> list[tuple[int, int]]:
     """Cut ``range(total)`` into consecutive half-open ranges of at most ``chunk_size``.
 
@@ -163,10 +171,8 @@ def split_range(total: int, chunk_size: int) -> list[tuple[int, int]]:
     >>> split_range(10, 4)
     [(0, 4), (4, 8), (8, 10)]
     """
-    if isinstance(total, bool) or not isinstance(total, int) or total < 0:
-        raise ExecutorError(f"total: expected an integer >= 0, got {total!r}")
-    if isinstance(chunk_size, bool) or not isinstance(chunk_size, int) or chunk_size < 1:
-        raise ExecutorError(f"chunk_size: expected an integer >= 1, got {chunk_size!r}")
+    _check_count("total", total, 0)
+    _check_count("chunk_size", chunk_size, 1)
     return [(start, min(start + chunk_size, total)) for start in range(0, total, chunk_size)]
 
 
@@ -187,12 +193,36 @@ def warm_worker() -> None:
         jacobian_base(robot, q)
 
 
-def _check_chunks(chunks: Sequence[tuple[Any, ...]]) -> None:
-    for index, chunk in enumerate(chunks):
-        if not isinstance(chunk, tuple):
-            raise ExecutorError(
-                f"chunks[{index}]: expected a tuple of arguments, got {type(chunk).__name__}"
-            )
+class _ExecutorBase(ABC):
+    """What every executor shares: the closed flag, the checks before a run, and the
+    context-manager protocol (leaving the ``with`` block closes the executor)."""
+
+    _closed = False
+
+    def _check_run(self, chunks: Sequence[tuple[Any, ...]]) -> None:
+        """Refuse a closed executor and chunks that are not argument tuples."""
+        if self._closed:
+            raise ExecutorError("executor: already closed")
+        for index, chunk in enumerate(chunks):
+            if not isinstance(chunk, tuple):
+                raise ExecutorError(
+                    f"chunks[{index}]: expected a tuple of arguments, got {type(chunk).__name__}"
+                )
+
+    @abstractmethod
+    def close(self) -> None:
+        """Release the workers; the executor cannot be used afterwards."""
+
+    def __enter__(self) -> Self:
+        return self
+
+    def __exit__(
+        self,
+        exc_type: type[BaseException] | None,
+        exc: BaseException | None,
+        traceback: TracebackType | None,
+    ) -> None:
+        self.close()
 
 
 def _map_on_futures(
@@ -228,16 +258,13 @@ def _map_on_futures(
     return results
 
 
-class SerialExecutor:
+class SerialExecutor(_ExecutorBase):
     """Runs the chunks one after another in the calling process (one worker).
 
     While it runs, numba kernels use one thread (numba's thread count is
     per calling thread and is restored afterwards), so it is a true
     one-core baseline for speed-up figures.
     """
-
-    def __init__(self) -> None:
-        self._closed = False
 
     @property
     def workers(self) -> int:
@@ -277,9 +304,7 @@ class SerialExecutor:
         ExecutorError
             The executor is closed, or a chunk is not a tuple.
         """
-        if self._closed:
-            raise ExecutorError("executor: already closed")
-        _check_chunks(chunks)
+        self._check_run(chunks)
         total = len(chunks)
         results = []
         threads = numba.get_num_threads()
@@ -299,19 +324,8 @@ class SerialExecutor:
         """Mark the executor closed."""
         self._closed = True
 
-    def __enter__(self) -> Self:
-        return self
 
-    def __exit__(
-        self,
-        exc_type: type[BaseException] | None,
-        exc: BaseException | None,
-        traceback: TracebackType | None,
-    ) -> None:
-        self.close()
-
-
-class LocalPoolExecutor:
+class LocalPoolExecutor(_ExecutorBase):
     """Runs the chunks on a pool of spawned worker processes on this machine.
 
     Parameters
@@ -326,15 +340,12 @@ class LocalPoolExecutor:
     def __init__(
         self, workers: int, *, initializer: Callable[[], None] | None = warm_worker
     ) -> None:
-        if isinstance(workers, bool) or not isinstance(workers, int) or workers < 1:
-            raise ExecutorError(f"workers: expected an integer >= 1, got {workers!r}")
-        self._workers = workers
+        self._workers = _check_count("workers", workers, 1)
         self._pool = cf.ProcessPoolExecutor(
             max_workers=workers,
             mp_context=multiprocessing.get_context("spawn"),
             initializer=initializer,
         )
-        self._closed = False
 
     @property
     def workers(self) -> int:
@@ -361,9 +372,7 @@ class LocalPoolExecutor:
             Closed executor, a function that cannot be sent to a worker
             process, a chunk that is not a tuple, or a worker process that died.
         """
-        if self._closed:
-            raise ExecutorError("executor: already closed")
-        _check_chunks(chunks)
+        self._check_run(chunks)
         try:
             pickle.dumps(function)
         except (pickle.PicklingError, AttributeError, TypeError) as error:
@@ -387,19 +396,8 @@ class LocalPoolExecutor:
             self._closed = True
             self._pool.shutdown(wait=True, cancel_futures=True)
 
-    def __enter__(self) -> Self:
-        return self
 
-    def __exit__(
-        self,
-        exc_type: type[BaseException] | None,
-        exc: BaseException | None,
-        traceback: TracebackType | None,
-    ) -> None:
-        self.close()
-
-
-class DaskExecutor:
+class DaskExecutor(_ExecutorBase):
     """Runs the chunks on an existing Dask cluster.
 
     Parameters
@@ -443,7 +441,6 @@ class DaskExecutor:
             ) from error
         self._scheduler = scheduler
         self._pool = self._client.get_executor(pure=False)
-        self._closed = False
         if initializer is not None:
             self._client.run(initializer)
 
@@ -466,9 +463,7 @@ class DaskExecutor:
         Cancelling stops the scheduling of new chunks and cancels the
         submitted ones on the cluster.
         """
-        if self._closed:
-            raise ExecutorError("executor: already closed")
-        _check_chunks(chunks)
+        self._check_run(chunks)
         return _map_on_futures(
             self._pool, function, chunks, progress, cancel, in_flight=2 * self.workers
         )
@@ -479,17 +474,6 @@ class DaskExecutor:
             self._closed = True
             self._pool.shutdown(wait=False)
             self._client.close()
-
-    def __enter__(self) -> Self:
-        return self
-
-    def __exit__(
-        self,
-        exc_type: type[BaseException] | None,
-        exc: BaseException | None,
-        traceback: TracebackType | None,
-    ) -> None:
-        self.close()
 
 
 def make_executor(
@@ -535,9 +519,7 @@ def make_executor(
                 f"scheduler: expected an address like 'tcp://HOST:PORT', got {scheduler!r}"
             )
         return DaskExecutor(scheduler, initializer=initializer, connect_timeout_s=connect_timeout_s)
-    count = (os.cpu_count() or 1) if workers is None else workers
-    if isinstance(count, bool) or not isinstance(count, int) or count < 1:
-        raise ExecutorError(f"workers: expected an integer >= 1, got {workers!r}")
+    count = (os.cpu_count() or 1) if workers is None else _check_count("workers", workers, 1)
     if count == 1:
         return SerialExecutor()
     return LocalPoolExecutor(count, initializer=initializer)
