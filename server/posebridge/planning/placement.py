@@ -330,6 +330,36 @@ def _own_scenes(problem: _Problem, height: float) -> tuple[ClearanceScene, Clear
     return support, own
 
 
+def _environment_scene(problem: _Problem, T_world_base: FloatArray) -> ClearanceScene:
+    """Arm against the fixtures and keep-outs (no self pairs) for one base pose."""
+    return ClearanceScene(
+        problem.arm,
+        problem.environment,
+        T_world_base,
+        np.empty((0, 2), dtype=np.int64),
+        problem.environment_mask,
+    )
+
+
+@dataclass(frozen=True, eq=False)
+class _CandidateScenes:
+    """One candidate's base pose and its clearance scenes (see :func:`_own_scenes`)."""
+
+    T_world_base: FloatArray
+    support: ClearanceScene
+    environment: ClearanceScene
+    own: ClearanceScene
+
+
+def _candidate_scenes(problem: _Problem, grid: PlacementGrid, flat: int) -> _CandidateScenes:
+    """Base pose and clearance scenes of the flat (C-order) candidate ``flat`` of the grid."""
+    iy, ix, iyaw, ih = np.unravel_index(flat, grid.shape)
+    local = int(np.ravel_multi_index((iy, ix, iyaw), grid.shape[:3]))
+    T_world_base = _base_poses(problem, grid, int(ih), local, local + 1)[0]
+    support, own = _own_scenes(problem, float(grid.height[ih]))
+    return _CandidateScenes(T_world_base, support, _environment_scene(problem, T_world_base), own)
+
+
 def _placement_chunk(
     problem: _Problem, grid: PlacementGrid, h: int, start: int, stop: int
 ) -> tuple[FloatArray, ...]:
@@ -369,13 +399,7 @@ def _placement_chunk(
             span = slice(bounds[c], bounds[c + 1])
             if span.start == span.stop:
                 continue
-            scene = ClearanceScene(
-                problem.arm,
-                problem.environment,
-                T_world_base[c],
-                np.empty((0, 2), dtype=np.int64),
-                problem.environment_mask,
-            )
+            scene = _environment_scene(problem, T_world_base[c])
             candidates = np.flatnonzero(ok[span]) + span.start
             if candidates.size:
                 hit = collision_batch(scene, q_allowed[candidates], threshold_m=problem.margin)
@@ -751,8 +775,9 @@ def _report(
             jacobian_base(robot, np.nan_to_num(q_c), problem.T_flange_tool), "position"
         )
         w = manipulability_yoshikawa(jac)
-        clearance = _candidate_clearance(scene, problem, grid, flat, q_c)
-        reasons = _target_reasons(problem, grid, flat, int(branch[idx]))
+        scenes = _candidate_scenes(problem, grid, flat)
+        clearance = _candidate_clearance(scenes, q_c)
+        reasons = _target_reasons(problem, scenes, int(branch[idx]))
         targets = [
             TargetPlacementReport(
                 name=name,
@@ -824,55 +849,32 @@ def _report(
     )
 
 
-def _candidate_clearance(
-    scene: Scene, problem: _Problem, grid: PlacementGrid, flat: int, q: FloatArray
-) -> FloatArray:
+def _candidate_clearance(scenes: _CandidateScenes, q: FloatArray) -> FloatArray:
     """Exact clearance to fixtures, keep-outs, pedestal and floor of one candidate's target configurations, shape (K,)."""
-    iy, ix, iyaw, ih = np.unravel_index(flat, grid.shape)
-    local = int(np.ravel_multi_index((iy, ix, iyaw), grid.shape[:3]))
-    T_world_base = _base_poses(problem, grid, int(ih), local, local + 1)[0]
     out = np.full(q.shape[0], np.nan)
     rows = np.all(np.isfinite(q), axis=1)
     if not np.any(rows):
         return out
-    support, _ = _own_scenes(problem, float(grid.height[ih]))
-    environment = ClearanceScene.build(
-        problem.arm,
-        problem.environment,
-        T_world_base,
-        self_pairs=np.empty((0, 2)),
-        pair_mask=problem.environment_mask,
-    )
     out[rows] = np.minimum(
-        clearance_batch(environment, q[rows]).distance, clearance_batch(support, q[rows]).distance
+        clearance_batch(scenes.environment, q[rows]).distance,
+        clearance_batch(scenes.support, q[rows]).distance,
     )
     return out
 
 
-def _target_reasons(problem: _Problem, grid: PlacementGrid, flat: int, branch: int) -> list[str]:
+def _target_reasons(problem: _Problem, scenes: _CandidateScenes, branch: int) -> list[str]:
     """Why each target of one candidate is not reached (``""`` where it is), shape (K,).
 
     The first failing test of its pose or approach pose, in the order of the
     module docstring: reach, joint limits, required branch, collision (the
     nearest shape named), the candidate's branch.
     """
-    iy, ix, iyaw, ih = np.unravel_index(flat, grid.shape)
-    local = int(np.ravel_multi_index((iy, ix, iyaw), grid.shape[:3]))
-    T_world_base = _base_poses(problem, grid, int(ih), local, local + 1)[0]
-    T_base_pose = invert_transform(T_world_base) @ problem.T_world_pose
+    T_base_pose = invert_transform(scenes.T_world_base) @ problem.T_world_pose
     ik = problem.solver.solve(T_base_pose, T_flange_tool=problem.T_flange_tool)
     labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2)
     required = problem.requirement[:, None, :]
     matches = np.all((required == 0) | (labels == 0) | (labels == required), axis=2)
     allowed = ik.valid & ik.within_limits & matches
-    support, own = _own_scenes(problem, float(grid.height[ih]))
-    environment = ClearanceScene.build(
-        problem.arm,
-        problem.environment,
-        T_world_base,
-        self_pairs=np.empty((0, 2)),
-        pair_mask=problem.environment_mask,
-    )
     on_branch = np.all((labels == 0) | (labels == BRANCHES[branch]), axis=2)
     reasons = []
     for k in range(problem.target_pose.shape[0]):
@@ -890,8 +892,8 @@ def _target_reasons(problem: _Problem, grid: PlacementGrid, flat: int, branch: i
                 reason = f"{what} not reachable on the required branch"
             else:
                 q = ik.q[p][allowed[p]]
-                scenes = (support, environment, own)
-                results = [clearance_batch(c, q) for c in scenes]
+                checked = (scenes.support, scenes.environment, scenes.own)
+                results = [clearance_batch(c, q) for c in checked]
                 margins = (problem.margin, problem.margin, 0.0)
                 slack = np.stack([r.distance - m for r, m in zip(results, margins, strict=True)])
                 free = np.all(slack >= 0.0, axis=0)
@@ -900,9 +902,9 @@ def _target_reasons(problem: _Problem, grid: PlacementGrid, flat: int, branch: i
                     which = int(np.argmin(slack[:, best]))
                     result = results[which]
                     names = (
-                        scenes[which].arm.names
+                        checked[which].arm.names
                         if result.is_self[best]
-                        else scenes[which].obstacles.names
+                        else checked[which].obstacles.names
                     )
                     other = names[int(result.other[best])]
                     reason = f"{what} in collision on every allowed branch (nearest: {other})"
