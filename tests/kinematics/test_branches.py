@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from posebridge.kinematics.branches import branch_geometry, label_branches
+from posebridge.kinematics.branches import branch_geometry, label_branches, labels_match
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
@@ -134,3 +134,14 @@ def test_gantry_has_no_branches() -> None:
 def test_bad_shape_is_refused() -> None:
     with pytest.raises(KinematicsInputError, match=r"expected shape \(N, 6\)"):
         label_branches(load_robot("pb-arm6"), np.zeros((2, 5)))
+
+
+def test_labels_match_treats_zero_on_either_side_as_either_sign() -> None:
+    # The documented matching rule (a 0 label, singular or "either", matches +1 and -1;
+    # common practice, no source), written out case by case.
+    labels = np.array([[1, 1, 1], [1, -1, 1], [0, -1, 1], [-1, 0, 0], [1, 1, -1]], dtype=np.int8)
+    required = np.array([1, 0, 1], dtype=np.int8)
+    assert labels_match(labels, required).tolist() == [True, True, True, False, False]
+    # broadcast over a batch of requirements, last axis the triple
+    assert labels_match(labels[:, None, :], [[1, 1, 1], [0, 0, 0]]).shape == (5, 2)
+    assert labels_match(labels[:, None, :], [[1, 1, 1], [0, 0, 0]])[:, 1].all()

@@ -64,7 +64,7 @@ from posebridge.cell.reports import (
     TargetCheckReport,
 )
 from posebridge.cell.scene import Scene
-from posebridge.kinematics.branches import branch_geometry
+from posebridge.kinematics.branches import branch_geometry, labels_match
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS
 from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
@@ -328,8 +328,7 @@ class _Checker:
     def _on_branch(self, triple: Triple) -> BoolArray:
         """Solutions compatible with ``triple`` (a 0 label matches either sign), shape (S,)."""
         labels = np.stack([self.quality.shoulder, self.quality.elbow, self.quality.wrist], axis=1)
-        wanted = np.asarray(triple)
-        return np.all((labels == wanted) | (labels == 0) | (wanted == 0), axis=1)
+        return labels_match(labels, triple)
 
     def _on_any(self, triples: list[Triple]) -> BoolArray:
         mask = np.zeros(self.quality.count, dtype=bool)

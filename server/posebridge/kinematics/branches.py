@@ -55,7 +55,7 @@ import numpy.typing as npt
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations, fk_frames
 from posebridge.kinematics.ik_types import Int8Array
 from posebridge.robot.model import Robot
-from posebridge.units import FloatArray
+from posebridge.units import BoolArray, FloatArray
 
 __all__ = [
     "LABEL_TOLERANCE_M",
@@ -66,6 +66,7 @@ __all__ = [
     "branch_geometry",
     "elbow_label",
     "label_branches",
+    "labels_match",
     "shoulder_label",
     "wrist_label",
 ]
@@ -356,3 +357,20 @@ def label_branches(robot: Robot, q: npt.ArrayLike) -> tuple[Int8Array, Int8Array
         reach = np.linalg.norm(in_plane, axis=1)
         _planar_labels(cross, reach, elbow)
     return shoulder, elbow, wrist
+
+
+def labels_match(labels: npt.ArrayLike, required: npt.ArrayLike) -> BoolArray:
+    """Branch labels that satisfy a required branch; a 0 on either side matches either sign.
+
+    Parameters
+    ----------
+    labels, required : array-like of int, shapes broadcasting to (..., 3)
+        ``[shoulder, elbow, wrist]`` label values (+1, -1, 0; module docstring).
+
+    Returns
+    -------
+    match : array of bool, the broadcast shape without its last axis
+    """
+    labels = np.asarray(labels)
+    required = np.asarray(required)
+    return np.all((required == 0) | (labels == 0) | (labels == required), axis=-1)

@@ -52,7 +52,7 @@ from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.model import Branch
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.geometry.clearance import collision_batch
-from posebridge.kinematics.branches import label_branches
+from posebridge.kinematics.branches import label_branches, labels_match
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.ik_numeric import solve_ik_numeric
@@ -202,11 +202,6 @@ def branch_requirement(branch: Branch | None) -> Int8Array:
             if word is not None:
                 required[k] = _LABEL_VALUES[word]
     return required
-
-
-def _matches(labels: Int8Array, required: Int8Array) -> BoolArray:
-    """Labels (..., 3) that satisfy a requirement (3,); a 0 on either side matches."""
-    return np.all((required == 0) | (labels == 0) | (labels == required), axis=-1)
 
 
 def slerp(q_a: npt.ArrayLike, q_b: npt.ArrayLike, t: npt.ArrayLike) -> FloatArray:
@@ -466,7 +461,7 @@ def _choose_waypoint(
     )
     labels = np.stack([result.shoulder[0], result.elbow[0], result.wrist[0]], axis=1)
     in_limits = result.valid[0] & result.within_limits[0]
-    allowed = in_limits & _matches(labels, required)
+    allowed = in_limits & labels_match(labels, required)
     if not np.any(allowed):
         if np.any(in_limits):
             return np.full(n, np.nan), REASON_BRANCH
@@ -585,7 +580,7 @@ def sample_path(
                 elif np.all(np.isfinite(end)):
                     q_way[w] = end
                     labels = segment.labels[-1]
-                    if not _matches(labels, required):
+                    if not labels_match(labels, required):
                         problem = REASON_BRANCH + " (the linear move arrives on another branch)"
                 else:
                     problem = f"not reached by the linear move ({segment.reason[-1]})"

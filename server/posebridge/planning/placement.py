@@ -78,7 +78,7 @@ from posebridge.geometry.shapes import (
     ObstacleSet,
     default_pair_mask,
 )
-from posebridge.kinematics.branches import branch_geometry
+from posebridge.kinematics.branches import branch_geometry, labels_match
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.jacobian import jacobian_base
@@ -381,9 +381,7 @@ def _placement_chunk(
     M = ik.n_slots
     labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2).reshape(C, P, M, 3)
     required = problem.requirement[None, :, None, :]
-    allowed = (ik.valid & ik.within_limits).reshape(C, P, M) & np.all(
-        (required == 0) | (labels == 0) | (labels == required), axis=3
-    )
+    allowed = (ik.valid & ik.within_limits).reshape(C, P, M) & labels_match(labels, required)
     q = ik.q.reshape(C, P, M, n)
     free = np.zeros((C, P, M), dtype=bool)
     clear = np.zeros((C, P, M), dtype=bool)
@@ -412,9 +410,7 @@ def _placement_chunk(
                     )
                     clear[index[0][fine[far]], index[1][fine[far]], index[2][fine[far]]] = True
         free[index] = ok
-    on_branch = np.all(
-        (labels[..., None, :] == 0) | (labels[..., None, :] == BRANCHES), axis=4
-    )  # (C, P, M, 8)
+    on_branch = labels_match(labels[..., None, :], BRANCHES)  # (C, P, M, 8)
     counting = free[..., None] & on_branch
     pose_ok = np.any(counting, axis=2)  # (C, P, 8)
     target_ok = pose_ok[:, problem.target_pose]
@@ -873,9 +869,9 @@ def _target_reasons(problem: _Problem, scenes: _CandidateScenes, branch: int) ->
     ik = problem.solver.solve(T_base_pose, T_flange_tool=problem.T_flange_tool)
     labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2)
     required = problem.requirement[:, None, :]
-    matches = np.all((required == 0) | (labels == 0) | (labels == required), axis=2)
+    matches = labels_match(labels, required)
     allowed = ik.valid & ik.within_limits & matches
-    on_branch = np.all((labels == 0) | (labels == BRANCHES[branch]), axis=2)
+    on_branch = labels_match(labels, BRANCHES[branch])
     reasons = []
     for k in range(problem.target_pose.shape[0]):
         poses = [int(problem.target_pose[k])]
