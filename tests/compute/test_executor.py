@@ -13,7 +13,6 @@ from collections.abc import Iterator
 import numba
 import numpy as np
 import pytest
-from distributed import LocalCluster
 
 from posebridge.compute.executor import (
     ComputationCancelled,
@@ -35,21 +34,6 @@ EXECUTOR_KINDS = ["serial", "pool", "dask"]
 def pool() -> Iterator[LocalPoolExecutor]:
     with LocalPoolExecutor(2) as executor:
         yield executor
-
-
-@pytest.fixture(scope="module")
-def dask_scheduler() -> Iterator[str]:
-    cluster = LocalCluster(
-        n_workers=2,
-        threads_per_worker=1,
-        processes=True,
-        host="127.0.0.1",
-        dashboard_address=None,
-    )
-    try:
-        yield cluster.scheduler_address
-    finally:
-        cluster.close()
 
 
 @pytest.fixture(scope="module")

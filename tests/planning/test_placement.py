@@ -3,11 +3,9 @@
 from __future__ import annotations
 
 import threading
-from collections.abc import Iterator
 
 import numpy as np
 import pytest
-from distributed import LocalCluster
 
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
@@ -106,17 +104,6 @@ def _same(a: PlacementResult, b: PlacementResult) -> None:
     for name in ("score", "reach_fraction", "branch", "min_margin_fraction", "cycle_time", "q"):
         np.testing.assert_array_equal(getattr(a, name), getattr(b, name))
     np.testing.assert_array_equal(a.order, b.order)
-
-
-@pytest.fixture(scope="module")
-def dask_scheduler() -> Iterator[str]:
-    cluster = LocalCluster(
-        n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None
-    )
-    try:
-        yield cluster.scheduler_address
-    finally:
-        cluster.close()
 
 
 def test_same_result_on_every_executor(dask_scheduler: str) -> None:

@@ -3,11 +3,9 @@
 from __future__ import annotations
 
 import threading
-from collections.abc import Iterator
 
 import numpy as np
 import pytest
-from distributed import LocalCluster
 from scipy.spatial.transform import Rotation
 
 from posebridge.compute import (
@@ -199,17 +197,6 @@ def test_voxels_beyond_the_bound_are_empty(arm6_map) -> None:
     # Triangle inequality: no TCP is farther from axis 1's origin than the sum of the link
     # offsets after it (pb-arm6.toml: 0.2915 + 0.61 + 0.3195 + 0.34 + 0.1 + 0.12 m, tool 120 mm).
     assert result.radius_bound < 1.01 * 1.78 + 0.25
-
-
-@pytest.fixture(scope="module")
-def dask_scheduler() -> Iterator[str]:
-    cluster = LocalCluster(
-        n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1", dashboard_address=None
-    )
-    try:
-        yield cluster.scheduler_address
-    finally:
-        cluster.close()
 
 
 def test_identical_maps_on_every_executor(robot, dask_scheduler) -> None:
