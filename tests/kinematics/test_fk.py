@@ -8,6 +8,7 @@ Modern Robotics, eq. 4.14).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import modern_robotics as mr
 import numpy as np
@@ -130,26 +131,10 @@ def test_parallel_batch_matches_pinocchio() -> None:
 # ------------------------------------------------------------ modern_robotics
 
 
-def space_screws_at_zero(robot: Robot) -> tuple[np.ndarray, np.ndarray]:
-    """Home pose M of the tool and space screw axes (6, n) from the joint origins at q = 0.
-
-    Revolute: S = (w, -w x p); prismatic: S = (0, v) (Lynch & Park, Modern Robotics,
-    sec. 4.1.1), with w (or v) the axis and p the joint frame origin in the base frame.
-    """
-    T = np.eye(4)
-    screws = []
-    for joint in robot.joints:
-        T = T @ joint.origin
-        direction = T[:3, :3] @ joint.axis
-        if joint.kind == "prismatic":
-            screws.append(np.concatenate([np.zeros(3), direction]))
-        else:
-            screws.append(np.concatenate([direction, -np.cross(direction, T[:3, 3])]))
-    return T @ robot.T_link_flange @ robot.T_flange_tool, np.array(screws).T
-
-
 @pytest.mark.parametrize("name", ALL_ROBOTS)
-def test_fk_matches_modern_robotics_product_of_exponentials(name: str) -> None:
+def test_fk_matches_modern_robotics_product_of_exponentials(
+    name: str, space_screws_at_zero: Callable[[Robot], tuple[np.ndarray, np.ndarray]]
+) -> None:
     robot = load_robot(name)
     M, screws = space_screws_at_zero(robot)
     q = random_q(robot, 200, seed=SEED + 1)

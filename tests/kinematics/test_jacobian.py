@@ -9,6 +9,7 @@ with the linear part taken at the space-frame origin).
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import modern_robotics as mr
 import numpy as np
@@ -107,24 +108,12 @@ def test_parallel_batch_matches_pinocchio() -> None:
 # ------------------------------------------------------------ modern_robotics
 
 
-def space_screws_at_zero(robot: Robot) -> np.ndarray:
-    """Space screw axes (6, n) at q = 0 from the joint origins (Modern Robotics sec. 4.1.1)."""
-    T = np.eye(4)
-    screws = []
-    for joint in robot.joints:
-        T = T @ joint.origin
-        direction = T[:3, :3] @ joint.axis
-        if joint.kind == "prismatic":
-            screws.append(np.concatenate([np.zeros(3), direction]))
-        else:
-            screws.append(np.concatenate([direction, -np.cross(direction, T[:3, 3])]))
-    return np.array(screws).T
-
-
 @pytest.mark.parametrize("name", ALL_ROBOTS)
-def test_jacobian_matches_modern_robotics_space_jacobian(name: str) -> None:
+def test_jacobian_matches_modern_robotics_space_jacobian(
+    name: str, space_screws_at_zero: Callable[[Robot], tuple[np.ndarray, np.ndarray]]
+) -> None:
     robot = load_robot(name)
-    screws = space_screws_at_zero(robot)
+    _, screws = space_screws_at_zero(robot)
     q = random_q(robot, 200, seed=SEED + 1)
     J = jacobian_base(robot, q)
     tool_position = fk_tool(robot, q)[:, :3, 3]
