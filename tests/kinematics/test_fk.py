@@ -25,7 +25,6 @@ from posebridge.kinematics.fk import (
 from posebridge.resources import data_folder
 from posebridge.robot.library import bundled_robots, load_robot
 from posebridge.robot.model import Robot
-from posebridge.robot.toml_format import parse_robot_toml
 from posebridge.robot.urdf import urdf_from_robot
 
 SEED = 4242
@@ -171,30 +170,8 @@ def test_planar3r_closed_form() -> None:
     np.testing.assert_allclose(T[:, 1, 3], np.sin(angles) @ lengths, atol=1e-12)
 
 
-def test_reference_2r_case_unit_links() -> None:
-    text = """
-[robot]
-name = "unit-2r"
-kind = "planar_2r"
-convention = "origin_axis"
-
-[[joint]]
-name = "j1"
-type = "revolute"
-axis = [0, 0, 1]
-limits = { min_deg = -180, max_deg = 180, velocity_deg_s = 90, acceleration_deg_s2 = 360 }
-
-[[joint]]
-name = "j2"
-type = "revolute"
-origin = { xyz_mm = [1000, 0, 0] }
-axis = [0, 0, 1]
-limits = { min_deg = -180, max_deg = 180, velocity_deg_s = 90, acceleration_deg_s2 = 360 }
-
-[flange]
-xyz_mm = [1000, 0, 0]
-"""
-    robot = parse_robot_toml(text, "unit-2r.toml")
+def test_reference_2r_case_unit_links(unit_planar_2r: Robot) -> None:
+    robot = unit_planar_2r
     T = fk_tool(robot, np.radians([[30.0, 90.0]]))[0]
     # REFERENCES.md closed forms: L1 = L2 = 1, (30 deg, 90 deg) -> (0.366, 1.366), 3 decimals given
     np.testing.assert_allclose(T[:2, 3], [0.366, 1.366], atol=5e-4)

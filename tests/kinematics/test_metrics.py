@@ -19,33 +19,8 @@ from posebridge.kinematics.metrics import (
     manipulability_yoshikawa,
 )
 from posebridge.robot.library import load_robot
+from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml
-
-PLANAR_2R_1M = """
-schema_version = 1
-[robot]
-name = "test-planar-1m"
-kind = "planar_2r"
-convention = "origin_axis"
-
-[[joint]]
-name = "j1"
-type = "revolute"
-origin = { xyz_mm = [0, 0, 0], rpy_deg = [0, 0, 0] }
-axis = [0, 0, 1]
-limits = { min_deg = -180, max_deg = 180, velocity_deg_s = 90, acceleration_deg_s2 = 360 }
-
-[[joint]]
-name = "j2"
-type = "revolute"
-origin = { xyz_mm = [1000, 0, 0], rpy_deg = [0, 0, 0] }
-axis = [0, 0, 1]
-limits = { min_deg = -180, max_deg = 180, velocity_deg_s = 90, acceleration_deg_s2 = 360 }
-
-[flange]
-xyz_mm = [1000, 0, 0]
-rpy_deg = [0, 0, 0]
-"""
 
 MIXED_CHAIN = """
 schema_version = 1
@@ -98,8 +73,8 @@ rpy_deg = [0, 0, 0]
 """
 
 
-def test_manipulability_planar_2r_reference_value() -> None:
-    robot = parse_robot_toml(PLANAR_2R_1M)
+def test_manipulability_planar_2r_reference_value(unit_planar_2r: Robot) -> None:
+    robot = unit_planar_2r
     q = np.array([[0.4, math.radians(30.0)]])
     w = manipulability(robot, q, part="position")
     # REFERENCES.md, Yoshikawa (1985): planar 2R, l1 = l2 = 1, theta2 = 30 deg -> w = 0.5
@@ -149,8 +124,8 @@ def test_inverse_condition_number_of_zero_jacobian_is_zero() -> None:
     assert inverse_condition_number(np.zeros((1, 6, 3))) == pytest.approx([0.0])
 
 
-def test_inverse_condition_planar_2r_closed_form() -> None:
-    robot = parse_robot_toml(PLANAR_2R_1M)
+def test_inverse_condition_planar_2r_closed_form(unit_planar_2r: Robot) -> None:
+    robot = unit_planar_2r
     theta2 = np.radians([30.0, 90.0, 150.0])
     q = np.stack([np.zeros(3), theta2], axis=1)
     J_xy = jacobian_rows(

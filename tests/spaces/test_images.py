@@ -12,7 +12,6 @@ from scipy.spatial.transform import Rotation, Slerp
 
 from posebridge.geometry.shapes import ArmCapsules
 from posebridge.robot.model import Robot
-from posebridge.robot.toml_format import parse_robot_toml
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.images import cartesian_image, segment_image, waypoint_images
 from posebridge.transforms import transform_from_position_rpy
@@ -52,30 +51,8 @@ def test_every_waypoint_solution_reaches_the_waypoint(robot, pin_arm) -> None:
     assert np.bincount(image.waypoint).max() <= 8 * 2 * 2
 
 
-def test_planar_reference_target_has_both_elbow_images() -> None:
-    text = """
-schema_version = 1
-[robot]
-name = "test-unit-2r"
-kind = "planar_2r"
-convention = "origin_axis"
-[[joint]]
-name = "j1"
-type = "revolute"
-origin = { xyz_mm = [0, 0, 0], rpy_deg = [0, 0, 0] }
-axis = [0, 0, 1]
-limits = { min_deg = -180, max_deg = 180, velocity_deg_s = 90, acceleration_deg_s2 = 360 }
-[[joint]]
-name = "j2"
-type = "revolute"
-origin = { xyz_mm = [1000, 0, 0], rpy_deg = [0, 0, 0] }
-axis = [0, 0, 1]
-limits = { min_deg = -180, max_deg = 180, velocity_deg_s = 90, acceleration_deg_s2 = 360 }
-[flange]
-xyz_mm = [1000, 0, 0]
-rpy_deg = [0, 0, 0]
-"""
-    arm = parse_robot_toml(text, "test-unit-2r.toml")
+def test_planar_reference_target_has_both_elbow_images(unit_planar_2r: Robot) -> None:
+    arm = unit_planar_2r
     target = np.eye(4)
     target[:2, 3] = [np.sqrt(3) / 2 - 0.5, np.sqrt(3) / 2 + 0.5]
     image = waypoint_images(arm, target[None], (0, 1))
