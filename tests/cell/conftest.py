@@ -42,6 +42,26 @@ def documented_joints(demo_scene: Scene) -> dict[str, list[float]]:
     return {name: [float(v) for v in values.split(",")] for name, values in found}
 
 
+@pytest.fixture
+def pin_tool(demo_scene: Scene) -> tuple[Any, Any, int]:
+    """pinocchio model of robots/pb-arm6.urdf with the cell's tool frame added:
+    ``(model, data, tool frame id)``."""
+    model = pin.buildModelFromUrdf(str(ROBOTS / "pb-arm6.urdf"))
+    flange_id = model.getFrameId("flange")
+    flange = model.frames[flange_id]
+    T = demo_scene.T_flange_tool
+    tool = model.addFrame(
+        pin.Frame(
+            "tool",
+            flange.parentJoint,
+            flange_id,
+            flange.placement * pin.SE3(T[:3, :3], T[:3, 3]),
+            pin.FrameType.OP_FRAME,
+        )
+    )
+    return model, model.createData(), tool
+
+
 def _capsule_object(start: np.ndarray, end: np.ndarray, radius: float) -> fcl.CollisionObject:
     axis = end - start
     length = float(np.linalg.norm(axis))

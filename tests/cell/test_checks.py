@@ -198,22 +198,9 @@ def _wrapped(values: np.ndarray) -> np.ndarray:
     return np.pi - np.mod(np.pi - values, 2.0 * np.pi)
 
 
-def test_ik_branches_agree_with_an_independent_search(report, demo_scene) -> None:
+def test_ik_branches_agree_with_an_independent_search(report, demo_scene, pin_tool) -> None:
     """Every in-limit solution of rack-low-1, found by least squares on pinocchio FK."""
-    model = pin.buildModelFromUrdf(str(ROBOTS / "pb-arm6.urdf"))
-    flange_id = model.getFrameId("flange")
-    flange = model.frames[flange_id]
-    T = demo_scene.T_flange_tool
-    tool = model.addFrame(
-        pin.Frame(
-            "tool",
-            flange.parentJoint,
-            flange_id,
-            flange.placement * pin.SE3(T[:3, :3], T[:3, 3]),
-            pin.FrameType.OP_FRAME,
-        )
-    )
-    data = model.createData()
+    model, data, tool = pin_tool
     k = demo_scene.targets.index("rack-low-1")
     goal = np.linalg.inv(demo_scene.T_world_base) @ demo_scene.targets.T_world_target[k]
 

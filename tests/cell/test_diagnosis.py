@@ -58,24 +58,6 @@ def diagnosis(demo_scene) -> LogDiagnosis:
     return diagnose_log(demo_scene, read_joint_log(DEMO_LOG, demo_scene.robot))
 
 
-def pin_tool(demo_scene):
-    """pinocchio model of robots/pb-arm6.urdf with the cell's tool frame added."""
-    model = pin.buildModelFromUrdf(str(ROBOTS / "pb-arm6.urdf"))
-    flange_id = model.getFrameId("flange")
-    flange = model.frames[flange_id]
-    T = demo_scene.T_flange_tool
-    tool = model.addFrame(
-        pin.Frame(
-            "tool",
-            flange.parentJoint,
-            flange_id,
-            flange.placement * pin.SE3(T[:3, :3], T[:3, 3]),
-            pin.FrameType.OP_FRAME,
-        )
-    )
-    return model, model.createData(), tool
-
-
 # --- the demo log -----------------------------------------------------------------------------
 
 
@@ -145,9 +127,9 @@ def test_wrist_flips(diagnosis, csv_log) -> None:
     assert (first.before, first.after) == ("positive", "negative")
 
 
-def test_rows_follow_pinocchio_fk(diagnosis, demo_scene, csv_log) -> None:
+def test_rows_follow_pinocchio_fk(diagnosis, demo_scene, csv_log, pin_tool) -> None:
     _, q = csv_log
-    model, data, tool = pin_tool(demo_scene)
+    model, data, tool = pin_tool
     positions = []
     for row in np.radians(q):
         pin.framesForwardKinematics(model, data, row)
@@ -257,8 +239,10 @@ def gauge_pose(demo_scene, documented_joints) -> PoseDiagnosis:
     return diagnose_pose(demo_scene, np.radians(documented_joints["gauge-probe"]))
 
 
-def test_pose_frames_match_pinocchio_and_scipy(gauge_pose, demo_scene, documented_joints) -> None:
-    model, data, tool = pin_tool(demo_scene)
+def test_pose_frames_match_pinocchio_and_scipy(
+    gauge_pose, demo_scene, documented_joints, pin_tool
+) -> None:
+    model, data, tool = pin_tool
     pin.framesForwardKinematics(model, data, np.radians(documented_joints["gauge-probe"]))
     T_base = data.oMf[tool].homogeneous
     T_world = demo_scene.T_world_base @ T_base

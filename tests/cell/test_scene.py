@@ -10,7 +10,6 @@ from __future__ import annotations
 import copy
 import csv
 import json
-import re
 import shutil
 import tomllib
 import warnings
@@ -352,17 +351,6 @@ def test_embedded_and_unknown_robots() -> None:
 DEMO = ROBOTS / "demo-cell.json"
 
 
-@pytest.fixture(scope="module")
-def demo() -> Any:
-    return resolve_scene(load_cell(DEMO), DEMO)
-
-
-def documented_joints(notes: str) -> dict[str, list[float]]:
-    """Joint values the demo notes give for each target: ``name: [j1, ..., j6]``."""
-    found = re.findall(r"([a-z0-9-]+): \[([-0-9., ]+)\]", notes)
-    return {name: [float(v) for v in values.split(",")] for name, values in found}
-
-
 def pin_tool_poses(robot: Any, T_flange_tool: np.ndarray, q_deg: np.ndarray) -> np.ndarray:
     """Tool poses in the base frame from pinocchio (reference library), via a URDF
     written from the robot's joint origins and axes."""
@@ -401,53 +389,55 @@ def pin_tool_poses(robot: Any, T_flange_tool: np.ndarray, q_deg: np.ndarray) -> 
     return np.array(poses)
 
 
-def test_demo_cell_loads_and_has_the_promised_content(demo: Any) -> None:
-    cell = demo.cell
+def test_demo_cell_loads_and_has_the_promised_content(demo_scene: Any) -> None:
+    cell = demo_scene.cell
     # task contract: 8-15 targets on fixtures, 2-3 paths mixing joint and linear moves
     assert 8 <= len(cell.targets) <= 15
     assert all(target.fixture != "world" for target in cell.targets)
     assert 2 <= len(cell.paths) <= 3
-    assert all(path.linear.any() and (~path.linear).any() for path in demo.paths)
-    assert any(path.joints_given.any() for path in demo.paths)
-    assert demo.robot.name == "pb-arm6"
+    assert all(path.linear.any() and (~path.linear).any() for path in demo_scene.paths)
+    assert any(path.joints_given.any() for path in demo_scene.paths)
+    assert demo_scene.robot.name == "pb-arm6"
     # closed form: the base stands on a 400 mm pedestal
-    np.testing.assert_allclose(demo.T_world_base[:3, 3], [0.0, 0.0, 0.4])
-    assert len(demo.keep_outs.names) >= 1
-    assert demo.tool_name == "gripper-180"
+    np.testing.assert_allclose(demo_scene.T_world_base[:3, 3], [0.0, 0.0, 0.4])
+    assert len(demo_scene.keep_outs.names) >= 1
+    assert demo_scene.tool_name == "gripper-180"
     assert any(f.parent is not None for f in cell.fixtures)
 
 
-def test_demo_targets_are_the_fk_of_their_documented_joint_values(demo: Any) -> None:
-    joints = documented_joints(demo.cell.notes)
-    assert sorted(joints) == sorted(demo.targets.names)
-    names = list(demo.targets.names)
-    q_deg = np.array([joints[name] for name in names])
-    T_base_tool = pin_tool_poses(demo.robot, demo.T_flange_tool, q_deg)
+def test_demo_targets_are_the_fk_of_their_documented_joint_values(
+    demo_scene: Any, documented_joints: dict[str, list[float]]
+) -> None:
+    assert sorted(documented_joints) == sorted(demo_scene.targets.names)
+    names = list(demo_scene.targets.names)
+    q_deg = np.array([documented_joints[name] for name in names])
+    T_base_tool = pin_tool_poses(demo_scene.robot, demo_scene.T_flange_tool, q_deg)
     # pinocchio forward kinematics (reference library); the file rounds positions
     # to 0.001 mm and angles to 0.0001 deg
-    expected = demo.T_world_base @ T_base_tool
-    np.testing.assert_allclose(demo.targets.T_world_target[:, :3, 3], expected[:, :3, 3], atol=2e-6)
+    expected = demo_scene.T_world_base @ T_base_tool
     np.testing.assert_allclose(
-        demo.targets.T_world_target[:, :3, :3], expected[:, :3, :3], atol=1e-5
+        demo_scene.targets.T_world_target[:, :3, 3], expected[:, :3, 3], atol=2e-6
+    )
+    np.testing.assert_allclose(
+        demo_scene.targets.T_world_target[:, :3, :3], expected[:, :3, :3], atol=1e-5
     )
 
 
-def test_demo_wrist_target_is_near_straight() -> None:
-    joints = documented_joints(load_cell(DEMO).notes)
+def test_demo_wrist_target_is_near_straight(documented_joints: dict[str, list[float]]) -> None:
     # task contract: the wrist bend (j5, straight at 0 for pb-arm6: j4 and j6
     # axes both along x in robots/pb-arm6.toml) is within 5 deg of straight
-    assert abs(joints["gauge-probe"][4]) < 5.0
+    assert abs(documented_joints["gauge-probe"][4]) < 5.0
 
 
-def test_demo_press_load_has_low_clearance(demo: Any) -> None:
-    k = demo.targets.index("press-load")
-    T_world_tool = demo.targets.T_world_target[k]
-    T_world_flange = T_world_tool @ np.linalg.inv(demo.T_flange_tool)
-    start = T_world_flange[:3, :3] @ demo.tool_capsules.start[0] + T_world_flange[:3, 3]
-    end = T_world_flange[:3, :3] @ demo.tool_capsules.end[0] + T_world_flange[:3, 3]
+def test_demo_press_load_has_low_clearance(demo_scene: Any) -> None:
+    k = demo_scene.targets.index("press-load")
+    T_world_tool = demo_scene.targets.T_world_target[k]
+    T_world_flange = T_world_tool @ np.linalg.inv(demo_scene.T_flange_tool)
+    start = T_world_flange[:3, :3] @ demo_scene.tool_capsules.start[0] + T_world_flange[:3, 3]
+    end = T_world_flange[:3, :3] @ demo_scene.tool_capsules.end[0] + T_world_flange[:3, 3]
     axis = (end - start) / np.linalg.norm(end - start)
     capsule = fcl.CollisionObject(
-        fcl.Capsule(demo.tool_capsules.radius[0], np.linalg.norm(end - start)),
+        fcl.Capsule(demo_scene.tool_capsules.radius[0], np.linalg.norm(end - start)),
         fcl.Transform(
             Rotation.align_vectors([axis], [[0, 0, 1]])[0].as_matrix(), (start + end) / 2
         ),
