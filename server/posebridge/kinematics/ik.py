@@ -22,13 +22,11 @@ joint), so ``orientation_tolerance_rad`` only matters for the numerical solver.
 
 from __future__ import annotations
 
-import math
 import weakref
 from dataclasses import dataclass
 
 import numpy.typing as npt
 
-from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.kinematics.ik_analytic.gantry import GantryGeometry, solve_gantry
 from posebridge.kinematics.ik_analytic.ortho_parallel import (
     OrthoParallelGeometry,
@@ -37,7 +35,7 @@ from posebridge.kinematics.ik_analytic.ortho_parallel import (
 from posebridge.kinematics.ik_analytic.planar import PlanarGeometry, solve_planar
 from posebridge.kinematics.ik_analytic.scara import ScaraGeometry
 from posebridge.kinematics.ik_numeric import solve_ik_numeric
-from posebridge.kinematics.ik_types import IkSolutions
+from posebridge.kinematics.ik_types import IkSolutions, check_positive
 from posebridge.robot.model import Robot
 
 __all__ = ["IkSolver", "ik_solver", "solve_ik_all"]
@@ -71,8 +69,8 @@ class IkSolver:
         orientation_tolerance_rad: float = 1e-6,
     ) -> IkSolutions:
         """Every IK solution of each pose; parameters as :func:`solve_ik_all`."""
-        tolerance = _positive(position_tolerance_m, "position_tolerance_m")
-        orientation = _positive(orientation_tolerance_rad, "orientation_tolerance_rad")
+        tolerance = check_positive(position_tolerance_m, "position_tolerance_m")
+        orientation = check_positive(orientation_tolerance_rad, "orientation_tolerance_rad")
         geometry = self.geometry
         if isinstance(geometry, OrthoParallelGeometry):
             return solve_ortho_parallel(
@@ -112,13 +110,6 @@ class IkSolver:
             orientation_tolerance_rad=orientation,
             all_turns=all_turns,
         )
-
-
-def _positive(value: float, name: str) -> float:
-    number = float(value)
-    if not math.isfinite(number) or number <= 0.0:
-        raise KinematicsInputError(f"{name}: expected a positive finite number, got {value!r}")
-    return number
 
 
 _SOLVERS: weakref.WeakKeyDictionary[Robot, IkSolver] = weakref.WeakKeyDictionary()

@@ -56,6 +56,7 @@ from posebridge.kinematics.fk import KinematicsInputError, tool_tail
 from posebridge.kinematics.ik_types import (
     REASON_OUT_OF_REACH,
     IkSolutions,
+    check_positive,
     check_seed,
     check_target_poses,
     finish_solutions,
@@ -421,13 +422,6 @@ def random_starts(robot: Robot, count: int, rng_seed: int) -> FloatArray:
     return rng.uniform(robot.lower, robot.upper, size=(count, robot.dof))
 
 
-def _positive(value: float, name: str) -> float:
-    number = float(value)
-    if not np.isfinite(number) or number <= 0.0:
-        raise KinematicsInputError(f"{name}: expected a positive finite number, got {value!r}")
-    return number
-
-
 def _count(value: int, name: str, minimum: int) -> int:
     if int(value) != value or value < minimum:
         raise KinematicsInputError(f"{name}: expected an integer >= {minimum}, got {value!r}")
@@ -506,8 +500,8 @@ def solve_ik_numeric(
     max_solutions = _count(max_solutions, "max_solutions", 1)
     restarts = _count(restarts, "restarts", 0)
     max_iterations = _count(max_iterations, "max_iterations", 1)
-    position_tolerance = _positive(position_tolerance_m, "position_tolerance_m")
-    orientation_tolerance = _positive(orientation_tolerance_rad, "orientation_tolerance_rad")
+    position_tolerance = check_positive(position_tolerance_m, "position_tolerance_m")
+    orientation_tolerance = check_positive(orientation_tolerance_rad, "orientation_tolerance_rad")
     seeds, has_seed = check_seed(robot, seed, N)
     # a writable copy: read-only views would compile a second kernel signature
     starts_from = np.array(

@@ -64,6 +64,7 @@ __all__ = [
     "IkSolutions",
     "Int8Array",
     "Int16Array",
+    "check_positive",
     "check_seed",
     "check_target_poses",
     "BLOCK_SIZE",
@@ -288,6 +289,14 @@ def turn_variant_counts(robot: Robot) -> npt.NDArray[np.int64]:
 def slots_per_candidate(robot: Robot, all_turns: bool) -> int:
     """Output slots needed per raw candidate: 1, or the product of :func:`turn_variant_counts`."""
     return int(np.prod(turn_variant_counts(robot))) if all_turns else 1
+
+
+def check_positive(value: float, name: str) -> float:
+    """``value`` as a float if it is positive and finite (a tolerance), else KinematicsInputError."""
+    number = float(value)
+    if not np.isfinite(number) or number <= 0.0:
+        raise KinematicsInputError(f"{name}: expected a positive finite number, got {value!r}")
+    return number
 
 
 def check_target_poses(T_base_tool: npt.ArrayLike) -> FloatArray:
