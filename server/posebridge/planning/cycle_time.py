@@ -37,7 +37,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.errors import PlanningInputError, check_positive
 from posebridge.planning.path_sampling import SampledPath, SegmentSamples
 from posebridge.planning.time_scaling import joint_move, linear_move_profile, path_speed_limit
 from posebridge.robot.model import Robot
@@ -320,11 +320,7 @@ def path_cycle_time(
     -------
     CycleTime
     """
-    if not math.isfinite(linear_acceleration_m_s2) or linear_acceleration_m_s2 <= 0.0:
-        raise PlanningInputError(
-            "linear_acceleration_m_s2: expected a positive finite number, "
-            f"got {linear_acceleration_m_s2!r}"
-        )
+    check_positive("linear_acceleration_m_s2", linear_acceleration_m_s2)
     path = sampled.path
     timings: list[SegmentTiming] = []
     for segment in sampled.segments:

@@ -51,7 +51,7 @@ from posebridge.planning.cycle_time import (
     path_cycle_time,
     path_derivative,
 )
-from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.errors import PlanningInputError, check_non_negative
 from posebridge.planning.path_sampling import SampledPath, SegmentSamples, sample_path
 from posebridge.planning.reports import (
     FindingKind,
@@ -413,8 +413,7 @@ def check_sampled_path(
         ("limit_margin_mm", limit_margin_mm),
         ("clearance_warning_mm", clearance_warning_mm),
     ):
-        if not math.isfinite(value) or value < 0.0:
-            raise PlanningInputError(f"{name}: expected a finite number >= 0, got {value!r}")
+        check_non_negative(name, value)
     if not math.isfinite(collision_threshold_mm) or collision_threshold_mm > clearance_warning_mm:
         raise PlanningInputError(
             "collision_threshold_mm: expected a finite number not above clearance_warning_mm, "

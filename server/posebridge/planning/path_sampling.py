@@ -57,7 +57,7 @@ from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.ik_numeric import solve_ik_numeric
 from posebridge.kinematics.ik_types import Int8Array, joint_weights
-from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.errors import PlanningInputError, check_positive
 from posebridge.transforms import (
     invert_transform,
     quaternion_from_rotation_matrix,
@@ -519,8 +519,7 @@ def sample_path(
         ("jump_deg", jump_deg),
         ("jump_mm", jump_mm),
     ):
-        if not np.isfinite(value) or value <= 0.0:
-            raise PlanningInputError(f"{name}: expected a positive finite number, got {value!r}")
+        check_positive(name, value)
     if resolved.q.shape[1] != scene.robot.dof:
         raise PlanningInputError(
             f"path {resolved.name!r}: joint values have {resolved.q.shape[1]} columns, "

@@ -92,7 +92,7 @@ from posebridge.planning.cycle_time import (
     DEFAULT_LINEAR_ACCELERATION_M_S2,
     joint_move_durations,
 )
-from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.errors import PlanningInputError, check_non_negative
 from posebridge.planning.path_sampling import branch_requirement
 from posebridge.planning.reports import (
     PlacementCandidateReport,
@@ -674,10 +674,7 @@ def search_base_placement(
     """
     if isinstance(top, bool) or not isinstance(top, int) or not 1 <= top <= 1000:
         raise PlanningInputError(f"top: expected an integer from 1 to 1000, got {top!r}")
-    if not math.isfinite(collision_margin_mm) or collision_margin_mm < 0.0:
-        raise PlanningInputError(
-            f"collision_margin_mm: expected a finite number >= 0, got {collision_margin_mm!r}"
-        )
+    check_non_negative("collision_margin_mm", collision_margin_mm)
     if not math.isfinite(clearance_goal_mm) or clearance_goal_mm < collision_margin_mm:
         raise PlanningInputError(
             "clearance_goal_mm: expected a finite number not below collision_margin_mm, "

@@ -62,7 +62,7 @@ from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.geometry.clearance import ClearanceScene, collision_batch
 from posebridge.geometry.shapes import ArmCapsules
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_tool
-from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.errors import PlanningInputError, check_non_negative, check_positive
 from posebridge.planning.path_check import check_path
 from posebridge.planning.reports import JointPlanReport, PlanStatus
 from posebridge.units import FloatArray, joints_user_from_si, m_from_mm, mm_from_m
@@ -348,24 +348,15 @@ def plan_joint_move(
     goal = _check_configuration(scene, "q_goal", q_goal)
     if isinstance(seed, bool) or not isinstance(seed, int) or seed < 1:
         raise PlanningInputError(f"seed: expected an integer >= 1, got {seed!r}")
-    if not math.isfinite(time_limit_s) or time_limit_s < 0.0:
-        raise PlanningInputError(
-            f"time_limit_s: expected a finite number >= 0, got {time_limit_s!r}"
-        )
-    if not math.isfinite(safety_margin_mm) or safety_margin_mm <= 0.0:
-        raise PlanningInputError(
-            f"safety_margin_mm: expected a positive finite number, got {safety_margin_mm!r}"
-        )
+    check_non_negative("time_limit_s", time_limit_s)
+    check_positive("safety_margin_mm", safety_margin_mm)
     step_mm = safety_margin_mm if motion_step_mm is None else motion_step_mm
     if not math.isfinite(step_mm) or not 0.0 < step_mm <= safety_margin_mm:
         raise PlanningInputError(
             f"motion_step_mm: expected a value above 0 and at most the safety margin "
             f"({safety_margin_mm:g} mm), got {motion_step_mm!r}"
         )
-    if not math.isfinite(self_margin_mm) or self_margin_mm < 0.0:
-        raise PlanningInputError(
-            f"self_margin_mm: expected a finite number >= 0, got {self_margin_mm!r}"
-        )
+    check_non_negative("self_margin_mm", self_margin_mm)
     margin = float(m_from_mm(safety_margin_mm))
     cell = clearance_scene(scene)
     levers = lever_arms(cell.arm)
