@@ -9,6 +9,7 @@ from posebridge.compute.executor import (
     ProgressCallback,
     SerialExecutor,
     make_executor,
+    run_chunks,
     split_range,
     warm_worker,
 )
@@ -22,6 +23,7 @@ __all__ = [
     "ProgressCallback",
     "SerialExecutor",
     "make_executor",
+    "run_chunks",
     "split_range",
     "warm_worker",
 ]

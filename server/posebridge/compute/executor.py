@@ -78,6 +78,7 @@ __all__ = [
     "ProgressCallback",
     "SerialExecutor",
     "make_executor",
+    "run_chunks",
     "split_range",
     "warm_worker",
 ]
@@ -193,6 +194,36 @@ def warm_worker() -> None:
         jacobian_base(robot, q)
 
 
+def run_chunks(
+    function: Callable[..., Result],
+    chunks: Sequence[tuple[Any, ...]],
+    *,
+    progress: ProgressCallback | None = None,
+    cancel: threading.Event | None = None,
+) -> list[Result]:
+    """``[function(*chunk) for chunk in chunks]`` in the calling process, numba's threads as set.
+
+    For a caller without an executor (its kernels then use every numba
+    thread); :class:`SerialExecutor` runs the same loop on one thread.
+    ``progress(done, total)`` is called after each chunk; ``cancel`` is
+    checked before each chunk.
+
+    Raises
+    ------
+    ComputationCancelled
+        ``cancel`` was set before all chunks had run.
+    """
+    total = len(chunks)
+    results = []
+    for done, chunk in enumerate(chunks):
+        if cancel is not None and cancel.is_set():
+            raise ComputationCancelled(done, total)
+        results.append(function(*chunk))
+        if progress is not None:
+            progress(done + 1, total)
+    return results
+
+
 class _ExecutorBase(ABC):
     """What every executor shares: the closed flag, the checks before a run, and the
     context-manager protocol (leaving the ``with`` block closes the executor)."""
@@ -305,20 +336,12 @@ class SerialExecutor(_ExecutorBase):
             The executor is closed, or a chunk is not a tuple.
         """
         self._check_run(chunks)
-        total = len(chunks)
-        results = []
         threads = numba.get_num_threads()
         numba.set_num_threads(1)
         try:
-            for done, chunk in enumerate(chunks):
-                if cancel is not None and cancel.is_set():
-                    raise ComputationCancelled(done, total)
-                results.append(function(*chunk))
-                if progress is not None:
-                    progress(done + 1, total)
+            return run_chunks(function, chunks, progress=progress, cancel=cancel)
         finally:
             numba.set_num_threads(threads)
-        return results
 
     def close(self) -> None:
         """Mark the executor closed."""

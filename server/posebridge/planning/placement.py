@@ -67,7 +67,7 @@ import numpy.typing as npt
 
 from posebridge.cell.clearance import cell_arm, clearance_scene
 from posebridge.cell.scene import Scene
-from posebridge.compute import ComputationCancelled, Executor, ProgressCallback, warm_worker
+from posebridge.compute import Executor, ProgressCallback, run_chunks, warm_worker
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.self_pairs import non_adjacent_pairs
 from posebridge.geometry.shapes import (
@@ -596,22 +596,6 @@ def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem
     )
 
 
-def _run_in_process(
-    chunks: list[tuple[Any, ...]],
-    progress: ProgressCallback | None,
-    cancel: threading.Event | None,
-) -> list[tuple[FloatArray, ...]]:
-    """The chunks in this process (numba threads inside each); progress and cancel as an executor."""
-    results = []
-    for done, chunk in enumerate(chunks):
-        if cancel is not None and cancel.is_set():
-            raise ComputationCancelled(done, len(chunks))
-        results.append(_placement_chunk(*chunk))
-        if progress is not None:
-            progress(done + 1, len(chunks))
-    return results
-
-
 def _optional(value: float, scale: float = 1.0) -> float | None:
     return float(value) * scale if math.isfinite(value) else None
 
@@ -692,7 +676,7 @@ def search_base_placement(
         for start in range(0, per_height, CHUNK_CANDIDATES)
     ]
     if executor is None:
-        results = _run_in_process(chunks, progress, cancel)
+        results = run_chunks(_placement_chunk, chunks, progress=progress, cancel=cancel)
     else:
         results = executor.map_chunks(_placement_chunk, chunks, progress=progress, cancel=cancel)
     K = len(scene.targets.names)

@@ -26,12 +26,11 @@ from __future__ import annotations
 import threading
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.compute import ComputationCancelled, Executor, ProgressCallback, split_range
+from posebridge.compute import Executor, ProgressCallback, run_chunks, split_range
 from posebridge.geometry.clearance import ClearanceScene, clearance_per_obstacle_batch
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.units import BoolArray, FloatArray, joints_user_from_si
@@ -207,22 +206,6 @@ def _joint_map_chunk(
     )
 
 
-def _run_in_process(
-    chunks: list[tuple[Any, ...]],
-    progress: ProgressCallback | None,
-    cancel: threading.Event | None,
-) -> list[tuple[Int16Array, BoolArray, FloatArray, Int64Array, Int64Array]]:
-    """The chunks in this process, numba threads inside each; progress and cancel as an executor."""
-    results = []
-    for done, chunk in enumerate(chunks):
-        if cancel is not None and cancel.is_set():
-            raise ComputationCancelled(done, len(chunks))
-        results.append(_joint_map_chunk(*chunk))
-        if progress is not None:
-            progress(done + 1, len(chunks))
-    return results
-
-
 def _check_request(
     scene: ClearanceScene,
     joints: Sequence[int],
@@ -312,7 +295,7 @@ def joint_map(
         for start, stop in split_range(total, CHUNK_CONFIGURATIONS)
     ]
     if executor is None:
-        results = _run_in_process(chunks, progress, cancel)
+        results = run_chunks(_joint_map_chunk, chunks, progress=progress, cancel=cancel)
     else:
         results = executor.map_chunks(_joint_map_chunk, chunks, progress=progress, cancel=cancel)
     starts = np.array([chunk[5] for chunk in chunks], dtype=np.int64)
