@@ -327,6 +327,24 @@ async def test_placement_job_reviewer_rate_capped(
     assert refused.json()["detail"].startswith("too many heavy requests from this address")
 
 
+async def test_reach_section_reviewer_allowed_rate_capped(
+    shared_app: FastAPI, token: str, clients: ClientFactory
+) -> None:
+    reviewer = clients(shared_app, headers=_bearer(token))
+    # a reach section changes nothing: open to reviewers as a heavy job
+    started = await reviewer.post(
+        "/api/maps/reach-section", json={"axis": "z", "value_mm": 700.0, "voxel_mm": 200.0}
+    )
+    assert started.status_code == 202, started.text
+    for _ in range(REVIEWER_CAPS["heavy"].burst - 1):  # invalid requests start no job, but count
+        invalid = await reviewer.post("/api/maps/reach-section", json={"no": "such field"})
+        assert invalid.status_code == 422
+    refused = await reviewer.post("/api/maps/reach-section", json={"no": "such field"})
+    assert refused.status_code == 429
+    assert refused.json()["detail"].startswith("too many heavy requests from this address")
+    assert int(refused.headers["retry-after"]) >= 1  # RFC 9110 sec. 10.2.3: delay in seconds
+
+
 async def test_add_comment_reviewer(
     shared_app: FastAPI, token: str, cell_file: Path, clients: ClientFactory
 ) -> None:

@@ -20,7 +20,7 @@ serve --share``), every request is one of:
 A reviewer is read-only. Allowed: ``GET``/``HEAD``/``OPTIONS`` of anything;
 the requests of :data:`REVIEWER_ACTIONS` — read-only computations that
 change nothing but cost CPU (kinematics, target and path checks, pose and
-log diagnosis, joint maps and base placement jobs), each under a rate cap
+log diagnosis, joint maps, reach sections and base placement jobs), each under a rate cap
 stricter the costlier it is — and adding a comment; and leaving review mode. Every other request — a
 cell ``PUT``/``PATCH``, resolving a comment, anything not listed — is 403
 whatever the route, so a new write route is refused to reviewers until it
@@ -97,6 +97,7 @@ REVIEWER_ACTIONS: Final[dict[tuple[str, str], str]] = {
     ("POST", "/api/cell/diagnose/pose"): "compute",
     ("POST", "/api/cell/diagnose/log"): "check",
     ("POST", "/api/maps/joint"): "heavy",
+    ("POST", "/api/maps/reach-section"): "heavy",
     ("POST", "/api/placement"): "heavy",
     ("POST", "/api/jobs/{job_id}/cancel"): "compute",
     ("POST", "/api/reviews/comments"): "comment",
