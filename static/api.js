@@ -1,16 +1,48 @@
 // The only module that talks to the server. Every call checks response.ok and
 // turns an error answer into an ApiError carrying the server's "detail" text.
 
-/** An answer with an error status; `detail` is the server's message. */
+/**
+ * An answer with an error status; `detail` is the server's message and
+ * `retryAfterS` the seconds its Retry-After header asks to wait (null without one).
+ */
 export class ApiError extends Error {
-  constructor({ status, detail, path }) {
+  constructor({ status, detail, path, retryAfterS = null }) {
     super(detail);
     this.name = "ApiError";
     this.status = status;
     this.detail = detail;
     this.path = path;
+    this.retryAfterS = retryAfterS;
   }
 }
+
+/**
+ * Seconds to wait from a Retry-After header value (RFC 9110 sec. 10.2.3: a
+ * number of seconds or an HTTP date), or null when there is none or it cannot be read.
+ */
+export function retryAfterSeconds(value, nowMs = Date.now()) {
+  if (value === null || value === undefined || String(value).trim() === "") {
+    return null;
+  }
+  const text = String(value).trim();
+  if (/^\d+$/.test(text)) {
+    return Number(text);
+  }
+  const at = Date.parse(text);
+  return Number.isFinite(at) ? Math.max(0, (at - nowMs) / 1000) : null;
+}
+
+/** Whether an error is the server's "too many requests" answer (HTTP 429). */
+export function isRateLimited(error) {
+  return error instanceof ApiError && error.status === 429;
+}
+
+/** How long to wait after a 429: its Retry-After, at least one second. */
+export function retryDelayMs(error) {
+  return 1000 * Math.max(1, error.retryAfterS ?? 1);
+}
+
+const sleep = (ms) => new Promise((resolve) => setTimeout(resolve, ms));
 
 /**
  * Client of the posebridge HTTP API.
@@ -45,7 +77,8 @@ export function createApiClient({ baseUrl = "" } = {}) {
         payload && typeof payload.detail === "string"
           ? payload.detail
           : `${response.status} ${response.statusText}`.trim();
-      throw new ApiError({ status: response.status, detail, path });
+      const retryAfterS = retryAfterSeconds(response.headers.get("retry-after"));
+      throw new ApiError({ status: response.status, detail, path, retryAfterS });
     }
     return payload;
   }
@@ -167,22 +200,59 @@ export function createLatestChannel({ send, onResult, onError, minIntervalMs = 1
  * and resolve with the finished job (state done, failed or cancelled).
  * `cancel()` of the returned handle asks the server to stop the job.
  *
- * @param {{api: object, start: () => Promise<object>, onProgress?: Function, pollMs?: number}} options
+ * A start refused with 429 (rate or job caps) is tried once more after the
+ * answer's Retry-After: `onWait({seconds, detail})` says so meanwhile, and a
+ * second refusal is thrown. A poll refused with 429 waits its Retry-After and
+ * polls again. A handle cancelled while waiting resolves with state cancelled.
+ *
+ * @param {{api: object, start: () => Promise<object>, onProgress?: Function, onWait?: Function,
+ *          pollMs?: number}} options
  * @returns {{done: Promise<object>, cancel: () => void}}
  */
-export function runJob({ api, start, onProgress = () => {}, pollMs = 150 }) {
+export function runJob({ api, start, onProgress = () => {}, onWait = () => {}, pollMs = 150 }) {
   let jobId = null;
   let stopped = false;
+  const cancelledWhileWaiting = { id: null, state: "cancelled", done: 0, total: 0, detail: "cancelled while waiting" };
+
+  async function startOnce() {
+    try {
+      return await start();
+    } catch (error) {
+      if (!isRateLimited(error)) {
+        throw error;
+      }
+      const waitMs = retryDelayMs(error);
+      onWait({ seconds: waitMs / 1000, detail: error.detail });
+      await sleep(waitMs);
+      return stopped ? null : start();
+    }
+  }
+
+  async function poll() {
+    try {
+      return await api.readJob(jobId);
+    } catch (error) {
+      if (!isRateLimited(error)) {
+        throw error;
+      }
+      await sleep(retryDelayMs(error));
+      return poll();
+    }
+  }
+
   const done = (async () => {
-    let job = await start();
+    let job = await startOnce();
+    if (job === null) {
+      return cancelledWhileWaiting;
+    }
     jobId = job.id;
     if (stopped) {
       job = await api.cancelJob(jobId);
     }
     onProgress(job);
     while (job.state === "queued" || job.state === "running") {
-      await new Promise((resolve) => setTimeout(resolve, pollMs));
-      job = await api.readJob(jobId);
+      await sleep(pollMs);
+      job = await poll();
       onProgress(job);
     }
     return job;

@@ -4,10 +4,16 @@
 // typed or keyed change), with the content version it was made from; if the
 // cell was changed elsewhere meanwhile the server refuses (412), the page
 // reloads the cell and says the move was not saved.
+//
+// On a reviewer's page (readOnly in the store) nothing is sent: a target can
+// still be moved on the page to look at its IK answers, but the move stays
+// local, and the status line says once that changes are not saved.
 
 import { ApiError } from "./api.js";
 
 const SAVE_DELAY_MS = 400;
+export const REVIEW_NOT_SAVED = "review mode: changes are not saved";
+const REVIEW_SAVE_STATE = Object.freeze({ state: "review", message: "moved on this page only (review)" });
 const SIGNS = { front: 1, back: -1, up: 1, down: -1, positive: 1, negative: -1 };
 
 /** A required branch of a target as the page's branch record (0 = either). */
@@ -47,12 +53,22 @@ export function selectedWaypoint({ cell, selection }) {
 
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
- * @returns {{loadCell: () => Promise<void>}}
+ * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>}}
  */
 export function createCellSync({ store, actions, api, linking }) {
   let saveTimer = null;
   let pending = null;
   let saving = false;
+  let toldNotSaved = false;
+
+  /** A reviewer's edit: nothing is sent; the cell panel and (once) the status line say so. */
+  function notSaved() {
+    store.update({ cellSave: REVIEW_SAVE_STATE });
+    if (!toldNotSaved) {
+      toldNotSaved = true;
+      actions.setStatus("info", REVIEW_NOT_SAVED);
+    }
+  }
 
   function poseOfSelection(state) {
     const target = selectedTarget(state);
@@ -90,6 +106,11 @@ export function createCellSync({ store, actions, api, linking }) {
   async function save() {
     saveTimer = null;
     if (saving || pending === null) {
+      return;
+    }
+    if (store.get().readOnly) {
+      pending = null;
+      notSaved();
       return;
     }
     const { name, pose } = pending;
@@ -140,7 +161,7 @@ export function createCellSync({ store, actions, api, linking }) {
         return;
       }
       pending = { name: target.name, pose: { position_mm: state.target.position_mm, rpy_deg: state.target.rpy_deg } };
-      store.update({ cellSave: { state: "unsaved", message: `${target.name} moved` } });
+      store.update({ cellSave: state.readOnly ? REVIEW_SAVE_STATE : { state: "unsaved", message: `${target.name} moved` } });
       scheduleSave();
     },
     { keys: ["target"] },
@@ -189,9 +210,13 @@ export function createCellSync({ store, actions, api, linking }) {
     await linking.loadRobot(document.robot, { cellActive: true, onLoaded });
   }
 
-  /** Move the robot's base (placement): saved into the cell at once. */
+  /** Move the robot's base (placement): saved into the cell at once; nothing is sent on a reviewer's page. */
   async function moveBase(edit) {
-    const { cell } = store.get();
+    const { cell, readOnly } = store.get();
+    if (readOnly) {
+      actions.setStatus("info", REVIEW_NOT_SAVED);
+      return;
+    }
     try {
       const document = await api.moveBase(edit, cell.etag);
       store.update({ cell: document, cellSave: { state: "saved", message: "Saved the base" } });

@@ -5,7 +5,7 @@
 // While the page shows the cell, requests carry the cell's robot base and
 // tool, so every pose is a world pose.
 
-import { createLatestChannel } from "./api.js";
+import { createLatestChannel, isRateLimited, retryDelayMs } from "./api.js";
 import { branchOf, followSolution, nearestSolution } from "./branches.js";
 
 function ikSummary(result) {
@@ -39,15 +39,50 @@ export function cellFrames(state) {
 }
 
 const FK_WHILE_DRAGGING_MS = 120;
+// A reviewer's page (readOnly) asks less often: the server caps a reviewer's
+// kinematics requests at 20 per second (api/auth.py, REVIEWER_CAPS["compute"]),
+// and IK every 80 ms with FK every 200 ms during a drag stays under it.
+const REVIEW_IK_MS = 80;
+const REVIEW_FK_MS = 80;
+const REVIEW_FK_WHILE_DRAGGING_MS = 200;
+
+function fkIntervalMs({ dragKind, readOnly }) {
+  if (dragKind === "target") {
+    return readOnly ? REVIEW_FK_WHILE_DRAGGING_MS : FK_WHILE_DRAGGING_MS;
+  }
+  return readOnly ? REVIEW_FK_MS : 16;
+}
 
 export function createLinking({ store, actions, api }) {
   let targetFromNextFk = false;
+  const retryTimers = { fk: null, ik: null };
+
+  /**
+   * A request refused with 429 (a reviewer over the server's rate cap): say so
+   * calmly and ask again for the page's current state after the Retry-After.
+   * Any other error goes to the status line.
+   */
+  function onRequestError(kind, askAgain) {
+    return (error) => {
+      if (!isRateLimited(error)) {
+        actions.setStatus("error", error.message);
+        return;
+      }
+      actions.setStatus("info", "Waiting for the server (a shared review asks it at a limited rate)…");
+      if (retryTimers[kind] === null) {
+        retryTimers[kind] = setTimeout(() => {
+          retryTimers[kind] = null;
+          askAgain(store.get());
+        }, retryDelayMs(error));
+      }
+    };
+  }
 
   // while a target is dragged, forward kinematics (the arm's drawing, margins) is
   // asked for at most every FK_WHILE_DRAGGING_MS: the inverse kinematics answers
   // the drag waits for then do not queue behind it
   const fkChannel = createLatestChannel({
-    minIntervalMs: () => (store.get().dragKind === "target" ? FK_WHILE_DRAGGING_MS : 16),
+    minIntervalMs: () => fkIntervalMs(store.get()),
     send: (payload, options) => api.fk(payload, options),
     onResult: (result, meta, payload) => {
       const fk = { ...result.configurations[0], capsules: result.capsules, frameNames: result.frame_names };
@@ -57,10 +92,11 @@ export function createLinking({ store, actions, api }) {
         actions.targetFromTool();
       }
     },
-    onError: (error) => actions.setStatus("error", error.message),
+    onError: onRequestError("fk", (state) => askFk(state)),
   });
 
   const ikChannel = createLatestChannel({
+    minIntervalMs: () => (store.get().readOnly ? REVIEW_IK_MS : 16),
     send: (payload, options) => api.ik(payload, options),
     onResult: (result, meta, payload) => {
       const state = store.get();
@@ -89,27 +125,26 @@ export function createLinking({ store, actions, api }) {
       store.update(patch, { reason: "ik" });
       actions.setStatus(summary.level, summary.message);
     },
-    onError: (error) => actions.setStatus("error", error.message),
+    onError: onRequestError("ik", (state) => askIk(state, state.targetInputAt)),
   });
 
-  store.subscribe(
-    (state) => {
-      if (state.robot && state.joints.length === state.robot.dof) {
-        fkChannel.request({ robot: state.robot.robot, joints_deg: state.joints, ...cellFrames(state) });
-      }
-    },
-    { keys: ["joints"] },
-  );
+  /** Ask for forward kinematics of the current joint values. */
+  function askFk(state) {
+    if (state.robot && state.joints.length === state.robot.dof) {
+      fkChannel.request({ robot: state.robot.robot, joints_deg: state.joints, ...cellFrames(state) });
+    }
+  }
 
-  store.subscribe(
-    (state) => {
-      if (state.robot && state.target) {
-        const payload = { robot: state.robot.robot, pose: state.target, seed_deg: state.joints, ...cellFrames(state) };
-        ikChannel.request(payload, { inputAt: state.targetInputAt });
-      }
-    },
-    { keys: ["target"] },
-  );
+  /** Ask for inverse kinematics of the current target. */
+  function askIk(state, inputAt) {
+    if (state.robot && state.target) {
+      const payload = { robot: state.robot.robot, pose: state.target, seed_deg: state.joints, ...cellFrames(state) };
+      ikChannel.request(payload, { inputAt });
+    }
+  }
+
+  store.subscribe(askFk, { keys: ["joints"] });
+  store.subscribe((state) => askIk(state, state.targetInputAt), { keys: ["target"] });
 
   /**
    * Load a robot. With `cellActive` the page shows the cell (its robot, base
@@ -123,13 +158,8 @@ export function createLinking({ store, actions, api }) {
       if (!state.cellActive || !state.robot || state.joints.length !== state.robot.dof) {
         return;
       }
-      fkChannel.request({ robot: state.robot.robot, joints_deg: state.joints, ...cellFrames(state) });
-      if (state.target) {
-        ikChannel.request(
-          { robot: state.robot.robot, pose: state.target, seed_deg: state.joints, ...cellFrames(state) },
-          { inputAt: performance.now() },
-        );
-      }
+      askFk(state);
+      askIk(state, performance.now());
     },
     { keys: ["cell"] },
   );

@@ -6,6 +6,7 @@ import { createCellSync } from "./cellsync.js";
 import { createLinking } from "./linking.js";
 import { createMaps } from "./maps.js";
 import { createPathCurve } from "./pathcurve.js";
+import { createJobPacer } from "./pacing.js";
 import { createReachSections } from "./reach.js";
 import { readPalette } from "./palette.js";
 import { createStore, initialState } from "./state.js";
@@ -33,9 +34,11 @@ async function start() {
   const palette = readPalette();
   const linking = createLinking({ store, actions, api });
   const cellSync = createCellSync({ store, actions, api, linking });
-  const maps = createMaps({ store, api, actions });
+  // the jobs the page starts by itself share one pacer (used on a reviewer's page)
+  const pacer = createJobPacer();
+  const maps = createMaps({ store, api, actions, pacer });
   createPathCurve({ store, api });
-  createReachSections({ store, api, actions });
+  createReachSections({ store, api, actions, pacer });
   const byId = (id) => document.getElementById(id);
 
   const showRobot = (spec) => {

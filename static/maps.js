@@ -4,10 +4,19 @@
 // debounced) when the mapped joints, the held joints or the cell change. No
 // map is started while a drag is in progress; the newest request replaces an
 // older one still running (which is cancelled).
+//
+// On a reviewer's page (readOnly) the server caps job starts, so maps wait
+// longer after a change and starts go through the page's job pacer
+// (pacing.js). A start the server still refuses (429) waits its Retry-After
+// and is tried once more; meanwhile, and if refused again, the map's job
+// state says it is waiting, calmly, instead of reporting an error.
 
-import { runJob } from "./api.js";
+import { isRateLimited, runJob } from "./api.js";
 
 const DEBOUNCE_MS = 350;
+const REVIEW_DEBOUNCE_MS = 1500;
+const POLL_MS = 150;
+const REVIEW_POLL_MS = 400;
 const HOLD_TOLERANCE = 0.05; // deg or mm: held joints closer than this count as unchanged
 export const RESOLUTION_2 = 96;
 export const RESOLUTION_3 = 24;
@@ -24,13 +33,14 @@ export function mapIsCurrent(map, { cell, joints }, chosen) {
 }
 
 /**
- * @param {{store: object, api: object, actions: object}} options
+ * @param {{store: object, api: object, actions: object, pacer: {delayMs: Function, take: Function}}} options
+ *   pacer: paces the starts of a reviewer's page (pacing.js); not used for the owner.
  * @returns {{cancel: (slot: "2d" | "3d") => void}}
  */
-export function createMaps({ store, api, actions }) {
+export function createMaps({ store, api, actions, pacer }) {
   const slots = {
-    "2d": { mapKey: "jointMap", jobKey: "jointMapJob", chosen: (s) => s.mapJoints, resolution: RESOLUTION_2, timer: null, running: null },
-    "3d": { mapKey: "jointMap3", jobKey: "jointMap3Job", chosen: (s) => s.map3Joints, resolution: RESOLUTION_3, timer: null, running: null },
+    "2d": { name: "Joint map", mapKey: "jointMap", jobKey: "jointMapJob", chosen: (s) => s.mapJoints, resolution: RESOLUTION_2, timer: null, running: null },
+    "3d": { name: "3D joint map", mapKey: "jointMap3", jobKey: "jointMap3Job", chosen: (s) => s.map3Joints, resolution: RESOLUTION_3, timer: null, running: null },
   };
 
   function wanted(slot, state) {
@@ -41,11 +51,24 @@ export function createMaps({ store, api, actions }) {
     );
   }
 
+  function waiting(slot, detail) {
+    store.update({ [slot.jobKey]: { state: "waiting", done: 0, total: 0, detail } });
+  }
+
   async function compute(slot) {
     slot.timer = null;
     const state = store.get();
     if (state.dragging || !wanted(slot, state)) {
       return;
+    }
+    if (state.readOnly) {
+      const delay = pacer.delayMs();
+      if (delay > 0) {
+        waiting(slot, `Waiting ${Math.ceil(delay / 1000)} s: a shared review starts few jobs at a time`);
+        slot.timer = setTimeout(() => compute(slot), delay);
+        return;
+      }
+      pacer.take();
     }
     if (slot.running) {
       slot.running.cancel();
@@ -54,6 +77,12 @@ export function createMaps({ store, api, actions }) {
     const handle = runJob({
       api,
       start: () => api.startJointMap(body),
+      pollMs: state.readOnly ? REVIEW_POLL_MS : POLL_MS,
+      onWait: ({ seconds }) => {
+        if (slot.running === handle) {
+          waiting(slot, `Waiting ${Math.ceil(seconds)} s: the server is busy with other jobs`);
+        }
+      },
       onProgress: (job) => {
         if (slot.running === handle) {
           store.update({ [slot.jobKey]: { state: job.state, done: job.done, total: job.total, detail: job.detail } });
@@ -71,13 +100,19 @@ export function createMaps({ store, api, actions }) {
         store.update({ [slot.mapKey]: job.result, [slot.jobKey]: null });
       } else if (job.state === "failed") {
         store.update({ [slot.jobKey]: { state: "failed", done: 0, total: 0, detail: job.detail } });
-        actions.setStatus("error", `Joint map: ${job.detail}`);
+        actions.setStatus("error", `${slot.name}: ${job.detail}`);
       }
     } catch (error) {
-      if (slot.running === handle) {
-        slot.running = null;
+      if (slot.running !== handle) {
+        return;
+      }
+      slot.running = null;
+      if (isRateLimited(error)) {
+        waiting(slot, "The server is busy: the map is computed again after the next change");
+        actions.setStatus("info", `${slot.name}: the server is busy; computed again after the next change`);
+      } else {
         store.update({ [slot.jobKey]: { state: "failed", done: 0, total: 0, detail: error.message } });
-        actions.setStatus("warn", `Joint map: ${error.message}`);
+        actions.setStatus("warn", `${slot.name}: ${error.message}`);
       }
     }
   }
@@ -86,7 +121,8 @@ export function createMaps({ store, api, actions }) {
     if (slot.timer !== null) {
       clearTimeout(slot.timer);
     }
-    slot.timer = setTimeout(() => compute(slot), DEBOUNCE_MS);
+    const delay = store.get().readOnly ? REVIEW_DEBOUNCE_MS : DEBOUNCE_MS;
+    slot.timer = setTimeout(() => compute(slot), delay);
   }
 
   store.subscribe(

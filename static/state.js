@@ -22,12 +22,14 @@
  *   stepDeg         nudge step for angles, deg
  *   snap            snap dragged positions to the step grid
  *   status          {level: "info" | "warn" | "error", message}
+ *   readOnly        a reviewer's page of a shared dashboard (review.js): nothing is saved into the cell
  *   cell            the server's cell (GET /api/cell answer: etag, robot, cell, scene) or null
  *   cellActive      the page shows the cell: its robot is loaded, poses are world poses
  *   selection       {kind: "target", name, path?} | {kind: "waypoint", path, index} | null
- *   cellSave        {state: "saved" | "unsaved" | "saving" | "conflict" | "error", message}
+ *   cellSave        {state: "saved" | "unsaved" | "saving" | "conflict" | "error" | "review", message}
  *   jointMap        finished two-joint map (JointMapResult) or null
- *   jointMapJob     {state, done, total, detail} of the two-joint map being computed, or null
+ *   jointMapJob     {state, done, total, detail} of the two-joint map being computed (state
+ *                   "waiting" while its start waits for the server), or null
  *   map3Joints      [i, j, k]: joints of the 3D joint-space view
  *   jointMap3       finished three-joint map or null
  *   jointMap3Job    like jointMapJob, for the three-joint map
@@ -60,6 +62,7 @@ export function initialState() {
     stepDeg: 5,
     snap: false,
     status: { level: "info", message: "Loading…" },
+    readOnly: false,
     cell: null,
     cellActive: false,
     selection: null,

@@ -2,7 +2,9 @@
 // progress and cancel), show the score over the x–y grid for a chosen yaw and
 // pedestal height (or the best over all yaws), and the ranked candidates.
 // Clicking a candidate or a grid cell moves the robot's base there: the cell
-// is edited and saved, and both halves follow.
+// is edited and saved, and both halves follow. The candidates carry
+// `data-edits-cell` (review.js disables them for reviewers; the search itself
+// changes nothing and stays open to them).
 
 /* global Plotly */
 
@@ -174,7 +176,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     }
     list.replaceChildren(
       ...placement.best.map((candidate) => {
-        const item = element("li", { attributes: { tabindex: "0", "data-rank": String(candidate.rank) } }, [
+        const item = element("li", { attributes: { tabindex: "0", "data-rank": String(candidate.rank), "data-edits-cell": "", title: "Move the base here" } }, [
           `x ${formatNumber(candidate.x_mm, { decimals: 0 })}, y ${formatNumber(candidate.y_mm, { decimals: 0 })} mm, yaw ${formatNumber(candidate.yaw_deg, { decimals: 0 })} deg: `,
           element("strong", { text: `score ${formatNumber(candidate.score, { decimals: 3 })}` }),
           ` — ${candidate.targets_reached} of ${placement.targets.length} targets on ${candidate.branch || "no branch"}`,

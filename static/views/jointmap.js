@@ -386,10 +386,15 @@ export function createJointMapView({ element, base, note, legend, header, progre
 
   function renderProgress() {
     const job = store.get().jointMapJob;
-    const busy = job && (job.state === "queued" || job.state === "running");
+    const waiting = Boolean(job) && job.state === "waiting";
+    const busy = Boolean(job) && (job.state === "queued" || job.state === "running" || waiting);
     // kept in the layout (only made invisible), so the map below never jumps
     progress.style.visibility = busy ? "visible" : "hidden";
-    if (busy) {
+    progress.dataset.state = busy ? job.state : "";
+    bar.hidden = waiting;
+    if (waiting) {
+      barText.textContent = job.detail;
+    } else if (busy) {
       bar.value = job.total ? job.done / job.total : 0;
       barText.textContent = job.total ? `Computing the map: ${job.done} of ${job.total} parts` : "Computing the map…";
     }

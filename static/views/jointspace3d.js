@@ -213,9 +213,25 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
     note.textContent = map
       ? `Points are colliding cells of a ${map.shape.join(" × ")} grid (self collision not shown), a slice with ${others.join(", ")} held at the current values.`
       : state.cellActive
-        ? "The obstacle region is being computed."
+        ? computingText(state)
         : "Obstacle regions are shown for the cell's robot.";
   }
+
+  /** What the note says while the map is missing: being computed, or waiting for the server. */
+  function computingText(state) {
+    const job = state.jointMap3Job;
+    return job && job.state === "waiting" ? job.detail : "The obstacle region is being computed.";
+  }
+
+  // the waiting text changes the note alone: the figure is not drawn again for it
+  store.subscribe(
+    (state) => {
+      if (state.cellActive && state.map3Joints && !currentMap(state)) {
+        note.textContent = computingText(state);
+      }
+    },
+    { keys: ["jointMap3Job"] },
+  );
 
   // like the Cartesian 3D view, not redrawn during a drag; once when it ends
   const requestRender = frameScheduler({

@@ -2,27 +2,75 @@
 
 A dashboard shared for review runs on loopback; the reviewer opens the
 review link (the token in the query), the owner opens the plain address.
-Expectations are our own contract (posebridge.api.auth module docstring).
+Expectations are our own contract (posebridge.api.auth module docstring:
+reviewers change nothing, costly requests are rate-capped with 429 and
+Retry-After, RFC 9110 sec. 10.2.3). IK answers shown on the page are compared
+with the server's own answer for the same pose, checked against pinocchio in
+tests/api/test_kinematics.py.
 """
 
 from __future__ import annotations
 
 import hashlib
+import json
 import shutil
 from collections.abc import Iterator
+from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 import httpx
+import numpy as np
 import pytest
 
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
+from posebridge.bench.drag import plan_marker_position
 from posebridge.resources import data_folder
 from posebridge.review.access import new_review_token
 
 _TIMEOUT_MS = 60_000
 _READY = "() => document.body.dataset.review !== undefined"
+_STATE = "() => window.posebridge.getState()"
+_NOT_SAVED = "review mode: changes are not saved"
+_WRITES = ("PUT", "PATCH", "DELETE")
+
+# FK answered for the joints and IK for the target (as conftest's settled check)
+_SETTLED = """() => {
+  const s = window.posebridge && window.posebridge.getState();
+  if (!s || !s.fk || !s.ik || !s.target) return false;
+  const a = s.ik.target.position_mm, b = s.target.position_mm;
+  return a.every((v, k) => v === b[k]) && s.fkJoints === s.joints;
+}"""
+
+# both joint maps describe the current cell, joints and held values (maps.js mapIsCurrent)
+_MAPS_CURRENT = """() => {
+  const s = window.posebridge.getState();
+  const current = (m, chosen) => Boolean(m && s.cell && m.cell_etag === s.cell.etag &&
+    chosen.every((j, k) => m.joints[k] === j) &&
+    s.joints.every((v, i) => chosen.includes(i) || Math.abs(v - m.hold_deg[i]) <= 0.05));
+  return current(s.jointMap, s.mapJoints) && current(s.jointMap3, s.map3Joints);
+}"""
+
+# every change of the status line from the page's start, as [level, text], repeats folded
+_WATCH_STATUS = """document.addEventListener("DOMContentLoaded", () => {
+  const status = document.getElementById("status");
+  window.statusLog = [];
+  const note = () => {
+    const entry = [status.dataset.level, status.textContent];
+    const last = window.statusLog[window.statusLog.length - 1];
+    if (!last || last[0] !== entry[0] || last[1] !== entry[1]) window.statusLog.push(entry);
+  };
+  new MutationObserver(note).observe(status, {
+    childList: true, characterData: true, subtree: true, attributes: true,
+  });
+});"""
+
+_MAP_MARKERS = """() => document.getElementById("joint-map").data
+  .filter((trace) => trace.meta && trace.meta.role === "ik-solutions")
+  .flatMap((trace) => trace.x.map((x, k) => [x, trace.y[k]]))"""
+
+_TARGET_FIELDS = [f"#target-{name}" for name in ("x", "y", "z", "roll", "pitch", "yaw")]
 
 
 @pytest.fixture(scope="module")
@@ -35,8 +83,86 @@ def shared(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, str,
         yield url, token, cell
 
 
+@pytest.fixture
+def fresh_shared(tmp_path: Path) -> Iterator[tuple[str, str, Path]]:
+    """Like ``shared``, with rate caps of its own: a server per test, so the
+    reviewer's job budget is not spent by earlier tests (all come from 127.0.0.1)."""
+    cell = tmp_path / "demo-cell.json"
+    shutil.copy(data_folder("robots") / "demo-cell.json", cell)
+    token = new_review_token()
+    with background_server(Settings(cell_path=cell), review_token=token) as url:
+        yield url, token, cell
+
+
 def _digest(path: Path) -> str:
     return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+@dataclass
+class _Seen:
+    """What a reviewer's page did: console errors, page errors, requests and refusals."""
+
+    console_errors: list[str] = field(default_factory=list)
+    page_errors: list[str] = field(default_factory=list)
+    requests: list[tuple[str, str]] = field(default_factory=list)
+    statuses: list[tuple[int, str]] = field(default_factory=list)
+
+    def writes(self) -> list[tuple[str, str]]:
+        return [(method, url) for method, url in self.requests if method in _WRITES]
+
+    def refused(self, status: int) -> list[str]:
+        return [url for code, url in self.statuses if code == status]
+
+
+def _open_reviewer(
+    browser: Any, url: str, token: str, prepare: Any = None
+) -> tuple[Any, Any, _Seen]:
+    """A reviewer's page on the review link, watched from its first request; `prepare(page)`
+    runs before it loads (routes). Waits for FK and IK of the opening pose."""
+    context = browser.new_context(viewport={"width": 1600, "height": 1250})
+    context.add_init_script(_WATCH_STATUS)
+    page = context.new_page()
+    seen = _Seen()
+    page.on("console", lambda m: seen.console_errors.append(m.text) if m.type == "error" else None)
+    page.on("pageerror", lambda error: seen.page_errors.append(str(error)))
+    page.on("request", lambda r: seen.requests.append((r.method, r.url)))
+    page.on("response", lambda r: seen.statuses.append((r.status, r.url)))
+    if prepare is not None:
+        prepare(page)
+    page.goto(f"{url}?token={token}")
+    page.wait_for_function(_READY, timeout=_TIMEOUT_MS)
+    page.wait_for_function(_SETTLED, timeout=_TIMEOUT_MS)
+    return context, page, seen
+
+
+def _drag_target(page: Any, dx: float, dy: float) -> list[float]:
+    """Drag the plan view's target marker by (dx, dy) pixels; returns the target position
+    once the page has the IK answer for it."""
+    start = page.evaluate(_STATE)["target"]["position_mm"]
+    x0, y0 = plan_marker_position(page)
+    page.mouse.move(x0, y0)
+    page.mouse.down()
+    page.mouse.move(x0 + dx, y0 + dy, steps=6)
+    page.mouse.up()
+    page.wait_for_function(
+        "(start) => { const s = window.posebridge.getState();"
+        " return !s.dragging && s.target.position_mm.some((v, k) => v !== start[k]); }",
+        arg=start,
+        timeout=_TIMEOUT_MS,
+    )
+    page.wait_for_function(_SETTLED, timeout=_TIMEOUT_MS)
+    position: list[float] = page.evaluate(_STATE)["target"]["position_mm"]
+    return position
+
+
+def _cell_frames(url: str) -> dict[str, Any]:
+    """The cell's robot base and tool, as the page sends them with IK requests."""
+    scene = httpx.get(url + "api/cell", timeout=30).json()["scene"]
+    return {key: {k: scene[key][k] for k in ("position_mm", "rpy_deg")} for key in ("base", "tool")}
+
+
+def _sorted_pairs(pairs: list[list[float]]) -> np.ndarray:
+    return np.array(sorted((round(a, 6), round(b, 6)) for a, b in pairs))
 
 
 def _open(browser: Any, url: str) -> tuple[Any, Any, list[str]]:
@@ -81,7 +207,7 @@ def test_reviewer_page_is_read_only(
         page.mouse.move(cx + 60, cy + 40, steps=8)
         page.mouse.up()
         page.wait_for_timeout(1500)
-        assert all(status == 403 for method, _, status in writes), writes
+        assert writes == []  # the page itself sends no change
         # a save attempted from the page itself is refused too
         status = page.evaluate(
             """async () => {
@@ -140,3 +266,185 @@ def test_owner_page_is_not_read_only(
     finally:
         context.close()
     assert errors == []
+
+
+def test_reviewer_drag_shows_ik_saves_nothing(
+    browser: Any, artifacts: Path, fresh_shared: tuple[str, str, Path]
+) -> None:
+    url, token, cell = fresh_shared
+    before = cell.read_bytes()
+    context, page, seen = _open_reviewer(browser, url, token)
+    try:
+        page.wait_for_function(_MAPS_CURRENT, timeout=_TIMEOUT_MS)
+        name = page.evaluate(_STATE)["selection"]["name"]
+        start = page.evaluate(_STATE)["target"]["position_mm"]
+
+        moved = _drag_target(page, -10, -6)
+        # left and up on the plan view: x smaller, y larger (screen axes, common practice)
+        assert moved[0] < start[0] and moved[1] > start[1]
+        state = page.evaluate(_STATE)
+        assert state["readOnly"] is True
+        # the IK markers on the joint map are the server's answer for the dragged pose
+        # (the owner asks the same question here; IK itself is checked in tests/api)
+        answer = httpx.post(
+            url + "api/ik",
+            json={"robot": state["robot"]["robot"], "pose": state["target"], **_cell_frames(url)},
+            timeout=30,
+        ).json()
+        a, b = state["mapJoints"]
+        expected = [[s["joints_deg"][a], s["joints_deg"][b]] for s in answer["solutions"]]
+        assert expected, answer["reason"]
+        np.testing.assert_allclose(
+            _sorted_pairs(page.evaluate(_MAP_MARKERS)), _sorted_pairs(expected), atol=1e-6
+        )
+        page.wait_for_timeout(1000)  # past the page's save delay (400 ms after a drag)
+
+        _drag_target(page, 12, 8)  # a second move: the note is not repeated
+        page.wait_for_timeout(1000)
+        page.wait_for_function(_MAPS_CURRENT, timeout=_TIMEOUT_MS)  # maps follow, paced
+        statuses = page.evaluate("window.statusLog")
+        notes = [entry for entry in statuses if entry[1] == _NOT_SAVED]
+        assert notes == [["info", _NOT_SAVED]], statuses
+        assert all(level != "error" for level, _ in statuses), statuses
+        assert page.get_attribute("#cell-save", "data-state") == "review"
+        page.screenshot(path=str(artifacts / "review-reviewer-drag.png"), full_page=True)
+    finally:
+        context.close()
+    assert seen.writes() == []
+    assert cell.read_bytes() == before
+    # the server still has the target where the file has it
+    saved = next(t for t in json.loads(before)["targets"] if t["name"] == name)
+    served = httpx.get(url + "api/cell", timeout=30).json()["cell"]
+    kept = next(t for t in served["targets"] if t["name"] == name)
+    assert [kept["position_mm"], kept["rpy_deg"]] == [saved["position_mm"], saved["rpy_deg"]]
+    assert seen.refused(429) == []  # normal use stays within the reviewer's caps
+    assert seen.console_errors == []
+    assert seen.page_errors == []
+
+
+def test_reviewer_edit_controls_disabled(
+    browser: Any, artifacts: Path, fresh_shared: tuple[str, str, Path]
+) -> None:
+    url, token, cell = fresh_shared
+    before = cell.read_bytes()
+    context, page, seen = _open_reviewer(browser, url, token)
+    try:
+        # a cell target is selected: typed values and "Target <- tool" would move it
+        for control in [*_TARGET_FIELDS, "#target-from-tool"]:
+            assert page.locator(control).is_disabled(), control
+        # looking around, checks and comments stay open
+        for control in [
+            "#follow",
+            "#snap",
+            "#show-reach",
+            "#place-run",
+            "#path-check",
+            "#pose-check",
+            "#joint-slider-0",
+            "#comment-send",
+        ]:
+            assert page.locator(control).is_enabled(), control
+        # an approach waypoint is no cell target: its typed values stay on the page
+        page.click("#cell-waypoint-pick-from-rack-1")
+        page.wait_for_function(
+            "() => !document.querySelector('#target-x').disabled", timeout=_TIMEOUT_MS
+        )
+        assert all(page.locator(c).is_enabled() for c in _TARGET_FIELDS)
+        page.click("#cell-target-rack-low-2")
+        page.wait_for_function(
+            "() => document.querySelector('#target-x').disabled", timeout=_TIMEOUT_MS
+        )
+        page.wait_for_function(_SETTLED, timeout=_TIMEOUT_MS)
+        page.wait_for_function(_MAPS_CURRENT, timeout=_TIMEOUT_MS)
+
+        # base placement: the search is open to reviewers, moving the base is not
+        page.fill("#place-width", "300")
+        page.fill("#place-count", "3")
+        page.fill("#place-yaws", "2")
+        page.click("#place-run")
+        page.wait_for_function("() => window.posebridge.getState().placement", timeout=_TIMEOUT_MS)
+        candidates = page.locator("#place-candidates li")
+        assert candidates.count() > 0
+        for k in range(candidates.count()):
+            assert candidates.nth(k).get_attribute("aria-disabled") == "true"
+        # a click that reaches the item anyway (keyboard, assistive tools) saves nothing
+        candidates.first.dispatch_event("click")
+        page.wait_for_function(
+            f"() => document.getElementById('status').textContent === {json.dumps(_NOT_SAVED)}",
+            timeout=_TIMEOUT_MS,
+        )
+        assert page.get_attribute("#status", "data-level") == "info"
+        page.wait_for_timeout(500)
+        page.screenshot(path=str(artifacts / "review-reviewer-controls.png"), full_page=True)
+    finally:
+        context.close()
+    assert seen.writes() == []
+    assert cell.read_bytes() == before
+    assert seen.refused(429) == []
+    assert seen.console_errors == []
+    assert seen.page_errors == []
+
+
+def test_reviewer_reach_sections(browser: Any, fresh_shared: tuple[str, str, Path]) -> None:
+    url, token, _ = fresh_shared
+    context, page, seen = _open_reviewer(browser, url, token)
+    try:
+        page.check("#show-reach")
+        page.wait_for_function(
+            "() => { const s = window.posebridge.getState(); return s.reachPlan && s.reachElevation; }",
+            timeout=_TIMEOUT_MS,
+        )
+        state = page.evaluate(_STATE)
+        # each section is the slice through the target: plan at its z, elevation at its y
+        assert state["reachPlan"]["requested_mm"] == state["target"]["position_mm"][2]
+        assert state["reachElevation"]["requested_mm"] == state["target"]["position_mm"][1]
+        assert page.get_attribute("#status", "data-level") != "error"
+    finally:
+        context.close()
+    assert seen.refused(403) == [] and seen.refused(429) == []
+    assert seen.console_errors == []
+    assert seen.page_errors == []
+
+
+def test_reviewer_map_waits_after_429(browser: Any, fresh_shared: tuple[str, str, Path]) -> None:
+    url, token, _ = fresh_shared
+    starts: list[Any] = []
+
+    def refuse_first_map(route: Any) -> None:
+        body = route.request.post_data_json or {}
+        if body.get("resolution") != 96:  # the 3D map goes through
+            route.continue_()
+            return
+        starts.append(route.request)
+        if len(starts) == 1:  # the two-joint map's first start: refused as over the cap
+            route.fulfill(
+                status=429,
+                headers={"Retry-After": "2", "content-type": "application/json"},
+                body=json.dumps({"detail": "too many heavy requests from this address"}),
+            )
+        else:
+            route.continue_()
+
+    context, page, seen = _open_reviewer(
+        browser, url, token, prepare=lambda p: p.route("**/api/maps/joint", refuse_first_map)
+    )
+    try:
+        row = page.locator("#map-progress-row")
+        page.wait_for_function(
+            "() => { const j = window.posebridge.getState().jointMapJob;"
+            " return Boolean(j && j.state === 'waiting'); }",
+            timeout=_TIMEOUT_MS,
+        )
+        assert "Waiting 2 s" in row.inner_text()
+        page.wait_for_function(_MAPS_CURRENT, timeout=_TIMEOUT_MS)
+        statuses = page.evaluate("window.statusLog")
+    finally:
+        context.close()
+    # tried exactly once more, no sooner than Retry-After (2 s) after the refusal
+    assert len(starts) == 2
+    first, second = (request.timing["startTime"] for request in starts)
+    assert second - first >= 2000 - 50
+    assert all(level != "error" for level, _ in statuses), statuses
+    # the only console lines are the browser's own notes of the refused request
+    assert all("429" in line for line in seen.console_errors), seen.console_errors
+    assert seen.page_errors == []
