@@ -545,9 +545,10 @@ def _cmd_schema(args: argparse.Namespace) -> int:
 
 
 def _cmd_serve(args: argparse.Namespace) -> int:
-    from posebridge.api.server import run_server
+    from posebridge.api.server import check_host, run_server
     from posebridge.resources import demo_working_folder
 
+    check_host(args.host, share=args.share)
     if args.cell:
         cell_path = Path(args.cell)
     else:

@@ -36,7 +36,7 @@ def test_run_server_non_loopback_refused() -> None:
         run_server("0.0.0.0", 0)
     assert str(caught.value) == (
         "host: '0.0.0.0' is not a loopback address; the dashboard would be reachable from other "
-        "machines. Use 127.0.0.1 (default), or pass share to serve it on purpose"
+        "machines. Use 127.0.0.1 (default), or --share to serve a read-only review on purpose"
     )
 
 

@@ -23,7 +23,7 @@ from posebridge.api.auth import enable_review_sharing
 from posebridge.api.settings import Settings
 from posebridge.review.access import new_review_token, review_link
 
-__all__ = ["ServerConfigError", "background_server", "is_loopback", "run_server"]
+__all__ = ["ServerConfigError", "background_server", "check_host", "is_loopback", "run_server"]
 
 _START_TIMEOUT_S = 60.0
 
@@ -83,6 +83,20 @@ def _review_base_url(host: str, sock: socket.socket) -> str:
     return _url(host, sock)
 
 
+def check_host(host: str, *, share: bool) -> None:
+    """Refuse a non-loopback ``host`` unless the dashboard is shared on purpose.
+
+    Raises
+    ------
+    ServerConfigError
+    """
+    if not share and not is_loopback(host):
+        raise ServerConfigError(
+            f"host: {host!r} is not a loopback address; the dashboard would be reachable from "
+            "other machines. Use 127.0.0.1 (default), or --share to serve a read-only review on purpose"
+        )
+
+
 def run_server(
     host: str = "127.0.0.1",
     port: int = 8000,
@@ -117,11 +131,7 @@ def run_server(
         Non-loopback host without ``share``, missing cell file, or the
         address cannot be bound.
     """
-    if not share and not is_loopback(host):
-        raise ServerConfigError(
-            f"host: {host!r} is not a loopback address; the dashboard would be reachable from "
-            "other machines. Use 127.0.0.1 (default), or pass share to serve it on purpose"
-        )
+    check_host(host, share=share)
     if cell_path is not None and not Path(cell_path).is_file():
         raise ServerConfigError(f"cell: no such file {str(cell_path)!r}")
     settings = Settings(robot=robot, cell_path=cell_path, robot_paths_allowed=not share)
