@@ -8,7 +8,7 @@ from collections.abc import Callable
 __all__ = ["best_seconds", "median_seconds_per_call"]
 
 
-def best_seconds(run: Callable[[], object], *, repeats: int = 3) -> float:
+def best_seconds(run: Callable[[], object], *, repeats: int = 5) -> float:
     """Best wall time of ``repeats`` runs after one untimed warm-up run, in seconds.
 
     The best of several runs is the figure least disturbed by other load on a
