@@ -573,11 +573,12 @@ def test_run_server_share_prints_review_link_once(
     class NotServing:
         def __init__(self, review_token: str | None) -> None:
             self.review_token = review_token
+            self.started = False
+            self.should_exit = False
 
         def run(self, sockets: list[Any]) -> None:
             started.append(self.review_token)
-            for sock in sockets:
-                sock.close()
+            self.started = True
 
     monkeypatch.setattr(
         server, "_uvicorn_server", lambda settings, log_level, token=None: NotServing(token)

@@ -137,6 +137,13 @@ def run_server(
     settings = Settings(robot=robot, cell_path=cell_path, robot_paths_allowed=not share)
     review_token = new_review_token() if share else None
     sock = _bind(host, port)
+    print(
+        "posebridge is starting: loading its numerical kernels "
+        "(about a minute on the first start after installing, a second afterwards) ...",
+        flush=True,
+    )
+    server = _uvicorn_server(settings, log_level, review_token)
+    thread = _start_in_thread(server, sock, timeout_s=None)
     print(f"posebridge is serving on {_url(host, sock)}  (Ctrl+C stops it)", flush=True)
     if review_token is not None:
         print(
@@ -145,7 +152,38 @@ def run_server(
             flush=True,
         )
         print(f"  {review_link(_review_base_url(host, sock), review_token)}", flush=True)
-    _uvicorn_server(settings, log_level, review_token).run(sockets=[sock])
+    try:
+        while thread.is_alive():
+            thread.join(0.5)
+    except KeyboardInterrupt:
+        server.should_exit = True
+        thread.join(timeout=10)
+    finally:
+        sock.close()
+
+
+def _start_in_thread(
+    server: uvicorn.Server, sock: socket.socket, *, timeout_s: float | None
+) -> threading.Thread:
+    """Run ``server`` on ``sock`` in a daemon thread and wait until it accepts requests.
+
+    Raises
+    ------
+    ServerConfigError
+        The server stopped before it started, or did not start within ``timeout_s``.
+    """
+    thread = threading.Thread(
+        target=server.run, kwargs={"sockets": [sock]}, name="posebridge-server", daemon=True
+    )
+    thread.start()
+    waited = 0.0
+    while not server.started:
+        if not thread.is_alive() or (timeout_s is not None and waited > timeout_s):
+            server.should_exit = True
+            raise ServerConfigError("the server did not start (see the messages above)")
+        thread.join(0.05)
+        waited += 0.05
+    return thread
 
 
 @contextmanager
@@ -166,19 +204,12 @@ def background_server(
         raise ServerConfigError(f"host: background servers bind loopback only, got {host!r}")
     sock = _bind(host, 0)
     server = _uvicorn_server(settings or Settings(), "warning", review_token)
-    thread = threading.Thread(
-        target=server.run, kwargs={"sockets": [sock]}, name="posebridge-server", daemon=True
-    )
-    thread.start()
     try:
-        waited = 0.0
-        while not server.started:
-            if not thread.is_alive() or waited > _START_TIMEOUT_S:
-                raise ServerConfigError("the background server did not start")
-            thread.join(0.05)
-            waited += 0.05
-        yield _url(host, sock)
+        thread = _start_in_thread(server, sock, timeout_s=_START_TIMEOUT_S)
+        try:
+            yield _url(host, sock)
+        finally:
+            server.should_exit = True
+            thread.join(timeout=10)
     finally:
-        server.should_exit = True
-        thread.join(timeout=10)
         sock.close()
