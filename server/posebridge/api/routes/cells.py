@@ -8,6 +8,7 @@ overwrite each other silently. A missing ``If-Match`` gets 428.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Annotated
 
 import numpy as np
@@ -34,7 +35,7 @@ from posebridge.transforms import (
 )
 from posebridge.units import m_from_mm, mm_from_m
 
-__all__ = ["cell_robot_spec", "router"]
+__all__ = ["cell_robot_spec", "index_of_named", "router"]
 
 router = APIRouter(prefix="/api/cell", tags=["cell"])
 
@@ -91,6 +92,18 @@ def _conflict(error: CellConflictError) -> HTTPException:
     )
 
 
+def _saved(
+    save: Callable[[], CellSnapshot], robots: RobotCache, response: Response
+) -> CellDocument:
+    """Run ``save`` (a version-checked change of the cell store) and answer with the saved
+    cell; 412 when the cell has another content version now."""
+    try:
+        snapshot = save()
+    except CellConflictError as error:
+        raise _conflict(error) from error
+    return _answer(snapshot, robots, response)
+
+
 @router.get("", summary="Read the cell", responses=error_responses(422))
 def read_cell(cells: CellsDep, robots: RobotsDep, response: Response) -> CellDocument:
     """The cell file content, its content version (also the ETag header) and its drawing."""
@@ -103,11 +116,7 @@ def replace_cell(
 ) -> CellDocument:
     """Replace the whole cell; saved atomically with a .bak of the previous file."""
     expected = _expected_etag(if_match)
-    try:
-        snapshot = cells.replace(cell, expected)
-    except CellConflictError as error:
-        raise _conflict(error) from error
-    return _answer(snapshot, robots, response)
+    return _saved(lambda: cells.replace(cell, expected), robots, response)
 
 
 def _moved(position_mm: list[float] | None, rpy_deg: list[float] | None) -> dict[str, object]:
@@ -140,8 +149,12 @@ def _target_in_fixture(scene: Scene, target: Target, edit: TargetEdit) -> dict[s
     }
 
 
-def _unknown(kind: str, name: str) -> HTTPException:
-    return HTTPException(status_code=404, detail=f"{kind}: no {kind} named {name!r} in the cell")
+def index_of_named(kind: str, names: list[str], name: str) -> int:
+    """Index of ``name`` in ``names``, the names of the cell's items of one ``kind``
+    (target, fixture, path); 404 when the cell has none of that name."""
+    if name not in names:
+        raise HTTPException(status_code=404, detail=f"{kind}: no {kind} named {name!r} in the cell")
+    return names.index(name)
 
 
 @router.patch("/targets/{name}", summary="Move a target", responses=_CHANGE_ERRORS)
@@ -156,10 +169,7 @@ def move_target(
     """New tool pose of one target, given in the world (default) or in its fixture's frame."""
     expected = _expected_etag(if_match)
     current = cells.read()
-    names = [target.name for target in current.cell.targets]
-    if name not in names:
-        raise _unknown("target", name)
-    index = names.index(name)
+    index = index_of_named("target", [target.name for target in current.cell.targets], name)
     update = _target_in_fixture(current.scene, current.cell.targets[index], edit)
 
     def change(cell: Cell) -> Cell:
@@ -167,11 +177,7 @@ def move_target(
         targets[index] = targets[index].model_copy(update=update)
         return cell.model_copy(update={"targets": targets})
 
-    try:
-        snapshot = cells.edit(change, expected)
-    except CellConflictError as error:
-        raise _conflict(error) from error
-    return _answer(snapshot, robots, response)
+    return _saved(lambda: cells.edit(change, expected), robots, response)
 
 
 @router.patch("/fixtures/{name}", summary="Move a fixture", responses=_CHANGE_ERRORS)
@@ -185,10 +191,9 @@ def move_fixture(
 ) -> CellDocument:
     """New pose of one fixture in its parent's frame (the world without a parent); its children and targets move with it."""
     expected = _expected_etag(if_match)
-    names = [fixture.name for fixture in cells.read().cell.fixtures]
-    if name not in names:
-        raise _unknown("fixture", name)
-    index = names.index(name)
+    index = index_of_named(
+        "fixture", [fixture.name for fixture in cells.read().cell.fixtures], name
+    )
     update = _moved(edit.position_mm, edit.rpy_deg)
 
     def change(cell: Cell) -> Cell:
@@ -196,11 +201,7 @@ def move_fixture(
         fixtures[index] = fixtures[index].model_copy(update=update)
         return cell.model_copy(update={"fixtures": fixtures})
 
-    try:
-        snapshot = cells.edit(change, expected)
-    except CellConflictError as error:
-        raise _conflict(error) from error
-    return _answer(snapshot, robots, response)
+    return _saved(lambda: cells.edit(change, expected), robots, response)
 
 
 @router.patch("/base", summary="Move the robot base", responses=error_responses(412, 422, 428))
@@ -216,8 +217,4 @@ def move_base(
     def change(cell: Cell) -> Cell:
         return cell.model_copy(update={"base": cell.base.model_copy(update=update)})
 
-    try:
-        snapshot = cells.edit(change, expected)
-    except CellConflictError as error:
-        raise _conflict(error) from error
-    return _answer(snapshot, robots, response)
+    return _saved(lambda: cells.edit(change, expected), robots, response)

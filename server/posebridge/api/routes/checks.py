@@ -11,6 +11,7 @@ from typing import Annotated
 from fastapi import APIRouter, HTTPException, Path
 
 from posebridge.api.deps import CellsDep
+from posebridge.api.routes.cells import index_of_named
 from posebridge.api.schemas.checks import (
     MAX_LOG_ROWS,
     LogDiagnosisRequest,
@@ -46,10 +47,7 @@ def read_path_check(
     """Sampled check of every segment (reach, continuity, limits, singularities, clearance,
     speed) with the cycle time per segment; findings tied to segment and position."""
     scene = cells.read().scene
-    names = [path.name for path in scene.paths]
-    if name not in names:
-        raise HTTPException(status_code=404, detail=f"path: no path named {name!r} in the cell")
-    return check_path(scene, names.index(name))
+    return check_path(scene, index_of_named("path", [path.name for path in scene.paths], name))
 
 
 @router.post("/diagnose/pose", summary="Diagnose one pose", responses=error_responses(422))
