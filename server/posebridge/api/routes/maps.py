@@ -9,7 +9,7 @@ import numpy as np
 from fastapi import APIRouter, HTTPException, Request
 
 from posebridge.api.deps import CellsDep, JobsDep
-from posebridge.api.jobs import JobLimitError
+from posebridge.api.jobs import JobLimitError, JobManager, JobWork
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.jobs import JobStatus, job_status
 from posebridge.api.schemas.kinematics import joints_si_from_request
@@ -33,7 +33,7 @@ from posebridge.spaces.workspace import (
 )
 from posebridge.units import m_from_mm
 
-__all__ = ["client_key", "router", "started"]
+__all__ = ["client_key", "router", "start_job", "started"]
 
 router = APIRouter(prefix="/api/maps", tags=["maps"])
 
@@ -46,6 +46,16 @@ def client_key(request: Request) -> str:
 def started(error: JobLimitError) -> HTTPException:
     """The 429 answer of a refused job start."""
     return HTTPException(status_code=429, detail=f"jobs: {error}", headers={"Retry-After": "5"})
+
+
+def start_job(jobs: JobManager, kind: str, request: Request, work: JobWork) -> JobStatus:
+    """Queue ``work`` as a job of the asking client and answer with its status (429 when
+    the client has too many jobs or started too many lately)."""
+    try:
+        job = jobs.start(kind, client_key(request), work)
+    except JobLimitError as error:
+        raise started(error) from error
+    return job_status(job)
 
 
 @router.post(
@@ -92,11 +102,7 @@ def start_joint_map(
         )
         return joint_map_result(computed, robot, snapshot.etag)
 
-    try:
-        job = jobs.start("joint-map", client_key(request), work)
-    except JobLimitError as error:
-        raise started(error) from error
-    return job_status(job)
+    return start_job(jobs, "joint-map", request, work)
 
 
 @router.post(
@@ -147,8 +153,4 @@ def start_reach_section(
         section = reach_section(computed, axis=body.axis, value_m=value)
         return reach_section_result(section, tool_directions().shape[0], snapshot.etag)
 
-    try:
-        job = jobs.start("reach-section", client_key(request), work)
-    except JobLimitError as error:
-        raise started(error) from error
-    return job_status(job)
+    return start_job(jobs, "reach-section", request, work)

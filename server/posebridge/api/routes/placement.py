@@ -8,11 +8,10 @@ from collections.abc import Callable
 from fastapi import APIRouter, HTTPException, Request
 
 from posebridge.api.deps import CellsDep, JobsDep
-from posebridge.api.jobs import JobLimitError
-from posebridge.api.routes.maps import client_key, started
+from posebridge.api.routes.maps import start_job
 from posebridge.api.schemas.checks import MAX_PLACEMENT_CANDIDATES, PlacementRequest
 from posebridge.api.schemas.errors import error_responses
-from posebridge.api.schemas.jobs import JobStatus, job_status
+from posebridge.api.schemas.jobs import JobStatus
 from posebridge.planning.placement import PlacementGrid, search_base_placement
 from posebridge.planning.reports import PlacementReport
 
@@ -67,8 +66,4 @@ def start_placement(
             clearance_goal_mm=max(body.clearance_goal_mm, body.collision_margin_mm),
         ).report
 
-    try:
-        job = jobs.start("placement", client_key(request), work)
-    except JobLimitError as error:
-        raise started(error) from error
-    return job_status(job)
+    return start_job(jobs, "placement", request, work)
