@@ -16,11 +16,16 @@ import sys
 import traceback
 from collections.abc import Callable, Sequence
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
-from posebridge.units import FloatArray
+from posebridge.units import FloatArray, joints_si_from_user
+
+if TYPE_CHECKING:
+    from pydantic import BaseModel
+
+    from posebridge.robot.model import Robot
 
 __all__ = ["main"]
 
@@ -60,6 +65,11 @@ def _parse_numbers(text: str, what: str, count: int | None = None) -> list[float
     if count is not None and len(values) != count:
         raise InputError(f"{what}: expected {count} comma-separated values, got {len(values)}")
     return values
+
+
+def _joints_argument(text: str, option: str, robot: Robot) -> FloatArray:
+    """One value per joint of ``robot``, comma-separated (deg; mm for prismatic), in SI."""
+    return joints_si_from_user(_parse_numbers(text, option, robot.dof), robot.prismatic)
 
 
 def _is_number(text: str) -> bool:
@@ -123,6 +133,14 @@ def _print_json(data: Any) -> None:
     sys.stdout.write("\n")
 
 
+def _print_report(report: BaseModel, render: Callable[[Any], str], *, as_json: bool) -> None:
+    """Print a result model as JSON (``--json``) or as the text ``render`` makes of it."""
+    if as_json:
+        _print_json(report.model_dump(mode="json"))
+    else:
+        print(render(report))
+
+
 def _finite_or_none(values: FloatArray) -> Any:
     """Nested lists of ``values`` with NaN/inf as ``None`` (JSON has no NaN)."""
     cells = values.astype(object)
@@ -178,7 +196,6 @@ def _tool_from_argument(text: str | None) -> FloatArray | None:
 def _cmd_fk(args: argparse.Namespace) -> int:
     from posebridge.api.schemas.kinematics import fk_result
     from posebridge.robot.library import load_robot
-    from posebridge.units import joints_si_from_user
 
     robot = load_robot(args.robot)
     if args.joints_file:
@@ -222,7 +239,7 @@ def _cmd_ik(args: argparse.Namespace) -> int:
     from posebridge.kinematics.ik import solve_ik_all
     from posebridge.robot.library import load_robot
     from posebridge.transforms import transform_from_position_rpy
-    from posebridge.units import joints_si_from_user, m_from_mm
+    from posebridge.units import m_from_mm
 
     robot = load_robot(args.robot)
     if args.poses_file:
@@ -236,7 +253,7 @@ def _cmd_ik(args: argparse.Namespace) -> int:
     T = transform_from_position_rpy(m_from_mm(poses[:, :3]), poses[:, 3:], degrees=True)
     seed = None
     if args.seed is not None:
-        seed = joints_si_from_user(_parse_numbers(args.seed, "--seed", robot.dof), robot.prismatic)
+        seed = _joints_argument(args.seed, "--seed", robot)
     tool = _tool_from_argument(args.tool)
     solutions = solve_ik_all(robot, T, T_flange_tool=tool, seed=seed, all_turns=args.all_turns)
     results = [
@@ -283,10 +300,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
     from posebridge.cell.report_text import render_target_check
 
     report = check_targets(_load_scene(args.cell))
-    if args.json:
-        _print_json(report.model_dump(mode="json"))
-    else:
-        print(render_target_check(report))
+    _print_report(report, render_target_check, as_json=args.json)
     return _exit_for_findings(report.findings)
 
 
@@ -294,23 +308,16 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
     from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
     from posebridge.cell.joint_log import read_joint_log
     from posebridge.cell.report_text import render_log_diagnosis, render_pose_diagnosis
-    from posebridge.units import joints_si_from_user
 
     scene = _load_scene(args.cell)
     robot = scene.robot
     if args.log:
         log_result = diagnose_log(scene, read_joint_log(args.log, robot), include_rows=args.json)
-        if args.json:
-            _print_json(log_result.model_dump(mode="json"))
-        else:
-            print(render_log_diagnosis(log_result))
+        _print_report(log_result, render_log_diagnosis, as_json=args.json)
         return _exit_for_findings(log_result.findings)
-    q = joints_si_from_user(_parse_numbers(args.joints, "--joints", robot.dof), robot.prismatic)
+    q = _joints_argument(args.joints, "--joints", robot)
     pose_result = diagnose_pose(scene, q)
-    if args.json:
-        _print_json(pose_result.model_dump(mode="json"))
-    else:
-        print(render_pose_diagnosis(pose_result))
+    _print_report(pose_result, render_pose_diagnosis, as_json=args.json)
     return _exit_for_findings(pose_result.findings)
 
 
@@ -419,7 +426,7 @@ def _cmd_jointmap(args: argparse.Namespace) -> int:
     from posebridge.cell.clearance import clearance_scene
     from posebridge.cell.files import cell_etag
     from posebridge.spaces.joint_map import joint_map
-    from posebridge.units import joint_unit_labels, joints_si_from_user
+    from posebridge.units import joint_unit_labels
 
     cell = load_cell(args.cell)
     scene = resolve_scene(cell, Path(args.cell))
@@ -431,9 +438,7 @@ def _cmd_jointmap(args: argparse.Namespace) -> int:
             f"--joints: expected 2 or 3 of {', '.join(robot.joint_names)}, got {args.joints!r}"
         )
     q_hold = (
-        joints_si_from_user(_parse_numbers(args.hold, "--hold", robot.dof), robot.prismatic)
-        if args.hold
-        else robot.home_configuration()
+        _joints_argument(args.hold, "--hold", robot) if args.hold else robot.home_configuration()
     )
     with _executor(args) as executor:
         computed = joint_map(
@@ -484,17 +489,13 @@ def _cmd_paths(args: argparse.Namespace) -> int:
 def _cmd_plan(args: argparse.Namespace) -> int:
     from posebridge.planning.reports import render_joint_plan
     from posebridge.planning.rrt import plan_joint_move
-    from posebridge.units import joints_si_from_user
 
     scene = _load_scene(args.cell)
     robot = scene.robot
-    start = joints_si_from_user(_parse_numbers(args.start, "--from", robot.dof), robot.prismatic)
-    goal = joints_si_from_user(_parse_numbers(args.goal, "--to", robot.dof), robot.prismatic)
+    start = _joints_argument(args.start, "--from", robot)
+    goal = _joints_argument(args.goal, "--to", robot)
     report = plan_joint_move(scene, start, goal, seed=args.seed, time_limit_s=args.time_limit_s)
-    if args.json:
-        _print_json(report.model_dump(mode="json"))
-    else:
-        print(render_joint_plan(report))
+    _print_report(report, render_joint_plan, as_json=args.json)
     return EXIT_OK if report.status in ("solved", "direct") else EXIT_FINDINGS
 
 
@@ -522,10 +523,9 @@ def _cmd_place(args: argparse.Namespace) -> int:
             progress=_ProgressBar("base placement", enabled=not args.json),
             top=args.top,
         )
-    if args.json:
-        _print_json(result.report.model_dump(mode="json"))
-    else:
-        print(render_placement(result.report, top=args.top))
+    _print_report(
+        result.report, lambda report: render_placement(report, top=args.top), as_json=args.json
+    )
     return EXIT_OK
 
 
