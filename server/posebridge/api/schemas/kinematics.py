@@ -65,6 +65,11 @@ _JOINTS_DESCRIPTION = (
     "Joint values, revolute joints in degrees and prismatic joints in millimetres, "
     "in the robot's joint order."
 )
+_BASE_DESCRIPTION = (
+    "Robot base frame in the world (a placed robot in a cell). Given, every pose and drawing "
+    "position in the request and the answer is in the world frame; omitted, in the robot base "
+    "frame."
+)
 _MANIPULABILITY_DESCRIPTION = (
     "Yoshikawa manipulability sqrt(det(Jv Jv^T)) of the TCP's translational Jacobian in SI "
     "units (m^k per rad^k, k = min(3, joints)); 0 at a singularity."
@@ -161,12 +166,7 @@ class FkRequest(BaseModel):
         + " A list of configurations, or one configuration (read as a list of one)."
     )
     tool: ToolOffset | None = Field(default=None, description="Tool in the flange frame.")
-    base: Pose | None = Field(
-        default=None,
-        description="Robot base frame in the world (a placed robot in a cell). Given, every "
-        "pose and drawing position in the request and the answer is in the world frame; "
-        "omitted, in the robot base frame.",
-    )
+    base: Pose | None = Field(default=None, description=_BASE_DESCRIPTION)
 
 
 # Inverse kinematics of one tool pose: every solution, on every arm branch.
@@ -176,12 +176,7 @@ class IkRequest(BaseModel):
     robot: RobotSpec
     pose: Pose = Field(description="Tool (TCP) pose in the robot base frame (world if base).")
     tool: ToolOffset | None = Field(default=None, description="Tool in the flange frame.")
-    base: Pose | None = Field(
-        default=None,
-        description="Robot base frame in the world (a placed robot in a cell). Given, every "
-        "pose and drawing position in the request and the answer is in the world frame; "
-        "omitted, in the robot base frame.",
-    )
+    base: Pose | None = Field(default=None, description=_BASE_DESCRIPTION)
     seed_deg: JointVector | None = Field(
         default=None,
         description="Joint values to sort solutions by nearness (and to pick turns); "
