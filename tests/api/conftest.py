@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from collections.abc import AsyncIterator, Callable
+import asyncio
+from collections.abc import AsyncIterator, Awaitable, Callable
+from typing import Any
 
 import httpx
 import pytest
@@ -33,3 +35,21 @@ async def client(make_app: Callable[..., FastAPI]) -> AsyncIterator[httpx.AsyncC
     transport = httpx.ASGITransport(app=make_app())
     async with httpx.AsyncClient(transport=transport, base_url="http://testserver") as session:
         yield session
+
+
+@pytest.fixture
+def job_finished(
+    client: httpx.AsyncClient,
+) -> Callable[[str], Awaitable[dict[str, Any]]]:
+    """Poll ``GET /api/jobs/{id}`` of ``client`` until the job is no longer queued or
+    running (at most 60 s); returns its last status."""
+
+    async def finished(job_id: str) -> dict[str, Any]:
+        for _ in range(600):
+            status: dict[str, Any] = (await client.get(f"/api/jobs/{job_id}")).json()
+            if status["state"] not in ("queued", "running"):
+                return status
+            await asyncio.sleep(0.1)
+        raise AssertionError("job did not finish in 60 s")
+
+    return finished

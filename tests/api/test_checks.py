@@ -8,8 +8,8 @@ against pinocchio in test_kinematics.py).
 
 from __future__ import annotations
 
-import asyncio
 import json
+from collections.abc import Awaitable, Callable
 from typing import Any
 
 import httpx
@@ -23,6 +23,9 @@ from posebridge.cell.joint_log import read_joint_log
 from posebridge.resources import data_folder
 
 pytestmark = pytest.mark.anyio
+
+JobFinished = Callable[[str], Awaitable[dict[str, Any]]]
+"""The ``job_finished`` fixture: a job's last status, once it is no longer queued or running."""
 
 ROBOTS = data_folder("robots")
 
@@ -121,21 +124,12 @@ async def test_diagnose_log_bad_header(client: httpx.AsyncClient) -> None:
     assert "a" in response.json()["detail"]
 
 
-async def _finished(client: httpx.AsyncClient, job_id: str) -> dict[str, Any]:
-    for _ in range(600):
-        status = (await client.get(f"/api/jobs/{job_id}")).json()
-        if status["state"] not in ("queued", "running"):
-            return status
-        await asyncio.sleep(0.1)
-    raise AssertionError("job did not finish in 60 s")
-
-
-async def test_start_placement(client: httpx.AsyncClient) -> None:
+async def test_start_placement(client: httpx.AsyncClient, job_finished: JobFinished) -> None:
     response = await client.post(
         "/api/placement", json={"half_width_mm": 200.0, "count": 3, "yaw_count": 2, "top": 3}
     )
     assert response.status_code == 202
-    status = await _finished(client, response.json()["id"])
+    status = await job_finished(response.json()["id"])
     assert status["state"] == "done", status["detail"]
     report = status["result"]
     # 3 x 3 positions x 2 yaws x 1 height (closed form)

@@ -7,7 +7,7 @@ cell by cell with a direct call of that function on the same cell.
 
 from __future__ import annotations
 
-import asyncio
+from collections.abc import Awaitable, Callable
 from typing import Any
 
 import httpx
@@ -23,26 +23,22 @@ from posebridge.units import joints_si_from_user
 
 pytestmark = pytest.mark.anyio
 
+JobFinished = Callable[[str], Awaitable[dict[str, Any]]]
+"""The ``job_finished`` fixture: a job's last status, once it is no longer queued or running."""
+
 HOLD = [0.0, 10.0, -20.0, 0.0, 55.0, 0.0]
 
 
-async def _finished(client: httpx.AsyncClient, job_id: str) -> dict[str, Any]:
-    for _ in range(600):
-        status = (await client.get(f"/api/jobs/{job_id}")).json()
-        if status["state"] not in ("queued", "running"):
-            return status
-        await asyncio.sleep(0.1)
-    raise AssertionError("job did not finish in 60 s")
-
-
-async def test_start_joint_map_two_joints(client: httpx.AsyncClient) -> None:
+async def test_start_joint_map_two_joints(
+    client: httpx.AsyncClient, job_finished: JobFinished
+) -> None:
     response = await client.post(
         "/api/maps/joint", json={"joints": [1, 2], "hold_deg": HOLD, "resolution": 24}
     )
     assert response.status_code == 202
     started = response.json()
     assert started["kind"] == "joint-map" and started["result"] is None
-    status = await _finished(client, started["id"])
+    status = await job_finished(started["id"])
     assert status["state"] == "done", status["detail"]
     result = status["result"]
     assert result["shape"] == [24, 24]
@@ -61,12 +57,14 @@ async def test_start_joint_map_two_joints(client: httpx.AsyncClient) -> None:
     assert status["done"] == status["total"] >= 1
 
 
-async def test_start_joint_map_three_joints(client: httpx.AsyncClient) -> None:
+async def test_start_joint_map_three_joints(
+    client: httpx.AsyncClient, job_finished: JobFinished
+) -> None:
     response = await client.post(
         "/api/maps/joint", json={"joints": [0, 1, 2], "hold_deg": HOLD, "resolution": 8}
     )
     assert response.status_code == 202
-    status = await _finished(client, response.json()["id"])
+    status = await job_finished(response.json()["id"])
     assert status["state"] == "done", status["detail"]
     result = status["result"]
     assert result["shape"] == [8, 8, 8]
@@ -96,7 +94,9 @@ async def test_start_joint_map_bad_joints(client: httpx.AsyncClient) -> None:
     assert response.json()["detail"].startswith("hold_deg[0]: expected 6 values")
 
 
-async def test_cancel_queued_job_and_client_limit(client: httpx.AsyncClient) -> None:
+async def test_cancel_queued_job_and_client_limit(
+    client: httpx.AsyncClient, job_finished: JobFinished
+) -> None:
     body = {"joints": [1, 2], "hold_deg": HOLD, "resolution": 256}
     ids = []
     for _ in range(MAX_ACTIVE_PER_CLIENT):
@@ -115,8 +115,8 @@ async def test_cancel_queued_job_and_client_limit(client: httpx.AsyncClient) -> 
     assert cancelled.json()["state"] == "cancelled"
     for job_id in ids[:-1]:
         await client.post(f"/api/jobs/{job_id}/cancel")
-        assert (await _finished(client, job_id))["state"] in ("cancelled", "done")
-    assert (await _finished(client, ids[-1]))["result"] is None
+        assert (await job_finished(job_id))["state"] in ("cancelled", "done")
+    assert (await job_finished(ids[-1]))["result"] is None
 
 
 async def test_read_job_unknown(client: httpx.AsyncClient) -> None:
@@ -125,12 +125,12 @@ async def test_read_job_unknown(client: httpx.AsyncClient) -> None:
     assert response.json()["detail"] == "job: no job 'abc123' (unknown, or finished long ago)"
 
 
-async def test_start_reach_section(client: httpx.AsyncClient) -> None:
+async def test_start_reach_section(client: httpx.AsyncClient, job_finished: JobFinished) -> None:
     response = await client.post(
         "/api/maps/reach-section", json={"axis": "z", "value_mm": 700.0, "voxel_mm": 200.0}
     )
     assert response.status_code == 202
-    status = await _finished(client, response.json()["id"])
+    status = await job_finished(response.json()["id"])
     assert status["state"] == "done", status["detail"]
     result = status["result"]
     # 26 tool directions: a cube's 6 faces, 12 edges and 8 corners (closed form)
