@@ -16,7 +16,7 @@ import httpx
 import numpy as np
 import pytest
 
-from posebridge.bench.drag import plan_marker_position
+from posebridge.bench.drag import figure_pixel, plan_marker_position
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.checks import check_targets
 from posebridge.cell.diagnosis import diagnose_log
@@ -26,14 +26,6 @@ from posebridge.resources import data_folder
 
 STATE = "() => window.posebridge.getState()"
 DEMO_LOG = data_folder("robots") / "demo-log.csv"
-
-PIXEL_OF = """([id, x, y]) => {
-  const figure = document.getElementById(id);
-  const area = figure.querySelector(".nsewdrag").getBoundingClientRect();
-  const xr = figure._fullLayout.xaxis.range, yr = figure._fullLayout.yaxis.range;
-  return [area.left + ((x - xr[0]) / (xr[1] - xr[0])) * area.width,
-          area.top + ((yr[1] - y) / (yr[1] - yr[0])) * area.height];
-}"""
 
 
 def test_pose_check_flags_worst_log_row(open_page: Any, cell_path: Path, artifacts: Path) -> None:
@@ -169,7 +161,7 @@ def test_fix_branch_inconsistent_target(open_page: Any, cell_path: Path, artifac
     )
     page.check("#snap")
     x, y = plan_marker_position(page)
-    gx, gy = page.evaluate(PIXEL_OF, ["plan", *goal])
+    gx, gy = figure_pixel(page, "plan", *goal)
     page.mouse.move(x, y)
     page.mouse.down()
     with page.expect_response(

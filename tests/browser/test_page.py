@@ -16,18 +16,9 @@ import httpx
 import numpy as np
 import pytest
 
-from posebridge.bench.drag import measure_drag_roundtrip, plan_marker_position
+from posebridge.bench.drag import figure_pixel, measure_drag_roundtrip, plan_marker_position
 
 STATE = "() => window.posebridge.getState()"
-
-# Pixel position of a data point in a 2D figure (plot area rectangle and axis ranges).
-PIXEL_OF = """([id, x, y]) => {
-  const figure = document.getElementById(id);
-  const area = figure.querySelector(".nsewdrag").getBoundingClientRect();
-  const xr = figure._fullLayout.xaxis.range, yr = figure._fullLayout.yaxis.range;
-  return [area.left + ((x - xr[0]) / (xr[1] - xr[0])) * area.width,
-          area.top + ((yr[1] - y) / (yr[1] - yr[0])) * area.height];
-}"""
 
 MAP_MARKERS = """() => document.getElementById("joint-map").data
   .filter((trace) => trace.meta && trace.meta.role === "ik-solutions")
@@ -142,7 +133,7 @@ def test_click_joint_map_moves_tool(open_page: Any) -> None:
     page = open_page.page
     a, b = page.evaluate(STATE)["mapJoints"]
     goal = (40.0, -30.0)
-    x, y = page.evaluate(PIXEL_OF, ["joint-map", *goal])
+    x, y = figure_pixel(page, "joint-map", *goal)
     page.mouse.click(x, y)
     page.wait_for_function(
         "([a, goal]) => { const s = window.posebridge.getState();"

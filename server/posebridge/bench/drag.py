@@ -26,6 +26,7 @@ __all__ = [
     "CHROMIUM_PATH",
     "bench_drag",
     "chromium_available",
+    "figure_pixel",
     "launch_chromium",
     "measure_drag_roundtrip",
     "plan_marker_position",
@@ -54,17 +55,16 @@ _READY_SCRIPT = """() => {
   return !state.cellActive || Boolean(state.jointMap && state.jointMap3 && state.targetCheck);
 }"""
 
-# Client pixel position of the target marker in the plan view.
-_MARKER_SCRIPT = """() => {
-  const figure = document.getElementById("plan");
-  const target = window.posebridge.getState().target;
+# Client pixel position of a data point in a 2D figure (plot area rectangle and axis ranges).
+_PIXEL_SCRIPT = """([id, x, y]) => {
+  const figure = document.getElementById(id);
   const area = figure.querySelector(".nsewdrag").getBoundingClientRect();
   const xr = figure._fullLayout.xaxis.range;
   const yr = figure._fullLayout.yaxis.range;
-  return {
-    x: area.left + ((target.position_mm[0] - xr[0]) / (xr[1] - xr[0])) * area.width,
-    y: area.top + ((yr[1] - target.position_mm[1]) / (yr[1] - yr[0])) * area.height,
-  };
+  return [
+    area.left + ((x - xr[0]) / (xr[1] - xr[0])) * area.width,
+    area.top + ((yr[1] - y) / (yr[1] - yr[0])) * area.height,
+  ];
 }"""
 
 # Resolves with the detail of the next ik-rendered event, or null after a timeout.
@@ -93,10 +93,16 @@ def launch_chromium(playwright: Any, *, executable: Path = CHROMIUM_PATH) -> Any
     return playwright.chromium.launch(executable_path=str(executable), args=list(CHROMIUM_ARGS))
 
 
+def figure_pixel(page: Any, figure_id: str, x: float, y: float) -> tuple[float, float]:
+    """Client pixel position of the data point (``x``, ``y``) in the 2D figure ``figure_id``."""
+    point = page.evaluate(_PIXEL_SCRIPT, [figure_id, x, y])
+    return float(point[0]), float(point[1])
+
+
 def plan_marker_position(page: Any) -> tuple[float, float]:
     """Client pixel position of the target marker in the plan view of an open page."""
-    point = page.evaluate(_MARKER_SCRIPT)
-    return float(point["x"]), float(point["y"])
+    position = page.evaluate("() => window.posebridge.getState().target.position_mm")
+    return figure_pixel(page, "plan", position[0], position[1])
 
 
 def measure_drag_roundtrip(
