@@ -2,7 +2,7 @@
 // list of targets and path waypoints to select. The selected one becomes the
 // page's target; dragging it edits the cell.
 
-import { element } from "./fields.js";
+import { element, onChoose } from "./fields.js";
 
 function branchText(branch) {
   if (!branch) {
@@ -39,14 +39,7 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
       element("span", { className: "pb-hint", text: detail }),
     ]);
     row.dataset.key = JSON.stringify(selection);
-    const choose = () => actions.select(selection);
-    row.addEventListener("click", choose);
-    row.addEventListener("keydown", (event) => {
-      if (event.key === "Enter" || event.key === " ") {
-        event.preventDefault();
-        choose();
-      }
-    });
+    onChoose(row, () => actions.select(selection));
     return row;
   }
 

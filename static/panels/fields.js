@@ -1,4 +1,5 @@
-// Small DOM builders shared by the panels: labelled numeric fields with units.
+// Small DOM builders shared by the panels: labelled numeric fields with units,
+// rows chosen by click or keyboard.
 
 import { formatNumber } from "../units.js";
 
@@ -16,6 +17,17 @@ export function element(tag, { className = "", text = "", attributes = {} } = {}
   }
   node.append(...children);
   return node;
+}
+
+/** Run `choose()` when `node` is clicked, or focused and Enter or Space is pressed. */
+export function onChoose(node, choose) {
+  node.addEventListener("click", choose);
+  node.addEventListener("keydown", (event) => {
+    if (event.key === "Enter" || event.key === " ") {
+      event.preventDefault();
+      choose();
+    }
+  });
 }
 
 /**

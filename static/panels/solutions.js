@@ -1,7 +1,7 @@
 // The inverse kinematics solutions of the target as a table: branch, limits,
 // smallest margin and manipulability. Selecting a row moves the arm onto it.
 
-import { element } from "./fields.js";
+import { element, onChoose } from "./fields.js";
 import { branchHeading } from "../branches.js";
 import { branchStyle } from "../palette.js";
 import { formatJoint, formatNumber } from "../units.js";
@@ -55,14 +55,7 @@ export function createSolutionsPanel({ container, store, actions, palette }) {
           element("td", { className: "pb-num", text: formatNumber(solution.manipulability, { decimals: 4 }) }),
         ],
       );
-      const choose = () => actions.selectSolution(solution);
-      row.addEventListener("click", choose);
-      row.addEventListener("keydown", (event) => {
-        if (event.key === "Enter" || event.key === " ") {
-          event.preventDefault();
-          choose();
-        }
-      });
+      onChoose(row, () => actions.selectSolution(solution));
       return row;
     });
     const head = element("tr", {}, [
