@@ -7,7 +7,7 @@
 
 /* global Plotly */
 
-import { draw } from "./plotting.js";
+import { axis3d, draw, layout3d } from "./plotting.js";
 import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { branchStyle, regionColour } from "../palette.js";
 
@@ -186,29 +186,20 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
     }
     dynamicStart = data.length;
     data.push(...dynamic);
-    const axis = (joint) => ({
-      title: { text: `${joint.name} (${joint.unit})` },
-      range: [joint.lower - 0.04 * (joint.upper - joint.lower), joint.upper + 0.04 * (joint.upper - joint.lower)],
-      backgroundcolor: "#f7f9fa",
-      gridcolor: "#dde3e8",
-      showspikes: false,
-    });
-    const revision = `${robot.robot}|${map3Joints.join(",")}`;
-    draw(element, data, {
-      margin: { l: 0, r: 0, t: 0, b: 0 },
-      showlegend: false,
-      paper_bgcolor: "rgba(0,0,0,0)",
-      font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
-      uirevision: revision,
-      scene: {
-        xaxis: axis(chosen[0]),
-        yaxis: axis(chosen[1]),
-        zaxis: axis(chosen[2]),
-        aspectmode: "cube",
+    const axis = (joint) =>
+      axis3d(`${joint.name} (${joint.unit})`, [
+        joint.lower - 0.04 * (joint.upper - joint.lower),
+        joint.upper + 0.04 * (joint.upper - joint.lower),
+      ]);
+    draw(
+      element,
+      data,
+      layout3d({
+        axes: chosen.map(axis),
         camera: { eye: { x: 1.5, y: -1.5, z: 0.9 } },
-        uirevision: revision,
-      },
-    });
+        revision: `${robot.robot}|${map3Joints.join(",")}`,
+      }),
+    );
     const others = robot.joints.filter((_, index) => !map3Joints.includes(index)).map((joint) => joint.name);
     note.textContent = map
       ? `Points are colliding cells of a ${map.shape.join(" × ")} grid (self collision not shown), a slice with ${others.join(", ")} held at the current values.`

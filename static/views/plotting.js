@@ -1,5 +1,5 @@
-// Shared plotly helpers for the 2D views: figure defaults and the conversion
-// between mouse position and data coordinates used by dragging.
+// Shared plotly helpers for the views: figure defaults, the 2D and 3D layouts,
+// and the conversion between mouse position and data coordinates used by dragging.
 
 /* global Plotly */
 
@@ -43,6 +43,32 @@ export function layout2d({ xTitle, yTitle, xRange, yRange, equalAspect = false, 
     font: FONT,
     paper_bgcolor: "rgba(0,0,0,0)",
     plot_bgcolor: "#fbfcfd",
+  };
+}
+
+/** An axis of a 3D view: title, fixed range, light panes, no spike lines. */
+export function axis3d(title, range) {
+  return {
+    title: { text: title },
+    range,
+    backgroundcolor: "#f7f9fa",
+    gridcolor: "#dde3e8",
+    showspikes: false,
+  };
+}
+
+/**
+ * Layout of a 3D view filling its figure: a cube-shaped scene with the given
+ * axes and camera. `revision` keeps the user's camera across redraws until it changes.
+ */
+export function layout3d({ axes: [xaxis, yaxis, zaxis], camera, revision }) {
+  return {
+    margin: { l: 0, r: 0, t: 0, b: 0 },
+    showlegend: false,
+    paper_bgcolor: "rgba(0,0,0,0)",
+    font: { ...FONT, size: 11 },
+    uirevision: revision,
+    scene: { xaxis, yaxis, zaxis, aspectmode: "cube", camera, uirevision: revision },
   };
 }
 

@@ -6,7 +6,7 @@
 
 /* global Plotly */
 
-import { draw } from "./plotting.js";
+import { axis3d, draw, layout3d } from "./plotting.js";
 import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { appendShapeMesh, sceneBounds } from "./shapes.js";
 import { column, matrixFromQuaternion, matrixFromRpyDeg } from "../rotation.js";
@@ -288,30 +288,11 @@ export function createSceneView({ element, store, palette }) {
   }
 
   function layoutFor(state, range) {
-    const axis = (title, r) => ({
-      title: { text: title },
-      range: r,
-      backgroundcolor: "#f7f9fa",
-      gridcolor: "#dde3e8",
-      zerolinecolor: "#b9c3cb",
-      showspikes: false,
+    return layout3d({
+      axes: ["x", "y", "z"].map((name, k) => ({ ...axis3d(`${name} (mm)`, range[k]), zerolinecolor: "#b9c3cb" })),
+      camera: { eye: { x: 1.3, y: -1.45, z: 0.75 }, center: { x: 0, y: 0, z: -0.12 }, up: { x: 0, y: 0, z: 1 } },
+      revision: `${state.robot.robot}|${state.cellActive}`,
     });
-    const revision = `${state.robot.robot}|${state.cellActive}`;
-    return {
-      margin: { l: 0, r: 0, t: 0, b: 0 },
-      showlegend: false,
-      paper_bgcolor: "rgba(0,0,0,0)",
-      font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
-      uirevision: revision,
-      scene: {
-        xaxis: axis("x (mm)", range[0]),
-        yaxis: axis("y (mm)", range[1]),
-        zaxis: axis("z (mm)", range[2]),
-        aspectmode: "cube",
-        camera: { eye: { x: 1.3, y: -1.45, z: 0.75 }, center: { x: 0, y: 0, z: -0.12 }, up: { x: 0, y: 0, z: 1 } },
-        uirevision: revision,
-      },
-    };
   }
 
   function render() {
