@@ -6,9 +6,9 @@
 // there, and the reviewer's own base placement searches still find room.
 
 /** Automatic job starts a reviewer's page makes at once, below the server's 8. */
-export const REVIEW_JOB_BURST = 6;
+const REVIEW_JOB_BURST = 6;
 /** Automatic job starts per second after the burst, below the server's 0.25. */
-export const REVIEW_JOB_PER_SECOND = 0.2;
+const REVIEW_JOB_PER_SECOND = 0.2;
 
 /**
  * A token bucket (the same rule as the server's RateLimiter): `burst` starts

@@ -1,8 +1,7 @@
 // Units and number formatting at the page boundary: millimetres and degrees,
 // with the unit written beside every number shown.
 
-export const LENGTH_UNIT = "mm";
-export const ANGLE_UNIT = "deg";
+const LENGTH_UNIT = "mm";
 
 /** Fixed-decimal text of a number, "–" when missing or not finite. */
 export function formatNumber(value, { decimals = 1 } = {}) {
@@ -17,11 +16,6 @@ export function formatNumber(value, { decimals = 1 } = {}) {
 /** "123.4 mm" */
 export function formatLength(valueMm, { decimals = 1 } = {}) {
   return `${formatNumber(valueMm, { decimals })} ${LENGTH_UNIT}`;
-}
-
-/** "12.3 deg" */
-export function formatAngle(valueDeg, { decimals = 1 } = {}) {
-  return `${formatNumber(valueDeg, { decimals })} ${ANGLE_UNIT}`;
 }
 
 /** A joint value with its own unit ("deg" for revolute, "mm" for prismatic). */

@@ -199,7 +199,6 @@ export function createProjectionView({
   mark.setAttribute("d", "M 0 -9 L 9 0 L 0 9 L -9 0 Z");
   overlay.append(approach, mark);
 
-  /** Place the target diamond and its approach line (tool z axis) on the overlay. */
   /**
    * Place the target diamond and its approach line (tool z axis) on the overlay.
    * Positions come from the figure's own plot-area size and ranges (the overlay
@@ -289,21 +288,20 @@ export function createProjectionView({
       if (!target) {
         return false;
       }
+      const marker = pointerFromData(element, target.position_mm[h], target.position_mm[v]);
+      const distance = Math.hypot(marker.clientX - event.clientX, marker.clientY - event.clientY);
       if (cellActive && cell) {
         const hit = cell.scene.targets.find((other) => {
           const at = pointerFromData(element, other.position_mm[h], other.position_mm[v]);
           return Math.hypot(at.clientX - event.clientX, at.clientY - event.clientY) <= 6;
         });
-        const grabbed = pointerFromData(element, target.position_mm[h], target.position_mm[v]);
-        const onSelected = Math.hypot(grabbed.clientX - event.clientX, grabbed.clientY - event.clientY) <= 6;
+        const onSelected = distance <= 6;
         if (hit && !onSelected) {
           actions.select({ kind: "target", name: hit.name });
           return false;
         }
       }
-      const marker = pointerFromData(element, target.position_mm[h], target.position_mm[v]);
-      const near =
-        Math.hypot(marker.clientX - event.clientX, marker.clientY - event.clientY) <= GRAB_RADIUS_PX;
+      const near = distance <= GRAB_RADIUS_PX;
       if (near) {
         dragging = true;
         element.focus({ preventScroll: true });
