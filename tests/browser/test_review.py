@@ -73,25 +73,27 @@ _MAP_MARKERS = """() => document.getElementById("joint-map").data
 _TARGET_FIELDS = [f"#target-{name}" for name in ("x", "y", "z", "roll", "pitch", "yaw")]
 
 
-@pytest.fixture(scope="module")
-def shared(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, str, Path]]:
-    """(base URL, review token, cell file) of a dashboard shared for review."""
-    cell = tmp_path_factory.mktemp("review") / "demo-cell.json"
+def _shared_demo(folder: Path) -> Iterator[tuple[str, str, Path]]:
+    """(base URL, review token, cell file) of a dashboard shared for review, serving a
+    copy of the demo cell in ``folder``."""
+    cell = folder / "demo-cell.json"
     shutil.copy(data_folder("robots") / "demo-cell.json", cell)
     token = new_review_token()
     with background_server(Settings(cell_path=cell), review_token=token) as url:
         yield url, token, cell
+
+
+@pytest.fixture(scope="module")
+def shared(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, str, Path]]:
+    """(base URL, review token, cell file) of a dashboard shared for review."""
+    yield from _shared_demo(tmp_path_factory.mktemp("review"))
 
 
 @pytest.fixture
 def fresh_shared(tmp_path: Path) -> Iterator[tuple[str, str, Path]]:
     """Like ``shared``, with rate caps of its own: a server per test, so the
     reviewer's job budget is not spent by earlier tests (all come from 127.0.0.1)."""
-    cell = tmp_path / "demo-cell.json"
-    shutil.copy(data_folder("robots") / "demo-cell.json", cell)
-    token = new_review_token()
-    with background_server(Settings(cell_path=cell), review_token=token) as url:
-        yield url, token, cell
+    yield from _shared_demo(tmp_path)
 
 
 def _digest(path: Path) -> str:
