@@ -251,3 +251,197 @@ async def test_move_base_pedestal_height(client: httpx.AsyncClient) -> None:
     pedestal = next(s for s in body["scene"]["shapes"] if s["role"] == "pedestal")
     assert pedestal["height_mm"] == pytest.approx(550.0)
     assert pedestal["position_mm"][2] == pytest.approx(275.0)
+
+
+def _pose_waypoint(cell: dict) -> tuple[str, int, dict]:
+    """The demo's first waypoint given as a pose: path name, index, waypoint."""
+    return next(
+        (path["name"], w, waypoint)
+        for path in cell["paths"]
+        for w, waypoint in enumerate(path["waypoints"])
+        if "pose" in waypoint
+    )
+
+
+async def test_move_pose_waypoint(file_client: httpx.AsyncClient, cell_file: Path) -> None:
+    raw = json.loads(DEMO.read_text())
+    path, index, _ = _pose_waypoint(raw)
+    etag = (await file_client.get("/api/cell")).json()["etag"]
+    goal = {"position_mm": [650.0, -520.0, 1040.0], "rpy_deg": [180.0, 0.0, 30.0]}
+    response = await file_client.patch(
+        f"/api/cell/paths/{path}/waypoints/{index}", json=goal, headers={"If-Match": etag}
+    )
+    assert response.status_code == 200, response.text
+    assert response.json()["etag"] != etag
+    assert response.headers["etag"] == f'"{response.json()["etag"]}"'
+    # read back: the drawing shows the new world tool pose (rotation compared through scipy)
+    served = (await file_client.get("/api/cell")).json()
+    assert served["etag"] == response.json()["etag"]
+    drawn = next(p for p in served["scene"]["paths"] if p["name"] == path)["waypoints"][index]
+    assert drawn["source"] == "pose"
+    assert drawn["position_mm"] == pytest.approx(goal["position_mm"], abs=1e-9)
+    np.testing.assert_allclose(
+        Rotation.from_euler("xyz", drawn["rpy_deg"], degrees=True).as_matrix(),
+        Rotation.from_euler("xyz", goal["rpy_deg"], degrees=True).as_matrix(),
+        atol=1e-12,
+    )
+    # the file stores the pose as given (pose waypoints are world poses); nothing else changed
+    saved = json.loads(cell_file.read_text())
+    saved_path = next(p for p in saved["paths"] if p["name"] == path)
+    assert saved_path["waypoints"][index]["pose"] == goal
+    expected = json.loads(DEMO.read_text())
+    next(p for p in expected["paths"] if p["name"] == path)["waypoints"][index]["pose"] = goal
+    assert saved == expected
+
+
+async def test_move_pose_waypoint_stale_or_without_version(
+    file_client: httpx.AsyncClient, cell_file: Path
+) -> None:
+    path, index, _ = _pose_waypoint(json.loads(DEMO.read_text()))
+    route = f"/api/cell/paths/{path}/waypoints/{index}"
+    body = {"position_mm": [600.0, -400.0, 1000.0], "rpy_deg": [180.0, 0.0, 0.0]}
+    seen = (await file_client.get("/api/cell")).json()["etag"]
+    missing = await file_client.patch(route, json=body)
+    assert missing.status_code == 428
+    assert missing.json()["detail"] == (
+        "If-Match: required; send the etag of the cell version you edited (from GET /api/cell)"
+    )
+    moved = await file_client.patch(
+        "/api/cell/targets/rack-low-1",
+        json={"position_mm": [150.0, 820.0, 470.0]},
+        headers={"If-Match": seen},
+    )
+    assert moved.status_code == 200
+    before = cell_file.read_bytes()
+    stale = await file_client.patch(route, json=body, headers={"If-Match": f'"{seen}"'})
+    assert stale.status_code == 412
+    assert stale.json()["detail"] == (
+        f"If-Match: the cell was changed elsewhere since version {seen} was read (it is now at "
+        f"version {moved.json()['etag']}); reload the cell and apply the edit again"
+    )
+    assert cell_file.read_bytes() == before  # nothing written
+
+
+@pytest.mark.parametrize(
+    ("route", "detail"),
+    [
+        ("/api/cell/paths/nowhere/waypoints/0", "path: no path named 'nowhere' in the cell"),
+        (
+            "/api/cell/paths/load-press/waypoints/3",
+            "waypoint: path 'load-press' has no waypoint 3 (it has 3, numbered from 0)",
+        ),
+    ],
+)
+async def test_move_pose_waypoint_unknown(
+    client: httpx.AsyncClient, route: str, detail: str
+) -> None:
+    # load-press has three waypoints in the demo file (robots/demo-cell.json)
+    raw = json.loads(DEMO.read_text())
+    assert len(next(p for p in raw["paths"] if p["name"] == "load-press")["waypoints"]) == 3
+    etag = (await client.get("/api/cell")).json()["etag"]
+    body = {"position_mm": [0.0, 0.0, 500.0], "rpy_deg": [0.0, 0.0, 0.0]}
+    response = await client.patch(route, json=body, headers={"If-Match": etag})
+    assert response.status_code == 404
+    assert response.json()["detail"] == detail
+    assert (await client.get("/api/cell")).json()["etag"] == etag
+
+
+@pytest.mark.parametrize(
+    ("index", "detail"),
+    [
+        (
+            0,
+            "waypoint: waypoint 0 of path 'pick-from-rack' is given as joint values, not a "
+            "pose; edit its joints_deg instead (PUT /api/cell)",
+        ),
+        (
+            1,
+            "waypoint: waypoint 1 of path 'pick-from-rack' is the approach pose of target "
+            "'rack-low-1', not a pose; move the target instead "
+            "(PATCH /api/cell/targets/rack-low-1)",
+        ),
+        (
+            2,
+            "waypoint: waypoint 2 of path 'pick-from-rack' is target 'rack-low-1', not a pose; "
+            "move the target instead (PATCH /api/cell/targets/rack-low-1)",
+        ),
+    ],
+)
+async def test_move_waypoint_not_a_pose(client: httpx.AsyncClient, index: int, detail: str) -> None:
+    # pick-from-rack in the demo file: joint values, then rack-low-1 approach, then rack-low-1
+    raw = json.loads(DEMO.read_text())
+    waypoint = next(p for p in raw["paths"] if p["name"] == "pick-from-rack")["waypoints"][index]
+    assert "pose" not in waypoint
+    etag = (await client.get("/api/cell")).json()["etag"]
+    response = await client.patch(
+        f"/api/cell/paths/pick-from-rack/waypoints/{index}",
+        json={"position_mm": [0.0, 0.0, 500.0], "rpy_deg": [0.0, 0.0, 0.0]},
+        headers={"If-Match": etag},
+    )
+    assert response.status_code == 422
+    assert response.json()["detail"] == detail
+    assert (await client.get("/api/cell")).json()["etag"] == etag
+
+
+async def test_read_cell_fixture_frames(client: httpx.AsyncClient) -> None:
+    raw = json.loads(DEMO.read_text())
+    drawn = {f["name"]: f for f in (await client.get("/api/cell")).json()["scene"]["fixtures"]}
+    # every fixture, frames without geometry included, in file order
+    assert list(drawn) == [f["name"] for f in raw["fixtures"]]
+    for fixture in raw["fixtures"]:
+        # world frame = parent chain composed with scipy (Lynch & Park sec. 3.3.1)
+        expected = _fixture_world(raw, fixture["name"])
+        got = drawn[fixture["name"]]
+        assert got["parent"] == fixture.get("parent") and got["shape"] == fixture["shape"]
+        assert got["position_mm"] == pytest.approx(expected[:3, 3], abs=1e-9)
+        np.testing.assert_allclose(
+            Rotation.from_euler("xyz", got["rpy_deg"], degrees=True).as_matrix(),
+            expected[:3, :3],
+            atol=1e-12,
+        )
+
+
+async def test_move_fixture_world_frame(file_client: httpx.AsyncClient, cell_file: Path) -> None:
+    raw = json.loads(DEMO.read_text())
+    etag = (await file_client.get("/api/cell")).json()["etag"]
+    # gauge-anvil sits on gauge-table in the gauge frame, yawed -131 deg in the world
+    goal = {"position_mm": [-420.0, -300.0, 425.0], "rpy_deg": [0.0, 0.0, 20.0]}
+    response = await file_client.patch(
+        "/api/cell/fixtures/gauge-anvil",
+        json={**goal, "frame": "world"},
+        headers={"If-Match": etag},
+    )
+    assert response.status_code == 200, response.text
+    # stored in the parent's frame: inv(T_world_parent) @ T_world (scipy, plain products)
+    T_parent = _fixture_world(raw, "gauge-table")
+    local = np.linalg.inv(T_parent) @ _pose(goal["position_mm"], goal["rpy_deg"])
+    saved = json.loads(cell_file.read_text())
+    anvil = next(f for f in saved["fixtures"] if f["name"] == "gauge-anvil")
+    assert anvil["position_mm"] == pytest.approx(local[:3, 3], abs=1e-9)
+    np.testing.assert_allclose(
+        Rotation.from_euler("xyz", anvil["rpy_deg"], degrees=True).as_matrix(),
+        local[:3, :3],
+        atol=1e-12,
+    )
+    # the drawing shows the asked world pose, and the probe target moved with its fixture
+    scene = response.json()["scene"]
+    drawn = next(f for f in scene["fixtures"] if f["name"] == "gauge-anvil")
+    assert drawn["position_mm"] == pytest.approx(goal["position_mm"], abs=1e-9)
+    probe = next(t for t in raw["targets"] if t["name"] == "gauge-probe")
+    T_probe = _pose(goal["position_mm"], goal["rpy_deg"]) @ _pose(
+        probe["position_mm"], probe["rpy_deg"]
+    )
+    moved = next(t for t in scene["targets"] if t["name"] == "gauge-probe")
+    assert moved["position_mm"] == pytest.approx(T_probe[:3, 3], abs=1e-9)
+    # a position alone keeps the stored orientation (the parent did not move)
+    etag = response.json()["etag"]
+    again = await file_client.patch(
+        "/api/cell/fixtures/gauge-anvil",
+        json={"position_mm": [-400.0, -320.0, 425.0], "frame": "world"},
+        headers={"If-Match": etag},
+    )
+    assert again.status_code == 200
+    kept = next(
+        f for f in json.loads(cell_file.read_text())["fixtures"] if f["name"] == "gauge-anvil"
+    )
+    assert kept["rpy_deg"] == anvil["rpy_deg"]

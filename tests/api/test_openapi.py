@@ -53,6 +53,7 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/maps/reach-section",
         "/api/cell/check",
         "/api/cell/paths/{name}/check",
+        "/api/cell/paths/{name}/waypoints/{index}",
         "/api/cell/diagnose/pose",
         "/api/cell/diagnose/log",
         "/api/placement",

@@ -235,6 +235,32 @@ async def test_move_target_reviewer_forbidden(
     assert _digest(cell_file) == before
 
 
+async def test_move_pose_waypoint_reviewer_forbidden(
+    shared_app: FastAPI, token: str, cell_file: Path, clients: ClientFactory
+) -> None:
+    before = _digest(cell_file)
+    reviewer = clients(shared_app, headers=_bearer(token))
+    etag = (await reviewer.get("/api/cell")).json()["etag"]
+    # waypoint 3 of unload-to-conveyor is a pose waypoint in the demo file
+    path = "/api/cell/paths/unload-to-conveyor/waypoints/3"
+    response = await reviewer.patch(
+        path,
+        json={"position_mm": [700.0, -450.0, 1000.0], "rpy_deg": [180.0, 0.0, 45.0]},
+        headers={"If-Match": etag},
+    )
+    assert response.status_code == 403
+    assert response.json() == {"detail": _read_only("PATCH", path)}
+    assert _digest(cell_file) == before
+    # the owner may (the route exists and the waypoint is a pose)
+    owner = clients(shared_app, client=("127.0.0.1", 5000), base_url=OWNER_URL)
+    moved = await owner.patch(
+        path,
+        json={"position_mm": [700.0, -450.0, 1000.0], "rpy_deg": [180.0, 0.0, 45.0]},
+        headers={"If-Match": etag},
+    )
+    assert moved.status_code == 200, moved.text
+
+
 async def test_replace_cell_owner_allowed_when_shared(
     shared_app: FastAPI, cell_file: Path, clients: ClientFactory
 ) -> None:

@@ -1,4 +1,4 @@
-"""The server's cell: read it, replace it, move a target, a fixture or the robot base.
+"""The server's cell: read it, replace it, move a target, fixture, pose waypoint or the base.
 
 Every change carries the content version it was made from in the
 ``If-Match`` header (the ``etag`` of the last answer); a change made from an
@@ -11,7 +11,6 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import Annotated
 
-import numpy as np
 from fastapi import APIRouter, Header, HTTPException, Path, Response
 
 from posebridge.api.cell_store import CellSnapshot
@@ -22,18 +21,20 @@ from posebridge.api.schemas.cells import (
     CellDocument,
     FixtureEdit,
     TargetEdit,
+    WaypointEdit,
     cell_document,
 )
 from posebridge.api.schemas.errors import error_responses
 from posebridge.cell.files import CellConflictError
-from posebridge.cell.model import Cell, Target
+from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, Pose, Target
 from posebridge.cell.scene import Scene
 from posebridge.transforms import (
     invert_transform,
+    rotation_matrix_from_rpy,
     rpy_from_rotation_matrix,
-    transform_from_position_rpy,
+    transform_points,
 )
-from posebridge.units import m_from_mm, mm_from_m
+from posebridge.units import FloatArray, m_from_mm, mm_from_m
 
 __all__ = ["cell_robot_spec", "index_of_named", "router"]
 
@@ -47,6 +48,9 @@ IfMatch = Annotated[
     ),
 ]
 Name = Annotated[str, Path(min_length=1, max_length=100)]
+WaypointIndex = Annotated[
+    int, Path(ge=0, le=MAX_WAYPOINTS, description="Waypoint position in the path, from 0.")
+]
 
 _CHANGE_ERRORS = error_responses(404, 412, 422, 428)
 
@@ -129,24 +133,38 @@ def _moved(position_mm: list[float] | None, rpy_deg: list[float] | None) -> dict
     return update
 
 
+def _pose_in_frame(
+    T_world_frame: FloatArray, position_mm: list[float] | None, rpy_deg: list[float] | None
+) -> dict[str, object]:
+    """A pose edit given in the world, as the fields stored in the frame ``T_world_frame``
+    (shape (4, 4)): ``T_frame_pose = inv(T_world_frame) T_world_pose`` (Lynch & Park,
+    Modern Robotics, sec. 3.3.1). Position and orientation convert separately, so a field
+    not given keeps its stored value (the frame itself does not move)."""
+    T_frame_world = invert_transform(T_world_frame)
+    update: dict[str, object] = {}
+    if position_mm is not None:
+        local = transform_points(T_frame_world, m_from_mm(position_mm))
+        update["position_mm"] = tuple(float(v) for v in mm_from_m(local))
+    if rpy_deg is not None:
+        R_local = T_frame_world[:3, :3] @ rotation_matrix_from_rpy(rpy_deg, degrees=True)
+        update["rpy_deg"] = tuple(float(v) for v in rpy_from_rotation_matrix(R_local, degrees=True))
+    return update
+
+
 def _target_in_fixture(scene: Scene, target: Target, edit: TargetEdit) -> dict[str, object]:
-    """The edited target pose in its fixture's frame: ``T_fixture_target = inv(T_world_fixture) T_world_target``."""
+    """The edited target pose as stored: in its fixture's frame."""
     if edit.frame == "fixture" or target.fixture == "world":
         return _moved(edit.position_mm, edit.rpy_deg)
-    k = scene.targets.index(target.name)
-    old = scene.targets.T_world_target[k]
-    position = m_from_mm(edit.position_mm) if edit.position_mm is not None else old[:3, 3]
-    if edit.rpy_deg is not None:
-        T_world = transform_from_position_rpy(position, np.asarray(edit.rpy_deg), degrees=True)
-    else:
-        T_world = old.copy()
-        T_world[:3, 3] = position
     T_world_fixture = scene.T_world_fixture[scene.fixture_names.index(target.fixture)]
-    T_local = invert_transform(T_world_fixture) @ T_world
-    return {
-        "position_mm": tuple(float(v) for v in mm_from_m(T_local[:3, 3])),
-        "rpy_deg": tuple(float(v) for v in rpy_from_rotation_matrix(T_local[:3, :3], degrees=True)),
-    }
+    return _pose_in_frame(T_world_fixture, edit.position_mm, edit.rpy_deg)
+
+
+def _fixture_in_parent(scene: Scene, fixture: Fixture, edit: FixtureEdit) -> dict[str, object]:
+    """The edited fixture pose as stored: in its parent's frame (the world without one)."""
+    if edit.frame == "parent" or fixture.parent is None:
+        return _moved(edit.position_mm, edit.rpy_deg)
+    T_world_parent = scene.T_world_fixture[scene.fixture_names.index(fixture.parent)]
+    return _pose_in_frame(T_world_parent, edit.position_mm, edit.rpy_deg)
 
 
 def index_of_named(kind: str, names: list[str], name: str) -> int:
@@ -189,17 +207,75 @@ def move_fixture(
     response: Response,
     if_match: IfMatch = None,
 ) -> CellDocument:
-    """New pose of one fixture in its parent's frame (the world without a parent); its children and targets move with it."""
+    """New pose of one fixture in its parent's frame (the world without a parent) or in the
+    world; its children and targets move with it."""
     expected = _expected_etag(if_match)
-    index = index_of_named(
-        "fixture", [fixture.name for fixture in cells.read().cell.fixtures], name
-    )
-    update = _moved(edit.position_mm, edit.rpy_deg)
+    current = cells.read()
+    index = index_of_named("fixture", [fixture.name for fixture in current.cell.fixtures], name)
+    update = _fixture_in_parent(current.scene, current.cell.fixtures[index], edit)
 
     def change(cell: Cell) -> Cell:
         fixtures = list(cell.fixtures)
         fixtures[index] = fixtures[index].model_copy(update=update)
         return cell.model_copy(update={"fixtures": fixtures})
+
+    return _saved(lambda: cells.edit(change, expected), robots, response)
+
+
+def _pose_waypoint_index(cell: Cell, name: str, index: int) -> tuple[int, int]:
+    """Indices of path ``name`` and of its waypoint ``index``, which must be a pose
+    waypoint: 404 for an unknown path or index, 422 for a target or joint-values waypoint."""
+    p = index_of_named("path", [path.name for path in cell.paths], name)
+    waypoints = cell.paths[p].waypoints
+    if index >= len(waypoints):
+        raise HTTPException(
+            status_code=404,
+            detail=f"waypoint: path {name!r} has no waypoint {index} "
+            f"(it has {len(waypoints)}, numbered from 0)",
+        )
+    waypoint = waypoints[index]
+    where = f"waypoint {index} of path {name!r}"
+    if waypoint.target is not None:
+        kind = "the approach pose of target" if waypoint.approach else "target"
+        raise HTTPException(
+            status_code=422,
+            detail=f"waypoint: {where} is {kind} {waypoint.target!r}, not a pose; move the "
+            f"target instead (PATCH /api/cell/targets/{waypoint.target})",
+        )
+    if waypoint.joints_deg is not None:
+        raise HTTPException(
+            status_code=422,
+            detail=f"waypoint: {where} is given as joint values, not a pose; edit its "
+            "joints_deg instead (PUT /api/cell)",
+        )
+    return p, index
+
+
+@router.patch(
+    "/paths/{name}/waypoints/{index}", summary="Move a pose waypoint", responses=_CHANGE_ERRORS
+)
+def move_waypoint(
+    name: Name,
+    index: WaypointIndex,
+    edit: WaypointEdit,
+    cells: CellsDep,
+    robots: RobotsDep,
+    response: Response,
+    if_match: IfMatch = None,
+) -> CellDocument:
+    """New tool pose in the world of a path waypoint given as a pose. Target waypoints move
+    with their target, joint-values waypoints are edited in the cell file."""
+    expected = _expected_etag(if_match)
+    pose = Pose.model_validate(edit.model_dump())
+
+    def change(cell: Cell) -> Cell:
+        # looked up in the version the edit was made from (a stale version is 412 first)
+        p, w = _pose_waypoint_index(cell, name, index)
+        waypoints = list(cell.paths[p].waypoints)
+        waypoints[w] = waypoints[w].model_copy(update={"pose": pose})
+        paths = list(cell.paths)
+        paths[p] = paths[p].model_copy(update={"waypoints": waypoints})
+        return cell.model_copy(update={"paths": paths})
 
     return _saved(lambda: cells.edit(change, expected), robots, response)
 

@@ -1,9 +1,9 @@
 """The cell as the page reads and edits it: the file content, its version and a drawing of it.
 
 The drawing (:class:`SceneDrawing`) is the resolved scene in world
-millimetres and degrees: every shape's centre pose and size, targets as tool
-poses, path waypoints as tool poses. Orientations are roll, pitch, yaw in
-degrees about fixed X, Y, Z: R = Rz(yaw) Ry(pitch) Rx(roll).
+millimetres and degrees: every shape's centre pose and size, every fixture's
+frame, targets as tool poses, path waypoints as tool poses. Orientations are
+roll, pitch, yaw in degrees about fixed X, Y, Z: R = Rz(yaw) Ry(pitch) Rx(roll).
 """
 
 from __future__ import annotations
@@ -22,6 +22,7 @@ __all__ = [
     "BaseDrawing",
     "BaseEdit",
     "CellDocument",
+    "FixtureDrawing",
     "FixtureEdit",
     "PathDrawing",
     "SceneDrawing",
@@ -30,6 +31,7 @@ __all__ = [
     "TargetEdit",
     "ToolDrawing",
     "WaypointDrawing",
+    "WaypointEdit",
     "cell_document",
 ]
 
@@ -56,6 +58,19 @@ class ShapeDrawing(BaseModel):
     )
     radius_mm: float | None = Field(description="Cylinder radius; null for a box.")
     height_mm: float | None = Field(description="Cylinder length along its z; null for a box.")
+
+
+# A fixture's frame in the world (frames without geometry included).
+class FixtureDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    parent: str | None = Field(
+        description="Parent fixture; null for a fixture placed in the world."
+    )
+    shape: Literal["box", "cylinder", "frame"]
+    position_mm: list[float] = Field(description="Frame origin in the world.")
+    rpy_deg: list[float] = Field(description="Frame orientation in the world. " + _RPY)
 
 
 # A target as a world tool pose, with its approach position.
@@ -132,6 +147,7 @@ class SceneDrawing(BaseModel):
     tool: ToolDrawing
     floor_height_mm: float
     shapes: list[ShapeDrawing]
+    fixtures: list[FixtureDrawing]
     targets: list[TargetDrawing]
     paths: list[PathDrawing]
 
@@ -159,12 +175,25 @@ class TargetEdit(BaseModel):
     )
 
 
-# Move a fixture: new pose in its parent's frame (the world without a parent).
+# Move a fixture: new pose in its parent's frame (the world without a parent), or in the world.
 class FixtureEdit(BaseModel):
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Position | None = None
     rpy_deg: Rpy | None = None
+    frame: Literal["parent", "world"] = Field(
+        default="parent",
+        description="Frame of the given pose: the fixture's parent (the world without one) "
+        "or the world.",
+    )
+
+
+# Move a pose waypoint of a path: its new tool pose in the world.
+class WaypointEdit(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    position_mm: Position = Field(description="Tool position in the world.")
+    rpy_deg: Rpy
 
 
 # Move the robot: new pedestal foot pose in the world, and optionally a new pedestal height.
@@ -232,6 +261,17 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
     targets = scene.targets
     positions, rpys = _pose_mm_deg(targets.T_world_target)
     approach = mm_from_m(targets.T_world_approach[:, :3, 3]).tolist()
+    fixture_positions, fixture_rpys = _pose_mm_deg(scene.T_world_fixture)
+    fixtures = [
+        FixtureDrawing(
+            name=fixture.name,
+            parent=fixture.parent,
+            shape=fixture.shape,
+            position_mm=fixture_positions[k],
+            rpy_deg=fixture_rpys[k],
+        )
+        for k, fixture in enumerate(scene.cell.fixtures)
+    ]
     paths = []
     for path in scene.paths:
         wp_positions, wp_rpys = _pose_mm_deg(path.T_world_tool)
@@ -274,6 +314,7 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
             *_boxes(scene.keep_outs, "keep_out"),
             *_cylinders(scene.pedestal, "pedestal"),
         ],
+        fixtures=fixtures,
         targets=[
             TargetDrawing(
                 name=name,
