@@ -26,6 +26,22 @@ export function createActions({ store }) {
     setTarget({ ...target, position_mm: position }, { inputAt });
   }
 
+  /** Move the selected fixture on the page ({name, position_mm, rpy_deg} in the world); reason "fixture" is saved. */
+  function setFixture(fixture, { reason = "fixture" } = {}) {
+    store.update({ fixture }, { reason });
+  }
+
+  /** Move the selected fixture by `steps` nudge steps along axis 0, 1 or 2 (x, y, z). */
+  function nudgeFixture(axis, steps) {
+    const { fixture, stepMm } = get();
+    if (!fixture) {
+      return;
+    }
+    const position = [...fixture.position_mm];
+    position[axis] += steps * stepMm;
+    setFixture({ ...fixture, position_mm: position });
+  }
+
   function setJoints(joints, { reason = "joints" } = {}) {
     store.update({ joints }, { reason });
   }
@@ -60,7 +76,7 @@ export function createActions({ store }) {
     store.update({ map3Joints: triple });
   }
 
-  /** Select a cell target or path waypoint; cellsync.js moves the target onto it. */
+  /** Select a cell target, path waypoint or fixture; cellsync.js moves the target (or the page's fixture) onto it. */
   function select(selection) {
     store.update({ selection }, { reason: "select" });
   }
@@ -81,7 +97,7 @@ export function createActions({ store }) {
     store.update({ follow });
   }
 
-  /** A pointer drag started or ended; `kind` says what is dragged ("target" or "joints"). */
+  /** A pointer drag started or ended; `kind` says what is dragged ("target", "fixture" or "joints"). */
   function setDragging(dragging, kind = "target") {
     store.update({ dragging, dragKind: dragging ? kind : null });
   }
@@ -93,6 +109,8 @@ export function createActions({ store }) {
   return {
     setTarget,
     nudgeTarget,
+    setFixture,
+    nudgeFixture,
     setJoints,
     setJoint,
     selectSolution,

@@ -95,6 +95,8 @@ export function createApiClient({ baseUrl = "" } = {}) {
       request(`/api/cell/targets/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
     moveFixture: (name, body, etag) =>
       request(`/api/cell/fixtures/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
+    moveWaypoint: (path, index, body, etag) =>
+      request(`/api/cell/paths/${encodeURIComponent(path)}/waypoints/${index}`, { method: "PATCH", body, ifMatch: etag }),
     moveBase: (body, etag) => request("/api/cell/base", { method: "PATCH", body, ifMatch: etag }),
     startJointMap: (body) => request("/api/maps/joint", { method: "POST", body }),
     startReachSection: (body) => request("/api/maps/reach-section", { method: "POST", body }),

@@ -1,13 +1,16 @@
 // The cell on the page: loads it from the server, turns the selected target or
-// waypoint into the page's target pose, and saves target moves back into the
-// cell. A move is saved when the drag ends (or SAVE_DELAY_MS after the last
-// typed or keyed change), with the content version it was made from; if the
-// cell was changed elsewhere meanwhile the server refuses (412), the page
-// reloads the cell and says the move was not saved.
+// waypoint into the page's target pose (and a selected fixture into the page's
+// fixture pose), and saves moves back into the cell: a cell target, a waypoint
+// given as a pose, a fixture. A move is saved when the drag ends (or
+// SAVE_DELAY_MS after the last typed or keyed change), with the content
+// version it was made from; moves of several items are saved one after the
+// other. If the cell was changed elsewhere meanwhile the server refuses (412),
+// the page reloads the cell and says the move was not saved.
 //
 // On a reviewer's page (readOnly in the store) nothing is sent: a target can
 // still be moved on the page to look at its IK answers, but the move stays
-// local, and the status line says once that changes are not saved.
+// local, and the status line says once that changes are not saved. A fixture
+// is not moved at all (its targets would not follow without a save).
 
 import { ApiError } from "./api.js";
 
@@ -51,13 +54,82 @@ export function selectedWaypoint({ cell, selection }) {
   return cell.scene.paths.find((p) => p.name === selection.path)?.waypoints[selection.index] || null;
 }
 
+/** The selected fixture's drawing (its frame in the world), or null. */
+export function selectedFixture({ cell, selection }) {
+  if (!cell || !selection || selection.kind !== "fixture") {
+    return null;
+  }
+  return cell.scene.fixtures.find((fixture) => fixture.name === selection.name) || null;
+}
+
+/**
+ * The cell target the page's target shows: the selected target, or while a
+ * fixture is selected the target that was shown when it was selected; or null.
+ */
+export function shownTarget(state) {
+  const { cell, selection } = state;
+  if (cell && selection && selection.kind === "fixture") {
+    return cell.scene.targets.find((target) => target.name === selection.target) || null;
+  }
+  return selectedTarget(state);
+}
+
+/** The selection of fixture `name`, keeping the page's target on the cell target it shows. */
+export function fixtureSelection(state, name) {
+  const target = shownTarget(state);
+  return { kind: "fixture", name, target: target ? target.name : null };
+}
+
+/**
+ * What a move of the page's target moves in the cell: {kind: "target", name} for
+ * a selected target (or a waypoint at a target), {kind: "waypoint", path, index}
+ * for a selected waypoint given as a pose, null otherwise (approach and
+ * joint-values waypoints, fixtures).
+ */
+export function movedItem(state) {
+  const target = selectedTarget(state);
+  if (target) {
+    return { kind: "target", name: target.name };
+  }
+  const waypoint = selectedWaypoint(state);
+  if (waypoint && waypoint.source === "pose") {
+    return { kind: "waypoint", path: state.selection.path, index: state.selection.index };
+  }
+  return null;
+}
+
+/** Names of fixture `name` and of every fixture under it (children, their children...). */
+export function fixtureFamily(fixtures, name) {
+  const family = new Set([name]);
+  let grown = true;
+  while (grown) {
+    grown = false;
+    for (const fixture of fixtures) {
+      if (fixture.parent && family.has(fixture.parent) && !family.has(fixture.name)) {
+        family.add(fixture.name);
+        grown = true;
+      }
+    }
+  }
+  return family;
+}
+
+function poseOf(drawing) {
+  return { position_mm: [...drawing.position_mm], rpy_deg: [...drawing.rpy_deg] };
+}
+
+function samePose(a, b) {
+  return [...a.position_mm, ...a.rpy_deg].every((value, k) => Math.abs(value - [...b.position_mm, ...b.rpy_deg][k]) <= 1e-6);
+}
+
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
  * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>}}
  */
 export function createCellSync({ store, actions, api, linking }) {
   let saveTimer = null;
-  let pending = null;
+  // moves not yet sent, one per cell item: key -> {label, send(etag) -> Promise<cell document>}
+  const pending = new Map();
   let saving = false;
   let toldNotSaved = false;
 
@@ -73,7 +145,7 @@ export function createCellSync({ store, actions, api, linking }) {
   function poseOfSelection(state) {
     const target = selectedTarget(state);
     if (target) {
-      return { position_mm: [...target.position_mm], rpy_deg: [...target.rpy_deg] };
+      return poseOf(target);
     }
     const waypoint = selectedWaypoint(state);
     if (waypoint) {
@@ -90,6 +162,8 @@ export function createCellSync({ store, actions, api, linking }) {
     if (!state.cellActive) {
       return;
     }
+    const fixture = selectedFixture(state);
+    store.update({ fixture: fixture ? { name: fixture.name, ...poseOf(fixture) } : null }, { reason: "select" });
     const target = selectedTarget(state);
     const waypoint = selectedWaypoint(state);
     if (waypoint && waypoint.joints_deg) {
@@ -105,38 +179,46 @@ export function createCellSync({ store, actions, api, linking }) {
 
   async function save() {
     saveTimer = null;
-    if (saving || pending === null) {
+    if (saving || pending.size === 0) {
       return;
     }
     if (store.get().readOnly) {
-      pending = null;
+      pending.clear();
       notSaved();
       return;
     }
-    const { name, pose } = pending;
-    pending = null;
+    const [key, { label, send }] = pending.entries().next().value;
+    pending.delete(key);
     saving = true;
     const { cell } = store.get();
-    store.update({ cellSave: { state: "saving", message: `Saving ${name}…` } });
+    store.update({ cellSave: { state: "saving", message: `Saving ${label}…` } });
     try {
-      const document = await api.moveTarget(name, pose, cell.etag);
-      store.update({ cell: document, cellSave: { state: "saved", message: `Saved ${name}` } });
+      const document = await send(cell.etag);
+      store.update({ cell: document, cellSave: { state: "saved", message: `Saved ${label}` } });
     } catch (error) {
       if (error instanceof ApiError && error.status === 412) {
-        pending = null;
+        pending.clear();
         store.update({ cellSave: { state: "conflict", message: "Changed elsewhere: reloaded, move not saved" } });
-        actions.setStatus("warn", `The cell was changed in another page or program; it was reloaded and the move of ${name} was not saved.`);
+        actions.setStatus("warn", `The cell was changed in another page or program; it was reloaded and the move of ${label} was not saved.`);
         await reloadCell();
       } else {
         store.update({ cellSave: { state: "error", message: error.message } });
-        actions.setStatus("error", `Saving ${name}: ${error.message}`);
+        actions.setStatus("error", `Saving ${label}: ${error.message}`);
       }
     } finally {
       saving = false;
-      if (pending !== null) {
+      if (pending.size > 0) {
         scheduleSave();
       }
     }
+  }
+
+  /** Keep the latest move of one cell item until it is saved; `send(etag)` saves it. */
+  function queue(key, label, send) {
+    pending.set(key, { label, send });
+    const { readOnly } = store.get();
+    store.update({ cellSave: readOnly ? REVIEW_SAVE_STATE : { state: "unsaved", message: `${label} moved` } });
+    scheduleSave();
   }
 
   function scheduleSave() {
@@ -150,26 +232,54 @@ export function createCellSync({ store, actions, api, linking }) {
     saveTimer = setTimeout(save, SAVE_DELAY_MS);
   }
 
-  // a user edit of the target (drag, keys, typed values) moves the selected cell target
+  // a user edit of the target (drag, keys, typed values) moves the selected cell
+  // target or pose waypoint
   store.subscribe(
     (state, { reason }) => {
       if (reason !== "target" || !state.cellActive) {
         return;
       }
-      const target = selectedTarget(state);
-      if (!target) {
+      const item = movedItem(state);
+      if (!item) {
         return;
       }
-      pending = { name: target.name, pose: { position_mm: state.target.position_mm, rpy_deg: state.target.rpy_deg } };
-      store.update({ cellSave: state.readOnly ? REVIEW_SAVE_STATE : { state: "unsaved", message: `${target.name} moved` } });
-      scheduleSave();
+      const pose = { position_mm: [...state.target.position_mm], rpy_deg: [...state.target.rpy_deg] };
+      if (item.kind === "target") {
+        queue(`target ${item.name}`, item.name, (etag) => api.moveTarget(item.name, pose, etag));
+      } else {
+        queue(`waypoint ${item.path} ${item.index}`, `${item.path} waypoint ${item.index + 1}`, (etag) =>
+          api.moveWaypoint(item.path, item.index, pose, etag),
+        );
+      }
     },
     { keys: ["target"] },
   );
 
+  // a user edit of the selected fixture (drag, keys, typed values), given in the
+  // world: its targets move with it once saved
+  store.subscribe(
+    (state, { reason }) => {
+      const drawn = selectedFixture(state);
+      if (reason !== "fixture" || !state.cellActive || !state.fixture || !drawn || drawn.name !== state.fixture.name) {
+        return;
+      }
+      if (state.readOnly) {
+        notSaved();
+        store.update({ fixture: { name: drawn.name, ...poseOf(drawn) } }, { reason: "select" });
+        return;
+      }
+      const { name, position_mm: position, rpy_deg: rpy } = state.fixture;
+      // the orientation is sent only when it changed, so a move keeps the stored one exactly
+      const turned = rpy.some((value, k) => Math.abs(value - drawn.rpy_deg[k]) > 1e-9);
+      const edit = { position_mm: [...position], frame: "world", ...(turned ? { rpy_deg: [...rpy] } : {}) };
+      queue(`fixture ${name}`, name, (etag) => api.moveFixture(name, edit, etag));
+    },
+    { keys: ["fixture"] },
+  );
+
   store.subscribe(
     (state) => {
-      if (!state.dragging && pending !== null) {
+      if (!state.dragging && pending.size > 0) {
         scheduleSave();
       }
     },
@@ -178,18 +288,20 @@ export function createCellSync({ store, actions, api, linking }) {
 
   store.subscribe(applySelection, { keys: ["selection"] });
 
-  // a new cell version may have moved the selected target (its fixture moved): follow it
+  // a new cell version may have moved the shown target (its fixture moved) or the
+  // selected fixture: the page follows (and asks IK for the moved target)
   store.subscribe(
     (state) => {
-      const target = selectedTarget(state);
-      if (!state.cellActive || !target || !state.target || pending !== null || state.dragging) {
+      if (!state.cellActive || pending.size > 0 || state.dragging) {
         return;
       }
-      const moved = [...target.position_mm, ...target.rpy_deg].some(
-        (value, k) => Math.abs(value - [...state.target.position_mm, ...state.target.rpy_deg][k]) > 1e-6,
-      );
-      if (moved) {
-        actions.setTarget({ position_mm: [...target.position_mm], rpy_deg: [...target.rpy_deg] }, { reason: "select-target" });
+      const target = shownTarget(state);
+      if (target && state.target && !samePose(target, state.target)) {
+        actions.setTarget(poseOf(target), { reason: "select-target" });
+      }
+      const fixture = selectedFixture(state);
+      if (fixture && state.fixture && !samePose(fixture, state.fixture)) {
+        store.update({ fixture: { name: fixture.name, ...poseOf(fixture) } }, { reason: "select" });
       }
     },
     { keys: ["cell"] },

@@ -28,3 +28,18 @@ export function matrixFromQuaternion([w, x, y, z]) {
 export function column(matrix, k) {
   return [matrix[0][k], matrix[1][k], matrix[2][k]];
 }
+
+/**
+ * The rigid motion carrying pose `from` onto pose `to` (both {position_mm, rpy_deg}
+ * in the world), as a function of a world point: p' = R_to R_from^T (p - t_from) + t_to.
+ */
+export function rigidMotion(from, to) {
+  const A = matrixFromRpyDeg(from.rpy_deg);
+  const B = matrixFromRpyDeg(to.rpy_deg);
+  // D = B A^T
+  const D = [0, 1, 2].map((i) => [0, 1, 2].map((j) => B[i][0] * A[j][0] + B[i][1] * A[j][1] + B[i][2] * A[j][2]));
+  return (point) => {
+    const d = [0, 1, 2].map((k) => point[k] - from.position_mm[k]);
+    return [0, 1, 2].map((i) => D[i][0] * d[0] + D[i][1] * d[1] + D[i][2] * d[2] + to.position_mm[i]);
+  };
+}

@@ -16,7 +16,7 @@
  *   selectedBranch  {label, shoulder, elbow, wrist} of the branch the arm follows, or null
  *   follow          the arm follows the target on the selected branch
  *   dragging        a pointer drag is in progress in a 2D view
- *   dragKind        what is dragged: "target" (plan, elevation) or "joints" (joint map), or null
+ *   dragKind        what is dragged: "target" or "fixture" (plan, elevation) or "joints" (joint map), or null
  *   mapJoints       [i, j]: joint indices on the joint map's horizontal and vertical axes
  *   stepMm          nudge step and snapping grid for positions, mm
  *   stepDeg         nudge step for angles, deg
@@ -25,7 +25,11 @@
  *   readOnly        a reviewer's page of a shared dashboard (review.js): nothing is saved into the cell
  *   cell            the server's cell (GET /api/cell answer: etag, robot, cell, scene) or null
  *   cellActive      the page shows the cell: its robot is loaded, poses are world poses
- *   selection       {kind: "target", name, path?} | {kind: "waypoint", path, index} | null
+ *   selection       {kind: "target", name, path?} | {kind: "waypoint", path, index} |
+ *                   {kind: "fixture", name, target} (target: the cell target the page's target
+ *                   still shows, or null) | null
+ *   fixture         {name, position_mm, rpy_deg}: the selected fixture's frame in the world as
+ *                   moved on the page (saved into the cell after a drag or typed change), or null
  *   cellSave        {state: "saved" | "unsaved" | "saving" | "conflict" | "error" | "review", message}
  *   jointMap        finished two-joint map (JointMapResult) or null
  *   jointMapJob     {state, done, total, detail} of the two-joint map being computed (state
@@ -66,6 +70,7 @@ export function initialState() {
     cell: null,
     cellActive: false,
     selection: null,
+    fixture: null,
     cellSave: { state: "saved", message: "" },
     jointMap: null,
     jointMapJob: null,

@@ -1,8 +1,20 @@
 // The cell panel: the cell's title and file, whether edits are saved, and the
-// list of targets and path waypoints to select. The selected one becomes the
-// page's target; dragging it edits the cell.
+// list of targets, path waypoints and fixtures to select. A selected target or
+// waypoint becomes the page's target; dragging it edits the cell. A selected
+// fixture is dragged in the plan and elevation too, or typed here (its frame's
+// position and yaw in the world); the targets on it move with it. The fixture
+// fields always save into the cell, so they carry `data-edits-cell` (review.js
+// disables them for reviewers).
 
-import { element, onChoose } from "./fields.js";
+import { fixtureSelection } from "../cellsync.js";
+import { element, numberField, onChoose, showValue } from "./fields.js";
+
+const FIXTURE_FIELDS = [
+  { name: "x", unit: "mm", axis: 0 },
+  { name: "y", unit: "mm", axis: 1 },
+  { name: "z", unit: "mm", axis: 2 },
+  { name: "yaw", unit: "deg", axis: 5 },
+];
 
 function branchText(branch) {
   if (!branch) {
@@ -19,6 +31,11 @@ function waypointText(waypoint) {
   return `${waypoint.source === "joints" ? "joint values" : "pose"} (${move})`;
 }
 
+/** The list row a selection marks: a fixture's row whatever target the page still shows. */
+function rowKey(selection) {
+  return JSON.stringify(selection && selection.kind === "fixture" ? { kind: "fixture", name: selection.name } : selection);
+}
+
 /**
  * @param {{container: HTMLElement, store: object, actions: object, onShowCell: () => void}} options
  *   onShowCell: called by the "show the cell" button when another robot is shown.
@@ -28,8 +45,31 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
   const saveState = element("output", { className: "pb-save", attributes: { id: "cell-save", role: "status" } });
   const back = element("button", { text: "Show the cell", attributes: { type: "button", id: "cell-show" } });
   back.addEventListener("click", onShowCell);
-  const list = element("div", { className: "pb-cell-list", attributes: { id: "cell-items", role: "listbox", "aria-label": "Targets and path waypoints" } });
-  container.append(element("div", { className: "pb-controls" }, [info, saveState, back]), list);
+  const list = element("div", { className: "pb-cell-list", attributes: { id: "cell-items", role: "listbox", "aria-label": "Targets, path waypoints and fixtures" } });
+  const fixtureFields = FIXTURE_FIELDS.map(({ name, unit, axis }) => {
+    const field = numberField({
+      name,
+      unit,
+      id: `fixture-${name}`,
+      onCommit: (value) => {
+        const { fixture } = store.get();
+        if (!fixture) {
+          return;
+        }
+        const pose = [...fixture.position_mm, ...fixture.rpy_deg];
+        pose[axis] = value;
+        actions.setFixture({ ...fixture, position_mm: pose.slice(0, 3), rpy_deg: pose.slice(3) });
+      },
+    });
+    field.input.setAttribute("data-edits-cell", "");
+    return field;
+  });
+  const fixtureTitle = element("p", { className: "pb-note", attributes: { id: "fixture-title" } });
+  const fixturePanel = element("div", { className: "pb-fixture-fields", attributes: { id: "fixture-fields", hidden: "" } }, [
+    fixtureTitle,
+    element("div", { className: "pb-fields" }, fixtureFields.map((field) => field.label)),
+  ]);
+  container.append(element("div", { className: "pb-controls" }, [info, saveState, back]), list, fixturePanel);
   let builtFor = null;
   let markedFor = null;
 
@@ -38,8 +78,8 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
       element("span", { text }),
       element("span", { className: "pb-hint", text: detail }),
     ]);
-    row.dataset.key = JSON.stringify(selection);
-    onChoose(row, () => actions.select(selection));
+    row.dataset.key = rowKey(selection);
+    onChoose(row, () => actions.select(selection.kind === "fixture" ? fixtureSelection(store.get(), selection.name) : selection));
     return row;
   }
 
@@ -65,7 +105,29 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
         }));
       });
     }
+    rows.push(element("h4", { text: `Fixtures (${scene.fixtures.length})` }));
+    for (const fixture of scene.fixtures) {
+      rows.push(item({
+        text: fixture.name,
+        detail: `${fixture.shape} on ${fixture.parent || "world"}`,
+        selection: { kind: "fixture", name: fixture.name },
+        id: `cell-fixture-${fixture.name}`,
+      }));
+    }
     list.replaceChildren(...rows);
+  }
+
+  /** The selected fixture's fields: its frame in the world as on the page. */
+  function renderFixture() {
+    const { fixture, selection, cellActive } = store.get();
+    const shown = Boolean(cellActive && fixture && selection && selection.kind === "fixture");
+    fixturePanel.hidden = !shown;
+    if (!shown) {
+      return;
+    }
+    fixtureTitle.textContent = `Fixture ${fixture.name}: frame origin and yaw in the world; the targets on it move with it`;
+    const pose = [...fixture.position_mm, ...fixture.rpy_deg];
+    FIXTURE_FIELDS.forEach(({ axis }, k) => showValue(fixtureFields[k].input, pose[axis], axis < 3 ? 1 : 2));
   }
 
   function render() {
@@ -86,7 +148,7 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
       builtFor = key;
     }
     list.classList.toggle("pb-disabled", !cellActive);
-    const selected = JSON.stringify(selection);
+    const selected = rowKey(selection);
     if (selected !== markedFor || rebuilt) {
       markedFor = selected;
       for (const row of list.querySelectorAll(".pb-cell-item")) {
@@ -96,5 +158,6 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
   }
 
   store.subscribe(render, { keys: ["cell", "cellActive", "selection", "cellSave"] });
+  store.subscribe(renderFixture, { keys: ["fixture", "selection", "cellActive"] });
   return { render };
 }

@@ -1,9 +1,10 @@
 // Target pose panel: typed position (mm) and orientation (deg), nudge step,
-// snapping, and whether the arm follows the target. While a cell target is
-// selected, the typed values and "Target ← tool" move it in the cell (saved),
-// so they carry `data-edits-cell` then (review.js disables them for reviewers).
+// snapping, and whether the arm follows the target. While a cell target or a
+// pose waypoint is selected, the typed values and "Target ← tool" move it in
+// the cell (saved), so they carry `data-edits-cell` then (review.js disables
+// them for reviewers).
 
-import { selectedTarget } from "../cellsync.js";
+import { movedItem } from "../cellsync.js";
 import { element, numberField, showValue } from "./fields.js";
 
 const STEPS_MM = [1, 5, 10, 25, 50, 100];
@@ -79,10 +80,10 @@ export function createTargetPanel({ container, store, actions }) {
     reach.checked = store.get().showReach;
   }
 
-  /** Mark the controls that would save into the cell: a cell target is selected. */
+  /** Mark the controls that would save into the cell: a cell target or pose waypoint is selected. */
   function markEdits() {
     const state = store.get();
-    const saves = state.cellActive && selectedTarget(state) !== null;
+    const saves = state.cellActive && movedItem(state) !== null;
     for (const control of [...fields.map((field) => field.input), fromTool]) {
       control.toggleAttribute("data-edits-cell", saves);
     }

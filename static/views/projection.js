@@ -1,8 +1,11 @@
 // A 2D orthographic view of the cell: plan (x-y, seen from above) or
 // elevation (x-z, seen from the -y side). The arm's capsules project to
 // stadium outlines; the target can be dragged, typed (target panel) or nudged
-// with the keyboard. The target is drawn on an SVG layer above the plot, so
-// moving it costs no plot redraw; the arm is redrawn at most every
+// with the keyboard, and so can a selected fixture (square marker; the keys
+// nudge the fixture while one is selected). Target and fixture markers are
+// drawn on an SVG layer above the plot, so moving them costs no plot redraw
+// (a fixture moved but not yet saved shows its solids and targets, and those of
+// the fixtures under it, at their new place on that layer); the arm is redrawn at most every
 // ARM_REDRAW_MS while it follows a drag, by restyling its own traces only:
 // they live in a light top figure over a base figure holding the axes and the
 // cell (two layers with the same plot area), so a restyle redraws no outline.
@@ -13,9 +16,10 @@
 
 import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
-import { projectedOutline } from "./shapes.js";
+import { convexHull, projectedOutline, shapePoints } from "./shapes.js";
 import { viewBounds } from "./scene3d.js";
-import { matrixFromRpyDeg, column } from "../rotation.js";
+import { fixtureFamily, selectedFixture } from "../cellsync.js";
+import { matrixFromRpyDeg, column, rigidMotion } from "../rotation.js";
 import { snapToStep } from "../units.js";
 
 const AXIS_NAMES = ["x", "y", "z"];
@@ -80,7 +84,7 @@ export function createProjectionView({
 }) {
   const [h, v] = axes;
   const third = [0, 1, 2].find((k) => k !== h && k !== v);
-  let dragging = false;
+  let dragged = null; // "target" or "fixture" while a drag is in progress
 
   function ranges(state) {
     const [low, high] = viewBounds(state);
@@ -192,32 +196,58 @@ export function createProjectionView({
     ];
   }
 
-  const approach = document.createElementNS(SVG, "line");
-  approach.setAttribute("class", "pb-target-approach");
-  const mark = document.createElementNS(SVG, "path");
-  mark.setAttribute("class", "pb-target-mark");
+  const svgNode = (tag, className) => {
+    const node = document.createElementNS(SVG, tag);
+    node.setAttribute("class", className);
+    return node;
+  };
+  const fixturePreview = svgNode("path", "pb-fixture-preview");
+  const fixtureMark = svgNode("path", "pb-fixture-mark");
+  fixtureMark.setAttribute("d", "M -7 -7 H 7 V 7 H -7 Z M -3 0 H 3 M 0 -3 V 3");
+  const approach = svgNode("line", "pb-target-approach");
+  const mark = svgNode("path", "pb-target-mark");
   mark.setAttribute("d", "M 0 -9 L 9 0 L 0 9 L -9 0 Z");
-  overlay.append(approach, mark);
+  overlay.append(fixturePreview, fixtureMark, approach, mark);
 
   /**
-   * Place the target diamond and its approach line (tool z axis) on the overlay.
-   * Positions come from the figure's own plot-area size and ranges (the overlay
-   * covers the figure exactly), so a drag reads no layout from the page.
+   * Data (mm) to overlay pixel coordinates, from the figure's own plot-area size
+   * and ranges (the overlay covers the figure exactly), so a drag reads no
+   * layout from the page; null before the figure is drawn.
    */
-  function placeTarget() {
-    const { target } = store.get();
+  function overlayMapping() {
     const full = element._fullLayout;
-    const ready = target && full && full._size && full.xaxis && full.yaxis;
-    overlay.style.display = ready ? "" : "none";
-    if (!ready) {
-      return;
+    if (!(full && full._size && full.xaxis && full.yaxis)) {
+      return null;
     }
     const { l, t, w, h: height } = full._size;
     const [xr, yr] = [full.xaxis.range, full.yaxis.range];
-    const toOverlay = (x, y) => [
-      l + ((x - xr[0]) / (xr[1] - xr[0])) * w,
-      t + ((yr[1] - y) / (yr[1] - yr[0])) * height,
-    ];
+    return (x, y) => [l + ((x - xr[0]) / (xr[1] - xr[0])) * w, t + ((yr[1] - y) / (yr[1] - yr[0])) * height];
+  }
+
+  /** The selected fixture's pose on the page (the one dragged), or null. */
+  function movableFixture(state) {
+    const drawn = selectedFixture(state);
+    return drawn && state.fixture && state.fixture.name === drawn.name ? state.fixture : null;
+  }
+
+  /** Place the target diamond and its approach line (tool z axis), and the fixture marker, on the overlay. */
+  function placeMarkers() {
+    const toOverlay = overlayMapping();
+    overlay.style.display = toOverlay ? "" : "none";
+    if (toOverlay) {
+      placeTarget(toOverlay);
+      placeFixture(toOverlay);
+    }
+  }
+
+  function placeTarget(toOverlay) {
+    const { target } = store.get();
+    for (const node of [mark, approach]) {
+      node.style.display = target ? "" : "none";
+    }
+    if (!target) {
+      return;
+    }
     const axis = column(matrixFromRpyDeg(target.rpy_deg), 2);
     const [px, py] = [target.position_mm[h], target.position_mm[v]];
     const [x, y] = toOverlay(px, py);
@@ -227,6 +257,46 @@ export function createProjectionView({
     approach.setAttribute("y1", y.toFixed(1));
     approach.setAttribute("x2", tx.toFixed(1));
     approach.setAttribute("y2", ty.toFixed(1));
+  }
+
+  /**
+   * The selected fixture's marker at its page pose; while that differs from the
+   * saved one, its solids and targets (and those of the fixtures under it) drawn
+   * moved with it, as outlines on the overlay.
+   */
+  function placeFixture(toOverlay) {
+    const state = store.get();
+    const moved = movableFixture(state);
+    fixtureMark.style.display = moved ? "" : "none";
+    fixturePreview.style.display = "none";
+    if (!moved) {
+      return;
+    }
+    const [x, y] = toOverlay(moved.position_mm[h], moved.position_mm[v]);
+    fixtureMark.setAttribute("transform", `translate(${x.toFixed(1)} ${y.toFixed(1)})`);
+    const drawn = selectedFixture(state);
+    const still = [...drawn.position_mm, ...drawn.rpy_deg].every(
+      (value, k) => value === [...moved.position_mm, ...moved.rpy_deg][k],
+    );
+    if (still) {
+      return;
+    }
+    const carry = rigidMotion(drawn, moved);
+    const family = fixtureFamily(state.cell.scene.fixtures, drawn.name);
+    const pixel = (point) => {
+      const p = carry(point);
+      return toOverlay(p[h], p[v]);
+    };
+    const outline = (points) => `M ${points.map(([px, py]) => `${px.toFixed(1)} ${py.toFixed(1)}`).join(" L ")} Z`;
+    const parts = state.cell.scene.shapes
+      .filter((shape) => shape.role === "fixture" && family.has(shape.name))
+      .map((shape) => outline(convexHull(shapePoints(shape).map(pixel))));
+    for (const target of state.cell.scene.targets.filter((t) => family.has(t.fixture))) {
+      const [tx, ty] = pixel(target.position_mm);
+      parts.push(outline([[tx, ty - 5], [tx + 5, ty], [tx, ty + 5], [tx - 5, ty]]));
+    }
+    fixturePreview.setAttribute("d", parts.join(" "));
+    fixturePreview.style.display = "";
   }
 
   let staticKey = null;
@@ -242,7 +312,7 @@ export function createProjectionView({
     const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}|${reach ? `${reach.cell_etag}|${reach.requested_mm}` : "none"}`;
     if (key === staticKey && element.data) {
       const update = { x: arm.map((trace) => trace.x), y: arm.map((trace) => trace.y) };
-      Plotly.restyle(element, update, arm.map((_, k) => k)).then(placeTarget);
+      Plotly.restyle(element, update, arm.map((_, k) => k)).then(placeMarkers);
       return;
     }
     staticKey = key;
@@ -261,7 +331,7 @@ export function createProjectionView({
     });
     layout.uirevision = `${robot.robot}|${cellActive}`;
     draw(base, data, layout);
-    draw(element, arm, topLayout(layout)).then(placeTarget);
+    draw(element, arm, topLayout(layout)).then(placeMarkers);
   }
 
   const requestRender = frameScheduler({
@@ -269,32 +339,41 @@ export function createProjectionView({
     minIntervalMs: () => (store.get().dragging ? ARM_REDRAW_WHILE_DRAGGING_MS : ARM_REDRAW_MS),
   });
   store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey] });
-  store.subscribe(placeTarget, { keys: ["target"] });
-  new ResizeObserver(placeTarget).observe(element);
+  store.subscribe(placeMarkers, { keys: ["target", "fixture", "selection"] });
+  new ResizeObserver(placeMarkers).observe(element);
 
-  function movedTarget(point) {
-    const { target, snap, stepMm } = store.get();
-    const position = [...target.position_mm];
+  /** A pose ({position_mm, ...}) moved to the pointer in this view's two axes. */
+  function movedTo(pose, point) {
+    const { snap, stepMm } = store.get();
+    const position = [...pose.position_mm];
     position[h] = snap ? snapToStep(point.x, stepMm) : point.x;
     position[v] = snap ? snapToStep(point.y, stepMm) : point.y;
-    return { ...target, position_mm: position };
+    return { ...pose, position_mm: position };
   }
 
   attachDrag({
     figure: element,
-    onDragging: (active) => actions.setDragging(active, "target"),
+    onDragging: (active) => actions.setDragging(active, dragged || "target"),
     onPress: (point, event) => {
-      const { target, cell, cellActive } = store.get();
+      const state = store.get();
+      const { target, cell, cellActive, readOnly } = state;
+      const pixelDistance = (position) => {
+        const at = pointerFromData(element, position[h], position[v]);
+        return Math.hypot(at.clientX - event.clientX, at.clientY - event.clientY);
+      };
+      const distance = target ? pixelDistance(target.position_mm) : Infinity;
+      // the selected fixture is grabbed before the target when nearer (never on a reviewer's page)
+      const fixture = readOnly ? null : movableFixture(state);
+      if (fixture && pixelDistance(fixture.position_mm) <= Math.min(GRAB_RADIUS_PX, distance)) {
+        dragged = "fixture";
+        element.focus({ preventScroll: true });
+        return true;
+      }
       if (!target) {
         return false;
       }
-      const marker = pointerFromData(element, target.position_mm[h], target.position_mm[v]);
-      const distance = Math.hypot(marker.clientX - event.clientX, marker.clientY - event.clientY);
       if (cellActive && cell) {
-        const hit = cell.scene.targets.find((other) => {
-          const at = pointerFromData(element, other.position_mm[h], other.position_mm[v]);
-          return Math.hypot(at.clientX - event.clientX, at.clientY - event.clientY) <= 6;
-        });
+        const hit = cell.scene.targets.find((other) => pixelDistance(other.position_mm) <= 6);
         const onSelected = distance <= 6;
         if (hit && !onSelected) {
           actions.select({ kind: "target", name: hit.name });
@@ -303,18 +382,21 @@ export function createProjectionView({
       }
       const near = distance <= GRAB_RADIUS_PX;
       if (near) {
-        dragging = true;
+        dragged = "target";
         element.focus({ preventScroll: true });
       }
       return near;
     },
     onMove: (point, event) => {
-      if (dragging) {
-        actions.setTarget(movedTarget(point), { inputAt: event.timeStamp });
+      const state = store.get();
+      if (dragged === "target") {
+        actions.setTarget(movedTo(state.target, point), { inputAt: event.timeStamp });
+      } else if (dragged === "fixture" && state.fixture) {
+        actions.setFixture(movedTo(state.fixture, point));
       }
     },
     onRelease: () => {
-      dragging = false;
+      dragged = null;
     },
   });
 
@@ -332,7 +414,12 @@ export function createProjectionView({
       return;
     }
     event.preventDefault();
-    actions.nudgeTarget(move[0], move[1] * (event.shiftKey ? 10 : 1), { inputAt: event.timeStamp });
+    const steps = move[1] * (event.shiftKey ? 10 : 1);
+    if (movableFixture(store.get())) {
+      actions.nudgeFixture(move[0], steps);
+    } else {
+      actions.nudgeTarget(move[0], steps, { inputAt: event.timeStamp });
+    }
   });
 
   return { render };

@@ -17,6 +17,9 @@ import numpy as np
 import pytest
 
 from posebridge.bench.drag import figure_pixel, measure_drag_roundtrip, plan_marker_position
+from posebridge.cell.files import load_cell
+from posebridge.cell.scene import resolve_scene
+from posebridge.units import mm_from_m
 
 STATE = "() => window.posebridge.getState()"
 
@@ -49,6 +52,27 @@ def _sorted_pairs(pairs: list[list[float]]) -> np.ndarray:
     return np.array(sorted((round(a, 6), round(b, 6)) for a, b in pairs))
 
 
+def _assert_map_shows_ik(page: Any, base_url: str) -> None:
+    """The joint map's IK markers are the server's IK answer for the page's target."""
+    state = page.evaluate(STATE)
+    expected = _api(
+        base_url, "/api/ik", {"robot": "pb-arm6", "pose": state["target"], **_cell_frames(base_url)}
+    )
+    a, b = state["mapJoints"]
+    api_pairs = [[s["joints_deg"][a], s["joints_deg"][b]] for s in expected["solutions"]]
+    assert api_pairs, expected["reason"]
+    np.testing.assert_allclose(
+        _sorted_pairs(page.evaluate(MAP_MARKERS)), _sorted_pairs(api_pairs), atol=1e-6
+    )
+
+
+def _drag(page: Any, start: tuple[float, float], dx: float, dy: float) -> None:
+    page.mouse.move(*start)
+    page.mouse.down()
+    page.mouse.move(start[0] + dx, start[1] + dy, steps=5)
+    page.mouse.up()
+
+
 def test_load_page(open_page: Any, artifacts: Path) -> None:
     page, problems = open_page.page, open_page.problems
     page.wait_for_function(
@@ -76,7 +100,7 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
     assert plan_targets == [t["position_mm"][0] for t in cell["scene"]["targets"]]
     assert page.locator("#cell-items [role=option]").count() == len(cell["scene"]["targets"]) + sum(
         len(p["waypoints"]) for p in cell["scene"]["paths"]
-    )
+    ) + len(cell["cell"]["fixtures"])
     # the joint map's regions name obstacles of the cell (GET /api/cell lists the shapes)
     regions = page.evaluate(
         "() => document.getElementById('joint-map-base').data"
@@ -278,3 +302,142 @@ def test_two_pages_conflict_detected(open_page: Any, browser: Any) -> None:
         assert cell["etag"] == saved_first.value.json()["etag"] != seen
     finally:
         second.close()
+
+
+def test_drag_pose_waypoint_saves_it(open_page: Any, cell_path: Path, artifacts: Path) -> None:
+    page = open_page.page
+    cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+    # the demo's waypoint given as a pose (a world tool pose)
+    path, index, pose = next(
+        (p["name"], w, waypoint["pose"])
+        for p in cell["cell"]["paths"]
+        for w, waypoint in enumerate(p["waypoints"])
+        if waypoint.get("pose")
+    )
+    page.click(f"#cell-waypoint-{path}-{index}")
+    page.wait_for_function(
+        "(goal) => { const s = window.posebridge.getState();"
+        " return s.target.position_mm.every((v, k) => Math.abs(v - goal[k]) < 1e-9); }",
+        arg=pose["position_mm"],
+        timeout=30_000,
+    )
+    open_page.wait_settled()
+    # a pose waypoint saves typed values: the target fields edit the cell
+    assert page.get_attribute("#target-x", "data-edits-cell") is not None
+    before = page.evaluate(STATE)["target"]
+    with page.expect_response(
+        lambda r: (
+            r.request.method == "PATCH"
+            and r.url.endswith(f"/api/cell/paths/{path}/waypoints/{index}")
+        ),
+        timeout=30_000,
+    ) as saved:
+        _drag(page, plan_marker_position(page), 14, 9)
+    assert saved.value.status == 200, saved.value.text()
+    open_page.wait_settled()
+    shown = page.evaluate(STATE)["target"]
+    # right and down on the plan view: x larger, y smaller (screen axes, common practice)
+    assert shown["position_mm"][0] > before["position_mm"][0]
+    assert shown["position_mm"][1] < before["position_mm"][1]
+    assert shown["position_mm"][2] == before["position_mm"][2]
+    assert shown["rpy_deg"] == before["rpy_deg"]
+    # the request carried the pose the page shows, and the file on disk holds it
+    assert saved.value.request.post_data_json == shown
+    on_disk = json.loads(cell_path.read_text())
+    waypoint = next(p for p in on_disk["paths"] if p["name"] == path)["waypoints"][index]
+    assert waypoint["pose"]["position_mm"] == pytest.approx(shown["position_mm"], abs=1e-9)
+    assert waypoint["pose"]["rpy_deg"] == pytest.approx(shown["rpy_deg"], abs=1e-9)
+    # the page's cell is the saved version
+    assert page.evaluate(STATE)["cell"]["etag"] == saved.value.json()["etag"]
+    assert page.get_attribute("#cell-save", "data-state") == "saved"
+    _assert_map_shows_ik(page, open_page.base_url)
+    page.screenshot(path=str(artifacts / "page-pose-waypoint-drag.png"), full_page=True)
+    assert open_page.problems.console_errors == []
+    assert open_page.problems.page_errors == []
+
+
+def test_drag_fixture_moves_its_targets(open_page: Any, cell_path: Path, artifacts: Path) -> None:
+    page = open_page.page
+    state = page.evaluate(STATE)
+    shown = state["selection"]["name"]  # the opening target, on a shelf of the rack
+    cell = state["cell"]
+    fixture = next(t["fixture"] for t in cell["scene"]["targets"] if t["name"] == shown)
+    start_fixture = next(f for f in cell["scene"]["fixtures"] if f["name"] == fixture)
+    start_target = next(t for t in cell["scene"]["targets"] if t["name"] == shown)
+    page.click(f"#cell-fixture-{fixture}")
+    page.wait_for_function(
+        "(name) => { const s = window.posebridge.getState(); return s.fixture && s.fixture.name === name; }",
+        arg=fixture,
+        timeout=30_000,
+    )
+    assert page.get_attribute(f"#cell-fixture-{fixture}", "aria-selected") == "true"
+    assert page.is_visible("#fixture-fields")
+    assert page.get_attribute("#fixture-x", "data-edits-cell") is not None
+    # the shown target and its IK answers stay while the fixture is selected
+    assert page.evaluate(STATE)["target"]["position_mm"] == start_target["position_mm"]
+
+    grab = figure_pixel(page, "plan", *start_fixture["position_mm"][:2])
+    with page.expect_response(
+        lambda r: r.request.method == "PATCH" and r.url.endswith(f"/api/cell/fixtures/{fixture}"),
+        timeout=30_000,
+    ) as saved:
+        _drag(page, grab, 16, 10)
+    assert saved.value.status == 200, saved.value.text()
+    moved = page.evaluate(STATE)["fixture"]
+    # right and down on the plan view: x larger, y smaller (screen axes, common practice)
+    assert moved["position_mm"][0] > start_fixture["position_mm"][0]
+    assert moved["position_mm"][1] < start_fixture["position_mm"][1]
+    assert moved["position_mm"][2] == start_fixture["position_mm"][2]
+    assert saved.value.request.post_data_json == {
+        "position_mm": moved["position_mm"],
+        "frame": "world",
+    }
+    # the page's target follows its fixture, and the IK markers follow the target
+    page.wait_for_function(
+        "(old) => { const s = window.posebridge.getState();"
+        " return s.target.position_mm.some((v, k) => v !== old[k]); }",
+        arg=start_target["position_mm"],
+        timeout=30_000,
+    )
+    open_page.wait_settled()
+    _assert_map_shows_ik(page, open_page.base_url)
+
+    # the saved file, resolved in Python: the fixture's frame is where the page put it, and
+    # the target moved with it (rigid motion of its fixture frame, Lynch & Park sec. 3.3.1)
+    scene = resolve_scene(load_cell(cell_path), cell_path)
+    T_fixture = scene.T_world_fixture[scene.fixture_names.index(fixture)]
+    assert mm_from_m(T_fixture[:3, 3]) == pytest.approx(moved["position_mm"], abs=1e-9)
+    T_target = scene.targets.T_world_target[scene.targets.index(shown)]
+    page_target = page.evaluate(STATE)["target"]
+    assert mm_from_m(T_target[:3, 3]) == pytest.approx(page_target["position_mm"], abs=1e-9)
+    shift = np.subtract(moved["position_mm"], start_fixture["position_mm"])
+    # the fixture turned not at all, so the target moved by the fixture's shift (closed form)
+    assert page_target["position_mm"] == pytest.approx(
+        np.add(start_target["position_mm"], shift), abs=1e-9
+    )
+    # the plan view's cell targets are redrawn from the saved cell
+    plan_x = page.evaluate(
+        "() => document.getElementById('plan-base').data.find((t) => t.name === 'cell targets').x"
+    )
+    assert plan_x[scene.targets.index(shown)] == pytest.approx(page_target["position_mm"][0])
+    page.screenshot(path=str(artifacts / "page-fixture-drag.png"), full_page=True)
+
+    # a typed yaw turns the fixture about the world z axis; saved with its orientation
+    with page.expect_response(
+        lambda r: r.request.method == "PATCH" and r.url.endswith(f"/api/cell/fixtures/{fixture}"),
+        timeout=30_000,
+    ) as turned:
+        page.fill("#fixture-yaw", "15")
+        page.press("#fixture-yaw", "Enter")
+    assert turned.value.status == 200, turned.value.text()
+    scene = resolve_scene(load_cell(cell_path), cell_path)
+    R = scene.T_world_fixture[scene.fixture_names.index(fixture)][:3, :3]
+    # yaw of R = Rz(15 deg) (closed form: atan2(R[1,0], R[0,0]) with R[2,2] = 1)
+    assert math.degrees(math.atan2(R[1, 0], R[0, 0])) == pytest.approx(15.0, abs=1e-9)
+    assert R[2, 2] == pytest.approx(1.0, abs=1e-12)
+    assert mm_from_m(scene.T_world_fixture[scene.fixture_names.index(fixture)][:3, 3]) == (
+        pytest.approx(moved["position_mm"], abs=1e-9)
+    )
+    assert open_page.problems.console_errors == []
+    assert open_page.problems.page_errors == []
+    assert open_page.problems.failed_requests == []

@@ -352,6 +352,11 @@ def test_reviewer_edit_controls_disabled(
             "() => !document.querySelector('#target-x').disabled", timeout=_TIMEOUT_MS
         )
         assert all(page.locator(c).is_enabled() for c in _TARGET_FIELDS)
+        # a waypoint given as a pose is saved into the cell: its typed values are locked
+        page.click("#cell-waypoint-unload-to-conveyor-3")
+        page.wait_for_function(
+            "() => document.querySelector('#target-x').disabled", timeout=_TIMEOUT_MS
+        )
         page.click("#cell-target-rack-low-2")
         page.wait_for_function(
             "() => document.querySelector('#target-x').disabled", timeout=_TIMEOUT_MS
@@ -376,6 +381,15 @@ def test_reviewer_edit_controls_disabled(
             timeout=_TIMEOUT_MS,
         )
         assert page.get_attribute("#status", "data-level") == "info"
+        # a fixture: its fields are locked, and the keys do not move it
+        page.click("#cell-fixture-rack")
+        page.locator("#fixture-fields").wait_for(state="visible", timeout=_TIMEOUT_MS)
+        for control in ("#fixture-x", "#fixture-y", "#fixture-z", "#fixture-yaw"):
+            assert page.locator(control).is_disabled(), control
+        placed = page.evaluate(_STATE)["fixture"]
+        page.focus("#plan")
+        page.keyboard.press("ArrowRight")
+        assert page.evaluate(_STATE)["fixture"] == placed
         page.wait_for_timeout(500)
         page.screenshot(path=str(artifacts / "review-reviewer-controls.png"), full_page=True)
     finally:
