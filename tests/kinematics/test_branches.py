@@ -100,6 +100,31 @@ def test_pb_arm6_labels_match_pinocchio_geometry() -> None:
         np.testing.assert_array_equal(got, want)
 
 
+def test_offset_wrist_front_and_back_are_measured_at_the_wrist_point(offset_wrist_arm) -> None:
+    pin = pytest.importorskip("pinocchio")
+    arm = offset_wrist_arm(np.random.default_rng(21))
+    model = pin.buildModelFromXML(arm.urdf)
+    data = model.createData()
+
+    def forward_of_wrist_point(row: np.ndarray) -> float:
+        # pinocchio joint placements and world axes (angular rows of the joint Jacobian);
+        # the wrist point is the point of axis 5 nearest axis 6, which it meets
+        J = pin.computeJointJacobians(model, data, row)
+        origin = [data.oMi[j].translation for j in range(1, 7)]
+        axis = [J[3:, model.joints[j].idx_v] for j in range(1, 7)]
+        point = origin[4] - ((origin[4] - origin[5]) @ axis[4]) * axis[4]
+        forward = np.cross(axis[1], axis[0])
+        return float((point - origin[0]) @ forward / np.linalg.norm(forward))
+
+    sign_at_zero = np.sign(forward_of_wrist_point(np.zeros(6)))
+    q = np.random.default_rng(22).uniform(-np.pi, np.pi, size=(200, 6))
+    expected = [np.sign(sign_at_zero * forward_of_wrist_point(row)) for row in q]
+    shoulder, _, _ = label_branches(arm.robot, q)
+    # reference: the module docstring's definition re-implemented on pinocchio placements
+    # of the generated URDF (forward flipped so that the arm is in front at zero)
+    np.testing.assert_array_equal(shoulder, expected)
+
+
 def test_planar_two_link_left_and_right() -> None:
     robot = load_robot("pb-planar2r")
     q = np.array([[0.3, 0.8], [0.3, -0.8], [1.0, 0.0], [-2.0, 2.5]])

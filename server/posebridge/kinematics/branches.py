@@ -7,13 +7,14 @@ is undefined because the arm is exactly singular there):
 Six- and seven-axis arms (label scheme ``"arm"``). The *arm plane* contains
 the first axis and is perpendicular to the second (shoulder) axis; it turns
 with joint 1. Its *forward* direction is the direction of ``a2 x a1`` (second
-axis cross first axis), flipped if needed so that the wrist centre lies in
+axis cross first axis), flipped if needed so that the wrist point lies in
 front at the all-zero configuration; its *up* direction is the first axis,
 flipped if needed so that the shoulder lies above the base origin. Points
 are projected into this plane.
 
-* **shoulder**: ``front`` (+1) when the wrist centre lies in front of the first
-  axis, ``back`` (-1) when it lies behind it; 0 when it is on the first axis.
+* **shoulder**: ``front`` (+1) when the wrist point lies in front of the first
+  axis, ``back`` (-1) when it lies behind it; 0 when it is on the first axis
+  (in the plane through the first axis parallel to the second).
 * **elbow**: ``up`` (+1) when the elbow lies on the upper side of the line from
   the shoulder to the wrist centre, seen with the arm reaching forward (for a
   back shoulder the plane is viewed from the other side); precisely, when the
@@ -28,8 +29,14 @@ are projected into this plane.
 
 The shoulder point is the origin of joint 2, the elbow point the origin of
 joint 3 (six axes) or joint 4 (seven axes), the wrist centre the point of the
-wrist bend axis nearest the axis before it (where the wrist axes meet for a
-spherical wrist).
+wrist bend axis nearest the axis before it and the wrist point the point of
+the wrist bend axis nearest the axis after it. For a spherical wrist both are
+where the wrist axes meet. For an offset wrist whose bend axis meets the last
+axis away from the axis before it (arms whose second, third and fourth axes
+are parallel, :mod:`posebridge.kinematics.ik_analytic.offset_wrist`), the
+wrist point is where front and back part: the two solutions of joint 1 put
+it on either side of the first axis, while the wrist centre turns with
+joint 4 and can change sides between the two wrist solutions.
 
 Planar arms and SCARA (label scheme ``"planar"``, first two axes parallel):
 only the elbow is labelled, ``left`` (+1) when the elbow lies to the left of
@@ -40,7 +47,7 @@ to; ``right`` (-1) otherwise; 0 when stretched or folded.
 Other arms (gantries) have no branches (scheme ``"none"``, all labels 0).
 
 "Undefined" uses the small tolerances :data:`LABEL_TOLERANCE_M` (distance of
-the wrist centre from the first axis, of the elbow from the shoulder-wrist
+the wrist point from the first axis, of the elbow from the shoulder-wrist
 line) and :data:`LABEL_TOLERANCE_RAD` (wrist bend from straight).
 """
 
@@ -196,12 +203,15 @@ def _unit(v: FloatArray) -> FloatArray:
 
 def _arm_points(
     robot: Robot, geometry: BranchGeometry, q: FloatArray
-) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
-    """Axis-1 point and direction, shoulder axis, shoulder, elbow and wrist-centre points."""
+) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
+    """Axis-1 point and direction, shoulder axis, shoulder, elbow, wrist-centre and wrist points."""
     axes, origins = _axes_and_origins(robot, fk_frames(robot, q))
     wj = geometry.wrist_joint
     wrist_centre = _nearest_point_on_line(
         origins[:, wj], axes[:, wj], origins[:, wj - 1], axes[:, wj - 1], origins[:, wj]
+    )
+    wrist_point = _nearest_point_on_line(
+        origins[:, wj], axes[:, wj], origins[:, wj + 1], axes[:, wj + 1], wrist_centre
     )
     return (
         origins[:, 0],
@@ -210,16 +220,17 @@ def _arm_points(
         origins[:, geometry.shoulder_joint],
         origins[:, geometry.elbow_joint],
         wrist_centre,
+        wrist_point,
     )
 
 
 @dataclass(frozen=True, eq=False)
 class ArmPlanePoints:
-    """Shoulder, elbow and wrist centre in arm-plane coordinates (forward, up), m.
+    """Shoulder, elbow, wrist centre and wrist point in arm-plane coordinates (forward, up), m.
 
     Attributes
     ----------
-    shoulder, elbow, wrist_centre : arrays, shape (N, 2)
+    shoulder, elbow, wrist_centre, wrist_point : arrays, shape (N, 2)
         Points projected into the arm plane, measured from axis 1 along the
         forward and up directions (module docstring).
     """
@@ -227,12 +238,13 @@ class ArmPlanePoints:
     shoulder: FloatArray
     elbow: FloatArray
     wrist_centre: FloatArray
+    wrist_point: FloatArray
 
 
 def arm_plane_points(
     robot: Robot, q: npt.ArrayLike, geometry: BranchGeometry | None = None
 ) -> ArmPlanePoints:
-    """Shoulder, elbow and wrist centre of six- and seven-axis arms in the arm plane.
+    """Shoulder, elbow, wrist centre and wrist point of six- and seven-axis arms in the arm plane.
 
     Parameters
     ----------
@@ -253,7 +265,7 @@ def arm_plane_points(
             f"robot {robot.name!r}: shoulder, elbow and wrist centre are defined for six- and "
             f"seven-axis arms only (label scheme {geometry.scheme!r})"
         )
-    p1, a1, a2, s, e, w = _arm_points(robot, geometry, q)
+    p1, a1, a2, s, e, w, wp = _arm_points(robot, geometry, q)
     forward = geometry.forward_sign * _unit(np.cross(a2, a1))
     up = geometry.up_sign * a1
 
@@ -261,7 +273,7 @@ def arm_plane_points(
         d = point - p1
         return np.stack([np.einsum("ki,ki->k", d, forward), np.einsum("ki,ki->k", d, up)], axis=1)
 
-    return ArmPlanePoints(plane(s), plane(e), plane(w))
+    return ArmPlanePoints(plane(s), plane(e), plane(w), plane(wp))
 
 
 def branch_geometry(robot: Robot) -> BranchGeometry:
@@ -282,9 +294,9 @@ def branch_geometry(robot: Robot) -> BranchGeometry:
     if n in (6, 7) and not np.any(robot.prismatic) and sine_12 > _PARALLEL_TOLERANCE:
         elbow_joint, wrist_joint = (2, 4) if n == 6 else (3, 5)
         provisional = BranchGeometry("arm", 1, elbow_joint, wrist_joint)
-        p1, _, _, shoulder, _, wrist_centre = _arm_points(robot, provisional, zero)
+        p1, _, _, shoulder, _, _, wrist_point = _arm_points(robot, provisional, zero)
         forward = _unit(np.cross(a2, a1))
-        ahead = float((wrist_centre[0] - p1[0]) @ forward)
+        ahead = float((wrist_point[0] - p1[0]) @ forward)
         above = float(shoulder[0] @ a1)
         a_before, a_bend, a_after = axes[0, wrist_joint - 1 : wrist_joint + 2]
         bend_at_zero = np.arctan2(np.cross(a_before, a_after) @ a_bend, a_before @ a_after)
@@ -336,7 +348,7 @@ def label_branches(robot: Robot, q: npt.ArrayLike) -> tuple[Int8Array, Int8Array
         cross = reach_vector[:, 0] * elbow_vector[:, 1] - reach_vector[:, 1] * elbow_vector[:, 0]
         reach = np.linalg.norm(reach_vector, axis=1)
         _arm_labels(
-            np.ascontiguousarray(w2[:, 0]),
+            np.ascontiguousarray(points.wrist_point[:, 0]),
             cross,
             reach,
             np.ascontiguousarray(q[:, geometry.wrist_joint]),

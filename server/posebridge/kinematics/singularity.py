@@ -8,16 +8,17 @@ and Control*, sec. 3.3, decoupling of arm and wrist singularities):
   axes 4 and 6 line up and only their sum (or difference) moves the tool;
 * **elbow**: shoulder, elbow and wrist centre are in line (arm stretched to
   the edge of the reach, or folded back onto itself);
-* **shoulder**: the wrist centre lies in the plane through axis 1 parallel to
-  axis 2 (for arms without a lateral offset: on axis 1), where turning
-  joint 1 does not move it.
+* **shoulder**: the wrist point lies in the plane through axis 1 parallel to
+  axis 2 (for arms without a lateral offset: on axis 1), where the two
+  solutions of joint 1 meet.
 
 For each configuration :func:`classify_singularity` reports how far it is
 from each kind, in the arm-plane geometry of
-:mod:`posebridge.kinematics.branches` (shoulder, elbow and wrist centre as
-defined there, which is exact for spherical wrists and an approximation for
-wrists whose axes do not meet), and names the nearest kind among those below
-their thresholds. Seven-axis arms use joints 2, 4 and 6 as shoulder, elbow
+:mod:`posebridge.kinematics.branches` (shoulder, elbow, wrist centre and
+wrist point as defined there, which is exact for spherical wrists and for
+offset wrists whose second, third and fourth axes are parallel, and an
+approximation for other wrists whose axes do not meet), and names the
+nearest kind among those below their thresholds. Seven-axis arms use joints 2, 4 and 6 as shoulder, elbow
 and wrist bend.
 """
 
@@ -72,7 +73,7 @@ class SingularityReport:
         Angle between upper arm (shoulder to elbow) and forearm (elbow to
         wrist centre) from 0 (stretched) or pi (folded), in [0, pi/2].
     shoulder_m : array, shape (N,)
-        Distance of the wrist centre from the plane through axis 1 parallel
+        Distance of the wrist point from the plane through axis 1 parallel
         to axis 2 (from axis 1 itself for arms without lateral offset).
     near_wrist, near_elbow, near_shoulder : arrays of bool, shape (N,)
         Below the respective threshold.
@@ -145,7 +146,7 @@ def classify_singularity(
             np.einsum("ki,ki->k", upper, fore),
         )
     )
-    shoulder = np.abs(points.wrist_centre[:, 0])
+    shoulder = np.abs(points.wrist_point[:, 0])
     ratios = np.stack(
         [
             wrist / thresholds.wrist_rad,
