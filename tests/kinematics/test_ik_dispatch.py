@@ -39,6 +39,21 @@ def test_urdf_arm_uses_the_closed_form() -> None:
     assert ik_solver(load_robot(path)).family == "ortho_parallel"
 
 
+def test_offset_wrist_arm_uses_its_closed_form(offset_wrist_arm) -> None:
+    arm = offset_wrist_arm(np.random.default_rng(3), mounted=True)
+    # generated geometry (tests/kinematics/conftest.py): joints 2, 3, 4 parallel, axis 6
+    # meeting axis 5 away from axis 4
+    assert ik_solver(arm.robot).family == "offset_wrist"
+    q = np.random.default_rng(4).uniform(-np.pi, np.pi, size=(20, 6))
+    targets = fk_tool(arm.robot, q)
+    result = solve_ik_all(arm.robot, targets)
+    assert result.method.startswith("analytic: offset wrist")
+    rows, slots = np.nonzero(result.valid)
+    assert set(rows.tolist()) == set(range(20))
+    # reference: forward kinematics of the returned solutions
+    np.testing.assert_allclose(fk_tool(arm.robot, result.q[rows, slots]), targets[rows], atol=1e-9)
+
+
 @pytest.mark.parametrize("name", ["pb-arm6", "pb-planar3r", "pb-scara4", "pb-gantry3"])
 def test_solutions_reach_the_targets_with_a_tool(name: str) -> None:
     robot = load_robot(name)

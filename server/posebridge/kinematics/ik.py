@@ -5,10 +5,12 @@ its ``kind`` label), in this order:
 
 1. six-axis ortho-parallel arm with a spherical wrist: closed form of
    Brandstötter et al. (2014), :mod:`posebridge.kinematics.ik_analytic.ortho_parallel`;
-2. planar 2R / 3R arm in the base x-y plane, :mod:`~posebridge.kinematics.ik_analytic.planar`;
-3. SCARA, :mod:`~posebridge.kinematics.ik_analytic.scara`;
-4. gantry (three linear axes, optional tool rotation), :mod:`~posebridge.kinematics.ik_analytic.gantry`;
-5. any other serial chain: multi-start numerical IK, :mod:`posebridge.kinematics.ik_numeric`.
+2. six-axis arm with joints 2, 3 and 4 parallel and an offset wrist: closed form,
+   :mod:`~posebridge.kinematics.ik_analytic.offset_wrist`;
+3. planar 2R / 3R arm in the base x-y plane, :mod:`~posebridge.kinematics.ik_analytic.planar`;
+4. SCARA, :mod:`~posebridge.kinematics.ik_analytic.scara`;
+5. gantry (three linear axes, optional tool rotation), :mod:`~posebridge.kinematics.ik_analytic.gantry`;
+6. any other serial chain: multi-start numerical IK, :mod:`posebridge.kinematics.ik_numeric`.
 
 Each analytic family accepts a robot only after checking its own canonical
 forward kinematics against :func:`posebridge.kinematics.fk.fk_flange`.
@@ -17,7 +19,9 @@ forward kinematics against :func:`posebridge.kinematics.fk.fk_flange`.
 The result, slot order, turn variants and branch labels are described in
 :mod:`posebridge.kinematics.ik_types` and :mod:`posebridge.kinematics.branches`.
 Analytic solvers reach the orientation exactly (spherical wrist, heading
-joint), so ``orientation_tolerance_rad`` only matters for the numerical solver.
+joint), so ``orientation_tolerance_rad`` only matters for the numerical solver
+and for the offset-wrist family, which checks every solution against both
+tolerances.
 """
 
 from __future__ import annotations
@@ -28,6 +32,10 @@ from dataclasses import dataclass
 import numpy.typing as npt
 
 from posebridge.kinematics.ik_analytic.gantry import GantryGeometry, solve_gantry
+from posebridge.kinematics.ik_analytic.offset_wrist import (
+    OffsetWristGeometry,
+    solve_offset_wrist,
+)
 from posebridge.kinematics.ik_analytic.ortho_parallel import (
     OrthoParallelGeometry,
     solve_ortho_parallel,
@@ -49,14 +57,15 @@ class IkSolver:
     ----------
     robot : Robot
     family : str
-        ``"ortho_parallel"``, ``"planar"``, ``"scara"``, ``"gantry"`` or ``"numeric"``.
-    geometry : OrthoParallelGeometry, PlanarGeometry, GantryGeometry or None
+        ``"ortho_parallel"``, ``"offset_wrist"``, ``"planar"``, ``"scara"``,
+        ``"gantry"`` or ``"numeric"``.
+    geometry : OrthoParallelGeometry, OffsetWristGeometry, PlanarGeometry, GantryGeometry or None
         Extracted parameters of the analytic family (None for ``"numeric"``).
     """
 
     robot: Robot
     family: str
-    geometry: OrthoParallelGeometry | PlanarGeometry | GantryGeometry | None
+    geometry: OrthoParallelGeometry | OffsetWristGeometry | PlanarGeometry | GantryGeometry | None
 
     def solve(
         self,
@@ -81,6 +90,17 @@ class IkSolver:
                 seed=seed,
                 all_turns=all_turns,
                 position_tolerance_m=tolerance,
+            )
+        if isinstance(geometry, OffsetWristGeometry):
+            return solve_offset_wrist(
+                self.robot,
+                geometry,
+                T_base_tool,
+                T_flange_tool=T_flange_tool,
+                seed=seed,
+                all_turns=all_turns,
+                position_tolerance_m=tolerance,
+                orientation_tolerance_rad=orientation,
             )
         if isinstance(geometry, PlanarGeometry):
             return solve_planar(
@@ -131,6 +151,9 @@ def _choose_solver(robot: Robot) -> IkSolver:
     opw = OrthoParallelGeometry.from_robot(robot)
     if opw is not None:
         return IkSolver(robot, "ortho_parallel", opw)
+    offset_wrist = OffsetWristGeometry.from_robot(robot)
+    if offset_wrist is not None:
+        return IkSolver(robot, "offset_wrist", offset_wrist)
     planar = PlanarGeometry.from_robot(robot)
     if planar is not None:
         return IkSolver(robot, "planar", planar)
