@@ -9,6 +9,7 @@ from posebridge.bench.clearance import bench_clearance
 from posebridge.bench.drag import bench_drag
 from posebridge.bench.ik_analytic import bench_ik_analytic
 from posebridge.bench.ik_numeric import bench_ik_numeric
+from posebridge.bench.ik_offset_wrist import bench_ik_offset_wrist
 from posebridge.bench.kinematics import bench_kinematics
 from posebridge.bench.maps import bench_maps
 from posebridge.bench.placement import bench_placement
@@ -25,6 +26,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("forward kinematics and Jacobian", bench_kinematics),
     Benchmark("analytic inverse kinematics", bench_ik_analytic),
     Benchmark("numerical inverse kinematics", bench_ik_numeric),
+    Benchmark("closed-form inverse kinematics, offset wrist", bench_ik_offset_wrist),
     Benchmark("clearance", bench_clearance),
     Benchmark("joint-space and reach maps", bench_maps),
     Benchmark("base placement", bench_placement),
