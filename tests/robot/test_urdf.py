@@ -197,8 +197,8 @@ def test_mixed_chain_matches_pinocchio() -> None:
         )
 
 
-def test_chosen_base_and_tip_links() -> None:
-    robot = parse_robot_urdf(MIXED_CHAIN, "mixed.urdf", base_link="l1", tip_link="l3")
+def test_chosen_from_and_to_links() -> None:
+    robot = parse_robot_urdf(MIXED_CHAIN, "mixed.urdf", from_link="l1", to_link="l3")
     assert robot.joint_names == ("b", "c")
     q = random_q(robot, np.random.default_rng(SEED), 50)
     full = parse_robot_urdf(MIXED_CHAIN, "mixed.urdf")
@@ -212,7 +212,7 @@ def test_chosen_base_and_tip_links() -> None:
     np.testing.assert_allclose(frames[:, 3], T_l3, atol=1e-12)
 
 
-def test_several_leaves_need_a_tip_link() -> None:
+def test_several_leaves_need_a_to_link() -> None:
     text = chain_urdf(
         joint("a", "revolute", "root", "arm")
         + joint("g1", "fixed", "arm", "finger_left", axis=None, limit=None)
@@ -221,11 +221,11 @@ def test_several_leaves_need_a_tip_link() -> None:
     )
     with pytest.raises(
         RobotDescriptionError,
-        match=r"g\.urdf: tip_link: base link 'root' has several leaf links below it; "
-        r"choose the tip link among: finger_left, finger_right",
+        match=r"g\.urdf: to_link: from_link 'root' has several leaf links below it; "
+        r"choose the to_link among: finger_left, finger_right",
     ):
         parse_robot_urdf(text, "g.urdf")
-    robot = parse_robot_urdf(text, "g.urdf", tip_link="finger_right")
+    robot = parse_robot_urdf(text, "g.urdf", to_link="finger_right")
     assert robot.joint_names == ("a",)
     assert any("outside the selected chain ignored: g1" in note for note in robot.notes)
 
@@ -233,26 +233,26 @@ def test_several_leaves_need_a_tip_link() -> None:
 def test_unknown_links_are_named_with_a_suggestion() -> None:
     with pytest.raises(
         RobotDescriptionError,
-        match=r"m\.urdf: tip_link: unknown link 'tipp' \(did you mean 'tip'\?\); links: floor, plate",
+        match=r"m\.urdf: to_link: unknown link 'tipp' \(did you mean 'tip'\?\); links: floor, plate",
     ):
-        parse_robot_urdf(MIXED_CHAIN, "m.urdf", tip_link="tipp")
-    with pytest.raises(RobotDescriptionError, match=r"m\.urdf: base_link: unknown link 'nowhere'"):
-        parse_robot_urdf(MIXED_CHAIN, "m.urdf", base_link="nowhere")
+        parse_robot_urdf(MIXED_CHAIN, "m.urdf", to_link="tipp")
+    with pytest.raises(RobotDescriptionError, match=r"m\.urdf: from_link: unknown link 'nowhere'"):
+        parse_robot_urdf(MIXED_CHAIN, "m.urdf", from_link="nowhere")
 
 
-def test_tip_not_below_base() -> None:
+def test_to_link_not_below_from_link() -> None:
     with pytest.raises(
-        RobotDescriptionError, match=r"m\.urdf: tip_link: tip link 'l1' is not below base link 'l3'"
+        RobotDescriptionError, match=r"m\.urdf: to_link: to_link 'l1' is not below from_link 'l3'"
     ):
-        parse_robot_urdf(MIXED_CHAIN, "m.urdf", base_link="l3", tip_link="l1")
+        parse_robot_urdf(MIXED_CHAIN, "m.urdf", from_link="l3", to_link="l1")
 
 
 def test_chain_without_moving_joints() -> None:
     with pytest.raises(
         RobotDescriptionError,
-        match=r"m\.urdf: robot: no moving joint between base link 'l4' and tip link 'tip'",
+        match=r"m\.urdf: robot: no moving joint between from_link 'l4' and to_link 'tip'",
     ):
-        parse_robot_urdf(MIXED_CHAIN, "m.urdf", base_link="l4")
+        parse_robot_urdf(MIXED_CHAIN, "m.urdf", from_link="l4")
 
 
 # ------------------------------------------------------------ refused joints
@@ -285,7 +285,7 @@ def test_floating_and_planar_joints_on_the_chain_are_refused(kind: str) -> None:
     ):
         parse_robot_urdf(text, "f.urdf")
     # off the chain they are ignored
-    robot = parse_robot_urdf(text, "f.urdf", base_link="l1")
+    robot = parse_robot_urdf(text, "f.urdf", from_link="l1")
     assert robot.joint_names == ("a",)
 
 
@@ -566,7 +566,7 @@ def test_kind_is_the_callers_choice() -> None:
 def test_export_then_import_gives_the_same_robot(name: str) -> None:
     robot = load_robot(name)
     text = urdf_from_robot(robot)
-    again = parse_robot_urdf(text, "export.urdf", tip_link="flange")
+    again = parse_robot_urdf(text, "export.urdf", to_link="flange")
     assert again.name == robot.name and again.joint_names == robot.joint_names
     for mine, original in zip(again.joints, robot.joints, strict=True):
         np.testing.assert_allclose(mine.origin, original.origin, atol=1e-15)
@@ -592,7 +592,7 @@ def test_export_continuous_joint_and_pinocchio_agrees() -> None:
     robot = parse_robot_urdf(MIXED_CHAIN, "mixed.urdf")
     text = urdf_from_robot(robot)
     assert 'type="continuous"' in text
-    again = parse_robot_urdf(text, "e.urdf", tip_link="flange")
+    again = parse_robot_urdf(text, "e.urdf", to_link="flange")
     assert again.continuous.tolist() == robot.continuous.tolist()
     q = random_q(robot, np.random.default_rng(SEED), 100)
     np.testing.assert_allclose(

@@ -1,10 +1,11 @@
 """URDF import and export (ROS URDF specification, an open standard).
 
 Import (:func:`load_robot_urdf`, :func:`parse_robot_urdf`) takes the serial
-chain between a base link and a tip link of the URDF tree:
+chain from ``from_link`` to ``to_link`` of the URDF tree:
 
-* Defaults: the base is the root link, the tip the single leaf below it; with
-  several leaves the caller must name one (the error lists the candidates).
+* Defaults: ``from_link`` is the root link, ``to_link`` the single leaf below
+  it; with several leaves the caller must name one (the error lists the
+  candidates).
 * ``revolute`` and ``prismatic`` joints need ``<limit lower upper velocity>``
   (``lower``/``upper`` default to 0 as in the specification, so a joint
   without them is refused as locked); ``effort`` is not used and not
@@ -14,8 +15,8 @@ chain between a base link and a tip link of the URDF tree:
   ``acceleration_max = DEFAULT_ACCELERATION_PER_S * velocity_max`` (full speed
   reached in a quarter second) and :attr:`Robot.notes` says so.
 * ``fixed`` joints are merged: into the next moving joint's origin, or after
-  the last moving joint into the flange. The robot base frame is the base
-  link's frame, the flange the tip link's frame, the default tool the
+  the last moving joint into the flange. The robot base frame is the
+  ``from_link`` frame, the flange the ``to_link`` frame, the default tool the
   identity.
 * ``<origin rpy>`` is roll about fixed X, then pitch about fixed Y, then yaw
   about fixed Z, ``R = Rz(y) Ry(p) Rx(r)``. ``<axis>`` defaults to (1, 0, 0).
@@ -401,10 +402,10 @@ def _select_chain(
     problems: _Problems,
     links: dict[str, _LinkSpec],
     joints: list[_JointSpec],
-    base_link: str | None,
-    tip_link: str | None,
+    from_link: str | None,
+    to_link: str | None,
 ) -> tuple[str, str, list[_JointSpec]]:
-    """Joints from the base link down to the tip link (the URDF tree checked on the way)."""
+    """Joints from ``from_link`` down to ``to_link`` (the URDF tree checked on the way)."""
     parent_joint: dict[str, _JointSpec] = {}
     children: dict[str, list[_JointSpec]] = {name: [] for name in links}
     for joint in joints:
@@ -452,14 +453,14 @@ def _select_chain(
             + _listed(cut_off),
         )
         raise RobotDescriptionError(problems.items)
-    base = base_link if base_link is not None else roots[0]
+    base = from_link if from_link is not None else roots[0]
     if base not in links:
-        _unknown_link(problems, "base_link", base, links)
-    if tip_link is not None and tip_link not in links:
-        _unknown_link(problems, "tip_link", tip_link, links)
+        _unknown_link(problems, "from_link", base, links)
+    if to_link is not None and to_link not in links:
+        _unknown_link(problems, "to_link", to_link, links)
     if problems.items:
         raise RobotDescriptionError(problems.items)
-    if tip_link is None:
+    if to_link is None:
         leaves: list[str] = []
         stack = [base]
         while stack:
@@ -472,19 +473,19 @@ def _select_chain(
             reason = "has no links below it" if not leaves else "has several leaf links below it"
             problems.add(
                 0,
-                "tip_link",
-                f"base link {base!r} {reason}; choose the tip link"
+                "to_link",
+                f"from_link {base!r} {reason}; choose the to_link"
                 + (f" among: {_listed(sorted(leaves))}" if leaves else ""),
             )
             raise RobotDescriptionError(problems.items)
         tip = leaves[0]
     else:
-        tip = tip_link
+        tip = to_link
     chain: list[_JointSpec] = []
     link = tip
     while link != base:  # ends: every link is below the single root (checked above)
         if link not in parent_joint:
-            problems.add(0, "tip_link", f"tip link {tip!r} is not below base link {base!r}")
+            problems.add(0, "to_link", f"to_link {tip!r} is not below from_link {base!r}")
             raise RobotDescriptionError(problems.items)
         joint = parent_joint[link]
         chain.append(joint)
@@ -515,12 +516,12 @@ def _capsules_of_link(
 def parse_robot_urdf(
     text: str | bytes,
     path: str = "<string>",
-    base_link: str | None = None,
-    tip_link: str | None = None,
+    from_link: str | None = None,
+    to_link: str | None = None,
     *,
     kind: str = "urdf",
 ) -> Robot:
-    """Build a :class:`Robot` from URDF text: the serial chain from ``base_link`` to ``tip_link``.
+    """Build a :class:`Robot` from URDF text: the serial chain from ``from_link`` to ``to_link``.
 
     Parameters
     ----------
@@ -528,15 +529,15 @@ def parse_robot_urdf(
         The URDF document (bytes keep the encoding named in the XML declaration).
     path : str
         File name used in messages and stored as :attr:`Robot.source`.
-    base_link, tip_link : str, optional
-        Chain ends; default the root link and the single leaf below the base.
+    from_link, to_link : str, optional
+        Chain ends; default the root link and the single leaf below ``from_link``.
     kind : str, keyword-only
         Family label stored as :attr:`Robot.kind`.
 
     Returns
     -------
     Robot
-        Joints in chain order, flange = tip link frame, tool = identity,
+        Joints in chain order, flange = ``to_link`` frame, tool = identity,
         remarks in :attr:`Robot.notes`.
 
     Raises
@@ -591,7 +592,7 @@ def parse_robot_urdf(
     if problems.items:
         raise RobotDescriptionError(problems.items)
 
-    base, tip, chain = _select_chain(problems, links, joints, base_link, tip_link)
+    base, tip, chain = _select_chain(problems, links, joints, from_link, to_link)
     for joint in chain:
         where = f"joint[{joint.name}]"
         if joint.kind in ("floating", "planar"):
@@ -606,7 +607,7 @@ def parse_robot_urdf(
             )
     moving = [joint for joint in chain if joint.kind in _MOVING_TYPES]
     if not moving and not problems.items:
-        problems.add(0, "robot", f"no moving joint between base link {base!r} and tip link {tip!r}")
+        problems.add(0, "robot", f"no moving joint between from_link {base!r} and to_link {tip!r}")
     if problems.items:
         raise RobotDescriptionError(problems.items)
 
@@ -687,8 +688,8 @@ def _notes(
 
 def load_robot_urdf(
     path: str | Path,
-    base_link: str | None = None,
-    tip_link: str | None = None,
+    from_link: str | None = None,
+    to_link: str | None = None,
     *,
     kind: str = "urdf",
 ) -> Robot:
@@ -706,7 +707,7 @@ def load_robot_urdf(
         data = path.read_bytes()
     except OSError as error:
         raise RobotDescriptionError([f"{path}: cannot read: {error.strerror or error}"]) from error
-    return parse_robot_urdf(data, str(path), base_link, tip_link, kind=kind)
+    return parse_robot_urdf(data, str(path), from_link, to_link, kind=kind)
 
 
 # ------------------------------------------------------------------------ export
@@ -766,7 +767,7 @@ def urdf_from_robot(robot: Robot) -> str:
     Joint origins are written as xyz + fixed-axis rpy, capsules as collision
     cylinders (spheres for zero-length capsules). URDF has no acceleration
     limits, so they are lost; ``effort`` is written as 0 (unknown).
-    Importing the result with ``tip_link="flange"`` gives back the same
+    Importing the result with ``to_link="flange"`` gives back the same
     kinematics and capsules (with ``tool`` as tip, the tool becomes the flange).
 
     Parameters
