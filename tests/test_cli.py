@@ -219,9 +219,9 @@ def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None
         capsys, "jointmap", DEMO_CELL, "--joints", "j2,j3", "--resolution", "16", "--workers", "1"
     )
     assert code == 0 and result["shape"] == [16, 16]
-    # the limit box of pb-arm6.toml: j2 -95..155, j3 -200..80 deg
-    assert result["lower_deg"] == pytest.approx([-95.0, -200.0])
-    assert result["upper_deg"] == pytest.approx([155.0, 80.0])
+    # the limit box of pb-arm6.toml: j2 -87..151, j3 -197..76 deg
+    assert result["lower_deg"] == pytest.approx([-87.0, -197.0])
+    assert result["upper_deg"] == pytest.approx([151.0, 76.0])
     code, reach = run_json(capsys, "reach", "pb-planar2r", "--voxel-mm", "100", "--workers", "1")
     assert code == 0 and reach["tool_directions"] == 26
     code, plan = run_json(

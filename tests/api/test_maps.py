@@ -52,8 +52,8 @@ async def test_start_joint_map_two_joints(
     np.testing.assert_allclose(
         result["clearance_mm"], 1000.0 * np.minimum(expected.clearance.ravel(), 1.0), atol=0.051
     )
-    # cell centres of 24 equal cells over j2's range -95..155 deg (robots/pb-arm6.toml)
-    assert result["axes_deg"][0][0] == pytest.approx(-95.0 + 250.0 / 48)
+    # cell centres of 24 equal cells over j2's range -87..151 deg (robots/pb-arm6.toml)
+    assert result["axes_deg"][0][0] == pytest.approx(-87.0 + 238.0 / 48)
     assert status["done"] == status["total"] >= 1
 
 

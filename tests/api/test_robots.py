@@ -10,6 +10,7 @@ import math
 import tomllib
 from collections.abc import Callable
 from pathlib import Path
+from xml.etree import ElementTree
 
 import httpx
 import pytest
@@ -95,8 +96,10 @@ async def test_read_robot_model_from_path(client: httpx.AsyncClient) -> None:
     assert response.status_code == 200
     body = response.json()
     assert body["robot"] == str(path)
-    # j1 limit in the URDF file: +-2.9670597 rad = +-170 deg (file header and TOML twin)
-    assert body["joints"][0]["upper"] == pytest.approx(math.degrees(2.9670597283903604))
+    # j1's upper limit as written in the URDF file (rad), read with ElementTree
+    limit = ElementTree.parse(path).getroot().find("joint[@name='j1']/limit")
+    assert limit is not None
+    assert body["joints"][0]["upper"] == pytest.approx(math.degrees(float(limit.get("upper"))))
 
 
 async def test_read_robot_model_path_not_allowed(make_app: Callable[..., FastAPI]) -> None:

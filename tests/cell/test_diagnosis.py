@@ -72,7 +72,7 @@ def test_over_limit_jump_found(diagnosis, csv_log, limits) -> None:
     assert (jump.joint, jump.time_from_s, jump.time_to_s) == ("j4", 3.56, 3.60)
     assert jump.row == pairs[0] + 1 and jump.joint == f"j{joints[0] + 1}"
     assert jump.speed == pytest.approx(speed[pairs[0], joints[0]], rel=1e-9)
-    assert jump.limit == 300.0
+    assert jump.limit == pytest.approx(limits[3, 2], rel=1e-12)  # robots/pb-arm6.toml
     assert jump.change == pytest.approx(q[pairs[0] + 1, 3] - q[pairs[0], 3], abs=1e-9)
     velocity = [f for f in diagnosis.findings if f.code == "velocity"]
     assert [f.severity for f in velocity] == ["error"]
@@ -90,9 +90,9 @@ def test_smallest_margin_rows(diagnosis, csv_log, limits) -> None:
         assert extreme.time_s == time[row]
         assert extreme.margin == pytest.approx(margin[row, j], abs=1e-9)
     j6 = next(e for e in diagnosis.smallest_margins if e.joint == "j6")
-    # the demo's smallest margin: j6 at 358.6 deg, 1.4 deg below its 360 deg limit
+    # the demo's smallest margin: j6 at 353.6 deg, 1.4 deg below its 355 deg limit
     assert j6.time_s == 6.40 and j6.nearer_limit == "upper"
-    assert j6.margin == pytest.approx(limits[5, 1] - 358.6, abs=1e-9)
+    assert j6.margin == pytest.approx(limits[5, 1] - 353.6, abs=1e-9)
     low = [s for s in diagnosis.stretches if s.condition == "low limit margin"]
     assert any(s.first_row <= j6.row <= s.last_row and "j6" in s.detail for s in low)
 
@@ -166,9 +166,9 @@ def rows_text(rows: list[list[float]], times: list[float] | None = None) -> str:
 def test_worst_row_rule_order(demo_scene, documented_joints) -> None:
     rack = documented_joints["rack-low-1"]
     gauge = documented_joints["gauge-probe"]
-    # j6 at -365 deg is 5 deg beyond its -360 deg limit; the gripper and flange capsules are
+    # j6 at -360 deg is 5 deg beyond its -355 deg limit; the gripper and flange capsules are
     # round about the j6 axis, so clearance is that of rack-low-1 (closed form)
-    beyond = rack[:5] + [-365.0]
+    beyond = rack[:5] + [-360.0]
     robot = demo_scene.robot
     outside = diagnose_log(demo_scene, parse_joint_log(rows_text([rack, gauge, beyond]), robot))
     clearance = np.array(outside.rows.clearance_mm, dtype=float)

@@ -276,11 +276,11 @@ def test_paths(scene: Any) -> None:
 
 def test_joint_waypoint_pose_at_zero_configuration(scene: Any) -> None:
     # Closed form from robots/pb-arm6.toml: at q = 0 every joint origin is a pure
-    # translation, so the flange sits at x = 150 + 300 + 340 + 100 = 890 mm,
-    # z = 200 + 250 + 610 + 110 = 1170 mm with its z axis along base x
+    # translation, so the flange sits at x = 143 + 268 + 359 + 87 = 857 mm,
+    # z = 188 + 277 + 597 + 97 = 1159 mm with its z axis along base x
     # (flange rpy [0, 90, 0]); the tool adds (0, 10, 180) mm turned 45 deg about
     # the flange z. Base: foot (100, -200, 50) mm turned 90 deg about z, pedestal 400 mm.
-    T_base_flange = (rotation([0, 90, 0]), np.array([0.89, 0.0, 1.17]))
+    T_base_flange = (rotation([0, 90, 0]), np.array([0.857, 0.0, 1.159]))
     T_base_tool = compose(T_base_flange, pose([0, 10, 180], [0, 0, 45]))
     T_world_base = compose(pose([100, -200, 50], [0, 0, 90]), (np.eye(3), np.array([0, 0, 0.4])))
     expected = compose(T_world_base, T_base_tool)

@@ -188,13 +188,13 @@ def test_fused_forward_kinematics_against_floor_closed_form(robot, name: str) ->
 
 
 def test_capsule_segments_at_zero_configuration(robot) -> None:
-    """pb-arm6 upper arm at q = 0: link 2 origin at (150, 0, 200 + 250) mm (sum of the
-    description's joint offsets), segment along z for 610 mm; base moved by (1, 2, 0) m."""
+    """pb-arm6 upper arm at q = 0: link 2 origin at (143, 0, 188 + 277) mm (sum of the
+    description's joint offsets), segment along z for 597 mm; base moved by (1, 2, 0) m."""
     arm = ArmCapsules.from_robot(robot("pb-arm6"))
     T_world_base = pose((0.0, 0.0, 0.0), (1.0, 2.0, 0.0))
     segments = capsule_segments_world(arm, np.zeros((1, 6)), T_world_base)
     upper_arm = arm.names.index("upper-arm")
-    expected = [[1.15, 2.0, 0.45], [1.15, 2.0, 1.06]]  # closed form (docstring)
+    expected = [[1.143, 2.0, 0.465], [1.143, 2.0, 1.062]]  # closed form (docstring)
     np.testing.assert_allclose(segments[0, upper_arm], expected, atol=1e-12)
 
 
@@ -291,7 +291,7 @@ def test_empty_scene_reports_no_pair(arm) -> None:
 
 def test_pair_mask_excludes_pairs(arm) -> None:
     """A box around the whole arm at q = 0, masked out: only the floor remains (closed form
-    for the floor at z = -1: lowest end point z = 0 (base capsule start), radius 0.15 m)."""
+    for the floor at z = -1: lowest end point z = 0 (base capsule start), radius 0.147 m)."""
     shapes = [Box("enclosure", np.eye(4), np.array([3.0, 3.0, 3.0])), Floor(-1.0)]
     mask = np.ones((arm.count, 2), dtype=bool)
     mask[:, 0] = False
@@ -300,11 +300,11 @@ def test_pair_mask_excludes_pairs(arm) -> None:
     )
     result = clearance_per_obstacle_batch(scene, np.zeros((1, 6)))
     assert np.isinf(result.distance[0, 0])
-    assert result.distance[0, 1] == pytest.approx(1.0 - 0.15, abs=1e-12)  # closed form (docstring)
+    assert result.distance[0, 1] == pytest.approx(1.0 - 0.147, abs=1e-12)  # closed form (docstring)
 
 
 def test_default_mask_leaves_base_on_the_floor(arm) -> None:
-    """The base capsule starts at the floor with radius 0.15: excluded by default (common practice)."""
+    """The base capsule starts at the floor with radius 0.147: excluded by default (common practice)."""
     scene = ClearanceScene.build(
         arm, ObstacleSet.from_shapes([Floor(0.0)]), np.eye(4), self_pairs=[]
     )

@@ -31,9 +31,9 @@ def test_non_adjacent_pairs_of_six_axis_arm(robot) -> None:
 def test_pair_in_contact_everywhere_is_left_out(robot, reference) -> None:
     """A tool sphere of radius 0.3 m at the flange origin always overlaps the forearm capsule.
 
-    Triangle inequality: the flange origin is 0.1 m from the wrist centre, which
-    is 0.04 m beyond the forearm segment's end (0.34 vs 0.30 m along link 4's
-    x axis), so the axis distance is at most 0.14 m < 0.3 + 0.075 m of radii.
+    Triangle inequality (robots/pb-arm6.toml): the flange origin is 0.087 m from the wrist
+    centre, which is 0.14 m beyond the forearm segment's end (0.359 vs 0.219 m along link
+    4's x axis), so the axis distance is at most 0.227 m < 0.3 + 0.058 m of radii.
     Every other non-adjacent pair is kept exactly when it is apart in some
     sample (reference segment-segment enumeration on the same seeded samples).
     """

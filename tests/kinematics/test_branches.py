@@ -20,7 +20,7 @@ URDF_PATH = data_folder("robots") / "pb-arm6.urdf"
 
 def test_pb_arm6_hand_cases() -> None:
     robot = load_robot("pb-arm6")
-    q3_stretched = np.arctan2(-0.64, 0.11)
+    q3_stretched = np.arctan2(-0.627, 0.097)
     q = np.array(
         [
             [0, 0, 0, 0, 0.5, 0],
@@ -32,7 +32,7 @@ def test_pb_arm6_hand_cases() -> None:
         ]
     )
     shoulder, elbow, wrist = label_branches(robot, q)
-    # robots/pb-arm6.toml at q = 0: wrist centre 150 + 300 + 340 mm in front of axis 1
+    # robots/pb-arm6.toml at q = 0: wrist centre 143 + 268 + 359 mm in front of axis 1
     # (front), elbow (axis 3) above the line from the shoulder to the wrist centre
     # (forearm horizontal, upper arm vertical: up); joint 5 at +-0.5 rad: positive/negative;
     # at 0 the wrist is straight (0)
@@ -40,10 +40,10 @@ def test_pb_arm6_hand_cases() -> None:
     assert elbow.tolist()[:3] == [1, 1, 1]
     assert wrist.tolist()[:3] == [1, -1, 0]
     # joint 1 at 180 deg and the forearm pointing backwards (q3 = -180 deg): the wrist
-    # centre is 640 - 150 mm behind axis 1 in the turned arm plane: back
+    # centre is 627 - 143 mm behind axis 1 in the turned arm plane: back
     assert shoulder[3] == -1
-    # closed form: the forearm (640 mm along, 110 mm above axis 3) lines up with the
-    # upper arm at q3 = atan2(-0.64, 0.11); beyond it (more negative) the elbow is down
+    # closed form: the forearm (627 mm along, 97 mm above axis 3) lines up with the
+    # upper arm at q3 = atan2(-0.627, 0.097); beyond it (more negative) the elbow is down
     assert elbow[4] == -1 and elbow[5] == 1
 
 

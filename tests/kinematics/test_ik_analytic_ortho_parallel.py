@@ -34,6 +34,7 @@ from posebridge.kinematics.ik_types import (
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
+from posebridge.robot.urdf import load_robot_urdf
 from posebridge.transforms import rotation_matrix_about_axis, rotation_matrix_from_rpy
 
 URDF_PATH = data_folder("robots") / "pb-arm6.urdf"
@@ -82,10 +83,18 @@ def assert_solutions_reach(robot: Robot, result, targets: np.ndarray, tool=None)
 
 
 def test_extract_pb_arm6_parameters(geometry: OrthoParallelGeometry) -> None:
-    # from robots/pb-arm6.toml: shoulder 150 mm forward and 200 + 250 mm up, upper arm
-    # 610 mm, forearm 300 + 340 mm with a 110 mm offset that points backwards when the
-    # forearm stands vertical, 100 mm from the wrist centre to the flange, no lateral offset
-    expected = {"a1": 0.15, "a2": -0.11, "b": 0.0, "c1": 0.45, "c2": 0.61, "c3": 0.64, "c4": 0.1}
+    # from robots/pb-arm6.toml: shoulder 143 mm forward and 188 + 277 mm up, upper arm
+    # 597 mm, forearm 268 + 359 mm with a 97 mm offset that points backwards when the
+    # forearm stands vertical, 87 mm from the wrist centre to the flange, no lateral offset
+    expected = {
+        "a1": 0.143,
+        "a2": -0.097,
+        "b": 0.0,
+        "c1": 0.465,
+        "c2": 0.597,
+        "c3": 0.627,
+        "c4": 0.087,
+    }
     for name, value in expected.items():
         assert getattr(geometry, name) == pytest.approx(value, abs=1e-12), name
 
@@ -107,7 +116,7 @@ def test_canonical_fk_matches_posebridge_fk(arm6: Robot, geometry: OrthoParallel
     "name", ["pb-arm6-offset", "pb-arm7", "pb-planar2r", "pb-scara4", "pb-gantry3"]
 )
 def test_extract_rejects_other_arms(name: str) -> None:
-    # pb-arm6-offset: 70 mm between the fifth and sixth axes, so the wrist axes do not meet
+    # pb-arm6-offset: 64 mm between the fifth and sixth axes, so the wrist axes do not meet
     # (robot file comment); the others are not six-axis revolute arms
     assert OrthoParallelGeometry.from_robot(load_robot(name)) is None
 
@@ -115,7 +124,7 @@ def test_extract_rejects_other_arms(name: str) -> None:
 def test_extract_urdf_matches_toml(geometry: OrthoParallelGeometry) -> None:
     if not URDF_PATH.is_file():
         pytest.skip("robots/pb-arm6.urdf not present")
-    from_urdf = OrthoParallelGeometry.from_robot(load_robot(URDF_PATH))
+    from_urdf = OrthoParallelGeometry.from_robot(load_robot_urdf(URDF_PATH, to_link="flange"))
     assert from_urdf is not None
     # reference: the same invented robot described in TOML (the parameters are geometry,
     # independent of how the file places its joint frames)
@@ -355,9 +364,11 @@ def test_wrist_singularity_without_seed_uses_zero(
 
 def _wrist_centre_on_axis_1_q3(arm6: Robot) -> float:
     # with q2 = 0 the wrist centre's forward distance from axis 1 is
-    # 0.15 + 0.64 cos(q3) + 0.11 sin(q3) (robots/pb-arm6.toml: shoulder 150 mm forward,
-    # forearm 300 + 340 mm long and 110 mm above axis 3); scipy finds its root
-    return float(brentq(lambda t: 0.15 + 0.64 * np.cos(t) + 0.11 * np.sin(t), -np.pi, -np.pi / 2))
+    # 0.143 + 0.627 cos(q3) + 0.097 sin(q3) (robots/pb-arm6.toml: shoulder 143 mm forward,
+    # forearm 268 + 359 mm long and 97 mm above axis 3); scipy finds its root
+    return float(
+        brentq(lambda t: 0.143 + 0.627 * np.cos(t) + 0.097 * np.sin(t), -np.pi, -np.pi / 2)
+    )
 
 
 def test_shoulder_singularity_takes_joint_1_from_seed(
@@ -382,7 +393,7 @@ def test_wrist_centre_exactly_on_axis_1_with_signed_zeros(
     arm6: Robot, geometry: OrthoParallelGeometry, sign_x: float, sign_y: float
 ) -> None:
     # flange z pointing straight down: the wrist centre is the flange position moved
-    # 100 mm (c4) back along the flange z axis, so x = y = +-0.0 puts it on axis 1
+    # 87 mm (c4) back along the flange z axis, so x = y = +-0.0 puts it on axis 1
     target = np.eye(4)
     target[:3, :3] = np.diag([1.0, -1.0, -1.0])
     target[:3, 3] = [sign_x * 0.0, sign_y * 0.0, 1.2]
@@ -401,10 +412,10 @@ def test_wrist_centre_exactly_on_axis_1_with_signed_zeros(
 def test_stretched_or_folded_elbow_gives_one_elbow_branch(
     arm6: Robot, geometry: OrthoParallelGeometry, folded: bool
 ) -> None:
-    # closed form: the forearm (640 mm along, 110 mm above axis 3) is in line with the
-    # upper arm when 0.64 cos(q3) + 0.11 sin(q3) = 0: q3 = atan2(-0.64, 0.11) (stretched)
-    # or that + pi (folded)
-    q3 = np.arctan2(-0.64, 0.11) + (np.pi if folded else 0.0)
+    # closed form: the forearm (627 mm along, 97 mm above axis 3) is in line with the
+    # upper arm when 0.627 cos(q3) + 0.097 sin(q3) = 0: q3 = atan2(-0.627, 0.097)
+    # (stretched) or that + pi (folded)
+    q3 = np.arctan2(-0.627, 0.097) + (np.pi if folded else 0.0)
     q = np.array([[0.2, 0.4, q3, 0.3, 0.6, 0.2]])
     target = fk_tool(arm6, q)
     result = solve_ortho_parallel(arm6, geometry, target)
@@ -420,7 +431,7 @@ def test_stretched_or_folded_elbow_gives_one_elbow_branch(
 
 def test_far_pose_is_out_of_reach(arm6: Robot, geometry: OrthoParallelGeometry) -> None:
     target = np.eye(4)
-    target[:3, 3] = [3.0, 1.0, 0.5]  # 3.2 m away; pb-arm6 reaches about 1.4 m (robot file)
+    target[:3, 3] = [3.0, 1.0, 0.5]  # 3.2 m away; pb-arm6 reaches about 1.46 m (robot file)
     result = solve_ortho_parallel(arm6, geometry, target[None])
     assert not result.valid.any()
     assert result.reason == (REASON_OUT_OF_REACH,)
@@ -430,11 +441,11 @@ def test_far_pose_is_out_of_reach(arm6: Robot, geometry: OrthoParallelGeometry) 
 def test_orientation_not_reachable(arm6: Robot, geometry: OrthoParallelGeometry) -> None:
     # flange exactly at full stretch of the wrist centre (c2 + k from the shoulder,
     # k = hypot(a2, c3)) with the flange z axis pointing back to the robot: the wrist
-    # centre would be c4 = 100 mm beyond the reach, while the flange point itself is inside
-    k = np.hypot(0.11, 0.64)
+    # centre would be c4 = 87 mm beyond the reach, while the flange point itself is inside
+    k = np.hypot(0.097, 0.627)
     target = np.eye(4)
     target[:3, :3] = rotation_matrix_about_axis([0.0, 1.0, 0.0], -np.pi / 2)  # z -> -x
-    target[:3, 3] = [0.15 + 0.61 + k, 0.0, 0.45]
+    target[:3, 3] = [0.143 + 0.597 + k, 0.0, 0.465]
     result = solve_ortho_parallel(arm6, geometry, target[None], T_flange_tool=np.eye(4))
     assert not result.valid.any()
     assert result.reason == (REASON_ORIENTATION,)

@@ -18,6 +18,7 @@ from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml
+from posebridge.robot.urdf import load_robot_urdf
 
 TOLERANCE_M = 1e-6
 TOLERANCE_RAD = 1e-6
@@ -121,7 +122,7 @@ URDF_PATH = data_folder("robots") / "pb-arm6-offset.urdf"
 @given(fractions=arrays(np.float64, (4, 6), elements=st.floats(0.0, 1.0)))
 def test_solutions_checked_with_pinocchio(fractions: np.ndarray) -> None:
     pin = pytest.importorskip("pinocchio")
-    robot = load_robot(URDF_PATH)
+    robot = load_robot_urdf(URDF_PATH, to_link="flange")
     model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
     data = model.createData()
     flange = model.getFrameId("flange")

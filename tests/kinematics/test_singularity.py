@@ -19,14 +19,16 @@ from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 
 URDF_PATH = data_folder("robots") / "pb-arm6.urdf"
-Q3_STRETCHED = np.arctan2(-0.64, 0.11)
-"""pb-arm6: forearm (640 mm along, 110 mm above axis 3) in line with the upper arm."""
+Q3_STRETCHED = np.arctan2(-0.627, 0.097)
+"""pb-arm6: forearm (627 mm along, 97 mm above axis 3) in line with the upper arm."""
 
 
 def _q3_wrist_centre_on_axis_1() -> float:
-    # with q2 = 0 the wrist centre is 0.15 + 0.64 cos(q3) + 0.11 sin(q3) in front of
+    # with q2 = 0 the wrist centre is 0.143 + 0.627 cos(q3) + 0.097 sin(q3) in front of
     # axis 1 (robots/pb-arm6.toml); scipy finds the root
-    return float(brentq(lambda t: 0.15 + 0.64 * np.cos(t) + 0.11 * np.sin(t), -np.pi, -np.pi / 2))
+    return float(
+        brentq(lambda t: 0.143 + 0.627 * np.cos(t) + 0.097 * np.sin(t), -np.pi, -np.pi / 2)
+    )
 
 
 @pytest.fixture(scope="module")
@@ -46,7 +48,7 @@ def test_distances_from_closed_forms(arm6) -> None:
     # wrist: joint 5 of pb-arm6 is straight at 0, so the bend is q5 itself
     assert report.wrist_rad[0] == pytest.approx(0.35)
     assert report.wrist_sin[0] == pytest.approx(np.sin(0.35))
-    # elbow: 0.02 rad past the stretched q3 = atan2(-0.64, 0.11)
+    # elbow: 0.02 rad past the stretched q3 = atan2(-0.627, 0.097)
     assert report.elbow_rad[1] == pytest.approx(0.02, abs=1e-9)
     # shoulder: the wrist centre on axis 1 (root found by scipy above)
     assert report.shoulder_m[2] == pytest.approx(0.0, abs=1e-9)

@@ -61,9 +61,10 @@ def test_joint_move_duration_of_a_six_axis_arm() -> None:
     robot = load_robot("pb-arm6")
     q_end = np.zeros(6)
     q_end[0] = np.radians(90.0)
-    # closed form (Lynch & Park sec. 9.2.2.2): only j1 moves 90 deg with 170 deg/s and
-    # 600 deg/s^2; 90 >= 170^2 / 600, so T = 90 / 170 + 170 / 600 s; at 50 % twice that
-    expected = 90.0 / 170.0 + 170.0 / 600.0
+    # closed form (Lynch & Park sec. 9.2.2.2): only j1 moves 90 deg with 143 deg/s and
+    # 520 deg/s^2 (robots/pb-arm6.toml); 90 >= 143^2 / 520, so T = 90 / 143 + 143 / 520 s;
+    # at 50 % twice that
+    expected = 90.0 / 143.0 + 143.0 / 520.0
     assert joint_move_duration(robot, np.zeros(6), q_end, 100.0) == pytest.approx(expected)
     assert joint_move_duration(robot, np.zeros(6), q_end, 50.0) == pytest.approx(2 * expected)
 

@@ -175,10 +175,10 @@ def test_bundled_dh_robots_match_dh_product(name: str) -> None:
 
 def test_standard_dh_zero_pose_of_pb_arm6_offset_by_hand() -> None:
     # Zero pose worked out by hand from the DH rows (Spong ch. 3 product, theta2 = -90 deg):
-    # frame 6 at (160 + 660 + 110, 0, 480 + 620 + 120 + 70) mm = (930, 0, 1290) mm, its z axis
+    # frame 6 at (172 + 652 + 97, 0, 457 + 598 + 113 + 64) mm = (921, 0, 1232) mm, its z axis
     # along base +x and its x axis along base +z.
     robot = load_robot_toml(data_folder("robots") / "pb-arm6-offset.toml")
     T = fk_flange(robot, np.zeros((1, 6)))[0]
-    np.testing.assert_allclose(T[:3, 3], [0.93, 0.0, 1.29], atol=1e-12)
+    np.testing.assert_allclose(T[:3, 3], [0.921, 0.0, 1.232], atol=1e-12)
     np.testing.assert_allclose(T[:3, 2], [1.0, 0.0, 0.0], atol=1e-12)
     np.testing.assert_allclose(T[:3, 0], [0.0, 0.0, 1.0], atol=1e-12)

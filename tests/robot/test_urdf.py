@@ -14,7 +14,7 @@ import numpy as np
 import pinocchio as pin
 import pytest
 
-from posebridge.kinematics.fk import fk_flange, fk_frames
+from posebridge.kinematics.fk import fk_flange, fk_frames, fk_tool
 from posebridge.resources import data_folder
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.robot.library import bundled_robots, load_robot
@@ -130,12 +130,23 @@ MIXED_CHAIN = chain_urdf(
 
 
 @pytest.mark.parametrize("name", ["pb-arm6", "pb-arm6-offset"])
+def test_bundled_urdf_is_the_export_of_its_toml(name: str) -> None:
+    # our own contract: the bundled URDF files are written by urdf_from_robot from the
+    # TOML descriptions (DEVELOPERS.md says how to regenerate them), so they never drift
+    text = (ROBOTS / f"{name}.urdf").read_text(encoding="utf-8")
+    assert text == urdf_from_robot(load_robot(name))
+
+
+@pytest.mark.parametrize("name", ["pb-arm6", "pb-arm6-offset"])
 def test_bundled_urdf_fk_matches_toml(name: str) -> None:
     toml_robot = load_robot(name)
-    urdf_robot = load_robot_urdf(ROBOTS / f"{name}.urdf")
+    to_flange = load_robot_urdf(ROBOTS / f"{name}.urdf", to_link="flange")
+    to_tool = load_robot_urdf(ROBOTS / f"{name}.urdf")
     q = random_q(toml_robot, np.random.default_rng(SEED), 1000)
-    # same robot described twice (TOML and URDF): same flange poses
-    np.testing.assert_allclose(fk_flange(urdf_robot, q), fk_flange(toml_robot, q), atol=1e-12)
+    # same robot described twice (TOML and URDF): same flange poses, and the file's single
+    # leaf link "tool" (the default to_link) is the TOML's default tool
+    np.testing.assert_allclose(fk_flange(to_flange, q), fk_flange(toml_robot, q), atol=1e-12)
+    np.testing.assert_allclose(fk_flange(to_tool, q), fk_tool(toml_robot, q), atol=1e-12)
 
 
 @pytest.mark.parametrize("name", ["pb-arm6", "pb-arm6-offset"])

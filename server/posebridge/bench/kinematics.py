@@ -31,7 +31,7 @@ def _pin_loop_configs_per_s(q: np.ndarray) -> float:
     urdf = (data_folder("robots") / f"{ROBOT}.urdf").read_text(encoding="utf-8")
     model = pin.buildModelFromXML(urdf)
     data = model.createData()
-    frame = model.nframes - 1
+    frame = model.getFrameId("flange")
 
     def loop() -> None:
         for row in q:

@@ -24,7 +24,7 @@ Roll about the tool axis
     aligned with the direction, made orthogonal to it); the direction counts
     as reachable when any roll is. The default is one roll: for arms whose
     TCP lies on the last joint's axis and whose last joint spans a full turn
-    (pb-arm6: TCP on axis 6, ±360°) the roll moves only that joint, so reach
+    (pb-arm6: TCP on axis 6, ±355°) the roll moves only that joint, so reach
     does not depend on it. Give more rolls for other arms.
 
 Voxels out of reach are skipped without IK
