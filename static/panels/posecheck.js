@@ -3,7 +3,7 @@
 // branch, margins, singularity, clearance with the closest object, nearest
 // targets and the other branches. A log shows a timeline of the smallest
 // limit margin, the clearance and the manipulability per row, with the worst
-// row highlighted and branch flips and velocity jumps marked; the scrub bar
+// row highlighted and branch changes and velocity jumps marked; the scrub bar
 // and the play button move the arm through the log on both sides.
 
 /* global Plotly */
@@ -153,13 +153,13 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
       { x, y: rows.clearance_mm, name: "clearance (mm)", yaxis: "y2", line: { color: palette["branch-3"] } },
       { x, y: rows.manipulability, name: "manipulability", yaxis: "y3", line: { color: palette["branch-5"] } },
       {
-        x: log.branch_flips.map((flip) => flip.row),
-        y: log.branch_flips.map(() => 0),
+        x: log.branch_changes.map((change) => change.row),
+        y: log.branch_changes.map(() => 0),
         yaxis: "y3",
         mode: "markers",
-        name: "branch flip",
+        name: "branch change",
         marker: { symbol: "triangle-up", size: 10, color: palette.warn },
-        text: log.branch_flips.map((flip) => `${flip.part}: ${flip.before} → ${flip.after}`),
+        text: log.branch_changes.map((change) => `${change.part}: ${change.before} → ${change.after}`),
         hovertemplate: "%{text}<extra>row %{x}</extra>",
       },
       {
@@ -211,7 +211,7 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
       ["Rows", `${log.row_count}${log.duration_s ? ` over ${formatNumber(log.duration_s, { decimals: 2 })} s` : ""}`],
       ["Worst row", `row ${worst.row} (line ${worst.line}): ${worst.reason}`],
       ["Smallest clearance", log.min_clearance ? `${formatLength(log.min_clearance.value)} at row ${log.min_clearance.row}` : "–"],
-      ["Branch flips", String(log.branch_flip_count)],
+      ["Branch changes", String(log.branch_change_count)],
       ["Velocity jumps", log.velocity.checked ? String(log.velocity.jump_count) : `not checked: ${log.velocity.reason}`],
     ];
     const rows = facts.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));

@@ -113,17 +113,17 @@ def test_near_singular_rows(diagnosis, csv_log) -> None:
     np.testing.assert_allclose(diagnosis.rows.wrist_bend_deg, np.abs(q[:, 4]), atol=1e-9)
 
 
-def test_wrist_flips(diagnosis, csv_log) -> None:
+def test_wrist_branch_changes(diagnosis, csv_log) -> None:
     _, q = csv_log
-    # closed form for pb-arm6: the wrist branch is the sign of j5; a flip is a change of
+    # closed form for pb-arm6: the wrist branch is the sign of j5; a branch change is a change of
     # sign between consecutive rows where j5 is not exactly 0
     sign = np.sign(q[:, 4])
     defined = np.flatnonzero(sign != 0)
-    flips = defined[1:][sign[defined[1:]] != sign[defined[:-1]]]
-    assert [f.row for f in diagnosis.branch_flips] == flips.tolist()
-    assert all(f.part == "wrist" for f in diagnosis.branch_flips)
-    assert diagnosis.branch_flip_count == len(flips) == 2
-    first = diagnosis.branch_flips[0]
+    changes = defined[1:][sign[defined[1:]] != sign[defined[:-1]]]
+    assert [f.row for f in diagnosis.branch_changes] == changes.tolist()
+    assert all(f.part == "wrist" for f in diagnosis.branch_changes)
+    assert diagnosis.branch_change_count == len(changes) == 2
+    first = diagnosis.branch_changes[0]
     assert (first.before, first.after) == ("positive", "negative")
 
 

@@ -148,13 +148,13 @@ def test_linear_move_through_the_wrist_singularity_is_an_error() -> None:
         "pb-arm6", [joints(np.degrees(q_a).tolist()), _pose_waypoint(T_b)], floor_height_mm=-2000.0
     )
     report = check_path(scene, 0, resolution_mm=1.0, resolution_deg=0.5)
-    flips = [f for f in report.findings if f.kind in ("branch_change", "configuration_jump")]
+    changes = [f for f in report.findings if f.kind in ("branch_change", "configuration_jump")]
     # closed form: the move mirrors the wrist bend j5 = +10 deg -> -10 deg about the straight
     # wrist, so half way the orientation (slerp) is the straight-wrist one and j5 must pass 0
-    # (wrist singularity, Siciliano et al., Robotics, sec. 3.3): the wrist sign flips there
-    assert flips
-    assert all(f.severity == "error" and f.segment_index == 0 for f in flips)
-    assert any(abs(f.fraction_worst - 0.5) <= 0.05 for f in flips)
+    # (wrist singularity, Siciliano et al., Robotics, sec. 3.3): the wrist sign changes there
+    assert changes
+    assert all(f.severity == "error" and f.segment_index == 0 for f in changes)
+    assert any(abs(f.fraction_worst - 0.5) <= 0.05 for f in changes)
     assert any(
         f.kind == "singularity" and abs(f.fraction_worst - 0.5) <= 0.05 for f in report.findings
     )

@@ -12,7 +12,7 @@ the same TCP pose (with the input's own solution marked).
 batch) and then looks along the rows: each joint's smallest margin, the
 minimum clearance and manipulability, the closest approach to a singularity,
 stretches of rows in a condition (collision, low clearance, outside limits,
-low limit margin, near a singularity), branch flips between consecutive rows
+low limit margin, near a singularity), branch changes between consecutive rows
 and joint changes faster than the velocity limits (needs ``time_s``). The
 single **worst row** follows :data:`WORST_ROW_RULE`.
 """
@@ -48,7 +48,7 @@ from posebridge.cell.quality import (
 )
 from posebridge.cell.reports import (
     MAX_LISTED_EVENTS,
-    BranchFlip,
+    BranchChange,
     Finding,
     JointExtreme,
     LogDiagnosis,
@@ -522,23 +522,23 @@ class _LogDiagnoser:
 
     # --- between rows -------------------------------------------------------------------------
 
-    def _branch_flips(self) -> tuple[int, list[BranchFlip]]:
+    def _branch_changes(self) -> tuple[int, list[BranchChange]]:
         quality = self.quality
         scheme = quality.scheme
         parts = {"arm": ("shoulder", "elbow", "wrist"), "planar": ("elbow",)}.get(scheme, ())
-        flips: list[tuple[int, str, int, int]] = []
+        changes: list[tuple[int, str, int, int]] = []
         for part in parts:
             labels = getattr(quality, part)
             defined = np.flatnonzero(labels != 0)
             changed = np.flatnonzero(labels[defined[1:]] != labels[defined[:-1]])
-            flips.extend(
+            changes.extend(
                 (int(defined[c + 1]), part, int(labels[defined[c]]), int(labels[defined[c + 1]]))
                 for c in changed
             )
-        flips.sort()
+        changes.sort()
 
         listed = [
-            BranchFlip(
+            BranchChange(
                 row=row,
                 line=int(self.log.line[row]),
                 time_s=self.rows.time(row),
@@ -546,21 +546,21 @@ class _LogDiagnoser:
                 before=part_word(scheme, part, before),
                 after=part_word(scheme, part, after),
             )
-            for row, part, before, after in flips[:MAX_LISTED_EVENTS]
+            for row, part, before, after in changes[:MAX_LISTED_EVENTS]
         ]
-        for flip in listed:
-            when = "" if flip.time_s is None else f", t {flip.time_s:g} s"
+        for change in listed:
+            when = "" if change.time_s is None else f", t {change.time_s:g} s"
             self.findings.append(
                 Finding(
                     severity="warning",
-                    code="branch-flip",
+                    code="branch-change",
                     target=None,
-                    row=flip.row,
-                    message=f"{flip.part} branch changes from {flip.before} to {flip.after} at "
-                    f"row {flip.row} (line {flip.line}{when}): the arm passed a singularity",
+                    row=change.row,
+                    message=f"{change.part} branch changes from {change.before} to {change.after} "
+                    f"at row {change.row} (line {change.line}{when}): the arm passed a singularity",
                 )
             )
-        return len(flips), listed
+        return len(changes), listed
 
     def _velocity(self) -> VelocityCheck:
         robot = self.robot
@@ -713,7 +713,7 @@ class _LogDiagnoser:
         robot = self.robot
         quality = self.quality
         self._condition_stretches()
-        flip_count, flips = self._branch_flips()
+        change_count, changes = self._branch_changes()
         velocity = self._velocity()
         worst, reason = self._worst_row()
         time_s = self.log.time_s
@@ -738,8 +738,8 @@ class _LogDiagnoser:
             closest_singularity=self._closest_singularity(),
             stretches=self.stretches,
             stretch_counts=self.stretch_counts,
-            branch_flip_count=flip_count,
-            branch_flips=flips,
+            branch_change_count=change_count,
+            branch_changes=changes,
             velocity=velocity,
             worst_row=WorstRow(
                 row=worst,

@@ -209,7 +209,7 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
 
 
 def render_log_diagnosis(diagnosis: LogDiagnosis) -> str:
-    """A log: smallest margins, extremes, stretches, flips, velocity, worst row, findings."""
+    """A log: smallest margins, extremes, stretches, branch changes, speeds, worst row, findings."""
     d = diagnosis
 
     def when(row: int, time_s: float | None) -> str:
@@ -237,7 +237,7 @@ def render_log_diagnosis(diagnosis: LogDiagnosis) -> str:
         if velocity.checked
         else f"velocity check:        {velocity.reason}"
     )
-    extremes.append(f"branch flips:          {d.branch_flip_count}")
+    extremes.append(f"branch changes:        {d.branch_change_count}")
     w = d.worst_row
     extremes.append(f"worst row:             {when(w.row, w.time_s)}, line {w.line}: {w.reason}")
     margins = table(

@@ -27,8 +27,8 @@ from pydantic import BaseModel, ConfigDict, Field
 
 __all__ = [
     "MAX_LISTED_EVENTS",
+    "BranchChange",
     "BranchCoverage",
-    "BranchFlip",
     "BranchReport",
     "ClosestPair",
     "ConsistentBranch",
@@ -55,7 +55,7 @@ __all__ = [
 ]
 
 MAX_LISTED_EVENTS = 100
-"""Most events of one kind (flips, jumps, stretches) listed in a log diagnosis; counts are exact."""
+"""Most events of one kind (branch changes, jumps, stretches) listed in a log diagnosis; counts are exact."""
 
 Severity = Literal["error", "warning", "info"]
 PartKind = Literal["fixture", "keep-out", "pedestal", "floor", "self"]
@@ -255,7 +255,7 @@ class Finding(_Result):
         "consistent-branch, inconsistent-branch; any configuration: outside-limits, "
         "limit-margin, collision, clearance, singularity, at-target; logs (stretches of rows): "
         "collision, low-clearance, outside-limits, low-limit-margin, near-wrist-singularity, "
-        "near-elbow-singularity, near-shoulder-singularity; logs (between rows): branch-flip, "
+        "near-elbow-singularity, near-shoulder-singularity; logs (between rows): branch-change, "
         "velocity, velocity-skipped."
     )
     target: str | None = Field(description="Target name, or null for the cell or a log.")
@@ -378,7 +378,7 @@ class RowStretch(_Result):
 
 
 # A change of arm branch between consecutive rows.
-class BranchFlip(_Result):
+class BranchChange(_Result):
     row: int = Field(description="The row after the change.")
     line: int
     time_s: float | None
@@ -456,8 +456,8 @@ class LogDiagnosis(_Result):
     )
     stretches: list[RowStretch] = Field(description=f"At most {MAX_LISTED_EVENTS} per condition.")
     stretch_counts: dict[str, int]
-    branch_flip_count: int
-    branch_flips: list[BranchFlip] = Field(description=f"At most {MAX_LISTED_EVENTS}, by row.")
+    branch_change_count: int
+    branch_changes: list[BranchChange] = Field(description=f"At most {MAX_LISTED_EVENTS}, by row.")
     velocity: VelocityCheck
     worst_row: WorstRow
     findings: list[Finding]

@@ -63,7 +63,7 @@ def diagnose_joint_pose(body: PoseDiagnosisRequest, cells: CellsDep) -> PoseDiag
     "/diagnose/log", summary="Diagnose a controller log", responses=error_responses(413, 422)
 )
 def diagnose_joint_log(body: LogDiagnosisRequest, cells: CellsDep) -> LogDiagnosis:
-    """Row-by-row values (margins, clearance, manipulability), the worst row, branch flips,
+    """Row-by-row values (margins, clearance, manipulability), the worst row, branch changes,
     velocity jumps and findings."""
     rows = body.csv.count("\n")
     if rows > MAX_LOG_ROWS + 1:
