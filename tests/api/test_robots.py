@@ -64,6 +64,16 @@ async def test_read_robot_model(client: httpx.AsyncClient) -> None:
     assert max(abs(v) for v in low + high) <= 700.0 + 1e-6
 
 
+async def test_read_robot_model_schema_is_a_result(client: httpx.AsyncClient) -> None:
+    response = await client.get("/openapi.json")
+    answer = response.json()["paths"]["/api/robots/model"]["get"]["responses"]["200"]
+    # our own contract: answers are <Thing>Result models (DEVELOPERS.md, conventions)
+    assert answer["content"]["application/json"]["schema"] == {
+        "$ref": "#/components/schemas/RobotDescriptionResult"
+    }
+    assert "RobotModel" not in response.json()["components"]["schemas"]
+
+
 async def test_read_robot_model_prismatic_units(client: httpx.AsyncClient) -> None:
     response = await client.get("/api/robots/model", params={"robot": "pb-gantry3"})
     assert response.status_code == 200

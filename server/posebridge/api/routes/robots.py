@@ -9,9 +9,9 @@ from fastapi import APIRouter, Query
 from posebridge.api.deps import RobotsDep, SettingsDep
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.robots import (
+    RobotDescriptionResult,
     RobotList,
-    RobotModel,
-    robot_model_from_robot,
+    robot_description_result,
     robot_summary_from_bundled,
 )
 from posebridge.robot.library import bundled_robots
@@ -37,6 +37,6 @@ def read_robot_model(
         str,
         Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
     ],
-) -> RobotModel:
+) -> RobotDescriptionResult:
     """Joints with limits and units, default tool, home configuration and drawing bounds."""
-    return robot_model_from_robot(robots.get(robot), robot)
+    return robot_description_result(robots.get(robot), robot)

@@ -15,11 +15,11 @@ from posebridge.units import joint_unit_labels, joints_user_from_si, mm_from_m
 
 __all__ = [
     "JointDescription",
+    "RobotDescriptionResult",
     "RobotList",
-    "RobotModel",
     "RobotSummary",
     "ToolDescription",
-    "robot_model_from_robot",
+    "robot_description_result",
     "robot_summary_from_bundled",
 ]
 
@@ -72,7 +72,7 @@ class ToolDescription(BaseModel):
 
 
 # Everything the page needs to draw a robot and edit its joints.
-class RobotModel(BaseModel):
+class RobotDescriptionResult(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     robot: str = Field(description="The robot as requested: bundled name or file path.")
@@ -106,7 +106,7 @@ def _bounds_m(robot: Robot) -> np.ndarray:
     return np.stack([points.min(axis=0), points.max(axis=0)])
 
 
-def robot_model_from_robot(robot: Robot, spec: str) -> RobotModel:
+def robot_description_result(robot: Robot, spec: str) -> RobotDescriptionResult:
     """Description of ``robot`` (loaded from ``spec``) in boundary units (mm, deg)."""
     units = joint_unit_labels(robot.prismatic)
     lower = joints_user_from_si(robot.lower, robot.prismatic)
@@ -128,7 +128,7 @@ def robot_model_from_robot(robot: Robot, spec: str) -> RobotModel:
         position_mm=mm_from_m(robot.T_flange_tool[:3, 3]).tolist(),
         rpy_deg=rpy_from_rotation_matrix(robot.T_flange_tool[:3, :3], degrees=True).tolist(),
     )
-    return RobotModel(
+    return RobotDescriptionResult(
         robot=spec,
         name=robot.name,
         kind=robot.kind,
