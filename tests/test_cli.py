@@ -133,6 +133,50 @@ def test_ik_planar2r_gives_both_elbow_branches(capsys: pytest.CaptureFixture[str
     assert set(result["ignored_components"]) >= {"z", "roll", "pitch"}
 
 
+ALL_REVOLUTIONS_POSE = "900,0,800,180,0,0"
+
+
+def test_ik_all_revolutions_lists_every_in_limit_revolution(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    code, nearest = run_json(capsys, "ik", "pb-arm6", "--pose", ALL_REVOLUTIONS_POSE)
+    assert code == 0
+    code, every = run_json(
+        capsys, "ik", "pb-arm6", "--pose", ALL_REVOLUTIONS_POSE, "--all-revolutions"
+    )
+    assert code == 0
+    assert len(every["solutions"]) > len(nearest["solutions"])
+
+    def same_modulo_360(a: dict, b: dict) -> bool:
+        d = (np.array(a["joints_deg"]) - np.array(b["joints_deg"]) + 180.0) % 360.0 - 180.0
+        return bool(np.abs(d).max() < 1e-6)
+
+    # the same configurations modulo 360 deg, now with every revolution variant listed
+    assert all(any(same_modulo_360(s, n) for n in nearest["solutions"]) for s in every["solutions"])
+    assert all(any(same_modulo_360(n, s) for s in every["solutions"]) for n in nearest["solutions"])
+    for solution in every["solutions"]:
+        joints = np.array(solution["joints_deg"])
+        # documented rule (ik_types): revolutions count from the revolution centred on the
+        # range; j4 and j6 of pb-arm6.toml have symmetric ranges wider than 360 deg
+        for j in (3, 5):
+            assert solution["revolutions"][j] == math.floor(joints[j] / 360.0 + 0.5)
+        for name, count in zip(every["joint_names"], solution["revolutions"], strict=True):
+            # our own contract: the label names every extra revolution as "j6 +1 rev"
+            assert (f"{name} {count:+d} rev" in solution["branch"]) == (count != 0)
+
+
+def test_ik_old_all_turns_option_still_works_and_says_it_is_deprecated(
+    capsys: pytest.CaptureFixture[str],
+) -> None:
+    argv = ["ik", "pb-arm6", "--pose", ALL_REVOLUTIONS_POSE, "--json"]
+    new_code, new_out, new_err = run(capsys, *argv, "--all-revolutions")
+    old_code, old_out, old_err = run(capsys, *argv, "--all-turns")
+    # our own contract: the old name works for one release and says what replaces it
+    assert (old_code, old_out) == (new_code, new_out) and new_err == ""
+    assert old_err.count("\n") == 1
+    assert "--all-turns is deprecated" in old_err and "use --all-revolutions" in old_err
+
+
 @pytest.mark.parametrize(
     ("argv", "message"),
     [

@@ -47,6 +47,29 @@ class InputError(ValueError):
     """Bad command-line input; the message is printed as one line."""
 
 
+class _DeprecatedFlag(argparse.Action):
+    """A flag kept for one release under an old name: sets the new option's value and says
+    on stderr which option replaces it."""
+
+    def __init__(self, option_strings: Sequence[str], dest: str, **kwargs: Any) -> None:
+        self.replacement = kwargs.pop("replacement")
+        super().__init__(option_strings, dest, nargs=0, **kwargs)
+
+    def __call__(
+        self,
+        parser: argparse.ArgumentParser,
+        namespace: argparse.Namespace,
+        values: Any,
+        option_string: str | None = None,
+    ) -> None:
+        print(
+            f"posebridge: {option_string} is deprecated and will be removed in the next release; "
+            f"use {self.replacement}",
+            file=sys.stderr,
+        )
+        setattr(namespace, self.dest, True)
+
+
 # ---------------------------------------------------------------- parsing
 
 
@@ -255,7 +278,9 @@ def _cmd_ik(args: argparse.Namespace) -> int:
     if args.seed is not None:
         seed = _joints_argument(args.seed, "--seed", robot)
     tool = _tool_from_argument(args.tool)
-    solutions = solve_ik_all(robot, T, T_flange_tool=tool, seed=seed, all_turns=args.all_turns)
+    solutions = solve_ik_all(
+        robot, T, T_flange_tool=tool, seed=seed, all_revolutions=args.all_revolutions
+    )
     results = [
         ik_result(robot, solutions, i, T_flange_tool=tool, spec=args.robot)
         for i in range(len(poses))
@@ -633,7 +658,16 @@ def build_parser() -> argparse.ArgumentParser:
         "--seed", help="joint values to sort solutions by closeness (deg; mm for prismatic)"
     )
     ik.add_argument(
-        "--all-turns", action="store_true", help="list every extra turn of joints beyond +-180 deg"
+        "--all-revolutions",
+        action="store_true",
+        help="list every whole-revolution variant of joints whose range exceeds +-180 deg",
+    )
+    ik.add_argument(
+        "--all-turns",
+        action=_DeprecatedFlag,
+        dest="all_revolutions",
+        replacement="--all-revolutions",
+        help="deprecated name of --all-revolutions (removed in the next release)",
     )
     ik.add_argument(
         "--tool", help='tool in the flange frame "x,y,z,roll,pitch,yaw" (default: the robot\'s)'

@@ -21,11 +21,11 @@ import { clamp, formatJoint } from "../units.js";
 const PICK_RADIUS_PX = 12;
 const CLEARANCE_SHADE_MM = 300;
 
-/** Branch words without the turn counts (turn variants share a legend entry). */
+/** Branch words without the revolution counts (revolution variants share a legend entry). */
 export function branchWords(branch) {
   return branch
     .split(", ")
-    .filter((part) => !/ [+-]\d+ turns?$/.test(part))
+    .filter((part) => !/ [+-]\d+ rev$/.test(part))
     .join(", ");
 }
 

@@ -285,7 +285,7 @@ async def test_compute_ik_arm6_solutions_reach_pose(client: httpx.AsyncClient) -
         tip = 1000.0 * (reached.translation + reached.rotation @ np.array([0.0, 0.0, 0.12]))
         assert tip == pytest.approx(position, abs=1e-3)
         np.testing.assert_allclose(reached.rotation, start.rotation, atol=1e-6)
-    # the starting configuration is one of them (same branch, no turn ambiguity within limits)
+    # the starting configuration is one of them (same branch, no revolution ambiguity within limits)
     assert any(np.allclose(s["joints_deg"], q_start, atol=1e-4) for s in body["solutions"])
     # smallest limit margin: per joint m = min(q - lower, upper - q) (common practice, no
     # source), the joint with the smallest m / (upper - lower) named; limits from the TOML file
@@ -300,6 +300,34 @@ async def test_compute_ik_arm6_solutions_reach_pose(client: httpx.AsyncClient) -
         assert solution["min_margin_deg"] == pytest.approx(margin[k], abs=1e-6)
         assert solution["min_margin_joint"] == joints[k]["name"]
         assert solution["min_margin_unit"] == "deg"
+
+
+async def test_compute_ik_all_revolutions(client: httpx.AsyncClient) -> None:
+    pose = {"position_mm": [900.0, 0.0, 800.0], "rpy_deg": [180.0, 0.0, 0.0]}
+    body = {"robot": "pb-arm6", "pose": pose}
+    nearest = (await client.post("/api/ik", json=body)).json()["solutions"]
+    response = await client.post("/api/ik", json={**body, "all_revolutions": True})
+    assert response.status_code == 200
+    every = response.json()["solutions"]
+    # j4 and j6 of pb-arm6.toml span more than one revolution: extra in-limit variants
+    assert len(every) > len(nearest)
+    assert all(s["revolutions"] == [0] * 6 for s in nearest if "rev" not in s["branch"])
+    # our own contract: a solution's label names its extra revolutions ("j6 +1 rev")
+    for solution in every:
+        for k, count in enumerate(solution["revolutions"]):
+            assert (f"j{k + 1} {count:+d} rev" in solution["branch"]) == (count != 0)
+
+
+async def test_compute_ik_old_field_name_names_the_new_one(client: httpx.AsyncClient) -> None:
+    pose = {"position_mm": [900.0, 0.0, 800.0], "rpy_deg": [180.0, 0.0, 0.0]}
+    response = await client.post(
+        "/api/ik", json={"robot": "pb-arm6", "pose": pose, "all_turns": True}
+    )
+    assert response.status_code == 422
+    # our own contract: the 0.1.0 field name is refused with the new one named
+    assert response.json() == {
+        "detail": "request body: all_turns was renamed all_revolutions; send all_revolutions"
+    }
 
 
 async def test_compute_ik_out_of_reach(client: httpx.AsyncClient) -> None:

@@ -219,7 +219,7 @@ def test_ik_branches_agree_with_an_independent_search(report, demo_scene, pin_to
             w = _wrapped(fit.x)
             if not any(np.abs(_wrapped(w - s)).max() < 1e-5 for s in wrapped):
                 wrapped.append(w)
-    # every whole-turn variant inside the URDF's limits (closed form: q + 2 pi k)
+    # every whole-revolution variant inside the URDF's limits (closed form: q + 2 pi k)
     lower, upper = model.lowerPositionLimit, model.upperPositionLimit
     expected: list[np.ndarray] = []
     for w in wrapped:

@@ -67,14 +67,14 @@ def test_outside_the_travel(gantry: Robot, geometry: GantryGeometry) -> None:
     assert result.reason == (REASON_NO_WITHIN_LIMITS,)
 
 
-def test_turn_variants_of_the_tool_rotation(gantry: Robot, geometry: GantryGeometry) -> None:
+def test_revolution_variants_of_the_tool_rotation(gantry: Robot, geometry: GantryGeometry) -> None:
     q = np.array([[1.0, 0.5, 0.2, np.radians(30.0)]])
-    result = solve_gantry(gantry, geometry, fk_tool(gantry, q), all_turns=True)
+    result = solve_gantry(gantry, geometry, fk_tool(gantry, q), all_revolutions=True)
     angles = sorted(np.degrees(result.q[0, result.valid[0], 3]).round(6))
     # robots/pb-gantry3.toml: c within +-270 deg; 30 + 360 k lies within only for k = 0
     assert angles == [30.0]
     q = np.array([[1.0, 0.5, 0.2, np.radians(200.0)]])
-    result = solve_gantry(gantry, geometry, fk_tool(gantry, q), all_turns=True)
+    result = solve_gantry(gantry, geometry, fk_tool(gantry, q), all_revolutions=True)
     angles = sorted(np.degrees(result.q[0, result.valid[0], 3]).round(6))
     # 200 deg wraps to -160 deg; -160 + 360 k within +-270 deg for k = 0 and k = 1
     assert angles == [-160.0, 200.0]

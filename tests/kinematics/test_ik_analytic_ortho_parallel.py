@@ -65,7 +65,7 @@ def random_configurations(robot: Robot, count: int, seed: int) -> np.ndarray:
     return np.random.default_rng(seed).uniform(robot.lower, robot.upper, size=(count, robot.dof))
 
 
-def same_turn_free(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+def same_modulo_revolutions(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Largest joint difference modulo 2 pi, shape of the batch."""
     d = a - b
     return np.abs(d - 2.0 * np.pi * np.round(d / (2.0 * np.pi))).max(axis=-1)
@@ -222,11 +222,11 @@ def test_generating_configuration_found_with_its_labels(
     q = random_configurations(arm6, 20_000, 2)
     targets = fk_tool(arm6, q)
     result = solve_ortho_parallel(arm6, geometry, targets)
-    difference = same_turn_free(result.q, q[:, None, :])
+    difference = same_modulo_revolutions(result.q, q[:, None, :])
     difference = np.where(result.valid, difference, np.inf)
     best = np.argmin(difference, axis=1)
     rows = np.arange(q.shape[0])
-    # closed form: the generating configuration solves its own pose (up to whole turns)
+    # closed form: the generating configuration solves its own pose (up to whole revolutions)
     assert np.all(difference[rows, best] < 1e-8)
     shoulder, elbow, wrist = label_branches(arm6, q)
     # definitions of posebridge.kinematics.branches applied to the generating configuration
@@ -259,7 +259,7 @@ def test_eight_distinct_solutions_in_the_open_workspace(
     # singularity, so all eight exist and differ
     assert result.valid[0].sum() == 8
     solutions = result.q[0, result.valid[0]]
-    gaps = same_turn_free(solutions[:, None, :], solutions[None, :, :])
+    gaps = same_modulo_revolutions(solutions[:, None, :], solutions[None, :, :])
     assert np.all(gaps[~np.eye(8, dtype=bool)] > 1e-3)
     labels = {result.branch_label(0, m).split(", j")[0] for m in range(8)}
     assert len(labels) == 8
@@ -346,7 +346,7 @@ def test_wrist_singularity_keeps_seed_joint_4(arm6: Robot, geometry: OrthoParall
     assert len(straight) == 1
     m = straight[0]
     assert result.q[0, m, 3] == pytest.approx(seed[3], abs=1e-12)
-    assert same_turn_free(result.q[0, m, 3] + result.q[0, m, 5], q[0, 3] + q[0, 5]) < 1e-9
+    assert same_modulo_revolutions(result.q[0, m, 3] + result.q[0, m, 5], q[0, 3] + q[0, 5]) < 1e-9
     assert result.wrist[0, m] == 0
     assert "wrist straight" in result.branch_label(0, m)
 
@@ -359,7 +359,7 @@ def test_wrist_singularity_without_seed_uses_zero(
     straight = [m for m in result.valid_solutions(0) if abs(result.q[0, m, 4]) < 1e-9]
     # closed form: joint 4 from the seed or 0, joint 6 carries the whole sum
     assert result.q[0, straight[0], 3] == pytest.approx(0.0, abs=1e-12)
-    assert same_turn_free(result.q[0, straight[0], 5], q[0, 3] + q[0, 5]) < 1e-9
+    assert same_modulo_revolutions(result.q[0, straight[0], 5], q[0, 3] + q[0, 5]) < 1e-9
 
 
 def _wrist_centre_on_axis_1_q3(arm6: Robot) -> float:
@@ -476,28 +476,30 @@ def test_no_branch_within_limits(arm6: Robot) -> None:
     assert result.reason == (REASON_NO_WITHIN_LIMITS,)
 
 
-def test_turn_variants_of_wide_joints(arm6: Robot, geometry: OrthoParallelGeometry) -> None:
+def test_revolution_variants_of_wide_joints(arm6: Robot, geometry: OrthoParallelGeometry) -> None:
     q = np.array([[0.3, 0.2, -0.5, 0.4, 0.8, -0.6]])
     target = fk_tool(arm6, q)
     single = solve_ortho_parallel(arm6, geometry, target)
-    every = solve_ortho_parallel(arm6, geometry, target, all_turns=True)
+    every = solve_ortho_parallel(arm6, geometry, target, all_revolutions=True)
     assert_solutions_reach(arm6, every, target)
     for m in single.valid_solutions(0):
         base = single.q[0, m]
-        # closed form: count the whole turns k with lower <= q_j + 2 pi k <= upper per joint
+        # closed form: count the whole revolutions k with lower <= q_j + 2 pi k <= upper per joint
         counts = [
             sum(arm6.lower[j] <= base[j] + 2 * np.pi * k <= arm6.upper[j] for k in range(-3, 4))
             for j in range(6)
         ]
         variants = [
-            s for s in every.valid_solutions(0) if same_turn_free(every.q[0, s], base) < 1e-9
+            s
+            for s in every.valid_solutions(0)
+            if same_modulo_revolutions(every.q[0, s], base) < 1e-9
         ]
         assert len(variants) == int(np.prod(counts))
         for s in variants:
             wrapped = np.angle(np.exp(1j * every.q[0, s]))
-            # turns = whole revolutions added to the value wrapped to (-pi, pi]
+            # revolutions = whole revolutions added to the value wrapped to (-pi, pi]
             np.testing.assert_allclose(
-                (every.q[0, s] - wrapped) / (2 * np.pi), every.turns[0, s], atol=1e-9
+                (every.q[0, s] - wrapped) / (2 * np.pi), every.revolutions[0, s], atol=1e-9
             )
 
 

@@ -269,7 +269,7 @@ def test_tilted_planar_arm_is_rejected() -> None:
     assert PlanarGeometry.from_robot(robot) is not None
 
 
-def test_continuous_joint_takes_the_turn_nearest_the_seed() -> None:
+def test_continuous_joint_takes_the_revolution_nearest_the_seed() -> None:
     text = PLANAR_2R.format(l1=1000, l2=1000).replace(
         'type = "revolute"\norigin = { xyz_mm = [0, 0, 0]',
         'type = "revolute"\ncontinuous = true\norigin = { xyz_mm = [0, 0, 0]',
@@ -284,11 +284,11 @@ def test_continuous_joint_takes_the_turn_nearest_the_seed() -> None:
     result = solve(robot, target_at(0.366, 1.366), seed=seed)
     by_elbow = {np.sign(result.q[0, m, 1]): m for m in result.valid_solutions(0)}
     # REFERENCES.md example: (30, 90) deg and the mirrored (120, -90) deg; a continuous
-    # joint 1 has no limits, so each stores its angle plus the whole turns k nearest the
+    # joint 1 has no limits, so each stores its angle plus the whole revolutions k nearest the
     # seed: round((10 - 0.5236) / 2 pi) = 2 and round((10 - 2.0944) / 2 pi) = 1
     up, down = by_elbow[1.0], by_elbow[-1.0]
     # (the reference target is rounded to 1 mm, hence the 1e-4 rad tolerance)
     assert result.q[0, up, 0] == pytest.approx(np.radians(30.0) + 4 * np.pi, abs=1e-4)
     assert result.q[0, down, 0] == pytest.approx(np.radians(120.0) + 2 * np.pi, abs=1e-4)
-    assert (result.turns[0, up, 0], result.turns[0, down, 0]) == (2, 1)
+    assert (result.revolutions[0, up, 0], result.revolutions[0, down, 0]) == (2, 1)
     assert result.within_limits[0, up] and result.within_limits[0, down]

@@ -177,7 +177,7 @@ def test_all_solutions_match_the_closed_form_of_the_ortho_parallel_arm() -> None
     analytic = ortho.solve_ortho_parallel(robot, geometry, targets)
     numeric = solve_ik_numeric(robot, targets)
 
-    def same_modulo_turns(a: np.ndarray, b: np.ndarray) -> bool:
+    def same_modulo_revolutions(a: np.ndarray, b: np.ndarray) -> bool:
         d = (a - b + math.pi) % (2 * math.pi) - math.pi
         return bool(np.abs(d).max() < 1e-4)
 
@@ -186,7 +186,7 @@ def test_all_solutions_match_the_closed_form_of_the_ortho_parallel_arm() -> None
         found = numeric.q[i, numeric.valid[i]]
         assert len(found) == len(expected)
         for solution in found:
-            assert any(same_modulo_turns(solution, other) for other in expected)
+            assert any(same_modulo_revolutions(solution, other) for other in expected)
 
 
 def test_unreachable_pose_has_no_valid_slot_and_a_reason() -> None:

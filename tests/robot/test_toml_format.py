@@ -292,7 +292,7 @@ def test_continuous_joint_takes_no_position_limits() -> None:
         parse_robot_toml(text, "c.toml")
     text = text.replace("min_deg = -90, max_deg = 90, ", "", 1)
     robot = parse_robot_toml(text, "c.toml")
-    # one turn as the sampling range of a continuous joint (common practice, no source)
+    # one revolution as the sampling range of a continuous joint (common practice, no source)
     assert robot.joints[0].continuous
     assert (robot.joints[0].lower, robot.joints[0].upper) == (-math.pi, math.pi)
 

@@ -39,15 +39,15 @@ def test_every_waypoint_solution_reaches_the_waypoint(robot, pin_arm) -> None:
     # Each waypoint was made by an in-limit configuration, so it has an in-limit image.
     assert all(image.within_limits[image.waypoint == w].any() for w in range(6))
     assert image.reason == ("",) * 6
-    # The configuration that made each waypoint is among its images (joint 6 spans two turns
-    # and every in-limit turn is listed).
+    # The configuration that made each waypoint is among its images (joint 6 spans about two
+    # revolutions and every in-limit revolution is listed).
     for w in range(6):
         mine = image.q[image.waypoint == w]
         assert np.min(np.abs(mine - q_true[w]).max(axis=1)) < 1e-6
     assert all(label for label in image.labels)
     # Up to 8 branches of an ortho-parallel arm (REFERENCES.md, Brandstötter et al. 2014),
-    # each with up to 2 in-limit turns of joint 6 (range -360..360 deg) and of joint 4
-    # (-200..200 deg).
+    # each with up to 2 in-limit revolutions of joint 6 (range -355..355 deg) and of joint 4
+    # (-193..193 deg).
     assert np.bincount(image.waypoint).max() <= 8 * 2 * 2
 
 

@@ -2,7 +2,7 @@
 
 Targets are forward kinematics of random in-limit configurations (seeded).
 One run of :func:`posebridge.kinematics.ik.solve_ik_all` computes all eight
-branches of every pose with labels, validity and limit flags, turn
+branches of every pose with labels, validity and limit flags, revolution
 representatives and the sorted slots. Baseline: forward kinematics of the
 same batch in the same run, so ``ik_analytic_ratio_vs_fk`` (IK poses per FK
 configuration) survives a noisy machine.

@@ -1,7 +1,7 @@
 """The target check: can the robot reach every target of the cell, on which branch, how well?
 
 :func:`check_targets` solves inverse kinematics for every target and every
-approach pose (targets with an approach offset) with all turn variants
+approach pose (targets with an approach offset) with all revolution variants
 (:func:`posebridge.kinematics.ik.solve_ik_all`), evaluates every solution in
 one batch (:func:`posebridge.cell.quality.evaluate_configurations`: limit
 margins, manipulability, singularity, clearance) and decides per pose:
@@ -164,10 +164,10 @@ class _Checker:
             self.robot,
             invert_transform(scene.T_world_base) @ self.T_world,
             T_flange_tool=scene.T_flange_tool,
-            all_turns=True,
+            all_revolutions=True,
         )
         pose_index, slot_index = np.nonzero(solutions.valid)
-        self.slot_turns = solutions.turns[pose_index, slot_index]
+        self.slot_revolutions = solutions.revolutions[pose_index, slot_index]
         self.poses = [
             _Pose(kind, i, p, np.flatnonzero(pose_index == p).tolist(), solutions.reason[p])
             for p, (kind, i) in enumerate(entries)
@@ -233,8 +233,8 @@ class _Checker:
             branch_report(
                 quality,
                 k,
-                branch=full_branch_words(quality, k, self.slot_turns[k]),
-                turns=self.slot_turns[k],
+                branch=full_branch_words(quality, k, self.slot_revolutions[k]),
+                revolutions=self.slot_revolutions[k],
                 matches_required_branch=bool(self.matches[k]),
                 score=float(self.score[k]) if self.usable[k] else None,
             )
@@ -255,7 +255,7 @@ class _Checker:
     # --- findings ---------------------------------------------------------------------
 
     def _add_quality(self, k: int, name: str, kind: PoseKind, context: str) -> None:
-        branch = full_branch_words(self.quality, k, self.slot_turns[k])
+        branch = full_branch_words(self.quality, k, self.slot_revolutions[k])
         self.findings.extend(
             quality_findings(
                 self.quality, k, target=name, pose=kind, branch=branch, context=context
@@ -281,7 +281,7 @@ class _Checker:
             best = self._best(slots, keep)
             if best is not None:
                 detail = (
-                    f" (best branch {full_branch_words(self.quality, best, self.slot_turns[best])}"
+                    f" (best branch {full_branch_words(self.quality, best, self.slot_revolutions[best])}"
                     f" has clearance {float(mm_from_m(self.quality.clearance[best])):.1f} mm)"
                 )
         what = "target" if pose.kind == "target" else "approach pose"
@@ -358,7 +358,7 @@ class _Checker:
                         target=self.scene.targets.names[target.target],
                         pose="approach",
                         branch=full_branch_words(
-                            self.quality, best_target, self.slot_turns[best_target]
+                            self.quality, best_target, self.slot_revolutions[best_target]
                         ),
                         message="approach pose not reachable on the target's recommended "
                         "branch; a straight approach move would have to change branch",
@@ -369,13 +369,13 @@ class _Checker:
     def _pose_findings(self, pose: _Pose, best: int | None, name: str) -> None:
         """Unreachable error, or the quality findings of the recommended solution."""
         if best is not None:
-            words = full_branch_words(self.quality, best, self.slot_turns[best])
+            words = full_branch_words(self.quality, best, self.slot_revolutions[best])
             self._add_quality(best, name, pose.kind, f"on recommended branch {words}: ")
             return
         self._unreachable(pose, name)
         fallback = self._best(pose.slots, self.quality.within_limits & self.matches)
         if fallback is not None:
-            words = full_branch_words(self.quality, fallback, self.slot_turns[fallback])
+            words = full_branch_words(self.quality, fallback, self.slot_revolutions[fallback])
             self._add_quality(fallback, name, pose.kind, f"on the best in-limit branch {words}: ")
 
     def _common_findings(

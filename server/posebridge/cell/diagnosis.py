@@ -43,8 +43,8 @@ from posebridge.cell.quality import (
     part_word,
     proximity_ratio,
     quality_findings,
+    revolution_counts,
     singularity_model,
-    turn_counts,
 )
 from posebridge.cell.reports import (
     MAX_LISTED_EVENTS,
@@ -207,14 +207,14 @@ def diagnose_pose(
     -------
     PoseDiagnosis
         Boundary units (mm, deg). ``input_branch`` is null when no IK
-        solution equals the input (a joint outside its limits by whole turns).
+        solution equals the input (a joint outside its limits by whole revolutions).
     """
     robot = scene.robot
     q = _single(scene, q)
     quality = evaluate_configurations(scene, q, thresholds)
     T_base_tool = quality.T_base_tool
     solutions = solve_ik_all(
-        robot, T_base_tool, T_flange_tool=scene.T_flange_tool, seed=q[0], all_turns=True
+        robot, T_base_tool, T_flange_tool=scene.T_flange_tool, seed=q[0], all_revolutions=True
     )
     slots = solutions.valid_solutions(0)
     branches = []
@@ -226,8 +226,8 @@ def diagnose_pose(
                 branch_report(
                     others,
                     row,
-                    branch=full_branch_words(others, row, solutions.turns[0, m]),
-                    turns=solutions.turns[0, m],
+                    branch=full_branch_words(others, row, solutions.revolutions[0, m]),
+                    revolutions=solutions.revolutions[0, m],
                 )
             )
         gap = np.max(np.abs(others.q - q), axis=1)
@@ -249,7 +249,7 @@ def diagnose_pose(
     margins = quality.margins
     joint = int(margins.min_joint[0])
     clearance = float(mm_from_m(quality.clearance[0]))
-    turns = turn_counts(robot, q)[0]
+    revolutions = revolution_counts(robot, q)[0]
     return PoseDiagnosis(
         robot=robot.name,
         tool=scene.tool_name,
@@ -258,7 +258,7 @@ def diagnose_pose(
         joints_deg=joints_user_from_si(q[0], robot.prismatic).tolist(),
         tcp_world=_frame(quality.T_world_tool[0]),
         tcp_base=_frame(T_base_tool[0]),
-        branch=full_branch_words(quality, 0, turns),
+        branch=full_branch_words(quality, 0, revolutions),
         shoulder=int(quality.shoulder[0]),
         elbow=int(quality.elbow[0]),
         wrist=int(quality.wrist[0]),

@@ -88,7 +88,7 @@ __all__ = [
     "quality_findings",
     "singularity_model",
     "singularity_thresholds",
-    "turn_counts",
+    "revolution_counts",
 ]
 
 LIMIT_TOLERANCE = 1e-9
@@ -327,31 +327,31 @@ def branch_words(scheme: str, shoulder: int, elbow: int, wrist: int) -> str:
     return "single branch"
 
 
-def turn_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
-    """Whole extra turns of joints whose range exceeds one revolution, shape (N, n).
+def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
+    """Whole extra revolutions of joints whose range exceeds one revolution, shape (N, n).
 
     As in :mod:`posebridge.kinematics.ik_types`: a value ``v`` wrapped to
-    ``(-pi, pi]`` plus ``2 pi k`` has ``k`` turns; other joints have 0.
+    ``(-pi, pi]`` plus ``2 pi k`` has ``k`` revolutions; other joints have 0.
     """
     q = check_configurations(robot, q)
     wrapped = np.pi - np.mod(np.pi - q, 2.0 * np.pi)
-    turns = np.rint((q - wrapped) / (2.0 * np.pi)).astype(np.int16)
-    return np.where(joint_modes(robot) == JOINT_REVOLUTE, turns, 0).astype(np.int16)
+    revolutions = np.rint((q - wrapped) / (2.0 * np.pi)).astype(np.int16)
+    return np.where(joint_modes(robot) == JOINT_REVOLUTE, revolutions, 0).astype(np.int16)
 
 
-def _turn_words(robot: Robot, turns: npt.ArrayLike) -> list[str]:
-    words = []
-    for name, count in zip(robot.joint_names, np.asarray(turns), strict=True):
-        if count != 0:
-            plural = "" if abs(int(count)) == 1 else "s"
-            words.append(f"{name} {int(count):+d} turn{plural}")
-    return words
+def _revolution_words(robot: Robot, revolutions: npt.ArrayLike) -> list[str]:
+    """``"j6 +1 rev"`` for every joint with extra whole revolutions."""
+    return [
+        f"{name} {int(count):+d} rev"
+        for name, count in zip(robot.joint_names, np.asarray(revolutions), strict=True)
+        if count != 0
+    ]
 
 
-def full_branch_words(quality: ConfigurationQuality, k: int, turns: npt.ArrayLike) -> str:
-    """Branch words of configuration ``k`` followed by its extra turns."""
+def full_branch_words(quality: ConfigurationQuality, k: int, revolutions: npt.ArrayLike) -> str:
+    """Branch words of configuration ``k`` followed by its extra revolutions."""
     words = [branch_words(quality.scheme, quality.shoulder[k], quality.elbow[k], quality.wrist[k])]
-    extra = _turn_words(quality.robot, turns)
+    extra = _revolution_words(quality.robot, revolutions)
     if quality.scheme == "none" and extra:
         return ", ".join(extra)
     return ", ".join(words + extra)
@@ -427,7 +427,7 @@ def branch_report(
     k: int,
     *,
     branch: str,
-    turns: npt.ArrayLike,
+    revolutions: npt.ArrayLike,
     matches_required_branch: bool = True,
     score: float | None = None,
 ) -> BranchReport:
@@ -439,8 +439,8 @@ def branch_report(
     k : int
         Which configuration.
     branch : str
-        Its branch words (with turns).
-    turns : array-like of int, shape (n,)
+        Its branch words (with extra revolutions).
+    revolutions : array-like of int, shape (n,)
     matches_required_branch : bool, keyword-only
     score : float, optional, keyword-only
         :func:`branch_score` value, given for usable branches.
@@ -458,7 +458,7 @@ def branch_report(
         shoulder=int(quality.shoulder[k]),
         elbow=int(quality.elbow[k]),
         wrist=int(quality.wrist[k]),
-        turns=[int(t) for t in np.asarray(turns)],
+        revolutions=[int(t) for t in np.asarray(revolutions)],
         joints_deg=joints_user_from_si(quality.q[k], robot.prismatic).tolist(),
         within_limits=within,
         min_margin=float(margin_user[joint]) if has_limits else None,

@@ -171,11 +171,13 @@ class SingularityProximity(_Result):
 
 # One inverse-kinematics solution of a pose, with its quality.
 class BranchReport(_Result):
-    branch: str = Field(description="Shoulder, elbow and wrist words, then any extra joint turns.")
+    branch: str = Field(
+        description="Shoulder, elbow and wrist words, then any extra joint revolutions."
+    )
     shoulder: int = Field(ge=-1, le=1, description="+1 front, -1 back, 0 undefined or n/a.")
     elbow: int = Field(ge=-1, le=1, description="+1 up (left), -1 down (right), 0 undefined.")
     wrist: int = Field(ge=-1, le=1, description="+1 positive, -1 negative, 0 straight or n/a.")
-    turns: list[int] = Field(description="Whole extra turns per joint.")
+    revolutions: list[int] = Field(description="Whole extra revolutions per joint.")
     joints_deg: list[float] = Field(description=_JOINTS)
     within_limits: bool
     min_margin: float | None = Field(
@@ -328,7 +330,7 @@ class PoseDiagnosis(_Result):
     closest_objects: list[ObjectDistance] = Field(description="Nearest obstacles, nearest first.")
     nearest_targets: list[NearTarget] = Field(description="Nearest target poses, nearest first.")
     branches: list[BranchReport] = Field(
-        description="Every IK solution of this TCP pose (all turns within limits)."
+        description="Every IK solution of this TCP pose (all revolutions within limits)."
     )
     input_branch: int | None = Field(
         description="Index into branches of the solution equal to the input joints."

@@ -16,7 +16,7 @@ Each analytic family accepts a robot only after checking its own canonical
 forward kinematics against :func:`posebridge.kinematics.fk.fk_flange`.
 :func:`ik_solver` makes this choice once per robot object and remembers it.
 
-The result, slot order, turn variants and branch labels are described in
+The result, slot order, revolution variants and branch labels are described in
 :mod:`posebridge.kinematics.ik_types` and :mod:`posebridge.kinematics.branches`.
 Analytic solvers reach the orientation exactly (spherical wrist, heading
 joint), so ``orientation_tolerance_rad`` only matters for the numerical solver
@@ -73,7 +73,7 @@ class IkSolver:
         *,
         T_flange_tool: npt.ArrayLike | None = None,
         seed: npt.ArrayLike | None = None,
-        all_turns: bool = False,
+        all_revolutions: bool = False,
         position_tolerance_m: float = 1e-6,
         orientation_tolerance_rad: float = 1e-6,
     ) -> IkSolutions:
@@ -88,7 +88,7 @@ class IkSolver:
                 T_base_tool,
                 T_flange_tool=T_flange_tool,
                 seed=seed,
-                all_turns=all_turns,
+                all_revolutions=all_revolutions,
                 position_tolerance_m=tolerance,
             )
         if isinstance(geometry, OffsetWristGeometry):
@@ -109,7 +109,7 @@ class IkSolver:
                 T_base_tool,
                 T_flange_tool=T_flange_tool,
                 seed=seed,
-                all_turns=all_turns,
+                all_revolutions=all_revolutions,
                 position_tolerance_m=tolerance,
             )
         if isinstance(geometry, GantryGeometry):
@@ -119,7 +119,7 @@ class IkSolver:
                 T_base_tool,
                 T_flange_tool=T_flange_tool,
                 seed=seed,
-                all_turns=all_turns,
+                all_revolutions=all_revolutions,
             )
         return solve_ik_numeric(
             self.robot,
@@ -128,7 +128,7 @@ class IkSolver:
             seed=seed,
             position_tolerance_m=tolerance,
             orientation_tolerance_rad=orientation,
-            all_turns=all_turns,
+            all_revolutions=all_revolutions,
         )
 
 
@@ -172,11 +172,11 @@ def solve_ik_all(
     *,
     T_flange_tool: npt.ArrayLike | None = None,
     seed: npt.ArrayLike | None = None,
-    all_turns: bool = False,
+    all_revolutions: bool = False,
     position_tolerance_m: float = 1e-6,
     orientation_tolerance_rad: float = 1e-6,
 ) -> IkSolutions:
-    """Every IK solution of each target pose, with branch labels, limits and turn variants.
+    """Every IK solution of each target pose, with branch labels, limits and revolution variants.
 
     Parameters
     ----------
@@ -187,9 +187,9 @@ def solve_ik_all(
         Tool pose in the flange frame; the robot's default tool if omitted.
     seed : array-like, shape (n,) or (N, n), optional
         Reference configuration(s): valid slots are ordered by weighted joint
-        distance to it, turn representatives are the ones nearest to it, and
+        distance to it, revolution representatives are the ones nearest to it, and
         free joints at singularities take its values.
-    all_turns : bool
+    all_revolutions : bool
         One slot for every in-limit 2 pi variant of joints whose range
         exceeds one revolution, instead of the one nearest the seed (or zero).
     position_tolerance_m, orientation_tolerance_rad : float
@@ -217,7 +217,7 @@ def solve_ik_all(
         T_base_tool,
         T_flange_tool=T_flange_tool,
         seed=seed,
-        all_turns=all_turns,
+        all_revolutions=all_revolutions,
         position_tolerance_m=position_tolerance_m,
         orientation_tolerance_rad=orientation_tolerance_rad,
     )

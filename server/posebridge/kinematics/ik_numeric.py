@@ -33,7 +33,7 @@ converges only linearly.
 
 Distinct solutions: a converged configuration is kept unless one already
 kept lies within :data:`DISTINCT_TOLERANCE` in every joint, revolute joints
-compared modulo 2 pi (turn variants are produced afterwards by
+compared modulo 2 pi (revolution variants are produced afterwards by
 :func:`posebridge.kinematics.ik_types.finish_solutions`). ``max_solutions=1``
 stops at the first solution (fast, for batch checks and dragging); larger
 values keep restarting until that many distinct solutions were found or the
@@ -416,7 +416,7 @@ def random_starts(robot: Robot, count: int, rng_seed: int) -> FloatArray:
     Returns
     -------
     starts : array, shape (count, n)
-        Continuous joints are drawn over their one-turn range.
+        Continuous joints are drawn over their one-revolution range.
     """
     rng = np.random.default_rng(rng_seed)
     return rng.uniform(robot.lower, robot.upper, size=(count, robot.dof))
@@ -441,7 +441,7 @@ def solve_ik_numeric(
     max_iterations: int = 30,
     rng_seed: int = 0,
     enforce_limits: bool = True,
-    all_turns: bool = False,
+    all_revolutions: bool = False,
 ) -> IkSolutions:
     """Joint configurations that put the TCP at target poses, by multi-start Levenberg-Marquardt.
 
@@ -472,15 +472,15 @@ def solve_ik_numeric(
     enforce_limits : bool
         Project iterates onto the joint limits. With False the search is
         unconstrained and ``within_limits`` tells which solutions respect them.
-    all_turns : bool
-        One slot per in-limit turn variant of joints whose range exceeds one
+    all_revolutions : bool
+        One slot per in-limit revolution variant of joints whose range exceeds one
         revolution (see :func:`posebridge.kinematics.ik_types.finish_solutions`).
 
     Returns
     -------
     IkSolutions
-        ``M = max_solutions`` slots per pose (times the turn variants with
-        ``all_turns``); poses without a solution get the reason
+        ``M = max_solutions`` slots per pose (times the revolution variants with
+        ``all_revolutions``); poses without a solution get the reason
         ``"out of reach (...)"`` with the closest approach found. A numerical
         search cannot prove a pose unreachable: a failure after all starts
         is reported as out of reach.
@@ -551,7 +551,7 @@ def solve_ik_numeric(
         q_raw,
         ok,
         seed=seeds if has_seed else None,
-        all_turns=all_turns,
+        all_revolutions=all_revolutions,
         unreachable_reason=unreachable,
         method=METHOD,
         label_scheme=branch_geometry(robot).scheme,

@@ -4,28 +4,28 @@ For ``N`` target poses a solver returns :class:`IkSolutions` with ``M``
 solution slots per pose. Every slot holds one joint configuration (or NaN when
 empty), whether it reaches the pose within the requested tolerance
 (``valid``), whether it is inside the joint limits, its arm branch labels and
-the whole extra turns of joints whose range exceeds one revolution.
+the whole extra revolutions of joints whose range exceeds one revolution.
 
 Slots in each row are sorted: valid and within limits first, then valid but
 outside limits, then empty; inside each group by the weighted joint distance
 to the seed when a seed was given, otherwise by a stable branch order (front
 before back, up/left before down/right, positive before negative, then fewer
-turns). :func:`finish_solutions` turns raw candidates of any solver into this
-form (turn variants, limit flags, order); the numba block kernel
+extra revolutions). :func:`finish_solutions` turns raw candidates of any solver into this
+form (revolution variants, limit flags, order); the numba block kernel
 :func:`finish_rows` does the same inside the analytic kernels.
 
-Turn variants: a revolute joint value ``v`` is first wrapped to (-pi, pi];
-``v + 2 pi k`` is stored. Without ``all_turns`` each candidate appears once
+Revolution variants: a revolute joint value ``v`` is first wrapped to (-pi, pi];
+``v + 2 pi k`` is stored. Without ``all_revolutions`` each candidate appears once
 with the ``k`` nearest the seed among the values inside the limits (nearest
-zero without a seed; the value nearest the range when no turn fits). With
-``all_turns`` every in-limit ``k`` of every joint gives its own slot.
-Continuous joints have no limits: only the nearest turn is given. The
-reported ``turns`` count whole revolutions away from the revolution centred
-on the joint's range, ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)`` (the
-half-open window [centre - pi, centre + pi) is turn 0, so two values a turn
-apart never share a count): a joint
-whose range spans at most one revolution (e.g. -200..80 deg) always reports
-0, and only joints with more than one revolution of range can show turns.
+zero without a seed; the value nearest the range when no ``k`` fits). With
+``all_revolutions`` every in-limit ``k`` of every joint gives its own slot.
+Continuous joints have no limits: only the nearest ``k`` is given. The
+reported ``revolutions`` count whole revolutions away from the revolution
+centred on the joint's range, ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)``
+(the half-open window [centre - pi, centre + pi) is revolution 0, so two
+values a revolution apart never share a count): a joint whose range spans at
+most one revolution (e.g. -197..76 deg) always reports 0, and only joints
+with more than one revolution of range can show extra revolutions.
 Continuous joints count from zero.
 
 Seed distance: ``sum_j ((q_j - seed_j) / v_max_j)^2``, the squared joint
@@ -55,7 +55,7 @@ __all__ = [
     "JOINT_CONTINUOUS",
     "JOINT_PRISMATIC",
     "JOINT_REVOLUTE",
-    "JOINT_REVOLUTE_ONE_TURN",
+    "JOINT_REVOLUTE_ONE_REVOLUTION",
     "LABEL_SCHEMES",
     "REASON_CODES",
     "REASON_NO_WITHIN_LIMITS",
@@ -77,7 +77,7 @@ __all__ = [
     "reasons_from_codes",
     "slots_per_candidate",
     "solutions_from_outputs",
-    "turn_variant_counts",
+    "revolution_variant_counts",
 ]
 
 Int8Array = npt.NDArray[np.int8]
@@ -86,7 +86,7 @@ KernelOutputs = tuple[
     FloatArray, BoolArray, BoolArray, Int8Array, Int8Array, Int8Array, Int16Array, Int8Array
 ]
 """Output arrays of a solver kernel (:func:`empty_outputs`): q, valid, within, shoulder,
-elbow, wrist, turns, reason codes."""
+elbow, wrist, revolutions, reason codes."""
 
 REASON_OUT_OF_REACH = "out of reach"
 REASON_ORIENTATION = "orientation not reachable"
@@ -98,17 +98,17 @@ turns them into text."""
 
 JOINT_PRISMATIC = 0
 JOINT_REVOLUTE = 1
-"""Revolute joint whose range reaches outside (-pi, pi] (turn variants possible)."""
+"""Revolute joint whose range reaches outside (-pi, pi] (revolution variants possible)."""
 JOINT_CONTINUOUS = 2
-JOINT_REVOLUTE_ONE_TURN = 3
+JOINT_REVOLUTE_ONE_REVOLUTION = 3
 """Revolute joint whose range lies inside (-pi, pi]: only the wrapped value can be in limits."""
 
 _TWO_PI = 2.0 * np.pi
 BLOCK_SIZE = 256
 """Poses per block in the parallel IK drivers (one scratch allocation per block)."""
 _ORTHONORMAL_TOLERANCE = 1e-6
-_TURN_SLACK = 1e-12
-"""Turns (fractions of 2 pi) by which a value may pass a limit and still count as inside."""
+_REVOLUTION_SLACK = 1e-12
+"""Revolutions (fractions of 2 pi) by which a value may pass a limit and still count as inside."""
 
 LABEL_SCHEMES = ("arm", "planar", "none")
 """``"arm"``: shoulder front/back, elbow up/down, wrist positive/negative (six- and
@@ -142,8 +142,8 @@ class IkSolutions:
         applicable or undefined.
     wrist : array of int8, shape (N, M)
         +1 positive, -1 negative, 0 not applicable or singular.
-    turns : array of int16, shape (N, M, n)
-        Whole extra turns (multiples of 2 pi) added to joints whose range
+    revolutions : array of int16, shape (N, M, n)
+        Whole extra revolutions (multiples of 2 pi) added to joints whose range
         exceeds one revolution, relative to the value wrapped to (-pi, pi].
     reason : tuple of str, length N
         ``""`` where a valid solution within limits exists, otherwise why not:
@@ -168,7 +168,7 @@ class IkSolutions:
     shoulder: Int8Array
     elbow: Int8Array
     wrist: Int8Array
-    turns: Int16Array
+    revolutions: Int16Array
     reason: tuple[str, ...]
     ignored_components: tuple[str, ...]
     method: str
@@ -183,9 +183,9 @@ class IkSolutions:
             shape = getattr(self, name).shape
             if shape != (N, M):
                 raise ValueError(f"IkSolutions.{name}: expected shape {(N, M)}, got {shape}")
-        if self.turns.shape != (N, M, n):
+        if self.revolutions.shape != (N, M, n):
             raise ValueError(
-                f"IkSolutions.turns: expected shape {(N, M, n)}, got {self.turns.shape}"
+                f"IkSolutions.revolutions: expected shape {(N, M, n)}, got {self.revolutions.shape}"
             )
         if len(self.reason) != N:
             raise ValueError(f"IkSolutions.reason: expected {N} entries, got {len(self.reason)}")
@@ -211,8 +211,8 @@ class IkSolutions:
     def branch_label(self, i: int, m: int) -> str:
         """Plain-words branch of slot ``m`` of pose ``i``.
 
-        Examples: ``"front, up, positive"``, ``"back, down, negative, j6 +1 turn"``,
-        ``"left"`` (planar arm), ``"c -1 turn"`` or ``"single branch"`` (gantry).
+        Examples: ``"front, up, positive"``, ``"back, down, negative, j6 +1 rev"``,
+        ``"left"`` (planar arm), ``"c -1 rev"`` or ``"single branch"`` (gantry).
         Empty slots give ``""``.
         """
         if not np.all(np.isfinite(self.q[i, m])):
@@ -225,10 +225,9 @@ class IkSolutions:
         elif self.label_scheme == "planar":
             words.append(_PLANAR_ELBOW_WORDS[int(self.elbow[i, m])])
         names = self.joint_names or tuple(f"j{k + 1}" for k in range(self.q.shape[2]))
-        for k, count in enumerate(self.turns[i, m]):
+        for k, count in enumerate(self.revolutions[i, m]):
             if count != 0:
-                plural = "" if abs(int(count)) == 1 else "s"
-                words.append(f"{names[k]} {int(count):+d} turn{plural}")
+                words.append(f"{names[k]} {int(count):+d} rev")
         return ", ".join(words) if words else "single branch"
 
     def valid_solutions(self, i: int) -> list[int]:
@@ -237,14 +236,14 @@ class IkSolutions:
 
 
 def joint_modes(robot: Robot) -> Int8Array:
-    """Per-joint turn handling, one of the ``JOINT_*`` constants.
+    """Per-joint revolution handling, one of the ``JOINT_*`` constants.
 
     Returns
     -------
     modes : array of int8, shape (n,)
     """
     modes = np.full(robot.dof, JOINT_REVOLUTE, dtype=np.int8)
-    modes[(robot.lower > -np.pi) & (robot.upper <= np.pi)] = JOINT_REVOLUTE_ONE_TURN
+    modes[(robot.lower > -np.pi) & (robot.upper <= np.pi)] = JOINT_REVOLUTE_ONE_REVOLUTION
     modes[robot.continuous] = JOINT_CONTINUOUS
     modes[robot.prismatic] = JOINT_PRISMATIC
     return modes
@@ -273,7 +272,7 @@ def joint_table(robot: Robot) -> FloatArray:
     )
 
 
-def turn_variant_counts(robot: Robot) -> npt.NDArray[np.int64]:
+def revolution_variant_counts(robot: Robot) -> npt.NDArray[np.int64]:
     """Largest number of 2 pi variants of one joint value inside the limits, shape (n,).
 
     ``floor((upper - lower) / 2 pi) + 1`` for limited revolute joints, 1 for
@@ -282,13 +281,13 @@ def turn_variant_counts(robot: Robot) -> npt.NDArray[np.int64]:
     counts = np.ones(robot.dof, dtype=np.int64)
     limited = joint_modes(robot) == JOINT_REVOLUTE
     span = (robot.upper - robot.lower)[limited] / _TWO_PI
-    counts[limited] = np.floor(span + _TURN_SLACK).astype(np.int64) + 1
+    counts[limited] = np.floor(span + _REVOLUTION_SLACK).astype(np.int64) + 1
     return counts
 
 
-def slots_per_candidate(robot: Robot, all_turns: bool) -> int:
-    """Output slots needed per raw candidate: 1, or the product of :func:`turn_variant_counts`."""
-    return int(np.prod(turn_variant_counts(robot))) if all_turns else 1
+def slots_per_candidate(robot: Robot, all_revolutions: bool) -> int:
+    """Output slots needed per raw candidate: 1, or the product of :func:`revolution_variant_counts`."""
+    return int(np.prod(revolution_variant_counts(robot))) if all_revolutions else 1
 
 
 def check_positive(value: float, name: str) -> float:
@@ -390,7 +389,7 @@ def _wrap_angle(v):
 
 
 @nb.njit(cache=True, inline="always")
-def _turn_bounds(base, lower, upper):
+def _revolution_bounds(base, lower, upper):
     """Smallest and largest ``k`` with ``base + 2 pi k`` inside [lower, upper] (kmin > kmax if none)."""
     inverse_two_pi = 0.5 / np.pi
     kmin = np.ceil((lower - base) * inverse_two_pi - 1e-12)
@@ -399,13 +398,13 @@ def _turn_bounds(base, lower, upper):
 
 
 @nb.njit(cache=True, inline="always")
-def _nearest_turn(base, seed, lower, upper, mode):
-    """Turn count ``k`` of the representative nearest ``seed`` (see module docstring)."""
+def _nearest_revolution(base, seed, lower, upper, mode):
+    """Revolution count ``k`` of the representative nearest ``seed`` (see module docstring)."""
     two_pi = 2.0 * np.pi
     k = int(np.floor((seed - base) * (0.5 / np.pi) + 0.5))
     if mode == 2.0:
         return k
-    kmin, kmax = _turn_bounds(base, lower, upper)
+    kmin, kmax = _revolution_bounds(base, lower, upper)
     if kmin <= kmax:
         return min(max(k, kmin), kmax)
     below = lower - (base + two_pi * kmax)
@@ -431,30 +430,30 @@ def finish_rows(
     seed,
     has_seed,
     joints,
-    all_turns,
+    all_revolutions,
     out,
 ):
-    """Turn variants, limit flags, slot order and reason codes for poses ``start..stop-1``.
+    """Revolution variants, limit flags, slot order and reason codes for poses ``start..stop-1``.
 
     Pose ``i``'s raw candidates are row ``i - raw_offset`` of ``raw_q``
-    (B, M0, n; revolute values in any turn), ``raw_ok`` (B, M0) marks those
+    (B, M0, n; revolute values in any revolution), ``raw_ok`` (B, M0) marks those
     that reach the pose, ``raw_labels`` (B, M0, 3) holds their shoulder, elbow
     and wrist labels and ``raw_reason`` (B,) the reason code to report if none
     reaches it. ``seed`` is (N, n), ``joints`` is :func:`joint_table`. ``out``
     is :func:`empty_outputs` (N rows, M slots: M0, or M0 times the product of
-    turn variants with ``all_turns``); row ``i`` is written, with reason code
+    revolution variants with ``all_revolutions``); row ``i`` is written, with reason code
     0 (solved), 3 (valid only outside the limits) or ``raw_reason``.
 
     One call handles a block of poses: every array argument costs a
     reference-count update per call, so nothing here is called per pose with
     arrays.
     """
-    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_turns, codes = out
+    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_revolutions, codes = out
     n = raw_q.shape[2]
     M = out_q.shape[1]
     two_pi = 2.0 * np.pi
     value = np.empty((M, n))
-    turns = np.empty((M, n), dtype=np.int16)
+    revolutions = np.empty((M, n), dtype=np.int16)
     labels = np.empty((M, 3), dtype=np.int8)
     group = np.empty(M, dtype=np.int8)
     key = np.empty(M)
@@ -466,10 +465,10 @@ def finish_rows(
             if not raw_ok[row, r]:
                 continue
             n_variants = 1
-            if all_turns:
+            if all_revolutions:
                 for j in range(n):
                     if joints[j, 2] == 1.0:
-                        kmin, kmax = _turn_bounds(
+                        kmin, kmax = _revolution_bounds(
                             _wrap_angle(raw_q[row, r, j]), joints[j, 0], joints[j, 1]
                         )
                         if kmax >= kmin:
@@ -479,7 +478,7 @@ def finish_rows(
                     break
                 code = variant
                 within = True
-                total_turns = 0
+                total_revolutions = 0
                 distance = 0.0
                 for j in range(n):
                     v = raw_q[row, r, j]
@@ -490,17 +489,17 @@ def finish_rows(
                     if mode == 3.0:
                         v = v if -np.pi < v <= np.pi else _wrap_angle(v)
                         if v < lower or v > upper:
-                            k = _nearest_turn(v, seed[i, j], lower, upper, mode)
+                            k = _nearest_revolution(v, seed[i, j], lower, upper, mode)
                             v += two_pi * k
                     elif mode != 0.0:
                         base = v if -np.pi < v <= np.pi else _wrap_angle(v)
                         if has_seed:
                             k = int(np.floor((seed[i, j] - base) * (0.5 / np.pi) + 0.5))
                         v = base + two_pi * k
-                        if mode == 1.0 and (all_turns or v < lower or v > upper):
-                            k = _nearest_turn(base, seed[i, j], lower, upper, mode)
-                        if all_turns and mode == 1.0:
-                            kmin, kmax = _turn_bounds(base, lower, upper)
+                        if mode == 1.0 and (all_revolutions or v < lower or v > upper):
+                            k = _nearest_revolution(base, seed[i, j], lower, upper, mode)
+                        if all_revolutions and mode == 1.0:
+                            kmin, kmax = _revolution_bounds(base, lower, upper)
                             if kmax >= kmin:
                                 width = kmax - kmin + 1
                                 k = kmin + code % width
@@ -509,14 +508,14 @@ def finish_rows(
                     if mode != 2.0 and (v < lower - 1e-12 or v > upper + 1e-12):
                         within = False
                     if mode == 1.0:
-                        # reported turns count from the revolution centred on the range,
+                        # reported revolutions count from the one centred on the range,
                         # the half-open window [centre - pi, centre + pi)
                         k = int(np.floor((v - 0.5 * (lower + upper)) / two_pi + 0.5))
                     elif mode == 3.0:
                         k = 0
                     value[count, j] = v
-                    turns[count, j] = k
-                    total_turns += abs(k)
+                    revolutions[count, j] = k
+                    total_revolutions += abs(k)
                     if has_seed:
                         d = (v - seed[i, j]) * joints[j, 3]
                         distance += d * d
@@ -530,7 +529,9 @@ def finish_rows(
                 if has_seed:
                     key[count] = distance
                 else:
-                    key[count] = 1000.0 * (9 * _rank(sh) + 3 * _rank(el) + _rank(wr)) + total_turns
+                    key[count] = (
+                        1000.0 * (9 * _rank(sh) + 3 * _rank(el) + _rank(wr)) + total_revolutions
+                    )
                 order[count] = count
                 count += 1
         # insertion sort by (group, key, index); group 0 is in limits, 1 outside
@@ -556,7 +557,7 @@ def finish_rows(
                 src = order[m]
                 for j in range(n):
                     out_q[i, m, j] = value[src, j]
-                    out_turns[i, m, j] = turns[src, j]
+                    out_revolutions[i, m, j] = revolutions[src, j]
                 out_valid[i, m] = True
                 out_within[i, m] = group[src] == 0
                 out_sh[i, m] = labels[src, 0]
@@ -565,7 +566,7 @@ def finish_rows(
             else:
                 for j in range(n):
                     out_q[i, m, j] = np.nan
-                    out_turns[i, m, j] = 0
+                    out_revolutions[i, m, j] = 0
                 out_valid[i, m] = False
                 out_within[i, m] = False
                 out_sh[i, m] = 0
@@ -574,7 +575,9 @@ def finish_rows(
 
 
 @nb.njit(cache=True)
-def _finish_serial(raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_turns, out):
+def _finish_serial(
+    raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_revolutions, out
+):
     finish_rows(
         0,
         raw_q.shape[0],
@@ -586,13 +589,15 @@ def _finish_serial(raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints
         seed,
         has_seed,
         joints,
-        all_turns,
+        all_revolutions,
         out,
     )
 
 
 @nb.njit(cache=True, parallel=True)
-def _finish_parallel(raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_turns, out):
+def _finish_parallel(
+    raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_revolutions, out
+):
     N = raw_q.shape[0]
     n_blocks = (N + BLOCK_SIZE - 1) // BLOCK_SIZE
     for b in nb.prange(n_blocks):
@@ -608,13 +613,13 @@ def _finish_parallel(raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, join
             seed,
             has_seed,
             joints,
-            all_turns,
+            all_revolutions,
             out,
         )
 
 
 def empty_outputs(N: int, M: int, n: int) -> KernelOutputs:
-    """Output arrays of a solver kernel: q, valid, within, shoulder, elbow, wrist, turns, codes.
+    """Output arrays of a solver kernel: q, valid, within, shoulder, elbow, wrist, revolutions, codes.
 
     Shapes (N, M, n), (N, M) x 5, (N, M, n), (N,).
     """
@@ -644,7 +649,7 @@ def solutions_from_outputs(
     ``reason`` (N entries) replaces the kernel's reason codes (the last array);
     the other arguments are copied into the result.
     """
-    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_turns, _ = out
+    out_q, out_valid, out_within, out_sh, out_el, out_wr, out_revolutions, _ = out
     return IkSolutions(
         q=out_q,
         valid=out_valid,
@@ -652,7 +657,7 @@ def solutions_from_outputs(
         shoulder=out_sh,
         elbow=out_el,
         wrist=out_wr,
-        turns=out_turns,
+        revolutions=out_revolutions,
         reason=reason,
         ignored_components=ignored_components,
         method=method,
@@ -668,7 +673,7 @@ def finish_solutions(
     *,
     labels: tuple[npt.ArrayLike, npt.ArrayLike, npt.ArrayLike] | None = None,
     seed: npt.ArrayLike | None = None,
-    all_turns: bool = False,
+    all_revolutions: bool = False,
     unreachable_reason: str | Sequence[str] = REASON_OUT_OF_REACH,
     ignored_components: tuple[str, ...] = (),
     method: str,
@@ -676,22 +681,22 @@ def finish_solutions(
 ) -> IkSolutions:
     """Build an :class:`IkSolutions` from raw IK candidates of any solver.
 
-    Applies the module's turn rule, flags joint limits, empties candidates
+    Applies the module's revolution rule, flags joint limits, empties candidates
     that do not reach the pose and orders the slots (module docstring).
 
     Parameters
     ----------
     robot : Robot
     q_raw : array-like, shape (N, M0, n)
-        Candidate configurations (SI); revolute values in any turn.
+        Candidate configurations (SI); revolute values in any revolution.
     ok : array-like of bool, shape (N, M0)
         The candidate reaches its pose within tolerance; others are dropped.
     labels : (shoulder, elbow, wrist), each array-like of int8, shape (N, M0), optional
         Branch labels; computed with
         :func:`posebridge.kinematics.branches.label_branches` if omitted.
     seed : array-like, shape (n,) or (N, n), optional
-    all_turns : bool
-        One slot per in-limit turn variant instead of one per candidate.
+    all_revolutions : bool
+        One slot per in-limit revolution variant instead of one per candidate.
     unreachable_reason : str or sequence of N str
         Reason for poses without any valid candidate.
     ignored_components, method, label_scheme
@@ -700,7 +705,7 @@ def finish_solutions(
     Returns
     -------
     IkSolutions
-        ``M = M0 * slots_per_candidate(robot, all_turns)`` slots per pose.
+        ``M = M0 * slots_per_candidate(robot, all_revolutions)`` slots per pose.
     """
     q = np.ascontiguousarray(q_raw, dtype=np.float64)
     if q.ndim != 3 or q.shape[2] != robot.dof:
@@ -726,7 +731,7 @@ def finish_solutions(
             )
         )
     seed_array, has_seed = check_seed(robot, seed, N)
-    M = M0 * slots_per_candidate(robot, all_turns)
+    M = M0 * slots_per_candidate(robot, all_revolutions)
     out = empty_outputs(N, M, n)
     unreachable_code = np.ones(N, dtype=np.int8)
     kernel = _finish_parallel if N >= PARALLEL_THRESHOLD else _finish_serial
@@ -738,7 +743,7 @@ def finish_solutions(
         seed_array,
         has_seed,
         joint_table(robot),
-        all_turns,
+        all_revolutions,
         out,
     )
     codes = out[7]

@@ -4,7 +4,7 @@ Waypoints (:class:`posebridge.cell.scene.ResolvedPath`) are resolved in order:
 
 * a waypoint given as joint values is used as given;
 * a Cartesian waypoint reached by a joint move (and the first waypoint) gets
-  the IK solution (:func:`posebridge.kinematics.ik.ik_solver`, every turn
+  the IK solution (:func:`posebridge.kinematics.ik.ik_solver`, every revolution
   variant) that reaches the pose within the joint limits, matches the
   target's required branch (an undefined, singular label matches either
   side), is collision-free if any such solution is, and is nearest the
@@ -362,7 +362,7 @@ def _track_analytic(
     scene: Scene, solver: IkSolver, T_base_tool: FloatArray, q_a: FloatArray
 ) -> tuple[FloatArray, tuple[str, ...]]:
     """Every solution of every sample in one batch, then the nearest-slot walk."""
-    result = solver.solve(T_base_tool, T_flange_tool=scene.T_flange_tool, all_turns=True)
+    result = solver.solve(T_base_tool, T_flange_tool=scene.T_flange_tool, all_revolutions=True)
     allowed = result.valid & result.within_limits
     choice = np.empty(T_base_tool.shape[0], dtype=np.int64)
     _track_nearest(
@@ -457,7 +457,7 @@ def _choose_waypoint(
     n = scene.robot.dof
     T_base_tool = invert_transform(scene.T_world_base) @ T_world_tool
     result = solver.solve(
-        T_base_tool[None], T_flange_tool=scene.T_flange_tool, seed=previous, all_turns=True
+        T_base_tool[None], T_flange_tool=scene.T_flange_tool, seed=previous, all_revolutions=True
     )
     labels = np.stack([result.shoulder[0], result.elbow[0], result.wrist[0]], axis=1)
     in_limits = result.valid[0] & result.within_limits[0]

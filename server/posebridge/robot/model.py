@@ -41,7 +41,7 @@ class Joint:
         Unit motion axis in the joint frame.
     lower, upper : float
         Position limits, rad or m. For ``continuous`` joints these are the
-        range used for sampling and maps (one turn), not a limit.
+        range used for sampling and maps (one revolution), not a limit.
     velocity_max : float
         rad/s or m/s.
     acceleration_max : float

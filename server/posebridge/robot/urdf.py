@@ -10,7 +10,7 @@ chain from ``from_link`` to ``to_link`` of the URDF tree:
   (``lower``/``upper`` default to 0 as in the specification, so a joint
   without them is refused as locked); ``effort`` is not used and not
   required. ``continuous`` joints need ``<limit velocity>``; their range for
-  sampling and maps is one turn, -pi..pi (:attr:`Joint.continuous` is set).
+  sampling and maps is one revolution, -pi..pi (:attr:`Joint.continuous` is set).
 * URDF has no acceleration limits: every joint gets
   ``acceleration_max = DEFAULT_ACCELERATION_PER_S * velocity_max`` (full speed
   reached in a quarter second) and :attr:`Robot.notes` says so.

@@ -2,9 +2,9 @@
 
 Waypoint image
     Every inverse-kinematics solution of a tool pose
-    (:func:`posebridge.kinematics.ik.solve_ik_all` with ``all_turns=True``:
-    every branch and every in-limit turn of joints whose range exceeds a
-    turn), projected on the chosen joints, with its branch label.
+    (:func:`posebridge.kinematics.ik.solve_ik_all` with ``all_revolutions=True``:
+    every branch and every in-limit revolution of joints whose range exceeds
+    one revolution), projected on the chosen joints, with its branch label.
 
 Segment image
     A straight Cartesian segment between two tool poses is sampled at
@@ -12,7 +12,7 @@ Segment image
     linear interpolation of the rotations (slerp, Shoemake 1985, "Animating
     rotation with quaternion curves", SIGGRAPH; ``scipy.spatial.transform.Slerp``).
     Every sample is solved as above (in-limit solutions only). A curve
-    collects the solutions of one branch with the same turns at consecutive
+    collects the solutions of one branch with the same revolutions at consecutive
     samples; it breaks where that branch has no in-limit solution (out of
     reach or outside the limits), where the branch labels change (a
     singular sample has undefined labels), or where a joint jumps by more
@@ -102,9 +102,10 @@ class WaypointImages:
     within_limits : array of bool, shape (S,)
     shoulder, elbow, wrist : array of int8, shape (S,)
         Branch labels (:class:`posebridge.kinematics.ik_types.IkSolutions`).
-    turns : array of int16, shape (S, n)
+    revolutions : array of int16, shape (S, n)
+        Whole extra revolutions per joint.
     labels : tuple of str, length S
-        Branch in plain words, e.g. ``"front, up, positive, j6 +1 turn"``.
+        Branch in plain words, e.g. ``"front, up, positive, j6 +1 rev"``.
     reason : tuple of str, length W
         ``""`` where a waypoint has an in-limit solution, else why not.
     """
@@ -117,7 +118,7 @@ class WaypointImages:
     shoulder: Int8Array
     elbow: Int8Array
     wrist: Int8Array
-    turns: Int16Array
+    revolutions: Int16Array
     labels: tuple[str, ...]
     reason: tuple[str, ...]
 
@@ -130,7 +131,7 @@ def waypoint_images(
     T_world_base: npt.ArrayLike | None = None,
     T_flange_tool: npt.ArrayLike | None = None,
 ) -> WaypointImages:
-    """Every IK solution (all branches, all in-limit turns) of each waypoint, on the chosen joints.
+    """Every IK solution (all branches, all in-limit revolutions) of each waypoint, on the chosen joints.
 
     Solutions outside the joint limits are kept and flagged (``within_limits``),
     so a view can show where a branch leaves the limit box.
@@ -154,7 +155,7 @@ def waypoint_images(
     chosen = _check_joints(robot, joints)
     T = _poses(T_world_tool, "T_world_tool")
     solutions = solve_ik_all(
-        robot, _base_world(T_world_base) @ T, T_flange_tool=T_flange_tool, all_turns=True
+        robot, _base_world(T_world_base) @ T, T_flange_tool=T_flange_tool, all_revolutions=True
     )
     pose, slot = np.nonzero(solutions.valid)
     q = solutions.q[pose, slot]
@@ -167,7 +168,7 @@ def waypoint_images(
         shoulder=solutions.shoulder[pose, slot],
         elbow=solutions.elbow[pose, slot],
         wrist=solutions.wrist[pose, slot],
-        turns=solutions.turns[pose, slot],
+        revolutions=solutions.revolutions[pose, slot],
         labels=tuple(
             solutions.branch_label(int(i), int(m)) for i, m in zip(pose, slot, strict=True)
         ),
@@ -177,7 +178,7 @@ def waypoint_images(
 
 @dataclass(frozen=True, eq=False)
 class SegmentCurve:
-    """One continuous curve of a segment's image: one branch, one set of turns.
+    """One continuous curve of a segment's image: one branch, one set of revolutions.
 
     Attributes
     ----------
@@ -185,7 +186,7 @@ class SegmentCurve:
         Branch in plain words.
     shoulder, elbow, wrist : int
         Branch labels (+1, -1 or 0).
-    turns : array of int16, shape (n,)
+    revolutions : array of int16, shape (n,)
     sample : array of int64, shape (K,)
         Indices of the segment samples on this curve (consecutive).
     s : array, shape (K,)
@@ -199,7 +200,7 @@ class SegmentCurve:
     shoulder: int
     elbow: int
     wrist: int
-    turns: Int16Array
+    revolutions: Int16Array
     sample: IntArray
     s: FloatArray
     q: FloatArray
@@ -252,7 +253,7 @@ def _trace_curves(
     """Link in-limit solutions of consecutive samples into curves of equal branch key.
 
     Returns ``(key, [(sample, slot), ...])`` per curve; the key is
-    ``(shoulder, elbow, wrist, *turns)``.
+    ``(shoulder, elbow, wrist, *revolutions)``.
     """
     ok = solutions.valid & solutions.within_limits
     finished: list[tuple[tuple[int, ...], list[tuple[int, int]]]] = []
@@ -291,7 +292,7 @@ def _key(solutions: IkSolutions, k: int, m: int) -> tuple[int, ...]:
         int(solutions.shoulder[k, m]),
         int(solutions.elbow[k, m]),
         int(solutions.wrist[k, m]),
-        *(int(t) for t in solutions.turns[k, m]),
+        *(int(t) for t in solutions.revolutions[k, m]),
     )
 
 
@@ -321,7 +322,7 @@ def segment_image(
         As :func:`waypoint_images`.
     max_step_fraction : float, keyword-only
         Largest joint change between neighbouring samples of one curve, as
-        a fraction of the joint's range (one turn for continuous joints).
+        a fraction of the joint's range (one revolution for continuous joints).
 
     Returns
     -------
@@ -344,7 +345,7 @@ def segment_image(
     end = _poses(np.asarray(T_world_end, dtype=np.float64)[None], "T_world_end")[0]
     T = sample_segment(start, end, samples)
     solutions = solve_ik_all(
-        robot, _base_world(T_world_base) @ T, T_flange_tool=T_flange_tool, all_turns=True
+        robot, _base_world(T_world_base) @ T, T_flange_tool=T_flange_tool, all_revolutions=True
     )
     span = np.where(robot.continuous, 2.0 * np.pi, robot.upper - robot.lower)
     s = np.linspace(0.0, 1.0, samples)
@@ -359,7 +360,7 @@ def segment_image(
                 shoulder=key[0],
                 elbow=key[1],
                 wrist=key[2],
-                turns=np.array(key[3:], dtype=np.int16),
+                revolutions=np.array(key[3:], dtype=np.int16),
                 sample=sample,
                 s=s[sample],
                 q=q,

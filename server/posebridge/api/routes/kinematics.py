@@ -54,6 +54,6 @@ def compute_ik(request: IkRequest, robots: RobotsDep) -> IkResult:
         pose_transform(request.pose, request.base),
         T_flange_tool=T_flange_tool,
         seed=seed,
-        all_turns=request.all_turns,
+        all_revolutions=request.all_revolutions,
     )
     return ik_result(robot, solutions, T_flange_tool=T_flange_tool, spec=request.robot)

@@ -11,7 +11,8 @@ from typing import Annotated
 
 import numpy as np
 import numpy.typing as npt
-from pydantic import BaseModel, BeforeValidator, ConfigDict, Field
+from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, model_validator
+from pydantic_core import PydanticCustomError
 
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations, fk_frames
 from posebridge.kinematics.ik_types import IkSolutions
@@ -92,14 +93,14 @@ class IkSolution(BaseModel):
     joints_deg: list[float] = Field(description=_JOINTS_DESCRIPTION)
     branch: str = Field(
         description="Arm branch in plain words: shoulder front/back, elbow up/down, "
-        "wrist positive/negative (planar arms: left/right), then any extra joint turns."
+        "wrist positive/negative (planar arms: left/right), then any extra joint revolutions."
     )
     shoulder: int = Field(ge=-1, le=1, description="+1 front, -1 back, 0 undefined or n/a.")
     elbow: int = Field(
         ge=-1, le=1, description="+1 up (left), -1 down (right), 0 undefined or n/a."
     )
     wrist: int = Field(ge=-1, le=1, description="+1 positive, -1 negative, 0 straight or n/a.")
-    turns: list[int] = Field(description="Whole extra turns per joint.")
+    revolutions: list[int] = Field(description="Whole extra revolutions per joint.")
     within_limits: bool
     min_margin_deg: float | None = Field(
         description="Distance to the nearer limit of the joint closest to a limit (as a "
@@ -179,14 +180,24 @@ class IkRequest(BaseModel):
     base: Pose | None = Field(default=None, description=_BASE_DESCRIPTION)
     seed_deg: JointVector | None = Field(
         default=None,
-        description="Joint values to sort solutions by nearness (and to pick turns); "
+        description="Joint values to sort solutions by nearness (and to pick revolutions); "
         + _JOINTS_DESCRIPTION,
     )
-    all_turns: bool = Field(
+    all_revolutions: bool = Field(
         default=False,
-        description="List every whole-turn variant within limits of joints whose range "
+        description="List every whole-revolution variant within limits of joints whose range "
         "exceeds one revolution, not only the nearest.",
     )
+
+    @model_validator(mode="before")
+    @classmethod
+    def _name_renamed_fields(cls, data: object) -> object:
+        """Refuse the 0.1.0 name of all_revolutions with a message naming the new one."""
+        if isinstance(data, dict) and "all_turns" in data:
+            raise PydanticCustomError(
+                "renamed_field", "all_turns was renamed all_revolutions; send all_revolutions"
+            )
+        return data
 
 
 # A collision capsule of the arm: name, link it rides on and radius.
@@ -414,7 +425,7 @@ def ik_result(
                     shoulder=int(solutions.shoulder[index, m]),
                     elbow=int(solutions.elbow[index, m]),
                     wrist=int(solutions.wrist[index, m]),
-                    turns=[int(t) for t in solutions.turns[index, m]],
+                    revolutions=[int(t) for t in solutions.revolutions[index, m]],
                     within_limits=bool(solutions.within_limits[index, m]),
                     min_margin_deg=float(margin_user[row, joint]) if has_limits else None,
                     min_margin_joint=robot.joint_names[joint] if has_limits else None,

@@ -54,7 +54,7 @@ class JointDescription(BaseModel):
     lower: float = Field(description="Lower position limit, in `unit`.")
     upper: float = Field(description="Upper position limit, in `unit`.")
     continuous: bool = Field(
-        description="Revolute joint without limits; lower/upper span one turn."
+        description="Revolute joint without limits; lower/upper span one revolution."
     )
     velocity_max: float = Field(description="Velocity limit, in `unit` per second.")
 

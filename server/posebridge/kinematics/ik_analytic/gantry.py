@@ -12,7 +12,7 @@ The heading ρ is the rotation about z nearest to ``R_target R_tcp0^T``
 (``atan2(M10 - M01, M00 + M11)``, see
 :mod:`posebridge.kinematics.ik_analytic.planar`); the linear axes then
 solve the 3x3 linear system ``D q_xyz = p_target - p_tcp0 - (Rz(ρ) - I)(p_tcp0 - c)``.
-There is one solution (plus turn variants of the tool rotation); it reaches
+There is one solution (plus revolution variants of the tool rotation); it reaches
 every position, so only the joint limits can rule it out. Controls x, y, z
 (and yaw with the tool rotation); ignores roll and pitch (and yaw without it).
 """
@@ -127,7 +127,7 @@ def solve_gantry(
     *,
     T_flange_tool: npt.ArrayLike | None = None,
     seed: npt.ArrayLike | None = None,
-    all_turns: bool = False,
+    all_revolutions: bool = False,
 ) -> IkSolutions:
     """The gantry solution (module docstring) for a batch of tool poses.
 
@@ -140,12 +140,12 @@ def solve_gantry(
     T_flange_tool : array-like, shape (4, 4), optional
         Tool in the flange frame; the robot's default tool if omitted.
     seed : array-like, shape (n,) or (N, n), optional
-    all_turns : bool
+    all_revolutions : bool
 
     Returns
     -------
     IkSolutions
-        ``M = 1`` slot per pose (times the turn variants with ``all_turns``).
+        ``M = 1`` slot per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
     N, n = T.shape[0], robot.dof
@@ -169,7 +169,7 @@ def solve_gantry(
         np.ones((N, 1), dtype=bool),
         labels=(np.zeros((N, 1)), np.zeros((N, 1)), np.zeros((N, 1))),
         seed=seed_array if has_seed else None,
-        all_turns=all_turns,
+        all_revolutions=all_revolutions,
         ignored_components=geometry.ignored_components,
         method=METHOD,
         label_scheme="none",

@@ -584,7 +584,7 @@ def _assemble(
 
 @nb.njit(cache=True)
 def _solve_block(
-    start, stop, T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_turns, out
+    start, stop, T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_revolutions, out
 ):
     """Candidates (three passes: arm geometry, arctangents, assembly), then slot finishing."""
     B = stop - start
@@ -644,23 +644,37 @@ def _solve_block(
         seed,
         has_seed,
         joints,
-        all_turns,
+        all_revolutions,
         out,
     )
 
 
 @nb.njit(cache=True)
-def _solve_serial(T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_turns, out):
+def _solve_serial(T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_revolutions, out):
     N = T.shape[0]
     for start in range(0, N, BLOCK_SIZE):
         stop = min(N, start + BLOCK_SIZE)
         _solve_block(
-            start, stop, T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_turns, out
+            start,
+            stop,
+            T,
+            G,
+            prm,
+            signs,
+            offsets,
+            seed,
+            has_seed,
+            tol_pos,
+            joints,
+            all_revolutions,
+            out,
         )
 
 
 @nb.njit(cache=True, parallel=True)
-def _solve_parallel(T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_turns, out):
+def _solve_parallel(
+    T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_revolutions, out
+):
     N = T.shape[0]
     n_blocks = (N + BLOCK_SIZE - 1) // BLOCK_SIZE
     for blk in nb.prange(n_blocks):
@@ -677,7 +691,7 @@ def _solve_parallel(T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, 
             has_seed,
             tol_pos,
             joints,
-            all_turns,
+            all_revolutions,
             out,
         )
 
@@ -723,7 +737,7 @@ def solve_ortho_parallel(
     *,
     T_flange_tool: npt.ArrayLike | None = None,
     seed: npt.ArrayLike | None = None,
-    all_turns: bool = False,
+    all_revolutions: bool = False,
     position_tolerance_m: float = 1e-6,
 ) -> IkSolutions:
     """Every IK solution of an ortho-parallel arm for a batch of tool poses.
@@ -742,15 +756,15 @@ def solve_ortho_parallel(
     T_flange_tool : array-like, shape (4, 4), optional
         Tool in the flange frame; the robot's default tool if omitted.
     seed : array-like, shape (6,) or (N, 6), optional
-    all_turns : bool
-        One slot per in-limit turn variant (see :mod:`posebridge.kinematics.ik_types`).
+    all_revolutions : bool
+        One slot per in-limit revolution variant (see :mod:`posebridge.kinematics.ik_types`).
     position_tolerance_m : float
         Largest accepted position error of a valid solution.
 
     Returns
     -------
     IkSolutions
-        ``M = 8`` slots per pose (times the turn variants with ``all_turns``).
+        ``M = 8`` slots per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
     N = T.shape[0]
@@ -760,7 +774,7 @@ def solve_ortho_parallel(
     F[:3, :3] = geometry.R_end_flange
     G = np.ascontiguousarray(invert_transform(F @ T_flange))
     prm = _kernel_parameters(geometry, G)
-    M = 8 * slots_per_candidate(robot, all_turns)
+    M = 8 * slots_per_candidate(robot, all_revolutions)
     out = empty_outputs(N, M, 6)
     kernel = _solve_parallel if N >= PARALLEL_THRESHOLD else _solve_serial
     kernel(
@@ -773,7 +787,7 @@ def solve_ortho_parallel(
         has_seed,
         float(position_tolerance_m),
         joint_table(robot),
-        all_turns,
+        all_revolutions,
         out,
     )
     return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=METHOD)

@@ -180,7 +180,7 @@ def solve_planar(
     *,
     T_flange_tool: npt.ArrayLike | None = None,
     seed: npt.ArrayLike | None = None,
-    all_turns: bool = False,
+    all_revolutions: bool = False,
     position_tolerance_m: float = 1e-6,
 ) -> IkSolutions:
     """Both elbow solutions of a planar 2R/3R arm or a SCARA arm for a batch of poses.
@@ -201,13 +201,13 @@ def solve_planar(
     T_flange_tool : array-like, shape (4, 4), optional
         Tool in the flange frame; the robot's default tool if omitted.
     seed : array-like, shape (n,) or (N, n), optional
-    all_turns : bool
+    all_revolutions : bool
     position_tolerance_m : float
 
     Returns
     -------
     IkSolutions
-        ``M = 2`` slots per pose (times the turn variants with ``all_turns``).
+        ``M = 2`` slots per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
     N, n = T.shape[0], robot.dof
@@ -271,7 +271,7 @@ def solve_planar(
         q_raw,
         ok,
         seed=seed_array if has_seed else None,
-        all_turns=all_turns,
+        all_revolutions=all_revolutions,
         unreachable_reason=unreachable,
         ignored_components=geometry.ignored_components,
         method=METHOD,
