@@ -1,9 +1,11 @@
 // Colours for plots, read from the CSS custom properties in style.css (the
-// palette's single source, with its citation).
+// page's palette, with its citation; the review report uses the same colours
+// from posebridge.palette, and a test keeps the two equal).
 
 const NAMES = [
   "branch-1", "branch-2", "branch-3", "branch-4", "branch-5", "branch-6", "branch-7", "branch-8",
-  "branch-singular", "axis-x", "axis-y", "axis-z", "robot", "robot-edge", "target", "tool",
+  "branch-singular", "axis-x", "axis-y", "axis-z", "robot", "robot-edge", "fixture", "fixture-edge",
+  "target", "tool",
   "limit-box", "ok", "warn", "bad", "ink", "ink-muted", "rule",
   "region-1", "region-2", "region-3", "region-4", "region-5", "region-6", "region-7", "region-8",
 ];
@@ -13,6 +15,12 @@ const REGION_COUNT = 8;
 /** Fill colour of the obstacle with index `index` in the cell's obstacle list (cycling). */
 export function regionColour(palette, index) {
   return palette[`region-${(Math.max(0, index) % REGION_COUNT) + 1}`];
+}
+
+/** CSS `rgba(...)` text of a `#rrggbb` colour with opacity `alpha` (0..1). */
+export function withAlpha(colour, alpha) {
+  const [red, green, blue] = [1, 3, 5].map((k) => parseInt(colour.slice(k, k + 2), 16));
+  return `rgba(${red}, ${green}, ${blue}, ${alpha})`;
 }
 
 /** Map of palette names (without the "--pb-" prefix) to colour strings. */

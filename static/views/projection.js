@@ -21,6 +21,7 @@ import { viewBounds } from "./scene3d.js";
 import { fixtureFamily, selectedFixture } from "../cellsync.js";
 import { matrixFromRpyDeg, column, rigidMotion } from "../rotation.js";
 import { snapToStep } from "../units.js";
+import { withAlpha } from "../palette.js";
 
 const AXIS_NAMES = ["x", "y", "z"];
 const GRAB_RADIUS_PX = 18;
@@ -112,9 +113,9 @@ export function createProjectionView({
   function cellTraces(scene) {
     const traces = [];
     const styles = {
-      fixture: { fill: "toself", fillcolor: "rgba(200, 191, 174, 0.45)", line: { color: "#8a7f6c", width: 1 } },
-      pedestal: { fill: "toself", fillcolor: "rgba(74, 93, 107, 0.35)", line: { color: palette["robot-edge"], width: 1 } },
-      keep_out: { fill: "toself", fillcolor: "rgba(213, 94, 0, 0.06)", line: { color: palette.bad, width: 1, dash: "dash" } },
+      fixture: { fill: "toself", fillcolor: withAlpha(palette.fixture, 0.45), line: { color: palette["fixture-edge"], width: 1 } },
+      pedestal: { fill: "toself", fillcolor: withAlpha(palette["robot-edge"], 0.35), line: { color: palette["robot-edge"], width: 1 } },
+      keep_out: { fill: "toself", fillcolor: withAlpha(palette.bad, 0.06), line: { color: palette.bad, width: 1, dash: "dash" } },
     };
     for (const role of ["keep_out", "fixture", "pedestal"]) {
       const xs = [];
@@ -174,7 +175,7 @@ export function createProjectionView({
         y: ys,
         mode: "lines",
         fill: "toself",
-        fillcolor: "rgba(143, 166, 184, 0.55)",
+        fillcolor: withAlpha(palette.robot, 0.55),
         line: { color: palette["robot-edge"], width: 1 },
         connectgaps: false,
       },

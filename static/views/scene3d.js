@@ -147,7 +147,7 @@ function cellTraces(scene, palette) {
   const keepOuts = scene.shapes.filter((s) => s.role === "keep_out");
   const pedestal = scene.shapes.filter((s) => s.role === "pedestal");
   if (fixtures.length) {
-    traces.push(meshTrace("fixtures", fixtures, { color: "#c8bfae", opacity: 1, lighting: { ambient: 0.6, diffuse: 0.6 } }));
+    traces.push(meshTrace("fixtures", fixtures, { color: palette.fixture, opacity: 1, lighting: { ambient: 0.6, diffuse: 0.6 } }));
   }
   if (pedestal.length) {
     traces.push(meshTrace("pedestal", pedestal, { color: palette["robot-edge"], opacity: 1 }));

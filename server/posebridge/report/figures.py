@@ -12,8 +12,9 @@ segments; common practice, no source).
 
 Lengths are millimetres and joint values degrees (millimetres for prismatic
 joints) in every figure; conversions go through :mod:`posebridge.units`.
-Colours are the Okabe–Ito colour-blind-safe set (Okabe & Ito 2008, "Color
-Universal Design"), the same as the page's palette.
+Colours come from :mod:`posebridge.palette`, the page's palette, with the
+page's choices per kind of solid, so fixtures, keep-out zones, the robot,
+targets and joint-space regions look the same in the report as on the page.
 """
 
 from __future__ import annotations
@@ -28,12 +29,12 @@ from scipy.spatial import ConvexHull, QhullError
 
 from posebridge.cell.scene import BoxSet, CylinderSet, Scene
 from posebridge.kinematics.fk import fk_frames
+from posebridge.palette import PALETTE, region_colour, rgba
 from posebridge.spaces.joint_map import JointMap
 from posebridge.transforms import transform_points
 from posebridge.units import FloatArray, mm_from_m
 
 __all__ = [
-    "PALETTE",
     "Mesh",
     "TargetMarker",
     "box_mesh",
@@ -49,32 +50,19 @@ __all__ = [
 Figure = dict[str, Any]
 IntArray = npt.NDArray[np.int64]
 
-PALETTE = {
-    "blue": "#0072b2",
-    "orange": "#e69f00",
-    "bluish-green": "#009e73",
-    "vermillion": "#d55e00",
-    "reddish-purple": "#cc79a7",
-    "sky-blue": "#56b4e9",
-    "dark-yellow": "#8c6d00",
-    "robot": "#8fa6b8",
-    "robot-edge": "#4a5d6b",
-    "fixture": "#a3acb4",
-    "ink": "#1d2730",
-    "ink-muted": "#5a6772",
-    "rule": "#d4dbe1",
-    "self": "#c3cad1",
-}
-"""Okabe–Ito colours (``dark-yellow`` is their yellow darkened for white paper) and greys."""
-
-_SERIES = ("blue", "orange", "bluish-green", "reddish-purple", "sky-blue", "dark-yellow")
+_SERIES = ("branch-1", "branch-2", "branch-3", "branch-6", "branch-7", "branch-8")
+"""Path colours, cycled: branch colours other than the target and keep-out colours."""
 _KIND_STYLE = {
-    "fixture": (PALETTE["fixture"], 0.55, "fixtures"),
-    "keep-out": (PALETTE["vermillion"], 0.22, "keep-out zones"),
-    "pedestal": (PALETTE["robot-edge"], 0.6, "pedestal"),
-    "robot": (PALETTE["robot"], 0.95, "robot"),
-    "tool": (PALETTE["ink"], 0.85, "tool"),
+    "fixture": ("fixture", "fixture-edge", 1.0, 0.45, "fixtures"),
+    "keep-out": ("bad", "bad", 0.12, 0.06, "keep-out zones"),
+    "pedestal": ("robot-edge", "robot-edge", 1.0, 0.35, "pedestal"),
+    "robot": ("robot", "robot-edge", 1.0, 0.55, "robot"),
+    "tool": ("robot", "robot-edge", 1.0, 0.55, "tool"),
 }
+"""Per kind of solid: palette names of its fill and edge, its 3D opacity and 2D fill opacity
+(the page's choices in static/views/scene3d.js and projection.js), and its legend label."""
+_REGION_OPACITY = 0.85
+_SELF_COLLISION_OPACITY = 0.22
 _CYLINDER_SEGMENTS = 32
 _CAPSULE_SEGMENTS = 16
 _CAPSULE_CAP_RINGS = 4
@@ -327,7 +315,7 @@ def _with_gaps(parts: Sequence[FloatArray], column: int) -> list[float | None]:
 
 def _mesh3d_traces(meshes: Sequence[Mesh]) -> list[Figure]:
     traces = []
-    for kind, (colour, opacity, label) in _KIND_STYLE.items():
+    for kind, (fill, _, opacity, _, label) in _KIND_STYLE.items():
         chosen = [mesh for mesh in meshes if mesh.kind == kind]
         if not chosen:
             continue
@@ -349,7 +337,7 @@ def _mesh3d_traces(meshes: Sequence[Mesh]) -> list[Figure]:
                 "i": triangles[:, 0].tolist(),
                 "j": triangles[:, 1].tolist(),
                 "k": triangles[:, 2].tolist(),
-                "color": colour,
+                "color": PALETTE[fill],
                 "opacity": opacity,
                 "flatshading": True,
                 "text": names,
@@ -361,7 +349,7 @@ def _mesh3d_traces(meshes: Sequence[Mesh]) -> list[Figure]:
 
 def _outline_traces(meshes: Sequence[Mesh], axes: tuple[int, int]) -> list[Figure]:
     traces = []
-    for kind, (colour, opacity, label) in _KIND_STYLE.items():
+    for kind, (fill, edge, _, fill_opacity, label) in _KIND_STYLE.items():
         chosen = [mesh for mesh in meshes if mesh.kind == kind]
         if not chosen:
             continue
@@ -378,18 +366,17 @@ def _outline_traces(meshes: Sequence[Mesh], axes: tuple[int, int]) -> list[Figur
                 "x": _with_gaps(outlines, 0),
                 "y": _with_gaps(outlines, 1),
                 "fill": "toself",
-                "fillcolor": _rgba(colour, 0.5 * opacity),
-                "line": {"color": colour, "width": 1},
+                "fillcolor": rgba(PALETTE[fill], fill_opacity),
+                "line": {
+                    "color": PALETTE[edge],
+                    "width": 1,
+                    **({"dash": "dash"} if kind == "keep-out" else {}),
+                },
                 "text": names,
                 "hoverinfo": "text+name",
             }
         )
     return traces
-
-
-def _rgba(colour: str, alpha: float) -> str:
-    red, green, blue = (int(colour[k : k + 2], 16) for k in (1, 3, 5))
-    return f"rgba({red}, {green}, {blue}, {alpha:.2f})"
 
 
 def _target_traces(scene: Scene, axes: tuple[int, ...]) -> list[Figure]:
@@ -410,14 +397,14 @@ def _target_traces(scene: Scene, axes: tuple[int, ...]) -> list[Figure]:
         "text": names,
         "textposition": "top center",
         "textfont": {"size": 10, "color": PALETTE["ink"]},
-        "marker": {"size": 5 if three_d else 9, "color": PALETTE["reddish-purple"]},
+        "marker": {"size": 5 if three_d else 9, "color": PALETTE["target"]},
         "hoverinfo": "text",
     }
     axis_line: Figure = {
         "type": kind,
         "mode": "lines",
         "name": "tool z at targets",
-        "line": {"color": PALETTE["blue"], "width": 3 if three_d else 1.5},
+        "line": {"color": PALETTE["axis-z"], "width": 3 if three_d else 1.5},
         "hoverinfo": "skip",
     }
     for slot, axis in zip(coordinate, axes, strict=False):
@@ -435,7 +422,7 @@ def _target_traces(scene: Scene, axes: tuple[int, ...]) -> list[Figure]:
             "name": "approach poses",
             "marker": {
                 "size": 3 if three_d else 6,
-                "color": PALETTE["reddish-purple"],
+                "color": PALETTE["target"],
                 "symbol": "diamond" if three_d else "diamond-open",
             },
             "text": [
@@ -516,7 +503,7 @@ def cartesian_figures(scene: Scene, q: npt.ArrayLike) -> dict[str, Figure]:
             },
             "margin": {"l": 0, "r": 0, "t": 10, "b": 0},
             "legend": _legend(),
-            "paper_bgcolor": "#ffffff",
+            "paper_bgcolor": PALETTE["paper"],
         },
     }
     views: dict[str, Figure] = {}
@@ -534,7 +521,7 @@ def cartesian_figures(scene: Scene, q: npt.ArrayLike) -> dict[str, Figure]:
                 "margin": {"l": 60, "r": 10, "t": 10, "b": 40},
                 "legend": _legend(),
                 "plot_bgcolor": "#fbfcfd",
-                "paper_bgcolor": "#ffffff",
+                "paper_bgcolor": PALETTE["paper"],
                 "hovermode": "closest",
             },
         }
@@ -593,9 +580,11 @@ def joint_map_figure(
     if np.any(self_cells):
         category[self_cells] = self_slot
         names.append("arm itself")
-    colours = ["#ffffff"] + [PALETTE[_SERIES[k % len(_SERIES)]] for k in range(len(present))]
+    # as on the page: an obstacle's region colour follows its index in the cell's obstacle
+    # list; regions and self collision are drawn translucent over white
+    colours = [PALETTE["paper"]] + [rgba(region_colour(k), _REGION_OPACITY) for k in present]
     if len(names) > len(colours):
-        colours.append(PALETTE["self"])
+        colours.append(rgba(PALETTE["ink"], _SELF_COLLISION_OPACITY))
     count = len(names)
     scale = []
     for k, colour in enumerate(colours):
@@ -656,8 +645,8 @@ def joint_map_figure(
                 "marker": {
                     "symbol": "diamond",
                     "size": 9,
-                    "color": PALETTE["reddish-purple"],
-                    "line": {"width": 1, "color": "#ffffff"},
+                    "color": PALETTE["target"],
+                    "line": {"width": 1, "color": PALETTE["paper"]},
                 },
             }
         )
@@ -674,12 +663,12 @@ def joint_map_figure(
                     "x1": float(upper[0]),
                     "y0": float(lower[1]),
                     "y1": float(upper[1]),
-                    "line": {"color": PALETTE["robot-edge"], "width": 1.5, "dash": "dash"},
+                    "line": {"color": PALETTE["limit-box"], "width": 1.5, "dash": "dash"},
                 }
             ],
             "margin": {"l": 60, "r": 10, "t": 10, "b": 40},
             "legend": _legend(),
-            "paper_bgcolor": "#ffffff",
-            "plot_bgcolor": "#ffffff",
+            "paper_bgcolor": PALETTE["paper"],
+            "plot_bgcolor": PALETTE["paper"],
         },
     }

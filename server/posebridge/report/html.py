@@ -33,6 +33,7 @@ from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.reports import BranchReport, TargetCheck, TargetCheckReport
 from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.palette import PALETTE
 from posebridge.planning.path_check import check_path
 from posebridge.planning.reports import PathCheckReport, SegmentReport
 from posebridge.report.figures import TargetMarker, cartesian_figures, joint_map_figure
@@ -446,6 +447,7 @@ def build_report(
         joint_map=map_section,
         comments=_comment_rows(_comments(path)),
         figures=figures,
+        palette=PALETTE,
         plotly_js=Markup(plotly_script()),
     )
 
