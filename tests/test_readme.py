@@ -7,6 +7,7 @@ import re
 import tomllib
 from pathlib import Path
 
+from posebridge import cli
 from posebridge.cell import resolve_scene, validate_cell
 from posebridge.robot.toml_format import parse_robot_toml
 
@@ -51,3 +52,11 @@ def test_readme_robot_example_parses() -> None:
     tomllib.loads(example)  # valid TOML as printed
     robot = parse_robot_toml(example, "README.md")
     assert robot.joint_names == ("j1",)
+
+
+def test_readme_lists_every_exit_code_of_the_command_line() -> None:
+    listed = re.search(r"Exit codes: (.*?)\.\n", README)
+    assert listed is not None
+    documented = {int(code) for code in re.findall(r"(?:^|, )(\d) ", listed.group(1))}
+    # our own contract: every exit code the CLI returns is documented
+    assert documented == {cli.EXIT_OK, cli.EXIT_FINDINGS, cli.EXIT_BAD_INPUT, cli.EXIT_INTERNAL}
