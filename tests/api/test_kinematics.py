@@ -124,8 +124,10 @@ def test_compute_fk_planar2r_property(t1: float, t2: float) -> None:
 
 async def test_compute_fk_arm6_matches_pinocchio(client: httpx.AsyncClient) -> None:
     rng = np.random.default_rng(7)
-    lower = np.array([-170, -95, -200, -200, -125, -360.0])  # robots/pb-arm6.toml limits
-    upper = np.array([170, 155, 80, 200, 125, 360.0])
+    with (data_folder("robots") / "pb-arm6.toml").open("rb") as handle:
+        limits = [j["limits"] for j in tomllib.load(handle)["joint"]]  # the robot's own limits
+    lower = np.array([lim["min_deg"] for lim in limits], dtype=float)
+    upper = np.array([lim["max_deg"] for lim in limits], dtype=float)
     q_deg = rng.uniform(lower, upper, size=(6, 6)).tolist()
     flange_tool = {"position_mm": [0.0, 0.0, 0.0], "rpy_deg": [0.0, 0.0, 0.0]}
     response = await client.post(

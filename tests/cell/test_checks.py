@@ -251,7 +251,7 @@ def test_reasons_in_their_documented_order() -> None:
         )
     )
     check = target(check_targets(far), "far-away")
-    # closed form: 5 m from the base is beyond pb-arm6's reach (links sum to about 1.5 m)
+    # closed form: 5 m from the base is beyond pb-arm6's reach (links and tool sum to 1.8 m)
     assert check.target.reason == REASON_OUT_OF_REACH and not check.reachable
 
     def back_only(d: dict) -> None:

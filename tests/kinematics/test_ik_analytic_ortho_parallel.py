@@ -341,7 +341,7 @@ def test_wrist_singularity_keeps_seed_joint_4(arm6: Robot, geometry: OrthoParall
     valid = result.valid_solutions(0)
     # with joint 5 at zero the flange depends on q4 + q6 only (axes 4 and 6 coincide):
     # the closed form keeps q4 from the seed and the sum from the pose; one solution per
-    # arm branch (the wrist-flip twin is the same pose), wrist label 0
+    # arm branch (the other wrist solution is the same pose), wrist label 0
     straight = [m for m in valid if abs(result.q[0, m, 4]) < 1e-9]
     assert len(straight) == 1
     m = straight[0]

@@ -178,5 +178,5 @@ def test_bad_requests_are_refused(demo: Scene) -> None:
     with pytest.raises(PlanningInputError, match="motion_step_mm"):
         plan_joint_move(demo, START, GOAL, safety_margin_mm=5.0, motion_step_mm=8.0)
     outside = START.copy()
-    outside[0] = np.radians(175.0)  # j1 limit is 170 deg (pb-arm6.toml)
+    outside[0] = np.radians(175.0)  # j1 limit is 167 deg (pb-arm6.toml)
     assert plan_joint_move(demo, outside, GOAL).status == "outside_limits"

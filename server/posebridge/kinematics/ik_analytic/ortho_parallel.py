@@ -29,8 +29,9 @@ and accepts the robot only if its canonical forward kinematics matches
 
 Degenerate cases: at the wrist singularity (``sin θ5 = 0``) only ``θ4 + θ6``
 (or ``θ6 - θ4``) is defined; θ4 keeps the seed's value (0 without a seed)
-and the wrist-flip twin is dropped. With the wrist centre on axis 1 (``b = 0``)
-θ1 is free and taken from the seed (0 without); both shoulder labels are 0.
+and the other wrist solution (θ4 + π, -θ5, θ6 + π) is dropped. With the
+wrist centre on axis 1 (``b = 0``) θ1 is free and taken from the seed (0
+without); both shoulder labels are 0.
 At a stretched or folded elbow the two elbow solutions coincide and only one
 is kept.
 
@@ -560,16 +561,16 @@ def _assemble(
                     theta6 = angles[row, base + 2] - theta4
                 else:
                     theta6 = theta4 + angles[row, base + 2]
-            for flip in range(2):
-                s = slot + flip
-                if flip == 1 and mode != 0:
+            for wrist_twin in range(2):
+                s = slot + wrist_twin
+                if wrist_twin == 1 and mode != 0:
                     raw_ok[row, s] = False
                     continue
                 raw_ok[row, s] = True
                 raw_q[row, s, 0] = signs[0] * (theta1 - offsets[0])
                 raw_q[row, s, 1] = signs[1] * (theta2 - offsets[1])
                 raw_q[row, s, 2] = signs[2] * (theta3 - offsets[2])
-                if flip == 0:
+                if wrist_twin == 0:
                     raw_q[row, s, 3] = signs[3] * (theta4 - offsets[3])
                     raw_q[row, s, 4] = signs[4] * (theta5 - offsets[4])
                     raw_q[row, s, 5] = signs[5] * (theta6 - offsets[5])
