@@ -4,12 +4,16 @@ from __future__ import annotations
 
 import math
 
+import fcl
 import numpy as np
 import pytest
+from scipy.spatial.transform import Rotation
 
+from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.geometry.clearance import capsule_segments_world
 from posebridge.kinematics.fk import fk_tool
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
@@ -186,6 +190,39 @@ def test_demo_paths_tie_findings_to_their_segments() -> None:
         assert len(report.waypoints) == len(scene.cell.paths[index].waypoints)
         assert len(report.segments) == len(report.waypoints) - 1
         assert render_path_check(report).startswith(f"Path {scene.paths[index].name!r}")
+
+
+def test_demo_return_joint_move_hits_the_press_column() -> None:
+    path = data_folder("robots") / "demo-cell.json"
+    scene = resolve_scene(load_cell(path), path)
+    index = [p.name for p in scene.paths].index("unload-to-conveyor")
+    report = check_path(scene, index)
+    (hit,) = [f for f in report.findings if f.kind == "collision"]
+    last = report.segments[-1]
+    # the cell file: the path ends with a joint move back to the start configuration
+    assert (hit.segment_index, last.motion) == (last.index, "joint")
+    assert (hit.capsule, hit.obstacle) == ("gripper-body", "press-column-right")
+    assert hit.distance_mm is not None and hit.distance_mm < 0.0
+    # a joint move runs all joints on one straight line in joint space (documented)
+    q_from, q_to = sample_path(scene, index).waypoint_q[-2:]
+    q = q_from + hit.fraction_worst * (q_to - q_from)
+    # python-fcl signed distance there (reference library): the gripper is inside the column
+    clearance = clearance_scene(scene)
+    c = clearance.arm.names.index("gripper-body")
+    o = clearance.obstacles.names.index("press-column-right")
+    start, end = capsule_segments_world(clearance.arm, q[None], clearance.T_world_base)[0, c]
+    axis = end - start
+    rotation = Rotation.align_vectors([axis / np.linalg.norm(axis)], [[0.0, 0.0, 1.0]])[0]
+    capsule = fcl.CollisionObject(
+        fcl.Capsule(clearance.arm.radius[c], float(np.linalg.norm(axis))),
+        fcl.Transform(rotation.as_matrix(), 0.5 * (start + end)),
+    )
+    column = fcl.CollisionObject(
+        fcl.Box(*(2.0 * clearance.obstacles.params[o])),
+        fcl.Transform(clearance.obstacles.rotation[o], clearance.obstacles.translation[o]),
+    )
+    request = fcl.DistanceRequest(enable_signed_distance=True)
+    assert fcl.distance(capsule, column, request, fcl.DistanceResult()) < 0.0
 
 
 def test_joint_waypoints_are_used_as_given() -> None:
