@@ -68,7 +68,7 @@ def solve(arm, targets: np.ndarray, **kwargs) -> IkSolutions:
     return solve_offset_wrist(arm.robot, geometry, targets, T_flange_tool=np.eye(4), **kwargs)
 
 
-def same_turn_free(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+def same_modulo_revolutions(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     """Largest joint difference modulo 2 pi, shape of the batch."""
     d = a - b
     return np.abs(d - 2.0 * np.pi * np.round(d / (2.0 * np.pi))).max(axis=-1)
@@ -182,7 +182,7 @@ def test_every_solution_reproduces_the_pose(arms: dict, name: str) -> None:
     assert result.method == METHOD
     assert_reach_by_pinocchio(arm, result, targets)
     # closed form: the configuration that produced a pose is one of its solutions
-    difference = np.where(result.valid, same_turn_free(result.q, q[:, None, :]), np.inf)
+    difference = np.where(result.valid, same_modulo_revolutions(result.q, q[:, None, :]), np.inf)
     assert np.all(difference.min(axis=1) < 1e-8)
 
 
@@ -226,7 +226,7 @@ def test_generic_pose_has_eight_distinct_solutions(hand) -> None:
     assert result.valid[0].sum() == 8
     assert_reach_by_pinocchio(hand, result, target)
     solutions = result.q[0, result.valid[0]]
-    gaps = same_turn_free(solutions[:, None, :], solutions[None, :, :])
+    gaps = same_modulo_revolutions(solutions[:, None, :], solutions[None, :, :])
     assert np.all(gaps[~np.eye(8, dtype=bool)] > 1e-3)
     words = {result.branch_label(0, m).split(", j")[0] for m in range(8)}
     assert len(words) == 8
@@ -243,11 +243,11 @@ def test_agrees_with_the_numerical_solver(arms: dict) -> None:
     for i in range(q.shape[0]):
         found = closed.q[i, closed.valid[i]]
         nearest = [
-            int(np.argmin(same_turn_free(found, numeric.q[i, m])))
+            int(np.argmin(same_modulo_revolutions(found, numeric.q[i, m])))
             for m in numeric.valid_solutions(i)
         ]
         gaps = [
-            same_turn_free(found[k], numeric.q[i, m])
+            same_modulo_revolutions(found[k], numeric.q[i, m])
             for k, m in zip(nearest, numeric.valid_solutions(i), strict=True)
         ]
         # one closed-form solution per numerical one, closer than the numerical solver's
@@ -270,7 +270,7 @@ def test_tool_and_seed(arms: dict) -> None:
     reached = pin_flange(arm.urdf)(result.q[rows, slots]) @ tool
     np.testing.assert_allclose(reached, targets[rows], atol=FK_MATCH)
     # ik_types contract: with itself as the seed the generating configuration comes first
-    assert np.all(same_turn_free(result.q[:, 0], q) < 1e-8)
+    assert np.all(same_modulo_revolutions(result.q[:, 0], q) < 1e-8)
 
 
 # ---------------------------------------------------------------- singular poses
@@ -294,7 +294,7 @@ def test_wrist_singularity_keeps_the_seed_joint_6(hand) -> None:
     # point at 105 mm): joint 6 is the seed's, one solution per elbow
     assert len(straight) == 2
     for m in straight:
-        assert same_turn_free(result.q[0, m, 5:6], seed[5:6]) < 1e-12
+        assert same_modulo_revolutions(result.q[0, m, 5:6], seed[5:6]) < 1e-12
         assert "wrist straight" in result.branch_label(0, m)
     # the other root of joint 1 turns the parallel axes away from axis 6: regular wrist
     assert all(result.wrist[0, m] != 0 for m in result.valid_solutions(0) if m not in straight)
@@ -318,7 +318,7 @@ def test_wrist_singularity_at_the_edge_of_reach_moves_joint_6(hand) -> None:
         straight = [m for m in result.valid_solutions(0) if result.wrist[0, m] == 0]
         assert straight
         for m in straight:
-            if same_turn_free(result.q[0, m, 5:6], seed[5:6]) > 1e-9:
+            if same_modulo_revolutions(result.q[0, m, 5:6], seed[5:6]) > 1e-9:
                 assert result.elbow[0, m] == 0
                 moved.append(result.q[0, m, 5])
     assert len(moved) >= 3
@@ -386,7 +386,7 @@ def test_stretched_elbow_gives_one_elbow_solution(hand) -> None:
     target = pin_flange(hand.urdf)(q)
     result = solve(hand, target)
     assert_reach_by_pinocchio(hand, result, target)
-    found = np.where(result.valid[0], same_turn_free(result.q[0], q[0]), np.inf)
+    found = np.where(result.valid[0], same_modulo_revolutions(result.q[0], q[0]), np.inf)
     m = int(np.argmin(found))
     assert found[m] < 1e-7
     assert result.elbow[0, m] == 0
@@ -453,23 +453,25 @@ def test_no_branch_within_limits(offset_wrist_arm) -> None:
     assert result.reason == (REASON_NO_WITHIN_LIMITS,)
 
 
-def test_turn_variants(arms: dict) -> None:
+def test_revolution_variants(arms: dict) -> None:
     arm = arms["plain"]
     q = np.array([[0.3, 0.2, -0.5, 0.4, 0.8, -0.6]])
     target = fk_flange(arm.robot, q)
     single = solve(arm, target)
-    every = solve(arm, target, all_turns=True)
+    every = solve(arm, target, all_revolutions=True)
     assert_reach_by_pinocchio(arm, every, target)
     robot = arm.robot
     for m in single.valid_solutions(0):
         base = single.q[0, m]
-        # closed form: count the whole turns k with lower <= q_j + 2 pi k <= upper per joint
+        # closed form: count the whole revolutions k with lower <= q_j + 2 pi k <= upper per joint
         counts = [
             sum(robot.lower[j] <= base[j] + 2 * np.pi * k <= robot.upper[j] for k in range(-3, 4))
             for j in range(6)
         ]
         variants = [
-            s for s in every.valid_solutions(0) if same_turn_free(every.q[0, s], base) < 1e-9
+            s
+            for s in every.valid_solutions(0)
+            if same_modulo_revolutions(every.q[0, s], base) < 1e-9
         ]
         assert len(variants) == int(np.prod(counts))
 
@@ -513,4 +515,4 @@ def test_random_arms_solve_their_own_poses(offset_wrist_arm, robot_seed, fractio
     result = solve(arm, target)
     assert_reach_by_pinocchio(arm, result, target)
     # closed form: the generating configuration is among the solutions
-    assert same_turn_free(result.q[0, result.valid[0]], q[0]).min() < 1e-8
+    assert same_modulo_revolutions(result.q[0, result.valid[0]], q[0]).min() < 1e-8

@@ -6,7 +6,7 @@ wrist offset: the family of
 :mod:`posebridge.kinematics.ik_analytic.offset_wrist`. Targets are forward
 kinematics of random in-limit configurations (seeded). One run of
 :func:`posebridge.kinematics.ik.solve_ik_all` computes all eight branches of
-every pose with labels, validity and limit flags, turn representatives and
+every pose with labels, validity and limit flags, revolution representatives and
 sorted slots. Baseline: the numerical solver on the first poses of the same
 batch in the same run, in the mode that gives every solution (its defaults:
 200 random starts, up to 16 solutions), which is what this arm got before the

@@ -98,7 +98,7 @@ class IkSolver:
                 T_base_tool,
                 T_flange_tool=T_flange_tool,
                 seed=seed,
-                all_turns=all_turns,
+                all_revolutions=all_revolutions,
                 position_tolerance_m=tolerance,
                 orientation_tolerance_rad=orientation,
             )

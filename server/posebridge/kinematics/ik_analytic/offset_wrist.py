@@ -465,7 +465,7 @@ def _arm_candidates(
                 k = 2 * branch1 + branch2
                 base = 2 + 4 * k
                 if singular and branch2 == 1:
-                    # straight wrist: the flipped wrist is the same solution
+                    # straight wrist: the other wrist solution is the same one
                     arm_ok[row, 2 * k] = False
                     arm_ok[row, 2 * k + 1] = False
                     continue
@@ -640,7 +640,7 @@ def _solve_block(
     tol_pos,
     tol_rot,
     joints,
-    all_turns,
+    all_revolutions,
     out,
 ):
     """Candidates (canonical targets, geometry, arctangents, assembly), then slot finishing."""
@@ -691,14 +691,14 @@ def _solve_block(
         seed,
         has_seed,
         joints,
-        all_turns,
+        all_revolutions,
         out,
     )
 
 
 @nb.njit(cache=True)
 def _solve_serial(
-    T, Hi, G, prm, signs, offsets, seed, has_seed, tol_pos, tol_rot, joints, all_turns, out
+    T, Hi, G, prm, signs, offsets, seed, has_seed, tol_pos, tol_rot, joints, all_revolutions, out
 ):
     N = T.shape[0]
     for start in range(0, N, BLOCK_SIZE):
@@ -717,14 +717,14 @@ def _solve_serial(
             tol_pos,
             tol_rot,
             joints,
-            all_turns,
+            all_revolutions,
             out,
         )
 
 
 @nb.njit(cache=True, parallel=True)
 def _solve_parallel(
-    T, Hi, G, prm, signs, offsets, seed, has_seed, tol_pos, tol_rot, joints, all_turns, out
+    T, Hi, G, prm, signs, offsets, seed, has_seed, tol_pos, tol_rot, joints, all_revolutions, out
 ):
     N = T.shape[0]
     n_blocks = (N + BLOCK_SIZE - 1) // BLOCK_SIZE
@@ -744,7 +744,7 @@ def _solve_parallel(
             tol_pos,
             tol_rot,
             joints,
-            all_turns,
+            all_revolutions,
             out,
         )
 
@@ -784,7 +784,7 @@ def solve_offset_wrist(
     *,
     T_flange_tool: npt.ArrayLike | None = None,
     seed: npt.ArrayLike | None = None,
-    all_turns: bool = False,
+    all_revolutions: bool = False,
     position_tolerance_m: float = 1e-6,
     orientation_tolerance_rad: float = 1e-6,
 ) -> IkSolutions:
@@ -805,8 +805,8 @@ def solve_offset_wrist(
     seed : array-like, shape (6,) or (N, 6), optional
         Orders the solutions; joint 1 (shoulder singularity without lateral
         offset) and joint 6 (wrist singularity) take its values.
-    all_turns : bool
-        One slot per in-limit turn variant (see :mod:`posebridge.kinematics.ik_types`).
+    all_revolutions : bool
+        One slot per in-limit revolution variant (see :mod:`posebridge.kinematics.ik_types`).
     position_tolerance_m, orientation_tolerance_rad : float
         Largest accepted TCP position error and rotation difference of a
         valid solution (module docstring).
@@ -814,7 +814,7 @@ def solve_offset_wrist(
     Returns
     -------
     IkSolutions
-        ``M = 8`` slots per pose (times the turn variants with ``all_turns``).
+        ``M = 8`` slots per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
     N = T.shape[0]
@@ -824,7 +824,7 @@ def solve_offset_wrist(
     )
     Hi = np.ascontiguousarray(invert_transform(geometry.T_base_canonical)[:3])
     prm = _kernel_parameters(geometry, G)
-    M = 8 * slots_per_candidate(robot, all_turns)
+    M = 8 * slots_per_candidate(robot, all_revolutions)
     out = empty_outputs(N, M, 6)
     kernel = _solve_parallel if N >= PARALLEL_THRESHOLD else _solve_serial
     kernel(
@@ -839,7 +839,7 @@ def solve_offset_wrist(
         float(position_tolerance_m),
         float(orientation_tolerance_rad),
         joint_table(robot),
-        all_turns,
+        all_revolutions,
         out,
     )
     return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=METHOD)
