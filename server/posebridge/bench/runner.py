@@ -13,6 +13,7 @@ from posebridge.bench.ik_offset_wrist import bench_ik_offset_wrist
 from posebridge.bench.kinematics import bench_kinematics
 from posebridge.bench.maps import bench_maps
 from posebridge.bench.placement import bench_placement
+from posebridge.bench.sequence import bench_sequence
 
 __all__ = ["BENCHMARKS", "run_benchmarks"]
 
@@ -30,6 +31,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("clearance", bench_clearance),
     Benchmark("joint-space and reach maps", bench_maps),
     Benchmark("base placement", bench_placement),
+    Benchmark("solution sequence and blended timing", bench_sequence),
     Benchmark("dashboard drag round trip", bench_drag),
 )
 

@@ -53,6 +53,7 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
+import numba as nb
 import numpy as np
 import numpy.typing as npt
 
@@ -104,6 +105,7 @@ __all__ = [
     "ik_candidates",
     "optimise_sequence",
     "revolutions_of",
+    "segment_costs",
 ]
 
 IntArray = npt.NDArray[np.int64]
@@ -473,33 +475,70 @@ def _line_poses(
     return T, t, length, angle
 
 
+@nb.njit(cache=True)
+def _walk_nearest(q, ok, starts, weights, choice):
+    """Per start and sample, the allowed slot nearest the previous sample's configuration.
+
+    ``q`` (S, M, n) every IK slot of every sample, ``ok`` (S, M) allowed slots,
+    ``starts`` (K, n), ``weights`` (n,) of the weighted joint distance; writes
+    ``choice`` (K, S), -1 where no slot is allowed (the previous configuration
+    carries on). Samples depend on the one before; starts are independent.
+    """
+    S, M, n = q.shape
+    previous = np.empty(n)
+    for k in range(starts.shape[0]):
+        for j in range(n):
+            previous[j] = starts[k, j]
+        for s in range(S):
+            best = -1
+            best_distance = np.inf
+            for m in range(M):
+                if not ok[s, m]:
+                    continue
+                distance = 0.0
+                for j in range(n):
+                    e = (q[s, m, j] - previous[j]) * weights[j]
+                    distance += e * e
+                if distance < best_distance:
+                    best_distance = distance
+                    best = m
+            choice[k, s] = best
+            if best >= 0:
+                for j in range(n):
+                    previous[j] = q[s, best, j]
+
+
 def _track_batch(
     scene: Scene, solver: IkSolver, T_world: FloatArray, q_a: FloatArray
 ) -> FloatArray:
-    """Branch-continuous IK along the poses from every start, shape (Ka, S, n); NaN where unreached.
+    """Branch-continuous IK along the poses from every start; NaN where unreached.
 
     One IK batch for all samples (every solution, every revolution), then for
-    every start at once each sample takes the allowed solution nearest the
-    previous sample's configuration in the speed-weighted joint distance
+    every start each sample takes the allowed solution nearest the previous
+    sample's configuration in the speed-weighted joint distance
     (:func:`posebridge.kinematics.ik_types.joint_weights`), the previous one
     carrying on where none is allowed: the rule of :func:`sample_path`.
+
+    Returns
+    -------
+    tracked : array, shape (Ka, S, n)
     """
     T_base_tool = invert_transform(scene.T_world_base) @ T_world
     result = solver.solve(T_base_tool, T_flange_tool=scene.T_flange_tool, all_turns=True)
-    allowed = result.valid & result.within_limits
-    weights = joint_weights(scene.robot)
-    Ka = q_a.shape[0]
-    S = T_world.shape[0]
-    tracked = np.full((Ka, S, q_a.shape[1]), np.nan)
-    previous = q_a.copy()
-    for s in range(S):
-        difference = (result.q[s][None, :, :] - previous[:, None, :]) * weights
-        distance = np.where(allowed[s][None, :], np.sum(difference * difference, axis=2), np.inf)
-        best = np.argmin(distance, axis=1)
-        found = np.isfinite(distance[np.arange(Ka), best])
-        chosen = result.q[s, best]
-        tracked[found, s] = chosen[found]
-        previous[found] = chosen[found]
+    allowed = np.ascontiguousarray(result.valid & result.within_limits)
+    Ka, S = q_a.shape[0], T_world.shape[0]
+    choice = np.empty((Ka, S), dtype=np.int64)
+    _walk_nearest(
+        np.ascontiguousarray(result.q),
+        allowed,
+        np.ascontiguousarray(q_a),
+        joint_weights(scene.robot),
+        choice,
+    )
+    found = choice >= 0
+    tracked = np.where(
+        found[:, :, None], result.q[np.arange(S)[None, :], np.maximum(choice, 0)], np.nan
+    )
     tracked[:, 0] = q_a
     return tracked
 
@@ -805,6 +844,63 @@ def _current_choice(scene: Scene, path: ResolvedPath, limits: SequenceLimits) ->
     return _choice(scene, q, durations, tuple(violations))
 
 
+def _layers(
+    scene: Scene, path: ResolvedPath, candidates: Sequence[WaypointCandidates]
+) -> list[FloatArray]:
+    """The candidates' configurations, checked: W layers of shape (K_w, n)."""
+    W = len(path.sources)
+    n = scene.robot.dof
+    if len(candidates) != W:
+        raise PlanningInputError(f"candidates: expected {W} waypoints, got {len(candidates)}")
+    layers = []
+    for w, layer in enumerate(candidates):
+        q = np.asarray(layer.q, dtype=np.float64)
+        if q.ndim != 2 or q.shape[1] != n or not np.all(np.isfinite(q)):
+            raise PlanningInputError(
+                f"candidates[{w}].q: expected finite values of shape (K, {n}), got {q.shape}"
+            )
+        layers.append(q)
+    return layers
+
+
+def segment_costs(
+    scene: Scene,
+    path: int | ResolvedPath,
+    candidates: Sequence[WaypointCandidates] | None = None,
+    limits: SequenceLimits | None = None,
+) -> tuple[FloatArray, ...]:
+    """Every edge's duration with every constraint checked, collisions included (eagerly).
+
+    The input of an exhaustive search over all sequences; :func:`optimise_sequence`
+    needs only the collision checks along tentative optima.
+
+    Parameters
+    ----------
+    scene, path, candidates, limits
+        As :func:`optimise_sequence`.
+
+    Returns
+    -------
+    tuple of arrays, length W - 1
+        ``(K_w, K_{w+1})`` rest-to-rest durations, s; ``inf`` where the edge is excluded.
+    """
+    limits = SequenceLimits() if limits is None else limits
+    resolved = path_of(scene, path)
+    chosen = ik_candidates(scene, resolved, limits) if candidates is None else tuple(candidates)
+    graph = _build_graph(scene, resolved, _layers(scene, resolved, chosen), limits)
+    pairs = [
+        (k, int(i), int(j))
+        for k, edges in enumerate(graph.edges)
+        for i, j in zip(*np.nonzero(np.isfinite(edges.cost)), strict=True)
+    ]
+    hits = _check_collisions(scene, graph.edges, graph.layers, pairs, limits)
+    costs = [edges.cost.copy() for edges in graph.edges]
+    for (k, i, j), hit in zip(pairs, hits, strict=True):
+        if hit:
+            costs[k][i, j] = np.inf
+    return tuple(costs)
+
+
 def optimise_sequence(
     scene: Scene,
     path: int | ResolvedPath,
@@ -838,18 +934,8 @@ def optimise_sequence(
     limits = SequenceLimits() if limits is None else limits
     resolved = path_of(scene, path)
     W = len(resolved.sources)
-    n = scene.robot.dof
     chosen = ik_candidates(scene, resolved, limits) if candidates is None else tuple(candidates)
-    if len(chosen) != W:
-        raise PlanningInputError(f"candidates: expected {W} waypoints, got {len(chosen)}")
-    layers = []
-    for w, layer in enumerate(chosen):
-        q = np.asarray(layer.q, dtype=np.float64)
-        if q.ndim != 2 or q.shape[1] != n or not np.all(np.isfinite(q)):
-            raise PlanningInputError(
-                f"candidates[{w}].q: expected finite values of shape (K, {n}), got {q.shape}"
-            )
-        layers.append(q)
+    layers = _layers(scene, resolved, chosen)
     graph = _build_graph(scene, resolved, layers, limits)
     indices, total, blocked = _lazy_search(scene, graph, limits)
     feasible = math.isfinite(total)
