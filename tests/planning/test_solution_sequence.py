@@ -28,6 +28,7 @@ from posebridge.planning.solution_sequence import (
     ik_candidates,
     optimise_sequence,
     revolutions_of,
+    segment_costs,
 )
 from posebridge.resources import data_folder
 from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
@@ -298,6 +299,24 @@ def test_demo_optimum_is_never_slower_than_a_feasible_current_choice(demo: Scene
             assert result.saving == pytest.approx(result.current.total - result.best.total)
         # only edges on some tentative optimum were collision-checked
         assert result.edges_checked <= result.edges_total
+
+
+def test_lazy_search_equals_enumeration_of_eagerly_checked_costs(demo: Scene) -> None:
+    for index in range(len(demo.paths)):
+        costs = segment_costs(demo, index)
+        best = math.inf
+        for i in range(costs[0].shape[0]):  # every sequence, summed by broadcasting
+            total = costs[0][i]
+            for cost in costs[1:]:
+                total = total[..., None] + cost.reshape((1,) * (total.ndim - 1) + cost.shape)
+            best = min(best, float(np.min(total)))
+        result = optimise_sequence(demo, index)
+        # reference: exhaustive enumeration over edges whose collisions were all checked
+        if math.isfinite(best):
+            assert result.best is not None
+            assert result.best.total == pytest.approx(best, rel=1e-12)
+        else:
+            assert not result.feasible
 
 
 def test_chosen_sequence_passes_the_path_check(demo: Scene) -> None:
