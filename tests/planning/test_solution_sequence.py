@@ -289,7 +289,7 @@ def test_demo_optimum_is_never_slower_than_a_feasible_current_choice(demo: Scene
         report = check_path(demo, index)
         # reference: the path check of the current choice finds the same collisions
         collided = {f.segment_index for f in report.findings if f.kind == "collision"}
-        assert collided == {k for reason, k in result.current.violations if reason == "collision"}
+        assert collided == {v.segment for v in result.current.violations if v.reason == "collision"}
         assert result.current.total == pytest.approx(report.cycle_time_s, abs=1e-9)
         if not result.feasible:
             continue

@@ -101,6 +101,7 @@ __all__ = [
     "SequenceChoice",
     "SequenceLimits",
     "SequenceResult",
+    "Violation",
     "WaypointCandidates",
     "ik_candidates",
     "optimise_sequence",
@@ -214,6 +215,27 @@ class WaypointCandidates:
     excluded: tuple[CandidateExclusion, ...] = ()
 
 
+@dataclass(frozen=True)
+class Violation:
+    """A constraint a choice of configurations breaks.
+
+    Attributes
+    ----------
+    reason : str
+        At a waypoint: one of :data:`CANDIDATE_REASONS` or ``"unreached"`` (no
+        configuration); on a segment: one of :data:`EDGE_REASONS` or
+        ``"unreached"`` (an end has no configuration).
+    waypoint : int
+        The waypoint (-1 for a segment's violation).
+    segment : int
+        The segment ``k``, from waypoint ``k`` to ``k + 1`` (-1 for a waypoint's).
+    """
+
+    reason: str
+    waypoint: int = -1
+    segment: int = -1
+
+
 @dataclass(frozen=True, eq=False)
 class SequenceChoice:
     """One configuration per waypoint and its rest-to-rest timing (SI units).
@@ -232,10 +254,8 @@ class SequenceChoice:
         s; NaN if any segment is not feasible.
     same_branch_throughout : bool
         No label changes sign between any two waypoints (0, singular, matches either).
-    violations : tuple of (str, int)
-        Constraints the choice breaks: ``(reason, waypoint)`` with a
-        :data:`CANDIDATE_REASONS` reason or ``"unreached"``, and
-        ``(reason, segment)`` with an :data:`EDGE_REASONS` reason, in path order.
+    violations : tuple of Violation
+        Constraints the choice breaks, waypoints first, then segments.
     """
 
     q: FloatArray
@@ -244,7 +264,7 @@ class SequenceChoice:
     segment_durations: FloatArray
     total: float
     same_branch_throughout: bool
-    violations: tuple[tuple[str, int], ...]
+    violations: tuple[Violation, ...]
 
 
 @dataclass(frozen=True, eq=False)
@@ -790,7 +810,7 @@ def _choice(
     scene: Scene,
     q: FloatArray,
     durations: FloatArray,
-    violations: tuple[tuple[str, int], ...],
+    violations: tuple[Violation, ...],
 ) -> SequenceChoice:
     labels = np.zeros((q.shape[0], 3), dtype=np.int8)
     finite = np.all(np.isfinite(q), axis=1)
@@ -818,13 +838,13 @@ def _current_choice(scene: Scene, path: ResolvedPath, limits: SequenceLimits) ->
     q = sampled.waypoint_q
     W = q.shape[0]
     reached = np.all(np.isfinite(q), axis=1)
-    violations: list[tuple[str, int]] = []
+    violations: list[Violation] = []
     for w in range(W):
         if not reached[w]:
-            violations.append(("unreached", w))
+            violations.append(Violation("unreached", waypoint=w))
             continue
         filtered = _filter_candidates(scene, q[w][None], _required(scene, path, w), limits)
-        violations.extend((exclusion.reason, w) for exclusion in filtered.excluded)
+        violations.extend(Violation(e.reason, waypoint=w) for e in filtered.excluded)
     layers = [q[w][None] for w in range(W)]
     timed = [k for k in range(W - 1) if reached[k] and reached[k + 1]]
     edges = {k: _segment_edges(scene, path, k, layers[k], layers[k + 1], limits) for k in timed}
@@ -835,11 +855,11 @@ def _current_choice(scene: Scene, path: ResolvedPath, limits: SequenceLimits) ->
     collided = {k for k, hit in zip(free, hits, strict=True) if hit}
     for k in range(W - 1):
         if k not in edges:
-            violations.append(("unreached", k))
+            violations.append(Violation("unreached", segment=k))
         elif edges[k].reason[0, 0] >= 0:
-            violations.append((EDGE_REASONS[int(edges[k].reason[0, 0])], k))
+            violations.append(Violation(EDGE_REASONS[int(edges[k].reason[0, 0])], segment=k))
         elif k in collided:
-            violations.append(("collision", k))
+            violations.append(Violation("collision", segment=k))
     durations = np.array([segment.duration for segment in timing.segments], dtype=np.float64)
     return _choice(scene, q, durations, tuple(violations))
 
