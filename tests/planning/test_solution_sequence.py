@@ -198,7 +198,7 @@ def brute_force(scene: Scene, margin: float) -> tuple[float, tuple[int, ...] | N
     path = scene.paths[0]
     T_base_tool = invert_transform(scene.T_world_base) @ path.T_world_tool
     result = solve_ik_all(
-        scene.robot, T_base_tool, T_flange_tool=scene.T_flange_tool, all_turns=True
+        scene.robot, T_base_tool, T_flange_tool=scene.T_flange_tool, all_revolutions=True
     )
     layers = [
         np.array([q for q in result.q[w, result.valid[w]] if waypoint_oracle(scene, q, margin)])
@@ -335,11 +335,11 @@ def test_chosen_sequence_passes_the_path_check(demo: Scene) -> None:
 def test_revolutions_follow_the_ik_count() -> None:
     scene = arm_cell([])
     T = fk_tool(scene.robot, np.radians([[10.0, 20.0, -30.0, 15.0, 40.0, 5.0]]))
-    result = solve_ik_all(scene.robot, T, all_turns=True)
+    result = solve_ik_all(scene.robot, T, all_revolutions=True)
     valid = result.valid[0]
     # reference: the IK result's own revolution counts (posebridge.kinematics.ik_types rule)
-    assert np.array_equal(revolutions_of(scene, result.q[0, valid]), result.turns[0, valid])
-    assert np.any(result.turns[0, valid] != 0)  # source: j4 and j6 reach past +-180 deg here
+    assert np.array_equal(revolutions_of(scene, result.q[0, valid]), result.revolutions[0, valid])
+    assert np.any(result.revolutions[0, valid] != 0)  # source: j4 and j6 reach past +-180 deg here
 
 
 def test_bad_candidates_are_refused(demo: Scene) -> None:

@@ -411,7 +411,7 @@ def ik_candidates(
     if cartesian.size:
         T_base_tool = invert_transform(scene.T_world_base) @ resolved.T_world_tool[cartesian]
         result = ik_solver(robot).solve(
-            T_base_tool, T_flange_tool=scene.T_flange_tool, all_turns=True
+            T_base_tool, T_flange_tool=scene.T_flange_tool, all_revolutions=True
         )
         for row, w in enumerate(cartesian.tolist()):
             raw[w] = result.q[row, result.valid[row]]
@@ -544,7 +544,7 @@ def _track_batch(
     tracked : array, shape (Ka, S, n)
     """
     T_base_tool = invert_transform(scene.T_world_base) @ T_world
-    result = solver.solve(T_base_tool, T_flange_tool=scene.T_flange_tool, all_turns=True)
+    result = solver.solve(T_base_tool, T_flange_tool=scene.T_flange_tool, all_revolutions=True)
     allowed = np.ascontiguousarray(result.valid & result.within_limits)
     Ka, S = q_a.shape[0], T_world.shape[0]
     choice = np.empty((Ka, S), dtype=np.int64)
