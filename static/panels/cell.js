@@ -136,8 +136,10 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
       info.textContent = "No cell.";
       return;
     }
-    const where = cell.path ? `file ${cell.path}` : "bundled demo cell, edits kept in memory";
+    // the file's name only; its folder (the owner's) is a tooltip for the owner
+    const where = cell.file_name ? `file ${cell.file_name}` : "bundled demo cell, edits kept in memory";
     info.textContent = `${cell.cell.title || "Cell"} — ${where}`;
+    info.title = cell.path || "";
     saveState.textContent = cellSave.message || "saved";
     saveState.dataset.state = cellSave.state;
     back.hidden = cellActive;

@@ -33,7 +33,7 @@ def make_app() -> Callable[..., FastAPI]:
 async def client(make_app: Callable[..., FastAPI]) -> AsyncIterator[httpx.AsyncClient]:
     """A client of a fresh app with default settings."""
     transport = httpx.ASGITransport(app=make_app())
-    async with httpx.AsyncClient(transport=transport, base_url="http://testserver") as session:
+    async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as session:
         yield session
 
 

@@ -54,7 +54,7 @@ async def file_app(make_app: Callable[..., FastAPI], cell_file: Path) -> FastAPI
 
 
 def _client(app: FastAPI) -> httpx.AsyncClient:
-    return httpx.AsyncClient(transport=httpx.ASGITransport(app=app), base_url="http://testserver")
+    return httpx.AsyncClient(transport=httpx.ASGITransport(app=app), base_url="http://127.0.0.1")
 
 
 @pytest.fixture

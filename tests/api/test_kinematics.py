@@ -109,7 +109,7 @@ def test_compute_fk_planar2r_property(t1: float, t2: float) -> None:
 
     async def run() -> httpx.Response:
         transport = httpx.ASGITransport(app=create_app(Settings(warm_up=False)))
-        async with httpx.AsyncClient(transport=transport, base_url="http://testserver") as session:
+        async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as session:
             return await session.post(
                 "/api/fk", json={"robot": "pb-planar2r", "joints_deg": [t1, t2]}
             )

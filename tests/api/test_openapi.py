@@ -17,7 +17,8 @@ from posebridge.api.app import create_app
 from posebridge.api.settings import Settings
 
 schema = schemathesis.openapi.from_asgi(
-    "/openapi.json", create_app(Settings(warm_up=False, robot_paths_allowed=False))
+    "/openapi.json",
+    create_app(Settings(warm_up=False, robot_paths_allowed=False, host_names=("testserver",))),
 )
 
 

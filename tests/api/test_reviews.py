@@ -66,7 +66,8 @@ def token() -> str:
 
 @pytest.fixture
 def shared_app(cell_file: Path, token: str) -> FastAPI:
-    app = create_app(Settings(warm_up=False, cell_path=cell_file))
+    # shared as `serve --share --host 192.0.2.7`
+    app = create_app(Settings(warm_up=False, cell_path=cell_file, host_names=("192.0.2.7",)))
     enable_review_sharing(app, token)
     return app
 
@@ -273,11 +274,21 @@ async def test_replace_cell_owner_allowed_when_shared(
     assert "changed by the owner" in cell_file.read_text()
 
 
+@pytest.mark.parametrize("host", ["attacker.example:8000", ""])
+async def test_loopback_with_foreign_host_is_refused(
+    shared_app: FastAPI, clients: ClientFactory, host: str
+) -> None:
+    # a page of another site whose name resolves to 127.0.0.1 (DNS rebinding) is refused
+    # whatever its role would be; before, it was only not the owner (401)
+    local = clients(shared_app, client=("127.0.0.1", 5000), base_url=OWNER_URL)
+    response = await local.get("/api/cell", headers={"Host": host})
+    assert response.status_code == 400
+    assert response.json()["detail"].startswith(f"Host: {host!r} is not a name this server")
+
+
 @pytest.mark.parametrize(
     "headers",
     [
-        {"Host": "attacker.example:8000"},
-        {"Host": ""},
         {"X-Forwarded-For": "203.0.113.9"},
         {"Forwarded": "for=203.0.113.9"},
     ],
@@ -422,7 +433,7 @@ async def test_resolve_unknown_comment(shared_app: FastAPI, clients: ClientFacto
 async def test_comments_persist_across_app_restarts(
     cell_file: Path, token: str, clients: ClientFactory
 ) -> None:
-    first = create_app(Settings(warm_up=False, cell_path=cell_file))
+    first = create_app(Settings(warm_up=False, cell_path=cell_file, host_names=("192.0.2.7",)))
     enable_review_sharing(first, token)
     added = await clients(first, headers=_bearer(token)).post(
         "/api/reviews/comments", json=_comment({"kind": "target", "target": "rack-low-1"})

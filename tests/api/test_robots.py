@@ -38,7 +38,7 @@ async def test_list_robots(client: httpx.AsyncClient) -> None:
 
 async def test_list_robots_default_from_settings(make_app: Callable[..., FastAPI]) -> None:
     transport = httpx.ASGITransport(app=make_app(robot="pb-planar2r"))
-    async with httpx.AsyncClient(transport=transport, base_url="http://testserver") as session:
+    async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as session:
         response = await session.get("/api/robots")
     assert response.status_code == 200
     assert response.json()["default_robot"] == "pb-planar2r"
@@ -97,7 +97,7 @@ async def test_read_robot_model_missing_file(client: httpx.AsyncClient, tmp_path
     path = tmp_path / "absent.toml"
     response = await client.get("/api/robots/model", params={"robot": str(path)})
     assert response.status_code == 422
-    assert response.json() == {"detail": f"{path}: no such robot file"}
+    assert response.json() == {"detail": f"robot: {str(path)!r}: no such robot file"}
 
 
 async def test_read_robot_model_from_path(client: httpx.AsyncClient) -> None:
@@ -115,12 +115,13 @@ async def test_read_robot_model_from_path(client: httpx.AsyncClient) -> None:
 async def test_read_robot_model_path_not_allowed(make_app: Callable[..., FastAPI]) -> None:
     transport = httpx.ASGITransport(app=make_app(robot_paths_allowed=False))
     path = str(data_folder("robots") / "pb-arm6.toml")
-    async with httpx.AsyncClient(transport=transport, base_url="http://testserver") as session:
+    async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as session:
         response = await session.get("/api/robots/model", params={"robot": path})
     assert response.status_code == 403
+    names = ", ".join(sorted(p.stem for p in data_folder("robots").glob("*.toml")))
     assert response.json() == {
-        "detail": "robot: file paths are not accepted by this server, give a bundled robot "
-        f"name (got {path!r})"
+        "detail": f"robot: this server serves only its robots by name ({names}); file paths "
+        f"are not accepted (got {path!r})"
     }
 
 

@@ -20,7 +20,9 @@ from fastapi.templating import Jinja2Templates
 from posebridge.api.auth import install_review_access
 from posebridge.api.cell_store import CellStore
 from posebridge.api.errors import install_error_handlers
+from posebridge.api.guard import RequestGuardMiddleware, content_security_policy
 from posebridge.api.jobs import JobManager
+from posebridge.api.plotly_assets import plotly_assets
 from posebridge.api.robot_cache import RobotCache
 from posebridge.api.routes import (
     cells,
@@ -58,7 +60,7 @@ def plotly_script_path() -> Path:
 def _warm_up(cache: RobotCache, robot_spec: str, cells: CellStore) -> None:
     """Run FK, IK, a tiny joint map and the target check once, so numba kernels are loaded
     before the first request."""
-    for robot in (cache.get(robot_spec), cells.read().scene.robot):
+    for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
         q = robot.home_configuration()[None, :]
         fk_result(robot, q)
         ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
@@ -126,6 +128,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     install_error_handlers(app)
     _limit_request_size(app, settings.max_request_bytes)
     install_review_access(app)
+    # added last, so it runs first: Host, Origin and body type before any role is decided
+    app.add_middleware(RequestGuardMiddleware, dashboard=app)
     routers = [
         health.router,
         robots.router,
@@ -142,18 +146,32 @@ def create_app(settings: Settings | None = None) -> FastAPI:
 
     templates = Jinja2Templates(directory=data_folder("templates"))
     plotly_script = plotly_script_path()
+    plotly = plotly_assets(plotly_script)
+    app.state.content_security_policy = content_security_policy(plotly.style_attribute_hashes)
     app.mount("/static", StaticFiles(directory=data_folder("static")), name="static")
 
     @app.get("/vendor/plotly.min.js", include_in_schema=False)
     def plotly_js() -> FileResponse:
         return FileResponse(plotly_script, media_type="text/javascript")
 
+    @app.get("/vendor/plotly.css", include_in_schema=False)
+    def plotly_css() -> Response:
+        return Response(plotly.global_css, media_type="text/css")
+
+    @app.get("/vendor/plotly-bundled.css", include_in_schema=False)
+    def plotly_bundled_css() -> Response:
+        return Response(plotly.bundled_css, media_type="text/css")
+
     @app.get("/", include_in_schema=False, response_class=HTMLResponse)
     def page(request: Request) -> HTMLResponse:
         return templates.TemplateResponse(
             request,
             "index.html",
-            {"default_robot": settings.robot, "version": app.version},
+            {
+                "default_robot": settings.robot,
+                "version": app.version,
+                "plotly_bundled_style_id": plotly.bundled_style_id,
+            },
         )
 
     return app

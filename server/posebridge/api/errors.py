@@ -7,7 +7,9 @@ the command line can show them as they are.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+import os
+from collections.abc import Mapping, Sequence
+from pathlib import Path
 from typing import Any
 
 from fastapi import FastAPI, Request
@@ -19,11 +21,12 @@ from posebridge.api.robot_cache import RobotPathNotAllowedError
 from posebridge.cell.joint_log import JointLogError
 from posebridge.cell.model import CellFileError
 from posebridge.kinematics.fk import KinematicsInputError
+from posebridge.messages import printable
 from posebridge.planning.errors import PlanningInputError
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.transforms import TransformError
 
-__all__ = ["install_error_handlers", "validation_message"]
+__all__ = ["install_error_handlers", "public_detail", "validation_message"]
 
 
 def _field_path(location: Sequence[int | str]) -> str:
@@ -44,48 +47,76 @@ def validation_message(errors: Sequence[dict[str, Any]]) -> str:
     return "; ".join(f"{_field_path(error['loc'])}: {error['msg']}" for error in errors)
 
 
-def _json_error(status: int, detail: str) -> JSONResponse:
-    return JSONResponse(status_code=status, content={"detail": detail})
+def _owner_folders(request: Request) -> list[str]:
+    """Folders of the serving machine that a reviewer must not learn: the cell file's
+    folder (as given and resolved) and the home folder, longest first."""
+    folders = {str(Path.home())}
+    cell_path = request.app.state.settings.cell_path
+    if cell_path is not None:
+        folders.add(str(Path(cell_path).absolute().parent))
+        folders.add(str(Path(cell_path).resolve().parent))
+    return sorted((f for f in folders if f not in ("", "/")), key=len, reverse=True)
 
 
-async def _on_validation(_: Request, error: Exception) -> JSONResponse:
-    assert isinstance(error, RequestValidationError)
-    return _json_error(422, validation_message(error.errors()))
+def public_detail(request: Request, detail: str) -> str:
+    """An error message as the asker may see it: control characters escaped
+    (:func:`posebridge.messages.printable`) and, for a reviewer, the owner's folders
+    left out of file paths (``/home/ana/cells/press.json`` -> ``press.json``)."""
+    if getattr(request.state, "review_role", "reviewer") != "owner":
+        for folder in _owner_folders(request):
+            detail = detail.replace(folder + os.sep, "").replace(folder, "(folder)")
+    return printable(detail)
 
 
-async def _on_http(_: Request, error: Exception) -> JSONResponse:
-    assert isinstance(error, StarletteHTTPException)
+def _json_error(
+    request: Request, status: int, detail: str, headers: Mapping[str, str] | None = None
+) -> JSONResponse:
     return JSONResponse(
-        status_code=error.status_code,
-        content={"detail": str(error.detail)},
-        headers=error.headers,
+        status_code=status,
+        content={"detail": public_detail(request, detail)},
+        headers=None if headers is None else dict(headers),
     )
 
 
-async def _on_bad_input(_: Request, error: Exception) -> JSONResponse:
-    return _json_error(422, str(error))
+async def _on_validation(request: Request, error: Exception) -> JSONResponse:
+    assert isinstance(error, RequestValidationError)
+    return _json_error(request, 422, validation_message(error.errors()))
 
 
-async def _on_cell_file(_: Request, error: Exception) -> JSONResponse:
+async def _on_http(request: Request, error: Exception) -> JSONResponse:
+    assert isinstance(error, StarletteHTTPException)
+    return _json_error(request, error.status_code, str(error.detail), error.headers)
+
+
+async def _on_bad_input(request: Request, error: Exception) -> JSONResponse:
+    return _json_error(request, 422, str(error))
+
+
+async def _on_robot_description(request: Request, error: Exception) -> JSONResponse:
+    assert isinstance(error, RobotDescriptionError)
+    return _json_error(request, 422, "; ".join(error.problems))
+
+
+async def _on_cell_file(request: Request, error: Exception) -> JSONResponse:
     assert isinstance(error, CellFileError)
     prefix = f"{error.source}: " if error.source else ""
-    return _json_error(422, prefix + "; ".join(error.problems))
+    return _json_error(request, 422, prefix + "; ".join(error.problems))
 
 
-async def _on_not_allowed(_: Request, error: Exception) -> JSONResponse:
-    return _json_error(403, str(error))
+async def _on_not_allowed(request: Request, error: Exception) -> JSONResponse:
+    return _json_error(request, 403, str(error))
 
 
-async def _on_unexpected(_: Request, error: Exception) -> JSONResponse:
-    return _json_error(500, f"internal error ({type(error).__name__}); see the server log")
+async def _on_unexpected(request: Request, error: Exception) -> JSONResponse:
+    return _json_error(request, 500, f"internal error ({type(error).__name__}); see the server log")
 
 
 def install_error_handlers(app: FastAPI) -> None:
     """Register the JSON error handlers on ``app``."""
     app.add_exception_handler(RequestValidationError, _on_validation)
     app.add_exception_handler(StarletteHTTPException, _on_http)
+    app.add_exception_handler(RobotDescriptionError, _on_robot_description)
     for bad_input in (
-        RobotDescriptionError,
         KinematicsInputError,
         TransformError,
         JointLogError,

@@ -15,6 +15,7 @@ import threading
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
+from typing import Any
 
 import uvicorn
 
@@ -23,7 +24,14 @@ from posebridge.api.auth import enable_review_sharing
 from posebridge.api.settings import Settings
 from posebridge.review.access import new_review_token, review_link
 
-__all__ = ["ServerConfigError", "background_server", "check_host", "is_loopback", "run_server"]
+__all__ = [
+    "ServerConfigError",
+    "background_server",
+    "check_host",
+    "host_settings",
+    "is_loopback",
+    "run_server",
+]
 
 _START_TIMEOUT_S = 60.0
 
@@ -83,6 +91,17 @@ def _review_base_url(host: str, sock: socket.socket) -> str:
     return _url(host, sock)
 
 
+def host_settings(host: str) -> dict[str, Any]:
+    """The ``host_names`` and ``ip_hosts`` settings of a server bound to ``host``: the
+    bound name itself, and for every interface (``0.0.0.0``, ``::``) the machine's names
+    and any IP address (:mod:`posebridge.api.guard`)."""
+    bare = host.strip("[]").lower()
+    if bare in ("0.0.0.0", "::", ""):
+        names = {socket.gethostname().lower(), socket.getfqdn().lower()}
+        return {"host_names": tuple(sorted(names)), "ip_hosts": True}
+    return {"host_names": (bare,), "ip_hosts": False}
+
+
 def check_host(host: str, *, share: bool) -> None:
     """Refuse a non-loopback ``host`` unless the dashboard is shared on purpose.
 
@@ -134,7 +153,9 @@ def run_server(
     check_host(host, share=share)
     if cell_path is not None and not Path(cell_path).is_file():
         raise ServerConfigError(f"cell: no such file {str(cell_path)!r}")
-    settings = Settings(robot=robot, cell_path=cell_path, robot_paths_allowed=not share)
+    settings = Settings(
+        robot=robot, cell_path=cell_path, robot_paths_allowed=not share, **host_settings(host)
+    )
     review_token = new_review_token() if share else None
     sock = _bind(host, port)
     print(

@@ -30,6 +30,14 @@ class Settings(BaseModel):
     max_request_bytes : int
         Largest request body accepted (HTTP 413 beyond); a cell file may be
         up to 20 MB.
+    host_names : tuple of str
+        Names the ``Host`` header may give besides ``127.0.0.1``,
+        ``localhost`` and ``[::1]``: the address the server was started on
+        (``--host``), and the machine's names when shared on every interface
+        (:mod:`posebridge.api.guard`).
+    ip_hosts : bool
+        Also accept any IP address as the ``Host`` (a server shared on every
+        interface, ``0.0.0.0`` or ``::``).
     """
 
     model_config = ConfigDict(frozen=True, extra="forbid")
@@ -40,6 +48,8 @@ class Settings(BaseModel):
     robot_paths_allowed: bool = True
     warm_up: bool = True
     max_request_bytes: int = Field(default=21_000_000, ge=1_000, le=1_000_000_000)
+    host_names: tuple[str, ...] = Field(default=(), max_length=16)
+    ip_hosts: bool = False
 
 
 @cache

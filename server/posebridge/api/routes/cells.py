@@ -13,6 +13,7 @@ from typing import Annotated
 
 from fastapi import APIRouter, Header, HTTPException, Path, Response
 
+from posebridge.api.auth import ReviewRoleDep, Role
 from posebridge.api.cell_store import CellSnapshot
 from posebridge.api.deps import CellsDep, RobotsDep
 from posebridge.api.robot_cache import RobotCache
@@ -56,18 +57,19 @@ _CHANGE_ERRORS = error_responses(404, 412, 422, 428)
 
 
 def cell_robot_spec(snapshot: CellSnapshot, robots: RobotCache) -> str:
-    """Robot name for the kinematics routes: the bundled name, else the cell's robot pinned in the cache."""
+    """Robot name for the kinematics routes (the bundled name, else ``cell:<robot name>``),
+    under which the cache serves the cell's robot to every asker."""
     source = snapshot.cell.robot
-    if source.name is not None:
-        return source.name
-    spec = f"cell:{snapshot.scene.robot.name}"
+    spec = source.name if source.name is not None else f"cell:{snapshot.scene.robot.name}"
     robots.pin(spec, snapshot.scene.robot)
     return spec
 
 
-def _answer(snapshot: CellSnapshot, robots: RobotCache, response: Response) -> CellDocument:
+def _answer(
+    snapshot: CellSnapshot, robots: RobotCache, response: Response, role: Role
+) -> CellDocument:
     response.headers["ETag"] = f'"{snapshot.etag}"'
-    return cell_document(snapshot, cell_robot_spec(snapshot, robots))
+    return cell_document(snapshot, cell_robot_spec(snapshot, robots), owner=role == "owner")
 
 
 def _expected_etag(if_match: str | None) -> str:
@@ -105,13 +107,15 @@ def _saved(
         snapshot = save()
     except CellConflictError as error:
         raise _conflict(error) from error
-    return _answer(snapshot, robots, response)
+    return _answer(snapshot, robots, response, "owner")  # only the owner changes the cell
 
 
 @router.get("", summary="Read the cell", responses=error_responses(422))
-def read_cell(cells: CellsDep, robots: RobotsDep, response: Response) -> CellDocument:
+def read_cell(
+    cells: CellsDep, robots: RobotsDep, response: Response, role: ReviewRoleDep
+) -> CellDocument:
     """The cell file content, its content version (also the ETag header) and its drawing."""
-    return _answer(cells.read(), robots, response)
+    return _answer(cells.read(), robots, response, role)
 
 
 @router.put("", summary="Replace the cell", responses=error_responses(412, 422, 428))

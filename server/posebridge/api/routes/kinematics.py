@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from fastapi import APIRouter
 
+from posebridge.api.auth import ReviewRoleDep
 from posebridge.api.deps import RobotsDep
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import (
@@ -26,9 +27,9 @@ router = APIRouter(prefix="/api", tags=["kinematics"])
 
 
 @router.post("/fk", summary="Forward kinematics", responses=error_responses(403, 422))
-def compute_fk(request: FkRequest, robots: RobotsDep) -> FkResult:
+def compute_fk(request: FkRequest, robots: RobotsDep, role: ReviewRoleDep) -> FkResult:
     """TCP pose, manipulability, limit margins and drawing geometry per joint configuration."""
-    robot = robots.get(request.robot)
+    robot = robots.get(request.robot, paths_allowed=role == "owner")
     q = joints_si_from_request(robot, request.joints_deg)
     return fk_result(
         robot,
@@ -40,9 +41,9 @@ def compute_fk(request: FkRequest, robots: RobotsDep) -> FkResult:
 
 
 @router.post("/ik", summary="Inverse kinematics", responses=error_responses(403, 422))
-def compute_ik(request: IkRequest, robots: RobotsDep) -> IkResult:
+def compute_ik(request: IkRequest, robots: RobotsDep, role: ReviewRoleDep) -> IkResult:
     """Every solution of one tool pose on every arm branch, or the reason there is none."""
-    robot = robots.get(request.robot)
+    robot = robots.get(request.robot, paths_allowed=role == "owner")
     T_flange_tool = tool_transform(request.tool)
     seed = (
         None

@@ -6,6 +6,7 @@ from typing import Annotated
 
 from fastapi import APIRouter, Query
 
+from posebridge.api.auth import ReviewRoleDep
 from posebridge.api.deps import RobotsDep, SettingsDep
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.robots import (
@@ -33,10 +34,11 @@ def list_robots(settings: SettingsDep) -> RobotList:
 @router.get("/model", summary="Describe one robot", responses=error_responses(403, 422))
 def read_robot_model(
     robots: RobotsDep,
+    role: ReviewRoleDep,
     robot: Annotated[
         str,
         Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
     ],
 ) -> RobotDescriptionResult:
     """Joints with limits and units, default tool, home configuration and drawing bounds."""
-    return robot_description_result(robots.get(robot), robot)
+    return robot_description_result(robots.get(robot, paths_allowed=role == "owner"), robot)

@@ -157,7 +157,13 @@ class CellDocument(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     etag: str = Field(description="Content version; send it as If-Match with every change.")
-    path: str | None = Field(description="The cell file; null for the in-memory demo cell.")
+    path: str | None = Field(
+        description="The cell file's full path, for the owner only; null for reviewers and for "
+        "the in-memory demo cell."
+    )
+    file_name: str | None = Field(
+        description="The cell file's name without its folder; null for the in-memory demo cell."
+    )
     saved_to_file: bool = Field(description="Changes are saved to the file (else kept in memory).")
     robot: str = Field(description="Robot name to use with /api/fk, /api/ik and /api/robots/model.")
     cell: Cell
@@ -330,11 +336,13 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
     )
 
 
-def cell_document(snapshot: CellSnapshot, robot_spec: str) -> CellDocument:
-    """The answer of the cell routes for one content version."""
+def cell_document(snapshot: CellSnapshot, robot_spec: str, *, owner: bool) -> CellDocument:
+    """The answer of the cell routes for one content version; the file's full path only
+    for the ``owner`` (reviewers see its name)."""
     return CellDocument(
         etag=snapshot.etag,
-        path=None if snapshot.path is None else str(snapshot.path),
+        path=None if snapshot.path is None or not owner else str(snapshot.path),
+        file_name=None if snapshot.path is None else snapshot.path.name,
         saved_to_file=snapshot.path is not None,
         robot=robot_spec,
         cell=snapshot.cell,
