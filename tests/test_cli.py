@@ -233,6 +233,26 @@ def test_diagnose_log_finds_the_velocity_jump(capsys: pytest.CaptureFixture[str]
     assert [j["row"] for j in result["velocity"]["jumps"]] == [int(r) + 1 for r in jump_rows]
 
 
+def test_diagnose_log_with_bare_cr_lines(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    # exit 3 (internal error) before: the csv module saw one line with CRs inside
+    log = tmp_path / "cr.csv"
+    log.write_bytes(Path(DEMO_LOG).read_bytes().replace(b"\r\n", b"\n").replace(b"\n", b"\r"))
+    code, result = run_json(capsys, "diagnose", DEMO_CELL, "--log", str(log))
+    code_lf, result_lf = run_json(capsys, "diagnose", DEMO_CELL, "--log", DEMO_LOG)
+    assert (code, result["row_count"]) == (code_lf, result_lf["row_count"])
+
+
+def test_bad_input_line_escapes_control_characters(
+    capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    missing = tmp_path / "run\x1b[2J.csv"  # a terminal would clear the screen on this name
+    code, _, err = run(capsys, "diagnose", DEMO_CELL, "--log", str(missing))
+    assert code == 2
+    assert "\x1b" not in err and "run\\x1b[2J.csv: cannot read" in err
+
+
 def test_paths_report_the_demo_collision(capsys: pytest.CaptureFixture[str]) -> None:
     code, reports = run_json(capsys, "paths", DEMO_CELL, "unload-to-conveyor")
     assert code == 1

@@ -20,6 +20,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from posebridge.messages import printable
 from posebridge.units import FloatArray, joints_si_from_user
 
 if TYPE_CHECKING:
@@ -840,7 +841,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     try:
         return run(args)
     except _input_error_types() as error:
-        problems = [line.strip() for line in str(error).splitlines() if line.strip()]
+        problems = [printable(line.strip()) for line in str(error).splitlines() if line.strip()]
         print(
             f"posebridge {args.command}: {'; '.join(problems) or type(error).__name__}",
             file=sys.stderr,

@@ -20,6 +20,7 @@ from fastapi import FastAPI
 from scipy.spatial.transform import Rotation
 
 from posebridge.cell.files import backup_path, cell_etag, load_cell
+from posebridge.cell.model import CellFileError
 from posebridge.resources import data_folder
 
 pytestmark = pytest.mark.anyio
@@ -445,3 +446,39 @@ async def test_move_fixture_world_frame(file_client: httpx.AsyncClient, cell_fil
         f for f in json.loads(cell_file.read_text())["fixtures"] if f["name"] == "gauge-anvil"
     )
     assert kept["rpy_deg"] == anvil["rpy_deg"]
+
+
+async def test_replace_cell_duplicate_key_refused_as_in_files(
+    file_client: httpx.AsyncClient, cell_file: Path, tmp_path: Path
+) -> None:
+    # RFC 8259 sec. 4: names SHOULD be unique; a cell file with a repeated key is refused,
+    # so the same text over HTTP is refused too (it was saved with the last value before)
+    document = (await file_client.get("/api/cell")).json()
+    text = json.dumps(document["cell"])
+    doubled = text.replace('"title": ', '"title": "first", "title": ', 1)
+    before = cell_file.read_bytes()
+    response = await file_client.put(
+        "/api/cell",
+        content=doubled.encode(),
+        headers={"If-Match": document["etag"], "Content-Type": "application/json"},
+    )
+    assert response.status_code == 422
+    assert response.json() == {
+        "detail": "request body: not valid JSON: duplicate key 'title' in one object"
+    }
+    assert cell_file.read_bytes() == before
+    on_disk = tmp_path / "doubled.json"
+    on_disk.write_text(doubled)
+    with pytest.raises(CellFileError, match="not valid JSON: duplicate key 'title' in one object"):
+        load_cell(on_disk)
+
+
+async def test_move_target_duplicate_nested_key_refused(file_client: httpx.AsyncClient) -> None:
+    etag = (await file_client.get("/api/cell")).json()["etag"]
+    response = await file_client.patch(
+        "/api/cell/targets/rack-low-1",
+        content=b'{"position_mm": [1, 2, 3], "frame": "world", "frame": "fixture"}',
+        headers={"If-Match": etag, "Content-Type": "application/json"},
+    )
+    assert response.status_code == 422
+    assert response.json()["detail"].endswith("duplicate key 'frame' in one object")

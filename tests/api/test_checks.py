@@ -16,6 +16,7 @@ import httpx
 import numpy as np
 import pytest
 
+from posebridge.api.routes import checks as checks_routes
 from posebridge.api.schemas.checks import MAX_LOG_ROWS, MAX_PLACEMENT_CANDIDATES
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.diagnosis import diagnose_log
@@ -113,9 +114,54 @@ async def test_diagnose_log_too_long(client: httpx.AsyncClient) -> None:
     text = "j1,j2,j3,j4,j5,j6\n" + "0,0,0,0,0,0\n" * (MAX_LOG_ROWS + 5)
     response = await client.post("/api/cell/diagnose/log", json={"csv": text})
     assert response.status_code == 413
+    # rows are counted as parsed: the first row beyond the cap is on line cap + 2
     assert response.json()["detail"] == (
-        f"csv: {MAX_LOG_ROWS + 6} lines, more than the {MAX_LOG_ROWS} rows diagnosed per request"
+        f"csv: pasted log: line {MAX_LOG_ROWS + 2}: more than {MAX_LOG_ROWS} data rows (the "
+        f"limit); split the log into parts of at most {MAX_LOG_ROWS} rows"
     )
+
+
+@pytest.mark.parametrize("newline", ["\r", "\r\n", "\n"])
+async def test_diagnose_log_any_newline(client: httpx.AsyncClient, newline: str) -> None:
+    # bare CR gave a 500 before: the csv module was fed one line with CRs inside it
+    rows = ["j1,j2,j3,j4,j5,j6", "0,-20,20,0,90,0", "", "5,-20,20,0,90,0", "10,-20,20,0,90,0"]
+    response = await client.post(
+        "/api/cell/diagnose/log", json={"csv": newline.join(rows) + newline}
+    )
+    assert response.status_code == 200
+    body = response.json()
+    assert body["row_count"] == 3  # common practice, no source: blank lines carry no row
+    assert body["rows"]["line"] == [2, 4, 5]
+
+
+async def test_diagnose_log_cap_counts_parsed_rows(
+    client: httpx.AsyncClient, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    monkeypatch.setattr(checks_routes, "MAX_LOG_ROWS", 4)
+    header, row = "j1,j2,j3,j4,j5,j6", "0,-20,20,0,90,0"
+    mixed = header + "\r" + "\r".join([row] * 3) + "\r\n" + "\n" * 1000 + row + "\r"
+    accepted = await client.post("/api/cell/diagnose/log", json={"csv": mixed})
+    assert accepted.status_code == 200
+    assert accepted.json()["row_count"] == 4
+    too_many = await client.post("/api/cell/diagnose/log", json={"csv": mixed + row + "\r"})
+    assert too_many.status_code == 413
+    cr_only = header + "\r" + "\r".join([row] * 60)
+    refused = await client.post("/api/cell/diagnose/log", json={"csv": cr_only})
+    assert refused.status_code == 413
+    assert refused.json()["detail"].startswith("csv: pasted log: line 6: more than 4 data rows")
+
+
+async def test_diagnose_log_error_escapes_control_characters(client: httpx.AsyncClient) -> None:
+    text = "j1,j2,j3,j4,j5,j6\n0,0,0,0,0,\x00\x1b[31m\n"
+    response = await client.post(
+        "/api/cell/diagnose/log", json={"csv": text, "source": "run\x00\u2028.csv"}
+    )
+    assert response.status_code == 422
+    detail = response.json()["detail"]
+    assert detail == (
+        "run\\x00\\u2028.csv: line 2, column 6 (j6): expected a number, got '\\x00\\x1b[31m'"
+    )
+    assert not any(ord(c) < 32 or 0x7F <= ord(c) <= 0x9F for c in detail)
 
 
 async def test_diagnose_log_bad_header(client: httpx.AsyncClient) -> None:

@@ -15,7 +15,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from posebridge.cell import joint_log
-from posebridge.cell.joint_log import JointLogError, parse_joint_log, read_joint_log
+from posebridge.cell.joint_log import (
+    JointLogError,
+    JointLogTooLongError,
+    parse_joint_log,
+    read_joint_log,
+)
 from posebridge.resources import data_folder
 
 DEMO_LOG = data_folder("robots") / "demo-log.csv"
@@ -120,6 +125,39 @@ def test_row_cap(arm, monkeypatch) -> None:
     with pytest.raises(JointLogError) as error:
         parse_joint_log(text, arm, source="big.csv")
     assert str(error.value) == "big.csv: line 4: more than 2 data rows (the limit)"
+
+
+@pytest.mark.parametrize("newline", ["\n", "\r\n", "\r"])
+def test_every_newline_convention(arm, newline: str) -> None:
+    # the reference: Python's csv module on the same rows split by hand
+    rows = [["0", "1", "2", "3", "4", "5", "6"], ["0.5", "6", "5", "4", "3", "2", "1"]]
+    text = newline.join([HEADER.strip(), *(",".join(r) for r in rows), "", ""])
+    log = parse_joint_log(text, arm)
+    expected = np.radians(np.array([r[1:] for r in rows], dtype=float))  # closed form
+    np.testing.assert_allclose(log.q, expected)
+    assert log.line.tolist() == [2, 3]
+
+
+def test_mixed_newlines_and_cap_counted_after_parsing(arm) -> None:
+    text = HEADER.strip() + "\r" + "0,1,2,3,4,5,6\r\n\n\n1,1,2,3,4,5,6\r2,1,2,3,4,5,6\n"
+    log = parse_joint_log(text, arm, max_rows=3)
+    assert log.line.tolist() == [2, 5, 6]  # blank lines 3 and 4 are not rows
+    with pytest.raises(JointLogTooLongError) as error:
+        parse_joint_log(text + "3,1,2,3,4,5,6\r", arm, max_rows=3, source="cr.csv")
+    assert str(error.value) == "cr.csv: line 7: more than 3 data rows (the limit)"
+
+
+def test_csv_module_error_names_the_line(arm) -> None:
+    text = HEADER + "0,1,2,3,4,5," + "6" * 200_000 + "\n"
+    with pytest.raises(JointLogError) as error:
+        parse_joint_log(text, arm, source="wide.csv")
+    assert str(error.value).startswith("wide.csv: line 2: not readable as CSV (field larger")
+
+
+def test_control_characters_escaped_in_messages(arm) -> None:
+    with pytest.raises(JointLogError) as error:
+        parse_joint_log(HEADER + "0,1,2,3,4,5,6,7\n", arm, source="a\x00b\x1b.csv")
+    assert str(error.value).startswith("a\\x00b\\x1b.csv: line 2: expected 7 values")
 
 
 def test_file_errors(arm, tmp_path, monkeypatch) -> None:

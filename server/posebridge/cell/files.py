@@ -38,17 +38,20 @@ from posebridge.cell.model import (
     json_type_name,
     validate_cell,
 )
+from posebridge.messages import printable
 
 __all__ = [
     "MAX_CELL_FILE_BYTES",
     "MIGRATIONS",
     "CellConflictError",
+    "DuplicateJsonKeyError",
     "backup_path",
     "cell_etag",
     "cell_json",
     "load_cell",
     "migrate_cell_data",
     "parse_cell_json",
+    "refuse_duplicate_keys",
     "save_cell",
 ]
 
@@ -142,11 +145,25 @@ def migrate_cell_data(
     return data
 
 
-def _refuse_duplicate_keys(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+class DuplicateJsonKeyError(ValueError):
+    """A JSON object names the same key twice (RFC 8259 sec. 4: names SHOULD be unique;
+    readers disagree on which value wins, so cell content refuses them)."""
+
+
+def refuse_duplicate_keys(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
+    """``object_pairs_hook`` for :func:`json.loads` that refuses a repeated key.
+
+    Used for cell files and for every JSON request body of the server, so the
+    same content is refused in both places.
+
+    Raises
+    ------
+    DuplicateJsonKeyError
+    """
     result: dict[str, Any] = {}
     for key, value in pairs:
         if key in result:
-            raise ValueError(f"duplicate key {key!r} in one object")
+            raise DuplicateJsonKeyError(f"duplicate key {printable(key)!r} in one object")
         result[key] = value
     return result
 
@@ -161,7 +178,7 @@ def parse_cell_json(text: str, *, source: str = "") -> Cell:
         schema version, or any validation problem (with its JSON path).
     """
     try:
-        data = json.loads(text, object_pairs_hook=_refuse_duplicate_keys)
+        data = json.loads(text, object_pairs_hook=refuse_duplicate_keys)
     except json.JSONDecodeError as error:
         raise CellFileError(
             [f"line {error.lineno}, column {error.colno}: not valid JSON: {error.msg}"],

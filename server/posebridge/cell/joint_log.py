@@ -2,8 +2,10 @@
 
 Format (our own, kept plain so any controller export can be massaged into it):
 
-* UTF-8 text, comma-separated, at most :data:`MAX_LOG_BYTES` bytes and
-  :data:`MAX_LOG_ROWS` data rows;
+* UTF-8 text, comma-separated, lines ended by ``\n``, ``\r\n`` or a bare
+  ``\r`` (mixed too), at most :data:`MAX_LOG_BYTES` bytes and
+  :data:`MAX_LOG_ROWS` data rows (counted as parsed, blank lines not
+  counted);
 * line 1 is the header: the robot's joint names, each exactly once, in any
   order, plus an optional ``time_s`` column (seconds);
 * every further non-blank line is one row: finite numbers, degrees for
@@ -11,7 +13,8 @@ Format (our own, kept plain so any controller export can be massaged into it):
   increase strictly from row to row.
 
 Every problem is reported with its line (and column) number:
-``"demo-log.csv: line 7, column 3 (j2): expected a number, got 'abc'"``.
+``"demo-log.csv: line 7, column 3 (j2): expected a number, got 'abc'"``;
+control characters of the file's text in a message are shown escaped.
 """
 
 from __future__ import annotations
@@ -19,12 +22,14 @@ from __future__ import annotations
 import csv
 import io
 import math
+from collections.abc import Iterator
 from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.messages import printable
 from posebridge.robot.model import Robot
 from posebridge.units import FloatArray, joints_si_from_user
 
@@ -34,6 +39,7 @@ __all__ = [
     "TIME_COLUMN",
     "JointLog",
     "JointLogError",
+    "JointLogTooLongError",
     "parse_joint_log",
     "read_joint_log",
 ]
@@ -50,6 +56,10 @@ IntArray = npt.NDArray[np.int64]
 
 class JointLogError(ValueError):
     """A joint log cannot be read; the message names the file, line and column."""
+
+
+class JointLogTooLongError(JointLogError):
+    """A joint log has more data rows than the reader was asked to take."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -123,7 +133,19 @@ def _bad_value(text: str, line: int, column: int, name: str, where: str) -> Join
     return JointLogError(f"{place}: expected a finite number, got {value!r}")
 
 
-def parse_joint_log(text: str, robot: Robot, *, source: str = "") -> JointLog:
+def _records(reader: Iterator[list[str]], where: str) -> Iterator[list[str]]:
+    """The records of a csv reader, its errors (a field over the csv module's size limit)
+    as :class:`JointLogError` naming the line."""
+    try:
+        yield from reader
+    except csv.Error as error:
+        line = getattr(reader, "line_num", 0)
+        raise JointLogError(f"{where}line {line}: not readable as CSV ({error})") from error
+
+
+def parse_joint_log(
+    text: str, robot: Robot, *, source: str = "", max_rows: int | None = None
+) -> JointLog:
     """Read a joint log from CSV text (format in the module docstring).
 
     Parameters
@@ -133,6 +155,9 @@ def parse_joint_log(text: str, robot: Robot, *, source: str = "") -> JointLog:
         Gives the expected joint names and units.
     source : str, keyword-only
         Name used in messages (a file name, or e.g. ``"pasted log"``).
+    max_rows : int, optional, keyword-only
+        Most data rows taken (:data:`MAX_LOG_ROWS` if omitted); reading stops at the
+        first row beyond.
 
     Returns
     -------
@@ -140,15 +165,19 @@ def parse_joint_log(text: str, robot: Robot, *, source: str = "") -> JointLog:
 
     Raises
     ------
+    JointLogTooLongError
+        More than ``max_rows`` data rows.
     JointLogError
         The message names the line and column of the first problem.
     """
-    where = f"{source}: " if source else ""
-    reader = csv.reader(io.StringIO(text.removeprefix("\ufeff")))
+    where = f"{printable(source)}: " if source else ""
+    limit = MAX_LOG_ROWS if max_rows is None else max_rows
+    # newline="": the csv module splits records at \n, \r\n and a bare \r itself
+    reader = csv.reader(io.StringIO(text.removeprefix("\ufeff"), newline=""))
     header: list[str] | None = None
     rows: list[list[str]] = []
     lines: list[int] = []
-    for fields in reader:
+    for fields in _records(reader, where):
         line = reader.line_num
         if not fields or all(not field.strip() for field in fields):
             continue
@@ -161,11 +190,11 @@ def parse_joint_log(text: str, robot: Robot, *, source: str = "") -> JointLog:
         if len(fields) != len(header):
             raise JointLogError(
                 f"{where}line {line}: expected {len(header)} values "
-                f"({', '.join(h.strip() for h in header)}), got {len(fields)}"
+                f"({printable(', '.join(h.strip() for h in header))}), got {len(fields)}"
             )
-        if len(rows) == MAX_LOG_ROWS:
-            raise JointLogError(
-                f"{where}line {line}: more than {MAX_LOG_ROWS} data rows (the limit)"
+        if len(rows) == limit:
+            raise JointLogTooLongError(
+                f"{where}line {line}: more than {limit} data rows (the limit)"
             )
         rows.append(fields)
         lines.append(line)

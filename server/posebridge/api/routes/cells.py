@@ -16,6 +16,7 @@ from fastapi import APIRouter, Header, HTTPException, Path, Response
 from posebridge.api.auth import ReviewRoleDep, Role
 from posebridge.api.cell_store import CellSnapshot
 from posebridge.api.deps import CellsDep, RobotsDep
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.robot_cache import RobotCache
 from posebridge.api.schemas.cells import (
     BaseEdit,
@@ -39,7 +40,7 @@ from posebridge.units import FloatArray, m_from_mm, mm_from_m
 
 __all__ = ["cell_robot_spec", "index_of_named", "router"]
 
-router = APIRouter(prefix="/api/cell", tags=["cell"])
+router = APIRouter(prefix="/api/cell", tags=["cell"], route_class=StrictJsonRoute)
 
 IfMatch = Annotated[
     str | None,

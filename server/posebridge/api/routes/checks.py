@@ -11,6 +11,7 @@ from typing import Annotated
 from fastapi import APIRouter, HTTPException, Path
 
 from posebridge.api.deps import CellsDep
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.routes.cells import index_of_named
 from posebridge.api.schemas.checks import (
     MAX_LOG_ROWS,
@@ -21,14 +22,14 @@ from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import joints_si_from_request
 from posebridge.cell.checks import check_targets
 from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
-from posebridge.cell.joint_log import parse_joint_log
+from posebridge.cell.joint_log import JointLogTooLongError, parse_joint_log
 from posebridge.cell.reports import LogDiagnosis, PoseDiagnosis, TargetCheckReport
 from posebridge.planning.path_check import check_path
 from posebridge.planning.reports import PathCheckReport
 
 __all__ = ["router"]
 
-router = APIRouter(prefix="/api/cell", tags=["checks"])
+router = APIRouter(prefix="/api/cell", tags=["checks"], route_class=StrictJsonRoute)
 
 
 @router.get("/check", summary="Check every target", responses=error_responses(422))
@@ -65,12 +66,12 @@ def diagnose_joint_pose(body: PoseDiagnosisRequest, cells: CellsDep) -> PoseDiag
 def diagnose_joint_log(body: LogDiagnosisRequest, cells: CellsDep) -> LogDiagnosis:
     """Row-by-row values (margins, clearance, manipulability), the worst row, branch changes,
     velocity jumps and findings."""
-    rows = body.csv.count("\n")
-    if rows > MAX_LOG_ROWS + 1:
+    scene = cells.read().scene
+    try:
+        log = parse_joint_log(body.csv, scene.robot, source=body.source, max_rows=MAX_LOG_ROWS)
+    except JointLogTooLongError as error:
         raise HTTPException(
             status_code=413,
-            detail=f"csv: {rows} lines, more than the {MAX_LOG_ROWS} rows diagnosed per request",
-        )
-    scene = cells.read().scene
-    log = parse_joint_log(body.csv, scene.robot, source=body.source)
+            detail=f"csv: {error}; split the log into parts of at most {MAX_LOG_ROWS} rows",
+        ) from error
     return diagnose_log(scene, log)

@@ -6,11 +6,12 @@ from importlib.metadata import version
 
 from fastapi import APIRouter
 
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.health import HealthResult
 
 __all__ = ["router"]
 
-router = APIRouter(prefix="/api/health", tags=["health"])
+router = APIRouter(prefix="/api/health", tags=["health"], route_class=StrictJsonRoute)
 
 
 @router.get("", summary="Server is up")

@@ -8,12 +8,13 @@ from fastapi import APIRouter, HTTPException, Path
 
 from posebridge.api.deps import JobsDep
 from posebridge.api.jobs import Job, JobManager
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.jobs import JobStatus, job_status
 
 __all__ = ["router"]
 
-router = APIRouter(prefix="/api/jobs", tags=["jobs"])
+router = APIRouter(prefix="/api/jobs", tags=["jobs"], route_class=StrictJsonRoute)
 
 JobId = Annotated[str, Path(min_length=1, max_length=64, pattern=r"^[0-9a-f]+$")]
 

@@ -6,6 +6,7 @@ from fastapi import APIRouter
 
 from posebridge.api.auth import ReviewRoleDep
 from posebridge.api.deps import RobotsDep
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import (
     FkRequest,
@@ -23,7 +24,7 @@ from posebridge.kinematics.ik import solve_ik_all
 
 __all__ = ["router"]
 
-router = APIRouter(prefix="/api", tags=["kinematics"])
+router = APIRouter(prefix="/api", tags=["kinematics"], route_class=StrictJsonRoute)
 
 
 @router.post("/fk", summary="Forward kinematics", responses=error_responses(403, 422))

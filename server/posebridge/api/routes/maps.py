@@ -10,6 +10,7 @@ from fastapi import APIRouter, HTTPException, Request
 
 from posebridge.api.deps import CellsDep, JobsDep
 from posebridge.api.jobs import JobLimitError, JobManager, JobWork
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.jobs import JobStatus, job_status
 from posebridge.api.schemas.kinematics import joints_si_from_request
@@ -35,7 +36,7 @@ from posebridge.units import m_from_mm
 
 __all__ = ["client_key", "router", "start_job", "started"]
 
-router = APIRouter(prefix="/api/maps", tags=["maps"])
+router = APIRouter(prefix="/api/maps", tags=["maps"], route_class=StrictJsonRoute)
 
 
 def client_key(request: Request) -> str:

@@ -8,6 +8,7 @@ from collections.abc import Callable
 from fastapi import APIRouter, HTTPException, Request
 
 from posebridge.api.deps import CellsDep, JobsDep
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.routes.maps import start_job
 from posebridge.api.schemas.checks import MAX_PLACEMENT_CANDIDATES, PlacementRequest
 from posebridge.api.schemas.errors import error_responses
@@ -17,7 +18,7 @@ from posebridge.planning.reports import PlacementReport
 
 __all__ = ["router"]
 
-router = APIRouter(prefix="/api/placement", tags=["placement"])
+router = APIRouter(prefix="/api/placement", tags=["placement"], route_class=StrictJsonRoute)
 
 
 @router.post(

@@ -16,6 +16,7 @@ from fastapi import Path as PathParam
 from posebridge.api.auth import ACCESS_COOKIE, OwnerOnly, ReviewRoleDep
 from posebridge.api.cell_store import CellStore
 from posebridge.api.deps import CellsDep
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.reviews import (
     CommentCreateRequest,
     CommentList,
@@ -38,7 +39,7 @@ from posebridge.review.comments import (
 
 __all__ = ["router"]
 
-router = APIRouter(prefix="/api/reviews", tags=["reviews"])
+router = APIRouter(prefix="/api/reviews", tags=["reviews"], route_class=StrictJsonRoute)
 
 _NO_FILE = (
     "comments: this server works on the bundled demo cell; start it with a cell file of "

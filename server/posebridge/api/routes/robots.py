@@ -8,6 +8,7 @@ from fastapi import APIRouter, Query
 
 from posebridge.api.auth import ReviewRoleDep
 from posebridge.api.deps import RobotsDep, SettingsDep
+from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.robots import (
     RobotDescriptionResult,
@@ -19,7 +20,7 @@ from posebridge.robot.library import bundled_robots
 
 __all__ = ["router"]
 
-router = APIRouter(prefix="/api/robots", tags=["robots"])
+router = APIRouter(prefix="/api/robots", tags=["robots"], route_class=StrictJsonRoute)
 
 
 @router.get("", summary="List the bundled robots")
