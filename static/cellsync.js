@@ -5,7 +5,10 @@
 // SAVE_DELAY_MS after the last typed or keyed change), with the content
 // version it was made from; moves of several items are saved one after the
 // other. If the cell was changed elsewhere meanwhile the server refuses (412),
-// the page reloads the cell and says the move was not saved.
+// the page reloads the cell and says the move was not saved. If the save itself
+// fails (disk full, read-only file or folder: the server names the file), the
+// message is shown and the move is kept: "Save again" (or the next move) sends
+// it again, from the same cell version.
 //
 // On a reviewer's page (readOnly in the store) nothing is sent: a target can
 // still be moved on the page to look at its IK answers, but the move stays
@@ -124,7 +127,8 @@ function samePose(a, b) {
 
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
- * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>}}
+ * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>,
+ *            retrySave: () => void}}
  */
 export function createCellSync({ store, actions, api, linking }) {
   let saveTimer = null;
@@ -192,6 +196,7 @@ export function createCellSync({ store, actions, api, linking }) {
     saving = true;
     const { cell } = store.get();
     store.update({ cellSave: { state: "saving", message: `Saving ${label}…` } });
+    let failed = false;
     try {
       const document = await send(cell.etag);
       store.update({ cell: document, cellSave: { state: "saved", message: `Saved ${label}` } });
@@ -202,14 +207,26 @@ export function createCellSync({ store, actions, api, linking }) {
         actions.setStatus("warn", `The cell was changed in another page or program; it was reloaded and the move of ${label} was not saved.`);
         await reloadCell();
       } else {
-        store.update({ cellSave: { state: "error", message: error.message } });
-        actions.setStatus("error", `Saving ${label}: ${error.message}`);
+        // keep the edit to send again, unless a newer move of the same item is waiting
+        failed = true;
+        if (!pending.has(key)) {
+          pending.set(key, { label, send });
+        }
+        store.update({ cellSave: { state: "error", message: `Not saved: ${error.message}`, retry: true } });
+        actions.setStatus("error", `Saving ${label} failed, the move is kept on this page: ${error.message}`);
       }
     } finally {
       saving = false;
-      if (pending.size > 0) {
+      if (pending.size > 0 && !failed) {
         scheduleSave();
       }
+    }
+  }
+
+  /** Send the kept moves again after a failed save (the cell panel's "Save again"). */
+  function retrySave() {
+    if (pending.size > 0) {
+      scheduleSave();
     }
   }
 
@@ -342,5 +359,5 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  return { loadCell, reloadCell, moveBase };
+  return { loadCell, reloadCell, moveBase, retrySave };
 }

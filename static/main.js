@@ -51,7 +51,13 @@ async function start() {
     store,
     onRobotChosen: showRobot,
   });
-  createCellPanel({ container: byId("cell-panel"), store, actions, onShowCell: () => cellSync.loadCell() });
+  createCellPanel({
+    container: byId("cell-panel"),
+    store,
+    actions,
+    onShowCell: () => cellSync.loadCell(),
+    onRetrySave: () => cellSync.retrySave(),
+  });
   createSceneView({ element: byId("scene3d"), store, palette });
   createProjectionView({
     element: byId("plan"),

@@ -30,7 +30,8 @@
  *                   still shows, or null) | null
  *   fixture         {name, position_mm, rpy_deg}: the selected fixture's frame in the world as
  *                   moved on the page (saved into the cell after a drag or typed change), or null
- *   cellSave        {state: "saved" | "unsaved" | "saving" | "conflict" | "error" | "review", message}
+ *   cellSave        {state: "saved" | "unsaved" | "saving" | "conflict" | "error" | "review", message,
+ *                   retry?: true after a failed save whose move is kept to send again}
  *   jointMap        finished two-joint map (JointMapResult) or null
  *   jointMapJob     {state, done, total, detail} of the two-joint map being computed (state
  *                   "waiting" while its start waits for the server), or null

@@ -37,14 +37,18 @@ function rowKey(selection) {
 }
 
 /**
- * @param {{container: HTMLElement, store: object, actions: object, onShowCell: () => void}} options
- *   onShowCell: called by the "show the cell" button when another robot is shown.
+ * @param {{container: HTMLElement, store: object, actions: object, onShowCell: () => void,
+ *          onRetrySave: () => void}} options
+ *   onShowCell: called by the "show the cell" button when another robot is shown;
+ *   onRetrySave: called by "Save again", shown after a failed save (the move is kept).
  */
-export function createCellPanel({ container, store, actions, onShowCell }) {
+export function createCellPanel({ container, store, actions, onShowCell, onRetrySave }) {
   const info = element("p", { className: "pb-note", attributes: { id: "cell-info" } });
   const saveState = element("output", { className: "pb-save", attributes: { id: "cell-save", role: "status" } });
   const back = element("button", { text: "Show the cell", attributes: { type: "button", id: "cell-show" } });
   back.addEventListener("click", onShowCell);
+  const retry = element("button", { text: "Save again", attributes: { type: "button", id: "cell-save-retry", hidden: "" } });
+  retry.addEventListener("click", onRetrySave);
   const list = element("div", { className: "pb-cell-list", attributes: { id: "cell-items", role: "listbox", "aria-label": "Targets, path waypoints and fixtures" } });
   const fixtureFields = FIXTURE_FIELDS.map(({ name, unit, axis }) => {
     const field = numberField({
@@ -69,7 +73,7 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
     fixtureTitle,
     element("div", { className: "pb-fields" }, fixtureFields.map((field) => field.label)),
   ]);
-  container.append(element("div", { className: "pb-controls" }, [info, saveState, back]), list, fixturePanel);
+  container.append(element("div", { className: "pb-controls" }, [info, saveState, retry, back]), list, fixturePanel);
   let builtFor = null;
   let markedFor = null;
 
@@ -142,6 +146,8 @@ export function createCellPanel({ container, store, actions, onShowCell }) {
     info.title = cell.path || "";
     saveState.textContent = cellSave.message || "saved";
     saveState.dataset.state = cellSave.state;
+    saveState.title = cellSave.message || "";
+    retry.hidden = !cellSave.retry;
     back.hidden = cellActive;
     const key = `${cell.etag}|${cellActive}`;
     const rebuilt = builtFor !== key;

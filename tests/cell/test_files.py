@@ -6,6 +6,7 @@ Atomic saving (temp file, fsync, rename) is common practice, no source.
 
 from __future__ import annotations
 
+import errno
 import hashlib
 import json
 import os
@@ -17,6 +18,7 @@ import pytest
 from posebridge.cell import files
 from posebridge.cell.files import (
     CellConflictError,
+    CellSaveError,
     backup_path,
     cell_etag,
     cell_json,
@@ -360,3 +362,70 @@ def test_symbolic_link_is_followed(tmp_path: Path) -> None:
     # common practice, no source: saving through a link updates the file it points to
     assert link.is_symlink()
     assert load_cell(real).title == "through the link"
+
+
+def _saved_elsewhere(path: Path) -> Any:
+    data = small_cell_data()
+    data["title"] = "not saved"
+    return validate_cell(data)
+
+
+def test_read_only_file_is_not_replaced(tmp_path: Path) -> None:
+    # as root too: the owner write bit is checked, not only whether a write would succeed
+    path = tmp_path / "cell.json"
+    original = write_cell(path, small_cell_data())
+    path.chmod(0o444)
+    with pytest.raises(CellSaveError) as caught:
+        save_cell(_saved_elsewhere(path), path)
+    assert caught.value.failure == "file-read-only"
+    assert str(caught.value) == (
+        f"{path}: cannot save, the cell file is read-only (its permissions do not allow "
+        "writing; nothing was written); make it writable (chmod u+w) to save"
+    )
+    assert path.read_bytes() == original and path.stat().st_mode & 0o777 == 0o444
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["cell.json"]
+
+
+@pytest.mark.parametrize(
+    ("code", "failure", "words"),
+    [
+        (errno.ENOSPC, "no-space", "no space left on the device of"),
+        (errno.EDQUOT, "no-space", "no space left on the device of"),
+        (errno.EROFS, "read-only-file-system", "is on a read-only file system"),
+        (errno.EACCES, "folder-not-writable", "is read-only for this user"),
+    ],
+)
+def test_write_failures_say_what_happened(
+    tmp_path: Path, monkeypatch: pytest.MonkeyPatch, code: int, failure: str, words: str
+) -> None:
+    path = tmp_path / "cell.json"
+    original = write_cell(path, small_cell_data())
+
+    def failing_fsync(descriptor: int) -> None:
+        raise OSError(code, os.strerror(code))
+
+    monkeypatch.setattr(os, "fsync", failing_fsync)
+    with pytest.raises(CellSaveError) as caught:
+        save_cell(_saved_elsewhere(path), path)
+    assert caught.value.failure == failure
+    assert str(caught.value).startswith(f"{path}: cannot save")
+    assert words in str(caught.value) and str(tmp_path) in str(caught.value)
+    # common practice, no source: nothing half-written, no temporary file left
+    assert path.read_bytes() == original
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["cell.json"]
+
+
+def test_leftover_temporaries_are_removed(tmp_path: Path) -> None:
+    path = tmp_path / "cell.json"
+    write_cell(path, small_cell_data())
+    ours = [tmp_path / ".cell.json.a1b2_c3d.tmp", tmp_path / ".cell.json.bak.zz99yy88.tmp"]
+    others = [
+        tmp_path / ".other.json.a1b2c3d4.tmp",
+        tmp_path / ".cell.json.short.tmp",
+        tmp_path / "cell.json.a1b2c3d4.tmp",
+        tmp_path / "notes.tmp",
+    ]
+    for file in ours + others:
+        file.write_text("{")
+    assert sorted(files.remove_leftover_temporaries(path)) == sorted(ours)
+    assert sorted(tmp_path.iterdir()) == sorted([path, *others])

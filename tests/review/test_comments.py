@@ -210,9 +210,10 @@ def test_newer_schema_version_refused(tmp_path: Path) -> None:
         CommentStore(path).list_comments()
 
 
-def test_unwritable_folder(tmp_path: Path) -> None:
+def test_missing_folder(tmp_path: Path) -> None:
+    # it said "not a readable comment database" before, which sent the user to the wrong fix
     missing = tmp_path / "no-such-folder" / "c.sqlite3"
-    with pytest.raises(CommentStorageError, match="not a readable comment database"):
+    with pytest.raises(CommentStorageError, match="cannot be opened, its folder .* does not exist"):
         CommentStore(missing).add(Pin("cell"), "Ana", "x")
 
 

@@ -11,10 +11,13 @@ it was made from; a change made from an older version is refused with
 :class:`~posebridge.cell.files.CellConflictError`, so two pages editing the
 same cell never overwrite each other silently. Changes are serialised by a
 lock (``save_cell`` itself does not make check-and-rename one step).
+Temporary files of saves that were killed are removed when the store is made
+(server start).
 """
 
 from __future__ import annotations
 
+import logging
 import threading
 from collections.abc import Callable
 from dataclasses import dataclass
@@ -22,13 +25,21 @@ from functools import cached_property
 from pathlib import Path
 
 from posebridge.cell.clearance import clearance_scene
-from posebridge.cell.files import CellConflictError, cell_etag, load_cell, save_cell
+from posebridge.cell.files import (
+    CellConflictError,
+    cell_etag,
+    load_cell,
+    remove_leftover_temporaries,
+    save_cell,
+)
 from posebridge.cell.model import Cell, validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.geometry.clearance import ClearanceScene
 from posebridge.resources import data_folder
 
 __all__ = ["DEMO_CELL_FILE", "CellSnapshot", "CellStore"]
+
+_log = logging.getLogger(__name__)
 
 DEMO_CELL_FILE = "demo-cell.json"
 """The bundled demo cell in the robots folder."""
@@ -72,6 +83,9 @@ class CellStore:
     def __init__(self, path: Path | None) -> None:
         self._path = None if path is None else Path(path)
         self._lock = threading.Lock()
+        if self._path is not None:
+            for leftover in remove_leftover_temporaries(self._path):
+                _log.warning("removed %s, left by a save that was interrupted", leftover)
         self._snapshot: CellSnapshot | None = None
         self._mtime_ns: int | None = None
 
@@ -122,8 +136,8 @@ class CellStore:
             The cell has another content version now (edited elsewhere).
         CellFileError
             The new cell is invalid (its robot cannot be loaded, joint counts).
-        OSError
-            The file cannot be written; it is then unchanged.
+        CellSaveError
+            The file cannot be written (read-only, no space...); it is then unchanged.
         """
         return self.edit(lambda _: cell, expected_etag)
 

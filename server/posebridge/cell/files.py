@@ -11,6 +11,15 @@ target is kept as ``<name>.bak`` (one backup, the version before the last
 save), written the same atomic way. A symbolic link is followed, so the file it
 points to is updated.
 
+A save that cannot be made raises :class:`CellSaveError` naming the file and
+what happened (no space left, a read-only file system, a folder without write
+permission, a cell file the user made read-only) and leaves the file as it
+was. A file without its owner's write permission bit is never replaced, even
+by a process that could (the superuser): the bit is the user's "do not
+change" mark. A save killed half-way leaves at most a temporary file
+(``.<name>.<random>.tmp`` beside the cell file), which
+:func:`remove_leftover_temporaries` deletes at the next start.
+
 The content version (ETag) of a cell is the SHA-256 of its canonical JSON
 (keys sorted, no whitespace), so formatting changes in the file do not count as
 edits. ``save_cell(..., expected_etag=...)`` refuses to overwrite a file whose
@@ -21,15 +30,17 @@ that save from several threads serialise their saves.
 
 from __future__ import annotations
 
+import errno
 import hashlib
 import json
 import os
 import re
+import stat
 import tempfile
 from collections.abc import Callable, Mapping
 from pathlib import Path
 from types import MappingProxyType
-from typing import Any
+from typing import Any, Literal
 
 from posebridge.cell.model import (
     CELL_SCHEMA_VERSION,
@@ -44,6 +55,8 @@ __all__ = [
     "MAX_CELL_FILE_BYTES",
     "MIGRATIONS",
     "CellConflictError",
+    "CellSaveError",
+    "SaveFailure",
     "DuplicateJsonKeyError",
     "backup_path",
     "cell_etag",
@@ -52,6 +65,7 @@ __all__ = [
     "migrate_cell_data",
     "parse_cell_json",
     "refuse_duplicate_keys",
+    "remove_leftover_temporaries",
     "save_cell",
 ]
 
@@ -99,6 +113,119 @@ class CellConflictError(RuntimeError):
             f"{path}: changed on disk since it was read "
             f"(expected content version {expected_etag}, {now}); reload it and apply the edit again"
         )
+
+
+SaveFailure = Literal[
+    "no-space", "read-only-file-system", "folder-not-writable", "file-read-only", "io"
+]
+"""Why a save could not be made (:class:`CellSaveError`)."""
+
+
+class CellSaveError(OSError):
+    """A cell file could not be saved; the file on disk is unchanged.
+
+    Attributes
+    ----------
+    path : str
+        The cell file.
+    failure : SaveFailure
+        What happened: ``"no-space"`` (device full or quota), ``"read-only-file-system"``,
+        ``"folder-not-writable"``, ``"file-read-only"`` (no owner write bit, or no write
+        permission) or ``"io"`` (any other system error).
+    """
+
+    def __init__(self, message: str, *, path: str, failure: SaveFailure) -> None:
+        super().__init__(message)
+        self.path = path
+        self.failure = failure
+
+    def __str__(self) -> str:
+        return str(self.args[0])
+
+
+_NO_SPACE = {errno.ENOSPC, errno.EDQUOT}
+_NOT_PERMITTED = {errno.EACCES, errno.EPERM}
+
+
+def _save_error(error: OSError, path: Path) -> CellSaveError:
+    """The :class:`CellSaveError` of a failed write of cell file ``path``."""
+    folder = path.parent
+    unchanged = "nothing was written, the file is as it was"
+    if error.errno in _NO_SPACE:
+        return CellSaveError(
+            f"{path}: cannot save, no space left on the device of {folder} ({unchanged}); "
+            "free some space and save again",
+            path=str(path),
+            failure="no-space",
+        )
+    if error.errno == errno.EROFS:
+        return CellSaveError(
+            f"{path}: cannot save, the cell file's folder {folder} is on a read-only file "
+            f"system ({unchanged})",
+            path=str(path),
+            failure="read-only-file-system",
+        )
+    if error.errno in _NOT_PERMITTED:
+        return CellSaveError(
+            f"{path}: cannot save, the cell file's folder {folder} is read-only for this "
+            f"user ({unchanged}); allow writing in it and save again",
+            path=str(path),
+            failure="folder-not-writable",
+        )
+    return CellSaveError(
+        f"{path}: cannot save: {error.strerror or error} ({unchanged})",
+        path=str(path),
+        failure="io",
+    )
+
+
+def _refuse_read_only(target: Path, mode: int, shown: Path) -> None:
+    """Refuse to replace a file its user made read-only: no owner write bit (checked even
+    for the superuser, who could write anyway) or no write permission for this process;
+    a file on a read-only mount is reported as such."""
+    try:
+        read_only_mount = bool(os.statvfs(target.parent).f_flag & os.ST_RDONLY)
+    except (OSError, AttributeError):  # no statvfs on this system
+        read_only_mount = False
+    if read_only_mount:
+        raise _save_error(OSError(errno.EROFS, os.strerror(errno.EROFS)), shown)
+    if not mode & stat.S_IWUSR or not os.access(target, os.W_OK):
+        raise CellSaveError(
+            f"{shown}: cannot save, the cell file is read-only (its permissions do not allow "
+            "writing; nothing was written); make it writable (chmod u+w) to save",
+            path=str(shown),
+            failure="file-read-only",
+        )
+
+
+def _temporary_pattern(path: Path) -> re.Pattern[str]:
+    """Names :func:`_write_atomic` gives temporary files of ``path`` (and of its backup)."""
+    names = "|".join(re.escape(p.name) for p in (path, backup_path(path)))
+    return re.compile(rf"\.(?:{names})\.[A-Za-z0-9_]{{8}}\.tmp")
+
+
+def remove_leftover_temporaries(path: str | Path) -> list[Path]:
+    """Delete temporary files left beside cell file ``path`` by saves that were killed.
+
+    Only names that :func:`save_cell` makes (``.<name>.<8 characters>.tmp``, for the
+    file and its ``.bak``) are touched. Returns the removed files; files that cannot be
+    removed are left (and not returned).
+    """
+    target = Path(os.path.realpath(path))
+    pattern = _temporary_pattern(target)
+    removed = []
+    try:
+        candidates = list(target.parent.iterdir())
+    except OSError:
+        return []
+    for candidate in candidates:
+        if pattern.fullmatch(candidate.name) and candidate.is_file():
+            try:
+                candidate.unlink()
+            except OSError:
+                continue
+            removed.append(candidate)
+    return removed
 
 
 def migrate_cell_data(
@@ -333,23 +460,32 @@ def save_cell(cell: Cell, path: str | Path, *, expected_etag: str | None = None)
         The cell is invalid.
     CellConflictError
         The file changed since ``expected_etag`` was read.
-    OSError
-        The folder cannot be written; the file on disk is then unchanged.
+    CellSaveError
+        The file is read-only, or it cannot be written (no space, read-only file
+        system, folder not writable); the file on disk is then unchanged.
     """
     target = Path(os.path.realpath(path))
+    shown = Path(path)
     checked = validate_cell(_plain_data(cell), source=str(path))
     data = cell_json(checked).encode("utf-8")
     try:
         previous: bytes | None = target.read_bytes()
-        mode = target.stat().st_mode & 0o777
+        mode = target.stat().st_mode & 0o7777
     except FileNotFoundError:
         previous = None
         mode = 0o644
+    except OSError as error:
+        raise _save_error(error, shown) from error
     if expected_etag is not None:
         actual = None if previous is None else _etag_of_bytes(previous)
         if actual != expected_etag:
             raise CellConflictError(str(path), expected_etag, actual)
     if previous is not None:
-        _write_atomic(backup_path(target), previous, mode)
-    _write_atomic(target, data, mode)
+        _refuse_read_only(target, mode, shown)
+    try:
+        if previous is not None:
+            _write_atomic(backup_path(target), previous, mode & 0o777)
+        _write_atomic(target, data, mode & 0o777)
+    except OSError as error:
+        raise _save_error(error, shown) from error
     return cell_etag(checked)

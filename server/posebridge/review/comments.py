@@ -15,6 +15,7 @@ and creates nothing.
 
 from __future__ import annotations
 
+import os
 import re
 import sqlite3
 from collections.abc import Callable, Iterator
@@ -91,7 +92,18 @@ class CommentStoreFullError(CommentError):
 
 
 class CommentStorageError(CommentError):
-    """The comment file cannot be opened, read or written."""
+    """The comment file cannot be opened, read or written.
+
+    Attributes
+    ----------
+    failure : {"read-only", "no-space", "unreadable"}
+        Why: the file or its folder cannot be written, the device is full, or the
+        file is not a comment database this posebridge reads.
+    """
+
+    def __init__(self, message: str, failure: str = "unreadable") -> None:
+        super().__init__(message)
+        self.failure = failure
 
 
 def comments_path_for(cell_path: str | Path) -> Path:
@@ -292,10 +304,40 @@ class CommentStore:
                     connection.execute("ROLLBACK")
                     raise
                 connection.execute("COMMIT")
-        except sqlite3.DatabaseError as error:
-            raise CommentStorageError(
-                f"{self.path}: not a readable comment database ({error})"
-            ) from error
+        except sqlite3.Error as error:
+            raise self._storage_error(error) from error
+
+    def _storage_error(self, error: sqlite3.Error) -> CommentStorageError:
+        """Plain words for an SQLite error (its result code, SQLite's "Result and Error
+        Codes" page): read-only storage, a full device, or not a comment database."""
+        name = getattr(error, "sqlite_errorname", "") or ""
+        folder = self.path.parent
+        if name.startswith("SQLITE_CANTOPEN") and not folder.is_dir():
+            return CommentStorageError(
+                f"{self.path}: the comment file cannot be opened, its folder {folder} does "
+                "not exist",
+                "unreadable",
+            )
+        if name.startswith("SQLITE_READONLY") or (
+            name.startswith("SQLITE_CANTOPEN") and not os.access(folder, os.W_OK)
+        ):
+            return CommentStorageError(
+                f"{self.path}: comments cannot be saved, the comment file or its folder "
+                f"{folder} is read-only (existing comments can still be read)",
+                "read-only",
+            )
+        if name.startswith("SQLITE_FULL"):
+            return CommentStorageError(
+                f"{self.path}: comments cannot be saved, no space left on the device of {folder}",
+                "no-space",
+            )
+        if name.startswith("SQLITE_CANTOPEN"):
+            return CommentStorageError(
+                f"{self.path}: the comment file cannot be opened ({error})", "unreadable"
+            )
+        return CommentStorageError(
+            f"{self.path}: not a readable comment database ({error})", "unreadable"
+        )
 
     def _prepare(self, connection: sqlite3.Connection) -> None:
         version = connection.execute("PRAGMA user_version").fetchone()[0]

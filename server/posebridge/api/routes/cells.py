@@ -27,7 +27,7 @@ from posebridge.api.schemas.cells import (
     cell_document,
 )
 from posebridge.api.schemas.errors import error_responses
-from posebridge.cell.files import CellConflictError
+from posebridge.cell.files import CellConflictError, CellSaveError, SaveFailure
 from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, Pose, Target
 from posebridge.cell.scene import Scene
 from posebridge.transforms import (
@@ -54,7 +54,8 @@ WaypointIndex = Annotated[
     int, Path(ge=0, le=MAX_WAYPOINTS, description="Waypoint position in the path, from 0.")
 ]
 
-_CHANGE_ERRORS = error_responses(404, 412, 422, 428)
+_SAVE_ERRORS = (409, 412, 422, 428, 503, 507)
+_CHANGE_ERRORS = error_responses(404, *_SAVE_ERRORS)
 
 
 def cell_robot_spec(snapshot: CellSnapshot, robots: RobotCache) -> str:
@@ -99,15 +100,29 @@ def _conflict(error: CellConflictError) -> HTTPException:
     )
 
 
+_SAVE_STATUS: dict[SaveFailure, int] = {
+    "no-space": 507,
+    "read-only-file-system": 503,
+    "folder-not-writable": 409,
+    "file-read-only": 409,
+    "io": 503,
+}
+"""HTTP status of each kind of failed save: 507 Insufficient Storage (RFC 4918 sec. 11.5),
+409 where the user must change a permission, 503 where the storage cannot take writes."""
+
+
 def _saved(
     save: Callable[[], CellSnapshot], robots: RobotCache, response: Response
 ) -> CellDocument:
     """Run ``save`` (a version-checked change of the cell store) and answer with the saved
-    cell; 412 when the cell has another content version now."""
+    cell; 412 when the cell has another content version now; 409, 503 or 507 naming the
+    file when it cannot be written (:data:`_SAVE_STATUS`), nothing changed."""
     try:
         snapshot = save()
     except CellConflictError as error:
         raise _conflict(error) from error
+    except CellSaveError as error:
+        raise HTTPException(status_code=_SAVE_STATUS[error.failure], detail=str(error)) from error
     return _answer(snapshot, robots, response, "owner")  # only the owner changes the cell
 
 
@@ -119,7 +134,7 @@ def read_cell(
     return _answer(cells.read(), robots, response, role)
 
 
-@router.put("", summary="Replace the cell", responses=error_responses(412, 422, 428))
+@router.put("", summary="Replace the cell", responses=error_responses(*_SAVE_ERRORS))
 def replace_cell(
     cell: Cell, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch = None
 ) -> CellDocument:
@@ -285,7 +300,7 @@ def move_waypoint(
     return _saved(lambda: cells.edit(change, expected), robots, response)
 
 
-@router.patch("/base", summary="Move the robot base", responses=error_responses(412, 422, 428))
+@router.patch("/base", summary="Move the robot base", responses=error_responses(*_SAVE_ERRORS))
 def move_base(
     edit: BaseEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch = None
 ) -> CellDocument:

@@ -70,7 +70,8 @@ CommentId = Annotated[int, PathParam(ge=1, lt=2**63, description="Comment id.")]
 
 
 def _storage_error(error: CommentStorageError) -> HTTPException:
-    return HTTPException(status_code=503, detail=str(error))
+    """507 when the device is full (RFC 4918 sec. 11.5), else 503 naming the file."""
+    return HTTPException(status_code=507 if error.failure == "no-space" else 503, detail=str(error))
 
 
 @router.get("/access", summary="Who is asking", responses=review_error_responses(401, 422, 429))
@@ -118,7 +119,7 @@ def list_comments(comments: CommentsDep, cells: CellsDep) -> CommentList:
     "/comments",
     summary="Add a comment",
     status_code=201,
-    responses=review_error_responses(401, 409, 413, 422, 429, 503),
+    responses=review_error_responses(401, 409, 413, 422, 429, 503, 507),
 )
 def add_comment(
     request: CommentCreateRequest, comments: CommentsDep, cells: CellsDep
@@ -143,7 +144,7 @@ def add_comment(
     "/comments/{comment_id}",
     summary="Resolve a comment",
     dependencies=[OwnerOnly],
-    responses=review_error_responses(401, 403, 404, 409, 422, 503),
+    responses=review_error_responses(401, 403, 404, 409, 422, 503, 507),
 )
 def resolve_comment(
     comment_id: CommentId,

@@ -36,7 +36,8 @@ _REVIEW_ERRORS = {
     413: "Request body too large: the message names the limit",
     422: "Invalid request: the message names the field and what was expected",
     429: "Too many requests from this address: the message says when to retry",
-    503: "The comment file cannot be read or written",
+    503: "The comment file cannot be read or written (read-only storage, not a comment file)",
+    507: "No space left to store the comment",
 }
 
 
