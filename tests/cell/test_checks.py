@@ -369,3 +369,33 @@ def test_demo_reject_drop_breaks_the_common_branch_until_the_bin_moves(report) -
     fixed = check_targets(variant(_move_reject_bin(-550.0, 700.0)))
     assert fixed.consistent_branch.consistent
     assert fixed.consistent_branch.breaking_targets == []
+
+
+def test_per_target_work_is_batched(monkeypatch: pytest.MonkeyPatch) -> None:
+    # a 2,000-target check took minutes: per target, every solution's branch labels were
+    # matched again and the limit test re-run over all solutions. Our own contract now:
+    # branch masks once per distinct branch (at most 3**3 sign triples), the same report.
+    def copies(data: dict[str, Any]) -> None:
+        data["targets"] = [
+            dict(t, name=f"{t['name']}-{k}") for k in range(12) for t in RAW["targets"]
+        ]
+        data["paths"] = []
+
+    scene = variant(copies)
+    from posebridge.cell import checks
+
+    calls = []
+    real = checks.labels_match
+
+    def counted(labels: Any, triple: Any) -> Any:
+        calls.append(tuple(triple))
+        return real(labels, triple)
+
+    monkeypatch.setattr(checks, "labels_match", counted)
+    report = check_targets(scene)
+    assert len(calls) == len(set(calls)) <= 27
+    single = check_targets(variant(lambda data: data.update(paths=[])))
+    # the same answer per target as the check of the cell with one copy of each target
+    for k, check in enumerate(report.targets[: len(RAW["targets"])]):
+        assert check.reachable == single.targets[k].reachable
+        assert check.usable_branches == single.targets[k].usable_branches

@@ -21,7 +21,9 @@ from posebridge.robot.library import bundled_robots, load_robot
 from posebridge.robot.model import Robot
 from posebridge.robot.urdf import (
     DEFAULT_ACCELERATION_PER_S,
+    MAX_CHAIN_JOINTS,
     MAX_URDF_BYTES,
+    MAX_URDF_ELEMENTS,
     load_robot_urdf,
     parse_robot_urdf,
     urdf_from_robot,
@@ -609,3 +611,46 @@ def test_export_continuous_joint_and_pinocchio_agrees() -> None:
     np.testing.assert_allclose(
         fk_flange(robot, q), pin_frame_poses(text, "flange", robot, q), atol=1e-12
     )
+
+
+def _chain_urdf(joints: int, spheres: int = 1) -> str:
+    """A serial chain of ``joints`` revolute joints, each link with ``spheres`` spheres."""
+    geometry = '<collision><geometry><sphere radius="0.01"/></geometry></collision>' * spheres
+    parts = ['<robot name="long">', '<link name="l0"/>']
+    for i in range(1, joints + 1):
+        parts.append(f'<link name="l{i}">{geometry}</link>')
+        parts.append(
+            f'<joint name="j{i}" type="revolute"><parent link="l{i - 1}"/><child link="l{i}"/>'
+            '<origin xyz="0 0 0.01"/><axis xyz="0 0 1"/>'
+            '<limit lower="-1" upper="1" velocity="1"/></joint>'
+        )
+    parts.append("</robot>")
+    return "\n".join(parts)
+
+
+def test_too_many_elements_refused_while_parsing() -> None:
+    # a 4 MB chain of 16,000 joints was read whole and built before (our own contract now:
+    # reading stops at element MAX_URDF_ELEMENTS + 1, on the line where that element starts)
+    text = _chain_urdf(16_000)
+    elements_per_joint = 4 + 6  # link, collision, geometry, sphere; joint and its 5 children
+    assert len(text.encode()) < MAX_URDF_BYTES
+    with pytest.raises(RobotDescriptionError) as error:
+        parse_robot_urdf(text, "long.urdf")
+    (problem,) = error.value.problems
+    stop_line = 2 + 2 * ((MAX_URDF_ELEMENTS - 2) // elements_per_joint)
+    line = int(problem.split(":")[1])
+    assert abs(line - stop_line) <= 2  # closed form from the file's layout
+    assert problem.endswith(
+        f"xml: more than {MAX_URDF_ELEMENTS} elements; URDF files of one arm have far fewer "
+        "(reading stopped here)"
+    )
+
+
+def test_too_many_chain_joints_refused() -> None:
+    with pytest.raises(RobotDescriptionError) as error:
+        parse_robot_urdf(_chain_urdf(MAX_CHAIN_JOINTS + 1), "long.urdf")
+    assert error.value.problems == [
+        f"long.urdf: robot: {MAX_CHAIN_JOINTS + 1} moving joints between base link 'l0' and tip "
+        f"link 'l{MAX_CHAIN_JOINTS + 1}'; posebridge takes at most {MAX_CHAIN_JOINTS}"
+    ]
+    assert parse_robot_urdf(_chain_urdf(MAX_CHAIN_JOINTS), "long.urdf").dof == MAX_CHAIN_JOINTS

@@ -22,6 +22,7 @@ from posebridge.api.cell_store import CellStore
 from posebridge.api.errors import install_error_handlers
 from posebridge.api.guard import RequestGuardMiddleware, content_security_policy
 from posebridge.api.jobs import JobManager
+from posebridge.api.lanes import ReviewerLane
 from posebridge.api.plotly_assets import plotly_assets
 from posebridge.api.robot_cache import RobotCache
 from posebridge.api.routes import (
@@ -108,6 +109,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
             _warm_up(robot_cache, settings.robot, app.state.cells)
         yield
         app.state.jobs.close()
+        app.state.reviewer_lane.close()
 
     app = FastAPI(
         title="posebridge",
@@ -124,7 +126,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.state.settings = settings
     app.state.robots = robot_cache
     app.state.cells = CellStore(settings.cell_path)
-    app.state.jobs = JobManager(expected_errors=_JOB_INPUT_ERRORS)
+    app.state.reviewer_lane = ReviewerLane()
+    app.state.jobs = JobManager(
+        expected_errors=_JOB_INPUT_ERRORS, reviewer_pause=app.state.reviewer_lane.yield_to_owner
+    )
     install_error_handlers(app)
     _limit_request_size(app, settings.max_request_bytes)
     install_review_access(app)

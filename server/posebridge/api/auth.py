@@ -46,6 +46,7 @@ from starlette.datastructures import Headers
 from starlette.requests import cookie_parser
 from starlette.responses import JSONResponse, RedirectResponse, Response
 
+from posebridge.api.lanes import ReviewerLane
 from posebridge.review.access import RateCap, RateLimiter, ReviewAccess
 
 __all__ = [
@@ -58,6 +59,7 @@ __all__ = [
     "ReviewAccessMiddleware",
     "ReviewRoleDep",
     "Role",
+    "charge_reviewer",
     "enable_review_sharing",
     "install_review_access",
 ]
@@ -81,13 +83,23 @@ REVIEWER_CAPS: Final[dict[str, RateCap]] = {
     "heavy": RateCap(per_second=0.25, burst=8),
     "comment": RateCap(per_second=0.2, burst=5),
     "refused": RateCap(per_second=1.0, burst=20),
+    "log_rows": RateCap(per_second=1_000.0, burst=100_000),
+    "check_targets": RateCap(per_second=20.0, burst=2_000),
+    "job_cells": RateCap(per_second=2_000.0, burst=200_000),
 }
 """Rate caps per client address and kind of request (token bucket, see
 :class:`posebridge.review.access.RateLimiter`). ``read``: GET/HEAD/OPTIONS;
 ``compute``: fast read-only computations (FK, IK, one pose); ``check``:
 checks that take up to a second (targets, a path, a log); ``heavy``: jobs
 (maps, base placement; the job manager adds its own per-client limits);
-``comment``: new comments; ``refused``: 401 and 403 answers to non-owners."""
+``comment``: new comments; ``refused``: 401 and 403 answers to non-owners.
+
+Cost budgets, charged by the routes once the size of the work is known
+(:func:`charge_reviewer`): ``log_rows`` (rows of diagnosed logs: 100,000 at
+once, 60,000 a minute), ``check_targets`` (targets and approach poses checked:
+2,000 at once, 1,200 a minute) and ``job_cells`` (joint-map cells, reach-section
+cells and placement candidates of started jobs: 200,000 at once, 120,000 a
+minute)."""
 
 REVIEWER_ACTIONS: Final[dict[tuple[str, str], str]] = {
     ("POST", "/api/fk"): "compute",
@@ -349,8 +361,28 @@ class ReviewAccessMiddleware:
         headers: Headers,
         max_body: int,
     ) -> None:
-        """Pass the request on with its role, after the body size check."""
+        """Pass the request on with its role, after the body size check; the owner's
+        requests are counted as in progress for the reviewer lane (:mod:`posebridge.api.lanes`)."""
         scope.setdefault("state", {})[_STATE_ROLE] = role
+        if role == "owner":
+            lane: ReviewerLane = self.dashboard.state.reviewer_lane
+            lane.owner_started()
+            try:
+                await self._pass_on(scope, receive, send, role, headers, max_body)
+            finally:
+                lane.owner_finished()
+            return
+        await self._pass_on(scope, receive, send, role, headers, max_body)
+
+    async def _pass_on(
+        self,
+        scope: Scope,
+        receive: Receive,
+        send: Send,
+        role: Role,
+        headers: Headers,
+        max_body: int,
+    ) -> None:
         too_large = _error(
             413,
             f"request body too large: at most {max_body} bytes for the {role}",
@@ -390,6 +422,32 @@ class ReviewAccessMiddleware:
             return await receive()
 
         await self.app(scope, replay, send)
+
+
+def charge_reviewer(request: Request, kind: str, cost: float) -> None:
+    """Charge a reviewer's request ``cost`` units of the budget ``kind`` (rows, targets,
+    cells; :data:`REVIEWER_CAPS`); the owner is never charged.
+
+    Raises
+    ------
+    HTTPException
+        429 with ``Retry-After`` when the budget of the asker's address is spent.
+    """
+    if getattr(request.state, _STATE_ROLE, "reviewer") == "owner":
+        return
+    limits: RateLimiter = request.app.state.review_limits
+    address = request.client.host if request.client is not None else "unknown"
+    wait = limits.take(address, kind, cost)
+    if wait > 0.0:
+        cap = REVIEWER_CAPS[kind]
+        unit = kind.split("_")[-1]
+        raise HTTPException(
+            status_code=429,
+            detail=f"too much work from this address for a shared review: {cost:g} {unit} "
+            f"asked, at most {cap.burst} {unit} at once and {60 * cap.per_second:g} a minute; "
+            f"retry in {wait:.1f} s",
+            headers={"Retry-After": str(max(1, math.ceil(wait)))},
+        )
 
 
 def _review_role(request: Request) -> Role:

@@ -1,11 +1,14 @@
 """Long computations as jobs: started by one request, polled for progress, cancelled, collected.
 
 Jobs run one at a time on a worker thread, off the event loop, so the page
-stays responsive while a map or a placement search runs. The worker is a
-daemon thread: a server that exits does not wait for queued jobs. Each job gets a
-``progress(done, total)`` callback and a cancel event, as the compute
-executor's ``map_chunks`` takes them. Finished jobs are kept (the newest
-:data:`KEPT_JOBS`) until their result is read again or they are pushed out.
+stays responsive while a map or a placement search runs: the owner's jobs on
+one worker, reviewers' jobs on another, whose every step first yields to the
+owner's requests (``reviewer_pause``, :mod:`posebridge.api.lanes`). The workers
+are daemon threads: a server that exits does not wait for queued jobs. Each
+job gets a ``progress(done, total)`` callback and a cancel event, as the
+compute executor's ``map_chunks`` takes them. Finished jobs, with their
+results, are kept for :data:`KEPT_FINISHED_S` seconds and at most the newest
+:data:`KEPT_FINISHED` of them, so results cannot pile up in memory.
 
 Per client (its address), at most :data:`MAX_ACTIVE_PER_CLIENT` jobs may be
 queued or running and at most :data:`MAX_STARTS_PER_MINUTE` may be started in
@@ -28,7 +31,8 @@ from pydantic import BaseModel
 from posebridge.compute import ComputationCancelled
 
 __all__ = [
-    "KEPT_JOBS",
+    "KEPT_FINISHED",
+    "KEPT_FINISHED_S",
     "MAX_ACTIVE_PER_CLIENT",
     "MAX_STARTS_PER_MINUTE",
     "Job",
@@ -38,8 +42,10 @@ __all__ = [
     "JobWork",
 ]
 
-KEPT_JOBS = 64
-"""Jobs remembered at most (oldest finished ones are dropped first)."""
+KEPT_FINISHED = 16
+"""Finished jobs (and their results) remembered at most; the oldest are dropped first."""
+KEPT_FINISHED_S = 600.0
+"""Seconds a finished job and its result are kept."""
 MAX_ACTIVE_PER_CLIENT = 3
 """Queued or running jobs allowed per client."""
 MAX_STARTS_PER_MINUTE = 60
@@ -83,6 +89,7 @@ class Job:
     result: BaseModel | None = None
     error: str = ""
     cancel: threading.Event = field(default_factory=threading.Event)
+    finished_at: float | None = None
 
     @property
     def active(self) -> bool:
@@ -99,30 +106,46 @@ class JobManager:
         Errors that are the request's fault (bad input); their message
         becomes the job's ``error``. Any other error is reported as an
         internal error naming its type.
+    reviewer_pause : callable, optional
+        Called before every progress step of a reviewer's job (waits for the
+        owner's requests).
+    clock : callable
+        Monotonic seconds; :func:`time.monotonic` by default.
     """
 
-    def __init__(self, expected_errors: tuple[type[Exception], ...] = (ValueError,)) -> None:
+    def __init__(
+        self,
+        expected_errors: tuple[type[Exception], ...] = (ValueError,),
+        *,
+        reviewer_pause: Callable[[], None] | None = None,
+        clock: Callable[[], float] = time.monotonic,
+    ) -> None:
         self._expected = expected_errors
+        self._reviewer_pause = reviewer_pause
+        self._clock = clock
         self._jobs: OrderedDict[str, Job] = OrderedDict()
         self._starts: dict[str, deque[float]] = {}
         self._lock = threading.Lock()
-        self._queue: queue.SimpleQueue[tuple[Job, JobWork] | None] = queue.SimpleQueue()
-        self._worker = threading.Thread(target=self._serve, name="posebridge-jobs", daemon=True)
-        self._worker.start()
+        self._queues: dict[bool, queue.SimpleQueue[tuple[Job, JobWork] | None]] = {}
+        for reviewer in (False, True):
+            self._queues[reviewer] = queue.SimpleQueue()
+            name = "posebridge-review-jobs" if reviewer else "posebridge-jobs"
+            worker = threading.Thread(target=self._serve, args=(reviewer,), name=name, daemon=True)
+            worker.start()
 
-    def _serve(self) -> None:
-        while (item := self._queue.get()) is not None:
-            self._run(*item)
+    def _serve(self, reviewer: bool) -> None:
+        while (item := self._queues[reviewer].get()) is not None:
+            self._run(*item, reviewer=reviewer)
 
-    def start(self, kind: str, client: str, work: JobWork) -> Job:
-        """Queue ``work`` as a new job of ``client``.
+    def start(self, kind: str, client: str, work: JobWork, *, reviewer: bool = False) -> Job:
+        """Queue ``work`` as a new job of ``client`` (a reviewer's on the reviewers' worker).
 
         Raises
         ------
         JobLimitError
             The client has too many active jobs or started too many lately.
         """
-        now = time.monotonic()
+        now = self._clock()
         with self._lock:
             active = sum(1 for job in self._jobs.values() if job.client == client and job.active)
             if active >= MAX_ACTIVE_PER_CLIENT:
@@ -141,25 +164,45 @@ class JobManager:
             starts.append(now)
             job = Job(id=uuid.uuid4().hex, kind=kind, client=client)
             self._jobs[job.id] = job
-            self._forget_old()
-        self._queue.put((job, work))
+            self._forget_old(now)
+        self._queues[reviewer].put((job, work))
         return job
 
-    def _forget_old(self) -> None:
-        while len(self._jobs) > KEPT_JOBS:
-            finished = next((key for key, job in self._jobs.items() if not job.active), None)
-            if finished is None:
-                return
-            del self._jobs[finished]
+    def _forget_old(self, now: float) -> None:
+        """Drop finished jobs older than :data:`KEPT_FINISHED_S` and all but the newest
+        :data:`KEPT_FINISHED` finished ones (called with the lock held)."""
+        finished = {
+            key: job.finished_at
+            for key, job in self._jobs.items()
+            if job.finished_at is not None and not job.active
+        }
+        expired = [key for key, at in finished.items() if now - at > KEPT_FINISHED_S]
+        excess = list(finished)[: max(0, len(finished) - KEPT_FINISHED)]
+        for key in {*expired, *excess}:
+            del self._jobs[key]
 
-    def _run(self, job: Job, work: JobWork) -> None:
+    def _finish(self, job: Job) -> None:
+        with self._lock:
+            job.finished_at = self._clock()
+            self._forget_old(job.finished_at)
+
+    def _run(self, job: Job, work: JobWork, *, reviewer: bool = False) -> None:
+        try:
+            self._run_work(job, work, reviewer)
+        finally:
+            self._finish(job)
+
+    def _run_work(self, job: Job, work: JobWork, reviewer: bool) -> None:
         if job.cancel.is_set():
             job.state = "cancelled"
             return
         job.state = "running"
+        pause = self._reviewer_pause if reviewer else None
 
         def progress(done: int, total: int) -> None:
             job.done, job.total = done, total
+            if pause is not None:
+                pause()
 
         try:
             result = work(progress, job.cancel)
@@ -181,6 +224,7 @@ class JobManager:
     def get(self, job_id: str) -> Job:
         """The job called ``job_id`` (``KeyError`` if unknown or forgotten)."""
         with self._lock:
+            self._forget_old(self._clock())
             return self._jobs[job_id]
 
     def cancel(self, job_id: str) -> Job:
@@ -192,8 +236,9 @@ class JobManager:
         return job
 
     def close(self) -> None:
-        """Cancel every job and stop the worker thread."""
+        """Cancel every job and stop the worker threads."""
         with self._lock:
             for job in self._jobs.values():
                 job.cancel.set()
-        self._queue.put(None)
+        for jobs in self._queues.values():
+            jobs.put(None)

@@ -166,38 +166,45 @@ class _Checker:
             T_flange_tool=scene.T_flange_tool,
             all_revolutions=True,
         )
-        pose_index, slot_index = np.nonzero(solutions.valid)
+        pose_index, slot_index = np.nonzero(solutions.valid)  # row-major: grouped by pose
         self.slot_revolutions = solutions.revolutions[pose_index, slot_index]
+        # the solution slots of each pose, from the group boundaries (one pass, not one per pose)
+        starts = np.searchsorted(pose_index, np.arange(len(entries) + 1))
         self.poses = [
-            _Pose(kind, i, p, np.flatnonzero(pose_index == p).tolist(), solutions.reason[p])
+            _Pose(kind, i, p, list(range(starts[p], starts[p + 1])), solutions.reason[p])
             for p, (kind, i) in enumerate(entries)
         ]
         self.quality = evaluate_configurations(
             scene, solutions.q[pose_index, slot_index].reshape(-1, self.robot.dof), thresholds
         )
         self.score = branch_score(self.quality)
+        self._labels = np.stack(
+            [self.quality.shoulder, self.quality.elbow, self.quality.wrist], axis=1
+        )
+        self._branch_masks: dict[Triple, BoolArray] = {}
+        self._any_masks: dict[tuple[Triple, ...], BoolArray] = {}
         self.matches = self._matches(pose_index)
         self.usable = self.quality.within_limits & self.quality.collision_free & self.matches
         self.findings: list[Finding] = []
 
     def _matches(self, pose_index: np.ndarray) -> BoolArray:
-        """Whether each solution is on its target's required branch, shape (S,)."""
+        """Whether each solution is on its target's required branch, shape (S,): the
+        required sign of each part per pose (0: any), spread to the solutions at once."""
         quality = self.quality
         labels = {"shoulder": quality.shoulder, "elbow": quality.elbow, "wrist": quality.wrist}
         matches = np.ones(quality.count, dtype=bool)
-        for p, pose in enumerate(self.poses):
-            required = self.scene.targets.branches[pose.target]
-            if required is None:
-                continue
-            rows = pose_index == p
-            for part, words in _WANTED.items():
-                word = getattr(required, part)
-                if word is None:
-                    continue
-                if self.scheme != "arm":
-                    matches[rows] = False
-                else:
-                    matches[rows] &= labels[part][rows] == words[word]
+        for part, words in _WANTED.items():
+            wanted = np.zeros(len(self.poses), dtype=np.int8)
+            for p, pose in enumerate(self.poses):
+                required = self.scene.targets.branches[pose.target]
+                word = None if required is None else getattr(required, part)
+                if word is not None:
+                    wanted[p] = words[word]
+            per_solution = wanted[pose_index]
+            if self.scheme != "arm":
+                matches &= per_solution == 0
+            else:
+                matches &= (per_solution == 0) | (labels[part] == per_solution)
         return matches
 
     # --- one pose --------------------------------------------------------------------
@@ -326,14 +333,23 @@ class _Checker:
     # --- the whole check ----------------------------------------------------------------
 
     def _on_branch(self, triple: Triple) -> BoolArray:
-        """Solutions compatible with ``triple`` (a 0 label matches either sign), shape (S,)."""
-        labels = np.stack([self.quality.shoulder, self.quality.elbow, self.quality.wrist], axis=1)
-        return labels_match(labels, triple)
+        """Solutions compatible with ``triple`` (a 0 label matches either sign), shape (S,);
+        computed once per triple."""
+        mask = self._branch_masks.get(triple)
+        if mask is None:
+            mask = labels_match(self._labels, triple)
+            self._branch_masks[triple] = mask
+        return mask
 
     def _on_any(self, triples: list[Triple]) -> BoolArray:
-        mask = np.zeros(self.quality.count, dtype=bool)
-        for triple in triples:
-            mask |= self._on_branch(triple)
+        """Solutions compatible with any of ``triples``, shape (S,); once per set of triples."""
+        key = tuple(triples)
+        mask = self._any_masks.get(key)
+        if mask is None:
+            mask = np.zeros(self.quality.count, dtype=bool)
+            for triple in triples:
+                mask |= self._on_branch(triple)
+            self._any_masks[key] = mask
         return mask
 
     def _choose(
@@ -465,10 +481,8 @@ class _Checker:
         names = self.scene.targets.names
         rows = []
         for triple in _robot_branches(self.scheme):
-            clear = [
-                names[i]
-                for i in range(len(names))
-                if any(_compatible(triple, t) for t in usable_triples[i])
+            covered = [
+                any(_compatible(triple, t) for t in usable_triples[i]) for i in range(len(names))
             ]
             rows.append(
                 BranchCoverage(
@@ -476,8 +490,8 @@ class _Checker:
                     shoulder=triple[0],
                     elbow=triple[1],
                     wrist=triple[2],
-                    targets_clear=clear,
-                    targets_breaking=[n for n in names if n not in clear],
+                    targets_clear=[n for n, c in zip(names, covered, strict=True) if c],
+                    targets_breaking=[n for n, c in zip(names, covered, strict=True) if not c],
                 )
             )
         rows.sort(key=lambda row: -len(row.targets_clear))

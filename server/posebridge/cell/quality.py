@@ -27,6 +27,7 @@ the boundary models of :mod:`posebridge.cell.reports` (mm, deg), and
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property
 
 import numpy as np
 import numpy.typing as npt
@@ -166,17 +167,17 @@ class ConfigurationQuality:
         """Number of configurations ``N``."""
         return int(self.q.shape[0])
 
-    @property
+    @cached_property
     def clearance(self) -> FloatArray:
         """Smallest of the environment and self clearance, m, shape (N,) (``inf``: nothing checked)."""
         return np.minimum(self.environment.distance, self.self_clearance.distance)
 
-    @property
+    @cached_property
     def within_limits(self) -> BoolArray:
         """Every joint within its limits (up to :data:`LIMIT_TOLERANCE`), shape (N,)."""
         return np.all(self.margins.margin >= -LIMIT_TOLERANCE, axis=1)
 
-    @property
+    @cached_property
     def collision_free(self) -> BoolArray:
         """No pair penetrates (clearance >= 0), shape (N,)."""
         return self.clearance >= 0.0

@@ -159,14 +159,16 @@ class RateLimiter:
         self._buckets: OrderedDict[tuple[str, str], tuple[float, float]] = OrderedDict()
         self._lock = threading.Lock()
 
-    def take(self, client: str, kind: str) -> float:
-        """Take one request from the bucket of ``(client, kind)``.
+    def take(self, client: str, kind: str, cost: float = 1.0) -> float:
+        """Take ``cost`` units (one request by default; rows or targets for a cost
+        budget) from the bucket of ``(client, kind)``.
 
         Returns
         -------
         float
             0 if the request may go ahead, else the seconds until the bucket
-            holds one request again (the request is then not counted).
+            holds ``cost`` again (the request is then not counted; a cost above
+            the burst waits for a full bucket).
 
         Raises
         ------
@@ -174,16 +176,17 @@ class RateLimiter:
             ``kind`` has no cap.
         """
         cap = self._caps[kind]
+        cost = min(float(cost), float(cap.burst))
         now = self._clock()
         key = (client, kind)
         with self._lock:
             level, then = self._buckets.get(key, (float(cap.burst), now))
             level = min(float(cap.burst), level + (now - then) * cap.per_second)
-            if level >= 1.0:
-                level -= 1.0
+            if level >= cost:
+                level -= cost
                 wait = 0.0
             else:
-                wait = (1.0 - level) / cap.per_second
+                wait = (cost - level) / cap.per_second
             self._buckets[key] = (level, now)
             self._buckets.move_to_end(key)
             while len(self._buckets) > self._max_clients:

@@ -35,7 +35,10 @@ chain from ``from_link`` to ``to_link`` of the URDF tree:
   ignored; mesh references (``package://`` or files) are listed in the
   notes, never opened.
 * The XML is read with defusedxml (no DTD, no entity expansion, no external
-  references), at most :data:`MAX_URDF_BYTES`; every problem is reported as
+  references), at most :data:`MAX_URDF_BYTES` and :data:`MAX_URDF_ELEMENTS`
+  elements (counted while parsing, so a huge document is refused before a
+  tree is built), at most :data:`MAX_CHAIN_JOINTS` moving joints on the
+  chain; every problem is reported as
   ``file:line: field: message``.
 
 Export (:func:`urdf_from_robot`) writes a robot as URDF with links ``base``,
@@ -69,7 +72,9 @@ from posebridge.units import FloatArray
 
 __all__ = [
     "DEFAULT_ACCELERATION_PER_S",
+    "MAX_CHAIN_JOINTS",
     "MAX_URDF_BYTES",
+    "MAX_URDF_ELEMENTS",
     "load_robot_urdf",
     "parse_robot_urdf",
     "urdf_from_robot",
@@ -77,6 +82,13 @@ __all__ = [
 
 MAX_URDF_BYTES = 5_000_000
 """Largest URDF file accepted, bytes."""
+
+MAX_URDF_ELEMENTS = 20_000
+"""Most XML elements read; the parser stops at the next one, before any tree is built
+from the file (a six-axis arm with collision and visual geometry has a few hundred)."""
+
+MAX_CHAIN_JOINTS = 64
+"""Most moving joints on the chosen chain."""
 
 DEFAULT_ACCELERATION_PER_S = 4.0
 """Acceleration limit given to imported joints, as a multiple of their velocity limit, 1/s."""
@@ -113,12 +125,21 @@ class _Element:
         return found
 
 
+class _TooManyElementsError(Exception):
+    """The document has more than :data:`MAX_URDF_ELEMENTS` elements (at ``line``)."""
+
+    def __init__(self, line: int) -> None:
+        super().__init__(line)
+        self.line = line
+
+
 class _TreeBuilder(xml.sax.handler.ContentHandler):
     """SAX handler building :class:`_Element` trees with line numbers."""
 
     def __init__(self) -> None:
         super().__init__()
         self.root: _Element | None = None
+        self.count = 0
         self._stack: list[_Element] = []
         self._where: xml.sax.xmlreader.Locator | None = None
 
@@ -127,6 +148,9 @@ class _TreeBuilder(xml.sax.handler.ContentHandler):
 
     def startElement(self, name: str, attrs: xml.sax.xmlreader.AttributesImpl) -> None:  # noqa: N802
         line = self._where.getLineNumber() if self._where is not None else 0
+        self.count += 1
+        if self.count > MAX_URDF_ELEMENTS:
+            raise _TooManyElementsError(line or 0)
         element = _Element(name, dict(attrs.items()), line or 0)
         if self._stack:
             self._stack[-1].children.append(element)
@@ -149,6 +173,13 @@ def _read_xml(data: bytes, path: str) -> _Element:
         defusedxml.sax.parseString(
             data, builder, forbid_dtd=True, forbid_entities=True, forbid_external=True
         )
+    except _TooManyElementsError as error:
+        raise RobotDescriptionError(
+            [
+                f"{path}:{error.line}: xml: more than {MAX_URDF_ELEMENTS} elements; URDF files "
+                "of one arm have far fewer (reading stopped here)"
+            ]
+        ) from error
     except xml.sax.SAXParseException as error:
         raise RobotDescriptionError(
             [f"{path}:{error.getLineNumber()}: xml: not well-formed XML: {error.getMessage()}"]
@@ -608,6 +639,13 @@ def parse_robot_urdf(
     moving = [joint for joint in chain if joint.kind in _MOVING_TYPES]
     if not moving and not problems.items:
         problems.add(0, "robot", f"no moving joint between from_link {base!r} and to_link {tip!r}")
+    if len(moving) > MAX_CHAIN_JOINTS:
+        problems.add(
+            0,
+            "robot",
+            f"{len(moving)} moving joints between from_link {base!r} and to_link {tip!r}; "
+            f"posebridge takes at most {MAX_CHAIN_JOINTS}",
+        )
     if problems.items:
         raise RobotDescriptionError(problems.items)
 

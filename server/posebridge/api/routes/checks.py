@@ -8,9 +8,12 @@ from __future__ import annotations
 
 from typing import Annotated
 
-from fastapi import APIRouter, HTTPException, Path
+import numpy as np
+from fastapi import APIRouter, HTTPException, Path, Request
+from starlette.concurrency import run_in_threadpool
 
-from posebridge.api.deps import CellsDep
+from posebridge.api.auth import charge_reviewer
+from posebridge.api.deps import CellsDep, compute_for
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.routes.cells import index_of_named
 from posebridge.api.schemas.checks import (
@@ -32,46 +35,69 @@ __all__ = ["router"]
 router = APIRouter(prefix="/api/cell", tags=["checks"], route_class=StrictJsonRoute)
 
 
-@router.get("/check", summary="Check every target", responses=error_responses(422))
-def read_target_check(cells: CellsDep) -> TargetCheckReport:
+@router.get("/check", summary="Check every target", responses=error_responses(422, 429, 503))
+async def read_target_check(cells: CellsDep, request: Request) -> TargetCheckReport:
     """Per target: reachable or why not, usable branches, recommended branch; the branch
     consistent over all targets; findings, errors first."""
-    return check_targets(cells.read().scene)
+    scene = (await run_in_threadpool(cells.read)).scene
+    poses = len(scene.targets.names) + int(np.count_nonzero(scene.targets.approach_offset > 0.0))
+    charge_reviewer(request, "check_targets", poses)
+    return await compute_for(request, lambda: check_targets(scene))
 
 
 @router.get(
-    "/paths/{name}/check", summary="Check a path and time it", responses=error_responses(404, 422)
+    "/paths/{name}/check",
+    summary="Check a path and time it",
+    responses=error_responses(404, 422, 429, 503),
 )
-def read_path_check(
-    name: Annotated[str, Path(min_length=1, max_length=100)], cells: CellsDep
+async def read_path_check(
+    name: Annotated[str, Path(min_length=1, max_length=100)], cells: CellsDep, request: Request
 ) -> PathCheckReport:
     """Sampled check of every segment (reach, continuity, limits, singularities, clearance,
     speed) with the cycle time per segment; findings tied to segment and position."""
-    scene = cells.read().scene
-    return check_path(scene, index_of_named("path", [path.name for path in scene.paths], name))
-
-
-@router.post("/diagnose/pose", summary="Diagnose one pose", responses=error_responses(422))
-def diagnose_joint_pose(body: PoseDiagnosisRequest, cells: CellsDep) -> PoseDiagnosis:
-    """TCP pose, branch, margins, singularity, clearance with the closest object, nearest
-    targets and the other branches of the same tool pose."""
-    scene = cells.read().scene
-    q = joints_si_from_request(scene.robot, [body.joints_deg])
-    return diagnose_pose(scene, q[0])
+    scene = (await run_in_threadpool(cells.read)).scene
+    index = index_of_named("path", [path.name for path in scene.paths], name)
+    return await compute_for(request, lambda: check_path(scene, index))
 
 
 @router.post(
-    "/diagnose/log", summary="Diagnose a controller log", responses=error_responses(413, 422)
+    "/diagnose/pose", summary="Diagnose one pose", responses=error_responses(422, 429, 503)
 )
-def diagnose_joint_log(body: LogDiagnosisRequest, cells: CellsDep) -> LogDiagnosis:
+async def diagnose_joint_pose(
+    body: PoseDiagnosisRequest, cells: CellsDep, request: Request
+) -> PoseDiagnosis:
+    """TCP pose, branch, margins, singularity, clearance with the closest object, nearest
+    targets and the other branches of the same tool pose."""
+
+    def work() -> PoseDiagnosis:
+        scene = cells.read().scene
+        q = joints_si_from_request(scene.robot, [body.joints_deg])
+        return diagnose_pose(scene, q[0])
+
+    return await compute_for(request, work)
+
+
+@router.post(
+    "/diagnose/log",
+    summary="Diagnose a controller log",
+    responses=error_responses(413, 422, 429, 503),
+)
+async def diagnose_joint_log(
+    body: LogDiagnosisRequest, cells: CellsDep, request: Request
+) -> LogDiagnosis:
     """Row-by-row values (margins, clearance, manipulability), the worst row, branch changes,
     velocity jumps and findings."""
-    scene = cells.read().scene
+    scene = (await run_in_threadpool(cells.read)).scene
     try:
-        log = parse_joint_log(body.csv, scene.robot, source=body.source, max_rows=MAX_LOG_ROWS)
+        log = await run_in_threadpool(
+            lambda: parse_joint_log(
+                body.csv, scene.robot, source=body.source, max_rows=MAX_LOG_ROWS
+            )
+        )
     except JointLogTooLongError as error:
         raise HTTPException(
             status_code=413,
             detail=f"csv: {error}; split the log into parts of at most {MAX_LOG_ROWS} rows",
         ) from error
-    return diagnose_log(scene, log)
+    charge_reviewer(request, "log_rows", log.count)
+    return await compute_for(request, lambda: diagnose_log(scene, log))

@@ -2,10 +2,10 @@
 
 from __future__ import annotations
 
-from fastapi import APIRouter
+from fastapi import APIRouter, Request
 
 from posebridge.api.auth import ReviewRoleDep
-from posebridge.api.deps import RobotsDep
+from posebridge.api.deps import RobotsDep, compute_for
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import (
@@ -27,35 +27,47 @@ __all__ = ["router"]
 router = APIRouter(prefix="/api", tags=["kinematics"], route_class=StrictJsonRoute)
 
 
-@router.post("/fk", summary="Forward kinematics", responses=error_responses(403, 422))
-def compute_fk(request: FkRequest, robots: RobotsDep, role: ReviewRoleDep) -> FkResult:
+@router.post("/fk", summary="Forward kinematics", responses=error_responses(403, 422, 503))
+async def compute_fk(
+    body: FkRequest, robots: RobotsDep, role: ReviewRoleDep, request: Request
+) -> FkResult:
     """TCP pose, manipulability, limit margins and drawing geometry per joint configuration."""
-    robot = robots.get(request.robot, paths_allowed=role == "owner")
-    q = joints_si_from_request(robot, request.joints_deg)
-    return fk_result(
-        robot,
-        q,
-        T_flange_tool=tool_transform(request.tool),
-        spec=request.robot,
-        T_world_base=base_transform(request.base),
-    )
+
+    def work() -> FkResult:
+        robot = robots.get(body.robot, paths_allowed=role == "owner")
+        q = joints_si_from_request(robot, body.joints_deg)
+        return fk_result(
+            robot,
+            q,
+            T_flange_tool=tool_transform(body.tool),
+            spec=body.robot,
+            T_world_base=base_transform(body.base),
+        )
+
+    return await compute_for(request, work)
 
 
-@router.post("/ik", summary="Inverse kinematics", responses=error_responses(403, 422))
-def compute_ik(request: IkRequest, robots: RobotsDep, role: ReviewRoleDep) -> IkResult:
+@router.post("/ik", summary="Inverse kinematics", responses=error_responses(403, 422, 503))
+async def compute_ik(
+    body: IkRequest, robots: RobotsDep, role: ReviewRoleDep, request: Request
+) -> IkResult:
     """Every solution of one tool pose on every arm branch, or the reason there is none."""
-    robot = robots.get(request.robot, paths_allowed=role == "owner")
-    T_flange_tool = tool_transform(request.tool)
-    seed = (
-        None
-        if request.seed_deg is None
-        else joints_si_from_request(robot, [request.seed_deg], field="seed_deg")[0]
-    )
-    solutions = solve_ik_all(
-        robot,
-        pose_transform(request.pose, request.base),
-        T_flange_tool=T_flange_tool,
-        seed=seed,
-        all_revolutions=request.all_revolutions,
-    )
-    return ik_result(robot, solutions, T_flange_tool=T_flange_tool, spec=request.robot)
+
+    def work() -> IkResult:
+        robot = robots.get(body.robot, paths_allowed=role == "owner")
+        T_flange_tool = tool_transform(body.tool)
+        seed = (
+            None
+            if body.seed_deg is None
+            else joints_si_from_request(robot, [body.seed_deg], field="seed_deg")[0]
+        )
+        solutions = solve_ik_all(
+            robot,
+            pose_transform(body.pose, body.base),
+            T_flange_tool=T_flange_tool,
+            seed=seed,
+            all_revolutions=body.all_revolutions,
+        )
+        return ik_result(robot, solutions, T_flange_tool=T_flange_tool, spec=body.robot)
+
+    return await compute_for(request, work)

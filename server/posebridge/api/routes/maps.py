@@ -8,6 +8,7 @@ from collections.abc import Callable
 import numpy as np
 from fastapi import APIRouter, HTTPException, Request
 
+from posebridge.api.auth import charge_reviewer
 from posebridge.api.deps import CellsDep, JobsDep
 from posebridge.api.jobs import JobLimitError, JobManager, JobWork
 from posebridge.api.json_body import StrictJsonRoute
@@ -52,8 +53,9 @@ def started(error: JobLimitError) -> HTTPException:
 def start_job(jobs: JobManager, kind: str, request: Request, work: JobWork) -> JobStatus:
     """Queue ``work`` as a job of the asking client and answer with its status (429 when
     the client has too many jobs or started too many lately)."""
+    reviewer = getattr(request.state, "review_role", "reviewer") != "owner"
     try:
-        job = jobs.start(kind, client_key(request), work)
+        job = jobs.start(kind, client_key(request), work, reviewer=reviewer)
     except JobLimitError as error:
         raise started(error) from error
     return job_status(job)
@@ -88,6 +90,7 @@ def start_joint_map(
             detail=f"resolution: a {len(body.joints)}-joint map of {body.resolution} cells per "
             f"axis has {cells_count} cells; this server computes at most {largest}",
         )
+    charge_reviewer(request, "job_cells", cells_count)
     q_hold = joints_si_from_request(robot, [body.hold_deg], field="hold_deg")[0]
     scene = snapshot.clearance
 
@@ -136,6 +139,7 @@ def start_reach_section(
             detail=f"voxel_mm: {body.voxel_mm:g} mm cells over this robot's reach make "
             f"{cells_per_axis**2} cells; this server computes at most {MAX_SECTION_CELLS}",
         )
+    charge_reviewer(request, "job_cells", cells_per_axis**2)
     value = float(m_from_mm(body.value_mm))
     k = 2 if body.axis == "z" else 1
     box = np.stack([centre - reach, centre + reach])

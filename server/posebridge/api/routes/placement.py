@@ -7,6 +7,7 @@ from collections.abc import Callable
 
 from fastapi import APIRouter, HTTPException, Request
 
+from posebridge.api.auth import charge_reviewer
 from posebridge.api.deps import CellsDep, JobsDep
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.routes.maps import start_job
@@ -41,6 +42,7 @@ def start_placement(
             f"{heights} heights = {candidates} candidates; this server searches at most "
             f"{MAX_PLACEMENT_CANDIDATES}",
         )
+    charge_reviewer(request, "job_cells", candidates)
     scene = cells.read().scene
     around = PlacementGrid.around(
         scene, half_width_mm=body.half_width_mm, count=body.count, yaw_count=body.yaw_count

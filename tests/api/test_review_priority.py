@@ -1,0 +1,185 @@
+"""Reviewers' work waits for the owner and is budgeted by cost; finished jobs are bounded.
+
+The rules are our own contract (posebridge.api.lanes, posebridge.api.jobs,
+REVIEWER_CAPS in posebridge.api.auth). Orders of events are asserted, never
+durations. Token buckets: common practice, no source.
+"""
+
+from __future__ import annotations
+
+import asyncio
+import shutil
+import threading
+from collections.abc import AsyncIterator
+from pathlib import Path
+
+import httpx
+import pytest
+from fastapi import FastAPI
+from pydantic import BaseModel
+
+from posebridge.api import auth
+from posebridge.api.app import create_app
+from posebridge.api.auth import REVIEWER_CAPS, enable_review_sharing
+from posebridge.api.jobs import KEPT_FINISHED, KEPT_FINISHED_S, JobManager
+from posebridge.api.lanes import LaneFullError, ReviewerLane
+from posebridge.api.routes import checks as checks_routes
+from posebridge.api.settings import Settings
+from posebridge.resources import data_folder
+from posebridge.review.access import RateCap, RateLimiter, new_review_token
+
+OWNER_URL = "http://127.0.0.1:8000"
+REMOTE_URL = "http://192.0.2.7:8000"
+LOG = "j1,j2,j3,j4,j5,j6\n" + "0,-20,20,0,90,0\n" * 6
+
+
+@pytest.fixture
+def token() -> str:
+    return new_review_token()
+
+
+@pytest.fixture
+def shared_app(tmp_path: Path, token: str) -> FastAPI:
+    cell = tmp_path / "press.json"
+    shutil.copy(data_folder("robots") / "demo-cell.json", cell)
+    app = create_app(Settings(warm_up=False, cell_path=cell, host_names=("192.0.2.7",)))
+    enable_review_sharing(app, token)
+    return app
+
+
+@pytest.fixture
+async def reviewer(shared_app: FastAPI, token: str) -> AsyncIterator[httpx.AsyncClient]:
+    transport = httpx.ASGITransport(app=shared_app, client=("10.0.0.5", 1234))
+    headers = {"Authorization": f"Bearer {token}"}
+    async with httpx.AsyncClient(transport=transport, base_url=REMOTE_URL, headers=headers) as c:
+        yield c
+
+
+@pytest.fixture
+async def owner(shared_app: FastAPI) -> AsyncIterator[httpx.AsyncClient]:
+    transport = httpx.ASGITransport(app=shared_app, client=("127.0.0.1", 5000))
+    async with httpx.AsyncClient(transport=transport, base_url=OWNER_URL) as c:
+        yield c
+
+
+@pytest.mark.anyio
+async def test_reviewer_computation_runs_in_reviewer_lane(
+    reviewer: httpx.AsyncClient, owner: httpx.AsyncClient, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    threads: list[str] = []
+    real = checks_routes.diagnose_pose
+
+    def recorded(*args: object, **kwargs: object) -> object:
+        threads.append(threading.current_thread().name)
+        return real(*args, **kwargs)  # type: ignore[arg-type]
+
+    monkeypatch.setattr(checks_routes, "diagnose_pose", recorded)
+    body = {"joints_deg": [0, -20, 20, 0, 90, 0]}
+    assert (await reviewer.post("/api/cell/diagnose/pose", json=body)).status_code == 200
+    assert (await owner.post("/api/cell/diagnose/pose", json=body)).status_code == 200
+    assert threads[0].startswith("posebridge-review")
+    assert not threads[1].startswith("posebridge-review")
+
+
+@pytest.mark.anyio
+async def test_lane_waits_for_owner_requests() -> None:
+    lane = ReviewerLane(owner_wait_s=60.0)
+    order: list[str] = []
+    lane.owner_started()
+    task = asyncio.ensure_future(lane.run(lambda: order.append("reviewer ran")))
+    await asyncio.sleep(0.2)
+    order.append("owner finished")
+    lane.owner_finished()
+    await task
+    assert order == ["owner finished", "reviewer ran"]
+    lane.close()
+
+
+@pytest.mark.anyio
+async def test_lane_refuses_beyond_waiting_cap() -> None:
+    lane = ReviewerLane(max_waiting=1)
+    release = threading.Event()
+    first = asyncio.ensure_future(lane.run(release.wait))
+    await asyncio.sleep(0)
+    with pytest.raises(LaneFullError, match="1 reviewer computations are waiting"):
+        await lane.run(lambda: None)
+    release.set()
+    await first
+    lane.close()
+
+
+@pytest.mark.anyio
+async def test_reviewer_log_rows_budget(
+    shared_app: FastAPI,
+    reviewer: httpx.AsyncClient,
+    owner: httpx.AsyncClient,
+    monkeypatch: pytest.MonkeyPatch,
+) -> None:
+    small = RateCap(per_second=0.01, burst=10)
+    monkeypatch.setitem(auth.REVIEWER_CAPS, "log_rows", small)
+    shared_app.state.review_limits = RateLimiter(
+        {**REVIEWER_CAPS, "log_rows": small}, clock=lambda: 0.0
+    )
+    first = await reviewer.post("/api/cell/diagnose/log", json={"csv": LOG})
+    assert first.status_code == 200
+    second = await reviewer.post("/api/cell/diagnose/log", json={"csv": LOG})
+    assert second.status_code == 429
+    # token bucket (clock held still): 4 rows left, 6 asked, refilled at 0.01 rows/s -> 200 s
+    assert second.json()["detail"] == (
+        "too much work from this address for a shared review: 6 rows asked, at most 10 rows "
+        "at once and 0.6 a minute; retry in 200.0 s"
+    )
+    assert second.headers["retry-after"] == "200"
+    for _ in range(3):  # the owner is never charged
+        assert (await owner.post("/api/cell/diagnose/log", json={"csv": LOG})).status_code == 200
+
+
+class _Tiny(BaseModel):
+    value: int
+
+
+def test_finished_jobs_are_bounded_and_expire() -> None:
+    now = [0.0]
+    jobs = JobManager(clock=lambda: now[0])
+    started = []
+    for k in range(KEPT_FINISHED + 8):
+        job = jobs.start("tiny", f"client-{k}", lambda progress, cancel, k=k: _Tiny(value=k))
+        started.append(job.id)
+    for job_id in started[-1:]:
+        while True:  # wait on the job's state (the worker runs them in order)
+            try:
+                if not jobs.get(job_id).active:
+                    break
+            except KeyError:
+                break
+    kept = []
+    for job_id in started:
+        try:
+            kept.append(jobs.get(job_id).id)
+        except KeyError:
+            continue
+    # the newest KEPT_FINISHED finished jobs remain, the older ones (and results) are gone
+    assert kept == started[-KEPT_FINISHED:]
+    now[0] = KEPT_FINISHED_S + 1.0
+    for job_id in kept:
+        with pytest.raises(KeyError):
+            jobs.get(job_id)
+    jobs.close()
+
+
+def test_reviewer_job_steps_yield_to_owner() -> None:
+    pauses: list[str] = []
+    jobs = JobManager(reviewer_pause=lambda: pauses.append(threading.current_thread().name))
+
+    def work(progress: object, cancel: object) -> _Tiny:
+        for step in range(3):
+            progress(step + 1, 3)  # type: ignore[operator]
+        return _Tiny(value=1)
+
+    owner_job = jobs.start("tiny", "owner", work)
+    reviewer_job = jobs.start("tiny", "reviewer", work, reviewer=True)
+    for job in (owner_job, reviewer_job):
+        while jobs.get(job.id).active:
+            threading.Event().wait(0.01)
+    assert pauses == ["posebridge-review-jobs"] * 3
+    jobs.close()
