@@ -14,6 +14,7 @@ from posebridge.bench.kinematics import bench_kinematics
 from posebridge.bench.maps import bench_maps
 from posebridge.bench.placement import bench_placement
 from posebridge.bench.sequence import bench_sequence
+from posebridge.bench.review_load import bench_review_load
 
 __all__ = ["BENCHMARKS", "run_benchmarks"]
 
@@ -33,6 +34,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("base placement", bench_placement),
     Benchmark("solution sequence and blended timing", bench_sequence),
     Benchmark("dashboard drag round trip", bench_drag),
+    Benchmark("shared review under load", bench_review_load),
 )
 
 

@@ -15,6 +15,7 @@ router = APIRouter(prefix="/api/health", tags=["health"], route_class=StrictJson
 
 
 @router.get("", summary="Server is up")
-def read_health() -> HealthResult:
-    """Answers as soon as the server accepts requests."""
+async def read_health() -> HealthResult:
+    """Answers as soon as the server accepts requests (on the event loop: no worker thread
+    needed, so it answers while worker threads are busy)."""
     return HealthResult(status="ok", version=version("posebridge"))
