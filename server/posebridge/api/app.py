@@ -7,12 +7,14 @@ installed plotly package, so the page works with the network off.
 from __future__ import annotations
 
 from collections.abc import AsyncIterator, Awaitable, Callable
-from contextlib import asynccontextmanager
+from contextlib import asynccontextmanager, suppress
 from importlib.metadata import version
 from importlib.resources import files
 from pathlib import Path
+from typing import Any
 
 from fastapi import FastAPI, Request
+from fastapi.openapi.utils import get_openapi
 from fastapi.responses import FileResponse, HTMLResponse, JSONResponse, Response
 from fastapi.staticfiles import StaticFiles
 from fastapi.templating import Jinja2Templates
@@ -23,6 +25,7 @@ from posebridge.api.errors import install_error_handlers
 from posebridge.api.guard import RequestGuardMiddleware, content_security_policy
 from posebridge.api.jobs import JobManager
 from posebridge.api.lanes import ReviewerLane
+from posebridge.api.methods import MethodsMiddleware
 from posebridge.api.plotly_assets import plotly_assets
 from posebridge.api.robot_cache import RobotCache
 from posebridge.api.routes import (
@@ -69,6 +72,45 @@ def _warm_up(cache: RobotCache, robot_spec: str, cells: CellStore) -> None:
     joint_map(snapshot.clearance, [0, 1], snapshot.scene.robot.home_configuration(), resolution=2)
     if snapshot.scene.targets.names:
         check_targets(snapshot.scene)
+
+
+_ROBOT_FILE_PATTERN = r"(?i)\.(toml|urdf)/*$"
+
+
+def _served_robots(app: FastAPI) -> list[str]:
+    """Robot names every asker may use: the bundled ones and the cell's robot."""
+    robots: RobotCache = app.state.robots
+    with suppress(CellFileError):  # a cell that cannot be read now serves no robot
+        cells.cell_robot_spec(app.state.cells.read(), robots)
+    return robots.served_names()
+
+
+def _with_robot_names(
+    document: dict[str, Any], names: list[str], paths_allowed: bool
+) -> dict[str, Any]:
+    """``document`` with the robot fields of the kinematics requests and the robot model
+    query limited to ``names`` (and, where robot files are read, .toml/.urdf paths)."""
+    served: dict[str, Any] = {"type": "string", "enum": names}
+    if paths_allowed:
+        path = {
+            "type": "string",
+            "minLength": 1,
+            "maxLength": 1000,
+            "pattern": _ROBOT_FILE_PATTERN,
+            "description": "A robot file on the serving machine (the owner only).",
+        }
+        served = {"anyOf": [served, path]}
+    for model in ("FkRequest", "IkRequest"):
+        field = document["components"]["schemas"][model]["properties"]["robot"]
+        document["components"]["schemas"][model]["properties"]["robot"] = {
+            "title": field.get("title", "Robot"),
+            "description": field.get("description", ""),
+            **served,
+        }
+    for parameter in document["paths"]["/api/robots/model"]["get"]["parameters"]:
+        if parameter["name"] == "robot":
+            parameter["schema"] = {"title": "Robot", **served}
+    return document
 
 
 def _limit_request_size(app: FastAPI, limit: int) -> None:
@@ -131,6 +173,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         expected_errors=_JOB_INPUT_ERRORS, reviewer_pause=app.state.reviewer_lane.yield_to_owner
     )
     install_error_handlers(app)
+    app.add_middleware(MethodsMiddleware, dashboard=app)
     _limit_request_size(app, settings.max_request_bytes)
     install_review_access(app)
     # added last, so it runs first: Host, Origin and body type before any role is decided
@@ -148,6 +191,19 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     ]
     for router in routers:
         app.include_router(router)
+
+    def openapi_document() -> dict[str, Any]:
+        """The OpenAPI document, built afresh: robot names are the ones served now."""
+        document = get_openapi(
+            title=app.title,
+            version=app.version,
+            summary=app.summary,
+            description=app.description,
+            routes=app.routes,
+        )
+        return _with_robot_names(document, _served_robots(app), settings.robot_paths_allowed)
+
+    app.openapi = openapi_document  # type: ignore[method-assign]
 
     templates = Jinja2Templates(directory=data_folder("templates"))
     plotly_script = plotly_script_path()

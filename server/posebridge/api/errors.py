@@ -78,9 +78,18 @@ def _json_error(
     )
 
 
+_IF_MATCH_MISSING = (
+    "If-Match: required; send the etag of the cell version you edited (from GET /api/cell)"
+)
+
+
 async def _on_validation(request: Request, error: Exception) -> JSONResponse:
     assert isinstance(error, RequestValidationError)
-    return _json_error(request, 422, validation_message(error.errors()))
+    errors = error.errors()
+    if any(e["type"] == "missing" and tuple(e["loc"]) == ("header", "if-match") for e in errors):
+        # a change without the version it was made from: 428 Precondition Required (RFC 6585)
+        return _json_error(request, 428, _IF_MATCH_MISSING)
+    return _json_error(request, 422, validation_message(errors))
 
 
 async def _on_http(request: Request, error: Exception) -> JSONResponse:

@@ -33,6 +33,11 @@ class StrictJsonRequest(Request):
                 raise HTTPException(
                     status_code=422, detail=f"request body: not valid JSON: {error}"
                 ) from error
+            except UnicodeDecodeError as error:  # FastAPI would answer 400 for this alone
+                raise HTTPException(
+                    status_code=422,
+                    detail=f"request body: not UTF-8 JSON ({error.reason} at byte {error.start})",
+                ) from error
         return self._json
 
 

@@ -43,10 +43,12 @@ __all__ = ["cell_robot_spec", "index_of_named", "router"]
 router = APIRouter(prefix="/api/cell", tags=["cell"], route_class=StrictJsonRoute)
 
 IfMatch = Annotated[
-    str | None,
+    str,
     Header(
+        min_length=1,
         max_length=200,
-        description="The etag of the cell version the change was made from (quotes optional).",
+        description="Required: the etag of the cell version the change was made from (quotes "
+        "optional). Missing: 428; another version than the cell's current one: 412.",
     ),
 ]
 Name = Annotated[str, Path(min_length=1, max_length=100)]
@@ -74,13 +76,10 @@ def _answer(
     return cell_document(snapshot, cell_robot_spec(snapshot, robots), owner=role == "owner")
 
 
-def _expected_etag(if_match: str | None) -> str:
-    if if_match is None or not if_match.strip():
-        raise HTTPException(
-            status_code=428,
-            detail="If-Match: required; send the etag of the cell version you edited "
-            "(from GET /api/cell)",
-        )
+def _expected_etag(if_match: str) -> str:
+    """The content version an ``If-Match`` value names (quotes and ``W/`` dropped); a
+    missing header is 428 before this (posebridge.api.errors), a blank one names no
+    version and gets 412."""
     value = if_match.strip()
     if value.startswith("W/"):
         value = value[2:]
@@ -136,7 +135,7 @@ def read_cell(
 
 @router.put("", summary="Replace the cell", responses=error_responses(*_SAVE_ERRORS))
 def replace_cell(
-    cell: Cell, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch = None
+    cell: Cell, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch
 ) -> CellDocument:
     """Replace the whole cell; saved atomically with a .bak of the previous file."""
     expected = _expected_etag(if_match)
@@ -202,7 +201,7 @@ def move_target(
     cells: CellsDep,
     robots: RobotsDep,
     response: Response,
-    if_match: IfMatch = None,
+    if_match: IfMatch,
 ) -> CellDocument:
     """New tool pose of one target, given in the world (default) or in its fixture's frame."""
     expected = _expected_etag(if_match)
@@ -225,7 +224,7 @@ def move_fixture(
     cells: CellsDep,
     robots: RobotsDep,
     response: Response,
-    if_match: IfMatch = None,
+    if_match: IfMatch,
 ) -> CellDocument:
     """New pose of one fixture in its parent's frame (the world without a parent) or in the
     world; its children and targets move with it."""
@@ -281,7 +280,7 @@ def move_waypoint(
     cells: CellsDep,
     robots: RobotsDep,
     response: Response,
-    if_match: IfMatch = None,
+    if_match: IfMatch,
 ) -> CellDocument:
     """New tool pose in the world of a path waypoint given as a pose. Target waypoints move
     with their target, joint-values waypoints are edited in the cell file."""
@@ -302,7 +301,7 @@ def move_waypoint(
 
 @router.patch("/base", summary="Move the robot base", responses=error_responses(*_SAVE_ERRORS))
 def move_base(
-    edit: BaseEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch = None
+    edit: BaseEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch
 ) -> CellDocument:
     """New pedestal foot pose in the world (and pedestal height); the robot moves with it."""
     expected = _expected_etag(if_match)

@@ -11,7 +11,7 @@ from typing import Annotated
 
 from pydantic import BaseModel, ConfigDict, Field
 
-from posebridge.api.schemas.kinematics import MAX_JOINTS, Finite
+from posebridge.api.schemas.kinematics import MAX_JOINTS, Finite, WholeNumber
 
 __all__ = [
     "MAX_LOG_CHARS",
@@ -63,8 +63,12 @@ class PlacementRequest(BaseModel):
         allow_inf_nan=False,
         description="Candidate foot positions within this distance of the current one, in x and y.",
     )
-    count: int = Field(default=21, ge=1, le=101, description="Positions along x and along y.")
-    yaw_count: int = Field(default=8, ge=1, le=72, description="Yaws evenly around the turn.")
+    count: WholeNumber = Field(
+        default=21, ge=1, le=101, description="Positions along x and along y."
+    )
+    yaw_count: WholeNumber = Field(
+        default=8, ge=1, le=72, description="Yaws evenly around the turn."
+    )
     heights_mm: (
         Annotated[
             list[Annotated[float, Field(ge=0.0, le=5000.0, allow_inf_nan=False)]],
@@ -72,6 +76,6 @@ class PlacementRequest(BaseModel):
         ]
         | None
     ) = Field(default=None, description="Pedestal heights; the current one if omitted.")
-    top: int = Field(default=10, ge=1, le=50, description="Candidates listed with details.")
+    top: WholeNumber = Field(default=10, ge=1, le=50, description="Candidates listed with details.")
     collision_margin_mm: float = Field(default=0.0, ge=0.0, le=500.0, allow_inf_nan=False)
     clearance_goal_mm: float = Field(default=50.0, ge=0.0, le=1000.0, allow_inf_nan=False)

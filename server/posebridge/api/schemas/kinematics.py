@@ -45,6 +45,7 @@ __all__ = [
     "IkSolution",
     "Pose",
     "ToolOffset",
+    "WholeNumber",
     "base_transform",
     "fk_result",
     "ik_result",
@@ -76,13 +77,32 @@ _MANIPULABILITY_DESCRIPTION = (
     "units (m^k per rad^k, k = min(3, joints)); 0 at a singularity."
 )
 
+
+def _whole_float_as_int(value: object) -> object:
+    """JSON Schema's ``integer`` includes numbers with a zero fractional part (``65.0``):
+    read them as ints; everything else is left to the strict int check."""
+    if isinstance(value, float) and value.is_integer():
+        return int(value)
+    return value
+
+
+WholeNumber = Annotated[int, BeforeValidator(_whole_float_as_int)]
+"""An integer field of a request: ``65`` and ``65.0`` are accepted, ``"65"``, ``65.5`` and
+``true`` are refused (JSON Schema 2020-12 validation, sec. 6.1.1 ``integer``)."""
+
 # A finite number within +-1e6 (mm or deg).
 Finite = Annotated[float, Field(allow_inf_nan=False, ge=-1e6, le=1e6)]
 Vector3 = Annotated[list[Finite], Field(min_length=3, max_length=3)]
 JointVector = Annotated[list[Finite], Field(min_length=1, max_length=MAX_JOINTS)]
 RobotSpec = Annotated[
     str,
-    Field(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
+    Field(
+        min_length=1,
+        max_length=1000,
+        description="A robot the server serves: a bundled name, the cell's robot (the robot "
+        "field of GET /api/cell) or, for the owner of a server that is not shared, a "
+        ".toml/.urdf path.",
+    ),
 ]
 
 
@@ -160,7 +180,13 @@ class FkRequest(BaseModel):
     robot: RobotSpec
     joints_deg: Annotated[
         list[JointVector],
-        BeforeValidator(_batch_from_single, json_schema_input_type=list[list[float]] | list[float]),
+        BeforeValidator(
+            _batch_from_single,
+            json_schema_input_type=Annotated[
+                list[JointVector], Field(min_length=1, max_length=MAX_CONFIGURATIONS)
+            ]
+            | JointVector,
+        ),
         Field(min_length=1, max_length=MAX_CONFIGURATIONS),
     ] = Field(
         description=_JOINTS_DESCRIPTION

@@ -12,7 +12,7 @@ from typing import Annotated, Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 
-from posebridge.api.schemas.kinematics import MAX_JOINTS, Finite
+from posebridge.api.schemas.kinematics import MAX_JOINTS, Finite, WholeNumber
 from posebridge.robot.model import Robot
 from posebridge.spaces.joint_map import JointMap
 from posebridge.spaces.workspace import ReachSection
@@ -46,13 +46,13 @@ class JointMapRequest(BaseModel):
     model_config = ConfigDict(extra="forbid", strict=True)
 
     joints: Annotated[
-        list[Annotated[int, Field(ge=0, lt=MAX_JOINTS)]], Field(min_length=2, max_length=3)
+        list[Annotated[WholeNumber, Field(ge=0, lt=MAX_JOINTS)]], Field(min_length=2, max_length=3)
     ] = Field(description="Chosen joint indices (0-based), distinct.")
     hold_deg: Annotated[list[Finite], Field(min_length=1, max_length=MAX_JOINTS)] = Field(
         description="The configuration the map is a slice through; the chosen joints are swept. "
         + _JOINTS
     )
-    resolution: int = Field(
+    resolution: WholeNumber = Field(
         default=96,
         ge=2,
         le=256,

@@ -7,6 +7,7 @@ from typing import Any, Literal
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from posebridge.api.schemas.errors import ErrorMessage
+from posebridge.api.schemas.kinematics import WholeNumber
 from posebridge.cell.model import MAX_NAME_CHARS, MAX_WAYPOINTS, Cell
 from posebridge.review.comments import (
     MAX_AUTHOR_CHARS,
@@ -80,7 +81,7 @@ class CommentPin(BaseModel):
         max_length=MAX_NAME_CHARS,
         description="Path name (kind waypoint only).",
     )
-    waypoint: int | None = Field(
+    waypoint: WholeNumber | None = Field(
         default=None,
         ge=0,
         lt=MAX_WAYPOINTS,
