@@ -650,7 +650,7 @@ def test_too_many_chain_joints_refused() -> None:
     with pytest.raises(RobotDescriptionError) as error:
         parse_robot_urdf(_chain_urdf(MAX_CHAIN_JOINTS + 1), "long.urdf")
     assert error.value.problems == [
-        f"long.urdf: robot: {MAX_CHAIN_JOINTS + 1} moving joints between base link 'l0' and tip "
-        f"link 'l{MAX_CHAIN_JOINTS + 1}'; posebridge takes at most {MAX_CHAIN_JOINTS}"
+        f"long.urdf: robot: {MAX_CHAIN_JOINTS + 1} moving joints between from_link 'l0' and to_link "
+        f"'l{MAX_CHAIN_JOINTS + 1}'; posebridge takes at most {MAX_CHAIN_JOINTS}"
     ]
     assert parse_robot_urdf(_chain_urdf(MAX_CHAIN_JOINTS), "long.urdf").dof == MAX_CHAIN_JOINTS
