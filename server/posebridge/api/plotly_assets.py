@@ -15,9 +15,10 @@ the installed plotly.min.js once, so the server can serve them as
 * a bundled stylesheet that plotly.js adds under a fixed element id only when
   no element has that id (served as ``/vendor/plotly-bundled.css`` with that
   id on its ``<link>``);
-* the one style attribute plotly.js sets with ``setAttribute`` (crisp heatmap
-  pixels): its SHA-256 goes into the policy's ``style-src-attr`` (CSP Level 3,
-  ``'unsafe-hashes'``), the only inline style the page allows.
+* the style attributes plotly.js sets with ``setAttribute`` (crisp heatmap
+  pixels, and an empty one on colour bar fills): their SHA-256 go into the
+  policy's ``style-src-attr`` (CSP Level 3, ``'unsafe-hashes'``), the only
+  inline styles the page allows.
 
 If a future plotly.js changes these, the page still works (plotly.js then
 logs that a style rule was refused); the browser tests check the console.
@@ -86,13 +87,17 @@ class PlotlyAssets:
                 )
                 rules.append(f"{selector}{{{_js_string(value)}}}")
         bundled = _BUNDLED.search(script)
-        hashes = []
+        styles = []
         declarations = _DECLARATIONS.search(script)
         if declarations is not None:
             pairs = json.loads(declarations.group(1))
-            style = "".join(": ".join(pair) + "; " for pair in pairs)
-            digest = base64.b64encode(hashlib.sha256(style.encode()).digest()).decode()
-            hashes.append(f"'sha256-{digest}'")
+            styles.append("".join(": ".join(pair) + "; " for pair in pairs))
+        if 'attr("style","")' in script:  # colour bar fills are reset to an empty style
+            styles.append("")
+        hashes = [
+            f"'sha256-{base64.b64encode(hashlib.sha256(style.encode()).digest()).decode()}'"
+            for style in styles
+        ]
         return cls(
             global_css="\n".join(reversed(rules)) + "\n",
             bundled_style_id=None if bundled is None else bundled.group(1),
