@@ -13,8 +13,8 @@ from posebridge.bench.ik_offset_wrist import bench_ik_offset_wrist
 from posebridge.bench.kinematics import bench_kinematics
 from posebridge.bench.maps import bench_maps
 from posebridge.bench.placement import bench_placement
-from posebridge.bench.sequence import bench_sequence
 from posebridge.bench.review_load import bench_review_load
+from posebridge.bench.sequence import bench_sequence
 
 __all__ = ["BENCHMARKS", "run_benchmarks"]
 
