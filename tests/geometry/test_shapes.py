@@ -90,7 +90,7 @@ def test_default_pair_mask_excludes_base_against_floor(robot) -> None:
             r"cylinder 'c' half_length: expected a finite value > 0 m",
         ),
         (Floor(math.inf), "floor 'floor' height: expected a finite value"),
-        ("wall", "obstacle 0: expected Box, Cylinder or Floor, got str"),
+        ("wall", "obstacle 0: expected Box, Cylinder, Floor or Mesh, got str"),
     ],
 )
 def test_obstacles_are_validated(shape, message: str) -> None:

@@ -38,8 +38,10 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.geometry.distance import _capsule_capsule, _capsule_obstacle, _obstacle_record
+from posebridge.geometry.mesh_bvh import _capsule_mesh
 from posebridge.geometry.shapes import (
     FLOOR,
+    MESH,
     ArmCapsules,
     GeometryInputError,
     IntArray,
@@ -160,13 +162,13 @@ def _capsules_world(
 
 
 @nb.njit(cache=True, inline="always")
-def _sphere_bound(c, o, C, cap_bound, kind, translation, params, obs_bound):
+def _sphere_bound(c, o, C, cap_bound, kind, centre, params, obs_bound):
     """Bound 1: capsule ``c``'s bounding sphere against obstacle ``o``'s sphere (or the floor)."""
     if kind[o] == FLOOR:
         return C[c, 2] - params[o, 0] - cap_bound[c]
-    d0 = C[c, 0] - translation[o, 0]
-    d1 = C[c, 1] - translation[o, 1]
-    d2 = C[c, 2] - translation[o, 2]
+    d0 = C[c, 0] - centre[o, 0]
+    d1 = C[c, 1] - centre[o, 1]
+    d2 = C[c, 2] - centre[o, 2]
     return math.sqrt(d0 * d0 + d1 * d1 + d2 * d2) - cap_bound[c] - obs_bound[o]
 
 
@@ -180,13 +182,45 @@ def _self_bound(i, j, C, cap_bound):
 
 
 @nb.njit(cache=True, inline="always")
-def _obstacle_pair(c, o, A, B, radius, kind, rotation, translation, params, needed_below):
+def _obstacle_pair(c, o, A, B, radius, obs, needed_below, first_only, stack):
     """Exact capsule ``c`` - obstacle ``o`` signed distance and world witness points.
 
     A lower bound not below ``needed_below`` may stand in for the distance
-    (see :func:`posebridge.geometry.distance._segment_obstacle`).
+    (see :func:`posebridge.geometry.distance._segment_obstacle`); with
+    ``first_only`` any value below ``needed_below`` may stand in for a mesh's
+    (:func:`posebridge.geometry.mesh_bvh._segment_mesh`).
     """
+    (
+        kind,
+        rotation,
+        translation,
+        params,
+        _,
+        _,
+        mesh_index,
+        root,
+        closed,
+        tolerance,
+        box,
+        link,
+        tri,
+        _,
+    ) = obs
+    meshes = (root, closed, tolerance, box, link, tri)
     kind_o, R, t, prm = _obstacle_record(o, kind, rotation, translation, params)
+    if kind_o == MESH:
+        return _capsule_mesh(
+            (A[c, 0], A[c, 1], A[c, 2]),
+            (B[c, 0], B[c, 1], B[c, 2]),
+            radius[c],
+            R,
+            t,
+            mesh_index[o],
+            meshes,
+            needed_below,
+            first_only,
+            stack,
+        )
     return _capsule_obstacle(
         (A[c, 0], A[c, 1], A[c, 2]),
         (B[c, 0], B[c, 1], B[c, 2]),
@@ -213,7 +247,7 @@ def _self_pair(i, j, A, B, radius):
 
 
 @nb.njit(cache=True, inline="always")
-def _scratch(m, total):
+def _scratch(m, total, stack_size):
     work = (np.empty((3, 3)), np.empty(3), np.empty((3, 3)), np.empty(3))
     return (
         work,
@@ -222,6 +256,7 @@ def _scratch(m, total):
         np.empty((m, 3)),
         np.empty(total),
         np.empty(total, dtype=np.int64),
+        (np.empty(stack_size, dtype=np.int64), np.empty(stack_size)),
     )
 
 
@@ -230,13 +265,13 @@ def _minimum_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
     """Minimum over all checked pairs for configurations ``lo..hi-1``; writes those rows of ``out``."""
     table, prismatic, R_wb, p_wb, order, offsets = chain
     start, end, radius, centre, cap_bound = caps
-    kind, rotation, translation, params, obs_bound = obs
+    kind, _, _, params, obs_bound, obs_centre, _, _, _, _, _, _, _, stack_size = obs
     distance, first, second, is_self, witness = out
     m, n_obs = mask.shape
     n_pairs = pairs.shape[0]
     n_capsule_pairs = m * n_obs
     total = n_capsule_pairs + n_pairs
-    work, A, B, C, bounds, candidates = _scratch(m, total)
+    work, A, B, C, bounds, candidates, stack = _scratch(m, total, stack_size)
     for k in range(lo, hi):
         _capsules_world(
             q[k], table, prismatic, R_wb, p_wb, order, offsets, start, end, centre, work, A, B, C
@@ -248,7 +283,7 @@ def _minimum_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
             for o in range(n_obs):
                 value = math.inf
                 if mask[c, o]:
-                    value = _sphere_bound(c, o, C, cap_bound, kind, translation, params, obs_bound)
+                    value = _sphere_bound(c, o, C, cap_bound, kind, obs_centre, params, obs_bound)
                 bounds[c * n_obs + o] = value
                 if value < seed_bound:
                     seed_bound = value
@@ -279,9 +314,7 @@ def _minimum_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
             if idx < n_capsule_pairs:
                 c = idx // n_obs
                 o = idx - c * n_obs
-                d, wa, wb = _obstacle_pair(
-                    c, o, A, B, radius, kind, rotation, translation, params, best
-                )
+                d, wa, wb = _obstacle_pair(c, o, A, B, radius, obs, best, False, stack)
                 i = c
                 j = o
                 self_pair = False
@@ -336,10 +369,10 @@ def _per_obstacle_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
     """Minimum per obstacle and over the self pairs for configurations ``lo..hi-1``."""
     table, prismatic, R_wb, p_wb, order, offsets = chain
     start, end, radius, centre, cap_bound = caps
-    kind, rotation, translation, params, obs_bound = obs
+    kind, _, _, params, obs_bound, obs_centre, _, _, _, _, _, _, _, stack_size = obs
     distance, self_distance = out
     m, n_obs = mask.shape
-    work, A, B, C, bounds, _ = _scratch(m, m)
+    work, A, B, C, bounds, _, stack = _scratch(m, m, stack_size)
     for k in range(lo, hi):
         _capsules_world(
             q[k], table, prismatic, R_wb, p_wb, order, offsets, start, end, centre, work, A, B, C
@@ -351,21 +384,17 @@ def _per_obstacle_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
             for c in range(m):
                 value = math.inf
                 if mask[c, o]:
-                    value = _sphere_bound(c, o, C, cap_bound, kind, translation, params, obs_bound)
+                    value = _sphere_bound(c, o, C, cap_bound, kind, obs_centre, params, obs_bound)
                 bounds[c] = value
                 if value < seed_bound:
                     seed_bound = value
                     seed = c
             best = math.inf
             if seed >= 0:
-                best = _obstacle_pair(
-                    seed, o, A, B, radius, kind, rotation, translation, params, math.inf
-                )[0]
+                best = _obstacle_pair(seed, o, A, B, radius, obs, math.inf, False, stack)[0]
             for c in range(m):
                 if c != seed and bounds[c] < best:
-                    d = _obstacle_pair(
-                        c, o, A, B, radius, kind, rotation, translation, params, best
-                    )[0]
+                    d = _obstacle_pair(c, o, A, B, radius, obs, best, False, stack)[0]
                     if d < best:
                         best = d
             distance[k, o] = best
@@ -401,9 +430,9 @@ def _collision_range(lo, hi, q, chain, caps, obs, mask, pairs, threshold, out):
     """
     table, prismatic, R_wb, p_wb, order, offsets = chain
     start, end, radius, centre, cap_bound = caps
-    kind, rotation, translation, params, obs_bound = obs
+    kind, _, _, params, obs_bound, obs_centre, _, _, _, _, _, _, _, stack_size = obs
     m, n_obs = mask.shape
-    work, A, B, C, _, _ = _scratch(m, 0)
+    work, A, B, C, _, _, stack = _scratch(m, 0, stack_size)
     for k in range(lo, hi):
         _capsules_world(
             q[k], table, prismatic, R_wb, p_wb, order, offsets, start, end, centre, work, A, B, C
@@ -414,12 +443,10 @@ def _collision_range(lo, hi, q, chain, caps, obs, mask, pairs, threshold, out):
                 if (
                     not hit
                     and mask[c, o]
-                    and _sphere_bound(c, o, C, cap_bound, kind, translation, params, obs_bound)
+                    and _sphere_bound(c, o, C, cap_bound, kind, obs_centre, params, obs_bound)
                     < threshold
                 ):
-                    d = _obstacle_pair(
-                        c, o, A, B, radius, kind, rotation, translation, params, threshold
-                    )[0]
+                    d = _obstacle_pair(c, o, A, B, radius, obs, threshold, True, stack)[0]
                     hit = d < threshold
         for pi in range(pairs.shape[0]):
             i = pairs[pi, 0]
@@ -553,12 +580,17 @@ class ClearanceScene:
         )
         caps = (arm.start, arm.end, arm.radius, arm.bound_centre, arm.bound_radius)
         obstacles = self.obstacles
+        table = obstacles.mesh_table
         obs = (
             obstacles.kind,
             obstacles.rotation,
             obstacles.translation,
             obstacles.params,
             obstacles.bound_radius,
+            obstacles.bound_centre,
+            obstacles.mesh_index,
+            *table.kernel_inputs,
+            table.stack_size,
         )
         return chain, caps, obs
 

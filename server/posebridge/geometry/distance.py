@@ -54,6 +54,7 @@ import numpy.typing as npt
 from posebridge.geometry.shapes import (
     BOX,
     FLOOR,
+    MESH,
     GeometryInputError,
     ObstacleSet,
 )
@@ -664,6 +665,13 @@ def _obstacle_index(obstacles: ObstacleSet, index: int) -> int:
     return int(index)
 
 
+def _pose_of(obstacles: ObstacleSet, o: int) -> FloatArray:
+    T = np.eye(4)
+    T[:3, :3] = obstacles.rotation[o]
+    T[:3, 3] = obstacles.translation[o]
+    return T
+
+
 def closest_points_segment_segment(
     p1: npt.ArrayLike, q1: npt.ArrayLike, p2: npt.ArrayLike, q2: npt.ArrayLike
 ) -> tuple[FloatArray, FloatArray]:
@@ -713,12 +721,19 @@ def closest_points_point_obstacle(
     Returns
     -------
     distance : array, shape (N,)
-        Signed distance, m (negative inside).
+        Signed distance, m (negative inside; unsigned for an open mesh,
+        see ``obstacles.is_signed``).
     closest : array, shape (N, 3)
         Nearest point on the obstacle's surface, world frame.
     """
     x = _points(points, "points")
     o = _obstacle_index(obstacles, index)
+    if obstacles.kind[o] == MESH:
+        from posebridge.geometry.mesh_bvh import signed_distance_points_mesh
+
+        return signed_distance_points_mesh(
+            x, obstacles.meshes[obstacles.mesh_index[o]], _pose_of(obstacles, o)
+        )
     distance = np.empty(x.shape[0])
     closest = np.empty_like(x)
     _point_obstacle_many(
@@ -757,7 +772,8 @@ def closest_points_capsule_obstacle(
     -------
     distance : array, shape (N,)
         ``min_t sd(a + t (b - a)) - radius``, m; negative is the depth of
-        the capsule's deepest point inside the obstacle.
+        the capsule's deepest point inside the obstacle (for a mesh, the
+        estimate of :mod:`posebridge.geometry.mesh_bvh`, never above it).
     witness : array, shape (N, 2, 3)
         Point on the capsule surface, then on the obstacle surface, world frame.
     """
@@ -769,6 +785,12 @@ def closest_points_capsule_obstacle(
     if not np.all(np.isfinite(r)) or np.any(r < 0.0):
         raise GeometryInputError("radius: expected finite values >= 0 m")
     o = _obstacle_index(obstacles, index)
+    if obstacles.kind[o] == MESH:
+        from posebridge.geometry.mesh_bvh import closest_points_capsule_mesh
+
+        mesh = obstacles.meshes[obstacles.mesh_index[o]]
+        result = closest_points_capsule_mesh(a, b, r, mesh, _pose_of(obstacles, o))
+        return result.distance, result.witness
     distance = np.empty(a.shape[0])
     witness = np.empty((a.shape[0], 2, 3))
     _capsule_obstacle_many(

@@ -8,32 +8,44 @@ the numba kernels in :mod:`posebridge.geometry.clearance` read directly.
   link frames) plus optional tool capsules given in the flange frame, which are
   moved into the last link frame here so every capsule rides on one link frame.
 * Obstacles (:class:`ObstacleSet`) are oriented boxes (pose + half extents),
-  cylinders (pose + radius + half length along their local z) and the floor,
-  the half-space ``z <= height`` of the world frame. Poses are ``T_world_shape``.
+  cylinders (pose + radius + half length along their local z), the floor,
+  the half-space ``z <= height`` of the world frame, and triangle meshes
+  (pose + :class:`~posebridge.geometry.meshes.TriangleMesh` in its own frame,
+  queried through :mod:`posebridge.geometry.mesh_bvh`). Poses are
+  ``T_world_shape``.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from functools import cached_property
+from typing import TYPE_CHECKING
 
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.geometry.errors import GeometryInputError
 from posebridge.robot.model import Capsule, Robot
 from posebridge.transforms import TransformError, check_transform
 from posebridge.units import BoolArray, FloatArray
+
+if TYPE_CHECKING:
+    from posebridge.geometry.mesh_bvh import MeshTable
+    from posebridge.geometry.meshes import TriangleMesh
 
 __all__ = [
     "BOX",
     "CYLINDER",
     "FLOOR",
+    "MESH",
     "ArmCapsules",
     "Box",
     "Cylinder",
     "Floor",
     "GeometryInputError",
     "IntArray",
+    "Mesh",
     "ObstacleSet",
     "default_pair_mask",
 ]
@@ -46,10 +58,8 @@ CYLINDER = 1
 """Obstacle kind code of a cylinder (axis along its local z)."""
 FLOOR = 2
 """Obstacle kind code of the floor half-space ``z <= height`` (world frame)."""
-
-
-class GeometryInputError(ValueError):
-    """A shape, pose or pair list of the wrong shape or with invalid values."""
+MESH = 3
+"""Obstacle kind code of a triangle mesh."""
 
 
 def _finite_vector(value: npt.ArrayLike, length: int, field: str) -> FloatArray:
@@ -130,6 +140,24 @@ class Floor:
 
     height: float = 0.0
     name: str = "floor"
+
+
+@dataclass(frozen=True, eq=False)
+class Mesh:
+    """A triangle-mesh obstacle: a mesh in its own frame and the pose of that frame.
+
+    Attributes
+    ----------
+    name : str
+    T_world_mesh : array, shape (4, 4)
+    mesh : TriangleMesh
+        Vertices in the mesh frame, m. Closed meshes get signed distances,
+        open ones unsigned (:mod:`posebridge.geometry.mesh_bvh`).
+    """
+
+    name: str
+    T_world_mesh: FloatArray
+    mesh: TriangleMesh
 
 
 @dataclass(frozen=True, eq=False)
@@ -236,14 +264,20 @@ class ObstacleSet:
     ----------
     names : tuple of str, length k
     kind : array of int64, shape (k,)
-        :data:`BOX`, :data:`CYLINDER` or :data:`FLOOR`.
+        :data:`BOX`, :data:`CYLINDER`, :data:`FLOOR` or :data:`MESH`.
     rotation : array, shape (k, 3, 3)
         ``R_world_obstacle`` (identity for the floor).
     translation : array, shape (k, 3)
         Obstacle frame origin in the world (``(0, 0, height)`` for the floor).
     params : array, shape (k, 3)
         Box: half extents; cylinder: ``(radius, half_length, 0)``;
-        floor: ``(height, 0, 0)``.
+        floor: ``(height, 0, 0)``; mesh: the centre of its bounding sphere in
+        the mesh frame, m.
+    meshes : tuple of TriangleMesh
+        The distinct meshes the mesh obstacles refer to (empty without meshes).
+    mesh_index : array of int64, shape (k,)
+        Index into ``meshes`` of each mesh obstacle, -1 for the other kinds
+        (all -1 when omitted).
     """
 
     names: tuple[str, ...]
@@ -251,14 +285,39 @@ class ObstacleSet:
     rotation: FloatArray
     translation: FloatArray
     params: FloatArray
+    meshes: tuple[TriangleMesh, ...] = ()
+    mesh_index: IntArray = field(default_factory=lambda: np.empty(0, dtype=np.int64))
+
+    def __post_init__(self) -> None:
+        k = len(self.names)
+        if self.mesh_index.shape != (k,):
+            if self.mesh_index.size != 0:
+                raise GeometryInputError(
+                    f"mesh_index: expected shape ({k},), got {self.mesh_index.shape}"
+                )
+            object.__setattr__(self, "mesh_index", np.full(k, -1, dtype=np.int64))
+        is_mesh = self.kind == MESH
+        index = self.mesh_index
+        if np.any(index[is_mesh] < 0) or np.any(index[is_mesh] >= len(self.meshes)):
+            name = self.names[int(np.argmax(is_mesh & ((index < 0) | (index >= len(self.meshes)))))]
+            raise GeometryInputError(
+                f"obstacle {name!r}: a mesh obstacle needs its mesh (meshes and mesh_index); "
+                "take parts of an obstacle set with ObstacleSet.subset"
+            )
+        if np.any(index[~is_mesh] != -1):
+            raise GeometryInputError(
+                "mesh_index: expected -1 for every obstacle that is not a mesh"
+            )
 
     @classmethod
-    def from_shapes(cls, shapes: Sequence[Box | Cylinder | Floor]) -> ObstacleSet:
+    def from_shapes(cls, shapes: Sequence[Box | Cylinder | Floor | Mesh]) -> ObstacleSet:
         """Validate obstacle shapes and pack them into arrays (obstacle ``i`` is ``shapes[i]``).
 
         Parameters
         ----------
-        shapes : sequence of Box, Cylinder or Floor
+        shapes : sequence of Box, Cylinder, Floor or Mesh
+            Mesh obstacles sharing one :class:`~posebridge.geometry.meshes.TriangleMesh`
+            object share its hierarchy.
 
         Returns
         -------
@@ -269,6 +328,8 @@ class ObstacleSet:
         rotation = np.empty((k, 3, 3))
         translation = np.empty((k, 3))
         params = np.zeros((k, 3))
+        mesh_index = np.full(k, -1, dtype=np.int64)
+        meshes: list[TriangleMesh] = []
         for i, shape in enumerate(shapes):
             if isinstance(shape, Box):
                 pose = _pose(shape.T_world_box, f"box {shape.name!r} T_world_box")
@@ -282,13 +343,13 @@ class ObstacleSet:
                 translation[i] = pose[:3, 3]
                 params[i] = half
             elif isinstance(shape, Cylinder):
-                field = f"cylinder {shape.name!r}"
-                pose = _pose(shape.T_world_cylinder, f"{field} T_world_cylinder")
+                field_name = f"cylinder {shape.name!r}"
+                pose = _pose(shape.T_world_cylinder, f"{field_name} T_world_cylinder")
                 kind[i] = CYLINDER
                 rotation[i] = pose[:3, :3]
                 translation[i] = pose[:3, 3]
-                params[i, 0] = _positive(shape.radius, f"{field} radius")
-                params[i, 1] = _positive(shape.half_length, f"{field} half_length")
+                params[i, 0] = _positive(shape.radius, f"{field_name} radius")
+                params[i, 1] = _positive(shape.half_length, f"{field_name} half_length")
             elif isinstance(shape, Floor):
                 height = float(shape.height)
                 if not np.isfinite(height):
@@ -299,9 +360,19 @@ class ObstacleSet:
                 rotation[i] = np.eye(3)
                 translation[i] = (0.0, 0.0, height)
                 params[i, 0] = height
+            elif isinstance(shape, Mesh):
+                pose = _pose(shape.T_world_mesh, f"mesh {shape.name!r} T_world_mesh")
+                known = [j for j, mesh in enumerate(meshes) if mesh is shape.mesh]
+                if not known:
+                    meshes.append(shape.mesh)
+                kind[i] = MESH
+                rotation[i] = pose[:3, :3]
+                translation[i] = pose[:3, 3]
+                mesh_index[i] = known[0] if known else len(meshes) - 1
+                params[i] = shape.mesh.bounding_sphere[0]
             else:
                 raise GeometryInputError(
-                    f"obstacle {i}: expected Box, Cylinder or Floor, got {type(shape).__name__}"
+                    f"obstacle {i}: expected Box, Cylinder, Floor or Mesh, got {type(shape).__name__}"
                 )
         return cls(
             names=tuple(shape.name for shape in shapes),
@@ -309,6 +380,38 @@ class ObstacleSet:
             rotation=rotation,
             translation=translation,
             params=params,
+            meshes=tuple(meshes),
+            mesh_index=mesh_index,
+        )
+
+    def subset(self, indices: Sequence[int] | IntArray) -> ObstacleSet:
+        """The obstacles ``indices`` (in that order) as a set of their own, meshes included.
+
+        Parameters
+        ----------
+        indices : sequence of int
+
+        Returns
+        -------
+        ObstacleSet
+        """
+        chosen = np.asarray(indices, dtype=np.int64).reshape(-1)
+        if chosen.size and (chosen.min() < 0 or chosen.max() >= self.count):
+            raise GeometryInputError(
+                f"indices: expected obstacle indices 0..{self.count - 1}, got {chosen.tolist()}"
+            )
+        used = sorted({int(j) for j in self.mesh_index[chosen] if j >= 0})
+        remap = {old: new for new, old in enumerate(used)}
+        return ObstacleSet(
+            names=tuple(self.names[i] for i in chosen),
+            kind=self.kind[chosen].copy(),
+            rotation=self.rotation[chosen].copy(),
+            translation=self.translation[chosen].copy(),
+            params=self.params[chosen].copy(),
+            meshes=tuple(self.meshes[j] for j in used),
+            mesh_index=np.array(
+                [remap[int(j)] if j >= 0 else -1 for j in self.mesh_index[chosen]], dtype=np.int64
+            ),
         )
 
     @property
@@ -318,13 +421,40 @@ class ObstacleSet:
 
     @property
     def bound_radius(self) -> FloatArray:
-        """Bounding-sphere radius about the frame origin, shape (k,); infinite for the floor."""
+        """Bounding-sphere radius about :attr:`bound_centre`, shape (k,); infinite for the floor."""
         radius = np.full(self.count, np.inf)
         box = self.kind == BOX
         radius[box] = np.linalg.norm(self.params[box], axis=1)
         cylinder = self.kind == CYLINDER
         radius[cylinder] = np.hypot(self.params[cylinder, 0], self.params[cylinder, 1])
+        for o in np.flatnonzero(self.kind == MESH):
+            radius[o] = self.meshes[self.mesh_index[o]].bounding_sphere[1]
         return radius
+
+    @property
+    def bound_centre(self) -> FloatArray:
+        """Bounding-sphere centre in the world, shape (k, 3): the frame origin except for meshes."""
+        centre = self.translation.copy()
+        mesh = self.kind == MESH
+        centre[mesh] = (
+            np.einsum("kij,kj->ki", self.rotation[mesh], self.params[mesh]) + centre[mesh]
+        )
+        return centre
+
+    @property
+    def is_signed(self) -> BoolArray:
+        """Obstacles with an inside (negative distances inside), shape (k,): all but open meshes."""
+        signed = np.ones(self.count, dtype=bool)
+        for o in np.flatnonzero(self.kind == MESH):
+            signed[o] = self.meshes[self.mesh_index[o]].is_closed
+        return signed
+
+    @cached_property
+    def mesh_table(self) -> MeshTable:
+        """The meshes' hierarchies packed for the kernels (:class:`~posebridge.geometry.mesh_bvh.MeshTable`)."""
+        from posebridge.geometry.mesh_bvh import MeshTable
+
+        return MeshTable.pack([mesh.bvh for mesh in self.meshes])
 
 
 def default_pair_mask(arm: ArmCapsules, obstacles: ObstacleSet) -> BoolArray:
