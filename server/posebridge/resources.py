@@ -10,7 +10,7 @@ import os
 import shutil
 from pathlib import Path
 
-__all__ = ["DEMO_FILES", "data_folder", "demo_working_folder"]
+__all__ = ["DEMO_FILES", "data_folder", "demo_working_folder", "user_data_folder"]
 
 DEMO_FILES = ("demo-cell.json", "demo-log.csv")
 """The bundled demo cell and its invented controller log."""
@@ -32,6 +32,16 @@ def data_folder(name: str) -> Path:
     raise FileNotFoundError(f"bundled folder {name!r} not found in {packaged} or {repository}")
 
 
+def user_data_folder() -> Path:
+    """posebridge's folder for the user's own data (not created here).
+
+    ``$XDG_DATA_HOME/posebridge`` (``~/.local/share/posebridge`` by default):
+    the demo working copy, the mesh cache.
+    """
+    base = Path(os.environ.get("XDG_DATA_HOME") or Path.home() / ".local" / "share")
+    return base / "posebridge"
+
+
 def demo_working_folder() -> Path:
     """A writable folder holding a working copy of the demo files, created on first use.
 
@@ -40,8 +50,7 @@ def demo_working_folder() -> Path:
     bundled originals; a missing file is copied again, an existing one is kept
     (delete it to start afresh).
     """
-    base = Path(os.environ.get("XDG_DATA_HOME") or Path.home() / ".local" / "share")
-    folder = base / "posebridge" / "demo"
+    folder = user_data_folder() / "demo"
     folder.mkdir(parents=True, exist_ok=True)
     for name in DEMO_FILES:
         copy = folder / name

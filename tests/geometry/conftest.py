@@ -25,6 +25,7 @@ Each is a textbook closed form written out directly, vectorised over rows:
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from types import SimpleNamespace
 
 import numpy as np
@@ -200,3 +201,112 @@ def reference() -> SimpleNamespace:
         signed_point_mesh_distance=signed_point_mesh_distance,
         capsule_mesh_distance=capsule_mesh_distance,
     )
+
+
+def box_step_text(lo, hi, *, length_prefix: str = ".MILLI.") -> str:
+    """A STEP (ISO 10303-21, AP214) file of one box solid from corner ``lo`` to ``hi``.
+
+    A manifold solid B-rep with six planar faces, written entity by entity
+    (ISO 10303-42 topology: vertex points, line edges, edge loops, advanced
+    faces, a closed shell) inside the minimal product structure, in the
+    length unit ``SI_UNIT(<prefix>, .METRE.)`` (``"$"`` for metres).
+    """
+    lo = np.asarray(lo, dtype=float)
+    hi = np.asarray(hi, dtype=float)
+    corners = [
+        np.array([(lo, hi)[i][0], (lo, hi)[j][1], (lo, hi)[k][2]])
+        for i in (0, 1)
+        for j in (0, 1)
+        for k in (0, 1)
+    ]
+    quads = [(0, 1, 3, 2), (4, 6, 7, 5), (0, 4, 5, 1), (2, 3, 7, 6), (0, 2, 6, 4), (1, 5, 7, 3)]
+    lines: list[str] = []
+
+    def entity(text: str) -> int:
+        lines.append(f"#{len(lines) + 1}={text};")
+        return len(lines)
+
+    def vector(values) -> str:
+        return "(" + ",".join(f"{x:.9f}" for x in values) + ")"
+
+    points = [entity(f"CARTESIAN_POINT('',{vector(c)})") for c in corners]
+    vertices = [entity(f"VERTEX_POINT('',#{p})") for p in points]
+    edges: dict[tuple[int, int], int] = {}
+
+    def edge(a: int, b: int) -> tuple[int, bool]:
+        key = (min(a, b), max(a, b))
+        if key not in edges:
+            d = corners[key[1]] - corners[key[0]]
+            length = float(np.linalg.norm(d))
+            direction = entity(f"DIRECTION('',{vector(d / length)})")
+            vec = entity(f"VECTOR('',#{direction},{length:.9f})")
+            line = entity(f"LINE('',#{points[key[0]]},#{vec})")
+            edges[key] = entity(
+                f"EDGE_CURVE('',#{vertices[key[0]]},#{vertices[key[1]]},#{line},.T.)"
+            )
+        return edges[key], (a, b) == key
+
+    faces = []
+    for quad in quads:
+        oriented = []
+        for i in range(4):
+            curve, same = edge(quad[i], quad[(i + 1) % 4])
+            oriented.append(entity(f"ORIENTED_EDGE('',*,*,#{curve},{'.T.' if same else '.F.'})"))
+        loop = entity("EDGE_LOOP('',(" + ",".join(f"#{o}" for o in oriented) + "))")
+        bound = entity(f"FACE_OUTER_BOUND('',#{loop},.T.)")
+        c = [corners[i] for i in quad]
+        normal = np.cross(c[1] - c[0], c[2] - c[0])
+        normal /= np.linalg.norm(normal)
+        x_axis = (c[1] - c[0]) / np.linalg.norm(c[1] - c[0])
+        nz = entity(f"DIRECTION('',{vector(normal)})")
+        nx = entity(f"DIRECTION('',{vector(x_axis)})")
+        placement = entity(f"AXIS2_PLACEMENT_3D('',#{points[quad[0]]},#{nz},#{nx})")
+        plane = entity(f"PLANE('',#{placement})")
+        faces.append(entity(f"ADVANCED_FACE('',(#{bound}),#{plane},.T.)"))
+    shell = entity("CLOSED_SHELL('',(" + ",".join(f"#{f}" for f in faces) + "))")
+    solid = entity(f"MANIFOLD_SOLID_BREP('',#{shell})")
+    origin = entity("CARTESIAN_POINT('',(0.,0.,0.))")
+    z = entity("DIRECTION('',(0.,0.,1.))")
+    x = entity("DIRECTION('',(1.,0.,0.))")
+    axes = entity(f"AXIS2_PLACEMENT_3D('',#{origin},#{z},#{x})")
+    length = entity(f"(LENGTH_UNIT()NAMED_UNIT(*)SI_UNIT({length_prefix},.METRE.))")
+    angle = entity("(NAMED_UNIT(*)PLANE_ANGLE_UNIT()SI_UNIT($,.RADIAN.))")
+    steradian = entity("(NAMED_UNIT(*)SI_UNIT($,.STERADIAN.)SOLID_ANGLE_UNIT())")
+    uncertainty = entity(
+        f"UNCERTAINTY_MEASURE_WITH_UNIT(LENGTH_MEASURE(1.E-05),#{length},'distance_accuracy_value','')"
+    )
+    context = entity(
+        "(GEOMETRIC_REPRESENTATION_CONTEXT(3)GLOBAL_UNCERTAINTY_ASSIGNED_CONTEXT((#"
+        f"{uncertainty}))GLOBAL_UNIT_ASSIGNED_CONTEXT((#{length},#{angle},#{steradian}))"
+        "REPRESENTATION_CONTEXT('',''))"
+    )
+    shape = entity(f"ADVANCED_BREP_SHAPE_REPRESENTATION('',(#{solid},#{axes}),#{context})")
+    application = entity("APPLICATION_CONTEXT('automotive design')")
+    entity(
+        f"APPLICATION_PROTOCOL_DEFINITION('international standard','automotive_design',2000,#{application})"
+    )
+    product_context = entity(f"PRODUCT_CONTEXT('',#{application},'mechanical')")
+    product = entity(f"PRODUCT('box','box','',(#{product_context}))")
+    formation = entity(f"PRODUCT_DEFINITION_FORMATION('','',#{product})")
+    definition_context = entity(
+        f"PRODUCT_DEFINITION_CONTEXT('part definition',#{application},'design')"
+    )
+    definition = entity(f"PRODUCT_DEFINITION('design','',#{formation},#{definition_context})")
+    definition_shape = entity(f"PRODUCT_DEFINITION_SHAPE('','',#{definition})")
+    entity(f"SHAPE_DEFINITION_REPRESENTATION(#{definition_shape},#{shape})")
+    header = [
+        "ISO-10303-21;",
+        "HEADER;",
+        "FILE_DESCRIPTION(('generated box'),'2;1');",
+        "FILE_NAME('box.step','2024-01-01T00:00:00',(''),(''),'','','');",
+        "FILE_SCHEMA(('AUTOMOTIVE_DESIGN { 1 0 10303 214 1 1 1 1 }'));",
+        "ENDSEC;",
+        "DATA;",
+    ]
+    return "\n".join([*header, *lines, "ENDSEC;", "END-ISO-10303-21;", ""])
+
+
+@pytest.fixture(scope="session")
+def box_step() -> Callable[..., str]:
+    """:func:`box_step_text`: the text of a generated STEP file of one box."""
+    return box_step_text

@@ -1,0 +1,96 @@
+"""Display meshes: the triangle budget, millimetres, poses, budget sharing, the cache.
+
+References: the full mesh itself (a decimated mesh stays inside its bounding
+box grown by little and keeps its extent; mm = 1000 m by definition), the
+closed-form triangle counts of the generated meshes.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import trimesh
+
+from posebridge.bench.meshes import box_arrays, housing_mesh
+from posebridge.geometry.errors import GeometryInputError
+from posebridge.geometry.mesh_cache import MeshCache
+from posebridge.geometry.mesh_display import decimate_for_display, split_triangle_budget
+from posebridge.geometry.meshes import TriangleMesh
+from posebridge.transforms import rotation_matrix_from_rotation_vector
+
+MESHES = {
+    "sphere": lambda: TriangleMesh.from_arrays(
+        *(lambda m: (m.vertices, m.faces))(trimesh.creation.icosphere(5, 0.4)), name="sphere"
+    ),
+    # Thin subdivided plates stop quadric decimation early; clustering finishes the job.
+    "thin plate": lambda: TriangleMesh.from_arrays(
+        *box_arrays(np.zeros(3), np.array([1.0, 0.5, 0.03]), 5), name="thin plate"
+    ),
+    "housing": lambda: housing_mesh(1.0, triangles=20_000),
+}
+
+
+@pytest.mark.parametrize("name", list(MESHES))
+@pytest.mark.parametrize("budget", [12, 400, 5_000])
+def test_budget_is_met_and_the_shape_kept(name: str, budget: int) -> None:
+    mesh = MESHES[name]()
+    display = decimate_for_display(mesh, max_triangles=budget)
+    assert 0 < display.triangle_count <= budget
+    assert display.source_triangles == mesh.triangle_count
+    assert display.faces.min() >= 0 and display.faces.max() < display.vertices_mm.shape[0]
+    lo, hi = mesh.bounds * 1000.0  # mm from m (definition)
+    size = float(np.max(hi - lo))
+    # Every display vertex lies within the full mesh's bounding box, grown by 5 % (decimation
+    # moves vertices inside the shape's neighbourhood; common practice, no source).
+    assert np.all(display.vertices_mm >= lo - 0.05 * size)
+    assert np.all(display.vertices_mm <= hi + 0.05 * size)
+    if budget >= 400:
+        # Enough triangles keep the extent to 10 % (common practice, no source).
+        extent = display.vertices_mm.max(axis=0) - display.vertices_mm.min(axis=0)
+        np.testing.assert_allclose(extent, hi - lo, rtol=0.0, atol=0.1 * size)
+
+
+def test_small_meshes_are_sent_whole_in_millimetres() -> None:
+    v, f = box_arrays(np.zeros(3), np.array([0.1, 0.2, 0.3]), 0)
+    mesh = TriangleMesh.from_arrays(v, f, name="box")
+    display = decimate_for_display(mesh, max_triangles=100)
+    np.testing.assert_allclose(display.vertices_mm, mesh.vertices * 1000.0)
+    np.testing.assert_array_equal(display.faces, mesh.faces)
+
+
+def test_posed_moves_vertices_with_the_translation_in_metres() -> None:
+    v, f = box_arrays(np.zeros(3), np.array([0.1, 0.2, 0.3]), 0)
+    display = decimate_for_display(TriangleMesh.from_arrays(v, f, name="box"), max_triangles=100)
+    T = np.eye(4)
+    T[:3, :3] = rotation_matrix_from_rotation_vector(np.array([0.0, 0.0, np.pi / 2]))
+    T[:3, 3] = (1.0, 2.0, 3.0)
+    posed = display.posed(T)
+    # x_world = R x + t, with t in m -> mm (closed form).
+    expected = display.vertices_mm @ T[:3, :3].T + np.array([1000.0, 2000.0, 3000.0])
+    np.testing.assert_allclose(posed.vertices_mm, expected, atol=1e-9)
+    with pytest.raises(GeometryInputError, match="T_world_mesh"):
+        display.posed(np.eye(3))
+
+
+def test_budget_sharing() -> None:
+    # Everything fits: every mesh whole.
+    assert split_triangle_budget([100, 200], 1_000) == [100, 200]
+    shares = split_triangle_budget([10_000, 30_000, 60_000, 5], 10_000)
+    assert sum(shares) <= 10_000
+    # The tiny mesh whole, the other 9 995 shared 10 % / 30 % / 60 %, rounded down (closed form).
+    assert shares == [999, 2_998, 5_997, 5]
+
+
+def test_display_meshes_are_cached(tmp_path) -> None:
+    mesh = MESHES["sphere"]()
+    cache = MeshCache(tmp_path)
+    first = decimate_for_display(mesh, max_triangles=300, cache=cache)
+    second = decimate_for_display(mesh, max_triangles=300, cache=cache)
+    assert (cache.misses, cache.hits) == (1, 1)
+    np.testing.assert_array_equal(first.faces, second.faces)
+    np.testing.assert_array_equal(first.vertices_mm, second.vertices_mm)
+
+
+def test_budget_is_checked() -> None:
+    with pytest.raises(GeometryInputError, match="max_triangles: expected an integer >= 12"):
+        decimate_for_display(MESHES["sphere"](), max_triangles=3)
