@@ -172,6 +172,26 @@ def _sphere_bound(c, o, C, cap_bound, kind, centre, params, obs_bound):
     return math.sqrt(d0 * d0 + d1 * d1 + d2 * d2) - cap_bound[c] - obs_bound[o]
 
 
+@nb.njit(cache=True)
+def _mesh_box_bound(c, o, C, cap_bound, rotation, translation, params, half):
+    """Bound 1 of a mesh: capsule ``c``'s bounding sphere against the mesh's bounding box.
+
+    The box in the mesh frame has centre ``params[o]`` and half extents
+    ``half[o]``; much tighter than its bounding sphere for a large box-like
+    mesh such as a machine housing.
+    """
+    v0 = C[c, 0] - translation[o, 0]
+    v1 = C[c, 1] - translation[o, 1]
+    v2 = C[c, 2] - translation[o, 2]
+    gap = 0.0
+    for r in range(3):
+        local = rotation[o, 0, r] * v0 + rotation[o, 1, r] * v1 + rotation[o, 2, r] * v2
+        excess = abs(local - params[o, r]) - half[o, r]
+        if excess > 0.0:
+            gap += excess * excess
+    return math.sqrt(gap) - cap_bound[c]
+
+
 @nb.njit(cache=True, inline="always")
 def _self_bound(i, j, C, cap_bound):
     """Bound of a self pair: the two bounding spheres."""
@@ -182,7 +202,22 @@ def _self_bound(i, j, C, cap_bound):
 
 
 @nb.njit(cache=True, inline="always")
-def _obstacle_pair(c, o, A, B, radius, obs, needed_below, first_only, stack):
+def _obstacle_pair(
+    c,
+    o,
+    A,
+    B,
+    radius,
+    kind,
+    rotation,
+    translation,
+    params,
+    mesh_index,
+    meshes,
+    needed_below,
+    first_only,
+    stack,
+):
     """Exact capsule ``c`` - obstacle ``o`` signed distance and world witness points.
 
     A lower bound not below ``needed_below`` may stand in for the distance
@@ -190,23 +225,6 @@ def _obstacle_pair(c, o, A, B, radius, obs, needed_below, first_only, stack):
     ``first_only`` any value below ``needed_below`` may stand in for a mesh's
     (:func:`posebridge.geometry.mesh_bvh._segment_mesh`).
     """
-    (
-        kind,
-        rotation,
-        translation,
-        params,
-        _,
-        _,
-        mesh_index,
-        root,
-        closed,
-        tolerance,
-        box,
-        link,
-        tri,
-        _,
-    ) = obs
-    meshes = (root, closed, tolerance, box, link, tri)
     kind_o, R, t, prm = _obstacle_record(o, kind, rotation, translation, params)
     if kind_o == MESH:
         return _capsule_mesh(
@@ -265,7 +283,9 @@ def _minimum_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
     """Minimum over all checked pairs for configurations ``lo..hi-1``; writes those rows of ``out``."""
     table, prismatic, R_wb, p_wb, order, offsets = chain
     start, end, radius, centre, cap_bound = caps
-    kind, _, _, params, obs_bound, obs_centre, _, _, _, _, _, _, _, stack_size = obs
+    kind, rotation, translation, params, obs_bound, obs_centre, mesh_index, stack_size = obs[:8]
+    obs_half = obs[8]
+    meshes = obs[9:]
     distance, first, second, is_self, witness = out
     m, n_obs = mask.shape
     n_pairs = pairs.shape[0]
@@ -284,6 +304,10 @@ def _minimum_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
                 value = math.inf
                 if mask[c, o]:
                     value = _sphere_bound(c, o, C, cap_bound, kind, obs_centre, params, obs_bound)
+                    if kind[o] == MESH:
+                        value = _mesh_box_bound(
+                            c, o, C, cap_bound, rotation, translation, params, obs_half
+                        )
                 bounds[c * n_obs + o] = value
                 if value < seed_bound:
                     seed_bound = value
@@ -314,7 +338,22 @@ def _minimum_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
             if idx < n_capsule_pairs:
                 c = idx // n_obs
                 o = idx - c * n_obs
-                d, wa, wb = _obstacle_pair(c, o, A, B, radius, obs, best, False, stack)
+                d, wa, wb = _obstacle_pair(
+                    c,
+                    o,
+                    A,
+                    B,
+                    radius,
+                    kind,
+                    rotation,
+                    translation,
+                    params,
+                    mesh_index,
+                    meshes,
+                    best,
+                    False,
+                    stack,
+                )
                 i = c
                 j = o
                 self_pair = False
@@ -369,7 +408,9 @@ def _per_obstacle_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
     """Minimum per obstacle and over the self pairs for configurations ``lo..hi-1``."""
     table, prismatic, R_wb, p_wb, order, offsets = chain
     start, end, radius, centre, cap_bound = caps
-    kind, _, _, params, obs_bound, obs_centre, _, _, _, _, _, _, _, stack_size = obs
+    kind, rotation, translation, params, obs_bound, obs_centre, mesh_index, stack_size = obs[:8]
+    obs_half = obs[8]
+    meshes = obs[9:]
     distance, self_distance = out
     m, n_obs = mask.shape
     work, A, B, C, bounds, _, stack = _scratch(m, m, stack_size)
@@ -385,16 +426,50 @@ def _per_obstacle_range(lo, hi, q, chain, caps, obs, mask, pairs, out):
                 value = math.inf
                 if mask[c, o]:
                     value = _sphere_bound(c, o, C, cap_bound, kind, obs_centre, params, obs_bound)
+                    if kind[o] == MESH:
+                        value = _mesh_box_bound(
+                            c, o, C, cap_bound, rotation, translation, params, obs_half
+                        )
                 bounds[c] = value
                 if value < seed_bound:
                     seed_bound = value
                     seed = c
             best = math.inf
             if seed >= 0:
-                best = _obstacle_pair(seed, o, A, B, radius, obs, math.inf, False, stack)[0]
+                best = _obstacle_pair(
+                    seed,
+                    o,
+                    A,
+                    B,
+                    radius,
+                    kind,
+                    rotation,
+                    translation,
+                    params,
+                    mesh_index,
+                    meshes,
+                    math.inf,
+                    False,
+                    stack,
+                )[0]
             for c in range(m):
                 if c != seed and bounds[c] < best:
-                    d = _obstacle_pair(c, o, A, B, radius, obs, best, False, stack)[0]
+                    d = _obstacle_pair(
+                        c,
+                        o,
+                        A,
+                        B,
+                        radius,
+                        kind,
+                        rotation,
+                        translation,
+                        params,
+                        mesh_index,
+                        meshes,
+                        best,
+                        False,
+                        stack,
+                    )[0]
                     if d < best:
                         best = d
             distance[k, o] = best
@@ -430,7 +505,9 @@ def _collision_range(lo, hi, q, chain, caps, obs, mask, pairs, threshold, out):
     """
     table, prismatic, R_wb, p_wb, order, offsets = chain
     start, end, radius, centre, cap_bound = caps
-    kind, _, _, params, obs_bound, obs_centre, _, _, _, _, _, _, _, stack_size = obs
+    kind, rotation, translation, params, obs_bound, obs_centre, mesh_index, stack_size = obs[:8]
+    obs_half = obs[8]
+    meshes = obs[9:]
     m, n_obs = mask.shape
     work, A, B, C, _, _, stack = _scratch(m, 0, stack_size)
     for k in range(lo, hi):
@@ -445,8 +522,30 @@ def _collision_range(lo, hi, q, chain, caps, obs, mask, pairs, threshold, out):
                     and mask[c, o]
                     and _sphere_bound(c, o, C, cap_bound, kind, obs_centre, params, obs_bound)
                     < threshold
+                    and (
+                        kind[o] != MESH
+                        or _mesh_box_bound(
+                            c, o, C, cap_bound, rotation, translation, params, obs_half
+                        )
+                        < threshold
+                    )
                 ):
-                    d = _obstacle_pair(c, o, A, B, radius, obs, threshold, True, stack)[0]
+                    d = _obstacle_pair(
+                        c,
+                        o,
+                        A,
+                        B,
+                        radius,
+                        kind,
+                        rotation,
+                        translation,
+                        params,
+                        mesh_index,
+                        meshes,
+                        threshold,
+                        True,
+                        stack,
+                    )[0]
                     hit = d < threshold
         for pi in range(pairs.shape[0]):
             i = pairs[pi, 0]
@@ -589,8 +688,9 @@ class ClearanceScene:
             obstacles.bound_radius,
             obstacles.bound_centre,
             obstacles.mesh_index,
-            *table.kernel_inputs,
             table.stack_size,
+            obstacles.bound_half_extents,
+            *table.kernel_inputs,
         )
         return chain, caps, obs
 

@@ -442,6 +442,15 @@ class ObstacleSet:
         return centre
 
     @property
+    def bound_half_extents(self) -> FloatArray:
+        """Half extents of each mesh's bounding box in its frame (centre ``params``), shape (k, 3); 0 otherwise."""
+        half = np.zeros((self.count, 3))
+        for o in np.flatnonzero(self.kind == MESH):
+            bounds = self.meshes[self.mesh_index[o]].bounds
+            half[o] = 0.5 * (bounds[1] - bounds[0])
+        return half
+
+    @property
     def is_signed(self) -> BoolArray:
         """Obstacles with an inside (negative distances inside), shape (k,): all but open meshes."""
         signed = np.ones(self.count, dtype=bool)
