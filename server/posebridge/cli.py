@@ -589,11 +589,13 @@ def _cmd_bench(args: argparse.Namespace) -> int:
 
     figures = run_benchmarks(quick=args.quick, progress=None if args.json else _bench_progress)
     if args.json:
-        _print_json({k: (v if math.isfinite(v) else None) for k, v in figures.items()})
+        _print_json(
+            {k: (v if isinstance(v, str) or math.isfinite(v) else None) for k, v in figures.items()}
+        )
         return EXIT_OK
     width = max(len(k) for k in figures)
     for key, value in figures.items():
-        print(f"{key:<{width}}  {value:,.4g}")
+        print(f"{key:<{width}}  {value if isinstance(value, str) else format(value, ',.4g')}")
     return EXIT_OK
 
 

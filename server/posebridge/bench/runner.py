@@ -1,8 +1,12 @@
-"""Collects every benchmark module into one flat mapping of named figures."""
+"""Collects every benchmark module into one flat mapping of named figures.
+
+Figures are numbers; a figure that cannot be measured here (a reference
+library not installed) is replaced by ``<key>_missing`` holding the reason.
+"""
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from typing import NamedTuple
 
 from posebridge.bench.clearance import bench_clearance
@@ -12,6 +16,8 @@ from posebridge.bench.ik_numeric import bench_ik_numeric
 from posebridge.bench.ik_offset_wrist import bench_ik_offset_wrist
 from posebridge.bench.kinematics import bench_kinematics
 from posebridge.bench.maps import bench_maps
+from posebridge.bench.mesh_clearance import bench_mesh_clearance
+from posebridge.bench.mesh_load import bench_mesh_load
 from posebridge.bench.placement import bench_placement
 from posebridge.bench.review_load import bench_review_load
 from posebridge.bench.sequence import bench_sequence
@@ -21,7 +27,7 @@ __all__ = ["BENCHMARKS", "run_benchmarks"]
 
 class Benchmark(NamedTuple):
     name: str
-    run: Callable[[bool], dict[str, float]]
+    run: Callable[[bool], Mapping[str, float | str]]
 
 
 BENCHMARKS: tuple[Benchmark, ...] = (
@@ -30,6 +36,8 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("numerical inverse kinematics", bench_ik_numeric),
     Benchmark("closed-form inverse kinematics, offset wrist", bench_ik_offset_wrist),
     Benchmark("clearance", bench_clearance),
+    Benchmark("mesh clearance", bench_mesh_clearance),
+    Benchmark("robot mesh loading and capsule fitting", bench_mesh_load),
     Benchmark("joint-space and reach maps", bench_maps),
     Benchmark("base placement", bench_placement),
     Benchmark("solution sequence and blended timing", bench_sequence),
@@ -40,9 +48,9 @@ BENCHMARKS: tuple[Benchmark, ...] = (
 
 def run_benchmarks(
     *, quick: bool, progress: Callable[[str], None] | None = None
-) -> dict[str, float]:
+) -> dict[str, float | str]:
     """Run every benchmark in order; ``progress(name)`` is called before each."""
-    figures: dict[str, float] = {}
+    figures: dict[str, float | str] = {}
     for benchmark in BENCHMARKS:
         if progress is not None:
             progress(benchmark.name)
