@@ -213,3 +213,32 @@ def test_mesh_kind_without_mesh_data_is_refused(cell) -> None:
             translation=obstacles.translation,
             params=obstacles.params,
         )
+
+
+def test_deep_penetration_keeps_the_deepest_pair(arm) -> None:
+    # A solid block mesh the arm is deep inside and a box it only grazes: the minimum must be
+    # the block's (the pruning bounds stay below even penetration estimates). Reference: the
+    # per-pair values of closest_points_capsule_obstacle, each held to brute force above.
+    v, f = box_arrays(np.array([-0.2, -0.6, 0.2]), np.array([1.0, 0.6, 1.4]), 2)
+    block = TriangleMesh.from_arrays(v, f, name="block")
+    shapes = [
+        Box("post", pose((0.0, 0.0, 0.0), (0.0, 0.75, 0.6)), np.array([0.1, 0.2, 0.6])),
+        Mesh("block", np.eye(4), block),
+    ]
+    obstacles = ObstacleSet.from_shapes(shapes)
+    scene = ClearanceScene.build(arm, obstacles, np.eye(4), self_pairs=np.empty((0, 2)))
+    rng = np.random.default_rng(SEED + 3)
+    q = rng.uniform(arm.robot.lower, arm.robot.upper, (300, arm.robot.dof))
+    segments = capsule_segments_world(arm, q, np.eye(4))
+    a = segments[:, :, 0].reshape(-1, 3)
+    b = segments[:, :, 1].reshape(-1, 3)
+    r = np.tile(arm.radius, q.shape[0])
+    pairs = np.stack(
+        [closest_points_capsule_obstacle(a, b, r, obstacles, o)[0] for o in range(2)], axis=1
+    ).reshape(q.shape[0], arm.count, 2)
+    pairs = np.where(scene.pair_mask[None], pairs, np.inf)
+    result = clearance_batch(scene, q)
+    assert (pairs[:, :, 1].min(axis=1) < -0.2).any()  # some capsules deep inside the block
+    np.testing.assert_allclose(result.distance, pairs.min(axis=(1, 2)), atol=1e-12)
+    per = clearance_per_obstacle_batch(scene, q)
+    np.testing.assert_allclose(per.distance, pairs.min(axis=1), atol=1e-12)

@@ -258,3 +258,20 @@ def test_hierarchy_covers_every_triangle_once(mesh: TriangleMesh) -> None:
         points = corners[first : first + count].reshape(-1, 3)
         assert np.all(points >= bvh.box[node, :3] - 1e-15)
         assert np.all(points <= bvh.box[node, 3:] + 1e-15)
+
+
+def test_crossing_through_edges_and_vertices() -> None:
+    # Segments that leave a subdivided cube exactly through a vertex or along grid lines:
+    # the crossing distance comes out at rounding size, and the inside end's depth decides.
+    v, f = box_arrays(np.full(3, -0.5), np.full(3, 0.5), 2)  # vertices every 0.25 m
+    cube = TriangleMesh.from_arrays(v, f, name="cube")
+    a = np.array([[0.0, 0.0, 0.0], [0.25, 0.25, 0.1], [0.25, 0.5, 0.25], [-0.75, 0.0, 0.0]])
+    b = np.array([[0.0, 0.0, 0.8], [0.25, 0.25, 0.9], [0.25, 0.9, 0.25], [0.75, 0.0, 0.0]])
+    r = 0.02
+    result = closest_points_capsule_mesh(a, b, r, cube, np.eye(4))
+    # Depth of the inside end in the cube |x_i| <= 0.5: 0.5 - max|x_i| (closed form); the last
+    # segment passes straight through with both ends outside: -r.
+    expected = np.array([-(r + 0.5), -(r + 0.25), -(r + 0.0), -r])
+    np.testing.assert_allclose(result.distance, expected, atol=EXACT)
+    for margin in (0.0, 0.01):
+        assert collision_capsules_mesh(a, b, r, cube, np.eye(4), margin_m=margin).all()

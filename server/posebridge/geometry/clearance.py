@@ -178,18 +178,23 @@ def _mesh_box_bound(c, o, C, cap_bound, rotation, translation, params, half):
 
     The box in the mesh frame has centre ``params[o]`` and half extents
     ``half[o]``; much tighter than its bounding sphere for a large box-like
-    mesh such as a machine housing.
+    mesh such as a machine housing. The sphere centre's *signed* distance to
+    the box is used: the mesh lies inside its box and distances are
+    1-Lipschitz, so even the penetration estimate of a capsule deep inside
+    the mesh (:mod:`posebridge.geometry.mesh_bvh`) is not below the bound.
     """
     v0 = C[c, 0] - translation[o, 0]
     v1 = C[c, 1] - translation[o, 1]
     v2 = C[c, 2] - translation[o, 2]
-    gap = 0.0
+    outside = 0.0
+    inside = -math.inf
     for r in range(3):
         local = rotation[o, 0, r] * v0 + rotation[o, 1, r] * v1 + rotation[o, 2, r] * v2
         excess = abs(local - params[o, r]) - half[o, r]
+        inside = max(inside, excess)
         if excess > 0.0:
-            gap += excess * excess
-    return math.sqrt(gap) - cap_bound[c]
+            outside += excess * excess
+    return math.sqrt(outside) + min(inside, 0.0) - cap_bound[c]
 
 
 @nb.njit(cache=True, inline="always")

@@ -134,8 +134,6 @@ _EDGE_TOLERANCE = 1e-9
 """Barycentric margin within which a ray counts as hitting an edge or vertex (degenerate)."""
 _LENGTH_TOLERANCE = 1e-9
 """Length tolerance of the inside test relative to the mesh's bounding-box diagonal."""
-_MIN_LIMIT = 1e-300
-"""Smallest search limit: a crossing (distance 0) is always found."""
 
 
 # --- hierarchy build ----------------------------------------------------------------------
@@ -802,28 +800,38 @@ def _segment_mesh(a, b, mesh, meshes, needed_below, first_only, stack_node, stac
 
     Meaning of ``sd`` and the witnesses in the module docstring. The caller
     needs the value only if it is below ``needed_below``: when the segment is
-    outside and no triangle is closer, ``max(needed_below, 0)`` is returned
-    with NaN points. With ``first_only`` (and ``needed_below > 0``) any value
-    below ``needed_below`` may be returned (the first triangle found closer).
+    outside and no triangle is closer, ``max(needed_below, tolerance)`` is
+    returned with NaN points. With ``first_only`` (and ``needed_below`` above
+    the mesh's length tolerance) any value below ``needed_below`` may be
+    returned (the first triangle found closer).
+
+    A segment within the length tolerance of the surface counts as crossing
+    it (a crossing through an edge comes out as a rounding-size distance);
+    then, and for a segment whose start is inside, the depths of the end
+    points that are inside decide (:func:`_deeper_end`).
     """
     root = meshes[0][mesh]
+    tolerance = meshes[2][mesh]
     box, link, triangles = meshes[3], meshes[4], meshes[5]
-    limit = needed_below if needed_below > _MIN_LIMIT else _MIN_LIMIT
+    limit = max(needed_below, tolerance)
+    early = first_only and needed_below > tolerance
     found, u, p, q, t = _segment_search(
-        a,
-        b,
-        root,
-        box,
-        link,
-        triangles,
-        limit,
-        first_only and needed_below > 0.0,
-        stack_node,
-        stack_bound,
+        a, b, root, box, link, triangles, limit, early, stack_node, stack_bound
     )
-    nan = (math.nan, math.nan, math.nan)
-    if found and first_only and needed_below > 0.0:
+    if found and early:
         return u, p, q, _unit_direction(p, q, triangles, t)
+    if meshes[1][mesh]:
+        near = found and u <= tolerance
+        if near or _contains(a, mesh, meshes, stack_node):
+            depth, pe, qe = _deeper_end(a, b, mesh, meshes, stack_node, stack_bound)
+            if depth > 0.0:
+                return -depth, pe, qe, _scale(_sub(qe, pe), 1.0 / depth)
+            if near:
+                return 0.0, p, q, _unit_normal(triangles, t)
+    if not found:
+        nan = (math.nan, math.nan, math.nan)
+        return limit, nan, nan, nan
+    return u, p, q, _unit_direction(p, q, triangles, t)
     if meshes[1][mesh]:
         if found and u == 0.0:
             depth, pe, qe = _deeper_end(a, b, mesh, meshes, stack_node, stack_bound)
