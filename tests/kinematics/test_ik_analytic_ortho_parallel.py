@@ -1,4 +1,4 @@
-"""Tests of posebridge.kinematics.ik_analytic.ortho_parallel (closed-form IK, OPW arms).
+"""Tests of posebridge.kinematics.ik.analytic.ortho_parallel (closed-form IK, OPW arms).
 
 References used here: forward kinematics (posebridge.kinematics.fk, and
 pinocchio on robots/pb-arm6.urdf), the robot description files (dimensions
@@ -21,12 +21,12 @@ from scipy.spatial.transform import Rotation
 
 from posebridge.kinematics.branches import label_branches
 from posebridge.kinematics.fk import fk_flange, fk_tool
-from posebridge.kinematics.ik_analytic.ortho_parallel import (
+from posebridge.kinematics.ik.analytic.ortho_parallel import (
     OrthoParallelGeometry,
     atan2_many,
     solve_ortho_parallel,
 )
-from posebridge.kinematics.ik_types import (
+from posebridge.kinematics.ik.solutions import (
     REASON_NO_WITHIN_LIMITS,
     REASON_ORIENTATION,
     REASON_OUT_OF_REACH,
@@ -457,7 +457,7 @@ def test_within_limits_flags(arm6: Robot, geometry: OrthoParallelGeometry) -> No
     inside = np.all((result.q >= arm6.lower - 1e-12) & (result.q <= arm6.upper + 1e-12), axis=2)
     # reference: the joint limits of robots/pb-arm6.toml compared directly
     np.testing.assert_array_equal(result.within_limits, inside & result.valid)
-    # order (ik_types contract): in-limit slots, then valid outside, then empty
+    # order (ik/finishing.py contract): in-limit slots, then valid outside, then empty
     rank = np.where(result.within_limits, 0, np.where(result.valid, 1, 2))
     assert np.all(np.diff(rank, axis=1) >= 0)
 
@@ -511,7 +511,7 @@ def test_seed_orders_by_distance(arm6: Robot, geometry: OrthoParallelGeometry) -
     weights = 1.0 / arm6.velocity_max
     distance = (((result.q - seed[:, None, :]) * weights) ** 2).sum(axis=2)
     distance = np.where(result.within_limits, distance, np.inf)
-    # ik_types contract: in-limit slots sorted by weighted joint distance to the seed
+    # ik/finishing.py contract: in-limit slots sorted by weighted joint distance to the seed
     finite = np.isfinite(distance)
     for row, mask in zip(distance, finite, strict=True):
         assert np.all(np.diff(row[mask]) >= 0)

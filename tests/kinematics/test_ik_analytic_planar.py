@@ -1,4 +1,4 @@
-"""Tests of posebridge.kinematics.ik_analytic.planar and .scara (planar 2R/3R, SCARA).
+"""Tests of posebridge.kinematics.ik.analytic.planar and .scara (planar 2R/3R, SCARA).
 
 References: the closed forms of shared/REFERENCES.md (planar 2R), the law of
 cosines written beside the checks, forward kinematics
@@ -14,9 +14,9 @@ from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
 from posebridge.kinematics.fk import fk_tool
-from posebridge.kinematics.ik_analytic.planar import PlanarGeometry, solve_planar
-from posebridge.kinematics.ik_analytic.scara import ScaraGeometry
-from posebridge.kinematics.ik_types import REASON_ORIENTATION, REASON_OUT_OF_REACH
+from posebridge.kinematics.ik.analytic.planar import PlanarGeometry, solve_planar
+from posebridge.kinematics.ik.analytic.scara import ScaraGeometry
+from posebridge.kinematics.ik.solutions import REASON_ORIENTATION, REASON_OUT_OF_REACH
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml

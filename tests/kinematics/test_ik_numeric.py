@@ -1,4 +1,4 @@
-"""Tests of posebridge.kinematics.ik_numeric (multi-start Levenberg-Marquardt IK)."""
+"""Tests of posebridge.kinematics.ik.numeric (multi-start Levenberg-Marquardt IK)."""
 
 from __future__ import annotations
 
@@ -12,8 +12,8 @@ from hypothesis.extra.numpy import arrays
 from scipy.spatial.transform import Rotation
 
 from posebridge.kinematics.fk import KinematicsInputError, fk_tool
-from posebridge.kinematics.ik_numeric import DISTINCT_TOLERANCE, solve_ik_numeric
-from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
+from posebridge.kinematics.ik.numeric import DISTINCT_TOLERANCE, solve_ik_numeric
+from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
@@ -167,7 +167,7 @@ def test_all_solutions_distinct_within_limits_and_reaching(name: str) -> None:
 
 
 def test_all_solutions_match_the_closed_form_of_the_ortho_parallel_arm() -> None:
-    ortho = pytest.importorskip("posebridge.kinematics.ik_analytic.ortho_parallel")
+    ortho = pytest.importorskip("posebridge.kinematics.ik.analytic.ortho_parallel")
     robot = load_robot("pb-arm6")
     rng = np.random.default_rng(4)
     targets = fk_tool(robot, rng.uniform(robot.lower, robot.upper, size=(8, 6)))

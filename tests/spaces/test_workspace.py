@@ -15,7 +15,7 @@ from posebridge.compute import (
     SerialExecutor,
 )
 from posebridge.kinematics.ik import solve_ik_all
-from posebridge.kinematics.ik_numeric import solve_ik_numeric
+from posebridge.kinematics.ik.numeric import solve_ik_numeric
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.planar_boundary import PlanarChain, planar_reachable
 from posebridge.spaces.workspace import (

@@ -66,7 +66,7 @@ from posebridge.cell.reports import (
 from posebridge.cell.scene import Scene
 from posebridge.kinematics.branches import branch_geometry, labels_match
 from posebridge.kinematics.ik import solve_ik_all
-from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS
+from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
 from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
 from posebridge.units import BoolArray, joint_unit_labels, mm_from_m
 

@@ -32,6 +32,7 @@ from functools import cached_property
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import Int8Array, Int16Array
 from posebridge.cell.clearance import CellClearance, clearance_to_cell
 from posebridge.cell.reports import (
     BranchReport,
@@ -45,7 +46,7 @@ from posebridge.cell.reports import (
 from posebridge.cell.scene import Scene
 from posebridge.kinematics.branches import branch_geometry, label_branches
 from posebridge.kinematics.fk import check_configurations, fk_tool
-from posebridge.kinematics.ik_types import JOINT_REVOLUTE, Int8Array, Int16Array, joint_modes
+from posebridge.kinematics.ik.finishing import JOINT_REVOLUTE, joint_modes
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
     LimitMargins,
@@ -331,7 +332,7 @@ def branch_words(scheme: str, shoulder: int, elbow: int, wrist: int) -> str:
 def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
     """Whole extra revolutions of joints whose range exceeds one revolution, shape (N, n).
 
-    As in :mod:`posebridge.kinematics.ik_types`: a value ``v`` wrapped to
+    As in :mod:`posebridge.kinematics.ik.finishing`: a value ``v`` wrapped to
     ``(-pi, pi]`` plus ``2 pi k`` has ``k`` revolutions; other joints have 0.
     """
     q = check_configurations(robot, q)

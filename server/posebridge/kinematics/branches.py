@@ -33,7 +33,7 @@ wrist bend axis nearest the axis before it and the wrist point the point of
 the wrist bend axis nearest the axis after it. For a spherical wrist both are
 where the wrist axes meet. For an offset wrist whose bend axis meets the last
 axis away from the axis before it (arms whose second, third and fourth axes
-are parallel, :mod:`posebridge.kinematics.ik_analytic.offset_wrist`), the
+are parallel, :mod:`posebridge.kinematics.ik.analytic.offset_wrist`), the
 wrist point is where front and back part: the two solutions of joint 1 put
 it on either side of the first axis, while the wrist centre turns with
 joint 4 and can change sides between the two wrist solutions.
@@ -59,8 +59,8 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import Int8Array
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations, fk_frames
-from posebridge.kinematics.ik_types import Int8Array
 from posebridge.robot.model import Robot
 from posebridge.units import BoolArray, FloatArray
 

@@ -3,5 +3,5 @@
 Each module has a geometry extractor ``<Family>Geometry.from_robot(robot)``
 that returns None for robots outside the family (checked against forward
 kinematics on random configurations) and a batch solver ``solve_<family>``
-returning :class:`posebridge.kinematics.ik_types.IkSolutions`.
+returning :class:`posebridge.kinematics.ik.solutions.IkSolutions`.
 """

@@ -38,7 +38,7 @@ is kept.
 Kernel layout (speed): each block of poses runs three passes, the arm geometry
 (branchy, scalar), all arctangents of the block in one vectorised loop
 (:func:`atan2_many`), and the assembly of joint values, followed by the
-slot finishing of :func:`posebridge.kinematics.ik_types.finish_rows`.
+slot finishing of :func:`posebridge.kinematics.ik.finishing.finish_rows`.
 """
 
 from __future__ import annotations
@@ -58,18 +58,16 @@ from posebridge.kinematics.branches import (
     wrist_label,
 )
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_flange, fk_frames, tool_tail
-from posebridge.kinematics.ik_types import (
+from posebridge.kinematics.ik.finishing import (
     BLOCK_SIZE,
-    IkSolutions,
-    check_seed,
-    check_target_poses,
     empty_outputs,
     finish_rows,
     joint_table,
-    reasons_from_codes,
     slots_per_candidate,
     solutions_from_outputs,
 )
+from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
+from posebridge.kinematics.ik.solutions import IkSolutions, reasons_from_codes
 from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform, rotation_matrix_about_z
 from posebridge.units import FloatArray
@@ -758,7 +756,7 @@ def solve_ortho_parallel(
         Tool in the flange frame; the robot's default tool if omitted.
     seed : array-like, shape (6,) or (N, 6), optional
     all_revolutions : bool
-        One slot per in-limit revolution variant (see :mod:`posebridge.kinematics.ik_types`).
+        One slot per in-limit revolution variant (see :mod:`posebridge.kinematics.ik.finishing`).
     position_tolerance_m : float
         Largest accepted position error of a valid solution.
 
