@@ -10,14 +10,20 @@ import pytest
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
-from posebridge.compute import ComputationCancelled, DaskExecutor, LocalPoolExecutor, SerialExecutor
+from posebridge.compute import (
+    ComputationCancelled,
+    DaskExecutor,
+    LocalPoolExecutor,
+    SerialExecutor,
+    worker_initializer,
+)
+from posebridge.geometry.warm import warm_geometry
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.placement import (
     CHUNK_CANDIDATES,
     PlacementGrid,
     PlacementResult,
     search_base_placement,
-    warm_placement_worker,
 )
 from posebridge.planning.reports import PlacementReport, render_placement
 from posebridge.resources import data_folder
@@ -113,7 +119,7 @@ def test_same_result_on_every_executor(dask_scheduler: str) -> None:
     in_process = search_base_placement(scene, grid)
     with SerialExecutor() as serial:
         _same(in_process, search_base_placement(scene, grid, executor=serial))
-    with LocalPoolExecutor(2, initializer=warm_placement_worker) as pool:
+    with LocalPoolExecutor(2, initializer=worker_initializer(warm_geometry)) as pool:
         _same(in_process, search_base_placement(scene, grid, executor=pool))
     with DaskExecutor(dask_scheduler) as cluster:
         _same(in_process, search_base_placement(scene, grid, executor=cluster))

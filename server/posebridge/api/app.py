@@ -39,21 +39,19 @@ from posebridge.api.routes import (
     reviews,
     robots,
 )
-from posebridge.api.schemas.kinematics import fk_result, ik_result
 from posebridge.api.settings import Settings, get_settings
 from posebridge.cell.checks import check_targets
 from posebridge.cell.model import CellFileError
-from posebridge.kinematics.fk import KinematicsInputError, fk_tool
-from posebridge.kinematics.ik import solve_ik_all
-from posebridge.planning.errors import PlanningInputError
+from posebridge.errors import InputError
+from posebridge.kinematics.warm import warm_kinematics
 from posebridge.resources import data_folder
-from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.joint_map import joint_map
 
 __all__ = ["create_app", "plotly_script_path"]
 
-_JOB_INPUT_ERRORS = (SpacesInputError, KinematicsInputError, CellFileError, PlanningInputError)
-"""Errors of a job that are the request's fault: their message is the job's detail."""
+_JOB_INPUT_ERRORS = (InputError,)
+"""Errors of a job that are the request's fault (:mod:`posebridge.errors`): their message
+is the job's detail."""
 
 
 def plotly_script_path() -> Path:
@@ -62,12 +60,10 @@ def plotly_script_path() -> Path:
 
 
 def _warm_up(cache: RobotCache, robot_spec: str, cells: CellStore) -> None:
-    """Run FK, IK, a tiny joint map and the target check once, so numba kernels are loaded
-    before the first request."""
+    """Load the kinematics kernels of the served robot and the cell's robot (the layer's
+    warm-up), then run a tiny joint map and the target check once, before the first request."""
     for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
-        q = robot.home_configuration()[None, :]
-        fk_result(robot, q)
-        ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
+        warm_kinematics(robot)
     snapshot = cells.read()
     joint_map(snapshot.clearance, [0, 1], snapshot.scene.robot.home_configuration(), resolution=2)
     if snapshot.scene.targets.names:

@@ -17,6 +17,7 @@ from typing import TYPE_CHECKING, Any
 
 import numpy as np
 
+from posebridge.errors import InputError
 from posebridge.units import FloatArray, joints_si_from_user
 
 if TYPE_CHECKING:
@@ -32,7 +33,7 @@ EXIT_BAD_INPUT = 2
 EXIT_INTERNAL = 3
 
 
-class InputError(ValueError):
+class CommandLineInputError(InputError):
     """Bad command-line input; the message is printed as one line."""
 
 
@@ -47,12 +48,14 @@ def parse_numbers(text: str, what: str, count: int | None = None) -> list[float]
         try:
             value = float(part)
         except ValueError:
-            raise InputError(f"{what}: value {index} {part!r} is not a number") from None
+            raise CommandLineInputError(f"{what}: value {index} {part!r} is not a number") from None
         if not math.isfinite(value):
-            raise InputError(f"{what}: value {index} {part!r} is not a finite number")
+            raise CommandLineInputError(f"{what}: value {index} {part!r} is not a finite number")
         values.append(value)
     if count is not None and len(values) != count:
-        raise InputError(f"{what}: expected {count} comma-separated values, got {len(values)}")
+        raise CommandLineInputError(
+            f"{what}: expected {count} comma-separated values, got {len(values)}"
+        )
     return values
 
 
@@ -91,20 +94,22 @@ def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray
         with open(path, newline="", encoding="utf-8") as handle:
             rows = [row for row in csv.reader(handle) if row and any(cell.strip() for cell in row)]
     except OSError as error:
-        raise InputError(f"{path}: cannot read: {error.strerror or error}") from error
+        raise CommandLineInputError(f"{path}: cannot read: {error.strerror or error}") from error
     except UnicodeDecodeError as error:
-        raise InputError(f"{path}: not UTF-8 text") from error
+        raise CommandLineInputError(f"{path}: not UTF-8 text") from error
     if not rows:
-        raise InputError(f"{path}: no rows")
+        raise CommandLineInputError(f"{path}: no rows")
     if len(rows) > MAX_CSV_ROWS:
-        raise InputError(f"{path}: {len(rows)} rows; at most {MAX_CSV_ROWS} are accepted")
+        raise CommandLineInputError(
+            f"{path}: {len(rows)} rows; at most {MAX_CSV_ROWS} are accepted"
+        )
     order = list(range(len(columns)))
     first_line = 1
     header = [cell.strip() for cell in rows[0]]
     if not all(_is_number(cell) for cell in header):
         missing = [c for c in columns if c not in header]
         if missing:
-            raise InputError(
+            raise CommandLineInputError(
                 f"{path}:1: header lacks column(s) {', '.join(missing)}; expected {', '.join(columns)}"
             )
         order = [header.index(c) for c in columns]
@@ -115,15 +120,19 @@ def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray
     for r, row in enumerate(rows):
         line = first_line + r
         if len(row) != width:
-            raise InputError(f"{path}:{line}: expected {width} values, got {len(row)}")
+            raise CommandLineInputError(f"{path}:{line}: expected {width} values, got {len(row)}")
         for c, source in enumerate(order):
             cell = row[source].strip()
             try:
                 value = float(cell)
             except ValueError:
-                raise InputError(f"{path}:{line}: {what} {cell!r} is not a number") from None
+                raise CommandLineInputError(
+                    f"{path}:{line}: {what} {cell!r} is not a number"
+                ) from None
             if not math.isfinite(value):
-                raise InputError(f"{path}:{line}: {what} {cell!r} is not a finite number")
+                raise CommandLineInputError(
+                    f"{path}:{line}: {what} {cell!r} is not a finite number"
+                )
             values[r, c] = value
     return values
 
@@ -188,8 +197,11 @@ class ProgressBar:
         sys.stderr.flush()
 
 
-def executor_from(args: argparse.Namespace) -> Any:
-    """The executor of ``--workers``/``--scheduler`` (see ``SharedOptions.executor``)."""
-    from posebridge.compute import make_executor
+def executor_from(args: argparse.Namespace, warm_up: Callable[[], None]) -> Any:
+    """The executor of ``--workers``/``--scheduler`` (see ``SharedOptions.executor``); its
+    workers run ``warm_up`` (a layer's warm-up function) once when they start."""
+    from posebridge.compute import make_executor, worker_initializer
 
-    return make_executor(scheduler=args.scheduler, workers=args.workers)
+    return make_executor(
+        scheduler=args.scheduler, workers=args.workers, initializer=worker_initializer(warm_up)
+    )

@@ -14,8 +14,9 @@ import traceback
 from collections.abc import Callable, Sequence
 
 from posebridge.cli import cells, planning, robots, service, spaces
-from posebridge.cli.common import EXIT_BAD_INPUT, EXIT_INTERNAL, InputError
+from posebridge.cli.common import EXIT_BAD_INPUT, EXIT_INTERNAL
 from posebridge.cli.options import SharedOptions
+from posebridge.errors import InputError
 from posebridge.messages import printable
 
 SAFETY_CAUTION = (
@@ -59,34 +60,14 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
-def _input_error_types() -> tuple[type[BaseException], ...]:
-    from posebridge.api.server import ServerConfigError
+def _exit_2_errors() -> tuple[type[BaseException], ...]:
+    """Errors that end a command with exit code 2: every input error (one base class), and
+    the executor's (a bad ``--scheduler``/``--workers``, a cancelled run) and a cell changed
+    on disk meanwhile, which the user can also act on."""
     from posebridge.cell.files import CellConflictError
-    from posebridge.cell.joint_log import JointLogError
-    from posebridge.cell.model import CellFileError
     from posebridge.compute import ComputationCancelled, ExecutorError
-    from posebridge.kinematics.fk import KinematicsInputError
-    from posebridge.planning.errors import PlanningInputError
-    from posebridge.report import ReportError
-    from posebridge.robot.errors import RobotDescriptionError
-    from posebridge.spaces.errors import SpacesInputError
-    from posebridge.transforms import TransformError
 
-    return (
-        InputError,
-        RobotDescriptionError,
-        KinematicsInputError,
-        TransformError,
-        ServerConfigError,
-        CellFileError,
-        CellConflictError,
-        JointLogError,
-        PlanningInputError,
-        SpacesInputError,
-        ReportError,
-        ExecutorError,
-        ComputationCancelled,
-    )
+    return (InputError, CellConflictError, ExecutorError, ComputationCancelled)
 
 
 _VALUE_OPTIONS = ("--joints", "--pose", "--seed", "--tool", "--from", "--to", "--hold")
@@ -121,7 +102,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     run: Callable[[argparse.Namespace], int] = args.run
     try:
         return run(args)
-    except _input_error_types() as error:
+    except _exit_2_errors() as error:
         problems = [printable(line.strip()) for line in str(error).splitlines() if line.strip()]
         print(
             f"posebridge {args.command}: {'; '.join(problems) or type(error).__name__}",

@@ -11,7 +11,7 @@ import numpy as np
 from posebridge.cli.common import (
     EXIT_FINDINGS,
     EXIT_OK,
-    InputError,
+    CommandLineInputError,
     ProgressBar,
     executor_from,
     joints_argument,
@@ -30,14 +30,14 @@ def _parse_range(text: str, what: str) -> FloatArray:
     if len(parts) == 1:
         return np.array(parse_numbers(parts[0], what, 1))
     if len(parts) != 3:
-        raise InputError(f"{what}: expected START:STOP:COUNT or one value, got {text!r}")
+        raise CommandLineInputError(f"{what}: expected START:STOP:COUNT or one value, got {text!r}")
     start, stop = parse_numbers(parts[0], what, 1)[0], parse_numbers(parts[1], what, 1)[0]
     try:
         count = int(parts[2])
     except ValueError:
-        raise InputError(f"{what}: COUNT {parts[2]!r} is not a whole number") from None
+        raise CommandLineInputError(f"{what}: COUNT {parts[2]!r} is not a whole number") from None
     if not 1 <= count <= 1000:
-        raise InputError(f"{what}: COUNT must be 1..1000, got {count}")
+        raise CommandLineInputError(f"{what}: COUNT must be 1..1000, got {count}")
     return np.linspace(start, stop, count)
 
 
@@ -48,7 +48,7 @@ def _parse_grid(text: str) -> dict[str, FloatArray]:
     for item in text.replace(",", " ").split():
         key, sep, value = item.partition("=")
         if not sep or key not in allowed:
-            raise InputError(
+            raise CommandLineInputError(
                 f"--grid: expected items KEY=START:STOP:COUNT with KEY in {', '.join(allowed)}, got {item!r}"
             )
         grid[key] = _parse_range(value, f"--grid {key}")
@@ -62,7 +62,9 @@ def _cmd_paths(args: argparse.Namespace) -> int:
     scene = load_scene(args.cell)
     names = [p.name for p in scene.paths]
     if args.path is not None and args.path not in names:
-        raise InputError(f"unknown path {args.path!r}; the cell has: {', '.join(names) or 'none'}")
+        raise CommandLineInputError(
+            f"unknown path {args.path!r}; the cell has: {', '.join(names) or 'none'}"
+        )
     chosen = [i for i, name in enumerate(names) if args.path in (None, name)]
     reports = [check_path(scene, i, resolution_mm=args.resolution_mm) for i in chosen]
     if args.json:
@@ -86,6 +88,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
 
 
 def _cmd_place(args: argparse.Namespace) -> int:
+    from posebridge.geometry.warm import warm_geometry
     from posebridge.planning.placement import PlacementGrid, search_base_placement
     from posebridge.planning.reports import render_placement
     from posebridge.units import deg_from_rad, mm_from_m
@@ -101,7 +104,7 @@ def _cmd_place(args: argparse.Namespace) -> int:
             given.get("yaw_deg", deg_from_rad(around.yaw)),
             given.get("height_mm", mm_from_m(around.height)),
         )
-    with executor_from(args) as executor:
+    with executor_from(args, warm_geometry) as executor:
         result = search_base_placement(
             scene,
             grid,

@@ -10,7 +10,7 @@ import numpy as np
 
 from posebridge.cli.common import (
     EXIT_OK,
-    InputError,
+    CommandLineInputError,
     ProgressBar,
     executor_from,
     finite_or_none,
@@ -22,14 +22,15 @@ from posebridge.cli.options import SharedOptions, options
 
 
 def _cmd_reach(args: argparse.Namespace) -> int:
+    from posebridge.kinematics.warm import warm_kinematics
     from posebridge.robot.library import load_robot
     from posebridge.spaces.workspace import reach_map
     from posebridge.units import m_from_mm, mm_from_m
 
     robot = load_robot(args.robot)
     if not 5.0 <= args.voxel_mm <= 1000.0:
-        raise InputError(f"--voxel-mm: expected 5..1000, got {args.voxel_mm:g}")
-    with executor_from(args) as executor:
+        raise CommandLineInputError(f"--voxel-mm: expected 5..1000, got {args.voxel_mm:g}")
+    with executor_from(args, warm_kinematics) as executor:
         result = reach_map(
             robot,
             voxel_size_m=float(m_from_mm(args.voxel_mm)),
@@ -70,6 +71,7 @@ def _cmd_jointmap(args: argparse.Namespace) -> int:
     from posebridge.cell import load_cell, resolve_scene
     from posebridge.cell.clearance import clearance_scene
     from posebridge.cell.files import cell_etag
+    from posebridge.geometry.warm import warm_geometry
     from posebridge.spaces.joint_map import joint_map
     from posebridge.units import joint_unit_labels
 
@@ -79,13 +81,13 @@ def _cmd_jointmap(args: argparse.Namespace) -> int:
     names = [n.strip() for n in args.joints.split(",")]
     unknown = [n for n in names if n not in robot.joint_names]
     if unknown or len(names) not in (2, 3):
-        raise InputError(
+        raise CommandLineInputError(
             f"--joints: expected 2 or 3 of {', '.join(robot.joint_names)}, got {args.joints!r}"
         )
     q_hold = (
         joints_argument(args.hold, "--hold", robot) if args.hold else robot.home_configuration()
     )
-    with executor_from(args) as executor:
+    with executor_from(args, warm_geometry) as executor:
         computed = joint_map(
             clearance_scene(scene),
             [robot.joint_names.index(n) for n in names],

@@ -6,6 +6,7 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge import errors
 from posebridge.arrays import FloatArray
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.robot.model import Robot
@@ -18,10 +19,7 @@ _ORTHONORMAL_TOLERANCE = 1e-6
 
 def check_positive(value: float, name: str) -> float:
     """``value`` as a float if it is positive and finite (a tolerance), else KinematicsInputError."""
-    number = float(value)
-    if not np.isfinite(number) or number <= 0.0:
-        raise KinematicsInputError(f"{name}: expected a positive finite number, got {value!r}")
-    return number
+    return errors.check_positive(name, value, KinematicsInputError)
 
 
 def check_target_poses(T_base_tool: npt.ArrayLike) -> FloatArray:
