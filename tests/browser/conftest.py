@@ -23,7 +23,7 @@ import pytest
 
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
-from posebridge.bench.drag import CHROMIUM_PATH, chromium_available, launch_chromium
+from posebridge.bench.browser import CHROMIUM_PATH, chromium_available, launch_chromium
 from posebridge.resources import data_folder
 
 ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts"

@@ -16,7 +16,7 @@ import httpx
 import numpy as np
 import pytest
 
-from posebridge.bench.drag import figure_pixel, plan_marker_position
+from posebridge.bench.browser import figure_pixel, plan_marker_position
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.checks import check_targets
 from posebridge.cell.diagnosis import diagnose_log

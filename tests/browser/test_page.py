@@ -16,7 +16,8 @@ import httpx
 import numpy as np
 import pytest
 
-from posebridge.bench.drag import figure_pixel, measure_drag_roundtrip, plan_marker_position
+from posebridge.bench.browser import figure_pixel, plan_marker_position
+from posebridge.bench.drag import measure_drag_roundtrip
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
 from posebridge.units import mm_from_m
