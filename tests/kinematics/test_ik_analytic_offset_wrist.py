@@ -29,7 +29,7 @@ from posebridge.kinematics.ik.analytic.offset_wrist import (
     OffsetWristGeometry,
     solve_offset_wrist,
 )
-from posebridge.kinematics.ik.analytic.ortho_parallel import OrthoParallelGeometry
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.numeric import DISTINCT_TOLERANCE, solve_ik_numeric
 from posebridge.kinematics.ik.solutions import (
     REASON_NO_WITHIN_LIMITS,

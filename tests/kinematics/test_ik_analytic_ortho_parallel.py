@@ -21,11 +21,8 @@ from scipy.spatial.transform import Rotation
 
 from posebridge.kinematics.branches import label_branches
 from posebridge.kinematics.fk import fk_flange, fk_tool
-from posebridge.kinematics.ik.analytic.ortho_parallel import (
-    OrthoParallelGeometry,
-    atan2_many,
-    solve_ortho_parallel,
-)
+from posebridge.kinematics.ik.analytic.ortho_parallel import atan2_many, solve_ortho_parallel
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.solutions import (
     REASON_NO_WITHIN_LIMITS,
     REASON_ORIENTATION,

@@ -36,10 +36,8 @@ from posebridge.kinematics.ik.analytic.offset_wrist import (
     OffsetWristGeometry,
     solve_offset_wrist,
 )
-from posebridge.kinematics.ik.analytic.ortho_parallel import (
-    OrthoParallelGeometry,
-    solve_ortho_parallel,
-)
+from posebridge.kinematics.ik.analytic.ortho_parallel import solve_ortho_parallel
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.analytic.planar import PlanarGeometry, solve_planar
 from posebridge.kinematics.ik.analytic.scara import ScaraGeometry
 from posebridge.kinematics.ik.inputs import check_positive
