@@ -44,7 +44,7 @@ from posebridge.cell.reports import (
     SingularityProximity,
 )
 from posebridge.cell.scene import Scene
-from posebridge.kinematics.branches import branch_geometry, label_branches
+from posebridge.kinematics.branches import branch_geometry, branch_words, label_branches, part_word
 from posebridge.kinematics.fk import check_configurations, fk_tool
 from posebridge.kinematics.ik.finishing import JOINT_REVOLUTE, joint_modes
 from posebridge.kinematics.jacobian import jacobian_base
@@ -107,13 +107,6 @@ SCORE_RULE = (
     "the highest score is recommended, ties go to the IK order (front, up, positive first)."
 )
 """How :func:`branch_score` ranks branches (common practice, no source)."""
-
-_WORDS = {
-    "shoulder": {1: "front", -1: "back", 0: "shoulder on axis 1"},
-    "elbow": {1: "up", -1: "down", 0: "elbow in line"},
-    "planar": {1: "left", -1: "right", 0: "elbow in line"},
-    "wrist": {1: "positive", -1: "negative", 0: "wrist straight"},
-}
 
 
 @dataclass(frozen=True, eq=False)
@@ -302,31 +295,6 @@ def proximity_ratio(quality: ConfigurationQuality) -> FloatArray:
     if ratio is not None:
         terms.append(ratio)
     return np.minimum.reduce(terms)
-
-
-def part_word(scheme: str, part: str, label: int) -> str:
-    """The word of one branch part: ``part_word("arm", "wrist", -1) == "negative"``.
-
-    ``part`` is ``"shoulder"``, ``"elbow"`` or ``"wrist"``; planar arms name the
-    elbow ``left``/``right``.
-    """
-    table = "planar" if scheme == "planar" and part == "elbow" else part
-    return _WORDS[table][int(label)]
-
-
-def branch_words(scheme: str, shoulder: int, elbow: int, wrist: int) -> str:
-    """Plain words of a branch: ``"front, up, positive"``, ``"left"`` or ``"single branch"``."""
-    if scheme == "arm":
-        return ", ".join(
-            [
-                part_word(scheme, "shoulder", shoulder),
-                part_word(scheme, "elbow", elbow),
-                part_word(scheme, "wrist", wrist),
-            ]
-        )
-    if scheme == "planar":
-        return part_word(scheme, "elbow", elbow)
-    return "single branch"
 
 
 def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:

@@ -53,7 +53,7 @@ from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.model import Branch
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.geometry.clearance import collision_batch
-from posebridge.kinematics.branches import label_branches, labels_match
+from posebridge.kinematics.branches import BRANCH_LABELS, label_branches, labels_match
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.ik.finishing import joint_weights
@@ -84,8 +84,6 @@ MAX_SAMPLES_PER_SEGMENT = 20_000
 REASON_UNREACHABLE = "out of reach"
 REASON_LIMITS = "outside joint limits"
 REASON_BRANCH = "not on the required branch"
-
-_LABEL_VALUES = {"front": 1, "back": -1, "up": 1, "down": -1, "positive": 1, "negative": -1}
 
 
 @dataclass(frozen=True, eq=False)
@@ -199,9 +197,10 @@ def branch_requirement(branch: Branch | None) -> Int8Array:
     """Required labels ``[shoulder, elbow, wrist]`` (+1, -1, or 0 for either), shape (3,)."""
     required = np.zeros(3, dtype=np.int8)
     if branch is not None:
-        for k, word in enumerate((branch.shoulder, branch.elbow, branch.wrist)):
+        for k, part in enumerate(("shoulder", "elbow", "wrist")):
+            word = getattr(branch, part)
             if word is not None:
-                required[k] = _LABEL_VALUES[word]
+                required[k] = BRANCH_LABELS[part][word]
     return required
 
 

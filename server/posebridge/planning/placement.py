@@ -77,7 +77,7 @@ from posebridge.geometry.shapes import (
     ObstacleSet,
     default_pair_mask,
 )
-from posebridge.kinematics.branches import branch_geometry, labels_match
+from posebridge.kinematics.branches import branch_geometry, branch_words, labels_match
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
@@ -129,7 +129,6 @@ MAX_CANDIDATES = 1_000_000
 """Largest grid accepted."""
 BRANCHES = np.array([(s, e, w) for s in (1, -1) for e in (1, -1) for w in (1, -1)], dtype=np.int8)
 """The eight branches (shoulder, elbow, wrist) in the stable order, shape (8, 3)."""
-_BRANCH_WORDS = (("front", "back"), ("up", "down"), ("positive", "negative"))
 
 
 @dataclass(frozen=True)
@@ -599,14 +598,7 @@ def _optional(value: float, scale: float = 1.0) -> float | None:
 def _branch_words(index: int, scheme: str) -> str:
     """Plain words of branch ``index`` of :data:`BRANCHES` for a label scheme."""
     shoulder, elbow, wrist = (int(v) for v in BRANCHES[index])
-    if scheme == "planar":
-        return "left" if elbow > 0 else "right"
-    if scheme != "arm":
-        return "single branch"
-    return ", ".join(
-        words[0 if v > 0 else 1]
-        for words, v in zip(_BRANCH_WORDS, (shoulder, elbow, wrist), strict=True)
-    )
+    return branch_words(scheme, shoulder, elbow, wrist)
 
 
 def search_base_placement(

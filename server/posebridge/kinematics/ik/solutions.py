@@ -22,6 +22,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.arrays import BoolArray, FloatArray, Int8Array, Int16Array
+from posebridge.kinematics.branches import branch_parts
 
 __all__ = [
     "LABEL_SCHEMES",
@@ -46,11 +47,6 @@ LABEL_SCHEMES = ("arm", "planar", "none")
 """``"arm"``: shoulder front/back, elbow up/down, wrist positive/negative (six- and
 seven-axis arms); ``"planar"``: elbow left/right only (planar arms, SCARA);
 ``"none"``: no branches (gantry)."""
-
-_SHOULDER_WORDS = {1: "front", -1: "back", 0: "shoulder on axis 1"}
-_ELBOW_WORDS = {1: "up", -1: "down", 0: "elbow in line"}
-_PLANAR_ELBOW_WORDS = {1: "left", -1: "right", 0: "elbow in line"}
-_WRIST_WORDS = {1: "positive", -1: "negative", 0: "wrist straight"}
 
 
 @dataclass(frozen=True, eq=False)
@@ -149,13 +145,9 @@ class IkSolutions:
         """
         if not np.all(np.isfinite(self.q[i, m])):
             return ""
-        words: list[str] = []
-        if self.label_scheme == "arm":
-            words.append(_SHOULDER_WORDS[int(self.shoulder[i, m])])
-            words.append(_ELBOW_WORDS[int(self.elbow[i, m])])
-            words.append(_WRIST_WORDS[int(self.wrist[i, m])])
-        elif self.label_scheme == "planar":
-            words.append(_PLANAR_ELBOW_WORDS[int(self.elbow[i, m])])
+        words = branch_parts(
+            self.label_scheme, self.shoulder[i, m], self.elbow[i, m], self.wrist[i, m]
+        )
         names = self.joint_names or tuple(f"j{k + 1}" for k in range(self.q.shape[2]))
         for k, count in enumerate(self.revolutions[i, m]):
             if count != 0:
