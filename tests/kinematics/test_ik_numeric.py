@@ -207,7 +207,7 @@ def test_unreachable_pose_has_no_valid_slot_and_a_reason() -> None:
 
 def test_planar_2r_reference_pose() -> None:
     robot = planar_2r()
-    # REFERENCES.md closed form: L1 = L2 = 1, target (0.366, 1.366) -> (30 deg, 90 deg); the
+    # closed form: L1 = L2 = 1, target (0.366, 1.366) = (cos 30 + cos 120, sin 30 + sin 120) -> (30 deg, 90 deg); the
     # orientation Rz(120 deg) excludes the other elbow branch (120 deg, -90 deg), whose
     # flange points along 30 deg
     target = planar_2r_pose(math.radians(30.0), math.radians(90.0))

@@ -55,7 +55,7 @@ def circle_cell(radius: float = RADIUS, count: int = 8) -> Scene:
 def reachable(distance: np.ndarray) -> np.ndarray:
     """Closed form for a planar 2R arm: the wrist distance is sqrt(l1^2 + l2^2 + 2 l1 l2 cos q2)
     (law of cosines), so with |q2| <= 150 deg the reachable annulus is
-    r(150 deg) <= d <= l1 + l2 (REFERENCES.md, planar 2R reach)."""
+    r(150 deg) <= d <= l1 + l2 (planar 2R reach, closed form)."""
     inner = np.sqrt(L1**2 + L2**2 + 2.0 * L1 * L2 * np.cos(J2_LIMIT))
     return (distance >= inner) & (distance <= L1 + L2)
 
