@@ -46,7 +46,7 @@ from posebridge.cell.reports import (
 from posebridge.cell.scene import Scene
 from posebridge.kinematics.branches import branch_geometry, branch_words, label_branches, part_word
 from posebridge.kinematics.fk import check_configurations, fk_tool
-from posebridge.kinematics.ik.finishing import JOINT_REVOLUTE, joint_modes
+from posebridge.kinematics.ik.finishing import JOINT_CONTINUOUS, JOINT_REVOLUTE, joint_modes
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
     LimitMargins,
@@ -298,15 +298,22 @@ def proximity_ratio(quality: ConfigurationQuality) -> FloatArray:
 
 
 def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
-    """Whole extra revolutions of joints whose range exceeds one revolution, shape (N, n).
+    """Whole extra revolutions of each joint, shape (N, n), counted as the IK result counts
+    them (:mod:`posebridge.kinematics.ik.finishing`).
 
-    As in :mod:`posebridge.kinematics.ik.finishing`: a value ``v`` wrapped to
-    ``(-pi, pi]`` plus ``2 pi k`` has ``k`` revolutions; other joints have 0.
+    Limited revolute joints: ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)``, revolutions
+    away from the one centred on the range (so a joint whose range spans at most one
+    revolution always has 0); continuous joints: ``k`` of ``q = wrapped + 2 pi k`` with the
+    wrapped value in ``(-pi, pi]``; prismatic joints 0.
     """
     q = check_configurations(robot, q)
+    modes = joint_modes(robot)
+    centred = np.floor((q - 0.5 * (robot.lower + robot.upper)) / (2.0 * np.pi) + 0.5)
     wrapped = np.pi - np.mod(np.pi - q, 2.0 * np.pi)
-    revolutions = np.rint((q - wrapped) / (2.0 * np.pi)).astype(np.int16)
-    return np.where(joint_modes(robot) == JOINT_REVOLUTE, revolutions, 0).astype(np.int16)
+    turns = np.rint((q - wrapped) / (2.0 * np.pi))
+    counts = np.where(modes == JOINT_REVOLUTE, centred, 0.0)
+    counts = np.where(modes == JOINT_CONTINUOUS, turns, counts)
+    return counts.astype(np.int16)
 
 
 def _revolution_words(robot: Robot, revolutions: npt.ArrayLike) -> list[str]:
