@@ -14,6 +14,7 @@ import dataclasses
 from collections.abc import Callable
 
 import numpy as np
+import pinocchio as pin
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -47,7 +48,6 @@ EIGHT_LABELS = {(s, e, w) for s in (1, -1) for e in (1, -1) for w in (1, -1)}
 
 def pin_flange(urdf: str) -> Callable[[np.ndarray], np.ndarray]:
     """Flange poses by pinocchio from URDF text, (N, 6) -> (N, 4, 4)."""
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(urdf)
     data = model.createData()
     flange = model.getFrameId("flange")
@@ -368,7 +368,6 @@ def test_stretched_elbow_gives_one_elbow_solution(hand) -> None:
     # to axis 4 in the plane across them (pinocchio joint placements and axes); the
     # generated link directions give the bracket: q3 = sign (angle2 - angle3) lines up
     # upper arm and forearm
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(hand.urdf)
     data = model.createData()
 

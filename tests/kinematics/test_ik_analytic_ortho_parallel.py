@@ -12,6 +12,7 @@ from __future__ import annotations
 import dataclasses
 
 import numpy as np
+import pinocchio as pin
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -119,8 +120,6 @@ def test_extract_rejects_other_arms(name: str) -> None:
 
 
 def test_extract_urdf_matches_toml(geometry: OrthoParallelGeometry) -> None:
-    if not URDF_PATH.is_file():
-        pytest.skip("robots/pb-arm6.urdf not present")
     from_urdf = OrthoParallelGeometry.from_robot(load_robot_urdf(URDF_PATH, to_link="flange"))
     assert from_urdf is not None
     # reference: the same invented robot described in TOML (the parameters are geometry,
@@ -294,9 +293,6 @@ def test_fk_of_every_solution_equals_an_arbitrary_target(
 def test_solutions_checked_with_pinocchio(
     arm6: Robot, geometry: OrthoParallelGeometry, fractions: np.ndarray
 ) -> None:
-    if not URDF_PATH.is_file():
-        pytest.skip("robots/pb-arm6.urdf not present")
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
     data = model.createData()
     flange = model.getFrameId("flange")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
+import pinocchio as pin
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -12,6 +13,8 @@ from hypothesis.extra.numpy import arrays
 from scipy.spatial.transform import Rotation
 
 from posebridge.kinematics.fk import KinematicsInputError, fk_tool
+from posebridge.kinematics.ik.analytic.ortho_parallel import solve_ortho_parallel
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.numeric import DISTINCT_TOLERANCE, solve_ik_numeric
 from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
 from posebridge.resources import data_folder
@@ -117,11 +120,9 @@ def test_custom_tool_is_reached() -> None:
 URDF_PATH = data_folder("robots") / "pb-arm6-offset.urdf"
 
 
-@pytest.mark.skipif(not URDF_PATH.is_file(), reason="robots/pb-arm6-offset.urdf not present")
 @settings(derandomize=True, deadline=None, max_examples=10)
 @given(fractions=arrays(np.float64, (4, 6), elements=st.floats(0.0, 1.0)))
 def test_solutions_checked_with_pinocchio(fractions: np.ndarray) -> None:
-    pin = pytest.importorskip("pinocchio")
     robot = load_robot_urdf(URDF_PATH, to_link="flange")
     model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
     data = model.createData()
@@ -167,14 +168,13 @@ def test_all_solutions_distinct_within_limits_and_reaching(name: str) -> None:
 
 
 def test_all_solutions_match_the_closed_form_of_the_ortho_parallel_arm() -> None:
-    ortho = pytest.importorskip("posebridge.kinematics.ik.analytic.ortho_parallel")
     robot = load_robot("pb-arm6")
     rng = np.random.default_rng(4)
     targets = fk_tool(robot, rng.uniform(robot.lower, robot.upper, size=(8, 6)))
-    geometry = ortho.OrthoParallelGeometry.from_robot(robot)
+    geometry = OrthoParallelGeometry.from_robot(robot)
     # reference: closed-form IK of ortho-parallel arms with a spherical wrist (Brandstötter,
     # Angerer, Hofbaur 2014), posebridge's analytic solver, a different method and code
-    analytic = ortho.solve_ortho_parallel(robot, geometry, targets)
+    analytic = solve_ortho_parallel(robot, geometry, targets)
     numeric = solve_ik_numeric(robot, targets)
 
     def same_modulo_revolutions(a: np.ndarray, b: np.ndarray) -> bool:
