@@ -112,7 +112,7 @@ def main(argv: Sequence[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("posebridge: interrupted", file=sys.stderr)
         return EXIT_BAD_INPUT
-    except Exception as error:  # noqa: BLE001 - the CLI reports, never shows a traceback by default
+    except Exception as error:  # the CLI reports, never shows a traceback by default
         if os.environ.get("POSEBRIDGE_DEBUG"):
             traceback.print_exc()
         print(
