@@ -1,6 +1,7 @@
 // Page entry: builds the store, the views and panels, and links them to the server.
 
 import { createApiClient } from "./api.js";
+import { createArmState } from "./armstate.js";
 import { createActions } from "./actions.js";
 import { createCellSync } from "./cellsync.js";
 import { createLinking } from "./linking.js";
@@ -14,6 +15,7 @@ import { createJointMapView } from "./views/jointmap.js";
 import { createJointSpaceView } from "./views/jointspace3d.js";
 import { createProjectionView } from "./views/projection.js";
 import { createSceneView } from "./views/scene3d.js";
+import { createArmStatus } from "./panels/armstatus.js";
 import { createCellPanel } from "./panels/cell.js";
 import { createPathPanel } from "./panels/path.js";
 import { createPlacementPanel } from "./panels/placement.js";
@@ -37,6 +39,7 @@ async function start() {
   // the jobs the page starts by itself share one pacer (used on a reviewer's page)
   const pacer = createJobPacer();
   const maps = createMaps({ store, api, actions, pacer });
+  createArmState({ store, api });
   createPathCurve({ store, api });
   createReachSections({ store, api, actions, pacer });
   const byId = (id) => document.getElementById(id);
@@ -51,6 +54,7 @@ async function start() {
     store,
     onRobotChosen: showRobot,
   });
+  createArmStatus({ element: byId("arm-state"), summary: byId("arm-summary"), store });
   createCellPanel({
     container: byId("cell-panel"),
     store,

@@ -12,6 +12,7 @@
 
 /* global Plotly */
 
+import { currentArmSeverity, levelColour } from "../severity.js";
 import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { branchHeading } from "../branches.js";
@@ -169,7 +170,9 @@ export function createJointMapView({ element, base, note, legend, header, progre
   }
 
   /** The moving traces: solution markers, selected-solution ring, current configuration, crosshair. */
-  function dynamicTraces({ ik, mapJoints, selectedBranch, joints, robot }) {
+  function dynamicTraces(state) {
+    const { ik, mapJoints, selectedBranch, joints, robot } = state;
+    const level = currentArmSeverity(state).level;
     const [a, b] = mapJoints;
     const solutions = ik ? ik.result.solutions : [];
     const styles = solutions.map((solution) => branchStyle(palette, solution));
@@ -217,8 +220,13 @@ export function createJointMapView({ element, base, note, legend, header, progre
         name: "current configuration",
         x: [joints[a]],
         y: [joints[b]],
-        marker: { size: 16, symbol: "cross-thin-open", color: palette.ink, line: { width: 2.5 } },
-        meta: { role: "current" },
+        marker: {
+          size: level === "ok" ? 16 : 22,
+          symbol: "cross-thin-open",
+          color: levelColour(palette, level, palette.ink),
+          line: { width: level === "ok" ? 2.5 : 4 },
+        },
+        meta: { role: "current", level },
       },
     ];
   }
@@ -271,7 +279,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     if (!robot || joints.length !== robot.dof) {
       return;
     }
-    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive];
+    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk];
     if (drawnInputs && inputs.every((value, k) => value === drawnInputs[k])) {
       return; // already drawn (an answer drawn at once, then its frame request)
     }
@@ -289,7 +297,10 @@ export function createJointMapView({ element, base, note, legend, header, progre
         x: dynamic.map((trace) => trace.x),
         y: dynamic.map((trace) => trace.y),
         customdata: dynamic.map((trace) => trace.customdata),
-        "marker.color": dynamic.map((trace, k) => (k === 0 ? trace.marker.color : undefined)),
+        "marker.color": dynamic.map((trace, k) => (k === 0 || k === 3 ? trace.marker.color : undefined)),
+        "marker.size": dynamic.map((trace, k) => (k === 3 ? trace.marker.size : undefined)),
+        "marker.line.width": dynamic.map((trace, k) => (k === 3 ? trace.marker.line.width : undefined)),
+        meta: dynamic.map((trace) => trace.meta),
         "marker.symbol": dynamic.map((trace, k) => (k === 0 ? trace.marker.symbol : undefined)),
       };
       drawn = Plotly.restyle(element, update, dynamic.map((_, k) => k));
@@ -401,7 +412,9 @@ export function createJointMapView({ element, base, note, legend, header, progre
   }
 
   const requestRender = frameScheduler({ render });
-  store.subscribe(requestRender, { keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive"] });
+  store.subscribe(requestRender, {
+    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk"],
+  });
   // a new inverse kinematics answer is drawn at once, not on the next frame: it is
   // what a drag waits for (the update is a small restyle of the top figure)
   store.subscribe(render, { keys: ["ik"] });

@@ -27,7 +27,7 @@ from posebridge.bench.browser import CHROMIUM_PATH, chromium_available, launch_c
 from posebridge.resources import data_folder
 
 ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts"
-VIEWPORT = {"width": 1600, "height": 1250}
+VIEWPORT = {"width": 1600, "height": 1000}
 
 
 @pytest.fixture(scope="session", autouse=True)
