@@ -356,8 +356,26 @@ def load_cell(path: str | Path) -> Cell:
     return parse_cell_json(text, source=str(path))
 
 
+FILE_DECIMALS = 3
+"""Decimals of every number a cell file holds: 0.001 mm for lengths, 0.001 deg for angles
+(cell files hold mm, deg and speeds in mm/s or deg/s), so a drag leaves no float noise in a diff."""
+
+
+def _rounded(value: Any) -> Any:
+    """``value`` with every float rounded to :data:`FILE_DECIMALS` decimals (-0.0 written as 0.0)."""
+    if isinstance(value, float):
+        return round(value, FILE_DECIMALS) + 0.0
+    if isinstance(value, dict):
+        return {key: _rounded(item) for key, item in value.items()}
+    if isinstance(value, list):
+        return [_rounded(item) for item in value]
+    return value
+
+
 def _plain_data(cell: Cell) -> dict[str, Any]:
-    return cell.model_dump(mode="json", exclude_none=True)
+    """The cell as JSON data, numbers rounded as written (so the content version matches the file)."""
+    data: dict[str, Any] = _rounded(cell.model_dump(mode="json", exclude_none=True))
+    return data
 
 
 # An indented array holding only numbers. JSON strings cannot hold a raw line
