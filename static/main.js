@@ -105,6 +105,7 @@ async function start() {
     element: byId("joint-space-3d"),
     header: byId("map3-joints"),
     note: byId("map3-note"),
+    legend: byId("map3-legend"),
     store,
     actions,
     palette,

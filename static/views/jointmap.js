@@ -13,7 +13,7 @@
 /* global Plotly */
 
 import { currentArmSeverity, levelColour } from "../severity.js";
-import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
+import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { branchHeading } from "../branches.js";
 import { branchStyle, regionColour } from "../palette.js";
@@ -63,6 +63,18 @@ export function gridRows(map, flat, value) {
   return rows;
 }
 
+/** Name of the object colliding at joint values (x, y) of a two-joint map ("" if free). */
+export function objectAt(map, x, y) {
+  const [xs, ys] = map.axes_deg;
+  const nearest = (values, v) => values.reduce((best, value, k) => (Math.abs(value - v) < Math.abs(values[best] - v) ? k : best), 0);
+  const flat = nearest(xs, x) * map.shape[1] + nearest(ys, y);
+  const k = map.obstacle[flat];
+  if (k >= 0) {
+    return map.obstacle_names[k];
+  }
+  return map.self_collision[flat] ? "arm itself" : "";
+}
+
 /** Heatmap traces of a two-joint map: clearance shading, one region per obstacle, self collision. */
 export function regionTraces(map, palette) {
   const [xs, ys] = map.axes_deg;
@@ -78,9 +90,9 @@ export function regionTraces(map, palette) {
       colorscale: [[0, "#c4ccd3"], [1, "rgba(251, 252, 253, 0)"]],
     });
   }
-  map.colliding_obstacles.forEach((name) => {
+  map.colliding_obstacles.forEach((name, rank) => {
     const index = map.obstacle_names.indexOf(name);
-    const colour = regionColour(palette, index);
+    const colour = regionColour(palette, rank);
     traces.push({
       ...base,
       name,
@@ -362,7 +374,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const regionEntries = regions.map((name) => {
       const entry = document.createElement("span");
       entry.className = "pb-region";
-      entry.append(swatch("■", regionColour(palette, map.obstacle_names.indexOf(name))), ` ${name}`);
+      entry.append(swatch("■", regionColour(palette, map.colliding_obstacles.indexOf(name))), ` ${name}`);
       return entry;
     });
     if (selfHit) {
@@ -466,6 +478,20 @@ export function createJointMapView({ element, base, note, legend, header, progre
       return true;
     },
     onMove: (point) => setPair(point),
+  });
+
+  // hovering a region names its object (the regions are in the figure under this one)
+  element.addEventListener("mousemove", (event) => {
+    const map = currentMap(store.get());
+    if (!map || !element._fullLayout) {
+      return;
+    }
+    const point = dataFromPointer(element, event);
+    const name = point.inside ? objectAt(map, point.x, point.y) : "";
+    if (element.dataset.hoverObject !== name) {
+      element.dataset.hoverObject = name;
+      element.title = name ? `${name} collides here` : "";
+    }
   });
 
   element.addEventListener("keydown", (event) => {

@@ -119,3 +119,89 @@ def test_one_screen_with_a_check_open(open_page: Any, artifacts: Path) -> None:
     page.wait_for_function(_MAPS_CURRENT, timeout=120_000)
     page.screenshot(path=str(artifacts / "page-one-screen-check-open.png"))
     assert open_page.problems.console_errors == []
+
+
+# a grid cell of the two-joint map where an obstacle collides: its name and joint values
+_COLLIDING_CELL = """() => {
+  const m = window.posebridge.getState().jointMap;
+  const flat = m.obstacle.findIndex((k) => k >= 0);
+  const nb = m.shape[1];
+  return [m.obstacle_names[m.obstacle[flat]], m.axes_deg[0][Math.floor(flat / nb)],
+          m.axes_deg[1][flat % nb]];
+}"""
+
+
+def test_joint_map_colours_hover_and_legend(open_page: Any, artifacts: Path) -> None:
+    page = open_page.page
+    page.wait_for_function(_MAPS_CURRENT, timeout=120_000)
+    regions = page.evaluate(
+        "() => document.getElementById('joint-map-base').data"
+        ".filter((t) => t.meta && t.meta.role === 'obstacle')"
+        ".map((t) => [t.meta.obstacle, t.colorscale[0][1]])"
+    )
+    assert regions
+    # our own contract (issue): every object the map shows has its own colour
+    assert len({colour for _, colour in regions}) == len(regions)
+    # the 3D joint view has its own legend, one entry per object it shows
+    groups = page.evaluate(
+        "() => document.getElementById('joint-space-3d').data"
+        ".filter((t) => t.meta && t.meta.role === 'obstacle').map((t) => t.name)"
+    )
+    legend = page.inner_text("#map3-legend")
+    assert groups and all(name in legend for name in groups)
+    # hovering a region names its object
+    name, x, y = page.evaluate(_COLLIDING_CELL)
+    point = page.evaluate(
+        """([x, y]) => {
+          const el = document.getElementById('joint-map');
+          const area = el.querySelector('.nsewdrag').getBoundingClientRect();
+          const xr = el._fullLayout.xaxis.range, yr = el._fullLayout.yaxis.range;
+          return [area.left + (x - xr[0]) / (xr[1] - xr[0]) * area.width,
+                  area.top + (yr[1] - y) / (yr[1] - yr[0]) * area.height];
+        }""",
+        [x, y],
+    )
+    page.mouse.move(point[0], point[1])
+    assert page.get_attribute("#joint-map", "data-hover-object") == name
+    page.screenshot(path=str(artifacts / "page-joint-map-colours.png"))
+    assert open_page.problems.console_errors == []
+
+
+def test_log_timeline_playback_and_worst_row(open_page: Any, artifacts: Path) -> None:
+    page = open_page.page
+    page.set_input_files("#log-file", str(DEMO_LOG))
+    page.wait_for_function("() => window.posebridge.getState().logCheck", timeout=30_000)
+    worst = int(page.get_attribute("#log-facts", "data-worst-row"))
+    page.fill("#log-scrub", "0")
+    page.dispatch_event("#log-scrub", "input")
+    page.select_option("#log-speed", "0.25")
+    page.click("#log-play")
+    assert page.inner_text("#log-play") == "Pause"
+    # "go to the worst row" stops the playback and puts the arm on that row
+    page.click("#log-worst")
+    assert page.inner_text("#log-play") == "Play"
+    assert page.input_value("#log-scrub") == str(worst)
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState(); return s.fkJoints === s.joints; }"
+    )
+    assert page.input_value("#log-scrub") == str(worst)  # nothing moved it on
+    # the timeline's axis titles and tick labels lie inside its box (not clipped)
+    page.locator("#log-timeline").scroll_into_view_if_needed()
+    inside = page.evaluate(
+        """() => {
+          const box = document.getElementById('log-timeline').getBoundingClientRect();
+          const labels = document.querySelectorAll(
+            '#log-timeline .xtitle, #log-timeline .ytitle, #log-timeline .y2title, '
+            + '#log-timeline .y3title, #log-timeline .xtick text, #log-timeline .legend');
+          return [...labels].every((el) => {
+            const r = el.getBoundingClientRect();
+            return r.left >= box.left - 1 && r.right <= box.right + 1 &&
+              r.top >= box.top - 1 && r.bottom <= box.bottom + 1;
+          }) && labels.length > 0;
+        }"""
+    )
+    assert inside
+    page.wait_for_function(_MAPS_CURRENT, timeout=120_000)
+    page.locator("#log-timeline").screenshot(path=str(artifacts / "page-log-timeline.png"))
+    page.screenshot(path=str(artifacts / "page-log-check-open.png"))
+    assert open_page.problems.console_errors == []
