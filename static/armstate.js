@@ -6,9 +6,10 @@
 
 import { createLatestChannel, isRateLimited, retryDelayMs } from "./api.js";
 
-// the same pacing as forward kinematics (linking.js): every frame at rest, every
-// 120 ms while a target is dragged, and below the reviewer's rate cap on a shared page
-const WHILE_DRAGGING_MS = 120;
+// every frame at rest; every 250 ms while something is dragged, so the drag's own
+// inverse and forward kinematics answers never queue behind it; below the
+// reviewer's rate cap on a shared page
+const WHILE_DRAGGING_MS = 250;
 const REVIEW_MS = 200;
 
 /** @param {{store: object, api: object}} options */
