@@ -184,7 +184,7 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
       {
         margin: { l: 64, r: 12, t: 18, b: 96 },
         showlegend: true,
-        legend: { orientation: "h", x: 0, y: -0.2, yanchor: "top", font: { size: 10 }, entrywidth: 0.5, entrywidthmode: "fraction" },
+        legend: { orientation: "h", x: 0, y: -0.2, yanchor: "top", font: { size: 10 } },
         xaxis: { anchor: "y3", title: { text: "log row", standoff: 4 }, range: [0, Math.max(1, x.length - 1)], automargin: true },
         yaxis: axis([0.7, 1], "margin %"),
         yaxis2: axis([0.36, 0.64], "clear. mm"),
