@@ -121,12 +121,30 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
       ["Manipulability", formatNumber(pose.manipulability, { decimals: 4 })],
       ["Clearance", closestText(pose.closest)],
       ["Nearest target", pose.nearest_targets.length ? `${pose.nearest_targets[0].name} (${formatLength(pose.nearest_targets[0].distance_mm)}, ${formatNumber(pose.nearest_targets[0].angle_deg)} deg)` : "–"],
-      ["Other branches", pose.branches.map((b) => `${b.branch}${b.usable ? "" : " (not usable)"}`).join("; ") || "–"],
     ];
     const rows = lines.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));
     const show = element("button", { text: "Move the arm here", attributes: { type: "button", id: "pose-show" } });
     show.addEventListener("click", () => actions.setJoints([...pose.joints_deg], { reason: "pose-check" }));
-    return [element("table", { className: "pb-facts", attributes: { id: "pose-facts" } }, rows), show, findingList(pose.findings)];
+    return [element("table", { className: "pb-facts", attributes: { id: "pose-facts" } }, rows), otherBranches(pose), show, findingList(pose.findings)];
+  }
+
+  /** The other branches of the same TCP pose as a compact table, without the pose's own. */
+  function otherBranches(pose) {
+    const others = pose.branches.filter((_, k) => k !== pose.input_branch);
+    if (others.length === 0) {
+      return element("p", { className: "pb-note", text: "No other branch reaches this TCP pose." });
+    }
+    const cell = (text) => element("td", { text });
+    const head = element("tr", {}, ["Other branch", "Limits", "Clearance", "Usable"].map((text) => element("th", { text })));
+    const body = others.map((b) =>
+      element("tr", {}, [
+        cell(b.branch),
+        cell(b.within_limits ? "within" : "beyond"),
+        cell(b.clearance_mm === null ? "–" : formatLength(b.clearance_mm)),
+        cell(b.usable ? "yes" : "no"),
+      ]),
+    );
+    return element("table", { className: "pb-solutions pb-other-branches", attributes: { id: "pose-other-branches" } }, [head, ...body]);
   }
 
   function findingList(findings) {

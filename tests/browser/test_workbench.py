@@ -205,3 +205,24 @@ def test_log_timeline_playback_and_worst_row(open_page: Any, artifacts: Path) ->
     page.locator("#log-timeline").screenshot(path=str(artifacts / "page-log-timeline.png"))
     page.screenshot(path=str(artifacts / "page-log-check-open.png"))
     assert open_page.problems.console_errors == []
+
+
+def test_pose_check_other_branches_table(open_page: Any, cell_path: Path) -> None:
+    page = open_page.page
+    joints = [10.0, 20.0, -30.0, 5.0, 60.0, -15.0]
+    page.fill("#pose-input", ", ".join(str(v) for v in joints))
+    page.click("#pose-check")
+    page.wait_for_function("() => window.posebridge.getState().poseCheck", timeout=30_000)
+    scene = resolve_scene(load_cell(cell_path))
+    expected = diagnose_pose(scene, np.radians(joints))
+    assert expected.input_branch is not None
+    own = expected.branches[expected.input_branch].branch
+    rows = page.locator("#pose-other-branches tr")
+    # one header row, then every other branch of the same TCP pose (pose diagnosis, Python)
+    assert rows.count() == len(expected.branches)
+    listed = [rows.nth(k).locator("td").first.inner_text() for k in range(1, rows.count())]
+    assert own not in listed
+    assert sorted(listed) == sorted(
+        b.branch for k, b in enumerate(expected.branches) if k != expected.input_branch
+    )
+    assert open_page.problems.console_errors == []
