@@ -24,7 +24,7 @@ from typing import Any
 
 import numpy as np
 
-from posebridge.bench.drag import chromium_available, launch_chromium
+from posebridge.bench.browser import chromium_available, launch_chromium
 
 __all__ = ["bench_page_load", "measure_page_load"]
 
