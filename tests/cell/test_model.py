@@ -154,7 +154,7 @@ def test_fixture_shapes_select_their_model() -> None:
         (
             "fixtures.0.shape",
             "cone",
-            "fixtures[0].shape: expected 'box', 'cylinder' or 'frame', got 'cone'",
+            "fixtures[0].shape: expected 'box', 'cylinder', 'mesh' or 'frame', got 'cone'",
         ),
         (
             "fixtures.0.name",
@@ -228,7 +228,7 @@ def test_missing_fields_are_named() -> None:
     # our own contract: every missing field is listed, each with its path
     assert problems(data) == [
         "robot: required field missing",
-        "fixtures[0].shape: required field missing ('box', 'cylinder' or 'frame')",
+        "fixtures[0].shape: required field missing ('box', 'cylinder', 'mesh' or 'frame')",
         "fixtures[1].radius_mm: required field missing",
         "fixtures[1].height_mm: required field missing",
     ]

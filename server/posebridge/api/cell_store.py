@@ -32,9 +32,11 @@ from posebridge.cell.files import (
     remove_leftover_temporaries,
     save_cell,
 )
+from posebridge.cell.mesh_fixtures import MeshFixtureLoader
 from posebridge.cell.model import Cell, validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.geometry.clearance import ClearanceScene
+from posebridge.geometry.mesh_cache import MeshCache
 from posebridge.resources import data_folder
 
 __all__ = ["DEMO_CELL_FILE", "CellSnapshot", "CellStore"]
@@ -88,6 +90,8 @@ class CellStore:
                 _log.warning("removed %s, left by a save that was interrupted", leftover)
         self._snapshot: CellSnapshot | None = None
         self._mtime_ns: int | None = None
+        self.mesh_loader = MeshFixtureLoader(MeshCache.default())
+        """Reads the mesh fixtures' files once and keeps them across edits."""
 
     @property
     def path(self) -> Path | None:
@@ -104,7 +108,10 @@ class CellStore:
 
     def _snapshot_of(self, cell: Cell) -> CellSnapshot:
         return CellSnapshot(
-            cell=cell, etag=cell_etag(cell), scene=resolve_scene(cell, self._path), path=self._path
+            cell=cell,
+            etag=cell_etag(cell),
+            scene=resolve_scene(cell, self._path, mesh_loader=self.mesh_loader),
+            path=self._path,
         )
 
     def read(self) -> CellSnapshot:

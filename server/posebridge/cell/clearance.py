@@ -6,9 +6,14 @@ The cell's shapes become the geometry engine's arrays here, once per
 * **Arm capsules**: the robot's link capsules, then the cell tool's capsules
   (given in the flange frame, carried by the last link).
 * **Obstacle order** (the index every result that names an obstacle uses):
-  box fixtures, cylinder fixtures, keep-out zones, the pedestal, the floor,
-  each in the cell file's order. Keep-out zones are obstacles like any other:
-  a capsule inside one is in collision with it.
+  box fixtures, cylinder fixtures, mesh fixtures, keep-out zones, the
+  pedestal, the floor, each in the cell file's order
+  (:func:`fixture_count`: how many come before the keep-outs). Keep-out
+  zones are obstacles like any other: a capsule inside one is in collision
+  with it. Mesh fixtures are exact to their triangles (signed for closed
+  meshes, unsigned for open ones: :attr:`ObstacleSet.is_signed`), so a
+  target reached through a door opening of a machine housing is clear where
+  a box around the housing would collide.
 * **Pairs**: every capsule against every obstacle, except the base-link
   capsules (link 0) against the floor and the pedestal, which the robot
   stands on (:func:`posebridge.geometry.shapes.default_pair_mask` and the same
@@ -37,7 +42,7 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.cell.scene import BoxSet, CylinderSet, Scene
+from posebridge.cell.scene import BoxSet, CylinderSet, MeshSet, Scene
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch
 from posebridge.geometry.self_pairs import self_collision_pairs
 from posebridge.geometry.shapes import (
@@ -46,6 +51,7 @@ from posebridge.geometry.shapes import (
     Cylinder,
     Floor,
     IntArray,
+    Mesh,
     ObstacleSet,
     default_pair_mask,
 )
@@ -62,6 +68,7 @@ __all__ = [
     "cell_obstacles",
     "clearance_scene",
     "clearance_to_cell",
+    "fixture_count",
     "obstacle_kinds",
     "obstacle_names",
 ]
@@ -110,18 +117,31 @@ def _cylinders(cylinders: CylinderSet) -> list[Cylinder]:
     ]
 
 
+def _meshes(meshes: MeshSet) -> list[Mesh]:
+    return [
+        Mesh(name, T, mesh)
+        for name, T, mesh in zip(meshes.names, meshes.T_world, meshes.meshes, strict=True)
+    ]
+
+
+def fixture_count(scene: Scene) -> int:
+    """Obstacles that are fixtures (boxes, cylinders, meshes): the first ones in the order."""
+    return len(scene.boxes.names) + len(scene.cylinders.names) + len(scene.meshes.names)
+
+
 def cell_obstacles(scene: Scene) -> ObstacleSet:
     """Every obstacle of the cell in the documented order (module docstring).
 
     Returns
     -------
     ObstacleSet
-        ``k = B + C + K + P + 1`` obstacles (box fixtures, cylinder fixtures,
-        keep-outs, pedestal, floor).
+        ``k = B + C + M + K + P + 1`` obstacles (box, cylinder and mesh
+        fixtures, keep-outs, pedestal, floor).
     """
-    shapes: list[Box | Cylinder | Floor] = []
+    shapes: list[Box | Cylinder | Floor | Mesh] = []
     shapes.extend(_boxes(scene.boxes))
     shapes.extend(_cylinders(scene.cylinders))
+    shapes.extend(_meshes(scene.meshes))
     shapes.extend(_boxes(scene.keep_outs))
     shapes.extend(_cylinders(scene.pedestal))
     shapes.append(Floor(scene.floor_height))
@@ -133,6 +153,7 @@ def obstacle_names(scene: Scene) -> list[str]:
     return [
         *scene.boxes.names,
         *scene.cylinders.names,
+        *scene.meshes.names,
         *scene.keep_outs.names,
         *scene.pedestal.names,
         "floor",
@@ -141,8 +162,7 @@ def obstacle_names(scene: Scene) -> list[str]:
 
 def obstacle_kinds(scene: Scene) -> list[ObstacleKind]:
     """What each obstacle is (``"fixture"``, ``"keep-out"``, ``"pedestal"``, ``"floor"``), length k."""
-    fixtures = len(scene.boxes.names) + len(scene.cylinders.names)
-    kinds: list[ObstacleKind] = ["fixture"] * fixtures
+    kinds: list[ObstacleKind] = ["fixture"] * fixture_count(scene)
     kinds += ["keep-out"] * len(scene.keep_outs.names)
     kinds += ["pedestal"] * len(scene.pedestal.names)
     kinds.append("floor")
@@ -167,9 +187,7 @@ def _build(scene: Scene) -> _Built:
     arm = cell_arm(scene)
     obstacles = cell_obstacles(scene)
     mask = default_pair_mask(arm, obstacles)
-    first_pedestal = (
-        len(scene.boxes.names) + len(scene.cylinders.names) + len(scene.keep_outs.names)
-    )
+    first_pedestal = fixture_count(scene) + len(scene.keep_outs.names)
     mask[arm.link == 0, first_pedestal : first_pedestal + len(scene.pedestal.names)] = False
     pairs = self_collision_pairs(arm, samples=SELF_PAIR_SAMPLES, seed=0)
     full = ClearanceScene.build(

@@ -12,8 +12,10 @@ Frames
 * Fixtures: ``position_mm`` / ``rpy_deg`` place the fixture frame in its
   parent fixture's frame (or the world when ``parent`` is omitted). A box is
   centred on its frame with ``size_mm`` along the frame's x, y, z; a cylinder
-  is centred on its frame with its axis along z; a ``frame`` fixture has no
-  geometry and only groups children and targets.
+  is centred on its frame with its axis along z; a ``mesh`` fixture is a
+  triangle mesh file (relative to the cell file) whose own coordinates are
+  taken in the fixture frame, in the file's length ``unit``; a ``frame``
+  fixture has no geometry and only groups children and targets.
 * Keep-out zones: boxes placed in the world, centred on their frame.
 * Targets: tool (TCP) poses in the frame of their ``fixture`` (``"world"`` for
   the world frame), so moving a fixture moves its targets. The approach pose
@@ -62,6 +64,7 @@ __all__ = [
     "MAX_TOML_CHARS",
     "MAX_TOOL_CAPSULES",
     "MAX_WAYPOINTS",
+    "MESH_FILE_SUFFIXES",
     "UNITS_NOTE",
     "WORLD",
     "BoxFixture",
@@ -74,6 +77,7 @@ __all__ = [
     "Fixture",
     "FrameFixture",
     "KeepOutZone",
+    "MeshFixture",
     "MotionPath",
     "Pose",
     "Target",
@@ -120,7 +124,11 @@ _NAME_RULE = (
     f"must be 1 to {MAX_NAME_CHARS} characters, "
     "without control characters or leading/trailing spaces"
 )
-_FIXTURE_SHAPES = ("box", "cylinder", "frame")
+_FIXTURE_SHAPES = ("box", "cylinder", "mesh", "frame")
+MESH_FILE_SUFFIXES = ("stl", "obj", "ply", "glb", "gltf", "dae", "step", "stp")
+"""File name endings of mesh fixture files (any case): the formats the mesh layer reads."""
+_MESH_FILE_PATTERN = r"(?i)\.(" + "|".join(MESH_FILE_SUFFIXES) + r")$"
+_COLOUR_PATTERN = r"^#[0-9a-fA-F]{6}$"
 
 
 class CellFileError(InputError):
@@ -309,13 +317,42 @@ class CylinderFixture(_FixtureCommon):
     height_mm: Length
 
 
+class MeshFixture(_FixtureCommon):
+    """A triangle mesh from a file, its coordinates taken in the fixture frame.
+
+    ``unit`` is the file's length unit. STL, OBJ and PLY state none: omitted,
+    millimetres are assumed, and a file whose size only makes sense in another
+    unit is refused with the unit to give. glTF/GLB, COLLADA and STEP state
+    their own, used when ``unit`` is omitted (STEP takes no ``unit``).
+    """
+
+    shape: Literal["mesh"]
+    file: Annotated[
+        str,
+        Field(
+            strict=True, min_length=1, max_length=MAX_FILE_PATH_CHARS, pattern=_MESH_FILE_PATTERN
+        ),
+    ] = Field(
+        description="Mesh file (STL, OBJ, PLY, glTF/GLB, COLLADA, STEP), relative to the cell file."
+    )
+    unit: Literal["mm", "m", "inch"] | None = Field(
+        default=None,
+        description="The file's length unit; omitted: the unit the file states, else mm.",
+    )
+    colour: Annotated[str, Field(strict=True, pattern=_COLOUR_PATTERN)] | None = Field(
+        default=None, description="Drawing colour, #rrggbb; omitted: the fixture colour."
+    )
+
+
 class FrameFixture(_FixtureCommon):
     """A frame without geometry, for grouping fixtures and targets."""
 
     shape: Literal["frame"]
 
 
-Fixture = Annotated[BoxFixture | CylinderFixture | FrameFixture, Field(discriminator="shape")]
+Fixture = Annotated[
+    BoxFixture | CylinderFixture | MeshFixture | FrameFixture, Field(discriminator="shape")
+]
 
 
 class KeepOutZone(_Model):
@@ -632,6 +669,10 @@ def _message(error: Any) -> tuple[str, str]:
         return "", f"expected an object, got {json_type_name(value)}"
     if kind == "string_pattern_mismatch" and ctx.get("pattern") == _NAME_PATTERN:
         return "", _NAME_RULE
+    if kind == "string_pattern_mismatch" and ctx.get("pattern") == _MESH_FILE_PATTERN:
+        return "", "must end in " + ", ".join(f".{suffix}" for suffix in MESH_FILE_SUFFIXES)
+    if kind == "string_pattern_mismatch" and ctx.get("pattern") == _COLOUR_PATTERN:
+        return "", f"expected a colour #rrggbb, got {_show(value)}"
     if kind == "string_pattern_mismatch":
         return "", "must end in .toml or .urdf"
     if kind == "string_too_short":
@@ -653,7 +694,7 @@ def _message(error: Any) -> tuple[str, str]:
     return "", str(error["msg"])
 
 
-_FIXTURE_CHOICES = "'box', 'cylinder' or 'frame'"
+_FIXTURE_CHOICES = "'box', 'cylinder', 'mesh' or 'frame'"
 
 
 def problems_from_validation_error(error: ValidationError) -> list[str]:

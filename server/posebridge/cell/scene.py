@@ -8,6 +8,9 @@ packs the shapes into plain arrays:
   ``half_extents`` (B, 3), m;
 * cylinders and the pedestal: ``T_world`` (C, 4, 4) of the centre frame, axis
   along local z, ``radius`` (C,) and ``half_length`` (C,), m;
+* mesh fixtures: ``T_world`` (M, 4, 4) of the fixture frame and the
+  :class:`~posebridge.geometry.meshes.TriangleMesh` read from each file
+  (:mod:`posebridge.cell.mesh_fixtures`), vertices in the fixture frame, m;
 * tool capsules in the flange frame: ``start``/``end`` (T, 3) and ``radius`` (T,), m.
 
 Poses compose as ``T_world_child = T_world_parent @ T_parent_child``
@@ -25,14 +28,18 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.cell.mesh_fixtures import MeshFixtureLoader
 from posebridge.cell.model import (
     BoxFixture,
     Branch,
     Cell,
     CellFileError,
     CylinderFixture,
+    MeshFixture,
     MotionPath,
 )
+from posebridge.geometry.mesh_cache import MeshCache
+from posebridge.geometry.meshes import TriangleMesh
 from posebridge.kinematics.fk import fk_tool
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.robot.library import load_robot
@@ -45,6 +52,7 @@ __all__ = [
     "BoxSet",
     "CapsuleSet",
     "CylinderSet",
+    "MeshSet",
     "ResolvedPath",
     "Scene",
     "TargetSet",
@@ -92,6 +100,30 @@ class CylinderSet:
     T_world: FloatArray
     radius: FloatArray
     half_length: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class MeshSet:
+    """Mesh fixtures: triangle meshes in their fixture frames.
+
+    Attributes
+    ----------
+    names : tuple of str, length M
+    T_world : array, shape (M, 4, 4)
+        Pose of each fixture frame in the world.
+    meshes : tuple of TriangleMesh, length M
+        Vertices in the fixture frame, m.
+    files : tuple of str, length M
+        The files as the cell names them.
+    colours : tuple of (str or None), length M
+        ``#rrggbb`` drawing colours; ``None``: the fixture colour.
+    """
+
+    names: tuple[str, ...]
+    T_world: FloatArray
+    meshes: tuple[TriangleMesh, ...]
+    files: tuple[str, ...]
+    colours: tuple[str | None, ...]
 
 
 @dataclass(frozen=True, eq=False)
@@ -212,6 +244,8 @@ class Scene:
         Box fixtures.
     cylinders : CylinderSet
         Cylinder fixtures.
+    meshes : MeshSet
+        Mesh fixtures.
     keep_outs : BoxSet
         Keep-out zones.
     pedestal : CylinderSet
@@ -233,6 +267,7 @@ class Scene:
     T_world_fixture: FloatArray
     boxes: BoxSet
     cylinders: CylinderSet
+    meshes: MeshSet
     keep_outs: BoxSet
     pedestal: CylinderSet
     floor_height: float
@@ -251,6 +286,10 @@ def _translation_z(distance: npt.ArrayLike) -> FloatArray:
     offset = np.zeros(distance.shape + (3,))
     offset[..., 2] = distance
     return transform_from_position_rpy(offset, np.zeros_like(offset))
+
+
+def _optional_path(path: str | Path | None) -> Path | None:
+    return None if path is None else Path(path)
 
 
 def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
@@ -403,14 +442,24 @@ def _resolve_path(
     )
 
 
-def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
+def resolve_scene(
+    cell: Cell,
+    cell_path: str | Path | None = None,
+    *,
+    mesh_loader: MeshFixtureLoader | None = None,
+) -> Scene:
     """Resolve a validated cell into world-frame SI arrays.
 
     Parameters
     ----------
     cell : Cell
     cell_path : str or Path, optional
-        The cell file; a relative ``robot.file`` is resolved against its folder.
+        The cell file; a relative ``robot.file`` or mesh fixture ``file`` is
+        resolved against its folder.
+    mesh_loader : MeshFixtureLoader, optional, keyword-only
+        Reads the mesh fixtures' files and keeps them for the next call; a
+        new one with the user data folder's mesh cache if omitted (only made
+        when the cell has mesh fixtures).
 
     Returns
     -------
@@ -419,8 +468,9 @@ def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
     Raises
     ------
     CellFileError
-        The robot cannot be loaded, or a waypoint's joint values do not match
-        the robot's number of joints.
+        The robot cannot be loaded, a mesh fixture's file cannot be read or
+        is refused, or a waypoint's joint values do not match the robot's
+        number of joints.
     """
     robot = _load_cell_robot(cell, None if cell_path is None else Path(cell_path))
     problems = _joint_count_problems(cell, robot)
@@ -470,6 +520,17 @@ def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
         radius=m_from_mm([f.radius_mm for _, f in cylinders]),
         half_length=0.5 * m_from_mm([f.height_mm for _, f in cylinders]),
     )
+    mesh_fixtures = [(i, f) for i, f in enumerate(cell.fixtures) if isinstance(f, MeshFixture)]
+    if mesh_fixtures and mesh_loader is None:
+        mesh_loader = MeshFixtureLoader(MeshCache.default())
+    loaded = {} if mesh_loader is None else mesh_loader.load_cell(cell, _optional_path(cell_path))
+    mesh_set = MeshSet(
+        names=tuple(f.name for _, f in mesh_fixtures),
+        T_world=T_world_fixture[[i for i, _ in mesh_fixtures]].reshape(-1, 4, 4),
+        meshes=tuple(loaded[i] for i, _ in mesh_fixtures),
+        files=tuple(f.file for _, f in mesh_fixtures),
+        colours=tuple(f.colour for _, f in mesh_fixtures),
+    )
     zones = cell.keep_outs
     keep_outs = _box_set(
         [zone.name for zone in zones],
@@ -494,6 +555,7 @@ def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
         T_world_fixture=T_world_fixture,
         boxes=box_set,
         cylinders=cylinder_set,
+        meshes=mesh_set,
         keep_outs=keep_outs,
         pedestal=pedestal,
         floor_height=float(m_from_mm(cell.floor_height_mm)),

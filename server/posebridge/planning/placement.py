@@ -65,7 +65,7 @@ from typing import Any
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.cell.clearance import cell_arm, clearance_scene
+from posebridge.cell.clearance import cell_arm, clearance_scene, fixture_count
 from posebridge.cell.scene import Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
@@ -549,17 +549,8 @@ def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem
                 joint_path.append(index)
         linear_time.append(linear)
     full = clearance_scene(scene)
-    environment_count = (
-        len(scene.boxes.names) + len(scene.cylinders.names) + len(scene.keep_outs.names)
-    )
-    obstacles = full.obstacles
-    environment = ObstacleSet(
-        names=obstacles.names[:environment_count],
-        kind=obstacles.kind[:environment_count].copy(),
-        rotation=obstacles.rotation[:environment_count].copy(),
-        translation=obstacles.translation[:environment_count].copy(),
-        params=obstacles.params[:environment_count].copy(),
-    )
+    environment_count = fixture_count(scene) + len(scene.keep_outs.names)
+    environment = full.obstacles.subset(np.arange(environment_count))
     base = scene.cell.base
     roll, pitch, _ = base.rpy_deg
     arm = cell_arm(scene)

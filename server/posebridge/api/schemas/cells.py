@@ -14,7 +14,7 @@ from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.api.cell_store import CellSnapshot
 from posebridge.cell.model import MAX_COORDINATE_MM, Branch, Cell
-from posebridge.cell.scene import BoxSet, CylinderSet, Scene
+from posebridge.cell.scene import BoxSet, CylinderSet, MeshSet, Scene
 from posebridge.transforms import rpy_from_rotation_matrix
 from posebridge.units import FloatArray, joints_user_from_si, mm_from_m
 
@@ -44,20 +44,44 @@ Position = Annotated[list[Coordinate], Field(min_length=3, max_length=3)]
 Rpy = Annotated[list[Angle], Field(min_length=3, max_length=3, description=_RPY)]
 
 
-# One solid of the cell (fixture, keep-out zone or pedestal), centred on its world pose.
+# One solid of the cell (fixture, keep-out zone or pedestal), centred on its world pose
+# (a mesh: its fixture frame, the triangles from GET /api/cell/meshes/{name}).
 class ShapeDrawing(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     name: str
     role: Literal["fixture", "keep_out", "pedestal"]
-    shape: Literal["box", "cylinder"]
-    position_mm: list[float] = Field(description="Centre in the world.")
+    shape: Literal["box", "cylinder", "mesh"]
+    position_mm: list[float] = Field(description="Centre (a mesh: fixture frame) in the world.")
     rpy_deg: list[float] = Field(description="Orientation in the world. " + _RPY)
     size_mm: list[float] | None = Field(
-        description="Box side lengths along its x, y, z; null for a cylinder."
+        description="Box side lengths along its x, y, z; null for a cylinder or a mesh."
     )
-    radius_mm: float | None = Field(description="Cylinder radius; null for a box.")
-    height_mm: float | None = Field(description="Cylinder length along its z; null for a box.")
+    radius_mm: float | None = Field(description="Cylinder radius; null for a box or a mesh.")
+    height_mm: float | None = Field(
+        description="Cylinder length along its z; null for a box or a mesh."
+    )
+    mesh_version: str | None = Field(
+        default=None,
+        description="Mesh: content version of its triangles (changes with the file and unit); "
+        "null for the other shapes.",
+    )
+    bounds_mm: list[list[float]] | None = Field(
+        default=None,
+        description="Mesh: axis-aligned bounds in the fixture frame, [min xyz, max xyz]; null "
+        "for the other shapes.",
+    )
+    triangles: int | None = Field(
+        default=None, description="Mesh: triangles in the file after clean-up; null otherwise."
+    )
+    closed: bool | None = Field(
+        default=None,
+        description="Mesh: closed surface (signed clearance; open meshes are unsigned); null "
+        "otherwise.",
+    )
+    colour: str | None = Field(
+        default=None, description="Mesh: drawing colour #rrggbb, null: the fixture colour."
+    )
 
 
 # A fixture's frame in the world (frames without geometry included).
@@ -68,7 +92,7 @@ class FixtureDrawing(BaseModel):
     parent: str | None = Field(
         description="Parent fixture; null for a fixture placed in the world."
     )
-    shape: Literal["box", "cylinder", "frame"]
+    shape: Literal["box", "cylinder", "mesh", "frame"]
     position_mm: list[float] = Field(description="Frame origin in the world.")
     rpy_deg: list[float] = Field(description="Frame orientation in the world. " + _RPY)
 
@@ -258,6 +282,28 @@ def _cylinders(cylinders: CylinderSet, role: Literal["fixture", "pedestal"]) -> 
     ]
 
 
+def _meshes(meshes: MeshSet) -> list[ShapeDrawing]:
+    positions, rpys = _pose_mm_deg(meshes.T_world)
+    return [
+        ShapeDrawing(
+            name=name,
+            role="fixture",
+            shape="mesh",
+            position_mm=positions[k],
+            rpy_deg=rpys[k],
+            size_mm=None,
+            radius_mm=None,
+            height_mm=None,
+            mesh_version=meshes.meshes[k].content_key[:32],
+            bounds_mm=mm_from_m(meshes.meshes[k].bounds).tolist(),
+            triangles=meshes.meshes[k].triangle_count,
+            closed=meshes.meshes[k].is_closed,
+            colour=meshes.colours[k],
+        )
+        for k, name in enumerate(meshes.names)
+    ]
+
+
 def scene_drawing(scene: Scene) -> SceneDrawing:
     """The drawing of a resolved scene in world mm and deg."""
     base_position, base_rpy = _pose_mm_deg(scene.T_world_base)
@@ -317,6 +363,7 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
         shapes=[
             *_boxes(scene.boxes, "fixture"),
             *_cylinders(scene.cylinders, "fixture"),
+            *_meshes(scene.meshes),
             *_boxes(scene.keep_outs, "keep_out"),
             *_cylinders(scene.pedestal, "pedestal"),
         ],
