@@ -12,8 +12,16 @@ from pathlib import Path
 
 __all__ = ["DEMO_FILES", "data_folder", "demo_working_folder", "user_data_folder"]
 
-DEMO_FILES = ("demo-cell.json", "demo-log.csv")
-"""The bundled demo cell and its invented controller log."""
+DEMO_FILES = (
+    "demo-cell.json",
+    "demo-log.csv",
+    "demo-machine-cell.json",
+    "meshes/machine-housing.stl",
+    "meshes/conveyor.stl",
+    "meshes/fence.stl",
+)
+"""The bundled demo cells, the press cell's invented controller log and the machine cell's
+generated mesh files (paths relative to the robots folder)."""
 
 _PACKAGE = Path(__file__).resolve().parent
 
@@ -55,5 +63,6 @@ def demo_working_folder() -> Path:
     for name in DEMO_FILES:
         copy = folder / name
         if not copy.exists():
+            copy.parent.mkdir(parents=True, exist_ok=True)
             shutil.copyfile(data_folder("robots") / name, copy)
     return folder
