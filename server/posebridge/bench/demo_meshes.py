@@ -22,6 +22,7 @@ attribute word), written here with numpy so the bytes depend on nothing else.
 from __future__ import annotations
 
 import sys
+from collections.abc import Sequence
 from pathlib import Path
 
 import numpy as np
@@ -70,7 +71,9 @@ def stl_bytes(vertices: FloatArray, faces: np.ndarray) -> bytes:
     return _HEADER + np.uint32(triangles.shape[0]).astype("<u4").tobytes() + records.tobytes()
 
 
-def _boxes(corners: list[tuple[tuple[float, ...], tuple[float, ...]]], level: int) -> tuple:
+def _boxes(
+    corners: Sequence[tuple[tuple[float, float, float], tuple[float, float, float]]], level: int
+) -> tuple[FloatArray, np.ndarray]:
     vertices, faces, offset = [], [], 0
     for lo, hi in corners:
         v, f = box_arrays(np.array(lo, dtype=float), np.array(hi, dtype=float), level)
