@@ -1,4 +1,5 @@
-"""The server's cell: read it, replace it, move a target, fixture, pose waypoint or the base.
+"""The server's cell: read it, replace it, move a target, fixture, pose waypoint or the base;
+draw a mesh fixture, upload a mesh file as a new fixture.
 
 Every change carries the content version it was made from in the
 ``If-Match`` header (the ``etag`` of the last answer); a change made from an
@@ -8,10 +9,19 @@ overwrite each other silently. A missing ``If-Match`` gets 428.
 
 from __future__ import annotations
 
+import base64
+import binascii
+import contextlib
+import hashlib
+import os
+import re
+import tempfile
 from collections.abc import Callable
+from pathlib import Path as FilePath
 from typing import Annotated
 
-from fastapi import APIRouter, Header, HTTPException, Path, Response
+import numpy as np
+from fastapi import APIRouter, Header, HTTPException, Path, Query, Response
 
 from posebridge.api.auth import ReviewRoleDep, Role
 from posebridge.api.cell_store import CellSnapshot
@@ -27,9 +37,11 @@ from posebridge.api.schemas.cells import (
     cell_document,
 )
 from posebridge.api.schemas.errors import error_responses
+from posebridge.api.schemas.meshes import MAX_UPLOAD_BYTES, MeshDrawing, MeshUpload
 from posebridge.cell.files import CellConflictError, CellSaveError, SaveFailure
-from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, Pose, Target
+from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, MeshFixture, Pose, Target
 from posebridge.cell.scene import Scene
+from posebridge.geometry.mesh_display import decimate_for_display, split_triangle_budget
 from posebridge.transforms import (
     invert_transform,
     rotation_matrix_from_rpy,
@@ -38,7 +50,12 @@ from posebridge.transforms import (
 )
 from posebridge.units import FloatArray, m_from_mm, mm_from_m
 
-__all__ = ["cell_robot_spec", "index_of_named", "router"]
+__all__ = ["MESH_FOLDER", "PAGE_MESH_TRIANGLES", "cell_robot_spec", "index_of_named", "router"]
+
+PAGE_MESH_TRIANGLES = 60_000
+"""Triangles the page draws for all mesh fixtures together (shared by size)."""
+MESH_FOLDER = "meshes"
+"""Folder next to the cell file that uploaded mesh files are stored in."""
 
 router = APIRouter(prefix="/api/cell", tags=["cell"], route_class=StrictJsonRoute)
 
@@ -313,3 +330,162 @@ def move_base(
         return cell.model_copy(update={"base": cell.base.model_copy(update=update)})
 
     return _saved(lambda: cells.edit(change, expected), robots, response)
+
+
+@router.get(
+    "/meshes/{name}", summary="Triangles of a mesh fixture", responses=error_responses(404, 422)
+)
+def mesh_drawing(
+    name: Name,
+    cells: CellsDep,
+    max_triangles: Annotated[
+        int | None,
+        Query(
+            ge=100,
+            le=500_000,
+            description="Triangle budget; omitted: this mesh's share of "
+            f"{PAGE_MESH_TRIANGLES:,} among the cell's meshes.",
+        ),
+    ] = None,
+) -> MeshDrawing:
+    """The mesh of one mesh fixture, decimated for drawing, in its own frame (mm)."""
+    snapshot = cells.read()
+    meshes = snapshot.scene.meshes
+    index = index_of_named("mesh fixture", list(meshes.names), name)
+    mesh = meshes.meshes[index]
+    if max_triangles is None:
+        counts = [m.triangle_count for m in meshes.meshes]
+        max_triangles = split_triangle_budget(counts, PAGE_MESH_TRIANGLES)[index]
+    display = decimate_for_display(mesh, max_triangles=max_triangles, cache=cells.mesh_loader.cache)
+    return MeshDrawing(
+        name=name,
+        mesh_version=mesh.content_key[:32],
+        source_triangles=mesh.triangle_count,
+        vertices_mm=np.round(display.vertices_mm, 3).tolist(),
+        faces=display.faces.tolist(),
+    )
+
+
+def _safe_stem(file_name: str) -> str:
+    """The file name's stem reduced to letters, digits, ``-`` and ``_`` (at most 60)."""
+    stem = re.sub(r"[^A-Za-z0-9_-]+", "-", FilePath(file_name).stem).strip("-_")
+    return stem[:60] or "mesh"
+
+
+def _store_mesh_file(folder: FilePath, name: str, data: bytes) -> bool:
+    """Write ``data`` to ``folder/name`` atomically (temporary file, fsync, rename, folder
+    fsync) unless that file exists already; whether this call wrote it."""
+    target = folder / name
+    folder.mkdir(parents=True, exist_ok=True)
+    if target.exists():
+        return False
+    handle, temporary = tempfile.mkstemp(dir=folder, prefix=".upload-", suffix=".tmp")
+    try:
+        with os.fdopen(handle, "wb") as stream:
+            stream.write(data)
+            stream.flush()
+            os.fsync(stream.fileno())
+        os.replace(temporary, target)
+    finally:
+        FilePath(temporary).unlink(missing_ok=True)
+    with contextlib.suppress(OSError):
+        descriptor = os.open(folder, os.O_RDONLY)
+        try:
+            os.fsync(descriptor)
+        finally:
+            os.close(descriptor)
+    return True
+
+
+def _unique_name(stem: str, taken: set[str]) -> str:
+    if stem not in taken and stem != "world":
+        return stem
+    count = 2
+    while f"{stem}-{count}" in taken:
+        count += 1
+    return f"{stem}-{count}"
+
+
+@router.post(
+    "/meshes",
+    summary="Upload a mesh file as a new fixture",
+    status_code=201,
+    responses=error_responses(409, 412, 413, 422, 428, 503, 507),
+)
+def upload_mesh(
+    upload: MeshUpload,
+    cells: CellsDep,
+    robots: RobotsDep,
+    response: Response,
+    if_match: IfMatch,
+) -> CellDocument:
+    """Store the file next to the cell file (``meshes/<name>-<content hash>.<ending>``,
+    written atomically, never overwritten), check it (format, caps, unit), then add it as
+    a mesh fixture whose bounding box's bottom centre is at ``position_mm``, saved like
+    every edit (If-Match). Reviewers cannot upload (403)."""
+    expected = _expected_etag(if_match)
+    if cells.path is None:
+        raise HTTPException(
+            status_code=409, detail="cell: the in-memory demo cell has no folder for mesh files"
+        )
+    try:
+        data = base64.b64decode(upload.data_base64, validate=True)
+    except (binascii.Error, ValueError) as error:
+        raise HTTPException(
+            status_code=422, detail=f"data_base64: not valid base64 ({error})"
+        ) from error
+    if len(data) > MAX_UPLOAD_BYTES:
+        raise HTTPException(
+            status_code=413,
+            detail=f"data_base64: the file has {len(data):,} bytes, more than the limit of "
+            f"{MAX_UPLOAD_BYTES:,}",
+        )
+    suffix = FilePath(upload.file_name).suffix.lower()
+    stem = _safe_stem(upload.file_name)
+    stored = f"{stem}-{hashlib.sha256(data).hexdigest()[:12]}{suffix}"
+    folder = cells.path.parent / MESH_FOLDER
+    try:
+        written = _store_mesh_file(folder, stored, data)
+    except OSError as error:
+        raise HTTPException(
+            status_code=507 if error.errno == 28 else 409,
+            detail=f"{folder}: the mesh file cannot be stored ({error.strerror or error})",
+        ) from error
+
+    def forget() -> None:
+        if written:
+            (folder / stored).unlink(missing_ok=True)
+
+    current = cells.read()
+    name = _unique_name(stem, {fixture.name for fixture in current.cell.fixtures})
+    draft = MeshFixture(
+        name=name,
+        shape="mesh",
+        file=f"{MESH_FOLDER}/{stored}",
+        unit=upload.unit,
+        position_mm=(0.0, 0.0, 0.0),
+        rpy_deg=(upload.rpy_deg[0], upload.rpy_deg[1], upload.rpy_deg[2]),
+    )
+    try:
+        mesh = cells.mesh_loader.load(draft, cells.path, "upload")
+    except Exception:
+        forget()
+        raise
+    lo, hi = mm_from_m(mesh.bounds)
+    anchor = np.array([0.5 * (lo[0] + hi[0]), 0.5 * (lo[1] + hi[1]), lo[2]])
+    R = rotation_matrix_from_rpy(upload.rpy_deg, degrees=True)
+    position = np.asarray(upload.position_mm) - R @ anchor
+    fixture = draft.model_copy(
+        update={"position_mm": tuple(float(v) for v in np.round(position, 3))}
+    )
+
+    def change(cell: Cell) -> Cell:
+        taken = {f.name for f in cell.fixtures}
+        added = fixture.model_copy(update={"name": _unique_name(stem, taken)})
+        return cell.model_copy(update={"fixtures": [*cell.fixtures, added]})
+
+    try:
+        return _saved(lambda: cells.edit(change, expected), robots, response)
+    except Exception:
+        forget()
+        raise
