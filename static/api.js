@@ -98,6 +98,9 @@ export function createApiClient({ baseUrl = "" } = {}) {
     moveWaypoint: (path, index, body, etag) =>
       request(`/api/cell/paths/${encodeURIComponent(path)}/waypoints/${index}`, { method: "PATCH", body, ifMatch: etag }),
     moveBase: (body, etag) => request("/api/cell/base", { method: "PATCH", body, ifMatch: etag }),
+    meshDrawing: (name, maxTriangles = null) =>
+      request(`/api/cell/meshes/${encodeURIComponent(name)}${maxTriangles ? `?max_triangles=${maxTriangles}` : ""}`),
+    uploadMesh: (body, etag) => request("/api/cell/meshes", { method: "POST", body, ifMatch: etag }),
     startJointMap: (body) => request("/api/maps/joint", { method: "POST", body }),
     startReachSection: (body) => request("/api/maps/reach-section", { method: "POST", body }),
     targetCheck: () => request("/api/cell/check"),

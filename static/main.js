@@ -6,6 +6,7 @@ import { createActions } from "./actions.js";
 import { createCellSync } from "./cellsync.js";
 import { createLinking } from "./linking.js";
 import { createMaps } from "./maps.js";
+import { createMeshFixtures } from "./meshes.js";
 import { createPathCurve } from "./pathcurve.js";
 import { createJobPacer } from "./pacing.js";
 import { createReachSections } from "./reach.js";
@@ -29,6 +30,16 @@ import { createTargetPanel } from "./panels/target.js";
 import { createToolPanel } from "./panels/tool.js";
 import { startReview } from "./review.js";
 
+/** Where a mesh chosen with the button goes: under the shown target, on the floor (else 1 m in front of the base). */
+function meshSpot({ target, cell }) {
+  const floor = cell ? cell.scene.floor_height_mm : 0;
+  if (target) {
+    return [target.position_mm[0], target.position_mm[1], floor];
+  }
+  const base = cell ? cell.scene.base.position_mm : [0, 0, 0];
+  return [base[0] + 1000, base[1], floor];
+}
+
 async function start() {
   const store = createStore({ initial: initialState() });
   const actions = createActions({ store });
@@ -41,6 +52,7 @@ async function start() {
   const maps = createMaps({ store, api, actions, pacer });
   createArmState({ store, api });
   createPathCurve({ store, api });
+  const meshFixtures = createMeshFixtures({ store, api, actions });
   createReachSections({ store, api, actions, pacer });
   const byId = (id) => document.getElementById(id);
 
@@ -61,6 +73,7 @@ async function start() {
     actions,
     onShowCell: () => cellSync.loadCell(),
     onRetrySave: () => cellSync.retrySave(),
+    onAddMesh: (file) => meshFixtures.upload(file, meshSpot(store.get())),
   });
   createTargetPanel({ container: byId("target-panel"), store, actions });
   createToolPanel({ container: byId("tool-panel"), store });
@@ -96,6 +109,7 @@ async function start() {
       depthAxis: 2,
       reachKey: "reachPlan",
       viewerSide: 1,
+      onDropFile: (file, position) => meshFixtures.upload(file, position),
     }));
     drawn.push(createProjectionView({
       element: byId("elevation"),

@@ -26,6 +26,9 @@
  *   status          {level: "info" | "warn" | "error", message}
  *   readOnly        a reviewer's page of a shared dashboard (review.js): nothing is saved into the cell
  *   cell            the server's cell (GET /api/cell answer: etag, robot, cell, scene) or null
+ *   meshes          triangles of the cell's mesh fixtures by fixture name (meshes.js):
+ *                   {mesh_version, full, flat}: GET /api/cell/meshes answers for the 3D view
+ *                   (page budget) and for the plan and elevation (a small budget)
  *   cellActive      the page shows the cell: its robot is loaded, poses are world poses
  *   selection       {kind: "target", name, path?} | {kind: "waypoint", path, index} |
  *                   {kind: "fixture", name, target} (target: the cell target the page's target
@@ -72,6 +75,7 @@ export function initialState() {
     status: { level: "info", message: "Loading…" },
     readOnly: false,
     cell: null,
+    meshes: {},
     cellActive: false,
     selection: null,
     fixture: null,

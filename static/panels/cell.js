@@ -40,9 +40,10 @@ function rowKey(selection) {
  * @param {{container: HTMLElement, store: object, actions: object, onShowCell: () => void,
  *          onRetrySave: () => void}} options
  *   onShowCell: called by the "show the cell" button when another robot is shown;
- *   onRetrySave: called by "Save again", shown after a failed save (the move is kept).
+ *   onRetrySave: called by "Save again", shown after a failed save (the move is kept);
+ *   onAddMesh: called with a mesh file chosen with "Add mesh file" (also: drop it on the plan).
  */
-export function createCellPanel({ container, store, actions, onShowCell, onRetrySave }) {
+export function createCellPanel({ container, store, actions, onShowCell, onRetrySave, onAddMesh }) {
   const info = element("p", { className: "pb-note", attributes: { id: "cell-info" } });
   const saveState = element("output", { className: "pb-save", attributes: { id: "cell-save", role: "status" } });
   const back = element("button", { text: "Show the cell", attributes: { type: "button", id: "cell-show" } });
@@ -73,7 +74,21 @@ export function createCellPanel({ container, store, actions, onShowCell, onRetry
     fixtureTitle,
     element("div", { className: "pb-fields" }, fixtureFields.map((field) => field.label)),
   ]);
-  container.append(element("div", { className: "pb-controls" }, [info, saveState, retry, back]), list, fixturePanel);
+  const meshInput = element("input", {
+    attributes: { type: "file", id: "mesh-file", accept: ".stl,.obj,.ply,.glb,.gltf,.dae,.step,.stp", hidden: "" },
+  });
+  const addMesh = element("button", {
+    text: "Add mesh file",
+    attributes: { type: "button", id: "mesh-add", "data-edits-cell": "", title: "A CAD mesh (STL, OBJ, PLY, glTF, COLLADA, STEP) as a new fixture; or drop the file on the plan" },
+  });
+  addMesh.addEventListener("click", () => meshInput.click());
+  meshInput.addEventListener("change", () => {
+    for (const file of meshInput.files) {
+      onAddMesh(file);
+    }
+    meshInput.value = "";
+  });
+  container.append(element("div", { className: "pb-controls" }, [info, saveState, retry, back, addMesh, meshInput]), list, fixturePanel);
   let builtFor = null;
   let markedFor = null;
 

@@ -15,10 +15,11 @@
 /* global Plotly */
 
 import { currentArmSeverity, levelColour } from "../severity.js";
-import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
+import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { convexHull, projectedOutline, shapePoints } from "./shapes.js";
-import { viewBounds } from "./scene3d.js";
+import { meshKey, viewBounds } from "./scene3d.js";
+import { lighten, silhouetteTrace } from "./mesh_draw.js";
 import { fixtureFamily, selectedFixture } from "../cellsync.js";
 import { matrixFromRpyDeg, column, rigidMotion } from "../rotation.js";
 import { snapToStep } from "../units.js";
@@ -71,6 +72,8 @@ function paddedRange(lower, upper, pad) {
  *   axes: indices of the horizontal and vertical data axes (0 x, 1 y, 2 z);
  *   depthAxis: the viewing direction's axis; viewerSide: the viewer sits on its
  *   positive (1) or negative (-1) side. Farther capsules are drawn first.
+ *   onDropFile (optional): called with (file, position_mm) when a file is dropped on the
+ *   view, position_mm the drop point on the view's axes with the floor height (plan) or 0.
  */
 export function createProjectionView({
   element,
@@ -83,6 +86,7 @@ export function createProjectionView({
   depthAxis,
   viewerSide,
   reachKey,
+  onDropFile = null,
 }) {
   const [h, v] = axes;
   const third = [0, 1, 2].find((k) => k !== h && k !== v);
@@ -111,8 +115,23 @@ export function createProjectionView({
     };
   }
 
-  function cellTraces(scene) {
-    const traces = [];
+  /** Mesh fixtures whose triangles have arrived: filled silhouettes in their own colours. */
+  function meshSilhouettes(scene, meshes) {
+    return scene.shapes
+      .filter((s) => s.shape === "mesh" && meshes[s.name] && meshes[s.name].mesh_version === s.mesh_version)
+      .sort((a, b) => viewerSide * (a.position_mm[depthAxis] - b.position_mm[depthAxis]))
+      .map((s) =>
+        silhouetteTrace(meshes[s.name].flat, s, h, v, {
+          name: s.name,
+          colour: lighten(s.colour || palette.fixture, 0.35),
+          meta: { role: "mesh-fixture", fixture: s.name },
+        }),
+      );
+  }
+
+  function cellTraces(scene, meshes) {
+    const traces = meshSilhouettes(scene, meshes);
+    const drawn = new Set(traces.map((trace) => trace.name));
     const styles = {
       fixture: { fill: "toself", fillcolor: withAlpha(palette.fixture, 0.45), line: { color: palette["fixture-edge"], width: 1 } },
       pedestal: { fill: "toself", fillcolor: withAlpha(palette["robot-edge"], 0.35), line: { color: palette["robot-edge"], width: 1 } },
@@ -121,7 +140,7 @@ export function createProjectionView({
     for (const role of ["keep_out", "fixture", "pedestal"]) {
       const xs = [];
       const ys = [];
-      for (const shape of scene.shapes.filter((s) => s.role === role)) {
+      for (const shape of scene.shapes.filter((s) => s.role === role && !drawn.has(s.name))) {
         const outline = projectedOutline(shape, h, v);
         xs.push(...outline.xs, null);
         ys.push(...outline.ys, null);
@@ -314,7 +333,7 @@ export function createProjectionView({
     }
     const arm = robotTraces(fk && fk.capsules ? fk : null, currentArmSeverity(state).level);
     const reach = state.showReach && state[reachKey] ? state[reachKey] : null;
-    const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}|${reach ? `${reach.cell_etag}|${reach.requested_mm}` : "none"}`;
+    const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}|${meshKey(state.meshes)}|${reach ? `${reach.cell_etag}|${reach.requested_mm}` : "none"}`;
     if (key === staticKey && element.data) {
       const update = {
         x: arm.map((trace) => trace.x),
@@ -331,7 +350,7 @@ export function createProjectionView({
     const range = ranges(state);
     const data = reach && cellActive ? [reachTrace(reach)] : [];
     if (cellActive && cell) {
-      data.push(...cellTraces(cell.scene));
+      data.push(...cellTraces(cell.scene, state.meshes));
     }
     const layout = layout2d({
       xTitle: `${AXIS_NAMES[h]} (mm)`,
@@ -350,7 +369,7 @@ export function createProjectionView({
     render,
     minIntervalMs: () => (store.get().dragging ? ARM_REDRAW_WHILE_DRAGGING_MS : ARM_REDRAW_MS),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey, "armState"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey, "armState", "meshes"] });
   store.subscribe(placeMarkers, { keys: ["target", "fixture", "selection"] });
   new ResizeObserver(placeMarkers).observe(element);
 
@@ -411,6 +430,32 @@ export function createProjectionView({
       dragged = null;
     },
   });
+
+  if (onDropFile) {
+    const wrap = element.parentElement;
+    const carriesFiles = (event) => event.dataTransfer && [...event.dataTransfer.types].includes("Files");
+    wrap.addEventListener("dragover", (event) => {
+      if (carriesFiles(event)) {
+        event.preventDefault();
+        event.dataTransfer.dropEffect = "copy";
+      }
+    });
+    wrap.addEventListener("drop", (event) => {
+      if (!carriesFiles(event) || !element._fullLayout) {
+        return;
+      }
+      event.preventDefault();
+      const point = dataFromPointer(element, event);
+      const { cell } = store.get();
+      const position = [0, 0, 0];
+      position[third] = cell && third === 2 ? cell.scene.floor_height_mm : 0;
+      position[h] = point.x;
+      position[v] = point.y;
+      for (const file of event.dataTransfer.files) {
+        onDropFile(file, position);
+      }
+    });
+  }
 
   const KEYS = {
     ArrowRight: [h, 1],

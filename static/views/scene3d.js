@@ -10,6 +10,7 @@ import { currentArmSeverity, levelColour } from "../severity.js";
 import { axis3d, draw, layout3d } from "./plotting.js";
 import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { appendShapeMesh, sceneBounds } from "./shapes.js";
+import { mesh3dTrace } from "./mesh_draw.js";
 import { column, matrixFromQuaternion, matrixFromRpyDeg } from "../rotation.js";
 
 const RING_STEPS = 14;
@@ -118,6 +119,14 @@ export function viewBounds({ robot, cell, cellActive }) {
   return [low.map((v, k) => Math.min(v, scene[0][k])), high.map((v, k) => Math.max(v, scene[1][k]))];
 }
 
+/** Which mesh drawings are loaded (names and versions), for redraw keys. */
+export function meshKey(meshes) {
+  return Object.entries(meshes)
+    .map(([name, entry]) => `${name}:${entry.mesh_version}`)
+    .sort()
+    .join(",");
+}
+
 function meshTrace(name, shapes, style) {
   const mesh = { x: [], y: [], z: [], i: [], j: [], k: [] };
   shapes.forEach((shape) => appendShapeMesh(mesh, shape));
@@ -142,9 +151,16 @@ function targetTriads(targets, palette) {
   });
 }
 
-function cellTraces(scene, palette) {
-  const traces = [];
-  const fixtures = scene.shapes.filter((s) => s.role === "fixture");
+/** Mesh fixtures whose triangles have arrived, as Mesh3d traces in their own colours. */
+function meshFixtureTraces(scene, palette, meshes) {
+  return scene.shapes
+    .filter((s) => s.shape === "mesh" && meshes[s.name] && meshes[s.name].mesh_version === s.mesh_version)
+    .map((s) => mesh3dTrace(meshes[s.name].full, s, { name: s.name, colour: s.colour || palette.fixture, meta: { role: "mesh-fixture", fixture: s.name } }));
+}
+
+function cellTraces(scene, palette, meshes) {
+  const traces = meshFixtureTraces(scene, palette, meshes);
+  const fixtures = scene.shapes.filter((s) => s.role === "fixture" && s.shape !== "mesh");
   const keepOuts = scene.shapes.filter((s) => s.role === "keep_out");
   const pedestal = scene.shapes.filter((s) => s.role === "pedestal");
   if (fixtures.length) {
@@ -217,7 +233,7 @@ export function createSceneView({ element, store, palette }) {
       ...triadTraces({ origin: base.position_mm, rotation: matrixFromRpyDeg(base.rpy_deg), name: "base", palette, width: 3 }),
     ];
     if (cellActive && cell) {
-      data.push(...cellTraces(cell.scene, palette));
+      data.push(...cellTraces(cell.scene, palette, state.meshes));
     }
     return { data, range };
   }
@@ -304,7 +320,7 @@ export function createSceneView({ element, store, palette }) {
     if (!state.robot) {
       return;
     }
-    const key = `${state.robot.robot}|${state.cellActive}|${state.cell ? state.cell.etag : ""}`;
+    const key = `${state.robot.robot}|${state.cellActive}|${state.cell ? state.cell.etag : ""}|${meshKey(state.meshes)}`;
     const dynamic = dynamicTraces(state);
     if (key !== staticKey || !element.data) {
       const { data, range } = staticTraces(state);
@@ -326,6 +342,6 @@ export function createSceneView({ element, store, palette }) {
     render,
     hold: () => store.get().dragging || !kinematicsSettled(store.get()),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive", "armState"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive", "armState", "meshes"] });
   return { render };
 }

@@ -17,8 +17,22 @@ function place(shape, local) {
   ]);
 }
 
-/** Surface points of a shape in the world: a box's 8 corners, or two rims of a cylinder. */
+/**
+ * Surface points of a shape in the world: a box's 8 corners, two rims of a
+ * cylinder, or the 8 corners of a mesh's bounding box (its triangles are drawn
+ * by mesh_draw.js; the corners bound it for outlines, drag previews and view ranges).
+ */
 export function shapePoints(shape) {
+  if (shape.shape === "mesh") {
+    const [lo, hi] = shape.bounds_mm;
+    const local = [];
+    for (const z of [lo[2], hi[2]]) {
+      for (const [x, y] of [[lo[0], lo[1]], [hi[0], lo[1]], [hi[0], hi[1]], [lo[0], hi[1]]]) {
+        local.push([x, y, z]);
+      }
+    }
+    return place(shape, local);
+  }
   if (shape.shape === "box") {
     const [a, b, c] = shape.size_mm.map((s) => s / 2);
     const local = [];

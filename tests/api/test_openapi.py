@@ -91,6 +91,8 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/cell/targets/{name}",
         "/api/cell/fixtures/{name}",
         "/api/cell/base",
+        "/api/cell/meshes",
+        "/api/cell/meshes/{name}",
         "/api/maps/joint",
         "/api/maps/reach-section",
         "/api/cell/check",
