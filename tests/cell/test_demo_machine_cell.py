@@ -144,3 +144,18 @@ def test_placement_runs_with_mesh_fixtures(scene: Scene) -> None:
     result = search_base_placement(scene, grid, top=2)
     # the current base (grid centre, yaw 0) reaches every target (the target check above)
     assert result.reach_fraction[1, 1, 0, 0] == pytest.approx(1.0)
+
+
+def test_review_report_draws_the_mesh_fixtures(scene: Scene) -> None:
+    from posebridge.report.figures import REPORT_MESH_TRIANGLES, scene_meshes
+
+    meshes = {m.name: m for m in scene_meshes(scene, np.zeros(scene.robot.dof))}
+    drawn = [meshes[name] for name in ("machine", "conveyor", "fence")]
+    assert all(mesh.kind == "fixture" for mesh in drawn)
+    # our own budget (report/figures.py), shared among the three meshes
+    assert sum(len(mesh.triangles) for mesh in drawn) <= REPORT_MESH_TRIANGLES
+    housing = meshes["machine"].vertices
+    # the housing's world bounds: its file bounds (bench/meshes.py housing_boxes at 1 m:
+    # x 0.45..1.35, y -0.6..0.6, z 0..1.3) moved by the fixture's 300 mm along x
+    np.testing.assert_allclose(housing.min(axis=0), [0.75, -0.6, 0.0], atol=1e-6)
+    np.testing.assert_allclose(housing.max(axis=0), [1.65, 0.6, 1.3], atol=1e-6)

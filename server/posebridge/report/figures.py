@@ -28,11 +28,16 @@ import numpy.typing as npt
 from scipy.spatial import ConvexHull, QhullError
 
 from posebridge.cell.scene import BoxSet, CylinderSet, Scene
+from posebridge.geometry.mesh_display import (
+    MIN_TRIANGLE_BUDGET,
+    decimate_for_display,
+    split_triangle_budget,
+)
 from posebridge.kinematics.fk import fk_frames
 from posebridge.palette import PALETTE, region_colour, rgba
 from posebridge.spaces.joint_map import JointMap
 from posebridge.transforms import transform_points
-from posebridge.units import FloatArray, mm_from_m
+from posebridge.units import FloatArray, m_from_mm, mm_from_m
 
 __all__ = [
     "Mesh",
@@ -250,6 +255,26 @@ def _cylinder_meshes(cylinders: CylinderSet, kind: str) -> list[Mesh]:
     ]
 
 
+REPORT_MESH_TRIANGLES = 20_000
+"""Triangles the review file draws for all mesh fixtures together (shared by size)."""
+
+
+def _fixture_meshes(scene: Scene) -> list[Mesh]:
+    """Mesh fixtures decimated to their share of :data:`REPORT_MESH_TRIANGLES`, world frame."""
+    meshes = scene.meshes
+    budgets = split_triangle_budget(
+        [mesh.triangle_count for mesh in meshes.meshes], REPORT_MESH_TRIANGLES
+    )
+    drawn = []
+    for name, T, mesh, budget in zip(
+        meshes.names, meshes.T_world, meshes.meshes, budgets, strict=True
+    ):
+        display = decimate_for_display(mesh, max_triangles=max(budget, MIN_TRIANGLE_BUDGET))
+        vertices = transform_points(T, m_from_mm(display.vertices_mm))
+        drawn.append(Mesh(name, "fixture", vertices, display.faces))
+    return drawn
+
+
 def scene_meshes(scene: Scene, q: npt.ArrayLike) -> list[Mesh]:
     """Meshes of every solid of the cell with the arm at ``q``, world frame.
 
@@ -262,7 +287,8 @@ def scene_meshes(scene: Scene, q: npt.ArrayLike) -> list[Mesh]:
     Returns
     -------
     list of Mesh
-        Box and cylinder fixtures, keep-out zones, the pedestal, the arm's
+        Box, cylinder and mesh fixtures (meshes decimated to
+        :data:`REPORT_MESH_TRIANGLES`), keep-out zones, the pedestal, the arm's
         capsules, then the tool's capsules.
     """
     frames = (
@@ -270,6 +296,7 @@ def scene_meshes(scene: Scene, q: npt.ArrayLike) -> list[Mesh]:
         @ fk_frames(scene.robot, np.asarray(q, dtype=np.float64)[None], scene.T_flange_tool)[0]
     )
     meshes = _box_meshes(scene.boxes, "fixture") + _cylinder_meshes(scene.cylinders, "fixture")
+    meshes += _fixture_meshes(scene)
     meshes += _box_meshes(scene.keep_outs, "keep-out")
     meshes += _cylinder_meshes(scene.pedestal, "pedestal")
     for capsule in scene.robot.capsules:
