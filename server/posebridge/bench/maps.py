@@ -8,6 +8,15 @@ Figures
     the other joints at the robot's home, computed in this process with numba
     threads (:func:`posebridge.spaces.joint_map.joint_map`); best of three
     after a warm-up. Target: 0.3 s.
+``mesh_joint_map_256_s``
+    The same 256 x 256 map over j2 and j3 of the machine-tending demo
+    (robots/demo-machine-cell.json: pb-arm6 with its gripper against a
+    generated housing of about 107k triangles, a conveyor and a fence, all
+    mesh fixtures, exact clearance through the triangle hierarchy); best of
+    three after a warm-up. Target: 1 s.
+``mesh_joint_map_time_vs_box_map``
+    ``mesh_joint_map_256_s`` divided by ``joint_map_256_s`` of the same run
+    (how much the meshes cost over the box demo; survives a loaded machine).
 ``joint_map_speedup_vs_one_worker``
     The same map with numba limited to one thread divided by the time on all
     threads, measured in the same run.
@@ -22,7 +31,7 @@ Figures
     same process, so the ratio survives a noisy machine.
 
 Quick mode keeps the key names and measures smaller problems: the joint map
-at 128 x 128 (reported as is, not scaled) and the reach maps at 100 mm
+and the mesh map at 128 x 128 (reported as is, not scaled) and the reach maps at 100 mm
 voxels (one eighth of the voxels).
 """
 
@@ -49,9 +58,9 @@ ROBOT = "pb-arm6"
 POOL_WORKERS = 2
 
 
-def _joint_map_seconds(resolution: int) -> tuple[float, float]:
-    """Best times of the demo map on all numba threads and on one thread, s."""
-    path = data_folder("robots") / "demo-cell.json"
+def _joint_map_seconds(resolution: int, cell: str = "demo-cell.json") -> tuple[float, float]:
+    """Best times of a demo cell's map on all numba threads and on one thread, s."""
+    path = data_folder("robots") / cell
     scene = clearance_scene(resolve_scene(load_cell(path), path))
     hold = scene.arm.robot.home_configuration()
 
@@ -59,6 +68,8 @@ def _joint_map_seconds(resolution: int) -> tuple[float, float]:
         return joint_map(scene, (1, 2), hold, resolution=resolution)
 
     threaded = best_seconds(run)
+    if cell != "demo-cell.json":
+        return threaded, float("nan")
     threads = numba.get_num_threads()
     numba.set_num_threads(1)
     try:
@@ -74,6 +85,9 @@ def bench_maps(quick: bool) -> dict[str, float]:
     voxel = 0.1 if quick else 0.05
     threaded, single = _joint_map_seconds(128 if quick else 256)
     figures = {"joint_map_256_s": threaded, "joint_map_speedup_vs_one_worker": single / threaded}
+    meshed = _joint_map_seconds(128 if quick else 256, "demo-machine-cell.json")[0]
+    figures["mesh_joint_map_256_s"] = meshed
+    figures["mesh_joint_map_time_vs_box_map"] = meshed / threaded
     with LocalPoolExecutor(POOL_WORKERS, initializer=worker_initializer(warm_geometry)) as pool:
         reach_map(robot, voxel_size_m=0.3, executor=pool)
         start = time.perf_counter()
