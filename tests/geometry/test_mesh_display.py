@@ -94,3 +94,23 @@ def test_display_meshes_are_cached(tmp_path) -> None:
 def test_budget_is_checked() -> None:
     with pytest.raises(GeometryInputError, match="max_triangles: expected an integer >= 12"):
         decimate_for_display(MESHES["sphere"](), max_triangles=3)
+
+
+def test_decimations_on_threads_at_once_do_not_mix_meshes() -> None:
+    from concurrent.futures import ThreadPoolExecutor
+
+    # two different boxes, each decimated alone first, then many at once on threads
+    meshes = [
+        TriangleMesh.from_arrays(*box_arrays(np.zeros(3), np.array(hi), 4), name=str(hi))
+        for hi in ([1.0, 0.2, 0.1], [0.05, 2.0, 0.3])
+    ]
+    alone = [decimate_for_display(mesh, max_triangles=500) for mesh in meshes]
+    with ThreadPoolExecutor(max_workers=4) as pool:
+        together = list(
+            pool.map(lambda k: decimate_for_display(meshes[k % 2], max_triangles=500), range(16))
+        )
+    for k, display in enumerate(together):
+        # the same input gives the same output (the library is deterministic); a mixed-up
+        # call would return the other box's triangles
+        np.testing.assert_array_equal(display.vertices_mm, alone[k % 2].vertices_mm)
+        np.testing.assert_array_equal(display.faces, alone[k % 2].faces)

@@ -38,7 +38,7 @@ from posebridge.resources import user_data_folder
 
 __all__ = ["CACHE_VERSION", "DEFAULT_CACHE_BYTES", "MeshCache", "cache_key"]
 
-CACHE_VERSION = "1"
+CACHE_VERSION = "2"
 """Changes whenever the processing changes, so old entries are never read again."""
 DEFAULT_CACHE_BYTES = 2 * 1024**3
 """Default size cap of the cache folder, bytes."""

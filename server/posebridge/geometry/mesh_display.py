@@ -13,6 +13,10 @@ stay smooth), so every mesh is reduced before it is sent:
    their mean, collapsed and repeated triangles go; the cell size grows by
    a factor of 1.5 until the budget is met.
 
+``fast-simplification`` keeps its working mesh in process-global variables,
+so two calls at once (two requests of the page on the server's threads)
+mix their meshes: :data:`_SIMPLIFY_LOCK` lets one call run at a time.
+
 Display meshes are for looking at only; clearance always uses the full mesh.
 Results can be kept in a :class:`~posebridge.geometry.mesh_cache.MeshCache`
 (keyed by the mesh's ``content_key`` and the budget).
@@ -20,6 +24,7 @@ Results can be kept in a :class:`~posebridge.geometry.mesh_cache.MeshCache`
 
 from __future__ import annotations
 
+import threading
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -43,6 +48,9 @@ MIN_TRIANGLE_BUDGET = 12
 """Smallest budget accepted (a box's worth of triangles)."""
 
 IntArray = npt.NDArray[np.int64]
+
+_SIMPLIFY_LOCK = threading.Lock()
+"""One ``fast_simplification.simplify`` call at a time (module docstring)."""
 
 
 @dataclass(frozen=True)
@@ -141,11 +149,12 @@ def _cluster(vertices: FloatArray, faces: IntArray, cell: float) -> tuple[FloatA
 def _decimate(vertices: FloatArray, faces: IntArray, budget: int) -> tuple[FloatArray, IntArray]:
     import fast_simplification
 
-    points, triangles = fast_simplification.simplify(
-        np.ascontiguousarray(vertices),
-        np.ascontiguousarray(faces, dtype=np.int32),
-        target_count=budget,
-    )
+    with _SIMPLIFY_LOCK:
+        points, triangles = fast_simplification.simplify(
+            np.ascontiguousarray(vertices),
+            np.ascontiguousarray(faces, dtype=np.int32),
+            target_count=budget,
+        )
     points = np.asarray(points, dtype=np.float64)
     triangles = np.asarray(triangles, dtype=np.int64)
     if triangles.shape[0] <= budget:
