@@ -80,8 +80,10 @@ export function silhouetteTrace(mesh, pose, h, v, { name, colour, meta = undefin
     if (Math.abs(area) < 1e-6) {
       continue; // seen edge-on: covers nothing
     }
-    xs.push(pa[h], pb[h], pc[h], pa[h], null);
-    ys.push(pa[v], pb[v], pc[v], pa[v], null);
+    // every polygon wound the same way, so overlaps add up under the non-zero fill rule
+    const [p1, p2] = area > 0 ? [pb, pc] : [pc, pb];
+    xs.push(pa[h], p1[h], p2[h], pa[h], null);
+    ys.push(pa[v], p1[v], p2[v], pa[v], null);
   }
   return {
     name,
@@ -90,7 +92,7 @@ export function silhouetteTrace(mesh, pose, h, v, { name, colour, meta = undefin
     mode: "lines",
     fill: "toself",
     fillcolor: colour,
-    line: { color: colour, width: 0.5 },
+    line: { color: colour, width: 1 },
     connectgaps: false,
     hoverinfo: "skip",
     showlegend: false,
