@@ -159,3 +159,22 @@ def test_review_report_draws_the_mesh_fixtures(scene: Scene) -> None:
     # x 0.45..1.35, y -0.6..0.6, z 0..1.3) moved by the fixture's 300 mm along x
     np.testing.assert_allclose(housing.min(axis=0), [0.75, -0.6, 0.0], atol=1e-6)
     np.testing.assert_allclose(housing.max(axis=0), [1.65, 0.6, 1.3], atol=1e-6)
+
+
+def test_joint_map_has_a_region_for_the_housing(scene: Scene) -> None:
+    from posebridge.cell.clearance import clearance_scene, clearance_to_cell
+    from posebridge.spaces.joint_map import joint_map
+
+    hold = scene.robot.home_configuration()
+    grid = joint_map(clearance_scene(scene), (1, 2), hold, resolution=48)
+    machine = grid.obstacle_names.index("machine")
+    cells = np.argwhere(grid.obstacle == machine)
+    assert len(cells) > 0  # the housing has its own region (its own colour on the page)
+    for i, j in cells[:: max(1, len(cells) // 5)]:
+        q = hold.copy()
+        q[1], q[2] = grid.axes[0][i], grid.axes[1][j]
+        result = clearance_to_cell(scene, q[None], scope="environment")
+        # the map's label agrees with the cell clearance at that cell (our own contract):
+        # the arm is in collision there, nearest to the housing
+        assert result.distance[0] < 0.0
+        assert result.pair(0)[1] == "machine"

@@ -454,6 +454,7 @@ class _Checker:
                 )
             )
         self._coverage_findings(coverage, len(names))
+        self._open_mesh_findings()
         findings = sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity])
         return TargetCheckReport(
             cell=scene.cell.title,
@@ -497,6 +498,22 @@ class _Checker:
             breaking_targets=[] if best is None else best.targets_breaking,
             coverage=rows,
         )
+
+    def _open_mesh_findings(self) -> None:
+        """A note per mesh fixture that is not a closed surface: its clearance is unsigned."""
+        meshes = self.scene.meshes
+        for name, mesh in zip(meshes.names, meshes.meshes, strict=True):
+            if not mesh.is_closed:
+                self.findings.append(
+                    Finding(
+                        severity="info",
+                        code="open-mesh",
+                        target=None,
+                        message=f"mesh fixture {name!r} is not a closed surface: clearance to it "
+                        "is measured to its triangles, unsigned (an arm inside it is not seen as "
+                        "inside)",
+                    )
+                )
 
     def _coverage_findings(self, coverage: ConsistentBranch, count: int) -> None:
         if count == 0:

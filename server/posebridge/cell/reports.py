@@ -254,7 +254,7 @@ class Finding(_Result):
     severity: Severity
     code: str = Field(
         description="Target check: unreachable, approach-branch, branch-limited, "
-        "consistent-branch, inconsistent-branch; any configuration: outside-limits, "
+        "consistent-branch, inconsistent-branch, open-mesh; any configuration: outside-limits, "
         "limit-margin, collision, clearance, singularity, at-target; logs (stretches of rows): "
         "collision, low-clearance, outside-limits, low-limit-margin, near-wrist-singularity, "
         "near-elbow-singularity, near-shoulder-singularity; logs (between rows): branch-change, "
