@@ -18,6 +18,7 @@ import trimesh
 
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
+from posebridge.bench.drag import figure_pixel
 from posebridge.resources import data_folder
 
 STATE = "() => window.posebridge.getState()"
@@ -117,5 +118,28 @@ def test_machine_demo_passes_its_target_check_on_the_page(
             timeout=30_000,
         )
         page.screenshot(path=str(artifacts / "machine-demo.png"))
+        # a mesh fixture is dragged like a box: preview during the drag, saved on release
+        page.click("#cell-fixture-conveyor")
+        page.wait_for_function(
+            "() => { const s = window.posebridge.getState();"
+            " return s.fixture && s.fixture.name === 'conveyor'; }",
+            timeout=30_000,
+        )
+        start = page.evaluate(STATE)["fixture"]["position_mm"]
+        grab = figure_pixel(page, "plan", start[0], start[1])
+        with page.expect_response(
+            lambda r: r.request.method == "PATCH" and r.url.endswith("/api/cell/fixtures/conveyor"),
+            timeout=30_000,
+        ) as saved:
+            page.mouse.move(*grab)
+            page.mouse.down()
+            page.mouse.move(grab[0] + 20, grab[1], steps=5)
+            assert page.is_visible("#plan-overlay .pb-fixture-preview")
+            page.mouse.up()
+        assert saved.value.status == 200, saved.value.text()
+        moved = saved.value.json()["scene"]["shapes"]
+        conveyor = next(shape for shape in moved if shape["name"] == "conveyor")
+        # right on the plan view: x larger (screen axes, common practice)
+        assert conveyor["position_mm"][0] > start[0]
         page.close()
     assert not errors
