@@ -323,3 +323,18 @@ def test_demo_working_copy_leaves_the_bundled_cell_alone(
     demo_working_folder()
     assert copy.read_text(encoding="utf-8") == "{}"
     assert (folder / "demo-log.csv").read_bytes() == Path(DEMO_LOG).read_bytes()
+    # the machine demo comes with its mesh files, relative to it as in the bundle
+    assert (folder / "demo-machine-cell.json").is_file()
+    assert (folder / "meshes" / "machine-housing.stl").read_bytes() == (
+        ROBOTS / "meshes" / "machine-housing.stl"
+    ).read_bytes()
+
+
+def test_machine_demo_passes_its_checks(capsys: pytest.CaptureFixture[str]) -> None:
+    cell = str(ROBOTS / "demo-machine-cell.json")
+    code, report = run_json(capsys, "check", cell)
+    # the demo's promise (its notes): every target reachable and clear on one branch
+    assert code == 0
+    assert report["error_count"] == 0 and report["consistent_branch"]["consistent"]
+    code, out, _ = run(capsys, "paths", cell)
+    assert code == 0, out
