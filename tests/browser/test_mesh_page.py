@@ -18,7 +18,7 @@ import trimesh
 
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
-from posebridge.bench.drag import figure_pixel
+from posebridge.bench.browser import figure_pixel
 from posebridge.resources import data_folder
 
 STATE = "() => window.posebridge.getState()"
