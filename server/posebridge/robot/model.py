@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
+from pathlib import Path
 from typing import Literal
 
 import numpy as np
@@ -23,8 +24,9 @@ import numpy as np
 from posebridge.units import BoolArray, FloatArray
 
 JointKind = Literal["revolute", "prismatic"]
+MeshRole = Literal["visual", "collision"]
 
-__all__ = ["Capsule", "Joint", "JointKind", "Robot"]
+__all__ = ["Capsule", "Joint", "JointKind", "LinkFit", "LinkMesh", "MeshRole", "Robot"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -48,6 +50,8 @@ class Joint:
         rad/s^2 or m/s^2.
     continuous : bool
         A revolute joint without position limits.
+    jerk_max : float or None
+        rad/s^3 or m/s^3 where the description gives one (robot overlays).
     """
 
     name: str
@@ -59,6 +63,7 @@ class Joint:
     velocity_max: float
     acceleration_max: float
     continuous: bool = False
+    jerk_max: float | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -84,6 +89,65 @@ class Capsule:
 
 
 @dataclass(frozen=True, eq=False)
+class LinkMesh:
+    """A mesh file of the description, fixed to one link (drawn, or collided through capsules).
+
+    Attributes
+    ----------
+    source_link : str
+        The description's link name (a URDF link; several may share one internal link).
+    link : int
+        Internal link index (0 base, ``i`` moved by joint ``i``).
+    role : "visual" or "collision"
+    filename : str
+        The reference as written (``package://pkg/meshes/a.stl``, ``meshes/a.dae``).
+    path : Path or None
+        The file it resolved to; ``None`` when it was not found (see :attr:`Robot.notes`).
+    scale : array, shape (3,)
+        Per-axis ``<mesh scale>``.
+    T_link_mesh : array, shape (4, 4)
+        Pose of the mesh frame in the internal link frame (translation m).
+    """
+
+    source_link: str
+    link: int
+    role: MeshRole
+    filename: str
+    path: Path | None
+    scale: FloatArray
+    T_link_mesh: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class LinkFit:
+    """Capsules fitted to one description link's meshes (filled by the mesh layer).
+
+    Attributes
+    ----------
+    source_link : str
+    link : int
+        Internal link index the capsules are on.
+    role : "visual" or "collision"
+        Which meshes were fitted (collision meshes, else visual ones).
+    meshes : tuple of str
+        The files fitted (as written in the description).
+    capsule_names : tuple of str
+    capsule_volume_m3, hull_volume_m3 : float
+    excess : float or None
+        Capsule volume over the convex-hull volume of the vertices; ``None`` for a flat link.
+    """
+
+    source_link: str
+    link: int
+    role: MeshRole
+    meshes: tuple[str, ...]
+    capsule_names: tuple[str, ...]
+    capsule_volume_m3: float
+    hull_volume_m3: float
+    excess: float | None
+
+
+@dataclass(frozen=True, eq=False)
 class Robot:
     """A serial robot arm (SI units).
 
@@ -104,9 +168,17 @@ class Robot:
     source : str
         File the robot was loaded from, or ``""``.
     notes : tuple of str
-        Non-fatal remarks from loading (e.g. ignored mesh references).
+        Non-fatal remarks from loading (e.g. mesh files not found, joints held at zero).
     home : array, shape (n,), optional
         The description's home configuration (rad, m); see :meth:`home_configuration`.
+    from_link, to_link : str
+        The chosen chain ends of a URDF (``""`` for other descriptions).
+    held_joints : tuple of str
+        Joints off the chosen chain (or mimic joints on it) held at zero.
+    meshes : tuple of LinkMesh
+        Mesh files referenced by the description, resolved or not.
+    link_fits : tuple of LinkFit
+        Capsules fitted to meshes (empty until the mesh layer has fitted them).
     """
 
     name: str
@@ -119,6 +191,16 @@ class Robot:
     source: str = ""
     notes: tuple[str, ...] = field(default=())
     home: FloatArray | None = None
+    from_link: str = ""
+    to_link: str = ""
+    held_joints: tuple[str, ...] = ()
+    meshes: tuple[LinkMesh, ...] = ()
+    link_fits: tuple[LinkFit, ...] = ()
+
+    @property
+    def has_geometry(self) -> bool:
+        """Whether any link carries collision geometry (a capsule); else clearance means nothing."""
+        return bool(self.capsules)
 
     @property
     def dof(self) -> int:
