@@ -79,6 +79,8 @@ class Capsule:
         Segment end points in the link frame, m.
     radius : float
         m.
+    source_link : str
+        The description link it belongs to, where known (URDF imports), else ``""``.
     """
 
     name: str
@@ -86,6 +88,7 @@ class Capsule:
     start: FloatArray
     end: FloatArray
     radius: float
+    source_link: str = ""
 
 
 @dataclass(frozen=True, eq=False)
@@ -179,6 +182,13 @@ class Robot:
         Mesh files referenced by the description, resolved or not.
     link_fits : tuple of LinkFit
         Capsules fitted to meshes (empty until the mesh layer has fitted them).
+    link_poses : dict of str to (int, array of shape (4, 4))
+        Every description link of a URDF import: internal link index and its
+        pose in that link frame (joints off the chain at zero).
+    replaced_links : tuple of str
+        Links whose imported capsules a robot overlay replaced (their meshes are not fitted).
+    removed_capsules : tuple of str
+        Capsules an overlay removes once meshes are fitted (then empty).
     """
 
     name: str
@@ -196,6 +206,9 @@ class Robot:
     held_joints: tuple[str, ...] = ()
     meshes: tuple[LinkMesh, ...] = ()
     link_fits: tuple[LinkFit, ...] = ()
+    link_poses: dict[str, tuple[int, FloatArray]] = field(default_factory=dict)
+    replaced_links: tuple[str, ...] = ()
+    removed_capsules: tuple[str, ...] = ()
 
     @property
     def has_geometry(self) -> bool:

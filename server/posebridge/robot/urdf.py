@@ -609,6 +609,7 @@ def _capsules_of_link(
                 T[:3, :3] @ start + T[:3, 3],
                 T[:3, :3] @ end + T[:3, 3],
                 radius,
+                source_link=link.name,
             )
         )
     return capsules
@@ -832,6 +833,7 @@ def parse_robot_urdf(
         to_link=tip,
         held_joints=tuple(joint.name for joint in held),
         meshes=tuple(meshes),
+        link_poses=placed,
     )
 
 
