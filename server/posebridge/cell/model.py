@@ -199,6 +199,10 @@ class Pose(_Model):
     rpy_deg: RpyDeg = (0.0, 0.0, 0.0)
 
 
+_LinkName = Annotated[str, Field(strict=True, min_length=1, max_length=MAX_NAME_CHARS)]
+_FolderPath = Annotated[str, Field(strict=True, min_length=1, max_length=MAX_FILE_PATH_CHARS)]
+
+
 class CellRobot(_Model):
     """Which robot: exactly one of a bundled ``name``, a ``file`` or an embedded ``toml``."""
 
@@ -228,6 +232,22 @@ class CellRobot(_Model):
     toml: Annotated[str, Field(strict=True, min_length=1, max_length=MAX_TOML_CHARS)] | None = (
         Field(default=None, description="An embedded robot description in posebridge TOML.")
     )
+    from_link: _LinkName | None = Field(
+        default=None,
+        description="URDF or robot overlay file: the link the chain starts at (the robot base "
+        "frame); default the overlay's choice, else the root link.",
+    )
+    to_link: _LinkName | None = Field(
+        default=None,
+        description="URDF or robot overlay file: the link the chain ends at (the flange), e.g. a "
+        "tool0 frame; needed when the URDF has several leaf links.",
+    )
+    mesh_folders: list[_FolderPath] | None = Field(
+        default=None,
+        max_length=16,
+        description="Folders to look for mesh files in (package:// packages), relative to the "
+        "cell file.",
+    )
 
     @model_validator(mode="after")
     def _exactly_one_source(self) -> CellRobot:
@@ -235,6 +255,11 @@ class CellRobot(_Model):
         if len(given) != 1:
             found = " and ".join(given) if given else "none"
             raise _problems_error([("", f"needs exactly one of name, file or toml, got {found}")])
+        chain = [key for key in ("from_link", "to_link") if getattr(self, key) is not None]
+        if chain and self.file is None:
+            raise _problems_error(
+                [(chain[0], "chooses the chain of a URDF or robot overlay given as robot.file")]
+            )
         return self
 
 

@@ -33,9 +33,9 @@ from posebridge.cell.model import (
     CylinderFixture,
     MotionPath,
 )
+from posebridge.geometry.robot_meshes import load_robot_with_meshes
 from posebridge.kinematics.fk import fk_tool
 from posebridge.robot.errors import RobotDescriptionError
-from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml
 from posebridge.transforms import transform_from_position_rpy
@@ -254,11 +254,12 @@ def _translation_z(distance: npt.ArrayLike) -> FloatArray:
 
 
 def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
-    """The cell's robot: bundled name, file relative to the cell file, or embedded TOML."""
+    """The cell's robot: bundled name, file relative to the cell file (with its chain choice
+    and mesh folders, meshes fitted), or embedded TOML."""
     source = cell.robot
     try:
         if source.name is not None:
-            return load_robot(source.name)
+            return load_robot_with_meshes(source.name)
         if source.toml is not None:
             return parse_robot_toml(source.toml, "robot.toml")
         assert source.file is not None
@@ -272,7 +273,13 @@ def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
                     ]
                 )
             file = Path(cell_path).parent / file
-        return load_robot(file)
+        folder = file.parent if cell_path is None else Path(cell_path).parent
+        return load_robot_with_meshes(
+            file,
+            from_link=source.from_link,
+            to_link=source.to_link,
+            mesh_folders=[folder / f for f in source.mesh_folders or []],
+        )
     except RobotDescriptionError as error:
         if source.toml is not None:  # problems already start with "robot.toml:<line>"
             raise CellFileError(error.problems) from error
@@ -403,7 +410,9 @@ def _resolve_path(
     )
 
 
-def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
+def resolve_scene(
+    cell: Cell, cell_path: str | Path | None = None, *, robot: Robot | None = None
+) -> Scene:
     """Resolve a validated cell into world-frame SI arrays.
 
     Parameters
@@ -411,6 +420,9 @@ def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
     cell : Cell
     cell_path : str or Path, optional
         The cell file; a relative ``robot.file`` is resolved against its folder.
+    robot : Robot, optional, keyword-only
+        The robot of ``cell.robot`` when the caller has it loaded already (an
+        edit that left the robot entry unchanged); loaded here otherwise.
 
     Returns
     -------
@@ -422,7 +434,8 @@ def resolve_scene(cell: Cell, cell_path: str | Path | None = None) -> Scene:
         The robot cannot be loaded, or a waypoint's joint values do not match
         the robot's number of joints.
     """
-    robot = _load_cell_robot(cell, None if cell_path is None else Path(cell_path))
+    if robot is None:
+        robot = _load_cell_robot(cell, None if cell_path is None else Path(cell_path))
     problems = _joint_count_problems(cell, robot)
     if problems:
         raise CellFileError(problems)
