@@ -50,6 +50,7 @@ from posebridge.cell.quality import (
     branch_words,
     evaluate_configurations,
     full_branch_words,
+    geometry_findings,
     part_word,
     quality_findings,
 )
@@ -454,6 +455,7 @@ class _Checker:
                 )
             )
         self._coverage_findings(coverage, len(names))
+        self.findings += geometry_findings(self.robot)
         findings = sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity])
         return TargetCheckReport(
             cell=scene.cell.title,
@@ -470,6 +472,7 @@ class _Checker:
             error_count=sum(f.severity == "error" for f in findings),
             warning_count=sum(f.severity == "warning" for f in findings),
             info_count=sum(f.severity == "info" for f in findings),
+            robot_geometry_missing=self.robot.geometry_missing,
         )
 
     def _coverage(self, usable_triples: dict[int, list[Triple]]) -> ConsistentBranch:

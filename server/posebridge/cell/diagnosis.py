@@ -38,6 +38,7 @@ from posebridge.cell.quality import (
     closest_pair_model,
     evaluate_configurations,
     full_branch_words,
+    geometry_findings,
     joint_margins_model,
     margin_thresholds,
     part_word,
@@ -277,7 +278,10 @@ def diagnose_pose(
         nearest_targets=nearest,
         branches=branches,
         input_branch=input_branch,
-        findings=sorted(findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+        findings=sorted(
+            findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
+        ),
+        robot_geometry_missing=robot.geometry_missing,
     )
 
 
@@ -749,8 +753,11 @@ class _LogDiagnoser:
                 reason=reason,
                 diagnosis=diagnose_pose(self.scene, self.log.q[worst], self.thresholds),
             ),
-            findings=sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+            findings=sorted(
+                self.findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
+            ),
             rows=self._columns() if include_rows else None,
+            robot_geometry_missing=robot.geometry_missing,
         )
 
 

@@ -255,7 +255,8 @@ class Finding(_Result):
     code: str = Field(
         description="Target check: unreachable, approach-branch, branch-limited, "
         "consistent-branch, inconsistent-branch; any configuration: outside-limits, "
-        "limit-margin, collision, clearance, singularity, at-target; logs (stretches of rows): "
+        "limit-margin, collision, clearance, singularity, at-target, robot-geometry-missing; "
+        "logs (stretches of rows): "
         "collision, low-clearance, outside-limits, low-limit-margin, near-wrist-singularity, "
         "near-elbow-singularity, near-shoulder-singularity; logs (between rows): branch-change, "
         "velocity, velocity-skipped."
@@ -286,6 +287,11 @@ class TargetCheckReport(_Result):
     error_count: int
     warning_count: int
     info_count: int
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # A tool pose in one frame.
@@ -336,6 +342,11 @@ class PoseDiagnosis(_Result):
         description="Index into branches of the solution equal to the input joints."
     )
     findings: list[Finding]
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # One row of a log picked for a reason.
@@ -463,4 +474,9 @@ class LogDiagnosis(_Result):
     velocity: VelocityCheck
     worst_row: WorstRow
     findings: list[Finding]
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
     rows: LogRows | None = Field(description="Per-row values; null when not requested.")

@@ -490,6 +490,7 @@ def check_sampled_path(
     overall = float(clearance.distance.min()) if clearance.distance.size else math.nan
     return PathCheckReport(
         path=path.name,
+        robot_geometry_missing=robot.geometry_missing,
         robot=robot.name,
         tool=scene.tool_name,
         joint_names=list(robot.joint_names),

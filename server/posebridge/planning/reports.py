@@ -176,6 +176,11 @@ class PathCheckReport(_Report):
     clearance_warning_mm: float
     collision_threshold_mm: float
     limit_margin_deg: float
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # --- joint-move planning ------------------------------------------------------------------
@@ -208,6 +213,11 @@ class JointPlanReport(_Report):
     )
     check: PathCheckReport | None = Field(
         default=None, description="The result re-checked as joint moves at 100 % speed."
+    )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
     )
 
 
@@ -267,6 +277,11 @@ class PlacementReport(_Report):
     score_note: str
     cycle_time_note: str
     current_score: float | None = Field(description="Score of the cell's current base pose.")
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # --- text tables --------------------------------------------------------------------------
@@ -324,6 +339,8 @@ def render_path_check(report: PathCheckReport) -> str:
                 else "path"
             )
             lines.append(f"  [{f.severity}] {f.kind} ({where}): {f.message}")
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)
 
 
@@ -338,6 +355,8 @@ def render_joint_plan(report: JointPlanReport) -> str:
     if report.waypoints_deg:
         rows = [[str(i)] + [f"{v:.2f}" for v in q] for i, q in enumerate(report.waypoints_deg)]
         lines += [""] + _table(["#"] + report.joint_names, rows)
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)
 
 
@@ -381,4 +400,6 @@ def render_placement(report: PlacementReport, *, top: int = 10) -> str:
         ],
         rows,
     )
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)

@@ -408,6 +408,7 @@ def plan_joint_move(
             min_clearance_mm=min_clearance,
             straight_move_obstacle=obstacle,
             check=check,
+            robot_geometry_missing=robot.geometry_missing,
         )
 
     for name, q in (("start", start), ("goal", goal)):

@@ -26,7 +26,25 @@ from posebridge.units import BoolArray, FloatArray
 JointKind = Literal["revolute", "prismatic"]
 MeshRole = Literal["visual", "collision"]
 
-__all__ = ["Capsule", "Joint", "JointKind", "LinkFit", "LinkMesh", "MeshRole", "Robot"]
+__all__ = [
+    "GEOMETRY_MISSING",
+    "Capsule",
+    "Joint",
+    "JointKind",
+    "LinkFit",
+    "LinkMesh",
+    "MeshRole",
+    "Robot",
+]
+
+
+GEOMETRY_MISSING = (
+    "ROBOT GEOMETRY IS MISSING: the robot has no collision capsules (no meshes found, no shapes "
+    "given), so it is treated as a line that collides with nothing and every clearance, map, "
+    "path check, plan and placement below says nothing about collisions; give the mesh folders "
+    "or capsules (robot overlay) and check again"
+)
+"""The one warning every clearance answer carries for a robot without geometry."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -214,6 +232,11 @@ class Robot:
     def has_geometry(self) -> bool:
         """Whether any link carries collision geometry (a capsule); else clearance means nothing."""
         return bool(self.capsules)
+
+    @property
+    def geometry_missing(self) -> str | None:
+        """:data:`GEOMETRY_MISSING` for a robot without geometry, else ``None``."""
+        return None if self.has_geometry else GEOMETRY_MISSING
 
     @property
     def dof(self) -> int:

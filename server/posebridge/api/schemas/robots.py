@@ -91,6 +91,11 @@ class RobotDescriptionResult(BaseModel):
         "holding every link frame and the tool over a seeded sample of the joint ranges."
     )
     notes: list[str] = Field(description="Non-fatal remarks from loading the description.")
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance computed for it is then meaningless.",
+    )
 
 
 def robot_summary_from_bundled(bundled: BundledRobot) -> RobotSummary:
@@ -139,4 +144,5 @@ def robot_description_result(robot: Robot, spec: str) -> RobotDescriptionResult:
         home_joints=joints_user_from_si(robot.home_configuration(), robot.prismatic).tolist(),
         bounds_mm=mm_from_m(_bounds_m(robot)).tolist(),
         notes=list(robot.notes),
+        robot_geometry_missing=robot.geometry_missing,
     )
