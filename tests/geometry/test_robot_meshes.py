@@ -103,7 +103,7 @@ def test_fixed_frame_and_finger_as_to_link(arm_urdf: Path) -> None:
     assert "finger_right_slide" in finger.held_joints
 
 
-def test_every_mesh_vertex_inside_the_fitted_capsules_of_its_link(
+def test_every_mesh_vertex_and_face_inside_the_fitted_capsules_of_its_link(
     arm_urdf: Path, arm: Robot
 ) -> None:
     assert {fit.source_link for fit in arm.link_fits} == {
@@ -122,7 +122,11 @@ def test_every_mesh_vertex_inside_the_fitted_capsules_of_its_link(
             f"{name}_collision_mm.stl" if name == "forearm" else f"{name}_collision.stl"
         )
         # trimesh reads the file; the forearm's is in mm with scale 0.001 in the URDF
-        vertices = np.asarray(trimesh.load(file, force="mesh").vertices, dtype=np.float64)
+        loaded = trimesh.load(file, force="mesh")
+        # the corners and the centroid of every triangle (a split fit must hold whole faces)
+        vertices = np.concatenate(
+            [np.asarray(loaded.vertices), np.asarray(loaded.triangles_center)]
+        ).astype(np.float64)
         if name == "forearm":
             vertices = vertices * 0.001
         capsules = [c for c in arm.capsules if c.name in fit.capsule_names]
@@ -251,3 +255,15 @@ def test_overlay_problems_name_file_and_field(arm_urdf: Path) -> None:
     text = str(caught.value)
     assert "bad-overlay.toml:" in text and "joint.shoulder_pan.min_deg: soft limits" in text
     assert "capsule[0].link: unknown link 'nowhere'" in text
+
+
+def test_coarse_faces_are_held_whole(tmp_path: Path, cache: MeshCache) -> None:
+    # boxes of 12 triangles: a split could hold the 8 corners and miss the long faces' middles
+    urdf = write_invented_arm(tmp_path, level=0)
+    robot = load_robot_with_meshes(urdf, to_link="tool0", cache=cache)
+    upper = next(fit for fit in robot.link_fits if fit.source_link == "upper_arm")
+    capsules = [c for c in robot.capsules if c.name in upper.capsule_names]
+    # the middle of the upper arm box (from invented_urdf's box corners, closed form)
+    centre = np.array([[0.0, -0.08, 0.26]])
+    assert any(point_segment_distances(centre, c.start, c.end)[0] <= c.radius for c in capsules)
+    assert upper.excess is not None and upper.excess >= 1.0  # one capsule holds the hull

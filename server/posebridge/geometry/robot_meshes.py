@@ -11,6 +11,9 @@ reading them. Here:
   :func:`~posebridge.geometry.capsule_fit.fit_capsules` - to the link's
   collision meshes, or to its visual meshes when it has none - so every vertex
   is inside (conservative: clearance may be under-stated, never over-stated).
+  A split into two or three capsules is kept only when every triangle has its
+  three corners inside one capsule (then, capsules being convex, the whole
+  triangle is); else one capsule, which holds the vertices' convex hull.
   A file that cannot be read is a note naming it, never an error.
 * :func:`robot_display_meshes` gives the visual meshes (collision meshes for
   links without visual ones) decimated to one budget for the whole robot
@@ -30,8 +33,9 @@ from pathlib import Path
 from typing import Literal
 
 import numpy as np
+import numpy.typing as npt
 
-from posebridge.geometry.capsule_fit import fit_capsules
+from posebridge.geometry.capsule_fit import CapsuleFit, fit_capsules, point_segment_distances
 from posebridge.geometry.errors import MeshFileError
 from posebridge.geometry.mesh_cache import MeshCache
 from posebridge.geometry.mesh_display import (
@@ -57,6 +61,8 @@ __all__ = [
 ROBOT_DISPLAY_TRIANGLES = 60_000
 """Triangles for drawing one whole robot."""
 
+_INSIDE_TOLERANCE_M = 1e-9
+IntArray = npt.NDArray[np.int64]
 _DECLARED_UNIT_SUFFIXES = (".dae", ".gltf", ".glb", ".step", ".stp")
 
 
@@ -112,6 +118,22 @@ def _loaded(
     return loaded, failed
 
 
+def _triangles_covered(fit: CapsuleFit, points: FloatArray, faces: IntArray) -> bool:
+    """Whether every triangle has all three corners in one capsule (so, capsules being convex,
+    the whole triangle is inside it). A split fit can hold every vertex and still leave the
+    middle of a long coarse face uncovered; one capsule holds the vertices' hull."""
+    if len(fit.capsules) == 1:
+        return True
+    covered = np.zeros(faces.shape[0], dtype=bool)
+    for capsule in fit.capsules:
+        inside = (
+            point_segment_distances(points, capsule.start, capsule.end)
+            <= capsule.radius + _INSIDE_TOLERANCE_M
+        )
+        covered |= inside[faces].all(axis=1)
+    return bool(covered.all())
+
+
 def _unique(name: str, taken: set[str]) -> str:
     while name in taken or f"{name}-2" in taken or f"{name}-3" in taken:
         name += "-fit"
@@ -150,13 +172,19 @@ def fit_robot_meshes(
     taken = {capsule.name for capsule in robot.capsules}
     capsules: list[Capsule] = list(robot.capsules)
     fits = []
+    single: list[str] = []
     for source_link, roles in by_link.items():
         if source_link in robot.replaced_links:
             continue
         role: MeshRole = "collision" if roles["collision"] else "visual"
         chosen = roles[role]
         points = np.concatenate([_link_vertices(r, m) for r, m in chosen])
+        offsets = np.cumsum([0] + [m.vertices.shape[0] for _, m in chosen])
+        faces = np.concatenate([m.faces + o for (_, m), o in zip(chosen, offsets, strict=False)])
         fit = fit_capsules(points, cache=cache)
+        if not _triangles_covered(fit, points, faces):
+            fit = fit_capsules(points, max_capsules=1, cache=cache)
+            single.append(source_link)
         link = chosen[0][0].link
         fitted = tuple(
             dataclasses.replace(c, source_link=source_link)
@@ -178,6 +206,11 @@ def fit_robot_meshes(
     notes = list(robot.notes)
     if failed:
         notes.append(f"{len(failed)} mesh file(s) could not be read: " + "; ".join(failed))
+    if single:
+        notes.append(
+            "one capsule kept (a split would leave triangles outside every single capsule) on "
+            "links: " + ", ".join(single)
+        )
     if fits:
         notes.append(
             "capsules fitted to the meshes of "

@@ -12,8 +12,10 @@ from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.robots import (
     RobotDescriptionResult,
+    RobotImportReport,
     RobotList,
     robot_description_result,
+    robot_import_report,
     robot_summary_from_bundled,
 )
 from posebridge.robot.library import bundled_robots
@@ -43,3 +45,19 @@ def read_robot_model(
 ) -> RobotDescriptionResult:
     """Joints with limits and units, default tool, home configuration and drawing bounds."""
     return robot_description_result(robots.get(robot, paths_allowed=role == "owner"), robot)
+
+
+@router.get(
+    "/describe", summary="What an import made of a robot", responses=error_responses(403, 422)
+)
+def describe_robot(
+    robots: RobotsDep,
+    role: ReviewRoleDep,
+    robot: Annotated[
+        str,
+        Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
+    ],
+) -> RobotImportReport:
+    """Chain, joints and limits, assumed values, meshes found and missing, capsules (fitted
+    ones with their excess over the meshes' hull), notes - as `posebridge describe --json`."""
+    return robot_import_report(robots.get(robot, paths_allowed=role == "owner"), robot)
