@@ -7,6 +7,7 @@ from typing import Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 
+from posebridge.geometry.robot_meshes import LinkDisplayMesh
 from posebridge.kinematics.fk import fk_frames
 from posebridge.robot.library import BundledRobot
 from posebridge.robot.model import Robot
@@ -17,12 +18,14 @@ __all__ = [
     "JointDescription",
     "RobotDescriptionResult",
     "RobotImportReport",
+    "RobotMeshesResult",
     "RobotList",
     "RobotSummary",
     "ToolDescription",
     "render_robot_import",
     "robot_description_result",
     "robot_import_report",
+    "robot_meshes_result",
     "robot_summary_from_bundled",
 ]
 
@@ -309,3 +312,41 @@ def render_robot_import(report: RobotImportReport) -> str:
     lines.append("notes:")
     lines += [f"  - {note}" for note in report.notes]
     return "\n".join(lines)
+
+
+# One decimated mesh drawn on a link (vertices in the link frame).
+class LinkMeshDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    link: int = Field(description="Index into the FK answer's frames (0 base, i after joint i).")
+    source_link: str = Field(description="The description's link.")
+    vertices_mm: list[list[float]] = Field(description="In the link frame, mm.")
+    faces: list[list[int]]
+
+
+# A robot's meshes for drawing: visual meshes decimated to one budget for the whole robot.
+class RobotMeshesResult(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    robot: str
+    triangles: int = Field(description="Triangles in all (at most the robot budget, 60 000).")
+    meshes: list[LinkMeshDrawing]
+
+
+def robot_meshes_result(
+    robot: Robot, spec: str, drawings: list[LinkDisplayMesh]
+) -> RobotMeshesResult:
+    """The drawing answer for ``robot`` from :func:`~posebridge.geometry.robot_meshes.robot_display_meshes`."""
+    return RobotMeshesResult(
+        robot=spec,
+        triangles=sum(d.mesh.triangle_count for d in drawings),
+        meshes=[
+            LinkMeshDrawing(
+                link=d.link,
+                source_link=d.source_link,
+                vertices_mm=np.round(d.mesh.vertices_mm, 2).tolist(),
+                faces=d.mesh.faces.tolist(),
+            )
+            for d in drawings
+        ],
+    )
