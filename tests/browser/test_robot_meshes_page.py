@@ -1,6 +1,7 @@
 """The page with a URDF robot and its meshes: the invented gripper arm
 (:mod:`posebridge.bench.invented_urdf`, written by the test) as the cell's robot with the
-chain chosen in the cell file; link meshes drawn in 3D and in plan, the capsule toggle."""
+chain chosen in the cell file; link meshes drawn in 3D and in plan, the capsule toggle, the
+chain chosen on the page."""
 
 from __future__ import annotations
 
@@ -29,7 +30,7 @@ PLAN_ARM_POINTS = """() => {
 
 
 @pytest.fixture(scope="module")
-def gripper_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
+def gripper_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, Path]]:
     folder = tmp_path_factory.mktemp("gripper")
     saved = os.environ.get("XDG_DATA_HOME")
     os.environ["XDG_DATA_HOME"] = str(folder / "data")  # the mesh cache goes there
@@ -43,7 +44,7 @@ def gripper_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
     cell.write_text(json.dumps(data), encoding="utf-8")
     try:
         with background_server(Settings(robot="pb-arm6", cell_path=cell)) as url:
-            yield url
+            yield url, cell
     finally:
         if saved is None:
             os.environ.pop("XDG_DATA_HOME", None)
@@ -52,13 +53,14 @@ def gripper_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[str]:
 
 
 def test_page_draws_the_urdf_robot_meshes(
-    browser: Any, gripper_server: str, artifacts: Path
+    browser: Any, gripper_server: tuple[str, Path], artifacts: Path
 ) -> None:
+    url, cell_file = gripper_server
     page = browser.new_page(viewport=VIEWPORT)
     errors: list[str] = []
     page.on("pageerror", lambda error: errors.append(str(error)))
     page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
-    page.goto(gripper_server)
+    page.goto(url)
     page.wait_for_function(
         "() => { const s = window.posebridge && window.posebridge.getState();"
         " return s && s.cellActive && s.robotMeshes.length === 10 && s.fk; }",
@@ -78,5 +80,18 @@ def test_page_draws_the_urdf_robot_meshes(
     page.check("#show-capsules")
     page.wait_for_function(f"() => ({ARM_VERTICES})() !== {drawn}", timeout=60_000)
     page.screenshot(path=str(artifacts / "page-urdf-robot-capsules.png"), full_page=True)
+    # the chain control lists the URDF's leaf links (invented_urdf: tool0 and two fingers)
+    options = page.evaluate(
+        "() => [...document.querySelectorAll('#chain-end option')].map((o) => o.value)"
+    )
+    assert options == ["finger_left", "finger_right", "tool0"]
+    page.select_option("#chain-end", "finger_left")
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState();"
+        " return s.robot && s.robot.to_link === 'finger_left' && s.robot.dof === 7; }",
+        timeout=120_000,
+    )
+    saved = json.loads(cell_file.read_text())
+    assert saved["robot"]["to_link"] == "finger_left"
     assert errors == []
     page.close()

@@ -207,6 +207,8 @@ class Robot:
         Links whose imported capsules a robot overlay replaced (their meshes are not fitted).
     removed_capsules : tuple of str
         Capsules an overlay removes once meshes are fitted (then empty).
+    leaf_links : tuple of str
+        URDF: the leaf links below ``from_link`` (the ``to_link`` choices a page offers).
     """
 
     name: str
@@ -227,6 +229,7 @@ class Robot:
     link_poses: dict[str, tuple[int, FloatArray]] = field(default_factory=dict)
     replaced_links: tuple[str, ...] = ()
     removed_capsules: tuple[str, ...] = ()
+    leaf_links: tuple[str, ...] = ()
 
     @property
     def has_geometry(self) -> bool:

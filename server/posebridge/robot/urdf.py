@@ -834,7 +834,14 @@ def parse_robot_urdf(
         held_joints=tuple(joint.name for joint in held),
         meshes=tuple(meshes),
         link_poses=placed,
+        leaf_links=tuple(
+            sorted(name for name in placed if name != base and not _has_children(name, joints))
+        ),
     )
+
+
+def _has_children(link: str, joints: list[_JointSpec]) -> bool:
+    return any(joint.parent == link for joint in joints)
 
 
 def _notes(

@@ -102,6 +102,13 @@ class RobotDescriptionResult(BaseModel):
         description="Set (a warning text) when the robot has no collision geometry: every "
         "clearance computed for it is then meaningless.",
     )
+    from_link: str | None = Field(default=None, description="URDF: the chain's first link.")
+    to_link: str | None = Field(default=None, description="URDF: the chain's last link.")
+    chain_ends: list[str] = Field(
+        default_factory=list,
+        description="URDF: to_link choices (the leaf links below from_link, and the current "
+        "to_link).",
+    )
 
 
 def robot_summary_from_bundled(bundled: BundledRobot) -> RobotSummary:
@@ -151,6 +158,9 @@ def robot_description_result(robot: Robot, spec: str) -> RobotDescriptionResult:
         bounds_mm=mm_from_m(_bounds_m(robot)).tolist(),
         notes=list(robot.notes),
         robot_geometry_missing=robot.geometry_missing,
+        from_link=robot.from_link or None,
+        to_link=robot.to_link or None,
+        chain_ends=sorted({*robot.leaf_links, robot.to_link}) if robot.to_link else [],
     )
 
 
