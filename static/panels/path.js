@@ -1,5 +1,6 @@
 // Path panel: check a path of the cell and time it. Shows whether it is
-// free of errors, the cycle time, each segment's motion, duration and
+// free of errors, the cycle time (rest to rest, the upper bound, and blended
+// through the waypoints), each segment's motion, both durations and
 // smallest clearance, and the findings tied to a segment and a position along
 // it. Clicking a finding moves the arm to that place: the joint values are
 // interpolated between the segment's waypoint configurations (exact for a
@@ -11,6 +12,11 @@ import { formatLength, formatNumber } from "../units.js";
 /** Joint values a fraction of the way between two configurations. */
 export function interpolateJoints(a, b, fraction) {
   return a.map((value, k) => value + fraction * (b[k] - value));
+}
+
+/** A duration in seconds with two decimals, or `missing` when there is none. */
+function seconds(value, missing = "–") {
+  return value === null || value === undefined ? missing : `${formatNumber(value, { decimals: 2 })} s`;
 }
 
 /**
@@ -70,21 +76,22 @@ export function createPathPanel({ container, store, actions, api }) {
     const stale = !cell || cell.etag !== etag ? " (the cell changed since: check again)" : "";
     summary.textContent =
       `${report.path}: ${report.ok ? "no errors" : `${report.errors} errors`}, ${report.warnings} warnings; ` +
-      `cycle time ${report.cycle_time_s === null ? "not timed" : `${formatNumber(report.cycle_time_s, { decimals: 2 })} s`}; ` +
+      `cycle time ${seconds(report.cycle_time_s, "not timed")} rest to rest, ${seconds(report.blended_cycle_time_s, "not timed")} blended; ` +
       `smallest clearance ${report.min_clearance_mm === null ? "–" : formatLength(report.min_clearance_mm)}.${stale}`;
     const rows = report.segments.map((segment) =>
       element("tr", {}, [
         element("td", { text: String(segment.index + 1) }),
         element("td", { text: `${segment.from_waypoint} → ${segment.to_waypoint}` }),
         element("td", { text: segment.motion === "linear" ? "linear" : "joint" }),
-        element("td", { className: "pb-num", text: segment.duration_s === null ? "–" : `${formatNumber(segment.duration_s, { decimals: 2 })} s` }),
+        element("td", { className: "pb-num", text: seconds(segment.duration_s) }),
+        element("td", { className: "pb-num", text: seconds(segment.blended_duration_s) }),
         element("td", { className: "pb-num", text: segment.min_clearance_mm === null ? "–" : formatLength(segment.min_clearance_mm) }),
         element("td", { text: segment.speed_capped ? `capped at ${formatNumber(segment.speed_used_mm_s)} mm/s` : "" }),
       ]),
     );
     segments.replaceChildren(
       element("table", { className: "pb-solutions" }, [
-        element("thead", {}, [element("tr", {}, ["#", "Segment", "Move", "Time", "Clearance", "Speed"].map((text) => element("th", { text })))]),
+        element("thead", {}, [element("tr", {}, ["#", "Segment", "Move", "Rest to rest", "Blended", "Clearance", "Speed"].map((text) => element("th", { text })))]),
         element("tbody", {}, rows),
       ]),
     );

@@ -63,6 +63,13 @@ async def test_read_path_check(client: httpx.AsyncClient) -> None:
     if body["cycle_time_s"] is not None and None not in durations:
         # no blends on this path: the cycle is the sum of the segment times
         assert body["cycle_time_s"] == pytest.approx(sum(durations), rel=1e-9)
+    blended = [s["blended_duration_s"] for s in body["segments"]]
+    assert None not in blended
+    # the blended total is the sum of its segments and never above rest to rest (the arm can
+    # always stop at a waypoint: the time-optimal motion is never slower; closed form)
+    assert body["blended_cycle_time_s"] == pytest.approx(sum(blended), rel=1e-9)
+    assert body["blended_cycle_time_s"] <= body["cycle_time_s"] + 1e-9
+    assert body["blended_note"]
 
 
 async def test_read_path_check_unknown(client: httpx.AsyncClient) -> None:

@@ -2,7 +2,11 @@
 
 The path is sampled by :func:`posebridge.planning.path_sampling.sample_path`
 (waypoint IK choice, joint moves in joint space, linear moves with slerp and
-branch-continuous IK) and timed by :func:`posebridge.planning.cycle_time.path_cycle_time`.
+branch-continuous IK) and timed twice: rest to rest by
+:func:`posebridge.planning.cycle_time.path_cycle_time` (the upper bound) and
+blended through the waypoints by
+:func:`posebridge.planning.blended_timing.blended_cycle_time` (the realistic
+figure, per segment and in total).
 All reached samples of all segments are then checked in batches:
 
 * **reachability** of every linear-move sample (and every waypoint);
@@ -33,6 +37,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -72,6 +77,9 @@ from posebridge.units import (
     mm_from_m,
     rad_from_deg,
 )
+
+if TYPE_CHECKING:
+    from posebridge.planning.blended_timing import BlendedCycleTime
 
 __all__ = ["check_path", "check_sampled_path"]
 
@@ -393,6 +401,18 @@ def _waypoint_findings(sampled: SampledPath) -> list[PathFinding]:
     return findings
 
 
+def _blended_timing(
+    scene: Scene, sampled: SampledPath, linear_acceleration_m_s2: float
+) -> BlendedCycleTime:
+    """:func:`~posebridge.planning.blended_timing.blended_cycle_time` of the sampled path.
+
+    Imported here, on first use: ``toppra`` imports matplotlib (about a second).
+    """
+    from posebridge.planning.blended_timing import blended_cycle_time
+
+    return blended_cycle_time(scene, sampled, linear_acceleration_m_s2=linear_acceleration_m_s2)
+
+
 def check_sampled_path(
     scene: Scene,
     sampled: SampledPath,
@@ -438,6 +458,7 @@ def check_sampled_path(
         ),
         linear_jerk_m_s3=None if linear_jerk_mm_s3 is None else float(m_from_mm(linear_jerk_mm_s3)),
     )
+    blended = _blended_timing(scene, sampled, float(m_from_mm(linear_acceleration_mm_s2)))
     reached = [segment.q[segment.reachable] for segment in sampled.segments]
     all_q = np.concatenate(reached) if reached else np.zeros((0, robot.dof))
     margins = limit_margins(robot, all_q).margin
@@ -466,7 +487,9 @@ def check_sampled_path(
         findings.extend(out.findings)
         segment_clearance = clearance.distance[rows]
         min_clearance = float(segment_clearance.min()) if segment_clearance.size else math.nan
-        segments.append(_segment_report(scene, sampled, segment, segment_timing, min_clearance))
+        report = _segment_report(scene, sampled, segment, segment_timing, min_clearance)
+        report.blended_duration_s = _optional(float(blended.segment_durations[segment.index]))
+        segments.append(report)
     path = sampled.path
     errors = sum(f.severity == "error" for f in findings)
     warnings = sum(f.severity == "warning" for f in findings)
@@ -484,6 +507,8 @@ def check_sampled_path(
             ),
             branch=sampled.waypoint_branch[w],
             problem=sampled.waypoint_problem[w],
+            blended=bool(blended.blended[w]),
+            pass_distance_mm=_optional(float(mm_from_m(blended.pass_distance[w]))),
         )
         for w in range(len(names))
     ]
@@ -506,6 +531,8 @@ def check_sampled_path(
         linear_acceleration_mm_s2=float(mm_from_m(timing.linear_acceleration)),
         jerk_limited=timing.jerk_limited,
         blend_note=timing.note,
+        blended_cycle_time_s=_optional(blended.total),
+        blended_note=blended.note,
         min_clearance_mm=_optional(float(mm_from_m(overall))),
         clearance_warning_mm=float(clearance_warning_mm),
         collision_threshold_mm=float(collision_threshold_mm),

@@ -119,6 +119,13 @@ class WaypointReport(_Report):
     )
     branch: str = Field(description="Shoulder, elbow and wrist in plain words; empty if none.")
     problem: str = Field(description="Why the waypoint has no usable configuration; empty if fine.")
+    blended: bool = Field(
+        default=False, description="The blended motion passes this waypoint without stopping."
+    )
+    pass_distance_mm: float | None = Field(
+        default=None,
+        description="Closest TCP distance to the waypoint in the blended motion (0 at a stop).",
+    )
 
 
 class SegmentReport(_Report):
@@ -146,7 +153,12 @@ class SegmentReport(_Report):
     acceleration_used_mm_s2: float | None = None
     acceleration_capped: bool = False
     blend_mm: float = Field(
-        description="Blend radius of the end waypoint (not applied to the time)."
+        description="Blend radius of the end waypoint (applied to blended_duration_s only)."
+    )
+    blended_duration_s: float | None = Field(
+        default=None,
+        description="Duration in the blended (continuous) motion, from blend middle to blend "
+        "middle; null if not timed. At most duration_s for a trapezoid timing.",
     )
     min_clearance_mm: float | None = Field(description="Smallest clearance over the samples.")
 
@@ -167,8 +179,15 @@ class PathCheckReport(_Report):
     segments: list[SegmentReport]
     findings: list[PathFinding]
     cycle_time_s: float | None = Field(
-        description="Sum of the segment durations; null if any is missing."
+        description="Rest-to-rest cycle time (the upper bound): sum of the segment durations; "
+        "null if any is missing."
     )
+    blended_cycle_time_s: float | None = Field(
+        default=None,
+        description="Blended (continuous, time-optimal) cycle time through the waypoints; "
+        "null if any segment cannot be timed.",
+    )
+    blended_note: str = Field(default="", description="How the blended cycle time is timed.")
     linear_acceleration_mm_s2: float
     jerk_limited: bool
     blend_note: str
@@ -307,7 +326,10 @@ def render_path_check(report: PathCheckReport) -> str:
     lines = [
         f"Path {report.path!r} ({report.robot}, tool {report.tool}): {verdict}, "
         f"{report.errors} errors, {report.warnings} warnings",
-        f"Cycle time: {_number(report.cycle_time_s, 2)} s ({report.blend_note})",
+        f"Cycle time: {_number(report.cycle_time_s, 2)} s rest to rest (upper bound), "
+        f"{_number(report.blended_cycle_time_s, 2)} s blended",
+        f"  rest to rest: {report.blend_note}",
+        f"  {report.blended_note}",
         "",
     ]
     rows = [
@@ -317,6 +339,7 @@ def render_path_check(report: PathCheckReport) -> str:
             f"{s.from_waypoint} -> {s.to_waypoint}",
             _number(s.length_mm) if s.motion == "linear" else _number(s.joint_travel_deg) + " deg",
             _number(s.duration_s, 3),
+            _number(s.blended_duration_s, 3),
             (
                 f"{_number(s.speed_used_mm_s, 0)}/{_number(s.speed_requested_mm_s, 0)}"
                 + (" capped" if s.speed_capped else "")
@@ -328,7 +351,17 @@ def render_path_check(report: PathCheckReport) -> str:
         for s in report.segments
     ]
     lines += _table(
-        ["seg", "motion", "from -> to", "length mm", "time s", "speed mm/s", "clearance mm"], rows
+        [
+            "seg",
+            "motion",
+            "from -> to",
+            "length mm",
+            "time s",
+            "blended s",
+            "speed mm/s",
+            "clearance mm",
+        ],
+        rows,
     )
     if report.findings:
         lines += ["", "Findings:"]
