@@ -13,6 +13,9 @@ Roles:
   its cycle time (:func:`posebridge.planning.path_check.check_path`);
 * :class:`JointPlanReport` — a collision-free joint move found by
   RRT-Connect (:func:`posebridge.planning.rrt.plan_joint_move`);
+* :class:`SequenceReport` — the fastest consistent IK solution sequence of
+  a path and the edits that make the path follow it
+  (:func:`posebridge.planning.sequence_report.optimise_path`);
 * :class:`PlacementReport` — ranked base poses and the score grid
   (:func:`posebridge.planning.placement.search_base_placement`).
 
@@ -35,12 +38,19 @@ __all__ = [
     "PlacementReport",
     "PlanStatus",
     "SegmentReport",
+    "SequenceCandidatesReport",
+    "SequenceChoiceReport",
+    "SequenceReport",
+    "SequenceViolation",
+    "SequenceWaypointReport",
     "Severity",
     "TargetPlacementReport",
+    "WaypointJoints",
     "WaypointReport",
     "render_joint_plan",
     "render_path_check",
     "render_placement",
+    "render_sequence",
 ]
 
 FindingKind = Literal[
@@ -200,6 +210,86 @@ class PathCheckReport(_Report):
         description="Set (a warning text) when the robot has no collision geometry: every "
         "clearance in this result is then meaningless.",
     )
+
+
+# --- fastest solution sequence ------------------------------------------------------------
+
+
+class SequenceViolation(_Report):
+    """A constraint a choice of configurations breaks."""
+
+    reason: str = Field(
+        description="outside_limits, limit_margin, branch, collision, unreached, branch_change, "
+        "configuration_jump, arrival_excluded or joint_speed."
+    )
+    waypoint_index: int | None = Field(description="The waypoint; null for a segment's.")
+    segment_index: int | None = Field(description="The segment; null for a waypoint's.")
+    message: str
+
+
+class SequenceWaypointReport(_Report):
+    """One waypoint's configuration in a sequence."""
+
+    index: int
+    name: str
+    joints_deg: list[float] | None = Field(description="Prismatic joints in mm; null if none.")
+    branch: str = Field(description="Shoulder, elbow and wrist in plain words; empty if none.")
+    revolutions: list[int] = Field(description="Whole extra revolutions of each joint.")
+
+
+class SequenceChoiceReport(_Report):
+    """One configuration per waypoint and its rest-to-rest timing."""
+
+    waypoints: list[SequenceWaypointReport]
+    segment_durations_s: list[float | None] = Field(
+        description="Rest-to-rest duration of each segment; null where it is not feasible."
+    )
+    cycle_time_s: float | None = Field(description="Rest to rest; null if a segment is missing.")
+    same_branch_throughout: bool
+    violations: list[SequenceViolation]
+
+
+class WaypointJoints(_Report):
+    """Joint values to write into one waypoint of a path (it becomes a joint-values waypoint)."""
+
+    index: int = Field(ge=0, description="Waypoint position in the path, from 0.")
+    joints_deg: list[float] = Field(description="Prismatic joints in mm.")
+
+
+class SequenceCandidatesReport(_Report):
+    """The candidate configurations of one waypoint and the ones left out."""
+
+    joints_deg: list[list[float]]
+    excluded: dict[str, int] = Field(description="How many IK solutions each reason removed.")
+
+
+class SequenceReport(_Report):
+    """The fastest consistent solution sequence of a path beside the cell's current choice."""
+
+    path: str
+    robot: str
+    tool: str
+    joint_names: list[str]
+    feasible: bool = Field(description="A sequence meeting every constraint exists.")
+    summary: str = Field(description="The result in words, e.g. '1.30 s faster, same branch'.")
+    best: SequenceChoiceReport | None = Field(description="The fastest sequence; null if none.")
+    current: SequenceChoiceReport = Field(description="The configurations the path uses today.")
+    saving_s: float | None = Field(
+        description="Current minus best rest-to-rest cycle time; null if either is not timed."
+    )
+    blocked_at: str | None = Field(description="First waypoint no feasible sequence reaches.")
+    chosen_indices: list[int] = Field(description="Chosen candidate per waypoint (-1: none).")
+    candidates: list[SequenceCandidatesReport]
+    edits: list[WaypointJoints] = Field(
+        description="Waypoints to give as joint values so that the path follows the best "
+        "sequence (the fewest, in path order); empty when it already does or none is feasible."
+    )
+    edges_checked: int = Field(description="Segments between candidates collision-checked.")
+    edges_total: int
+    limit_margin_deg: float
+    limit_margin_mm: float
+    collision_threshold_mm: float
+    note: str
 
 
 # --- joint-move planning ------------------------------------------------------------------
@@ -374,6 +464,38 @@ def render_path_check(report: PathCheckReport) -> str:
             lines.append(f"  [{f.severity}] {f.kind} ({where}): {f.message}")
     if report.robot_geometry_missing:
         lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
+    return "\n".join(lines)
+
+
+def render_sequence(report: SequenceReport) -> str:
+    """Plain-text summary and per-waypoint table of a solution-sequence search."""
+    lines = [f"Path {report.path!r} ({report.robot}, tool {report.tool}): {report.summary}"]
+    lines.append(
+        f"Cycle time rest to rest: current {_number(report.current.cycle_time_s, 2)} s, "
+        f"fastest {_number(report.best.cycle_time_s if report.best else None, 2)} s"
+    )
+    lines.append("")
+    rows = []
+    for w, current in enumerate(report.current.waypoints):
+        best = report.best.waypoints[w] if report.best else None
+        rows.append(
+            [
+                str(w),
+                current.name,
+                current.branch or "-",
+                best.branch if best and best.branch else "-",
+                " ".join(f"{v:.1f}" for v in best.joints_deg) if best and best.joints_deg else "-",
+                "yes" if any(e.index == w for e in report.edits) else "",
+            ]
+        )
+    lines += _table(
+        ["wp", "waypoint", "current branch", "fastest branch", "fastest joints", "rewrite"], rows
+    )
+    violations = report.current.violations
+    if violations:
+        lines += ["", "The current choice breaks:"]
+        lines += [f"  {v.message}" for v in violations]
+    lines += ["", report.note]
     return "\n".join(lines)
 
 
