@@ -31,6 +31,9 @@ from pydantic import BaseModel, ConfigDict, Field
 __all__ = [
     "FindingKind",
     "JointPlanReport",
+    "MotionExportHeader",
+    "MotionExportReport",
+    "MotionExportWaypoint",
     "PathCheckReport",
     "PathFinding",
     "PlacementCandidateReport",
@@ -290,6 +293,50 @@ class SequenceReport(_Report):
     limit_margin_mm: float
     collision_threshold_mm: float
     note: str
+
+
+# --- motion export -------------------------------------------------------------------------
+
+
+class MotionExportWaypoint(_Report):
+    """A waypoint's motion settings in an export header."""
+
+    name: str
+    motion: Literal["joint", "linear"] = Field(description="Motion into this waypoint.")
+    speed_percent: float | None = Field(description="Joint moves: percent of the joint limits.")
+    speed_mm_s: float | None = Field(description="Linear moves: requested TCP speed.")
+    blend_mm: float
+
+
+class MotionExportHeader(_Report):
+    """The header block of a motion export."""
+
+    cell: str
+    robot: str
+    tool: str
+    path: str
+    posebridge_version: str
+    period_ms: float
+    rows: int
+    cycle_time_s: float = Field(description="Blended cycle time of the exported motion.")
+    rest_to_rest_cycle_time_s: float = Field(description="The rest-to-rest upper bound.")
+    timing_note: str
+    joint_names: list[str]
+    joint_units: list[Literal["deg", "mm"]]
+    frame: str = Field(description="Frame and orientation convention of the TCP columns.")
+    waypoints: list[MotionExportWaypoint]
+    velocity_limits_deg_s: list[float] = Field(description="Per joint; mm/s for prismatic.")
+    acceleration_limits_deg_s2: list[float] = Field(description="Per joint; mm/s^2 for prismatic.")
+
+
+class MotionExportReport(_Report):
+    """A path's timed motion sampled at a fixed period: header, column names and rows."""
+
+    header: MotionExportHeader
+    columns: list[str] = Field(description="Column names, each with its unit where it has one.")
+    rows: list[list[float | int | str | None]] = Field(
+        description="One row per period; null where a value is missing (no clearance pair)."
+    )
 
 
 # --- joint-move planning ------------------------------------------------------------------
