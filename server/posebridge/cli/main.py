@@ -36,6 +36,7 @@ _COMMANDS = (
     spaces.add_reach,
     spaces.add_jointmap,
     planning.add_paths,
+    planning.add_export,
     planning.add_plan,
     planning.add_place,
     cells.add_report,
