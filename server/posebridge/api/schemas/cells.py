@@ -13,7 +13,7 @@ from typing import Annotated, Any, Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.api.cell_store import CellSnapshot
-from posebridge.cell.model import MAX_COORDINATE_MM, Branch, Cell
+from posebridge.cell.model import MAX_COORDINATE_MM, MAX_JOINTS, MAX_WAYPOINTS, Branch, Cell
 from posebridge.cell.scene import BoxSet, CylinderSet, Scene
 from posebridge.transforms import rpy_from_rotation_matrix
 from posebridge.units import FloatArray, joints_user_from_si, mm_from_m
@@ -32,6 +32,8 @@ __all__ = [
     "ToolDrawing",
     "WaypointDrawing",
     "WaypointEdit",
+    "WaypointJointsEdit",
+    "WaypointJointsItem",
     "cell_document",
 ]
 
@@ -200,6 +202,22 @@ class WaypointEdit(BaseModel):
 
     position_mm: Position = Field(description="Tool position in the world.")
     rpy_deg: Rpy
+
+
+# Give waypoints of a path as joint values (e.g. the optimiser's sequence, its ``edits``).
+class WaypointJointsItem(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    index: int = Field(ge=0, lt=MAX_WAYPOINTS, description="Waypoint position, from 0.")
+    joints_deg: list[Coordinate] = Field(
+        min_length=1, max_length=MAX_JOINTS, description="Prismatic joints in mm."
+    )
+
+
+class WaypointJointsEdit(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    edits: list[WaypointJointsItem] = Field(min_length=1, max_length=MAX_WAYPOINTS)
 
 
 # Move the robot: new pedestal foot pose in the world, and optionally a new pedestal height.
