@@ -104,6 +104,9 @@ export function createApiClient({ baseUrl = "" } = {}) {
     targetCheck: () => request("/api/cell/check"),
     pathCheck: (name) => request(`/api/cell/paths/${encodeURIComponent(name)}/check`),
     armState: (body, { signal } = {}) => request("/api/cell/fk", { method: "POST", body, signal }),
+    pathSequence: (name) => request(`/api/cell/paths/${encodeURIComponent(name)}/sequence`),
+    setWaypointJoints: (name, edits, etag) =>
+      request(`/api/cell/paths/${encodeURIComponent(name)}/waypoints`, { method: "PATCH", body: { edits }, ifMatch: etag }),
     diagnosePose: (joints) => request("/api/cell/diagnose/pose", { method: "POST", body: { joints_deg: joints } }),
     diagnoseLog: (csv, source) => request("/api/cell/diagnose/log", { method: "POST", body: { csv, source } }),
     startPlacement: (body) => request("/api/placement", { method: "POST", body }),

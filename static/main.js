@@ -69,7 +69,13 @@ async function start() {
   createJointsPanel({ container: byId("joints-panel"), store, actions });
   createMarginsPanel({ container: byId("margins-panel"), store });
   createTargetCheckPanel({ container: byId("target-check-panel"), store, actions, api });
-  createPathPanel({ container: byId("path-panel"), store, actions, api });
+  createPathPanel({
+    container: byId("path-panel"),
+    store,
+    actions,
+    api,
+    onUseSequence: (path, edits, etag) => cellSync.setWaypointJoints(path, edits, etag),
+  });
   // read-only handle for debugging and the browser tests
   window.posebridge = Object.freeze({ getState: store.get });
 

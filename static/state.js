@@ -45,6 +45,7 @@
  *   poseCheck       the latest pose diagnosis (PoseDiagnosis) or null
  *   logCheck        the latest log diagnosis (LogDiagnosis) or null
  *   pathReport      {etag, report} of the latest path check (PathCheckReport) or null
+ *   sequence        {etag, report} of the latest fastest-sequence search (SequenceReport) or null
  *   placement       the latest base placement ranking (PlacementReport) or null
  *   showReach       draw reach sections under the plan and the elevation
  *   robotMeshes     the robot's link meshes for drawing (RobotMeshesResult.meshes), [] if none
@@ -88,6 +89,7 @@ export function initialState() {
     poseCheck: null,
     logCheck: null,
     pathReport: null,
+    sequence: null,
     placement: null,
     showReach: false,
     robotMeshes: [],

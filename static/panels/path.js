@@ -5,6 +5,11 @@
 // it. Clicking a finding moves the arm to that place: the joint values are
 // interpolated between the segment's waypoint configurations (exact for a
 // joint move, an approximation along a linear move).
+//
+// "Fastest sequence" asks for the fastest consistent IK solution per waypoint
+// (drawn on the joint map and the 3D joint view) and says the saving in words;
+// "Use this sequence" writes its joint values into the path (If-Match, like every
+// edit). The export links download the timed motion as plain numbers.
 
 import { element } from "./fields.js";
 import { formatLength, formatNumber } from "../units.js";
@@ -22,14 +27,89 @@ function seconds(value, missing = "–") {
 /**
  * @param {{container: HTMLElement, store: object, actions: object, api: object}} options
  */
-export function createPathPanel({ container, store, actions, api }) {
+export function createPathPanel({ container, store, actions, api, onUseSequence }) {
   const select = element("select", { attributes: { id: "path-select", "aria-label": "Path" } });
   const run = element("button", { text: "Check the path", attributes: { type: "button", id: "path-check" } });
+  const optimise = element("button", { text: "Fastest sequence", attributes: { type: "button", id: "path-optimise" } });
+  const use = element("button", { text: "Use this sequence", attributes: { type: "button", id: "path-use-sequence", "data-edits-cell": "" } });
+  const exportCsv = element("a", { text: "Export CSV", attributes: { id: "path-export-csv", download: "" } });
+  const exportJson = element("a", { text: "JSON", attributes: { id: "path-export-json", download: "" } });
   const summary = element("p", { className: "pb-note", attributes: { id: "path-summary" } });
+  const sequenceNote = element("p", { className: "pb-note", attributes: { id: "path-sequence" } });
   const segments = element("div", { attributes: { id: "path-segments" } });
   const findings = element("ul", { className: "pb-findings", attributes: { id: "path-findings" } });
-  container.append(element("div", { className: "pb-controls" }, [element("label", { text: "Path " }, [select]), run]), summary, segments, findings);
+  container.append(
+    element("div", { className: "pb-controls" }, [element("label", { text: "Path " }, [select]), run, optimise, exportCsv, exportJson]),
+    summary,
+    element("div", { className: "pb-controls" }, [sequenceNote, use]),
+    segments,
+    findings,
+  );
+  use.hidden = true;
   let pathsKey = null;
+
+  async function findSequence() {
+    const { cell } = store.get();
+    if (!cell || !select.value) {
+      return;
+    }
+    const etag = cell.etag;
+    sequenceNote.textContent = `Searching the fastest sequence of ${select.value}…`;
+    try {
+      const report = await api.pathSequence(select.value);
+      store.update({ sequence: { etag, report } });
+    } catch (error) {
+      sequenceNote.textContent = `Sequence search failed: ${error.message}`;
+    }
+  }
+  optimise.addEventListener("click", findSequence);
+
+  use.addEventListener("click", async () => {
+    const { sequence } = store.get();
+    if (!sequence || !sequence.report.edits.length) {
+      return;
+    }
+    use.disabled = true;
+    const saved = await onUseSequence(sequence.report.path, sequence.report.edits, sequence.etag);
+    use.disabled = false;
+    if (saved) {
+      await findSequence();
+    }
+  });
+
+  function exportLinks() {
+    const name = select.value;
+    for (const [link, kind] of [[exportCsv, "csv"], [exportJson, "json"]]) {
+      if (name) {
+        link.href = `/api/cell/paths/${encodeURIComponent(name)}/export.${kind}`;
+        link.hidden = false;
+      } else {
+        link.removeAttribute("href");
+        link.hidden = true;
+      }
+    }
+  }
+  select.addEventListener("change", exportLinks);
+
+  function renderSequence() {
+    const { cell, sequence } = store.get();
+    if (!sequence || sequence.report.path !== select.value) {
+      sequenceNote.textContent = "";
+      use.hidden = true;
+      return;
+    }
+    const { report, etag } = sequence;
+    const stale = !cell || cell.etag !== etag;
+    const times = report.best
+      ? ` (rest to rest: ${seconds(report.best.cycle_time_s)} against ${seconds(report.current.cycle_time_s)} now)`
+      : "";
+    const edits = report.edits.length
+      ? ` Using it gives ${report.edits.length} waypoint${report.edits.length === 1 ? "" : "s"} as joint values.`
+      : "";
+    sequenceNote.textContent = `Fastest sequence: ${report.summary}${times}.${stale ? " The cell changed since: search again." : edits}`;
+    use.hidden = !report.edits.length;
+    use.disabled = stale || Boolean(store.get().readOnly);
+  }
 
   async function check() {
     const { cell } = store.get();
@@ -66,8 +146,10 @@ export function createPathPanel({ container, store, actions, api }) {
       if (pathsKey !== names.join("|")) {
         pathsKey = names.join("|");
         select.replaceChildren(...names.map((name) => new Option(name, name)));
+        exportLinks();
       }
     }
+    renderSequence();
     if (!pathReport) {
       summary.textContent = "Choose a path and check it.";
       return;
@@ -111,6 +193,6 @@ export function createPathPanel({ container, store, actions, api }) {
     );
   }
 
-  store.subscribe(render, { keys: ["cell", "pathReport"] });
+  store.subscribe(render, { keys: ["cell", "pathReport", "sequence"] });
   return { render };
 }
