@@ -27,6 +27,8 @@ from posebridge.cell.report_text import render_target_check
 from posebridge.cell.reports import QualityThresholds, TargetCheckReport
 from posebridge.cell.scene import resolve_scene
 from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
+from posebridge.planning.path_check import check_path
+from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
 
 ROBOTS = data_folder("robots")
@@ -399,3 +401,37 @@ def test_per_target_work_is_batched(monkeypatch: pytest.MonkeyPatch) -> None:
     for k, check in enumerate(report.targets[: len(RAW["targets"])]):
         assert check.reachable == single.targets[k].reachable
         assert check.usable_branches == single.targets[k].usable_branches
+
+
+def test_cell_thresholds_are_used_by_the_target_check() -> None:
+    relaxed = variant(lambda data: data.update(thresholds={"clearance_mm": 15.0}))
+    report = check_targets(relaxed)
+    # python-fcl measures about 20 mm at press-load: above the cell's 15 mm, no warning
+    assert not [f for f in findings(report, "press-load", "clearance") if "press-die" in f.message]
+    # our own contract: the report states the set it used
+    assert report.thresholds.clearance_mm == 15.0
+
+
+def test_path_check_warns_where_the_target_check_warns(report, demo_scene, fcl_cell) -> None:
+    index = [p.name for p in demo_scene.paths].index("load-press")
+    path = check_path(demo_scene, index)
+    # the cell file: waypoint 1 of load-press is the press-load target, reached by a linear move
+    q = sample_path(demo_scene, index).waypoint_q[1]
+    distances = fcl_cell.obstacle_distances(q)
+    reference_mm = 1000.0 * min(distances.values())
+    # python-fcl (reference library): about 20 mm, below the 25 mm default threshold
+    # (common practice, no source) and above the 20 mm the path check used before
+    assert 20.0 < reference_mm < 25.0
+    near = [
+        f
+        for f in path.findings
+        if f.kind == "low_clearance" and f.obstacle == "press-die" and f.fraction_end == 1.0
+    ]
+    assert near and near[0].severity == "warning" and near[0].segment_index == 0
+    # the stretch ends at the target; its worst point is no farther than the target itself
+    assert near[0].distance_mm is not None
+    assert near[0].distance_mm <= reference_mm + FCL_TOLERANCE_MM
+    # the target check warns at the same point with the same threshold
+    assert findings(report, "press-load", "clearance")
+    assert path.thresholds == report.thresholds
+    assert path.clearance_warning_mm == report.thresholds.clearance_mm

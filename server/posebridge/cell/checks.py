@@ -552,11 +552,12 @@ def check_targets(scene: Scene, thresholds: QualityThresholds | None = None) -> 
     ----------
     scene : Scene
     thresholds : QualityThresholds, optional
-        Warning thresholds and score references; the documented defaults if omitted.
+        Warning thresholds and score references; the cell's own (``scene.cell.thresholds``)
+        if omitted.
 
     Returns
     -------
     TargetCheckReport
         Boundary units (mm, deg).
     """
-    return _Checker(scene, QualityThresholds() if thresholds is None else thresholds).run()
+    return _Checker(scene, scene.cell.thresholds if thresholds is None else thresholds).run()

@@ -202,6 +202,7 @@ def diagnose_pose(
         Joint values, rad or m (convert user input with
         :func:`posebridge.units.joints_si_from_user`).
     thresholds : QualityThresholds, optional
+        The cell's own (``scene.cell.thresholds``) if omitted.
 
     Returns
     -------
@@ -773,6 +774,7 @@ def diagnose_log(
         From :func:`posebridge.cell.joint_log.read_joint_log`; its joints
         must be the scene robot's.
     thresholds : QualityThresholds, optional
+        The cell's own (``scene.cell.thresholds``) if omitted.
     include_rows : bool, keyword-only
         Add the per-row values (:class:`~posebridge.cell.reports.LogRows`).
 
@@ -781,6 +783,6 @@ def diagnose_log(
     LogDiagnosis
         Boundary units (mm, deg).
     """
-    return _LogDiagnoser(scene, log, QualityThresholds() if thresholds is None else thresholds).run(
-        include_rows
-    )
+    return _LogDiagnoser(
+        scene, log, scene.cell.thresholds if thresholds is None else thresholds
+    ).run(include_rows)

@@ -49,6 +49,7 @@ from posebridge.cell.model import (
     json_type_name,
     validate_cell,
 )
+from posebridge.cell.reports import QualityThresholds
 from posebridge.messages import printable
 
 __all__ = [
@@ -357,7 +358,14 @@ def load_cell(path: str | Path) -> Cell:
 
 
 def _plain_data(cell: Cell) -> dict[str, Any]:
-    return cell.model_dump(mode="json", exclude_none=True)
+    """The cell as JSON data; thresholds left out while they are all the defaults, so a
+    saved file follows later defaults unless the user set its own."""
+    data = cell.model_dump(mode="json", exclude_none=True)
+    if cell.thresholds == QualityThresholds():
+        del data["thresholds"]
+    else:
+        data["thresholds"] = cell.thresholds.model_dump(mode="json", exclude_defaults=True)
+    return data
 
 
 # An indented array holding only numbers. JSON strings cannot hold a raw line

@@ -43,6 +43,8 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from posebridge.cell.reports import QualityThresholds
+
 __all__ = [
     "CELL_SCHEMA_VERSION",
     "MAX_ANGLE_DEG",
@@ -437,6 +439,11 @@ class Cell(_Model):
     keep_outs: Annotated[list[KeepOutZone], Field(max_length=MAX_KEEP_OUTS)] = []
     targets: Annotated[list[Target], Field(max_length=MAX_TARGETS)] = []
     paths: Annotated[list[MotionPath], Field(max_length=MAX_PATHS)] = []
+    thresholds: QualityThresholds = Field(
+        default_factory=QualityThresholds,
+        description="Warning thresholds of every check of this cell (target check, diagnosis, "
+        "path check, plan, report, page); omitted fields take the documented defaults.",
+    )
     notes: Annotated[str, Field(strict=True, max_length=MAX_NOTES_CHARS)] = ""
 
     @model_validator(mode="after")

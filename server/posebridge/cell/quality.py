@@ -227,13 +227,13 @@ def evaluate_configurations(
     q : array-like, shape (N, n)
         Joint values, rad or m.
     thresholds : QualityThresholds, optional
-        Defaults of :class:`~posebridge.cell.reports.QualityThresholds`.
+        The cell's own (``scene.cell.thresholds``) if omitted.
 
     Returns
     -------
     ConfigurationQuality
     """
-    thresholds = QualityThresholds() if thresholds is None else thresholds
+    thresholds = scene.cell.thresholds if thresholds is None else thresholds
     robot = scene.robot
     q = check_configurations(robot, q)
     T_base_tool = fk_tool(robot, q, scene.T_flange_tool)

@@ -75,7 +75,7 @@ class _Result(BaseModel):
 
 # The warning thresholds and score references of the checks (parameters and part of every result).
 class QualityThresholds(_Result):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
 
     # common practice, no source
     limit_margin_deg: float = Field(

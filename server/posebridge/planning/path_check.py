@@ -10,8 +10,9 @@ All reached samples of all segments are then checked in batches:
   linear move is an error (a joint move may change branch freely);
 * **singularity proximity**: wrist, elbow and shoulder distances of
   :func:`posebridge.kinematics.singularity.classify_singularity` below
-  their thresholds (a warning on linear moves, where the joint speeds grow
-  without bound near a singularity; information on joint moves);
+  the cell's thresholds (a warning on linear moves, where the joint speeds
+  grow without bound near a singularity, and wherever the arm stops near one,
+  at a waypoint, as the target check warns; information inside joint moves);
 * **joint-limit margins** below ``limit_margin_deg`` (``limit_margin_mm`` for
   prismatic joints) are warnings, values outside the limits errors;
 * **joint speed demand** of linear moves: where the requested TCP speed is
@@ -21,7 +22,12 @@ All reached samples of all segments are then checked in batches:
 * **clearance** of every sample to the cell
   (:func:`posebridge.cell.clearance.clearance_to_cell`, exact capsule
   distances, one batch for the whole path): below ``collision_threshold_mm``
-  an error naming the pair, below ``clearance_warning_mm`` a warning.
+  an error naming the pair, below ``clearance_mm`` a warning.
+
+The thresholds are the cell's (``Cell.thresholds``,
+:class:`~posebridge.cell.reports.QualityThresholds`), the one set every
+check of the cell uses, so a point the target check warns about is a
+warning here too.
 
 Every finding names its segment (index, from and to waypoint) and the
 stretch along it where the condition holds (consecutive samples form one
@@ -37,6 +43,8 @@ from dataclasses import dataclass
 import numpy as np
 
 from posebridge.cell.clearance import CellClearance, clearance_to_cell
+from posebridge.cell.quality import margin_thresholds, singularity_thresholds
+from posebridge.cell.reports import QualityThresholds
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.kinematics.metrics import limit_margins
@@ -51,7 +59,7 @@ from posebridge.planning.cycle_time import (
     path_cycle_time,
     path_derivative,
 )
-from posebridge.planning.errors import PlanningInputError, check_non_negative
+from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_sampling import SampledPath, SegmentSamples, sample_path
 from posebridge.planning.reports import (
     FindingKind,
@@ -70,7 +78,6 @@ from posebridge.units import (
     joints_user_from_si,
     m_from_mm,
     mm_from_m,
-    rad_from_deg,
 )
 
 __all__ = ["check_path", "check_sampled_path"]
@@ -184,7 +191,7 @@ def _singularity_findings(
 ) -> None:
     if singular is None:
         return
-    severity: Severity = "warning" if segment.motion == "linear" else "info"
+    last = segment.q.shape[0] - 1
     kinds = (
         ("wrist", "near_wrist", "wrist_rad", True),
         ("elbow", "near_elbow", "elbow_rad", True),
@@ -198,6 +205,9 @@ def _singularity_findings(
         value[reached] = getattr(singular, field)[rows]
         for a, b in _runs(mask):
             worst = a + int(np.argmin(value[a:b]))
+            # the arm stops at a waypoint: the same level as the target check there
+            stops = a == 0 or b - 1 == last
+            severity: Severity = "warning" if segment.motion == "linear" or stops else "info"
             if angle:
                 size = float(deg_from_rad(value[worst]))
                 out.add(
@@ -397,35 +407,26 @@ def check_sampled_path(
     scene: Scene,
     sampled: SampledPath,
     *,
-    limit_margin_deg: float = 5.0,
-    limit_margin_mm: float = 10.0,
-    clearance_warning_mm: float = 20.0,
+    thresholds: QualityThresholds | None = None,
     collision_threshold_mm: float = 0.0,
-    singularity: SingularityThresholds | None = None,
     linear_acceleration_mm_s2: float = float(mm_from_m(DEFAULT_LINEAR_ACCELERATION_M_S2)),
     joint_jerk_deg_s3: list[float] | None = None,
     linear_jerk_mm_s3: float | None = None,
 ) -> PathCheckReport:
     """Check an already sampled path; parameters as :func:`check_path`."""
     robot = scene.robot
-    for name, value in (
-        ("limit_margin_deg", limit_margin_deg),
-        ("limit_margin_mm", limit_margin_mm),
-        ("clearance_warning_mm", clearance_warning_mm),
-    ):
-        check_non_negative(name, value)
+    thresholds = scene.cell.thresholds if thresholds is None else thresholds
+    clearance_warning_mm = thresholds.clearance_mm
     if not math.isfinite(collision_threshold_mm) or collision_threshold_mm > clearance_warning_mm:
         raise PlanningInputError(
-            "collision_threshold_mm: expected a finite number not above clearance_warning_mm, "
-            f"got {collision_threshold_mm!r}"
+            "collision_threshold_mm: expected a finite number not above the clearance "
+            f"threshold ({clearance_warning_mm:g} mm), got {collision_threshold_mm!r}"
         )
     limits = _Thresholds(
-        limit_margin=np.where(
-            robot.prismatic, m_from_mm(limit_margin_mm), rad_from_deg(limit_margin_deg)
-        ),
+        limit_margin=margin_thresholds(robot, thresholds),
         clearance_warning=float(m_from_mm(clearance_warning_mm)),
         collision=float(m_from_mm(collision_threshold_mm)),
-        singularity=SingularityThresholds() if singularity is None else singularity,
+        singularity=singularity_thresholds(thresholds),
     )
     timing = path_cycle_time(
         robot,
@@ -508,7 +509,8 @@ def check_sampled_path(
         min_clearance_mm=_optional(float(mm_from_m(overall))),
         clearance_warning_mm=float(clearance_warning_mm),
         collision_threshold_mm=float(collision_threshold_mm),
-        limit_margin_deg=float(limit_margin_deg),
+        limit_margin_deg=float(thresholds.limit_margin_deg),
+        thresholds=thresholds,
     )
 
 
@@ -519,11 +521,8 @@ def check_path(
     resolution_mm: float = 5.0,
     resolution_deg: float = 1.0,
     jump_deg: float = 10.0,
-    limit_margin_deg: float = 5.0,
-    limit_margin_mm: float = 10.0,
-    clearance_warning_mm: float = 20.0,
+    thresholds: QualityThresholds | None = None,
     collision_threshold_mm: float = 0.0,
-    singularity: SingularityThresholds | None = None,
     linear_acceleration_mm_s2: float = float(mm_from_m(DEFAULT_LINEAR_ACCELERATION_M_S2)),
     joint_jerk_deg_s3: list[float] | None = None,
     linear_jerk_mm_s3: float | None = None,
@@ -540,15 +539,13 @@ def check_path(
         largest joint travel between joint-move samples (mm for prismatic joints).
     jump_deg : float, keyword-only
         Joint step between two linear-move samples counted as a configuration jump.
-    limit_margin_deg, limit_margin_mm : float, keyword-only
-        Joint-limit margins below which a warning is given.
-    clearance_warning_mm : float, keyword-only
-        Clearance below which a warning is given (common practice, no source).
+    thresholds : QualityThresholds, optional, keyword-only
+        Limit margins, clearance and singularity distances below which a
+        finding is given; the cell's own (``scene.cell.thresholds``, the same
+        set the target check and the diagnosis use) if omitted.
     collision_threshold_mm : float, keyword-only
-        Clearance below which a sample is a collision (0: contact or penetration).
-    singularity : SingularityThresholds, optional, keyword-only
-        Distances that count as near a singularity (defaults: wrist 10 deg,
-        elbow 5 deg, shoulder 50 mm).
+        Clearance below which a sample is a collision (0: contact or penetration);
+        not above ``thresholds.clearance_mm``.
     linear_acceleration_mm_s2 : float, keyword-only
         Cartesian path acceleration of linear moves.
     joint_jerk_deg_s3 : list of float, optional, keyword-only
@@ -566,11 +563,8 @@ def check_path(
     return check_sampled_path(
         scene,
         sampled,
-        limit_margin_deg=limit_margin_deg,
-        limit_margin_mm=limit_margin_mm,
-        clearance_warning_mm=clearance_warning_mm,
+        thresholds=thresholds,
         collision_threshold_mm=collision_threshold_mm,
-        singularity=singularity,
         linear_acceleration_mm_s2=linear_acceleration_mm_s2,
         joint_jerk_deg_s3=joint_jerk_deg_s3,
         linear_jerk_mm_s3=linear_jerk_mm_s3,

@@ -25,6 +25,8 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from posebridge.cell.reports import QualityThresholds
+
 __all__ = [
     "FindingKind",
     "JointPlanReport",
@@ -173,9 +175,12 @@ class PathCheckReport(_Report):
     jerk_limited: bool
     blend_note: str
     min_clearance_mm: float | None
-    clearance_warning_mm: float
+    clearance_warning_mm: float = Field(description="thresholds.clearance_mm, kept for readers.")
     collision_threshold_mm: float
-    limit_margin_deg: float
+    limit_margin_deg: float = Field(description="thresholds.limit_margin_deg, kept for readers.")
+    thresholds: QualityThresholds = Field(
+        description="The cell's thresholds this check used (the same set as the target check)."
+    )
 
 
 # --- joint-move planning ------------------------------------------------------------------
