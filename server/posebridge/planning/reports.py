@@ -209,7 +209,16 @@ class JointPlanReport(_Report):
         description="Smallest clearance along the result, from an exact dense re-check."
     )
     straight_move_obstacle: str | None = Field(
-        default=None, description="What the straight joint move hits first, if it collides."
+        default=None,
+        description="What the straight joint move comes closest to inside the safety margin "
+        "(its worst point), if it collides; for a refused start or goal, what that is too close to.",
+    )
+    straight_move_worst_mm: float | None = Field(
+        default=None,
+        description="Signed clearance at that worst point (negative: penetration depth).",
+    )
+    straight_move_worst_fraction: float | None = Field(
+        default=None, description="Where the worst point is: fraction of the straight move, 0..1."
     )
     check: PathCheckReport | None = Field(
         default=None, description="The result re-checked as joint moves at 100 % speed."
