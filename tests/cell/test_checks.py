@@ -435,3 +435,25 @@ def test_path_check_warns_where_the_target_check_warns(report, demo_scene, fcl_c
     assert findings(report, "press-load", "clearance")
     assert path.thresholds == report.thresholds
     assert path.clearance_warning_mm == report.thresholds.clearance_mm
+
+
+def test_environment_and_self_clearance_are_reported_apart(report, demo_scene, fcl_cell) -> None:
+    check = target(report, "press-load")
+    best = check.target.branches[check.target.recommended]
+    # our own contract: each figure is its own pair's distance, the overall one their minimum
+    assert best.environment_clearance_mm == best.closest_environment.distance_mm
+    assert best.self_clearance_mm == best.closest_self.distance_mm
+    assert best.clearance_mm == min(best.environment_clearance_mm, best.self_clearance_mm)
+    text = render_target_check(report)
+    row = next(line for line in text.splitlines() if line.startswith("press-load "))
+    assert "press-die" in row and best.closest_self.other in row
+    index = [p.name for p in demo_scene.paths].index("load-press")
+    path = check_path(demo_scene, index)
+    sampled = sample_path(demo_scene, index)
+    reached = np.concatenate([s.q[s.reachable] for s in sampled.segments])
+    reference = min(min(fcl_cell.obstacle_distances(q).values()) for q in reached)
+    # python-fcl (reference library) on the same samples: the smallest clearance to the cell
+    assert path.environment_clearance_mm == pytest.approx(reference * 1000.0, abs=FCL_TOLERANCE_MM)
+    assert path.closest_environment is not None and "press-die" in path.closest_environment
+    assert path.self_clearance_mm is not None and path.closest_self is not None
+    assert path.min_clearance_mm == min(path.environment_clearance_mm, path.self_clearance_mm)

@@ -19,6 +19,7 @@ single **worst row** follows :data:`WORST_ROW_RULE`.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 
 import numpy as np
@@ -190,6 +191,12 @@ def _single(scene: Scene, q: npt.ArrayLike) -> FloatArray:
     return check_configurations(scene.robot, array)
 
 
+def _finite_mm(distance_m: float) -> float | None:
+    """A distance in mm, None where nothing was checked (infinite)."""
+    value = float(mm_from_m(distance_m))
+    return value if math.isfinite(value) else None
+
+
 def diagnose_pose(
     scene: Scene, q: npt.ArrayLike, thresholds: QualityThresholds | None = None
 ) -> PoseDiagnosis:
@@ -270,6 +277,8 @@ def diagnose_pose(
         manipulability=float(quality.manipulability[0]),
         singularity=singularity_model(quality, 0),
         clearance_mm=clearance if np.isfinite(clearance) else None,
+        environment_clearance_mm=_finite_mm(quality.environment.distance[0]),
+        self_clearance_mm=_finite_mm(quality.self_clearance.distance[0]),
         collision_free=bool(quality.collision_free[0]),
         closest=closest_pair_model(_overall_pair(quality, 0), 0),
         closest_environment=closest_pair_model(quality.environment, 0),
@@ -694,6 +703,8 @@ class _LogDiagnoser:
             shoulder_mm=None if report is None else mm_from_m(report.shoulder_m).tolist(),
             clearance_mm=[None if not np.isfinite(v) else v for v in clearance.tolist()],
             closest=closest.tolist(),
+            environment_clearance_mm=[_finite_mm(v) for v in quality.environment.distance.tolist()],
+            self_clearance_mm=[_finite_mm(v) for v in quality.self_clearance.distance.tolist()],
         )
 
     @staticmethod

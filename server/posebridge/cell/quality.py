@@ -469,6 +469,8 @@ def branch_report(
         manipulability=float(quality.manipulability[k]),
         singularity=singularity_model(quality, k),
         clearance_mm=_finite_or_none(float(mm_from_m(quality.clearance[k]))),
+        environment_clearance_mm=_finite_or_none(float(mm_from_m(quality.environment.distance[k]))),
+        self_clearance_mm=_finite_or_none(float(mm_from_m(quality.self_clearance.distance[k]))),
         collision_free=free,
         closest_environment=closest_pair_model(quality.environment, k),
         closest_self=closest_pair_model(quality.self_clearance, k),

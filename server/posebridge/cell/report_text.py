@@ -56,11 +56,9 @@ def _singularity(proximity: SingularityProximity | None) -> str:
     return distances if proximity.kind == "none" else f"NEAR {proximity.kind.upper()}: {distances}"
 
 
-def _closest(branch: BranchReport) -> str:
-    pairs = [p for p in (branch.closest_environment, branch.closest_self) if p is not None]
-    if not pairs:
-        return "-"
-    return _pair(min(pairs, key=lambda p: p.distance_mm))
+def _clearance(pair: ClosestPair | None) -> str:
+    """``12.3 mm (gripper – press-die)``, or ``-`` where nothing was checked."""
+    return "-" if pair is None else f"{pair.distance_mm:.1f} mm ({_pair(pair)})"
 
 
 def _findings(findings: Sequence[Finding]) -> str:
@@ -84,14 +82,23 @@ def _branches_table(branches: Sequence[BranchReport], marked: int | None, mark: 
             "yes" if b.within_limits else "no",
             _number(b.min_margin, b.min_margin_unit or "")
             + (f" ({b.min_margin_joint})" if b.min_margin_joint else ""),
-            _number(b.clearance_mm, "mm"),
-            _closest(b),
+            _clearance(b.closest_environment),
+            _clearance(b.closest_self),
             _singularity(b.singularity),
         ]
         for i, b in enumerate(branches)
     ]
     return table(
-        ["", "branch", "joints", "in limits", "min margin", "clearance", "closest", "singularity"],
+        [
+            "",
+            "branch",
+            "joints",
+            "in limits",
+            "min margin",
+            "environment clearance",
+            "self-clearance",
+            "singularity",
+        ],
         rows,
     )
 
@@ -108,8 +115,8 @@ def render_target_check(report: TargetCheckReport) -> str:
                 "yes" if target.reachable else "NO",
                 pose.recommended_branch or pose.reason,
                 "-" if best is None else _number(best.min_margin, best.min_margin_unit or ""),
-                "-" if best is None else _number(best.clearance_mm, "mm"),
-                "-" if best is None else _closest(best),
+                "-" if best is None else _clearance(best.closest_environment),
+                "-" if best is None else _clearance(best.closest_self),
                 "-" if best is None else _singularity(best.singularity),
             ]
         )
@@ -135,8 +142,8 @@ def render_target_check(report: TargetCheckReport) -> str:
                     "reachable",
                     "recommended branch (or why not)",
                     "min margin",
-                    "clearance",
-                    "closest",
+                    "environment clearance",
+                    "self-clearance",
                     "singularity",
                 ],
                 rows,
@@ -174,7 +181,8 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
             f"branch:            {d.branch}",
             f"manipulability:    {d.manipulability:.4g}",
             f"singularity:       {_singularity(d.singularity)}",
-            f"clearance:         {_number(d.clearance_mm, 'mm')} ({_pair(d.closest)})",
+            f"environment:       {_clearance(d.closest_environment)}",
+            f"self-clearance:    {_clearance(d.closest_self)}",
         ]
     )
     margins = table(

@@ -193,6 +193,14 @@ class BranchReport(_Result):
     clearance_mm: float | None = Field(
         description="Smallest of the two below; null: nothing checked."
     )
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Clearance to the cell (closest_environment); null: none checked."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None,
+        description="Clearance between the arm's own parts (closest_self; pairs whose distance "
+        "no joint motion changes are left out); null: none checked.",
+    )
     collision_free: bool
     closest_environment: ClosestPair | None = Field(description="Closest obstacle of the cell.")
     closest_self: ClosestPair | None = Field(description="Closest pair of the arm's own capsules.")
@@ -323,6 +331,12 @@ class PoseDiagnosis(_Result):
     manipulability: float = Field(description=_MANIPULABILITY)
     singularity: SingularityProximity | None
     clearance_mm: float | None
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Clearance to the cell (closest_environment)."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Clearance between the arm's own parts (closest_self)."
+    )
     collision_free: bool
     closest: ClosestPair | None = Field(description="Closest pair overall (cell or self).")
     closest_environment: ClosestPair | None
@@ -436,6 +450,12 @@ class LogRows(_Result):
     shoulder_mm: list[float] | None
     clearance_mm: list[float | None]
     closest: list[str] = Field(description="Closest pair as 'capsule – other'.")
+    environment_clearance_mm: list[float | None] = Field(
+        default=[], description="Per row, clearance to the cell."
+    )
+    self_clearance_mm: list[float | None] = Field(
+        default=[], description="Per row, clearance between the arm's own parts."
+    )
 
 
 # Diagnosis of a controller joint log in the cell.

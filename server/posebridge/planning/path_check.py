@@ -19,10 +19,12 @@ All reached samples of all segments are then checked in batches:
   above the highest speed the joint velocity limits allow (``dq/ds``,
   :func:`posebridge.planning.time_scaling.path_speed_limit`), a warning
   naming the limiting joint and that speed;
-* **clearance** of every sample to the cell
-  (:func:`posebridge.cell.clearance.clearance_to_cell`, exact capsule
-  distances, one batch for the whole path): below ``collision_threshold_mm``
-  an error naming the pair, below ``clearance_mm`` a warning.
+* **clearance** of every sample to the cell and between the arm's own parts,
+  each on its own (:func:`posebridge.cell.clearance.clearance_to_cell` with
+  scope ``environment`` and ``self``, exact capsule distances, one batch each
+  for the whole path), so a close self pair never hides an obstacle: below
+  ``collision_threshold_mm`` an error naming the pair, below
+  ``clearance_mm`` a warning.
 
 The thresholds are the cell's (``Cell.thresholds``,
 :class:`~posebridge.cell.reports.QualityThresholds`), the one set every
@@ -100,6 +102,19 @@ def _runs(mask: BoolArray) -> list[tuple[int, int]]:
 
 def _optional(value: float) -> float | None:
     return float(value) if math.isfinite(value) else None
+
+
+def _smallest(distance: FloatArray) -> float:
+    """Smallest value, NaN for none (no sample reached)."""
+    return float(distance.min()) if distance.size else math.nan
+
+
+def _closest_words(clearance: CellClearance) -> str | None:
+    """The pair at the smallest clearance as ``capsule – other``; None when none was checked."""
+    if not clearance.distance.size or not np.isfinite(clearance.distance.min()):
+        return None
+    capsule, other, _ = clearance.pair(int(np.argmin(clearance.distance)))
+    return f"{capsule} – {other}"
 
 
 class _SegmentFindings:
@@ -333,6 +348,8 @@ def _segment_report(
     segment: SegmentSamples,
     timing: SegmentTiming,
     min_clearance: float,
+    environment_clearance: float,
+    self_clearance: float,
 ) -> SegmentReport:
     path = sampled.path
     w = segment.index + 1
@@ -375,6 +392,8 @@ def _segment_report(
         acceleration_capped=timing.acceleration_capped,
         blend_mm=float(mm_from_m(path.blend_radius[w])),
         min_clearance_mm=_optional(float(mm_from_m(min_clearance))),
+        environment_clearance_mm=_optional(float(mm_from_m(environment_clearance))),
+        self_clearance_mm=_optional(float(mm_from_m(self_clearance))),
     )
 
 
@@ -448,7 +467,9 @@ def check_sampled_path(
             singular = classify_singularity(robot, all_q, limits.singularity)
         except KinematicsInputError:
             singular = None  # not a six- or seven-axis arm: no singularity classes
-    clearance = clearance_to_cell(scene, all_q)
+    environment = clearance_to_cell(scene, all_q, scope="environment")
+    own = clearance_to_cell(scene, all_q, scope="self")
+    distance = np.minimum(environment.distance, own.distance)
     findings = _waypoint_findings(sampled)
     segments = []
     start = 0
@@ -463,11 +484,20 @@ def check_sampled_path(
             _singularity_findings(out, segment, rows, singular)
             _limit_findings(out, segment, margins[rows], limits.limit_margin)
             _speed_findings(out, segment, segment_timing)
-            _clearance_findings(out, segment, clearance, rows, limits)
+            _clearance_findings(out, segment, environment, rows, limits)
+            _clearance_findings(out, segment, own, rows, limits)
         findings.extend(out.findings)
-        segment_clearance = clearance.distance[rows]
-        min_clearance = float(segment_clearance.min()) if segment_clearance.size else math.nan
-        segments.append(_segment_report(scene, sampled, segment, segment_timing, min_clearance))
+        segments.append(
+            _segment_report(
+                scene,
+                sampled,
+                segment,
+                segment_timing,
+                _smallest(distance[rows]),
+                _smallest(environment.distance[rows]),
+                _smallest(own.distance[rows]),
+            )
+        )
     path = sampled.path
     errors = sum(f.severity == "error" for f in findings)
     warnings = sum(f.severity == "warning" for f in findings)
@@ -488,7 +518,6 @@ def check_sampled_path(
         )
         for w in range(len(names))
     ]
-    overall = float(clearance.distance.min()) if clearance.distance.size else math.nan
     return PathCheckReport(
         path=path.name,
         robot=robot.name,
@@ -506,7 +535,11 @@ def check_sampled_path(
         linear_acceleration_mm_s2=float(mm_from_m(timing.linear_acceleration)),
         jerk_limited=timing.jerk_limited,
         blend_note=timing.note,
-        min_clearance_mm=_optional(float(mm_from_m(overall))),
+        min_clearance_mm=_optional(float(mm_from_m(_smallest(distance)))),
+        environment_clearance_mm=_optional(float(mm_from_m(_smallest(environment.distance)))),
+        self_clearance_mm=_optional(float(mm_from_m(_smallest(own.distance)))),
+        closest_environment=_closest_words(environment),
+        closest_self=_closest_words(own),
         clearance_warning_mm=float(clearance_warning_mm),
         collision_threshold_mm=float(collision_threshold_mm),
         limit_margin_deg=float(thresholds.limit_margin_deg),

@@ -151,6 +151,12 @@ class SegmentReport(_Report):
         description="Blend radius of the end waypoint (not applied to the time)."
     )
     min_clearance_mm: float | None = Field(description="Smallest clearance over the samples.")
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance to the cell over the samples."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance between the arm's own parts."
+    )
 
 
 class PathCheckReport(_Report):
@@ -175,6 +181,18 @@ class PathCheckReport(_Report):
     jerk_limited: bool
     blend_note: str
     min_clearance_mm: float | None
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance to the cell over every sample."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance between the arm's own parts."
+    )
+    closest_environment: str | None = Field(
+        default=None, description="The pair at environment_clearance_mm, 'capsule – obstacle'."
+    )
+    closest_self: str | None = Field(
+        default=None, description="The pair at self_clearance_mm, 'capsule – capsule'."
+    )
     clearance_warning_mm: float = Field(description="thresholds.clearance_mm, kept for readers.")
     collision_threshold_mm: float
     limit_margin_deg: float = Field(description="thresholds.limit_margin_deg, kept for readers.")
@@ -307,6 +325,10 @@ def render_path_check(report: PathCheckReport) -> str:
         f"Path {report.path!r} ({report.robot}, tool {report.tool}): {verdict}, "
         f"{report.errors} errors, {report.warnings} warnings",
         f"Cycle time: {_number(report.cycle_time_s, 2)} s ({report.blend_note})",
+        f"Environment clearance: {_number(report.environment_clearance_mm)} mm"
+        + (f" ({report.closest_environment})" if report.closest_environment else ""),
+        f"Self-clearance: {_number(report.self_clearance_mm)} mm"
+        + (f" ({report.closest_self})" if report.closest_self else ""),
         "",
     ]
     rows = [
@@ -314,20 +336,35 @@ def render_path_check(report: PathCheckReport) -> str:
             str(s.index),
             s.motion,
             f"{s.from_waypoint} -> {s.to_waypoint}",
-            _number(s.length_mm) if s.motion == "linear" else _number(s.joint_travel_deg) + " deg",
+            (
+                _number(s.length_mm) + " mm"
+                if s.motion == "linear"
+                else _number(s.joint_travel_deg) + " deg joint travel"
+            ),
             _number(s.duration_s, 3),
             (
-                f"{_number(s.speed_used_mm_s, 0)}/{_number(s.speed_requested_mm_s, 0)}"
+                f"{_number(s.speed_used_mm_s, 0)}/{_number(s.speed_requested_mm_s, 0)} mm/s"
                 + (" capped" if s.speed_capped else "")
                 if s.motion == "linear"
                 else f"{_number(s.speed_percent, 0)} %"
             ),
-            _number(s.min_clearance_mm),
+            _number(s.environment_clearance_mm),
+            _number(s.self_clearance_mm),
         ]
         for s in report.segments
     ]
     lines += _table(
-        ["seg", "motion", "from -> to", "length mm", "time s", "speed mm/s", "clearance mm"], rows
+        [
+            "seg",
+            "motion",
+            "from -> to",
+            "length",
+            "time s",
+            "speed",
+            "environment clearance mm",
+            "self-clearance mm",
+        ],
+        rows,
     )
     if report.findings:
         lines += ["", "Findings:"]
