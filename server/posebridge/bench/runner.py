@@ -6,6 +6,7 @@ library not installed) is replaced by ``<key>_missing`` holding the reason.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from typing import NamedTuple
 
@@ -22,7 +23,7 @@ from posebridge.bench.placement import bench_placement
 from posebridge.bench.review_load import bench_review_load
 from posebridge.bench.sequence import bench_sequence
 
-__all__ = ["BENCHMARKS", "run_benchmarks"]
+__all__ = ["BENCHMARKS", "run_benchmarks", "with_missing_reasons"]
 
 
 class Benchmark(NamedTuple):
@@ -49,10 +50,25 @@ BENCHMARKS: tuple[Benchmark, ...] = (
 def run_benchmarks(
     *, quick: bool, progress: Callable[[str], None] | None = None
 ) -> dict[str, float | str]:
-    """Run every benchmark in order; ``progress(name)`` is called before each."""
+    """Run every benchmark in order; ``progress(name)`` is called before each.
+
+    A figure that came out NaN or infinite (nothing measured) is replaced by
+    ``<key>_missing`` saying so, so no figure is a bare ``null``.
+    """
     figures: dict[str, float | str] = {}
     for benchmark in BENCHMARKS:
         if progress is not None:
             progress(benchmark.name)
         figures.update(benchmark.run(quick))
-    return figures
+    return with_missing_reasons(figures)
+
+
+def with_missing_reasons(figures: Mapping[str, float | str]) -> dict[str, float | str]:
+    """``figures`` with every non-finite number replaced by ``<key>_missing`` and a reason."""
+    out: dict[str, float | str] = {}
+    for key, value in figures.items():
+        if isinstance(value, str) or math.isfinite(value):
+            out[key] = value
+        else:
+            out[f"{key}_missing"] = f"not measured in this run (the benchmark gave {value})"
+    return out
