@@ -8,7 +8,6 @@ Exit codes: 0 success, 1 findings (an unreachable pose, a failed check),
 from __future__ import annotations
 
 import argparse
-import csv
 import json
 import math
 import os
@@ -35,7 +34,6 @@ SAFETY_CAUTION = (
     "assessment per ISO 10218-2, size safeguard distances per ISO 13855, verify every program on "
     "the real controller at reduced speed; local codes and qualified practice prevail."
 )
-MAX_CSV_ROWS = 1_000_000
 DEFAULT_CELL = "demo-cell.json"
 
 EXIT_OK = 0
@@ -96,60 +94,20 @@ def _joints_argument(text: str, option: str, robot: Robot) -> FloatArray:
     return joints_si_from_user(_parse_numbers(text, option, robot.dof), robot.prismatic)
 
 
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
-
-
 def _read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray:
-    """Rows of numbers, with an optional header naming ``columns`` in any order.
+    """Rows of numbers, with an optional header naming ``columns`` in any order, read as a
+    size-capped stream (:func:`posebridge.value_files.read_value_rows`).
 
     Returns
     -------
     values : array, shape (rows, len(columns)), in the order of ``columns``
     """
+    from posebridge.value_files import ValueFileError, read_value_rows
+
     try:
-        with open(path, newline="", encoding="utf-8") as handle:
-            rows = [row for row in csv.reader(handle) if row and any(cell.strip() for cell in row)]
-    except OSError as error:
-        raise InputError(f"{path}: cannot read: {error.strerror or error}") from error
-    except UnicodeDecodeError as error:
-        raise InputError(f"{path}: not UTF-8 text") from error
-    if not rows:
-        raise InputError(f"{path}: no rows")
-    if len(rows) > MAX_CSV_ROWS:
-        raise InputError(f"{path}: {len(rows)} rows; at most {MAX_CSV_ROWS} are accepted")
-    order = list(range(len(columns)))
-    first_line = 1
-    header = [cell.strip() for cell in rows[0]]
-    if not all(_is_number(cell) for cell in header):
-        missing = [c for c in columns if c not in header]
-        if missing:
-            raise InputError(
-                f"{path}:1: header lacks column(s) {', '.join(missing)}; expected {', '.join(columns)}"
-            )
-        order = [header.index(c) for c in columns]
-        rows = rows[1:]
-        first_line = 2
-    values = np.empty((len(rows), len(columns)))
-    width = len(header)
-    for r, row in enumerate(rows):
-        line = first_line + r
-        if len(row) != width:
-            raise InputError(f"{path}:{line}: expected {width} values, got {len(row)}")
-        for c, source in enumerate(order):
-            cell = row[source].strip()
-            try:
-                value = float(cell)
-            except ValueError:
-                raise InputError(f"{path}:{line}: {what} {cell!r} is not a number") from None
-            if not math.isfinite(value):
-                raise InputError(f"{path}:{line}: {what} {cell!r} is not a finite number")
-            values[r, c] = value
-    return values
+        return read_value_rows(path, columns, what)
+    except ValueFileError as error:
+        raise InputError(str(error)) from error
 
 
 def _print_json(data: Any) -> None:
