@@ -362,12 +362,22 @@ def _parse_grid(text: str) -> dict[str, FloatArray]:
 
 def _cmd_reach(args: argparse.Namespace) -> int:
     from posebridge.robot.library import load_robot
+    from posebridge.spaces.planar_boundary import planar_reach_summary
     from posebridge.spaces.workspace import reach_map
     from posebridge.units import m_from_mm, mm_from_m
 
     robot = load_robot(args.robot)
     if not 5.0 <= args.voxel_mm <= 1000.0:
         raise InputError(f"--voxel-mm: expected 5..1000, got {args.voxel_mm:g}")
+    planar = planar_reach_summary(robot)
+    if planar is not None:
+        planar = {"robot": args.robot, **planar}
+        if args.json:
+            _print_json(planar)
+        else:
+            for key, value in planar.items():
+                print(f"{key:<34} {value}")
+        return EXIT_OK
     with _executor(args) as executor:
         result = reach_map(
             robot,
