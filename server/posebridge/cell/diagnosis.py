@@ -275,6 +275,10 @@ def diagnose_pose(
         min_margin_joint=robot.joint_names[joint] if joint >= 0 else None,
         min_margin_fraction=float(margins.min_fraction[0]) if joint >= 0 else None,
         manipulability=float(quality.manipulability[0]),
+        position_manipulability=float(quality.manipulability[0]),
+        full_manipulability=(
+            None if quality.full_manipulability is None else float(quality.full_manipulability[0])
+        ),
         singularity=singularity_model(quality, 0),
         clearance_mm=clearance if np.isfinite(clearance) else None,
         environment_clearance_mm=_finite_mm(quality.environment.distance[0]),

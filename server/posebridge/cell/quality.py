@@ -49,9 +49,11 @@ from posebridge.kinematics.ik_types import JOINT_REVOLUTE, Int8Array, Int16Array
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
     LimitMargins,
+    characteristic_length_m,
     inverse_condition_number,
     jacobian_rows,
     limit_margins,
+    manipulability_scaled_full,
     manipulability_yoshikawa,
 )
 from posebridge.kinematics.singularity import (
@@ -130,7 +132,13 @@ class ConfigurationQuality:
         TCP pose in the robot base frame.
     margins : LimitMargins
     manipulability : array, shape (N,)
-        Yoshikawa manipulability of the translational Jacobian.
+        Yoshikawa manipulability of the translational Jacobian (position part
+        only: it does not fall at the wrist singularity).
+    full_manipulability : array, shape (N,), or None
+        :func:`~posebridge.kinematics.metrics.manipulability_scaled_full` of
+        the whole Jacobian, translational rows divided by the arm's
+        characteristic length; zero at every singularity. None for arms of
+        fewer than six joints (their full measure is always zero).
     inverse_condition : array, shape (N,)
         Inverse condition number of the translational Jacobian, in [0, 1].
     scheme : str
@@ -152,6 +160,7 @@ class ConfigurationQuality:
     T_base_tool: FloatArray
     margins: LimitMargins
     manipulability: FloatArray
+    full_manipulability: FloatArray | None
     inverse_condition: FloatArray
     scheme: str
     shoulder: Int8Array
@@ -237,7 +246,8 @@ def evaluate_configurations(
     robot = scene.robot
     q = check_configurations(robot, q)
     T_base_tool = fk_tool(robot, q, scene.T_flange_tool)
-    J = jacobian_rows(jacobian_base(robot, q, scene.T_flange_tool), "position")
+    J_full = jacobian_base(robot, q, scene.T_flange_tool)
+    J = jacobian_rows(J_full, "position")
     scheme = branch_geometry(robot).scheme
     shoulder, elbow, wrist = label_branches(robot, q)
     singularity = (
@@ -252,6 +262,11 @@ def evaluate_configurations(
         T_base_tool=T_base_tool,
         margins=limit_margins(robot, q),
         manipulability=manipulability_yoshikawa(J),
+        full_manipulability=(
+            manipulability_scaled_full(J_full, characteristic_length_m(robot, scene.T_flange_tool))
+            if robot.dof >= 6
+            else None
+        ),
         inverse_condition=inverse_condition_number(J),
         scheme=scheme,
         shoulder=shoulder,
@@ -467,6 +482,10 @@ def branch_report(
         min_margin_joint=robot.joint_names[joint] if has_limits else None,
         min_margin_fraction=float(margins.min_fraction[k]) if has_limits else None,
         manipulability=float(quality.manipulability[k]),
+        position_manipulability=float(quality.manipulability[k]),
+        full_manipulability=(
+            None if quality.full_manipulability is None else float(quality.full_manipulability[k])
+        ),
         singularity=singularity_model(quality, k),
         clearance_mm=_finite_or_none(float(mm_from_m(quality.clearance[k]))),
         environment_clearance_mm=_finite_or_none(float(mm_from_m(quality.environment.distance[k]))),

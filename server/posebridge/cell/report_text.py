@@ -179,7 +179,12 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
             + " ".join(f"{v:.2f}" for v in base.rpy_deg)
             + " deg",
             f"branch:            {d.branch}",
-            f"manipulability:    {d.manipulability:.4g}",
+            f"manipulability:    position {d.position_manipulability:.4g}"
+            + (
+                ""
+                if d.full_manipulability is None
+                else f", full (scaled, 0 at any singularity) {d.full_manipulability:.4g}"
+            ),
             f"singularity:       {_singularity(d.singularity)}",
             f"environment:       {_clearance(d.closest_environment)}",
             f"self-clearance:    {_clearance(d.closest_self)}",

@@ -64,8 +64,18 @@ PoseKind = Literal["target", "approach"]
 _RPY = "Roll, pitch, yaw in degrees about fixed X, Y, Z: R = Rz(yaw) Ry(pitch) Rx(roll)."
 _JOINTS = "Joint values: degrees for revolute joints, millimetres for prismatic joints."
 _MANIPULABILITY = (
-    "Yoshikawa manipulability sqrt(det(Jv Jv^T)) of the TCP's translational Jacobian in SI "
-    "units (m^k per rad^k, k = min(3, joints)); 0 at a singularity."
+    "Position manipulability: Yoshikawa's sqrt(det(Jv Jv^T)) of the TCP's translational "
+    "Jacobian only, in SI units (m^k per rad^k, k = min(3, joints)); 0 at a position "
+    "singularity, but not at the wrist singularity (see full_manipulability)."
+)
+
+
+_FULL_MANIPULABILITY = (
+    "Yoshikawa manipulability sqrt(det(J J^T)) of the whole 6-row TCP Jacobian with its "
+    "translational rows divided by the arm's characteristic length (the sum of its "
+    "joint-to-joint, flange and TCP distances), dimensionless: zero at every singularity, the "
+    "wrist singularity included (the position part alone is not). null for arms of fewer "
+    "than six joints."
 )
 
 
@@ -186,7 +196,11 @@ class BranchReport(_Result):
     min_margin_unit: str | None
     min_margin_joint: str | None
     min_margin_fraction: float | None
-    manipulability: float = Field(description=_MANIPULABILITY)
+    manipulability: float = Field(
+        description=_MANIPULABILITY + " The same as position_manipulability, kept for readers."
+    )
+    position_manipulability: float = Field(default=0.0, description=_MANIPULABILITY)
+    full_manipulability: float | None = Field(default=None, description=_FULL_MANIPULABILITY)
     singularity: SingularityProximity | None = Field(
         description="null for arms other than six- and seven-axis arms."
     )
@@ -328,7 +342,11 @@ class PoseDiagnosis(_Result):
     margins: list[JointMargin]
     min_margin_joint: str | None
     min_margin_fraction: float | None
-    manipulability: float = Field(description=_MANIPULABILITY)
+    manipulability: float = Field(
+        description=_MANIPULABILITY + " The same as position_manipulability, kept for readers."
+    )
+    position_manipulability: float = Field(default=0.0, description=_MANIPULABILITY)
+    full_manipulability: float | None = Field(default=None, description=_FULL_MANIPULABILITY)
     singularity: SingularityProximity | None
     clearance_mm: float | None
     environment_clearance_mm: float | None = Field(
