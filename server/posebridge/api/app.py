@@ -41,6 +41,7 @@ from posebridge.api.routes import (
 )
 from posebridge.api.schemas.kinematics import fk_result, ik_result
 from posebridge.api.settings import Settings, get_settings
+from posebridge.api.warmup import KernelWarmUp, WarmStep
 from posebridge.cell.checks import check_targets
 from posebridge.cell.model import CellFileError
 from posebridge.kinematics.fk import KinematicsInputError, fk_tool
@@ -61,17 +62,36 @@ def plotly_script_path() -> Path:
     return Path(str(files("plotly") / "package_data" / "plotly.min.js"))
 
 
-def _warm_up(cache: RobotCache, robot_spec: str, cells: CellStore) -> None:
-    """Run FK, IK, a tiny joint map and the target check once, so numba kernels are loaded
-    before the first request."""
-    for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
-        q = robot.home_configuration()[None, :]
-        fk_result(robot, q)
-        ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
-    snapshot = cells.read()
-    joint_map(snapshot.clearance, [0, 1], snapshot.scene.robot.home_configuration(), resolution=2)
-    if snapshot.scene.targets.names:
-        check_targets(snapshot.scene)
+def _warm_up_steps(cache: RobotCache, robot_spec: str, cells: CellStore) -> list[WarmStep]:
+    """FK and IK first (the page's first answers), then a tiny joint map and the target check,
+    so numba kernels are loaded before they are asked for."""
+
+    def kinematics(ik: bool) -> Callable[[], None]:
+        def run() -> None:
+            for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
+                q = robot.home_configuration()[None, :]
+                fk_result(robot, q)
+                if ik:
+                    ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
+
+        return run
+
+    def clearance() -> None:
+        snapshot = cells.read()
+        robot = snapshot.scene.robot
+        joint_map(snapshot.clearance, [0, 1], robot.home_configuration(), resolution=2)
+
+    def target_check() -> None:
+        snapshot = cells.read()
+        if snapshot.scene.targets.names:
+            check_targets(snapshot.scene)
+
+    return [
+        WarmStep("forward kinematics", kinematics(ik=False)),
+        WarmStep("inverse kinematics", kinematics(ik=True)),
+        WarmStep("clearance and joint maps", clearance),
+        WarmStep("target check", target_check),
+    ]
 
 
 _ROBOT_FILE_PATTERN = r"(?i)\.(toml|urdf)/*$"
@@ -148,7 +168,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:
         if settings.warm_up:
-            _warm_up(robot_cache, settings.robot, app.state.cells)
+            warm = KernelWarmUp(_warm_up_steps(robot_cache, settings.robot, app.state.cells))
+            app.state.warmup = warm
+            warm.run_first()  # the page's first needs, before the address answers
+            warm.start_rest()  # the rest behind, reported by GET /api/health
         yield
         app.state.jobs.close()
         app.state.reviewer_lane.close()
@@ -169,6 +192,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.state.robots = robot_cache
     app.state.cells = CellStore(settings.cell_path)
     app.state.reviewer_lane = ReviewerLane()
+    app.state.warmup = KernelWarmUp(())
+    app.state.warmup.run_first()  # nothing to load: ready
     app.state.jobs = JobManager(
         expected_errors=_JOB_INPUT_ERRORS, reviewer_pause=app.state.reviewer_lane.yield_to_owner
     )

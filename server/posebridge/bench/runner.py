@@ -12,6 +12,7 @@ from typing import NamedTuple
 
 from posebridge.bench.clearance import bench_clearance
 from posebridge.bench.drag import bench_drag
+from posebridge.bench.first_serve import bench_first_serve
 from posebridge.bench.ik_analytic import bench_ik_analytic
 from posebridge.bench.ik_numeric import bench_ik_numeric
 from posebridge.bench.ik_offset_wrist import bench_ik_offset_wrist
@@ -32,6 +33,7 @@ class Benchmark(NamedTuple):
 
 
 BENCHMARKS: tuple[Benchmark, ...] = (
+    Benchmark("first start with an empty kernel cache", bench_first_serve),
     Benchmark("forward kinematics and Jacobian", bench_kinematics),
     Benchmark("analytic inverse kinematics", bench_ik_analytic),
     Benchmark("numerical inverse kinematics", bench_ik_numeric),
