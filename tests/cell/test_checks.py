@@ -457,3 +457,17 @@ def test_environment_and_self_clearance_are_reported_apart(report, demo_scene, f
     assert path.closest_environment is not None and "press-die" in path.closest_environment
     assert path.self_clearance_mm is not None and path.closest_self is not None
     assert path.min_clearance_mm == min(path.environment_clearance_mm, path.self_clearance_mm)
+
+
+def test_repeated_findings_are_grouped_by_cause(report) -> None:
+    pair = "gripper-body – press-die"
+    members = [f for f in report.findings if f.code == "clearance" and f.cause == pair]
+    # the demo notes: press-load and press-unload both sit about 20 mm above the press die
+    assert {f.target for f in members} >= {"press-load", "press-unload"}
+    (group,) = [g for g in report.finding_groups if g.code == "clearance" and g.cause == pair]
+    # our own contract: the group counts its members and keeps the one with the smallest value
+    assert group.count == len(members) >= 2
+    assert group.worst.value == min(f.value for f in members)
+    text = render_target_check(report)
+    assert f"{group.count} x clearance {pair}; worst" in text
+    assert text.count(f"x clearance {pair}") == 1

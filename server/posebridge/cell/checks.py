@@ -62,6 +62,7 @@ from posebridge.cell.reports import (
     QualityThresholds,
     TargetCheck,
     TargetCheckReport,
+    group_findings,
 )
 from posebridge.cell.scene import Scene
 from posebridge.kinematics.branches import branch_geometry, labels_match
@@ -471,6 +472,7 @@ class _Checker:
             targets=checks,
             consistent_branch=coverage,
             findings=findings,
+            finding_groups=group_findings(findings),
             reachable_count=sum(check.reachable for check in checks),
             error_count=sum(f.severity == "error" for f in findings),
             warning_count=sum(f.severity == "warning" for f in findings),

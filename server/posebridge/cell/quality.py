@@ -535,7 +535,15 @@ def quality_findings(
     t = quality.thresholds
     found: list[Finding] = []
 
-    def add(severity: str, code: str, message: str, value: float, unit: str, limit: float) -> None:
+    def add(
+        severity: str,
+        code: str,
+        message: str,
+        value: float,
+        unit: str,
+        limit: float,
+        cause: str | None = None,
+    ) -> None:
         found.append(
             Finding(
                 severity=severity,  # type: ignore[arg-type]  # error, warning or info
@@ -548,6 +556,7 @@ def quality_findings(
                 value=value,
                 unit=unit,
                 threshold=limit,
+                cause=cause,
             )
         )
 
@@ -565,6 +574,7 @@ def quality_findings(
                 margin.margin,
                 margin.unit,
                 0.0,
+                margin.joint,
             )
         elif margin.margin < limit:
             add(
@@ -576,6 +586,7 @@ def quality_findings(
                 margin.margin,
                 margin.unit,
                 limit,
+                margin.joint,
             )
     for pair in (
         closest_pair_model(quality.environment, k),
@@ -592,6 +603,7 @@ def quality_findings(
                 pair.distance_mm,
                 "mm",
                 0.0,
+                f"{pair.capsule} – {pair.other}",
             )
         elif pair.distance_mm < t.clearance_mm:
             add(
@@ -602,6 +614,7 @@ def quality_findings(
                 pair.distance_mm,
                 "mm",
                 t.clearance_mm,
+                f"{pair.capsule} – {pair.other}",
             )
     proximity = singularity_model(quality, k)
     if proximity is not None:

@@ -17,6 +17,7 @@ from posebridge.cell.reports import (
     PoseDiagnosis,
     SingularityProximity,
     TargetCheckReport,
+    group_findings,
 )
 
 __all__ = ["render_log_diagnosis", "render_pose_diagnosis", "render_target_check", "table"]
@@ -62,10 +63,31 @@ def _clearance(pair: ClosestPair | None) -> str:
 
 
 def _findings(findings: Sequence[Finding]) -> str:
+    """Findings one per line; findings of one severity, code and cause (an object pair, a
+    joint) that occur more than once are one line with their count and the worst one."""
     if not findings:
         return "Findings: none"
     lines = [f"Findings ({len(findings)}):"]
+    repeated = {
+        (g.severity, g.code, g.cause): g for g in group_findings(list(findings)) if g.count > 1
+    }
+    shown: set[tuple[str, str, str]] = set()
     for f in findings:
+        key = (f.severity, f.code, f.cause or "")
+        if f.cause is not None and key in repeated:
+            if key in shown:
+                continue
+            shown.add(key)
+            group = repeated[key]
+            worst = group.worst
+            where = " ".join(part for part in (worst.target, worst.pose) if part)
+            if worst.row is not None:
+                where = f"row {worst.row}"
+            lines.append(
+                f"  {f.severity.upper():<8} {group.count} x {f.code} {group.cause}; worst"
+                f"{' at ' + where if where else ''}: {worst.message}"
+            )
+            continue
         where = " ".join(part for part in (f.target, f.pose) if part)
         if f.row is not None:
             where = f"row {f.row}"

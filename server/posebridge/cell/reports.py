@@ -21,6 +21,7 @@ has no margin, an arm without capsules no clearance).
 
 from __future__ import annotations
 
+import math
 from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
@@ -33,6 +34,7 @@ __all__ = [
     "ClosestPair",
     "ConsistentBranch",
     "Finding",
+    "FindingGroup",
     "JointExtreme",
     "JointMargin",
     "LogDiagnosis",
@@ -52,6 +54,7 @@ __all__ = [
     "VelocityCheck",
     "VelocityJump",
     "WorstRow",
+    "group_findings",
 ]
 
 MAX_LISTED_EVENTS = 100
@@ -290,6 +293,40 @@ class Finding(_Result):
     value: float | None = None
     unit: str | None = None
     threshold: float | None = None
+    cause: str | None = Field(
+        default=None,
+        description="What the finding is about, for grouping: the pair ('gripper-body – "
+        "press-die') of a collision or clearance finding, the joint of a limit finding.",
+    )
+
+
+# Findings of one kind with one cause (e.g. one object pair), counted, with the worst one.
+class FindingGroup(_Result):
+    severity: Severity
+    code: str
+    cause: str
+    count: int = Field(description="How many findings share this severity, code and cause.")
+    worst: Finding = Field(description="The one with the smallest value (deepest, closest).")
+
+
+def group_findings(findings: list[Finding]) -> list[FindingGroup]:
+    """Findings with a cause grouped by (severity, code, cause), in first-seen order; the
+    worst of a group is its finding with the smallest value (deepest penetration, smallest
+    clearance or margin)."""
+    groups: dict[tuple[str, str, str], list[Finding]] = {}
+    for finding in findings:
+        if finding.cause is not None:
+            groups.setdefault((finding.severity, finding.code, finding.cause), []).append(finding)
+    return [
+        FindingGroup(
+            severity=members[0].severity,
+            code=code,
+            cause=cause,
+            count=len(members),
+            worst=min(members, key=lambda f: math.inf if f.value is None else f.value),
+        )
+        for (_, code, cause), members in groups.items()
+    ]
 
 
 # Target check of a whole cell.
@@ -304,6 +341,9 @@ class TargetCheckReport(_Result):
     targets: list[TargetCheck]
     consistent_branch: ConsistentBranch
     findings: list[Finding] = Field(description="Errors first, then warnings, then info.")
+    finding_groups: list[FindingGroup] = Field(
+        default=[], description="Findings of one cause (object pair, joint) counted, worst first."
+    )
     reachable_count: int
     error_count: int
     warning_count: int
