@@ -170,8 +170,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         if settings.warm_up:
             warm = KernelWarmUp(_warm_up_steps(robot_cache, settings.robot, app.state.cells))
             app.state.warmup = warm
-            warm.run_first()  # the page's first needs, before the address answers
-            warm.start_rest()  # the rest behind, reported by GET /api/health
+            warm.run_first()  # FIRST_STEPS before the address answers (none: warmup.py)
+            warm.start_rest()  # in the page's order, behind, reported by GET /api/health
         yield
         app.state.jobs.close()
         app.state.reviewer_lane.close()

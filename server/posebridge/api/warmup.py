@@ -2,10 +2,13 @@
 
 numba compiles a kernel on its first call after installation (minutes on a
 busy two-core machine, all kernels together) and loads it from its cache
-afterwards (about a second). The server runs the steps the page needs for its
-first answers (:data:`FIRST_STEPS`: forward and inverse kinematics) before it
-starts serving, then the others (clearance and joint maps, the target check)
-on a background thread, so the page's address answers early. Every step is
+afterwards (about a second). The server answers at once and loads the kernels
+on a background thread in the order the page needs them (forward and inverse
+kinematics, then clearance and joint maps, then the target check); a request
+that needs a kernel not yet loaded waits for it. :data:`FIRST_STEPS` steps may
+be run before serving instead; none are, because compiling even forward and
+inverse kinematics took 211 s on the busy two-core machine (load about 11),
+far beyond the 15 s the address should take. Every step is
 announced on stderr as it starts ("kernels 2/4: inverse kinematics"), also
 when stderr is not a terminal: one line per step. The state is read by
 ``GET /api/health`` (``kernels_ready``, ``kernels_done``, ``kernels_total``,
@@ -22,8 +25,8 @@ from typing import TextIO
 
 __all__ = ["FIRST_STEPS", "KernelWarmUp", "WarmStep"]
 
-FIRST_STEPS = 2
-"""How many of the steps run before the server answers (forward and inverse kinematics)."""
+FIRST_STEPS = 0
+"""How many of the steps run before the server answers (none: see the module docstring)."""
 
 
 @dataclass(frozen=True)
