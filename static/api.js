@@ -102,6 +102,7 @@ export function createApiClient({ baseUrl = "" } = {}) {
     startReachSection: (body) => request("/api/maps/reach-section", { method: "POST", body }),
     targetCheck: () => request("/api/cell/check"),
     pathCheck: (name) => request(`/api/cell/paths/${encodeURIComponent(name)}/check`),
+    armState: (body, { signal } = {}) => request("/api/cell/fk", { method: "POST", body, signal }),
     diagnosePose: (joints) => request("/api/cell/diagnose/pose", { method: "POST", body: { joints_deg: joints } }),
     diagnoseLog: (csv, source) => request("/api/cell/diagnose/log", { method: "POST", body: { csv, source } }),
     startPlacement: (body) => request("/api/placement", { method: "POST", body }),

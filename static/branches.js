@@ -27,6 +27,33 @@ export function followSolution({ solutions, branch, joints }) {
   );
 }
 
+/**
+ * The solution the arm follows the target onto, and a note when the choice is
+ * not the plain one. Never an out-of-limit solution while one within limits
+ * exists: the followed branch within limits first, else the nearest solution
+ * within limits on another branch (said in the note); only when no solution
+ * is within limits, the nearest one, also said.
+ * @returns {{solution: object|null, note: string}}
+ */
+export function chooseFollowed({ solutions, branch, joints }) {
+  const within = solutions.filter((s) => s.within_limits);
+  if (within.length === 0) {
+    const nearest = nearestSolution({ solutions, joints });
+    return { solution: nearest, note: nearest ? "no solution within the joint limits: the arm is shown beyond a limit" : "" };
+  }
+  if (branch === null) {
+    return { solution: nearestSolution({ solutions: within, joints }), note: "" };
+  }
+  const onFollowed = followSolution({ solutions: within, branch, joints });
+  if (onFollowed) {
+    return { solution: onFollowed, note: "" };
+  }
+  const other = nearestSolution({ solutions: within, joints });
+  const beyond = followSolution({ solutions, branch, joints });
+  const why = beyond ? "is beyond a joint limit here" : "does not reach the target";
+  return { solution: other, note: `branch "${branch.label}" ${why}: the arm follows on "${other.branch}" within limits` };
+}
+
 /** The solution nearest the current joints (used to find the arm's own branch). */
 export function nearestSolution({ solutions, joints }) {
   if (solutions.length === 0) {

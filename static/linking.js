@@ -6,8 +6,13 @@
 // tool, so every pose is a world pose.
 
 import { createLatestChannel, isRateLimited, retryDelayMs } from "./api.js";
-import { branchOf, followSolution, nearestSolution } from "./branches.js";
+import { branchOf, chooseFollowed } from "./branches.js";
 
+/**
+ * The status line after an inverse kinematics answer: empty while a solution
+ * within limits exists (the header's arm summary says where the arm is and in
+ * what state), else why the target cannot be reached or held.
+ */
 function ikSummary(result) {
   const total = result.solutions.length;
   const within = result.solutions.filter((s) => s.within_limits).length;
@@ -15,10 +20,12 @@ function ikSummary(result) {
     return { level: "warn", message: `Target not reachable: ${result.reason || "no solution"}` };
   }
   const ignored = result.ignored_components.length
-    ? `; not controlled: ${result.ignored_components.join(", ")}`
+    ? `not controlled: ${result.ignored_components.join(", ")}`
     : "";
-  const level = within === 0 ? "warn" : "info";
-  return { level, message: `${total} solution${total === 1 ? "" : "s"}, ${within} within limits${ignored}` };
+  if (within === 0) {
+    return { level: "warn", message: `No solution of the target is within the joint limits${ignored ? `; ${ignored}` : ""}` };
+  }
+  return { level: "info", message: ignored };
 }
 
 /**
@@ -106,20 +113,18 @@ export function createLinking({ store, actions, api }) {
       // the views redraw once per answer
       const patch = { ik };
       if (state.follow && result.solutions.length > 0) {
-        const chosen =
-          state.selectedBranch === null
-            ? nearestSolution({ solutions: result.solutions, joints: state.joints })
-            : followSolution({
-                solutions: result.solutions,
-                branch: state.selectedBranch,
-                joints: state.joints,
-              });
-        if (chosen) {
-          patch.joints = [...chosen.joints_deg];
-          patch.selectedBranch = branchOf(chosen);
-        } else {
+        const { solution, note } = chooseFollowed({
+          solutions: result.solutions,
+          branch: state.selectedBranch,
+          joints: state.joints,
+        });
+        if (solution) {
+          patch.joints = [...solution.joints_deg];
+          patch.selectedBranch = branchOf(solution);
+        }
+        if (note) {
           summary.level = "warn";
-          summary.message = `Target not reachable on branch "${state.selectedBranch.label}"; ${summary.message}`;
+          summary.message = summary.message ? `${note}; ${summary.message}` : note;
         }
       }
       store.update(patch, { reason: "ik" });

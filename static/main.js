@@ -1,6 +1,7 @@
 // Page entry: builds the store, the views and panels, and links them to the server.
 
 import { createApiClient } from "./api.js";
+import { createArmState } from "./armstate.js";
 import { createActions } from "./actions.js";
 import { createCellSync } from "./cellsync.js";
 import { createLinking } from "./linking.js";
@@ -14,6 +15,7 @@ import { createJointMapView } from "./views/jointmap.js";
 import { createJointSpaceView } from "./views/jointspace3d.js";
 import { createProjectionView } from "./views/projection.js";
 import { createSceneView } from "./views/scene3d.js";
+import { createArmStatus } from "./panels/armstatus.js";
 import { createCellPanel } from "./panels/cell.js";
 import { createPathPanel } from "./panels/path.js";
 import { createPlacementPanel } from "./panels/placement.js";
@@ -37,6 +39,7 @@ async function start() {
   // the jobs the page starts by itself share one pacer (used on a reviewer's page)
   const pacer = createJobPacer();
   const maps = createMaps({ store, api, actions, pacer });
+  createArmState({ store, api });
   createPathCurve({ store, api });
   createReachSections({ store, api, actions, pacer });
   const byId = (id) => document.getElementById(id);
@@ -51,6 +54,7 @@ async function start() {
     store,
     onRobotChosen: showRobot,
   });
+  createArmStatus({ element: byId("arm-state"), summary: byId("arm-summary"), store });
   createCellPanel({
     container: byId("cell-panel"),
     store,
@@ -58,79 +62,102 @@ async function start() {
     onShowCell: () => cellSync.loadCell(),
     onRetrySave: () => cellSync.retrySave(),
   });
-  createSceneView({ element: byId("scene3d"), store, palette });
-  createProjectionView({
-    element: byId("plan"),
-    base: byId("plan-base"),
-    overlay: byId("plan-overlay"),
-    store,
-    actions,
-    palette,
-    axes: [0, 1],
-    depthAxis: 2,
-    reachKey: "reachPlan",
-    viewerSide: 1,
-  });
-  createProjectionView({
-    element: byId("elevation"),
-    base: byId("elevation-base"),
-    overlay: byId("elevation-overlay"),
-    store,
-    actions,
-    palette,
-    axes: [0, 2],
-    depthAxis: 1,
-    reachKey: "reachElevation",
-    viewerSide: -1,
-  });
   createTargetPanel({ container: byId("target-panel"), store, actions });
   createToolPanel({ container: byId("tool-panel"), store });
-  createJointMapView({
-    element: byId("joint-map"),
-    base: byId("joint-map-base"),
-    note: byId("map-note"),
-    legend: byId("map-legend"),
-    header: byId("map-pair"),
-    progress: byId("map-progress-row"),
-    store,
-    actions,
-    palette,
-    onCancelMap: () => maps.cancel("2d"),
-  });
-  createJointSpaceView({
-    element: byId("joint-space-3d"),
-    header: byId("map3-joints"),
-    note: byId("map3-note"),
-    store,
-    actions,
-    palette,
-  });
   createSolutionsPanel({ container: byId("solutions-panel"), store, actions, palette });
   createJointsPanel({ container: byId("joints-panel"), store, actions });
   createMarginsPanel({ container: byId("margins-panel"), store });
   createTargetCheckPanel({ container: byId("target-check-panel"), store, actions, api });
-  createPoseCheckPanel({ container: byId("pose-check-panel"), store, actions, api, palette });
   createPathPanel({ container: byId("path-panel"), store, actions, api });
-  createPlacementPanel({
-    container: byId("placement-panel"),
-    store,
-    actions,
-    api,
-    palette,
-    onMoveBase: (edit) => cellSync.moveBase(edit),
-  });
-
   // read-only handle for debugging and the browser tests
   window.posebridge = Object.freeze({ getState: store.get });
 
-  try {
+  // the server's answers are asked for at once; the views that draw with the
+  // charting script are made when it has loaded (async: it never holds up the
+  // page shell) and draw what has arrived meanwhile
+  const loading = (async () => {
     await startReview({ store, api, banner: byId("review-banner"), commentsContainer: byId("comments-panel") });
     const library = await api.listRobots();
     store.update({ robots: library.robots });
     await cellSync.loadCell();
+  })().catch((error) => actions.setStatus("error", error.message));
+  try {
+    await plotlyLoaded();
+    const drawn = [];
+    drawn.push(createSceneView({ element: byId("scene3d"), store, palette }));
+    drawn.push(createProjectionView({
+      element: byId("plan"),
+      base: byId("plan-base"),
+      overlay: byId("plan-overlay"),
+      store,
+      actions,
+      palette,
+      axes: [0, 1],
+      depthAxis: 2,
+      reachKey: "reachPlan",
+      viewerSide: 1,
+    }));
+    drawn.push(createProjectionView({
+      element: byId("elevation"),
+      base: byId("elevation-base"),
+      overlay: byId("elevation-overlay"),
+      store,
+      actions,
+      palette,
+      axes: [0, 2],
+      depthAxis: 1,
+      reachKey: "reachElevation",
+      viewerSide: -1,
+    }));
+    drawn.push(createJointMapView({
+      element: byId("joint-map"),
+      base: byId("joint-map-base"),
+      note: byId("map-note"),
+      legend: byId("map-legend"),
+      header: byId("map-pair"),
+      progress: byId("map-progress-row"),
+      store,
+      actions,
+      palette,
+      onCancelMap: () => maps.cancel("2d"),
+    }));
+    drawn.push(createJointSpaceView({
+      element: byId("joint-space-3d"),
+      header: byId("map3-joints"),
+      note: byId("map3-note"),
+      legend: byId("map3-legend"),
+      store,
+      actions,
+      palette,
+    }));
+    drawn.push(createPoseCheckPanel({ container: byId("pose-check-panel"), store, actions, api, palette }));
+    drawn.push(createPlacementPanel({
+      container: byId("placement-panel"),
+      store,
+      actions,
+      api,
+      palette,
+      onMoveBase: (edit) => cellSync.moveBase(edit),
+    }));
+    for (const view of drawn) {
+      view.render();
+    }
+    await loading;
   } catch (error) {
     actions.setStatus("error", error.message);
   }
+}
+
+/** Resolves when the charting script (loaded async by the page) is there. */
+function plotlyLoaded() {
+  if (window.Plotly) {
+    return Promise.resolve();
+  }
+  const script = document.getElementById("plotly-script");
+  return new Promise((resolve, reject) => {
+    script.addEventListener("load", () => resolve(), { once: true });
+    script.addEventListener("error", () => reject(new Error("The charting script did not load; reload the page")), { once: true });
+  });
 }
 
 start();

@@ -8,11 +8,15 @@ const NAMES = [
   "target", "tool",
   "limit-box", "ok", "warn", "bad", "ink", "ink-muted", "rule",
   "region-1", "region-2", "region-3", "region-4", "region-5", "region-6", "region-7", "region-8",
+  "region-9", "region-10", "region-11", "region-12",
 ];
 
-const REGION_COUNT = 8;
+const REGION_COUNT = 12;
 
-/** Fill colour of the obstacle with index `index` in the cell's obstacle list (cycling). */
+/**
+ * Fill colour of the `index`-th object a joint map shows (objects in the cell's
+ * order, cycling after twelve): every object in one map gets its own colour.
+ */
 export function regionColour(palette, index) {
   return palette[`region-${(Math.max(0, index) % REGION_COUNT) + 1}`];
 }

@@ -10,6 +10,8 @@
  *   joints          current joint values, boundary units (deg, mm)
  *   fk              forward kinematics of `joints` (one FkConfiguration) or null
  *   fkJoints        the joint values `fk` belongs to
+ *   armState        {joints, result} of the cell's arm state (POST /api/cell/fk: limits, contacts,
+ *                   singularity) for the joint values `joints`, or null; severity.js words it
  *   target          {position_mm: [x, y, z], rpy_deg: [r, p, y]} or null
  *   targetInputAt   performance.now() of the input event that last moved the target
  *   ik              {result, target, inputAt} of the latest inverse kinematics answer, or null
@@ -55,6 +57,7 @@ export function initialState() {
     joints: [],
     fk: null,
     fkJoints: null,
+    armState: null,
     target: null,
     targetInputAt: 0,
     ik: null,

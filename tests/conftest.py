@@ -46,7 +46,7 @@ def robot() -> Callable[[str], Robot]:
 
 @pytest.fixture(scope="session")
 def unit_planar_2r() -> Robot:
-    """Planar 2R arm in the base x-y plane with 1 m links (the REFERENCES.md case), no capsules."""
+    """Planar 2R arm in the base x-y plane with 1 m links (the textbook planar 2R case), no capsules."""
     return parse_robot_toml(UNIT_PLANAR_2R, "test-unit-2r.toml")
 
 

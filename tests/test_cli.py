@@ -157,7 +157,7 @@ def test_ik_all_revolutions_lists_every_in_limit_revolution(
     assert all(any(same_modulo_360(n, s) for s in every["solutions"]) for n in nearest["solutions"])
     for solution in every["solutions"]:
         joints = np.array(solution["joints_deg"])
-        # documented rule (ik_types): revolutions count from the revolution centred on the
+        # documented rule (ik/finishing.py): revolutions count from the revolution centred on the
         # range; j4 and j6 of pb-arm6.toml have symmetric ranges wider than 360 deg
         for j in (3, 5):
             assert solution["revolutions"][j] == math.floor(joints[j] / 360.0 + 0.5)

@@ -50,10 +50,16 @@ def test_every_colour_the_page_script_reads_is_in_the_palette() -> None:
     assert count is not None and int(count.group(1)) == REGION_COUNT
 
 
-@pytest.mark.parametrize(("index", "name"), [(0, "region-1"), (7, "region-8"), (9, "region-2")])
+@pytest.mark.parametrize(("index", "name"), [(0, "region-1"), (11, "region-12"), (13, "region-2")])
 def test_region_colours_cycle_like_the_page(index: int, name: str) -> None:
-    # static/palette.js regionColour: region-((index mod 8) + 1)
+    # static/palette.js regionColour: region-((index mod 12) + 1)
     assert region_colour(index) == PALETTE[name]
+
+
+def test_twelve_region_colours_are_distinct() -> None:
+    # our own contract (issue: every object in a map its own colour)
+    colours = [PALETTE[f"region-{k}"] for k in range(1, REGION_COUNT + 1)]
+    assert len(set(colours)) == REGION_COUNT == 12
 
 
 def test_rgba_text() -> None:

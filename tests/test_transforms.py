@@ -48,7 +48,7 @@ def wxyz(xyzw: np.ndarray) -> np.ndarray:
 
 
 def test_rpy_reference_matrix() -> None:
-    # REFERENCES.md (URDF rpy convention), checked there with scipy from_euler("xyz")
+    # URDF specification (origin rpy about fixed X, Y, Z), as scipy from_euler("xyz")
     expected = [
         [0.41198225, -0.83373765, -0.36763046],
         [-0.05872664, -0.42691762, 0.90238159],

@@ -50,6 +50,10 @@ PALETTE: dict[str, str] = {
     "region-6": "#99ddff",
     "region-7": "#bbcc33",
     "region-8": "#aaaa00",
+    "region-9": "#cc6677",
+    "region-10": "#aa4499",
+    "region-11": "#117733",
+    "region-12": "#882255",
     "axis-x": _OKABE_ITO["vermillion"],
     "axis-y": _OKABE_ITO["bluish-green"],
     "axis-z": _OKABE_ITO["blue"],
@@ -73,13 +77,15 @@ PALETTE: dict[str, str] = {
 }
 """Colour by name (the page's ``--pb-<name>``), ``#rrggbb``."""
 
-REGION_COUNT = 8
-"""Obstacle region colours ``region-1`` .. ``region-8``, cycled by obstacle index."""
+REGION_COUNT = 12
+"""Obstacle region colours ``region-1`` .. ``region-12``: Tol's "light" scheme, then four of
+his "muted" scheme (same note), given to the objects a map shows in the cell's order, so up to
+twelve objects in one map each get their own colour."""
 
 
 def region_colour(index: int) -> str:
-    """Joint-space region colour of the obstacle with index ``index`` in the cell's obstacle
-    list, cycling through the eight region colours (as ``regionColour`` in static/palette.js)."""
+    """Joint-space region colour of the ``index``-th object a map shows (in the cell's obstacle
+    order), cycling through the region colours (as ``regionColour`` in static/palette.js)."""
     return PALETTE[f"region-{max(0, index) % REGION_COUNT + 1}"]
 
 

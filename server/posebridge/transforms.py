@@ -22,6 +22,7 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.errors import InputError
 from posebridge.units import FloatArray, deg_from_rad, rad_from_deg
 
 __all__ = [
@@ -46,7 +47,7 @@ _ORTHONORMAL_TOLERANCE = 1e-6
 _GIMBAL_TOLERANCE = 1e-9
 
 
-class TransformError(ValueError):
+class TransformError(InputError):
     """An input array is not a valid rotation or transform."""
 
 

@@ -16,8 +16,8 @@ from __future__ import annotations
 import numpy as np
 import numpy.typing as npt
 
-FloatArray = npt.NDArray[np.float64]
-BoolArray = npt.NDArray[np.bool_]
+# The array aliases live in posebridge.arrays; many modules import these two from here.
+from posebridge.arrays import BoolArray, FloatArray
 
 MM_PER_M = 1000.0
 DEG_PER_RAD = 180.0 / np.pi

@@ -3,18 +3,12 @@
 
 import { element } from "./fields.js";
 import { formatJoint } from "../units.js";
+import { limitItem, thresholdsOf } from "../severity.js";
 
-const WARN_FRACTION = 0.1;
-
-/** "ok", "warn" (within 10 % of the range of a limit; common practice, no source) or "bad" (outside). */
-export function marginLevel(margin, span) {
-  if (margin === null) {
-    return "ok";
-  }
-  if (margin < 0) {
-    return "bad";
-  }
-  return margin / span < WARN_FRACTION ? "warn" : "ok";
+/** "ok", "warn" or "bad" for a signed margin, by the page's one severity policy (severity.js). */
+export function marginLevel(margin, unit, thresholds) {
+  const item = limitItem({ joint: "", unit, margin, nearer_limit: "" }, thresholds);
+  return item ? item.level : "ok";
 }
 
 /**
@@ -30,11 +24,12 @@ export function createMarginsPanel({ container, store }) {
       return;
     }
     const values = store.get().fkJoints;
+    const thresholds = thresholdsOf(store.get());
     grid.replaceChildren(
       ...robot.joints.flatMap((joint, index) => {
         const span = joint.upper - joint.lower;
         const margin = fk.limit_margins_deg[index];
-        const level = marginLevel(margin, span);
+        const level = marginLevel(margin, joint.unit, thresholds);
         const position = Math.min(1, Math.max(0, (values[index] - joint.lower) / span));
         const track = element("div", {
           className: "pb-track",
@@ -65,6 +60,6 @@ export function createMarginsPanel({ container, store }) {
     );
   }
 
-  store.subscribe(render, { keys: ["robot", "fk"] });
+  store.subscribe(render, { keys: ["robot", "fk", "cell"] });
   return { render };
 }

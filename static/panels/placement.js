@@ -14,6 +14,8 @@ import { PLOT_CONFIG } from "../views/plotting.js";
 import { formatNumber } from "../units.js";
 
 /** The score over x–y (rows y, columns x) for one yaw index, or the best over all yaws (-1). */
+const LABEL_SIDES = ["top center", "bottom center", "middle right", "middle left"];
+
 export function scorePlane(grid, yawIndex, heightIndex) {
   return grid.score.map((row) =>
     row.map((cell) => {
@@ -54,6 +56,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
   heatmap.hidden = true;
   let job = null;
   let clickBound = false;
+  let scoredEtag = null;
 
   run.addEventListener("click", async () => {
     if (job) {
@@ -77,6 +80,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     try {
       const finished = await job.done;
       if (finished.state === "done") {
+        scoredEtag = store.get().cell ? store.get().cell.etag : null;
         store.update({ placement: finished.result });
       } else {
         summary.textContent = finished.state === "cancelled" ? "Search cancelled." : `Search failed: ${finished.detail}`;
@@ -108,16 +112,22 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
   }
 
   function render() {
-    const { placement } = store.get();
+    const { placement, cell } = store.get();
     if (!placement) {
       return;
     }
+    // the scores belong to the cell as it was: a moved base or fixture makes them out of date
+    const stale = Boolean(cell && scoredEtag !== null && cell.etag !== scoredEtag);
+    heatmap.dataset.stale = String(stale);
+    const base = cell ? cell.scene.base.position_mm : null;
     const grid = placement.grid;
     fillSelect(yawSelect, grid.yaw_deg, "deg", true);
     fillSelect(heightSelect, grid.pedestal_height_mm, "mm", false);
     const yawIndex = Number(yawSelect.value);
     const heightIndex = Number(heightSelect.value || 0);
-    summary.textContent = `${placement.candidates_evaluated} base poses scored for ${placement.targets.length} targets. ${placement.score_note}`;
+    summary.textContent =
+      (stale ? "Out of date: the base or a fixture has moved since these scores; run the search again. " : "") +
+      `${placement.candidates_evaluated} base poses scored for ${placement.targets.length} targets. ${placement.score_note}`;
     heatmap.hidden = false;
     const best = placement.best[0];
     Plotly.react(
@@ -129,7 +139,8 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
           y: grid.y_mm,
           z: scorePlane(grid, yawIndex, heightIndex),
           colorscale: "Viridis",
-          colorbar: { title: { text: "score" }, thickness: 10 },
+          colorbar: { title: { text: stale ? "score (out of date)" : "score" }, thickness: 10 },
+          opacity: stale ? 0.45 : 1,
           hovertemplate: "x %{x:.0f} mm<br>y %{y:.0f} mm<br>score %{z:.3f}<extra></extra>",
         },
         {
@@ -138,10 +149,21 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
           x: placement.best.map((c) => c.x_mm),
           y: placement.best.map((c) => c.y_mm),
           text: placement.best.map((c) => String(c.rank)),
-          textposition: "top center",
+          // neighbouring ranks put their labels on different sides, so they do not overlap
+          textposition: placement.best.map((c) => LABEL_SIDES[c.rank % LABEL_SIDES.length]),
           marker: { size: 9, symbol: "circle-open", color: palette.ink, line: { width: 2 } },
           hoverinfo: "skip",
           meta: { role: "candidates" },
+        },
+        {
+          type: "scatter",
+          mode: "markers",
+          name: "current base",
+          x: base ? [base[0]] : [],
+          y: base ? [base[1]] : [],
+          marker: { size: 14, symbol: "x-thin-open", color: palette.bad, line: { width: 3 } },
+          hovertemplate: "current base<extra></extra>",
+          meta: { role: "current-base" },
         },
       ],
       {
@@ -196,6 +218,6 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
 
   yawSelect.addEventListener("change", render);
   heightSelect.addEventListener("change", render);
-  store.subscribe(render, { keys: ["placement"] });
+  store.subscribe(render, { keys: ["placement", "cell"] });
   return { render };
 }

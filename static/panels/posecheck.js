@@ -12,7 +12,9 @@ import { element } from "./fields.js";
 import { PLOT_CONFIG } from "../views/plotting.js";
 import { formatLength, formatNumber } from "../units.js";
 
-const PLAY_STEP_MS = 60;
+// playback without a time column: rows per second at 1× (common practice, no source)
+const ROWS_PER_S_WITHOUT_TIME = 25;
+const PLAY_SPEEDS = [0.25, 0.5, 1, 2, 4];
 
 /** Joint values per row of a CSV log, in the robot's joint order (a header names the joints). */
 export function parseLogJoints(text, jointNames) {
@@ -51,7 +53,9 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
   const scrub = element("input", { attributes: { type: "range", id: "log-scrub", min: "0", max: "0", step: "1", "aria-label": "Log row" } });
   const play = element("button", { text: "Play", attributes: { type: "button", id: "log-play" } });
   const rowText = element("output", { attributes: { id: "log-row" } });
-  const player = element("div", { className: "pb-controls", attributes: { id: "log-player" } }, [play, scrub, rowText]);
+  const speed = element("select", { attributes: { id: "log-speed", "aria-label": "Playback speed" } });
+  speed.replaceChildren(...PLAY_SPEEDS.map((value) => new Option(`${value}×`, String(value), value === 1, value === 1)));
+  const player = element("div", { className: "pb-controls", attributes: { id: "log-player" } }, [play, speed, scrub, rowText]);
   container.append(
     input,
     element("div", { className: "pb-controls" }, [check, current, element("label", { text: "Log file " }, [file])]),
@@ -118,12 +122,30 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
       ["Environment clearance", closestText(pose.closest_environment)],
       ["Self-clearance", closestText(pose.closest_self)],
       ["Nearest target", pose.nearest_targets.length ? `${pose.nearest_targets[0].name} (${formatLength(pose.nearest_targets[0].distance_mm)}, ${formatNumber(pose.nearest_targets[0].angle_deg)} deg)` : "–"],
-      ["Other branches", pose.branches.map((b) => `${b.branch}${b.usable ? "" : " (not usable)"}`).join("; ") || "–"],
     ];
     const rows = lines.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));
     const show = element("button", { text: "Move the arm here", attributes: { type: "button", id: "pose-show" } });
     show.addEventListener("click", () => actions.setJoints([...pose.joints_deg], { reason: "pose-check" }));
-    return [element("table", { className: "pb-facts", attributes: { id: "pose-facts" } }, rows), show, findingList(pose.findings)];
+    return [element("table", { className: "pb-facts", attributes: { id: "pose-facts" } }, rows), otherBranches(pose), show, findingList(pose.findings)];
+  }
+
+  /** The other branches of the same TCP pose as a compact table, without the pose's own. */
+  function otherBranches(pose) {
+    const others = pose.branches.filter((_, k) => k !== pose.input_branch);
+    if (others.length === 0) {
+      return element("p", { className: "pb-note", text: "No other branch reaches this TCP pose." });
+    }
+    const cell = (text) => element("td", { text });
+    const head = element("tr", {}, ["Other branch", "Limits", "Clearance", "Usable"].map((text) => element("th", { text })));
+    const body = others.map((b) =>
+      element("tr", {}, [
+        cell(b.branch),
+        cell(b.within_limits ? "within" : "beyond"),
+        cell(b.clearance_mm === null ? "–" : formatLength(b.clearance_mm)),
+        cell(b.usable ? "yes" : "no"),
+      ]),
+    );
+    return element("table", { className: "pb-solutions pb-other-branches", attributes: { id: "pose-other-branches" } }, [head, ...body]);
   }
 
   function findingList(findings) {
@@ -174,15 +196,15 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
         hovertemplate: "%{text}<extra>row %{x}</extra>",
       },
     ].map((trace) => ({ type: "scatter", mode: "lines", ...trace }));
-    const axis = (domain, title) => ({ domain, title: { text: title, font: { size: 10 } }, zeroline: true, gridcolor: "#eceff2" });
+    const axis = (domain, title) => ({ domain, title: { text: title, font: { size: 10 }, standoff: 4 }, zeroline: true, gridcolor: "#eceff2", automargin: true });
     Plotly.react(
       timeline,
       traces,
       {
-        margin: { l: 56, r: 10, t: 8, b: 34 },
+        margin: { l: 64, r: 12, t: 18, b: 96 },
         showlegend: true,
-        legend: { orientation: "h", y: -0.22, font: { size: 10 } },
-        xaxis: { title: { text: "log row" }, range: [0, Math.max(1, x.length - 1)] },
+        legend: { orientation: "h", x: 0, y: -0.2, yanchor: "top", font: { size: 10 } },
+        xaxis: { anchor: "y3", title: { text: "log row", standoff: 4 }, range: [0, Math.max(1, x.length - 1)], automargin: true },
         yaxis: axis([0.7, 1], "margin %"),
         yaxis2: axis([0.36, 0.64], "clear. mm"),
         yaxis3: axis([0, 0.3], "manip."),
@@ -217,28 +239,69 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
     ];
     const rows = facts.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));
     const jump = element("button", { text: "Go to the worst row", attributes: { type: "button", id: "log-worst" } });
-    jump.addEventListener("click", () => moveToRow(worst.row));
+    jump.addEventListener("click", () => {
+      stopPlaying();
+      moveToRow(worst.row);
+    });
     return [element("table", { className: "pb-facts", attributes: { id: "log-facts", "data-worst-row": String(worst.row) } }, rows), jump, findingList(log.findings)];
+  }
+
+  /** Stop playback (a click on Pause, "Go to the worst row", the end of the log, a new log). */
+  function stopPlaying() {
+    if (playing !== null) {
+      clearTimeout(playing);
+      playing = null;
+    }
+    play.textContent = "Play";
+  }
+
+  /**
+   * Seconds of the log between two rows: the time column where the log has one,
+   * else ROWS_PER_S_WITHOUT_TIME rows per second; the playback runs at this
+   * pace times the chosen speed.
+   */
+  function rowGapS(from, to) {
+    const times = logTimes();
+    if (times && Number.isFinite(times[from]) && Number.isFinite(times[to])) {
+      return Math.max(0, times[to] - times[from]);
+    }
+    return (to - from) / ROWS_PER_S_WITHOUT_TIME;
+  }
+
+  function logTimes() {
+    const { logCheck } = store.get();
+    return logCheck && logCheck.rows ? logCheck.rows.time_s : null;
   }
 
   play.addEventListener("click", () => {
     if (playing !== null) {
-      clearInterval(playing);
-      playing = null;
-      play.textContent = "Play";
+      stopPlaying();
       return;
     }
     play.textContent = "Pause";
-    playing = setInterval(() => {
-      const next = Number(scrub.value) + 1;
-      if (next > Number(scrub.max)) {
-        clearInterval(playing);
-        playing = null;
-        play.textContent = "Play";
+    if (Number(scrub.value) >= Number(scrub.max)) {
+      moveToRow(0);
+    }
+    // the clock of the log: the row shown is the last one whose log time has passed
+    const startRow = Number(scrub.value);
+    const startedAt = performance.now();
+    const step = () => {
+      const elapsedS = ((performance.now() - startedAt) / 1000) * Number(speed.value);
+      let row = Number(scrub.value);
+      while (row < Number(scrub.max) && rowGapS(startRow, row + 1) <= elapsedS) {
+        row += 1;
+      }
+      if (row !== Number(scrub.value)) {
+        moveToRow(row);
+      }
+      if (row >= Number(scrub.max)) {
+        stopPlaying();
         return;
       }
-      moveToRow(next);
-    }, PLAY_STEP_MS);
+      const waitS = (rowGapS(startRow, row + 1) - elapsedS) / Number(speed.value);
+      playing = setTimeout(step, Math.max(16, 1000 * waitS));
+    };
+    playing = setTimeout(step, 16);
   });
   scrub.addEventListener("input", () => moveToRow(Number(scrub.value)));
 
@@ -249,6 +312,7 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
     if (poseCheck) {
       result.replaceChildren(...poseView(poseCheck));
     } else if (logCheck) {
+      stopPlaying();
       result.replaceChildren(...logView(logCheck));
       scrub.max = String(Math.max(0, logCheck.row_count - 1));
       drawTimeline(logCheck);

@@ -12,7 +12,8 @@
 
 /* global Plotly */
 
-import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
+import { currentArmSeverity, levelColour } from "../severity.js";
+import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { branchHeading } from "../branches.js";
 import { branchStyle, regionColour } from "../palette.js";
@@ -62,6 +63,18 @@ export function gridRows(map, flat, value) {
   return rows;
 }
 
+/** Name of the object colliding at joint values (x, y) of a two-joint map ("" if free). */
+export function objectAt(map, x, y) {
+  const [xs, ys] = map.axes_deg;
+  const nearest = (values, v) => values.reduce((best, value, k) => (Math.abs(value - v) < Math.abs(values[best] - v) ? k : best), 0);
+  const flat = nearest(xs, x) * map.shape[1] + nearest(ys, y);
+  const k = map.obstacle[flat];
+  if (k >= 0) {
+    return map.obstacle_names[k];
+  }
+  return map.self_collision[flat] ? "arm itself" : "";
+}
+
 /** Heatmap traces of a two-joint map: clearance shading, one region per obstacle, self collision. */
 export function regionTraces(map, palette) {
   const [xs, ys] = map.axes_deg;
@@ -77,9 +90,9 @@ export function regionTraces(map, palette) {
       colorscale: [[0, "#c4ccd3"], [1, "rgba(251, 252, 253, 0)"]],
     });
   }
-  map.colliding_obstacles.forEach((name) => {
+  map.colliding_obstacles.forEach((name, rank) => {
     const index = map.obstacle_names.indexOf(name);
-    const colour = regionColour(palette, index);
+    const colour = regionColour(palette, rank);
     traces.push({
       ...base,
       name,
@@ -169,7 +182,9 @@ export function createJointMapView({ element, base, note, legend, header, progre
   }
 
   /** The moving traces: solution markers, selected-solution ring, current configuration, crosshair. */
-  function dynamicTraces({ ik, mapJoints, selectedBranch, joints, robot }) {
+  function dynamicTraces(state) {
+    const { ik, mapJoints, selectedBranch, joints, robot } = state;
+    const level = currentArmSeverity(state).level;
     const [a, b] = mapJoints;
     const solutions = ik ? ik.result.solutions : [];
     const styles = solutions.map((solution) => branchStyle(palette, solution));
@@ -217,8 +232,13 @@ export function createJointMapView({ element, base, note, legend, header, progre
         name: "current configuration",
         x: [joints[a]],
         y: [joints[b]],
-        marker: { size: 16, symbol: "cross-thin-open", color: palette.ink, line: { width: 2.5 } },
-        meta: { role: "current" },
+        marker: {
+          size: level === "ok" ? 16 : 22,
+          symbol: "cross-thin-open",
+          color: levelColour(palette, level, palette.ink),
+          line: { width: level === "ok" ? 2.5 : 4 },
+        },
+        meta: { role: "current", level },
       },
     ];
   }
@@ -271,7 +291,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     if (!robot || joints.length !== robot.dof) {
       return;
     }
-    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive];
+    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk];
     if (drawnInputs && inputs.every((value, k) => value === drawnInputs[k])) {
       return; // already drawn (an answer drawn at once, then its frame request)
     }
@@ -289,7 +309,10 @@ export function createJointMapView({ element, base, note, legend, header, progre
         x: dynamic.map((trace) => trace.x),
         y: dynamic.map((trace) => trace.y),
         customdata: dynamic.map((trace) => trace.customdata),
-        "marker.color": dynamic.map((trace, k) => (k === 0 ? trace.marker.color : undefined)),
+        "marker.color": dynamic.map((trace, k) => (k === 0 || k === 3 ? trace.marker.color : undefined)),
+        "marker.size": dynamic.map((trace, k) => (k === 3 ? trace.marker.size : undefined)),
+        "marker.line.width": dynamic.map((trace, k) => (k === 3 ? trace.marker.line.width : undefined)),
+        meta: dynamic.map((trace) => trace.meta),
         "marker.symbol": dynamic.map((trace, k) => (k === 0 ? trace.marker.symbol : undefined)),
       };
       drawn = Plotly.restyle(element, update, dynamic.map((_, k) => k));
@@ -351,7 +374,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const regionEntries = regions.map((name) => {
       const entry = document.createElement("span");
       entry.className = "pb-region";
-      entry.append(swatch("■", regionColour(palette, map.obstacle_names.indexOf(name))), ` ${name}`);
+      entry.append(swatch("■", regionColour(palette, map.colliding_obstacles.indexOf(name))), ` ${name}`);
       return entry;
     });
     if (selfHit) {
@@ -401,7 +424,9 @@ export function createJointMapView({ element, base, note, legend, header, progre
   }
 
   const requestRender = frameScheduler({ render });
-  store.subscribe(requestRender, { keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive"] });
+  store.subscribe(requestRender, {
+    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk"],
+  });
   // a new inverse kinematics answer is drawn at once, not on the next frame: it is
   // what a drag waits for (the update is a small restyle of the top figure)
   store.subscribe(render, { keys: ["ik"] });
@@ -453,6 +478,20 @@ export function createJointMapView({ element, base, note, legend, header, progre
       return true;
     },
     onMove: (point) => setPair(point),
+  });
+
+  // hovering a region names its object (the regions are in the figure under this one)
+  element.addEventListener("mousemove", (event) => {
+    const map = currentMap(store.get());
+    if (!map || !element._fullLayout) {
+      return;
+    }
+    const point = dataFromPointer(element, event);
+    const name = point.inside ? objectAt(map, point.x, point.y) : "";
+    if (element.dataset.hoverObject !== name) {
+      element.dataset.hoverObject = name;
+      element.title = name ? `${name} collides here` : "";
+    }
   });
 
   element.addEventListener("keydown", (event) => {

@@ -57,14 +57,15 @@ export function voxelGroups(map) {
     group.y.push(xb[ib]);
     group.z.push(xc[ic]);
   });
-  return [...groups.values()];
+  // the k-th object shown (cell order) takes region colour k, as on the joint map
+  return [...groups.values()].sort((a, b) => a.index - b.index).map((group, rank) => ({ ...group, rank }));
 }
 
 /**
  * @param {{element: HTMLElement, header: HTMLElement, note: HTMLElement, store: object,
  *          actions: object, palette: object}} options
  */
-export function createJointSpaceView({ element, header, note, store, actions, palette }) {
+export function createJointSpaceView({ element, header, note, legend, store, actions, palette }) {
   let baseKey = null;
   let dynamicStart = 0;
   const selectors = [0, 1, 2].map((slot) => {
@@ -169,8 +170,10 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
     const data = [
       { type: "scatter3d", mode: "lines", name: "joint limits", ...box, line: { color: palette["limit-box"], width: 3 }, hoverinfo: "skip" },
     ];
+    const groups = map ? voxelGroups(map) : [];
+    renderLegend(groups);
     if (map) {
-      for (const group of voxelGroups(map)) {
+      for (const group of groups) {
         data.push({
           type: "scatter3d",
           mode: "markers",
@@ -178,7 +181,7 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
           x: group.x,
           y: group.y,
           z: group.z,
-          marker: { size: 2, color: regionColour(palette, group.index), symbol: "square" },
+          marker: { size: 2, color: regionColour(palette, group.rank), symbol: "square" },
           hovertemplate: `${group.name}<extra></extra>`,
           meta: { role: "obstacle", obstacle: group.name },
         });
@@ -206,6 +209,24 @@ export function createJointSpaceView({ element, header, note, store, actions, pa
       : state.cellActive
         ? computingText(state)
         : "Obstacle regions are shown for the cell's robot.";
+  }
+
+  /** The 3D view's own legend: one swatch per object shown, in its region colour. */
+  function renderLegend(groups) {
+    if (!legend) {
+      return;
+    }
+    legend.replaceChildren(
+      ...groups.map((group) => {
+        const entry = document.createElement("span");
+        entry.className = "pb-legend-entry";
+        const swatch = document.createElement("span");
+        swatch.textContent = "■";
+        swatch.style.color = regionColour(palette, group.rank);
+        entry.append(swatch, ` ${group.name}`);
+        return entry;
+      }),
+    );
   }
 
   /** What the note says while the map is missing: being computed, or waiting for the server. */

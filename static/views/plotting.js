@@ -195,5 +195,41 @@ export function topLayout(layout) {
 
 /** Draw or redraw a figure (plotly diffing keeps it cheap). */
 export function draw(figure, data, layout) {
+  followSize(figure);
   return Plotly.react(figure, data, layout, PLOT_CONFIG);
+}
+
+const followed = new WeakSet();
+
+/**
+ * Resize a figure with its box, not only with the window (plotly's
+ * `responsive`): the workbench's views share the screen, and a progress row or
+ * a legend appearing in a card changes a plot's height. One resize per frame.
+ */
+function followSize(figure) {
+  if (followed.has(figure) || typeof ResizeObserver === "undefined") {
+    return;
+  }
+  followed.add(figure);
+  let size = null;
+  let pending = false;
+  new ResizeObserver(([entry]) => {
+    const next = `${Math.round(entry.contentRect.width)}x${Math.round(entry.contentRect.height)}`;
+    if (next === size || pending) {
+      size = next;
+      return;
+    }
+    const first = size === null;
+    size = next;
+    if (first) {
+      return;
+    }
+    pending = true;
+    requestAnimationFrame(() => {
+      pending = false;
+      if (figure.data) {
+        Plotly.Plots.resize(figure);
+      }
+    });
+  }).observe(figure);
 }

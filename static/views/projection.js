@@ -14,6 +14,7 @@
 
 /* global Plotly */
 
+import { currentArmSeverity, levelColour } from "../severity.js";
 import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { convexHull, projectedOutline, shapePoints } from "./shapes.js";
@@ -150,7 +151,9 @@ export function createProjectionView({
     return traces;
   }
 
-  function robotTraces(fk) {
+  function robotTraces(fk, level) {
+    const armColour = levelColour(palette, level, palette.robot);
+    const edgeColour = levelColour(palette, level, palette["robot-edge"]);
     const segments = fk ? fk.capsule_segments_mm : [];
     const order = segments
       .map((segment, index) => ({
@@ -175,8 +178,9 @@ export function createProjectionView({
         y: ys,
         mode: "lines",
         fill: "toself",
-        fillcolor: withAlpha(palette.robot, 0.55),
-        line: { color: palette["robot-edge"], width: 1 },
+        fillcolor: withAlpha(armColour, 0.55),
+        line: { color: edgeColour, width: level === "ok" ? 1 : 2 },
+        meta: { role: "arm", level },
         connectgaps: false,
       },
       {
@@ -308,11 +312,18 @@ export function createProjectionView({
     if (!robot) {
       return;
     }
-    const arm = robotTraces(fk && fk.capsules ? fk : null);
+    const arm = robotTraces(fk && fk.capsules ? fk : null, currentArmSeverity(state).level);
     const reach = state.showReach && state[reachKey] ? state[reachKey] : null;
     const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}|${reach ? `${reach.cell_etag}|${reach.requested_mm}` : "none"}`;
     if (key === staticKey && element.data) {
-      const update = { x: arm.map((trace) => trace.x), y: arm.map((trace) => trace.y) };
+      const update = {
+        x: arm.map((trace) => trace.x),
+        y: arm.map((trace) => trace.y),
+        fillcolor: arm.map((trace) => trace.fillcolor),
+        "line.color": arm.map((trace) => trace.line && trace.line.color),
+        "line.width": arm.map((trace) => trace.line && trace.line.width),
+        meta: arm.map((trace) => trace.meta),
+      };
       Plotly.restyle(element, update, arm.map((_, k) => k)).then(placeMarkers);
       return;
     }
@@ -339,7 +350,7 @@ export function createProjectionView({
     render,
     minIntervalMs: () => (store.get().dragging ? ARM_REDRAW_WHILE_DRAGGING_MS : ARM_REDRAW_MS),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey, "armState"] });
   store.subscribe(placeMarkers, { keys: ["target", "fixture", "selection"] });
   new ResizeObserver(placeMarkers).observe(element);
 

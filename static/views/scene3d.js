@@ -6,6 +6,7 @@
 
 /* global Plotly */
 
+import { currentArmSeverity, levelColour } from "../severity.js";
 import { axis3d, draw, layout3d } from "./plotting.js";
 import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { appendShapeMesh, sceneBounds } from "./shapes.js";
@@ -222,7 +223,9 @@ export function createSceneView({ element, store, palette }) {
   }
 
   /** The traces that move: arm, chain, TCP and its triad, target and its triad (fixed count). */
-  function dynamicTraces({ fk, target }) {
+  function dynamicTraces(state) {
+    const { fk, target } = state;
+    const level = currentArmSeverity(state).level;
     const hidden = { x: [], y: [], z: [] };
     const arm = { x: [], y: [], z: [], i: [], j: [], k: [] };
     if (fk && fk.capsules) {
@@ -235,7 +238,8 @@ export function createSceneView({ element, store, palette }) {
         type: "mesh3d",
         name: "arm",
         ...arm,
-        color: palette.robot,
+        color: levelColour(palette, level, palette.robot),
+        meta: { role: "arm", level },
         opacity: 1,
         flatshading: false,
         lighting: { ambient: 0.55, diffuse: 0.7, specular: 0.15, roughness: 0.6 },
@@ -312,7 +316,7 @@ export function createSceneView({ element, store, palette }) {
     // only the moving traces: one restyle, the cell's meshes are left alone
     // (an undefined entry leaves that trace's attribute as it is)
     const update = {};
-    for (const name of ["x", "y", "z", "i", "j", "k"]) {
+    for (const name of ["x", "y", "z", "i", "j", "k", "color", "meta"]) {
       update[name] = dynamic.map((trace) => trace[name]);
     }
     Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
@@ -322,6 +326,6 @@ export function createSceneView({ element, store, palette }) {
     render,
     hold: () => store.get().dragging || !kinematicsSettled(store.get()),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive", "armState"] });
   return { render };
 }

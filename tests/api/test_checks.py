@@ -91,6 +91,21 @@ async def test_diagnose_pose(client: httpx.AsyncClient) -> None:
     assert body["joints_deg"] == pytest.approx(q)
 
 
+async def test_read_arm_state(client: httpx.AsyncClient) -> None:
+    q = [10.0, 20.0, -30.0, 5.0, 60.0, -15.0]
+    response = await client.post("/api/cell/fk", json={"joints_deg": q})
+    assert response.status_code == 200
+    body = response.json()
+    pose = (await client.post("/api/cell/diagnose/pose", json={"joints_deg": q})).json()
+    # the same configuration as the pose check: the same margins and clearance
+    assert [m["margin"] for m in body["limits"]] == pytest.approx(
+        [m["margin"] for m in pose["margins"]]
+    )
+    assert body["clearance_mm"] == pytest.approx(pose["clearance_mm"])
+    # the thresholds the page words the state with travel with it (field names of the contract)
+    assert {"limit_margin_deg", "clearance_mm", "wrist_deg"} <= set(body["thresholds"])
+
+
 async def test_diagnose_pose_wrong_count(client: httpx.AsyncClient) -> None:
     response = await client.post("/api/cell/diagnose/pose", json={"joints_deg": [0.0, 1.0]})
     assert response.status_code == 422

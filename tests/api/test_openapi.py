@@ -96,6 +96,7 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/cell/check",
         "/api/cell/paths/{name}/check",
         "/api/cell/paths/{name}/waypoints/{index}",
+        "/api/cell/fk",
         "/api/cell/diagnose/pose",
         "/api/cell/diagnose/log",
         "/api/placement",

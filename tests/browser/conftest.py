@@ -10,6 +10,7 @@ unless POSEBRIDGE_REQUIRE_BROWSER=1, which turns the skip into a failure.
 
 from __future__ import annotations
 
+import contextlib
 import json
 import os
 import shutil
@@ -23,11 +24,11 @@ import pytest
 
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
-from posebridge.bench.drag import CHROMIUM_PATH, chromium_available, launch_chromium
+from posebridge.bench.browser import CHROMIUM_PATH, chromium_available, launch_chromium
 from posebridge.resources import data_folder
 
 ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts"
-VIEWPORT = {"width": 1600, "height": 1250}
+VIEWPORT = {"width": 1600, "height": 1000}
 
 
 @pytest.fixture(scope="session", autouse=True)
@@ -104,6 +105,18 @@ _SETTLED_SCRIPT = """() => {
 }"""
 
 
+# Both joint maps describe the current cell, joints and held values (maps.js mapIsCurrent), or
+# the page has no cell: its map jobs are done.
+_MAPS_DONE_SCRIPT = """() => {
+  const s = window.posebridge && window.posebridge.getState();
+  if (!s || !s.cellActive) return true;
+  const current = (m, chosen) => Boolean(m && s.cell && m.cell_etag === s.cell.etag &&
+    chosen.every((j, k) => m.joints[k] === j) &&
+    s.joints.every((v, i) => chosen.includes(i) || Math.abs(v - m.hold_deg[i]) <= 0.05));
+  return current(s.jointMap, s.mapJoints) && (!s.map3Joints || current(s.jointMap3, s.map3Joints));
+}"""
+
+
 @dataclass
 class OpenPage:
     """A loaded dashboard page, what went wrong on it, and the server's base URL."""
@@ -141,4 +154,8 @@ def open_page(browser: Any, server_url: str) -> Iterator[OpenPage]:
     opened = OpenPage(page=page, problems=problems, base_url=server_url)
     opened.wait_settled(timeout_ms=60_000)
     yield opened
+    # let the page's map jobs finish before it closes: jobs outlive their page on the server,
+    # and a next page starting its own beyond the per-client cap would be refused (429)
+    with contextlib.suppress(Exception):
+        page.wait_for_function(_MAPS_DONE_SCRIPT, timeout=120_000)
     page.close()

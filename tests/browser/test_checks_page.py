@@ -16,7 +16,7 @@ import httpx
 import numpy as np
 import pytest
 
-from posebridge.bench.drag import figure_pixel, plan_marker_position
+from posebridge.bench.browser import figure_pixel, plan_marker_position
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.checks import check_targets
 from posebridge.cell.diagnosis import diagnose_log
@@ -62,13 +62,25 @@ def test_placement_moves_base(open_page: Any, cell_path: Path, artifacts: Path) 
     page.fill("#place-yaws", "2")
     page.click("#place-run")
     page.wait_for_function("() => window.posebridge.getState().placement", timeout=60_000)
-    best = page.evaluate(STATE)["placement"]["best"][0]
+    ranked = page.evaluate(STATE)["placement"]["best"]
     # 3 x 3 positions x 2 yaws around the demo foot (closed form)
     assert page.evaluate(STATE)["placement"]["candidates_evaluated"] == 18
+    # the current base is marked on the heatmap, which is up to date
+    current_base = (
+        "() => { const t = document.getElementById('place-heatmap').data"
+        ".find((d) => d.meta && d.meta.role === 'current-base'); return [t.x[0], t.y[0]]; }"
+    )
+    foot = page.evaluate(STATE)["cell"]["scene"]["base"]["position_mm"]
+    assert page.evaluate(current_base) == pytest.approx(foot[:2])
+    assert page.get_attribute("#place-heatmap", "data-stale") == "false"
+    # the best candidate that moves the base (the current base may rank first)
+    k, best = next(
+        (k, c) for k, c in enumerate(ranked) if [c["x_mm"], c["y_mm"]] != pytest.approx(foot[:2])
+    )
     with page.expect_response(
         lambda r: r.request.method == "PATCH" and r.url.endswith("/api/cell/base"), timeout=30_000
     ) as moved:
-        page.click("#place-candidates li:first-child")
+        page.click(f"#place-candidates li:nth-child({k + 1})")
     assert moved.value.status == 200
     page.wait_for_function(
         "(etag) => { const s = window.posebridge.getState(); return s.cell.etag === etag"
@@ -78,6 +90,12 @@ def test_placement_moves_base(open_page: Any, cell_path: Path, artifacts: Path) 
     )
     saved = json.loads(cell_path.read_text())
     assert saved["base"]["position_mm"][:2] == pytest.approx([best["x_mm"], best["y_mm"]])
+    # the base moved: the heatmap says it is out of date and marks the new base
+    page.wait_for_function(
+        "() => document.getElementById('place-heatmap').dataset.stale === 'true'", timeout=30_000
+    )
+    assert "Out of date" in page.inner_text("#placement-panel")
+    assert page.evaluate(current_base) == pytest.approx(saved["base"]["position_mm"][:2])
     assert saved["base"]["rpy_deg"][2] == pytest.approx(best["yaw_deg"])
     # the arm is drawn on its new base: the chain starts at the base frame
     state = page.evaluate(STATE)

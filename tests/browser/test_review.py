@@ -25,7 +25,7 @@ import pytest
 
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
-from posebridge.bench.drag import plan_marker_position
+from posebridge.bench.browser import plan_marker_position
 from posebridge.resources import data_folder
 from posebridge.review.access import new_review_token
 

@@ -26,7 +26,7 @@ from posebridge.cell.model import validate_cell
 from posebridge.cell.report_text import render_target_check
 from posebridge.cell.reports import QualityThresholds, TargetCheckReport
 from posebridge.cell.scene import resolve_scene
-from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
+from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder

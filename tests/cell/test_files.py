@@ -87,6 +87,21 @@ def test_saved_text_is_readable_json(tmp_path: Path) -> None:
     assert json.loads(text) == expected
 
 
+def test_saved_numbers_are_rounded_to_a_thousandth(tmp_path: Path) -> None:
+    data = small_cell_data()
+    data["fixtures"][0]["position_mm"] = [800.00000000001, -1e-12, 400.12349]
+    data["fixtures"][0]["rpy_deg"] = [0.0, 0.0, 29.999999999996]
+    cell = validate_cell(data)
+    path = tmp_path / "cell.json"
+    etag = save_cell(cell, path)
+    # our own contract (issue: no float noise in diffs): 0.001 mm and 0.001 deg, no -0.0
+    text = path.read_text()
+    assert '"position_mm": [800.0, 0.0, 400.123]' in text
+    assert '"rpy_deg": [0.0, 0.0, 30.0]' in text
+    # the content version is that of the file as written, so a reload is not a conflict
+    assert etag == cell_etag(load_cell(path)) == cell_etag(cell)
+
+
 def test_etag_is_sha256_of_canonical_json_and_ignores_formatting(tmp_path: Path) -> None:
     data = small_cell_data()
     cell = validate_cell(data)

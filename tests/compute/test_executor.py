@@ -22,9 +22,12 @@ from posebridge.compute.executor import (
     LocalPoolExecutor,
     SerialExecutor,
     make_executor,
+    single_thread_worker,
     split_range,
+    worker_initializer,
 )
 from posebridge.kinematics.fk import fk_tool
+from posebridge.kinematics.warm import warm_kinematics
 from posebridge.robot.library import load_robot
 
 EXECUTOR_KINDS = ["serial", "pool", "dask"]
@@ -192,9 +195,16 @@ def test_chunks_must_be_tuples(executor: Executor) -> None:
 
 
 def test_pool_workers_run_the_initializer(pool: LocalPoolExecutor) -> None:
-    # warm_worker limits numba to one thread in each worker process
+    # the default initializer (single_thread_worker) limits numba to one thread per worker
     assert pool.map_chunks(numba.get_num_threads, [()] * 4) == [1, 1, 1, 1]
     assert pool.map_chunks(os.getpid, [()] * 2)[0] != os.getpid()
+
+
+def test_worker_initializer_warms_in_one_thread() -> None:
+    # the layer's warm-up runs after the thread limit, in a worker process
+    assert worker_initializer(None) is single_thread_worker
+    with LocalPoolExecutor(2, initializer=worker_initializer(warm_kinematics)) as pool:
+        assert pool.map_chunks(numba.get_num_threads, [()] * 2) == [1, 1]
 
 
 def test_serial_executor_runs_kernels_on_one_thread() -> None:

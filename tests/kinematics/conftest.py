@@ -47,7 +47,7 @@ def _direction(angle: float) -> np.ndarray:
 
 
 def _origin_element(T: np.ndarray) -> str:
-    # URDF rpy: R = Rz(yaw) Ry(pitch) Rx(roll), scipy's extrinsic "xyz" (REFERENCES.md)
+    # URDF rpy: R = Rz(yaw) Ry(pitch) Rx(roll), scipy's extrinsic "xyz" (URDF specification)
     rpy = Rotation.from_matrix(T[:3, :3]).as_euler("xyz")
     xyz = " ".join(repr(float(v)) for v in T[:3, 3])
     return f'<origin xyz="{xyz}" rpy="{" ".join(repr(float(v)) for v in rpy)}"/>'

@@ -8,6 +8,7 @@ files written beside the checks.
 from __future__ import annotations
 
 import numpy as np
+import pinocchio as pin
 import pytest
 
 from posebridge.kinematics.branches import branch_geometry, label_branches, labels_match
@@ -49,7 +50,6 @@ def test_pb_arm6_hand_cases() -> None:
 
 def _pin_labels(q: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """The module docstring's definitions, computed from pinocchio joint placements."""
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
     data = model.createData()
 
@@ -88,8 +88,6 @@ def _pin_labels(q: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 
 def test_pb_arm6_labels_match_pinocchio_geometry() -> None:
-    if not URDF_PATH.is_file():
-        pytest.skip("robots/pb-arm6.urdf not present")
     robot = load_robot("pb-arm6")
     q = np.random.default_rng(11).uniform(robot.lower, robot.upper, size=(300, 6))
     expected = _pin_labels(q)
@@ -101,7 +99,6 @@ def test_pb_arm6_labels_match_pinocchio_geometry() -> None:
 
 
 def test_offset_wrist_front_and_back_are_measured_at_the_wrist_point(offset_wrist_arm) -> None:
-    pin = pytest.importorskip("pinocchio")
     arm = offset_wrist_arm(np.random.default_rng(21))
     model = pin.buildModelFromXML(arm.urdf)
     data = model.createData()

@@ -174,7 +174,7 @@ def test_planar3r_closed_form() -> None:
 def test_reference_2r_case_unit_links(unit_planar_2r: Robot) -> None:
     robot = unit_planar_2r
     T = fk_tool(robot, np.radians([[30.0, 90.0]]))[0]
-    # REFERENCES.md closed forms: L1 = L2 = 1, (30 deg, 90 deg) -> (0.366, 1.366), 3 decimals given
+    # closed form: L1 = L2 = 1, (30 deg, 90 deg) -> (cos 30 + cos 120, sin 30 + sin 120) = (0.366, 1.366), 3 decimals given
     np.testing.assert_allclose(T[:2, 3], [0.366, 1.366], atol=5e-4)
     # exact: (cos 30 + cos 120, sin 30 + sin 120)
     np.testing.assert_allclose(

@@ -1,4 +1,4 @@
-"""Tests of posebridge.kinematics.ik_analytic.gantry.
+"""Tests of posebridge.kinematics.ik.analytic.gantry.
 
 References: the geometry of robots/pb-gantry3.toml (closed forms beside the
 checks) and forward kinematics (posebridge.kinematics.fk).
@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 
 from posebridge.kinematics.fk import fk_tool
-from posebridge.kinematics.ik_analytic.gantry import GantryGeometry, solve_gantry
-from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS
+from posebridge.kinematics.ik.analytic.gantry import GantryGeometry, solve_gantry
+from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
 from posebridge.transforms import rotation_matrix_about_axis

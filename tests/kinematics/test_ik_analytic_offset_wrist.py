@@ -1,9 +1,9 @@
-"""Tests of posebridge.kinematics.ik_analytic.offset_wrist (closed-form IK, joints 2-4 parallel).
+"""Tests of posebridge.kinematics.ik.analytic.offset_wrist (closed-form IK, joints 2-4 parallel).
 
 Robots: invented arms of the family generated as URDF text with random link
 lengths, offsets, joint frames and axis signs (the ``offset_wrist_arm``
 fixture of conftest.py). References: pinocchio forward kinematics of the same
-URDF text, the numerical solver (posebridge.kinematics.ik_numeric, an
+URDF text, the numerical solver (posebridge.kinematics.ik.numeric, an
 independent method), the generated geometry, scipy (rotations, root finding)
 and closed forms written beside the checks.
 """
@@ -14,6 +14,7 @@ import dataclasses
 from collections.abc import Callable
 
 import numpy as np
+import pinocchio as pin
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -24,14 +25,14 @@ from scipy.spatial.transform import Rotation
 from posebridge.kinematics.branches import label_branches
 from posebridge.kinematics.fk import fk_flange
 from posebridge.kinematics.ik import ik_solver
-from posebridge.kinematics.ik_analytic.offset_wrist import (
+from posebridge.kinematics.ik.analytic.offset_wrist import (
     METHOD,
     OffsetWristGeometry,
     solve_offset_wrist,
 )
-from posebridge.kinematics.ik_analytic.ortho_parallel import OrthoParallelGeometry
-from posebridge.kinematics.ik_numeric import DISTINCT_TOLERANCE, solve_ik_numeric
-from posebridge.kinematics.ik_types import (
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
+from posebridge.kinematics.ik.numeric import DISTINCT_TOLERANCE, solve_ik_numeric
+from posebridge.kinematics.ik.solutions import (
     REASON_NO_WITHIN_LIMITS,
     REASON_ORIENTATION,
     REASON_OUT_OF_REACH,
@@ -47,7 +48,6 @@ EIGHT_LABELS = {(s, e, w) for s in (1, -1) for e in (1, -1) for w in (1, -1)}
 
 def pin_flange(urdf: str) -> Callable[[np.ndarray], np.ndarray]:
     """Flange poses by pinocchio from URDF text, (N, 6) -> (N, 4, 4)."""
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(urdf)
     data = model.createData()
     flange = model.getFrameId("flange")
@@ -269,7 +269,7 @@ def test_tool_and_seed(arms: dict) -> None:
     rows, slots = np.nonzero(result.valid)
     reached = pin_flange(arm.urdf)(result.q[rows, slots]) @ tool
     np.testing.assert_allclose(reached, targets[rows], atol=FK_MATCH)
-    # ik_types contract: with itself as the seed the generating configuration comes first
+    # ik/finishing.py contract: with itself as the seed the generating configuration comes first
     assert np.all(same_modulo_revolutions(result.q[:, 0], q) < 1e-8)
 
 
@@ -368,7 +368,6 @@ def test_stretched_elbow_gives_one_elbow_solution(hand) -> None:
     # to axis 4 in the plane across them (pinocchio joint placements and axes); the
     # generated link directions give the bracket: q3 = sign (angle2 - angle3) lines up
     # upper arm and forearm
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(hand.urdf)
     data = model.createData()
 
@@ -435,7 +434,7 @@ def test_within_limits_flags(offset_wrist_arm) -> None:
     # reference: the generated limits (+-2.5 rad) compared directly
     np.testing.assert_array_equal(result.within_limits, inside & result.valid)
     rank = np.where(result.within_limits, 0, np.where(result.valid, 1, 2))
-    assert np.all(np.diff(rank, axis=1) >= 0)  # ik_types order: in limits, outside, empty
+    assert np.all(np.diff(rank, axis=1) >= 0)  # ik/finishing.py order: in limits, outside, empty
 
 
 def test_no_branch_within_limits(offset_wrist_arm) -> None:

@@ -1,4 +1,4 @@
-"""Tests of posebridge.kinematics.ik_analytic.ortho_parallel (closed-form IK, OPW arms).
+"""Tests of posebridge.kinematics.ik.analytic.ortho_parallel (closed-form IK, OPW arms).
 
 References used here: forward kinematics (posebridge.kinematics.fk, and
 pinocchio on robots/pb-arm6.urdf), the robot description files (dimensions
@@ -12,6 +12,7 @@ from __future__ import annotations
 import dataclasses
 
 import numpy as np
+import pinocchio as pin
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -21,12 +22,9 @@ from scipy.spatial.transform import Rotation
 
 from posebridge.kinematics.branches import label_branches
 from posebridge.kinematics.fk import fk_flange, fk_tool
-from posebridge.kinematics.ik_analytic.ortho_parallel import (
-    OrthoParallelGeometry,
-    atan2_many,
-    solve_ortho_parallel,
-)
-from posebridge.kinematics.ik_types import (
+from posebridge.kinematics.ik.analytic.ortho_parallel import atan2_many, solve_ortho_parallel
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
+from posebridge.kinematics.ik.solutions import (
     REASON_NO_WITHIN_LIMITS,
     REASON_ORIENTATION,
     REASON_OUT_OF_REACH,
@@ -122,8 +120,6 @@ def test_extract_rejects_other_arms(name: str) -> None:
 
 
 def test_extract_urdf_matches_toml(geometry: OrthoParallelGeometry) -> None:
-    if not URDF_PATH.is_file():
-        pytest.skip("robots/pb-arm6.urdf not present")
     from_urdf = OrthoParallelGeometry.from_robot(load_robot_urdf(URDF_PATH, to_link="flange"))
     assert from_urdf is not None
     # reference: the same invented robot described in TOML (the parameters are geometry,
@@ -297,9 +293,6 @@ def test_fk_of_every_solution_equals_an_arbitrary_target(
 def test_solutions_checked_with_pinocchio(
     arm6: Robot, geometry: OrthoParallelGeometry, fractions: np.ndarray
 ) -> None:
-    if not URDF_PATH.is_file():
-        pytest.skip("robots/pb-arm6.urdf not present")
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
     data = model.createData()
     flange = model.getFrameId("flange")
@@ -457,7 +450,7 @@ def test_within_limits_flags(arm6: Robot, geometry: OrthoParallelGeometry) -> No
     inside = np.all((result.q >= arm6.lower - 1e-12) & (result.q <= arm6.upper + 1e-12), axis=2)
     # reference: the joint limits of robots/pb-arm6.toml compared directly
     np.testing.assert_array_equal(result.within_limits, inside & result.valid)
-    # order (ik_types contract): in-limit slots, then valid outside, then empty
+    # order (ik/finishing.py contract): in-limit slots, then valid outside, then empty
     rank = np.where(result.within_limits, 0, np.where(result.valid, 1, 2))
     assert np.all(np.diff(rank, axis=1) >= 0)
 
@@ -511,7 +504,7 @@ def test_seed_orders_by_distance(arm6: Robot, geometry: OrthoParallelGeometry) -
     weights = 1.0 / arm6.velocity_max
     distance = (((result.q - seed[:, None, :]) * weights) ** 2).sum(axis=2)
     distance = np.where(result.within_limits, distance, np.inf)
-    # ik_types contract: in-limit slots sorted by weighted joint distance to the seed
+    # ik/finishing.py contract: in-limit slots sorted by weighted joint distance to the seed
     finite = np.isfinite(distance)
     for row, mask in zip(distance, finite, strict=True):
         assert np.all(np.diff(row[mask]) >= 0)

@@ -1,6 +1,6 @@
-"""Tests of posebridge.kinematics.ik_analytic.planar and .scara (planar 2R/3R, SCARA).
+"""Tests of posebridge.kinematics.ik.analytic.planar and .scara (planar 2R/3R, SCARA).
 
-References: the closed forms of shared/REFERENCES.md (planar 2R), the law of
+References: the closed forms of the planar 2R arm, the law of
 cosines written beside the checks, forward kinematics
 (posebridge.kinematics.fk) and the robot description files.
 """
@@ -14,9 +14,9 @@ from hypothesis import strategies as st
 from hypothesis.extra.numpy import arrays
 
 from posebridge.kinematics.fk import fk_tool
-from posebridge.kinematics.ik_analytic.planar import PlanarGeometry, solve_planar
-from posebridge.kinematics.ik_analytic.scara import ScaraGeometry
-from posebridge.kinematics.ik_types import REASON_ORIENTATION, REASON_OUT_OF_REACH
+from posebridge.kinematics.ik.analytic.planar import PlanarGeometry, solve_planar
+from posebridge.kinematics.ik.analytic.scara import ScaraGeometry
+from posebridge.kinematics.ik.solutions import REASON_ORIENTATION, REASON_OUT_OF_REACH
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml
@@ -72,7 +72,7 @@ def test_two_link_reference_example() -> None:
     robot = planar_2r(1000, 1000)
     result = solve(robot, target_at(0.366, 1.366))
     solutions = np.degrees(result.q[0, result.valid[0]])
-    # shared/REFERENCES.md: L1 = L2 = 1, target (0.366, 1.366) -> (30, 90) deg on one
+    # closed form: L1 = L2 = 1, target (0.366, 1.366) = (cos 30 + cos 120, sin 30 + sin 120) -> (30, 90) deg on one
     # branch; the other branch mirrors the elbow across the line to the target:
     # theta1' = 2 atan2(1.366, 0.366) - 30 = 120 deg, theta2' = -90 deg (closed form)
     expected = {(30.0, 90.0), (120.0, -90.0)}
@@ -89,7 +89,7 @@ def test_two_link_boundary_has_one_branch() -> None:
     robot = planar_2r(400, 300)
     direction = np.array([np.cos(0.4), np.sin(0.4)])
     result = solve(robot, target_at(*(0.7 * direction)))
-    # REFERENCES.md closed form: on the outer boundary r = l1 + l2 one branch (stretched)
+    # closed form: on the outer boundary r = l1 + l2 one branch (stretched)
     assert result.valid[0].sum() == 1
     m = result.valid_solutions(0)[0]
     np.testing.assert_allclose(result.q[0, m], [0.4, 0.0], atol=1e-7)
@@ -109,7 +109,7 @@ def test_two_link_inner_boundary_has_one_branch() -> None:
 def test_two_link_outside_the_annulus_is_out_of_reach(radius: float) -> None:
     robot = planar_2r(400, 300)
     result = solve(robot, target_at(radius, 0.0))
-    # REFERENCES.md: reachable radii |l1 - l2| <= r <= l1 + l2 = [0.1, 0.7] m
+    # closed form: reachable radii |l1 - l2| <= r <= l1 + l2 = [0.1, 0.7] m
     assert not result.valid.any()
     assert result.reason == (REASON_OUT_OF_REACH,)
 
@@ -117,7 +117,7 @@ def test_two_link_outside_the_annulus_is_out_of_reach(radius: float) -> None:
 def test_two_link_equal_links_target_at_the_base_takes_seed() -> None:
     robot = planar_2r(500, 500)
     result = solve(robot, target_at(0.0, 0.0), seed=np.array([0.8, 0.0]))
-    # REFERENCES.md: a full disk when l1 = l2; at r = 0 the arm is folded (q2 = pi) and
+    # closed form: a full disk when l1 = l2; at r = 0 the arm is folded (q2 = pi) and
     # joint 1 is free: it keeps the seed
     m = result.valid_solutions(0)[0]
     assert result.q[0, m, 0] == pytest.approx(0.8)
@@ -130,7 +130,7 @@ def test_two_link_ignores_height_and_orientation() -> None:
     target[0, :3, :3] = np.diag([1.0, -1.0, -1.0])
     result = solve(robot, target)
     assert result.ignored_components == ("z", "roll", "pitch", "yaw")
-    # x and y still follow REFERENCES.md's example (30, 90) deg on one branch
+    # x and y still follow the closed-form example (30, 90) deg on one branch
     assert result.valid[0].sum() == 2
     reached = fk_tool(robot, result.q[0, result.valid[0]])
     np.testing.assert_allclose(reached[:, :2, 3], [[0.366, 1.366]] * 2, atol=1e-12)
@@ -283,7 +283,7 @@ def test_continuous_joint_takes_the_revolution_nearest_the_seed() -> None:
     seed = np.array([10.0, 1.0])
     result = solve(robot, target_at(0.366, 1.366), seed=seed)
     by_elbow = {np.sign(result.q[0, m, 1]): m for m in result.valid_solutions(0)}
-    # REFERENCES.md example: (30, 90) deg and the mirrored (120, -90) deg; a continuous
+    # closed-form example (cos 30 + cos 120, sin 30 + sin 120) = (0.366, 1.366): (30, 90) deg and the mirrored (120, -90) deg; a continuous
     # joint 1 has no limits, so each stores its angle plus the whole revolutions k nearest the
     # seed: round((10 - 0.5236) / 2 pi) = 2 and round((10 - 2.0944) / 2 pi) = 1
     up, down = by_elbow[1.0], by_elbow[-1.0]

@@ -33,8 +33,6 @@ def test_family_of_each_bundled_robot(name: str) -> None:
 
 def test_urdf_arm_uses_the_closed_form() -> None:
     path = data_folder("robots") / "pb-arm6.urdf"
-    if not path.is_file():
-        pytest.skip("robots/pb-arm6.urdf not present")
     # the same arm as pb-arm6.toml, so the same family
     assert ik_solver(load_robot(path)).family == "ortho_parallel"
 

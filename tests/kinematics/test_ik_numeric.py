@@ -1,10 +1,11 @@
-"""Tests of posebridge.kinematics.ik_numeric (multi-start Levenberg-Marquardt IK)."""
+"""Tests of posebridge.kinematics.ik.numeric (multi-start Levenberg-Marquardt IK)."""
 
 from __future__ import annotations
 
 import math
 
 import numpy as np
+import pinocchio as pin
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -12,8 +13,10 @@ from hypothesis.extra.numpy import arrays
 from scipy.spatial.transform import Rotation
 
 from posebridge.kinematics.fk import KinematicsInputError, fk_tool
-from posebridge.kinematics.ik_numeric import DISTINCT_TOLERANCE, solve_ik_numeric
-from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
+from posebridge.kinematics.ik.analytic.ortho_parallel import solve_ortho_parallel
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
+from posebridge.kinematics.ik.numeric import DISTINCT_TOLERANCE, solve_ik_numeric
+from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
@@ -117,11 +120,9 @@ def test_custom_tool_is_reached() -> None:
 URDF_PATH = data_folder("robots") / "pb-arm6-offset.urdf"
 
 
-@pytest.mark.skipif(not URDF_PATH.is_file(), reason="robots/pb-arm6-offset.urdf not present")
 @settings(derandomize=True, deadline=None, max_examples=10)
 @given(fractions=arrays(np.float64, (4, 6), elements=st.floats(0.0, 1.0)))
 def test_solutions_checked_with_pinocchio(fractions: np.ndarray) -> None:
-    pin = pytest.importorskip("pinocchio")
     robot = load_robot_urdf(URDF_PATH, to_link="flange")
     model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
     data = model.createData()
@@ -167,14 +168,13 @@ def test_all_solutions_distinct_within_limits_and_reaching(name: str) -> None:
 
 
 def test_all_solutions_match_the_closed_form_of_the_ortho_parallel_arm() -> None:
-    ortho = pytest.importorskip("posebridge.kinematics.ik_analytic.ortho_parallel")
     robot = load_robot("pb-arm6")
     rng = np.random.default_rng(4)
     targets = fk_tool(robot, rng.uniform(robot.lower, robot.upper, size=(8, 6)))
-    geometry = ortho.OrthoParallelGeometry.from_robot(robot)
+    geometry = OrthoParallelGeometry.from_robot(robot)
     # reference: closed-form IK of ortho-parallel arms with a spherical wrist (Brandstötter,
     # Angerer, Hofbaur 2014), posebridge's analytic solver, a different method and code
-    analytic = ortho.solve_ortho_parallel(robot, geometry, targets)
+    analytic = solve_ortho_parallel(robot, geometry, targets)
     numeric = solve_ik_numeric(robot, targets)
 
     def same_modulo_revolutions(a: np.ndarray, b: np.ndarray) -> bool:
@@ -207,7 +207,7 @@ def test_unreachable_pose_has_no_valid_slot_and_a_reason() -> None:
 
 def test_planar_2r_reference_pose() -> None:
     robot = planar_2r()
-    # REFERENCES.md closed form: L1 = L2 = 1, target (0.366, 1.366) -> (30 deg, 90 deg); the
+    # closed form: L1 = L2 = 1, target (0.366, 1.366) = (cos 30 + cos 120, sin 30 + sin 120) -> (30 deg, 90 deg); the
     # orientation Rz(120 deg) excludes the other elbow branch (120 deg, -90 deg), whose
     # flange points along 30 deg
     target = planar_2r_pose(math.radians(30.0), math.radians(90.0))

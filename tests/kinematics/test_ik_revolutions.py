@@ -1,4 +1,4 @@
-"""Reported revolution counts of IK solutions (see posebridge.kinematics.ik_types)."""
+"""Reported revolution counts of IK solutions (see posebridge.kinematics.ik.finishing)."""
 
 from __future__ import annotations
 

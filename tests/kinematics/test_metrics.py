@@ -77,7 +77,7 @@ def test_manipulability_planar_2r_reference_value(unit_planar_2r: Robot) -> None
     robot = unit_planar_2r
     q = np.array([[0.4, math.radians(30.0)]])
     w = manipulability(robot, q, part="position")
-    # REFERENCES.md, Yoshikawa (1985): planar 2R, l1 = l2 = 1, theta2 = 30 deg -> w = 0.5
+    # Yoshikawa (1985), Manipulability of robotic mechanisms: planar 2R, l1 = l2 = 1, theta2 = 30 deg -> w = 0.5
     assert w == pytest.approx([0.5], abs=1e-12)
 
 

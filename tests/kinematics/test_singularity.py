@@ -9,6 +9,7 @@ singularities.
 from __future__ import annotations
 
 import numpy as np
+import pinocchio as pin
 import pytest
 from scipy.optimize import brentq
 
@@ -72,9 +73,6 @@ def test_exact_singularities_lose_jacobian_rank(arm6) -> None:
 
 
 def test_shoulder_distance_matches_pinocchio(arm6) -> None:
-    if not URDF_PATH.is_file():
-        pytest.skip("robots/pb-arm6.urdf not present")
-    pin = pytest.importorskip("pinocchio")
     model = pin.buildModelFromXML(URDF_PATH.read_text(encoding="utf-8"))
     data = model.createData()
     q = np.random.default_rng(5).uniform(arm6.lower, arm6.upper, size=(100, 6))

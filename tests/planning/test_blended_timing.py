@@ -113,7 +113,7 @@ def timed(scene: Scene) -> BlendedCycleTime:
 @pytest.mark.parametrize(("distance", "expected"), [(1.0, 1.5), (0.25, 2.0 * math.sqrt(0.125))])
 def test_single_joint_move_matches_the_trapezoid(distance: float, expected: float) -> None:
     end = math.degrees(distance)
-    # closed form (Lynch & Park, Modern Robotics, sec. 9.2.2.2; REFERENCES.md): v_max = 1,
+    # closed form (Lynch & Park, Modern Robotics, sec. 9.2.2.2): v_max = 1,
     # a_max = 2: distance 1 -> 1 / 1 + 1 / 2 = 1.5 s; distance 0.25 -> triangular
     # 2 sqrt(0.25 / 2) = 0.7071 s
     stop = timed(cell(TWO_AXIS_ARM, [joints([0.0, 30.0]), joints([end, 30.0])]))

@@ -43,7 +43,7 @@ def down(x_mm: float, *, motion: str = "linear", **speed: float) -> dict[str, ob
 
 
 def test_trapezoid_closed_forms() -> None:
-    # closed form (REFERENCES.md): v_max = 1, a_max = 2: distance 1 -> 1.5 s, distance 0.25 ->
+    # closed form (cycle time d/v + v/a, Lynch & Park, Modern Robotics, sec. 9.2.2.2): v_max = 1, a_max = 2: distance 1 -> 1.5 s, distance 0.25 ->
     # triangular 2 sqrt(0.25 / 2) = 0.7071 s
     durations = joint_move_durations([[0.0], [0.0]], [[1.0], [0.25]], [1.0], [2.0], [100.0, 100.0])
     assert durations[0] == pytest.approx(1.5, abs=1e-12)

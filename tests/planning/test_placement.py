@@ -10,14 +10,20 @@ import pytest
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
-from posebridge.compute import ComputationCancelled, DaskExecutor, LocalPoolExecutor, SerialExecutor
+from posebridge.compute import (
+    ComputationCancelled,
+    DaskExecutor,
+    LocalPoolExecutor,
+    SerialExecutor,
+    worker_initializer,
+)
+from posebridge.geometry.warm import warm_geometry
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.placement import (
     CHUNK_CANDIDATES,
     PlacementGrid,
     PlacementResult,
     search_base_placement,
-    warm_placement_worker,
 )
 from posebridge.planning.reports import PlacementReport, render_placement
 from posebridge.resources import data_folder
@@ -49,7 +55,7 @@ def circle_cell(radius: float = RADIUS, count: int = 8) -> Scene:
 def reachable(distance: np.ndarray) -> np.ndarray:
     """Closed form for a planar 2R arm: the wrist distance is sqrt(l1^2 + l2^2 + 2 l1 l2 cos q2)
     (law of cosines), so with |q2| <= 150 deg the reachable annulus is
-    r(150 deg) <= d <= l1 + l2 (REFERENCES.md, planar 2R reach)."""
+    r(150 deg) <= d <= l1 + l2 (planar 2R reach, closed form)."""
     inner = np.sqrt(L1**2 + L2**2 + 2.0 * L1 * L2 * np.cos(J2_LIMIT))
     return (distance >= inner) & (distance <= L1 + L2)
 
@@ -113,7 +119,7 @@ def test_same_result_on_every_executor(dask_scheduler: str) -> None:
     in_process = search_base_placement(scene, grid)
     with SerialExecutor() as serial:
         _same(in_process, search_base_placement(scene, grid, executor=serial))
-    with LocalPoolExecutor(2, initializer=warm_placement_worker) as pool:
+    with LocalPoolExecutor(2, initializer=worker_initializer(warm_geometry)) as pool:
         _same(in_process, search_base_placement(scene, grid, executor=pool))
     with DaskExecutor(dask_scheduler) as cluster:
         _same(in_process, search_base_placement(scene, grid, executor=cluster))

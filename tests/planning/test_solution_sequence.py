@@ -337,7 +337,7 @@ def test_revolutions_follow_the_ik_count() -> None:
     T = fk_tool(scene.robot, np.radians([[10.0, 20.0, -30.0, 15.0, 40.0, 5.0]]))
     result = solve_ik_all(scene.robot, T, all_revolutions=True)
     valid = result.valid[0]
-    # reference: the IK result's own revolution counts (posebridge.kinematics.ik_types rule)
+    # reference: the IK result's own revolution counts (posebridge.kinematics.ik.finishing rule)
     assert np.array_equal(revolutions_of(scene, result.q[0, valid]), result.revolutions[0, valid])
     assert np.any(result.revolutions[0, valid] != 0)  # source: j4 and j6 reach past +-180 deg here
 

@@ -52,12 +52,12 @@ def _dense_times(duration: float, count: int = 20001) -> np.ndarray:
 
 
 def test_cubic_time_scaling_reference_value() -> None:
-    # Lynch & Park, Modern Robotics, ch. 9 (REFERENCES.md): cubic s(0.6, T=2) = 0.216
+    # Lynch & Park, Modern Robotics, ch. 9: cubic s(0.6, T=2) = 0.216
     assert float(cubic_time_scaling(0.6, 2.0).position) == pytest.approx(0.216, abs=1e-12)
 
 
 def test_quintic_time_scaling_reference_value() -> None:
-    # Lynch & Park, Modern Robotics, ch. 9 (REFERENCES.md): quintic s(0.6, T=2) = 0.16308
+    # Lynch & Park, Modern Robotics, ch. 9: quintic s(0.6, T=2) = 0.16308
     assert float(quintic_time_scaling(0.6, 2.0).position) == pytest.approx(0.16308, abs=1e-12)
 
 
@@ -115,9 +115,9 @@ def test_polynomial_time_scaling_holds_rest_outside_motion() -> None:
 
 
 def test_trapezoidal_profile_reference_durations() -> None:
-    # REFERENCES.md: v_max = 1, a_max = 2, distance 1 -> 1.5 s (d/v + v/a, Lynch & Park sec. 9.2.2.2)
+    # closed form d/v + v/a (Lynch & Park sec. 9.2.2.2): v_max = 1, a_max = 2, distance 1 -> 1.5 s
     assert trapezoidal_profile(1.0, 1.0, 2.0).duration == pytest.approx(1.5, abs=1e-12)
-    # REFERENCES.md: distance 0.25 -> triangular, closed form 2 sqrt(d/a) = 0.7071 s
+    # distance 0.25 -> triangular, closed form 2 sqrt(d/a) = 0.7071 s
     triangle = trapezoidal_profile(0.25, 1.0, 2.0)
     assert triangle.duration == pytest.approx(2.0 * math.sqrt(0.25 / 2.0), abs=1e-12)
     assert triangle.duration == pytest.approx(0.7071, abs=1e-4)
@@ -427,7 +427,7 @@ def test_joint_move_rejects_bad_input(arguments, keywords, message) -> None:
 
 
 def test_linear_move_profile_is_trapezoid_in_path_length() -> None:
-    # REFERENCES.md trapezoid: 1 m at 1 m/s and 2 m/s^2 takes 1.5 s
+    # trapezoid closed form d/v + v/a (Lynch & Park sec. 9.2.2.2): 1 m at 1 m/s and 2 m/s^2 takes 1.5 s
     profile = linear_move_profile(1.0, 1.0, 2.0)
     assert profile.duration == pytest.approx(1.5, abs=1e-12)
     # speed_percent 50: v * 0.5, a * 0.25 -> closed form d/v + v/a = 2 + 1 = 3 s

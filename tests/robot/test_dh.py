@@ -120,7 +120,7 @@ def random_chain(rng: np.random.Generator, n: int) -> tuple[list[dict], list[boo
 
 def flange_pose(flange: dict) -> np.ndarray:
     T = np.eye(4)
-    # fixed-axis X-Y-Z rpy: scipy Rotation.from_euler("xyz") (REFERENCES.md, URDF convention)
+    # fixed-axis X-Y-Z rpy: scipy Rotation.from_euler("xyz") (URDF specification: origin rpy about fixed X, Y, Z)
     T[:3, :3] = Rotation.from_euler("xyz", flange["rpy_deg"], degrees=True).as_matrix()
     T[:3, 3] = np.array(flange["xyz_mm"]) / 1000.0
     return T

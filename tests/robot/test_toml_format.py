@@ -72,7 +72,7 @@ def test_bundled_origin_axis_joints_match_raw_values(path: Path) -> None:
     robot = load_robot_toml(path)
     for joint, raw_joint in zip(robot.joints, raw["joint"], strict=True):
         origin = raw_joint["origin"]
-        # rpy is fixed-axis X-Y-Z: scipy Rotation.from_euler("xyz", ...) (REFERENCES.md, URDF)
+        # rpy is fixed-axis X-Y-Z: scipy Rotation.from_euler("xyz", ...) (URDF specification)
         R = Rotation.from_euler("xyz", origin["rpy_deg"], degrees=True).as_matrix()
         np.testing.assert_allclose(joint.origin[:3, :3], R, atol=1e-15)
         np.testing.assert_allclose(joint.origin[:3, 3], np.array(origin["xyz_mm"]) / 1000.0)

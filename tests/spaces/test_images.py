@@ -45,7 +45,7 @@ def test_every_waypoint_solution_reaches_the_waypoint(robot, pin_arm) -> None:
         mine = image.q[image.waypoint == w]
         assert np.min(np.abs(mine - q_true[w]).max(axis=1)) < 1e-6
     assert all(label for label in image.labels)
-    # Up to 8 branches of an ortho-parallel arm (REFERENCES.md, Brandstötter et al. 2014),
+    # Up to 8 branches of an ortho-parallel arm (Brandstötter et al. 2014),
     # each with up to 2 in-limit revolutions of joint 6 (range -355..355 deg) and of joint 4
     # (-193..193 deg).
     assert np.bincount(image.waypoint).max() <= 8 * 2 * 2
@@ -57,7 +57,7 @@ def test_planar_reference_target_has_both_elbow_images(unit_planar_2r: Robot) ->
     target[:2, 3] = [np.sqrt(3) / 2 - 0.5, np.sqrt(3) / 2 + 0.5]
     image = waypoint_images(arm, target[None], (0, 1))
     found = np.degrees(image.points)
-    # REFERENCES.md: L1 = L2 = 1, (0.366, 1.366) -> (30, 90) deg; the mirrored elbow is
+    # closed form: L1 = L2 = 1, (0.366, 1.366) = (cos 30 + cos 120, sin 30 + sin 120) -> (30, 90) deg; the mirrored elbow is
     # (30 + 90, -90) = (120, -90) deg (common practice, no source).
     for expected in ([30.0, 90.0], [120.0, -90.0]):
         assert np.min(np.abs(found - expected).max(axis=1)) < 1e-6

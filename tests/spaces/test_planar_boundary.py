@@ -74,7 +74,7 @@ def test_non_planar_robot_is_refused(robot) -> None:
 def test_full_range_annulus_boundary_circles() -> None:
     chain = PlanarChain.from_robot(planar_robot([1000, 500], [(-180, 180), (-180, 180)]))
     angle = np.linspace(-np.pi, np.pi, 13)
-    # Closed form (REFERENCES.md): |l1 - l2| <= r <= l1 + l2 with l1 = 1 m, l2 = 0.5 m.
+    # Closed form: |l1 - l2| <= r <= l1 + l2 with l1 = 1 m, l2 = 0.5 m.
     for radius, inside in [(1.5, True), (0.5, True), (1.0, True), (1.5 * (1 + 1e-6), False)]:
         points = polar_points(np.full(angle.shape, radius), angle)
         assert np.all(planar_reachable(chain, points) == inside), radius
@@ -84,12 +84,12 @@ def test_full_range_annulus_boundary_circles() -> None:
 
 def test_equal_links_reach_a_full_disk() -> None:
     chain = PlanarChain.from_robot(planar_robot([1000, 1000], [(-180, 180), (-180, 180)]))
-    # Closed form (REFERENCES.md): a full disk when l1 = l2, the base point included.
+    # Closed form: a full disk when l1 = l2, the base point included.
     assert planar_reachable(chain, [[0.0, 0.0], [1e-4, 0.0], [0.0, 2.0]]).all()
 
 
 def test_reference_target_with_limited_ranges() -> None:
-    # REFERENCES.md: L1 = L2 = 1, target (0.366, 1.366) -> (30 deg, 90 deg) on one branch; the
+    # closed form: L1 = L2 = 1, target (0.366, 1.366) = (cos 30 + cos 120, sin 30 + sin 120) -> (30 deg, 90 deg) on one branch; the
     # other branch mirrors the elbow: (30 + 90, -90) = (120 deg, -90 deg) (common practice, no source).
     target = [[np.sqrt(3) / 2 - 0.5, np.sqrt(3) / 2 + 0.5]]  # exact form of (0.366, 1.366)
     cases = [
@@ -154,7 +154,7 @@ def test_area_of_annulus_with_limited_elbow(robot) -> None:
 def test_area_of_one_branch_sector() -> None:
     chain = PlanarChain.from_robot(planar_robot([400, 300], [(-60, 45), (20, 120)]))
     # Change of variables: for theta2 in (0, pi) the map (theta1, theta2) -> p is one-to-one with
-    # |det J| = l1 l2 sin(theta2) (Yoshikawa 2R closed form, REFERENCES.md), so
+    # |det J| = l1 l2 sin(theta2) (Yoshikawa 1985, planar 2R closed form), so
     # A = span1 * l1 l2 (cos a - cos b).
     exact = np.radians(105) * 0.4 * 0.3 * (np.cos(np.radians(20)) - np.cos(np.radians(120)))
     assert planar_region_area(chain) == pytest.approx(exact, rel=1e-7)

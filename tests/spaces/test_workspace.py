@@ -15,7 +15,7 @@ from posebridge.compute import (
     SerialExecutor,
 )
 from posebridge.kinematics.ik import solve_ik_all
-from posebridge.kinematics.ik_numeric import solve_ik_numeric
+from posebridge.kinematics.ik.numeric import solve_ik_numeric
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.planar_boundary import PlanarChain, planar_reachable
 from posebridge.spaces.workspace import (
@@ -76,7 +76,7 @@ def test_point_cloud_samples_the_joint_box_and_matches_pinocchio(robot, pin_arm)
 
 
 def test_distance_bound_of_the_planar_arm(robot) -> None:
-    # Closed form (REFERENCES.md): the stretched arm reaches r = l1 + l2 = 0.7 m from axis 1.
+    # Closed form: the stretched arm reaches r = l1 + l2 = 0.7 m from axis 1.
     assert tcp_distance_bound(robot("pb-planar2r"), np.zeros(3)) == pytest.approx(0.7, abs=1e-9)
 
 
@@ -92,7 +92,7 @@ def test_planar_reach_map_agrees_with_the_exact_region(robot) -> None:
     assert set(np.unique(result.count)) == {0, 26}
     # Exact region (law of cosines, planar_boundary) at the voxel centres.
     np.testing.assert_array_equal(result.count > 0, inside)
-    # Yoshikawa 2R closed form (REFERENCES.md): w = l1 l2 |sin theta2| with
+    # Yoshikawa (1985) 2R closed form: w = l1 l2 |sin theta2| with
     # cos theta2 = (r^2 - l1^2 - l2^2) / (2 l1 l2), the same for both elbow branches.
     r = np.linalg.norm(centres[..., :2], axis=-1)[inside]
     cosine = np.clip((r**2 - 0.4**2 - 0.3**2) / (2 * 0.4 * 0.3), -1, 1)
@@ -166,7 +166,7 @@ def test_best_manipulability_matches_pinocchio(robot, pin_arm, arm6_map) -> None
         target[:, 3, 3] = 1.0
         solutions = solve_ik_all(arm, np.linalg.inv(T_WORLD_BASE) @ target)
         ok = solutions.valid & solutions.within_limits
-        # pinocchio frame Jacobian, Yoshikawa w = sqrt(det(J_v J_v^T)) (REFERENCES.md).
+        # pinocchio frame Jacobian, Yoshikawa (1985) w = sqrt(det(J_v J_v^T)).
         w = reference.translational_manipulability(solutions.q[ok])
         assert result.best_manipulability[i, j, k] == pytest.approx(w.max(), rel=1e-9)
 

@@ -39,22 +39,20 @@ from posebridge.api.routes import (
     reviews,
     robots,
 )
-from posebridge.api.schemas.kinematics import fk_result, ik_result
 from posebridge.api.settings import Settings, get_settings
 from posebridge.api.warmup import KernelWarmUp, WarmStep
 from posebridge.cell.checks import check_targets
 from posebridge.cell.model import CellFileError
-from posebridge.kinematics.fk import KinematicsInputError, fk_tool
-from posebridge.kinematics.ik import solve_ik_all
-from posebridge.planning.errors import PlanningInputError
+from posebridge.errors import InputError
+from posebridge.kinematics.warm import warm_kinematics
 from posebridge.resources import data_folder
-from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.joint_map import joint_map
 
 __all__ = ["create_app", "plotly_script_path"]
 
-_JOB_INPUT_ERRORS = (SpacesInputError, KinematicsInputError, CellFileError, PlanningInputError)
-"""Errors of a job that are the request's fault: their message is the job's detail."""
+_JOB_INPUT_ERRORS = (InputError,)
+"""Errors of a job that are the request's fault (:mod:`posebridge.errors`): their message
+is the job's detail."""
 
 
 def plotly_script_path() -> Path:
@@ -63,18 +61,13 @@ def plotly_script_path() -> Path:
 
 
 def _warm_up_steps(cache: RobotCache, robot_spec: str, cells: CellStore) -> list[WarmStep]:
-    """FK and IK first (the page's first answers), then a tiny joint map and the target check,
-    so numba kernels are loaded before they are asked for."""
+    """The kinematics kernels of the served robot and the cell's robot first (the page's
+    first answers), then a tiny joint map and the target check, so numba kernels are loaded
+    before they are asked for."""
 
-    def kinematics(ik: bool) -> Callable[[], None]:
-        def run() -> None:
-            for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
-                q = robot.home_configuration()[None, :]
-                fk_result(robot, q)
-                if ik:
-                    ik_result(robot, solve_ik_all(robot, fk_tool(robot, q), seed=q[0]))
-
-        return run
+    def kinematics() -> None:
+        for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
+            warm_kinematics(robot)
 
     def clearance() -> None:
         snapshot = cells.read()
@@ -87,8 +80,7 @@ def _warm_up_steps(cache: RobotCache, robot_spec: str, cells: CellStore) -> list
             check_targets(snapshot.scene)
 
     return [
-        WarmStep("forward kinematics", kinematics(ik=False)),
-        WarmStep("inverse kinematics", kinematics(ik=True)),
+        WarmStep("forward and inverse kinematics", kinematics),
         WarmStep("clearance and joint maps", clearance),
         WarmStep("target check", target_check),
     ]

@@ -106,6 +106,7 @@ REVIEWER_ACTIONS: Final[dict[tuple[str, str], str]] = {
     ("POST", "/api/ik"): "compute",
     ("GET", "/api/cell/check"): "check",
     ("GET", "/api/cell/paths/{name}/check"): "check",
+    ("POST", "/api/cell/fk"): "compute",
     ("POST", "/api/cell/diagnose/pose"): "compute",
     ("POST", "/api/cell/diagnose/log"): "check",
     ("POST", "/api/maps/joint"): "heavy",

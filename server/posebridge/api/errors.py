@@ -18,13 +18,8 @@ from fastapi.responses import JSONResponse
 from starlette.exceptions import HTTPException as StarletteHTTPException
 
 from posebridge.api.robot_cache import RobotPathNotAllowedError
-from posebridge.cell.joint_log import JointLogError
-from posebridge.cell.model import CellFileError
-from posebridge.kinematics.fk import KinematicsInputError
+from posebridge.errors import InputError
 from posebridge.messages import printable
-from posebridge.planning.errors import PlanningInputError
-from posebridge.robot.errors import RobotDescriptionError
-from posebridge.transforms import TransformError
 
 __all__ = ["install_error_handlers", "public_detail", "validation_message"]
 
@@ -97,19 +92,9 @@ async def _on_http(request: Request, error: Exception) -> JSONResponse:
     return _json_error(request, error.status_code, str(error.detail), error.headers)
 
 
-async def _on_bad_input(request: Request, error: Exception) -> JSONResponse:
-    return _json_error(request, 422, str(error))
-
-
-async def _on_robot_description(request: Request, error: Exception) -> JSONResponse:
-    assert isinstance(error, RobotDescriptionError)
-    return _json_error(request, 422, "; ".join(error.problems))
-
-
-async def _on_cell_file(request: Request, error: Exception) -> JSONResponse:
-    assert isinstance(error, CellFileError)
-    prefix = f"{error.source}: " if error.source else ""
-    return _json_error(request, 422, prefix + "; ".join(error.problems))
+async def _on_input(request: Request, error: Exception) -> JSONResponse:
+    assert isinstance(error, InputError)
+    return _json_error(request, error.http_status, error.detail)
 
 
 async def _on_not_allowed(request: Request, error: Exception) -> JSONResponse:
@@ -124,14 +109,6 @@ def install_error_handlers(app: FastAPI) -> None:
     """Register the JSON error handlers on ``app``."""
     app.add_exception_handler(RequestValidationError, _on_validation)
     app.add_exception_handler(StarletteHTTPException, _on_http)
-    app.add_exception_handler(RobotDescriptionError, _on_robot_description)
-    for bad_input in (
-        KinematicsInputError,
-        TransformError,
-        JointLogError,
-        PlanningInputError,
-    ):
-        app.add_exception_handler(bad_input, _on_bad_input)
-    app.add_exception_handler(CellFileError, _on_cell_file)
+    app.add_exception_handler(InputError, _on_input)
     app.add_exception_handler(RobotPathNotAllowedError, _on_not_allowed)
     app.add_exception_handler(Exception, _on_unexpected)

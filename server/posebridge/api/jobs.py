@@ -242,7 +242,7 @@ class JobManager:
         except self._expected as error:
             job.error = str(error)
             job.state = "failed"
-        except Exception as error:  # noqa: BLE001 - reported to the client, not raised
+        except Exception as error:  # reported to the client, not raised
             job.error = f"internal error ({type(error).__name__}); see the server log"
             job.state = "failed"
         else:

@@ -22,6 +22,7 @@ import uvicorn
 from posebridge.api.app import create_app
 from posebridge.api.auth import enable_review_sharing
 from posebridge.api.settings import Settings
+from posebridge.errors import InputError
 from posebridge.review.access import new_review_token, review_link
 
 __all__ = [
@@ -36,7 +37,7 @@ __all__ = [
 _START_TIMEOUT_S = 60.0
 
 
-class ServerConfigError(ValueError):
+class ServerConfigError(InputError):
     """The server cannot be started as asked (address, port, files)."""
 
 

@@ -15,8 +15,8 @@ import numpy as np
 
 from posebridge.bench.timing import best_seconds
 from posebridge.kinematics.fk import fk_tool
-from posebridge.kinematics.ik_numeric import solve_ik_numeric
-from posebridge.kinematics.ik_types import IkSolutions
+from posebridge.kinematics.ik.numeric import solve_ik_numeric
+from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.robot.library import load_robot
 
 __all__ = ["bench_ik_numeric"]

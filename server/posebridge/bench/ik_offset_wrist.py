@@ -3,7 +3,7 @@
 The arm (defined below in DH rows, invented numbers) has joints 2, 3 and 4
 parallel, a 40 mm shoulder offset, 135 mm of lateral offset and a 110 mm
 wrist offset: the family of
-:mod:`posebridge.kinematics.ik_analytic.offset_wrist`. Targets are forward
+:mod:`posebridge.kinematics.ik.analytic.offset_wrist`. Targets are forward
 kinematics of random in-limit configurations (seeded). One run of
 :func:`posebridge.kinematics.ik.solve_ik_all` computes all eight branches of
 every pose with labels, validity and limit flags, revolution representatives and
@@ -21,7 +21,7 @@ import numpy as np
 from posebridge.bench.timing import best_seconds
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import ik_solver, solve_ik_all
-from posebridge.kinematics.ik_numeric import solve_ik_numeric
+from posebridge.kinematics.ik.numeric import solve_ik_numeric
 from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml
 

@@ -36,7 +36,8 @@ from posebridge.bench.timing import best_seconds
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
-from posebridge.compute import LocalPoolExecutor, SerialExecutor
+from posebridge.compute import LocalPoolExecutor, SerialExecutor, worker_initializer
+from posebridge.geometry.warm import warm_geometry
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.spaces.joint_map import joint_map
@@ -73,7 +74,7 @@ def bench_maps(quick: bool) -> dict[str, float]:
     voxel = 0.1 if quick else 0.05
     threaded, single = _joint_map_seconds(128 if quick else 256)
     figures = {"joint_map_256_s": threaded, "joint_map_speedup_vs_one_worker": single / threaded}
-    with LocalPoolExecutor(POOL_WORKERS) as pool:
+    with LocalPoolExecutor(POOL_WORKERS, initializer=worker_initializer(warm_geometry)) as pool:
         reach_map(robot, voxel_size_m=0.3, executor=pool)
         start = time.perf_counter()
         reach_map(robot, voxel_size_m=voxel, executor=pool)

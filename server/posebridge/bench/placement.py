@@ -9,7 +9,7 @@ Figures
     current base x 8 yaws at the current pedestal height (20 000 candidates,
     :func:`posebridge.planning.placement.search_base_placement`) on a local
     pool of two worker processes (initializer
-    :func:`~posebridge.planning.placement.warm_placement_worker`), one run after
+    :func:`~posebridge.geometry.warm.warm_geometry`), one run after
     a warm-up search of three chunks (worker start and kernel loading are not timed). Target: 5 s on two cores.
 ``placement_speedup_vs_one_worker``
     The same search on :class:`posebridge.compute.SerialExecutor` (one
@@ -26,11 +26,11 @@ import time
 
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
-from posebridge.compute import Executor, LocalPoolExecutor, SerialExecutor
+from posebridge.compute import Executor, LocalPoolExecutor, SerialExecutor, worker_initializer
+from posebridge.geometry.warm import warm_geometry
 from posebridge.planning.placement import (
     PlacementGrid,
     search_base_placement,
-    warm_placement_worker,
 )
 from posebridge.resources import data_folder
 
@@ -55,7 +55,7 @@ def _seconds(executor: Executor, count: int) -> float:
 def bench_placement(quick: bool) -> dict[str, float]:
     """Base placement wall time on two workers and its speed-up over one (module docstring)."""
     count = 20 if quick else 50
-    with LocalPoolExecutor(POOL_WORKERS, initializer=warm_placement_worker) as pool:
+    with LocalPoolExecutor(POOL_WORKERS, initializer=worker_initializer(warm_geometry)) as pool:
         pooled = _seconds(pool, count)
     with SerialExecutor() as serial:
         one_worker = _seconds(serial, count)

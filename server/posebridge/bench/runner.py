@@ -20,6 +20,7 @@ from posebridge.bench.kinematics import bench_kinematics
 from posebridge.bench.maps import bench_maps
 from posebridge.bench.mesh_clearance import bench_mesh_clearance
 from posebridge.bench.mesh_load import bench_mesh_load
+from posebridge.bench.page_load import bench_page_load
 from posebridge.bench.placement import bench_placement
 from posebridge.bench.review_load import bench_review_load
 from posebridge.bench.sequence import bench_sequence
@@ -44,6 +45,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("joint-space and reach maps", bench_maps),
     Benchmark("base placement", bench_placement),
     Benchmark("solution sequence and blended timing", bench_sequence),
+    Benchmark("dashboard page load", bench_page_load),
     Benchmark("dashboard drag round trip", bench_drag),
     Benchmark("shared review under load", bench_review_load),
 )

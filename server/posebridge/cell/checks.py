@@ -65,9 +65,9 @@ from posebridge.cell.reports import (
     group_findings,
 )
 from posebridge.cell.scene import Scene
-from posebridge.kinematics.branches import branch_geometry, labels_match
+from posebridge.kinematics.branches import BRANCH_LABELS, branch_geometry, labels_match
 from posebridge.kinematics.ik import solve_ik_all
-from posebridge.kinematics.ik_types import REASON_NO_WITHIN_LIMITS
+from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
 from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
 from posebridge.units import BoolArray, joint_unit_labels, mm_from_m
 
@@ -84,11 +84,6 @@ REASON_ALL_COLLIDE = "every in-limit branch collides"
 Triple = tuple[int, int, int]
 
 _SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
-_WANTED = {
-    "shoulder": {"front": 1, "back": -1},
-    "elbow": {"up": 1, "down": -1},
-    "wrist": {"positive": 1, "negative": -1},
-}
 
 
 def required_branch_words(branch: Branch | None) -> str | None:
@@ -194,7 +189,7 @@ class _Checker:
         quality = self.quality
         labels = {"shoulder": quality.shoulder, "elbow": quality.elbow, "wrist": quality.wrist}
         matches = np.ones(quality.count, dtype=bool)
-        for part, words in _WANTED.items():
+        for part, words in BRANCH_LABELS.items():
             wanted = np.zeros(len(self.poses), dtype=np.int8)
             for p, pose in enumerate(self.poses):
                 required = self.scene.targets.branches[pose.target]

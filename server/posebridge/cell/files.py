@@ -357,10 +357,27 @@ def load_cell(path: str | Path) -> Cell:
     return parse_cell_json(text, source=str(path))
 
 
+FILE_DECIMALS = 3
+"""Decimals of every number a cell file holds: 0.001 mm for lengths, 0.001 deg for angles
+(cell files hold mm, deg and speeds in mm/s or deg/s), so a drag leaves no float noise in a diff."""
+
+
+def _rounded(value: Any) -> Any:
+    """``value`` with every float rounded to :data:`FILE_DECIMALS` decimals (-0.0 written as 0.0)."""
+    if isinstance(value, float):
+        return round(value, FILE_DECIMALS) + 0.0
+    if isinstance(value, dict):
+        return {key: _rounded(item) for key, item in value.items()}
+    if isinstance(value, list):
+        return [_rounded(item) for item in value]
+    return value
+
+
 def _plain_data(cell: Cell) -> dict[str, Any]:
-    """The cell as JSON data; thresholds left out while they are all the defaults, so a
-    saved file follows later defaults unless the user set its own."""
-    data = cell.model_dump(mode="json", exclude_none=True)
+    """The cell as JSON data, numbers rounded as written (so the content version matches the
+    file); thresholds left out while they are all the defaults, so a saved file follows later
+    defaults unless the user set its own."""
+    data: dict[str, Any] = _rounded(cell.model_dump(mode="json", exclude_none=True))
     if cell.thresholds == QualityThresholds():
         del data["thresholds"]
     else:

@@ -29,6 +29,7 @@ from pathlib import Path
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.errors import InputError
 from posebridge.messages import printable
 from posebridge.robot.model import Robot
 from posebridge.units import FloatArray, joints_si_from_user
@@ -54,7 +55,7 @@ TIME_COLUMN = "time_s"
 IntArray = npt.NDArray[np.int64]
 
 
-class JointLogError(ValueError):
+class JointLogError(InputError):
     """A joint log cannot be read; the message names the file, line and column."""
 
 

@@ -44,6 +44,7 @@ from pydantic import (
 from pydantic_core import PydanticCustomError
 
 from posebridge.cell.reports import QualityThresholds
+from posebridge.errors import InputError
 
 __all__ = [
     "CELL_SCHEMA_VERSION",
@@ -123,7 +124,7 @@ _NAME_RULE = (
 _FIXTURE_SHAPES = ("box", "cylinder", "frame")
 
 
-class CellFileError(ValueError):
+class CellFileError(InputError):
     """A cell is invalid, or a cell file cannot be read.
 
     Attributes
@@ -141,6 +142,12 @@ class CellFileError(ValueError):
         self.source = source
         prefix = f"{source}: " if source else ""
         super().__init__("\n".join(prefix + problem for problem in self.problems))
+
+    @property
+    def detail(self) -> str:
+        """The file name once, then the findings joined by ``"; "`` (the HTTP API's message)."""
+        prefix = f"{self.source}: " if self.source else ""
+        return prefix + "; ".join(self.problems)
 
 
 def _problems_error(problems: list[tuple[str, str]]) -> PydanticCustomError:

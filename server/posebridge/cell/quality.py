@@ -32,6 +32,7 @@ from functools import cached_property
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import Int8Array, Int16Array
 from posebridge.cell.clearance import CellClearance, clearance_to_cell
 from posebridge.cell.reports import (
     BranchReport,
@@ -43,9 +44,9 @@ from posebridge.cell.reports import (
     SingularityProximity,
 )
 from posebridge.cell.scene import Scene
-from posebridge.kinematics.branches import branch_geometry, label_branches
+from posebridge.kinematics.branches import branch_geometry, branch_words, label_branches, part_word
 from posebridge.kinematics.fk import check_configurations, fk_tool
-from posebridge.kinematics.ik_types import JOINT_REVOLUTE, Int8Array, Int16Array, joint_modes
+from posebridge.kinematics.ik.finishing import JOINT_CONTINUOUS, JOINT_REVOLUTE, joint_modes
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
     LimitMargins,
@@ -108,13 +109,6 @@ SCORE_RULE = (
     "the highest score is recommended, ties go to the IK order (front, up, positive first)."
 )
 """How :func:`branch_score` ranks branches (common practice, no source)."""
-
-_WORDS = {
-    "shoulder": {1: "front", -1: "back", 0: "shoulder on axis 1"},
-    "elbow": {1: "up", -1: "down", 0: "elbow in line"},
-    "planar": {1: "left", -1: "right", 0: "elbow in line"},
-    "wrist": {1: "positive", -1: "negative", 0: "wrist straight"},
-}
 
 
 @dataclass(frozen=True, eq=False)
@@ -318,41 +312,23 @@ def proximity_ratio(quality: ConfigurationQuality) -> FloatArray:
     return np.minimum.reduce(terms)
 
 
-def part_word(scheme: str, part: str, label: int) -> str:
-    """The word of one branch part: ``part_word("arm", "wrist", -1) == "negative"``.
-
-    ``part`` is ``"shoulder"``, ``"elbow"`` or ``"wrist"``; planar arms name the
-    elbow ``left``/``right``.
-    """
-    table = "planar" if scheme == "planar" and part == "elbow" else part
-    return _WORDS[table][int(label)]
-
-
-def branch_words(scheme: str, shoulder: int, elbow: int, wrist: int) -> str:
-    """Plain words of a branch: ``"front, up, positive"``, ``"left"`` or ``"single branch"``."""
-    if scheme == "arm":
-        return ", ".join(
-            [
-                part_word(scheme, "shoulder", shoulder),
-                part_word(scheme, "elbow", elbow),
-                part_word(scheme, "wrist", wrist),
-            ]
-        )
-    if scheme == "planar":
-        return part_word(scheme, "elbow", elbow)
-    return "single branch"
-
-
 def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
-    """Whole extra revolutions of joints whose range exceeds one revolution, shape (N, n).
+    """Whole extra revolutions of each joint, shape (N, n), counted as the IK result counts
+    them (:mod:`posebridge.kinematics.ik.finishing`).
 
-    As in :mod:`posebridge.kinematics.ik_types`: a value ``v`` wrapped to
-    ``(-pi, pi]`` plus ``2 pi k`` has ``k`` revolutions; other joints have 0.
+    Limited revolute joints: ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)``, revolutions
+    away from the one centred on the range (so a joint whose range spans at most one
+    revolution always has 0); continuous joints: ``k`` of ``q = wrapped + 2 pi k`` with the
+    wrapped value in ``(-pi, pi]``; prismatic joints 0.
     """
     q = check_configurations(robot, q)
+    modes = joint_modes(robot)
+    centred = np.floor((q - 0.5 * (robot.lower + robot.upper)) / (2.0 * np.pi) + 0.5)
     wrapped = np.pi - np.mod(np.pi - q, 2.0 * np.pi)
-    revolutions = np.rint((q - wrapped) / (2.0 * np.pi)).astype(np.int16)
-    return np.where(joint_modes(robot) == JOINT_REVOLUTE, revolutions, 0).astype(np.int16)
+    turns = np.rint((q - wrapped) / (2.0 * np.pi))
+    counts = np.where(modes == JOINT_REVOLUTE, centred, 0.0)
+    counts = np.where(modes == JOINT_CONTINUOUS, turns, counts)
+    return counts.astype(np.int16)
 
 
 def _revolution_words(robot: Robot, revolutions: npt.ArrayLike) -> list[str]:

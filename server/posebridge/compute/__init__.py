@@ -10,8 +10,9 @@ from posebridge.compute.executor import (
     SerialExecutor,
     make_executor,
     run_chunks,
+    single_thread_worker,
     split_range,
-    warm_worker,
+    worker_initializer,
 )
 
 __all__ = [
@@ -24,6 +25,7 @@ __all__ = [
     "SerialExecutor",
     "make_executor",
     "run_chunks",
+    "single_thread_worker",
     "split_range",
-    "warm_worker",
+    "worker_initializer",
 ]

@@ -28,14 +28,16 @@ Decisions
   executor for many sweeps. Scripts that create a pool need the usual
   ``if __name__ == "__main__":`` guard.
 - **Warm-up and threads.** Each pool worker runs an initializer once,
-  :func:`warm_worker` by default: it limits numba to one thread in that
-  worker (processes give the parallelism; numba threads on top would
-  oversubscribe the cores) and loads the kinematics kernels. Callers with
-  more kernels pass their own initializer that calls :func:`warm_worker`
-  first. On a Dask cluster the initializer is run once on every worker
+  :func:`single_thread_worker` by default: it limits numba to one thread in
+  that worker (processes give the parallelism; numba threads on top would
+  oversubscribe the cores). This package is a leaf and knows no kernels:
+  callers pass ``worker_initializer(warm_up)`` with the warm-up of the layer
+  whose kernels the chunks run (e.g.
+  :func:`posebridge.geometry.warm.warm_geometry`), which limits the threads
+  and then loads those kernels. On a Dask cluster the initializer is run once on every worker
   present at connection time; numba's thread count there is the cluster's
   own setting (start Dask workers with ``NUMBA_NUM_THREADS=1`` if chunks are
-  larger than :data:`posebridge.kinematics.fk.PARALLEL_THRESHOLD`).
+  larger than the kernels' serial/parallel threshold, 2048).
   The serial executor runs no initializer (it must not change the calling
   process) but runs numba kernels on one thread while it works.
 - **Scheduling.** At most ``2 * workers`` chunks are in flight, so workers
@@ -51,6 +53,7 @@ Decisions
 from __future__ import annotations
 
 import concurrent.futures as cf
+import functools
 import multiprocessing
 import os
 import pickle
@@ -62,11 +65,6 @@ from types import TracebackType
 from typing import Any, Protocol, Self, TypeVar
 
 import numba
-import numpy as np
-
-from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_frames, fk_tool
-from posebridge.kinematics.jacobian import jacobian_base
-from posebridge.robot.library import load_robot
 
 __all__ = [
     "CANCEL_POLL_S",
@@ -79,8 +77,9 @@ __all__ = [
     "SerialExecutor",
     "make_executor",
     "run_chunks",
+    "single_thread_worker",
     "split_range",
-    "warm_worker",
+    "worker_initializer",
 ]
 
 CANCEL_POLL_S = 0.05
@@ -177,21 +176,22 @@ def split_range(total: int, chunk_size: int) -> list[tuple[int, int]]:
     return [(start, min(start + chunk_size, total)) for start in range(0, total, chunk_size)]
 
 
-def warm_worker() -> None:
-    """Prepare a worker process: one numba thread, kinematics kernels loaded.
-
-    Runs each FK and Jacobian kernel once on a tiny batch and on a batch of
-    :data:`~posebridge.kinematics.fk.PARALLEL_THRESHOLD` configurations, so
-    both the serial and the parallel drivers are loaded from numba's cache
-    before the first chunk arrives.
-    """
+def single_thread_worker() -> None:
+    """The default worker initializer: one numba thread in this worker process."""
     numba.set_num_threads(1)
-    robot = load_robot("pb-planar2r")
-    for count in (1, PARALLEL_THRESHOLD):
-        q = np.zeros((count, robot.dof))
-        fk_tool(robot, q)
-        fk_frames(robot, q)
-        jacobian_base(robot, q)
+
+
+def _prepare_worker(warm_up: Callable[[], None]) -> None:
+    numba.set_num_threads(1)
+    warm_up()
+
+
+def worker_initializer(warm_up: Callable[[], None] | None) -> Callable[[], None]:
+    """A worker initializer: one numba thread, then ``warm_up()`` (a module-level function,
+    so that it can be sent to spawned workers), or only the thread limit for ``None``."""
+    if warm_up is None:
+        return single_thread_worker
+    return functools.partial(_prepare_worker, warm_up)
 
 
 def run_chunks(
@@ -357,11 +357,11 @@ class LocalPoolExecutor(_ExecutorBase):
         Number of worker processes, ``>= 1``.
     initializer : callable, optional
         Run once in every worker process when it starts (module-level
-        function); :func:`warm_worker` by default, ``None`` for nothing.
+        function); :func:`single_thread_worker` by default, ``None`` for nothing.
     """
 
     def __init__(
-        self, workers: int, *, initializer: Callable[[], None] | None = warm_worker
+        self, workers: int, *, initializer: Callable[[], None] | None = single_thread_worker
     ) -> None:
         self._workers = _check_count("workers", workers, 1)
         self._pool = cf.ProcessPoolExecutor(
@@ -428,8 +428,8 @@ class DaskExecutor(_ExecutorBase):
     scheduler : str
         Address of the Dask scheduler, e.g. ``"tcp://127.0.0.1:8786"``.
     initializer : callable, optional
-        Run once on every worker present at connection time; :func:`warm_worker`
-        by default, ``None`` for nothing.
+        Run once on every worker present at connection time;
+        :func:`single_thread_worker` by default, ``None`` for nothing.
     connect_timeout_s : float
         How long to try to reach the scheduler, s.
 
@@ -443,7 +443,7 @@ class DaskExecutor(_ExecutorBase):
         self,
         scheduler: str,
         *,
-        initializer: Callable[[], None] | None = warm_worker,
+        initializer: Callable[[], None] | None = single_thread_worker,
         connect_timeout_s: float = 10.0,
     ) -> None:
         try:
@@ -503,7 +503,7 @@ def make_executor(
     scheduler: str | None = None,
     workers: int | None = None,
     *,
-    initializer: Callable[[], None] | None = warm_worker,
+    initializer: Callable[[], None] | None = single_thread_worker,
     connect_timeout_s: float = 10.0,
 ) -> Executor:
     """The executor for a run: Dask cluster, local process pool, or in-process.

@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+from posebridge.errors import InputError
+
 __all__ = ["GeometryInputError", "MeshFileError"]
 
 
-class GeometryInputError(ValueError):
+class GeometryInputError(InputError):
     """A shape, pose or pair list of the wrong shape or with invalid values."""
 
 

@@ -33,7 +33,7 @@ wrist bend axis nearest the axis before it and the wrist point the point of
 the wrist bend axis nearest the axis after it. For a spherical wrist both are
 where the wrist axes meet. For an offset wrist whose bend axis meets the last
 axis away from the axis before it (arms whose second, third and fourth axes
-are parallel, :mod:`posebridge.kinematics.ik_analytic.offset_wrist`), the
+are parallel, :mod:`posebridge.kinematics.ik.analytic.offset_wrist`), the
 wrist point is where front and back part: the two solutions of joint 1 put
 it on either side of the first axis, while the wrist centre turns with
 joint 4 and can change sides between the two wrist solutions.
@@ -59,24 +59,82 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import Int8Array
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations, fk_frames
-from posebridge.kinematics.ik_types import Int8Array
 from posebridge.robot.model import Robot
 from posebridge.units import BoolArray, FloatArray
 
 __all__ = [
+    "BRANCH_LABELS",
+    "BRANCH_WORDS",
     "LABEL_TOLERANCE_M",
     "LABEL_TOLERANCE_RAD",
     "ArmPlanePoints",
     "BranchGeometry",
     "arm_plane_points",
     "branch_geometry",
+    "branch_parts",
+    "branch_words",
     "elbow_label",
     "label_branches",
     "labels_match",
+    "part_word",
     "shoulder_label",
     "wrist_label",
 ]
+
+BRANCH_WORDS = {
+    "shoulder": {1: "front", -1: "back", 0: "shoulder on axis 1"},
+    "elbow": {1: "up", -1: "down", 0: "elbow in line"},
+    "planar": {1: "left", -1: "right", 0: "elbow in line"},
+    "wrist": {1: "positive", -1: "negative", 0: "wrist straight"},
+}
+"""The one branch vocabulary: the word of each label value per part (``"planar"``: the
+elbow of planar arms and SCARA). Every text and every parsed word uses these."""
+
+BRANCH_LABELS = {
+    part: {word: value for value, word in BRANCH_WORDS[part].items() if value != 0}
+    for part in ("shoulder", "elbow", "wrist")
+}
+"""Label value of each word a cell file may require, per part: ``{"shoulder": {"front": 1,
+"back": -1}, "elbow": {"up": 1, "down": -1}, "wrist": {"positive": 1, "negative": -1}}``."""
+
+
+def part_word(scheme: str, part: str, label: int) -> str:
+    """The word of one branch part: ``part_word("arm", "wrist", -1) == "negative"``.
+
+    ``part`` is ``"shoulder"``, ``"elbow"`` or ``"wrist"``; planar arms name the
+    elbow ``left``/``right``.
+
+    >>> part_word("planar", "elbow", 1)
+    'left'
+    """
+    table = "planar" if scheme == "planar" and part == "elbow" else part
+    return BRANCH_WORDS[table][int(label)]
+
+
+def branch_parts(scheme: str, shoulder: int, elbow: int, wrist: int) -> list[str]:
+    """The words of a branch under a label scheme: three for ``"arm"``, the elbow's for
+    ``"planar"``, none for ``"none"``."""
+    if scheme == "arm":
+        return [
+            part_word(scheme, "shoulder", shoulder),
+            part_word(scheme, "elbow", elbow),
+            part_word(scheme, "wrist", wrist),
+        ]
+    if scheme == "planar":
+        return [part_word(scheme, "elbow", elbow)]
+    return []
+
+
+def branch_words(scheme: str, shoulder: int, elbow: int, wrist: int) -> str:
+    """Plain words of a branch: ``"front, up, positive"``, ``"left"`` or ``"single branch"``.
+
+    >>> branch_words("arm", 1, -1, 1)
+    'front, down, positive'
+    """
+    return ", ".join(branch_parts(scheme, shoulder, elbow, wrist)) or "single branch"
+
 
 LABEL_TOLERANCE_M = 1e-7
 """Distances (m) below this make the shoulder or elbow label undefined (0).

@@ -7,7 +7,7 @@ block of a homogeneous transform). ``row`` is one row of
 The Jacobian column formula (Siciliano, Sciavicco, Villani, Oriolo,
 *Robotics: Modelling, Planning and Control*, eq. 3.30) is written once here,
 in :func:`pose_and_jacobian`, for :mod:`posebridge.kinematics.jacobian` and
-:mod:`posebridge.kinematics.ik_numeric`.
+:mod:`posebridge.kinematics.ik.numeric`.
 """
 
 from __future__ import annotations

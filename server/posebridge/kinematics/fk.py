@@ -19,6 +19,7 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.errors import InputError
 from posebridge.kinematics.chain_kernels import chain_step, write_pose
 from posebridge.robot.model import Robot
 from posebridge.transforms import TransformError, check_transform
@@ -38,7 +39,7 @@ PARALLEL_THRESHOLD = 2048
 """Batches at least this large use all numba threads."""
 
 
-class KinematicsInputError(ValueError):
+class KinematicsInputError(InputError):
     """Joint or pose input of the wrong shape, or with non-finite values."""
 
 

@@ -2,22 +2,21 @@
 
 from __future__ import annotations
 
-import math
+from posebridge import errors
+from posebridge.errors import InputError
 
 __all__ = ["PlanningInputError", "check_non_negative", "check_positive"]
 
 
-class PlanningInputError(ValueError):
+class PlanningInputError(InputError):
     """A planning request that cannot be used: bad path index, resolution, grid, limits or joint values."""
 
 
-def check_positive(name: str, value: float) -> None:
+def check_positive(name: str, value: float) -> float:
     """Refuse ``value`` unless it is a positive finite number (PlanningInputError naming ``name``)."""
-    if not math.isfinite(value) or value <= 0.0:
-        raise PlanningInputError(f"{name}: expected a positive finite number, got {value!r}")
+    return errors.check_positive(name, value, PlanningInputError)
 
 
-def check_non_negative(name: str, value: float) -> None:
+def check_non_negative(name: str, value: float) -> float:
     """Refuse ``value`` unless it is a finite number >= 0 (PlanningInputError naming ``name``)."""
-    if not math.isfinite(value) or value < 0.0:
-        raise PlanningInputError(f"{name}: expected a finite number >= 0, got {value!r}")
+    return errors.check_positive(name, value, PlanningInputError, allow_zero=True)

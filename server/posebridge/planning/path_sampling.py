@@ -9,7 +9,7 @@ Waypoints (:class:`posebridge.cell.scene.ResolvedPath`) are resolved in order:
   target's required branch (an undefined, singular label matches either
   side), is collision-free if any such solution is, and is nearest the
   previous waypoint's configuration in the speed-weighted joint distance of
-  :func:`posebridge.kinematics.ik_types.joint_weights` (the first waypoint:
+  :func:`posebridge.kinematics.ik.finishing.joint_weights` (the first waypoint:
   nearest the robot's home configuration);
 * a Cartesian waypoint reached by a linear move gets the configuration the
   arm arrives with when it follows the line from the previous waypoint.
@@ -48,15 +48,16 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import Int8Array
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.model import Branch
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.geometry.clearance import collision_batch
-from posebridge.kinematics.branches import label_branches, labels_match
+from posebridge.kinematics.branches import BRANCH_LABELS, label_branches, labels_match
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
-from posebridge.kinematics.ik_numeric import solve_ik_numeric
-from posebridge.kinematics.ik_types import Int8Array, joint_weights
+from posebridge.kinematics.ik.finishing import joint_weights
+from posebridge.kinematics.ik.numeric import solve_ik_numeric
 from posebridge.planning.errors import PlanningInputError, check_positive
 from posebridge.transforms import (
     invert_transform,
@@ -83,8 +84,6 @@ MAX_SAMPLES_PER_SEGMENT = 20_000
 REASON_UNREACHABLE = "out of reach"
 REASON_LIMITS = "outside joint limits"
 REASON_BRANCH = "not on the required branch"
-
-_LABEL_VALUES = {"front": 1, "back": -1, "up": 1, "down": -1, "positive": 1, "negative": -1}
 
 
 @dataclass(frozen=True, eq=False)
@@ -198,9 +197,10 @@ def branch_requirement(branch: Branch | None) -> Int8Array:
     """Required labels ``[shoulder, elbow, wrist]`` (+1, -1, or 0 for either), shape (3,)."""
     required = np.zeros(3, dtype=np.int8)
     if branch is not None:
-        for k, word in enumerate((branch.shoulder, branch.elbow, branch.wrist)):
+        for k, part in enumerate(("shoulder", "elbow", "wrist")):
+            word = getattr(branch, part)
             if word is not None:
-                required[k] = _LABEL_VALUES[word]
+                required[k] = BRANCH_LABELS[part][word]
     return required
 
 

@@ -67,9 +67,8 @@ import numpy.typing as npt
 
 from posebridge.cell.clearance import cell_arm, clearance_scene
 from posebridge.cell.scene import Scene
-from posebridge.compute import Executor, ProgressCallback, run_chunks, warm_worker
+from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
-from posebridge.geometry.self_pairs import non_adjacent_pairs
 from posebridge.geometry.shapes import (
     ArmCapsules,
     Box,
@@ -78,8 +77,7 @@ from posebridge.geometry.shapes import (
     ObstacleSet,
     default_pair_mask,
 )
-from posebridge.kinematics.branches import branch_geometry, labels_match
-from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_tool
+from posebridge.kinematics.branches import branch_geometry, branch_words, labels_match
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
@@ -101,7 +99,6 @@ from posebridge.planning.reports import (
     TargetPlacementReport,
 )
 from posebridge.planning.time_scaling import trapezoidal_profile
-from posebridge.robot.library import load_robot
 from posebridge.transforms import (
     invert_transform,
     rotation_matrix_about_z,
@@ -124,7 +121,6 @@ __all__ = [
     "PlacementGrid",
     "PlacementResult",
     "search_base_placement",
-    "warm_placement_worker",
 ]
 
 CHUNK_CANDIDATES = 500
@@ -133,7 +129,6 @@ MAX_CANDIDATES = 1_000_000
 """Largest grid accepted."""
 BRANCHES = np.array([(s, e, w) for s in (1, -1) for e in (1, -1) for w in (1, -1)], dtype=np.int8)
 """The eight branches (shoulder, elbow, wrist) in the stable order, shape (8, 3)."""
-_BRANCH_WORDS = (("front", "back"), ("up", "down"), ("positive", "negative"))
 
 
 @dataclass(frozen=True)
@@ -603,14 +598,7 @@ def _optional(value: float, scale: float = 1.0) -> float | None:
 def _branch_words(index: int, scheme: str) -> str:
     """Plain words of branch ``index`` of :data:`BRANCHES` for a label scheme."""
     shoulder, elbow, wrist = (int(v) for v in BRANCHES[index])
-    if scheme == "planar":
-        return "left" if elbow > 0 else "right"
-    if scheme != "arm":
-        return "single branch"
-    return ", ".join(
-        words[0 if v > 0 else 1]
-        for words, v in zip(_BRANCH_WORDS, (shoulder, elbow, wrist), strict=True)
-    )
+    return branch_words(scheme, shoulder, elbow, wrist)
 
 
 def search_base_placement(
@@ -911,20 +899,3 @@ def _current_score(scene: Scene, grid: PlacementGrid, score: FloatArray) -> floa
             return None
         match.append(int(hit[0]))
     return float(score[tuple(match)])
-
-
-def warm_placement_worker() -> None:
-    """Worker initializer for placement sweeps: :func:`posebridge.compute.warm_worker`, then
-    the analytic IK of a six-axis arm and the collision kernels, on a batch below and one at
-    :data:`~posebridge.kinematics.fk.PARALLEL_THRESHOLD` (both drivers loaded from numba's cache)."""
-    warm_worker()
-    robot = load_robot("pb-arm6")
-    arm = ArmCapsules.from_robot(robot)
-    obstacles = ObstacleSet.from_shapes([Floor(-1.0)])
-    scene = ClearanceScene.build(arm, obstacles, np.eye(4), self_pairs=non_adjacent_pairs(arm))
-    solver = ik_solver(robot)
-    for count in (1, PARALLEL_THRESHOLD):
-        q = np.tile(robot.home_configuration(), (count, 1))
-        solver.solve(fk_tool(robot, q))
-        collision_batch(scene, q)
-        clearance_batch(scene, q)

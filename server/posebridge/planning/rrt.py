@@ -275,7 +275,7 @@ def _solve(
         return checker.free(as_array(state)[None])
 
     class EdgeValidator(ob.MotionValidator):
-        def checkMotion(self, first: object, second: object) -> bool:  # noqa: N802 - OMPL's name
+        def checkMotion(self, first: object, second: object) -> bool:  # OMPL's name
             q = edge_configurations(as_array(first), as_array(second), checker.levers, checker.step)
             return checker.free(q[1:])
 

@@ -57,17 +57,16 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import Int8Array, Int16Array
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.geometry.clearance import collision_batch
 from posebridge.kinematics.branches import label_branches, labels_match
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
-from posebridge.kinematics.ik_types import (
+from posebridge.kinematics.ik.finishing import (
     JOINT_CONTINUOUS,
     JOINT_REVOLUTE,
-    Int8Array,
-    Int16Array,
     joint_modes,
     joint_weights,
 )
@@ -317,7 +316,7 @@ def revolutions_of(scene: Scene, q: npt.ArrayLike) -> Int16Array:
 
     ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)`` for revolute joints with
     more than one revolution of range, ``floor(q / 2 pi + 1/2)`` for continuous
-    joints, 0 otherwise (the rule of :mod:`posebridge.kinematics.ik_types`).
+    joints, 0 otherwise (the rule of :mod:`posebridge.kinematics.ik.finishing`).
 
     Parameters
     ----------
@@ -536,7 +535,7 @@ def _track_batch(
     One IK batch for all samples (every solution, every revolution), then for
     every start each sample takes the allowed solution nearest the previous
     sample's configuration in the speed-weighted joint distance
-    (:func:`posebridge.kinematics.ik_types.joint_weights`), the previous one
+    (:func:`posebridge.kinematics.ik.finishing.joint_weights`), the previous one
     carrying on where none is allowed: the rule of :func:`sample_path`.
 
     Returns

@@ -33,6 +33,7 @@ from typing import NamedTuple
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.errors import InputError, check_positive
 from posebridge.units import FloatArray
 
 __all__ = [
@@ -54,7 +55,7 @@ __all__ = [
 IntArray = npt.NDArray[np.intp]
 
 
-class TimeScalingInputError(ValueError):
+class TimeScalingInputError(InputError):
     """A distance, limit, duration or sample array that is not usable for time scaling."""
 
 
@@ -71,11 +72,7 @@ class ProfileSamples(NamedTuple):
 
 
 def _check_positive(name: str, value: float, *, allow_inf: bool = False) -> float:
-    number = float(value)
-    if math.isnan(number) or number <= 0.0 or (math.isinf(number) and not allow_inf):
-        expected = "a positive number or infinity" if allow_inf else "a positive finite number"
-        raise TimeScalingInputError(f"{name}: expected {expected}, got {value!r}")
-    return number
+    return check_positive(name, value, TimeScalingInputError, allow_inf=allow_inf)
 
 
 def _check_finite(name: str, value: float) -> float:

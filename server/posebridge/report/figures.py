@@ -580,9 +580,11 @@ def joint_map_figure(
     if np.any(self_cells):
         category[self_cells] = self_slot
         names.append("arm itself")
-    # as on the page: an obstacle's region colour follows its index in the cell's obstacle
-    # list; regions and self collision are drawn translucent over white
-    colours = [PALETTE["paper"]] + [rgba(region_colour(k), _REGION_OPACITY) for k in present]
+    # as on the page: the k-th object the map shows (cell order) gets region colour k;
+    # regions and self collision are drawn translucent over white
+    colours = [PALETTE["paper"]] + [
+        rgba(region_colour(rank), _REGION_OPACITY) for rank in range(len(present))
+    ]
     if len(names) > len(colours):
         colours.append(rgba(PALETTE["ink"], _SELF_COLLISION_OPACITY))
     count = len(names)

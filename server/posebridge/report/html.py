@@ -33,6 +33,7 @@ from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.reports import BranchReport, TargetCheck, TargetCheckReport
 from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.errors import InputError
 from posebridge.palette import PALETTE
 from posebridge.planning.path_check import check_path
 from posebridge.planning.reports import PathCheckReport, SegmentReport
@@ -69,7 +70,7 @@ _MISSING = "—"
 _SCRIPT_END = re.compile(r"</(script)", re.IGNORECASE)
 
 
-class ReportError(ValueError):
+class ReportError(InputError):
     """The report cannot be built as asked (joint names, output file)."""
 
 

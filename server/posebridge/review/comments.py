@@ -25,6 +25,8 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import Literal
 
+from posebridge.errors import InputError
+
 __all__ = [
     "COMMENTS_SCHEMA_VERSION",
     "MAX_AUTHOR_CHARS",
@@ -79,7 +81,7 @@ class CommentError(ValueError):
     """A comment cannot be stored or read; the message names the field or the file."""
 
 
-class CommentInputError(CommentError):
+class CommentInputError(CommentError, InputError):
     """A pin, author or text is not acceptable; the message names the field."""
 
 

@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+from posebridge.errors import InputError
+
 __all__ = ["RobotDescriptionError"]
 
 
-class RobotDescriptionError(ValueError):
+class RobotDescriptionError(InputError):
     """A robot description file is missing, malformed or inconsistent.
 
     ``problems`` lists every finding as ``"<file>:<line>: <field>: <message>"``
@@ -15,3 +17,8 @@ class RobotDescriptionError(ValueError):
     def __init__(self, problems: list[str]) -> None:
         self.problems = list(problems)
         super().__init__("\n".join(self.problems))
+
+    @property
+    def detail(self) -> str:
+        """The findings joined by ``"; "`` (the HTTP API's message)."""
+        return "; ".join(self.problems)

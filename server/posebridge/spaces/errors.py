@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+from posebridge.errors import InputError
+
 __all__ = ["SpacesInputError"]
 
 
-class SpacesInputError(ValueError):
+class SpacesInputError(InputError):
     """A map request with a bad argument: unknown joint, grid too large, a robot
     outside the family a function handles; the message names the argument."""

@@ -37,11 +37,12 @@ import numpy as np
 import numpy.typing as npt
 from scipy.spatial.transform import Rotation, Slerp
 
+from posebridge.arrays import Int8Array, Int16Array
 from posebridge.geometry.clearance import capsule_segments_world
 from posebridge.geometry.shapes import ArmCapsules
 from posebridge.kinematics.fk import check_configurations, fk_frames
 from posebridge.kinematics.ik import solve_ik_all
-from posebridge.kinematics.ik_types import IkSolutions, Int8Array, Int16Array
+from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.robot.model import Robot
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.transforms import check_transform, invert_transform
@@ -101,7 +102,7 @@ class WaypointImages:
         ``q`` on the chosen joints: the image points.
     within_limits : array of bool, shape (S,)
     shoulder, elbow, wrist : array of int8, shape (S,)
-        Branch labels (:class:`posebridge.kinematics.ik_types.IkSolutions`).
+        Branch labels (:class:`posebridge.kinematics.ik.solutions.IkSolutions`).
     revolutions : array of int16, shape (S, n)
         Whole extra revolutions per joint.
     labels : tuple of str, length S

@@ -23,6 +23,7 @@ from posebridge.api.schemas.checks import (
 )
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import joints_si_from_request
+from posebridge.cell.arm_state import ArmState, arm_state
 from posebridge.cell.checks import check_targets
 from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
 from posebridge.cell.joint_log import JointLogTooLongError, parse_joint_log
@@ -73,6 +74,22 @@ async def diagnose_joint_pose(
         scene = cells.read().scene
         q = joints_si_from_request(scene.robot, [body.joints_deg])
         return diagnose_pose(scene, q[0])
+
+    return await compute_for(request, work)
+
+
+@router.post(
+    "/fk", summary="State of the arm in the cell", responses=error_responses(422, 429, 503)
+)
+async def read_arm_state(body: PoseDiagnosisRequest, cells: CellsDep, request: Request) -> ArmState:
+    """Per joint the signed limit margin, every obstacle or self pair inside the clearance
+    threshold with the capsule and depth, the singularity distances and the thresholds: what
+    the page shows beside the arm after every change of the joint values."""
+
+    def work() -> ArmState:
+        scene = cells.read().scene
+        q = joints_si_from_request(scene.robot, [body.joints_deg])
+        return arm_state(scene, q[0])
 
     return await compute_for(request, work)
 

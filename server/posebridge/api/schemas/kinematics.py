@@ -15,7 +15,7 @@ from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, model_valida
 from pydantic_core import PydanticCustomError
 
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations, fk_frames
-from posebridge.kinematics.ik_types import IkSolutions
+from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.kinematics.metrics import limit_margins, manipulability
 from posebridge.robot.model import Robot
 from posebridge.transforms import (

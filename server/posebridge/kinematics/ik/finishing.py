@@ -1,10 +1,5 @@
-"""The result of inverse kinematics, shared by every IK solver (analytic and numerical).
-
-For ``N`` target poses a solver returns :class:`IkSolutions` with ``M``
-solution slots per pose. Every slot holds one joint configuration (or NaN when
-empty), whether it reaches the pose within the requested tolerance
-(``valid``), whether it is inside the joint limits, its arm branch labels and
-the whole extra revolutions of joints whose range exceeds one revolution.
+"""The finishing step every IK solver shares: raw candidates become :class:`IkSolutions`
+(:mod:`posebridge.kinematics.ik.solutions`) slots.
 
 Slots in each row are sorted: valid and within limits first, then valid but
 outside limits, then empty; inside each group by the weighted joint distance
@@ -31,70 +26,51 @@ Continuous joints count from zero.
 Seed distance: ``sum_j ((q_j - seed_j) / v_max_j)^2``, the squared joint
 distance weighted by each joint's speed limit, so that metres and radians are
 comparable (a time-like measure; common practice, no source).
-
-Branch label values (see :mod:`posebridge.kinematics.branches` for the
-definitions in words): ``+1`` front / up (left for planar arms) / positive,
-``-1`` back / down (right) / negative, ``0`` not applicable or undefined
-(singular).
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
 
 import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import BoolArray, FloatArray, Int8Array, Int16Array
+from posebridge.kinematics.branches import label_branches
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, KinematicsInputError
+from posebridge.kinematics.ik.inputs import check_seed
+from posebridge.kinematics.ik.solutions import (
+    REASON_NO_WITHIN_LIMITS,
+    REASON_OUT_OF_REACH,
+    IkSolutions,
+)
 from posebridge.robot.model import Robot
-from posebridge.units import BoolArray, FloatArray
 
 __all__ = [
+    "BLOCK_SIZE",
     "JOINT_CONTINUOUS",
     "JOINT_PRISMATIC",
     "JOINT_REVOLUTE",
     "JOINT_REVOLUTE_ONE_REVOLUTION",
-    "LABEL_SCHEMES",
-    "REASON_CODES",
-    "REASON_NO_WITHIN_LIMITS",
-    "REASON_ORIENTATION",
-    "REASON_OUT_OF_REACH",
-    "IkSolutions",
-    "Int8Array",
-    "Int16Array",
-    "check_positive",
-    "check_seed",
-    "check_target_poses",
-    "BLOCK_SIZE",
-    "finish_rows",
+    "KernelOutputs",
     "empty_outputs",
+    "finish_rows",
     "finish_solutions",
     "joint_modes",
     "joint_table",
     "joint_weights",
-    "reasons_from_codes",
+    "revolution_variant_counts",
     "slots_per_candidate",
     "solutions_from_outputs",
-    "revolution_variant_counts",
 ]
 
-Int8Array = npt.NDArray[np.int8]
-Int16Array = npt.NDArray[np.int16]
 KernelOutputs = tuple[
     FloatArray, BoolArray, BoolArray, Int8Array, Int8Array, Int8Array, Int16Array, Int8Array
 ]
 """Output arrays of a solver kernel (:func:`empty_outputs`): q, valid, within, shoulder,
 elbow, wrist, revolutions, reason codes."""
 
-REASON_OUT_OF_REACH = "out of reach"
-REASON_ORIENTATION = "orientation not reachable"
-REASON_NO_WITHIN_LIMITS = "outside joint limits on every branch"
-REASON_CODES = ("", REASON_OUT_OF_REACH, REASON_ORIENTATION, REASON_NO_WITHIN_LIMITS)
-"""Reason text by code: 0 solved, 1 out of reach, 2 orientation not reachable,
-3 valid only outside the joint limits. Kernels write codes, :func:`reasons_from_codes`
-turns them into text."""
 
 JOINT_PRISMATIC = 0
 JOINT_REVOLUTE = 1
@@ -103,136 +79,12 @@ JOINT_CONTINUOUS = 2
 JOINT_REVOLUTE_ONE_REVOLUTION = 3
 """Revolute joint whose range lies inside (-pi, pi]: only the wrapped value can be in limits."""
 
+
 _TWO_PI = 2.0 * np.pi
 BLOCK_SIZE = 256
 """Poses per block in the parallel IK drivers (one scratch allocation per block)."""
-_ORTHONORMAL_TOLERANCE = 1e-6
 _REVOLUTION_SLACK = 1e-12
 """Revolutions (fractions of 2 pi) by which a value may pass a limit and still count as inside."""
-
-LABEL_SCHEMES = ("arm", "planar", "none")
-"""``"arm"``: shoulder front/back, elbow up/down, wrist positive/negative (six- and
-seven-axis arms); ``"planar"``: elbow left/right only (planar arms, SCARA);
-``"none"``: no branches (gantry)."""
-
-_SHOULDER_WORDS = {1: "front", -1: "back", 0: "shoulder on axis 1"}
-_ELBOW_WORDS = {1: "up", -1: "down", 0: "elbow in line"}
-_PLANAR_ELBOW_WORDS = {1: "left", -1: "right", 0: "elbow in line"}
-_WRIST_WORDS = {1: "positive", -1: "negative", 0: "wrist straight"}
-
-
-@dataclass(frozen=True, eq=False)
-class IkSolutions:
-    """All IK solutions for N target poses, M solution slots per pose (SI units).
-
-    Attributes
-    ----------
-    q : array, shape (N, M, n)
-        Joint values (rad or m); NaN in empty slots.
-    valid : array of bool, shape (N, M)
-        The slot holds a solution that reaches the pose within tolerance (on
-        the controlled pose components, see ``ignored_components``).
-    within_limits : array of bool, shape (N, M)
-        The solution is inside every joint's position limits (False for empty
-        slots).
-    shoulder : array of int8, shape (N, M)
-        +1 front, -1 back, 0 not applicable or undefined (singular).
-    elbow : array of int8, shape (N, M)
-        +1 up, -1 down (planar arms and SCARA: +1 left, -1 right), 0 not
-        applicable or undefined.
-    wrist : array of int8, shape (N, M)
-        +1 positive, -1 negative, 0 not applicable or singular.
-    revolutions : array of int16, shape (N, M, n)
-        Whole extra revolutions (multiples of 2 pi) added to joints whose range
-        exceeds one revolution, relative to the value wrapped to (-pi, pi].
-    reason : tuple of str, length N
-        ``""`` where a valid solution within limits exists, otherwise why not:
-        ``"out of reach"``, ``"orientation not reachable"``, ``"outside joint
-        limits on every branch"`` or a solver-specific explanation.
-    ignored_components : tuple of str
-        Pose components the arm does not control (from ``"x", "y", "z",
-        "roll", "pitch", "yaw"``), e.g. ``("z", "roll", "pitch")`` for a
-        planar 2R arm in the x-y plane.
-    method : str
-        Solver and published method, e.g. ``"analytic: ortho-parallel,
-        Brandstötter et al. 2014"``.
-    joint_names : tuple of str
-        Joint names for labels; ``j1..jn`` when empty.
-    label_scheme : str
-        One of :data:`LABEL_SCHEMES`; decides the words of :meth:`branch_label`.
-    """
-
-    q: FloatArray
-    valid: BoolArray
-    within_limits: BoolArray
-    shoulder: Int8Array
-    elbow: Int8Array
-    wrist: Int8Array
-    revolutions: Int16Array
-    reason: tuple[str, ...]
-    ignored_components: tuple[str, ...]
-    method: str
-    joint_names: tuple[str, ...] = ()
-    label_scheme: str = "arm"
-
-    def __post_init__(self) -> None:
-        if self.q.ndim != 3:
-            raise ValueError(f"IkSolutions.q: expected shape (N, M, n), got {self.q.shape}")
-        N, M, n = self.q.shape
-        for name in ("valid", "within_limits", "shoulder", "elbow", "wrist"):
-            shape = getattr(self, name).shape
-            if shape != (N, M):
-                raise ValueError(f"IkSolutions.{name}: expected shape {(N, M)}, got {shape}")
-        if self.revolutions.shape != (N, M, n):
-            raise ValueError(
-                f"IkSolutions.revolutions: expected shape {(N, M, n)}, got {self.revolutions.shape}"
-            )
-        if len(self.reason) != N:
-            raise ValueError(f"IkSolutions.reason: expected {N} entries, got {len(self.reason)}")
-        if self.joint_names and len(self.joint_names) != n:
-            raise ValueError(
-                f"IkSolutions.joint_names: expected {n} names, got {len(self.joint_names)}"
-            )
-        if self.label_scheme not in LABEL_SCHEMES:
-            raise ValueError(
-                f"IkSolutions.label_scheme: expected one of {LABEL_SCHEMES}, got {self.label_scheme!r}"
-            )
-
-    @property
-    def n_poses(self) -> int:
-        """Number of target poses ``N``."""
-        return int(self.q.shape[0])
-
-    @property
-    def n_slots(self) -> int:
-        """Number of solution slots per pose ``M``."""
-        return int(self.q.shape[1])
-
-    def branch_label(self, i: int, m: int) -> str:
-        """Plain-words branch of slot ``m`` of pose ``i``.
-
-        Examples: ``"front, up, positive"``, ``"back, down, negative, j6 +1 rev"``,
-        ``"left"`` (planar arm), ``"c -1 rev"`` or ``"single branch"`` (gantry).
-        Empty slots give ``""``.
-        """
-        if not np.all(np.isfinite(self.q[i, m])):
-            return ""
-        words: list[str] = []
-        if self.label_scheme == "arm":
-            words.append(_SHOULDER_WORDS[int(self.shoulder[i, m])])
-            words.append(_ELBOW_WORDS[int(self.elbow[i, m])])
-            words.append(_WRIST_WORDS[int(self.wrist[i, m])])
-        elif self.label_scheme == "planar":
-            words.append(_PLANAR_ELBOW_WORDS[int(self.elbow[i, m])])
-        names = self.joint_names or tuple(f"j{k + 1}" for k in range(self.q.shape[2]))
-        for k, count in enumerate(self.revolutions[i, m]):
-            if count != 0:
-                words.append(f"{names[k]} {int(count):+d} rev")
-        return ", ".join(words) if words else "single branch"
-
-    def valid_solutions(self, i: int) -> list[int]:
-        """Slot indices ``m`` of pose ``i`` that hold a valid solution, in stored order."""
-        return [int(m) for m in np.flatnonzero(self.valid[i])]
 
 
 def joint_modes(robot: Robot) -> Int8Array:
@@ -288,98 +140,6 @@ def revolution_variant_counts(robot: Robot) -> npt.NDArray[np.int64]:
 def slots_per_candidate(robot: Robot, all_revolutions: bool) -> int:
     """Output slots needed per raw candidate: 1, or the product of :func:`revolution_variant_counts`."""
     return int(np.prod(revolution_variant_counts(robot))) if all_revolutions else 1
-
-
-def check_positive(value: float, name: str) -> float:
-    """``value`` as a float if it is positive and finite (a tolerance), else KinematicsInputError."""
-    number = float(value)
-    if not np.isfinite(number) or number <= 0.0:
-        raise KinematicsInputError(f"{name}: expected a positive finite number, got {value!r}")
-    return number
-
-
-def check_target_poses(T_base_tool: npt.ArrayLike) -> FloatArray:
-    """Validate target poses and return them as C-contiguous float64, shape (N, 4, 4).
-
-    Raises
-    ------
-    KinematicsInputError
-        Wrong shape, non-finite values, or a rotation block that is not orthonormal.
-    """
-    T = np.ascontiguousarray(T_base_tool, dtype=np.float64)
-    if T.ndim != 3 or T.shape[1:] != (4, 4):
-        raise KinematicsInputError(f"target poses: expected shape (N, 4, 4), got {T.shape}")
-    deviation, determinant, finite = _pose_checks(T)
-    if not finite:
-        raise KinematicsInputError("target poses: contain NaN or infinite values")
-    if deviation > _ORTHONORMAL_TOLERANCE:
-        raise KinematicsInputError(
-            f"target poses: rotation blocks are not orthonormal (max |R R^T - I| = {deviation:.3g} > {_ORTHONORMAL_TOLERANCE:g})"
-        )
-    if determinant < 0.0:
-        raise KinematicsInputError("target poses: a rotation block has determinant -1")
-    return T
-
-
-@nb.njit(cache=True)
-def _pose_checks(T):
-    """Largest ``|R R^T - I|``, smallest ``det R`` and whether all entries are finite."""
-    deviation = 0.0
-    determinant = np.inf
-    finite = True
-    for i in range(T.shape[0]):
-        for r in range(4):
-            for c in range(4):
-                if not np.isfinite(T[i, r, c]):
-                    finite = False
-        for r in range(3):
-            for c in range(3):
-                dot = T[i, r, 0] * T[i, c, 0] + T[i, r, 1] * T[i, c, 1] + T[i, r, 2] * T[i, c, 2]
-                deviation = max(deviation, abs(dot - (1.0 if r == c else 0.0)))
-        det = (
-            T[i, 0, 0] * (T[i, 1, 1] * T[i, 2, 2] - T[i, 1, 2] * T[i, 2, 1])
-            - T[i, 0, 1] * (T[i, 1, 0] * T[i, 2, 2] - T[i, 1, 2] * T[i, 2, 0])
-            + T[i, 0, 2] * (T[i, 1, 0] * T[i, 2, 1] - T[i, 1, 1] * T[i, 2, 0])
-        )
-        determinant = min(determinant, det)
-    return deviation, determinant, finite
-
-
-def check_seed(robot: Robot, seed: npt.ArrayLike | None, n_poses: int) -> tuple[FloatArray, bool]:
-    """Seed configurations broadcast to every pose.
-
-    Parameters
-    ----------
-    robot : Robot
-    seed : array-like, shape (n,) or (N, n), or None
-    n_poses : int
-        ``N``.
-
-    Returns
-    -------
-    seed : array, shape (N, n)
-        Zeros when no seed is given.
-    has_seed : bool
-    """
-    if seed is None:
-        return np.zeros((n_poses, robot.dof)), False
-    array = np.asarray(seed, dtype=np.float64)
-    if array.ndim == 1:
-        array = array[None, :]
-    if array.ndim != 2 or array.shape[1] != robot.dof or array.shape[0] not in (1, n_poses):
-        raise KinematicsInputError(
-            f"seed: expected shape ({robot.dof},) or ({n_poses}, {robot.dof}), got {np.shape(seed)}"
-        )
-    if not np.all(np.isfinite(array)):
-        raise KinematicsInputError("seed: contains NaN or infinite values")
-    return np.ascontiguousarray(np.broadcast_to(array, (n_poses, robot.dof))), True
-
-
-def reasons_from_codes(codes: npt.NDArray[np.int8]) -> tuple[str, ...]:
-    """Reason texts of :data:`REASON_CODES` for an array of codes, shape (N,)."""
-    if not np.any(codes):
-        return ("",) * codes.shape[0]
-    return tuple(np.asarray(REASON_CODES, dtype=object)[codes].tolist())
 
 
 @nb.njit(cache=True, inline="always")
@@ -716,8 +476,6 @@ def finish_solutions(
     ok_array = np.ascontiguousarray(np.broadcast_to(np.asarray(ok, dtype=bool), (N, M0)))
     ok_array = ok_array & np.all(np.isfinite(q), axis=2)
     if labels is None:
-        from posebridge.kinematics.branches import label_branches
-
         label_array = np.zeros((N, M0, 3), dtype=np.int8)
         flat = q.reshape(N * M0, n)
         keep = ok_array.reshape(N * M0)

@@ -23,7 +23,7 @@ first link's direction ``atan2(W - P1) - atan2(|b| sin γ, |a| + |b| cos γ)``.
 * 2R: controls x and y of the TCP (ignores z, roll, pitch, yaw).
 * 3R: x, y and the heading about z; W is axis 3, ``W = p - Rz(heading) w``
   (ignores z, roll, pitch).
-* SCARA (:mod:`posebridge.kinematics.ik_analytic.scara`): as 3R plus the
+* SCARA (:mod:`posebridge.kinematics.ik.analytic.scara`): as 3R plus the
   quill height (ignores roll and pitch).
 
 The heading of a target is the rotation about z nearest to
@@ -40,14 +40,9 @@ import numpy.typing as npt
 
 from posebridge.kinematics.branches import LABEL_TOLERANCE_M
 from posebridge.kinematics.fk import fk_flange, fk_frames, fk_tool
-from posebridge.kinematics.ik_types import (
-    REASON_ORIENTATION,
-    REASON_OUT_OF_REACH,
-    IkSolutions,
-    check_seed,
-    check_target_poses,
-    finish_solutions,
-)
+from posebridge.kinematics.ik.finishing import finish_solutions
+from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
+from posebridge.kinematics.ik.solutions import REASON_ORIENTATION, REASON_OUT_OF_REACH, IkSolutions
 from posebridge.robot.model import Robot
 from posebridge.transforms import rotation_matrix_about_z
 from posebridge.units import FloatArray

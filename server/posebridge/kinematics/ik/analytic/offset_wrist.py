@@ -76,12 +76,12 @@ dropped if the TCP misses by more than the position tolerance or the
 rotation difference (Frobenius norm, about sqrt(2) times the angle) exceeds
 the orientation tolerance.
 
-Kernel layout (speed), as in :mod:`~posebridge.kinematics.ik_analytic.ortho_parallel`:
+Kernel layout (speed), as in :mod:`~posebridge.kinematics.ik.analytic.ortho_parallel`:
 per block of poses the branchy scalar geometry, all arctangents of the block
 in one vectorised loop
-(:func:`~posebridge.kinematics.ik_analytic.ortho_parallel.atan2_many`), the
+(:func:`~posebridge.kinematics.ik.analytic.ortho_parallel.atan2_many`), the
 assembly of joint values, then the slot finishing of
-:func:`posebridge.kinematics.ik_types.finish_rows`.
+:func:`posebridge.kinematics.ik.finishing.finish_rows`.
 """
 
 from __future__ import annotations
@@ -100,19 +100,17 @@ from posebridge.kinematics.branches import (
     wrist_label,
 )
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_flange, fk_frames, tool_tail
-from posebridge.kinematics.ik_analytic.ortho_parallel import atan2_many
-from posebridge.kinematics.ik_types import (
+from posebridge.kinematics.ik.analytic.ortho_parallel import atan2_many
+from posebridge.kinematics.ik.finishing import (
     BLOCK_SIZE,
-    IkSolutions,
-    check_seed,
-    check_target_poses,
     empty_outputs,
     finish_rows,
     joint_table,
-    reasons_from_codes,
     slots_per_candidate,
     solutions_from_outputs,
 )
+from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
+from posebridge.kinematics.ik.solutions import IkSolutions, reasons_from_codes
 from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform, rotation_matrix_about_z
 from posebridge.units import FloatArray
@@ -806,7 +804,7 @@ def solve_offset_wrist(
         Orders the solutions; joint 1 (shoulder singularity without lateral
         offset) and joint 6 (wrist singularity) take its values.
     all_revolutions : bool
-        One slot per in-limit revolution variant (see :mod:`posebridge.kinematics.ik_types`).
+        One slot per in-limit revolution variant (see :mod:`posebridge.kinematics.ik.finishing`).
     position_tolerance_m, orientation_tolerance_rad : float
         Largest accepted TCP position error and rotation difference of a
         valid solution (module docstring).

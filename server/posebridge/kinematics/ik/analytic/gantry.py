@@ -10,7 +10,7 @@ turns the tool about an axis parallel to the base z axis (``ρ = s q_4``,
 with ``D = [d_1 d_2 d_3]`` and ``c`` a point of the rotation axis at zero.
 The heading ρ is the rotation about z nearest to ``R_target R_tcp0^T``
 (``atan2(M10 - M01, M00 + M11)``, see
-:mod:`posebridge.kinematics.ik_analytic.planar`); the linear axes then
+:mod:`posebridge.kinematics.ik.analytic.planar`); the linear axes then
 solve the 3x3 linear system ``D q_xyz = p_target - p_tcp0 - (Rz(ρ) - I)(p_tcp0 - c)``.
 There is one solution (plus revolution variants of the tool rotation); it reaches
 every position, so only the joint limits can rule it out. Controls x, y, z
@@ -25,12 +25,9 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.kinematics.fk import fk_flange, fk_frames, fk_tool
-from posebridge.kinematics.ik_types import (
-    IkSolutions,
-    check_seed,
-    check_target_poses,
-    finish_solutions,
-)
+from posebridge.kinematics.ik.finishing import finish_solutions
+from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
+from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.robot.model import Robot
 from posebridge.transforms import rotation_matrix_about_z
 from posebridge.units import FloatArray

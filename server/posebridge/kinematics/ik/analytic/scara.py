@@ -3,7 +3,7 @@
 The first two joints and the tool roll turn about axes parallel to the base z
 axis, the quill (a prismatic joint, third or fourth) moves along z. The arm
 is a planar three-joint arm in x-y (position and heading, two elbow
-branches, closed form of :mod:`posebridge.kinematics.ik_analytic.planar`)
+branches, closed form of :mod:`posebridge.kinematics.ik.analytic.planar`)
 with the quill setting the height: ``q_quill = s (z_target - z_tcp0)``.
 Controls x, y, z and the heading about z; ignores roll and pitch.
 """
@@ -12,14 +12,14 @@ from __future__ import annotations
 
 import numpy as np
 
-from posebridge.kinematics.ik_analytic.planar import PlanarGeometry
+from posebridge.kinematics.ik.analytic.planar import PlanarGeometry
 from posebridge.robot.model import Robot
 
 __all__ = ["ScaraGeometry"]
 
 
 class ScaraGeometry(PlanarGeometry):
-    """Geometry of a SCARA arm; solved by :func:`posebridge.kinematics.ik_analytic.planar.solve_planar`."""
+    """Geometry of a SCARA arm; solved by :func:`posebridge.kinematics.ik.analytic.planar.solve_planar`."""
 
     @classmethod
     def from_robot(cls, robot: Robot) -> PlanarGeometry | None:

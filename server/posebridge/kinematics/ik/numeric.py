@@ -34,7 +34,7 @@ converges only linearly.
 Distinct solutions: a converged configuration is kept unless one already
 kept lies within :data:`DISTINCT_TOLERANCE` in every joint, revolute joints
 compared modulo 2 pi (revolution variants are produced afterwards by
-:func:`posebridge.kinematics.ik_types.finish_solutions`). ``max_solutions=1``
+:func:`posebridge.kinematics.ik.finishing.finish_solutions`). ``max_solutions=1``
 stops at the first solution (fast, for batch checks and dragging); larger
 values keep restarting until that many distinct solutions were found or the
 starts are used up. A redundant arm (seven axes) has infinitely many
@@ -53,15 +53,9 @@ import numpy.typing as npt
 from posebridge.kinematics.branches import branch_geometry
 from posebridge.kinematics.chain_kernels import pose_and_jacobian
 from posebridge.kinematics.fk import KinematicsInputError, tool_tail
-from posebridge.kinematics.ik_types import (
-    REASON_OUT_OF_REACH,
-    IkSolutions,
-    check_positive,
-    check_seed,
-    check_target_poses,
-    finish_solutions,
-    joint_modes,
-)
+from posebridge.kinematics.ik.finishing import finish_solutions, joint_modes
+from posebridge.kinematics.ik.inputs import check_positive, check_seed, check_target_poses
+from posebridge.kinematics.ik.solutions import REASON_OUT_OF_REACH, IkSolutions
 from posebridge.robot.model import Robot
 from posebridge.units import FloatArray, deg_from_rad, mm_from_m
 
@@ -474,7 +468,7 @@ def solve_ik_numeric(
         unconstrained and ``within_limits`` tells which solutions respect them.
     all_revolutions : bool
         One slot per in-limit revolution variant of joints whose range exceeds one
-        revolution (see :func:`posebridge.kinematics.ik_types.finish_solutions`).
+        revolution (see :func:`posebridge.kinematics.ik.finishing.finish_solutions`).
 
     Returns
     -------

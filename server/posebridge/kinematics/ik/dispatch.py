@@ -4,20 +4,20 @@
 its ``kind`` label), in this order:
 
 1. six-axis ortho-parallel arm with a spherical wrist: closed form of
-   Brandstötter et al. (2014), :mod:`posebridge.kinematics.ik_analytic.ortho_parallel`;
+   Brandstötter et al. (2014), :mod:`posebridge.kinematics.ik.analytic.ortho_parallel`;
 2. six-axis arm with joints 2, 3 and 4 parallel and an offset wrist: closed form,
-   :mod:`~posebridge.kinematics.ik_analytic.offset_wrist`;
-3. planar 2R / 3R arm in the base x-y plane, :mod:`~posebridge.kinematics.ik_analytic.planar`;
-4. SCARA, :mod:`~posebridge.kinematics.ik_analytic.scara`;
-5. gantry (three linear axes, optional tool rotation), :mod:`~posebridge.kinematics.ik_analytic.gantry`;
-6. any other serial chain: multi-start numerical IK, :mod:`posebridge.kinematics.ik_numeric`.
+   :mod:`~posebridge.kinematics.ik.analytic.offset_wrist`;
+3. planar 2R / 3R arm in the base x-y plane, :mod:`~posebridge.kinematics.ik.analytic.planar`;
+4. SCARA, :mod:`~posebridge.kinematics.ik.analytic.scara`;
+5. gantry (three linear axes, optional tool rotation), :mod:`~posebridge.kinematics.ik.analytic.gantry`;
+6. any other serial chain: multi-start numerical IK, :mod:`posebridge.kinematics.ik.numeric`.
 
 Each analytic family accepts a robot only after checking its own canonical
 forward kinematics against :func:`posebridge.kinematics.fk.fk_flange`.
 :func:`ik_solver` makes this choice once per robot object and remembers it.
 
 The result, slot order, revolution variants and branch labels are described in
-:mod:`posebridge.kinematics.ik_types` and :mod:`posebridge.kinematics.branches`.
+:mod:`posebridge.kinematics.ik.finishing` and :mod:`posebridge.kinematics.branches`.
 Analytic solvers reach the orientation exactly (spherical wrist, heading
 joint), so ``orientation_tolerance_rad`` only matters for the numerical solver
 and for the offset-wrist family, which checks every solution against both
@@ -31,19 +31,18 @@ from dataclasses import dataclass
 
 import numpy.typing as npt
 
-from posebridge.kinematics.ik_analytic.gantry import GantryGeometry, solve_gantry
-from posebridge.kinematics.ik_analytic.offset_wrist import (
+from posebridge.kinematics.ik.analytic.gantry import GantryGeometry, solve_gantry
+from posebridge.kinematics.ik.analytic.offset_wrist import (
     OffsetWristGeometry,
     solve_offset_wrist,
 )
-from posebridge.kinematics.ik_analytic.ortho_parallel import (
-    OrthoParallelGeometry,
-    solve_ortho_parallel,
-)
-from posebridge.kinematics.ik_analytic.planar import PlanarGeometry, solve_planar
-from posebridge.kinematics.ik_analytic.scara import ScaraGeometry
-from posebridge.kinematics.ik_numeric import solve_ik_numeric
-from posebridge.kinematics.ik_types import IkSolutions, check_positive
+from posebridge.kinematics.ik.analytic.ortho_parallel import solve_ortho_parallel
+from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
+from posebridge.kinematics.ik.analytic.planar import PlanarGeometry, solve_planar
+from posebridge.kinematics.ik.analytic.scara import ScaraGeometry
+from posebridge.kinematics.ik.inputs import check_positive
+from posebridge.kinematics.ik.numeric import solve_ik_numeric
+from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.robot.model import Robot
 
 __all__ = ["IkSolver", "ik_solver", "solve_ik_all"]
@@ -198,7 +197,7 @@ def solve_ik_all(
     Returns
     -------
     IkSolutions
-        See :mod:`posebridge.kinematics.ik_types`.
+        See :mod:`posebridge.kinematics.ik.finishing`.
 
     Examples
     --------

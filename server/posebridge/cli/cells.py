@@ -1,0 +1,95 @@
+"""Commands about one cell file: ``check``, ``diagnose``, ``report`` and ``schema``."""
+
+from __future__ import annotations
+
+import argparse
+from pathlib import Path
+from typing import Any
+
+from posebridge.cli.common import (
+    EXIT_OK,
+    exit_for_findings,
+    joints_argument,
+    load_scene,
+    print_json,
+    print_report,
+)
+from posebridge.cli.options import SharedOptions, joints_or, options
+
+
+def _cmd_check(args: argparse.Namespace) -> int:
+    from posebridge.cell.checks import check_targets
+    from posebridge.cell.report_text import render_target_check
+
+    report = check_targets(load_scene(args.cell))
+    print_report(report, render_target_check, as_json=args.json)
+    return exit_for_findings(report.findings)
+
+
+def _cmd_diagnose(args: argparse.Namespace) -> int:
+    from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
+    from posebridge.cell.joint_log import read_joint_log
+    from posebridge.cell.report_text import render_log_diagnosis, render_pose_diagnosis
+
+    scene = load_scene(args.cell)
+    robot = scene.robot
+    if args.log:
+        log_result = diagnose_log(scene, read_joint_log(args.log, robot), include_rows=args.json)
+        print_report(log_result, render_log_diagnosis, as_json=args.json)
+        return exit_for_findings(log_result.findings)
+    q = joints_argument(args.joints, "--joints", robot)
+    pose_result = diagnose_pose(scene, q)
+    print_report(pose_result, render_pose_diagnosis, as_json=args.json)
+    return exit_for_findings(pose_result.findings)
+
+
+def _cmd_report(args: argparse.Namespace) -> int:
+    from posebridge.report import write_report
+
+    write_report(Path(args.cell), Path(args.output))
+    print(f"review report written to {args.output}")
+    return EXIT_OK
+
+
+def _cmd_schema(args: argparse.Namespace) -> int:
+    from posebridge.cell import cell_json_schema
+
+    print_json(cell_json_schema())
+    return EXIT_OK
+
+
+def add_check(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge check CELL [--json]``."""
+    command = sub.add_parser(
+        "check",
+        help="check every target of a cell (exit 1 on findings)",
+        parents=[shared.cell, shared.json],
+    )
+    command.set_defaults(run=_cmd_check)
+
+
+def add_diagnose(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge diagnose CELL (--joints | --log) [--json]``."""
+    what = joints_or("--log", "CSV log: header of joint names (optional time_s column), deg/mm")
+    command = sub.add_parser(
+        "diagnose",
+        help="diagnose a fault pose or a logged run in a cell",
+        parents=[shared.cell, what, shared.json],
+    )
+    command.set_defaults(run=_cmd_diagnose)
+
+
+def add_report(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge report CELL -o OUTPUT``."""
+    own = options()
+    own.add_argument("-o", "--output", required=True, help="output .html file")
+    command = sub.add_parser(
+        "report", help="write a self-contained HTML review report", parents=[shared.cell, own]
+    )
+    command.set_defaults(run=_cmd_report)
+
+
+def add_schema(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge schema``."""
+    command = sub.add_parser("schema", help="print the JSON Schema of cell files")
+    command.set_defaults(run=_cmd_schema)

@@ -1,0 +1,159 @@
+"""What every command of the command line shares: exit codes, the input error,
+parsing of mm/deg arguments and CSV files, printing, the progress bar.
+
+Values at this boundary are millimetres and degrees (prismatic joints in mm).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+from collections.abc import Callable, Sequence
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+import numpy as np
+
+from posebridge.errors import InputError
+from posebridge.units import FloatArray, joints_si_from_user
+
+if TYPE_CHECKING:
+    from pydantic import BaseModel
+
+    from posebridge.robot.model import Robot
+
+
+EXIT_OK = 0
+EXIT_FINDINGS = 1
+EXIT_BAD_INPUT = 2
+EXIT_INTERNAL = 3
+
+
+class CommandLineInputError(InputError):
+    """Bad command-line input; the message is printed as one line."""
+
+
+# ---------------------------------------------------------------- parsing
+
+
+def parse_numbers(text: str, what: str, count: int | None = None) -> list[float]:
+    """Comma-separated finite numbers, e.g. ``"0, -20, 20, 0, 90, 0"``."""
+    parts = [p.strip() for p in text.split(",")]
+    values: list[float] = []
+    for index, part in enumerate(parts, start=1):
+        try:
+            value = float(part)
+        except ValueError:
+            raise CommandLineInputError(f"{what}: value {index} {part!r} is not a number") from None
+        if not math.isfinite(value):
+            raise CommandLineInputError(f"{what}: value {index} {part!r} is not a finite number")
+        values.append(value)
+    if count is not None and len(values) != count:
+        raise CommandLineInputError(
+            f"{what}: expected {count} comma-separated values, got {len(values)}"
+        )
+    return values
+
+
+def joints_argument(text: str, option: str, robot: Robot) -> FloatArray:
+    """One value per joint of ``robot``, comma-separated (deg; mm for prismatic), in SI."""
+    return joints_si_from_user(parse_numbers(text, option, robot.dof), robot.prismatic)
+
+
+def tool_from_argument(text: str | None) -> FloatArray | None:
+    """``--tool "x,y,z,roll,pitch,yaw"`` (mm, deg) as T_flange_tool, shape (4, 4), in m."""
+    from posebridge.transforms import transform_from_position_rpy
+    from posebridge.units import m_from_mm
+
+    if text is None:
+        return None
+    values = parse_numbers(text, "--tool", 6)
+    return transform_from_position_rpy(m_from_mm(values[:3]), values[3:], degrees=True)
+
+
+def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray:
+    """Rows of numbers, with an optional header naming ``columns`` in any order, read as a
+    size-capped stream (:func:`posebridge.value_files.read_value_rows`).
+
+    Returns
+    -------
+    values : array, shape (rows, len(columns)), in the order of ``columns``
+    """
+    from posebridge.value_files import ValueFileError, read_value_rows
+
+    try:
+        return read_value_rows(path, columns, what)
+    except ValueFileError as error:
+        raise CommandLineInputError(str(error)) from error
+
+
+def load_scene(cell_argument: str) -> Any:
+    """The resolved scene (SI arrays) of the cell file named on the command line."""
+    from posebridge.cell import load_cell, resolve_scene
+
+    path = Path(cell_argument)
+    return resolve_scene(load_cell(path), path)
+
+
+# ---------------------------------------------------------------- output
+
+
+def print_json(data: Any) -> None:
+    """``data`` as indented JSON on stdout (NaN refused: JSON has none)."""
+    json.dump(data, sys.stdout, indent=2, allow_nan=False)
+    sys.stdout.write("\n")
+
+
+def print_report(report: BaseModel, render: Callable[[Any], str], *, as_json: bool) -> None:
+    """Print a result model as JSON (``--json``) or as the text ``render`` makes of it."""
+    if as_json:
+        print_json(report.model_dump(mode="json"))
+    else:
+        print(render(report))
+
+
+def finite_or_none(values: FloatArray) -> Any:
+    """Nested lists of ``values`` with NaN/inf as ``None`` (JSON has no NaN)."""
+    cells = values.astype(object)
+    cells[~np.isfinite(values)] = None
+    return cells.tolist()
+
+
+def format_row(values: Sequence[float], digits: int = 3) -> str:
+    """``values`` comma-separated with ``digits`` decimals (no negative zero)."""
+    return ", ".join(f"{round(v, digits) + 0.0:.{digits}f}" for v in values)
+
+
+def exit_for_findings(findings: Sequence[Any]) -> int:
+    """1 when any finding is an error or a warning, else 0 (info findings do not count)."""
+    return EXIT_FINDINGS if any(f.severity in ("error", "warning") for f in findings) else EXIT_OK
+
+
+class ProgressBar:
+    """A one-line progress bar on stderr, ``progress(done, total)`` style."""
+
+    def __init__(self, label: str, *, enabled: bool) -> None:
+        self.label = label
+        self.enabled = enabled and sys.stderr.isatty()
+
+    def __call__(self, done: int, total: int) -> None:
+        if not self.enabled or total <= 0:
+            return
+        width = 30
+        filled = int(width * done / total)
+        sys.stderr.write(f"\r{self.label} [{'#' * filled}{'.' * (width - filled)}] {done}/{total}")
+        if done >= total:
+            sys.stderr.write("\n")
+        sys.stderr.flush()
+
+
+def executor_from(args: argparse.Namespace, warm_up: Callable[[], None]) -> Any:
+    """The executor of ``--workers``/``--scheduler`` (see ``SharedOptions.executor``); its
+    workers run ``warm_up`` (a layer's warm-up function) once when they start."""
+    from posebridge.compute import make_executor, worker_initializer
+
+    return make_executor(
+        scheduler=args.scheduler, workers=args.workers, initializer=worker_initializer(warm_up)
+    )

@@ -1,0 +1,171 @@
+"""Commands about motion in a cell: ``paths`` (path check), ``plan`` (joint move) and
+``place`` (base placement search)."""
+
+from __future__ import annotations
+
+import argparse
+from typing import Any
+
+import numpy as np
+
+from posebridge.cli.common import (
+    EXIT_FINDINGS,
+    EXIT_OK,
+    CommandLineInputError,
+    ProgressBar,
+    executor_from,
+    joints_argument,
+    load_scene,
+    parse_numbers,
+    print_json,
+    print_report,
+)
+from posebridge.cli.options import SharedOptions, options
+from posebridge.units import FloatArray
+
+
+def _parse_range(text: str, what: str) -> FloatArray:
+    """``"start:stop:count"`` (inclusive, evenly spaced) or a single value."""
+    parts = text.split(":")
+    if len(parts) == 1:
+        return np.array(parse_numbers(parts[0], what, 1))
+    if len(parts) != 3:
+        raise CommandLineInputError(f"{what}: expected START:STOP:COUNT or one value, got {text!r}")
+    start, stop = parse_numbers(parts[0], what, 1)[0], parse_numbers(parts[1], what, 1)[0]
+    try:
+        count = int(parts[2])
+    except ValueError:
+        raise CommandLineInputError(f"{what}: COUNT {parts[2]!r} is not a whole number") from None
+    if not 1 <= count <= 1000:
+        raise CommandLineInputError(f"{what}: COUNT must be 1..1000, got {count}")
+    return np.linspace(start, stop, count)
+
+
+def _parse_grid(text: str) -> dict[str, FloatArray]:
+    """``"x_mm=-1000:1000:21 y_mm=-1000:1000:21 yaw_deg=0:315:8 height_mm=400"``."""
+    allowed = ("x_mm", "y_mm", "yaw_deg", "height_mm")
+    grid: dict[str, FloatArray] = {}
+    for item in text.replace(",", " ").split():
+        key, sep, value = item.partition("=")
+        if not sep or key not in allowed:
+            raise CommandLineInputError(
+                f"--grid: expected items KEY=START:STOP:COUNT with KEY in {', '.join(allowed)}, got {item!r}"
+            )
+        grid[key] = _parse_range(value, f"--grid {key}")
+    return grid
+
+
+def _cmd_paths(args: argparse.Namespace) -> int:
+    from posebridge.planning.path_check import check_path
+    from posebridge.planning.reports import render_path_check
+
+    scene = load_scene(args.cell)
+    names = [p.name for p in scene.paths]
+    if args.path is not None and args.path not in names:
+        raise CommandLineInputError(
+            f"unknown path {args.path!r}; the cell has: {', '.join(names) or 'none'}"
+        )
+    chosen = [i for i, name in enumerate(names) if args.path in (None, name)]
+    reports = [check_path(scene, i, resolution_mm=args.resolution_mm) for i in chosen]
+    if args.json:
+        print_json([r.model_dump(mode="json") for r in reports])
+    else:
+        print("\n\n".join(render_path_check(r) for r in reports))
+    return EXIT_FINDINGS if any(not r.ok for r in reports) else EXIT_OK
+
+
+def _cmd_plan(args: argparse.Namespace) -> int:
+    from posebridge.planning.reports import render_joint_plan
+    from posebridge.planning.rrt import plan_joint_move
+
+    scene = load_scene(args.cell)
+    robot = scene.robot
+    start = joints_argument(args.start, "--from", robot)
+    goal = joints_argument(args.goal, "--to", robot)
+    report = plan_joint_move(scene, start, goal, seed=args.seed, time_limit_s=args.time_limit_s)
+    print_report(report, render_joint_plan, as_json=args.json)
+    return EXIT_OK if report.status in ("solved", "direct") else EXIT_FINDINGS
+
+
+def _cmd_place(args: argparse.Namespace) -> int:
+    from posebridge.geometry.warm import warm_geometry
+    from posebridge.planning.placement import PlacementGrid, search_base_placement
+    from posebridge.planning.reports import render_placement
+    from posebridge.units import deg_from_rad, mm_from_m
+
+    scene = load_scene(args.cell)
+    grid = None
+    if args.grid:
+        around = PlacementGrid.around(scene)
+        given = _parse_grid(args.grid)
+        grid = PlacementGrid.from_user(
+            given.get("x_mm", mm_from_m(around.x)),
+            given.get("y_mm", mm_from_m(around.y)),
+            given.get("yaw_deg", deg_from_rad(around.yaw)),
+            given.get("height_mm", mm_from_m(around.height)),
+        )
+    with executor_from(args, warm_geometry) as executor:
+        result = search_base_placement(
+            scene,
+            grid,
+            executor=executor,
+            progress=ProgressBar("base placement", enabled=not args.json),
+            top=args.top,
+        )
+    print_report(
+        result.report, lambda report: render_placement(report, top=args.top), as_json=args.json
+    )
+    return EXIT_OK
+
+
+def add_paths(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge paths CELL [PATH] [--resolution-mm] [--json]``."""
+    own = options()
+    own.add_argument("path", nargs="?", help="one path by name (default: all)")
+    own.add_argument(
+        "--resolution-mm", type=float, default=5.0, help="sampling step of linear moves"
+    )
+    command = sub.add_parser(
+        "paths",
+        help="check the cell's paths and their cycle time (exit 1 on errors)",
+        parents=[shared.cell, own, shared.json],
+    )
+    command.set_defaults(run=_cmd_paths)
+
+
+def add_plan(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge plan CELL --from JOINTS --to JOINTS [--seed] [--time-limit-s] [--json]``."""
+    own = options()
+    own.add_argument(
+        "--from", dest="start", required=True, help="start joint values (deg; mm for prismatic)"
+    )
+    own.add_argument(
+        "--to", dest="goal", required=True, help="goal joint values (deg; mm for prismatic)"
+    )
+    own.add_argument("--seed", type=int, default=1, help="random seed (same seed, same path)")
+    own.add_argument("--time-limit-s", type=float, default=5.0, help="planning time limit")
+    command = sub.add_parser(
+        "plan",
+        help="collision-free joint move between two configurations (RRT-Connect)",
+        parents=[shared.cell, own, shared.json],
+    )
+    command.set_defaults(run=_cmd_plan)
+
+
+def add_place(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge place CELL [--grid] [--top] [--workers] [--scheduler] [--json]``."""
+    own = options()
+    own.add_argument(
+        "--grid",
+        help='candidates, e.g. "x_mm=-1000:1000:21 y_mm=-1000:1000:21 yaw_deg=0:315:8 height_mm=400" '
+        "(default: +-1 m around the current base, 21 x 21 x 8 yaws)",
+    )
+    own.add_argument("--top", type=int, default=10, help="candidates to list (default 10)")
+    as_json = options()
+    as_json.add_argument("--json", action="store_true", help="print JSON with the whole score grid")
+    command = sub.add_parser(
+        "place",
+        help="search base placements and rank them",
+        parents=[shared.cell, own, shared.executor, as_json],
+    )
+    command.set_defaults(run=_cmd_place)

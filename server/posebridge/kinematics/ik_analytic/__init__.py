@@ -1,7 +1,0 @@
-"""Closed-form inverse kinematics, one module per arm family.
-
-Each module has a geometry extractor ``<Family>Geometry.from_robot(robot)``
-that returns None for robots outside the family (checked against forward
-kinematics on random configurations) and a batch solver ``solve_<family>``
-returning :class:`posebridge.kinematics.ik_types.IkSolutions`.
-"""
