@@ -11,6 +11,7 @@ from typing import NamedTuple
 
 from posebridge.bench.clearance import bench_clearance
 from posebridge.bench.drag import bench_drag
+from posebridge.bench.external_axis import bench_external_axis
 from posebridge.bench.ik_analytic import bench_ik_analytic
 from posebridge.bench.ik_numeric import bench_ik_numeric
 from posebridge.bench.ik_offset_wrist import bench_ik_offset_wrist
@@ -36,6 +37,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("analytic inverse kinematics", bench_ik_analytic),
     Benchmark("numerical inverse kinematics", bench_ik_numeric),
     Benchmark("closed-form inverse kinematics, offset wrist", bench_ik_offset_wrist),
+    Benchmark("feasible intervals of an external axis", bench_external_axis),
     Benchmark("clearance", bench_clearance),
     Benchmark("mesh clearance", bench_mesh_clearance),
     Benchmark("robot mesh loading and capsule fitting", bench_mesh_load),

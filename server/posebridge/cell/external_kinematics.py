@@ -20,7 +20,7 @@ pose within the robot's joint limits is a union of intervals. It is found by
    brackets solved once. The reported end is the feasible side of the bracket.
 
 The sweep cannot see an interval or a gap narrower than the sample spacing
-(range / (samples - 1)); the tests compare with a dense brute-force sweep.
+(range / (samples - 1); by default at most 500 mm on a track, 20 deg on a table); the tests compare with a dense brute-force sweep.
 Feasibility is kinematic (reach and joint limits); clearance enters through
 the choice rule.
 
@@ -72,6 +72,10 @@ MAX_SCORED_CANDIDATES = 12
 """Scores closer than this are equal in the choice rule; then the least travel wins."""
 TRACK_TOLERANCE_M = float(m_from_mm(0.1))
 TABLE_TOLERANCE_RAD = float(rad_from_deg(0.01))
+TRACK_SWEEP_SPACING_M = 0.5
+"""Largest sweep spacing on a track (default sample count: range / spacing + 1, at least 9)."""
+TABLE_SWEEP_SPACING_RAD = float(rad_from_deg(20.0))
+"""Largest sweep spacing on a turntable."""
 
 Triple = tuple[int, int, int]
 
@@ -196,7 +200,7 @@ def feasible_intervals(
     T_world_target: npt.ArrayLike,
     axis: int,
     *,
-    samples: int = 17,
+    samples: int | None = None,
     tolerance: float | None = None,
 ) -> AxisIntervals:
     """Per target and branch, the intervals of one external axis where the branch reaches it.
@@ -210,8 +214,9 @@ def feasible_intervals(
         Tool poses in the world at the scene's external values.
     axis : int
         External axis index; the other axes stay at the scene's values.
-    samples : int
-        Sweep values over the axis range (>= 2).
+    samples : int, optional
+        Sweep values over the axis range (>= 2); by default enough for a spacing of at
+        most 500 mm (track) or 20 deg (table), at least 9.
     tolerance : float, optional
         Bracket width at the ends, m or rad (0.1 mm / 0.01 deg if omitted).
 
@@ -229,6 +234,9 @@ def feasible_intervals(
     T_target = np.asarray(T_world_target, dtype=np.float64).reshape(-1, 4, 4)
     K = len(T_target)
     lower, upper = float(external.lower[axis]), float(external.upper[axis])
+    if samples is None:
+        step = TRACK_SWEEP_SPACING_M if prismatic else TABLE_SWEEP_SPACING_RAD
+        samples = max(9, int(np.ceil((upper - lower) / step)) + 1)
     grid = np.linspace(lower, upper, max(int(samples), 2))
     spacing = float(grid[1] - grid[0])
     triples = branch_triples(scene)
@@ -247,31 +255,37 @@ def feasible_intervals(
     steps = int(np.ceil(np.log2(max(spacing / tol, 1.0)))) if len(gap) else 0
     for _ in range(steps):
         mid = 0.5 * (low + high)
-        pairs, inverse = np.unique(
-            np.stack([k_idx.astype(np.float64), mid], axis=1), axis=0, return_inverse=True
+        # one IK pose per distinct (target, value): brackets sharing an end share their mids
+        keys, first, inverse = np.unique(
+            k_idx * 4.0 * (abs(lower) + abs(upper) + 1.0) + mid,
+            return_index=True,
+            return_inverse=True,
         )
-        inverse = inverse.ravel()
-        ks = pairs[:, 0].astype(np.int64)
-        T_base = _base_poses(scene, T_target[ks], axis, pairs[:, 1:2])[:, 0]
-        at_mid = _feasible(scene, T_base, triples)[inverse, b_idx]
-        ik_poses += len(pairs)
+        ks = k_idx[first]
+        T_base = _base_poses(scene, T_target[ks], axis, mid[first][:, None])[:, 0]
+        at_mid = _feasible(scene, T_base, triples)[inverse.ravel(), b_idx]
+        ik_poses += len(keys)
         same = at_mid == low_feasible
         low = np.where(same, mid, low)
         high = np.where(same, high, mid)
     ends = np.where(low_feasible, low, high)  # the feasible side of each bracket
+    found: dict[tuple[int, int], tuple[list[float], list[float]]] = {}
+    for k, b, feasible_low, end in zip(
+        k_idx.tolist(), b_idx.tolist(), low_feasible.tolist(), ends.tolist(), strict=True
+    ):
+        starts, stops = found.setdefault((k, b), ([], []))
+        (stops if feasible_low else starts).append(end)
+    first_feasible = feasible[:, 0]
+    last_feasible = feasible[:, -1]
     intervals: list[list[FloatArray]] = []
     for k in range(K):
         per_branch = []
         for b in range(B):
-            column = feasible[k, :, b]
-            starts: list[float] = []
-            stops: list[float] = []
-            if column[0]:
-                starts.append(lower)
-            for j in np.flatnonzero((k_idx == k) & (b_idx == b)):
-                (starts if not low_feasible[j] else stops).append(float(ends[j]))
-            if column[-1]:
-                stops.append(upper)
+            starts, stops = found.get((k, b), ([], []))
+            if first_feasible[k, b]:
+                starts = [lower, *starts]
+            if last_feasible[k, b]:
+                stops = [*stops, upper]
             per_branch.append(np.array([sorted(starts), sorted(stops)]).T.reshape(-1, 2))
         intervals.append(per_branch)
     return AxisIntervals(axis, triples, intervals, spacing, tol, ik_poses)
@@ -349,7 +363,7 @@ def choose_external_value(
     *,
     previous: npt.ArrayLike | None = None,
     thresholds: QualityThresholds | None = None,
-    samples: int = 17,
+    samples: int | None = None,
 ) -> ExternalChoice:
     """External values for one target: pinned ones kept, free moving axes chosen by the rule.
 
@@ -360,8 +374,8 @@ def choose_external_value(
     previous : array-like, shape (m,), optional
         Values at the previous waypoint (m, rad); the scene's values if omitted.
     thresholds : QualityThresholds, optional
-    samples : int
-        Sweep values per free axis.
+    samples : int, optional
+        Sweep values per free axis (default as in :func:`feasible_intervals`).
 
     Returns
     -------
@@ -383,8 +397,19 @@ def choose_external_value(
     candidates: list[tuple[float, FloatArray]] = []  # (interval length, values)
     if free:
         sweep, outer = free[0], free[1:]  # the track is swept, a table is stepped over its grid
+        outer_count = samples or max(
+            9,
+            int(
+                np.ceil(
+                    (external.upper[outer[0]] - external.lower[outer[0]]) / TABLE_SWEEP_SPACING_RAD
+                )
+            )
+            + 1
+            if outer
+            else 1,
+        )
         outer_values = (
-            np.linspace(external.lower[outer[0]], external.upper[outer[0]], max(samples, 2))
+            np.linspace(external.lower[outer[0]], external.upper[outer[0]], outer_count)
             if outer
             else np.array([np.nan])
         )
