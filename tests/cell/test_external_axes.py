@@ -18,6 +18,7 @@ import pinocchio as pin
 import pytest
 from scipy.spatial.transform import Rotation
 
+from posebridge.cell.checks import check_targets
 from posebridge.cell.external_kinematics import (
     branch_triples,
     choose_external_value,
@@ -318,3 +319,32 @@ def test_pinned_value_is_kept_and_the_unreachable_targets_need_the_axes(demo: Sc
     )
     choice = choose_external_value(demo, back)
     assert choice.score is not None and abs(choice.values[1]) > math.radians(45.0)
+
+
+def _demo_with_pins(pins: dict[str, dict[str, float]]) -> Scene:
+    data = load_cell(DEMO).model_dump(mode="json")
+    for target in data["targets"]:
+        target["external_axes"] = pins.get(target["name"], {})
+    return resolve_scene(validate_cell(data), DEMO)
+
+
+def test_target_check_uses_the_external_axes() -> None:
+    report = check_targets(_demo_with_pins({}))
+    assert report.external_axis_names == ["track", "table-1"]
+    assert report.external_axis_units == ["mm", "deg"]
+    by_name = {t.name: t for t in report.targets}
+    # demo notes: every target is reachable once the axes may move
+    assert all(t.reachable for t in report.targets)
+    # closed form: the mill target is 3.5 m along the rail, the arm reaches about 1.46 m
+    assert by_name["mill-vise"].external_axes["track"] > 3500.0 - 1460.0
+    assert {i.axis for i in by_name["seam-back"].external_intervals} == {"track", "table-1"}
+
+    pinned = check_targets(
+        _demo_with_pins({"mill-vise": {"track": 0.0}, "seam-back": {"table-1": 0.0}})
+    )
+    by_name = {t.name: t for t in pinned.targets}
+    # pinned at home they are out of reach (demo notes)
+    assert not by_name["mill-vise"].reachable and by_name["mill-vise"].external_pinned == ["track"]
+    assert by_name["mill-vise"].external_axes["track"] == 0.0
+    assert not by_name["seam-back"].reachable
+    assert by_name["lathe-chuck"].reachable

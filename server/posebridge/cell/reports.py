@@ -32,6 +32,7 @@ __all__ = [
     "BranchReport",
     "ClosestPair",
     "ConsistentBranch",
+    "ExternalAxisIntervals",
     "Finding",
     "JointExtreme",
     "JointMargin",
@@ -215,6 +216,17 @@ class PoseCheck(_Result):
     recommended_branch: str | None
 
 
+# Feasible intervals of one external axis for one target and branch.
+class ExternalAxisIntervals(_Result):
+    axis: str = Field(description="External axis name (track or turntable).")
+    unit: str = Field(description="mm or deg")
+    branch: str = Field(description="Shoulder/elbow/wrist words.")
+    intervals: list[list[float]] = Field(
+        description="[start, end] of every value range where the branch reaches the target "
+        "within the joint limits, the other axes at the chosen values."
+    )
+
+
 # The check of one target of the cell.
 class TargetCheck(_Result):
     name: str
@@ -229,6 +241,16 @@ class TargetCheck(_Result):
     )
     target: PoseCheck
     approach: PoseCheck | None = Field(description="null when the approach offset is 0.")
+    external_axes: dict[str, float] = Field(
+        default_factory=dict,
+        description="External axis values the target is checked at (mm track, deg table).",
+    )
+    external_pinned: list[str] = Field(
+        default_factory=list, description="External axes the cell pins for this target."
+    )
+    external_intervals: list[ExternalAxisIntervals] = Field(
+        default_factory=list, description="Feasible intervals of the free external axes."
+    )
 
 
 # Which targets one shoulder/elbow/wrist branch reaches, clear of the cell.
@@ -281,6 +303,10 @@ class TargetCheckReport(_Result):
     thresholds: QualityThresholds
     score_rule: str
     targets: list[TargetCheck]
+    external_axis_names: list[str] = Field(
+        default_factory=list, description="Track and turntables after the robot's joints."
+    )
+    external_axis_units: list[str] = Field(default_factory=list)
     consistent_branch: ConsistentBranch
     findings: list[Finding] = Field(description="Errors first, then warnings, then info.")
     reachable_count: int

@@ -47,6 +47,7 @@ from posebridge.kinematics.singularity import (
 )
 from posebridge.planning.cycle_time import (
     DEFAULT_LINEAR_ACCELERATION_M_S2,
+    ExternalAxisMotion,
     SegmentTiming,
     path_cycle_time,
     path_derivative,
@@ -437,6 +438,15 @@ def check_sampled_path(
             else joints_si_from_user(joint_jerk_deg_s3, robot.prismatic)
         ),
         linear_jerk_m_s3=None if linear_jerk_mm_s3 is None else float(m_from_mm(linear_jerk_mm_s3)),
+        external=(
+            ExternalAxisMotion(
+                sampled.path.external,
+                scene.external.velocity_max,
+                scene.external.acceleration_max,
+            )
+            if scene.external.count and sampled.path.external.shape[1] == scene.external.count
+            else None
+        ),
     )
     reached = [segment.q[segment.reachable] for segment in sampled.segments]
     all_q = np.concatenate(reached) if reached else np.zeros((0, robot.dof))
