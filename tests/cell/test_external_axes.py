@@ -9,6 +9,7 @@ brute-force sweep of the external axis (every value solved, no bisection).
 
 from __future__ import annotations
 
+import json
 import math
 import xml.etree.ElementTree as ET
 from typing import Any
@@ -29,6 +30,7 @@ from posebridge.cell.external_kinematics import (
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import CellFileError, validate_cell
 from posebridge.cell.scene import Scene, posed_scene, resolve_scene
+from posebridge.cli import main
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
@@ -348,3 +350,22 @@ def test_target_check_uses_the_external_axes() -> None:
     assert by_name["mill-vise"].external_axes["track"] == 0.0
     assert not by_name["seam-back"].reachable
     assert by_name["lathe-chuck"].reachable
+
+
+def test_diagnose_cli_takes_the_longer_joint_vector(capsys: pytest.CaptureFixture[str]) -> None:
+    joints = "10,-20,30,0,45,0"
+    assert main(["diagnose", str(DEMO), "--joints", joints, "--json"]) in (0, 1)
+    home = json.loads(capsys.readouterr().out)
+    assert main(["diagnose", str(DEMO), "--joints", f"{joints},1500,45", "--json"]) in (0, 1)
+    moved = json.loads(capsys.readouterr().out)
+    assert home["external_axes"] == {"track": 0.0, "table-1": 0.0}  # the demo's home values
+    assert moved["external_axes"] == {"track": 1500.0, "table-1": 45.0}
+    shift = np.subtract(moved["tcp_world"]["position_mm"], home["tcp_world"]["position_mm"])
+    np.testing.assert_allclose(shift, [1500.0, 0.0, 0.0], atol=1e-9)  # rail along x: closed form
+    track = moved["external_margins"][0]
+    # closed form: 1500 mm in [0, 4000] mm is 1500 mm from the lower end, 0.375 of the range
+    assert track["margin"] == pytest.approx(1500.0) and track["margin_fraction"] == pytest.approx(
+        0.375
+    )
+    assert main(["diagnose", str(DEMO), "--joints", f"{joints},1500"]) == 2
+    assert "expected 6 or 8 values" in capsys.readouterr().err

@@ -27,7 +27,8 @@ the choice rule.
 **Choice rule** (:func:`choose_external_value`): among the midpoints of the
 feasible intervals of the swept axis (the track, or the table when there is no
 track), taken with a table that carries the target at each of its sweep values
-(the twelve longest intervals), the values whose best usable solution (within limits, collision-free, on the
+and at its current value (the twelve longest intervals), the values whose best
+usable solution (within limits, collision-free, on the
 required branch) has the highest score: the mean of the limit-margin term (the
 smaller of the robot's and the external axes' margin fractions), the clearance
 term and the singularity term of :func:`posebridge.cell.quality.branch_score`;
@@ -408,8 +409,11 @@ def choose_external_value(
             if outer
             else 1,
         )
-        outer_values = (
-            np.linspace(external.lower[outer[0]], external.upper[outer[0]], outer_count)
+        outer_values = (  # the grid and the value the table is at (no travel)
+            np.union1d(
+                np.linspace(external.lower[outer[0]], external.upper[outer[0]], outer_count),
+                [values[outer[0]]],
+            )
             if outer
             else np.array([np.nan])
         )

@@ -373,6 +373,12 @@ class PoseDiagnosis(_Result):
         description="Set (a warning text) when the robot has no collision geometry: every "
         "clearance in this result is then meaningless.",
     )
+    external_axes: dict[str, float] = Field(
+        default_factory=dict, description="External axis values (mm track, deg table)."
+    )
+    external_margins: list[JointMargin] = Field(
+        default_factory=list, description="Limit margins of the external axes."
+    )
 
 
 # One row of a log picked for a reason.
