@@ -11,6 +11,7 @@ import pytest
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
 from posebridge.planning.cycle_time import ExternalAxisMotion, path_cycle_time
+from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
 
@@ -47,3 +48,14 @@ def test_track_only_move_is_the_trapezoid_closed_form(travel_mm: float, percent:
     assert timing.segments[0].duration == pytest.approx(expected, rel=1e-12)
     # without the external axes the robot does not move: zero duration (closed form)
     assert path_cycle_time(scene.robot, sampled).segments[0].duration == 0.0
+
+
+def test_demo_path_reaches_the_mill_at_its_pinned_track_value() -> None:
+    scene = resolve_scene(load_cell(DEMO), DEMO)
+    report = check_path(scene, 0)
+    # demo notes: the mill is reachable only with the track moved; the path pins it at 3300 mm
+    assert not [f for f in report.findings if f.severity == "error"]
+    assert scene.paths[0].external[-1, 0] == pytest.approx(3.3)  # the pin, in m
+    # closed form: the joint move into "joints #4" is track-only, 3500 mm at 1500 mm/s, 1800 mm/s^2
+    d, v, a = 3.5, SPEED_M_S, ACCEL_M_S2
+    assert report.segments[2].duration_s >= d / v + v / a - 1e-9

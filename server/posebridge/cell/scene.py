@@ -39,6 +39,7 @@ from posebridge.cell.model import (
     CellFileError,
     CylinderFixture,
     MotionPath,
+    Target,
 )
 from posebridge.geometry.robot_meshes import load_robot_with_meshes
 from posebridge.kinematics.fk import fk_tool
@@ -190,7 +191,8 @@ class ResolvedPath:
         m.
     external : array, shape (W, m)
         External axis values (m, rad) of every waypoint: given with the joint
-        values, else the value the scene is posed at.
+        values or pinned on the waypoint's target, else the value the scene is
+        posed at. ``T_world_tool`` of a target waypoint is at the scene's values.
     """
 
     name: str
@@ -538,6 +540,7 @@ def _resolve_path(
     T_flange_tool: FloatArray,
     targets: TargetSet,
     external: ExternalAxes,
+    cell_targets: list[Target],
 ) -> ResolvedPath:
     waypoints = path.waypoints
     count = len(waypoints)
@@ -548,6 +551,7 @@ def _resolve_path(
     T_world_tool = np.empty((count, 4, 4))
     q = np.full((count, n), np.nan)
     values = np.broadcast_to(external.values, (count, external.count)).copy()
+    pins = [target.external_axes for target in cell_targets]
     for w, waypoint in enumerate(waypoints):
         if waypoint.target is not None:
             sources.append("target")
@@ -555,6 +559,11 @@ def _resolve_path(
             target_index[w] = k
             table = targets.T_world_approach if waypoint.approach else targets.T_world_target
             T_world_tool[w] = table[k]
+            for axis, value in pins[k].items():  # a target's pinned external values
+                i = external.index(axis)
+                values[w, i] = external.si_from_user(
+                    np.where(np.arange(external.count) == i, value, 0.0)
+                )[i]
         elif waypoint.pose is not None:
             sources.append("pose")
             T_world_tool[w] = _pose_si(waypoint.pose.position_mm, waypoint.pose.rpy_deg)
@@ -695,7 +704,7 @@ def resolve_scene(
     )
     targets = _resolve_targets(cell, fixture_index, T_world_fixture)
     paths = tuple(
-        _resolve_path(path, robot, T_world_base, T_flange_tool, targets, external)
+        _resolve_path(path, robot, T_world_base, T_flange_tool, targets, external, cell.targets)
         for path in cell.paths
     )
     return Scene(

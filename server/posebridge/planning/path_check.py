@@ -37,7 +37,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from posebridge.cell.clearance import CellClearance, clearance_to_cell
-from posebridge.cell.scene import ResolvedPath, Scene
+from posebridge.cell.scene import ResolvedPath, Scene, posed_scene
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.kinematics.metrics import limit_margins
 from posebridge.kinematics.singularity import (
@@ -457,9 +457,15 @@ def check_sampled_path(
             singular = classify_singularity(robot, all_q, limits.singularity)
         except KinematicsInputError:
             singular = None  # not a six- or seven-axis arm: no singularity classes
-    clearance = clearance_to_cell(scene, all_q)
+    moving = (
+        sampled.path.external
+        if scene.external.count and sampled.path.external.shape[1] == scene.external.count
+        else None
+    )
+    clearance = clearance_to_cell(scene, all_q if moving is None else all_q[:0])
     findings = _waypoint_findings(sampled)
     segments = []
+    segment_minima: list[float] = []
     start = 0
     for segment, q_reached, segment_timing in zip(
         sampled.segments, reached, timing.segments, strict=True
@@ -467,15 +473,21 @@ def check_sampled_path(
         rows = slice(start, start + q_reached.shape[0])
         start = rows.stop
         out = _SegmentFindings(scene, sampled, segment)
+        segment_clearance_of, segment_rows = clearance, rows
+        if moving is not None:  # each segment in the scene at its end's external values
+            here = posed_scene(scene, moving[segment.index + 1])
+            segment_clearance_of = clearance_to_cell(here, q_reached)
+            segment_rows = slice(0, q_reached.shape[0])
         if segment.sampled:
             _continuity_findings(out, segment)
             _singularity_findings(out, segment, rows, singular)
             _limit_findings(out, segment, margins[rows], limits.limit_margin)
             _speed_findings(out, segment, segment_timing)
-            _clearance_findings(out, segment, clearance, rows, limits)
+            _clearance_findings(out, segment, segment_clearance_of, segment_rows, limits)
         findings.extend(out.findings)
-        segment_clearance = clearance.distance[rows]
+        segment_clearance = segment_clearance_of.distance[segment_rows]
         min_clearance = float(segment_clearance.min()) if segment_clearance.size else math.nan
+        segment_minima.append(min_clearance)
         segments.append(_segment_report(scene, sampled, segment, segment_timing, min_clearance))
     path = sampled.path
     errors = sum(f.severity == "error" for f in findings)
@@ -498,6 +510,9 @@ def check_sampled_path(
         for w in range(len(names))
     ]
     overall = float(clearance.distance.min()) if clearance.distance.size else math.nan
+    if moving is not None:
+        lows = [seg_min for seg_min in segment_minima if not math.isnan(seg_min)]
+        overall = min(lows) if lows else math.nan
     return PathCheckReport(
         path=path.name,
         robot_geometry_missing=robot.geometry_missing,
