@@ -232,3 +232,10 @@ async def test_diagnose_pose_with_external_axes(
         assert check["external_axis_names"] == ["track", "table-1"]
         # the demo pins mill-vise at 3300 mm
         assert check["targets"][1]["external_axes"]["track"] == 3300.0
+        drawing = (await client.get("/api/cell")).json()["scene"]
+        roles = {shape["name"]: shape["role"] for shape in drawing["shapes"]}
+        assert roles["track rail"] == roles["track carriage"] == "pedestal"
+        assert roles["table-1 plate"] == "fixture"
+        # closed form: the foot stands on the carriage top, rail origin z 40 + carriage 250 mm
+        assert drawing["base"]["foot_position_mm"] == pytest.approx([0.0, 0.0, 290.0])
+        assert [axis["name"] for axis in drawing["external_axes"]] == ["track", "table-1"]

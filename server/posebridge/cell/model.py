@@ -474,6 +474,7 @@ class Target(_Model):
         Field(max_length=MAX_TURNTABLES + 1),
     ] = Field(
         default={},
+        exclude_if=lambda pins: not pins,  # files without external axes stay as they were
         description="Pinned external axis values by axis name (mm track, deg table); "
         "an axis left out is chosen by the rule in the README.",
     )
@@ -573,7 +574,9 @@ class Cell(_Model):
     tool: Tool | None = Field(default=None, description="Omitted: the robot's default tool.")
     floor_height_mm: Coordinate = 0.0
     track: Track | None = Field(default=None, description="Linear track under the robot.")
-    turntables: Annotated[list[Turntable], Field(max_length=MAX_TURNTABLES)] = []
+    turntables: Annotated[list[Turntable], Field(max_length=MAX_TURNTABLES)] = Field(
+        default=[], exclude_if=lambda tables: not tables
+    )
     fixtures: Annotated[list[Fixture], Field(max_length=MAX_FIXTURES)] = []
     keep_outs: Annotated[list[KeepOutZone], Field(max_length=MAX_KEEP_OUTS)] = []
     targets: Annotated[list[Target], Field(max_length=MAX_TARGETS)] = []
