@@ -87,6 +87,7 @@ export function createApiClient({ baseUrl = "" } = {}) {
     health: () => request("/api/health"),
     listRobots: () => request("/api/robots"),
     robotModel: (robot) => request(`/api/robots/model?robot=${encodeURIComponent(robot)}`),
+    robotMeshes: (robot) => request(`/api/robots/meshes?robot=${encodeURIComponent(robot)}`),
     fk: (body, { signal } = {}) => request("/api/fk", { method: "POST", body, signal }),
     ik: (body, { signal } = {}) => request("/api/ik", { method: "POST", body, signal }),
     readCell: () => request("/api/cell"),

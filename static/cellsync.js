@@ -128,7 +128,7 @@ function samePose(a, b) {
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
  * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>,
- *            retrySave: () => void}}
+ *            retrySave: () => void, chooseChainEnd: (toLink: string) => Promise<void>}}
  */
 export function createCellSync({ store, actions, api, linking }) {
   let saveTimer = null;
@@ -359,5 +359,21 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  return { loadCell, reloadCell, moveBase, retrySave };
+  /** Choose where a URDF robot's chain ends (the cell's robot.to_link): saved, then the robot reloads. */
+  async function chooseChainEnd(toLink) {
+    const { cell, readOnly } = store.get();
+    if (readOnly) {
+      actions.setStatus("info", REVIEW_NOT_SAVED);
+      return;
+    }
+    try {
+      await api.replaceCell({ ...cell.cell, robot: { ...cell.cell.robot, to_link: toLink } }, cell.etag);
+      await loadCell();
+    } catch (error) {
+      actions.setStatus("error", `Choosing the chain end: ${error.message}`);
+      await reloadCell();
+    }
+  }
+
+  return { loadCell, reloadCell, moveBase, retrySave, chooseChainEnd };
 }

@@ -61,6 +61,7 @@ async function start() {
     actions,
     onShowCell: () => cellSync.loadCell(),
     onRetrySave: () => cellSync.retrySave(),
+    onChooseChainEnd: (toLink) => cellSync.chooseChainEnd(toLink),
   });
   createTargetPanel({ container: byId("target-panel"), store, actions });
   createToolPanel({ container: byId("tool-panel"), store });

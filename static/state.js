@@ -47,6 +47,8 @@
  *   pathReport      {etag, report} of the latest path check (PathCheckReport) or null
  *   placement       the latest base placement ranking (PlacementReport) or null
  *   showReach       draw reach sections under the plan and the elevation
+ *   robotMeshes     the robot's link meshes for drawing (RobotMeshesResult.meshes), [] if none
+ *   showCapsules    draw the robot's fitted collision capsules instead of its meshes
  *   reachPlan       horizontal reach section at the target (ReachSectionResult + requested_mm) or null
  *   reachElevation  vertical reach section at the target, or null
  */
@@ -88,6 +90,8 @@ export function initialState() {
     pathReport: null,
     placement: null,
     showReach: false,
+    robotMeshes: [],
+    showCapsules: false,
     reachPlan: null,
     reachElevation: null,
   };

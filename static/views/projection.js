@@ -19,6 +19,7 @@ import { attachDrag, draw, layout2d, pointerFromData, topLayout } from "./plotti
 import { frameScheduler } from "./frame.js";
 import { convexHull, projectedOutline, shapePoints } from "./shapes.js";
 import { viewBounds } from "./scene3d.js";
+import { drawsMeshes, linkPose, silhouetteTrace } from "./mesh_draw.js";
 import { fixtureFamily, selectedFixture } from "../cellsync.js";
 import { matrixFromRpyDeg, column, rigidMotion } from "../rotation.js";
 import { snapToStep } from "../units.js";
@@ -151,9 +152,12 @@ export function createProjectionView({
     return traces;
   }
 
-  function robotTraces(fk, level) {
+  function robotTraces(fk, state, level) {
     const armColour = levelColour(palette, level, palette.robot);
     const edgeColour = levelColour(palette, level, palette["robot-edge"]);
+    if (fk && drawsMeshes({ fk, robotMeshes: state.robotMeshes, showCapsules: state.showCapsules })) {
+      return [meshSilhouette(fk, state.robotMeshes, armColour, level), ...chainTraces(fk)];
+    }
     const segments = fk ? fk.capsule_segments_mm : [];
     const order = segments
       .map((segment, index) => ({
@@ -169,8 +173,6 @@ export function createProjectionView({
       xs.push(...outline.xs, null);
       ys.push(...outline.ys, null);
     }
-    const frames = fk ? fk.frames_position_mm : [];
-    const tcp = fk ? [fk.position_mm] : [];
     return [
       {
         name: "arm",
@@ -183,6 +185,37 @@ export function createProjectionView({
         meta: { role: "arm", level },
         connectgaps: false,
       },
+      ...chainTraces(fk),
+    ];
+  }
+
+  /** The robot's link meshes as one filled silhouette (mesh_draw.js), in the "arm" trace. */
+  function meshSilhouette(fk, meshes, colour, level) {
+    const xs = [];
+    const ys = [];
+    for (const mesh of meshes) {
+      const trace = silhouetteTrace(mesh, linkPose(fk, mesh.link), h, v, { name: "arm", colour });
+      xs.push(...trace.x);
+      ys.push(...trace.y);
+    }
+    return {
+      name: "arm",
+      x: xs,
+      y: ys,
+      mode: "lines",
+      fill: "toself",
+      fillcolor: colour,
+      line: { color: colour, width: 0.5 },
+      meta: { role: "arm", level },
+      connectgaps: false,
+    };
+  }
+
+  /** The kinematic chain and the TCP marker. */
+  function chainTraces(fk) {
+    const frames = fk ? fk.frames_position_mm : [];
+    const tcp = fk ? [fk.position_mm] : [];
+    return [
       {
         name: "chain",
         x: frames.map((p) => p[h]),
@@ -312,7 +345,7 @@ export function createProjectionView({
     if (!robot) {
       return;
     }
-    const arm = robotTraces(fk && fk.capsules ? fk : null, currentArmSeverity(state).level);
+    const arm = robotTraces(fk && fk.capsules ? fk : null, state, currentArmSeverity(state).level);
     const reach = state.showReach && state[reachKey] ? state[reachKey] : null;
     const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}|${reach ? `${reach.cell_etag}|${reach.requested_mm}` : "none"}`;
     if (key === staticKey && element.data) {
@@ -350,7 +383,7 @@ export function createProjectionView({
     render,
     minIntervalMs: () => (store.get().dragging ? ARM_REDRAW_WHILE_DRAGGING_MS : ARM_REDRAW_MS),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey, "armState"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey, "armState", "robotMeshes", "showCapsules"] });
   store.subscribe(placeMarkers, { keys: ["target", "fixture", "selection"] });
   new ResizeObserver(placeMarkers).observe(element);
 

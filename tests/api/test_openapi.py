@@ -85,6 +85,8 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/health",
         "/api/robots",
         "/api/robots/model",
+        "/api/robots/describe",
+        "/api/robots/meshes",
         "/api/fk",
         "/api/ik",
         "/api/cell",

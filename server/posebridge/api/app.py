@@ -119,9 +119,10 @@ def _with_robot_names(
             "description": field.get("description", ""),
             **served,
         }
-    for parameter in document["paths"]["/api/robots/model"]["get"]["parameters"]:
-        if parameter["name"] == "robot":
-            parameter["schema"] = {"title": "Robot", **served}
+    for route in ("/api/robots/model", "/api/robots/describe", "/api/robots/meshes"):
+        for parameter in document["paths"][route]["get"]["parameters"]:
+            if parameter["name"] == "robot":
+                parameter["schema"] = {"title": "Robot", **served}
     return document
 
 

@@ -12,6 +12,7 @@ from typing import NamedTuple
 
 from posebridge.bench.clearance import bench_clearance
 from posebridge.bench.drag import bench_drag
+from posebridge.bench.external_axis import bench_external_axis
 from posebridge.bench.first_serve import bench_first_serve
 from posebridge.bench.ik_analytic import bench_ik_analytic
 from posebridge.bench.ik_numeric import bench_ik_numeric
@@ -39,6 +40,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("analytic inverse kinematics", bench_ik_analytic),
     Benchmark("numerical inverse kinematics", bench_ik_numeric),
     Benchmark("closed-form inverse kinematics, offset wrist", bench_ik_offset_wrist),
+    Benchmark("feasible intervals of an external axis", bench_external_axis),
     Benchmark("clearance", bench_clearance),
     Benchmark("mesh clearance", bench_mesh_clearance),
     Benchmark("robot mesh loading and capsule fitting", bench_mesh_load),

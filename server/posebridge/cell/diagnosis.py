@@ -39,6 +39,7 @@ from posebridge.cell.quality import (
     closest_pair_model,
     evaluate_configurations,
     full_branch_words,
+    geometry_findings,
     joint_margins_model,
     margin_thresholds,
     part_word,
@@ -52,6 +53,7 @@ from posebridge.cell.reports import (
     BranchChange,
     Finding,
     JointExtreme,
+    JointMargin,
     LogDiagnosis,
     LogRows,
     NearTarget,
@@ -66,7 +68,7 @@ from posebridge.cell.reports import (
     VelocityJump,
     WorstRow,
 )
-from posebridge.cell.scene import Scene
+from posebridge.cell.scene import Scene, posed_scene
 from posebridge.geometry.clearance import clearance_per_obstacle_batch
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations
 from posebridge.kinematics.ik import solve_ik_all
@@ -198,7 +200,11 @@ def _finite_mm(distance_m: float) -> float | None:
 
 
 def diagnose_pose(
-    scene: Scene, q: npt.ArrayLike, thresholds: QualityThresholds | None = None
+    scene: Scene,
+    q: npt.ArrayLike,
+    thresholds: QualityThresholds | None = None,
+    *,
+    external: npt.ArrayLike | None = None,
 ) -> PoseDiagnosis:
     """Everything about one joint configuration in the cell (module docstring).
 
@@ -210,6 +216,10 @@ def diagnose_pose(
         :func:`posebridge.units.joints_si_from_user`).
     thresholds : QualityThresholds, optional
         The cell's own (``scene.cell.thresholds``) if omitted.
+    external : array-like, shape (m,), optional
+        External axis values (m, rad); the scene's values if omitted. The scene is
+        posed there (:func:`~posebridge.cell.scene.posed_scene`) and the report gives
+        the values and their limit margins.
 
     Returns
     -------
@@ -217,6 +227,8 @@ def diagnose_pose(
         Boundary units (mm, deg). ``input_branch`` is null when no IK
         solution equals the input (a joint outside its limits by whole revolutions).
     """
+    if external is not None:
+        scene = posed_scene(scene, external)
     robot = scene.robot
     q = _single(scene, q)
     quality = evaluate_configurations(scene, q, thresholds)
@@ -291,8 +303,44 @@ def diagnose_pose(
         nearest_targets=nearest,
         branches=branches,
         input_branch=input_branch,
-        findings=sorted(findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+        findings=sorted(
+            findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
+        ),
+        robot_geometry_missing=robot.geometry_missing,
+        external_axes=dict(
+            zip(
+                scene.external.names,
+                scene.external.user_from_si(scene.external.values).tolist(),
+                strict=True,
+            )
+        ),
+        external_margins=_external_margins(scene),
     )
+
+
+def _external_margins(scene: Scene) -> list[JointMargin]:
+    """Limit margins of the external axes at the scene's values, boundary units."""
+    external = scene.external
+    values = external.user_from_si(external.values)
+    lower = external.user_from_si(external.lower)
+    upper = external.user_from_si(external.upper)
+    margins = []
+    for i, name in enumerate(external.names):
+        below, above = values[i] - lower[i], upper[i] - values[i]
+        margin = float(min(below, above))
+        margins.append(
+            JointMargin(
+                joint=name,
+                unit=external.units[i],
+                value=float(values[i]),
+                lower=float(lower[i]),
+                upper=float(upper[i]),
+                margin=margin,
+                margin_fraction=margin / float(upper[i] - lower[i]),
+                nearer_limit="lower" if below <= above else "upper",
+            )
+        )
+    return margins
 
 
 # --- logs -------------------------------------------------------------------------------------
@@ -765,8 +813,11 @@ class _LogDiagnoser:
                 reason=reason,
                 diagnosis=diagnose_pose(self.scene, self.log.q[worst], self.thresholds),
             ),
-            findings=sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+            findings=sorted(
+                self.findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
+            ),
             rows=self._columns() if include_rows else None,
+            robot_geometry_missing=robot.geometry_missing,
         )
 
 

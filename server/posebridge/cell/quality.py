@@ -481,6 +481,17 @@ def _pair_text(pair: ClosestPair) -> str:
     return f"{pair.capsule} and {pair.other} ({pair.other_kind})"
 
 
+def geometry_findings(robot: Robot) -> list[Finding]:
+    """A warning finding (code ``robot-geometry-missing``) for a robot without collision
+    geometry, else none: its clearances mean nothing."""
+    message = robot.geometry_missing
+    if message is None:
+        return []
+    return [
+        Finding(severity="warning", code="robot-geometry-missing", target=None, message=message)
+    ]
+
+
 def quality_findings(
     quality: ConfigurationQuality,
     k: int,

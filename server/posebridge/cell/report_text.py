@@ -170,10 +170,31 @@ def render_target_check(report: TargetCheckReport) -> str:
                 ],
                 rows,
             ),
+            *([_external_table(report)] if report.external_axis_names else []),
             summary,
             _findings(report.findings),
         ]
     )
+
+
+def _external_table(report: TargetCheckReport) -> str:
+    """Each target's external axis values (``*`` pinned) and the widest feasible interval."""
+    rows = []
+    for target in report.targets:
+        cells = [target.name]
+        for name, unit in zip(report.external_axis_names, report.external_axis_units, strict=True):
+            pin = "*" if name in target.external_pinned else ""
+            spans = [
+                span
+                for found in target.external_intervals
+                if found.axis == name
+                for span in found.intervals
+            ]
+            widest = max(spans, key=lambda s: s[1] - s[0], default=None)
+            where = "" if widest is None else f" in [{widest[0]:.1f}, {widest[1]:.1f}]"
+            cells.append(f"{target.external_axes.get(name, float('nan')):.1f} {unit}{pin}{where}")
+        rows.append(cells)
+    return table(["target", *report.external_axis_names], rows)
 
 
 def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
@@ -185,6 +206,7 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
         f"{n} {v:.3f} {u}"
         for n, v, u in zip(d.joint_names, d.joints_deg, d.joint_units, strict=True)
     )
+    joints += "".join(f", {m.joint} {m.value:.3f} {m.unit}" for m in d.external_margins)
     head = "\n".join(
         [
             f"Pose diagnosis: robot {d.robot}, tool {d.tool}",
@@ -223,7 +245,7 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
                 _number(m.margin, m.unit),
                 _number(m.margin_fraction, digits=3),
             ]
-            for m in d.margins
+            for m in [*d.margins, *d.external_margins]
         ],
     )
     objects = table(

@@ -33,6 +33,7 @@ __all__ = [
     "BranchReport",
     "ClosestPair",
     "ConsistentBranch",
+    "ExternalAxisIntervals",
     "Finding",
     "FindingGroup",
     "JointExtreme",
@@ -240,6 +241,17 @@ class PoseCheck(_Result):
     recommended_branch: str | None
 
 
+# Feasible intervals of one external axis for one target and branch.
+class ExternalAxisIntervals(_Result):
+    axis: str = Field(description="External axis name (track or turntable).")
+    unit: str = Field(description="mm or deg")
+    branch: str = Field(description="Shoulder/elbow/wrist words.")
+    intervals: list[list[float]] = Field(
+        description="[start, end] of every value range where the branch reaches the target "
+        "within the joint limits, the other axes at the chosen values."
+    )
+
+
 # The check of one target of the cell.
 class TargetCheck(_Result):
     name: str
@@ -254,6 +266,16 @@ class TargetCheck(_Result):
     )
     target: PoseCheck
     approach: PoseCheck | None = Field(description="null when the approach offset is 0.")
+    external_axes: dict[str, float] = Field(
+        default_factory=dict,
+        description="External axis values the target is checked at (mm track, deg table).",
+    )
+    external_pinned: list[str] = Field(
+        default_factory=list, description="External axes the cell pins for this target."
+    )
+    external_intervals: list[ExternalAxisIntervals] = Field(
+        default_factory=list, description="Feasible intervals of the free external axes."
+    )
 
 
 # Which targets one shoulder/elbow/wrist branch reaches, clear of the cell.
@@ -280,7 +302,8 @@ class Finding(_Result):
     code: str = Field(
         description="Target check: unreachable, approach-branch, branch-limited, "
         "consistent-branch, inconsistent-branch; any configuration: outside-limits, "
-        "limit-margin, collision, clearance, singularity, at-target; logs (stretches of rows): "
+        "limit-margin, collision, clearance, singularity, at-target, robot-geometry-missing; "
+        "logs (stretches of rows): "
         "collision, low-clearance, outside-limits, low-limit-margin, near-wrist-singularity, "
         "near-elbow-singularity, near-shoulder-singularity; logs (between rows): branch-change, "
         "velocity, velocity-skipped."
@@ -339,6 +362,10 @@ class TargetCheckReport(_Result):
     thresholds: QualityThresholds
     score_rule: str
     targets: list[TargetCheck]
+    external_axis_names: list[str] = Field(
+        default_factory=list, description="Track and turntables after the robot's joints."
+    )
+    external_axis_units: list[str] = Field(default_factory=list)
     consistent_branch: ConsistentBranch
     findings: list[Finding] = Field(description="Errors first, then warnings, then info.")
     finding_groups: list[FindingGroup] = Field(
@@ -348,6 +375,11 @@ class TargetCheckReport(_Result):
     error_count: int
     warning_count: int
     info_count: int
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # A tool pose in one frame.
@@ -408,6 +440,17 @@ class PoseDiagnosis(_Result):
         description="Index into branches of the solution equal to the input joints."
     )
     findings: list[Finding]
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
+    external_axes: dict[str, float] = Field(
+        default_factory=dict, description="External axis values (mm track, deg table)."
+    )
+    external_margins: list[JointMargin] = Field(
+        default_factory=list, description="Limit margins of the external axes."
+    )
 
 
 # One row of a log picked for a reason.
@@ -541,4 +584,9 @@ class LogDiagnosis(_Result):
     velocity: VelocityCheck
     worst_row: WorstRow
     findings: list[Finding]
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
     rows: LogRows | None = Field(description="Per-row values; null when not requested.")

@@ -89,6 +89,18 @@ def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray
         raise CommandLineInputError(str(error)) from error
 
 
+def load_robot_argument(args: argparse.Namespace) -> Robot:
+    """The robot named on the command line, its chain chosen and its meshes fitted."""
+    from posebridge.geometry.robot_meshes import load_robot_with_meshes
+
+    return load_robot_with_meshes(
+        args.robot,
+        from_link=args.from_link,
+        to_link=args.to_link,
+        mesh_folders=[Path(folder) for folder in args.mesh_folder],
+    )
+
+
 def load_scene(cell_argument: str) -> Any:
     """The resolved scene (SI arrays) of the cell file named on the command line."""
     from posebridge.cell import load_cell, resolve_scene

@@ -28,6 +28,7 @@ SAFETY_CAUTION = (
 _COMMANDS = (
     service.add_serve,
     robots.add_robots,
+    robots.add_describe,
     robots.add_fk,
     robots.add_ik,
     cells.add_check,

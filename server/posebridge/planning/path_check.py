@@ -47,7 +47,7 @@ import numpy as np
 from posebridge.cell.clearance import CellClearance, clearance_to_cell
 from posebridge.cell.quality import margin_thresholds, singularity_thresholds
 from posebridge.cell.reports import QualityThresholds
-from posebridge.cell.scene import ResolvedPath, Scene
+from posebridge.cell.scene import ResolvedPath, Scene, posed_scene
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.kinematics.metrics import limit_margins
 from posebridge.kinematics.singularity import (
@@ -57,6 +57,7 @@ from posebridge.kinematics.singularity import (
 )
 from posebridge.planning.cycle_time import (
     DEFAULT_LINEAR_ACCELERATION_M_S2,
+    ExternalAxisMotion,
     SegmentTiming,
     path_cycle_time,
     path_derivative,
@@ -457,6 +458,15 @@ def check_sampled_path(
             else joints_si_from_user(joint_jerk_deg_s3, robot.prismatic)
         ),
         linear_jerk_m_s3=None if linear_jerk_mm_s3 is None else float(m_from_mm(linear_jerk_mm_s3)),
+        external=(
+            ExternalAxisMotion(
+                sampled.path.external,
+                scene.external.velocity_max,
+                scene.external.acceleration_max,
+            )
+            if scene.external.count and sampled.path.external.shape[1] == scene.external.count
+            else None
+        ),
     )
     reached = [segment.q[segment.reachable] for segment in sampled.segments]
     all_q = np.concatenate(reached) if reached else np.zeros((0, robot.dof))
@@ -467,11 +477,17 @@ def check_sampled_path(
             singular = classify_singularity(robot, all_q, limits.singularity)
         except KinematicsInputError:
             singular = None  # not a six- or seven-axis arm: no singularity classes
-    environment = clearance_to_cell(scene, all_q, scope="environment")
+    moving = (
+        sampled.path.external
+        if scene.external.count and sampled.path.external.shape[1] == scene.external.count
+        else None
+    )
+    scene_q = all_q if moving is None else all_q[:0]
+    environment = clearance_to_cell(scene, scene_q, scope="environment")
     own = clearance_to_cell(scene, all_q, scope="self")
-    distance = np.minimum(environment.distance, own.distance)
     findings = _waypoint_findings(sampled)
     segments = []
+    environment_parts: list[tuple[float, CellClearance]] = []
     start = 0
     for segment, q_reached, segment_timing in zip(
         sampled.segments, reached, timing.segments, strict=True
@@ -479,23 +495,32 @@ def check_sampled_path(
         rows = slice(start, start + q_reached.shape[0])
         start = rows.stop
         out = _SegmentFindings(scene, sampled, segment)
+        segment_environment, segment_rows = environment, rows
+        if moving is not None:  # each segment in the scene at its end's external values
+            here = posed_scene(scene, moving[segment.index + 1])
+            segment_environment = clearance_to_cell(here, q_reached, scope="environment")
+            segment_rows = slice(0, q_reached.shape[0])
         if segment.sampled:
             _continuity_findings(out, segment)
             _singularity_findings(out, segment, rows, singular)
             _limit_findings(out, segment, margins[rows], limits.limit_margin)
             _speed_findings(out, segment, segment_timing)
-            _clearance_findings(out, segment, environment, rows, limits)
+            _clearance_findings(out, segment, segment_environment, segment_rows, limits)
             _clearance_findings(out, segment, own, rows, limits)
         findings.extend(out.findings)
+        segment_environment_m = _smallest(segment_environment.distance[segment_rows])
+        segment_self_m = _smallest(own.distance[rows])
+        if segment_environment.distance[segment_rows].size:
+            environment_parts.append((segment_environment_m, segment_environment))
         segments.append(
             _segment_report(
                 scene,
                 sampled,
                 segment,
                 segment_timing,
-                _smallest(distance[rows]),
-                _smallest(environment.distance[rows]),
-                _smallest(own.distance[rows]),
+                float(np.fmin(segment_environment_m, segment_self_m)),
+                segment_environment_m,
+                segment_self_m,
             )
         )
     path = sampled.path
@@ -518,8 +543,13 @@ def check_sampled_path(
         )
         for w in range(len(names))
     ]
+    if moving is not None and environment_parts:  # the segment with the closest approach
+        environment = min(environment_parts, key=lambda part: part[0])[1]
+    environment_m = _smallest(environment.distance)
+    self_m = _smallest(own.distance)
     return PathCheckReport(
         path=path.name,
+        robot_geometry_missing=robot.geometry_missing,
         robot=robot.name,
         tool=scene.tool_name,
         joint_names=list(robot.joint_names),
@@ -535,9 +565,9 @@ def check_sampled_path(
         linear_acceleration_mm_s2=float(mm_from_m(timing.linear_acceleration)),
         jerk_limited=timing.jerk_limited,
         blend_note=timing.note,
-        min_clearance_mm=_optional(float(mm_from_m(_smallest(distance)))),
-        environment_clearance_mm=_optional(float(mm_from_m(_smallest(environment.distance)))),
-        self_clearance_mm=_optional(float(mm_from_m(_smallest(own.distance)))),
+        min_clearance_mm=_optional(float(mm_from_m(np.fmin(environment_m, self_m)))),
+        environment_clearance_mm=_optional(float(mm_from_m(environment_m))),
+        self_clearance_mm=_optional(float(mm_from_m(self_m))),
         closest_environment=_closest_words(environment),
         closest_self=_closest_words(own),
         clearance_warning_mm=float(clearance_warning_mm),

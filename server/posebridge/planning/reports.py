@@ -199,6 +199,11 @@ class PathCheckReport(_Report):
     thresholds: QualityThresholds = Field(
         description="The cell's thresholds this check used (the same set as the target check)."
     )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # --- joint-move planning ------------------------------------------------------------------
@@ -240,6 +245,11 @@ class JointPlanReport(_Report):
     )
     check: PathCheckReport | None = Field(
         default=None, description="The result re-checked as joint moves at 100 % speed."
+    )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
     )
 
 
@@ -299,6 +309,11 @@ class PlacementReport(_Report):
     score_note: str
     cycle_time_note: str
     current_score: float | None = Field(description="Score of the cell's current base pose.")
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # --- text tables --------------------------------------------------------------------------
@@ -375,6 +390,8 @@ def render_path_check(report: PathCheckReport) -> str:
                 else "path"
             )
             lines.append(f"  [{f.severity}] {f.kind} ({where}): {f.message}")
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)
 
 
@@ -389,6 +406,8 @@ def render_joint_plan(report: JointPlanReport) -> str:
     if report.waypoints_deg:
         rows = [[str(i)] + [f"{v:.2f}" for v in q] for i, q in enumerate(report.waypoints_deg)]
         lines += [""] + _table(["#"] + report.joint_names, rows)
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)
 
 
@@ -432,4 +451,6 @@ def render_placement(report: PlacementReport, *, top: int = 10) -> str:
         ],
         rows,
     )
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)

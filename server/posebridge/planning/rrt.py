@@ -427,6 +427,7 @@ def plan_joint_move(
             straight_move_worst_mm=None if worst is None else worst.distance_mm,
             straight_move_worst_fraction=fraction,
             check=check,
+            robot_geometry_missing=robot.geometry_missing,
         )
 
     for name, q in (("start", start), ("goal", goal)):
