@@ -330,8 +330,11 @@ def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None
     # the limit box of pb-arm6.toml: j2 -87..151, j3 -197..76 deg
     assert result["lower_deg"] == pytest.approx([-87.0, -197.0])
     assert result["upper_deg"] == pytest.approx([151.0, 76.0])
-    code, reach = run_json(capsys, "reach", "pb-planar2r", "--voxel-mm", "100", "--workers", "1")
+    code, reach = run_json(capsys, "reach", "pb-scara4", "--voxel-mm", "100", "--workers", "1")
     assert code == 0 and reach["tool_directions"] == 26
+    # a planar arm reports an area in its plane instead (tests/spaces/test_planar_reach.py)
+    code, planar = run_json(capsys, "reach", "pb-planar2r")
+    assert code == 0 and planar["planar"] is True and "tool_directions" not in planar
     code, plan = run_json(
         capsys, "plan", DEMO_CELL, "--from", "60,-20,20,0,90,0", "--to", "-60,-20,20,0,90,0"
     )

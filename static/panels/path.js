@@ -15,6 +15,10 @@ import { element } from "./fields.js";
 import { formatLength, formatNumber } from "../units.js";
 
 /** Joint values a fraction of the way between two configurations. */
+function lengthOrDash(mm) {
+  return mm === null || mm === undefined ? "–" : formatLength(mm);
+}
+
 export function interpolateJoints(a, b, fraction) {
   return a.map((value, k) => value + fraction * (b[k] - value));
 }
@@ -159,7 +163,8 @@ export function createPathPanel({ container, store, actions, api, onUseSequence 
     summary.textContent =
       `${report.path}: ${report.ok ? "no errors" : `${report.errors} errors`}, ${report.warnings} warnings; ` +
       `cycle time ${seconds(report.cycle_time_s, "not timed")} rest to rest, ${seconds(report.blended_cycle_time_s, "not timed")} blended; ` +
-      `smallest clearance ${report.min_clearance_mm === null ? "–" : formatLength(report.min_clearance_mm)}.${stale}`;
+      `environment clearance ${lengthOrDash(report.environment_clearance_mm)}${report.closest_environment ? ` (${report.closest_environment})` : ""}, ` +
+      `self-clearance ${lengthOrDash(report.self_clearance_mm)}${report.closest_self ? ` (${report.closest_self})` : ""}.${stale}`;
     const rows = report.segments.map((segment) =>
       element("tr", {}, [
         element("td", { text: String(segment.index + 1) }),
@@ -167,13 +172,14 @@ export function createPathPanel({ container, store, actions, api, onUseSequence 
         element("td", { text: segment.motion === "linear" ? "linear" : "joint" }),
         element("td", { className: "pb-num", text: seconds(segment.duration_s) }),
         element("td", { className: "pb-num", text: seconds(segment.blended_duration_s) }),
-        element("td", { className: "pb-num", text: segment.min_clearance_mm === null ? "–" : formatLength(segment.min_clearance_mm) }),
+        element("td", { className: "pb-num", text: lengthOrDash(segment.environment_clearance_mm) }),
+        element("td", { className: "pb-num", text: lengthOrDash(segment.self_clearance_mm) }),
         element("td", { text: segment.speed_capped ? `capped at ${formatNumber(segment.speed_used_mm_s)} mm/s` : "" }),
       ]),
     );
     segments.replaceChildren(
       element("table", { className: "pb-solutions" }, [
-        element("thead", {}, [element("tr", {}, ["#", "Segment", "Move", "Rest to rest", "Blended", "Clearance", "Speed"].map((text) => element("th", { text })))]),
+        element("thead", {}, [element("tr", {}, ["#", "Segment", "Move", "Rest to rest", "Blended", "Environment clearance", "Self-clearance", "Speed"].map((text) => element("th", { text })))]),
         element("tbody", {}, rows),
       ]),
     );

@@ -10,8 +10,8 @@ The cell's shapes become the geometry engine's arrays here, once per
   each in the cell file's order. Keep-out zones are obstacles like any other:
   a capsule inside one is in collision with it.
 * **Pairs**: every capsule against every obstacle, except the base-link
-  capsules (link 0) against the floor and the pedestal, which the robot
-  stands on (:func:`posebridge.geometry.shapes.default_pair_mask` and the same
+  capsules (link 0) against the floor, the pedestal and a track's carriage,
+  which the robot stands on (:func:`posebridge.geometry.shapes.default_pair_mask` and the same
   rule for the pedestal; common practice, no source). Self pairs come from
   :func:`posebridge.geometry.self_pairs.self_collision_pairs` with
   :data:`SELF_PAIR_SAMPLES` samples and seed 0.
@@ -171,6 +171,11 @@ def _build(scene: Scene) -> _Built:
         len(scene.boxes.names) + len(scene.cylinders.names) + len(scene.keep_outs.names)
     )
     mask[arm.link == 0, first_pedestal : first_pedestal + len(scene.pedestal.names)] = False
+    if scene.external.track is not None:  # the base stands on the track's carriage
+        carriage = f"{scene.external.names[0]} carriage"
+        mask[arm.link == 0, [i for i, name in enumerate(scene.boxes.names) if name == carriage]] = (
+            False
+        )
     pairs = self_collision_pairs(arm, samples=SELF_PAIR_SAMPLES, seed=0)
     full = ClearanceScene.build(
         arm, obstacles, scene.T_world_base, self_pairs=pairs, pair_mask=mask

@@ -28,6 +28,8 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from posebridge.cell.reports import QualityThresholds
+
 __all__ = [
     "FindingKind",
     "JointPlanReport",
@@ -174,6 +176,12 @@ class SegmentReport(_Report):
         "middle; null if not timed. At most duration_s for a trapezoid timing.",
     )
     min_clearance_mm: float | None = Field(description="Smallest clearance over the samples.")
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance to the cell over the samples."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance between the arm's own parts."
+    )
 
 
 class PathCheckReport(_Report):
@@ -205,9 +213,24 @@ class PathCheckReport(_Report):
     jerk_limited: bool
     blend_note: str
     min_clearance_mm: float | None
-    clearance_warning_mm: float
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance to the cell over every sample."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance between the arm's own parts."
+    )
+    closest_environment: str | None = Field(
+        default=None, description="The pair at environment_clearance_mm, 'capsule – obstacle'."
+    )
+    closest_self: str | None = Field(
+        default=None, description="The pair at self_clearance_mm, 'capsule – capsule'."
+    )
+    clearance_warning_mm: float = Field(description="thresholds.clearance_mm, kept for readers.")
     collision_threshold_mm: float
-    limit_margin_deg: float
+    limit_margin_deg: float = Field(description="thresholds.limit_margin_deg, kept for readers.")
+    thresholds: QualityThresholds = Field(
+        description="The cell's thresholds this check used (the same set as the target check)."
+    )
     robot_geometry_missing: str | None = Field(
         default=None,
         description="Set (a warning text) when the robot has no collision geometry: every "
@@ -365,7 +388,16 @@ class JointPlanReport(_Report):
         description="Smallest clearance along the result, from an exact dense re-check."
     )
     straight_move_obstacle: str | None = Field(
-        default=None, description="What the straight joint move hits first, if it collides."
+        default=None,
+        description="What the straight joint move comes closest to inside the safety margin "
+        "(its worst point), if it collides; for a refused start or goal, what that is too close to.",
+    )
+    straight_move_worst_mm: float | None = Field(
+        default=None,
+        description="Signed clearance at that worst point (negative: penetration depth).",
+    )
+    straight_move_worst_fraction: float | None = Field(
+        default=None, description="Where the worst point is: fraction of the straight move, 0..1."
     )
     check: PathCheckReport | None = Field(
         default=None, description="The result re-checked as joint moves at 100 % speed."
@@ -467,6 +499,10 @@ def render_path_check(report: PathCheckReport) -> str:
         f"{_number(report.blended_cycle_time_s, 2)} s blended",
         f"  rest to rest: {report.blend_note}",
         f"  {report.blended_note}",
+        f"Environment clearance: {_number(report.environment_clearance_mm)} mm"
+        + (f" ({report.closest_environment})" if report.closest_environment else ""),
+        f"Self-clearance: {_number(report.self_clearance_mm)} mm"
+        + (f" ({report.closest_self})" if report.closest_self else ""),
         "",
     ]
     rows = [
@@ -474,16 +510,21 @@ def render_path_check(report: PathCheckReport) -> str:
             str(s.index),
             s.motion,
             f"{s.from_waypoint} -> {s.to_waypoint}",
-            _number(s.length_mm) if s.motion == "linear" else _number(s.joint_travel_deg) + " deg",
+            (
+                _number(s.length_mm) + " mm"
+                if s.motion == "linear"
+                else _number(s.joint_travel_deg) + " deg joint travel"
+            ),
             _number(s.duration_s, 3),
             _number(s.blended_duration_s, 3),
             (
-                f"{_number(s.speed_used_mm_s, 0)}/{_number(s.speed_requested_mm_s, 0)}"
+                f"{_number(s.speed_used_mm_s, 0)}/{_number(s.speed_requested_mm_s, 0)} mm/s"
                 + (" capped" if s.speed_capped else "")
                 if s.motion == "linear"
                 else f"{_number(s.speed_percent, 0)} %"
             ),
-            _number(s.min_clearance_mm),
+            _number(s.environment_clearance_mm),
+            _number(s.self_clearance_mm),
         ]
         for s in report.segments
     ]
@@ -492,11 +533,12 @@ def render_path_check(report: PathCheckReport) -> str:
             "seg",
             "motion",
             "from -> to",
-            "length mm",
+            "length",
             "time s",
             "blended s",
-            "speed mm/s",
-            "clearance mm",
+            "speed",
+            "environment clearance mm",
+            "self-clearance mm",
         ],
         rows,
     )

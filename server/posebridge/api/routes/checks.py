@@ -164,6 +164,9 @@ async def diagnose_joint_pose(
 
     def work() -> PoseDiagnosis:
         scene = cells.read().scene
+        if scene.external.count and len(body.joints_deg) == scene.robot.dof + scene.external.count:
+            q, external = scene.split_joints([body.joints_deg], where="joints_deg")
+            return diagnose_pose(scene, q[0], external=external[0])
         q = joints_si_from_request(scene.robot, [body.joints_deg])
         return diagnose_pose(scene, q[0])
 
