@@ -93,6 +93,10 @@ export function createActions({ store }) {
     store.update({ showReach });
   }
 
+  function setShowCapsules(showCapsules) {
+    store.update({ showCapsules });
+  }
+
   function setFollow(follow) {
     store.update({ follow });
   }
@@ -122,6 +126,7 @@ export function createActions({ store }) {
     setSnap,
     setFollow,
     setShowReach,
+    setShowCapsules,
     setDragging,
     setStatus,
   };

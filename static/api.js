@@ -87,6 +87,7 @@ export function createApiClient({ baseUrl = "" } = {}) {
     health: () => request("/api/health"),
     listRobots: () => request("/api/robots"),
     robotModel: (robot) => request(`/api/robots/model?robot=${encodeURIComponent(robot)}`),
+    robotMeshes: (robot) => request(`/api/robots/meshes?robot=${encodeURIComponent(robot)}`),
     fk: (body, { signal } = {}) => request("/api/fk", { method: "POST", body, signal }),
     ik: (body, { signal } = {}) => request("/api/ik", { method: "POST", body, signal }),
     readCell: () => request("/api/cell"),
@@ -106,6 +107,9 @@ export function createApiClient({ baseUrl = "" } = {}) {
     targetCheck: () => request("/api/cell/check"),
     pathCheck: (name) => request(`/api/cell/paths/${encodeURIComponent(name)}/check`),
     armState: (body, { signal } = {}) => request("/api/cell/fk", { method: "POST", body, signal }),
+    pathSequence: (name) => request(`/api/cell/paths/${encodeURIComponent(name)}/sequence`),
+    setWaypointJoints: (name, edits, etag) =>
+      request(`/api/cell/paths/${encodeURIComponent(name)}/waypoints`, { method: "PATCH", body: { edits }, ifMatch: etag }),
     diagnosePose: (joints) => request("/api/cell/diagnose/pose", { method: "POST", body: { joints_deg: joints } }),
     diagnoseLog: (csv, source) => request("/api/cell/diagnose/log", { method: "POST", body: { csv, source } }),
     startPlacement: (body) => request("/api/placement", { method: "POST", body }),

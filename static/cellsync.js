@@ -128,7 +128,7 @@ function samePose(a, b) {
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
  * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>,
- *            retrySave: () => void}}
+ *            retrySave: () => void, chooseChainEnd: (toLink: string) => Promise<void>}}
  */
 export function createCellSync({ store, actions, api, linking }) {
   let saveTimer = null;
@@ -359,5 +359,46 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  return { loadCell, reloadCell, moveBase, retrySave };
+<<<<<<< HEAD
+  /** Choose where a URDF robot's chain ends (the cell's robot.to_link): saved, then the robot reloads. */
+  async function chooseChainEnd(toLink) {
+    const { cell, readOnly } = store.get();
+    if (readOnly) {
+      actions.setStatus("info", REVIEW_NOT_SAVED);
+      return;
+    }
+    try {
+      await api.replaceCell({ ...cell.cell, robot: { ...cell.cell.robot, to_link: toLink } }, cell.etag);
+      await loadCell();
+    } catch (error) {
+      actions.setStatus("error", `Choosing the chain end: ${error.message}`);
+      await reloadCell();
+    }
+  }
+
+  return { loadCell, reloadCell, moveBase, retrySave, chooseChainEnd };
+=======
+  /** Give waypoints of a path as joint values (the fastest sequence's edits), If-Match like every edit. */
+  async function setWaypointJoints(path, edits, etag) {
+    if (store.get().readOnly) {
+      actions.setStatus("info", REVIEW_NOT_SAVED);
+      return false;
+    }
+    try {
+      const document = await api.setWaypointJoints(path, edits, etag);
+      store.update({ cell: document, cellSave: { state: "saved", message: `Saved the sequence of ${path}` } });
+      return true;
+    } catch (error) {
+      if (error instanceof ApiError && error.status === 412) {
+        actions.setStatus("warn", "The cell was changed elsewhere; it was reloaded and the sequence was not used.");
+        await reloadCell();
+      } else {
+        actions.setStatus("error", `Using the sequence: ${error.message}`);
+      }
+      return false;
+    }
+  }
+
+  return { loadCell, reloadCell, moveBase, retrySave, setWaypointJoints };
+>>>>>>> 1f470b4 (Page: fastest sequence in the path panel (saving in words, curve on the joint map and the 3D joint view with the other candidates faint, 'Use this sequence' with If-Match), export links; README, DEVELOPERS.md, CHANGELOG)
 }

@@ -174,7 +174,7 @@ export function createLinking({ store, actions, api }) {
     ikChannel.cancel();
     actions.setStatus("info", `Loading ${spec}…`);
     try {
-      const robot = await api.robotModel(spec);
+      const [robot, drawing] = await Promise.all([api.robotModel(spec), api.robotMeshes(spec)]);
       targetFromNextFk = onLoaded === null;
       const mapJoints = robot.dof >= 3 ? [1, 2] : [0, Math.min(1, robot.dof - 1)];
       const map3Joints = robot.dof >= 3 ? [0, 1, 2] : null;
@@ -193,10 +193,15 @@ export function createLinking({ store, actions, api }) {
           jointMap3: null,
           pathCurve: null,
           joints: [...robot.home_joints],
+          robotMeshes: drawing.meshes,
         },
         { reason: "robot" },
       );
-      actions.setStatus("info", `${robot.name}: ${robot.description}`);
+      if (robot.robot_geometry_missing) {
+        actions.setStatus("error", robot.robot_geometry_missing);
+      } else {
+        actions.setStatus("info", `${robot.name}: ${robot.description}`);
+      }
       if (onLoaded) {
         onLoaded();
       }

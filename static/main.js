@@ -74,6 +74,7 @@ async function start() {
     onShowCell: () => cellSync.loadCell(),
     onRetrySave: () => cellSync.retrySave(),
     onAddMesh: (file) => meshFixtures.upload(file, meshSpot(store.get())),
+    onChooseChainEnd: (toLink) => cellSync.chooseChainEnd(toLink),
   });
   createTargetPanel({ container: byId("target-panel"), store, actions });
   createToolPanel({ container: byId("tool-panel"), store });
@@ -81,7 +82,13 @@ async function start() {
   createJointsPanel({ container: byId("joints-panel"), store, actions });
   createMarginsPanel({ container: byId("margins-panel"), store });
   createTargetCheckPanel({ container: byId("target-check-panel"), store, actions, api });
-  createPathPanel({ container: byId("path-panel"), store, actions, api });
+  createPathPanel({
+    container: byId("path-panel"),
+    store,
+    actions,
+    api,
+    onUseSequence: (path, edits, etag) => cellSync.setWaypointJoints(path, edits, etag),
+  });
   // read-only handle for debugging and the browser tests
   window.posebridge = Object.freeze({ getState: store.get });
 

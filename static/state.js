@@ -48,8 +48,11 @@
  *   poseCheck       the latest pose diagnosis (PoseDiagnosis) or null
  *   logCheck        the latest log diagnosis (LogDiagnosis) or null
  *   pathReport      {etag, report} of the latest path check (PathCheckReport) or null
+ *   sequence        {etag, report} of the latest fastest-sequence search (SequenceReport) or null
  *   placement       the latest base placement ranking (PlacementReport) or null
  *   showReach       draw reach sections under the plan and the elevation
+ *   robotMeshes     the robot's link meshes for drawing (RobotMeshesResult.meshes), [] if none
+ *   showCapsules    draw the robot's fitted collision capsules instead of its meshes
  *   reachPlan       horizontal reach section at the target (ReachSectionResult + requested_mm) or null
  *   reachElevation  vertical reach section at the target, or null
  */
@@ -90,8 +93,11 @@ export function initialState() {
     poseCheck: null,
     logCheck: null,
     pathReport: null,
+    sequence: null,
     placement: null,
     showReach: false,
+    robotMeshes: [],
+    showCapsules: false,
     reachPlan: null,
     reachElevation: null,
   };

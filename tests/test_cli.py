@@ -263,6 +263,47 @@ def test_paths_report_the_demo_collision(capsys: pytest.CaptureFixture[str]) -> 
     assert report["cycle_time_s"] == pytest.approx(sum(s["duration_s"] for s in report["segments"]))
 
 
+def test_paths_optimise_the_demo_sequences(capsys: pytest.CaptureFixture[str]) -> None:
+    code, reports = run_json(capsys, "paths", DEMO_CELL, "--optimise", "--limit-margin-deg", "2")
+    assert code == 0
+    raw = json.loads(Path(DEMO_CELL).read_text())
+    assert [r["path"] for r in reports] == [p["name"] for p in raw["paths"]]
+    for report in reports:
+        assert report["feasible"] and report["best"]["violations"] == []
+        assert report["limit_margin_deg"] == 2.0
+        best, current = report["best"]["cycle_time_s"], report["current"]["cycle_time_s"]
+        if not report["current"]["violations"]:
+            # the current choice is one of the sequences searched: never faster (closed form)
+            assert best <= current + 1e-9
+    code, out, _ = run(capsys, "paths", DEMO_CELL, "unload-to-conveyor", "--optimise")
+    assert code == 0 and "slower but valid" in out and "in collision" in out
+
+
+def test_export_writes_csv_and_json(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
+    target = tmp_path / "motion.csv"
+    code, out, err = run(capsys, "export", DEMO_CELL, "load-press", "-o", str(target))
+    assert code == 0 and err == "" and str(target) in out
+    lines = target.read_text().splitlines()
+    assert lines[0] == "# posebridge motion export"
+    table = [line for line in lines if not line.startswith("#")]
+    # the cell's robot joints with their unit in the header (the bundled pb-arm6 has six)
+    assert table[0].split(",")[2:8] == [f"j{k}_deg" for k in range(1, 7)]
+    # closed form: rows every 10 ms from 0 up to the end, plus the end itself
+    data = tmp_path / "motion.json"
+    code, _, _ = run(
+        capsys, "export", DEMO_CELL, "load-press", "-o", str(data), "--period-ms", "10"
+    )
+    body = json.loads(data.read_text())
+    assert code == 0 and body["header"]["period_ms"] == 10.0
+    times = [row[0] for row in body["rows"]]
+    assert times[:3] == pytest.approx([0.0, 0.01, 0.02])
+    assert times[-1] == pytest.approx(body["header"]["cycle_time_s"])
+    code, _, err = run(capsys, "export", DEMO_CELL, "load-press", "-o", str(tmp_path / "m.txt"))
+    assert code == 2 and "expected a .csv or .json file" in err
+    code, _, err = run(capsys, "export", DEMO_CELL, "nowhere", "-o", str(target))
+    assert code == 2 and "unknown path 'nowhere'" in err
+
+
 def test_place_small_grid(capsys: pytest.CaptureFixture[str]) -> None:
     code, report = run_json(
         capsys,
@@ -289,8 +330,11 @@ def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None
     # the limit box of pb-arm6.toml: j2 -87..151, j3 -197..76 deg
     assert result["lower_deg"] == pytest.approx([-87.0, -197.0])
     assert result["upper_deg"] == pytest.approx([151.0, 76.0])
-    code, reach = run_json(capsys, "reach", "pb-planar2r", "--voxel-mm", "100", "--workers", "1")
+    code, reach = run_json(capsys, "reach", "pb-scara4", "--voxel-mm", "100", "--workers", "1")
     assert code == 0 and reach["tool_directions"] == 26
+    # a planar arm reports an area in its plane instead (tests/spaces/test_planar_reach.py)
+    code, planar = run_json(capsys, "reach", "pb-planar2r")
+    assert code == 0 and planar["planar"] is True and "tool_directions" not in planar
     code, plan = run_json(
         capsys, "plan", DEMO_CELL, "--from", "60,-20,20,0,90,0", "--to", "-60,-20,20,0,90,0"
     )

@@ -60,3 +60,45 @@ def test_readme_lists_every_exit_code_of_the_command_line() -> None:
     documented = {int(code) for code in re.findall(r"(?:^|, )(\d) ", listed.group(1))}
     # our own contract: every exit code the CLI returns is documented
     assert documented == {cli.EXIT_OK, cli.EXIT_FINDINGS, cli.EXIT_BAD_INPUT, cli.EXIT_INTERNAL}
+
+
+def _subcommands() -> dict[str, object]:
+    import argparse
+
+    parser = cli.build_parser()
+    action = next(a for a in parser._actions if isinstance(a, argparse._SubParsersAction))
+    return dict(action.choices)
+
+
+def test_readme_command_list_matches_the_parser() -> None:
+    block = next(b for b in _code_blocks("") if b.lstrip().startswith("posebridge robots"))
+    commands = _subcommands()
+    # deprecated spellings, the executor options and the robot chain options (both described
+    # in the text below the list) and -o|--output
+    hidden = {"--all-turns", "--workers", "--scheduler", "--help", "--output"}
+    hidden |= {"--from-link", "--to-link", "--mesh-folder"}
+    for line in block.splitlines():
+        words = line.split("#", 1)[0].split()
+        if len(words) < 2 or words[0] != "posebridge":
+            continue
+        sub = commands[words[1]]
+        options = {o: a for a in sub._actions for o in a.option_strings}  # type: ignore[attr-defined]
+        # our own contract: every option the README shows exists, with the default it shows
+        for match in re.finditer(r"\[(--[a-z-]+) ([0-9.]+)\]", line):
+            default = options[match.group(1)].default
+            shown_value = match.group(2)
+            if isinstance(default, int | float):
+                assert float(default) == float(shown_value), line
+            else:
+                assert str(default) == shown_value, line
+        for option in re.findall(r"--[a-z-]+", line):
+            assert option in options, (line, option)
+    for name, sub in commands.items():
+        shown = " ".join(
+            line for line in block.splitlines() if line.startswith(f"posebridge {name} ")
+        )
+        for action in sub._actions:  # type: ignore[attr-defined]
+            for option in action.option_strings:
+                if option.startswith("--") and option not in hidden:
+                    # our own contract: the command list shows every option of every command
+                    assert option in shown, (name, option)

@@ -38,12 +38,28 @@ function rowKey(selection) {
 
 /**
  * @param {{container: HTMLElement, store: object, actions: object, onShowCell: () => void,
- *          onRetrySave: () => void}} options
+ *          onRetrySave: () => void, onChooseChainEnd: (toLink: string) => void}} options
  *   onShowCell: called by the "show the cell" button when another robot is shown;
  *   onRetrySave: called by "Save again", shown after a failed save (the move is kept);
  *   onAddMesh: called with a mesh file chosen with "Add mesh file" (also: drop it on the plan).
+ *   onChooseChainEnd: called with the link chosen as the end of a URDF robot's chain.
  */
-export function createCellPanel({ container, store, actions, onShowCell, onRetrySave, onAddMesh }) {
+export function createCellPanel({ container, store, actions, onShowCell, onRetrySave, onAddMesh, onChooseChainEnd }) {
+  // a URDF robot's chain end (robot.to_link of the cell), listed from the leaf links
+  const chainEnd = element("select", { attributes: { id: "chain-end", "data-edits-cell": "" } });
+  chainEnd.addEventListener("change", () => onChooseChainEnd(chainEnd.value));
+  const chainRow = element("label", { attributes: { hidden: "" } }, ["Robot chain ends at ", chainEnd]);
+  function renderChain() {
+    const { robot, cell, cellActive } = store.get();
+    const ends = robot && robot.chain_ends ? robot.chain_ends : [];
+    const show = Boolean(cellActive && cell && cell.cell.robot.file && ends.length > 1);
+    chainRow.hidden = !show;
+    if (show) {
+      chainEnd.replaceChildren(...ends.map((name) => element("option", { text: name, attributes: { value: name } })));
+      chainEnd.value = robot.to_link;
+    }
+  }
+  store.subscribe(renderChain, { keys: ["robot", "cell", "cellActive"] });
   const info = element("p", { className: "pb-note", attributes: { id: "cell-info" } });
   const saveState = element("output", { className: "pb-save", attributes: { id: "cell-save", role: "status" } });
   const back = element("button", { text: "Show the cell", attributes: { type: "button", id: "cell-show" } });
@@ -88,7 +104,7 @@ export function createCellPanel({ container, store, actions, onShowCell, onRetry
     }
     meshInput.value = "";
   });
-  container.append(element("div", { className: "pb-controls" }, [info, saveState, retry, back, addMesh, meshInput]), list, fixturePanel);
+  container.append(element("div", { className: "pb-controls" }, [info, saveState, retry, back, addMesh, meshInput, chainRow]), list, fixturePanel);
   let builtFor = null;
   let markedFor = null;
 

@@ -119,7 +119,8 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
       ["Smallest margin", pose.min_margin_joint ? `${pose.min_margin_joint} (${formatNumber(100 * pose.min_margin_fraction, { decimals: 0 })} % of its range)` : "–"],
       ["Singularity", pose.singularity ? `${pose.singularity.kind}; wrist bend ${formatNumber(pose.singularity.wrist_bend_deg)} deg` : "–"],
       ["Manipulability", formatNumber(pose.manipulability, { decimals: 4 })],
-      ["Clearance", closestText(pose.closest)],
+      ["Environment clearance", closestText(pose.closest_environment)],
+      ["Self-clearance", closestText(pose.closest_self)],
       ["Nearest target", pose.nearest_targets.length ? `${pose.nearest_targets[0].name} (${formatLength(pose.nearest_targets[0].distance_mm)}, ${formatNumber(pose.nearest_targets[0].angle_deg)} deg)` : "–"],
     ];
     const rows = lines.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));

@@ -50,6 +50,8 @@ export function createTargetPanel({ container, store, actions }) {
   follow.addEventListener("change", () => actions.setFollow(follow.checked));
   const reach = element("input", { attributes: { type: "checkbox", id: "show-reach" } });
   reach.addEventListener("change", () => actions.setShowReach(reach.checked));
+  const capsules = element("input", { attributes: { type: "checkbox", id: "show-capsules" } });
+  capsules.addEventListener("change", () => actions.setShowCapsules(capsules.checked));
   const fromTool = element("button", { text: "Target ← tool", attributes: { type: "button", id: "target-from-tool" } });
   fromTool.title = "Put the target on the current tool pose";
   fromTool.addEventListener("click", () => actions.targetFromTool());
@@ -62,6 +64,7 @@ export function createTargetPanel({ container, store, actions }) {
       element("label", {}, [snap, " Snap drags to the step grid"]),
       element("label", {}, [follow, " Arm follows the target"]),
       element("label", { attributes: { title: "Tool directions reached per cell, in slices through the target" } }, [reach, " Reach in plan and elevation"]),
+      element("label", { attributes: { title: "The collision capsules fitted to the robot's meshes, which clearance uses" } }, [capsules, " Fitted capsules instead of meshes"]),
       fromTool,
     ]),
   );
@@ -78,6 +81,8 @@ export function createTargetPanel({ container, store, actions }) {
     snap.checked = snapOn;
     follow.checked = followOn;
     reach.checked = store.get().showReach;
+    capsules.checked = store.get().showCapsules;
+    capsules.disabled = !store.get().robotMeshes.length;
   }
 
   /** Mark the controls that would save into the cell: a cell target or pose waypoint is selected. */
@@ -89,7 +94,7 @@ export function createTargetPanel({ container, store, actions }) {
     }
   }
 
-  store.subscribe(render, { keys: ["target", "stepMm", "stepDeg", "snap", "follow", "showReach"] });
+  store.subscribe(render, { keys: ["target", "stepMm", "stepDeg", "snap", "follow", "showReach", "showCapsules", "robotMeshes"] });
   store.subscribe(markEdits, { keys: ["cell", "cellActive", "selection"] });
   render();
   markEdits();

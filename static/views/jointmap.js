@@ -12,6 +12,7 @@
 
 /* global Plotly */
 
+import { sequenceKey, sequenceTraces } from "../sequencecurve.js";
 import { currentArmSeverity, levelColour } from "../severity.js";
 import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
@@ -248,7 +249,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const [a, b] = mapJoints;
     const [ja, jb] = [robot.joints[a], robot.joints[b]];
     const map = currentMap(state);
-    const data = map ? regionTraces(map, palette) : [];
+    const data = [...(map ? regionTraces(map, palette) : []), ...sequenceTraces(state.sequence, [a, b], palette)];
     ranges = {
       x: paddedRange(ja, dynamic[0].x),
       y: paddedRange(jb, dynamic[0].y),
@@ -291,7 +292,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     if (!robot || joints.length !== robot.dof) {
       return;
     }
-    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk];
+    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk, state.sequence];
     if (drawnInputs && inputs.every((value, k) => value === drawnInputs[k])) {
       return; // already drawn (an answer drawn at once, then its frame request)
     }
@@ -299,7 +300,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     updateSelectors(state);
     const dynamic = dynamicTraces(state);
     const map = currentMap(state);
-    const key = `${robot.robot}|${mapJoints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}` : "no map"}`;
+    const key = `${robot.robot}|${mapJoints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}` : "no map"}|${sequenceKey(state.sequence)}`;
     let drawn;
     if (key !== baseKey || !element.data || !ranges || !within(ranges.x, dynamic[0].x) || !within(ranges.y, dynamic[0].y)) {
       baseKey = key;
@@ -425,7 +426,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
 
   const requestRender = frameScheduler({ render });
   store.subscribe(requestRender, {
-    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk"],
+    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk", "sequence"],
   });
   // a new inverse kinematics answer is drawn at once, not on the next frame: it is
   // what a drag waits for (the update is a small restyle of the top figure)

@@ -7,6 +7,7 @@
 
 /* global Plotly */
 
+import { sequenceKey, sequenceTraces } from "../sequencecurve.js";
 import { axis3d, draw, layout3d } from "./plotting.js";
 import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { branchStyle, regionColour } from "../palette.js";
@@ -155,7 +156,7 @@ export function createJointSpaceView({ element, header, note, legend, store, act
     });
     const map = currentMap(state);
     const dynamic = dynamicTraces(state);
-    const key = `${robot.robot}|${map3Joints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}` : "none"}`;
+    const key = `${robot.robot}|${map3Joints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}` : "none"}|${sequenceKey(state.sequence)}`;
     if (key === baseKey && element.data) {
       const update = { x: dynamic.map((t) => t.x), y: dynamic.map((t) => t.y), z: dynamic.map((t) => t.z) };
       update["marker.color"] = dynamic.map((t, k) => (k === 1 ? t.marker.color : undefined));
@@ -187,6 +188,7 @@ export function createJointSpaceView({ element, header, note, legend, store, act
         });
       }
     }
+    data.push(...sequenceTraces(state.sequence, map3Joints, palette));
     dynamicStart = data.length;
     data.push(...dynamic);
     const axis = (joint) =>
@@ -251,7 +253,7 @@ export function createJointSpaceView({ element, header, note, legend, store, act
     hold: () => store.get().dragging || !kinematicsSettled(store.get()),
   });
   store.subscribe(requestRender, {
-    keys: ["robot", "joints", "fk", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging"],
+    keys: ["robot", "joints", "fk", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging", "sequence"],
   });
   return { render };
 }

@@ -99,3 +99,14 @@ export function silhouetteTrace(mesh, pose, h, v, { name, colour, meta = undefin
     meta,
   };
 }
+
+/** Whether the robot is drawn with its link meshes: it has some, the FK answer carries frame
+ * orientations, and the fitted capsules are not asked for instead. */
+export function drawsMeshes({ fk, robotMeshes, showCapsules }) {
+  return Boolean(robotMeshes && robotMeshes.length && !showCapsules && fk.frames_rpy_deg && fk.frames_rpy_deg.length);
+}
+
+/** The pose of robot frame `link` (0 base, i after joint i) in an FK answer. */
+export function linkPose(fk, link) {
+  return { position_mm: fk.frames_position_mm[link], rpy_deg: fk.frames_rpy_deg[link] };
+}

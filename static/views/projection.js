@@ -19,7 +19,7 @@ import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout
 import { frameScheduler } from "./frame.js";
 import { convexHull, projectedOutline, shapePoints } from "./shapes.js";
 import { meshKey, viewBounds } from "./scene3d.js";
-import { lighten, silhouetteTrace } from "./mesh_draw.js";
+import { drawsMeshes, lighten, linkPose, silhouetteTrace } from "./mesh_draw.js";
 import { fixtureFamily, selectedFixture } from "../cellsync.js";
 import { matrixFromRpyDeg, column, rigidMotion } from "../rotation.js";
 import { snapToStep } from "../units.js";
@@ -170,9 +170,12 @@ export function createProjectionView({
     return traces;
   }
 
-  function robotTraces(fk, level) {
+  function robotTraces(fk, state, level) {
     const armColour = levelColour(palette, level, palette.robot);
     const edgeColour = levelColour(palette, level, palette["robot-edge"]);
+    if (fk && drawsMeshes({ fk, robotMeshes: state.robotMeshes, showCapsules: state.showCapsules })) {
+      return [meshSilhouette(fk, state.robotMeshes, armColour, level), ...chainTraces(fk)];
+    }
     const segments = fk ? fk.capsule_segments_mm : [];
     const order = segments
       .map((segment, index) => ({
@@ -188,8 +191,6 @@ export function createProjectionView({
       xs.push(...outline.xs, null);
       ys.push(...outline.ys, null);
     }
-    const frames = fk ? fk.frames_position_mm : [];
-    const tcp = fk ? [fk.position_mm] : [];
     return [
       {
         name: "arm",
@@ -202,6 +203,37 @@ export function createProjectionView({
         meta: { role: "arm", level },
         connectgaps: false,
       },
+      ...chainTraces(fk),
+    ];
+  }
+
+  /** The robot's link meshes as one filled silhouette (mesh_draw.js), in the "arm" trace. */
+  function meshSilhouette(fk, meshes, colour, level) {
+    const xs = [];
+    const ys = [];
+    for (const mesh of meshes) {
+      const trace = silhouetteTrace(mesh, linkPose(fk, mesh.link), h, v, { name: "arm", colour });
+      xs.push(...trace.x);
+      ys.push(...trace.y);
+    }
+    return {
+      name: "arm",
+      x: xs,
+      y: ys,
+      mode: "lines",
+      fill: "toself",
+      fillcolor: colour,
+      line: { color: colour, width: 0.5 },
+      meta: { role: "arm", level },
+      connectgaps: false,
+    };
+  }
+
+  /** The kinematic chain and the TCP marker. */
+  function chainTraces(fk) {
+    const frames = fk ? fk.frames_position_mm : [];
+    const tcp = fk ? [fk.position_mm] : [];
+    return [
       {
         name: "chain",
         x: frames.map((p) => p[h]),
@@ -331,7 +363,7 @@ export function createProjectionView({
     if (!robot) {
       return;
     }
-    const arm = robotTraces(fk && fk.capsules ? fk : null, currentArmSeverity(state).level);
+    const arm = robotTraces(fk && fk.capsules ? fk : null, state, currentArmSeverity(state).level);
     const reach = state.showReach && state[reachKey] ? state[reachKey] : null;
     const key = `${robot.robot}|${cellActive}|${cell ? cell.etag : ""}|${meshKey(state.meshes)}|${reach ? `${reach.cell_etag}|${reach.requested_mm}` : "none"}`;
     if (key === staticKey && element.data) {
@@ -369,7 +401,7 @@ export function createProjectionView({
     render,
     minIntervalMs: () => (store.get().dragging ? ARM_REDRAW_WHILE_DRAGGING_MS : ARM_REDRAW_MS),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey, "armState", "meshes"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "cell", "cellActive", "showReach", reachKey, "armState", "meshes", "robotMeshes", "showCapsules"] });
   store.subscribe(placeMarkers, { keys: ["target", "fixture", "selection"] });
   new ResizeObserver(placeMarkers).observe(element);
 

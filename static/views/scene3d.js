@@ -12,6 +12,7 @@ import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { appendShapeMesh, sceneBounds } from "./shapes.js";
 import { mesh3dTrace } from "./mesh_draw.js";
 import { column, matrixFromQuaternion, matrixFromRpyDeg } from "../rotation.js";
+import { drawsMeshes, linkPose, posedVertices } from "./mesh_draw.js";
 
 const RING_STEPS = 14;
 const CAP_RINGS = 3;
@@ -240,11 +241,25 @@ export function createSceneView({ element, store, palette }) {
 
   /** The traces that move: arm, chain, TCP and its triad, target and its triad (fixed count). */
   function dynamicTraces(state) {
-    const { fk, target } = state;
+    const { fk, target, robotMeshes, showCapsules } = state;
     const level = currentArmSeverity(state).level;
     const hidden = { x: [], y: [], z: [] };
     const arm = { x: [], y: [], z: [], i: [], j: [], k: [] };
-    if (fk && fk.capsules) {
+    if (fk && drawsMeshes({ fk, robotMeshes, showCapsules })) {
+      for (const mesh of robotMeshes) {
+        const start = arm.x.length;
+        for (const [x, y, z] of posedVertices(mesh, linkPose(fk, mesh.link))) {
+          arm.x.push(x);
+          arm.y.push(y);
+          arm.z.push(z);
+        }
+        for (const [a, b, c] of mesh.faces) {
+          arm.i.push(start + a);
+          arm.j.push(start + b);
+          arm.k.push(start + c);
+        }
+      }
+    } else if (fk && fk.capsules) {
       fk.capsule_segments_mm.forEach(([start, end], index) => appendCapsuleMesh(arm, start, end, fk.capsules[index].radius_mm));
     }
     const frames = fk ? fk.frames_position_mm : [];
@@ -342,6 +357,6 @@ export function createSceneView({ element, store, palette }) {
     render,
     hold: () => store.get().dragging || !kinematicsSettled(store.get()),
   });
-  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive", "armState", "meshes"] });
+  store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive", "armState", "meshes", "robotMeshes", "showCapsules"] });
   return { render };
 }

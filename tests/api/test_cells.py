@@ -496,3 +496,13 @@ async def test_move_target_duplicate_nested_key_refused(file_client: httpx.Async
     )
     assert response.status_code == 422
     assert response.json()["detail"].endswith("duplicate key 'frame' in one object")
+
+
+async def test_read_cell_carries_the_thresholds(client: httpx.AsyncClient) -> None:
+    body = (await client.get("/api/cell")).json()
+    # the documented defaults of QualityThresholds (common practice, no source), which the
+    # page's severity module reads from the cell
+    thresholds = body["cell"]["thresholds"]
+    assert thresholds["clearance_mm"] == 25.0
+    assert thresholds["wrist_deg"] == 10.0
+    assert thresholds["limit_margin_deg"] == 5.0

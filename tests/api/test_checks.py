@@ -63,6 +63,13 @@ async def test_read_path_check(client: httpx.AsyncClient) -> None:
     if body["cycle_time_s"] is not None and None not in durations:
         # no blends on this path: the cycle is the sum of the segment times
         assert body["cycle_time_s"] == pytest.approx(sum(durations), rel=1e-9)
+    blended = [s["blended_duration_s"] for s in body["segments"]]
+    assert None not in blended
+    # the blended total is the sum of its segments and never above rest to rest (the arm can
+    # always stop at a waypoint: the time-optimal motion is never slower; closed form)
+    assert body["blended_cycle_time_s"] == pytest.approx(sum(blended), rel=1e-9)
+    assert body["blended_cycle_time_s"] <= body["cycle_time_s"] + 1e-9
+    assert body["blended_note"]
 
 
 async def test_read_path_check_unknown(client: httpx.AsyncClient) -> None:
@@ -208,3 +215,34 @@ async def test_start_placement_too_large(client: httpx.AsyncClient) -> None:
         "grid: 101 x 101 positions x 72 yaws x 1 heights = 734472 candidates; this server "
         f"searches at most {MAX_PLACEMENT_CANDIDATES}"
     )
+
+
+async def test_diagnose_pose_with_external_axes(
+    make_app: Callable[..., Any], tmp_path: Any
+) -> None:
+    cell = tmp_path / "track.json"
+    cell.write_text((ROBOTS / "demo-track-cell.json").read_text())
+    transport = httpx.ASGITransport(app=make_app(cell_path=cell))
+    async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as client:
+        q = [10.0, 20.0, -30.0, 5.0, 60.0, -15.0]
+        home = (await client.post("/api/cell/diagnose/pose", json={"joints_deg": q})).json()
+        response = await client.post(
+            "/api/cell/diagnose/pose", json={"joints_deg": [*q, 2000.0, 90.0]}
+        )
+        assert response.status_code == 200
+        moved = response.json()
+        assert moved["external_axes"] == {"track": 2000.0, "table-1": 90.0}
+        assert home["external_axes"] == {"track": 0.0, "table-1": 0.0}  # the demo's home values
+        shift = np.subtract(moved["tcp_world"]["position_mm"], home["tcp_world"]["position_mm"])
+        np.testing.assert_allclose(shift, [2000.0, 0.0, 0.0], atol=1e-9)  # rail along x
+        check = (await client.get("/api/cell/check")).json()
+        assert check["external_axis_names"] == ["track", "table-1"]
+        # the demo pins mill-vise at 3300 mm
+        assert check["targets"][1]["external_axes"]["track"] == 3300.0
+        drawing = (await client.get("/api/cell")).json()["scene"]
+        roles = {shape["name"]: shape["role"] for shape in drawing["shapes"]}
+        assert roles["track rail"] == roles["track carriage"] == "pedestal"
+        assert roles["table-1 plate"] == "fixture"
+        # closed form: the foot stands on the carriage top, rail origin z 40 + carriage 250 mm
+        assert drawing["base"]["foot_position_mm"] == pytest.approx([0.0, 0.0, 290.0])
+        assert [axis["name"] for axis in drawing["external_axes"]] == ["track", "table-1"]

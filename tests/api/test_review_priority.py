@@ -21,7 +21,15 @@ from pydantic import BaseModel
 from posebridge.api import auth
 from posebridge.api.app import create_app
 from posebridge.api.auth import REVIEWER_CAPS, enable_review_sharing
-from posebridge.api.jobs import KEPT_FINISHED, KEPT_FINISHED_S, JobManager
+from posebridge.api.jobs import (
+    KEPT_FINISHED,
+    KEPT_FINISHED_S,
+    MAX_ACTIVE_OWNER,
+    MAX_ACTIVE_PER_CLIENT,
+    MAX_STARTS_PER_MINUTE,
+    JobLimitError,
+    JobManager,
+)
 from posebridge.api.lanes import LaneFullError, ReviewerLane
 from posebridge.api.routes import checks as checks_routes
 from posebridge.api.settings import Settings
@@ -182,4 +190,30 @@ def test_reviewer_job_steps_yield_to_owner() -> None:
         while jobs.get(job.id).active:
             threading.Event().wait(0.01)
     assert pauses == ["posebridge-review-jobs"] * 3
+    jobs.close()
+
+
+def test_owner_starts_are_never_refused_reviewer_starts_are() -> None:
+    gate = threading.Event()
+
+    def blocked(progress: object, cancel: threading.Event) -> _Tiny:
+        gate.wait()
+        return _Tiny(value=0)
+
+    jobs = JobManager()
+    owner_jobs = [jobs.start("map", "127.0.0.1", blocked) for _ in range(MAX_STARTS_PER_MINUTE + 5)]
+    # our own contract: every owner start is accepted, at most MAX_ACTIVE_OWNER stay active
+    # (older queued ones superseded), the newest is among them
+    active = [job for job in owner_jobs if job.active]  # superseded ones may be forgotten
+    assert len(active) <= MAX_ACTIVE_OWNER
+    assert owner_jobs[-1] in active
+    for _ in range(MAX_ACTIVE_PER_CLIENT):
+        jobs.start("map", "10.0.0.2", blocked, reviewer=True)
+    # our own contract: a reviewer is capped at MAX_ACTIVE_PER_CLIENT active jobs
+    with pytest.raises(JobLimitError, match="at most 3"):
+        jobs.start("map", "10.0.0.2", blocked, reviewer=True)
+    gate.set()
+    while jobs.get(owner_jobs[-1].id).active:  # wait on the job's state
+        threading.Event().wait(0.01)
+    assert jobs.get(owner_jobs[-1].id).state == "done"
     jobs.close()

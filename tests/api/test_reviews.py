@@ -25,7 +25,7 @@ from posebridge.api.app import create_app
 from posebridge.api.auth import ACCESS_COOKIE, REVIEWER_CAPS, enable_review_sharing
 from posebridge.api.settings import Settings
 from posebridge.resources import data_folder
-from posebridge.review.access import new_review_token
+from posebridge.review.access import RateLimiter, new_review_token
 from posebridge.review.comments import CommentStore, comments_path_for
 
 pytestmark = pytest.mark.anyio
@@ -69,6 +69,9 @@ def shared_app(cell_file: Path, token: str) -> FastAPI:
     # shared as `serve --share --host 192.0.2.7`
     app = create_app(Settings(warm_up=False, cell_path=cell_file, host_names=("192.0.2.7",)))
     enable_review_sharing(app, token)
+    # a clock that stands still: the buckets never refill during a test, so a burst is refused
+    # at its cap however slowly the machine answers (no dependence on machine speed)
+    app.state.review_limits = RateLimiter(REVIEWER_CAPS, clock=lambda: 0.0)
     return app
 
 

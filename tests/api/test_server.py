@@ -60,7 +60,9 @@ def test_read_health_over_loopback() -> None:
         page = httpx.get(url, timeout=10)
         script = httpx.get(url + "vendor/plotly.min.js", timeout=10)
     assert response.status_code == 200
-    assert response.json() == {"status": "ok", "version": version("posebridge")}
+    body = response.json()
+    assert (body["status"], body["version"]) == ("ok", version("posebridge"))
+    assert body["kernels_ready"] is True  # warm_up off: nothing to load (our own contract)
     assert page.status_code == 200
     assert 'src="/vendor/plotly.min.js"' in page.text
     assert script.status_code == 200

@@ -207,3 +207,49 @@ def test_fix_branch_inconsistent_target(open_page: Any, cell_path: Path, artifac
     assert check_targets(resolve_scene(load_cell(cell_path))).consistent_branch.consistent
     page.screenshot(path=str(artifacts / "page-target-fixed.png"), full_page=True)
     assert open_page.problems.console_errors == []
+
+
+def test_fastest_sequence_is_drawn_and_used(
+    open_page: Any, cell_path: Path, artifacts: Path
+) -> None:
+    from posebridge.planning.sequence_report import optimise_path
+
+    page = open_page.page
+    scene = resolve_scene(load_cell(cell_path), cell_path)
+    index = [p.name for p in scene.paths].index("unload-to-conveyor")
+    expected = optimise_path(scene, index)  # the Python API on the file the server reads
+    page.select_option("#path-select", "unload-to-conveyor")
+    href = page.get_attribute("#path-export-csv", "href")
+    assert href == "/api/cell/paths/unload-to-conveyor/export.csv"
+    page.click("#path-optimise")
+    page.wait_for_function("() => window.posebridge.getState().sequence", timeout=60_000)
+    assert expected.summary in page.inner_text("#path-sequence")
+    # the chosen sequence is a curve on the joint map's base figure, over the map's two joints
+    page.wait_for_function(
+        "() => (document.getElementById('joint-map-base').data || [])"
+        ".some((t) => t.meta && t.meta.role === 'sequence')",
+        timeout=30_000,
+    )
+    curve = page.evaluate(
+        "() => document.getElementById('joint-map-base').data"
+        ".find((t) => t.meta && t.meta.role === 'sequence')"
+    )
+    joints = page.evaluate(STATE)["mapJoints"]
+    assert expected.best is not None
+    best = [w.joints_deg for w in expected.best.waypoints]
+    # cell files keep numbers to 0.001 mm/deg: the server's copy and the file differ by that
+    assert curve["x"] == pytest.approx([q[joints[0]] for q in best], abs=1e-3)
+    assert curve["y"] == pytest.approx([q[joints[1]] for q in best], abs=1e-3)
+    etag = page.evaluate(STATE)["cell"]["etag"]
+    page.click("#path-use-sequence")
+    page.wait_for_function(
+        f"() => window.posebridge.getState().cell.etag !== {json.dumps(etag)}", timeout=30_000
+    )
+    saved = json.loads(cell_path.read_text())
+    path = next(p for p in saved["paths"] if p["name"] == "unload-to-conveyor")
+    for edit in expected.edits:
+        assert path["waypoints"][edit.index]["joints_deg"] == pytest.approx(
+            edit.joints_deg, abs=1e-3
+        )
+    page.screenshot(path=str(artifacts / "page-fastest-sequence.png"), full_page=True)
+    assert open_page.problems.console_errors == []

@@ -27,6 +27,8 @@ from posebridge.cell.report_text import render_target_check
 from posebridge.cell.reports import QualityThresholds, TargetCheckReport
 from posebridge.cell.scene import resolve_scene
 from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
+from posebridge.planning.path_check import check_path
+from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
 
 ROBOTS = data_folder("robots")
@@ -399,3 +401,73 @@ def test_per_target_work_is_batched(monkeypatch: pytest.MonkeyPatch) -> None:
     for k, check in enumerate(report.targets[: len(RAW["targets"])]):
         assert check.reachable == single.targets[k].reachable
         assert check.usable_branches == single.targets[k].usable_branches
+
+
+def test_cell_thresholds_are_used_by_the_target_check() -> None:
+    relaxed = variant(lambda data: data.update(thresholds={"clearance_mm": 15.0}))
+    report = check_targets(relaxed)
+    # python-fcl measures about 20 mm at press-load: above the cell's 15 mm, no warning
+    assert not [f for f in findings(report, "press-load", "clearance") if "press-die" in f.message]
+    # our own contract: the report states the set it used
+    assert report.thresholds.clearance_mm == 15.0
+
+
+def test_path_check_warns_where_the_target_check_warns(report, demo_scene, fcl_cell) -> None:
+    index = [p.name for p in demo_scene.paths].index("load-press")
+    path = check_path(demo_scene, index)
+    # the cell file: waypoint 1 of load-press is the press-load target, reached by a linear move
+    q = sample_path(demo_scene, index).waypoint_q[1]
+    distances = fcl_cell.obstacle_distances(q)
+    reference_mm = 1000.0 * min(distances.values())
+    # python-fcl (reference library): about 20 mm, below the 25 mm default threshold
+    # (common practice, no source) and above the 20 mm the path check used before
+    assert 20.0 < reference_mm < 25.0
+    near = [
+        f
+        for f in path.findings
+        if f.kind == "low_clearance" and f.obstacle == "press-die" and f.fraction_end == 1.0
+    ]
+    assert near and near[0].severity == "warning" and near[0].segment_index == 0
+    # the stretch ends at the target; its worst point is no farther than the target itself
+    assert near[0].distance_mm is not None
+    assert near[0].distance_mm <= reference_mm + FCL_TOLERANCE_MM
+    # the target check warns at the same point with the same threshold
+    assert findings(report, "press-load", "clearance")
+    assert path.thresholds == report.thresholds
+    assert path.clearance_warning_mm == report.thresholds.clearance_mm
+
+
+def test_environment_and_self_clearance_are_reported_apart(report, demo_scene, fcl_cell) -> None:
+    check = target(report, "press-load")
+    best = check.target.branches[check.target.recommended]
+    # our own contract: each figure is its own pair's distance, the overall one their minimum
+    assert best.environment_clearance_mm == best.closest_environment.distance_mm
+    assert best.self_clearance_mm == best.closest_self.distance_mm
+    assert best.clearance_mm == min(best.environment_clearance_mm, best.self_clearance_mm)
+    text = render_target_check(report)
+    row = next(line for line in text.splitlines() if line.startswith("press-load "))
+    assert "press-die" in row and best.closest_self.other in row
+    index = [p.name for p in demo_scene.paths].index("load-press")
+    path = check_path(demo_scene, index)
+    sampled = sample_path(demo_scene, index)
+    reached = np.concatenate([s.q[s.reachable] for s in sampled.segments])
+    reference = min(min(fcl_cell.obstacle_distances(q).values()) for q in reached)
+    # python-fcl (reference library) on the same samples: the smallest clearance to the cell
+    assert path.environment_clearance_mm == pytest.approx(reference * 1000.0, abs=FCL_TOLERANCE_MM)
+    assert path.closest_environment is not None and "press-die" in path.closest_environment
+    assert path.self_clearance_mm is not None and path.closest_self is not None
+    assert path.min_clearance_mm == min(path.environment_clearance_mm, path.self_clearance_mm)
+
+
+def test_repeated_findings_are_grouped_by_cause(report) -> None:
+    pair = "gripper-body – press-die"
+    members = [f for f in report.findings if f.code == "clearance" and f.cause == pair]
+    # the demo notes: press-load and press-unload both sit about 20 mm above the press die
+    assert {f.target for f in members} >= {"press-load", "press-unload"}
+    (group,) = [g for g in report.finding_groups if g.code == "clearance" and g.cause == pair]
+    # our own contract: the group counts its members and keeps the one with the smallest value
+    assert group.count == len(members) >= 2
+    assert group.worst.value == min(f.value for f in members)
+    text = render_target_check(report)
+    assert f"{group.count} x clearance {pair}; worst" in text
+    assert text.count(f"x clearance {pair}") == 1

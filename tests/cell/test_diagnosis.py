@@ -308,3 +308,22 @@ def test_pose_input_shapes(demo_scene) -> None:
         diagnose_pose(demo_scene, np.zeros((2, 6)))
     text = render_pose_diagnosis(diagnose_pose(demo_scene, np.zeros(6)))
     assert "TCP in world" in text and "* " in text
+
+
+def test_pose_reports_environment_and_self_clearance_apart(
+    gauge_pose, fcl_cell, documented_joints
+) -> None:
+    table = fcl_cell.obstacle_distances(np.radians(documented_joints["gauge-probe"]))
+    (capsule, obstacle), distance = min(table.items(), key=lambda item: item[1])
+    # python-fcl (reference library): the clearance to the cell, whatever the arm's own pairs
+    assert gauge_pose.environment_clearance_mm == pytest.approx(
+        distance * 1000.0, abs=FCL_TOLERANCE_MM
+    )
+    first, second = gauge_pose.closest_self.capsule, gauge_pose.closest_self.other
+    own = fcl_cell.capsule_distance(np.radians(documented_joints["gauge-probe"]), first, second)
+    assert gauge_pose.self_clearance_mm == pytest.approx(own * 1000.0, abs=FCL_TOLERANCE_MM)
+    # our own contract: the text gives both, each with its pair
+    text = render_pose_diagnosis(gauge_pose)
+    assert f"environment:       {gauge_pose.environment_clearance_mm:.1f} mm ({capsule}" in text
+    assert f"self-clearance:    {gauge_pose.self_clearance_mm:.1f} mm ({first}" in text
+    assert obstacle in text

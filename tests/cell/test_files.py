@@ -80,8 +80,11 @@ def test_saved_text_is_readable_json(tmp_path: Path) -> None:
     assert '"position_mm": [800.0, 0.0, 400.0]' in text
     assert '"parent"' not in text
     assert text.endswith("}\n")
-    # the standard library's JSON reader (independent parser) reads the same content
-    assert json.loads(text) == cell.model_dump(mode="json", exclude_none=True)
+    # the standard library's JSON reader (independent parser) reads the same content, default
+    # thresholds left out (our own contract)
+    expected = cell.model_dump(mode="json", exclude_none=True)
+    del expected["thresholds"]
+    assert json.loads(text) == expected
 
 
 def test_saved_numbers_are_rounded_to_a_thousandth(tmp_path: Path) -> None:
@@ -102,8 +105,10 @@ def test_saved_numbers_are_rounded_to_a_thousandth(tmp_path: Path) -> None:
 def test_etag_is_sha256_of_canonical_json_and_ignores_formatting(tmp_path: Path) -> None:
     data = small_cell_data()
     cell = validate_cell(data)
+    content = cell.model_dump(mode="json", exclude_none=True)
+    del content["thresholds"]  # default thresholds are not written, so not content
     canonical = json.dumps(
-        cell.model_dump(mode="json", exclude_none=True),
+        content,
         sort_keys=True,
         separators=(",", ":"),
         ensure_ascii=False,
@@ -444,3 +449,17 @@ def test_leftover_temporaries_are_removed(tmp_path: Path) -> None:
         file.write_text("{")
     assert sorted(files.remove_leftover_temporaries(path)) == sorted(ours)
     assert sorted(tmp_path.iterdir()) == sorted([path, *others])
+
+
+def test_thresholds_are_saved_only_when_set(tmp_path: Path) -> None:
+    plain = validate_cell(small_cell_data())
+    # our own contract: default thresholds stay out of the file (it follows later defaults)
+    assert '"thresholds"' not in cell_json(plain)
+    data = small_cell_data()
+    data["thresholds"] = {"clearance_mm": 40.0}
+    own = validate_cell(data)
+    path = tmp_path / "cell.json"
+    save_cell(own, path)
+    # our own contract: only the fields the user set are written, and they load back
+    assert json.loads(path.read_text())["thresholds"] == {"clearance_mm": 40.0}
+    assert load_cell(path).thresholds == own.thresholds

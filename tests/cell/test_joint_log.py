@@ -55,6 +55,20 @@ def test_columns_in_any_order_and_without_time(arm) -> None:
     np.testing.assert_array_equal(log.line, [2])
 
 
+def test_export_files_read_as_logs(robot) -> None:
+    gantry = robot("pb-gantry3")
+    text = (
+        "# posebridge motion export\n# robot: pb-gantry3\n"
+        "time_s,segment,x_mm,y_mm,z_mm,c_deg,branch,clearance_mm\n"
+        '0,0,1000,750,400,90,"front, up",12.5\n0.004,0,1001,750,400,90,"front, up",12.4\n'
+    )
+    log = parse_joint_log(text, gantry)
+    # closed form: m = mm / 1000, rad = deg * pi / 180; the header follows two comment lines
+    np.testing.assert_allclose(log.q[1], [1.001, 0.75, 0.4, math.pi / 2], rtol=1e-15)
+    np.testing.assert_array_equal(log.line, [4, 5])
+    assert log.time_s is not None and log.time_s.tolist() == [0.0, 0.004]
+
+
 def test_prismatic_joints_are_millimetres(robot) -> None:
     gantry = robot("pb-gantry3")
     log = parse_joint_log("x, y ,z,c\n1000,750,400,90\n", gantry)
@@ -76,9 +90,14 @@ def test_prismatic_joints_are_millimetres(robot) -> None:
             "'pb-arm6' (j1, j2, j3, j4, j5, j6) and optionally time_s",
         ),
         (
-            "time_s,j1_deg,j2,j3,j4,j5,j6\n",
-            "log.csv: line 1, column 2: unknown column 'j1_deg'; write the joint name only "
-            "('j1'), values are degrees (millimetres for prismatic joints)",
+            "time_s,j1_mm,j2,j3,j4,j5,j6\n",
+            "log.csv: line 1, column 2: unknown column 'j1_mm'; joint 'j1' is in deg "
+            "(write 'j1' or 'j1_deg')",
+        ),
+        ("j1,j2,j3,j4,j5,j6,j2_deg\n", "log.csv: line 1, column 7: duplicate column 'j2_deg'"),
+        (
+            "# a comment\n\nj1,j2,j3,j4,j5,j6\n",
+            "log.csv: line 2: expected the header row of joint names",
         ),
         ("j1,j2,j3,j4,j5,j6,j2\n", "log.csv: line 1, column 7: duplicate column 'j2'"),
         (

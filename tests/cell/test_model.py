@@ -485,3 +485,26 @@ def test_cell_file_error_message_names_the_source() -> None:
     # our own contract: one problem per line, prefixed by the file
     assert str(error) == "cell.json: a: one\ncell.json: b: two"
     assert error.problems == ["a: one", "b: two"]
+
+
+def test_thresholds_default_and_set_in_the_cell_file() -> None:
+    # the documented defaults of QualityThresholds (common practice, no source)
+    defaults = validate_cell(minimal()).thresholds
+    assert (defaults.clearance_mm, defaults.limit_margin_deg, defaults.wrist_deg) == (
+        25.0,
+        5.0,
+        10.0,
+    )
+    data = minimal()
+    data["thresholds"] = {"clearance_mm": 40, "wrist_deg": 4}
+    cell = validate_cell(data)
+    # our own contract: set fields taken from the file, the others keep their defaults
+    assert (cell.thresholds.clearance_mm, cell.thresholds.wrist_deg) == (40.0, 4.0)
+    assert cell.thresholds.elbow_deg == defaults.elbow_deg
+    # our own contract: a bad threshold is named by its JSON path
+    assert problems(edited("thresholds", {"clearance_mm": -1})) == [
+        "thresholds.clearance_mm: must be > 0"
+    ]
+    assert problems(edited("thresholds", {"clearance": 30})) == [
+        "thresholds.clearance: unknown field"
+    ]

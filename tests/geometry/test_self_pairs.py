@@ -7,6 +7,8 @@ that always overlaps; the independent segment-segment enumeration of the
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import numpy as np
 import pytest
 
@@ -59,3 +61,22 @@ def test_pairs_are_reproducible_and_checked(robot) -> None:
     np.testing.assert_array_equal(first, self_collision_pairs(arm, samples=50, seed=3))
     with pytest.raises(ValueError, match="samples: expected at least 1, got 0"):
         self_collision_pairs(arm, samples=0)
+
+
+def test_pair_at_a_fixed_distance_is_left_out(robot) -> None:
+    """pb-planar2r turns about two parallel z axes 400 mm apart. A sphere on the base at the
+    first axis and a sphere on link 2 at the elbow axis stay 400 mm apart whatever the joints
+    do (closed form: joint 1 turns both about the first axis, joint 2 turns the elbow sphere
+    about its own centre), so their pair is left out; a sphere 300 mm out on link 2 is
+    between 100 and 700 mm from the base sphere (closed form, law of cosines), so its pair
+    stays in."""
+    extra = [
+        Capsule("base-ball", 0, np.zeros(3), np.zeros(3), 0.05),
+        Capsule("elbow-ball", 2, np.zeros(3), np.zeros(3), 0.05),
+        Capsule("tip-ball", 2, np.array([0.3, 0.0, 0.0]), np.array([0.3, 0.0, 0.0]), 0.05),
+    ]
+    model = robot("pb-planar2r")
+    arm = ArmCapsules.from_robot(replace(model, capsules=tuple(model.capsules) + tuple(extra)))
+    kept = {(arm.names[i], arm.names[j]) for i, j in self_collision_pairs(arm, samples=200)}
+    assert ("base-ball", "elbow-ball") not in kept  # closed form (docstring)
+    assert ("base-ball", "tip-ball") in kept  # closed form (docstring)

@@ -213,3 +213,30 @@ def test_limit_margins_at_mid_range_is_half() -> None:
     # closed form: at (lower + upper) / 2 the nearer limit is half the range away
     np.testing.assert_allclose(margins.fraction, 0.5, atol=1e-12)
     np.testing.assert_allclose(margins.margin[0], 0.5 * (robot.upper - robot.lower), atol=1e-12)
+
+
+def test_full_measure_falls_at_the_wrist_singularity_the_position_part_does_not() -> None:
+    from posebridge.kinematics.jacobian import jacobian_base
+    from posebridge.kinematics.metrics import (
+        characteristic_length_m,
+        manipulability_scaled_full,
+    )
+
+    robot = load_robot("pb-arm6")
+    # pb-arm6's wrist is straight at j5 = 0 (j4 and j6 both turn about x in robots/pb-arm6.toml)
+    q = np.radians([[0.0, 30.0, -20.0, 0.0, 0.0, 0.0], [0.0, 30.0, -20.0, 0.0, 30.0, 0.0]])
+    J = jacobian_base(robot, q)
+    length = characteristic_length_m(robot)
+    full = manipulability_scaled_full(J, length)
+    position = manipulability_yoshikawa(J[:, :3, :])
+    # closed form: with axes 4 and 6 parallel the Jacobian loses rank (Siciliano et al.,
+    # Robotics, sec. 3.3), so det(J J^T) = 0; the translational rows keep full rank
+    assert full[0] == pytest.approx(0.0, abs=1e-12)
+    assert full[1] > 1e-6
+    assert position[0] > 1e-6
+    # numpy (reference): the scaled measure is sqrt(det(Js Js^T)) with rows 0..2 divided by L
+    scaled = J[1].copy()
+    scaled[:3] /= length
+    assert full[1] == pytest.approx(math.sqrt(np.linalg.det(scaled @ scaled.T)), rel=1e-9)
+    with pytest.raises(KinematicsInputError, match="expected 6 rows"):
+        manipulability_scaled_full(J[:, :3, :], length)

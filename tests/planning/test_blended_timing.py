@@ -21,7 +21,9 @@ from posebridge.planning.blended_timing import (
     time_optimal_parameterization,
 )
 from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
+from posebridge.planning.reports import render_path_check
 from posebridge.resources import data_folder
 
 UNIT_RAD_DEG = math.degrees(1.0)
@@ -291,3 +293,28 @@ def test_unreached_paths_cannot_be_sampled() -> None:
     assert math.isnan(timing.total)
     with pytest.raises(PlanningInputError, match=r"segments \[0\]"):
         sample_motion(timing, 0.004)
+
+
+def test_path_check_reports_blended_beside_rest_to_rest() -> None:
+    end = math.degrees(1.0)
+    scene = cell(
+        TWO_AXIS_ARM,
+        [joints([0.0, 30.0]), joints([end / 2, 30.0], blend_mm=50.0), joints([end, 30.0])],
+    )
+    report = check_path(scene, 0)
+    assert report.cycle_time_s is not None and report.blended_cycle_time_s is not None
+    # closed form (Lynch & Park, Modern Robotics, sec. 9.2.2.2): one trapezoid over 1 rad at
+    # v_max = 1 rad/s, a_max = 2 rad/s^2 is 1.5 s; TOPP-RA's grid within 0.2 %
+    assert report.blended_cycle_time_s == pytest.approx(1.5, rel=2e-3)
+    # closed form: two rest-to-rest trapezoids over 0.5 rad each, 2 (0.5 + 0.5) = 2 s
+    assert report.cycle_time_s == pytest.approx(2.0, abs=1e-9)
+    blended = [s.blended_duration_s for s in report.segments]
+    assert None not in blended
+    # the total is the sum of its segments (closed form)
+    assert report.blended_cycle_time_s == pytest.approx(sum(b for b in blended if b is not None))
+    assert [w.blended for w in report.waypoints] == [False, True, False]
+    # the arm passes the middle waypoint on its line: the joint path of the corner is the line
+    # itself (closed form), so the TCP passes within TOPP-RA's grid spacing of it
+    assert report.waypoints[1].pass_distance_mm == pytest.approx(0.0, abs=1.0)
+    text = render_path_check(report)
+    assert f"{report.blended_cycle_time_s:.2f} s blended" in text

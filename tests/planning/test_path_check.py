@@ -12,6 +12,7 @@ from scipy.spatial.transform import Rotation
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
+from posebridge.cell.reports import QualityThresholds
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.geometry.clearance import capsule_segments_world
 from posebridge.kinematics.fk import fk_tool
@@ -119,7 +120,9 @@ def test_joint_limit_margin_and_values_outside_the_limits() -> None:
             joints([2100.0, 750.0, 400.0, 0.0]),
         ],
     )
-    findings = of_kind(check_path(scene, 0, limit_margin_mm=10.0), "joint_limit")
+    findings = of_kind(
+        check_path(scene, 0, thresholds=QualityThresholds(limit_margin_mm=10.0)), "joint_limit"
+    )
     near = [f for f in findings if f.severity == "warning" and f.segment_index == 0]
     outside = [f for f in findings if f.severity == "error"]
     # closed form: 2000 mm (upper limit of x) - 1995 mm = 5 mm, below the 10 mm margin
@@ -239,3 +242,42 @@ def test_bad_path_index_is_refused() -> None:
         check_path(scene, 3)
     with pytest.raises(PlanningInputError, match="resolution_mm"):
         check_path(scene, 0, resolution_mm=0.0)
+
+
+def test_clearance_threshold_comes_from_the_cell() -> None:
+    box = {
+        "name": "block",
+        "shape": "box",
+        "position_mm": [750.0, 500.0, 853.0],
+        "size_mm": [100.0, 100.0, 100.0],
+    }
+    waypoints = [down(500.0, motion="joint", speed_percent=100.0), down(1000.0, speed_mm_s=250.0)]
+    # closed form: the head capsule's lowest point is 1000 - 30 - 45 = 925 mm, the box top
+    # 903 mm, so the move passes 22 mm above the block
+    for clearance_mm, warned in ((25.0, True), (15.0, False)):
+        scene = cell(
+            "pb-gantry3",
+            waypoints,
+            fixtures=[box],
+            thresholds={"clearance_mm": clearance_mm},
+        )
+        report = check_path(scene, 0, resolution_mm=5.0)
+        near = [f for f in of_kind(report, "low_clearance") if f.obstacle == "block"]
+        assert bool(near) == warned
+        if warned:
+            assert near[0].distance_mm == pytest.approx(22.0, abs=1e-6)
+        assert report.clearance_warning_mm == clearance_mm
+
+
+def test_stopping_near_a_singularity_is_a_warning_as_in_the_target_check() -> None:
+    start = [30.0, 0.0, 0.0, 0.0, 40.0, 0.0]
+    stop = [0.0, 0.0, 0.0, 0.0, 3.0, 0.0]
+    scene = cell("pb-arm6", [joints(start), joints(stop)], floor_height_mm=-2000.0)
+    report = check_path(scene, 0, resolution_deg=0.5)
+    wrist = [f for f in of_kind(report, "singularity") if "wrist" in f.message]
+    # closed form: pb-arm6's wrist is straight at j5 = 0 (j4 and j6 both turn about x in
+    # robots/pb-arm6.toml), so the arm stops 3 deg from the wrist singularity, below the
+    # 10 deg default threshold (common practice, no source): the target check's warning
+    assert wrist and wrist[0].fraction_end == 1.0
+    assert wrist[0].severity == "warning"
+    assert wrist[0].angle_deg == pytest.approx(3.0, abs=1e-9)

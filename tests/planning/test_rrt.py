@@ -10,10 +10,12 @@ from hypothesis import strategies as st
 
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
+from posebridge.cell.model import validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.geometry.clearance import capsule_segments_world
 from posebridge.geometry.shapes import BOX, CYLINDER, FLOOR, ArmCapsules
 from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.path_sampling import sample_path
 from posebridge.planning.reports import render_joint_plan
 from posebridge.planning.rrt import edge_configurations, lever_arms, plan_joint_move
 from posebridge.resources import data_folder
@@ -110,7 +112,8 @@ def test_plans_around_the_press_column(demo: Scene) -> None:
     report = plan_joint_move(demo, START, GOAL, seed=7, safety_margin_mm=10.0)
     assert report.status == "solved"
     # the straight move is refused; python-fcl confirms it comes closer than the margin
-    assert report.straight_move_obstacle == "press-column-left"
+    # (the cell file: it sweeps past both press columns; the report names its worst point)
+    assert report.straight_move_obstacle in ("press-column-left", "press-column-right")
     straight = edge_configurations(START, GOAL, lever_arms(clearance_scene(demo).arm), 0.01)
     straight_environment, _ = fcl_min_distance(demo, straight)
     assert straight_environment < 0.01
@@ -130,7 +133,7 @@ def test_plans_around_the_press_column(demo: Scene) -> None:
     assert report.min_clearance_mm is not None and report.min_clearance_mm >= -1e-6
     assert report.check is not None
     assert not [f for f in report.check.findings if f.kind == "collision"]
-    assert "press-column-left" in report.message
+    assert report.straight_move_obstacle in report.message
     assert render_joint_plan(report).startswith("Joint move plan: solved")
 
 
@@ -180,3 +183,35 @@ def test_bad_requests_are_refused(demo: Scene) -> None:
     outside = START.copy()
     outside[0] = np.radians(175.0)  # j1 limit is 167 deg (pb-arm6.toml)
     assert plan_joint_move(demo, outside, GOAL).status == "outside_limits"
+
+
+def test_straight_move_is_described_by_its_worst_point() -> None:
+    def down(x_mm: float) -> dict[str, object]:
+        pose = {"position_mm": [x_mm, 500.0, 1000.0], "rpy_deg": [180.0, 0.0, 0.0]}
+        return {"pose": pose, "motion": "joint", "speed_percent": 100.0}
+
+    box = {
+        "name": "block",
+        "shape": "box",
+        "position_mm": [750.0, 500.0, 900.0],
+        "size_mm": [100.0, 100.0, 100.0],
+    }
+    data = {
+        "robot": {"name": "pb-gantry3"},
+        "fixtures": [box],
+        "paths": [{"name": "p", "waypoints": [down(500.0), down(1000.0)]}],
+    }
+    scene = resolve_scene(validate_cell(data))
+    q_start, q_goal = sample_path(scene, 0).waypoint_q
+    report = plan_joint_move(
+        scene, q_start, q_goal, time_limit_s=1.0, max_checks=2000, recheck=False
+    )
+    # closed form (as in test_path_check): the gantry's straight joint move carries the TCP on
+    # the line x 500 -> 1000 mm; the head capsule's lowest point (925 mm) is 25 mm inside the
+    # block's top (950 mm) while the TCP is over the block, x 700..800 mm (fraction 0.4..0.6);
+    # the first point inside the 10 mm safety margin is still clear of the block
+    assert report.straight_move_obstacle == "block"
+    assert report.straight_move_worst_mm == pytest.approx(-25.0, abs=1e-6)
+    assert report.straight_move_worst_fraction is not None
+    assert 0.4 <= report.straight_move_worst_fraction <= 0.6
+    assert "25.0 mm deep" in report.message

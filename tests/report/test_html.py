@@ -176,10 +176,15 @@ def test_report_shows_cycle_times_of_path_check(demo_html: str, demo_cell: Path)
     for p in range(len(scene.paths)):
         reference = check_path(scene, p)  # the path check's own result is the reference
         assert reference.cycle_time_s is not None
-        assert f"Path {reference.path}: cycle time {reference.cycle_time_s:.3f} s" in demo_html
+        assert reference.blended_cycle_time_s is not None
+        assert (
+            f"Path {reference.path}: cycle time {reference.cycle_time_s:.3f} s rest to rest, "
+            f"{reference.blended_cycle_time_s:.3f} s blended"
+        ) in demo_html
         for segment in reference.segments:
-            assert segment.duration_s is not None
+            assert segment.duration_s is not None and segment.blended_duration_s is not None
             assert f"{segment.duration_s:.3f} s" in demo_html
+            assert f"{segment.blended_duration_s:.3f} s" in demo_html
         for finding in reference.findings:
             assert finding.message in shown
 

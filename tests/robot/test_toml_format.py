@@ -97,6 +97,20 @@ def test_fixture_base_file_is_valid() -> None:
     robot = load_robot_toml(FIXTURES / "valid-2r.toml")
     assert robot.joint_names == ("j1", "j2")
     np.testing.assert_allclose(robot.T_link_flange[:3, 3], [0.3, 0.0, 0.0])  # 300 mm / 1000
+    assert robot.notes == ()  # our own contract: a complete file has no notes
+
+
+def test_missing_flange_table_is_a_note(tmp_path: Path) -> None:
+    text = (FIXTURES / "valid-2r.toml").read_text(encoding="utf-8")
+    start = text.index("[flange]")
+    end = text.index("[[capsule]]")
+    path = tmp_path / "no-flange.toml"
+    path.write_text(text[:start] + text[end:], encoding="utf-8")
+    robot = load_robot_toml(path)
+    # our own contract: the flange falls back to the last joint's frame, and a note says so
+    np.testing.assert_array_equal(robot.T_link_flange, np.eye(4))
+    (note,) = robot.notes
+    assert "no [flange] table" in note
 
 
 # ----------------------------------------------------------------- error reports

@@ -235,12 +235,13 @@ def test_several_leaves_need_a_to_link() -> None:
     with pytest.raises(
         RobotDescriptionError,
         match=r"g\.urdf: to_link: from_link 'root' has several leaf links below it; "
-        r"choose the to_link among: finger_left, finger_right",
+        r"choose the to_link \(--to-link on the command line, to_link in a cell's robot entry "
+        r"or a robot overlay\) among: finger_left, finger_right",
     ):
         parse_robot_urdf(text, "g.urdf")
     robot = parse_robot_urdf(text, "g.urdf", to_link="finger_right")
     assert robot.joint_names == ("a",)
-    assert any("outside the selected chain ignored: g1" in note for note in robot.notes)
+    assert (robot.from_link, robot.to_link) == ("root", "finger_right")
 
 
 def test_unknown_links_are_named_with_a_suggestion() -> None:
@@ -302,17 +303,19 @@ def test_floating_and_planar_joints_on_the_chain_are_refused(kind: str) -> None:
     assert robot.joint_names == ("a",)
 
 
-def test_mimic_joint_on_the_chain_is_refused() -> None:
+def test_mimic_joint_on_the_chain_is_held_at_zero() -> None:
     text = chain_urdf(
         joint("a", "revolute", "root", "l1")
-        + joint("b", "revolute", "l1", "l2", extra='<mimic joint="a" multiplier="1"/>'),
+        + joint(
+            "b", "revolute", "l1", "l2", xyz="0 0 0.3", extra='<mimic joint="a" multiplier="1"/>'
+        ),
         ["root", "l1", "l2"],
     )
-    with pytest.raises(
-        RobotDescriptionError,
-        match=r"mimic\.urdf:\d+: joint\[b\]\.mimic: mimic joints are not supported in the chain",
-    ):
-        parse_robot_urdf(text, "mimic.urdf")
+    robot = parse_robot_urdf(text, "mimic.urdf")
+    assert robot.joint_names == ("a",) and robot.held_joints == ("b",)
+    assert any("held at zero" in note and "b (mimic)" in note for note in robot.notes)
+    # held at zero, joint b's frame is its origin: 0.3 m above l1 (URDF specification)
+    np.testing.assert_allclose(robot.T_link_flange[:3, 3], [0, 0, 0.3])
 
 
 def test_cycle_and_several_roots_are_refused() -> None:
@@ -452,7 +455,7 @@ def test_collision_geometry_to_capsules_and_notes() -> None:
     )
     robot = parse_robot_urdf(text, "geo.urdf")
     by_name = {c.name: c for c in robot.capsules}
-    assert set(by_name) == {"root", "upper", "grip"}
+    assert set(by_name) == {"root", "upper", "grip", "housing"}
     # sphere -> zero-length capsule at the sphere centre (exact)
     np.testing.assert_allclose(by_name["root"].start, [0, 0, 0.1])
     np.testing.assert_allclose(by_name["root"].end, [0, 0, 0.1])
@@ -466,11 +469,20 @@ def test_collision_geometry_to_capsules_and_notes() -> None:
     # origin along its z axis (as for <cylinder>; common extension, from memory)
     np.testing.assert_allclose(by_name["grip"].start, [0, 0, 0.25])
     np.testing.assert_allclose(by_name["grip"].end, [0, 0, 0.35])
+    # a 0.1 m cube: segment over one full side, radius half the face diagonal, so the
+    # corners lie on the capsule (closed form: sqrt(0.05^2 + 0.05^2))
+    housing = by_name["housing"]
+    assert housing.radius == pytest.approx(math.hypot(0.05, 0.05), rel=1e-12)
+    assert np.linalg.norm(housing.end - housing.start) == pytest.approx(0.1, rel=1e-12)
     notes = "\n".join(robot.notes)
-    assert "2 mesh reference(s) ignored" in notes
+    assert "2 mesh file(s) not found" in notes
     assert "package://demo_cell/meshes/base.stl" in notes and "meshes/arm.dae" in notes
     assert "collision cylinders turned into capsules" in notes and "on links: arm" in notes
-    assert "box on arm" in notes and "mesh on arm" in notes
+    assert "collision boxes enclosed by capsules" in notes
+    assert {(m.source_link, m.role, m.path) for m in robot.meshes} == {
+        ("root", "visual", None),
+        ("arm", "collision", None),
+    }
 
 
 def test_collision_on_fixed_links_goes_to_the_moving_link_frame() -> None:

@@ -40,6 +40,7 @@ from posebridge.api.routes import (
     robots,
 )
 from posebridge.api.settings import Settings, get_settings
+from posebridge.api.warmup import KernelWarmUp, WarmStep
 from posebridge.cell.checks import check_targets
 from posebridge.cell.model import CellFileError
 from posebridge.errors import InputError
@@ -59,15 +60,30 @@ def plotly_script_path() -> Path:
     return Path(str(files("plotly") / "package_data" / "plotly.min.js"))
 
 
-def _warm_up(cache: RobotCache, robot_spec: str, cells: CellStore) -> None:
-    """Load the kinematics kernels of the served robot and the cell's robot (the layer's
-    warm-up), then run a tiny joint map and the target check once, before the first request."""
-    for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
-        warm_kinematics(robot)
-    snapshot = cells.read()
-    joint_map(snapshot.clearance, [0, 1], snapshot.scene.robot.home_configuration(), resolution=2)
-    if snapshot.scene.targets.names:
-        check_targets(snapshot.scene)
+def _warm_up_steps(cache: RobotCache, robot_spec: str, cells: CellStore) -> list[WarmStep]:
+    """The kinematics kernels of the served robot and the cell's robot first (the page's
+    first answers), then a tiny joint map and the target check, so numba kernels are loaded
+    before they are asked for."""
+
+    def kinematics() -> None:
+        for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
+            warm_kinematics(robot)
+
+    def clearance() -> None:
+        snapshot = cells.read()
+        robot = snapshot.scene.robot
+        joint_map(snapshot.clearance, [0, 1], robot.home_configuration(), resolution=2)
+
+    def target_check() -> None:
+        snapshot = cells.read()
+        if snapshot.scene.targets.names:
+            check_targets(snapshot.scene)
+
+    return [
+        WarmStep("forward and inverse kinematics", kinematics),
+        WarmStep("clearance and joint maps", clearance),
+        WarmStep("target check", target_check),
+    ]
 
 
 _ROBOT_FILE_PATTERN = r"(?i)\.(toml|urdf)/*$"
@@ -103,9 +119,10 @@ def _with_robot_names(
             "description": field.get("description", ""),
             **served,
         }
-    for parameter in document["paths"]["/api/robots/model"]["get"]["parameters"]:
-        if parameter["name"] == "robot":
-            parameter["schema"] = {"title": "Robot", **served}
+    for route in ("/api/robots/model", "/api/robots/describe", "/api/robots/meshes"):
+        for parameter in document["paths"][route]["get"]["parameters"]:
+            if parameter["name"] == "robot":
+                parameter["schema"] = {"title": "Robot", **served}
     return document
 
 
@@ -144,7 +161,10 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     @asynccontextmanager
     async def lifespan(_: FastAPI) -> AsyncIterator[None]:
         if settings.warm_up:
-            _warm_up(robot_cache, settings.robot, app.state.cells)
+            warm = KernelWarmUp(_warm_up_steps(robot_cache, settings.robot, app.state.cells))
+            app.state.warmup = warm
+            warm.run_first()  # FIRST_STEPS before the address answers (none: warmup.py)
+            warm.start_rest()  # in the page's order, behind, reported by GET /api/health
         yield
         app.state.jobs.close()
         app.state.reviewer_lane.close()
@@ -165,6 +185,8 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.state.robots = robot_cache
     app.state.cells = CellStore(settings.cell_path)
     app.state.reviewer_lane = ReviewerLane()
+    app.state.warmup = KernelWarmUp(())
+    app.state.warmup.run_first()  # nothing to load: ready
     app.state.jobs = JobManager(
         expected_errors=_JOB_INPUT_ERRORS, reviewer_pause=app.state.reviewer_lane.yield_to_owner
     )

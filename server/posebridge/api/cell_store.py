@@ -106,11 +106,18 @@ class CellStore:
         except OSError:
             return None
 
-    def _snapshot_of(self, cell: Cell) -> CellSnapshot:
+    def _snapshot_of(self, cell: Cell, previous: CellSnapshot | None = None) -> CellSnapshot:
+        """The cell resolved; the previous snapshot's robot is kept when the robot entry is
+        unchanged (a robot with meshes is not read again on every edit)."""
+        robot = (
+            previous.scene.robot
+            if previous is not None and previous.cell.robot == cell.robot
+            else None
+        )
         return CellSnapshot(
             cell=cell,
             etag=cell_etag(cell),
-            scene=resolve_scene(cell, self._path, mesh_loader=self.mesh_loader),
+            scene=resolve_scene(cell, self._path, robot=robot, mesh_loader=self.mesh_loader),
             path=self._path,
         )
 
@@ -160,7 +167,7 @@ class CellStore:
             if current.etag != expected_etag:
                 raise CellConflictError(str(self._path or "demo cell"), expected_etag, current.etag)
             edited = validate_cell(change(current.cell).model_dump(mode="json", exclude_none=True))
-            snapshot = self._snapshot_of(edited)
+            snapshot = self._snapshot_of(edited, current)
             if self._path is not None:
                 save_cell(edited, self._path, expected_etag=expected_etag)
                 self._mtime_ns = self._file_mtime()

@@ -10,9 +10,14 @@ compute executor's ``map_chunks`` takes them. Finished jobs, with their
 results, are kept for :data:`KEPT_FINISHED_S` seconds and at most the newest
 :data:`KEPT_FINISHED` of them, so results cannot pile up in memory.
 
-Per client (its address), at most :data:`MAX_ACTIVE_PER_CLIENT` jobs may be
+Per reviewer (its address), at most :data:`MAX_ACTIVE_PER_CLIENT` jobs may be
 queued or running and at most :data:`MAX_STARTS_PER_MINUTE` may be started in
-any sixty seconds; beyond that a start is refused (HTTP 429).
+any sixty seconds; beyond that a start is refused (HTTP 429). The owner is
+never refused: rate caps are for reviewers, and the owner's page asks again
+whenever the arm moves. The owner's jobs run in order on their own worker,
+so of more than :data:`MAX_ACTIVE_OWNER` active ones the oldest queued job is
+superseded (cancelled, its poll answers ``cancelled``): memory stays bounded
+and the newest request is always served.
 """
 
 from __future__ import annotations
@@ -33,6 +38,7 @@ from posebridge.compute import ComputationCancelled
 __all__ = [
     "KEPT_FINISHED",
     "KEPT_FINISHED_S",
+    "MAX_ACTIVE_OWNER",
     "MAX_ACTIVE_PER_CLIENT",
     "MAX_STARTS_PER_MINUTE",
     "Job",
@@ -50,6 +56,8 @@ MAX_ACTIVE_PER_CLIENT = 3
 """Queued or running jobs allowed per client."""
 MAX_STARTS_PER_MINUTE = 60
 """Job starts allowed per client in any sixty seconds."""
+MAX_ACTIVE_OWNER = 8
+"""The owner's queued or running jobs kept; a newer start supersedes the oldest queued one."""
 
 JobState = Literal["queued", "running", "done", "failed", "cancelled"]
 JobWork = Callable[[Callable[[int, int], None], threading.Event], BaseModel]
@@ -90,6 +98,7 @@ class Job:
     error: str = ""
     cancel: threading.Event = field(default_factory=threading.Event)
     finished_at: float | None = None
+    owner: bool = False
 
     @property
     def active(self) -> bool:
@@ -140,13 +149,21 @@ class JobManager:
     def start(self, kind: str, client: str, work: JobWork, *, reviewer: bool = False) -> Job:
         """Queue ``work`` as a new job of ``client`` (a reviewer's on the reviewers' worker).
 
+        The owner's start never fails: beyond :data:`MAX_ACTIVE_OWNER` active
+        owner jobs the oldest queued one is cancelled (superseded).
+
         Raises
         ------
         JobLimitError
-            The client has too many active jobs or started too many lately.
+            A reviewer has too many active jobs or started too many lately.
         """
         now = self._clock()
         with self._lock:
+            if not reviewer:
+                job = self._start_owner_job(kind, client)
+                self._forget_old(now)
+                self._queues[False].put((job, work))
+                return job
             active = sum(1 for job in self._jobs.values() if job.client == client and job.active)
             if active >= MAX_ACTIVE_PER_CLIENT:
                 raise JobLimitError(
@@ -166,6 +183,20 @@ class JobManager:
             self._jobs[job.id] = job
             self._forget_old(now)
         self._queues[reviewer].put((job, work))
+        return job
+
+    def _start_owner_job(self, kind: str, client: str) -> Job:
+        """A new owner job, superseding the oldest queued owner jobs beyond the bound
+        (called with the lock held)."""
+        owner_jobs = [job for job in self._jobs.values() if job.owner and job.active]
+        queued = [job for job in owner_jobs if job.state == "queued"]
+        for old in queued[: max(0, len(owner_jobs) + 1 - MAX_ACTIVE_OWNER)]:
+            old.cancel.set()
+            old.state = "cancelled"
+            old.error = "superseded by a newer request of the owner"
+            old.finished_at = self._clock()
+        job = Job(id=uuid.uuid4().hex, kind=kind, client=client, owner=True)
+        self._jobs[job.id] = job
         return job
 
     def _forget_old(self, now: float) -> None:

@@ -30,13 +30,12 @@ from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
 
+from posebridge.geometry.robot_meshes import load_robot_with_meshes
 from posebridge.messages import printable
 from posebridge.resources import data_folder
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.robot.library import bundled_robots
 from posebridge.robot.model import Robot
-from posebridge.robot.toml_format import load_robot_toml
-from posebridge.robot.urdf import load_robot_urdf
 
 __all__ = ["RobotCache", "RobotPathNotAllowedError", "RobotSource"]
 
@@ -177,10 +176,7 @@ class RobotCache:
             if robot is not None:
                 self._robots.move_to_end(key)
                 return robot
-        if source.path.suffix.lower() == ".toml":
-            robot = load_robot_toml(source.path)
-        else:
-            robot = load_robot_urdf(source.path)
+        robot = load_robot_with_meshes(source.path)
         with self._lock:
             self._robots[key] = robot
             self._robots.move_to_end(key)

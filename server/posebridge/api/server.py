@@ -160,8 +160,8 @@ def run_server(
     review_token = new_review_token() if share else None
     sock = _bind(host, port)
     print(
-        "posebridge is starting: loading its numerical kernels "
-        "(about a minute on the first start after installing, a second afterwards) ...",
+        "posebridge is starting: loading its numerical kernels (compiled on the first start "
+        "after installing: minutes on a slow machine, progress below; a second afterwards) ...",
         flush=True,
     )
     server = _uvicorn_server(settings, log_level, review_token)

@@ -109,8 +109,14 @@ def _fcl_manager_configs_per_s(
     return q.shape[0] / best_seconds(loop, repeats=2)
 
 
-def bench_clearance(quick: bool) -> dict[str, float]:
-    """Exact clearance configs/s (FK included) and its ratio to the python-fcl manager."""
+FCL_MISSING = "python-fcl is not installed (pip install 'posebridge[bench]')"
+
+
+def bench_clearance(quick: bool) -> dict[str, float | str]:
+    """Exact clearance configs/s (FK included) and its ratio to the python-fcl manager.
+
+    Without python-fcl the ratio is ``clearance_ratio_vs_fcl_manager_missing`` with the reason.
+    """
     robot = load_robot(ROBOT)
     rng = np.random.default_rng(SEED)
     tool = Capsule("bench-tool", robot.dof, np.zeros(3), np.array([0.0, 0.0, 0.12]), 0.03)
@@ -122,6 +128,11 @@ def bench_clearance(quick: bool) -> dict[str, float]:
     q = rng.uniform(robot.lower, robot.upper, size=(10_000, robot.dof))
     rate = q.shape[0] / best_seconds(lambda: clearance_batch(scene, q), repeats=3 if quick else 7)
     fcl_rate = _fcl_manager_configs_per_s(arm, shapes, q[: 300 if quick else 2_000])
+    if math.isnan(fcl_rate):
+        return {
+            "clearance_configs_per_s": rate,
+            "clearance_ratio_vs_fcl_manager_missing": FCL_MISSING,
+        }
     return {
         "clearance_configs_per_s": rate,
         "clearance_ratio_vs_fcl_manager": rate / fcl_rate,

@@ -145,17 +145,27 @@ def _summary(times: list[float], missed: int) -> dict[str, float]:
     }
 
 
-def bench_drag(quick: bool) -> dict[str, float]:
+BROWSER_MISSING = (
+    f"playwright or Chromium ({CHROMIUM_PATH}) is not available "
+    "(pip install 'posebridge[bench]'; apt-get install chromium)"
+)
+
+
+def bench_drag(quick: bool) -> dict[str, float | str]:
     """Drag round trip on the six-axis demo robot against a loopback server started here.
 
-    Returns ``drag_roundtrip_p95_ms`` and ``drag_roundtrip_p50_ms`` (NaN
-    without Chromium or playwright). Target: p95 at most 50 ms.
+    Returns ``drag_roundtrip_p95_ms`` and ``drag_roundtrip_p50_ms``; without
+    Chromium or playwright their ``_missing`` keys with the reason. Target: p95
+    at most 50 ms.
     """
     from posebridge.api.server import background_server
     from posebridge.api.settings import Settings
 
     if not chromium_available():
-        return {"drag_roundtrip_p95_ms": math.nan, "drag_roundtrip_p50_ms": math.nan}
+        return {
+            "drag_roundtrip_p95_ms_missing": BROWSER_MISSING,
+            "drag_roundtrip_p50_ms_missing": BROWSER_MISSING,
+        }
     with background_server(Settings(robot="pb-arm6")) as url:
         result = measure_drag_roundtrip(url, 20 if quick else 50)
     return {"drag_roundtrip_p95_ms": result["p95_ms"], "drag_roundtrip_p50_ms": result["p50_ms"]}

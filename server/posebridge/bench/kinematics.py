@@ -41,8 +41,14 @@ def _pin_loop_configs_per_s(q: np.ndarray) -> float:
     return q.shape[0] / best_seconds(loop, repeats=2)
 
 
-def bench_kinematics(quick: bool) -> dict[str, float]:
-    """FK configs/s (batch), its ratio to the pin loop, single-call FK latency, Jacobian configs/s."""
+PIN_MISSING = "pinocchio is not installed (pip install 'posebridge[bench]')"
+
+
+def bench_kinematics(quick: bool) -> dict[str, float | str]:
+    """FK configs/s (batch), its ratio to the pin loop, single-call FK latency, Jacobian configs/s.
+
+    Without pinocchio the ratio is ``fk_ratio_vs_pin_loop_missing`` with the reason.
+    """
     robot = load_robot(ROBOT)
     rng = np.random.default_rng(0)
     n_batch = 20_000 if quick else 100_000
@@ -52,9 +58,14 @@ def bench_kinematics(quick: bool) -> dict[str, float]:
     pin_rate = _pin_loop_configs_per_s(q[: 5_000 if quick else 20_000])
     single = q[:1].copy()
     single_us = 1e6 * median_seconds_per_call(lambda: fk_tool(robot, single), calls=2_000)
+    ratio: dict[str, float | str] = (
+        {"fk_ratio_vs_pin_loop_missing": PIN_MISSING}
+        if math.isnan(pin_rate)
+        else {"fk_ratio_vs_pin_loop": fk_rate / pin_rate}
+    )
     return {
         "fk_configs_per_s": fk_rate,
-        "fk_ratio_vs_pin_loop": fk_rate / pin_rate,
+        **ratio,
         "fk_single_call_us": single_us,
         "jacobian_configs_per_s": jacobian_rate,
     }

@@ -6,11 +6,14 @@ library not installed) is replaced by ``<key>_missing`` holding the reason.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from typing import NamedTuple
 
 from posebridge.bench.clearance import bench_clearance
 from posebridge.bench.drag import bench_drag
+from posebridge.bench.external_axis import bench_external_axis
+from posebridge.bench.first_serve import bench_first_serve
 from posebridge.bench.ik_analytic import bench_ik_analytic
 from posebridge.bench.ik_numeric import bench_ik_numeric
 from posebridge.bench.ik_offset_wrist import bench_ik_offset_wrist
@@ -23,7 +26,7 @@ from posebridge.bench.placement import bench_placement
 from posebridge.bench.review_load import bench_review_load
 from posebridge.bench.sequence import bench_sequence
 
-__all__ = ["BENCHMARKS", "run_benchmarks"]
+__all__ = ["BENCHMARKS", "run_benchmarks", "with_missing_reasons"]
 
 
 class Benchmark(NamedTuple):
@@ -32,10 +35,12 @@ class Benchmark(NamedTuple):
 
 
 BENCHMARKS: tuple[Benchmark, ...] = (
+    Benchmark("first start with an empty kernel cache", bench_first_serve),
     Benchmark("forward kinematics and Jacobian", bench_kinematics),
     Benchmark("analytic inverse kinematics", bench_ik_analytic),
     Benchmark("numerical inverse kinematics", bench_ik_numeric),
     Benchmark("closed-form inverse kinematics, offset wrist", bench_ik_offset_wrist),
+    Benchmark("feasible intervals of an external axis", bench_external_axis),
     Benchmark("clearance", bench_clearance),
     Benchmark("mesh clearance", bench_mesh_clearance),
     Benchmark("robot mesh loading and capsule fitting", bench_mesh_load),
@@ -51,10 +56,25 @@ BENCHMARKS: tuple[Benchmark, ...] = (
 def run_benchmarks(
     *, quick: bool, progress: Callable[[str], None] | None = None
 ) -> dict[str, float | str]:
-    """Run every benchmark in order; ``progress(name)`` is called before each."""
+    """Run every benchmark in order; ``progress(name)`` is called before each.
+
+    A figure that came out NaN or infinite (nothing measured) is replaced by
+    ``<key>_missing`` saying so, so no figure is a bare ``null``.
+    """
     figures: dict[str, float | str] = {}
     for benchmark in BENCHMARKS:
         if progress is not None:
             progress(benchmark.name)
         figures.update(benchmark.run(quick))
-    return figures
+    return with_missing_reasons(figures)
+
+
+def with_missing_reasons(figures: Mapping[str, float | str]) -> dict[str, float | str]:
+    """``figures`` with every non-finite number replaced by ``<key>_missing`` and a reason."""
+    out: dict[str, float | str] = {}
+    for key, value in figures.items():
+        if isinstance(value, str) or math.isfinite(value):
+            out[key] = value
+        else:
+            out[f"{key}_missing"] = f"not measured in this run (the benchmark gave {value})"
+    return out

@@ -25,6 +25,10 @@ asks, for each of the robot's branches (eight for six- and seven-axis arms,
 two for planar arms, one otherwise), which targets are usable on it with
 their approach poses; the cell is consistent when one branch covers all.
 
+With external axes (track, turntables) every target is checked at the values
+of :func:`~posebridge.cell.external_kinematics.choose_external_value` (pinned
+ones kept), and its report gives those values and the feasible intervals.
+
 Findings (:class:`~posebridge.cell.reports.Finding`) are errors (a target or
 approach pose not reachable, a joint outside its limits, a collision),
 warnings (limit margin, clearance, singularity below the thresholds of
@@ -36,11 +40,12 @@ shoulder/elbow pair only; the consistent branch).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from itertools import product
 
 import numpy as np
 
+from posebridge.cell.external_kinematics import ExternalChoice, choose_external_value
 from posebridge.cell.model import Branch
 from posebridge.cell.quality import (
     SCORE_RULE,
@@ -50,25 +55,28 @@ from posebridge.cell.quality import (
     branch_words,
     evaluate_configurations,
     full_branch_words,
+    geometry_findings,
     part_word,
     quality_findings,
 )
 from posebridge.cell.reports import (
     BranchCoverage,
     ConsistentBranch,
+    ExternalAxisIntervals,
     Finding,
     PoseCheck,
     PoseKind,
     QualityThresholds,
     TargetCheck,
     TargetCheckReport,
+    group_findings,
 )
-from posebridge.cell.scene import Scene
+from posebridge.cell.scene import Scene, TargetSet, posed_scene
 from posebridge.kinematics.branches import BRANCH_LABELS, branch_geometry, labels_match
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
 from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
-from posebridge.units import BoolArray, joint_unit_labels, mm_from_m
+from posebridge.units import BoolArray, deg_from_rad, joint_unit_labels, mm_from_m
 
 __all__ = [
     "REASON_ALL_COLLIDE",
@@ -453,8 +461,9 @@ class _Checker:
                     else self._pose_check(approach, best_approach),
                 )
             )
-        self._coverage_findings(coverage, len(names))
+        self.findings.extend(_coverage_findings(coverage, len(names)))
         self._open_mesh_findings()
+        self.findings += geometry_findings(self.robot)
         findings = sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity])
         return TargetCheckReport(
             cell=scene.cell.title,
@@ -467,10 +476,12 @@ class _Checker:
             targets=checks,
             consistent_branch=coverage,
             findings=findings,
+            finding_groups=group_findings(findings),
             reachable_count=sum(check.reachable for check in checks),
             error_count=sum(f.severity == "error" for f in findings),
             warning_count=sum(f.severity == "warning" for f in findings),
             info_count=sum(f.severity == "info" for f in findings),
+            robot_geometry_missing=self.robot.geometry_missing,
         )
 
     def _coverage(self, usable_triples: dict[int, list[Triple]]) -> ConsistentBranch:
@@ -515,44 +526,44 @@ class _Checker:
                     )
                 )
 
-    def _coverage_findings(self, coverage: ConsistentBranch, count: int) -> None:
-        if count == 0:
-            self.findings.append(
-                Finding(
-                    severity="info",
-                    code="consistent-branch",
-                    target=None,
-                    message="the cell has no targets",
-                )
-            )
-            return
-        if coverage.consistent:
-            every = [row.branch for row in coverage.coverage if not row.targets_breaking]
-            self.findings.append(
-                Finding(
-                    severity="info",
-                    code="consistent-branch",
-                    target=None,
-                    branch=coverage.branch,
-                    message="every target and approach pose is reachable and clear on one branch: "
-                    + "; ".join(every),
-                )
-            )
-            return
-        best = coverage.coverage[0]
-        self.findings.append(
+
+def _coverage_findings(coverage: ConsistentBranch, count: int) -> list[Finding]:
+    """The consistent-branch finding of a coverage (info, or a warning when none covers all)."""
+    if count == 0:
+        return [
             Finding(
-                severity="warning",
-                code="inconsistent-branch",
+                severity="info",
+                code="consistent-branch",
                 target=None,
-                branch=best.branch,
-                message=f"no single branch reaches every target clear; {best.branch} reaches "
-                f"{len(best.targets_clear)} of {count}, not: {', '.join(best.targets_breaking)}",
-                value=float(len(best.targets_clear)),
-                unit="targets",
-                threshold=float(count),
+                message="the cell has no targets",
             )
+        ]
+    if coverage.consistent:
+        every = [row.branch for row in coverage.coverage if not row.targets_breaking]
+        return [
+            Finding(
+                severity="info",
+                code="consistent-branch",
+                target=None,
+                branch=coverage.branch,
+                message="every target and approach pose is reachable and clear on one branch: "
+                + "; ".join(every),
+            )
+        ]
+    best = coverage.coverage[0]
+    return [
+        Finding(
+            severity="warning",
+            code="inconsistent-branch",
+            target=None,
+            branch=best.branch,
+            message=f"no single branch reaches every target clear; {best.branch} reaches "
+            f"{len(best.targets_clear)} of {count}, not: {', '.join(best.targets_breaking)}",
+            value=float(len(best.targets_clear)),
+            unit="targets",
+            threshold=float(count),
         )
+    ]
 
 
 def check_targets(scene: Scene, thresholds: QualityThresholds | None = None) -> TargetCheckReport:
@@ -564,11 +575,136 @@ def check_targets(scene: Scene, thresholds: QualityThresholds | None = None) -> 
     ----------
     scene : Scene
     thresholds : QualityThresholds, optional
-        Warning thresholds and score references; the documented defaults if omitted.
+        Warning thresholds and score references; the cell's own (``scene.cell.thresholds``)
+        if omitted.
 
     Returns
     -------
     TargetCheckReport
         Boundary units (mm, deg).
     """
-    return _Checker(scene, QualityThresholds() if thresholds is None else thresholds).run()
+    thresholds = scene.cell.thresholds if thresholds is None else thresholds
+    if scene.external.count:
+        return _check_with_external_axes(scene, thresholds)
+    return _Checker(scene, thresholds).run()
+
+
+def _target_subset(targets: TargetSet, members: list[int]) -> TargetSet:
+    return TargetSet(
+        names=tuple(targets.names[i] for i in members),
+        fixtures=tuple(targets.fixtures[i] for i in members),
+        T_world_target=targets.T_world_target[members],
+        approach_offset=targets.approach_offset[members],
+        T_world_approach=targets.T_world_approach[members],
+        branches=tuple(targets.branches[i] for i in members),
+    )
+
+
+def _external_fields(scene: Scene, choice: ExternalChoice) -> dict[str, object]:
+    """The external-axis fields of one target's check, in boundary units."""
+    external = scene.external
+    values = external.user_from_si(choice.values)
+    listed = []
+    for axis, found in choice.intervals.items():
+        scale = mm_from_m(1.0) if external.prismatic[axis] else deg_from_rad(1.0)
+        for triple, spans in zip(found.branches, found.intervals[0], strict=True):
+            listed.append(
+                ExternalAxisIntervals(
+                    axis=external.names[axis],
+                    unit=external.units[axis],
+                    branch=branch_words(branch_geometry(scene.robot).scheme, *triple),
+                    intervals=(np.asarray(spans) * float(scale)).tolist(),
+                )
+            )
+    return {
+        "external_axes": {name: float(v) for name, v in zip(external.names, values, strict=True)},
+        "external_pinned": list(choice.pinned),
+        "external_intervals": listed,
+    }
+
+
+def _check_with_external_axes(scene: Scene, thresholds: QualityThresholds) -> TargetCheckReport:
+    """Target check of a cell with external axes.
+
+    Each target gets its external values from
+    :func:`~posebridge.cell.external_kinematics.choose_external_value` (targets in file
+    order, each starting from the previous one's values); targets sharing values are
+    checked together in the scene posed there (the check above, common-branch warnings
+    per group), and the groups' branch coverage is merged into one consistent-branch
+    analysis over all targets.
+    """
+    names = scene.targets.names
+    previous = scene.external.values
+    choices: list[ExternalChoice] = []
+    for i in range(len(names)):
+        choice = choose_external_value(scene, i, previous=previous, thresholds=thresholds)
+        choices.append(choice)
+        previous = choice.values
+    groups: dict[tuple[float, ...], list[int]] = {}
+    for i, choice in enumerate(choices):
+        groups.setdefault(tuple(choice.values.tolist()), []).append(i)
+    checks: dict[int, TargetCheck] = {}
+    findings: list[Finding] = []
+    clear: dict[str, set[str]] = {}
+    template: TargetCheckReport | None = None
+    for values, members in groups.items():
+        posed = posed_scene(scene, np.array(values))
+        posed = replace(posed, targets=_target_subset(posed.targets, members))
+        report = _Checker(posed, thresholds).run()
+        template = report if template is None else template
+        for i, check in zip(members, report.targets, strict=True):
+            checks[i] = check.model_copy(update=_external_fields(scene, choices[i]))
+        findings += [
+            f
+            for f in report.findings
+            if f.code not in ("consistent-branch", "inconsistent-branch") and f not in findings
+        ]
+        for row in report.consistent_branch.coverage:
+            clear.setdefault(row.branch, set()).update(row.targets_clear)
+    scheme = branch_geometry(scene.robot).scheme
+    rows = []
+    for triple in _robot_branches(scheme):
+        words = branch_words(scheme, *triple)
+        covered = clear.get(words, set())
+        rows.append(
+            BranchCoverage(
+                branch=words,
+                shoulder=triple[0],
+                elbow=triple[1],
+                wrist=triple[2],
+                targets_clear=[n for n in names if n in covered],
+                targets_breaking=[n for n in names if n not in covered],
+            )
+        )
+    rows.sort(key=lambda row: -len(row.targets_clear))
+    best = rows[0] if rows and names else None
+    coverage = ConsistentBranch(
+        consistent=best is not None and not best.targets_breaking,
+        branch=None if best is None else best.branch,
+        breaking_targets=[] if best is None else best.targets_breaking,
+        coverage=rows,
+    )
+    findings = sorted(
+        findings + _coverage_findings(coverage, len(names)),
+        key=lambda f: _SEVERITY_ORDER[f.severity],
+    )
+    ordered = [checks[i] for i in range(len(names))]
+    return TargetCheckReport(
+        cell=scene.cell.title,
+        robot=scene.robot.name,
+        tool=scene.tool_name,
+        joint_names=list(scene.robot.joint_names),
+        joint_units=joint_unit_labels(scene.robot.prismatic),
+        thresholds=thresholds,
+        score_rule=SCORE_RULE,
+        targets=ordered,
+        external_axis_names=list(scene.external.names),
+        external_axis_units=scene.external.units,
+        consistent_branch=coverage,
+        findings=findings,
+        finding_groups=group_findings(findings),
+        reachable_count=sum(check.reachable for check in ordered),
+        error_count=sum(f.severity == "error" for f in findings),
+        warning_count=sum(f.severity == "warning" for f in findings),
+        info_count=sum(f.severity == "info" for f in findings),
+    )

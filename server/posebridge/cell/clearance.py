@@ -15,8 +15,8 @@ The cell's shapes become the geometry engine's arrays here, once per
   target reached through a door opening of a machine housing is clear where
   a box around the housing would collide.
 * **Pairs**: every capsule against every obstacle, except the base-link
-  capsules (link 0) against the floor and the pedestal, which the robot
-  stands on (:func:`posebridge.geometry.shapes.default_pair_mask` and the same
+  capsules (link 0) against the floor, the pedestal and a track's carriage,
+  which the robot stands on (:func:`posebridge.geometry.shapes.default_pair_mask` and the same
   rule for the pedestal; common practice, no source). Self pairs come from
   :func:`posebridge.geometry.self_pairs.self_collision_pairs` with
   :data:`SELF_PAIR_SAMPLES` samples and seed 0.
@@ -189,6 +189,11 @@ def _build(scene: Scene) -> _Built:
     mask = default_pair_mask(arm, obstacles)
     first_pedestal = fixture_count(scene) + len(scene.keep_outs.names)
     mask[arm.link == 0, first_pedestal : first_pedestal + len(scene.pedestal.names)] = False
+    if scene.external.track is not None:  # the base stands on the track's carriage
+        carriage = f"{scene.external.names[0]} carriage"
+        mask[arm.link == 0, [i for i, name in enumerate(scene.boxes.names) if name == carriage]] = (
+            False
+        )
     pairs = self_collision_pairs(arm, samples=SELF_PAIR_SAMPLES, seed=0)
     full = ClearanceScene.build(
         arm, obstacles, scene.T_world_base, self_pairs=pairs, pair_mask=mask

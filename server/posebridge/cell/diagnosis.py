@@ -19,6 +19,7 @@ single **worst row** follows :data:`WORST_ROW_RULE`.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 
 import numpy as np
@@ -38,6 +39,7 @@ from posebridge.cell.quality import (
     closest_pair_model,
     evaluate_configurations,
     full_branch_words,
+    geometry_findings,
     joint_margins_model,
     margin_thresholds,
     part_word,
@@ -51,6 +53,7 @@ from posebridge.cell.reports import (
     BranchChange,
     Finding,
     JointExtreme,
+    JointMargin,
     LogDiagnosis,
     LogRows,
     NearTarget,
@@ -65,7 +68,7 @@ from posebridge.cell.reports import (
     VelocityJump,
     WorstRow,
 )
-from posebridge.cell.scene import Scene
+from posebridge.cell.scene import Scene, posed_scene
 from posebridge.geometry.clearance import clearance_per_obstacle_batch
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations
 from posebridge.kinematics.ik import solve_ik_all
@@ -190,8 +193,18 @@ def _single(scene: Scene, q: npt.ArrayLike) -> FloatArray:
     return check_configurations(scene.robot, array)
 
 
+def _finite_mm(distance_m: float) -> float | None:
+    """A distance in mm, None where nothing was checked (infinite)."""
+    value = float(mm_from_m(distance_m))
+    return value if math.isfinite(value) else None
+
+
 def diagnose_pose(
-    scene: Scene, q: npt.ArrayLike, thresholds: QualityThresholds | None = None
+    scene: Scene,
+    q: npt.ArrayLike,
+    thresholds: QualityThresholds | None = None,
+    *,
+    external: npt.ArrayLike | None = None,
 ) -> PoseDiagnosis:
     """Everything about one joint configuration in the cell (module docstring).
 
@@ -202,6 +215,11 @@ def diagnose_pose(
         Joint values, rad or m (convert user input with
         :func:`posebridge.units.joints_si_from_user`).
     thresholds : QualityThresholds, optional
+        The cell's own (``scene.cell.thresholds``) if omitted.
+    external : array-like, shape (m,), optional
+        External axis values (m, rad); the scene's values if omitted. The scene is
+        posed there (:func:`~posebridge.cell.scene.posed_scene`) and the report gives
+        the values and their limit margins.
 
     Returns
     -------
@@ -209,6 +227,8 @@ def diagnose_pose(
         Boundary units (mm, deg). ``input_branch`` is null when no IK
         solution equals the input (a joint outside its limits by whole revolutions).
     """
+    if external is not None:
+        scene = posed_scene(scene, external)
     robot = scene.robot
     q = _single(scene, q)
     quality = evaluate_configurations(scene, q, thresholds)
@@ -267,8 +287,14 @@ def diagnose_pose(
         min_margin_joint=robot.joint_names[joint] if joint >= 0 else None,
         min_margin_fraction=float(margins.min_fraction[0]) if joint >= 0 else None,
         manipulability=float(quality.manipulability[0]),
+        position_manipulability=float(quality.manipulability[0]),
+        full_manipulability=(
+            None if quality.full_manipulability is None else float(quality.full_manipulability[0])
+        ),
         singularity=singularity_model(quality, 0),
         clearance_mm=clearance if np.isfinite(clearance) else None,
+        environment_clearance_mm=_finite_mm(quality.environment.distance[0]),
+        self_clearance_mm=_finite_mm(quality.self_clearance.distance[0]),
         collision_free=bool(quality.collision_free[0]),
         closest=closest_pair_model(_overall_pair(quality, 0), 0),
         closest_environment=closest_pair_model(quality.environment, 0),
@@ -277,8 +303,44 @@ def diagnose_pose(
         nearest_targets=nearest,
         branches=branches,
         input_branch=input_branch,
-        findings=sorted(findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+        findings=sorted(
+            findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
+        ),
+        robot_geometry_missing=robot.geometry_missing,
+        external_axes=dict(
+            zip(
+                scene.external.names,
+                scene.external.user_from_si(scene.external.values).tolist(),
+                strict=True,
+            )
+        ),
+        external_margins=_external_margins(scene),
     )
+
+
+def _external_margins(scene: Scene) -> list[JointMargin]:
+    """Limit margins of the external axes at the scene's values, boundary units."""
+    external = scene.external
+    values = external.user_from_si(external.values)
+    lower = external.user_from_si(external.lower)
+    upper = external.user_from_si(external.upper)
+    margins = []
+    for i, name in enumerate(external.names):
+        below, above = values[i] - lower[i], upper[i] - values[i]
+        margin = float(min(below, above))
+        margins.append(
+            JointMargin(
+                joint=name,
+                unit=external.units[i],
+                value=float(values[i]),
+                lower=float(lower[i]),
+                upper=float(upper[i]),
+                margin=margin,
+                margin_fraction=margin / float(upper[i] - lower[i]),
+                nearer_limit="lower" if below <= above else "upper",
+            )
+        )
+    return margins
 
 
 # --- logs -------------------------------------------------------------------------------------
@@ -693,6 +755,8 @@ class _LogDiagnoser:
             shoulder_mm=None if report is None else mm_from_m(report.shoulder_m).tolist(),
             clearance_mm=[None if not np.isfinite(v) else v for v in clearance.tolist()],
             closest=closest.tolist(),
+            environment_clearance_mm=[_finite_mm(v) for v in quality.environment.distance.tolist()],
+            self_clearance_mm=[_finite_mm(v) for v in quality.self_clearance.distance.tolist()],
         )
 
     @staticmethod
@@ -749,8 +813,11 @@ class _LogDiagnoser:
                 reason=reason,
                 diagnosis=diagnose_pose(self.scene, self.log.q[worst], self.thresholds),
             ),
-            findings=sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity]),
+            findings=sorted(
+                self.findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
+            ),
             rows=self._columns() if include_rows else None,
+            robot_geometry_missing=robot.geometry_missing,
         )
 
 
@@ -773,6 +840,7 @@ def diagnose_log(
         From :func:`posebridge.cell.joint_log.read_joint_log`; its joints
         must be the scene robot's.
     thresholds : QualityThresholds, optional
+        The cell's own (``scene.cell.thresholds``) if omitted.
     include_rows : bool, keyword-only
         Add the per-row values (:class:`~posebridge.cell.reports.LogRows`).
 
@@ -781,6 +849,6 @@ def diagnose_log(
     LogDiagnosis
         Boundary units (mm, deg).
     """
-    return _LogDiagnoser(scene, log, QualityThresholds() if thresholds is None else thresholds).run(
-        include_rows
-    )
+    return _LogDiagnoser(
+        scene, log, scene.cell.thresholds if thresholds is None else thresholds
+    ).run(include_rows)

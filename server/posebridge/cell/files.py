@@ -49,6 +49,7 @@ from posebridge.cell.model import (
     json_type_name,
     validate_cell,
 )
+from posebridge.cell.reports import QualityThresholds
 from posebridge.messages import printable
 
 __all__ = [
@@ -373,8 +374,14 @@ def _rounded(value: Any) -> Any:
 
 
 def _plain_data(cell: Cell) -> dict[str, Any]:
-    """The cell as JSON data, numbers rounded as written (so the content version matches the file)."""
+    """The cell as JSON data, numbers rounded as written (so the content version matches the
+    file); thresholds left out while they are all the defaults, so a saved file follows later
+    defaults unless the user set its own."""
     data: dict[str, Any] = _rounded(cell.model_dump(mode="json", exclude_none=True))
+    if cell.thresholds == QualityThresholds():
+        del data["thresholds"]
+    else:
+        data["thresholds"] = cell.thresholds.model_dump(mode="json", exclude_defaults=True)
     return data
 
 

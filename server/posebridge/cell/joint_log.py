@@ -6,8 +6,13 @@ Format (our own, kept plain so any controller export can be massaged into it):
   ``\r`` (mixed too), at most :data:`MAX_LOG_BYTES` bytes and
   :data:`MAX_LOG_ROWS` data rows (counted as parsed, blank lines not
   counted);
-* line 1 is the header: the robot's joint names, each exactly once, in any
-  order, plus an optional ``time_s`` column (seconds);
+* lines starting with ``#`` before the header are comments (the header
+  block of a ``posebridge export`` file);
+* the first other line is the header: the robot's joint names, each exactly
+  once, in any order, each either bare (``j1``) or with its unit (``j1_deg``
+  for a revolute joint, ``x_mm`` for a prismatic one), plus an optional
+  ``time_s`` column (seconds); the other columns a ``posebridge export``
+  writes (:data:`EXPORT_COLUMNS`) are allowed and not read;
 * every further non-blank line is one row: finite numbers, degrees for
   revolute joints and millimetres for prismatic joints; ``time_s`` must
   increase strictly from row to row.
@@ -37,6 +42,7 @@ from posebridge.units import FloatArray, joints_si_from_user
 __all__ = [
     "MAX_LOG_BYTES",
     "MAX_LOG_ROWS",
+    "EXPORT_COLUMNS",
     "TIME_COLUMN",
     "JointLog",
     "JointLogError",
@@ -51,6 +57,22 @@ MAX_LOG_BYTES = 64 * 1024 * 1024
 """Largest log file, bytes."""
 TIME_COLUMN = "time_s"
 """Name of the optional time column (seconds)."""
+EXPORT_COLUMNS = (
+    "segment",
+    "tcp_x_mm",
+    "tcp_y_mm",
+    "tcp_z_mm",
+    "tcp_roll_deg",
+    "tcp_pitch_deg",
+    "tcp_yaw_deg",
+    "branch",
+    "limit_margin_deg",
+    "limit_margin_mm",
+    "limit_joint",
+    "clearance_mm",
+    "closest_pair",
+)
+"""Columns of a motion export besides time and joints; a log may have them, they are not read."""
 
 IntArray = npt.NDArray[np.int64]
 
@@ -78,7 +100,7 @@ class JointLog:
     time_s : array, shape (N,), or None
         Time of each row, s; None without a ``time_s`` column.
     line : array of int64, shape (N,)
-        Line of each row in the file (the header is line 1).
+        Line of each row in the file (line 1 is the header or the first comment).
     """
 
     source: str
@@ -93,30 +115,41 @@ class JointLog:
         return int(self.q.shape[0])
 
 
-def _header(fields: list[str], robot: Robot, where: str) -> tuple[list[int], int]:
+def _header(fields: list[str], robot: Robot, where: str, line: int) -> tuple[list[int], int]:
     """Column of each robot joint and of the time (-1 without), from the header fields."""
     names = [field.strip() for field in fields]
     expected = f"the joint names of robot {robot.name!r} ({', '.join(robot.joint_names)})"
     column_of: dict[str, int] = {}
+    seen: set[str] = set()
     for c, name in enumerate(names):
-        place = f"{where}line 1, column {c + 1}"
-        if name in column_of:
+        place = f"{where}line {line}, column {c + 1}"
+        if name in seen:
             raise JointLogError(f"{place}: duplicate column {name!r}")
+        seen.add(name)
+        if name in EXPORT_COLUMNS:
+            continue
+        joint = name
         if name != TIME_COLUMN and name not in robot.joint_names:
-            stem = name.rsplit("_", 1)[0]
-            if stem in robot.joint_names and name != stem:
+            stem, _, suffix = name.rpartition("_")
+            if stem not in robot.joint_names:
                 raise JointLogError(
-                    f"{place}: unknown column {name!r}; write the joint name only ({stem!r}), "
-                    "values are degrees (millimetres for prismatic joints)"
+                    f"{place}: unknown column {name!r}; expected {expected} and optionally "
+                    f"{TIME_COLUMN}"
                 )
-            raise JointLogError(
-                f"{place}: unknown column {name!r}; expected {expected} and optionally {TIME_COLUMN}"
-            )
-        column_of[name] = c
+            unit = "mm" if robot.prismatic[robot.joint_names.index(stem)] else "deg"
+            if suffix != unit:
+                raise JointLogError(
+                    f"{place}: unknown column {name!r}; joint {stem!r} is in {unit} "
+                    f"(write {stem!r} or '{stem}_{unit}')"
+                )
+            joint = stem
+        if joint in column_of:
+            raise JointLogError(f"{place}: duplicate column {name!r}")
+        column_of[joint] = c
     missing = [name for name in robot.joint_names if name not in column_of]
     if missing:
         raise JointLogError(
-            f"{where}line 1: missing column{'s' if len(missing) > 1 else ''} "
+            f"{where}line {line}: missing column{'s' if len(missing) > 1 else ''} "
             f"{', '.join(repr(m) for m in missing)}; expected {expected}"
         )
     return [column_of[name] for name in robot.joint_names], column_of.get(TIME_COLUMN, -1)
@@ -178,15 +211,21 @@ def parse_joint_log(
     header: list[str] | None = None
     rows: list[list[str]] = []
     lines: list[int] = []
+    comments = 0
     for fields in _records(reader, where):
         line = reader.line_num
         if not fields or all(not field.strip() for field in fields):
             continue
         if header is None:
-            if line != 1:
-                raise JointLogError(f"{where}line 1: expected the header row of joint names")
+            if fields[0].lstrip().startswith("#") and line == comments + 1:
+                comments = line
+                continue
+            if line != comments + 1:
+                raise JointLogError(
+                    f"{where}line {comments + 1}: expected the header row of joint names"
+                )
             header = fields
-            joint_columns, time_column = _header(header, robot, where)
+            joint_columns, time_column = _header(header, robot, where, line)
             continue
         if len(fields) != len(header):
             raise JointLogError(
@@ -206,14 +245,17 @@ def parse_joint_log(
     if not rows:
         raise JointLogError(f"{where}no data rows after the header")
     names = [h.strip() for h in header]
+    used = joint_columns + ([time_column] if time_column >= 0 else [])
+    read = [[row[c] for c in used] for row in rows]
     try:
-        values = np.array(rows, dtype=np.float64)
+        values = np.array(read, dtype=np.float64)
         suspects = np.flatnonzero(~np.all(np.isfinite(values), axis=1)).tolist()
     except ValueError:
         values = None
         suspects = list(range(len(rows)))
     for r in suspects:
-        for c, field in enumerate(rows[r]):
+        for c in used:
+            field = rows[r][c]
             try:
                 number = float(field)
             except ValueError:
@@ -221,10 +263,11 @@ def parse_joint_log(
             if not math.isfinite(number):
                 raise _bad_value(field, lines[r], c, names[c], where)
     if values is None:  # numpy refused a field that Python's float() reads
-        values = np.array([[float(field) for field in row] for row in rows], dtype=np.float64)
+        values = np.array([[float(field) for field in row] for row in read], dtype=np.float64)
+    n = len(joint_columns)
     time_s = None
     if time_column >= 0:
-        time_s = values[:, time_column].copy()
+        time_s = values[:, n].copy()
         steps = np.flatnonzero(np.diff(time_s) <= 0.0)
         if steps.size:
             r = int(steps[0]) + 1
@@ -232,7 +275,7 @@ def parse_joint_log(
                 f"{where}line {lines[r]}, column {time_column + 1} ({TIME_COLUMN}): time must "
                 f"increase from row to row (previous {time_s[r - 1]:g} s, got {time_s[r]:g} s)"
             )
-    q = joints_si_from_user(values[:, joint_columns], robot.prismatic)
+    q = joints_si_from_user(values[:, :n], robot.prismatic)
     return JointLog(
         source=source,
         joint_names=robot.joint_names,

@@ -22,6 +22,19 @@ Frames
   backs off ``approach_offset_mm`` along the target's tool z axis.
 * Path waypoints: a target (or its approach pose), an explicit tool pose in the
   world, or joint values (degrees; millimetres for prismatic joints).
+* External axes (optional): a ``track`` carries the robot. Its rail frame at
+  position 0 sits at ``origin_mm`` with x along ``direction`` and z up (world z
+  made normal to the rail); the carriage top is ``carriage_height_mm`` above
+  it, and with a track ``base`` places the pedestal foot on the carriage top,
+  not in the world. At position ``s`` (mm) everything on the carriage has
+  moved ``s`` along ``direction``. ``turntables`` turn their ``fixtures``
+  (with the fixtures' children and targets) about the line through
+  ``position_mm`` (the plate's top centre) along ``axis``; fixture poses in
+  the file are at table angle 0.
+* The cell's joint vector is the robot's joints, then the track, then the
+  turntables in file order, named by their ``name`` (mm for the track, deg for
+  a table). Values left out (a joint waypoint, a log or ``--joints`` with only
+  the robot's joints) are each axis's ``home_mm`` / ``home_deg``.
 
 Validation reports every problem with its JSON path (our own contract):
 ``fixtures[2].size_mm[1]: must be > 0``. Field checks come first; name and
@@ -45,6 +58,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
+from posebridge.cell.reports import QualityThresholds
 from posebridge.errors import InputError
 
 __all__ = [
@@ -63,12 +77,14 @@ __all__ = [
     "MAX_TARGETS",
     "MAX_TOML_CHARS",
     "MAX_TOOL_CAPSULES",
+    "MAX_TURNTABLES",
     "MAX_WAYPOINTS",
     "MESH_FILE_SUFFIXES",
     "UNITS_NOTE",
     "WORLD",
     "BoxFixture",
     "Branch",
+    "EXTERNAL_AXES_KEY",
     "Cell",
     "CellBase",
     "CellFileError",
@@ -83,6 +99,8 @@ __all__ = [
     "Target",
     "Tool",
     "ToolCapsule",
+    "Track",
+    "Turntable",
     "Waypoint",
     "json_path",
     "json_type_name",
@@ -115,6 +133,9 @@ MAX_NAME_CHARS = 100
 MAX_NOTES_CHARS = 100_000
 MAX_TOML_CHARS = 1_000_000
 MAX_FILE_PATH_CHARS = 4096
+MAX_TURNTABLES = 8
+EXTERNAL_AXES_KEY = "external_axes"
+"""Target field pinning external axis values by axis name (mm for the track, deg for a table)."""
 
 WORLD = "world"
 """Reserved fixture name of the world frame."""
@@ -207,6 +228,10 @@ class Pose(_Model):
     rpy_deg: RpyDeg = (0.0, 0.0, 0.0)
 
 
+_LinkName = Annotated[str, Field(strict=True, min_length=1, max_length=MAX_NAME_CHARS)]
+_FolderPath = Annotated[str, Field(strict=True, min_length=1, max_length=MAX_FILE_PATH_CHARS)]
+
+
 class CellRobot(_Model):
     """Which robot: exactly one of a bundled ``name``, a ``file`` or an embedded ``toml``."""
 
@@ -236,6 +261,22 @@ class CellRobot(_Model):
     toml: Annotated[str, Field(strict=True, min_length=1, max_length=MAX_TOML_CHARS)] | None = (
         Field(default=None, description="An embedded robot description in posebridge TOML.")
     )
+    from_link: _LinkName | None = Field(
+        default=None,
+        description="URDF or robot overlay file: the link the chain starts at (the robot base "
+        "frame); default the overlay's choice, else the root link.",
+    )
+    to_link: _LinkName | None = Field(
+        default=None,
+        description="URDF or robot overlay file: the link the chain ends at (the flange), e.g. a "
+        "tool0 frame; needed when the URDF has several leaf links.",
+    )
+    mesh_folders: list[_FolderPath] | None = Field(
+        default=None,
+        max_length=16,
+        description="Folders to look for mesh files in (package:// packages), relative to the "
+        "cell file.",
+    )
 
     @model_validator(mode="after")
     def _exactly_one_source(self) -> CellRobot:
@@ -243,6 +284,11 @@ class CellRobot(_Model):
         if len(given) != 1:
             found = " and ".join(given) if given else "none"
             raise _problems_error([("", f"needs exactly one of name, file or toml, got {found}")])
+        chain = [key for key in ("from_link", "to_link") if getattr(self, key) is not None]
+        if chain and self.file is None:
+            raise _problems_error(
+                [(chain[0], "chooses the chain of a URDF or robot overlay given as robot.file")]
+            )
         return self
 
 
@@ -364,6 +410,84 @@ class KeepOutZone(_Model):
     size_mm: SizeMm
 
 
+def _range_rule(name: str, low: float, high: float, home: float) -> list[tuple[str, str]]:
+    problems: list[tuple[str, str]] = []
+    if not low < high:
+        problems.append((name, f"lower end must be below the upper end, got [{low:g}, {high:g}]"))
+    elif not low <= home <= high:
+        problems.append(
+            ("home" + name.removeprefix("range"), f"must lie in {name} [{low:g}, {high:g}]")
+        )
+    return problems
+
+
+def _nonzero_vector(name: str, vector: tuple[float, float, float]) -> list[tuple[str, str]]:
+    if sum(v * v for v in vector) < 1e-12:
+        return [(name, "must not be the zero vector")]
+    return []
+
+
+class Track(_Model):
+    """A linear track carrying the robot: rail line, travel, limits and carriage."""
+
+    name: Name = "track"
+    origin_mm: PositionMm = Field(description="Rail frame at track position 0 (rail top).")
+    direction: PositionMm = Field(
+        default=(1.0, 0.0, 0.0), description="Direction of travel (normalised; not vertical)."
+    )
+    range_mm: Annotated[
+        tuple[Coordinate, Coordinate], Field(description="Travel [lower, upper] along direction.")
+    ]
+    home_mm: Coordinate = Field(
+        default=0.0, description="Position used where a joint vector leaves the track out."
+    )
+    speed_mm_s: Annotated[float, _finite(gt=0.0, le=MAX_SPEED_MM_S)]
+    accel_mm_s2: Annotated[float, _finite(gt=0.0, le=100.0 * MAX_SPEED_MM_S)]
+    carriage_height_mm: Distance = Field(
+        default=0.0,
+        description="Carriage top above the rail frame; the pedestal foot stands on it.",
+    )
+    carriage_size_mm: Annotated[
+        tuple[Length, Length], Field(description="Carriage length along the rail and width.")
+    ] = (600.0, 600.0)
+
+    @model_validator(mode="after")
+    def _consistent(self) -> Track:
+        problems = _range_rule("range_mm", *self.range_mm, self.home_mm)
+        problems += _nonzero_vector("direction", self.direction)
+        x, y, z = self.direction
+        if not problems and x * x + y * y < 1e-6 * (x * x + y * y + z * z):
+            problems.append(("direction", "must not be vertical"))
+        if problems:
+            raise _problems_error(problems)
+        return self
+
+
+class Turntable(_Model):
+    """A one-axis turntable turning fixtures (and their targets) about an axis."""
+
+    name: Name
+    position_mm: PositionMm = Field(description="Top centre of the plate, on the axis.")
+    axis: PositionMm = Field(default=(0.0, 0.0, 1.0), description="Turning axis (normalised).")
+    range_deg: tuple[Angle, Angle]
+    home_deg: Angle = 0.0
+    speed_deg_s: Annotated[float, _finite(gt=0.0, le=10_000.0)]
+    accel_deg_s2: Annotated[float, _finite(gt=0.0, le=1_000_000.0)]
+    plate_radius_mm: Length
+    plate_thickness_mm: Length = 20.0
+    fixtures: Annotated[list[Name], Field(max_length=MAX_FIXTURES)] = Field(
+        default=[], description="Fixtures on the plate; their children and targets turn too."
+    )
+
+    @model_validator(mode="after")
+    def _consistent(self) -> Turntable:
+        problems = _range_rule("range_deg", *self.range_deg, self.home_deg)
+        problems += _nonzero_vector("axis", self.axis)
+        if problems:
+            raise _problems_error(problems)
+        return self
+
+
 class Branch(_Model):
     """A required arm branch in plain words; an omitted part means either."""
 
@@ -382,6 +506,15 @@ class Target(_Model):
     branch: Branch | None = None
     approach_offset_mm: Distance = Field(
         default=0.0, description="Back-off distance along the target's tool z axis."
+    )
+    external_axes: Annotated[
+        dict[Name, Annotated[float, _finite(ge=-MAX_COORDINATE_MM, le=MAX_COORDINATE_MM)]],
+        Field(max_length=MAX_TURNTABLES + 1),
+    ] = Field(
+        default={},
+        exclude_if=lambda pins: not pins,  # files without external axes stay as they were
+        description="Pinned external axis values by axis name (mm track, deg table); "
+        "an axis left out is chosen by the rule in the README.",
     )
 
 
@@ -426,7 +559,7 @@ class Waypoint(_Model):
     joints_deg: (
         Annotated[
             list[Annotated[float, _finite(ge=-MAX_COORDINATE_MM, le=MAX_COORDINATE_MM)]],
-            Field(min_length=1, max_length=MAX_JOINTS),
+            Field(min_length=1, max_length=MAX_JOINTS + MAX_TURNTABLES + 1),
         ]
         | None
     ) = None
@@ -478,10 +611,19 @@ class Cell(_Model):
     base: CellBase = Field(default_factory=CellBase)
     tool: Tool | None = Field(default=None, description="Omitted: the robot's default tool.")
     floor_height_mm: Coordinate = 0.0
+    track: Track | None = Field(default=None, description="Linear track under the robot.")
+    turntables: Annotated[list[Turntable], Field(max_length=MAX_TURNTABLES)] = Field(
+        default=[], exclude_if=lambda tables: not tables
+    )
     fixtures: Annotated[list[Fixture], Field(max_length=MAX_FIXTURES)] = []
     keep_outs: Annotated[list[KeepOutZone], Field(max_length=MAX_KEEP_OUTS)] = []
     targets: Annotated[list[Target], Field(max_length=MAX_TARGETS)] = []
     paths: Annotated[list[MotionPath], Field(max_length=MAX_PATHS)] = []
+    thresholds: QualityThresholds = Field(
+        default_factory=QualityThresholds,
+        description="Warning thresholds of every check of this cell (target check, diagnosis, "
+        "path check, plan, report, page); omitted fields take the documented defaults.",
+    )
     notes: Annotated[str, Field(strict=True, max_length=MAX_NOTES_CHARS)] = ""
 
     @model_validator(mode="after")
@@ -561,6 +703,24 @@ def reference_problems(cell: Cell) -> list[tuple[str, str]]:
     if cell.tool is not None:
         problems += _duplicates("tool.capsules", [c.name for c in cell.tool.capsules])
     known_fixtures = set(fixture_names)
+    axis_names = ([cell.track.name] if cell.track is not None else []) + [
+        table.name for table in cell.turntables
+    ]
+    problems += _duplicates("turntables", [table.name for table in cell.turntables])
+    if cell.track is not None and cell.track.name in axis_names[1:]:
+        problems.append(("track.name", f"{cell.track.name!r} is also a turntable's name"))
+    carried: dict[str, int] = {}
+    for t, table in enumerate(cell.turntables):
+        for f, name in enumerate(table.fixtures):
+            where = f"turntables[{t}].fixtures[{f}]"
+            if name not in known_fixtures:
+                problems.append((where, _unknown("fixture", name, fixture_names)))
+            elif name in carried:
+                problems.append(
+                    (where, f"fixture {name!r} is already on turntable {carried[name]}")
+                )
+            else:
+                carried[name] = t
     for i, fixture in enumerate(cell.fixtures):
         if fixture.name == WORLD:
             problems.append((f"fixtures[{i}].name", f"{WORLD!r} is reserved for the world frame"))
@@ -574,6 +734,18 @@ def reference_problems(cell: Cell) -> list[tuple[str, str]]:
             problems.append(
                 (f"targets[{i}].fixture", _unknown("fixture", target.fixture, fixture_names))
             )
+        for axis, value in target.external_axes.items():
+            where = f"targets[{i}].external_axes.{axis}"
+            if axis not in axis_names:
+                problems.append((where, _unknown("external axis", axis, axis_names)))
+                continue
+            low, high = (
+                cell.track.range_mm
+                if cell.track is not None and axis == cell.track.name
+                else next(t.range_deg for t in cell.turntables if t.name == axis)
+            )
+            if not low <= value <= high:
+                problems.append((where, f"must lie in the axis range [{low:g}, {high:g}]"))
     targets = {target.name: target for target in cell.targets}
     for p, path in enumerate(cell.paths):
         for w, waypoint in enumerate(path.waypoints):

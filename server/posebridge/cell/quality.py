@@ -50,9 +50,11 @@ from posebridge.kinematics.ik.finishing import JOINT_CONTINUOUS, JOINT_REVOLUTE,
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
     LimitMargins,
+    characteristic_length_m,
     inverse_condition_number,
     jacobian_rows,
     limit_margins,
+    manipulability_scaled_full,
     manipulability_yoshikawa,
 )
 from posebridge.kinematics.singularity import (
@@ -124,7 +126,13 @@ class ConfigurationQuality:
         TCP pose in the robot base frame.
     margins : LimitMargins
     manipulability : array, shape (N,)
-        Yoshikawa manipulability of the translational Jacobian.
+        Yoshikawa manipulability of the translational Jacobian (position part
+        only: it does not fall at the wrist singularity).
+    full_manipulability : array, shape (N,), or None
+        :func:`~posebridge.kinematics.metrics.manipulability_scaled_full` of
+        the whole Jacobian, translational rows divided by the arm's
+        characteristic length; zero at every singularity. None for arms of
+        fewer than six joints (their full measure is always zero).
     inverse_condition : array, shape (N,)
         Inverse condition number of the translational Jacobian, in [0, 1].
     scheme : str
@@ -146,6 +154,7 @@ class ConfigurationQuality:
     T_base_tool: FloatArray
     margins: LimitMargins
     manipulability: FloatArray
+    full_manipulability: FloatArray | None
     inverse_condition: FloatArray
     scheme: str
     shoulder: Int8Array
@@ -221,17 +230,18 @@ def evaluate_configurations(
     q : array-like, shape (N, n)
         Joint values, rad or m.
     thresholds : QualityThresholds, optional
-        Defaults of :class:`~posebridge.cell.reports.QualityThresholds`.
+        The cell's own (``scene.cell.thresholds``) if omitted.
 
     Returns
     -------
     ConfigurationQuality
     """
-    thresholds = QualityThresholds() if thresholds is None else thresholds
+    thresholds = scene.cell.thresholds if thresholds is None else thresholds
     robot = scene.robot
     q = check_configurations(robot, q)
     T_base_tool = fk_tool(robot, q, scene.T_flange_tool)
-    J = jacobian_rows(jacobian_base(robot, q, scene.T_flange_tool), "position")
+    J_full = jacobian_base(robot, q, scene.T_flange_tool)
+    J = jacobian_rows(J_full, "position")
     scheme = branch_geometry(robot).scheme
     shoulder, elbow, wrist = label_branches(robot, q)
     singularity = (
@@ -246,6 +256,11 @@ def evaluate_configurations(
         T_base_tool=T_base_tool,
         margins=limit_margins(robot, q),
         manipulability=manipulability_yoshikawa(J),
+        full_manipulability=(
+            manipulability_scaled_full(J_full, characteristic_length_m(robot, scene.T_flange_tool))
+            if robot.dof >= 6
+            else None
+        ),
         inverse_condition=inverse_condition_number(J),
         scheme=scheme,
         shoulder=shoulder,
@@ -443,8 +458,14 @@ def branch_report(
         min_margin_joint=robot.joint_names[joint] if has_limits else None,
         min_margin_fraction=float(margins.min_fraction[k]) if has_limits else None,
         manipulability=float(quality.manipulability[k]),
+        position_manipulability=float(quality.manipulability[k]),
+        full_manipulability=(
+            None if quality.full_manipulability is None else float(quality.full_manipulability[k])
+        ),
         singularity=singularity_model(quality, k),
         clearance_mm=_finite_or_none(float(mm_from_m(quality.clearance[k]))),
+        environment_clearance_mm=_finite_or_none(float(mm_from_m(quality.environment.distance[k]))),
+        self_clearance_mm=_finite_or_none(float(mm_from_m(quality.self_clearance.distance[k]))),
         collision_free=free,
         closest_environment=closest_pair_model(quality.environment, k),
         closest_self=closest_pair_model(quality.self_clearance, k),
@@ -458,6 +479,17 @@ def _pair_text(pair: ClosestPair) -> str:
     if pair.other_kind == "self":
         return f"{pair.capsule} and {pair.other}"
     return f"{pair.capsule} and {pair.other} ({pair.other_kind})"
+
+
+def geometry_findings(robot: Robot) -> list[Finding]:
+    """A warning finding (code ``robot-geometry-missing``) for a robot without collision
+    geometry, else none: its clearances mean nothing."""
+    message = robot.geometry_missing
+    if message is None:
+        return []
+    return [
+        Finding(severity="warning", code="robot-geometry-missing", target=None, message=message)
+    ]
 
 
 def quality_findings(
@@ -490,7 +522,15 @@ def quality_findings(
     t = quality.thresholds
     found: list[Finding] = []
 
-    def add(severity: str, code: str, message: str, value: float, unit: str, limit: float) -> None:
+    def add(
+        severity: str,
+        code: str,
+        message: str,
+        value: float,
+        unit: str,
+        limit: float,
+        cause: str | None = None,
+    ) -> None:
         found.append(
             Finding(
                 severity=severity,  # type: ignore[arg-type]  # error, warning or info
@@ -503,6 +543,7 @@ def quality_findings(
                 value=value,
                 unit=unit,
                 threshold=limit,
+                cause=cause,
             )
         )
 
@@ -520,6 +561,7 @@ def quality_findings(
                 margin.margin,
                 margin.unit,
                 0.0,
+                margin.joint,
             )
         elif margin.margin < limit:
             add(
@@ -531,6 +573,7 @@ def quality_findings(
                 margin.margin,
                 margin.unit,
                 limit,
+                margin.joint,
             )
     for pair in (
         closest_pair_model(quality.environment, k),
@@ -547,6 +590,7 @@ def quality_findings(
                 pair.distance_mm,
                 "mm",
                 0.0,
+                f"{pair.capsule} – {pair.other}",
             )
         elif pair.distance_mm < t.clearance_mm:
             add(
@@ -557,6 +601,7 @@ def quality_findings(
                 pair.distance_mm,
                 "mm",
                 t.clearance_mm,
+                f"{pair.capsule} – {pair.other}",
             )
     proximity = singularity_model(quality, k)
     if proximity is not None:

@@ -17,6 +17,7 @@ from posebridge.cell.reports import (
     PoseDiagnosis,
     SingularityProximity,
     TargetCheckReport,
+    group_findings,
 )
 
 __all__ = ["render_log_diagnosis", "render_pose_diagnosis", "render_target_check", "table"]
@@ -56,18 +57,37 @@ def _singularity(proximity: SingularityProximity | None) -> str:
     return distances if proximity.kind == "none" else f"NEAR {proximity.kind.upper()}: {distances}"
 
 
-def _closest(branch: BranchReport) -> str:
-    pairs = [p for p in (branch.closest_environment, branch.closest_self) if p is not None]
-    if not pairs:
-        return "-"
-    return _pair(min(pairs, key=lambda p: p.distance_mm))
+def _clearance(pair: ClosestPair | None) -> str:
+    """``12.3 mm (gripper – press-die)``, or ``-`` where nothing was checked."""
+    return "-" if pair is None else f"{pair.distance_mm:.1f} mm ({_pair(pair)})"
 
 
 def _findings(findings: Sequence[Finding]) -> str:
+    """Findings one per line; findings of one severity, code and cause (an object pair, a
+    joint) that occur more than once are one line with their count and the worst one."""
     if not findings:
         return "Findings: none"
     lines = [f"Findings ({len(findings)}):"]
+    repeated = {
+        (g.severity, g.code, g.cause): g for g in group_findings(list(findings)) if g.count > 1
+    }
+    shown: set[tuple[str, str, str]] = set()
     for f in findings:
+        key = (f.severity, f.code, f.cause or "")
+        if f.cause is not None and key in repeated:
+            if key in shown:
+                continue
+            shown.add(key)
+            group = repeated[key]
+            worst = group.worst
+            where = " ".join(part for part in (worst.target, worst.pose) if part)
+            if worst.row is not None:
+                where = f"row {worst.row}"
+            lines.append(
+                f"  {f.severity.upper():<8} {group.count} x {f.code} {group.cause}; worst"
+                f"{' at ' + where if where else ''}: {worst.message}"
+            )
+            continue
         where = " ".join(part for part in (f.target, f.pose) if part)
         if f.row is not None:
             where = f"row {f.row}"
@@ -84,14 +104,23 @@ def _branches_table(branches: Sequence[BranchReport], marked: int | None, mark: 
             "yes" if b.within_limits else "no",
             _number(b.min_margin, b.min_margin_unit or "")
             + (f" ({b.min_margin_joint})" if b.min_margin_joint else ""),
-            _number(b.clearance_mm, "mm"),
-            _closest(b),
+            _clearance(b.closest_environment),
+            _clearance(b.closest_self),
             _singularity(b.singularity),
         ]
         for i, b in enumerate(branches)
     ]
     return table(
-        ["", "branch", "joints", "in limits", "min margin", "clearance", "closest", "singularity"],
+        [
+            "",
+            "branch",
+            "joints",
+            "in limits",
+            "min margin",
+            "environment clearance",
+            "self-clearance",
+            "singularity",
+        ],
         rows,
     )
 
@@ -108,8 +137,8 @@ def render_target_check(report: TargetCheckReport) -> str:
                 "yes" if target.reachable else "NO",
                 pose.recommended_branch or pose.reason,
                 "-" if best is None else _number(best.min_margin, best.min_margin_unit or ""),
-                "-" if best is None else _number(best.clearance_mm, "mm"),
-                "-" if best is None else _closest(best),
+                "-" if best is None else _clearance(best.closest_environment),
+                "-" if best is None else _clearance(best.closest_self),
                 "-" if best is None else _singularity(best.singularity),
             ]
         )
@@ -135,16 +164,37 @@ def render_target_check(report: TargetCheckReport) -> str:
                     "reachable",
                     "recommended branch (or why not)",
                     "min margin",
-                    "clearance",
-                    "closest",
+                    "environment clearance",
+                    "self-clearance",
                     "singularity",
                 ],
                 rows,
             ),
+            *([_external_table(report)] if report.external_axis_names else []),
             summary,
             _findings(report.findings),
         ]
     )
+
+
+def _external_table(report: TargetCheckReport) -> str:
+    """Each target's external axis values (``*`` pinned) and the widest feasible interval."""
+    rows = []
+    for target in report.targets:
+        cells = [target.name]
+        for name, unit in zip(report.external_axis_names, report.external_axis_units, strict=True):
+            pin = "*" if name in target.external_pinned else ""
+            spans = [
+                span
+                for found in target.external_intervals
+                if found.axis == name
+                for span in found.intervals
+            ]
+            widest = max(spans, key=lambda s: s[1] - s[0], default=None)
+            where = "" if widest is None else f" in [{widest[0]:.1f}, {widest[1]:.1f}]"
+            cells.append(f"{target.external_axes.get(name, float('nan')):.1f} {unit}{pin}{where}")
+        rows.append(cells)
+    return table(["target", *report.external_axis_names], rows)
 
 
 def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
@@ -156,6 +206,7 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
         f"{n} {v:.3f} {u}"
         for n, v, u in zip(d.joint_names, d.joints_deg, d.joint_units, strict=True)
     )
+    joints += "".join(f", {m.joint} {m.value:.3f} {m.unit}" for m in d.external_margins)
     head = "\n".join(
         [
             f"Pose diagnosis: robot {d.robot}, tool {d.tool}",
@@ -172,9 +223,15 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
             + " ".join(f"{v:.2f}" for v in base.rpy_deg)
             + " deg",
             f"branch:            {d.branch}",
-            f"manipulability:    {d.manipulability:.4g}",
+            f"manipulability:    position {d.position_manipulability:.4g}"
+            + (
+                ""
+                if d.full_manipulability is None
+                else f", full (scaled, 0 at any singularity) {d.full_manipulability:.4g}"
+            ),
             f"singularity:       {_singularity(d.singularity)}",
-            f"clearance:         {_number(d.clearance_mm, 'mm')} ({_pair(d.closest)})",
+            f"environment:       {_clearance(d.closest_environment)}",
+            f"self-clearance:    {_clearance(d.closest_self)}",
         ]
     )
     margins = table(
@@ -188,7 +245,7 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
                 _number(m.margin, m.unit),
                 _number(m.margin_fraction, digits=3),
             ]
-            for m in d.margins
+            for m in [*d.margins, *d.external_margins]
         ],
     )
     objects = table(

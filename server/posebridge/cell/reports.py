@@ -21,6 +21,7 @@ has no margin, an arm without capsules no clearance).
 
 from __future__ import annotations
 
+import math
 from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
@@ -32,7 +33,9 @@ __all__ = [
     "BranchReport",
     "ClosestPair",
     "ConsistentBranch",
+    "ExternalAxisIntervals",
     "Finding",
+    "FindingGroup",
     "JointExtreme",
     "JointMargin",
     "LogDiagnosis",
@@ -52,6 +55,7 @@ __all__ = [
     "VelocityCheck",
     "VelocityJump",
     "WorstRow",
+    "group_findings",
 ]
 
 MAX_LISTED_EVENTS = 100
@@ -64,8 +68,18 @@ PoseKind = Literal["target", "approach"]
 _RPY = "Roll, pitch, yaw in degrees about fixed X, Y, Z: R = Rz(yaw) Ry(pitch) Rx(roll)."
 _JOINTS = "Joint values: degrees for revolute joints, millimetres for prismatic joints."
 _MANIPULABILITY = (
-    "Yoshikawa manipulability sqrt(det(Jv Jv^T)) of the TCP's translational Jacobian in SI "
-    "units (m^k per rad^k, k = min(3, joints)); 0 at a singularity."
+    "Position manipulability: Yoshikawa's sqrt(det(Jv Jv^T)) of the TCP's translational "
+    "Jacobian only, in SI units (m^k per rad^k, k = min(3, joints)); 0 at a position "
+    "singularity, but not at the wrist singularity (see full_manipulability)."
+)
+
+
+_FULL_MANIPULABILITY = (
+    "Yoshikawa manipulability sqrt(det(J J^T)) of the whole 6-row TCP Jacobian with its "
+    "translational rows divided by the arm's characteristic length (the sum of its "
+    "joint-to-joint, flange and TCP distances), dimensionless: zero at every singularity, the "
+    "wrist singularity included (the position part alone is not). null for arms of fewer "
+    "than six joints."
 )
 
 
@@ -75,7 +89,7 @@ class _Result(BaseModel):
 
 # The warning thresholds and score references of the checks (parameters and part of every result).
 class QualityThresholds(_Result):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
 
     # common practice, no source
     limit_margin_deg: float = Field(
@@ -186,12 +200,24 @@ class BranchReport(_Result):
     min_margin_unit: str | None
     min_margin_joint: str | None
     min_margin_fraction: float | None
-    manipulability: float = Field(description=_MANIPULABILITY)
+    manipulability: float = Field(
+        description=_MANIPULABILITY + " The same as position_manipulability, kept for readers."
+    )
+    position_manipulability: float = Field(default=0.0, description=_MANIPULABILITY)
+    full_manipulability: float | None = Field(default=None, description=_FULL_MANIPULABILITY)
     singularity: SingularityProximity | None = Field(
         description="null for arms other than six- and seven-axis arms."
     )
     clearance_mm: float | None = Field(
         description="Smallest of the two below; null: nothing checked."
+    )
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Clearance to the cell (closest_environment); null: none checked."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None,
+        description="Clearance between the arm's own parts (closest_self; pairs whose distance "
+        "no joint motion changes are left out); null: none checked.",
     )
     collision_free: bool
     closest_environment: ClosestPair | None = Field(description="Closest obstacle of the cell.")
@@ -215,6 +241,17 @@ class PoseCheck(_Result):
     recommended_branch: str | None
 
 
+# Feasible intervals of one external axis for one target and branch.
+class ExternalAxisIntervals(_Result):
+    axis: str = Field(description="External axis name (track or turntable).")
+    unit: str = Field(description="mm or deg")
+    branch: str = Field(description="Shoulder/elbow/wrist words.")
+    intervals: list[list[float]] = Field(
+        description="[start, end] of every value range where the branch reaches the target "
+        "within the joint limits, the other axes at the chosen values."
+    )
+
+
 # The check of one target of the cell.
 class TargetCheck(_Result):
     name: str
@@ -229,6 +266,16 @@ class TargetCheck(_Result):
     )
     target: PoseCheck
     approach: PoseCheck | None = Field(description="null when the approach offset is 0.")
+    external_axes: dict[str, float] = Field(
+        default_factory=dict,
+        description="External axis values the target is checked at (mm track, deg table).",
+    )
+    external_pinned: list[str] = Field(
+        default_factory=list, description="External axes the cell pins for this target."
+    )
+    external_intervals: list[ExternalAxisIntervals] = Field(
+        default_factory=list, description="Feasible intervals of the free external axes."
+    )
 
 
 # Which targets one shoulder/elbow/wrist branch reaches, clear of the cell.
@@ -255,7 +302,8 @@ class Finding(_Result):
     code: str = Field(
         description="Target check: unreachable, approach-branch, branch-limited, "
         "consistent-branch, inconsistent-branch, open-mesh; any configuration: outside-limits, "
-        "limit-margin, collision, clearance, singularity, at-target; logs (stretches of rows): "
+        "limit-margin, collision, clearance, singularity, at-target, robot-geometry-missing; "
+        "logs (stretches of rows): "
         "collision, low-clearance, outside-limits, low-limit-margin, near-wrist-singularity, "
         "near-elbow-singularity, near-shoulder-singularity; logs (between rows): branch-change, "
         "velocity, velocity-skipped."
@@ -268,6 +316,40 @@ class Finding(_Result):
     value: float | None = None
     unit: str | None = None
     threshold: float | None = None
+    cause: str | None = Field(
+        default=None,
+        description="What the finding is about, for grouping: the pair ('gripper-body – "
+        "press-die') of a collision or clearance finding, the joint of a limit finding.",
+    )
+
+
+# Findings of one kind with one cause (e.g. one object pair), counted, with the worst one.
+class FindingGroup(_Result):
+    severity: Severity
+    code: str
+    cause: str
+    count: int = Field(description="How many findings share this severity, code and cause.")
+    worst: Finding = Field(description="The one with the smallest value (deepest, closest).")
+
+
+def group_findings(findings: list[Finding]) -> list[FindingGroup]:
+    """Findings with a cause grouped by (severity, code, cause), in first-seen order; the
+    worst of a group is its finding with the smallest value (deepest penetration, smallest
+    clearance or margin)."""
+    groups: dict[tuple[str, str, str], list[Finding]] = {}
+    for finding in findings:
+        if finding.cause is not None:
+            groups.setdefault((finding.severity, finding.code, finding.cause), []).append(finding)
+    return [
+        FindingGroup(
+            severity=members[0].severity,
+            code=code,
+            cause=cause,
+            count=len(members),
+            worst=min(members, key=lambda f: math.inf if f.value is None else f.value),
+        )
+        for (_, code, cause), members in groups.items()
+    ]
 
 
 # Target check of a whole cell.
@@ -280,12 +362,24 @@ class TargetCheckReport(_Result):
     thresholds: QualityThresholds
     score_rule: str
     targets: list[TargetCheck]
+    external_axis_names: list[str] = Field(
+        default_factory=list, description="Track and turntables after the robot's joints."
+    )
+    external_axis_units: list[str] = Field(default_factory=list)
     consistent_branch: ConsistentBranch
     findings: list[Finding] = Field(description="Errors first, then warnings, then info.")
+    finding_groups: list[FindingGroup] = Field(
+        default=[], description="Findings of one cause (object pair, joint) counted, worst first."
+    )
     reachable_count: int
     error_count: int
     warning_count: int
     info_count: int
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # A tool pose in one frame.
@@ -320,9 +414,19 @@ class PoseDiagnosis(_Result):
     margins: list[JointMargin]
     min_margin_joint: str | None
     min_margin_fraction: float | None
-    manipulability: float = Field(description=_MANIPULABILITY)
+    manipulability: float = Field(
+        description=_MANIPULABILITY + " The same as position_manipulability, kept for readers."
+    )
+    position_manipulability: float = Field(default=0.0, description=_MANIPULABILITY)
+    full_manipulability: float | None = Field(default=None, description=_FULL_MANIPULABILITY)
     singularity: SingularityProximity | None
     clearance_mm: float | None
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Clearance to the cell (closest_environment)."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Clearance between the arm's own parts (closest_self)."
+    )
     collision_free: bool
     closest: ClosestPair | None = Field(description="Closest pair overall (cell or self).")
     closest_environment: ClosestPair | None
@@ -336,6 +440,17 @@ class PoseDiagnosis(_Result):
         description="Index into branches of the solution equal to the input joints."
     )
     findings: list[Finding]
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
+    external_axes: dict[str, float] = Field(
+        default_factory=dict, description="External axis values (mm track, deg table)."
+    )
+    external_margins: list[JointMargin] = Field(
+        default_factory=list, description="Limit margins of the external axes."
+    )
 
 
 # One row of a log picked for a reason.
@@ -436,6 +551,12 @@ class LogRows(_Result):
     shoulder_mm: list[float] | None
     clearance_mm: list[float | None]
     closest: list[str] = Field(description="Closest pair as 'capsule – other'.")
+    environment_clearance_mm: list[float | None] = Field(
+        default=[], description="Per row, clearance to the cell."
+    )
+    self_clearance_mm: list[float | None] = Field(
+        default=[], description="Per row, clearance between the arm's own parts."
+    )
 
 
 # Diagnosis of a controller joint log in the cell.
@@ -463,4 +584,9 @@ class LogDiagnosis(_Result):
     velocity: VelocityCheck
     worst_row: WorstRow
     findings: list[Finding]
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
     rows: LogRows | None = Field(description="Per-row values; null when not requested.")

@@ -21,7 +21,7 @@ and :mod:`posebridge.transforms`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Literal
 
@@ -29,6 +29,13 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.cell.mesh_fixtures import MeshFixtureLoader
+from posebridge.cell.external_axes import (
+    NO_EXTERNAL_AXES,
+    ExternalAxes,
+    TrackAxis,
+    TurntableAxis,
+    rail_frame,
+)
 from posebridge.cell.model import (
     BoxFixture,
     Branch,
@@ -37,16 +44,23 @@ from posebridge.cell.model import (
     CylinderFixture,
     MeshFixture,
     MotionPath,
+    Target,
 )
 from posebridge.geometry.mesh_cache import MeshCache
 from posebridge.geometry.meshes import TriangleMesh
+from posebridge.geometry.robot_meshes import load_robot_with_meshes
 from posebridge.kinematics.fk import fk_tool
 from posebridge.robot.errors import RobotDescriptionError
-from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml
 from posebridge.transforms import transform_from_position_rpy
-from posebridge.units import BoolArray, FloatArray, joints_si_from_user, m_from_mm
+from posebridge.units import (
+    BoolArray,
+    FloatArray,
+    joints_si_from_user,
+    m_from_mm,
+    rad_from_deg,
+)
 
 __all__ = [
     "BoxSet",
@@ -57,6 +71,7 @@ __all__ = [
     "Scene",
     "TargetSet",
     "WaypointSource",
+    "posed_scene",
     "resolve_scene",
 ]
 
@@ -206,6 +221,10 @@ class ResolvedPath:
         Percent of the joints' velocity limits for joint moves, NaN for linear moves.
     blend_radius : array, shape (W,)
         m.
+    external : array, shape (W, m)
+        External axis values (m, rad) of every waypoint: given with the joint
+        values or pinned on the waypoint's target, else the value the scene is
+        posed at. ``T_world_tool`` of a target waypoint is at the scene's values.
     """
 
     name: str
@@ -219,6 +238,7 @@ class ResolvedPath:
     linear_speed: FloatArray
     speed_percent: FloatArray
     blend_radius: FloatArray
+    external: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
 
 
 @dataclass(frozen=True, eq=False)
@@ -255,6 +275,11 @@ class Scene:
         World z of the floor, m.
     targets : TargetSet
     paths : tuple of ResolvedPath
+    external : ExternalAxes
+        Track and turntables, and the values this scene is posed at (their
+        home values from :func:`resolve_scene`; others from :func:`posed_scene`).
+        The track's carriage is the last box (``"<track> carriage"``), each
+        table's plate a cylinder after the fixtures (``"<table> plate"``).
     """
 
     cell: Cell
@@ -273,6 +298,60 @@ class Scene:
     floor_height: float
     targets: TargetSet
     paths: tuple[ResolvedPath, ...]
+    external: ExternalAxes = NO_EXTERNAL_AXES
+
+    @property
+    def joint_names(self) -> tuple[str, ...]:
+        """The cell's joint vector: robot joints, then external axes, length n + m."""
+        return self.robot.joint_names + self.external.names
+
+    @property
+    def joint_prismatic(self) -> BoolArray:
+        """Whether each entry of the cell's joint vector is a length (mm), shape (n + m,)."""
+        return np.concatenate([self.robot.prismatic, self.external.prismatic])
+
+    def split_joints(
+        self, values_user: npt.ArrayLike, *, where: str = "joints"
+    ) -> tuple[FloatArray, FloatArray]:
+        """Robot joints and external values (SI) from user joint vectors.
+
+        Parameters
+        ----------
+        values_user : array-like, shape (N, n) or (N, n + m)
+            Degrees / millimetres; without the external columns the axes take
+            the values the scene is posed at.
+        where : str
+            Name used in the error message.
+
+        Returns
+        -------
+        q : array, shape (N, n)
+            rad, m.
+        external : array, shape (N, m)
+            m, rad.
+
+        Raises
+        ------
+        CellFileError
+            Wrong number of values.
+        """
+        values = np.asarray(values_user, dtype=np.float64)
+        values = values.reshape(-1, values.shape[-1]) if values.ndim else values.reshape(1, 1)
+        n, m = self.robot.dof, self.external.count
+        if values.shape[1] not in (n, n + m):
+            expected = f"{n}" if m == 0 else f"{n} or {n + m}"
+            raise CellFileError(
+                [
+                    f"{where}: expected {expected} values ({', '.join(self.joint_names)}), "
+                    f"got {values.shape[1]}"
+                ]
+            )
+        q = joints_si_from_user(values[:, :n], self.robot.prismatic)
+        if values.shape[1] == n:
+            external = np.broadcast_to(self.external.values, (len(values), m)).copy()
+        else:
+            external = self.external.si_from_user(values[:, n:])
+        return q, external
 
 
 def _pose_si(position_mm: npt.ArrayLike, rpy_deg: npt.ArrayLike) -> FloatArray:
@@ -293,11 +372,12 @@ def _optional_path(path: str | Path | None) -> Path | None:
 
 
 def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
-    """The cell's robot: bundled name, file relative to the cell file, or embedded TOML."""
+    """The cell's robot: bundled name, file relative to the cell file (with its chain choice
+    and mesh folders, meshes fitted), or embedded TOML."""
     source = cell.robot
     try:
         if source.name is not None:
-            return load_robot(source.name)
+            return load_robot_with_meshes(source.name)
         if source.toml is not None:
             return parse_robot_toml(source.toml, "robot.toml")
         assert source.file is not None
@@ -311,7 +391,13 @@ def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
                     ]
                 )
             file = Path(cell_path).parent / file
-        return load_robot(file)
+        folder = file.parent if cell_path is None else Path(cell_path).parent
+        return load_robot_with_meshes(
+            file,
+            from_link=source.from_link,
+            to_link=source.to_link,
+            mesh_folders=[folder / f for f in source.mesh_folders or []],
+        )
     except RobotDescriptionError as error:
         if source.toml is not None:  # problems already start with "robot.toml:<line>"
             raise CellFileError(error.problems) from error
@@ -379,14 +465,111 @@ def _resolve_targets(
 
 
 def _joint_count_problems(cell: Cell, robot: Robot) -> list[str]:
-    """Joint waypoints whose number of values differs from the robot's joints."""
+    """Joint waypoints whose number of values is neither the robot's joints nor the cell's."""
+    m = (cell.track is not None) + len(cell.turntables)
+    expected = f"{robot.dof}" if m == 0 else f"{robot.dof} or {robot.dof + m} (with external axes)"
     return [
-        f"paths[{p}].waypoints[{w}].joints_deg: expected {robot.dof} values for robot "
+        f"paths[{p}].waypoints[{w}].joints_deg: expected {expected} values for robot "
         f"{robot.name!r}, got {len(waypoint.joints_deg)}"
         for p, path in enumerate(cell.paths)
         for w, waypoint in enumerate(path.waypoints)
-        if waypoint.joints_deg is not None and len(waypoint.joints_deg) != robot.dof
+        if waypoint.joints_deg is not None
+        and len(waypoint.joints_deg) not in (robot.dof, robot.dof + m)
     ]
+
+
+def _external_axes(cell: Cell, T_foot_base: FloatArray) -> ExternalAxes:
+    """The cell's track and turntables in SI, posed at their home values."""
+    names: list[str] = []
+    prismatic: list[bool] = []
+    rows: list[list[float]] = []  # lower, upper, home, v, a
+    track = None
+    if cell.track is not None:
+        t = cell.track
+        names.append(t.name)
+        prismatic.append(True)
+        rows.append(m_from_mm([*t.range_mm, t.home_mm, t.speed_mm_s, t.accel_mm_s2]).tolist())
+        track = TrackAxis(
+            T_world_rail=rail_frame(m_from_mm(t.origin_mm), t.direction),
+            carriage_height=float(m_from_mm(t.carriage_height_mm)),
+            carriage_size=m_from_mm(t.carriage_size_mm),
+            T_carriage_base=_pose_si(cell.base.position_mm, cell.base.rpy_deg) @ T_foot_base,
+        )
+    index_of = {fixture.name: i for i, fixture in enumerate(cell.fixtures)}
+    tables = []
+    for table in cell.turntables:
+        names.append(table.name)
+        prismatic.append(False)
+        rows.append(
+            rad_from_deg(
+                [*table.range_deg, table.home_deg, table.speed_deg_s, table.accel_deg_s2]
+            ).tolist()
+        )
+        carried = {index_of[name] for name in table.fixtures}
+        changed = True
+        while changed:  # children of carried fixtures are carried
+            grown = carried | {
+                i
+                for i, f in enumerate(cell.fixtures)
+                if f.parent is not None and index_of[f.parent] in carried
+            }
+            changed = grown != carried
+            carried = grown
+        axis = np.asarray(table.axis, dtype=np.float64)
+        tables.append(
+            TurntableAxis(
+                point=m_from_mm(table.position_mm),
+                axis=axis / np.linalg.norm(axis),
+                plate_radius=float(m_from_mm(table.plate_radius_mm)),
+                plate_thickness=float(m_from_mm(table.plate_thickness_mm)),
+                fixtures=tuple(sorted(carried)),
+            )
+        )
+    table_rows = np.array(rows, dtype=np.float64).reshape(-1, 5)
+    return ExternalAxes(
+        names=tuple(names),
+        prismatic=np.array(prismatic, dtype=bool),
+        lower=table_rows[:, 0].copy(),
+        upper=table_rows[:, 1].copy(),
+        home=table_rows[:, 2].copy(),
+        velocity_max=table_rows[:, 3].copy(),
+        acceleration_max=table_rows[:, 4].copy(),
+        values=table_rows[:, 2].copy(),
+        track=track,
+        turntables=tuple(tables),
+    )
+
+
+def _carriage_box(external: ExternalAxes, name: str) -> tuple[str, FloatArray, FloatArray] | None:
+    """The carriage as a box (name, centre frame, half extents) at the posed track value."""
+    track = external.track
+    if track is None or track.carriage_height <= 0.0:
+        return None
+    T_top = track.T_world_carriage(external.values[0])[0]
+    T_centre = T_top @ _translation_z(-0.5 * track.carriage_height)
+    half = 0.5 * np.array([*track.carriage_size, track.carriage_height])
+    return f"{name} carriage", T_centre, half
+
+
+def _plate_cylinders(external: ExternalAxes, names: tuple[str, ...]) -> CylinderSet:
+    """Each turntable's plate as a cylinder below its top centre along its axis."""
+    tables = external.turntables
+    if not tables:
+        return CylinderSet((), np.zeros((0, 4, 4)), np.zeros(0), np.zeros(0))
+    offset = external.table_offset
+    T = np.stack(
+        [
+            table.T_world_plate(external.values[offset + k])[0]
+            @ _translation_z(-0.5 * table.plate_thickness)
+            for k, table in enumerate(tables)
+        ]
+    )
+    return CylinderSet(
+        names=tuple(f"{name} plate" for name in names),
+        T_world=T,
+        radius=np.array([table.plate_radius for table in tables]),
+        half_length=np.array([0.5 * table.plate_thickness for table in tables]),
+    )
 
 
 def _resolve_path(
@@ -395,6 +578,8 @@ def _resolve_path(
     T_world_base: FloatArray,
     T_flange_tool: FloatArray,
     targets: TargetSet,
+    external: ExternalAxes,
+    cell_targets: list[Target],
 ) -> ResolvedPath:
     waypoints = path.waypoints
     count = len(waypoints)
@@ -404,6 +589,8 @@ def _resolve_path(
     approach = np.array([wp.approach for wp in waypoints], dtype=bool)
     T_world_tool = np.empty((count, 4, 4))
     q = np.full((count, n), np.nan)
+    values = np.broadcast_to(external.values, (count, external.count)).copy()
+    pins = [target.external_axes for target in cell_targets]
     for w, waypoint in enumerate(waypoints):
         if waypoint.target is not None:
             sources.append("target")
@@ -411,16 +598,24 @@ def _resolve_path(
             target_index[w] = k
             table = targets.T_world_approach if waypoint.approach else targets.T_world_target
             T_world_tool[w] = table[k]
+            for axis, value in pins[k].items():  # a target's pinned external values
+                i = external.index(axis)
+                values[w, i] = external.si_from_user(
+                    np.where(np.arange(external.count) == i, value, 0.0)
+                )[i]
         elif waypoint.pose is not None:
             sources.append("pose")
             T_world_tool[w] = _pose_si(waypoint.pose.position_mm, waypoint.pose.rpy_deg)
         else:
             assert waypoint.joints_deg is not None  # exactly one kind, see Waypoint
             sources.append("joints")
-            q[w] = joints_si_from_user(waypoint.joints_deg, robot.prismatic)
+            q[w] = joints_si_from_user(waypoint.joints_deg[:n], robot.prismatic)
+            if len(waypoint.joints_deg) > n:
+                values[w] = external.si_from_user(waypoint.joints_deg[n:])
     joints_given = np.array([source == "joints" for source in sources], dtype=bool)
     if np.any(joints_given):
-        T_world_tool[joints_given] = T_world_base @ fk_tool(robot, q[joints_given], T_flange_tool)
+        T_bases = external.T_world_base(values[joints_given], T_world_base)
+        T_world_tool[joints_given] = T_bases @ fk_tool(robot, q[joints_given], T_flange_tool)
     linear = np.array([wp.motion == "linear" for wp in waypoints], dtype=bool)
     return ResolvedPath(
         name=path.name,
@@ -439,6 +634,7 @@ def _resolve_path(
             dtype=np.float64,
         ),
         blend_radius=m_from_mm([wp.blend_mm for wp in waypoints]),
+        external=values,
     )
 
 
@@ -446,6 +642,7 @@ def resolve_scene(
     cell: Cell,
     cell_path: str | Path | None = None,
     *,
+    robot: Robot | None = None,
     mesh_loader: MeshFixtureLoader | None = None,
 ) -> Scene:
     """Resolve a validated cell into world-frame SI arrays.
@@ -456,6 +653,9 @@ def resolve_scene(
     cell_path : str or Path, optional
         The cell file; a relative ``robot.file`` or mesh fixture ``file`` is
         resolved against its folder.
+    robot : Robot, optional, keyword-only
+        The robot of ``cell.robot`` when the caller has it loaded already (an
+        edit that left the robot entry unchanged); loaded here otherwise.
     mesh_loader : MeshFixtureLoader, optional, keyword-only
         Reads the mesh fixtures' files and keeps them for the next call; a
         new one with the user data folder's mesh cache if omitted (only made
@@ -472,13 +672,17 @@ def resolve_scene(
         is refused, or a waypoint's joint values do not match the robot's
         number of joints.
     """
-    robot = _load_cell_robot(cell, None if cell_path is None else Path(cell_path))
+    if robot is None:
+        robot = _load_cell_robot(cell, None if cell_path is None else Path(cell_path))
     problems = _joint_count_problems(cell, robot)
     if problems:
         raise CellFileError(problems)
     base = cell.base
-    T_world_foot = _pose_si(base.position_mm, base.rpy_deg)
     pedestal_height = float(m_from_mm(base.pedestal_height_mm))
+    external = _external_axes(cell, _translation_z(pedestal_height))
+    T_world_foot = _pose_si(base.position_mm, base.rpy_deg)
+    if external.track is not None:  # the foot stands on the carriage
+        T_world_foot = external.track.T_world_carriage(external.values[0])[0] @ T_world_foot
     T_world_base = T_world_foot @ _translation_z(pedestal_height)
     if pedestal_height > 0.0 and base.pedestal_radius_mm is not None:
         pedestal = CylinderSet(
@@ -506,6 +710,10 @@ def resolve_scene(
         )
 
     T_world_fixture = _fixture_frames(cell)
+    for k, table in enumerate(external.turntables):
+        if table.fixtures:
+            turn = table.motion(external.values[external.table_offset + k])[0]
+            T_world_fixture[list(table.fixtures)] = turn @ T_world_fixture[list(table.fixtures)]
     fixture_index = {fixture.name: i for i, fixture in enumerate(cell.fixtures)}
     boxes = [(i, f) for i, f in enumerate(cell.fixtures) if isinstance(f, BoxFixture)]
     cylinders = [(i, f) for i, f in enumerate(cell.fixtures) if isinstance(f, CylinderFixture)]
@@ -514,6 +722,13 @@ def resolve_scene(
         T_world_fixture[[i for i, _ in boxes]],
         [f.size_mm for _, f in boxes],
     )
+    carriage = None if cell.track is None else _carriage_box(external, cell.track.name)
+    if carriage is not None:
+        box_set = BoxSet(
+            names=(*box_set.names, carriage[0]),
+            T_world=np.concatenate([box_set.T_world, carriage[1][None]]),
+            half_extents=np.concatenate([box_set.half_extents, carriage[2][None]]),
+        )
     cylinder_set = CylinderSet(
         names=tuple(f.name for _, f in cylinders),
         T_world=T_world_fixture[[i for i, _ in cylinders]].reshape(-1, 4, 4),
@@ -531,6 +746,13 @@ def resolve_scene(
         files=tuple(f.file for _, f in mesh_fixtures),
         colours=tuple(f.colour for _, f in mesh_fixtures),
     )
+    plates = _plate_cylinders(external, tuple(table.name for table in cell.turntables))
+    cylinder_set = CylinderSet(
+        names=(*cylinder_set.names, *plates.names),
+        T_world=np.concatenate([cylinder_set.T_world, plates.T_world]),
+        radius=np.concatenate([cylinder_set.radius, plates.radius]),
+        half_length=np.concatenate([cylinder_set.half_length, plates.half_length]),
+    )
     zones = cell.keep_outs
     keep_outs = _box_set(
         [zone.name for zone in zones],
@@ -542,7 +764,8 @@ def resolve_scene(
     )
     targets = _resolve_targets(cell, fixture_index, T_world_fixture)
     paths = tuple(
-        _resolve_path(path, robot, T_world_base, T_flange_tool, targets) for path in cell.paths
+        _resolve_path(path, robot, T_world_base, T_flange_tool, targets, external, cell.targets)
+        for path in cell.paths
     )
     return Scene(
         cell=cell,
@@ -561,4 +784,75 @@ def resolve_scene(
         floor_height=float(m_from_mm(cell.floor_height_mm)),
         targets=targets,
         paths=paths,
+        external=external,
+    )
+
+
+def _moved(
+    names: tuple[str, ...], T_world: FloatArray, moving: set[str], D: FloatArray
+) -> FloatArray:
+    rows = [i for i, name in enumerate(names) if name in moving]
+    if not rows:
+        return T_world
+    T = T_world.copy()
+    T[rows] = D @ T[rows]
+    return T
+
+
+def posed_scene(scene: Scene, values: npt.ArrayLike) -> Scene:
+    """The scene with its external axes at ``values`` (m, rad; shape (m,)).
+
+    The track moves the robot base, the pedestal and the carriage by the change
+    of position along the rail; each turntable turns its fixtures and their
+    targets by the change of angle (:func:`~posebridge.cell.external_axes.turntable_motion`).
+    Paths keep their own waypoint values (:attr:`ResolvedPath.external`).
+    A scene without external axes is returned as it is.
+    """
+    external = scene.external
+    new = np.asarray(values, dtype=np.float64).reshape(external.count)
+    if external.count == 0 or np.array_equal(new, external.values):
+        return scene
+    T_world_base = scene.T_world_base
+    pedestal = scene.pedestal
+    boxes = scene.boxes
+    cylinders = scene.cylinders
+    meshes = scene.meshes
+    targets = scene.targets
+    T_world_fixture = scene.T_world_fixture
+    if external.track is not None and new[0] != external.values[0]:
+        D = np.eye(4)
+        D[:3, 3] = (new[0] - external.values[0]) * external.track.direction
+        T_world_base = D @ T_world_base
+        pedestal = replace(pedestal, T_world=D @ pedestal.T_world)
+        carriage = {name for name in boxes.names if name == f"{external.names[0]} carriage"}
+        boxes = replace(boxes, T_world=_moved(boxes.names, boxes.T_world, carriage, D))
+    for k, table in enumerate(external.turntables):
+        axis = external.table_offset + k
+        if new[axis] == external.values[axis] or not table.fixtures:
+            continue
+        D = table.motion(new[axis] - external.values[axis])[0]
+        carried = {scene.fixture_names[i] for i in table.fixtures}
+        T_world_fixture = _moved(scene.fixture_names, T_world_fixture, carried, D)
+        boxes = replace(boxes, T_world=_moved(boxes.names, boxes.T_world, carried, D))
+        cylinders = replace(
+            cylinders, T_world=_moved(cylinders.names, cylinders.T_world, carried, D)
+        )
+        meshes = replace(meshes, T_world=_moved(meshes.names, meshes.T_world, carried, D))
+        rows = [i for i, f in enumerate(targets.fixtures) if f in carried]
+        if rows:
+            T_target = targets.T_world_target.copy()
+            T_approach = targets.T_world_approach.copy()
+            T_target[rows] = D @ T_target[rows]
+            T_approach[rows] = D @ T_approach[rows]
+            targets = replace(targets, T_world_target=T_target, T_world_approach=T_approach)
+    return replace(
+        scene,
+        T_world_base=T_world_base,
+        pedestal=pedestal,
+        boxes=boxes,
+        cylinders=cylinders,
+        meshes=meshes,
+        targets=targets,
+        T_world_fixture=T_world_fixture,
+        external=replace(external, values=new),
     )

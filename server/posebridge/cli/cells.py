@@ -11,6 +11,7 @@ from posebridge.cli.common import (
     exit_for_findings,
     joints_argument,
     load_scene,
+    parse_numbers,
     print_json,
     print_report,
 )
@@ -37,8 +38,11 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
         log_result = diagnose_log(scene, read_joint_log(args.log, robot), include_rows=args.json)
         print_report(log_result, render_log_diagnosis, as_json=args.json)
         return exit_for_findings(log_result.findings)
-    q = joints_argument(args.joints, "--joints", robot)
-    pose_result = diagnose_pose(scene, q)
+    if scene.external.count == 0:
+        pose_result = diagnose_pose(scene, joints_argument(args.joints, "--joints", robot))
+    else:  # robot joints, optionally followed by the track (mm) and turntables (deg)
+        q, external = scene.split_joints([parse_numbers(args.joints, "--joints")], where="--joints")
+        pose_result = diagnose_pose(scene, q[0], external=external[0])
     print_report(pose_result, render_pose_diagnosis, as_json=args.json)
     return exit_for_findings(pose_result.findings)
 

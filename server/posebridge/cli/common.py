@@ -7,7 +7,6 @@ Values at this boundary are millimetres and degrees (prismatic joints in mm).
 from __future__ import annotations
 
 import argparse
-import csv
 import json
 import math
 import sys
@@ -25,7 +24,6 @@ if TYPE_CHECKING:
 
     from posebridge.robot.model import Robot
 
-MAX_CSV_ROWS = 1_000_000
 
 EXIT_OK = 0
 EXIT_FINDINGS = 1
@@ -75,66 +73,32 @@ def tool_from_argument(text: str | None) -> FloatArray | None:
     return transform_from_position_rpy(m_from_mm(values[:3]), values[3:], degrees=True)
 
 
-def _is_number(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
-
-
 def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray:
-    """Rows of numbers, with an optional header naming ``columns`` in any order.
+    """Rows of numbers, with an optional header naming ``columns`` in any order, read as a
+    size-capped stream (:func:`posebridge.value_files.read_value_rows`).
 
     Returns
     -------
     values : array, shape (rows, len(columns)), in the order of ``columns``
     """
+    from posebridge.value_files import ValueFileError, read_value_rows
+
     try:
-        with open(path, newline="", encoding="utf-8") as handle:
-            rows = [row for row in csv.reader(handle) if row and any(cell.strip() for cell in row)]
-    except OSError as error:
-        raise CommandLineInputError(f"{path}: cannot read: {error.strerror or error}") from error
-    except UnicodeDecodeError as error:
-        raise CommandLineInputError(f"{path}: not UTF-8 text") from error
-    if not rows:
-        raise CommandLineInputError(f"{path}: no rows")
-    if len(rows) > MAX_CSV_ROWS:
-        raise CommandLineInputError(
-            f"{path}: {len(rows)} rows; at most {MAX_CSV_ROWS} are accepted"
-        )
-    order = list(range(len(columns)))
-    first_line = 1
-    header = [cell.strip() for cell in rows[0]]
-    if not all(_is_number(cell) for cell in header):
-        missing = [c for c in columns if c not in header]
-        if missing:
-            raise CommandLineInputError(
-                f"{path}:1: header lacks column(s) {', '.join(missing)}; expected {', '.join(columns)}"
-            )
-        order = [header.index(c) for c in columns]
-        rows = rows[1:]
-        first_line = 2
-    values = np.empty((len(rows), len(columns)))
-    width = len(header)
-    for r, row in enumerate(rows):
-        line = first_line + r
-        if len(row) != width:
-            raise CommandLineInputError(f"{path}:{line}: expected {width} values, got {len(row)}")
-        for c, source in enumerate(order):
-            cell = row[source].strip()
-            try:
-                value = float(cell)
-            except ValueError:
-                raise CommandLineInputError(
-                    f"{path}:{line}: {what} {cell!r} is not a number"
-                ) from None
-            if not math.isfinite(value):
-                raise CommandLineInputError(
-                    f"{path}:{line}: {what} {cell!r} is not a finite number"
-                )
-            values[r, c] = value
-    return values
+        return read_value_rows(path, columns, what)
+    except ValueFileError as error:
+        raise CommandLineInputError(str(error)) from error
+
+
+def load_robot_argument(args: argparse.Namespace) -> Robot:
+    """The robot named on the command line, its chain chosen and its meshes fitted."""
+    from posebridge.geometry.robot_meshes import load_robot_with_meshes
+
+    return load_robot_with_meshes(
+        args.robot,
+        from_link=args.from_link,
+        to_link=args.to_link,
+        mesh_folders=[Path(folder) for folder in args.mesh_folder],
+    )
 
 
 def load_scene(cell_argument: str) -> Any:

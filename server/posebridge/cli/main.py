@@ -28,6 +28,7 @@ SAFETY_CAUTION = (
 _COMMANDS = (
     service.add_serve,
     robots.add_robots,
+    robots.add_describe,
     robots.add_fk,
     robots.add_ik,
     cells.add_check,
@@ -35,6 +36,7 @@ _COMMANDS = (
     spaces.add_reach,
     spaces.add_jointmap,
     planning.add_paths,
+    planning.add_export,
     planning.add_plan,
     planning.add_place,
     cells.add_report,

@@ -25,7 +25,8 @@ class SharedOptions:
     """The parent parsers of the options several commands take (made by ``build``)."""
 
     robot: argparse.ArgumentParser
-    """Positional ``robot``: a bundled robot name or a .toml/.urdf path."""
+    """Positional ``robot`` (a bundled robot name or a .toml, robot overlay or .urdf path) and
+    the chain choice ``--from-link``/``--to-link`` and ``--mesh-folder`` of URDF robots."""
     cell: argparse.ArgumentParser
     """Positional ``cell``: a cell file."""
     tool: argparse.ArgumentParser
@@ -40,7 +41,25 @@ class SharedOptions:
     @classmethod
     def build(cls) -> SharedOptions:
         robot = options()
-        robot.add_argument("robot", help="bundled robot name or .toml/.urdf path")
+        robot.add_argument(
+            "robot", help="bundled robot name, .toml (or robot overlay) or .urdf path"
+        )
+        robot.add_argument(
+            "--from-link", help="URDF/overlay: link the chain starts at (default: the root link)"
+        )
+        robot.add_argument(
+            "--to-link",
+            help="URDF/overlay: link the chain ends at, e.g. tool0 (needed with several leaf "
+            "links)",
+        )
+        robot.add_argument(
+            "--mesh-folder",
+            action="append",
+            default=[],
+            metavar="FOLDER",
+            help="folder to look for mesh files in (package://NAME/... as FOLDER/NAME/...); "
+            "repeatable",
+        )
         cell = options()
         cell.add_argument("cell", help="cell file (JSON)")
         tool = options()

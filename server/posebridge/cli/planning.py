@@ -1,5 +1,6 @@
-"""Commands about motion in a cell: ``paths`` (path check), ``plan`` (joint move) and
-``place`` (base placement search)."""
+"""Commands about motion in a cell: ``paths`` (path check, fastest solution sequence),
+``export`` (timed motion as plain numbers), ``plan`` (joint move) and ``place`` (base
+placement search)."""
 
 from __future__ import annotations
 
@@ -55,23 +56,87 @@ def _parse_grid(text: str) -> dict[str, FloatArray]:
     return grid
 
 
+def _path_index(scene: Any, name: str) -> int:
+    names = [p.name for p in scene.paths]
+    if name not in names:
+        raise CommandLineInputError(
+            f"unknown path {name!r}; the cell has: {', '.join(names) or 'none'}"
+        )
+    return names.index(name)
+
+
+def _cmd_optimise(args: argparse.Namespace, scene: Any, chosen: list[int]) -> int:
+    from posebridge.planning.reports import render_sequence
+    from posebridge.planning.sequence_report import optimise_path
+
+    reports = [
+        optimise_path(
+            scene,
+            i,
+            limit_margin_deg=args.limit_margin_deg,
+            limit_margin_mm=args.limit_margin_mm,
+            resolution_mm=args.resolution_mm,
+        )
+        for i in chosen
+    ]
+    if args.json:
+        print_json([r.model_dump(mode="json") for r in reports])
+    else:
+        print("\n\n".join(render_sequence(r) for r in reports))
+    return EXIT_FINDINGS if any(not r.feasible for r in reports) else EXIT_OK
+
+
 def _cmd_paths(args: argparse.Namespace) -> int:
     from posebridge.planning.path_check import check_path
     from posebridge.planning.reports import render_path_check
 
     scene = load_scene(args.cell)
-    names = [p.name for p in scene.paths]
-    if args.path is not None and args.path not in names:
-        raise CommandLineInputError(
-            f"unknown path {args.path!r}; the cell has: {', '.join(names) or 'none'}"
-        )
-    chosen = [i for i, name in enumerate(names) if args.path in (None, name)]
+    if args.path is not None:
+        _path_index(scene, args.path)
+    chosen = [i for i, p in enumerate(scene.paths) if args.path in (None, p.name)]
+    if args.optimise:
+        return _cmd_optimise(args, scene, chosen)
     reports = [check_path(scene, i, resolution_mm=args.resolution_mm) for i in chosen]
     if args.json:
         print_json([r.model_dump(mode="json") for r in reports])
     else:
         print("\n\n".join(render_path_check(r) for r in reports))
     return EXIT_FINDINGS if any(not r.ok for r in reports) else EXIT_OK
+
+
+def _cmd_export(args: argparse.Namespace) -> int:
+    from pathlib import Path
+
+    from posebridge.planning.motion_export import export_motion, motion_csv, motion_json
+
+    output = Path(args.output)
+    kind = output.suffix.lower()
+    if kind not in (".csv", ".json"):
+        raise CommandLineInputError(
+            f"-o/--output: expected a .csv or .json file, got {args.output!r}"
+        )
+    scene = load_scene(args.cell)
+    report = export_motion(
+        scene,
+        _path_index(scene, args.path),
+        period_ms=args.period_ms,
+        cell_name=Path(args.cell).name,
+        resolution_mm=args.resolution_mm,
+    )
+    text = motion_csv(report) if kind == ".csv" else motion_json(report)
+    try:
+        output.write_text(text, encoding="utf-8")
+    except OSError as error:
+        raise CommandLineInputError(
+            f"-o/--output: cannot write {args.output!r} ({error.strerror})"
+        ) from error
+    header = report.header
+    print(
+        f"{header.rows} rows every {header.period_ms:g} ms written to {args.output} "
+        f"(path {header.path!r}, {header.cycle_time_s:.2f} s blended, "
+        f"{header.rest_to_rest_cycle_time_s:.2f} s rest to rest)"
+    )
+    return EXIT_OK
 
 
 def _cmd_plan(args: argparse.Namespace) -> int:
@@ -119,11 +184,30 @@ def _cmd_place(args: argparse.Namespace) -> int:
 
 
 def add_paths(sub: Any, shared: SharedOptions) -> None:
-    """``posebridge paths CELL [PATH] [--resolution-mm] [--json]``."""
+    """``posebridge paths CELL [PATH] [--resolution-mm] [--optimise [--limit-margin-deg]
+    [--limit-margin-mm]] [--json]``."""
     own = options()
     own.add_argument("path", nargs="?", help="one path by name (default: all)")
     own.add_argument(
         "--resolution-mm", type=float, default=5.0, help="sampling step of linear moves"
+    )
+    own.add_argument(
+        "--optimise",
+        action="store_true",
+        help="find the fastest consistent IK solution sequence (exact, dynamic programming) "
+        "and compare it with the current one",
+    )
+    own.add_argument(
+        "--limit-margin-deg",
+        type=float,
+        default=0.0,
+        help="with --optimise: joint-limit margin every configuration keeps (revolute joints)",
+    )
+    own.add_argument(
+        "--limit-margin-mm",
+        type=float,
+        default=0.0,
+        help="with --optimise: joint-limit margin of prismatic joints",
     )
     command = sub.add_parser(
         "paths",
@@ -131,6 +215,23 @@ def add_paths(sub: Any, shared: SharedOptions) -> None:
         parents=[shared.cell, own, shared.json],
     )
     command.set_defaults(run=_cmd_paths)
+
+
+def add_export(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge export CELL PATH -o FILE.csv|.json [--period-ms] [--resolution-mm]``."""
+    own = options()
+    own.add_argument("path", help="path name")
+    own.add_argument("-o", "--output", required=True, help="output .csv or .json file")
+    own.add_argument("--period-ms", type=float, default=4.0, help="row period in ms (default 4)")
+    own.add_argument(
+        "--resolution-mm", type=float, default=5.0, help="sampling step of linear moves"
+    )
+    command = sub.add_parser(
+        "export",
+        help="write a path's timed motion as plain numbers (CSV or JSON)",
+        parents=[shared.cell, own],
+    )
+    command.set_defaults(run=_cmd_export)
 
 
 def add_plan(sub: Any, shared: SharedOptions) -> None:

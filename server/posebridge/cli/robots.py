@@ -12,8 +12,10 @@ from posebridge.cli.common import (
     EXIT_OK,
     format_row,
     joints_argument,
+    load_robot_argument,
     parse_numbers,
     print_json,
+    print_report,
     read_numeric_csv,
     tool_from_argument,
 )
@@ -51,9 +53,8 @@ def _cmd_robots(args: argparse.Namespace) -> int:
 
 def _cmd_fk(args: argparse.Namespace) -> int:
     from posebridge.api.schemas.kinematics import fk_result
-    from posebridge.robot.library import load_robot
 
-    robot = load_robot(args.robot)
+    robot = load_robot_argument(args)
     if args.joints_file:
         joints_user = read_numeric_csv(args.joints_file, robot.joint_names, "joint value")
     else:
@@ -93,11 +94,10 @@ def _cmd_fk(args: argparse.Namespace) -> int:
 def _cmd_ik(args: argparse.Namespace) -> int:
     from posebridge.api.schemas.kinematics import ik_result
     from posebridge.kinematics.ik import solve_ik_all
-    from posebridge.robot.library import load_robot
     from posebridge.transforms import transform_from_position_rpy
     from posebridge.units import m_from_mm
 
-    robot = load_robot(args.robot)
+    robot = load_robot_argument(args)
     if args.poses_file:
         poses = read_numeric_csv(
             args.poses_file,
@@ -139,6 +139,25 @@ def _cmd_ik(args: argparse.Namespace) -> int:
                 f"manipulability {s.manipulability:.4g})"
             )
     return EXIT_FINDINGS if unreachable else EXIT_OK
+
+
+def _cmd_describe(args: argparse.Namespace) -> int:
+    from posebridge.api.schemas.robots import render_robot_import, robot_import_report
+
+    report = robot_import_report(load_robot_argument(args), args.robot)
+    print_report(report, render_robot_import, as_json=args.json)
+    return EXIT_OK
+
+
+def add_describe(sub: Any, shared: SharedOptions) -> None:
+    """``posebridge describe ROBOT [--from-link] [--to-link] [--mesh-folder] [--json]``."""
+    command = sub.add_parser(
+        "describe",
+        help="what an import made of a robot file: chain, joints, limits, assumed values, "
+        "meshes, capsules, notes",
+        parents=[shared.robot, shared.json],
+    )
+    command.set_defaults(run=_cmd_describe)
 
 
 def add_robots(sub: Any, shared: SharedOptions) -> None:

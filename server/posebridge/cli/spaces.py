@@ -16,6 +16,7 @@ from posebridge.cli.common import (
     finite_or_none,
     format_row,
     joints_argument,
+    load_robot_argument,
     print_json,
 )
 from posebridge.cli.options import SharedOptions, options
@@ -23,13 +24,22 @@ from posebridge.cli.options import SharedOptions, options
 
 def _cmd_reach(args: argparse.Namespace) -> int:
     from posebridge.kinematics.warm import warm_kinematics
-    from posebridge.robot.library import load_robot
+    from posebridge.spaces.planar_boundary import planar_reach_summary
     from posebridge.spaces.workspace import reach_map
     from posebridge.units import m_from_mm, mm_from_m
 
-    robot = load_robot(args.robot)
+    robot = load_robot_argument(args)
     if not 5.0 <= args.voxel_mm <= 1000.0:
         raise CommandLineInputError(f"--voxel-mm: expected 5..1000, got {args.voxel_mm:g}")
+    planar = planar_reach_summary(robot)
+    if planar is not None:
+        planar = {"robot": args.robot, **planar}
+        if args.json:
+            print_json(planar)
+        else:
+            for key, value in planar.items():
+                print(f"{key:<34} {value}")
+        return EXIT_OK
     with executor_from(args, warm_kinematics) as executor:
         result = reach_map(
             robot,

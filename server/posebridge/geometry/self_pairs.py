@@ -1,6 +1,6 @@
 """Which capsule pairs of an arm are checked against each other for self-collision.
 
-Two rules, both common practice (no source):
+Three rules, all common practice (no source):
 
 1. Only capsules on non-adjacent links are candidates: capsules on the same
    link or on links joined by one joint (link indices differing by at most 1)
@@ -10,6 +10,12 @@ Two rules, both common practice (no source):
    in-limit configurations is taken to touch by design (for example two
    capsules around a compact wrist) and is left out. A pair that is apart in
    even one sampled configuration stays in.
+3. Fixed distances: a candidate pair whose signed distance is the same (within
+   ``constant_tolerance_m``) in every sampled configuration cannot be changed
+   by any joint motion (say the base and a capsule centred on the shoulder
+   axis, turning about the base's own axis) and is left out: it would
+   otherwise be reported as the arm's smallest self-clearance in every pose,
+   hiding the clearances that motion changes.
 
 The samples are drawn uniformly in the joint-range box with a seeded
 generator, so the list is reproducible.
@@ -48,8 +54,10 @@ def self_collision_pairs(
     samples: int = 1000,
     seed: int = 0,
     contact_tolerance_m: float = 0.0,
+    constant_tolerance_m: float = 1e-6,
 ) -> IntArray:
-    """Non-adjacent capsule pairs minus the pairs in contact at every sampled configuration.
+    """Non-adjacent capsule pairs minus the pairs in contact at every sampled configuration
+    and the pairs whose distance no joint motion changes (module docstring).
 
     Parameters
     ----------
@@ -60,6 +68,8 @@ def self_collision_pairs(
         Seed of the sampler (``numpy.random.default_rng``).
     contact_tolerance_m : float, keyword-only
         Signed distance below which two capsules count as in contact, m.
+    constant_tolerance_m : float, keyword-only
+        Largest spread of a pair's sampled distances that counts as fixed, m.
 
     Returns
     -------
@@ -82,4 +92,5 @@ def self_collision_pairs(
     )
     signed = distance.reshape(samples, -1) - arm.radius[candidates].sum(axis=1)
     always_in_contact = np.all(signed < contact_tolerance_m, axis=0)
-    return candidates[~always_in_contact]
+    fixed = np.ptp(signed, axis=0) <= constant_tolerance_m
+    return candidates[~(always_in_contact | fixed)]

@@ -14,6 +14,7 @@ the rotational rows (``"orientation"``) or all six (``"full"``).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from typing import Literal
 
@@ -28,11 +29,13 @@ from posebridge.units import FloatArray
 __all__ = [
     "JacobianPart",
     "LimitMargins",
+    "characteristic_length_m",
     "inverse_condition",
     "inverse_condition_number",
     "jacobian_rows",
     "limit_margins",
     "manipulability",
+    "manipulability_scaled_full",
     "manipulability_yoshikawa",
 ]
 
@@ -106,6 +109,56 @@ def manipulability_yoshikawa(J: npt.ArrayLike) -> FloatArray:
     # where the determinant of the Gram matrix loses half the digits.
     R = np.linalg.qr(tall, mode="r")
     return np.abs(np.prod(np.diagonal(R, axis1=1, axis2=2), axis=1))
+
+
+def characteristic_length_m(robot: Robot, T_flange_tool: npt.ArrayLike | None = None) -> float:
+    """Length that makes the full Jacobian dimensionless: the sum of the distances from
+    joint to joint, then to the flange and the TCP, m (the arm's stretched length, an upper
+    bound of its reach; common practice, no source).
+
+    Parameters
+    ----------
+    robot : Robot
+    T_flange_tool : array-like, shape (4, 4), optional
+        The robot's default tool if omitted.
+    """
+    tool = robot.T_flange_tool if T_flange_tool is None else np.asarray(T_flange_tool, float)
+    steps = [origin[:3, 3] for origin in robot.origins[1:]]
+    steps += [robot.T_link_flange[:3, 3], tool[:3, 3]]
+    return float(sum(np.linalg.norm(step) for step in steps))
+
+
+def manipulability_scaled_full(J: npt.ArrayLike, length_m: float) -> FloatArray:
+    """Yoshikawa manipulability of the full (6-row) Jacobian made dimensionless.
+
+    The translational rows are divided by ``length_m`` (translational
+    velocity per characteristic length, so both row groups are rad/s per
+    joint rate), then :func:`manipulability_yoshikawa`. Unlike the measure of
+    the translational rows alone it is zero at every singularity of a
+    six-axis arm, the wrist singularity included (Yoshikawa 1985; the
+    characteristic-length scaling as in Angeles, *Fundamentals of Robotic
+    Mechanical Systems*, sec. 5.8).
+
+    Parameters
+    ----------
+    J : array-like, shape (N, 6, n)
+        Geometric Jacobians, translational rows first, SI units.
+    length_m : float
+        Characteristic length (> 0), e.g. :func:`characteristic_length_m`.
+
+    Returns
+    -------
+    w : array, shape (N,)
+        Dimensionless for revolute joints, ``>= 0``.
+    """
+    array = _check_jacobians(J)
+    if array.shape[1] != 6:
+        raise KinematicsInputError(f"J: expected 6 rows, got shape {array.shape}")
+    if not math.isfinite(length_m) or length_m <= 0.0:
+        raise KinematicsInputError(f"length_m: expected a positive length, got {length_m!r}")
+    scaled = array.copy()
+    scaled[:, :3, :] /= length_m
+    return manipulability_yoshikawa(scaled)
 
 
 def inverse_condition_number(J: npt.ArrayLike) -> FloatArray:

@@ -32,7 +32,7 @@ typically by a few tenths of a second per blended waypoint.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 import numpy.typing as npt
@@ -47,7 +47,9 @@ __all__ = [
     "BLEND_NOTE",
     "DEFAULT_LINEAR_ACCELERATION_M_S2",
     "CycleTime",
+    "ExternalAxisMotion",
     "SegmentTiming",
+    "external_axes_duration",
     "joint_move_duration",
     "joint_move_durations",
     "linear_move_timing",
@@ -294,6 +296,43 @@ def linear_move_timing(
     )
 
 
+@dataclass(frozen=True, eq=False)
+class ExternalAxisMotion:
+    """External axes along a path: values per waypoint and limits (SI).
+
+    Attributes
+    ----------
+    values : array, shape (W, m)
+        m or rad per waypoint.
+    velocity_max, acceleration_max : array, shape (m,)
+    """
+
+    values: FloatArray
+    velocity_max: FloatArray
+    acceleration_max: FloatArray
+
+
+def external_axes_duration(
+    external: ExternalAxisMotion, start: int, end: int, speed_percent: float
+) -> float:
+    """Duration of the external axes' synchronised trapezoid from waypoint ``start`` to ``end``, s.
+
+    The trapezoid of :func:`joint_move_durations` (Lynch & Park, *Modern Robotics*,
+    sec. 9.2.2.2) over the external axes only; 0 when none moves.
+    """
+    if external.values.shape[1] == 0:
+        return 0.0
+    return float(
+        joint_move_durations(
+            external.values[start][None],
+            external.values[end][None],
+            external.velocity_max,
+            external.acceleration_max,
+            speed_percent,
+        )[0]
+    )
+
+
 def path_cycle_time(
     robot: Robot,
     sampled: SampledPath,
@@ -301,8 +340,15 @@ def path_cycle_time(
     linear_acceleration_m_s2: float = DEFAULT_LINEAR_ACCELERATION_M_S2,
     joint_jerk_max: npt.ArrayLike | None = None,
     linear_jerk_m_s3: float | None = None,
+    external: ExternalAxisMotion | None = None,
 ) -> CycleTime:
     """Per-segment durations and the total of a sampled path (module docstring).
+
+    With ``external`` (a track, turntables), a joint move runs the robot joints and
+    the external axes on one synchronised trapezoid over all ``n + m`` values; a
+    linear move lasts at least as long as the external axes' own synchronised move
+    between its ends (the robot follows the line relative to the moving base: an
+    approximation, the TCP's speed relative to the world is not limited).
 
     Parameters
     ----------
@@ -315,6 +361,8 @@ def path_cycle_time(
         carry none).
     linear_jerk_m_s3 : float, optional, keyword-only
         Path jerk for double-S linear moves, m/s^3.
+    external : ExternalAxisMotion, optional, keyword-only
+        External axis values per waypoint and their limits.
 
     Returns
     -------
@@ -326,23 +374,36 @@ def path_cycle_time(
     for segment in sampled.segments:
         w = segment.index + 1
         if segment.motion == "linear":
-            timings.append(
-                linear_move_timing(
-                    robot,
-                    segment,
-                    float(path.linear_speed[w]),
-                    acceleration_m_s2=linear_acceleration_m_s2,
-                    jerk_m_s3=linear_jerk_m_s3,
-                )
+            timing = linear_move_timing(
+                robot,
+                segment,
+                float(path.linear_speed[w]),
+                acceleration_m_s2=linear_acceleration_m_s2,
+                jerk_m_s3=linear_jerk_m_s3,
             )
+            if external is not None:
+                own = external_axes_duration(external, w - 1, w, 100.0)
+                timing = replace(timing, duration=max(timing.duration, own))
+            timings.append(timing)
             continue
         percent = float(path.speed_percent[w])
         if not segment.sampled:
             timings.append(SegmentTiming(segment.index, "joint", math.nan, speed_percent=percent))
             continue
-        duration = joint_move_duration(
-            robot, segment.q[0], segment.q[-1], percent, jerk_max=joint_jerk_max
-        )
+        if external is None:
+            duration = joint_move_duration(
+                robot, segment.q[0], segment.q[-1], percent, jerk_max=joint_jerk_max
+            )
+        else:
+            duration = float(
+                joint_move_durations(
+                    np.concatenate([segment.q[0], external.values[w - 1]])[None],
+                    np.concatenate([segment.q[-1], external.values[w]])[None],
+                    np.concatenate([robot.velocity_max, external.velocity_max]),
+                    np.concatenate([robot.acceleration_max, external.acceleration_max]),
+                    percent,
+                )[0]
+            )
         timings.append(SegmentTiming(segment.index, "joint", duration, speed_percent=percent))
     total = float(sum(t.duration for t in timings))
     return CycleTime(

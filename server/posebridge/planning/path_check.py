@@ -2,7 +2,11 @@
 
 The path is sampled by :func:`posebridge.planning.path_sampling.sample_path`
 (waypoint IK choice, joint moves in joint space, linear moves with slerp and
-branch-continuous IK) and timed by :func:`posebridge.planning.cycle_time.path_cycle_time`.
+branch-continuous IK) and timed twice: rest to rest by
+:func:`posebridge.planning.cycle_time.path_cycle_time` (the upper bound) and
+blended through the waypoints by
+:func:`posebridge.planning.blended_timing.blended_cycle_time` (the realistic
+figure, per segment and in total).
 All reached samples of all segments are then checked in batches:
 
 * **reachability** of every linear-move sample (and every waypoint);
@@ -10,18 +14,26 @@ All reached samples of all segments are then checked in batches:
   linear move is an error (a joint move may change branch freely);
 * **singularity proximity**: wrist, elbow and shoulder distances of
   :func:`posebridge.kinematics.singularity.classify_singularity` below
-  their thresholds (a warning on linear moves, where the joint speeds grow
-  without bound near a singularity; information on joint moves);
+  the cell's thresholds (a warning on linear moves, where the joint speeds
+  grow without bound near a singularity, and wherever the arm stops near one,
+  at a waypoint, as the target check warns; information inside joint moves);
 * **joint-limit margins** below ``limit_margin_deg`` (``limit_margin_mm`` for
   prismatic joints) are warnings, values outside the limits errors;
 * **joint speed demand** of linear moves: where the requested TCP speed is
   above the highest speed the joint velocity limits allow (``dq/ds``,
   :func:`posebridge.planning.time_scaling.path_speed_limit`), a warning
   naming the limiting joint and that speed;
-* **clearance** of every sample to the cell
-  (:func:`posebridge.cell.clearance.clearance_to_cell`, exact capsule
-  distances, one batch for the whole path): below ``collision_threshold_mm``
-  an error naming the pair, below ``clearance_warning_mm`` a warning.
+* **clearance** of every sample to the cell and between the arm's own parts,
+  each on its own (:func:`posebridge.cell.clearance.clearance_to_cell` with
+  scope ``environment`` and ``self``, exact capsule distances, one batch each
+  for the whole path), so a close self pair never hides an obstacle: below
+  ``collision_threshold_mm`` an error naming the pair, below
+  ``clearance_mm`` a warning.
+
+The thresholds are the cell's (``Cell.thresholds``,
+:class:`~posebridge.cell.reports.QualityThresholds`), the one set every
+check of the cell uses, so a point the target check warns about is a
+warning here too.
 
 Every finding names its segment (index, from and to waypoint) and the
 stretch along it where the condition holds (consecutive samples form one
@@ -33,11 +45,14 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import numpy as np
 
 from posebridge.cell.clearance import CellClearance, clearance_to_cell
-from posebridge.cell.scene import ResolvedPath, Scene
+from posebridge.cell.quality import margin_thresholds, singularity_thresholds
+from posebridge.cell.reports import QualityThresholds
+from posebridge.cell.scene import ResolvedPath, Scene, posed_scene
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.kinematics.metrics import limit_margins
 from posebridge.kinematics.singularity import (
@@ -47,11 +62,12 @@ from posebridge.kinematics.singularity import (
 )
 from posebridge.planning.cycle_time import (
     DEFAULT_LINEAR_ACCELERATION_M_S2,
+    ExternalAxisMotion,
     SegmentTiming,
     path_cycle_time,
     path_derivative,
 )
-from posebridge.planning.errors import PlanningInputError, check_non_negative
+from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_sampling import SampledPath, SegmentSamples, sample_path
 from posebridge.planning.reports import (
     FindingKind,
@@ -70,8 +86,10 @@ from posebridge.units import (
     joints_user_from_si,
     m_from_mm,
     mm_from_m,
-    rad_from_deg,
 )
+
+if TYPE_CHECKING:
+    from posebridge.planning.blended_timing import BlendedCycleTime
 
 __all__ = ["check_path", "check_sampled_path"]
 
@@ -93,6 +111,19 @@ def _runs(mask: BoolArray) -> list[tuple[int, int]]:
 
 def _optional(value: float) -> float | None:
     return float(value) if math.isfinite(value) else None
+
+
+def _smallest(distance: FloatArray) -> float:
+    """Smallest value, NaN for none (no sample reached)."""
+    return float(distance.min()) if distance.size else math.nan
+
+
+def _closest_words(clearance: CellClearance) -> str | None:
+    """The pair at the smallest clearance as ``capsule – other``; None when none was checked."""
+    if not clearance.distance.size or not np.isfinite(clearance.distance.min()):
+        return None
+    capsule, other, _ = clearance.pair(int(np.argmin(clearance.distance)))
+    return f"{capsule} – {other}"
 
 
 class _SegmentFindings:
@@ -184,7 +215,7 @@ def _singularity_findings(
 ) -> None:
     if singular is None:
         return
-    severity: Severity = "warning" if segment.motion == "linear" else "info"
+    last = segment.q.shape[0] - 1
     kinds = (
         ("wrist", "near_wrist", "wrist_rad", True),
         ("elbow", "near_elbow", "elbow_rad", True),
@@ -198,6 +229,9 @@ def _singularity_findings(
         value[reached] = getattr(singular, field)[rows]
         for a, b in _runs(mask):
             worst = a + int(np.argmin(value[a:b]))
+            # the arm stops at a waypoint: the same level as the target check there
+            stops = a == 0 or b - 1 == last
+            severity: Severity = "warning" if segment.motion == "linear" or stops else "info"
             if angle:
                 size = float(deg_from_rad(value[worst]))
                 out.add(
@@ -323,6 +357,8 @@ def _segment_report(
     segment: SegmentSamples,
     timing: SegmentTiming,
     min_clearance: float,
+    environment_clearance: float,
+    self_clearance: float,
 ) -> SegmentReport:
     path = sampled.path
     w = segment.index + 1
@@ -365,6 +401,8 @@ def _segment_report(
         acceleration_capped=timing.acceleration_capped,
         blend_mm=float(mm_from_m(path.blend_radius[w])),
         min_clearance_mm=_optional(float(mm_from_m(min_clearance))),
+        environment_clearance_mm=_optional(float(mm_from_m(environment_clearance))),
+        self_clearance_mm=_optional(float(mm_from_m(self_clearance))),
     )
 
 
@@ -393,39 +431,42 @@ def _waypoint_findings(sampled: SampledPath) -> list[PathFinding]:
     return findings
 
 
+def _blended_timing(
+    scene: Scene, sampled: SampledPath, linear_acceleration_m_s2: float
+) -> BlendedCycleTime:
+    """:func:`~posebridge.planning.blended_timing.blended_cycle_time` of the sampled path.
+
+    Imported here, on first use: ``toppra`` imports matplotlib (about a second).
+    """
+    from posebridge.planning.blended_timing import blended_cycle_time
+
+    return blended_cycle_time(scene, sampled, linear_acceleration_m_s2=linear_acceleration_m_s2)
+
+
 def check_sampled_path(
     scene: Scene,
     sampled: SampledPath,
     *,
-    limit_margin_deg: float = 5.0,
-    limit_margin_mm: float = 10.0,
-    clearance_warning_mm: float = 20.0,
+    thresholds: QualityThresholds | None = None,
     collision_threshold_mm: float = 0.0,
-    singularity: SingularityThresholds | None = None,
     linear_acceleration_mm_s2: float = float(mm_from_m(DEFAULT_LINEAR_ACCELERATION_M_S2)),
     joint_jerk_deg_s3: list[float] | None = None,
     linear_jerk_mm_s3: float | None = None,
 ) -> PathCheckReport:
     """Check an already sampled path; parameters as :func:`check_path`."""
     robot = scene.robot
-    for name, value in (
-        ("limit_margin_deg", limit_margin_deg),
-        ("limit_margin_mm", limit_margin_mm),
-        ("clearance_warning_mm", clearance_warning_mm),
-    ):
-        check_non_negative(name, value)
+    thresholds = scene.cell.thresholds if thresholds is None else thresholds
+    clearance_warning_mm = thresholds.clearance_mm
     if not math.isfinite(collision_threshold_mm) or collision_threshold_mm > clearance_warning_mm:
         raise PlanningInputError(
-            "collision_threshold_mm: expected a finite number not above clearance_warning_mm, "
-            f"got {collision_threshold_mm!r}"
+            "collision_threshold_mm: expected a finite number not above the clearance "
+            f"threshold ({clearance_warning_mm:g} mm), got {collision_threshold_mm!r}"
         )
     limits = _Thresholds(
-        limit_margin=np.where(
-            robot.prismatic, m_from_mm(limit_margin_mm), rad_from_deg(limit_margin_deg)
-        ),
+        limit_margin=margin_thresholds(robot, thresholds),
         clearance_warning=float(m_from_mm(clearance_warning_mm)),
         collision=float(m_from_mm(collision_threshold_mm)),
-        singularity=SingularityThresholds() if singularity is None else singularity,
+        singularity=singularity_thresholds(thresholds),
     )
     timing = path_cycle_time(
         robot,
@@ -437,7 +478,17 @@ def check_sampled_path(
             else joints_si_from_user(joint_jerk_deg_s3, robot.prismatic)
         ),
         linear_jerk_m_s3=None if linear_jerk_mm_s3 is None else float(m_from_mm(linear_jerk_mm_s3)),
+        external=(
+            ExternalAxisMotion(
+                sampled.path.external,
+                scene.external.velocity_max,
+                scene.external.acceleration_max,
+            )
+            if scene.external.count and sampled.path.external.shape[1] == scene.external.count
+            else None
+        ),
     )
+    blended = _blended_timing(scene, sampled, float(m_from_mm(linear_acceleration_mm_s2)))
     reached = [segment.q[segment.reachable] for segment in sampled.segments]
     all_q = np.concatenate(reached) if reached else np.zeros((0, robot.dof))
     margins = limit_margins(robot, all_q).margin
@@ -447,9 +498,17 @@ def check_sampled_path(
             singular = classify_singularity(robot, all_q, limits.singularity)
         except KinematicsInputError:
             singular = None  # not a six- or seven-axis arm: no singularity classes
-    clearance = clearance_to_cell(scene, all_q)
+    moving = (
+        sampled.path.external
+        if scene.external.count and sampled.path.external.shape[1] == scene.external.count
+        else None
+    )
+    scene_q = all_q if moving is None else all_q[:0]
+    environment = clearance_to_cell(scene, scene_q, scope="environment")
+    own = clearance_to_cell(scene, all_q, scope="self")
     findings = _waypoint_findings(sampled)
     segments = []
+    environment_parts: list[tuple[float, CellClearance]] = []
     start = 0
     for segment, q_reached, segment_timing in zip(
         sampled.segments, reached, timing.segments, strict=True
@@ -457,16 +516,34 @@ def check_sampled_path(
         rows = slice(start, start + q_reached.shape[0])
         start = rows.stop
         out = _SegmentFindings(scene, sampled, segment)
+        segment_environment, segment_rows = environment, rows
+        if moving is not None:  # each segment in the scene at its end's external values
+            here = posed_scene(scene, moving[segment.index + 1])
+            segment_environment = clearance_to_cell(here, q_reached, scope="environment")
+            segment_rows = slice(0, q_reached.shape[0])
         if segment.sampled:
             _continuity_findings(out, segment)
             _singularity_findings(out, segment, rows, singular)
             _limit_findings(out, segment, margins[rows], limits.limit_margin)
             _speed_findings(out, segment, segment_timing)
-            _clearance_findings(out, segment, clearance, rows, limits)
+            _clearance_findings(out, segment, segment_environment, segment_rows, limits)
+            _clearance_findings(out, segment, own, rows, limits)
         findings.extend(out.findings)
-        segment_clearance = clearance.distance[rows]
-        min_clearance = float(segment_clearance.min()) if segment_clearance.size else math.nan
-        segments.append(_segment_report(scene, sampled, segment, segment_timing, min_clearance))
+        segment_environment_m = _smallest(segment_environment.distance[segment_rows])
+        segment_self_m = _smallest(own.distance[rows])
+        if segment_environment.distance[segment_rows].size:
+            environment_parts.append((segment_environment_m, segment_environment))
+        report = _segment_report(
+            scene,
+            sampled,
+            segment,
+            segment_timing,
+            float(np.fmin(segment_environment_m, segment_self_m)),
+            segment_environment_m,
+            segment_self_m,
+        )
+        report.blended_duration_s = _optional(float(blended.segment_durations[segment.index]))
+        segments.append(report)
     path = sampled.path
     errors = sum(f.severity == "error" for f in findings)
     warnings = sum(f.severity == "warning" for f in findings)
@@ -484,12 +561,18 @@ def check_sampled_path(
             ),
             branch=sampled.waypoint_branch[w],
             problem=sampled.waypoint_problem[w],
+            blended=bool(blended.blended[w]),
+            pass_distance_mm=_optional(float(mm_from_m(blended.pass_distance[w]))),
         )
         for w in range(len(names))
     ]
-    overall = float(clearance.distance.min()) if clearance.distance.size else math.nan
+    if moving is not None and environment_parts:  # the segment with the closest approach
+        environment = min(environment_parts, key=lambda part: part[0])[1]
+    environment_m = _smallest(environment.distance)
+    self_m = _smallest(own.distance)
     return PathCheckReport(
         path=path.name,
+        robot_geometry_missing=robot.geometry_missing,
         robot=robot.name,
         tool=scene.tool_name,
         joint_names=list(robot.joint_names),
@@ -505,10 +588,17 @@ def check_sampled_path(
         linear_acceleration_mm_s2=float(mm_from_m(timing.linear_acceleration)),
         jerk_limited=timing.jerk_limited,
         blend_note=timing.note,
-        min_clearance_mm=_optional(float(mm_from_m(overall))),
+        blended_cycle_time_s=_optional(blended.total),
+        blended_note=blended.note,
+        min_clearance_mm=_optional(float(mm_from_m(np.fmin(environment_m, self_m)))),
+        environment_clearance_mm=_optional(float(mm_from_m(environment_m))),
+        self_clearance_mm=_optional(float(mm_from_m(self_m))),
+        closest_environment=_closest_words(environment),
+        closest_self=_closest_words(own),
         clearance_warning_mm=float(clearance_warning_mm),
         collision_threshold_mm=float(collision_threshold_mm),
-        limit_margin_deg=float(limit_margin_deg),
+        limit_margin_deg=float(thresholds.limit_margin_deg),
+        thresholds=thresholds,
     )
 
 
@@ -519,11 +609,8 @@ def check_path(
     resolution_mm: float = 5.0,
     resolution_deg: float = 1.0,
     jump_deg: float = 10.0,
-    limit_margin_deg: float = 5.0,
-    limit_margin_mm: float = 10.0,
-    clearance_warning_mm: float = 20.0,
+    thresholds: QualityThresholds | None = None,
     collision_threshold_mm: float = 0.0,
-    singularity: SingularityThresholds | None = None,
     linear_acceleration_mm_s2: float = float(mm_from_m(DEFAULT_LINEAR_ACCELERATION_M_S2)),
     joint_jerk_deg_s3: list[float] | None = None,
     linear_jerk_mm_s3: float | None = None,
@@ -540,15 +627,13 @@ def check_path(
         largest joint travel between joint-move samples (mm for prismatic joints).
     jump_deg : float, keyword-only
         Joint step between two linear-move samples counted as a configuration jump.
-    limit_margin_deg, limit_margin_mm : float, keyword-only
-        Joint-limit margins below which a warning is given.
-    clearance_warning_mm : float, keyword-only
-        Clearance below which a warning is given (common practice, no source).
+    thresholds : QualityThresholds, optional, keyword-only
+        Limit margins, clearance and singularity distances below which a
+        finding is given; the cell's own (``scene.cell.thresholds``, the same
+        set the target check and the diagnosis use) if omitted.
     collision_threshold_mm : float, keyword-only
-        Clearance below which a sample is a collision (0: contact or penetration).
-    singularity : SingularityThresholds, optional, keyword-only
-        Distances that count as near a singularity (defaults: wrist 10 deg,
-        elbow 5 deg, shoulder 50 mm).
+        Clearance below which a sample is a collision (0: contact or penetration);
+        not above ``thresholds.clearance_mm``.
     linear_acceleration_mm_s2 : float, keyword-only
         Cartesian path acceleration of linear moves.
     joint_jerk_deg_s3 : list of float, optional, keyword-only
@@ -566,11 +651,8 @@ def check_path(
     return check_sampled_path(
         scene,
         sampled,
-        limit_margin_deg=limit_margin_deg,
-        limit_margin_mm=limit_margin_mm,
-        clearance_warning_mm=clearance_warning_mm,
+        thresholds=thresholds,
         collision_threshold_mm=collision_threshold_mm,
-        singularity=singularity,
         linear_acceleration_mm_s2=linear_acceleration_mm_s2,
         joint_jerk_deg_s3=joint_jerk_deg_s3,
         linear_jerk_mm_s3=linear_jerk_mm_s3,

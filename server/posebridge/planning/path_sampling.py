@@ -51,7 +51,7 @@ import numpy.typing as npt
 from posebridge.arrays import Int8Array
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.model import Branch
-from posebridge.cell.scene import ResolvedPath, Scene
+from posebridge.cell.scene import ResolvedPath, Scene, posed_scene
 from posebridge.geometry.clearance import collision_batch
 from posebridge.kinematics.branches import BRANCH_LABELS, label_branches, labels_match
 from posebridge.kinematics.fk import fk_tool
@@ -485,6 +485,23 @@ def _branch_words(scene: Scene, q: FloatArray) -> str:
     return ", ".join(words[i][0 if v > 0 else 1 if v < 0 else 2] for i, v in enumerate(labels))
 
 
+def _posed_waypoint(scene: Scene, path: ResolvedPath, w: int) -> tuple[Scene, FloatArray]:
+    """The scene at waypoint ``w``'s external values and its tool pose there, (4, 4).
+
+    A cell without external axes gives the scene and the resolved pose as they are.
+    A segment is sampled in the scene of its end waypoint (external axes at their
+    end values: exact when they do not move during the segment).
+    """
+    if scene.external.count == 0 or path.external.shape[1] != scene.external.count:
+        return scene, path.T_world_tool[w]
+    here = posed_scene(scene, path.external[w])
+    k = int(path.target_index[w])
+    if k < 0:
+        return here, path.T_world_tool[w]
+    table = here.targets.T_world_approach if path.approach[w] else here.targets.T_world_target
+    return here, table[k]
+
+
 def sample_path(
     scene: Scene,
     path: int | ResolvedPath,
@@ -545,12 +562,11 @@ def sample_path(
         linear = w > 0 and bool(resolved.linear[w])
         start = q_way[w - 1] if w > 0 else None
         problem = ""
+        here, goal = _posed_waypoint(scene, resolved, w)
         if resolved.joints_given[w]:
             q_way[w] = resolved.q[w]
         elif not linear:
-            q_way[w], problem = _choose_waypoint(
-                scene, solver, resolved.T_world_tool[w], previous, required
-            )
+            q_way[w], problem = _choose_waypoint(here, solver, goal, previous, required)
         if w > 0:
             assert start is not None
             motion: Motion = "linear" if linear else "joint"
@@ -560,11 +576,11 @@ def sample_path(
                     problem = "not reached: the linear move into it starts without a configuration"
             elif linear:
                 segment = _linear_segment(
-                    scene,
+                    here,
                     solver,
                     w - 1,
                     start,
-                    resolved.T_world_tool[w],
+                    goal,
                     resolution_m,
                     resolution_rad,
                     jump_limit,
@@ -585,7 +601,7 @@ def sample_path(
                     problem = f"not reached by the linear move ({segment.reason[-1]})"
             else:
                 segments.append(
-                    _joint_segment(scene, w - 1, start, q_way[w], resolution, jump_limit)
+                    _joint_segment(here, w - 1, start, q_way[w], resolution, jump_limit)
                 )
         problems.append(problem)
         if np.all(np.isfinite(q_way[w])):

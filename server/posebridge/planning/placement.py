@@ -782,6 +782,7 @@ def _report(
     current = _current_score(scene, grid, score)
     return PlacementReport(
         robot=robot.name,
+        robot_geometry_missing=robot.geometry_missing,
         targets=list(scene.targets.names),
         candidates_evaluated=grid.size,
         best=best,

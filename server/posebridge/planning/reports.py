@@ -13,6 +13,9 @@ Roles:
   its cycle time (:func:`posebridge.planning.path_check.check_path`);
 * :class:`JointPlanReport` — a collision-free joint move found by
   RRT-Connect (:func:`posebridge.planning.rrt.plan_joint_move`);
+* :class:`SequenceReport` — the fastest consistent IK solution sequence of
+  a path and the edits that make the path follow it
+  (:func:`posebridge.planning.sequence_report.optimise_path`);
 * :class:`PlacementReport` — ranked base poses and the score grid
   (:func:`posebridge.planning.placement.search_base_placement`).
 
@@ -25,9 +28,14 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from posebridge.cell.reports import QualityThresholds
+
 __all__ = [
     "FindingKind",
     "JointPlanReport",
+    "MotionExportHeader",
+    "MotionExportReport",
+    "MotionExportWaypoint",
     "PathCheckReport",
     "PathFinding",
     "PlacementCandidateReport",
@@ -35,12 +43,19 @@ __all__ = [
     "PlacementReport",
     "PlanStatus",
     "SegmentReport",
+    "SequenceCandidatesReport",
+    "SequenceChoiceReport",
+    "SequenceReport",
+    "SequenceViolation",
+    "SequenceWaypointReport",
     "Severity",
     "TargetPlacementReport",
+    "WaypointJoints",
     "WaypointReport",
     "render_joint_plan",
     "render_path_check",
     "render_placement",
+    "render_sequence",
 ]
 
 FindingKind = Literal[
@@ -119,6 +134,13 @@ class WaypointReport(_Report):
     )
     branch: str = Field(description="Shoulder, elbow and wrist in plain words; empty if none.")
     problem: str = Field(description="Why the waypoint has no usable configuration; empty if fine.")
+    blended: bool = Field(
+        default=False, description="The blended motion passes this waypoint without stopping."
+    )
+    pass_distance_mm: float | None = Field(
+        default=None,
+        description="Closest TCP distance to the waypoint in the blended motion (0 at a stop).",
+    )
 
 
 class SegmentReport(_Report):
@@ -146,9 +168,20 @@ class SegmentReport(_Report):
     acceleration_used_mm_s2: float | None = None
     acceleration_capped: bool = False
     blend_mm: float = Field(
-        description="Blend radius of the end waypoint (not applied to the time)."
+        description="Blend radius of the end waypoint (applied to blended_duration_s only)."
+    )
+    blended_duration_s: float | None = Field(
+        default=None,
+        description="Duration in the blended (continuous) motion, from blend middle to blend "
+        "middle; null if not timed. At most duration_s for a trapezoid timing.",
     )
     min_clearance_mm: float | None = Field(description="Smallest clearance over the samples.")
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance to the cell over the samples."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance between the arm's own parts."
+    )
 
 
 class PathCheckReport(_Report):
@@ -167,15 +200,166 @@ class PathCheckReport(_Report):
     segments: list[SegmentReport]
     findings: list[PathFinding]
     cycle_time_s: float | None = Field(
-        description="Sum of the segment durations; null if any is missing."
+        description="Rest-to-rest cycle time (the upper bound): sum of the segment durations; "
+        "null if any is missing."
     )
+    blended_cycle_time_s: float | None = Field(
+        default=None,
+        description="Blended (continuous, time-optimal) cycle time through the waypoints; "
+        "null if any segment cannot be timed.",
+    )
+    blended_note: str = Field(default="", description="How the blended cycle time is timed.")
     linear_acceleration_mm_s2: float
     jerk_limited: bool
     blend_note: str
     min_clearance_mm: float | None
-    clearance_warning_mm: float
+    environment_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance to the cell over every sample."
+    )
+    self_clearance_mm: float | None = Field(
+        default=None, description="Smallest clearance between the arm's own parts."
+    )
+    closest_environment: str | None = Field(
+        default=None, description="The pair at environment_clearance_mm, 'capsule – obstacle'."
+    )
+    closest_self: str | None = Field(
+        default=None, description="The pair at self_clearance_mm, 'capsule – capsule'."
+    )
+    clearance_warning_mm: float = Field(description="thresholds.clearance_mm, kept for readers.")
     collision_threshold_mm: float
+    limit_margin_deg: float = Field(description="thresholds.limit_margin_deg, kept for readers.")
+    thresholds: QualityThresholds = Field(
+        description="The cell's thresholds this check used (the same set as the target check)."
+    )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
+
+
+# --- fastest solution sequence ------------------------------------------------------------
+
+
+class SequenceViolation(_Report):
+    """A constraint a choice of configurations breaks."""
+
+    reason: str = Field(
+        description="outside_limits, limit_margin, branch, collision, unreached, branch_change, "
+        "configuration_jump, arrival_excluded or joint_speed."
+    )
+    waypoint_index: int | None = Field(description="The waypoint; null for a segment's.")
+    segment_index: int | None = Field(description="The segment; null for a waypoint's.")
+    message: str
+
+
+class SequenceWaypointReport(_Report):
+    """One waypoint's configuration in a sequence."""
+
+    index: int
+    name: str
+    joints_deg: list[float] | None = Field(description="Prismatic joints in mm; null if none.")
+    branch: str = Field(description="Shoulder, elbow and wrist in plain words; empty if none.")
+    revolutions: list[int] = Field(description="Whole extra revolutions of each joint.")
+
+
+class SequenceChoiceReport(_Report):
+    """One configuration per waypoint and its rest-to-rest timing."""
+
+    waypoints: list[SequenceWaypointReport]
+    segment_durations_s: list[float | None] = Field(
+        description="Rest-to-rest duration of each segment; null where it is not feasible."
+    )
+    cycle_time_s: float | None = Field(description="Rest to rest; null if a segment is missing.")
+    same_branch_throughout: bool
+    violations: list[SequenceViolation]
+
+
+class WaypointJoints(_Report):
+    """Joint values to write into one waypoint of a path (it becomes a joint-values waypoint)."""
+
+    index: int = Field(ge=0, description="Waypoint position in the path, from 0.")
+    joints_deg: list[float] = Field(description="Prismatic joints in mm.")
+
+
+class SequenceCandidatesReport(_Report):
+    """The candidate configurations of one waypoint and the ones left out."""
+
+    joints_deg: list[list[float]]
+    excluded: dict[str, int] = Field(description="How many IK solutions each reason removed.")
+
+
+class SequenceReport(_Report):
+    """The fastest consistent solution sequence of a path beside the cell's current choice."""
+
+    path: str
+    robot: str
+    tool: str
+    joint_names: list[str]
+    feasible: bool = Field(description="A sequence meeting every constraint exists.")
+    summary: str = Field(description="The result in words, e.g. '1.30 s faster, same branch'.")
+    best: SequenceChoiceReport | None = Field(description="The fastest sequence; null if none.")
+    current: SequenceChoiceReport = Field(description="The configurations the path uses today.")
+    saving_s: float | None = Field(
+        description="Current minus best rest-to-rest cycle time; null if either is not timed."
+    )
+    blocked_at: str | None = Field(description="First waypoint no feasible sequence reaches.")
+    chosen_indices: list[int] = Field(description="Chosen candidate per waypoint (-1: none).")
+    candidates: list[SequenceCandidatesReport]
+    edits: list[WaypointJoints] = Field(
+        description="Waypoints to give as joint values so that the path follows the best "
+        "sequence (the fewest, in path order); empty when it already does or none is feasible."
+    )
+    edges_checked: int = Field(description="Segments between candidates collision-checked.")
+    edges_total: int
     limit_margin_deg: float
+    limit_margin_mm: float
+    collision_threshold_mm: float
+    note: str
+
+
+# --- motion export -------------------------------------------------------------------------
+
+
+class MotionExportWaypoint(_Report):
+    """A waypoint's motion settings in an export header."""
+
+    name: str
+    motion: Literal["joint", "linear"] = Field(description="Motion into this waypoint.")
+    speed_percent: float | None = Field(description="Joint moves: percent of the joint limits.")
+    speed_mm_s: float | None = Field(description="Linear moves: requested TCP speed.")
+    blend_mm: float
+
+
+class MotionExportHeader(_Report):
+    """The header block of a motion export."""
+
+    cell: str
+    robot: str
+    tool: str
+    path: str
+    posebridge_version: str
+    period_ms: float
+    rows: int
+    cycle_time_s: float = Field(description="Blended cycle time of the exported motion.")
+    rest_to_rest_cycle_time_s: float = Field(description="The rest-to-rest upper bound.")
+    timing_note: str
+    joint_names: list[str]
+    joint_units: list[Literal["deg", "mm"]]
+    frame: str = Field(description="Frame and orientation convention of the TCP columns.")
+    waypoints: list[MotionExportWaypoint]
+    velocity_limits_deg_s: list[float] = Field(description="Per joint; mm/s for prismatic.")
+    acceleration_limits_deg_s2: list[float] = Field(description="Per joint; mm/s^2 for prismatic.")
+
+
+class MotionExportReport(_Report):
+    """A path's timed motion sampled at a fixed period: header, column names and rows."""
+
+    header: MotionExportHeader
+    columns: list[str] = Field(description="Column names, each with its unit where it has one.")
+    rows: list[list[float | int | str | None]] = Field(
+        description="One row per period; null where a value is missing (no clearance pair)."
+    )
 
 
 # --- joint-move planning ------------------------------------------------------------------
@@ -204,10 +388,24 @@ class JointPlanReport(_Report):
         description="Smallest clearance along the result, from an exact dense re-check."
     )
     straight_move_obstacle: str | None = Field(
-        default=None, description="What the straight joint move hits first, if it collides."
+        default=None,
+        description="What the straight joint move comes closest to inside the safety margin "
+        "(its worst point), if it collides; for a refused start or goal, what that is too close to.",
+    )
+    straight_move_worst_mm: float | None = Field(
+        default=None,
+        description="Signed clearance at that worst point (negative: penetration depth).",
+    )
+    straight_move_worst_fraction: float | None = Field(
+        default=None, description="Where the worst point is: fraction of the straight move, 0..1."
     )
     check: PathCheckReport | None = Field(
         default=None, description="The result re-checked as joint moves at 100 % speed."
+    )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
     )
 
 
@@ -267,6 +465,11 @@ class PlacementReport(_Report):
     score_note: str
     cycle_time_note: str
     current_score: float | None = Field(description="Score of the cell's current base pose.")
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 # --- text tables --------------------------------------------------------------------------
@@ -292,7 +495,14 @@ def render_path_check(report: PathCheckReport) -> str:
     lines = [
         f"Path {report.path!r} ({report.robot}, tool {report.tool}): {verdict}, "
         f"{report.errors} errors, {report.warnings} warnings",
-        f"Cycle time: {_number(report.cycle_time_s, 2)} s ({report.blend_note})",
+        f"Cycle time: {_number(report.cycle_time_s, 2)} s rest to rest (upper bound), "
+        f"{_number(report.blended_cycle_time_s, 2)} s blended",
+        f"  rest to rest: {report.blend_note}",
+        f"  {report.blended_note}",
+        f"Environment clearance: {_number(report.environment_clearance_mm)} mm"
+        + (f" ({report.closest_environment})" if report.closest_environment else ""),
+        f"Self-clearance: {_number(report.self_clearance_mm)} mm"
+        + (f" ({report.closest_self})" if report.closest_self else ""),
         "",
     ]
     rows = [
@@ -300,20 +510,37 @@ def render_path_check(report: PathCheckReport) -> str:
             str(s.index),
             s.motion,
             f"{s.from_waypoint} -> {s.to_waypoint}",
-            _number(s.length_mm) if s.motion == "linear" else _number(s.joint_travel_deg) + " deg",
-            _number(s.duration_s, 3),
             (
-                f"{_number(s.speed_used_mm_s, 0)}/{_number(s.speed_requested_mm_s, 0)}"
+                _number(s.length_mm) + " mm"
+                if s.motion == "linear"
+                else _number(s.joint_travel_deg) + " deg joint travel"
+            ),
+            _number(s.duration_s, 3),
+            _number(s.blended_duration_s, 3),
+            (
+                f"{_number(s.speed_used_mm_s, 0)}/{_number(s.speed_requested_mm_s, 0)} mm/s"
                 + (" capped" if s.speed_capped else "")
                 if s.motion == "linear"
                 else f"{_number(s.speed_percent, 0)} %"
             ),
-            _number(s.min_clearance_mm),
+            _number(s.environment_clearance_mm),
+            _number(s.self_clearance_mm),
         ]
         for s in report.segments
     ]
     lines += _table(
-        ["seg", "motion", "from -> to", "length mm", "time s", "speed mm/s", "clearance mm"], rows
+        [
+            "seg",
+            "motion",
+            "from -> to",
+            "length",
+            "time s",
+            "blended s",
+            "speed",
+            "environment clearance mm",
+            "self-clearance mm",
+        ],
+        rows,
     )
     if report.findings:
         lines += ["", "Findings:"]
@@ -324,6 +551,40 @@ def render_path_check(report: PathCheckReport) -> str:
                 else "path"
             )
             lines.append(f"  [{f.severity}] {f.kind} ({where}): {f.message}")
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
+    return "\n".join(lines)
+
+
+def render_sequence(report: SequenceReport) -> str:
+    """Plain-text summary and per-waypoint table of a solution-sequence search."""
+    lines = [f"Path {report.path!r} ({report.robot}, tool {report.tool}): {report.summary}"]
+    lines.append(
+        f"Cycle time rest to rest: current {_number(report.current.cycle_time_s, 2)} s, "
+        f"fastest {_number(report.best.cycle_time_s if report.best else None, 2)} s"
+    )
+    lines.append("")
+    rows = []
+    for w, current in enumerate(report.current.waypoints):
+        best = report.best.waypoints[w] if report.best else None
+        rows.append(
+            [
+                str(w),
+                current.name,
+                current.branch or "-",
+                best.branch if best and best.branch else "-",
+                " ".join(f"{v:.1f}" for v in best.joints_deg) if best and best.joints_deg else "-",
+                "yes" if any(e.index == w for e in report.edits) else "",
+            ]
+        )
+    lines += _table(
+        ["wp", "waypoint", "current branch", "fastest branch", "fastest joints", "rewrite"], rows
+    )
+    violations = report.current.violations
+    if violations:
+        lines += ["", "The current choice breaks:"]
+        lines += [f"  {v.message}" for v in violations]
+    lines += ["", report.note]
     return "\n".join(lines)
 
 
@@ -338,6 +599,8 @@ def render_joint_plan(report: JointPlanReport) -> str:
     if report.waypoints_deg:
         rows = [[str(i)] + [f"{v:.2f}" for v in q] for i, q in enumerate(report.waypoints_deg)]
         lines += [""] + _table(["#"] + report.joint_names, rows)
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)
 
 
@@ -381,4 +644,6 @@ def render_placement(report: PlacementReport, *, top: int = 10) -> str:
         ],
         rows,
     )
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)

@@ -52,7 +52,7 @@ from __future__ import annotations
 
 import math
 import time
-from dataclasses import replace
+from dataclasses import dataclass, replace
 
 import numpy as np
 import numpy.typing as npt
@@ -183,26 +183,39 @@ class _Checker:
         return self.checks >= self.max_checks or time.perf_counter() >= self.deadline
 
 
-def _pair_words(
-    scene: Scene, q: FloatArray, margin_m: float, self_margin_m: float
-) -> tuple[str, str]:
-    """The pair of one configuration furthest inside its margin, in words, and the other shape's name.
+@dataclass(frozen=True)
+class _WorstPair:
+    """The pair furthest inside its margin over some configurations, in words."""
 
-    Obstacle pairs are measured against ``margin_m``, self pairs against ``self_margin_m``.
+    words: str
+    other: str
+    index: int
+    distance_mm: float
+
+
+def _worst_pair(scene: Scene, q: FloatArray, margin_m: float, self_margin_m: float) -> _WorstPair:
+    """The pair furthest inside its margin over configurations ``q``, shape (K, n).
+
+    Obstacle pairs are measured against ``margin_m``, self pairs against
+    ``self_margin_m``; the configuration where the slack (clearance minus
+    margin) is smallest is reported, not the first one inside a margin, so a
+    move is described by its deepest penetration.
     """
-    environment = clearance_to_cell(scene, q[None], scope="environment")
-    own = clearance_to_cell(scene, q[None], scope="self")
-    use_self = own.distance[0] - self_margin_m < environment.distance[0] - margin_m
-    clearance = own if use_self else environment
-    capsule, other, kind = clearance.pair(0)
-    distance = float(mm_from_m(clearance.distance[0]))
+    environment = clearance_to_cell(scene, q, scope="environment")
+    own = clearance_to_cell(scene, q, scope="self")
+    slack_self = own.distance - self_margin_m
+    slack_environment = environment.distance - margin_m
+    k = int(np.argmin(np.minimum(slack_self, slack_environment)))
+    clearance = own if slack_self[k] < slack_environment[k] else environment
+    capsule, other, kind = clearance.pair(k)
+    distance = float(mm_from_m(clearance.distance[k]))
     what = f"the arm's own {other}" if kind == "self" else f"{kind} {other!r}"
     state = (
         f"hits {what} ({-distance:.1f} mm deep)"
         if distance < 0
         else f"is {distance:.1f} mm from {what}"
     )
-    return f"{capsule} {state}", other
+    return _WorstPair(f"{capsule} {state}", other, k, distance)
 
 
 def _joint_path(scene: Scene, q: FloatArray, name: str) -> ResolvedPath:
@@ -375,7 +388,11 @@ def plan_joint_move(
     )
 
     def report(
-        status: PlanStatus, message: str, waypoints: list[FloatArray], obstacle: str | None = None
+        status: PlanStatus,
+        message: str,
+        waypoints: list[FloatArray],
+        worst: _WorstPair | None = None,
+        fraction: float | None = None,
     ) -> JointPlanReport:
         elapsed = time.perf_counter() - t0
         min_clearance = None
@@ -406,8 +423,11 @@ def plan_joint_move(
             safety_margin_mm=float(safety_margin_mm),
             motion_step_mm=float(step_mm),
             min_clearance_mm=min_clearance,
-            straight_move_obstacle=obstacle,
+            straight_move_obstacle=None if worst is None else worst.other,
+            straight_move_worst_mm=None if worst is None else worst.distance_mm,
+            straight_move_worst_fraction=fraction,
             check=check,
+            robot_geometry_missing=robot.geometry_missing,
         )
 
     for name, q in (("start", start), ("goal", goal)):
@@ -417,35 +437,38 @@ def plan_joint_move(
             return report("outside_limits", f"{name} is outside the joint limits of {joints}", [])
     for name, q in (("start", start), ("goal", goal)):
         if not checker.free(q[None]):
-            words, other = _pair_words(scene, q, margin, checker.self_margin)
+            pair = _worst_pair(scene, q[None], margin, checker.self_margin)
             status: PlanStatus = "start_in_collision" if name == "start" else "goal_in_collision"
             return report(
                 status,
                 f"refused: the {name} configuration is closer than the safety margin "
-                f"({safety_margin_mm:g} mm, {self_margin_mm:g} mm between arm parts): {words}",
+                f"({safety_margin_mm:g} mm, {self_margin_mm:g} mm between arm parts): "
+                f"{pair.words}",
                 [],
-                other,
+                pair,
             )
     straight = edge_configurations(start, goal, levers, checker.step)
     hits = checker.colliding(straight[1:])
     if not np.any(hits):
         return report("direct", "the straight joint move is collision-free", [start, goal])
-    words, obstacle = _pair_words(
-        scene, straight[1 + int(np.argmax(hits))], margin, checker.self_margin
-    )
+    worst = _worst_pair(scene, straight[1:], margin, checker.self_margin)
+    fraction = (worst.index + 1) / (straight.shape[0] - 1)
+    words = f"{worst.words} at {100 * fraction:.0f} % of the move"
     waypoints = _solve(checker, robot.lower, robot.upper, start, goal, seed)
     if waypoints is None:
         return report(
             "timeout",
             f"no path found within the time limit ({time_limit_s:g} s) and check budget "
-            f"({max_checks} checks); the straight move fails where {words}",
+            f"({max_checks} checks); the straight move is worst where {words}",
             [],
-            obstacle,
+            worst,
+            fraction,
         )
     return report(
         "solved",
         f"{len(waypoints) - 2} intermediate waypoints avoid the collision of the straight move "
-        f"({words})",
+        f"(worst: {words})",
         waypoints,
-        obstacle,
+        worst,
+        fraction,
     )

@@ -33,6 +33,8 @@ from posebridge.geometry.mesh_display import (
     decimate_for_display,
     split_triangle_budget,
 )
+from posebridge.geometry.mesh_cache import MeshCache
+from posebridge.geometry.robot_meshes import robot_display_meshes
 from posebridge.kinematics.fk import fk_frames
 from posebridge.palette import PALETTE, region_colour, rgba
 from posebridge.spaces.joint_map import JointMap
@@ -289,7 +291,8 @@ def scene_meshes(scene: Scene, q: npt.ArrayLike) -> list[Mesh]:
     list of Mesh
         Box, cylinder and mesh fixtures (meshes decimated to
         :data:`REPORT_MESH_TRIANGLES`), keep-out zones, the pedestal, the arm's
-        capsules, then the tool's capsules.
+        link meshes (decimated visual meshes; its capsules for a robot without
+        mesh files), then the tool's capsules.
     """
     frames = (
         scene.T_world_base
@@ -299,7 +302,13 @@ def scene_meshes(scene: Scene, q: npt.ArrayLike) -> list[Mesh]:
     meshes += _fixture_meshes(scene)
     meshes += _box_meshes(scene.keep_outs, "keep-out")
     meshes += _cylinder_meshes(scene.pedestal, "pedestal")
-    for capsule in scene.robot.capsules:
+    drawings = robot_display_meshes(
+        scene.robot, cache=MeshCache.default() if scene.robot.meshes else None
+    )
+    for drawing in drawings:  # the robot as itself: its link meshes
+        vertices = transform_points(frames[drawing.link], m_from_mm(drawing.mesh.vertices_mm))
+        meshes.append(Mesh(drawing.source_link, "robot", vertices, drawing.mesh.faces))
+    for capsule in () if drawings else scene.robot.capsules:
         ends = transform_points(frames[capsule.link], np.stack([capsule.start, capsule.end]))
         meshes.append(Mesh(capsule.name, "robot", *capsule_mesh(ends[0], ends[1], capsule.radius)))
     flange = frames[scene.robot.dof + 1]

@@ -297,7 +297,11 @@ def _path_item(report: PathCheckReport) -> dict[str, Any]:
     verdict = "no errors" if report.ok else f"{report.errors} errors"
     return {
         "name": report.path,
-        "total": f"{_number(report.cycle_time_s, 3, 's')} ({verdict}, {report.warnings} warnings)",
+        "total": (
+            f"{_number(report.cycle_time_s, 3, 's')} rest to rest, "
+            f"{_number(report.blended_cycle_time_s, 3, 's')} blended "
+            f"({verdict}, {report.warnings} warnings)"
+        ),
         "segments": [
             {
                 "number": segment.index + 1,
@@ -306,6 +310,7 @@ def _path_item(report: PathCheckReport) -> dict[str, Any]:
                 "motion": f"{segment.motion} move",
                 "speed": _speed_words(segment),
                 "duration": _number(segment.duration_s, 3, "s"),
+                "blended": _number(segment.blended_duration_s, 3, "s"),
                 "limit": _limit_words(segment),
             }
             for segment in report.segments
@@ -327,7 +332,12 @@ def _path_item(report: PathCheckReport) -> dict[str, Any]:
 
 
 def _paths_section(reports: list[PathCheckReport]) -> dict[str, Any]:
-    note = f"Cycle times: {reports[0].blend_note}." if reports else ""
+    note = (
+        f"Rest-to-rest cycle times: {reports[0].blend_note}. Blended cycle times: "
+        f"{reports[0].blended_note.removeprefix('blended: ')}."
+        if reports
+        else ""
+    )
     return {"note": note, "entries": [_path_item(report) for report in reports]}
 
 

@@ -16,6 +16,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import cached_property
+from pathlib import Path
 from typing import Literal
 
 import numpy as np
@@ -23,8 +24,27 @@ import numpy as np
 from posebridge.units import BoolArray, FloatArray
 
 JointKind = Literal["revolute", "prismatic"]
+MeshRole = Literal["visual", "collision"]
 
-__all__ = ["Capsule", "Joint", "JointKind", "Robot"]
+__all__ = [
+    "GEOMETRY_MISSING",
+    "Capsule",
+    "Joint",
+    "JointKind",
+    "LinkFit",
+    "LinkMesh",
+    "MeshRole",
+    "Robot",
+]
+
+
+GEOMETRY_MISSING = (
+    "ROBOT GEOMETRY IS MISSING: the robot has no collision capsules (no meshes found, no shapes "
+    "given), so it is treated as a line that collides with nothing and every clearance, map, "
+    "path check, plan and placement below says nothing about collisions; give the mesh folders "
+    "or capsules (robot overlay) and check again"
+)
+"""The one warning every clearance answer carries for a robot without geometry."""
 
 
 @dataclass(frozen=True, eq=False)
@@ -48,6 +68,8 @@ class Joint:
         rad/s^2 or m/s^2.
     continuous : bool
         A revolute joint without position limits.
+    jerk_max : float or None
+        rad/s^3 or m/s^3 where the description gives one (robot overlays).
     """
 
     name: str
@@ -59,6 +81,7 @@ class Joint:
     velocity_max: float
     acceleration_max: float
     continuous: bool = False
+    jerk_max: float | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -74,6 +97,8 @@ class Capsule:
         Segment end points in the link frame, m.
     radius : float
         m.
+    source_link : str
+        The description link it belongs to, where known (URDF imports), else ``""``.
     """
 
     name: str
@@ -81,6 +106,66 @@ class Capsule:
     start: FloatArray
     end: FloatArray
     radius: float
+    source_link: str = ""
+
+
+@dataclass(frozen=True, eq=False)
+class LinkMesh:
+    """A mesh file of the description, fixed to one link (drawn, or collided through capsules).
+
+    Attributes
+    ----------
+    source_link : str
+        The description's link name (a URDF link; several may share one internal link).
+    link : int
+        Internal link index (0 base, ``i`` moved by joint ``i``).
+    role : "visual" or "collision"
+    filename : str
+        The reference as written (``package://pkg/meshes/a.stl``, ``meshes/a.dae``).
+    path : Path or None
+        The file it resolved to; ``None`` when it was not found (see :attr:`Robot.notes`).
+    scale : array, shape (3,)
+        Per-axis ``<mesh scale>``.
+    T_link_mesh : array, shape (4, 4)
+        Pose of the mesh frame in the internal link frame (translation m).
+    """
+
+    source_link: str
+    link: int
+    role: MeshRole
+    filename: str
+    path: Path | None
+    scale: FloatArray
+    T_link_mesh: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class LinkFit:
+    """Capsules fitted to one description link's meshes (filled by the mesh layer).
+
+    Attributes
+    ----------
+    source_link : str
+    link : int
+        Internal link index the capsules are on.
+    role : "visual" or "collision"
+        Which meshes were fitted (collision meshes, else visual ones).
+    meshes : tuple of str
+        The files fitted (as written in the description).
+    capsule_names : tuple of str
+    capsule_volume_m3, hull_volume_m3 : float
+    excess : float or None
+        Capsule volume over the convex-hull volume of the vertices; ``None`` for a flat link.
+    """
+
+    source_link: str
+    link: int
+    role: MeshRole
+    meshes: tuple[str, ...]
+    capsule_names: tuple[str, ...]
+    capsule_volume_m3: float
+    hull_volume_m3: float
+    excess: float | None
 
 
 @dataclass(frozen=True, eq=False)
@@ -104,9 +189,26 @@ class Robot:
     source : str
         File the robot was loaded from, or ``""``.
     notes : tuple of str
-        Non-fatal remarks from loading (e.g. ignored mesh references).
+        Non-fatal remarks from loading (e.g. mesh files not found, joints held at zero).
     home : array, shape (n,), optional
         The description's home configuration (rad, m); see :meth:`home_configuration`.
+    from_link, to_link : str
+        The chosen chain ends of a URDF (``""`` for other descriptions).
+    held_joints : tuple of str
+        Joints off the chosen chain (or mimic joints on it) held at zero.
+    meshes : tuple of LinkMesh
+        Mesh files referenced by the description, resolved or not.
+    link_fits : tuple of LinkFit
+        Capsules fitted to meshes (empty until the mesh layer has fitted them).
+    link_poses : dict of str to (int, array of shape (4, 4))
+        Every description link of a URDF import: internal link index and its
+        pose in that link frame (joints off the chain at zero).
+    replaced_links : tuple of str
+        Links whose imported capsules a robot overlay replaced (their meshes are not fitted).
+    removed_capsules : tuple of str
+        Capsules an overlay removes once meshes are fitted (then empty).
+    leaf_links : tuple of str
+        URDF: the leaf links below ``from_link`` (the ``to_link`` choices a page offers).
     """
 
     name: str
@@ -119,6 +221,25 @@ class Robot:
     source: str = ""
     notes: tuple[str, ...] = field(default=())
     home: FloatArray | None = None
+    from_link: str = ""
+    to_link: str = ""
+    held_joints: tuple[str, ...] = ()
+    meshes: tuple[LinkMesh, ...] = ()
+    link_fits: tuple[LinkFit, ...] = ()
+    link_poses: dict[str, tuple[int, FloatArray]] = field(default_factory=dict)
+    replaced_links: tuple[str, ...] = ()
+    removed_capsules: tuple[str, ...] = ()
+    leaf_links: tuple[str, ...] = ()
+
+    @property
+    def has_geometry(self) -> bool:
+        """Whether any link carries collision geometry (a capsule); else clearance means nothing."""
+        return bool(self.capsules)
+
+    @property
+    def geometry_missing(self) -> str | None:
+        """:data:`GEOMETRY_MISSING` for a robot without geometry, else ``None``."""
+        return None if self.has_geometry else GEOMETRY_MISSING
 
     @property
     def dof(self) -> int:

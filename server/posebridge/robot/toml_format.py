@@ -475,6 +475,12 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
                 key="name",
             )
     flange = _pose(problems, data.get("flange", {}), "flange", _ORIGIN_KEYS, block="flange")
+    notes: tuple[str, ...] = ()
+    if "flange" not in data:
+        notes = (
+            "no [flange] table: the flange is taken at the last joint's frame with no offset, "
+            "so any link length after the last joint is not counted",
+        )
     tool = _pose(problems, data.get("tool", {}), "tool", _TOOL_KEYS, block="tool")
     link_index = {"base": 0} | {
         str(joint_name): i + 1
@@ -545,6 +551,7 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
         description=str(meta.get("description", "")),
         source=path,
         home=home,
+        notes=notes,
     )
 
 

@@ -5,7 +5,9 @@ chain from ``from_link`` to ``to_link`` of the URDF tree:
 
 * Defaults: ``from_link`` is the root link, ``to_link`` the single leaf below
   it; with several leaves the caller must name one (the error lists the
-  candidates).
+  candidates and names the options: ``--to-link``, ``to_link`` of a cell's
+  robot entry or of a robot overlay). Fixed frames after the last moving
+  joint (a ``tool0`` or TCP frame) are valid ``to_link`` choices.
 * ``revolute`` and ``prismatic`` joints need ``<limit lower upper velocity>``
   (``lower``/``upper`` default to 0 as in the specification, so a joint
   without them is refused as locked); ``effort`` is not used and not
@@ -18,22 +20,28 @@ chain from ``from_link`` to ``to_link`` of the URDF tree:
   the last moving joint into the flange. The robot base frame is the
   ``from_link`` frame, the flange the ``to_link`` frame, the default tool the
   identity.
+* Joints off the chosen chain (gripper fingers, a hand's mimic joints) and
+  mimic joints on it are **held at zero**: their links ride rigidly on the
+  chain link above them, with their geometry, and the notes list them.
 * ``<origin rpy>`` is roll about fixed X, then pitch about fixed Y, then yaw
   about fixed Z, ``R = Rz(y) Ry(p) Rx(r)``. ``<axis>`` defaults to (1, 0, 0).
   The specification says the axis "should be normalized" without saying what
   a reader does otherwise; like pinocchio's reader we normalise a non-unit
   axis (and add a note); a zero axis is refused.
-* Refused with :class:`RobotDescriptionError` naming the joint: ``mimic``,
-  ``floating`` and ``planar`` joints on the chain, a link with two parent
-  joints (closed loop), joints that form a cycle, several root links.
-  Such joints off the chain are ignored and reported in the notes.
-* Collision geometry of the chain's links becomes :class:`Capsule` objects
-  where it maps: ``<sphere>`` exactly (zero-length capsule), ``<capsule radius
+* Refused with :class:`RobotDescriptionError` naming the joint: ``floating``
+  and ``planar`` joints on the chain, a link with two parent joints (closed
+  loop), joints that form a cycle, several root links.
+* Collision shapes of every link below ``from_link`` become :class:`Capsule`
+  objects: ``<sphere>`` exactly (zero-length capsule), ``<capsule radius
   length>`` exactly (length of the cylindrical part, the common extension),
   ``<cylinder>`` approximately (a capsule with the same radius and segment
-  length, i.e. half-spheres added at both ends). Boxes and meshes are
-  ignored; mesh references (``package://`` or files) are listed in the
-  notes, never opened.
+  length, i.e. half-spheres added at both ends), ``<box>`` enclosed (segment
+  over the longest side, radius half the diagonal of the other two).
+  ``<mesh filename scale>`` references (collision and visual) become
+  :class:`LinkMesh` records, resolved to files by
+  :mod:`posebridge.robot.mesh_paths` but not read: the mesh layer
+  (:mod:`posebridge.geometry.robot_meshes`) reads them and fits capsules. A
+  reference that resolves to no file is a note naming it.
 * The XML is read with defusedxml (no DTD, no entity expansion, no external
   references), at most :data:`MAX_URDF_BYTES` and :data:`MAX_URDF_ELEMENTS`
   elements (counted while parsing, so a huge document is refused before a
@@ -53,6 +61,7 @@ import math
 import xml.sax
 import xml.sax.handler
 import xml.sax.xmlreader
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from xml.sax.saxutils import quoteattr
@@ -62,7 +71,8 @@ import defusedxml.sax
 import numpy as np
 
 from posebridge.robot.errors import RobotDescriptionError
-from posebridge.robot.model import Capsule, Joint, JointKind, Robot
+from posebridge.robot.mesh_paths import resolve_mesh_path
+from posebridge.robot.model import Capsule, Joint, JointKind, LinkMesh, Robot
 from posebridge.transforms import (
     rotation_matrix_about_axis,
     rpy_from_rotation_matrix,
@@ -211,19 +221,25 @@ class _Problems:
 
 
 @dataclass
-class _CollisionSpec:
+class _GeometrySpec:
+    """One ``<collision>`` or ``<visual>`` element (SI; only the fields of its shape are set)."""
+
     name: str
     kind: str
     origin: FloatArray
-    radius: float
-    length: float
+    radius: float = 0.0
+    length: float = 0.0
+    size: FloatArray = field(default_factory=lambda: np.zeros(3))
+    filename: str = ""
+    scale: FloatArray = field(default_factory=lambda: np.ones(3))
 
 
 @dataclass
 class _LinkSpec:
     name: str
     line: int
-    collisions: list[_CollisionSpec]
+    collisions: list[_GeometrySpec]
+    visuals: list[_GeometrySpec]
 
 
 @dataclass
@@ -277,40 +293,65 @@ def _parse_origin(problems: _Problems, parent: _Element, where: str) -> FloatArr
     return transform_from_position_rpy(xyz, rpy)
 
 
-def _parse_collision(
+def _positive(
+    problems: _Problems, shape: _Element, key: str, where: str, *, zero: bool
+) -> float | None:
+    number = _numbers(problems, shape.attrib.get(key), 1, shape.line, f"{where}.{shape.tag}.{key}")
+    if number is None:
+        return None
+    if number[0] < 0.0 or (number[0] == 0.0 and not zero):
+        bound = ">= 0" if zero else "> 0"
+        problems.add(
+            shape.line, f"{where}.{shape.tag}.{key}", f"must be {bound}, got {number[0]:g}"
+        )
+        return None
+    return number[0]
+
+
+def _parse_geometry(
     problems: _Problems, element: _Element, link: str, index: int, count: int
-) -> _CollisionSpec | None:
+) -> _GeometrySpec | None:
+    """A ``<collision>``/``<visual>``: capsule-like shapes, boxes and mesh references."""
     default_name = link if count == 1 else f"{link}_{index + 1}"
     name = element.attrib.get("name") or default_name
-    where = f"link[{link}].collision[{index}]"
+    where = f"link[{link}].{element.tag}[{index}]"
     origin = _parse_origin(problems, element, where)
     geometry = element.find("geometry")
     shape = geometry.children[0] if geometry is not None and geometry.children else None
     if shape is None:
         problems.add(element.line, f"{where}.geometry", "missing geometry")
         return None
-    radius = length = 0.0
+    spec = _GeometrySpec(name, shape.tag, origin)
     if shape.tag in ("cylinder", "capsule", "sphere"):
-        number = _numbers(
-            problems, shape.attrib.get("radius"), 1, shape.line, f"{where}.{shape.tag}.radius"
-        )
-        if number is None:
+        radius = _positive(problems, shape, "radius", where, zero=False)
+        if radius is None:
             return None
-        radius = number[0]
-        if radius <= 0.0:
-            problems.add(shape.line, f"{where}.{shape.tag}.radius", f"must be > 0, got {radius:g}")
-            return None
+        spec.radius = radius
     if shape.tag in ("cylinder", "capsule"):
-        number = _numbers(
-            problems, shape.attrib.get("length"), 1, shape.line, f"{where}.{shape.tag}.length"
+        length = _positive(problems, shape, "length", where, zero=True)
+        if length is None:
+            return None
+        spec.length = length
+    if shape.tag == "box":
+        size = _numbers(problems, shape.attrib.get("size"), 3, shape.line, f"{where}.box.size")
+        if size is None:
+            return None
+        spec.size = np.abs(np.array(size))
+    if shape.tag == "mesh":
+        spec.filename = shape.attrib.get("filename", "").strip()
+        if not spec.filename:
+            problems.add(shape.line, f"{where}.mesh.filename", "missing file name")
+            return None
+        scale = _numbers(
+            problems, shape.attrib.get("scale", "1 1 1"), 3, shape.line, f"{where}.mesh.scale"
         )
-        if number is None:
+        if scale is None:
             return None
-        length = number[0]
-        if length < 0.0:
-            problems.add(shape.line, f"{where}.{shape.tag}.length", f"must be >= 0, got {length:g}")
+        if any(value == 0.0 for value in scale):
+            problems.add(shape.line, f"{where}.mesh.scale", f"must not be zero, got {scale}")
             return None
-    return _CollisionSpec(name, shape.tag, origin, radius, length)
+        spec.scale = np.array(scale)
+    return spec
 
 
 def _parse_link(problems: _Problems, element: _Element) -> _LinkSpec | None:
@@ -318,9 +359,12 @@ def _parse_link(problems: _Problems, element: _Element) -> _LinkSpec | None:
     if not name:
         problems.add(element.line, "link", "missing name attribute")
         return None
-    raw = element.findall("collision")
-    collisions = [_parse_collision(problems, c, name, i, len(raw)) for i, c in enumerate(raw)]
-    return _LinkSpec(name, element.line, [c for c in collisions if c is not None])
+    found: dict[str, list[_GeometrySpec]] = {}
+    for tag in ("collision", "visual"):
+        raw = element.findall(tag)
+        specs = [_parse_geometry(problems, c, name, i, len(raw)) for i, c in enumerate(raw)]
+        found[tag] = [c for c in specs if c is not None]
+    return _LinkSpec(name, element.line, found["collision"], found["visual"])
 
 
 def _parse_limit(
@@ -505,7 +549,8 @@ def _select_chain(
             problems.add(
                 0,
                 "to_link",
-                f"from_link {base!r} {reason}; choose the to_link"
+                f"from_link {base!r} {reason}; choose the to_link (--to-link on the command "
+                "line, to_link in a cell's robot entry or a robot overlay)"
                 + (f" among: {_listed(sorted(leaves))}" if leaves else ""),
             )
             raise RobotDescriptionError(problems.items)
@@ -525,23 +570,118 @@ def _select_chain(
     return base, tip, chain
 
 
+def _capsule_of_box(spec: _GeometrySpec) -> tuple[FloatArray, FloatArray, float]:
+    """A capsule holding a box: segment over the longest side, radius half the other sides' diagonal.
+
+    Every corner lies on the capsule's surface or inside it (closed form), so the
+    convex box does too. Returns start, end (in the geometry frame, m) and radius.
+    """
+    longest = int(np.argmax(spec.size))
+    others = [k for k in range(3) if k != longest]
+    half = np.zeros(3)
+    half[longest] = 0.5 * spec.size[longest]
+    return -half, half, 0.5 * float(np.hypot(spec.size[others[0]], spec.size[others[1]]))
+
+
 def _capsules_of_link(
     link: _LinkSpec, index: int, T_internal_link: FloatArray, notes: dict[str, list[str]]
 ) -> list[Capsule]:
-    """Capsules of one URDF link's collisions, in internal link frame ``index``."""
+    """Capsules of one URDF link's collision shapes, in internal link frame ``index``."""
     capsules = []
     for collision in link.collisions:
-        if collision.kind not in ("cylinder", "capsule", "sphere"):
+        if collision.kind == "mesh":
+            continue  # fitted by the mesh layer from LinkMesh records
+        if collision.kind not in ("cylinder", "capsule", "sphere", "box"):
             notes["ignored_geometry"].append(f"{collision.kind} on {link.name}")
             continue
-        if collision.kind == "cylinder":
-            notes["cylinders"].append(link.name)
+        if collision.kind in ("cylinder", "box"):
+            notes[collision.kind].append(link.name)
         T = T_internal_link @ collision.origin
-        half = np.array([0.0, 0.0, 0.5 * collision.length])
-        start = T[:3, :3] @ -half + T[:3, 3]
-        end = T[:3, :3] @ half + T[:3, 3]
-        capsules.append(Capsule(collision.name, index, start, end, collision.radius))
+        if collision.kind == "box":
+            start, end, radius = _capsule_of_box(collision)
+        else:
+            end = np.array([0.0, 0.0, 0.5 * collision.length])
+            start, radius = -end, collision.radius
+        capsules.append(
+            Capsule(
+                collision.name,
+                index,
+                T[:3, :3] @ start + T[:3, 3],
+                T[:3, :3] @ end + T[:3, 3],
+                radius,
+                source_link=link.name,
+            )
+        )
     return capsules
+
+
+def _meshes_of_link(
+    link: _LinkSpec,
+    index: int,
+    T_internal_link: FloatArray,
+    base_folder: Path | None,
+    mesh_folders: Sequence[Path],
+    missing: list[str],
+) -> list[LinkMesh]:
+    """Mesh references of one URDF link (visual and collision), resolved to files where found."""
+    found = []
+    for role, specs in (("collision", link.collisions), ("visual", link.visuals)):
+        for spec in specs:
+            if spec.kind != "mesh":
+                continue
+            path, tried = resolve_mesh_path(spec.filename, base_folder, mesh_folders)
+            if path is None:
+                places = ", ".join(str(t) for t in tried[:4]) or "no folder to look in"
+                missing.append(f"{spec.filename} ({role} of {link.name}; tried {places})")
+            found.append(
+                LinkMesh(
+                    source_link=link.name,
+                    link=index,
+                    role="collision" if role == "collision" else "visual",
+                    filename=spec.filename,
+                    path=path,
+                    scale=spec.scale,
+                    T_link_mesh=T_internal_link @ spec.origin,
+                )
+            )
+    return found
+
+
+def _attached_links(
+    base: str, chain: list[_JointSpec], joints: list[_JointSpec]
+) -> tuple[dict[str, tuple[int, FloatArray]], list[_JointSpec]]:
+    """Every link below ``base`` with its internal link index and pose in that link frame.
+
+    Chain links follow the chain (fixed joints merged); links off the chain hang
+    from the chain link above them with their joints held at zero (the joint
+    frame then equals its origin). Also returns the held joints (off the chain,
+    and mimic joints on it, which are merged like fixed joints).
+    """
+    placed: dict[str, tuple[int, FloatArray]] = {base: (0, np.eye(4))}
+    index = 0
+    for joint in chain:
+        if joint.kind in _MOVING_TYPES and not joint.has_mimic:
+            index += 1
+            placed[joint.child] = (index, np.eye(4))
+        else:
+            placed[joint.child] = (index, placed[joint.parent][1] @ joint.origin)
+    on_chain = {joint.name for joint in chain}
+    held = [j for j in chain if j.has_mimic and j.kind in _MOVING_TYPES]
+    children: dict[str, list[_JointSpec]] = {}
+    for joint in joints:
+        children.setdefault(joint.parent, []).append(joint)
+    stack = list(placed)
+    while stack:
+        link = stack.pop()
+        for joint in children.get(link, []):
+            if joint.name in on_chain or joint.child in placed:
+                continue
+            if joint.kind != "fixed":
+                held.append(joint)
+            link_index, T = placed[link]
+            placed[joint.child] = (link_index, T @ joint.origin)
+            stack.append(joint.child)
+    return placed, held
 
 
 def parse_robot_urdf(
@@ -551,6 +691,7 @@ def parse_robot_urdf(
     to_link: str | None = None,
     *,
     kind: str = "urdf",
+    mesh_folders: Sequence[Path] = (),
 ) -> Robot:
     """Build a :class:`Robot` from URDF text: the serial chain from ``from_link`` to ``to_link``.
 
@@ -564,12 +705,15 @@ def parse_robot_urdf(
         Chain ends; default the root link and the single leaf below ``from_link``.
     kind : str, keyword-only
         Family label stored as :attr:`Robot.kind`.
+    mesh_folders : sequence of Path, keyword-only
+        Folders to look for mesh files in (:mod:`posebridge.robot.mesh_paths`).
 
     Returns
     -------
     Robot
         Joints in chain order, flange = ``to_link`` frame, tool = identity,
-        remarks in :attr:`Robot.notes`.
+        mesh references in :attr:`Robot.meshes` (not read here), remarks in
+        :attr:`Robot.notes`.
 
     Raises
     ------
@@ -625,18 +769,13 @@ def parse_robot_urdf(
 
     base, tip, chain = _select_chain(problems, links, joints, from_link, to_link)
     for joint in chain:
-        where = f"joint[{joint.name}]"
         if joint.kind in ("floating", "planar"):
             problems.add(
                 joint.line,
-                f"{where}.type",
+                f"joint[{joint.name}].type",
                 f"{joint.kind} joints are not supported in a serial arm chain",
             )
-        if joint.has_mimic:
-            problems.add(
-                joint.line, f"{where}.mimic", "mimic joints are not supported in the chain"
-            )
-    moving = [joint for joint in chain if joint.kind in _MOVING_TYPES]
+    moving = [joint for joint in chain if joint.kind in _MOVING_TYPES and not joint.has_mimic]
     if not moving and not problems.items:
         problems.add(0, "robot", f"no moving joint between from_link {base!r} and to_link {tip!r}")
     if len(moving) > MAX_CHAIN_JOINTS:
@@ -649,14 +788,12 @@ def parse_robot_urdf(
     if problems.items:
         raise RobotDescriptionError(problems.items)
 
-    notes: dict[str, list[str]] = {"ignored_geometry": [], "cylinders": []}
+    notes: dict[str, list[str]] = {"ignored_geometry": [], "cylinder": [], "box": []}
     robot_joints: list[Joint] = []
-    capsules = _capsules_of_link(links[base], 0, np.eye(4), notes)
     T_pending = np.eye(4)
     for joint in chain:
-        if joint.kind == "fixed":
+        if joint.kind not in _MOVING_TYPES or joint.has_mimic:
             T_pending = T_pending @ joint.origin
-            capsules += _capsules_of_link(links[joint.child], len(robot_joints), T_pending, notes)
             continue
         joint_kind: JointKind = "prismatic" if joint.kind == "prismatic" else "revolute"
         robot_joints.append(
@@ -673,7 +810,14 @@ def parse_robot_urdf(
             )
         )
         T_pending = np.eye(4)
-        capsules += _capsules_of_link(links[joint.child], len(robot_joints), T_pending, notes)
+    placed, held = _attached_links(base, chain, joints)
+    base_folder = None if path == "<string>" else Path(path).parent
+    capsules: list[Capsule] = []
+    meshes: list[LinkMesh] = []
+    missing: list[str] = []
+    for link_name, (index, T) in placed.items():
+        capsules += _capsules_of_link(links[link_name], index, T, notes)
+        meshes += _meshes_of_link(links[link_name], index, T, base_folder, mesh_folders, missing)
 
     return Robot(
         name=name,
@@ -684,43 +828,69 @@ def parse_robot_urdf(
         capsules=tuple(capsules),
         description=f"Imported from URDF: chain {base} -> {tip}",
         source=path,
-        notes=_notes(root, chain, joints, notes),
+        notes=_notes(chain, joints, held, notes, missing, set(placed)),
+        from_link=base,
+        to_link=tip,
+        held_joints=tuple(joint.name for joint in held),
+        meshes=tuple(meshes),
+        link_poses=placed,
+        leaf_links=tuple(
+            sorted(name for name in placed if name != base and not _has_children(name, joints))
+        ),
     )
 
 
+def _has_children(link: str, joints: list[_JointSpec]) -> bool:
+    return any(joint.parent == link for joint in joints)
+
+
 def _notes(
-    root: _Element, chain: list[_JointSpec], joints: list[_JointSpec], notes: dict[str, list[str]]
+    chain: list[_JointSpec],
+    joints: list[_JointSpec],
+    held: list[_JointSpec],
+    notes: dict[str, list[str]],
+    missing: list[str],
+    attached: set[str],
 ) -> tuple[str, ...]:
     """Non-fatal remarks about what the import assumed or left out."""
     out = [
         "URDF has no acceleration limits: each joint's acceleration limit is set to "
-        f"{DEFAULT_ACCELERATION_PER_S:g} x its velocity limit per second"
+        f"{DEFAULT_ACCELERATION_PER_S:g} x its velocity limit per second (give them in a "
+        "robot overlay)"
     ]
     for joint in chain:
         if joint.kind in _MOVING_TYPES and abs(joint.axis_length - 1.0) > _AXIS_TOLERANCE:
             out.append(
                 f"joint {joint.name!r}: axis of length {joint.axis_length:.6g} normalised to unit length"
             )
-    meshes = [m.attrib.get("filename", "") for m in root.walk() if m.tag == "mesh"]
-    if meshes:
+    if held:
         out.append(
-            f"{len(meshes)} mesh reference(s) ignored (meshes are not loaded): {_listed(meshes)}"
+            "joints off the chosen chain (or mimic joints) held at zero, their links carried "
+            "rigidly: "
+            + _listed([f"{j.name} ({'mimic' if j.has_mimic else j.kind})" for j in held])
         )
-    if notes["cylinders"]:
+    if missing:
+        out.append(f"{len(missing)} mesh file(s) not found: " + "; ".join(missing[:_LISTED_NAMES]))
+    if notes["cylinder"]:
         out.append(
             "collision cylinders turned into capsules of the same radius and length (an "
             "approximation: the capsule adds a half-sphere at each end) on links: "
-            + _listed(sorted(set(notes["cylinders"])))
+            + _listed(sorted(set(notes["cylinder"])))
+        )
+    if notes["box"]:
+        out.append(
+            "collision boxes enclosed by capsules (segment over the longest side) on links: "
+            + _listed(sorted(set(notes["box"])))
         )
     if notes["ignored_geometry"]:
         out.append(
             "collision geometry without a capsule equivalent ignored: "
             + _listed(notes["ignored_geometry"])
         )
-    on_chain = {joint.name for joint in chain}
-    off_chain = [j.name for j in joints if j.name not in on_chain]
-    if off_chain:
-        out.append(f"joints outside the selected chain ignored: {_listed(off_chain)}")
+    on_chain = {joint.name for joint in chain} | {joint.name for joint in held}
+    outside = [j.name for j in joints if j.name not in on_chain and j.child not in attached]
+    if outside:
+        out.append(f"joints outside the selected chain ignored: {_listed(outside)}")
     return tuple(out)
 
 
@@ -730,6 +900,7 @@ def load_robot_urdf(
     to_link: str | None = None,
     *,
     kind: str = "urdf",
+    mesh_folders: Sequence[Path] = (),
 ) -> Robot:
     """Load the serial chain of a URDF file (at most :data:`MAX_URDF_BYTES`).
 
@@ -745,7 +916,9 @@ def load_robot_urdf(
         data = path.read_bytes()
     except OSError as error:
         raise RobotDescriptionError([f"{path}: cannot read: {error.strerror or error}"]) from error
-    return parse_robot_urdf(data, str(path), from_link, to_link, kind=kind)
+    return parse_robot_urdf(
+        data, str(path), from_link, to_link, kind=kind, mesh_folders=mesh_folders
+    )
 
 
 # ------------------------------------------------------------------------ export

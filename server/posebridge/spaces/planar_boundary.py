@@ -43,10 +43,13 @@ from scipy.integrate import quad
 from posebridge.kinematics.fk import fk_tool
 from posebridge.robot.model import Robot
 from posebridge.spaces.errors import SpacesInputError
-from posebridge.units import BoolArray, FloatArray
+from posebridge.units import BoolArray, FloatArray, mm_from_m
 
 __all__ = [
     "PlanarChain",
+    "PlanarReach",
+    "planar_reach",
+    "planar_reach_summary",
     "planar_radius_range",
     "planar_reachable",
     "planar_region_area",
@@ -372,3 +375,82 @@ def planar_region_area(chain: PlanarChain) -> float:
         epsrel=1e-10,
     )
     return float(area)
+
+
+@dataclass(frozen=True)
+class PlanarReach:
+    """Where a planar arm's TCP reaches: an area in one plane (SI units).
+
+    Attributes
+    ----------
+    plane_height_m : float
+        The TCP plane is the base x-y plane shifted to this base z, m.
+    area_m2 : float
+        Area of the reachable region in that plane.
+    inner_radius_m, outer_radius_m : float
+        Smallest and largest TCP distance from axis 1 (two-link arms; for
+        three links the largest is the sum of the lengths and the smallest 0
+        or the closest approach over the region's grid).
+    full_turns : bool
+        Every joint range spans at least one revolution.
+    """
+
+    plane_height_m: float
+    area_m2: float
+    inner_radius_m: float
+    outer_radius_m: float
+    full_turns: bool
+
+
+def planar_reach(
+    robot: Robot, T_flange_tool: npt.ArrayLike | None = None, *, grid_m: float = 0.005
+) -> PlanarReach | None:
+    """The reachable area of a planar two- or three-link arm, or None for any other robot.
+
+    Two links: :func:`planar_region_area` and :func:`planar_radius_range`
+    (closed form for full ranges: the annulus ``|l1 - l2| <= r <= l1 + l2`` of
+    area ``π((l1 + l2)² - (l1 - l2)²)``; the swept region of the ranges
+    otherwise). Three links: the exact membership test
+    :func:`planar_reachable` on a square grid of ``grid_m`` cells, area =
+    reachable cells times the cell area.
+    """
+    try:
+        chain = PlanarChain.from_robot(robot, T_flange_tool)
+    except SpacesInputError:
+        return None
+    full = bool(np.all(chain.upper - chain.lower >= _TWO_PI - ANGLE_TOLERANCE))
+    if chain.dof == 2:
+        inner, outer = planar_radius_range(chain)
+        return PlanarReach(chain.height, planar_region_area(chain), inner, outer, full)
+    outer = float(chain.lengths.sum())
+    axis = np.arange(-outer + grid_m / 2, outer, grid_m)
+    x, y = np.meshgrid(axis, axis, indexing="ij")
+    points = np.stack([x.ravel(), y.ravel()], axis=1) + chain.base_xy
+    reached = planar_reachable(chain, points)
+    radius = np.hypot(*(points[reached] - chain.base_xy).T)
+    inner = float(max(radius.min() - grid_m, 0.0)) if radius.size else 0.0
+    return PlanarReach(
+        chain.height, float(np.count_nonzero(reached)) * grid_m * grid_m, inner, outer, full
+    )
+
+
+def planar_reach_summary(robot: Robot) -> dict[str, object] | None:
+    """:func:`planar_reach` with the robot's default tool in boundary units (mm; the
+    area in m² like the reach map's volumes), ready for JSON and the ``reach`` command's
+    text; None for a non-planar robot."""
+    reach = planar_reach(robot)
+    if reach is None:
+        return None
+    height_mm = float(mm_from_m(reach.plane_height_m))
+    return {
+        "planar": True,
+        "plane": f"base x-y plane at z = {height_mm:g} mm",
+        "plane_z_mm": height_mm,
+        "area_m2": reach.area_m2,
+        "inner_radius_mm": float(mm_from_m(reach.inner_radius_m)),
+        "outer_radius_mm": float(mm_from_m(reach.outer_radius_m)),
+        "full_turns": reach.full_turns,
+        "method": "closed form (law of cosines; swept region of the joint ranges)"
+        if robot.dof == 2
+        else "exact membership test on a 5 mm grid",
+    }

@@ -34,6 +34,7 @@ from posebridge.api.schemas.cells import (
     FixtureEdit,
     TargetEdit,
     WaypointEdit,
+    WaypointJointsEdit,
     cell_document,
 )
 from posebridge.api.schemas.errors import error_responses
@@ -42,6 +43,8 @@ from posebridge.cell.files import CellConflictError, CellSaveError, SaveFailure
 from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, MeshFixture, Pose, Target
 from posebridge.cell.scene import Scene
 from posebridge.geometry.mesh_display import decimate_for_display, split_triangle_budget
+from posebridge.planning.reports import WaypointJoints
+from posebridge.planning.sequence_report import with_waypoint_joints
 from posebridge.transforms import (
     invert_transform,
     rotation_matrix_from_rpy,
@@ -312,6 +315,48 @@ def move_waypoint(
         paths = list(cell.paths)
         paths[p] = paths[p].model_copy(update={"waypoints": waypoints})
         return cell.model_copy(update={"paths": paths})
+
+    return _saved(lambda: cells.edit(change, expected), robots, response)
+
+
+@router.patch(
+    "/paths/{name}/waypoints",
+    summary="Give waypoints as joint values",
+    responses=_CHANGE_ERRORS,
+)
+def set_waypoint_joints(
+    name: Name,
+    edit: WaypointJointsEdit,
+    cells: CellsDep,
+    robots: RobotsDep,
+    response: Response,
+    if_match: IfMatch,
+) -> CellDocument:
+    """Write joint values into waypoints of a path (e.g. the ``edits`` of the fastest
+    sequence): each keeps its motion, speed and blend and becomes a joint-values waypoint."""
+    expected = _expected_etag(if_match)
+    edits = [WaypointJoints(index=e.index, joints_deg=e.joints_deg) for e in edit.edits]
+    # read before the edit (which holds the store's lock); a robot changed since is a new
+    # content version, refused by the edit (412)
+    dof = cells.read().scene.robot.dof
+
+    def change(cell: Cell) -> Cell:
+        p = index_of_named("path", [path.name for path in cell.paths], name)
+        count = len(cell.paths[p].waypoints)
+        for e in edits:
+            if e.index >= count:
+                raise HTTPException(
+                    status_code=404,
+                    detail=f"waypoint: path {name!r} has no waypoint {e.index} "
+                    f"(it has {count}, numbered from 0)",
+                )
+            if len(e.joints_deg) != dof:
+                raise HTTPException(
+                    status_code=422,
+                    detail=f"edits: waypoint {e.index}: expected {dof} joint values, "
+                    f"got {len(e.joints_deg)}",
+                )
+        return with_waypoint_joints(cell, p, edits)
 
     return _saved(lambda: cells.edit(change, expected), robots, response)
 

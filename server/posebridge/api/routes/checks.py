@@ -9,7 +9,7 @@ from __future__ import annotations
 from typing import Annotated
 
 import numpy as np
-from fastapi import APIRouter, HTTPException, Path, Request
+from fastapi import APIRouter, HTTPException, Path, Query, Request, Response
 from starlette.concurrency import run_in_threadpool
 
 from posebridge.api.auth import charge_reviewer
@@ -28,8 +28,15 @@ from posebridge.cell.checks import check_targets
 from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
 from posebridge.cell.joint_log import JointLogTooLongError, parse_joint_log
 from posebridge.cell.reports import LogDiagnosis, PoseDiagnosis, TargetCheckReport
+from posebridge.planning.motion_export import (
+    DEFAULT_PERIOD_MS,
+    MIN_PERIOD_MS,
+    export_motion,
+    motion_csv,
+)
 from posebridge.planning.path_check import check_path
-from posebridge.planning.reports import PathCheckReport
+from posebridge.planning.reports import MotionExportReport, PathCheckReport, SequenceReport
+from posebridge.planning.sequence_report import optimise_path
 
 __all__ = ["router"]
 
@@ -61,6 +68,91 @@ async def read_path_check(
     return await compute_for(request, lambda: check_path(scene, index))
 
 
+PathName = Annotated[str, Path(min_length=1, max_length=100)]
+PeriodMs = Annotated[
+    float,
+    Query(ge=MIN_PERIOD_MS, le=1000.0, allow_inf_nan=False, description="Row period, ms."),
+]
+
+
+@router.get(
+    "/paths/{name}/sequence",
+    summary="Fastest consistent solution sequence of a path",
+    responses=error_responses(404, 422, 429, 503),
+)
+async def read_path_sequence(
+    name: PathName,
+    cells: CellsDep,
+    request: Request,
+    limit_margin_deg: Annotated[
+        float, Query(ge=0.0, le=90.0, allow_inf_nan=False, description="Revolute joints.")
+    ] = 0.0,
+    limit_margin_mm: Annotated[
+        float, Query(ge=0.0, le=1000.0, allow_inf_nan=False, description="Prismatic joints.")
+    ] = 0.0,
+) -> SequenceReport:
+    """One IK solution per waypoint for the shortest rest-to-rest cycle time (exact, dynamic
+    programming over the layered graph of solutions) under the limit margin, required
+    branches, linear-move continuity and collisions; the current choice, the saving in
+    words and the waypoint edits that make the path follow the sequence."""
+    scene = (await run_in_threadpool(cells.read)).scene
+    index = index_of_named("path", [path.name for path in scene.paths], name)
+    return await compute_for(
+        request,
+        lambda: optimise_path(
+            scene, index, limit_margin_deg=limit_margin_deg, limit_margin_mm=limit_margin_mm
+        ),
+    )
+
+
+async def _export(
+    name: str, cells: CellsDep, request: Request, period_ms: float
+) -> MotionExportReport:
+    snapshot = await run_in_threadpool(cells.read)
+    scene = snapshot.scene
+    index = index_of_named("path", [path.name for path in scene.paths], name)
+    cell_name = cells.path.name if cells.path is not None else "demo-cell.json"
+    return await compute_for(
+        request, lambda: export_motion(scene, index, period_ms=period_ms, cell_name=cell_name)
+    )
+
+
+@router.get(
+    "/paths/{name}/export.json",
+    summary="The path's timed motion as plain numbers (JSON)",
+    responses=error_responses(404, 422, 429, 503),
+)
+async def export_path_json(
+    name: PathName, cells: CellsDep, request: Request, period_ms: PeriodMs = DEFAULT_PERIOD_MS
+) -> MotionExportReport:
+    """The blended motion at a fixed period: time, every joint (unit in the column name), TCP
+    pose, branch, limit margin and clearance per row, and a header block."""
+    return await _export(name, cells, request, period_ms)
+
+
+@router.get(
+    "/paths/{name}/export.csv",
+    summary="The path's timed motion as plain numbers (CSV)",
+    response_class=Response,
+    responses={
+        200: {"content": {"text/csv": {"schema": {"type": "string"}}}},
+        **error_responses(404, 422, 429, 503),
+    },
+)
+async def export_path_csv(
+    name: PathName, cells: CellsDep, request: Request, period_ms: PeriodMs = DEFAULT_PERIOD_MS
+) -> Response:
+    """As the JSON export, as CSV with the header block as ``#`` comment lines; it reads back
+    as a joint log in the pose check."""
+    report = await _export(name, cells, request, period_ms)
+    filename = "".join(c if c.isalnum() or c in "-_" else "_" for c in report.header.path)
+    return Response(
+        content=motion_csv(report),
+        media_type="text/csv; charset=utf-8",
+        headers={"Content-Disposition": f'attachment; filename="{filename}.csv"'},
+    )
+
+
 @router.post(
     "/diagnose/pose", summary="Diagnose one pose", responses=error_responses(422, 429, 503)
 )
@@ -72,6 +164,9 @@ async def diagnose_joint_pose(
 
     def work() -> PoseDiagnosis:
         scene = cells.read().scene
+        if scene.external.count and len(body.joints_deg) == scene.robot.dof + scene.external.count:
+            q, external = scene.split_joints([body.joints_deg], where="joints_deg")
+            return diagnose_pose(scene, q[0], external=external[0])
         q = joints_si_from_request(scene.robot, [body.joints_deg])
         return diagnose_pose(scene, q[0])
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from importlib.metadata import version
 
-from fastapi import APIRouter
+from fastapi import APIRouter, Request
 
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.health import HealthResult
@@ -15,7 +15,16 @@ router = APIRouter(prefix="/api/health", tags=["health"], route_class=StrictJson
 
 
 @router.get("", summary="Server is up")
-async def read_health() -> HealthResult:
+async def read_health(request: Request) -> HealthResult:
     """Answers as soon as the server accepts requests (on the event loop: no worker thread
-    needed, so it answers while worker threads are busy)."""
-    return HealthResult(status="ok", version=version("posebridge"))
+    needed, so it answers while worker threads are busy), with how far the loading of the
+    numerical kernels is (posebridge.api.warmup)."""
+    warm = request.app.state.warmup
+    return HealthResult(
+        status="ok",
+        version=version("posebridge"),
+        kernels_ready=warm.ready,
+        kernels_done=warm.done,
+        kernels_total=warm.total,
+        kernels_current=warm.current,
+    )

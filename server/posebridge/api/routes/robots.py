@@ -12,10 +12,16 @@ from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.robots import (
     RobotDescriptionResult,
+    RobotImportReport,
     RobotList,
+    RobotMeshesResult,
     robot_description_result,
+    robot_import_report,
+    robot_meshes_result,
     robot_summary_from_bundled,
 )
+from posebridge.geometry.mesh_cache import MeshCache
+from posebridge.geometry.robot_meshes import robot_display_meshes
 from posebridge.robot.library import bundled_robots
 
 __all__ = ["router"]
@@ -43,3 +49,36 @@ def read_robot_model(
 ) -> RobotDescriptionResult:
     """Joints with limits and units, default tool, home configuration and drawing bounds."""
     return robot_description_result(robots.get(robot, paths_allowed=role == "owner"), robot)
+
+
+@router.get(
+    "/describe", summary="What an import made of a robot", responses=error_responses(403, 422)
+)
+def describe_robot(
+    robots: RobotsDep,
+    role: ReviewRoleDep,
+    robot: Annotated[
+        str,
+        Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
+    ],
+) -> RobotImportReport:
+    """Chain, joints and limits, assumed values, meshes found and missing, capsules (fitted
+    ones with their excess over the meshes' hull), notes - as `posebridge describe --json`."""
+    return robot_import_report(robots.get(robot, paths_allowed=role == "owner"), robot)
+
+
+@router.get("/meshes", summary="A robot's meshes for drawing", responses=error_responses(403, 422))
+def read_robot_meshes(
+    robots: RobotsDep,
+    role: ReviewRoleDep,
+    robot: Annotated[
+        str,
+        Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
+    ],
+) -> RobotMeshesResult:
+    """Visual meshes (collision meshes of links without) decimated to 60 000 triangles for the
+    whole robot, in their link frames; pose them with the FK answer's frames. Empty for
+    robots without mesh files."""
+    model = robots.get(robot, paths_allowed=role == "owner")
+    cache = MeshCache.default() if model.meshes else None
+    return robot_meshes_result(model, robot, robot_display_meshes(model, cache=cache))

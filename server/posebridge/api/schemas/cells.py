@@ -10,13 +10,14 @@ from __future__ import annotations
 
 from typing import Annotated, Any, Literal
 
+import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.api.cell_store import CellSnapshot
-from posebridge.cell.model import MAX_COORDINATE_MM, Branch, Cell
+from posebridge.cell.model import MAX_COORDINATE_MM, MAX_JOINTS, MAX_WAYPOINTS, Branch, Cell
 from posebridge.cell.scene import BoxSet, CylinderSet, MeshSet, Scene
 from posebridge.transforms import rpy_from_rotation_matrix
-from posebridge.units import FloatArray, joints_user_from_si, mm_from_m
+from posebridge.units import FloatArray, joints_user_from_si, m_from_mm, mm_from_m
 
 __all__ = [
     "BaseDrawing",
@@ -32,6 +33,8 @@ __all__ = [
     "ToolDrawing",
     "WaypointDrawing",
     "WaypointEdit",
+    "WaypointJointsEdit",
+    "WaypointJointsItem",
     "cell_document",
 ]
 
@@ -44,8 +47,9 @@ Position = Annotated[list[Coordinate], Field(min_length=3, max_length=3)]
 Rpy = Annotated[list[Angle], Field(min_length=3, max_length=3, description=_RPY)]
 
 
-# One solid of the cell (fixture, keep-out zone or pedestal), centred on its world pose
-# (a mesh: its fixture frame, the triangles from GET /api/cell/meshes/{name}).
+# One solid of the cell (fixture, keep-out zone, or the robot's mounting: pedestal, track rail
+# and carriage), centred on its world pose (a mesh: its fixture frame, the triangles from
+# GET /api/cell/meshes/{name}).
 class ShapeDrawing(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
@@ -163,6 +167,18 @@ class ToolDrawing(BaseModel):
     capsules: list[ToolCapsuleDrawing]
 
 
+# One external axis of the cell: range and the value the drawing is at.
+class ExternalAxisDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    kind: Literal["track", "turntable"]
+    unit: Literal["mm", "deg"]
+    lower: float
+    upper: float
+    value: float
+
+
 # The resolved cell, in world millimetres and degrees, for drawing.
 class SceneDrawing(BaseModel):
     model_config = ConfigDict(extra="forbid")
@@ -174,6 +190,9 @@ class SceneDrawing(BaseModel):
     fixtures: list[FixtureDrawing]
     targets: list[TargetDrawing]
     paths: list[PathDrawing]
+    external_axes: list[ExternalAxisDrawing] = Field(
+        default_factory=list, description="Track and turntables, after the robot's joints."
+    )
 
 
 # The server's cell: file content, content version and drawing.
@@ -226,6 +245,22 @@ class WaypointEdit(BaseModel):
     rpy_deg: Rpy
 
 
+# Give waypoints of a path as joint values (e.g. the optimiser's sequence, its ``edits``).
+class WaypointJointsItem(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    index: int = Field(ge=0, lt=MAX_WAYPOINTS, description="Waypoint position, from 0.")
+    joints_deg: list[Coordinate] = Field(
+        min_length=1, max_length=MAX_JOINTS, description="Prismatic joints in mm."
+    )
+
+
+class WaypointJointsEdit(BaseModel):
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    edits: list[WaypointJointsItem] = Field(min_length=1, max_length=MAX_WAYPOINTS)
+
+
 # Move the robot: new pedestal foot pose in the world, and optionally a new pedestal height.
 class BaseEdit(BaseModel):
     model_config = ConfigDict(extra="forbid", strict=True)
@@ -245,7 +280,7 @@ def _pose_mm_deg(T: FloatArray) -> tuple[list[Any], list[Any]]:
     )
 
 
-def _boxes(boxes: BoxSet, role: Literal["fixture", "keep_out"]) -> list[ShapeDrawing]:
+def _boxes(boxes: BoxSet, role: Literal["fixture", "keep_out", "pedestal"]) -> list[ShapeDrawing]:
     positions, rpys = _pose_mm_deg(boxes.T_world)
     sizes = mm_from_m(2.0 * boxes.half_extents).tolist()
     return [
@@ -304,12 +339,46 @@ def _meshes(meshes: MeshSet) -> list[ShapeDrawing]:
     ]
 
 
+def _subset(boxes: BoxSet, names: set[str], *, keep: bool) -> BoxSet:
+    """The boxes whose name is (``keep``) or is not in ``names``."""
+    rows = [k for k, name in enumerate(boxes.names) if (name in names) == keep]
+    return BoxSet(
+        names=tuple(boxes.names[k] for k in rows),
+        T_world=boxes.T_world[rows],
+        half_extents=boxes.half_extents[rows],
+    )
+
+
+RAIL_HEIGHT_M = 0.04
+"""Drawn height of a track's rail below the rail frame (drawing only, not an obstacle)."""
+
+
+def _rail(scene: Scene) -> BoxSet:
+    """The track's rail for drawing: its travel plus a carriage length, under the rail frame."""
+    external = scene.external
+    track = external.track
+    if track is None:
+        return BoxSet((), np.zeros((0, 4, 4)), np.zeros((0, 3)))
+    lower, upper = float(external.lower[0]), float(external.upper[0])
+    centre = np.eye(4)
+    centre[:3, 3] = [0.5 * (lower + upper), 0.0, -0.5 * RAIL_HEIGHT_M]
+    length = upper - lower + float(track.carriage_size[0])
+    half = 0.5 * np.array([length, 0.6 * float(track.carriage_size[1]), RAIL_HEIGHT_M])
+    return BoxSet((f"{external.names[0]} rail",), (track.T_world_rail @ centre)[None], half[None])
+
+
 def scene_drawing(scene: Scene) -> SceneDrawing:
     """The drawing of a resolved scene in world mm and deg."""
     base_position, base_rpy = _pose_mm_deg(scene.T_world_base)
-    foot = scene.cell.base.position_mm
+    down = np.eye(4)
+    down[2, 3] = -float(m_from_mm(scene.cell.base.pedestal_height_mm))
+    foot = mm_from_m((scene.T_world_base @ down)[:3, 3]).tolist()
     tool_position, tool_rpy = _pose_mm_deg(scene.T_flange_tool)
     capsules = scene.tool_capsules
+    external = scene.external
+    lower, upper = external.user_from_si(external.lower), external.user_from_si(external.upper)
+    values = external.user_from_si(external.values)
+    carriage = {f"{external.names[0]} carriage"} if external.track is not None else set()
     targets = scene.targets
     positions, rpys = _pose_mm_deg(targets.T_world_target)
     approach = mm_from_m(targets.T_world_approach[:, :3, 3]).tolist()
@@ -361,11 +430,24 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
         ),
         floor_height_mm=float(mm_from_m(scene.floor_height)),
         shapes=[
-            *_boxes(scene.boxes, "fixture"),
+            *_boxes(_subset(scene.boxes, carriage, keep=False), "fixture"),
             *_cylinders(scene.cylinders, "fixture"),
             *_meshes(scene.meshes),
             *_boxes(scene.keep_outs, "keep_out"),
             *_cylinders(scene.pedestal, "pedestal"),
+            *_boxes(_rail(scene), "pedestal"),
+            *_boxes(_subset(scene.boxes, carriage, keep=True), "pedestal"),
+        ],
+        external_axes=[
+            ExternalAxisDrawing(
+                name=name,
+                kind="track" if external.prismatic[i] else "turntable",
+                unit="mm" if external.prismatic[i] else "deg",
+                lower=float(lower[i]),
+                upper=float(upper[i]),
+                value=float(values[i]),
+            )
+            for i, name in enumerate(external.names)
         ],
         fixtures=fixtures,
         targets=[

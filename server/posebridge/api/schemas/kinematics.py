@@ -253,6 +253,11 @@ class FkConfiguration(BaseModel):
     frames_position_mm: list[list[float]] = Field(
         description="Origins of the frames named in frame_names, base frame."
     )
+    frames_rpy_deg: list[list[float]] = Field(
+        default_factory=list,
+        description="Orientations of the frames named in frame_names (where robot meshes are "
+        "drawn). " + _RPY_DESCRIPTION,
+    )
     capsule_segments_mm: list[list[list[float]]] = Field(
         description="Per capsule (see capsules), its segment [start, end] in the base frame."
     )
@@ -354,6 +359,7 @@ def fk_result(
     w = manipulability(robot, q_checked, T_flange_tool)
     margins = _margins_user(robot, q_checked)
     frames_mm = mm_from_m(frames[:, :, :3, 3])
+    frames_rpy = rpy_from_rotation_matrix(frames[:, :, :3, :3], degrees=True)
     segments_mm = _capsule_segments_mm(robot, frames)
     configurations = [
         FkConfiguration(
@@ -363,6 +369,7 @@ def fk_result(
             manipulability=float(w[k]),
             limit_margins_deg=margins[k],
             frames_position_mm=frames_mm[k].tolist(),
+            frames_rpy_deg=frames_rpy[k].tolist(),
             capsule_segments_mm=segments_mm[k].tolist(),
         )
         for k in range(frames.shape[0])

@@ -97,6 +97,11 @@ class JointMapResult(BaseModel):
     colliding_obstacles: list[str] = Field(
         description="Obstacles in collision somewhere on the map."
     )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
 
 
 def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> JointMapResult:
@@ -122,6 +127,7 @@ def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> Joint
         self_collision=joint_map.self_collision.ravel().tolist(),
         clearance_mm=clearance,
         colliding_obstacles=[joint_map.obstacle_names[k] for k in joint_map.colliding_obstacles],
+        robot_geometry_missing=robot.geometry_missing,
     )
 
 

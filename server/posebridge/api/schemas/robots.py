@@ -7,6 +7,7 @@ from typing import Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 
+from posebridge.geometry.robot_meshes import LinkDisplayMesh
 from posebridge.kinematics.fk import fk_frames
 from posebridge.robot.library import BundledRobot
 from posebridge.robot.model import Robot
@@ -16,10 +17,15 @@ from posebridge.units import joint_unit_labels, joints_user_from_si, mm_from_m
 __all__ = [
     "JointDescription",
     "RobotDescriptionResult",
+    "RobotImportReport",
+    "RobotMeshesResult",
     "RobotList",
     "RobotSummary",
     "ToolDescription",
+    "render_robot_import",
     "robot_description_result",
+    "robot_import_report",
+    "robot_meshes_result",
     "robot_summary_from_bundled",
 ]
 
@@ -91,6 +97,18 @@ class RobotDescriptionResult(BaseModel):
         "holding every link frame and the tool over a seeded sample of the joint ranges."
     )
     notes: list[str] = Field(description="Non-fatal remarks from loading the description.")
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance computed for it is then meaningless.",
+    )
+    from_link: str | None = Field(default=None, description="URDF: the chain's first link.")
+    to_link: str | None = Field(default=None, description="URDF: the chain's last link.")
+    chain_ends: list[str] = Field(
+        default_factory=list,
+        description="URDF: to_link choices (the leaf links below from_link, and the current "
+        "to_link).",
+    )
 
 
 def robot_summary_from_bundled(bundled: BundledRobot) -> RobotSummary:
@@ -139,4 +157,206 @@ def robot_description_result(robot: Robot, spec: str) -> RobotDescriptionResult:
         home_joints=joints_user_from_si(robot.home_configuration(), robot.prismatic).tolist(),
         bounds_mm=mm_from_m(_bounds_m(robot)).tolist(),
         notes=list(robot.notes),
+        robot_geometry_missing=robot.geometry_missing,
+        from_link=robot.from_link or None,
+        to_link=robot.to_link or None,
+        chain_ends=sorted({*robot.leaf_links, robot.to_link}) if robot.to_link else [],
+    )
+
+
+# One mesh reference of a description and whether its file was found.
+class MeshReport(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    link: str = Field(description="The description's link.")
+    role: Literal["visual", "collision"]
+    filename: str = Field(description="As written in the description.")
+    found: bool
+    path: str | None = Field(description="The file it resolved to.")
+
+
+# One collision capsule of the robot.
+class CapsuleReport(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    name: str
+    link: str = Field(description="The description's link, else the joint moving it (or base).")
+    radius_mm: float
+    length_mm: float = Field(description="Length of the segment (0 for a sphere).")
+
+
+# Capsules fitted to one link's meshes.
+class LinkFitReport(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    link: str
+    role: Literal["visual", "collision"] = Field(description="Which meshes were fitted.")
+    meshes: list[str]
+    capsules: list[str]
+    capsule_volume_mm3: float
+    hull_volume_mm3: float
+    excess: float | None = Field(
+        description="Capsule volume over the meshes' convex-hull volume (null for a flat link)."
+    )
+
+
+# What an import made of a robot file: chain, joints, assumed values, meshes, capsules, notes.
+class RobotImportReport(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    robot: str = Field(description="The robot as requested: bundled name or file path.")
+    name: str
+    kind: str
+    description: str
+    source: str = Field(description="The file it was loaded from.")
+    from_link: str | None = Field(description="Chain start (URDF), the robot base frame.")
+    to_link: str | None = Field(description="Chain end (URDF), the flange.")
+    joints: list[JointDescription]
+    acceleration_max: list[float] = Field(description="Per joint, in `unit` per second squared.")
+    jerk_max: list[float | None] = Field(description="Per joint where given, `unit` per s^3.")
+    held_joints: list[str] = Field(description="Joints off the chain (or mimic) held at zero.")
+    tool: ToolDescription
+    meshes: list[MeshReport]
+    capsules: list[CapsuleReport]
+    link_fits: list[LinkFitReport]
+    robot_geometry_missing: str | None
+    notes: list[str]
+
+
+def robot_import_report(robot: Robot, spec: str) -> RobotImportReport:
+    """The describe answer for ``robot`` (loaded from ``spec``), mm and deg."""
+    description = robot_description_result(robot, spec)
+    prismatic = robot.prismatic
+    jerk = np.array([np.nan if j.jerk_max is None else j.jerk_max for j in robot.joints])
+    jerk_user = joints_user_from_si(jerk, prismatic)
+    link_names = ["base", *robot.joint_names]
+    mm3 = 1e9
+    return RobotImportReport(
+        robot=spec,
+        name=robot.name,
+        kind=robot.kind,
+        description=robot.description,
+        source=robot.source,
+        from_link=robot.from_link or None,
+        to_link=robot.to_link or None,
+        joints=description.joints,
+        acceleration_max=joints_user_from_si(robot.acceleration_max, prismatic).tolist(),
+        jerk_max=[None if np.isnan(v) else float(v) for v in jerk_user],
+        held_joints=list(robot.held_joints),
+        tool=description.tool,
+        meshes=[
+            MeshReport(
+                link=m.source_link,
+                role=m.role,
+                filename=m.filename,
+                found=m.path is not None,
+                path=None if m.path is None else str(m.path),
+            )
+            for m in robot.meshes
+        ],
+        capsules=[
+            CapsuleReport(
+                name=c.name,
+                link=c.source_link or link_names[c.link],
+                radius_mm=float(mm_from_m(c.radius)),
+                length_mm=float(mm_from_m(np.linalg.norm(c.end - c.start))),
+            )
+            for c in robot.capsules
+        ],
+        link_fits=[
+            LinkFitReport(
+                link=f.source_link,
+                role=f.role,
+                meshes=list(f.meshes),
+                capsules=list(f.capsule_names),
+                capsule_volume_mm3=f.capsule_volume_m3 * mm3,
+                hull_volume_mm3=f.hull_volume_m3 * mm3,
+                excess=f.excess,
+            )
+            for f in robot.link_fits
+        ],
+        robot_geometry_missing=robot.geometry_missing,
+        notes=list(robot.notes),
+    )
+
+
+def render_robot_import(report: RobotImportReport) -> str:
+    """Plain text of :class:`RobotImportReport` (``posebridge describe``)."""
+    lines = [f"{report.name} ({report.kind}): {report.description}", f"source: {report.source}"]
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
+    if report.from_link:
+        lines.append(f"chain: {report.from_link} -> {report.to_link}")
+    lines.append("joints:")
+    for joint, acceleration, jerk in zip(
+        report.joints, report.acceleration_max, report.jerk_max, strict=True
+    ):
+        limits = "continuous" if joint.continuous else f"{joint.lower:.2f} .. {joint.upper:.2f}"
+        jerk_text = "" if jerk is None else f", jerk {jerk:.4g} {joint.unit}/s^3"
+        lines.append(
+            f"  {joint.name:<16} {joint.type:<9} {limits} {joint.unit}, velocity "
+            f"{joint.velocity_max:.4g} {joint.unit}/s, acceleration {acceleration:.4g} "
+            f"{joint.unit}/s^2{jerk_text}"
+        )
+    if report.held_joints:
+        lines.append(f"held at zero: {', '.join(report.held_joints)}")
+    found = sum(m.found for m in report.meshes)
+    lines.append(f"meshes: {found} found, {len(report.meshes) - found} missing")
+    lines += [
+        f"  MISSING {m.filename} ({m.role} of {m.link})" for m in report.meshes if not m.found
+    ]
+    lines.append(f"capsules: {len(report.capsules)}")
+    for fit in report.link_fits:
+        excess = "flat" if fit.excess is None else f"excess {fit.excess:.2f}x hull"
+        lines.append(
+            f"  fitted {', '.join(fit.capsules)} on {fit.link} to {len(fit.meshes)} {fit.role} "
+            f"mesh(es): {excess}"
+        )
+    fitted = {name for fit in report.link_fits for name in fit.capsules}
+    for capsule in report.capsules:
+        if capsule.name not in fitted:
+            lines.append(
+                f"  {capsule.name} on {capsule.link}: radius {capsule.radius_mm:.1f} mm, "
+                f"length {capsule.length_mm:.1f} mm"
+            )
+    lines.append("notes:")
+    lines += [f"  - {note}" for note in report.notes]
+    return "\n".join(lines)
+
+
+# One decimated mesh drawn on a link (vertices in the link frame).
+class LinkMeshDrawing(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    link: int = Field(description="Index into the FK answer's frames (0 base, i after joint i).")
+    source_link: str = Field(description="The description's link.")
+    vertices_mm: list[list[float]] = Field(description="In the link frame, mm.")
+    faces: list[list[int]]
+
+
+# A robot's meshes for drawing: visual meshes decimated to one budget for the whole robot.
+class RobotMeshesResult(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    robot: str
+    triangles: int = Field(description="Triangles in all (at most the robot budget, 60 000).")
+    meshes: list[LinkMeshDrawing]
+
+
+def robot_meshes_result(
+    robot: Robot, spec: str, drawings: list[LinkDisplayMesh]
+) -> RobotMeshesResult:
+    """The drawing answer for ``robot`` from :func:`~posebridge.geometry.robot_meshes.robot_display_meshes`."""
+    return RobotMeshesResult(
+        robot=spec,
+        triangles=sum(d.mesh.triangle_count for d in drawings),
+        meshes=[
+            LinkMeshDrawing(
+                link=d.link,
+                source_link=d.source_link,
+                vertices_mm=np.round(d.mesh.vertices_mm, 2).tolist(),
+                faces=d.mesh.faces.tolist(),
+            )
+            for d in drawings
+        ],
     )

@@ -1,0 +1,50 @@
+"""Benchmark: feasible track intervals of the demo cell's targets (sweep + bisection) against a
+plain dense sweep of 1000 track positions solved with the same analytic IK.
+
+Poses: the target and approach poses of ``robots/demo-track-cell.json`` that are not on the
+turntable, each jittered (seeded) by up to 100 mm and 10 deg into 50 poses (20 quick). The
+baseline is :func:`~posebridge.cell.external_kinematics.feasible_intervals` with 1000 samples
+and no bisection (tolerance = spacing), the same IK batch path.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from posebridge.bench.timing import best_seconds
+from posebridge.cell.external_kinematics import feasible_intervals, moving_axes
+from posebridge.cell.files import load_cell
+from posebridge.cell.scene import resolve_scene
+from posebridge.resources import data_folder
+from posebridge.transforms import rotation_matrix_from_rpy
+
+__all__ = ["bench_external_axis"]
+
+DENSE_SAMPLES = 1000
+
+
+def bench_external_axis(quick: bool) -> dict[str, float]:
+    """``ik_external_axis_intervals_per_s`` and ``ik_external_axis_ratio_vs_sweep``."""
+    path = data_folder("robots") / "demo-track-cell.json"
+    scene = resolve_scene(load_cell(path), path)
+    rows = [k for k in range(len(scene.targets.names)) if moving_axes(scene, k) == [0]]
+    base = np.concatenate(
+        [scene.targets.T_world_target[rows], scene.targets.T_world_approach[rows]]
+    )
+    copies = 20 if quick else 50
+    rng = np.random.default_rng(3)
+    poses = np.repeat(base, copies, axis=0)
+    poses[:, :3, 3] += rng.uniform(-0.1, 0.1, (len(poses), 3))
+    jitter = rotation_matrix_from_rpy(rng.uniform(-10.0, 10.0, (len(poses), 3)), degrees=True)
+    poses[:, :3, :3] = poses[:, :3, :3] @ jitter
+    spacing = (scene.external.upper[0] - scene.external.lower[0]) / (DENSE_SAMPLES - 1)
+    repeats = 1 if quick else 3
+    ours = best_seconds(lambda: feasible_intervals(scene, poses, 0), repeats=repeats)
+    sweep = best_seconds(
+        lambda: feasible_intervals(scene, poses, 0, samples=DENSE_SAMPLES, tolerance=spacing),
+        repeats=repeats,
+    )
+    return {
+        "ik_external_axis_intervals_per_s": len(poses) / ours,
+        "ik_external_axis_ratio_vs_sweep": sweep / ours,
+    }

@@ -1,0 +1,453 @@
+"""Kinematics of the cell's joint vector: forward kinematics and IK with a redundant external axis.
+
+Forward kinematics (:func:`fk_cell_tool`): ``T_world_tool = T_world_base(track)
+@ T_base_tool(q)`` with the track's chain of :mod:`posebridge.cell.external_axes`;
+a target on a turntable is at ``D(theta - theta_0) @ T_world_target(theta_0)``
+(:func:`target_poses_at`).
+
+**Feasible intervals** (:func:`feasible_intervals`). With one external axis free,
+a target pose has a one-parameter family of robot solutions per arm branch. For
+each target and branch the set of axis values at which the branch reaches the
+pose within the robot's joint limits is a union of intervals. It is found by
+
+1. a sweep of ``samples`` evenly spaced axis values over the axis range, the
+   analytic IK of every target at every value solved in one batch
+   (:func:`posebridge.kinematics.ik.solve_ik_all`, all branches at once);
+2. bisection of every sample gap where a branch changes from feasible to
+   infeasible, until the bracket is at most ``tolerance`` wide (0.1 mm for the
+   track, 0.01 deg for a table); brackets of all targets and branches are
+   solved together, one IK batch per bisection step, a value shared by several
+   brackets solved once. The reported end is the feasible side of the bracket.
+
+The sweep cannot see an interval or a gap narrower than the sample spacing
+(range / (samples - 1); by default at most 500 mm on a track, 20 deg on a table); the tests compare with a dense brute-force sweep.
+Feasibility is kinematic (reach and joint limits); clearance enters through
+the choice rule.
+
+**Choice rule** (:func:`choose_external_value`): among the midpoints of the
+feasible intervals of the swept axis (the track, or the table when there is no
+track), taken with a table that carries the target at each of its sweep values
+and at its current value (the twelve longest intervals), the values whose best
+usable solution (within limits, collision-free, on the
+required branch) has the highest score: the mean of the limit-margin term (the
+smaller of the robot's and the external axes' margin fractions), the clearance
+term and the singularity term of :func:`posebridge.cell.quality.branch_score`;
+scores within 0.01 count as equal and the values with the least travel time
+(sum of |change| / speed limit) from the previous values (the scene's for
+none) win (common practice, no source).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from itertools import product
+
+import numpy as np
+import numpy.typing as npt
+
+from posebridge.cell.model import Branch
+from posebridge.cell.quality import branch_score, evaluate_configurations
+from posebridge.cell.reports import QualityThresholds
+from posebridge.cell.scene import Scene, posed_scene
+from posebridge.kinematics.branches import branch_geometry
+from posebridge.kinematics.fk import fk_tool
+from posebridge.kinematics.ik import solve_ik_all
+from posebridge.transforms import invert_transform
+from posebridge.units import BoolArray, FloatArray, m_from_mm, rad_from_deg
+
+__all__ = [
+    "SCORE_TIE",
+    "AxisIntervals",
+    "ExternalChoice",
+    "branch_triples",
+    "choose_external_value",
+    "feasible_intervals",
+    "fk_cell_tool",
+    "moving_axes",
+    "target_poses_at",
+]
+
+SCORE_TIE = 0.01
+MAX_SCORED_CANDIDATES = 12
+"""Candidates scored per target (longest feasible intervals first): each costs a clearance build."""
+"""Scores closer than this are equal in the choice rule; then the least travel wins."""
+TRACK_TOLERANCE_M = float(m_from_mm(0.1))
+TABLE_TOLERANCE_RAD = float(rad_from_deg(0.01))
+TRACK_SWEEP_SPACING_M = 0.5
+"""Largest sweep spacing on a track (default sample count: range / spacing + 1, at least 9)."""
+TABLE_SWEEP_SPACING_RAD = float(rad_from_deg(20.0))
+"""Largest sweep spacing on a turntable."""
+
+Triple = tuple[int, int, int]
+
+
+def branch_triples(scene: Scene) -> list[Triple]:
+    """Every branch of the robot's label scheme, front/up/positive first."""
+    scheme = branch_geometry(scene.robot).scheme
+    if scheme == "arm":
+        return [(s, e, w) for s, e, w in product((1, -1), repeat=3)]
+    if scheme == "planar":
+        return [(0, 1, 0), (0, -1, 0)]
+    return [(0, 0, 0)]
+
+
+def fk_cell_tool(scene: Scene, q: npt.ArrayLike, external: npt.ArrayLike) -> FloatArray:
+    """Tool poses in the world for robot joints and external values.
+
+    Parameters
+    ----------
+    q : array-like, shape (N, n)
+        Robot joints, rad or m.
+    external : array-like, shape (N, m)
+        External values, m or rad.
+
+    Returns
+    -------
+    T_world_tool : array, shape (N, 4, 4)
+    """
+    T_base_tool = fk_tool(scene.robot, q, scene.T_flange_tool)
+    T_world_base = scene.external.T_world_base(external, scene.T_world_base)
+    return T_world_base @ T_base_tool
+
+
+def _carrier(scene: Scene, target: int) -> int:
+    """External-vector index of the table carrying ``target``, -1 for none."""
+    fixture = scene.targets.fixtures[target]
+    for k, table in enumerate(scene.external.turntables):
+        if fixture in {scene.fixture_names[i] for i in table.fixtures}:
+            return scene.external.table_offset + k
+    return -1
+
+
+def moving_axes(scene: Scene, target: int) -> list[int]:
+    """External axes that move ``target`` relative to the robot (track, its table)."""
+    axes = [] if scene.external.track is None else [0]
+    carrier = _carrier(scene, target)
+    return axes + ([carrier] if carrier >= 0 else [])
+
+
+def target_poses_at(
+    scene: Scene, target: int, external: npt.ArrayLike, *, approach: bool = False
+) -> FloatArray:
+    """World poses of one target for external vectors ``external`` (m/rad, (N, m)), (N, 4, 4)."""
+    values = np.asarray(external, dtype=np.float64).reshape(-1, scene.external.count)
+    table = scene.targets.T_world_approach if approach else scene.targets.T_world_target
+    T = np.broadcast_to(table[target], (len(values), 4, 4)).copy()
+    carrier = _carrier(scene, target)
+    if carrier >= 0:
+        turntable = scene.external.turntables[carrier - scene.external.table_offset]
+        T = turntable.motion(values[:, carrier] - scene.external.values[carrier]) @ T
+    return T
+
+
+def _base_poses(
+    scene: Scene, T_world_target: FloatArray, axis: int, values: FloatArray
+) -> FloatArray:
+    """Target poses in the base frame with ``axis`` at ``values``, shape (K, S, 4, 4).
+
+    ``T_world_target`` (K, 4, 4) at the scene's values; ``values`` (K, S).
+    """
+    external = scene.external
+    if external.track is not None and axis == 0:
+        T_world_base = external.track.T_world_base(values.ravel()).reshape(values.shape + (4, 4))
+        return invert_transform(T_world_base) @ T_world_target[:, None]
+    table = external.turntables[axis - external.table_offset]
+    D = table.motion((values - external.values[axis]).ravel()).reshape(values.shape + (4, 4))
+    return invert_transform(scene.T_world_base) @ (D @ T_world_target[:, None])
+
+
+def _feasible(scene: Scene, T_base: FloatArray, triples: list[Triple]) -> BoolArray:
+    """Whether each branch reaches each pose within limits, shape (N, B) for (N, 4, 4)."""
+    solutions = solve_ik_all(scene.robot, T_base, T_flange_tool=scene.T_flange_tool)
+    ok = solutions.valid & solutions.within_limits
+    out = np.empty((len(T_base), len(triples)), dtype=bool)
+    for b, (s, e, w) in enumerate(triples):
+        match = ok.copy()
+        for labels, want in ((solutions.shoulder, s), (solutions.elbow, e), (solutions.wrist, w)):
+            if want != 0:
+                match &= (labels == want) | (labels == 0)
+        out[:, b] = np.any(match, axis=1)
+    return out
+
+
+@dataclass(frozen=True, eq=False)
+class AxisIntervals:
+    """Feasible intervals of one external axis for K targets.
+
+    Attributes
+    ----------
+    axis : int
+        Index in the external vector.
+    branches : list of (int, int, int)
+        Shoulder, elbow, wrist labels of each branch, length B.
+    intervals : list (K) of list (B) of array, shape (I, 2)
+        ``[start, end]`` of every feasible interval, m or rad, ascending.
+    spacing, tolerance : float
+        Sweep spacing and end accuracy, m or rad.
+    ik_poses : int
+        Poses solved (sweep plus bisection).
+    """
+
+    axis: int
+    branches: list[Triple]
+    intervals: list[list[FloatArray]]
+    spacing: float
+    tolerance: float
+    ik_poses: int
+
+
+def feasible_intervals(
+    scene: Scene,
+    T_world_target: npt.ArrayLike,
+    axis: int,
+    *,
+    samples: int | None = None,
+    tolerance: float | None = None,
+) -> AxisIntervals:
+    """Per target and branch, the intervals of one external axis where the branch reaches it.
+
+    Method in the module docstring (sweep, then bisection at the interval ends).
+
+    Parameters
+    ----------
+    scene : Scene
+    T_world_target : array-like, shape (K, 4, 4)
+        Tool poses in the world at the scene's external values.
+    axis : int
+        External axis index; the other axes stay at the scene's values.
+    samples : int, optional
+        Sweep values over the axis range (>= 2); by default enough for a spacing of at
+        most 500 mm (track) or 20 deg (table), at least 9.
+    tolerance : float, optional
+        Bracket width at the ends, m or rad (0.1 mm / 0.01 deg if omitted).
+
+    Returns
+    -------
+    AxisIntervals
+    """
+    external = scene.external
+    prismatic = bool(external.prismatic[axis])
+    tol = (
+        (TRACK_TOLERANCE_M if prismatic else TABLE_TOLERANCE_RAD)
+        if tolerance is None
+        else tolerance
+    )
+    T_target = np.asarray(T_world_target, dtype=np.float64).reshape(-1, 4, 4)
+    K = len(T_target)
+    lower, upper = float(external.lower[axis]), float(external.upper[axis])
+    if samples is None:
+        step = TRACK_SWEEP_SPACING_M if prismatic else TABLE_SWEEP_SPACING_RAD
+        samples = max(9, int(np.ceil((upper - lower) / step)) + 1)
+    grid = np.linspace(lower, upper, max(int(samples), 2))
+    spacing = float(grid[1] - grid[0])
+    triples = branch_triples(scene)
+    B = len(triples)
+    values = np.broadcast_to(grid, (K, len(grid)))
+    feasible = _feasible(
+        scene, _base_poses(scene, T_target, axis, values).reshape(-1, 4, 4), triples
+    )
+    feasible = feasible.reshape(K, len(grid), B)
+    ik_poses = K * len(grid)
+    # brackets: (target, gap, branch) where a branch changes between neighbouring samples
+    k_idx, gap, b_idx = np.nonzero(feasible[:, :-1] != feasible[:, 1:])
+    low = grid[gap].copy()
+    high = grid[gap + 1].copy()
+    low_feasible = feasible[k_idx, gap, b_idx]
+    steps = int(np.ceil(np.log2(max(spacing / tol, 1.0)))) if len(gap) else 0
+    for _ in range(steps):
+        mid = 0.5 * (low + high)
+        # one IK pose per distinct (target, value): brackets sharing an end share their mids
+        keys, first, inverse = np.unique(
+            k_idx * 4.0 * (abs(lower) + abs(upper) + 1.0) + mid,
+            return_index=True,
+            return_inverse=True,
+        )
+        ks = k_idx[first]
+        T_base = _base_poses(scene, T_target[ks], axis, mid[first][:, None])[:, 0]
+        at_mid = _feasible(scene, T_base, triples)[inverse.ravel(), b_idx]
+        ik_poses += len(keys)
+        same = at_mid == low_feasible
+        low = np.where(same, mid, low)
+        high = np.where(same, high, mid)
+    ends = np.where(low_feasible, low, high)  # the feasible side of each bracket
+    found: dict[tuple[int, int], tuple[list[float], list[float]]] = {}
+    for k, b, feasible_low, end in zip(
+        k_idx.tolist(), b_idx.tolist(), low_feasible.tolist(), ends.tolist(), strict=True
+    ):
+        starts, stops = found.setdefault((k, b), ([], []))
+        (stops if feasible_low else starts).append(end)
+    first_feasible = feasible[:, 0]
+    last_feasible = feasible[:, -1]
+    intervals: list[list[FloatArray]] = []
+    for k in range(K):
+        per_branch = []
+        for b in range(B):
+            starts, stops = found.get((k, b), ([], []))
+            if first_feasible[k, b]:
+                starts = [lower, *starts]
+            if last_feasible[k, b]:
+                stops = [*stops, upper]
+            per_branch.append(np.array([sorted(starts), sorted(stops)]).T.reshape(-1, 2))
+        intervals.append(per_branch)
+    return AxisIntervals(axis, triples, intervals, spacing, tol, ik_poses)
+
+
+@dataclass(frozen=True, eq=False)
+class ExternalChoice:
+    """The chosen external values of one target.
+
+    Attributes
+    ----------
+    values : array, shape (m,)
+        m, rad.
+    score : float or None
+        Score of the best usable solution there; None when no candidate is usable.
+    pinned : tuple of str
+        Axes the user pinned.
+    intervals : dict of int to AxisIntervals
+        Feasible intervals of each free moving axis (for this one target).
+    """
+
+    values: FloatArray
+    score: float | None
+    pinned: tuple[str, ...]
+    intervals: dict[int, AxisIntervals]
+
+
+def _required(branch: Branch | None) -> Triple:
+    if branch is None:
+        return (0, 0, 0)
+    words = {"front": 1, "back": -1, "up": 1, "down": -1, "positive": 1, "negative": -1}
+    return tuple(
+        0 if w is None else words[w] for w in (branch.shoulder, branch.elbow, branch.wrist)
+    )  # type: ignore[return-value]
+
+
+def _score_at(
+    scene: Scene, target: int, values: FloatArray, thresholds: QualityThresholds
+) -> float | None:
+    """Best score of a usable solution of ``target`` with the external axes at ``values``."""
+    posed = posed_scene(scene, values)
+    T_base = invert_transform(posed.T_world_base) @ posed.targets.T_world_target[target]
+    solutions = solve_ik_all(posed.robot, T_base[None], T_flange_tool=posed.T_flange_tool)
+    slots = np.flatnonzero(solutions.valid[0] & solutions.within_limits[0])
+    if slots.size == 0:
+        return None
+    quality = evaluate_configurations(posed, solutions.q[0, slots], thresholds)
+    required = _required(scene.targets.branches[target])
+    labels = np.stack([quality.shoulder, quality.elbow, quality.wrist], axis=1)
+    usable = quality.collision_free & np.all(
+        (np.array(required) == 0) | (labels == np.array(required)) | (labels == 0), axis=1
+    )
+    if not np.any(usable):
+        return None
+    external = scene.external
+    span = external.upper - external.lower
+    external_fraction = float(
+        np.min(np.minimum(values - external.lower, external.upper - values) / span)
+    )
+    score = branch_score(quality)
+    t = quality.thresholds
+    robot_margin = np.clip(quality.margins.min_fraction / t.score_margin_fraction, 0.0, 1.0)
+    own_margin = np.clip(
+        np.minimum(quality.margins.min_fraction, external_fraction) / t.score_margin_fraction,
+        0.0,
+        1.0,
+    )
+    adjusted = score + (own_margin - robot_margin) / 3.0  # the margin term with the external axes
+    return float(np.max(adjusted[usable]))
+
+
+def choose_external_value(
+    scene: Scene,
+    target: int,
+    *,
+    previous: npt.ArrayLike | None = None,
+    thresholds: QualityThresholds | None = None,
+    samples: int | None = None,
+) -> ExternalChoice:
+    """External values for one target: pinned ones kept, free moving axes chosen by the rule.
+
+    Parameters
+    ----------
+    scene : Scene
+    target : int
+    previous : array-like, shape (m,), optional
+        Values at the previous waypoint (m, rad); the scene's values if omitted.
+    thresholds : QualityThresholds, optional
+    samples : int, optional
+        Sweep values per free axis (default as in :func:`feasible_intervals`).
+
+    Returns
+    -------
+    ExternalChoice
+        Free axes are chosen one after the other (track first), each with the
+        ones before it at their chosen values.
+    """
+    external = scene.external
+    thresholds = scene.cell.thresholds if thresholds is None else thresholds
+    values = external.values.copy() if previous is None else np.array(previous, dtype=np.float64)
+    start = values.copy()
+    pins = scene.cell.targets[target].external_axes
+    pinned = []
+    for name, value in pins.items():
+        i = external.index(name)
+        values[i] = float(m_from_mm(value) if external.prismatic[i] else rad_from_deg(value))
+        pinned.append(name)
+    free = [axis for axis in moving_axes(scene, target) if external.names[axis] not in pins]
+    candidates: list[tuple[float, FloatArray]] = []  # (interval length, values)
+    if free:
+        sweep, outer = free[0], free[1:]  # the track is swept, a table is stepped over its grid
+        outer_count = samples or max(
+            9,
+            int(
+                np.ceil(
+                    (external.upper[outer[0]] - external.lower[outer[0]]) / TABLE_SWEEP_SPACING_RAD
+                )
+            )
+            + 1
+            if outer
+            else 1,
+        )
+        outer_values = (  # the grid and the value the table is at (no travel)
+            np.union1d(
+                np.linspace(external.lower[outer[0]], external.upper[outer[0]], outer_count),
+                [values[outer[0]]],
+            )
+            if outer
+            else np.array([np.nan])
+        )
+        trials = np.broadcast_to(values, (len(outer_values), external.count)).copy()
+        if outer:
+            trials[:, outer[0]] = outer_values
+        poses = np.concatenate([target_poses_at(scene, target, trial[None]) for trial in trials])
+        found = feasible_intervals(posed_scene(scene, values), poses, sweep, samples=samples)
+        for row, trial in enumerate(trials):
+            spans = {(float(a), float(b)) for per in found.intervals[row] for a, b in per}
+            for start_value, stop_value in spans:
+                value = trial.copy()
+                value[sweep] = 0.5 * (start_value + stop_value)
+                candidates.append((stop_value - start_value, value))
+    candidates.sort(key=lambda item: -item[0])
+    weights = 1.0 / external.velocity_max
+    scored: list[tuple[float, float, FloatArray]] = []  # (score, travel time, values)
+    best_score: float | None
+    for _, trial in candidates[:MAX_SCORED_CANDIDATES]:
+        score = _score_at(scene, target, trial, thresholds)
+        if score is not None:
+            scored.append((score, float(np.sum(np.abs(trial - start) * weights)), trial))
+    if scored:
+        top = max(score for score, _, _ in scored)
+        best_score, _, values = min(
+            (item for item in scored if item[0] >= top - SCORE_TIE), key=lambda item: item[1]
+        )
+    else:
+        best_score = _score_at(scene, target, values, thresholds)
+    posed = posed_scene(scene, values)
+    intervals = {
+        axis: feasible_intervals(
+            posed, posed.targets.T_world_target[target][None], axis, samples=samples
+        )
+        for axis in free
+    }
+    return ExternalChoice(values, best_score, tuple(pinned), intervals)

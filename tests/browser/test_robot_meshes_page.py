@@ -1,0 +1,106 @@
+"""The page with a URDF robot and its meshes: the invented gripper arm
+(:mod:`posebridge.bench.invented_urdf`, written by the test) as the cell's robot with the
+chain chosen in the cell file; link meshes drawn in 3D and in plan, the capsule toggle, the
+chain chosen on the page."""
+
+from __future__ import annotations
+
+import json
+import os
+from collections.abc import Iterator
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from posebridge.api.server import background_server
+from posebridge.api.settings import Settings
+from posebridge.bench.invented_urdf import write_invented_arm
+from posebridge.resources import data_folder
+
+VIEWPORT = {"width": 1600, "height": 1250}
+ARM_VERTICES = """() => {
+  const trace = document.getElementById("scene3d").data.find((t) => t.name === "arm");
+  return trace ? trace.x.length : -1;
+}"""
+PLAN_ARM_POINTS = """() => {
+  const trace = document.getElementById("plan").data.find((t) => t.name === "arm");
+  return trace ? trace.x.length : -1;
+}"""
+
+
+@pytest.fixture(scope="module")
+def gripper_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, Path]]:
+    folder = tmp_path_factory.mktemp("gripper")
+    saved = os.environ.get("XDG_DATA_HOME")
+    os.environ["XDG_DATA_HOME"] = str(folder / "data")  # the mesh cache goes there
+    urdf = write_invented_arm(folder, level=1)
+    data = json.loads((data_folder("robots") / "demo-cell.json").read_text())
+    data["robot"] = {"file": str(urdf.relative_to(folder)), "to_link": "tool0"}
+    data["paths"] = []
+    for target in data["targets"]:
+        target.pop("approach", None)
+    cell = folder / "cell.json"
+    cell.write_text(json.dumps(data), encoding="utf-8")
+    try:
+        with background_server(Settings(robot="pb-arm6", cell_path=cell)) as url:
+            yield url, cell
+    finally:
+        if saved is None:
+            os.environ.pop("XDG_DATA_HOME", None)
+        else:
+            os.environ["XDG_DATA_HOME"] = saved
+
+
+def test_page_draws_the_urdf_robot_meshes(
+    browser: Any, gripper_server: tuple[str, Path], artifacts: Path
+) -> None:
+    url, cell_file = gripper_server
+    page = browser.new_page(viewport=VIEWPORT)
+    errors: list[str] = []
+    page.on("pageerror", lambda error: errors.append(str(error)))
+    # answers refused while the robot switches chains (a 422 for a stale joint count, a 429 of the
+    # server's pacing) are logged by the browser as failed loads; the page handles them
+    page.on(
+        "console",
+        lambda m: (
+            errors.append(m.text)
+            if m.type == "error" and not m.text.startswith("Failed to load resource")
+            else None
+        ),
+    )
+    page.goto(url)
+    page.wait_for_function(
+        "() => { const s = window.posebridge && window.posebridge.getState();"
+        " return s && s.cellActive && s.robotMeshes.length === 10 && s.fk; }",
+        timeout=180_000,
+    )
+    state = page.evaluate("() => window.posebridge.getState().robot")
+    assert state["joints"][0]["name"] == "shoulder_pan" and state["dof"] == 6
+    drawn = page.evaluate(
+        "() => window.posebridge.getState().robotMeshes"
+        ".reduce((n, m) => n + m.vertices_mm.length, 0)"
+    )
+    # the 3D arm trace holds exactly the link meshes' vertices (the server's drawing answer)
+    page.wait_for_function(f"() => ({ARM_VERTICES})() === {drawn}", timeout=60_000)
+    assert page.evaluate(PLAN_ARM_POINTS) > 0
+    page.screenshot(path=str(artifacts / "page-urdf-robot-meshes.png"), full_page=True)
+    # the toggle shows the fitted capsules instead: the arm trace changes to capsule meshes
+    page.check("#show-capsules")
+    page.wait_for_function(f"() => ({ARM_VERTICES})() !== {drawn}", timeout=60_000)
+    page.screenshot(path=str(artifacts / "page-urdf-robot-capsules.png"), full_page=True)
+    # the chain control lists the URDF's leaf links (invented_urdf: tool0 and two fingers)
+    options = page.evaluate(
+        "() => [...document.querySelectorAll('#chain-end option')].map((o) => o.value)"
+    )
+    assert options == ["finger_left", "finger_right", "tool0"]
+    page.select_option("#chain-end", "finger_left")
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState();"
+        " return s.robot && s.robot.to_link === 'finger_left' && s.robot.dof === 7; }",
+        timeout=120_000,
+    )
+    saved = json.loads(cell_file.read_text())
+    assert saved["robot"]["to_link"] == "finger_left"
+    assert errors == []
+    page.close()

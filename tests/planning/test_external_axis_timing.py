@@ -1,0 +1,61 @@
+"""Cycle time with external axes: a track-only move against the trapezoid closed form
+(Lynch & Park, *Modern Robotics*, sec. 9.2.2.2: ``T = D / v + v / a`` when ``D >= v^2 / a``,
+else ``T = 2 sqrt(D / a)``)."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from posebridge.cell.files import load_cell
+from posebridge.cell.scene import resolve_scene
+from posebridge.planning.cycle_time import ExternalAxisMotion, path_cycle_time
+from posebridge.planning.path_check import check_path
+from posebridge.planning.path_sampling import sample_path
+from posebridge.resources import data_folder
+
+DEMO = data_folder("robots") / "demo-track-cell.json"
+SPEED_M_S = 1.5  # the demo track's 1500 mm/s
+ACCEL_M_S2 = 1.8  # and 1800 mm/s^2
+
+
+@pytest.mark.parametrize(
+    ("travel_mm", "percent"), [(2000.0, 100.0), (500.0, 100.0), (3000.0, 50.0)]
+)
+def test_track_only_move_is_the_trapezoid_closed_form(travel_mm: float, percent: float) -> None:
+    cell = load_cell(DEMO)
+    robot_joints = [10.0, -20.0, 30.0, 0.0, 45.0, 0.0]
+    waypoints = [
+        {"joints_deg": [*robot_joints, 200.0, 0.0], "motion": "joint", "speed_percent": 100.0},
+        {
+            "joints_deg": [*robot_joints, 200.0 + travel_mm, 0.0],
+            "motion": "joint",
+            "speed_percent": percent,
+        },
+    ]
+    data = cell.model_dump(mode="json")
+    data["paths"] = [{"name": "slide", "waypoints": waypoints}]
+    scene = resolve_scene(type(cell).model_validate(data), DEMO)
+    sampled = sample_path(scene, 0)
+    external = ExternalAxisMotion(
+        scene.paths[0].external, scene.external.velocity_max, scene.external.acceleration_max
+    )
+    timing = path_cycle_time(scene.robot, sampled, external=external)
+    k = percent / 100.0
+    v, a, d = SPEED_M_S * k, ACCEL_M_S2 * k * k, travel_mm / 1000.0
+    expected = d / v + v / a if d >= v * v / a else 2.0 * math.sqrt(d / a)  # closed form
+    assert timing.segments[0].duration == pytest.approx(expected, rel=1e-12)
+    # without the external axes the robot does not move: zero duration (closed form)
+    assert path_cycle_time(scene.robot, sampled).segments[0].duration == 0.0
+
+
+def test_demo_path_reaches_the_mill_at_its_pinned_track_value() -> None:
+    scene = resolve_scene(load_cell(DEMO), DEMO)
+    report = check_path(scene, 0)
+    # demo notes: the mill is reachable only with the track moved; the path pins it at 3300 mm
+    assert not [f for f in report.findings if f.severity == "error"]
+    assert scene.paths[0].external[-1, 0] == pytest.approx(3.3)  # the pin, in m
+    # closed form: the joint move into "joints #4" is track-only, 3500 mm at 1500 mm/s, 1800 mm/s^2
+    d, v, a = 3.5, SPEED_M_S, ACCEL_M_S2
+    assert report.segments[2].duration_s >= d / v + v / a - 1e-9
