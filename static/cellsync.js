@@ -359,7 +359,6 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-<<<<<<< HEAD
   /** Choose where a URDF robot's chain ends (the cell's robot.to_link): saved, then the robot reloads. */
   async function chooseChainEnd(toLink) {
     const { cell, readOnly } = store.get();
@@ -376,8 +375,6 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  return { loadCell, reloadCell, moveBase, retrySave, chooseChainEnd };
-=======
   /** Give waypoints of a path as joint values (the fastest sequence's edits), If-Match like every edit. */
   async function setWaypointJoints(path, edits, etag) {
     if (store.get().readOnly) {
@@ -399,6 +396,5 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  return { loadCell, reloadCell, moveBase, retrySave, setWaypointJoints };
->>>>>>> 1f470b4 (Page: fastest sequence in the path panel (saving in words, curve on the joint map and the 3D joint view with the other candidates faint, 'Use this sequence' with If-Match), export links; README, DEVELOPERS.md, CHANGELOG)
+  return { loadCell, reloadCell, moveBase, retrySave, chooseChainEnd, setWaypointJoints };
 }
