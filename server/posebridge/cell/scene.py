@@ -28,7 +28,6 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.cell.mesh_fixtures import MeshFixtureLoader
 from posebridge.cell.external_axes import (
     NO_EXTERNAL_AXES,
     ExternalAxes,
@@ -36,6 +35,7 @@ from posebridge.cell.external_axes import (
     TurntableAxis,
     rail_frame,
 )
+from posebridge.cell.mesh_fixtures import MeshFixtureLoader
 from posebridge.cell.model import (
     BoxFixture,
     Branch,

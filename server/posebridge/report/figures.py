@@ -28,12 +28,12 @@ import numpy.typing as npt
 from scipy.spatial import ConvexHull, QhullError
 
 from posebridge.cell.scene import BoxSet, CylinderSet, Scene
+from posebridge.geometry.mesh_cache import MeshCache
 from posebridge.geometry.mesh_display import (
     MIN_TRIANGLE_BUDGET,
     decimate_for_display,
     split_triangle_budget,
 )
-from posebridge.geometry.mesh_cache import MeshCache
 from posebridge.geometry.robot_meshes import robot_display_meshes
 from posebridge.kinematics.fk import fk_frames
 from posebridge.palette import PALETTE, region_colour, rgba
