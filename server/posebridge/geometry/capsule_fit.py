@@ -162,6 +162,10 @@ def _start(points: FloatArray) -> tuple[FloatArray, FloatArray]:
     return centre + low * axis, centre + high * axis
 
 
+MIN_OPTIMISED_EXTENT_M = 1e-9
+"""Point clouds smaller than this (m) get the starting capsule: the volume scale would underflow."""
+
+
 def _enclosing(points: FloatArray, a: FloatArray, b: FloatArray) -> FittedCapsule:
     radius = float(point_segment_distances(points, a, b).max()) + RADIUS_PAD
     return FittedCapsule(start=a.copy(), end=b.copy(), radius=radius)
@@ -173,9 +177,9 @@ def _fit_one(points: FloatArray, *, optimise: bool) -> FittedCapsule:
 
     hull = _hull_points(points)
     a, b = _start(hull)
-    if not optimise:
+    scale = float(np.max(np.ptp(hull, axis=0)))
+    if not optimise or scale < MIN_OPTIMISED_EXTENT_M:
         return _enclosing(hull, a, b)
-    scale = float(np.max(np.ptp(hull, axis=0))) or 1.0
 
     def volume(x: FloatArray) -> float:
         p, q = x[:3], x[3:]
