@@ -67,7 +67,7 @@ def test_placement_moves_base(open_page: Any, cell_path: Path, artifacts: Path) 
     assert page.evaluate(STATE)["placement"]["candidates_evaluated"] == 18
     # the current base is marked on the heatmap, which is up to date
     current_base = (
-        "() => { const t = document.getElementById('place-heatmap').data"
+        "() => { const t = (document.getElementById('place-heatmap').data || [])"
         ".find((d) => d.meta && d.meta.role === 'current-base'); return [t.x[0], t.y[0]]; }"
     )
     foot = page.evaluate(STATE)["cell"]["scene"]["base"]["position_mm"]
@@ -231,7 +231,7 @@ def test_fastest_sequence_is_drawn_and_used(
         timeout=30_000,
     )
     curve = page.evaluate(
-        "() => document.getElementById('joint-map-base').data"
+        "() => (document.getElementById('joint-map-base').data || [])"
         ".find((t) => t.meta && t.meta.role === 'sequence')"
     )
     joints = page.evaluate(STATE)["mapJoints"]

@@ -113,7 +113,7 @@ def test_machine_demo_passes_its_target_check_on_the_page(
                 longest = int(np.argmax(hi - lo))
                 assert high[longest] - low[longest] >= 0.5 * (hi - lo)[longest], name
         page.wait_for_function(
-            "() => document.getElementById('scene3d').data.some("
+            "() => (document.getElementById('scene3d').data || []).some("
             "(t) => t.meta && t.meta.fixture === 'machine')",
             timeout=30_000,
         )

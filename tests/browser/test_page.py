@@ -24,12 +24,12 @@ from posebridge.units import mm_from_m
 
 STATE = "() => window.posebridge.getState()"
 
-MAP_MARKERS = """() => document.getElementById("joint-map").data
+MAP_MARKERS = """() => (document.getElementById("joint-map").data || [])
   .filter((trace) => trace.meta && trace.meta.role === "ik-solutions")
   .flatMap((trace) => trace.x.map((x, k) => [x, trace.y[k]]))"""
 
 TCP_3D = """() => {
-  const trace = document.getElementById("scene3d").data.find((t) => t.name === "TCP");
+  const trace = (document.getElementById("scene3d").data || []).find((t) => t.name === "TCP");
   return [trace.x[0], trace.y[0], trace.z[0]];
 }"""
 
@@ -92,11 +92,13 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
     assert "not a safety function" in page.inner_text("footer")
     assert page.get_attribute("#status", "data-level") != "error"
     # the demo cell is drawn: its solids in 3D, its targets in the plan, listed in the cell panel
-    names = page.evaluate("() => document.getElementById('scene3d').data.map((t) => t.name)")
+    names = page.evaluate(
+        "() => (document.getElementById('scene3d').data || []).map((t) => t.name)"
+    )
     assert {"fixtures", "keep-out zones", "pedestal"} <= set(names)
     cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
     plan_targets = page.evaluate(
-        "() => document.getElementById('plan-base').data.find((t) => t.name === 'cell targets').x"
+        "() => (document.getElementById('plan-base').data || []).find((t) => t.name === 'cell targets').x"
     )
     assert plan_targets == [t["position_mm"][0] for t in cell["scene"]["targets"]]
     assert page.locator("#cell-items [role=option]").count() == len(cell["scene"]["targets"]) + sum(
@@ -104,7 +106,7 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
     ) + len(cell["cell"]["fixtures"])
     # the joint map's regions name obstacles of the cell (GET /api/cell lists the shapes)
     regions = page.evaluate(
-        "() => document.getElementById('joint-map-base').data"
+        "() => (document.getElementById('joint-map-base').data || [])"
         ".filter((t) => t.meta && t.meta.role === 'obstacle').map((t) => t.meta.obstacle)"
     )
     shapes = {s["name"] for s in cell["scene"]["shapes"]} | {"floor"}
@@ -168,7 +170,7 @@ def test_click_joint_map_moves_tool(open_page: Any) -> None:
         timeout=30_000,
     )
     page.wait_for_function(
-        "(p) => { const t = document.getElementById('scene3d').data.find((d) => d.name === 'TCP');"
+        "(p) => { const t = (document.getElementById('scene3d').data || []).find((d) => d.name === 'TCP');"
         " const s = window.posebridge.getState();"
         " return t && Math.abs(t.x[0] - s.fk.position_mm[0]) < 1e-9; }",
         timeout=30_000,
@@ -422,7 +424,7 @@ def test_drag_fixture_moves_its_targets(open_page: Any, cell_path: Path, artifac
     )
     # the plan view's cell targets are redrawn from the saved cell
     plan_x = page.evaluate(
-        "() => document.getElementById('plan-base').data.find((t) => t.name === 'cell targets').x"
+        "() => (document.getElementById('plan-base').data || []).find((t) => t.name === 'cell targets').x"
     )
     assert plan_x[scene.targets.index(shown)] == pytest.approx(page_target["position_mm"][0])
     page.screenshot(path=str(artifacts / "page-fixture-drag.png"), full_page=True)

@@ -51,7 +51,7 @@ def test_report_renders_offline(browser: Any, artifacts: Path, tmp_path: Path) -
         assert page.locator("#pb-scene3d canvas").count() >= 1  # the WebGL scene
         assert page.locator("#pb-scene3d .main-svg").count() >= 1  # its axes and legend
         # every trace of the plan view was drawn (one SVG group per trace)
-        drawn = page.evaluate("document.getElementById('pb-plan').data.length")
+        drawn = page.evaluate("(document.getElementById('pb-plan').data || []).length")
         assert page.locator("#pb-plan .scatterlayer .trace").count() == drawn
         assert page.get_by_text("Check the fence line").count() == 1
         page.screenshot(path=str(artifacts / "report-demo.png"), full_page=True)

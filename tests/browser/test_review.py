@@ -66,7 +66,7 @@ _WATCH_STATUS = """document.addEventListener("DOMContentLoaded", () => {
   });
 });"""
 
-_MAP_MARKERS = """() => document.getElementById("joint-map").data
+_MAP_MARKERS = """() => (document.getElementById("joint-map").data || [])
   .filter((trace) => trace.meta && trace.meta.role === "ik-solutions")
   .flatMap((trace) => trace.x.map((x, k) => [x, trace.y[k]]))"""
 

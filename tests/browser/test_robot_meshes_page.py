@@ -20,11 +20,11 @@ from posebridge.resources import data_folder
 
 VIEWPORT = {"width": 1600, "height": 1250}
 ARM_VERTICES = """() => {
-  const trace = document.getElementById("scene3d").data.find((t) => t.name === "arm");
+  const trace = (document.getElementById("scene3d").data || []).find((t) => t.name === "arm");
   return trace ? trace.x.length : -1;
 }"""
 PLAN_ARM_POINTS = """() => {
-  const trace = document.getElementById("plan").data.find((t) => t.name === "arm");
+  const trace = (document.getElementById("plan").data || []).find((t) => t.name === "arm");
   return trace ? trace.x.length : -1;
 }"""
 
@@ -87,7 +87,9 @@ def test_page_draws_the_urdf_robot_meshes(
     page.screenshot(path=str(artifacts / "page-urdf-robot-meshes.png"), full_page=True)
     # the toggle shows the fitted capsules instead: the arm trace changes to capsule meshes
     page.check("#show-capsules")
-    page.wait_for_function(f"() => ({ARM_VERTICES})() !== {drawn}", timeout=60_000)
+    page.wait_for_function(
+        f"() => {{ const n = ({ARM_VERTICES})(); return n > 0 && n !== {drawn}; }}", timeout=60_000
+    )
     page.screenshot(path=str(artifacts / "page-urdf-robot-capsules.png"), full_page=True)
     # the chain control lists the URDF's leaf links (invented_urdf: tool0 and two fingers)
     options = page.evaluate(

@@ -135,7 +135,7 @@ def test_joint_map_colours_hover_and_legend(open_page: Any, artifacts: Path) -> 
     page = open_page.page
     page.wait_for_function(_MAPS_CURRENT, timeout=120_000)
     regions = page.evaluate(
-        "() => document.getElementById('joint-map-base').data"
+        "() => (document.getElementById('joint-map-base').data || [])"
         ".filter((t) => t.meta && t.meta.role === 'obstacle')"
         ".map((t) => [t.meta.obstacle, t.colorscale[0][1]])"
     )
@@ -144,7 +144,7 @@ def test_joint_map_colours_hover_and_legend(open_page: Any, artifacts: Path) -> 
     assert len({colour for _, colour in regions}) == len(regions)
     # the 3D joint view has its own legend, one entry per object it shows
     groups = page.evaluate(
-        "() => document.getElementById('joint-space-3d').data"
+        "() => (document.getElementById('joint-space-3d').data || [])"
         ".filter((t) => t.meta && t.meta.role === 'obstacle').map((t) => t.name)"
     )
     legend = page.inner_text("#map3-legend")
