@@ -27,5 +27,6 @@ def _escaped(match: re.Match[str]) -> str:
 
 def printable(text: str) -> str:
     """``text`` with every control character (C0, DEL, C1, line and paragraph separators)
-    written as its backslash escape; everything else unchanged."""
+    written as its backslash escape; everything else unchanged.
+    """
     return _CONTROL.sub(_escaped, text)

@@ -41,7 +41,7 @@ def data_folder(name: str) -> Path:
 
 
 def user_data_folder() -> Path:
-    """posebridge's folder for the user's own data (not created here).
+    """Posebridge's folder for the user's own data (not created here).
 
     ``$XDG_DATA_HOME/posebridge`` (``~/.local/share/posebridge`` by default):
     the demo working copy, the mesh cache.

@@ -63,7 +63,8 @@ def plotly_script_path() -> Path:
 def _warm_up_steps(cache: RobotCache, robot_spec: str, cells: CellStore) -> list[WarmStep]:
     """The kinematics kernels of the served robot and the cell's robot first (the page's
     first answers), then a tiny joint map and the target check, so numba kernels are loaded
-    before they are asked for."""
+    before they are asked for.
+    """
 
     def kinematics() -> None:
         for robot in (cache.get(robot_spec, paths_allowed=True), cells.read().scene.robot):
@@ -101,7 +102,8 @@ def _with_robot_names(
     document: dict[str, Any], names: list[str], paths_allowed: bool
 ) -> dict[str, Any]:
     """``document`` with the robot fields of the kinematics requests and the robot model
-    query limited to ``names`` (and, where robot files are read, .toml/.urdf paths)."""
+    query limited to ``names`` (and, where robot files are read, .toml/.urdf paths).
+    """
     served: dict[str, Any] = {"type": "string", "enum": names}
     if paths_allowed:
         path = {

@@ -145,7 +145,8 @@ _STATE_ROLE = "review_role"
 
 def install_review_access(app: FastAPI) -> None:
     """Put the access checks in front of every request of ``app`` (not shared until
-    :func:`enable_review_sharing`)."""
+    :func:`enable_review_sharing`).
+    """
     app.state.review_access = None
     app.state.review_limits = RateLimiter(REVIEWER_CAPS)
     app.add_middleware(ReviewAccessMiddleware, dashboard=app)
@@ -366,7 +367,8 @@ class ReviewAccessMiddleware:
         max_body: int,
     ) -> None:
         """Pass the request on with its role, after the body size check; the owner's
-        requests are counted as in progress for the reviewer lane (:mod:`posebridge.api.lanes`)."""
+        requests are counted as in progress for the reviewer lane (:mod:`posebridge.api.lanes`).
+        """
         scope.setdefault("state", {})[_STATE_ROLE] = role
         if role == "owner":
             lane: ReviewerLane = self.dashboard.state.reviewer_lane

@@ -108,7 +108,8 @@ class CellStore:
 
     def _snapshot_of(self, cell: Cell, previous: CellSnapshot | None = None) -> CellSnapshot:
         """The cell resolved; the previous snapshot's robot is kept when the robot entry is
-        unchanged (a robot with meshes is not read again on every edit)."""
+        unchanged (a robot with meshes is not read again on every edit).
+        """
         robot = (
             previous.scene.robot
             if previous is not None and previous.cell.robot == cell.robot

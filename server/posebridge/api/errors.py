@@ -44,7 +44,8 @@ def validation_message(errors: Sequence[dict[str, Any]]) -> str:
 
 def _owner_folders(request: Request) -> list[str]:
     """Folders of the serving machine that a reviewer must not learn: the cell file's
-    folder (as given and resolved) and the home folder, longest first."""
+    folder (as given and resolved) and the home folder, longest first.
+    """
     folders = {str(Path.home())}
     cell_path = request.app.state.settings.cell_path
     if cell_path is not None:
@@ -56,7 +57,8 @@ def _owner_folders(request: Request) -> list[str]:
 def public_detail(request: Request, detail: str) -> str:
     """An error message as the asker may see it: control characters escaped
     (:func:`posebridge.messages.printable`) and, for a reviewer, the owner's folders
-    left out of file paths (``/home/ana/cells/press.json`` -> ``press.json``)."""
+    left out of file paths (``/home/ana/cells/press.json`` -> ``press.json``).
+    """
     if getattr(request.state, "review_role", "reviewer") != "owner":
         for folder in _owner_folders(request):
             detail = detail.replace(folder + os.sep, "").replace(folder, "(folder)")

@@ -67,7 +67,8 @@ LOOPBACK_NAMES: Final = frozenset({"127.0.0.1", "localhost", "::1"})
 def content_security_policy(style_attribute_hashes: tuple[str, ...] = ()) -> str:
     """Only this server's own resources: no inline scripts, no eval, no inline styles but
     the style attributes of the given hashes (``'sha256-...'``, plotly.js's one:
-    :mod:`posebridge.api.plotly_assets`), no framing, no form posts."""
+    :mod:`posebridge.api.plotly_assets`), no framing, no form posts.
+    """
     attributes = " ".join(("'unsafe-hashes'", *style_attribute_hashes))
     return (
         "default-src 'none'; script-src 'self'; style-src 'self'; style-src-elem 'self'; "
@@ -97,7 +98,8 @@ _JSON_TYPE = re.compile(r"application/(?:[a-z0-9.+-]+\+)?json", re.IGNORECASE)
 
 def parse_host(value: str, scheme: str = "http") -> tuple[str, int] | None:
     """Name (lower case, no brackets or trailing dot) and port of a ``Host`` value
-    (RFC 9110 sec. 7.2: ``host [":" port]``, default port by scheme); None if malformed."""
+    (RFC 9110 sec. 7.2: ``host [":" port]``, default port by scheme); None if malformed.
+    """
     match = _HOST.fullmatch(value.strip())
     if match is None:
         return None
@@ -199,7 +201,8 @@ class RequestGuardMiddleware:
 
 def _with_protective_headers(send: Send, policy: str, *, api: bool) -> Send:
     """``send`` adding the content security ``policy``, :data:`PROTECTIVE_HEADERS` (and
-    ``no-store`` for API answers) to the response start, keeping any the app set itself."""
+    ``no-store`` for API answers) to the response start, keeping any the app set itself.
+    """
 
     async def guarded(message: Message) -> None:
         if message["type"] == "http.response.start":

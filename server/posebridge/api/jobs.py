@@ -187,7 +187,8 @@ class JobManager:
 
     def _start_owner_job(self, kind: str, client: str) -> Job:
         """A new owner job, superseding the oldest queued owner jobs beyond the bound
-        (called with the lock held)."""
+        (called with the lock held).
+        """
         owner_jobs = [job for job in self._jobs.values() if job.owner and job.active]
         queued = [job for job in owner_jobs if job.state == "queued"]
         for old in queued[: max(0, len(owner_jobs) + 1 - MAX_ACTIVE_OWNER)]:
@@ -201,7 +202,8 @@ class JobManager:
 
     def _forget_old(self, now: float) -> None:
         """Drop finished jobs older than :data:`KEPT_FINISHED_S` and all but the newest
-        :data:`KEPT_FINISHED` finished ones (called with the lock held)."""
+        :data:`KEPT_FINISHED` finished ones (called with the lock held).
+        """
         finished = {
             key: job.finished_at
             for key, job in self._jobs.items()

@@ -162,7 +162,8 @@ class RobotCache:
 
     def get(self, spec: str, *, paths_allowed: bool) -> Robot:
         """The robot for ``spec``, loaded on first use (errors as :meth:`resolve`, and
-        :class:`RobotDescriptionError` for an invalid description)."""
+        :class:`RobotDescriptionError` for an invalid description).
+        """
         source = self.resolve(spec, paths_allowed=paths_allowed)
         if source.robot is not None:
             return source.robot

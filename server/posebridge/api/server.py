@@ -95,7 +95,8 @@ def _review_base_url(host: str, sock: socket.socket) -> str:
 def host_settings(host: str) -> dict[str, Any]:
     """The ``host_names`` and ``ip_hosts`` settings of a server bound to ``host``: the
     bound name itself, and for every interface (``0.0.0.0``, ``::``) the machine's names
-    and any IP address (:mod:`posebridge.api.guard`)."""
+    and any IP address (:mod:`posebridge.api.guard`).
+    """
     bare = host.strip("[]").lower()
     if bare in ("0.0.0.0", "::", ""):
         names = {socket.gethostname().lower(), socket.getfqdn().lower()}

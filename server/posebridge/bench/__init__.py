@@ -1,3 +1,4 @@
 """Benchmarks behind ``posebridge bench``: one module per area, each exposing
 ``bench_<area>(quick: bool) -> dict[str, float]``; :mod:`posebridge.bench.runner`
-collects them into one flat JSON object of numbers."""
+collects them into one flat JSON object of numbers.
+"""

@@ -81,7 +81,8 @@ def offset_wrist_arm() -> Robot:
 
 def bench_ik_offset_wrist(quick: bool) -> dict[str, float]:
     """Poses/s of all-branch closed-form IK (N = 100,000; 20,000 quick) and its ratio to
-    the numerical solver on the first 200 (50 quick) of the same poses."""
+    the numerical solver on the first 200 (50 quick) of the same poses.
+    """
     robot = offset_wrist_arm()
     family = ik_solver(robot).family
     if family != "offset_wrist":

@@ -192,7 +192,8 @@ class _Checker:
 
     def _matches(self, pose_index: np.ndarray) -> BoolArray:
         """Whether each solution is on its target's required branch, shape (S,): the
-        required sign of each part per pose (0: any), spread to the solutions at once."""
+        required sign of each part per pose (0: any), spread to the solutions at once.
+        """
         quality = self.quality
         labels = {"shoulder": quality.shoulder, "elbow": quality.elbow, "wrist": quality.wrist}
         matches = np.ones(quality.count, dtype=bool)
@@ -337,7 +338,8 @@ class _Checker:
 
     def _on_branch(self, triple: Triple) -> BoolArray:
         """Solutions compatible with ``triple`` (a 0 label matches either sign), shape (S,);
-        computed once per triple."""
+        computed once per triple.
+        """
         mask = self._branch_masks.get(triple)
         if mask is None:
             mask = labels_match(self._labels, triple)

@@ -57,8 +57,8 @@ __all__ = [
     "MIGRATIONS",
     "CellConflictError",
     "CellSaveError",
-    "SaveFailure",
     "DuplicateJsonKeyError",
+    "SaveFailure",
     "backup_path",
     "cell_etag",
     "cell_json",
@@ -183,7 +183,8 @@ def _save_error(error: OSError, path: Path) -> CellSaveError:
 def _refuse_read_only(target: Path, mode: int, shown: Path) -> None:
     """Refuse to replace a file its user made read-only: no owner write bit (checked even
     for the superuser, who could write anyway) or no write permission for this process;
-    a file on a read-only mount is reported as such."""
+    a file on a read-only mount is reported as such.
+    """
     try:
         read_only_mount = bool(os.statvfs(target.parent).f_flag & os.ST_RDONLY)
     except (OSError, AttributeError):  # no statvfs on this system
@@ -275,7 +276,8 @@ def migrate_cell_data(
 
 class DuplicateJsonKeyError(ValueError):
     """A JSON object names the same key twice (RFC 8259 sec. 4: names SHOULD be unique;
-    readers disagree on which value wins, so cell content refuses them)."""
+    readers disagree on which value wins, so cell content refuses them).
+    """
 
 
 def refuse_duplicate_keys(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
@@ -376,7 +378,8 @@ def _rounded(value: Any) -> Any:
 def _plain_data(cell: Cell) -> dict[str, Any]:
     """The cell as JSON data, numbers rounded as written (so the content version matches the
     file); thresholds left out while they are all the defaults, so a saved file follows later
-    defaults unless the user set its own."""
+    defaults unless the user set its own.
+    """
     data: dict[str, Any] = _rounded(cell.model_dump(mode="json", exclude_none=True))
     if cell.thresholds == QualityThresholds():
         del data["thresholds"]

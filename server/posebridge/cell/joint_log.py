@@ -40,9 +40,9 @@ from posebridge.robot.model import Robot
 from posebridge.units import FloatArray, joints_si_from_user
 
 __all__ = [
+    "EXPORT_COLUMNS",
     "MAX_LOG_BYTES",
     "MAX_LOG_ROWS",
-    "EXPORT_COLUMNS",
     "TIME_COLUMN",
     "JointLog",
     "JointLogError",
@@ -169,7 +169,8 @@ def _bad_value(text: str, line: int, column: int, name: str, where: str) -> Join
 
 def _records(reader: Iterator[list[str]], where: str) -> Iterator[list[str]]:
     """The records of a csv reader, its errors (a field over the csv module's size limit)
-    as :class:`JointLogError` naming the line."""
+    as :class:`JointLogError` naming the line.
+    """
     try:
         yield from reader
     except csv.Error as error:

@@ -63,6 +63,7 @@ from posebridge.errors import InputError
 
 __all__ = [
     "CELL_SCHEMA_VERSION",
+    "EXTERNAL_AXES_KEY",
     "MAX_ANGLE_DEG",
     "MAX_COORDINATE_MM",
     "MAX_FILE_PATH_CHARS",
@@ -84,7 +85,6 @@ __all__ = [
     "WORLD",
     "BoxFixture",
     "Branch",
-    "EXTERNAL_AXES_KEY",
     "Cell",
     "CellBase",
     "CellFileError",

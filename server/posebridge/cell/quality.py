@@ -90,9 +90,9 @@ __all__ = [
     "part_word",
     "proximity_ratio",
     "quality_findings",
+    "revolution_counts",
     "singularity_model",
     "singularity_thresholds",
-    "revolution_counts",
 ]
 
 LIMIT_TOLERANCE = 1e-9
@@ -483,7 +483,8 @@ def _pair_text(pair: ClosestPair) -> str:
 
 def geometry_findings(robot: Robot) -> list[Finding]:
     """A warning finding (code ``robot-geometry-missing``) for a robot without collision
-    geometry, else none: its clearances mean nothing."""
+    geometry, else none: its clearances mean nothing.
+    """
     message = robot.geometry_missing
     if message is None:
         return []

@@ -64,7 +64,8 @@ def _clearance(pair: ClosestPair | None) -> str:
 
 def _findings(findings: Sequence[Finding]) -> str:
     """Findings one per line; findings of one severity, code and cause (an object pair, a
-    joint) that occur more than once are one line with their count and the worst one."""
+    joint) that occur more than once are one line with their count and the worst one.
+    """
     if not findings:
         return "Findings: none"
     lines = [f"Findings ({len(findings)}):"]

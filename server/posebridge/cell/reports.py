@@ -335,7 +335,8 @@ class FindingGroup(_Result):
 def group_findings(findings: list[Finding]) -> list[FindingGroup]:
     """Findings with a cause grouped by (severity, code, cause), in first-seen order; the
     worst of a group is its finding with the smallest value (deepest penetration, smallest
-    clearance or margin)."""
+    clearance or margin).
+    """
     groups: dict[tuple[str, str, str], list[Finding]] = {}
     for finding in findings:
         if finding.cause is not None:

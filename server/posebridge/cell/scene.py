@@ -373,7 +373,8 @@ def _optional_path(path: str | Path | None) -> Path | None:
 
 def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
     """The cell's robot: bundled name, file relative to the cell file (with its chain choice
-    and mesh folders, meshes fitted), or embedded TOML."""
+    and mesh folders, meshes fitted), or embedded TOML.
+    """
     source = cell.robot
     try:
         if source.name is not None:

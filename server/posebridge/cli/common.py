@@ -163,7 +163,8 @@ class ProgressBar:
 
 def executor_from(args: argparse.Namespace, warm_up: Callable[[], None]) -> Any:
     """The executor of ``--workers``/``--scheduler`` (see ``SharedOptions.executor``); its
-    workers run ``warm_up`` (a layer's warm-up function) once when they start."""
+    workers run ``warm_up`` (a layer's warm-up function) once when they start.
+    """
     from posebridge.compute import make_executor, worker_initializer
 
     return make_executor(

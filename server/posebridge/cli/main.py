@@ -65,7 +65,8 @@ def build_parser() -> argparse.ArgumentParser:
 def _exit_2_errors() -> tuple[type[BaseException], ...]:
     """Errors that end a command with exit code 2: every input error (one base class), and
     the executor's (a bad ``--scheduler``/``--workers``, a cancelled run) and a cell changed
-    on disk meanwhile, which the user can also act on."""
+    on disk meanwhile, which the user can also act on.
+    """
     from posebridge.cell.files import CellConflictError
     from posebridge.compute import ComputationCancelled, ExecutorError
 

@@ -93,7 +93,8 @@ def joints_or(option: str, help_text: str) -> argparse.ArgumentParser:
 
 class DeprecatedFlag(argparse.Action):
     """A flag kept for one release under an old name: sets the new option's value and says
-    on stderr which option replaces it."""
+    on stderr which option replaces it.
+    """
 
     def __init__(self, option_strings: Sequence[str], dest: str, **kwargs: Any) -> None:
         self.replacement = kwargs.pop("replacement")

@@ -93,7 +93,8 @@ Result = TypeVar("Result")
 
 class ExecutorError(Exception):
     """An executor that cannot be set up or used: bad arguments, missing Dask,
-    an unreachable scheduler, a closed executor or a worker process that died."""
+    an unreachable scheduler, a closed executor or a worker process that died.
+    """
 
 
 class ComputationCancelled(Exception):  # noqa: N818 - a stop signal, not an error
@@ -188,7 +189,8 @@ def _prepare_worker(warm_up: Callable[[], None]) -> None:
 
 def worker_initializer(warm_up: Callable[[], None] | None) -> Callable[[], None]:
     """A worker initializer: one numba thread, then ``warm_up()`` (a module-level function,
-    so that it can be sent to spawned workers), or only the thread limit for ``None``."""
+    so that it can be sent to spawned workers), or only the thread limit for ``None``.
+    """
     if warm_up is None:
         return single_thread_worker
     return functools.partial(_prepare_worker, warm_up)
@@ -226,7 +228,8 @@ def run_chunks(
 
 class _ExecutorBase(ABC):
     """What every executor shares: the closed flag, the checks before a run, and the
-    context-manager protocol (leaving the ``with`` block closes the executor)."""
+    context-manager protocol (leaving the ``with`` block closes the executor).
+    """
 
     _closed = False
 

@@ -418,7 +418,8 @@ class MeshTable:
     @property
     def kernel_inputs(self) -> tuple[npt.NDArray[np.generic], ...]:
         """``(root, is_closed, tolerance, box, link, triangles, grid_frame, grid_index, grid)``,
-        the tuple the kernels read."""
+        the tuple the kernels read.
+        """
         return (
             self.root,
             self.is_closed,

@@ -402,7 +402,7 @@ def _check_collada(name: str, data: bytes, limits: MeshLimits) -> float:
 def _parse(
     name: str, data: bytes, file_type: str, buffers: dict[str, bytes] | None
 ) -> tuple[Any, Any]:
-    """trimesh's reading of the bytes as one mesh: ``(vertices, faces)`` arrays.
+    """Trimesh's reading of the bytes as one mesh: ``(vertices, faces)`` arrays.
 
     ``buffers`` maps a glTF's buffer URIs to their (checked) bytes; trimesh
     reads nothing else from disk.

@@ -121,7 +121,8 @@ def _loaded(
 def _triangles_covered(fit: CapsuleFit, points: FloatArray, faces: IntArray) -> bool:
     """Whether every triangle has all three corners in one capsule (so, capsules being convex,
     the whole triangle is inside it). A split fit can hold every vertex and still leave the
-    middle of a long coarse face uncovered; one capsule holds the vertices' hull."""
+    middle of a long coarse face uncovered; one capsule holds the vertices' hull.
+    """
     if len(fit.capsules) == 1:
         return True
     covered = np.zeros(faces.shape[0], dtype=bool)

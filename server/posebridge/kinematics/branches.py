@@ -115,7 +115,8 @@ def part_word(scheme: str, part: str, label: int) -> str:
 
 def branch_parts(scheme: str, shoulder: int, elbow: int, wrist: int) -> list[str]:
     """The words of a branch under a label scheme: three for ``"arm"``, the elbow's for
-    ``"planar"``, none for ``"none"``."""
+    ``"planar"``, none for ``"none"``.
+    """
     if scheme == "arm":
         return [
             part_word(scheme, "shoulder", shoulder),

@@ -105,8 +105,8 @@ __all__ = [
     "MAX_MOTION_SAMPLES",
     "BlendedCycleTime",
     "MotionPiece",
-    "NoParameterizationError",
     "MotionSamples",
+    "NoParameterizationError",
     "PathParameterization",
     "blended_cycle_time",
     "sample_motion",
@@ -135,7 +135,7 @@ class MotionPiece(Protocol):
 
     @property
     def duration(self) -> float:
-        """s."""
+        """S."""
         ...
 
     def sample(self, t: FloatArray) -> tuple[FloatArray, FloatArray, npt.NDArray[np.int64]]:

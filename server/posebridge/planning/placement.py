@@ -204,7 +204,8 @@ class PlacementGrid:
         yaw_count: int = 8,
     ) -> PlacementGrid:
         """The default grid: ``count x count`` positions within ``half_width_mm`` of the current
-        foot, ``yaw_count`` yaws evenly around the turn from the current yaw, the current pedestal."""
+        foot, ``yaw_count`` yaws evenly around the turn from the current yaw, the current pedestal.
+        """
         if count < 1 or yaw_count < 1:
             raise PlanningInputError("count, yaw_count: expected integers >= 1")
         base = scene.cell.base

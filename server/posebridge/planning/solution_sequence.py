@@ -829,7 +829,8 @@ def _choice(
 
 def _current_choice(scene: Scene, path: ResolvedPath, limits: SequenceLimits) -> SequenceChoice:
     """The configurations :func:`sample_path` chooses, their rest-to-rest timing as the path
-    check reports it, and the constraints of this search they break."""
+    check reports it, and the constraints of this search they break.
+    """
     sampled = sample_path(scene, path, **_sampling(limits))
     timing = path_cycle_time(
         scene.robot, sampled, linear_acceleration_m_s2=limits.linear_acceleration_m_s2

@@ -87,7 +87,8 @@ def plotly_script() -> str:
 
 def default_map_joints(scene: Scene) -> tuple[int, int]:
     """The joint pair of the report's map: the second and third joints (shoulder and elbow
-    of an arm) when the robot has three or more, else the first two."""
+    of an arm) when the robot has three or more, else the first two.
+    """
     if scene.robot.dof < 2:
         raise ReportError(f"joint map: robot {scene.robot.name!r} has fewer than two joints")
     return (1, 2) if scene.robot.dof >= 3 else (0, 1)
@@ -126,7 +127,8 @@ def _joint_values(scene: Scene, q: FloatArray) -> str:
 
 def _shown_configuration(scene: Scene, check: TargetCheckReport) -> tuple[FloatArray, str]:
     """The arm's configuration in the views: the robot's home, else the first target's
-    recommended branch, else the middle of the joint ranges."""
+    recommended branch, else the middle of the joint ranges.
+    """
     robot = scene.robot
     if robot.home is not None:
         return robot.home_configuration(), "robot's home configuration"

@@ -311,7 +311,8 @@ class CommentStore:
 
     def _storage_error(self, error: sqlite3.Error) -> CommentStorageError:
         """Plain words for an SQLite error (its result code, SQLite's "Result and Error
-        Codes" page): read-only storage, a full device, or not a comment database."""
+        Codes" page): read-only storage, a full device, or not a comment database.
+        """
         name = getattr(error, "sqlite_errorname", "") or ""
         folder = self.path.parent
         if name.startswith("SQLITE_CANTOPEN") and not folder.is_dir():

@@ -18,7 +18,7 @@ import numpy as np
 
 from posebridge.units import FloatArray
 
-__all__ = ["DhRow", "DhConvention", "rot_x", "rot_z", "split_dh_chain", "trans_x", "trans_z"]
+__all__ = ["DhConvention", "DhRow", "rot_x", "rot_z", "split_dh_chain", "trans_x", "trans_z"]
 
 DhConvention = Literal["dh_standard", "dh_modified"]
 

@@ -9,4 +9,5 @@ __all__ = ["SpacesInputError"]
 
 class SpacesInputError(InputError):
     """A map request with a bad argument: unknown joint, grid too large, a robot
-    outside the family a function handles; the message names the argument."""
+    outside the family a function handles; the message names the argument.
+    """

@@ -48,9 +48,9 @@ from posebridge.units import BoolArray, FloatArray, mm_from_m
 __all__ = [
     "PlanarChain",
     "PlanarReach",
+    "planar_radius_range",
     "planar_reach",
     "planar_reach_summary",
-    "planar_radius_range",
     "planar_reachable",
     "planar_region_area",
 ]
@@ -437,7 +437,8 @@ def planar_reach(
 def planar_reach_summary(robot: Robot) -> dict[str, object] | None:
     """:func:`planar_reach` with the robot's default tool in boundary units (mm; the
     area in m² like the reach map's volumes), ready for JSON and the ``reach`` command's
-    text; None for a non-planar robot."""
+    text; None for a non-planar robot.
+    """
     reach = planar_reach(robot)
     if reach is None:
         return None

@@ -82,7 +82,8 @@ _CHANGE_ERRORS = error_responses(404, *_SAVE_ERRORS)
 
 def cell_robot_spec(snapshot: CellSnapshot, robots: RobotCache) -> str:
     """Robot name for the kinematics routes (the bundled name, else ``cell:<robot name>``),
-    under which the cache serves the cell's robot to every asker."""
+    under which the cache serves the cell's robot to every asker.
+    """
     source = snapshot.cell.robot
     spec = source.name if source.name is not None else f"cell:{snapshot.scene.robot.name}"
     robots.pin(spec, snapshot.scene.robot)
@@ -99,7 +100,8 @@ def _answer(
 def _expected_etag(if_match: str) -> str:
     """The content version an ``If-Match`` value names (quotes and ``W/`` dropped); a
     missing header is 428 before this (posebridge.api.errors), a blank one names no
-    version and gets 412."""
+    version and gets 412.
+    """
     value = if_match.strip()
     if value.startswith("W/"):
         value = value[2:]
@@ -135,7 +137,8 @@ def _saved(
 ) -> CellDocument:
     """Run ``save`` (a version-checked change of the cell store) and answer with the saved
     cell; 412 when the cell has another content version now; 409, 503 or 507 naming the
-    file when it cannot be written (:data:`_SAVE_STATUS`), nothing changed."""
+    file when it cannot be written (:data:`_SAVE_STATUS`), nothing changed.
+    """
     try:
         snapshot = save()
     except CellConflictError as error:
@@ -178,7 +181,8 @@ def _pose_in_frame(
     """A pose edit given in the world, as the fields stored in the frame ``T_world_frame``
     (shape (4, 4)): ``T_frame_pose = inv(T_world_frame) T_world_pose`` (Lynch & Park,
     Modern Robotics, sec. 3.3.1). Position and orientation convert separately, so a field
-    not given keeps its stored value (the frame itself does not move)."""
+    not given keeps its stored value (the frame itself does not move).
+    """
     T_frame_world = invert_transform(T_world_frame)
     update: dict[str, object] = {}
     if position_mm is not None:
@@ -208,7 +212,8 @@ def _fixture_in_parent(scene: Scene, fixture: Fixture, edit: FixtureEdit) -> dic
 
 def index_of_named(kind: str, names: list[str], name: str) -> int:
     """Index of ``name`` in ``names``, the names of the cell's items of one ``kind``
-    (target, fixture, path); 404 when the cell has none of that name."""
+    (target, fixture, path); 404 when the cell has none of that name.
+    """
     if name not in names:
         raise HTTPException(status_code=404, detail=f"{kind}: no {kind} named {name!r} in the cell")
     return names.index(name)
@@ -247,7 +252,8 @@ def move_fixture(
     if_match: IfMatch,
 ) -> CellDocument:
     """New pose of one fixture in its parent's frame (the world without a parent) or in the
-    world; its children and targets move with it."""
+    world; its children and targets move with it.
+    """
     expected = _expected_etag(if_match)
     current = cells.read()
     index = index_of_named("fixture", [fixture.name for fixture in current.cell.fixtures], name)
@@ -263,7 +269,8 @@ def move_fixture(
 
 def _pose_waypoint_index(cell: Cell, name: str, index: int) -> tuple[int, int]:
     """Indices of path ``name`` and of its waypoint ``index``, which must be a pose
-    waypoint: 404 for an unknown path or index, 422 for a target or joint-values waypoint."""
+    waypoint: 404 for an unknown path or index, 422 for a target or joint-values waypoint.
+    """
     p = index_of_named("path", [path.name for path in cell.paths], name)
     waypoints = cell.paths[p].waypoints
     if index >= len(waypoints):
@@ -303,7 +310,8 @@ def move_waypoint(
     if_match: IfMatch,
 ) -> CellDocument:
     """New tool pose in the world of a path waypoint given as a pose. Target waypoints move
-    with their target, joint-values waypoints are edited in the cell file."""
+    with their target, joint-values waypoints are edited in the cell file.
+    """
     expected = _expected_etag(if_match)
     pose = Pose.model_validate(edit.model_dump())
 
@@ -333,7 +341,8 @@ def set_waypoint_joints(
     if_match: IfMatch,
 ) -> CellDocument:
     """Write joint values into waypoints of a path (e.g. the ``edits`` of the fastest
-    sequence): each keeps its motion, speed and blend and becomes a joint-values waypoint."""
+    sequence): each keeps its motion, speed and blend and becomes a joint-values waypoint.
+    """
     expected = _expected_etag(if_match)
     edits = [WaypointJoints(index=e.index, joints_deg=e.joints_deg) for e in edit.edits]
     # read before the edit (which holds the store's lock); a robot changed since is a new
@@ -419,7 +428,8 @@ def _safe_stem(file_name: str) -> str:
 
 def _store_mesh_file(folder: FilePath, name: str, data: bytes) -> bool:
     """Write ``data`` to ``folder/name`` atomically (temporary file, fsync, rename, folder
-    fsync) unless that file exists already; whether this call wrote it."""
+    fsync) unless that file exists already; whether this call wrote it.
+    """
     target = folder / name
     folder.mkdir(parents=True, exist_ok=True)
     if target.exists():
@@ -467,7 +477,8 @@ def upload_mesh(
     """Store the file next to the cell file (``meshes/<name>-<content hash>.<ending>``,
     written atomically, never overwritten), check it (format, caps, unit), then add it as
     a mesh fixture whose bounding box's bottom centre is at ``position_mm``, saved like
-    every edit (If-Match). Reviewers cannot upload (403)."""
+    every edit (If-Match). Reviewers cannot upload (403).
+    """
     expected = _expected_etag(if_match)
     if cells.path is None:
         raise HTTPException(

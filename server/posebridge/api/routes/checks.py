@@ -46,7 +46,8 @@ router = APIRouter(prefix="/api/cell", tags=["checks"], route_class=StrictJsonRo
 @router.get("/check", summary="Check every target", responses=error_responses(422, 429, 503))
 async def read_target_check(cells: CellsDep, request: Request) -> TargetCheckReport:
     """Per target: reachable or why not, usable branches, recommended branch; the branch
-    consistent over all targets; findings, errors first."""
+    consistent over all targets; findings, errors first.
+    """
     scene = (await run_in_threadpool(cells.read)).scene
     poses = len(scene.targets.names) + int(np.count_nonzero(scene.targets.approach_offset > 0.0))
     charge_reviewer(request, "check_targets", poses)
@@ -62,7 +63,8 @@ async def read_path_check(
     name: Annotated[str, Path(min_length=1, max_length=100)], cells: CellsDep, request: Request
 ) -> PathCheckReport:
     """Sampled check of every segment (reach, continuity, limits, singularities, clearance,
-    speed) with the cycle time per segment; findings tied to segment and position."""
+    speed) with the cycle time per segment; findings tied to segment and position.
+    """
     scene = (await run_in_threadpool(cells.read)).scene
     index = index_of_named("path", [path.name for path in scene.paths], name)
     return await compute_for(request, lambda: check_path(scene, index))
@@ -94,7 +96,8 @@ async def read_path_sequence(
     """One IK solution per waypoint for the shortest rest-to-rest cycle time (exact, dynamic
     programming over the layered graph of solutions) under the limit margin, required
     branches, linear-move continuity and collisions; the current choice, the saving in
-    words and the waypoint edits that make the path follow the sequence."""
+    words and the waypoint edits that make the path follow the sequence.
+    """
     scene = (await run_in_threadpool(cells.read)).scene
     index = index_of_named("path", [path.name for path in scene.paths], name)
     return await compute_for(
@@ -126,7 +129,8 @@ async def export_path_json(
     name: PathName, cells: CellsDep, request: Request, period_ms: PeriodMs = DEFAULT_PERIOD_MS
 ) -> MotionExportReport:
     """The blended motion at a fixed period: time, every joint (unit in the column name), TCP
-    pose, branch, limit margin and clearance per row, and a header block."""
+    pose, branch, limit margin and clearance per row, and a header block.
+    """
     return await _export(name, cells, request, period_ms)
 
 
@@ -143,7 +147,8 @@ async def export_path_csv(
     name: PathName, cells: CellsDep, request: Request, period_ms: PeriodMs = DEFAULT_PERIOD_MS
 ) -> Response:
     """As the JSON export, as CSV with the header block as ``#`` comment lines; it reads back
-    as a joint log in the pose check."""
+    as a joint log in the pose check.
+    """
     report = await _export(name, cells, request, period_ms)
     filename = "".join(c if c.isalnum() or c in "-_" else "_" for c in report.header.path)
     return Response(
@@ -160,7 +165,8 @@ async def diagnose_joint_pose(
     body: PoseDiagnosisRequest, cells: CellsDep, request: Request
 ) -> PoseDiagnosis:
     """TCP pose, branch, margins, singularity, clearance with the closest object, nearest
-    targets and the other branches of the same tool pose."""
+    targets and the other branches of the same tool pose.
+    """
 
     def work() -> PoseDiagnosis:
         scene = cells.read().scene
@@ -179,7 +185,8 @@ async def diagnose_joint_pose(
 async def read_arm_state(body: PoseDiagnosisRequest, cells: CellsDep, request: Request) -> ArmState:
     """Per joint the signed limit margin, every obstacle or self pair inside the clearance
     threshold with the capsule and depth, the singularity distances and the thresholds: what
-    the page shows beside the arm after every change of the joint values."""
+    the page shows beside the arm after every change of the joint values.
+    """
 
     def work() -> ArmState:
         scene = cells.read().scene
@@ -198,7 +205,8 @@ async def diagnose_joint_log(
     body: LogDiagnosisRequest, cells: CellsDep, request: Request
 ) -> LogDiagnosis:
     """Row-by-row values (margins, clearance, manipulability), the worst row, branch changes,
-    velocity jumps and findings."""
+    velocity jumps and findings.
+    """
     scene = (await run_in_threadpool(cells.read)).scene
     try:
         log = await run_in_threadpool(

@@ -18,7 +18,8 @@ router = APIRouter(prefix="/api/health", tags=["health"], route_class=StrictJson
 async def read_health(request: Request) -> HealthResult:
     """Answers as soon as the server accepts requests (on the event loop: no worker thread
     needed, so it answers while worker threads are busy), with how far the loading of the
-    numerical kernels is (posebridge.api.warmup)."""
+    numerical kernels is (posebridge.api.warmup).
+    """
     warm = request.app.state.warmup
     return HealthResult(
         status="ok",

@@ -52,7 +52,8 @@ def started(error: JobLimitError) -> HTTPException:
 
 def start_job(jobs: JobManager, kind: str, request: Request, work: JobWork) -> JobStatus:
     """Queue ``work`` as a job of the asking client and answer with its status (429 when
-    the client has too many jobs or started too many lately)."""
+    the client has too many jobs or started too many lately).
+    """
     reviewer = getattr(request.state, "review_role", "reviewer") != "owner"
     try:
         job = jobs.start(kind, client_key(request), work, reviewer=reviewer)

@@ -32,7 +32,8 @@ def start_placement(
     body: PlacementRequest, request: Request, cells: CellsDep, jobs: JobsDep
 ) -> JobStatus:
     """Score candidate base poses around the current one (positions, yaws, pedestal heights)
-    and rank them. Answers at once with the job; poll ``GET /api/jobs/{id}``."""
+    and rank them. Answers at once with the job; poll ``GET /api/jobs/{id}``.
+    """
     heights = 1 if body.heights_mm is None else len(body.heights_mm)
     candidates = body.count * body.count * body.yaw_count * heights
     if candidates > MAX_PLACEMENT_CANDIDATES:

@@ -49,7 +49,8 @@ _NO_FILE = (
 
 def _comments_file(cells: CellStore) -> Path | None:
     """The comment file of the server's cell; None for the bundled demo cell, whose
-    folder belongs to the installed package and is not written to."""
+    folder belongs to the installed package and is not written to.
+    """
     if cells.path is None:
         return None
     cell = cells.path.resolve()

@@ -63,7 +63,8 @@ def describe_robot(
     ],
 ) -> RobotImportReport:
     """Chain, joints and limits, assumed values, meshes found and missing, capsules (fitted
-    ones with their excess over the meshes' hull), notes - as `posebridge describe --json`."""
+    ones with their excess over the meshes' hull), notes - as `posebridge describe --json`.
+    """
     return robot_import_report(robots.get(robot, paths_allowed=role == "owner"), robot)
 
 
@@ -78,7 +79,8 @@ def read_robot_meshes(
 ) -> RobotMeshesResult:
     """Visual meshes (collision meshes of links without) decimated to 60 000 triangles for the
     whole robot, in their link frames; pose them with the FK answer's frames. Empty for
-    robots without mesh files."""
+    robots without mesh files.
+    """
     model = robots.get(robot, paths_allowed=role == "owner")
     cache = MeshCache.default() if model.meshes else None
     return robot_meshes_result(model, robot, robot_display_meshes(model, cache=cache))

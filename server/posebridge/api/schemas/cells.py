@@ -467,7 +467,8 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
 
 def cell_document(snapshot: CellSnapshot, robot_spec: str, *, owner: bool) -> CellDocument:
     """The answer of the cell routes for one content version; the file's full path only
-    for the ``owner`` (reviewers see its name)."""
+    for the ``owner`` (reviewers see its name).
+    """
     return CellDocument(
         etag=snapshot.etag,
         path=None if snapshot.path is None or not owner else str(snapshot.path),

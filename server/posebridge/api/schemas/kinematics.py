@@ -80,7 +80,8 @@ _MANIPULABILITY_DESCRIPTION = (
 
 def _whole_float_as_int(value: object) -> object:
     """JSON Schema's ``integer`` includes numbers with a zero fractional part (``65.0``):
-    read them as ints; everything else is left to the strict int check."""
+    read them as ints; everything else is left to the strict int check.
+    """
     if isinstance(value, float) and value.is_integer():
         return int(value)
     return value
