@@ -97,7 +97,8 @@ def test_ik_arm6_solutions_reach_the_pose_per_pinocchio(capsys: pytest.CaptureFi
     pose = [1000.0, 200.0, 700.0, 180.0, 10.0, 30.0]
     code, result = run_json(capsys, "ik", "pb-arm6", "--pose", ",".join(map(str, pose)))
     assert code == 0
-    assert result["solutions"] and result["reason"] == ""
+    assert result["solutions"]
+    assert result["reason"] == ""
     model = pin.buildModelFromXML((ROBOTS / "pb-arm6.urdf").read_text(encoding="utf-8"))
     data = model.createData()
     tool_z_m = 0.120  # default tool of pb-arm6.toml: 120 mm along the flange z axis
@@ -173,9 +174,11 @@ def test_ik_old_all_turns_option_still_works_and_says_it_is_deprecated(
     new_code, new_out, new_err = run(capsys, *argv, "--all-revolutions")
     old_code, old_out, old_err = run(capsys, *argv, "--all-turns")
     # our own contract: the old name works for one release and says what replaces it
-    assert (old_code, old_out) == (new_code, new_out) and new_err == ""
+    assert (old_code, old_out) == (new_code, new_out)
+    assert new_err == ""
     assert old_err.count("\n") == 1
-    assert "--all-turns is deprecated" in old_err and "use --all-revolutions" in old_err
+    assert "--all-turns is deprecated" in old_err
+    assert "use --all-revolutions" in old_err
 
 
 @pytest.mark.parametrize(
@@ -198,7 +201,8 @@ def test_bad_input_prints_one_line_and_exits_2(
     code, out, err = run(capsys, *argv)
     assert code == 2
     assert out == ""
-    assert err.count("\n") == 1 and message in err  # our own contract: one line, no traceback
+    assert err.count("\n") == 1  # our own contract: one line, no traceback
+    assert message in err
     assert "Traceback" not in err
 
 
@@ -207,7 +211,9 @@ def test_broken_robot_file_exits_2(capsys: pytest.CaptureFixture[str], tmp_path:
     broken.write_text("[robot\nname = 1\n", encoding="utf-8")
     code, _, err = run(capsys, "fk", str(broken), "--joints", "0")
     assert code == 2
-    assert err.startswith("posebridge fk: ") and str(broken) in err and err.count("\n") == 1
+    assert err.startswith("posebridge fk: ")
+    assert str(broken) in err
+    assert err.count("\n") == 1
 
 
 def test_check_demo_exits_1_and_names_the_branch_breaking_target(
@@ -250,7 +256,8 @@ def test_bad_input_line_escapes_control_characters(
     missing = tmp_path / "run\x1b[2J.csv"  # a terminal would clear the screen on this name
     code, _, err = run(capsys, "diagnose", DEMO_CELL, "--log", str(missing))
     assert code == 2
-    assert "\x1b" not in err and "run\\x1b[2J.csv: cannot read" in err
+    assert "\x1b" not in err
+    assert "run\\x1b[2J.csv: cannot read" in err
 
 
 def test_paths_report_the_demo_collision(capsys: pytest.CaptureFixture[str]) -> None:
@@ -269,20 +276,25 @@ def test_paths_optimise_the_demo_sequences(capsys: pytest.CaptureFixture[str]) -
     raw = json.loads(Path(DEMO_CELL).read_text())
     assert [r["path"] for r in reports] == [p["name"] for p in raw["paths"]]
     for report in reports:
-        assert report["feasible"] and report["best"]["violations"] == []
+        assert report["feasible"]
+        assert report["best"]["violations"] == []
         assert report["limit_margin_deg"] == 2.0
         best, current = report["best"]["cycle_time_s"], report["current"]["cycle_time_s"]
         if not report["current"]["violations"]:
             # the current choice is one of the sequences searched: never faster (closed form)
             assert best <= current + 1e-9
     code, out, _ = run(capsys, "paths", DEMO_CELL, "unload-to-conveyor", "--optimise")
-    assert code == 0 and "slower but valid" in out and "in collision" in out
+    assert code == 0
+    assert "slower but valid" in out
+    assert "in collision" in out
 
 
 def test_export_writes_csv_and_json(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
     target = tmp_path / "motion.csv"
     code, out, err = run(capsys, "export", DEMO_CELL, "load-press", "-o", str(target))
-    assert code == 0 and err == "" and str(target) in out
+    assert code == 0
+    assert err == ""
+    assert str(target) in out
     lines = target.read_text().splitlines()
     assert lines[0] == "# posebridge motion export"
     table = [line for line in lines if not line.startswith("#")]
@@ -294,14 +306,17 @@ def test_export_writes_csv_and_json(capsys: pytest.CaptureFixture[str], tmp_path
         capsys, "export", DEMO_CELL, "load-press", "-o", str(data), "--period-ms", "10"
     )
     body = json.loads(data.read_text())
-    assert code == 0 and body["header"]["period_ms"] == 10.0
+    assert code == 0
+    assert body["header"]["period_ms"] == 10.0
     times = [row[0] for row in body["rows"]]
     assert times[:3] == pytest.approx([0.0, 0.01, 0.02])
     assert times[-1] == pytest.approx(body["header"]["cycle_time_s"])
     code, _, err = run(capsys, "export", DEMO_CELL, "load-press", "-o", str(tmp_path / "m.txt"))
-    assert code == 2 and "expected a .csv or .json file" in err
+    assert code == 2
+    assert "expected a .csv or .json file" in err
     code, _, err = run(capsys, "export", DEMO_CELL, "nowhere", "-o", str(target))
-    assert code == 2 and "unknown path 'nowhere'" in err
+    assert code == 2
+    assert "unknown path 'nowhere'" in err
 
 
 def test_place_small_grid(capsys: pytest.CaptureFixture[str]) -> None:
@@ -326,27 +341,34 @@ def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None
     code, result = run_json(
         capsys, "jointmap", DEMO_CELL, "--joints", "j2,j3", "--resolution", "16", "--workers", "1"
     )
-    assert code == 0 and result["shape"] == [16, 16]
+    assert code == 0
+    assert result["shape"] == [16, 16]
     # the limit box of pb-arm6.toml: j2 -87..151, j3 -197..76 deg
     assert result["lower_deg"] == pytest.approx([-87.0, -197.0])
     assert result["upper_deg"] == pytest.approx([151.0, 76.0])
     code, reach = run_json(capsys, "reach", "pb-scara4", "--voxel-mm", "100", "--workers", "1")
-    assert code == 0 and reach["tool_directions"] == 26
+    assert code == 0
+    assert reach["tool_directions"] == 26
     # a planar arm reports an area in its plane instead (tests/spaces/test_planar_reach.py)
     code, planar = run_json(capsys, "reach", "pb-planar2r")
-    assert code == 0 and planar["planar"] is True and "tool_directions" not in planar
+    assert code == 0
+    assert planar["planar"] is True
+    assert "tool_directions" not in planar
     code, plan = run_json(
         capsys, "plan", DEMO_CELL, "--from", "60,-20,20,0,90,0", "--to", "-60,-20,20,0,90,0"
     )
-    assert code == 0 and plan["status"] in ("solved", "direct")
+    assert code == 0
+    assert plan["status"] in ("solved", "direct")
 
 
 def test_report_and_schema(capsys: pytest.CaptureFixture[str], tmp_path: Path) -> None:
     output = tmp_path / "review.html"
     code, out, _ = run(capsys, "report", DEMO_CELL, "-o", str(output))
-    assert code == 0 and output.is_file()
+    assert code == 0
+    assert output.is_file()
     html = output.read_text(encoding="utf-8")
-    assert "ISO 13855" in html and "<script src=" not in html
+    assert "ISO 13855" in html
+    assert "<script src=" not in html
     code, out, _ = run(capsys, "schema")
     assert code == 0
     # jsonschema (independent validator) accepts the demo cell against the printed schema
@@ -379,6 +401,7 @@ def test_machine_demo_passes_its_checks(capsys: pytest.CaptureFixture[str]) -> N
     code, report = run_json(capsys, "check", cell)
     # the demo's promise (its notes): every target reachable and clear on one branch
     assert code == 0
-    assert report["error_count"] == 0 and report["consistent_branch"]["consistent"]
+    assert report["error_count"] == 0
+    assert report["consistent_branch"]["consistent"]
     code, out, _ = run(capsys, "paths", cell)
     assert code == 0, out

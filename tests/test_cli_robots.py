@@ -31,8 +31,11 @@ def test_several_leaves_error_names_the_option(
     capsys: pytest.CaptureFixture[str], arm_urdf: Path
 ) -> None:
     code, out, err = run(capsys, "fk", str(arm_urdf), "--joints", "0,0,0,0,0,0")
-    assert code == 2 and out == ""
-    assert "--to-link" in err and "tool0" in err and "finger_left" in err
+    assert code == 2
+    assert out == ""
+    assert "--to-link" in err
+    assert "tool0" in err
+    assert "finger_left" in err
 
 
 def test_fk_on_the_chosen_chain_matches_pinocchio(
@@ -73,7 +76,8 @@ def test_describe_reports_chain_meshes_and_capsules(
     code, out, err = run(capsys, "describe", str(arm_urdf), "--to-link", "tool0", "--json")
     assert code == 0, err
     lost = json.loads(out)
-    assert not any(m["found"] for m in lost["meshes"]) and len(lost["meshes"]) == 20
+    assert not any(m["found"] for m in lost["meshes"])
+    assert len(lost["meshes"]) == 20
     code, out, err = run(
         capsys,
         "describe",
@@ -93,7 +97,8 @@ def test_describe_reports_chain_meshes_and_capsules(
     # URDF (../meshes/turret_visual.obj) is not, and is reported missing
     missing = [m["filename"] for m in report["meshes"] if not m["found"]]
     assert missing == ["../meshes/turret_visual.obj"]
-    assert len(report["link_fits"]) == 10 and report["robot_geometry_missing"] is None
+    assert len(report["link_fits"]) == 10
+    assert report["robot_geometry_missing"] is None
     # a capsule holds a box's hull, so the ratio is at least 1 (closed form)
     assert all(fit["excess"] >= 1.0 for fit in report["link_fits"])
     assert any("acceleration" in note for note in report["notes"])
@@ -101,7 +106,8 @@ def test_describe_reports_chain_meshes_and_capsules(
         capsys, "describe", str(arm_urdf), "--to-link", "tool0", "--mesh-folder", str(shelf.parent)
     )
     assert code == 0
-    assert "chain: base_link -> tool0" in text and "meshes: 19 found, 1 missing" in text
+    assert "chain: base_link -> tool0" in text
+    assert "meshes: 19 found, 1 missing" in text
     assert "fitted forearm on forearm to 1 collision mesh(es): excess" in text
 
 
@@ -109,4 +115,5 @@ def test_chain_options_refused_for_a_posebridge_description(
     capsys: pytest.CaptureFixture[str],
 ) -> None:
     code, _, err = run(capsys, "describe", "pb-arm6", "--to-link", "flange")
-    assert code == 2 and "choose the chain of a URDF or a robot overlay" in err
+    assert code == 2
+    assert "choose the chain of a URDF or a robot overlay" in err

@@ -45,9 +45,11 @@ def test_every_colour_the_page_script_reads_is_in_the_palette() -> None:
     block = re.search(r"const NAMES = \[(.*?)\];", script, flags=re.S)
     assert block is not None
     names = re.findall(r'"([a-z0-9-]+)"', block.group(1))
-    assert names and set(names) <= set(PALETTE)
+    assert names
+    assert set(names) <= set(PALETTE)
     count = re.search(r"const REGION_COUNT = (\d+);", script)
-    assert count is not None and int(count.group(1)) == REGION_COUNT
+    assert count is not None
+    assert int(count.group(1)) == REGION_COUNT
 
 
 @pytest.mark.parametrize(("index", "name"), [(0, "region-1"), (11, "region-12"), (13, "region-2")])

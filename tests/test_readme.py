@@ -38,7 +38,8 @@ def test_readme_carries_the_safety_caution() -> None:
 
 def test_ci_runs_the_readme_test_command() -> None:
     ci = (ROOT / ".ci" / "run").read_text(encoding="utf-8")
-    assert "<!-- test command -->" in ci and 'bash -c "$test_command"' in ci
+    assert "<!-- test command -->" in ci
+    assert 'bash -c "$test_command"' in ci
 
 
 def test_readme_cell_example_is_a_valid_cell() -> None:

@@ -83,7 +83,8 @@ def test_rpy_half_turn_maps_to_plus_pi() -> None:
     rpy = rpy_from_rotation_matrix(
         Rotation.from_euler("xyz", [-math.pi, 0.3, -math.pi]).as_matrix()
     )
-    assert rpy[0] == pytest.approx(math.pi) and rpy[2] == pytest.approx(math.pi)
+    assert rpy[0] == pytest.approx(math.pi)
+    assert rpy[2] == pytest.approx(math.pi)
 
 
 @pytest.mark.parametrize("pitch_deg", [90.0, -90.0])
@@ -213,7 +214,8 @@ def test_rotation_about_z_matches_scipy_with_exact_zeros() -> None:
     expected = Rotation.from_euler("z", angle.reshape(-1, 1)).as_matrix().reshape(20, 5, 3, 3)
     np.testing.assert_allclose(R, expected, atol=1e-15)
     # Rz's third row and column are exactly (0, 0, 1) (closed form)
-    assert np.all(R[..., 2, :2] == 0.0) and np.all(R[..., :2, 2] == 0.0)
+    assert np.all(R[..., 2, :2] == 0.0)
+    assert np.all(R[..., :2, 2] == 0.0)
     assert np.all(R[..., 2, 2] == 1.0)
 
 

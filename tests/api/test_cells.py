@@ -72,7 +72,8 @@ async def test_read_cell_demo(client: httpx.AsyncClient) -> None:
     # content version: cell_etag of the bundled file (posebridge.cell.files, tested in tests/cell)
     assert body["etag"] == cell_etag(load_cell(DEMO))
     assert response.headers["etag"] == f'"{body["etag"]}"'
-    assert body["path"] is None and body["saved_to_file"] is False
+    assert body["path"] is None
+    assert body["saved_to_file"] is False
     assert body["robot"] == "pb-arm6"
     raw = json.loads(DEMO.read_text())
     assert body["cell"]["title"] == raw["title"]
@@ -82,7 +83,8 @@ async def test_read_cell_demo(client: httpx.AsyncClient) -> None:
         np.add(raw["base"]["position_mm"], [0, 0, raw["base"]["pedestal_height_mm"]])
     )
     roles = {shape["name"]: shape["role"] for shape in scene["shapes"]}
-    assert roles["fence-rear"] == "keep_out" and roles["pedestal"] == "pedestal"
+    assert roles["fence-rear"] == "keep_out"
+    assert roles["pedestal"] == "pedestal"
     assert roles["press-bed"] == "fixture"
     frames = [f["name"] for f in raw["fixtures"] if f["shape"] == "frame"]
     assert not set(frames) & set(roles)  # frames have no geometry
@@ -406,7 +408,8 @@ async def test_read_cell_fixture_frames(client: httpx.AsyncClient) -> None:
         # world frame = parent chain composed with scipy (Lynch & Park sec. 3.3.1)
         expected = _fixture_world(raw, fixture["name"])
         got = drawn[fixture["name"]]
-        assert got["parent"] == fixture.get("parent") and got["shape"] == fixture["shape"]
+        assert got["parent"] == fixture.get("parent")
+        assert got["shape"] == fixture["shape"]
         assert got["position_mm"] == pytest.approx(expected[:3, 3], abs=1e-9)
         np.testing.assert_allclose(
             Rotation.from_euler("xyz", got["rpy_deg"], degrees=True).as_matrix(),

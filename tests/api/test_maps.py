@@ -37,7 +37,8 @@ async def test_start_joint_map_two_joints(
     )
     assert response.status_code == 202
     started = response.json()
-    assert started["kind"] == "joint-map" and started["result"] is None
+    assert started["kind"] == "joint-map"
+    assert started["result"] is None
     status = await job_finished(started["id"])
     assert status["state"] == "done", status["detail"]
     result = status["result"]
@@ -132,7 +133,9 @@ async def test_start_reach_section(client: httpx.AsyncClient, job_finished: JobF
     assert result["directions"] == 26
     counts = np.array(result["count"])
     assert counts.shape == (len(result["v_mm"]), len(result["u_mm"]))
-    assert counts.min() >= 0 and counts.max() <= 26 and counts.max() > 0
+    assert counts.min() >= 0
+    assert counts.max() <= 26
+    assert counts.max() > 0
     assert (result["u_axis"], result["v_axis"]) == ("x", "y")
     # the slice is the voxel-centre layer nearest the asked height, within half a voxel
     assert abs(result["value_mm"] - 700.0) <= 100.0

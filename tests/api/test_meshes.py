@@ -85,7 +85,8 @@ async def test_upload_mesh_adds_a_fixture_stored_next_to_the_cell(
     saved = json.loads(cell_file.read_text())
     assert saved["fixtures"][-1]["file"] == stored  # saved into the cell file
     shape = next(s for s in document["scene"]["shapes"] if s["name"] == "Guard-Panel-rev-2")
-    assert shape["shape"] == "mesh" and shape["closed"] is True
+    assert shape["shape"] == "mesh"
+    assert shape["closed"] is True
     # a box has 12 triangles (6 faces of 2)
     assert shape["triangles"] == 12
     drawing = (await owner.get("/api/cell/meshes/Guard-Panel-rev-2")).json()

@@ -151,7 +151,8 @@ async def test_if_match_documented_as_required(client: httpx.AsyncClient) -> Non
     ):
         operation = document["paths"][path][method]
         (header,) = [p for p in operation["parameters"] if p["in"] == "header"]
-        assert header["name"] == "if-match" and header["required"] is True
+        assert header["name"] == "if-match"
+        assert header["required"] is True
         assert {"412", "428"} <= set(operation["responses"])
     missing = await client.patch("/api/cell/base", json={"position_mm": [1, 0, 0]})
     assert missing.status_code == 428

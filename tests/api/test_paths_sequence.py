@@ -37,7 +37,8 @@ async def test_use_the_fastest_sequence_with_if_match(file_client: httpx.AsyncCl
     response = await file_client.get("/api/cell/paths/unload-to-conveyor/sequence")
     assert response.status_code == 200, response.text
     report = response.json()
-    assert report["feasible"] and report["edits"]
+    assert report["feasible"]
+    assert report["edits"]
     # the demo's return move hits the press column today (the path check finds it too)
     assert any(v["reason"] == "collision" for v in report["current"]["violations"])
     stale = await file_client.patch(
@@ -62,7 +63,8 @@ async def test_use_the_fastest_sequence_with_if_match(file_client: httpx.AsyncCl
         assert chosen["joints_deg"] == pytest.approx(best["joints_deg"], abs=1e-6)
     assert not [f for f in check["findings"] if f["kind"] == "collision"]
     again = (await file_client.get("/api/cell/paths/unload-to-conveyor/sequence")).json()
-    assert again["edits"] == [] and again["current"]["violations"] == []
+    assert again["edits"] == []
+    assert again["current"]["violations"] == []
 
 
 async def test_waypoint_edits_are_checked(file_client: httpx.AsyncClient) -> None:

@@ -46,11 +46,13 @@ async def test_cell_robot_describe_and_meshes(
         assert described.status_code == 200
         body = described.json()
         assert [j["name"] for j in body["joints"]] == list(ARM_JOINTS)
-        assert body["to_link"] == "tool0" and len(body["link_fits"]) == 10
+        assert body["to_link"] == "tool0"
+        assert len(body["link_fits"]) == 10
         meshes = await session.get("/api/robots/meshes", params={"robot": spec})
         assert meshes.status_code == 200
         drawing = meshes.json()
-        assert len(drawing["meshes"]) == 10 and 0 < drawing["triangles"] <= 60_000
+        assert len(drawing["meshes"]) == 10
+        assert 0 < drawing["triangles"] <= 60_000
         # frames 0..6: base and the six arm joints' links (URDF links carried on them)
         assert {m["link"] for m in drawing["meshes"]} <= set(range(7))
         fk = await session.post("/api/fk", json={"robot": spec, "joints_deg": [[0] * 6]})

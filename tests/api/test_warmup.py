@@ -23,12 +23,15 @@ def test_first_steps_run_before_the_rest_which_runs_behind() -> None:
     )
     warm.run_first()
     # our own contract: the first two steps have run, the server may answer; not all ready
-    assert ran == ["fk", "ik"] and warm.done == 2 and not warm.ready
+    assert ran == ["fk", "ik"]
+    assert warm.done == 2
+    assert not warm.ready
     thread = warm.start_rest()
     assert thread is not None
     gate.set()
     assert warm.wait(timeout_s=60)  # wait on the warm-up's own state
-    assert ran == ["fk", "ik", "check"] and warm.done == warm.total == 3
+    assert ran == ["fk", "ik", "check"]
+    assert warm.done == warm.total == 3
     lines = stream.getvalue().splitlines()
     # our own contract: one line per step with its number and name, then the end
     assert lines[0].startswith("posebridge: kernels 1/3: forward kinematics")
@@ -45,5 +48,6 @@ def test_a_failed_step_ends_the_warm_up_and_says_so() -> None:
     warm = KernelWarmUp([WarmStep("clearance", broken)], first=1, stream=stream)
     warm.run_first()
     # our own contract: the server still starts (ready), the failure is named
-    assert warm.ready and warm.failed == "clearance: RuntimeError: no cache folder"
+    assert warm.ready
+    assert warm.failed == "clearance: RuntimeError: no cache folder"
     assert "could not be loaded now" in stream.getvalue()

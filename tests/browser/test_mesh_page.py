@@ -109,7 +109,8 @@ def test_machine_demo_passes_its_target_check_on_the_page(
             lo, hi = np.array(bounds)
             for drawing in drawings:
                 low, high = np.array(drawing)
-                assert np.all(low >= lo - 1.0) and np.all(high <= hi + 1.0), name
+                assert np.all(low >= lo - 1.0), name
+                assert np.all(high <= hi + 1.0), name
                 longest = int(np.argmax(hi - lo))
                 assert high[longest] - low[longest] >= 0.5 * (hi - lo)[longest], name
         page.wait_for_function(

@@ -110,7 +110,8 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
         ".filter((t) => t.meta && t.meta.role === 'obstacle').map((t) => t.meta.obstacle)"
     )
     shapes = {s["name"] for s in cell["scene"]["shapes"]} | {"floor"}
-    assert regions and set(regions) <= shapes
+    assert regions
+    assert set(regions) <= shapes
     # the opening selection is the first target, and the page's target is its world pose
     state = page.evaluate(STATE)
     first = cell["scene"]["targets"][0]
@@ -135,7 +136,8 @@ def test_drag_plan_target_updates_joint_map(open_page: Any, artifacts: Path) -> 
     state = page.evaluate(STATE)
     after = state["target"]["position_mm"]
     # moving left and up on the plan view decreases x and increases y (screen axes, common practice)
-    assert after[0] < before[0] and after[1] > before[1]
+    assert after[0] < before[0]
+    assert after[1] > before[1]
     assert after[2] == before[2]
     expected = _api(
         open_page.base_url,

@@ -70,7 +70,8 @@ def test_failed_save_is_shown_and_kept(open_page: Any, cell_path: Path, artifact
             timeout=30_000,
         )
         shown = page.inner_text("#cell-save")
-        assert shown.startswith("Not saved: ") and "cell file is read-only" in shown
+        assert shown.startswith("Not saved: ")
+        assert "cell file is read-only" in shown
         assert cell_path.name in shown
         assert page.is_visible("#cell-save-retry")
         moved = page.evaluate(STATE)["target"]["position_mm"]

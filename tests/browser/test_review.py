@@ -283,7 +283,8 @@ def test_reviewer_drag_shows_ik_saves_nothing(
 
         moved = _drag_target(page, -10, -6)
         # left and up on the plan view: x smaller, y larger (screen axes, common practice)
-        assert moved[0] < start[0] and moved[1] > start[1]
+        assert moved[0] < start[0]
+        assert moved[1] > start[1]
         state = page.evaluate(_STATE)
         assert state["readOnly"] is True
         # the IK markers on the joint map are the server's answer for the dragged pose
@@ -417,7 +418,8 @@ def test_reviewer_reach_sections(browser: Any, fresh_shared: tuple[str, str, Pat
         assert page.get_attribute("#status", "data-level") != "error"
     finally:
         context.close()
-    assert seen.refused(403) == [] and seen.refused(429) == []
+    assert seen.refused(403) == []
+    assert seen.refused(429) == []
     assert seen.console_errors == []
     assert seen.page_errors == []
 

@@ -76,7 +76,8 @@ def test_page_draws_the_urdf_robot_meshes(
         timeout=180_000,
     )
     state = page.evaluate("() => window.posebridge.getState().robot")
-    assert state["joints"][0]["name"] == "shoulder_pan" and state["dof"] == 6
+    assert state["joints"][0]["name"] == "shoulder_pan"
+    assert state["dof"] == 6
     drawn = page.evaluate(
         "() => window.posebridge.getState().robotMeshes"
         ".reduce((n, m) => n + m.vertices_mm.length, 0)"

@@ -83,7 +83,8 @@ def test_collision_named_with_depth(open_page: Any, cell_path: Path, artifacts: 
     scene = resolve_scene(load_cell(cell_path))
     expected = diagnose_pose(scene, np.radians(joints))
     pair = expected.closest_environment
-    assert pair is not None and pair.distance_mm < 0
+    assert pair is not None
+    assert pair.distance_mm < 0
     words = f"{pair.capsule} {abs(pair.distance_mm):.1f} mm into {pair.other}"
     assert words in page.inner_text("#arm-state-text")
     # the views stay on screen with the log check open (one screen at 1600 x 1000)
@@ -98,8 +99,10 @@ def _assert_views_on_screen(page: Any) -> None:
     for view in ("#scene3d", "#plan", "#elevation", "#joint-map", "#joint-space-3d"):
         box = page.locator(view).bounding_box()
         assert box is not None, view
-        assert box["y"] >= 0 and box["y"] + box["height"] <= viewport["height"], view
-        assert box["x"] >= 0 and box["x"] + box["width"] <= viewport["width"], view
+        assert box["y"] >= 0, view
+        assert box["y"] + box["height"] <= viewport["height"], view
+        assert box["x"] >= 0, view
+        assert box["x"] + box["width"] <= viewport["width"], view
         assert box["height"] >= 200, view  # usable plots, not squeezed away
     # the page itself does not scroll: the panels column scrolls on its own
     assert page.evaluate("() => document.scrollingElement.scrollHeight") <= viewport["height"]
@@ -148,7 +151,8 @@ def test_joint_map_colours_hover_and_legend(open_page: Any, artifacts: Path) -> 
         ".filter((t) => t.meta && t.meta.role === 'obstacle').map((t) => t.name)"
     )
     legend = page.inner_text("#map3-legend")
-    assert groups and all(name in legend for name in groups)
+    assert groups
+    assert all(name in legend for name in groups)
     # hovering a region names its object
     name, x, y = page.evaluate(_COLLIDING_CELL)
     point = page.evaluate(

@@ -85,7 +85,8 @@ def test_rack_high_1_is_branch_limited(report, documented_joints) -> None:
     inside = [b for b in check.target.branches if b.within_limits]
     # demo notes: within the joint limits only with the shoulder in front and the elbow up,
     # either wrist sign
-    assert inside and all((b.shoulder, b.elbow) == (1, 1) for b in inside)
+    assert inside
+    assert all((b.shoulder, b.elbow) == (1, 1) for b in inside)
     assert {b.wrist for b in inside} == {1, -1}
     (finding,) = findings(report, "rack-high-1", "branch-limited")
     assert finding.severity == "info"
@@ -107,7 +108,8 @@ def test_gauge_probe_is_near_the_wrist_singularity(report, documented_joints) ->
     assert branch.singularity.kind == "wrist"
     assert branch.singularity.wrist_bend_deg == pytest.approx(3.0, abs=1e-3)
     warnings = [f for f in findings(report, "gauge-probe", "singularity") if f.pose == "target"]
-    assert warnings and all(f.severity == "warning" for f in warnings)
+    assert warnings
+    assert all(f.severity == "warning" for f in warnings)
     assert warnings[0].value == pytest.approx(3.0, abs=1e-3)
     # threshold: wrist warning below 10 deg (common practice, no source)
     assert warnings[0].threshold == 10.0
@@ -155,7 +157,8 @@ def test_required_branch_is_respected(report) -> None:
     for pose in (check.target, check.approach):
         if pose.recommended is not None:
             chosen = pose.branches[pose.recommended]
-            assert chosen.usable and chosen.matches_required_branch
+            assert chosen.usable
+            assert chosen.matches_required_branch
 
 
 def test_recommended_branch_follows_the_documented_score(report) -> None:
@@ -254,7 +257,8 @@ def test_reasons_in_their_documented_order() -> None:
     )
     check = target(check_targets(far), "far-away")
     # closed form: 5 m from the base is beyond pb-arm6's reach (links and tool sum to 1.8 m)
-    assert check.target.reason == REASON_OUT_OF_REACH and not check.reachable
+    assert check.target.reason == REASON_OUT_OF_REACH
+    assert not check.reachable
 
     def back_only(d: dict) -> None:
         d["targets"][2]["branch"] = {"shoulder": "back"}
@@ -307,7 +311,8 @@ def keep_targets(names: list[str], branches: dict[str, dict] | None = None):
 def test_consistent_branch_found() -> None:
     report = check_targets(variant(keep_targets(["rack-low-1", "rack-low-2", "gauge-probe"])))
     coverage = report.consistent_branch
-    assert coverage.consistent and coverage.breaking_targets == []
+    assert coverage.consistent
+    assert coverage.breaking_targets == []
     best = coverage.coverage[0]
     for check in report.targets:
         # the consistent branch holds a usable solution of every target and approach pose
@@ -365,7 +370,8 @@ def test_demo_reject_drop_breaks_the_common_branch_until_the_bin_moves(report) -
     assert not coverage.consistent
     assert coverage.breaking_targets == ["reject-drop"]
     (check,) = [t for t in report.targets if t.name == "reject-drop"]
-    assert check.usable_branches and all(b.startswith("back") for b in check.usable_branches)
+    assert check.usable_branches
+    assert all(b.startswith("back") for b in check.usable_branches)
 
     # the fix the cell notes suggest: the bin round to the side (azimuth 128 deg, inside +-167)
     fixed = check_targets(variant(_move_reject_bin(-550.0, 700.0)))
@@ -427,7 +433,9 @@ def test_path_check_warns_where_the_target_check_warns(report, demo_scene, fcl_c
         for f in path.findings
         if f.kind == "low_clearance" and f.obstacle == "press-die" and f.fraction_end == 1.0
     ]
-    assert near and near[0].severity == "warning" and near[0].segment_index == 0
+    assert near
+    assert near[0].severity == "warning"
+    assert near[0].segment_index == 0
     # the stretch ends at the target; its worst point is no farther than the target itself
     assert near[0].distance_mm is not None
     assert near[0].distance_mm <= reference_mm + FCL_TOLERANCE_MM
@@ -446,7 +454,8 @@ def test_environment_and_self_clearance_are_reported_apart(report, demo_scene, f
     assert best.clearance_mm == min(best.environment_clearance_mm, best.self_clearance_mm)
     text = render_target_check(report)
     row = next(line for line in text.splitlines() if line.startswith("press-load "))
-    assert "press-die" in row and best.closest_self.other in row
+    assert "press-die" in row
+    assert best.closest_self.other in row
     index = [p.name for p in demo_scene.paths].index("load-press")
     path = check_path(demo_scene, index)
     sampled = sample_path(demo_scene, index)
@@ -454,8 +463,10 @@ def test_environment_and_self_clearance_are_reported_apart(report, demo_scene, f
     reference = min(min(fcl_cell.obstacle_distances(q).values()) for q in reached)
     # python-fcl (reference library) on the same samples: the smallest clearance to the cell
     assert path.environment_clearance_mm == pytest.approx(reference * 1000.0, abs=FCL_TOLERANCE_MM)
-    assert path.closest_environment is not None and "press-die" in path.closest_environment
-    assert path.self_clearance_mm is not None and path.closest_self is not None
+    assert path.closest_environment is not None
+    assert "press-die" in path.closest_environment
+    assert path.self_clearance_mm is not None
+    assert path.closest_self is not None
     assert path.min_clearance_mm == min(path.environment_clearance_mm, path.self_clearance_mm)
 
 

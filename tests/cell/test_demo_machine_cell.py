@@ -117,7 +117,8 @@ def test_demo_path_is_clear_and_the_planner_finds_a_way_in(scene: Scene) -> None
     )
     # RRT-Connect (Kuffner & LaValle 2000) through the door with the 10 mm margin
     assert plan.status == "solved", plan.message
-    assert plan.min_clearance_mm is not None and plan.min_clearance_mm >= 10.0 - 1e-6
+    assert plan.min_clearance_mm is not None
+    assert plan.min_clearance_mm >= 10.0 - 1e-6
 
 
 def test_diagnosis_names_the_mesh_fixture_and_its_closest_point(scene: Scene) -> None:
@@ -126,7 +127,8 @@ def test_diagnosis_names_the_mesh_fixture_and_its_closest_point(scene: Scene) ->
     q = np.radians(machine.target.branches[machine.target.recommended].joints_deg)
     diagnosis = diagnose_pose(scene, q)
     closest = diagnosis.closest_environment
-    assert closest is not None and closest.other == "machine"
+    assert closest is not None
+    assert closest.other == "machine"
     point_m = np.asarray(closest.other_point_mm) / 1000.0 - scene.meshes.T_world[0, :3, 3]
     # closed form (Ericson 2004, sec. 5.1.4): signed point-box distance to each of the
     # housing's generating boxes; the named point lies on the surface of their union

@@ -70,7 +70,8 @@ def test_over_limit_jump_found(diagnosis, csv_log, limits) -> None:
     assert diagnosis.velocity.jump_count == len(pairs) == 1
     (jump,) = diagnosis.velocity.jumps
     assert (jump.joint, jump.time_from_s, jump.time_to_s) == ("j4", 3.56, 3.60)
-    assert jump.row == pairs[0] + 1 and jump.joint == f"j{joints[0] + 1}"
+    assert jump.row == pairs[0] + 1
+    assert jump.joint == f"j{joints[0] + 1}"
     assert jump.speed == pytest.approx(speed[pairs[0], joints[0]], rel=1e-9)
     assert jump.limit == pytest.approx(limits[3, 2], rel=1e-12)  # robots/pb-arm6.toml
     assert jump.change == pytest.approx(q[pairs[0] + 1, 3] - q[pairs[0], 3], abs=1e-9)
@@ -91,7 +92,8 @@ def test_smallest_margin_rows(diagnosis, csv_log, limits) -> None:
         assert extreme.margin == pytest.approx(margin[row, j], abs=1e-9)
     j6 = next(e for e in diagnosis.smallest_margins if e.joint == "j6")
     # the demo's smallest margin: j6 at 353.6 deg, 1.4 deg below its 355 deg limit
-    assert j6.time_s == 6.40 and j6.nearer_limit == "upper"
+    assert j6.time_s == 6.40
+    assert j6.nearer_limit == "upper"
     assert j6.margin == pytest.approx(limits[5, 1] - 353.6, abs=1e-9)
     low = [s for s in diagnosis.stretches if s.condition == "low limit margin"]
     assert any(s.first_row <= j6.row <= s.last_row and "j6" in s.detail for s in low)
@@ -104,10 +106,12 @@ def test_near_singular_rows(diagnosis, csv_log) -> None:
     expected = set(np.flatnonzero(np.abs(q[:, 4]) < 10.0).tolist())
     stretches = [s for s in diagnosis.stretches if s.condition == "near wrist singularity"]
     found = {r for s in stretches for r in range(s.first_row, s.last_row + 1)}
-    assert found == expected and expected
+    assert found == expected
+    assert expected
     closest = diagnosis.closest_singularity
     row = int(np.argmin(np.abs(q[:, 4])))
-    assert closest.row == row and closest.time_s == time[row]
+    assert closest.row == row
+    assert closest.time_s == time[row]
     assert closest.value == pytest.approx(abs(q[row, 4]), abs=1e-9)
     assert diagnosis.rows is not None
     np.testing.assert_allclose(diagnosis.rows.wrist_bend_deg, np.abs(q[:, 4]), atol=1e-9)
@@ -209,7 +213,8 @@ def test_velocity_check_skipped_without_time(demo_scene, documented_joints) -> N
     result = diagnose_log(demo_scene, parse_joint_log(text, demo_scene.robot), include_rows=False)
     assert not result.velocity.checked
     assert result.velocity.reason == "skipped: the log has no time_s column"
-    assert result.duration_s is None and result.rows is None
+    assert result.duration_s is None
+    assert result.rows is None
     (skipped,) = [f for f in result.findings if f.code == "velocity-skipped"]
     assert skipped.severity == "info"
 
@@ -227,7 +232,8 @@ def test_log_of_another_robot_is_refused(demo_scene, robot) -> None:
 def test_log_report_round_trips_and_renders(diagnosis) -> None:
     assert LogDiagnosis.model_validate_json(diagnosis.model_dump_json()) == diagnosis
     text = render_log_diagnosis(diagnosis)
-    assert "worst row:" in text and "j6" in text
+    assert "worst row:" in text
+    assert "j6" in text
     assert all(line == line.rstrip() for line in text.splitlines())
 
 
@@ -264,7 +270,8 @@ def test_pose_margins_branch_and_singularity(gauge_pose, documented_joints, limi
     np.testing.assert_allclose([m.margin for m in gauge_pose.margins], margin, atol=1e-9)
     assert gauge_pose.min_margin_joint == "j3"  # 23 deg of a 280 deg range: smallest fraction
     # j5 = 3 deg > 0: wrist positive (closed form for pb-arm6)
-    assert gauge_pose.wrist == 1 and gauge_pose.branch.endswith("positive")
+    assert gauge_pose.wrist == 1
+    assert gauge_pose.branch.endswith("positive")
     assert gauge_pose.singularity.kind == "wrist"
     assert gauge_pose.singularity.wrist_bend_deg == pytest.approx(3.0, abs=1e-9)
     assert any(f.code == "singularity" for f in gauge_pose.findings)
@@ -274,7 +281,8 @@ def test_pose_nearest_target_and_other_branches(gauge_pose, documented_joints) -
     nearest = gauge_pose.nearest_targets[0]
     # demo notes: gauge-probe was placed by FK of these joint values (file rounding 0.001 mm)
     assert (nearest.name, nearest.pose) == ("gauge-probe", "target")
-    assert nearest.distance_mm < 0.01 and nearest.angle_deg < 1e-3
+    assert nearest.distance_mm < 0.01
+    assert nearest.angle_deg < 1e-3
     assert any(f.code == "at-target" and f.target == "gauge-probe" for f in gauge_pose.findings)
     distances = [t.distance_mm for t in gauge_pose.nearest_targets]
     assert distances == sorted(distances)
@@ -307,7 +315,8 @@ def test_pose_input_shapes(demo_scene) -> None:
     with pytest.raises(KinematicsInputError, match="expected one configuration of 6 values"):
         diagnose_pose(demo_scene, np.zeros((2, 6)))
     text = render_pose_diagnosis(diagnose_pose(demo_scene, np.zeros(6)))
-    assert "TCP in world" in text and "* " in text
+    assert "TCP in world" in text
+    assert "* " in text
 
 
 def test_pose_reports_environment_and_self_clearance_apart(

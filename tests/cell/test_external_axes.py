@@ -309,10 +309,12 @@ def test_pinned_value_is_kept_and_the_unreachable_targets_need_the_axes(demo: Sc
         name: _dense(demo, demo.targets.T_world_target[k], 0, demo.external.values[:1]).any()
         for k, name in enumerate(demo.targets.names)
     }
-    assert at_home["lathe-chuck"] and not at_home["mill-vise"]
+    assert at_home["lathe-chuck"]
+    assert not at_home["mill-vise"]
     choice = choose_external_value(demo, demo.targets.names.index("mill-vise"))
     # closed form: the mill target is 3.5 m along the rail, the arm reaches about 1.46 m
-    assert choice.score is not None and choice.values[0] > 3.5 - 1.46
+    assert choice.score is not None
+    assert choice.values[0] > 3.5 - 1.46
     back = demo.targets.names.index("seam-back")
     assert (
         not feasible_intervals(demo, demo.targets.T_world_target[back][None], 0)
@@ -320,7 +322,8 @@ def test_pinned_value_is_kept_and_the_unreachable_targets_need_the_axes(demo: Sc
         .size
     )
     choice = choose_external_value(demo, back)
-    assert choice.score is not None and abs(choice.values[1]) > math.radians(45.0)
+    assert choice.score is not None
+    assert abs(choice.values[1]) > math.radians(45.0)
 
 
 def _demo_with_pins(pins: dict[str, dict[str, float]]) -> Scene:
@@ -346,7 +349,8 @@ def test_target_check_uses_the_external_axes() -> None:
     )
     by_name = {t.name: t for t in pinned.targets}
     # pinned at home they are out of reach (demo notes)
-    assert not by_name["mill-vise"].reachable and by_name["mill-vise"].external_pinned == ["track"]
+    assert not by_name["mill-vise"].reachable
+    assert by_name["mill-vise"].external_pinned == ["track"]
     assert by_name["mill-vise"].external_axes["track"] == 0.0
     assert not by_name["seam-back"].reachable
     assert by_name["lathe-chuck"].reachable
@@ -364,8 +368,7 @@ def test_diagnose_cli_takes_the_longer_joint_vector(capsys: pytest.CaptureFixtur
     np.testing.assert_allclose(shift, [1500.0, 0.0, 0.0], atol=1e-9)  # rail along x: closed form
     track = moved["external_margins"][0]
     # closed form: 1500 mm in [0, 4000] mm is 1500 mm from the lower end, 0.375 of the range
-    assert track["margin"] == pytest.approx(1500.0) and track["margin_fraction"] == pytest.approx(
-        0.375
-    )
+    assert track["margin"] == pytest.approx(1500.0)
+    assert track["margin_fraction"] == pytest.approx(0.375)
     assert main(["diagnose", str(DEMO), "--joints", f"{joints},1500"]) == 2
     assert "expected 6 or 8 values" in capsys.readouterr().err

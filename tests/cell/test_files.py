@@ -402,7 +402,8 @@ def test_read_only_file_is_not_replaced(tmp_path: Path) -> None:
         f"{path}: cannot save, the cell file is read-only (its permissions do not allow "
         "writing; nothing was written); make it writable (chmod u+w) to save"
     )
-    assert path.read_bytes() == original and path.stat().st_mode & 0o777 == 0o444
+    assert path.read_bytes() == original
+    assert path.stat().st_mode & 0o777 == 0o444
     assert sorted(p.name for p in tmp_path.iterdir()) == ["cell.json"]
 
 
@@ -429,7 +430,8 @@ def test_write_failures_say_what_happened(
         save_cell(_saved_elsewhere(path), path)
     assert caught.value.failure == failure
     assert str(caught.value).startswith(f"{path}: cannot save")
-    assert words in str(caught.value) and str(tmp_path) in str(caught.value)
+    assert words in str(caught.value)
+    assert str(tmp_path) in str(caught.value)
     # common practice, no source: nothing half-written, no temporary file left
     assert path.read_bytes() == original
     assert sorted(p.name for p in tmp_path.iterdir()) == ["cell.json"]

@@ -66,7 +66,8 @@ def test_export_files_read_as_logs(robot) -> None:
     # closed form: m = mm / 1000, rad = deg * pi / 180; the header follows two comment lines
     np.testing.assert_allclose(log.q[1], [1.001, 0.75, 0.4, math.pi / 2], rtol=1e-15)
     np.testing.assert_array_equal(log.line, [4, 5])
-    assert log.time_s is not None and log.time_s.tolist() == [0.0, 0.004]
+    assert log.time_s is not None
+    assert log.time_s.tolist() == [0.0, 0.004]
 
 
 def test_prismatic_joints_are_millimetres(robot) -> None:

@@ -40,8 +40,10 @@ def test_cell_robot_entry_chooses_chain_and_mesh_folders(
         },
     )
     scene = resolve_scene(load_cell(path), path)
-    assert scene.robot.joint_names == ARM_JOINTS and scene.robot.to_link == "tool0"
-    assert len(scene.robot.link_fits) == 10 and scene.robot.has_geometry
+    assert scene.robot.joint_names == ARM_JOINTS
+    assert scene.robot.to_link == "tool0"
+    assert len(scene.robot.link_fits) == 10
+    assert scene.robot.has_geometry
     # the default chain has several leaves: the error names the option of the cell file
     no_choice = cell_with_robot(tmp_path, {"file": str(urdf.relative_to(tmp_path))})
     with pytest.raises(CellFileError, match=r"robot\.file: .*to_link in a cell's robot entry"):

@@ -207,7 +207,8 @@ def test_targets_follow_their_fixtures(scene: Any) -> None:
     np.testing.assert_allclose(targets.approach_offset, [0.12, 0.0])
     assert_pose(targets.T_world_approach[0], (pick[0], pick[1] - 0.12 * pick[0][:, 2]))
     assert_pose(targets.T_world_approach[1], pose([500, 0, 1200], [180, 0, 0]))
-    assert targets.branches[0] is not None and targets.branches[0].elbow == "up"
+    assert targets.branches[0] is not None
+    assert targets.branches[0].elbow == "up"
     assert targets.branches[1] is None
     assert targets.index("park") == 1
 

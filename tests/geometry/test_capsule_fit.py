@@ -59,7 +59,8 @@ def test_generated_links_are_enclosed_and_long_links_split(reference) -> None:
         hull = trimesh.convex.convex_hull(vertices).volume
         # Capsules that hold every vertex hold the hull (convexity), so their volume is at least its.
         assert fit.hull_volume_m3 == pytest.approx(hull, rel=1e-9)
-        assert fit.excess is not None and fit.excess >= 1.0
+        assert fit.excess is not None
+        assert fit.excess >= 1.0
         assert fit.capsule_volume_m3 == pytest.approx(sum(c.volume_m3 for c in fit.capsules))
         # A link with a housing at each end is better held by more than one capsule.
         assert len(fit.capsules) >= 2

@@ -109,7 +109,8 @@ def test_minimum_equals_brute_force_over_all_pairs(cell, reference) -> None:
     expected = values.min(axis=1)  # brute force over every pair
     np.testing.assert_allclose(result.distance, expected, atol=1e-9)
     assert 0.02 < np.mean(expected < 0.0) < 0.98  # both free and colliding configurations
-    assert result.is_self.any() and not result.is_self.all()
+    assert result.is_self.any()
+    assert not result.is_self.all()
     m, k = scene.arm.count, scene.obstacles.count
     index = np.where(
         result.is_self,
@@ -284,7 +285,8 @@ def test_closest_pair_and_distance_match_python_fcl(cell) -> None:
 def test_empty_scene_reports_no_pair(arm) -> None:
     scene = ClearanceScene.build(arm, ObstacleSet.from_shapes([]), np.eye(4), self_pairs=[])
     result = clearance_batch(scene, np.zeros((2, 6)))
-    assert np.all(np.isinf(result.distance)) and np.all(result.capsule == -1)
+    assert np.all(np.isinf(result.distance))
+    assert np.all(result.capsule == -1)
     assert np.all(np.isnan(result.witness))
     assert not collision_batch(scene, np.zeros((2, 6)), threshold_m=1.0).any()
 

@@ -88,7 +88,8 @@ def test_writes_are_atomic_and_leave_no_temporary_files(tmp_path, stl) -> None:
     load_mesh_file(stl, unit="mm", cache=cache)
     names = [p.name for p in cache.folder.iterdir()]
     assert len(names) == 1
-    assert names[0].endswith(".npz") and not names[0].startswith(".tmp-")
+    assert names[0].endswith(".npz")
+    assert not names[0].startswith(".tmp-")
 
 
 def test_unwritable_folder_is_not_an_error(tmp_path, stl) -> None:

@@ -37,7 +37,8 @@ def test_budget_is_met_and_the_shape_kept(name: str, budget: int) -> None:
     display = decimate_for_display(mesh, max_triangles=budget)
     assert 0 < display.triangle_count <= budget
     assert display.source_triangles == mesh.triangle_count
-    assert display.faces.min() >= 0 and display.faces.max() < display.vertices_mm.shape[0]
+    assert display.faces.min() >= 0
+    assert display.faces.max() < display.vertices_mm.shape[0]
     lo, hi = mesh.bounds * 1000.0  # mm from m (definition)
     size = float(np.max(hi - lo))
     # Every display vertex lies within the full mesh's bounding box, grown by 5 % (decimation

@@ -83,8 +83,10 @@ def test_chosen_chain_holds_fingers_and_matches_pinocchio(arm_urdf: Path, arm: R
     assert (arm.from_link, arm.to_link) == ("base_link", "tool0")
     assert set(arm.held_joints) == {"finger_left_slide", "finger_right_slide"}
     notes = "\n".join(arm.notes)
-    assert "finger_right_slide (mimic)" in notes and "finger_left_slide (prismatic)" in notes
-    assert "not found" not in notes and "could not be read" not in notes
+    assert "finger_right_slide (mimic)" in notes
+    assert "finger_left_slide (prismatic)" in notes
+    assert "not found" not in notes
+    assert "could not be read" not in notes
     rng = np.random.default_rng(SEED)
     q = rng.uniform(arm.lower, arm.upper, (20, arm.dof))
     model, datas = pin_poses(arm_urdf, arm, q)
@@ -130,7 +132,9 @@ def test_every_mesh_vertex_and_face_inside_the_fitted_capsules_of_its_link(
         if name == "forearm":
             vertices = vertices * 0.001
         capsules = [c for c in arm.capsules if c.name in fit.capsule_names]
-        assert capsules and fit.excess is not None and fit.excess >= 1.0
+        assert capsules
+        assert fit.excess is not None
+        assert fit.excess >= 1.0
         for k, data in enumerate(datas):
             T_world_link = data.oMf[model.getFrameId(name)].homogeneous  # pinocchio
             world = vertices @ T_world_link[:3, :3].T + T_world_link[:3, 3]
@@ -160,9 +164,11 @@ def test_missing_and_unreadable_meshes_are_notes(tmp_path: Path, cache: MeshCach
     robot = load_robot_with_meshes(urdf, to_link="tool0", cache=cache)
     notes = "\n".join(robot.notes)
     assert f"package://{PACKAGE}/meshes/wrist_a_collision.stl (collision of wrist_a" in notes
-    assert "could not be read" in notes and "wrist_b_collision.stl" in notes
+    assert "could not be read" in notes
+    assert "wrist_b_collision.stl" in notes
     fits = {fit.source_link: fit.role for fit in robot.link_fits}
-    assert fits["wrist_a"] == "visual" and fits["wrist_b"] == "visual"  # fall back to visual
+    assert fits["wrist_a"] == "visual"
+    assert fits["wrist_b"] == "visual"  # fall back to visual
 
 
 def test_mesh_folders_find_a_moved_package(tmp_path: Path, cache: MeshCache) -> None:
@@ -177,7 +183,8 @@ def test_mesh_folders_find_a_moved_package(tmp_path: Path, cache: MeshCache) -> 
     (moved / "meshes").rename(lost_pkg / "meshes")
     found = load_robot(urdf, to_link="tool0", mesh_folders=[tmp_path / "pkgs"])
     package_refs = [m for m in found.meshes if m.filename.startswith("package://")]
-    assert package_refs and all(m.path is not None for m in package_refs)
+    assert package_refs
+    assert all(m.path is not None for m in package_refs)
 
 
 def test_no_geometry_robot_says_so() -> None:
@@ -220,7 +227,8 @@ def test_overlay_adds_what_urdf_lacks(arm_urdf: Path, cache: MeshCache) -> None:
     overlay = arm_urdf.parent.parent.parent / "my-arm.toml"
     overlay.write_text(OVERLAY, encoding="utf-8")
     robot = load_robot_with_meshes(overlay, cache=cache)
-    assert robot.name == "my-gripper-arm" and robot.to_link == "tool0"
+    assert robot.name == "my-gripper-arm"
+    assert robot.to_link == "tool0"
     pan = robot.joints[0]
     # 250 deg/s^2, 2500 deg/s^3, +-120 deg in SI (unit conversion, closed form)
     assert pan.acceleration_max == pytest.approx(math.radians(250))
@@ -232,7 +240,9 @@ def test_overlay_adds_what_urdf_lacks(arm_urdf: Path, cache: MeshCache) -> None:
     np.testing.assert_allclose(robot.T_flange_tool[:3, 3], [0, 0, 0.15])
     np.testing.assert_allclose(np.degrees(robot.home_configuration()), [0, 10, -20, 0, 30, 0])
     names = {c.name for c in robot.capsules}
-    assert "gripper-cover" in names and "gripper_body" not in names and "finger_right" not in names
+    assert "gripper-cover" in names
+    assert "gripper_body" not in names
+    assert "finger_right" not in names
     assert "gripper_body" not in {fit.source_link for fit in robot.link_fits}
     notes = "\n".join(robot.notes)
     assert "robot overlay my-arm.toml" in notes
@@ -253,7 +263,8 @@ def test_overlay_problems_name_file_and_field(arm_urdf: Path) -> None:
     with pytest.raises(RobotDescriptionError) as caught:
         load_robot(overlay)
     text = str(caught.value)
-    assert "bad-overlay.toml:" in text and "joint.shoulder_pan.min_deg: soft limits" in text
+    assert "bad-overlay.toml:" in text
+    assert "joint.shoulder_pan.min_deg: soft limits" in text
     assert "capsule[0].link: unknown link 'nowhere'" in text
 
 
@@ -266,4 +277,5 @@ def test_coarse_faces_are_held_whole(tmp_path: Path, cache: MeshCache) -> None:
     # the middle of the upper arm box (from invented_urdf's box corners, closed form)
     centre = np.array([[0.0, -0.08, 0.26]])
     assert any(point_segment_distances(centre, c.start, c.end)[0] <= c.radius for c in capsules)
-    assert upper.excess is not None and upper.excess >= 1.0  # one capsule holds the hull
+    assert upper.excess is not None
+    assert upper.excess >= 1.0  # one capsule holds the hull

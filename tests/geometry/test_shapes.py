@@ -32,7 +32,9 @@ def test_tool_capsule_moves_into_last_link_frame(robot) -> None:
     tool = Capsule("pointer", 0, np.zeros(3), np.array([0.0, 0.0, 0.12]), 0.03)
     arm = ArmCapsules.from_robot(model, [tool])
     assert arm.count == len(model.capsules) + 1
-    assert arm.link[-1] == 6 and arm.is_tool[-1] and not arm.is_tool[:-1].any()
+    assert arm.link[-1] == 6
+    assert arm.is_tool[-1]
+    assert not arm.is_tool[:-1].any()
     np.testing.assert_allclose(arm.start[-1], [0.0, 0.0, 0.0], atol=1e-12)
     np.testing.assert_allclose(arm.end[-1], [0.12, 0.0, 0.0], atol=1e-12)  # closed form
     # Bounding sphere: half length 0.06 plus radius 0.03 (closed form).

@@ -45,7 +45,8 @@ def test_pb_arm6_hand_cases() -> None:
     assert shoulder[3] == -1
     # closed form: the forearm (627 mm along, 97 mm above axis 3) lines up with the
     # upper arm at q3 = atan2(-0.627, 0.097); beyond it (more negative) the elbow is down
-    assert elbow[4] == -1 and elbow[5] == 1
+    assert elbow[4] == -1
+    assert elbow[5] == 1
 
 
 def _pin_labels(q: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -129,7 +130,8 @@ def test_planar_two_link_left_and_right() -> None:
     # closed form: cross(flange, elbow) . z = -l1 l2 sin(q2), so the elbow is left of the
     # line to the flange (+1) when q2 < 0, right (-1) when q2 > 0, in line when q2 = 0
     assert elbow.tolist() == [-1, 1, 0, -1]
-    assert not shoulder.any() and not wrist.any()
+    assert not shoulder.any()
+    assert not wrist.any()
     assert branch_geometry(robot).scheme == "planar"
 
 

@@ -35,7 +35,8 @@ def test_closed_form_of_pb_gantry3(gantry: Robot, geometry: GantryGeometry) -> N
     # on the rotation axis the TCP moves with x, y and -z: q = (px, py, z_tcp0 - pz), and
     # c is the turn about z from the zero orientation
     tcp0 = fk_tool(gantry, np.zeros((1, 4)))[0]
-    assert abs(tcp0[0, 3]) < 1e-12 and abs(tcp0[1, 3]) < 1e-12  # TCP on the rotation axis
+    assert abs(tcp0[0, 3]) < 1e-12
+    assert abs(tcp0[1, 3]) < 1e-12  # TCP on the rotation axis
     target = tcp0.copy()
     target[:3, :3] = rotation_matrix_about_axis([0.0, 0.0, 1.0], 0.7) @ tcp0[:3, :3]
     target[:3, 3] = [1.2, 0.4, tcp0[2, 3] - 0.3]
@@ -62,7 +63,8 @@ def test_outside_the_travel(gantry: Robot, geometry: GantryGeometry) -> None:
     target[0, 0, 3] = 2.5  # robots/pb-gantry3.toml: x travel 0..2000 mm
     result = solve_gantry(gantry, geometry, target)
     # the linear system has a solution everywhere; only the limits rule it out
-    assert result.valid[0, 0] and not result.within_limits[0, 0]
+    assert result.valid[0, 0]
+    assert not result.within_limits[0, 0]
     assert result.q[0, 0, 0] == pytest.approx(2.5)
     assert result.reason == (REASON_NO_WITHIN_LIMITS,)
 

@@ -448,7 +448,8 @@ def test_no_branch_within_limits(offset_wrist_arm) -> None:
     result = solve_offset_wrist(narrow, geometry, target, T_flange_tool=np.eye(4))
     # q itself is 0.45 rad or more from zero on every joint, and the other branches
     # differ from it by more than the 0.01 rad limits
-    assert result.valid.any() and not result.within_limits.any()
+    assert result.valid.any()
+    assert not result.within_limits.any()
     assert result.reason == (REASON_NO_WITHIN_LIMITS,)
 
 

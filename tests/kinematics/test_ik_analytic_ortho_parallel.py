@@ -465,7 +465,8 @@ def test_no_branch_within_limits(arm6: Robot) -> None:
     result = solve_ortho_parallel(narrow, extracted, fk_tool(narrow, q))
     # every solution has a joint beyond +-0.01 rad (q itself, and the other branches
     # differ from it by more than that)
-    assert result.valid.any() and not result.within_limits.any()
+    assert result.valid.any()
+    assert not result.within_limits.any()
     assert result.reason == (REASON_NO_WITHIN_LIMITS,)
 
 

@@ -291,4 +291,5 @@ def test_continuous_joint_takes_the_revolution_nearest_the_seed() -> None:
     assert result.q[0, up, 0] == pytest.approx(np.radians(30.0) + 4 * np.pi, abs=1e-4)
     assert result.q[0, down, 0] == pytest.approx(np.radians(120.0) + 2 * np.pi, abs=1e-4)
     assert (result.revolutions[0, up, 0], result.revolutions[0, down, 0]) == (2, 1)
-    assert result.within_limits[0, up] and result.within_limits[0, down]
+    assert result.within_limits[0, up]
+    assert result.within_limits[0, down]

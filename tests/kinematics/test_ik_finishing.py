@@ -26,7 +26,8 @@ def test_one_slot_per_candidate_nearest_zero_revolution() -> None:
     assert result.q.shape == (1, 1, 6)
     assert np.isclose(result.q[0, 0, 5], 0.3)  # closed form: 0.3 + 2 pi wrapped
     assert result.revolutions[0, 0, 5] == 0
-    assert result.valid[0, 0] and result.within_limits[0, 0]
+    assert result.valid[0, 0]
+    assert result.within_limits[0, 0]
     assert result.reason == ("",)
 
 
@@ -64,7 +65,8 @@ def test_outside_limits_sorts_after_within_and_names_the_reason() -> None:
 def test_candidates_that_miss_the_pose_leave_empty_slots() -> None:
     robot = load_robot("pb-arm6")
     result = finish_solutions(robot, _candidate(), [[False]], labels=NO_LABELS, method="test")
-    assert not result.valid[0, 0] and not result.within_limits[0, 0]
+    assert not result.valid[0, 0]
+    assert not result.within_limits[0, 0]
     assert np.all(np.isnan(result.q[0, 0]))  # module rule: empty slots hold NaN
     assert result.branch_label(0, 0) == ""
     assert result.reason == (REASON_OUT_OF_REACH,)

@@ -100,7 +100,8 @@ def test_nearest_kind_wins(arm6) -> None:
     # wrist 2 deg (ratio 0.2 of 10 deg) and elbow 4 deg (0.8 of 5 deg): wrist is nearer
     q = np.array([[0.1, 0.3, Q3_STRETCHED + np.radians(4.0), 0.4, np.radians(2.0), 0.5]])
     report = classify_singularity(arm6, q)
-    assert report.near_wrist[0] and report.near_elbow[0]
+    assert report.near_wrist[0]
+    assert report.near_elbow[0]
     assert report.label == ("wrist",)
 
 

@@ -259,7 +259,8 @@ def test_demo_paths_are_faster_blended_where_they_blend() -> None:
         resolved = scene.paths[index]
         # source: the cell file: only waypoints with a blend radius can be passed without
         # stopping, never the first or the last
-        assert not timing.blended[0] and not timing.blended[-1]
+        assert not timing.blended[0]
+        assert not timing.blended[-1]
         assert np.all(resolved.blend_radius[timing.blended] > 0.0)
         assert timing.total <= timing.rest_to_rest_total
         # the blend stays within the blend zone of every blended waypoint
@@ -302,7 +303,8 @@ def test_path_check_reports_blended_beside_rest_to_rest() -> None:
         [joints([0.0, 30.0]), joints([end / 2, 30.0], blend_mm=50.0), joints([end, 30.0])],
     )
     report = check_path(scene, 0)
-    assert report.cycle_time_s is not None and report.blended_cycle_time_s is not None
+    assert report.cycle_time_s is not None
+    assert report.blended_cycle_time_s is not None
     # closed form (Lynch & Park, Modern Robotics, sec. 9.2.2.2): one trapezoid over 1 rad at
     # v_max = 1 rad/s, a_max = 2 rad/s^2 is 1.5 s; TOPP-RA's grid within 0.2 %
     assert report.blended_cycle_time_s == pytest.approx(1.5, rel=2e-3)

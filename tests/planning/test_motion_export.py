@@ -65,8 +65,10 @@ def test_json_export_has_the_header_block_and_units(demo: Scene) -> None:
     report = export_motion(demo, 0, period_ms=10.0, cell_name="demo-cell.json")
     data = json.loads(motion_json(report))
     header = data["header"]
-    assert header["cell"] == "demo-cell.json" and header["robot"] == demo.robot.name
-    assert header["tool"] == demo.tool_name and header["path"] == demo.paths[0].name
+    assert header["cell"] == "demo-cell.json"
+    assert header["robot"] == demo.robot.name
+    assert header["tool"] == demo.tool_name
+    assert header["path"] == demo.paths[0].name
     assert header["posebridge_version"]
     # the cell file's speeds, as written (the demo cell is the reference)
     written = demo.cell.paths[0].waypoints

@@ -205,7 +205,8 @@ def test_demo_return_joint_move_hits_the_press_column() -> None:
     # the cell file: the path ends with a joint move back to the start configuration
     assert (hit.segment_index, last.motion) == (last.index, "joint")
     assert (hit.capsule, hit.obstacle) == ("gripper-body", "press-column-right")
-    assert hit.distance_mm is not None and hit.distance_mm < 0.0
+    assert hit.distance_mm is not None
+    assert hit.distance_mm < 0.0
     # a joint move runs all joints on one straight line in joint space (documented)
     q_from, q_to = sample_path(scene, index).waypoint_q[-2:]
     q = q_from + hit.fraction_worst * (q_to - q_from)
@@ -278,6 +279,7 @@ def test_stopping_near_a_singularity_is_a_warning_as_in_the_target_check() -> No
     # closed form: pb-arm6's wrist is straight at j5 = 0 (j4 and j6 both turn about x in
     # robots/pb-arm6.toml), so the arm stops 3 deg from the wrist singularity, below the
     # 10 deg default threshold (common practice, no source): the target check's warning
-    assert wrist and wrist[0].fraction_end == 1.0
+    assert wrist
+    assert wrist[0].fraction_end == 1.0
     assert wrist[0].severity == "warning"
     assert wrist[0].angle_deg == pytest.approx(3.0, abs=1e-9)

@@ -118,7 +118,8 @@ def test_plans_around_the_press_column(demo: Scene) -> None:
     straight_environment, _ = fcl_min_distance(demo, straight)
     assert straight_environment < 0.01
     waypoints = np.radians(report.waypoints_deg)
-    assert np.allclose(waypoints[0], START) and np.allclose(waypoints[-1], GOAL)
+    assert np.allclose(waypoints[0], START)
+    assert np.allclose(waypoints[-1], GOAL)
     dense = np.concatenate(
         [
             edge_configurations(a, b, lever_arms(clearance_scene(demo).arm), 0.01)
@@ -130,7 +131,8 @@ def test_plans_around_the_press_column(demo: Scene) -> None:
     # safety margin to obstacles (between them the motion step keeps > 5 mm) and no self contact
     assert environment >= 0.01 - 1e-6
     assert own >= -1e-6
-    assert report.min_clearance_mm is not None and report.min_clearance_mm >= -1e-6
+    assert report.min_clearance_mm is not None
+    assert report.min_clearance_mm >= -1e-6
     assert report.check is not None
     assert not [f for f in report.check.findings if f.kind == "collision"]
     assert report.straight_move_obstacle in report.message
@@ -154,7 +156,8 @@ def test_goal_in_collision_is_refused_with_the_obstacle(demo: Scene) -> None:
     assert environment < 0.0
     assert report.status == "goal_in_collision"
     assert report.straight_move_obstacle == "press-bed"
-    assert "press-bed" in report.message and report.message.startswith("refused")
+    assert "press-bed" in report.message
+    assert report.message.startswith("refused")
     assert report.waypoints_deg == []
 
 

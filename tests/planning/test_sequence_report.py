@@ -22,12 +22,14 @@ def test_edits_make_the_path_check_follow_the_fastest_sequence(name: str) -> Non
     scene = resolve_scene(cell, DEMO)
     index = [p.name for p in scene.paths].index(name)
     report = optimise_path(scene, index)
-    assert report.feasible and report.best is not None
+    assert report.feasible
+    assert report.best is not None
     edited = with_waypoint_joints(cell, index, report.edits)
     check = check_path(resolve_scene(edited, DEMO), index)
     # reference: the path check of the edited cell chooses the optimiser's configurations
     for chosen, best in zip(check.waypoints, report.best.waypoints, strict=True):
-        assert chosen.joints_deg is not None and best.joints_deg is not None
+        assert chosen.joints_deg is not None
+        assert best.joints_deg is not None
         assert chosen.joints_deg == pytest.approx(best.joints_deg, abs=1e-6)
     # and it finds no collision on them (the optimiser's constraint, checked independently)
     assert not [f for f in check.findings if f.kind == "collision"]
@@ -46,14 +48,17 @@ def test_demo_unload_path_states_the_broken_constraint_and_the_price() -> None:
     report = optimise_path(scene, index)
     # the demo's return joint move hits the press column today (the path check finds it)
     assert [v.reason for v in report.current.violations] == ["collision"]
-    assert report.saving_s is not None and report.best is not None
-    assert report.current.cycle_time_s is not None and report.best.cycle_time_s is not None
+    assert report.saving_s is not None
+    assert report.best is not None
+    assert report.current.cycle_time_s is not None
+    assert report.best.cycle_time_s is not None
     # closed form: the saving is current minus best
     assert report.saving_s == pytest.approx(report.current.cycle_time_s - report.best.cycle_time_s)
     assert "breaks 1 constraint" in report.summary
     assert report.edits, "the valid sequence needs at least one waypoint rewritten"
     text = render_sequence(report)
-    assert report.summary in text and "in collision" in text
+    assert report.summary in text
+    assert "in collision" in text
 
 
 def test_fastest_sequence_is_never_slower_when_the_current_choice_is_valid() -> None:
@@ -62,7 +67,8 @@ def test_fastest_sequence_is_never_slower_when_the_current_choice_is_valid() -> 
         report = optimise_path(scene, index, limit_margin_deg=2.0)
         if report.current.violations or report.best is None:
             continue
-        assert report.best.cycle_time_s is not None and report.current.cycle_time_s is not None
+        assert report.best.cycle_time_s is not None
+        assert report.current.cycle_time_s is not None
         # the current choice is one of the sequences searched (closed form: a minimum)
         assert report.best.cycle_time_s <= report.current.cycle_time_s + 1e-9
         assert report.best.violations == []

@@ -266,7 +266,8 @@ def test_optimum_matches_exhaustive_enumeration(
     if sequence is None:
         assert not result.feasible
         return
-    assert result.feasible and result.best is not None
+    assert result.feasible
+    assert result.best is not None
     assert result.best.total == pytest.approx(expected, rel=1e-9, abs=1e-12)
     chosen = result.best.q
     assert all(waypoint_oracle(scene, q, margin) for q in chosen)
@@ -293,7 +294,8 @@ def test_demo_optimum_is_never_slower_than_a_feasible_current_choice(demo: Scene
         assert result.current.total == pytest.approx(report.cycle_time_s, abs=1e-9)
         if not result.feasible:
             continue
-        assert result.best is not None and result.best.violations == ()
+        assert result.best is not None
+        assert result.best.violations == ()
         if not result.current.violations:
             assert result.best.total <= result.current.total + 1e-9
             assert result.saving == pytest.approx(result.current.total - result.best.total)
@@ -358,5 +360,7 @@ def test_a_waypoint_without_candidates_blocks_the_path(demo: Scene) -> None:
     layers[2] = WaypointCandidates(np.zeros((0, 6)))
     result = optimise_sequence(demo, 0, layers)
     # source: the candidates given: waypoint 2 has none
-    assert not result.feasible and result.blocked_at == 2 and result.best is None
+    assert not result.feasible
+    assert result.blocked_at == 2
+    assert result.best is None
     assert np.all(result.indices == -1)

@@ -285,7 +285,8 @@ def test_double_s_properties(
     assert np.max(np.abs(jerk)) <= jerk_max
     # rest to rest with zero acceleration at both ends
     assert samples.position[-1] == pytest.approx(signed, rel=1e-12)
-    assert samples.velocity[0] == 0.0 and samples.acceleration[0] == 0.0
+    assert samples.velocity[0] == 0.0
+    assert samples.acceleration[0] == 0.0
     assert abs(samples.velocity[-1]) <= 1e-9 * velocity_max
     assert abs(samples.acceleration[-1]) <= 1e-9 * acceleration_max + 1e-12
 

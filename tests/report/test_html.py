@@ -149,7 +149,8 @@ def test_report_has_caution_and_summary(demo_html: str, demo_cell: Path) -> None
     )  # our contract (the safety caution), no source
     assert cell.title in demo_html
     assert "pb-arm6" in demo_html
-    assert cell.tool is not None and cell.tool.name in demo_html
+    assert cell.tool is not None
+    assert cell.tool.name in demo_html
     assert f"{len(cell.fixtures)} fixtures, {len(cell.keep_outs)} keep-out zones" in demo_html
     assert f"{len(cell.targets)} targets, {len(cell.paths)} paths" in demo_html
 
@@ -182,7 +183,8 @@ def test_report_shows_cycle_times_of_path_check(demo_html: str, demo_cell: Path)
             f"{reference.blended_cycle_time_s:.3f} s blended"
         ) in demo_html
         for segment in reference.segments:
-            assert segment.duration_s is not None and segment.blended_duration_s is not None
+            assert segment.duration_s is not None
+            assert segment.blended_duration_s is not None
             assert f"{segment.duration_s:.3f} s" in demo_html
             assert f"{segment.blended_duration_s:.3f} s" in demo_html
         for finding in reference.findings:

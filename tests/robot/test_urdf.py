@@ -312,7 +312,8 @@ def test_mimic_joint_on_the_chain_is_held_at_zero() -> None:
         ["root", "l1", "l2"],
     )
     robot = parse_robot_urdf(text, "mimic.urdf")
-    assert robot.joint_names == ("a",) and robot.held_joints == ("b",)
+    assert robot.joint_names == ("a",)
+    assert robot.held_joints == ("b",)
     assert any("held at zero" in note and "b (mimic)" in note for note in robot.notes)
     # held at zero, joint b's frame is its origin: 0.3 m above l1 (URDF specification)
     np.testing.assert_allclose(robot.T_link_flange[:3, 3], [0, 0, 0.3])
@@ -459,7 +460,8 @@ def test_collision_geometry_to_capsules_and_notes() -> None:
     # sphere -> zero-length capsule at the sphere centre (exact)
     np.testing.assert_allclose(by_name["root"].start, [0, 0, 0.1])
     np.testing.assert_allclose(by_name["root"].end, [0, 0, 0.1])
-    assert by_name["root"].link == 0 and by_name["root"].radius == 0.2
+    assert by_name["root"].link == 0
+    assert by_name["root"].radius == 0.2
     # URDF specification: a cylinder is centred on its origin along z; pitch = 90 deg turns z
     # onto x, so the 0.4 m axis runs from x = 0.1 - 0.2 to 0.1 + 0.2 (worked by hand)
     np.testing.assert_allclose(by_name["upper"].start, [-0.1, 0, 0], atol=1e-15)
@@ -476,8 +478,10 @@ def test_collision_geometry_to_capsules_and_notes() -> None:
     assert np.linalg.norm(housing.end - housing.start) == pytest.approx(0.1, rel=1e-12)
     notes = "\n".join(robot.notes)
     assert "2 mesh file(s) not found" in notes
-    assert "package://demo_cell/meshes/base.stl" in notes and "meshes/arm.dae" in notes
-    assert "collision cylinders turned into capsules" in notes and "on links: arm" in notes
+    assert "package://demo_cell/meshes/base.stl" in notes
+    assert "meshes/arm.dae" in notes
+    assert "collision cylinders turned into capsules" in notes
+    assert "on links: arm" in notes
     assert "collision boxes enclosed by capsules" in notes
     assert {(m.source_link, m.role, m.path) for m in robot.meshes} == {
         ("root", "visual", None),
@@ -592,7 +596,8 @@ def test_export_then_import_gives_the_same_robot(name: str) -> None:
     robot = load_robot(name)
     text = urdf_from_robot(robot)
     again = parse_robot_urdf(text, "export.urdf", to_link="flange")
-    assert again.name == robot.name and again.joint_names == robot.joint_names
+    assert again.name == robot.name
+    assert again.joint_names == robot.joint_names
     for mine, original in zip(again.joints, robot.joints, strict=True):
         np.testing.assert_allclose(mine.origin, original.origin, atol=1e-15)
         np.testing.assert_allclose(mine.axis, original.axis, atol=1e-15)
@@ -605,7 +610,8 @@ def test_export_then_import_gives_the_same_robot(name: str) -> None:
     np.testing.assert_allclose(again.T_link_flange, robot.T_link_flange, atol=1e-15)
     assert [c.name for c in again.capsules] == [c.name for c in robot.capsules]
     for mine, original in zip(again.capsules, robot.capsules, strict=True):
-        assert mine.link == original.link and mine.radius == original.radius
+        assert mine.link == original.link
+        assert mine.radius == original.radius
         np.testing.assert_allclose(mine.start, original.start, atol=1e-15)
         np.testing.assert_allclose(mine.end, original.end, atol=1e-15)
     # with the default tip ("tool") the tool frame becomes the flange

@@ -86,7 +86,8 @@ def test_segment_curves_reach_the_interpolated_poses(robot, pin_arm) -> None:
     np.testing.assert_allclose(
         image.T_world_tool, interpolated_poses(start, end, image.s), atol=1e-12
     )
-    assert image.reachable.all() and image.curves
+    assert image.reachable.all()
+    assert image.curves
     covered = np.zeros(40, dtype=bool)
     for curve in image.curves:
         covered[curve.sample] = True
@@ -105,7 +106,8 @@ def test_segment_curves_reach_the_interpolated_poses(robot, pin_arm) -> None:
     first = [
         c for c in image.curves if c.sample[0] == 0 and np.abs(c.q[0] - q_ends[0]).max() < 1e-6
     ]
-    assert len(first) == 1 and first[0].sample[-1] == 39
+    assert len(first) == 1
+    assert first[0].sample[-1] == 39
 
 
 def test_segment_leaving_the_workspace_breaks_its_curves(robot) -> None:
@@ -115,7 +117,8 @@ def test_segment_leaving_the_workspace_breaks_its_curves(robot) -> None:
     image = segment_image(arm, start, end, (1, 2), samples=30)
     # Beyond 1.78 m from axis 1 nothing is reachable (triangle inequality over pb-arm6.toml's
     # link offsets and its 120 mm tool), so the last samples are unreachable.
-    assert image.reachable[0] and not image.reachable[-1]
+    assert image.reachable[0]
+    assert not image.reachable[-1]
     last_reachable = int(np.flatnonzero(image.reachable)[-1])
     assert all(curve.sample[-1] <= last_reachable for curve in image.curves)
     assert not np.any(image.reachable[last_reachable + 1 :])

@@ -64,9 +64,8 @@ def test_map_covers_exactly_the_joint_range_box(demo) -> None:
         width = (hi - lo) / cells
         # Cell centres lower + (i + 1/2) width (definition of the grid, module docstring).
         np.testing.assert_allclose(axis, lo + (np.arange(cells) + 0.5) * width, atol=1e-12)
-        assert axis[0] - width / 2 == pytest.approx(lo) and axis[-1] + width / 2 == pytest.approx(
-            hi
-        )
+        assert axis[0] - width / 2 == pytest.approx(lo)
+        assert axis[-1] + width / 2 == pytest.approx(hi)
     q = result.configurations()
     assert q.shape == (40, 30, 6)
     np.testing.assert_array_equal(
@@ -253,7 +252,8 @@ def test_three_joint_map_through_an_executor_equals_in_process(demo) -> None:
     # Same cells, same kernel: the chunked result equals the in-process one exactly.
     for name in ("obstacle", "self_collision", "clearance", "colliding_obstacles", "colliding"):
         np.testing.assert_array_equal(getattr(chunked, name), getattr(direct, name))
-    assert calls[-1] == (2, 2) and len(calls) == 2  # 38 400 cells in chunks of 32 768
+    assert calls[-1] == (2, 2)  # 38 400 cells in chunks of 32 768
+    assert len(calls) == 2
 
 
 def test_cancel_stops_the_map(demo) -> None:

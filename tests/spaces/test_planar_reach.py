@@ -40,7 +40,8 @@ def test_two_link_arm_with_full_turns_reaches_the_annulus(
     summary = json.loads(capsys.readouterr().out)
     # closed form (REFERENCES.md, planar 2R): |l1 - l2| <= r <= l1 + l2, area
     # pi ((l1 + l2)^2 - (l1 - l2)^2) = pi (0.7^2 - 0.1^2) m^2, in the base x-y plane
-    assert summary["planar"] is True and summary["plane_z_mm"] == 0.0
+    assert summary["planar"] is True
+    assert summary["plane_z_mm"] == 0.0
     assert summary["inner_radius_mm"] == pytest.approx(100.0, abs=1e-9)
     assert summary["outer_radius_mm"] == pytest.approx(700.0, abs=1e-9)
     assert summary["area_m2"] == pytest.approx(math.pi * (0.7**2 - 0.1**2), rel=1e-9)

@@ -540,7 +540,8 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
         )
         for s, origin, axis in zip(valid_specs, origins, axes, strict=True)
     )
-    assert name is not None and kind is not None
+    assert name is not None
+    assert kind is not None
     return Robot(
         name=name,
         kind=kind,
