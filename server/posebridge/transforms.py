@@ -130,7 +130,7 @@ def rotation_matrix_about_axis(axis: npt.ArrayLike, angle: npt.ArrayLike) -> Flo
     c = np.cos(angle)
     t = 1.0 - c
     x, y, z, s, c, t = np.broadcast_arrays(x, y, z, s, c, t)
-    R = np.empty(x.shape + (3, 3))
+    R = np.empty((*x.shape, 3, 3))
     R[..., 0, 0] = c + t * x * x
     R[..., 0, 1] = t * x * y - s * z
     R[..., 0, 2] = t * x * z + s * y
@@ -160,7 +160,7 @@ def rotation_matrix_about_z(angle: npt.ArrayLike) -> FloatArray:
     """
     angle = np.asarray(angle, dtype=np.float64)
     c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros(angle.shape + (3, 3))
+    R = np.zeros((*angle.shape, 3, 3))
     R[..., 0, 0], R[..., 0, 1], R[..., 1, 0], R[..., 1, 1], R[..., 2, 2] = c, -s, s, c, 1.0
     return R
 
@@ -186,7 +186,7 @@ def rotation_matrix_from_rpy(rpy: npt.ArrayLike, *, degrees: bool = False) -> Fl
         rpy = rad_from_deg(rpy)
     cr, cp, cy = np.cos(rpy[..., 0]), np.cos(rpy[..., 1]), np.cos(rpy[..., 2])
     sr, sp, sy = np.sin(rpy[..., 0]), np.sin(rpy[..., 1]), np.sin(rpy[..., 2])
-    R = np.empty(rpy.shape[:-1] + (3, 3))
+    R = np.empty((*rpy.shape[:-1], 3, 3))
     R[..., 0, 0] = cy * cp
     R[..., 0, 1] = cy * sp * sr - sy * cr
     R[..., 0, 2] = cy * sp * cr + sy * sr
@@ -283,7 +283,7 @@ def quaternion_from_rotation_matrix(R: npt.ArrayLike) -> FloatArray:
             q[sel] = np.concatenate([w[:, None], vec], axis=-1)
     q /= np.linalg.norm(q, axis=-1, keepdims=True)
     q = np.where(q[:, :1] < 0.0, -q, q)
-    return q.reshape(batch + (4,))
+    return q.reshape((*batch, 4))
 
 
 def rotation_matrix_from_quaternion(quaternion: npt.ArrayLike) -> FloatArray:
@@ -305,7 +305,7 @@ def rotation_matrix_from_quaternion(quaternion: npt.ArrayLike) -> FloatArray:
     if np.any(norm < 1e-12):
         raise TransformError("quaternion: zero length, cannot be normalised")
     w, x, y, z = np.moveaxis(q / norm, -1, 0)
-    R = np.empty(q.shape[:-1] + (3, 3))
+    R = np.empty((*q.shape[:-1], 3, 3))
     R[..., 0, 0] = 1.0 - 2.0 * (y * y + z * z)
     R[..., 0, 1] = 2.0 * (x * y - z * w)
     R[..., 0, 2] = 2.0 * (x * z + y * w)
@@ -387,7 +387,7 @@ def transform_from_rotation_translation(R: npt.ArrayLike, p: npt.ArrayLike) -> F
     R = np.asarray(R, dtype=np.float64)
     p = np.asarray(p, dtype=np.float64)
     batch = np.broadcast_shapes(R.shape[:-2], p.shape[:-1])
-    T = np.zeros(batch + (4, 4))
+    T = np.zeros((*batch, 4, 4))
     T[..., :3, :3] = R
     T[..., :3, 3] = p
     T[..., 3, 3] = 1.0

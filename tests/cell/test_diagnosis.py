@@ -172,7 +172,7 @@ def test_worst_row_rule_order(demo_scene, documented_joints) -> None:
     gauge = documented_joints["gauge-probe"]
     # j6 at -360 deg is 5 deg beyond its -355 deg limit; the gripper and flange capsules are
     # round about the j6 axis, so clearance is that of rack-low-1 (closed form)
-    beyond = rack[:5] + [-360.0]
+    beyond = [*rack[:5], -360.0]
     robot = demo_scene.robot
     outside = diagnose_log(demo_scene, parse_joint_log(rows_text([rack, gauge, beyond]), robot))
     clearance = np.array(outside.rows.clearance_mm, dtype=float)

@@ -147,10 +147,10 @@ def demo() -> Scene:
 def test_joint_vector_names_units_and_defaults(tilted: Scene) -> None:
     assert tilted.joint_names == ("j1", "j2", "j3", "j4", "j5", "j6", "track", "positioner")
     assert tilted.external.units == ["mm", "deg"]
-    q, external = tilted.split_joints([[0, 10, 20, 30, 40, 50]])
+    _q, external = tilted.split_joints([[0, 10, 20, 30, 40, 50]])
     # the home values stated in the cell: 0 mm and 30 deg; common practice, no source
     np.testing.assert_allclose(external, [[0.0, math.radians(30.0)]])
-    q, external = tilted.split_joints([[0, 10, 20, 30, 40, 50, 1200, -45]])
+    _q, external = tilted.split_joints([[0, 10, 20, 30, 40, 50, 1200, -45]])
     np.testing.assert_allclose(external, [[1.2, math.radians(-45.0)]])  # mm, deg -> m, rad
     with pytest.raises(CellFileError, match=r"joints: expected 6 or 8 values"):
         tilted.split_joints([[0, 1, 2, 3, 4, 5, 6]])

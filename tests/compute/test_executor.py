@@ -185,7 +185,7 @@ def test_chunk_exception_propagates(executor: Executor) -> None:
 
 
 def test_pool_rejects_function_it_cannot_send(pool: LocalPoolExecutor) -> None:
-    with pytest.raises(ExecutorError, match="^function: .* cannot be sent to worker processes"):
+    with pytest.raises(ExecutorError, match=r"^function: .* cannot be sent to worker processes"):
         pool.map_chunks(lambda x: x, [(1,)])
 
 
@@ -256,7 +256,7 @@ def test_closed_executor_refuses_work() -> None:
     executor = make_executor(workers=2, initializer=None)
     with executor:
         pass
-    with pytest.raises(ExecutorError, match="^executor: already closed"):
+    with pytest.raises(ExecutorError, match=r"^executor: already closed"):
         executor.map_chunks(math.sqrt, [(1.0,)])
 
 

@@ -151,7 +151,7 @@ def test_collision_check_equals_thresholded_minimum(cell, reference, threshold: 
 
 
 def test_parallel_driver_matches_serial(cell) -> None:
-    _, scene, q = cell
+    _, scene, _q = cell
     rng = np.random.default_rng(SEED + 1)
     big = rng.uniform(scene.arm.robot.lower, scene.arm.robot.upper, (PARALLEL_THRESHOLD + 300, 6))
     parallel = clearance_batch(scene, big)
@@ -322,7 +322,7 @@ def test_inputs_are_checked(arm) -> None:
         ClearanceScene.build(arm, obstacles, np.eye(4), self_pairs=[], pair_mask=np.ones((8, 2)))
     with pytest.raises(
         GeometryInputError,
-        match="self_pairs: expected pairs of two different capsule indices in 0..7",
+        match=r"self_pairs: expected pairs of two different capsule indices in 0\.\.7",
     ):
         ClearanceScene.build(arm, obstacles, np.eye(4), self_pairs=[[0, 8]])
     with pytest.raises(GeometryInputError, match=r"self_pairs: expected shape \(P, 2\)"):

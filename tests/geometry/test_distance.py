@@ -363,7 +363,7 @@ def test_inputs_are_checked() -> None:
     obstacles = ObstacleSet.from_shapes([Box("box", np.eye(4), BOX_HALF)])
     with pytest.raises(GeometryInputError, match=r"start: expected shape \(N, 3\)"):
         closest_points_capsule_obstacle([0.0, 0.0, 0.0], [[1.0, 0.0, 0.0]], 0.1, obstacles, 0)
-    with pytest.raises(GeometryInputError, match="obstacle index: expected 0..0, got 3"):
+    with pytest.raises(GeometryInputError, match=r"obstacle index: expected 0\.\.0, got 3"):
         closest_points_point_obstacle([[0.0, 0.0, 0.0]], obstacles, 3)
     with pytest.raises(GeometryInputError, match="radius: expected finite values >= 0 m"):
         closest_points_capsule_obstacle([[0.0, 0.0, 0.0]], [[1.0, 0.0, 0.0]], -0.1, obstacles, 0)

@@ -245,7 +245,7 @@ def test_scara_labels_left_and_right() -> None:
     # to the quill seen from above; the mirrored solution lies left
     assert labels == {"left", "right"}
     first = result.valid_solutions(0)
-    right = [m for m in first if result.branch_label(0, m) == "right"][0]
+    right = next(m for m in first if result.branch_label(0, m) == "right")
     assert result.q[0, right, 1] > 0
 
 

@@ -106,7 +106,7 @@ def test_nearest_kind_wins(arm6) -> None:
 
 
 def test_bad_thresholds_and_robots(arm6) -> None:
-    with pytest.raises(KinematicsInputError, match="thresholds.elbow_rad"):
+    with pytest.raises(KinematicsInputError, match=r"thresholds\.elbow_rad"):
         classify_singularity(arm6, np.zeros((1, 6)), SingularityThresholds(elbow_rad=0.0))
     with pytest.raises(KinematicsInputError, match="six- and seven-axis arms"):
         classify_singularity(load_robot("pb-scara4"), np.zeros((1, 4)))

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import math
 
 import numpy as np
@@ -232,7 +233,7 @@ def test_blended_is_never_slower_than_rest_to_rest(
     # is faster than stopping, so every block and the total are at most rest to rest
     assert timing.total <= timing.rest_to_rest_total
     stops = np.flatnonzero(~timing.blended)
-    for a, b in zip(stops[:-1], stops[1:], strict=True):
+    for a, b in itertools.pairwise(stops):
         block = slice(int(a), int(b))
         assert timing.segment_durations[block].sum() <= (
             timing.rest_to_rest_durations[block].sum() + 1e-12

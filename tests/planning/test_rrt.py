@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import itertools
+
 import fcl
 import numpy as np
 import pytest
@@ -123,7 +125,7 @@ def test_plans_around_the_press_column(demo: Scene) -> None:
     dense = np.concatenate(
         [
             edge_configurations(a, b, lever_arms(clearance_scene(demo).arm), 0.01)
-            for a, b in zip(waypoints[:-1], waypoints[1:], strict=True)
+            for a, b in itertools.pairwise(waypoints)
         ]
     )
     environment, own = fcl_min_distance(demo, dense)

@@ -253,7 +253,7 @@ def test_write_report_atomically(demo_cell: Path, tmp_path: Path) -> None:
 
 def test_write_report_refuses_missing_folder(demo_cell: Path, tmp_path: Path) -> None:
     missing = tmp_path / "nowhere" / "review.html"
-    with pytest.raises(ReportError, match="^output: folder .* does not exist$"):
+    with pytest.raises(ReportError, match=r"^output: folder .* does not exist$"):
         write_report(demo_cell, missing)
 
 
@@ -271,5 +271,5 @@ def test_report_refuses_unreadable_comment_file(tmp_path: Path) -> None:
     cell = tmp_path / "cell.json"
     shutil.copy(data_folder("robots") / "demo-cell.json", cell)
     comments_path_for(cell).write_text("not a database " * 200)
-    with pytest.raises(ReportError, match="^comments: .*not a readable comment database"):
+    with pytest.raises(ReportError, match=r"^comments: .*not a readable comment database"):
         build_report(cell, map_resolution=8)

@@ -128,10 +128,10 @@ def test_resolve_and_reopen(store: CommentStore) -> None:
 
 
 def test_resolve_unknown_comment(store: CommentStore) -> None:
-    with pytest.raises(CommentNotFoundError, match="^comment_id: no comment 7$"):
+    with pytest.raises(CommentNotFoundError, match=r"^comment_id: no comment 7$"):
         store.set_resolved(7)
     store.add(Pin("cell"), "Ana", "x")
-    with pytest.raises(CommentNotFoundError, match="^comment_id: no comment 7$"):
+    with pytest.raises(CommentNotFoundError, match=r"^comment_id: no comment 7$"):
         store.set_resolved(7)
 
 
@@ -187,7 +187,7 @@ def test_store_full(tmp_path: Path) -> None:
     store.add(Pin("cell"), "Ana", "2")
     with pytest.raises(
         CommentStoreFullError,
-        match="^comments: this cell already has 2 comments, the most kept is 2$",
+        match=r"^comments: this cell already has 2 comments, the most kept is 2$",
     ):
         store.add(Pin("cell"), "Ana", "3")
     assert len(store.list_comments()) == 2
@@ -213,7 +213,9 @@ def test_newer_schema_version_refused(tmp_path: Path) -> None:
 def test_missing_folder(tmp_path: Path) -> None:
     # it said "not a readable comment database" before, which sent the user to the wrong fix
     missing = tmp_path / "no-such-folder" / "c.sqlite3"
-    with pytest.raises(CommentStorageError, match="cannot be opened, its folder .* does not exist"):
+    with pytest.raises(
+        CommentStorageError, match=r"cannot be opened, its folder .* does not exist"
+    ):
         CommentStore(missing).add(Pin("cell"), "Ana", "x")
 
 

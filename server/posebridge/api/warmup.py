@@ -84,7 +84,7 @@ class KernelWarmUp:
             )
             try:
                 step.run()
-            except Exception as error:  # noqa: BLE001 - a failed warm-up only costs speed later
+            except Exception as error:  # a failed warm-up only costs speed later
                 with self._lock:
                     self.failed = f"{step.name}: {type(error).__name__}: {error}"
                     self.current = None

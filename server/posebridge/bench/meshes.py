@@ -144,7 +144,7 @@ def meshed_arm_parts(
 
     lengths = np.asarray(link_lengths, dtype=float)
     per_part = triangles / (len(lengths) * parts_per_link)
-    level = max(0, int(round(np.log(per_part / 12.0) / np.log(4.0))))
+    level = max(0, round(np.log(per_part / 12.0) / np.log(4.0)))
     sections = max(8, int(np.sqrt(per_part / 4.0)))
     links = []
     for length in lengths:

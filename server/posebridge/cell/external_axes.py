@@ -76,8 +76,8 @@ def turntable_motion(point: FloatArray, axis: FloatArray, angle: npt.ArrayLike) 
     D : array, shape (N, 4, 4)
     """
     theta = np.atleast_1d(np.asarray(angle, dtype=np.float64))
-    R = rotation_matrix_about_axis(np.broadcast_to(axis, theta.shape + (3,)), theta)
-    D = np.zeros(theta.shape + (4, 4))
+    R = rotation_matrix_about_axis(np.broadcast_to(axis, (*theta.shape, 3)), theta)
+    D = np.zeros((*theta.shape, 4, 4))
     D[..., :3, :3] = R
     D[..., :3, 3] = point - R @ point
     D[..., 3, 3] = 1.0
@@ -113,7 +113,7 @@ class TrackAxis:
     def T_world_carriage(self, position: npt.ArrayLike) -> FloatArray:
         """Carriage-top frames at track positions ``position`` (m, shape (N,)), shape (N, 4, 4)."""
         s = np.atleast_1d(np.asarray(position, dtype=np.float64))
-        T = np.broadcast_to(self.T_world_rail, s.shape + (4, 4)).copy()
+        T = np.broadcast_to(self.T_world_rail, (*s.shape, 4, 4)).copy()
         T[..., :3, 3] += s[..., None] * self.direction + self.carriage_height * T[..., :3, 2]
         return T
 

@@ -149,10 +149,10 @@ def _base_poses(
     """
     external = scene.external
     if external.track is not None and axis == 0:
-        T_world_base = external.track.T_world_base(values.ravel()).reshape(values.shape + (4, 4))
+        T_world_base = external.track.T_world_base(values.ravel()).reshape((*values.shape, 4, 4))
         return invert_transform(T_world_base) @ T_world_target[:, None]
     table = external.turntables[axis - external.table_offset]
-    D = table.motion((values - external.values[axis]).ravel()).reshape(values.shape + (4, 4))
+    D = table.motion((values - external.values[axis]).ravel()).reshape((*values.shape, 4, 4))
     return invert_transform(scene.T_world_base) @ (D @ T_world_target[:, None])
 
 

@@ -673,7 +673,7 @@ def _parent_cycles(cell: Cell) -> list[tuple[str, str]]:
                     reported.update(cycle)
                     first = min(cycle)
                     rotated = cycle[cycle.index(first) :] + cycle[: cycle.index(first)]
-                    names = [cell.fixtures[i].name for i in rotated + [first]]
+                    names = [cell.fixtures[i].name for i in [*rotated, first]]
                     found.append(
                         (
                             f"fixtures[{first}].parent",

@@ -362,7 +362,7 @@ def _pose_si(position_mm: npt.ArrayLike, rpy_deg: npt.ArrayLike) -> FloatArray:
 def _translation_z(distance: npt.ArrayLike) -> FloatArray:
     """Pure translations along z by ``distance`` (m), shape (..., 4, 4)."""
     distance = np.asarray(distance, dtype=np.float64)
-    offset = np.zeros(distance.shape + (3,))
+    offset = np.zeros((*distance.shape, 3))
     offset[..., 2] = distance
     return transform_from_position_rpy(offset, np.zeros_like(offset))
 

@@ -728,8 +728,8 @@ def _build_grid(tri_lo, tri_hi, frame, shape, box, link, triangles, tolerance, s
         lo = np.empty(3, dtype=np.int64)
         hi = np.empty(3, dtype=np.int64)
         for r in range(3):
-            lo[r] = max(int(math.floor((tri_lo[t, r] - tolerance - frame[r]) / cell)), 0)
-            hi[r] = min(int(math.floor((tri_hi[t, r] + tolerance - frame[r]) / cell)), shape[r] - 1)
+            lo[r] = max(math.floor((tri_lo[t, r] - tolerance - frame[r]) / cell), 0)
+            hi[r] = min(math.floor((tri_hi[t, r] + tolerance - frame[r]) / cell), shape[r] - 1)
         for i in range(lo[0], hi[0] + 1):
             for j in range(lo[1], hi[1] + 1):
                 for k in range(lo[2], hi[2] + 1):

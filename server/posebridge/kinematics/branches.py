@@ -347,7 +347,7 @@ def branch_geometry(robot: Robot) -> BranchGeometry:
     if n < 2 or robot.prismatic[0] or robot.prismatic[1]:
         return BranchGeometry("none")
     zero = np.zeros((1, n))
-    axes, origins = _axes_and_origins(robot, fk_frames(robot, zero))
+    axes, _origins = _axes_and_origins(robot, fk_frames(robot, zero))
     a1, a2 = axes[0, 0], axes[0, 1]
     sine_12 = float(np.linalg.norm(np.cross(a1, a2)))
     if n in (6, 7) and not np.any(robot.prismatic) and sine_12 > _PARALLEL_TOLERANCE:

@@ -68,6 +68,7 @@ segment for segment within every block.
 
 from __future__ import annotations
 
+import itertools
 import math
 from dataclasses import dataclass
 from typing import Protocol
@@ -752,7 +753,7 @@ def blended_cycle_time(
     blended = ~stop
     pieces: list[MotionPiece] = []
     stop_index = np.flatnonzero(stop)
-    for a, b in zip(stop_index[:-1], stop_index[1:], strict=True):
+    for a, b in itertools.pairwise(stop_index):
         first, last = int(a), int(b) - 1
         if last > first:
             try:

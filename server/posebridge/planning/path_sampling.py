@@ -408,7 +408,7 @@ def _linear_segment(
     else:
         q, reason = _track_analytic(scene, solver, T_base_tool, q_a)
     q[0] = q_a  # the move starts where the arm is
-    reason = ("",) + reason[1:]
+    reason = ("", *reason[1:])
     labels = _labels(scene, q)
     branch_change, jump = _continuity(q, labels, jump_limit)
     pure_rotation = length < 1e-9

@@ -667,7 +667,7 @@ def search_base_placement(
 
     def gather(field: int, tail: tuple[int, ...] = ()) -> npt.NDArray[Any]:
         layers = [np.concatenate([r[field] for r in rows]) for rows in by_height]
-        return np.stack(layers, axis=1).reshape((ny, nx, nyaw, nh) + tail)
+        return np.stack(layers, axis=1).reshape((ny, nx, nyaw, nh, *tail))
 
     count = gather(0)
     branch = gather(1).astype(np.int8)

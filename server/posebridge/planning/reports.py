@@ -598,7 +598,7 @@ def render_joint_plan(report: JointPlanReport) -> str:
     ]
     if report.waypoints_deg:
         rows = [[str(i)] + [f"{v:.2f}" for v in q] for i, q in enumerate(report.waypoints_deg)]
-        lines += [""] + _table(["#"] + report.joint_names, rows)
+        lines += ["", *_table(["#", *report.joint_names], rows)]
     if report.robot_geometry_missing:
         lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)

@@ -50,6 +50,7 @@ moves at 100 % speed (with its cycle time).
 
 from __future__ import annotations
 
+import itertools
 import math
 import time
 from dataclasses import dataclass, replace
@@ -401,7 +402,7 @@ def plan_joint_move(
             dense = np.concatenate(
                 [
                     edge_configurations(a, b, levers, checker.step)
-                    for a, b in zip(waypoints[:-1], waypoints[1:], strict=True)
+                    for a, b in itertools.pairwise(waypoints)
                 ]
             )
             min_clearance = float(mm_from_m(clearance_to_cell(scene, dense).distance.min()))

@@ -153,10 +153,10 @@ class _TreeBuilder(xml.sax.handler.ContentHandler):
         self._stack: list[_Element] = []
         self._where: xml.sax.xmlreader.Locator | None = None
 
-    def setDocumentLocator(self, locator: xml.sax.xmlreader.Locator) -> None:  # noqa: N802
+    def setDocumentLocator(self, locator: xml.sax.xmlreader.Locator) -> None:
         self._where = locator
 
-    def startElement(self, name: str, attrs: xml.sax.xmlreader.AttributesImpl) -> None:  # noqa: N802
+    def startElement(self, name: str, attrs: xml.sax.xmlreader.AttributesImpl) -> None:
         line = self._where.getLineNumber() if self._where is not None else 0
         self.count += 1
         if self.count > MAX_URDF_ELEMENTS:
@@ -168,7 +168,7 @@ class _TreeBuilder(xml.sax.handler.ContentHandler):
             self.root = element
         self._stack.append(element)
 
-    def endElement(self, name: str) -> None:  # noqa: N802
+    def endElement(self, name: str) -> None:
         self._stack.pop()
 
 

@@ -139,7 +139,7 @@ class JointMap:
         """Full joint configuration of every cell, shape G + (n,), rad or m."""
         return _grid_configurations(
             self.q_hold, self.joints, self.axes, 0, int(np.prod(self.shape))
-        ).reshape(self.shape + (self.q_hold.shape[0],))
+        ).reshape((*self.shape, self.q_hold.shape[0]))
 
 
 def grid_axis(lower: float, upper: float, cells: int) -> FloatArray:
@@ -320,6 +320,6 @@ def joint_map(
         self_collision=self_collision,
         clearance=clearance,
         colliding_obstacles=present.astype(np.int64),
-        colliding=colliding.reshape(cells + (present.shape[0],)),
+        colliding=colliding.reshape((*cells, present.shape[0])),
         threshold_m=float(threshold_m),
     )

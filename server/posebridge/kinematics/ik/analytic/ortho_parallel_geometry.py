@@ -34,7 +34,7 @@ _VERIFY_SAMPLES = 64
 
 def _ry(angle: FloatArray) -> FloatArray:
     c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros(angle.shape + (3, 3))
+    R = np.zeros((*angle.shape, 3, 3))
     R[..., 0, 0], R[..., 0, 2], R[..., 2, 0], R[..., 2, 2], R[..., 1, 1] = c, s, -s, c, 1.0
     return R
 
