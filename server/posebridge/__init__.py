@@ -1,0 +1,1 @@
+"""posebridge: robot work-cell layout and troubleshooting, in Cartesian and joint space."""

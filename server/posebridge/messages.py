@@ -1,9 +1,9 @@
-"""Text taken from a request or a file, made safe to show in a one-line message.
+r"""Text taken from a request or a file, made safe to show in a one-line message.
 
 Error messages quote what they were given (a column name, a label, a robot
 name). Control characters in that text — NUL, line breaks, escape sequences
 that a terminal would obey, the C1 range — are shown escaped
-(``\\x00``, ``\\n``, ``\\x1b``, ``\\u2028``), so an error line stays one line
+(``\x00``, ``\n``, ``\x1b``, ``\u2028``), so an error line stays one line
 and shows exactly what was received (common practice, no source).
 """
 
@@ -26,7 +26,8 @@ def _escaped(match: re.Match[str]) -> str:
 
 
 def printable(text: str) -> str:
-    """``text`` with every control character (C0, DEL, C1, line and paragraph separators)
-    written as its backslash escape; everything else unchanged.
+    """Return ``text`` with every control character written as its backslash escape.
+
+    Control characters are C0, DEL, C1, line and paragraph separators; everything else unchanged.
     """
     return _CONTROL.sub(_escaped, text)

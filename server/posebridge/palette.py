@@ -84,8 +84,10 @@ twelve objects in one map each get their own colour."""
 
 
 def region_colour(index: int) -> str:
-    """Joint-space region colour of the ``index``-th object a map shows (in the cell's obstacle
-    order), cycling through the region colours (as ``regionColour`` in static/palette.js).
+    """Return the joint-space region colour of the ``index``-th object a map shows.
+
+    Objects are in the cell's obstacle order, cycling through the region colours (as
+    ``regionColour`` in static/palette.js).
     """
     return PALETTE[f"region-{max(0, index) % REGION_COUNT + 1}"]
 

@@ -27,7 +27,7 @@ _PACKAGE = Path(__file__).resolve().parent
 
 
 def data_folder(name: str) -> Path:
-    """The bundled folder ``name`` (``"static"``, ``"templates"`` or ``"robots"``).
+    """Return the bundled folder ``name`` (``"static"``, ``"templates"`` or ``"robots"``).
 
     Returns the packaged copy if present, else the repository folder.
     """
@@ -51,7 +51,7 @@ def user_data_folder() -> Path:
 
 
 def demo_working_folder() -> Path:
-    """A writable folder holding a working copy of the demo files, created on first use.
+    """Return a writable folder holding a working copy of the demo files, created on first use.
 
     ``$XDG_DATA_HOME/posebridge/demo`` (``~/.local/share/posebridge/demo`` by
     default). Edits made in the dashboard go to these copies, never to the

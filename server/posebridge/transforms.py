@@ -233,7 +233,7 @@ def rpy_from_rotation_matrix(R: npt.ArrayLike, *, degrees: bool = False) -> Floa
 
 
 def quaternion_from_rotation_matrix(R: npt.ArrayLike) -> FloatArray:
-    """Unit quaternions ``[w, x, y, z]`` of rotation matrices, with ``w >= 0``.
+    """Return unit quaternions ``[w, x, y, z]`` of rotation matrices, with ``w >= 0``.
 
     Uses the largest-diagonal branch selection of Shepperd (1978), "Quaternion
     from rotation matrix", J. Guidance and Control 1(3), which stays accurate

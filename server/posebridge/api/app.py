@@ -61,9 +61,11 @@ def plotly_script_path() -> Path:
 
 
 def _warm_up_steps(cache: RobotCache, robot_spec: str, cells: CellStore) -> list[WarmStep]:
-    """The kinematics kernels of the served robot and the cell's robot first (the page's
-    first answers), then a tiny joint map and the target check, so numba kernels are loaded
-    before they are asked for.
+    """Return the warm-up steps in the order the page needs them.
+
+    The kinematics kernels of the served robot and the cell's robot first (the page's first
+    answers), then a tiny joint map and the target check, so numba kernels are loaded before they
+    are asked for.
     """
 
     def kinematics() -> None:
@@ -101,8 +103,10 @@ def _served_robots(app: FastAPI) -> list[str]:
 def _with_robot_names(
     document: dict[str, Any], names: list[str], paths_allowed: bool
 ) -> dict[str, Any]:
-    """``document`` with the robot fields of the kinematics requests and the robot model
-    query limited to ``names`` (and, where robot files are read, .toml/.urdf paths).
+    """Limit the robot fields of ``document`` to ``names``.
+
+    Applies to the robot fields of the kinematics requests and the robot model query (and, where
+    robot files are read, .toml/.urdf paths).
     """
     served: dict[str, Any] = {"type": "string", "enum": names}
     if paths_allowed:
@@ -213,7 +217,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
         app.include_router(router)
 
     def openapi_document() -> dict[str, Any]:
-        """The OpenAPI document, built afresh: robot names are the ones served now."""
+        """Return the OpenAPI document, built afresh: robot names are the ones served now."""
         document = get_openapi(
             title=app.title,
             version=app.version,

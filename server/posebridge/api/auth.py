@@ -126,7 +126,7 @@ is 403."""
 
 
 def _path_pattern(template: str) -> re.Pattern[str]:
-    """A route path template as a regular expression: ``{name}`` matches one path segment."""
+    """Return a route path template as a regular expression: ``{name}`` matches one path segment."""
     parts = re.split(r"(\{[^/{}]+\})", template)
     return re.compile(
         "".join("[^/]+" if part.startswith("{") else re.escape(part) for part in parts)
@@ -144,8 +144,9 @@ _STATE_ROLE = "review_role"
 
 
 def install_review_access(app: FastAPI) -> None:
-    """Put the access checks in front of every request of ``app`` (not shared until
-    :func:`enable_review_sharing`).
+    """Put the access checks in front of every request of ``app``.
+
+    The app is not shared until :func:`enable_review_sharing`.
     """
     app.state.review_access = None
     app.state.review_limits = RateLimiter(REVIEWER_CAPS)
@@ -175,7 +176,7 @@ def _is_loopback_address(host: str) -> bool:
 
 
 def _host_name(host_header: str) -> str:
-    """The host part of a ``Host`` header: ``[::1]:8000`` -> ``::1``, ``localhost:8000`` -> ``localhost``."""
+    """Return the host part of a ``Host`` header: ``[::1]:8000`` -> ``::1``, ``localhost:8000`` -> ``localhost``."""
     if host_header.startswith("["):
         return host_header[1:].split("]", 1)[0]
     return host_header.rsplit(":", 1)[0] if host_header.count(":") == 1 else host_header
@@ -243,6 +244,7 @@ class ReviewAccessMiddleware:
         self.dashboard = dashboard
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        """Check the request's access, then pass it on with its role or answer the refusal."""
         if scope["type"] != "http":
             await self.app(scope, receive, send)
             return
@@ -366,8 +368,10 @@ class ReviewAccessMiddleware:
         headers: Headers,
         max_body: int,
     ) -> None:
-        """Pass the request on with its role, after the body size check; the owner's
-        requests are counted as in progress for the reviewer lane (:mod:`posebridge.api.lanes`).
+        """Pass the request on with its role, after the body size check.
+
+        The owner's requests are counted as in progress for the reviewer lane
+        (:mod:`posebridge.api.lanes`).
         """
         scope.setdefault("state", {})[_STATE_ROLE] = role
         if role == "owner":
@@ -431,8 +435,9 @@ class ReviewAccessMiddleware:
 
 
 def charge_reviewer(request: Request, kind: str, cost: float) -> None:
-    """Charge a reviewer's request ``cost`` units of the budget ``kind`` (rows, targets,
-    cells; :data:`REVIEWER_CAPS`); the owner is never charged.
+    """Charge a reviewer's request ``cost`` units of the budget ``kind``.
+
+    Budgets are rows, targets and cells (:data:`REVIEWER_CAPS`); the owner is never charged.
 
     Raises
     ------

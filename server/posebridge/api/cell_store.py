@@ -107,8 +107,10 @@ class CellStore:
             return None
 
     def _snapshot_of(self, cell: Cell, previous: CellSnapshot | None = None) -> CellSnapshot:
-        """The cell resolved; the previous snapshot's robot is kept when the robot entry is
-        unchanged (a robot with meshes is not read again on every edit).
+        """Return the cell resolved, reusing the previous snapshot's robot when it is unchanged.
+
+        The robot is kept when the robot entry is unchanged (a robot with meshes is not read again
+        on every edit).
         """
         robot = (
             previous.scene.robot
@@ -123,7 +125,7 @@ class CellStore:
         )
 
     def read(self) -> CellSnapshot:
-        """The current cell; the file is read again when it changed on disk.
+        """Return the current cell; the file is read again when it changed on disk.
 
         Raises
         ------

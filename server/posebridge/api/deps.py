@@ -45,9 +45,10 @@ def _jobs(request: Request) -> JobManager:
 
 
 async def compute_for(request: Request, work: Callable[[], T]) -> T:
-    """Run the computation ``work()`` for the asker: the owner's on the server's thread
-    pool, a reviewer's in the reviewer lane (:mod:`posebridge.api.lanes`; 503 with
-    ``Retry-After`` when too many are waiting).
+    """Run the computation ``work()`` for the asker.
+
+    The owner's on the server's thread pool, a reviewer's in the reviewer lane
+    (:mod:`posebridge.api.lanes`; 503 with ``Retry-After`` when too many are waiting).
     """
     if getattr(request.state, "review_role", "reviewer") == "owner":
         return await run_in_threadpool(work)

@@ -43,8 +43,9 @@ def validation_message(errors: Sequence[dict[str, Any]]) -> str:
 
 
 def _owner_folders(request: Request) -> list[str]:
-    """Folders of the serving machine that a reviewer must not learn: the cell file's
-    folder (as given and resolved) and the home folder, longest first.
+    """Return the folders of the serving machine that a reviewer must not learn.
+
+    The cell file's folder (as given and resolved) and the home folder, longest first.
     """
     folders = {str(Path.home())}
     cell_path = request.app.state.settings.cell_path
@@ -55,9 +56,10 @@ def _owner_folders(request: Request) -> list[str]:
 
 
 def public_detail(request: Request, detail: str) -> str:
-    """An error message as the asker may see it: control characters escaped
-    (:func:`posebridge.messages.printable`) and, for a reviewer, the owner's folders
-    left out of file paths (``/home/ana/cells/press.json`` -> ``press.json``).
+    """Return an error message as the asker may see it.
+
+    Control characters escaped (:func:`posebridge.messages.printable`) and, for a reviewer, the
+    owner's folders left out of file paths (``/home/ana/cells/press.json`` -> ``press.json``).
     """
     if getattr(request.state, "review_role", "reviewer") != "owner":
         for folder in _owner_folders(request):

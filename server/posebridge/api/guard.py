@@ -1,5 +1,6 @@
-"""What every request must look like before anyone's rights are considered, and what every
-answer carries.
+"""What every request must look like, and what every answer carries.
+
+Requests are checked before anyone's rights are considered.
 
 A web page of another site must not be able to use the dashboard with the
 owner's rights, even though the owner's browser can reach the loopback
@@ -65,9 +66,11 @@ LOOPBACK_NAMES: Final = frozenset({"127.0.0.1", "localhost", "::1"})
 
 
 def content_security_policy(style_attribute_hashes: tuple[str, ...] = ()) -> str:
-    """Only this server's own resources: no inline scripts, no eval, no inline styles but
-    the style attributes of the given hashes (``'sha256-...'``, plotly.js's one:
-    :mod:`posebridge.api.plotly_assets`), no framing, no form posts.
+    """Return the content security policy: only this server's own resources.
+
+    No inline scripts, no eval, no inline styles but the style attributes of the given hashes
+    (``'sha256-...'``, plotly.js's one: :mod:`posebridge.api.plotly_assets`), no framing, no form
+    posts.
     """
     attributes = " ".join(("'unsafe-hashes'", *style_attribute_hashes))
     return (
@@ -97,8 +100,10 @@ _JSON_TYPE = re.compile(r"application/(?:[a-z0-9.+-]+\+)?json", re.IGNORECASE)
 
 
 def parse_host(value: str, scheme: str = "http") -> tuple[str, int] | None:
-    """Name (lower case, no brackets or trailing dot) and port of a ``Host`` value
-    (RFC 9110 sec. 7.2: ``host [":" port]``, default port by scheme); None if malformed.
+    """Return the name and port of a ``Host`` value, None if malformed.
+
+    The name is in lower case, without brackets or trailing dot (RFC 9110 sec. 7.2: ``host [":"
+    port]``, default port by scheme).
     """
     match = _HOST.fullmatch(value.strip())
     if match is None:
@@ -136,6 +141,7 @@ class RequestGuardMiddleware:
         self.dashboard = dashboard
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        """Refuse a request failing the checks, else pass it on; every answer gets the headers."""
         if scope["type"] != "http":
             await self.app(scope, receive, send)
             return
@@ -200,8 +206,10 @@ class RequestGuardMiddleware:
 
 
 def _with_protective_headers(send: Send, policy: str, *, api: bool) -> Send:
-    """``send`` adding the content security ``policy``, :data:`PROTECTIVE_HEADERS` (and
-    ``no-store`` for API answers) to the response start, keeping any the app set itself.
+    """Wrap ``send`` to add the protective headers to the response start.
+
+    Adds the content security ``policy`` and :data:`PROTECTIVE_HEADERS` (and ``no-store`` for API
+    answers), keeping any the app set itself.
     """
 
     async def guarded(message: Message) -> None:

@@ -186,8 +186,9 @@ class JobManager:
         return job
 
     def _start_owner_job(self, kind: str, client: str) -> Job:
-        """A new owner job, superseding the oldest queued owner jobs beyond the bound
-        (called with the lock held).
+        """Start a new owner job (called with the lock held).
+
+        The oldest queued owner jobs beyond the bound are superseded.
         """
         owner_jobs = [job for job in self._jobs.values() if job.owner and job.active]
         queued = [job for job in owner_jobs if job.state == "queued"]
@@ -201,8 +202,10 @@ class JobManager:
         return job
 
     def _forget_old(self, now: float) -> None:
-        """Drop finished jobs older than :data:`KEPT_FINISHED_S` and all but the newest
-        :data:`KEPT_FINISHED` finished ones (called with the lock held).
+        """Drop finished jobs beyond the age and count bounds (called with the lock held).
+
+        Finished jobs older than :data:`KEPT_FINISHED_S` and all but the newest
+        :data:`KEPT_FINISHED` finished ones are dropped.
         """
         finished = {
             key: job.finished_at
@@ -255,7 +258,7 @@ class JobManager:
                 job.state = "done"
 
     def get(self, job_id: str) -> Job:
-        """The job called ``job_id`` (``KeyError`` if unknown or forgotten)."""
+        """Return the job called ``job_id`` (``KeyError`` if unknown or forgotten)."""
         with self._lock:
             self._forget_old(self._clock())
             return self._jobs[job_id]

@@ -25,6 +25,7 @@ class StrictJsonRequest(Request):
     """A request whose :meth:`json` refuses repeated keys (422)."""
 
     async def json(self) -> Any:
+        """Return the body parsed as JSON, refusing repeated keys (read once, then kept)."""
         if not hasattr(self, "_json"):
             body = await self.body()
             try:
@@ -45,6 +46,7 @@ class StrictJsonRoute(APIRoute):
     """An API route that reads its body as :class:`StrictJsonRequest`."""
 
     def get_route_handler(self) -> Callable[[Request], Coroutine[Any, Any, Response]]:
+        """Return the route's handler, given the request as a :class:`StrictJsonRequest`."""
         handler = super().get_route_handler()
 
         async def strict_handler(request: Request) -> Response:

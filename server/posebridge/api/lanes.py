@@ -61,12 +61,12 @@ class ReviewerLane:
         self._condition = threading.Condition()
 
     def owner_started(self) -> None:
-        """An owner request began (called by the access middleware)."""
+        """Count an owner request as begun (called by the access middleware)."""
         with self._condition:
             self._owner_active += 1
 
     def owner_finished(self) -> None:
-        """An owner request ended."""
+        """Count an owner request as ended."""
         with self._condition:
             self._owner_active -= 1
             if self._owner_active == 0:

@@ -53,6 +53,7 @@ class MethodsMiddleware:
         return next((methods for regex, methods in self._table if regex.fullmatch(path)), [])
 
     async def __call__(self, scope: Scope, receive: Receive, send: Send) -> None:
+        """Answer an API request whose method the path does not allow, else pass it on."""
         if scope["type"] != "http" or not scope["path"].startswith("/api/"):
             await self.app(scope, receive, send)
             return

@@ -47,7 +47,7 @@ _DECLARATIONS = re.compile(r"CSS_DECLARATIONS=(\[\[.*?\]\])[;,]")
 
 
 def _js_string(literal: str) -> str:
-    """The value of a JavaScript string literal in single or double quotes."""
+    """Return the value of a JavaScript string literal in single or double quotes."""
     body = literal[1:-1]
     return re.sub(r"\\(.)", lambda m: {"n": "\n", "t": "\t"}.get(m.group(1), m.group(1)), body)
 

@@ -67,7 +67,7 @@ class RobotSource:
 
 
 def _shown(spec: str) -> str:
-    """A spec for a message: control characters escaped, long ones shortened."""
+    """Shorten a spec for a message: control characters escaped, long ones shortened."""
     text = printable(spec)
     return repr(text if len(text) <= _SHOWN_CHARS else text[:_SHOWN_CHARS] + "...")
 
@@ -161,8 +161,10 @@ class RobotCache:
         return resolved
 
     def get(self, spec: str, *, paths_allowed: bool) -> Robot:
-        """The robot for ``spec``, loaded on first use (errors as :meth:`resolve`, and
-        :class:`RobotDescriptionError` for an invalid description).
+        """Return the robot for ``spec``, loaded on first use.
+
+        Errors are those of :meth:`resolve`, and :class:`RobotDescriptionError` for an invalid
+        description.
         """
         source = self.resolve(spec, paths_allowed=paths_allowed)
         if source.robot is not None:

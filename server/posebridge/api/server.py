@@ -52,7 +52,7 @@ def is_loopback(host: str) -> bool:
 
 
 def _bind(host: str, port: int) -> socket.socket:
-    """A listening-ready TCP socket bound to ``host:port`` (port 0 picks a free port)."""
+    """Return a listening-ready TCP socket bound to ``host:port`` (port 0 picks a free port)."""
     try:
         family, kind, proto, _, address = socket.getaddrinfo(
             host.strip("[]"), port, type=socket.SOCK_STREAM
@@ -86,16 +86,17 @@ def _uvicorn_server(
 
 
 def _review_base_url(host: str, sock: socket.socket) -> str:
-    """The page URL to give reviewers: the machine's name when bound to every interface."""
+    """Return the page URL to give reviewers: the machine's name when bound to every interface."""
     if host.strip("[]") in ("0.0.0.0", "::", ""):
         return f"http://{socket.gethostname()}:{sock.getsockname()[1]}/"
     return _url(host, sock)
 
 
 def host_settings(host: str) -> dict[str, Any]:
-    """The ``host_names`` and ``ip_hosts`` settings of a server bound to ``host``: the
-    bound name itself, and for every interface (``0.0.0.0``, ``::``) the machine's names
-    and any IP address (:mod:`posebridge.api.guard`).
+    """Return the ``host_names`` and ``ip_hosts`` settings of a server bound to ``host``.
+
+    The bound name itself, and for every interface (``0.0.0.0``, ``::``) the machine's names and any
+    IP address (:mod:`posebridge.api.guard`).
     """
     bare = host.strip("[]").lower()
     if bare in ("0.0.0.0", "::", ""):

@@ -54,5 +54,5 @@ class Settings(BaseModel):
 
 @cache
 def get_settings() -> Settings:
-    """The default settings, built once on first call."""
+    """Return the default settings, built once on first call."""
     return Settings()

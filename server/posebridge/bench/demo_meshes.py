@@ -84,7 +84,7 @@ def _boxes(
 
 
 def conveyor_arrays() -> tuple[FloatArray, np.ndarray]:
-    """The conveyor in its own frame, mm: 2000 mm long along x, belt top at z = 750 mm."""
+    """Return the conveyor in its own frame, mm: 2000 mm long along x, belt top at z = 750 mm."""
     corners = [
         ((-1000.0, -200.0, 690.0), (1000.0, 200.0, 750.0)),  # belt bed
         ((-1000.0, -240.0, 660.0), (1000.0, -200.0, 790.0)),  # rail -y
@@ -97,7 +97,7 @@ def conveyor_arrays() -> tuple[FloatArray, np.ndarray]:
 
 
 def fence_arrays() -> tuple[FloatArray, np.ndarray]:
-    """The fence in its own frame, m: a 3.3 m line along y, 2 m high, panels 20 mm thick."""
+    """Return the fence in its own frame, m: a 3.3 m line along y, 2 m high, panels 20 mm thick."""
     corners = []
     for k in range(4):
         y = -1.65 + 1.1 * k
@@ -108,7 +108,7 @@ def fence_arrays() -> tuple[FloatArray, np.ndarray]:
 
 
 def demo_mesh_bytes() -> dict[str, bytes]:
-    """The demo's mesh files by name (:data:`DEMO_MESH_FILES`), as their bytes."""
+    """Return the demo's mesh files by name (:data:`DEMO_MESH_FILES`), as their bytes."""
     housing = housing_mesh(HOUSING_SIZE_M, triangles=100_000)
     return {
         "machine-housing.stl": stl_bytes(housing.vertices * 1000.0, housing.faces),

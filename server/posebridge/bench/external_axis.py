@@ -1,5 +1,7 @@
-"""Benchmark: feasible track intervals of the demo cell's targets (sweep + bisection) against a
-plain dense sweep of 1000 track positions solved with the same analytic IK.
+"""Benchmark: feasible track intervals of the demo cell's targets against a dense sweep.
+
+Sweep + bisection against a plain dense sweep of 1000 track positions solved with the same analytic
+IK.
 
 Poses: the target and approach poses of ``robots/demo-track-cell.json`` that are not on the
 turntable, each jittered (seeded) by up to 100 mm and 10 deg into 50 poses (20 quick). The

@@ -75,13 +75,15 @@ limits = { min_deg = -360, max_deg = 360, velocity_deg_s = 220, acceleration_deg
 
 
 def offset_wrist_arm() -> Robot:
-    """The invented benchmark arm (module docstring)."""
+    """Return the invented benchmark arm (module docstring)."""
     return parse_robot_toml(OFFSET_WRIST_ARM_TOML, "<bench offset-wrist arm>")
 
 
 def bench_ik_offset_wrist(quick: bool) -> dict[str, float]:
-    """Poses/s of all-branch closed-form IK (N = 100,000; 20,000 quick) and its ratio to
-    the numerical solver on the first 200 (50 quick) of the same poses.
+    """Measure poses/s of all-branch closed-form IK and its ratio to the numerical solver.
+
+    N = 100,000 poses (20,000 quick); the numerical solver runs on the first 200 (50 quick) of the
+    same poses.
     """
     robot = offset_wrist_arm()
     family = ik_solver(robot).family

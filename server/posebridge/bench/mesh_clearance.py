@@ -67,7 +67,7 @@ def robot_reach(arm: ArmCapsules, samples: int = 4_000) -> float:
 
 
 def mesh_scene() -> tuple[ArmCapsules, list[Box | Mesh]]:
-    """The demo arm with its tool, the generated housing and 10 boxes (module docstring)."""
+    """Return the demo arm with its tool, the generated housing and 10 boxes (module docstring)."""
     path = data_folder("robots") / "demo-cell.json"
     arm = cell_arm(resolve_scene(load_cell(path), path))
     reach = robot_reach(arm)

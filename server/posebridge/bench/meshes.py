@@ -25,7 +25,7 @@ __all__ = ["box_arrays", "housing_boxes", "housing_mesh", "meshed_arm_parts"]
 
 
 def box_arrays(lo: FloatArray, hi: FloatArray, level: int) -> tuple[FloatArray, np.ndarray]:
-    """A closed box from corner ``lo`` to ``hi`` (m), subdivided ``level`` times (12 * 4**level triangles).
+    """Return a closed box from corner ``lo`` to ``hi`` (m), subdivided ``level`` times (12 * 4**level triangles).
 
     Returns
     -------
@@ -85,7 +85,7 @@ def _level_for(lo: FloatArray, hi: FloatArray, edge: float) -> int:
 
 
 def housing_mesh(size: float, *, triangles: int = 100_000) -> TriangleMesh:
-    """The housing of :func:`housing_boxes` as one closed mesh of about ``triangles`` triangles.
+    """Return the housing of :func:`housing_boxes` as one closed mesh of about ``triangles`` triangles.
 
     Parameters
     ----------

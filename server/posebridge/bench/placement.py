@@ -53,7 +53,7 @@ def _seconds(executor: Executor, count: int) -> float:
 
 
 def bench_placement(quick: bool) -> dict[str, float]:
-    """Base placement wall time on two workers and its speed-up over one (module docstring)."""
+    """Measure base placement wall time on two workers and its speed-up over one (module docstring)."""
     count = 20 if quick else 50
     with LocalPoolExecutor(POOL_WORKERS, initializer=worker_initializer(warm_geometry)) as pool:
         pooled = _seconds(pool, count)

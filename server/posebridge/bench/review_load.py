@@ -59,7 +59,7 @@ _CIRCLE_MM = 40.0
 
 @contextmanager
 def _shared_server(token: str) -> Iterator[str]:
-    """A shared server in its own process on a copy of the demo cell; yields its URL."""
+    """Run a shared server in its own process on a copy of the demo cell; yields its URL."""
     folder = Path(tempfile.mkdtemp(prefix="posebridge-bench-"))
     cell = folder / "cell.json"
     shutil.copy(data_folder("robots") / "demo-cell.json", cell)
@@ -90,7 +90,7 @@ def _client(url: str, address: str, token: str | None) -> httpx.Client:
 
 
 def _home_request(url: str) -> dict[str, object]:
-    """The demo cell's robot, base and tool, and the TCP pose at home, for the drags."""
+    """Return the demo cell's robot, base and tool, and the TCP pose at home, for the drags."""
     with httpx.Client(base_url=url, timeout=60.0) as client:
         document = client.get("api/cell").json()
         scene = document["scene"]
@@ -161,7 +161,7 @@ def _p95(values: list[float]) -> float:
 def _run_drags(
     url: str, token: str, setup: dict[str, object], reviewers: int, seconds: float
 ) -> tuple[list[float], list[list[float]], int]:
-    """The owner's drag times, each reviewer's, and the error count, dragging together."""
+    """Return the owner's drag times, each reviewer's, and the error count, dragging together."""
     until = time.monotonic() + seconds
     owner_times: list[float] = []
     reviewer_times: list[list[float]] = [[] for _ in range(reviewers)]

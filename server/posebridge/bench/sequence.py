@@ -182,7 +182,7 @@ def _bench_scene(waypoints: list[dict[str, object]] | None = None) -> Scene:
 
 
 def _picking_scene() -> Scene:
-    """The 20-waypoint path of the module docstring (seeded, invented).
+    """Return the 20-waypoint path of the module docstring (seeded, invented).
 
     Approach poses with the tool pointing down, tilted 6-23 deg, 0.55-0.8 m from
     the first axis all around the arm, 0.85-1.1 m above the floor, seeded random

@@ -51,16 +51,18 @@ class _Result(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
 
-# One arm capsule closer than the clearance threshold to an obstacle or another capsule.
 class ArmContact(_Result):
+    """One arm capsule closer than the clearance threshold to an obstacle or another capsule."""
+
     capsule: str = Field(description="Arm or tool capsule.")
     other: str = Field(description="Obstacle name, or the second capsule for a self pair.")
     other_kind: PartKind
     distance_mm: float = Field(description="Signed distance; negative is the penetration depth.")
 
 
-# The arm's state at one joint configuration in the cell (numbers; the page words them).
 class ArmState(_Result):
+    """The arm's state at one joint configuration in the cell (numbers; the page words them)."""
+
     joint_names: list[str]
     joint_units: list[str]
     joints_deg: list[float] = Field(

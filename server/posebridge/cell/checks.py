@@ -1,4 +1,4 @@
-"""The target check: can the robot reach every target of the cell, on which branch, how well?
+"""The target check: can the robot reach every target of the cell, on which branch, how well.
 
 :func:`check_targets` solves inverse kinematics for every target and every
 approach pose (targets with an approach offset) with all revolution variants
@@ -94,7 +94,7 @@ _SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
 
 
 def required_branch_words(branch: Branch | None) -> str | None:
-    """The required branch in words, e.g. ``"front, up"`` (None when any branch will do)."""
+    """Return the required branch in words, e.g. ``"front, up"`` (None when any branch will do)."""
     if branch is None:
         return None
     words = [w for w in (branch.shoulder, branch.elbow, branch.wrist) if w is not None]
@@ -102,7 +102,7 @@ def required_branch_words(branch: Branch | None) -> str | None:
 
 
 def _compatible(a: Triple, b: Triple) -> bool:
-    """Same branch, with a 0 label (exactly singular) compatible with either sign."""
+    """Tell whether two branch triples match, a 0 label (exactly singular) matching either sign."""
     return all(x == y or x == 0 or y == 0 for x, y in zip(a, b, strict=True))
 
 
@@ -191,8 +191,9 @@ class _Checker:
         self.findings: list[Finding] = []
 
     def _matches(self, pose_index: np.ndarray) -> BoolArray:
-        """Whether each solution is on its target's required branch, shape (S,): the
-        required sign of each part per pose (0: any), spread to the solutions at once.
+        """Tell whether each solution is on its target's required branch, shape (S,).
+
+        The required sign of each part per pose (0: any), spread to the solutions at once.
         """
         quality = self.quality
         labels = {"shoulder": quality.shoulder, "elbow": quality.elbow, "wrist": quality.wrist}
@@ -337,8 +338,9 @@ class _Checker:
     # --- the whole check ----------------------------------------------------------------
 
     def _on_branch(self, triple: Triple) -> BoolArray:
-        """Solutions compatible with ``triple`` (a 0 label matches either sign), shape (S,);
-        computed once per triple.
+        """Return the solutions compatible with ``triple``, shape (S,); computed once per triple.
+
+        A 0 label matches either sign.
         """
         mask = self._branch_masks.get(triple)
         if mask is None:
@@ -513,7 +515,7 @@ class _Checker:
         )
 
     def _open_mesh_findings(self) -> None:
-        """A note per mesh fixture that is not a closed surface: its clearance is unsigned."""
+        """Add a note per mesh fixture that is not a closed surface: its clearance is unsigned."""
         meshes = self.scene.meshes
         for name, mesh in zip(meshes.names, meshes.meshes, strict=True):
             if not mesh.is_closed:
@@ -530,7 +532,7 @@ class _Checker:
 
 
 def _coverage_findings(coverage: ConsistentBranch, count: int) -> list[Finding]:
-    """The consistent-branch finding of a coverage (info, or a warning when none covers all)."""
+    """Return the consistent-branch finding of a coverage (info, or a warning when none covers all)."""
     if count == 0:
         return [
             Finding(
@@ -603,7 +605,7 @@ def _target_subset(targets: TargetSet, members: list[int]) -> TargetSet:
 
 
 def _external_fields(scene: Scene, choice: ExternalChoice) -> dict[str, object]:
-    """The external-axis fields of one target's check, in boundary units."""
+    """Return the external-axis fields of one target's check, in boundary units."""
     external = scene.external
     values = external.user_from_si(choice.values)
     listed = []

@@ -85,7 +85,7 @@ SELF_PAIR_SAMPLES = 1000
 
 
 def cell_arm(scene: Scene) -> ArmCapsules:
-    """The robot's link capsules followed by the cell tool's capsules (flange frame).
+    """Return the robot's link capsules followed by the cell tool's capsules (flange frame).
 
     Returns
     -------
@@ -161,7 +161,7 @@ def obstacle_names(scene: Scene) -> list[str]:
 
 
 def obstacle_kinds(scene: Scene) -> list[ObstacleKind]:
-    """What each obstacle is (``"fixture"``, ``"keep-out"``, ``"pedestal"``, ``"floor"``), length k."""
+    """Return what each obstacle is (``"fixture"``, ``"keep-out"``, ``"pedestal"``, ``"floor"``), length k."""
     kinds: list[ObstacleKind] = ["fixture"] * fixture_count(scene)
     kinds += ["keep-out"] * len(scene.keep_outs.names)
     kinds += ["pedestal"] * len(scene.pedestal.names)
@@ -217,7 +217,7 @@ def _built(scene: Scene) -> _Built:
 
 
 def clearance_scene(scene: Scene) -> ClearanceScene:
-    """The clearance scene of a cell: arm with tool, obstacles, base pose, pairs (module docstring).
+    """Return the clearance scene of a cell: arm with tool, obstacles, base pose, pairs (module docstring).
 
     Built on the first call for a scene object and reused after that.
 

@@ -124,7 +124,7 @@ _SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
 
 
 def _frame(T: FloatArray) -> PoseFrame:
-    """A pose (4, 4), m, as position mm, rpy deg and quaternion."""
+    """Express a pose (4, 4), m, as position mm, rpy deg and quaternion."""
     return PoseFrame(
         position_mm=mm_from_m(T[:3, 3]).tolist(),
         rpy_deg=rpy_from_rotation_matrix(T[:3, :3], degrees=True).tolist(),
@@ -138,7 +138,7 @@ def _pair_label(clearance: CellClearance, k: int) -> str:
 
 
 def _overall_pair(quality: ConfigurationQuality, k: int) -> CellClearance:
-    """The clearance (environment or self) holding configuration ``k``'s closest pair."""
+    """Return the clearance (environment or self) holding configuration ``k``'s closest pair."""
     if quality.self_clearance.distance[k] < quality.environment.distance[k]:
         return quality.self_clearance
     return quality.environment
@@ -170,7 +170,7 @@ def _nearest_targets(scene: Scene, T_world_tool: FloatArray) -> list[NearTarget]
 
 
 def _closest_objects(scene: Scene, q: FloatArray) -> list[ObjectDistance]:
-    """The obstacles nearest configuration ``q`` (1, n), nearest first."""
+    """Return the obstacles nearest configuration ``q`` (1, n), nearest first."""
     distance = clearance_per_obstacle_batch(clearance_scene(scene), q).distance[0]
     names = obstacle_names(scene)
     kinds = obstacle_kinds(scene)
@@ -194,7 +194,7 @@ def _single(scene: Scene, q: npt.ArrayLike) -> FloatArray:
 
 
 def _finite_mm(distance_m: float) -> float | None:
-    """A distance in mm, None where nothing was checked (infinite)."""
+    """Convert a distance to mm, None where nothing was checked (infinite)."""
     value = float(mm_from_m(distance_m))
     return value if math.isfinite(value) else None
 

@@ -43,7 +43,7 @@ __all__ = [
 
 
 def rail_frame(origin: npt.ArrayLike, direction: npt.ArrayLike) -> FloatArray:
-    """The rail frame: at ``origin`` (m), x along ``direction``, z up, shape (4, 4).
+    """Return the rail frame: at ``origin`` (m), x along ``direction``, z up, shape (4, 4).
 
     z is world z with its component along x removed (Gram-Schmidt), y = z x x.
     """

@@ -141,6 +141,7 @@ class CellSaveError(OSError):
         self.failure = failure
 
     def __str__(self) -> str:
+        """Return the message alone, without the path and failure attributes."""
         return str(self.args[0])
 
 
@@ -149,7 +150,7 @@ _NOT_PERMITTED = {errno.EACCES, errno.EPERM}
 
 
 def _save_error(error: OSError, path: Path) -> CellSaveError:
-    """The :class:`CellSaveError` of a failed write of cell file ``path``."""
+    """Return the :class:`CellSaveError` of a failed write of cell file ``path``."""
     folder = path.parent
     unchanged = "nothing was written, the file is as it was"
     if error.errno in _NO_SPACE:
@@ -181,9 +182,10 @@ def _save_error(error: OSError, path: Path) -> CellSaveError:
 
 
 def _refuse_read_only(target: Path, mode: int, shown: Path) -> None:
-    """Refuse to replace a file its user made read-only: no owner write bit (checked even
-    for the superuser, who could write anyway) or no write permission for this process;
-    a file on a read-only mount is reported as such.
+    """Refuse to replace a file its user made read-only.
+
+    No owner write bit (checked even for the superuser, who could write anyway) or no write
+    permission for this process; a file on a read-only mount is reported as such.
     """
     try:
         read_only_mount = bool(os.statvfs(target.parent).f_flag & os.ST_RDONLY)
@@ -275,8 +277,10 @@ def migrate_cell_data(
 
 
 class DuplicateJsonKeyError(ValueError):
-    """A JSON object names the same key twice (RFC 8259 sec. 4: names SHOULD be unique;
-    readers disagree on which value wins, so cell content refuses them).
+    """A JSON object names the same key twice.
+
+    RFC 8259 sec. 4: names SHOULD be unique; readers disagree on which value wins, so cell content
+    refuses them.
     """
 
 
@@ -376,9 +380,10 @@ def _rounded(value: Any) -> Any:
 
 
 def _plain_data(cell: Cell) -> dict[str, Any]:
-    """The cell as JSON data, numbers rounded as written (so the content version matches the
-    file); thresholds left out while they are all the defaults, so a saved file follows later
-    defaults unless the user set its own.
+    """Return the cell as JSON data, numbers rounded as written.
+
+    Rounded so the content version matches the file; thresholds left out while they are all the
+    defaults, so a saved file follows later defaults unless the user set its own.
     """
     data: dict[str, Any] = _rounded(cell.model_dump(mode="json", exclude_none=True))
     if cell.thresholds == QualityThresholds():
@@ -394,7 +399,7 @@ _NUMBER_ARRAY = re.compile(r"\[\n\s+(-?[0-9][-+.0-9eE]*(?:,\n\s+-?[0-9][-+.0-9eE
 
 
 def cell_json(cell: Cell) -> str:
-    """The text :func:`save_cell` writes.
+    """Return the text :func:`save_cell` writes.
 
     Indented JSON in model field order, unset optional fields left out, and
     arrays of numbers kept on one line (``"position_mm": [0.0, 0.0, 400.0]``).

@@ -1,4 +1,4 @@
-"""Controller joint logs: CSV files of joint values, one configuration per row.
+r"""Controller joint logs: CSV files of joint values, one configuration per row.
 
 Format (our own, kept plain so any controller export can be massaged into it):
 
@@ -168,8 +168,9 @@ def _bad_value(text: str, line: int, column: int, name: str, where: str) -> Join
 
 
 def _records(reader: Iterator[list[str]], where: str) -> Iterator[list[str]]:
-    """The records of a csv reader, its errors (a field over the csv module's size limit)
-    as :class:`JointLogError` naming the line.
+    """Yield the records of a csv reader, its errors as :class:`JointLogError` naming the line.
+
+    An error is, e.g., a field over the csv module's size limit.
     """
     try:
         yield from reader

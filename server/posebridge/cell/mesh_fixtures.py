@@ -49,7 +49,7 @@ MAX_KEPT_MESHES = 32
 
 
 def mesh_fixture_path(fixture: MeshFixture, cell_path: Path | None, where: str) -> Path:
-    """The mesh file of ``fixture``: absolute, or relative to the cell file's folder.
+    """Return the mesh file of ``fixture``: absolute, or relative to the cell file's folder.
 
     Raises
     ------
@@ -110,7 +110,7 @@ class MeshFixtureLoader:
         return mesh
 
     def load(self, fixture: MeshFixture, cell_path: Path | None, where: str) -> TriangleMesh:
-        """The mesh of one fixture in metres, in the fixture frame.
+        """Return the mesh of one fixture in metres, in the fixture frame.
 
         Parameters
         ----------
@@ -156,7 +156,7 @@ class MeshFixtureLoader:
         return mesh
 
     def load_cell(self, cell: Cell, cell_path: Path | None) -> dict[int, TriangleMesh]:
-        """The meshes of every mesh fixture of ``cell``, by fixture index.
+        """Return the meshes of every mesh fixture of ``cell``, by fixture index.
 
         Raises
         ------

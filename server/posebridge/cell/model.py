@@ -200,7 +200,7 @@ def _three_values(value: Any) -> Any:
 
 
 def _finite(*, gt: float | None = None, ge: float | None = None, le: float | None = None) -> Any:
-    """A strict, finite float field with bounds (NaN, infinities and booleans refused)."""
+    """Return a strict, finite float field with bounds (NaN, infinities and booleans refused)."""
     return Field(strict=True, allow_inf_nan=False, gt=gt, ge=ge, le=le)
 
 
@@ -768,8 +768,9 @@ def reference_problems(cell: Cell) -> list[tuple[str, str]]:
 
 
 def json_path(loc: tuple[int | str, ...]) -> str:
-    """JSON path of a pydantic error location: ``("fixtures", 2, "size_mm", 1)`` ->
-    ``fixtures[2].size_mm[1]``; the top level is ``"cell"``.
+    """Return the JSON path of a pydantic error location.
+
+    ``("fixtures", 2, "size_mm", 1)`` -> ``fixtures[2].size_mm[1]``; the top level is ``"cell"``.
 
     The tag segments pydantic inserts for the fixture shapes are dropped, so
     paths match the file.
@@ -803,7 +804,7 @@ def json_type_name(value: Any) -> str:
 
 
 def _show(value: Any) -> str:
-    """A JSON value as written in messages: strings quoted like names, else JSON."""
+    """Show a JSON value as written in messages: strings quoted like names, else JSON."""
     return repr(value) if isinstance(value, str) else json.dumps(value)
 
 

@@ -205,7 +205,7 @@ class ConfigurationQuality:
 
 
 def singularity_thresholds(thresholds: QualityThresholds) -> SingularityThresholds:
-    """The singularity thresholds of ``thresholds`` in SI units."""
+    """Return the singularity thresholds of ``thresholds`` in SI units."""
     return SingularityThresholds(
         wrist_rad=float(rad_from_deg(thresholds.wrist_deg)),
         elbow_rad=float(rad_from_deg(thresholds.elbow_deg)),
@@ -313,8 +313,9 @@ def proximity_ratio(quality: ConfigurationQuality) -> FloatArray:
 
 
 def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
-    """Whole extra revolutions of each joint, shape (N, n), counted as the IK result counts
-    them (:mod:`posebridge.kinematics.ik.finishing`).
+    """Count the whole extra revolutions of each joint, shape (N, n).
+
+    Counted as the IK result counts them (:mod:`posebridge.kinematics.ik.finishing`).
 
     Limited revolute joints: ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)``, revolutions
     away from the one centred on the range (so a joint whose range spans at most one
@@ -354,7 +355,7 @@ def _finite_or_none(value: float) -> float | None:
 
 
 def closest_pair_model(clearance: CellClearance, k: int) -> ClosestPair | None:
-    """Configuration ``k``'s closest pair in mm, or None when nothing was checked."""
+    """Return configuration ``k``'s closest pair in mm, or None when nothing was checked."""
     if not np.isfinite(clearance.distance[k]):
         return None
     capsule, other, kind = clearance.pair(k)
@@ -370,7 +371,7 @@ def closest_pair_model(clearance: CellClearance, k: int) -> ClosestPair | None:
 
 
 def singularity_model(quality: ConfigurationQuality, k: int) -> SingularityProximity | None:
-    """Configuration ``k``'s singularity distances in degrees and mm (None for non-arm robots)."""
+    """Return configuration ``k``'s singularity distances in degrees and mm (None for non-arm robots)."""
     report = quality.singularity
     if report is None:
         return None
@@ -386,7 +387,7 @@ def singularity_model(quality: ConfigurationQuality, k: int) -> SingularityProxi
 
 
 def joint_margins_model(quality: ConfigurationQuality, k: int) -> list[JointMargin]:
-    """Configuration ``k``'s per-joint limit margins in degrees or mm."""
+    """Return configuration ``k``'s per-joint limit margins in degrees or mm."""
     robot = quality.robot
     prismatic = robot.prismatic
     units = joint_unit_labels(prismatic)
@@ -482,8 +483,9 @@ def _pair_text(pair: ClosestPair) -> str:
 
 
 def geometry_findings(robot: Robot) -> list[Finding]:
-    """A warning finding (code ``robot-geometry-missing``) for a robot without collision
-    geometry, else none: its clearances mean nothing.
+    """Return a warning finding for a robot without collision geometry, else none.
+
+    Code ``robot-geometry-missing``: its clearances mean nothing.
     """
     message = robot.geometry_missing
     if message is None:
@@ -503,7 +505,7 @@ def quality_findings(
     row: int | None = None,
     context: str = "",
 ) -> list[Finding]:
-    """Findings of configuration ``k`` against the thresholds.
+    """Return findings of configuration ``k`` against the thresholds.
 
     Errors: a joint outside its limits; a colliding pair (the cell or the arm
     itself). Warnings: a joint closer to a limit than ``limit_margin_deg``

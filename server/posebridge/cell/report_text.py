@@ -63,8 +63,10 @@ def _clearance(pair: ClosestPair | None) -> str:
 
 
 def _findings(findings: Sequence[Finding]) -> str:
-    """Findings one per line; findings of one severity, code and cause (an object pair, a
-    joint) that occur more than once are one line with their count and the worst one.
+    """Render findings one per line.
+
+    Findings of one severity, code and cause (an object pair, a joint) that occur more than once are
+    one line with their count and the worst one.
     """
     if not findings:
         return "Findings: none"
@@ -127,7 +129,7 @@ def _branches_table(branches: Sequence[BranchReport], marked: int | None, mark: 
 
 
 def render_target_check(report: TargetCheckReport) -> str:
-    """The target check as a summary table, the consistent branch and the findings."""
+    """Render the target check as a summary table, the consistent branch and the findings."""
     rows = []
     for target in report.targets:
         pose = target.target
@@ -267,7 +269,7 @@ def render_pose_diagnosis(diagnosis: PoseDiagnosis) -> str:
 
 
 def render_log_diagnosis(diagnosis: LogDiagnosis) -> str:
-    """A log: smallest margins, extremes, stretches, branch changes, speeds, worst row, findings."""
+    """Render a log: smallest margins, extremes, stretches, branch changes, speeds, worst row, findings."""
     d = diagnosis
 
     def when(row: int, time_s: float | None) -> str:

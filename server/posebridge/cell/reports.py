@@ -87,8 +87,12 @@ class _Result(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
 
-# The warning thresholds and score references of the checks (parameters and part of every result).
 class QualityThresholds(_Result):
+    """The warning thresholds and score references of the checks.
+
+    They are parameters of the checks and part of every result.
+    """
+
     model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
 
     # common practice, no source
@@ -139,8 +143,9 @@ class QualityThresholds(_Result):
     )
 
 
-# Closest pair of the arm and the cell (or of two arm capsules).
 class ClosestPair(_Result):
+    """Closest pair of the arm and the cell (or of two arm capsules)."""
+
     distance_mm: float = Field(description="Signed distance; negative is the penetration depth.")
     capsule: str = Field(description="Arm or tool capsule.")
     other: str = Field(description="Obstacle name, or the second capsule for a self pair.")
@@ -149,15 +154,17 @@ class ClosestPair(_Result):
     other_point_mm: list[float] = Field(description="Closest point on the other, world frame.")
 
 
-# Clearance to one obstacle of the cell.
 class ObjectDistance(_Result):
+    """Clearance to one obstacle of the cell."""
+
     name: str
     kind: PartKind
     distance_mm: float = Field(description="Signed distance; negative is the penetration depth.")
 
 
-# Distance of one joint to its position limits.
 class JointMargin(_Result):
+    """Distance of one joint to its position limits."""
+
     joint: str
     unit: str = Field(description="deg or mm")
     value: float
@@ -168,8 +175,9 @@ class JointMargin(_Result):
     nearer_limit: Literal["lower", "upper"] | None
 
 
-# How far a configuration is from the wrist, elbow and shoulder singularities.
 class SingularityProximity(_Result):
+    """How far a configuration is from the wrist, elbow and shoulder singularities."""
+
     kind: Literal["wrist", "elbow", "shoulder", "none"] = Field(
         description="The nearest kind below its threshold, or none."
     )
@@ -183,8 +191,9 @@ class SingularityProximity(_Result):
     near_shoulder: bool
 
 
-# One inverse-kinematics solution of a pose, with its quality.
 class BranchReport(_Result):
+    """One inverse-kinematics solution of a pose, with its quality."""
+
     branch: str = Field(
         description="Shoulder, elbow and wrist words, then any extra joint revolutions."
     )
@@ -229,8 +238,9 @@ class BranchReport(_Result):
     )
 
 
-# The check of one pose: a target, or its approach pose.
 class PoseCheck(_Result):
+    """The check of one pose: a target, or its approach pose."""
+
     kind: PoseKind
     position_mm: list[float] = Field(description="TCP position in the world.")
     rpy_deg: list[float] = Field(description="TCP orientation in the world. " + _RPY)
@@ -241,8 +251,9 @@ class PoseCheck(_Result):
     recommended_branch: str | None
 
 
-# Feasible intervals of one external axis for one target and branch.
 class ExternalAxisIntervals(_Result):
+    """Feasible intervals of one external axis for one target and branch."""
+
     axis: str = Field(description="External axis name (track or turntable).")
     unit: str = Field(description="mm or deg")
     branch: str = Field(description="Shoulder/elbow/wrist words.")
@@ -252,8 +263,9 @@ class ExternalAxisIntervals(_Result):
     )
 
 
-# The check of one target of the cell.
 class TargetCheck(_Result):
+    """The check of one target of the cell."""
+
     name: str
     fixture: str
     required_branch: str | None = Field(description="Required shoulder/elbow/wrist words, if any.")
@@ -278,8 +290,9 @@ class TargetCheck(_Result):
     )
 
 
-# Which targets one shoulder/elbow/wrist branch reaches, clear of the cell.
 class BranchCoverage(_Result):
+    """Which targets one shoulder/elbow/wrist branch reaches, clear of the cell."""
+
     branch: str
     shoulder: int
     elbow: int
@@ -288,16 +301,18 @@ class BranchCoverage(_Result):
     targets_breaking: list[str]
 
 
-# Is there one branch on which every target (and approach pose) is reachable and clear?
 class ConsistentBranch(_Result):
+    """Whether one branch reaches every target (and approach pose) clear of the cell."""
+
     consistent: bool
     branch: str | None = Field(description="The branch covering the most targets (first of ties).")
     breaking_targets: list[str] = Field(description="Targets that branch does not reach clear.")
     coverage: list[BranchCoverage] = Field(description="Every branch, most targets first.")
 
 
-# One finding of a check.
 class Finding(_Result):
+    """One finding of a check."""
+
     severity: Severity
     code: str = Field(
         description="Target check: unreachable, approach-branch, branch-limited, "
@@ -323,8 +338,9 @@ class Finding(_Result):
     )
 
 
-# Findings of one kind with one cause (e.g. one object pair), counted, with the worst one.
 class FindingGroup(_Result):
+    """Findings of one kind with one cause (e.g. one object pair), counted, with the worst one."""
+
     severity: Severity
     code: str
     cause: str
@@ -333,8 +349,9 @@ class FindingGroup(_Result):
 
 
 def group_findings(findings: list[Finding]) -> list[FindingGroup]:
-    """Findings with a cause grouped by (severity, code, cause), in first-seen order; the
-    worst of a group is its finding with the smallest value (deepest penetration, smallest
+    """Return findings with a cause grouped by (severity, code, cause), in first-seen order.
+
+    The worst of a group is its finding with the smallest value (deepest penetration, smallest
     clearance or margin).
     """
     groups: dict[tuple[str, str, str], list[Finding]] = {}
@@ -353,8 +370,9 @@ def group_findings(findings: list[Finding]) -> list[FindingGroup]:
     ]
 
 
-# Target check of a whole cell.
 class TargetCheckReport(_Result):
+    """Target check of a whole cell."""
+
     cell: str = Field(description="Cell title.")
     robot: str
     tool: str
@@ -383,23 +401,26 @@ class TargetCheckReport(_Result):
     )
 
 
-# A tool pose in one frame.
 class PoseFrame(_Result):
+    """A tool pose in one frame."""
+
     position_mm: list[float]
     rpy_deg: list[float] = Field(description=_RPY)
     quaternion_wxyz: list[float] = Field(description="[w, x, y, z], w >= 0.")
 
 
-# How close a pose is to a target or approach pose of the cell.
 class NearTarget(_Result):
+    """How close a pose is to a target or approach pose of the cell."""
+
     name: str
     pose: PoseKind
     distance_mm: float = Field(description="TCP position distance.")
     angle_deg: float = Field(description="Rotation angle between the two orientations.")
 
 
-# Diagnosis of one joint configuration in the cell.
 class PoseDiagnosis(_Result):
+    """Diagnosis of one joint configuration in the cell."""
+
     robot: str
     tool: str
     joint_names: list[str]
@@ -454,8 +475,9 @@ class PoseDiagnosis(_Result):
     )
 
 
-# One row of a log picked for a reason.
 class RowValue(_Result):
+    """One row of a log picked for a reason."""
+
     row: int = Field(description="0-based data row.")
     line: int = Field(description="Line in the file (the header is line 1).")
     time_s: float | None
@@ -464,8 +486,9 @@ class RowValue(_Result):
     detail: str
 
 
-# The row where one joint comes closest to a limit.
 class JointExtreme(_Result):
+    """The row where one joint comes closest to a limit."""
+
     joint: str
     unit: str
     row: int
@@ -477,8 +500,9 @@ class JointExtreme(_Result):
     nearer_limit: Literal["lower", "upper"]
 
 
-# Consecutive rows sharing a condition (e.g. near the wrist singularity).
 class RowStretch(_Result):
+    """Consecutive rows sharing a condition (e.g. near the wrist singularity)."""
+
     condition: str = Field(
         description="collision, low clearance, outside limits, low limit margin, near wrist "
         "singularity, near elbow singularity, near shoulder singularity"
@@ -495,8 +519,9 @@ class RowStretch(_Result):
     detail: str
 
 
-# A change of arm branch between consecutive rows.
 class BranchChange(_Result):
+    """A change of arm branch between consecutive rows."""
+
     row: int = Field(description="The row after the change.")
     line: int
     time_s: float | None
@@ -505,8 +530,9 @@ class BranchChange(_Result):
     after: str
 
 
-# A joint change between consecutive rows faster than the joint's velocity limit.
 class VelocityJump(_Result):
+    """A joint change between consecutive rows faster than the joint's velocity limit."""
+
     row: int = Field(description="The second row of the pair.")
     line: int
     time_from_s: float
@@ -519,16 +545,18 @@ class VelocityJump(_Result):
     ratio: float = Field(description="speed / limit")
 
 
-# The velocity check of a log (needs a time_s column).
 class VelocityCheck(_Result):
+    """The velocity check of a log (needs a time_s column)."""
+
     checked: bool
     reason: str = Field(description="Why the check was skipped; empty when it ran.")
     jump_count: int
     jumps: list[VelocityJump] = Field(description=f"At most {MAX_LISTED_EVENTS}, by row.")
 
 
-# The single row a user should look at first.
 class WorstRow(_Result):
+    """The single row a user should look at first."""
+
     row: int
     line: int
     time_s: float | None
@@ -537,8 +565,9 @@ class WorstRow(_Result):
     diagnosis: PoseDiagnosis
 
 
-# Per-row values of a log, one list per quantity (for plots).
 class LogRows(_Result):
+    """Per-row values of a log, one list per quantity (for plots)."""
+
     line: list[int]
     time_s: list[float] | None
     tcp_position_mm: list[list[float]] = Field(description="TCP position in the world.")
@@ -560,8 +589,9 @@ class LogRows(_Result):
     )
 
 
-# Diagnosis of a controller joint log in the cell.
 class LogDiagnosis(_Result):
+    """Diagnosis of a controller joint log in the cell."""
+
     source: str
     robot: str
     tool: str

@@ -355,7 +355,7 @@ class Scene:
 
 
 def _pose_si(position_mm: npt.ArrayLike, rpy_deg: npt.ArrayLike) -> FloatArray:
-    """Transforms from positions (mm) and fixed-axis X-Y-Z rpy (deg), shape (..., 4, 4)."""
+    """Return transforms from positions (mm) and fixed-axis X-Y-Z rpy (deg), shape (..., 4, 4)."""
     return transform_from_position_rpy(m_from_mm(position_mm), rpy_deg, degrees=True)
 
 
@@ -372,8 +372,9 @@ def _optional_path(path: str | Path | None) -> Path | None:
 
 
 def _load_cell_robot(cell: Cell, cell_path: Path | None) -> Robot:
-    """The cell's robot: bundled name, file relative to the cell file (with its chain choice
-    and mesh folders, meshes fitted), or embedded TOML.
+    """Return the cell's robot: bundled name, file relative to the cell file, or embedded TOML.
+
+    A robot file comes with its chain choice and mesh folders, meshes fitted.
     """
     source = cell.robot
     try:
@@ -480,7 +481,7 @@ def _joint_count_problems(cell: Cell, robot: Robot) -> list[str]:
 
 
 def _external_axes(cell: Cell, T_foot_base: FloatArray) -> ExternalAxes:
-    """The cell's track and turntables in SI, posed at their home values."""
+    """Return the cell's track and turntables in SI, posed at their home values."""
     names: list[str] = []
     prismatic: list[bool] = []
     rows: list[list[float]] = []  # lower, upper, home, v, a
@@ -542,7 +543,7 @@ def _external_axes(cell: Cell, T_foot_base: FloatArray) -> ExternalAxes:
 
 
 def _carriage_box(external: ExternalAxes, name: str) -> tuple[str, FloatArray, FloatArray] | None:
-    """The carriage as a box (name, centre frame, half extents) at the posed track value."""
+    """Return the carriage as a box (name, centre frame, half extents) at the posed track value."""
     track = external.track
     if track is None or track.carriage_height <= 0.0:
         return None
@@ -801,7 +802,7 @@ def _moved(
 
 
 def posed_scene(scene: Scene, values: npt.ArrayLike) -> Scene:
-    """The scene with its external axes at ``values`` (m, rad; shape (m,)).
+    """Return the scene with its external axes at ``values`` (m, rad; shape (m,)).
 
     The track moves the robot base, the pedestal and the carriage by the change
     of position along the rail; each turntable turns its fixtures and their

@@ -21,7 +21,7 @@ CELL_SCHEMA_ID = f"https://posebridge.invalid/schema/cell-v{CELL_SCHEMA_VERSION}
 
 
 def cell_json_schema() -> dict[str, Any]:
-    """The JSON Schema (draft 2020-12) of cell files of the current schema version."""
+    """Return the JSON Schema (draft 2020-12) of cell files of the current schema version."""
     schema = Cell.model_json_schema(mode="validation")
     return {
         "$schema": "https://json-schema.org/draft/2020-12/schema",

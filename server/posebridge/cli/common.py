@@ -1,5 +1,6 @@
-"""What every command of the command line shares: exit codes, the input error,
-parsing of mm/deg arguments and CSV files, printing, the progress bar.
+"""What every command of the command line shares.
+
+Exit codes, the input error, parsing of mm/deg arguments and CSV files, printing, the progress bar.
 
 Values at this boundary are millimetres and degrees (prismatic joints in mm).
 """
@@ -74,8 +75,9 @@ def tool_from_argument(text: str | None) -> FloatArray | None:
 
 
 def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray:
-    """Rows of numbers, with an optional header naming ``columns`` in any order, read as a
-    size-capped stream (:func:`posebridge.value_files.read_value_rows`).
+    """Read rows of numbers, with an optional header naming ``columns`` in any order.
+
+    Read as a size-capped stream (:func:`posebridge.value_files.read_value_rows`).
 
     Returns
     -------
@@ -90,7 +92,7 @@ def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray
 
 
 def load_robot_argument(args: argparse.Namespace) -> Robot:
-    """The robot named on the command line, its chain chosen and its meshes fitted."""
+    """Return the robot named on the command line, its chain chosen and its meshes fitted."""
     from posebridge.geometry.robot_meshes import load_robot_with_meshes
 
     return load_robot_with_meshes(
@@ -102,7 +104,7 @@ def load_robot_argument(args: argparse.Namespace) -> Robot:
 
 
 def load_scene(cell_argument: str) -> Any:
-    """The resolved scene (SI arrays) of the cell file named on the command line."""
+    """Return the resolved scene (SI arrays) of the cell file named on the command line."""
     from posebridge.cell import load_cell, resolve_scene
 
     path = Path(cell_argument)
@@ -113,7 +115,7 @@ def load_scene(cell_argument: str) -> Any:
 
 
 def print_json(data: Any) -> None:
-    """``data`` as indented JSON on stdout (NaN refused: JSON has none)."""
+    """Print ``data`` as indented JSON on stdout (NaN refused: JSON has none)."""
     json.dump(data, sys.stdout, indent=2, allow_nan=False)
     sys.stdout.write("\n")
 
@@ -151,6 +153,7 @@ class ProgressBar:
         self.enabled = enabled and sys.stderr.isatty()
 
     def __call__(self, done: int, total: int) -> None:
+        """Draw the bar at ``done`` of ``total`` on stderr (nothing when disabled)."""
         if not self.enabled or total <= 0:
             return
         width = 30
@@ -162,8 +165,9 @@ class ProgressBar:
 
 
 def executor_from(args: argparse.Namespace, warm_up: Callable[[], None]) -> Any:
-    """The executor of ``--workers``/``--scheduler`` (see ``SharedOptions.executor``); its
-    workers run ``warm_up`` (a layer's warm-up function) once when they start.
+    """Return the executor of ``--workers``/``--scheduler`` (see ``SharedOptions.executor``).
+
+    Its workers run ``warm_up`` (a layer's warm-up function) once when they start.
     """
     from posebridge.compute import make_executor, worker_initializer
 

@@ -47,7 +47,7 @@ _COMMANDS = (
 
 
 def build_parser() -> argparse.ArgumentParser:
-    """The argument parser with every subcommand."""
+    """Build the argument parser with every subcommand."""
     parser = argparse.ArgumentParser(
         prog="posebridge",
         description="Robot work-cell layout and troubleshooting in Cartesian and joint space. "
@@ -63,9 +63,10 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _exit_2_errors() -> tuple[type[BaseException], ...]:
-    """Errors that end a command with exit code 2: every input error (one base class), and
-    the executor's (a bad ``--scheduler``/``--workers``, a cancelled run) and a cell changed
-    on disk meanwhile, which the user can also act on.
+    """Return the errors that end a command with exit code 2.
+
+    Every input error (one base class), and the executor's (a bad ``--scheduler``/``--workers``, a
+    cancelled run) and a cell changed on disk meanwhile, which the user can also act on.
     """
     from posebridge.cell.files import CellConflictError
     from posebridge.compute import ComputationCancelled, ExecutorError

@@ -16,7 +16,7 @@ JOINTS_HELP = 'joint values, e.g. "0,-20,20,0,90,0" (deg; mm for prismatic)'
 
 
 def options() -> argparse.ArgumentParser:
-    """An empty parent parser, for options of one command placed between shared ones."""
+    """Return an empty parent parser, for options of one command placed between shared ones."""
     return argparse.ArgumentParser(add_help=False)
 
 
@@ -40,6 +40,7 @@ class SharedOptions:
 
     @classmethod
     def build(cls) -> SharedOptions:
+        """Build the shared parent parsers, one per option group."""
         robot = options()
         robot.add_argument(
             "robot", help="bundled robot name, .toml (or robot overlay) or .urdf path"
@@ -83,7 +84,7 @@ class SharedOptions:
 
 
 def joints_or(option: str, help_text: str) -> argparse.ArgumentParser:
-    """A parent parser requiring exactly one of ``--joints`` (one configuration) and ``option``."""
+    """Return a parent parser requiring exactly one of ``--joints`` (one configuration) and ``option``."""
     parent = options()
     source = parent.add_mutually_exclusive_group(required=True)
     source.add_argument("--joints", help=JOINTS_HELP)
@@ -92,8 +93,9 @@ def joints_or(option: str, help_text: str) -> argparse.ArgumentParser:
 
 
 class DeprecatedFlag(argparse.Action):
-    """A flag kept for one release under an old name: sets the new option's value and says
-    on stderr which option replaces it.
+    """A flag kept for one release under an old name.
+
+    Sets the new option's value and says on stderr which option replaces it.
     """
 
     def __init__(self, option_strings: Sequence[str], dest: str, **kwargs: Any) -> None:
@@ -107,6 +109,7 @@ class DeprecatedFlag(argparse.Action):
         values: Any,
         option_string: str | None = None,
     ) -> None:
+        """Set the new option's value and name the replacing option on stderr."""
         print(
             f"posebridge: {option_string} is deprecated and will be removed in the next release; "
             f"use {self.replacement}",

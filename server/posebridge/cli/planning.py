@@ -1,6 +1,7 @@
-"""Commands about motion in a cell: ``paths`` (path check, fastest solution sequence),
-``export`` (timed motion as plain numbers), ``plan`` (joint move) and ``place`` (base
-placement search).
+"""Commands about motion in a cell.
+
+``paths`` (path check, fastest solution sequence), ``export`` (timed motion as plain numbers),
+``plan`` (joint move) and ``place`` (base placement search).
 """
 
 from __future__ import annotations
@@ -185,7 +186,9 @@ def _cmd_place(args: argparse.Namespace) -> int:
 
 
 def add_paths(sub: Any, shared: SharedOptions) -> None:
-    """``posebridge paths CELL [PATH] [--resolution-mm] [--optimise [--limit-margin-deg]
+    """Add the ``posebridge paths`` command.
+
+    ``posebridge paths CELL [PATH] [--resolution-mm] [--optimise [--limit-margin-deg]
     [--limit-margin-mm]] [--json]``.
     """
     own = options()

@@ -92,8 +92,10 @@ Result = TypeVar("Result")
 
 
 class ExecutorError(Exception):
-    """An executor that cannot be set up or used: bad arguments, missing Dask,
-    an unreachable scheduler, a closed executor or a worker process that died.
+    """An executor that cannot be set up or used.
+
+    Bad arguments, missing Dask, an unreachable scheduler, a closed executor or a worker process
+    that died.
     """
 
 
@@ -135,14 +137,18 @@ class Executor(Protocol):
         """Release the workers; the executor cannot be used afterwards."""
         ...
 
-    def __enter__(self) -> Self: ...
+    def __enter__(self) -> Self:
+        """Return the executor itself for the ``with`` block."""
+        ...
 
     def __exit__(
         self,
         exc_type: type[BaseException] | None,
         exc: BaseException | None,
         traceback: TracebackType | None,
-    ) -> None: ...
+    ) -> None:
+        """Close the executor on leaving the ``with`` block."""
+        ...
 
 
 def _check_count(name: str, value: object, minimum: int) -> int:
@@ -178,7 +184,7 @@ def split_range(total: int, chunk_size: int) -> list[tuple[int, int]]:
 
 
 def single_thread_worker() -> None:
-    """The default worker initializer: one numba thread in this worker process."""
+    """Return the default worker initializer: one numba thread in this worker process."""
     numba.set_num_threads(1)
 
 
@@ -188,8 +194,10 @@ def _prepare_worker(warm_up: Callable[[], None]) -> None:
 
 
 def worker_initializer(warm_up: Callable[[], None] | None) -> Callable[[], None]:
-    """A worker initializer: one numba thread, then ``warm_up()`` (a module-level function,
-    so that it can be sent to spawned workers), or only the thread limit for ``None``.
+    """Return a worker initializer.
+
+    One numba thread, then ``warm_up()`` (a module-level function, so that it can be sent to spawned
+    workers), or only the thread limit for ``None``.
     """
     if warm_up is None:
         return single_thread_worker
@@ -227,8 +235,10 @@ def run_chunks(
 
 
 class _ExecutorBase(ABC):
-    """What every executor shares: the closed flag, the checks before a run, and the
-    context-manager protocol (leaving the ``with`` block closes the executor).
+    """What every executor shares.
+
+    The closed flag, the checks before a run, and the context-manager protocol (leaving the ``with``
+    block closes the executor).
     """
 
     _closed = False
@@ -509,7 +519,7 @@ def make_executor(
     initializer: Callable[[], None] | None = single_thread_worker,
     connect_timeout_s: float = 10.0,
 ) -> Executor:
-    """The executor for a run: Dask cluster, local process pool, or in-process.
+    """Make the executor for a run: Dask cluster, local process pool, or in-process.
 
     Parameters
     ----------

@@ -104,7 +104,7 @@ class CapsuleFit:
     excess: float | None
 
     def as_capsules(self, link: int, name: str) -> tuple[Capsule, ...]:
-        """The fit as robot-model capsules on link ``link``: ``name``, ``name-2``, ``name-3``."""
+        """Return the fit as robot-model capsules on link ``link``: ``name``, ``name-2``, ``name-3``."""
         return tuple(
             Capsule(
                 name=name if i == 0 else f"{name}-{i + 1}",
@@ -132,7 +132,7 @@ def point_segment_distances(points: FloatArray, a: FloatArray, b: FloatArray) ->
 
 
 def _hull_points(points: FloatArray) -> FloatArray:
-    """The convex hull's vertices (all points when the set is flat or too small for a hull)."""
+    """Return the convex hull's vertices (all points when the set is flat or too small for a hull)."""
     from scipy.spatial import ConvexHull, QhullError
 
     if points.shape[0] < 5:
@@ -199,7 +199,7 @@ def _fit_one(points: FloatArray, *, optimise: bool) -> FittedCapsule:
 def _runs(
     points: FloatArray, axis_a: FloatArray, axis_b: FloatArray, cuts: Sequence[float]
 ) -> list[FloatArray]:
-    """The points cut into runs along the segment ``axis_a axis_b`` at fractions ``cuts`` of their extent."""
+    """Return the points cut into runs along the segment ``axis_a axis_b`` at fractions ``cuts`` of their extent."""
     direction = axis_b - axis_a
     length = float(np.linalg.norm(direction))
     if length == 0.0:
@@ -217,7 +217,7 @@ def _runs(
 def _split(
     points: FloatArray, single: FittedCapsule, count: int
 ) -> tuple[FittedCapsule, ...] | None:
-    """The best ``count``-capsule split along the single capsule's axis, or ``None`` if none is valid."""
+    """Return the best ``count``-capsule split along the single capsule's axis, or ``None`` if none is valid."""
     options: list[Sequence[float]] = (
         [[float(f)] for f in _CUTS_TWO] if count == 2 else [list(c) for c in _CUTS_THREE]
     )
@@ -332,7 +332,7 @@ def _fit(points: FloatArray, max_capsules: int, split_gain: float) -> CapsuleFit
 
 
 def _from_entry(points: FloatArray, entry: dict[str, npt.NDArray[np.generic]]) -> CapsuleFit | None:
-    """A cached fit, accepted only if it still holds every vertex (a stale or altered entry is refitted)."""
+    """Return a cached fit, accepted only if it still holds every vertex (a stale or altered entry is refitted)."""
     start = np.asarray(entry["start"], dtype=np.float64)
     end = np.asarray(entry["end"], dtype=np.float64)
     radius = np.asarray(entry["radius"], dtype=np.float64)

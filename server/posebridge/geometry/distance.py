@@ -88,7 +88,7 @@ def _sub(a, b):
 
 @nb.njit(cache=True, inline="always")
 def _axpy(a, s, d):
-    """``a + s d``."""
+    """Return ``a + s d``."""
     return (a[0] + s * d[0], a[1] + s * d[1], a[2] + s * d[2])
 
 

@@ -327,7 +327,7 @@ class MeshBVH:
 
     @cached_property
     def table(self) -> MeshTable:
-        """This mesh alone as a :class:`MeshTable` (for single-mesh queries)."""
+        """The mesh alone as a :class:`MeshTable` (for single-mesh queries)."""
         return MeshTable.pack([self])
 
 
@@ -417,8 +417,9 @@ class MeshTable:
 
     @property
     def kernel_inputs(self) -> tuple[npt.NDArray[np.generic], ...]:
-        """``(root, is_closed, tolerance, box, link, triangles, grid_frame, grid_index, grid)``,
-        the tuple the kernels read.
+        """Return the tuple the kernels read.
+
+        ``(root, is_closed, tolerance, box, link, triangles, grid_frame, grid_index, grid)``.
         """
         return (
             self.root,
@@ -635,7 +636,7 @@ def _point_search(x, root, box, link, triangles, stack_node, stack_bound):
 
 @nb.njit(cache=True, inline="always")
 def _ray_hits_box(x, inverse, box, node):
-    """Slab test: does the ray ``x + s dir`` (``s >= 0``, ``inverse = 1 / dir``) meet the node's box?"""
+    """Slab test: tell whether the ray ``x + s dir`` (``s >= 0``, ``inverse = 1 / dir``) meets the node's box."""
     enter = 0.0
     leave = math.inf
     for r in range(3):
@@ -720,7 +721,7 @@ def _ray_contains(x, root, box, link, triangles, tolerance, stack_node):
 
 @nb.njit(cache=True)
 def _build_grid(tri_lo, tri_hi, frame, shape, box, link, triangles, tolerance, stack_node):
-    """The inside grid (module docstring): cells touched by triangle boxes unknown, the rest by ray."""
+    """Build the inside grid (module docstring): cells touched by triangle boxes unknown, the rest by ray."""
     nx, ny, nz = shape[0], shape[1], shape[2]
     grid = np.zeros(nx * ny * nz, dtype=np.int8)
     cell = frame[3]
@@ -779,7 +780,7 @@ def _unit_normal(triangles, i):
 
 @nb.njit(cache=True)
 def _deeper_end(a, b, mesh, meshes, stack_node, stack_bound):
-    """The end point of ``a b`` deepest inside closed mesh ``mesh``: ``(depth, p, q)`` (``depth = 0``: neither inside)."""
+    """Return the end point of ``a b`` deepest inside closed mesh ``mesh``: ``(depth, p, q)`` (``depth = 0``: neither inside)."""
     root = meshes[0][mesh]
     box, link, triangles = meshes[3], meshes[4], meshes[5]
     depth = 0.0

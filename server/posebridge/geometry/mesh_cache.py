@@ -94,7 +94,7 @@ class MeshCache:
 
     @classmethod
     def default(cls) -> MeshCache:
-        """The cache in the user data folder: ``<user data folder>/mesh-cache``."""
+        """Return the cache in the user data folder: ``<user data folder>/mesh-cache``."""
         return cls(user_data_folder() / "mesh-cache")
 
     def _path(self, key: str) -> Path:
@@ -103,7 +103,7 @@ class MeshCache:
         return self.folder / f"{key}.npz"
 
     def load(self, key: str, names: Sequence[str]) -> dict[str, npt.NDArray[np.generic]] | None:
-        """The arrays of entry ``key``, or ``None`` on a miss or an unreadable entry.
+        """Return the arrays of entry ``key``, or ``None`` on a miss or an unreadable entry.
 
         Parameters
         ----------

@@ -76,7 +76,7 @@ class DisplayMesh:
         return int(self.faces.shape[0])
 
     def posed(self, T_world_mesh: npt.ArrayLike) -> DisplayMesh:
-        """The same mesh with vertices moved by ``T_world_mesh`` (translation in m).
+        """Return the same mesh with vertices moved by ``T_world_mesh`` (translation in m).
 
         Parameters
         ----------
@@ -171,7 +171,7 @@ def _decimate(vertices: FloatArray, faces: IntArray, budget: int) -> tuple[Float
 def decimate_for_display(
     mesh: TriangleMesh, *, max_triangles: int, cache: MeshCache | None = None
 ) -> DisplayMesh:
-    """The mesh reduced to at most ``max_triangles`` triangles, vertices in mm (module docstring).
+    """Return the mesh reduced to at most ``max_triangles`` triangles, vertices in mm (module docstring).
 
     Parameters
     ----------

@@ -116,7 +116,7 @@ class MeshLimits:
 
 
 def suggest_length_unit(largest_side: float) -> LengthUnit | None:
-    """The length unit that makes a mesh of this size plausible (:data:`PLAUSIBLE_SIZE_M`).
+    """Return the length unit that makes a mesh of this size plausible (:data:`PLAUSIBLE_SIZE_M`).
 
     Parameters
     ----------
@@ -193,7 +193,7 @@ def _check_ply(name: str, data: bytes, limits: MeshLimits) -> None:
 
 
 def _json_chunk(name: str, data: bytes) -> tuple[dict[str, Any], bytes]:
-    """The JSON and BIN chunks of a GLB (glTF 2.0 specification, 4.4)."""
+    """Return the JSON and BIN chunks of a GLB (glTF 2.0 specification, 4.4)."""
     if len(data) < 20 or data[:4] != b"glTF":
         raise MeshFileError(f"{name}: not a binary glTF file (no glTF header)")
     version, length = struct.unpack_from("<II", data, 4)

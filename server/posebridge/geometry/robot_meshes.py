@@ -119,9 +119,11 @@ def _loaded(
 
 
 def _triangles_covered(fit: CapsuleFit, points: FloatArray, faces: IntArray) -> bool:
-    """Whether every triangle has all three corners in one capsule (so, capsules being convex,
-    the whole triangle is inside it). A split fit can hold every vertex and still leave the
-    middle of a long coarse face uncovered; one capsule holds the vertices' hull.
+    """Tell whether every triangle has all three corners in one capsule.
+
+    So, capsules being convex, the whole triangle is inside it. A split fit can hold every vertex
+    and still leave the middle of a long coarse face uncovered; one capsule holds the vertices'
+    hull.
     """
     if len(fit.capsules) == 1:
         return True
@@ -145,7 +147,7 @@ def _unique(name: str, taken: set[str]) -> str:
 def fit_robot_meshes(
     robot: Robot, *, cache: MeshCache | None = None, limits: MeshLimits | None = None
 ) -> Robot:
-    """The robot with capsules fitted to its meshes (module docstring); unchanged without meshes.
+    """Return the robot with capsules fitted to its meshes (module docstring); unchanged without meshes.
 
     Parameters
     ----------
@@ -230,7 +232,7 @@ def robot_display_meshes(
     cache: MeshCache | None = None,
     limits: MeshLimits | None = None,
 ) -> list[LinkDisplayMesh]:
-    """The robot's visual meshes (collision meshes of links without) decimated to one budget.
+    """Return the robot's visual meshes (collision meshes of links without) decimated to one budget.
 
     Unreadable files are left out (:func:`fit_robot_meshes` notes them).
 

@@ -56,8 +56,10 @@ def self_collision_pairs(
     contact_tolerance_m: float = 0.0,
     constant_tolerance_m: float = 1e-6,
 ) -> IntArray:
-    """Non-adjacent capsule pairs minus the pairs in contact at every sampled configuration
-    and the pairs whose distance no joint motion changes (module docstring).
+    """Return the capsule pairs to check for self-collision.
+
+    Non-adjacent capsule pairs minus the pairs in contact at every sampled configuration and the
+    pairs whose distance no joint motion changes (module docstring).
 
     Parameters
     ----------

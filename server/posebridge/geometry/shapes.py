@@ -289,6 +289,7 @@ class ObstacleSet:
     mesh_index: IntArray = field(default_factory=lambda: np.empty(0, dtype=np.int64))
 
     def __post_init__(self) -> None:
+        """Check the array shapes against the number of obstacles."""
         k = len(self.names)
         if self.mesh_index.shape != (k,):
             if self.mesh_index.size != 0:
@@ -385,7 +386,7 @@ class ObstacleSet:
         )
 
     def subset(self, indices: Sequence[int] | IntArray) -> ObstacleSet:
-        """The obstacles ``indices`` (in that order) as a set of their own, meshes included.
+        """Return the obstacles ``indices`` (in that order) as a set of their own, meshes included.
 
         Parameters
         ----------

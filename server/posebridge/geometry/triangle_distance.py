@@ -44,7 +44,7 @@ DEGENERATE_AREA = 1e-12
 
 
 def triangle_planes(triangles: FloatArray) -> FloatArray:
-    """Unit normal and offset of each triangle's plane, zero for degenerate triangles.
+    """Return unit normal and offset of each triangle's plane, zero for degenerate triangles.
 
     Parameters
     ----------
@@ -210,7 +210,7 @@ def _segment_triangle(a, b, v0, v1, v2, n, offset):
 
 @nb.njit(cache=True, inline="always")
 def _plane_gap(a, b, n, offset):
-    """A lower bound of the segment-triangle distance: the segment's distance to the plane (0 if crossing)."""
+    """Return a lower bound of the segment-triangle distance: the segment's distance to the plane (0 if crossing)."""
     da = _dot(n, a) - offset
     db = _dot(n, b) - offset
     if da > 0.0 and db > 0.0:

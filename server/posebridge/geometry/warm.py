@@ -22,8 +22,10 @@ __all__ = ["warm_geometry"]
 
 
 def warm_geometry(robot: Robot | None = None) -> None:
-    """:func:`~posebridge.kinematics.warm.warm_kinematics`, then collision and clearance of
-    ``robot``'s capsules against a floor (and themselves) on one configuration and on
+    """Load the geometry kernels of ``robot`` from numba's cache.
+
+    :func:`~posebridge.kinematics.warm.warm_kinematics`, then collision and clearance of ``robot``'s
+    capsules against a floor (and themselves) on one configuration and on
     :data:`~posebridge.kinematics.fk.PARALLEL_THRESHOLD` configurations.
 
     ``robot`` defaults to the bundled :data:`~posebridge.kinematics.warm.WARM_ROBOT`.

@@ -1,0 +1,1 @@
+"""Kinematics of serial robots: forward and inverse kinematics, Jacobians, branches."""

@@ -101,7 +101,7 @@ BRANCH_LABELS = {
 
 
 def part_word(scheme: str, part: str, label: int) -> str:
-    """The word of one branch part: ``part_word("arm", "wrist", -1) == "negative"``.
+    """Return the word of one branch part: ``part_word("arm", "wrist", -1) == "negative"``.
 
     ``part`` is ``"shoulder"``, ``"elbow"`` or ``"wrist"``; planar arms name the
     elbow ``left``/``right``.
@@ -114,8 +114,9 @@ def part_word(scheme: str, part: str, label: int) -> str:
 
 
 def branch_parts(scheme: str, shoulder: int, elbow: int, wrist: int) -> list[str]:
-    """The words of a branch under a label scheme: three for ``"arm"``, the elbow's for
-    ``"planar"``, none for ``"none"``.
+    """Return the words of a branch under a label scheme.
+
+    Three for ``"arm"``, the elbow's for ``"planar"``, none for ``"none"``.
     """
     if scheme == "arm":
         return [

@@ -112,9 +112,10 @@ def manipulability_yoshikawa(J: npt.ArrayLike) -> FloatArray:
 
 
 def characteristic_length_m(robot: Robot, T_flange_tool: npt.ArrayLike | None = None) -> float:
-    """Length that makes the full Jacobian dimensionless: the sum of the distances from
-    joint to joint, then to the flange and the TCP, m (the arm's stretched length, an upper
-    bound of its reach; common practice, no source).
+    """Return the length that makes the full Jacobian dimensionless, m.
+
+    The sum of the distances from joint to joint, then to the flange and the TCP (the arm's
+    stretched length, an upper bound of its reach; common practice, no source).
 
     Parameters
     ----------

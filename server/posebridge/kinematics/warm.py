@@ -22,9 +22,11 @@ WARM_ROBOT = "pb-arm6"
 
 
 def warm_kinematics(robot: Robot | None = None) -> None:
-    """Run FK (tool and frames), the Jacobian and the IK of ``robot`` once on one
-    configuration and once on :data:`~posebridge.kinematics.fk.PARALLEL_THRESHOLD`
-    configurations, so the serial and the parallel drivers are loaded from numba's cache.
+    """Load the kinematics kernels of ``robot`` from numba's cache.
+
+    Runs FK (tool and frames), the Jacobian and the IK of ``robot`` once on one configuration and
+    once on :data:`~posebridge.kinematics.fk.PARALLEL_THRESHOLD` configurations, so the serial and
+    the parallel drivers are loaded.
 
     ``robot`` defaults to the bundled :data:`WARM_ROBOT`; IK kernels are per arm
     family, so pass the robot that will be used when it is known.

@@ -672,7 +672,7 @@ def _blended_block(
 
 
 def _rest_piece(robot: Robot, sampled: SampledPath, timing: SegmentTiming) -> MotionPiece:
-    """The rest-to-rest motion of one segment as :func:`path_cycle_time` timed it."""
+    """Return the rest-to-rest motion of one segment as :func:`path_cycle_time` timed it."""
     k = timing.index
     segment = sampled.segments[k]
     if timing.duration == 0.0 or segment.length <= 0.0:
@@ -691,14 +691,14 @@ def _rest_piece(robot: Robot, sampled: SampledPath, timing: SegmentTiming) -> Mo
 
 
 def _moves(segment: SegmentSamples) -> bool:
-    """The segment moves a joint by more than :data:`_STILL`."""
+    """Tell whether the segment moves a joint by more than :data:`_STILL`."""
     return bool(
         float(np.max(np.abs(segment.q[-1] - segment.q[0]))) > _STILL and segment.length > _STILL
     )
 
 
 def _reverses(before: SegmentSamples, after: SegmentSamples) -> bool:
-    """The joint path turns straight back at the waypoint (tangents opposite within 1e-6)."""
+    """Tell whether the joint path turns straight back at the waypoint (tangents opposite within 1e-6)."""
     t_in = _unit(_evaluate(before, _segment_curve(before), np.array([1.0]), 1)[0])
     t_out = _unit(_evaluate(after, _segment_curve(after), np.array([0.0]), 1)[0])
     return bool(float(t_in @ t_out) < -1.0 + 1e-6)
@@ -785,7 +785,7 @@ def blended_cycle_time(
 
 
 def sample_motion(timing: BlendedCycleTime, period_s: float) -> MotionSamples:
-    """The timed motion at a fixed period: time, joint values, joint velocities, segment.
+    """Return the timed motion at a fixed period: time, joint values, joint velocities, segment.
 
     Rows at ``t = 0, period, 2 period, ...`` up to the end, plus the end time
     itself when it is not a multiple of the period (the arm at rest at the last

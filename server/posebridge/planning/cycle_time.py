@@ -242,7 +242,7 @@ def linear_move_timing(
     acceleration_m_s2: float = DEFAULT_LINEAR_ACCELERATION_M_S2,
     jerk_m_s3: float | None = None,
 ) -> SegmentTiming:
-    """Timing of a sampled linear move, capped by the joint limits (module docstring).
+    """Time a sampled linear move, capped by the joint limits (module docstring).
 
     Parameters
     ----------

@@ -93,7 +93,7 @@ def export_motion(
     resolution_mm: float = 5.0,
     resolution_deg: float = 1.0,
 ) -> MotionExportReport:
-    """The timed motion of a cell path at a fixed period (module docstring).
+    """Return the timed motion of a cell path at a fixed period (module docstring).
 
     Parameters
     ----------
@@ -212,7 +212,7 @@ def export_motion(
 
 
 def motion_json(report: MotionExportReport) -> str:
-    """The export as JSON text: ``{"header": {...}, "columns": [...], "rows": [[...], ...]}``."""
+    """Return the export as JSON text: ``{"header": {...}, "columns": [...], "rows": [[...], ...]}``."""
     return json.dumps(report.model_dump(mode="json"), separators=(",", ":"), allow_nan=False)
 
 
@@ -225,7 +225,7 @@ def _cell(value: float | int | str | None) -> str:
 
 
 def motion_csv(report: MotionExportReport) -> str:
-    """The export as CSV text: the header block as ``# key: value`` lines, then the table.
+    """Return the export as CSV text: the header block as ``# key: value`` lines, then the table.
 
     Header values are JSON (lists and strings as JSON); numbers with six decimals.
     """

@@ -119,7 +119,7 @@ def _smallest(distance: FloatArray) -> float:
 
 
 def _closest_words(clearance: CellClearance) -> str | None:
-    """The pair at the smallest clearance as ``capsule – other``; None when none was checked."""
+    """Return the pair at the smallest clearance as ``capsule – other``; None when none was checked."""
     if not clearance.distance.size or not np.isfinite(clearance.distance.min()):
         return None
     capsule, other, _ = clearance.pair(int(np.argmin(clearance.distance)))

@@ -171,7 +171,7 @@ class SampledPath:
 
 
 def path_of(scene: Scene, path: int | ResolvedPath) -> ResolvedPath:
-    """The path ``path`` (an index into ``scene.paths``, or a resolved path as is)."""
+    """Return the path ``path`` (an index into ``scene.paths``, or a resolved path as is)."""
     if isinstance(path, ResolvedPath):
         return path
     if isinstance(path, bool) or not isinstance(path, int | np.integer):
@@ -194,7 +194,7 @@ def waypoint_label(scene: Scene, path: ResolvedPath, w: int) -> str:
 
 
 def branch_requirement(branch: Branch | None) -> Int8Array:
-    """Required labels ``[shoulder, elbow, wrist]`` (+1, -1, or 0 for either), shape (3,)."""
+    """Return required labels ``[shoulder, elbow, wrist]`` (+1, -1, or 0 for either), shape (3,)."""
     required = np.zeros(3, dtype=np.int8)
     if branch is not None:
         for k, part in enumerate(("shoulder", "elbow", "wrist")):
@@ -486,7 +486,7 @@ def _branch_words(scene: Scene, q: FloatArray) -> str:
 
 
 def _posed_waypoint(scene: Scene, path: ResolvedPath, w: int) -> tuple[Scene, FloatArray]:
-    """The scene at waypoint ``w``'s external values and its tool pose there, (4, 4).
+    """Return the scene at waypoint ``w``'s external values and its tool pose there, (4, 4).
 
     A cell without external axes gives the scene and the resolved pose as they are.
     A segment is sampled in the scene of its end waypoint (external axes at their

@@ -168,7 +168,7 @@ class PlacementGrid:
         yaw_deg: npt.ArrayLike,
         height_mm: npt.ArrayLike,
     ) -> PlacementGrid:
-        """A grid from boundary units (mm, deg), each axis a 1-D list of values."""
+        """Return a grid from boundary units (mm, deg), each axis a 1-D list of values."""
         axes = {}
         for name, values in (
             ("x_mm", x_mm),
@@ -203,8 +203,10 @@ class PlacementGrid:
         count: int = 21,
         yaw_count: int = 8,
     ) -> PlacementGrid:
-        """The default grid: ``count x count`` positions within ``half_width_mm`` of the current
-        foot, ``yaw_count`` yaws evenly around the turn from the current yaw, the current pedestal.
+        """Return the default grid around the current base.
+
+        ``count x count`` positions within ``half_width_mm`` of the current foot, ``yaw_count`` yaws
+        evenly around the turn from the current yaw, the current pedestal.
         """
         if count < 1 or yaw_count < 1:
             raise PlanningInputError("count, yaw_count: expected integers >= 1")
@@ -348,7 +350,7 @@ class _CandidateScenes:
 
 
 def _candidate_scenes(problem: _Problem, grid: PlacementGrid, flat: int) -> _CandidateScenes:
-    """Base pose and clearance scenes of the flat (C-order) candidate ``flat`` of the grid."""
+    """Return base pose and clearance scenes of the flat (C-order) candidate ``flat`` of the grid."""
     iy, ix, iyaw, ih = np.unravel_index(flat, grid.shape)
     local = int(np.ravel_multi_index((iy, ix, iyaw), grid.shape[:3]))
     T_world_base = _base_poses(problem, grid, int(ih), local, local + 1)[0]
@@ -718,7 +720,7 @@ def _report(
     order: npt.NDArray[np.int64],
     top: int,
 ) -> PlacementReport:
-    """The JSON-ready report: top candidates with exact per-target clearance, and the grid."""
+    """Return the JSON-ready report: top candidates with exact per-target clearance, and the grid."""
     robot = scene.robot
     scheme = branch_geometry(robot).scheme
     shape = grid.shape

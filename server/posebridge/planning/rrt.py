@@ -119,7 +119,7 @@ def lever_arms(arm: ArmCapsules) -> FloatArray:
 def edge_configurations(
     q_a: npt.ArrayLike, q_b: npt.ArrayLike, levers: FloatArray, step_m: float
 ) -> FloatArray:
-    """Configurations on the joint-space line ``q_a -> q_b``, no arm point moving more than ``step_m`` between two.
+    """Return configurations on the joint-space line ``q_a -> q_b``, no arm point moving more than ``step_m`` between two.
 
     Parameters
     ----------
@@ -195,7 +195,7 @@ class _WorstPair:
 
 
 def _worst_pair(scene: Scene, q: FloatArray, margin_m: float, self_margin_m: float) -> _WorstPair:
-    """The pair furthest inside its margin over configurations ``q``, shape (K, n).
+    """Return the pair furthest inside its margin over configurations ``q``, shape (K, n).
 
     Obstacle pairs are measured against ``margin_m``, self pairs against
     ``self_margin_m``; the configuration where the slack (clearance minus
@@ -220,7 +220,7 @@ def _worst_pair(scene: Scene, q: FloatArray, margin_m: float, self_margin_m: flo
 
 
 def _joint_path(scene: Scene, q: FloatArray, name: str) -> ResolvedPath:
-    """The configurations as joint-value waypoints reached by joint moves at 100 %."""
+    """Return the configurations as joint-value waypoints reached by joint moves at 100 %."""
     W = q.shape[0]
     return ResolvedPath(
         name=name,
@@ -325,7 +325,7 @@ def plan_joint_move(
     motion_step_mm: float | None = None,
     recheck: bool = True,
 ) -> JointPlanReport:
-    """A collision-free joint move from ``q_start`` to ``q_goal`` (module docstring).
+    """Return a collision-free joint move from ``q_start`` to ``q_goal`` (module docstring).
 
     Parameters
     ----------

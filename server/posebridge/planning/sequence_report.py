@@ -142,7 +142,7 @@ def _choice(scene: Scene, path: ResolvedPath, choice: SequenceChoice) -> Sequenc
 
 
 def _summary(scene: Scene, path: ResolvedPath, result: SequenceResult) -> str:
-    """The result in words: how much faster, and whether the branch stays the same."""
+    """Return the result in words: how much faster, and whether the branch stays the same."""
     if not result.feasible or result.best is None:
         blocked = result.blocked_at
         where = waypoint_label(scene, path, blocked) if blocked >= 0 else "the path"
@@ -173,7 +173,7 @@ def _matches(a: FloatArray, b: FloatArray) -> bool:
 def sequence_edits(
     scene: Scene, path: int | ResolvedPath, q_best: FloatArray, **sampling: float
 ) -> list[int]:
-    """The fewest waypoints to give as joint values so the path check follows ``q_best``.
+    """Return the fewest waypoints to give as joint values so the path check follows ``q_best``.
 
     Method in the module docstring (greedy in path order, re-sampling after each edit).
 
@@ -231,7 +231,7 @@ def optimise_path(
     resolution_mm: float = 5.0,
     resolution_deg: float = 1.0,
 ) -> SequenceReport:
-    """The fastest consistent solution sequence of a cell path, as a JSON-ready report.
+    """Return the fastest consistent solution sequence of a cell path, as a JSON-ready report.
 
     Parameters
     ----------
@@ -316,7 +316,7 @@ def optimise_path(
 
 
 def with_waypoint_joints(cell: Cell, path: int, edits: list[WaypointJoints]) -> Cell:
-    """A copy of ``cell`` whose path ``path`` gives the edited waypoints as joint values.
+    """Return a copy of ``cell`` whose path ``path`` gives the edited waypoints as joint values.
 
     Motion, speed and blend radius of each waypoint stay; its target or pose is
     replaced by ``joints_deg`` (the cell file's units: degrees, mm for prismatic joints).

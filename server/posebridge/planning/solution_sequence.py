@@ -159,6 +159,7 @@ class SequenceLimits:
     slowed_linear_moves: bool = True
 
     def __post_init__(self) -> None:
+        """Check the margins and thresholds (non-negative, finite)."""
         for name in ("limit_margin_rad", "limit_margin_m"):
             check_non_negative(name, getattr(self, name))
         if not math.isfinite(self.collision_threshold_m):
@@ -563,7 +564,7 @@ def _track_batch(
 
 
 def _sampling(limits: SequenceLimits) -> dict[str, float]:
-    """The sampling options of :func:`sample_path` (user units, its boundary) for ``limits``."""
+    """Return the sampling options of :func:`sample_path` (user units, its boundary) for ``limits``."""
     return {
         "resolution_mm": float(mm_from_m(limits.resolution_m)),
         "resolution_deg": float(deg_from_rad(limits.resolution_rad)),
@@ -575,7 +576,7 @@ def _sampling(limits: SequenceLimits) -> dict[str, float]:
 def _track_numeric(
     scene: Scene, path: ResolvedPath, k: int, q_a: FloatArray, limits: SequenceLimits
 ) -> FloatArray:
-    """The numerical solver's seeded tracking, one start at a time through :func:`sample_path`."""
+    """Track the path with the numerical solver, seeded, one start at a time through :func:`sample_path`."""
     out = []
     for q in q_a:
         two = ResolvedPath(
@@ -695,7 +696,7 @@ def _segment_edges(
 def _edge_samples(
     edges: _Edges, q_a: FloatArray, q_b: FloatArray, i: int, j: int, resolution: FloatArray
 ) -> FloatArray:
-    """Configurations to collision-check along edge ``(i, j)`` (ends are checked candidates)."""
+    """Return configurations to collision-check along edge ``(i, j)`` (ends are checked candidates)."""
     if edges.tracked is not None:
         return edges.tracked[i, 1:-1]
     return _joint_samples(q_a[i], q_b[j], resolution)
@@ -828,8 +829,10 @@ def _choice(
 
 
 def _current_choice(scene: Scene, path: ResolvedPath, limits: SequenceLimits) -> SequenceChoice:
-    """The configurations :func:`sample_path` chooses, their rest-to-rest timing as the path
-    check reports it, and the constraints of this search they break.
+    """Return the configurations :func:`sample_path` chooses, with timing and broken constraints.
+
+    Their rest-to-rest timing as the path check reports it, and the constraints of this search they
+    break.
     """
     sampled = sample_path(scene, path, **_sampling(limits))
     timing = path_cycle_time(
@@ -867,7 +870,7 @@ def _current_choice(scene: Scene, path: ResolvedPath, limits: SequenceLimits) ->
 def _layers(
     scene: Scene, path: ResolvedPath, candidates: Sequence[WaypointCandidates]
 ) -> list[FloatArray]:
-    """The candidates' configurations, checked: W layers of shape (K_w, n)."""
+    """Return the candidates' configurations, checked: W layers of shape (K_w, n)."""
     W = len(path.sources)
     n = scene.robot.dof
     if len(candidates) != W:
@@ -927,7 +930,7 @@ def optimise_sequence(
     candidates: Sequence[WaypointCandidates] | None = None,
     limits: SequenceLimits | None = None,
 ) -> SequenceResult:
-    """The fastest sequence of candidates meeting every constraint, and the current choice.
+    """Return the fastest sequence of candidates meeting every constraint, and the current choice.
 
     Parameters
     ----------

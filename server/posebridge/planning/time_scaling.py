@@ -598,7 +598,7 @@ def joint_move(
     *,
     speed_percent: float = 100.0,
 ) -> JointMove:
-    """Synchronised joint move: all joints start and stop together, within their limits.
+    """Return a synchronised joint move: all joints start and stop together, within their limits.
 
     Method: the move is ``q_start + c * s(t)`` with ``d = q_end - q_start``,
     ``D = max_i |d_i|``, ``c = d / D`` and a path parameter ``s`` from 0 to

@@ -190,7 +190,7 @@ def revolution_mesh(
 def cylinder_mesh(
     T_world: npt.ArrayLike, radius: float, half_length: float, *, segments: int = _CYLINDER_SEGMENTS
 ) -> tuple[FloatArray, IntArray]:
-    """Closed cylinder centred on its frame, axis along the frame's z (radii 0, r, r, 0).
+    """Return a closed cylinder centred on its frame, axis along the frame's z (radii 0, r, r, 0).
 
     Returns
     -------
@@ -320,7 +320,7 @@ def scene_meshes(scene: Scene, q: npt.ArrayLike) -> list[Mesh]:
 
 
 def outline_2d(points: npt.ArrayLike) -> FloatArray:
-    """Closed convex outline of 2D points (Quickhull via scipy), shape (H + 1, 2).
+    """Return the closed convex outline of 2D points (Quickhull via scipy), shape (H + 1, 2).
 
     Falls back to the two extreme points when the points are collinear.
     """
@@ -510,7 +510,7 @@ def _legend() -> Figure:
 
 
 def cartesian_figures(scene: Scene, q: npt.ArrayLike) -> dict[str, Figure]:
-    """The 3D view, plan (top, x–y) and elevation (side, x–z) of the cell, arm at ``q``.
+    """Return the 3D view, plan (top, x–y) and elevation (side, x–z) of the cell, arm at ``q``.
 
     Parameters
     ----------

@@ -75,10 +75,10 @@ class ReportError(InputError):
 
 
 def plotly_script() -> str:
-    """plotly.min.js of the installed plotly package, safe to place inside a ``<script>`` element.
+    r"""Return plotly.min.js of the installed plotly package, safe inside a ``<script>`` element.
 
     A ``</script`` inside the library (none in current releases) is written
-    ``<\\/script``, which JavaScript reads the same inside strings and regular
+    ``<\/script``, which JavaScript reads the same inside strings and regular
     expressions, the only places it can occur.
     """
     text = (files("plotly") / "package_data" / "plotly.min.js").read_text(encoding="utf-8")
@@ -86,8 +86,10 @@ def plotly_script() -> str:
 
 
 def default_map_joints(scene: Scene) -> tuple[int, int]:
-    """The joint pair of the report's map: the second and third joints (shoulder and elbow
-    of an arm) when the robot has three or more, else the first two.
+    """Return the joint pair of the report's map.
+
+    The second and third joints (shoulder and elbow of an arm) when the robot has three or more,
+    else the first two.
     """
     if scene.robot.dof < 2:
         raise ReportError(f"joint map: robot {scene.robot.name!r} has fewer than two joints")
@@ -126,8 +128,10 @@ def _joint_values(scene: Scene, q: FloatArray) -> str:
 
 
 def _shown_configuration(scene: Scene, check: TargetCheckReport) -> tuple[FloatArray, str]:
-    """The arm's configuration in the views: the robot's home, else the first target's
-    recommended branch, else the middle of the joint ranges.
+    """Return the arm's configuration in the views.
+
+    The robot's home, else the first target's recommended branch, else the middle of the joint
+    ranges.
     """
     robot = scene.robot
     if robot.home is not None:
@@ -405,7 +409,7 @@ def build_report(
     map_resolution: int = DEFAULT_MAP_RESOLUTION,
     generated: datetime | None = None,
 ) -> str:
-    """The review report of a cell as one self-contained HTML document.
+    """Build the review report of a cell as one self-contained HTML document.
 
     Parameters
     ----------

@@ -46,7 +46,7 @@ _MIN_TOKEN_CHARS = 16
 
 
 def new_review_token() -> str:
-    """A fresh review token: :data:`REVIEW_TOKEN_BYTES` random bytes, URL-safe base64."""
+    """Return a fresh review token: :data:`REVIEW_TOKEN_BYTES` random bytes, URL-safe base64."""
     return secrets.token_urlsafe(REVIEW_TOKEN_BYTES)
 
 
@@ -68,6 +68,7 @@ class ReviewAccess:
     token_digest: bytes = field(repr=False)
 
     def __post_init__(self) -> None:
+        """Check that the digest is a SHA-256 digest."""
         if len(self.token_digest) != hashlib.sha256().digest_size:
             raise ValueError(
                 f"token_digest: expected a 32-byte SHA-256 digest, got {len(self.token_digest)} bytes"
@@ -96,7 +97,7 @@ class ReviewAccess:
 
 
 def review_link(base_url: str, token: str) -> str:
-    """The link a reviewer opens: ``<base_url>?token=<token>``.
+    """Return the link a reviewer opens: ``<base_url>?token=<token>``.
 
     Parameters
     ----------
@@ -123,6 +124,7 @@ class RateCap:
     burst: int
 
     def __post_init__(self) -> None:
+        """Check the rate (positive) and the burst (at least 1)."""
         if not self.per_second > 0.0:
             raise ValueError(f"per_second: expected > 0, got {self.per_second!r}")
         if self.burst < 1:
@@ -160,8 +162,9 @@ class RateLimiter:
         self._lock = threading.Lock()
 
     def take(self, client: str, kind: str, cost: float = 1.0) -> float:
-        """Take ``cost`` units (one request by default; rows or targets for a cost
-        budget) from the bucket of ``(client, kind)``.
+        """Take ``cost`` units from the bucket of ``(client, kind)``.
+
+        One request by default; rows or targets for a cost budget.
 
         Returns
         -------

@@ -109,7 +109,7 @@ class CommentStorageError(CommentError):
 
 
 def comments_path_for(cell_path: str | Path) -> Path:
-    """The comment database of a cell file: ``<cell file name>.comments.sqlite3`` beside it."""
+    """Return the comment database of a cell file: ``<cell file name>.comments.sqlite3`` beside it."""
     cell = Path(cell_path)
     return cell.with_name(cell.name + ".comments.sqlite3")
 
@@ -144,6 +144,7 @@ class Pin:
     waypoint: int | None = None
 
     def __post_init__(self) -> None:
+        """Check that the fields given match the pin's kind."""
         given = (self.target is not None, self.path is not None, self.waypoint is not None)
         expected = {
             "cell": (False, False, False),
@@ -212,7 +213,7 @@ class Comment:
 
 
 def check_author(author: str) -> str:
-    """The author name with surrounding spaces removed.
+    """Return the author name with surrounding spaces removed.
 
     Raises
     ------
@@ -223,7 +224,7 @@ def check_author(author: str) -> str:
 
 
 def check_text(text: str) -> str:
-    """The comment text with surrounding blank space removed; line breaks and tabs allowed.
+    """Return the comment text with surrounding blank space removed; line breaks and tabs allowed.
 
     Raises
     ------
@@ -290,7 +291,7 @@ class CommentStore:
 
     @contextmanager
     def _connection(self, *, create: bool) -> Iterator[sqlite3.Connection | None]:
-        """A connection in one transaction, or None when the file is absent and not created."""
+        """Open a connection in one transaction, or None when the file is absent and not created."""
         if not create and not self.path.exists():
             yield None
             return
@@ -310,8 +311,10 @@ class CommentStore:
             raise self._storage_error(error) from error
 
     def _storage_error(self, error: sqlite3.Error) -> CommentStorageError:
-        """Plain words for an SQLite error (its result code, SQLite's "Result and Error
-        Codes" page): read-only storage, a full device, or not a comment database.
+        """Return plain words for an SQLite error.
+
+        From its result code (SQLite's "Result and Error Codes" page): read-only storage, a full
+        device, or not a comment database.
         """
         name = getattr(error, "sqlite_errorname", "") or ""
         folder = self.path.parent

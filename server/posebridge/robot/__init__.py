@@ -1,0 +1,1 @@
+"""Robot descriptions: the robot model and its TOML and URDF files."""

@@ -48,7 +48,7 @@ def _candidates(filename: str, base_folder: Path | None, folders: Sequence[Path]
 def resolve_mesh_path(
     filename: str, base_folder: Path | None, folders: Sequence[Path] = ()
 ) -> tuple[Path | None, list[Path]]:
-    """The file a mesh reference names, and every place tried.
+    """Return the file a mesh reference names, and every place tried.
 
     Parameters
     ----------

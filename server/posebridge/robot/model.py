@@ -248,6 +248,7 @@ class Robot:
 
     @cached_property
     def joint_names(self) -> tuple[str, ...]:
+        """Joint names in chain order, length n."""
         return tuple(joint.name for joint in self.joints)
 
     @cached_property
@@ -325,7 +326,7 @@ class Robot:
         return 0.5 * (self.lower + self.upper)
 
     def home_configuration(self) -> FloatArray:
-        """The description's home configuration, else the centre of the joint-range box, shape (n,)."""
+        """Return the description's home configuration, else the centre of the joint-range box, shape (n,)."""
         return (
             self.mid_configuration() if self.home is None else np.array(self.home, dtype=np.float64)
         )

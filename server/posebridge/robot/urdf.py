@@ -128,7 +128,7 @@ class _Element:
         return [child for child in self.children if child.tag == tag]
 
     def walk(self) -> list[_Element]:
-        """This element and all below it, document order."""
+        """Return this element and all below it, document order."""
         found = [self]
         for child in self.children:
             found.extend(child.walk())
@@ -311,7 +311,7 @@ def _positive(
 def _parse_geometry(
     problems: _Problems, element: _Element, link: str, index: int, count: int
 ) -> _GeometrySpec | None:
-    """A ``<collision>``/``<visual>``: capsule-like shapes, boxes and mesh references."""
+    """Parse a ``<collision>``/``<visual>``: capsule-like shapes, boxes and mesh references."""
     default_name = link if count == 1 else f"{link}_{index + 1}"
     name = element.attrib.get("name") or default_name
     where = f"link[{link}].{element.tag}[{index}]"
@@ -571,7 +571,7 @@ def _select_chain(
 
 
 def _capsule_of_box(spec: _GeometrySpec) -> tuple[FloatArray, FloatArray, float]:
-    """A capsule holding a box: segment over the longest side, radius half the other sides' diagonal.
+    """Return a capsule holding a box: segment over the longest side, radius half the other sides' diagonal.
 
     Every corner lies on the capsule's surface or inside it (closed form), so the
     convex box does too. Returns start, end (in the geometry frame, m) and radius.
@@ -935,7 +935,7 @@ def _origin_element(T: FloatArray) -> str:
 
 
 def _capsule_collision(capsule: Capsule) -> str:
-    """A capsule as URDF collision: a cylinder along its segment, or a sphere if it has none."""
+    """Write a capsule as URDF collision: a cylinder along its segment, or a sphere if it has none."""
     segment = capsule.end - capsule.start
     length = float(np.linalg.norm(segment))
     centre = 0.5 * (capsule.start + capsule.end)

@@ -8,6 +8,8 @@ __all__ = ["SpacesInputError"]
 
 
 class SpacesInputError(InputError):
-    """A map request with a bad argument: unknown joint, grid too large, a robot
-    outside the family a function handles; the message names the argument.
+    """A map request with a bad argument.
+
+    Unknown joint, grid too large, a robot outside the family a function handles; the message names
+    the argument.
     """

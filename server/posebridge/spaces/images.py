@@ -308,7 +308,7 @@ def segment_image(
     T_flange_tool: npt.ArrayLike | None = None,
     max_step_fraction: float = 0.25,
 ) -> SegmentImage:
-    """The curves a straight Cartesian segment traces in joint space, one per branch (module docstring).
+    """Return the curves a straight Cartesian segment traces in joint space, one per branch (module docstring).
 
     Parameters
     ----------

@@ -157,7 +157,7 @@ def grid_axis(lower: float, upper: float, cells: int) -> FloatArray:
 def _grid_configurations(
     q_hold: FloatArray, joints: tuple[int, ...], axes: tuple[FloatArray, ...], start: int, stop: int
 ) -> FloatArray:
-    """Configurations of the flat (C-order) cells ``start..stop``, shape (stop - start, n)."""
+    """Return configurations of the flat (C-order) cells ``start..stop``, shape (stop - start, n)."""
     shape = tuple(axis.shape[0] for axis in axes)
     index = np.unravel_index(np.arange(start, stop), shape)
     q = np.repeat(q_hold[None, :], stop - start, axis=0)

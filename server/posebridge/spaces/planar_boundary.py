@@ -185,7 +185,7 @@ class PlanarChain:
 
 
 def _in_range(theta: FloatArray, lower: npt.ArrayLike, upper: npt.ArrayLike) -> BoolArray:
-    """Some ``theta + 2 pi k`` lies in ``[lower, upper]`` (with :data:`ANGLE_TOLERANCE`); NaN gives False."""
+    """Tell whether some ``theta + 2 pi k`` lies in ``[lower, upper]`` (with :data:`ANGLE_TOLERANCE`); NaN gives False."""
     lo = np.asarray(lower, dtype=np.float64) - ANGLE_TOLERANCE
     hi = np.asarray(upper, dtype=np.float64) + ANGLE_TOLERANCE
     k = np.ceil((lo - theta) / _TWO_PI)
@@ -319,7 +319,7 @@ def planar_radius_range(chain: PlanarChain) -> tuple[float, float]:
         return float(np.sqrt(max(l1 * l1 + l2 * l2 + 2.0 * l1 * l2 * np.cos(theta), 0.0)))
 
     def nearest(target: float) -> float:
-        """The angle in [lo, hi] nearest ``target`` modulo 2 pi."""
+        """Return the angle in [lo, hi] nearest ``target`` modulo 2 pi."""
         k = np.ceil((lo - target) / _TWO_PI)
         candidate = target + _TWO_PI * k
         if candidate <= hi:
@@ -405,7 +405,7 @@ class PlanarReach:
 def planar_reach(
     robot: Robot, T_flange_tool: npt.ArrayLike | None = None, *, grid_m: float = 0.005
 ) -> PlanarReach | None:
-    """The reachable area of a planar two- or three-link arm, or None for any other robot.
+    """Return the reachable area of a planar two- or three-link arm, or None for any other robot.
 
     Two links: :func:`planar_region_area` and :func:`planar_radius_range`
     (closed form for full ranges: the annulus ``|l1 - l2| <= r <= l1 + l2`` of
@@ -435,9 +435,10 @@ def planar_reach(
 
 
 def planar_reach_summary(robot: Robot) -> dict[str, object] | None:
-    """:func:`planar_reach` with the robot's default tool in boundary units (mm; the
-    area in m² like the reach map's volumes), ready for JSON and the ``reach`` command's
-    text; None for a non-planar robot.
+    """Return :func:`planar_reach` with the robot's default tool in boundary units.
+
+    Lengths in mm, the area in m² like the reach map's volumes, ready for JSON and the ``reach``
+    command's text; None for a non-planar robot.
     """
     reach = planar_reach(robot)
     if reach is None:

@@ -90,7 +90,7 @@ Int16Array = npt.NDArray[np.int16]
 
 
 def tool_directions() -> FloatArray:
-    """The 26 unit directions from a cube's centre to its 6 faces, 12 edges and 8 corners.
+    """Return the 26 unit directions from a cube's centre to its 6 faces, 12 edges and 8 corners.
 
     Returns
     -------
@@ -535,7 +535,7 @@ class ReachSection:
 
 
 def reach_section(reach: ReachMap, *, axis: SectionAxis, value_m: float) -> ReachSection:
-    """The layer of voxels nearest ``value_m`` along ``axis``, as a 2D grid (see :class:`ReachSection`).
+    """Return the layer of voxels nearest ``value_m`` along ``axis``, as a 2D grid (see :class:`ReachSection`).
 
     Raises
     ------

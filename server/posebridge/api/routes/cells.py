@@ -1,5 +1,6 @@
-"""The server's cell: read it, replace it, move a target, fixture, pose waypoint or the base;
-draw a mesh fixture, upload a mesh file as a new fixture.
+"""The server's cell: read it, replace it, move a target, fixture, pose waypoint or the base.
+
+Draw a mesh fixture, upload a mesh file as a new fixture.
 
 Every change carries the content version it was made from in the
 ``If-Match`` header (the ``etag`` of the last answer); a change made from an
@@ -81,8 +82,10 @@ _CHANGE_ERRORS = error_responses(404, *_SAVE_ERRORS)
 
 
 def cell_robot_spec(snapshot: CellSnapshot, robots: RobotCache) -> str:
-    """Robot name for the kinematics routes (the bundled name, else ``cell:<robot name>``),
-    under which the cache serves the cell's robot to every asker.
+    """Return the robot name for the kinematics routes.
+
+    The bundled name, else ``cell:<robot name>``, under which the cache serves the cell's robot to
+    every asker.
     """
     source = snapshot.cell.robot
     spec = source.name if source.name is not None else f"cell:{snapshot.scene.robot.name}"
@@ -98,9 +101,10 @@ def _answer(
 
 
 def _expected_etag(if_match: str) -> str:
-    """The content version an ``If-Match`` value names (quotes and ``W/`` dropped); a
-    missing header is 428 before this (posebridge.api.errors), a blank one names no
-    version and gets 412.
+    """Return the content version an ``If-Match`` value names (quotes and ``W/`` dropped).
+
+    A missing header is 428 before this (posebridge.api.errors), a blank one names no version and
+    gets 412.
     """
     value = if_match.strip()
     if value.startswith("W/"):
@@ -135,9 +139,10 @@ _SAVE_STATUS: dict[SaveFailure, int] = {
 def _saved(
     save: Callable[[], CellSnapshot], robots: RobotCache, response: Response
 ) -> CellDocument:
-    """Run ``save`` (a version-checked change of the cell store) and answer with the saved
-    cell; 412 when the cell has another content version now; 409, 503 or 507 naming the
-    file when it cannot be written (:data:`_SAVE_STATUS`), nothing changed.
+    """Run ``save`` (a version-checked change of the cell store) and answer with the saved cell.
+
+    412 when the cell has another content version now; 409, 503 or 507 naming the file when it
+    cannot be written (:data:`_SAVE_STATUS`), nothing changed.
     """
     try:
         snapshot = save()
@@ -152,7 +157,7 @@ def _saved(
 def read_cell(
     cells: CellsDep, robots: RobotsDep, response: Response, role: ReviewRoleDep
 ) -> CellDocument:
-    """The cell file content, its content version (also the ETag header) and its drawing."""
+    """Return the cell file content, its content version (also the ETag header) and its drawing."""
     return _answer(cells.read(), robots, response, role)
 
 
@@ -166,7 +171,7 @@ def replace_cell(
 
 
 def _moved(position_mm: list[float] | None, rpy_deg: list[float] | None) -> dict[str, object]:
-    """The pose fields an edit changes, as the cell model stores them."""
+    """Return the pose fields an edit changes, as the cell model stores them."""
     update: dict[str, object] = {}
     if position_mm is not None:
         update["position_mm"] = tuple(position_mm)
@@ -178,10 +183,11 @@ def _moved(position_mm: list[float] | None, rpy_deg: list[float] | None) -> dict
 def _pose_in_frame(
     T_world_frame: FloatArray, position_mm: list[float] | None, rpy_deg: list[float] | None
 ) -> dict[str, object]:
-    """A pose edit given in the world, as the fields stored in the frame ``T_world_frame``
-    (shape (4, 4)): ``T_frame_pose = inv(T_world_frame) T_world_pose`` (Lynch & Park,
-    Modern Robotics, sec. 3.3.1). Position and orientation convert separately, so a field
-    not given keeps its stored value (the frame itself does not move).
+    """Return a pose edit given in the world as the fields stored in frame ``T_world_frame``.
+
+    ``T_world_frame`` has shape (4, 4): ``T_frame_pose = inv(T_world_frame) T_world_pose`` (Lynch &
+    Park, Modern Robotics, sec. 3.3.1). Position and orientation convert separately, so a field not
+    given keeps its stored value (the frame itself does not move).
     """
     T_frame_world = invert_transform(T_world_frame)
     update: dict[str, object] = {}
@@ -195,7 +201,7 @@ def _pose_in_frame(
 
 
 def _target_in_fixture(scene: Scene, target: Target, edit: TargetEdit) -> dict[str, object]:
-    """The edited target pose as stored: in its fixture's frame."""
+    """Return the edited target pose as stored: in its fixture's frame."""
     if edit.frame == "fixture" or target.fixture == "world":
         return _moved(edit.position_mm, edit.rpy_deg)
     T_world_fixture = scene.T_world_fixture[scene.fixture_names.index(target.fixture)]
@@ -203,7 +209,7 @@ def _target_in_fixture(scene: Scene, target: Target, edit: TargetEdit) -> dict[s
 
 
 def _fixture_in_parent(scene: Scene, fixture: Fixture, edit: FixtureEdit) -> dict[str, object]:
-    """The edited fixture pose as stored: in its parent's frame (the world without one)."""
+    """Return the edited fixture pose as stored: in its parent's frame (the world without one)."""
     if edit.frame == "parent" or fixture.parent is None:
         return _moved(edit.position_mm, edit.rpy_deg)
     T_world_parent = scene.T_world_fixture[scene.fixture_names.index(fixture.parent)]
@@ -211,8 +217,9 @@ def _fixture_in_parent(scene: Scene, fixture: Fixture, edit: FixtureEdit) -> dic
 
 
 def index_of_named(kind: str, names: list[str], name: str) -> int:
-    """Index of ``name`` in ``names``, the names of the cell's items of one ``kind``
-    (target, fixture, path); 404 when the cell has none of that name.
+    """Return the index of ``name`` in ``names``; 404 when the cell has none of that name.
+
+    ``names`` are the names of the cell's items of one ``kind`` (target, fixture, path).
     """
     if name not in names:
         raise HTTPException(status_code=404, detail=f"{kind}: no {kind} named {name!r} in the cell")
@@ -228,7 +235,7 @@ def move_target(
     response: Response,
     if_match: IfMatch,
 ) -> CellDocument:
-    """New tool pose of one target, given in the world (default) or in its fixture's frame."""
+    """Set a new tool pose of one target, given in the world (default) or in its fixture's frame."""
     expected = _expected_etag(if_match)
     current = cells.read()
     index = index_of_named("target", [target.name for target in current.cell.targets], name)
@@ -251,8 +258,9 @@ def move_fixture(
     response: Response,
     if_match: IfMatch,
 ) -> CellDocument:
-    """New pose of one fixture in its parent's frame (the world without a parent) or in the
-    world; its children and targets move with it.
+    """Set a new pose of one fixture in its parent's frame or in the world.
+
+    Without a parent the parent's frame is the world; its children and targets move with it.
     """
     expected = _expected_etag(if_match)
     current = cells.read()
@@ -268,8 +276,9 @@ def move_fixture(
 
 
 def _pose_waypoint_index(cell: Cell, name: str, index: int) -> tuple[int, int]:
-    """Indices of path ``name`` and of its waypoint ``index``, which must be a pose
-    waypoint: 404 for an unknown path or index, 422 for a target or joint-values waypoint.
+    """Return the indices of path ``name`` and of its pose waypoint ``index``.
+
+    404 for an unknown path or index, 422 for a target or joint-values waypoint.
     """
     p = index_of_named("path", [path.name for path in cell.paths], name)
     waypoints = cell.paths[p].waypoints
@@ -309,8 +318,9 @@ def move_waypoint(
     response: Response,
     if_match: IfMatch,
 ) -> CellDocument:
-    """New tool pose in the world of a path waypoint given as a pose. Target waypoints move
-    with their target, joint-values waypoints are edited in the cell file.
+    """Set a new tool pose in the world of a path waypoint given as a pose.
+
+    Target waypoints move with their target, joint-values waypoints are edited in the cell file.
     """
     expected = _expected_etag(if_match)
     pose = Pose.model_validate(edit.model_dump())
@@ -340,8 +350,9 @@ def set_waypoint_joints(
     response: Response,
     if_match: IfMatch,
 ) -> CellDocument:
-    """Write joint values into waypoints of a path (e.g. the ``edits`` of the fastest
-    sequence): each keeps its motion, speed and blend and becomes a joint-values waypoint.
+    """Write joint values into waypoints of a path (e.g. the ``edits`` of the fastest sequence).
+
+    Each keeps its motion, speed and blend and becomes a joint-values waypoint.
     """
     expected = _expected_etag(if_match)
     edits = [WaypointJoints(index=e.index, joints_deg=e.joints_deg) for e in edit.edits]
@@ -374,7 +385,7 @@ def set_waypoint_joints(
 def move_base(
     edit: BaseEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch
 ) -> CellDocument:
-    """New pedestal foot pose in the world (and pedestal height); the robot moves with it."""
+    """Set a new pedestal foot pose in the world (and pedestal height); the robot moves with it."""
     expected = _expected_etag(if_match)
     update = _moved(edit.position_mm, edit.rpy_deg)
     if edit.pedestal_height_mm is not None:
@@ -402,7 +413,7 @@ def mesh_drawing(
         ),
     ] = None,
 ) -> MeshDrawing:
-    """The mesh of one mesh fixture, decimated for drawing, in its own frame (mm)."""
+    """Return the mesh of one mesh fixture, decimated for drawing, in its own frame (mm)."""
     snapshot = cells.read()
     meshes = snapshot.scene.meshes
     index = index_of_named("mesh fixture", list(meshes.names), name)
@@ -421,14 +432,15 @@ def mesh_drawing(
 
 
 def _safe_stem(file_name: str) -> str:
-    """The file name's stem reduced to letters, digits, ``-`` and ``_`` (at most 60)."""
+    """Return the file name's stem reduced to letters, digits, ``-`` and ``_`` (at most 60)."""
     stem = re.sub(r"[^A-Za-z0-9_-]+", "-", FilePath(file_name).stem).strip("-_")
     return stem[:60] or "mesh"
 
 
 def _store_mesh_file(folder: FilePath, name: str, data: bytes) -> bool:
-    """Write ``data`` to ``folder/name`` atomically (temporary file, fsync, rename, folder
-    fsync) unless that file exists already; whether this call wrote it.
+    """Write ``data`` to ``folder/name`` atomically unless that file exists already.
+
+    Temporary file, fsync, rename, folder fsync; returns whether this call wrote it.
     """
     target = folder / name
     folder.mkdir(parents=True, exist_ok=True)
@@ -474,10 +486,12 @@ def upload_mesh(
     response: Response,
     if_match: IfMatch,
 ) -> CellDocument:
-    """Store the file next to the cell file (``meshes/<name>-<content hash>.<ending>``,
-    written atomically, never overwritten), check it (format, caps, unit), then add it as
-    a mesh fixture whose bounding box's bottom centre is at ``position_mm``, saved like
-    every edit (If-Match). Reviewers cannot upload (403).
+    """Upload a mesh file and add it to the cell as a mesh fixture.
+
+    The file is stored next to the cell file (``meshes/<name>-<content hash>.<ending>``, written
+    atomically, never overwritten) and checked (format, caps, unit); the fixture's bounding box's
+    bottom centre is at ``position_mm``, saved like every edit (If-Match). Reviewers cannot upload
+    (403).
     """
     expected = _expected_etag(if_match)
     if cells.path is None:

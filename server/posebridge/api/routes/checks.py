@@ -45,8 +45,10 @@ router = APIRouter(prefix="/api/cell", tags=["checks"], route_class=StrictJsonRo
 
 @router.get("/check", summary="Check every target", responses=error_responses(422, 429, 503))
 async def read_target_check(cells: CellsDep, request: Request) -> TargetCheckReport:
-    """Per target: reachable or why not, usable branches, recommended branch; the branch
-    consistent over all targets; findings, errors first.
+    """Check every target of the cell.
+
+    Per target: reachable or why not, usable branches, recommended branch; the branch consistent
+    over all targets; findings, errors first.
     """
     scene = (await run_in_threadpool(cells.read)).scene
     poses = len(scene.targets.names) + int(np.count_nonzero(scene.targets.approach_offset > 0.0))
@@ -62,8 +64,10 @@ async def read_target_check(cells: CellsDep, request: Request) -> TargetCheckRep
 async def read_path_check(
     name: Annotated[str, Path(min_length=1, max_length=100)], cells: CellsDep, request: Request
 ) -> PathCheckReport:
-    """Sampled check of every segment (reach, continuity, limits, singularities, clearance,
-    speed) with the cycle time per segment; findings tied to segment and position.
+    """Run the sampled check of every segment of a path.
+
+    Reach, continuity, limits, singularities, clearance and speed, with the cycle time per segment;
+    findings tied to segment and position.
     """
     scene = (await run_in_threadpool(cells.read)).scene
     index = index_of_named("path", [path.name for path in scene.paths], name)
@@ -93,10 +97,12 @@ async def read_path_sequence(
         float, Query(ge=0.0, le=1000.0, allow_inf_nan=False, description="Prismatic joints.")
     ] = 0.0,
 ) -> SequenceReport:
-    """One IK solution per waypoint for the shortest rest-to-rest cycle time (exact, dynamic
-    programming over the layered graph of solutions) under the limit margin, required
-    branches, linear-move continuity and collisions; the current choice, the saving in
-    words and the waypoint edits that make the path follow the sequence.
+    """Find the IK solution sequence of a path with the shortest cycle time.
+
+    One IK solution per waypoint for the shortest rest-to-rest cycle time (exact, dynamic
+    programming over the layered graph of solutions) under the limit margin, required branches,
+    linear-move continuity and collisions; the current choice, the saving in words and the waypoint
+    edits that make the path follow the sequence.
     """
     scene = (await run_in_threadpool(cells.read)).scene
     index = index_of_named("path", [path.name for path in scene.paths], name)
@@ -128,8 +134,10 @@ async def _export(
 async def export_path_json(
     name: PathName, cells: CellsDep, request: Request, period_ms: PeriodMs = DEFAULT_PERIOD_MS
 ) -> MotionExportReport:
-    """The blended motion at a fixed period: time, every joint (unit in the column name), TCP
-    pose, branch, limit margin and clearance per row, and a header block.
+    """Export the blended motion at a fixed period as JSON.
+
+    Time, every joint (unit in the column name), TCP pose, branch, limit margin and clearance per
+    row, and a header block.
     """
     return await _export(name, cells, request, period_ms)
 
@@ -146,8 +154,9 @@ async def export_path_json(
 async def export_path_csv(
     name: PathName, cells: CellsDep, request: Request, period_ms: PeriodMs = DEFAULT_PERIOD_MS
 ) -> Response:
-    """As the JSON export, as CSV with the header block as ``#`` comment lines; it reads back
-    as a joint log in the pose check.
+    """Export the motion as CSV, the header block as ``#`` comment lines.
+
+    As the JSON export; it reads back as a joint log in the pose check.
     """
     report = await _export(name, cells, request, period_ms)
     filename = "".join(c if c.isalnum() or c in "-_" else "_" for c in report.header.path)
@@ -164,8 +173,10 @@ async def export_path_csv(
 async def diagnose_joint_pose(
     body: PoseDiagnosisRequest, cells: CellsDep, request: Request
 ) -> PoseDiagnosis:
-    """TCP pose, branch, margins, singularity, clearance with the closest object, nearest
-    targets and the other branches of the same tool pose.
+    """Diagnose one pose of the arm.
+
+    TCP pose, branch, margins, singularity, clearance with the closest object, nearest targets and
+    the other branches of the same tool pose.
     """
 
     def work() -> PoseDiagnosis:
@@ -183,9 +194,11 @@ async def diagnose_joint_pose(
     "/fk", summary="State of the arm in the cell", responses=error_responses(422, 429, 503)
 )
 async def read_arm_state(body: PoseDiagnosisRequest, cells: CellsDep, request: Request) -> ArmState:
-    """Per joint the signed limit margin, every obstacle or self pair inside the clearance
-    threshold with the capsule and depth, the singularity distances and the thresholds: what
-    the page shows beside the arm after every change of the joint values.
+    """Return the quality of one configuration, shown beside the arm.
+
+    Per joint the signed limit margin, every obstacle or self pair inside the clearance threshold
+    with the capsule and depth, the singularity distances and the thresholds: what the page shows
+    beside the arm after every change of the joint values.
     """
 
     def work() -> ArmState:
@@ -204,8 +217,10 @@ async def read_arm_state(body: PoseDiagnosisRequest, cells: CellsDep, request: R
 async def diagnose_joint_log(
     body: LogDiagnosisRequest, cells: CellsDep, request: Request
 ) -> LogDiagnosis:
-    """Row-by-row values (margins, clearance, manipulability), the worst row, branch changes,
-    velocity jumps and findings.
+    """Diagnose a joint log row by row.
+
+    Values per row (margins, clearance, manipulability), the worst row, branch changes, velocity
+    jumps and findings.
     """
     scene = (await run_in_threadpool(cells.read)).scene
     try:

@@ -16,9 +16,10 @@ router = APIRouter(prefix="/api/health", tags=["health"], route_class=StrictJson
 
 @router.get("", summary="Server is up")
 async def read_health(request: Request) -> HealthResult:
-    """Answers as soon as the server accepts requests (on the event loop: no worker thread
-    needed, so it answers while worker threads are busy), with how far the loading of the
-    numerical kernels is (posebridge.api.warmup).
+    """Answer as soon as the server accepts requests, with the kernel loading progress.
+
+    Runs on the event loop: no worker thread needed, so it answers while worker threads are busy;
+    tells how far the loading of the numerical kernels is (posebridge.api.warmup).
     """
     warm = request.app.state.warmup
     return HealthResult(

@@ -46,13 +46,14 @@ def client_key(request: Request) -> str:
 
 
 def started(error: JobLimitError) -> HTTPException:
-    """The 429 answer of a refused job start."""
+    """Return the 429 answer of a refused job start."""
     return HTTPException(status_code=429, detail=f"jobs: {error}", headers={"Retry-After": "5"})
 
 
 def start_job(jobs: JobManager, kind: str, request: Request, work: JobWork) -> JobStatus:
-    """Queue ``work`` as a job of the asking client and answer with its status (429 when
-    the client has too many jobs or started too many lately).
+    """Queue ``work`` as a job of the asking client and answer with its status.
+
+    429 when the client has too many jobs or started too many lately.
     """
     reviewer = getattr(request.state, "review_role", "reviewer") != "owner"
     try:
@@ -119,8 +120,9 @@ def start_joint_map(
 def start_reach_section(
     body: ReachSectionRequest, request: Request, cells: CellsDep, jobs: JobsDep
 ) -> JobStatus:
-    """How many tool directions the cell's robot reaches in each cell of one slice (world
-    frame, the cell's base and tool), over the square around the base that holds its reach.
+    """Count the tool directions the cell's robot reaches in each cell of one slice.
+
+    World frame, the cell's base and tool, over the square around the base that holds its reach.
 
     Answers at once with the job; poll ``GET /api/jobs/{id}`` for the result.
     """

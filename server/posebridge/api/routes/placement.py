@@ -31,8 +31,10 @@ router = APIRouter(prefix="/api/placement", tags=["placement"], route_class=Stri
 def start_placement(
     body: PlacementRequest, request: Request, cells: CellsDep, jobs: JobsDep
 ) -> JobStatus:
-    """Score candidate base poses around the current one (positions, yaws, pedestal heights)
-    and rank them. Answers at once with the job; poll ``GET /api/jobs/{id}``.
+    """Score candidate base poses around the current one and rank them.
+
+    Candidates vary positions, yaws and pedestal heights. Answers at once with the job; poll ``GET
+    /api/jobs/{id}``.
     """
     heights = 1 if body.heights_mm is None else len(body.heights_mm)
     candidates = body.count * body.count * body.yaw_count * heights

@@ -48,8 +48,10 @@ _NO_FILE = (
 
 
 def _comments_file(cells: CellStore) -> Path | None:
-    """The comment file of the server's cell; None for the bundled demo cell, whose
-    folder belongs to the installed package and is not written to.
+    """Return the comment file of the server's cell.
+
+    None for the bundled demo cell, whose folder belongs to the installed package and is not written
+    to.
     """
     if cells.path is None:
         return None
@@ -77,7 +79,7 @@ def _storage_error(error: CommentStorageError) -> HTTPException:
 
 @router.get("/access", summary="Who is asking", responses=review_error_responses(401, 422, 429))
 def read_access(request: Request, role: ReviewRoleDep, cells: CellsDep) -> ReviewAccessResult:
-    """The caller's role (owner or read-only reviewer) and what the page may offer."""
+    """Return the caller's role (owner or read-only reviewer) and what the page may offer."""
     return ReviewAccessResult(
         role=role,
         shared=request.app.state.review_access is not None,

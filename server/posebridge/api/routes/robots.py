@@ -62,8 +62,10 @@ def describe_robot(
         Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
     ],
 ) -> RobotImportReport:
-    """Chain, joints and limits, assumed values, meshes found and missing, capsules (fitted
-    ones with their excess over the meshes' hull), notes - as `posebridge describe --json`.
+    """Describe the robot as `posebridge describe --json` does.
+
+    Chain, joints and limits, assumed values, meshes found and missing, capsules (fitted ones with
+    their excess over the meshes' hull), notes.
     """
     return robot_import_report(robots.get(robot, paths_allowed=role == "owner"), robot)
 
@@ -77,9 +79,10 @@ def read_robot_meshes(
         Query(min_length=1, max_length=1000, description="Bundled robot name or .toml/.urdf path."),
     ],
 ) -> RobotMeshesResult:
-    """Visual meshes (collision meshes of links without) decimated to 60 000 triangles for the
-    whole robot, in their link frames; pose them with the FK answer's frames. Empty for
-    robots without mesh files.
+    """Return the robot's visual meshes decimated for drawing, in their link frames.
+
+    Visual meshes (collision meshes of links without) decimated to 60 000 triangles for the whole
+    robot; pose them with the FK answer's frames. Empty for robots without mesh files.
     """
     model = robots.get(robot, paths_allowed=role == "owner")
     cache = MeshCache.default() if model.meshes else None

@@ -47,10 +47,13 @@ Position = Annotated[list[Coordinate], Field(min_length=3, max_length=3)]
 Rpy = Annotated[list[Angle], Field(min_length=3, max_length=3, description=_RPY)]
 
 
-# One solid of the cell (fixture, keep-out zone, or the robot's mounting: pedestal, track rail
-# and carriage), centred on its world pose (a mesh: its fixture frame, the triangles from
-# GET /api/cell/meshes/{name}).
 class ShapeDrawing(BaseModel):
+    """One solid of the cell, centred on its world pose.
+
+    A fixture, keep-out zone, or the robot's mounting (pedestal, track rail and carriage); a
+    mesh is placed at its fixture frame, its triangles come from GET /api/cell/meshes/{name}.
+    """
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
@@ -88,8 +91,9 @@ class ShapeDrawing(BaseModel):
     )
 
 
-# A fixture's frame in the world (frames without geometry included).
 class FixtureDrawing(BaseModel):
+    """A fixture's frame in the world (frames without geometry included)."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
@@ -101,8 +105,9 @@ class FixtureDrawing(BaseModel):
     rpy_deg: list[float] = Field(description="Frame orientation in the world. " + _RPY)
 
 
-# A target as a world tool pose, with its approach position.
 class TargetDrawing(BaseModel):
+    """A target as a world tool pose, with its approach position."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
@@ -115,8 +120,9 @@ class TargetDrawing(BaseModel):
     branch: Branch | None = Field(description="Required arm branch; null where any will do.")
 
 
-# One path waypoint as a world tool pose.
 class WaypointDrawing(BaseModel):
+    """One path waypoint as a world tool pose."""
+
     model_config = ConfigDict(extra="forbid")
 
     source: Literal["target", "pose", "joints"]
@@ -130,16 +136,18 @@ class WaypointDrawing(BaseModel):
     motion: Literal["joint", "linear"] = Field(description="Move into this waypoint.")
 
 
-# A path: its waypoints in order.
 class PathDrawing(BaseModel):
+    """A path: its waypoints in order."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
     waypoints: list[WaypointDrawing]
 
 
-# The robot's placement: pedestal foot and base frame in the world.
 class BaseDrawing(BaseModel):
+    """The robot's placement: pedestal foot and base frame in the world."""
+
     model_config = ConfigDict(extra="forbid")
 
     position_mm: list[float] = Field(description="Robot base frame origin in the world.")
@@ -157,8 +165,9 @@ class ToolCapsuleDrawing(BaseModel):
     radius_mm: float
 
 
-# The mounted tool: TCP in the flange frame and its capsules.
 class ToolDrawing(BaseModel):
+    """The mounted tool: TCP in the flange frame and its capsules."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
@@ -179,8 +188,9 @@ class ExternalAxisDrawing(BaseModel):
     value: float
 
 
-# The resolved cell, in world millimetres and degrees, for drawing.
 class SceneDrawing(BaseModel):
+    """The resolved cell, in world millimetres and degrees, for drawing."""
+
     model_config = ConfigDict(extra="forbid")
 
     base: BaseDrawing
@@ -195,8 +205,9 @@ class SceneDrawing(BaseModel):
     )
 
 
-# The server's cell: file content, content version and drawing.
 class CellDocument(BaseModel):
+    """The server's cell: file content, content version and drawing."""
+
     model_config = ConfigDict(extra="forbid")
 
     etag: str = Field(description="Content version; send it as If-Match with every change.")
@@ -213,8 +224,9 @@ class CellDocument(BaseModel):
     scene: SceneDrawing
 
 
-# Move a target: new tool pose in the world (or in its fixture's frame).
 class TargetEdit(BaseModel):
+    """Move a target: new tool pose in the world (or in its fixture's frame)."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Position | None = None
@@ -224,8 +236,9 @@ class TargetEdit(BaseModel):
     )
 
 
-# Move a fixture: new pose in its parent's frame (the world without a parent), or in the world.
 class FixtureEdit(BaseModel):
+    """Move a fixture: new pose in its parent's frame (the world without a parent), or in the world."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Position | None = None
@@ -237,16 +250,18 @@ class FixtureEdit(BaseModel):
     )
 
 
-# Move a pose waypoint of a path: its new tool pose in the world.
 class WaypointEdit(BaseModel):
+    """Move a pose waypoint of a path: its new tool pose in the world."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Position = Field(description="Tool position in the world.")
     rpy_deg: Rpy
 
 
-# Give waypoints of a path as joint values (e.g. the optimiser's sequence, its ``edits``).
 class WaypointJointsItem(BaseModel):
+    """Give waypoints of a path as joint values (e.g. the optimiser's sequence, its ``edits``)."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     index: int = Field(ge=0, lt=MAX_WAYPOINTS, description="Waypoint position, from 0.")
@@ -256,13 +271,16 @@ class WaypointJointsItem(BaseModel):
 
 
 class WaypointJointsEdit(BaseModel):
+    """Joint values for waypoints of one path, each waypoint becoming a joint-values waypoint."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     edits: list[WaypointJointsItem] = Field(min_length=1, max_length=MAX_WAYPOINTS)
 
 
-# Move the robot: new pedestal foot pose in the world, and optionally a new pedestal height.
 class BaseEdit(BaseModel):
+    """Move the robot: new pedestal foot pose in the world, and optionally a new pedestal height."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Position | None = None
@@ -340,7 +358,7 @@ def _meshes(meshes: MeshSet) -> list[ShapeDrawing]:
 
 
 def _subset(boxes: BoxSet, names: set[str], *, keep: bool) -> BoxSet:
-    """The boxes whose name is (``keep``) or is not in ``names``."""
+    """Return the boxes whose name is (``keep``) or is not in ``names``."""
     rows = [k for k, name in enumerate(boxes.names) if (name in names) == keep]
     return BoxSet(
         names=tuple(boxes.names[k] for k in rows),
@@ -354,7 +372,7 @@ RAIL_HEIGHT_M = 0.04
 
 
 def _rail(scene: Scene) -> BoxSet:
-    """The track's rail for drawing: its travel plus a carriage length, under the rail frame."""
+    """Return the track's rail for drawing: its travel plus a carriage length, under the rail frame."""
     external = scene.external
     track = external.track
     if track is None:
@@ -368,7 +386,7 @@ def _rail(scene: Scene) -> BoxSet:
 
 
 def scene_drawing(scene: Scene) -> SceneDrawing:
-    """The drawing of a resolved scene in world mm and deg."""
+    """Return the drawing of a resolved scene in world mm and deg."""
     base_position, base_rpy = _pose_mm_deg(scene.T_world_base)
     down = np.eye(4)
     down[2, 3] = -float(m_from_mm(scene.cell.base.pedestal_height_mm))
@@ -466,8 +484,9 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
 
 
 def cell_document(snapshot: CellSnapshot, robot_spec: str, *, owner: bool) -> CellDocument:
-    """The answer of the cell routes for one content version; the file's full path only
-    for the ``owner`` (reviewers see its name).
+    """Return the answer of the cell routes for one content version.
+
+    The file's full path only for the ``owner`` (reviewers see its name).
     """
     return CellDocument(
         etag=snapshot.etag,

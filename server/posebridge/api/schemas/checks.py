@@ -30,8 +30,9 @@ MAX_PLACEMENT_CANDIDATES = 20_000
 """Most candidate base poses of one placement search."""
 
 
-# One joint configuration to diagnose in the cell.
 class PoseDiagnosisRequest(BaseModel):
+    """One joint configuration to diagnose in the cell."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     joints_deg: Annotated[list[Finite], Field(min_length=1, max_length=MAX_JOINTS)] = Field(
@@ -39,8 +40,9 @@ class PoseDiagnosisRequest(BaseModel):
     )
 
 
-# A controller log (CSV text) to diagnose row by row in the cell.
 class LogDiagnosisRequest(BaseModel):
+    """A controller log (CSV text) to diagnose row by row in the cell."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     csv: str = Field(
@@ -52,8 +54,9 @@ class LogDiagnosisRequest(BaseModel):
     source: str = Field(default="pasted log", max_length=200, description="Name shown in messages.")
 
 
-# A base placement search around the current base.
 class PlacementRequest(BaseModel):
+    """A base placement search around the current base."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     half_width_mm: float = Field(

@@ -9,8 +9,9 @@ from pydantic import BaseModel, ConfigDict
 __all__ = ["ErrorMessage", "error_responses"]
 
 
-# Body of every 4xx/5xx answer.
 class ErrorMessage(BaseModel):
+    """Body of every 4xx/5xx answer."""
+
     model_config = ConfigDict(extra="forbid")
 
     detail: str

@@ -7,8 +7,9 @@ from pydantic import BaseModel, ConfigDict, Field
 __all__ = ["HealthResult"]
 
 
-# Answer of the liveness check.
 class HealthResult(BaseModel):
+    """Answer of the liveness check."""
+
     model_config = ConfigDict(extra="forbid")
 
     status: str

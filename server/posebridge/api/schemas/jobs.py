@@ -16,8 +16,9 @@ JobResult = JointMapResult | ReachSectionResult | PlacementReport
 """Results a job can carry: a joint map, a reach section or a base placement ranking."""
 
 
-# A job: what it computes, how far it is, and its result when done.
 class JobStatus(BaseModel):
+    """A job: what it computes, how far it is, and its result when done."""
+
     model_config = ConfigDict(extra="forbid")
 
     id: str
@@ -30,7 +31,7 @@ class JobStatus(BaseModel):
 
 
 def job_status(job: Job) -> JobStatus:
-    """The answer describing ``job``."""
+    """Return the answer describing ``job``."""
     result = job.result if job.state == "done" else None
     return JobStatus(
         id=job.id,

@@ -79,8 +79,9 @@ _MANIPULABILITY_DESCRIPTION = (
 
 
 def _whole_float_as_int(value: object) -> object:
-    """JSON Schema's ``integer`` includes numbers with a zero fractional part (``65.0``):
-    read them as ints; everything else is left to the strict int check.
+    """Read numbers with a zero fractional part (``65.0``) as ints.
+
+    JSON Schema's ``integer`` includes them; everything else is left to the strict int check.
     """
     if isinstance(value, float) and value.is_integer():
         return int(value)
@@ -107,8 +108,9 @@ RobotSpec = Annotated[
 ]
 
 
-# One inverse kinematics solution with its branch and quality.
 class IkSolution(BaseModel):
+    """One inverse kinematics solution with its branch and quality."""
+
     model_config = ConfigDict(extra="forbid")
 
     joints_deg: list[float] = Field(description=_JOINTS_DESCRIPTION)
@@ -134,8 +136,9 @@ class IkSolution(BaseModel):
     manipulability: float = Field(description=_MANIPULABILITY_DESCRIPTION)
 
 
-# Inverse kinematics answer: the solutions, or why there are none.
 class IkResult(BaseModel):
+    """Inverse kinematics answer: the solutions, or why there are none."""
+
     model_config = ConfigDict(extra="forbid")
 
     robot: str
@@ -152,30 +155,33 @@ class IkResult(BaseModel):
 
 
 def _batch_from_single(value: object) -> object:
-    """A flat list of numbers is one configuration: wrap it into a batch of one."""
+    """Wrap a flat list of numbers (one configuration) into a batch of one."""
     if isinstance(value, list) and value and not any(isinstance(v, list) for v in value):
         return [value]
     return value
 
 
-# A tool (TCP) pose in the flange frame; replaces the robot's default tool.
 class ToolOffset(BaseModel):
+    """A tool (TCP) pose in the flange frame; replaces the robot's default tool."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Vector3
     rpy_deg: Vector3 = Field(description=_RPY_DESCRIPTION)
 
 
-# A pose: a tool pose in the robot base frame, or (as ``base``) the robot base in the world.
 class Pose(BaseModel):
+    """A pose: a tool pose in the robot base frame, or (as ``base``) the robot base in the world."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     position_mm: Vector3
     rpy_deg: Vector3 = Field(description=_RPY_DESCRIPTION)
 
 
-# Forward kinematics of one or more joint configurations.
 class FkRequest(BaseModel):
+    """Forward kinematics of one or more joint configurations."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     robot: RobotSpec
@@ -197,8 +203,9 @@ class FkRequest(BaseModel):
     base: Pose | None = Field(default=None, description=_BASE_DESCRIPTION)
 
 
-# Inverse kinematics of one tool pose: every solution, on every arm branch.
 class IkRequest(BaseModel):
+    """Inverse kinematics of one tool pose: every solution, on every arm branch."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     robot: RobotSpec
@@ -227,8 +234,9 @@ class IkRequest(BaseModel):
         return data
 
 
-# A collision capsule of the arm: name, link it rides on and radius.
 class CapsuleShape(BaseModel):
+    """A collision capsule of the arm: name, link it rides on and radius."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
@@ -236,8 +244,9 @@ class CapsuleShape(BaseModel):
     radius_mm: float
 
 
-# Pose, quality and drawing geometry of one joint configuration.
 class FkConfiguration(BaseModel):
+    """Pose, quality and drawing geometry of one joint configuration."""
+
     model_config = ConfigDict(extra="forbid")
 
     position_mm: list[float] = Field(
@@ -264,8 +273,9 @@ class FkConfiguration(BaseModel):
     )
 
 
-# Forward kinematics answer: one entry per requested configuration.
 class FkResult(BaseModel):
+    """Forward kinematics answer: one entry per requested configuration."""
+
     model_config = ConfigDict(extra="forbid")
 
     robot: str

@@ -41,8 +41,9 @@ MAX_SECTION_CELLS = 100 * 100
 _JOINTS = "Revolute joints in degrees, prismatic joints in millimetres, in the robot's joint order."
 
 
-# A joint-space map over two or three joints of the cell's robot.
 class JointMapRequest(BaseModel):
+    """A joint-space map over two or three joints of the cell's robot."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     joints: Annotated[
@@ -67,8 +68,12 @@ class JointMapRequest(BaseModel):
     )
 
 
-# A joint-space obstacle map: per cell the nearest colliding obstacle, self collision, clearance.
 class JointMapResult(BaseModel):
+    """A joint-space obstacle map.
+
+    Per cell: the nearest colliding obstacle, self collision and clearance.
+    """
+
     model_config = ConfigDict(extra="forbid")
 
     cell_etag: str = Field(description="Content version of the cell the map was computed for.")
@@ -105,7 +110,7 @@ class JointMapResult(BaseModel):
 
 
 def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> JointMapResult:
-    """The answer for a computed :class:`~posebridge.spaces.joint_map.JointMap`."""
+    """Return the answer for a computed :class:`~posebridge.spaces.joint_map.JointMap`."""
     prismatic = joint_map.prismatic
     clearance = None
     if len(joint_map.joints) == 2:
@@ -131,8 +136,9 @@ def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> Joint
     )
 
 
-# A slice of the robot's reach through the cell, for the plan or the elevation.
 class ReachSectionRequest(BaseModel):
+    """A slice of the robot's reach through the cell, for the plan or the elevation."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     axis: Literal["z", "y"] = Field(
@@ -150,8 +156,9 @@ class ReachSectionRequest(BaseModel):
     )
 
 
-# How many tool directions reach each cell of a slice through the cell, world frame.
 class ReachSectionResult(BaseModel):
+    """How many tool directions reach each cell of a slice through the cell, world frame."""
+
     model_config = ConfigDict(extra="forbid")
 
     cell_etag: str
@@ -168,7 +175,7 @@ class ReachSectionResult(BaseModel):
 def reach_section_result(
     section: ReachSection, directions: int, cell_etag: str
 ) -> ReachSectionResult:
-    """The answer for a computed :class:`~posebridge.spaces.workspace.ReachSection`."""
+    """Return the answer for a computed :class:`~posebridge.spaces.workspace.ReachSection`."""
     return ReachSectionResult(
         cell_etag=cell_etag,
         axis="z" if section.axis == "z" else "y",

@@ -27,8 +27,9 @@ Coordinate = Annotated[
 Angle = Annotated[float, Field(allow_inf_nan=False, ge=-360.0, le=360.0)]
 
 
-# A mesh fixture's triangles for drawing, decimated to a budget, in its own frame (mm).
 class MeshDrawing(BaseModel):
+    """A mesh fixture's triangles for drawing, decimated to a budget, in its own frame (mm)."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str = Field(description="The fixture.")
@@ -38,8 +39,9 @@ class MeshDrawing(BaseModel):
     faces: list[list[int]] = Field(description="Triangles as three vertex indices each.")
 
 
-# A mesh file to add as a new fixture: its name, its bytes (base64), unit and where to put it.
 class MeshUpload(BaseModel):
+    """A mesh file to add as a new fixture: its name, its bytes (base64), unit and where to put it."""
+
     model_config = ConfigDict(extra="forbid", strict=True)
 
     file_name: Annotated[str, Field(pattern=_FILE_NAME)] = Field(

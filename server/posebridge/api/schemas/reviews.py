@@ -50,8 +50,9 @@ def review_error_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
     }
 
 
-# Who is asking: the owner (full rights) or a read-only reviewer of a shared dashboard.
 class ReviewAccessResult(BaseModel):
+    """Who is asking: the owner (full rights) or a read-only reviewer of a shared dashboard."""
+
     model_config = ConfigDict(extra="forbid")
 
     role: Literal["owner", "reviewer"]
@@ -64,8 +65,9 @@ class ReviewAccessResult(BaseModel):
     cell_file: str | None = Field(description="File name of the cell, null for the in-memory demo.")
 
 
-# Where a comment is pinned: the whole cell, a target by name, or a waypoint of a path.
 class CommentPin(BaseModel):
+    """Where a comment is pinned: the whole cell, a target by name, or a waypoint of a path."""
+
     model_config = ConfigDict(extra="forbid")
 
     kind: PinKind = Field(description="cell, target or waypoint.")
@@ -94,12 +96,13 @@ class CommentPin(BaseModel):
         return self
 
     def to_pin(self) -> Pin:
-        """The store's pin (raises ``CommentInputError`` when fields do not match the kind)."""
+        """Return the store's pin (raises ``CommentInputError`` when fields do not match the kind)."""
         return Pin(kind=self.kind, target=self.target, path=self.path, waypoint=self.waypoint)
 
 
-# A new comment, from the owner or a reviewer.
 class CommentCreateRequest(BaseModel):
+    """A new comment, from the owner or a reviewer."""
+
     model_config = ConfigDict(extra="forbid")
 
     pin: CommentPin
@@ -109,15 +112,17 @@ class CommentCreateRequest(BaseModel):
     text: str = Field(min_length=1, max_length=MAX_TEXT_CHARS, description="Line breaks allowed.")
 
 
-# The owner marks a comment resolved, or open again.
 class CommentResolveRequest(BaseModel):
+    """The owner marks a comment resolved, or open again."""
+
     model_config = ConfigDict(extra="forbid")
 
     resolved: bool = Field(strict=True)
 
 
-# One stored comment.
 class CommentResult(BaseModel):
+    """One stored comment."""
+
     model_config = ConfigDict(extra="forbid")
 
     id: int
@@ -134,8 +139,9 @@ class CommentResult(BaseModel):
     resolved_utc: str | None = Field(description="When the owner marked it resolved.")
 
 
-# Every comment on the cell, oldest first.
 class CommentList(BaseModel):
+    """Every comment on the cell, oldest first."""
+
     model_config = ConfigDict(extra="forbid")
 
     cell_file: str
@@ -156,7 +162,7 @@ def pin_found(pin: Pin, cell: Cell) -> bool:
 
 
 def comment_result(comment: Comment, cell: Cell) -> CommentResult:
-    """The API form of a stored comment, checked against the current cell."""
+    """Return the API form of a stored comment, checked against the current cell."""
     pin = comment.pin
     return CommentResult(
         id=comment.id,

@@ -33,8 +33,9 @@ _BOUNDS_SAMPLES = 2048
 _BOUNDS_SEED = 0
 
 
-# One entry of the bundled robot library.
 class RobotSummary(BaseModel):
+    """One entry of the bundled robot library."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
@@ -42,16 +43,18 @@ class RobotSummary(BaseModel):
     description: str
 
 
-# The bundled robot library and the robot the server opens with.
 class RobotList(BaseModel):
+    """The bundled robot library and the robot the server opens with."""
+
     model_config = ConfigDict(extra="forbid")
 
     robots: list[RobotSummary]
     default_robot: str = Field(description="Bundled name or file path the page opens with.")
 
 
-# One joint: type, limits and the unit of its values (deg for revolute, mm for prismatic).
 class JointDescription(BaseModel):
+    """One joint: type, limits and the unit of its values (deg for revolute, mm for prismatic)."""
+
     model_config = ConfigDict(extra="forbid")
 
     name: str
@@ -65,8 +68,9 @@ class JointDescription(BaseModel):
     velocity_max: float = Field(description="Velocity limit, in `unit` per second.")
 
 
-# A tool (TCP) pose in the flange frame.
 class ToolDescription(BaseModel):
+    """A tool (TCP) pose in the flange frame."""
+
     model_config = ConfigDict(extra="forbid")
 
     position_mm: list[float] = Field(min_length=3, max_length=3)
@@ -77,8 +81,9 @@ class ToolDescription(BaseModel):
     )
 
 
-# Everything the page needs to draw a robot and edit its joints.
 class RobotDescriptionResult(BaseModel):
+    """Everything the page needs to draw a robot and edit its joints."""
+
     model_config = ConfigDict(extra="forbid")
 
     robot: str = Field(description="The robot as requested: bundled name or file path.")
@@ -125,7 +130,7 @@ def _bounds_m(robot: Robot) -> np.ndarray:
 
 
 def robot_description_result(robot: Robot, spec: str) -> RobotDescriptionResult:
-    """Description of ``robot`` (loaded from ``spec``) in boundary units (mm, deg)."""
+    """Return the description of ``robot`` (loaded from ``spec``) in boundary units (mm, deg)."""
     units = joint_unit_labels(robot.prismatic)
     lower = joints_user_from_si(robot.lower, robot.prismatic)
     upper = joints_user_from_si(robot.upper, robot.prismatic)
@@ -200,8 +205,9 @@ class LinkFitReport(BaseModel):
     )
 
 
-# What an import made of a robot file: chain, joints, assumed values, meshes, capsules, notes.
 class RobotImportReport(BaseModel):
+    """What an import made of a robot file: chain, joints, assumed values, meshes, capsules, notes."""
+
     model_config = ConfigDict(extra="forbid")
 
     robot: str = Field(description="The robot as requested: bundled name or file path.")
@@ -224,7 +230,7 @@ class RobotImportReport(BaseModel):
 
 
 def robot_import_report(robot: Robot, spec: str) -> RobotImportReport:
-    """The describe answer for ``robot`` (loaded from ``spec``), mm and deg."""
+    """Return the describe answer for ``robot`` (loaded from ``spec``), mm and deg."""
     description = robot_description_result(robot, spec)
     prismatic = robot.prismatic
     jerk = np.array([np.nan if j.jerk_max is None else j.jerk_max for j in robot.joints])
@@ -334,8 +340,9 @@ class LinkMeshDrawing(BaseModel):
     faces: list[list[int]]
 
 
-# A robot's meshes for drawing: visual meshes decimated to one budget for the whole robot.
 class RobotMeshesResult(BaseModel):
+    """A robot's meshes for drawing: visual meshes decimated to one budget for the whole robot."""
+
     model_config = ConfigDict(extra="forbid")
 
     robot: str
@@ -346,7 +353,7 @@ class RobotMeshesResult(BaseModel):
 def robot_meshes_result(
     robot: Robot, spec: str, drawings: list[LinkDisplayMesh]
 ) -> RobotMeshesResult:
-    """The drawing answer for ``robot`` from :func:`~posebridge.geometry.robot_meshes.robot_display_meshes`."""
+    """Return the drawing answer for ``robot`` from :func:`~posebridge.geometry.robot_meshes.robot_display_meshes`."""
     return RobotMeshesResult(
         robot=spec,
         triangles=sum(d.mesh.triangle_count for d in drawings),

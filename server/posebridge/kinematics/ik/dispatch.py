@@ -138,7 +138,7 @@ is kept as long as the robot object lives."""
 
 
 def ik_solver(robot: Robot) -> IkSolver:
-    """The IK solver for ``robot``, chosen from its geometry (module docstring) once per robot."""
+    """Return the IK solver for ``robot``, chosen from its geometry (module docstring) once per robot."""
     solver = _SOLVERS.get(robot)
     if solver is None:
         solver = _choose_solver(robot)

@@ -1,5 +1,6 @@
-"""The finishing step every IK solver shares: raw candidates become :class:`IkSolutions`
-(:mod:`posebridge.kinematics.ik.solutions`) slots.
+"""The finishing step every IK solver shares.
+
+Raw candidates become :class:`IkSolutions` (:mod:`posebridge.kinematics.ik.solutions`) slots.
 
 Slots in each row are sorted: valid and within limits first, then valid but
 outside limits, then empty; inside each group by the weighted joint distance
@@ -404,7 +405,7 @@ def solutions_from_outputs(
     method: str,
     label_scheme: str = "arm",
 ) -> IkSolutions:
-    """The :class:`IkSolutions` held by the filled output arrays of :func:`empty_outputs`.
+    """Return the :class:`IkSolutions` held by the filled output arrays of :func:`empty_outputs`.
 
     ``reason`` (N entries) replaces the kernel's reason codes (the last array);
     the other arguments are copied into the result.

@@ -95,8 +95,9 @@ _STALL_STEP = 1e-12
 
 @nb.njit(cache=True, inline="always")
 def _pose_error(R_target, p_target, T, e):
-    """``e = [p_target - p; log(R_target R^T)]`` for the pose ``T = [R | p]`` (4, 4),
-    the rotation part as a rotation vector.
+    """Return the pose error ``e = [p_target - p; log(R_target R^T)]``.
+
+    For the pose ``T = [R | p]`` (4, 4), the rotation part as a rotation vector.
 
     Matrix logarithm (Lynch & Park, Modern Robotics, sec. 3.2.3.3):
     ``theta = atan2(|a| / 2, (tr M - 1) / 2)`` with ``a`` the skew part of

@@ -104,6 +104,7 @@ class IkSolutions:
     label_scheme: str = "arm"
 
     def __post_init__(self) -> None:
+        """Check that every array has the shape of ``q``'s slots, (N, M) or (N, M, n)."""
         if self.q.ndim != 3:
             raise ValueError(f"IkSolutions.q: expected shape (N, M, n), got {self.q.shape}")
         N, M, n = self.q.shape

@@ -126,7 +126,7 @@ def solve_gantry(
     seed: npt.ArrayLike | None = None,
     all_revolutions: bool = False,
 ) -> IkSolutions:
-    """The gantry solution (module docstring) for a batch of tool poses.
+    """Return the gantry solution (module docstring) for a batch of tool poses.
 
     Parameters
     ----------

@@ -401,7 +401,7 @@ def _arm_candidates(
     arm_labels,
     raw_reason,
 ):
-    """Steps 1 to 3 of the module docstring and the check of each candidate.
+    """Run steps 1 to 3 of the module docstring and the check of each candidate.
 
     For poses ``start..stop-1`` (rows ``i - start``; ``C`` holds their
     canonical end frames) writes for each of the eight candidates (index

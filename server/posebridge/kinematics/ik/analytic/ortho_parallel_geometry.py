@@ -1,5 +1,7 @@
-"""Geometry extraction of the ortho-parallel family: a robot description -> the canonical
-parameters of Brandstötter, Angerer, Hofbaur (2014), with per-joint signs and offsets.
+"""Geometry extraction of the ortho-parallel family.
+
+A robot description -> the canonical parameters of Brandstötter, Angerer, Hofbaur (2014), with
+per-joint signs and offsets.
 
 The canonical model and the method are described in
 :mod:`posebridge.kinematics.ik.analytic.ortho_parallel` (the batch kernels).
