@@ -42,14 +42,18 @@ def job_finished(
     client: httpx.AsyncClient,
 ) -> Callable[[str], Awaitable[dict[str, Any]]]:
     """Poll ``GET /api/jobs/{id}`` of ``client`` until the job is no longer queued or
-    running (at most 60 s); returns its last status."""
+    running; returns its last status.
+
+    The 10-minute cap only ends a hung test: on a loaded machine a job's first run includes
+    kernel compilation, which has taken minutes.
+    """
 
     async def finished(job_id: str) -> dict[str, Any]:
-        for _ in range(600):
+        for _ in range(6000):
             status: dict[str, Any] = (await client.get(f"/api/jobs/{job_id}")).json()
             if status["state"] not in ("queued", "running"):
                 return status
             await asyncio.sleep(0.1)
-        raise AssertionError("job did not finish in 60 s")
+        raise AssertionError("job did not finish in 10 minutes")
 
     return finished
