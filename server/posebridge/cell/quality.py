@@ -44,7 +44,13 @@ from posebridge.cell.reports import (
     SingularityProximity,
 )
 from posebridge.cell.scene import Scene
-from posebridge.kinematics.branches import branch_geometry, branch_words, label_branches, part_word
+from posebridge.kinematics.branches import (
+    branch_geometry,
+    branch_words,
+    centred_revolutions,
+    label_branches,
+    part_word,
+)
 from posebridge.kinematics.fk import check_configurations, fk_tool
 from posebridge.kinematics.ik.finishing import JOINT_CONTINUOUS, JOINT_REVOLUTE, joint_modes
 from posebridge.kinematics.jacobian import jacobian_base
@@ -317,14 +323,14 @@ def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
 
     Counted as the IK result counts them (:mod:`posebridge.kinematics.ik.finishing`).
 
-    Limited revolute joints: ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)``, revolutions
-    away from the one centred on the range (so a joint whose range spans at most one
-    revolution always has 0); continuous joints: ``k`` of ``q = wrapped + 2 pi k`` with the
+    Limited revolute joints: :func:`~posebridge.kinematics.branches.centred_revolutions` of
+    ``q - (lower + upper) / 2``, revolutions away from the one centred on the range (so a
+    joint whose range spans at most one revolution always has 0); continuous joints: ``k`` of ``q = wrapped + 2 pi k`` with the
     wrapped value in ``(-pi, pi]``; prismatic joints 0.
     """
     q = check_configurations(robot, q)
     modes = joint_modes(robot)
-    centred = np.floor((q - 0.5 * (robot.lower + robot.upper)) / (2.0 * np.pi) + 0.5)
+    centred = centred_revolutions(q - 0.5 * (robot.lower + robot.upper))
     wrapped = np.pi - np.mod(np.pi - q, 2.0 * np.pi)
     turns = np.rint((q - wrapped) / (2.0 * np.pi))
     counts = np.where(modes == JOINT_REVOLUTE, centred, 0.0)

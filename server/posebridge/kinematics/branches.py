@@ -191,6 +191,30 @@ def wrist_label(bend_value, straight_value):
     return np.int8(0)
 
 
+REVOLUTION_TIE = 1e-9
+"""An offset within this many revolutions of an exact half revolution counts as that half."""
+
+
+@nb.njit(cache=True, inline="always")
+def centred_revolution(offset_rad):
+    """Whole revolutions in an angle offset from a window centre, rounded half toward zero.
+
+    ``k = sign(x) floor(|x| + 1/2)`` with ``x = offset_rad / 2 pi``, an exact half (within
+    :data:`REVOLUTION_TIE`) rounded toward zero: the window of revolution 0 is the closed
+    ``[centre - pi, centre + pi]``, so an offset of exactly +-180 deg is no extra revolution
+    and +-540 deg is one (common practice, no source).
+    """
+    x = offset_rad * (0.5 / np.pi)
+    k = int(np.floor(np.abs(x) + 0.5 - REVOLUTION_TIE))
+    return k if x >= 0.0 else -k
+
+
+def centred_revolutions(offset_rad: npt.ArrayLike) -> FloatArray:
+    """:func:`centred_revolution` of every offset (rad), any shape; NaN stays NaN."""
+    x = np.asarray(offset_rad, dtype=np.float64) * (0.5 / np.pi)
+    return np.sign(x) * np.floor(np.abs(x) + 0.5 - REVOLUTION_TIE)
+
+
 @nb.njit(cache=True)
 def _arm_labels(forward_distance, cross, reach, bend, straight, shoulder, elbow, wrist):
     for k in range(forward_distance.shape[0]):

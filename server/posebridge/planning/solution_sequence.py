@@ -61,7 +61,7 @@ from posebridge.arrays import Int8Array, Int16Array
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.geometry.clearance import collision_batch
-from posebridge.kinematics.branches import label_branches, labels_match
+from posebridge.kinematics.branches import centred_revolutions, label_branches, labels_match
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.ik.finishing import (
@@ -315,9 +315,10 @@ class SequenceResult:
 def revolutions_of(scene: Scene, q: npt.ArrayLike) -> Int16Array:
     """Whole revolutions of each joint value, counted as IK results count them.
 
-    ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)`` for revolute joints with
-    more than one revolution of range, ``floor(q / 2 pi + 1/2)`` for continuous
-    joints, 0 otherwise (the rule of :mod:`posebridge.kinematics.ik.finishing`).
+    :func:`~posebridge.kinematics.branches.centred_revolutions` of
+    ``q - (lower + upper) / 2`` for revolute joints (non-zero only with more than one
+    revolution of range) and of ``q`` for continuous joints, 0 otherwise (the rule of
+    :mod:`posebridge.kinematics.ik.finishing`).
 
     Parameters
     ----------
@@ -332,7 +333,7 @@ def revolutions_of(scene: Scene, q: npt.ArrayLike) -> Int16Array:
     values = np.asarray(q, dtype=np.float64)
     modes = joint_modes(robot)
     centre = np.where(modes == JOINT_REVOLUTE, 0.5 * (robot.lower + robot.upper), 0.0)
-    count = np.floor((values - centre) / (2.0 * np.pi) + 0.5)
+    count = centred_revolutions(values - centre)
     counted = (modes == JOINT_REVOLUTE) | (modes == JOINT_CONTINUOUS)
     return np.where(counted & np.isfinite(count), count, 0.0).astype(np.int16)
 

@@ -17,12 +17,12 @@ zero without a seed; the value nearest the range when no ``k`` fits). With
 ``all_revolutions`` every in-limit ``k`` of every joint gives its own slot.
 Continuous joints have no limits: only the nearest ``k`` is given. The
 reported ``revolutions`` count whole revolutions away from the revolution
-centred on the joint's range, ``floor((q - (lower + upper) / 2) / 2 pi + 1/2)``
-(the half-open window [centre - pi, centre + pi) is revolution 0, so two
-values a revolution apart never share a count): a joint whose range spans at
-most one revolution (e.g. -197..76 deg) always reports 0, and only joints
-with more than one revolution of range can show extra revolutions.
-Continuous joints count from zero.
+centred on the joint's range, ``q - (lower + upper) / 2`` in whole revolutions
+rounded half toward zero (:func:`posebridge.kinematics.branches.centred_revolution`:
+the closed window [centre - pi, centre + pi] is revolution 0, so exactly +-180 deg
+from the centre is no extra revolution): a joint whose range spans at most one
+revolution (e.g. -197..76 deg) always reports 0, and only joints with more than
+one revolution of range can show extra revolutions. Continuous joints count from zero.
 
 Seed distance: ``sum_j ((q_j - seed_j) / v_max_j)^2``, the squared joint
 distance weighted by each joint's speed limit, so that metres and radians are
@@ -38,7 +38,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.arrays import BoolArray, FloatArray, Int8Array, Int16Array
-from posebridge.kinematics.branches import label_branches
+from posebridge.kinematics.branches import centred_revolution, label_branches
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, KinematicsInputError
 from posebridge.kinematics.ik.inputs import check_seed
 from posebridge.kinematics.ik.solutions import (
@@ -270,8 +270,8 @@ def finish_rows(
                         within = False
                     if mode == 1.0:
                         # reported revolutions count from the one centred on the range,
-                        # the half-open window [centre - pi, centre + pi)
-                        k = int(np.floor((v - 0.5 * (lower + upper)) / two_pi + 0.5))
+                        # the closed window [centre - pi, centre + pi]
+                        k = centred_revolution(v - 0.5 * (lower + upper))
                     elif mode == 3.0:
                         k = 0
                     value[count, j] = v
