@@ -74,10 +74,10 @@ def _subcommands() -> dict[str, object]:
 def test_readme_command_list_matches_the_parser() -> None:
     block = next(b for b in _code_blocks("") if b.lstrip().startswith("posebridge robots"))
     commands = _subcommands()
-    # deprecated spellings, the executor options and the robot chain options (both described
-    # in the text below the list) and -o|--output
+    # deprecated spellings, the executor options, the robot chain options and --quiet (all
+    # described in the text below the list) and -o|--output
     hidden = {"--all-turns", "--workers", "--scheduler", "--help", "--output"}
-    hidden |= {"--from-link", "--to-link", "--mesh-folder"}
+    hidden |= {"--from-link", "--to-link", "--mesh-folder", "--quiet"}
     for line in block.splitlines():
         words = line.split("#", 1)[0].split()
         if len(words) < 2 or words[0] != "posebridge":

@@ -10,6 +10,7 @@ from posebridge.cli.common import (
     EXIT_OK,
     exit_for_findings,
     joints_argument,
+    load_kernels,
     load_scene,
     parse_numbers,
     print_json,
@@ -21,8 +22,18 @@ from posebridge.cli.options import SharedOptions, joints_or, options
 def _cmd_check(args: argparse.Namespace) -> int:
     from posebridge.cell.checks import check_targets
     from posebridge.cell.report_text import render_target_check
+    from posebridge.geometry.warm import warm_geometry
+    from posebridge.kinematics.warm import warm_kinematics
 
-    report = check_targets(load_scene(args.cell))
+    scene = load_scene(args.cell, quiet=args.quiet)
+    load_kernels(
+        [
+            ("forward and inverse kinematics", lambda: warm_kinematics(scene.robot)),
+            ("clearance", lambda: warm_geometry(scene.robot)),
+        ],
+        quiet=args.quiet,
+    )
+    report = check_targets(scene)
     print_report(report, render_target_check, as_json=args.json)
     return exit_for_findings(report.findings)
 
@@ -32,7 +43,7 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
     from posebridge.cell.joint_log import read_joint_log
     from posebridge.cell.report_text import render_log_diagnosis, render_pose_diagnosis
 
-    scene = load_scene(args.cell)
+    scene = load_scene(args.cell, quiet=args.quiet)
     robot = scene.robot
     if args.log:
         log_result = diagnose_log(scene, read_joint_log(args.log, robot), include_rows=args.json)
@@ -50,7 +61,8 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
 def _cmd_report(args: argparse.Namespace) -> int:
     from posebridge.report import write_report
 
-    write_report(Path(args.cell), Path(args.output))
+    scene = load_scene(args.cell, quiet=args.quiet)
+    write_report(Path(args.cell), Path(args.output), scene=scene)
     print(f"review report written to {args.output}")
     return EXIT_OK
 

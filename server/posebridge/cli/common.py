@@ -11,6 +11,7 @@ import argparse
 import json
 import math
 import sys
+import threading
 from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -18,6 +19,7 @@ from typing import TYPE_CHECKING, Any
 import numpy as np
 
 from posebridge.errors import InputError
+from posebridge.messages import printable
 from posebridge.units import FloatArray, joints_si_from_user
 
 if TYPE_CHECKING:
@@ -91,24 +93,46 @@ def read_numeric_csv(path: str, columns: Sequence[str], what: str) -> FloatArray
         raise CommandLineInputError(str(error)) from error
 
 
+def print_robot_notes(robot: Robot, *, quiet: bool) -> None:
+    """Print the robot's notes (assumed values, unread meshes, ...) on stderr, one per line.
+
+    Nothing unless there are notes, nothing with ``quiet`` (``--quiet``); every command that
+    loads a robot calls this once.
+    """
+    if quiet:
+        return
+    for note in robot.notes:
+        print(f"posebridge: robot note: {printable(note)}", file=sys.stderr)
+
+
 def load_robot_argument(args: argparse.Namespace) -> Robot:
-    """Return the robot named on the command line, its chain chosen and its meshes fitted."""
+    """Return the robot named on the command line, its chain chosen and its meshes fitted.
+
+    Its notes are printed on stderr (:func:`print_robot_notes`).
+    """
     from posebridge.geometry.robot_meshes import load_robot_with_meshes
 
-    return load_robot_with_meshes(
+    robot = load_robot_with_meshes(
         args.robot,
         from_link=args.from_link,
         to_link=args.to_link,
         mesh_folders=[Path(folder) for folder in args.mesh_folder],
     )
+    print_robot_notes(robot, quiet=args.quiet)
+    return robot
 
 
-def load_scene(cell_argument: str) -> Any:
-    """Return the resolved scene (SI arrays) of the cell file named on the command line."""
+def load_scene(cell_argument: str, *, quiet: bool) -> Any:
+    """Return the resolved scene (SI arrays) of the cell file named on the command line.
+
+    Its robot's notes are printed on stderr unless ``quiet`` (:func:`print_robot_notes`).
+    """
     from posebridge.cell import load_cell, resolve_scene
 
     path = Path(cell_argument)
-    return resolve_scene(load_cell(path), path)
+    scene = resolve_scene(load_cell(path), path)
+    print_robot_notes(scene.robot, quiet=quiet)
+    return scene
 
 
 # ---------------------------------------------------------------- output
@@ -146,15 +170,26 @@ def exit_for_findings(findings: Sequence[Any]) -> int:
 
 
 class ProgressBar:
-    """A one-line progress bar on stderr, ``progress(done, total)`` style."""
+    """Progress on stderr, ``progress(done, total)`` style.
+
+    A one-line bar on a terminal; else (piped, logged) a line ``label 12/40`` at each further
+    tenth of the work and at the end.
+    """
 
     def __init__(self, label: str, *, enabled: bool) -> None:
         self.label = label
-        self.enabled = enabled and sys.stderr.isatty()
+        self.enabled = enabled
+        self.tenths_shown = -1
 
     def __call__(self, done: int, total: int) -> None:
         """Draw the bar at ``done`` of ``total`` on stderr (nothing when disabled)."""
         if not self.enabled or total <= 0:
+            return
+        if not sys.stderr.isatty():
+            tenths = 10 * done // total
+            if tenths > self.tenths_shown:
+                self.tenths_shown = tenths
+                print(f"{self.label} {done}/{total}", file=sys.stderr, flush=True)
             return
         width = 30
         filled = int(width * done / total)
@@ -162,6 +197,47 @@ class ProgressBar:
         if done >= total:
             sys.stderr.write("\n")
         sys.stderr.flush()
+
+
+KERNEL_ANNOUNCE_AFTER_S = 2.0
+"""A kernel-loading step still running after this long is announced on stderr (a cached
+load takes about a second, the first compile after installing minutes)."""
+
+
+def load_kernels(steps: Sequence[tuple[str, Callable[[], None]]], *, quiet: bool) -> None:
+    """Run a command's kernel warm-up ``steps`` (name, call) before it computes.
+
+    Each step that takes longer than :data:`KERNEL_ANNOUNCE_AFTER_S` is announced on stderr,
+    also when it is not a terminal (at most one line per step, and one when all are loaded),
+    so a first run that compiles for minutes is not silent; ``quiet`` says nothing.
+    """
+    announced = threading.Event()
+
+    def say(text: str) -> None:
+        announced.set()
+        print(f"posebridge: {text}", file=sys.stderr, flush=True)
+
+    for number, (name, run) in enumerate(steps, start=1):
+        text = (
+            f"kernels {number}/{len(steps)}: {name} (compiled on the first run after "
+            "installing, loaded from the cache afterwards)"
+        )
+        timer = None
+        if not quiet:
+            if KERNEL_ANNOUNCE_AFTER_S <= 0.0:
+                say(text)
+            else:
+                timer = threading.Timer(KERNEL_ANNOUNCE_AFTER_S, say, args=(text,))
+                timer.daemon = True
+                timer.start()
+        try:
+            run()
+        finally:
+            if timer is not None:
+                timer.cancel()
+                timer.join()
+    if announced.is_set():
+        say("kernels: all loaded")
 
 
 def executor_from(args: argparse.Namespace, warm_up: Callable[[], None]) -> Any:

@@ -20,15 +20,26 @@ def options() -> argparse.ArgumentParser:
     return argparse.ArgumentParser(add_help=False)
 
 
+def _add_quiet(parent: argparse.ArgumentParser) -> None:
+    """``--quiet``: of the commands that load a robot (directly or through a cell)."""
+    parent.add_argument(
+        "--quiet",
+        action="store_true",
+        help="do not print the robot's notes (assumed values, unread meshes) or the "
+        "kernel-loading progress on stderr",
+    )
+
+
 @dataclass(frozen=True)
 class SharedOptions:
     """The parent parsers of the options several commands take (made by ``build``)."""
 
     robot: argparse.ArgumentParser
-    """Positional ``robot`` (a bundled robot name or a .toml, robot overlay or .urdf path) and
-    the chain choice ``--from-link``/``--to-link`` and ``--mesh-folder`` of URDF robots."""
+    """Positional ``robot`` (a bundled robot name or a .toml, robot overlay or .urdf path),
+    the chain choice ``--from-link``/``--to-link`` and ``--mesh-folder`` of URDF robots, and
+    ``--quiet`` (the robot's notes are not printed)."""
     cell: argparse.ArgumentParser
-    """Positional ``cell``: a cell file."""
+    """Positional ``cell``: a cell file; and ``--quiet`` (its robot's notes are not printed)."""
     tool: argparse.ArgumentParser
     """``--tool x,y,z,roll,pitch,yaw`` in the flange frame (mm, deg)."""
     executor: argparse.ArgumentParser
@@ -61,8 +72,10 @@ class SharedOptions:
             help="folder to look for mesh files in (package://NAME/... as FOLDER/NAME/...); "
             "repeatable",
         )
+        _add_quiet(robot)
         cell = options()
         cell.add_argument("cell", help="cell file (JSON)")
+        _add_quiet(cell)
         tool = options()
         tool.add_argument(
             "--tool", help='tool in the flange frame "x,y,z,roll,pitch,yaw" (default: the robot\'s)'

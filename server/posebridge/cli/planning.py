@@ -92,7 +92,7 @@ def _cmd_paths(args: argparse.Namespace) -> int:
     from posebridge.planning.path_check import check_path
     from posebridge.planning.reports import render_path_check
 
-    scene = load_scene(args.cell)
+    scene = load_scene(args.cell, quiet=args.quiet)
     if args.path is not None:
         _path_index(scene, args.path)
     chosen = [i for i, p in enumerate(scene.paths) if args.path in (None, p.name)]
@@ -117,7 +117,7 @@ def _cmd_export(args: argparse.Namespace) -> int:
         raise CommandLineInputError(
             f"-o/--output: expected a .csv or .json file, got {args.output!r}"
         )
-    scene = load_scene(args.cell)
+    scene = load_scene(args.cell, quiet=args.quiet)
     report = export_motion(
         scene,
         _path_index(scene, args.path),
@@ -145,7 +145,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     from posebridge.planning.reports import render_joint_plan
     from posebridge.planning.rrt import plan_joint_move
 
-    scene = load_scene(args.cell)
+    scene = load_scene(args.cell, quiet=args.quiet)
     robot = scene.robot
     start = joints_argument(args.start, "--from", robot)
     goal = joints_argument(args.goal, "--to", robot)
@@ -160,7 +160,7 @@ def _cmd_place(args: argparse.Namespace) -> int:
     from posebridge.planning.reports import render_placement
     from posebridge.units import deg_from_rad, mm_from_m
 
-    scene = load_scene(args.cell)
+    scene = load_scene(args.cell, quiet=args.quiet)
     grid = None
     if args.grid:
         around = PlacementGrid.around(scene)

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import argparse
-from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -16,7 +15,9 @@ from posebridge.cli.common import (
     finite_or_none,
     format_row,
     joints_argument,
+    load_kernels,
     load_robot_argument,
+    load_scene,
     print_json,
 )
 from posebridge.cli.options import SharedOptions, options
@@ -31,6 +32,9 @@ def _cmd_reach(args: argparse.Namespace) -> int:
     robot = load_robot_argument(args)
     if not 5.0 <= args.voxel_mm <= 1000.0:
         raise CommandLineInputError(f"--voxel-mm: expected 5..1000, got {args.voxel_mm:g}")
+    load_kernels(
+        [("forward and inverse kinematics", lambda: warm_kinematics(robot))], quiet=args.quiet
+    )
     planar = planar_reach_summary(robot)
     if planar is not None:
         planar = {"robot": args.robot, **planar}
@@ -78,15 +82,15 @@ def _cmd_reach(args: argparse.Namespace) -> int:
 
 def _cmd_jointmap(args: argparse.Namespace) -> int:
     from posebridge.api.schemas.maps import joint_map_result
-    from posebridge.cell import load_cell, resolve_scene
     from posebridge.cell.clearance import clearance_scene
     from posebridge.cell.files import cell_etag
     from posebridge.geometry.warm import warm_geometry
+    from posebridge.kinematics.warm import warm_kinematics
     from posebridge.spaces.joint_map import joint_map
     from posebridge.units import joint_unit_labels
 
-    cell = load_cell(args.cell)
-    scene = resolve_scene(cell, Path(args.cell))
+    scene = load_scene(args.cell, quiet=args.quiet)
+    cell = scene.cell
     robot = scene.robot
     names = [n.strip() for n in args.joints.split(",")]
     unknown = [n for n in names if n not in robot.joint_names]
@@ -96,6 +100,13 @@ def _cmd_jointmap(args: argparse.Namespace) -> int:
         )
     q_hold = (
         joints_argument(args.hold, "--hold", robot) if args.hold else robot.home_configuration()
+    )
+    load_kernels(
+        [
+            ("forward and inverse kinematics", lambda: warm_kinematics(robot)),
+            ("clearance and joint maps", lambda: warm_geometry(robot)),
+        ],
+        quiet=args.quiet,
     )
     with executor_from(args, warm_geometry) as executor:
         computed = joint_map(

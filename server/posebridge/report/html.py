@@ -408,6 +408,7 @@ def build_report(
     map_joints: Sequence[str] | None = None,
     map_resolution: int = DEFAULT_MAP_RESOLUTION,
     generated: datetime | None = None,
+    scene: Scene | None = None,
 ) -> str:
     """Build the review report of a cell as one self-contained HTML document.
 
@@ -421,6 +422,9 @@ def build_report(
         Cells per axis of the joint map (2..512).
     generated : datetime, optional, keyword-only
         Time stamp printed in the report; now if omitted.
+    scene : Scene, optional, keyword-only
+        The resolved scene of ``cell_path`` when the caller has loaded it already; read from
+        ``cell_path`` if omitted.
 
     Returns
     -------
@@ -436,7 +440,8 @@ def build_report(
         cell's comment file exists but cannot be read.
     """
     path = Path(cell_path)
-    scene = resolve_scene(load_cell(path), path)
+    if scene is None:
+        scene = resolve_scene(load_cell(path), path)
     pair = _map_joint_indices(scene, map_joints)
     check = check_targets(scene)
     shown = _shown_configuration(scene, check)
@@ -475,12 +480,14 @@ def write_report(
     *,
     map_joints: Sequence[str] | None = None,
     map_resolution: int = DEFAULT_MAP_RESOLUTION,
+    scene: Scene | None = None,
 ) -> Path:
     """Build the report of ``cell_path`` and write it to ``output_path`` atomically.
 
     The text goes to a temporary file in the output folder, is flushed to
     disk and renamed over ``output_path``, so a failed run never leaves a
-    half-written report.
+    half-written report. ``map_joints``, ``map_resolution`` and ``scene`` are those of
+    :func:`build_report`.
 
     Returns
     -------
@@ -495,7 +502,9 @@ def write_report(
     output = Path(output_path)
     if not output.parent.is_dir():
         raise ReportError(f"output: folder {str(output.parent)!r} does not exist")
-    text = build_report(cell_path, map_joints=map_joints, map_resolution=map_resolution)
+    text = build_report(
+        cell_path, map_joints=map_joints, map_resolution=map_resolution, scene=scene
+    )
     temporary = output.with_name(f".{output.name}.{secrets.token_hex(6)}.tmp")
     try:
         # created like any new file (mode 0o666 less the umask), never over an existing one
