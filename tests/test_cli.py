@@ -138,6 +138,17 @@ def test_ik_planar2r_gives_both_elbow_branches(capsys: pytest.CaptureFixture[str
 ALL_REVOLUTIONS_POSE = "900,0,800,180,0,0"
 
 
+def test_ik_text_names_the_joints_of_the_solution_rows(capsys: pytest.CaptureFixture[str]) -> None:
+    code, out, err = run(capsys, "ik", "pb-planar2r", "--pose", "500,200,0,0,0,0")
+    assert code == 0, err
+    lines = out.splitlines()
+    header = next(i for i, line in enumerate(lines) if "joints" in line)
+    # our own contract: a header names each column (joint names and units from
+    # pb-planar2r.toml), then one row per solution
+    assert lines[header].strip() == "[branch] joints j1 (deg), j2 (deg)"
+    assert len(lines) - header - 1 == 2  # two elbow branches of a 2R arm (closed form)
+
+
 def test_ik_all_revolutions_lists_every_in_limit_revolution(
     capsys: pytest.CaptureFixture[str],
 ) -> None:

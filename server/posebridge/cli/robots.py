@@ -132,6 +132,11 @@ def _cmd_ik(args: argparse.Namespace) -> int:
             continue
         if result.reason:
             print(f"  note: {result.reason}")
+        columns = (
+            f"{name} ({unit})"
+            for name, unit in zip(result.joint_names, result.joint_units, strict=True)
+        )
+        print(f"  [branch] joints {', '.join(columns)}")
         for s in result.solutions:
             flag = "within limits" if s.within_limits else "OUTSIDE LIMITS"
             print(
