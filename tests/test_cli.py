@@ -277,6 +277,10 @@ def test_paths_report_the_demo_collision(capsys: pytest.CaptureFixture[str]) -> 
     (report,) = reports
     assert not report["ok"]
     assert any(f["kind"] == "collision" for f in report["findings"])
+    # findings with a cause are grouped by (severity, kind, cause): the counts add up to the
+    # findings that have one (our own contract)
+    with_cause = [f for f in report["findings"] if f["cause"] is not None]
+    assert sum(g["count"] for g in report["finding_groups"]) == len(with_cause)
     # the total is the sum of the segment times (our own contract)
     assert report["cycle_time_s"] == pytest.approx(sum(s["duration_s"] for s in report["segments"]))
 

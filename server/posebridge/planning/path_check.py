@@ -76,6 +76,8 @@ from posebridge.planning.reports import (
     SegmentReport,
     Severity,
     WaypointReport,
+    group_path_findings,
+    path_finding_cause,
 )
 from posebridge.planning.time_scaling import path_speed_limit
 from posebridge.units import (
@@ -168,6 +170,9 @@ class _SegmentFindings:
                 position_mm=position_mm,
                 position_deg=position_deg,
                 message=message,
+                cause=path_finding_cause(
+                    details.get("capsule"), details.get("obstacle"), details.get("joint")
+                ),
                 **details,  # type: ignore[arg-type]
             )
         )
@@ -584,6 +589,7 @@ def check_sampled_path(
         waypoints=waypoints,
         segments=segments,
         findings=findings,
+        finding_groups=group_path_findings(findings),
         cycle_time_s=_optional(timing.total),
         linear_acceleration_mm_s2=float(mm_from_m(timing.linear_acceleration)),
         jerk_limited=timing.jerk_limited,

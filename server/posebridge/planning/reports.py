@@ -24,6 +24,8 @@ Roles:
 
 from __future__ import annotations
 
+import math
+from collections.abc import Sequence
 from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
@@ -120,6 +122,61 @@ class PathFinding(_Report):
     speed_mm_s: float | None = Field(
         default=None, description="Highest feasible TCP speed (speed limit findings)."
     )
+    cause: str | None = Field(
+        default=None,
+        description="What the finding is about, for grouping: the pair ('gripper-body – "
+        "press-die') of a collision or clearance finding, the joint of a limit finding.",
+    )
+
+
+class PathFindingGroup(_Report):
+    """Path findings of one kind with one cause (an object pair, a joint), counted, with the
+    worst one."""
+
+    severity: Severity
+    kind: FindingKind
+    cause: str = Field(
+        description="The pair ('gripper-body – press-die') of a collision or clearance "
+        "finding, the joint of a limit finding."
+    )
+    count: int = Field(description="How many findings share this severity, kind and cause.")
+    worst: PathFinding = Field(
+        description="The one with the smallest distance_mm (else angle_deg): the deepest "
+        "penetration, the smallest clearance or margin."
+    )
+
+
+def path_finding_cause(capsule: object, obstacle: object, joint: object) -> str | None:
+    """What a path finding is about, for grouping: ``"capsule – obstacle"`` when it names a
+    pair, else its joint; ``None`` when it names neither (not grouped)."""
+    if capsule is not None and obstacle is not None:
+        return f"{capsule} – {obstacle}"
+    return None if joint is None else str(joint)
+
+
+def group_path_findings(findings: Sequence[PathFinding]) -> list[PathFindingGroup]:
+    """Path findings with a cause grouped by (severity, kind,
+    cause), in first-seen order, each with its count and its worst finding (smallest
+    ``distance_mm``, else smallest ``angle_deg``; the first one of a group without values)."""
+    groups: dict[tuple[str, str, str], list[PathFinding]] = {}
+    for finding in findings:
+        if finding.cause is not None:
+            groups.setdefault((finding.severity, finding.kind, finding.cause), []).append(finding)
+
+    def badness(finding: PathFinding) -> float:
+        value = finding.distance_mm if finding.distance_mm is not None else finding.angle_deg
+        return math.inf if value is None else value
+
+    return [
+        PathFindingGroup(
+            severity=members[0].severity,
+            kind=members[0].kind,
+            cause=cause,
+            count=len(members),
+            worst=min(members, key=badness),
+        )
+        for (_, _, cause), members in groups.items()
+    ]
 
 
 class WaypointReport(_Report):
@@ -199,6 +256,10 @@ class PathCheckReport(_Report):
     waypoints: list[WaypointReport]
     segments: list[SegmentReport]
     findings: list[PathFinding]
+    finding_groups: list[PathFindingGroup] = Field(
+        default=[],
+        description="Findings of one cause (object pair, joint) counted, with the worst one.",
+    )
     cycle_time_s: float | None = Field(
         description="Rest-to-rest cycle time (the upper bound): sum of the segment durations; "
         "null if any is missing."
@@ -544,13 +605,28 @@ def render_path_check(report: PathCheckReport) -> str:
     )
     if report.findings:
         lines += ["", "Findings:"]
+        repeated = {
+            (g.severity, g.kind, g.cause): g
+            for g in group_path_findings(report.findings)
+            if g.count > 1
+        }
+        shown: set[tuple[str, str, str]] = set()
         for f in report.findings:
+            key = (f.severity, f.kind, f.cause or "")
+            count = ""
+            if key in repeated:
+                if key in shown:
+                    continue
+                shown.add(key)
+                group = repeated[key]
+                count = f"{group.count} x, worst "
+                f = group.worst
             where = (
                 f"seg {f.segment_index} at {100.0 * f.fraction_worst:.0f} %"
                 if f.segment_index is not None
                 else "path"
             )
-            lines.append(f"  [{f.severity}] {f.kind} ({where}): {f.message}")
+            lines.append(f"  [{f.severity}] {count}{f.kind} ({where}): {f.message}")
     if report.robot_geometry_missing:
         lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
     return "\n".join(lines)
