@@ -183,12 +183,31 @@ export function createPathPanel({ container, store, actions, api, onUseSequence 
         element("tbody", {}, rows),
       ]),
     );
+    // findings of one kind and cause (an object pair, a joint) that repeat: one item with the
+    // count and the worst instance (the server's finding_groups)
+    const groupKey = (finding) => `${finding.severity}|${finding.kind}|${finding.cause}`;
+    const repeated = new Map(
+      (report.finding_groups || []).filter((group) => group.count > 1).map((group) => [groupKey(group), group]),
+    );
+    const shown = new Set();
+    const listed = [];
+    for (const finding of report.findings) {
+      const group = finding.cause ? repeated.get(groupKey(finding)) : undefined;
+      if (group && shown.has(groupKey(finding))) {
+        continue;
+      }
+      if (group) {
+        shown.add(groupKey(finding));
+      }
+      listed.push({ finding: group ? group.worst : finding, count: group ? group.count : 1 });
+    }
     findings.replaceChildren(
-      ...report.findings.map((finding) => {
+      ...listed.map(({ finding, count }) => {
         const where = finding.segment_index === null ? "" : `segment ${finding.segment_index + 1} at ${formatNumber(100 * finding.fraction_worst, { decimals: 0 })} %: `;
-        const item = element("li", { attributes: { "data-severity": finding.severity, tabindex: "0" } }, [
+        const times = count > 1 ? `${count} × ${finding.cause}, worst at ` : "";
+        const item = element("li", { attributes: { "data-severity": finding.severity, "data-count": String(count), tabindex: "0" } }, [
           element("span", { className: "pb-severity", text: finding.severity }),
-          ` ${where}${finding.message}`,
+          ` ${times}${where}${finding.message}`,
         ]);
         const place = findingPlace(report, finding);
         if (place) {
