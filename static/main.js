@@ -9,6 +9,7 @@ import { createMaps } from "./maps.js";
 import { createMeshFixtures } from "./meshes.js";
 import { createPathCurve } from "./pathcurve.js";
 import { createJobPacer } from "./pacing.js";
+import { createKernelProgress } from "./kernels.js";
 import { createReachSections } from "./reach.js";
 import { readPalette } from "./palette.js";
 import { createStore, initialState } from "./state.js";
@@ -67,6 +68,7 @@ async function start() {
     onRobotChosen: showRobot,
   });
   createArmStatus({ element: byId("arm-state"), summary: byId("arm-summary"), store });
+  createKernelProgress({ api, store, element: byId("kernel-progress") });
   createCellPanel({
     container: byId("cell-panel"),
     store,

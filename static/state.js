@@ -55,6 +55,8 @@
  *   showCapsules    draw the robot's fitted collision capsules instead of its meshes
  *   reachPlan       horizontal reach section at the target (ReachSectionResult + requested_mm) or null
  *   reachElevation  vertical reach section at the target, or null
+ *   kernels         {ready, done, total, current} of the server's kernel loading (GET /api/health,
+ *                   kernels.js), or null before its first answer
  */
 export function initialState() {
   return {
@@ -100,6 +102,7 @@ export function initialState() {
     showCapsules: false,
     reachPlan: null,
     reachElevation: null,
+    kernels: null,
   };
 }
 
