@@ -53,6 +53,7 @@ __all__ = [
     "planar_reach_summary",
     "planar_reachable",
     "planar_region_area",
+    "planar_section_mask",
 ]
 
 _TWO_PI = 2.0 * np.pi
@@ -456,3 +457,64 @@ def planar_reach_summary(robot: Robot) -> dict[str, object] | None:
         if robot.dof == 2
         else "exact membership test on a 5 mm grid",
     }
+
+
+def planar_section_mask(
+    robot: Robot,
+    *,
+    axis: str,
+    value_m: float,
+    u_m: npt.ArrayLike,
+    v_m: npt.ArrayLike,
+    T_world_base: npt.ArrayLike,
+    T_flange_tool: npt.ArrayLike | None = None,
+    half_thickness_m: float,
+) -> BoolArray | None:
+    """Which cells of a reach section (world frame) hold the region a planar arm reaches in its
+    plane; None for any other robot.
+
+    A cell counts when its centre lies within ``half_thickness_m`` (half a voxel) of the
+    arm's TCP plane and the centre's projection onto the plane is reachable
+    (:func:`planar_reachable`): the plan section through the plane shows the exact region
+    (the annulus of a two-link arm with full turns), an elevation shows one row of cells.
+    A voxel reach map of a planar arm counts every height, because its IK ignores the
+    out-of-plane components; this mask keeps the section in agreement with
+    :func:`planar_reach`.
+
+    Parameters
+    ----------
+    robot : Robot
+    axis : "x", "y" or "z"
+        The axis normal to the section (as in ``spaces.workspace.reach_section``).
+    value_m : float
+        World coordinate of the section along ``axis``, m.
+    u_m, v_m : array-like, shapes (U,), (V,)
+        Cell-centre coordinates along the section's axes (z: x and y; y: x and z;
+        x: y and z), m.
+    T_world_base : array-like, shape (4, 4)
+    T_flange_tool : array-like, shape (4, 4), optional
+        The robot's default tool if omitted.
+    half_thickness_m : float
+        Largest distance of a cell centre from the plane, m.
+
+    Returns
+    -------
+    mask : array of bool, shape (V, U), or None
+    """
+    try:
+        chain = PlanarChain.from_robot(robot, T_flange_tool)
+    except SpacesInputError:
+        return None
+    u, v = np.meshgrid(np.asarray(u_m, float), np.asarray(v_m, float), indexing="xy")
+    value = np.full_like(u, value_m)
+    world = {
+        "z": (u, v, value),
+        "y": (u, value, v),
+        "x": (value, u, v),
+    }[axis]
+    points = np.stack([*world, np.ones_like(u)], axis=-1).reshape(-1, 4)
+    base = points @ np.linalg.inv(np.asarray(T_world_base, float)).T
+    in_plane = np.abs(base[:, 2] - chain.height) <= half_thickness_m
+    reachable = np.zeros(base.shape[0], dtype=bool)
+    reachable[in_plane] = planar_reachable(chain, base[in_plane, :2])
+    return reachable.reshape(u.shape)

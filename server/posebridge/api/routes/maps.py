@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import threading
 from collections.abc import Callable
+from dataclasses import replace
 
 import numpy as np
 from fastapi import APIRouter, HTTPException, Request
@@ -27,6 +28,7 @@ from posebridge.api.schemas.maps import (
     reach_section_result,
 )
 from posebridge.spaces.joint_map import joint_map
+from posebridge.spaces.planar_boundary import planar_section_mask
 from posebridge.spaces.workspace import (
     reach_map,
     reach_section,
@@ -159,6 +161,22 @@ def start_reach_section(
             cancel=cancel,
         )
         section = reach_section(computed, axis=body.axis, value_m=value)
+        planar = planar_section_mask(
+            scene.robot,
+            axis=body.axis,
+            value_m=float(m_from_mm(section.value_mm)),
+            u_m=m_from_mm(section.u_mm),
+            v_m=m_from_mm(section.v_mm),
+            T_world_base=scene.T_world_base,
+            T_flange_tool=scene.T_flange_tool,
+            half_thickness_m=0.5 * voxel,
+        )
+        if planar is not None:  # a planar arm reaches its plane only
+            section = replace(
+                section,
+                count=np.where(planar, section.count, 0).astype(np.int16),
+                best_manipulability=np.where(planar, section.best_manipulability, np.nan),
+            )
         return reach_section_result(section, tool_directions().shape[0], snapshot.etag)
 
     return start_job(jobs, "reach-section", request, work)
