@@ -117,7 +117,9 @@ def test_length_column_gives_each_move_its_own_unit() -> None:
     header = next(i for i, line in enumerate(lines) if line.startswith("seg"))
     # our own contract: the column is "length" (no unit in its title); a joint move shows its
     # joint travel in deg, a linear move its TCP length in mm (values given above)
-    assert " length " in lines[header] and "mm" not in lines[header].split("time s")[0]
+    assert " length " in lines[header]
+    assert "mm" not in lines[header].split("time s")[0]
     joint_row, linear_row = lines[header + 2], lines[header + 3]
-    assert "90.0 deg joint travel" in joint_row and " mm " not in joint_row.split("deg")[0]
+    assert "90.0 deg joint travel" in joint_row
+    assert " mm " not in joint_row.split("deg")[0]
     assert "250.0 mm" in linear_row

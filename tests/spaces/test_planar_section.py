@@ -45,7 +45,8 @@ def test_plan_section_through_the_plane_is_the_annulus() -> None:
     clear = (np.abs(r - INNER_M) > 1e-3) & (np.abs(r - OUTER_M) > 1e-3)
     expected = (r >= INNER_M) & (r <= OUTER_M)  # closed form above
     assert np.array_equal(mask[clear], expected[clear])
-    assert mask.any() and not mask.all()
+    assert mask.any()
+    assert not mask.all()
 
 
 def test_sections_off_the_plane_are_empty_and_an_elevation_is_one_row() -> None:

@@ -130,8 +130,10 @@ class PathFinding(_Report):
 
 
 class PathFindingGroup(_Report):
-    """Path findings of one kind with one cause (an object pair, a joint), counted, with the
-    worst one."""
+    """Path findings of one kind with one cause (an object pair, a joint), with the worst one.
+
+    ``count`` says how many share severity, kind and cause.
+    """
 
     severity: Severity
     kind: FindingKind
@@ -147,17 +149,22 @@ class PathFindingGroup(_Report):
 
 
 def path_finding_cause(capsule: object, obstacle: object, joint: object) -> str | None:
-    """What a path finding is about, for grouping: ``"capsule – obstacle"`` when it names a
-    pair, else its joint; ``None`` when it names neither (not grouped)."""
+    """Return what a path finding is about, for grouping.
+
+    ``"capsule – obstacle"`` when it names a pair, else its joint; ``None`` when it names
+    neither (not grouped).
+    """
     if capsule is not None and obstacle is not None:
         return f"{capsule} – {obstacle}"
     return None if joint is None else str(joint)
 
 
 def group_path_findings(findings: Sequence[PathFinding]) -> list[PathFindingGroup]:
-    """Path findings with a cause grouped by (severity, kind,
-    cause), in first-seen order, each with its count and its worst finding (smallest
-    ``distance_mm``, else smallest ``angle_deg``; the first one of a group without values)."""
+    """Group path findings that have a cause by (severity, kind, cause), in first-seen order.
+
+    Each group has its count and its worst finding (smallest ``distance_mm``, else smallest
+    ``angle_deg``; the first one of a group without values).
+    """
     groups: dict[tuple[str, str, str], list[PathFinding]] = {}
     for finding in findings:
         if finding.cause is not None:

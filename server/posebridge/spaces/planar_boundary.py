@@ -470,8 +470,9 @@ def planar_section_mask(
     T_flange_tool: npt.ArrayLike | None = None,
     half_thickness_m: float,
 ) -> BoolArray | None:
-    """Which cells of a reach section (world frame) hold the region a planar arm reaches in its
-    plane; None for any other robot.
+    """Return which cells of a reach section (world frame) a planar arm reaches in its plane.
+
+    None for any other robot.
 
     A cell counts when its centre lies within ``half_thickness_m`` (half a voxel) of the
     arm's TCP plane and the centre's projection onto the plane is reachable
