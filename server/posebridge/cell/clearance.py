@@ -37,12 +37,13 @@ from __future__ import annotations
 import threading
 import weakref
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Literal
 
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.cell.scene import BoxSet, CylinderSet, MeshSet, Scene
+from posebridge.cell.scene import BoxSet, CylinderSet, MeshSet, Scene, posed_scene
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch
 from posebridge.geometry.self_pairs import self_collision_pairs
 from posebridge.geometry.shapes import (
@@ -66,6 +67,7 @@ __all__ = [
     "ObstacleKind",
     "cell_arm",
     "cell_obstacles",
+    "clearance_along",
     "clearance_scene",
     "clearance_to_cell",
     "fixture_count",
@@ -169,13 +171,52 @@ def obstacle_kinds(scene: Scene) -> list[ObstacleKind]:
     return kinds
 
 
-@dataclass(frozen=True, eq=False)
 class _Built:
-    """The clearance scenes of one cell: everything, obstacles only, self pairs only."""
+    """The clearance scenes of one cell: everything, obstacles only, self pairs only.
 
-    everything: ClearanceScene
-    environment: ClearanceScene
-    self_only: ClearanceScene
+    Each is built on first use: a scene posed for one path sample needs only its
+    obstacles, and the self pairs (a sampling of the arm) are the costly part.
+    """
+
+    def __init__(self, scene: Scene) -> None:
+        self.arm = cell_arm(scene)
+        self.obstacles = cell_obstacles(scene)
+        mask = default_pair_mask(self.arm, self.obstacles)
+        first_pedestal = fixture_count(scene) + len(scene.keep_outs.names)
+        mask[self.arm.link == 0, first_pedestal : first_pedestal + len(scene.pedestal.names)] = (
+            False
+        )
+        if scene.external.track is not None:  # the base stands on the track's carriage
+            carriage = f"{scene.external.names[0]} carriage"
+            rows = [i for i, name in enumerate(scene.boxes.names) if name == carriage]
+            mask[self.arm.link == 0, rows] = False
+        self.mask = mask
+        self.T_world_base = scene.T_world_base
+
+    def _scene(self, pairs: IntArray, mask: BoolArray) -> ClearanceScene:
+        return ClearanceScene.build(
+            self.arm, self.obstacles, self.T_world_base, self_pairs=pairs, pair_mask=mask
+        )
+
+    @cached_property
+    def pairs(self) -> IntArray:
+        """Self pairs of the arm, shape (P, 2)."""
+        return self_collision_pairs(self.arm, samples=SELF_PAIR_SAMPLES, seed=0)
+
+    @cached_property
+    def everything(self) -> ClearanceScene:
+        """Obstacles and self pairs."""
+        return self._scene(self.pairs, self.mask)
+
+    @cached_property
+    def environment(self) -> ClearanceScene:
+        """Obstacles only."""
+        return self._scene(np.empty((0, 2), dtype=np.int64), self.mask)
+
+    @cached_property
+    def self_only(self) -> ClearanceScene:
+        """Self pairs only."""
+        return self._scene(self.pairs, np.zeros_like(self.mask))
 
 
 _BUILT: weakref.WeakKeyDictionary[Scene, _Built] = weakref.WeakKeyDictionary()
@@ -183,35 +224,11 @@ _BUILT: weakref.WeakKeyDictionary[Scene, _Built] = weakref.WeakKeyDictionary()
 _BUILT_LOCK = threading.Lock()
 
 
-def _build(scene: Scene) -> _Built:
-    arm = cell_arm(scene)
-    obstacles = cell_obstacles(scene)
-    mask = default_pair_mask(arm, obstacles)
-    first_pedestal = fixture_count(scene) + len(scene.keep_outs.names)
-    mask[arm.link == 0, first_pedestal : first_pedestal + len(scene.pedestal.names)] = False
-    if scene.external.track is not None:  # the base stands on the track's carriage
-        carriage = f"{scene.external.names[0]} carriage"
-        mask[arm.link == 0, [i for i, name in enumerate(scene.boxes.names) if name == carriage]] = (
-            False
-        )
-    pairs = self_collision_pairs(arm, samples=SELF_PAIR_SAMPLES, seed=0)
-    full = ClearanceScene.build(
-        arm, obstacles, scene.T_world_base, self_pairs=pairs, pair_mask=mask
-    )
-    environment = ClearanceScene.build(
-        arm, obstacles, scene.T_world_base, self_pairs=np.empty((0, 2)), pair_mask=mask
-    )
-    self_only = ClearanceScene.build(
-        arm, obstacles, scene.T_world_base, self_pairs=pairs, pair_mask=np.zeros_like(mask)
-    )
-    return _Built(full, environment, self_only)
-
-
 def _built(scene: Scene) -> _Built:
     with _BUILT_LOCK:
         built = _BUILT.get(scene)
         if built is None:
-            built = _build(scene)
+            built = _Built(scene)
             _BUILT[scene] = built
         return built
 
@@ -317,4 +334,64 @@ def clearance_to_cell(
         capsule_names=chosen.arm.names,
         obstacle_names=chosen.obstacles.names,
         obstacle_kinds=tuple(obstacle_kinds(scene)),
+    )
+
+
+def clearance_along(
+    scene: Scene, q: npt.ArrayLike, external: npt.ArrayLike, *, scope: ClearanceScope = "all"
+) -> CellClearance:
+    """:func:`clearance_to_cell` with the external axes at each configuration's own values.
+
+    The scene provider of a path check: configurations are grouped by their
+    external values and each group is checked in the scene posed there
+    (:func:`~posebridge.cell.scene.posed_scene`: the track moves the base and its
+    carriage, a turntable its fixtures). A cell without external axes, or a group
+    at the scene's own values, is checked in ``scene`` itself.
+
+    Parameters
+    ----------
+    scene : Scene
+    q : array-like, shape (N, n)
+        Joint values, rad or m.
+    external : array-like, shape (N, m)
+        External axis values of each configuration, m or rad.
+    scope : "all", "environment" or "self", keyword-only
+
+    Returns
+    -------
+    CellClearance
+        Rows in the order of ``q``.
+    """
+    q = np.asarray(q, dtype=np.float64).reshape(-1, scene.robot.dof)
+    values = np.asarray(external, dtype=np.float64).reshape(len(q), scene.external.count)
+    if len(q) == 0 or scope == "self" or scene.external.count == 0:
+        return clearance_to_cell(scene, q, scope=scope)  # self pairs do not see the axes
+    distinct, group = np.unique(values, axis=0, return_inverse=True)
+    group = group.ravel()
+    parts = [
+        (rows, clearance_to_cell(posed_scene(scene, distinct[g]), q[rows], scope=scope))
+        for g in range(len(distinct))
+        for rows in [np.flatnonzero(group == g)]
+    ]
+    first = parts[0][1]
+    distance = np.empty(len(q))
+    capsule = np.empty(len(q), dtype=np.int64)
+    other = np.empty(len(q), dtype=np.int64)
+    is_self = np.empty(len(q), dtype=bool)
+    witness = np.empty((len(q), 2, 3))
+    for rows, part in parts:
+        distance[rows] = part.distance
+        capsule[rows] = part.capsule
+        other[rows] = part.other
+        is_self[rows] = part.is_self
+        witness[rows] = part.witness_world
+    return CellClearance(
+        distance=distance,
+        capsule=capsule,
+        other=other,
+        is_self=is_self,
+        witness_world=witness,
+        capsule_names=first.capsule_names,
+        obstacle_names=first.obstacle_names,
+        obstacle_kinds=first.obstacle_kinds,
     )

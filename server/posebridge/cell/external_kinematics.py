@@ -60,6 +60,7 @@ __all__ = [
     "AxisIntervals",
     "ExternalChoice",
     "branch_triples",
+    "carrier_axis",
     "choose_external_value",
     "feasible_intervals",
     "fk_cell_tool",
@@ -110,7 +111,7 @@ def fk_cell_tool(scene: Scene, q: npt.ArrayLike, external: npt.ArrayLike) -> Flo
     return T_world_base @ T_base_tool
 
 
-def _carrier(scene: Scene, target: int) -> int:
+def carrier_axis(scene: Scene, target: int) -> int:
     """External-vector index of the table carrying ``target``, -1 for none."""
     fixture = scene.targets.fixtures[target]
     for k, table in enumerate(scene.external.turntables):
@@ -122,7 +123,7 @@ def _carrier(scene: Scene, target: int) -> int:
 def moving_axes(scene: Scene, target: int) -> list[int]:
     """External axes that move ``target`` relative to the robot (track, its table)."""
     axes = [] if scene.external.track is None else [0]
-    carrier = _carrier(scene, target)
+    carrier = carrier_axis(scene, target)
     return axes + ([carrier] if carrier >= 0 else [])
 
 
@@ -133,7 +134,7 @@ def target_poses_at(
     values = np.asarray(external, dtype=np.float64).reshape(-1, scene.external.count)
     table = scene.targets.T_world_approach if approach else scene.targets.T_world_target
     T = np.broadcast_to(table[target], (len(values), 4, 4)).copy()
-    carrier = _carrier(scene, target)
+    carrier = carrier_axis(scene, target)
     if carrier >= 0:
         turntable = scene.external.turntables[carrier - scene.external.table_offset]
         T = turntable.motion(values[:, carrier] - scene.external.values[carrier]) @ T

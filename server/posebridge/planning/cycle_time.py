@@ -347,8 +347,9 @@ def path_cycle_time(
     With ``external`` (a track, turntables), a joint move runs the robot joints and
     the external axes on one synchronised trapezoid over all ``n + m`` values; a
     linear move lasts at least as long as the external axes' own synchronised move
-    between its ends (the robot follows the line relative to the moving base: an
-    approximation, the TCP's speed relative to the world is not limited).
+    between its ends (the line is sampled with the axes moving,
+    :mod:`posebridge.planning.path_sampling`; its speed is the TCP's along the
+    line in the frame it is straight in).
 
     Parameters
     ----------

@@ -24,9 +24,12 @@ All reached samples of all segments are then checked in batches:
   :func:`posebridge.planning.time_scaling.path_speed_limit`), a warning
   naming the limiting joint and that speed;
 * **clearance** of every sample to the cell and between the arm's own parts,
-  each on its own (:func:`posebridge.cell.clearance.clearance_to_cell` with
-  scope ``environment`` and ``self``, exact capsule distances, one batch each
-  for the whole path), so a close self pair never hides an obstacle: below
+  each on its own (:func:`posebridge.cell.clearance.clearance_along` with
+  scope ``environment``: every sample in the scene posed at its own external
+  axis values, the track's base and carriage and a turntable's fixtures where
+  they are at that sample, one batch per distinct set of values, one for the
+  whole path without external axes; :func:`~posebridge.cell.clearance.clearance_to_cell`
+  with scope ``self``, one batch), so a close self pair never hides an obstacle: below
   ``collision_threshold_mm`` an error naming the pair, below
   ``clearance_mm`` a warning.
 
@@ -49,10 +52,10 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
-from posebridge.cell.clearance import CellClearance, clearance_to_cell
+from posebridge.cell.clearance import CellClearance, clearance_along, clearance_to_cell
 from posebridge.cell.quality import margin_thresholds, singularity_thresholds
 from posebridge.cell.reports import QualityThresholds
-from posebridge.cell.scene import ResolvedPath, Scene, posed_scene
+from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.kinematics.metrics import limit_margins
 from posebridge.kinematics.singularity import (
@@ -503,17 +506,17 @@ def check_sampled_path(
             singular = classify_singularity(robot, all_q, limits.singularity)
         except KinematicsInputError:
             singular = None  # not a six- or seven-axis arm: no singularity classes
-    moving = (
-        sampled.path.external
-        if scene.external.count and sampled.path.external.shape[1] == scene.external.count
-        else None
+    reached_external = [segment.external[segment.reachable] for segment in sampled.segments]
+    all_external = (
+        np.concatenate(reached_external)
+        if reached_external
+        else np.zeros((0, scene.external.count))
     )
-    scene_q = all_q if moving is None else all_q[:0]
-    environment = clearance_to_cell(scene, scene_q, scope="environment")
+    # each sample in the scene posed at its own external values (one scene without axes)
+    environment = clearance_along(scene, all_q, all_external, scope="environment")
     own = clearance_to_cell(scene, all_q, scope="self")
     findings = _waypoint_findings(sampled)
     segments = []
-    environment_parts: list[tuple[float, CellClearance]] = []
     start = 0
     for segment, q_reached, segment_timing in zip(
         sampled.segments, reached, timing.segments, strict=True
@@ -521,23 +524,16 @@ def check_sampled_path(
         rows = slice(start, start + q_reached.shape[0])
         start = rows.stop
         out = _SegmentFindings(scene, sampled, segment)
-        segment_environment, segment_rows = environment, rows
-        if moving is not None:  # each segment in the scene at its end's external values
-            here = posed_scene(scene, moving[segment.index + 1])
-            segment_environment = clearance_to_cell(here, q_reached, scope="environment")
-            segment_rows = slice(0, q_reached.shape[0])
         if segment.sampled:
             _continuity_findings(out, segment)
             _singularity_findings(out, segment, rows, singular)
             _limit_findings(out, segment, margins[rows], limits.limit_margin)
             _speed_findings(out, segment, segment_timing)
-            _clearance_findings(out, segment, segment_environment, segment_rows, limits)
+            _clearance_findings(out, segment, environment, rows, limits)
             _clearance_findings(out, segment, own, rows, limits)
         findings.extend(out.findings)
-        segment_environment_m = _smallest(segment_environment.distance[segment_rows])
+        segment_environment_m = _smallest(environment.distance[rows])
         segment_self_m = _smallest(own.distance[rows])
-        if segment_environment.distance[segment_rows].size:
-            environment_parts.append((segment_environment_m, segment_environment))
         report = _segment_report(
             scene,
             sampled,
@@ -571,8 +567,6 @@ def check_sampled_path(
         )
         for w in range(len(names))
     ]
-    if moving is not None and environment_parts:  # the segment with the closest approach
-        environment = min(environment_parts, key=lambda part: part[0])[1]
     environment_m = _smallest(environment.distance)
     self_m = _smallest(own.distance)
     return PathCheckReport(

@@ -33,6 +33,16 @@ file). Sampling:
   skipped), a sample where a joint moves more than ``jump_deg`` (``jump_mm``
   for prismatic joints) from the previous one a **configuration jump**.
 
+**External axes** (a track, turntables) move with the robot inside a
+segment: their values go linearly in the segment's fraction from the start
+waypoint's to the end waypoint's (:attr:`SegmentSamples.external`), and every
+sample is solved and drawn with the base and the fixtures where the axes put
+them. A joint move's samples also keep every external axis within
+``resolution_mm`` / ``resolution_deg`` of the next. A linear move is straight
+in the frame of the turntable that carries its end waypoint's target (the
+part: coordinated motion, the table turning under the tool), else in the
+world; the track carries the robot base along it.
+
 The along-path coordinate ``travel`` is the TCP path length (m) of a linear
 move, the rotation angle (rad) of a pure reorientation, and the path
 parameter ``D t`` of a joint move with ``D`` the largest joint travel
@@ -50,6 +60,7 @@ import numpy.typing as npt
 
 from posebridge.arrays import Int8Array
 from posebridge.cell.clearance import clearance_scene
+from posebridge.cell.external_kinematics import carrier_axis
 from posebridge.cell.model import Branch
 from posebridge.cell.scene import ResolvedPath, Scene, posed_scene
 from posebridge.geometry.clearance import collision_batch
@@ -114,6 +125,8 @@ class SegmentSamples:
     jump : array of bool, shape (S,)
     sampled : bool
         False when an end of the segment has no configuration.
+    external : array, shape (S, m)
+        External axis values of every sample, m or rad (module docstring).
     """
 
     index: int
@@ -128,6 +141,7 @@ class SegmentSamples:
     branch_change: BoolArray
     jump: BoolArray
     sampled: bool
+    external: FloatArray
 
     @property
     def reachable(self) -> BoolArray:
@@ -303,18 +317,31 @@ def _continuity(
     return branch_change, jump
 
 
+def _external_resolution(scene: Scene, resolution_m: float, resolution_rad: float) -> FloatArray:
+    return np.where(scene.external.prismatic, resolution_m, resolution_rad)
+
+
 def _joint_segment(
     scene: Scene,
     k: int,
     q_a: FloatArray,
     q_b: FloatArray,
+    ends: FloatArray,
     resolution: FloatArray,
     jump_limit: FloatArray,
 ) -> SegmentSamples:
+    """Joint move from ``q_a`` to ``q_b`` with the external axes from ``ends[0]`` to ``ends[1]``.
+
+    ``resolution`` (n + m,) holds the robot joints' step, then the external axes'.
+    """
     delta = q_b - q_a
-    steps = _step_count(float(np.max(np.abs(delta) / resolution)), f"segment {k}")
+    moved = ends[1] - ends[0]
+    steps = _step_count(
+        float(np.max(np.abs(np.concatenate([delta, moved])) / resolution)), f"segment {k}"
+    )
     t = np.linspace(0.0, 1.0, steps + 1)
     q = q_a + t[:, None] * delta
+    external = ends[0] + t[:, None] * moved
     span = float(np.max(np.abs(delta)))
     labels = _labels(scene, q)
     branch_change, jump = _continuity(q, labels, jump_limit)
@@ -323,6 +350,7 @@ def _joint_segment(
         not np.any(scene.robot.prismatic)
         or float(np.max(np.abs(delta[revolute]))) >= float(np.max(np.abs(delta[~revolute])))
     )
+    T_world_base = scene.external.T_world_base(external, scene.T_world_base)
     return SegmentSamples(
         index=k,
         motion="joint",
@@ -330,12 +358,13 @@ def _joint_segment(
         fraction=t,
         travel=t * span,
         travel_is_angle=angle,
-        T_world_tool=scene.T_world_base @ fk_tool(scene.robot, q, scene.T_flange_tool),
+        T_world_tool=T_world_base @ fk_tool(scene.robot, q, scene.T_flange_tool),
         reason=("",) * q.shape[0],
         labels=labels,
         branch_change=branch_change,
         jump=jump,
         sampled=True,
+        external=external,
     )
 
 
@@ -381,27 +410,57 @@ def _track_analytic(
     return q, reason
 
 
+def _part_motion(scene: Scene, carrier: int, external: FloatArray) -> FloatArray:
+    """Pose of the frame a linear move is straight in, per sample, shape (S, 4, 4).
+
+    The motion of the turntable ``carrier`` (external index) from the scene's
+    values; the identity (the world) for ``carrier`` -1.
+    """
+    if carrier < 0:
+        return np.broadcast_to(np.eye(4), (len(external), 4, 4)).copy()
+    table = scene.external.turntables[carrier - scene.external.table_offset]
+    return table.motion(external[:, carrier] - scene.external.values[carrier])
+
+
 def _linear_segment(
     scene: Scene,
     solver: IkSolver,
     k: int,
     q_a: FloatArray,
     T_b: FloatArray,
+    ends: FloatArray,
+    carrier: int,
     resolution_m: float,
     resolution_rad: float,
     jump_limit: FloatArray,
 ) -> SegmentSamples:
-    T_a = scene.T_world_base @ fk_tool(scene.robot, q_a[None], scene.T_flange_tool)[0]
-    offset = T_b[:3, 3] - T_a[:3, 3]
+    """Linear move from ``q_a`` (axes at ``ends[0]``) to the world pose ``T_b`` (axes at ``ends[1]``).
+
+    ``carrier``: the turntable (external index) the line is straight on, -1 for the world.
+    """
+    external_end = scene.external
+    T_world_base_a = external_end.T_world_base(ends[:1], scene.T_world_base)[0]
+    T_a = T_world_base_a @ fk_tool(scene.robot, q_a[None], scene.T_flange_tool)[0]
+    M_ends = _part_motion(scene, carrier, ends)
+    P_a = invert_transform(M_ends[0]) @ T_a  # the ends in the frame the line is straight in
+    P_b = invert_transform(M_ends[1]) @ T_b
+    offset = P_b[:3, 3] - P_a[:3, 3]
     length = float(np.linalg.norm(offset))
-    quaternions = quaternion_from_rotation_matrix(np.stack([T_a[:3, :3], T_b[:3, :3]]))
+    quaternions = quaternion_from_rotation_matrix(np.stack([P_a[:3, :3], P_b[:3, :3]]))
     angle = 2.0 * float(np.arccos(min(abs(float(quaternions[0] @ quaternions[1])), 1.0)))
-    steps = _step_count(max(length / resolution_m, angle / resolution_rad), f"segment {k}")
+    moved = ends[1] - ends[0]
+    axis_steps = np.abs(moved) / _external_resolution(scene, resolution_m, resolution_rad)
+    steps = _step_count(
+        max(length / resolution_m, angle / resolution_rad, float(np.max(axis_steps, initial=0.0))),
+        f"segment {k}",
+    )
     t = np.linspace(0.0, 1.0, steps + 1)
-    T = np.tile(np.eye(4), (t.shape[0], 1, 1))
-    T[:, :3, 3] = T_a[:3, 3] + t[:, None] * offset
-    T[:, :3, :3] = rotation_matrix_from_quaternion(slerp(quaternions[0], quaternions[1], t))
-    T_base_tool = invert_transform(scene.T_world_base) @ T
+    external = ends[0] + t[:, None] * moved
+    P = np.tile(np.eye(4), (t.shape[0], 1, 1))
+    P[:, :3, 3] = P_a[:3, 3] + t[:, None] * offset
+    P[:, :3, :3] = rotation_matrix_from_quaternion(slerp(quaternions[0], quaternions[1], t))
+    T = _part_motion(scene, carrier, external) @ P
+    T_base_tool = invert_transform(external_end.T_world_base(external, scene.T_world_base)) @ T
     if solver.family == "numeric":
         q = _track_numeric(scene, T_base_tool, q_a)
         reason = tuple("" if ok else REASON_UNREACHABLE for ok in np.isfinite(q[:, 0]))
@@ -425,6 +484,7 @@ def _linear_segment(
         branch_change=branch_change,
         jump=jump,
         sampled=True,
+        external=external,
     )
 
 
@@ -443,6 +503,7 @@ def _unsampled(scene: Scene, k: int, motion: Motion) -> SegmentSamples:
         branch_change=np.zeros(0, dtype=bool),
         jump=np.zeros(0, dtype=bool),
         sampled=False,
+        external=np.zeros((0, scene.external.count)),
     )
 
 
@@ -485,12 +546,18 @@ def _branch_words(scene: Scene, q: FloatArray) -> str:
     return ", ".join(words[i][0 if v > 0 else 1 if v < 0 else 2] for i, v in enumerate(labels))
 
 
+def _waypoint_external(scene: Scene, path: ResolvedPath) -> FloatArray:
+    """External values of every waypoint, shape (W, m): the path's, or the scene's for a path without."""
+    W, m = len(path.sources), scene.external.count
+    if path.external.shape == (W, m):
+        return path.external
+    return np.broadcast_to(scene.external.values, (W, m)).copy()
+
+
 def _posed_waypoint(scene: Scene, path: ResolvedPath, w: int) -> tuple[Scene, FloatArray]:
     """Return the scene at waypoint ``w``'s external values and its tool pose there, (4, 4).
 
     A cell without external axes gives the scene and the resolved pose as they are.
-    A segment is sampled in the scene of its end waypoint (external axes at their
-    end values: exact when they do not move during the segment).
     """
     if scene.external.count == 0 or path.external.shape[1] != scene.external.count:
         return scene, path.T_world_tool[w]
@@ -544,7 +611,13 @@ def sample_path(
         )
     resolution_m = float(m_from_mm(resolution_mm))
     resolution_rad = float(rad_from_deg(resolution_deg))
-    resolution = _joint_resolution(scene, resolution_m, resolution_rad)
+    resolution = np.concatenate(
+        [
+            _joint_resolution(scene, resolution_m, resolution_rad),
+            _external_resolution(scene, resolution_m, resolution_rad),
+        ]
+    )
+    external = _waypoint_external(scene, resolved)
     jump_limit = np.where(scene.robot.prismatic, m_from_mm(jump_mm), rad_from_deg(jump_deg))
     solver = ik_solver(scene.robot)
     W = len(resolved.sources)
@@ -575,12 +648,15 @@ def sample_path(
                 if linear and not problem:
                     problem = "not reached: the linear move into it starts without a configuration"
             elif linear:
+                target = int(resolved.target_index[w])
                 segment = _linear_segment(
-                    here,
+                    scene,
                     solver,
                     w - 1,
                     start,
                     goal,
+                    external[w - 1 : w + 1],
+                    carrier_axis(scene, target) if target >= 0 else -1,
                     resolution_m,
                     resolution_rad,
                     jump_limit,
@@ -601,7 +677,15 @@ def sample_path(
                     problem = f"not reached by the linear move ({segment.reason[-1]})"
             else:
                 segments.append(
-                    _joint_segment(here, w - 1, start, q_way[w], resolution, jump_limit)
+                    _joint_segment(
+                        scene,
+                        w - 1,
+                        start,
+                        q_way[w],
+                        external[w - 1 : w + 1],
+                        resolution,
+                        jump_limit,
+                    )
                 )
         problems.append(problem)
         if np.all(np.isfinite(q_way[w])):

@@ -667,6 +667,7 @@ def _linear_edges(
             branch_change=np.zeros(S, dtype=bool),
             jump=np.zeros(S, dtype=bool),
             sampled=True,
+            external=np.broadcast_to(scene.external.values, (S, scene.external.count)).copy(),
         )
         timing = linear_move_timing(
             robot, segment, speed, acceleration_m_s2=limits.linear_acceleration_m_s2
