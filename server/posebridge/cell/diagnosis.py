@@ -14,7 +14,10 @@ minimum clearance and manipulability, the closest approach to a singularity,
 stretches of rows in a condition (collision, low clearance, outside limits,
 low limit margin, near a singularity), branch changes between consecutive rows
 and joint changes faster than the velocity limits (needs ``time_s``). The
-single **worst row** follows :data:`WORST_ROW_RULE`.
+single **worst row** follows :data:`WORST_ROW_RULE`. In a cell with external
+axes every row is posed at the log's values for them (an axis without a column
+at the cell's value): the tool pose and the clearance move with the track and
+the turntables, the axes get their own smallest margin and velocity check.
 """
 
 from __future__ import annotations
@@ -385,10 +388,23 @@ class _LogDiagnoser:
         self.scene = scene
         self.log = log
         self.robot = scene.robot
-        self.quality = evaluate_configurations(scene, log.q, thresholds)
+        external = scene.external
+        m = external.count
+        self.external = (
+            log.external
+            if log.external.shape == (log.count, m)
+            else np.broadcast_to(external.values, (log.count, m)).copy()
+        )
+        self.quality = evaluate_configurations(scene, log.q, thresholds, external=self.external)
         self.thresholds = self.quality.thresholds
         self.rows = _Rows(log)
         self.units = joint_unit_labels(self.robot.prismatic)
+        # the cell's joint vector (robot joints, then external axes) for the velocity check
+        self.values = np.concatenate([log.q, self.external], axis=1)
+        self.velocity_max = np.concatenate([self.robot.velocity_max, external.velocity_max])
+        self.prismatic = np.concatenate([self.robot.prismatic, external.prismatic])
+        self.names = self.robot.joint_names + external.names
+        self.all_units = [*self.units, *external.units]
         self.findings: list[Finding] = []
         self.stretches: list[RowStretch] = []
         self.stretch_counts: dict[str, int] = {}
@@ -417,6 +433,26 @@ class _LogDiagnoser:
                     margin=float(margin_user[row, j]),
                     margin_fraction=float(margins.fraction[row, j]),
                     nearer_limit="lower" if lower else "upper",
+                )
+            )
+        external = self.scene.external
+        for i, name in enumerate(external.names):
+            value = self.external[:, i]
+            to_lower, to_upper = value - external.lower[i], external.upper[i] - value
+            margin = np.minimum(to_lower, to_upper)
+            row = int(np.argmin(margin))
+            to_user = mm_from_m if external.prismatic[i] else deg_from_rad
+            extremes.append(
+                JointExtreme(
+                    joint=name,
+                    unit=external.units[i],
+                    row=row,
+                    line=int(self.log.line[row]),
+                    time_s=self.rows.time(row),
+                    value=float(to_user(value[row])),
+                    margin=float(to_user(margin[row])),
+                    margin_fraction=float(margin[row] / (external.upper[i] - external.lower[i])),
+                    nearer_limit="lower" if to_lower[row] <= to_upper[row] else "upper",
                 )
             )
         return extremes
@@ -625,7 +661,6 @@ class _LogDiagnoser:
         return len(changes), listed
 
     def _velocity(self) -> VelocityCheck:
-        robot = self.robot
         time_s = self.log.time_s
         if time_s is None:
             reason = "skipped: the log has no time_s column"
@@ -635,9 +670,9 @@ class _LogDiagnoser:
             return VelocityCheck(checked=False, reason=reason, jump_count=0, jumps=[])
         if self.quality.count < 2:
             return VelocityCheck(checked=True, reason="", jump_count=0, jumps=[])
-        limit = robot.velocity_max
+        limit = self.velocity_max
         has_limit = np.isfinite(limit) & (limit > 0.0)
-        change = np.diff(self.log.q, axis=0)
+        change = np.diff(self.values, axis=0)
         dt = np.diff(time_s)
         speed = np.abs(change) / dt[:, None]
         over = (speed > (1.0 + VELOCITY_TOLERANCE) * np.where(has_limit, limit, np.inf)) & has_limit
@@ -646,9 +681,9 @@ class _LogDiagnoser:
             ratio = np.where(over, speed / np.where(has_limit, limit, 1.0), 0.0)
             p, j = np.unravel_index(int(np.argmax(ratio)), ratio.shape)
             self.fastest = (int(p) + 1, int(j), float(ratio[p, j]))
-        change_user = joints_user_from_si(change, robot.prismatic)
-        speed_user = joints_user_from_si(speed, robot.prismatic)
-        limit_user = joints_user_from_si(np.where(has_limit, limit, 0.0), robot.prismatic)
+        change_user = joints_user_from_si(change, self.prismatic)
+        speed_user = joints_user_from_si(speed, self.prismatic)
+        limit_user = joints_user_from_si(np.where(has_limit, limit, 0.0), self.prismatic)
         jumps = []
         for p, j in zip(pair[:MAX_LISTED_EVENTS], joint[:MAX_LISTED_EVENTS], strict=True):
             row = int(p) + 1
@@ -657,8 +692,8 @@ class _LogDiagnoser:
                 line=int(self.log.line[row]),
                 time_from_s=float(time_s[row - 1]),
                 time_to_s=float(time_s[row]),
-                joint=robot.joint_names[j],
-                unit=self.units[j],
+                joint=self.names[j],
+                unit=self.all_units[j],
                 change=float(change_user[p, j]),
                 speed=float(speed_user[p, j]),
                 limit=float(limit_user[j]),
@@ -702,7 +737,7 @@ class _LogDiagnoser:
         if self.fastest is not None:
             row, j, ratio = self.fastest
             return row, (
-                f"fastest change above a velocity limit: {self.robot.joint_names[j]} at "
+                f"fastest change above a velocity limit: {self.names[j]} at "
                 f"{ratio:.2f} times its limit"
             )
         proximity = proximity_ratio(quality)
@@ -757,6 +792,7 @@ class _LogDiagnoser:
             closest=closest.tolist(),
             environment_clearance_mm=[_finite_mm(v) for v in quality.environment.distance.tolist()],
             self_clearance_mm=[_finite_mm(v) for v in quality.self_clearance.distance.tolist()],
+            external=self.scene.external.user_from_si(self.external).tolist(),
         )
 
     @staticmethod
@@ -781,6 +817,7 @@ class _LogDiagnoser:
         velocity = self._velocity()
         worst, reason = self._worst_row()
         time_s = self.log.time_s
+        given = set(self.log.external_given)
         manipulability_row = int(np.argmin(quality.manipulability))
         return LogDiagnosis(
             source=self.log.source,
@@ -811,13 +848,30 @@ class _LogDiagnoser:
                 time_s=self.rows.time(worst),
                 rule=WORST_ROW_RULE,
                 reason=reason,
-                diagnosis=diagnose_pose(self.scene, self.log.q[worst], self.thresholds),
+                diagnosis=diagnose_pose(
+                    self.scene,
+                    self.log.q[worst],
+                    self.thresholds,
+                    external=self.external[worst] if self.scene.external.count else None,
+                ),
             ),
             findings=sorted(
                 self.findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
             ),
             rows=self._columns() if include_rows else None,
             robot_geometry_missing=robot.geometry_missing,
+            external_names=list(self.scene.external.names),
+            external_units=self.scene.external.units,
+            external_logged=[name for name in self.scene.external.names if name in given],
+            external_defaults={
+                name: float(value)
+                for name, value in zip(
+                    self.scene.external.names,
+                    self.scene.external.user_from_si(self.scene.external.values).tolist(),
+                    strict=True,
+                )
+                if name not in given
+            },
         )
 
 

@@ -12,7 +12,11 @@ Format (our own, kept plain so any controller export can be massaged into it):
   once, in any order, each either bare (``j1``) or with its unit (``j1_deg``
   for a revolute joint, ``x_mm`` for a prismatic one), plus an optional
   ``time_s`` column (seconds); the other columns a ``posebridge export``
-  writes (:data:`EXPORT_COLUMNS`) are allowed and not read;
+  writes (:data:`EXPORT_COLUMNS`) are allowed and not read; in a cell with
+  external axes (a track, turntables) their columns may follow, named like
+  joints (``track`` or ``track_mm``, ``table-1`` or ``table-1_deg``); an axis
+  without a column stays at the cell's value for it (its ``home``, or the
+  value the cell is posed at) in every row;
 * every further non-blank line is one row: finite numbers, degrees for
   revolute joints and millimetres for prismatic joints; ``time_s`` must
   increase strictly from row to row.
@@ -28,16 +32,17 @@ import csv
 import io
 import math
 from collections.abc import Iterator
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.cell.external_axes import NO_EXTERNAL_AXES, ExternalAxes
 from posebridge.errors import InputError
 from posebridge.messages import printable
 from posebridge.robot.model import Robot
-from posebridge.units import FloatArray, joints_si_from_user
+from posebridge.units import FloatArray, joints_si_from_user, m_from_mm, rad_from_deg
 
 __all__ = [
     "EXPORT_COLUMNS",
@@ -101,6 +106,12 @@ class JointLog:
         Time of each row, s; None without a ``time_s`` column.
     line : array of int64, shape (N,)
         Line of each row in the file (line 1 is the header or the first comment).
+    external_names : tuple of str, length m
+        The cell's external axes (the columns of ``external``).
+    external : array, shape (N, m)
+        External axis values, m or rad; an axis without a column at the cell's value.
+    external_given : tuple of str
+        External axes the log has a column for.
     """
 
     source: str
@@ -108,6 +119,9 @@ class JointLog:
     q: FloatArray
     time_s: FloatArray | None
     line: IntArray
+    external_names: tuple[str, ...] = ()
+    external: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
+    external_given: tuple[str, ...] = ()
 
     @property
     def count(self) -> int:
@@ -115,10 +129,16 @@ class JointLog:
         return int(self.q.shape[0])
 
 
-def _header(fields: list[str], robot: Robot, where: str, line: int) -> tuple[list[int], int]:
-    """Column of each robot joint and of the time (-1 without), from the header fields."""
+def _header(
+    fields: list[str], robot: Robot, external: ExternalAxes, where: str, line: int
+) -> tuple[list[int], int, dict[int, int]]:
+    """Column of each robot joint, of the time (-1 without) and of each logged external axis."""
     names = [field.strip() for field in fields]
+    axes = external.names
+    known = robot.joint_names + axes
+    units = [*("mm" if p else "deg" for p in robot.prismatic), *external.units]
     expected = f"the joint names of robot {robot.name!r} ({', '.join(robot.joint_names)})"
+    optional = f"{TIME_COLUMN}" + (f" and the external axes ({', '.join(axes)})" if axes else "")
     column_of: dict[str, int] = {}
     seen: set[str] = set()
     for c, name in enumerate(names):
@@ -129,14 +149,14 @@ def _header(fields: list[str], robot: Robot, where: str, line: int) -> tuple[lis
         if name in EXPORT_COLUMNS:
             continue
         joint = name
-        if name != TIME_COLUMN and name not in robot.joint_names:
+        if name != TIME_COLUMN and name not in known:
             stem, _, suffix = name.rpartition("_")
-            if stem not in robot.joint_names:
+            if stem not in known:
                 raise JointLogError(
                     f"{place}: unknown column {name!r}; expected {expected} and optionally "
-                    f"{TIME_COLUMN}"
+                    f"{optional}"
                 )
-            unit = "mm" if robot.prismatic[robot.joint_names.index(stem)] else "deg"
+            unit = units[known.index(stem)]
             if suffix != unit:
                 raise JointLogError(
                     f"{place}: unknown column {name!r}; joint {stem!r} is in {unit} "
@@ -152,7 +172,8 @@ def _header(fields: list[str], robot: Robot, where: str, line: int) -> tuple[lis
             f"{where}line {line}: missing column{'s' if len(missing) > 1 else ''} "
             f"{', '.join(repr(m) for m in missing)}; expected {expected}"
         )
-    return [column_of[name] for name in robot.joint_names], column_of.get(TIME_COLUMN, -1)
+    logged = {i: column_of[name] for i, name in enumerate(axes) if name in column_of}
+    return [column_of[name] for name in robot.joint_names], column_of.get(TIME_COLUMN, -1), logged
 
 
 def _bad_value(text: str, line: int, column: int, name: str, where: str) -> JointLogError:
@@ -180,7 +201,12 @@ def _records(reader: Iterator[list[str]], where: str) -> Iterator[list[str]]:
 
 
 def parse_joint_log(
-    text: str, robot: Robot, *, source: str = "", max_rows: int | None = None
+    text: str,
+    robot: Robot,
+    *,
+    source: str = "",
+    max_rows: int | None = None,
+    external: ExternalAxes = NO_EXTERNAL_AXES,
 ) -> JointLog:
     """Read a joint log from CSV text (format in the module docstring).
 
@@ -194,6 +220,9 @@ def parse_joint_log(
     max_rows : int, optional, keyword-only
         Most data rows taken (:data:`MAX_LOG_ROWS` if omitted); reading stops at the
         first row beyond.
+    external : ExternalAxes, keyword-only
+        The cell's external axes (``scene.external``): their columns are read, an
+        axis without one takes ``external.values``; none by default.
 
     Returns
     -------
@@ -227,7 +256,7 @@ def parse_joint_log(
                     f"{where}line {comments + 1}: expected the header row of joint names"
                 )
             header = fields
-            joint_columns, time_column = _header(header, robot, where, line)
+            joint_columns, time_column, axis_columns = _header(header, robot, external, where, line)
             continue
         if len(fields) != len(header):
             raise JointLogError(
@@ -247,7 +276,7 @@ def parse_joint_log(
     if not rows:
         raise JointLogError(f"{where}no data rows after the header")
     names = [h.strip() for h in header]
-    used = joint_columns + ([time_column] if time_column >= 0 else [])
+    used = joint_columns + ([time_column] if time_column >= 0 else []) + list(axis_columns.values())
     read = [[row[c] for c in used] for row in rows]
     try:
         values = np.array(read, dtype=np.float64)
@@ -278,22 +307,36 @@ def parse_joint_log(
                 f"increase from row to row (previous {time_s[r - 1]:g} s, got {time_s[r]:g} s)"
             )
     q = joints_si_from_user(values[:, :n], robot.prismatic)
+    external_values = np.broadcast_to(external.values, (len(rows), external.count)).copy()
+    first_axis = n + (1 if time_column >= 0 else 0)
+    for k, axis in enumerate(axis_columns):
+        logged = values[:, first_axis + k]
+        external_values[:, axis] = (
+            m_from_mm(logged) if external.prismatic[axis] else rad_from_deg(logged)
+        )
     return JointLog(
         source=source,
         joint_names=robot.joint_names,
         q=q,
         time_s=time_s,
         line=np.asarray(lines, dtype=np.int64),
+        external_names=external.names,
+        external=external_values,
+        external_given=tuple(external.names[axis] for axis in axis_columns),
     )
 
 
-def read_joint_log(path: str | Path, robot: Robot) -> JointLog:
+def read_joint_log(
+    path: str | Path, robot: Robot, *, external: ExternalAxes = NO_EXTERNAL_AXES
+) -> JointLog:
     """Read a joint log file (format in the module docstring; at most :data:`MAX_LOG_BYTES`).
 
     Parameters
     ----------
     path : str or Path
     robot : Robot
+    external : ExternalAxes, keyword-only
+        As in :func:`parse_joint_log`.
 
     Returns
     -------
@@ -320,4 +363,4 @@ def read_joint_log(path: str | Path, robot: Robot) -> JointLog:
         raise JointLogError(
             f"{path}: not UTF-8 text ({error.reason} at byte {error.start})"
         ) from error
-    return parse_joint_log(text, robot, source=str(path))
+    return parse_joint_log(text, robot, source=str(path), external=external)

@@ -33,7 +33,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.arrays import Int8Array, Int16Array
-from posebridge.cell.clearance import CellClearance, clearance_to_cell
+from posebridge.cell.clearance import CellClearance, clearance_along, clearance_to_cell
 from posebridge.cell.reports import (
     BranchReport,
     ClosestPair,
@@ -226,7 +226,11 @@ def margin_thresholds(robot: Robot, thresholds: QualityThresholds) -> FloatArray
 
 
 def evaluate_configurations(
-    scene: Scene, q: npt.ArrayLike, thresholds: QualityThresholds | None = None
+    scene: Scene,
+    q: npt.ArrayLike,
+    thresholds: QualityThresholds | None = None,
+    *,
+    external: npt.ArrayLike | None = None,
 ) -> ConfigurationQuality:
     """Quality of joint configurations in the cell (module docstring), vectorised over the batch.
 
@@ -237,6 +241,10 @@ def evaluate_configurations(
         Joint values, rad or m.
     thresholds : QualityThresholds, optional
         The cell's own (``scene.cell.thresholds``) if omitted.
+    external : array-like, shape (N, m), optional, keyword-only
+        External axis values of each configuration (m, rad): the tool pose and the
+        clearance to the cell are taken with the base and fixtures where they put them
+        (:func:`~posebridge.cell.clearance.clearance_along`); the scene's values if omitted.
 
     Returns
     -------
@@ -246,6 +254,12 @@ def evaluate_configurations(
     robot = scene.robot
     q = check_configurations(robot, q)
     T_base_tool = fk_tool(robot, q, scene.T_flange_tool)
+    values = (
+        np.broadcast_to(scene.external.values, (len(q), scene.external.count))
+        if external is None
+        else np.asarray(external, dtype=np.float64).reshape(len(q), scene.external.count)
+    )
+    T_world_base = scene.external.T_world_base(values, scene.T_world_base)
     J_full = jacobian_base(robot, q, scene.T_flange_tool)
     J = jacobian_rows(J_full, "position")
     scheme = branch_geometry(robot).scheme
@@ -258,7 +272,7 @@ def evaluate_configurations(
     return ConfigurationQuality(
         robot=robot,
         q=q,
-        T_world_tool=scene.T_world_base @ T_base_tool,
+        T_world_tool=T_world_base @ T_base_tool,
         T_base_tool=T_base_tool,
         margins=limit_margins(robot, q),
         manipulability=manipulability_yoshikawa(J),
@@ -273,7 +287,7 @@ def evaluate_configurations(
         elbow=elbow,
         wrist=wrist,
         singularity=singularity,
-        environment=clearance_to_cell(scene, q, scope="environment"),
+        environment=clearance_along(scene, q, values, scope="environment"),
         self_clearance=clearance_to_cell(scene, q, scope="self"),
         thresholds=thresholds,
     )

@@ -587,6 +587,11 @@ class LogRows(_Result):
     self_clearance_mm: list[float | None] = Field(
         default=[], description="Per row, clearance between the arm's own parts."
     )
+    external: list[list[float]] = Field(
+        default=[],
+        description="Per row, the external axis values (mm for a track, deg for a turntable) "
+        "in the order of external_names; empty without external axes.",
+    )
 
 
 class LogDiagnosis(_Result):
@@ -621,3 +626,17 @@ class LogDiagnosis(_Result):
         "clearance in this result is then meaningless.",
     )
     rows: LogRows | None = Field(description="Per-row values; null when not requested.")
+    external_names: list[str] = Field(
+        default=[], description="The cell's external axes (track, turntables), in order."
+    )
+    external_units: list[str] = Field(default=[], description="mm or deg per external axis.")
+    external_logged: list[str] = Field(
+        default=[],
+        description="External axes the log has a column for; the others stay at "
+        "external_defaults in every row.",
+    )
+    external_defaults: dict[str, float] = Field(
+        default={},
+        description="Value (mm, deg) of every external axis where the log has no column "
+        "for it: the cell's value.",
+    )

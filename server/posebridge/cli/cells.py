@@ -46,7 +46,8 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
     scene = load_scene(args.cell, quiet=args.quiet)
     robot = scene.robot
     if args.log:
-        log_result = diagnose_log(scene, read_joint_log(args.log, robot), include_rows=args.json)
+        log = read_joint_log(args.log, robot, external=scene.external)
+        log_result = diagnose_log(scene, log, include_rows=args.json)
         print_report(log_result, render_log_diagnosis, as_json=args.json)
         return exit_for_findings(log_result.findings)
     if scene.external.count == 0:

@@ -226,7 +226,11 @@ async def diagnose_joint_log(
     try:
         log = await run_in_threadpool(
             lambda: parse_joint_log(
-                body.csv, scene.robot, source=body.source, max_rows=MAX_LOG_ROWS
+                body.csv,
+                scene.robot,
+                source=body.source,
+                max_rows=MAX_LOG_ROWS,
+                external=scene.external,
             )
         )
     except JointLogTooLongError as error:
