@@ -1,5 +1,6 @@
 // Limit margin bars: where each joint sits in its range and how far it is from
-// the nearer limit, in the joint's unit.
+// the nearer limit, in the joint's unit; then the cell's external axes (track in
+// mm, turntables in deg) at the values the cell is drawn at.
 
 import { element } from "./fields.js";
 import { formatJoint } from "../units.js";
@@ -25,12 +26,25 @@ export function createMarginsPanel({ container, store }) {
     }
     const values = store.get().fkJoints;
     const thresholds = thresholdsOf(store.get());
+    const external = (store.get().cell?.scene?.external_axes || []).map((axis) => ({
+      name: axis.name,
+      unit: axis.unit,
+      lower: axis.lower,
+      upper: axis.upper,
+      value: axis.value,
+      margin: Math.min(axis.value - axis.lower, axis.upper - axis.value),
+      external: true,
+    }));
+    const rows = [
+      ...robot.joints.map((joint, index) => ({ ...joint, value: values[index], margin: fk.limit_margins_deg[index] })),
+      ...external,
+    ];
     grid.replaceChildren(
-      ...robot.joints.flatMap((joint, index) => {
+      ...rows.flatMap((joint) => {
         const span = joint.upper - joint.lower;
-        const margin = fk.limit_margins_deg[index];
+        const { margin, value } = joint;
         const level = marginLevel(margin, joint.unit, thresholds);
-        const position = Math.min(1, Math.max(0, (values[index] - joint.lower) / span));
+        const position = Math.min(1, Math.max(0, (value - joint.lower) / span));
         const track = element("div", {
           className: "pb-track",
           attributes: {
@@ -38,12 +52,12 @@ export function createMarginsPanel({ container, store }) {
             "aria-label": `${joint.name} position in its range`,
             "aria-valuemin": String(joint.lower),
             "aria-valuemax": String(joint.upper),
-            "aria-valuenow": String(values[index]),
+            "aria-valuenow": String(value),
           },
         });
         // the filled part spans from the nearer limit to the joint value
         const fill = element("div", { className: "pb-fill", attributes: { "data-level": level } });
-        const nearLower = values[index] - joint.lower <= joint.upper - values[index];
+        const nearLower = value - joint.lower <= joint.upper - value;
         fill.style.left = nearLower ? "0%" : `${100 * position}%`;
         fill.style.width = nearLower ? `${100 * position}%` : `${100 * (1 - position)}%`;
         const tick = element("div", { className: "pb-tick" });
@@ -52,7 +66,7 @@ export function createMarginsPanel({ container, store }) {
         const text =
           margin === null ? "no limit" : `${formatJoint(margin, joint.unit)}${margin < 0 ? " beyond" : ""}`;
         return [
-          element("span", { text: joint.name }),
+          element("span", { text: joint.name, attributes: joint.external ? { "data-external": "true" } : {} }),
           track,
           element("span", { className: "pb-margin-text", text, attributes: { "data-level": level } }),
         ];

@@ -10,7 +10,7 @@
 
 import { element } from "./fields.js";
 import { PLOT_CONFIG } from "../views/plotting.js";
-import { formatLength, formatNumber } from "../units.js";
+import { formatJoint, formatLength, formatNumber } from "../units.js";
 
 // playback without a time column: rows per second at 1× (common practice, no source)
 const ROWS_PER_S_WITHOUT_TIME = 25;
@@ -154,11 +154,21 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
     ));
   }
 
+  /** The external axis values of a log row, as " · track 1500.0 mm, table-1 0.0 deg" ("" without). */
+  function externalText(row) {
+    const { logCheck } = store.get();
+    const values = logCheck && logCheck.rows && logCheck.rows.external ? logCheck.rows.external[row] : null;
+    if (!values || !values.length) {
+      return "";
+    }
+    return ` · ${logCheck.external_names.map((name, k) => `${name} ${formatJoint(values[k], logCheck.external_units[k])}`).join(", ")}`;
+  }
+
   function moveToRow(row) {
     const joints = logJoints[row];
     if (joints && joints.every(Number.isFinite)) {
       scrub.value = String(row);
-      rowText.textContent = `row ${row}`;
+      rowText.textContent = `row ${row}${externalText(row)}`;
       actions.setJoints([...joints], { reason: "log" });
       if (timeline.data) {
         Plotly.relayout(timeline, { "shapes[1].x0": row, "shapes[1].x1": row });
@@ -237,6 +247,15 @@ export function createPoseCheckPanel({ container, store, actions, api, palette }
       ["Branch changes", String(log.branch_change_count)],
       ["Velocity jumps", log.velocity.checked ? String(log.velocity.jump_count) : `not checked: ${log.velocity.reason}`],
     ];
+    const axes = log.external_names || [];
+    if (axes.length) {
+      const words = axes.map((name, k) =>
+        (log.external_logged || []).includes(name)
+          ? `${name} (${log.external_units[k]}) from the log`
+          : `${name} at ${formatJoint(log.external_defaults[name], log.external_units[k])} (no column)`,
+      );
+      facts.push(["External axes", words.join("; ")]);
+    }
     const rows = facts.map(([name, value]) => element("tr", {}, [element("th", { text: name }), element("td", { text: value })]));
     const jump = element("button", { text: "Go to the worst row", attributes: { type: "button", id: "log-worst" } });
     jump.addEventListener("click", () => {

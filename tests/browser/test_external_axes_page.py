@@ -1,0 +1,93 @@
+"""The tracked demo cell on the page: margin bars of the external axes, the rail and the
+turntable plate drawn, a joint log with a track column in the log panel.
+
+Expected values are closed forms from the demo file (robots/demo-track-cell.json): its track
+range, carriage length and turntable plate radius.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+import httpx
+import numpy as np
+
+from posebridge.resources import data_folder
+
+TRACK_DEMO = data_folder("robots") / "demo-track-cell.json"
+STATE = "() => window.posebridge.getState()"
+
+
+def _show_track_cell(open_page: Any) -> None:
+    api = open_page.base_url.rstrip("/")
+    etag = httpx.get(api + "/api/cell", timeout=30).json()["etag"]
+    demo = json.loads(TRACK_DEMO.read_text())
+    response = httpx.put(api + "/api/cell", json=demo, headers={"If-Match": etag}, timeout=60)
+    assert response.status_code == 200, response.text
+    open_page.page.reload()
+    open_page.wait_settled(timeout_ms=120_000)
+    open_page.page.wait_for_function(
+        "() => { const s = window.posebridge.getState();"
+        " return Boolean(s.cell && s.cell.scene && s.cell.scene.external_axes.length === 2); }",
+        timeout=180_000,
+    )
+
+
+def _plan_points(page: Any, name: str) -> np.ndarray:
+    """x, y points of the plan's trace ``name`` (gaps dropped), shape (K, 2)."""
+    points = page.evaluate(
+        """(name) => {
+          const trace = (document.getElementById('plan-base').data || []).find((t) => t.name === name);
+          return trace ? trace.x.map((x, k) => [x, trace.y[k]]).filter((p) => p[0] !== null) : [];
+        }""",
+        name,
+    )
+    return np.array(points, dtype=float).reshape(-1, 2)
+
+
+def test_track_cell_margins_drawing_and_log(open_page: Any, tmp_path: Path) -> None:
+    page = open_page.page
+    _show_track_cell(open_page)
+    names = page.eval_on_selector_all(
+        "#margin-bars [data-external]", "els => els.map(e => e.textContent)"
+    )
+    assert names == ["track", "table-1"]
+    # closed form: the track at its home 0 mm in [0, 4000] mm is 0 mm from its lower limit
+    texts = page.eval_on_selector_all(
+        "#margin-bars .pb-margin-text", "els => els.map(e => e.textContent)"
+    )
+    assert texts[-2:] == ["0.0 mm", "185.0 deg"]  # the table at 0 deg in [-185, 185] deg
+
+    page.wait_for_function(
+        "() => (document.getElementById('plan-base').data || []).some((t) => t.name === 'pedestal')",
+        timeout=180_000,
+    )
+    rail = _plan_points(page, "pedestal")
+    # closed form: the rail runs over the travel [0, 4000] mm plus half a 700 mm carriage each side
+    assert rail[:, 0].max() == 4350.0
+    assert rail[:, 0].min() == -350.0
+    plate = _plan_points(page, "fixture")
+    # closed form: the plate is a 450 mm circle about the table's axis at (2000, -1300) mm
+    reach = np.linalg.norm(plate - [2000.0, -1300.0], axis=1)
+    assert np.any(np.abs(reach - 450.0) < 1.0)
+
+    log = tmp_path / "track-log.csv"
+    log.write_text(
+        "time_s,j1,j2,j3,j4,j5,j6,track_mm\n"
+        "0.0,10,-20,30,0,45,0,500\n1.0,10,-20,30,0,45,0,1500\n2.0,10,-20,30,0,45,0,2500\n"
+    )
+    page.set_input_files("#log-file", str(log))
+    page.wait_for_function(
+        "() => { const c = window.posebridge.getState().logCheck;"
+        " return Boolean(c && c.rows && c.rows.external.length === 3); }",
+        timeout=180_000,
+    )
+    facts = page.inner_text("#log-facts")
+    assert "track (mm) from the log" in facts
+    assert "table-1 at 0.0 deg (no column)" in facts
+    page.fill("#log-scrub", "1")
+    page.dispatch_event("#log-scrub", "input")
+    assert page.inner_text("#log-row") == "row 1 · track 1500.0 mm, table-1 0.0 deg"
+    assert not open_page.problems.page_errors
