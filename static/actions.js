@@ -101,7 +101,12 @@ export function createActions({ store }) {
     store.update({ follow });
   }
 
-  /** A pointer drag started or ended; `kind` says what is dragged ("target", "fixture" or "joints"). */
+  /** The track's carriage dragged to `valueMm` (not saved yet), or null when no drag holds it. */
+  function setCarriage(valueMm) {
+    store.update({ carriage: valueMm === null ? null : { value_mm: valueMm } }, { reason: "carriage" });
+  }
+
+  /** A pointer drag started or ended; `kind` says what is dragged ("target", "fixture", "carriage" or "joints"). */
   function setDragging(dragging, kind = "target") {
     store.update({ dragging, dragKind: dragging ? kind : null });
   }
@@ -111,6 +116,7 @@ export function createActions({ store }) {
   }
 
   return {
+    setCarriage,
     setTarget,
     nudgeTarget,
     setFixture,

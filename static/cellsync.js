@@ -359,6 +359,27 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
+  /**
+   * The track's carriage dragged to `valueMm`: saved as the track's home_mm (the value the
+   * cell is shown at), then the page's carriage follows the saved cell; nothing is sent on a
+   * reviewer's page.
+   */
+  async function moveCarriage(valueMm) {
+    const { cell, readOnly } = store.get();
+    if (readOnly || !cell || !cell.cell.track) {
+      actions.setCarriage(null);
+      return;
+    }
+    try {
+      const document = await api.replaceCell({ ...cell.cell, track: { ...cell.cell.track, home_mm: valueMm } }, cell.etag);
+      store.update({ cell: document, carriage: null, cellSave: { state: "saved", message: "Saved the track position" } });
+    } catch (error) {
+      actions.setStatus("error", `Moving the track: ${error.message}`);
+      actions.setCarriage(null);
+      await reloadCell();
+    }
+  }
+
   /** Choose where a URDF robot's chain ends (the cell's robot.to_link): saved, then the robot reloads. */
   async function chooseChainEnd(toLink) {
     const { cell, readOnly } = store.get();
@@ -396,5 +417,5 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  return { loadCell, reloadCell, moveBase, retrySave, chooseChainEnd, setWaypointJoints };
+  return { loadCell, reloadCell, moveBase, moveCarriage, retrySave, chooseChainEnd, setWaypointJoints };
 }

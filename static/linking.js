@@ -33,6 +33,19 @@ function ikSummary(result) {
  * @param {{store: object, actions: object, api: object}} options
  * @returns {{loadRobot: (spec: string) => Promise<void>}}
  */
+/**
+ * A point carried by the track's carriage (the robot base), moved from the cell's track
+ * value to the page's dragged carriage value along the rail; as it is without either.
+ */
+export function carriedPosition(state, position) {
+  const track = (state.cell?.scene?.external_axes || []).find((axis) => axis.kind === "track");
+  if (!track || !state.carriage) {
+    return position;
+  }
+  const shift = state.carriage.value_mm - track.value;
+  return position.map((p, k) => p + shift * track.direction[k]);
+}
+
 /** The cell's base pose and tool for kinematics requests, when the page shows the cell. */
 export function cellFrames(state) {
   if (!state.cellActive || !state.cell) {
@@ -40,7 +53,7 @@ export function cellFrames(state) {
   }
   const { base, tool } = state.cell.scene;
   return {
-    base: { position_mm: base.position_mm, rpy_deg: base.rpy_deg },
+    base: { position_mm: carriedPosition(state, base.position_mm), rpy_deg: base.rpy_deg },
     tool: { position_mm: tool.position_mm, rpy_deg: tool.rpy_deg },
   };
 }
@@ -148,7 +161,7 @@ export function createLinking({ store, actions, api }) {
     }
   }
 
-  store.subscribe(askFk, { keys: ["joints"] });
+  store.subscribe(askFk, { keys: ["joints", "carriage"] });
   store.subscribe((state) => askIk(state, state.targetInputAt), { keys: ["target"] });
 
   /**

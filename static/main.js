@@ -119,6 +119,7 @@ async function start() {
       reachKey: "reachPlan",
       viewerSide: 1,
       onDropFile: (file, position) => meshFixtures.upload(file, position),
+      onMoveCarriage: (valueMm) => cellSync.moveCarriage(valueMm),
     }));
     drawn.push(createProjectionView({
       element: byId("elevation"),
@@ -131,6 +132,7 @@ async function start() {
       depthAxis: 1,
       reachKey: "reachElevation",
       viewerSide: -1,
+      onMoveCarriage: (valueMm) => cellSync.moveCarriage(valueMm),
     }));
     drawn.push(createJointMapView({
       element: byId("joint-map"),

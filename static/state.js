@@ -18,7 +18,10 @@
  *   selectedBranch  {label, shoulder, elbow, wrist} of the branch the arm follows, or null
  *   follow          the arm follows the target on the selected branch
  *   dragging        a pointer drag is in progress in a 2D view
- *   dragKind        what is dragged: "target" or "fixture" (plan, elevation) or "joints" (joint map), or null
+ *   dragKind        what is dragged: "target", "fixture" or "carriage" (plan, elevation) or "joints"
+ *                   (joint map), or null
+ *   carriage        {value_mm}: the track's carriage as dragged on the page (the arm rides on it; saved
+ *                   as the track's home_mm when the drag ends), or null: the cell's value
  *   mapJoints       [i, j]: joint indices on the joint map's horizontal and vertical axes
  *   stepMm          nudge step and snapping grid for positions, mm
  *   stepDeg         nudge step for angles, deg
@@ -73,6 +76,7 @@ export function initialState() {
     follow: true,
     dragging: false,
     dragKind: null,
+    carriage: null,
     mapJoints: [0, 1],
     stepMm: 10,
     stepDeg: 5,

@@ -87,10 +87,11 @@ export function createProjectionView({
   viewerSide,
   reachKey,
   onDropFile = null,
+  onMoveCarriage = null,
 }) {
   const [h, v] = axes;
   const third = [0, 1, 2].find((k) => k !== h && k !== v);
-  let dragged = null; // "target" or "fixture" while a drag is in progress
+  let dragged = null; // "target", "fixture" or "carriage" while a drag is in progress
 
   function ranges(state) {
     const [low, high] = viewBounds(state);
@@ -405,6 +406,32 @@ export function createProjectionView({
   store.subscribe(placeMarkers, { keys: ["target", "fixture", "selection"] });
   new ResizeObserver(placeMarkers).observe(element);
 
+  /** The cell's track drawing while the page shows the cell, or null. */
+  function trackAxis(state) {
+    if (!state.cellActive || !state.cell) {
+      return null;
+    }
+    return (state.cell.scene.external_axes || []).find((axis) => axis.kind === "track") || null;
+  }
+
+  /** Squared length of the track's direction in this view's two axes (0: the rail points at the viewer). */
+  function alongView(track) {
+    return track.direction[h] ** 2 + track.direction[v] ** 2;
+  }
+
+  /**
+   * The track value (mm) under the pointer: the carriage's drawn value plus the pointer's
+   * offset from it projected on the rail's direction in this view, kept in the range.
+   */
+  function carriageValue(track, point) {
+    const d = track.direction;
+    const p = track.position_mm;
+    const offset = ((point.x - p[h]) * d[h] + (point.y - p[v]) * d[v]) / alongView(track);
+    const { snap, stepMm } = store.get();
+    const value = track.value + offset;
+    return Math.min(track.upper, Math.max(track.lower, snap ? snapToStep(value, stepMm) : value));
+  }
+
   /** A pose ({position_mm, ...}) moved to the pointer in this view's two axes. */
   function movedTo(pose, point) {
     const { snap, stepMm } = store.get();
@@ -432,6 +459,13 @@ export function createProjectionView({
         element.focus({ preventScroll: true });
         return true;
       }
+      // the track's carriage: dragging it moves the track (the arm rides on it)
+      const track = trackAxis(state);
+      if (track && !readOnly && alongView(track) > 1e-6 && pixelDistance(track.position_mm) <= Math.min(GRAB_RADIUS_PX, distance)) {
+        dragged = "carriage";
+        element.focus({ preventScroll: true });
+        return true;
+      }
       if (!target) {
         return false;
       }
@@ -456,10 +490,16 @@ export function createProjectionView({
         actions.setTarget(movedTo(state.target, point), { inputAt: event.timeStamp });
       } else if (dragged === "fixture" && state.fixture) {
         actions.setFixture(movedTo(state.fixture, point));
+      } else if (dragged === "carriage") {
+        actions.setCarriage(carriageValue(trackAxis(state), point));
       }
     },
     onRelease: () => {
+      const carriage = dragged === "carriage" ? store.get().carriage : null;
       dragged = null;
+      if (carriage && onMoveCarriage) {
+        onMoveCarriage(carriage.value_mm);
+      }
     },
   });
 

@@ -13,7 +13,9 @@ from typing import Any
 
 import httpx
 import numpy as np
+import pytest
 
+from posebridge.bench.browser import figure_pixel
 from posebridge.resources import data_folder
 
 TRACK_DEMO = data_folder("robots") / "demo-track-cell.json"
@@ -90,4 +92,60 @@ def test_track_cell_margins_drawing_and_log(open_page: Any, tmp_path: Path) -> N
     page.fill("#log-scrub", "1")
     page.dispatch_event("#log-scrub", "input")
     assert page.inner_text("#log-row") == "row 1 · track 1500.0 mm, table-1 0.0 deg"
+    assert not open_page.problems.page_errors
+
+
+def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_path: Path) -> None:
+    page = open_page.page
+    _show_track_cell(open_page)
+    base_before = page.evaluate("() => window.posebridge.getState().cell.scene.base.position_mm")
+    tcp_before = page.evaluate("() => window.posebridge.getState().fk.position_mm")
+    start = figure_pixel(page, "plan", 0.0, 0.0)  # the carriage at the track's home, 0 mm
+    end = figure_pixel(page, "plan", 1000.0, 0.0)
+    page.mouse.move(*start)
+    page.mouse.down()
+    page.mouse.move(end[0], end[1], steps=6)
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState();"
+        " return Boolean(s.carriage && s.fk && s.fk.frames_position_mm[0][0] > 500); }",
+        timeout=60_000,
+    )
+    riding = page.evaluate(
+        "() => { const s = window.posebridge.getState();"
+        " return {carriage: s.carriage.value_mm, tcp: s.fk.position_mm, fkJoints: s.fkJoints,"
+        " joints: s.joints, frames: s.fk.frames_position_mm}; }"
+    )
+    # closed form: the joints are held, so the tool rides along x by the carriage's travel
+    assert riding["fkJoints"] == riding["joints"]
+    np.testing.assert_allclose(
+        np.subtract(riding["tcp"], tcp_before), [riding["carriage"], 0.0, 0.0], atol=1e-6
+    )
+    page.mouse.up()
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState();"
+        " return s.carriage === null && s.cell.scene.external_axes[0].value > 500; }",
+        timeout=60_000,
+    )
+    state = page.evaluate(
+        "() => { const s = window.posebridge.getState();"
+        " return {value: s.cell.scene.external_axes[0].value, base: s.cell.scene.base.position_mm,"
+        " file: s.cell.cell.track.home_mm}; }"
+    )
+    value = state["value"]
+    # a pixel of the plan is a few millimetres here: the drop lands near 1000 mm
+    assert abs(value - 1000.0) < 30.0
+    # closed form: the rail runs along world x, so the base moves by the track value along x
+    np.testing.assert_allclose(
+        np.subtract(state["base"], base_before), [value, 0.0, 0.0], atol=1e-6
+    )
+    saved = json.loads(cell_path.read_text())
+    # the file keeps micrometres (rounded on save)
+    assert saved["track"]["home_mm"] == pytest.approx(value, abs=1e-3) == state["file"]
+    page.wait_for_function(
+        "(x) => { const s = window.posebridge.getState();"
+        " return Boolean(s.fk && s.fkJoints === s.joints"
+        " && Math.abs(s.fk.frames_position_mm[0][0] - x) < 1e-6); }",
+        arg=state["base"][0],
+        timeout=60_000,
+    )
     assert not open_page.problems.page_errors

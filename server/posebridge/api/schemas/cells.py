@@ -186,6 +186,15 @@ class ExternalAxisDrawing(BaseModel):
     lower: float
     upper: float
     value: float
+    position_mm: list[float] = Field(
+        default_factory=lambda: [0.0, 0.0, 0.0],
+        description="Track: the carriage-top centre at the value; turntable: the plate's top "
+        "centre (world).",
+    )
+    direction: list[float] = Field(
+        default_factory=lambda: [1.0, 0.0, 0.0],
+        description="Track: the unit direction of travel; turntable: the unit turning axis.",
+    )
 
 
 class SceneDrawing(BaseModel):
@@ -385,6 +394,24 @@ def _rail(scene: Scene) -> BoxSet:
     return BoxSet((f"{external.names[0]} rail",), (track.T_world_rail @ centre)[None], half[None])
 
 
+def _axis_point_mm(scene: Scene, axis: int) -> list[float]:
+    """Give the carriage-top centre of the track, or a turntable's plate centre, world mm."""
+    external = scene.external
+    if external.track is not None and axis == 0:
+        point = external.track.T_world_carriage(external.values[0])[0][:3, 3]
+    else:
+        point = external.turntables[axis - external.table_offset].point
+    return [float(v) for v in mm_from_m(point)]
+
+
+def _axis_direction(scene: Scene, axis: int) -> list[float]:
+    """Give the track's direction of travel, or a turntable's axis (unit vectors)."""
+    external = scene.external
+    if external.track is not None and axis == 0:
+        return [float(v) for v in external.track.direction]
+    return [float(v) for v in external.turntables[axis - external.table_offset].axis]
+
+
 def scene_drawing(scene: Scene) -> SceneDrawing:
     """Return the drawing of a resolved scene in world mm and deg."""
     base_position, base_rpy = _pose_mm_deg(scene.T_world_base)
@@ -464,6 +491,8 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
                 lower=float(lower[i]),
                 upper=float(upper[i]),
                 value=float(values[i]),
+                position_mm=_axis_point_mm(scene, i),
+                direction=_axis_direction(scene, i),
             )
             for i, name in enumerate(external.names)
         ],
