@@ -1,6 +1,6 @@
 // Target check panel: every target reachable or why not, the recommended
-// branch, whether one branch reaches them all (and which targets break it),
-// and the findings, errors first. It runs again whenever the cell changes, so
+// branch and why, whether one branch reaches them all (and which targets break
+// it), and the findings, errors first (a target moved off its fixture among them). It runs again whenever the cell changes, so
 // a target dragged onto the consistent branch is seen to fix its finding.
 // Clicking a row or a finding selects its target.
 
@@ -70,6 +70,7 @@ export function createTargetCheckPanel({ container, store, actions, api }) {
         element("td", { text: target.target.recommended_branch || "–" }),
         element("td", { text: target.required_branch || "any" }),
         element("td", { text: breaking ? "breaks it" : "on it" }),
+        element("td", { className: "pb-why", text: target.target.recommended_reason || "–" }),
       ]);
       row.addEventListener("click", () => actions.select({ kind: "target", name: target.name }));
       return row;
@@ -77,7 +78,7 @@ export function createTargetCheckPanel({ container, store, actions, api }) {
     table.replaceChildren(
       element("table", { className: "pb-solutions" }, [
         element("thead", {}, [
-          element("tr", {}, ["Target", "Reachable", "Recommended branch", "Required", "Common branch"].map((text) => element("th", { text }))),
+          element("tr", {}, ["Target", "Reachable", "Recommended branch", "Required", "Common branch", "Why this branch"].map((text) => element("th", { text }))),
         ]),
         element("tbody", {}, rows),
       ]),

@@ -294,3 +294,37 @@ def test_path_findings_of_one_cause_are_one_item(open_page: Any, artifacts: Path
         assert f"{group['count']} × {group['cause']}" in texts[index]
     page.screenshot(path=str(artifacts / "page-path-finding-groups.png"), full_page=True)
     assert open_page.problems.console_errors == []
+
+
+def test_target_check_flags_a_target_off_its_fixture_and_says_why(
+    open_page: Any, cell_path: Path, artifacts: Path
+) -> None:
+    page = open_page.page
+    data = load_cell(cell_path).model_dump(mode="json", exclude_none=True)
+    drop = next(t for t in data["targets"] if t["name"] == "reject-drop")
+    drop["position_mm"][0] += 400.0  # dragged 400 mm off its bin (in the bin frame)
+    etag = page.evaluate(STATE)["cell"]["etag"]
+    put = httpx.put(
+        open_page.base_url + "api/cell", json=data, headers={"If-Match": etag}, timeout=30
+    )
+    assert put.status_code == 200, put.text
+    page.reload()
+    open_page.wait_settled()
+    page.wait_for_function(
+        "(etag) => { const s = window.posebridge.getState(); return Boolean(s.targetCheck"
+        " && s.cell && s.targetCheck.etag === s.cell.etag && s.cell.etag === etag); }",
+        arg=put.json()["etag"],
+        timeout=60_000,
+    )
+    # the check run here in Python on the same file is the reference (tests/cell/test_checks.py)
+    expected = check_targets(resolve_scene(load_cell(cell_path)))
+    (finding,) = [f for f in expected.findings if f.code == "off-fixture"]
+    assert finding.target == "reject-drop"
+    row = page.locator("#target-check-findings li[data-code='off-fixture']")
+    assert row.count() == 1
+    assert finding.message in row.inner_text()
+    for check in expected.targets:
+        why = page.inner_text(f"#target-check-table tr[data-target='{check.name}'] td.pb-why")
+        assert why == (check.target.recommended_reason or "–")
+    page.screenshot(path=str(artifacts / "page-target-off-fixture.png"), full_page=True)
+    assert open_page.problems.console_errors == []

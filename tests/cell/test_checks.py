@@ -190,12 +190,14 @@ def test_recommended_branch_follows_the_documented_score(report) -> None:
             assert chosen.usable
             if check.approach is None or pose is check.approach:
                 continue
-            # the target's pick is the best usable branch that its approach pose shares
+            # the target's pick is the best usable branch that its approach pose shares, on the
+            # cell's common branch when it can be (module docstring of cell/checks.py)
             shared = {(b.shoulder, b.elbow, b.wrist) for b in check.approach.branches if b.usable}
             candidates = [
                 b for b in pose.branches if b.usable and (b.shoulder, b.elbow, b.wrist) in shared
             ]
-            assert chosen.score == max(b.score for b in candidates)
+            common = [b for b in candidates if b.branch.startswith(report.consistent_branch.branch)]
+            assert chosen.score == max(b.score for b in common or candidates)
     assert checked > 0
 
 
@@ -482,3 +484,80 @@ def test_repeated_findings_are_grouped_by_cause(report) -> None:
     text = render_target_check(report)
     assert f"{group.count} x clearance {pair}; worst" in text
     assert text.count(f"x clearance {pair}") == 1
+
+
+def test_recommended_and_common_branch_never_contradict(report) -> None:
+    common = report.consistent_branch.branch
+    assert common is not None
+    for check in report.targets:
+        recommended = check.target.recommended_branch
+        if recommended is None:
+            continue
+        # our own contract: a target usable on the common branch is recommended on it
+        if common in check.usable_branches:
+            assert recommended.startswith(common)
+            assert check.target.recommended_reason.endswith(
+                f"same branch as {len(report.consistent_branch.coverage[0].targets_clear)} "
+                f"of {len(report.targets)} targets"
+            )
+        else:
+            assert not recommended.startswith(common)
+            assert check.target.recommended_reason.endswith(
+                "the cell's common branch is not usable here"
+            )
+
+
+def test_recommended_branch_says_why(report) -> None:
+    for check in report.targets:
+        for pose in (check.target, check.approach):
+            if pose is not None:
+                assert bool(pose.recommended_reason) == (pose.recommended is not None)
+    # press-load: the required branch front, up, negative leaves one usable branch (counted here)
+    press = target(report, "press-load").target
+    usable = {(b.shoulder, b.elbow, b.wrist) for b in press.branches if b.usable}
+    assert usable == {(1, 1, -1)}
+    assert press.recommended_reason.startswith("the only usable branch")
+    # reject-drop: off the common branch, chosen over the other back branch by a score term
+    drop = target(report, "reject-drop").target
+    chosen = drop.branches[drop.recommended]
+    runner = max(
+        (b for b in drop.branches if b.usable and b.wrist != chosen.wrist), key=lambda b: b.score
+    )
+    gains = {
+        # the score terms of the documented rule (report.score_rule), closed form
+        "largest smallest limit margin": min(chosen.min_margin_fraction / 0.1, 1.0)
+        - min(runner.min_margin_fraction / 0.1, 1.0),
+        "largest clearance": min(chosen.clearance_mm / 100.0, 1.0)
+        - min(runner.clearance_mm / 100.0, 1.0),
+    }
+    deciding = max(gains, key=lambda k: gains[k])
+    assert drop.recommended_reason.startswith(deciding)
+    if deciding == "largest smallest limit margin":
+        assert f"{chosen.min_margin:.1f}° on {chosen.min_margin_joint}" in drop.recommended_reason
+
+
+def test_a_target_moved_off_its_fixture_is_flagged(report) -> None:
+    # the demo's targets sit on their fixtures: reject-drop is the farthest, 149.06 mm above
+    # the bin (target z 449.06 mm in the bin frame, bin half height 300 mm: closed form)
+    assert target(report, "reject-drop").fixture_distance_mm == pytest.approx(149.06, abs=1e-6)
+    assert not [f for f in report.findings if f.code == "off-fixture"]
+
+    def drag(d: dict) -> None:
+        (drop,) = [t for t in d["targets"] if t["name"] == "reject-drop"]
+        drop["position_mm"][0] += 400.0
+
+    moved = check_targets(variant(drag))
+    (drop,) = [t for t in RAW["targets"] if t["name"] == "reject-drop"]
+    x, y, z = drop["position_mm"]
+    # closed form: point to solid cylinder (radius 220 mm, half height 300 mm, bin frame)
+    expected = np.hypot(np.hypot(x + 400.0, y) - 220.0, z - 300.0)
+    check = target(moved, "reject-drop")
+    assert check.fixture_distance_mm == pytest.approx(expected, abs=1e-6)
+    (finding,) = findings(moved, "reject-drop", "off-fixture")
+    assert finding.severity == "warning"
+    assert finding.value == pytest.approx(expected, abs=1e-6)
+    # threshold: QualityThresholds.fixture_distance_mm (common practice, no source)
+    assert finding.threshold == 200.0
+    assert "reject-bin" in finding.message
+    relaxed = check_targets(variant(drag), QualityThresholds(fixture_distance_mm=300.0))
+    assert not findings(relaxed, "reject-drop", "off-fixture")

@@ -15,9 +15,19 @@ margins, manipulability, singularity, clearance) and decides per pose:
 * **recommended** solution: the usable one with the highest
   :func:`~posebridge.cell.quality.branch_score` (rule in
   :data:`~posebridge.cell.quality.SCORE_RULE`), preferring, for a target, the
-  shoulder/elbow/wrist branches on which its approach pose is usable too; the
+  shoulder/elbow/wrist branches on which its approach pose is usable too, and
+  among those the cell's common branch (below) when the target is usable on it,
+  so the recommended and the common branch never contradict each other; the
   approach pose's recommendation is then taken on the target's branch when
-  it can be (a straight approach move cannot change branch).
+  it can be (a straight approach move cannot change branch). Each
+  recommendation says why in words (``recommended_reason``): the score term
+  that sets it apart from the next-best branch ("largest smallest limit margin,
+  23.0 deg on j5"), and whether it is the common branch ("same branch as 5 of 6
+  targets");
+* **off its fixture**: a target whose TCP point is farther than
+  ``fixture_distance_mm`` from the solid of its fixture
+  (:func:`~posebridge.cell.target_fixture.target_fixture_distances`) gets a
+  warning: it still moves with the fixture, but was probably dragged away from it.
 
 Branches are compared by their shoulder/elbow/wrist labels; a label 0 (exactly
 singular) is compatible with either sign. The **consistent branch** analysis
@@ -52,6 +62,7 @@ from posebridge.cell.quality import (
     ConfigurationQuality,
     branch_report,
     branch_score,
+    branch_score_terms,
     branch_words,
     evaluate_configurations,
     full_branch_words,
@@ -72,6 +83,7 @@ from posebridge.cell.reports import (
     group_findings,
 )
 from posebridge.cell.scene import Scene, TargetSet, posed_scene
+from posebridge.cell.target_fixture import target_fixture_distances
 from posebridge.kinematics.branches import BRANCH_LABELS, branch_geometry, labels_match
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
@@ -181,6 +193,7 @@ class _Checker:
             scene, solutions.q[pose_index, slot_index].reshape(-1, self.robot.dof), thresholds
         )
         self.score = branch_score(self.quality)
+        self.score_terms = branch_score_terms(self.quality)
         self._labels = np.stack(
             [self.quality.shoulder, self.quality.elbow, self.quality.wrist], axis=1
         )
@@ -238,7 +251,7 @@ class _Checker:
     def _usable_triples(self, pose: _Pose) -> list[Triple]:
         return list(dict.fromkeys(_triple(self.quality, k) for k in pose.slots if self.usable[k]))
 
-    def _pose_check(self, pose: _Pose, recommended: int | None) -> PoseCheck:
+    def _pose_check(self, pose: _Pose, recommended: int | None, reason: str) -> PoseCheck:
         quality = self.quality
         rpy = rpy_from_rotation_matrix(self.T_world[pose.number, :3, :3], degrees=True)
         reports = [
@@ -262,6 +275,7 @@ class _Checker:
             branches=reports,
             recommended=index,
             recommended_branch=None if index is None else reports[index].branch,
+            recommended_reason=reason,
         )
 
     # --- findings ---------------------------------------------------------------------
@@ -360,9 +374,11 @@ class _Checker:
         return mask
 
     def _choose(
-        self, target: _Pose, approach: _Pose | None, triples: list[Triple]
+        self, target: _Pose, approach: _Pose | None, triples: list[Triple], common: Triple | None
     ) -> tuple[int | None, int | None]:
         """Recommended target and approach solutions (module docstring)."""
+        on_common = [t for t in triples if common is not None and _compatible(t, common)]
+        triples = on_common or triples
         keep = self.usable & self._on_any(triples) if triples else self.usable
         best_target = self._best(target.slots, keep)
         if approach is None:
@@ -401,18 +417,82 @@ class _Checker:
             words = full_branch_words(self.quality, fallback, self.slot_revolutions[fallback])
             self._add_quality(fallback, name, pose.kind, f"on the best in-limit branch {words}: ")
 
-    def _common_findings(
-        self, target: _Pose, best: int | None, common: Triple | None, common_words: str
-    ) -> None:
-        """Quality findings on the cell's common branch where it differs from the recommended one."""
-        if common is None or best is None or _compatible(_triple(self.quality, best), common):
+    def _term_words(self, k: int, term: int) -> str:
+        """Describe the score term ``term`` (0 margin, 1 clearance, 2 singularity) of solution ``k``."""
+        quality = self.quality
+        if term == 0:
+            joint = int(quality.margins.min_joint[k])
+            margin = float(quality.margins.min_margin[k])
+            if self.robot.prismatic[joint]:
+                value = f"{float(mm_from_m(margin)):.1f} mm"
+            else:
+                value = f"{float(deg_from_rad(margin)):.1f}°"
+            return f"largest smallest limit margin, {value} on {self.robot.joint_names[joint]}"
+        if term == 1:
+            return f"largest clearance, {float(mm_from_m(quality.clearance[k])):.0f} mm"
+        ratio = quality.singularity_ratio()
+        if ratio is None:
+            return "farthest from a singularity"
+        return f"farthest from a singularity, {float(ratio[k]):.1f} times the warning distance"
+
+    def _words(self, k: int) -> str:
+        return full_branch_words(self.quality, k, self.slot_revolutions[k])
+
+    def _why(
+        self, pose: _Pose, best: int | None, anchor: Triple | None, on_text: str, off_text: str
+    ) -> str:
+        """Why ``best`` is recommended for ``pose``, in words (module docstring).
+
+        ``anchor`` is the branch the pose should share (the cell's common branch for a
+        target, the target's branch for its approach pose); ``on_text``/``off_text`` say
+        whether it does.
+        """
+        if best is None:
+            return ""
+        own = _triple(self.quality, best)
+        others = [
+            k
+            for k in pose.slots
+            if self.usable[k] and not _compatible(_triple(self.quality, k), own)
+        ]
+        if not others:
+            parts = ["the only usable branch"]
+        else:
+            runner = max(others, key=lambda k: float(self.score[k]))
+            gain = self.score_terms[best] - self.score_terms[runner]
+            if self.score[runner] > self.score[best]:
+                parts = [
+                    f"{self._words(runner)} scores higher ({float(self.score[runner]):.2f} against "
+                    f"{float(self.score[best]):.2f}) but keeping one branch comes first"
+                ]
+            elif float(gain.max()) <= 0.0:
+                parts = [f"ties with {self._words(runner)} on every score term; first in IK order"]
+            else:
+                parts = [self._term_words(best, int(np.argmax(gain)))]
+        if anchor is not None:
+            parts.append(on_text if _compatible(own, anchor) else off_text)
+        return "; ".join(parts)
+
+    def _fixture_finding(self, i: int, distance_m: float) -> None:
+        """Warn when target ``i`` is farther than the threshold from its fixture."""
+        limit_mm = self.thresholds.fixture_distance_mm
+        distance_mm = float(mm_from_m(distance_m))
+        if not distance_mm > limit_mm:
             return
-        on_common = self._best(target.slots, self.usable & self._on_branch(common))
-        if on_common is not None:
-            name = self.scene.targets.names[target.target]
-            self._add_quality(
-                on_common, name, "target", f"on the cell's common branch {common_words}: "
+        fixture = self.scene.targets.fixtures[i]
+        self.findings.append(
+            Finding(
+                severity="warning",
+                code="off-fixture",
+                target=self.scene.targets.names[i],
+                pose="target",
+                message=f"{distance_mm:.0f} mm from its fixture {fixture} (more than "
+                f"{limit_mm:.0f} mm): moved off the fixture it belongs to?",
+                value=distance_mm,
+                unit="mm",
+                threshold=limit_mm,
             )
+        )
 
     def run(self) -> TargetCheckReport:
         scene = self.scene
@@ -428,10 +508,6 @@ class _Checker:
                 reached = self._usable_triples(approach)
                 triples = [t for t in triples if any(_compatible(t, a) for a in reached)]
             usable_triples[i] = triples
-        chosen = {
-            i: self._choose(by_target[i]["target"], by_target[i].get("approach"), usable_triples[i])
-            for i in range(len(names))
-        }
         coverage = self._coverage(usable_triples)
         common = next(
             (
@@ -441,6 +517,18 @@ class _Checker:
             ),
             None,
         )
+        common_text = (
+            ""
+            if not coverage.coverage
+            else f"same branch as {len(coverage.coverage[0].targets_clear)} of {len(names)} targets"
+        )
+        chosen = {
+            i: self._choose(
+                by_target[i]["target"], by_target[i].get("approach"), usable_triples[i], common
+            )
+            for i in range(len(names))
+        }
+        fixture_distances = target_fixture_distances(scene)
         checks: list[TargetCheck] = []
         for i, name in enumerate(names):
             target = by_target[i]["target"]
@@ -450,19 +538,42 @@ class _Checker:
             if approach is not None:
                 self._pose_findings(approach, best_approach, name)
             self._branch_limited(target, name)
-            self._common_findings(target, best_target, common, coverage.branch or "")
+            self._fixture_finding(i, float(fixture_distances[i]))
             checks.append(
                 TargetCheck(
                     name=name,
                     fixture=scene.targets.fixtures[i],
                     required_branch=required_branch_words(scene.targets.branches[i]),
                     approach_offset_mm=float(mm_from_m(scene.targets.approach_offset[i])),
+                    fixture_distance_mm=None
+                    if np.isnan(fixture_distances[i])
+                    else float(mm_from_m(fixture_distances[i])),
                     reachable=bool(usable_triples[i]),
                     usable_branches=[branch_words(self.scheme, *t) for t in usable_triples[i]],
-                    target=self._pose_check(target, best_target),
+                    target=self._pose_check(
+                        target,
+                        best_target,
+                        self._why(
+                            target,
+                            best_target,
+                            common,
+                            common_text,
+                            "the cell's common branch is not usable here",
+                        ),
+                    ),
                     approach=None
                     if approach is None
-                    else self._pose_check(approach, best_approach),
+                    else self._pose_check(
+                        approach,
+                        best_approach,
+                        self._why(
+                            approach,
+                            best_approach,
+                            None if best_target is None else _triple(self.quality, best_target),
+                            "the target's branch (a straight approach move keeps it)",
+                            "not the target's branch",
+                        ),
+                    ),
                 )
             )
         self.findings.extend(_coverage_findings(coverage, len(names)))

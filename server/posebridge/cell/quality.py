@@ -87,6 +87,7 @@ __all__ = [
     "ConfigurationQuality",
     "branch_report",
     "branch_score",
+    "branch_score_terms",
     "branch_words",
     "closest_pair_model",
     "evaluate_configurations",
@@ -293,13 +294,10 @@ def evaluate_configurations(
     )
 
 
-def branch_score(quality: ConfigurationQuality) -> FloatArray:
-    """Recommendation score of each configuration, in [0, 1], shape (N,).
+def branch_score_terms(quality: ConfigurationQuality) -> FloatArray:
+    """Compute the three terms of :func:`branch_score`, each clipped to [0, 1], shape (N, 3).
 
-    The rule is :data:`SCORE_RULE`: the mean of three saturating terms
-    (limit margin, clearance, distance from singularity), so that once a
-    branch is comfortably away from one hazard the others decide (common
-    practice, no source).
+    Columns: limit margin, clearance, distance from singularity (:data:`SCORE_RULE`).
     """
     t = quality.thresholds
     margin = np.clip(quality.margins.min_fraction / t.score_margin_fraction, 0.0, 1.0)
@@ -309,7 +307,18 @@ def branch_score(quality: ConfigurationQuality) -> FloatArray:
         singular = np.clip(quality.inverse_condition, 0.0, 1.0)
     else:
         singular = np.clip(ratio / t.score_singularity_ratio, 0.0, 1.0)
-    return (margin + clearance + singular) / 3.0
+    return np.stack([margin, clearance, singular], axis=1)
+
+
+def branch_score(quality: ConfigurationQuality) -> FloatArray:
+    """Recommendation score of each configuration, in [0, 1], shape (N,).
+
+    The rule is :data:`SCORE_RULE`: the mean of three saturating terms
+    (:func:`branch_score_terms`: limit margin, clearance, distance from
+    singularity), so that once a branch is comfortably away from one hazard
+    the others decide (common practice, no source).
+    """
+    return np.asarray(branch_score_terms(quality).mean(axis=1))
 
 
 def proximity_ratio(quality: ConfigurationQuality) -> FloatArray:

@@ -174,10 +174,25 @@ def render_target_check(report: TargetCheckReport) -> str:
                 rows,
             ),
             *([_external_table(report)] if report.external_axis_names else []),
+            *(
+                [_reasons(report)]
+                if any(t.target.recommended_reason for t in report.targets)
+                else []
+            ),
             summary,
             _findings(report.findings),
         ]
     )
+
+
+def _reasons(report: TargetCheckReport) -> str:
+    """Why each target's branch is recommended, one line per reachable target."""
+    lines = [
+        f"  {target.name}: {target.target.recommended_reason}"
+        for target in report.targets
+        if target.target.recommended_reason
+    ]
+    return "\n".join(["Why these branches:", *lines])
 
 
 def _external_table(report: TargetCheckReport) -> str:

@@ -141,6 +141,13 @@ class QualityThresholds(_Result):
         ge=1,
         description="Branch score: this multiple of the singularity thresholds counts in full.",
     )
+    # common practice, no source: a drop or pick point sits within a hand's width of its part
+    fixture_distance_mm: float = Field(
+        default=200.0,
+        gt=0,
+        description="Target check: warn when a target's TCP point is farther than this from "
+        "the solid of the fixture it belongs to (moved off its fixture).",
+    )
 
 
 class ClosestPair(_Result):
@@ -249,6 +256,10 @@ class PoseCheck(_Result):
     branches: list[BranchReport]
     recommended: int | None = Field(description="Index into branches of the recommended one.")
     recommended_branch: str | None
+    recommended_reason: str = Field(
+        default="",
+        description="Why this branch is recommended, in words (empty when none is).",
+    )
 
 
 class ExternalAxisIntervals(_Result):
@@ -270,6 +281,11 @@ class TargetCheck(_Result):
     fixture: str
     required_branch: str | None = Field(description="Required shoulder/elbow/wrist words, if any.")
     approach_offset_mm: float
+    fixture_distance_mm: float | None = Field(
+        default=None,
+        description="Distance of the TCP point to the solid of its fixture (0 on or inside it); "
+        "null for targets in the world frame or on a frame without solids.",
+    )
     reachable: bool = Field(
         description="The target is reachable and so is its approach pose on the same branch."
     )
