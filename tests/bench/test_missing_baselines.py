@@ -7,8 +7,8 @@ import sys
 
 import pytest
 
-from posebridge.bench import clearance, drag, kinematics
-from posebridge.bench.runner import with_missing_reasons
+from posebridge.bench import clearance, drag, kinematics, runner
+from posebridge.bench.runner import Benchmark, run_benchmarks, with_missing_reasons
 
 
 def test_missing_reference_libraries_give_reason_keys(monkeypatch: pytest.MonkeyPatch) -> None:
@@ -28,6 +28,8 @@ def test_missing_reference_libraries_give_reason_keys(monkeypatch: pytest.Monkey
         ("clearance_ratio_vs_fcl_manager", "python-fcl"),
         ("drag_roundtrip_p95_ms", "Chromium"),
         ("drag_roundtrip_p50_ms", "Chromium"),
+        ("nudge_roundtrip_p95_ms", "Chromium"),
+        ("nudge_roundtrip_p50_ms", "Chromium"),
     ):
         assert key not in figures
         reason = figures[f"{key}_missing"]
@@ -44,3 +46,19 @@ def test_figures_that_came_out_empty_get_a_reason() -> None:
     assert "b_s" not in figures
     assert "not measured" in str(figures["b_s_missing"])
     assert figures["c_missing"] == "why"
+
+
+def test_only_runs_the_benchmarks_named(monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(
+        runner,
+        "BENCHMARKS",
+        (
+            Benchmark("dashboard page load", lambda quick: {"page_ms": 1.0}),
+            Benchmark("clearance", lambda quick: {"clearance_s": 2.0}),
+        ),
+    )
+    seen: list[str] = []
+    # our own contract: a benchmark runs when its name contains one of the words
+    assert run_benchmarks(quick=True, progress=seen.append, only=["dashboard"]) == {"page_ms": 1.0}
+    assert seen == ["dashboard page load"]
+    assert run_benchmarks(quick=True) == {"page_ms": 1.0, "clearance_s": 2.0}

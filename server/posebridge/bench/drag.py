@@ -1,12 +1,13 @@
-"""Drag-to-update round trip of the dashboard, measured in a headless browser.
+"""Drag-to-update and nudge-to-update round trips of the dashboard, in a headless browser.
 
-One sample: the pointer moves the target in the plan view; the page records
-the time from that input event (its ``timeStamp``) to the moment the joint map
-has drawn the inverse kinematics markers for the new target (the page's
-``posebridge:ik-rendered`` event). Samples are taken one after another, so
-each includes the request, the solver, the answer and the redraw. Sampling
-starts once the page has settled (on a cell: joint maps and target check
-drawn).
+One drag sample: the pointer moves the target in the plan view; the page
+records the time from that input event (its ``timeStamp``) to the moment the
+joint map has drawn the inverse kinematics markers for the new target (the
+page's ``posebridge:ik-rendered`` event). One nudge sample: an arrow key
+pressed in the plan view moves the target by one step, timed the same way. Samples are taken
+one after another, so each includes the request, the solver, the answer and
+the redraw. Sampling starts once the page has settled (on a cell: joint maps
+and target check drawn).
 
 Needs the ``playwright`` Python package and a Chromium binary (Debian's
 ``chromium`` package by default); no browser is downloaded.
@@ -27,7 +28,7 @@ from posebridge.bench.browser import (
     plan_marker_position,
 )
 
-__all__ = ["bench_drag", "measure_drag_roundtrip"]
+__all__ = ["bench_drag", "measure_drag_roundtrip", "measure_nudge_roundtrip"]
 
 _VIEWPORT = {"width": 1600, "height": 1250}
 _READY_TIMEOUT_MS = 60_000
@@ -123,6 +124,33 @@ def _drag_samples(browser: Any, base_url: str, samples: int) -> tuple[list[float
     return times, missed
 
 
+def measure_nudge_roundtrip(base_url: str, samples: int, *, browser: Any) -> dict[str, float]:
+    """Nudge the target ``samples`` times with the arrow keys in the plan view.
+
+    Each key press is waited for (its markers drawn) before the next; the keys
+    alternate right and left so the target stays near its start. Returns the
+    same figures as :func:`measure_drag_roundtrip`.
+    """
+    times: list[float] = []
+    missed = 0
+    page = browser.new_page(viewport=_VIEWPORT)
+    try:
+        page.goto(base_url)
+        page.wait_for_function(_READY_SCRIPT, timeout=_READY_TIMEOUT_MS)
+        page.focus("#plan")
+        for k in range(samples):
+            page.evaluate(_ARM_SCRIPT, _SAMPLE_TIMEOUT_MS)
+            page.keyboard.press("ArrowRight" if k % 2 == 0 else "ArrowLeft")
+            detail = page.evaluate("() => window.__posebridgeNextRender")
+            if detail is None:
+                missed += 1
+            else:
+                times.append(float(detail["elapsedMs"]))
+    finally:
+        page.close()
+    return _summary(times, missed)
+
+
 def _summary(times: list[float], missed: int) -> dict[str, float]:
     if not times:
         nan = float("nan")
@@ -154,18 +182,35 @@ BROWSER_MISSING = (
 def bench_drag(quick: bool) -> dict[str, float | str]:
     """Drag round trip on the six-axis demo robot against a loopback server started here.
 
-    Returns ``drag_roundtrip_p95_ms`` and ``drag_roundtrip_p50_ms``; without
-    Chromium or playwright their ``_missing`` keys with the reason. Target: p95
-    at most 50 ms.
+    Returns ``drag_roundtrip_p95_ms`` and ``drag_roundtrip_p50_ms``, and the arrow-key
+    nudge round trip on the same page and server, ``nudge_roundtrip_p95_ms`` and
+    ``nudge_roundtrip_p50_ms``; without Chromium or playwright their ``_missing`` keys
+    with the reason. Target: drag p95 at most 50 ms; nudges as fast as drags.
     """
+    keys = (
+        "drag_roundtrip_p95_ms",
+        "drag_roundtrip_p50_ms",
+        "nudge_roundtrip_p95_ms",
+        "nudge_roundtrip_p50_ms",
+    )
+    if not chromium_available():
+        return {f"{key}_missing": BROWSER_MISSING for key in keys}
+    from playwright.sync_api import sync_playwright
+
     from posebridge.api.server import background_server
     from posebridge.api.settings import Settings
 
-    if not chromium_available():
-        return {
-            "drag_roundtrip_p95_ms_missing": BROWSER_MISSING,
-            "drag_roundtrip_p50_ms_missing": BROWSER_MISSING,
-        }
-    with background_server(Settings(robot="pb-arm6")) as url:
-        result = measure_drag_roundtrip(url, 20 if quick else 50)
-    return {"drag_roundtrip_p95_ms": result["p95_ms"], "drag_roundtrip_p50_ms": result["p50_ms"]}
+    samples = 20 if quick else 50
+    with background_server(Settings(robot="pb-arm6")) as url, sync_playwright() as playwright:
+        browser = launch_chromium(playwright)
+        try:
+            drag = measure_drag_roundtrip(url, samples, browser=browser)
+            nudge = measure_nudge_roundtrip(url, samples, browser=browser)
+        finally:
+            browser.close()
+    return {
+        "drag_roundtrip_p95_ms": drag["p95_ms"],
+        "drag_roundtrip_p50_ms": drag["p50_ms"],
+        "nudge_roundtrip_p95_ms": nudge["p95_ms"],
+        "nudge_roundtrip_p50_ms": nudge["p50_ms"],
+    }

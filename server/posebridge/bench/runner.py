@@ -7,7 +7,7 @@ library not installed) is replaced by ``<key>_missing`` holding the reason.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from typing import NamedTuple
 
 from posebridge.bench.clearance import bench_clearance
@@ -54,15 +54,20 @@ BENCHMARKS: tuple[Benchmark, ...] = (
 
 
 def run_benchmarks(
-    *, quick: bool, progress: Callable[[str], None] | None = None
+    *, quick: bool, progress: Callable[[str], None] | None = None, only: Sequence[str] = ()
 ) -> dict[str, float | str]:
     """Run every benchmark in order; ``progress(name)`` is called before each.
+
+    With ``only``, just the benchmarks whose name contains one of its words
+    (``only=["dashboard"]``: page load and drag round trip).
 
     A figure that came out NaN or infinite (nothing measured) is replaced by
     ``<key>_missing`` saying so, so no figure is a bare ``null``.
     """
     figures: dict[str, float | str] = {}
     for benchmark in BENCHMARKS:
+        if only and not any(word in benchmark.name for word in only):
+            continue
         if progress is not None:
             progress(benchmark.name)
         figures.update(benchmark.run(quick))

@@ -31,7 +31,9 @@ def _cmd_serve(args: argparse.Namespace) -> int:
 def _cmd_bench(args: argparse.Namespace) -> int:
     from posebridge.bench.runner import run_benchmarks
 
-    figures = run_benchmarks(quick=args.quick, progress=None if args.json else _bench_progress)
+    figures = run_benchmarks(
+        quick=args.quick, progress=None if args.json else _bench_progress, only=args.only or ()
+    )
     if args.json:
         print_json(
             {k: (v if isinstance(v, str) or math.isfinite(v) else None) for k, v in figures.items()}
@@ -62,9 +64,15 @@ def add_serve(sub: Any, shared: SharedOptions) -> None:
 
 
 def add_bench(sub: Any, shared: SharedOptions) -> None:
-    """``posebridge bench [--quick] [--json]``."""
+    """``posebridge bench [--quick] [--json] [--only WORD]``."""
     command = sub.add_parser("bench", help="measure throughput and speed ratios")
     command.add_argument("--quick", action="store_true", help="smaller problems, same keys")
+    command.add_argument(
+        "--only",
+        action="append",
+        metavar="WORD",
+        help="run only the benchmarks whose name contains WORD (repeatable), e.g. dashboard",
+    )
     command.add_argument(
         "--json", action="store_true", help="print one flat JSON object of numbers"
     )
