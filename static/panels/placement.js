@@ -1,6 +1,8 @@
 // Placement panel: search base poses around the current one (a server job with
 // progress and cancel), show the score over the x–y grid for a chosen yaw and
-// pedestal height (or the best over all yaws), and the ranked candidates.
+// pedestal height (or the best over all yaws), and the ranked candidates. The
+// score is explained in words, candidates within the score's noise are shown
+// as ties, and a best candidate slower than the current base is said so.
 // Clicking a candidate or a grid cell moves the robot's base there: the cell
 // is edited and saved, and both halves follow. The candidates carry
 // `data-edits-cell` (review.js disables them for reviewers; the search itself
@@ -44,12 +46,16 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
   const yawSelect = element("select", { attributes: { id: "place-yaw", "aria-label": "Yaw shown" } });
   const heightSelect = element("select", { attributes: { id: "place-height", "aria-label": "Pedestal height shown" } });
   const summary = element("p", { className: "pb-note", attributes: { id: "place-summary" } });
+  const explained = element("p", { className: "pb-note", attributes: { id: "place-score-words" } });
+  const speed = element("p", { className: "pb-note pb-note-warn", attributes: { id: "place-speed" } });
   const heatmap = element("div", { className: "pb-plot pb-plot-placement", attributes: { id: "place-heatmap" } });
   const list = element("ol", { className: "pb-candidates", attributes: { id: "place-candidates" } });
   container.append(
     element("div", { className: "pb-fields" }, [width.label, count.label, yaws.label]),
     element("div", { className: "pb-controls" }, [run, progress, element("label", { text: "yaw " }, [yawSelect]), element("label", { text: "height " }, [heightSelect])]),
     summary,
+    explained,
+    speed,
     heatmap,
     list,
   );
@@ -127,7 +133,12 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     const heightIndex = Number(heightSelect.value || 0);
     summary.textContent =
       (stale ? "Out of date: the base or a fixture has moved since these scores; run the search again. " : "") +
-      `${placement.candidates_evaluated} base poses scored for ${placement.targets.length} targets. ${placement.score_note}`;
+      `${placement.candidates_evaluated} base poses scored for ${placement.targets.length} targets.`;
+    explained.textContent =
+      `${placement.score_words} Scores closer than ${formatNumber(placement.score_noise, { decimals: 3 })} ` +
+      "(the typical change over one grid step) are ties.";
+    speed.textContent = placement.speed_note;
+    speed.hidden = !placement.speed_note;
     heatmap.hidden = false;
     const best = placement.best[0];
     Plotly.react(
@@ -139,7 +150,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
           y: grid.y_mm,
           z: scorePlane(grid, yawIndex, heightIndex),
           colorscale: "Viridis",
-          colorbar: { title: { text: stale ? "score (out of date)" : "score" }, thickness: 10 },
+          colorbar: { title: { text: stale ? "score (out of date)" : "score (1 = every target)" }, thickness: 10 },
           opacity: stale ? 0.45 : 1,
           hovertemplate: "x %{x:.0f} mm<br>y %{y:.0f} mm<br>score %{z:.3f}<extra></extra>",
         },
@@ -198,11 +209,16 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     }
     list.replaceChildren(
       ...placement.best.map((candidate) => {
-        const item = element("li", { attributes: { tabindex: "0", "data-rank": String(candidate.rank), "data-edits-cell": "", title: "Move the base here" } }, [
+        const tied = candidate.tie_rank > 0 && candidate.tie_rank !== candidate.rank;
+        const current = placement.current_cycle_time_s;
+        const slower = candidate.cycle_time_s !== null && current !== null && candidate.cycle_time_s > current;
+        const item = element("li", { attributes: { tabindex: "0", "data-rank": String(candidate.rank), "data-tie-rank": String(candidate.tie_rank), "data-edits-cell": "", title: "Move the base here" } }, [
           `x ${formatNumber(candidate.x_mm, { decimals: 0 })}, y ${formatNumber(candidate.y_mm, { decimals: 0 })} mm, yaw ${formatNumber(candidate.yaw_deg, { decimals: 0 })} deg: `,
           element("strong", { text: `score ${formatNumber(candidate.score, { decimals: 3 })}` }),
-          ` — ${candidate.targets_reached} of ${placement.targets.length} targets on ${candidate.branch || "no branch"}`,
+          tied ? ` (a tie with rank ${candidate.tie_rank})` : "",
+          ` — reaches ${candidate.targets_reached} of ${placement.targets.length} targets on ${candidate.branch || "no branch"}`,
           candidate.cycle_time_s === null ? "" : `, cycle ${formatNumber(candidate.cycle_time_s, { decimals: 2 })} s`,
+          slower ? ` (slower than the current base's ${formatNumber(current, { decimals: 2 })} s)` : "",
         ]);
         const choose = () => moveTo(candidate.x_mm, candidate.y_mm, candidate.yaw_deg, candidate.pedestal_height_mm);
         item.addEventListener("click", choose);

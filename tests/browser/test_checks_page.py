@@ -73,6 +73,16 @@ def test_placement_moves_base(open_page: Any, cell_path: Path, artifacts: Path) 
     foot = page.evaluate(STATE)["cell"]["scene"]["base"]["position_mm"]
     assert page.evaluate(current_base) == pytest.approx(foot[:2])
     assert page.get_attribute("#place-heatmap", "data-stale") == "false"
+    # the score in words, ties within the score's noise, a slower best base said so (the
+    # report's fields, tested in tests/planning/test_placement.py)
+    placement = page.evaluate(STATE)["placement"]
+    assert placement["score_words"] in page.inner_text("#place-score-words")
+    for candidate in placement["best"]:
+        item = page.locator(f"#place-candidates li[data-rank='{candidate['rank']}']")
+        assert item.get_attribute("data-tie-rank") == str(candidate["tie_rank"])
+        tied = f"a tie with rank {candidate['tie_rank']}" in item.inner_text()
+        assert tied == (candidate["tie_rank"] != candidate["rank"])
+    assert page.is_visible("#place-speed") == bool(placement["speed_note"])
     # the best candidate that moves the base (the current base may rank first)
     k, best = next(
         (k, c) for k, c in enumerate(ranked) if [c["x_mm"], c["y_mm"]] != pytest.approx(foot[:2])

@@ -23,6 +23,7 @@ from posebridge.planning.placement import (
     CHUNK_CANDIDATES,
     PlacementGrid,
     PlacementResult,
+    score_noise,
     search_base_placement,
 )
 from posebridge.planning.reports import PlacementReport, render_placement
@@ -151,6 +152,14 @@ def test_default_grid_is_around_the_current_base() -> None:
     result = search_base_placement(scene, small, top=3)
     report = PlacementReport.model_validate_json(result.report.model_dump_json())
     assert report.current_score == pytest.approx(float(result.score[1, 1, 0, 0]))
+    assert report.current_cycle_time_s == pytest.approx(float(result.cycle_time[1, 1, 0, 0]))
+    # the best candidate slower than the current base is said so (our own contract)
+    best_s, current_s = report.best[0].cycle_time_s, report.current_cycle_time_s
+    slower = best_s is not None and current_s is not None and best_s > current_s
+    assert bool(report.speed_note) == slower
+    if slower:
+        assert "slower than the current one" in report.speed_note
+        assert report.speed_note in render_placement(report)
     assert np.array(report.grid.score).shape == small.shape
     assert len(report.best) == 3
     assert render_placement(report).startswith("Base placement for pb-arm6")
@@ -164,3 +173,30 @@ def test_bad_grids_are_refused() -> None:
     scene = resolve_scene(validate_cell({"robot": {"name": "pb-planar2r"}}))
     with pytest.raises(PlanningInputError, match="no targets"):
         search_base_placement(scene, grid_around_centre(3, 10.0))
+
+
+def test_score_noise_is_the_median_step_change_at_equal_reach() -> None:
+    # closed form on a 2 x 3 grid (rows y, columns x): steps between equal reach fractions are
+    # x in row 0: 0.02, 0.08; x in row 1: 0.01 (1.01 -> 0.7 changes reach); y in column 2:
+    # 0.1 (the other columns change reach); median of the four = 0.05
+    score = np.array([[0.5, 0.52, 0.6], [1.0, 1.01, 0.7]])[..., None, None]
+    fraction = np.array([[0.5, 0.5, 0.5], [1.0, 1.0, 0.5]])[..., None, None]
+    assert score_noise(score, fraction) == pytest.approx(0.05)
+    assert score_noise(score[:1, :1], fraction[:1, :1]) == 0.0
+
+
+def test_candidates_within_the_noise_are_ties() -> None:
+    scene = circle_cell()
+    result = search_base_placement(scene, grid_around_centre(7, 20.0), top=20)
+    report = result.report
+    noise = score_noise(result.score, result.reach_fraction)
+    assert report.score_noise == pytest.approx(noise)
+    assert "share of the targets" in report.score_words
+    group_top = report.best[0]
+    for candidate in report.best:
+        # our own contract: a new tie group starts where the score falls more than the
+        # noise below the group's best
+        if group_top.score - candidate.score > noise:
+            group_top = candidate
+        assert candidate.tie_rank == group_top.rank
+    assert report.best[0].tie_rank == 1

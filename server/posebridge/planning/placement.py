@@ -33,6 +33,18 @@ Quality of the reached targets on that branch, each term in [0, 1]:
 ``score = reach_fraction + quality / (2 K)`` with ``quality`` the mean of
 the three terms and ``K`` the number of targets: quality orders candidates
 that reach the same number of targets, and never outweighs one more target.
+In words (the report's ``score_words``): the share of the targets reached on
+one branch, plus at most half a target's worth for how comfortably they are
+reached.
+
+**Score noise and ties.** The grid samples the base position; a score
+difference smaller than what one grid step changes is not a real
+preference. :func:`score_noise` is the median absolute score change between
+neighbouring grid points (one step in x or y, same yaw and height) that reach
+the same number of targets, i.e. the typical change of the quality part over
+one grid step. Ranked candidates whose score is within that noise of a better
+one's are ties (``tie_rank``: the rank of the best candidate of their tie
+group, the group starting at its best member).
 
 **Cycle time estimate** (for speed): the sum over the cell's paths, given
 when every Cartesian waypoint of every path is reached on the candidate's
@@ -782,7 +794,14 @@ def _report(
                 targets=targets,
             )
         )
-    current = _current_score(scene, grid, score)
+    current = _current_index(scene, grid)
+    current_cycle = None if current is None else _optional(float(cycle[current]))
+    noise = score_noise(score, fraction)
+    tie_rank = 1
+    for k, candidate in enumerate(best):
+        if k == 0 or best[tie_rank - 1].score - candidate.score > noise:
+            tie_rank = candidate.rank
+        candidate.tie_rank = tie_rank
     return PlacementReport(
         robot=robot.name,
         robot_geometry_missing=robot.geometry_missing,
@@ -805,7 +824,50 @@ def _report(
             "estimate: joint moves as synchronised trapezoids between the chosen configurations, "
             "linear moves at the requested speed without joint-limit cap, blends ignored"
         ),
-        current_score=current,
+        current_score=None if current is None else float(score[current]),
+        current_cycle_time_s=current_cycle,
+        score_words=(
+            "The score is the share of the targets the robot reaches on one arm branch, plus at "
+            "most half a target's worth for how comfortably it reaches them (joint limits far "
+            "away, far from stretched or folded poses, clear of the cell); a score of 1 or more "
+            "means every target is reached."
+        ),
+        score_noise=noise,
+        speed_note=_speed_note(best[0].cycle_time_s if best else None, current_cycle),
+    )
+
+
+def score_noise(score: FloatArray, fraction: FloatArray) -> float:
+    """Median absolute score change over one grid step at equal reach (module docstring).
+
+    Parameters
+    ----------
+    score, fraction : array, shape (ny, nx, nyaw, nh)
+        Scores and reach fractions of the grid.
+
+    Returns
+    -------
+    float
+        0 when no two neighbouring points reach the same number of targets.
+    """
+    steps = []
+    for axis in (0, 1):
+        if score.shape[axis] < 2:
+            continue
+        change = np.abs(np.diff(score, axis=axis))
+        same = np.diff(fraction, axis=axis) == 0.0
+        steps.append(change[same])
+    values = np.concatenate(steps) if steps else np.zeros(0)
+    return float(np.median(values)) if values.size else 0.0
+
+
+def _speed_note(best_s: float | None, current_s: float | None) -> str:
+    """Say so when the best candidate's cycle is slower than the current base's."""
+    if best_s is None or current_s is None or best_s <= current_s:
+        return ""
+    return (
+        f"The best-scored base is slower than the current one: cycle {best_s:.2f} s against "
+        f"{current_s:.2f} s ({best_s - current_s:.2f} s more per cycle)."
     )
 
 
@@ -876,8 +938,8 @@ def _target_reasons(problem: _Problem, scenes: _CandidateScenes, branch: int) ->
     return reasons
 
 
-def _current_score(scene: Scene, grid: PlacementGrid, score: FloatArray) -> float | None:
-    """Score of the grid point at the cell's current base pose, if the grid holds it."""
+def _current_index(scene: Scene, grid: PlacementGrid) -> tuple[int, ...] | None:
+    """Grid index (y, x, yaw, height) of the cell's current base pose, if the grid holds it."""
     base = scene.cell.base
     match = []
     for axis, value in (
@@ -893,4 +955,4 @@ def _current_score(scene: Scene, grid: PlacementGrid, score: FloatArray) -> floa
         if hit.size == 0:
             return None
         match.append(int(hit[0]))
-    return float(score[tuple(match)])
+    return tuple(match)

@@ -509,6 +509,11 @@ class PlacementCandidateReport(_Report):
     min_clearance_mm: float | None
     cycle_time_s: float | None
     targets: list[TargetPlacementReport]
+    tie_rank: int = Field(
+        default=0,
+        description="Rank of the best candidate this one ties with (within score_noise); its "
+        "own rank when it ties with no better one.",
+    )
 
 
 class PlacementGridReport(_Report):
@@ -533,6 +538,18 @@ class PlacementReport(_Report):
     score_note: str
     cycle_time_note: str
     current_score: float | None = Field(description="Score of the cell's current base pose.")
+    current_cycle_time_s: float | None = Field(
+        default=None, description="Cycle time estimate at the current base pose, if on the grid."
+    )
+    score_words: str = Field(default="", description="The score explained in plain words.")
+    score_noise: float = Field(
+        default=0.0,
+        description="Median score change over one grid step at equal reach: scores this close tie.",
+    )
+    speed_note: str = Field(
+        default="",
+        description="Set when the best candidate's cycle is slower than the current base's.",
+    )
     robot_geometry_missing: str | None = Field(
         default=None,
         description="Set (a warning text) when the robot has no collision geometry: every "
@@ -692,12 +709,14 @@ def render_placement(report: PlacementReport, *, top: int = 10) -> str:
     lines = [
         f"Base placement for {report.robot}: {report.candidates_evaluated} candidates, "
         f"{len(report.targets)} targets; current base score {_number(report.current_score, 3)}",
+        report.score_words,
         report.score_note,
+        *([report.speed_note] if report.speed_note else []),
         "",
     ]
     rows = [
         [
-            str(c.rank),
+            str(c.rank) if c.tie_rank in (0, c.rank) else f"{c.rank} (ties {c.tie_rank})",
             f"{c.x_mm:.0f}",
             f"{c.y_mm:.0f}",
             f"{c.yaw_deg:.0f}",
