@@ -50,6 +50,36 @@ async def test_read_target_check(client: httpx.AsyncClient) -> None:
     assert body["reachable_count"] == sum(t["reachable"] for t in body["targets"])
 
 
+async def test_target_check_of_the_same_cell_version_is_kept(
+    client: httpx.AsyncClient, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    computed: list[object] = []
+    real = checks_routes.check_targets
+
+    def counted(scene: Any) -> Any:
+        computed.append(scene)
+        return real(scene)
+
+    monkeypatch.setattr(checks_routes, "check_targets", counted)
+    first = await client.get("/api/cell/check")
+    again = await client.get("/api/cell/check")
+    assert first.status_code == again.status_code == 200
+    assert again.json() == first.json()
+    assert len(computed) == 1
+    cell = (await client.get("/api/cell")).json()
+    moved = await client.patch(
+        "/api/cell/targets/rack-low-1",
+        json={"position_mm": [150.0, 820.0, 470.0]},
+        headers={"If-Match": cell["etag"]},
+    )
+    assert moved.status_code == 200, moved.text
+    after = await client.get("/api/cell/check")
+    assert after.status_code == 200
+    assert len(computed) == 2
+    drawn = next(t for t in after.json()["targets"] if t["name"] == "rack-low-1")
+    assert drawn["target"]["position_mm"] == pytest.approx([150.0, 820.0, 470.0], abs=1e-6)
+
+
 async def test_read_path_check(client: httpx.AsyncClient) -> None:
     response = await client.get("/api/cell/paths/load-press/check")
     assert response.status_code == 200

@@ -147,3 +147,44 @@ async def test_start_reach_section_too_fine(client: httpx.AsyncClient) -> None:
     )
     assert response.status_code == 413
     assert response.json()["detail"].startswith("voxel_mm: 20 mm cells over this robot's reach")
+
+
+async def test_joint_map_of_the_same_cell_version_is_kept(
+    client: httpx.AsyncClient, job_finished: JobFinished, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    from posebridge.api.routes import maps
+
+    computed: list[object] = []
+
+    def counted(*args: Any, **kwargs: Any) -> Any:
+        computed.append(args)
+        return joint_map(*args, **kwargs)
+
+    monkeypatch.setattr(maps, "joint_map", counted)
+    asked = {"joints": [1, 2], "hold_deg": HOLD, "resolution": 12}
+    first = await client.post("/api/maps/joint", json=asked)
+    status = await job_finished(first.json()["id"])
+    assert status["state"] == "done", status["detail"]
+    # the same request of the same cell version: done in the answer itself, not computed again
+    again = await client.post("/api/maps/joint", json=asked)
+    assert again.status_code == 202
+    assert again.json()["state"] == "done"
+    assert again.json()["result"] == status["result"]
+    assert len(computed) == 1
+    # another request is computed
+    other = await client.post("/api/maps/joint", json={**asked, "resolution": 10})
+    assert (await job_finished(other.json()["id"]))["state"] == "done"
+    assert len(computed) == 2
+    # a new cell version starts with nothing kept
+    cell = (await client.get("/api/cell")).json()
+    moved = await client.patch(
+        "/api/cell/targets/rack-low-1",
+        json={"position_mm": [150.0, 820.0, 470.0]},
+        headers={"If-Match": cell["etag"]},
+    )
+    assert moved.status_code == 200, moved.text
+    after = await client.post("/api/maps/joint", json=asked)
+    status = await job_finished(after.json()["id"])
+    assert status["state"] == "done"
+    assert status["result"]["cell_etag"] == moved.json()["etag"]
+    assert len(computed) == 3

@@ -20,10 +20,11 @@ from __future__ import annotations
 import logging
 import threading
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cached_property
 from pathlib import Path
 
+from posebridge.api.result_memo import ResultMemo
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import (
     CellConflictError,
@@ -60,12 +61,15 @@ class CellSnapshot:
         The cell resolved into world-frame SI arrays.
     path : Path or None
         The cell file, or None for the in-memory demo cell.
+    memo : ResultMemo
+        Finished joint maps and target checks of this version, for the next asker.
     """
 
     cell: Cell
     etag: str
     scene: Scene
     path: Path | None
+    memo: ResultMemo = field(default_factory=ResultMemo, repr=False)
 
     @cached_property
     def clearance(self) -> ClearanceScene:

@@ -146,11 +146,21 @@ class JobManager:
         while (item := self._queues[reviewer].get()) is not None:
             self._run(*item, reviewer=reviewer)
 
-    def start(self, kind: str, client: str, work: JobWork, *, reviewer: bool = False) -> Job:
+    def start(
+        self,
+        kind: str,
+        client: str,
+        work: JobWork,
+        *,
+        reviewer: bool = False,
+        result: BaseModel | None = None,
+    ) -> Job:
         """Queue ``work`` as a new job of ``client`` (a reviewer's on the reviewers' worker).
 
         The owner's start never fails: beyond :data:`MAX_ACTIVE_OWNER` active
-        owner jobs the oldest queued one is cancelled (superseded).
+        owner jobs the oldest queued one is cancelled (superseded). With a
+        ``result`` already known (a kept one), the job is done at once and
+        ``work`` is not run; the reviewers' limits still count it.
 
         Raises
         ------
@@ -162,7 +172,10 @@ class JobManager:
             if not reviewer:
                 job = self._start_owner_job(kind, client)
                 self._forget_old(now)
-                self._queues[False].put((job, work))
+                if result is not None:
+                    self._done_at_once(job, result, now)
+                else:
+                    self._queues[False].put((job, work))
                 return job
             active = sum(1 for job in self._jobs.values() if job.client == client and job.active)
             if active >= MAX_ACTIVE_PER_CLIENT:
@@ -182,8 +195,18 @@ class JobManager:
             job = Job(id=uuid.uuid4().hex, kind=kind, client=client)
             self._jobs[job.id] = job
             self._forget_old(now)
+            if result is not None:
+                self._done_at_once(job, result, now)
+                return job
         self._queues[reviewer].put((job, work))
         return job
+
+    @staticmethod
+    def _done_at_once(job: Job, result: BaseModel, now: float) -> None:
+        """Finish ``job`` with a result known at its start (called with the lock held)."""
+        job.result = result
+        job.state = "done"
+        job.finished_at = now
 
     def _start_owner_job(self, kind: str, client: str) -> Job:
         """Start a new owner job (called with the lock held).

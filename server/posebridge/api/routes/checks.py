@@ -47,13 +47,20 @@ router = APIRouter(prefix="/api/cell", tags=["checks"], route_class=StrictJsonRo
 async def read_target_check(cells: CellsDep, request: Request) -> TargetCheckReport:
     """Check every target of the cell.
 
-    Per target: reachable or why not, usable branches, recommended branch; the branch consistent
-    over all targets; findings, errors first.
+    Per target: reachable or why not, usable branches, recommended branch and why; the branch
+    consistent over all targets; findings, errors first. The check of a cell version is kept
+    and answered again without computing.
     """
-    scene = (await run_in_threadpool(cells.read)).scene
+    snapshot = await run_in_threadpool(cells.read)
+    scene = snapshot.scene
     poses = len(scene.targets.names) + int(np.count_nonzero(scene.targets.approach_offset > 0.0))
     charge_reviewer(request, "check_targets", poses)
-    return await compute_for(request, lambda: check_targets(scene))
+    kept = snapshot.memo.get("target-check", "")
+    if isinstance(kept, TargetCheckReport):
+        return kept
+    report = await compute_for(request, lambda: check_targets(scene))
+    snapshot.memo.put("target-check", "", report)
+    return report
 
 
 @router.get(

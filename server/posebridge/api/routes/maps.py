@@ -8,6 +8,7 @@ from dataclasses import replace
 
 import numpy as np
 from fastapi import APIRouter, HTTPException, Request
+from pydantic import BaseModel
 
 from posebridge.api.auth import charge_reviewer
 from posebridge.api.deps import CellsDep, JobsDep
@@ -52,14 +53,17 @@ def started(error: JobLimitError) -> HTTPException:
     return HTTPException(status_code=429, detail=f"jobs: {error}", headers={"Retry-After": "5"})
 
 
-def start_job(jobs: JobManager, kind: str, request: Request, work: JobWork) -> JobStatus:
+def start_job(
+    jobs: JobManager, kind: str, request: Request, work: JobWork, result: BaseModel | None = None
+) -> JobStatus:
     """Queue ``work`` as a job of the asking client and answer with its status.
 
-    429 when the client has too many jobs or started too many lately.
+    429 when the client has too many jobs or started too many lately; with a kept ``result``
+    the job is done at once.
     """
     reviewer = getattr(request.state, "review_role", "reviewer") != "owner"
     try:
-        job = jobs.start(kind, client_key(request), work, reviewer=reviewer)
+        job = jobs.start(kind, client_key(request), work, reviewer=reviewer, result=result)
     except JobLimitError as error:
         raise started(error) from error
     return job_status(job)
@@ -77,6 +81,8 @@ def start_joint_map(
     """Obstacle map of the cell over two or three joints, a slice through ``hold_deg``.
 
     Answers at once with the job; poll ``GET /api/jobs/{id}`` for progress and the result.
+    A map already computed for this cell version is kept: the job is then done at once,
+    its result in this answer.
     """
     snapshot = cells.read()
     robot = snapshot.scene.robot
@@ -98,6 +104,8 @@ def start_joint_map(
     q_hold = joints_si_from_request(robot, [body.hold_deg], field="hold_deg")[0]
     scene = snapshot.clearance
 
+    asked = body.model_dump_json()
+
     def work(progress: Callable[[int, int], None], cancel: threading.Event) -> JointMapResult:
         computed = joint_map(
             scene,
@@ -108,9 +116,11 @@ def start_joint_map(
             progress=progress,
             cancel=cancel,
         )
-        return joint_map_result(computed, robot, snapshot.etag)
+        result = joint_map_result(computed, robot, snapshot.etag)
+        snapshot.memo.put("joint-map", asked, result)
+        return result
 
-    return start_job(jobs, "joint-map", request, work)
+    return start_job(jobs, "joint-map", request, work, snapshot.memo.get("joint-map", asked))
 
 
 @router.post(
