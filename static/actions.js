@@ -3,12 +3,35 @@
 
 import { branchOf } from "./branches.js";
 
+// Arrow-key nudges come in bursts. While the keys keep coming the page treats
+// them as a drag (saving, joint maps and checks wait, so each key's inverse
+// kinematics answers as fast as a drag's); the burst ends this long after the
+// last key and the held work runs once.
+const NUDGE_QUIET_MS = 700;
+
 /**
  * Actions bound to one store.
  * @param {{store: ReturnType<import("./state.js").createStore>}} options
  */
 export function createActions({ store }) {
   const get = store.get;
+  let nudgeTimer = null;
+
+  /** A key nudge of `kind` ("target", "fixture" or "joints"): start or extend a nudge burst. */
+  function nudging(kind) {
+    if (nudgeTimer === null && get().dragging) {
+      return; // a pointer drag is on: it ends the burst itself
+    }
+    if (nudgeTimer === null) {
+      setDragging(true, kind);
+    } else {
+      clearTimeout(nudgeTimer);
+    }
+    nudgeTimer = setTimeout(() => {
+      nudgeTimer = null;
+      setDragging(false);
+    }, NUDGE_QUIET_MS);
+  }
 
   /** Move the target. reason "target" marks a user edit (saved into the cell); others are not saved. */
   function setTarget(target, { inputAt = performance.now(), reason = "target" } = {}) {
@@ -23,6 +46,7 @@ export function createActions({ store }) {
     }
     const position = [...target.position_mm];
     position[axis] += steps * stepMm;
+    nudging("target");
     setTarget({ ...target, position_mm: position }, { inputAt });
   }
 
@@ -39,6 +63,7 @@ export function createActions({ store }) {
     }
     const position = [...fixture.position_mm];
     position[axis] += steps * stepMm;
+    nudging("fixture");
     setFixture({ ...fixture, position_mm: position });
   }
 
@@ -134,6 +159,7 @@ export function createActions({ store }) {
     setShowReach,
     setShowCapsules,
     setDragging,
+    nudging,
     setStatus,
   };
 }

@@ -508,6 +508,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const step = (joint.unit === "mm" ? stepMm : stepDeg) * (event.shiftKey ? 10 : 1);
     const next = [...joints];
     next[index] = clamp(joints[index] + move[1] * step, joint.lower, joint.upper);
+    actions.nudging("joints");
     actions.setJoints(next, { reason: "map" });
   });
 

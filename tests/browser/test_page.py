@@ -235,6 +235,14 @@ def test_nudge_target_with_keyboard(open_page: Any) -> None:
     # one step right in x, two steps up in z (the page's documented key bindings)
     assert after == pytest.approx([before[0] + step, before[1], before[2] + 2 * step])
     assert float(page.input_value("#target-x")) == pytest.approx(after[0], abs=0.051)
+    # a burst of nudges is held like a drag (static/actions.js), ends by itself, and the
+    # inverse kinematics answers for the last position
+    page.wait_for_function("() => window.posebridge.getState().dragging === false")
+    page.wait_for_function(
+        "(x) => { const s = window.posebridge.getState(); return Boolean(s.ik"
+        " && s.ik.target.position_mm[0] === x); }",
+        arg=after[0],
+    )
 
 
 def test_switch_robot(open_page: Any, artifacts: Path) -> None:
