@@ -13,6 +13,7 @@ export const DEFAULT_THRESHOLDS = Object.freeze({
   wrist_deg: 10.0,
   elbow_deg: 5.0,
   shoulder_mm: 50.0,
+  fixture_distance_mm: 200.0,
 });
 
 export const LEVELS = Object.freeze(["ok", "warn", "bad"]);
@@ -129,7 +130,8 @@ export function thresholdsText(thresholds) {
   return (
     `Thresholds: limits ${thresholds.limit_margin_deg}° / ${thresholds.limit_margin_mm} mm, ` +
     `clearance ${thresholds.clearance_mm} mm, wrist ${thresholds.wrist_deg}°, ` +
-    `elbow ${thresholds.elbow_deg}°, shoulder ${thresholds.shoulder_mm} mm`
+    `elbow ${thresholds.elbow_deg}°, shoulder ${thresholds.shoulder_mm} mm, ` +
+    `target off its fixture ${thresholds.fixture_distance_mm} mm`
   );
 }
 
