@@ -67,10 +67,12 @@ export function createTargetCheckPanel({ container, store, actions, api }) {
       const row = element("tr", { attributes: { tabindex: "0", "data-target": target.name, "data-breaking": String(breaking) } }, [
         element("td", { text: target.name }),
         element("td", { text: target.reachable ? "yes" : `no: ${target.target.reason}` }),
-        element("td", { text: target.target.recommended_branch || "–" }),
+        element("td", {}, [
+          target.target.recommended_branch || "–",
+          ...(target.target.recommended_reason ? [element("div", { className: "pb-why", text: target.target.recommended_reason })] : []),
+        ]),
         element("td", { text: target.required_branch || "any" }),
         element("td", { text: breaking ? "breaks it" : "on it" }),
-        element("td", { className: "pb-why", text: target.target.recommended_reason || "–" }),
       ]);
       row.addEventListener("click", () => actions.select({ kind: "target", name: target.name }));
       return row;
@@ -78,7 +80,7 @@ export function createTargetCheckPanel({ container, store, actions, api }) {
     table.replaceChildren(
       element("table", { className: "pb-solutions" }, [
         element("thead", {}, [
-          element("tr", {}, ["Target", "Reachable", "Recommended branch", "Required", "Common branch", "Why this branch"].map((text) => element("th", { text }))),
+          element("tr", {}, ["Target", "Reachable", "Recommended branch (why)", "Required", "Common branch"].map((text) => element("th", { text }))),
         ]),
         element("tbody", {}, rows),
       ]),
