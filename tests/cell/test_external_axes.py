@@ -34,7 +34,7 @@ from posebridge.cli import main
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
-from posebridge.robot.urdf import urdf_from_robot
+from posebridge.robot.urdf_export import urdf_from_robot
 from posebridge.transforms import invert_transform
 
 DEMO = data_folder("robots") / "demo-track-cell.json"

@@ -22,7 +22,7 @@ from posebridge.planning.rrt import plan_joint_move
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import GEOMETRY_MISSING
-from posebridge.robot.urdf import urdf_from_robot
+from posebridge.robot.urdf_export import urdf_from_robot
 from posebridge.spaces.joint_map import joint_map
 
 

@@ -11,7 +11,7 @@ import pytest
 from scipy.spatial.transform import Rotation
 
 from posebridge.robot.model import Robot
-from posebridge.robot.urdf import parse_robot_urdf
+from posebridge.robot.urdf_import import parse_robot_urdf
 
 
 def _space_screws_at_zero(robot: Robot) -> tuple[np.ndarray, np.ndarray]:

@@ -25,7 +25,7 @@ from posebridge.kinematics.fk import (
 from posebridge.resources import data_folder
 from posebridge.robot.library import bundled_robots, load_robot
 from posebridge.robot.model import Robot
-from posebridge.robot.urdf import urdf_from_robot
+from posebridge.robot.urdf_export import urdf_from_robot
 
 SEED = 4242
 SIX_AXIS = ["pb-arm6", "pb-arm6-offset"]

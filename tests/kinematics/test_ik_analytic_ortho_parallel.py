@@ -32,7 +32,7 @@ from posebridge.kinematics.ik.solutions import (
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
-from posebridge.robot.urdf import load_robot_urdf
+from posebridge.robot.urdf_import import load_robot_urdf
 from posebridge.transforms import rotation_matrix_about_axis, rotation_matrix_from_rpy
 
 URDF_PATH = data_folder("robots") / "pb-arm6.urdf"

@@ -21,7 +21,7 @@ from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import Robot
 from posebridge.robot.toml_format import parse_robot_toml
-from posebridge.robot.urdf import load_robot_urdf
+from posebridge.robot.urdf_import import load_robot_urdf
 
 TOLERANCE_M = 1e-6
 TOLERANCE_RAD = 1e-6

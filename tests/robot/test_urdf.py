@@ -1,4 +1,4 @@
-"""URDF import and export.
+"""URDF import and export (``robot/urdf_import.py``, ``robot/urdf_export.py``), round trips.
 
 References: pinocchio (``pin.buildModelFromXML``, ``framesForwardKinematics``) run on the
 same URDF text; the TOML descriptions of the same robots; the ROS URDF specification for
@@ -19,14 +19,14 @@ from posebridge.resources import data_folder
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.robot.library import bundled_robots, load_robot
 from posebridge.robot.model import Robot
-from posebridge.robot.urdf import (
+from posebridge.robot.urdf_export import urdf_from_robot
+from posebridge.robot.urdf_import import (
     DEFAULT_ACCELERATION_PER_S,
     MAX_CHAIN_JOINTS,
     MAX_URDF_BYTES,
     MAX_URDF_ELEMENTS,
     load_robot_urdf,
     parse_robot_urdf,
-    urdf_from_robot,
 )
 
 SEED = 7321

@@ -18,7 +18,7 @@ from posebridge.robot.errors import RobotDescriptionError
 from posebridge.robot.model import Robot
 from posebridge.robot.overlay import is_overlay, load_robot_overlay
 from posebridge.robot.toml_format import MAX_DESCRIPTION_BYTES, load_robot_toml
-from posebridge.robot.urdf import load_robot_urdf
+from posebridge.robot.urdf_import import load_robot_urdf
 
 __all__ = ["BundledRobot", "bundled_robots", "load_robot"]
 

@@ -9,7 +9,7 @@ The flange (ISO 9787 mechanical interface) is a fixed transform from the last
 link frame, the default tool (TCP) a fixed transform from the flange.
 
 All values are SI (m, rad, s). Robot descriptions are loaded by
-:mod:`posebridge.robot.toml_format` and :mod:`posebridge.robot.urdf`.
+:mod:`posebridge.robot.toml_format` and :mod:`posebridge.robot.urdf_import`.
 """
 
 from __future__ import annotations

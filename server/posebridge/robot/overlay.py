@@ -58,7 +58,7 @@ from posebridge.robot.toml_format import (
     _unknown_keys,
     _vector3,
 )
-from posebridge.robot.urdf import DEFAULT_ACCELERATION_PER_S, load_robot_urdf
+from posebridge.robot.urdf_import import DEFAULT_ACCELERATION_PER_S, load_robot_urdf
 from posebridge.units import FloatArray, joints_si_from_user, m_from_mm, rad_from_deg
 
 __all__ = ["apply_capsule_removals", "is_overlay", "load_robot_overlay"]
