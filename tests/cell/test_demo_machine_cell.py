@@ -149,12 +149,12 @@ def test_placement_runs_with_mesh_fixtures(scene: Scene) -> None:
 
 
 def test_review_report_draws_the_mesh_fixtures(scene: Scene) -> None:
-    from posebridge.report.figures import REPORT_MESH_TRIANGLES, scene_meshes
+    from posebridge.report.meshes import REPORT_MESH_TRIANGLES, scene_meshes
 
     meshes = {m.name: m for m in scene_meshes(scene, np.zeros(scene.robot.dof))}
     drawn = [meshes[name] for name in ("machine", "conveyor", "fence")]
     assert all(mesh.kind == "fixture" for mesh in drawn)
-    # our own budget (report/figures.py), shared among the three meshes
+    # our own budget (report/meshes.py), shared among the three meshes
     assert sum(len(mesh.triangles) for mesh in drawn) <= REPORT_MESH_TRIANGLES
     housing = meshes["machine"].vertices
     # the housing's world bounds: its file bounds (bench/meshes.py housing_boxes at 1 m:

@@ -13,7 +13,7 @@ from posebridge.bench.invented_urdf import write_invented_arm
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
 from posebridge.kinematics.fk import fk_frames
-from posebridge.report.figures import scene_meshes
+from posebridge.report.meshes import scene_meshes
 from posebridge.resources import data_folder
 
 
