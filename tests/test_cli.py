@@ -420,3 +420,28 @@ def test_machine_demo_passes_its_checks(capsys: pytest.CaptureFixture[str]) -> N
     assert report["consistent_branch"]["consistent"]
     code, out, _ = run(capsys, "paths", cell)
     assert code == 0, out
+
+
+def test_print_results_is_the_shared_output_tail(capsys: pytest.CaptureFixture[str]) -> None:
+    from pydantic import BaseModel
+
+    from posebridge.cli.common import EXIT_FINDINGS, EXIT_OK, never_fails, print_results
+
+    class Finding(BaseModel):
+        severity: str
+
+    class Result(BaseModel):
+        name: str
+        findings: list[Finding]
+
+    clean = Result(name="a", findings=[Finding(severity="info")])
+    warned = Result(name="b", findings=[Finding(severity="warning")])
+    # our own contract (README, exit codes): one result prints a JSON object, several a list;
+    # only error or warning findings give exit 1
+    assert print_results(clean, lambda r: r.name, as_json=True) == EXIT_OK
+    assert json.loads(capsys.readouterr().out) == {"name": "a", "findings": [{"severity": "info"}]}
+    assert print_results([clean, warned], lambda r: r.name, as_json=True) == EXIT_FINDINGS
+    assert [r["name"] for r in json.loads(capsys.readouterr().out)] == ["a", "b"]
+    assert print_results([clean, warned], lambda r: r.name, as_json=False) == EXIT_FINDINGS
+    assert capsys.readouterr().out == "a\n\nb\n"
+    assert print_results(warned, lambda r: r.name, as_json=False, failed=never_fails) == EXIT_OK

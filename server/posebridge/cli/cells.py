@@ -8,13 +8,12 @@ from typing import Any
 
 from posebridge.cli.common import (
     EXIT_OK,
-    exit_for_findings,
     joints_argument,
     load_kernels,
     load_scene,
     parse_numbers,
     print_json,
-    print_report,
+    print_results,
 )
 from posebridge.cli.options import SharedOptions, joints_or, options
 
@@ -34,8 +33,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
         quiet=args.quiet,
     )
     report = check_targets(scene)
-    print_report(report, render_target_check, as_json=args.json)
-    return exit_for_findings(report.findings)
+    return print_results(report, render_target_check, as_json=args.json)
 
 
 def _cmd_diagnose(args: argparse.Namespace) -> int:
@@ -48,15 +46,13 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
     if args.log:
         log = read_joint_log(args.log, robot, external=scene.external)
         log_result = diagnose_log(scene, log, include_rows=args.json)
-        print_report(log_result, render_log_diagnosis, as_json=args.json)
-        return exit_for_findings(log_result.findings)
+        return print_results(log_result, render_log_diagnosis, as_json=args.json)
     if scene.external.count == 0:
         pose_result = diagnose_pose(scene, joints_argument(args.joints, "--joints", robot))
     else:  # robot joints, optionally followed by the track (mm) and turntables (deg)
         q, external = scene.split_joints([parse_numbers(args.joints, "--joints")], where="--joints")
         pose_result = diagnose_pose(scene, q[0], external=external[0])
-    print_report(pose_result, render_pose_diagnosis, as_json=args.json)
-    return exit_for_findings(pose_result.findings)
+    return print_results(pose_result, render_pose_diagnosis, as_json=args.json)
 
 
 def _cmd_report(args: argparse.Namespace) -> int:

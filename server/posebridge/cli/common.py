@@ -144,12 +144,50 @@ def print_json(data: Any) -> None:
     sys.stdout.write("\n")
 
 
-def print_report(report: BaseModel, render: Callable[[Any], str], *, as_json: bool) -> None:
-    """Print a result model as JSON (``--json``) or as the text ``render`` makes of it."""
+def has_findings(result: Any) -> bool:
+    """Whether a result's ``findings`` hold an error or a warning (info findings do not count)."""
+    return any(f.severity in ("error", "warning") for f in result.findings)
+
+
+def never_fails(result: Any) -> bool:
+    """For :func:`print_results` of commands whose answer is never a finding (always False)."""
+    return False
+
+
+def print_results(
+    results: BaseModel | Sequence[BaseModel],
+    render: Callable[[Any], str],
+    *,
+    as_json: bool,
+    failed: Callable[[Any], bool] = has_findings,
+) -> int:
+    """Print result models as JSON or text and return the exit code (1 when any is a finding).
+
+    Parameters
+    ----------
+    results : BaseModel or sequence of BaseModel
+        One result (printed as a JSON object) or several (a JSON list; as text, blank-line
+        separated).
+    render : callable
+        The text of one result.
+    as_json : bool
+        ``--json``: print the models' JSON instead of their text.
+    failed : callable
+        Whether one result is a finding; default :func:`has_findings`.
+
+    Returns
+    -------
+    int
+        :data:`EXIT_FINDINGS` when ``failed`` holds for any result, else :data:`EXIT_OK`.
+    """
+    several = isinstance(results, Sequence)
+    listed: Sequence[Any] = results if isinstance(results, Sequence) else [results]
     if as_json:
-        print_json(report.model_dump(mode="json"))
+        dumped = [result.model_dump(mode="json") for result in listed]
+        print_json(dumped if several else dumped[0])
     else:
-        print(render(report))
+        print("\n\n".join(render(result) for result in listed))
+    return EXIT_FINDINGS if any(failed(result) for result in listed) else EXIT_OK
 
 
 def finite_or_none(values: FloatArray) -> Any:
@@ -162,11 +200,6 @@ def finite_or_none(values: FloatArray) -> Any:
 def format_row(values: Sequence[float], digits: int = 3) -> str:
     """``values`` comma-separated with ``digits`` decimals (no negative zero)."""
     return ", ".join(f"{round(v, digits) + 0.0:.{digits}f}" for v in values)
-
-
-def exit_for_findings(findings: Sequence[Any]) -> int:
-    """1 when any finding is an error or a warning, else 0 (info findings do not count)."""
-    return EXIT_FINDINGS if any(f.severity in ("error", "warning") for f in findings) else EXIT_OK
 
 
 class ProgressBar:

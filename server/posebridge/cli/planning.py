@@ -12,16 +12,15 @@ from typing import Any
 import numpy as np
 
 from posebridge.cli.common import (
-    EXIT_FINDINGS,
     EXIT_OK,
     CommandLineInputError,
     ProgressBar,
     executor_from,
     joints_argument,
     load_scene,
+    never_fails,
     parse_numbers,
-    print_json,
-    print_report,
+    print_results,
 )
 from posebridge.cli.options import SharedOptions, options
 from posebridge.units import FloatArray
@@ -81,11 +80,9 @@ def _cmd_optimise(args: argparse.Namespace, scene: Any, chosen: list[int]) -> in
         )
         for i in chosen
     ]
-    if args.json:
-        print_json([r.model_dump(mode="json") for r in reports])
-    else:
-        print("\n\n".join(render_sequence(r) for r in reports))
-    return EXIT_FINDINGS if any(not r.feasible for r in reports) else EXIT_OK
+    return print_results(
+        reports, render_sequence, as_json=args.json, failed=lambda report: not report.feasible
+    )
 
 
 def _cmd_paths(args: argparse.Namespace) -> int:
@@ -99,11 +96,9 @@ def _cmd_paths(args: argparse.Namespace) -> int:
     if args.optimise:
         return _cmd_optimise(args, scene, chosen)
     reports = [check_path(scene, i, resolution_mm=args.resolution_mm) for i in chosen]
-    if args.json:
-        print_json([r.model_dump(mode="json") for r in reports])
-    else:
-        print("\n\n".join(render_path_check(r) for r in reports))
-    return EXIT_FINDINGS if any(not r.ok for r in reports) else EXIT_OK
+    return print_results(
+        reports, render_path_check, as_json=args.json, failed=lambda report: not report.ok
+    )
 
 
 def _cmd_export(args: argparse.Namespace) -> int:
@@ -150,8 +145,12 @@ def _cmd_plan(args: argparse.Namespace) -> int:
     start = joints_argument(args.start, "--from", robot)
     goal = joints_argument(args.goal, "--to", robot)
     report = plan_joint_move(scene, start, goal, seed=args.seed, time_limit_s=args.time_limit_s)
-    print_report(report, render_joint_plan, as_json=args.json)
-    return EXIT_OK if report.status in ("solved", "direct") else EXIT_FINDINGS
+    return print_results(
+        report,
+        render_joint_plan,
+        as_json=args.json,
+        failed=lambda result: result.status not in ("solved", "direct"),
+    )
 
 
 def _cmd_place(args: argparse.Namespace) -> int:
@@ -179,10 +178,12 @@ def _cmd_place(args: argparse.Namespace) -> int:
             progress=ProgressBar("base placement", enabled=not args.json),
             top=args.top,
         )
-    print_report(
-        result.report, lambda report: render_placement(report, top=args.top), as_json=args.json
+    return print_results(
+        result.report,
+        lambda report: render_placement(report, top=args.top),
+        as_json=args.json,
+        failed=never_fails,
     )
-    return EXIT_OK
 
 
 def add_paths(sub: Any, shared: SharedOptions) -> None:

@@ -13,9 +13,10 @@ from posebridge.cli.common import (
     format_row,
     joints_argument,
     load_robot_argument,
+    never_fails,
     parse_numbers,
     print_json,
-    print_report,
+    print_results,
     read_numeric_csv,
     tool_from_argument,
 )
@@ -150,8 +151,7 @@ def _cmd_describe(args: argparse.Namespace) -> int:
     from posebridge.api.schemas.robots import render_robot_import, robot_import_report
 
     report = robot_import_report(load_robot_argument(args), args.robot)
-    print_report(report, render_robot_import, as_json=args.json)
-    return EXIT_OK
+    return print_results(report, render_robot_import, as_json=args.json, failed=never_fails)
 
 
 def add_describe(sub: Any, shared: SharedOptions) -> None:
