@@ -9,6 +9,7 @@ form ``distance = gap - radius`` of a vertical capsule above a box.
 from __future__ import annotations
 
 import json
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -34,23 +35,10 @@ DEMO_CELL = data_folder("robots") / "demo-cell.json"
 # 0.5 mm (measured in tests/geometry/test_distance.py); compare within 0.6 mm.
 FCL_TOLERANCE_M = 0.6e-3
 
-LIFT_TOML = """schema_version = 1
-[robot]
-name = "lift1"
-kind = "lift"
-convention = "origin_axis"
-
-[[joint]]
-name = "z"
-type = "prismatic"
-origin = { xyz_mm = [0, 0, 0], rpy_deg = [0, 0, 0] }
-axis = [0, 0, 1]
-limits = { min_mm = -500, max_mm = 2000, velocity_mm_s = 100, acceleration_mm_s2 = 100 }
-
-[flange]
-xyz_mm = [0, 0, 0]
-rpy_deg = [0, 0, 0]
-"""
+LIFT_TOML = (Path(__file__).parents[1] / "fixtures" / "robots" / "lift-1.toml").read_text(
+    encoding="utf-8"
+)
+"""The shared test robot: a one-joint vertical lift (prismatic z)."""
 
 
 def demo_configurations(scene, documented_joints) -> np.ndarray:

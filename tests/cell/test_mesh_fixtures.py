@@ -28,23 +28,10 @@ from posebridge.cell.scene import resolve_scene
 from posebridge.geometry.clearance import collision_batch
 from posebridge.geometry.mesh_cache import MeshCache
 
-LIFT_TOML = """schema_version = 1
-[robot]
-name = "lift1"
-kind = "lift"
-convention = "origin_axis"
-
-[[joint]]
-name = "z"
-type = "prismatic"
-origin = { xyz_mm = [0, 0, 0], rpy_deg = [0, 0, 0] }
-axis = [0, 0, 1]
-limits = { min_mm = -500, max_mm = 2000, velocity_mm_s = 100, acceleration_mm_s2 = 100 }
-
-[flange]
-xyz_mm = [0, 0, 0]
-rpy_deg = [0, 0, 0]
-"""
+LIFT_TOML = (Path(__file__).parents[1] / "fixtures" / "robots" / "lift-1.toml").read_text(
+    encoding="utf-8"
+)
+"""The shared test robot: a one-joint vertical lift (prismatic z)."""
 
 
 def write_box(path: Path, size: tuple[float, float, float], *, scale: float = 1.0) -> Path:
