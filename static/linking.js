@@ -7,6 +7,7 @@
 
 import { createLatestChannel, isRateLimited, retryDelayMs } from "./api.js";
 import { branchOf, chooseFollowed } from "./branches.js";
+import { kinematicsPacing } from "./pacing.js";
 
 /**
  * The status line after an inverse kinematics answer: empty while a solution
@@ -59,18 +60,19 @@ export function cellFrames(state) {
 }
 
 const FK_WHILE_DRAGGING_MS = 120;
-// A reviewer's page (readOnly) asks less often: the server caps a reviewer's
-// kinematics requests at 20 per second (api/auth.py, REVIEWER_CAPS["compute"]),
-// and IK every 80 ms with FK every 200 ms during a drag stays under it.
-const REVIEW_IK_MS = 80;
-const REVIEW_FK_MS = 80;
-const REVIEW_FK_WHILE_DRAGGING_MS = 200;
 
-function fkIntervalMs({ dragKind, readOnly }) {
-  if (dragKind === "target") {
-    return readOnly ? REVIEW_FK_WHILE_DRAGGING_MS : FK_WHILE_DRAGGING_MS;
+// A reviewer's page (readOnly) asks less often, below the server's cap on a
+// reviewer's kinematics requests as the server states it (pacing.js).
+function fkIntervalMs({ dragKind, readOnly, reviewerCaps }) {
+  if (readOnly) {
+    const { fkMs, fkDraggingMs } = kinematicsPacing(reviewerCaps);
+    return dragKind === "target" ? fkDraggingMs : fkMs;
   }
-  return readOnly ? REVIEW_FK_MS : 16;
+  return dragKind === "target" ? FK_WHILE_DRAGGING_MS : 16;
+}
+
+function ikIntervalMs({ readOnly, reviewerCaps }) {
+  return readOnly ? kinematicsPacing(reviewerCaps).ikMs : 16;
 }
 
 export function createLinking({ store, actions, api }) {
@@ -116,7 +118,7 @@ export function createLinking({ store, actions, api }) {
   });
 
   const ikChannel = createLatestChannel({
-    minIntervalMs: () => (store.get().readOnly ? REVIEW_IK_MS : 16),
+    minIntervalMs: () => ikIntervalMs(store.get()),
     send: (payload, options) => api.ik(payload, options),
     onResult: (result, meta, payload) => {
       const state = store.get();

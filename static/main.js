@@ -8,7 +8,7 @@ import { createLinking } from "./linking.js";
 import { createMaps } from "./maps.js";
 import { createMeshFixtures } from "./meshes.js";
 import { createPathCurve } from "./pathcurve.js";
-import { createJobPacer } from "./pacing.js";
+import { createJobPacer, jobPacing } from "./pacing.js";
 import { createKernelProgress } from "./kernels.js";
 import { createReachSections } from "./reach.js";
 import { readPalette } from "./palette.js";
@@ -49,7 +49,7 @@ async function start() {
   const linking = createLinking({ store, actions, api });
   const cellSync = createCellSync({ store, actions, api, linking });
   // the jobs the page starts by itself share one pacer (used on a reviewer's page)
-  const pacer = createJobPacer();
+  const pacer = createJobPacer({ pacing: () => jobPacing(store.get().reviewerCaps) });
   const maps = createMaps({ store, api, actions, pacer });
   createArmState({ store, api });
   createPathCurve({ store, api });

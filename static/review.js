@@ -48,7 +48,7 @@ export async function startReview({ store, api, banner, commentsContainer }) {
   }
   const readOnly = !access.can_edit;
   document.body.dataset.review = access.role;
-  store.update({ readOnly });
+  store.update({ readOnly, reviewerCaps: access.reviewer_caps || null });
   if (readOnly) {
     const leave = element("button", {
       text: "Leave review",

@@ -28,6 +28,8 @@
  *   snap            snap dragged positions to the step grid
  *   status          {level: "info" | "warn" | "error", message}
  *   readOnly        a reviewer's page of a shared dashboard (review.js): nothing is saved into the cell
+ *   reviewerCaps    the server's rate caps on a reviewer's requests (review.js, from the access
+ *                   answer's reviewer_caps: {kind: {per_second, burst}}), or null; pacing.js
  *   cell            the server's cell (GET /api/cell answer: etag, robot, cell, scene) or null
  *   meshes          triangles of the cell's mesh fixtures by fixture name (meshes.js):
  *                   {mesh_version, full, flat}: GET /api/cell/meshes answers for the 3D view
@@ -83,6 +85,7 @@ export function initialState() {
     snap: false,
     status: { level: "info", message: "Loading…" },
     readOnly: false,
+    reviewerCaps: null,
     cell: null,
     meshes: {},
     cellActive: false,

@@ -117,12 +117,19 @@ async def test_read_access_owner_not_shared(cell_file: Path, clients: ClientFact
     owner = clients(app, client=("127.0.0.1", 5000), base_url=OWNER_URL)
     response = await owner.get("/api/reviews/access")
     assert response.status_code == 200
-    assert response.json() == {
+    answer = response.json()
+    caps = answer.pop("reviewer_caps")
+    assert answer == {
         "role": "owner",
         "shared": False,
         "can_edit": True,
         "comments_enabled": True,
         "cell_file": "demo-cell.json",
+    }
+    # our own contract: the answer carries the caps the server enforces (api/auth.py)
+    assert caps == {
+        kind: {"per_second": cap.per_second, "burst": cap.burst}
+        for kind, cap in REVIEWER_CAPS.items()
     }
 
 
@@ -135,6 +142,11 @@ async def test_read_access_reviewer(
     assert response.json()["role"] == "reviewer"
     assert response.json()["shared"] is True
     assert response.json()["can_edit"] is False
+    # the reviewer's page paces itself from these (static/pacing.js): the enforced values
+    assert response.json()["reviewer_caps"]["heavy"] == {
+        "per_second": REVIEWER_CAPS["heavy"].per_second,
+        "burst": REVIEWER_CAPS["heavy"].burst,
+    }
 
 
 async def test_read_cell_remote_without_token(shared_app: FastAPI, clients: ClientFactory) -> None:

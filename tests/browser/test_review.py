@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import math
 import shutil
 from collections.abc import Iterator
 from dataclasses import dataclass, field
@@ -466,3 +467,50 @@ def test_reviewer_map_waits_after_429(browser: Any, fresh_shared: tuple[str, str
     # the only console lines are the browser's own notes of the refused request
     assert all("429" in line for line in seen.console_errors), seen.console_errors
     assert seen.page_errors == []
+
+
+def test_reviewer_page_paces_itself_from_the_served_caps(
+    browser: Any, shared: tuple[str, str, Path]
+) -> None:
+    url, token, _ = shared
+    # caps unlike the server's own, served in place of its access answer: the page must use these
+    served = {
+        "heavy": {"per_second": 0.5, "burst": 12},
+        "compute": {"per_second": 8.0, "burst": 30},
+    }
+
+    def answer_with_other_caps(page: Any) -> None:
+        def handle(route: Any) -> None:
+            response = route.fetch()
+            access = response.json()
+            access["reviewer_caps"] = served
+            route.fulfill(response=response, json=access)
+
+        page.route("**/api/reviews/access", handle)
+
+    context, page, seen = _open_reviewer(browser, url, token, prepare=answer_with_other_caps)
+    try:
+        assert page.evaluate(_STATE)["reviewerCaps"] == served
+        pacing = page.evaluate(
+            """async () => {
+                const m = await import("/static/pacing.js");
+                const caps = window.posebridge.getState().reviewerCaps;
+                return { job: m.jobPacing(caps), kinematics: m.kinematicsPacing(caps) };
+            }"""
+        )
+        # our own contract (static/pacing.js): jobs take 3/4 of the burst and 4/5 of the rate;
+        # IK and lone FK 5/8 of the compute rate, FK while dragging 1/4 of it
+        assert pacing["job"] == {"burst": 9, "perSecond": pytest.approx(0.4)}
+        assert pacing["kinematics"] == {
+            "ikMs": math.ceil(1000 / (8.0 * 5 / 8)),
+            "fkMs": math.ceil(1000 / (8.0 * 5 / 8)),
+            "fkDraggingMs": math.ceil(1000 / (8.0 / 4)),
+        }
+        # and the server's real answer carries what it enforces (tests/api/test_reviews.py)
+        real = httpx.get(
+            url + "api/reviews/access", headers={"Authorization": f"Bearer {token}"}, timeout=30
+        ).json()["reviewer_caps"]
+        assert set(real) >= {"heavy", "compute"}
+        assert seen.page_errors == []
+    finally:
+        context.close()

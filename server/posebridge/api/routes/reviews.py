@@ -13,7 +13,7 @@ from typing import Annotated
 from fastapi import APIRouter, Depends, HTTPException, Request, Response
 from fastapi import Path as PathParam
 
-from posebridge.api.auth import ACCESS_COOKIE, OwnerOnly, ReviewRoleDep
+from posebridge.api.auth import ACCESS_COOKIE, REVIEWER_CAPS, OwnerOnly, ReviewRoleDep
 from posebridge.api.cell_store import CellStore
 from posebridge.api.deps import CellsDep
 from posebridge.api.json_body import StrictJsonRoute
@@ -23,6 +23,7 @@ from posebridge.api.schemas.reviews import (
     CommentResolveRequest,
     CommentResult,
     ReviewAccessResult,
+    ReviewerRateCap,
     comment_result,
     pin_found,
     review_error_responses,
@@ -86,6 +87,10 @@ def read_access(request: Request, role: ReviewRoleDep, cells: CellsDep) -> Revie
         can_edit=role == "owner",
         comments_enabled=_comments_file(cells) is not None,
         cell_file=None if cells.path is None else cells.path.name,
+        reviewer_caps={
+            kind: ReviewerRateCap(per_second=cap.per_second, burst=cap.burst)
+            for kind, cap in REVIEWER_CAPS.items()
+        },
     )
 
 

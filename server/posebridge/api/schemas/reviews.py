@@ -24,6 +24,7 @@ __all__ = [
     "CommentResolveRequest",
     "CommentResult",
     "ReviewAccessResult",
+    "ReviewerRateCap",
     "comment_result",
     "pin_found",
     "review_error_responses",
@@ -50,6 +51,15 @@ def review_error_responses(*statuses: int) -> dict[int | str, dict[str, Any]]:
     }
 
 
+class ReviewerRateCap(BaseModel):
+    """A token-bucket cap on a reviewer's requests of one kind: ``burst`` at once, then ``per_second``."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    per_second: float = Field(description="Sustained requests (or cost units) per second.")
+    burst: int = Field(description="Requests (or cost units) allowed back to back.")
+
+
 class ReviewAccessResult(BaseModel):
     """Who is asking: the owner (full rights) or a read-only reviewer of a shared dashboard."""
 
@@ -63,6 +73,12 @@ class ReviewAccessResult(BaseModel):
         "own (not the bundled demo cell)."
     )
     cell_file: str | None = Field(description="File name of the cell, null for the in-memory demo.")
+    reviewer_caps: dict[str, ReviewerRateCap] = Field(
+        description="The server's rate caps on a reviewer's requests per kind (read, compute, "
+        "check, heavy, comment, refused) and its cost budgets (log_rows, check_targets, "
+        "job_cells), per client address; a reviewer's page paces itself below them. The owner "
+        "is never capped.",
+    )
 
 
 class CommentPin(BaseModel):
