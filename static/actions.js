@@ -77,12 +77,21 @@ export function createActions({ store }) {
     setJoints(joints);
   }
 
+  /** Move the arm and/or set the branch it follows, in one update: `{joints?, selectedBranch?}`. */
+  function setArm({ joints, selectedBranch }, { reason = "joints" } = {}) {
+    const patch = {};
+    if (joints !== undefined) {
+      patch.joints = joints;
+    }
+    if (selectedBranch !== undefined) {
+      patch.selectedBranch = selectedBranch;
+    }
+    store.update(patch, { reason });
+  }
+
   /** Take an IK solution: the arm moves onto it and follows its branch from now on. */
   function selectSolution(solution) {
-    store.update(
-      { joints: [...solution.joints_deg], selectedBranch: branchOf(solution) },
-      { reason: "solution" },
-    );
+    setArm({ joints: [...solution.joints_deg], selectedBranch: branchOf(solution) }, { reason: "solution" });
   }
 
   /** Put the target on the current tool pose. */
@@ -141,6 +150,7 @@ export function createActions({ store }) {
   }
 
   return {
+    setArm,
     setCarriage,
     setTarget,
     nudgeTarget,

@@ -16,6 +16,7 @@
 // is not moved at all (its targets would not follow without a save).
 
 import { ApiError } from "./api.js";
+import { movedItem, selectedFixture, selectedTarget, selectedWaypoint, shownTarget } from "./selection.js";
 
 const SAVE_DELAY_MS = 400;
 export const REVIEW_NOT_SAVED = "review mode: changes are not saved";
@@ -34,87 +35,6 @@ export function branchFromRequirement(branch) {
     elbow: branch.elbow ? SIGNS[branch.elbow] : 0,
     wrist: branch.wrist ? SIGNS[branch.wrist] : 0,
   };
-}
-
-/** The drawing of the selected target, or null. */
-export function selectedTarget({ cell, selection }) {
-  if (!cell || !selection) {
-    return null;
-  }
-  let name = selection.kind === "target" ? selection.name : null;
-  if (selection.kind === "waypoint") {
-    const waypoint = cell.scene.paths.find((p) => p.name === selection.path)?.waypoints[selection.index];
-    name = waypoint && waypoint.source === "target" && !waypoint.approach ? waypoint.target : null;
-  }
-  return cell.scene.targets.find((target) => target.name === name) || null;
-}
-
-/** The selected waypoint's drawing, or null. */
-export function selectedWaypoint({ cell, selection }) {
-  if (!cell || !selection || selection.kind !== "waypoint") {
-    return null;
-  }
-  return cell.scene.paths.find((p) => p.name === selection.path)?.waypoints[selection.index] || null;
-}
-
-/** The selected fixture's drawing (its frame in the world), or null. */
-export function selectedFixture({ cell, selection }) {
-  if (!cell || !selection || selection.kind !== "fixture") {
-    return null;
-  }
-  return cell.scene.fixtures.find((fixture) => fixture.name === selection.name) || null;
-}
-
-/**
- * The cell target the page's target shows: the selected target, or while a
- * fixture is selected the target that was shown when it was selected; or null.
- */
-export function shownTarget(state) {
-  const { cell, selection } = state;
-  if (cell && selection && selection.kind === "fixture") {
-    return cell.scene.targets.find((target) => target.name === selection.target) || null;
-  }
-  return selectedTarget(state);
-}
-
-/** The selection of fixture `name`, keeping the page's target on the cell target it shows. */
-export function fixtureSelection(state, name) {
-  const target = shownTarget(state);
-  return { kind: "fixture", name, target: target ? target.name : null };
-}
-
-/**
- * What a move of the page's target moves in the cell: {kind: "target", name} for
- * a selected target (or a waypoint at a target), {kind: "waypoint", path, index}
- * for a selected waypoint given as a pose, null otherwise (approach and
- * joint-values waypoints, fixtures).
- */
-export function movedItem(state) {
-  const target = selectedTarget(state);
-  if (target) {
-    return { kind: "target", name: target.name };
-  }
-  const waypoint = selectedWaypoint(state);
-  if (waypoint && waypoint.source === "pose") {
-    return { kind: "waypoint", path: state.selection.path, index: state.selection.index };
-  }
-  return null;
-}
-
-/** Names of fixture `name` and of every fixture under it (children, their children...). */
-export function fixtureFamily(fixtures, name) {
-  const family = new Set([name]);
-  let grown = true;
-  while (grown) {
-    grown = false;
-    for (const fixture of fixtures) {
-      if (fixture.parent && family.has(fixture.parent) && !family.has(fixture.name)) {
-        family.add(fixture.name);
-        grown = true;
-      }
-    }
-  }
-  return family;
 }
 
 function poseOf(drawing) {
@@ -167,13 +87,13 @@ export function createCellSync({ store, actions, api, linking }) {
       return;
     }
     const fixture = selectedFixture(state);
-    store.update({ fixture: fixture ? { name: fixture.name, ...poseOf(fixture) } : null }, { reason: "select" });
+    actions.setFixture(fixture ? { name: fixture.name, ...poseOf(fixture) } : null, { reason: "select" });
     const target = selectedTarget(state);
     const waypoint = selectedWaypoint(state);
     if (waypoint && waypoint.joints_deg) {
-      store.update({ joints: [...waypoint.joints_deg], selectedBranch: null }, { reason: "select" });
+      actions.setArm({ joints: [...waypoint.joints_deg], selectedBranch: null }, { reason: "select" });
     } else if (target && target.branch) {
-      store.update({ selectedBranch: branchFromRequirement(target.branch) }, { reason: "select" });
+      actions.setArm({ selectedBranch: branchFromRequirement(target.branch) }, { reason: "select" });
     }
     const pose = poseOfSelection(state);
     if (pose) {
@@ -282,7 +202,7 @@ export function createCellSync({ store, actions, api, linking }) {
       }
       if (state.readOnly) {
         notSaved();
-        store.update({ fixture: { name: drawn.name, ...poseOf(drawn) } }, { reason: "select" });
+        actions.setFixture({ name: drawn.name, ...poseOf(drawn) }, { reason: "select" });
         return;
       }
       const { name, position_mm: position, rpy_deg: rpy } = state.fixture;
@@ -318,7 +238,7 @@ export function createCellSync({ store, actions, api, linking }) {
       }
       const fixture = selectedFixture(state);
       if (fixture && state.fixture && !samePose(fixture, state.fixture)) {
-        store.update({ fixture: { name: fixture.name, ...poseOf(fixture) } }, { reason: "select" });
+        actions.setFixture({ name: fixture.name, ...poseOf(fixture) }, { reason: "select" });
       }
     },
     { keys: ["cell"] },
@@ -335,7 +255,7 @@ export function createCellSync({ store, actions, api, linking }) {
     store.update({ cell: document });
     const first = document.scene.targets[0];
     const onLoaded = first ? () => actions.select({ kind: "target", name: first.name }) : null;
-    store.update({ selection: null });
+    actions.select(null);
     await linking.loadRobot(document.robot, { cellActive: true, onLoaded });
   }
 
@@ -417,5 +337,10 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  return { loadCell, reloadCell, moveBase, moveCarriage, retrySave, chooseChainEnd, setWaypointJoints };
+  /** A cell document the server answered after a change made elsewhere on the page (a mesh upload). */
+  function showSavedCell(document, message) {
+    store.update({ cell: document, cellSave: { state: "saved", message } });
+  }
+
+  return { loadCell, reloadCell, moveBase, moveCarriage, retrySave, chooseChainEnd, setWaypointJoints, showSavedCell };
 }

@@ -53,7 +53,7 @@ async function start() {
   const maps = createMaps({ store, api, actions, pacer });
   createArmState({ store, api });
   createPathCurve({ store, api });
-  const meshFixtures = createMeshFixtures({ store, api, actions });
+  const meshFixtures = createMeshFixtures({ store, api, actions, cellSync });
   createReachSections({ store, api, actions, pacer });
   const byId = (id) => document.getElementById(id);
 

@@ -27,9 +27,10 @@ export async function fileBase64(file) {
 }
 
 /**
- * @param {{store: object, api: object, actions: object}} options
+ * @param {{store: object, api: object, actions: object, cellSync: object}} options
+ *   cellSync: shows the cell document the server answers to an upload (cellsync.js owns `cell`).
  */
-export function createMeshFixtures({ store, api, actions }) {
+export function createMeshFixtures({ store, api, actions, cellSync }) {
   const loading = new Set();
 
   async function load(shape) {
@@ -79,7 +80,7 @@ export function createMeshFixtures({ store, api, actions }) {
       const body = { file_name: file.name, data_base64: await fileBase64(file), position_mm };
       const document = await api.uploadMesh(body, cell.etag);
       const added = document.cell.fixtures[document.cell.fixtures.length - 1];
-      store.update({ cell: document, cellSave: { state: "saved", message: `Added mesh fixture ${added.name}` } });
+      cellSync.showSavedCell(document, `Added mesh fixture ${added.name}`);
       actions.setStatus("info", `Added mesh fixture ${added.name} from ${file.name}`);
     } catch (error) {
       actions.setStatus("error", `Adding ${file.name}: ${error.message}`);

@@ -62,6 +62,32 @@
  *   reachElevation  vertical reach section at the target, or null
  *   kernels         {ready, done, total, current} of the server's kernel loading (GET /api/health,
  *                   kernels.js), or null before its first answer
+ *
+ * Writers: each key has one module that writes it; every other module reads it
+ * (or asks the owner through the function named here).
+ *
+ *   actions.js      target, targetInputAt, fixture, joints, selectedBranch (setArm), selection,
+ *                   mapJoints, map3Joints, stepMm, stepDeg, snap, follow, showReach,
+ *                   showCapsules, dragging, dragKind, status, carriage
+ *   linking.js      robot, cellActive, robotMeshes, fk, fkJoints, ik
+ *   cellsync.js     cell, cellSave (showSavedCell for a change made by meshes.js)
+ *   main.js         robots
+ *   review.js       readOnly, reviewerCaps
+ *   armstate.js     armState
+ *   kernels.js      kernels
+ *   meshes.js       meshes
+ *   maps.js         jointMap, jointMapJob, jointMap3, jointMap3Job
+ *   reach.js        reachPlan, reachElevation
+ *   pathcurve.js    pathCurve
+ *   panels/targetcheck.js targetCheck;  panels/posecheck.js poseCheck, logCheck;
+ *   panels/path.js  pathReport, sequence;  panels/placement.js placement
+ *
+ * Two writes of linking.js cross owners on purpose, so that the views redraw
+ * once: loading a robot resets, in the same update, the keys that belong to
+ * the previous robot (target, selectedBranch, joints, mapJoints, map3Joints,
+ * jointMap, jointMap3, pathCurve), and an IK answer the arm follows sets
+ * joints and selectedBranch together with ik. cellsync.js clears carriage
+ * with the saved cell once the track position is saved.
  */
 export function initialState() {
   return {

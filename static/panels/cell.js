@@ -6,7 +6,7 @@
 // fields always save into the cell, so they carry `data-edits-cell` (review.js
 // disables them for reviewers).
 
-import { fixtureSelection } from "../cellsync.js";
+import { fixtureSelection } from "../selection.js";
 import { element, numberField, onChoose, showValue } from "./fields.js";
 
 const FIXTURE_FIELDS = [

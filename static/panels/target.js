@@ -4,7 +4,7 @@
 // the cell (saved), so they carry `data-edits-cell` then (review.js disables
 // them for reviewers).
 
-import { movedItem } from "../cellsync.js";
+import { movedItem } from "../selection.js";
 import { element, numberField, showValue } from "./fields.js";
 
 const STEPS_MM = [1, 5, 10, 25, 50, 100];

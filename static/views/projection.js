@@ -20,7 +20,7 @@ import { frameScheduler } from "./frame.js";
 import { convexHull, projectedOutline, shapePoints } from "./shapes.js";
 import { meshKey, viewBounds } from "./scene3d.js";
 import { drawsMeshes, lighten, linkPose, silhouetteTrace } from "./mesh_draw.js";
-import { fixtureFamily, selectedFixture } from "../cellsync.js";
+import { fixtureFamily, selectedFixture } from "../selection.js";
 import { matrixFromRpyDeg, column, rigidMotion } from "../rotation.js";
 import { snapToStep } from "../units.js";
 import { withAlpha } from "../palette.js";
