@@ -64,6 +64,28 @@ export function nearestSolution({ solutions, joints }) {
   );
 }
 
+/**
+ * The branch words of a solution without its extra revolutions: "front, up, positive",
+ * "left", or "" for an arm without branches (the answer's `branch_parts` fields).
+ */
+export function branchPartsText(solution) {
+  return Object.values(solution.branch_parts).join(", ");
+}
+
+/** Whether a solution is on exactly the branch kept in the store (all three signs). */
+export function sameBranch(solution, branch) {
+  return branch !== null && ["shoulder", "elbow", "wrist"].every((part) => solution[part] === branch[part]);
+}
+
+/** A cell target's required branch as the store keeps a branch (its words and signs), or null. */
+export function branchFromRequirement(target) {
+  if (!target.branch_signs) {
+    return null;
+  }
+  const words = ["shoulder", "elbow", "wrist"].filter((part) => target.branch[part]).map((part) => target.branch[part]);
+  return { label: words.join(", "), ...target.branch_signs };
+}
+
 /** The branch of a solution as kept in the store: its words and its three signs. */
 export function branchOf(solution) {
   return {

@@ -16,26 +16,12 @@
 // is not moved at all (its targets would not follow without a save).
 
 import { ApiError } from "./api.js";
+import { branchFromRequirement } from "./branches.js";
 import { movedItem, selectedFixture, selectedTarget, selectedWaypoint, shownTarget } from "./selection.js";
 
 const SAVE_DELAY_MS = 400;
 export const REVIEW_NOT_SAVED = "review mode: changes are not saved";
 const REVIEW_SAVE_STATE = Object.freeze({ state: "review", message: "moved on this page only (review)" });
-const SIGNS = { front: 1, back: -1, up: 1, down: -1, positive: 1, negative: -1 };
-
-/** A required branch of a target as the page's branch record (0 = either). */
-export function branchFromRequirement(branch) {
-  if (!branch) {
-    return null;
-  }
-  const words = ["shoulder", "elbow", "wrist"].filter((part) => branch[part]).map((part) => branch[part]);
-  return {
-    label: words.join(", "),
-    shoulder: branch.shoulder ? SIGNS[branch.shoulder] : 0,
-    elbow: branch.elbow ? SIGNS[branch.elbow] : 0,
-    wrist: branch.wrist ? SIGNS[branch.wrist] : 0,
-  };
-}
 
 function poseOf(drawing) {
   return { position_mm: [...drawing.position_mm], rpy_deg: [...drawing.rpy_deg] };
@@ -93,7 +79,7 @@ export function createCellSync({ store, actions, api, linking }) {
     if (waypoint && waypoint.joints_deg) {
       actions.setArm({ joints: [...waypoint.joints_deg], selectedBranch: null }, { reason: "select" });
     } else if (target && target.branch) {
-      actions.setArm({ selectedBranch: branchFromRequirement(target.branch) }, { reason: "select" });
+      actions.setArm({ selectedBranch: branchFromRequirement(target) }, { reason: "select" });
     }
     const pose = poseOfSelection(state);
     if (pose) {

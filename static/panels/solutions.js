@@ -2,7 +2,7 @@
 // smallest margin and manipulability. Selecting a row moves the arm onto it.
 
 import { element, onChoose } from "./fields.js";
-import { branchHeading } from "../branches.js";
+import { branchHeading, sameBranch } from "../branches.js";
 import { branchStyle } from "../palette.js";
 import { formatJoint, formatNumber } from "../units.js";
 
@@ -15,7 +15,7 @@ export function createSolutionsPanel({ container, store, actions, palette }) {
 
   function isCurrent(solution, { joints, selectedBranch }) {
     return (
-      selectedBranch !== null && solution.branch === selectedBranch.label &&
+      sameBranch(solution, selectedBranch) &&
       solution.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6)
     );
   }

@@ -16,20 +16,12 @@ import { sequenceKey, sequenceTraces } from "../sequencecurve.js";
 import { currentArmSeverity, levelColour } from "../severity.js";
 import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
-import { branchHeading } from "../branches.js";
+import { branchHeading, branchPartsText, sameBranch } from "../branches.js";
 import { branchStyle, regionColour } from "../palette.js";
 import { clamp, formatJoint } from "../units.js";
 
 const PICK_RADIUS_PX = 12;
 const CLEARANCE_SHADE_MM = 300;
-
-/** Branch words without the revolution counts (revolution variants share a legend entry). */
-export function branchWords(branch) {
-  return branch
-    .split(", ")
-    .filter((part) => !/ [+-]\d+ rev$/.test(part))
-    .join(", ");
-}
 
 function axisTitle(joint) {
   return `${joint.name} (${joint.unit})`;
@@ -190,7 +182,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const solutions = ik ? ik.result.solutions : [];
     const styles = solutions.map((solution) => branchStyle(palette, solution));
     const selected = solutions.find(
-      (s) => selectedBranch !== null && s.branch === selectedBranch.label && s.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6),
+      (s) => sameBranch(s, selectedBranch) && s.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6),
     );
     const [ja, jb] = [robot.joints[a], robot.joints[b]];
     return [
@@ -344,7 +336,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const groups = new Map();
     for (const solution of solutions) {
       const style = branchStyle(palette, solution);
-      const words = branchWords(solution.branch) || "single branch";
+      const words = branchPartsText(solution) || "single branch";
       groups.set(`${style.key}|${words}`, { style, words });
     }
     const heading = groups.size ? `${branchHeading(solutions)}:` : "No solution for the target";

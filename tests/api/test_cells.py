@@ -98,6 +98,19 @@ async def test_read_cell_demo(client: httpx.AsyncClient) -> None:
     # approach: backed off along the tool z axis by approach_offset_mm
     back = expected @ _pose([0, 0, -probe["approach_offset_mm"]], [0, 0, 0])
     assert drawn["approach_position_mm"] == pytest.approx(back[:3, 3], abs=1e-9)
+    # required branches also as signs (our own contract, DEVELOPERS.md "Arm branches":
+    # front/up/positive +1, back/down/negative -1, an omitted part 0 = either)
+    sign = {"front": 1, "back": -1, "up": 1, "down": -1, "positive": 1, "negative": -1}
+    for target in raw["targets"]:
+        drawn = next(t for t in scene["targets"] if t["name"] == target["name"])
+        required = target.get("branch")
+        if required is None:
+            assert drawn["branch_signs"] is None
+        else:
+            assert drawn["branch_signs"] == {
+                part: sign[required[part]] if part in required else 0
+                for part in ("shoulder", "elbow", "wrist")
+            }
     # a box keeps its size; paths keep their waypoint count
     bed = next(s for s in scene["shapes"] if s["name"] == "press-bed")
     assert bed["size_mm"] == [700.0, 900.0, 800.0]

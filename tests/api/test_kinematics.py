@@ -265,6 +265,7 @@ async def test_compute_ik_planar2r(client: httpx.AsyncClient) -> None:
         elbow = (L1_MM * math.cos(e1), L1_MM * math.sin(e1))
         side = "left" if x * elbow[1] - y * elbow[0] > 0 else "right"
         assert solution["branch"] == side
+        assert solution["branch_parts"] == {"elbow": side}  # the same word as a field
     assert body["reason"] == ""
 
 
@@ -287,6 +288,21 @@ async def test_compute_ik_arm6_solutions_reach_pose(client: httpx.AsyncClient) -
         tip = 1000.0 * (reached.translation + reached.rotation @ np.array([0.0, 0.0, 0.12]))
         assert tip == pytest.approx(position, abs=1e-3)
         np.testing.assert_allclose(reached.rotation, start.rotation, atol=1e-6)
+    # branch words as fields (our own contract, DEVELOPERS.md "Arm branches"): one word per
+    # part, the sign's word (front/back, up/down, positive/negative), and the label text starts
+    # with the same words
+    words = {
+        "shoulder": ("back", "front"),
+        "elbow": ("down", "up"),
+        "wrist": ("negative", "positive"),
+    }
+    for solution in body["solutions"]:
+        parts = solution["branch_parts"]
+        assert list(parts) == ["shoulder", "elbow", "wrist"]
+        for part, (minus, plus) in words.items():
+            if solution[part] != 0:
+                assert parts[part] == (plus if solution[part] > 0 else minus)
+        assert solution["branch"].startswith(", ".join(parts.values()))
     # the starting configuration is one of them (same branch, no revolution ambiguity within limits)
     assert any(np.allclose(s["joints_deg"], q_start, atol=1e-4) for s in body["solutions"])
     # smallest limit margin: per joint m = min(q - lower, upper - q) (common practice, no

@@ -209,6 +209,13 @@ def test_select_solution_row_moves_arm(open_page: Any) -> None:
     state = page.evaluate(STATE)
     assert state["joints"] == solutions[choice]["joints_deg"]
     assert state["selectedBranch"]["label"] == solutions[choice]["branch"]
+    # the page reads the branch from its fields (branch_parts and the signs), not the label text
+    assert {k: state["selectedBranch"][k] for k in ("shoulder", "elbow", "wrist")} == {
+        k: solutions[choice][k] for k in ("shoulder", "elbow", "wrist")
+    }
+    legend = page.inner_text("#map-legend")
+    for solution in solutions:
+        assert ", ".join(solution["branch_parts"].values()) in legend
     assert rows.nth(choice).get_attribute("aria-selected") == "true"
     # every joint field shows the chosen value (one decimal)
     for index, value in enumerate(solutions[choice]["joints_deg"]):

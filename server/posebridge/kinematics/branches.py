@@ -73,6 +73,7 @@ __all__ = [
     "BranchGeometry",
     "arm_plane_points",
     "branch_geometry",
+    "branch_part_words",
     "branch_parts",
     "branch_words",
     "elbow_label",
@@ -113,20 +114,28 @@ def part_word(scheme: str, part: str, label: int) -> str:
     return BRANCH_WORDS[table][int(label)]
 
 
+def branch_part_words(scheme: str, shoulder: int, elbow: int, wrist: int) -> dict[str, str]:
+    """Return the word of each part a label scheme names.
+
+    All three for ``"arm"``, the elbow for ``"planar"``, none for ``"none"``: the fields the
+    page reads instead of a label text.
+
+    >>> branch_part_words("arm", 1, -1, 1)
+    {'shoulder': 'front', 'elbow': 'down', 'wrist': 'positive'}
+    >>> branch_part_words("planar", 0, -1, 0)
+    {'elbow': 'right'}
+    """
+    labels = {"shoulder": shoulder, "elbow": elbow, "wrist": wrist}
+    parts = {"arm": ("shoulder", "elbow", "wrist"), "planar": ("elbow",)}.get(scheme, ())
+    return {part: part_word(scheme, part, labels[part]) for part in parts}
+
+
 def branch_parts(scheme: str, shoulder: int, elbow: int, wrist: int) -> list[str]:
     """Return the words of a branch under a label scheme.
 
     Three for ``"arm"``, the elbow's for ``"planar"``, none for ``"none"``.
     """
-    if scheme == "arm":
-        return [
-            part_word(scheme, "shoulder", shoulder),
-            part_word(scheme, "elbow", elbow),
-            part_word(scheme, "wrist", wrist),
-        ]
-    if scheme == "planar":
-        return [part_word(scheme, "elbow", elbow)]
-    return []
+    return list(branch_part_words(scheme, shoulder, elbow, wrist).values())
 
 
 def branch_words(scheme: str, shoulder: int, elbow: int, wrist: int) -> str:

@@ -16,6 +16,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from posebridge.api.cell_store import CellSnapshot
 from posebridge.cell.model import MAX_COORDINATE_MM, MAX_JOINTS, MAX_WAYPOINTS, Branch, Cell
 from posebridge.cell.scene import BoxSet, CylinderSet, MeshSet, Scene
+from posebridge.kinematics.branches import BRANCH_LABELS
 from posebridge.transforms import rpy_from_rotation_matrix
 from posebridge.units import FloatArray, joints_user_from_si, m_from_mm, mm_from_m
 
@@ -105,6 +106,28 @@ class FixtureDrawing(BaseModel):
     rpy_deg: list[float] = Field(description="Frame orientation in the world. " + _RPY)
 
 
+class BranchSigns(BaseModel):
+    """A required branch as signs: +1/-1 per part of the vocabulary, 0 where either will do."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    shoulder: int = Field(ge=-1, le=1, description="+1 front, -1 back, 0 either.")
+    elbow: int = Field(ge=-1, le=1, description="+1 up, -1 down, 0 either.")
+    wrist: int = Field(ge=-1, le=1, description="+1 positive, -1 negative, 0 either.")
+
+
+def branch_signs(branch: Branch | None) -> BranchSigns | None:
+    """Return the signs of a required branch (:data:`posebridge.kinematics.branches.BRANCH_LABELS`)."""
+    if branch is None:
+        return None
+    return BranchSigns(
+        **{
+            part: BRANCH_LABELS[part][word] if word is not None else 0
+            for part, word in branch.model_dump().items()
+        }
+    )
+
+
 class TargetDrawing(BaseModel):
     """A target as a world tool pose, with its approach position."""
 
@@ -118,6 +141,10 @@ class TargetDrawing(BaseModel):
         description="Approach position (backed off along the tool z axis), world."
     )
     branch: Branch | None = Field(description="Required arm branch; null where any will do.")
+    branch_signs: BranchSigns | None = Field(
+        description="The required branch as the signs IK solutions carry (`shoulder`, "
+        "`elbow`, `wrist` of an IK solution; 0 where either will do); null where any will do."
+    )
 
 
 class WaypointDrawing(BaseModel):
@@ -505,6 +532,7 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
                 rpy_deg=rpys[k],
                 approach_position_mm=approach[k],
                 branch=targets.branches[k],
+                branch_signs=branch_signs(targets.branches[k]),
             )
             for k, name in enumerate(targets.names)
         ],

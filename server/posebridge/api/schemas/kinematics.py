@@ -14,6 +14,7 @@ import numpy.typing as npt
 from pydantic import BaseModel, BeforeValidator, ConfigDict, Field, model_validator
 from pydantic_core import PydanticCustomError
 
+from posebridge.kinematics.branches import branch_part_words
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations, fk_frames
 from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.kinematics.metrics import limit_margins, manipulability
@@ -117,6 +118,13 @@ class IkSolution(BaseModel):
     branch: str = Field(
         description="Arm branch in plain words: shoulder front/back, elbow up/down, "
         "wrist positive/negative (planar arms: left/right), then any extra joint revolutions."
+    )
+    branch_parts: dict[str, str] = Field(
+        description="The branch's word per part the arm has, the fields to read instead of "
+        "the `branch` text: shoulder front/back, elbow up/down (planar arms and SCARA: "
+        "left/right), wrist positive/negative (a sign 0 reads 'shoulder on axis 1', 'elbow in "
+        "line', 'wrist straight'); empty for an arm without branches. Extra revolutions are in "
+        "`revolutions`."
     )
     shoulder: int = Field(ge=-1, le=1, description="+1 front, -1 back, 0 undefined or n/a.")
     elbow: int = Field(
@@ -466,6 +474,12 @@ def ik_result(
                 IkSolution(
                     joints_deg=joints_user[row].tolist(),
                     branch=solutions.branch_label(index, m),
+                    branch_parts=branch_part_words(
+                        solutions.label_scheme,
+                        solutions.shoulder[index, m],
+                        solutions.elbow[index, m],
+                        solutions.wrist[index, m],
+                    ),
                     shoulder=int(solutions.shoulder[index, m]),
                     elbow=int(solutions.elbow[index, m]),
                     wrist=int(solutions.wrist[index, m]),
