@@ -64,23 +64,27 @@
  *                   kernels.js), or null before its first answer
  *
  * Writers: each key has one module that writes it; every other module reads it
- * (or asks the owner through the function named here).
+ * or asks the owner (cellsync.js asks actions.js to set the fixture, the arm
+ * and the selection; meshes.js asks cellsync.showSavedCell to show the cell
+ * after an upload). tests/test_store_owners.py checks the literal writes.
  *
- *   actions.js      target, targetInputAt, fixture, joints, selectedBranch (setArm), selection,
- *                   mapJoints, map3Joints, stepMm, stepDeg, snap, follow, showReach,
- *                   showCapsules, dragging, dragKind, status, carriage
- *   linking.js      robot, cellActive, robotMeshes, fk, fkJoints, ik
- *   cellsync.js     cell, cellSave (showSavedCell for a change made by meshes.js)
- *   main.js         robots
- *   review.js       readOnly, reviewerCaps
- *   armstate.js     armState
- *   kernels.js      kernels
- *   meshes.js       meshes
- *   maps.js         jointMap, jointMapJob, jointMap3, jointMap3Job
- *   reach.js        reachPlan, reachElevation
- *   pathcurve.js    pathCurve
- *   panels/targetcheck.js targetCheck;  panels/posecheck.js poseCheck, logCheck;
- *   panels/path.js  pathReport, sequence;  panels/placement.js placement
+ *   actions.js: target, targetInputAt, fixture, joints, selectedBranch, selection, mapJoints,
+ *     map3Joints, stepMm, stepDeg, snap, follow, showReach, showCapsules, dragging, dragKind, status,
+ *     carriage
+ *   linking.js: robot, cellActive, robotMeshes, fk, fkJoints, ik
+ *   cellsync.js: cell, cellSave
+ *   main.js: robots
+ *   review.js: readOnly, reviewerCaps
+ *   armstate.js: armState
+ *   kernels.js: kernels
+ *   meshes.js: meshes
+ *   maps.js: jointMap, jointMapJob, jointMap3, jointMap3Job
+ *   reach.js: reachPlan, reachElevation
+ *   pathcurve.js: pathCurve
+ *   panels/targetcheck.js: targetCheck
+ *   panels/posecheck.js: poseCheck, logCheck
+ *   panels/path.js: pathReport, sequence
+ *   panels/placement.js: placement
  *
  * Two writes of linking.js cross owners on purpose, so that the views redraw
  * once: loading a robot resets, in the same update, the keys that belong to
