@@ -22,6 +22,7 @@ from posebridge.transforms import (
     invert_transform,
     quaternion_from_rotation_matrix,
     rotation_matrix_about_axis,
+    rotation_matrix_about_y,
     rotation_matrix_about_z,
     rotation_matrix_from_quaternion,
     rotation_matrix_from_rotation_vector,
@@ -217,6 +218,19 @@ def test_rotation_about_z_matches_scipy_with_exact_zeros() -> None:
     assert np.all(R[..., 2, :2] == 0.0)
     assert np.all(R[..., :2, 2] == 0.0)
     assert np.all(R[..., 2, 2] == 1.0)
+
+
+def test_rotation_matrix_about_y_matches_scipy() -> None:
+    angle = np.random.default_rng(SEED).uniform(-4, 4, (20, 5))
+    R = rotation_matrix_about_y(angle)
+    assert R.shape == (20, 5, 3, 3)
+    # scipy Rotation (reference library): elementary rotation about y
+    expected = Rotation.from_euler("y", angle.reshape(-1, 1)).as_matrix().reshape(20, 5, 3, 3)
+    np.testing.assert_allclose(R, expected, atol=1e-15)
+    # Ry's second row and column are exactly (0, 1, 0) (closed form)
+    assert np.all(R[..., 1, [0, 2]] == 0.0)
+    assert np.all(R[..., [0, 2], 1] == 0.0)
+    assert np.all(R[..., 1, 1] == 1.0)
 
 
 # --------------------------------------------------------------- transforms

@@ -32,6 +32,7 @@ __all__ = [
     "invert_transform",
     "quaternion_from_rotation_matrix",
     "rotation_matrix_about_axis",
+    "rotation_matrix_about_y",
     "rotation_matrix_about_z",
     "rotation_matrix_from_quaternion",
     "rotation_matrix_from_rotation_vector",
@@ -162,6 +163,28 @@ def rotation_matrix_about_z(angle: npt.ArrayLike) -> FloatArray:
     c, s = np.cos(angle), np.sin(angle)
     R = np.zeros((*angle.shape, 3, 3))
     R[..., 0, 0], R[..., 0, 1], R[..., 1, 0], R[..., 1, 1], R[..., 2, 2] = c, -s, s, c, 1.0
+    return R
+
+
+def rotation_matrix_about_y(angle: npt.ArrayLike) -> FloatArray:
+    """Rotation by ``angle`` about the y axis, ``Ry = [[c, 0, s], [0, 1, 0], [-s, 0, c]]``.
+
+    The elementary rotation (Lynch & Park, Modern Robotics, sec. 3.2.1),
+    written out so that the zeros and the one are exact.
+
+    Parameters
+    ----------
+    angle : array-like, shape (...)
+        Radians.
+
+    Returns
+    -------
+    R : array, shape (..., 3, 3)
+    """
+    angle = np.asarray(angle, dtype=np.float64)
+    c, s = np.cos(angle), np.sin(angle)
+    R = np.zeros((*angle.shape, 3, 3))
+    R[..., 0, 0], R[..., 0, 2], R[..., 2, 0], R[..., 2, 2], R[..., 1, 1] = c, s, -s, c, 1.0
     return R
 
 

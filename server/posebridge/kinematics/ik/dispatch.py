@@ -27,7 +27,9 @@ tolerances.
 from __future__ import annotations
 
 import weakref
+from collections.abc import Callable
 from dataclasses import dataclass
+from typing import TypedDict
 
 import numpy.typing as npt
 
@@ -48,6 +50,18 @@ from posebridge.robot.model import Robot
 __all__ = ["IkSolver", "ik_solver", "solve_ik_all"]
 
 
+Geometry = OrthoParallelGeometry | OffsetWristGeometry | PlanarGeometry | GantryGeometry
+"""The extracted parameters of an analytic family."""
+
+
+class _CommonOptions(TypedDict):
+    """The keyword arguments every family's solver takes."""
+
+    T_flange_tool: npt.ArrayLike | None
+    seed: npt.ArrayLike | None
+    all_revolutions: bool
+
+
 @dataclass(frozen=True, eq=False)
 class IkSolver:
     """The IK solver chosen for one robot.
@@ -64,7 +78,7 @@ class IkSolver:
 
     robot: Robot
     family: str
-    geometry: OrthoParallelGeometry | OffsetWristGeometry | PlanarGeometry | GantryGeometry | None
+    geometry: Geometry | None
 
     def solve(
         self,
@@ -79,55 +93,35 @@ class IkSolver:
         """Every IK solution of each pose; parameters as :func:`solve_ik_all`."""
         tolerance = check_positive(position_tolerance_m, "position_tolerance_m")
         orientation = check_positive(orientation_tolerance_rad, "orientation_tolerance_rad")
-        geometry = self.geometry
+        robot, geometry = self.robot, self.geometry
+        common = _CommonOptions(
+            T_flange_tool=T_flange_tool, seed=seed, all_revolutions=all_revolutions
+        )
         if isinstance(geometry, OrthoParallelGeometry):
             return solve_ortho_parallel(
-                self.robot,
-                geometry,
-                T_base_tool,
-                T_flange_tool=T_flange_tool,
-                seed=seed,
-                all_revolutions=all_revolutions,
-                position_tolerance_m=tolerance,
+                robot, geometry, T_base_tool, position_tolerance_m=tolerance, **common
             )
         if isinstance(geometry, OffsetWristGeometry):
             return solve_offset_wrist(
-                self.robot,
+                robot,
                 geometry,
                 T_base_tool,
-                T_flange_tool=T_flange_tool,
-                seed=seed,
-                all_revolutions=all_revolutions,
                 position_tolerance_m=tolerance,
                 orientation_tolerance_rad=orientation,
+                **common,
             )
         if isinstance(geometry, PlanarGeometry):
             return solve_planar(
-                self.robot,
-                geometry,
-                T_base_tool,
-                T_flange_tool=T_flange_tool,
-                seed=seed,
-                all_revolutions=all_revolutions,
-                position_tolerance_m=tolerance,
+                robot, geometry, T_base_tool, position_tolerance_m=tolerance, **common
             )
         if isinstance(geometry, GantryGeometry):
-            return solve_gantry(
-                self.robot,
-                geometry,
-                T_base_tool,
-                T_flange_tool=T_flange_tool,
-                seed=seed,
-                all_revolutions=all_revolutions,
-            )
+            return solve_gantry(robot, geometry, T_base_tool, **common)
         return solve_ik_numeric(
-            self.robot,
+            robot,
             T_base_tool,
-            T_flange_tool=T_flange_tool,
-            seed=seed,
             position_tolerance_m=tolerance,
             orientation_tolerance_rad=orientation,
-            all_revolutions=all_revolutions,
+            **common,
         )
 
 
@@ -146,22 +140,21 @@ def ik_solver(robot: Robot) -> IkSolver:
     return solver
 
 
+_FAMILIES: tuple[tuple[str, Callable[[Robot], Geometry | None]], ...] = (
+    ("ortho_parallel", OrthoParallelGeometry.from_robot),
+    ("offset_wrist", OffsetWristGeometry.from_robot),
+    ("planar", PlanarGeometry.from_robot),
+    ("scara", ScaraGeometry.from_robot),
+    ("gantry", GantryGeometry.from_robot),
+)
+"""The analytic families in the order they are tried (module docstring), with their extractors."""
+
+
 def _choose_solver(robot: Robot) -> IkSolver:
-    opw = OrthoParallelGeometry.from_robot(robot)
-    if opw is not None:
-        return IkSolver(robot, "ortho_parallel", opw)
-    offset_wrist = OffsetWristGeometry.from_robot(robot)
-    if offset_wrist is not None:
-        return IkSolver(robot, "offset_wrist", offset_wrist)
-    planar = PlanarGeometry.from_robot(robot)
-    if planar is not None:
-        return IkSolver(robot, "planar", planar)
-    scara = ScaraGeometry.from_robot(robot)
-    if scara is not None:
-        return IkSolver(robot, "scara", scara)
-    gantry = GantryGeometry.from_robot(robot)
-    if gantry is not None:
-        return IkSolver(robot, "gantry", gantry)
+    for family, extract in _FAMILIES:
+        geometry = extract(robot)
+        if geometry is not None:
+            return IkSolver(robot, family, geometry)
     return IkSolver(robot, "numeric", None)
 
 

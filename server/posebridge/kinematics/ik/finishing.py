@@ -31,7 +31,7 @@ comparable (a time-like measure; common practice, no source).
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 
 import numba as nb
 import numpy as np
@@ -54,17 +54,27 @@ __all__ = [
     "JOINT_PRISMATIC",
     "JOINT_REVOLUTE",
     "JOINT_REVOLUTE_ONE_REVOLUTION",
+    "FinishInputs",
     "KernelOutputs",
+    "block_count",
+    "block_rows",
+    "empty_candidates",
     "empty_outputs",
+    "finish_inputs",
     "finish_rows",
     "finish_solutions",
     "joint_modes",
     "joint_table",
     "joint_weights",
     "revolution_variant_counts",
+    "run_blocks",
     "slots_per_candidate",
     "solutions_from_outputs",
 ]
+
+FinishInputs = tuple[FloatArray, bool, FloatArray, bool]
+"""Inputs of the finishing step every solver kernel passes on (:func:`finish_inputs`):
+seed, has_seed, joint table, all_revolutions."""
 
 KernelOutputs = tuple[
     FloatArray, BoolArray, BoolArray, Int8Array, Int8Array, Int8Array, Int16Array, Int8Array
@@ -179,36 +189,55 @@ def _rank(label):
     return 1 - label
 
 
+@nb.njit(cache=True, inline="always")
+def block_count(N):
+    """Blocks of :data:`BLOCK_SIZE` poses that cover ``N`` poses."""
+    return (N + BLOCK_SIZE - 1) // BLOCK_SIZE
+
+
+@nb.njit(cache=True, inline="always")
+def block_rows(block, N):
+    """First and one-past-last pose of block ``block`` of ``N`` poses."""
+    start = block * BLOCK_SIZE
+    return start, min(N, start + BLOCK_SIZE)
+
+
 @nb.njit(cache=True)
-def finish_rows(
-    start,
-    stop,
-    raw_offset,
-    raw_q,
-    raw_ok,
-    raw_labels,
-    raw_reason,
-    seed,
-    has_seed,
-    joints,
-    all_revolutions,
-    out,
-):
+def empty_candidates(B, M0, n):
+    """Scratch arrays of one block's raw candidates, the input of :func:`finish_rows`.
+
+    Returns ``(raw_q, raw_ok, raw_labels, raw_reason)``: shapes (B, M0, n),
+    (B, M0) bool (all False), (B, M0, 3) int8 (all 0) and (B,) int8.
+    """
+    return (
+        np.empty((B, M0, n)),
+        np.zeros((B, M0), dtype=np.bool_),
+        np.zeros((B, M0, 3), dtype=np.int8),
+        np.empty(B, dtype=np.int8),
+    )
+
+
+@nb.njit(cache=True)
+def finish_rows(start, stop, raw_offset, raw, finish, out):
     """Revolution variants, limit flags, slot order and reason codes for poses ``start..stop-1``.
 
-    Pose ``i``'s raw candidates are row ``i - raw_offset`` of ``raw_q``
-    (B, M0, n; revolute values in any revolution), ``raw_ok`` (B, M0) marks those
-    that reach the pose, ``raw_labels`` (B, M0, 3) holds their shoulder, elbow
-    and wrist labels and ``raw_reason`` (B,) the reason code to report if none
-    reaches it. ``seed`` is (N, n), ``joints`` is :func:`joint_table`. ``out``
-    is :func:`empty_outputs` (N rows, M slots: M0, or M0 times the product of
-    revolution variants with ``all_revolutions``); row ``i`` is written, with reason code
-    0 (solved), 3 (valid only outside the limits) or ``raw_reason``.
+    ``raw`` is :func:`empty_candidates` filled by a solver: pose ``i``'s raw
+    candidates are row ``i - raw_offset`` of ``raw_q`` (B, M0, n; revolute
+    values in any revolution), ``raw_ok`` (B, M0) marks those that reach the
+    pose, ``raw_labels`` (B, M0, 3) holds their shoulder, elbow and wrist
+    labels and ``raw_reason`` (B,) the reason code to report if none reaches
+    it. ``finish`` is :func:`finish_inputs`: ``seed`` (N, n), ``has_seed``,
+    ``joints`` (:func:`joint_table`) and ``all_revolutions``. ``out`` is
+    :func:`empty_outputs` (N rows, M slots: M0, or M0 times the product of
+    revolution variants with ``all_revolutions``); row ``i`` is written, with
+    reason code 0 (solved), 3 (valid only outside the limits) or ``raw_reason``.
 
     One call handles a block of poses: every array argument costs a
     reference-count update per call, so nothing here is called per pose with
     arrays.
     """
+    raw_q, raw_ok, raw_labels, raw_reason = raw
+    seed, has_seed, joints, all_revolutions = finish
     out_q, out_valid, out_within, out_sh, out_el, out_wr, out_revolutions, codes = out
     n = raw_q.shape[2]
     M = out_q.shape[1]
@@ -336,47 +365,52 @@ def finish_rows(
 
 
 @nb.njit(cache=True)
-def _finish_serial(
-    raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_revolutions, out
-):
-    finish_rows(
-        0,
-        raw_q.shape[0],
-        0,
-        raw_q,
-        raw_ok,
-        raw_labels,
-        raw_reason,
-        seed,
-        has_seed,
-        joints,
-        all_revolutions,
-        out,
-    )
+def _finish_block(start, stop, raw, finish, out):
+    finish_rows(start, stop, 0, raw, finish, out)
 
 
 @nb.njit(cache=True, parallel=True)
-def _finish_parallel(
-    raw_q, raw_ok, raw_labels, raw_reason, seed, has_seed, joints, all_revolutions, out
-):
-    N = raw_q.shape[0]
-    n_blocks = (N + BLOCK_SIZE - 1) // BLOCK_SIZE
-    for b in nb.prange(n_blocks):
-        stop = min(N, (b + 1) * BLOCK_SIZE)
-        finish_rows(
-            b * BLOCK_SIZE,
-            stop,
-            0,
-            raw_q,
-            raw_ok,
-            raw_labels,
-            raw_reason,
-            seed,
-            has_seed,
-            joints,
-            all_revolutions,
-            out,
-        )
+def _finish_parallel(raw, finish, out):
+    N = raw[0].shape[0]
+    for block in nb.prange(block_count(N)):
+        start, stop = block_rows(block, N)
+        _finish_block(start, stop, raw, finish, out)
+
+
+def run_blocks(
+    block_kernel: Callable[..., None], parallel_kernel: Callable[..., None], N: int, *args: object
+) -> None:
+    """Run a solver kernel over ``N`` poses in blocks of :data:`BLOCK_SIZE`.
+
+    ``block_kernel(start, stop, *args)`` solves poses ``start..stop-1``;
+    ``parallel_kernel(*args)`` runs it over all blocks with ``numba.prange``.
+    Batches below :data:`~posebridge.kinematics.fk.PARALLEL_THRESHOLD` poses
+    run the blocks one after the other in the calling thread (starting the
+    thread pool costs more than they take).
+    """
+    if N >= PARALLEL_THRESHOLD:
+        parallel_kernel(*args)
+        return
+    for start in range(0, N, BLOCK_SIZE):
+        block_kernel(start, min(N, start + BLOCK_SIZE), *args)
+
+
+def finish_inputs(
+    robot: Robot, seed: npt.ArrayLike | None, N: int, all_revolutions: bool
+) -> FinishInputs:
+    """Return the inputs of :func:`finish_rows` shared by every solver of ``N`` poses.
+
+    Returns
+    -------
+    seed : array, shape (N, n)
+        :func:`~posebridge.kinematics.ik.inputs.check_seed` (zeros without a seed).
+    has_seed : bool
+    joints : array, shape (n, 4)
+        :func:`joint_table`.
+    all_revolutions : bool
+    """
+    seed_array, has_seed = check_seed(robot, seed, N)
+    return seed_array, has_seed, joint_table(robot), bool(all_revolutions)
 
 
 def empty_outputs(N: int, M: int, n: int) -> KernelOutputs:
@@ -489,21 +523,11 @@ def finish_solutions(
                 [np.broadcast_to(np.asarray(x, dtype=np.int8), (N, M0)) for x in labels], axis=2
             )
         )
-    seed_array, has_seed = check_seed(robot, seed, N)
     M = M0 * slots_per_candidate(robot, all_revolutions)
     out = empty_outputs(N, M, n)
-    unreachable_code = np.ones(N, dtype=np.int8)
-    kernel = _finish_parallel if N >= PARALLEL_THRESHOLD else _finish_serial
-    kernel(
-        q,
-        ok_array,
-        label_array,
-        unreachable_code,
-        seed_array,
-        has_seed,
-        joint_table(robot),
-        all_revolutions,
-        out,
+    raw = (q, ok_array, label_array, np.ones(N, dtype=np.int8))
+    run_blocks(
+        _finish_block, _finish_parallel, N, raw, finish_inputs(robot, seed, N, all_revolutions), out
     )
     codes = out[7]
     unreachable = (

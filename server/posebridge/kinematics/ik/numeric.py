@@ -196,35 +196,35 @@ def _distinct(q, kept, count, modes):
 
 
 @nb.njit(cache=True)
-def _solve_one(
-    R_target,
-    p_target,
-    seed,
-    starts,
-    table,
-    prismatic,
-    axes,
-    tail,
-    lower,
-    upper,
-    clamp,
-    modes,
-    position_tolerance,
-    orientation_tolerance,
-    max_iterations,
-    damping_bias,
-    q_out,
-    closest_out,
-):
+def _solve_one(R_target, p_target, seed, problem, q_out, closest_out):
     """Multi-start LM for one pose; fills ``q_out`` (M, n) from the top, returns the count.
 
-    Not inlined into the two drivers (unlike the FK kernels): the body is
-    large, and inlining it twice tripled the first compile time.
+    ``problem`` holds what every pose shares: ``(starts, table, prismatic,
+    axes, tail, lower, upper, clamp, modes, position_tolerance,
+    orientation_tolerance, max_iterations, damping_bias)``
+    (:func:`solve_ik_numeric`). Not inlined into the two drivers (unlike the
+    FK kernels): the body is large, and inlining it twice tripled the first
+    compile time.
 
     ``closest_out`` (3,) receives the position error (m), orientation error
     (rad) and starts used; the errors are those of the start that came
     closest (smallest ``E``), zero when a solution was found.
     """
+    (
+        starts,
+        table,
+        prismatic,
+        axes,
+        tail,
+        lower,
+        upper,
+        clamp,
+        modes,
+        position_tolerance,
+        orientation_tolerance,
+        max_iterations,
+        damping_bias,
+    ) = problem
     n = seed.shape[0]
     M = q_out.shape[0]
     R = np.empty((3, 3))
@@ -311,91 +311,17 @@ def _solve_one(
 
 
 @nb.njit(cache=True)
-def _solve_serial(
-    targets,
-    seeds,
-    starts,
-    table,
-    prismatic,
-    axes,
-    tail,
-    lower,
-    upper,
-    clamp,
-    modes,
-    position_tolerance,
-    orientation_tolerance,
-    max_iterations,
-    damping_bias,
-    q_out,
-    counts,
-    closest,
-):
+def _solve_serial(targets, seeds, problem, q_out, counts, closest):
     for k in range(targets.shape[0]):
-        counts[k] = _solve_one(
-            targets[k, :3, :3],
-            targets[k, :3, 3],
-            seeds[k],
-            starts,
-            table,
-            prismatic,
-            axes,
-            tail,
-            lower,
-            upper,
-            clamp,
-            modes,
-            position_tolerance,
-            orientation_tolerance,
-            max_iterations,
-            damping_bias,
-            q_out[k],
-            closest[k],
-        )
+        T = targets[k]
+        counts[k] = _solve_one(T[:3, :3], T[:3, 3], seeds[k], problem, q_out[k], closest[k])
 
 
 @nb.njit(cache=True, parallel=True)
-def _solve_parallel(
-    targets,
-    seeds,
-    starts,
-    table,
-    prismatic,
-    axes,
-    tail,
-    lower,
-    upper,
-    clamp,
-    modes,
-    position_tolerance,
-    orientation_tolerance,
-    max_iterations,
-    damping_bias,
-    q_out,
-    counts,
-    closest,
-):
+def _solve_parallel(targets, seeds, problem, q_out, counts, closest):
     for k in nb.prange(targets.shape[0]):
-        counts[k] = _solve_one(
-            targets[k, :3, :3],
-            targets[k, :3, 3],
-            seeds[k],
-            starts,
-            table,
-            prismatic,
-            axes,
-            tail,
-            lower,
-            upper,
-            clamp,
-            modes,
-            position_tolerance,
-            orientation_tolerance,
-            max_iterations,
-            damping_bias,
-            q_out[k],
-            closest[k],
-        )
+        T = targets[k]
+        counts[k] = _solve_one(T[:3, :3], T[:3, 3], seeds[k], problem, q_out[k], closest[k])
 
 
 def random_starts(robot: Robot, count: int, rng_seed: int) -> FloatArray:
@@ -511,9 +437,7 @@ def solve_ik_numeric(
     counts = np.zeros(N, dtype=np.int64)
     closest = np.zeros((N, 3))
     kernel = _solve_parallel if N >= IK_PARALLEL_THRESHOLD else _solve_serial
-    kernel(
-        targets,
-        starts_from,
+    problem = (
         random_starts(robot, restarts, rng_seed),
         robot.motion_table,
         robot.prismatic,
@@ -527,10 +451,8 @@ def solve_ik_numeric(
         orientation_tolerance,
         max_iterations,
         DAMPING_BIAS,
-        q_raw,
-        counts,
-        closest,
     )
+    kernel(targets, starts_from, problem, q_raw, counts, closest)
     ok = np.arange(max_solutions)[None, :] < counts[:, None]
     position_mm = mm_from_m(closest[:, 0])
     orientation_deg = deg_from_rad(closest[:, 1])

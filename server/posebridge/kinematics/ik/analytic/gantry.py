@@ -24,7 +24,13 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.kinematics.fk import fk_flange, fk_frames, fk_tool
+from posebridge.kinematics.fk import fk_tool
+from posebridge.kinematics.ik.analytic.extraction import (
+    GEOMETRY_TOLERANCE,
+    VERIFY_SAMPLES,
+    agrees_with_fk,
+    zero_axes,
+)
 from posebridge.kinematics.ik.finishing import finish_solutions
 from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
 from posebridge.kinematics.ik.solutions import IkSolutions
@@ -36,9 +42,6 @@ __all__ = ["METHOD", "GantryGeometry", "solve_gantry"]
 
 METHOD = "analytic: gantry, linear system of the three linear axes"
 
-_GEOMETRY_TOLERANCE = 1e-9
-_VERIFY_TOLERANCE = 1e-9
-_VERIFY_SAMPLES = 64
 _SMALLEST_SINGULAR_VALUE = 1e-6
 _Z = np.array([0.0, 0.0, 1.0])
 
@@ -78,26 +81,23 @@ class GantryGeometry:
             return None
         if robot.dof == 4 and robot.prismatic[3]:
             return None
-        frames = fk_frames(robot, np.zeros((1, robot.dof)))[0]
-        axes = np.einsum("nij,nj->ni", frames[1 : robot.dof + 1, :3, :3], robot.axes)
+        frames, axes, _ = zero_axes(robot)
         directions = axes[:3].T
         if np.linalg.svd(directions, compute_uv=False)[-1] < _SMALLEST_SINGULAR_VALUE:
             return None
         rotation_sign = 0.0
         rotation_point = np.zeros(3)
         if robot.dof == 4:
-            if np.linalg.norm(np.cross(axes[3], _Z)) > _GEOMETRY_TOLERANCE:
+            if np.linalg.norm(np.cross(axes[3], _Z)) > GEOMETRY_TOLERANCE:
                 return None
             rotation_sign = float(np.sign(axes[3] @ _Z))
             rotation_point = frames[4, :3, 3]
         geometry = cls(directions, rotation_sign, rotation_point, frames[robot.dof + 1])
         rng = np.random.default_rng(20140523)
-        q = rng.uniform(-1.0, 1.0, size=(_VERIFY_SAMPLES, robot.dof))
+        q = rng.uniform(-1.0, 1.0, size=(VERIFY_SAMPLES, robot.dof))
         if robot.dof == 4:
             q[:, 3] *= np.pi
-        if np.abs(geometry.fk_flange(q) - fk_flange(robot, q)).max() > _VERIFY_TOLERANCE:
-            return None
-        return geometry
+        return geometry if agrees_with_fk(robot, geometry.fk_flange, q) else None
 
     def fk_flange(self, q: npt.ArrayLike) -> FloatArray:
         """Flange poses by the gantry model (module docstring), shape (N, 4, 4)."""

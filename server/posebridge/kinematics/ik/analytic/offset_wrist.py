@@ -87,6 +87,7 @@ assembly of joint values, then the slot finishing of
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import partial
 
 import numba as nb
 import numpy as np
@@ -99,33 +100,39 @@ from posebridge.kinematics.branches import (
     shoulder_label,
     wrist_label,
 )
-from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_flange, fk_frames, tool_tail
+from posebridge.kinematics.fk import tool_tail
+from posebridge.kinematics.ik.analytic.extraction import (
+    GEOMETRY_TOLERANCE,
+    VERIFY_SAMPLES,
+    agrees_with_fk,
+    line_gap,
+    zero_axes,
+)
 from posebridge.kinematics.ik.analytic.ortho_parallel import atan2_many
 from posebridge.kinematics.ik.finishing import (
-    BLOCK_SIZE,
+    block_count,
+    block_rows,
+    empty_candidates,
     empty_outputs,
+    finish_inputs,
     finish_rows,
-    joint_table,
+    run_blocks,
     slots_per_candidate,
     solutions_from_outputs,
 )
-from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
+from posebridge.kinematics.ik.inputs import check_target_poses
 from posebridge.kinematics.ik.solutions import IkSolutions, reasons_from_codes
 from posebridge.robot.model import Robot
-from posebridge.transforms import invert_transform, rotation_matrix_about_z
+from posebridge.transforms import (
+    invert_transform,
+    rotation_matrix_about_y,
+    rotation_matrix_about_z,
+)
 from posebridge.units import FloatArray
 
 __all__ = ["METHOD", "OffsetWristGeometry", "solve_offset_wrist"]
 
 METHOD = "analytic: offset wrist, joints 2-4 parallel"
-
-_GEOMETRY_TOLERANCE = 1e-9
-"""Largest deviation (m, or unit-vector components) accepted by the extractor's checks."""
-
-_VERIFY_TOLERANCE = 1e-9
-"""Largest |FK difference| on random configurations for the extractor to accept a robot."""
-
-_VERIFY_SAMPLES = 64
 
 _WRIST_SINGULAR_SIN = 1e-8
 """``|sin θ5|`` below which θ6 is taken from the seed. Above it the regular
@@ -135,19 +142,6 @@ wrist misses the orientation by at most |sin θ5|: both below 1e-8 rad."""
 _ANGLES = 26
 """Arctangent pairs per pose: θ1 (2); θ5, θ6, φ, β = |θ3| for each of the four
 shoulder-wrist choices (16); θ2 for each of the eight solutions (8)."""
-
-
-def _ry(angle: FloatArray) -> FloatArray:
-    c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros((*angle.shape, 3, 3))
-    R[..., 0, 0], R[..., 0, 2], R[..., 2, 0], R[..., 2, 2], R[..., 1, 1] = c, s, -s, c, 1.0
-    return R
-
-
-def _line_gap(p: FloatArray, a: FloatArray, point: FloatArray) -> float:
-    """Distance of ``point`` from the line through ``p`` along unit ``a``."""
-    d = point - p
-    return float(np.linalg.norm(d - (d @ a) * a))
 
 
 @dataclass(frozen=True)
@@ -214,18 +208,14 @@ class OffsetWristGeometry:
         if geometry is None:
             return None
         rng = np.random.default_rng(20240611)
-        q = rng.uniform(-np.pi, np.pi, size=(_VERIFY_SAMPLES, 6))
+        q = rng.uniform(-np.pi, np.pi, size=(VERIFY_SAMPLES, 6))
         q[0] = 0.0
-        if np.abs(geometry.fk_flange(robot, q) - fk_flange(robot, q)).max() > _VERIFY_TOLERANCE:
-            return None
-        return geometry
+        return geometry if agrees_with_fk(robot, partial(geometry.fk_flange, robot), q) else None
 
     @classmethod
     def _extract(cls, robot: Robot) -> OffsetWristGeometry | None:
-        frames = fk_frames(robot, np.zeros((1, 6)))[0]
-        axes = np.einsum("nij,nj->ni", frames[1:7, :3, :3], robot.axes)
-        points = frames[1:7, :3, 3]
-        tol = _GEOMETRY_TOLERANCE
+        frames, axes, points = zero_axes(robot)
+        tol = GEOMETRY_TOLERANCE
         a_1, a_2, a_3, a_4, a_5, a_6 = axes
         p_1, p_2, p_3, p_4, p_5, p_6 = points
         if abs(a_1 @ a_2) > tol or abs(a_5 @ a_2) > tol or abs(a_6 @ a_5) > tol:
@@ -234,7 +224,7 @@ class OffsetWristGeometry:
             return None
         # wrist point: the point of axis 5 nearest axis 6 (perpendicular axes), on both
         wrist = p_5 - ((p_5 - p_6) @ a_5) * a_5
-        if _line_gap(p_6, a_6, wrist) > tol:
+        if line_gap(p_6, a_6, wrist) > tol:
             return None
         z, y = a_1, a_2
         x = np.cross(y, z)
@@ -269,7 +259,7 @@ class OffsetWristGeometry:
         H[:3, :3] = np.stack([x, y, z], axis=1)
         H[:3, 3] = origin
         end = np.eye(4)
-        end[:3, :3] = H[:3, :3] @ _ry(np.array(phi)) @ rotation_matrix_about_z(offsets[4])
+        end[:3, :3] = H[:3, :3] @ rotation_matrix_about_y(phi) @ rotation_matrix_about_z(offsets[4])
         end[:3, 3] = wrist
         labels = branch_geometry(robot)
         if labels.scheme != "arm":
@@ -323,7 +313,12 @@ class OffsetWristGeometry:
         )
         R1 = rotation_matrix_about_z(t1)
         T = np.zeros((theta.shape[0], 4, 4))
-        T[:, :3, :3] = R1 @ _ry(phi) @ rotation_matrix_about_z(t5) @ _ry(t6)
+        T[:, :3, :3] = (
+            R1
+            @ rotation_matrix_about_y(phi)
+            @ rotation_matrix_about_z(t5)
+            @ rotation_matrix_about_y(t6)
+        )
         T[:, :3, 3] = np.einsum("kij,kj->ki", R1, local)
         T[:, 3, 3] = 1.0
         return self.T_base_canonical @ T @ self.T_end_link @ robot.T_link_flange
@@ -383,28 +378,11 @@ def _reachable_phi(phi, x, z, prm):
 
 
 @nb.njit(cache=True)
-def _arm_candidates(
-    start,
-    stop,
-    T,
-    Hi,
-    C,
-    prm,
-    signs,
-    offsets,
-    seed,
-    tol_pos,
-    tol_rot,
-    pair_y,
-    pair_x,
-    arm_ok,
-    arm_labels,
-    raw_reason,
-):
+def _arm_candidates(start, stop, problem, seed, C, pair_y, pair_x, arm_ok, arm_labels, raw_reason):
     """Run steps 1 to 3 of the module docstring and the check of each candidate.
 
-    For poses ``start..stop-1`` (rows ``i - start``; ``C`` holds their
-    canonical end frames) writes for each of the eight candidates (index
+    For poses ``start..stop-1`` (rows ``i - start``; ``problem`` as in
+    :func:`_solve_block`, ``C`` holds their canonical end frames) writes for each of the eight candidates (index
     ``4 shoulder + 2 wrist + elbow``) whether it reaches the pose and is not
     a duplicate (``arm_ok`` (B, 8)), its shoulder and elbow labels
     (``arm_labels`` (B, 8, 2)) and the arctangent argument pairs of every
@@ -413,6 +391,7 @@ def _arm_candidates(
     pose: 1 (out of reach) when the tool point is farther from every
     shoulder position than the stretched arm plus the wrist and tool, else 2.
     """
+    T, Hi, _, prm, signs, offsets, tol_pos, tol_rot = problem
     a1, b, l2, l3, e, d5 = prm[0], prm[1], prm[2], prm[3], prm[4], prm[5]
     f, K_elbow, lever = prm[6], prm[6] * prm[7], prm[9]
     for i in range(start, stop):
@@ -578,23 +557,13 @@ def _arm_candidates(
 
 
 @nb.njit(cache=True)
-def _assemble(
-    start,
-    stop,
-    prm,
-    signs,
-    offsets,
-    angles,
-    arm_ok,
-    arm_labels,
-    raw_q,
-    raw_ok,
-    raw_labels,
-):
+def _assemble(start, stop, prm, signs, offsets, angles, arm_ok, arm_labels, raw):
     """Joint values and labels of the eight candidates from the computed angles.
 
-    ``θ3 = ±β``, ``θ4 = φ - θ2 - θ3``; joint values ``q_i = s_i (θ_i - o_i)``.
+    ``θ3 = ±β``, ``θ4 = φ - θ2 - θ3``; joint values ``q_i = s_i (θ_i - o_i)``;
+    written to ``raw`` (:func:`~posebridge.kinematics.ik.finishing.empty_candidates`).
     """
+    raw_q, raw_ok, raw_labels, _ = raw
     straight = prm[8]
     for i in range(start, stop):
         row = i - start
@@ -624,24 +593,14 @@ def _assemble(
 
 
 @nb.njit(cache=True)
-def _solve_block(
-    start,
-    stop,
-    T,
-    Hi,
-    G,
-    prm,
-    signs,
-    offsets,
-    seed,
-    has_seed,
-    tol_pos,
-    tol_rot,
-    joints,
-    all_revolutions,
-    out,
-):
-    """Candidates (canonical targets, geometry, arctangents, assembly), then slot finishing."""
+def _solve_block(start, stop, problem, finish, out):
+    """Candidates (canonical targets, geometry, arctangents, assembly), then slot finishing.
+
+    ``problem`` is ``(T, Hi, G, prm, signs, offsets, tol_pos, tol_rot)``
+    (:func:`solve_offset_wrist`), ``finish`` is
+    :func:`~posebridge.kinematics.ik.finishing.finish_inputs`.
+    """
+    T, Hi, G, prm, signs, offsets, _, _ = problem
     B = stop - start
     C = np.zeros((B, 3, 4))
     pair_y = np.zeros((B, _ANGLES))
@@ -649,102 +608,22 @@ def _solve_block(
     angles = np.empty((B, _ANGLES))
     arm_ok = np.zeros((B, 8), dtype=np.bool_)
     arm_labels = np.zeros((B, 8, 2), dtype=np.int8)
-    raw_q = np.empty((B, 8, 6))
-    raw_ok = np.zeros((B, 8), dtype=np.bool_)
-    raw_labels = np.zeros((B, 8, 3), dtype=np.int8)
-    raw_reason = np.empty(B, dtype=np.int8)
+    raw = empty_candidates(B, 8, 6)
     _canonical_targets(start, stop, T, Hi, G, C)
-    _arm_candidates(
-        start,
-        stop,
-        T,
-        Hi,
-        C,
-        prm,
-        signs,
-        offsets,
-        seed,
-        tol_pos,
-        tol_rot,
-        pair_y,
-        pair_x,
-        arm_ok,
-        arm_labels,
-        raw_reason,
-    )
+    _arm_candidates(start, stop, problem, finish[0], C, pair_y, pair_x, arm_ok, arm_labels, raw[3])
     atan2_many(
         pair_y.reshape(B * _ANGLES), pair_x.reshape(B * _ANGLES), angles.reshape(B * _ANGLES)
     )
-    _assemble(
-        start, stop, prm, signs, offsets, angles, arm_ok, arm_labels, raw_q, raw_ok, raw_labels
-    )
-    finish_rows(
-        start,
-        stop,
-        start,
-        raw_q,
-        raw_ok,
-        raw_labels,
-        raw_reason,
-        seed,
-        has_seed,
-        joints,
-        all_revolutions,
-        out,
-    )
-
-
-@nb.njit(cache=True)
-def _solve_serial(
-    T, Hi, G, prm, signs, offsets, seed, has_seed, tol_pos, tol_rot, joints, all_revolutions, out
-):
-    N = T.shape[0]
-    for start in range(0, N, BLOCK_SIZE):
-        stop = min(N, start + BLOCK_SIZE)
-        _solve_block(
-            start,
-            stop,
-            T,
-            Hi,
-            G,
-            prm,
-            signs,
-            offsets,
-            seed,
-            has_seed,
-            tol_pos,
-            tol_rot,
-            joints,
-            all_revolutions,
-            out,
-        )
+    _assemble(start, stop, prm, signs, offsets, angles, arm_ok, arm_labels, raw)
+    finish_rows(start, stop, start, raw, finish, out)
 
 
 @nb.njit(cache=True, parallel=True)
-def _solve_parallel(
-    T, Hi, G, prm, signs, offsets, seed, has_seed, tol_pos, tol_rot, joints, all_revolutions, out
-):
-    N = T.shape[0]
-    n_blocks = (N + BLOCK_SIZE - 1) // BLOCK_SIZE
-    for blk in nb.prange(n_blocks):
-        stop = min(N, (blk + 1) * BLOCK_SIZE)
-        _solve_block(
-            blk * BLOCK_SIZE,
-            stop,
-            T,
-            Hi,
-            G,
-            prm,
-            signs,
-            offsets,
-            seed,
-            has_seed,
-            tol_pos,
-            tol_rot,
-            joints,
-            all_revolutions,
-            out,
-        )
+def _solve_parallel(problem, finish, out):
+    N = problem[0].shape[0]
+    for block in nb.prange(block_count(N)):
+        start, stop = block_rows(block, N)
+        _solve_block(start, stop, problem, finish, out)
 
 
 def _kernel_parameters(geometry: OffsetWristGeometry, G: FloatArray) -> FloatArray:
@@ -816,28 +695,27 @@ def solve_offset_wrist(
     """
     T = check_target_poses(T_base_tool)
     N = T.shape[0]
-    seed_array, has_seed = check_seed(robot, seed, N)
     G = np.ascontiguousarray(
         invert_transform(geometry.T_end_link @ tool_tail(robot, T_flange_tool))
     )
     Hi = np.ascontiguousarray(invert_transform(geometry.T_base_canonical)[:3])
-    prm = _kernel_parameters(geometry, G)
-    M = 8 * slots_per_candidate(robot, all_revolutions)
-    out = empty_outputs(N, M, 6)
-    kernel = _solve_parallel if N >= PARALLEL_THRESHOLD else _solve_serial
-    kernel(
+    problem = (
         T,
         Hi,
         G,
-        prm,
+        _kernel_parameters(geometry, G),
         geometry.signs,
         geometry.offsets,
-        seed_array,
-        has_seed,
         float(position_tolerance_m),
         float(orientation_tolerance_rad),
-        joint_table(robot),
-        all_revolutions,
+    )
+    out = empty_outputs(N, 8 * slots_per_candidate(robot, all_revolutions), 6)
+    run_blocks(
+        _solve_block,
+        _solve_parallel,
+        N,
+        problem,
+        finish_inputs(robot, seed, N, all_revolutions),
         out,
     )
     return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=METHOD)

@@ -55,17 +55,20 @@ from posebridge.kinematics.branches import (
     shoulder_label,
     wrist_label,
 )
-from posebridge.kinematics.fk import PARALLEL_THRESHOLD, tool_tail
+from posebridge.kinematics.fk import tool_tail
 from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.finishing import (
-    BLOCK_SIZE,
+    block_count,
+    block_rows,
+    empty_candidates,
     empty_outputs,
+    finish_inputs,
     finish_rows,
-    joint_table,
+    run_blocks,
     slots_per_candidate,
     solutions_from_outputs,
 )
-from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
+from posebridge.kinematics.ik.inputs import check_target_poses
 from posebridge.kinematics.ik.solutions import IkSolutions, reasons_from_codes
 from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform
@@ -140,21 +143,7 @@ def atan2_many(y, x, out):
 
 @nb.njit(cache=True)
 def _arm_candidates(
-    start,
-    stop,
-    T,
-    G,
-    prm,
-    signs,
-    offsets,
-    seed,
-    tol_pos,
-    pair_y,
-    pair_x,
-    arm_ok,
-    arm_mode,
-    arm_labels,
-    raw_reason,
+    start, stop, problem, seed, pair_y, pair_x, arm_ok, arm_mode, arm_labels, raw_reason
 ):
     """Position part and wrist matrices of poses ``start..stop-1`` (rows ``i - start``).
 
@@ -170,6 +159,7 @@ def _arm_candidates(
     cosines of θ1, θ2 and θ23 follow from the arm-plane vectors algebraically
     (angle-difference identities), so no angle is needed here.
     """
+    T, G, prm, signs, offsets, tol_pos = problem
     a1, b, c1, c2, c4 = prm[0], prm[2], prm[3], prm[4], prm[6]
     k, cos_psi, sin_psi = prm[7], prm[14], prm[15]
     K_sh, K_elbow = prm[9], prm[9] * prm[10]
@@ -303,27 +293,16 @@ def _arm_candidates(
 
 
 @nb.njit(cache=True)
-def _assemble(
-    start,
-    stop,
-    prm,
-    signs,
-    offsets,
-    seed,
-    angles,
-    arm_ok,
-    arm_mode,
-    arm_labels,
-    raw_q,
-    raw_ok,
-    raw_labels,
-):
+def _assemble(start, stop, problem, seed, angles, arm_ok, arm_mode, arm_labels, raw):
     """Joint values and labels of the eight candidates from the computed angles.
 
     Each arm solution gives two wrists, ``(θ4, θ5, θ6)`` and
     ``(θ4 + pi, -θ5, θ6 + pi)``; at a wrist singularity only the first, with
-    θ4 from the seed. ``θ3 = ±β - ψ``. Joint values ``q_i = s_i (θ_i - o_i)``.
+    θ4 from the seed. ``θ3 = ±β - ψ``. Joint values ``q_i = s_i (θ_i - o_i)``,
+    written to ``raw`` (:func:`~posebridge.kinematics.ik.finishing.empty_candidates`).
     """
+    _, _, prm, signs, offsets, _ = problem
+    raw_q, raw_ok, raw_labels, _ = raw
     psi, straight = prm[8], prm[11]
     for i in range(start, stop):
         row = i - start
@@ -373,10 +352,14 @@ def _assemble(
 
 
 @nb.njit(cache=True)
-def _solve_block(
-    start, stop, T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_revolutions, out
-):
-    """Candidates (three passes: arm geometry, arctangents, assembly), then slot finishing."""
+def _solve_block(start, stop, problem, finish, out):
+    """Candidates (three passes: arm geometry, arctangents, assembly), then slot finishing.
+
+    ``problem`` is ``(T, G, prm, signs, offsets, tol_pos)``
+    (:func:`solve_ortho_parallel`), ``finish`` is
+    :func:`~posebridge.kinematics.ik.finishing.finish_inputs`.
+    """
+    seed = finish[0]
     B = stop - start
     pair_y = np.zeros((B, _ANGLES))
     pair_x = np.zeros((B, _ANGLES))
@@ -384,106 +367,23 @@ def _solve_block(
     arm_ok = np.zeros((B, 4), dtype=np.bool_)
     arm_mode = np.zeros((B, 4), dtype=np.int8)
     arm_labels = np.zeros((B, 4, 2), dtype=np.int8)
-    raw_q = np.empty((B, 8, 6))
-    raw_ok = np.zeros((B, 8), dtype=np.bool_)
-    raw_labels = np.zeros((B, 8, 3), dtype=np.int8)
-    raw_reason = np.empty(B, dtype=np.int8)
+    raw = empty_candidates(B, 8, 6)
     _arm_candidates(
-        start,
-        stop,
-        T,
-        G,
-        prm,
-        signs,
-        offsets,
-        seed,
-        tol_pos,
-        pair_y,
-        pair_x,
-        arm_ok,
-        arm_mode,
-        arm_labels,
-        raw_reason,
+        start, stop, problem, seed, pair_y, pair_x, arm_ok, arm_mode, arm_labels, raw[3]
     )
     atan2_many(
         pair_y.reshape(B * _ANGLES), pair_x.reshape(B * _ANGLES), angles.reshape(B * _ANGLES)
     )
-    _assemble(
-        start,
-        stop,
-        prm,
-        signs,
-        offsets,
-        seed,
-        angles,
-        arm_ok,
-        arm_mode,
-        arm_labels,
-        raw_q,
-        raw_ok,
-        raw_labels,
-    )
-    finish_rows(
-        start,
-        stop,
-        start,
-        raw_q,
-        raw_ok,
-        raw_labels,
-        raw_reason,
-        seed,
-        has_seed,
-        joints,
-        all_revolutions,
-        out,
-    )
-
-
-@nb.njit(cache=True)
-def _solve_serial(T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_revolutions, out):
-    N = T.shape[0]
-    for start in range(0, N, BLOCK_SIZE):
-        stop = min(N, start + BLOCK_SIZE)
-        _solve_block(
-            start,
-            stop,
-            T,
-            G,
-            prm,
-            signs,
-            offsets,
-            seed,
-            has_seed,
-            tol_pos,
-            joints,
-            all_revolutions,
-            out,
-        )
+    _assemble(start, stop, problem, seed, angles, arm_ok, arm_mode, arm_labels, raw)
+    finish_rows(start, stop, start, raw, finish, out)
 
 
 @nb.njit(cache=True, parallel=True)
-def _solve_parallel(
-    T, G, prm, signs, offsets, seed, has_seed, tol_pos, joints, all_revolutions, out
-):
-    N = T.shape[0]
-    n_blocks = (N + BLOCK_SIZE - 1) // BLOCK_SIZE
-    for blk in nb.prange(n_blocks):
-        stop = min(N, (blk + 1) * BLOCK_SIZE)
-        _solve_block(
-            blk * BLOCK_SIZE,
-            stop,
-            T,
-            G,
-            prm,
-            signs,
-            offsets,
-            seed,
-            has_seed,
-            tol_pos,
-            joints,
-            all_revolutions,
-            out,
-        )
+def _solve_parallel(problem, finish, out):
+    N = problem[0].shape[0]
+    for block in nb.prange(block_count(N)):
+        start, stop = block_rows(block, N)
+        _solve_block(start, stop, problem, finish, out)
 
 
 def _kernel_parameters(geometry: OrthoParallelGeometry, G: FloatArray) -> FloatArray:
@@ -558,26 +458,25 @@ def solve_ortho_parallel(
     """
     T = check_target_poses(T_base_tool)
     N = T.shape[0]
-    seed_array, has_seed = check_seed(robot, seed, N)
     T_flange = invert_transform(robot.T_link_flange) @ tool_tail(robot, T_flange_tool)
     F = np.eye(4)
     F[:3, :3] = geometry.R_end_flange
     G = np.ascontiguousarray(invert_transform(F @ T_flange))
-    prm = _kernel_parameters(geometry, G)
-    M = 8 * slots_per_candidate(robot, all_revolutions)
-    out = empty_outputs(N, M, 6)
-    kernel = _solve_parallel if N >= PARALLEL_THRESHOLD else _solve_serial
-    kernel(
+    problem = (
         T,
         G,
-        prm,
+        _kernel_parameters(geometry, G),
         geometry.signs,
         geometry.offsets,
-        seed_array,
-        has_seed,
         float(position_tolerance_m),
-        joint_table(robot),
-        all_revolutions,
+    )
+    out = empty_outputs(N, 8 * slots_per_candidate(robot, all_revolutions), 6)
+    run_blocks(
+        _solve_block,
+        _solve_parallel,
+        N,
+        problem,
+        finish_inputs(robot, seed, N, all_revolutions),
         out,
     )
     return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=METHOD)

@@ -18,33 +18,18 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.kinematics.branches import branch_geometry
-from posebridge.kinematics.fk import fk_flange, fk_frames
+from posebridge.kinematics.ik.analytic.extraction import (
+    GEOMETRY_TOLERANCE,
+    VERIFY_SAMPLES,
+    agrees_with_fk,
+    line_gap,
+    zero_axes,
+)
 from posebridge.robot.model import Robot
-from posebridge.transforms import rotation_matrix_about_z
+from posebridge.transforms import rotation_matrix_about_y, rotation_matrix_about_z
 from posebridge.units import FloatArray
 
 __all__ = ["OrthoParallelGeometry"]
-
-_GEOMETRY_TOLERANCE = 1e-9
-"""Largest deviation (m, or unit-vector components) accepted by the extractor's checks."""
-
-_VERIFY_TOLERANCE = 1e-9
-"""Largest |FK difference| on random configurations for the extractor to accept a robot."""
-
-_VERIFY_SAMPLES = 64
-
-
-def _ry(angle: FloatArray) -> FloatArray:
-    c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros((*angle.shape, 3, 3))
-    R[..., 0, 0], R[..., 0, 2], R[..., 2, 0], R[..., 2, 2], R[..., 1, 1] = c, s, -s, c, 1.0
-    return R
-
-
-def _line_gap(p: FloatArray, a: FloatArray, point: FloatArray) -> float:
-    """Distance of ``point`` from the line through ``p`` along unit ``a``."""
-    d = point - p
-    return float(np.linalg.norm(d - (d @ a) * a))
 
 
 @dataclass(frozen=True)
@@ -102,18 +87,14 @@ class OrthoParallelGeometry:
         if geometry is None:
             return None
         rng = np.random.default_rng(20140523)
-        q = rng.uniform(-np.pi, np.pi, size=(_VERIFY_SAMPLES, 6))
+        q = rng.uniform(-np.pi, np.pi, size=(VERIFY_SAMPLES, 6))
         q[0] = 0.0
-        if np.abs(geometry.fk_flange(q) - fk_flange(robot, q)).max() > _VERIFY_TOLERANCE:
-            return None
-        return geometry
+        return geometry if agrees_with_fk(robot, geometry.fk_flange, q) else None
 
     @classmethod
     def _extract(cls, robot: Robot) -> OrthoParallelGeometry | None:
-        frames = fk_frames(robot, np.zeros((1, 6)))[0]
-        axes = np.einsum("nij,nj->ni", frames[1:7, :3, :3], robot.axes)
-        points = frames[1:7, :3, 3]
-        tol = _GEOMETRY_TOLERANCE
+        frames, axes, points = zero_axes(robot)
+        tol = GEOMETRY_TOLERANCE
         z = np.array([0.0, 0.0, 1.0])
         a_1, a_2, a_3, a_4, a_5, a_6 = axes
         p_1, p_2, p_3, p_4, p_5, p_6 = points
@@ -152,7 +133,7 @@ class OrthoParallelGeometry:
         w = p_4 - p_5
         t = -(w @ a_4)
         centre = p_4 + t * a_4
-        if _line_gap(p_5, a_5, centre) > tol or _line_gap(p_6, a_6, centre) > tol:
+        if line_gap(p_5, a_5, centre) > tol or line_gap(p_6, a_6, centre) > tol:
             return None
         # forearm: canonical axis 4 is Ry(θ23) z in the arm plane
         theta23 = np.arctan2(a_4 @ x_axis, a_4 @ z)
@@ -176,7 +157,7 @@ class OrthoParallelGeometry:
         flange = frames[7]
         axis_6 = a_6
         c4 = float((flange[:3, 3] - centre) @ axis_6)
-        if _line_gap(centre, axis_6, flange[:3, 3]) > tol:
+        if line_gap(centre, axis_6, flange[:3, 3]) > tol:
             return None
         if c4 < -tol:
             signs[5], offsets[4], axis_6, c4 = -1.0, offsets[4] + np.pi, -axis_6, -c4
@@ -222,7 +203,13 @@ class OrthoParallelGeometry:
             axis=-1,
         )
         R1 = rotation_matrix_about_z(t1)
-        R = R1 @ _ry(t23) @ rotation_matrix_about_z(t4) @ _ry(t5) @ rotation_matrix_about_z(t6)
+        R = (
+            R1
+            @ rotation_matrix_about_y(t23)
+            @ rotation_matrix_about_z(t4)
+            @ rotation_matrix_about_y(t5)
+            @ rotation_matrix_about_z(t6)
+        )
         centre = np.einsum("kij,kj->ki", R1, local)
         T = np.zeros((theta.shape[0], 4, 4))
         T[:, :3, :3] = R @ self.R_end_flange

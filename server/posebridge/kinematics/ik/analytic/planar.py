@@ -39,7 +39,13 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.kinematics.branches import LABEL_TOLERANCE_M
-from posebridge.kinematics.fk import fk_flange, fk_frames, fk_tool
+from posebridge.kinematics.fk import fk_tool
+from posebridge.kinematics.ik.analytic.extraction import (
+    GEOMETRY_TOLERANCE,
+    VERIFY_SAMPLES,
+    agrees_with_fk,
+    zero_axes,
+)
 from posebridge.kinematics.ik.finishing import finish_solutions
 from posebridge.kinematics.ik.inputs import check_seed, check_target_poses
 from posebridge.kinematics.ik.solutions import REASON_ORIENTATION, REASON_OUT_OF_REACH, IkSolutions
@@ -51,9 +57,6 @@ __all__ = ["METHOD", "PlanarGeometry", "solve_planar"]
 
 METHOD = "analytic: planar two-link closed form (law of cosines)"
 
-_GEOMETRY_TOLERANCE = 1e-9
-_VERIFY_TOLERANCE = 1e-9
-_VERIFY_SAMPLES = 64
 _Z = np.array([0.0, 0.0, 1.0])
 
 
@@ -109,15 +112,13 @@ class PlanarGeometry:
         cls, robot: Robot, kind: str, heading_joint: int, prismatic: int
     ) -> PlanarGeometry | None:
         """Extract and verify (shared with the SCARA extractor)."""
-        frames = fk_frames(robot, np.zeros((1, robot.dof)))[0]
-        axes = np.einsum("nij,nj->ni", frames[1 : robot.dof + 1, :3, :3], robot.axes)
-        if np.abs(np.cross(axes, _Z)).max() > _GEOMETRY_TOLERANCE:
+        frames, axes, points = zero_axes(robot)
+        if np.abs(np.cross(axes, _Z)).max() > GEOMETRY_TOLERANCE:
             return None
-        points = frames[1 : robot.dof + 1, :3, 3]
         first = np.linalg.norm((points[1] - points[0])[:2])
         end = frames[robot.dof + 1, :3, 3] if heading_joint < 0 else points[heading_joint]
         second = np.linalg.norm((end - points[1])[:2])
-        if min(first, second) < _GEOMETRY_TOLERANCE:
+        if min(first, second) < GEOMETRY_TOLERANCE:
             return None
         geometry = cls(
             kind=kind,
@@ -128,12 +129,10 @@ class PlanarGeometry:
             prismatic_joint=prismatic,
         )
         rng = np.random.default_rng(20140523)
-        q = rng.uniform(-np.pi, np.pi, size=(_VERIFY_SAMPLES, robot.dof))
+        q = rng.uniform(-np.pi, np.pi, size=(VERIFY_SAMPLES, robot.dof))
         if prismatic >= 0:
-            q[:, prismatic] = rng.uniform(-0.5, 0.5, size=_VERIFY_SAMPLES)
-        if np.abs(geometry.fk_flange(q) - fk_flange(robot, q)).max() > _VERIFY_TOLERANCE:
-            return None
-        return geometry
+            q[:, prismatic] = rng.uniform(-0.5, 0.5, size=VERIFY_SAMPLES)
+        return geometry if agrees_with_fk(robot, geometry.fk_flange, q) else None
 
     def fk_flange(self, q: npt.ArrayLike) -> FloatArray:
         """Flange poses by the planar model (module docstring), shape (N, 4, 4).
