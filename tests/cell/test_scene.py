@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import copy
 import csv
+import dataclasses
 import json
 import shutil
 import tomllib
@@ -492,3 +493,28 @@ def test_demo_log_shows_a_jump_a_near_singularity_and_a_small_margin() -> None:
     margin = np.minimum(q - limits[:, 0], limits[:, 1] - q)
     assert margin.min() < 3.0
     assert margin.min() > 0.0
+
+
+def _arrays_of(value: Any) -> list[np.ndarray]:
+    """Every numpy array held by a scene dataclass and the dataclasses inside it."""
+    if isinstance(value, np.ndarray):
+        return [value]
+    if isinstance(value, tuple):
+        return [a for item in value for a in _arrays_of(item)]
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return [a for f in dataclasses.fields(value) for a in _arrays_of(getattr(value, f.name))]
+    return []
+
+
+def test_scene_arrays_refuse_writes() -> None:
+    cell = load_cell(data_folder("robots") / "demo-track-cell.json")
+    scene = resolve_scene(cell, data_folder("robots") / "demo-track-cell.json")
+    arrays = _arrays_of(scene)
+    # the demo track cell has targets, paths, boxes, a track and a pedestal (robots/demo-track-cell.json)
+    assert len(arrays) > 20
+    for array in arrays:
+        assert not array.flags.writeable
+    with pytest.raises(ValueError, match="read-only"):
+        scene.targets.T_world_target[0, 0, 3] = 0.0
+    with pytest.raises(ValueError, match="read-only"):
+        scene.external.values[...] = 0.0

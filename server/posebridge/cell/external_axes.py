@@ -29,6 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import freeze_array_fields
 from posebridge.transforms import rotation_matrix_about_axis
 from posebridge.units import FloatArray, deg_from_rad, m_from_mm, mm_from_m, rad_from_deg
 
@@ -105,6 +106,10 @@ class TrackAxis:
     carriage_size: FloatArray
     T_carriage_base: FloatArray
 
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
+
     @property
     def direction(self) -> FloatArray:
         """Unit direction of travel in the world, shape (3,)."""
@@ -143,6 +148,10 @@ class TurntableAxis:
     plate_radius: float
     plate_thickness: float
     fixtures: tuple[int, ...]
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
     def motion(self, angle: npt.ArrayLike) -> FloatArray:
         """:func:`turntable_motion` of this table, shape (N, 4, 4)."""
@@ -193,6 +202,10 @@ class ExternalAxes:
     values: FloatArray
     track: TrackAxis | None
     turntables: tuple[TurntableAxis, ...]
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
     @property
     def count(self) -> int:

@@ -16,7 +16,9 @@ packs the shapes into plain arrays:
 Poses compose as ``T_world_child = T_world_parent @ T_parent_child``
 (homogeneous transforms, Lynch & Park, Modern Robotics, sec. 3.3.1).
 All values are SI (m, rad); conversions go through :mod:`posebridge.units`
-and :mod:`posebridge.transforms`.
+and :mod:`posebridge.transforms`. Every array of a scene is read-only
+(:func:`posebridge.arrays.freeze_array_fields`): a posed scene is a new scene
+(:func:`posed_scene`), never an edited one.
 """
 
 from __future__ import annotations
@@ -28,6 +30,7 @@ from typing import Literal
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import freeze_array_fields
 from posebridge.cell.external_axes import (
     NO_EXTERNAL_AXES,
     ExternalAxes,
@@ -96,6 +99,10 @@ class BoxSet:
     T_world: FloatArray
     half_extents: FloatArray
 
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
+
 
 @dataclass(frozen=True, eq=False)
 class CylinderSet:
@@ -115,6 +122,10 @@ class CylinderSet:
     T_world: FloatArray
     radius: FloatArray
     half_length: FloatArray
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
 
 @dataclass(frozen=True, eq=False)
@@ -140,6 +151,10 @@ class MeshSet:
     files: tuple[str, ...]
     colours: tuple[str | None, ...]
 
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
+
 
 @dataclass(frozen=True, eq=False)
 class CapsuleSet:
@@ -158,6 +173,10 @@ class CapsuleSet:
     start: FloatArray
     end: FloatArray
     radius: FloatArray
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
 
 @dataclass(frozen=True, eq=False)
@@ -185,6 +204,10 @@ class TargetSet:
     approach_offset: FloatArray
     T_world_approach: FloatArray
     branches: tuple[Branch | None, ...]
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
     def index(self, name: str) -> int:
         """Position of the target called ``name`` (``KeyError`` if absent)."""
@@ -239,6 +262,10 @@ class ResolvedPath:
     speed_percent: FloatArray
     blend_radius: FloatArray
     external: FloatArray = field(default_factory=lambda: np.zeros((0, 0)))
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
 
 @dataclass(frozen=True, eq=False)
@@ -299,6 +326,10 @@ class Scene:
     targets: TargetSet
     paths: tuple[ResolvedPath, ...]
     external: ExternalAxes = NO_EXTERNAL_AXES
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
     @property
     def joint_names(self) -> tuple[str, ...]:

@@ -19,6 +19,7 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import read_only, writable_float_array
 from posebridge.errors import InputError
 from posebridge.kinematics.chain_kernels import chain_step, write_pose
 from posebridge.robot.model import Robot
@@ -56,7 +57,7 @@ def check_configurations(robot: Robot, q: npt.ArrayLike) -> FloatArray:
     -------
     q : array, shape (N, n)
     """
-    array = np.ascontiguousarray(q, dtype=np.float64)
+    array = writable_float_array(q)
     if array.ndim != 2 or array.shape[1] != robot.dof:
         raise KinematicsInputError(
             f"joint values: expected shape (N, {robot.dof}) for robot {robot.name!r}, got {array.shape}"
@@ -124,6 +125,8 @@ def _frames_parallel(q, table, prismatic, tail_flange, tail_tool, out):
 def tool_tail(robot: Robot, T_flange_tool: npt.ArrayLike | None) -> FloatArray:
     """Tool pose in the last link frame, shape (4, 4): the robot's default or ``T_flange_tool``.
 
+    Read-only either way, like the robot's own arrays (one kernel signature).
+
     Raises
     ------
     KinematicsInputError
@@ -137,7 +140,7 @@ def tool_tail(robot: Robot, T_flange_tool: npt.ArrayLike | None) -> FloatArray:
         raise KinematicsInputError(f"T_flange_tool: {error}") from error
     if tool.shape != (4, 4):
         raise KinematicsInputError(f"T_flange_tool: expected shape (4, 4), got {tool.shape}")
-    return robot.T_link_flange @ tool
+    return read_only(robot.T_link_flange @ tool)
 
 
 def fk_tool(

@@ -8,7 +8,10 @@ after the motion of joint ``i``; link frame ``0`` is the robot base frame.
 The flange (ISO 9787 mechanical interface) is a fixed transform from the last
 link frame, the default tool (TCP) a fixed transform from the flange.
 
-All values are SI (m, rad, s). Robot descriptions are loaded by
+All values are SI (m, rad, s). Every array of these models is read-only
+(:func:`posebridge.arrays.read_only`): a robot never changes after it is
+made, so what is computed from it once (its IK solver, its kernel tables)
+stays valid. Robot descriptions are loaded by
 :mod:`posebridge.robot.toml_format` and :mod:`posebridge.robot.urdf_import`.
 """
 
@@ -21,6 +24,7 @@ from typing import Literal
 
 import numpy as np
 
+from posebridge.arrays import freeze_array_fields, read_only
 from posebridge.units import BoolArray, FloatArray
 
 JointKind = Literal["revolute", "prismatic"]
@@ -83,6 +87,10 @@ class Joint:
     continuous: bool = False
     jerk_max: float | None = None
 
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
+
 
 @dataclass(frozen=True, eq=False)
 class Capsule:
@@ -107,6 +115,10 @@ class Capsule:
     end: FloatArray
     radius: float
     source_link: str = ""
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
 
 @dataclass(frozen=True, eq=False)
@@ -137,6 +149,10 @@ class LinkMesh:
     path: Path | None
     scale: FloatArray
     T_link_mesh: FloatArray
+
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
 
 
 @dataclass(frozen=True, eq=False)
@@ -231,6 +247,15 @@ class Robot:
     removed_capsules: tuple[str, ...] = ()
     leaf_links: tuple[str, ...] = ()
 
+    def __post_init__(self) -> None:
+        """Make the array fields read-only."""
+        freeze_array_fields(self)
+        object.__setattr__(
+            self,
+            "link_poses",
+            {name: (link, read_only(pose)) for name, (link, pose) in self.link_poses.items()},
+        )
+
     @property
     def has_geometry(self) -> bool:
         """Whether any link carries collision geometry (a capsule); else clearance means nothing."""
@@ -254,47 +279,49 @@ class Robot:
     @cached_property
     def origins(self) -> FloatArray:
         """Joint origins, shape (n, 4, 4)."""
-        return np.stack([joint.origin for joint in self.joints]).astype(np.float64)
+        return read_only(np.stack([joint.origin for joint in self.joints]).astype(np.float64))
 
     @cached_property
     def axes(self) -> FloatArray:
         """Unit joint axes in their joint frames, shape (n, 3)."""
-        return np.stack([joint.axis for joint in self.joints]).astype(np.float64)
+        return read_only(np.stack([joint.axis for joint in self.joints]).astype(np.float64))
 
     @cached_property
     def prismatic(self) -> BoolArray:
         """Prismatic-joint mask, shape (n,)."""
-        return np.array([joint.kind == "prismatic" for joint in self.joints], dtype=bool)
+        return read_only(np.array([joint.kind == "prismatic" for joint in self.joints], dtype=bool))
 
     @cached_property
     def continuous(self) -> BoolArray:
         """Continuous (unlimited revolute) joint mask, shape (n,)."""
-        return np.array([joint.continuous for joint in self.joints], dtype=bool)
+        return read_only(np.array([joint.continuous for joint in self.joints], dtype=bool))
 
     @cached_property
     def lower(self) -> FloatArray:
         """Lower position limits, shape (n,), rad or m."""
-        return np.array([joint.lower for joint in self.joints], dtype=np.float64)
+        return read_only(np.array([joint.lower for joint in self.joints], dtype=np.float64))
 
     @cached_property
     def upper(self) -> FloatArray:
         """Upper position limits, shape (n,), rad or m."""
-        return np.array([joint.upper for joint in self.joints], dtype=np.float64)
+        return read_only(np.array([joint.upper for joint in self.joints], dtype=np.float64))
 
     @cached_property
     def velocity_max(self) -> FloatArray:
         """Velocity limits, shape (n,), rad/s or m/s."""
-        return np.array([joint.velocity_max for joint in self.joints], dtype=np.float64)
+        return read_only(np.array([joint.velocity_max for joint in self.joints], dtype=np.float64))
 
     @cached_property
     def acceleration_max(self) -> FloatArray:
         """Acceleration limits, shape (n,), rad/s^2 or m/s^2."""
-        return np.array([joint.acceleration_max for joint in self.joints], dtype=np.float64)
+        return read_only(
+            np.array([joint.acceleration_max for joint in self.joints], dtype=np.float64)
+        )
 
     @cached_property
     def T_link_tool(self) -> FloatArray:
         """Default tool pose in the last link frame, shape (4, 4)."""
-        return self.T_link_flange @ self.T_flange_tool
+        return read_only(self.T_link_flange @ self.T_flange_tool)
 
     @cached_property
     def motion_table(self) -> FloatArray:
@@ -319,7 +346,7 @@ class Robot:
             table[i, 18:27] = C.ravel()
             table[i, 27:30] = origin[:3, 3]
             table[i, 30:33] = A @ axis
-        return table
+        return read_only(table)
 
     def mid_configuration(self) -> FloatArray:
         """Centre of the joint-range box, shape (n,)."""

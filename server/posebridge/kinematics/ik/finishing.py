@@ -37,7 +37,13 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.arrays import BoolArray, FloatArray, Int8Array, Int16Array
+from posebridge.arrays import (
+    BoolArray,
+    FloatArray,
+    Int8Array,
+    Int16Array,
+    writable_float_array,
+)
 from posebridge.kinematics.branches import centred_revolution, label_branches
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, KinematicsInputError
 from posebridge.kinematics.ik.inputs import check_seed
@@ -502,7 +508,7 @@ def finish_solutions(
     IkSolutions
         ``M = M0 * slots_per_candidate(robot, all_revolutions)`` slots per pose.
     """
-    q = np.ascontiguousarray(q_raw, dtype=np.float64)
+    q = writable_float_array(q_raw)
     if q.ndim != 3 or q.shape[2] != robot.dof:
         raise KinematicsInputError(
             f"candidates: expected shape (N, M0, {robot.dof}), got {q.shape}"

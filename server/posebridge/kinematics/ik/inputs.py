@@ -7,7 +7,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge import errors
-from posebridge.arrays import FloatArray
+from posebridge.arrays import FloatArray, writable_float_array
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.robot.model import Robot
 
@@ -30,7 +30,7 @@ def check_target_poses(T_base_tool: npt.ArrayLike) -> FloatArray:
     KinematicsInputError
         Wrong shape, non-finite values, or a rotation block that is not orthonormal.
     """
-    T = np.ascontiguousarray(T_base_tool, dtype=np.float64)
+    T = writable_float_array(T_base_tool)
     if T.ndim != 3 or T.shape[1:] != (4, 4):
         raise KinematicsInputError(f"target poses: expected shape (N, 4, 4), got {T.shape}")
     deviation, determinant, finite = _pose_checks(T)
@@ -96,4 +96,4 @@ def check_seed(robot: Robot, seed: npt.ArrayLike | None, n_poses: int) -> tuple[
         )
     if not np.all(np.isfinite(array)):
         raise KinematicsInputError("seed: contains NaN or infinite values")
-    return np.ascontiguousarray(np.broadcast_to(array, (n_poses, robot.dof))), True
+    return writable_float_array(np.broadcast_to(array, (n_poses, robot.dof))), True
