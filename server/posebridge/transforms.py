@@ -144,6 +144,21 @@ def rotation_matrix_about_axis(axis: npt.ArrayLike, angle: npt.ArrayLike) -> Flo
     return R
 
 
+def _elementary_rotation(angle: npt.ArrayLike, axis: int) -> FloatArray:
+    """Return the rotation by ``angle`` about coordinate axis ``axis`` (0 x, 1 y, 2 z).
+
+    With ``i, j`` the next two axes in cyclic order: ``R[i, i] = R[j, j] = c``,
+    ``R[j, i] = s``, ``R[i, j] = -s``, ``R[axis, axis] = 1``, all else exactly 0;
+    shape (..., 3, 3).
+    """
+    angle = np.asarray(angle, dtype=np.float64)
+    c, s = np.cos(angle), np.sin(angle)
+    i, j = (axis + 1) % 3, (axis + 2) % 3
+    R = np.zeros((*angle.shape, 3, 3))
+    R[..., i, i], R[..., j, j], R[..., j, i], R[..., i, j], R[..., axis, axis] = c, c, s, -s, 1.0
+    return R
+
+
 def rotation_matrix_about_z(angle: npt.ArrayLike) -> FloatArray:
     """Rotation by ``angle`` about the z axis, ``Rz = [[c, -s, 0], [s, c, 0], [0, 0, 1]]``.
 
@@ -159,33 +174,15 @@ def rotation_matrix_about_z(angle: npt.ArrayLike) -> FloatArray:
     -------
     R : array, shape (..., 3, 3)
     """
-    angle = np.asarray(angle, dtype=np.float64)
-    c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros((*angle.shape, 3, 3))
-    R[..., 0, 0], R[..., 0, 1], R[..., 1, 0], R[..., 1, 1], R[..., 2, 2] = c, -s, s, c, 1.0
-    return R
+    return _elementary_rotation(angle, 2)
 
 
 def rotation_matrix_about_y(angle: npt.ArrayLike) -> FloatArray:
     """Rotation by ``angle`` about the y axis, ``Ry = [[c, 0, s], [0, 1, 0], [-s, 0, c]]``.
 
-    The elementary rotation (Lynch & Park, Modern Robotics, sec. 3.2.1),
-    written out so that the zeros and the one are exact.
-
-    Parameters
-    ----------
-    angle : array-like, shape (...)
-        Radians.
-
-    Returns
-    -------
-    R : array, shape (..., 3, 3)
+    As :func:`rotation_matrix_about_z` (same reference, shapes and exact zeros).
     """
-    angle = np.asarray(angle, dtype=np.float64)
-    c, s = np.cos(angle), np.sin(angle)
-    R = np.zeros((*angle.shape, 3, 3))
-    R[..., 0, 0], R[..., 0, 2], R[..., 2, 0], R[..., 2, 2], R[..., 1, 1] = c, s, -s, c, 1.0
-    return R
+    return _elementary_rotation(angle, 1)
 
 
 def rotation_matrix_from_rpy(rpy: npt.ArrayLike, *, degrees: bool = False) -> FloatArray:
