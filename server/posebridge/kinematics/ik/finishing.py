@@ -51,6 +51,7 @@ from posebridge.kinematics.ik.solutions import (
     REASON_NO_WITHIN_LIMITS,
     REASON_OUT_OF_REACH,
     IkSolutions,
+    reasons_from_codes,
 )
 from posebridge.robot.model import Robot
 
@@ -76,6 +77,7 @@ __all__ = [
     "run_blocks",
     "slots_per_candidate",
     "solutions_from_outputs",
+    "solve_in_blocks",
 ]
 
 FinishInputs = tuple[FloatArray, bool, FloatArray, bool]
@@ -399,6 +401,32 @@ def run_blocks(
         return
     for start in range(0, N, BLOCK_SIZE):
         block_kernel(start, min(N, start + BLOCK_SIZE), *args)
+
+
+def solve_in_blocks(
+    robot: Robot,
+    block_kernel: Callable[..., None],
+    parallel_kernel: Callable[..., None],
+    problem: tuple[object, ...],
+    *,
+    candidates: int,
+    seed: npt.ArrayLike | None,
+    all_revolutions: bool,
+    method: str,
+) -> IkSolutions:
+    """Solve ``problem``'s poses with a family's block kernels and collect the result.
+
+    ``problem[0]`` holds the N target poses; each pose has ``candidates``
+    raw candidates (M0). The kernels (:func:`run_blocks`) get ``problem``,
+    :func:`finish_inputs` and :func:`empty_outputs` with ``M = M0 *``
+    :func:`slots_per_candidate` slots; their reason codes become the texts of
+    :func:`~posebridge.kinematics.ik.solutions.reasons_from_codes`.
+    """
+    N = len(problem[0])  # type: ignore[arg-type]
+    out = empty_outputs(N, candidates * slots_per_candidate(robot, all_revolutions), robot.dof)
+    finish = finish_inputs(robot, seed, N, all_revolutions)
+    run_blocks(block_kernel, parallel_kernel, N, problem, finish, out)
+    return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=method)
 
 
 def finish_inputs(

@@ -113,15 +113,11 @@ from posebridge.kinematics.ik.finishing import (
     block_count,
     block_rows,
     empty_candidates,
-    empty_outputs,
-    finish_inputs,
     finish_rows,
-    run_blocks,
-    slots_per_candidate,
-    solutions_from_outputs,
+    solve_in_blocks,
 )
 from posebridge.kinematics.ik.inputs import check_target_poses
-from posebridge.kinematics.ik.solutions import IkSolutions, reasons_from_codes
+from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.robot.model import Robot
 from posebridge.transforms import (
     invert_transform,
@@ -694,7 +690,6 @@ def solve_offset_wrist(
         ``M = 8`` slots per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
-    N = T.shape[0]
     G = np.ascontiguousarray(
         invert_transform(geometry.T_end_link @ tool_tail(robot, T_flange_tool))
     )
@@ -709,13 +704,13 @@ def solve_offset_wrist(
         float(position_tolerance_m),
         float(orientation_tolerance_rad),
     )
-    out = empty_outputs(N, 8 * slots_per_candidate(robot, all_revolutions), 6)
-    run_blocks(
+    return solve_in_blocks(
+        robot,
         _solve_block,
         _solve_parallel,
-        N,
         problem,
-        finish_inputs(robot, seed, N, all_revolutions),
-        out,
+        candidates=8,
+        seed=seed,
+        all_revolutions=all_revolutions,
+        method=METHOD,
     )
-    return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=METHOD)

@@ -61,15 +61,11 @@ from posebridge.kinematics.ik.finishing import (
     block_count,
     block_rows,
     empty_candidates,
-    empty_outputs,
-    finish_inputs,
     finish_rows,
-    run_blocks,
-    slots_per_candidate,
-    solutions_from_outputs,
+    solve_in_blocks,
 )
 from posebridge.kinematics.ik.inputs import check_target_poses
-from posebridge.kinematics.ik.solutions import IkSolutions, reasons_from_codes
+from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform
 from posebridge.units import FloatArray
@@ -457,7 +453,6 @@ def solve_ortho_parallel(
         ``M = 8`` slots per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
-    N = T.shape[0]
     T_flange = invert_transform(robot.T_link_flange) @ tool_tail(robot, T_flange_tool)
     F = np.eye(4)
     F[:3, :3] = geometry.R_end_flange
@@ -470,13 +465,13 @@ def solve_ortho_parallel(
         geometry.offsets,
         float(position_tolerance_m),
     )
-    out = empty_outputs(N, 8 * slots_per_candidate(robot, all_revolutions), 6)
-    run_blocks(
+    return solve_in_blocks(
+        robot,
         _solve_block,
         _solve_parallel,
-        N,
         problem,
-        finish_inputs(robot, seed, N, all_revolutions),
-        out,
+        candidates=8,
+        seed=seed,
+        all_revolutions=all_revolutions,
+        method=METHOD,
     )
-    return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=METHOD)
