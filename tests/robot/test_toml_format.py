@@ -14,7 +14,12 @@ from scipy.spatial.transform import Rotation
 from posebridge.resources import data_folder
 from posebridge.robot.errors import RobotDescriptionError
 from posebridge.robot.library import bundled_robots
-from posebridge.robot.toml_format import MAX_DESCRIPTION_BYTES, load_robot_toml, parse_robot_toml
+from posebridge.robot.toml_format import (
+    MAX_DESCRIPTION_BYTES,
+    MAX_ROBOT_JOINTS,
+    load_robot_toml,
+    parse_robot_toml,
+)
 
 FIXTURES = Path(__file__).parent.parent / "fixtures" / "robots"
 BUNDLED_TOML = sorted(data_folder("robots").glob("*.toml"))
@@ -340,3 +345,23 @@ def test_wrong_schema_version_has_a_line() -> None:
         RobotDescriptionError, match=r"v\.toml:2: schema_version: expected 1, got 7"
     ):
         parse_robot_toml(text, "v.toml")
+
+
+def test_joint_count_cap_is_one_line_before_any_joint_is_read() -> None:
+    joints = "".join(
+        f'[[joint]]\nname = "j{k}"\n' for k in range(MAX_ROBOT_JOINTS + 1)
+    )  # no type or limits: a file with the cap's count would list a problem per joint
+    text = (
+        'schema_version = 1\n[robot]\nname = "long"\nkind = "serial"\n'
+        f'convention = "origin_axis"\n{joints}'
+    )
+    with pytest.raises(RobotDescriptionError) as raised:
+        parse_robot_toml(text, "long.toml")
+    # our own contract: one problem, naming the count and the cap
+    assert raised.value.problems == [
+        f"long.toml: joint: {MAX_ROBOT_JOINTS + 1} [[joint]] tables; a robot file has at most "
+        f"{MAX_ROBOT_JOINTS} joints"
+    ]
+    with pytest.raises(RobotDescriptionError) as under_cap:
+        parse_robot_toml(text.replace(f'[[joint]]\nname = "j{MAX_ROBOT_JOINTS}"\n', ""), "ok.toml")
+    assert len(under_cap.value.problems) > 1  # at the cap the joints are read (and found wanting)

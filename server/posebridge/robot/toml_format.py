@@ -27,9 +27,13 @@ from posebridge.robot.model import Capsule, Joint, JointKind, Robot
 from posebridge.transforms import transform_from_position_rpy
 from posebridge.units import FloatArray, joints_si_from_user, m_from_mm, rad_from_deg
 
-__all__ = ["MAX_DESCRIPTION_BYTES", "load_robot_toml", "parse_robot_toml"]
+__all__ = ["MAX_DESCRIPTION_BYTES", "MAX_ROBOT_JOINTS", "load_robot_toml", "parse_robot_toml"]
 
 MAX_DESCRIPTION_BYTES = 1_000_000
+"""Largest robot description file accepted, bytes."""
+MAX_ROBOT_JOINTS = 64
+"""Most ``[[joint]]`` tables in one file (the URDF chain's cap, ``MAX_CHAIN_JOINTS``, is the
+same); a longer file is refused in one line before any joint is read."""
 SCHEMA_VERSION = 1
 _UNIT_TOLERANCE = 1e-6
 
@@ -460,6 +464,13 @@ def parse_robot_toml(text: str, path: str = "<string>") -> Robot:
     if not isinstance(raw_joints, list) or not raw_joints:
         problems.add("joint", "expected at least one [[joint]] table", block="", key="joint")
         raise RobotDescriptionError(problems.items)
+    if len(raw_joints) > MAX_ROBOT_JOINTS:
+        raise RobotDescriptionError(
+            [
+                f"{path}: joint: {len(raw_joints)} [[joint]] tables; a robot file has at most "
+                f"{MAX_ROBOT_JOINTS} joints"
+            ]
+        )
     specs = [_parse_joint(problems, raw, i, convention) for i, raw in enumerate(raw_joints)]
     raw_names = [
         raw.get("name", f"j{i + 1}") if isinstance(raw, dict) else None
