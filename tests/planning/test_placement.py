@@ -19,7 +19,9 @@ from posebridge.compute import (
 )
 from posebridge.geometry.warm import warm_geometry
 from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.path_check import check_path
 from posebridge.planning.placement import (
+    BLENDED_TOP,
     CHUNK_CANDIDATES,
     PlacementGrid,
     PlacementResult,
@@ -200,3 +202,31 @@ def test_candidates_within_the_noise_are_ties() -> None:
             group_top = candidate
         assert candidate.tie_rank == group_top.rank
     assert report.best[0].tie_rank == 1
+
+
+def test_blended_cycle_time_of_the_best_candidates_matches_the_path_check() -> None:
+    cell = load_cell(data_folder("robots") / "demo-cell.json")
+    scene = resolve_scene(cell)
+    grid = PlacementGrid.around(scene, half_width_mm=40.0, count=2, yaw_count=1)
+    report = search_base_placement(scene, grid, top=BLENDED_TOP + 1).report
+    assert len(report.best) == BLENDED_TOP + 1
+    assert report.best[-1].blended_cycle_time_s is None  # our own contract: top few only
+    for candidate in report.best[:BLENDED_TOP]:
+        base = cell.base
+        at_candidate = base.model_copy(
+            update={
+                "position_mm": (candidate.x_mm, candidate.y_mm, base.position_mm[2]),
+                "rpy_deg": (base.rpy_deg[0], base.rpy_deg[1], candidate.yaw_deg),
+                "pedestal_height_mm": candidate.pedestal_height_mm,
+            }
+        )
+        moved = resolve_scene(cell.model_copy(update={"base": at_candidate}))
+        checks = [check_path(moved, k) for k in range(len(moved.paths))]
+        # reference: the path check of the same cell with its base moved to the candidate
+        expected = [check.blended_cycle_time_s for check in checks]
+        assert None not in expected
+        assert candidate.blended_cycle_time_s == pytest.approx(sum(expected), rel=1e-9)  # type: ignore[arg-type]
+        # blended never exceeds the path check's rest-to-rest upper bound (blended_timing)
+        assert candidate.blended_cycle_time_s <= sum(c.cycle_time_s for c in checks) + 1e-9  # type: ignore[misc, operator]
+    text = render_placement(report)
+    assert "blended s" in text

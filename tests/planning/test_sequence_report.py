@@ -86,3 +86,23 @@ def test_edits_outside_the_path_are_refused() -> None:
     cell = load_cell(DEMO)
     with pytest.raises(PlanningInputError, match="waypoint 99"):
         with_waypoint_joints(cell, 0, [WaypointJoints(index=99, joints_deg=[0.0] * 6)])
+
+
+def test_limit_margin_comes_from_the_cell_thresholds_unless_given() -> None:
+    cell = load_cell(DEMO)
+    strict = cell.thresholds.model_copy(update={"limit_margin_deg": 12.0, "limit_margin_mm": 7.0})
+    scene = resolve_scene(cell.model_copy(update={"thresholds": strict}), DEMO)
+    index = 0
+    from_cell = optimise_path(scene, index)
+    # our own contract: the cell's thresholds are the default margins
+    assert (from_cell.limit_margin_deg, from_cell.limit_margin_mm) == (12.0, 7.0)
+    given = optimise_path(scene, index, limit_margin_deg=12.0, limit_margin_mm=7.0)
+    assert given == from_cell  # the same search as naming them
+    overridden = optimise_path(scene, index, limit_margin_deg=1.0)
+    assert (overridden.limit_margin_deg, overridden.limit_margin_mm) == (1.0, 7.0)
+    if overridden.best is not None:
+        # every chosen configuration keeps the 1 deg margin (joint limits of the cell's robot)
+        robot = scene.robot
+        for waypoint in overridden.best.waypoints:
+            q = np.radians(np.asarray(waypoint.joints_deg))
+            assert np.all(np.minimum(q - robot.lower, robot.upper - q) >= np.radians(1.0) - 1e-9)

@@ -672,3 +672,13 @@ def test_too_many_chain_joints_refused() -> None:
         f"'l{MAX_CHAIN_JOINTS + 1}'; posebridge takes at most {MAX_CHAIN_JOINTS}"
     ]
     assert parse_robot_urdf(_chain_urdf(MAX_CHAIN_JOINTS), "long.urdf").dof == MAX_CHAIN_JOINTS
+
+
+def test_chain_starts_are_the_links_above_the_end_from_the_root() -> None:
+    text = _chain_urdf(4)
+    robot = parse_robot_urdf(text, "long.urdf", to_link="l3")
+    # our own contract: l0 -> l1 -> l2 -> l3, the from_link choices above to_link
+    assert robot.chain_starts == ("l0", "l1", "l2")
+    from_middle = parse_robot_urdf(text, "long.urdf", from_link="l1", to_link="l4")
+    assert from_middle.chain_starts == ("l0", "l1", "l2", "l3")  # the whole tree above l4
+    assert from_middle.dof == 3

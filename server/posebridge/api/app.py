@@ -190,7 +190,9 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.state.settings = settings
     app.state.robots = robot_cache
     app.state.cells = CellStore(settings.cell_path)
-    app.state.reviewer_lane = ReviewerLane()
+    app.state.reviewer_lane = ReviewerLane(
+        settings.cell_path, robot_cache_size=settings.robot_cache_size
+    )
     app.state.warmup = KernelWarmUp(())
     app.state.warmup.run_first()  # nothing to load: ready
     app.state.jobs = JobManager(

@@ -34,13 +34,14 @@ from posebridge.cell.files import (
     save_cell,
 )
 from posebridge.cell.mesh_fixtures import MeshFixtureLoader
-from posebridge.cell.model import Cell, validate_cell
+from posebridge.cell.model import Cell, CellFileError, validate_cell
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.geometry.clearance import ClearanceScene
 from posebridge.geometry.mesh_cache import MeshCache
 from posebridge.resources import data_folder
+from posebridge.robot.errors import ChainChoiceError
 
-__all__ = ["DEMO_CELL_FILE", "CellSnapshot", "CellStore"]
+__all__ = ["DEMO_CELL_FILE", "CellSnapshot", "CellStore", "snapshot_of"]
 
 _log = logging.getLogger(__name__)
 
@@ -77,6 +78,28 @@ class CellSnapshot:
         return clearance_scene(self.scene)
 
 
+def snapshot_of(
+    cell: Cell,
+    path: Path | None,
+    mesh_loader: MeshFixtureLoader,
+    previous: CellSnapshot | None = None,
+) -> CellSnapshot:
+    """The cell resolved (file names relative to ``path``).
+
+    The previous snapshot's robot is kept when the robot entry is unchanged (a
+    robot with meshes is not read again on every edit).
+    """
+    robot = (
+        previous.scene.robot if previous is not None and previous.cell.robot == cell.robot else None
+    )
+    return CellSnapshot(
+        cell=cell,
+        etag=cell_etag(cell),
+        scene=resolve_scene(cell, path, robot=robot, mesh_loader=mesh_loader),
+        path=path,
+    )
+
+
 class CellStore:
     """The server's cell, with content-version checked changes.
 
@@ -111,22 +134,7 @@ class CellStore:
             return None
 
     def _snapshot_of(self, cell: Cell, previous: CellSnapshot | None = None) -> CellSnapshot:
-        """Return the cell resolved, reusing the previous snapshot's robot when it is unchanged.
-
-        The robot is kept when the robot entry is unchanged (a robot with meshes is not read again
-        on every edit).
-        """
-        robot = (
-            previous.scene.robot
-            if previous is not None and previous.cell.robot == cell.robot
-            else None
-        )
-        return CellSnapshot(
-            cell=cell,
-            etag=cell_etag(cell),
-            scene=resolve_scene(cell, self._path, robot=robot, mesh_loader=self.mesh_loader),
-            path=self._path,
-        )
+        return snapshot_of(cell, self._path, self.mesh_loader, previous)
 
     def read(self) -> CellSnapshot:
         """Return the current cell; the file is read again when it changed on disk.
@@ -147,6 +155,58 @@ class CellStore:
         self._snapshot = self._snapshot_of(load_cell(source))
         self._mtime_ns = mtime
         return self._snapshot
+
+    def chain_choice(self) -> tuple[Cell, str, ChainChoiceError] | None:
+        """The cell as written, its content version and the error listing the leaf links,
+        when the cell's URDF robot cannot be loaded until its chain end is chosen; None when
+        the cell loads.
+
+        Raises
+        ------
+        CellFileError
+            The cell cannot be read for another reason.
+        """
+        try:
+            self.read()
+        except CellFileError as error:
+            cause = error.__cause__
+            if self._path is None or not isinstance(cause, ChainChoiceError):
+                raise
+            written = load_cell(self._path)
+            return written, cell_etag(written), cause
+        return None
+
+    def choose_chain_end(self, to_link: str, expected_etag: str) -> CellSnapshot:
+        """Set the robot's ``to_link`` in the cell file at content version ``expected_etag``,
+        read as written (its robot need not load, :meth:`chain_choice`).
+
+        Raises
+        ------
+        CellConflictError
+            The file has another content version now, or there is no cell file.
+        CellFileError
+            The robot does not load with that chain end either.
+        CellSaveError
+            The file cannot be written; it is then unchanged.
+        """
+        with self._lock:
+            if self._path is None:
+                raise CellConflictError("demo cell", expected_etag, None)
+            written = load_cell(self._path)
+            etag = cell_etag(written)
+            if etag != expected_etag:
+                raise CellConflictError(str(self._path), expected_etag, etag)
+            robot = written.robot.model_copy(update={"to_link": to_link})
+            edited = validate_cell(
+                written.model_copy(update={"robot": robot}).model_dump(
+                    mode="json", exclude_none=True
+                )
+            )
+            snapshot = self._snapshot_of(edited)
+            save_cell(edited, self._path, expected_etag=expected_etag)
+            self._mtime_ns = self._file_mtime()
+            self._snapshot = snapshot
+            return snapshot
 
     def replace(self, cell: Cell, expected_etag: str) -> CellSnapshot:
         """Replace the whole cell, if it is still at content version ``expected_etag``.

@@ -230,7 +230,7 @@ def bench_review_load(quick: bool) -> dict[str, float]:
     token = new_review_token()
     with _shared_server(token) as url:
         setup = _home_request(url)
-        _run_drags(url, token, setup, 0, 1.0)  # warm the server's caches and connections
+        _run_drags(url, token, setup, 1, 3.0)  # warm the server and the reviewer worker
         alone, _, _ = _run_drags(url, token, setup, 0, seconds)
         loaded, reviewers, drag_errors = _run_drags(url, token, setup, 10, seconds)
         errors_50 = _many_clients(url, token, setup, 50, 3 if quick else 10)

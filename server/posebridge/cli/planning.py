@@ -206,14 +206,16 @@ def add_paths(sub: Any, shared: SharedOptions) -> None:
     own.add_argument(
         "--limit-margin-deg",
         type=float,
-        default=0.0,
-        help="with --optimise: joint-limit margin every configuration keeps (revolute joints)",
+        default=None,
+        help="with --optimise: joint-limit margin every configuration keeps (revolute joints; "
+        "default: the cell's thresholds.limit_margin_deg)",
     )
     own.add_argument(
         "--limit-margin-mm",
         type=float,
-        default=0.0,
-        help="with --optimise: joint-limit margin of prismatic joints",
+        default=None,
+        help="with --optimise: joint-limit margin of prismatic joints (default: the cell's "
+        "thresholds.limit_margin_mm)",
     )
     command = sub.add_parser(
         "paths",

@@ -53,7 +53,18 @@ configurations (:func:`posebridge.planning.cycle_time.joint_move_durations`),
 linear moves as trapezoids in TCP path length at the requested speed and
 :data:`~posebridge.planning.cycle_time.DEFAULT_LINEAR_ACCELERATION_M_S2`
 (no joint-limit cap and no continuity check along the line, unlike
-:func:`posebridge.planning.path_check.check_path`), blends ignored.
+:func:`posebridge.planning.path_check.check_path`), blends ignored: the
+rest-to-rest upper bound, cheap enough for every candidate.
+
+**Blended cycle time** (for the :data:`BLENDED_TOP` best-ranked candidates
+only, after ranking): with the base moved to the candidate's pose (TCP poses
+of joint-value waypoints move with it), every path is sampled and timed
+through its blends exactly as the path check does
+(:func:`posebridge.planning.path_sampling.sample_path`,
+:func:`posebridge.planning.blended_timing.blended_cycle_time`, TOPP-RA) and
+the totals summed; None where a path cannot be sampled or timed there. Its
+cost is a path check per path and candidate, so it is not computed over the
+whole grid.
 
 Collision checks per candidate: the arm against the pedestal and the floor,
 and against itself, depends only on the configuration and the pedestal
@@ -71,7 +82,7 @@ from __future__ import annotations
 
 import math
 import threading
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
@@ -90,6 +101,7 @@ from posebridge.geometry.shapes import (
     default_pair_mask,
 )
 from posebridge.kinematics.branches import branch_geometry, branch_words, labels_match
+from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
@@ -127,14 +139,18 @@ from posebridge.units import (
 )
 
 __all__ = [
+    "BLENDED_TOP",
     "BRANCHES",
     "CHUNK_CANDIDATES",
     "MAX_CANDIDATES",
     "PlacementGrid",
     "PlacementResult",
+    "scene_with_base",
     "search_base_placement",
 ]
 
+BLENDED_TOP = 3
+"""Best-ranked candidates whose blended cycle time is computed (module docstring)."""
 CHUNK_CANDIDATES = 500
 """Candidate base poses per executor chunk (about 0.1 to 0.3 s on one core for ten targets)."""
 MAX_CANDIDATES = 1_000_000
@@ -791,6 +807,9 @@ def _report(
                     else None
                 ),
                 cycle_time_s=_optional(float(cycle[idx])),
+                blended_cycle_time_s=(
+                    _blended_cycle_time(scene, scenes.T_world_base) if rank <= BLENDED_TOP else None
+                ),
                 targets=targets,
             )
         )
@@ -822,7 +841,9 @@ def _report(
         ),
         cycle_time_note=(
             "estimate: joint moves as synchronised trapezoids between the chosen configurations, "
-            "linear moves at the requested speed without joint-limit cap, blends ignored"
+            "linear moves at the requested speed without joint-limit cap, blends ignored (rest "
+            f"to rest); blended: for the {BLENDED_TOP} best candidates only, every path sampled "
+            "and timed through its blends as the path check does"
         ),
         current_score=None if current is None else float(score[current]),
         current_cycle_time_s=current_cycle,
@@ -869,6 +890,43 @@ def _speed_note(best_s: float | None, current_s: float | None) -> str:
         f"The best-scored base is slower than the current one: cycle {best_s:.2f} s against "
         f"{current_s:.2f} s ({best_s - current_s:.2f} s more per cycle)."
     )
+
+
+def scene_with_base(scene: Scene, T_world_base: FloatArray) -> Scene:
+    """The scene with the robot base at ``T_world_base`` (shape (4, 4)); the TCP poses of
+    joint-value waypoints move with the base, every other pose stays in the world.
+    """
+    paths = []
+    for path in scene.paths:
+        given = path.joints_given
+        if not np.any(given):
+            paths.append(path)
+            continue
+        T_world_tool = path.T_world_tool.copy()
+        T_bases = scene.external.T_world_base(path.external[given], T_world_base)
+        T_world_tool[given] = T_bases @ fk_tool(scene.robot, path.q[given], scene.T_flange_tool)
+        paths.append(replace(path, T_world_tool=T_world_tool))
+    return replace(scene, T_world_base=T_world_base, paths=tuple(paths))
+
+
+def _blended_cycle_time(scene: Scene, T_world_base: FloatArray) -> float | None:
+    """Blended cycle time, s, of every path of the cell with the base at ``T_world_base``
+    (module docstring); None if a path cannot be sampled or timed there.
+    """
+    from posebridge.planning.blended_timing import blended_cycle_time
+    from posebridge.planning.path_sampling import sample_path
+
+    moved = scene_with_base(scene, T_world_base)
+    total = 0.0
+    for index in range(len(moved.paths)):
+        try:
+            timing = blended_cycle_time(moved, sample_path(moved, index))
+        except PlanningInputError:
+            return None
+        if not math.isfinite(timing.total):
+            return None
+        total += timing.total
+    return total if moved.paths else None
 
 
 def _candidate_clearance(scenes: _CandidateScenes, q: FloatArray) -> FloatArray:

@@ -507,7 +507,16 @@ class PlacementCandidateReport(_Report):
     min_margin_deg: float | None
     manipulability: float | None
     min_clearance_mm: float | None
-    cycle_time_s: float | None
+    cycle_time_s: float | None = Field(
+        description="Rest-to-rest estimate over the cell's paths (upper bound); null if a path "
+        "waypoint is not reached."
+    )
+    blended_cycle_time_s: float | None = Field(
+        default=None,
+        description="Blended cycle time over the cell's paths with the base here (the paths "
+        "sampled and timed as the path check does); only for the best-ranked few candidates "
+        "(see cycle_time_note), null otherwise or if a path cannot be timed.",
+    )
     targets: list[TargetPlacementReport]
     tie_rank: int = Field(
         default=0,
@@ -727,6 +736,7 @@ def render_placement(report: PlacementReport, *, top: int = 10) -> str:
             _number(c.min_margin_deg),
             _number(c.min_clearance_mm),
             _number(c.cycle_time_s, 2),
+            _number(c.blended_cycle_time_s, 2),
         ]
         for c in report.best[:top]
     ]
@@ -743,6 +753,7 @@ def render_placement(report: PlacementReport, *, top: int = 10) -> str:
             "margin deg",
             "clearance mm",
             "cycle s",
+            "blended s",
         ],
         rows,
     )

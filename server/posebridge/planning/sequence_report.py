@@ -225,8 +225,8 @@ def optimise_path(
     scene: Scene,
     path: int,
     *,
-    limit_margin_deg: float = 0.0,
-    limit_margin_mm: float = 0.0,
+    limit_margin_deg: float | None = None,
+    limit_margin_mm: float | None = None,
     collision_threshold_mm: float = 0.0,
     resolution_mm: float = 5.0,
     resolution_deg: float = 1.0,
@@ -239,7 +239,8 @@ def optimise_path(
     path : int
         Index into ``scene.paths``.
     limit_margin_deg, limit_margin_mm : float, keyword-only
-        Smallest joint-limit margin every configuration keeps (revolute, prismatic).
+        Smallest joint-limit margin every configuration keeps (revolute, prismatic);
+        the cell's ``thresholds.limit_margin_deg`` (``_mm``) when omitted.
     collision_threshold_mm : float, keyword-only
         Clearance below which a configuration collides (0: contact).
     resolution_mm, resolution_deg : float, keyword-only
@@ -256,6 +257,11 @@ def optimise_path(
         Bad path index, limits or speeds.
     """
     resolved = path_of(scene, path)
+    thresholds = scene.cell.thresholds
+    if limit_margin_deg is None:
+        limit_margin_deg = thresholds.limit_margin_deg
+    if limit_margin_mm is None:
+        limit_margin_mm = thresholds.limit_margin_mm
     limits = SequenceLimits(
         limit_margin_rad=float(rad_from_deg(limit_margin_deg)),
         limit_margin_m=float(m_from_mm(limit_margin_mm)),

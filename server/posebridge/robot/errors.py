@@ -1,10 +1,10 @@
-"""The one exception type for robot descriptions that cannot be loaded."""
+"""The exception type for robot descriptions that cannot be loaded, and its chain-choice case."""
 
 from __future__ import annotations
 
 from posebridge.errors import InputError
 
-__all__ = ["RobotDescriptionError"]
+__all__ = ["ChainChoiceError", "RobotDescriptionError"]
 
 
 class RobotDescriptionError(InputError):
@@ -22,3 +22,17 @@ class RobotDescriptionError(InputError):
     def detail(self) -> str:
         """The findings joined by ``"; "`` (the HTTP API's message)."""
         return "; ".join(self.problems)
+
+
+class ChainChoiceError(RobotDescriptionError):
+    """A URDF whose chain end must be chosen: several (or no) leaf links below ``from_link``.
+
+    Attributes
+    ----------
+    leaves : tuple of str
+        The leaf links below ``from_link``, sorted (the ``to_link`` choices).
+    """
+
+    def __init__(self, problems: list[str], leaves: list[str]) -> None:
+        super().__init__(problems)
+        self.leaves = tuple(sorted(leaves))

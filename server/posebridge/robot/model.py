@@ -225,6 +225,9 @@ class Robot:
         Capsules an overlay removes once meshes are fitted (then empty).
     leaf_links : tuple of str
         URDF: the leaf links below ``from_link`` (the ``to_link`` choices a page offers).
+    chain_starts : tuple of str
+        URDF: the links above ``to_link``, from the root down (the ``from_link`` choices a
+        page offers).
     """
 
     name: str
@@ -246,6 +249,7 @@ class Robot:
     replaced_links: tuple[str, ...] = ()
     removed_capsules: tuple[str, ...] = ()
     leaf_links: tuple[str, ...] = ()
+    chain_starts: tuple[str, ...] = ()
 
     def __post_init__(self) -> None:
         """Make the array fields read-only."""

@@ -67,7 +67,7 @@ import defusedxml
 import defusedxml.sax
 import numpy as np
 
-from posebridge.robot.errors import RobotDescriptionError
+from posebridge.robot.errors import ChainChoiceError, RobotDescriptionError
 from posebridge.robot.mesh_paths import resolve_mesh_path
 from posebridge.robot.model import Capsule, Joint, JointKind, LinkMesh, Robot
 from posebridge.transforms import (
@@ -547,7 +547,7 @@ def _select_chain(
                 "line, to_link in a cell's robot entry or a robot overlay)"
                 + (f" among: {_listed(sorted(leaves))}" if leaves else ""),
             )
-            raise RobotDescriptionError(problems.items)
+            raise ChainChoiceError(problems.items, leaves)
         tip = leaves[0]
     else:
         tip = to_link
@@ -831,11 +831,22 @@ def parse_robot_urdf(
         leaf_links=tuple(
             sorted(name for name in placed if name != base and not _has_children(name, joints))
         ),
+        chain_starts=_ancestors(tip, joints),
     )
 
 
 def _has_children(link: str, joints: list[_JointSpec]) -> bool:
     return any(joint.parent == link for joint in joints)
+
+
+def _ancestors(link: str, joints: list[_JointSpec]) -> tuple[str, ...]:
+    """The links above ``link`` in the URDF tree, from the root down (a tree: checked before)."""
+    parent = {joint.child: joint.parent for joint in joints}
+    above: list[str] = []
+    while link in parent:
+        link = parent[link]
+        above.append(link)
+    return tuple(reversed(above))
 
 
 def _notes(

@@ -26,12 +26,15 @@ from fastapi import APIRouter, Header, HTTPException, Path, Query, Response
 
 from posebridge.api.auth import ReviewRoleDep, Role
 from posebridge.api.cell_store import CellSnapshot
+from posebridge.api.compute_context import cell_robot_spec
 from posebridge.api.deps import CellsDep, RobotsDep
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.robot_cache import RobotCache
 from posebridge.api.schemas.cells import (
     BaseEdit,
     CellDocument,
+    ChainChoice,
+    ChainEndEdit,
     FixtureEdit,
     TargetEdit,
     WaypointEdit,
@@ -79,18 +82,6 @@ WaypointIndex = Annotated[
 
 _SAVE_ERRORS = (409, 412, 422, 428, 503, 507)
 _CHANGE_ERRORS = error_responses(404, *_SAVE_ERRORS)
-
-
-def cell_robot_spec(snapshot: CellSnapshot, robots: RobotCache) -> str:
-    """Return the robot name for the kinematics routes.
-
-    The bundled name, else ``cell:<robot name>``, under which the cache serves the cell's robot to
-    every asker.
-    """
-    source = snapshot.cell.robot
-    spec = source.name if source.name is not None else f"cell:{snapshot.scene.robot.name}"
-    robots.pin(spec, snapshot.scene.robot)
-    return spec
 
 
 def _answer(
@@ -159,6 +150,44 @@ def read_cell(
 ) -> CellDocument:
     """Return the cell file content, its content version (also the ETag header) and its drawing."""
     return _answer(cells.read(), robots, response, role)
+
+
+@router.get(
+    "/chain-choice",
+    summary="The chain ends to choose from when the cell's URDF robot needs one",
+    responses=error_responses(404, 422),
+)
+def read_chain_choice(cells: CellsDep) -> ChainChoice:
+    """When the cell's URDF robot has several leaf links and no ``to_link`` (so the cell
+    cannot be loaded), the leaf links to choose from and the file's content version; 404
+    when the cell loads (choose the chain in the cell panel then).
+    """
+    found = cells.chain_choice()
+    if found is None:
+        raise HTTPException(status_code=404, detail="chain-choice: the cell's robot loads as it is")
+    written, etag, error = found
+    return ChainChoice(
+        etag=etag,
+        robot_file=written.robot.file or "",
+        from_link=written.robot.from_link,
+        leaves=list(error.leaves),
+        detail=error.detail,
+    )
+
+
+@router.put(
+    "/chain-choice",
+    summary="Choose the end of the cell robot's chain",
+    responses=error_responses(*_SAVE_ERRORS),
+)
+def choose_chain_end(
+    body: ChainEndEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch
+) -> CellDocument:
+    """Save ``to_link`` into the cell file's robot entry (If-Match: the etag of
+    ``GET /api/cell/chain-choice``) and answer with the cell, now loaded.
+    """
+    expected = _expected_etag(if_match)
+    return _saved(lambda: cells.choose_chain_end(body.to_link, expected), robots, response)
 
 
 @router.put("", summary="Replace the cell", responses=error_responses(*_SAVE_ERRORS))

@@ -13,6 +13,7 @@ from fastapi import APIRouter, HTTPException, Path, Query, Request, Response
 from starlette.concurrency import run_in_threadpool
 
 from posebridge.api.auth import charge_reviewer
+from posebridge.api.compute_context import ComputeContext
 from posebridge.api.deps import CellsDep, compute_for
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.routes.cells import index_of_named
@@ -26,7 +27,7 @@ from posebridge.api.schemas.kinematics import joints_si_from_request
 from posebridge.cell.arm_state import ArmState, arm_state
 from posebridge.cell.checks import check_targets
 from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
-from posebridge.cell.joint_log import JointLogTooLongError, parse_joint_log
+from posebridge.cell.joint_log import JointLog, JointLogTooLongError, parse_joint_log
 from posebridge.cell.reports import LogDiagnosis, PoseDiagnosis, TargetCheckReport
 from posebridge.planning.motion_export import (
     DEFAULT_PERIOD_MS,
@@ -58,9 +59,17 @@ async def read_target_check(cells: CellsDep, request: Request) -> TargetCheckRep
     kept = snapshot.memo.get("target-check", "")
     if isinstance(kept, TargetCheckReport):
         return kept
-    report = await compute_for(request, lambda: check_targets(scene))
+    report = await compute_for(request, _check_targets)
     snapshot.memo.put("target-check", "", report)
     return report
+
+
+def _check_targets(context: ComputeContext) -> TargetCheckReport:
+    return check_targets(context.cell().scene)
+
+
+def _check_path(context: ComputeContext, index: int) -> PathCheckReport:
+    return check_path(context.cell().scene, index)
 
 
 @router.get(
@@ -78,7 +87,7 @@ async def read_path_check(
     """
     scene = (await run_in_threadpool(cells.read)).scene
     index = index_of_named("path", [path.name for path in scene.paths], name)
-    return await compute_for(request, lambda: check_path(scene, index))
+    return await compute_for(request, _check_path, index)
 
 
 PathName = Annotated[str, Path(min_length=1, max_length=100)]
@@ -98,11 +107,23 @@ async def read_path_sequence(
     cells: CellsDep,
     request: Request,
     limit_margin_deg: Annotated[
-        float, Query(ge=0.0, le=90.0, allow_inf_nan=False, description="Revolute joints.")
-    ] = 0.0,
+        float | None,
+        Query(
+            ge=0.0,
+            le=90.0,
+            allow_inf_nan=False,
+            description="Revolute joints; the cell's thresholds.limit_margin_deg if omitted.",
+        ),
+    ] = None,
     limit_margin_mm: Annotated[
-        float, Query(ge=0.0, le=1000.0, allow_inf_nan=False, description="Prismatic joints.")
-    ] = 0.0,
+        float | None,
+        Query(
+            ge=0.0,
+            le=1000.0,
+            allow_inf_nan=False,
+            description="Prismatic joints; the cell's thresholds.limit_margin_mm if omitted.",
+        ),
+    ] = None,
 ) -> SequenceReport:
     """Find the IK solution sequence of a path with the shortest cycle time.
 
@@ -113,12 +134,27 @@ async def read_path_sequence(
     """
     scene = (await run_in_threadpool(cells.read)).scene
     index = index_of_named("path", [path.name for path in scene.paths], name)
-    return await compute_for(
-        request,
-        lambda: optimise_path(
-            scene, index, limit_margin_deg=limit_margin_deg, limit_margin_mm=limit_margin_mm
-        ),
+    return await compute_for(request, _optimise, index, limit_margin_deg, limit_margin_mm)
+
+
+def _optimise(
+    context: ComputeContext,
+    index: int,
+    limit_margin_deg: float | None,
+    limit_margin_mm: float | None,
+) -> SequenceReport:
+    return optimise_path(
+        context.cell().scene,
+        index,
+        limit_margin_deg=limit_margin_deg,
+        limit_margin_mm=limit_margin_mm,
     )
+
+
+def _export_motion(
+    context: ComputeContext, index: int, period_ms: float, cell_name: str
+) -> MotionExportReport:
+    return export_motion(context.cell().scene, index, period_ms=period_ms, cell_name=cell_name)
 
 
 async def _export(
@@ -128,9 +164,7 @@ async def _export(
     scene = snapshot.scene
     index = index_of_named("path", [path.name for path in scene.paths], name)
     cell_name = cells.path.name if cells.path is not None else "demo-cell.json"
-    return await compute_for(
-        request, lambda: export_motion(scene, index, period_ms=period_ms, cell_name=cell_name)
-    )
+    return await compute_for(request, _export_motion, index, period_ms, cell_name)
 
 
 @router.get(
@@ -177,43 +211,45 @@ async def export_path_csv(
 @router.post(
     "/diagnose/pose", summary="Diagnose one pose", responses=error_responses(422, 429, 503)
 )
-async def diagnose_joint_pose(
-    body: PoseDiagnosisRequest, cells: CellsDep, request: Request
-) -> PoseDiagnosis:
+async def diagnose_joint_pose(body: PoseDiagnosisRequest, request: Request) -> PoseDiagnosis:
     """Diagnose one pose of the arm.
 
     TCP pose, branch, margins, singularity, clearance with the closest object, nearest targets and
     the other branches of the same tool pose.
     """
+    return await compute_for(request, _diagnose_pose, body.joints_deg)
 
-    def work() -> PoseDiagnosis:
-        scene = cells.read().scene
-        if scene.external.count and len(body.joints_deg) == scene.robot.dof + scene.external.count:
-            q, external = scene.split_joints([body.joints_deg], where="joints_deg")
-            return diagnose_pose(scene, q[0], external=external[0])
-        q = joints_si_from_request(scene.robot, [body.joints_deg])
-        return diagnose_pose(scene, q[0])
 
-    return await compute_for(request, work)
+def _diagnose_pose(context: ComputeContext, joints_deg: list[float]) -> PoseDiagnosis:
+    scene = context.cell().scene
+    if scene.external.count and len(joints_deg) == scene.robot.dof + scene.external.count:
+        q, external = scene.split_joints([joints_deg], where="joints_deg")
+        return diagnose_pose(scene, q[0], external=external[0])
+    q = joints_si_from_request(scene.robot, [joints_deg])
+    return diagnose_pose(scene, q[0])
+
+
+def _arm_state(context: ComputeContext, joints_deg: list[float]) -> ArmState:
+    scene = context.cell().scene
+    q = joints_si_from_request(scene.robot, [joints_deg])
+    return arm_state(scene, q[0])
+
+
+def _diagnose_log(context: ComputeContext, log: JointLog) -> LogDiagnosis:
+    return diagnose_log(context.cell().scene, log)
 
 
 @router.post(
     "/fk", summary="State of the arm in the cell", responses=error_responses(422, 429, 503)
 )
-async def read_arm_state(body: PoseDiagnosisRequest, cells: CellsDep, request: Request) -> ArmState:
+async def read_arm_state(body: PoseDiagnosisRequest, request: Request) -> ArmState:
     """Return the quality of one configuration, shown beside the arm.
 
     Per joint the signed limit margin, every obstacle or self pair inside the clearance threshold
     with the capsule and depth, the singularity distances and the thresholds: what the page shows
     beside the arm after every change of the joint values.
     """
-
-    def work() -> ArmState:
-        scene = cells.read().scene
-        q = joints_si_from_request(scene.robot, [body.joints_deg])
-        return arm_state(scene, q[0])
-
-    return await compute_for(request, work)
+    return await compute_for(request, _arm_state, body.joints_deg)
 
 
 @router.post(
@@ -246,4 +282,4 @@ async def diagnose_joint_log(
             detail=f"csv: {error}; split the log into parts of at most {MAX_LOG_ROWS} rows",
         ) from error
     charge_reviewer(request, "log_rows", log.count)
-    return await compute_for(request, lambda: diagnose_log(scene, log))
+    return await compute_for(request, _diagnose_log, log)

@@ -5,13 +5,15 @@ from __future__ import annotations
 import threading
 from collections.abc import Callable
 from dataclasses import replace
+from typing import Literal
 
 import numpy as np
 from fastapi import APIRouter, HTTPException, Request
 from pydantic import BaseModel
 
 from posebridge.api.auth import charge_reviewer
-from posebridge.api.deps import CellsDep, JobsDep
+from posebridge.api.compute_context import ComputeContext
+from posebridge.api.deps import CellsDep, JobsDep, job_work
 from posebridge.api.jobs import JobLimitError, JobManager, JobWork
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
@@ -36,7 +38,7 @@ from posebridge.spaces.workspace import (
     tcp_distance_bound,
     tool_directions,
 )
-from posebridge.units import m_from_mm
+from posebridge.units import FloatArray, m_from_mm
 
 __all__ = ["client_key", "router", "start_job", "started"]
 
@@ -102,25 +104,37 @@ def start_joint_map(
         )
     charge_reviewer(request, "job_cells", cells_count)
     q_hold = joints_si_from_request(robot, [body.hold_deg], field="hold_deg")[0]
-    scene = snapshot.clearance
+    return start_job(jobs, "joint-map", request, job_work(request, _joint_map, body, q_hold))
 
     asked = body.model_dump_json()
+    computed_map = job_work(request, _joint_map, body, q_hold)
 
-    def work(progress: Callable[[int, int], None], cancel: threading.Event) -> JointMapResult:
-        computed = joint_map(
-            scene,
-            body.joints,
-            q_hold,
-            resolution=body.resolution,
-            threshold_m=float(m_from_mm(body.threshold_mm)),
-            progress=progress,
-            cancel=cancel,
-        )
-        result = joint_map_result(computed, robot, snapshot.etag)
+    def work(progress: Callable[[int, int], None], cancel: threading.Event) -> BaseModel:
+        result = computed_map(progress, cancel)
         snapshot.memo.put("joint-map", asked, result)
         return result
 
     return start_job(jobs, "joint-map", request, work, snapshot.memo.get("joint-map", asked))
+
+def _joint_map(
+    context: ComputeContext,
+    body: JointMapRequest,
+    q_hold: FloatArray,
+    *,
+    progress: Callable[[int, int], None],
+    cancel: threading.Event,
+) -> JointMapResult:
+    snapshot = context.cell()
+    computed = joint_map(
+        snapshot.clearance,
+        body.joints,
+        q_hold,
+        resolution=body.resolution,
+        threshold_m=float(m_from_mm(body.threshold_mm)),
+        progress=progress,
+        cancel=cancel,
+    )
+    return joint_map_result(computed, snapshot.scene.robot, snapshot.etag)
 
 
 @router.post(
@@ -160,33 +174,46 @@ def start_reach_section(
     box = np.stack([centre - reach, centre + reach])
     box[:, k] = [value - 0.5 * voxel, value + 0.5 * voxel]
 
-    def work(progress: Callable[[int, int], None], cancel: threading.Event) -> ReachSectionResult:
-        computed = reach_map(
-            scene.robot,
-            voxel_size_m=voxel,
-            T_world_base=scene.T_world_base,
-            T_flange_tool=scene.T_flange_tool,
-            box_m=box,
-            progress=progress,
-            cancel=cancel,
-        )
-        section = reach_section(computed, axis=body.axis, value_m=value)
-        planar = planar_section_mask(
-            scene.robot,
-            axis=body.axis,
-            value_m=float(m_from_mm(section.value_mm)),
-            u_m=m_from_mm(section.u_mm),
-            v_m=m_from_mm(section.v_mm),
-            T_world_base=scene.T_world_base,
-            T_flange_tool=scene.T_flange_tool,
-            half_thickness_m=0.5 * voxel,
-        )
-        if planar is not None:  # a planar arm reaches its plane only
-            section = replace(
-                section,
-                count=np.where(planar, section.count, 0).astype(np.int16),
-                best_manipulability=np.where(planar, section.best_manipulability, np.nan),
-            )
-        return reach_section_result(section, tool_directions().shape[0], snapshot.etag)
-
+    work = job_work(request, _reach_section, body.axis, voxel, value, box)
     return start_job(jobs, "reach-section", request, work)
+
+
+def _reach_section(
+    context: ComputeContext,
+    axis: Literal["x", "y", "z"],
+    voxel: float,
+    value: float,
+    box: FloatArray,
+    *,
+    progress: Callable[[int, int], None],
+    cancel: threading.Event,
+) -> ReachSectionResult:
+    snapshot = context.cell()
+    scene = snapshot.scene
+    computed = reach_map(
+        scene.robot,
+        voxel_size_m=voxel,
+        T_world_base=scene.T_world_base,
+        T_flange_tool=scene.T_flange_tool,
+        box_m=box,
+        progress=progress,
+        cancel=cancel,
+    )
+    section = reach_section(computed, axis=axis, value_m=value)
+    planar = planar_section_mask(
+        scene.robot,
+        axis=axis,
+        value_m=float(m_from_mm(section.value_mm)),
+        u_m=m_from_mm(section.u_mm),
+        v_m=m_from_mm(section.v_mm),
+        T_world_base=scene.T_world_base,
+        T_flange_tool=scene.T_flange_tool,
+        half_thickness_m=0.5 * voxel,
+    )
+    if planar is not None:  # a planar arm reaches its plane only
+        section = replace(
+            section,
+            count=np.where(planar, section.count, 0).astype(np.int16),
+            best_manipulability=np.where(planar, section.best_manipulability, np.nan),
+        )
+    return reach_section_result(section, tool_directions().shape[0], snapshot.etag)

@@ -8,7 +8,8 @@ from collections.abc import Callable
 from fastapi import APIRouter, HTTPException, Request
 
 from posebridge.api.auth import charge_reviewer
-from posebridge.api.deps import CellsDep, JobsDep
+from posebridge.api.compute_context import ComputeContext
+from posebridge.api.deps import CellsDep, JobsDep, job_work
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.routes.maps import start_job
 from posebridge.api.schemas.checks import MAX_PLACEMENT_CANDIDATES, PlacementRequest
@@ -61,15 +62,24 @@ def start_placement(
         )
     )
 
-    def work(progress: Callable[[int, int], None], cancel: threading.Event) -> PlacementReport:
-        return search_base_placement(
-            scene,
-            grid,
-            progress=progress,
-            cancel=cancel,
-            top=body.top,
-            collision_margin_mm=body.collision_margin_mm,
-            clearance_goal_mm=max(body.clearance_goal_mm, body.collision_margin_mm),
-        ).report
-
+    work = job_work(request, _placement, grid, body)
     return start_job(jobs, "placement", request, work)
+
+
+def _placement(
+    context: ComputeContext,
+    grid: PlacementGrid,
+    body: PlacementRequest,
+    *,
+    progress: Callable[[int, int], None],
+    cancel: threading.Event,
+) -> PlacementReport:
+    return search_base_placement(
+        context.cell().scene,
+        grid,
+        progress=progress,
+        cancel=cancel,
+        top=body.top,
+        collision_margin_mm=body.collision_margin_mm,
+        clearance_goal_mm=max(body.clearance_goal_mm, body.collision_margin_mm),
+    ).report

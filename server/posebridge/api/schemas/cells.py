@@ -24,6 +24,8 @@ __all__ = [
     "BaseDrawing",
     "BaseEdit",
     "CellDocument",
+    "ChainChoice",
+    "ChainEndEdit",
     "FixtureDrawing",
     "FixtureEdit",
     "PathDrawing",
@@ -554,3 +556,21 @@ def cell_document(snapshot: CellSnapshot, robot_spec: str, *, owner: bool) -> Ce
         cell=snapshot.cell,
         scene=scene_drawing(snapshot.scene),
     )
+
+
+# A cell whose URDF robot needs its chain end chosen before it can be loaded.
+class ChainChoice(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    etag: str = Field(description="Content version of the cell file as written (for If-Match).")
+    robot_file: str = Field(description="The robot file as the cell names it.")
+    from_link: str | None = Field(description="The chain's start as the cell gives it.")
+    leaves: list[str] = Field(description="The leaf links below from_link: the to_link choices.")
+    detail: str = Field(description="Why the robot cannot be loaded as it is.")
+
+
+# The chosen end of the cell robot's chain.
+class ChainEndEdit(BaseModel):
+    model_config = ConfigDict(extra="forbid")
+
+    to_link: str = Field(min_length=1, max_length=200, description="One of the leaf links.")

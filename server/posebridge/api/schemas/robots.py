@@ -114,6 +114,10 @@ class RobotDescriptionResult(BaseModel):
         description="URDF: to_link choices (the leaf links below from_link, and the current "
         "to_link).",
     )
+    chain_starts: list[str] = Field(
+        default_factory=list,
+        description="URDF: from_link choices (the links above to_link, from the root down).",
+    )
 
 
 def robot_summary_from_bundled(bundled: BundledRobot) -> RobotSummary:
@@ -166,6 +170,7 @@ def robot_description_result(robot: Robot, spec: str) -> RobotDescriptionResult:
         from_link=robot.from_link or None,
         to_link=robot.to_link or None,
         chain_ends=sorted({*robot.leaf_links, robot.to_link}) if robot.to_link else [],
+        chain_starts=list(robot.chain_starts),
     )
 
 
