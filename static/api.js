@@ -92,6 +92,9 @@ export function createApiClient({ baseUrl = "" } = {}) {
     ik: (body, { signal } = {}) => request("/api/ik", { method: "POST", body, signal }),
     readCell: () => request("/api/cell"),
     replaceCell: (cell, etag) => request("/api/cell", { method: "PUT", body: cell, ifMatch: etag }),
+    readChainChoice: () => request("/api/cell/chain-choice"),
+    chooseChainEnd: (toLink, etag) =>
+      request("/api/cell/chain-choice", { method: "PUT", body: { to_link: toLink }, ifMatch: etag }),
     moveTarget: (name, body, etag) =>
       request(`/api/cell/targets/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
     moveFixture: (name, body, etag) =>

@@ -34,7 +34,8 @@ function samePose(a, b) {
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
  * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>,
- *            retrySave: () => void, chooseChainEnd: (toLink: string) => Promise<void>}}
+ *            retrySave: () => void, chooseChain: (links: object) => Promise<void>,
+ *            chooseChainEnd: (toLink: string) => Promise<void>}}
  */
 export function createCellSync({ store, actions, api, linking }) {
   let saveTimer = null;
@@ -237,8 +238,14 @@ export function createCellSync({ store, actions, api, linking }) {
   }
 
   async function loadCell() {
-    const document = await api.readCell();
-    store.update({ cell: document });
+    let document;
+    try {
+      document = await api.readCell();
+    } catch (error) {
+      await offerChainChoice(error);
+      throw error;
+    }
+    store.update({ cell: document, chainChoice: null });
     const first = document.scene.targets[0];
     const onLoaded = first ? () => actions.select({ kind: "target", name: first.name }) : null;
     actions.select(null);
@@ -286,19 +293,46 @@ export function createCellSync({ store, actions, api, linking }) {
     }
   }
 
-  /** Choose where a URDF robot's chain ends (the cell's robot.to_link): saved, then the robot reloads. */
-  async function chooseChainEnd(toLink) {
+  /**
+   * Choose where a URDF robot's chain starts or ends (the cell's robot.from_link / to_link, given
+   * as `{ from_link }` or `{ to_link }`): saved with If-Match, then the robot reloads.
+   */
+  async function chooseChain(links) {
     const { cell, readOnly } = store.get();
     if (readOnly) {
       actions.setStatus("info", REVIEW_NOT_SAVED);
       return;
     }
     try {
-      await api.replaceCell({ ...cell.cell, robot: { ...cell.cell.robot, to_link: toLink } }, cell.etag);
+      await api.replaceCell({ ...cell.cell, robot: { ...cell.cell.robot, ...links } }, cell.etag);
       await loadCell();
     } catch (error) {
-      actions.setStatus("error", `Choosing the chain end: ${error.message}`);
+      actions.setStatus("error", `Choosing the robot chain: ${error.message}`);
       await reloadCell();
+    }
+  }
+
+  /** After a refused cell: if its URDF robot only needs its chain end chosen, offer the leaves. */
+  async function offerChainChoice(error) {
+    if (!(error instanceof ApiError) || error.status !== 422 || store.get().readOnly) {
+      return;
+    }
+    try {
+      store.update({ chainChoice: await api.readChainChoice() });
+    } catch {
+      store.update({ chainChoice: null }); // refused for another reason: the status says why
+    }
+  }
+
+  /** Save the chosen chain end of a robot that could not load (If-Match), then load the cell. */
+  async function chooseChainEnd(toLink) {
+    const { chainChoice } = store.get();
+    try {
+      await api.chooseChainEnd(toLink, chainChoice.etag);
+      await loadCell();
+      actions.setStatus("info", `The robot's chain now ends at ${toLink}`);
+    } catch (error) {
+      actions.setStatus("error", `Choosing the chain end: ${error.message}`);
     }
   }
 
@@ -328,5 +362,5 @@ export function createCellSync({ store, actions, api, linking }) {
     store.update({ cell: document, cellSave: { state: "saved", message } });
   }
 
-  return { loadCell, reloadCell, moveBase, moveCarriage, retrySave, chooseChainEnd, setWaypointJoints, showSavedCell };
+  return { loadCell, reloadCell, moveBase, moveCarriage, retrySave, chooseChain, chooseChainEnd, setWaypointJoints, showSavedCell };
 }

@@ -76,6 +76,7 @@ async function start() {
     onShowCell: () => cellSync.loadCell(),
     onRetrySave: () => cellSync.retrySave(),
     onAddMesh: (file) => meshFixtures.upload(file, meshSpot(store.get())),
+    onChooseChain: (links) => cellSync.chooseChain(links),
     onChooseChainEnd: (toLink) => cellSync.chooseChainEnd(toLink),
   });
   createTargetPanel({ container: byId("target-panel"), store, actions });

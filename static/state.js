@@ -35,6 +35,8 @@
  *                   {mesh_version, full, flat}: GET /api/cell/meshes answers for the 3D view
  *                   (page budget) and for the plan and elevation (a small budget)
  *   cellActive      the page shows the cell: its robot is loaded, poses are world poses
+ *   chainChoice     {etag, robot_file, from_link, leaves, detail} (GET /api/cell/chain-choice)
+ *                   while the cell's URDF robot cannot load until its chain end is chosen, or null
  *   selection       {kind: "target", name, path?} | {kind: "waypoint", path, index} |
  *                   {kind: "fixture", name, target} (target: the cell target the page's target
  *                   still shows, or null) | null
@@ -119,6 +121,7 @@ export function initialState() {
     cell: null,
     meshes: {},
     cellActive: false,
+    chainChoice: null,
     selection: null,
     fixture: null,
     cellSave: { state: "saved", message: "" },

@@ -38,28 +38,56 @@ function rowKey(selection) {
 
 /**
  * @param {{container: HTMLElement, store: object, actions: object, onShowCell: () => void,
- *          onRetrySave: () => void, onChooseChainEnd: (toLink: string) => void}} options
+ *          onRetrySave: () => void, onChooseChain: (links: object) => void,
+ *          onChooseChainEnd: (toLink: string) => void}} options
  *   onShowCell: called by the "show the cell" button when another robot is shown;
  *   onRetrySave: called by "Save again", shown after a failed save (the move is kept);
  *   onAddMesh: called with a mesh file chosen with "Add mesh file" (also: drop it on the plan).
- *   onChooseChainEnd: called with the link chosen as the end of a URDF robot's chain.
+ *   onChooseChain: called with `{ from_link }` or `{ to_link }` chosen for a URDF robot's chain.
+ *   onChooseChainEnd: called with the leaf link chosen for a robot that cannot load without one.
  */
-export function createCellPanel({ container, store, actions, onShowCell, onRetrySave, onAddMesh, onChooseChainEnd }) {
-  // a URDF robot's chain end (robot.to_link of the cell), listed from the leaf links
+export function createCellPanel({ container, store, actions, onShowCell, onRetrySave, onAddMesh, onChooseChain, onChooseChainEnd }) {
+  // a URDF robot's chain start and end (robot.from_link / to_link of the cell): the links above
+  // the end, and the leaf links below the start
+  const chainStart = element("select", { attributes: { id: "chain-start", "data-edits-cell": "" } });
+  chainStart.addEventListener("change", () => onChooseChain({ from_link: chainStart.value }));
   const chainEnd = element("select", { attributes: { id: "chain-end", "data-edits-cell": "" } });
-  chainEnd.addEventListener("change", () => onChooseChainEnd(chainEnd.value));
-  const chainRow = element("label", { attributes: { hidden: "" } }, ["Robot chain ends at ", chainEnd]);
+  chainEnd.addEventListener("change", () => onChooseChain({ to_link: chainEnd.value }));
+  const chainRow = element("label", { attributes: { hidden: "" } }, ["Robot chain from ", chainStart, " to ", chainEnd]);
+  const options = (names) => names.map((name) => element("option", { text: name, attributes: { value: name } }));
   function renderChain() {
     const { robot, cell, cellActive } = store.get();
     const ends = robot && robot.chain_ends ? robot.chain_ends : [];
-    const show = Boolean(cellActive && cell && cell.cell.robot.file && ends.length > 1);
+    const starts = robot && robot.chain_starts ? robot.chain_starts : [];
+    const show = Boolean(cellActive && cell && cell.cell.robot.file && (ends.length > 1 || starts.length > 1));
     chainRow.hidden = !show;
     if (show) {
-      chainEnd.replaceChildren(...ends.map((name) => element("option", { text: name, attributes: { value: name } })));
+      chainStart.replaceChildren(...options(starts));
+      chainStart.value = robot.from_link;
+      chainEnd.replaceChildren(...options(ends.length ? ends : [robot.to_link]));
       chainEnd.value = robot.to_link;
     }
   }
   store.subscribe(renderChain, { keys: ["robot", "cell", "cellActive"] });
+  // a cell whose URDF robot cannot load until its chain end is chosen: the leaf links to pick
+  const leafChoice = element("select", { attributes: { id: "chain-choice" } });
+  const useLeaf = element("button", { text: "Use this chain end", attributes: { type: "button", id: "chain-choice-use" } });
+  useLeaf.addEventListener("click", () => onChooseChainEnd(leafChoice.value));
+  const leafNote = element("span", { attributes: { id: "chain-choice-note" } });
+  const leafRow = element("div", { className: "pb-note", attributes: { id: "chain-choice-row", hidden: "" } }, [
+    leafNote,
+    leafChoice,
+    useLeaf,
+  ]);
+  function renderChainChoice() {
+    const { chainChoice } = store.get();
+    leafRow.hidden = !chainChoice;
+    if (chainChoice) {
+      leafNote.textContent = `${chainChoice.robot_file} has several leaf links: choose where the robot's chain ends `;
+      leafChoice.replaceChildren(...options(chainChoice.leaves));
+    }
+  }
+  store.subscribe(renderChainChoice, { keys: ["chainChoice"] });
   const info = element("p", { className: "pb-note", attributes: { id: "cell-info" } });
   const saveState = element("output", { className: "pb-save", attributes: { id: "cell-save", role: "status" } });
   const back = element("button", { text: "Show the cell", attributes: { type: "button", id: "cell-show" } });
@@ -104,7 +132,7 @@ export function createCellPanel({ container, store, actions, onShowCell, onRetry
     }
     meshInput.value = "";
   });
-  container.append(element("div", { className: "pb-controls" }, [info, saveState, retry, back, addMesh, meshInput, chainRow]), list, fixturePanel);
+  container.append(element("div", { className: "pb-controls" }, [info, saveState, retry, back, addMesh, meshInput, chainRow]), leafRow, list, fixturePanel);
   let builtFor = null;
   let markedFor = null;
 

@@ -217,7 +217,8 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
           element("strong", { text: `score ${formatNumber(candidate.score, { decimals: 3 })}` }),
           tied ? ` (a tie with rank ${candidate.tie_rank})` : "",
           ` — reaches ${candidate.targets_reached} of ${placement.targets.length} targets on ${candidate.branch || "no branch"}`,
-          candidate.cycle_time_s === null ? "" : `, cycle ${formatNumber(candidate.cycle_time_s, { decimals: 2 })} s`,
+          candidate.cycle_time_s === null ? "" : `, cycle ${formatNumber(candidate.cycle_time_s, { decimals: 2 })} s rest to rest`,
+          candidate.blended_cycle_time_s == null ? "" : `, ${formatNumber(candidate.blended_cycle_time_s, { decimals: 2 })} s blended`,
           slower ? ` (slower than the current base's ${formatNumber(current, { decimals: 2 })} s)` : "",
         ]);
         const choose = () => moveTo(candidate.x_mm, candidate.y_mm, candidate.yaw_deg, candidate.pedestal_height_mm);

@@ -107,3 +107,40 @@ def test_page_draws_the_urdf_robot_meshes(
     assert saved["robot"]["to_link"] == "finger_left"
     assert errors == []
     page.close()
+
+
+def test_page_chooses_the_chain_start(
+    browser: Any, gripper_server: tuple[str, Path], artifacts: Path
+) -> None:
+    url, cell_file = gripper_server
+    page = browser.new_page(viewport=VIEWPORT)
+    errors: list[str] = []
+    page.on("pageerror", lambda error: errors.append(str(error)))
+    page.goto(url)
+    page.wait_for_function(
+        "() => { const s = window.posebridge && window.posebridge.getState();"
+        " return s && s.cellActive && s.robot && s.robot.chain_starts"
+        " && s.robot.chain_starts.length > 1 && s.fk; }",
+        timeout=180_000,
+    )
+    end = page.evaluate("() => window.posebridge.getState().robot.to_link")
+    dof = page.evaluate("() => window.posebridge.getState().robot.dof")
+    # the links above the chain's end, from the root down (invented_urdf's tree)
+    above = ["base_link", "turret", "upper_arm", "forearm", "wrist_a", "wrist_b", "wrist_c"]
+    above += ["flange", "gripper_body"] if end.startswith("finger") else ["flange"]
+    options = page.evaluate(
+        "() => [...document.querySelectorAll('#chain-start option')].map((o) => o.value)"
+    )
+    assert options == above
+    assert page.input_value("#chain-start") == "base_link"
+    page.select_option("#chain-start", "turret")
+    # starting below shoulder_pan leaves one moving joint fewer on the chain
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState();"
+        f" return s.robot && s.robot.from_link === 'turret' && s.robot.dof === {dof - 1}; }}",
+        timeout=120_000,
+    )
+    assert json.loads(cell_file.read_text())["robot"]["from_link"] == "turret"
+    page.screenshot(path=str(artifacts / "page-urdf-chain-start.png"), full_page=True)
+    assert errors == []
+    page.close()
