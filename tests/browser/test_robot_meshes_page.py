@@ -144,3 +144,49 @@ def test_page_chooses_the_chain_start(
     page.screenshot(path=str(artifacts / "page-urdf-chain-start.png"), full_page=True)
     assert errors == []
     page.close()
+
+
+def test_joint_map_moves_show_the_link_meshes(
+    browser: Any, gripper_server: tuple[str, Path], artifacts: Path
+) -> None:
+    # the joint map has no pose preview of its own: a move on it sets the arm's joints and the
+    # views that show the arm draw it with its link meshes at the new pose
+    url, _ = gripper_server
+    page = browser.new_page(viewport=VIEWPORT)
+    errors: list[str] = []
+    page.on("pageerror", lambda error: errors.append(str(error)))
+    page.goto(url)
+    page.wait_for_function(
+        "() => { const s = window.posebridge && window.posebridge.getState();"
+        " return s && s.cellActive && s.robotMeshes.length > 0 && s.fk; }",
+        timeout=180_000,
+    )
+    drawn = page.evaluate(
+        "() => window.posebridge.getState().robotMeshes"
+        ".reduce((n, m) => n + m.vertices_mm.length, 0)"
+    )
+    page.wait_for_function(f"() => ({ARM_VERTICES})() === {drawn}", timeout=60_000)
+    first_vertex = """() => {
+      const t = (document.getElementById("scene3d").data || []).find((t) => t.name === "arm");
+      return t ? [t.x[t.x.length - 1], t.y[t.y.length - 1], t.z[t.z.length - 1]] : null;
+    }"""
+    page.evaluate(
+        f"() => {{ window.pbBefore = [JSON.stringify(window.posebridge.getState().joints),"
+        f" JSON.stringify(({first_vertex})())]; }}"
+    )
+    page.focus("#joint-map")
+    page.keyboard.press("Shift+ArrowUp")  # ten angle steps on the map's vertical joint
+    page.keyboard.press("Shift+ArrowRight")  # and on its horizontal one (one may be at a limit)
+    page.wait_for_function(
+        "() => JSON.stringify(window.posebridge.getState().joints) !== window.pbBefore[0]",
+        timeout=60_000,
+    )
+    page.wait_for_function(
+        f"() => {{ const v = ({first_vertex})(); return ({ARM_VERTICES})() === {drawn}"
+        " && v !== null && JSON.stringify(v) !== window.pbBefore[1]; }",
+        timeout=60_000,
+    )
+    assert page.evaluate(PLAN_ARM_POINTS) > 0
+    page.screenshot(path=str(artifacts / "page-urdf-joint-map-move.png"), full_page=True)
+    assert errors == []
+    page.close()

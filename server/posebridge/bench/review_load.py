@@ -45,10 +45,11 @@ _SERVER = textwrap.dedent(
     from pathlib import Path
     from posebridge.api.server import background_server
     from posebridge.api.settings import Settings
-    settings = Settings(robot="pb-arm6", cell_path=Path(sys.argv[1]))
-    with background_server(settings, review_token=sys.argv[2]) as url:
-        print(url, flush=True)
-        threading.Event().wait()
+    if __name__ == "__main__":  # the reviewer worker process imports this file again
+        settings = Settings(robot="pb-arm6", cell_path=Path(sys.argv[1]))
+        with background_server(settings, review_token=sys.argv[2]) as url:
+            print(url, flush=True)
+            threading.Event().wait()
     """
 )
 _REVIEWER_SPACING_S = 0.080
