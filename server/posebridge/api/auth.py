@@ -156,16 +156,12 @@ def install_review_access(app: FastAPI) -> None:
 def enable_review_sharing(app: FastAPI, token: str) -> None:
     """Share ``app`` for review with ``token``; only the token's SHA-256 digest is kept.
 
-    The reviewers' worker process (:mod:`posebridge.api.lanes`) is started.
-
     Raises
     ------
     ValueError
         The token is too short or too long (:meth:`ReviewAccess.from_token`).
     """
     app.state.review_access = ReviewAccess.from_token(token)
-    lane: ReviewerLane = app.state.reviewer_lane
-    lane.start()  # the reviewers' worker process starts (and loads) in the background
 
 
 def _is_loopback_address(host: str) -> bool:

@@ -19,8 +19,8 @@ this module keeps their computations off the owner's processor time:
   being served (at most :data:`OWNER_WAIT_S` each time, so reviewers are
   slowed, never starved).
 
-The worker process is started on first use (:meth:`ReviewerLane.start` when
-sharing is turned on) with the ``spawn`` method (as
+The worker process is started on the first reviewer computation (not with
+the server, whose own start-up it would slow) with the ``spawn`` method (as
 :mod:`posebridge.compute.executor`). It has its own robot cache, which serves
 only bundled names and the cell's robot (never a path), and mirrors the cell
 version the server read: the server sends the cell with a computation only
@@ -71,8 +71,9 @@ __all__ = [
 
 _log = logging.getLogger(__name__)
 
-MAX_WAITING: Final = 32
-"""Reviewer computations queued or running at once; more are refused (503)."""
+MAX_WAITING: Final = 64
+"""Reviewer computations queued or running at once (50 reviewers each waiting on one fit);
+more are refused (503)."""
 OWNER_WAIT_S: Final = 0.25
 """Longest wait of one reviewer step for the owner's requests to finish."""
 REVIEWER_NICE: Final = 10
@@ -285,10 +286,6 @@ class ReviewerLane:
                 )
                 self._sent_etag = None
             return self._process
-
-    def start(self) -> None:
-        """Start the worker process now (in the background), so the first reviewer waits less."""
-        self._pool().submit(_ready)
 
     def worker_pid(self) -> int:
         """The worker process's id (starts it if needed; waits for it)."""
