@@ -59,7 +59,8 @@ async def test_leaves_are_listed_and_the_choice_is_saved(
     assert choice.status_code == 200
     body = choice.json()
     assert body["leaves"] == ["left", "right"]  # the two fixed fingers below "hand"
-    assert body["robot_file"] == "forked.urdf" and body["from_link"] is None
+    assert body["robot_file"] == "forked.urdf"
+    assert body["from_link"] is None
     assert "choose the to_link" in body["detail"]
     stale = await owner.put(
         "/api/cell/chain-choice", json={"to_link": "left"}, headers={"If-Match": '"0000"'}

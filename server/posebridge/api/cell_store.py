@@ -84,7 +84,7 @@ def snapshot_of(
     mesh_loader: MeshFixtureLoader,
     previous: CellSnapshot | None = None,
 ) -> CellSnapshot:
-    """The cell resolved (file names relative to ``path``).
+    """Resolve the cell into a snapshot (file names relative to ``path``).
 
     The previous snapshot's robot is kept when the robot entry is unchanged (a
     robot with meshes is not read again on every edit).
@@ -157,9 +157,10 @@ class CellStore:
         return self._snapshot
 
     def chain_choice(self) -> tuple[Cell, str, ChainChoiceError] | None:
-        """The cell as written, its content version and the error listing the leaf links,
-        when the cell's URDF robot cannot be loaded until its chain end is chosen; None when
-        the cell loads.
+        """Return what a chain-end choice needs, or None when the cell loads.
+
+        The cell as written, its content version and the error listing the leaf links, when
+        the cell's URDF robot cannot be loaded until its chain end is chosen.
 
         Raises
         ------
@@ -177,8 +178,9 @@ class CellStore:
         return None
 
     def choose_chain_end(self, to_link: str, expected_etag: str) -> CellSnapshot:
-        """Set the robot's ``to_link`` in the cell file at content version ``expected_etag``,
-        read as written (its robot need not load, :meth:`chain_choice`).
+        """Set the robot's ``to_link`` in the cell file at content version ``expected_etag``.
+
+        The file is read as written (its robot need not load, :meth:`chain_choice`).
 
         Raises
         ------

@@ -21,8 +21,9 @@ __all__ = ["ComputeContext", "cell_robot_spec"]
 
 
 def cell_robot_spec(snapshot: CellSnapshot, robots: RobotCache) -> str:
-    """Pin the cell's robot in ``robots`` and return its name for the kinematics routes
-    (the bundled name, else ``cell:<robot name>``), under which every asker may use it.
+    """Pin the cell's robot in ``robots`` and return its name for the kinematics routes.
+
+    The bundled name, else ``cell:<robot name>``, under which every asker may use it.
     """
     source = snapshot.cell.robot
     spec = source.name if source.name is not None else f"cell:{snapshot.scene.robot.name}"
@@ -48,9 +49,9 @@ class ComputeContext:
     paths_allowed: bool
 
     def cell(self) -> CellSnapshot:
-        """The cell version of this computation (``CellFileError`` if it cannot be read)."""
+        """Return the cell version of this computation (``CellFileError`` if it cannot be read)."""
         return self.read_cell()
 
     def robot(self, spec: str) -> Robot:
-        """The robot named ``spec``, under the asker's rights (errors as :meth:`RobotCache.get`)."""
+        """Return the robot named ``spec``, under the asker's rights (errors as :meth:`RobotCache.get`)."""
         return self.robots.get(spec, paths_allowed=self.paths_allowed)

@@ -60,7 +60,7 @@ def _is_owner(request: Request) -> bool:
 
 
 def owner_context(request: Request) -> ComputeContext:
-    """The owner's computation context: the server's robots and cell, file paths allowed."""
+    """Return the owner's computation context: the server's robots and cell, paths allowed."""
     cells: CellStore = request.app.state.cells
     return ComputeContext(request.app.state.robots, cells.read, paths_allowed=True)
 
@@ -88,9 +88,10 @@ async def compute_for(request: Request, function: Callable[..., T], *args: Any) 
 
 
 def job_work(request: Request, function: Callable[..., BaseModel], *args: Any) -> JobWork:
-    """The job body running ``function(context, *args, progress=..., cancel=...)`` for the
-    asker: the owner's on the owner's job worker, a reviewer's in the reviewer worker
-    process (:meth:`posebridge.api.lanes.ReviewerLane.run_job`).
+    """Return the job body running ``function(context, *args, progress=..., cancel=...)``.
+
+    For the asker: the owner's on the owner's job worker, a reviewer's in the reviewer
+    worker process (:meth:`posebridge.api.lanes.ReviewerLane.run_job`).
     """
     if _is_owner(request):
         context = owner_context(request)

@@ -103,7 +103,7 @@ class WorkerRefusedError(InputError):
         self.headers = headers
 
     def http_error(self) -> HTTPException:
-        """The same refusal as an HTTP answer."""
+        """Return the same refusal as an HTTP answer."""
         return HTTPException(status_code=self.status, detail=str(self), headers=self.headers)
 
 
@@ -129,7 +129,7 @@ _worker: _WorkerState | None = None
 def _start_worker(
     cell_path: Path | None, cache_size: int, nice: int, progress: Any, cancel: Any
 ) -> None:
-    """Initializer of the reviewer worker process: lower priority, one numba thread, state."""
+    """Set up the reviewer worker process: lower priority, one numba thread, its state."""
     global _worker
     os.nice(nice)
     numba.set_num_threads(1)
@@ -143,12 +143,12 @@ def _start_worker(
 
 
 def _ready() -> int:
-    """The worker's process id (a first call starts the process)."""
+    """Return the worker's process id (a first call starts the process)."""
     return os.getpid()
 
 
 def _mirrored_cell(state: _WorkerState, cell: Cell | None) -> CellSnapshot:
-    """The worker's copy of the cell version the server sent (``cell``), or the last one."""
+    """Return the worker's copy of the cell version the server sent (``cell``), or the last."""
     if cell is not None:
         state.snapshot = snapshot_of(cell, state.path, state.mesh_loader, state.snapshot)
         cell_robot_spec(state.snapshot, state.robots)
@@ -160,9 +160,11 @@ def _mirrored_cell(state: _WorkerState, cell: Cell | None) -> CellSnapshot:
 def _call_in_worker(
     function: Callable[..., Any], cell: Cell | None, args: tuple[Any, ...], job: bool
 ) -> tuple[str, Any]:
-    """Run ``function(context, *args)`` (a job also gets ``progress`` and ``cancel``) in the
-    worker; the outcome as a value: ``("done", result)``, ``("refused", (status, detail,
-    headers))``, ``("cancelled", (done, total))`` or ``("failed", error type name)``.
+    """Run ``function(context, *args)`` in the worker; return the outcome as a value.
+
+    A job also gets ``progress`` and ``cancel``. Outcomes: ``("done", result)``,
+    ``("refused", (status, detail, headers))``, ``("cancelled", (done, total))`` or
+    ``("failed", error type name)``.
     """
     state = _worker
     assert state is not None, "runs in the reviewer worker process only"
@@ -194,7 +196,7 @@ def _call_in_worker(
 
 
 def _outcome(answer: tuple[str, Any]) -> Any:
-    """The result of an answer of :func:`_call_in_worker`, or its error raised here."""
+    """Return the result of an answer of :func:`_call_in_worker`, or raise its error here."""
     kind, value = answer
     if kind == "done":
         return value
@@ -288,7 +290,7 @@ class ReviewerLane:
             return self._process
 
     def worker_pid(self) -> int:
-        """The worker process's id (starts it if needed; waits for it)."""
+        """Return the worker process's id (starts it if needed; waits for it)."""
         return int(self._pool().submit(_ready).result())
 
     async def run(
@@ -338,8 +340,9 @@ class ReviewerLane:
         progress: Callable[[int, int], None],
         cancel: threading.Event,
     ) -> T:
-        """Run the job ``function(context, *args, progress=..., cancel=...)`` in the worker
-        and wait for it (called on the job manager's reviewer thread).
+        """Run the job ``function(context, *args, progress=..., cancel=...)`` in the worker.
+
+        Called on the job manager's reviewer thread; waits for the job.
 
         Progress is relayed from the worker and ``cancel`` passed on to it while
         the job runs.
@@ -373,7 +376,7 @@ class ReviewerLane:
         return result
 
     def _cell_to_send(self, read_cell: Callable[[], CellSnapshot] | None) -> Cell | None:
-        """The cell if its version differs from the worker's mirror, else None."""
+        """Return the cell if its version differs from the worker's mirror, else None."""
         if read_cell is None:
             return None
         try:
@@ -393,8 +396,9 @@ class ReviewerLane:
         *,
         job: bool,
     ) -> cf.Future[tuple[str, Any]]:
-        """Submit one computation with the cell if the worker's mirror is older (call with
-        ``_send_lock`` held: the worker runs submissions in this order).
+        """Submit one computation, with the cell if the worker's mirror is older.
+
+        Call with ``_send_lock`` held: the worker runs submissions in this order.
         """
         cell = self._cell_to_send(read_cell)
         try:

@@ -893,8 +893,9 @@ def _speed_note(best_s: float | None, current_s: float | None) -> str:
 
 
 def scene_with_base(scene: Scene, T_world_base: FloatArray) -> Scene:
-    """The scene with the robot base at ``T_world_base`` (shape (4, 4)); the TCP poses of
-    joint-value waypoints move with the base, every other pose stays in the world.
+    """Return the scene with the robot base at ``T_world_base`` (shape (4, 4)).
+
+    The TCP poses of joint-value waypoints move with the base; every other pose stays.
     """
     paths = []
     for path in scene.paths:
@@ -910,8 +911,9 @@ def scene_with_base(scene: Scene, T_world_base: FloatArray) -> Scene:
 
 
 def _blended_cycle_time(scene: Scene, T_world_base: FloatArray) -> float | None:
-    """Blended cycle time, s, of every path of the cell with the base at ``T_world_base``
-    (module docstring); None if a path cannot be sampled or timed there.
+    """Return the blended cycle time, s, of every path with the base at ``T_world_base``.
+
+    See the module docstring; None if a path cannot be sampled or timed there.
     """
     from posebridge.planning.blended_timing import blended_cycle_time
     from posebridge.planning.path_sampling import sample_path

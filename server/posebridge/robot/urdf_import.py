@@ -840,7 +840,7 @@ def _has_children(link: str, joints: list[_JointSpec]) -> bool:
 
 
 def _ancestors(link: str, joints: list[_JointSpec]) -> tuple[str, ...]:
-    """The links above ``link`` in the URDF tree, from the root down (a tree: checked before)."""
+    """Return the links above ``link`` in the URDF tree, from the root down (a tree)."""
     parent = {joint.child: joint.parent for joint in joints}
     above: list[str] = []
     while link in parent:

@@ -158,9 +158,10 @@ def read_cell(
     responses=error_responses(404, 422),
 )
 def read_chain_choice(cells: CellsDep) -> ChainChoice:
-    """When the cell's URDF robot has several leaf links and no ``to_link`` (so the cell
-    cannot be loaded), the leaf links to choose from and the file's content version; 404
-    when the cell loads (choose the chain in the cell panel then).
+    """List the leaf links to choose from when the cell's robot cannot load without one.
+
+    When the cell's URDF robot has several leaf links and no ``to_link``: the leaf links and
+    the file's content version; 404 when the cell loads (choose the chain in the cell panel).
     """
     found = cells.chain_choice()
     if found is None:
@@ -183,8 +184,9 @@ def read_chain_choice(cells: CellsDep) -> ChainChoice:
 def choose_chain_end(
     body: ChainEndEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch
 ) -> CellDocument:
-    """Save ``to_link`` into the cell file's robot entry (If-Match: the etag of
-    ``GET /api/cell/chain-choice``) and answer with the cell, now loaded.
+    """Save ``to_link`` into the cell file's robot entry and answer with the loaded cell.
+
+    If-Match: the etag of ``GET /api/cell/chain-choice``.
     """
     expected = _expected_etag(if_match)
     return _saved(lambda: cells.choose_chain_end(body.to_link, expected), robots, response)

@@ -28,7 +28,7 @@ router = APIRouter(prefix="/api", tags=["kinematics"], route_class=StrictJsonRou
 
 
 def forward(context: ComputeContext, body: FkRequest) -> FkResult:
-    """The answer of ``POST /api/fk`` (runs for the asker, :func:`compute_for`)."""
+    """Return the answer of ``POST /api/fk`` (runs for the asker, :func:`compute_for`)."""
     robot = context.robot(body.robot)
     q = joints_si_from_request(robot, body.joints_deg)
     return fk_result(
@@ -41,7 +41,7 @@ def forward(context: ComputeContext, body: FkRequest) -> FkResult:
 
 
 def inverse(context: ComputeContext, body: IkRequest) -> IkResult:
-    """The answer of ``POST /api/ik`` (runs for the asker, :func:`compute_for`)."""
+    """Return the answer of ``POST /api/ik`` (runs for the asker, :func:`compute_for`)."""
     robot = context.robot(body.robot)
     T_flange_tool = tool_transform(body.tool)
     seed = (

@@ -116,6 +116,7 @@ def start_joint_map(
 
     return start_job(jobs, "joint-map", request, work, snapshot.memo.get("joint-map", asked))
 
+
 def _joint_map(
     context: ComputeContext,
     body: JointMapRequest,

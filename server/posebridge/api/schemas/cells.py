@@ -558,8 +558,9 @@ def cell_document(snapshot: CellSnapshot, robot_spec: str, *, owner: bool) -> Ce
     )
 
 
-# A cell whose URDF robot needs its chain end chosen before it can be loaded.
 class ChainChoice(BaseModel):
+    """A cell whose URDF robot needs its chain end chosen before it can be loaded."""
+
     model_config = ConfigDict(extra="forbid")
 
     etag: str = Field(description="Content version of the cell file as written (for If-Match).")
@@ -569,8 +570,9 @@ class ChainChoice(BaseModel):
     detail: str = Field(description="Why the robot cannot be loaded as it is.")
 
 
-# The chosen end of the cell robot's chain.
 class ChainEndEdit(BaseModel):
+    """The chosen end of the cell robot's chain."""
+
     model_config = ConfigDict(extra="forbid")
 
     to_link: str = Field(min_length=1, max_length=200, description="One of the leaf links.")
