@@ -90,6 +90,7 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/fk",
         "/api/ik",
         "/api/cell",
+        "/api/cell/chain-choice",
         "/api/cell/targets/{name}",
         "/api/cell/fixtures/{name}",
         "/api/cell/base",
