@@ -104,8 +104,6 @@ def start_joint_map(
         )
     charge_reviewer(request, "job_cells", cells_count)
     q_hold = joints_si_from_request(robot, [body.hold_deg], field="hold_deg")[0]
-    return start_job(jobs, "joint-map", request, job_work(request, _joint_map, body, q_hold))
-
     asked = body.model_dump_json()
     computed_map = job_work(request, _joint_map, body, q_hold)
 
