@@ -23,11 +23,11 @@ from posebridge.api.schemas.checks import (
 )
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import joints_si_from_request
-from posebridge.cell.arm_state import ArmState, arm_state
+from posebridge.cell.arm_state import arm_state
 from posebridge.cell.checks import check_targets
-from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
 from posebridge.cell.joint_log import JointLogTooLongError, parse_joint_log
-from posebridge.cell.reports import LogDiagnosis, PoseDiagnosis, TargetCheckReport
+from posebridge.cell.log_diagnosis import diagnose_log
+from posebridge.cell.pose_diagnosis import diagnose_pose
 from posebridge.planning.motion_export import (
     DEFAULT_PERIOD_MS,
     MIN_PERIOD_MS,
@@ -35,8 +35,11 @@ from posebridge.planning.motion_export import (
     motion_csv,
 )
 from posebridge.planning.path_check import check_path
-from posebridge.planning.reports import MotionExportReport, PathCheckReport, SequenceReport
 from posebridge.planning.sequence_report import optimise_path
+from posebridge.results.arm_state import ArmState, arm_state_result
+from posebridge.results.cell import LogDiagnosis, PoseDiagnosis, TargetCheckReport
+from posebridge.results.diagnosis import pose_diagnosis_result
+from posebridge.results.planning import MotionExportReport, PathCheckReport, SequenceReport
 
 __all__ = ["router"]
 
@@ -190,9 +193,9 @@ async def diagnose_joint_pose(
         scene = cells.read().scene
         if scene.external.count and len(body.joints_deg) == scene.robot.dof + scene.external.count:
             q, external = scene.split_joints([body.joints_deg], where="joints_deg")
-            return diagnose_pose(scene, q[0], external=external[0])
+            return pose_diagnosis_result(diagnose_pose(scene, q[0], external=external[0]))
         q = joints_si_from_request(scene.robot, [body.joints_deg])
-        return diagnose_pose(scene, q[0])
+        return pose_diagnosis_result(diagnose_pose(scene, q[0]))
 
     return await compute_for(request, work)
 
@@ -211,7 +214,7 @@ async def read_arm_state(body: PoseDiagnosisRequest, cells: CellsDep, request: R
     def work() -> ArmState:
         scene = cells.read().scene
         q = joints_si_from_request(scene.robot, [body.joints_deg])
-        return arm_state(scene, q[0])
+        return arm_state_result(arm_state(scene, q[0]))
 
     return await compute_for(request, work)
 
