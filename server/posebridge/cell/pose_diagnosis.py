@@ -65,14 +65,15 @@ class NearTargets:
         ``"target"`` or ``"approach"`` per entry.
     distance_m : array, shape (K,)
         TCP position distance.
-    angle_rad : array, shape (K,)
-        Rotation angle between the two orientations.
+    rotation_rad : array, shape (K, 3)
+        Rotation vector from the target's orientation to the TCP's (its length is the
+        angle between the two).
     """
 
     names: list[str]
     kinds: list[str]
     distance_m: FloatArray
-    angle_rad: FloatArray
+    rotation_rad: FloatArray
 
 
 @dataclass(frozen=True)
@@ -142,16 +143,16 @@ def _nearest_targets(scene: Scene, T_world_tool: FloatArray) -> NearTargets:
     names = list(targets.names) + [n for n, a in zip(targets.names, has_approach, strict=True) if a]
     kinds = ["target"] * len(targets.names) + ["approach"] * int(has_approach.sum())
     if not names:
-        return NearTargets([], [], np.zeros(0), np.zeros(0))
+        return NearTargets([], [], np.zeros(0), np.zeros((0, 3)))
     distance = np.linalg.norm(poses[:, :3, 3] - T_world_tool[:3, 3], axis=1)
     relative = np.swapaxes(poses[:, :3, :3], 1, 2) @ T_world_tool[:3, :3]
-    angle = np.linalg.norm(rotation_vector_from_rotation_matrix(relative), axis=1)
+    rotation = rotation_vector_from_rotation_matrix(relative)
     order = np.argsort(distance, kind="stable")[:NEAREST_TARGETS]
     return NearTargets(
         names=[names[i] for i in order],
         kinds=[kinds[i] for i in order],
         distance_m=distance[order],
-        angle_rad=angle[order],
+        rotation_rad=rotation[order],
     )
 
 

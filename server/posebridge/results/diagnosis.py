@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from posebridge.cell.pose_diagnosis import PoseDiagnosisData, overall_pair
 from posebridge.cell.quality import full_branch_words, revolution_counts
 from posebridge.cell.scene import Scene
@@ -127,10 +129,14 @@ def pose_diagnosis_result(data: PoseDiagnosisData) -> PoseDiagnosis:
             name=name,
             pose=kind,  # type: ignore[arg-type]  # target or approach
             distance_mm=float(mm_from_m(distance)),
-            angle_deg=float(deg_from_rad(angle)),
+            angle_deg=float(angle),
         )
         for name, kind, distance, angle in zip(
-            near.names, near.kinds, near.distance_m, near.angle_rad, strict=True
+            near.names,
+            near.kinds,
+            near.distance_m,
+            np.linalg.norm(deg_from_rad(near.rotation_rad), axis=1),
+            strict=True,
         )
     ]
     findings = quality_findings(quality, 0)
