@@ -2,10 +2,10 @@
 // joint limit, a clearance or a singularity distance is, and the words for
 // it. Every view and panel that colours the arm's state asks this module.
 // Thresholds come from the cell file's `thresholds` (the same set the
-// server's checks use, cell/reports.py QualityThresholds); while a cell has
+// server's checks use, cell/thresholds.py QualityThresholds); while a cell has
 // none, the documented defaults below apply.
 
-/** Documented defaults of QualityThresholds (server/posebridge/cell/reports.py). */
+/** Documented defaults of QualityThresholds (server/posebridge/cell/thresholds.py). */
 export const DEFAULT_THRESHOLDS = Object.freeze({
   limit_margin_deg: 5.0,
   limit_margin_mm: 10.0,

@@ -19,8 +19,8 @@ import pytest
 from posebridge.api.routes import checks as checks_routes
 from posebridge.api.schemas.checks import MAX_LOG_ROWS, MAX_PLACEMENT_CANDIDATES
 from posebridge.cell import load_cell, resolve_scene
-from posebridge.cell.diagnosis import diagnose_log
 from posebridge.cell.joint_log import read_joint_log
+from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.resources import data_folder
 
 pytestmark = pytest.mark.anyio

@@ -43,6 +43,9 @@ schema = schemathesis.openapi.from_asgi(
             warm_up=False, cell_path=_CELL, robot_paths_allowed=False, host_names=("testserver",)
         )
     ),
+    # reading the document can outlast the library's 10 s default on 2 busy cores; this cap
+    # only ends a hung load
+    timeout=300,
 )
 schema.config.generation.update(
     modes=[GenerationMode.POSITIVE, GenerationMode.NEGATIVE], deterministic=True

@@ -1,7 +1,7 @@
 """The checks on the page: log diagnosis, base placement, fixing a branch-inconsistent target.
 
 Expected values come from the Python API run in the test on the same cell
-file the server reads (posebridge.cell.diagnosis, posebridge.cell.checks,
+file the server reads (posebridge.cell.log_diagnosis, posebridge.cell.checks,
 tested in tests/cell), and from the files themselves (the demo log's rows).
 """
 
@@ -19,8 +19,8 @@ import pytest
 from posebridge.bench.browser import figure_pixel, plan_marker_position
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.checks import check_targets
-from posebridge.cell.diagnosis import diagnose_log
 from posebridge.cell.joint_log import read_joint_log
+from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.cell.model import validate_cell
 from posebridge.resources import data_folder
 

@@ -1,7 +1,7 @@
 """The page as a workbench: the arm's state in every view and in words, one screen.
 
 Expected values: the joint limits of robots/pb-arm6.toml read with tomllib (closed-form
-excess), the pose diagnosis of posebridge.cell.diagnosis run in the test on the same cell
+excess), the pose diagnosis of posebridge.cell.pose_diagnosis run in the test on the same cell
 file (tested against python-fcl in tests/cell), the issue's target screen (1600 x 1000).
 """
 
@@ -14,8 +14,9 @@ from typing import Any
 import numpy as np
 
 from posebridge.cell import load_cell, resolve_scene
-from posebridge.cell.diagnosis import diagnose_pose
+from posebridge.cell.pose_diagnosis import diagnose_pose
 from posebridge.resources import data_folder
+from posebridge.results.diagnosis import pose_diagnosis_result
 
 STATE = "() => window.posebridge.getState()"
 ROBOTS = data_folder("robots")
@@ -81,7 +82,7 @@ def test_collision_named_with_depth(open_page: Any, cell_path: Path, artifacts: 
     page.wait_for_function(_ARM_DRAWN, arg="bad", timeout=30_000)
     joints = page.evaluate(STATE)["joints"]
     scene = resolve_scene(load_cell(cell_path))
-    expected = diagnose_pose(scene, np.radians(joints))
+    expected = pose_diagnosis_result(diagnose_pose(scene, np.radians(joints)))
     pair = expected.closest_environment
     assert pair is not None
     assert pair.distance_mm < 0
@@ -218,7 +219,7 @@ def test_pose_check_other_branches_table(open_page: Any, cell_path: Path) -> Non
     page.click("#pose-check")
     page.wait_for_function("() => window.posebridge.getState().poseCheck", timeout=30_000)
     scene = resolve_scene(load_cell(cell_path))
-    expected = diagnose_pose(scene, np.radians(joints))
+    expected = pose_diagnosis_result(diagnose_pose(scene, np.radians(joints)))
     assert expected.input_branch is not None
     own = expected.branches[expected.input_branch].branch
     rows = page.locator("#pose-other-branches tr")

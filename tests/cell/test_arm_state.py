@@ -15,8 +15,9 @@ import numpy as np
 import pytest
 
 from posebridge.cell.arm_state import arm_state
-from posebridge.cell.reports import QualityThresholds
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.resources import data_folder
+from posebridge.results.arm_state import arm_state_result
 
 ROBOTS = data_folder("robots")
 FCL_TOLERANCE_MM = 0.6  # python-fcl overestimates capsule distances by up to 0.5 mm
@@ -37,7 +38,7 @@ def test_limit_excess_in_degrees(demo_scene) -> None:
     q = np.zeros(6)
     q[0] = upper + 6.0
     q[4] = 30.0
-    state = arm_state(demo_scene, np.radians(q))
+    state = arm_state_result(arm_state(demo_scene, np.radians(q)))
     # closed form: 6 deg beyond the upper limit of j1 is a margin of -6 deg
     assert state.limits[0].margin == pytest.approx(-6.0, abs=1e-9)
     assert state.limits[0].nearer_limit == "upper"
@@ -48,7 +49,7 @@ def test_limit_excess_in_degrees(demo_scene) -> None:
 
 def test_contacts_match_python_fcl(demo_scene, fcl_cell, log_row_90) -> None:
     q = np.radians(log_row_90)
-    state = arm_state(demo_scene, q)
+    state = arm_state_result(arm_state(demo_scene, q))
     threshold = QualityThresholds().clearance_mm
     table = fcl_cell.obstacle_distances(q)
     per_object: dict[str, tuple[float, str]] = {}

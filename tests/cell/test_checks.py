@@ -23,13 +23,14 @@ from scipy.optimize import least_squares
 
 from posebridge.cell.checks import REASON_ALL_COLLIDE, REASON_REQUIRED_BRANCH, check_targets
 from posebridge.cell.model import validate_cell
-from posebridge.cell.report_text import render_target_check
-from posebridge.cell.reports import QualityThresholds, TargetCheckReport
 from posebridge.cell.scene import resolve_scene
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS, REASON_OUT_OF_REACH
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
+from posebridge.results.cell import TargetCheckReport
+from posebridge.results.cell_text import render_target_check
 
 ROBOTS = data_folder("robots")
 RAW = json.loads((ROBOTS / "demo-cell.json").read_text())

@@ -26,15 +26,16 @@ from posebridge.bench.demo_meshes import (
 )
 from posebridge.bench.meshes import housing_boxes
 from posebridge.cell.checks import check_targets
-from posebridge.cell.diagnosis import diagnose_pose
 from posebridge.cell.files import load_cell
 from posebridge.cell.mesh_fixtures import MeshFixtureLoader
 from posebridge.cell.model import validate_cell
+from posebridge.cell.pose_diagnosis import diagnose_pose
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.planning.path_check import check_path
 from posebridge.planning.placement import PlacementGrid, search_base_placement
 from posebridge.planning.rrt import plan_joint_move
 from posebridge.resources import data_folder
+from posebridge.results.diagnosis import pose_diagnosis_result
 
 CELL = data_folder("robots") / "demo-machine-cell.json"
 
@@ -125,7 +126,7 @@ def test_diagnosis_names_the_mesh_fixture_and_its_closest_point(scene: Scene) ->
     check = check_targets(scene)
     machine = check.targets[[t.name for t in check.targets].index("machine-table")]
     q = np.radians(machine.target.branches[machine.target.recommended].joints_deg)
-    diagnosis = diagnose_pose(scene, q)
+    diagnosis = pose_diagnosis_result(diagnose_pose(scene, q))
     closest = diagnosis.closest_environment
     assert closest is not None
     assert closest.other == "machine"

@@ -18,12 +18,14 @@ import pinocchio as pin
 import pytest
 from scipy.spatial.transform import Rotation
 
-from posebridge.cell.diagnosis import WORST_ROW_RULE, diagnose_log, diagnose_pose
 from posebridge.cell.joint_log import parse_joint_log, read_joint_log
-from posebridge.cell.report_text import render_log_diagnosis, render_pose_diagnosis
-from posebridge.cell.reports import LogDiagnosis, PoseDiagnosis
+from posebridge.cell.log_diagnosis import WORST_ROW_RULE, diagnose_log
+from posebridge.cell.pose_diagnosis import diagnose_pose
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.resources import data_folder
+from posebridge.results.cell import LogDiagnosis, PoseDiagnosis
+from posebridge.results.cell_text import render_log_diagnosis, render_pose_diagnosis
+from posebridge.results.diagnosis import pose_diagnosis_result
 
 ROBOTS = data_folder("robots")
 DEMO_LOG = ROBOTS / "demo-log.csv"
@@ -242,7 +244,9 @@ def test_log_report_round_trips_and_renders(diagnosis) -> None:
 
 @pytest.fixture(scope="module")
 def gauge_pose(demo_scene, documented_joints) -> PoseDiagnosis:
-    return diagnose_pose(demo_scene, np.radians(documented_joints["gauge-probe"]))
+    return pose_diagnosis_result(
+        diagnose_pose(demo_scene, np.radians(documented_joints["gauge-probe"]))
+    )
 
 
 def test_pose_frames_match_pinocchio_and_scipy(
@@ -314,7 +318,7 @@ def test_pose_closest_objects_match_python_fcl(gauge_pose, fcl_cell, documented_
 def test_pose_input_shapes(demo_scene) -> None:
     with pytest.raises(KinematicsInputError, match="expected one configuration of 6 values"):
         diagnose_pose(demo_scene, np.zeros((2, 6)))
-    text = render_pose_diagnosis(diagnose_pose(demo_scene, np.zeros(6)))
+    text = render_pose_diagnosis(pose_diagnosis_result(diagnose_pose(demo_scene, np.zeros(6))))
     assert "TCP in world" in text
     assert "* " in text
 

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from posebridge.cell.diagnosis import diagnose_log
 from posebridge.cell.files import load_cell
 from posebridge.cell.joint_log import JointLogError, parse_joint_log
+from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.resources import data_folder
 

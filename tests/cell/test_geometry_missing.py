@@ -9,17 +9,18 @@ import json
 
 import pytest
 
-from posebridge.api.schemas.maps import joint_map_result
-from posebridge.api.schemas.robots import robot_description_result
 from posebridge.cell.checks import check_targets
 from posebridge.cell.clearance import clearance_scene
-from posebridge.cell.diagnosis import diagnose_pose
 from posebridge.cell.files import load_cell
+from posebridge.cell.pose_diagnosis import diagnose_pose
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.planning.path_check import check_path
-from posebridge.planning.reports import render_joint_plan, render_path_check
 from posebridge.planning.rrt import plan_joint_move
 from posebridge.resources import data_folder
+from posebridge.results.diagnosis import pose_diagnosis_result
+from posebridge.results.planning_text import render_joint_plan, render_path_check
+from posebridge.results.robots import robot_description_result
+from posebridge.results.spaces import joint_map_result
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import GEOMETRY_MISSING
 from posebridge.robot.urdf_export import urdf_from_robot
@@ -46,7 +47,7 @@ def test_every_clearance_answer_flags_missing_geometry(bare_scene: Scene) -> Non
     assert any(
         f.code == "robot-geometry-missing" and f.severity == "warning" for f in check.findings
     )
-    pose = diagnose_pose(bare_scene, robot.home_configuration())
+    pose = pose_diagnosis_result(diagnose_pose(bare_scene, robot.home_configuration()))
     assert pose.robot_geometry_missing == GEOMETRY_MISSING
     assert any(f.code == "robot-geometry-missing" for f in pose.findings)
     path = check_path(bare_scene, 0)

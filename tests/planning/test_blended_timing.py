@@ -24,8 +24,8 @@ from posebridge.planning.blended_timing import (
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
-from posebridge.planning.reports import render_path_check
 from posebridge.resources import data_folder
+from posebridge.results.planning_text import render_path_check
 
 UNIT_RAD_DEG = math.degrees(1.0)
 

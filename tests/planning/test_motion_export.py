@@ -7,9 +7,9 @@ import json
 import numpy as np
 import pytest
 
-from posebridge.cell.diagnosis import diagnose_log
 from posebridge.cell.files import load_cell
 from posebridge.cell.joint_log import parse_joint_log
+from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.motion_export import export_motion, motion_csv, motion_json

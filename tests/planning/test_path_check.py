@@ -12,15 +12,16 @@ from scipy.spatial.transform import Rotation
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
-from posebridge.cell.reports import QualityThresholds
 from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.geometry.clearance import capsule_segments_world
 from posebridge.kinematics.fk import fk_tool
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path, slerp
-from posebridge.planning.reports import PathCheckReport, PathFinding, render_path_check
 from posebridge.resources import data_folder
+from posebridge.results.planning import PathCheckReport, PathFinding
+from posebridge.results.planning_text import render_path_check
 from posebridge.robot.library import load_robot
 from posebridge.transforms import (
     quaternion_from_rotation_matrix,

@@ -28,8 +28,9 @@ from posebridge.planning.placement import (
     score_noise,
     search_base_placement,
 )
-from posebridge.planning.reports import PlacementReport, render_placement
 from posebridge.resources import data_folder
+from posebridge.results.planning import PlacementReport
+from posebridge.results.planning_text import render_placement
 
 L1, L2 = 0.4, 0.3  # pb-planar2r.toml link lengths, m
 J2_LIMIT = np.radians(150.0)  # pb-planar2r.toml: j2 within +-150 deg

@@ -18,9 +18,9 @@ from posebridge.geometry.clearance import capsule_segments_world
 from posebridge.geometry.shapes import BOX, CYLINDER, FLOOR, ArmCapsules
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_sampling import sample_path
-from posebridge.planning.reports import render_joint_plan
 from posebridge.planning.rrt import edge_configurations, lever_arms, plan_joint_move
 from posebridge.resources import data_folder
+from posebridge.results.planning_text import render_joint_plan
 from posebridge.robot.library import load_robot
 
 START = np.radians([60.0, 30.0, 10.0, 0.0, 20.0, 0.0])

@@ -9,9 +9,10 @@ from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
-from posebridge.planning.reports import WaypointJoints, render_sequence
 from posebridge.planning.sequence_report import optimise_path, with_waypoint_joints
 from posebridge.resources import data_folder
+from posebridge.results.planning import WaypointJoints
+from posebridge.results.planning_text import render_sequence
 
 DEMO = data_folder("robots") / "demo-cell.json"
 

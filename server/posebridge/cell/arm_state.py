@@ -7,7 +7,7 @@ closer than the clearance warning threshold with the arm capsule involved
 and the signed distance (negative is the penetration depth), and the
 distances to the three singularities. It states numbers only; the page's one
 severity policy (``static/severity.js``) turns them into levels and words
-with the same thresholds (:class:`~posebridge.cell.reports.QualityThresholds`)
+with the same thresholds (:class:`~posebridge.cell.thresholds.QualityThresholds`)
 the checks use, which are part of the answer.
 
 Contacts per obstacle: the per-obstacle minimum of
@@ -20,65 +20,61 @@ named is the one closest to that obstacle).
 from __future__ import annotations
 
 import dataclasses
+from dataclasses import dataclass
 
 import numpy as np
 import numpy.typing as npt
-from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.cell.clearance import clearance_scene, obstacle_kinds, obstacle_names
 from posebridge.cell.quality import (
+    ConfigurationQuality,
     evaluate_configurations,
-    full_branch_words,
-    joint_margins_model,
-    revolution_counts,
-    singularity_model,
-)
-from posebridge.cell.reports import (
-    JointMargin,
-    PartKind,
-    QualityThresholds,
-    SingularityProximity,
 )
 from posebridge.cell.scene import Scene
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.geometry.clearance import clearance_batch, clearance_per_obstacle_batch
 from posebridge.kinematics.fk import KinematicsInputError, check_configurations
-from posebridge.units import joint_unit_labels, joints_user_from_si, m_from_mm, mm_from_m
+from posebridge.units import m_from_mm
 
-__all__ = ["ArmContact", "ArmState", "arm_state"]
-
-
-class _Result(BaseModel):
-    model_config = ConfigDict(extra="forbid")
+__all__ = ["ArmContact", "ArmStateData", "arm_state"]
 
 
-class ArmContact(_Result):
-    """One arm capsule closer than the clearance threshold to an obstacle or another capsule."""
+@dataclass(frozen=True)
+class ArmContact:
+    """One arm capsule closer than the clearance threshold to an obstacle or another capsule.
 
-    capsule: str = Field(description="Arm or tool capsule.")
-    other: str = Field(description="Obstacle name, or the second capsule for a self pair.")
-    other_kind: PartKind
-    distance_mm: float = Field(description="Signed distance; negative is the penetration depth.")
+    Attributes
+    ----------
+    capsule : str
+        Arm or tool capsule.
+    other : str
+        Obstacle name, or the second capsule for a self pair.
+    other_kind : str
+        ``"fixture"``, ``"keep-out"``, ``"pedestal"``, ``"floor"`` or ``"self"``.
+    distance_m : float
+        Signed distance; negative is the penetration depth.
+    """
+
+    capsule: str
+    other: str
+    other_kind: str
+    distance_m: float
 
 
-class ArmState(_Result):
-    """The arm's state at one joint configuration in the cell (numbers; the page words them)."""
+@dataclass(frozen=True, eq=False)
+class ArmStateData:
+    """The arm's state at one configuration (module docstring), SI units.
 
-    joint_names: list[str]
-    joint_units: list[str]
-    joints_deg: list[float] = Field(
-        description="Joint values: degrees for revolute joints, millimetres for prismatic joints."
-    )
-    branch: str
-    within_limits: bool
-    limits: list[JointMargin] = Field(description="Per joint: value, limits and signed margin.")
-    clearance_mm: float | None = Field(description="Smallest signed distance; null if none.")
-    collision_free: bool
-    contacts: list[ArmContact] = Field(
-        description="Every obstacle and the self pair closer than thresholds.clearance_mm, "
-        "nearest first."
-    )
-    singularity: SingularityProximity | None = Field(description="null for non-arm robots.")
-    thresholds: QualityThresholds
+    Attributes
+    ----------
+    quality : ConfigurationQuality
+        Of the configuration (N = 1).
+    contacts : list of ArmContact
+        Every obstacle and the self pair closer than the clearance threshold, nearest first.
+    """
+
+    quality: ConfigurationQuality
+    contacts: list[ArmContact]
 
 
 def _single(scene: Scene, q: npt.ArrayLike) -> npt.NDArray[np.float64]:
@@ -95,7 +91,7 @@ def _single(scene: Scene, q: npt.ArrayLike) -> npt.NDArray[np.float64]:
 
 def arm_state(
     scene: Scene, q: npt.ArrayLike, thresholds: QualityThresholds | None = None
-) -> ArmState:
+) -> ArmStateData:
     """Limits, contacts and singularity distances of one configuration (module docstring).
 
     Parameters
@@ -104,14 +100,13 @@ def arm_state(
     q : array-like, shape (n,) or (1, n)
         Joint values, rad or m.
     thresholds : QualityThresholds, optional
-        Defaults of :class:`~posebridge.cell.reports.QualityThresholds`.
+        Defaults of :class:`~posebridge.cell.thresholds.QualityThresholds`.
 
     Returns
     -------
-    ArmState
-        Boundary units (mm, deg).
+    ArmStateData
+        SI units; :func:`posebridge.results.arm_state.arm_state_result` makes the answer.
     """
-    robot = scene.robot
     q = _single(scene, q)
     quality = evaluate_configurations(scene, q, thresholds)
     limit_m = float(m_from_mm(quality.thresholds.clearance_mm))
@@ -133,7 +128,7 @@ def arm_state(
                 capsule=capsule_names[int(closest.capsule[0])],
                 other=names[o],
                 other_kind=kinds[o],
-                distance_mm=float(mm_from_m(per_obstacle.distance[0, o])),
+                distance_m=float(per_obstacle.distance[0, o]),
             )
         )
     self_clearance = quality.self_clearance
@@ -144,21 +139,8 @@ def arm_state(
                 capsule=capsule,
                 other=other,
                 other_kind="self",
-                distance_mm=float(mm_from_m(self_clearance.distance[0])),
+                distance_m=float(self_clearance.distance[0]),
             )
         )
-    contacts.sort(key=lambda contact: contact.distance_mm)
-    clearance = float(mm_from_m(quality.clearance[0]))
-    return ArmState(
-        joint_names=list(robot.joint_names),
-        joint_units=joint_unit_labels(robot.prismatic),
-        joints_deg=joints_user_from_si(q[0], robot.prismatic).tolist(),
-        branch=full_branch_words(quality, 0, revolution_counts(robot, q)[0]),
-        within_limits=bool(quality.within_limits[0]),
-        limits=joint_margins_model(quality, 0),
-        clearance_mm=clearance if np.isfinite(clearance) else None,
-        collision_free=bool(quality.collision_free[0]),
-        contacts=contacts,
-        singularity=singularity_model(quality, 0),
-        thresholds=quality.thresholds,
-    )
+    contacts.sort(key=lambda contact: contact.distance_m)
+    return ArmStateData(quality=quality, contacts=contacts)

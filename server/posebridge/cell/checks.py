@@ -39,10 +39,10 @@ With external axes (track, turntables) every target is checked at the values
 of :func:`~posebridge.cell.external_kinematics.choose_external_value` (pinned
 ones kept), and its report gives those values and the feasible intervals.
 
-Findings (:class:`~posebridge.cell.reports.Finding`) are errors (a target or
+Findings (:class:`~posebridge.results.cell.Finding`) are errors (a target or
 approach pose not reachable, a joint outside its limits, a collision),
 warnings (limit margin, clearance, singularity below the thresholds of
-:class:`~posebridge.cell.reports.QualityThresholds` on the recommended
+:class:`~posebridge.cell.thresholds.QualityThresholds` on the recommended
 solution and on the cell's common branch; an approach pose off the target's
 branch; no consistent branch) and info (a target reachable on one
 shoulder/elbow pair only; the consistent branch).
@@ -60,33 +60,35 @@ from posebridge.cell.model import Branch
 from posebridge.cell.quality import (
     SCORE_RULE,
     ConfigurationQuality,
-    branch_report,
     branch_score,
     branch_score_terms,
     branch_words,
     evaluate_configurations,
     full_branch_words,
-    geometry_findings,
     part_word,
-    quality_findings,
 )
-from posebridge.cell.reports import (
+from posebridge.cell.scene import Scene, TargetSet, posed_scene
+from posebridge.cell.target_fixture import target_fixture_distances
+from posebridge.cell.thresholds import QualityThresholds
+from posebridge.kinematics.branches import BRANCH_LABELS, branch_geometry, labels_match
+from posebridge.kinematics.ik import solve_ik_all
+from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
+from posebridge.results.cell import (
     BranchCoverage,
     ConsistentBranch,
     ExternalAxisIntervals,
     Finding,
     PoseCheck,
     PoseKind,
-    QualityThresholds,
     TargetCheck,
     TargetCheckReport,
     group_findings,
 )
-from posebridge.cell.scene import Scene, TargetSet, posed_scene
-from posebridge.cell.target_fixture import target_fixture_distances
-from posebridge.kinematics.branches import BRANCH_LABELS, branch_geometry, labels_match
-from posebridge.kinematics.ik import solve_ik_all
-from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
+from posebridge.results.quality import (
+    branch_report,
+    geometry_findings,
+    quality_findings,
+)
 from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
 from posebridge.units import BoolArray, deg_from_rad, joint_unit_labels, mm_from_m
 

@@ -47,8 +47,8 @@ import numpy.typing as npt
 
 from posebridge.cell.model import Branch
 from posebridge.cell.quality import branch_score, evaluate_configurations
-from posebridge.cell.reports import QualityThresholds
 from posebridge.cell.scene import Scene, posed_scene
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.kinematics.branches import branch_geometry
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import solve_ik_all

@@ -49,7 +49,7 @@ from posebridge.cell.model import (
     json_type_name,
     validate_cell,
 )
-from posebridge.cell.reports import QualityThresholds
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.messages import printable
 
 __all__ = [

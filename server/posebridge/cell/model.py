@@ -58,7 +58,7 @@ from pydantic import (
 )
 from pydantic_core import PydanticCustomError
 
-from posebridge.cell.reports import QualityThresholds
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.errors import InputError
 
 __all__ = [

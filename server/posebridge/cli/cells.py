@@ -20,9 +20,9 @@ from posebridge.cli.options import SharedOptions, joints_or, options
 
 def _cmd_check(args: argparse.Namespace) -> int:
     from posebridge.cell.checks import check_targets
-    from posebridge.cell.report_text import render_target_check
     from posebridge.geometry.warm import warm_geometry
     from posebridge.kinematics.warm import warm_kinematics
+    from posebridge.results.cell_text import render_target_check
 
     scene = load_scene(args.cell, quiet=args.quiet)
     load_kernels(
@@ -37,9 +37,11 @@ def _cmd_check(args: argparse.Namespace) -> int:
 
 
 def _cmd_diagnose(args: argparse.Namespace) -> int:
-    from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
     from posebridge.cell.joint_log import read_joint_log
-    from posebridge.cell.report_text import render_log_diagnosis, render_pose_diagnosis
+    from posebridge.cell.log_diagnosis import diagnose_log
+    from posebridge.cell.pose_diagnosis import diagnose_pose
+    from posebridge.results.cell_text import render_log_diagnosis, render_pose_diagnosis
+    from posebridge.results.diagnosis import pose_diagnosis_result
 
     scene = load_scene(args.cell, quiet=args.quiet)
     robot = scene.robot
@@ -48,10 +50,12 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
         log_result = diagnose_log(scene, log, include_rows=args.json)
         return print_results(log_result, render_log_diagnosis, as_json=args.json)
     if scene.external.count == 0:
-        pose_result = diagnose_pose(scene, joints_argument(args.joints, "--joints", robot))
+        pose_result = pose_diagnosis_result(
+            diagnose_pose(scene, joints_argument(args.joints, "--joints", robot))
+        )
     else:  # robot joints, optionally followed by the track (mm) and turntables (deg)
         q, external = scene.split_joints([parse_numbers(args.joints, "--joints")], where="--joints")
-        pose_result = diagnose_pose(scene, q[0], external=external[0])
+        pose_result = pose_diagnosis_result(diagnose_pose(scene, q[0], external=external[0]))
     return print_results(pose_result, render_pose_diagnosis, as_json=args.json)
 
 

@@ -67,8 +67,8 @@ def _path_index(scene: Any, name: str) -> int:
 
 
 def _cmd_optimise(args: argparse.Namespace, scene: Any, chosen: list[int]) -> int:
-    from posebridge.planning.reports import render_sequence
     from posebridge.planning.sequence_report import optimise_path
+    from posebridge.results.planning_text import render_sequence
 
     reports = [
         optimise_path(
@@ -87,7 +87,7 @@ def _cmd_optimise(args: argparse.Namespace, scene: Any, chosen: list[int]) -> in
 
 def _cmd_paths(args: argparse.Namespace) -> int:
     from posebridge.planning.path_check import check_path
-    from posebridge.planning.reports import render_path_check
+    from posebridge.results.planning_text import render_path_check
 
     scene = load_scene(args.cell, quiet=args.quiet)
     if args.path is not None:
@@ -137,8 +137,8 @@ def _cmd_export(args: argparse.Namespace) -> int:
 
 
 def _cmd_plan(args: argparse.Namespace) -> int:
-    from posebridge.planning.reports import render_joint_plan
     from posebridge.planning.rrt import plan_joint_move
+    from posebridge.results.planning_text import render_joint_plan
 
     scene = load_scene(args.cell, quiet=args.quiet)
     robot = scene.robot
@@ -156,7 +156,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
 def _cmd_place(args: argparse.Namespace) -> int:
     from posebridge.geometry.warm import warm_geometry
     from posebridge.planning.placement import PlacementGrid, search_base_placement
-    from posebridge.planning.reports import render_placement
+    from posebridge.results.planning_text import render_placement
     from posebridge.units import deg_from_rad, mm_from_m
 
     scene = load_scene(args.cell, quiet=args.quiet)

@@ -53,7 +53,7 @@ def _cmd_robots(args: argparse.Namespace) -> int:
 
 
 def _cmd_fk(args: argparse.Namespace) -> int:
-    from posebridge.api.schemas.kinematics import fk_result
+    from posebridge.results.kinematics import fk_result
 
     robot = load_robot_argument(args)
     if args.joints_file:
@@ -93,8 +93,8 @@ def _cmd_fk(args: argparse.Namespace) -> int:
 
 
 def _cmd_ik(args: argparse.Namespace) -> int:
-    from posebridge.api.schemas.kinematics import ik_result
     from posebridge.kinematics.ik import solve_ik_all
+    from posebridge.results.kinematics import ik_result
     from posebridge.transforms import transform_from_position_rpy
     from posebridge.units import m_from_mm
 
@@ -148,7 +148,7 @@ def _cmd_ik(args: argparse.Namespace) -> int:
 
 
 def _cmd_describe(args: argparse.Namespace) -> int:
-    from posebridge.api.schemas.robots import render_robot_import, robot_import_report
+    from posebridge.results.robots import render_robot_import, robot_import_report
 
     report = robot_import_report(load_robot_argument(args), args.robot)
     return print_results(report, render_robot_import, as_json=args.json, failed=never_fails)

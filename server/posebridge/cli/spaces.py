@@ -81,11 +81,11 @@ def _cmd_reach(args: argparse.Namespace) -> int:
 
 
 def _cmd_jointmap(args: argparse.Namespace) -> int:
-    from posebridge.api.schemas.maps import joint_map_result
     from posebridge.cell.clearance import clearance_scene
     from posebridge.cell.files import cell_etag
     from posebridge.geometry.warm import warm_geometry
     from posebridge.kinematics.warm import warm_kinematics
+    from posebridge.results.spaces import joint_map_result
     from posebridge.spaces.joint_map import joint_map
     from posebridge.units import joint_unit_labels
 

@@ -46,7 +46,7 @@ from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.metrics import limit_margins
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_sampling import path_of, sample_path, waypoint_label
-from posebridge.planning.reports import (
+from posebridge.results.planning import (
     MotionExportHeader,
     MotionExportReport,
     MotionExportWaypoint,

@@ -34,7 +34,7 @@ All reached samples of all segments are then checked in batches:
   ``clearance_mm`` a warning.
 
 The thresholds are the cell's (``Cell.thresholds``,
-:class:`~posebridge.cell.reports.QualityThresholds`), the one set every
+:class:`~posebridge.cell.thresholds.QualityThresholds`), the one set every
 check of the cell uses, so a point the target check warns about is a
 warning here too.
 
@@ -54,8 +54,8 @@ import numpy as np
 
 from posebridge.cell.clearance import CellClearance, clearance_along, clearance_to_cell
 from posebridge.cell.quality import margin_thresholds, singularity_thresholds
-from posebridge.cell.reports import QualityThresholds
 from posebridge.cell.scene import ResolvedPath, Scene
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.kinematics.fk import KinematicsInputError
 from posebridge.kinematics.metrics import limit_margins
 from posebridge.kinematics.singularity import (
@@ -72,7 +72,8 @@ from posebridge.planning.cycle_time import (
 )
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_sampling import SampledPath, SegmentSamples, sample_path
-from posebridge.planning.reports import (
+from posebridge.planning.time_scaling import path_speed_limit
+from posebridge.results.planning import (
     FindingKind,
     PathCheckReport,
     PathFinding,
@@ -82,7 +83,6 @@ from posebridge.planning.reports import (
     group_path_findings,
     path_finding_cause,
 )
-from posebridge.planning.time_scaling import path_speed_limit
 from posebridge.units import (
     BoolArray,
     FloatArray,

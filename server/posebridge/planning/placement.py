@@ -116,13 +116,13 @@ from posebridge.planning.cycle_time import (
 )
 from posebridge.planning.errors import PlanningInputError, check_non_negative
 from posebridge.planning.path_sampling import branch_requirement
-from posebridge.planning.reports import (
+from posebridge.planning.time_scaling import trapezoidal_profile
+from posebridge.results.planning import (
     PlacementCandidateReport,
     PlacementGridReport,
     PlacementReport,
     TargetPlacementReport,
 )
-from posebridge.planning.time_scaling import trapezoidal_profile
 from posebridge.transforms import (
     invert_transform,
     rotation_matrix_about_z,

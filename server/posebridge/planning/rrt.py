@@ -65,7 +65,7 @@ from posebridge.geometry.shapes import ArmCapsules
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_tool
 from posebridge.planning.errors import PlanningInputError, check_non_negative, check_positive
 from posebridge.planning.path_check import check_path
-from posebridge.planning.reports import JointPlanReport, PlanStatus
+from posebridge.results.planning import JointPlanReport, PlanStatus
 from posebridge.units import FloatArray, joints_user_from_si, m_from_mm, mm_from_m
 
 __all__ = [

@@ -3,7 +3,7 @@
 :func:`optimise_path` runs :func:`posebridge.planning.solution_sequence.optimise_sequence`
 (exact shortest path over the layered candidate graph, dynamic programming;
 method and references there) with limits given in millimetres and degrees, and
-turns the result into a :class:`~posebridge.planning.reports.SequenceReport`
+turns the result into a :class:`~posebridge.results.planning.SequenceReport`
 for the command line, the HTTP API and the page.
 
 **Edits that make the path follow the sequence.** The path check chooses each
@@ -31,14 +31,6 @@ from posebridge.cell.model import Cell, validate_cell
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_sampling import path_of, sample_path, waypoint_label
-from posebridge.planning.reports import (
-    SequenceCandidatesReport,
-    SequenceChoiceReport,
-    SequenceReport,
-    SequenceViolation,
-    SequenceWaypointReport,
-    WaypointJoints,
-)
 from posebridge.planning.solution_sequence import (
     CANDIDATE_REASONS,
     SequenceChoice,
@@ -46,6 +38,14 @@ from posebridge.planning.solution_sequence import (
     SequenceResult,
     Violation,
     optimise_sequence,
+)
+from posebridge.results.planning import (
+    SequenceCandidatesReport,
+    SequenceChoiceReport,
+    SequenceReport,
+    SequenceViolation,
+    SequenceWaypointReport,
+    WaypointJoints,
 )
 from posebridge.units import (
     FloatArray,

@@ -31,14 +31,14 @@ from markupsafe import Markup
 from posebridge.cell.checks import check_targets
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
-from posebridge.cell.reports import BranchReport, TargetCheck, TargetCheckReport
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.errors import InputError
 from posebridge.palette import PALETTE
 from posebridge.planning.path_check import check_path
-from posebridge.planning.reports import PathCheckReport, SegmentReport
 from posebridge.report.figures import TargetMarker, cartesian_figures, joint_map_figure
 from posebridge.resources import data_folder
+from posebridge.results.cell import BranchReport, TargetCheck, TargetCheckReport
+from posebridge.results.planning import PathCheckReport, SegmentReport
 from posebridge.review.comments import (
     Comment,
     CommentStorageError,

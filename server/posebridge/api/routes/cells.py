@@ -47,8 +47,8 @@ from posebridge.cell.files import CellConflictError, CellSaveError, SaveFailure
 from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, MeshFixture, Pose, Target
 from posebridge.cell.scene import Scene
 from posebridge.geometry.mesh_display import decimate_for_display, split_triangle_budget
-from posebridge.planning.reports import WaypointJoints
 from posebridge.planning.sequence_report import with_waypoint_joints
+from posebridge.results.planning import WaypointJoints
 from posebridge.transforms import (
     invert_transform,
     rotation_matrix_from_rpy,

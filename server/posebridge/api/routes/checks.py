@@ -24,11 +24,11 @@ from posebridge.api.schemas.checks import (
 )
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import joints_si_from_request
-from posebridge.cell.arm_state import ArmState, arm_state
+from posebridge.cell.arm_state import arm_state
 from posebridge.cell.checks import check_targets
-from posebridge.cell.diagnosis import diagnose_log, diagnose_pose
 from posebridge.cell.joint_log import JointLog, JointLogTooLongError, parse_joint_log
-from posebridge.cell.reports import LogDiagnosis, PoseDiagnosis, TargetCheckReport
+from posebridge.cell.log_diagnosis import diagnose_log
+from posebridge.cell.pose_diagnosis import diagnose_pose
 from posebridge.planning.motion_export import (
     DEFAULT_PERIOD_MS,
     MIN_PERIOD_MS,
@@ -36,8 +36,11 @@ from posebridge.planning.motion_export import (
     motion_csv,
 )
 from posebridge.planning.path_check import check_path
-from posebridge.planning.reports import MotionExportReport, PathCheckReport, SequenceReport
 from posebridge.planning.sequence_report import optimise_path
+from posebridge.results.arm_state import ArmState, arm_state_result
+from posebridge.results.cell import LogDiagnosis, PoseDiagnosis, TargetCheckReport
+from posebridge.results.diagnosis import pose_diagnosis_result
+from posebridge.results.planning import MotionExportReport, PathCheckReport, SequenceReport
 
 __all__ = ["router"]
 
@@ -224,15 +227,15 @@ def _diagnose_pose(context: ComputeContext, joints_deg: list[float]) -> PoseDiag
     scene = context.cell().scene
     if scene.external.count and len(joints_deg) == scene.robot.dof + scene.external.count:
         q, external = scene.split_joints([joints_deg], where="joints_deg")
-        return diagnose_pose(scene, q[0], external=external[0])
+        return pose_diagnosis_result(diagnose_pose(scene, q[0], external=external[0]))
     q = joints_si_from_request(scene.robot, [joints_deg])
-    return diagnose_pose(scene, q[0])
+    return pose_diagnosis_result(diagnose_pose(scene, q[0]))
 
 
 def _arm_state(context: ComputeContext, joints_deg: list[float]) -> ArmState:
     scene = context.cell().scene
     q = joints_si_from_request(scene.robot, [joints_deg])
-    return arm_state(scene, q[0])
+    return arm_state_result(arm_state(scene, q[0]))
 
 
 def _diagnose_log(context: ComputeContext, log: JointLog) -> LogDiagnosis:

@@ -10,17 +10,14 @@ from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.kinematics import (
     FkRequest,
-    FkResult,
     IkRequest,
-    IkResult,
     base_transform,
-    fk_result,
-    ik_result,
     joints_si_from_request,
     pose_transform,
     tool_transform,
 )
 from posebridge.kinematics.ik import solve_ik_all
+from posebridge.results.kinematics import FkResult, IkResult, fk_result, ik_result
 
 __all__ = ["forward", "inverse", "router"]
 

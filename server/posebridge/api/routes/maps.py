@@ -24,8 +24,10 @@ from posebridge.api.schemas.maps import (
     MAX_MAP_CELLS_3,
     MAX_SECTION_CELLS,
     JointMapRequest,
-    JointMapResult,
     ReachSectionRequest,
+)
+from posebridge.results.spaces import (
+    JointMapResult,
     ReachSectionResult,
     joint_map_result,
     reach_section_result,

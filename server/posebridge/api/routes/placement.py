@@ -16,7 +16,7 @@ from posebridge.api.schemas.checks import MAX_PLACEMENT_CANDIDATES, PlacementReq
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.jobs import JobStatus
 from posebridge.planning.placement import PlacementGrid, search_base_placement
-from posebridge.planning.reports import PlacementReport
+from posebridge.results.planning import PlacementReport
 
 __all__ = ["router"]
 

@@ -10,7 +10,9 @@ from posebridge.api.auth import ReviewRoleDep
 from posebridge.api.deps import RobotsDep, SettingsDep
 from posebridge.api.json_body import StrictJsonRoute
 from posebridge.api.schemas.errors import error_responses
-from posebridge.api.schemas.robots import (
+from posebridge.geometry.mesh_cache import MeshCache
+from posebridge.geometry.robot_meshes import robot_display_meshes
+from posebridge.results.robots import (
     RobotDescriptionResult,
     RobotImportReport,
     RobotList,
@@ -20,8 +22,6 @@ from posebridge.api.schemas.robots import (
     robot_meshes_result,
     robot_summary_from_bundled,
 )
-from posebridge.geometry.mesh_cache import MeshCache
-from posebridge.geometry.robot_meshes import robot_display_meshes
 from posebridge.robot.library import bundled_robots
 
 __all__ = ["router"]

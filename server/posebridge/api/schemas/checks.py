@@ -1,7 +1,7 @@
 """Requests of the cell checks: one pose, a controller log, base placement.
 
 The answers are the result models of the checks themselves
-(:mod:`posebridge.cell.reports` and :mod:`posebridge.planning.reports`),
+(:mod:`posebridge.results.cell` and :mod:`posebridge.results.planning`),
 shared with the command line.
 """
 

@@ -7,8 +7,8 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.api.jobs import Job
-from posebridge.api.schemas.maps import JointMapResult, ReachSectionResult
-from posebridge.planning.reports import PlacementReport
+from posebridge.results.planning import PlacementReport
+from posebridge.results.spaces import JointMapResult, ReachSectionResult
 
 __all__ = ["JobResult", "JobStatus", "job_status"]
 

@@ -1,6 +1,6 @@
 """Plain-text tables of the check results, for the command line's output without ``--json``.
 
-Each ``render_*`` function takes a result model of :mod:`posebridge.cell.reports`
+Each ``render_*`` function takes a result model of :mod:`posebridge.results.cell`
 and returns text (lines of at most about 120 characters, no colour, no
 trailing spaces), so the terminal output shows the same fields as the JSON.
 """
@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 
-from posebridge.cell.reports import (
+from posebridge.results.cell import (
     BranchReport,
     ClosestPair,
     Finding,

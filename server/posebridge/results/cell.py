@@ -3,12 +3,12 @@
 One family of pydantic models, shared by the command line (``posebridge
 check``, ``posebridge diagnose``; ``--json`` dumps them with
 ``model_dump(mode="json")``, the plain output renders them with
-:mod:`posebridge.cell.report_text`) and the HTTP API, so both print the same
+:mod:`posebridge.results.cell_text`) and the HTTP API, so both print the same
 fields:
 
 * :class:`TargetCheckReport` from :func:`posebridge.cell.checks.check_targets`;
-* :class:`PoseDiagnosis` from :func:`posebridge.cell.diagnosis.diagnose_pose`;
-* :class:`LogDiagnosis` from :func:`posebridge.cell.diagnosis.diagnose_log`.
+* :class:`PoseDiagnosis` from :func:`posebridge.cell.pose_diagnosis.diagnose_pose`;
+* :class:`LogDiagnosis` from :func:`posebridge.cell.log_diagnosis.diagnose_log`.
 
 Units are in the field names. Joint values, margins and speeds are degrees
 (deg/s) for revolute joints and millimetres (mm/s) for prismatic joints; the
@@ -25,6 +25,8 @@ import math
 from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
+
+from posebridge.cell.thresholds import QualityThresholds
 
 __all__ = [
     "MAX_LISTED_EVENTS",
@@ -45,7 +47,6 @@ __all__ = [
     "PoseCheck",
     "PoseDiagnosis",
     "PoseFrame",
-    "QualityThresholds",
     "RowStretch",
     "RowValue",
     "Severity",
@@ -85,69 +86,6 @@ _FULL_MANIPULABILITY = (
 
 class _Result(BaseModel):
     model_config = ConfigDict(extra="forbid")
-
-
-class QualityThresholds(_Result):
-    """The warning thresholds and score references of the checks.
-
-    They are parameters of the checks and part of every result.
-    """
-
-    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
-
-    # common practice, no source
-    limit_margin_deg: float = Field(
-        default=5.0, gt=0, description="Warn when a revolute joint is closer than this to a limit."
-    )
-    # common practice, no source
-    limit_margin_mm: float = Field(
-        default=10.0,
-        gt=0,
-        description="Warn when a prismatic joint is closer than this to a limit.",
-    )
-    # common practice, no source
-    clearance_mm: float = Field(
-        default=25.0, gt=0, description="Warn when the arm or tool is closer than this to anything."
-    )
-    # common practice, no source
-    wrist_deg: float = Field(
-        default=10.0, gt=0, description="Near the wrist singularity: wrist bend from straight."
-    )
-    # common practice, no source
-    elbow_deg: float = Field(
-        default=5.0, gt=0, description="Near the elbow singularity: elbow from stretched or folded."
-    )
-    # common practice, no source
-    shoulder_mm: float = Field(
-        default=50.0,
-        gt=0,
-        description="Near the shoulder singularity: wrist centre from the plane through axis 1 "
-        "parallel to axis 2.",
-    )
-    # common practice, no source
-    score_margin_fraction: float = Field(
-        default=0.10,
-        gt=0,
-        le=0.5,
-        description="Branch score: a limit margin of this fraction of the joint's range counts in full.",
-    )
-    # common practice, no source
-    score_clearance_mm: float = Field(
-        default=100.0, gt=0, description="Branch score: this clearance counts in full."
-    )
-    # common practice, no source
-    score_singularity_ratio: float = Field(
-        default=3.0,
-        ge=1,
-        description="Branch score: this multiple of the singularity thresholds counts in full.",
-    )
-    # common practice, no source: a drop or pick point sits within a hand's width of its part
-    fixture_distance_mm: float = Field(
-        default=200.0,
-        gt=0,
-        description="Target check: warn when a target's TCP point is farther than this from "
-        "the solid of the fixture it belongs to (moved off its fixture).",
-    )
 
 
 class ClosestPair(_Result):

@@ -1,12 +1,6 @@
-"""Diagnosis of joint values in a cell: one configuration, or a whole controller log.
+"""Diagnosis of a controller joint log in a cell.
 
-:func:`diagnose_pose` answers "where was the robot and what was it close
-to?" for one configuration: TCP pose in the world and the base frame, branch,
-limit margins, manipulability, singularity distances, clearance with the
-closest obstacles named, the nearest targets, and every other IK solution of
-the same TCP pose (with the input's own solution marked).
-
-:func:`diagnose_log` does the same for every row of a
+:func:`diagnose_log` diagnoses every row of a
 :class:`~posebridge.cell.joint_log.JointLog` at once
 (:func:`~posebridge.cell.quality.evaluate_configurations` runs on the whole
 batch) and then looks along the rows: each joint's smallest margin, the
@@ -14,7 +8,8 @@ minimum clearance and manipulability, the closest approach to a singularity,
 stretches of rows in a condition (collision, low clearance, outside limits,
 low limit margin, near a singularity), branch changes between consecutive rows
 and joint changes faster than the velocity limits (needs ``time_s``). The
-single **worst row** follows :data:`WORST_ROW_RULE`. In a cell with external
+single **worst row** follows :data:`WORST_ROW_RULE` and is diagnosed in full by
+:func:`posebridge.cell.pose_diagnosis.diagnose_pose`. In a cell with external
 axes every row is posed at the log's values for them (an axis without a column
 at the cell's value): the tool pose and the clearance move with the track and
 the turntables, the axes get their own smallest margin and velocity check.
@@ -22,7 +17,6 @@ the turntables, the axes get their own smallest margin and velocity check.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable
 
 import numpy as np
@@ -30,40 +24,25 @@ import numpy.typing as npt
 
 from posebridge.cell.clearance import (
     CellClearance,
-    clearance_scene,
-    obstacle_kinds,
-    obstacle_names,
 )
 from posebridge.cell.joint_log import JointLog
+from posebridge.cell.pose_diagnosis import diagnose_pose, overall_pair, pair_label
 from posebridge.cell.quality import (
-    ConfigurationQuality,
-    branch_report,
     branch_words,
-    closest_pair_model,
     evaluate_configurations,
-    full_branch_words,
-    geometry_findings,
-    joint_margins_model,
     margin_thresholds,
     part_word,
     proximity_ratio,
-    quality_findings,
-    revolution_counts,
-    singularity_model,
 )
-from posebridge.cell.reports import (
+from posebridge.cell.scene import Scene
+from posebridge.kinematics.fk import KinematicsInputError
+from posebridge.results.cell import (
     MAX_LISTED_EVENTS,
     BranchChange,
     Finding,
     JointExtreme,
-    JointMargin,
     LogDiagnosis,
     LogRows,
-    NearTarget,
-    ObjectDistance,
-    PoseDiagnosis,
-    PoseFrame,
-    PoseKind,
     QualityThresholds,
     RowStretch,
     RowValue,
@@ -71,15 +50,8 @@ from posebridge.cell.reports import (
     VelocityJump,
     WorstRow,
 )
-from posebridge.cell.scene import Scene, posed_scene
-from posebridge.geometry.clearance import clearance_per_obstacle_batch
-from posebridge.kinematics.fk import KinematicsInputError, check_configurations
-from posebridge.kinematics.ik import solve_ik_all
-from posebridge.transforms import (
-    quaternion_from_rotation_matrix,
-    rotation_vector_from_rotation_matrix,
-    rpy_from_rotation_matrix,
-)
+from posebridge.results.diagnosis import SEVERITY_ORDER, finite_mm, pose_diagnosis_result
+from posebridge.results.quality import geometry_findings
 from posebridge.units import (
     BoolArray,
     FloatArray,
@@ -90,31 +62,11 @@ from posebridge.units import (
     mm_from_m,
 )
 
-__all__ = [
-    "AT_TARGET_DEG",
-    "AT_TARGET_MM",
-    "CLOSEST_OBJECTS",
-    "INPUT_MATCH_TOLERANCE",
-    "NEAREST_TARGETS",
-    "VELOCITY_TOLERANCE",
-    "WORST_ROW_RULE",
-    "diagnose_log",
-    "diagnose_pose",
-]
+__all__ = ["VELOCITY_TOLERANCE", "WORST_ROW_RULE", "diagnose_log"]
 
-CLOSEST_OBJECTS = 5
-"""Obstacles listed in :attr:`PoseDiagnosis.closest_objects`."""
-NEAREST_TARGETS = 3
-"""Target and approach poses listed in :attr:`PoseDiagnosis.nearest_targets`."""
-AT_TARGET_MM = 1.0
-AT_TARGET_DEG = 1.0
-"""A TCP within both of these of a target pose is reported as at that target."""
-INPUT_MATCH_TOLERANCE = 1e-5
-"""An IK solution within this (rad or m, every joint) of the input is the input's own."""
 VELOCITY_TOLERANCE = 0.01
 """A joint change counts as too fast above ``(1 + this) * velocity limit``: a 1 % allowance
 for the rounding of logged values (common practice, no source)."""
-
 WORST_ROW_RULE = (
     "The row with the deepest collision; if no row collides, the row farthest outside a joint "
     "limit (by fraction of the joint's range); if every row is within limits, the second row "
@@ -122,231 +74,6 @@ WORST_ROW_RULE = (
     "warning: smallest of clearance, limit margin and singularity distance each divided by its "
     "warning threshold. Ties go to the earliest row."
 )
-
-_SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
-
-
-def _frame(T: FloatArray) -> PoseFrame:
-    """Express a pose (4, 4), m, as position mm, rpy deg and quaternion."""
-    return PoseFrame(
-        position_mm=mm_from_m(T[:3, 3]).tolist(),
-        rpy_deg=rpy_from_rotation_matrix(T[:3, :3], degrees=True).tolist(),
-        quaternion_wxyz=quaternion_from_rotation_matrix(T[:3, :3]).tolist(),
-    )
-
-
-def _pair_label(clearance: CellClearance, k: int) -> str:
-    capsule, other, _ = clearance.pair(k)
-    return f"{capsule} – {other}" if capsule else ""
-
-
-def _overall_pair(quality: ConfigurationQuality, k: int) -> CellClearance:
-    """Return the clearance (environment or self) holding configuration ``k``'s closest pair."""
-    if quality.self_clearance.distance[k] < quality.environment.distance[k]:
-        return quality.self_clearance
-    return quality.environment
-
-
-def _nearest_targets(scene: Scene, T_world_tool: FloatArray) -> list[NearTarget]:
-    """Target and approach poses nearest the TCP, by position distance."""
-    targets = scene.targets
-    has_approach = targets.approach_offset > 0.0
-    poses = np.concatenate([targets.T_world_target, targets.T_world_approach[has_approach]])
-    names = list(targets.names) + [n for n, a in zip(targets.names, has_approach, strict=True) if a]
-    kinds: list[PoseKind] = ["target"] * len(targets.names)
-    kinds += ["approach"] * int(has_approach.sum())
-    if not names:
-        return []
-    distance = np.linalg.norm(poses[:, :3, 3] - T_world_tool[:3, 3], axis=1)
-    relative = np.swapaxes(poses[:, :3, :3], 1, 2) @ T_world_tool[:3, :3]
-    angle = np.linalg.norm(rotation_vector_from_rotation_matrix(relative, degrees=True), axis=1)
-    order = np.argsort(distance, kind="stable")[:NEAREST_TARGETS]
-    return [
-        NearTarget(
-            name=names[i],
-            pose=kinds[i],
-            distance_mm=float(mm_from_m(distance[i])),
-            angle_deg=float(angle[i]),
-        )
-        for i in order
-    ]
-
-
-def _closest_objects(scene: Scene, q: FloatArray) -> list[ObjectDistance]:
-    """Return the obstacles nearest configuration ``q`` (1, n), nearest first."""
-    distance = clearance_per_obstacle_batch(clearance_scene(scene), q).distance[0]
-    names = obstacle_names(scene)
-    kinds = obstacle_kinds(scene)
-    order = [o for o in np.argsort(distance, kind="stable") if np.isfinite(distance[o])]
-    return [
-        ObjectDistance(name=names[o], kind=kinds[o], distance_mm=float(mm_from_m(distance[o])))
-        for o in order[:CLOSEST_OBJECTS]
-    ]
-
-
-def _single(scene: Scene, q: npt.ArrayLike) -> FloatArray:
-    array = np.asarray(q, dtype=np.float64)
-    if array.ndim == 1:
-        array = array[None]
-    if array.shape[0] != 1:
-        raise KinematicsInputError(
-            f"joint values: expected one configuration of {scene.robot.dof} values, got shape "
-            f"{np.shape(q)}"
-        )
-    return check_configurations(scene.robot, array)
-
-
-def _finite_mm(distance_m: float) -> float | None:
-    """Convert a distance to mm, None where nothing was checked (infinite)."""
-    value = float(mm_from_m(distance_m))
-    return value if math.isfinite(value) else None
-
-
-def diagnose_pose(
-    scene: Scene,
-    q: npt.ArrayLike,
-    thresholds: QualityThresholds | None = None,
-    *,
-    external: npt.ArrayLike | None = None,
-) -> PoseDiagnosis:
-    """Everything about one joint configuration in the cell (module docstring).
-
-    Parameters
-    ----------
-    scene : Scene
-    q : array-like, shape (n,) or (1, n)
-        Joint values, rad or m (convert user input with
-        :func:`posebridge.units.joints_si_from_user`).
-    thresholds : QualityThresholds, optional
-        The cell's own (``scene.cell.thresholds``) if omitted.
-    external : array-like, shape (m,), optional
-        External axis values (m, rad); the scene's values if omitted. The scene is
-        posed there (:func:`~posebridge.cell.scene.posed_scene`) and the report gives
-        the values and their limit margins.
-
-    Returns
-    -------
-    PoseDiagnosis
-        Boundary units (mm, deg). ``input_branch`` is null when no IK
-        solution equals the input (a joint outside its limits by whole revolutions).
-    """
-    if external is not None:
-        scene = posed_scene(scene, external)
-    robot = scene.robot
-    q = _single(scene, q)
-    quality = evaluate_configurations(scene, q, thresholds)
-    T_base_tool = quality.T_base_tool
-    solutions = solve_ik_all(
-        robot, T_base_tool, T_flange_tool=scene.T_flange_tool, seed=q[0], all_revolutions=True
-    )
-    slots = solutions.valid_solutions(0)
-    branches = []
-    input_branch = None
-    if slots:
-        others = evaluate_configurations(scene, solutions.q[0, slots], quality.thresholds)
-        for row, m in enumerate(slots):
-            branches.append(
-                branch_report(
-                    others,
-                    row,
-                    branch=full_branch_words(others, row, solutions.revolutions[0, m]),
-                    revolutions=solutions.revolutions[0, m],
-                )
-            )
-        gap = np.max(np.abs(others.q - q), axis=1)
-        if gap.min() <= INPUT_MATCH_TOLERANCE:
-            input_branch = int(np.argmin(gap))
-    findings = quality_findings(quality, 0)
-    nearest = _nearest_targets(scene, quality.T_world_tool[0])
-    if nearest and nearest[0].distance_mm <= AT_TARGET_MM and nearest[0].angle_deg <= AT_TARGET_DEG:
-        findings.append(
-            Finding(
-                severity="info",
-                code="at-target",
-                target=nearest[0].name,
-                pose=nearest[0].pose,
-                message=f"the TCP is at {nearest[0].pose} {nearest[0].name!r} "
-                f"({nearest[0].distance_mm:.2f} mm, {nearest[0].angle_deg:.2f} deg)",
-            )
-        )
-    margins = quality.margins
-    joint = int(margins.min_joint[0])
-    clearance = float(mm_from_m(quality.clearance[0]))
-    revolutions = revolution_counts(robot, q)[0]
-    return PoseDiagnosis(
-        robot=robot.name,
-        tool=scene.tool_name,
-        joint_names=list(robot.joint_names),
-        joint_units=joint_unit_labels(robot.prismatic),
-        joints_deg=joints_user_from_si(q[0], robot.prismatic).tolist(),
-        tcp_world=_frame(quality.T_world_tool[0]),
-        tcp_base=_frame(T_base_tool[0]),
-        branch=full_branch_words(quality, 0, revolutions),
-        shoulder=int(quality.shoulder[0]),
-        elbow=int(quality.elbow[0]),
-        wrist=int(quality.wrist[0]),
-        within_limits=bool(quality.within_limits[0]),
-        margins=joint_margins_model(quality, 0),
-        min_margin_joint=robot.joint_names[joint] if joint >= 0 else None,
-        min_margin_fraction=float(margins.min_fraction[0]) if joint >= 0 else None,
-        manipulability=float(quality.manipulability[0]),
-        position_manipulability=float(quality.manipulability[0]),
-        full_manipulability=(
-            None if quality.full_manipulability is None else float(quality.full_manipulability[0])
-        ),
-        singularity=singularity_model(quality, 0),
-        clearance_mm=clearance if np.isfinite(clearance) else None,
-        environment_clearance_mm=_finite_mm(quality.environment.distance[0]),
-        self_clearance_mm=_finite_mm(quality.self_clearance.distance[0]),
-        collision_free=bool(quality.collision_free[0]),
-        closest=closest_pair_model(_overall_pair(quality, 0), 0),
-        closest_environment=closest_pair_model(quality.environment, 0),
-        closest_self=closest_pair_model(quality.self_clearance, 0),
-        closest_objects=_closest_objects(scene, q),
-        nearest_targets=nearest,
-        branches=branches,
-        input_branch=input_branch,
-        findings=sorted(
-            findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
-        ),
-        robot_geometry_missing=robot.geometry_missing,
-        external_axes=dict(
-            zip(
-                scene.external.names,
-                scene.external.user_from_si(scene.external.values).tolist(),
-                strict=True,
-            )
-        ),
-        external_margins=_external_margins(scene),
-    )
-
-
-def _external_margins(scene: Scene) -> list[JointMargin]:
-    """Limit margins of the external axes at the scene's values, boundary units."""
-    external = scene.external
-    values = external.user_from_si(external.values)
-    lower = external.user_from_si(external.lower)
-    upper = external.user_from_si(external.upper)
-    margins = []
-    for i, name in enumerate(external.names):
-        below, above = values[i] - lower[i], upper[i] - values[i]
-        margin = float(min(below, above))
-        margins.append(
-            JointMargin(
-                joint=name,
-                unit=external.units[i],
-                value=float(values[i]),
-                lower=float(lower[i]),
-                upper=float(upper[i]),
-                margin=margin,
-                margin_fraction=margin / float(upper[i] - lower[i]),
-                nearer_limit="lower" if below <= above else "upper",
-            )
-        )
-    return margins
-
-
-# --- logs -------------------------------------------------------------------------------------
 
 
 class _Rows:
@@ -462,8 +189,8 @@ class _LogDiagnoser:
         row = int(np.argmin(clearance))
         if not np.isfinite(clearance[row]):
             return None
-        pairs = _overall_pair(self.quality, row)
-        return self.rows.value(row, float(mm_from_m(clearance[row])), "mm", _pair_label(pairs, row))
+        pairs = overall_pair(self.quality, row)
+        return self.rows.value(row, float(mm_from_m(clearance[row])), "mm", pair_label(pairs, row))
 
     def _singularity_terms(self) -> list[tuple[str, FloatArray, FloatArray, str, str]]:
         """``(kind, distance in its unit, ratio to threshold, unit, wording)`` of each kind."""
@@ -560,7 +287,7 @@ class _LogDiagnoser:
 
         def clearance_value(row: int) -> tuple[float, str, str]:
             mm = float(mm_from_m(clearance[row]))
-            return mm, "mm", f"{_pair_label(_overall_pair(quality, row), row)} at {mm:.1f} mm"
+            return mm, "mm", f"{pair_label(overall_pair(quality, row), row)} at {mm:.1f} mm"
 
         self._add_stretches("collision", clearance < 0.0, clearance, clearance_value, "error")
         self._add_stretches(
@@ -723,7 +450,7 @@ class _LogDiagnoser:
         clearance = quality.clearance
         if np.any(clearance < 0.0):
             row = int(np.argmin(clearance))
-            pair = _pair_label(_overall_pair(quality, row), row)
+            pair = pair_label(overall_pair(quality, row), row)
             return row, f"deepest collision: {pair} overlap by {-mm_from_m(clearance[row]):.1f} mm"
         margins = quality.margins
         if not np.all(quality.within_limits):
@@ -790,8 +517,8 @@ class _LogDiagnoser:
             shoulder_mm=None if report is None else mm_from_m(report.shoulder_m).tolist(),
             clearance_mm=[None if not np.isfinite(v) else v for v in clearance.tolist()],
             closest=closest.tolist(),
-            environment_clearance_mm=[_finite_mm(v) for v in quality.environment.distance.tolist()],
-            self_clearance_mm=[_finite_mm(v) for v in quality.self_clearance.distance.tolist()],
+            environment_clearance_mm=[finite_mm(v) for v in quality.environment.distance.tolist()],
+            self_clearance_mm=[finite_mm(v) for v in quality.self_clearance.distance.tolist()],
             external=self.scene.external.user_from_si(self.external).tolist(),
         )
 
@@ -848,15 +575,17 @@ class _LogDiagnoser:
                 time_s=self.rows.time(worst),
                 rule=WORST_ROW_RULE,
                 reason=reason,
-                diagnosis=diagnose_pose(
-                    self.scene,
-                    self.log.q[worst],
-                    self.thresholds,
-                    external=self.external[worst] if self.scene.external.count else None,
+                diagnosis=pose_diagnosis_result(
+                    diagnose_pose(
+                        self.scene,
+                        self.log.q[worst],
+                        self.thresholds,
+                        external=self.external[worst] if self.scene.external.count else None,
+                    )
                 ),
             ),
             findings=sorted(
-                self.findings + geometry_findings(robot), key=lambda f: _SEVERITY_ORDER[f.severity]
+                self.findings + geometry_findings(robot), key=lambda f: SEVERITY_ORDER[f.severity]
             ),
             rows=self._columns() if include_rows else None,
             robot_geometry_missing=robot.geometry_missing,
@@ -896,7 +625,7 @@ def diagnose_log(
     thresholds : QualityThresholds, optional
         The cell's own (``scene.cell.thresholds``) if omitted.
     include_rows : bool, keyword-only
-        Add the per-row values (:class:`~posebridge.cell.reports.LogRows`).
+        Add the per-row values (:class:`~posebridge.results.cell.LogRows`).
 
     Returns
     -------

@@ -1,0 +1,122 @@
+"""Joint-map and reach-section results, in boundary units (mm, deg), and their builders.
+
+The builders turn the SI results of :mod:`posebridge.spaces` into the answers the
+HTTP API and the command line's ``--json`` output print.
+"""
+
+from __future__ import annotations
+
+from typing import Literal
+
+import numpy as np
+from pydantic import BaseModel, ConfigDict, Field
+
+from posebridge.robot.model import Robot
+from posebridge.spaces.joint_map import JointMap
+from posebridge.spaces.workspace import ReachSection
+from posebridge.units import joint_unit_labels, joints_user_from_si, mm_from_m
+
+__all__ = ["JointMapResult", "ReachSectionResult", "joint_map_result", "reach_section_result"]
+
+_JOINTS = "Revolute joints in degrees, prismatic joints in millimetres, in the robot's joint order."
+
+
+class JointMapResult(BaseModel):
+    """A joint-space obstacle map.
+
+    Per cell: the nearest colliding obstacle, self collision and clearance.
+    """
+
+    model_config = ConfigDict(extra="forbid")
+
+    cell_etag: str = Field(description="Content version of the cell the map was computed for.")
+    joints: list[int]
+    joint_names: list[str]
+    joint_units: list[str]
+    shape: list[int] = Field(description="Cells along each chosen joint.")
+    axes_deg: list[list[float]] = Field(description="Cell-centre values per chosen joint.")
+    lower_deg: list[float] = Field(description="Limit box lower corner of the chosen joints.")
+    upper_deg: list[float] = Field(description="Limit box upper corner of the chosen joints.")
+    hold_deg: list[float] = Field(
+        description="The configuration the map slices through. " + _JOINTS
+    )
+    threshold_mm: float
+    obstacle_names: list[str] = Field(
+        description="Obstacles of the cell; obstacle values index this."
+    )
+    obstacle: list[int] = Field(
+        description="Per cell (flat, C order): the colliding obstacle nearest the arm, -1 if none."
+    )
+    self_collision: list[bool] = Field(description="Per cell: the arm touches itself.")
+    clearance_mm: list[float] | None = Field(
+        description="Per cell: the smallest clearance to any obstacle or to the arm itself, mm "
+        "(negative: penetration; capped at 1e6); two-joint maps only, null for three."
+    )
+    colliding_obstacles: list[str] = Field(
+        description="Obstacles in collision somewhere on the map."
+    )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
+
+
+def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> JointMapResult:
+    """Return the answer for a computed :class:`~posebridge.spaces.joint_map.JointMap`."""
+    prismatic = joint_map.prismatic
+    clearance = None
+    if len(joint_map.joints) == 2:
+        values = np.round(mm_from_m(np.minimum(joint_map.clearance, 1e3)), 1)
+        clearance = values.ravel().tolist()
+    return JointMapResult(
+        cell_etag=cell_etag,
+        joints=list(joint_map.joints),
+        joint_names=list(joint_map.joint_names),
+        joint_units=joint_unit_labels(prismatic),
+        shape=list(joint_map.shape),
+        axes_deg=[axis.tolist() for axis in joint_map.axes_user],
+        lower_deg=joint_map.lower_user.tolist(),
+        upper_deg=joint_map.upper_user.tolist(),
+        hold_deg=joints_user_from_si(joint_map.q_hold, robot.prismatic).tolist(),
+        threshold_mm=float(mm_from_m(joint_map.threshold_m)),
+        obstacle_names=list(joint_map.obstacle_names),
+        obstacle=joint_map.obstacle.ravel().astype(int).tolist(),
+        self_collision=joint_map.self_collision.ravel().tolist(),
+        clearance_mm=clearance,
+        colliding_obstacles=[joint_map.obstacle_names[k] for k in joint_map.colliding_obstacles],
+        robot_geometry_missing=robot.geometry_missing,
+    )
+
+
+class ReachSectionResult(BaseModel):
+    """How many tool directions reach each cell of a slice through the cell, world frame."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    cell_etag: str
+    axis: Literal["z", "y"]
+    value_mm: float = Field(description="World coordinate of the slice (a voxel-centre layer).")
+    u_axis: str = Field(description="World axis along the columns.")
+    v_axis: str = Field(description="World axis along the rows.")
+    u_mm: list[float]
+    v_mm: list[float]
+    directions: int = Field(description="Tool directions tried per cell.")
+    count: list[list[int]] = Field(description="Reached directions per cell, rows v, columns u.")
+
+
+def reach_section_result(
+    section: ReachSection, directions: int, cell_etag: str
+) -> ReachSectionResult:
+    """Return the answer for a computed :class:`~posebridge.spaces.workspace.ReachSection`."""
+    return ReachSectionResult(
+        cell_etag=cell_etag,
+        axis="z" if section.axis == "z" else "y",
+        value_mm=float(section.value_mm),
+        u_axis=section.u_axis,
+        v_axis=section.v_axis,
+        u_mm=section.u_mm.tolist(),
+        v_mm=section.v_mm.tolist(),
+        directions=directions,
+        count=section.count.astype(int).tolist(),
+    )

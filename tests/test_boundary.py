@@ -1,0 +1,60 @@
+"""The SI / user-unit boundary: domain modules do not convert SI results into mm and degrees.
+
+Results in millimetres and degrees are built by ``posebridge.results`` from the SI results
+of the domain packages; import-linter's layer contract keeps the domain from importing it.
+This test keeps the other half of the rule: no domain module outside ``STILL_CONVERTING``
+uses an SI-to-user conversion, and every module of that list still does (so the list only
+shrinks as modules move their conversions behind the boundary).
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import posebridge
+
+PACKAGE = Path(posebridge.__file__).parent
+DOMAIN = ("cell", "planning", "spaces", "kinematics", "geometry", "robot")
+TO_USER = re.compile(
+    r"\b(mm_from_m|deg_from_rad|joints_user_from_si|user_from_si|np\.degrees|math\.degrees"
+    r"|MM_PER_M|DEG_PER_RAD)\b|degrees=True"
+)
+
+STILL_CONVERTING = {
+    # result models still built in the domain (the import-linter contract's ignore_imports)
+    "cell/checks.py",
+    "cell/log_diagnosis.py",
+    "planning/motion_export.py",
+    "planning/path_check.py",
+    "planning/placement.py",
+    "planning/rrt.py",
+    "planning/sequence_report.py",
+    # mm/deg in messages, file units and the external-axis boundary helpers
+    "cell/external_axes.py",
+    "cell/scene.py",
+    "geometry/mesh_display.py",
+    "geometry/mesh_files.py",
+    "kinematics/ik/numeric.py",
+    "planning/solution_sequence.py",
+    "spaces/joint_map.py",
+    "spaces/planar_boundary.py",
+    "spaces/workspace.py",
+}
+
+
+def _converting_modules() -> set[str]:
+    found = set()
+    for package in DOMAIN:
+        for path in (PACKAGE / package).rglob("*.py"):
+            if TO_USER.search(path.read_text(encoding="utf-8")):
+                found.add(path.relative_to(PACKAGE).as_posix())
+    return found
+
+
+def test_no_new_domain_module_converts_to_user_units() -> None:
+    assert _converting_modules() - STILL_CONVERTING == set()
+
+
+def test_the_list_of_converting_modules_only_shrinks() -> None:
+    assert STILL_CONVERTING - _converting_modules() == set()
