@@ -74,7 +74,7 @@
  *     map3Joints, stepMm, stepDeg, snap, follow, showReach, showCapsules, dragging, dragKind, status,
  *     carriage
  *   linking.js: robot, cellActive, robotMeshes, fk, fkJoints, ik
- *   cellsync.js: cell, cellSave
+ *   cellsync.js: cell, cellSave, chainChoice
  *   main.js: robots
  *   review.js: readOnly, reviewerCaps
  *   armstate.js: armState
