@@ -68,9 +68,9 @@ def server_url(cell_path: Path) -> Iterator[str]:
 def reset_cell(base_url: str) -> dict[str, Any]:
     """Put the demo cell's content back through the API; returns the GET /api/cell answer."""
     api = base_url.rstrip("/")
-    etag = httpx.get(api + "/api/cell", timeout=30).json()["etag"]
+    etag = httpx.get(api + "/api/cell", timeout=120).json()["etag"]
     demo = json.loads(DEMO_CELL.read_text())
-    response = httpx.put(api + "/api/cell", json=demo, headers={"If-Match": etag}, timeout=30)
+    response = httpx.put(api + "/api/cell", json=demo, headers={"If-Match": etag}, timeout=120)
     assert response.status_code == 200, response.text
     document: dict[str, Any] = response.json()
     return document
@@ -125,7 +125,7 @@ class OpenPage:
     problems: PageProblems
     base_url: str
 
-    def wait_settled(self, timeout_ms: int = 30_000) -> None:
+    def wait_settled(self, timeout_ms: int = 120_000) -> None:
         """Wait until the page has FK for its joints and IK for its target."""
         self.page.wait_for_function(_SETTLED_SCRIPT, timeout=timeout_ms)
 
@@ -152,7 +152,7 @@ def open_page(browser: Any, server_url: str) -> Iterator[OpenPage]:
     page.on("request", lambda request: problems.requested_urls.append(request.url))
     page.goto(server_url)
     opened = OpenPage(page=page, problems=problems, base_url=server_url)
-    opened.wait_settled(timeout_ms=60_000)
+    opened.wait_settled(timeout_ms=180_000)
     yield opened
     # let the page's map jobs finish before it closes: jobs outlive their page on the server,
     # and a next page starting its own beyond the per-client cap would be refused (429)

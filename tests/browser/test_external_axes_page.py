@@ -24,7 +24,7 @@ STATE = "() => window.posebridge.getState()"
 
 def _show_track_cell(open_page: Any) -> None:
     api = open_page.base_url.rstrip("/")
-    etag = httpx.get(api + "/api/cell", timeout=30).json()["etag"]
+    etag = httpx.get(api + "/api/cell", timeout=120).json()["etag"]
     demo = json.loads(TRACK_DEMO.read_text())
     response = httpx.put(api + "/api/cell", json=demo, headers={"If-Match": etag}, timeout=60)
     assert response.status_code == 200, response.text
@@ -108,7 +108,7 @@ def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_
     page.wait_for_function(
         "() => { const s = window.posebridge.getState();"
         " return Boolean(s.carriage && s.fk && s.fk.frames_position_mm[0][0] > 500); }",
-        timeout=60_000,
+        timeout=180_000,
     )
     riding = page.evaluate(
         "() => { const s = window.posebridge.getState();"
@@ -124,7 +124,7 @@ def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_
     page.wait_for_function(
         "() => { const s = window.posebridge.getState();"
         " return s.carriage === null && s.cell.scene.external_axes[0].value > 500; }",
-        timeout=60_000,
+        timeout=180_000,
     )
     state = page.evaluate(
         "() => { const s = window.posebridge.getState();"
@@ -146,6 +146,6 @@ def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_
         " return Boolean(s.fk && s.fkJoints === s.joints"
         " && Math.abs(s.fk.frames_position_mm[0][0] - x) < 1e-6); }",
         arg=state["base"][0],
-        timeout=60_000,
+        timeout=180_000,
     )
     assert not open_page.problems.page_errors

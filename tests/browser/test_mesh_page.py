@@ -51,7 +51,7 @@ def test_dropped_stl_is_drawn_and_named_by_the_target_check(
     page.wait_for_function(
         "() => { const s = window.posebridge.getState();"
         " return s.meshes.pillar && s.cell.scene.shapes.some((x) => x.name === 'pillar');}",
-        timeout=30_000,
+        timeout=120_000,
     )
     stored = sorted((cell_path.parent / "meshes").glob("pillar-*.stl"))
     assert stored, "the upload is stored next to the cell file"
@@ -61,13 +61,13 @@ def test_dropped_stl_is_drawn_and_named_by_the_target_check(
             "(id) => { const el = document.getElementById(id);"
             " return el.data && el.data.some((t) => t.meta && t.meta.fixture === 'pillar'); }",
             arg=figure,
-            timeout=30_000,
+            timeout=120_000,
         )
     # the target check runs on the new cell version and names the pillar
     page.wait_for_function(
         "() => { const s = window.posebridge.getState();"
         " return s.targetCheck && s.targetCheck.etag === s.cell.etag; }",
-        timeout=60_000,
+        timeout=180_000,
     )
     findings = page.inner_text("#target-check-findings")
     assert "pillar" in findings
@@ -116,7 +116,7 @@ def test_machine_demo_passes_its_target_check_on_the_page(
         page.wait_for_function(
             "() => (document.getElementById('scene3d').data || []).some("
             "(t) => t.meta && t.meta.fixture === 'machine')",
-            timeout=30_000,
+            timeout=120_000,
         )
         page.screenshot(path=str(artifacts / "machine-demo.png"))
         # a mesh fixture is dragged like a box: preview during the drag, saved on release
@@ -124,13 +124,13 @@ def test_machine_demo_passes_its_target_check_on_the_page(
         page.wait_for_function(
             "() => { const s = window.posebridge.getState();"
             " return s.fixture && s.fixture.name === 'conveyor'; }",
-            timeout=30_000,
+            timeout=120_000,
         )
         start = page.evaluate(STATE)["fixture"]["position_mm"]
         grab = figure_pixel(page, "plan", start[0], start[1])
         with page.expect_response(
             lambda r: r.request.method == "PATCH" and r.url.endswith("/api/cell/fixtures/conveyor"),
-            timeout=30_000,
+            timeout=120_000,
         ) as saved:
             page.mouse.move(*grab)
             page.mouse.down()

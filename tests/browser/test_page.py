@@ -36,7 +36,7 @@ TCP_3D = """() => {
 
 def _cell_frames(base_url: str) -> dict[str, Any]:
     """The cell's robot base and tool, as the page sends them with FK and IK requests."""
-    scene = httpx.get(base_url.rstrip("/") + "/api/cell", timeout=30).json()["scene"]
+    scene = httpx.get(base_url.rstrip("/") + "/api/cell", timeout=120).json()["scene"]
     return {
         "base": {k: scene["base"][k] for k in ("position_mm", "rpy_deg")},
         "tool": {k: scene["tool"][k] for k in ("position_mm", "rpy_deg")},
@@ -44,7 +44,7 @@ def _cell_frames(base_url: str) -> dict[str, Any]:
 
 
 def _api(base_url: str, path: str, body: dict[str, Any]) -> dict[str, Any]:
-    response = httpx.post(base_url.rstrip("/") + path, json=body, timeout=30)
+    response = httpx.post(base_url.rstrip("/") + path, json=body, timeout=120)
     assert response.status_code == 200, response.text
     return response.json()
 
@@ -78,7 +78,7 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
     page, problems = open_page.page, open_page.problems
     page.wait_for_function(
         "() => { const s = window.posebridge.getState(); return s.jointMap && s.targetCheck; }",
-        timeout=60_000,
+        timeout=180_000,
     )
     page.screenshot(path=str(artifacts / "page-demo-cell.png"), full_page=True)
     assert problems.console_errors == []
@@ -96,7 +96,7 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
         "() => (document.getElementById('scene3d').data || []).map((t) => t.name)"
     )
     assert {"fixtures", "keep-out zones", "pedestal"} <= set(names)
-    cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+    cell = httpx.get(open_page.base_url + "api/cell", timeout=120).json()
     plan_targets = page.evaluate(
         "() => (document.getElementById('plan-base').data || []).find((t) => t.name === 'cell targets').x"
     )
@@ -127,7 +127,7 @@ def test_drag_plan_target_updates_joint_map(open_page: Any, artifacts: Path) -> 
     page.mouse.move(x0, y0)
     page.mouse.down()
     with page.expect_response(
-        lambda r: r.request.method == "PATCH" and "/api/cell/targets/" in r.url, timeout=30_000
+        lambda r: r.request.method == "PATCH" and "/api/cell/targets/" in r.url, timeout=120_000
     ) as saved:
         page.mouse.move(x0 - 10, y0 - 6, steps=5)
         page.mouse.up()
@@ -153,7 +153,7 @@ def test_drag_plan_target_updates_joint_map(open_page: Any, artifacts: Path) -> 
     page.screenshot(path=str(artifacts / "page-after-drag.png"), full_page=True)
     assert open_page.problems.console_errors == []
     # the move was saved into the cell: the server's target is where the page put it
-    cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+    cell = httpx.get(open_page.base_url + "api/cell", timeout=120).json()
     saved_target = next(t for t in cell["scene"]["targets"] if t["name"] == name)
     # (cell files hold 0.001 mm: half a thousandth of rounding)
     assert saved_target["position_mm"] == pytest.approx(after, abs=5e-4)
@@ -169,13 +169,13 @@ def test_click_joint_map_moves_tool(open_page: Any) -> None:
         "([a, goal]) => { const s = window.posebridge.getState();"
         " return Math.abs(s.joints[a] - goal) < 2 && s.fkJoints === s.joints; }",
         arg=[a, goal[0]],
-        timeout=30_000,
+        timeout=120_000,
     )
     page.wait_for_function(
         "(p) => { const t = (document.getElementById('scene3d').data || []).find((d) => d.name === 'TCP');"
         " const s = window.posebridge.getState();"
         " return t && Math.abs(t.x[0] - s.fk.position_mm[0]) < 1e-9; }",
-        timeout=30_000,
+        timeout=120_000,
     )
     joints = page.evaluate(STATE)["joints"]
     # the clicked point, to within the pixel resolution of the map (about 1 deg per pixel here)
@@ -258,7 +258,7 @@ def test_switch_robot(open_page: Any, artifacts: Path) -> None:
     page.wait_for_function(
         "() => { const s = window.posebridge.getState(); return s.robot && s.robot.name === 'pb-planar2r'"
         " && s.ik && s.fkJoints === s.joints; }",
-        timeout=30_000,
+        timeout=120_000,
     )
     state = page.evaluate(STATE)
     x, y, _ = state["fk"]["position_mm"]
@@ -294,7 +294,7 @@ def test_two_pages_conflict_detected(open_page: Any, browser: Any) -> None:
         second.wait_for_function(
             "() => { const s = window.posebridge && window.posebridge.getState();"
             " return s && s.cell && s.ik && s.fkJoints === s.joints; }",
-            timeout=60_000,
+            timeout=180_000,
         )
         seen = second.evaluate(STATE)["cell"]["etag"]
         # the first page moves the target and saves it
@@ -314,12 +314,12 @@ def test_two_pages_conflict_detected(open_page: Any, browser: Any) -> None:
         second.wait_for_function(
             "(etag) => window.posebridge.getState().cell.etag === etag",
             arg=saved_first.value.json()["etag"],
-            timeout=30_000,
+            timeout=120_000,
         )
         assert second.get_attribute("#cell-save", "data-state") == "conflict"
         assert "not saved" in second.inner_text("#cell-save")
         # the server kept the first page's move (nothing was overwritten)
-        cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+        cell = httpx.get(open_page.base_url + "api/cell", timeout=120).json()
         assert cell["etag"] == saved_first.value.json()["etag"] != seen
     finally:
         second.close()
@@ -327,7 +327,7 @@ def test_two_pages_conflict_detected(open_page: Any, browser: Any) -> None:
 
 def test_drag_pose_waypoint_saves_it(open_page: Any, cell_path: Path, artifacts: Path) -> None:
     page = open_page.page
-    cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+    cell = httpx.get(open_page.base_url + "api/cell", timeout=120).json()
     # the demo's waypoint given as a pose (a world tool pose)
     path, index, pose = next(
         (p["name"], w, waypoint["pose"])
@@ -340,7 +340,7 @@ def test_drag_pose_waypoint_saves_it(open_page: Any, cell_path: Path, artifacts:
         "(goal) => { const s = window.posebridge.getState();"
         " return s.target.position_mm.every((v, k) => Math.abs(v - goal[k]) < 1e-9); }",
         arg=pose["position_mm"],
-        timeout=30_000,
+        timeout=120_000,
     )
     open_page.wait_settled()
     # a pose waypoint saves typed values: the target fields edit the cell
@@ -351,7 +351,7 @@ def test_drag_pose_waypoint_saves_it(open_page: Any, cell_path: Path, artifacts:
             r.request.method == "PATCH"
             and r.url.endswith(f"/api/cell/paths/{path}/waypoints/{index}")
         ),
-        timeout=30_000,
+        timeout=120_000,
     ) as saved:
         _drag(page, plan_marker_position(page), 14, 9)
     assert saved.value.status == 200, saved.value.text()
@@ -390,7 +390,7 @@ def test_drag_fixture_moves_its_targets(open_page: Any, cell_path: Path, artifac
     page.wait_for_function(
         "(name) => { const s = window.posebridge.getState(); return s.fixture && s.fixture.name === name; }",
         arg=fixture,
-        timeout=30_000,
+        timeout=120_000,
     )
     assert page.get_attribute(f"#cell-fixture-{fixture}", "aria-selected") == "true"
     assert page.is_visible("#fixture-fields")
@@ -401,7 +401,7 @@ def test_drag_fixture_moves_its_targets(open_page: Any, cell_path: Path, artifac
     grab = figure_pixel(page, "plan", *start_fixture["position_mm"][:2])
     with page.expect_response(
         lambda r: r.request.method == "PATCH" and r.url.endswith(f"/api/cell/fixtures/{fixture}"),
-        timeout=30_000,
+        timeout=120_000,
     ) as saved:
         _drag(page, grab, 16, 10)
     assert saved.value.status == 200, saved.value.text()
@@ -419,7 +419,7 @@ def test_drag_fixture_moves_its_targets(open_page: Any, cell_path: Path, artifac
         "(old) => { const s = window.posebridge.getState();"
         " return s.target.position_mm.some((v, k) => v !== old[k]); }",
         arg=start_target["position_mm"],
-        timeout=30_000,
+        timeout=120_000,
     )
     open_page.wait_settled()
     _assert_map_shows_ik(page, open_page.base_url)
@@ -449,7 +449,7 @@ def test_drag_fixture_moves_its_targets(open_page: Any, cell_path: Path, artifac
     # a typed yaw turns the fixture about the world z axis; saved with its orientation
     with page.expect_response(
         lambda r: r.request.method == "PATCH" and r.url.endswith(f"/api/cell/fixtures/{fixture}"),
-        timeout=30_000,
+        timeout=120_000,
     ) as turned:
         page.fill("#fixture-yaw", "15")
         page.press("#fixture-yaw", "Enter")

@@ -67,7 +67,7 @@ def test_failed_save_is_shown_and_kept(open_page: Any, cell_path: Path, artifact
         assert refused.value.status == 409
         page.wait_for_function(
             "() => document.getElementById('cell-save').dataset.state === 'error'",
-            timeout=30_000,
+            timeout=120_000,
         )
         shown = page.inner_text("#cell-save")
         assert shown.startswith("Not saved: ")
@@ -87,9 +87,9 @@ def test_failed_save_is_shown_and_kept(open_page: Any, cell_path: Path, artifact
         page.click("#cell-save-retry")
     assert saved.value.status == 200, saved.value.text()
     page.wait_for_function(
-        "() => document.getElementById('cell-save').dataset.state === 'saved'", timeout=30_000
+        "() => document.getElementById('cell-save').dataset.state === 'saved'", timeout=120_000
     )
     assert not page.is_visible("#cell-save-retry")
-    cell = httpx.get(open_page.base_url + "api/cell", timeout=30).json()
+    cell = httpx.get(open_page.base_url + "api/cell", timeout=120).json()
     target = next(t for t in cell["scene"]["targets"] if t["name"] == name)
     assert target["position_mm"] == pytest.approx(moved, abs=1e-6)

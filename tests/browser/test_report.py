@@ -16,7 +16,7 @@ from posebridge.report import write_report
 from posebridge.resources import data_folder
 from posebridge.review.comments import CommentStore, Pin, comments_path_for
 
-_TIMEOUT_MS = 60_000
+_TIMEOUT_MS = 180_000
 
 
 def test_report_renders_offline(browser: Any, artifacts: Path, tmp_path: Path) -> None:

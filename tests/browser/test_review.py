@@ -30,7 +30,7 @@ from posebridge.bench.browser import plan_marker_position
 from posebridge.resources import data_folder
 from posebridge.review.access import new_review_token
 
-_TIMEOUT_MS = 60_000
+_TIMEOUT_MS = 180_000
 _READY = "() => document.body.dataset.review !== undefined"
 _STATE = "() => window.posebridge.getState()"
 _NOT_SAVED = "review mode: changes are not saved"
@@ -160,7 +160,7 @@ def _drag_target(page: Any, dx: float, dy: float) -> list[float]:
 
 def _cell_frames(url: str) -> dict[str, Any]:
     """The cell's robot base and tool, as the page sends them with IK requests."""
-    scene = httpx.get(url + "api/cell", timeout=30).json()["scene"]
+    scene = httpx.get(url + "api/cell", timeout=120).json()["scene"]
     return {key: {k: scene[key][k] for k in ("position_mm", "rpy_deg")} for key in ("base", "tool")}
 
 
@@ -240,7 +240,7 @@ def test_reviewer_page_is_read_only(
     finally:
         context.close()
     assert errors == []
-    listed = httpx.get(url + "api/reviews/comments", timeout=10).json()  # the owner, on loopback
+    listed = httpx.get(url + "api/reviews/comments", timeout=120).json()  # the owner, on loopback
     assert [c["text"] for c in listed["comments"]] == ["Approach <i>too</i> steep"]
     assert listed["comments"][0]["pin"]["target"] == "rack-low-1"
 
@@ -293,7 +293,7 @@ def test_reviewer_drag_shows_ik_saves_nothing(
         answer = httpx.post(
             url + "api/ik",
             json={"robot": state["robot"]["robot"], "pose": state["target"], **_cell_frames(url)},
-            timeout=30,
+            timeout=120,
         ).json()
         a, b = state["mapJoints"]
         expected = [[s["joints_deg"][a], s["joints_deg"][b]] for s in answer["solutions"]]
@@ -318,7 +318,7 @@ def test_reviewer_drag_shows_ik_saves_nothing(
     assert cell.read_bytes() == before
     # the server still has the target where the file has it
     saved = next(t for t in json.loads(before)["targets"] if t["name"] == name)
-    served = httpx.get(url + "api/cell", timeout=30).json()["cell"]
+    served = httpx.get(url + "api/cell", timeout=120).json()["cell"]
     kept = next(t for t in served["targets"] if t["name"] == name)
     assert [kept["position_mm"], kept["rpy_deg"]] == [saved["position_mm"], saved["rpy_deg"]]
     assert seen.refused(429) == []  # normal use stays within the reviewer's caps
@@ -508,7 +508,7 @@ def test_reviewer_page_paces_itself_from_the_served_caps(
         }
         # and the server's real answer carries what it enforces (tests/api/test_reviews.py)
         real = httpx.get(
-            url + "api/reviews/access", headers={"Authorization": f"Bearer {token}"}, timeout=30
+            url + "api/reviews/access", headers={"Authorization": f"Bearer {token}"}, timeout=120
         ).json()["reviewer_caps"]
         assert set(real) >= {"heavy", "compute"}
         assert seen.page_errors == []

@@ -83,13 +83,13 @@ def test_page_draws_the_urdf_robot_meshes(
         ".reduce((n, m) => n + m.vertices_mm.length, 0)"
     )
     # the 3D arm trace holds exactly the link meshes' vertices (the server's drawing answer)
-    page.wait_for_function(f"() => ({ARM_VERTICES})() === {drawn}", timeout=60_000)
+    page.wait_for_function(f"() => ({ARM_VERTICES})() === {drawn}", timeout=180_000)
     assert page.evaluate(PLAN_ARM_POINTS) > 0
     page.screenshot(path=str(artifacts / "page-urdf-robot-meshes.png"), full_page=True)
     # the toggle shows the fitted capsules instead: the arm trace changes to capsule meshes
     page.check("#show-capsules")
     page.wait_for_function(
-        f"() => {{ const n = ({ARM_VERTICES})(); return n > 0 && n !== {drawn}; }}", timeout=60_000
+        f"() => {{ const n = ({ARM_VERTICES})(); return n > 0 && n !== {drawn}; }}", timeout=180_000
     )
     page.screenshot(path=str(artifacts / "page-urdf-robot-capsules.png"), full_page=True)
     # the chain control lists the URDF's leaf links (invented_urdf: tool0 and two fingers)
@@ -165,7 +165,7 @@ def test_joint_map_moves_show_the_link_meshes(
         "() => window.posebridge.getState().robotMeshes"
         ".reduce((n, m) => n + m.vertices_mm.length, 0)"
     )
-    page.wait_for_function(f"() => ({ARM_VERTICES})() === {drawn}", timeout=60_000)
+    page.wait_for_function(f"() => ({ARM_VERTICES})() === {drawn}", timeout=180_000)
     first_vertex = """() => {
       const t = (document.getElementById("scene3d").data || []).find((t) => t.name === "arm");
       return t ? [t.x[t.x.length - 1], t.y[t.y.length - 1], t.z[t.z.length - 1]] : null;
@@ -179,12 +179,12 @@ def test_joint_map_moves_show_the_link_meshes(
     page.keyboard.press("Shift+ArrowRight")  # and on its horizontal one (one may be at a limit)
     page.wait_for_function(
         "() => JSON.stringify(window.posebridge.getState().joints) !== window.pbBefore[0]",
-        timeout=60_000,
+        timeout=180_000,
     )
     page.wait_for_function(
         f"() => {{ const v = ({first_vertex})(); return ({ARM_VERTICES})() === {drawn}"
         " && v !== null && JSON.stringify(v) !== window.pbBefore[1]; }",
-        timeout=60_000,
+        timeout=180_000,
     )
     assert page.evaluate(PLAN_ARM_POINTS) > 0
     page.screenshot(path=str(artifacts / "page-urdf-joint-map-move.png"), full_page=True)
