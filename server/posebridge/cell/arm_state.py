@@ -33,7 +33,7 @@ from posebridge.cell.quality import (
 from posebridge.cell.scene import Scene
 from posebridge.cell.thresholds import QualityThresholds
 from posebridge.geometry.clearance import clearance_batch, clearance_per_obstacle_batch
-from posebridge.kinematics.fk import KinematicsInputError, check_configurations
+from posebridge.kinematics.fk import check_one_configuration
 from posebridge.units import m_from_mm
 
 __all__ = ["ArmContact", "ArmStateData", "arm_state"]
@@ -77,18 +77,6 @@ class ArmStateData:
     contacts: list[ArmContact]
 
 
-def _single(scene: Scene, q: npt.ArrayLike) -> npt.NDArray[np.float64]:
-    array = np.asarray(q, dtype=np.float64)
-    if array.ndim == 1:
-        array = array[None]
-    if array.shape[0] != 1:
-        raise KinematicsInputError(
-            f"joint values: expected one configuration of {scene.robot.dof} values, got shape "
-            f"{np.shape(q)}"
-        )
-    return check_configurations(scene.robot, array)
-
-
 def arm_state(
     scene: Scene, q: npt.ArrayLike, thresholds: QualityThresholds | None = None
 ) -> ArmStateData:
@@ -107,7 +95,7 @@ def arm_state(
     ArmStateData
         SI units; :func:`posebridge.results.arm_state.arm_state_result` makes the answer.
     """
-    q = _single(scene, q)
+    q = check_one_configuration(scene.robot, q)
     quality = evaluate_configurations(scene, q, thresholds)
     limit_m = float(m_from_mm(quality.thresholds.clearance_mm))
     everything = clearance_scene(scene)

@@ -29,7 +29,7 @@ from posebridge.cell.quality import ConfigurationQuality, evaluate_configuration
 from posebridge.cell.scene import Scene, posed_scene
 from posebridge.cell.thresholds import QualityThresholds
 from posebridge.geometry.clearance import clearance_per_obstacle_batch
-from posebridge.kinematics.fk import KinematicsInputError, check_configurations
+from posebridge.kinematics.fk import check_one_configuration
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.transforms import rotation_vector_from_rotation_matrix
 from posebridge.units import FloatArray
@@ -170,18 +170,6 @@ def _closest_objects(scene: Scene, q: FloatArray) -> ObjectDistances:
     )
 
 
-def _single(scene: Scene, q: npt.ArrayLike) -> FloatArray:
-    array = np.asarray(q, dtype=np.float64)
-    if array.ndim == 1:
-        array = array[None]
-    if array.shape[0] != 1:
-        raise KinematicsInputError(
-            f"joint values: expected one configuration of {scene.robot.dof} values, got shape "
-            f"{np.shape(q)}"
-        )
-    return check_configurations(scene.robot, array)
-
-
 def diagnose_pose(
     scene: Scene,
     q: npt.ArrayLike,
@@ -212,7 +200,7 @@ def diagnose_pose(
     if external is not None:
         scene = posed_scene(scene, external)
     robot = scene.robot
-    q = _single(scene, q)
+    q = check_one_configuration(scene.robot, q)
     quality = evaluate_configurations(scene, q, thresholds)
     solutions = solve_ik_all(
         robot,

@@ -342,6 +342,11 @@ def revolution_counts(robot: Robot, q: npt.ArrayLike) -> Int16Array:
     return counts.astype(np.int16)
 
 
+HALF_TOLERANCE = 1e-6
+"""Revolutions (about 0.0004 deg) within which a joint counts as exactly half a revolution
+from its range centre."""
+
+
 def _revolution_words(robot: Robot, revolutions: npt.ArrayLike) -> list[str]:
     """``"j6 +1 rev"`` for every joint with extra whole revolutions."""
     return [
@@ -351,10 +356,29 @@ def _revolution_words(robot: Robot, revolutions: npt.ArrayLike) -> list[str]:
     ]
 
 
+def _half_revolution_words(robot: Robot, q: npt.ArrayLike) -> list[str]:
+    """Name every limited revolute joint exactly half a revolution above its range centre.
+
+    Such a joint counts no extra revolution, nor does its twin half a revolution below the
+    centre (:func:`revolution_counts`); the word ``"j6 +half rev"`` on the upper one tells the
+    two solutions apart.
+    """
+    offset = (np.asarray(q) - 0.5 * (robot.lower + robot.upper)) * (0.5 / np.pi)
+    revolute = joint_modes(robot) == JOINT_REVOLUTE
+    half = revolute & (np.abs(offset - 0.5) <= HALF_TOLERANCE)
+    return [
+        f"{name} +half rev"
+        for name, at_half in zip(robot.joint_names, half, strict=True)
+        if at_half
+    ]
+
+
 def full_branch_words(quality: ConfigurationQuality, k: int, revolutions: npt.ArrayLike) -> str:
-    """Branch words of configuration ``k`` followed by its extra revolutions."""
+    """Branch words of configuration ``k``, its extra revolutions and its half revolutions."""
     words = [branch_words(quality.scheme, quality.shoulder[k], quality.elbow[k], quality.wrist[k])]
-    extra = _revolution_words(quality.robot, revolutions)
+    extra = _revolution_words(quality.robot, revolutions) + _half_revolution_words(
+        quality.robot, quality.q[k]
+    )
     if quality.scheme == "none" and extra:
         return ", ".join(extra)
     return ", ".join(words + extra)

@@ -30,6 +30,7 @@ __all__ = [
     "PARALLEL_THRESHOLD",
     "KinematicsInputError",
     "check_configurations",
+    "check_one_configuration",
     "fk_flange",
     "fk_frames",
     "fk_tool",
@@ -65,6 +66,30 @@ def check_configurations(robot: Robot, q: npt.ArrayLike) -> FloatArray:
     if not np.all(np.isfinite(array)):
         raise KinematicsInputError("joint values: contain NaN or infinite values")
     return array
+
+
+def check_one_configuration(robot: Robot, q: npt.ArrayLike) -> FloatArray:
+    """Validate one joint configuration, given flat or as a batch of one.
+
+    Parameters
+    ----------
+    robot : Robot
+    q : array-like, shape (n,) or (1, n)
+        Joint values in SI units (rad, m).
+
+    Returns
+    -------
+    q : array, shape (1, n)
+    """
+    array = np.asarray(q, dtype=np.float64)
+    if array.ndim == 1:
+        array = array[None]
+    if array.shape[0] != 1:
+        raise KinematicsInputError(
+            f"joint values: expected one configuration of {robot.dof} values, got shape "
+            f"{np.shape(q)}"
+        )
+    return check_configurations(robot, array)
 
 
 @nb.njit(cache=True, inline="always")
