@@ -39,8 +39,8 @@ export function mapIsCurrent(map, { cell, joints }, chosen) {
  */
 export function createMaps({ store, api, actions, pacer }) {
   const slots = {
-    "2d": { name: "Joint map", mapKey: "jointMap", jobKey: "jointMapJob", chosen: (s) => s.mapJoints, resolution: RESOLUTION_2, timer: null, running: null },
-    "3d": { name: "3D joint map", mapKey: "jointMap3", jobKey: "jointMap3Job", chosen: (s) => s.map3Joints, resolution: RESOLUTION_3, timer: null, running: null },
+    "2d": { name: "Joint map", mapKey: "jointMap", jobKey: "jointMapJob", chosen: (s) => s.mapJoints, resolution: RESOLUTION_2, timer: null, running: null, retryAt: 0 },
+    "3d": { name: "3D joint map", mapKey: "jointMap3", jobKey: "jointMap3Job", chosen: (s) => s.map3Joints, resolution: RESOLUTION_3, timer: null, running: null, retryAt: 0 },
   };
 
   function wanted(slot, state) {
@@ -61,6 +61,18 @@ export function createMaps({ store, api, actions, pacer }) {
     if (state.dragging || !wanted(slot, state)) {
       return;
     }
+    const refusedForMs = slot.retryAt - Date.now();
+    if (refusedForMs > 0) {
+      // a 429's Retry-After holds for every start of this map: the start waiting for it is
+      // dropped (its joints are out of date) and this one starts when the wait is over
+      if (slot.running) {
+        slot.running.cancel();
+        slot.running = null;
+      }
+      waiting(slot, `Waiting ${Math.ceil(refusedForMs / 1000)} s: the server is busy with other jobs`);
+      slot.timer = setTimeout(() => compute(slot), refusedForMs);
+      return;
+    }
     if (state.readOnly) {
       const delay = pacer.delayMs();
       if (delay > 0) {
@@ -79,6 +91,7 @@ export function createMaps({ store, api, actions, pacer }) {
       start: () => api.startJointMap(body),
       pollMs: state.readOnly ? REVIEW_POLL_MS : POLL_MS,
       onWait: ({ seconds }) => {
+        slot.retryAt = Date.now() + seconds * 1000;
         if (slot.running === handle) {
           waiting(slot, `Waiting ${Math.ceil(seconds)} s: the server is busy with other jobs`);
         }

@@ -179,10 +179,13 @@ def test_ik_all_revolutions_lists_every_in_limit_revolution(
     assert all(any(same_modulo_360(n, s) for s in every["solutions"]) for n in nearest["solutions"])
     for solution in every["solutions"]:
         joints = np.array(solution["joints_deg"])
-        # documented rule (ik/finishing.py): revolutions count from the revolution centred on the
-        # range; j4 and j6 of pb-arm6.toml have symmetric ranges wider than 360 deg
+        # documented rule (kinematics/branches.py centred_revolution): revolutions count from
+        # the revolution centred on the range, a half (within 1e-9 revolution) rounded toward
+        # zero; j4 and j6 of pb-arm6.toml have ranges symmetric about 0 deg, wider than 360 deg
         for j in (3, 5):
-            assert solution["revolutions"][j] == math.floor(joints[j] / 360.0 + 0.5)
+            x = joints[j] / 360.0
+            expected = math.copysign(math.floor(abs(x) + 0.5 - 1e-9), x)
+            assert solution["revolutions"][j] == int(expected)
         for name, count in zip(every["joint_names"], solution["revolutions"], strict=True):
             # our own contract: the label names every extra revolution as "j6 +1 rev"
             assert (f"{name} {count:+d} rev" in solution["branch"]) == (count != 0)
