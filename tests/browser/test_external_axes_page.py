@@ -105,9 +105,14 @@ def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_
     page.mouse.move(*start)
     page.mouse.down()
     page.mouse.move(end[0], end[1], steps=6)
+    # the drag's last FK answer: the arm drawn where the carriage is (answers of earlier mouse
+    # moves may arrive after the carriage has moved on)
     page.wait_for_function(
-        "() => { const s = window.posebridge.getState();"
-        " return Boolean(s.carriage && s.fk && s.fk.frames_position_mm[0][0] > 500); }",
+        "(x0) => { const s = window.posebridge.getState();"
+        " return Boolean(s.carriage && s.fk && s.fk.frames_position_mm[0][0] > 500"
+        " && s.fkJoints === s.joints"
+        " && Math.abs(s.fk.position_mm[0] - x0 - s.carriage.value_mm) < 1e-6); }",
+        arg=tcp_before[0],
         timeout=180_000,
     )
     riding = page.evaluate(
