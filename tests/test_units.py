@@ -14,14 +14,18 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from posebridge.units import (
+    angle_text,
     deg_from_rad,
     joint_scale_to_si,
     joint_unit_labels,
+    joint_value_text,
     joints_si_from_user,
     joints_user_from_si,
+    length_text,
     m_from_mm,
     mm_from_m,
     rad_from_deg,
+    speed_text,
 )
 
 finite = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False)
@@ -70,3 +74,42 @@ def test_joint_vectors_mix_units() -> None:
     )
     np.testing.assert_allclose(joints_user_from_si(si, prismatic), user, rtol=1e-15)
     assert joint_unit_labels(prismatic) == ["deg", "mm", "deg", "mm"]
+
+
+def test_length_text() -> None:
+    # closed form: 1 m = 1000 mm (SI), rounded to the given decimals
+    assert length_text(0.0123) == "12.3 mm"
+    assert length_text(0.0123, 0) == "12 mm"
+    assert length_text(-0.0045) == "-4.5 mm"
+    assert length_text(1.5, 0) == "1500 mm"
+    assert length_text(0.25, 2) == "250.00 mm"
+    # closed form: 0.0123456 m = 12.3456 mm, three significant digits
+    assert length_text(0.0123456, 3, significant=True) == "12.3 mm"
+    assert length_text(2.0, 3, significant=True) == "2e+03 mm"  # Python's g format: 2000 -> 2e+03
+    assert length_text(np.float64(0.003)) == "3.0 mm"
+
+
+def test_angle_text() -> None:
+    # closed form: pi rad = 180 deg (SI), rounded to the given decimals
+    assert angle_text(math.pi / 45) == "4.0°"
+    assert angle_text(math.pi / 4) == "45.0°"
+    assert angle_text(-math.pi / 2, 0) == "-90°"
+    assert angle_text(math.pi / 6, 1, unit="deg") == "30.0 deg"
+    assert angle_text(math.pi / 3, 0, unit="deg") == "60 deg"
+    # closed form: 1 rad = 57.2957795... deg
+    assert angle_text(1.0, 3, unit="deg", significant=True) == "57.3 deg"
+
+
+def test_joint_value_text_by_kind() -> None:
+    # closed form: prismatic 1 m = 1000 mm, revolute pi rad = 180 deg (SI)
+    assert joint_value_text(0.05, True) == "50.0 mm"
+    assert joint_value_text(0.05, True, 0, angle_unit="deg") == "50 mm"
+    assert joint_value_text(math.pi / 36, False) == "5.0°"
+    assert joint_value_text(math.pi / 36, False, angle_unit="deg") == "5.0 deg"
+    assert joint_value_text(-math.pi / 2, False, 2) == "-90.00°"
+
+
+def test_speed_text() -> None:
+    # closed form: 1 m/s = 1000 mm/s (SI)
+    assert speed_text(0.25) == "250 mm/s"
+    assert speed_text(1.2346, 1) == "1234.6 mm/s"

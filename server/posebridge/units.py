@@ -9,9 +9,17 @@ between the two.
 Joint vectors mix units: revolute joints are degrees at the boundary and
 radians inside, prismatic joints are millimetres at the boundary and metres
 inside. ``prismatic`` masks of shape ``(n,)`` select the prismatic joints.
+
+Domain code that puts a quantity into a message for the user (an error, a
+warning, a note) writes it with the quantity-text formatters at the end of this
+module (:func:`length_text`, :func:`angle_text`, :func:`joint_value_text`,
+:func:`speed_text`): they take the SI value and write it in the user units, so
+the domain code itself never converts.
 """
 
 from __future__ import annotations
+
+from typing import Literal
 
 import numpy as np
 import numpy.typing as npt
@@ -86,3 +94,112 @@ def joints_user_from_si(q: npt.ArrayLike, prismatic: BoolArray) -> FloatArray:
 def joint_unit_labels(prismatic: BoolArray) -> list[str]:
     """Boundary unit label per joint: ``"deg"`` or ``"mm"``."""
     return ["mm" if p else "deg" for p in np.asarray(prismatic, dtype=bool)]
+
+
+AngleUnit = Literal["°", "deg"]
+"""How an angle's unit is written: the degree sign right after the number ("4.0°") or the
+word after a space ("4.0 deg")."""
+
+
+def _number_text(value: float, digits: int, significant: bool) -> str:
+    """``value`` with ``digits`` decimals, or ``digits`` significant digits (format ``g``)."""
+    return f"{value:.{digits}{'g' if significant else 'f'}}"
+
+
+def length_text(value_m: float, digits: int = 1, *, significant: bool = False) -> str:
+    """Write a length for a message in millimetres: ``length_text(0.0123)`` is ``"12.3 mm"``.
+
+    Parameters
+    ----------
+    value_m : float
+        Length in metres.
+    digits : int
+        Decimals of the millimetre value, or significant digits if ``significant``.
+    significant : bool
+        Round to ``digits`` significant digits (Python's ``g`` format) instead of decimals.
+
+    Examples
+    --------
+    >>> length_text(0.0123)
+    '12.3 mm'
+    >>> length_text(0.25, 0)
+    '250 mm'
+    >>> length_text(0.0123456, 3, significant=True)
+    '12.3 mm'
+    """
+    return f"{_number_text(float(mm_from_m(value_m)), digits, significant)} mm"
+
+
+def angle_text(
+    value_rad: float, digits: int = 1, *, unit: AngleUnit = "°", significant: bool = False
+) -> str:
+    """Write an angle for a message in degrees: ``angle_text(math.pi / 4)`` is ``"45.0°"``.
+
+    Parameters
+    ----------
+    value_rad : float
+        Angle in radians.
+    digits : int
+        Decimals of the degree value, or significant digits if ``significant``.
+    unit : "°" or "deg"
+        The degree sign right after the number, or the word ``deg`` after a space.
+    significant : bool
+        Round to ``digits`` significant digits (Python's ``g`` format) instead of decimals.
+
+    Examples
+    --------
+    >>> import math
+    >>> angle_text(math.pi / 4)
+    '45.0°'
+    >>> angle_text(math.pi, 0, unit="deg")
+    '180 deg'
+    """
+    number = _number_text(float(deg_from_rad(value_rad)), digits, significant)
+    return f"{number}°" if unit == "°" else f"{number} deg"
+
+
+def joint_value_text(
+    value: float, prismatic: bool, digits: int = 1, *, angle_unit: AngleUnit = "°"
+) -> str:
+    """Write a joint value (position, distance to a limit, step) for a message, by joint kind.
+
+    Parameters
+    ----------
+    value : float
+        Radians for a revolute joint, metres for a prismatic joint.
+    prismatic : bool
+        The joint slides (millimetres) rather than turns (degrees).
+    digits : int
+        Decimals.
+    angle_unit : "°" or "deg"
+        How a revolute joint's unit is written, as in :func:`angle_text`.
+
+    Examples
+    --------
+    >>> joint_value_text(0.05, True)
+    '50.0 mm'
+    >>> import math
+    >>> joint_value_text(math.pi / 2, False, 0, angle_unit="deg")
+    '90 deg'
+    """
+    if prismatic:
+        return length_text(value, digits)
+    return angle_text(value, digits, unit=angle_unit)
+
+
+def speed_text(value_m_s: float, digits: int = 0) -> str:
+    """Write a linear speed for a message in mm/s: ``speed_text(0.25)`` is ``"250 mm/s"``.
+
+    Parameters
+    ----------
+    value_m_s : float
+        Speed in metres per second.
+    digits : int
+        Decimals of the millimetre-per-second value.
+
+    Examples
+    --------
+    >>> speed_text(0.25)
+    '250 mm/s'
+    """
+    return f"{float(mm_from_m(value_m_s)):.{digits}f} mm/s"
