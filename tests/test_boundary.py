@@ -25,21 +25,14 @@ STILL_CONVERTING = {
     # result models still built in the domain (the import-linter contract's ignore_imports)
     "cell/checks.py",
     "cell/log_diagnosis.py",
-    "planning/motion_export.py",
-    "planning/path_check.py",
     "planning/placement.py",
-    "planning/rrt.py",
-    "planning/sequence_report.py",
     # mm/deg in messages, file units and the external-axis boundary helpers
     "cell/external_axes.py",
     "cell/scene.py",
     "geometry/mesh_display.py",
     "geometry/mesh_files.py",
     "kinematics/ik/numeric.py",
-    "planning/solution_sequence.py",
     "spaces/joint_map.py",
-    "spaces/planar_boundary.py",
-    "spaces/workspace.py",
 }
 
 

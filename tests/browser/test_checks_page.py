@@ -223,11 +223,14 @@ def test_fastest_sequence_is_drawn_and_used(
     open_page: Any, cell_path: Path, artifacts: Path
 ) -> None:
     from posebridge.planning.sequence_report import optimise_path
+    from posebridge.results.sequence import sequence_result
 
     page = open_page.page
     scene = resolve_scene(load_cell(cell_path), cell_path)
     index = [p.name for p in scene.paths].index("unload-to-conveyor")
-    expected = optimise_path(scene, index)  # the Python API on the file the server reads
+    expected = sequence_result(
+        optimise_path(scene, index)
+    )  # the Python API on the file the server reads
     page.select_option("#path-select", "unload-to-conveyor")
     href = page.get_attribute("#path-export-csv", "href")
     assert href == "/api/cell/paths/unload-to-conveyor/export.csv"

@@ -31,6 +31,7 @@ from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
 from posebridge.results.cell import TargetCheckReport
 from posebridge.results.cell_text import render_target_check
+from posebridge.results.path_check import path_check_result
 
 ROBOTS = data_folder("robots")
 RAW = json.loads((ROBOTS / "demo-cell.json").read_text())
@@ -423,7 +424,7 @@ def test_cell_thresholds_are_used_by_the_target_check() -> None:
 
 def test_path_check_warns_where_the_target_check_warns(report, demo_scene, fcl_cell) -> None:
     index = [p.name for p in demo_scene.paths].index("load-press")
-    path = check_path(demo_scene, index)
+    path = path_check_result(check_path(demo_scene, index))
     # the cell file: waypoint 1 of load-press is the press-load target, reached by a linear move
     q = sample_path(demo_scene, index).waypoint_q[1]
     distances = fcl_cell.obstacle_distances(q)
@@ -460,7 +461,7 @@ def test_environment_and_self_clearance_are_reported_apart(report, demo_scene, f
     assert "press-die" in row
     assert best.closest_self.other in row
     index = [p.name for p in demo_scene.paths].index("load-press")
-    path = check_path(demo_scene, index)
+    path = path_check_result(check_path(demo_scene, index))
     sampled = sample_path(demo_scene, index)
     reached = np.concatenate([s.q[s.reachable] for s in sampled.segments])
     reference = min(min(fcl_cell.obstacle_distances(q).values()) for q in reached)

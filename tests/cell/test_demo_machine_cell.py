@@ -36,6 +36,8 @@ from posebridge.planning.placement import PlacementGrid, search_base_placement
 from posebridge.planning.rrt import plan_joint_move
 from posebridge.resources import data_folder
 from posebridge.results.diagnosis import pose_diagnosis_result
+from posebridge.results.joint_plan import joint_plan_result
+from posebridge.results.path_check import path_check_result
 
 CELL = data_folder("robots") / "demo-machine-cell.json"
 
@@ -106,15 +108,17 @@ def test_door_target_collides_when_the_housing_is_a_box() -> None:
 
 
 def test_demo_path_is_clear_and_the_planner_finds_a_way_in(scene: Scene) -> None:
-    report = check_path(scene, 0)
+    report = path_check_result(check_path(scene, 0))
     assert report.ok, [f.message for f in report.findings]  # the demo's promise
     check = check_targets(scene)
     joints = {
         t.name: np.radians(t.target.branches[t.target.recommended].joints_deg)
         for t in check.targets
     }
-    plan = plan_joint_move(
-        scene, joints["conveyor-pick"], joints["machine-table"], seed=1, max_checks=300_000
+    plan = joint_plan_result(
+        plan_joint_move(
+            scene, joints["conveyor-pick"], joints["machine-table"], seed=1, max_checks=300_000
+        )
     )
     # RRT-Connect (Kuffner & LaValle 2000) through the door with the 10 mm margin
     assert plan.status == "solved", plan.message

@@ -18,7 +18,8 @@ from posebridge.planning.path_check import check_path
 from posebridge.planning.rrt import plan_joint_move
 from posebridge.resources import data_folder
 from posebridge.results.diagnosis import pose_diagnosis_result
-from posebridge.results.planning_text import render_joint_plan, render_path_check
+from posebridge.results.joint_plan import joint_plan_result, render_joint_plan
+from posebridge.results.path_check import path_check_result, render_path_check
 from posebridge.results.robots import robot_description_result
 from posebridge.results.spaces import joint_map_result
 from posebridge.robot.library import load_robot
@@ -50,11 +51,11 @@ def test_every_clearance_answer_flags_missing_geometry(bare_scene: Scene) -> Non
     pose = pose_diagnosis_result(diagnose_pose(bare_scene, robot.home_configuration()))
     assert pose.robot_geometry_missing == GEOMETRY_MISSING
     assert any(f.code == "robot-geometry-missing" for f in pose.findings)
-    path = check_path(bare_scene, 0)
+    path = path_check_result(check_path(bare_scene, 0))
     assert path.robot_geometry_missing == GEOMETRY_MISSING
     assert render_path_check(path).startswith("WARNING: ROBOT GEOMETRY IS MISSING")
     q = robot.home_configuration()
-    plan = plan_joint_move(bare_scene, q, q, time_limit_s=1.0)
+    plan = joint_plan_result(plan_joint_move(bare_scene, q, q, time_limit_s=1.0))
     assert plan.robot_geometry_missing == GEOMETRY_MISSING
     assert render_joint_plan(plan).startswith("WARNING: ROBOT GEOMETRY IS MISSING")
     computed = joint_map(clearance_scene(bare_scene), [1, 2], q, resolution=8)

@@ -25,7 +25,7 @@ from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
-from posebridge.results.planning_text import render_path_check
+from posebridge.results.path_check import path_check_result, render_path_check
 
 UNIT_RAD_DEG = math.degrees(1.0)
 
@@ -303,7 +303,7 @@ def test_path_check_reports_blended_beside_rest_to_rest() -> None:
         TWO_AXIS_ARM,
         [joints([0.0, 30.0]), joints([end / 2, 30.0], blend_mm=50.0), joints([end, 30.0])],
     )
-    report = check_path(scene, 0)
+    report = path_check_result(check_path(scene, 0))
     assert report.cycle_time_s is not None
     assert report.blended_cycle_time_s is not None
     # closed form (Lynch & Park, Modern Robotics, sec. 9.2.2.2): one trapezoid over 1 rad at

@@ -21,6 +21,7 @@ from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
 from posebridge.planning.time_scaling import joint_move
+from posebridge.results.path_check import path_check_result
 from posebridge.robot.library import load_robot
 
 
@@ -105,7 +106,7 @@ def test_linear_move_capped_by_joint_velocity() -> None:
     scene = gantry_cell(
         [down(500.0, motion="joint", speed_percent=100.0), down(1000.0, speed_mm_s=2000.0)]
     )
-    report = check_path(scene, 0)
+    report = path_check_result(check_path(scene, 0))
     segment = report.segments[0]
     assert segment.speed_capped
     # closed form: dq_x/ds = 1 caps the speed at the x axis' 1500 mm/s; with 2 m/s^2 the
@@ -123,7 +124,7 @@ def test_cycle_time_is_the_sum_of_rest_to_rest_segments() -> None:
             down(500.0, speed_mm_s=250.0),
         ]
     )
-    report = check_path(scene, 0)
+    report = path_check_result(check_path(scene, 0))
     # closed forms: the joint move is x: 0.5 m at 50 % of 1.5 m/s and 3 m/s^2 (0.75 m/s,
     # 0.75 m/s^2): 0.5 < 0.75^2 / 0.75, triangular 2 sqrt(0.5 / 0.75) s; the linear move back
     # 0.5 / 0.25 + 0.25 / 2 s (Lynch & Park sec. 9.2.2.2); no blend shortens them
@@ -137,7 +138,7 @@ def test_jerk_limit_lengthens_the_linear_move() -> None:
     scene = gantry_cell(
         [down(500.0, motion="joint", speed_percent=100.0), down(1000.0, speed_mm_s=250.0)]
     )
-    report = check_path(scene, 0, linear_jerk_mm_s3=100_000.0)
+    report = path_check_result(check_path(scene, 0, linear_jerk_m_s3=100.0))
     # closed form (Biagiotti & Melchiorri 2008, sec. 3.4): v j = 25 >= a^2 = 4 and
     # h = 0.5 >= v (a / j + v / a), so all three limits are reached and the double-S profile
     # lasts h / v + v / a + a / j = 0.5 / 0.25 + 0.25 / 2 + 2 / 100 s

@@ -15,6 +15,7 @@ from posebridge.kinematics.fk import fk_tool
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
+from posebridge.results.path_check import path_check_result
 from posebridge.transforms import invert_transform
 from posebridge.units import m_from_mm, rad_from_deg
 
@@ -66,7 +67,7 @@ def test_path_check_sees_an_obstacle_the_track_passes_in_the_middle() -> None:
     middle = _tool_at_track(probe, 1.7)[:3, 3] * 1000.0  # the tool halfway, mm
     post = {"name": "post", "shape": "box", "position_mm": middle.tolist(), "size_mm": [60.0] * 3}
     scene = _scene(probe.cell.model_dump(mode="json")["paths"], [post])
-    report = check_path(scene, 0)
+    report = path_check_result(check_path(scene, 0))
     hits = [f for f in report.findings if f.kind == "collision" and f.obstacle == "post"]
     assert hits, "the tool crosses the post halfway along the track"
     # closed form: the post is centred on the TCP at track 1700 mm (half of the travel), and

@@ -14,6 +14,7 @@ from posebridge.planning.cycle_time import ExternalAxisMotion, path_cycle_time
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
 from posebridge.resources import data_folder
+from posebridge.results.path_check import path_check_result
 
 DEMO = data_folder("robots") / "demo-track-cell.json"
 SPEED_M_S = 1.5  # the demo track's 1500 mm/s
@@ -52,7 +53,7 @@ def test_track_only_move_is_the_trapezoid_closed_form(travel_mm: float, percent:
 
 def test_demo_path_reaches_the_mill_at_its_pinned_track_value() -> None:
     scene = resolve_scene(load_cell(DEMO), DEMO)
-    report = check_path(scene, 0)
+    report = path_check_result(check_path(scene, 0))
     # demo notes: the mill is reachable only with the track moved; the path pins it at 3300 mm
     assert not [f for f in report.findings if f.severity == "error"]
     assert scene.paths[0].external[-1, 0] == pytest.approx(3.3)  # the pin, in m

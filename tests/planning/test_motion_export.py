@@ -12,9 +12,11 @@ from posebridge.cell.joint_log import parse_joint_log
 from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.planning.errors import PlanningInputError
-from posebridge.planning.motion_export import export_motion, motion_csv, motion_json
+from posebridge.planning.motion_export import export_motion
 from posebridge.planning.path_check import check_path
 from posebridge.resources import data_folder
+from posebridge.results.motion_export import motion_csv, motion_export_result, motion_json
+from posebridge.results.path_check import path_check_result
 
 DEMO = data_folder("robots") / "demo-cell.json"
 
@@ -26,7 +28,9 @@ def demo() -> Scene:
 
 def test_csv_export_round_trips_through_the_pose_check(demo: Scene) -> None:
     index = [p.name for p in demo.paths].index("pick-from-rack")
-    report = export_motion(demo, index, period_ms=4.0, cell_name="demo-cell.json")
+    report = motion_export_result(
+        export_motion(demo, index, period_ms=4.0), cell_name="demo-cell.json"
+    )
     text = motion_csv(report)
     log = parse_joint_log(text, demo.robot, source="export.csv")
     columns = report.columns
@@ -49,7 +53,7 @@ def test_csv_export_round_trips_through_the_pose_check(demo: Scene) -> None:
     # the replay reproduces the path: the path check's waypoint configurations are passed
     # through at the stops and within the blend radius elsewhere (the path check is the
     # reference for the configurations, the cell file for the blend radii)
-    check = check_path(demo, index)
+    check = path_check_result(check_path(demo, index))
     path = demo.cell.paths[index]
     for w, waypoint in enumerate(check.waypoints):
         assert waypoint.joints_deg is not None
@@ -62,7 +66,9 @@ def test_csv_export_round_trips_through_the_pose_check(demo: Scene) -> None:
 
 
 def test_json_export_has_the_header_block_and_units(demo: Scene) -> None:
-    report = export_motion(demo, 0, period_ms=10.0, cell_name="demo-cell.json")
+    report = motion_export_result(
+        export_motion(demo, 0, period_ms=10.0), cell_name="demo-cell.json"
+    )
     data = json.loads(motion_json(report))
     header = data["header"]
     assert header["cell"] == "demo-cell.json"

@@ -20,8 +20,12 @@ from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path, slerp
 from posebridge.resources import data_folder
-from posebridge.results.planning import PathCheckReport, PathFinding
-from posebridge.results.planning_text import render_path_check
+from posebridge.results.path_check import (
+    PathCheckReport,
+    PathFinding,
+    path_check_result,
+    render_path_check,
+)
 from posebridge.robot.library import load_robot
 from posebridge.transforms import (
     quaternion_from_rotation_matrix,
@@ -64,7 +68,7 @@ def test_collision_with_a_box_under_the_line() -> None:
         [down(500.0, motion="joint", speed_percent=100.0), down(1000.0, speed_mm_s=250.0)],
         fixtures=[box],
     )
-    report = check_path(scene, 0, resolution_mm=5.0)
+    report = path_check_result(check_path(scene, 0, resolution_m=0.005))
     (hit,) = of_kind(report, "collision")
     # closed form: the head capsule (axis from the TCP 30 mm down, radius 45 mm) dips
     # sqrt(45^2 - d^2) below its axis end at horizontal distance d, so it reaches the box top
@@ -90,7 +94,7 @@ def test_unreachable_beyond_the_axis_travel() -> None:
         "pb-gantry3",
         [down(1500.0, motion="joint", speed_percent=100.0), down(2500.0, speed_mm_s=250.0)],
     )
-    report = check_path(scene, 0, resolution_mm=5.0)
+    report = path_check_result(check_path(scene, 0, resolution_m=0.005))
     (gap,) = of_kind(report, "unreachable")
     # closed form: the x axis ends at 2000 mm (pb-gantry3.toml), half way along 1500..2500 mm;
     # the first sample past it is one 5 mm step (fraction 0.005) later
@@ -105,7 +109,7 @@ def test_speed_demand_above_the_joint_limit() -> None:
         "pb-gantry3",
         [down(500.0, motion="joint", speed_percent=100.0), down(1000.0, speed_mm_s=2000.0)],
     )
-    (limit,) = of_kind(check_path(scene, 0), "speed_limit")
+    (limit,) = of_kind(path_check_result(check_path(scene, 0)), "speed_limit")
     # closed form: along x, dq_x/ds = 1, so the highest speed is the x axis' 1500 mm/s
     assert limit.speed_mm_s == pytest.approx(1500.0, abs=1e-6)
     assert limit.joint == "x"
@@ -122,7 +126,8 @@ def test_joint_limit_margin_and_values_outside_the_limits() -> None:
         ],
     )
     findings = of_kind(
-        check_path(scene, 0, thresholds=QualityThresholds(limit_margin_mm=10.0)), "joint_limit"
+        path_check_result(check_path(scene, 0, thresholds=QualityThresholds(limit_margin_mm=10.0))),
+        "joint_limit",
     )
     near = [f for f in findings if f.severity == "warning" and f.segment_index == 0]
     outside = [f for f in findings if f.severity == "error"]
@@ -155,7 +160,9 @@ def test_linear_move_through_the_wrist_singularity_is_an_error() -> None:
     scene = cell(
         "pb-arm6", [joints(np.degrees(q_a).tolist()), _pose_waypoint(T_b)], floor_height_mm=-2000.0
     )
-    report = check_path(scene, 0, resolution_mm=1.0, resolution_deg=0.5)
+    report = path_check_result(
+        check_path(scene, 0, resolution_m=0.001, resolution_rad=np.radians(0.5))
+    )
     changes = [f for f in report.findings if f.kind in ("branch_change", "configuration_jump")]
     # closed form: the move mirrors the wrist bend j5 = +10 deg -> -10 deg about the straight
     # wrist, so half way the orientation (slerp) is the straight-wrist one and j5 must pass 0
@@ -184,7 +191,7 @@ def test_demo_paths_tie_findings_to_their_segments() -> None:
     path = data_folder("robots") / "demo-cell.json"
     scene = resolve_scene(load_cell(path), path)
     for index in range(len(scene.paths)):
-        report = check_path(scene, index)
+        report = path_check_result(check_path(scene, index))
         names = {(s.index, s.from_waypoint, s.to_waypoint) for s in report.segments}
         for finding in report.findings:
             if finding.kind != "waypoint":
@@ -200,7 +207,7 @@ def test_demo_return_joint_move_hits_the_press_column() -> None:
     path = data_folder("robots") / "demo-cell.json"
     scene = resolve_scene(load_cell(path), path)
     index = [p.name for p in scene.paths].index("unload-to-conveyor")
-    report = check_path(scene, index)
+    report = path_check_result(check_path(scene, index))
     (hit,) = [f for f in report.findings if f.kind == "collision"]
     last = report.segments[-1]
     # the cell file: the path ends with a joint move back to the start configuration
@@ -241,9 +248,9 @@ def test_joint_waypoints_are_used_as_given() -> None:
 def test_bad_path_index_is_refused() -> None:
     scene = cell("pb-gantry3", [down(500.0, motion="joint", speed_percent=100.0)])
     with pytest.raises(PlanningInputError, match=r"path: expected an index in 0\.\.0, got 3"):
-        check_path(scene, 3)
-    with pytest.raises(PlanningInputError, match="resolution_mm"):
-        check_path(scene, 0, resolution_mm=0.0)
+        path_check_result(check_path(scene, 3))
+    with pytest.raises(PlanningInputError, match="resolution_m"):
+        path_check_result(check_path(scene, 0, resolution_m=0.0))
 
 
 def test_clearance_threshold_comes_from_the_cell() -> None:
@@ -263,7 +270,7 @@ def test_clearance_threshold_comes_from_the_cell() -> None:
             fixtures=[box],
             thresholds={"clearance_mm": clearance_mm},
         )
-        report = check_path(scene, 0, resolution_mm=5.0)
+        report = path_check_result(check_path(scene, 0, resolution_m=0.005))
         near = [f for f in of_kind(report, "low_clearance") if f.obstacle == "block"]
         assert bool(near) == warned
         if warned:
@@ -275,7 +282,7 @@ def test_stopping_near_a_singularity_is_a_warning_as_in_the_target_check() -> No
     start = [30.0, 0.0, 0.0, 0.0, 40.0, 0.0]
     stop = [0.0, 0.0, 0.0, 0.0, 3.0, 0.0]
     scene = cell("pb-arm6", [joints(start), joints(stop)], floor_height_mm=-2000.0)
-    report = check_path(scene, 0, resolution_deg=0.5)
+    report = path_check_result(check_path(scene, 0, resolution_rad=np.radians(0.5)))
     wrist = [f for f in of_kind(report, "singularity") if "wrist" in f.message]
     # closed form: pb-arm6's wrist is straight at j5 = 0 (j4 and j6 both turn about x in
     # robots/pb-arm6.toml), so the arm stops 3 deg from the wrist singularity, below the

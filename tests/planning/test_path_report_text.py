@@ -5,14 +5,14 @@ from __future__ import annotations
 
 from typing import Any
 
-from posebridge.results.planning import (
+from posebridge.results.path_check import (
     PathCheckReport,
     PathFinding,
     SegmentReport,
     group_path_findings,
     path_finding_cause,
+    render_path_check,
 )
-from posebridge.results.planning_text import render_path_check
 
 
 def _finding(segment: int, distance_mm: float | None, **fields: Any) -> PathFinding:

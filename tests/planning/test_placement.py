@@ -29,6 +29,7 @@ from posebridge.planning.placement import (
     search_base_placement,
 )
 from posebridge.resources import data_folder
+from posebridge.results.path_check import path_check_result
 from posebridge.results.planning import PlacementReport
 from posebridge.results.planning_text import render_placement
 
@@ -222,7 +223,7 @@ def test_blended_cycle_time_of_the_best_candidates_matches_the_path_check() -> N
             }
         )
         moved = resolve_scene(cell.model_copy(update={"base": at_candidate}))
-        checks = [check_path(moved, k) for k in range(len(moved.paths))]
+        checks = [path_check_result(check_path(moved, k)) for k in range(len(moved.paths))]
         # reference: the path check of the same cell with its base moved to the candidate
         expected = [check.blended_cycle_time_s for check in checks]
         assert None not in expected

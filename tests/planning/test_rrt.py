@@ -20,7 +20,7 @@ from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_sampling import sample_path
 from posebridge.planning.rrt import edge_configurations, lever_arms, plan_joint_move
 from posebridge.resources import data_folder
-from posebridge.results.planning_text import render_joint_plan
+from posebridge.results.joint_plan import joint_plan_result, render_joint_plan
 from posebridge.robot.library import load_robot
 
 START = np.radians([60.0, 30.0, 10.0, 0.0, 20.0, 0.0])
@@ -111,7 +111,7 @@ def test_edge_steps_bound_every_capsule_point(seed: int) -> None:
 
 
 def test_plans_around_the_press_column(demo: Scene) -> None:
-    report = plan_joint_move(demo, START, GOAL, seed=7, safety_margin_mm=10.0)
+    report = joint_plan_result(plan_joint_move(demo, START, GOAL, seed=7, safety_margin_m=0.01))
     assert report.status == "solved"
     # the straight move is refused; python-fcl confirms it comes closer than the margin
     # (the cell file: it sweeps past both press columns; the report names its worst point)
@@ -142,8 +142,8 @@ def test_plans_around_the_press_column(demo: Scene) -> None:
 
 
 def test_same_seed_same_path(demo: Scene) -> None:
-    first = plan_joint_move(demo, START, GOAL, seed=11, recheck=False)
-    second = plan_joint_move(demo, START, GOAL, seed=11, recheck=False)
+    first = joint_plan_result(plan_joint_move(demo, START, GOAL, seed=11, recheck=False))
+    second = joint_plan_result(plan_joint_move(demo, START, GOAL, seed=11, recheck=False))
     # common practice, no source: a seeded planner ended by success repeats itself exactly
     assert first.status == second.status == "solved"
     assert first.waypoints_deg == second.waypoints_deg
@@ -152,7 +152,7 @@ def test_same_seed_same_path(demo: Scene) -> None:
 
 def test_goal_in_collision_is_refused_with_the_obstacle(demo: Scene) -> None:
     goal = np.radians([0.0, 60.0, 0.0, 0.0, 0.0, 0.0])
-    report = plan_joint_move(demo, START, goal)
+    report = joint_plan_result(plan_joint_move(demo, START, goal))
     # reference: python-fcl puts the goal configuration inside the press bed
     environment, _ = fcl_min_distance(demo, goal[None])
     assert environment < 0.0
@@ -164,7 +164,7 @@ def test_goal_in_collision_is_refused_with_the_obstacle(demo: Scene) -> None:
 
 
 def test_no_path_within_the_time_limit(demo: Scene) -> None:
-    report = plan_joint_move(demo, START, GOAL, time_limit_s=0.0)
+    report = joint_plan_result(plan_joint_move(demo, START, GOAL, time_limit_s=0.0))
     assert report.status == "timeout"
     assert report.message.startswith("no path found within the time limit")
     assert report.waypoints_deg == []
@@ -172,7 +172,7 @@ def test_no_path_within_the_time_limit(demo: Scene) -> None:
 
 def test_free_straight_move_is_returned_directly(demo: Scene) -> None:
     goal = START + np.radians([5.0, 0.0, 0.0, 0.0, 0.0, 0.0])
-    report = plan_joint_move(demo, START, goal, recheck=False)
+    report = joint_plan_result(plan_joint_move(demo, START, goal, recheck=False))
     # reference: python-fcl finds the short straight move 10 mm clear of every obstacle
     q = edge_configurations(START, goal, lever_arms(clearance_scene(demo).arm), 0.01)
     assert fcl_min_distance(demo, q)[0] >= 0.01
@@ -182,12 +182,14 @@ def test_free_straight_move_is_returned_directly(demo: Scene) -> None:
 
 def test_bad_requests_are_refused(demo: Scene) -> None:
     with pytest.raises(PlanningInputError, match="q_goal: expected 6 finite joint values"):
-        plan_joint_move(demo, START, np.zeros(5))
-    with pytest.raises(PlanningInputError, match="motion_step_mm"):
-        plan_joint_move(demo, START, GOAL, safety_margin_mm=5.0, motion_step_mm=8.0)
+        joint_plan_result(plan_joint_move(demo, START, np.zeros(5)))
+    with pytest.raises(PlanningInputError, match="motion_step_m"):
+        joint_plan_result(
+            plan_joint_move(demo, START, GOAL, safety_margin_m=0.005, motion_step_m=0.008)
+        )
     outside = START.copy()
     outside[0] = np.radians(175.0)  # j1 limit is 167 deg (pb-arm6.toml)
-    assert plan_joint_move(demo, outside, GOAL).status == "outside_limits"
+    assert joint_plan_result(plan_joint_move(demo, outside, GOAL)).status == "outside_limits"
 
 
 def test_straight_move_is_described_by_its_worst_point() -> None:
@@ -208,8 +210,8 @@ def test_straight_move_is_described_by_its_worst_point() -> None:
     }
     scene = resolve_scene(validate_cell(data))
     q_start, q_goal = sample_path(scene, 0).waypoint_q
-    report = plan_joint_move(
-        scene, q_start, q_goal, time_limit_s=1.0, max_checks=2000, recheck=False
+    report = joint_plan_result(
+        plan_joint_move(scene, q_start, q_goal, time_limit_s=1.0, max_checks=2000, recheck=False)
     )
     # closed form (as in test_path_check): the gantry's straight joint move carries the TCP on
     # the line x 500 -> 1000 mm; the head capsule's lowest point (925 mm) is 25 mm inside the

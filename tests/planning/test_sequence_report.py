@@ -1,4 +1,4 @@
-"""The optimiser at the user boundary: the report, its words, and edits the path check follows."""
+"""The optimiser and its result at the user boundary: the report, its words, and edits the path check follows."""
 
 from __future__ import annotations
 
@@ -11,8 +11,8 @@ from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
 from posebridge.planning.sequence_report import optimise_path, with_waypoint_joints
 from posebridge.resources import data_folder
-from posebridge.results.planning import WaypointJoints
-from posebridge.results.planning_text import render_sequence
+from posebridge.results.path_check import path_check_result
+from posebridge.results.sequence import WaypointJoints, render_sequence, sequence_result
 
 DEMO = data_folder("robots") / "demo-cell.json"
 
@@ -22,11 +22,11 @@ def test_edits_make_the_path_check_follow_the_fastest_sequence(name: str) -> Non
     cell = load_cell(DEMO)
     scene = resolve_scene(cell, DEMO)
     index = [p.name for p in scene.paths].index(name)
-    report = optimise_path(scene, index)
+    report = sequence_result(optimise_path(scene, index))
     assert report.feasible
     assert report.best is not None
     edited = with_waypoint_joints(cell, index, report.edits)
-    check = check_path(resolve_scene(edited, DEMO), index)
+    check = path_check_result(check_path(resolve_scene(edited, DEMO), index))
     # reference: the path check of the edited cell chooses the optimiser's configurations
     for chosen, best in zip(check.waypoints, report.best.waypoints, strict=True):
         assert chosen.joints_deg is not None
@@ -46,7 +46,7 @@ def test_edits_make_the_path_check_follow_the_fastest_sequence(name: str) -> Non
 def test_demo_unload_path_states_the_broken_constraint_and_the_price() -> None:
     scene = resolve_scene(load_cell(DEMO), DEMO)
     index = [p.name for p in scene.paths].index("unload-to-conveyor")
-    report = optimise_path(scene, index)
+    report = sequence_result(optimise_path(scene, index))
     # the demo's return joint move hits the press column today (the path check finds it)
     assert [v.reason for v in report.current.violations] == ["collision"]
     assert report.saving_s is not None
@@ -65,7 +65,7 @@ def test_demo_unload_path_states_the_broken_constraint_and_the_price() -> None:
 def test_fastest_sequence_is_never_slower_when_the_current_choice_is_valid() -> None:
     scene = resolve_scene(load_cell(DEMO), DEMO)
     for index in range(len(scene.paths)):
-        report = optimise_path(scene, index, limit_margin_deg=2.0)
+        report = sequence_result(optimise_path(scene, index, limit_margin_deg=2.0))
         if report.current.violations or report.best is None:
             continue
         assert report.best.cycle_time_s is not None
@@ -94,12 +94,12 @@ def test_limit_margin_comes_from_the_cell_thresholds_unless_given() -> None:
     strict = cell.thresholds.model_copy(update={"limit_margin_deg": 12.0, "limit_margin_mm": 7.0})
     scene = resolve_scene(cell.model_copy(update={"thresholds": strict}), DEMO)
     index = 0
-    from_cell = optimise_path(scene, index)
+    from_cell = sequence_result(optimise_path(scene, index))
     # our own contract: the cell's thresholds are the default margins
     assert (from_cell.limit_margin_deg, from_cell.limit_margin_mm) == (12.0, 7.0)
-    given = optimise_path(scene, index, limit_margin_deg=12.0, limit_margin_mm=7.0)
+    given = sequence_result(optimise_path(scene, index, limit_margin_deg=12.0, limit_margin_mm=7.0))
     assert given == from_cell  # the same search as naming them
-    overridden = optimise_path(scene, index, limit_margin_deg=1.0)
+    overridden = sequence_result(optimise_path(scene, index, limit_margin_deg=1.0))
     assert (overridden.limit_margin_deg, overridden.limit_margin_mm) == (1.0, 7.0)
     if overridden.best is not None:
         # every chosen configuration keeps the 1 deg margin (joint limits of the cell's robot)

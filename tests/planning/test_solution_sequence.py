@@ -31,6 +31,7 @@ from posebridge.planning.solution_sequence import (
     segment_costs,
 )
 from posebridge.resources import data_folder
+from posebridge.results.path_check import path_check_result
 from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
 
 ARM = """
@@ -287,7 +288,7 @@ def demo() -> Scene:
 def test_demo_optimum_is_never_slower_than_a_feasible_current_choice(demo: Scene) -> None:
     for index in range(len(demo.paths)):
         result = optimise_sequence(demo, index)
-        report = check_path(demo, index)
+        report = path_check_result(check_path(demo, index))
         # reference: the path check of the current choice finds the same collisions
         collided = {f.segment_index for f in report.findings if f.kind == "collision"}
         assert collided == {v.segment for v in result.current.violations if v.reason == "collision"}
@@ -327,7 +328,7 @@ def test_chosen_sequence_passes_the_path_check(demo: Scene) -> None:
     assert result.best is not None
     path = demo.paths[index]
     given = replace(path, q=result.best.q, joints_given=np.ones(len(path.sources), dtype=bool))
-    report = check_path(demo, given)
+    report = path_check_result(check_path(demo, given))
     # reference: the path check on the chosen joint values: no error of any kind, and the
     # rest-to-rest cycle time the optimiser summed
     assert [f for f in report.findings if f.severity == "error"] == []

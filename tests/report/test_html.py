@@ -29,6 +29,7 @@ from posebridge.planning.path_check import check_path
 from posebridge.report import SAFETY_CAUTION, ReportError, build_report, write_report
 from posebridge.report.html import plotly_script
 from posebridge.resources import data_folder
+from posebridge.results.path_check import path_check_result
 from posebridge.review.comments import CommentStore, Pin, comments_path_for
 
 HOSTILE = "<script>alert(1)</script>"
@@ -175,7 +176,9 @@ def test_report_shows_cycle_times_of_path_check(demo_html: str, demo_cell: Path)
     shown = html_text.unescape(demo_html)  # the text a reader sees (stdlib unescaping)
     assert scene.paths
     for p in range(len(scene.paths)):
-        reference = check_path(scene, p)  # the path check's own result is the reference
+        reference = path_check_result(
+            check_path(scene, p)
+        )  # the path check's own result is the reference
         assert reference.cycle_time_s is not None
         assert reference.blended_cycle_time_s is not None
         assert (

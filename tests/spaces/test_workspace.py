@@ -171,15 +171,16 @@ def test_best_manipulability_matches_pinocchio(robot, pin_arm, arm6_map) -> None
         assert result.best_manipulability[i, j, k] == pytest.approx(w.max(), rel=1e-9)
 
 
-def test_sections_are_voxel_layers_with_axes_in_mm(arm6_map) -> None:
+def test_sections_are_voxel_layers_with_their_axes(arm6_map) -> None:
     result = arm6_map
     k = 5
     plan = reach_section(result, axis="z", value_m=result.z[k] + 0.1)
     np.testing.assert_array_equal(plan.count, result.count[:, :, k].T)
     assert (plan.u_axis, plan.v_axis) == ("x", "y")
-    np.testing.assert_allclose(plan.u_mm, result.x * 1000.0)  # 1 m = 1000 mm
-    np.testing.assert_allclose(plan.v_mm, result.y * 1000.0)
-    assert plan.value_mm == pytest.approx(result.z[k] * 1000.0)
+    # closed form: a z section's axes are the map's x and y centres, its value the layer's z
+    np.testing.assert_array_equal(plan.u_m, result.x)
+    np.testing.assert_array_equal(plan.v_m, result.y)
+    assert plan.value_m == result.z[k]
     side = reach_section(result, axis="y", value_m=result.y[3])
     np.testing.assert_array_equal(side.count, result.count[:, 3, :].T)
     np.testing.assert_array_equal(side.best_manipulability, result.best_manipulability[:, 3, :].T)

@@ -23,7 +23,7 @@ from posebridge.cli.common import (
     print_results,
 )
 from posebridge.cli.options import SharedOptions, options
-from posebridge.units import FloatArray
+from posebridge.units import FloatArray, m_from_mm
 
 
 def _parse_range(text: str, what: str) -> FloatArray:
@@ -68,15 +68,17 @@ def _path_index(scene: Any, name: str) -> int:
 
 def _cmd_optimise(args: argparse.Namespace, scene: Any, chosen: list[int]) -> int:
     from posebridge.planning.sequence_report import optimise_path
-    from posebridge.results.planning_text import render_sequence
+    from posebridge.results.sequence import render_sequence, sequence_result
 
     reports = [
-        optimise_path(
-            scene,
-            i,
-            limit_margin_deg=args.limit_margin_deg,
-            limit_margin_mm=args.limit_margin_mm,
-            resolution_mm=args.resolution_mm,
+        sequence_result(
+            optimise_path(
+                scene,
+                i,
+                limit_margin_deg=args.limit_margin_deg,
+                limit_margin_mm=args.limit_margin_mm,
+                resolution_mm=args.resolution_mm,
+            )
         )
         for i in chosen
     ]
@@ -87,7 +89,7 @@ def _cmd_optimise(args: argparse.Namespace, scene: Any, chosen: list[int]) -> in
 
 def _cmd_paths(args: argparse.Namespace) -> int:
     from posebridge.planning.path_check import check_path
-    from posebridge.results.planning_text import render_path_check
+    from posebridge.results.path_check import path_check_result, render_path_check
 
     scene = load_scene(args.cell, quiet=args.quiet)
     if args.path is not None:
@@ -95,7 +97,10 @@ def _cmd_paths(args: argparse.Namespace) -> int:
     chosen = [i for i, p in enumerate(scene.paths) if args.path in (None, p.name)]
     if args.optimise:
         return _cmd_optimise(args, scene, chosen)
-    reports = [check_path(scene, i, resolution_mm=args.resolution_mm) for i in chosen]
+    reports = [
+        path_check_result(check_path(scene, i, resolution_m=float(m_from_mm(args.resolution_mm))))
+        for i in chosen
+    ]
     return print_results(
         reports, render_path_check, as_json=args.json, failed=lambda report: not report.ok
     )
@@ -104,7 +109,8 @@ def _cmd_paths(args: argparse.Namespace) -> int:
 def _cmd_export(args: argparse.Namespace) -> int:
     from pathlib import Path
 
-    from posebridge.planning.motion_export import export_motion, motion_csv, motion_json
+    from posebridge.planning.motion_export import export_motion
+    from posebridge.results.motion_export import motion_csv, motion_export_result, motion_json
 
     output = Path(args.output)
     kind = output.suffix.lower()
@@ -113,12 +119,14 @@ def _cmd_export(args: argparse.Namespace) -> int:
             f"-o/--output: expected a .csv or .json file, got {args.output!r}"
         )
     scene = load_scene(args.cell, quiet=args.quiet)
-    report = export_motion(
-        scene,
-        _path_index(scene, args.path),
-        period_ms=args.period_ms,
+    report = motion_export_result(
+        export_motion(
+            scene,
+            _path_index(scene, args.path),
+            period_ms=args.period_ms,
+            resolution_m=float(m_from_mm(args.resolution_mm)),
+        ),
         cell_name=Path(args.cell).name,
-        resolution_mm=args.resolution_mm,
     )
     text = motion_csv(report) if kind == ".csv" else motion_json(report)
     try:
@@ -138,13 +146,15 @@ def _cmd_export(args: argparse.Namespace) -> int:
 
 def _cmd_plan(args: argparse.Namespace) -> int:
     from posebridge.planning.rrt import plan_joint_move
-    from posebridge.results.planning_text import render_joint_plan
+    from posebridge.results.joint_plan import joint_plan_result, render_joint_plan
 
     scene = load_scene(args.cell, quiet=args.quiet)
     robot = scene.robot
     start = joints_argument(args.start, "--from", robot)
     goal = joints_argument(args.goal, "--to", robot)
-    report = plan_joint_move(scene, start, goal, seed=args.seed, time_limit_s=args.time_limit_s)
+    report = joint_plan_result(
+        plan_joint_move(scene, start, goal, seed=args.seed, time_limit_s=args.time_limit_s)
+    )
     return print_results(
         report,
         render_joint_plan,

@@ -25,7 +25,8 @@ from posebridge.cli.options import SharedOptions, options
 
 def _cmd_reach(args: argparse.Namespace) -> int:
     from posebridge.kinematics.warm import warm_kinematics
-    from posebridge.spaces.planar_boundary import planar_reach_summary
+    from posebridge.results.planar_reach import planar_reach_summary
+    from posebridge.spaces.planar_boundary import planar_reach
     from posebridge.spaces.workspace import reach_map
     from posebridge.units import m_from_mm, mm_from_m
 
@@ -35,9 +36,9 @@ def _cmd_reach(args: argparse.Namespace) -> int:
     load_kernels(
         [("forward and inverse kinematics", lambda: warm_kinematics(robot))], quiet=args.quiet
     )
-    planar = planar_reach_summary(robot)
-    if planar is not None:
-        planar = {"robot": args.robot, **planar}
+    reach = planar_reach(robot)
+    if reach is not None:
+        planar = {"robot": args.robot, **planar_reach_summary(reach, robot.dof)}
         if args.json:
             print_json(planar)
         else:

@@ -4,8 +4,9 @@ The path is sampled as the path check samples it
 (:func:`posebridge.planning.path_sampling.sample_path`), timed blended through
 its waypoints (:func:`posebridge.planning.blended_timing.blended_cycle_time`,
 TOPP-RA; rest to rest where a waypoint is an exact stop) and sampled at a fixed
-period (:func:`posebridge.planning.blended_timing.sample_motion`). Every row
-holds, in the boundary's units:
+period (:func:`posebridge.planning.blended_timing.sample_motion`), in SI units
+(:class:`MotionExportData`); :func:`posebridge.results.motion_export.motion_export_result`
+makes the rows. Every row holds, in the boundary's units:
 
 * ``time_s``, ``segment`` (``k``: from waypoint ``k`` to ``k + 1``);
 * every joint, named with its unit: ``<joint>_deg`` (revolute) or ``<joint>_mm``
@@ -30,37 +31,35 @@ comment lines) reads back as a joint log
 
 from __future__ import annotations
 
-import csv
-import io
-import json
 import math
-from importlib.metadata import version
+from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
-import numpy as np
-
-from posebridge.cell.clearance import clearance_to_cell
-from posebridge.cell.joint_log import EXPORT_COLUMNS, MAX_LOG_ROWS, TIME_COLUMN
-from posebridge.cell.scene import Scene
+from posebridge.arrays import FloatArray, Int8Array
+from posebridge.cell.clearance import CellClearance, clearance_to_cell
+from posebridge.cell.joint_log import MAX_LOG_ROWS
+from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.kinematics.branches import label_branches
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.metrics import limit_margins
 from posebridge.planning.errors import PlanningInputError
-from posebridge.planning.path_sampling import path_of, sample_path, waypoint_label
-from posebridge.results.planning import (
-    MotionExportHeader,
-    MotionExportReport,
-    MotionExportWaypoint,
+from posebridge.planning.path_sampling import (
+    DEFAULT_RESOLUTION_M,
+    DEFAULT_RESOLUTION_RAD,
+    path_of,
+    sample_path,
 )
-from posebridge.transforms import rpy_from_rotation_matrix
-from posebridge.units import joints_user_from_si, mm_from_m
+
+if TYPE_CHECKING:
+    # toppra (through blended_timing) imports matplotlib: imported on first use below
+    from posebridge.planning.blended_timing import BlendedCycleTime, MotionSamples
 
 __all__ = [
     "DEFAULT_PERIOD_MS",
     "MAX_EXPORT_ROWS",
     "MIN_PERIOD_MS",
+    "MotionExportData",
     "export_motion",
-    "motion_csv",
-    "motion_json",
 ]
 
 DEFAULT_PERIOD_MS = 4.0
@@ -69,19 +68,40 @@ MIN_PERIOD_MS = 0.5
 """Shortest period accepted, ms."""
 MAX_EXPORT_ROWS = MAX_LOG_ROWS
 """Most rows of an export: as many as a joint log may hold, so every export reads back."""
-_WARNING_MARGIN = (5.0, 10.0)
-"""The path check's default warning margins (deg, mm) that make the two units comparable."""
-_WORDS = (
-    ("front", "back", "on axis 1"),
-    ("up", "down", "in line"),
-    ("positive", "negative", "straight"),
-)
 
 
-def _branch_words(labels: tuple[np.ndarray, np.ndarray, np.ndarray]) -> list[str]:
-    stacked = np.stack(labels, axis=1)
-    choice = np.where(stacked > 0, 0, np.where(stacked < 0, 1, 2))
-    return [", ".join(_WORDS[i][int(c)] for i, c in enumerate(row)) for row in choice]
+@dataclass(frozen=True, eq=False)
+class MotionExportData:
+    """A path's timed motion at a fixed period (module docstring), SI units.
+
+    Attributes
+    ----------
+    scene : Scene
+    path : ResolvedPath
+    period_ms : float
+        The row period as given.
+    timing : BlendedCycleTime
+    motion : MotionSamples
+        Time, segment and joint values per row (R rows).
+    T_world_tool : array, shape (R, 4, 4)
+        TCP pose in the world, m.
+    labels : tuple of three arrays of int8, shape (R,)
+        Shoulder, elbow and wrist signs (:func:`posebridge.kinematics.branches.label_branches`).
+    margin : array, shape (R, n)
+        Joint-limit margins, rad or m.
+    clearance : CellClearance
+        To the cell, per row.
+    """
+
+    scene: Scene
+    path: ResolvedPath
+    period_ms: float
+    timing: BlendedCycleTime
+    motion: MotionSamples
+    T_world_tool: FloatArray
+    labels: tuple[Int8Array, Int8Array, Int8Array]
+    margin: FloatArray
+    clearance: CellClearance
 
 
 def export_motion(
@@ -89,10 +109,9 @@ def export_motion(
     path: int,
     *,
     period_ms: float = DEFAULT_PERIOD_MS,
-    cell_name: str = "",
-    resolution_mm: float = 5.0,
-    resolution_deg: float = 1.0,
-) -> MotionExportReport:
+    resolution_m: float = DEFAULT_RESOLUTION_M,
+    resolution_rad: float = DEFAULT_RESOLUTION_RAD,
+) -> MotionExportData:
     """Return the timed motion of a cell path at a fixed period (module docstring).
 
     Parameters
@@ -102,14 +121,12 @@ def export_motion(
         Index into ``scene.paths``.
     period_ms : float, keyword-only
         Row period, ms (at least :data:`MIN_PERIOD_MS`).
-    cell_name : str, keyword-only
-        The cell's file name for the header.
-    resolution_mm, resolution_deg : float, keyword-only
+    resolution_m, resolution_rad : float, keyword-only
         Sampling of the path, as the path check samples.
 
     Returns
     -------
-    MotionExportReport
+    MotionExportData
 
     Raises
     ------
@@ -125,9 +142,7 @@ def export_motion(
         )
     resolved = path_of(scene, path)
     robot = scene.robot
-    sampled = sample_path(
-        scene, resolved, resolution_mm=resolution_mm, resolution_deg=resolution_deg
-    )
+    sampled = sample_path(scene, resolved, resolution_m=resolution_m, resolution_rad=resolution_rad)
     timing = blended_cycle_time(scene, sampled)
     if math.isfinite(timing.total) and timing.total / (period_ms / 1000.0) + 2 > MAX_EXPORT_ROWS:
         raise PlanningInputError(
@@ -136,105 +151,14 @@ def export_motion(
         )
     motion = sample_motion(timing, period_ms / 1000.0)
     q = motion.q
-    T_world_tool = scene.T_world_base @ fk_tool(robot, q, scene.T_flange_tool)
-    position = mm_from_m(T_world_tool[:, :3, 3])
-    rpy = rpy_from_rotation_matrix(T_world_tool[:, :3, :3], degrees=True)
-    branch = _branch_words(label_branches(robot, q))
-    margin = limit_margins(robot, q).margin
-    user_margin = joints_user_from_si(margin, robot.prismatic)
-    prismatic = robot.prismatic
-    scaled = user_margin / np.where(prismatic, _WARNING_MARGIN[1], _WARNING_MARGIN[0])
-    nearest = np.argmin(scaled, axis=1)
-    clearance = clearance_to_cell(scene, q)
-    joints = joints_user_from_si(q, prismatic)
-    joint_columns = [
-        f"{name}_{'mm' if p else 'deg'}"
-        for name, p in zip(robot.joint_names, prismatic, strict=True)
-    ]
-    margin_columns = []
-    if not np.all(prismatic):
-        margin_columns.append("limit_margin_deg")
-    if np.any(prismatic):
-        margin_columns.append("limit_margin_mm")
-    columns = [TIME_COLUMN, "segment", *joint_columns, *EXPORT_COLUMNS[1:8], *margin_columns]
-    columns += ["limit_joint", "clearance_mm", "closest_pair"]
-    rows: list[list[float | int | str | None]] = []
-    for r in range(q.shape[0]):
-        row: list[float | int | str | None] = [float(motion.t[r]), int(motion.segment[r])]
-        row += joints[r].tolist() + position[r].tolist() + rpy[r].tolist() + [branch[r]]
-        if "limit_margin_deg" in margin_columns:
-            row.append(float(np.min(user_margin[r, ~prismatic])))
-        if "limit_margin_mm" in margin_columns:
-            row.append(float(np.min(user_margin[r, prismatic])))
-        distance = float(clearance.distance[r])
-        capsule, other, _ = clearance.pair(r)
-        row += [
-            robot.joint_names[int(nearest[r])],
-            float(mm_from_m(distance)) if math.isfinite(distance) else None,
-            f"{capsule} - {other}" if capsule else "",
-        ]
-        rows.append(row)
-    W = len(resolved.sources)
-    header = MotionExportHeader(
-        cell=cell_name,
-        robot=robot.name,
-        tool=scene.tool_name,
-        path=resolved.name,
-        posebridge_version=version("posebridge"),
+    return MotionExportData(
+        scene=scene,
+        path=resolved,
         period_ms=float(period_ms),
-        rows=len(rows),
-        cycle_time_s=float(timing.total),
-        rest_to_rest_cycle_time_s=float(timing.rest_to_rest_total),
-        timing_note=timing.note,
-        joint_names=list(robot.joint_names),
-        joint_units=["mm" if p else "deg" for p in prismatic],
-        frame="world; TCP orientation as roll-pitch-yaw about fixed X, then Y, then Z",
-        waypoints=[
-            MotionExportWaypoint(
-                name=waypoint_label(scene, resolved, w),
-                motion="linear" if resolved.linear[w] else "joint",
-                speed_percent=(None if resolved.linear[w] else float(resolved.speed_percent[w])),
-                speed_mm_s=(
-                    float(mm_from_m(resolved.linear_speed[w])) if resolved.linear[w] else None
-                ),
-                blend_mm=float(mm_from_m(resolved.blend_radius[w])),
-            )
-            for w in range(W)
-        ],
-        velocity_limits_deg_s=np.round(
-            joints_user_from_si(robot.velocity_max, prismatic), 9
-        ).tolist(),
-        acceleration_limits_deg_s2=np.round(
-            joints_user_from_si(robot.acceleration_max, prismatic), 9
-        ).tolist(),
+        timing=timing,
+        motion=motion,
+        T_world_tool=scene.T_world_base @ fk_tool(robot, q, scene.T_flange_tool),
+        labels=label_branches(robot, q),
+        margin=limit_margins(robot, q).margin,
+        clearance=clearance_to_cell(scene, q),
     )
-    return MotionExportReport(header=header, columns=columns, rows=rows)
-
-
-def motion_json(report: MotionExportReport) -> str:
-    """Return the export as JSON text: ``{"header": {...}, "columns": [...], "rows": [[...], ...]}``."""
-    return json.dumps(report.model_dump(mode="json"), separators=(",", ":"), allow_nan=False)
-
-
-def _cell(value: float | int | str | None) -> str:
-    if value is None:
-        return ""
-    if isinstance(value, float):
-        return f"{value:.6f}"
-    return str(value)
-
-
-def motion_csv(report: MotionExportReport) -> str:
-    """Return the export as CSV text: the header block as ``# key: value`` lines, then the table.
-
-    Header values are JSON (lists and strings as JSON); numbers with six decimals.
-    """
-    out = io.StringIO()
-    out.write("# posebridge motion export\n")
-    for key, value in report.header.model_dump(mode="json").items():
-        out.write(f"# {key}: {json.dumps(value)}\n")
-    writer = csv.writer(out, lineterminator="\n")
-    writer.writerow(report.columns)
-    for row in report.rows:
-        writer.writerow([_cell(v) for v in row])
-    return out.getvalue()

@@ -30,7 +30,7 @@ All reached samples of all segments are then checked in batches:
   they are at that sample, one batch per distinct set of values, one for the
   whole path without external axes; :func:`~posebridge.cell.clearance.clearance_to_cell`
   with scope ``self``, one batch), so a close self pair never hides an obstacle: below
-  ``collision_threshold_mm`` an error naming the pair, below
+  ``collision_threshold_m`` an error naming the pair, below
   ``clearance_mm`` a warning.
 
 The thresholds are the cell's (``Cell.thresholds``,
@@ -40,15 +40,17 @@ warning here too.
 
 Every finding names its segment (index, from and to waypoint) and the
 stretch along it where the condition holds (consecutive samples form one
-finding), with the worst point as a fraction and in mm of TCP travel (linear
-moves) or degrees of the largest joint travel (joint moves).
+finding), with the worst point as a fraction and as TCP travel (linear moves) or
+the largest joint travel (joint moves). The result is SI (:class:`PathCheckData`);
+:func:`posebridge.results.path_check.path_check_result` makes the boundary model
+(mm, deg) and words each finding.
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Literal
 
 import numpy as np
 
@@ -65,38 +67,182 @@ from posebridge.kinematics.singularity import (
 )
 from posebridge.planning.cycle_time import (
     DEFAULT_LINEAR_ACCELERATION_M_S2,
+    CycleTime,
     ExternalAxisMotion,
     SegmentTiming,
     path_cycle_time,
     path_derivative,
 )
 from posebridge.planning.errors import PlanningInputError
-from posebridge.planning.path_sampling import SampledPath, SegmentSamples, sample_path
+from posebridge.planning.path_sampling import (
+    DEFAULT_JUMP_RAD,
+    DEFAULT_RESOLUTION_M,
+    DEFAULT_RESOLUTION_RAD,
+    SampledPath,
+    SegmentSamples,
+    sample_path,
+)
 from posebridge.planning.time_scaling import path_speed_limit
-from posebridge.results.planning import (
-    FindingKind,
-    PathCheckReport,
-    PathFinding,
-    SegmentReport,
-    Severity,
-    WaypointReport,
-    group_path_findings,
-    path_finding_cause,
-)
-from posebridge.units import (
-    BoolArray,
-    FloatArray,
-    deg_from_rad,
-    joints_si_from_user,
-    joints_user_from_si,
-    m_from_mm,
-    mm_from_m,
-)
+from posebridge.units import BoolArray, FloatArray, m_from_mm
 
 if TYPE_CHECKING:
     from posebridge.planning.blended_timing import BlendedCycleTime
 
-__all__ = ["check_path", "check_sampled_path"]
+__all__ = [
+    "FindingKind",
+    "PathCheckData",
+    "PathFindingData",
+    "SegmentCheck",
+    "Severity",
+    "check_path",
+    "check_sampled_path",
+]
+
+FindingKind = Literal[
+    "waypoint",
+    "unreachable",
+    "branch_change",
+    "configuration_jump",
+    "singularity",
+    "joint_limit",
+    "speed_limit",
+    "collision",
+    "low_clearance",
+]
+Severity = Literal["error", "warning", "info"]
+
+
+@dataclass(frozen=True)
+class PathFindingData:
+    """One problem found along a path (SI units), tied to its segment and stretch.
+
+    Attributes
+    ----------
+    kind : FindingKind
+    severity : Severity
+    segment_index : int or None
+        Segment k runs from waypoint k to waypoint k + 1; None if the path has none.
+    from_waypoint, to_waypoint : str
+    fraction_start, fraction_end, fraction_worst : float
+        Where the problem starts, ends and is worst along the segment (0..1).
+    travel : float or None
+        TCP or joint travel along the segment at the worst point: rad when
+        ``travel_is_angle`` (a joint move or a pure reorientation), else m; None for a
+        waypoint finding.
+    travel_is_angle : bool
+    reason : str or None
+        Why no IK solution (unreachable) or why a waypoint has no configuration.
+    singularity : str or None
+        ``"wrist"``, ``"elbow"`` or ``"shoulder"`` (singularity findings).
+    joint : str or None
+        The joint at its limit or limiting the speed.
+    capsule, obstacle : str or None
+        The closest pair of a clearance finding (``obstacle`` is an arm capsule for
+        self contact).
+    obstacle_kind : str or None
+        The obstacle's kind, ``"self"`` for the arm's own parts.
+    distance_m : float or None
+        Clearance (negative: penetration depth), prismatic limit margin (negative:
+        outside) or shoulder singularity distance, at the worst point.
+    angle_rad : float or None
+        Revolute limit margin, wrist or elbow singularity distance or joint step.
+    speed_m_s, requested_speed_m_s : float or None
+        Highest feasible and requested TCP speed (speed limit findings).
+    """
+
+    kind: FindingKind
+    severity: Severity
+    segment_index: int | None
+    from_waypoint: str
+    to_waypoint: str
+    fraction_start: float
+    fraction_end: float
+    fraction_worst: float
+    travel: float | None = None
+    travel_is_angle: bool = False
+    reason: str | None = None
+    singularity: str | None = None
+    joint: str | None = None
+    capsule: str | None = None
+    obstacle: str | None = None
+    obstacle_kind: str | None = None
+    distance_m: float | None = None
+    angle_rad: float | None = None
+    speed_m_s: float | None = None
+    requested_speed_m_s: float | None = None
+
+
+@dataclass(frozen=True, eq=False)
+class SegmentCheck:
+    """One segment's samples, timing and worst values (SI units).
+
+    Attributes
+    ----------
+    samples : SegmentSamples
+    timing : SegmentTiming
+        Rest to rest.
+    length : float or None
+        TCP path length of a sampled linear move, m.
+    rotation : float or None
+        Tool rotation of a sampled linear move, rad.
+    joint_travel : array, shape (n,), or None
+        End minus start configuration of a sampled joint move (rad, m for prismatic joints).
+    limiting_joint : str or None
+        The joint that caps a linear move's speed.
+    blend : float
+        Blend radius of the end waypoint, m.
+    blended_duration : float
+        s in the blended motion; NaN if not timed.
+    min_clearance, environment_clearance, self_clearance : float
+        Smallest clearance over the samples (both kinds, to the cell, between the arm's
+        own parts), m; NaN when no sample was reached, inf when nothing was checked.
+    """
+
+    samples: SegmentSamples
+    timing: SegmentTiming
+    length: float | None
+    rotation: float | None
+    joint_travel: FloatArray | None
+    limiting_joint: str | None
+    blend: float
+    blended_duration: float
+    min_clearance: float
+    environment_clearance: float
+    self_clearance: float
+
+
+@dataclass(frozen=True, eq=False)
+class PathCheckData:
+    """A path checked sample by sample, with its cycle time (module docstring), SI units.
+
+    Attributes
+    ----------
+    scene : Scene
+    sampled : SampledPath
+    timing : CycleTime
+        Rest to rest (the upper bound).
+    blended : BlendedCycleTime
+    segments : list of SegmentCheck
+    findings : list of PathFindingData
+        Waypoint findings first, then each segment's in path order.
+    environment, own : CellClearance
+        Clearance of every reached sample to the cell and between the arm's own parts.
+    thresholds : QualityThresholds
+        The set the check used.
+    collision_threshold : float
+        Clearance below which a sample is a collision, m.
+    """
+
+    scene: Scene
+    sampled: SampledPath
+    timing: CycleTime
+    blended: BlendedCycleTime
+    segments: list[SegmentCheck]
+    findings: list[PathFindingData]
+    environment: CellClearance
+    own: CellClearance
+    thresholds: QualityThresholds
+    collision_threshold: float
 
 
 @dataclass(frozen=True)
@@ -114,21 +260,9 @@ def _runs(mask: BoolArray) -> list[tuple[int, int]]:
     return [(int(a), int(b)) for a, b in zip(edges[::2], edges[1::2], strict=True)]
 
 
-def _optional(value: float) -> float | None:
-    return float(value) if math.isfinite(value) else None
-
-
 def _smallest(distance: FloatArray) -> float:
     """Smallest value, NaN for none (no sample reached)."""
     return float(distance.min()) if distance.size else math.nan
-
-
-def _closest_words(clearance: CellClearance) -> str | None:
-    """Return the pair at the smallest clearance as ``capsule – other``; None when none was checked."""
-    if not clearance.distance.size or not np.isfinite(clearance.distance.min()):
-        return None
-    capsule, other, _ = clearance.pair(int(np.argmin(clearance.distance)))
-    return f"{capsule} – {other}"
 
 
 class _SegmentFindings:
@@ -141,13 +275,7 @@ class _SegmentFindings:
             sampled.waypoint_names[segment.index],
             sampled.waypoint_names[segment.index + 1],
         )
-        self.findings: list[PathFinding] = []
-
-    def _position(self, s: int) -> tuple[float | None, float | None]:
-        travel = float(self.segment.travel[s])
-        if self.segment.travel_is_angle:
-            return None, float(deg_from_rad(travel))
-        return float(mm_from_m(travel)), None
+        self.findings: list[PathFindingData] = []
 
     def add(
         self,
@@ -155,13 +283,11 @@ class _SegmentFindings:
         severity: Severity,
         run: tuple[int, int],
         worst: int,
-        message: str,
         **details: float | str | None,
     ) -> None:
         fraction = self.segment.fraction
-        position_mm, position_deg = self._position(worst)
         self.findings.append(
-            PathFinding(
+            PathFindingData(
                 kind=kind,
                 severity=severity,
                 segment_index=self.segment.index,
@@ -170,12 +296,8 @@ class _SegmentFindings:
                 fraction_start=float(fraction[run[0]]),
                 fraction_end=float(fraction[run[1] - 1]),
                 fraction_worst=float(fraction[worst]),
-                position_mm=position_mm,
-                position_deg=position_deg,
-                message=message,
-                cause=path_finding_cause(
-                    details.get("capsule"), details.get("obstacle"), details.get("joint")
-                ),
+                travel=float(self.segment.travel[worst]),
+                travel_is_angle=self.segment.travel_is_angle,
                 **details,  # type: ignore[arg-type]
             )
         )
@@ -184,38 +306,18 @@ class _SegmentFindings:
 def _continuity_findings(out: _SegmentFindings, segment: SegmentSamples) -> None:
     reached = segment.reachable
     for a, b in _runs(~reached):
-        out.add(
-            "unreachable",
-            "error",
-            (a, b),
-            a,
-            f"no IK solution within the joint limits ({segment.reason[a]}) "
-            f"from {100 * segment.fraction[a]:.0f} % to {100 * segment.fraction[b - 1]:.0f} %",
-        )
+        out.add("unreachable", "error", (a, b), a, reason=segment.reason[a])
     if segment.motion != "linear":
         return
     for a, b in _runs(segment.branch_change):
-        out.add(
-            "branch_change",
-            "error",
-            (a, b),
-            a,
-            "the arm changes branch inside the linear move (it passes through a singularity)",
-        )
+        out.add("branch_change", "error", (a, b), a)
     step = np.zeros(segment.q.shape[0])
     finite = np.flatnonzero(reached)
     if finite.size > 1:
         step[finite[1:]] = np.max(np.abs(np.diff(segment.q[finite], axis=0)), axis=1)
     for a, b in _runs(segment.jump):
         worst = a + int(np.argmax(step[a:b]))
-        out.add(
-            "configuration_jump",
-            "error",
-            (a, b),
-            worst,
-            f"a joint jumps by {float(deg_from_rad(step[worst])):.1f} deg between two samples",
-            angle_deg=float(deg_from_rad(step[worst])),
-        )
+        out.add("configuration_jump", "error", (a, b), worst, angle_rad=float(step[worst]))
 
 
 def _singularity_findings(
@@ -240,26 +342,15 @@ def _singularity_findings(
             # the arm stops at a waypoint: the same level as the target check there
             stops = a == 0 or b - 1 == last
             severity: Severity = "warning" if segment.motion == "linear" or stops else "info"
-            if angle:
-                size = float(deg_from_rad(value[worst]))
-                out.add(
-                    "singularity",
-                    severity,
-                    (a, b),
-                    worst,
-                    f"near the {name} singularity ({size:.1f} deg from it)",
-                    angle_deg=size,
-                )
-            else:
-                size = float(mm_from_m(value[worst]))
-                out.add(
-                    "singularity",
-                    severity,
-                    (a, b),
-                    worst,
-                    f"near the {name} singularity ({size:.0f} mm from it)",
-                    distance_mm=size,
-                )
+            size = float(value[worst])
+            out.add(
+                "singularity",
+                severity,
+                (a, b),
+                worst,
+                singularity=name,
+                **({"angle_rad": size} if angle else {"distance_m": size}),
+            )
 
 
 def _limit_findings(
@@ -273,24 +364,13 @@ def _limit_findings(
         for a, b in _runs(full[:, j] < limit[j]):
             worst = a + int(np.argmin(full[a:b, j]))
             value = float(full[worst, j])
-            prismatic = bool(robot.prismatic[j])
-            size = float(mm_from_m(value)) if prismatic else float(deg_from_rad(value))
-            unit = "mm" if prismatic else "deg"
-            outside = value < 0.0
-            message = (
-                f"{robot.joint_names[j]} is {abs(size):.1f} {unit} outside its limits"
-                if outside
-                else f"{robot.joint_names[j]} comes within {size:.1f} {unit} of its limit"
-            )
-            details = {"distance_mm": size} if prismatic else {"angle_deg": size}
             out.add(
                 "joint_limit",
-                "error" if outside else "warning",
+                "error" if value < 0.0 else "warning",
                 (a, b),
                 worst,
-                message,
                 joint=robot.joint_names[j],
-                **details,
+                **({"distance_m": value} if robot.prismatic[j] else {"angle_rad": value}),
             )
 
 
@@ -302,17 +382,14 @@ def _speed_findings(out: _SegmentFindings, segment: SegmentSamples, timing: Segm
     requested = timing.speed_requested
     for a, b in _runs(limit.speed_max_per_sample < requested):
         worst = a + int(np.argmin(limit.speed_max_per_sample[a:b]))
-        joint = robot.joint_names[int(limit.limiting_joint_per_sample[worst])]
-        cap = float(mm_from_m(limit.speed_max_per_sample[worst]))
         out.add(
             "speed_limit",
             "warning",
             (a, b),
             worst,
-            f"{joint} reaches its velocity limit above {cap:.0f} mm/s "
-            f"(requested {float(mm_from_m(requested)):.0f} mm/s); the move is timed slower",
-            joint=joint,
-            speed_mm_s=cap,
+            joint=robot.joint_names[int(limit.limiting_joint_per_sample[worst])],
+            speed_m_s=float(limit.speed_max_per_sample[worst]),
+            requested_speed_m_s=float(requested),
         )
 
 
@@ -340,81 +417,54 @@ def _clearance_findings(
         for a, b in _runs(mask):
             worst = a + int(np.argmin(distance[a:b]))
             capsule, other, other_kind = clearance.pair(int(index[worst]))
-            size = float(mm_from_m(distance[worst]))
-            what = f"the arm's own {other}" if other_kind == "self" else f"{other_kind} {other!r}"
-            message = (
-                f"{capsule} hits {what} ({-size:.1f} mm deep)"
-                if size < 0.0
-                else f"{capsule} comes within {size:.1f} mm of {what}"
-            )
             out.add(
                 kind,
                 severity,
                 (a, b),
                 worst,
-                message,
-                obstacle=other,
                 capsule=capsule,
-                distance_mm=size,
+                obstacle=other,
+                obstacle_kind=other_kind,
+                distance_m=float(distance[worst]),
             )
 
 
-def _segment_report(
+def _segment_check(
     scene: Scene,
     sampled: SampledPath,
     segment: SegmentSamples,
     timing: SegmentTiming,
-    min_clearance: float,
+    blended_duration: float,
     environment_clearance: float,
     self_clearance: float,
-) -> SegmentReport:
-    path = sampled.path
-    w = segment.index + 1
+) -> SegmentCheck:
     linear = segment.motion == "linear"
-    length = rotation = travel = None
+    length = rotation = None
+    travel = None
     if segment.sampled and linear:
         ends = segment.T_world_tool[[0, -1]]
-        length = float(mm_from_m(np.linalg.norm(ends[1, :3, 3] - ends[0, :3, 3])))
+        length = float(np.linalg.norm(ends[1, :3, 3] - ends[0, :3, 3]))
         relative = ends[0, :3, :3].T @ ends[1, :3, :3]
-        rotation = float(deg_from_rad(np.arccos(np.clip((np.trace(relative) - 1) / 2, -1, 1))))
+        rotation = float(np.arccos(np.clip((np.trace(relative) - 1) / 2, -1, 1)))
     elif segment.sampled:
-        delta = joints_user_from_si(segment.q[-1] - segment.q[0], scene.robot.prismatic)
-        travel = float(np.max(np.abs(delta)))
+        travel = segment.q[-1] - segment.q[0]
     joint = timing.limiting_joint
-    return SegmentReport(
-        index=segment.index,
-        motion=segment.motion,
-        from_waypoint=sampled.waypoint_names[segment.index],
-        to_waypoint=sampled.waypoint_names[w],
-        samples=int(segment.q.shape[0]),
-        length_mm=length,
-        rotation_deg=rotation,
-        joint_travel_deg=travel,
-        duration_s=_optional(timing.duration),
-        speed_percent=_optional(timing.speed_percent),
-        speed_requested_mm_s=_optional(float(mm_from_m(timing.speed_requested))),
-        speed_cap_mm_s=(
-            None if segment.travel_is_angle else _optional(float(mm_from_m(timing.speed_cap)))
-        ),
-        speed_used_mm_s=(
-            None if segment.travel_is_angle else _optional(float(mm_from_m(timing.speed_used)))
-        ),
-        speed_capped=timing.speed_capped,
+    return SegmentCheck(
+        samples=segment,
+        timing=timing,
+        length=length,
+        rotation=rotation,
+        joint_travel=travel,
         limiting_joint=scene.robot.joint_names[joint] if linear and joint >= 0 else None,
-        acceleration_used_mm_s2=(
-            None
-            if segment.travel_is_angle
-            else _optional(float(mm_from_m(timing.acceleration_used)))
-        ),
-        acceleration_capped=timing.acceleration_capped,
-        blend_mm=float(mm_from_m(path.blend_radius[w])),
-        min_clearance_mm=_optional(float(mm_from_m(min_clearance))),
-        environment_clearance_mm=_optional(float(mm_from_m(environment_clearance))),
-        self_clearance_mm=_optional(float(mm_from_m(self_clearance))),
+        blend=float(sampled.path.blend_radius[segment.index + 1]),
+        blended_duration=blended_duration,
+        min_clearance=float(np.fmin(environment_clearance, self_clearance)),
+        environment_clearance=environment_clearance,
+        self_clearance=self_clearance,
     )
 
 
-def _waypoint_findings(sampled: SampledPath) -> list[PathFinding]:
+def _waypoint_findings(sampled: SampledPath) -> list[PathFindingData]:
     findings = []
     names = sampled.waypoint_names
     count = len(sampled.segments)
@@ -424,7 +474,7 @@ def _waypoint_findings(sampled: SampledPath) -> list[PathFinding]:
         segment = None if count == 0 else max(w - 1, 0)
         fraction = 1.0 if w > 0 else 0.0
         findings.append(
-            PathFinding(
+            PathFindingData(
                 kind="waypoint",
                 severity="error",
                 segment_index=segment,
@@ -433,7 +483,7 @@ def _waypoint_findings(sampled: SampledPath) -> list[PathFinding]:
                 fraction_start=fraction,
                 fraction_end=fraction,
                 fraction_worst=fraction,
-                message=f"waypoint {names[w]!r}: {problem}",
+                reason=f"waypoint {names[w]!r}: {problem}",
             )
         )
     return findings
@@ -456,36 +506,32 @@ def check_sampled_path(
     sampled: SampledPath,
     *,
     thresholds: QualityThresholds | None = None,
-    collision_threshold_mm: float = 0.0,
-    linear_acceleration_mm_s2: float = float(mm_from_m(DEFAULT_LINEAR_ACCELERATION_M_S2)),
-    joint_jerk_deg_s3: list[float] | None = None,
-    linear_jerk_mm_s3: float | None = None,
-) -> PathCheckReport:
+    collision_threshold_m: float = 0.0,
+    linear_acceleration_m_s2: float = DEFAULT_LINEAR_ACCELERATION_M_S2,
+    joint_jerk_max: FloatArray | None = None,
+    linear_jerk_m_s3: float | None = None,
+) -> PathCheckData:
     """Check an already sampled path; parameters as :func:`check_path`."""
     robot = scene.robot
     thresholds = scene.cell.thresholds if thresholds is None else thresholds
-    clearance_warning_mm = thresholds.clearance_mm
-    if not math.isfinite(collision_threshold_mm) or collision_threshold_mm > clearance_warning_mm:
+    clearance_warning = float(m_from_mm(thresholds.clearance_mm))
+    if not math.isfinite(collision_threshold_m) or collision_threshold_m > clearance_warning:
         raise PlanningInputError(
-            "collision_threshold_mm: expected a finite number not above the clearance "
-            f"threshold ({clearance_warning_mm:g} mm), got {collision_threshold_mm!r}"
+            "collision_threshold_m: expected a finite number not above the clearance "
+            f"threshold ({thresholds.clearance_mm:g} mm), got {collision_threshold_m!r}"
         )
     limits = _Thresholds(
         limit_margin=margin_thresholds(robot, thresholds),
-        clearance_warning=float(m_from_mm(clearance_warning_mm)),
-        collision=float(m_from_mm(collision_threshold_mm)),
+        clearance_warning=clearance_warning,
+        collision=float(collision_threshold_m),
         singularity=singularity_thresholds(thresholds),
     )
     timing = path_cycle_time(
         robot,
         sampled,
-        linear_acceleration_m_s2=float(m_from_mm(linear_acceleration_mm_s2)),
-        joint_jerk_max=(
-            None
-            if joint_jerk_deg_s3 is None
-            else joints_si_from_user(joint_jerk_deg_s3, robot.prismatic)
-        ),
-        linear_jerk_m_s3=None if linear_jerk_mm_s3 is None else float(m_from_mm(linear_jerk_mm_s3)),
+        linear_acceleration_m_s2=linear_acceleration_m_s2,
+        joint_jerk_max=joint_jerk_max,
+        linear_jerk_m_s3=linear_jerk_m_s3,
         external=(
             ExternalAxisMotion(
                 sampled.path.external,
@@ -496,7 +542,7 @@ def check_sampled_path(
             else None
         ),
     )
-    blended = _blended_timing(scene, sampled, float(m_from_mm(linear_acceleration_mm_s2)))
+    blended = _blended_timing(scene, sampled, linear_acceleration_m_s2)
     reached = [segment.q[segment.reachable] for segment in sampled.segments]
     all_q = np.concatenate(reached) if reached else np.zeros((0, robot.dof))
     margins = limit_margins(robot, all_q).margin
@@ -532,73 +578,28 @@ def check_sampled_path(
             _clearance_findings(out, segment, environment, rows, limits)
             _clearance_findings(out, segment, own, rows, limits)
         findings.extend(out.findings)
-        segment_environment_m = _smallest(environment.distance[rows])
-        segment_self_m = _smallest(own.distance[rows])
-        report = _segment_report(
-            scene,
-            sampled,
-            segment,
-            segment_timing,
-            float(np.fmin(segment_environment_m, segment_self_m)),
-            segment_environment_m,
-            segment_self_m,
+        segments.append(
+            _segment_check(
+                scene,
+                sampled,
+                segment,
+                segment_timing,
+                float(blended.segment_durations[segment.index]),
+                _smallest(environment.distance[rows]),
+                _smallest(own.distance[rows]),
+            )
         )
-        report.blended_duration_s = _optional(float(blended.segment_durations[segment.index]))
-        segments.append(report)
-    path = sampled.path
-    errors = sum(f.severity == "error" for f in findings)
-    warnings = sum(f.severity == "warning" for f in findings)
-    names = sampled.waypoint_names
-    waypoints = [
-        WaypointReport(
-            index=w,
-            name=names[w],
-            source=path.sources[w],
-            motion="linear" if path.linear[w] else "joint",
-            joints_deg=(
-                joints_user_from_si(sampled.waypoint_q[w], robot.prismatic).tolist()
-                if np.all(np.isfinite(sampled.waypoint_q[w]))
-                else None
-            ),
-            branch=sampled.waypoint_branch[w],
-            problem=sampled.waypoint_problem[w],
-            blended=bool(blended.blended[w]),
-            pass_distance_mm=_optional(float(mm_from_m(blended.pass_distance[w]))),
-        )
-        for w in range(len(names))
-    ]
-    environment_m = _smallest(environment.distance)
-    self_m = _smallest(own.distance)
-    return PathCheckReport(
-        path=path.name,
-        robot_geometry_missing=robot.geometry_missing,
-        robot=robot.name,
-        tool=scene.tool_name,
-        joint_names=list(robot.joint_names),
-        resolution_mm=float(mm_from_m(sampled.resolution_m)),
-        resolution_deg=float(deg_from_rad(sampled.resolution_rad)),
-        ok=errors == 0,
-        errors=errors,
-        warnings=warnings,
-        waypoints=waypoints,
+    return PathCheckData(
+        scene=scene,
+        sampled=sampled,
+        timing=timing,
+        blended=blended,
         segments=segments,
         findings=findings,
-        finding_groups=group_path_findings(findings),
-        cycle_time_s=_optional(timing.total),
-        linear_acceleration_mm_s2=float(mm_from_m(timing.linear_acceleration)),
-        jerk_limited=timing.jerk_limited,
-        blend_note=timing.note,
-        blended_cycle_time_s=_optional(blended.total),
-        blended_note=blended.note,
-        min_clearance_mm=_optional(float(mm_from_m(np.fmin(environment_m, self_m)))),
-        environment_clearance_mm=_optional(float(mm_from_m(environment_m))),
-        self_clearance_mm=_optional(float(mm_from_m(self_m))),
-        closest_environment=_closest_words(environment),
-        closest_self=_closest_words(own),
-        clearance_warning_mm=float(clearance_warning_mm),
-        collision_threshold_mm=float(collision_threshold_mm),
-        limit_margin_deg=float(thresholds.limit_margin_deg),
+        environment=environment,
+        own=own,
         thresholds=thresholds,
+        collision_threshold=float(collision_threshold_m),
     )
 
 
@@ -606,54 +607,57 @@ def check_path(
     scene: Scene,
     path: int | ResolvedPath,
     *,
-    resolution_mm: float = 5.0,
-    resolution_deg: float = 1.0,
-    jump_deg: float = 10.0,
+    resolution_m: float = DEFAULT_RESOLUTION_M,
+    resolution_rad: float = DEFAULT_RESOLUTION_RAD,
+    jump_rad: float = DEFAULT_JUMP_RAD,
     thresholds: QualityThresholds | None = None,
-    collision_threshold_mm: float = 0.0,
-    linear_acceleration_mm_s2: float = float(mm_from_m(DEFAULT_LINEAR_ACCELERATION_M_S2)),
-    joint_jerk_deg_s3: list[float] | None = None,
-    linear_jerk_mm_s3: float | None = None,
-) -> PathCheckReport:
+    collision_threshold_m: float = 0.0,
+    linear_acceleration_m_s2: float = DEFAULT_LINEAR_ACCELERATION_M_S2,
+    joint_jerk_max: FloatArray | None = None,
+    linear_jerk_m_s3: float | None = None,
+) -> PathCheckData:
     """Check a path of the cell sample by sample and time it (module docstring).
+
+    :func:`posebridge.results.path_check.path_check_result` makes the boundary model
+    (mm, deg, with the findings' messages) of the result.
 
     Parameters
     ----------
     scene : Scene
     path : int or ResolvedPath
         Index into ``scene.paths``, or a resolved path of this scene's robot.
-    resolution_mm, resolution_deg : float, keyword-only
+    resolution_m, resolution_rad : float, keyword-only
         Sampling: largest TCP travel and rotation between linear-move samples,
-        largest joint travel between joint-move samples (mm for prismatic joints).
-    jump_deg : float, keyword-only
-        Joint step between two linear-move samples counted as a configuration jump.
+        largest joint travel between joint-move samples (m for prismatic joints).
+    jump_rad : float, keyword-only
+        Revolute joint step between two linear-move samples counted as a configuration jump.
     thresholds : QualityThresholds, optional, keyword-only
         Limit margins, clearance and singularity distances below which a
         finding is given; the cell's own (``scene.cell.thresholds``, the same
         set the target check and the diagnosis use) if omitted.
-    collision_threshold_mm : float, keyword-only
+    collision_threshold_m : float, keyword-only
         Clearance below which a sample is a collision (0: contact or penetration);
         not above ``thresholds.clearance_mm``.
-    linear_acceleration_mm_s2 : float, keyword-only
+    linear_acceleration_m_s2 : float, keyword-only
         Cartesian path acceleration of linear moves.
-    joint_jerk_deg_s3 : list of float, optional, keyword-only
-        Joint jerk limits (mm/s^3 for prismatic joints) for double-S joint moves.
-    linear_jerk_mm_s3 : float, optional, keyword-only
+    joint_jerk_max : array, shape (n,), optional, keyword-only
+        Joint jerk limits (rad/s^3, m/s^3 for prismatic joints) for double-S joint moves.
+    linear_jerk_m_s3 : float, optional, keyword-only
         Path jerk for double-S linear moves.
 
     Returns
     -------
-    PathCheckReport
+    PathCheckData
     """
     sampled = sample_path(
-        scene, path, resolution_mm=resolution_mm, resolution_deg=resolution_deg, jump_deg=jump_deg
+        scene, path, resolution_m=resolution_m, resolution_rad=resolution_rad, jump_rad=jump_rad
     )
     return check_sampled_path(
         scene,
         sampled,
         thresholds=thresholds,
-        collision_threshold_mm=collision_threshold_mm,
-        linear_acceleration_mm_s2=linear_acceleration_mm_s2,
-        joint_jerk_deg_s3=joint_jerk_deg_s3,
-        linear_jerk_mm_s3=linear_jerk_mm_s3,
+        collision_threshold_m=collision_threshold_m,
+        linear_acceleration_m_s2=linear_acceleration_m_s2,
+        joint_jerk_max=joint_jerk_max,
+        linear_jerk_m_s3=linear_jerk_m_s3,
     )

@@ -19,18 +19,18 @@ type of waypoint ``k + 1`` (the motion *into* a waypoint, as in the cell
 file). Sampling:
 
 * **joint move**: straight line in joint space, ``q(t) = q_a + t (q_b - q_a)``,
-  with no joint moving more than ``resolution_deg`` (``resolution_mm`` for
+  with no joint moving more than ``resolution_rad`` (``resolution_m`` for
   prismatic joints) between samples;
 * **linear move**: the TCP position on the straight line and the orientation
   by quaternion slerp (Shoemake 1985, "Animating rotation with quaternion
-  curves", SIGGRAPH), at most ``resolution_mm`` of travel and
-  ``resolution_deg`` of rotation between samples, each solved by IK with
+  curves", SIGGRAPH), at most ``resolution_m`` of travel and
+  ``resolution_rad`` of rotation between samples, each solved by IK with
   branch continuity: every solution of every sample is computed in one
   batch (analytic solvers) and each sample takes the solution nearest the
   previous sample's configuration (numerical solver: seeded from the
   previous sample, one start). A sample whose labels differ from the
   previous one's is a **branch change** (labels 0, exactly singular, are
-  skipped), a sample where a joint moves more than ``jump_deg`` (``jump_mm``
+  skipped), a sample where a joint moves more than ``jump_rad`` (``jump_m``
   for prismatic joints) from the previous one a **configuration jump**.
 
 **External axes** (a track, turntables) move with the robot inside a
@@ -38,7 +38,7 @@ segment: their values go linearly in the segment's fraction from the start
 waypoint's to the end waypoint's (:attr:`SegmentSamples.external`), and every
 sample is solved and drawn with the base and the fixtures where the axes put
 them. A joint move's samples also keep every external axis within
-``resolution_mm`` / ``resolution_deg`` of the next. A linear move is straight
+``resolution_m`` / ``resolution_rad`` of the next. A linear move is straight
 in the frame of the turntable that carries its end waypoint's target (the
 part: coordinated motion, the table turning under the tool), else in the
 world; the track carries the robot base along it.
@@ -75,9 +75,13 @@ from posebridge.transforms import (
     quaternion_from_rotation_matrix,
     rotation_matrix_from_quaternion,
 )
-from posebridge.units import BoolArray, FloatArray, m_from_mm, rad_from_deg
+from posebridge.units import BoolArray, FloatArray, rad_from_deg
 
 __all__ = [
+    "DEFAULT_JUMP_M",
+    "DEFAULT_JUMP_RAD",
+    "DEFAULT_RESOLUTION_M",
+    "DEFAULT_RESOLUTION_RAD",
     "MAX_SAMPLES_PER_SEGMENT",
     "Motion",
     "SampledPath",
@@ -90,6 +94,14 @@ __all__ = [
 ]
 
 Motion = Literal["joint", "linear"]
+DEFAULT_RESOLUTION_M = 0.005
+"""Largest TCP travel (linear moves) or prismatic joint travel between samples, m (5 mm)."""
+DEFAULT_RESOLUTION_RAD = float(rad_from_deg(1.0))
+"""Largest tool rotation or revolute joint travel between samples, rad (1 deg)."""
+DEFAULT_JUMP_RAD = float(rad_from_deg(10.0))
+"""Revolute joint step between two linear-move samples that is a configuration jump (10 deg)."""
+DEFAULT_JUMP_M = 0.02
+"""Prismatic joint step between two linear-move samples that is a configuration jump (20 mm)."""
 MAX_SAMPLES_PER_SEGMENT = 20_000
 """Largest number of samples in one segment; a finer resolution is refused."""
 REASON_UNREACHABLE = "out of reach"
@@ -573,10 +585,10 @@ def sample_path(
     scene: Scene,
     path: int | ResolvedPath,
     *,
-    resolution_mm: float = 5.0,
-    resolution_deg: float = 1.0,
-    jump_deg: float = 10.0,
-    jump_mm: float = 20.0,
+    resolution_m: float = DEFAULT_RESOLUTION_M,
+    resolution_rad: float = DEFAULT_RESOLUTION_RAD,
+    jump_rad: float = DEFAULT_JUMP_RAD,
+    jump_m: float = DEFAULT_JUMP_M,
 ) -> SampledPath:
     """Waypoint configurations and samples of every segment of a path (module docstring).
 
@@ -585,10 +597,10 @@ def sample_path(
     scene : Scene
     path : int or ResolvedPath
         Index into ``scene.paths``, or a resolved path of this scene's robot.
-    resolution_mm, resolution_deg : float, keyword-only
+    resolution_m, resolution_rad : float, keyword-only
         Largest TCP travel and rotation (linear moves) or joint travel (joint
-        moves; mm for prismatic joints) between samples.
-    jump_deg, jump_mm : float, keyword-only
+        moves; m for prismatic joints) between samples.
+    jump_rad, jump_m : float, keyword-only
         A joint step larger than this between consecutive samples of a
         linear move is a configuration jump (revolute, prismatic).
 
@@ -598,10 +610,10 @@ def sample_path(
     """
     resolved = path_of(scene, path)
     for name, value in (
-        ("resolution_mm", resolution_mm),
-        ("resolution_deg", resolution_deg),
-        ("jump_deg", jump_deg),
-        ("jump_mm", jump_mm),
+        ("resolution_m", resolution_m),
+        ("resolution_rad", resolution_rad),
+        ("jump_rad", jump_rad),
+        ("jump_m", jump_m),
     ):
         check_positive(name, value)
     if resolved.q.shape[1] != scene.robot.dof:
@@ -609,8 +621,6 @@ def sample_path(
             f"path {resolved.name!r}: joint values have {resolved.q.shape[1]} columns, "
             f"robot {scene.robot.name!r} has {scene.robot.dof} joints"
         )
-    resolution_m = float(m_from_mm(resolution_mm))
-    resolution_rad = float(rad_from_deg(resolution_deg))
     resolution = np.concatenate(
         [
             _joint_resolution(scene, resolution_m, resolution_rad),
@@ -618,7 +628,7 @@ def sample_path(
         ]
     )
     external = _waypoint_external(scene, resolved)
-    jump_limit = np.where(scene.robot.prismatic, m_from_mm(jump_mm), rad_from_deg(jump_deg))
+    jump_limit = np.where(scene.robot.prismatic, float(jump_m), float(jump_rad))
     solver = ik_solver(scene.robot)
     W = len(resolved.sources)
     n = scene.robot.dof

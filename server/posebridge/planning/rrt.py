@@ -9,8 +9,8 @@ the other tree until they meet.
 
 Validity: a configuration is valid when it is inside the joint limits (the
 planner's state bounds), its clearance to the cell's obstacles is at least
-``safety_margin_mm`` and the clearance between the arm's own capsules (the
-self pairs) at least ``self_margin_mm``
+``safety_margin_m`` and the clearance between the arm's own capsules (the
+self pairs) at least ``self_margin_m``
 (:func:`posebridge.geometry.clearance.collision_batch` on the pairs of
 :func:`posebridge.cell.clearance.clearance_scene`, early exit at the first
 pair below its margin). The margins differ because capsules of one arm sit
@@ -20,7 +20,7 @@ Motion validation (resolution): an edge ``q_a -> q_b`` is cut into
 ``ceil(sum_i |dq_i| L_i / step)`` equal joint steps, where ``L_i`` bounds the
 distance of every arm point from joint ``i``'s frame (the lever arm, summed
 along the chain; 1 for prismatic joints; :func:`lever_arms`), so no point of
-the arm moves more than ``step = motion_step_mm`` between two checked
+the arm moves more than ``step = motion_step_m`` between two checked
 configurations (a point's path length is at most ``sum_i |dq_i| L_i``). All
 configurations of an edge are checked in one batch. With ``step`` not above
 the safety margin, every configuration between two checked ones is within
@@ -28,7 +28,7 @@ the safety margin, every configuration between two checked ones is within
 ``margin - step / 2 >= margin / 2 > 0``: the edge is free of obstacle
 contact, not just sampled. Two arm points move toward each other by at most
 ``2 step`` between checks, so self pairs are certified only when
-``self_margin_mm >= step``; with a smaller self margin they are sampled at
+``self_margin_m >= step``; with a smaller self margin they are sampled at
 the same step.
 
 Determinism: OMPL draws the seeds of every random generator it creates from
@@ -43,7 +43,7 @@ Simplification: OMPL's path simplifier (vertex reduction, rope shortcuts,
 collapsing close vertices), every shortcut validated by the same motion
 check. The result is then re-checked two ways: an exact clearance of every
 configuration of every edge at the motion step (reported as
-``min_clearance_mm``), and the path check of
+``min_clearance``), and the path check of
 :func:`posebridge.planning.path_check.check_path` on the waypoints as joint
 moves at 100 % speed (with its cycle time).
 """
@@ -54,6 +54,7 @@ import itertools
 import math
 import time
 from dataclasses import dataclass, replace
+from typing import Literal
 
 import numpy as np
 import numpy.typing as npt
@@ -64,12 +65,14 @@ from posebridge.geometry.clearance import ClearanceScene, collision_batch
 from posebridge.geometry.shapes import ArmCapsules
 from posebridge.kinematics.fk import PARALLEL_THRESHOLD, fk_tool
 from posebridge.planning.errors import PlanningInputError, check_non_negative, check_positive
-from posebridge.planning.path_check import check_path
-from posebridge.results.planning import JointPlanReport, PlanStatus
-from posebridge.units import FloatArray, joints_user_from_si, m_from_mm, mm_from_m
+from posebridge.planning.path_check import PathCheckData, check_path
+from posebridge.units import FloatArray
 
 __all__ = [
     "MAX_EDGE_STEPS",
+    "JointPlanData",
+    "PlanStatus",
+    "WorstPair",
     "edge_configurations",
     "lever_arms",
     "plan_joint_move",
@@ -77,6 +80,10 @@ __all__ = [
 
 MAX_EDGE_STEPS = 100_000
 """Largest number of checked configurations on one edge."""
+
+PlanStatus = Literal[
+    "solved", "direct", "timeout", "start_in_collision", "goal_in_collision", "outside_limits"
+]
 
 
 def lever_arms(arm: ArmCapsules) -> FloatArray:
@@ -140,7 +147,7 @@ def edge_configurations(
     steps = max(1, math.ceil(sweep / step_m - 1e-12))
     if steps > MAX_EDGE_STEPS:
         raise PlanningInputError(
-            f"motion_step_mm: an edge needs {steps} checks (more than {MAX_EDGE_STEPS}); "
+            f"motion_step_m: an edge needs {steps} checks (more than {MAX_EDGE_STEPS}); "
             "use a larger motion step"
         )
     t = np.linspace(0.0, 1.0, steps + 1)[:, None]
@@ -185,16 +192,31 @@ class _Checker:
 
 
 @dataclass(frozen=True)
-class _WorstPair:
-    """The pair furthest inside its margin over some configurations, in words."""
+class WorstPair:
+    """The pair furthest inside its margin over some configurations (SI units).
 
-    words: str
+    Attributes
+    ----------
+    capsule : str
+        The arm capsule.
+    other : str
+        The obstacle, or the arm capsule of a self pair.
+    kind : str
+        The obstacle's kind, ``"self"`` for the arm's own parts.
+    index : int
+        Which of the configurations.
+    distance : float
+        Signed clearance there, m (negative: penetration depth).
+    """
+
+    capsule: str
     other: str
+    kind: str
     index: int
-    distance_mm: float
+    distance: float
 
 
-def _worst_pair(scene: Scene, q: FloatArray, margin_m: float, self_margin_m: float) -> _WorstPair:
+def _worst_pair(scene: Scene, q: FloatArray, margin_m: float, self_margin_m: float) -> WorstPair:
     """Return the pair furthest inside its margin over configurations ``q``, shape (K, n).
 
     Obstacle pairs are measured against ``margin_m``, self pairs against
@@ -209,14 +231,58 @@ def _worst_pair(scene: Scene, q: FloatArray, margin_m: float, self_margin_m: flo
     k = int(np.argmin(np.minimum(slack_self, slack_environment)))
     clearance = own if slack_self[k] < slack_environment[k] else environment
     capsule, other, kind = clearance.pair(k)
-    distance = float(mm_from_m(clearance.distance[k]))
-    what = f"the arm's own {other}" if kind == "self" else f"{kind} {other!r}"
-    state = (
-        f"hits {what} ({-distance:.1f} mm deep)"
-        if distance < 0
-        else f"is {distance:.1f} mm from {what}"
-    )
-    return _WorstPair(f"{capsule} {state}", other, k, distance)
+    return WorstPair(capsule, other, kind, k, float(clearance.distance[k]))
+
+
+@dataclass(frozen=True, eq=False)
+class JointPlanData:
+    """A joint move planned by :func:`plan_joint_move`, or why none was found (SI units).
+
+    Attributes
+    ----------
+    scene : Scene
+    status : PlanStatus
+    start, goal : array, shape (n,)
+        rad, m for prismatic joints.
+    waypoints : list of array, shape (n,)
+        The simplified path, start and goal included; empty when none.
+    seed, max_checks : int
+    time_limit_s, planning_time_s : float
+    validity_checks : int
+        Configurations checked.
+    safety_margin, self_margin, motion_step : float
+        m (module docstring).
+    min_clearance : float or None
+        Smallest clearance along the result from the dense re-check, m; None without a path.
+    worst : WorstPair or None
+        Where the straight move is worst (solved, timeout) or what a refused start or
+        goal is too close to.
+    worst_fraction : float or None
+        Where the straight move is worst: fraction of it, 0..1.
+    outside : tuple of str
+        For ``outside_limits``: ``"start"`` or ``"goal"`` and the joints outside their limits.
+    check : PathCheckData or None
+        The result re-checked as joint moves at 100 % speed.
+    """
+
+    scene: Scene
+    status: PlanStatus
+    start: FloatArray
+    goal: FloatArray
+    waypoints: list[FloatArray]
+    seed: int
+    time_limit_s: float
+    max_checks: int
+    planning_time_s: float
+    validity_checks: int
+    safety_margin: float
+    self_margin: float
+    motion_step: float
+    min_clearance: float | None
+    worst: WorstPair | None
+    worst_fraction: float | None
+    outside: tuple[str, ...]
+    check: PathCheckData | None
 
 
 def _joint_path(scene: Scene, q: FloatArray, name: str) -> ResolvedPath:
@@ -320,12 +386,15 @@ def plan_joint_move(
     seed: int = 1,
     time_limit_s: float = 5.0,
     max_checks: int = 2_000_000,
-    safety_margin_mm: float = 10.0,
-    self_margin_mm: float = 0.0,
-    motion_step_mm: float | None = None,
+    safety_margin_m: float = 0.01,
+    self_margin_m: float = 0.0,
+    motion_step_m: float | None = None,
     recheck: bool = True,
-) -> JointPlanReport:
+) -> JointPlanData:
     """Return a collision-free joint move from ``q_start`` to ``q_goal`` (module docstring).
+
+    :func:`posebridge.results.joint_plan.joint_plan_result` makes the boundary model
+    (mm, deg, with the message in words) of the result.
 
     Parameters
     ----------
@@ -338,12 +407,12 @@ def plan_joint_move(
         Planning stops after this time (a safety net, see Determinism).
     max_checks : int, keyword-only
         Planning stops after this many configuration checks.
-    safety_margin_mm : float, keyword-only
+    safety_margin_m : float, keyword-only
         Clearance to the cell's obstacles every checked configuration keeps (> 0).
-    self_margin_mm : float, keyword-only
+    self_margin_m : float, keyword-only
         Clearance between the arm's own capsules every checked configuration
         keeps (>= 0; 0: no contact).
-    motion_step_mm : float, optional, keyword-only
+    motion_step_m : float, optional, keyword-only
         Largest displacement of any arm point between two checked
         configurations; the safety margin if omitted (must not exceed it).
     recheck : bool, keyword-only
@@ -351,7 +420,7 @@ def plan_joint_move(
 
     Returns
     -------
-    JointPlanReport
+    JointPlanData
         Status ``"direct"`` (the straight move is free), ``"solved"``,
         ``"timeout"`` (no path within the limits), ``"start_in_collision"``,
         ``"goal_in_collision"`` (refused before planning, the obstacle named)
@@ -363,15 +432,15 @@ def plan_joint_move(
     if isinstance(seed, bool) or not isinstance(seed, int) or seed < 1:
         raise PlanningInputError(f"seed: expected an integer >= 1, got {seed!r}")
     check_non_negative("time_limit_s", time_limit_s)
-    check_positive("safety_margin_mm", safety_margin_mm)
-    step_mm = safety_margin_mm if motion_step_mm is None else motion_step_mm
-    if not math.isfinite(step_mm) or not 0.0 < step_mm <= safety_margin_mm:
+    check_positive("safety_margin_m", safety_margin_m)
+    step = safety_margin_m if motion_step_m is None else motion_step_m
+    if not math.isfinite(step) or not 0.0 < step <= safety_margin_m:
         raise PlanningInputError(
-            f"motion_step_mm: expected a value above 0 and at most the safety margin "
-            f"({safety_margin_mm:g} mm), got {motion_step_mm!r}"
+            f"motion_step_m: expected a value above 0 and at most the safety margin "
+            f"({safety_margin_m:g} m), got {motion_step_m!r}"
         )
-    check_non_negative("self_margin_mm", self_margin_mm)
-    margin = float(m_from_mm(safety_margin_mm))
+    check_non_negative("self_margin_m", self_margin_m)
+    margin = float(safety_margin_m)
     cell = clearance_scene(scene)
     levers = lever_arms(cell.arm)
     # compile (or load) the serial and parallel collision kernels before the planning clock starts,
@@ -379,22 +448,16 @@ def plan_joint_move(
     collision_batch(cell, np.repeat(start[None], PARALLEL_THRESHOLD, axis=0), threshold_m=margin)
     t0 = time.perf_counter()
     checker = _Checker(
-        cell,
-        margin,
-        float(m_from_mm(self_margin_mm)),
-        levers,
-        float(m_from_mm(step_mm)),
-        t0 + time_limit_s,
-        max_checks,
+        cell, margin, float(self_margin_m), levers, float(step), t0 + time_limit_s, max_checks
     )
 
-    def report(
+    def result(
         status: PlanStatus,
-        message: str,
         waypoints: list[FloatArray],
-        worst: _WorstPair | None = None,
+        worst: WorstPair | None = None,
         fraction: float | None = None,
-    ) -> JointPlanReport:
+        outside: tuple[str, ...] = (),
+    ) -> JointPlanData:
         elapsed = time.perf_counter() - t0
         min_clearance = None
         check = None
@@ -405,71 +468,50 @@ def plan_joint_move(
                     for a, b in itertools.pairwise(waypoints)
                 ]
             )
-            min_clearance = float(mm_from_m(clearance_to_cell(scene, dense).distance.min()))
+            min_clearance = float(clearance_to_cell(scene, dense).distance.min())
             if recheck:
                 check = check_path(
                     scene, _joint_path(scene, np.array(waypoints), "joint move plan")
                 )
-        return JointPlanReport(
+        return JointPlanData(
+            scene=scene,
             status=status,
-            message=message,
-            joint_names=list(robot.joint_names),
-            start_deg=joints_user_from_si(start, robot.prismatic).tolist(),
-            goal_deg=joints_user_from_si(goal, robot.prismatic).tolist(),
-            waypoints_deg=[joints_user_from_si(q, robot.prismatic).tolist() for q in waypoints],
+            start=start,
+            goal=goal,
+            waypoints=waypoints,
             seed=seed,
             time_limit_s=float(time_limit_s),
+            max_checks=max_checks,
             planning_time_s=elapsed,
             validity_checks=checker.checks,
-            safety_margin_mm=float(safety_margin_mm),
-            motion_step_mm=float(step_mm),
-            min_clearance_mm=min_clearance,
-            straight_move_obstacle=None if worst is None else worst.other,
-            straight_move_worst_mm=None if worst is None else worst.distance_mm,
-            straight_move_worst_fraction=fraction,
+            safety_margin=margin,
+            self_margin=float(self_margin_m),
+            motion_step=float(step),
+            min_clearance=min_clearance,
+            worst=worst,
+            worst_fraction=fraction,
+            outside=outside,
             check=check,
-            robot_geometry_missing=robot.geometry_missing,
         )
 
     for name, q in (("start", start), ("goal", goal)):
         outside = (q < robot.lower) | (q > robot.upper)
         if np.any(outside):
-            joints = ", ".join(np.array(robot.joint_names)[outside])
-            return report("outside_limits", f"{name} is outside the joint limits of {joints}", [])
+            return result(
+                "outside_limits", [], outside=(name, *np.array(robot.joint_names)[outside])
+            )
     for name, q in (("start", start), ("goal", goal)):
         if not checker.free(q[None]):
             pair = _worst_pair(scene, q[None], margin, checker.self_margin)
             status: PlanStatus = "start_in_collision" if name == "start" else "goal_in_collision"
-            return report(
-                status,
-                f"refused: the {name} configuration is closer than the safety margin "
-                f"({safety_margin_mm:g} mm, {self_margin_mm:g} mm between arm parts): "
-                f"{pair.words}",
-                [],
-                pair,
-            )
+            return result(status, [], pair)
     straight = edge_configurations(start, goal, levers, checker.step)
     hits = checker.colliding(straight[1:])
     if not np.any(hits):
-        return report("direct", "the straight joint move is collision-free", [start, goal])
+        return result("direct", [start, goal])
     worst = _worst_pair(scene, straight[1:], margin, checker.self_margin)
     fraction = (worst.index + 1) / (straight.shape[0] - 1)
-    words = f"{worst.words} at {100 * fraction:.0f} % of the move"
     waypoints = _solve(checker, robot.lower, robot.upper, start, goal, seed)
     if waypoints is None:
-        return report(
-            "timeout",
-            f"no path found within the time limit ({time_limit_s:g} s) and check budget "
-            f"({max_checks} checks); the straight move is worst where {words}",
-            [],
-            worst,
-            fraction,
-        )
-    return report(
-        "solved",
-        f"{len(waypoints) - 2} intermediate waypoints avoid the collision of the straight move "
-        f"(worst: {words})",
-        waypoints,
-        worst,
-        fraction,
-    )
+        return result("timeout", [], worst, fraction)
+    return result("solved", waypoints, worst, fraction)

@@ -1,10 +1,12 @@
-"""The fastest solution sequence at the user boundary: mm/deg report, saving in words, path edits.
+"""The fastest solution sequence of a cell path and the path edits that make the path follow it.
 
 :func:`optimise_path` runs :func:`posebridge.planning.solution_sequence.optimise_sequence`
 (exact shortest path over the layered candidate graph, dynamic programming;
-method and references there) with limits given in millimetres and degrees, and
-turns the result into a :class:`~posebridge.results.planning.SequenceReport`
-for the command line, the HTTP API and the page.
+method and references there) with limits given as the cell gives them (millimetres
+and degrees, as :func:`~posebridge.planning.path_sampling.sample_path` takes its
+sampling), and finds the edits below; :func:`posebridge.results.sequence.sequence_result`
+turns its :class:`PathSequence` into the report (mm, deg, the saving in words) for the
+command line, the HTTP API and the page.
 
 **Edits that make the path follow the sequence.** The path check chooses each
 waypoint's configuration itself (:func:`posebridge.planning.path_sampling.sample_path`:
@@ -22,41 +24,27 @@ exactly (the revolutions of a wide-range joint cannot be said in branch words).
 
 from __future__ import annotations
 
-import math
-from dataclasses import replace
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+from typing import Protocol
 
 import numpy as np
 
 from posebridge.cell.model import Cell, validate_cell
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.planning.errors import PlanningInputError
-from posebridge.planning.path_sampling import path_of, sample_path, waypoint_label
+from posebridge.planning.path_sampling import path_of, sample_path
 from posebridge.planning.solution_sequence import (
-    CANDIDATE_REASONS,
-    SequenceChoice,
     SequenceLimits,
     SequenceResult,
-    Violation,
     optimise_sequence,
 )
-from posebridge.results.planning import (
-    SequenceCandidatesReport,
-    SequenceChoiceReport,
-    SequenceReport,
-    SequenceViolation,
-    SequenceWaypointReport,
-    WaypointJoints,
-)
-from posebridge.units import (
-    FloatArray,
-    joints_user_from_si,
-    m_from_mm,
-    rad_from_deg,
-)
+from posebridge.units import FloatArray, m_from_mm, rad_from_deg
 
 __all__ = [
     "MATCH_TOLERANCE_RAD",
-    "SEQUENCE_NOTE",
+    "JointsEdit",
+    "PathSequence",
     "optimise_path",
     "sequence_edits",
     "with_waypoint_joints",
@@ -64,106 +52,46 @@ __all__ = [
 
 MATCH_TOLERANCE_RAD = 1e-6
 """Largest joint difference (rad, or m for prismatic joints) at which two configurations match."""
-SEQUENCE_NOTE = (
-    "fastest sequence: one IK solution per waypoint (branches x revolutions) chosen for the "
-    "shortest rest-to-rest cycle time by dynamic programming over the layered graph of "
-    "solutions (exact; Bellman 1957, Cormen et al. sec. 24.2), subject to the joint-limit "
-    "margin, the targets' required branches, no branch change or jump inside a linear move, "
-    "and no collision at the path check's sampling"
-)
-
-_REASON_WORDS = {
-    "outside_limits": "outside the joint limits",
-    "limit_margin": "closer to a joint limit than the margin",
-    "branch": "not on the target's required branch",
-    "collision": "in collision",
-    "unreached": "not reached",
-    "branch_change": "changes branch inside the linear move",
-    "configuration_jump": "jumps (singularity crossing) inside the linear move",
-    "arrival_excluded": "arrives on an excluded configuration",
-    "joint_speed": "slowed below the requested speed by the joint velocity limits",
-}
 
 
-def _violation(scene: Scene, path: ResolvedPath, violation: Violation) -> SequenceViolation:
-    words = _REASON_WORDS.get(violation.reason, violation.reason)
-    if violation.waypoint >= 0:
-        where = f"waypoint {waypoint_label(scene, path, violation.waypoint)}"
-    else:
-        k = violation.segment
-        where = (
-            f"segment {k + 1} ({waypoint_label(scene, path, k)} to "
-            f"{waypoint_label(scene, path, k + 1)})"
-        )
-    return SequenceViolation(
-        reason=violation.reason,
-        waypoint_index=violation.waypoint if violation.waypoint >= 0 else None,
-        segment_index=violation.segment if violation.segment >= 0 else None,
-        message=f"{where}: {words}",
-    )
+@dataclass(frozen=True, eq=False)
+class PathSequence:
+    """The fastest consistent solution sequence of a path and its edits (module docstring).
+
+    Attributes
+    ----------
+    scene : Scene
+    path : ResolvedPath
+    result : SequenceResult
+        SI units (:func:`~posebridge.planning.solution_sequence.optimise_sequence`).
+    edits : list of int
+        Waypoints to give as the best sequence's joint values (:func:`sequence_edits`),
+        increasing; empty when none is feasible or the path already follows it.
+    limit_margin_deg, limit_margin_mm, collision_threshold_mm : float
+        The limits the search kept, as given (the cell's units), for the report.
+    """
+
+    scene: Scene
+    path: ResolvedPath
+    result: SequenceResult
+    edits: list[int]
+    limit_margin_deg: float
+    limit_margin_mm: float
+    collision_threshold_mm: float
 
 
-def _branch_words(labels: np.ndarray, finite: bool) -> str:
-    if not finite:
-        return ""
-    words = (
-        ("front", "back", "on axis 1"),
-        ("up", "down", "in line"),
-        ("positive", "negative", "straight"),
-    )
-    return ", ".join(words[i][0 if v > 0 else 1 if v < 0 else 2] for i, v in enumerate(labels))
+class JointsEdit(Protocol):
+    """Joint values for one waypoint of a path (cell units: degrees, mm for prismatic joints)."""
 
+    @property
+    def index(self) -> int:
+        """Waypoint position in the path, from 0."""
+        ...
 
-def _optional(value: float) -> float | None:
-    return value if math.isfinite(value) else None
-
-
-def _choice(scene: Scene, path: ResolvedPath, choice: SequenceChoice) -> SequenceChoiceReport:
-    prismatic = scene.robot.prismatic
-    waypoints = []
-    for w in range(choice.q.shape[0]):
-        finite = bool(np.all(np.isfinite(choice.q[w])))
-        waypoints.append(
-            SequenceWaypointReport(
-                index=w,
-                name=waypoint_label(scene, path, w),
-                joints_deg=joints_user_from_si(choice.q[w], prismatic).tolist() if finite else None,
-                branch=_branch_words(choice.labels[w], finite),
-                revolutions=[int(r) for r in choice.revolutions[w]],
-            )
-        )
-    return SequenceChoiceReport(
-        waypoints=waypoints,
-        segment_durations_s=[_optional(float(d)) for d in choice.segment_durations],
-        cycle_time_s=_optional(choice.total),
-        same_branch_throughout=choice.same_branch_throughout,
-        violations=[_violation(scene, path, v) for v in choice.violations],
-    )
-
-
-def _summary(scene: Scene, path: ResolvedPath, result: SequenceResult) -> str:
-    """Return the result in words: how much faster, and whether the branch stays the same."""
-    if not result.feasible or result.best is None:
-        blocked = result.blocked_at
-        where = waypoint_label(scene, path, blocked) if blocked >= 0 else "the path"
-        return f"no sequence meets every constraint (blocked at {where})"
-    branch = (
-        "same branch throughout"
-        if result.best.same_branch_throughout
-        else "changes branch between joint moves"
-    )
-    if result.current.violations:
-        count = len(result.current.violations)
-        breaks = f"the current choice breaks {count} constraint{'s' if count != 1 else ''}"
-        if math.isfinite(result.saving) and result.saving < 0.0:
-            return f"{-result.saving:.2f} s slower but valid, {branch} ({breaks})"
-        if math.isfinite(result.saving):
-            return f"{result.saving:.2f} s faster and valid, {branch} ({breaks})"
-        return f"valid in {result.best.total:.2f} s, {branch} ({breaks})"
-    saving = result.saving
-    if not math.isfinite(saving) or saving <= 1e-3:
-        return f"the current choice is already the fastest ({result.best.total:.2f} s), {branch}"
-    return f"{saving:.2f} s faster, {branch}"
+    @property
+    def joints_deg(self) -> list[float]:
+        """The joint values."""
+        ...
 
 
 def _matches(a: FloatArray, b: FloatArray) -> bool:
@@ -184,7 +112,7 @@ def sequence_edits(
     q_best : array, shape (W, n)
         rad or m, one configuration per waypoint.
     **sampling : float
-        ``resolution_mm``, ``resolution_deg``, ``jump_deg``, ``jump_mm`` of
+        ``resolution_m``, ``resolution_rad``, ``jump_rad``, ``jump_m`` of
         :func:`~posebridge.planning.path_sampling.sample_path`.
 
     Returns
@@ -230,8 +158,8 @@ def optimise_path(
     collision_threshold_mm: float = 0.0,
     resolution_mm: float = 5.0,
     resolution_deg: float = 1.0,
-) -> SequenceReport:
-    """Return the fastest consistent solution sequence of a cell path, as a JSON-ready report.
+) -> PathSequence:
+    """Return the fastest consistent solution sequence of a cell path and its edits.
 
     Parameters
     ----------
@@ -248,7 +176,7 @@ def optimise_path(
 
     Returns
     -------
-    SequenceReport
+    PathSequence
         Method in :mod:`posebridge.planning.solution_sequence`; edits in the module docstring.
 
     Raises
@@ -262,66 +190,37 @@ def optimise_path(
         limit_margin_deg = thresholds.limit_margin_deg
     if limit_margin_mm is None:
         limit_margin_mm = thresholds.limit_margin_mm
+    resolution_m = float(m_from_mm(resolution_mm))
+    resolution_rad = float(rad_from_deg(resolution_deg))
     limits = SequenceLimits(
         limit_margin_rad=float(rad_from_deg(limit_margin_deg)),
         limit_margin_m=float(m_from_mm(limit_margin_mm)),
         collision_threshold_m=float(m_from_mm(collision_threshold_mm)),
-        resolution_m=float(m_from_mm(resolution_mm)),
-        resolution_rad=float(rad_from_deg(resolution_deg)),
+        resolution_m=resolution_m,
+        resolution_rad=resolution_rad,
     )
     result = optimise_sequence(scene, resolved, limits=limits)
-    robot = scene.robot
-    edits: list[WaypointJoints] = []
+    edits: list[int] = []
     if result.best is not None:
-        indices = sequence_edits(
+        edits = sequence_edits(
             scene,
             resolved,
             result.best.q,
-            resolution_mm=resolution_mm,
-            resolution_deg=resolution_deg,
+            resolution_m=resolution_m,
+            resolution_rad=resolution_rad,
         )
-        edits = [
-            WaypointJoints(
-                index=w, joints_deg=joints_user_from_si(result.best.q[w], robot.prismatic).tolist()
-            )
-            for w in indices
-        ]
-    candidates = [
-        SequenceCandidatesReport(
-            joints_deg=joints_user_from_si(layer.q, robot.prismatic).tolist(),
-            excluded={
-                reason: sum(1 for e in layer.excluded if e.reason == reason)
-                for reason in CANDIDATE_REASONS
-            },
-        )
-        for layer in result.candidates
-    ]
-    return SequenceReport(
-        path=resolved.name,
-        robot=robot.name,
-        tool=scene.tool_name,
-        joint_names=list(robot.joint_names),
-        feasible=result.feasible,
-        summary=_summary(scene, resolved, result),
-        best=None if result.best is None else _choice(scene, resolved, result.best),
-        current=_choice(scene, resolved, result.current),
-        saving_s=_optional(result.saving),
-        blocked_at=(
-            waypoint_label(scene, resolved, result.blocked_at) if result.blocked_at >= 0 else None
-        ),
-        chosen_indices=[int(i) for i in result.indices],
-        candidates=candidates,
+    return PathSequence(
+        scene=scene,
+        path=resolved,
+        result=result,
         edits=edits,
-        edges_checked=result.edges_checked,
-        edges_total=result.edges_total,
         limit_margin_deg=float(limit_margin_deg),
         limit_margin_mm=float(limit_margin_mm),
         collision_threshold_mm=float(collision_threshold_mm),
-        note=SEQUENCE_NOTE,
     )
 
 
-def with_waypoint_joints(cell: Cell, path: int, edits: list[WaypointJoints]) -> Cell:
+def with_waypoint_joints(cell: Cell, path: int, edits: Sequence[JointsEdit]) -> Cell:
     """Return a copy of ``cell`` whose path ``path`` gives the edited waypoints as joint values.
 
     Motion, speed and blend radius of each waypoint stay; its target or pose is

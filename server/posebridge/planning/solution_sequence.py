@@ -91,7 +91,7 @@ from posebridge.transforms import (
     quaternion_from_rotation_matrix,
     rotation_matrix_from_quaternion,
 )
-from posebridge.units import BoolArray, FloatArray, deg_from_rad, mm_from_m
+from posebridge.units import BoolArray, FloatArray
 
 __all__ = [
     "CANDIDATE_REASONS",
@@ -565,12 +565,12 @@ def _track_batch(
 
 
 def _sampling(limits: SequenceLimits) -> dict[str, float]:
-    """Return the sampling options of :func:`sample_path` (user units, its boundary) for ``limits``."""
+    """Return the sampling options of :func:`sample_path` for ``limits``."""
     return {
-        "resolution_mm": float(mm_from_m(limits.resolution_m)),
-        "resolution_deg": float(deg_from_rad(limits.resolution_rad)),
-        "jump_deg": float(deg_from_rad(limits.jump_rad)),
-        "jump_mm": float(mm_from_m(limits.jump_m)),
+        "resolution_m": limits.resolution_m,
+        "resolution_rad": limits.resolution_rad,
+        "jump_rad": limits.jump_rad,
+        "jump_m": limits.jump_m,
     }
 
 

@@ -38,7 +38,7 @@ from posebridge.planning.path_check import check_path
 from posebridge.report.figures import TargetMarker, cartesian_figures, joint_map_figure
 from posebridge.resources import data_folder
 from posebridge.results.cell import BranchReport, TargetCheck, TargetCheckReport
-from posebridge.results.planning import PathCheckReport, SegmentReport
+from posebridge.results.path_check import PathCheckReport, SegmentReport, path_check_result
 from posebridge.review.comments import (
     Comment,
     CommentStorageError,
@@ -465,7 +465,9 @@ def build_report(
         summary=_summary(scene, path.name, shown),
         configuration_label=shown[1],
         targets=_targets_section(check),
-        paths=_paths_section([check_path(scene, p) for p in range(len(scene.paths))]),
+        paths=_paths_section(
+            [path_check_result(check_path(scene, p)) for p in range(len(scene.paths))]
+        ),
         joint_map=map_section,
         comments=_comment_rows(_comments(path)),
         figures=figures,

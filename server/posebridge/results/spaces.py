@@ -112,11 +112,11 @@ def reach_section_result(
     return ReachSectionResult(
         cell_etag=cell_etag,
         axis="z" if section.axis == "z" else "y",
-        value_mm=float(section.value_mm),
+        value_mm=float(mm_from_m(section.value_m)),
         u_axis=section.u_axis,
         v_axis=section.v_axis,
-        u_mm=section.u_mm.tolist(),
-        v_mm=section.v_mm.tolist(),
+        u_mm=mm_from_m(section.u_m).tolist(),
+        v_mm=mm_from_m(section.v_m).tolist(),
         directions=directions,
         count=section.count.astype(int).tolist(),
     )

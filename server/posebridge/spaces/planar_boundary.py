@@ -43,14 +43,13 @@ from scipy.integrate import quad
 from posebridge.kinematics.fk import fk_tool
 from posebridge.robot.model import Robot
 from posebridge.spaces.errors import SpacesInputError
-from posebridge.units import BoolArray, FloatArray, mm_from_m
+from posebridge.units import BoolArray, FloatArray
 
 __all__ = [
     "PlanarChain",
     "PlanarReach",
     "planar_radius_range",
     "planar_reach",
-    "planar_reach_summary",
     "planar_reachable",
     "planar_region_area",
     "planar_section_mask",
@@ -433,30 +432,6 @@ def planar_reach(
     return PlanarReach(
         chain.height, float(np.count_nonzero(reached)) * grid_m * grid_m, inner, outer, full
     )
-
-
-def planar_reach_summary(robot: Robot) -> dict[str, object] | None:
-    """Return :func:`planar_reach` with the robot's default tool in boundary units.
-
-    Lengths in mm, the area in m² like the reach map's volumes, ready for JSON and the ``reach``
-    command's text; None for a non-planar robot.
-    """
-    reach = planar_reach(robot)
-    if reach is None:
-        return None
-    height_mm = float(mm_from_m(reach.plane_height_m))
-    return {
-        "planar": True,
-        "plane": f"base x-y plane at z = {height_mm:g} mm",
-        "plane_z_mm": height_mm,
-        "area_m2": reach.area_m2,
-        "inner_radius_mm": float(mm_from_m(reach.inner_radius_m)),
-        "outer_radius_mm": float(mm_from_m(reach.outer_radius_m)),
-        "full_turns": reach.full_turns,
-        "method": "closed form (law of cosines; swept region of the joint ranges)"
-        if robot.dof == 2
-        else "exact membership test on a 5 mm grid",
-    }
 
 
 def planar_section_mask(

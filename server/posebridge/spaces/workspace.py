@@ -61,7 +61,7 @@ from posebridge.kinematics.metrics import jacobian_rows, manipulability_yoshikaw
 from posebridge.robot.model import Robot
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.transforms import check_transform, invert_transform
-from posebridge.units import FloatArray, mm_from_m
+from posebridge.units import FloatArray
 
 __all__ = [
     "CHUNK_VOXELS",
@@ -503,7 +503,7 @@ SectionAxis = Literal["x", "y", "z"]
 
 @dataclass(frozen=True, eq=False)
 class ReachSection:
-    """A slice of a reach map through voxel centres, as a 2D grid with axes in mm.
+    """A slice of a reach map through voxel centres, as a 2D grid (SI units).
 
     ``axis="z"`` is a horizontal slice (plan view: ``u`` = x, ``v`` = y);
     ``axis="y"`` and ``axis="x"`` are vertical slices (elevations: ``u`` = x
@@ -514,10 +514,10 @@ class ReachSection:
     ----------
     axis : "x", "y" or "z"
         The axis normal to the slice.
-    value_mm : float
-        World coordinate of the slice (the nearest voxel-centre layer), mm.
-    u_mm, v_mm : array, shapes (U,), (V,)
-        Voxel-centre coordinates along the section's axes, mm.
+    value_m : float
+        World coordinate of the slice (the nearest voxel-centre layer), m.
+    u_m, v_m : array, shapes (U,), (V,)
+        Voxel-centre coordinates along the section's axes, m.
     u_axis, v_axis : str
         World axis names of ``u`` and ``v``.
     count : array of int16, shape (V, U)
@@ -525,9 +525,9 @@ class ReachSection:
     """
 
     axis: SectionAxis
-    value_mm: float
-    u_mm: FloatArray
-    v_mm: FloatArray
+    value_m: float
+    u_m: FloatArray
+    v_m: FloatArray
     u_axis: str
     v_axis: str
     count: Int16Array
@@ -560,9 +560,9 @@ def reach_section(reach: ReachMap, *, axis: SectionAxis, value_m: float) -> Reac
     best = np.take(reach.best_manipulability, layer, axis=k)
     return ReachSection(
         axis=axis,
-        value_mm=float(mm_from_m(along[layer])),
-        u_mm=mm_from_m(coordinates[u]),
-        v_mm=mm_from_m(coordinates[v]),
+        value_m=float(along[layer]),
+        u_m=coordinates[u],
+        v_m=coordinates[v],
         u_axis=names[u],
         v_axis=names[v],
         count=np.ascontiguousarray(count.T),

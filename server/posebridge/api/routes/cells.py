@@ -48,7 +48,7 @@ from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, MeshFixture, Pos
 from posebridge.cell.scene import Scene
 from posebridge.geometry.mesh_display import decimate_for_display, split_triangle_budget
 from posebridge.planning.sequence_report import with_waypoint_joints
-from posebridge.results.planning import WaypointJoints
+from posebridge.results.sequence import WaypointJoints
 from posebridge.transforms import (
     invert_transform,
     rotation_matrix_from_rpy,

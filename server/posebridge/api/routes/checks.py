@@ -29,18 +29,15 @@ from posebridge.cell.checks import check_targets
 from posebridge.cell.joint_log import JointLog, JointLogTooLongError, parse_joint_log
 from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.cell.pose_diagnosis import diagnose_pose
-from posebridge.planning.motion_export import (
-    DEFAULT_PERIOD_MS,
-    MIN_PERIOD_MS,
-    export_motion,
-    motion_csv,
-)
+from posebridge.planning.motion_export import DEFAULT_PERIOD_MS, MIN_PERIOD_MS, export_motion
 from posebridge.planning.path_check import check_path
 from posebridge.planning.sequence_report import optimise_path
 from posebridge.results.arm_state import ArmState, arm_state_result
 from posebridge.results.cell import LogDiagnosis, PoseDiagnosis, TargetCheckReport
 from posebridge.results.diagnosis import pose_diagnosis_result
-from posebridge.results.planning import MotionExportReport, PathCheckReport, SequenceReport
+from posebridge.results.motion_export import MotionExportReport, motion_csv, motion_export_result
+from posebridge.results.path_check import PathCheckReport, path_check_result
+from posebridge.results.sequence import SequenceReport, sequence_result
 
 __all__ = ["router"]
 
@@ -72,7 +69,7 @@ def _check_targets(context: ComputeContext) -> TargetCheckReport:
 
 
 def _check_path(context: ComputeContext, index: int) -> PathCheckReport:
-    return check_path(context.cell().scene, index)
+    return path_check_result(check_path(context.cell().scene, index))
 
 
 @router.get(
@@ -146,18 +143,22 @@ def _optimise(
     limit_margin_deg: float | None,
     limit_margin_mm: float | None,
 ) -> SequenceReport:
-    return optimise_path(
-        context.cell().scene,
-        index,
-        limit_margin_deg=limit_margin_deg,
-        limit_margin_mm=limit_margin_mm,
+    return sequence_result(
+        optimise_path(
+            context.cell().scene,
+            index,
+            limit_margin_deg=limit_margin_deg,
+            limit_margin_mm=limit_margin_mm,
+        )
     )
 
 
 def _export_motion(
     context: ComputeContext, index: int, period_ms: float, cell_name: str
 ) -> MotionExportReport:
-    return export_motion(context.cell().scene, index, period_ms=period_ms, cell_name=cell_name)
+    return motion_export_result(
+        export_motion(context.cell().scene, index, period_ms=period_ms), cell_name=cell_name
+    )
 
 
 async def _export(

@@ -204,9 +204,9 @@ def _reach_section(
     planar = planar_section_mask(
         scene.robot,
         axis=axis,
-        value_m=float(m_from_mm(section.value_mm)),
-        u_m=m_from_mm(section.u_mm),
-        v_m=m_from_mm(section.v_mm),
+        value_m=section.value_m,
+        u_m=section.u_m,
+        v_m=section.v_m,
         T_world_base=scene.T_world_base,
         T_flange_tool=scene.T_flange_tool,
         half_thickness_m=0.5 * voxel,

@@ -1,7 +1,8 @@
 """Requests of the cell checks: one pose, a controller log, base placement.
 
 The answers are the result models of the checks themselves
-(:mod:`posebridge.results.cell` and :mod:`posebridge.results.planning`),
+(:mod:`posebridge.results.cell`, :mod:`posebridge.results.path_check` and
+:mod:`posebridge.results.planning`),
 shared with the command line.
 """
 
