@@ -57,7 +57,7 @@ from posebridge.kinematics.ik.finishing import finish_solutions, joint_modes
 from posebridge.kinematics.ik.inputs import check_positive, check_seed, check_target_poses
 from posebridge.kinematics.ik.solutions import REASON_OUT_OF_REACH, IkSolutions
 from posebridge.robot.model import Robot
-from posebridge.units import FloatArray, deg_from_rad, mm_from_m
+from posebridge.units import FloatArray, angle_text, length_text
 
 __all__ = [
     "DAMPING_BIAS",
@@ -454,13 +454,12 @@ def solve_ik_numeric(
     )
     kernel(targets, starts_from, problem, q_raw, counts, closest)
     ok = np.arange(max_solutions)[None, :] < counts[:, None]
-    position_mm = mm_from_m(closest[:, 0])
-    orientation_deg = deg_from_rad(closest[:, 1])
     unreachable = [
         ""
         if counts[i] > 0
         else f"{REASON_OUT_OF_REACH} (numerical search from {int(closest[i, 2])} starts; "
-        f"closest {position_mm[i]:.3g} mm, {orientation_deg[i]:.3g} deg away)"
+        f"closest {length_text(closest[i, 0], 3, significant=True)}, "
+        f"{angle_text(closest[i, 1], 3, unit='deg', significant=True)} away)"
         for i in range(N)
     ]
     return finish_solutions(
