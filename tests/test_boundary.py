@@ -31,7 +31,6 @@ STILL_CONVERTING = {
     "cell/scene.py",
     "geometry/mesh_display.py",
     "geometry/mesh_files.py",
-    "spaces/joint_map.py",
 }
 
 

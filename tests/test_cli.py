@@ -365,6 +365,24 @@ def test_place_small_grid(capsys: pytest.CaptureFixture[str]) -> None:
     assert report["best"][0]["score"] >= report["best"][1]["score"]
 
 
+def test_jointmap_over_the_track(capsys: pytest.CaptureFixture[str]) -> None:
+    cell = str(ROBOTS / "demo-track-cell.json")
+    hold = "0,10,-20,0,40,0,1000,45"
+    argv = ("jointmap", cell, "--joints", "track,j1", "--hold", hold, "--resolution", "8")
+    code, result = run_json(capsys, *argv, "--workers", "1")
+    assert code == 0
+    assert result["joint_names"] == ["track", "j1"]
+    assert result["joint_units"] == ["mm", "deg"]
+    # the track's range 0..4000 mm (robots/demo-track-cell.json), j1 -167..167 deg (pb-arm6.toml)
+    assert result["lower_deg"] == pytest.approx([0.0, -167.0])
+    assert result["upper_deg"][0] == pytest.approx(4000.0)
+    assert result["external_hold_deg"] == pytest.approx([1000.0, 45.0])  # as held
+    assert main([*argv, "--quiet"]) == 0
+    assert "external axes: table-1 45.00 deg" in capsys.readouterr().out
+    assert main(["jointmap", cell, "--joints", "track,table-1", "--quiet"]) == 2
+    assert "at most one external axis" in capsys.readouterr().err
+
+
 def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None:
     code, result = run_json(
         capsys, "jointmap", DEMO_CELL, "--joints", "j2,j3", "--resolution", "16", "--workers", "1"

@@ -19,6 +19,7 @@ import { frameScheduler } from "./frame.js";
 import { branchHeading, branchPartsText, sameBranch } from "../branches.js";
 import { branchStyle, regionColour } from "../palette.js";
 import { clamp, formatJoint } from "../units.js";
+import { axesExist, mapAxes, mapValues, solutionValue } from "../mapaxes.js";
 
 const PICK_RADIUS_PX = 12;
 const CLEARANCE_SHADE_MM = 300;
@@ -154,12 +155,14 @@ export function createJointMapView({ element, base, note, legend, header, progre
   cancel.addEventListener("click", () => onCancelMap());
   progress.append(bar, barText, cancel);
 
-  function updateSelectors({ robot, mapJoints }) {
+  function updateSelectors(state) {
+    const { mapJoints } = state;
+    const axes = mapAxes(state);
     selectors.forEach((select, slot) => {
-      const names = robot.joints.map((joint) => joint.name).join(",");
+      const names = axes.map((joint) => joint.name).join(",");
       if (select.dataset.names !== names) {
         select.replaceChildren(
-          ...robot.joints.map((joint, index) => new Option(`${joint.name} (${joint.unit})`, String(index))),
+          ...axes.map((joint, index) => new Option(`${joint.name} (${joint.unit})`, String(index))),
         );
         select.dataset.names = names;
       }
@@ -176,22 +179,24 @@ export function createJointMapView({ element, base, note, legend, header, progre
 
   /** The moving traces: solution markers, selected-solution ring, current configuration, crosshair. */
   function dynamicTraces(state) {
-    const { ik, mapJoints, selectedBranch, joints, robot } = state;
+    const { ik, mapJoints, selectedBranch } = state;
     const level = currentArmSeverity(state).level;
     const [a, b] = mapJoints;
+    const axes = mapAxes(state);
+    const joints = mapValues(state);
     const solutions = ik ? ik.result.solutions : [];
     const styles = solutions.map((solution) => branchStyle(palette, solution));
     const selected = solutions.find(
       (s) => sameBranch(s, selectedBranch) && s.joints_deg.every((value, k) => Math.abs(value - joints[k]) < 1e-6),
     );
-    const [ja, jb] = [robot.joints[a], robot.joints[b]];
+    const [ja, jb] = [axes[a], axes[b]];
     return [
       {
         type: "scatter",
         mode: "markers",
         name: "solutions",
-        x: solutions.map((s) => s.joints_deg[a]),
-        y: solutions.map((s) => s.joints_deg[b]),
+        x: solutions.map((s) => solutionValue(s, a, joints)),
+        y: solutions.map((s) => solutionValue(s, b, joints)),
         customdata: solutions.map((_, index) => index),
         marker: {
           size: 14,
@@ -205,8 +210,8 @@ export function createJointMapView({ element, base, note, legend, header, progre
         type: "scatter",
         mode: "markers",
         name: "selected solution",
-        x: selected ? [selected.joints_deg[a]] : [],
-        y: selected ? [selected.joints_deg[b]] : [],
+        x: selected ? [solutionValue(selected, a, joints)] : [],
+        y: selected ? [solutionValue(selected, b, joints)] : [],
         marker: { size: 24, symbol: "circle-open", color: palette.ink, line: { width: 2 } },
         hoverinfo: "skip",
       },
@@ -239,7 +244,8 @@ export function createJointMapView({ element, base, note, legend, header, progre
   function fullRender(state, dynamic) {
     const { robot, mapJoints } = state;
     const [a, b] = mapJoints;
-    const [ja, jb] = [robot.joints[a], robot.joints[b]];
+    const axes = mapAxes(state);
+    const [ja, jb] = [axes[a], axes[b]];
     const map = currentMap(state);
     const data = [...(map ? regionTraces(map, palette) : []), ...sequenceTraces(state.sequence, [a, b], palette)];
     ranges = {
@@ -284,7 +290,12 @@ export function createJointMapView({ element, base, note, legend, header, progre
     if (!robot || joints.length !== robot.dof) {
       return;
     }
-    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk, state.sequence];
+    if (!axesExist(mapAxes(state), mapJoints)) {
+      // the mapped external axis left with the cell: back to the robot's first joints
+      actions.setMapJoints(robot.dof >= 3 ? [1, 2] : [0, Math.min(1, robot.dof - 1)]);
+      return;
+    }
+    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk, state.sequence, state.cell, state.carriage];
     if (drawnInputs && inputs.every((value, k) => value === drawnInputs[k])) {
       return; // already drawn (an answer drawn at once, then its frame request)
     }
@@ -381,12 +392,18 @@ export function createJointMapView({ element, base, note, legend, header, progre
     legend.replaceChildren(title, ...entries, current, regionTitle, ...regionEntries);
   }
 
-  function sliceNote({ robot, joints, mapJoints, cellActive }, map) {
-    const others = robot.joints
+  function sliceNote(state, map) {
+    const { mapJoints, cellActive } = state;
+    const joints = mapValues(state);
+    const axes = mapAxes(state);
+    const others = axes
       .map((joint, index) => ({ joint, index }))
       .filter(({ index }) => !mapJoints.includes(index))
       .map(({ joint, index }) => `${joint.name} ${formatJoint(joints[index], joint.unit)}`);
     const held = others.length ? ` with ${others.join(", ")} held` : "";
+    const external = mapJoints.some((index) => axes[index].external)
+      ? " Along an external axis the scene is posed at every value; solution markers sit at the axis' current value, and clicks set the robot joint (drag the carriage to move the track)."
+      : "";
     const regions = !cellActive
       ? " Obstacle regions are shown for the cell's robot."
       : map
@@ -396,7 +413,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
       `A slice through the current configuration${held}. ` +
       "Solution markers sit at each solution's own values of the two mapped joints; " +
       "their other joints differ from the slice, so a marker inside a region may still be free. " +
-      `Open markers are outside the joint limits.${regions}`
+      `Open markers are outside the joint limits.${regions}${external}`
     );
   }
 
@@ -418,7 +435,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
 
   const requestRender = frameScheduler({ render });
   store.subscribe(requestRender, {
-    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk", "sequence"],
+    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk", "sequence", "cell", "carriage"],
   });
   // a new inverse kinematics answer is drawn at once, not on the next frame: it is
   // what a drag waits for (the update is a small restyle of the top figure)
@@ -427,15 +444,17 @@ export function createJointMapView({ element, base, note, legend, header, progre
   renderProgress();
 
   function pickSolution(event) {
-    const { ik, mapJoints } = store.get();
+    const state = store.get();
+    const { ik, mapJoints } = state;
     if (!ik) {
       return null;
     }
     const [a, b] = mapJoints;
+    const values = mapValues(state);
     let best = null;
     let bestDistance = PICK_RADIUS_PX;
     for (const solution of ik.result.solutions) {
-      const p = pointerFromData(element, solution.joints_deg[a], solution.joints_deg[b]);
+      const p = pointerFromData(element, solutionValue(solution, a, values), solutionValue(solution, b, values));
       const distance = Math.hypot(p.clientX - event.clientX, p.clientY - event.clientY);
       if (distance <= bestDistance) {
         best = solution;
@@ -449,8 +468,13 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const { robot, joints, mapJoints } = store.get();
     const [a, b] = mapJoints;
     const next = [...joints];
-    next[a] = clamp(point.x, robot.joints[a].lower, robot.joints[a].upper);
-    next[b] = clamp(point.y, robot.joints[b].lower, robot.joints[b].upper);
+    // an external axis is not set from the map (the track moves with the carriage drag)
+    if (a < robot.dof) {
+      next[a] = clamp(point.x, robot.joints[a].lower, robot.joints[a].upper);
+    }
+    if (b < robot.dof) {
+      next[b] = clamp(point.y, robot.joints[b].lower, robot.joints[b].upper);
+    }
     actions.setJoints(next, { reason: "map" });
   }
 
@@ -491,7 +515,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const { robot, joints, mapJoints, stepDeg, stepMm } = store.get();
     const moves = { ArrowRight: [0, 1], ArrowLeft: [0, -1], ArrowUp: [1, 1], ArrowDown: [1, -1] };
     const move = moves[event.key];
-    if (!robot || !move) {
+    if (!robot || !move || mapJoints[move[0]] >= robot.dof) {
       return;
     }
     event.preventDefault();

@@ -11,6 +11,7 @@ import { sequenceKey, sequenceTraces } from "../sequencecurve.js";
 import { axis3d, draw, layout3d } from "./plotting.js";
 import { frameScheduler, kinematicsSettled } from "./frame.js";
 import { branchStyle, regionColour } from "../palette.js";
+import { axesExist, mapAxes, mapValues, solutionValue } from "../mapaxes.js";
 
 
 /** Wire box edges over the limit box of three joints, as one polyline with null breaks. */
@@ -97,7 +98,9 @@ export function createJointSpaceView({ element, header, note, legend, store, act
     return jointMap3;
   }
 
-  function dynamicTraces({ ik, joints, map3Joints, pathCurve }) {
+  function dynamicTraces(state) {
+    const { ik, map3Joints, pathCurve } = state;
+    const joints = mapValues(state);
     const [a, b, c] = map3Joints;
     const solutions = ik ? ik.result.solutions : [];
     const styles = solutions.map((solution) => branchStyle(palette, solution));
@@ -118,9 +121,9 @@ export function createJointSpaceView({ element, header, note, legend, store, act
         type: "scatter3d",
         mode: "markers",
         name: "solutions",
-        x: solutions.map((s) => s.joints_deg[a]),
-        y: solutions.map((s) => s.joints_deg[b]),
-        z: solutions.map((s) => s.joints_deg[c]),
+        x: solutions.map((s) => solutionValue(s, a, joints)),
+        y: solutions.map((s) => solutionValue(s, b, joints)),
+        z: solutions.map((s) => solutionValue(s, c, joints)),
         text: solutions.map((s) => s.branch || "single branch"),
         marker: { size: 6, color: styles.map((style) => style.color), symbol: solutions.map((s) => (s.within_limits ? "diamond" : "diamond-open")) },
         hovertemplate: "%{text}<extra></extra>",
@@ -146,10 +149,16 @@ export function createJointSpaceView({ element, header, note, legend, store, act
       element.hidden = !map3Joints;
       return;
     }
+    const axes = mapAxes(state);
+    if (!axesExist(axes, map3Joints)) {
+      // the mapped external axis left with the cell: back to the robot's first joints
+      actions.setMap3Joints(robot.dof >= 3 ? [0, 1, 2] : null);
+      return;
+    }
     selectors.forEach((select, slot) => {
-      const names = robot.joints.map((joint) => joint.name).join(",");
+      const names = axes.map((joint) => joint.name).join(",");
       if (select.dataset.names !== names) {
-        select.replaceChildren(...robot.joints.map((joint, index) => new Option(`${joint.name} (${joint.unit})`, String(index))));
+        select.replaceChildren(...axes.map((joint, index) => new Option(`${joint.name} (${joint.unit})`, String(index))));
         select.dataset.names = names;
       }
       select.value = String(map3Joints[slot]);
@@ -166,7 +175,7 @@ export function createJointSpaceView({ element, header, note, legend, store, act
       return;
     }
     baseKey = key;
-    const chosen = map3Joints.map((index) => robot.joints[index]);
+    const chosen = map3Joints.map((index) => axes[index]);
     const box = wireBox(chosen.map((j) => j.lower), chosen.map((j) => j.upper));
     const data = [
       { type: "scatter3d", mode: "lines", name: "joint limits", ...box, line: { color: palette["limit-box"], width: 3 }, hoverinfo: "skip" },
@@ -205,7 +214,7 @@ export function createJointSpaceView({ element, header, note, legend, store, act
         revision: `${robot.robot}|${map3Joints.join(",")}`,
       }),
     );
-    const others = robot.joints.filter((_, index) => !map3Joints.includes(index)).map((joint) => joint.name);
+    const others = axes.filter((_, index) => !map3Joints.includes(index)).map((joint) => joint.name);
     note.textContent = map
       ? `Points are colliding cells of a ${map.shape.join(" × ")} grid (self collision not shown), a slice with ${others.join(", ")} held at the current values.`
       : state.cellActive
@@ -253,7 +262,7 @@ export function createJointSpaceView({ element, header, note, legend, store, act
     hold: () => store.get().dragging || !kinematicsSettled(store.get()),
   });
   store.subscribe(requestRender, {
-    keys: ["robot", "joints", "fk", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging", "sequence"],
+    keys: ["robot", "joints", "fk", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging", "sequence", "cell", "carriage"],
   });
   return { render };
 }

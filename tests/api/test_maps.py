@@ -7,6 +7,7 @@ cell by cell with a direct call of that function on the same cell.
 
 from __future__ import annotations
 
+import asyncio
 from collections.abc import Awaitable, Callable
 from typing import Any
 
@@ -18,7 +19,7 @@ from posebridge.api.jobs import MAX_ACTIVE_OWNER
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.clearance import clearance_scene
 from posebridge.resources import data_folder
-from posebridge.spaces.joint_map import joint_map
+from posebridge.spaces.joint_map import cell_joint_map, joint_map
 from posebridge.units import joints_si_from_user
 
 pytestmark = pytest.mark.anyio
@@ -158,9 +159,9 @@ async def test_joint_map_of_the_same_cell_version_is_kept(
 
     def counted(*args: Any, **kwargs: Any) -> Any:
         computed.append(args)
-        return joint_map(*args, **kwargs)
+        return cell_joint_map(*args, **kwargs)
 
-    monkeypatch.setattr(maps, "joint_map", counted)
+    monkeypatch.setattr(maps, "cell_joint_map", counted)
     asked = {"joints": [1, 2], "hold_deg": HOLD, "resolution": 12}
     first = await client.post("/api/maps/joint", json=asked)
     status = await job_finished(first.json()["id"])
@@ -188,3 +189,32 @@ async def test_joint_map_of_the_same_cell_version_is_kept(
     assert status["state"] == "done"
     assert status["result"]["cell_etag"] == moved.json()["etag"]
     assert len(computed) == 3
+
+
+async def test_joint_map_over_the_track(make_app: Callable[..., Any], tmp_path: Any) -> None:
+    source = data_folder("robots") / "demo-track-cell.json"
+    cell = tmp_path / "track.json"
+    cell.write_text(source.read_text())
+    transport = httpx.ASGITransport(app=make_app(cell_path=cell))
+    async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as session:
+        asked = {"joints": [6, 0], "hold_deg": [*HOLD, 1000.0, 90.0], "resolution": 12}
+        started = (await session.post("/api/maps/joint", json=asked)).json()
+        for _ in range(6000):
+            status = (await session.get(f"/api/jobs/{started['id']}")).json()
+            if status["state"] not in ("queued", "running"):
+                break
+            await asyncio.sleep(0.1)
+        assert status["state"] == "done", status["detail"]
+        result = status["result"]
+        assert result["joint_names"] == ["track", "j1"]
+        assert result["joint_units"] == ["mm", "deg"]
+        # the track is swept, the table held at 90 deg as asked
+        assert result["external_hold_deg"] == pytest.approx([1000.0, 90.0])
+        scene = resolve_scene(load_cell(source), source)
+        q = joints_si_from_user(np.array(HOLD), scene.robot.prismatic)
+        expected = cell_joint_map(scene, [6, 0], q, [1.0, np.pi / 2], resolution=12)
+        assert result["obstacle"] == expected.obstacle.ravel().tolist()
+        two_axes = {"joints": [6, 7], "hold_deg": HOLD}
+        refused = await session.post("/api/maps/joint", json=two_axes)
+        assert refused.status_code == 422
+        assert "at most one external axis" in refused.json()["detail"]

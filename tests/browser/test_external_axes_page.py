@@ -154,3 +154,34 @@ def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_
         timeout=180_000,
     )
     assert not open_page.problems.page_errors
+
+
+def test_joint_map_over_the_track(open_page: Any) -> None:
+    page = open_page.page
+    _show_track_cell(open_page)
+    options = page.eval_on_selector_all(
+        "#map-pair label:first-of-type select option", "els => els.map(e => e.textContent)"
+    )
+    assert options[-2:] == ["track (mm)", "table-1 (deg)"]
+    page.select_option("#map-pair label:first-of-type select", label="track (mm)")
+    page.select_option("#map-pair label:nth-of-type(2) select", label="j1 (deg)")
+    page.wait_for_function(
+        "() => { const s = window.posebridge.getState(); const m = s.jointMap;"
+        " return Boolean(m && m.joints[0] === 6 && m.joints[1] === 0"
+        " && m.cell_etag === s.cell.etag); }",
+        timeout=180_000,
+    )
+    result = page.evaluate("() => window.posebridge.getState().jointMap")
+    assert result["joint_names"] == ["track", "j1"]
+    # the track's range 0..4000 mm (robots/demo-track-cell.json), 96 cells per axis (maps.js)
+    assert result["lower_deg"][0] == 0.0
+    assert result["upper_deg"][0] == 4000.0
+    assert result["shape"] == [96, 96]
+    assert len(result["obstacle"]) == 96 * 96
+    # the current marker at the track's home, 0 mm (robots/demo-track-cell.json)
+    page.wait_for_function(
+        "() => (document.getElementById('joint-map').data || []).some("
+        "(t) => t.meta && t.meta.role === 'current' && t.x[0] === 0)",
+        timeout=180_000,
+    )
+    assert not open_page.problems.page_errors

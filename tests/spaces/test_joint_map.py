@@ -22,6 +22,7 @@ from posebridge.compute import ComputationCancelled, SerialExecutor
 from posebridge.geometry.clearance import ClearanceScene, capsule_segments_world
 from posebridge.geometry.shapes import BOX, CYLINDER, FLOOR, ArmCapsules, Box, Floor, ObstacleSet
 from posebridge.resources import data_folder
+from posebridge.results.spaces import joint_map_axes_user, joint_map_limits_user
 from posebridge.spaces.errors import SpacesInputError
 from posebridge.spaces.joint_map import joint_map
 from posebridge.transforms import transform_from_position_rpy
@@ -72,8 +73,8 @@ def test_map_covers_exactly_the_joint_range_box(demo) -> None:
         q[..., [0, 3, 4, 5]], np.broadcast_to(hold[[0, 3, 4, 5]], (40, 30, 4))
     )
     # pb-arm6 limits j2 -87..151 deg, j3 -197..76 deg (robots/pb-arm6.toml).
-    np.testing.assert_allclose(result.lower_user, [-87.0, -197.0])
-    np.testing.assert_allclose(result.upper_user, [151.0, 76.0])
+    np.testing.assert_allclose(np.degrees(result.lower), [-87.0, -197.0])
+    np.testing.assert_allclose(np.degrees(result.upper), [151.0, 76.0])
 
 
 def _capsule_object(a: np.ndarray, b: np.ndarray, radius: float) -> fcl.CollisionObject:
@@ -304,10 +305,12 @@ def test_gantry_map_in_mm_matches_the_closed_form(robot) -> None:
     result = joint_map(clearance, (0, 2), hold, resolution=(200, 80))
     # Prismatic axes at the boundary in mm: x 0..2000 mm, z 0..800 mm (robots/pb-gantry3.toml),
     # 10 mm cells with centres at 5, 15, ... mm.
-    np.testing.assert_allclose(result.lower_user, [0.0, 0.0])
-    np.testing.assert_allclose(result.upper_user, [2000.0, 800.0])
-    np.testing.assert_allclose(result.axes_user[0], 5.0 + 10.0 * np.arange(200))
-    np.testing.assert_allclose(result.axes_user[1], 5.0 + 10.0 * np.arange(80))
+    lower, upper = joint_map_limits_user(result)
+    np.testing.assert_allclose(lower, [0.0, 0.0])
+    np.testing.assert_allclose(upper, [2000.0, 800.0])
+    x_mm, z_mm = joint_map_axes_user(result)
+    np.testing.assert_allclose(x_mm, 5.0 + 10.0 * np.arange(200))
+    np.testing.assert_allclose(z_mm, 5.0 + 10.0 * np.arange(80))
     # Two vertical capsules (robots/pb-gantry3.toml: x origin at 1.8 m, z axis pointing down):
     # the ram, radius 60 mm, from (x, y, 1.8 - z) to (x, y, 1.65 - z) m, and the head, radius
     # 45 mm, from 1.65 - z to 1.62 - z m. Distance of a vertical segment to an axis-aligned box,

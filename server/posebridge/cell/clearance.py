@@ -73,6 +73,7 @@ __all__ = [
     "fixture_count",
     "obstacle_kinds",
     "obstacle_names",
+    "posed_clearance_scene",
 ]
 
 ObstacleKind = Literal["fixture", "keep-out", "pedestal", "floor"]
@@ -243,6 +244,25 @@ def clearance_scene(scene: Scene) -> ClearanceScene:
     ClearanceScene
     """
     return _built(scene).everything
+
+
+def posed_clearance_scene(scene: Scene, values: npt.ArrayLike) -> ClearanceScene:
+    """Return the clearance scene of ``scene`` with its external axes at ``values`` (m, rad; (m,)).
+
+    The scene is posed by :func:`~posebridge.cell.scene.posed_scene` (the track moves the
+    base, pedestal and carriage; a turntable its fixtures) and takes the self pairs of
+    ``scene`` itself: the arm is the same at every axis value, so its costly pair sampling
+    is done once. At the scene's own values this is :func:`clearance_scene`.
+
+    Returns
+    -------
+    ClearanceScene
+    """
+    posed = posed_scene(scene, values)
+    if posed is scene:
+        return clearance_scene(scene)
+    built = _Built(posed)
+    return built._scene(_built(scene).pairs, built.mask)
 
 
 @dataclass(frozen=True, eq=False)

@@ -18,6 +18,7 @@ from posebridge.cli.common import (
     load_kernels,
     load_robot_argument,
     load_scene,
+    parse_numbers,
     print_json,
 )
 from posebridge.cli.options import SharedOptions, options
@@ -82,26 +83,33 @@ def _cmd_reach(args: argparse.Namespace) -> int:
 
 
 def _cmd_jointmap(args: argparse.Namespace) -> int:
-    from posebridge.cell.clearance import clearance_scene
     from posebridge.cell.files import cell_etag
     from posebridge.geometry.warm import warm_geometry
     from posebridge.kinematics.warm import warm_kinematics
     from posebridge.results.spaces import joint_map_result
-    from posebridge.spaces.joint_map import joint_map
+    from posebridge.spaces.joint_map import cell_joint_map
     from posebridge.units import joint_unit_labels
 
     scene = load_scene(args.cell, quiet=args.quiet)
     cell = scene.cell
     robot = scene.robot
+    external = scene.external
+    vector = [*robot.joint_names, *external.names]
     names = [n.strip() for n in args.joints.split(",")]
-    unknown = [n for n in names if n not in robot.joint_names]
-    if unknown or len(names) not in (2, 3):
+    unknown = [n for n in names if n not in vector]
+    if unknown or len(names) not in (2, 3) or sum(n in external.names for n in names) > 1:
+        axes = " (at most one external axis)" if external.count else ""
         raise CommandLineInputError(
-            f"--joints: expected 2 or 3 of {', '.join(robot.joint_names)}, got {args.joints!r}"
+            f"--joints: expected 2 or 3 of {', '.join(vector)}{axes}, got {args.joints!r}"
         )
-    q_hold = (
-        joints_argument(args.hold, "--hold", robot) if args.hold else robot.home_configuration()
-    )
+    external_hold = external.values.copy()
+    if args.hold is None:
+        q_hold = robot.home_configuration()
+    elif external.count and len(args.hold.split(",")) == len(vector):
+        q, values = scene.split_joints([parse_numbers(args.hold, "--hold")], where="--hold")
+        q_hold, external_hold = q[0], values[0]
+    else:
+        q_hold = joints_argument(args.hold, "--hold", robot)
     load_kernels(
         [
             ("forward and inverse kinematics", lambda: warm_kinematics(robot)),
@@ -110,15 +118,16 @@ def _cmd_jointmap(args: argparse.Namespace) -> int:
         quiet=args.quiet,
     )
     with executor_from(args, warm_geometry) as executor:
-        computed = joint_map(
-            clearance_scene(scene),
-            [robot.joint_names.index(n) for n in names],
+        computed = cell_joint_map(
+            scene,
+            [vector.index(n) for n in names],
             q_hold,
+            external_hold,
             resolution=args.resolution,
             executor=executor,
             progress=ProgressBar("joint map", enabled=not args.json),
         )
-    result = joint_map_result(computed, robot, cell_etag(cell))
+    result = joint_map_result(computed, robot, cell_etag(cell), external)
     if args.json:
         print_json(result.model_dump(mode="json"))
         return EXIT_OK
@@ -130,6 +139,15 @@ def _cmd_jointmap(args: argparse.Namespace) -> int:
         f"joint map over {', '.join(names)} ({' x '.join(map(str, result.shape))} cells), other joints held at"
     )
     print(f"  {format_row(result.hold_deg, 2)} ({', '.join(joint_unit_labels(robot.prismatic))})")
+    if external.count:
+        held = [
+            f"{name} {value:.2f} {unit}"
+            for name, value, unit in zip(
+                external.names, result.external_hold_deg, external.units, strict=True
+            )
+            if name not in names
+        ]
+        print(f"  external axes: {', '.join(held) if held else 'none held'}")
     print(f"free cells: {free} of {total} ({100.0 * free / total:.1f} %)")
     for name in result.colliding_obstacles:
         k = result.obstacle_names.index(name)
@@ -154,10 +172,15 @@ def add_jointmap(sub: Any, shared: SharedOptions) -> None:
     """``posebridge jointmap CELL [--joints NAMES] [--hold] [--resolution] [--workers] [--json]``."""
     own = options()
     own.add_argument(
-        "--joints", default="j2,j3", help="joint names, e.g. j2,j3 (default) or j1,j2,j3"
+        "--joints",
+        default="j2,j3",
+        help="joint names, e.g. j2,j3 (default) or j1,j2,j3; one may be an external axis "
+        "of the cell (track,j1)",
     )
     own.add_argument(
-        "--hold", help="values of every joint; the mapped ones are ignored (default: home)"
+        "--hold",
+        help="values of every joint, optionally followed by the cell's external axes (mm, deg); "
+        "the mapped ones are ignored (default: home, the axes at the cell's values)",
     )
     own.add_argument(
         "--resolution", type=int, default=128, help="cells per joint (2 joints <= 512, 3 <= 128)"

@@ -27,6 +27,7 @@ from scipy.spatial import ConvexHull, QhullError
 from posebridge.cell.scene import Scene
 from posebridge.palette import PALETTE, region_colour, rgba
 from posebridge.report.meshes import Mesh, scene_meshes
+from posebridge.results.spaces import joint_map_axes_user, joint_map_limits_user
 from posebridge.spaces.joint_map import JointMap
 from posebridge.units import FloatArray, mm_from_m
 
@@ -348,7 +349,7 @@ def joint_map_figure(
     if len(joint_map.joints) != 2:
         raise ValueError(f"joint_map: expected a two-joint map, got {len(joint_map.joints)} joints")
     a, b = joint_map.joints
-    x_axis, y_axis = joint_map.axes_user
+    x_axis, y_axis = joint_map_axes_user(joint_map)
     units = ["mm" if p else "deg" for p in joint_map.prismatic]
     labels = np.asarray(joint_map.obstacle, dtype=np.int64)
     present = sorted(int(k) for k in np.unique(labels) if k >= 0)
@@ -433,7 +434,7 @@ def joint_map_figure(
                 },
             }
         )
-    lower, upper = joint_map.lower_user, joint_map.upper_user
+    lower, upper = joint_map_limits_user(joint_map)
     return {
         "data": data,
         "layout": {

@@ -11,12 +11,20 @@ from typing import Literal
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 
+from posebridge.cell.external_axes import NO_EXTERNAL_AXES, ExternalAxes
 from posebridge.robot.model import Robot
 from posebridge.spaces.joint_map import JointMap
 from posebridge.spaces.workspace import ReachSection
-from posebridge.units import joint_unit_labels, joints_user_from_si, mm_from_m
+from posebridge.units import FloatArray, joint_unit_labels, joints_user_from_si, mm_from_m
 
-__all__ = ["JointMapResult", "ReachSectionResult", "joint_map_result", "reach_section_result"]
+__all__ = [
+    "JointMapResult",
+    "ReachSectionResult",
+    "joint_map_axes_user",
+    "joint_map_limits_user",
+    "joint_map_result",
+    "reach_section_result",
+]
 
 _JOINTS = "Revolute joints in degrees, prismatic joints in millimetres, in the robot's joint order."
 
@@ -30,7 +38,10 @@ class JointMapResult(BaseModel):
     model_config = ConfigDict(extra="forbid")
 
     cell_etag: str = Field(description="Content version of the cell the map was computed for.")
-    joints: list[int]
+    joints: list[int] = Field(
+        description="Chosen joint indices into the cell's joint vector: the robot's joints, "
+        "then its external axes (track, turntables)."
+    )
     joint_names: list[str]
     joint_units: list[str]
     shape: list[int] = Field(description="Cells along each chosen joint.")
@@ -39,6 +50,11 @@ class JointMapResult(BaseModel):
     upper_deg: list[float] = Field(description="Limit box upper corner of the chosen joints.")
     hold_deg: list[float] = Field(
         description="The configuration the map slices through. " + _JOINTS
+    )
+    external_hold_deg: list[float] = Field(
+        default_factory=list,
+        description="The external axes' values the map slices through (track in mm, "
+        "turntables in deg), in the order of the cell's external axes; a mapped axis is swept.",
     )
     threshold_mm: float
     obstacle_names: list[str] = Field(
@@ -62,9 +78,34 @@ class JointMapResult(BaseModel):
     )
 
 
-def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> JointMapResult:
-    """Return the answer for a computed :class:`~posebridge.spaces.joint_map.JointMap`."""
+def joint_map_axes_user(joint_map: JointMap) -> tuple[FloatArray, ...]:
+    """Cell-centre values of each map axis in boundary units: deg (revolute) or mm (prismatic)."""
+    return tuple(
+        joints_user_from_si(axis, np.array([p]))
+        for axis, p in zip(joint_map.axes, joint_map.prismatic, strict=True)
+    )
+
+
+def joint_map_limits_user(joint_map: JointMap) -> tuple[FloatArray, FloatArray]:
+    """Limit box of the map axes (lower, upper corner) in deg or mm, shapes (d,)."""
+    return (
+        joints_user_from_si(joint_map.lower, joint_map.prismatic),
+        joints_user_from_si(joint_map.upper, joint_map.prismatic),
+    )
+
+
+def joint_map_result(
+    joint_map: JointMap,
+    robot: Robot,
+    cell_etag: str,
+    external: ExternalAxes = NO_EXTERNAL_AXES,
+) -> JointMapResult:
+    """Return the answer for a computed :class:`~posebridge.spaces.joint_map.JointMap`.
+
+    ``external``: the cell's external axes (their units), when the map holds or sweeps them.
+    """
     prismatic = joint_map.prismatic
+    lower, upper = joint_map_limits_user(joint_map)
     clearance = None
     if len(joint_map.joints) == 2:
         values = np.round(mm_from_m(np.minimum(joint_map.clearance, 1e3)), 1)
@@ -75,10 +116,13 @@ def joint_map_result(joint_map: JointMap, robot: Robot, cell_etag: str) -> Joint
         joint_names=list(joint_map.joint_names),
         joint_units=joint_unit_labels(prismatic),
         shape=list(joint_map.shape),
-        axes_deg=[axis.tolist() for axis in joint_map.axes_user],
-        lower_deg=joint_map.lower_user.tolist(),
-        upper_deg=joint_map.upper_user.tolist(),
+        axes_deg=[axis.tolist() for axis in joint_map_axes_user(joint_map)],
+        lower_deg=lower.tolist(),
+        upper_deg=upper.tolist(),
         hold_deg=joints_user_from_si(joint_map.q_hold, robot.prismatic).tolist(),
+        external_hold_deg=external.user_from_si(joint_map.external_hold).tolist()
+        if joint_map.external_hold.size
+        else [],
         threshold_mm=float(mm_from_m(joint_map.threshold_m)),
         obstacle_names=list(joint_map.obstacle_names),
         obstacle=joint_map.obstacle.ravel().astype(int).tolist(),

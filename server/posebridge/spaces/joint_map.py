@@ -15,6 +15,14 @@ itself) where that distance is below ``threshold_m``; its label is the
 obstacle with the smallest distance, its clearance the smallest distance
 of all.
 
+**External axes** (:func:`cell_joint_map`): the axes of a cell map index the
+cell's joint vector, the robot's ``n`` joints then its external axes (track,
+turntables). One map axis may be an external axis: each of its cell-centre
+values poses the scene there (:func:`posebridge.cell.clearance.posed_clearance_scene`:
+the track carries the base, pedestal and carriage, a turntable its fixtures),
+and the cells at that value are classified in that posed scene. The other
+external axes stay at their held values.
+
 The configurations are cut into fixed chunks of :data:`CHUNK_CONFIGURATIONS`
 (fixed by the grid alone) and run by an executor
 (:mod:`posebridge.compute`); every chunk is computed the same way whichever
@@ -25,21 +33,24 @@ from __future__ import annotations
 
 import threading
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.cell.clearance import posed_clearance_scene
+from posebridge.cell.scene import Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks, split_range
 from posebridge.geometry.clearance import ClearanceScene, clearance_per_obstacle_batch
 from posebridge.spaces.errors import SpacesInputError
-from posebridge.units import BoolArray, FloatArray, joints_user_from_si
+from posebridge.units import BoolArray, FloatArray
 
 __all__ = [
     "CHUNK_CONFIGURATIONS",
     "MAX_RESOLUTION_2",
     "MAX_RESOLUTION_3",
     "JointMap",
+    "cell_joint_map",
     "grid_axis",
     "joint_map",
 ]
@@ -57,7 +68,7 @@ Int64Array = npt.NDArray[np.int64]
 
 @dataclass(frozen=True, eq=False)
 class JointMap:
-    """Obstacle map over two or three chosen joints (SI inside; ``*_user`` in deg or mm).
+    """Obstacle map over two or three chosen joints (SI).
 
     Grid arrays have shape ``G = (R_1, ..., R_d)``, ``d`` = 2 or 3, axis ``k``
     along chosen joint ``k``.
@@ -65,7 +76,8 @@ class JointMap:
     Attributes
     ----------
     joints : tuple of int, length d
-        Chosen joint indices (0-based).
+        Chosen joint indices (0-based) into the cell's joint vector: the robot's
+        ``n`` joints, then the external axes (:func:`cell_joint_map`).
     joint_names : tuple of str, length d
     prismatic : array of bool, shape (d,)
     axes : tuple of d arrays, shapes (R_k,)
@@ -73,7 +85,7 @@ class JointMap:
     lower, upper : array, shape (d,)
         The limit box of the chosen joints, rad or m.
     q_hold : array, shape (n,)
-        Configuration of the other joints (the chosen ones are swept).
+        Configuration of the other robot joints (the chosen ones are swept).
     obstacle_names : tuple of str, length k
         The clearance scene's obstacles; labels index this tuple.
     obstacle : array of int16, shape G
@@ -90,6 +102,9 @@ class JointMap:
         ``colliding[..., j]``: the cell collides with obstacle
         ``colliding_obstacles[j]`` (several obstacles may overlap).
     threshold_m : float
+    external_hold : array, shape (m,)
+        Values of the cell's external axes, m or rad (a chosen one is swept);
+        empty for a map of the robot alone.
     """
 
     joints: tuple[int, ...]
@@ -106,6 +121,7 @@ class JointMap:
     colliding_obstacles: Int64Array
     colliding: BoolArray
     threshold_m: float
+    external_hold: FloatArray = field(default_factory=lambda: np.zeros(0))
 
     @property
     def shape(self) -> tuple[int, ...]:
@@ -117,29 +133,16 @@ class JointMap:
         """Cells with neither an obstacle nor a self collision, shape G."""
         return (self.obstacle < 0) & ~self.self_collision
 
-    @property
-    def axes_user(self) -> tuple[FloatArray, ...]:
-        """Cell-centre values in boundary units: deg (revolute) or mm (prismatic)."""
-        return tuple(
-            joints_user_from_si(axis, np.array([p]))
-            for axis, p in zip(self.axes, self.prismatic, strict=True)
+    def cell_configurations(self) -> FloatArray:
+        """Cell joint vector of every cell (robot joints, then external axes), shape G + (n + m,)."""
+        hold = np.concatenate([self.q_hold, self.external_hold])
+        return _grid_values(hold, self.joints, self.axes, 0, int(np.prod(self.shape))).reshape(
+            (*self.shape, hold.shape[0])
         )
 
-    @property
-    def lower_user(self) -> FloatArray:
-        """Limit box lower corner in deg or mm, shape (d,)."""
-        return joints_user_from_si(self.lower, self.prismatic)
-
-    @property
-    def upper_user(self) -> FloatArray:
-        """Limit box upper corner in deg or mm, shape (d,)."""
-        return joints_user_from_si(self.upper, self.prismatic)
-
     def configurations(self) -> FloatArray:
-        """Full joint configuration of every cell, shape G + (n,), rad or m."""
-        return _grid_configurations(
-            self.q_hold, self.joints, self.axes, 0, int(np.prod(self.shape))
-        ).reshape((*self.shape, self.q_hold.shape[0]))
+        """Robot joint configuration of every cell, shape G + (n,), rad or m."""
+        return self.cell_configurations()[..., : self.q_hold.shape[0]]
 
 
 def grid_axis(lower: float, upper: float, cells: int) -> FloatArray:
@@ -154,21 +157,22 @@ def grid_axis(lower: float, upper: float, cells: int) -> FloatArray:
     return np.asarray(lower + (np.arange(cells) + 0.5) * width, dtype=np.float64)
 
 
-def _grid_configurations(
-    q_hold: FloatArray, joints: tuple[int, ...], axes: tuple[FloatArray, ...], start: int, stop: int
+def _grid_values(
+    hold: FloatArray, joints: tuple[int, ...], axes: tuple[FloatArray, ...], start: int, stop: int
 ) -> FloatArray:
-    """Return configurations of the flat (C-order) cells ``start..stop``, shape (stop - start, n)."""
+    """Return joint vectors of the flat (C-order) cells ``start..stop``, shape (stop - start, len(hold))."""
     shape = tuple(axis.shape[0] for axis in axes)
     index = np.unravel_index(np.arange(start, stop), shape)
-    q = np.repeat(q_hold[None, :], stop - start, axis=0)
+    q = np.repeat(hold[None, :], stop - start, axis=0)
     for k, joint in enumerate(joints):
         q[:, joint] = axes[k][index[k]]
     return q
 
 
 def _joint_map_chunk(
-    scene: ClearanceScene,
-    q_hold: FloatArray,
+    scenes: tuple[tuple[int, ClearanceScene], ...],
+    swept: int,
+    hold: FloatArray,
     joints: tuple[int, ...],
     axes: tuple[FloatArray, ...],
     threshold_m: float,
@@ -176,6 +180,10 @@ def _joint_map_chunk(
     stop: int,
 ) -> tuple[Int16Array, BoolArray, FloatArray, Int64Array, Int64Array]:
     """Classify the cells ``start..stop`` (one executor chunk).
+
+    ``scenes`` pairs a grid index along map axis ``swept`` with the clearance scene posed
+    there; with ``swept`` = -1 it is one scene for every cell. ``hold`` is the cell's joint
+    vector, the robot's joints first (as many as the scenes' robot has).
 
     Returns
     -------
@@ -185,9 +193,19 @@ def _joint_map_chunk(
     hit_cell, hit_obstacle : arrays of int64, shape (H,)
         Every (cell, obstacle) pair in collision, cell index counted from ``start``.
     """
-    q = _grid_configurations(q_hold, joints, axes, start, stop)
-    result = clearance_per_obstacle_batch(scene, q, threshold_m=threshold_m)
-    distance = result.distance
+    dof = scenes[0][1].arm.robot.dof
+    q = _grid_values(hold, joints, axes, start, stop)[:, :dof]
+    if swept < 0:
+        groups = [(np.arange(stop - start), scenes[0][1])]
+    else:
+        along = np.unravel_index(np.arange(start, stop), tuple(a.shape[0] for a in axes))[swept]
+        groups = [(np.flatnonzero(along == value), scene) for value, scene in scenes]
+    distance = np.empty((stop - start, scenes[0][1].obstacles.count))
+    self_distance = np.empty(stop - start)
+    for rows, scene in groups:
+        part = clearance_per_obstacle_batch(scene, q[rows], threshold_m=threshold_m)
+        distance[rows] = part.distance
+        self_distance[rows] = part.self_distance
     if distance.shape[1] > 0:
         nearest = np.argmin(distance, axis=1)
         nearest_distance = distance[np.arange(distance.shape[0]), nearest]
@@ -195,11 +213,11 @@ def _joint_map_chunk(
         nearest = np.zeros(distance.shape[0], dtype=np.int64)
         nearest_distance = np.full(distance.shape[0], np.inf)
     obstacle = np.where(nearest_distance < threshold_m, nearest, -1).astype(np.int16)
-    clearance = np.minimum(nearest_distance, result.self_distance)
-    hit_cell, hit_obstacle = np.nonzero(result.in_collision)
+    clearance = np.minimum(nearest_distance, self_distance)
+    hit_cell, hit_obstacle = np.nonzero(distance < threshold_m)
     return (
         obstacle,
-        result.self_collision,
+        self_distance < threshold_m,
         clearance,
         hit_cell.astype(np.int64),
         hit_obstacle.astype(np.int64),
@@ -207,24 +225,31 @@ def _joint_map_chunk(
 
 
 def _check_request(
-    scene: ClearanceScene,
+    dof: int,
+    names: Sequence[str],
     joints: Sequence[int],
-    q_hold: npt.ArrayLike,
+    hold: npt.ArrayLike,
     resolution: int | Sequence[int],
     threshold_m: float,
 ) -> tuple[tuple[int, ...], FloatArray, tuple[int, ...]]:
-    robot = scene.arm.robot
+    """Check a request over a joint vector of ``len(names)`` values (the first ``dof`` the robot's)."""
     chosen = tuple(int(j) for j in joints)
+    count = len(names)
     if len(chosen) not in (2, 3):
         raise SpacesInputError(f"joints: expected 2 or 3 joint indices, got {len(chosen)}")
-    if len(set(chosen)) != len(chosen) or not all(0 <= j < robot.dof for j in chosen):
+    if len(set(chosen)) != len(chosen) or not all(0 <= j < count for j in chosen):
         raise SpacesInputError(
-            f"joints: expected distinct indices in 0..{robot.dof - 1} for robot {robot.name!r}, got {list(chosen)}"
+            f"joints: expected distinct indices in 0..{count - 1} ({', '.join(names)}), "
+            f"got {list(chosen)}"
         )
-    hold = np.asarray(q_hold, dtype=np.float64)
-    if hold.shape != (robot.dof,) or not np.all(np.isfinite(hold)):
+    if sum(j >= dof for j in chosen) > 1:
         raise SpacesInputError(
-            f"q_hold: expected {robot.dof} finite joint values, got shape {hold.shape}"
+            f"joints: at most one external axis per map, got {[names[j] for j in chosen]}"
+        )
+    values = np.asarray(hold, dtype=np.float64)
+    if values.shape != (count,) or not np.all(np.isfinite(values)):
+        raise SpacesInputError(
+            f"q_hold: expected {count} finite joint values, got shape {values.shape}"
         )
     cells = (resolution,) * len(chosen) if isinstance(resolution, int) else tuple(resolution)
     largest = MAX_RESOLUTION_2 if len(chosen) == 2 else MAX_RESOLUTION_3
@@ -237,7 +262,51 @@ def _check_request(
         )
     if not np.isfinite(threshold_m):
         raise SpacesInputError(f"threshold_m: expected a finite value, got {threshold_m!r}")
-    return chosen, hold, tuple(int(c) for c in cells)
+    return chosen, values, tuple(int(c) for c in cells)
+
+
+def _run_map(
+    scenes: list[tuple[int, ClearanceScene]],
+    swept: int,
+    hold: FloatArray,
+    chosen: tuple[int, ...],
+    axes: tuple[FloatArray, ...],
+    threshold_m: float,
+    executor: Executor | None,
+    progress: ProgressCallback | None,
+    cancel: threading.Event | None,
+) -> tuple[Int16Array, BoolArray, FloatArray, Int64Array, BoolArray]:
+    """Classify every cell in chunks; return obstacle, self collision, clearance, colliding."""
+    cells = tuple(axis.shape[0] for axis in axes)
+    total = int(np.prod(cells))
+    chunks = []
+    for start, stop in split_range(total, CHUNK_CONFIGURATIONS):
+        if swept < 0:
+            needed = tuple(scenes)
+        else:  # only the posed scenes this chunk's cells use
+            along = set(np.unravel_index(np.arange(start, stop), cells)[swept].tolist())
+            needed = tuple(item for item in scenes if item[0] in along)
+        chunks.append((needed, swept, hold, chosen, axes, threshold_m, start, stop))
+    if executor is None:
+        results = run_chunks(_joint_map_chunk, chunks, progress=progress, cancel=cancel)
+    else:
+        results = executor.map_chunks(_joint_map_chunk, chunks, progress=progress, cancel=cancel)
+    starts = np.array([chunk[6] for chunk in chunks], dtype=np.int64)
+    obstacle = np.concatenate([r[0] for r in results]).reshape(cells)
+    self_collision = np.concatenate([r[1] for r in results]).reshape(cells)
+    clearance = np.concatenate([r[2] for r in results]).reshape(cells)
+    hit_cell = np.concatenate([r[3] + s for r, s in zip(results, starts, strict=True)])
+    hit_obstacle = np.concatenate([r[4] for r in results])
+    present = np.unique(hit_obstacle).astype(np.int64)
+    colliding = np.zeros((total, present.shape[0]), dtype=bool)
+    colliding[hit_cell, np.searchsorted(present, hit_obstacle)] = True
+    return (
+        obstacle,
+        self_collision,
+        clearance,
+        present,
+        colliding.reshape((*cells, present.shape[0])),
+    )
 
 
 def joint_map(
@@ -284,29 +353,16 @@ def joint_map(
     posebridge.compute.ComputationCancelled
         ``cancel`` was set.
     """
-    chosen, hold, cells = _check_request(scene, joints, q_hold, resolution, threshold_m)
     robot = scene.arm.robot
+    chosen, hold, cells = _check_request(
+        robot.dof, robot.joint_names, joints, q_hold, resolution, threshold_m
+    )
     lower = robot.lower[list(chosen)]
     upper = robot.upper[list(chosen)]
     axes = tuple(grid_axis(lo, hi, c) for lo, hi, c in zip(lower, upper, cells, strict=True))
-    total = int(np.prod(cells))
-    chunks = [
-        (scene, hold, chosen, axes, float(threshold_m), start, stop)
-        for start, stop in split_range(total, CHUNK_CONFIGURATIONS)
-    ]
-    if executor is None:
-        results = run_chunks(_joint_map_chunk, chunks, progress=progress, cancel=cancel)
-    else:
-        results = executor.map_chunks(_joint_map_chunk, chunks, progress=progress, cancel=cancel)
-    starts = np.array([chunk[5] for chunk in chunks], dtype=np.int64)
-    obstacle = np.concatenate([r[0] for r in results]).reshape(cells)
-    self_collision = np.concatenate([r[1] for r in results]).reshape(cells)
-    clearance = np.concatenate([r[2] for r in results]).reshape(cells)
-    hit_cell = np.concatenate([r[3] + s for r, s in zip(results, starts, strict=True)])
-    hit_obstacle = np.concatenate([r[4] for r in results])
-    present = np.unique(hit_obstacle)
-    colliding = np.zeros((total, present.shape[0]), dtype=bool)
-    colliding[hit_cell, np.searchsorted(present, hit_obstacle)] = True
+    obstacle, self_collision, clearance, present, colliding = _run_map(
+        [(0, scene)], -1, hold, chosen, axes, float(threshold_m), executor, progress, cancel
+    )
     return JointMap(
         joints=chosen,
         joint_names=tuple(robot.joint_names[j] for j in chosen),
@@ -319,7 +375,101 @@ def joint_map(
         obstacle=obstacle,
         self_collision=self_collision,
         clearance=clearance,
-        colliding_obstacles=present.astype(np.int64),
-        colliding=colliding.reshape((*cells, present.shape[0])),
+        colliding_obstacles=present,
+        colliding=colliding,
         threshold_m=float(threshold_m),
+    )
+
+
+def cell_joint_map(
+    scene: Scene,
+    joints: Sequence[int],
+    q_hold: npt.ArrayLike,
+    external_hold: npt.ArrayLike | None = None,
+    *,
+    resolution: int | Sequence[int] = 256,
+    threshold_m: float = 0.0,
+    executor: Executor | None = None,
+    progress: ProgressCallback | None = None,
+    cancel: threading.Event | None = None,
+) -> JointMap:
+    """Obstacle map of a cell over two or three entries of its joint vector, one may be an external axis.
+
+    Method in the module docstring: an external axis poses the scene at each of its
+    cell-centre values; robot joints sweep as in :func:`joint_map`.
+
+    Parameters
+    ----------
+    scene : Scene
+    joints : sequence of int, length 2 or 3
+        Indices into the cell's joint vector: ``0..n-1`` the robot's joints, ``n..n+m-1``
+        its external axes (at most one of them).
+    q_hold : array-like, shape (n,)
+        Robot joint values, rad or m (chosen entries ignored).
+    external_hold : array-like, shape (m,), optional
+        External axis values, m or rad (a chosen one is ignored); the scene's own values
+        if omitted.
+    resolution, threshold_m, executor, progress, cancel
+        As in :func:`joint_map`.
+
+    Returns
+    -------
+    JointMap
+
+    Raises
+    ------
+    SpacesInputError
+        Bad joints (more than one external axis included), held values, resolution or threshold.
+    posebridge.compute.ComputationCancelled
+        ``cancel`` was set.
+    """
+    robot, external = scene.robot, scene.external
+    n = robot.dof
+    outside = external.values if external_hold is None else external_hold
+    names = (*robot.joint_names, *external.names)
+    robot_hold = np.asarray(q_hold, dtype=np.float64)
+    if robot_hold.shape != (n,):
+        raise SpacesInputError(
+            f"q_hold: expected {n} finite joint values, got shape {robot_hold.shape}"
+        )
+    external_values = np.asarray(outside, dtype=np.float64)
+    if external_values.shape != (external.count,):
+        raise SpacesInputError(
+            f"external_hold: expected {external.count} values ({', '.join(external.names)}), "
+            f"got shape {external_values.shape}"
+        )
+    chosen, hold, cells = _check_request(
+        n, names, joints, np.concatenate([robot_hold, external_values]), resolution, threshold_m
+    )
+    lower = np.concatenate([robot.lower, external.lower])[list(chosen)]
+    upper = np.concatenate([robot.upper, external.upper])[list(chosen)]
+    axes = tuple(grid_axis(lo, hi, c) for lo, hi, c in zip(lower, upper, cells, strict=True))
+    swept = next((k for k, j in enumerate(chosen) if j >= n), -1)
+    if swept < 0:
+        scenes = [(0, posed_clearance_scene(scene, hold[n:]))]
+    else:
+        scenes = []
+        for g, value in enumerate(axes[swept]):
+            values = hold[n:].copy()
+            values[chosen[swept] - n] = value
+            scenes.append((g, posed_clearance_scene(scene, values)))
+    obstacle, self_collision, clearance, present, colliding = _run_map(
+        scenes, swept, hold, chosen, axes, float(threshold_m), executor, progress, cancel
+    )
+    return JointMap(
+        joints=chosen,
+        joint_names=tuple(names[j] for j in chosen),
+        prismatic=np.concatenate([robot.prismatic, external.prismatic])[list(chosen)],
+        axes=axes,
+        lower=lower,
+        upper=upper,
+        q_hold=hold[:n],
+        obstacle_names=scenes[0][1].obstacles.names,
+        obstacle=obstacle,
+        self_collision=self_collision,
+        clearance=clearance,
+        colliding_obstacles=present,
+        colliding=colliding,
+        threshold_m=float(threshold_m),
+        external_hold=hold[n:],
     )

@@ -32,7 +32,7 @@ from posebridge.results.spaces import (
     joint_map_result,
     reach_section_result,
 )
-from posebridge.spaces.joint_map import joint_map
+from posebridge.spaces.joint_map import cell_joint_map
 from posebridge.spaces.planar_boundary import planar_section_mask
 from posebridge.spaces.workspace import (
     reach_map,
@@ -89,12 +89,21 @@ def start_joint_map(
     its result in this answer.
     """
     snapshot = cells.read()
-    robot = snapshot.scene.robot
-    if len(set(body.joints)) != len(body.joints) or max(body.joints) >= robot.dof:
+    scene = snapshot.scene
+    robot = scene.robot
+    names = [*robot.joint_names, *scene.external.names]
+    if len(set(body.joints)) != len(body.joints) or max(body.joints) >= len(names):
+        axes = f" ({', '.join(names)})" if scene.external.count else ""
         raise HTTPException(
             status_code=422,
-            detail=f"joints: expected distinct indices in 0..{robot.dof - 1} for robot "
-            f"{robot.name!r}, got {body.joints}",
+            detail=f"joints: expected distinct indices in 0..{len(names) - 1} for robot "
+            f"{robot.name!r}{axes}, got {body.joints}",
+        )
+    if sum(j >= robot.dof for j in body.joints) > 1:
+        raise HTTPException(
+            status_code=422,
+            detail=f"joints: at most one external axis per map, got "
+            f"{[names[j] for j in body.joints]}",
         )
     cells_count = body.resolution ** len(body.joints)
     largest = MAX_MAP_CELLS_2 if len(body.joints) == 2 else MAX_MAP_CELLS_3
@@ -105,9 +114,14 @@ def start_joint_map(
             f"axis has {cells_count} cells; this server computes at most {largest}",
         )
     charge_reviewer(request, "job_cells", cells_count)
-    q_hold = joints_si_from_request(robot, [body.hold_deg], field="hold_deg")[0]
+    if scene.external.count and len(body.hold_deg) == len(names):
+        q, external = scene.split_joints([body.hold_deg], where="hold_deg")
+        q_hold, external_hold = q[0], external[0]
+    else:
+        q_hold = joints_si_from_request(robot, [body.hold_deg], field="hold_deg")[0]
+        external_hold = scene.external.values.copy()
     asked = body.model_dump_json()
-    computed_map = job_work(request, _joint_map, body, q_hold)
+    computed_map = job_work(request, _joint_map, body, q_hold, external_hold)
 
     def work(progress: Callable[[int, int], None], cancel: threading.Event) -> BaseModel:
         result = computed_map(progress, cancel)
@@ -121,21 +135,24 @@ def _joint_map(
     context: ComputeContext,
     body: JointMapRequest,
     q_hold: FloatArray,
+    external_hold: FloatArray,
     *,
     progress: Callable[[int, int], None],
     cancel: threading.Event,
 ) -> JointMapResult:
     snapshot = context.cell()
-    computed = joint_map(
-        snapshot.clearance,
+    scene = snapshot.scene
+    computed = cell_joint_map(
+        scene,
         body.joints,
         q_hold,
+        external_hold,
         resolution=body.resolution,
         threshold_m=float(m_from_mm(body.threshold_mm)),
         progress=progress,
         cancel=cancel,
     )
-    return joint_map_result(computed, snapshot.scene.robot, snapshot.etag)
+    return joint_map_result(computed, scene.robot, snapshot.etag, scene.external)
 
 
 @router.post(

@@ -39,10 +39,16 @@ class JointMapRequest(BaseModel):
 
     joints: Annotated[
         list[Annotated[WholeNumber, Field(ge=0, lt=MAX_JOINTS)]], Field(min_length=2, max_length=3)
-    ] = Field(description="Chosen joint indices (0-based), distinct.")
+    ] = Field(
+        description="Chosen joint indices (0-based), distinct, into the cell's joint vector: "
+        "the robot's joints, then the cell's external axes (track, turntables); at most one "
+        "external axis."
+    )
     hold_deg: Annotated[list[Finite], Field(min_length=1, max_length=MAX_JOINTS)] = Field(
         description="The configuration the map is a slice through; the chosen joints are swept. "
         + _JOINTS
+        + " The cell's external axes may follow (track in mm, turntables in deg); without "
+        "them they are at the cell's values."
     )
     resolution: WholeNumber = Field(
         default=96,
