@@ -141,17 +141,37 @@ def target_poses_at(
     return T
 
 
+def _track_origin(scene: Scene, T_world_target: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """Targets in the base frame with the track at 0, shape (K, 4, 4), and the travel direction there, (3,).
+
+    The track only translates the base along its direction ``d``, so a target's base-frame
+    pose at ``s`` is its pose at 0 moved by ``-s R_world_base^T d``.
+    """
+    track = scene.external.track
+    assert track is not None
+    T_world_base = track.T_world_base([0.0])[0]
+    return invert_transform(T_world_base) @ T_world_target, T_world_base[:3, :3].T @ track.direction
+
+
+def _translated(T_base: FloatArray, along: FloatArray, values: FloatArray) -> FloatArray:
+    """``T_base`` (K, 4, 4) moved by ``-values * along`` (values (K, S)), shape (K, S, 4, 4)."""
+    out = np.broadcast_to(T_base[:, None], (*values.shape, 4, 4)).copy()
+    out[..., :3, 3] -= values[..., None] * along
+    return out
+
+
 def _base_poses(
     scene: Scene, T_world_target: FloatArray, axis: int, values: FloatArray
 ) -> FloatArray:
     """Target poses in the base frame with ``axis`` at ``values``, shape (K, S, 4, 4).
 
-    ``T_world_target`` (K, 4, 4) at the scene's values; ``values`` (K, S).
+    ``T_world_target`` (K, 4, 4) at the scene's values; ``values`` (K, S). The track
+    translates (:func:`_track_origin`), a table turns the target
+    (:func:`~posebridge.cell.external_axes.turntable_motion`).
     """
     external = scene.external
     if external.track is not None and axis == 0:
-        T_world_base = external.track.T_world_base(values.ravel()).reshape((*values.shape, 4, 4))
-        return invert_transform(T_world_base) @ T_world_target[:, None]
+        return _translated(*_track_origin(scene, T_world_target), values)
     table = external.turntables[axis - external.table_offset]
     D = table.motion((values - external.values[axis]).ravel()).reshape((*values.shape, 4, 4))
     return invert_transform(scene.T_world_base) @ (D @ T_world_target[:, None])
@@ -169,6 +189,14 @@ def _feasible(scene: Scene, T_base: FloatArray, triples: list[Triple]) -> BoolAr
                 match &= (labels == want) | (labels == 0)
         out[:, b] = np.any(match, axis=1)
     return out
+
+
+def _sorted_ends(
+    group: npt.NDArray[np.int64], value: FloatArray
+) -> tuple[npt.NDArray[np.int64], FloatArray]:
+    """Interval ends sorted by group (target * B + branch), then value."""
+    order = np.lexsort((value, group))
+    return group[order], value[order]
 
 
 @dataclass(frozen=True, eq=False)
@@ -244,8 +272,15 @@ def feasible_intervals(
     triples = branch_triples(scene)
     B = len(triples)
     values = np.broadcast_to(grid, (K, len(grid)))
+    track = _track_origin(scene, T_target) if external.track is not None and axis == 0 else None
     feasible = _feasible(
-        scene, _base_poses(scene, T_target, axis, values).reshape(-1, 4, 4), triples
+        scene,
+        (
+            _base_poses(scene, T_target, axis, values)
+            if track is None
+            else _translated(*track, values)
+        ).reshape(-1, 4, 4),
+        triples,
     )
     feasible = feasible.reshape(K, len(grid), B)
     ik_poses = K * len(grid)
@@ -264,32 +299,36 @@ def feasible_intervals(
             return_inverse=True,
         )
         ks = k_idx[first]
-        T_base = _base_poses(scene, T_target[ks], axis, mid[first][:, None])[:, 0]
+        at = mid[first][:, None]
+        T_base = (
+            _base_poses(scene, T_target[ks], axis, at)
+            if track is None
+            else _translated(track[0][ks], track[1], at)
+        )[:, 0]
         at_mid = _feasible(scene, T_base, triples)[inverse.ravel(), b_idx]
         ik_poses += len(keys)
         same = at_mid == low_feasible
         low = np.where(same, mid, low)
         high = np.where(same, high, mid)
     ends = np.where(low_feasible, low, high)  # the feasible side of each bracket
-    found: dict[tuple[int, int], tuple[list[float], list[float]]] = {}
-    for k, b, feasible_low, end in zip(
-        k_idx.tolist(), b_idx.tolist(), low_feasible.tolist(), ends.tolist(), strict=True
-    ):
-        starts, stops = found.setdefault((k, b), ([], []))
-        (stops if feasible_low else starts).append(end)
-    first_feasible = feasible[:, 0]
-    last_feasible = feasible[:, -1]
-    intervals: list[list[FloatArray]] = []
-    for k in range(K):
-        per_branch = []
-        for b in range(B):
-            starts, stops = found.get((k, b), ([], []))
-            if first_feasible[k, b]:
-                starts = [lower, *starts]
-            if last_feasible[k, b]:
-                stops = [*stops, upper]
-            per_branch.append(np.array([sorted(starts), sorted(stops)]).T.reshape(-1, 2))
-        intervals.append(per_branch)
+    # interval starts: a bracket feasible on its high side, or the range's start; stops alike
+    first_k, first_b = np.nonzero(feasible[:, 0])
+    last_k, last_b = np.nonzero(feasible[:, -1])
+    opening = ~low_feasible
+    starts = _sorted_ends(
+        np.concatenate([k_idx[opening], first_k]) * B + np.concatenate([b_idx[opening], first_b]),
+        np.concatenate([ends[opening], np.full(len(first_k), lower)]),
+    )
+    stops = _sorted_ends(
+        np.concatenate([k_idx[low_feasible], last_k]) * B
+        + np.concatenate([b_idx[low_feasible], last_b]),
+        np.concatenate([ends[low_feasible], np.full(len(last_k), upper)]),
+    )
+    pairs = np.stack([starts[1], stops[1]], axis=1)
+    bounds = np.searchsorted(starts[0], np.arange(K * B + 1))
+    intervals = [
+        [pairs[bounds[k * B + b] : bounds[k * B + b + 1]] for b in range(B)] for k in range(K)
+    ]
     return AxisIntervals(axis, triples, intervals, spacing, tol, ik_poses)
 
 
