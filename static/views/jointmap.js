@@ -20,6 +20,7 @@ import { branchHeading, branchPartsText, sameBranch } from "../branches.js";
 import { branchStyle, regionColour } from "../palette.js";
 import { clamp, formatJoint } from "../units.js";
 import { axesExist, mapAxes, mapValues, solutionValue } from "../mapaxes.js";
+import { shownTarget } from "../selection.js";
 
 const PICK_RADIUS_PX = 12;
 const CLEARANCE_SHADE_MM = 300;
@@ -34,6 +35,58 @@ function paddedRange(joint, values) {
   const upper = Math.max(joint.upper, ...values);
   const pad = 0.04 * (upper - lower);
   return [lower - pad, upper + pad];
+}
+
+const BRANCH_SIGNS = { front: 1, back: -1, up: 1, down: -1, positive: 1, negative: -1 };
+
+/** Branch signs of shoulder/elbow/wrist words ("front, up, positive"), for branchStyle. */
+function branchSigns(words) {
+  const signs = { shoulder: 0, elbow: 0, wrist: 0 };
+  for (const word of words.split(",").map((w) => w.trim())) {
+    const part = word === "front" || word === "back" ? "shoulder" : word === "up" || word === "down" ? "elbow" : "wrist";
+    signs[part] = BRANCH_SIGNS[word] || 0;
+  }
+  return signs;
+}
+
+/**
+ * The target check's feasible intervals of the selected cell target along a mapped external
+ * axis, one line per branch in the margin below (or left of) the limit box, its ends marked in
+ * the branch's colour. An empty trace when no mapped axis is external.
+ */
+export function intervalTrace(state, axes, [a, b], palette) {
+  const slot = axes[a].external ? 0 : axes[b].external ? 1 : -1;
+  const target = slot >= 0 && state.cell ? shownTarget(state) : null;
+  const report = state.targetCheck && state.cell && state.targetCheck.etag === state.cell.etag ? state.targetCheck.report : null;
+  const check = target && report ? report.targets.find((t) => t.name === target.name) : null;
+  const along = [];
+  const across = [];
+  const colours = [];
+  if (check) {
+    const axis = axes[slot === 0 ? a : b];
+    const other = axes[slot === 0 ? b : a];
+    const found = (check.external_intervals || []).filter((f) => f.axis === axis.name);
+    found.forEach((f, k) => {
+      const level = other.lower - (0.004 + 0.0045 * k) * (other.upper - other.lower);
+      const colour = branchStyle(palette, branchSigns(f.branch)).color;
+      for (const [start, end] of f.intervals) {
+        along.push(start, end, null);
+        across.push(level, level, null);
+        colours.push(colour, colour, colour);
+      }
+    });
+  }
+  return {
+    type: "scatter",
+    mode: "lines+markers",
+    name: "reach intervals",
+    x: slot === 1 ? across : along,
+    y: slot === 1 ? along : across,
+    line: { color: palette["ink-muted"], width: 2 },
+    marker: { size: 7, symbol: "line-ns-open", color: colours },
+    hoverinfo: "skip",
+    meta: { role: "ik-intervals", target: check ? check.name : null },
+  };
 }
 
 function within(range, values) {
@@ -238,6 +291,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
         },
         meta: { role: "current", level },
       },
+      intervalTrace(state, axes, mapJoints, palette),
     ];
   }
 
@@ -295,7 +349,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
       actions.setMapJoints(robot.dof >= 3 ? [1, 2] : [0, Math.min(1, robot.dof - 1)]);
       return;
     }
-    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk, state.sequence, state.cell, state.carriage];
+    const inputs = [state.robot, joints, ik, mapJoints, state.selectedBranch, state.jointMap, state.cellActive, state.armState, state.fk, state.sequence, state.cell, state.carriage, state.targetCheck, state.selection];
     if (drawnInputs && inputs.every((value, k) => value === drawnInputs[k])) {
       return; // already drawn (an answer drawn at once, then its frame request)
     }
@@ -313,7 +367,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
         x: dynamic.map((trace) => trace.x),
         y: dynamic.map((trace) => trace.y),
         customdata: dynamic.map((trace) => trace.customdata),
-        "marker.color": dynamic.map((trace, k) => (k === 0 || k === 3 ? trace.marker.color : undefined)),
+        "marker.color": dynamic.map((trace, k) => (k === 0 || k === 3 || k === 4 ? trace.marker.color : undefined)),
         "marker.size": dynamic.map((trace, k) => (k === 3 ? trace.marker.size : undefined)),
         "marker.line.width": dynamic.map((trace, k) => (k === 3 ? trace.marker.line.width : undefined)),
         meta: dynamic.map((trace) => trace.meta),
@@ -402,7 +456,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
       .map(({ joint, index }) => `${joint.name} ${formatJoint(joints[index], joint.unit)}`);
     const held = others.length ? ` with ${others.join(", ")} held` : "";
     const external = mapJoints.some((index) => axes[index].external)
-      ? " Along an external axis the scene is posed at every value; solution markers sit at the axis' current value, and clicks set the robot joint (drag the carriage to move the track)."
+      ? " Along an external axis the scene is posed at every value; solution markers sit at the axis' current value, the lines beside the limit box are the selected target's reach intervals per branch (from the target check), and clicks set the robot joint (drag the carriage to move the track)."
       : "";
     const regions = !cellActive
       ? " Obstacle regions are shown for the cell's robot."
@@ -435,7 +489,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
 
   const requestRender = frameScheduler({ render });
   store.subscribe(requestRender, {
-    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk", "sequence", "cell", "carriage"],
+    keys: ["robot", "joints", "ik", "mapJoints", "selectedBranch", "jointMap", "cellActive", "armState", "fk", "sequence", "cell", "carriage", "targetCheck", "selection"],
   });
   // a new inverse kinematics answer is drawn at once, not on the next frame: it is
   // what a drag waits for (the update is a small restyle of the top figure)

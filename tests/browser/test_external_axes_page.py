@@ -184,4 +184,23 @@ def test_joint_map_over_the_track(open_page: Any) -> None:
         "(t) => t.meta && t.meta.role === 'current' && t.x[0] === 0)",
         timeout=180_000,
     )
+    # the opening target's reach intervals along the track, as the target check reports them
+    page.wait_for_function(
+        "() => (document.getElementById('joint-map').data || []).some("
+        "(t) => t.meta && t.meta.role === 'ik-intervals' && t.x.length > 0)",
+        timeout=180_000,
+    )
+    drawn, reported = page.evaluate(
+        """() => {
+          const s = window.posebridge.getState();
+          const trace = document.getElementById('joint-map').data.find(
+            (t) => t.meta && t.meta.role === 'ik-intervals');
+          const check = s.targetCheck.report.targets.find((t) => t.name === trace.meta.target);
+          const ends = check.external_intervals.filter((f) => f.axis === 'track')
+            .flatMap((f) => f.intervals.flat());
+          return [trace.x.filter((x) => x !== null), ends];
+        }"""
+    )
+    assert drawn == reported
+    assert len(drawn) > 0
     assert not open_page.problems.page_errors
