@@ -22,7 +22,7 @@
  *                   (joint map), or null
  *   carriage        {value_mm}: the track's carriage as dragged on the page (the arm rides on it; saved
  *                   as the track's home_mm when the drag ends), or null: the cell's value
- *   mapJoints       [i, j]: joint indices on the joint map's horizontal and vertical axes
+ *   mapJoints       [i, j]: indices into the cell's joint vector (robot joints, then external axes, mapaxes.js) on the joint map's horizontal and vertical axes
  *   stepMm          nudge step and snapping grid for positions, mm
  *   stepDeg         nudge step for angles, deg
  *   snap            snap dragged positions to the step grid
@@ -47,7 +47,7 @@
  *   jointMap        finished two-joint map (JointMapResult) or null
  *   jointMapJob     {state, done, total, detail} of the two-joint map being computed (state
  *                   "waiting" while its start waits for the server), or null
- *   map3Joints      [i, j, k]: joints of the 3D joint-space view
+ *   map3Joints      [i, j, k]: joints of the 3D joint-space view (same indices as mapJoints)
  *   jointMap3       finished three-joint map or null
  *   jointMap3Job    like jointMapJob, for the three-joint map
  *   pathCurve       {path, points: [joints...], branch} joint values along the selected path, or null
