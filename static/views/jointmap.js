@@ -89,6 +89,42 @@ export function intervalTrace(state, axes, [a, b], palette) {
   };
 }
 
+/**
+ * The shown cell target's solutions along a mapped external axis (the map's ik_along_axis),
+ * small markers in the branch colours: the IK markers of an external axis. Empty without one.
+ */
+export function alongAxisTrace(state, map, axes, [a, b], palette) {
+  const slot = map && axes[a].external ? 0 : map && axes[b].external ? 1 : -1;
+  const target = slot >= 0 && state.cell ? shownTarget(state) : null;
+  const curve = target && map.ik_along_axis ? map.ik_along_axis.find((c) => c.target === target.name) : null;
+  const along = [];
+  const across = [];
+  const colours = [];
+  if (curve) {
+    const values = map.axes_deg[slot];
+    curve.branches.forEach((words, k) => {
+      const colour = branchStyle(palette, branchSigns(words)).color;
+      curve.joints_deg[k].forEach((joints, r) => {
+        if (joints) {
+          along.push(values[r]);
+          across.push(joints[0]);
+          colours.push(colour);
+        }
+      });
+    });
+  }
+  return {
+    type: "scatter",
+    mode: "markers",
+    name: "solutions along the axis",
+    x: slot === 1 ? across : along,
+    y: slot === 1 ? along : across,
+    marker: { size: 5, symbol: "circle", color: colours },
+    hoverinfo: "skip",
+    meta: { role: "ik-along-axis", target: curve ? curve.target : null },
+  };
+}
+
 function within(range, values) {
   return values.every((value) => value >= range[0] && value <= range[1]);
 }
@@ -292,6 +328,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
         meta: { role: "current", level },
       },
       intervalTrace(state, axes, mapJoints, palette),
+      alongAxisTrace(state, currentMap(state), axes, mapJoints, palette),
     ];
   }
 
@@ -367,7 +404,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
         x: dynamic.map((trace) => trace.x),
         y: dynamic.map((trace) => trace.y),
         customdata: dynamic.map((trace) => trace.customdata),
-        "marker.color": dynamic.map((trace, k) => (k === 0 || k === 3 || k === 4 ? trace.marker.color : undefined)),
+        "marker.color": dynamic.map((trace, k) => (k === 0 || k >= 3 ? trace.marker.color : undefined)),
         "marker.size": dynamic.map((trace, k) => (k === 3 ? trace.marker.size : undefined)),
         "marker.line.width": dynamic.map((trace, k) => (k === 3 ? trace.marker.line.width : undefined)),
         meta: dynamic.map((trace) => trace.meta),
@@ -456,7 +493,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
       .map(({ joint, index }) => `${joint.name} ${formatJoint(joints[index], joint.unit)}`);
     const held = others.length ? ` with ${others.join(", ")} held` : "";
     const external = mapJoints.some((index) => axes[index].external)
-      ? " Along an external axis the scene is posed at every value; solution markers sit at the axis' current value, the lines beside the limit box are the selected target's reach intervals per branch (from the target check), and clicks set the robot joint (drag the carriage to move the track)."
+      ? " Along an external axis the scene is posed at every value; solution markers sit at the axis' current value, small markers trace the selected target's solutions along the axis, the lines beside the limit box are the selected target's reach intervals per branch (from the target check), and clicks set the robot joint (drag the carriage to move the track)."
       : "";
     const regions = !cellActive
       ? " Obstacle regions are shown for the cell's robot."

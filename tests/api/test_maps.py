@@ -214,6 +214,17 @@ async def test_joint_map_over_the_track(make_app: Callable[..., Any], tmp_path: 
         q = joints_si_from_user(np.array(HOLD), scene.robot.prismatic)
         expected = cell_joint_map(scene, [6, 0], q, [1.0, np.pi / 2], resolution=12)
         assert result["obstacle"] == expected.obstacle.ravel().tolist()
+        # the IK markers along the track: every target, 8 branches x 12 track values, j1 in deg
+        curves = result["ik_along_axis"]
+        assert [c["target"] for c in curves] == list(scene.targets.names)
+        assert expected.along is not None
+        for k, curve in enumerate(curves):
+            assert curve["branches"][0] == "front, up, positive"
+            for b, per_value in enumerate(curve["joints_deg"]):
+                assert len(per_value) == 12
+                j1 = np.degrees(expected.along.q[k, :, b, 0])  # rad -> deg
+                drawn = [np.nan if v is None else v[0] for v in per_value]
+                np.testing.assert_allclose(drawn, j1, atol=1e-6)
         two_axes = {"joints": [6, 7], "hold_deg": HOLD}
         refused = await session.post("/api/maps/joint", json=two_axes)
         assert refused.status_code == 422

@@ -203,4 +203,22 @@ def test_joint_map_over_the_track(open_page: Any) -> None:
     )
     assert drawn == reported
     assert len(drawn) > 0
+    # the IK markers along the track: the map's solutions of the opening target, j1 per track value
+    page.wait_for_function(
+        "() => (document.getElementById('joint-map').data || []).some("
+        "(t) => t.meta && t.meta.role === 'ik-along-axis' && t.x.length > 0)",
+        timeout=180_000,
+    )
+    markers, solutions = page.evaluate(
+        """() => {
+          const s = window.posebridge.getState();
+          const trace = document.getElementById('joint-map').data.find(
+            (t) => t.meta && t.meta.role === 'ik-along-axis');
+          const curve = s.jointMap.ik_along_axis.find((c) => c.target === trace.meta.target);
+          const points = curve.joints_deg.flatMap((values) => values.flatMap(
+            (joints, r) => (joints ? [[s.jointMap.axes_deg[0][r], joints[0]]] : [])));
+          return [trace.x.map((x, k) => [x, trace.y[k]]), points];
+        }"""
+    )
+    assert markers == solutions
     assert not open_page.problems.page_errors

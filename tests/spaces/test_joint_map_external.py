@@ -14,6 +14,7 @@ import numpy as np
 import pytest
 
 from posebridge.cell.clearance import cell_arm, clearance_to_cell
+from posebridge.cell.external_kinematics import fk_cell_tool
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import Scene, posed_scene, resolve_scene
 from posebridge.compute import SerialExecutor
@@ -143,3 +144,37 @@ def test_result_carries_the_axis_units_and_held_values(demo) -> None:
 def test_bad_external_requests_are_refused(demo, joints, message) -> None:
     with pytest.raises(SpacesInputError, match=message):
         cell_joint_map(demo, joints, HOLD, resolution=4)
+
+
+def test_solutions_along_the_track_reach_their_targets(demo) -> None:
+    n = demo.robot.dof
+    result = cell_joint_map(demo, (n, 0), HOLD, resolution=(16, 4))
+    along = result.along
+    assert along is not None
+    assert along.targets == demo.targets.names
+    K, R, B = along.q.shape[:3]
+    assert (R, B) == (16, 8)
+    reached = 0
+    for k in range(K):
+        for b in range(B):
+            rows = np.flatnonzero(~np.isnan(along.q[k, :, b, 0]))
+            reached += len(rows)
+            if len(rows) == 0:
+                continue
+            external = np.zeros((len(rows), demo.external.count))
+            external[:, 0] = result.axes[0][rows]
+            q = along.q[k, rows, b]
+            # every solution reaches its target: forward kinematics of the cell's joint vector
+            # (robot on the track, tested against pinocchio in tests/cell/test_external_axes.py)
+            T = fk_cell_tool(demo, q, external)
+            np.testing.assert_allclose(
+                T, np.broadcast_to(demo.targets.T_world_target[k], T.shape), atol=1e-9
+            )
+            assert np.all(q >= demo.robot.lower - 1e-9)
+            assert np.all(q <= demo.robot.upper + 1e-9)
+    assert reached > 0
+
+
+def test_no_solutions_along_a_robot_joint_map(demo) -> None:
+    result = cell_joint_map(demo, (0, 1), HOLD, resolution=4)
+    assert result.along is None

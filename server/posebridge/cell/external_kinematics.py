@@ -51,7 +51,7 @@ from posebridge.cell.scene import Scene, posed_scene
 from posebridge.cell.thresholds import QualityThresholds
 from posebridge.kinematics.branches import branch_geometry
 from posebridge.kinematics.fk import fk_tool
-from posebridge.kinematics.ik import solve_ik_all
+from posebridge.kinematics.ik import IkSolutions, solve_ik_all
 from posebridge.transforms import invert_transform
 from posebridge.units import BoolArray, FloatArray, m_from_mm, rad_from_deg
 
@@ -65,6 +65,7 @@ __all__ = [
     "feasible_intervals",
     "fk_cell_tool",
     "moving_axes",
+    "solutions_along_axis",
     "target_poses_at",
 ]
 
@@ -177,18 +178,74 @@ def _base_poses(
     return invert_transform(scene.T_world_base) @ (D @ T_world_target[:, None])
 
 
-def _feasible(scene: Scene, T_base: FloatArray, triples: list[Triple]) -> BoolArray:
-    """Whether each branch reaches each pose within limits, shape (N, B) for (N, 4, 4)."""
-    solutions = solve_ik_all(scene.robot, T_base, T_flange_tool=scene.T_flange_tool)
+def _branch_matches(solutions: IkSolutions, triples: list[Triple]) -> list[BoolArray]:
+    """Per branch, the slots that are on it and within limits, shapes (N, M)."""
     ok = solutions.valid & solutions.within_limits
-    out = np.empty((len(T_base), len(triples)), dtype=bool)
-    for b, (s, e, w) in enumerate(triples):
+    matches = []
+    for s, e, w in triples:
         match = ok.copy()
         for labels, want in ((solutions.shoulder, s), (solutions.elbow, e), (solutions.wrist, w)):
             if want != 0:
                 match &= (labels == want) | (labels == 0)
+        matches.append(match)
+    return matches
+
+
+def _feasible(scene: Scene, T_base: FloatArray, triples: list[Triple]) -> BoolArray:
+    """Whether each branch reaches each pose within limits, shape (N, B) for (N, 4, 4)."""
+    solutions = solve_ik_all(scene.robot, T_base, T_flange_tool=scene.T_flange_tool)
+    out = np.empty((len(T_base), len(triples)), dtype=bool)
+    for b, match in enumerate(_branch_matches(solutions, triples)):
         out[:, b] = np.any(match, axis=1)
     return out
+
+
+def solutions_along_axis(
+    scene: Scene, axis: int, values: npt.ArrayLike
+) -> tuple[list[Triple], FloatArray]:
+    """Per cell target and branch, the robot joints reaching it with one external axis at ``values``.
+
+    The other axes stay at the scene's values. The track moves the base under every target,
+    a turntable turns the targets it carries (the others keep their pose). One analytic IK
+    batch of ``K * R`` poses; the first solution of each branch within the limits is taken.
+
+    Parameters
+    ----------
+    scene : Scene
+    axis : int
+        External axis index.
+    values : array-like, shape (R,)
+        Axis values, m or rad.
+
+    Returns
+    -------
+    branches : list of (int, int, int), length B
+        :func:`branch_triples`.
+    q : array, shape (K, R, B, n)
+        Robot joints, rad or m; NaN where the branch does not reach the target within limits.
+    """
+    grid = np.asarray(values, dtype=np.float64).reshape(-1)
+    T_world_target = scene.targets.T_world_target
+    K, R = len(T_world_target), len(grid)
+    external = scene.external
+    along = np.broadcast_to(grid, (K, R))
+    if external.track is not None and axis == 0:
+        T_base = _translated(*_track_origin(scene, T_world_target), along)
+    else:
+        fixed = invert_transform(scene.T_world_base) @ T_world_target
+        T_base = np.broadcast_to(fixed[:, None], (K, R, 4, 4)).copy()
+        carried = [k for k in range(K) if carrier_axis(scene, k) == axis]
+        if carried:
+            T_base[carried] = _base_poses(scene, T_world_target[carried], axis, along[carried])
+    solutions = solve_ik_all(
+        scene.robot, T_base.reshape(-1, 4, 4), T_flange_tool=scene.T_flange_tool
+    )
+    triples = branch_triples(scene)
+    q = np.full((K * R, len(triples), scene.robot.dof), np.nan)
+    for b, match in enumerate(_branch_matches(solutions, triples)):
+        rows = np.flatnonzero(np.any(match, axis=1))
+        q[rows, b] = solutions.q[rows, np.argmax(match[rows], axis=1)]
+    return triples, q.reshape(K, R, len(triples), scene.robot.dof)
 
 
 def _sorted_ends(

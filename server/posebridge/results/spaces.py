@@ -12,12 +12,14 @@ import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.cell.external_axes import NO_EXTERNAL_AXES, ExternalAxes
+from posebridge.kinematics.branches import branch_geometry, branch_words
 from posebridge.robot.model import Robot
 from posebridge.spaces.joint_map import JointMap
 from posebridge.spaces.workspace import ReachSection
 from posebridge.units import FloatArray, joint_unit_labels, joints_user_from_si, mm_from_m
 
 __all__ = [
+    "AxisSolutionCurve",
     "JointMapResult",
     "ReachSectionResult",
     "joint_map_axes_user",
@@ -27,6 +29,20 @@ __all__ = [
 ]
 
 _JOINTS = "Revolute joints in degrees, prismatic joints in millimetres, in the robot's joint order."
+
+
+class AxisSolutionCurve(BaseModel):
+    """One cell target's inverse kinematics solutions along the external axis of a joint map."""
+
+    model_config = ConfigDict(extra="forbid")
+
+    target: str
+    branches: list[str] = Field(description="Shoulder/elbow/wrist words of each branch.")
+    joints_deg: list[list[list[float] | None]] = Field(
+        description="Per branch, per cell-centre value of the external map axis (its axes_deg), "
+        "the branch's values of the map's robot joints in map order; null where the branch does "
+        "not reach the target within the joint limits there. " + _JOINTS
+    )
 
 
 class JointMapResult(BaseModel):
@@ -76,6 +92,36 @@ class JointMapResult(BaseModel):
         description="Set (a warning text) when the robot has no collision geometry: every "
         "clearance in this result is then meaningless.",
     )
+    ik_along_axis: list[AxisSolutionCurve] = Field(
+        default_factory=list,
+        description="With an external axis on the map: every cell target's solutions along it "
+        "(the map's IK markers), the other external axes at external_hold_deg; empty otherwise.",
+    )
+
+
+def _solution_curves(joint_map: JointMap, robot: Robot) -> list[AxisSolutionCurve]:
+    """Return the map's IK markers along its external axis in boundary units (none without one)."""
+    along = joint_map.along
+    if along is None:
+        return []
+    scheme = branch_geometry(robot).scheme
+    columns = [j for j in joint_map.joints if j < robot.dof]
+    q = joints_user_from_si(along.q[..., columns], robot.prismatic[columns])  # (K, R, B, c)
+    reached = ~np.any(np.isnan(q), axis=-1)
+    return [
+        AxisSolutionCurve(
+            target=name,
+            branches=[branch_words(scheme, *triple) for triple in along.branches],
+            joints_deg=[
+                [
+                    np.round(q[k, r, b], 6).tolist() if reached[k, r, b] else None
+                    for r in range(q.shape[1])
+                ]
+                for b in range(q.shape[2])
+            ],
+        )
+        for k, name in enumerate(along.targets)
+    ]
 
 
 def joint_map_axes_user(joint_map: JointMap) -> tuple[FloatArray, ...]:
@@ -130,6 +176,7 @@ def joint_map_result(
         clearance_mm=clearance,
         colliding_obstacles=[joint_map.obstacle_names[k] for k in joint_map.colliding_obstacles],
         robot_geometry_missing=robot.geometry_missing,
+        ik_along_axis=_solution_curves(joint_map, robot),
     )
 
 

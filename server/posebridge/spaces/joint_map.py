@@ -39,7 +39,8 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.cell.clearance import posed_clearance_scene
-from posebridge.cell.scene import Scene
+from posebridge.cell.external_kinematics import solutions_along_axis
+from posebridge.cell.scene import Scene, posed_scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks, split_range
 from posebridge.geometry.clearance import ClearanceScene, clearance_per_obstacle_batch
 from posebridge.spaces.errors import SpacesInputError
@@ -49,6 +50,7 @@ __all__ = [
     "CHUNK_CONFIGURATIONS",
     "MAX_RESOLUTION_2",
     "MAX_RESOLUTION_3",
+    "AxisSolutions",
     "JointMap",
     "cell_joint_map",
     "grid_axis",
@@ -64,6 +66,26 @@ CHUNK_CONFIGURATIONS = 32_768
 
 Int16Array = npt.NDArray[np.int16]
 Int64Array = npt.NDArray[np.int64]
+
+
+@dataclass(frozen=True, eq=False)
+class AxisSolutions:
+    """IK solutions of the cell's targets along the external axis of a map (its IK markers).
+
+    Attributes
+    ----------
+    targets : tuple of str, length K
+    branches : list of (int, int, int), length B
+        Shoulder, elbow, wrist labels.
+    q : array, shape (K, R, B, n)
+        Robot joints of each target at each cell-centre value of the external map axis, per
+        branch (rad or m); NaN where the branch does not reach the target within limits
+        (:func:`posebridge.cell.external_kinematics.solutions_along_axis`).
+    """
+
+    targets: tuple[str, ...]
+    branches: list[tuple[int, int, int]]
+    q: FloatArray
 
 
 @dataclass(frozen=True, eq=False)
@@ -105,6 +127,8 @@ class JointMap:
     external_hold : array, shape (m,)
         Values of the cell's external axes, m or rad (a chosen one is swept);
         empty for a map of the robot alone.
+    along : AxisSolutions or None
+        With an external map axis: the targets' IK solutions at its values.
     """
 
     joints: tuple[int, ...]
@@ -122,6 +146,7 @@ class JointMap:
     colliding: BoolArray
     threshold_m: float
     external_hold: FloatArray = field(default_factory=lambda: np.zeros(0))
+    along: AxisSolutions | None = None
 
     @property
     def shape(self) -> tuple[int, ...]:
@@ -456,6 +481,11 @@ def cell_joint_map(
     obstacle, self_collision, clearance, present, colliding = _run_map(
         scenes, swept, hold, chosen, axes, float(threshold_m), executor, progress, cancel
     )
+    along = None
+    if swept >= 0:  # the IK markers: every target's solutions along the axis
+        held = posed_scene(scene, hold[n:])
+        branches, q = solutions_along_axis(held, chosen[swept] - n, axes[swept])
+        along = AxisSolutions(held.targets.names, branches, q)
     return JointMap(
         joints=chosen,
         joint_names=tuple(names[j] for j in chosen),
@@ -472,4 +502,5 @@ def cell_joint_map(
         colliding=colliding,
         threshold_m=float(threshold_m),
         external_hold=hold[n:],
+        along=along,
     )
