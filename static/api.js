@@ -48,8 +48,18 @@ const sleep = (ms) => new Promise((resolve) => setTimeout(resolve, ms));
  * Client of the posebridge HTTP API.
  * @param {{baseUrl?: string}} options
  */
+/** A blob as a data: URL (read once; the picture then needs no request of its own when drawn again). */
+function dataUrl(blob) {
+  return new Promise((resolve, reject) => {
+    const reader = new FileReader();
+    reader.addEventListener("load", () => resolve(reader.result));
+    reader.addEventListener("error", () => reject(reader.error));
+    reader.readAsDataURL(blob);
+  });
+}
+
 export function createApiClient({ baseUrl = "" } = {}) {
-  async function request(path, { method = "GET", body = undefined, signal = undefined, ifMatch = undefined } = {}) {
+  async function request(path, { method = "GET", body = undefined, signal = undefined, ifMatch = undefined, picture = false } = {}) {
     const headers = {};
     if (body !== undefined) {
       headers["content-type"] = "application/json";
@@ -65,6 +75,9 @@ export function createApiClient({ baseUrl = "" } = {}) {
         throw error;
       }
       throw new ApiError({ status: 0, detail: `server not reachable (${error.message})`, path });
+    }
+    if (picture && response.ok) {
+      return dataUrl(await response.blob());
     }
     let payload = null;
     try {
@@ -118,6 +131,11 @@ export function createApiClient({ baseUrl = "" } = {}) {
     startPlacement: (body) => request("/api/placement", { method: "POST", body }),
     readJob: (id, { signal } = {}) => request(`/api/jobs/${encodeURIComponent(id)}`, { signal }),
     cancelJob: (id) => request(`/api/jobs/${encodeURIComponent(id)}/cancel`, { method: "POST" }),
+    // the PNG of a finished grid result as a data: URL (a plotly layout image's source)
+    jobPicture: (id, query = {}) => {
+      const search = new URLSearchParams(Object.entries(query).map(([key, value]) => [key, String(value)])).toString();
+      return request(`/api/jobs/${encodeURIComponent(id)}/image${search ? `?${search}` : ""}`, { picture: true });
+    },
     reviewAccess: () => request("/api/reviews/access"),
     leaveReview: () => request("/api/reviews/session", { method: "DELETE" }),
     listComments: () => request("/api/reviews/comments"),

@@ -39,8 +39,8 @@ export function mapIsCurrent(map, { cell, joints }, chosen) {
  */
 export function createMaps({ store, api, actions, pacer }) {
   const slots = {
-    "2d": { name: "Joint map", mapKey: "jointMap", jobKey: "jointMapJob", chosen: (s) => s.mapJoints, resolution: RESOLUTION_2, timer: null, running: null, retryAt: 0 },
-    "3d": { name: "3D joint map", mapKey: "jointMap3", jobKey: "jointMap3Job", chosen: (s) => s.map3Joints, resolution: RESOLUTION_3, timer: null, running: null, retryAt: 0 },
+    "2d": { name: "Joint map", mapKey: "jointMap", jobKey: "jointMapJob", chosen: (s) => s.mapJoints, resolution: RESOLUTION_2, picture: true, timer: null, running: null, runningKey: null, retryAt: 0 },
+    "3d": { name: "3D joint map", mapKey: "jointMap3", jobKey: "jointMap3Job", chosen: (s) => s.map3Joints, resolution: RESOLUTION_3, picture: false, timer: null, running: null, runningKey: null, retryAt: 0 },
   };
 
   function wanted(slot, state) {
@@ -73,6 +73,11 @@ export function createMaps({ store, api, actions, pacer }) {
       slot.timer = setTimeout(() => compute(slot), refusedForMs);
       return;
     }
+    const body = { joints: [...slot.chosen(state)], hold_deg: [...state.joints], resolution: slot.resolution };
+    const key = JSON.stringify(body);
+    if (slot.running && slot.runningKey === key) {
+      return; // this very map is on its way (its job, or its picture after the job)
+    }
     if (state.readOnly) {
       const delay = pacer.delayMs();
       if (delay > 0) {
@@ -85,7 +90,6 @@ export function createMaps({ store, api, actions, pacer }) {
     if (slot.running) {
       slot.running.cancel();
     }
-    const body = { joints: [...slot.chosen(state)], hold_deg: [...state.joints], resolution: slot.resolution };
     const handle = runJob({
       api,
       start: () => api.startJointMap(body),
@@ -103,14 +107,17 @@ export function createMaps({ store, api, actions, pacer }) {
       },
     });
     slot.running = handle;
+    slot.runningKey = key;
     try {
       const job = await handle.done;
+      // a two-joint map is drawn from the server's picture of it (views/jointmap.js)
+      const picture = job.state === "done" && slot.picture ? await api.jobPicture(job.id) : null;
       if (slot.running !== handle) {
         return;
       }
       slot.running = null;
       if (job.state === "done") {
-        store.update({ [slot.mapKey]: job.result, [slot.jobKey]: null });
+        store.update({ [slot.mapKey]: picture ? { ...job.result, picture } : job.result, [slot.jobKey]: null });
       } else if (job.state === "failed") {
         store.update({ [slot.jobKey]: { state: "failed", done: 0, total: 0, detail: job.detail } });
         actions.setStatus("error", `${slot.name}: ${job.detail}`);

@@ -60,8 +60,10 @@ export function createReachSections({ store, api, actions, pacer }) {
   async function finish(slot, handle, value) {
     try {
       const job = await handle.done;
+      // drawn from the server's picture of the section (views/projection.js)
+      const picture = slot.running === handle && job.state === "done" ? await api.jobPicture(job.id) : null;
       if (slot.running === handle && job.state === "done") {
-        store.update({ [slot.key]: { ...job.result, requested_mm: value } });
+        store.update({ [slot.key]: { ...job.result, requested_mm: value, picture } });
       } else if (job.state === "failed") {
         actions.setStatus("warn", `Reach section: ${job.detail}`);
       }

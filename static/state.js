@@ -44,7 +44,7 @@
  *                   moved on the page (saved into the cell after a drag or typed change), or null
  *   cellSave        {state: "saved" | "unsaved" | "saving" | "conflict" | "error" | "review", message,
  *                   retry?: true after a failed save whose move is kept to send again}
- *   jointMap        finished two-joint map (JointMapResult) or null
+ *   jointMap        finished two-joint map (JointMapResult + picture, its PNG data: URL) or null
  *   jointMapJob     {state, done, total, detail} of the two-joint map being computed (state
  *                   "waiting" while its start waits for the server), or null
  *   map3Joints      [i, j, k]: joints of the 3D joint-space view (same indices as mapJoints)
@@ -60,7 +60,7 @@
  *   showReach       draw reach sections under the plan and the elevation
  *   robotMeshes     the robot's link meshes for drawing (RobotMeshesResult.meshes), [] if none
  *   showCapsules    draw the robot's fitted collision capsules instead of its meshes
- *   reachPlan       horizontal reach section at the target (ReachSectionResult + requested_mm) or null
+ *   reachPlan       horizontal reach section at the target (ReachSectionResult + requested_mm + picture) or null
  *   reachElevation  vertical reach section at the target, or null
  *   kernels         {ready, done, total, current} of the server's kernel loading (GET /api/health,
  *                   kernels.js), or null before its first answer

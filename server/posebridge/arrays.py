@@ -20,6 +20,7 @@ __all__ = [
     "Int8Array",
     "Int16Array",
     "IntArray",
+    "UInt8Array",
     "freeze_array_fields",
     "read_only",
     "writable_float_array",
@@ -36,6 +37,8 @@ Int8Array = npt.NDArray[np.int8]
 """Branch labels (+1, -1, 0) and kernel reason codes."""
 Int16Array = npt.NDArray[np.int16]
 """Whole extra revolutions per joint."""
+UInt8Array = npt.NDArray[np.uint8]
+"""8-bit pixels (PNG pictures of grid results)."""
 
 
 def read_only(array: _Array) -> _Array:

@@ -1,6 +1,7 @@
 // Placement panel: search base poses around the current one (a server job with
 // progress and cancel), show the score over the x–y grid for a chosen yaw and
-// pedestal height (or the best over all yaws), and the ranked candidates. The
+// pedestal height (or the best over all yaws; a picture the server draws, under
+// the candidates and the current base), and the ranked candidates. The
 // score is explained in words, candidates within the score's noise are shown
 // as ties, and a best candidate slower than the current base is said so.
 // Clicking a candidate or a grid cell moves the robot's base there: the cell
@@ -12,7 +13,7 @@
 
 import { runJob } from "../api.js";
 import { element, numberField } from "./fields.js";
-import { PLOT_CONFIG } from "../views/plotting.js";
+import { PLOT_CONFIG, attachDrag, dataFromPointer, gridImage } from "../views/plotting.js";
 import { formatNumber } from "../units.js";
 
 /** The score over x–y (rows y, columns x) for one yaw index, or the best over all yaws (-1). */
@@ -61,8 +62,9 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
   );
   heatmap.hidden = true;
   let job = null;
-  let clickBound = false;
   let scoredEtag = null;
+  let scoredJob = null; // the finished search's job id: its score pictures come from there
+  const pictures = new Map(); // "job|yaw|height" -> data: URL
 
   run.addEventListener("click", async () => {
     if (job) {
@@ -87,6 +89,8 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
       const finished = await job.done;
       if (finished.state === "done") {
         scoredEtag = store.get().cell ? store.get().cell.etag : null;
+        scoredJob = finished.id;
+        pictures.clear();
         store.update({ placement: finished.result });
       } else {
         summary.textContent = finished.state === "cancelled" ? "Search cancelled." : `Search failed: ${finished.detail}`;
@@ -141,22 +145,53 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     speed.hidden = !placement.speed_note;
     heatmap.hidden = false;
     const best = placement.best[0];
+    const plane = scorePlane(grid, yawIndex, heightIndex);
+    const finite = plane.flat().filter(Number.isFinite);
+    const [low, high] = finite.length ? [Math.min(...finite), Math.max(...finite)] : [0, 1];
+    const pictureKey = `${scoredJob}|${yawIndex}|${heightIndex}`;
+    const picture = pictures.get(pictureKey);
+    if (picture === undefined && scoredJob !== null) {
+      pictures.set(pictureKey, null);
+      api
+        .jobPicture(scoredJob, { yaw_index: yawIndex, height_index: heightIndex })
+        .then((url) => {
+          pictures.set(pictureKey, url);
+          render();
+        })
+        .catch((error) => {
+          pictures.delete(pictureKey);
+          summary.textContent = `The score picture could not be read (${error.message}); run the search again.`;
+        });
+    }
+    heatmap.dataset.picture = picture ? pictureKey : "";
+    // the axes span the grid's cells (a layout image does not widen the axes by itself)
+    const extent = gridImage("", grid.x_mm, grid.y_mm);
     Plotly.react(
       heatmap,
       [
         {
-          type: "heatmap",
-          x: grid.x_mm,
-          y: grid.y_mm,
-          z: scorePlane(grid, yawIndex, heightIndex),
-          colorscale: "Viridis",
-          colorbar: { title: { text: stale ? "score (out of date)" : "score (1 = every target)" }, thickness: 10 },
-          opacity: stale ? 0.45 : 1,
-          hovertemplate: "x %{x:.0f} mm<br>y %{y:.0f} mm<br>score %{z:.3f}<extra></extra>",
+          // the colour bar of the score picture (plotly's Viridis, as results/map_images.py draws it)
+          type: "scatter",
+          mode: "markers",
+          x: [grid.x_mm[0], grid.x_mm[0]],
+          y: [grid.y_mm[0], grid.y_mm[0]],
+          marker: {
+            color: [low, high],
+            cmin: low,
+            cmax: high === low ? low + 1e-9 : high,
+            colorscale: "Viridis",
+            opacity: 0,
+            showscale: true,
+            colorbar: { title: { text: stale ? "score (out of date)" : "score (1 = every target)" }, thickness: 10 },
+          },
+          hoverinfo: "skip",
+          showlegend: false,
+          meta: { role: "score-scale" },
         },
         {
           type: "scatter",
           mode: "markers+text",
+          name: "ranked candidates",
           x: placement.best.map((c) => c.x_mm),
           y: placement.best.map((c) => c.y_mm),
           text: placement.best.map((c) => String(c.rank)),
@@ -179,34 +214,16 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
       ],
       {
         margin: { l: 56, r: 10, t: 8, b: 40 },
-        xaxis: { title: { text: "base x (mm)" } },
-        yaxis: { title: { text: "base y (mm)" }, scaleanchor: "x" },
+        xaxis: { title: { text: "base x (mm)" }, range: [extent.x, extent.x + extent.sizex], showgrid: false },
+        yaxis: { title: { text: "base y (mm)" }, range: [extent.y - extent.sizey, extent.y], scaleanchor: "x", showgrid: false },
         font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
         paper_bgcolor: "rgba(0,0,0,0)",
+        dragmode: false,
         annotations: best ? [] : [{ text: "no candidate reaches a target", showarrow: false }],
+        images: picture ? [gridImage(picture, grid.x_mm, grid.y_mm, { name: "score", opacity: stale ? 0.45 : 1 })] : [],
       },
       PLOT_CONFIG,
     );
-    if (!clickBound) {
-      clickBound = true;
-      heatmap.on("plotly_click", (event) => {
-        const point = event.points.find((p) => p.data.type === "heatmap");
-        if (!point) {
-          return;
-        }
-        const { placement: current } = store.get();
-        const g = current.grid;
-        const yi = g.y_mm.indexOf(point.y);
-        const xi = g.x_mm.indexOf(point.x);
-        const hi = Number(heightSelect.value || 0);
-        let yi2 = Number(yawSelect.value);
-        if (yi2 < 0) {
-          const perYaw = g.score[yi][xi].map((values) => values[hi]);
-          yi2 = perYaw.indexOf(Math.max(...perYaw));
-        }
-        moveTo(point.x, point.y, g.yaw_deg[yi2], g.pedestal_height_mm[hi]);
-      });
-    }
     list.replaceChildren(
       ...placement.best.map((candidate) => {
         const tied = candidate.tie_rank > 0 && candidate.tie_rank !== candidate.rank;
@@ -232,6 +249,54 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
       }),
     );
   }
+
+  /** The grid cell under a pointer event: its indices and centre, or null outside the grid. */
+  function cellAt(event) {
+    const { placement } = store.get();
+    if (!placement || !heatmap._fullLayout) {
+      return null;
+    }
+    const point = dataFromPointer(heatmap, event);
+    const g = placement.grid;
+    const nearest = (values, v) => values.reduce((best, value, k) => (Math.abs(value - v) < Math.abs(values[best] - v) ? k : best), 0);
+    const step = (values) => (values.length > 1 ? Math.abs(values[1] - values[0]) : Infinity);
+    const xi = nearest(g.x_mm, point.x);
+    const yi = nearest(g.y_mm, point.y);
+    const inside = point.inside && Math.abs(g.x_mm[xi] - point.x) <= step(g.x_mm) / 2 && Math.abs(g.y_mm[yi] - point.y) <= step(g.y_mm) / 2;
+    return inside ? { xi, yi, grid: g } : null;
+  }
+
+  // pressing on a grid cell moves the base there (the best yaw of that cell when all are shown)
+  attachDrag({
+    figure: heatmap,
+    onPress: (_point, event) => {
+      const cell = cellAt(event);
+      if (!cell) {
+        return false;
+      }
+      const { xi, yi, grid: g } = cell;
+      const hi = Number(heightSelect.value || 0);
+      let yaw = Number(yawSelect.value);
+      if (yaw < 0) {
+        const perYaw = g.score[yi][xi].map((values) => values[hi]);
+        yaw = perYaw.indexOf(Math.max(...perYaw));
+      }
+      moveTo(g.x_mm[xi], g.y_mm[yi], g.yaw_deg[yaw], g.pedestal_height_mm[hi]);
+      return false;
+    },
+    onMove: () => {},
+  });
+  // hovering a cell says its position and score
+  heatmap.addEventListener("mousemove", (event) => {
+    const cell = cellAt(event);
+    if (!cell) {
+      heatmap.title = "";
+      return;
+    }
+    const { xi, yi, grid: g } = cell;
+    const score = scorePlane(g, Number(yawSelect.value), Number(heightSelect.value || 0))[yi][xi];
+    heatmap.title = `x ${formatNumber(g.x_mm[xi], { decimals: 0 })} mm, y ${formatNumber(g.y_mm[yi], { decimals: 0 })} mm: score ${formatNumber(score, { decimals: 3 })}`;
+  });
 
   yawSelect.addEventListener("change", render);
   heightSelect.addEventListener("change", render);

@@ -1,6 +1,6 @@
 // The joint map: a plane through joint space over two chosen joints, with the
-// cell's obstacle regions (one colour per obstacle, self collision hatched
-// dark, clearance shaded grey), the joint-limit box, the current
+// cell's obstacle regions (one colour per obstacle, self collision shaded
+// dark, clearance shaded grey: a picture drawn by the server), the joint-limit box, the current
 // configuration and a marker for every inverse kinematics solution of the
 // target, styled by arm branch. Clicking or dragging sets the two joints;
 // clicking a marker takes that solution.
@@ -14,7 +14,7 @@
 
 import { sequenceKey, sequenceTraces } from "../sequencecurve.js";
 import { currentArmSeverity, levelColour } from "../severity.js";
-import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
+import { attachDrag, dataFromPointer, draw, gridImage, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { branchHeading, branchPartsText, sameBranch } from "../branches.js";
 import { branchStyle, regionColour } from "../palette.js";
@@ -23,7 +23,6 @@ import { axesExist, mapAxes, mapValues, solutionValue } from "../mapaxes.js";
 import { shownTarget } from "../selection.js";
 
 const PICK_RADIUS_PX = 12;
-const CLEARANCE_SHADE_MM = 300;
 
 function axisTitle(joint) {
   return `${joint.name} (${joint.unit})`;
@@ -129,23 +128,6 @@ function within(range, values) {
   return values.every((value) => value >= range[0] && value <= range[1]);
 }
 
-/**
- * A grid of a two-joint map as heatmap rows: z[row][col] with the first chosen
- * joint along the columns (flat values are C order, first joint slowest).
- */
-export function gridRows(map, flat, value) {
-  const [na, nb] = map.shape;
-  const rows = [];
-  for (let ib = 0; ib < nb; ib += 1) {
-    const row = new Array(na);
-    for (let ia = 0; ia < na; ia += 1) {
-      row[ia] = value(flat[ia * nb + ib]);
-    }
-    rows.push(row);
-  }
-  return rows;
-}
-
 /** Name of the object colliding at joint values (x, y) of a two-joint map ("" if free). */
 export function objectAt(map, x, y) {
   const [xs, ys] = map.axes_deg;
@@ -158,44 +140,16 @@ export function objectAt(map, x, y) {
   return map.self_collision[flat] ? "arm itself" : "";
 }
 
-/** Heatmap traces of a two-joint map: clearance shading, one region per obstacle, self collision. */
-export function regionTraces(map, palette) {
-  const [xs, ys] = map.axes_deg;
-  const base = { type: "heatmap", x: xs, y: ys, showscale: false, hoverinfo: "skip", zsmooth: false };
-  const traces = [];
-  if (map.clearance_mm) {
-    traces.push({
-      ...base,
-      name: "clearance",
-      z: gridRows(map, map.clearance_mm, (mm) => Math.max(0, Math.min(mm, CLEARANCE_SHADE_MM))),
-      zmin: 0,
-      zmax: CLEARANCE_SHADE_MM,
-      colorscale: [[0, "#c4ccd3"], [1, "rgba(251, 252, 253, 0)"]],
-    });
+/**
+ * The map's picture as a layout image of the base figure: the server draws the regions (one
+ * colour per object, self collision dark, clearance shaded grey; results/map_images.py), one
+ * pixel per grid cell, stretched over the cells. Hover names the object from the map's grid.
+ */
+export function regionImages(map) {
+  if (!map || !map.picture) {
+    return [];
   }
-  map.colliding_obstacles.forEach((name, rank) => {
-    const index = map.obstacle_names.indexOf(name);
-    const colour = regionColour(palette, rank);
-    traces.push({
-      ...base,
-      name,
-      z: gridRows(map, map.obstacle, (k) => (k === index ? 1 : null)),
-      colorscale: [[0, colour], [1, colour]],
-      opacity: 0.85,
-      meta: { role: "obstacle", obstacle: name },
-    });
-  });
-  if (map.self_collision.some(Boolean)) {
-    traces.push({
-      ...base,
-      name: "self collision",
-      z: gridRows(map, map.self_collision, (hit) => (hit ? 1 : null)),
-      colorscale: [[0, palette.ink], [1, palette.ink]],
-      opacity: 0.22,
-      meta: { role: "self" },
-    });
-  }
-  return traces;
+  return [gridImage(map.picture, map.axes_deg[0], map.axes_deg[1], { name: "regions" })];
 }
 
 /**
@@ -338,7 +292,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     const axes = mapAxes(state);
     const [ja, jb] = [axes[a], axes[b]];
     const map = currentMap(state);
-    const data = [...(map ? regionTraces(map, palette) : []), ...sequenceTraces(state.sequence, [a, b], palette)];
+    const data = sequenceTraces(state.sequence, [a, b], palette);
     ranges = {
       x: paddedRange(ja, dynamic[0].x),
       y: paddedRange(jb, dynamic[0].y),
@@ -357,6 +311,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
         layer: "above",
       },
     ];
+    layout.images = regionImages(map);
     layout.annotations = [
       {
         xref: "x",
@@ -394,7 +349,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
     updateSelectors(state);
     const dynamic = dynamicTraces(state);
     const map = currentMap(state);
-    const key = `${robot.robot}|${mapJoints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}` : "no map"}|${sequenceKey(state.sequence)}`;
+    const key = `${robot.robot}|${mapJoints.join(",")}|${map ? `${map.cell_etag}|${map.hold_deg.join(",")}|${map.picture ? map.picture.length : 0}` : "no map"}|${sequenceKey(state.sequence)}`;
     let drawn;
     if (key !== baseKey || !element.data || !ranges || !within(ranges.x, dynamic[0].x) || !within(ranges.y, dynamic[0].y)) {
       baseKey = key;

@@ -193,6 +193,30 @@ export function topLayout(layout) {
   };
 }
 
+/**
+ * A plotly layout image covering the cells of a regular grid: `picture` (a data: URL) has one
+ * pixel per cell, columns along `xs` and its top row at the last of `ys` (cell centres), and is
+ * stretched over the cells' extent under the traces (style.css keeps its pixels crisp).
+ */
+export function gridImage(picture, xs, ys, extra = {}) {
+  const step = (values) => (values.length > 1 ? (values[values.length - 1] - values[0]) / (values.length - 1) : 1);
+  const [dx, dy] = [step(xs), step(ys)];
+  return {
+    source: picture,
+    xref: "x",
+    yref: "y",
+    x: xs[0] - dx / 2,
+    y: ys[ys.length - 1] + dy / 2,
+    sizex: xs[xs.length - 1] - xs[0] + dx,
+    sizey: ys[ys.length - 1] - ys[0] + dy,
+    xanchor: "left",
+    yanchor: "top",
+    sizing: "stretch",
+    layer: "below",
+    ...extra,
+  };
+}
+
 /** Draw or redraw a figure (plotly diffing keeps it cheap). */
 export function draw(figure, data, layout) {
   followSize(figure);

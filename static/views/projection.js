@@ -15,7 +15,7 @@
 /* global Plotly */
 
 import { currentArmSeverity, levelColour } from "../severity.js";
-import { attachDrag, dataFromPointer, draw, layout2d, pointerFromData, topLayout } from "./plotting.js";
+import { attachDrag, dataFromPointer, draw, gridImage, layout2d, pointerFromData, topLayout } from "./plotting.js";
 import { frameScheduler } from "./frame.js";
 import { convexHull, projectedOutline, shapePoints } from "./shapes.js";
 import { meshKey, viewBounds } from "./scene3d.js";
@@ -99,21 +99,12 @@ export function createProjectionView({
     return { x: paddedRange(low[h], high[h], pad), y: paddedRange(low[v], high[v], pad) };
   }
 
-  function reachTrace(section) {
-    return {
-      type: "heatmap",
-      name: "reach",
-      x: section.u_mm,
-      y: section.v_mm,
-      z: section.count.map((row) => row.map((count) => (count > 0 ? count / section.directions : null))),
-      zmin: 0,
-      zmax: 1,
-      colorscale: [[0, "rgba(0, 158, 115, 0.12)"], [1, "rgba(0, 158, 115, 0.55)"]],
-      showscale: false,
-      hoverinfo: "skip",
-      zsmooth: false,
-      meta: { role: "reach", value_mm: section.value_mm },
-    };
+  /** The reach section as a layout image under the cell (the server's picture of it, rows v, columns u). */
+  function reachImages(section) {
+    if (!section || !section.picture) {
+      return [];
+    }
+    return [gridImage(section.picture, section.u_mm, section.v_mm, { name: "reach" })];
   }
 
   /** Mesh fixtures whose triangles have arrived: filled silhouettes in their own colours. */
@@ -381,7 +372,7 @@ export function createProjectionView({
     }
     staticKey = key;
     const range = ranges(state);
-    const data = reach && cellActive ? [reachTrace(reach)] : [];
+    const data = [];
     if (cellActive && cell) {
       data.push(...cellTraces(cell.scene, state.meshes));
     }
@@ -394,6 +385,7 @@ export function createProjectionView({
       palette,
     });
     layout.uirevision = `${robot.robot}|${cellActive}`;
+    layout.images = reach && cellActive ? reachImages(reach) : [];
     draw(base, data, layout);
     draw(element, arm, topLayout(layout)).then(placeMarkers);
   }

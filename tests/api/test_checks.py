@@ -8,6 +8,7 @@ against pinocchio in test_kinematics.py).
 
 from __future__ import annotations
 
+import io
 import json
 from collections.abc import Awaitable, Callable
 from typing import Any
@@ -236,6 +237,19 @@ async def test_start_placement(client: httpx.AsyncClient, job_finished: JobFinis
     scores = [c["score"] for c in report["best"]]
     assert scores == sorted(scores, reverse=True)
     assert np.max(report["grid"]["score"]) == pytest.approx(scores[0])
+    # the page's picture of the best score over all yaws: the highest score in the scale's last
+    # colour (plotly.js's Viridis end #fde725, from memory); Pillow reads the PNG
+    image_module = pytest.importorskip("PIL.Image")
+    picture = await client.get(f"/api/jobs/{status['id']}/image", params={"yaw_index": -1})
+    assert picture.status_code == 200
+    pixels = np.asarray(image_module.open(io.BytesIO(picture.content)))
+    best = np.max(report["grid"]["score"], axis=(2, 3))  # (ny, nx), one height
+    row, column = np.unravel_index(np.argmax(best), best.shape)
+    assert pixels.shape == (3, 3, 4)
+    assert pixels[2 - row, column].tolist() == [0xFD, 0xE7, 0x25, 255]
+    outside = await client.get(f"/api/jobs/{status['id']}/image", params={"yaw_index": 2})
+    assert outside.status_code == 422
+    assert outside.json()["detail"] == "yaw_index: expected -1 .. 1, got 2"
 
 
 async def test_start_placement_too_large(client: httpx.AsyncClient) -> None:

@@ -8,6 +8,7 @@ cell by cell with a direct call of that function on the same cell.
 from __future__ import annotations
 
 import asyncio
+import io
 from collections.abc import Awaitable, Callable
 from typing import Any
 
@@ -19,6 +20,8 @@ from posebridge.api.jobs import MAX_ACTIVE_OWNER
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.clearance import clearance_scene
 from posebridge.resources import data_folder
+from posebridge.results.map_images import joint_map_rgba
+from posebridge.results.spaces import JointMapResult
 from posebridge.spaces.joint_map import cell_joint_map, joint_map
 from posebridge.units import joints_si_from_user
 
@@ -72,6 +75,34 @@ async def test_start_joint_map_three_joints(
     assert result["shape"] == [8, 8, 8]
     assert len(result["obstacle"]) == 8**3
     assert result["clearance_mm"] is None
+
+
+async def test_joint_map_picture(client: httpx.AsyncClient, job_finished: JobFinished) -> None:
+    image_module = pytest.importorskip("PIL.Image")
+    response = await client.post(
+        "/api/maps/joint", json={"joints": [1, 2], "hold_deg": HOLD, "resolution": 12}
+    )
+    job_id = response.json()["id"]
+    status = await job_finished(job_id)
+    assert status["state"] == "done", status["detail"]
+    picture = await client.get(f"/api/jobs/{job_id}/image")
+    assert picture.status_code == 200
+    assert picture.headers["content-type"] == "image/png"
+    # Pillow reads the PNG (reference library): one pixel per cell, the map's own colours
+    # (their values are checked against the palette in tests/results/test_map_images.py)
+    pixels = np.asarray(image_module.open(io.BytesIO(picture.content)))
+    assert pixels.shape == (12, 12, 4)
+    np.testing.assert_array_equal(pixels, joint_map_rgba(JointMapResult(**status["result"])))
+    # a three-joint map has no picture; an unknown job is not found
+    response = await client.post(
+        "/api/maps/joint", json={"joints": [0, 1, 2], "hold_deg": HOLD, "resolution": 4}
+    )
+    three = response.json()["id"]
+    assert (await job_finished(three))["state"] == "done"
+    refused = await client.get(f"/api/jobs/{three}/image")
+    assert refused.status_code == 422
+    assert refused.json()["detail"] == "map: a picture needs a two-joint map, this one has 3"
+    assert (await client.get("/api/jobs/abc123/image")).status_code == 404
 
 
 async def test_start_joint_map_too_large(client: httpx.AsyncClient) -> None:

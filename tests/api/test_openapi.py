@@ -114,6 +114,7 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/placement",
         "/api/jobs/{job_id}",
         "/api/jobs/{job_id}/cancel",
+        "/api/jobs/{job_id}/image",
         "/api/reviews/access",
         "/api/reviews/session",
         "/api/reviews/comments",

@@ -73,6 +73,13 @@ def test_placement_moves_base(open_page: Any, cell_path: Path, artifacts: Path) 
     foot = page.evaluate(STATE)["cell"]["scene"]["base"]["position_mm"]
     assert page.evaluate(current_base) == pytest.approx(foot[:2])
     assert page.get_attribute("#place-heatmap", "data-stale") == "false"
+    # the scores are the server's picture (best over all yaws) under the candidates
+    page.wait_for_function(
+        "() => (document.getElementById('place-heatmap').dataset.picture || '').endsWith('|-1|0')",
+        timeout=120_000,
+    )
+    assert page.locator("#place-heatmap .imagelayer image").count() == 1
+    page.locator("#place-heatmap").screenshot(path=str(artifacts / "page-placement-scores.png"))
     # the score in words, ties within the score's noise, a slower best base said so (the
     # report's fields, tested in tests/planning/test_placement.py)
     placement = page.evaluate(STATE)["placement"]

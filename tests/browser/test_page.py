@@ -104,11 +104,18 @@ def test_load_page(open_page: Any, artifacts: Path) -> None:
     assert page.locator("#cell-items [role=option]").count() == len(cell["scene"]["targets"]) + sum(
         len(p["waypoints"]) for p in cell["scene"]["paths"]
     ) + len(cell["cell"]["fixtures"])
-    # the joint map's regions name obstacles of the cell (GET /api/cell lists the shapes)
-    regions = page.evaluate(
-        "() => (document.getElementById('joint-map-base').data || [])"
-        ".filter((t) => t.meta && t.meta.role === 'obstacle').map((t) => t.meta.obstacle)"
+    # the joint map's regions name obstacles of the cell (GET /api/cell lists the shapes); they
+    # are drawn as the server's picture of the map (a layout image of the base figure)
+    regions = page.evaluate("() => window.posebridge.getState().jointMap.colliding_obstacles")
+    page.wait_for_function(
+        "() => ((document.getElementById('joint-map-base').layout || {}).images || []).length > 0",
+        timeout=120_000,
     )
+    images = page.evaluate(
+        "() => ((document.getElementById('joint-map-base').layout || {}).images || [])"
+        ".map((image) => [image.name, image.source.slice(0, 22)])"
+    )
+    assert images == [["regions", "data:image/png;base64,"]]
     shapes = {s["name"] for s in cell["scene"]["shapes"]} | {"floor"}
     assert regions
     assert set(regions) <= shapes

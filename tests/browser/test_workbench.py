@@ -15,6 +15,7 @@ import numpy as np
 
 from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.pose_diagnosis import diagnose_pose
+from posebridge.palette import region_colour
 from posebridge.resources import data_folder
 from posebridge.results.diagnosis import pose_diagnosis_result
 
@@ -135,17 +136,59 @@ _COLLIDING_CELL = """() => {
 }"""
 
 
+# pixels of the joint map's picture (the server's PNG, read back through a canvas) at the first
+# cell of each colliding object that is not also in self collision: [name, [r, g, b, a]]
+_REGION_PIXELS = """async () => {
+  const m = window.posebridge.getState().jointMap;
+  const img = new Image();
+  img.src = m.picture;
+  await img.decode();
+  const canvas = document.createElement('canvas');
+  canvas.width = img.naturalWidth;
+  canvas.height = img.naturalHeight;
+  const context = canvas.getContext('2d');
+  context.drawImage(img, 0, 0);
+  const nb = m.shape[1];
+  const pixels = [];
+  for (const name of m.colliding_obstacles) {
+    const index = m.obstacle_names.indexOf(name);
+    const flat = m.obstacle.findIndex((k, f) => k === index && !m.self_collision[f]);
+    if (flat >= 0) {
+      const [ia, ib] = [Math.floor(flat / nb), flat % nb];
+      pixels.push([name, Array.from(context.getImageData(ia, nb - 1 - ib, 1, 1).data)]);
+    }
+  }
+  return { size: [img.naturalWidth, img.naturalHeight], shape: m.shape, pixels };
+}"""
+
+_MAP_IMAGE_DRAWN = """() => {
+  const image = document.querySelector('#joint-map-base .imagelayer image');
+  const source = image && (image.getAttribute('href') || image.getAttribute('xlink:href'));
+  return Boolean(source && source.startsWith('data:image/png'));
+}"""
+
+
+def _rgb(colour: str) -> np.ndarray:
+    return np.array([int(colour[k : k + 2], 16) for k in (1, 3, 5)], dtype=float)
+
+
 def test_joint_map_colours_hover_and_legend(open_page: Any, artifacts: Path) -> None:
     page = open_page.page
     page.wait_for_function(_MAPS_CURRENT, timeout=120_000)
-    regions = page.evaluate(
-        "() => (document.getElementById('joint-map-base').data || [])"
-        ".filter((t) => t.meta && t.meta.role === 'obstacle')"
-        ".map((t) => [t.meta.obstacle, t.colorscale[0][1]])"
-    )
+    # the regions are the server's picture of the map, drawn under the plot's axes
+    page.wait_for_function(_MAP_IMAGE_DRAWN, timeout=120_000)
+    drawn = page.evaluate(_REGION_PIXELS)
+    assert drawn["size"] == drawn["shape"][::-1]  # one pixel per grid cell
+    regions = drawn["pixels"]
     assert regions
+    # each object in its region colour at opacity 0.85 over the clearance shading's
+    # #c4ccd3 (a colliding cell has no clearance): "over" compositing, closed form
+    colliding = page.evaluate("() => window.posebridge.getState().jointMap.colliding_obstacles")
+    for name, pixel in regions:
+        expected = 0.85 * _rgb(region_colour(colliding.index(name))) + 0.15 * _rgb("#c4ccd3")
+        np.testing.assert_allclose(pixel, [*expected, 255], atol=1.01)
     # our own contract (issue): every object the map shows has its own colour
-    assert len({colour for _, colour in regions}) == len(regions)
+    assert len({tuple(pixel) for _, pixel in regions}) == len(regions)
     # the 3D joint view has its own legend, one entry per object it shows
     groups = page.evaluate(
         "() => (document.getElementById('joint-space-3d').data || [])"

@@ -137,6 +137,8 @@ def test_report_loads_nothing_by_url(demo_html: str) -> None:
 def test_report_inlines_plotly(demo_html: str) -> None:
     parsed = _parse(demo_html)
     assert plotly_script() in parsed.scripts  # the installed plotly.min.js, verbatim
+    # one embedded copy shared by every figure of the report (our own contract, issue 14)
+    assert demo_html.count(plotly_script()[:2000]) == 1
     assert len(demo_html.encode()) > 4_000_000
 
 

@@ -1,7 +1,7 @@
 """The FastAPI application: API routers, the page, its static files and plotly.js.
 
-Nothing is fetched from outside this server: plotly.js is served from the
-installed plotly package, so the page works with the network off.
+Nothing is fetched from outside this server: the page's plotly.js is the partial bundle kept
+in ``static/vendor`` (:data:`PAGE_PLOTLY_BUNDLE`), so the page works with the network off.
 """
 
 from __future__ import annotations
@@ -9,7 +9,6 @@ from __future__ import annotations
 from collections.abc import AsyncIterator, Awaitable, Callable
 from contextlib import asynccontextmanager, suppress
 from importlib.metadata import version
-from importlib.resources import files
 from pathlib import Path
 from typing import Any
 
@@ -48,16 +47,23 @@ from posebridge.kinematics.warm import warm_kinematics
 from posebridge.resources import data_folder
 from posebridge.spaces.joint_map import joint_map
 
-__all__ = ["create_app", "plotly_script_path"]
+__all__ = ["PAGE_PLOTLY_BUNDLE", "create_app", "plotly_script_path"]
 
 _JOB_INPUT_ERRORS = (InputError,)
 """Errors of a job that are the request's fault (:mod:`posebridge.errors`): their message
 is the job's detail."""
 
 
+PAGE_PLOTLY_BUNDLE = "plotly-gl3d.min.js"
+"""The page's charting script in ``static/vendor``: plotly.js's pre-built partial bundle of 2D
+scatter and 3D traces (npm ``plotly.js-gl3d-dist-min``, the plotly.js version the plotly
+package ships; static/vendor/README.md). The page draws grids as server pictures, so it needs
+no heatmap trace; the review report keeps the full bundle of the plotly package."""
+
+
 def plotly_script_path() -> Path:
-    """plotly.min.js of the installed plotly package."""
-    return Path(str(files("plotly") / "package_data" / "plotly.min.js"))
+    """Return the path of the page's plotly.js (:data:`PAGE_PLOTLY_BUNDLE`)."""
+    return data_folder("static") / "vendor" / PAGE_PLOTLY_BUNDLE
 
 
 def _warm_up_steps(cache: RobotCache, robot_spec: str, cells: CellStore) -> list[WarmStep]:

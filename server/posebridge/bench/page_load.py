@@ -45,12 +45,17 @@ _RECORDER = """(() => {
     const trace = el && el.data && el.data.find((t) => t.meta && t.meta.role === "ik-solutions");
     return Boolean(trace && trace.x && trace.x.length);
   };
+  // the two-joint map is drawn: its picture placed under the axes (pages before the pictures:
+  // its region traces), the 3D joint map's traces drawn
+  const mapDrawn = (map, base) => (map.picture
+    ? Boolean(base.layout && base.layout.images && base.layout.images.length > 0)
+    : Boolean(base.data && base.data.length > 1));
   const maps = () => {
     const s = window.posebridge && window.posebridge.getState();
     const base = document.getElementById("joint-map-base");
     const space = document.getElementById("joint-space-3d");
-    return Boolean(s && s.jointMap && s.jointMap3 && s.targetCheck && base && base.data &&
-      base.data.length > 1 && space && space.data && space.data.length > 1);
+    return Boolean(s && s.jointMap && s.jointMap3 && s.targetCheck && base && mapDrawn(s.jointMap, base) &&
+      space && space.data && space.data.length > 1);
   };
   const check = () => {
     const now = performance.now();
