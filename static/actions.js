@@ -6,8 +6,14 @@ import { branchOf } from "./branches.js";
 // Arrow-key nudges come in bursts. While the keys keep coming the page treats
 // them as a drag (saving, joint maps and checks wait, so each key's inverse
 // kinematics answers as fast as a drag's); the burst ends this long after the
-// last key and the held work runs once.
+// last key or the last kinematics answer, whichever is later, and the held work
+// runs once. Counting from the answer matters on a busy machine: a user waits
+// for a key's answer before the next key, and a burst that ended while an
+// answer was slower than this started the held work (save, maps, checks) under
+// the next keys, which then waited behind it.
 const NUDGE_QUIET_MS = 700;
+// a key whose answer never comes (a failed request) holds its burst no longer than this
+const NUDGE_ANSWER_WAIT_MS = 5000;
 
 /**
  * Actions bound to one store.
@@ -16,6 +22,16 @@ const NUDGE_QUIET_MS = 700;
 export function createActions({ store }) {
   const get = store.get;
   let nudgeTimer = null;
+  let nudgeKind = null;
+  let lastNudgeAt = 0;
+
+  /** Whether the last nudge's kinematics answer is in (the target's IK, the joints' FK). */
+  function nudgeAnswered({ ik, target, fkJoints, joints }) {
+    if (nudgeKind === "target") {
+      return Boolean(ik && ik.target === target);
+    }
+    return nudgeKind === "joints" ? fkJoints === joints : true;
+  }
 
   /** A key nudge of `kind` ("target", "fixture" or "joints"): start or extend a nudge burst. */
   function nudging(kind) {
@@ -24,14 +40,34 @@ export function createActions({ store }) {
     }
     if (nudgeTimer === null) {
       setDragging(true, kind);
-    } else {
-      clearTimeout(nudgeTimer);
     }
+    nudgeKind = kind;
+    lastNudgeAt = performance.now();
+    holdNudgeBurst();
+  }
+
+  /** (Re)start the quiet time that ends a nudge burst; it ends only once the last key is answered. */
+  function holdNudgeBurst() {
+    clearTimeout(nudgeTimer);
     nudgeTimer = setTimeout(() => {
+      if (!nudgeAnswered(get()) && performance.now() - lastNudgeAt < NUDGE_ANSWER_WAIT_MS) {
+        holdNudgeBurst();
+        return;
+      }
       nudgeTimer = null;
       setDragging(false);
     }, NUDGE_QUIET_MS);
   }
+
+  // an inverse or forward kinematics answer during a burst holds it from its arrival
+  store.subscribe(
+    () => {
+      if (nudgeTimer !== null) {
+        holdNudgeBurst();
+      }
+    },
+    { keys: ["ik", "fk"] },
+  );
 
   /** Move the target. reason "target" marks a user edit (saved into the cell); others are not saved. */
   function setTarget(target, { inputAt = performance.now(), reason = "target" } = {}) {
