@@ -23,6 +23,7 @@ from posebridge.cell import load_cell, resolve_scene
 from posebridge.cell.joint_log import read_joint_log
 from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.resources import data_folder
+from posebridge.results.log_diagnosis import log_diagnosis_result
 
 pytestmark = pytest.mark.anyio
 
@@ -157,7 +158,9 @@ async def test_diagnose_log_demo(client: httpx.AsyncClient) -> None:
     body = response.json()
     assert body["row_count"] == len(text.strip().splitlines()) - 1  # header + one line per row
     scene = resolve_scene(load_cell(ROBOTS / "demo-cell.json"))
-    expected = diagnose_log(scene, read_joint_log(ROBOTS / "demo-log.csv", scene.robot))
+    expected = log_diagnosis_result(
+        diagnose_log(scene, read_joint_log(ROBOTS / "demo-log.csv", scene.robot))
+    )
     assert body["worst_row"]["row"] == expected.worst_row.row
     assert body["worst_row"]["reason"] == expected.worst_row.reason
     assert len(body["rows"]["manipulability"]) == body["row_count"]

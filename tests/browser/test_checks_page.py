@@ -23,6 +23,8 @@ from posebridge.cell.joint_log import read_joint_log
 from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.cell.model import validate_cell
 from posebridge.resources import data_folder
+from posebridge.results.log_diagnosis import log_diagnosis_result
+from posebridge.results.target_check import target_check_result
 
 STATE = "() => window.posebridge.getState()"
 DEMO_LOG = data_folder("robots") / "demo-log.csv"
@@ -33,7 +35,7 @@ def test_pose_check_flags_worst_log_row(open_page: Any, cell_path: Path, artifac
     page.set_input_files("#log-file", str(DEMO_LOG))
     page.wait_for_function("() => window.posebridge.getState().logCheck", timeout=120_000)
     scene = resolve_scene(load_cell(cell_path))
-    expected = diagnose_log(scene, read_joint_log(DEMO_LOG, scene.robot))
+    expected = log_diagnosis_result(diagnose_log(scene, read_joint_log(DEMO_LOG, scene.robot)))
     assert page.get_attribute("#log-facts", "data-worst-row") == str(expected.worst_row.row)
     assert expected.worst_row.reason in page.inner_text("#log-facts")
     # the timeline highlights the worst row, and the arm is moved onto it
@@ -144,13 +146,15 @@ def _moved_cell(data: dict[str, Any], name: str, world_xy: tuple[float, float]) 
 
 
 def _consistent(data: dict[str, Any]) -> bool:
-    return check_targets(resolve_scene(validate_cell(data))).consistent_branch.consistent
+    return target_check_result(
+        check_targets(resolve_scene(validate_cell(data)))
+    ).consistent_branch.consistent
 
 
 def test_fix_branch_inconsistent_target(open_page: Any, cell_path: Path, artifacts: Path) -> None:
     page = open_page.page
     data = load_cell(cell_path).model_dump(mode="json", exclude_none=True)
-    report = check_targets(resolve_scene(validate_cell(data)))
+    report = target_check_result(check_targets(resolve_scene(validate_cell(data))))
     scene = resolve_scene(validate_cell(data))
     offsets = [(dx, dy) for dy in (-400, -300, 300, 400, -200, 200) for dx in (0, -200, 200)]
     if report.consistent_branch.consistent:
@@ -221,7 +225,9 @@ def test_fix_branch_inconsistent_target(open_page: Any, cell_path: Path, artifac
         == "false"
     )
     # the saved cell, checked in Python, agrees
-    assert check_targets(resolve_scene(load_cell(cell_path))).consistent_branch.consistent
+    assert target_check_result(
+        check_targets(resolve_scene(load_cell(cell_path)))
+    ).consistent_branch.consistent
     page.screenshot(path=str(artifacts / "page-target-fixed.png"), full_page=True)
     assert open_page.problems.console_errors == []
 
@@ -337,7 +343,7 @@ def test_target_check_flags_a_target_off_its_fixture_and_says_why(
         timeout=180_000,
     )
     # the check run here in Python on the same file is the reference (tests/cell/test_checks.py)
-    expected = check_targets(resolve_scene(load_cell(cell_path)))
+    expected = target_check_result(check_targets(resolve_scene(load_cell(cell_path))))
     (finding,) = [f for f in expected.findings if f.code == "off-fixture"]
     assert finding.target == "reject-drop"
     row = page.locator("#target-check-findings li[data-code='off-fixture']")

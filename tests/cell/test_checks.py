@@ -32,6 +32,7 @@ from posebridge.resources import data_folder
 from posebridge.results.cell import TargetCheckReport
 from posebridge.results.cell_text import render_target_check
 from posebridge.results.path_check import path_check_result
+from posebridge.results.target_check import target_check_result
 
 ROBOTS = data_folder("robots")
 RAW = json.loads((ROBOTS / "demo-cell.json").read_text())
@@ -40,7 +41,7 @@ FCL_TOLERANCE_MM = 0.6  # python-fcl overestimates capsule distances by up to 0.
 
 @pytest.fixture(scope="module")
 def report(demo_scene) -> TargetCheckReport:
-    return check_targets(demo_scene)
+    return target_check_result(check_targets(demo_scene))
 
 
 def target(report: TargetCheckReport, name: str):
@@ -142,7 +143,7 @@ def test_press_targets_have_low_clearance(report, documented_joints, fcl_cell, n
 
 
 def test_clearance_threshold_is_a_parameter(demo_scene) -> None:
-    relaxed = check_targets(demo_scene, QualityThresholds(clearance_mm=15.0))
+    relaxed = target_check_result(check_targets(demo_scene, QualityThresholds(clearance_mm=15.0)))
     # python-fcl measures about 20 mm at press-load: above a 15 mm threshold, no warning
     assert not [f for f in findings(relaxed, "press-load", "clearance") if "press-die" in f.message]
     assert relaxed.thresholds.clearance_mm == 15.0
@@ -259,7 +260,7 @@ def test_reasons_in_their_documented_order() -> None:
             {"name": "far-away", "position_mm": [5000.0, 0.0, 1000.0], "rpy_deg": [180.0, 0.0, 0.0]}
         )
     )
-    check = target(check_targets(far), "far-away")
+    check = target(target_check_result(check_targets(far)), "far-away")
     # closed form: 5 m from the base is beyond pb-arm6's reach (links and tool sum to 1.8 m)
     assert check.target.reason == REASON_OUT_OF_REACH
     assert not check.reachable
@@ -267,11 +268,13 @@ def test_reasons_in_their_documented_order() -> None:
     def back_only(d: dict) -> None:
         d["targets"][2]["branch"] = {"shoulder": "back"}
 
-    check = target(check_targets(variant(back_only)), "rack-high-1")
+    check = target(target_check_result(check_targets(variant(back_only))), "rack-high-1")
     # demo notes: rack-high-1 is within limits only with the shoulder in front
     assert check.target.reason == REASON_REQUIRED_BRANCH
     message = next(
-        f.message for f in check_targets(variant(back_only)).findings if f.target == "rack-high-1"
+        f.message
+        for f in target_check_result(check_targets(variant(back_only))).findings
+        if f.target == "rack-high-1"
     )
     assert message.startswith("target not reachable: required branch unavailable: required back;")
 
@@ -280,7 +283,7 @@ def test_reasons_in_their_documented_order() -> None:
             {"name": "cage", "position_mm": [100.0, 850.0, 450.0], "size_mm": [700.0, 700.0, 400.0]}
         )
 
-    check = target(check_targets(variant(boxed)), "rack-low-1")
+    check = target(target_check_result(check_targets(variant(boxed))), "rack-low-1")
     # closed form: the cage contains the rack-low-1 TCP (world about (100, 850, 455) mm)
     assert check.target.reason == REASON_ALL_COLLIDE
     assert not any(b.collision_free for b in check.target.branches if b.within_limits)
@@ -295,7 +298,7 @@ def test_outside_limits_on_every_branch() -> None:
     def robot_tight(d: dict) -> None:
         d["robot"] = {"toml": tight}
 
-    check = target(check_targets(variant(robot_tight)), "rack-low-1")
+    check = target(target_check_result(check_targets(variant(robot_tight))), "rack-low-1")
     assert check.target.reason == REASON_NO_WITHIN_LIMITS
     assert not any(b.within_limits for b in check.target.branches)
 
@@ -313,7 +316,9 @@ def keep_targets(names: list[str], branches: dict[str, dict] | None = None):
 
 
 def test_consistent_branch_found() -> None:
-    report = check_targets(variant(keep_targets(["rack-low-1", "rack-low-2", "gauge-probe"])))
+    report = target_check_result(
+        check_targets(variant(keep_targets(["rack-low-1", "rack-low-2", "gauge-probe"])))
+    )
     coverage = report.consistent_branch
     assert coverage.consistent
     assert coverage.breaking_targets == []
@@ -332,7 +337,9 @@ def test_consistent_branch_found() -> None:
 
 def test_inconsistent_branch_names_the_breaking_target() -> None:
     opposite = {"rack-low-1": {"wrist": "positive"}, "rack-low-2": {"wrist": "negative"}}
-    report = check_targets(variant(keep_targets(["rack-low-1", "rack-low-2"], opposite)))
+    report = target_check_result(
+        check_targets(variant(keep_targets(["rack-low-1", "rack-low-2"], opposite)))
+    )
     coverage = report.consistent_branch
     # our own contract: opposite required wrist signs cannot share one branch
     assert not coverage.consistent
@@ -378,7 +385,7 @@ def test_demo_reject_drop_breaks_the_common_branch_until_the_bin_moves(report) -
     assert all(b.startswith("back") for b in check.usable_branches)
 
     # the fix the cell notes suggest: the bin round to the side (azimuth 128 deg, inside +-167)
-    fixed = check_targets(variant(_move_reject_bin(-550.0, 700.0)))
+    fixed = target_check_result(check_targets(variant(_move_reject_bin(-550.0, 700.0))))
     assert fixed.consistent_branch.consistent
     assert fixed.consistent_branch.breaking_targets == []
 
@@ -404,9 +411,9 @@ def test_per_target_work_is_batched(monkeypatch: pytest.MonkeyPatch) -> None:
         return real(labels, triple)
 
     monkeypatch.setattr(checks, "labels_match", counted)
-    report = check_targets(scene)
+    report = target_check_result(check_targets(scene))
     assert len(calls) == len(set(calls)) <= 27
-    single = check_targets(variant(lambda data: data.update(paths=[])))
+    single = target_check_result(check_targets(variant(lambda data: data.update(paths=[]))))
     # the same answer per target as the check of the cell with one copy of each target
     for k, check in enumerate(report.targets[: len(RAW["targets"])]):
         assert check.reachable == single.targets[k].reachable
@@ -415,7 +422,7 @@ def test_per_target_work_is_batched(monkeypatch: pytest.MonkeyPatch) -> None:
 
 def test_cell_thresholds_are_used_by_the_target_check() -> None:
     relaxed = variant(lambda data: data.update(thresholds={"clearance_mm": 15.0}))
-    report = check_targets(relaxed)
+    report = target_check_result(check_targets(relaxed))
     # python-fcl measures about 20 mm at press-load: above the cell's 15 mm, no warning
     assert not [f for f in findings(report, "press-load", "clearance") if "press-die" in f.message]
     # our own contract: the report states the set it used
@@ -548,7 +555,7 @@ def test_a_target_moved_off_its_fixture_is_flagged(report) -> None:
         (drop,) = [t for t in d["targets"] if t["name"] == "reject-drop"]
         drop["position_mm"][0] += 400.0
 
-    moved = check_targets(variant(drag))
+    moved = target_check_result(check_targets(variant(drag)))
     (drop,) = [t for t in RAW["targets"] if t["name"] == "reject-drop"]
     x, y, z = drop["position_mm"]
     # closed form: point to solid cylinder (radius 220 mm, half height 300 mm, bin frame)
@@ -561,5 +568,7 @@ def test_a_target_moved_off_its_fixture_is_flagged(report) -> None:
     # threshold: QualityThresholds.fixture_distance_mm (common practice, no source)
     assert finding.threshold == 200.0
     assert "reject-bin" in finding.message
-    relaxed = check_targets(variant(drag), QualityThresholds(fixture_distance_mm=300.0))
+    relaxed = target_check_result(
+        check_targets(variant(drag), QualityThresholds(fixture_distance_mm=300.0))
+    )
     assert not findings(relaxed, "reject-drop", "off-fixture")

@@ -38,6 +38,7 @@ from posebridge.resources import data_folder
 from posebridge.results.diagnosis import pose_diagnosis_result
 from posebridge.results.joint_plan import joint_plan_result
 from posebridge.results.path_check import path_check_result
+from posebridge.results.target_check import target_check_result
 
 CELL = data_folder("robots") / "demo-machine-cell.json"
 
@@ -74,7 +75,7 @@ def test_housing_is_about_100k_closed_triangles(scene: Scene) -> None:
 
 
 def test_every_target_is_reachable_clear_on_one_branch(scene: Scene) -> None:
-    report = check_targets(scene)
+    report = target_check_result(check_targets(scene))
     # the demo's promise (its notes): every target and approach reachable on one branch
     assert all(target.reachable for target in report.targets)
     assert report.consistent_branch.consistent
@@ -100,7 +101,7 @@ def test_door_target_collides_when_the_housing_is_a_box() -> None:
     for target in boxed["targets"]:
         if target["fixture"] == "machine":
             target["position_mm"] = (np.array(target["position_mm"]) - centre).tolist()
-    report = check_targets(resolve_scene(validate_cell(boxed), CELL))
+    report = target_check_result(check_targets(resolve_scene(validate_cell(boxed), CELL)))
     machine = report.targets[[t.name for t in report.targets].index("machine-table")]
     # the claim: a box around the housing calls the door-opening target a collision
     assert not machine.reachable
@@ -110,7 +111,7 @@ def test_door_target_collides_when_the_housing_is_a_box() -> None:
 def test_demo_path_is_clear_and_the_planner_finds_a_way_in(scene: Scene) -> None:
     report = path_check_result(check_path(scene, 0))
     assert report.ok, [f.message for f in report.findings]  # the demo's promise
-    check = check_targets(scene)
+    check = target_check_result(check_targets(scene))
     joints = {
         t.name: np.radians(t.target.branches[t.target.recommended].joints_deg)
         for t in check.targets
@@ -127,7 +128,7 @@ def test_demo_path_is_clear_and_the_planner_finds_a_way_in(scene: Scene) -> None
 
 
 def test_diagnosis_names_the_mesh_fixture_and_its_closest_point(scene: Scene) -> None:
-    check = check_targets(scene)
+    check = target_check_result(check_targets(scene))
     machine = check.targets[[t.name for t in check.targets].index("machine-table")]
     q = np.radians(machine.target.branches[machine.target.recommended].joints_deg)
     diagnosis = pose_diagnosis_result(diagnose_pose(scene, q))

@@ -26,6 +26,7 @@ from posebridge.resources import data_folder
 from posebridge.results.cell import LogDiagnosis, PoseDiagnosis
 from posebridge.results.cell_text import render_log_diagnosis, render_pose_diagnosis
 from posebridge.results.diagnosis import pose_diagnosis_result
+from posebridge.results.log_diagnosis import log_diagnosis_result
 
 ROBOTS = data_folder("robots")
 DEMO_LOG = ROBOTS / "demo-log.csv"
@@ -57,7 +58,9 @@ def limits() -> np.ndarray:
 
 @pytest.fixture(scope="module")
 def diagnosis(demo_scene) -> LogDiagnosis:
-    return diagnose_log(demo_scene, read_joint_log(DEMO_LOG, demo_scene.robot))
+    return log_diagnosis_result(
+        diagnose_log(demo_scene, read_joint_log(DEMO_LOG, demo_scene.robot))
+    )
 
 
 # --- the demo log -----------------------------------------------------------------------------
@@ -176,7 +179,9 @@ def test_worst_row_rule_order(demo_scene, documented_joints) -> None:
     # round about the j6 axis, so clearance is that of rack-low-1 (closed form)
     beyond = [*rack[:5], -360.0]
     robot = demo_scene.robot
-    outside = diagnose_log(demo_scene, parse_joint_log(rows_text([rack, gauge, beyond]), robot))
+    outside = log_diagnosis_result(
+        diagnose_log(demo_scene, parse_joint_log(rows_text([rack, gauge, beyond]), robot))
+    )
     clearance = np.array(outside.rows.clearance_mm, dtype=float)
     assert clearance.min() >= 0.0  # no collision, so the next rule decides
     # documented rule: the row farthest outside a limit
@@ -184,14 +189,18 @@ def test_worst_row_rule_order(demo_scene, documented_joints) -> None:
     assert outside.worst_row.reason.startswith("farthest outside a limit: j6 5.0 deg")
     assert any(f.code == "outside-limits" and f.severity == "error" for f in outside.findings)
     # documented rule: faster than a limit comes next (j1 moves 214.3 deg in 0.01 s)
-    fast = diagnose_log(demo_scene, parse_joint_log(rows_text([rack, gauge], [0.0, 0.01]), robot))
+    fast = log_diagnosis_result(
+        diagnose_log(demo_scene, parse_joint_log(rows_text([rack, gauge], [0.0, 0.01]), robot))
+    )
     assert fast.worst_row.row == 1
     assert fast.worst_row.reason.startswith("fastest change above a velocity limit: j1")
 
 
 def test_worst_row_without_hazards_is_closest_to_a_threshold(demo_scene, documented_joints) -> None:
     rows = [documented_joints[name] for name in ("rack-low-1", "rack-low-2", "gauge-probe")]
-    result = diagnose_log(demo_scene, parse_joint_log(rows_text(rows), demo_scene.robot))
+    result = log_diagnosis_result(
+        diagnose_log(demo_scene, parse_joint_log(rows_text(rows), demo_scene.robot))
+    )
     t = result.thresholds
     r = result.rows
     # closed form of the documented rule over the reported per-row values
@@ -212,7 +221,9 @@ def test_worst_row_without_hazards_is_closest_to_a_threshold(demo_scene, documen
 
 def test_velocity_check_skipped_without_time(demo_scene, documented_joints) -> None:
     text = rows_text([documented_joints["rack-low-1"], documented_joints["gauge-probe"]])
-    result = diagnose_log(demo_scene, parse_joint_log(text, demo_scene.robot), include_rows=False)
+    result = log_diagnosis_result(
+        diagnose_log(demo_scene, parse_joint_log(text, demo_scene.robot)), include_rows=False
+    )
     assert not result.velocity.checked
     assert result.velocity.reason == "skipped: the log has no time_s column"
     assert result.duration_s is None
@@ -224,7 +235,7 @@ def test_velocity_check_skipped_without_time(demo_scene, documented_joints) -> N
 def test_log_of_another_robot_is_refused(demo_scene, robot) -> None:
     log = parse_joint_log("x,y,z,c\n0,0,0,0\n", robot("pb-gantry3"), source="gantry.csv")
     with pytest.raises(KinematicsInputError) as error:
-        diagnose_log(demo_scene, log)
+        log_diagnosis_result(diagnose_log(demo_scene, log))
     assert str(error.value) == (
         "joint log 'gantry.csv': its joints (x, y, z, c) are not those of robot 'pb-arm6' "
         "(j1, j2, j3, j4, j5, j6)"

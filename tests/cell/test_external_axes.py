@@ -33,6 +33,7 @@ from posebridge.cell.scene import Scene, posed_scene, resolve_scene
 from posebridge.cli import main
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.resources import data_folder
+from posebridge.results.target_check import target_check_result
 from posebridge.robot.library import load_robot
 from posebridge.robot.urdf_export import urdf_from_robot
 from posebridge.transforms import invert_transform
@@ -334,7 +335,7 @@ def _demo_with_pins(pins: dict[str, dict[str, float]]) -> Scene:
 
 
 def test_target_check_uses_the_external_axes() -> None:
-    report = check_targets(_demo_with_pins({}))
+    report = target_check_result(check_targets(_demo_with_pins({})))
     assert report.external_axis_names == ["track", "table-1"]
     assert report.external_axis_units == ["mm", "deg"]
     by_name = {t.name: t for t in report.targets}
@@ -344,8 +345,8 @@ def test_target_check_uses_the_external_axes() -> None:
     assert by_name["mill-vise"].external_axes["track"] > 3500.0 - 1460.0
     assert {i.axis for i in by_name["seam-back"].external_intervals} == {"track", "table-1"}
 
-    pinned = check_targets(
-        _demo_with_pins({"mill-vise": {"track": 0.0}, "seam-back": {"table-1": 0.0}})
+    pinned = target_check_result(
+        check_targets(_demo_with_pins({"mill-vise": {"track": 0.0}, "seam-back": {"table-1": 0.0}}))
     )
     by_name = {t.name: t for t in pinned.targets}
     # pinned at home they are out of reach (demo notes)

@@ -10,6 +10,7 @@ from posebridge.cell.joint_log import JointLogError, parse_joint_log
 from posebridge.cell.log_diagnosis import diagnose_log
 from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.resources import data_folder
+from posebridge.results.log_diagnosis import log_diagnosis_result
 
 DEMO = data_folder("robots") / "demo-track-cell.json"
 HEADER = "time_s,j1,j2,j3,j4,j5,j6"
@@ -44,7 +45,7 @@ def test_reader_takes_external_columns_and_defaults_the_rest(demo: Scene) -> Non
 def test_log_diagnosis_poses_every_row_at_its_track_value(demo: Scene) -> None:
     text = f"{HEADER},track_mm\n0.0,{ROBOT},500\n1.0,{ROBOT},1500\n1.1,{ROBOT},2500\n"
     log = parse_joint_log(text, demo.robot, external=demo.external)
-    result = diagnose_log(demo, log)
+    result = log_diagnosis_result(diagnose_log(demo, log))
     assert result.external_names == ["track", "table-1"]
     assert result.external_logged == ["track"]
     assert result.external_defaults == {"table-1": 0.0}

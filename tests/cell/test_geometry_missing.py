@@ -22,6 +22,7 @@ from posebridge.results.joint_plan import joint_plan_result, render_joint_plan
 from posebridge.results.path_check import path_check_result, render_path_check
 from posebridge.results.robots import robot_description_result
 from posebridge.results.spaces import joint_map_result
+from posebridge.results.target_check import target_check_result
 from posebridge.robot.library import load_robot
 from posebridge.robot.model import GEOMETRY_MISSING
 from posebridge.robot.urdf_export import urdf_from_robot
@@ -43,7 +44,7 @@ def bare_scene(tmp_path_factory: pytest.TempPathFactory) -> Scene:
 def test_every_clearance_answer_flags_missing_geometry(bare_scene: Scene) -> None:
     robot = bare_scene.robot
     assert not robot.has_geometry
-    check = check_targets(bare_scene)
+    check = target_check_result(check_targets(bare_scene))
     assert check.robot_geometry_missing == GEOMETRY_MISSING
     assert any(
         f.code == "robot-geometry-missing" and f.severity == "warning" for f in check.findings
@@ -66,5 +67,8 @@ def test_every_clearance_answer_flags_missing_geometry(bare_scene: Scene) -> Non
 def test_a_robot_with_geometry_is_not_flagged() -> None:
     demo = data_folder("robots") / "demo-cell.json"
     scene = resolve_scene(load_cell(demo), demo)
-    assert check_targets(scene).robot_geometry_missing is None
-    assert not any(f.code == "robot-geometry-missing" for f in check_targets(scene).findings)
+    assert target_check_result(check_targets(scene)).robot_geometry_missing is None
+    assert not any(
+        f.code == "robot-geometry-missing"
+        for f in target_check_result(check_targets(scene)).findings
+    )

@@ -238,6 +238,7 @@ def test_loader_reuses_the_mesh_until_the_file_changes(tmp_path: Path) -> None:
 
 def test_open_mesh_is_noted_by_the_target_check(tmp_path: Path) -> None:
     from posebridge.cell.checks import check_targets
+    from posebridge.results.target_check import target_check_result
 
     sheet = trimesh.Trimesh(
         vertices=[[-200.0, -200.0, 0.0], [200.0, -200.0, 0.0], [200.0, 200.0, 0.0]],
@@ -247,6 +248,6 @@ def test_open_mesh_is_noted_by_the_target_check(tmp_path: Path) -> None:
     path = lift_cell(tmp_path, {"shape": "mesh", "file": "sheet.stl", "unit": "mm"})
     scene = resolve_scene(load_cell(path), path, mesh_loader=loader(tmp_path))
     assert not scene.meshes.meshes[0].is_closed  # one triangle: an open surface
-    notes = [f for f in check_targets(scene).findings if f.code == "open-mesh"]
+    notes = [f for f in target_check_result(check_targets(scene)).findings if f.code == "open-mesh"]
     # our own contract (cell/checks.py): one note naming the open mesh fixture
     assert [note.message.split(" is not")[0] for note in notes] == ["mesh fixture 'table'"]

@@ -2,9 +2,18 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
-from posebridge.cell.quality import evaluate_configurations, full_branch_words, revolution_counts
+from posebridge.cell.quality import (
+    evaluate_configurations,
+    full_branch_words,
+    margin_thresholds,
+    revolution_counts,
+    singularity_thresholds,
+)
+from posebridge.cell.thresholds import QualityThresholds
 from posebridge.robot.library import load_robot
 
 
@@ -41,3 +50,33 @@ def test_half_revolution_twins_get_different_branch_words(demo_scene) -> None:
     assert upper.endswith(", j6 +half rev")
     assert upper.removesuffix(", j6 +half rev") == lower
     assert "rev" not in lower
+
+
+def test_thresholds_enter_the_checks_in_si_units() -> None:
+    t = QualityThresholds(
+        clearance_mm=25.0,
+        score_clearance_mm=100.0,
+        wrist_deg=10.0,
+        elbow_deg=5.0,
+        shoulder_mm=50.0,
+        limit_margin_deg=5.0,
+        limit_margin_mm=10.0,
+    )
+    # closed form: 1 mm = 1e-3 m, 1 deg = pi/180 rad (SI)
+    assert t.clearance_m == 0.025
+    assert t.score_clearance_m == 0.1
+    assert t.shoulder_m == 0.05
+    assert math.isclose(t.wrist_rad, math.pi / 18, rel_tol=1e-15)
+    assert math.isclose(t.elbow_rad, math.pi / 36, rel_tol=1e-15)
+    np.testing.assert_allclose(
+        t.limit_margin(np.array([False, True, False])), [math.pi / 36, 0.01, math.pi / 36]
+    )
+    singular = singularity_thresholds(t)
+    assert (singular.wrist_rad, singular.elbow_rad, singular.shoulder_m) == (
+        t.wrist_rad,
+        t.elbow_rad,
+        t.shoulder_m,
+    )
+    gantry = load_robot("pb-gantry3")
+    # our own contract: margin_thresholds is the thresholds' per-joint value for the robot
+    np.testing.assert_array_equal(margin_thresholds(gantry, t), t.limit_margin(gantry.prismatic))

@@ -15,6 +15,7 @@ from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.motion_export import export_motion
 from posebridge.planning.path_check import check_path
 from posebridge.resources import data_folder
+from posebridge.results.log_diagnosis import log_diagnosis_result
 from posebridge.results.motion_export import motion_csv, motion_export_result, motion_json
 from posebridge.results.path_check import path_check_result
 
@@ -42,7 +43,7 @@ def test_csv_export_round_trips_through_the_pose_check(demo: Scene) -> None:
     # closed form: rows every 4 ms from 0, the last at the end of the motion
     assert np.allclose(np.diff(log.time_s[:-1]), 0.004, atol=1e-6)
     assert log.time_s[-1] == pytest.approx(report.header.cycle_time_s, abs=1e-6)
-    diagnosis = diagnose_log(demo, log)
+    diagnosis = log_diagnosis_result(diagnose_log(demo, log))
     assert diagnosis.rows is not None
     replay = np.array(diagnosis.rows.tcp_position_mm)
     tcp = np.array([[row[columns.index(f"tcp_{a}_mm")] for a in "xyz"] for row in report.rows])

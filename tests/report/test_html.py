@@ -30,6 +30,7 @@ from posebridge.report import SAFETY_CAUTION, ReportError, build_report, write_r
 from posebridge.report.html import plotly_script
 from posebridge.resources import data_folder
 from posebridge.results.path_check import path_check_result
+from posebridge.results.target_check import target_check_result
 from posebridge.review.comments import CommentStore, Pin, comments_path_for
 
 HOSTILE = "<script>alert(1)</script>"
@@ -159,7 +160,9 @@ def test_report_has_caution_and_summary(demo_html: str, demo_cell: Path) -> None
 
 
 def test_report_lists_every_target_with_check(demo_html: str, demo_cell: Path) -> None:
-    check = check_targets(resolve_scene(load_cell(demo_cell), demo_cell))  # reference
+    check = target_check_result(
+        check_targets(resolve_scene(load_cell(demo_cell), demo_cell))
+    )  # reference
     assert f"{check.reachable_count} of {len(check.targets)} targets reachable" in demo_html
     for target in check.targets:
         assert f"<td>{target.name}</td>" in demo_html

@@ -34,7 +34,6 @@ from posebridge.cell.scene import Scene
 from posebridge.cell.thresholds import QualityThresholds
 from posebridge.geometry.clearance import clearance_batch, clearance_per_obstacle_batch
 from posebridge.kinematics.fk import check_one_configuration
-from posebridge.units import m_from_mm
 
 __all__ = ["ArmContact", "ArmStateData", "arm_state"]
 
@@ -97,7 +96,7 @@ def arm_state(
     """
     q = check_one_configuration(scene.robot, q)
     quality = evaluate_configurations(scene, q, thresholds)
-    limit_m = float(m_from_mm(quality.thresholds.clearance_mm))
+    limit_m = quality.thresholds.clearance_m
     everything = clearance_scene(scene)
     per_obstacle = clearance_per_obstacle_batch(everything, q)
     names = obstacle_names(scene)

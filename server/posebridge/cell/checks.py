@@ -39,33 +39,34 @@ With external axes (track, turntables) every target is checked at the values
 of :func:`~posebridge.cell.external_kinematics.choose_external_value` (pinned
 ones kept), and its report gives those values and the feasible intervals.
 
-Findings (:class:`~posebridge.results.cell.Finding`) are errors (a target or
-approach pose not reachable, a joint outside its limits, a collision),
-warnings (limit margin, clearance, singularity below the thresholds of
+:func:`check_targets` returns a :class:`TargetCheckData` in SI units;
+:func:`posebridge.results.target_check.target_check_result` turns it into the
+boundary model (mm, deg) with its findings: errors (a target or approach pose
+not reachable, a joint outside its limits, a collision), warnings (limit margin,
+clearance, singularity below the thresholds of
 :class:`~posebridge.cell.thresholds.QualityThresholds` on the recommended
 solution and on the cell's common branch; an approach pose off the target's
-branch; no consistent branch) and info (a target reachable on one
-shoulder/elbow pair only; the consistent branch).
+branch; a target off its fixture; no consistent branch) and info (a target
+reachable on one shoulder/elbow pair only; the consistent branch).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass, replace
 from itertools import product
+from typing import Literal
 
 import numpy as np
 
+from posebridge.arrays import Int16Array
 from posebridge.cell.external_kinematics import ExternalChoice, choose_external_value
 from posebridge.cell.model import Branch
 from posebridge.cell.quality import (
-    SCORE_RULE,
     ConfigurationQuality,
     branch_score,
     branch_score_terms,
-    branch_words,
     evaluate_configurations,
     full_branch_words,
-    part_word,
 )
 from posebridge.cell.scene import Scene, TargetSet, posed_scene
 from posebridge.cell.target_fixture import target_fixture_distances
@@ -73,38 +74,28 @@ from posebridge.cell.thresholds import QualityThresholds
 from posebridge.kinematics.branches import BRANCH_LABELS, branch_geometry, labels_match
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.kinematics.ik.solutions import REASON_NO_WITHIN_LIMITS
-from posebridge.results.cell import (
-    BranchCoverage,
-    ConsistentBranch,
-    ExternalAxisIntervals,
-    Finding,
-    PoseCheck,
-    PoseKind,
-    TargetCheck,
-    TargetCheckReport,
-    group_findings,
-)
-from posebridge.results.quality import (
-    branch_report,
-    geometry_findings,
-    quality_findings,
-)
-from posebridge.transforms import invert_transform, rpy_from_rotation_matrix
-from posebridge.units import BoolArray, deg_from_rad, joint_unit_labels, mm_from_m
+from posebridge.transforms import invert_transform
+from posebridge.units import BoolArray, FloatArray, joint_value_text, length_text
 
 __all__ = [
     "REASON_ALL_COLLIDE",
     "REASON_REQUIRED_BRANCH",
+    "BranchCover",
+    "CheckedPose",
+    "CheckedTarget",
+    "GroupCheck",
+    "TargetCheckData",
+    "branch_triple",
     "check_targets",
     "required_branch_words",
+    "robot_branches",
 ]
 
 REASON_REQUIRED_BRANCH = "required branch unavailable"
 REASON_ALL_COLLIDE = "every in-limit branch collides"
 
 Triple = tuple[int, int, int]
-
-_SEVERITY_ORDER = {"error": 0, "warning": 1, "info": 2}
+PoseKind = Literal["target", "approach"]
 
 
 def required_branch_words(branch: Branch | None) -> str | None:
@@ -120,7 +111,7 @@ def _compatible(a: Triple, b: Triple) -> bool:
     return all(x == y or x == 0 or y == 0 for x, y in zip(a, b, strict=True))
 
 
-def _robot_branches(scheme: str) -> list[Triple]:
+def robot_branches(scheme: str) -> list[Triple]:
     """Every branch of a label scheme, in the stable order (front, up, positive first)."""
     if scheme == "arm":
         return [(s, e, w) for s, e, w in product((1, -1), repeat=3)]
@@ -129,22 +120,157 @@ def _robot_branches(scheme: str) -> list[Triple]:
     return [(0, 0, 0)]
 
 
+def branch_triple(quality: ConfigurationQuality, k: int) -> Triple:
+    """Return the shoulder, elbow and wrist labels of configuration ``k``."""
+    return (int(quality.shoulder[k]), int(quality.elbow[k]), int(quality.wrist[k]))
+
+
 @dataclass(frozen=True, eq=False)
-class _Pose:
-    """One checked pose (a target or its approach pose) and its IK solutions.
+class CheckedPose:
+    """One checked pose (a target or its approach pose), its IK solutions and the decision.
 
     Attributes
     ----------
     kind : "target" or "approach"
     target : int
-        Index of the target in the scene.
+        Index of the target in the checked scene.
     number : int
-        Index of the pose in the IK batch.
+        Index of the pose in the IK batch (row of :attr:`GroupCheck.T_world`).
     slots : list of int
         Indices into the evaluated batch of its valid IK solutions, in IK order.
-    reason_ik : str
-        The IK's reason when no solution is valid within limits.
+    reason : str
+        Why it is not reachable (module docstring); empty when it is.
+    recommended : int or None
+        The recommended solution (index into the batch); None when not reachable.
+    fallback : int or None
+        For a pose not reachable: its best in-limit solution on the required branch, if any.
+    recommended_reason : str
+        Why the recommended solution was chosen, in words; empty when there is none.
     """
+
+    kind: PoseKind
+    target: int
+    number: int
+    slots: list[int]
+    reason: str
+    recommended: int | None
+    fallback: int | None
+    recommended_reason: str
+
+
+@dataclass(frozen=True, eq=False)
+class CheckedTarget:
+    """The check of one target and its approach pose.
+
+    Attributes
+    ----------
+    target : CheckedPose
+    approach : CheckedPose or None
+        None for a target without approach offset.
+    usable_triples : list of tuple of int
+        Branches (shoulder, elbow, wrist labels) on which the target and its approach pose
+        are both usable.
+    approach_off_branch : bool
+        The approach pose is usable only off the target's recommended branch.
+    fixture_distance_m : float
+        Distance of the TCP point from its fixture's solid; NaN without one.
+    """
+
+    target: CheckedPose
+    approach: CheckedPose | None
+    usable_triples: list[Triple]
+    approach_off_branch: bool
+    fixture_distance_m: float
+
+
+@dataclass(frozen=True)
+class BranchCover:
+    """Which targets one branch reaches clear (with their approach poses).
+
+    Attributes
+    ----------
+    triple : tuple of int
+        Shoulder, elbow and wrist labels.
+    targets_clear, targets_breaking : list of str
+        Target names usable on it, and the others.
+    """
+
+    triple: Triple
+    targets_clear: list[str]
+    targets_breaking: list[str]
+
+
+@dataclass(frozen=True, eq=False)
+class GroupCheck:
+    """The target check of one scene (all its targets checked together), SI units.
+
+    Attributes
+    ----------
+    scene : Scene
+        The checked scene (posed at the group's external axis values).
+    scheme : str
+        The robot's branch label scheme.
+    T_world : array, shape (P, 4, 4)
+        Every checked pose in the world, m.
+    quality : ConfigurationQuality
+        Of every valid IK solution of every pose (S solutions).
+    slot_revolutions : array of int, shape (S, n)
+        Extra whole revolutions of each solution.
+    matches : array of bool, shape (S,)
+        On its target's required branch.
+    usable : array of bool, shape (S,)
+        Within limits, collision-free and on the required branch.
+    score : array, shape (S,)
+        :func:`~posebridge.cell.quality.branch_score`.
+    targets : list of CheckedTarget
+        In the scene's target order.
+    coverage : list of BranchCover
+        Every branch of the robot, most targets clear first.
+    """
+
+    scene: Scene
+    scheme: str
+    T_world: FloatArray
+    quality: ConfigurationQuality
+    slot_revolutions: Int16Array
+    matches: BoolArray
+    usable: BoolArray
+    score: FloatArray
+    targets: list[CheckedTarget]
+    coverage: list[BranchCover]
+
+
+@dataclass(frozen=True, eq=False)
+class TargetCheckData:
+    """The target check of a cell (module docstring), SI units.
+
+    Attributes
+    ----------
+    scene : Scene
+    thresholds : QualityThresholds
+        The thresholds used.
+    groups : list of GroupCheck
+        One group of every target without external axes; with them, one per set of
+        external values, each of the targets checked there.
+    members : list of list of int
+        Index in the scene of each group's targets.
+    choices : list of ExternalChoice
+        The external values chosen per target; empty without external axes.
+    coverage : list of BranchCover
+        Every branch of the robot over all targets, most targets clear first.
+    """
+
+    scene: Scene
+    thresholds: QualityThresholds
+    groups: list[GroupCheck]
+    members: list[list[int]]
+    choices: list[ExternalChoice]
+    coverage: list[BranchCover]
+
+
+@dataclass(frozen=True, eq=False)
+class _Pose:
+    """One pose of the IK batch before the decision (fields as in :class:`CheckedPose`)."""
 
     kind: PoseKind
     target: int
@@ -153,12 +279,27 @@ class _Pose:
     reason_ik: str
 
 
-def _triple(quality: ConfigurationQuality, k: int) -> Triple:
-    return (int(quality.shoulder[k]), int(quality.elbow[k]), int(quality.wrist[k]))
+def _sorted_coverage(
+    scheme: str, names: tuple[str, ...], covered: dict[Triple, list[bool]]
+) -> list[BranchCover]:
+    """Coverage rows of every branch of ``scheme``, most targets clear first (stable).
+
+    ``covered[triple][i]`` tells that target ``i`` is usable on the branch ``triple``.
+    """
+    rows = [
+        BranchCover(
+            triple=triple,
+            targets_clear=[n for n, c in zip(names, covered[triple], strict=True) if c],
+            targets_breaking=[n for n, c in zip(names, covered[triple], strict=True) if not c],
+        )
+        for triple in robot_branches(scheme)
+    ]
+    rows.sort(key=lambda row: -len(row.targets_clear))
+    return rows
 
 
 class _Checker:
-    """The target check of one scene (module docstring); :meth:`run` builds the report."""
+    """The target check of one scene (module docstring); :meth:`run` returns its SI result."""
 
     def __init__(self, scene: Scene, thresholds: QualityThresholds) -> None:
         self.scene = scene
@@ -203,7 +344,6 @@ class _Checker:
         self._any_masks: dict[tuple[Triple, ...], BoolArray] = {}
         self.matches = self._matches(pose_index)
         self.usable = self.quality.within_limits & self.quality.collision_free & self.matches
-        self.findings: list[Finding] = []
 
     def _matches(self, pose_index: np.ndarray) -> BoolArray:
         """Tell whether each solution is on its target's required branch, shape (S,).
@@ -251,104 +391,24 @@ class _Checker:
         return candidates[int(np.argmax(scores))]
 
     def _usable_triples(self, pose: _Pose) -> list[Triple]:
-        return list(dict.fromkeys(_triple(self.quality, k) for k in pose.slots if self.usable[k]))
+        return list(
+            dict.fromkeys(branch_triple(self.quality, k) for k in pose.slots if self.usable[k])
+        )
 
-    def _pose_check(self, pose: _Pose, recommended: int | None, reason: str) -> PoseCheck:
-        quality = self.quality
-        rpy = rpy_from_rotation_matrix(self.T_world[pose.number, :3, :3], degrees=True)
-        reports = [
-            branch_report(
-                quality,
-                k,
-                branch=full_branch_words(quality, k, self.slot_revolutions[k]),
-                revolutions=self.slot_revolutions[k],
-                matches_required_branch=bool(self.matches[k]),
-                score=float(self.score[k]) if self.usable[k] else None,
-            )
-            for k in pose.slots
-        ]
-        index = None if recommended is None else pose.slots.index(recommended)
-        return PoseCheck(
+    def _checked(self, pose: _Pose, recommended: int | None, reason: str) -> CheckedPose:
+        """Decide about ``pose``: its recommended solution and why, or why there is none."""
+        fallback = None
+        if recommended is None:
+            fallback = self._best(pose.slots, self.quality.within_limits & self.matches)
+        return CheckedPose(
             kind=pose.kind,
-            position_mm=mm_from_m(self.T_world[pose.number, :3, 3]).tolist(),
-            rpy_deg=rpy.tolist(),
-            reachable=recommended is not None,
+            target=pose.target,
+            number=pose.number,
+            slots=pose.slots,
             reason=self._reason(pose),
-            branches=reports,
-            recommended=index,
-            recommended_branch=None if index is None else reports[index].branch,
+            recommended=recommended,
+            fallback=fallback,
             recommended_reason=reason,
-        )
-
-    # --- findings ---------------------------------------------------------------------
-
-    def _add_quality(self, k: int, name: str, kind: PoseKind, context: str) -> None:
-        branch = full_branch_words(self.quality, k, self.slot_revolutions[k])
-        self.findings.extend(
-            quality_findings(
-                self.quality, k, target=name, pose=kind, branch=branch, context=context
-            )
-        )
-
-    def _unreachable(self, pose: _Pose, name: str) -> None:
-        reason = self._reason(pose)
-        detail = ""
-        slots = pose.slots
-        if reason == REASON_REQUIRED_BRANCH:
-            required = required_branch_words(self.scene.targets.branches[pose.target])
-            within = [
-                branch_words(self.scheme, *_triple(self.quality, k))
-                for k in slots
-                if self.quality.within_limits[k]
-            ]
-            detail = (
-                f": required {required}; within limits only on {'; '.join(dict.fromkeys(within))}"
-            )
-        elif reason == REASON_ALL_COLLIDE:
-            keep = self.quality.within_limits & self.matches
-            best = self._best(slots, keep)
-            if best is not None:
-                detail = (
-                    f" (best branch {full_branch_words(self.quality, best, self.slot_revolutions[best])}"
-                    f" has clearance {float(mm_from_m(self.quality.clearance[best])):.1f} mm)"
-                )
-        what = "target" if pose.kind == "target" else "approach pose"
-        self.findings.append(
-            Finding(
-                severity="error",
-                code="unreachable",
-                target=name,
-                pose=pose.kind,
-                message=f"{what} not reachable: {reason}{detail}",
-            )
-        )
-
-    def _branch_limited(self, pose: _Pose, name: str) -> None:
-        """Info when every in-limit solution shares one shoulder and elbow (wrist may vary)."""
-        if self.scheme == "none":
-            return
-        within = [k for k in pose.slots if self.quality.within_limits[k]]
-        arms = {(int(self.quality.shoulder[k]), int(self.quality.elbow[k])) for k in within}
-        if len(arms) != 1 or len(_robot_branches(self.scheme)) < 2:
-            return
-        shoulder, elbow = next(iter(arms))
-        if self.scheme == "arm":
-            wrists = sorted({int(self.quality.wrist[k]) for k in within}, reverse=True)
-            signs = ", ".join(part_word("arm", "wrist", w) for w in wrists)
-            words = (
-                f"the shoulder {part_word('arm', 'shoulder', shoulder)} and the elbow "
-                f"{part_word('arm', 'elbow', elbow)} (wrist: {signs})"
-            )
-        else:
-            words = f"the elbow {part_word(self.scheme, 'elbow', elbow)}"
-        self.findings.append(
-            Finding(
-                severity="info",
-                code="branch-limited",
-                target=name,
-                pose="target",
-                message=f"within the joint limits only with {words}",
-            )
         )
 
     # --- the whole check ----------------------------------------------------------------
@@ -377,47 +437,25 @@ class _Checker:
 
     def _choose(
         self, target: _Pose, approach: _Pose | None, triples: list[Triple], common: Triple | None
-    ) -> tuple[int | None, int | None]:
-        """Recommended target and approach solutions (module docstring)."""
+    ) -> tuple[int | None, int | None, bool]:
+        """Recommended target and approach solutions (module docstring).
+
+        The third value tells that the approach pose is usable only off the target's branch.
+        """
         on_common = [t for t in triples if common is not None and _compatible(t, common)]
         triples = on_common or triples
         keep = self.usable & self._on_any(triples) if triples else self.usable
         best_target = self._best(target.slots, keep)
         if approach is None:
-            return best_target, None
+            return best_target, None, False
         if best_target is None:
-            return None, self._best(approach.slots, self.usable)
-        own = _triple(self.quality, best_target)
+            return None, self._best(approach.slots, self.usable), False
+        own = branch_triple(self.quality, best_target)
         best_approach = self._best(approach.slots, self.usable & self._on_branch(own))
         if best_approach is None:
             best_approach = self._best(approach.slots, self.usable)
-            if best_approach is not None:
-                self.findings.append(
-                    Finding(
-                        severity="warning",
-                        code="approach-branch",
-                        target=self.scene.targets.names[target.target],
-                        pose="approach",
-                        branch=full_branch_words(
-                            self.quality, best_target, self.slot_revolutions[best_target]
-                        ),
-                        message="approach pose not reachable on the target's recommended "
-                        "branch; a straight approach move would have to change branch",
-                    )
-                )
-        return best_target, best_approach
-
-    def _pose_findings(self, pose: _Pose, best: int | None, name: str) -> None:
-        """Unreachable error, or the quality findings of the recommended solution."""
-        if best is not None:
-            words = full_branch_words(self.quality, best, self.slot_revolutions[best])
-            self._add_quality(best, name, pose.kind, f"on recommended branch {words}: ")
-            return
-        self._unreachable(pose, name)
-        fallback = self._best(pose.slots, self.quality.within_limits & self.matches)
-        if fallback is not None:
-            words = full_branch_words(self.quality, fallback, self.slot_revolutions[fallback])
-            self._add_quality(fallback, name, pose.kind, f"on the best in-limit branch {words}: ")
+            return best_target, best_approach, best_approach is not None
+        return best_target, best_approach, False
 
     def _term_words(self, k: int, term: int) -> str:
         """Describe the score term ``term`` (0 margin, 1 clearance, 2 singularity) of solution ``k``."""
@@ -425,13 +463,10 @@ class _Checker:
         if term == 0:
             joint = int(quality.margins.min_joint[k])
             margin = float(quality.margins.min_margin[k])
-            if self.robot.prismatic[joint]:
-                value = f"{float(mm_from_m(margin)):.1f} mm"
-            else:
-                value = f"{float(deg_from_rad(margin)):.1f}°"
+            value = joint_value_text(margin, bool(self.robot.prismatic[joint]))
             return f"largest smallest limit margin, {value} on {self.robot.joint_names[joint]}"
         if term == 1:
-            return f"largest clearance, {float(mm_from_m(quality.clearance[k])):.0f} mm"
+            return f"largest clearance, {length_text(float(quality.clearance[k]), 0)}"
         ratio = quality.singularity_ratio()
         if ratio is None:
             return "farthest from a singularity"
@@ -451,11 +486,11 @@ class _Checker:
         """
         if best is None:
             return ""
-        own = _triple(self.quality, best)
+        own = branch_triple(self.quality, best)
         others = [
             k
             for k in pose.slots
-            if self.usable[k] and not _compatible(_triple(self.quality, k), own)
+            if self.usable[k] and not _compatible(branch_triple(self.quality, k), own)
         ]
         if not others:
             parts = ["the only usable branch"]
@@ -475,28 +510,7 @@ class _Checker:
             parts.append(on_text if _compatible(own, anchor) else off_text)
         return "; ".join(parts)
 
-    def _fixture_finding(self, i: int, distance_m: float) -> None:
-        """Warn when target ``i`` is farther than the threshold from its fixture."""
-        limit_mm = self.thresholds.fixture_distance_mm
-        distance_mm = float(mm_from_m(distance_m))
-        if not distance_mm > limit_mm:
-            return
-        fixture = self.scene.targets.fixtures[i]
-        self.findings.append(
-            Finding(
-                severity="warning",
-                code="off-fixture",
-                target=self.scene.targets.names[i],
-                pose="target",
-                message=f"{distance_mm:.0f} mm from its fixture {fixture} (more than "
-                f"{limit_mm:.0f} mm): moved off the fixture it belongs to?",
-                value=distance_mm,
-                unit="mm",
-                threshold=limit_mm,
-            )
-        )
-
-    def run(self) -> TargetCheckReport:
+    def run(self) -> GroupCheck:
         scene = self.scene
         names = scene.targets.names
         by_target: dict[int, dict[str, _Pose]] = {}
@@ -510,49 +524,33 @@ class _Checker:
                 reached = self._usable_triples(approach)
                 triples = [t for t in triples if any(_compatible(t, a) for a in reached)]
             usable_triples[i] = triples
-        coverage = self._coverage(usable_triples)
+        covered = {
+            triple: [
+                any(_compatible(triple, t) for t in usable_triples[i]) for i in range(len(names))
+            ]
+            for triple in robot_branches(self.scheme)
+        }
+        coverage = _sorted_coverage(self.scheme, names, covered)
         common = next(
-            (
-                (row.shoulder, row.elbow, row.wrist)
-                for row in coverage.coverage[:1]
-                if row.targets_clear
-            ),
+            (row.triple for row in coverage[:1] if row.targets_clear),
             None,
         )
         common_text = (
             ""
-            if not coverage.coverage
-            else f"same branch as {len(coverage.coverage[0].targets_clear)} of {len(names)} targets"
+            if not coverage
+            else f"same branch as {len(coverage[0].targets_clear)} of {len(names)} targets"
         )
-        chosen = {
-            i: self._choose(
-                by_target[i]["target"], by_target[i].get("approach"), usable_triples[i], common
-            )
-            for i in range(len(names))
-        }
         fixture_distances = target_fixture_distances(scene)
-        checks: list[TargetCheck] = []
-        for i, name in enumerate(names):
+        checked: list[CheckedTarget] = []
+        for i in range(len(names)):
             target = by_target[i]["target"]
             approach = by_target[i].get("approach")
-            best_target, best_approach = chosen[i]
-            self._pose_findings(target, best_target, name)
-            if approach is not None:
-                self._pose_findings(approach, best_approach, name)
-            self._branch_limited(target, name)
-            self._fixture_finding(i, float(fixture_distances[i]))
-            checks.append(
-                TargetCheck(
-                    name=name,
-                    fixture=scene.targets.fixtures[i],
-                    required_branch=required_branch_words(scene.targets.branches[i]),
-                    approach_offset_mm=float(mm_from_m(scene.targets.approach_offset[i])),
-                    fixture_distance_mm=None
-                    if np.isnan(fixture_distances[i])
-                    else float(mm_from_m(fixture_distances[i])),
-                    reachable=bool(usable_triples[i]),
-                    usable_branches=[branch_words(self.scheme, *t) for t in usable_triples[i]],
-                    target=self._pose_check(
+            best_target, best_approach, off_branch = self._choose(
+                target, approach, usable_triples[i], common
+            )
+            checked.append(
+                CheckedTarget(
+                    target=self._checked(
                         target,
                         best_target,
                         self._why(
@@ -565,125 +563,39 @@ class _Checker:
                     ),
                     approach=None
                     if approach is None
-                    else self._pose_check(
+                    else self._checked(
                         approach,
                         best_approach,
                         self._why(
                             approach,
                             best_approach,
-                            None if best_target is None else _triple(self.quality, best_target),
+                            None
+                            if best_target is None
+                            else branch_triple(self.quality, best_target),
                             "the target's branch (a straight approach move keeps it)",
                             "not the target's branch",
                         ),
                     ),
+                    usable_triples=usable_triples[i],
+                    approach_off_branch=off_branch,
+                    fixture_distance_m=float(fixture_distances[i]),
                 )
             )
-        self.findings.extend(_coverage_findings(coverage, len(names)))
-        self._open_mesh_findings()
-        self.findings += geometry_findings(self.robot)
-        findings = sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity])
-        return TargetCheckReport(
-            cell=scene.cell.title,
-            robot=self.robot.name,
-            tool=scene.tool_name,
-            joint_names=list(self.robot.joint_names),
-            joint_units=joint_unit_labels(self.robot.prismatic),
-            thresholds=self.thresholds,
-            score_rule=SCORE_RULE,
-            targets=checks,
-            consistent_branch=coverage,
-            findings=findings,
-            finding_groups=group_findings(findings),
-            reachable_count=sum(check.reachable for check in checks),
-            error_count=sum(f.severity == "error" for f in findings),
-            warning_count=sum(f.severity == "warning" for f in findings),
-            info_count=sum(f.severity == "info" for f in findings),
-            robot_geometry_missing=self.robot.geometry_missing,
+        return GroupCheck(
+            scene=scene,
+            scheme=self.scheme,
+            T_world=self.T_world,
+            quality=self.quality,
+            slot_revolutions=self.slot_revolutions,
+            matches=self.matches,
+            usable=self.usable,
+            score=self.score,
+            targets=checked,
+            coverage=coverage,
         )
 
-    def _coverage(self, usable_triples: dict[int, list[Triple]]) -> ConsistentBranch:
-        names = self.scene.targets.names
-        rows = []
-        for triple in _robot_branches(self.scheme):
-            covered = [
-                any(_compatible(triple, t) for t in usable_triples[i]) for i in range(len(names))
-            ]
-            rows.append(
-                BranchCoverage(
-                    branch=branch_words(self.scheme, *triple),
-                    shoulder=triple[0],
-                    elbow=triple[1],
-                    wrist=triple[2],
-                    targets_clear=[n for n, c in zip(names, covered, strict=True) if c],
-                    targets_breaking=[n for n, c in zip(names, covered, strict=True) if not c],
-                )
-            )
-        rows.sort(key=lambda row: -len(row.targets_clear))
-        best = rows[0] if rows and names else None
-        return ConsistentBranch(
-            consistent=best is not None and not best.targets_breaking,
-            branch=None if best is None else best.branch,
-            breaking_targets=[] if best is None else best.targets_breaking,
-            coverage=rows,
-        )
 
-    def _open_mesh_findings(self) -> None:
-        """Add a note per mesh fixture that is not a closed surface: its clearance is unsigned."""
-        meshes = self.scene.meshes
-        for name, mesh in zip(meshes.names, meshes.meshes, strict=True):
-            if not mesh.is_closed:
-                self.findings.append(
-                    Finding(
-                        severity="info",
-                        code="open-mesh",
-                        target=None,
-                        message=f"mesh fixture {name!r} is not a closed surface: clearance to it "
-                        "is measured to its triangles, unsigned (an arm inside it is not seen as "
-                        "inside)",
-                    )
-                )
-
-
-def _coverage_findings(coverage: ConsistentBranch, count: int) -> list[Finding]:
-    """Return the consistent-branch finding of a coverage (info, or a warning when none covers all)."""
-    if count == 0:
-        return [
-            Finding(
-                severity="info",
-                code="consistent-branch",
-                target=None,
-                message="the cell has no targets",
-            )
-        ]
-    if coverage.consistent:
-        every = [row.branch for row in coverage.coverage if not row.targets_breaking]
-        return [
-            Finding(
-                severity="info",
-                code="consistent-branch",
-                target=None,
-                branch=coverage.branch,
-                message="every target and approach pose is reachable and clear on one branch: "
-                + "; ".join(every),
-            )
-        ]
-    best = coverage.coverage[0]
-    return [
-        Finding(
-            severity="warning",
-            code="inconsistent-branch",
-            target=None,
-            branch=best.branch,
-            message=f"no single branch reaches every target clear; {best.branch} reaches "
-            f"{len(best.targets_clear)} of {count}, not: {', '.join(best.targets_breaking)}",
-            value=float(len(best.targets_clear)),
-            unit="targets",
-            threshold=float(count),
-        )
-    ]
-
-
-def check_targets(scene: Scene, thresholds: QualityThresholds | None = None) -> TargetCheckReport:
+def check_targets(scene: Scene, thresholds: QualityThresholds | None = None) -> TargetCheckData:
     """Check every target (and approach pose) of a cell: reach, branches, quality, consistency.
 
     Method in the module docstring.
@@ -697,13 +609,22 @@ def check_targets(scene: Scene, thresholds: QualityThresholds | None = None) -> 
 
     Returns
     -------
-    TargetCheckReport
-        Boundary units (mm, deg).
+    TargetCheckData
+        SI units; :func:`posebridge.results.target_check.target_check_result` makes the
+        report (mm, deg).
     """
     thresholds = scene.cell.thresholds if thresholds is None else thresholds
     if scene.external.count:
         return _check_with_external_axes(scene, thresholds)
-    return _Checker(scene, thresholds).run()
+    group = _Checker(scene, thresholds).run()
+    return TargetCheckData(
+        scene=scene,
+        thresholds=thresholds,
+        groups=[group],
+        members=[list(range(len(scene.targets.names)))],
+        choices=[],
+        coverage=group.coverage,
+    )
 
 
 def _target_subset(targets: TargetSet, members: list[int]) -> TargetSet:
@@ -717,36 +638,13 @@ def _target_subset(targets: TargetSet, members: list[int]) -> TargetSet:
     )
 
 
-def _external_fields(scene: Scene, choice: ExternalChoice) -> dict[str, object]:
-    """Return the external-axis fields of one target's check, in boundary units."""
-    external = scene.external
-    values = external.user_from_si(choice.values)
-    listed = []
-    for axis, found in choice.intervals.items():
-        scale = mm_from_m(1.0) if external.prismatic[axis] else deg_from_rad(1.0)
-        for triple, spans in zip(found.branches, found.intervals[0], strict=True):
-            listed.append(
-                ExternalAxisIntervals(
-                    axis=external.names[axis],
-                    unit=external.units[axis],
-                    branch=branch_words(branch_geometry(scene.robot).scheme, *triple),
-                    intervals=(np.asarray(spans) * float(scale)).tolist(),
-                )
-            )
-    return {
-        "external_axes": {name: float(v) for name, v in zip(external.names, values, strict=True)},
-        "external_pinned": list(choice.pinned),
-        "external_intervals": listed,
-    }
-
-
-def _check_with_external_axes(scene: Scene, thresholds: QualityThresholds) -> TargetCheckReport:
+def _check_with_external_axes(scene: Scene, thresholds: QualityThresholds) -> TargetCheckData:
     """Target check of a cell with external axes.
 
     Each target gets its external values from
     :func:`~posebridge.cell.external_kinematics.choose_external_value` (targets in file
     order, each starting from the previous one's values); targets sharing values are
-    checked together in the scene posed there (the check above, common-branch warnings
+    checked together in the scene posed there (the check above, common-branch choice
     per group), and the groups' branch coverage is merged into one consistent-branch
     analysis over all targets.
     """
@@ -757,71 +655,27 @@ def _check_with_external_axes(scene: Scene, thresholds: QualityThresholds) -> Ta
         choice = choose_external_value(scene, i, previous=previous, thresholds=thresholds)
         choices.append(choice)
         previous = choice.values
-    groups: dict[tuple[float, ...], list[int]] = {}
+    by_values: dict[tuple[float, ...], list[int]] = {}
     for i, choice in enumerate(choices):
-        groups.setdefault(tuple(choice.values.tolist()), []).append(i)
-    checks: dict[int, TargetCheck] = {}
-    findings: list[Finding] = []
-    clear: dict[str, set[str]] = {}
-    template: TargetCheckReport | None = None
-    for values, members in groups.items():
+        by_values.setdefault(tuple(choice.values.tolist()), []).append(i)
+    groups: list[GroupCheck] = []
+    clear: dict[Triple, set[str]] = {}
+    for values, members in by_values.items():
         posed = posed_scene(scene, np.array(values))
         posed = replace(posed, targets=_target_subset(posed.targets, members))
-        report = _Checker(posed, thresholds).run()
-        template = report if template is None else template
-        for i, check in zip(members, report.targets, strict=True):
-            checks[i] = check.model_copy(update=_external_fields(scene, choices[i]))
-        findings += [
-            f
-            for f in report.findings
-            if f.code not in ("consistent-branch", "inconsistent-branch") and f not in findings
-        ]
-        for row in report.consistent_branch.coverage:
-            clear.setdefault(row.branch, set()).update(row.targets_clear)
+        group = _Checker(posed, thresholds).run()
+        groups.append(group)
+        for row in group.coverage:
+            clear.setdefault(row.triple, set()).update(row.targets_clear)
     scheme = branch_geometry(scene.robot).scheme
-    rows = []
-    for triple in _robot_branches(scheme):
-        words = branch_words(scheme, *triple)
-        covered = clear.get(words, set())
-        rows.append(
-            BranchCoverage(
-                branch=words,
-                shoulder=triple[0],
-                elbow=triple[1],
-                wrist=triple[2],
-                targets_clear=[n for n in names if n in covered],
-                targets_breaking=[n for n in names if n not in covered],
-            )
-        )
-    rows.sort(key=lambda row: -len(row.targets_clear))
-    best = rows[0] if rows and names else None
-    coverage = ConsistentBranch(
-        consistent=best is not None and not best.targets_breaking,
-        branch=None if best is None else best.branch,
-        breaking_targets=[] if best is None else best.targets_breaking,
-        coverage=rows,
-    )
-    findings = sorted(
-        findings + _coverage_findings(coverage, len(names)),
-        key=lambda f: _SEVERITY_ORDER[f.severity],
-    )
-    ordered = [checks[i] for i in range(len(names))]
-    return TargetCheckReport(
-        cell=scene.cell.title,
-        robot=scene.robot.name,
-        tool=scene.tool_name,
-        joint_names=list(scene.robot.joint_names),
-        joint_units=joint_unit_labels(scene.robot.prismatic),
+    covered = {
+        triple: [n in clear.get(triple, set()) for n in names] for triple in robot_branches(scheme)
+    }
+    return TargetCheckData(
+        scene=scene,
         thresholds=thresholds,
-        score_rule=SCORE_RULE,
-        targets=ordered,
-        external_axis_names=list(scene.external.names),
-        external_axis_units=scene.external.units,
-        consistent_branch=coverage,
-        findings=findings,
-        finding_groups=group_findings(findings),
-        reachable_count=sum(check.reachable for check in ordered),
-        error_count=sum(f.severity == "error" for f in findings),
-        warning_count=sum(f.severity == "warning" for f in findings),
-        info_count=sum(f.severity == "info" for f in findings),
+        groups=groups,
+        members=list(by_values.values()),
+        choices=choices,
+        coverage=_sorted_coverage(scheme, names, covered),
     )

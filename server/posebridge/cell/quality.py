@@ -62,9 +62,6 @@ from posebridge.robot.model import Robot
 from posebridge.units import (
     BoolArray,
     FloatArray,
-    joints_si_from_user,
-    m_from_mm,
-    rad_from_deg,
 )
 
 __all__ = [
@@ -195,16 +192,15 @@ class ConfigurationQuality:
 def singularity_thresholds(thresholds: QualityThresholds) -> SingularityThresholds:
     """Return the singularity thresholds of ``thresholds`` in SI units."""
     return SingularityThresholds(
-        wrist_rad=float(rad_from_deg(thresholds.wrist_deg)),
-        elbow_rad=float(rad_from_deg(thresholds.elbow_deg)),
-        shoulder_m=float(m_from_mm(thresholds.shoulder_mm)),
+        wrist_rad=thresholds.wrist_rad,
+        elbow_rad=thresholds.elbow_rad,
+        shoulder_m=thresholds.shoulder_m,
     )
 
 
 def margin_thresholds(robot: Robot, thresholds: QualityThresholds) -> FloatArray:
     """Limit-margin warning threshold per joint, rad or m, shape (n,)."""
-    values = np.where(robot.prismatic, thresholds.limit_margin_mm, thresholds.limit_margin_deg)
-    return joints_si_from_user(values, robot.prismatic)
+    return thresholds.limit_margin(robot.prismatic)
 
 
 def evaluate_configurations(
@@ -282,7 +278,7 @@ def branch_score_terms(quality: ConfigurationQuality) -> FloatArray:
     """
     t = quality.thresholds
     margin = np.clip(quality.margins.min_fraction / t.score_margin_fraction, 0.0, 1.0)
-    clearance = np.clip(quality.clearance / float(m_from_mm(t.score_clearance_mm)), 0.0, 1.0)
+    clearance = np.clip(quality.clearance / t.score_clearance_m, 0.0, 1.0)
     ratio = quality.singularity_ratio()
     if ratio is None:
         singular = np.clip(quality.inverse_condition, 0.0, 1.0)
@@ -311,7 +307,7 @@ def proximity_ratio(quality: ConfigurationQuality) -> FloatArray:
     """
     robot = quality.robot
     t = quality.thresholds
-    terms = [quality.clearance / float(m_from_mm(t.clearance_mm))]
+    terms = [quality.clearance / t.clearance_m]
     limited = ~robot.continuous
     if np.any(limited):
         per_joint = quality.margins.margin[:, limited] / margin_thresholds(robot, t)[limited]

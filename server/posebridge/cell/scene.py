@@ -387,7 +387,7 @@ class Scene:
 
 def _pose_si(position_mm: npt.ArrayLike, rpy_deg: npt.ArrayLike) -> FloatArray:
     """Return transforms from positions (mm) and fixed-axis X-Y-Z rpy (deg), shape (..., 4, 4)."""
-    return transform_from_position_rpy(m_from_mm(position_mm), rpy_deg, degrees=True)
+    return transform_from_position_rpy(m_from_mm(position_mm), rad_from_deg(rpy_deg))
 
 
 def _translation_z(distance: npt.ArrayLike) -> FloatArray:

@@ -2,14 +2,20 @@
 
 :class:`QualityThresholds` is part of the cell file (its ``thresholds`` table)
 and of the requests that override it, and every result of a check repeats the
-set it was run with. The checks read it in SI units through
-:func:`posebridge.cell.quality.singularity_thresholds` and
-:func:`posebridge.cell.quality.margin_thresholds`.
+set it was run with. Its fields are in millimetres and degrees because they
+are the cell file's; this is where they enter the computation: the checks read
+them in SI units only, through the properties ending in ``_m``/``_rad`` and
+:meth:`QualityThresholds.limit_margin` (and
+:func:`posebridge.cell.quality.singularity_thresholds`,
+:func:`posebridge.cell.quality.margin_thresholds` built on them).
 """
 
 from __future__ import annotations
 
+import numpy as np
 from pydantic import BaseModel, ConfigDict, Field
+
+from posebridge.units import BoolArray, FloatArray, joints_si_from_user, m_from_mm, rad_from_deg
 
 __all__ = ["QualityThresholds"]
 
@@ -75,3 +81,41 @@ class QualityThresholds(BaseModel):
         description="Target check: warn when a target's TCP point is farther than this from "
         "the solid of the fixture it belongs to (moved off its fixture).",
     )
+
+    # --- the same thresholds in SI units, for the computation ------------------------------
+
+    @property
+    def clearance_m(self) -> float:
+        """:attr:`clearance_mm` in metres."""
+        return float(m_from_mm(self.clearance_mm))
+
+    @property
+    def score_clearance_m(self) -> float:
+        """:attr:`score_clearance_mm` in metres."""
+        return float(m_from_mm(self.score_clearance_mm))
+
+    @property
+    def wrist_rad(self) -> float:
+        """:attr:`wrist_deg` in radians."""
+        return float(rad_from_deg(self.wrist_deg))
+
+    @property
+    def elbow_rad(self) -> float:
+        """:attr:`elbow_deg` in radians."""
+        return float(rad_from_deg(self.elbow_deg))
+
+    @property
+    def shoulder_m(self) -> float:
+        """:attr:`shoulder_mm` in metres."""
+        return float(m_from_mm(self.shoulder_mm))
+
+    def limit_margin(self, prismatic: BoolArray) -> FloatArray:
+        """Limit-margin warning threshold per joint, rad or m, shape (n,).
+
+        Parameters
+        ----------
+        prismatic : array of bool, shape (n,)
+            :attr:`limit_margin_mm` for these joints, :attr:`limit_margin_deg` for the others.
+        """
+        values = np.where(prismatic, self.limit_margin_mm, self.limit_margin_deg)
+        return joints_si_from_user(values, prismatic)

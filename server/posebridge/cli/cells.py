@@ -23,6 +23,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
     from posebridge.geometry.warm import warm_geometry
     from posebridge.kinematics.warm import warm_kinematics
     from posebridge.results.cell_text import render_target_check
+    from posebridge.results.target_check import target_check_result
 
     scene = load_scene(args.cell, quiet=args.quiet)
     load_kernels(
@@ -32,7 +33,7 @@ def _cmd_check(args: argparse.Namespace) -> int:
         ],
         quiet=args.quiet,
     )
-    report = check_targets(scene)
+    report = target_check_result(check_targets(scene))
     return print_results(report, render_target_check, as_json=args.json)
 
 
@@ -42,12 +43,13 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
     from posebridge.cell.pose_diagnosis import diagnose_pose
     from posebridge.results.cell_text import render_log_diagnosis, render_pose_diagnosis
     from posebridge.results.diagnosis import pose_diagnosis_result
+    from posebridge.results.log_diagnosis import log_diagnosis_result
 
     scene = load_scene(args.cell, quiet=args.quiet)
     robot = scene.robot
     if args.log:
         log = read_joint_log(args.log, robot, external=scene.external)
-        log_result = diagnose_log(scene, log, include_rows=args.json)
+        log_result = log_diagnosis_result(diagnose_log(scene, log), include_rows=args.json)
         return print_results(log_result, render_log_diagnosis, as_json=args.json)
     if scene.external.count == 0:
         pose_result = pose_diagnosis_result(

@@ -37,7 +37,10 @@ specification). STEP files always state theirs and OpenCASCADE converts to
 metres, so they take only ``"declared"``; STL, OBJ and PLY state no unit and
 need one. :func:`suggest_length_unit` says which unit makes a bounding
 box a plausible size for cell or robot geometry. COLLADA's ``<up_axis>`` is
-not applied (trimesh does not apply it).
+not applied (trimesh does not apply it). The unit is read here, where the file
+is read, because it belongs to the file (an input conversion into metres, like
+the cell file's mm/deg in :mod:`posebridge.cell.scene`): nothing leaves this
+module in any unit but metres.
 
 **Cache.** With a :class:`~posebridge.geometry.mesh_cache.MeshCache`, the
 cleaned mesh is stored under the file's SHA-256 and the unit and scale, so a
@@ -67,7 +70,7 @@ import numpy.typing as npt
 from posebridge.geometry.errors import MeshFileError
 from posebridge.geometry.mesh_cache import MeshCache, cache_key
 from posebridge.geometry.meshes import TriangleMesh
-from posebridge.units import MM_PER_M
+from posebridge.units import m_from_mm
 
 __all__ = [
     "LENGTH_UNITS",
@@ -82,8 +85,9 @@ __all__ = [
 ]
 
 LengthUnit = Literal["m", "mm", "inch"]
-LENGTH_UNITS: dict[str, float] = {"m": 1.0, "mm": 1.0 / MM_PER_M, "inch": 0.0254}
-"""Metres per file unit (the inch is exactly 0.0254 m by definition, 1959)."""
+LENGTH_UNITS: dict[str, float] = {"m": 1.0, "mm": float(m_from_mm(1.0)), "inch": 0.0254}
+"""Metres per file unit (the inch is exactly 0.0254 m by definition, 1959): an input
+conversion, the file's own length unit read into metres where the file is read."""
 
 MESH_SUFFIXES = (".stl", ".obj", ".ply", ".glb", ".gltf", ".dae", ".step", ".stp")
 """File name endings :func:`load_mesh_file` reads (case-insensitive)."""

@@ -39,6 +39,7 @@ from posebridge.report.figures import TargetMarker, cartesian_figures, joint_map
 from posebridge.resources import data_folder
 from posebridge.results.cell import BranchReport, TargetCheck, TargetCheckReport
 from posebridge.results.path_check import PathCheckReport, SegmentReport, path_check_result
+from posebridge.results.target_check import target_check_result
 from posebridge.review.comments import (
     Comment,
     CommentStorageError,
@@ -443,7 +444,7 @@ def build_report(
     if scene is None:
         scene = resolve_scene(load_cell(path), path)
     pair = _map_joint_indices(scene, map_joints)
-    check = check_targets(scene)
+    check = target_check_result(check_targets(scene))
     shown = _shown_configuration(scene, check)
     figures: dict[str, Any] = cartesian_figures(scene, shown[0])
     map_section, figures["joint-map"] = _joint_map_section(

@@ -6,9 +6,12 @@ check``, ``posebridge diagnose``; ``--json`` dumps them with
 :mod:`posebridge.results.cell_text`) and the HTTP API, so both print the same
 fields:
 
-* :class:`TargetCheckReport` from :func:`posebridge.cell.checks.check_targets`;
-* :class:`PoseDiagnosis` from :func:`posebridge.cell.pose_diagnosis.diagnose_pose`;
-* :class:`LogDiagnosis` from :func:`posebridge.cell.log_diagnosis.diagnose_log`.
+* :class:`TargetCheckReport` from :func:`posebridge.cell.checks.check_targets`
+  (built by :func:`posebridge.results.target_check.target_check_result`);
+* :class:`PoseDiagnosis` from :func:`posebridge.cell.pose_diagnosis.diagnose_pose`
+  (built by :func:`posebridge.results.diagnosis.pose_diagnosis_result`);
+* :class:`LogDiagnosis` from :func:`posebridge.cell.log_diagnosis.diagnose_log`
+  (built by :func:`posebridge.results.log_diagnosis.log_diagnosis_result`).
 
 Units are in the field names. Joint values, margins and speeds are degrees
 (deg/s) for revolute joints and millimetres (mm/s) for prismatic joints; the

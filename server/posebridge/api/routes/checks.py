@@ -35,9 +35,11 @@ from posebridge.planning.sequence_report import optimise_path
 from posebridge.results.arm_state import ArmState, arm_state_result
 from posebridge.results.cell import LogDiagnosis, PoseDiagnosis, TargetCheckReport
 from posebridge.results.diagnosis import pose_diagnosis_result
+from posebridge.results.log_diagnosis import log_diagnosis_result
 from posebridge.results.motion_export import MotionExportReport, motion_csv, motion_export_result
 from posebridge.results.path_check import PathCheckReport, path_check_result
 from posebridge.results.sequence import SequenceReport, sequence_result
+from posebridge.results.target_check import target_check_result
 
 __all__ = ["router"]
 
@@ -65,7 +67,7 @@ async def read_target_check(cells: CellsDep, request: Request) -> TargetCheckRep
 
 
 def _check_targets(context: ComputeContext) -> TargetCheckReport:
-    return check_targets(context.cell().scene)
+    return target_check_result(check_targets(context.cell().scene))
 
 
 def _check_path(context: ComputeContext, index: int) -> PathCheckReport:
@@ -240,7 +242,7 @@ def _arm_state(context: ComputeContext, joints_deg: list[float]) -> ArmState:
 
 
 def _diagnose_log(context: ComputeContext, log: JointLog) -> LogDiagnosis:
-    return diagnose_log(context.cell().scene, log)
+    return log_diagnosis_result(diagnose_log(context.cell().scene, log))
 
 
 @router.post(
