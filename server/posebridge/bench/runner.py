@@ -10,6 +10,7 @@ import math
 from collections.abc import Callable, Mapping, Sequence
 from typing import NamedTuple
 
+from posebridge.bench.checks import bench_checks
 from posebridge.bench.clearance import bench_clearance
 from posebridge.bench.drag import bench_drag
 from posebridge.bench.external_axis import bench_external_axis
@@ -46,6 +47,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("robot mesh loading and capsule fitting", bench_mesh_load),
     Benchmark("joint-space and reach maps", bench_maps),
     Benchmark("base placement", bench_placement),
+    Benchmark("target check and log diagnosis", bench_checks),
     Benchmark("solution sequence and blended timing", bench_sequence),
     Benchmark("dashboard page load", bench_page_load),
     Benchmark("dashboard drag round trip", bench_drag),
