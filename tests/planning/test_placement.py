@@ -30,8 +30,7 @@ from posebridge.planning.placement import (
 )
 from posebridge.resources import data_folder
 from posebridge.results.path_check import path_check_result
-from posebridge.results.planning import PlacementReport
-from posebridge.results.planning_text import render_placement
+from posebridge.results.placement import PlacementReport, placement_result, render_placement
 
 L1, L2 = 0.4, 0.3  # pb-planar2r.toml link lengths, m
 J2_LIMIT = np.radians(150.0)  # pb-planar2r.toml: j2 within +-150 deg
@@ -89,7 +88,7 @@ def test_unreached_targets_say_why() -> None:
     grid = grid_around_centre(5, 50.0)
     result = search_base_placement(scene, grid, top=grid.size)
     targets = scene.targets.T_world_target[:, :2, 3]
-    for candidate in result.report.best:
+    for candidate in placement_result(result).best:
         base = np.array([candidate.x_mm, candidate.y_mm]) / 1000.0
         distance = np.hypot(*(targets - base).T)
         for target, d in zip(candidate.targets, distance, strict=True):
@@ -100,14 +99,14 @@ def test_unreached_targets_say_why() -> None:
 
 def test_best_base_is_the_circle_centre() -> None:
     scene = circle_cell()
-    result = search_base_placement(scene, grid_around_centre(11, 20.0))
-    best = result.report.best[0]
+    report = placement_result(search_base_placement(scene, grid_around_centre(11, 20.0)))
+    best = report.best[0]
     # closed form: every target on a circle of radius 0.69 m is within the 0.7 m reach only
     # if the base is within 10 mm of the centre; the 20 mm grid holds the centre exactly
     assert (best.x_mm, best.y_mm) == pytest.approx((1000.0 * CENTRE[0], 1000.0 * CENTRE[1]))
     assert best.reach_fraction == 1.0
     assert best.targets_reached == 8
-    assert sum(c.reach_fraction == 1.0 for c in result.report.best) == 1
+    assert sum(c.reach_fraction == 1.0 for c in report.best) == 1
     assert all(t.reached and t.joints_deg is not None for t in best.targets)
 
 
@@ -154,7 +153,7 @@ def test_default_grid_is_around_the_current_base() -> None:
     assert np.allclose(grid.height, [0.4])
     small = PlacementGrid.around(scene, half_width_mm=200.0, count=3, yaw_count=2)
     result = search_base_placement(scene, small, top=3)
-    report = PlacementReport.model_validate_json(result.report.model_dump_json())
+    report = PlacementReport.model_validate_json(placement_result(result).model_dump_json())
     assert report.current_score == pytest.approx(float(result.score[1, 1, 0, 0]))
     assert report.current_cycle_time_s == pytest.approx(float(result.cycle_time[1, 1, 0, 0]))
     # the best candidate slower than the current base is said so (our own contract)
@@ -192,7 +191,7 @@ def test_score_noise_is_the_median_step_change_at_equal_reach() -> None:
 def test_candidates_within_the_noise_are_ties() -> None:
     scene = circle_cell()
     result = search_base_placement(scene, grid_around_centre(7, 20.0), top=20)
-    report = result.report
+    report = placement_result(result)
     noise = score_noise(result.score, result.reach_fraction)
     assert report.score_noise == pytest.approx(noise)
     assert "share of the targets" in report.score_words
@@ -210,7 +209,7 @@ def test_blended_cycle_time_of_the_best_candidates_matches_the_path_check() -> N
     cell = load_cell(data_folder("robots") / "demo-cell.json")
     scene = resolve_scene(cell)
     grid = PlacementGrid.around(scene, half_width_mm=40.0, count=2, yaw_count=1)
-    report = search_base_placement(scene, grid, top=BLENDED_TOP + 1).report
+    report = placement_result(search_base_placement(scene, grid, top=BLENDED_TOP + 1))
     assert len(report.best) == BLENDED_TOP + 1
     assert report.best[-1].blended_cycle_time_s is None  # our own contract: top few only
     for candidate in report.best[:BLENDED_TOP]:

@@ -7,7 +7,8 @@ Figures
     gripper, 10 targets with their approach poses and the paths' pose
     waypoints, 22 obstacles) over 50 x 50 positions within ±1 m of the
     current base x 8 yaws at the current pedestal height (20 000 candidates,
-    :func:`posebridge.planning.placement.search_base_placement`) on a local
+    :func:`posebridge.planning.placement.search_base_placement` and its report,
+    :func:`posebridge.results.placement.placement_result`) on a local
     pool of two worker processes (initializer
     :func:`~posebridge.geometry.warm.warm_geometry`), one run after
     a warm-up search of three chunks (worker start and kernel loading are not timed). Target: 5 s on two cores.
@@ -33,6 +34,7 @@ from posebridge.planning.placement import (
     search_base_placement,
 )
 from posebridge.resources import data_folder
+from posebridge.results.placement import placement_result
 
 __all__ = ["bench_placement"]
 
@@ -48,7 +50,7 @@ def _seconds(executor: Executor, count: int) -> float:
     )
     grid = PlacementGrid.around(scene, count=count, yaw_count=YAWS)
     start = time.perf_counter()
-    search_base_placement(scene, grid, executor=executor)
+    placement_result(search_base_placement(scene, grid, executor=executor))
     return time.perf_counter() - start
 
 

@@ -166,7 +166,7 @@ def _cmd_plan(args: argparse.Namespace) -> int:
 def _cmd_place(args: argparse.Namespace) -> int:
     from posebridge.geometry.warm import warm_geometry
     from posebridge.planning.placement import PlacementGrid, search_base_placement
-    from posebridge.results.planning_text import render_placement
+    from posebridge.results.placement import placement_result, render_placement
     from posebridge.units import deg_from_rad, mm_from_m
 
     scene = load_scene(args.cell, quiet=args.quiet)
@@ -189,7 +189,7 @@ def _cmd_place(args: argparse.Namespace) -> int:
             top=args.top,
         )
     return print_results(
-        result.report,
+        placement_result(result),
         lambda report: render_placement(report, top=args.top),
         as_json=args.json,
         failed=never_fails,

@@ -11,7 +11,7 @@ its approach pose) the analytic IK (:func:`posebridge.kinematics.ik.ik_solver`,
 all candidates of a chunk in one call) gives up to eight solutions, one per
 branch. A solution **counts** when it reaches the pose, is inside the joint
 limits, matches the target's required branch and is collision-free
-(clearance at least ``collision_margin_mm`` to fixtures, keep-outs, pedestal
+(clearance at least ``collision_margin_m`` to fixtures, keep-outs, pedestal
 and floor, and no self contact; :func:`posebridge.geometry.clearance.collision_batch`).
 A target is **reached on a branch** (shoulder x elbow x wrist, 8 branches)
 when its pose and its approach pose both have a counting solution on that
@@ -27,7 +27,7 @@ Quality of the reached targets on that branch, each term in [0, 1]:
 * dexterity: the smallest inverse condition number of the TCP position
   Jacobian (scale-free; the Yoshikawa manipulability is reported beside it);
 * clearance: the share of reached targets whose configuration keeps at least
-  ``clearance_goal_mm`` from every obstacle (one early-exit check at that
+  ``clearance_goal_m`` from every obstacle (one early-exit check at that
   threshold; the exact clearance is computed for the ranked candidates only).
 
 ``score = reach_fraction + quality / (2 K)`` with ``quality`` the mean of
@@ -117,26 +117,13 @@ from posebridge.planning.cycle_time import (
 from posebridge.planning.errors import PlanningInputError, check_non_negative
 from posebridge.planning.path_sampling import branch_requirement
 from posebridge.planning.time_scaling import trapezoidal_profile
-from posebridge.results.planning import (
-    PlacementCandidateReport,
-    PlacementGridReport,
-    PlacementReport,
-    TargetPlacementReport,
-)
+from posebridge.robot.model import Robot
 from posebridge.transforms import (
     invert_transform,
     rotation_matrix_about_z,
     rotation_matrix_from_rpy,
 )
-from posebridge.units import (
-    BoolArray,
-    FloatArray,
-    deg_from_rad,
-    joints_user_from_si,
-    m_from_mm,
-    mm_from_m,
-    rad_from_deg,
-)
+from posebridge.units import BoolArray, FloatArray, m_from_mm, rad_from_deg
 
 __all__ = [
     "BLENDED_TOP",
@@ -145,6 +132,7 @@ __all__ = [
     "MAX_CANDIDATES",
     "PlacementGrid",
     "PlacementResult",
+    "RankedCandidate",
     "scene_with_base",
     "search_base_placement",
 ]
@@ -250,11 +238,55 @@ class PlacementGrid:
 
 
 @dataclass(frozen=True, eq=False)
-class PlacementResult:
-    """Scores of every candidate (grid arrays of shape ``(ny, nx, nyaw, nheights)``) and the ranking.
+class RankedCandidate:
+    """One of the best-ranked candidates with its per-target details (SI units).
 
     Attributes
     ----------
+    rank : int
+        1 for the best.
+    tie_rank : int
+        Rank of the best candidate it ties with (within the score noise; module docstring),
+        its own rank when it ties with no better one.
+    index : tuple of int
+        Grid index ``(y, x, yaw, height)``.
+    branch : str
+        Plain words of the candidate's branch; ``""`` when it reaches no target.
+    reasons : tuple of str, length K
+        Why each target is not reached (``""`` where it is).
+    limit_margin : array, shape (K,)
+        Smallest joint-limit margin of each target's configuration (rad; m for a
+        prismatic joint), from :func:`posebridge.kinematics.metrics.limit_margins`.
+    manipulability : array, shape (K,)
+        Yoshikawa manipulability of the TCP position Jacobian per target.
+    clearance : array, shape (K,)
+        Exact clearance to fixtures, keep-outs, pedestal and floor per target, m (NaN
+        where not reached).
+    blended_cycle_time : float or None
+        s, for the :data:`BLENDED_TOP` best only (module docstring).
+    """
+
+    rank: int
+    tie_rank: int
+    index: tuple[int, int, int, int]
+    branch: str
+    reasons: tuple[str, ...]
+    limit_margin: FloatArray
+    manipulability: FloatArray
+    clearance: FloatArray
+    blended_cycle_time: float | None
+
+
+@dataclass(frozen=True, eq=False)
+class PlacementResult:
+    """Scores of every candidate (grid arrays of shape ``(ny, nx, nyaw, nheights)``) and the ranking.
+
+    SI units; :func:`posebridge.results.placement.placement_result` builds the
+    boundary model (mm, deg) from it.
+
+    Attributes
+    ----------
+    robot : Robot
     grid : PlacementGrid
     target_names : tuple of str, length K
     score, reach_fraction : array, grid shape
@@ -269,10 +301,15 @@ class PlacementResult:
         Configuration of each reached target on the candidate's branch (NaN elsewhere).
     order : array of int64, shape (C,)
         Flat (C-order) candidate indices, best first (score, then index).
-    report : PlacementReport
-        The JSON-ready report (top candidates with details, full grid).
+    best : tuple of RankedCandidate
+        The ``top`` best candidates, best first.
+    current : tuple of int or None
+        Grid index of the cell's current base pose, if the grid holds it.
+    score_noise : float
+        :func:`score_noise` of the grid.
     """
 
+    robot: Robot
     grid: PlacementGrid
     target_names: tuple[str, ...]
     score: FloatArray
@@ -286,7 +323,9 @@ class PlacementResult:
     reached: BoolArray
     q: FloatArray
     order: npt.NDArray[np.int64]
-    report: PlacementReport
+    best: tuple[RankedCandidate, ...]
+    current: tuple[int, ...] | None
+    score_noise: float
 
 
 @dataclass(frozen=True, eq=False)
@@ -597,7 +636,7 @@ def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem
         approach_pose=np.array(approach_pose, dtype=np.int64),
         requirement=np.array(requirement, dtype=np.int8),
         foot_z=float(m_from_mm(base.position_mm[2])),
-        R_foot=rotation_matrix_from_rpy([roll, pitch, 0.0], degrees=True),
+        R_foot=rotation_matrix_from_rpy(rad_from_deg([roll, pitch, 0.0])),
         pedestal_radius=(
             0.0 if base.pedestal_radius_mm is None else float(m_from_mm(base.pedestal_radius_mm))
         ),
@@ -611,10 +650,6 @@ def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem
         linear_time=np.array(linear_time),
         path_poses=tuple(path_poses),
     )
-
-
-def _optional(value: float, scale: float = 1.0) -> float | None:
-    return float(value) * scale if math.isfinite(value) else None
 
 
 def _branch_words(index: int, scheme: str) -> str:
@@ -631,8 +666,8 @@ def search_base_placement(
     progress: ProgressCallback | None = None,
     cancel: threading.Event | None = None,
     top: int = 10,
-    collision_margin_mm: float = 0.0,
-    clearance_goal_mm: float = 50.0,
+    collision_margin_m: float = 0.0,
+    clearance_goal_m: float = 0.05,
 ) -> PlacementResult:
     """Score every candidate base pose of ``grid`` and rank them (module docstring).
 
@@ -649,11 +684,11 @@ def search_base_placement(
         ``progress(done, total)`` in chunks.
     cancel : threading.Event, optional, keyword-only
     top : int, keyword-only
-        Candidates reported with per-target details (1..1000).
-    collision_margin_mm : float, keyword-only
-        Clearance to obstacles a counting solution keeps (>= 0).
-    clearance_goal_mm : float, keyword-only
-        Clearance that counts as comfortable in the quality term.
+        Candidates reported with per-target details (1..1000): :attr:`PlacementResult.best`.
+    collision_margin_m : float, keyword-only
+        Clearance to obstacles a counting solution keeps, m (>= 0).
+    clearance_goal_m : float, keyword-only
+        Clearance that counts as comfortable in the quality term, m (>= the margin).
 
     Returns
     -------
@@ -668,16 +703,14 @@ def search_base_placement(
     """
     if isinstance(top, bool) or not isinstance(top, int) or not 1 <= top <= 1000:
         raise PlanningInputError(f"top: expected an integer from 1 to 1000, got {top!r}")
-    check_non_negative("collision_margin_mm", collision_margin_mm)
-    if not math.isfinite(clearance_goal_mm) or clearance_goal_mm < collision_margin_mm:
+    check_non_negative("collision_margin_m", collision_margin_m)
+    if not math.isfinite(clearance_goal_m) or clearance_goal_m < collision_margin_m:
         raise PlanningInputError(
-            "clearance_goal_mm: expected a finite number not below collision_margin_mm, "
-            f"got {clearance_goal_mm!r}"
+            "clearance_goal_m: expected a finite number not below collision_margin_m, "
+            f"got {clearance_goal_m!r}"
         )
     grid = PlacementGrid.around(scene) if grid is None else grid
-    problem = _problem(
-        scene, float(m_from_mm(collision_margin_mm)), float(m_from_mm(clearance_goal_mm))
-    )
+    problem = _problem(scene, float(collision_margin_m), float(clearance_goal_m))
     ny, nx, nyaw, nh = grid.shape
     per_height = ny * nx * nyaw
     chunks = [
@@ -712,10 +745,9 @@ def search_base_placement(
     score = fraction + np.clip(quality, 0.0, 1.0) / (2.0 * K)
     flat_score = score.reshape(-1)
     order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
-    report = _report(
-        scene, grid, problem, score, fraction, branch, margin, manip, cycle, reached, q, order, top
-    )
+    noise = score_noise(score, fraction)
     return PlacementResult(
+        robot=scene.robot,
         grid=grid,
         target_names=scene.targets.names,
         score=score,
@@ -729,133 +761,51 @@ def search_base_placement(
         reached=reached,
         q=q,
         order=order,
-        report=report,
+        best=_ranked(scene, grid, problem, score, branch, reached, q, order[:top], noise),
+        current=_current_index(scene, grid),
+        score_noise=noise,
     )
 
 
-def _report(
+def _ranked(
     scene: Scene,
     grid: PlacementGrid,
     problem: _Problem,
     score: FloatArray,
-    fraction: FloatArray,
     branch: npt.NDArray[np.int8],
-    margin: FloatArray,
-    manip: FloatArray,
-    cycle: FloatArray,
     reached: BoolArray,
     q: FloatArray,
-    order: npt.NDArray[np.int64],
-    top: int,
-) -> PlacementReport:
-    """Return the JSON-ready report: top candidates with exact per-target clearance, and the grid."""
+    top: npt.NDArray[np.int64],
+    noise: float,
+) -> tuple[RankedCandidate, ...]:
+    """Return the best candidates ``top`` (flat indices, best first) with exact per-target details."""
     robot = scene.robot
     scheme = branch_geometry(robot).scheme
-    shape = grid.shape
-    best = []
-    for rank, flat in enumerate(order[:top].tolist(), start=1):
-        iy, ix, iyaw, ih = np.unravel_index(flat, shape)
-        idx = (iy, ix, iyaw, ih)
-        q_c = q[idx]
-        margins = limit_margins(robot, np.nan_to_num(q_c)).margin.min(axis=1)
-        jac = jacobian_rows(
-            jacobian_base(robot, np.nan_to_num(q_c), problem.T_flange_tool), "position"
-        )
-        w = manipulability_yoshikawa(jac)
+    best: list[RankedCandidate] = []
+    tie_rank = 1
+    for rank, flat in enumerate(top.tolist(), start=1):
+        idx = tuple(int(i) for i in np.unravel_index(flat, grid.shape))
+        q_c = np.nan_to_num(q[idx])
+        jac = jacobian_rows(jacobian_base(robot, q_c, problem.T_flange_tool), "position")
         scenes = _candidate_scenes(problem, grid, flat)
-        clearance = _candidate_clearance(scenes, q_c)
-        reasons = _target_reasons(problem, scenes, int(branch[idx]))
-        targets = [
-            TargetPlacementReport(
-                name=name,
-                reached=bool(reached[idx][k]),
-                reason="" if reached[idx][k] else reasons[k],
-                joints_deg=(
-                    joints_user_from_si(q_c[k], robot.prismatic).tolist()
-                    if reached[idx][k]
-                    else None
-                ),
-                min_margin_deg=_optional(float(deg_from_rad(margins[k])))
-                if reached[idx][k]
-                else None,
-                manipulability=float(w[k]) if reached[idx][k] else None,
-                clearance_mm=_optional(float(mm_from_m(clearance[k]))) if reached[idx][k] else None,
-            )
-            for k, name in enumerate(scene.targets.names)
-        ]
-        reached_clearance = clearance[reached[idx]]
+        if rank > 1 and score[best[tie_rank - 1].index] - score[idx] > noise:
+            tie_rank = rank
         best.append(
-            PlacementCandidateReport(
+            RankedCandidate(
                 rank=rank,
-                x_mm=float(mm_from_m(grid.x[ix])),
-                y_mm=float(mm_from_m(grid.y[iy])),
-                yaw_deg=float(deg_from_rad(grid.yaw[iyaw])),
-                pedestal_height_mm=float(mm_from_m(grid.height[ih])),
-                score=float(score[idx]),
-                reach_fraction=float(fraction[idx]),
-                targets_reached=int(reached[idx].sum()),
+                tie_rank=tie_rank,
+                index=(idx[0], idx[1], idx[2], idx[3]),
                 branch=_branch_words(int(branch[idx]), scheme) if reached[idx].any() else "",
-                min_margin_deg=(
-                    _optional(float(deg_from_rad(margins[reached[idx]].min())))
-                    if reached[idx].any()
-                    else None
-                ),
-                manipulability=_optional(float(manip[idx])),
-                min_clearance_mm=(
-                    _optional(float(mm_from_m(reached_clearance.min())))
-                    if reached_clearance.size
-                    else None
-                ),
-                cycle_time_s=_optional(float(cycle[idx])),
-                blended_cycle_time_s=(
+                reasons=tuple(_target_reasons(problem, scenes, int(branch[idx]))),
+                limit_margin=limit_margins(robot, q_c).margin.min(axis=1),
+                manipulability=manipulability_yoshikawa(jac),
+                clearance=_candidate_clearance(scenes, q[idx]),
+                blended_cycle_time=(
                     _blended_cycle_time(scene, scenes.T_world_base) if rank <= BLENDED_TOP else None
                 ),
-                targets=targets,
             )
         )
-    current = _current_index(scene, grid)
-    current_cycle = None if current is None else _optional(float(cycle[current]))
-    noise = score_noise(score, fraction)
-    tie_rank = 1
-    for k, candidate in enumerate(best):
-        if k == 0 or best[tie_rank - 1].score - candidate.score > noise:
-            tie_rank = candidate.rank
-        candidate.tie_rank = tie_rank
-    return PlacementReport(
-        robot=robot.name,
-        robot_geometry_missing=robot.geometry_missing,
-        targets=list(scene.targets.names),
-        candidates_evaluated=grid.size,
-        best=best,
-        grid=PlacementGridReport(
-            x_mm=mm_from_m(grid.x).tolist(),
-            y_mm=mm_from_m(grid.y).tolist(),
-            yaw_deg=deg_from_rad(grid.yaw).tolist(),
-            pedestal_height_mm=mm_from_m(grid.height).tolist(),
-            score=score.tolist(),
-            reach_fraction=fraction.tolist(),
-        ),
-        score_note=(
-            "score = reach fraction + quality / (2 K); quality = mean of limit margin, "
-            "position-Jacobian inverse condition and share of targets with comfortable clearance"
-        ),
-        cycle_time_note=(
-            "estimate: joint moves as synchronised trapezoids between the chosen configurations, "
-            "linear moves at the requested speed without joint-limit cap, blends ignored (rest "
-            f"to rest); blended: for the {BLENDED_TOP} best candidates only, every path sampled "
-            "and timed through its blends as the path check does"
-        ),
-        current_score=None if current is None else float(score[current]),
-        current_cycle_time_s=current_cycle,
-        score_words=(
-            "The score is the share of the targets the robot reaches on one arm branch, plus at "
-            "most half a target's worth for how comfortably it reaches them (joint limits far "
-            "away, far from stretched or folded poses, clear of the cell); a score of 1 or more "
-            "means every target is reached."
-        ),
-        score_noise=noise,
-        speed_note=_speed_note(best[0].cycle_time_s if best else None, current_cycle),
-    )
+    return tuple(best)
 
 
 def score_noise(score: FloatArray, fraction: FloatArray) -> float:
@@ -880,16 +830,6 @@ def score_noise(score: FloatArray, fraction: FloatArray) -> float:
         steps.append(change[same])
     values = np.concatenate(steps) if steps else np.zeros(0)
     return float(np.median(values)) if values.size else 0.0
-
-
-def _speed_note(best_s: float | None, current_s: float | None) -> str:
-    """Say so when the best candidate's cycle is slower than the current base's."""
-    if best_s is None or current_s is None or best_s <= current_s:
-        return ""
-    return (
-        f"The best-scored base is slower than the current one: cycle {best_s:.2f} s against "
-        f"{current_s:.2f} s ({best_s - current_s:.2f} s more per cycle)."
-    )
 
 
 def scene_with_base(scene: Scene, T_world_base: FloatArray) -> Scene:

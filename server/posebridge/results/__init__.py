@@ -11,6 +11,5 @@ front doors import it instead of converting units themselves.
   :mod:`posebridge.results.cell_text` renders them.
 * :mod:`posebridge.results.path_check` — the path check result, its builder and text.
 * :mod:`posebridge.results.joint_plan` — the joint move plan result, its builder and text.
-* :mod:`posebridge.results.planning` — sequence, motion export and placement results;
-  :mod:`posebridge.results.planning_text` renders them.
+* :mod:`posebridge.results.placement` — base placement results, their text and their builder.
 """

@@ -16,7 +16,8 @@ from posebridge.api.schemas.checks import MAX_PLACEMENT_CANDIDATES, PlacementReq
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.jobs import JobStatus
 from posebridge.planning.placement import PlacementGrid, search_base_placement
-from posebridge.results.planning import PlacementReport
+from posebridge.results.placement import PlacementReport, placement_result
+from posebridge.units import m_from_mm
 
 __all__ = ["router"]
 
@@ -74,12 +75,13 @@ def _placement(
     progress: Callable[[int, int], None],
     cancel: threading.Event,
 ) -> PlacementReport:
-    return search_base_placement(
+    result = search_base_placement(
         context.cell().scene,
         grid,
         progress=progress,
         cancel=cancel,
         top=body.top,
-        collision_margin_mm=body.collision_margin_mm,
-        clearance_goal_mm=max(body.clearance_goal_mm, body.collision_margin_mm),
-    ).report
+        collision_margin_m=float(m_from_mm(body.collision_margin_mm)),
+        clearance_goal_m=float(m_from_mm(max(body.clearance_goal_mm, body.collision_margin_mm))),
+    )
+    return placement_result(result)

@@ -2,7 +2,7 @@
 
 The answers are the result models of the checks themselves
 (:mod:`posebridge.results.cell`, :mod:`posebridge.results.path_check` and
-:mod:`posebridge.results.planning`),
+:mod:`posebridge.results.placement`),
 shared with the command line.
 """
 

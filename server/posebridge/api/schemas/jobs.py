@@ -7,7 +7,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.api.jobs import Job
-from posebridge.results.planning import PlacementReport
+from posebridge.results.placement import PlacementReport
 from posebridge.results.spaces import JointMapResult, ReachSectionResult
 
 __all__ = ["JobResult", "JobStatus", "job_status"]

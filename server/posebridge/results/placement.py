@@ -1,0 +1,287 @@
+"""Base placement results at the boundary: the JSON-ready models, their text and the builder.
+
+:func:`placement_result` turns the SI
+:class:`~posebridge.planning.placement.PlacementResult` of
+:func:`~posebridge.planning.placement.search_base_placement` into
+:class:`PlacementReport` (mm, deg, s): the best candidates with their
+per-target details, the full score grid for a heatmap, and the notes that
+explain the score and the cycle times. :func:`render_placement` is its
+plain-text table for the CLI.
+"""
+
+from __future__ import annotations
+
+import math
+
+from pydantic import BaseModel, ConfigDict, Field
+
+from posebridge.planning.placement import BLENDED_TOP, PlacementResult, RankedCandidate
+from posebridge.results.text_table import number_text, table_lines
+from posebridge.units import deg_from_rad, joints_user_from_si, mm_from_m
+
+__all__ = [
+    "PlacementCandidateReport",
+    "PlacementGridReport",
+    "PlacementReport",
+    "TargetPlacementReport",
+    "placement_result",
+    "render_placement",
+]
+
+SCORE_NOTE = (
+    "score = reach fraction + quality / (2 K); quality = mean of limit margin, "
+    "position-Jacobian inverse condition and share of targets with comfortable clearance"
+)
+CYCLE_TIME_NOTE = (
+    "estimate: joint moves as synchronised trapezoids between the chosen configurations, "
+    "linear moves at the requested speed without joint-limit cap, blends ignored (rest "
+    f"to rest); blended: for the {BLENDED_TOP} best candidates only, every path sampled "
+    "and timed through its blends as the path check does"
+)
+SCORE_WORDS = (
+    "The score is the share of the targets the robot reaches on one arm branch, plus at "
+    "most half a target's worth for how comfortably it reaches them (joint limits far "
+    "away, far from stretched or folded poses, clear of the cell); a score of 1 or more "
+    "means every target is reached."
+)
+
+
+class _Report(BaseModel):
+    model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
+
+
+class TargetPlacementReport(_Report):
+    """One target at one candidate base pose."""
+
+    name: str
+    reached: bool = Field(description="Reached on the candidate's branch, within limits and free.")
+    reason: str
+    joints_deg: list[float] | None
+    min_margin_deg: float | None
+    manipulability: float | None
+    clearance_mm: float | None
+
+
+class PlacementCandidateReport(_Report):
+    """One candidate base pose, its score and its per-target details."""
+
+    rank: int
+    x_mm: float
+    y_mm: float
+    yaw_deg: float
+    pedestal_height_mm: float
+    score: float
+    reach_fraction: float
+    targets_reached: int
+    branch: str
+    min_margin_deg: float | None
+    manipulability: float | None
+    min_clearance_mm: float | None
+    cycle_time_s: float | None = Field(
+        description="Rest-to-rest estimate over the cell's paths (upper bound); null if a path "
+        "waypoint is not reached."
+    )
+    blended_cycle_time_s: float | None = Field(
+        default=None,
+        description="Blended cycle time over the cell's paths with the base here (the paths "
+        "sampled and timed as the path check does); only for the best-ranked few candidates "
+        "(see cycle_time_note), null otherwise or if a path cannot be timed.",
+    )
+    targets: list[TargetPlacementReport]
+    tie_rank: int = Field(
+        default=0,
+        description="Rank of the best candidate this one ties with (within score_noise); its "
+        "own rank when it ties with no better one.",
+    )
+
+
+class PlacementGridReport(_Report):
+    """The full score grid for a heatmap, shape (ny, nx, nyaw, nheights)."""
+
+    x_mm: list[float]
+    y_mm: list[float]
+    yaw_deg: list[float]
+    pedestal_height_mm: list[float]
+    score: list[list[list[list[float]]]]
+    reach_fraction: list[list[list[list[float]]]]
+
+
+class PlacementReport(_Report):
+    """Ranked base poses and the score grid."""
+
+    robot: str
+    targets: list[str]
+    candidates_evaluated: int
+    best: list[PlacementCandidateReport]
+    grid: PlacementGridReport
+    score_note: str
+    cycle_time_note: str
+    current_score: float | None = Field(description="Score of the cell's current base pose.")
+    current_cycle_time_s: float | None = Field(
+        default=None, description="Cycle time estimate at the current base pose, if on the grid."
+    )
+    score_words: str = Field(default="", description="The score explained in plain words.")
+    score_noise: float = Field(
+        default=0.0,
+        description="Median score change over one grid step at equal reach: scores this close tie.",
+    )
+    speed_note: str = Field(
+        default="",
+        description="Set when the best candidate's cycle is slower than the current base's.",
+    )
+    robot_geometry_missing: str | None = Field(
+        default=None,
+        description="Set (a warning text) when the robot has no collision geometry: every "
+        "clearance in this result is then meaningless.",
+    )
+
+
+def _optional(value: float) -> float | None:
+    """Return ``value``, None where it is not finite (nothing to report)."""
+    return float(value) if math.isfinite(value) else None
+
+
+def _speed_note(best_s: float | None, current_s: float | None) -> str:
+    """Say so when the best candidate's cycle is slower than the current base's."""
+    if best_s is None or current_s is None or best_s <= current_s:
+        return ""
+    return (
+        f"The best-scored base is slower than the current one: cycle {best_s:.2f} s against "
+        f"{current_s:.2f} s ({best_s - current_s:.2f} s more per cycle)."
+    )
+
+
+def _candidate(result: PlacementResult, candidate: RankedCandidate) -> PlacementCandidateReport:
+    """Return one ranked candidate in boundary units."""
+    grid = result.grid
+    iy, ix, iyaw, ih = idx = candidate.index
+    reached = result.reached[idx]
+    q = result.q[idx]
+    prismatic = result.robot.prismatic
+    margins = candidate.limit_margin
+    clearance = candidate.clearance
+    targets = [
+        TargetPlacementReport(
+            name=name,
+            reached=bool(reached[k]),
+            reason="" if reached[k] else candidate.reasons[k],
+            joints_deg=joints_user_from_si(q[k], prismatic).tolist() if reached[k] else None,
+            min_margin_deg=_optional(float(deg_from_rad(margins[k]))) if reached[k] else None,
+            manipulability=float(candidate.manipulability[k]) if reached[k] else None,
+            clearance_mm=_optional(float(mm_from_m(clearance[k]))) if reached[k] else None,
+        )
+        for k, name in enumerate(result.target_names)
+    ]
+    reached_clearance = clearance[reached]
+    return PlacementCandidateReport(
+        rank=candidate.rank,
+        x_mm=float(mm_from_m(grid.x[ix])),
+        y_mm=float(mm_from_m(grid.y[iy])),
+        yaw_deg=float(deg_from_rad(grid.yaw[iyaw])),
+        pedestal_height_mm=float(mm_from_m(grid.height[ih])),
+        score=float(result.score[idx]),
+        reach_fraction=float(result.reach_fraction[idx]),
+        targets_reached=int(reached.sum()),
+        branch=candidate.branch,
+        min_margin_deg=(
+            _optional(float(deg_from_rad(margins[reached].min()))) if reached.any() else None
+        ),
+        manipulability=_optional(float(result.manipulability[idx])),
+        min_clearance_mm=(
+            _optional(float(mm_from_m(reached_clearance.min()))) if reached_clearance.size else None
+        ),
+        cycle_time_s=_optional(float(result.cycle_time[idx])),
+        blended_cycle_time_s=candidate.blended_cycle_time,
+        targets=targets,
+        tie_rank=candidate.tie_rank,
+    )
+
+
+def placement_result(result: PlacementResult) -> PlacementReport:
+    """Build the boundary model (mm, deg, s) of a base placement search.
+
+    Parameters
+    ----------
+    result : PlacementResult
+        From :func:`posebridge.planning.placement.search_base_placement`.
+
+    Returns
+    -------
+    PlacementReport
+    """
+    robot = result.robot
+    grid = result.grid
+    best = [_candidate(result, candidate) for candidate in result.best]
+    current = result.current
+    current_cycle = None if current is None else _optional(float(result.cycle_time[current]))
+    return PlacementReport(
+        robot=robot.name,
+        robot_geometry_missing=robot.geometry_missing,
+        targets=list(result.target_names),
+        candidates_evaluated=grid.size,
+        best=best,
+        grid=PlacementGridReport(
+            x_mm=mm_from_m(grid.x).tolist(),
+            y_mm=mm_from_m(grid.y).tolist(),
+            yaw_deg=deg_from_rad(grid.yaw).tolist(),
+            pedestal_height_mm=mm_from_m(grid.height).tolist(),
+            score=result.score.tolist(),
+            reach_fraction=result.reach_fraction.tolist(),
+        ),
+        score_note=SCORE_NOTE,
+        cycle_time_note=CYCLE_TIME_NOTE,
+        current_score=None if current is None else float(result.score[current]),
+        current_cycle_time_s=current_cycle,
+        score_words=SCORE_WORDS,
+        score_noise=result.score_noise,
+        speed_note=_speed_note(best[0].cycle_time_s if best else None, current_cycle),
+    )
+
+
+def render_placement(report: PlacementReport, *, top: int = 10) -> str:
+    """Plain-text table of the best base poses."""
+    lines = [
+        f"Base placement for {report.robot}: {report.candidates_evaluated} candidates, "
+        f"{len(report.targets)} targets; current base score {number_text(report.current_score, 3)}",
+        report.score_words,
+        report.score_note,
+        *([report.speed_note] if report.speed_note else []),
+        "",
+    ]
+    rows = [
+        [
+            str(c.rank) if c.tie_rank in (0, c.rank) else f"{c.rank} (ties {c.tie_rank})",
+            f"{c.x_mm:.0f}",
+            f"{c.y_mm:.0f}",
+            f"{c.yaw_deg:.0f}",
+            f"{c.pedestal_height_mm:.0f}",
+            f"{c.score:.3f}",
+            f"{c.targets_reached}/{len(c.targets)}",
+            c.branch,
+            number_text(c.min_margin_deg),
+            number_text(c.min_clearance_mm),
+            number_text(c.cycle_time_s, 2),
+            number_text(c.blended_cycle_time_s, 2),
+        ]
+        for c in report.best[:top]
+    ]
+    lines += table_lines(
+        [
+            "rank",
+            "x mm",
+            "y mm",
+            "yaw deg",
+            "height mm",
+            "score",
+            "reached",
+            "branch",
+            "margin deg",
+            "clearance mm",
+            "cycle s",
+            "blended s",
+        ],
+        rows,
+    )
+    if report.robot_geometry_missing:
+        lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
+    return "\n".join(lines)
