@@ -33,7 +33,7 @@ function samePose(a, b) {
 
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
- * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>,
+ * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>, moveRail: (rail: object) => Promise<void>,
  *            retrySave: () => void, chooseChain: (links: object) => Promise<void>,
  *            chooseChainEnd: (toLink: string) => Promise<void>}}
  */
@@ -273,6 +273,33 @@ export function createCellSync({ store, actions, api, linking }) {
   }
 
   /**
+   * Put the track's rail where a rail placement candidate has it (origin, direction) with a
+   * travel covering both the configured one and the one its targets need; saved at once,
+   * nothing is sent on a reviewer's page.
+   */
+  async function moveRail(rail) {
+    const { cell, readOnly } = store.get();
+    if (readOnly) {
+      actions.setStatus("info", REVIEW_NOT_SAVED);
+      return;
+    }
+    if (!cell || !cell.cell.track) {
+      return;
+    }
+    const track = cell.cell.track;
+    const needed = rail.travel_needed_mm || track.range_mm;
+    const range = [Math.min(track.range_mm[0], Math.floor(needed[0])), Math.max(track.range_mm[1], Math.ceil(needed[1]))];
+    const moved = { ...track, origin_mm: rail.origin_mm, direction: rail.direction, range_mm: range };
+    try {
+      const document = await api.replaceCell({ ...cell.cell, track: moved }, cell.etag);
+      store.update({ cell: document, cellSave: { state: "saved", message: "Saved the rail" } });
+    } catch (error) {
+      actions.setStatus("error", `Moving the rail: ${error.message}`);
+      await reloadCell();
+    }
+  }
+
+  /**
    * The track's carriage dragged to `valueMm`: saved as the track's home_mm (the value the
    * cell is shown at), then the page's carriage follows the saved cell; nothing is sent on a
    * reviewer's page.
@@ -362,5 +389,5 @@ export function createCellSync({ store, actions, api, linking }) {
     store.update({ cell: document, cellSave: { state: "saved", message } });
   }
 
-  return { loadCell, reloadCell, moveBase, moveCarriage, retrySave, chooseChain, chooseChainEnd, setWaypointJoints, showSavedCell };
+  return { loadCell, reloadCell, moveBase, moveRail, moveCarriage, retrySave, chooseChain, chooseChainEnd, setWaypointJoints, showSavedCell };
 }

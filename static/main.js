@@ -164,6 +164,7 @@ async function start() {
       api,
       palette,
       onMoveBase: (edit) => cellSync.moveBase(edit),
+      onMoveRail: (rail) => cellSync.moveRail(rail),
     }));
     for (const view of drawn) {
       view.render();

@@ -8,6 +8,9 @@
 // is edited and saved, and both halves follow. The candidates carry
 // `data-edits-cell` (review.js disables them for reviewers; the search itself
 // changes nothing and stays open to them).
+// For a cell with a track the server searches the rail's line instead (report
+// `search: "rail"`): the heatmap is the score over offset x yaw, and a
+// candidate applies its rail (origin, direction, a travel covering the needed one).
 
 /* global Plotly */
 
@@ -28,11 +31,21 @@ export function scorePlane(grid, yawIndex, heightIndex) {
   );
 }
 
+/** The score over yaw (rows) x rail offset (columns) of a rail search's grid. */
+export function railPlane(grid) {
+  return grid.yaw_deg.map((_, yawIndex) => grid.x_mm.map((__, offsetIndex) => grid.score[0][offsetIndex][yawIndex][0]));
+}
+
+/** Direction of travel of a track about world z, degrees. */
+function trackYawDeg(track) {
+  return (Math.atan2(track.direction[1], track.direction[0]) * 180) / Math.PI;
+}
+
 /**
  * @param {{container: HTMLElement, store: object, actions: object, api: object, palette: object,
- *          onMoveBase: (edit: object) => Promise<void>}} options
+ *          onMoveBase: (edit: object) => Promise<void>, onMoveRail: (rail: object) => Promise<void>}} options
  */
-export function createPlacementPanel({ container, store, actions, api, palette, onMoveBase }) {
+export function createPlacementPanel({ container, store, actions, api, palette, onMoveBase, onMoveRail }) {
   const width = numberField({ name: "half width", unit: "mm", id: "place-width", onCommit: () => {} });
   const count = numberField({ name: "positions", unit: "per axis", id: "place-count", onCommit: () => {} });
   const yaws = numberField({ name: "yaws", unit: "", id: "place-yaws", onCommit: () => {} });
@@ -145,6 +158,14 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     speed.hidden = !placement.speed_note;
     heatmap.hidden = false;
     const best = placement.best[0];
+    const rail = placement.search === "rail";
+    heatmap.dataset.search = placement.search || "base";
+    yawSelect.parentElement.hidden = rail;
+    heightSelect.parentElement.hidden = rail;
+    if (rail) {
+      renderRail(placement, cell, stale, best);
+      return;
+    }
     const plane = scorePlane(grid, yawIndex, heightIndex);
     const finite = plane.flat().filter(Number.isFinite);
     const [low, high] = finite.length ? [Math.min(...finite), Math.max(...finite)] : [0, 1];
@@ -198,6 +219,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
           // neighbouring ranks put their labels on different sides, so they do not overlap
           textposition: placement.best.map((c) => LABEL_SIDES[c.rank % LABEL_SIDES.length]),
           marker: { size: 9, symbol: "circle-open", color: palette.ink, line: { width: 2 } },
+          name: "best candidates",
           hoverinfo: "skip",
           meta: { role: "candidates" },
         },
@@ -253,7 +275,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
   /** The grid cell under a pointer event: its indices and centre, or null outside the grid. */
   function cellAt(event) {
     const { placement } = store.get();
-    if (!placement || !heatmap._fullLayout) {
+    if (!placement || placement.search === "rail" || !heatmap._fullLayout) {
       return null;
     }
     const point = dataFromPointer(heatmap, event);
@@ -297,6 +319,93 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     const score = scorePlane(g, Number(yawSelect.value), Number(heightSelect.value || 0))[yi][xi];
     heatmap.title = `x ${formatNumber(g.x_mm[xi], { decimals: 0 })} mm, y ${formatNumber(g.y_mm[yi], { decimals: 0 })} mm: score ${formatNumber(score, { decimals: 3 })}`;
   });
+
+  /** The rail search's heatmap (offset x yaw) and its candidates; a candidate applies its rail. */
+  function renderRail(placement, cell, stale, best) {
+    const grid = placement.grid;
+    const track = cell && cell.cell.track ? cell.cell.track : null;
+    const ranked = placement.best.filter((c) => c.rail);
+    Plotly.react(
+      heatmap,
+      [
+        {
+          // one square marker per rail line, coloured by its score (the page's plotly bundle has
+          // no heatmap trace; the base search's picture comes from the server)
+          type: "scatter",
+          mode: "markers",
+          name: "rail lines",
+          x: grid.yaw_deg.flatMap(() => grid.x_mm),
+          y: grid.yaw_deg.flatMap((yaw) => grid.x_mm.map(() => yaw)),
+          marker: {
+            symbol: "square",
+            size: 16,
+            color: railPlane(grid).flat(),
+            colorscale: "Viridis",
+            showscale: true,
+            colorbar: { title: { text: stale ? "score (out of date)" : "score (1 = every target)" }, thickness: 10 },
+            opacity: stale ? 0.45 : 1,
+          },
+          hovertemplate: "offset %{x:.0f} mm<br>yaw %{y:.0f} deg<br>score %{marker.color:.3f}<extra></extra>",
+          meta: { role: "rail-scores" },
+        },
+        {
+          type: "scatter",
+          mode: "markers+text",
+          name: "best candidates",
+          x: ranked.map((c) => c.rail.offset_mm),
+          y: ranked.map((c) => c.rail.yaw_deg),
+          text: ranked.map((c) => String(c.rank)),
+          textposition: ranked.map((c) => LABEL_SIDES[c.rank % LABEL_SIDES.length]),
+          marker: { size: 9, symbol: "circle-open", color: palette.ink, line: { width: 2 } },
+          hoverinfo: "skip",
+          meta: { role: "candidates" },
+        },
+        {
+          type: "scatter",
+          mode: "markers",
+          name: "current rail",
+          x: track && !stale ? [0] : [],
+          y: track && !stale ? [trackYawDeg(track)] : [],
+          marker: { size: 14, symbol: "x-thin-open", color: palette.bad, line: { width: 3 } },
+          hovertemplate: "current rail<extra></extra>",
+          meta: { role: "current-base" },
+        },
+      ],
+      {
+        margin: { l: 56, r: 10, t: 28, b: 40 },
+        legend: { orientation: "h", x: 0, xanchor: "left", y: 1, yanchor: "bottom" },
+        xaxis: { title: { text: "rail offset across the travel (mm)" } },
+        yaxis: { title: { text: "direction of travel (deg)" } },
+        font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
+        paper_bgcolor: "rgba(0,0,0,0)",
+        annotations: best ? [] : [{ text: "no candidate reaches a target", showarrow: false }],
+      },
+      PLOT_CONFIG,
+    );
+    list.replaceChildren(
+      ...ranked.map((candidate) => {
+        const { rail } = candidate;
+        const needed = rail.travel_needed_mm;
+        const item = element("li", { attributes: { tabindex: "0", "data-rank": String(candidate.rank), "data-tie-rank": String(candidate.tie_rank), "data-edits-cell": "", title: "Put the rail here" } }, [
+          `offset ${formatNumber(rail.offset_mm, { decimals: 0 })} mm, yaw ${formatNumber(rail.yaw_deg, { decimals: 0 })} deg: `,
+          element("strong", { text: `score ${formatNumber(candidate.score, { decimals: 3 })}` }),
+          ` — reaches ${candidate.targets_reached} of ${placement.targets.length} targets on ${candidate.branch || "no branch"}`,
+          needed
+            ? `, travel needed ${formatNumber(needed[0], { decimals: 0 })}…${formatNumber(needed[1], { decimals: 0 })} mm` +
+              (rail.fits ? " (fits the configured travel)" : ` (configured ${formatNumber(rail.travel_configured_mm[0], { decimals: 0 })}…${formatNumber(rail.travel_configured_mm[1], { decimals: 0 })} mm)`)
+            : "",
+        ]);
+        const choose = () => onMoveRail(rail);
+        item.addEventListener("click", choose);
+        item.addEventListener("keydown", (event) => {
+          if (event.key === "Enter") {
+            choose();
+          }
+        });
+        return item;
+      }),
+    );
+  }
 
   yawSelect.addEventListener("change", render);
   heightSelect.addEventListener("change", render);

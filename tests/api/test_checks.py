@@ -8,6 +8,7 @@ against pinocchio in test_kinematics.py).
 
 from __future__ import annotations
 
+import asyncio
 import io
 import json
 from collections.abc import Awaitable, Callable
@@ -253,6 +254,36 @@ async def test_start_placement(client: httpx.AsyncClient, job_finished: JobFinis
     outside = await client.get(f"/api/jobs/{status['id']}/image", params={"yaw_index": 2})
     assert outside.status_code == 422
     assert outside.json()["detail"] == "yaw_index: expected -1 .. 1, got 2"
+
+
+async def test_rail_placement_needs_a_track(client: httpx.AsyncClient) -> None:
+    response = await client.post("/api/placement", json={"search": "rail", "count": 1})
+    assert response.status_code == 422  # the demo cell has no track
+    assert "no track" in response.json()["detail"]
+
+
+async def test_track_cell_places_its_rail(make_app: Callable[..., Any], tmp_path: Any) -> None:
+    cell = tmp_path / "track.json"
+    cell.write_text((ROBOTS / "demo-track-cell.json").read_text())
+    transport = httpx.ASGITransport(app=make_app(cell_path=cell))
+    async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as client:
+        response = await client.post("/api/placement", json={"count": 1, "yaw_count": 1})
+        assert response.status_code == 202
+        job = response.json()["id"]
+        status = (await client.get(f"/api/jobs/{job}")).json()
+        for _ in range(6000):  # the cap only ends a hung test (see job_finished)
+            if status["state"] not in ("queued", "running"):
+                break
+            await asyncio.sleep(0.1)
+            status = (await client.get(f"/api/jobs/{job}")).json()
+        assert status["state"] == "done", status["detail"]
+        report = status["result"]
+    # a cell with a track searches its rail (automatic): one offset 0 x one direction
+    assert report["search"] == "rail"
+    assert report["candidates_evaluated"] == 1
+    assert report["grid"]["x_mm"] == [0.0]
+    # source: demo-track-cell.json's travel 0..4000 mm
+    assert report["best"][0]["rail"]["travel_configured_mm"] == [0.0, 4000.0]
 
 
 async def test_start_placement_too_large(client: httpx.AsyncClient) -> None:

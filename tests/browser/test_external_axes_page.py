@@ -222,3 +222,56 @@ def test_joint_map_over_the_track(open_page: Any) -> None:
     )
     assert markers == solutions
     assert not open_page.problems.page_errors
+
+
+def test_rail_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
+    page = open_page.page
+    _show_track_cell(open_page)
+    page.fill("#place-width", "500")
+    page.fill("#place-count", "3")
+    page.fill("#place-yaws", "2")
+    page.click("#place-run")
+    page.wait_for_function(
+        "() => { const p = window.posebridge.getState().placement;"
+        " return Boolean(p && p.search === 'rail'); }",
+        timeout=600_000,
+    )
+    placement = page.evaluate(STATE)["placement"]
+    grid = placement["grid"]
+    # the request's grid (closed form): 3 offsets within 500 mm x 2 directions from the demo's
+    # rail along +x (0 deg)
+    assert placement["candidates_evaluated"] == 6
+    assert grid["x_mm"] == pytest.approx([-500.0, 0.0, 500.0])
+    assert grid["yaw_deg"] == pytest.approx([0.0, -180.0])
+    heat = page.evaluate(
+        "() => { const t = (document.getElementById('place-heatmap').data || [])"
+        ".find((d) => d.meta && d.meta.role === 'rail-scores');"
+        " return t ? { x: t.x, y: t.y, c: t.marker.color } : null; }"
+    )
+    assert heat is not None
+    # one marker per (direction, offset), directions outer: the answer's score grid
+    # (1, offsets, directions, 1)
+    cells = [(j, i) for j in range(2) for i in range(3)]
+    assert heat["x"] == pytest.approx([grid["x_mm"][i] for j, i in cells])
+    assert heat["y"] == pytest.approx([grid["yaw_deg"][j] for j, i in cells])
+    np.testing.assert_allclose(heat["c"], [grid["score"][0][i][j][0] for j, i in cells])
+    current = page.evaluate(
+        "() => { const t = (document.getElementById('place-heatmap').data || [])"
+        ".find((d) => d.meta && d.meta.role === 'current-base'); return [t.x[0], t.y[0]]; }"
+    )
+    assert current == pytest.approx([0.0, 0.0])  # the demo's rail: offset 0, along +x
+    # applying the best candidate writes its rail into the cell
+    best = placement["best"][0]
+    with page.expect_response(
+        lambda r: r.request.method == "PUT" and r.url.endswith("/api/cell"), timeout=120_000
+    ) as moved:
+        page.click("#place-candidates li:nth-child(1)")
+    assert moved.value.status == 200
+    track = moved.value.json()["cell"]["track"]
+    assert track["origin_mm"] == pytest.approx(best["rail"]["origin_mm"])
+    assert track["direction"] == pytest.approx(best["rail"]["direction"])
+    needed = best["rail"]["travel_needed_mm"] or [0.0, 4000.0]
+    # the travel covers the configured 0..4000 mm and the travel needed
+    assert track["range_mm"][0] <= min(0.0, needed[0])
+    assert track["range_mm"][1] >= max(4000.0, needed[1])
+    assert open_page.problems.console_errors == []

@@ -44,8 +44,8 @@ def _parse_range(text: str, what: str) -> FloatArray:
 
 
 def _parse_grid(text: str) -> dict[str, FloatArray]:
-    """``"x_mm=-1000:1000:21 y_mm=-1000:1000:21 yaw_deg=0:315:8 height_mm=400"``."""
-    allowed = ("x_mm", "y_mm", "yaw_deg", "height_mm")
+    """``"x_mm=-1000:1000:21 y_mm=-1000:1000:21 yaw_deg=0:315:8 height_mm=400"`` (or ``offset_mm``)."""
+    allowed = ("x_mm", "y_mm", "yaw_deg", "height_mm", "offset_mm")
     grid: dict[str, FloatArray] = {}
     for item in text.replace(",", " ").split():
         key, sep, value = item.partition("=")
@@ -170,16 +170,26 @@ def _cmd_place(args: argparse.Namespace) -> int:
     from posebridge.units import deg_from_rad, mm_from_m
 
     scene = load_scene(args.cell, quiet=args.quiet)
-    grid = None
-    if args.grid:
+    rail = args.search == "rail" or (args.search == "auto" and scene.external.track is not None)
+    given = _parse_grid(args.grid) if args.grid else {}
+    if rail:
+        if given.keys() - {"offset_mm", "yaw_deg"}:
+            raise CommandLineInputError("--grid: a rail search takes offset_mm and yaw_deg only")
+        grid = PlacementGrid.rail_around(
+            scene, offset_mm=given.get("offset_mm"), yaw_deg=given.get("yaw_deg")
+        )
+    elif "offset_mm" in given:
+        raise CommandLineInputError("--grid: offset_mm is for a rail search (--search rail)")
+    elif given:
         around = PlacementGrid.around(scene)
-        given = _parse_grid(args.grid)
         grid = PlacementGrid.from_user(
             given.get("x_mm", mm_from_m(around.x)),
             given.get("y_mm", mm_from_m(around.y)),
             given.get("yaw_deg", deg_from_rad(around.yaw)),
             given.get("height_mm", mm_from_m(around.height)),
         )
+    else:
+        grid = PlacementGrid.around(scene)
     with executor_from(args, warm_geometry) as executor:
         result = search_base_placement(
             scene,
@@ -280,6 +290,13 @@ def add_place(sub: Any, shared: SharedOptions) -> None:
         "(default: +-1 m around the current base, 21 x 21 x 8 yaws)",
     )
     own.add_argument("--top", type=int, default=10, help="candidates to list (default 10)")
+    own.add_argument(
+        "--search",
+        choices=("auto", "base", "rail"),
+        default="auto",
+        help="what to move: the robot's base, or the track's rail line (offset_mm x yaw_deg, "
+        "each target from its own track position); auto: rail for a cell with a track",
+    )
     as_json = options()
     as_json.add_argument("--json", action="store_true", help="print JSON with the whole score grid")
     command = sub.add_parser(

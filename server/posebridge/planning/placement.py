@@ -72,6 +72,25 @@ height, so it runs in one batch per chunk; against fixtures and keep-outs
 one batch per candidate (its base pose). The pedestal's own footprint is not
 checked against the fixtures (the robot's base capsules are).
 
+**Rail search** (a cell with a track; :meth:`PlacementGrid.rail_around`).
+The robot rides the carriage, so a candidate is a rail line instead of a base
+pose: the current rail frame turned about world z to the candidate's yaw (the
+direction of travel) and moved across the travel by its offset (along the
+turned frame's y), the middle of the configured travel staying on the line's
+middle. Each pose is reached from its own track position: per pose and branch,
+the middle of the longest feasible interval of the track
+(:func:`posebridge.cell.external_kinematics.feasible_intervals`, reach and
+joint limits, the travel widened to wherever the robot can reach a pose from;
+a target and its approach pose share one position in the intersection of their
+intervals). The pose is then solved there and counted as above (the arm's
+clearance to fixtures and keep-outs with the base at that position; the
+carriage, which rides with the robot, is left out), and the candidate scored
+with the same score. The answer also gives the travel the reached targets
+need: their positions' span with :data:`RAIL_TRAVEL_MARGIN_M` at both ends,
+beside the configured travel. The cycle time estimate leaves the track's own
+travel time out, and the blended cycle time is not computed for rail
+candidates. A turntable stays at its current angle.
+
 Chunks of :data:`CHUNK_CANDIDATES` candidates (fixed by the grid alone, one
 pedestal height per chunk) run through an executor
 (:mod:`posebridge.compute`) with progress and cancellation; results are the
@@ -89,6 +108,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.cell.clearance import cell_arm, clearance_scene, fixture_count
+from posebridge.cell.external_kinematics import branch_triples, feasible_intervals
 from posebridge.cell.scene import Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
@@ -145,6 +165,12 @@ MAX_CANDIDATES = 1_000_000
 """Largest grid accepted."""
 BRANCHES = np.array([(s, e, w) for s in (1, -1) for e in (1, -1) for w in (1, -1)], dtype=np.int8)
 """The eight branches (shoulder, elbow, wrist) in the stable order, shape (8, 3)."""
+RAIL_CHUNK_CANDIDATES = 40
+"""Candidate rail lines per executor chunk (each solves every pose at every branch's track position)."""
+RAIL_SWEEP_SPACING_M = 0.1
+"""Sweep spacing of the track positions in the rail search (intervals narrower than this may be missed)."""
+RAIL_TRAVEL_MARGIN_M = 0.1
+"""Travel kept beyond the outermost chosen track positions in the travel needed (common practice, no source)."""
 
 
 @dataclass(frozen=True)
@@ -159,12 +185,19 @@ class PlacementGrid:
         Base yaw about world z, rad.
     height : array, shape (nheights,)
         Pedestal height, m (>= 0).
+    rail : bool
+        A rail grid (for a cell with a track; :meth:`rail_around`): ``x`` holds the
+        rail line's offsets from the current line, m (across the travel in the floor
+        plane, along the rail frame's y turned to the candidate's yaw), ``y`` is
+        ``[0]``, ``yaw`` the direction of travel about world z, rad, and ``height``
+        the current pedestal.
     """
 
     x: FloatArray
     y: FloatArray
     yaw: FloatArray
     height: FloatArray
+    rail: bool = False
 
     @property
     def shape(self) -> tuple[int, int, int, int]:
@@ -236,6 +269,49 @@ class PlacementGrid:
             [base.pedestal_height_mm],
         )
 
+    @classmethod
+    def rail_around(
+        cls,
+        scene: Scene,
+        *,
+        offset_mm: npt.ArrayLike | None = None,
+        yaw_deg: npt.ArrayLike | None = None,
+        half_width_mm: float = 1000.0,
+        count: int = 21,
+        yaw_count: int = 8,
+    ) -> PlacementGrid:
+        """Return a rail grid for a cell with a track (see the ``rail`` attribute).
+
+        ``offset_mm`` (default: ``count`` offsets within ``half_width_mm`` of the current
+        line) and ``yaw_deg`` (default: ``yaw_count`` directions evenly around the turn
+        from the current one).
+        """
+        track = scene.external.track
+        if track is None:
+            raise PlanningInputError("rail placement: the cell has no track")
+        if count < 1 or yaw_count < 1:
+            raise PlanningInputError("count, yaw_count: expected integers >= 1")
+        if offset_mm is None:
+            offset_mm = (
+                np.linspace(-half_width_mm, half_width_mm, count) if count > 1 else np.zeros(1)
+            )
+        if yaw_deg is None:
+            direction = track.direction
+            current = float(np.arctan2(direction[1], direction[0]))
+            turns = rad_from_deg(360.0 * np.arange(yaw_count) / yaw_count) + current
+            yaw = np.mod(turns + np.pi, 2.0 * np.pi) - np.pi
+        else:
+            yaw = rad_from_deg(np.atleast_1d(np.asarray(yaw_deg, dtype=np.float64)))
+        if yaw.ndim != 1 or yaw.size == 0 or not np.all(np.isfinite(yaw)):
+            raise PlanningInputError("yaw_deg: expected a non-empty list of finite numbers")
+        grid = cls.from_user(offset_mm, [0.0], [0.0], [scene.cell.base.pedestal_height_mm])
+        grid = replace(grid, yaw=yaw, rail=True)
+        if grid.size > MAX_CANDIDATES:
+            raise PlanningInputError(
+                f"grid: {grid.size} candidates, more than the {MAX_CANDIDATES} accepted"
+            )
+        return grid
+
 
 @dataclass(frozen=True, eq=False)
 class RankedCandidate:
@@ -263,7 +339,14 @@ class RankedCandidate:
         Exact clearance to fixtures, keep-outs, pedestal and floor per target, m (NaN
         where not reached).
     blended_cycle_time : float or None
-        s, for the :data:`BLENDED_TOP` best only (module docstring).
+        s, for the :data:`BLENDED_TOP` best only (module docstring); None on a rail grid.
+    rail_frame : array, shape (4, 4), or None
+        A rail candidate's rail frame (track position 0, x along the travel).
+    track_position : array, shape (K,), or None
+        A rail candidate's track position of each reached target, m (NaN elsewhere).
+    travel_needed : tuple of float or None
+        ``(lower, upper)`` track positions covering every reached target's position with
+        :data:`RAIL_TRAVEL_MARGIN_M` at both ends, m; None without a reached target.
     """
 
     rank: int
@@ -275,6 +358,9 @@ class RankedCandidate:
     manipulability: FloatArray
     clearance: FloatArray
     blended_cycle_time: float | None
+    rail_frame: FloatArray | None = None
+    track_position: FloatArray | None = None
+    travel_needed: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -307,6 +393,12 @@ class PlacementResult:
         Grid index of the cell's current base pose, if the grid holds it.
     score_noise : float
         :func:`score_noise` of the grid.
+    track_position : array, grid shape + (K,), or None
+        Rail grids: the track position of each reached target, m (NaN elsewhere).
+    rail_travel : tuple of float or None
+        Rail grids: the track's configured travel ``(lower, upper)``, m.
+    carriage_length : float
+        Rail grids: the carriage's length along the rail, m (0 otherwise).
     """
 
     robot: Robot
@@ -326,6 +418,33 @@ class PlacementResult:
     best: tuple[RankedCandidate, ...]
     current: tuple[int, ...] | None
     score_noise: float
+    track_position: FloatArray | None = None
+    rail_travel: tuple[float, float] | None = None
+    carriage_length: float = 0.0
+
+
+@dataclass(frozen=True, eq=False)
+class _Rail:
+    """The fixed parts of a rail search (SI; module docstring).
+
+    scene : the cell with the track's travel widened to the search span
+    T_world_rail : (4, 4) the current rail frame
+    middle : (3,) world point of the rail line at the middle of the configured travel
+    middle_s : track position of that point
+    yaw0 : yaw of the current travel direction about world z, rad
+    T_rail_base : (4, 4) robot base frame at track position 0 in the rail frame
+    triple : (8,) row of the intervals' branch list for each row of BRANCHES
+    samples : track positions of the interval sweep over the widened travel
+    """
+
+    scene: Scene
+    T_world_rail: FloatArray
+    middle: FloatArray
+    middle_s: float
+    yaw0: float
+    T_rail_base: FloatArray
+    triple: npt.NDArray[np.int64]
+    samples: int
 
 
 @dataclass(frozen=True, eq=False)
@@ -354,6 +473,7 @@ class _Problem:
     joint_path: npt.NDArray[np.int64]  # (J,)
     linear_time: FloatArray  # (paths,)
     path_poses: tuple[npt.NDArray[np.int64], ...]
+    rail: _Rail | None = None
 
 
 def _base_poses(
@@ -435,8 +555,11 @@ def _placement_chunk(
     tuple of arrays
         reached count (C,), branch (C,), margin fraction, inverse condition,
         manipulability, clearance share, cycle time (C,), reached (C, K),
-        q (C, K, n).
+        q (C, K, n); for a rail grid also the track position of each reached
+        target (C, K), m (:func:`_rail_chunk`).
     """
+    if problem.rail is not None:
+        return _rail_chunk(problem, problem.rail, grid, start, stop)
     T_world_base = _base_poses(problem, grid, h, start, stop)
     C = T_world_base.shape[0]
     P = problem.T_world_pose.shape[0]
@@ -476,7 +599,23 @@ def _placement_chunk(
                     clear[index[0][fine[far]], index[1][fine[far]], index[2][fine[far]]] = True
         free[index] = ok
     on_branch = labels_match(labels[..., None, :], BRANCHES)  # (C, P, M, 8)
-    counting = free[..., None] & on_branch
+    return _chunk_scores(problem, free[..., None] & on_branch, q, clear)
+
+
+def _chunk_scores(
+    problem: _Problem, counting: BoolArray, q: FloatArray, clear: BoolArray
+) -> tuple[FloatArray, ...]:
+    """Scores of a chunk from its counting solutions (the tail of :func:`_placement_chunk`).
+
+    Parameters
+    ----------
+    counting : array of bool, shape (C, P, M, 8)
+        Solution slot ``m`` of pose ``p`` counts for branch ``b`` at candidate ``c``.
+    q : array, shape (C, P, M, n)
+    clear : array of bool, shape (C, P, M)
+        The solution keeps the clearance goal.
+    """
+    C, P = counting.shape[:2]
     pose_ok = np.any(counting, axis=2)  # (C, P, 8)
     target_ok = pose_ok[:, problem.target_pose]
     has_approach = problem.approach_pose >= 0
@@ -558,8 +697,247 @@ def _cycle_times(problem: _Problem, q_pose: FloatArray, pose_reached: BoolArray)
     return total
 
 
-def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem:
-    """Poses, requirements, path structure and obstacles of the search (module docstring)."""
+def _reach_bound(scene: Scene) -> float:
+    """Return an upper bound of the TCP's distance from the base origin, m (the chain's lengths summed)."""
+    robot = scene.robot
+    reach = float(np.linalg.norm(robot.origins[:, :3, 3], axis=1).sum())
+    reach += float(np.linalg.norm(robot.T_link_flange[:3, 3]))
+    reach += float(np.linalg.norm(scene.T_flange_tool[:3, 3]))
+    travel = np.maximum(np.abs(robot.lower), np.abs(robot.upper))[robot.prismatic]
+    return reach + float(travel.sum())
+
+
+def _rail_frames(rail: _Rail, grid: PlacementGrid, start: int, stop: int) -> FloatArray:
+    """Rail frames of flat candidates ``start..stop`` of a rail grid, shape (C, 4, 4).
+
+    The current rail frame turned about world z to the candidate's yaw, its line moved
+    by the offset along the turned frame's y and kept through the middle of the travel.
+    """
+    _, ix, iyaw = np.unravel_index(np.arange(start, stop), grid.shape[:3])
+    T = np.tile(rail.T_world_rail, (ix.shape[0], 1, 1))
+    T[:, :3, :3] = rotation_matrix_about_z(grid.yaw[iyaw] - rail.yaw0) @ rail.T_world_rail[:3, :3]
+    T[:, :3, 3] = rail.middle + grid.x[ix, None] * T[:, :3, 1] - rail.middle_s * T[:, :3, 0]
+    return T
+
+
+def _longest_middle(intervals: FloatArray) -> float:
+    """Middle of the longest interval (the first of equal ones), NaN for none; (I, 2)."""
+    if intervals.shape[0] == 0:
+        return math.nan
+    longest = int(np.argmax(intervals[:, 1] - intervals[:, 0]))
+    return float(0.5 * (intervals[longest, 0] + intervals[longest, 1]))
+
+
+def _intersection(a: FloatArray, b: FloatArray) -> FloatArray:
+    """Intersection of two unions of closed intervals (I, 2) and (J, 2), shape (L, 2)."""
+    lo = np.maximum(a[:, None, 0], b[None, :, 0])
+    hi = np.minimum(a[:, None, 1], b[None, :, 1])
+    keep = hi >= lo
+    return np.stack([lo[keep], hi[keep]], axis=1)
+
+
+def _track_positions(problem: _Problem, rail: _Rail, T_rail: FloatArray) -> FloatArray:
+    """Track position of every pose on every branch at each candidate rail, m, shape (C, P, 8).
+
+    The middle of the longest feasible interval of the track (feasible intervals of
+    :func:`posebridge.cell.external_kinematics.feasible_intervals`, computed in the
+    current rail's coordinates with the poses moved by the rail's change); a target and
+    its approach pose share one position, in the intersection of their intervals. NaN
+    where the branch reaches the pose from no position.
+    """
+    C, P = T_rail.shape[0], problem.T_world_pose.shape[0]
+    moved = rail.T_world_rail @ invert_transform(T_rail)[:, None] @ problem.T_world_pose[None]
+    found = feasible_intervals(rail.scene, moved.reshape(-1, 4, 4), 0, samples=rail.samples)
+    partner = np.full(P, -1, dtype=np.int64)
+    has = problem.approach_pose >= 0
+    partner[problem.target_pose[has]] = problem.approach_pose[has]
+    follower = np.zeros(P, dtype=bool)
+    follower[problem.approach_pose[has]] = True
+    s = np.full((C, P, BRANCHES.shape[0]), np.nan)
+    for c in range(C):
+        for p in np.flatnonzero(~follower).tolist():
+            per_branch = found.intervals[c * P + p]
+            other = found.intervals[c * P + partner[p]] if partner[p] >= 0 else None
+            for b, t in enumerate(rail.triple.tolist()):
+                spans = per_branch[t] if other is None else _intersection(per_branch[t], other[t])
+                s[c, p, b] = _longest_middle(spans)
+                if other is not None:
+                    s[c, partner[p], b] = s[c, p, b]
+    return s
+
+
+def _rail_chunk(
+    problem: _Problem, rail: _Rail, grid: PlacementGrid, start: int, stop: int
+) -> tuple[FloatArray, ...]:
+    """Score the rail candidates ``start..stop`` (one executor chunk; module docstring).
+
+    Every pose is solved on every branch with the base where the track puts it for that
+    branch (:func:`_track_positions`); the scores follow as for a fixed base, the
+    slots of the eight branches side by side.
+    """
+    T_rail = _rail_frames(rail, grid, start, stop)
+    C, P, B = T_rail.shape[0], problem.T_world_pose.shape[0], BRANCHES.shape[0]
+    n = problem.arm.robot.dof
+    s = _track_positions(problem, rail, T_rail)
+    placed = np.isfinite(s)
+    T_world_base = np.broadcast_to(T_rail[:, None, None], (C, P, B, 4, 4)).copy()
+    T_world_base[..., :3, 3] += np.where(placed, s, 0.0)[..., None] * T_world_base[..., :3, 0]
+    T_world_base = T_world_base @ rail.T_rail_base
+    T_base_pose = invert_transform(T_world_base) @ problem.T_world_pose[None, :, None]
+    ik = problem.solver.solve(T_base_pose.reshape(-1, 4, 4), T_flange_tool=problem.T_flange_tool)
+    M = ik.n_slots
+    labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2).reshape(C, P, B, M, 3)
+    allowed = (
+        (ik.valid & ik.within_limits).reshape(C, P, B, M)
+        & labels_match(labels, problem.requirement[None, :, None, None, :])
+        & labels_match(labels, BRANCHES[None, None, :, None, :])
+        & placed[..., None]
+    )
+    q = ik.q.reshape(C, P, B, M, n)
+    free = np.zeros((C, P, B, M), dtype=bool)
+    clear = np.zeros((C, P, B, M), dtype=bool)
+    index = np.nonzero(allowed)
+    if index[0].size:
+        support, own = _own_scenes(problem, float(grid.height[0]))
+        q_allowed = q[index]
+        ok = ~collision_batch(support, q_allowed, threshold_m=problem.margin)
+        ok &= ~collision_batch(own, q_allowed, threshold_m=0.0)
+        good = ~collision_batch(support, q_allowed, threshold_m=problem.clearance_goal)
+        group = np.ravel_multi_index(index[:3], (C, P, B))
+        starts = np.flatnonzero(np.r_[True, group[1:] != group[:-1]])
+        for first, last in zip(starts, [*starts[1:], group.size], strict=True):
+            c, p, b = (int(i[first]) for i in index[:3])
+            scene = _environment_scene(problem, T_world_base[c, p, b])
+            candidates = np.flatnonzero(ok[first:last]) + first
+            if candidates.size:
+                hit = collision_batch(scene, q_allowed[candidates], threshold_m=problem.margin)
+                ok[candidates[hit]] = False
+                fine = candidates[~hit]
+                fine = fine[good[fine]]
+                if fine.size:
+                    far = ~collision_batch(
+                        scene, q_allowed[fine], threshold_m=problem.clearance_goal
+                    )
+                    clear[tuple(i[fine[far]] for i in index)] = True
+        free[index] = ok
+    counting = np.zeros((C, P, B, M, B), dtype=bool)
+    for b in range(B):
+        counting[:, :, b, :, b] = free[:, :, b]
+    scores = _chunk_scores(
+        problem,
+        counting.reshape(C, P, B * M, B),
+        q.reshape(C, P, B * M, n),
+        clear.reshape(C, P, B * M),
+    )
+    branch = scores[1].astype(np.int64)
+    rows = np.arange(C)
+    reached = scores[7]
+    position = np.where(reached, s[rows[:, None], problem.target_pose, branch[:, None]], np.nan)
+    return (*scores, position)
+
+
+def _rail(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Rail:
+    """Return the rail search's fixed parts, its track travel widened to every candidate's needs."""
+    external = scene.external
+    track = external.track
+    if track is None:
+        raise PlanningInputError("rail placement: the cell has no track")
+    lower, upper = float(external.lower[0]), float(external.upper[0])
+    middle_s = 0.5 * (lower + upper)
+    T_rail_base = np.eye(4)
+    T_rail_base[2, 3] = track.carriage_height
+    T_rail_base = T_rail_base @ track.T_carriage_base
+    direction = track.direction
+    rail = _Rail(
+        scene=scene,
+        T_world_rail=track.T_world_rail,
+        middle=track.T_world_rail[:3, 3] + middle_s * direction,
+        middle_s=middle_s,
+        yaw0=float(np.arctan2(direction[1], direction[0])),
+        T_rail_base=T_rail_base,
+        triple=_branch_rows(scene),
+        samples=2,
+    )
+    # every pose's track coordinate on every candidate line, then the base's reach around it
+    T_rail = _rail_frames(rail, grid, 0, grid.size)
+    along = np.einsum(
+        "ci,cpi->cp",
+        T_rail[:, :3, 0],
+        problem.T_world_pose[None, :, :3, 3] - T_rail[:, None, :3, 3],
+    )
+    reach = _reach_bound(scene) + float(np.linalg.norm(T_rail_base[:3, 3]))
+    low = min(lower, float(along.min()) - reach)
+    high = max(upper, float(along.max()) + reach)
+    widened = replace(
+        external,
+        lower=np.r_[low, external.lower[1:]],
+        upper=np.r_[high, external.upper[1:]],
+    )
+    samples = int(np.ceil((high - low) / RAIL_SWEEP_SPACING_M)) + 1
+    return replace(rail, scene=replace(scene, external=widened), samples=samples)
+
+
+def _branch_rows(scene: Scene) -> npt.NDArray[np.int64]:
+    """Return, for each row of :data:`BRANCHES`, the first branch of the robot's scheme it matches."""
+    triples = np.array(branch_triples(scene), dtype=np.int8)
+    return np.array(
+        [int(np.argmax(labels_match(triples, row))) for row in BRANCHES], dtype=np.int64
+    )
+
+
+def _rail_details(
+    problem: _Problem,
+    rail: _Rail,
+    grid: PlacementGrid,
+    flat: int,
+    branch: int,
+    q: FloatArray,
+    position: FloatArray,
+) -> tuple[FloatArray, list[str], FloatArray]:
+    """Rail frame, reasons and exact clearance per target of one rail candidate.
+
+    Returns the candidate's rail frame (4, 4), why each target is not reached (``""``
+    where it is; the first failing test: a track position at all, the required branch,
+    the candidate's branch, collision there) and the clearance of each reached target's
+    configuration to fixtures, keep-outs, pedestal and floor with the base at its track
+    position, m (NaN elsewhere).
+    """
+    T_rail = _rail_frames(rail, grid, flat, flat + 1)
+    s = _track_positions(problem, rail, T_rail)[0]  # (P, 8)
+    support, _ = _own_scenes(problem, float(grid.height[0]))
+    clearance = np.full(problem.target_pose.shape[0], np.nan)
+    reasons = []
+    for k, p in enumerate(problem.target_pose.tolist()):
+        placed = np.isfinite(s[p])
+        required = labels_match(BRANCHES, problem.requirement[p])
+        if np.isfinite(position[k]):
+            T_world_base = T_rail[0].copy()
+            T_world_base[:3, 3] += position[k] * T_world_base[:3, 0]
+            scene = _environment_scene(problem, T_world_base @ rail.T_rail_base)
+            clearance[k] = min(
+                float(clearance_batch(scene, q[k][None]).distance[0]),
+                float(clearance_batch(support, q[k][None]).distance[0]),
+            )
+            reasons.append("")
+        elif not np.any(placed):
+            reasons.append("out of reach within the joint limits from every track position")
+        elif not np.any(placed & required):
+            reasons.append("not reachable on the required branch from any track position")
+        elif not placed[branch]:
+            reasons.append("reachable only on another branch than the candidate's")
+        else:
+            reasons.append("in collision at the chosen track position on the candidate's branch")
+    return T_rail[0], reasons, clearance
+
+
+def _problem(
+    scene: Scene, margin_m: float, clearance_goal_m: float, *, rail: bool = False
+) -> _Problem:
+    """Poses, requirements, path structure and obstacles of the search (module docstring).
+
+    For a rail search (``rail``) the track's carriage, which rides with the robot, is left
+    out of the obstacles and the foot stands on the carriage at the track's height.
+    """
     targets = scene.targets
     if len(targets.names) == 0:
         raise PlanningInputError("targets: the cell has no targets to place the robot for")
@@ -620,8 +998,16 @@ def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem
         linear_time.append(linear)
     full = clearance_scene(scene)
     environment_count = fixture_count(scene) + len(scene.keep_outs.names)
-    environment = full.obstacles.subset(np.arange(environment_count))
+    kept = np.arange(environment_count)
     base = scene.cell.base
+    foot_z = float(m_from_mm(base.position_mm[2]))
+    track = scene.external.track
+    if rail and track is not None:
+        carriage = f"{scene.external.names[0]} carriage"
+        boxes = scene.boxes.names
+        kept = kept[np.array([i >= len(boxes) or boxes[i] != carriage for i in kept], dtype=bool)]
+        foot_z = float(scene.T_world_base[2, 3]) - float(m_from_mm(base.pedestal_height_mm))
+    environment = full.obstacles.subset(kept)
     roll, pitch, _ = base.rpy_deg
     arm = cell_arm(scene)
     return _Problem(
@@ -635,7 +1021,7 @@ def _problem(scene: Scene, margin_m: float, clearance_goal_m: float) -> _Problem
         target_pose=np.array(target_pose, dtype=np.int64),
         approach_pose=np.array(approach_pose, dtype=np.int64),
         requirement=np.array(requirement, dtype=np.int8),
-        foot_z=float(m_from_mm(base.position_mm[2])),
+        foot_z=foot_z,
         R_foot=rotation_matrix_from_rpy(rad_from_deg([roll, pitch, 0.0])),
         pedestal_radius=(
             0.0 if base.pedestal_radius_mm is None else float(m_from_mm(base.pedestal_radius_mm))
@@ -676,8 +1062,9 @@ def search_base_placement(
     scene : Scene
         The cell; its targets, paths, fixtures, keep-outs, pedestal radius and tool.
     grid : PlacementGrid, optional
-        Candidates; :meth:`PlacementGrid.around` (±1 m, 21 x 21 positions,
-        8 yaws, the current pedestal) if omitted.
+        Candidates; if omitted, :meth:`PlacementGrid.rail_around` for a cell with a
+        track (21 offsets within ±1 m, 8 yaws), else :meth:`PlacementGrid.around`
+        (±1 m, 21 x 21 positions, 8 yaws, the current pedestal).
     executor : Executor, optional, keyword-only
         Runs the chunks; without one they run in this process.
     progress : callable, optional, keyword-only
@@ -709,14 +1096,19 @@ def search_base_placement(
             "clearance_goal_m: expected a finite number not below collision_margin_m, "
             f"got {clearance_goal_m!r}"
         )
-    grid = PlacementGrid.around(scene) if grid is None else grid
-    problem = _problem(scene, float(collision_margin_m), float(clearance_goal_m))
+    if grid is None:
+        has_track = scene.external.track is not None
+        grid = PlacementGrid.rail_around(scene) if has_track else PlacementGrid.around(scene)
+    problem = _problem(scene, float(collision_margin_m), float(clearance_goal_m), rail=grid.rail)
+    if grid.rail:
+        problem = replace(problem, rail=_rail(scene, grid, problem))
     ny, nx, nyaw, nh = grid.shape
     per_height = ny * nx * nyaw
+    size = RAIL_CHUNK_CANDIDATES if grid.rail else CHUNK_CANDIDATES
     chunks = [
-        (problem, grid, h, start, min(start + CHUNK_CANDIDATES, per_height))
+        (problem, grid, h, start, min(start + size, per_height))
         for h in range(nh)
-        for start in range(0, per_height, CHUNK_CANDIDATES)
+        for start in range(0, per_height, size)
     ]
     if executor is None:
         results = run_chunks(_placement_chunk, chunks, progress=progress, cancel=cancel)
@@ -746,6 +1138,11 @@ def search_base_placement(
     flat_score = score.reshape(-1)
     order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
     noise = score_noise(score, fraction)
+    position = gather(9, (K,)) if grid.rail else None
+    track = scene.external.track
+    rail_travel = None
+    if grid.rail and track is not None:
+        rail_travel = (float(scene.external.lower[0]), float(scene.external.upper[0]))
     return PlacementResult(
         robot=scene.robot,
         grid=grid,
@@ -761,9 +1158,12 @@ def search_base_placement(
         reached=reached,
         q=q,
         order=order,
-        best=_ranked(scene, grid, problem, score, branch, reached, q, order[:top], noise),
+        best=_ranked(scene, grid, problem, score, branch, reached, q, position, order[:top], noise),
         current=_current_index(scene, grid),
         score_noise=noise,
+        track_position=position,
+        rail_travel=rail_travel,
+        carriage_length=0.0 if track is None else float(track.carriage_size[0]),
     )
 
 
@@ -775,6 +1175,7 @@ def _ranked(
     branch: npt.NDArray[np.int8],
     reached: BoolArray,
     q: FloatArray,
+    position: FloatArray | None,
     top: npt.NDArray[np.int64],
     noise: float,
 ) -> tuple[RankedCandidate, ...]:
@@ -787,9 +1188,39 @@ def _ranked(
         idx = tuple(int(i) for i in np.unravel_index(flat, grid.shape))
         q_c = np.nan_to_num(q[idx])
         jac = jacobian_rows(jacobian_base(robot, q_c, problem.T_flange_tool), "position")
-        scenes = _candidate_scenes(problem, grid, flat)
         if rank > 1 and score[best[tie_rank - 1].index] - score[idx] > noise:
             tie_rank = rank
+        if problem.rail is not None and position is not None:
+            at = position[idx]
+            frame, reasons, clearance = _rail_details(
+                problem, problem.rail, grid, flat, int(branch[idx]), q[idx], at
+            )
+            placed = at[np.isfinite(at)]
+            best.append(
+                RankedCandidate(
+                    rank=rank,
+                    tie_rank=tie_rank,
+                    index=(idx[0], idx[1], idx[2], idx[3]),
+                    branch=_branch_words(int(branch[idx]), scheme) if reached[idx].any() else "",
+                    reasons=tuple(reasons),
+                    limit_margin=limit_margins(robot, q_c).margin.min(axis=1),
+                    manipulability=manipulability_yoshikawa(jac),
+                    clearance=clearance,
+                    blended_cycle_time=None,
+                    rail_frame=frame,
+                    track_position=at,
+                    travel_needed=(
+                        (
+                            float(placed.min()) - RAIL_TRAVEL_MARGIN_M,
+                            float(placed.max()) + RAIL_TRAVEL_MARGIN_M,
+                        )
+                        if placed.size
+                        else None
+                    ),
+                )
+            )
+            continue
+        scenes = _candidate_scenes(problem, grid, flat)
         best.append(
             RankedCandidate(
                 rank=rank,
@@ -939,7 +1370,17 @@ def _target_reasons(problem: _Problem, scenes: _CandidateScenes, branch: int) ->
 
 
 def _current_index(scene: Scene, grid: PlacementGrid) -> tuple[int, ...] | None:
-    """Grid index (y, x, yaw, height) of the cell's current base pose, if the grid holds it."""
+    """Grid index (y, x, yaw, height) of the cell's current base pose (rail), if the grid holds it."""
+    track = scene.external.track
+    if grid.rail and track is not None:
+        direction = track.direction
+        current = float(np.arctan2(direction[1], direction[0]))
+        offset = np.flatnonzero(np.abs(grid.x) < 1e-9)
+        turn = np.mod(grid.yaw - current + np.pi, 2 * np.pi) - np.pi
+        yaw = np.flatnonzero(np.abs(turn) < 1e-9)
+        if offset.size == 0 or yaw.size == 0:
+            return None
+        return (0, int(offset[0]), int(yaw[0]), 0)
     base = scene.cell.base
     match = []
     for axis, value in (

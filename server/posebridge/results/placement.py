@@ -12,6 +12,7 @@ plain-text table for the CLI.
 from __future__ import annotations
 
 import math
+from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
@@ -23,6 +24,7 @@ __all__ = [
     "PlacementCandidateReport",
     "PlacementGridReport",
     "PlacementReport",
+    "RailCandidateReport",
     "TargetPlacementReport",
     "placement_result",
     "render_placement",
@@ -38,6 +40,10 @@ CYCLE_TIME_NOTE = (
     f"to rest); blended: for the {BLENDED_TOP} best candidates only, every path sampled "
     "and timed through its blends as the path check does"
 )
+RAIL_NOTE = (
+    " Rail search: each target from its own track position; the track's travel time is left "
+    "out and no blended time is computed."
+)
 SCORE_WORDS = (
     "The score is the share of the targets the robot reaches on one arm branch, plus at "
     "most half a target's worth for how comfortably it reaches them (joint limits far "
@@ -50,6 +56,30 @@ class _Report(BaseModel):
     model_config = ConfigDict(extra="forbid", allow_inf_nan=False)
 
 
+class RailCandidateReport(_Report):
+    """Where a candidate puts the track's rail, and the travel its targets need."""
+
+    offset_mm: float = Field(
+        description="The rail line's offset from the current one, across the travel in the floor "
+        "plane (along the current rail frame's y turned to this yaw)."
+    )
+    yaw_deg: float = Field(description="Direction of travel about world z.")
+    origin_mm: list[float] = Field(
+        description="Rail frame origin (track position 0) of this line; the configured travel "
+        "keeps its middle where the current one has it along the line."
+    )
+    direction: list[float] = Field(description="Unit direction of travel.")
+    travel_needed_mm: list[float] | None = Field(
+        description="[lower, upper] track positions that cover every reached target's chosen "
+        "position, with the travel margin at both ends; null when none is reached."
+    )
+    travel_configured_mm: list[float] = Field(description="The track's configured range.")
+    fits: bool = Field(description="The travel needed lies within the configured range.")
+    rail_length_needed_mm: float | None = Field(
+        description="Travel needed plus the carriage length: the rail the targets need."
+    )
+
+
 class TargetPlacementReport(_Report):
     """One target at one candidate base pose."""
 
@@ -60,6 +90,11 @@ class TargetPlacementReport(_Report):
     min_margin_deg: float | None
     manipulability: float | None
     clearance_mm: float | None
+    track_position_mm: float | None = Field(
+        default=None,
+        description="Rail search: the track position the target is reached from (null for a "
+        "base search or where not reached).",
+    )
 
 
 class PlacementCandidateReport(_Report):
@@ -88,6 +123,12 @@ class PlacementCandidateReport(_Report):
         "(see cycle_time_note), null otherwise or if a path cannot be timed.",
     )
     targets: list[TargetPlacementReport]
+    rail: RailCandidateReport | None = Field(
+        default=None,
+        description="Rail search: where this candidate puts the rail and the travel it needs "
+        "(x_mm, y_mm are then the middle of the configured travel on its line, yaw_deg the "
+        "direction of travel).",
+    )
     tie_rank: int = Field(
         default=0,
         description="Rank of the best candidate this one ties with (within score_noise); its "
@@ -96,7 +137,11 @@ class PlacementCandidateReport(_Report):
 
 
 class PlacementGridReport(_Report):
-    """The full score grid for a heatmap, shape (ny, nx, nyaw, nheights)."""
+    """The full score grid for a heatmap, shape (ny, nx, nyaw, nheights).
+
+    For a rail search ``x_mm`` holds the rail line's offsets, ``y_mm`` is ``[0]`` and
+    ``yaw_deg`` the directions of travel.
+    """
 
     x_mm: list[float]
     y_mm: list[float]
@@ -109,6 +154,11 @@ class PlacementGridReport(_Report):
 class PlacementReport(_Report):
     """Ranked base poses and the score grid."""
 
+    search: Literal["base", "rail"] = Field(
+        default="base",
+        description="What was searched: the robot's base pose, or (a cell with a track) the "
+        "rail's line, each target reached from its own track position.",
+    )
     robot: str
     targets: list[str]
     candidates_evaluated: int
@@ -151,6 +201,31 @@ def _speed_note(best_s: float | None, current_s: float | None) -> str:
     )
 
 
+def _rail_report(result: PlacementResult, candidate: RankedCandidate) -> RailCandidateReport | None:
+    """Return the rail of a rail-search candidate in boundary units (None for a base search)."""
+    if candidate.rail_frame is None or result.rail_travel is None:
+        return None
+    grid = result.grid
+    _, ix, iyaw, _ = candidate.index
+    configured = [float(v) for v in mm_from_m(result.rail_travel)]
+    needed = candidate.travel_needed
+    needed_mm = None if needed is None else [float(v) for v in mm_from_m(needed)]
+    return RailCandidateReport(
+        offset_mm=float(mm_from_m(grid.x[ix])),
+        yaw_deg=float(deg_from_rad(grid.yaw[iyaw])),
+        origin_mm=mm_from_m(candidate.rail_frame[:3, 3]).tolist(),
+        direction=candidate.rail_frame[:3, 0].tolist(),
+        travel_needed_mm=needed_mm,
+        travel_configured_mm=configured,
+        fits=needed_mm is not None
+        and configured[0] <= needed_mm[0]
+        and needed_mm[1] <= configured[1],
+        rail_length_needed_mm=None
+        if needed is None
+        else float(mm_from_m(needed[1] - needed[0] + result.carriage_length)),
+    )
+
+
 def _candidate(result: PlacementResult, candidate: RankedCandidate) -> PlacementCandidateReport:
     """Return one ranked candidate in boundary units."""
     grid = result.grid
@@ -169,14 +244,24 @@ def _candidate(result: PlacementResult, candidate: RankedCandidate) -> Placement
             min_margin_deg=_optional(float(deg_from_rad(margins[k]))) if reached[k] else None,
             manipulability=float(candidate.manipulability[k]) if reached[k] else None,
             clearance_mm=_optional(float(mm_from_m(clearance[k]))) if reached[k] else None,
+            track_position_mm=(
+                _optional(float(mm_from_m(candidate.track_position[k])))
+                if candidate.track_position is not None and reached[k]
+                else None
+            ),
         )
         for k, name in enumerate(result.target_names)
     ]
     reached_clearance = clearance[reached]
+    rail = _rail_report(result, candidate)
+    x, y = grid.x[ix], grid.y[iy]
+    frame, travel = candidate.rail_frame, result.rail_travel
+    if frame is not None and travel is not None:  # the middle of the travel on the line
+        x, y, _ = frame[:3, 3] + 0.5 * (travel[0] + travel[1]) * frame[:3, 0]
     return PlacementCandidateReport(
         rank=candidate.rank,
-        x_mm=float(mm_from_m(grid.x[ix])),
-        y_mm=float(mm_from_m(grid.y[iy])),
+        x_mm=float(mm_from_m(x)),
+        y_mm=float(mm_from_m(y)),
         yaw_deg=float(deg_from_rad(grid.yaw[iyaw])),
         pedestal_height_mm=float(mm_from_m(grid.height[ih])),
         score=float(result.score[idx]),
@@ -193,6 +278,7 @@ def _candidate(result: PlacementResult, candidate: RankedCandidate) -> Placement
         cycle_time_s=_optional(float(result.cycle_time[idx])),
         blended_cycle_time_s=candidate.blended_cycle_time,
         targets=targets,
+        rail=rail,
         tie_rank=candidate.tie_rank,
     )
 
@@ -215,6 +301,7 @@ def placement_result(result: PlacementResult) -> PlacementReport:
     current = result.current
     current_cycle = None if current is None else _optional(float(result.cycle_time[current]))
     return PlacementReport(
+        search="rail" if grid.rail else "base",
         robot=robot.name,
         robot_geometry_missing=robot.geometry_missing,
         targets=list(result.target_names),
@@ -229,7 +316,7 @@ def placement_result(result: PlacementResult) -> PlacementReport:
             reach_fraction=result.reach_fraction.tolist(),
         ),
         score_note=SCORE_NOTE,
-        cycle_time_note=CYCLE_TIME_NOTE,
+        cycle_time_note=CYCLE_TIME_NOTE + (RAIL_NOTE if grid.rail else ""),
         current_score=None if current is None else float(result.score[current]),
         current_cycle_time_s=current_cycle,
         score_words=SCORE_WORDS,
@@ -238,8 +325,47 @@ def placement_result(result: PlacementResult) -> PlacementReport:
     )
 
 
+def _render_rail(report: PlacementReport, top: int) -> list[str]:
+    """Header and table of a rail search's best rail lines."""
+    lines = [
+        f"Rail placement for {report.robot}: {report.candidates_evaluated} rail lines, "
+        f"{len(report.targets)} targets; current rail score {number_text(report.current_score, 3)}",
+        report.score_words,
+        report.score_note,
+        report.cycle_time_note,
+        "",
+    ]
+    rows = []
+    for c in report.best[:top]:
+        rail = c.rail
+        needed = None if rail is None else rail.travel_needed_mm
+        rows.append(
+            [
+                str(c.rank) if c.tie_rank in (0, c.rank) else f"{c.rank} (ties {c.tie_rank})",
+                "-" if rail is None else f"{rail.offset_mm:.0f}",
+                f"{c.yaw_deg:.0f}",
+                f"{c.score:.3f}",
+                f"{c.targets_reached}/{len(c.targets)}",
+                c.branch,
+                number_text(c.min_margin_deg),
+                number_text(c.min_clearance_mm),
+                "-" if needed is None else f"{needed[0]:.0f}..{needed[1]:.0f}",
+                "-" if rail is None or needed is None else ("yes" if rail.fits else "no"),
+                number_text(None if rail is None else rail.rail_length_needed_mm, 0),
+            ]
+        )
+    header = ["rank", "offset mm", "yaw deg", "score", "reached", "branch", "margin deg"]
+    header += ["clearance mm", "travel needed mm", "fits", "rail mm"]
+    return lines + table_lines(header, rows)
+
+
 def render_placement(report: PlacementReport, *, top: int = 10) -> str:
-    """Plain-text table of the best base poses."""
+    """Plain-text table of the best base poses (rail lines for a rail search)."""
+    if report.search == "rail":
+        lines = _render_rail(report, top)
+        if report.robot_geometry_missing:
+            lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
+        return "\n".join(lines)
     lines = [
         f"Base placement for {report.robot}: {report.candidates_evaluated} candidates, "
         f"{len(report.targets)} targets; current base score {number_text(report.current_score, 3)}",

@@ -35,11 +35,14 @@ def start_placement(
 ) -> JobStatus:
     """Score candidate base poses around the current one and rank them.
 
-    Candidates vary positions, yaws and pedestal heights. Answers at once with the job; poll ``GET
-    /api/jobs/{id}``.
+    Candidates vary positions, yaws and pedestal heights; for a cell with a track (or
+    ``search: "rail"``) the rail line's offset and direction instead. Answers at once with
+    the job; poll ``GET /api/jobs/{id}``.
     """
-    heights = 1 if body.heights_mm is None else len(body.heights_mm)
-    candidates = body.count * body.count * body.yaw_count * heights
+    scene = cells.read().scene
+    rail = body.search == "rail" or (body.search == "auto" and scene.external.track is not None)
+    heights = 1 if body.heights_mm is None or rail else len(body.heights_mm)
+    candidates = (1 if rail else body.count) * body.count * body.yaw_count * heights
     if candidates > MAX_PLACEMENT_CANDIDATES:
         raise HTTPException(
             status_code=413,
@@ -48,7 +51,11 @@ def start_placement(
             f"{MAX_PLACEMENT_CANDIDATES}",
         )
     charge_reviewer(request, "job_cells", candidates)
-    scene = cells.read().scene
+    if rail:
+        grid = PlacementGrid.rail_around(
+            scene, half_width_mm=body.half_width_mm, count=body.count, yaw_count=body.yaw_count
+        )
+        return start_job(jobs, "placement", request, job_work(request, _placement, grid, body))
     around = PlacementGrid.around(
         scene, half_width_mm=body.half_width_mm, count=body.count, yaw_count=body.yaw_count
     )

@@ -8,7 +8,7 @@ shared with the command line.
 
 from __future__ import annotations
 
-from typing import Annotated
+from typing import Annotated, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
@@ -81,5 +81,11 @@ class PlacementRequest(BaseModel):
         | None
     ) = Field(default=None, description="Pedestal heights; the current one if omitted.")
     top: WholeNumber = Field(default=10, ge=1, le=50, description="Candidates listed with details.")
+    search: Literal["auto", "base", "rail"] = Field(
+        default="auto",
+        description="What to move: the robot's base, or the track's rail line (count offsets "
+        "across the travel within half_width_mm x yaw_count directions, each target reached "
+        "from its own track position; heights_mm unused); auto: rail for a cell with a track.",
+    )
     collision_margin_mm: float = Field(default=0.0, ge=0.0, le=500.0, allow_inf_nan=False)
     clearance_goal_mm: float = Field(default=50.0, ge=0.0, le=1000.0, allow_inf_nan=False)

@@ -1,0 +1,150 @@
+"""Rail placement for a robot on a track: closed-form reach of a planar arm beside a row of
+targets, a brute-force sweep of track positions, and the demo track cell."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from posebridge.cell.files import load_cell
+from posebridge.cell.model import validate_cell
+from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.kinematics.fk import fk_tool
+from posebridge.kinematics.ik import solve_ik_all
+from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.placement import PlacementGrid, search_base_placement
+from posebridge.resources import data_folder
+from posebridge.results.placement import placement_result, render_placement
+from posebridge.transforms import invert_transform
+
+L1, L2 = 0.4, 0.3  # pb-planar2r.toml link lengths, m
+INNER = np.sqrt(L1**2 + L2**2 + 2.0 * L1 * L2 * np.cos(np.radians(150.0)))  # |j2| <= 150 deg
+ROW_Y = 0.15  # m, the row of targets runs along world x at this y
+ROW_X = [0.5, 1.0, 1.5, 2.0]  # m
+OFFSETS_MM = [-900.0, -600.0, -300.0, 0.0, 300.0, 600.0, 900.0]
+
+
+def row_cell() -> Scene:
+    """pb-planar2r on a track along world x through the origin, four targets in a row at y = ROW_Y."""
+    data = {
+        "robot": {"name": "pb-planar2r"},
+        "floor_height_mm": -500.0,
+        "track": {
+            "origin_mm": [0.0, 0.0, 0.0],
+            "range_mm": [0.0, 2000.0],
+            "speed_mm_s": 1000.0,
+            "accel_mm_s2": 2000.0,
+        },
+        "targets": [
+            {"name": f"t{k}", "position_mm": [1000.0 * x, 1000.0 * ROW_Y, 0.0]}
+            for k, x in enumerate(ROW_X)
+        ],
+    }
+    return resolve_scene(validate_cell(data))
+
+
+def test_rail_offset_follows_the_reach_of_the_row() -> None:
+    scene = row_cell()
+    grid = PlacementGrid.rail_around(scene, offset_mm=OFFSETS_MM, yaw_deg=[0.0, 180.0])
+    result = search_base_placement(scene, grid, top=3)
+    offsets = np.array(OFFSETS_MM) / 1000.0
+    # closed form: the rail line at yaw 0 is y = offset (the rail frame's y is world y), at
+    # yaw 180 y = -offset. With the carriage free along the line, a target at distance d
+    # from the line is reached from some position iff d <= l1 + l2 (move the carriage so
+    # that the wrist distance sqrt(d^2 + u^2) lies in [INNER, l1 + l2]; planar 2R law of
+    # cosines): every target of the row has d = |ROW_Y - line y|
+    for iyaw, line_y in ((0, offsets), (1, -offsets)):
+        distance = np.abs(ROW_Y - line_y)
+        assert np.all(np.abs(distance - (L1 + L2)) > 0.01)  # no line on the boundary
+        expected = (distance <= L1 + L2).astype(float)
+        np.testing.assert_array_equal(result.reach_fraction[0, :, iyaw, 0], expected)
+    report = placement_result(result)
+    assert report.search == "rail"
+    best = report.best[0]
+    assert best.reach_fraction == 1.0
+    assert best.rail is not None
+    line_y = best.rail.offset_mm if abs(best.rail.yaw_deg) < 1.0 else -best.rail.offset_mm
+    assert abs(1000.0 * ROW_Y - line_y) <= 1000.0 * (L1 + L2)  # the closed form above
+    assert render_placement(report).startswith("Rail placement for pb-planar2r")
+
+
+def test_track_positions_of_a_line_beside_the_row() -> None:
+    scene = row_cell()
+    grid = PlacementGrid.rail_around(scene, offset_mm=[-300.0], yaw_deg=[0.0])
+    result = search_base_placement(scene, grid, top=1)
+    candidate = result.best[0]
+    assert candidate.track_position is not None
+    # closed form: the line y = -0.3 m is d = 0.45 m from the row, more than INNER, so each
+    # target's feasible track positions are one interval |s - x| <= sqrt((l1 + l2)^2 - d^2)
+    # centred on the target's x; its middle is the target's x (rail frame origin at the
+    # world origin: the middle of the 0..2000 mm travel stays at x = 1 m)
+    assert INNER < 0.45
+    np.testing.assert_allclose(candidate.track_position, ROW_X, atol=1e-4)
+    report = placement_result(result).best[0]
+    assert report.rail is not None
+    # the travel needed: the positions' span and the 100 mm margin at both ends (module
+    # docstring), against the configured 0..2000 mm; rail = travel + the 600 mm carriage
+    # (the cell model's default carriage length)
+    assert report.rail.travel_needed_mm == pytest.approx([400.0, 2100.0], abs=0.1)
+    assert report.rail.travel_configured_mm == [0.0, 2000.0]
+    assert report.rail.fits is False
+    assert report.rail.rail_length_needed_mm == pytest.approx(2300.0, abs=0.2)
+    assert report.rail.origin_mm == pytest.approx([0.0, -300.0, 0.0], abs=1e-9)
+    assert [t.track_position_mm for t in report.targets] == pytest.approx(
+        [1000.0 * x for x in ROW_X], abs=0.1
+    )
+
+
+def test_reached_targets_match_a_dense_sweep_of_track_positions() -> None:
+    scene = row_cell()
+    grid = PlacementGrid.rail_around(scene, offset_mm=[-600.0, 0.0, 600.0], yaw_deg=[0.0, 90.0])
+    result = search_base_placement(scene, grid, top=grid.size)
+    track = scene.external.track
+    assert track is not None
+    positions = np.linspace(-3.0, 5.0, 2001)  # 4 mm steps, wider than any reach
+    for candidate in result.best:
+        assert candidate.rail_frame is not None
+        T_base = candidate.rail_frame @ np.tile(np.eye(4), (positions.size, 1, 1))
+        T_base[:, :3, 3] += positions[:, None] * candidate.rail_frame[:3, 0]
+        T_base = T_base @ track.T_carriage_base  # carriage height 0
+        reached = result.reached[candidate.index]
+        for k in range(len(ROW_X)):
+            T_base_target = invert_transform(T_base) @ scene.targets.T_world_target[k]
+            ik = solve_ik_all(scene.robot, T_base_target, T_flange_tool=scene.T_flange_tool)
+            # reference: a brute-force sweep of track positions solved with the same IK (no
+            # obstacles near; both elbow branches mirror each other, so any branch will do)
+            assert reached[k] == bool(np.any(ik.valid & ik.within_limits))
+            if reached[k]:
+                # the reported configuration puts the TCP on the target from its position
+                s = candidate.track_position[k]  # type: ignore[index]
+                T = candidate.rail_frame.copy()
+                T[:3, 3] += s * T[:3, 0]
+                q = result.q[candidate.index][k]
+                tcp = (
+                    T @ track.T_carriage_base @ fk_tool(scene.robot, q[None], scene.T_flange_tool)
+                )[0]
+                np.testing.assert_allclose(  # forward kinematics, closed form of the chain
+                    tcp[:3, 3], scene.targets.T_world_target[k][:3, 3], atol=1e-6
+                )
+
+
+def test_rail_search_needs_a_track() -> None:
+    scene = resolve_scene(validate_cell({"robot": {"name": "pb-planar2r"}}))
+    with pytest.raises(PlanningInputError, match="no track"):
+        PlacementGrid.rail_around(scene)
+
+
+def test_demo_track_cell_searches_its_rail() -> None:
+    path = data_folder("robots") / "demo-track-cell.json"
+    scene = resolve_scene(load_cell(path), path)
+    grid = PlacementGrid.rail_around(scene, offset_mm=[0.0], yaw_deg=[0.0])
+    report = placement_result(search_base_placement(scene, grid, top=1))
+    assert report.search == "rail"
+    assert report.candidates_evaluated == 1
+    assert report.current_score == pytest.approx(report.best[0].score)  # the current line
+    rail = report.best[0].rail
+    assert rail is not None
+    # source: demo-track-cell.json's track: origin (0, 0, 40) mm along x, travel 0..4000 mm
+    assert rail.travel_configured_mm == [0.0, 4000.0]
+    assert rail.origin_mm == pytest.approx([0.0, 0.0, 40.0], abs=1e-9)
+    assert rail.direction == pytest.approx([1.0, 0.0, 0.0], abs=1e-12)
