@@ -21,6 +21,7 @@ from posebridge.resources import data_folder
 
 ROBOTS = data_folder("robots")
 DEMO_CELL = str(ROBOTS / "demo-cell.json")
+TRACK_CELL = str(ROBOTS / "demo-track-cell.json")
 DEMO_LOG = str(ROBOTS / "demo-log.csv")
 
 
@@ -216,6 +217,8 @@ def test_ik_old_all_turns_option_still_works_and_says_it_is_deprecated(
         (["check", "/nonexistent/cell.json"], "/nonexistent/cell.json"),
         (["diagnose", DEMO_CELL, "--joints", "0,0"], "expected 6 comma-separated values, got 2"),
         (["place", DEMO_CELL, "--grid", "z_mm=1"], "--grid: expected items KEY=START:STOP:COUNT"),
+        (["place", TRACK_CELL, "--grid", "x_mm=0"], "a rail search takes offset_mm and yaw_deg"),
+        (["place", DEMO_CELL, "--grid", "offset_mm=0"], "offset_mm is for a rail search"),
         (["serve", "--host", "0.0.0.0"], "not a loopback address"),
     ],
 )
@@ -381,6 +384,18 @@ def test_jointmap_over_the_track(capsys: pytest.CaptureFixture[str]) -> None:
     assert "external axes: table-1 45.00 deg" in capsys.readouterr().out
     assert main(["jointmap", cell, "--joints", "track,table-1", "--quiet"]) == 2
     assert "at most one external axis" in capsys.readouterr().err
+
+
+def test_place_searches_the_rail_of_a_track_cell(capsys: pytest.CaptureFixture[str]) -> None:
+    code, report = run_json(
+        capsys, "place", TRACK_CELL, "--grid", "offset_mm=0 yaw_deg=0", "--workers", "1"
+    )
+    assert code == 0
+    assert report["search"] == "rail"  # automatic for a cell with a track
+    assert report["grid"]["x_mm"] == [0.0]
+    # source: demo-track-cell.json's track, travel 0..4000 mm along +x
+    assert report["best"][0]["rail"]["travel_configured_mm"] == [0.0, 4000.0]
+    assert report["best"][0]["rail"]["direction"] == pytest.approx([1.0, 0.0, 0.0])
 
 
 def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None:
