@@ -231,12 +231,15 @@ def test_rail_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
     page.fill("#place-count", "3")
     page.fill("#place-yaws", "2")
     page.click("#place-run")
-    page.wait_for_function(
+    page.wait_for_function(  # the answer, or the search's end said in the panel
         "() => { const p = window.posebridge.getState().placement;"
-        " return Boolean(p && p.search === 'rail'); }",
+        " const said = (document.getElementById('place-summary') || {}).textContent || '';"
+        " return Boolean(p) || said.startsWith('Search '); }",
         timeout=600_000,
     )
     placement = page.evaluate(STATE)["placement"]
+    assert placement is not None, page.inner_text("#place-summary")
+    assert placement["search"] == "rail"
     grid = placement["grid"]
     # the request's grid (closed form): 3 offsets within 500 mm x 2 directions from the demo's
     # rail along +x (0 deg)
