@@ -8,6 +8,7 @@ scalar-first ``[w, x, y, z]``), rotation vectors are axis * angle in radians.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 import pytest
@@ -15,6 +16,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.spatial.transform import Rotation
 
+from posebridge.arrays import FloatArray
 from posebridge.transforms import (
     TransformError,
     check_rotation_matrix,
@@ -207,30 +209,24 @@ def test_rotation_about_axis_matches_scipy() -> None:
     )
 
 
-def test_rotation_about_z_matches_scipy_with_exact_zeros() -> None:
+@pytest.mark.parametrize(
+    ("rotation", "axis", "k"),
+    [(rotation_matrix_about_z, "z", 2), (rotation_matrix_about_y, "y", 1)],
+)
+def test_elementary_rotation_matches_scipy_with_exact_zeros(
+    rotation: Callable[[FloatArray], FloatArray], axis: str, k: int
+) -> None:
     angle = np.random.default_rng(SEED).uniform(-4, 4, (20, 5))
-    R = rotation_matrix_about_z(angle)
+    R = rotation(angle)
     assert R.shape == (20, 5, 3, 3)
-    # scipy Rotation (reference library): elementary rotation about z
-    expected = Rotation.from_euler("z", angle.reshape(-1, 1)).as_matrix().reshape(20, 5, 3, 3)
+    # scipy Rotation (reference library): elementary rotation about the axis
+    expected = Rotation.from_euler(axis, angle.reshape(-1, 1)).as_matrix().reshape(20, 5, 3, 3)
     np.testing.assert_allclose(R, expected, atol=1e-15)
-    # Rz's third row and column are exactly (0, 0, 1) (closed form)
-    assert np.all(R[..., 2, :2] == 0.0)
-    assert np.all(R[..., :2, 2] == 0.0)
-    assert np.all(R[..., 2, 2] == 1.0)
-
-
-def test_rotation_matrix_about_y_matches_scipy() -> None:
-    angle = np.random.default_rng(SEED).uniform(-4, 4, (20, 5))
-    R = rotation_matrix_about_y(angle)
-    assert R.shape == (20, 5, 3, 3)
-    # scipy Rotation (reference library): elementary rotation about y
-    expected = Rotation.from_euler("y", angle.reshape(-1, 1)).as_matrix().reshape(20, 5, 3, 3)
-    np.testing.assert_allclose(R, expected, atol=1e-15)
-    # Ry's second row and column are exactly (0, 1, 0) (closed form)
-    assert np.all(R[..., 1, [0, 2]] == 0.0)
-    assert np.all(R[..., [0, 2], 1] == 0.0)
-    assert np.all(R[..., 1, 1] == 1.0)
+    # the axis's row and column are exactly its unit vector (closed form)
+    others = [i for i in range(3) if i != k]
+    assert np.all(R[..., k, others] == 0.0)
+    assert np.all(R[..., others, k] == 0.0)
+    assert np.all(R[..., k, k] == 1.0)
 
 
 # --------------------------------------------------------------- transforms

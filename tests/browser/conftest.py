@@ -11,10 +11,12 @@ unless POSEBRIDGE_REQUIRE_BROWSER=1, which turns the skip into a failure.
 from __future__ import annotations
 
 import contextlib
+import functools
 import json
 import os
 import shutil
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
+from contextlib import AbstractContextManager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -25,6 +27,7 @@ import pytest
 from posebridge.api.server import background_server
 from posebridge.api.settings import Settings
 from posebridge.bench.browser import CHROMIUM_PATH, chromium_available, launch_chromium
+from posebridge.bench.invented_urdf import write_invented_arm
 from posebridge.resources import data_folder
 
 ARTIFACTS = Path(__file__).resolve().parents[1] / "artifacts"
@@ -63,6 +66,88 @@ def server_url(cell_path: Path) -> Iterator[str]:
     """Base URL (ending in /) of a dashboard serving the demo cell (six-axis arm) on loopback."""
     with background_server(Settings(robot="pb-arm6", cell_path=cell_path)) as url:
         yield url
+
+
+@contextlib.contextmanager
+def _gripper_arm_server(folder: Path, robot_entry: dict[str, str]) -> Iterator[tuple[str, Path]]:
+    """Serve the demo cell with the invented gripper arm as its robot; yield (base URL, cell file).
+
+    The arm's URDF package (:mod:`posebridge.bench.invented_urdf`) is written into
+    ``folder``, the cell's robot entry is its file plus ``robot_entry`` (``to_link``,
+    ``from_link``: none gives a URDF with three leaf links and no chain chosen), without the
+    demo's paths and approaches. The mesh cache goes to ``folder/data`` while it serves.
+    """
+    with pytest.MonkeyPatch.context() as patch:
+        patch.setenv("XDG_DATA_HOME", str(folder / "data"))
+        urdf = write_invented_arm(folder, level=1)
+        data = json.loads(DEMO_CELL.read_text())
+        data["robot"] = {"file": str(urdf.relative_to(folder)), **robot_entry}
+        data["paths"] = []
+        for target in data["targets"]:
+            target.pop("approach", None)
+        cell = folder / "cell.json"
+        cell.write_text(json.dumps(data), encoding="utf-8")
+        with background_server(Settings(robot="pb-arm6", cell_path=cell)) as url:
+            yield url, cell
+
+
+GripperArmServer = Callable[[Path, dict[str, str]], AbstractContextManager[tuple[str, Path]]]
+
+
+@pytest.fixture(scope="session")
+def gripper_arm_server() -> GripperArmServer:
+    """``with gripper_arm_server(folder, robot_entry) as (url, cell_file)``: the demo cell with
+    the invented gripper arm (:func:`_gripper_arm_server`)."""
+    return _gripper_arm_server
+
+
+TALL_VIEWPORT = {"width": 1600, "height": 1250}
+
+
+@dataclass
+class WatchedPage:
+    """A page opened on a server of its own test, with the uncaught errors seen on it."""
+
+    page: Any
+    errors: list[str]
+
+
+def _open_at(
+    browser: Any, url: str, ready: str, *, console: bool = False, timeout_ms: int = 180_000
+) -> WatchedPage:
+    """Open ``url`` in a new page (:data:`TALL_VIEWPORT`) and wait until its state is ready.
+
+    ``ready`` is a JavaScript expression over the page's state ``s``
+    (``window.posebridge.getState()``), e.g. ``"s.cellActive && s.fk"``. Uncaught page
+    errors are recorded, and with ``console`` the console's errors other than failed loads
+    (answers the page handles, such as a 422 or 429, are logged by the browser as those).
+    """
+    page = browser.new_page(viewport=TALL_VIEWPORT)
+    errors: list[str] = []
+    page.on("pageerror", lambda error: errors.append(str(error)))
+    if console:
+        page.on(
+            "console",
+            lambda m: (
+                errors.append(m.text)
+                if m.type == "error" and not m.text.startswith("Failed to load resource")
+                else None
+            ),
+        )
+    page.goto(url)
+    page.wait_for_function(
+        "() => { const s = window.posebridge && window.posebridge.getState();"
+        f" return Boolean(s && ({ready})); }}",
+        timeout=timeout_ms,
+    )
+    return WatchedPage(page=page, errors=errors)
+
+
+@pytest.fixture(scope="session")
+def open_at(browser: Any) -> Callable[..., WatchedPage]:
+    """``open_at(url, ready, console=False)``: a new page at ``url`` once the JavaScript
+    expression ``ready`` over its state ``s`` holds (:func:`_open_at`)."""
+    return functools.partial(_open_at, browser)
 
 
 def reset_cell(base_url: str) -> dict[str, Any]:

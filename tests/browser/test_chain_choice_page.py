@@ -5,56 +5,25 @@ saves the chosen one (If-Match), then loads the cell. The robot is the invented 
 from __future__ import annotations
 
 import json
-import os
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
 import pytest
 
-from posebridge.api.server import background_server
-from posebridge.api.settings import Settings
-from posebridge.bench.invented_urdf import write_invented_arm
-from posebridge.resources import data_folder
-
-VIEWPORT = {"width": 1600, "height": 1250}
-
 
 @pytest.fixture
-def unchosen_server(tmp_path: Path) -> Iterator[tuple[str, Path]]:
-    saved = os.environ.get("XDG_DATA_HOME")
-    os.environ["XDG_DATA_HOME"] = str(tmp_path / "data")  # the mesh cache goes there
-    urdf = write_invented_arm(tmp_path, level=1)
-    data = json.loads((data_folder("robots") / "demo-cell.json").read_text())
-    data["robot"] = {"file": str(urdf.relative_to(tmp_path))}  # no to_link: three leaves
-    data["paths"] = []
-    for target in data["targets"]:
-        target.pop("approach", None)
-    cell = tmp_path / "cell.json"
-    cell.write_text(json.dumps(data), encoding="utf-8")
-    try:
-        with background_server(Settings(robot="pb-arm6", cell_path=cell)) as url:
-            yield url, cell
-    finally:
-        if saved is None:
-            os.environ.pop("XDG_DATA_HOME", None)
-        else:
-            os.environ["XDG_DATA_HOME"] = saved
+def unchosen_server(tmp_path: Path, gripper_arm_server: Any) -> Iterator[tuple[str, Path]]:
+    with gripper_arm_server(tmp_path, {}) as served:  # no to_link: three leaves
+        yield served
 
 
 def test_page_offers_the_leaf_links_and_saves_the_choice(
-    browser: Any, unchosen_server: tuple[str, Path], artifacts: Path
+    open_at: Any, unchosen_server: tuple[str, Path], artifacts: Path
 ) -> None:
     url, cell_file = unchosen_server
-    page = browser.new_page(viewport=VIEWPORT)
-    errors: list[str] = []
-    page.on("pageerror", lambda error: errors.append(str(error)))
-    page.goto(url)
-    page.wait_for_function(
-        "() => { const s = window.posebridge && window.posebridge.getState();"
-        " return s && s.chainChoice && s.chainChoice.leaves.length > 0; }",
-        timeout=180_000,
-    )
+    opened = open_at(url, "s.chainChoice && s.chainChoice.leaves.length > 0")
+    page, errors = opened.page, opened.errors
     assert page.is_visible("#chain-choice-row")
     options = page.evaluate(
         "() => [...document.querySelectorAll('#chain-choice option')].map((o) => o.value)"

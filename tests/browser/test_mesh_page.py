@@ -76,22 +76,18 @@ def test_dropped_stl_is_drawn_and_named_by_the_target_check(
 
 
 def test_machine_demo_passes_its_target_check_on_the_page(
-    browser: Any, tmp_path: Path, artifacts: Path
+    open_at: Any, tmp_path: Path, artifacts: Path
 ) -> None:
     robots = data_folder("robots")
     shutil.copyfile(robots / "demo-machine-cell.json", tmp_path / "cell.json")
     shutil.copytree(robots / "meshes", tmp_path / "meshes")
     with background_server(Settings(robot="pb-arm6", cell_path=tmp_path / "cell.json")) as url:
-        page = browser.new_page(viewport={"width": 1600, "height": 1250})
-        errors: list[str] = []
-        page.on("pageerror", lambda error: errors.append(str(error)))
-        page.goto(url)
-        page.wait_for_function(
-            "() => { const s = window.posebridge && window.posebridge.getState();"
-            " return s && s.cell && s.targetCheck && s.targetCheck.etag === s.cell.etag"
-            " && ['machine', 'conveyor', 'fence'].every((n) => s.meshes[n]); }",
-            timeout=120_000,
+        opened = open_at(
+            url,
+            "s.cell && s.targetCheck && s.targetCheck.etag === s.cell.etag"
+            " && ['machine', 'conveyor', 'fence'].every((n) => s.meshes[n])",
         )
+        page, errors = opened.page, opened.errors
         # the demo's promise (its notes): one branch reaches every target clear
         assert page.get_attribute("#target-check-summary", "data-consistent") == "true"
         # each drawing (3D and flat, fetched at once) is its own mesh: its vertices lie in

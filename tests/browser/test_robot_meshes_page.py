@@ -6,19 +6,12 @@ chain chosen on the page."""
 from __future__ import annotations
 
 import json
-import os
 from collections.abc import Iterator
 from pathlib import Path
 from typing import Any
 
 import pytest
 
-from posebridge.api.server import background_server
-from posebridge.api.settings import Settings
-from posebridge.bench.invented_urdf import write_invented_arm
-from posebridge.resources import data_folder
-
-VIEWPORT = {"width": 1600, "height": 1250}
 ARM_VERTICES = """() => {
   const trace = (document.getElementById("scene3d").data || []).find((t) => t.name === "arm");
   return trace ? trace.x.length : -1;
@@ -30,51 +23,21 @@ PLAN_ARM_POINTS = """() => {
 
 
 @pytest.fixture(scope="module")
-def gripper_server(tmp_path_factory: pytest.TempPathFactory) -> Iterator[tuple[str, Path]]:
-    folder = tmp_path_factory.mktemp("gripper")
-    saved = os.environ.get("XDG_DATA_HOME")
-    os.environ["XDG_DATA_HOME"] = str(folder / "data")  # the mesh cache goes there
-    urdf = write_invented_arm(folder, level=1)
-    data = json.loads((data_folder("robots") / "demo-cell.json").read_text())
-    data["robot"] = {"file": str(urdf.relative_to(folder)), "to_link": "tool0"}
-    data["paths"] = []
-    for target in data["targets"]:
-        target.pop("approach", None)
-    cell = folder / "cell.json"
-    cell.write_text(json.dumps(data), encoding="utf-8")
-    try:
-        with background_server(Settings(robot="pb-arm6", cell_path=cell)) as url:
-            yield url, cell
-    finally:
-        if saved is None:
-            os.environ.pop("XDG_DATA_HOME", None)
-        else:
-            os.environ["XDG_DATA_HOME"] = saved
+def gripper_server(
+    tmp_path_factory: pytest.TempPathFactory, gripper_arm_server: Any
+) -> Iterator[tuple[str, Path]]:
+    with gripper_arm_server(tmp_path_factory.mktemp("gripper"), {"to_link": "tool0"}) as served:
+        yield served
 
 
 def test_page_draws_the_urdf_robot_meshes(
-    browser: Any, gripper_server: tuple[str, Path], artifacts: Path
+    open_at: Any, gripper_server: tuple[str, Path], artifacts: Path
 ) -> None:
     url, cell_file = gripper_server
-    page = browser.new_page(viewport=VIEWPORT)
-    errors: list[str] = []
-    page.on("pageerror", lambda error: errors.append(str(error)))
-    # answers refused while the robot switches chains (a 422 for a stale joint count, a 429 of the
-    # server's pacing) are logged by the browser as failed loads; the page handles them
-    page.on(
-        "console",
-        lambda m: (
-            errors.append(m.text)
-            if m.type == "error" and not m.text.startswith("Failed to load resource")
-            else None
-        ),
-    )
-    page.goto(url)
-    page.wait_for_function(
-        "() => { const s = window.posebridge && window.posebridge.getState();"
-        " return s && s.cellActive && s.robotMeshes.length === 10 && s.fk; }",
-        timeout=180_000,
-    )
+    # console errors too: answers refused while the robot switches chains (a 422 for a stale
+    # joint count, a 429 of the server's pacing) are failed loads the page handles
+    opened = open_at(url, "s.cellActive && s.robotMeshes.length === 10 && s.fk", console=True)
+    page, errors = opened.page, opened.errors
     state = page.evaluate("() => window.posebridge.getState().robot")
     assert state["joints"][0]["name"] == "shoulder_pan"
     assert state["dof"] == 6
@@ -110,19 +73,15 @@ def test_page_draws_the_urdf_robot_meshes(
 
 
 def test_page_chooses_the_chain_start(
-    browser: Any, gripper_server: tuple[str, Path], artifacts: Path
+    open_at: Any, gripper_server: tuple[str, Path], artifacts: Path
 ) -> None:
     url, cell_file = gripper_server
-    page = browser.new_page(viewport=VIEWPORT)
-    errors: list[str] = []
-    page.on("pageerror", lambda error: errors.append(str(error)))
-    page.goto(url)
-    page.wait_for_function(
-        "() => { const s = window.posebridge && window.posebridge.getState();"
-        " return s && s.cellActive && s.robot && s.robot.chain_starts"
-        " && s.robot.chain_starts.length > 1 && s.fk; }",
-        timeout=180_000,
+    opened = open_at(
+        url,
+        "s.cellActive && s.robot && s.robot.chain_starts && s.robot.chain_starts.length > 1"
+        " && s.fk",
     )
+    page, errors = opened.page, opened.errors
     end = page.evaluate("() => window.posebridge.getState().robot.to_link")
     dof = page.evaluate("() => window.posebridge.getState().robot.dof")
     # the links above the chain's end, from the root down (invented_urdf's tree)
@@ -147,20 +106,13 @@ def test_page_chooses_the_chain_start(
 
 
 def test_joint_map_moves_show_the_link_meshes(
-    browser: Any, gripper_server: tuple[str, Path], artifacts: Path
+    open_at: Any, gripper_server: tuple[str, Path], artifacts: Path
 ) -> None:
     # the joint map has no pose preview of its own: a move on it sets the arm's joints and the
     # views that show the arm draw it with its link meshes at the new pose
     url, _ = gripper_server
-    page = browser.new_page(viewport=VIEWPORT)
-    errors: list[str] = []
-    page.on("pageerror", lambda error: errors.append(str(error)))
-    page.goto(url)
-    page.wait_for_function(
-        "() => { const s = window.posebridge && window.posebridge.getState();"
-        " return s && s.cellActive && s.robotMeshes.length > 0 && s.fk; }",
-        timeout=180_000,
-    )
+    opened = open_at(url, "s.cellActive && s.robotMeshes.length > 0 && s.fk")
+    page, errors = opened.page, opened.errors
     drawn = page.evaluate(
         "() => window.posebridge.getState().robotMeshes"
         ".reduce((n, m) => n + m.vertices_mm.length, 0)"
