@@ -322,20 +322,45 @@ def _path_item(report: PathCheckReport) -> dict[str, Any]:
             }
             for segment in report.segments
         ],
-        "findings": [
-            {
-                "severity": finding.severity,
-                "where": (
-                    "path"
-                    if finding.segment_index is None
-                    else f"segment {finding.segment_index + 1} ({finding.from_waypoint} to "
-                    f"{finding.to_waypoint}) at {100.0 * finding.fraction_worst:.0f} %"
-                ),
-                "message": finding.message,
-            }
-            for finding in report.findings
-        ],
+        "findings": _path_findings(report),
     }
+
+
+def _path_findings(report: PathCheckReport) -> list[dict[str, Any]]:
+    """Return the path's finding rows in order, a repeated cause once.
+
+    A cause (object pair, joint) of more than one finding of a kind and severity is one row
+    with its count and worst instance (the path check's ``finding_groups``), where that cause
+    first appears; as the CLI text and the page list them.
+    """
+    repeated = {(g.severity, g.kind, g.cause): g for g in report.finding_groups if g.count > 1}
+    shown: set[tuple[str, str, str]] = set()
+    rows: list[dict[str, Any]] = []
+    for finding in report.findings:
+        group = None
+        if finding.cause is not None:
+            key = (finding.severity, finding.kind, finding.cause)
+            group = repeated.get(key)
+            if group is not None and key in shown:
+                continue
+            shown.add(key)
+        worst = finding if group is None else group.worst
+        where = (
+            "path"
+            if worst.segment_index is None
+            else f"segment {worst.segment_index + 1} ({worst.from_waypoint} to "
+            f"{worst.to_waypoint}) at {100.0 * worst.fraction_worst:.0f} %"
+        )
+        count = 1 if group is None else group.count
+        rows.append(
+            {
+                "severity": worst.severity,
+                "count": count,
+                "where": where if group is None else f"{count} × {group.cause}, worst at {where}",
+                "message": worst.message,
+            }
+        )
+    return rows
 
 
 def _paths_section(reports: list[PathCheckReport]) -> dict[str, Any]:
