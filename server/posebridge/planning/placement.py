@@ -101,6 +101,7 @@ from __future__ import annotations
 
 import math
 import threading
+from collections.abc import Iterable
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -545,6 +546,51 @@ def _candidate_scenes(problem: _Problem, grid: PlacementGrid, flat: int) -> _Can
     return _CandidateScenes(T_world_base, support, _environment_scene(problem, T_world_base), own)
 
 
+def _free_and_clear(
+    problem: _Problem,
+    own_scenes: tuple[ClearanceScene, ClearanceScene],
+    q: FloatArray,
+    spans: Iterable[tuple[int, int, ClearanceScene]],
+) -> tuple[BoolArray, BoolArray]:
+    """Classify allowed solutions as collision-free and as clear of the clearance goal.
+
+    Parameters
+    ----------
+    problem : _Problem
+        Its ``margin`` (collision threshold, m) and ``clearance_goal`` (m).
+    own_scenes : (ClearanceScene, ClearanceScene)
+        The support scene (pedestal and floor, checked against ``margin`` and the goal)
+        and the robot's own pairs (checked for contact), as :func:`_own_scenes` returns.
+    q : array, shape (S, n)
+        The allowed solutions, grouped by base pose.
+    spans : iterable of (first, last, scene)
+        The solutions ``first..last`` share one base pose and its environment scene.
+
+    Returns
+    -------
+    free, clear : bool arrays, shape (S,)
+        ``free``: no collision within ``margin``; ``clear``: also farther than
+        ``clearance_goal`` from the support and the environment.
+    """
+    support, own = own_scenes
+    free = ~collision_batch(support, q, threshold_m=problem.margin)
+    free &= ~collision_batch(own, q, threshold_m=0.0)
+    good = ~collision_batch(support, q, threshold_m=problem.clearance_goal)
+    clear = np.zeros_like(free)
+    for first, last, scene in spans:
+        candidates = np.flatnonzero(free[first:last]) + first
+        if not candidates.size:
+            continue
+        hit = collision_batch(scene, q[candidates], threshold_m=problem.margin)
+        free[candidates[hit]] = False
+        fine = candidates[~hit]
+        fine = fine[good[fine]]
+        if fine.size:
+            far = ~collision_batch(scene, q[fine], threshold_m=problem.clearance_goal)
+            clear[fine[far]] = True
+    return free, clear
+
+
 def _placement_chunk(
     problem: _Problem, grid: PlacementGrid, h: int, start: int, stop: int
 ) -> tuple[FloatArray, ...]:
@@ -575,29 +621,15 @@ def _placement_chunk(
     clear = np.zeros((C, P, M), dtype=bool)
     index = np.nonzero(allowed)
     if index[0].size:
-        support, own = _own_scenes(problem, float(grid.height[h]))
-        q_allowed = q[index]
-        ok = ~collision_batch(support, q_allowed, threshold_m=problem.margin)
-        ok &= ~collision_batch(own, q_allowed, threshold_m=0.0)
-        good = ~collision_batch(support, q_allowed, threshold_m=problem.clearance_goal)
         bounds = np.searchsorted(index[0], np.arange(C + 1))
-        for c in range(C):
-            span = slice(bounds[c], bounds[c + 1])
-            if span.start == span.stop:
-                continue
-            scene = _environment_scene(problem, T_world_base[c])
-            candidates = np.flatnonzero(ok[span]) + span.start
-            if candidates.size:
-                hit = collision_batch(scene, q_allowed[candidates], threshold_m=problem.margin)
-                ok[candidates[hit]] = False
-                fine = candidates[~hit]
-                fine = fine[good[fine]]
-                if fine.size:
-                    far = ~collision_batch(
-                        scene, q_allowed[fine], threshold_m=problem.clearance_goal
-                    )
-                    clear[index[0][fine[far]], index[1][fine[far]], index[2][fine[far]]] = True
-        free[index] = ok
+        spans = (
+            (int(bounds[c]), int(bounds[c + 1]), _environment_scene(problem, T_world_base[c]))
+            for c in range(C)
+            if bounds[c] < bounds[c + 1]
+        )
+        free[index], clear[index] = _free_and_clear(
+            problem, _own_scenes(problem, float(grid.height[h])), q[index], spans
+        )
     on_branch = labels_match(labels[..., None, :], BRANCHES)  # (C, P, M, 8)
     return _chunk_scores(problem, free[..., None] & on_branch, q, clear)
 
@@ -798,28 +830,19 @@ def _rail_chunk(
     clear = np.zeros((C, P, B, M), dtype=bool)
     index = np.nonzero(allowed)
     if index[0].size:
-        support, own = _own_scenes(problem, float(grid.height[0]))
-        q_allowed = q[index]
-        ok = ~collision_batch(support, q_allowed, threshold_m=problem.margin)
-        ok &= ~collision_batch(own, q_allowed, threshold_m=0.0)
-        good = ~collision_batch(support, q_allowed, threshold_m=problem.clearance_goal)
         group = np.ravel_multi_index(index[:3], (C, P, B))
         starts = np.flatnonzero(np.r_[True, group[1:] != group[:-1]])
-        for first, last in zip(starts, [*starts[1:], group.size], strict=True):
-            c, p, b = (int(i[first]) for i in index[:3])
-            scene = _environment_scene(problem, T_world_base[c, p, b])
-            candidates = np.flatnonzero(ok[first:last]) + first
-            if candidates.size:
-                hit = collision_batch(scene, q_allowed[candidates], threshold_m=problem.margin)
-                ok[candidates[hit]] = False
-                fine = candidates[~hit]
-                fine = fine[good[fine]]
-                if fine.size:
-                    far = ~collision_batch(
-                        scene, q_allowed[fine], threshold_m=problem.clearance_goal
-                    )
-                    clear[tuple(i[fine[far]] for i in index)] = True
-        free[index] = ok
+        spans = (
+            (
+                int(first),
+                int(last),
+                _environment_scene(problem, T_world_base[tuple(i[first] for i in index[:3])]),
+            )
+            for first, last in zip(starts, [*starts[1:], group.size], strict=True)
+        )
+        free[index], clear[index] = _free_and_clear(
+            problem, _own_scenes(problem, float(grid.height[0])), q[index], spans
+        )
     counting = np.zeros((C, P, B, M, B), dtype=bool)
     for b in range(B):
         counting[:, :, b, :, b] = free[:, :, b]
