@@ -83,7 +83,7 @@ from posebridge.planning.path_sampling import (
     sample_path,
 )
 from posebridge.planning.time_scaling import path_speed_limit
-from posebridge.units import BoolArray, FloatArray, m_from_mm
+from posebridge.units import BoolArray, FloatArray
 
 if TYPE_CHECKING:
     from posebridge.planning.blended_timing import BlendedCycleTime
@@ -514,7 +514,7 @@ def check_sampled_path(
     """Check an already sampled path; parameters as :func:`check_path`."""
     robot = scene.robot
     thresholds = scene.cell.thresholds if thresholds is None else thresholds
-    clearance_warning = float(m_from_mm(thresholds.clearance_mm))
+    clearance_warning = thresholds.clearance_m
     if not math.isfinite(collision_threshold_m) or collision_threshold_m > clearance_warning:
         raise PlanningInputError(
             "collision_threshold_m: expected a finite number not above the clearance "
