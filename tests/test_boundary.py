@@ -24,7 +24,6 @@ TO_USER = re.compile(
 STILL_CONVERTING = {
     # result models still built in the domain (the import-linter contract's ignore_imports)
     # mm/deg in messages, file units and the external-axis boundary helpers
-    "cell/external_axes.py",
     "geometry/mesh_display.py",
 }
 

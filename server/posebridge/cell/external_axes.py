@@ -31,7 +31,7 @@ import numpy.typing as npt
 
 from posebridge.arrays import freeze_array_fields
 from posebridge.transforms import rotation_matrix_about_axis
-from posebridge.units import FloatArray, deg_from_rad, m_from_mm, mm_from_m, rad_from_deg
+from posebridge.units import FloatArray, m_from_mm, rad_from_deg
 
 __all__ = [
     "NO_EXTERNAL_AXES",
@@ -233,11 +233,6 @@ class ExternalAxes:
         """External values from mm/deg to m/rad, shape (..., m)."""
         v = np.asarray(values, dtype=np.float64)
         return np.where(self.prismatic, m_from_mm(v), rad_from_deg(v))
-
-    def user_from_si(self, values: npt.ArrayLike) -> FloatArray:
-        """External values from m/rad to mm/deg, shape (..., m)."""
-        v = np.asarray(values, dtype=np.float64)
-        return np.where(self.prismatic, mm_from_m(v), deg_from_rad(v))
 
     def T_world_base(self, values: npt.ArrayLike, T_world_base_fixed: FloatArray) -> FloatArray:
         """Robot base frames for external vectors ``values`` (m/rad, shape (N, m)), shape (N, 4, 4).

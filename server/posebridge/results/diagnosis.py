@@ -24,6 +24,7 @@ from posebridge.results.cell import (
     PoseDiagnosis,
     PoseFrame,
 )
+from posebridge.results.external_axes import external_user_from_si
 from posebridge.results.quality import (
     branch_report,
     closest_pair_model,
@@ -75,9 +76,9 @@ def _frame(T: FloatArray) -> PoseFrame:
 def _external_margins(scene: Scene) -> list[JointMargin]:
     """Limit margins of the external axes at the scene's values, boundary units."""
     external = scene.external
-    values = external.user_from_si(external.values)
-    lower = external.user_from_si(external.lower)
-    upper = external.user_from_si(external.upper)
+    values = external_user_from_si(external, external.values)
+    lower = external_user_from_si(external, external.lower)
+    upper = external_user_from_si(external, external.upper)
     margins = []
     for i, name in enumerate(external.names):
         below, above = values[i] - lower[i], upper[i] - values[i]
@@ -204,7 +205,7 @@ def pose_diagnosis_result(data: PoseDiagnosisData) -> PoseDiagnosis:
         external_axes=dict(
             zip(
                 scene.external.names,
-                scene.external.user_from_si(scene.external.values).tolist(),
+                external_user_from_si(scene.external, scene.external.values).tolist(),
                 strict=True,
             )
         ),

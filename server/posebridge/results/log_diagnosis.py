@@ -37,6 +37,7 @@ from posebridge.results.cell import (
     WorstRow,
 )
 from posebridge.results.diagnosis import SEVERITY_ORDER, finite_mm, pose_diagnosis_result
+from posebridge.results.external_axes import external_user_from_si
 from posebridge.results.quality import geometry_findings
 from posebridge.units import (
     BoolArray,
@@ -472,7 +473,7 @@ class _LogReport:
             closest=closest.tolist(),
             environment_clearance_mm=[finite_mm(v) for v in quality.environment.distance.tolist()],
             self_clearance_mm=[finite_mm(v) for v in quality.self_clearance.distance.tolist()],
-            external=self.scene.external.user_from_si(self.external).tolist(),
+            external=external_user_from_si(self.scene.external, self.external).tolist(),
         )
 
     @staticmethod
@@ -542,7 +543,7 @@ class _LogReport:
                 name: float(value)
                 for name, value in zip(
                     self.scene.external.names,
-                    self.scene.external.user_from_si(self.scene.external.values).tolist(),
+                    external_user_from_si(self.scene.external, self.scene.external.values).tolist(),
                     strict=True,
                 )
                 if name not in given

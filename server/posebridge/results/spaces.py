@@ -13,6 +13,7 @@ from pydantic import BaseModel, ConfigDict, Field
 
 from posebridge.cell.external_axes import NO_EXTERNAL_AXES, ExternalAxes
 from posebridge.kinematics.branches import branch_geometry, branch_words
+from posebridge.results.external_axes import external_user_from_si
 from posebridge.robot.model import Robot
 from posebridge.spaces.joint_map import JointMap
 from posebridge.spaces.workspace import ReachSection
@@ -166,7 +167,7 @@ def joint_map_result(
         lower_deg=lower.tolist(),
         upper_deg=upper.tolist(),
         hold_deg=joints_user_from_si(joint_map.q_hold, robot.prismatic).tolist(),
-        external_hold_deg=external.user_from_si(joint_map.external_hold).tolist()
+        external_hold_deg=external_user_from_si(external, joint_map.external_hold).tolist()
         if joint_map.external_hold.size
         else [],
         threshold_mm=float(mm_from_m(joint_map.threshold_m)),

@@ -40,6 +40,7 @@ from posebridge.results.cell import (
     TargetCheckReport,
     group_findings,
 )
+from posebridge.results.external_axes import external_user_from_si
 from posebridge.results.quality import branch_report, geometry_findings, quality_findings
 from posebridge.transforms import rpy_from_rotation_matrix
 from posebridge.units import deg_from_rad, joint_unit_labels, length_text, mm_from_m
@@ -346,7 +347,7 @@ def _coverage_findings(coverage: ConsistentBranch, count: int) -> list[Finding]:
 def _external_fields(scene: Scene, choice: ExternalChoice) -> dict[str, object]:
     """Return the external-axis fields of one target's check, in boundary units."""
     external = scene.external
-    values = external.user_from_si(choice.values)
+    values = external_user_from_si(external, choice.values)
     listed = []
     for axis, found in choice.intervals.items():
         scale = mm_from_m(1.0) if external.prismatic[axis] else deg_from_rad(1.0)

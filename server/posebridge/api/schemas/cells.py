@@ -17,6 +17,7 @@ from posebridge.api.cell_store import CellSnapshot
 from posebridge.cell.model import MAX_COORDINATE_MM, MAX_JOINTS, MAX_WAYPOINTS, Branch, Cell
 from posebridge.cell.scene import BoxSet, CylinderSet, MeshSet, Scene
 from posebridge.kinematics.branches import BRANCH_LABELS
+from posebridge.results.external_axes import external_user_from_si
 from posebridge.transforms import rpy_from_rotation_matrix
 from posebridge.units import FloatArray, joints_user_from_si, m_from_mm, mm_from_m
 
@@ -450,8 +451,11 @@ def scene_drawing(scene: Scene) -> SceneDrawing:
     tool_position, tool_rpy = _pose_mm_deg(scene.T_flange_tool)
     capsules = scene.tool_capsules
     external = scene.external
-    lower, upper = external.user_from_si(external.lower), external.user_from_si(external.upper)
-    values = external.user_from_si(external.values)
+    lower, upper = (
+        external_user_from_si(external, external.lower),
+        external_user_from_si(external, external.upper),
+    )
+    values = external_user_from_si(external, external.values)
     carriage = {f"{external.names[0]} carriage"} if external.track is not None else set()
     targets = scene.targets
     positions, rpys = _pose_mm_deg(targets.T_world_target)
