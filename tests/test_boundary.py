@@ -21,11 +21,8 @@ TO_USER = re.compile(
     r"|MM_PER_M|DEG_PER_RAD)\b|degrees=True"
 )
 
-STILL_CONVERTING = {
-    # result models still built in the domain (the import-linter contract's ignore_imports)
-    # mm/deg in messages, file units and the external-axis boundary helpers
-    "geometry/mesh_display.py",
-}
+STILL_CONVERTING: set[str] = set()
+"""Domain modules that still convert SI values to mm/deg: none left; keep it empty."""
 
 
 def _converting_modules() -> set[str]:

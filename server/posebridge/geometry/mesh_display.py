@@ -1,4 +1,4 @@
-"""Meshes for drawing: decimated to a triangle budget, in millimetres, ready for plotly ``Mesh3d``.
+"""Meshes for drawing: decimated to a triangle budget, in metres, ready for plotly ``Mesh3d``.
 
 The page draws robots and fixtures with a budget of triangles (dragging must
 stay smooth), so every mesh is reduced before it is sent:
@@ -19,7 +19,9 @@ mix their meshes: :data:`_SIMPLIFY_LOCK` lets one call run at a time.
 
 Display meshes are for looking at only; clearance always uses the full mesh.
 Results can be kept in a :class:`~posebridge.geometry.mesh_cache.MeshCache`
-(keyed by the mesh's ``content_key`` and the budget).
+(keyed by the mesh's ``content_key``, the budget and :data:`_CACHE_FORMAT`).
+The answers built from them (:mod:`posebridge.results.robots`, the mesh fixture
+route) convert the vertices to millimetres.
 """
 
 from __future__ import annotations
@@ -35,7 +37,7 @@ from posebridge.geometry.errors import GeometryInputError
 from posebridge.geometry.mesh_cache import MeshCache, cache_key
 from posebridge.geometry.meshes import TriangleMesh
 from posebridge.transforms import TransformError, check_transform
-from posebridge.units import FloatArray, mm_from_m
+from posebridge.units import FloatArray
 
 __all__ = [
     "MIN_TRIANGLE_BUDGET",
@@ -49,24 +51,28 @@ MIN_TRIANGLE_BUDGET = 12
 
 IntArray = npt.NDArray[np.int64]
 
+_CACHE_FORMAT = "vertices_m"
+"""Part of the cache key and the stored field's name: entries of the earlier millimetre format
+(``vertices_mm``) are never read as metres."""
+
 _SIMPLIFY_LOCK = threading.Lock()
 """One ``fast_simplification.simplify`` call at a time (module docstring)."""
 
 
 @dataclass(frozen=True)
 class DisplayMesh:
-    """A mesh for drawing (plotly ``Mesh3d``: ``x, y, z = vertices_mm.T``, ``i, j, k = faces.T``).
+    """A mesh for drawing (plotly ``Mesh3d``: ``x, y, z = vertices_m.T``, ``i, j, k = faces.T``).
 
     Attributes
     ----------
-    vertices_mm : array, shape (V, 3)
-        mm, in the mesh frame (or the world after :meth:`posed`).
+    vertices_m : array, shape (V, 3)
+        m, in the mesh frame (or the world after :meth:`posed`).
     faces : array of int64, shape (F, 3)
     source_triangles : int
         Triangles of the full mesh it was made from.
     """
 
-    vertices_mm: FloatArray
+    vertices_m: FloatArray
     faces: IntArray
     source_triangles: int
 
@@ -76,7 +82,7 @@ class DisplayMesh:
         return int(self.faces.shape[0])
 
     def posed(self, T_world_mesh: npt.ArrayLike) -> DisplayMesh:
-        """Return the same mesh with vertices moved by ``T_world_mesh`` (translation in m).
+        """Return the same mesh with vertices moved by ``T_world_mesh`` (translation in m): ``R v + t``.
 
         Parameters
         ----------
@@ -92,7 +98,7 @@ class DisplayMesh:
             raise GeometryInputError(f"T_world_mesh: {e}") from e
         if T.shape != (4, 4):
             raise GeometryInputError(f"T_world_mesh: expected shape (4, 4), got {T.shape}")
-        vertices = self.vertices_mm @ T[:3, :3].T + mm_from_m(T[:3, 3])
+        vertices = self.vertices_m @ T[:3, :3].T + T[:3, 3]
         return DisplayMesh(vertices, self.faces, self.source_triangles)
 
 
@@ -171,7 +177,7 @@ def _decimate(vertices: FloatArray, faces: IntArray, budget: int) -> tuple[Float
 def decimate_for_display(
     mesh: TriangleMesh, *, max_triangles: int, cache: MeshCache | None = None
 ) -> DisplayMesh:
-    """Return the mesh reduced to at most ``max_triangles`` triangles, vertices in mm (module docstring).
+    """Return the mesh reduced to at most ``max_triangles`` triangles, vertices in m (module docstring).
 
     Parameters
     ----------
@@ -192,12 +198,12 @@ def decimate_for_display(
         )
     budget = int(max_triangles)
     if mesh.triangle_count <= budget:
-        return DisplayMesh(mm_from_m(mesh.vertices), mesh.faces.copy(), mesh.triangle_count)
-    key = cache_key("display", mesh.content_key, str(budget))
+        return DisplayMesh(mesh.vertices.copy(), mesh.faces.copy(), mesh.triangle_count)
+    key = cache_key("display", mesh.content_key, str(budget), _CACHE_FORMAT)
     if cache is not None:
-        entry = cache.load(key, ("vertices_mm", "faces"))
+        entry = cache.load(key, (_CACHE_FORMAT, "faces"))
         if entry is not None:
-            vertices = np.asarray(entry["vertices_mm"], dtype=np.float64)
+            vertices = np.asarray(entry[_CACHE_FORMAT], dtype=np.float64)
             faces = np.asarray(entry["faces"], dtype=np.int64)
             if (
                 vertices.ndim == 2
@@ -210,7 +216,7 @@ def decimate_for_display(
             ):
                 return DisplayMesh(vertices, faces, mesh.triangle_count)
     vertices, faces = _decimate(mesh.vertices, mesh.faces, budget)
-    display = DisplayMesh(mm_from_m(vertices), faces, mesh.triangle_count)
+    display = DisplayMesh(vertices, faces, mesh.triangle_count)
     if cache is not None:
-        cache.store(key, {"vertices_mm": display.vertices_mm, "faces": display.faces})
+        cache.store(key, {_CACHE_FORMAT: display.vertices_m, "faces": display.faces})
     return display

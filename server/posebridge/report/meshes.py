@@ -26,7 +26,7 @@ from posebridge.geometry.mesh_display import (
 from posebridge.geometry.robot_meshes import robot_display_meshes
 from posebridge.kinematics.fk import fk_frames
 from posebridge.transforms import transform_points
-from posebridge.units import FloatArray, m_from_mm
+from posebridge.units import FloatArray
 
 __all__ = [
     "REPORT_MESH_TRIANGLES",
@@ -232,7 +232,7 @@ def _fixture_meshes(scene: Scene) -> list[Mesh]:
         meshes.names, meshes.T_world, meshes.meshes, budgets, strict=True
     ):
         display = decimate_for_display(mesh, max_triangles=max(budget, MIN_TRIANGLE_BUDGET))
-        vertices = transform_points(T, m_from_mm(display.vertices_mm))
+        vertices = transform_points(T, display.vertices_m)
         drawn.append(Mesh(name, "fixture", vertices, display.faces))
     return drawn
 
@@ -266,7 +266,7 @@ def scene_meshes(scene: Scene, q: npt.ArrayLike) -> list[Mesh]:
         scene.robot, cache=MeshCache.default() if scene.robot.meshes else None
     )
     for drawing in drawings:  # the robot as itself: its link meshes
-        vertices = transform_points(frames[drawing.link], m_from_mm(drawing.mesh.vertices_mm))
+        vertices = transform_points(frames[drawing.link], drawing.mesh.vertices_m)
         meshes.append(Mesh(drawing.source_link, "robot", vertices, drawing.mesh.faces))
     for capsule in () if drawings else scene.robot.capsules:
         ends = transform_points(frames[capsule.link], np.stack([capsule.start, capsule.end]))

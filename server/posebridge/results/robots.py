@@ -366,7 +366,7 @@ def robot_meshes_result(
             LinkMeshDrawing(
                 link=d.link,
                 source_link=d.source_link,
-                vertices_mm=np.round(d.mesh.vertices_mm, 2).tolist(),
+                vertices_mm=np.round(mm_from_m(d.mesh.vertices_m), 2).tolist(),
                 faces=d.mesh.faces.tolist(),
             )
             for d in drawings

@@ -457,7 +457,7 @@ def mesh_drawing(
         name=name,
         mesh_version=mesh.content_key[:32],
         source_triangles=mesh.triangle_count,
-        vertices_mm=np.round(display.vertices_mm, 3).tolist(),
+        vertices_mm=np.round(mm_from_m(display.vertices_m), 3).tolist(),
         faces=display.faces.tolist(),
     )
 
