@@ -13,6 +13,7 @@ from posebridge.planning.sequence_report import optimise_path, with_waypoint_joi
 from posebridge.resources import data_folder
 from posebridge.results.path_check import path_check_result
 from posebridge.results.sequence import WaypointJoints, render_sequence, sequence_result
+from posebridge.units import m_from_mm, rad_from_deg
 
 DEMO = data_folder("robots") / "demo-cell.json"
 
@@ -65,7 +66,10 @@ def test_demo_unload_path_states_the_broken_constraint_and_the_price() -> None:
 def test_fastest_sequence_is_never_slower_when_the_current_choice_is_valid() -> None:
     scene = resolve_scene(load_cell(DEMO), DEMO)
     for index in range(len(scene.paths)):
-        report = sequence_result(optimise_path(scene, index, limit_margin_deg=2.0))
+        report = sequence_result(
+            optimise_path(scene, index, limit_margin_rad=float(rad_from_deg(2.0))),
+            limit_margin_deg=2.0,
+        )
         if report.current.violations or report.best is None:
             continue
         assert report.best.cycle_time_s is not None
@@ -97,9 +101,20 @@ def test_limit_margin_comes_from_the_cell_thresholds_unless_given() -> None:
     from_cell = sequence_result(optimise_path(scene, index))
     # our own contract: the cell's thresholds are the default margins
     assert (from_cell.limit_margin_deg, from_cell.limit_margin_mm) == (12.0, 7.0)
-    given = sequence_result(optimise_path(scene, index, limit_margin_deg=12.0, limit_margin_mm=7.0))
+    given = sequence_result(
+        optimise_path(
+            scene,
+            index,
+            limit_margin_rad=float(rad_from_deg(12.0)),
+            limit_margin_m=float(m_from_mm(7.0)),
+        ),
+        limit_margin_deg=12.0,
+        limit_margin_mm=7.0,
+    )
     assert given == from_cell  # the same search as naming them
-    overridden = sequence_result(optimise_path(scene, index, limit_margin_deg=1.0))
+    overridden = sequence_result(
+        optimise_path(scene, index, limit_margin_rad=float(rad_from_deg(1.0))), limit_margin_deg=1.0
+    )
     assert (overridden.limit_margin_deg, overridden.limit_margin_mm) == (1.0, 7.0)
     if overridden.best is not None:
         # every chosen configuration keeps the 1 deg margin (joint limits of the cell's robot)

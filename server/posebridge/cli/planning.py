@@ -23,7 +23,7 @@ from posebridge.cli.common import (
     print_results,
 )
 from posebridge.cli.options import SharedOptions, options
-from posebridge.units import FloatArray, m_from_mm
+from posebridge.units import FloatArray, m_from_mm, rad_from_deg
 
 
 def _parse_range(text: str, what: str) -> FloatArray:
@@ -70,15 +70,18 @@ def _cmd_optimise(args: argparse.Namespace, scene: Any, chosen: list[int]) -> in
     from posebridge.planning.sequence_report import optimise_path
     from posebridge.results.sequence import render_sequence, sequence_result
 
+    margin_deg, margin_mm = args.limit_margin_deg, args.limit_margin_mm
     reports = [
         sequence_result(
             optimise_path(
                 scene,
                 i,
-                limit_margin_deg=args.limit_margin_deg,
-                limit_margin_mm=args.limit_margin_mm,
-                resolution_mm=args.resolution_mm,
-            )
+                limit_margin_rad=None if margin_deg is None else float(rad_from_deg(margin_deg)),
+                limit_margin_m=None if margin_mm is None else float(m_from_mm(margin_mm)),
+                resolution_m=float(m_from_mm(args.resolution_mm)),
+            ),
+            limit_margin_deg=margin_deg,
+            limit_margin_mm=margin_mm,
         )
         for i in chosen
     ]

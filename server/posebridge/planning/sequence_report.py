@@ -2,11 +2,10 @@
 
 :func:`optimise_path` runs :func:`posebridge.planning.solution_sequence.optimise_sequence`
 (exact shortest path over the layered candidate graph, dynamic programming;
-method and references there) with limits given as the cell gives them (millimetres
-and degrees, as :func:`~posebridge.planning.path_sampling.sample_path` takes its
-sampling), and finds the edits below; :func:`posebridge.results.sequence.sequence_result`
-turns its :class:`PathSequence` into the report (mm, deg, the saving in words) for the
-command line, the HTTP API and the page.
+method and references there) with its limits in SI units (the cell's thresholds
+when omitted), and finds the edits below; :func:`posebridge.results.sequence.sequence_result`
+turns its :class:`PathSequence` into the report (mm, deg, the saving in words, the limits as
+the user gave them) for the command line, the HTTP API and the page.
 
 **Edits that make the path follow the sequence.** The path check chooses each
 waypoint's configuration itself (:func:`posebridge.planning.path_sampling.sample_path`:
@@ -33,7 +32,12 @@ import numpy as np
 from posebridge.cell.model import Cell, validate_cell
 from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.planning.errors import PlanningInputError
-from posebridge.planning.path_sampling import path_of, sample_path
+from posebridge.planning.path_sampling import (
+    DEFAULT_RESOLUTION_M,
+    DEFAULT_RESOLUTION_RAD,
+    path_of,
+    sample_path,
+)
 from posebridge.planning.solution_sequence import (
     SequenceLimits,
     SequenceResult,
@@ -67,17 +71,12 @@ class PathSequence:
     edits : list of int
         Waypoints to give as the best sequence's joint values (:func:`sequence_edits`),
         increasing; empty when none is feasible or the path already follows it.
-    limit_margin_deg, limit_margin_mm, collision_threshold_mm : float
-        The limits the search kept, as given (the cell's units), for the report.
     """
 
     scene: Scene
     path: ResolvedPath
     result: SequenceResult
     edits: list[int]
-    limit_margin_deg: float
-    limit_margin_mm: float
-    collision_threshold_mm: float
 
 
 class JointsEdit(Protocol):
@@ -153,11 +152,11 @@ def optimise_path(
     scene: Scene,
     path: int,
     *,
-    limit_margin_deg: float | None = None,
-    limit_margin_mm: float | None = None,
-    collision_threshold_mm: float = 0.0,
-    resolution_mm: float = 5.0,
-    resolution_deg: float = 1.0,
+    limit_margin_rad: float | None = None,
+    limit_margin_m: float | None = None,
+    collision_threshold_m: float = 0.0,
+    resolution_m: float = DEFAULT_RESOLUTION_M,
+    resolution_rad: float = DEFAULT_RESOLUTION_RAD,
 ) -> PathSequence:
     """Return the fastest consistent solution sequence of a cell path and its edits.
 
@@ -166,12 +165,12 @@ def optimise_path(
     scene : Scene
     path : int
         Index into ``scene.paths``.
-    limit_margin_deg, limit_margin_mm : float, keyword-only
+    limit_margin_rad, limit_margin_m : float, keyword-only
         Smallest joint-limit margin every configuration keeps (revolute, prismatic);
         the cell's ``thresholds.limit_margin_deg`` (``_mm``) when omitted.
-    collision_threshold_mm : float, keyword-only
+    collision_threshold_m : float, keyword-only
         Clearance below which a configuration collides (0: contact).
-    resolution_mm, resolution_deg : float, keyword-only
+    resolution_m, resolution_rad : float, keyword-only
         Sampling of moves, as the path check samples.
 
     Returns
@@ -186,18 +185,16 @@ def optimise_path(
     """
     resolved = path_of(scene, path)
     thresholds = scene.cell.thresholds
-    if limit_margin_deg is None:
-        limit_margin_deg = thresholds.limit_margin_deg
-    if limit_margin_mm is None:
-        limit_margin_mm = thresholds.limit_margin_mm
-    resolution_m = float(m_from_mm(resolution_mm))
-    resolution_rad = float(rad_from_deg(resolution_deg))
+    if limit_margin_rad is None:
+        limit_margin_rad = float(rad_from_deg(thresholds.limit_margin_deg))
+    if limit_margin_m is None:
+        limit_margin_m = float(m_from_mm(thresholds.limit_margin_mm))
     limits = SequenceLimits(
-        limit_margin_rad=float(rad_from_deg(limit_margin_deg)),
-        limit_margin_m=float(m_from_mm(limit_margin_mm)),
-        collision_threshold_m=float(m_from_mm(collision_threshold_mm)),
-        resolution_m=resolution_m,
-        resolution_rad=resolution_rad,
+        limit_margin_rad=float(limit_margin_rad),
+        limit_margin_m=float(limit_margin_m),
+        collision_threshold_m=float(collision_threshold_m),
+        resolution_m=float(resolution_m),
+        resolution_rad=float(resolution_rad),
     )
     result = optimise_sequence(scene, resolved, limits=limits)
     edits: list[int] = []
@@ -214,9 +211,6 @@ def optimise_path(
         path=resolved,
         result=result,
         edits=edits,
-        limit_margin_deg=float(limit_margin_deg),
-        limit_margin_mm=float(limit_margin_mm),
-        collision_threshold_mm=float(collision_threshold_mm),
     )
 
 

@@ -223,13 +223,22 @@ def _summary(scene: Scene, path: ResolvedPath, result: SequenceResult) -> str:
     return f"{saving:.2f} s faster, {branch}"
 
 
-def sequence_result(data: PathSequence) -> SequenceReport:
+def sequence_result(
+    data: PathSequence,
+    *,
+    limit_margin_deg: float | None = None,
+    limit_margin_mm: float | None = None,
+    collision_threshold_mm: float = 0.0,
+) -> SequenceReport:
     """Build the boundary model (mm, deg) of a path's fastest solution sequence.
 
     Parameters
     ----------
     data : PathSequence
         From :func:`posebridge.planning.sequence_report.optimise_path`.
+    limit_margin_deg, limit_margin_mm, collision_threshold_mm : float, keyword-only
+        The limits the search was given, as the user gave them (echoed unchanged); the cell's
+        ``thresholds.limit_margin_deg`` (``_mm``) when omitted, as the search took them.
 
     Returns
     -------
@@ -277,9 +286,13 @@ def sequence_result(data: PathSequence) -> SequenceReport:
         edits=edits,
         edges_checked=result.edges_checked,
         edges_total=result.edges_total,
-        limit_margin_deg=data.limit_margin_deg,
-        limit_margin_mm=data.limit_margin_mm,
-        collision_threshold_mm=data.collision_threshold_mm,
+        limit_margin_deg=float(
+            scene.cell.thresholds.limit_margin_deg if limit_margin_deg is None else limit_margin_deg
+        ),
+        limit_margin_mm=float(
+            scene.cell.thresholds.limit_margin_mm if limit_margin_mm is None else limit_margin_mm
+        ),
+        collision_threshold_mm=float(collision_threshold_mm),
         note=SEQUENCE_NOTE,
     )
 

@@ -40,6 +40,7 @@ from posebridge.results.motion_export import MotionExportReport, motion_csv, mot
 from posebridge.results.path_check import PathCheckReport, path_check_result
 from posebridge.results.sequence import SequenceReport, sequence_result
 from posebridge.results.target_check import target_check_result
+from posebridge.units import m_from_mm, rad_from_deg
 
 __all__ = ["router"]
 
@@ -149,9 +150,13 @@ def _optimise(
         optimise_path(
             context.cell().scene,
             index,
-            limit_margin_deg=limit_margin_deg,
-            limit_margin_mm=limit_margin_mm,
-        )
+            limit_margin_rad=(
+                None if limit_margin_deg is None else float(rad_from_deg(limit_margin_deg))
+            ),
+            limit_margin_m=None if limit_margin_mm is None else float(m_from_mm(limit_margin_mm)),
+        ),
+        limit_margin_deg=limit_margin_deg,
+        limit_margin_mm=limit_margin_mm,
     )
 
 
