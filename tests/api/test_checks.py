@@ -17,6 +17,7 @@ from typing import Any
 import httpx
 import numpy as np
 import pytest
+from PIL import Image
 
 from posebridge.api.routes import checks as checks_routes
 from posebridge.api.schemas.checks import MAX_LOG_ROWS, MAX_PLACEMENT_CANDIDATES
@@ -243,10 +244,9 @@ async def test_start_placement(client: httpx.AsyncClient, job_finished: JobFinis
     assert np.max(report["grid"]["score"]) == pytest.approx(scores[0])
     # the page's picture of the best score over all yaws: the highest score in the scale's last
     # colour (plotly.js's Viridis end #fde725, from memory); Pillow reads the PNG
-    image_module = pytest.importorskip("PIL.Image")
     picture = await client.get(f"/api/jobs/{status['id']}/image", params={"yaw_index": -1})
     assert picture.status_code == 200
-    pixels = np.asarray(image_module.open(io.BytesIO(picture.content)))
+    pixels = np.asarray(Image.open(io.BytesIO(picture.content)))
     best = np.max(report["grid"]["score"], axis=(2, 3))  # (ny, nx), one height
     row, column = np.unravel_index(np.argmax(best), best.shape)
     assert pixels.shape == (3, 3, 4)

@@ -15,6 +15,7 @@ from typing import Any
 import httpx
 import numpy as np
 import pytest
+from PIL import Image
 
 from posebridge.api.jobs import MAX_ACTIVE_OWNER
 from posebridge.cell import load_cell, resolve_scene
@@ -78,7 +79,6 @@ async def test_start_joint_map_three_joints(
 
 
 async def test_joint_map_picture(client: httpx.AsyncClient, job_finished: JobFinished) -> None:
-    image_module = pytest.importorskip("PIL.Image")
     response = await client.post(
         "/api/maps/joint", json={"joints": [1, 2], "hold_deg": HOLD, "resolution": 12}
     )
@@ -90,7 +90,7 @@ async def test_joint_map_picture(client: httpx.AsyncClient, job_finished: JobFin
     assert picture.headers["content-type"] == "image/png"
     # Pillow reads the PNG (reference library): one pixel per cell, the map's own colours
     # (their values are checked against the palette in tests/results/test_map_images.py)
-    pixels = np.asarray(image_module.open(io.BytesIO(picture.content)))
+    pixels = np.asarray(Image.open(io.BytesIO(picture.content)))
     assert pixels.shape == (12, 12, 4)
     np.testing.assert_array_equal(pixels, joint_map_rgba(JointMapResult(**status["result"])))
     # a three-joint map has no picture; an unknown job is not found

@@ -10,6 +10,7 @@ import io
 
 import numpy as np
 import pytest
+from PIL import Image
 
 from posebridge.palette import PALETTE, region_colour
 from posebridge.results.map_images import (
@@ -27,10 +28,9 @@ def _rgb(colour: str) -> np.ndarray:
 
 
 def test_png_bytes_decode_with_pillow() -> None:
-    image_module = pytest.importorskip("PIL.Image")
     rng = np.random.default_rng(7)
     pixels = rng.integers(0, 256, size=(5, 3, 4), dtype=np.uint8)
-    decoded = image_module.open(io.BytesIO(png_bytes(pixels)))
+    decoded = Image.open(io.BytesIO(png_bytes(pixels)))
     # Pillow reads the file back: 3 wide, 5 high, RGBA, the same bytes (reference library)
     assert decoded.size == (3, 5)
     assert decoded.mode == "RGBA"
