@@ -477,6 +477,7 @@ export function createJointMapView({ element, base, note, legend, header, progre
       bar.value = job.total ? job.done / job.total : 0;
       barText.textContent = job.total ? `Computing the map: ${job.done} of ${job.total} parts` : "Computing the map…";
     }
+    barText.title = barText.textContent; // the whole text when one line cuts it short
   }
 
   const requestRender = frameScheduler({ render });

@@ -198,6 +198,19 @@ def test_click_joint_map_moves_tool(open_page: Any) -> None:
     )
 
 
+def test_joint_map_stays_put_whatever_its_progress_text(open_page: Any) -> None:
+    page = open_page.page
+    place = "() => document.getElementById('joint-map').getBoundingClientRect().top"
+    before = page.evaluate(place)
+    # a waiting note longer than the card is wide (the page's own texts vary with the load): the
+    # progress row stays one line, so a click aimed at the map lands where it was aimed
+    page.evaluate(
+        "() => { document.querySelector('#map-progress-row .pb-hint').textContent ="
+        " 'Waiting 2 s: the server is busy with other jobs '.repeat(12); }"
+    )
+    assert page.evaluate(place) == before  # common practice, no source: no layout shift
+
+
 def test_select_solution_row_moves_arm(open_page: Any) -> None:
     page = open_page.page
     rows = page.locator("#solutions tr.pb-solution")
