@@ -81,6 +81,14 @@ def test_placement_moves_base(open_page: Any, cell_path: Path, artifacts: Path) 
         timeout=120_000,
     )
     assert page.locator("#place-heatmap .imagelayer image").count() == 1
+    # the legend and the colour bar's title do not overlap (common practice, no source)
+    overlap = page.evaluate(
+        "() => { const box = (s) => document.querySelector(`#place-heatmap ${s}`)"
+        ".getBoundingClientRect(); const a = box('.legend'), b = box('.cbtitle');"
+        " return Math.max(0, Math.min(a.right, b.right) - Math.max(a.left, b.left))"
+        " * Math.max(0, Math.min(a.bottom, b.bottom) - Math.max(a.top, b.top)); }"
+    )
+    assert overlap == 0
     page.locator("#place-heatmap").screenshot(path=str(artifacts / "page-placement-scores.png"))
     # the score in words, ties within the score's noise, a slower best base said so (the
     # report's fields, tested in tests/planning/test_placement.py)
