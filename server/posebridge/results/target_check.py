@@ -12,6 +12,8 @@ branch; a mesh fixture that is not a closed surface).
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from posebridge.cell.checks import (
@@ -42,6 +44,7 @@ from posebridge.results.cell import (
 )
 from posebridge.results.external_axes import external_user_from_si
 from posebridge.results.quality import branch_report, geometry_findings, quality_findings
+from posebridge.robot.model import Robot
 from posebridge.transforms import rpy_from_rotation_matrix
 from posebridge.units import deg_from_rad, joint_unit_labels, length_text, mm_from_m
 
@@ -285,22 +288,13 @@ class _GroupReport:
         self._open_mesh_findings()
         self.findings += geometry_findings(self.robot)
         findings = sorted(self.findings, key=lambda f: _SEVERITY_ORDER[f.severity])
-        return TargetCheckReport(
-            cell=scene.cell.title,
-            robot=self.robot.name,
-            tool=scene.tool_name,
-            joint_names=list(self.robot.joint_names),
-            joint_units=joint_unit_labels(self.robot.prismatic),
-            thresholds=self.thresholds,
-            score_rule=SCORE_RULE,
-            targets=checks,
-            consistent_branch=coverage,
-            findings=findings,
-            finding_groups=group_findings(findings),
-            reachable_count=sum(check.reachable for check in checks),
-            error_count=sum(f.severity == "error" for f in findings),
-            warning_count=sum(f.severity == "warning" for f in findings),
-            info_count=sum(f.severity == "info" for f in findings),
+        return _report(
+            scene,
+            self.robot,
+            self.thresholds,
+            checks,
+            coverage,
+            findings,
             robot_geometry_missing=self.robot.geometry_missing,
         )
 
@@ -387,25 +381,49 @@ def _external_axes_report(data: TargetCheckData) -> TargetCheckReport:
         findings + _coverage_findings(coverage, len(names)),
         key=lambda f: _SEVERITY_ORDER[f.severity],
     )
-    ordered = [checks[i] for i in range(len(names))]
-    return TargetCheckReport(
-        cell=scene.cell.title,
-        robot=scene.robot.name,
-        tool=scene.tool_name,
-        joint_names=list(scene.robot.joint_names),
-        joint_units=joint_unit_labels(scene.robot.prismatic),
-        thresholds=data.thresholds,
-        score_rule=SCORE_RULE,
-        targets=ordered,
+    return _report(
+        scene,
+        scene.robot,
+        data.thresholds,
+        [checks[i] for i in range(len(names))],
+        coverage,
+        findings,
         external_axis_names=list(scene.external.names),
         external_axis_units=scene.external.units,
+    )
+
+
+def _report(
+    scene: Scene,
+    robot: Robot,
+    thresholds: QualityThresholds,
+    checks: list[TargetCheck],
+    coverage: ConsistentBranch,
+    findings: list[Finding],
+    **fields: Any,
+) -> TargetCheckReport:
+    """Assemble the report from its target checks and sorted findings, with their counts.
+
+    ``fields`` are the report's fields that only some cells have (external axes, missing
+    robot geometry).
+    """
+    return TargetCheckReport(
+        cell=scene.cell.title,
+        robot=robot.name,
+        tool=scene.tool_name,
+        joint_names=list(robot.joint_names),
+        joint_units=joint_unit_labels(robot.prismatic),
+        thresholds=thresholds,
+        score_rule=SCORE_RULE,
+        targets=checks,
         consistent_branch=coverage,
         findings=findings,
         finding_groups=group_findings(findings),
-        reachable_count=sum(check.reachable for check in ordered),
+        reachable_count=sum(check.reachable for check in checks),
         error_count=sum(f.severity == "error" for f in findings),
         warning_count=sum(f.severity == "warning" for f in findings),
         info_count=sum(f.severity == "info" for f in findings),
+        **fields,
     )
 
 
