@@ -10,6 +10,7 @@ import pytest
 
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
+from posebridge.planning.blended_timing import blended_cycle_time, sample_motion
 from posebridge.planning.cycle_time import ExternalAxisMotion, path_cycle_time
 from posebridge.planning.path_check import check_path
 from posebridge.planning.path_sampling import sample_path
@@ -49,6 +50,11 @@ def test_track_only_move_is_the_trapezoid_closed_form(travel_mm: float, percent:
     assert timing.segments[0].duration == pytest.approx(expected, rel=1e-12)
     # without the external axes the robot does not move: zero duration (closed form)
     assert path_cycle_time(scene.robot, sampled).segments[0].duration == 0.0
+    # the blended timing of a one-segment path is its rest-to-rest move, track included
+    blended = blended_cycle_time(scene, sampled)
+    assert blended.total == pytest.approx(expected, rel=1e-12)  # closed form above
+    motion = sample_motion(blended, 0.01)
+    assert motion.t[-1] == pytest.approx(expected, rel=1e-12)  # the arm waits for the track
 
 
 def test_demo_path_reaches_the_mill_at_its_pinned_track_value() -> None:
@@ -60,3 +66,4 @@ def test_demo_path_reaches_the_mill_at_its_pinned_track_value() -> None:
     # closed form: the joint move into "joints #4" is track-only, 3500 mm at 1500 mm/s, 1800 mm/s^2
     d, v, a = 3.5, SPEED_M_S, ACCEL_M_S2
     assert report.segments[2].duration_s >= d / v + v / a - 1e-9
+    assert report.segments[2].blended_duration_s >= d / v + v / a - 1e-9  # blended too

@@ -7,12 +7,17 @@ under the same limits (SI units throughout).
 
 **Stops.** The motion is at rest at the first and the last waypoint, at every
 waypoint with a blend radius of 0 (exact stop), and where a segment next to the
-waypoint cannot be timed (an end or a sample unreached) or does not move any
-joint. The stops cut the path into *blocks*; a block of one segment is a
-rest-to-rest move and gets exactly the rest-to-rest timing and profile of
-:func:`posebridge.planning.cycle_time.path_cycle_time` (the trapezoid is the
-time-optimal profile on a straight joint-space line, Lynch & Park, *Modern
-Robotics*, 2017, sec. 9.2.2.2).
+waypoint cannot be timed (an end or a sample unreached), does not move any
+joint, or moves an external axis (a track, a turntable: the blend curves and
+TOPP-RA below run over the robot joints only, so a waypoint is not blended
+where an axis travels into or out of it). The stops cut the path into *blocks*;
+a block of one segment is a rest-to-rest move and gets exactly the rest-to-rest
+timing and profile of :func:`posebridge.planning.cycle_time.path_cycle_time`
+(the trapezoid is the time-optimal profile on a straight joint-space line,
+Lynch & Park, *Modern Robotics*, 2017, sec. 9.2.2.2), external axes included
+(``external=``: a joint move synchronised with them, a linear move at least as
+long as their own move; the arm's profile is stretched in time to that
+duration).
 
 **Blend geometry (corner rounding in joint space).** At a blended waypoint the
 arm leaves the incoming segment where the TCP enters the blend zone (the sphere
@@ -87,7 +92,9 @@ from posebridge.cell.scene import Scene
 from posebridge.kinematics.fk import fk_tool
 from posebridge.planning.cycle_time import (
     DEFAULT_LINEAR_ACCELERATION_M_S2,
+    ExternalAxisMotion,
     SegmentTiming,
+    external_axis_motion,
     path_cycle_time,
 )
 from posebridge.planning.errors import PlanningInputError, check_positive
@@ -376,16 +383,16 @@ class _LinearPiece:
     segment: int
     profile: RestToRestProfile
     along: CubicSpline
-
-    @property
-    def duration(self) -> float:
-        return self.profile.duration
+    duration: float
+    """At least the profile's; longer where the external axes' own move is (stretched in time)."""
 
     def sample(self, t: FloatArray) -> tuple[FloatArray, FloatArray, npt.NDArray[np.int64]]:
-        profile = self.profile.sample(np.clip(t, 0.0, self.duration))
+        stretch = self.profile.duration / self.duration if self.duration > 0.0 else 1.0
+        profile = self.profile.sample(np.clip(t, 0.0, self.duration) * stretch)
         travel = np.clip(profile.position, 0.0, abs(self.profile.distance))
         q = self.along(travel)
-        return q, self.along(travel, 1) * profile.velocity[:, None], np.full(t.shape, self.segment)
+        velocity = self.along(travel, 1) * (profile.velocity * stretch)[:, None]
+        return q, velocity, np.full(t.shape, self.segment)
 
 
 @dataclass(frozen=True, eq=False)
@@ -658,7 +665,10 @@ def _blended_block(
     W = len(sampled.waypoint_names)
     passes = np.zeros(W)
     waypoint_tcp = sampled.path.T_world_tool[:, :3, 3]
-    T_world_base = scene.T_world_base
+    # the external axes stand still inside a block (_stops): the base where they stand
+    T_world_base = scene.external.T_world_base(
+        sampled.segments[first].external[:1], scene.T_world_base
+    )[0]
     for j, blend in enumerate(geometry.blend_points):
         world = tcp[index_map[blend]] @ T_world_base[:3, :3].T + T_world_base[:3, 3]
         w = first + 1 + j
@@ -676,7 +686,7 @@ def _rest_piece(robot: Robot, sampled: SampledPath, timing: SegmentTiming) -> Mo
     k = timing.index
     segment = sampled.segments[k]
     if timing.duration == 0.0 or segment.length <= 0.0:
-        return _RestPiece(k, segment.q[-1].copy())
+        return _RestPiece(k, segment.q[-1].copy(), timing.duration)  # the axes may move
     if segment.motion == "joint":
         factor = _speed_factor(sampled, k)
         move = joint_move(
@@ -687,7 +697,8 @@ def _rest_piece(robot: Robot, sampled: SampledPath, timing: SegmentTiming) -> Mo
         )
         return _JointPiece(k, move, timing.duration)
     profile = trapezoidal_profile(segment.length, timing.speed_used, timing.acceleration_used)
-    return _LinearPiece(k, profile, CubicSpline(segment.travel, segment.q, axis=0))
+    along = CubicSpline(segment.travel, segment.q, axis=0)
+    return _LinearPiece(k, profile, along, max(timing.duration, profile.duration))
 
 
 def _moves(segment: SegmentSamples) -> bool:
@@ -704,16 +715,23 @@ def _reverses(before: SegmentSamples, after: SegmentSamples) -> bool:
     return bool(float(t_in @ t_out) < -1.0 + 1e-6)
 
 
-def _stops(sampled: SampledPath, rest: FloatArray) -> BoolArray:
+def _stops(
+    sampled: SampledPath, rest: FloatArray, external: ExternalAxisMotion | None
+) -> BoolArray:
     """Waypoints where the motion is at rest (module docstring)."""
     W = len(sampled.waypoint_names)
     stop = np.ones(W, dtype=bool)
+    axes_move = np.zeros(W - 1, dtype=bool)
+    if external is not None:
+        axes_move = np.any(np.diff(external.values, axis=0) != 0.0, axis=1)
     for w in range(1, W - 1):
         before, after = sampled.segments[w - 1], sampled.segments[w]
         stop[w] = not (
             sampled.path.blend_radius[w] > 0.0
             and np.isfinite(rest[w - 1])
             and np.isfinite(rest[w])
+            and not axes_move[w - 1]
+            and not axes_move[w]
             and _moves(before)
             and _moves(after)
             and not _reverses(before, after)
@@ -744,10 +762,13 @@ def blended_cycle_time(
     """
     check_positive("linear_acceleration_m_s2", linear_acceleration_m_s2)
     robot = scene.robot
-    rest_timing = path_cycle_time(robot, sampled, linear_acceleration_m_s2=linear_acceleration_m_s2)
+    external = external_axis_motion(scene, sampled.path)
+    rest_timing = path_cycle_time(
+        robot, sampled, linear_acceleration_m_s2=linear_acceleration_m_s2, external=external
+    )
     rest = np.array([t.duration for t in rest_timing.segments], dtype=np.float64)
     W = len(sampled.waypoint_names)
-    stop = _stops(sampled, rest)
+    stop = _stops(sampled, rest, external)
     durations = rest.copy()
     passes = np.zeros(W)
     blended = ~stop

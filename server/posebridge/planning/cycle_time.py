@@ -37,6 +37,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.planning.errors import PlanningInputError, check_positive
 from posebridge.planning.path_sampling import SampledPath, SegmentSamples
 from posebridge.planning.time_scaling import joint_move, linear_move_profile, path_speed_limit
@@ -50,6 +51,7 @@ __all__ = [
     "ExternalAxisMotion",
     "SegmentTiming",
     "external_axes_duration",
+    "external_axis_motion",
     "joint_move_duration",
     "joint_move_durations",
     "linear_move_timing",
@@ -310,6 +312,18 @@ class ExternalAxisMotion:
     values: FloatArray
     velocity_max: FloatArray
     acceleration_max: FloatArray
+
+
+def external_axis_motion(scene: Scene, path: ResolvedPath) -> ExternalAxisMotion | None:
+    """Return the path's external axis values per waypoint with the scene's axis limits.
+
+    None for a cell without external axes (or a path without their values), which
+    :func:`path_cycle_time` then times with the robot joints alone.
+    """
+    external = scene.external
+    if external.count == 0 or path.external.shape[1] != external.count:
+        return None
+    return ExternalAxisMotion(path.external, external.velocity_max, external.acceleration_max)
 
 
 def external_axes_duration(

@@ -68,8 +68,8 @@ from posebridge.kinematics.singularity import (
 from posebridge.planning.cycle_time import (
     DEFAULT_LINEAR_ACCELERATION_M_S2,
     CycleTime,
-    ExternalAxisMotion,
     SegmentTiming,
+    external_axis_motion,
     path_cycle_time,
     path_derivative,
 )
@@ -532,15 +532,7 @@ def check_sampled_path(
         linear_acceleration_m_s2=linear_acceleration_m_s2,
         joint_jerk_max=joint_jerk_max,
         linear_jerk_m_s3=linear_jerk_m_s3,
-        external=(
-            ExternalAxisMotion(
-                sampled.path.external,
-                scene.external.velocity_max,
-                scene.external.acceleration_max,
-            )
-            if scene.external.count and sampled.path.external.shape[1] == scene.external.count
-            else None
-        ),
+        external=external_axis_motion(scene, sampled.path),
     )
     blended = _blended_timing(scene, sampled, linear_acceleration_m_s2)
     reached = [segment.q[segment.reachable] for segment in sampled.segments]
