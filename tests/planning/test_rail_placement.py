@@ -12,6 +12,7 @@ from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.path_check import check_path
 from posebridge.planning.placement import PlacementGrid, search_base_placement
 from posebridge.resources import data_folder
 from posebridge.results.placement import placement_result, render_placement
@@ -148,3 +149,158 @@ def test_demo_track_cell_searches_its_rail() -> None:
     assert rail.travel_configured_mm == [0.0, 4000.0]
     assert rail.origin_mm == pytest.approx([0.0, 0.0, 40.0], abs=1e-9)
     assert rail.direction == pytest.approx([1.0, 0.0, 0.0], abs=1e-12)
+
+
+TRACK_SPEED_M_S, TRACK_ACCEL_M_S2 = 1.0, 2.0  # rail_cell's track: 1000 mm/s, 2000 mm/s^2
+ROBOT_SPEED = np.radians([180.0, 240.0])  # pb-planar2r.toml velocity limits, rad/s
+ROBOT_ACCEL = np.radians([720.0, 960.0])  # and acceleration limits, rad/s^2
+
+
+def trapezoid_s(distance: float, speed: float, accel: float) -> float:
+    """Rest-to-rest trapezoid duration, closed form (Lynch & Park, *Modern Robotics*,
+    sec. 9.2.2.2): ``D / v + v / a`` when ``D >= v^2 / a``, else ``2 sqrt(D / a)``."""
+    if distance >= speed * speed / accel:
+        return distance / speed + speed / accel
+    return 2.0 * float(np.sqrt(distance / accel))
+
+
+def rail_cell(
+    targets_xy: list[tuple[float, float]],
+    waypoints: list[dict[str, object]],
+    *,
+    pins_mm: list[float] | None = None,
+    origin_mm: tuple[float, float, float] = (0.0, 0.0, 0.0),
+    direction: tuple[float, float, float] = (1.0, 0.0, 0.0),
+) -> Scene:
+    """pb-planar2r on a track (1000 mm/s, 2000 mm/s^2), targets at world (x, y) m, one path."""
+    targets: list[dict[str, object]] = [
+        {"name": f"t{k}", "position_mm": [1000.0 * x, 1000.0 * y, 0.0]}
+        for k, (x, y) in enumerate(targets_xy)
+    ]
+    for target, pin in zip(targets, pins_mm or [], strict=False):
+        target["external_axes"] = {"track": pin}
+    data = {
+        "robot": {"name": "pb-planar2r"},
+        "floor_height_mm": -500.0,
+        "track": {
+            "origin_mm": list(origin_mm),
+            "direction": list(direction),
+            "range_mm": [-500.0, 2500.0],
+            "speed_mm_s": 1000.0 * TRACK_SPEED_M_S,
+            "accel_mm_s2": 1000.0 * TRACK_ACCEL_M_S2,
+        },
+        "targets": targets,
+        "paths": [{"name": "p", "waypoints": waypoints}],
+    }
+    return resolve_scene(validate_cell(data))
+
+
+def joint_to(target: str, **extra: object) -> dict[str, object]:
+    return {"target": target, "motion": "joint", "speed_percent": 100.0, **extra}
+
+
+@pytest.mark.parametrize("motion", ["joint", "linear"])
+def test_track_only_move_estimate_is_the_track_trapezoid(motion: str) -> None:
+    # the two targets differ only by 1 m along the rail: the arm reaches both alike
+    second = (
+        joint_to("t1")
+        if motion == "joint"
+        else {
+            "target": "t1",
+            "motion": "linear",
+            "speed_mm_s": 2000.0,
+        }
+    )
+    scene = rail_cell([(0.5, 0.15), (1.5, 0.15)], [joint_to("t0"), second])
+    grid = PlacementGrid.rail_around(scene, offset_mm=[-300.0], yaw_deg=[0.0])
+    result = search_base_placement(scene, grid, top=1)
+    candidate = result.best[0]
+    assert candidate.track_position is not None
+    s0, s1 = candidate.track_position
+    q = result.q[candidate.index]
+    # closed form: each target's feasible positions are centred on its x (the line is
+    # 0.45 m from the row, test_track_positions_of_a_line_beside_the_row), so the track
+    # moves 1 m and the arm's joints are the same at both ends (same pose relative to the base)
+    assert s1 - s0 == pytest.approx(1.0, abs=1e-3)
+    np.testing.assert_allclose(q[0], q[1], atol=1e-3)
+    expected = trapezoid_s(abs(s1 - s0), TRACK_SPEED_M_S, TRACK_ACCEL_M_S2)  # closed form
+    if motion == "linear":
+        # the TCP's own trapezoid (1 m at 2 m/s and the default 2 m/s^2: triangular,
+        # 1.41 s, closed form) is shorter than the track's 1.5 s: the track sets the time
+        assert trapezoid_s(1.0, 2.0, 2.0) < expected
+    assert result.cycle_time[candidate.index] == pytest.approx(expected, rel=1e-9)
+
+
+@pytest.mark.parametrize(
+    ("targets_xy", "dominant"),
+    [
+        ([(1.0, 0.45), (1.0, -0.45)], 0),  # j1 swings 180 deg, the track hardly moves
+        ([(0.5, 0.45), (1.9, 0.35)], 2),  # the track runs 1.4 m, the joints turn a little
+    ],
+    ids=["robot-joint-dominates", "track-dominates"],
+)
+def test_synchronised_move_lasts_as_long_as_its_limiting_axis(
+    targets_xy: list[tuple[float, float]], dominant: int
+) -> None:
+    scene = rail_cell(targets_xy, [joint_to("t0"), joint_to("t1")])
+    grid = PlacementGrid.rail_around(scene, offset_mm=[0.0], yaw_deg=[0.0])
+    result = search_base_placement(scene, grid, top=1)
+    candidate = result.best[0]
+    assert candidate.track_position is not None
+    assert result.reach_fraction[candidate.index] == 1.0
+    q = result.q[candidate.index]
+    delta = np.abs(np.r_[q[1] - q[0], candidate.track_position[1] - candidate.track_position[0]])
+    speed = np.r_[ROBOT_SPEED, TRACK_SPEED_M_S]
+    accel = np.r_[ROBOT_ACCEL, TRACK_ACCEL_M_S2]
+    share = delta / delta.max()
+    # the axis named by the case limits both the speed and the acceleration of the
+    # synchronised straight-line move (largest share / limit)
+    assert int(np.argmax(share / speed)) == dominant
+    assert int(np.argmax(share / accel)) == dominant
+    # closed form: a synchronised move whose speed and acceleration one axis limits lasts
+    # as long as that axis's own trapezoid (Lynch & Park, sec. 9.2.2.2, with the path
+    # limits v_i / share_i and a_i / share_i over the largest travel)
+    expected = trapezoid_s(delta[dominant], speed[dominant], accel[dominant])
+    estimate = result.cycle_time[candidate.index]
+    assert estimate == pytest.approx(expected, rel=1e-9)
+    for i in range(delta.size):  # and no axis alone could be faster (closed form above)
+        assert estimate >= trapezoid_s(delta[i], speed[i], accel[i]) - 1e-12
+
+
+def test_blended_cycle_time_of_a_rail_candidate_matches_the_path_check() -> None:
+    waypoints = [joint_to("t0"), joint_to("t1", blend_mm=100.0), joint_to("t2")]
+    targets_xy = [(0.5, 0.15), (1.0, 0.15), (1.8, 0.25)]
+    scene = rail_cell(targets_xy, waypoints)
+    grid = PlacementGrid.rail_around(scene, offset_mm=[-300.0, 0.0, 300.0], yaw_deg=[0.0])
+    result = search_base_placement(scene, grid, top=3)
+    best = result.best[0]
+    assert result.reach_fraction[best.index] == 1.0
+    assert best.blended_cycle_time is not None
+    checked = 0
+    for candidate in result.best:
+        if candidate.blended_cycle_time is None:
+            continue
+        assert candidate.rail_frame is not None
+        assert candidate.track_position is not None
+        # reference: the path check of the same cell with the rail moved to the candidate's
+        # line and every target pinned at the candidate's track position
+        moved = rail_cell(
+            targets_xy,
+            waypoints,
+            pins_mm=[1000.0 * float(s) for s in candidate.track_position],
+            origin_mm=tuple(1000.0 * candidate.rail_frame[:3, 3]),  # type: ignore[arg-type]
+            direction=tuple(candidate.rail_frame[:3, 0]),  # type: ignore[arg-type]
+        )
+        check = check_path(moved, 0)
+        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-9)
+        # never above the path check's rest-to-rest upper bound (blended_timing)
+        assert candidate.blended_cycle_time <= check.timing.total + 1e-9
+        # any motion that carries the track from its first to its last position, at rest
+        # at both ends, takes at least the trapezoid (time-optimal under the track's
+        # speed and acceleration limits; Lynch & Park, sec. 9.2.2.2)
+        travel = abs(candidate.track_position[-1] - candidate.track_position[0])
+        assert candidate.blended_cycle_time >= trapezoid_s(
+            travel, TRACK_SPEED_M_S, TRACK_ACCEL_M_S2
+        )
+        checked += 1
+    assert checked >= 1

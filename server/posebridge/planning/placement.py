@@ -54,7 +54,9 @@ linear moves as trapezoids in TCP path length at the requested speed and
 :data:`~posebridge.planning.cycle_time.DEFAULT_LINEAR_ACCELERATION_M_S2`
 (no joint-limit cap and no continuity check along the line, unlike
 :func:`posebridge.planning.path_check.check_path`), blends ignored: the
-rest-to-rest upper bound, cheap enough for every candidate.
+rest-to-rest upper bound, cheap enough for every candidate. A base candidate's
+estimate times the robot's joints only; a rail candidate's includes the track
+(below).
 
 **Blended cycle time** (for the :data:`BLENDED_TOP` best-ranked candidates
 only, after ranking): with the base moved to the candidate's pose (TCP poses
@@ -87,9 +89,19 @@ clearance to fixtures and keep-outs with the base at that position; the
 carriage, which rides with the robot, is left out), and the candidate scored
 with the same score. The answer also gives the travel the reached targets
 need: their positions' span with :data:`RAIL_TRAVEL_MARGIN_M` at both ends,
-beside the configured travel. The cycle time estimate leaves the track's own
-travel time out, and the blended cycle time is not computed for rail
-candidates. A turntable stays at its current angle.
+beside the configured travel. A turntable stays at its current angle.
+
+The rail candidate's **cycle time estimate** includes the track: each
+Cartesian waypoint is reached at its pose's track position on the candidate's
+branch and a joint-value waypoint at the track value its path states (the
+cell's current value where it gives none), a joint move runs the robot joints
+and the track (and any turntable) on one synchronised trapezoid over the
+``n + m`` values, and a linear move lasts at least the track's own trapezoid
+between its ends, as :func:`posebridge.planning.cycle_time.path_cycle_time`
+times a path with ``external=``; one vectorised call per move for a whole
+chunk. Its **blended cycle time** (the :data:`BLENDED_TOP` best) is the path
+check's on the cell with the rail moved to the candidate's line and each
+Cartesian waypoint's track position the chosen one (:func:`scene_on_rail`).
 
 Chunks of :data:`CHUNK_CANDIDATES` candidates (fixed by the grid alone, one
 pedestal height per chunk) run through an executor
@@ -101,7 +113,7 @@ from __future__ import annotations
 
 import math
 import threading
-from collections.abc import Iterable
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -154,6 +166,7 @@ __all__ = [
     "PlacementGrid",
     "PlacementResult",
     "RankedCandidate",
+    "scene_on_rail",
     "scene_with_base",
     "search_base_placement",
 ]
@@ -340,7 +353,8 @@ class RankedCandidate:
         Exact clearance to fixtures, keep-outs, pedestal and floor per target, m (NaN
         where not reached).
     blended_cycle_time : float or None
-        s, for the :data:`BLENDED_TOP` best only (module docstring); None on a rail grid.
+        s, for the :data:`BLENDED_TOP` best only (module docstring); None where a path
+        cannot be timed there.
     rail_frame : array, shape (4, 4), or None
         A rail candidate's rail frame (track position 0, x along the travel).
     track_position : array, shape (K,), or None
@@ -382,7 +396,8 @@ class PlacementResult:
     min_margin_fraction, inverse_condition, manipulability, clearance_share : array, grid shape
         Quality terms over the reached targets (NaN where none is reached).
     cycle_time : array, grid shape
-        s; NaN where a path is not reached on the candidate's branch.
+        s; NaN where a path is not reached on the candidate's branch (rail grids: the
+        track's travel included, module docstring).
     reached : array of bool, grid shape + (K,)
     q : array, grid shape + (K, n)
         Configuration of each reached target on the candidate's branch (NaN elsewhere).
@@ -470,10 +485,15 @@ class _Problem:
     clearance_goal: float
     joint_ends: npt.NDArray[np.int64]  # (J, 2): pose index, -1 for given joints
     joint_given: FloatArray  # (J, 2, n)
+    joint_external: FloatArray  # (J, 2, m): the path's external values at the ends
     joint_percent: FloatArray  # (J,)
     joint_path: npt.NDArray[np.int64]  # (J,)
-    linear_time: FloatArray  # (paths,)
+    linear_ends: npt.NDArray[np.int64]  # (L, 2): pose index, -1 for given joints
+    linear_duration: FloatArray  # (L,): trapezoid in TCP path length at the requested speed
+    linear_external: FloatArray  # (L, 2, m): the path's external values at the ends
+    external_limits: FloatArray  # (2, m): the external axes' velocity, acceleration limits
     path_poses: tuple[npt.NDArray[np.int64], ...]
+    waypoint_pose: tuple[npt.NDArray[np.int64], ...]  # per path (W,): pose index, -1: joints
     rail: _Rail | None = None
 
 
@@ -635,7 +655,11 @@ def _placement_chunk(
 
 
 def _chunk_scores(
-    problem: _Problem, counting: BoolArray, q: FloatArray, clear: BoolArray
+    problem: _Problem,
+    counting: BoolArray,
+    q: FloatArray,
+    clear: BoolArray,
+    external: FloatArray | None = None,
 ) -> tuple[FloatArray, ...]:
     """Scores of a chunk from its counting solutions (the tail of :func:`_placement_chunk`).
 
@@ -646,6 +670,9 @@ def _chunk_scores(
     q : array, shape (C, P, M, n)
     clear : array of bool, shape (C, P, M)
         The solution keeps the clearance goal.
+    external : array, shape (C, P, M, m), optional
+        External axis values (m, rad) each solution is solved at; the cycle time
+        estimate then includes the external axes (:func:`_cycle_times`).
     """
     C, P = counting.shape[:2]
     pose_ok = np.any(counting, axis=2)  # (C, P, 8)
@@ -684,7 +711,8 @@ def _chunk_scores(
         share = np.where(
             counted > 0, (clear_target & reached).sum(axis=1) / np.maximum(counted, 1), np.nan
         )
-    cycle = _cycle_times(problem, q_pose, pose_reached)
+    external_pose = None if external is None else external[rows[:, None], np.arange(P), slot]
+    cycle = _cycle_times(problem, q_pose, pose_reached, external_pose)
     return (
         counts[rows, branch].astype(np.float64),
         branch.astype(np.float64),
@@ -698,35 +726,100 @@ def _chunk_scores(
     )
 
 
-def _cycle_times(problem: _Problem, q_pose: FloatArray, pose_reached: BoolArray) -> FloatArray:
-    """Cycle time estimate per candidate (module docstring), s; NaN where a path is not reached."""
+def _cycle_times(
+    problem: _Problem,
+    q_pose: FloatArray,
+    pose_reached: BoolArray,
+    external: FloatArray | None = None,
+) -> FloatArray:
+    """Cycle time estimate per candidate (module docstring), s; NaN where a path is not reached.
+
+    Parameters
+    ----------
+    problem : _Problem
+    q_pose : array, shape (C, P, n)
+        Configuration of every pose on the candidate's branch (NaN where not reached).
+    pose_reached : array of bool, shape (C, P)
+    external : array, shape (C, P, m), optional
+        External axis values (m, rad) every pose is reached at. With them a joint move
+        runs the robot joints and the external axes on one synchronised trapezoid over
+        the ``n + m`` values and a linear move lasts at least the external axes' own
+        synchronised move, as :func:`posebridge.planning.cycle_time.path_cycle_time`
+        times a path with ``external=``; joint-value waypoints keep the path's values.
+        Without them the robot joints alone are timed.
+
+    Returns
+    -------
+    array, shape (C,)
+    """
     C = q_pose.shape[0]
-    total = np.full(C, float(problem.linear_time.sum()))
+    total = np.zeros(C)
     for poses in problem.path_poses:
         if poses.size:
             total[~np.all(pose_reached[:, poses], axis=1)] = np.nan
     robot = problem.arm.robot
+    velocity, acceleration = robot.velocity_max, robot.acceleration_max
+    if external is not None:
+        velocity = np.concatenate([velocity, problem.external_limits[0]])
+        acceleration = np.concatenate([acceleration, problem.external_limits[1]])
     for j in range(problem.joint_ends.shape[0]):
         ends = []
         for side in range(2):
-            p = problem.joint_ends[j, side]
-            ends.append(
-                np.broadcast_to(problem.joint_given[j, side], (C, robot.dof))
-                if p < 0
-                else q_pose[:, p]
+            p = int(problem.joint_ends[j, side])
+            end = _end_values(p, problem.joint_given[j, side], q_pose)
+            if external is not None:
+                end = np.concatenate(
+                    [end, _end_values(p, problem.joint_external[j, side], external)], axis=1
+                )
+            ends.append(end)
+        total += _move_durations(
+            ends[0], ends[1], velocity, acceleration, float(problem.joint_percent[j])
+        )
+    for i in range(problem.linear_ends.shape[0]):
+        duration = np.full(C, problem.linear_duration[i])
+        if external is not None and external.shape[2] > 0:
+            start, end = (
+                _end_values(
+                    int(problem.linear_ends[i, side]), problem.linear_external[i, side], external
+                )
+                for side in range(2)
             )
-        finite = np.all(np.isfinite(ends[0]) & np.isfinite(ends[1]), axis=1)
-        duration = np.full(C, np.nan)
-        if np.any(finite):
-            duration[finite] = joint_move_durations(
-                ends[0][finite],
-                ends[1][finite],
-                robot.velocity_max,
-                robot.acceleration_max,
-                problem.joint_percent[j],
-            )
+            limits = problem.external_limits
+            own = _move_durations(start, end, limits[0], limits[1], 100.0)
+            duration = np.maximum(duration, own)
         total += duration
     return total
+
+
+def _end_values(pose: int, given: FloatArray, per_pose: FloatArray) -> FloatArray:
+    """Values at one end of a move for every candidate, shape (C, k).
+
+    ``per_pose[:, pose]`` ((C, P, k)) for a pose, ``given`` ((k,)) for joint values (``pose`` -1).
+    """
+    if pose < 0:
+        return np.broadcast_to(given, (per_pose.shape[0], given.shape[0]))
+    return per_pose[:, pose]
+
+
+def _move_durations(
+    start: FloatArray,
+    end: FloatArray,
+    velocity_max: FloatArray,
+    acceleration_max: FloatArray,
+    speed_percent: float,
+) -> FloatArray:
+    """Return the synchronised trapezoid durations of moves ``start -> end`` ((C, k) each), s, (C,).
+
+    :func:`posebridge.planning.cycle_time.joint_move_durations` (Lynch & Park, *Modern
+    Robotics*, sec. 9.2.2.2) of the rows with finite ends, NaN elsewhere.
+    """
+    finite = np.all(np.isfinite(start) & np.isfinite(end), axis=1)
+    duration = np.full(start.shape[0], np.nan)
+    if np.any(finite):
+        duration[finite] = joint_move_durations(
+            start[finite], end[finite], velocity_max, acceleration_max, speed_percent
+        )
+    return duration
 
 
 def _reach_bound(scene: Scene) -> float:
@@ -846,11 +939,15 @@ def _rail_chunk(
     counting = np.zeros((C, P, B, M, B), dtype=bool)
     for b in range(B):
         counting[:, :, b, :, b] = free[:, :, b]
+    external = rail.scene.external
+    values = np.broadcast_to(external.values, (C, P, B, M, external.count)).copy()
+    values[..., 0] = s[..., None]  # the track; turntables stay at their current angles
     scores = _chunk_scores(
         problem,
         counting.reshape(C, P, B * M, B),
         q.reshape(C, P, B * M, n),
         clear.reshape(C, P, B * M),
+        values.reshape(C, P, B * M, external.count),
     )
     branch = scores[1].astype(np.int64)
     rows = np.arange(C)
@@ -916,14 +1013,15 @@ def _rail_details(
     branch: int,
     q: FloatArray,
     position: FloatArray,
-) -> tuple[FloatArray, list[str], FloatArray]:
-    """Rail frame, reasons and exact clearance per target of one rail candidate.
+) -> tuple[FloatArray, list[str], FloatArray, FloatArray]:
+    """Rail frame, reasons, exact clearance per target and track positions of one rail candidate.
 
     Returns the candidate's rail frame (4, 4), why each target is not reached (``""``
     where it is; the first failing test: a track position at all, the required branch,
-    the candidate's branch, collision there) and the clearance of each reached target's
+    the candidate's branch, collision there), the clearance of each reached target's
     configuration to fixtures, keep-outs, pedestal and floor with the base at its track
-    position, m (NaN elsewhere).
+    position, m (NaN elsewhere), and every pose's track position on the candidate's
+    branch, m, shape (P,) (NaN where the branch reaches it from no position).
     """
     T_rail = _rail_frames(rail, grid, flat, flat + 1)
     s = _track_positions(problem, rail, T_rail)[0]  # (P, 8)
@@ -950,7 +1048,7 @@ def _rail_details(
             reasons.append("reachable only on another branch than the candidate's")
         else:
             reasons.append("in collision at the chosen track position on the candidate's branch")
-    return T_rail[0], reasons, clearance
+    return T_rail[0], reasons, clearance, s[:, branch]
 
 
 def _problem(
@@ -982,13 +1080,17 @@ def _problem(
         else:
             key[(k, True)] = len(poses) - 1
             approach_pose.append(-1)
-    n = scene.robot.dof
+    n, m = scene.robot.dof, scene.external.count
     joint_ends: list[tuple[int, int]] = []
     joint_given: list[FloatArray] = []
+    joint_external: list[FloatArray] = []
     joint_percent: list[float] = []
     joint_path: list[int] = []
-    linear_time: list[float] = []
+    linear_ends: list[tuple[int, int]] = []
+    linear_duration: list[float] = []
+    linear_external: list[FloatArray] = []
     path_poses: list[npt.NDArray[np.int64]] = []
+    waypoint_pose: list[npt.NDArray[np.int64]] = []
     for index, path in enumerate(scene.paths):
         pose_of: list[int] = []
         used: list[int] = []
@@ -1004,21 +1106,28 @@ def _problem(
             if pose_of[-1] >= 0:
                 used.append(pose_of[-1])
         path_poses.append(np.array(sorted(set(used)), dtype=np.int64))
-        linear = 0.0
+        waypoint_pose.append(np.array(pose_of, dtype=np.int64))
+        external = np.broadcast_to(scene.external.values, (len(path.sources), m))
+        if path.external.shape == external.shape:
+            external = path.external
         for w in range(1, len(path.sources)):
             if path.linear[w]:
                 length = float(
                     np.linalg.norm(path.T_world_tool[w, :3, 3] - path.T_world_tool[w - 1, :3, 3])
                 )
-                linear += trapezoidal_profile(
-                    length, float(path.linear_speed[w]), DEFAULT_LINEAR_ACCELERATION_M_S2
-                ).duration
+                linear_ends.append((pose_of[w - 1], pose_of[w]))
+                linear_duration.append(
+                    trapezoidal_profile(
+                        length, float(path.linear_speed[w]), DEFAULT_LINEAR_ACCELERATION_M_S2
+                    ).duration
+                )
+                linear_external.append(external[w - 1 : w + 1])
             else:
                 joint_ends.append((pose_of[w - 1], pose_of[w]))
                 joint_given.append(np.stack([path.q[w - 1], path.q[w]]))
+                joint_external.append(external[w - 1 : w + 1])
                 joint_percent.append(float(path.speed_percent[w]))
                 joint_path.append(index)
-        linear_time.append(linear)
     full = clearance_scene(scene)
     environment_count = fixture_count(scene) + len(scene.keep_outs.names)
     kept = np.arange(environment_count)
@@ -1054,10 +1163,15 @@ def _problem(
         clearance_goal=clearance_goal_m,
         joint_ends=np.array(joint_ends, dtype=np.int64).reshape(-1, 2),
         joint_given=np.array(joint_given).reshape(-1, 2, n),
+        joint_external=np.array(joint_external).reshape(len(joint_external), 2, m),
         joint_percent=np.array(joint_percent),
         joint_path=np.array(joint_path, dtype=np.int64),
-        linear_time=np.array(linear_time),
+        linear_ends=np.array(linear_ends, dtype=np.int64).reshape(-1, 2),
+        linear_duration=np.array(linear_duration),
+        linear_external=np.array(linear_external).reshape(len(linear_external), 2, m),
+        external_limits=np.stack([scene.external.velocity_max, scene.external.acceleration_max]),
         path_poses=tuple(path_poses),
+        waypoint_pose=tuple(waypoint_pose),
     )
 
 
@@ -1215,7 +1329,7 @@ def _ranked(
             tie_rank = rank
         if problem.rail is not None and position is not None:
             at = position[idx]
-            frame, reasons, clearance = _rail_details(
+            frame, reasons, clearance, pose_track = _rail_details(
                 problem, problem.rail, grid, flat, int(branch[idx]), q[idx], at
             )
             placed = at[np.isfinite(at)]
@@ -1229,7 +1343,11 @@ def _ranked(
                     limit_margin=limit_margins(robot, q_c).margin.min(axis=1),
                     manipulability=manipulability_yoshikawa(jac),
                     clearance=clearance,
-                    blended_cycle_time=None,
+                    blended_cycle_time=(
+                        _rail_blended_cycle_time(problem, problem.rail, frame, pose_track)
+                        if rank <= BLENDED_TOP
+                        else None
+                    ),
                     rail_frame=frame,
                     track_position=at,
                     travel_needed=(
@@ -1304,15 +1422,98 @@ def scene_with_base(scene: Scene, T_world_base: FloatArray) -> Scene:
     return replace(scene, T_world_base=T_world_base, paths=tuple(paths))
 
 
+def scene_on_rail(
+    scene: Scene, T_world_rail: FloatArray, track_position: Sequence[FloatArray]
+) -> Scene:
+    """Return the scene with its track's rail at ``T_world_rail`` and the paths' track positions.
+
+    Everything the carriage carries (robot base, pedestal, carriage) moves with the
+    rail, at the scene's own track value; the TCP poses of joint-value waypoints move
+    with the base at their own external values; every other pose stays.
+
+    Parameters
+    ----------
+    scene : Scene
+        A cell with a track.
+    T_world_rail : array, shape (4, 4)
+        The new rail frame (track position 0, x along the travel).
+    track_position : sequence of arrays, shape (W_i,) each
+        Per path, the track position of each waypoint, m; NaN keeps the path's value.
+
+    Returns
+    -------
+    Scene
+    """
+    external = scene.external
+    track = external.track
+    if track is None:
+        raise PlanningInputError("rail placement: the cell has no track")
+    moved = replace(external, track=replace(track, T_world_rail=T_world_rail))
+    at = external.values[None]
+    T_world_base = moved.T_world_base(at, scene.T_world_base)[0]
+    D = T_world_base @ invert_transform(external.T_world_base(at, scene.T_world_base)[0])
+    carriage = f"{external.names[0]} carriage"
+    boxes = scene.boxes
+    rows = [i for i, name in enumerate(boxes.names) if name == carriage]
+    if rows:
+        T_box = boxes.T_world.copy()
+        T_box[rows] = D @ T_box[rows]
+        boxes = replace(boxes, T_world=T_box)
+    paths = []
+    for path, positions in zip(scene.paths, track_position, strict=True):
+        values = path.external.copy()
+        values[:, 0] = np.where(np.isnan(positions), values[:, 0], positions)
+        T_world_tool = path.T_world_tool.copy()
+        given = path.joints_given
+        if np.any(given):
+            T_bases = moved.T_world_base(values[given], T_world_base)
+            T_world_tool[given] = T_bases @ fk_tool(scene.robot, path.q[given], scene.T_flange_tool)
+        paths.append(replace(path, T_world_tool=T_world_tool, external=values))
+    return replace(
+        scene,
+        T_world_base=T_world_base,
+        pedestal=replace(scene.pedestal, T_world=D @ scene.pedestal.T_world),
+        boxes=boxes,
+        paths=tuple(paths),
+        external=moved,
+    )
+
+
+def _rail_blended_cycle_time(
+    problem: _Problem, rail: _Rail, T_world_rail: FloatArray, pose_track: FloatArray
+) -> float | None:
+    """Return the blended cycle time, s, of every path of one rail candidate.
+
+    The rail at ``T_world_rail`` and every Cartesian waypoint at its pose's track
+    position ``pose_track`` ((P,), m) on the candidate's branch
+    (:func:`scene_on_rail`); None where a waypoint has no position or a path cannot be
+    sampled or timed there (module docstring).
+    """
+    positions = []
+    for poses in problem.waypoint_pose:
+        track = np.where(poses >= 0, pose_track[poses], np.nan)
+        if np.any(np.isnan(track[poses >= 0])):
+            return None
+        positions.append(track)
+    return _paths_blended_cycle_time(scene_on_rail(rail.scene, T_world_rail, positions))
+
+
 def _blended_cycle_time(scene: Scene, T_world_base: FloatArray) -> float | None:
     """Return the blended cycle time, s, of every path with the base at ``T_world_base``.
 
     See the module docstring; None if a path cannot be sampled or timed there.
     """
+    return _paths_blended_cycle_time(scene_with_base(scene, T_world_base))
+
+
+def _paths_blended_cycle_time(moved: Scene) -> float | None:
+    """Return the sum of the blended cycle times of the scene's paths, s, as the path check times them.
+
+    None if a path cannot be sampled or timed, or the scene has no path.
+    """
     from posebridge.planning.blended_timing import blended_cycle_time
     from posebridge.planning.path_sampling import sample_path
 
-    moved = scene_with_base(scene, T_world_base)
     total = 0.0
     for index in range(len(moved.paths)):
         try:

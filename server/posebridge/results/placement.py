@@ -41,8 +41,8 @@ CYCLE_TIME_NOTE = (
     "and timed through its blends as the path check does"
 )
 RAIL_NOTE = (
-    " Rail search: each target from its own track position; the track's travel time is left "
-    "out and no blended time is computed."
+    "; rail search: each target from its own track position, both times with the track's "
+    "travel (a joint move synchronised with it, a linear move at least as long as its own move)"
 )
 SCORE_WORDS = (
     "The score is the share of the targets the robot reaches on one arm branch, plus at "
@@ -113,13 +113,14 @@ class PlacementCandidateReport(_Report):
     manipulability: float | None
     min_clearance_mm: float | None
     cycle_time_s: float | None = Field(
-        description="Rest-to-rest estimate over the cell's paths (upper bound); null if a path "
-        "waypoint is not reached."
+        description="Rest-to-rest estimate over the cell's paths (upper bound; rail search: "
+        "the track's travel included); null if a path waypoint is not reached."
     )
     blended_cycle_time_s: float | None = Field(
         default=None,
-        description="Blended cycle time over the cell's paths with the base here (the paths "
-        "sampled and timed as the path check does); only for the best-ranked few candidates "
+        description="Blended cycle time over the cell's paths with the base here (rail search: "
+        "the rail on this line, each target at its track position; the paths sampled and timed "
+        "as the path check does); only for the best-ranked few candidates "
         "(see cycle_time_note), null otherwise or if a path cannot be timed.",
     )
     targets: list[TargetPlacementReport]
