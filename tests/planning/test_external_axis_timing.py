@@ -67,3 +67,28 @@ def test_demo_path_reaches_the_mill_at_its_pinned_track_value() -> None:
     d, v, a = 3.5, SPEED_M_S, ACCEL_M_S2
     assert report.segments[2].duration_s >= d / v + v / a - 1e-9
     assert report.segments[2].blended_duration_s >= d / v + v / a - 1e-9  # blended too
+
+
+def test_linear_move_waits_for_the_track_in_the_blended_motion() -> None:
+    cell = load_cell(DEMO)
+    robot_joints = [10.0, -20.0, 30.0, 0.0, 45.0, 0.0]
+    waypoints = [
+        {"joints_deg": [*robot_joints, 200.0, 0.0], "motion": "joint", "speed_percent": 100.0},
+        {"joints_deg": [*robot_joints, 2200.0, 0.0], "motion": "linear", "speed_mm_s": 5000.0},
+    ]
+    data = cell.model_dump(mode="json")
+    data["paths"] = [{"name": "glide", "waypoints": waypoints}]
+    scene = resolve_scene(type(cell).model_validate(data), DEMO)
+    sampled = sample_path(scene, 0)
+    # the arm rides the track 2 m with its joints still: the TCP's own trapezoid (2 m at
+    # 5 m/s and 2 m/s^2: triangular, 2 sqrt(2 / 2) = 2 s) is shorter than the track's
+    # (2 / 1.5 + 1.5 / 1.8 = 2.17 s), both closed form (Lynch & Park, sec. 9.2.2.2)
+    d, v, a = 2.0, SPEED_M_S, ACCEL_M_S2
+    expected = d / v + v / a
+    assert 2.0 * math.sqrt(d / 2.0) < expected
+    blended = blended_cycle_time(scene, sampled)
+    assert blended.total == pytest.approx(expected, rel=1e-12)
+    motion = sample_motion(blended, 0.01)
+    assert motion.t[-1] == pytest.approx(expected, rel=1e-12)  # the profile stretched to it
+    # the arm's joints stand still all along (they are the same at both ends)
+    assert float(abs(motion.qdot).max()) == pytest.approx(0.0, abs=1e-9)
