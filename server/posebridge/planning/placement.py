@@ -205,6 +205,10 @@ class PlacementGrid:
         plane, along the rail frame's y turned to the candidate's yaw), ``y`` is
         ``[0]``, ``yaw`` the direction of travel about world z, rad, and ``height``
         the current pedestal.
+    table_axis : int or None
+        A table grid (:func:`posebridge.planning.placement_table.table_grid`): the
+        external-axis index of the turntable moved; ``x`` and ``y`` hold world positions
+        of its axis point, m, ``yaw`` and ``height`` the robot's current yaw and pedestal.
     """
 
     x: FloatArray
@@ -212,6 +216,7 @@ class PlacementGrid:
     yaw: FloatArray
     height: FloatArray
     rail: bool = False
+    table_axis: int | None = None
 
     @property
     def shape(self) -> tuple[int, int, int, int]:
@@ -362,6 +367,11 @@ class RankedCandidate:
     travel_needed : tuple of float or None
         ``(lower, upper)`` track positions covering every reached target's position with
         :data:`RAIL_TRAVEL_MARGIN_M` at both ends, m; None without a reached target.
+    table_angle : array, shape (K,), or None
+        A table candidate's table angle of each reached target it carries, rad (NaN
+        elsewhere).
+    table_span : tuple of float or None
+        ``(lowest, highest)`` of those angles, rad; None when no carried target is reached.
     """
 
     rank: int
@@ -376,6 +386,8 @@ class RankedCandidate:
     rail_frame: FloatArray | None = None
     track_position: FloatArray | None = None
     travel_needed: tuple[float, float] | None = None
+    table_angle: FloatArray | None = None
+    table_span: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -415,6 +427,15 @@ class PlacementResult:
         Rail grids: the track's configured travel ``(lower, upper)``, m.
     carriage_length : float
         Rail grids: the carriage's length along the rail, m (0 otherwise).
+    table_angle : array, grid shape + (K,), or None
+        Table grids: the table angle of each reached target the table carries, rad (NaN
+        elsewhere).
+    table_range : tuple of float or None
+        Table grids: the table's configured angle range ``(lower, upper)``, rad.
+    table_name : str
+        Table grids: the turntable moved (``""`` otherwise).
+    table_point : array, shape (3,), or None
+        Table grids: the table's current axis point (top centre of the plate), m.
     """
 
     robot: Robot
@@ -437,6 +458,10 @@ class PlacementResult:
     track_position: FloatArray | None = None
     rail_travel: tuple[float, float] | None = None
     carriage_length: float = 0.0
+    table_angle: FloatArray | None = None
+    table_range: tuple[float, float] | None = None
+    table_name: str = ""
+    table_point: FloatArray | None = None
 
 
 @dataclass(frozen=True, eq=False)

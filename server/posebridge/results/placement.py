@@ -25,6 +25,7 @@ __all__ = [
     "PlacementGridReport",
     "PlacementReport",
     "RailCandidateReport",
+    "TableCandidateReport",
     "TargetPlacementReport",
     "placement_result",
     "render_placement",
@@ -43,6 +44,11 @@ CYCLE_TIME_NOTE = (
 RAIL_NOTE = (
     "; rail search: each target from its own track position, both times with the track's "
     "travel (a joint move synchronised with it, a linear move at least as long as its own move)"
+)
+TABLE_NOTE = (
+    " Table search: each target on the table from its own table angle; joint moves include "
+    "the table's turn (synchronised with the joints), a linear move lasts at least the "
+    "table's turn between its ends; no blended time is computed."
 )
 SCORE_WORDS = (
     "The score is the share of the targets the robot reaches on one arm branch, plus at "
@@ -80,6 +86,22 @@ class RailCandidateReport(_Report):
     )
 
 
+class TableCandidateReport(_Report):
+    """Where a candidate puts the turntable, and the table angles its targets use."""
+
+    name: str = Field(description="The turntable moved.")
+    position_mm: list[float] = Field(
+        description="Top centre of the plate (on the axis); its height and axis direction are "
+        "kept, the robot stays where it is."
+    )
+    move_mm: list[float] = Field(description="The move from the table's current position.")
+    angle_span_deg: list[float] | None = Field(
+        description="[lowest, highest] table angle the reached targets on the table use; null "
+        "when none is reached."
+    )
+    angle_range_deg: list[float] = Field(description="The table's configured angle range.")
+
+
 class TargetPlacementReport(_Report):
     """One target at one candidate base pose."""
 
@@ -94,6 +116,11 @@ class TargetPlacementReport(_Report):
         default=None,
         description="Rail search: the track position the target is reached from (null for a "
         "base search or where not reached).",
+    )
+    table_angle_deg: float | None = Field(
+        default=None,
+        description="Table search: the table angle the target is reached at (null for a target "
+        "the table does not carry, another search, or where not reached).",
     )
 
 
@@ -130,6 +157,12 @@ class PlacementCandidateReport(_Report):
         "(x_mm, y_mm are then the middle of the configured travel on its line, yaw_deg the "
         "direction of travel).",
     )
+    table: TableCandidateReport | None = Field(
+        default=None,
+        description="Table search: where this candidate puts the turntable and the angles its "
+        "targets use (x_mm, y_mm are then the table's position, yaw_deg and "
+        "pedestal_height_mm the robot's, unchanged).",
+    )
     tie_rank: int = Field(
         default=0,
         description="Rank of the best candidate this one ties with (within score_noise); its "
@@ -141,7 +174,8 @@ class PlacementGridReport(_Report):
     """The full score grid for a heatmap, shape (ny, nx, nyaw, nheights).
 
     For a rail search ``x_mm`` holds the rail line's offsets, ``y_mm`` is ``[0]`` and
-    ``yaw_deg`` the directions of travel.
+    ``yaw_deg`` the directions of travel; for a table search ``x_mm`` and ``y_mm`` are the
+    table's positions (its axis point), ``yaw_deg`` and ``pedestal_height_mm`` the robot's.
     """
 
     x_mm: list[float]
@@ -155,12 +189,16 @@ class PlacementGridReport(_Report):
 class PlacementReport(_Report):
     """Ranked base poses and the score grid."""
 
-    search: Literal["base", "rail"] = Field(
+    search: Literal["base", "rail", "table"] = Field(
         default="base",
-        description="What was searched: the robot's base pose, or (a cell with a track) the "
-        "rail's line, each target reached from its own track position.",
+        description="What was searched: the robot's base pose, (a cell with a track) the "
+        "rail's line, each target reached from its own track position, or (a turntable cell) "
+        "the table's position, each target on it reached at its own table angle.",
     )
     robot: str
+    table_name: str | None = Field(
+        default=None, description="Table search: the turntable whose position was searched."
+    )
     targets: list[str]
     candidates_evaluated: int
     best: list[PlacementCandidateReport]
@@ -227,6 +265,25 @@ def _rail_report(result: PlacementResult, candidate: RankedCandidate) -> RailCan
     )
 
 
+def _table_report(
+    result: PlacementResult, candidate: RankedCandidate
+) -> TableCandidateReport | None:
+    """Return the table of a table-search candidate in boundary units (None for other searches)."""
+    point, angle_range = result.table_point, result.table_range
+    if point is None or angle_range is None:
+        return None
+    iy, ix, _, _ = candidate.index
+    position = [float(result.grid.x[ix]), float(result.grid.y[iy]), float(point[2])]
+    span = candidate.table_span
+    return TableCandidateReport(
+        name=result.table_name,
+        position_mm=mm_from_m(position).tolist(),
+        move_mm=mm_from_m([position[0] - point[0], position[1] - point[1], 0.0]).tolist(),
+        angle_span_deg=None if span is None else deg_from_rad(span).tolist(),
+        angle_range_deg=deg_from_rad(angle_range).tolist(),
+    )
+
+
 def _candidate(result: PlacementResult, candidate: RankedCandidate) -> PlacementCandidateReport:
     """Return one ranked candidate in boundary units."""
     grid = result.grid
@@ -248,6 +305,11 @@ def _candidate(result: PlacementResult, candidate: RankedCandidate) -> Placement
             track_position_mm=(
                 _optional(float(mm_from_m(candidate.track_position[k])))
                 if candidate.track_position is not None and reached[k]
+                else None
+            ),
+            table_angle_deg=(
+                _optional(float(deg_from_rad(candidate.table_angle[k])))
+                if candidate.table_angle is not None and reached[k]
                 else None
             ),
         )
@@ -280,6 +342,7 @@ def _candidate(result: PlacementResult, candidate: RankedCandidate) -> Placement
         blended_cycle_time_s=candidate.blended_cycle_time,
         targets=targets,
         rail=rail,
+        table=_table_report(result, candidate),
         tie_rank=candidate.tie_rank,
     )
 
@@ -301,9 +364,14 @@ def placement_result(result: PlacementResult) -> PlacementReport:
     best = [_candidate(result, candidate) for candidate in result.best]
     current = result.current
     current_cycle = None if current is None else _optional(float(result.cycle_time[current]))
+    search: Literal["base", "rail", "table"] = (
+        "table" if grid.table_axis is not None else "rail" if grid.rail else "base"
+    )
+    note = {"base": "", "rail": RAIL_NOTE, "table": TABLE_NOTE}[search]
     return PlacementReport(
-        search="rail" if grid.rail else "base",
+        search=search,
         robot=robot.name,
+        table_name=result.table_name if search == "table" else None,
         robot_geometry_missing=robot.geometry_missing,
         targets=list(result.target_names),
         candidates_evaluated=grid.size,
@@ -317,7 +385,7 @@ def placement_result(result: PlacementResult) -> PlacementReport:
             reach_fraction=result.reach_fraction.tolist(),
         ),
         score_note=SCORE_NOTE,
-        cycle_time_note=CYCLE_TIME_NOTE + (RAIL_NOTE if grid.rail else ""),
+        cycle_time_note=CYCLE_TIME_NOTE + note,
         current_score=None if current is None else float(result.score[current]),
         current_cycle_time_s=current_cycle,
         score_words=SCORE_WORDS,
@@ -360,10 +428,54 @@ def _render_rail(report: PlacementReport, top: int) -> list[str]:
     return lines + table_lines(header, rows)
 
 
+def _render_table(report: PlacementReport, top: int) -> list[str]:
+    """Header and table of a table search's best table positions, and the best one's angles."""
+    lines = [
+        f"Table placement for {report.robot} ({report.table_name}): {report.candidates_evaluated} table "
+        f"positions, {len(report.targets)} targets; current table score "
+        f"{number_text(report.current_score, 3)}",
+        report.score_words,
+        report.score_note,
+        report.cycle_time_note,
+        *([report.speed_note] if report.speed_note else []),
+        "",
+    ]
+    rows = []
+    for c in report.best[:top]:
+        span = None if c.table is None else c.table.angle_span_deg
+        rows.append(
+            [
+                str(c.rank) if c.tie_rank in (0, c.rank) else f"{c.rank} (ties {c.tie_rank})",
+                f"{c.x_mm:.0f}",
+                f"{c.y_mm:.0f}",
+                f"{c.score:.3f}",
+                f"{c.targets_reached}/{len(c.targets)}",
+                c.branch,
+                number_text(c.min_margin_deg),
+                number_text(c.min_clearance_mm),
+                number_text(c.cycle_time_s, 2),
+                "-" if span is None else f"{span[0]:.0f}..{span[1]:.0f}",
+            ]
+        )
+    header = ["rank", "table x mm", "table y mm", "score", "reached", "branch", "margin deg"]
+    header += ["clearance mm", "cycle s", "angles used deg"]
+    lines += table_lines(header, rows)
+    if report.best and report.best[0].table is not None:
+        best = report.best[0]
+        low, high = best.table.angle_range_deg  # type: ignore[union-attr]
+        angles = ", ".join(
+            f"{t.name} {t.table_angle_deg:.1f}"
+            for t in best.targets
+            if t.table_angle_deg is not None
+        )
+        lines += ["", f"Rank 1 table angles (deg, range {low:.0f}..{high:.0f}): {angles or '-'}"]
+    return lines
+
+
 def render_placement(report: PlacementReport, *, top: int = 10) -> str:
-    """Plain-text table of the best base poses (rail lines for a rail search)."""
-    if report.search == "rail":
-        lines = _render_rail(report, top)
+    """Plain-text table of the best base poses (rail lines, table positions for those searches)."""
+    if report.search in ("rail", "table"):
+        lines = _render_rail(report, top) if report.search == "rail" else _render_table(report, top)
         if report.robot_geometry_missing:
             lines.insert(0, f"WARNING: {report.robot_geometry_missing}")
         return "\n".join(lines)

@@ -1,0 +1,775 @@
+"""Base placement for a turntable cell: search where the table stands.
+
+The robot stays where it is (on a track, at its current position); a candidate
+moves one turntable (:func:`table_axis`: the one the user names, else the first
+that carries a target) so that its axis point is at world ``(x, y)``, its height
+and axis direction kept. The fixtures it carries, their children, their targets
+and the table's plate move with it; every other fixture (a stand under the table
+included) stays. With ``delta`` the move, a carried pose at table angle
+``theta`` is
+
+    T_world_pose(theta) = Trans(delta) D_p0(theta - theta_0) T_world_pose
+
+with ``D_p0`` the table's turn about its current axis line
+(:func:`posebridge.cell.external_axes.turntable_motion`; a turn about the moved
+line is ``Trans(delta) D_p0 Trans(-delta)``) and ``theta_0`` its current angle.
+
+Each carried pose is reached from its own table angle: per pose and branch, the
+middle of the longest feasible interval of the table angle
+(:func:`posebridge.cell.external_kinematics.feasible_intervals` over the
+configured range, swept every :data:`TABLE_SWEEP_SPACING_RAD` and refined to
+0.01 deg; reach and joint limits), with the robot's base moved by ``-delta``
+(the same relative placement as the table moved by ``+delta``); a target and its
+approach pose share one angle in the intersection of their intervals, as the
+rail search does (:mod:`posebridge.planning.placement`). Poses the table does
+not carry are solved where they are, the table at its current angle.
+The poses are then solved there and counted and scored exactly as the base and
+rail searches do (:func:`posebridge.planning.placement._chunk_scores`: score,
+ties, score noise). Clearance: the arm against the fixed obstacles with the base
+where it is, and against the moved table's plate and carried fixtures at their
+turned poses, checked as the arm moved by the inverse of the table's motion
+against them unmoved (distances do not change under a rigid motion of both).
+
+**Cycle time estimate** (rest to rest, as the other searches): a joint move
+runs the robot joints and the table angle on one synchronised trapezoid over
+``n + 1`` values (:func:`posebridge.planning.cycle_time.joint_move_durations`
+with the table's speed and acceleration limits); a linear move lasts the longer
+of its TCP trapezoid and the table's own turn between its ends. A waypoint on
+the table takes its pose's chosen angle, a joint waypoint its given table value,
+any other waypoint holds the angle of the waypoint before it in its path (the
+first ones that of the first waypoint with an angle; the current angle when no
+waypoint has one). No blended cycle time is computed for table candidates.
+
+:func:`search_mode` names the search a front door runs for ``auto``: a cell
+with a track searches its rail (a cell with a track and a turntable too), a cell
+without a track whose targets ride a turntable searches the table's position,
+any other cell its base pose.
+"""
+
+from __future__ import annotations
+
+import math
+import threading
+from dataclasses import dataclass, replace
+from typing import Any, Literal
+
+import numpy as np
+import numpy.typing as npt
+
+from posebridge.cell.external_axes import turntable_motion
+from posebridge.cell.external_kinematics import carrier_axis, feasible_intervals
+from posebridge.cell.scene import Scene
+from posebridge.compute import Executor, ProgressCallback, run_chunks
+from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
+from posebridge.geometry.shapes import ObstacleSet, default_pair_mask
+from posebridge.kinematics.branches import branch_geometry, labels_match
+from posebridge.kinematics.jacobian import jacobian_base
+from posebridge.kinematics.metrics import jacobian_rows, limit_margins, manipulability_yoshikawa
+from posebridge.planning.cycle_time import (
+    DEFAULT_LINEAR_ACCELERATION_M_S2,
+    joint_move_durations,
+)
+from posebridge.planning.errors import PlanningInputError, check_non_negative
+from posebridge.planning.placement import (
+    BRANCHES,
+    PlacementGrid,
+    PlacementResult,
+    RankedCandidate,
+    _branch_rows,
+    _branch_words,
+    _chunk_scores,
+    _free_and_clear,
+    _intersection,
+    _longest_middle,
+    _own_scenes,
+    _Problem,
+    _problem,
+    score_noise,
+)
+from posebridge.planning.time_scaling import trapezoidal_profile
+from posebridge.transforms import invert_transform
+from posebridge.units import BoolArray, FloatArray, mm_from_m, rad_from_deg
+
+__all__ = [
+    "TABLE_CHUNK_CANDIDATES",
+    "TABLE_SWEEP_SPACING_RAD",
+    "SearchMode",
+    "search_mode",
+    "search_table_placement",
+    "table_axis",
+    "table_grid",
+]
+
+TABLE_CHUNK_CANDIDATES = 20
+"""Candidate table positions per executor chunk (each sweeps the table angle for every carried pose)."""
+TABLE_SWEEP_SPACING_RAD = float(rad_from_deg(5.0))
+"""Sweep spacing of the table angle (intervals narrower than this may be missed)."""
+
+SearchMode = Literal["base", "rail", "table"]
+
+
+def carried_targets(scene: Scene, axis: int) -> BoolArray:
+    """Whether the turntable at external index ``axis`` carries each target, shape (K,)."""
+    return np.array(
+        [carrier_axis(scene, k) == axis for k in range(len(scene.targets.names))], dtype=bool
+    )
+
+
+def search_mode(scene: Scene, requested: str) -> SearchMode:
+    """Return the search a request runs: ``requested``, or for ``"auto"`` the module docstring's rule."""
+    if requested in ("base", "rail", "table"):
+        return requested  # type: ignore[return-value]
+    if requested != "auto":
+        raise PlanningInputError(f"search: expected auto, base, rail or table, got {requested!r}")
+    external = scene.external
+    if external.track is not None:
+        return "rail"
+    offset = external.table_offset
+    for k in range(len(external.turntables)):
+        if np.any(carried_targets(scene, offset + k)):
+            return "table"
+    return "base"
+
+
+def table_axis(scene: Scene, name: str | None = None) -> int:
+    """External-vector index of the turntable a table search moves.
+
+    ``name`` picks one; by default the first turntable that carries a target, else the first.
+    """
+    external = scene.external
+    tables = external.turntables
+    if not tables:
+        raise PlanningInputError("table placement: the cell has no turntable")
+    offset = external.table_offset
+    names = list(external.names[offset:])
+    if name is not None:
+        if name not in names:
+            raise PlanningInputError(
+                f"table: no turntable called {name!r} (the cell has {', '.join(names)})"
+            )
+        return offset + names.index(name)
+    for k in range(len(tables)):
+        if np.any(carried_targets(scene, offset + k)):
+            return offset + k
+    return offset
+
+
+def table_grid(
+    scene: Scene,
+    *,
+    table: str | None = None,
+    x_mm: npt.ArrayLike | None = None,
+    y_mm: npt.ArrayLike | None = None,
+    half_width_mm: float = 1000.0,
+    count: int = 21,
+) -> PlacementGrid:
+    """Return a table grid: world positions of the table's axis point (see ``PlacementGrid``).
+
+    ``yaw`` and ``height`` hold the robot's current yaw and pedestal (unchanged);
+    ``x_mm`` and ``y_mm`` default to ``count`` values within ``half_width_mm`` of the
+    table's current position.
+    """
+    if count < 1:
+        raise PlanningInputError("count: expected an integer >= 1")
+    axis = table_axis(scene, table)
+    point = scene.external.turntables[axis - scene.external.table_offset].point
+    offsets = np.linspace(-half_width_mm, half_width_mm, count) if count > 1 else np.zeros(1)
+    grid = PlacementGrid.from_user(
+        float(mm_from_m(point[0])) + offsets if x_mm is None else x_mm,
+        float(mm_from_m(point[1])) + offsets if y_mm is None else y_mm,
+        [scene.cell.base.rpy_deg[2]],
+        [scene.cell.base.pedestal_height_mm],
+    )
+    return replace(grid, table_axis=axis)
+
+
+@dataclass(frozen=True, eq=False)
+class _Segments:
+    """Table-angle ends of a set of path segments (module docstring, cycle time).
+
+    source : (S, 2) pose index whose chosen angle an end takes, -1 for ``value``
+    value : (S, 2) the end's table angle where ``source`` is -1, rad
+    """
+
+    source: npt.NDArray[np.int64]
+    value: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
+class _Table:
+    """The fixed parts of a table search (SI; module docstring).
+
+    scene : the cell
+    axis : external index of the table
+    point, direction : its current axis point (3,) and unit axis (3,)
+    angle0 : its current angle, rad
+    velocity, acceleration : its limits, rad/s and rad/s²
+    carried : (P,) the pose rides the table
+    T_world_base : (4, 4) the robot's base
+    fixed, fixed_mask : obstacles that stay and the arm's pairs with them
+    moving, moving_mask : the plate and the carried fixtures
+    triple : (8,) row of the intervals' branch list for each row of BRANCHES
+    samples : table angles of the interval sweep
+    joint : ends of the joint moves (in the order of the problem's ``joint_ends``)
+    linear : ends of the linear moves
+    linear_time : (L,) TCP trapezoid of each linear move, s
+    """
+
+    scene: Scene
+    axis: int
+    point: FloatArray
+    direction: FloatArray
+    angle0: float
+    velocity: float
+    acceleration: float
+    carried: BoolArray
+    T_world_base: FloatArray
+    fixed: ObstacleSet
+    fixed_mask: BoolArray
+    moving: ObstacleSet
+    moving_mask: BoolArray
+    triple: npt.NDArray[np.int64]
+    samples: int
+    joint: _Segments
+    linear: _Segments
+    linear_time: FloatArray
+
+
+def _segments(
+    scene: Scene, problem: _Problem, axis: int, carried: BoolArray
+) -> tuple[_Segments, _Segments, FloatArray]:
+    """Table-angle ends of every joint and linear move of the cell's paths, and the linear moves' times.
+
+    Pose indices of target waypoints follow :func:`posebridge.planning.placement._problem`.
+    """
+    angle0 = float(scene.external.values[axis])
+    ends: dict[bool, tuple[list[tuple[int, int]], list[tuple[float, float]]]] = {
+        False: ([], []),
+        True: ([], []),
+    }
+    linear_time: list[float] = []
+    for path in scene.paths:
+        specs: list[tuple[int, float] | None] = []  # (pose, value) of each waypoint
+        for w, source in enumerate(path.sources):
+            if source == "joints":
+                given = path.external[w, axis] if path.external.shape[1] > axis else angle0
+                specs.append((-1, float(given)))
+            elif source == "pose":
+                specs.append(None)  # a world pose: the table holds its angle
+            else:
+                k = int(path.target_index[w])
+                approach = bool(path.approach[w]) and problem.approach_pose[k] >= 0
+                p = int(problem.approach_pose[k] if approach else problem.target_pose[k])
+                specs.append((p, math.nan) if carried[p] else None)
+        known = [spec for spec in specs if spec is not None]
+        held = known[0] if known else (-1, angle0)
+        filled = []
+        for spec in specs:
+            held = held if spec is None else spec
+            filled.append(held)
+        for w in range(1, len(path.sources)):
+            moves_linearly = bool(path.linear[w])
+            sources, values = ends[moves_linearly]
+            sources.append((filled[w - 1][0], filled[w][0]))
+            values.append((filled[w - 1][1], filled[w][1]))
+            if moves_linearly:
+                length = float(
+                    np.linalg.norm(path.T_world_tool[w, :3, 3] - path.T_world_tool[w - 1, :3, 3])
+                )
+                linear_time.append(
+                    trapezoidal_profile(
+                        length, float(path.linear_speed[w]), DEFAULT_LINEAR_ACCELERATION_M_S2
+                    ).duration
+                )
+    joint, linear = (
+        _Segments(
+            np.array(ends[kind][0], dtype=np.int64).reshape(-1, 2),
+            np.array(ends[kind][1], dtype=np.float64).reshape(-1, 2),
+        )
+        for kind in (False, True)
+    )
+    return joint, linear, np.array(linear_time, dtype=np.float64)
+
+
+def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
+    """Return the table search's fixed parts for a table grid."""
+    axis = grid.table_axis
+    if axis is None:
+        raise PlanningInputError("table placement: expected a table grid (table_grid)")
+    external = scene.external
+    turntable = external.turntables[axis - external.table_offset]
+    carried_target = carried_targets(scene, axis)
+    carried = np.zeros(problem.T_world_pose.shape[0], dtype=bool)
+    carried[problem.target_pose[carried_target]] = True
+    with_approach = carried_target & (problem.approach_pose >= 0)
+    carried[problem.approach_pose[with_approach]] = True
+    names = {scene.fixture_names[i] for i in turntable.fixtures}
+    names.add(f"{external.names[axis]} plate")
+    environment = problem.environment
+    moves = np.array([name in names for name in environment.names], dtype=bool)
+    fixed = environment.subset(np.flatnonzero(~moves))
+    moving = environment.subset(np.flatnonzero(moves))
+    joint, linear, linear_time = _segments(scene, problem, axis, carried)
+    span = float(external.upper[axis] - external.lower[axis])
+    return _Table(
+        scene=scene,
+        axis=axis,
+        point=turntable.point,
+        direction=turntable.axis,
+        angle0=float(external.values[axis]),
+        velocity=float(external.velocity_max[axis]),
+        acceleration=float(external.acceleration_max[axis]),
+        carried=carried,
+        T_world_base=scene.T_world_base,
+        fixed=fixed,
+        fixed_mask=default_pair_mask(problem.arm, fixed),
+        moving=moving,
+        moving_mask=default_pair_mask(problem.arm, moving),
+        triple=_branch_rows(scene),
+        samples=max(2, int(np.ceil(span / TABLE_SWEEP_SPACING_RAD)) + 1),
+        joint=joint,
+        linear=linear,
+        linear_time=linear_time,
+    )
+
+
+def _shifts(table: _Table, grid: PlacementGrid, start: int, stop: int) -> FloatArray:
+    """Move of the table's axis point for flat candidates ``start..stop``, m, shape (C, 3)."""
+    iy, ix = np.unravel_index(np.arange(start, stop), grid.shape[:2])
+    shift = np.zeros((ix.shape[0], 3))
+    shift[:, 0] = grid.x[ix] - table.point[0]
+    shift[:, 1] = grid.y[iy] - table.point[1]
+    return shift
+
+
+def _table_angles(problem: _Problem, table: _Table, shift: FloatArray) -> FloatArray:
+    """Table angle of every pose on every branch at each candidate position, rad, shape (C, P, 8).
+
+    Carried poses: the middle of the longest feasible interval (module docstring), NaN
+    where the branch reaches the pose at no angle; other poses: the current angle.
+    """
+    C, P = shift.shape[0], problem.T_world_pose.shape[0]
+    theta = np.full((C, P, BRANCHES.shape[0]), np.nan)
+    theta[:, ~table.carried] = table.angle0
+    rows = np.flatnonzero(table.carried)
+    if rows.size == 0:
+        return theta
+    local = np.full(P, -1, dtype=np.int64)
+    local[rows] = np.arange(rows.size)
+    has = problem.approach_pose >= 0
+    partner = np.full(P, -1, dtype=np.int64)
+    partner[problem.target_pose[has]] = problem.approach_pose[has]
+    follower = np.zeros(P, dtype=bool)
+    follower[problem.approach_pose[has]] = True
+    for c in range(C):
+        T_move = np.eye(4)
+        T_move[:3, 3] = -shift[c]
+        moved = replace(table.scene, T_world_base=T_move @ table.T_world_base)
+        found = feasible_intervals(
+            moved, problem.T_world_pose[rows], table.axis, samples=table.samples
+        )
+        for p in rows[~follower[rows]].tolist():
+            per_branch = found.intervals[local[p]]
+            other = found.intervals[local[partner[p]]] if partner[p] >= 0 else None
+            for b, t in enumerate(table.triple.tolist()):
+                spans = per_branch[t] if other is None else _intersection(per_branch[t], other[t])
+                theta[c, p, b] = _longest_middle(spans)
+                if other is not None:
+                    theta[c, partner[p], b] = theta[c, p, b]
+    return theta
+
+
+def _motions(table: _Table, shift: FloatArray, theta: FloatArray) -> FloatArray:
+    """Return the table's motion from where it is: ``Trans(shift) D_p0(theta - theta_0)``, shape (C, P, B, 4, 4).
+
+    ``shift`` (C, 3), ``theta`` (C, P, B) (NaN: no turn).
+    """
+    turn = np.where(np.isfinite(theta), theta - table.angle0, 0.0)
+    M = turntable_motion(table.point, table.direction, turn.ravel()).reshape((*turn.shape, 4, 4))
+    M[..., :3, 3] += shift[:, None, None, :]
+    return M
+
+
+@dataclass(frozen=True, eq=False)
+class _Solved:
+    """Every pose of some candidates solved on every branch at its table angle (shapes (C, P, B, ...)).
+
+    theta : angle, rad; placed : reached at some angle (or not carried)
+    motion : (C, P, B, 4, 4) the table's motion; valid, within : IK slot flags (C, P, B, M)
+    allowed : within limits, on the required branch and on branch b; free, clear : flags
+    q : (C, P, B, M, n)
+    """
+
+    theta: FloatArray
+    placed: BoolArray
+    motion: FloatArray
+    valid: BoolArray
+    within: BoolArray
+    allowed: BoolArray
+    free: BoolArray
+    clear: BoolArray
+    q: FloatArray
+
+
+def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, stop: int) -> _Solved:
+    """Solve, classify and check every pose of flat candidates ``start..stop`` (module docstring)."""
+    shift = _shifts(table, grid, start, stop)
+    C, P, B = shift.shape[0], problem.T_world_pose.shape[0], BRANCHES.shape[0]
+    n = problem.arm.robot.dof
+    theta = _table_angles(problem, table, shift)
+    placed = np.isfinite(theta)
+    motion = _motions(table, shift, theta)
+    T_world_pose = np.where(
+        table.carried[None, :, None, None, None],
+        motion @ problem.T_world_pose[None, :, None],
+        problem.T_world_pose[None, :, None],
+    )
+    T_base_pose = invert_transform(table.T_world_base) @ T_world_pose
+    ik = problem.solver.solve(T_base_pose.reshape(-1, 4, 4), T_flange_tool=problem.T_flange_tool)
+    M = ik.n_slots
+    labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2).reshape(C, P, B, M, 3)
+    valid = ik.valid.reshape(C, P, B, M)
+    within = valid & ik.within_limits.reshape(C, P, B, M)
+    allowed = (
+        within
+        & labels_match(labels, problem.requirement[None, :, None, None, :])
+        & labels_match(labels, BRANCHES[None, None, :, None, :])
+        & placed[..., None]
+    )
+    q = ik.q.reshape(C, P, B, M, n)
+    free = np.zeros((C, P, B, M), dtype=bool)
+    clear = np.zeros((C, P, B, M), dtype=bool)
+    index = np.nonzero(allowed)
+    S = index[0].size
+    if S:
+        own = _own_scenes(problem, float(grid.height[0]))
+        fixed = _fixed_scene(problem, table)
+        q_s = q[index]
+        free_s, clear_s = _free_and_clear(problem, own, q_s, [(0, S, fixed)])
+        group = np.ravel_multi_index(index[:3], (C, P, B))
+        starts = np.flatnonzero(np.r_[True, group[1:] != group[:-1]])
+        for first, last in zip(starts.tolist(), [*starts[1:].tolist(), S], strict=True):
+            rows = np.flatnonzero(free_s[first:last]) + first
+            if not rows.size or table.moving.count == 0:
+                continue
+            scene = _moving_scene(problem, table, motion[tuple(i[first] for i in index[:3])])
+            hit = collision_batch(scene, q_s[rows], threshold_m=problem.margin)
+            free_s[rows[hit]] = False
+            clear_s[rows[hit]] = False
+            fine = rows[~hit]
+            fine = fine[clear_s[fine]]
+            if fine.size:
+                near = collision_batch(scene, q_s[fine], threshold_m=problem.clearance_goal)
+                clear_s[fine[near]] = False
+        free[index], clear[index] = free_s, clear_s
+    return _Solved(theta, placed, motion, valid, within, allowed, free, clear, q)
+
+
+def _fixed_scene(problem: _Problem, table: _Table) -> ClearanceScene:
+    """Return the arm, its base where it is, against the obstacles that stay (no self pairs)."""
+    return ClearanceScene(
+        problem.arm,
+        table.fixed,
+        table.T_world_base,
+        np.empty((0, 2), dtype=np.int64),
+        table.fixed_mask,
+    )
+
+
+def _moving_scene(problem: _Problem, table: _Table, motion: FloatArray) -> ClearanceScene:
+    """Return the arm against the table's moving obstacles after ``motion`` (4, 4), its base moved back."""
+    return ClearanceScene(
+        problem.arm,
+        table.moving,
+        invert_transform(motion) @ table.T_world_base,
+        np.empty((0, 2), dtype=np.int64),
+        table.moving_mask,
+    )
+
+
+def _table_chunk(
+    problem: _Problem, table: _Table, grid: PlacementGrid, start: int, stop: int
+) -> tuple[FloatArray, ...]:
+    """Score the table candidates ``start..stop`` (one executor chunk; module docstring).
+
+    Returns the arrays of :func:`posebridge.planning.placement._chunk_scores` with the
+    cycle time replaced by the one with the table's turns, and the table angle of each
+    reached carried target (C, K), rad (NaN elsewhere).
+    """
+    solved = _solve(problem, table, grid, start, stop)
+    C, P, B, M, n = solved.q.shape
+    diagonal = np.zeros((C, P, B, M, B), dtype=bool)
+    for b in range(B):
+        diagonal[:, :, b, :, b] = solved.free[:, :, b]
+    counting = diagonal.reshape(C, P, B * M, B)
+    q = solved.q.reshape(C, P, B * M, n)
+    scores = list(_chunk_scores(problem, counting, q, solved.clear.reshape(C, P, B * M)))
+    branch = scores[1].astype(np.int64)
+    rows = np.arange(C)
+    on_branch = counting[rows, :, :, branch]  # (C, P, B * M)
+    pose_reached = np.any(on_branch, axis=2)
+    slot = np.argmax(on_branch, axis=2)
+    q_pose = np.where(pose_reached[..., None], q[rows[:, None], np.arange(P), slot], np.nan)
+    theta_pose = np.where(pose_reached, solved.theta[rows, :, branch], np.nan)  # (C, P)
+    scores[6] = _table_cycle_times(problem, table, q_pose, theta_pose, pose_reached)
+    reached = scores[7].astype(bool)
+    carried = table.carried[problem.target_pose]
+    angle = np.where(reached & carried, theta_pose[:, problem.target_pose], np.nan)
+    return (*scores, angle)
+
+
+def _segment_angles(segments: _Segments, theta_pose: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """Table angle at both ends of each segment per candidate, shapes (C, S)."""
+    out = []
+    for side in range(2):
+        source = segments.source[:, side]
+        value = np.broadcast_to(segments.value[:, side], (theta_pose.shape[0], source.size))
+        out.append(np.where(source >= 0, theta_pose[:, np.maximum(source, 0)], value))
+    return out[0], out[1]
+
+
+def _table_cycle_times(
+    problem: _Problem,
+    table: _Table,
+    q_pose: FloatArray,
+    theta_pose: FloatArray,
+    pose_reached: BoolArray,
+) -> FloatArray:
+    """Cycle time estimate with the table's turns (module docstring), s, shape (C,).
+
+    ``q_pose`` (C, P, n) and ``theta_pose`` (C, P) of the poses on the candidate's branch;
+    NaN where a path pose is not reached.
+    """
+    C = q_pose.shape[0]
+    robot = problem.arm.robot
+    total = np.zeros(C)
+    for poses in problem.path_poses:
+        if poses.size:
+            total[~np.all(pose_reached[:, poses], axis=1)] = np.nan
+    velocity = np.r_[robot.velocity_max, table.velocity]
+    acceleration = np.r_[robot.acceleration_max, table.acceleration]
+    start_angle, end_angle = _segment_angles(table.joint, theta_pose)
+    for j in range(problem.joint_ends.shape[0]):
+        ends = []
+        for side, angle in ((0, start_angle[:, j]), (1, end_angle[:, j])):
+            p = problem.joint_ends[j, side]
+            q_end = (
+                np.broadcast_to(problem.joint_given[j, side], (C, robot.dof))
+                if p < 0
+                else q_pose[:, p]
+            )
+            ends.append(np.concatenate([q_end, angle[:, None]], axis=1))
+        finite = np.all(np.isfinite(ends[0]) & np.isfinite(ends[1]), axis=1)
+        duration = np.full(C, np.nan)
+        if np.any(finite):
+            duration[finite] = joint_move_durations(
+                ends[0][finite], ends[1][finite], velocity, acceleration, problem.joint_percent[j]
+            )
+        total += duration
+    start_angle, end_angle = _segment_angles(table.linear, theta_pose)
+    for s in range(table.linear_time.size):
+        turn = np.full(C, np.nan)
+        finite = np.isfinite(start_angle[:, s]) & np.isfinite(end_angle[:, s])
+        if np.any(finite):
+            turn[finite] = joint_move_durations(
+                start_angle[finite, s, None],
+                end_angle[finite, s, None],
+                [table.velocity],
+                [table.acceleration],
+                100.0,
+            )
+        total += np.fmax(turn, table.linear_time[s])
+    return total
+
+
+def search_table_placement(
+    scene: Scene,
+    grid: PlacementGrid | None = None,
+    *,
+    executor: Executor | None = None,
+    progress: ProgressCallback | None = None,
+    cancel: threading.Event | None = None,
+    top: int = 10,
+    collision_margin_m: float = 0.0,
+    clearance_goal_m: float = 0.05,
+) -> PlacementResult:
+    """Score every table position of ``grid`` and rank them (module docstring).
+
+    Parameters and result as :func:`posebridge.planning.placement.search_base_placement`;
+    ``grid`` is a table grid (:func:`table_grid`; by default its default one).
+    """
+    if isinstance(top, bool) or not isinstance(top, int) or not 1 <= top <= 1000:
+        raise PlanningInputError(f"top: expected an integer from 1 to 1000, got {top!r}")
+    check_non_negative("collision_margin_m", collision_margin_m)
+    if not math.isfinite(clearance_goal_m) or clearance_goal_m < collision_margin_m:
+        raise PlanningInputError(
+            "clearance_goal_m: expected a finite number not below collision_margin_m, "
+            f"got {clearance_goal_m!r}"
+        )
+    grid = table_grid(scene) if grid is None else grid
+    # rail=True: on a track the foot stands on the carriage, which rides with the robot
+    problem = _problem(scene, float(collision_margin_m), float(clearance_goal_m), rail=True)
+    table = _table(scene, grid, problem)
+    size = grid.size
+    chunks = [
+        (problem, table, grid, start, min(start + TABLE_CHUNK_CANDIDATES, size))
+        for start in range(0, size, TABLE_CHUNK_CANDIDATES)
+    ]
+    if executor is None:
+        results = run_chunks(_table_chunk, chunks, progress=progress, cancel=cancel)
+    else:
+        results = executor.map_chunks(_table_chunk, chunks, progress=progress, cancel=cancel)
+    K = len(scene.targets.names)
+    n = scene.robot.dof
+
+    def gather(field: int, tail: tuple[int, ...] = ()) -> npt.NDArray[Any]:
+        return np.concatenate([r[field] for r in results]).reshape((*grid.shape, *tail))
+
+    count = gather(0)
+    branch = gather(1).astype(np.int8)
+    margin, condition, manip, share, cycle = (gather(i) for i in range(2, 7))
+    reached = gather(7, (K,)).astype(bool)
+    q = gather(8, (K, n))
+    angle = gather(9, (K,))
+    fraction = count / K
+    terms = np.stack([2.0 * margin, condition, share], axis=-1)
+    quality = np.where(
+        count > 0, np.nanmean(np.where(count[..., None] > 0, terms, 0.0), axis=-1), 0.0
+    )
+    score = fraction + np.clip(quality, 0.0, 1.0) / (2.0 * K)
+    flat_score = score.reshape(-1)
+    order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
+    noise = score_noise(score, fraction)
+    external = scene.external
+    return PlacementResult(
+        robot=scene.robot,
+        grid=grid,
+        target_names=scene.targets.names,
+        score=score,
+        reach_fraction=fraction,
+        branch=branch,
+        min_margin_fraction=margin,
+        inverse_condition=condition,
+        manipulability=manip,
+        clearance_share=share,
+        cycle_time=cycle,
+        reached=reached,
+        q=q,
+        order=order,
+        best=_ranked(problem, table, grid, score, branch, reached, q, angle, order[:top], noise),
+        current=_current_index(table, grid),
+        score_noise=noise,
+        table_angle=angle,
+        table_range=(float(external.lower[table.axis]), float(external.upper[table.axis])),
+        table_name=external.names[table.axis],
+        table_point=table.point.copy(),
+    )
+
+
+def _current_index(table: _Table, grid: PlacementGrid) -> tuple[int, ...] | None:
+    """Grid index of the table's current position, if the grid holds it."""
+    ix = np.flatnonzero(np.abs(grid.x - table.point[0]) < 1e-9)
+    iy = np.flatnonzero(np.abs(grid.y - table.point[1]) < 1e-9)
+    if ix.size == 0 or iy.size == 0:
+        return None
+    return (int(iy[0]), int(ix[0]), 0, 0)
+
+
+def _ranked(
+    problem: _Problem,
+    table: _Table,
+    grid: PlacementGrid,
+    score: FloatArray,
+    branch: npt.NDArray[np.int8],
+    reached: BoolArray,
+    q: FloatArray,
+    angle: FloatArray,
+    top: npt.NDArray[np.int64],
+    noise: float,
+) -> tuple[RankedCandidate, ...]:
+    """Return the best candidates ``top`` (flat indices, best first) with exact per-target details."""
+    robot = problem.arm.robot
+    scheme = branch_geometry(robot).scheme
+    best: list[RankedCandidate] = []
+    tie_rank = 1
+    for rank, flat in enumerate(top.tolist(), start=1):
+        idx = tuple(int(i) for i in np.unravel_index(flat, grid.shape))
+        q_c = np.nan_to_num(q[idx])
+        jac = jacobian_rows(jacobian_base(robot, q_c, problem.T_flange_tool), "position")
+        if rank > 1 and score[best[tie_rank - 1].index] - score[idx] > noise:
+            tie_rank = rank
+        reasons, clearance = _details(problem, table, grid, flat, int(branch[idx]), q[idx])
+        at = angle[idx]
+        used = at[np.isfinite(at)]
+        best.append(
+            RankedCandidate(
+                rank=rank,
+                tie_rank=tie_rank,
+                index=(idx[0], idx[1], idx[2], idx[3]),
+                branch=_branch_words(int(branch[idx]), scheme) if reached[idx].any() else "",
+                reasons=tuple(reasons),
+                limit_margin=limit_margins(robot, q_c).margin.min(axis=1),
+                manipulability=manipulability_yoshikawa(jac),
+                clearance=clearance,
+                blended_cycle_time=None,
+                table_angle=at,
+                table_span=(float(used.min()), float(used.max())) if used.size else None,
+            )
+        )
+    return tuple(best)
+
+
+def _pose_reason(solved: _Solved, carried: bool, p: int, branch: int) -> str:
+    """Why pose ``p`` of a one-candidate solve is not reached on ``branch`` (``""`` if it is)."""
+    if carried and not np.any(solved.placed[0, p]):
+        return "out of reach within the joint limits at every table angle"
+    if not carried and not np.any(solved.valid[0, p]):
+        return "out of reach"
+    if not carried and not np.any(solved.within[0, p]):
+        return "outside the joint limits on every branch"
+    if not np.any(solved.allowed[0, p]):
+        return "not reachable on the required branch" + (" at any table angle" if carried else "")
+    if not np.any(solved.allowed[0, p, branch]):
+        return "reachable only on another branch than the candidate's"
+    if not np.any(solved.free[0, p, branch]):
+        where = " at the chosen table angle" if carried else ""
+        return f"in collision{where} on the candidate's branch"
+    return ""
+
+
+def _details(
+    problem: _Problem, table: _Table, grid: PlacementGrid, flat: int, branch: int, q: FloatArray
+) -> tuple[list[str], FloatArray]:
+    """Reasons and exact clearance per target of one table candidate.
+
+    Why each target is not reached (``""`` where it is; its pose, then its approach pose,
+    the first failing test: reach at some table angle, joint limits, the required branch,
+    the candidate's branch, collision there) and the clearance of each reached target's
+    configuration to fixtures, keep-outs, pedestal and floor, the table where it puts it, m
+    (NaN elsewhere).
+    """
+    solved = _solve(problem, table, grid, flat, flat + 1)
+    support, _ = _own_scenes(problem, float(grid.height[0]))
+    fixed = _fixed_scene(problem, table)
+    clearance = np.full(problem.target_pose.shape[0], np.nan)
+    reasons = []
+    for k, p in enumerate(problem.target_pose.tolist()):
+        if np.all(np.isfinite(q[k])):
+            config = q[k][None]
+            distances = [
+                float(clearance_batch(support, config).distance[0]),
+                float(clearance_batch(fixed, config).distance[0]),
+            ]
+            if table.moving.count:
+                scene = _moving_scene(problem, table, solved.motion[0, p, branch])
+                distances.append(float(clearance_batch(scene, config).distance[0]))
+            clearance[k] = min(distances)
+            reasons.append("")
+            continue
+        reason = _pose_reason(solved, bool(table.carried[p]), p, branch)
+        a = int(problem.approach_pose[k])
+        if not reason and a >= 0:
+            reason = _pose_reason(solved, bool(table.carried[a]), a, branch)
+            reason = f"approach pose {reason}" if reason else ""
+        reasons.append(reason or "reachable only on another branch than the candidate's")
+    return reasons, clearance

@@ -1,0 +1,222 @@
+"""Table placement for a turntable cell: closed-form reach of a planar arm to targets turning on
+a table, a brute-force sweep of the table angle, the cycle time with the table's turn, and the
+demo track cell."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pytest
+
+from posebridge.cell.external_axes import turntable_motion
+from posebridge.cell.files import load_cell
+from posebridge.cell.model import validate_cell
+from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.kinematics.fk import fk_tool
+from posebridge.kinematics.ik import solve_ik_all
+from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.placement_table import (
+    search_mode,
+    search_table_placement,
+    table_axis,
+    table_grid,
+)
+from posebridge.planning.time_scaling import trapezoidal_profile
+from posebridge.resources import data_folder
+from posebridge.results.placement import placement_result, render_placement
+from posebridge.transforms import invert_transform
+
+L1, L2 = 0.4, 0.3  # pb-planar2r.toml link lengths, m
+INNER = np.sqrt(L1**2 + L2**2 + 2.0 * L1 * L2 * np.cos(np.radians(150.0)))  # |j2| <= 150 deg
+RADII = (0.2, 0.32)  # m, the targets' distances from the table's axis
+TABLE_X = 1.0  # m, the table's current position on world x (y = 0)
+GRID_X_MM = [50.0 + 100.0 * i for i in range(14)]  # 50 .. 1350 mm, no candidate on a boundary
+
+
+def table_cell_data(
+    *, path: bool = False, table_speed_deg_s: float = 90.0, table_accel_deg_s2: float = 180.0
+) -> dict[str, Any]:
+    """pb-planar2r at the origin; a turntable on world x carrying a jig with two targets.
+
+    The targets lie in the arm's plane (z = 0) at RADII from the table's axis, on opposite
+    sides; the plate and the jig are below the plane, clear of the arm's capsules.
+    """
+    data: dict[str, Any] = {
+        "robot": {"name": "pb-planar2r"},
+        "floor_height_mm": -500.0,
+        "turntables": [
+            {
+                "name": "table-1",
+                "position_mm": [1000.0 * TABLE_X, 0.0, -100.0],
+                "range_deg": [-180.0, 180.0],
+                "speed_deg_s": table_speed_deg_s,
+                "accel_deg_s2": table_accel_deg_s2,
+                "plate_radius_mm": 150.0,
+                "fixtures": ["jig"],
+            }
+        ],
+        "fixtures": [
+            {
+                "name": "jig",
+                "shape": "box",
+                "position_mm": [1000.0 * TABLE_X, 0.0, -200.0],
+                "size_mm": [100.0, 100.0, 100.0],
+            }
+        ],
+        "targets": [
+            {"name": "near", "fixture": "jig", "position_mm": [1000.0 * RADII[0], 0.0, 200.0]},
+            {"name": "far", "fixture": "jig", "position_mm": [-1000.0 * RADII[1], 0.0, 200.0]},
+        ],
+    }
+    if path:
+        data["paths"] = [
+            {
+                "name": "swap",
+                "waypoints": [
+                    {"target": "near", "motion": "joint", "speed_percent": 100.0},
+                    {"target": "far", "motion": "joint", "speed_percent": 100.0},
+                ],
+            }
+        ]
+    return data
+
+
+def table_cell(**options: Any) -> Scene:
+    return resolve_scene(validate_cell(table_cell_data(**options)))
+
+
+def test_auto_searches_the_table_of_a_turntable_cell() -> None:
+    scene = table_cell()
+    assert search_mode(scene, "auto") == "table"
+    assert table_axis(scene) == 0  # no track: the first table is external axis 0
+    plain = resolve_scene(validate_cell({"robot": {"name": "pb-planar2r"}}))
+    assert search_mode(plain, "auto") == "base"
+    with pytest.raises(PlanningInputError, match="no turntable"):
+        table_grid(plain)
+    with pytest.raises(PlanningInputError, match="no turntable called 'table-9'"):
+        table_grid(scene, table="table-9")
+
+
+def test_table_position_follows_the_reach_of_the_arm() -> None:
+    scene = table_cell()
+    grid = table_grid(scene, x_mm=GRID_X_MM, y_mm=[0.0])
+    result = search_table_placement(scene, grid, top=3)
+    D = np.array(GRID_X_MM) / 1000.0  # the table's distance from the robot's axis
+    # closed form: a target at radius r from the table's axis turns on a circle whose distance
+    # from the robot's first axis runs over [|D - r|, D + r] (the full turn: range +-180 deg);
+    # the planar arm reaches the annulus [INNER, l1 + l2] (law of cosines, |j2| <= 150 deg),
+    # so some table angle reaches the target iff both intervals meet
+    expected = np.zeros_like(D)
+    for r in RADII:
+        assert np.all(np.abs(np.abs(D - r) - (L1 + L2)) > 0.01)  # no candidate on a boundary
+        assert np.all(np.abs(D + r - INNER) > 0.01)
+        expected += ((np.abs(D - r) <= L1 + L2) & (D + r >= INNER)).astype(float)
+    np.testing.assert_array_equal(result.reach_fraction[0, :, 0, 0], expected / len(RADII))
+    report = placement_result(result)
+    assert report.search == "table"
+    best = report.best[0]
+    assert best.reach_fraction == 1.0
+    assert best.table is not None
+    D_best = best.table.position_mm[0] / 1000.0
+    assert all(abs(D_best - r) <= L1 + L2 for r in RADII)  # the closed form above
+    assert best.table.name == "table-1"
+    assert best.table.angle_range_deg == pytest.approx([-180.0, 180.0])  # the cell's range
+    span = best.table.angle_span_deg
+    assert span is not None
+    angles = [t.table_angle_deg for t in best.targets]
+    assert span == pytest.approx([min(angles), max(angles)])  # type: ignore[type-var]
+    assert result.current is None  # the current table (x = 1000 mm) is not on this grid
+    text = render_placement(report)
+    assert text.startswith("Table placement for pb-planar2r (table-1)")
+    assert "Rank 1 table angles" in text
+
+
+def test_chosen_angles_lie_in_a_dense_sweep_of_the_table_angle() -> None:
+    scene = table_cell()
+    grid = table_grid(scene, x_mm=[450.0, 650.0, 850.0], y_mm=[-150.0, 150.0])
+    result = search_table_placement(scene, grid, top=grid.size)
+    table = scene.external.turntables[0]
+    sweep = np.radians(np.linspace(-180.0, 180.0, 3601))  # 0.1 deg steps
+    for candidate in result.best:
+        assert candidate.table_angle is not None
+        iy, ix, _, _ = candidate.index
+        shift = np.array([grid.x[ix] - table.point[0], grid.y[iy] - table.point[1], 0.0])
+        D = turntable_motion(table.point, table.axis, sweep)  # the table's turn, current angle 0
+        D[:, :3, 3] += shift
+        reached = result.reached[candidate.index]
+        for k in range(len(RADII)):
+            T_world = D @ scene.targets.T_world_target[k]
+            T_base = invert_transform(scene.T_world_base) @ T_world
+            ik = solve_ik_all(scene.robot, T_base, T_flange_tool=scene.T_flange_tool)
+            # reference: a brute-force sweep of the table angle solved with the same IK (nothing
+            # collides; both elbow branches mirror each other, so any branch will do)
+            feasible = np.any(ik.valid & ik.within_limits, axis=1)
+            assert reached[k] == bool(np.any(feasible))
+            if not reached[k]:
+                continue
+            angle = candidate.table_angle[k]
+            step = int(np.argmin(np.abs(sweep - angle)))
+            assert feasible[max(step - 1, 0) : step + 2].any()  # inside a feasible interval
+            # the longest run of the sweep (the middle-of-the-longest rule, module docstring)
+            edges = np.flatnonzero(np.diff(np.r_[0, feasible.astype(int), 0]))
+            runs = edges.reshape(-1, 2)
+            longest = runs[np.argmax(runs[:, 1] - runs[:, 0])]
+            middle = 0.5 * (sweep[longest[0]] + sweep[longest[1] - 1])
+            assert np.degrees(abs(angle - middle)) < 0.2  # two sweep steps
+            # the reported configuration puts the TCP on the turned, moved target
+            q = result.q[candidate.index][k]
+            tcp = scene.T_world_base @ fk_tool(scene.robot, q[None], scene.T_flange_tool)[0]
+            turned = turntable_motion(table.point, table.axis, [angle])[0]
+            turned[:3, 3] += shift
+            np.testing.assert_allclose(  # forward kinematics, closed form of the chain
+                tcp[:2, 3], (turned @ scene.targets.T_world_target[k])[:2, 3], atol=1e-6
+            )
+
+
+def test_cycle_time_includes_the_turn_of_a_slow_table() -> None:
+    # a table far slower than the arm: the synchronised joint move lasts as long as the
+    # table's own trapezoid between the two chosen angles
+    scene = table_cell(path=True, table_speed_deg_s=5.0, table_accel_deg_s2=5.0)
+    grid = table_grid(scene, x_mm=[650.0], y_mm=[0.0])
+    result = search_table_placement(scene, grid, top=1)
+    candidate = result.best[0]
+    assert candidate.table_angle is not None
+    assert result.reached[candidate.index].all()
+    turn = abs(float(candidate.table_angle[1] - candidate.table_angle[0]))
+    q = result.q[candidate.index]
+    robot = scene.robot
+    assert turn > 0.1  # the two targets sit on opposite sides of the table
+    # the table dominates both limits of the synchronised move (c_i / v_i and c_i / a_i)
+    v_table, a_table = np.radians(5.0), np.radians(5.0)
+    assert np.all(np.abs(q[1] - q[0]) / robot.velocity_max < turn / v_table)
+    assert np.all(np.abs(q[1] - q[0]) / robot.acceleration_max < turn / a_table)
+    # closed form: trapezoid t = d / v + v / a (Lynch & Park, Modern Robotics, sec. 9.2.2.2)
+    expected = turn / v_table + v_table / a_table if turn >= v_table**2 / a_table else None
+    assert expected is not None
+    assert float(result.cycle_time[candidate.index]) == pytest.approx(expected, rel=1e-9)
+    # the same closed form through the project's trapezoid (rest to rest)
+    assert trapezoidal_profile(turn, v_table, a_table).duration == pytest.approx(expected)
+
+
+def test_demo_track_cell_searches_its_table() -> None:
+    path = data_folder("robots") / "demo-track-cell.json"
+    scene = resolve_scene(load_cell(path), path)
+    assert search_mode(scene, "auto") == "rail"  # a track and a table: the rail stays automatic
+    grid = table_grid(scene, half_width_mm=400.0, count=3)
+    result = search_table_placement(scene, grid, top=2)
+    # source: demo-track-cell.json, table-1 at (2000, -1300) mm, range -185..185 deg
+    assert result.table_name == "table-1"
+    assert result.current == (1, 1, 0, 0)
+    report = placement_result(result)
+    assert report.search == "table"
+    assert report.grid.x_mm == pytest.approx([1600.0, 2000.0, 2400.0])
+    best = report.best[0]
+    assert best.table is not None
+    assert best.table.angle_range_deg == pytest.approx([-185.0, 185.0])
+    assert best.table.position_mm[2] == pytest.approx(700.0)  # height kept
+    # the robot stays on its track: the robot's base is the scene's at the track's home
+    assert best.yaw_deg == pytest.approx(0.0)
+    on_table = [t for t in best.targets if t.table_angle_deg is not None]
+    for t in on_table:
+        assert -185.0 <= t.table_angle_deg <= 185.0  # type: ignore[operator]
