@@ -34,6 +34,7 @@ function samePose(a, b) {
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
  * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>, moveRail: (rail: object) => Promise<void>,
+ *            moveTable: (table: {name: string, position_mm: number[]}) => Promise<void>,
  *            retrySave: () => void, chooseChain: (links: object) => Promise<void>,
  *            chooseChainEnd: (toLink: string) => Promise<void>}}
  */
@@ -300,6 +301,37 @@ export function createCellSync({ store, actions, api, linking }) {
   }
 
   /**
+   * Move the turntable called `table.name` to `table.position_mm` (a table placement
+   * candidate): its fixtures that hang from the world move by the same step (their children
+   * and targets follow them); saved at once, nothing is sent on a reviewer's page.
+   */
+  async function moveTable(table) {
+    const { cell, readOnly } = store.get();
+    if (readOnly) {
+      actions.setStatus("info", REVIEW_NOT_SAVED);
+      return;
+    }
+    const tables = cell && cell.cell.turntables ? cell.cell.turntables : [];
+    const current = tables.find((t) => t.name === table.name);
+    if (!current) {
+      return;
+    }
+    const step = table.position_mm.map((value, i) => value - current.position_mm[i]);
+    const carried = new Set(current.fixtures);
+    const fixtures = cell.cell.fixtures.map((fixture) =>
+      carried.has(fixture.name) && !fixture.parent ? { ...fixture, position_mm: fixture.position_mm.map((value, i) => value + step[i]) } : fixture,
+    );
+    const turntables = tables.map((t) => (t === current ? { ...t, position_mm: [...table.position_mm] } : t));
+    try {
+      const document = await api.replaceCell({ ...cell.cell, turntables, fixtures }, cell.etag);
+      store.update({ cell: document, cellSave: { state: "saved", message: `Saved the position of ${table.name}` } });
+    } catch (error) {
+      actions.setStatus("error", `Moving the table: ${error.message}`);
+      await reloadCell();
+    }
+  }
+
+  /**
    * The track's carriage dragged to `valueMm`: saved as the track's home_mm (the value the
    * cell is shown at), then the page's carriage follows the saved cell; nothing is sent on a
    * reviewer's page.
@@ -389,5 +421,5 @@ export function createCellSync({ store, actions, api, linking }) {
     store.update({ cell: document, cellSave: { state: "saved", message } });
   }
 
-  return { loadCell, reloadCell, moveBase, moveRail, moveCarriage, retrySave, chooseChain, chooseChainEnd, setWaypointJoints, showSavedCell };
+  return { loadCell, reloadCell, moveBase, moveRail, moveTable, moveCarriage, retrySave, chooseChain, chooseChainEnd, setWaypointJoints, showSavedCell };
 }

@@ -165,6 +165,7 @@ async function start() {
       palette,
       onMoveBase: (edit) => cellSync.moveBase(edit),
       onMoveRail: (rail) => cellSync.moveRail(rail),
+      onMoveTable: (table) => cellSync.moveTable(table),
     }));
     for (const view of drawn) {
       view.render();

@@ -219,6 +219,16 @@ def test_ik_old_all_turns_option_still_works_and_says_it_is_deprecated(
         (["place", DEMO_CELL, "--grid", "z_mm=1"], "--grid: expected items KEY=START:STOP:COUNT"),
         (["place", TRACK_CELL, "--grid", "x_mm=0"], "a rail search takes offset_mm and yaw_deg"),
         (["place", DEMO_CELL, "--grid", "offset_mm=0"], "offset_mm is for a rail search"),
+        (["place", DEMO_CELL, "--search", "table"], "table placement: the cell has no turntable"),
+        (["place", DEMO_CELL, "--table", "table-1"], "--table: only for a table search"),
+        (
+            ["place", TRACK_CELL, "--search", "table", "--grid", "yaw_deg=0"],
+            "a table search takes x_mm and y_mm only",
+        ),
+        (
+            ["place", TRACK_CELL, "--search", "table", "--table", "nope"],
+            "no turntable called 'nope'",
+        ),
         (["serve", "--host", "0.0.0.0"], "not a loopback address"),
     ],
 )
@@ -396,6 +406,27 @@ def test_place_searches_the_rail_of_a_track_cell(capsys: pytest.CaptureFixture[s
     # source: demo-track-cell.json's track, travel 0..4000 mm along +x
     assert report["best"][0]["rail"]["travel_configured_mm"] == [0.0, 4000.0]
     assert report["best"][0]["rail"]["direction"] == pytest.approx([1.0, 0.0, 0.0])
+
+
+def test_place_searches_the_table_of_a_track_cell(capsys: pytest.CaptureFixture[str]) -> None:
+    grid = "x_mm=1600:2400:3 y_mm=-1300"
+    argv = ("place", TRACK_CELL, "--search", "table", "--grid", grid, "--top", "3")
+    code, report = run_json(capsys, *argv, "--workers", "1")
+    assert code == 0
+    assert isinstance(report, dict)
+    assert report["search"] == "table"
+    # source: demo-track-cell.json, table-1 at (2000, -1300, 700) mm, range -185..185 deg
+    assert report["table_name"] == "table-1"
+    assert report["grid"]["x_mm"] == pytest.approx([1600.0, 2000.0, 2400.0])
+    assert report["current_score"] is not None  # the current table is on the grid
+    best = report["best"][0]
+    assert best["table"]["angle_range_deg"] == pytest.approx([-185.0, 185.0])
+    assert best["table"]["position_mm"] == pytest.approx([best["x_mm"], best["y_mm"], 700.0])
+    angles = [t["table_angle_deg"] for t in best["targets"] if t["table_angle_deg"] is not None]
+    span = best["table"]["angle_span_deg"]
+    assert span == (pytest.approx([min(angles), max(angles)]) if angles else None)
+    assert main([*argv, "--quiet", "--workers", "1"]) == 0
+    assert "Table placement for pb-arm6 (table-1): 3 table positions" in capsys.readouterr().out
 
 
 def test_jointmap_reach_and_plan_run(capsys: pytest.CaptureFixture[str]) -> None:

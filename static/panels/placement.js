@@ -11,6 +11,9 @@
 // For a cell with a track the server searches the rail's line instead (report
 // `search: "rail"`): the heatmap is the score over offset x yaw, and a
 // candidate applies its rail (origin, direction, a travel covering the needed one).
+// A turntable cell without a track searches the table's position (report `search:
+// "table"`; or chosen in the search select): the heatmap is the score over the table's
+// (x, y) with the current table marked, and a candidate or a grid cell moves the table there.
 
 /* global Plotly */
 
@@ -36,6 +39,12 @@ export function railPlane(grid) {
   return grid.yaw_deg.map((_, yawIndex) => grid.x_mm.map((__, offsetIndex) => grid.score[0][offsetIndex][yawIndex][0]));
 }
 
+/** The current position of the turntable called `name` in the cell, or null. */
+function tablePosition(cell, name) {
+  const table = cell && cell.cell.turntables ? cell.cell.turntables.find((t) => t.name === name) : null;
+  return table ? table.position_mm : null;
+}
+
 /** Direction of travel of a track about world z, degrees. */
 function trackYawDeg(track) {
   return (Math.atan2(track.direction[1], track.direction[0]) * 180) / Math.PI;
@@ -43,15 +52,23 @@ function trackYawDeg(track) {
 
 /**
  * @param {{container: HTMLElement, store: object, actions: object, api: object, palette: object,
- *          onMoveBase: (edit: object) => Promise<void>, onMoveRail: (rail: object) => Promise<void>}} options
+ *          onMoveBase: (edit: object) => Promise<void>, onMoveRail: (rail: object) => Promise<void>,
+ *          onMoveTable: (table: {name: string, position_mm: number[]}) => Promise<void>}} options
  */
-export function createPlacementPanel({ container, store, actions, api, palette, onMoveBase, onMoveRail }) {
+export function createPlacementPanel({ container, store, actions, api, palette, onMoveBase, onMoveRail, onMoveTable }) {
   const width = numberField({ name: "half width", unit: "mm", id: "place-width", onCommit: () => {} });
   const count = numberField({ name: "positions", unit: "per axis", id: "place-count", onCommit: () => {} });
   const yaws = numberField({ name: "yaws", unit: "", id: "place-yaws", onCommit: () => {} });
   width.input.value = "600";
   count.input.value = "9";
   yaws.input.value = "4";
+  const mode = element("select", { attributes: { id: "place-search", "aria-label": "What to move" } });
+  mode.replaceChildren(
+    new Option("automatic", "auto"),
+    new Option("robot base", "base"),
+    new Option("rail line", "rail"),
+    new Option("turntable", "table"),
+  );
   const run = element("button", { text: "Search", attributes: { type: "button", id: "place-run" } });
   const bar = element("progress", { attributes: { id: "place-progress", max: "1", value: "0" } });
   const cancel = element("button", { text: "Cancel", attributes: { type: "button", id: "place-cancel" } });
@@ -65,7 +82,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
   const heatmap = element("div", { className: "pb-plot pb-plot-placement", attributes: { id: "place-heatmap" } });
   const list = element("ol", { className: "pb-candidates", attributes: { id: "place-candidates" } });
   container.append(
-    element("div", { className: "pb-fields" }, [width.label, count.label, yaws.label]),
+    element("div", { className: "pb-fields" }, [width.label, count.label, yaws.label, element("label", { text: "move " }, [mode])]),
     element("div", { className: "pb-controls" }, [run, progress, element("label", { text: "yaw " }, [yawSelect]), element("label", { text: "height " }, [heightSelect])]),
     summary,
     explained,
@@ -87,6 +104,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
       half_width_mm: Number(width.input.value),
       count: Math.round(Number(count.input.value)),
       yaw_count: Math.round(Number(yaws.input.value)),
+      search: mode.value,
     };
     progress.hidden = false;
     bar.value = 0;
@@ -142,7 +160,8 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     // the scores belong to the cell as it was: a moved base or fixture makes them out of date
     const stale = Boolean(cell && scoredEtag !== null && cell.etag !== scoredEtag);
     heatmap.dataset.stale = String(stale);
-    const base = cell ? cell.scene.base.position_mm : null;
+    const table = placement.search === "table";
+    const base = table ? tablePosition(cell, placement.table_name) : cell ? cell.scene.base.position_mm : null;
     const grid = placement.grid;
     fillSelect(yawSelect, grid.yaw_deg, "deg", true);
     fillSelect(heightSelect, grid.pedestal_height_mm, "mm", false);
@@ -150,7 +169,7 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     const heightIndex = Number(heightSelect.value || 0);
     summary.textContent =
       (stale ? "Out of date: the base or a fixture has moved since these scores; run the search again. " : "") +
-      `${placement.candidates_evaluated} base poses scored for ${placement.targets.length} targets.`;
+      `${placement.candidates_evaluated} ${table ? `positions of ${placement.table_name}` : "base poses"} scored for ${placement.targets.length} targets.`;
     explained.textContent =
       `${placement.score_words} Scores closer than ${formatNumber(placement.score_noise, { decimals: 3 })} ` +
       "(the typical change over one grid step) are ties.";
@@ -160,8 +179,8 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     const best = placement.best[0];
     const rail = placement.search === "rail";
     heatmap.dataset.search = placement.search || "base";
-    yawSelect.parentElement.hidden = rail;
-    heightSelect.parentElement.hidden = rail;
+    yawSelect.parentElement.hidden = rail || table;
+    heightSelect.parentElement.hidden = rail || table;
     if (rail) {
       renderRail(placement, cell, stale, best);
       return;
@@ -226,19 +245,19 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
         {
           type: "scatter",
           mode: "markers",
-          name: "current base",
+          name: table ? "current table" : "current base",
           x: base ? [base[0]] : [],
           y: base ? [base[1]] : [],
           marker: { size: 14, symbol: "x-thin-open", color: palette.bad, line: { width: 3 } },
-          hovertemplate: "current base<extra></extra>",
+          hovertemplate: table ? "current table<extra></extra>" : "current base<extra></extra>",
           meta: { role: "current-base" },
         },
       ],
       {
         margin: { l: 56, r: 10, t: 28, b: 40 },
         legend: { orientation: "h", x: 0, xanchor: "left", y: 1, yanchor: "bottom" },
-        xaxis: { title: { text: "base x (mm)" }, range: [extent.x, extent.x + extent.sizex], showgrid: false },
-        yaxis: { title: { text: "base y (mm)" }, range: [extent.y - extent.sizey, extent.y], scaleanchor: "x", showgrid: false },
+        xaxis: { title: { text: table ? "table x (mm)" : "base x (mm)" }, range: [extent.x, extent.x + extent.sizex], showgrid: false },
+        yaxis: { title: { text: table ? "table y (mm)" : "base y (mm)" }, range: [extent.y - extent.sizey, extent.y], scaleanchor: "x", showgrid: false },
         font: { family: "DejaVu Sans, Liberation Sans, sans-serif", size: 11 },
         paper_bgcolor: "rgba(0,0,0,0)",
         dragmode: false,
@@ -252,16 +271,21 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
         const tied = candidate.tie_rank > 0 && candidate.tie_rank !== candidate.rank;
         const current = placement.current_cycle_time_s;
         const slower = candidate.cycle_time_s !== null && current !== null && candidate.cycle_time_s > current;
-        const item = element("li", { attributes: { tabindex: "0", "data-rank": String(candidate.rank), "data-tie-rank": String(candidate.tie_rank), "data-edits-cell": "", title: "Move the base here" } }, [
-          `x ${formatNumber(candidate.x_mm, { decimals: 0 })}, y ${formatNumber(candidate.y_mm, { decimals: 0 })} mm, yaw ${formatNumber(candidate.yaw_deg, { decimals: 0 })} deg: `,
+        const item = element("li", { attributes: { tabindex: "0", "data-rank": String(candidate.rank), "data-tie-rank": String(candidate.tie_rank), "data-edits-cell": "", title: table ? "Move the table here" : "Move the base here" } }, [
+          table
+            ? `table at x ${formatNumber(candidate.x_mm, { decimals: 0 })}, y ${formatNumber(candidate.y_mm, { decimals: 0 })} mm: `
+            : `x ${formatNumber(candidate.x_mm, { decimals: 0 })}, y ${formatNumber(candidate.y_mm, { decimals: 0 })} mm, yaw ${formatNumber(candidate.yaw_deg, { decimals: 0 })} deg: `,
           element("strong", { text: `score ${formatNumber(candidate.score, { decimals: 3 })}` }),
           tied ? ` (a tie with rank ${candidate.tie_rank})` : "",
           ` — reaches ${candidate.targets_reached} of ${placement.targets.length} targets on ${candidate.branch || "no branch"}`,
           candidate.cycle_time_s === null ? "" : `, cycle ${formatNumber(candidate.cycle_time_s, { decimals: 2 })} s rest to rest`,
           candidate.blended_cycle_time_s == null ? "" : `, ${formatNumber(candidate.blended_cycle_time_s, { decimals: 2 })} s blended`,
-          slower ? ` (slower than the current base's ${formatNumber(current, { decimals: 2 })} s)` : "",
+          slower ? ` (slower than the current ${table ? "table" : "base"}'s ${formatNumber(current, { decimals: 2 })} s)` : "",
+          table && candidate.table ? tableAngles(candidate.table) : "",
         ]);
-        const choose = () => moveTo(candidate.x_mm, candidate.y_mm, candidate.yaw_deg, candidate.pedestal_height_mm);
+        const choose = table && candidate.table
+          ? () => onMoveTable({ name: candidate.table.name, position_mm: candidate.table.position_mm })
+          : () => moveTo(candidate.x_mm, candidate.y_mm, candidate.yaw_deg, candidate.pedestal_height_mm);
         item.addEventListener("click", choose);
         item.addEventListener("keydown", (event) => {
           if (event.key === "Enter") {
@@ -271,6 +295,17 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
         return item;
       }),
     );
+  }
+
+  /** The table angles a table candidate's targets use, beside the configured range. */
+  function tableAngles(table) {
+    const [low, high] = table.angle_range_deg;
+    const range = `${formatNumber(low, { decimals: 0 })}…${formatNumber(high, { decimals: 0 })} deg`;
+    if (!table.angle_span_deg) {
+      return `; no target on the table reached (range ${range})`;
+    }
+    const [first, last] = table.angle_span_deg;
+    return `; table angles ${formatNumber(first, { decimals: 0 })}…${formatNumber(last, { decimals: 0 })} deg of its range ${range}`;
   }
 
   /** The grid cell under a pointer event: its indices and centre, or null outside the grid. */
@@ -298,6 +333,14 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
         return false;
       }
       const { xi, yi, grid: g } = cell;
+      const { placement, cell: current } = store.get();
+      if (placement.search === "table") {
+        const at = tablePosition(current, placement.table_name);
+        if (at) {
+          onMoveTable({ name: placement.table_name, position_mm: [g.x_mm[xi], g.y_mm[yi], at[2]] });
+        }
+        return false;
+      }
       const hi = Number(heightSelect.value || 0);
       let yaw = Number(yawSelect.value);
       if (yaw < 0) {
@@ -318,7 +361,8 @@ export function createPlacementPanel({ container, store, actions, api, palette, 
     }
     const { xi, yi, grid: g } = cell;
     const score = scorePlane(g, Number(yawSelect.value), Number(heightSelect.value || 0))[yi][xi];
-    heatmap.title = `x ${formatNumber(g.x_mm[xi], { decimals: 0 })} mm, y ${formatNumber(g.y_mm[yi], { decimals: 0 })} mm: score ${formatNumber(score, { decimals: 3 })}`;
+    const what = store.get().placement.search === "table" ? "table " : "";
+    heatmap.title = `${what}x ${formatNumber(g.x_mm[xi], { decimals: 0 })} mm, y ${formatNumber(g.y_mm[yi], { decimals: 0 })} mm: score ${formatNumber(score, { decimals: 3 })}`;
   });
 
   /** The rail search's heatmap (offset x yaw) and its candidates; a candidate applies its rail. */

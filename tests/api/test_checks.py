@@ -286,6 +286,41 @@ async def test_track_cell_places_its_rail(make_app: Callable[..., Any], tmp_path
     assert report["best"][0]["rail"]["travel_configured_mm"] == [0.0, 4000.0]
 
 
+async def test_table_placement_needs_a_turntable(client: httpx.AsyncClient) -> None:
+    response = await client.post("/api/placement", json={"search": "table", "count": 1})
+    assert response.status_code == 422  # the demo cell has no turntable
+    assert response.json()["detail"] == "table placement: the cell has no turntable"
+
+
+async def test_track_cell_places_its_table(make_app: Callable[..., Any], tmp_path: Any) -> None:
+    cell = tmp_path / "track.json"
+    cell.write_text((ROBOTS / "demo-track-cell.json").read_text())
+    transport = httpx.ASGITransport(app=make_app(cell_path=cell))
+    body = {"search": "table", "table": "table-1", "count": 3, "half_width_mm": 300.0, "top": 2}
+    async with httpx.AsyncClient(transport=transport, base_url="http://127.0.0.1") as client:
+        response = await client.post("/api/placement", json=body)
+        assert response.status_code == 202
+        job = response.json()["id"]
+        status = (await client.get(f"/api/jobs/{job}")).json()
+        for _ in range(6000):  # the cap only ends a hung test (see job_finished)
+            if status["state"] not in ("queued", "running"):
+                break
+            await asyncio.sleep(0.1)
+            status = (await client.get(f"/api/jobs/{job}")).json()
+        assert status["state"] == "done", status["detail"]
+        report = status["result"]
+        picture = await client.get(f"/api/jobs/{job}/image", params={"yaw_index": -1})
+    assert report["search"] == "table"
+    assert report["table_name"] == "table-1"
+    # 3 x 3 table positions within 300 mm of table-1 at (2000, -1300) mm (demo-track-cell.json)
+    assert report["candidates_evaluated"] == 9
+    assert report["grid"]["x_mm"] == pytest.approx([1700.0, 2000.0, 2300.0])
+    assert report["grid"]["y_mm"] == pytest.approx([-1600.0, -1300.0, -1000.0])
+    assert report["best"][0]["table"]["angle_range_deg"] == pytest.approx([-185.0, 185.0])
+    assert picture.status_code == 200
+    assert np.asarray(Image.open(io.BytesIO(picture.content))).shape == (3, 3, 4)
+
+
 async def test_start_placement_too_large(client: httpx.AsyncClient) -> None:
     response = await client.post("/api/placement", json={"count": 101, "yaw_count": 72})
     assert response.status_code == 413

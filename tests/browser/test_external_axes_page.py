@@ -278,3 +278,59 @@ def test_rail_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
     assert track["range_mm"][0] <= min(0.0, needed[0])
     assert track["range_mm"][1] >= max(4000.0, needed[1])
     assert open_page.problems.console_errors == []
+
+
+def test_table_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
+    page = open_page.page
+    _show_track_cell(open_page)
+    page.select_option("#place-search", "table")
+    page.fill("#place-width", "300")
+    page.fill("#place-count", "3")
+    page.click("#place-run")
+    page.wait_for_function(  # the answer and its score picture, or the search's end said
+        "() => { const p = window.posebridge.getState().placement;"
+        " const said = (document.getElementById('place-summary') || {}).textContent || '';"
+        " const map = document.getElementById('place-heatmap');"
+        " return (Boolean(p) && Boolean(map.dataset.picture)) || said.startsWith('Search '); }",
+        timeout=600_000,
+    )
+    placement = page.evaluate(STATE)["placement"]
+    assert placement is not None, page.inner_text("#place-summary")
+    assert placement["search"] == "table"
+    grid = placement["grid"]
+    # the request's grid (closed form): 3 x 3 positions within 300 mm of the demo's table-1
+    # at (2000, -1300) mm
+    assert placement["candidates_evaluated"] == 9
+    assert grid["x_mm"] == pytest.approx([1700.0, 2000.0, 2300.0])
+    assert grid["y_mm"] == pytest.approx([-1600.0, -1300.0, -1000.0])
+    shown = page.evaluate(
+        "() => { const map = document.getElementById('place-heatmap');"
+        " const find = (role) => map.data.find((d) => d.meta && d.meta.role === role);"
+        " const current = find('current-base'), ranked = find('candidates');"
+        " return { current: [current.x[0], current.y[0]], name: current.name,"
+        " images: (map.layout.images || []).length, x: ranked.x, y: ranked.y,"
+        " title: map.layout.xaxis.title.text }; }"
+    )
+    assert shown["current"] == pytest.approx([2000.0, -1300.0])  # the demo's table-1
+    assert shown["name"] == "current table"
+    assert shown["title"] == "table x (mm)"
+    assert shown["images"] == 1  # the score picture under the markers
+    assert shown["x"] == pytest.approx([c["x_mm"] for c in placement["best"]])
+    assert shown["y"] == pytest.approx([c["y_mm"] for c in placement["best"]])
+    assert "table angles" in page.inner_text("#place-candidates li:nth-child(1)") or (
+        placement["best"][0]["table"]["angle_span_deg"] is None
+    )
+    # applying the best candidate moves the table and the jig it carries by the same step
+    best = placement["best"][0]
+    step = best["table"]["move_mm"]
+    with page.expect_response(
+        lambda r: r.request.method == "PUT" and r.url.endswith("/api/cell"), timeout=120_000
+    ) as moved:
+        page.click("#place-candidates li:nth-child(1)")
+    assert moved.value.status == 200
+    saved = moved.value.json()["cell"]
+    assert saved["turntables"][0]["position_mm"] == pytest.approx(best["table"]["position_mm"])
+    jig = next(f for f in saved["fixtures"] if f["name"] == "weld-jig")
+    # demo-track-cell.json: the weld jig at (2000, -1300, 850) mm
+    assert jig["position_mm"] == pytest.approx([2000.0 + step[0], -1300.0 + step[1], 850.0])
+    assert open_page.problems.console_errors == []

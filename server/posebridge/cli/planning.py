@@ -169,13 +169,21 @@ def _cmd_plan(args: argparse.Namespace) -> int:
 def _cmd_place(args: argparse.Namespace) -> int:
     from posebridge.geometry.warm import warm_geometry
     from posebridge.planning.placement import PlacementGrid, search_base_placement
+    from posebridge.planning.placement_table import search_mode, search_table_placement, table_grid
     from posebridge.results.placement import placement_result, render_placement
     from posebridge.units import deg_from_rad, mm_from_m
 
     scene = load_scene(args.cell, quiet=args.quiet)
-    rail = args.search == "rail" or (args.search == "auto" and scene.external.track is not None)
+    mode = search_mode(scene, args.search)
+    rail = mode == "rail"
     given = _parse_grid(args.grid) if args.grid else {}
-    if rail:
+    if args.table is not None and mode != "table":
+        raise CommandLineInputError("--table: only for a table search (--search table)")
+    if mode == "table":
+        if given.keys() - {"x_mm", "y_mm"}:
+            raise CommandLineInputError("--grid: a table search takes x_mm and y_mm only")
+        grid = table_grid(scene, table=args.table, x_mm=given.get("x_mm"), y_mm=given.get("y_mm"))
+    elif rail:
         if given.keys() - {"offset_mm", "yaw_deg"}:
             raise CommandLineInputError("--grid: a rail search takes offset_mm and yaw_deg only")
         grid = PlacementGrid.rail_around(
@@ -193,12 +201,13 @@ def _cmd_place(args: argparse.Namespace) -> int:
         )
     else:
         grid = PlacementGrid.around(scene)
+    search = search_table_placement if mode == "table" else search_base_placement
     with executor_from(args, warm_geometry) as executor:
-        result = search_base_placement(
+        result = search(
             scene,
             grid,
             executor=executor,
-            progress=ProgressBar("base placement", enabled=not args.json),
+            progress=ProgressBar(f"{mode} placement", enabled=not args.json),
             top=args.top,
         )
     return print_results(
@@ -295,10 +304,17 @@ def add_place(sub: Any, shared: SharedOptions) -> None:
     own.add_argument("--top", type=int, default=10, help="candidates to list (default 10)")
     own.add_argument(
         "--search",
-        choices=("auto", "base", "rail"),
+        choices=("auto", "base", "rail", "table"),
         default="auto",
-        help="what to move: the robot's base, or the track's rail line (offset_mm x yaw_deg, "
-        "each target from its own track position); auto: rail for a cell with a track",
+        help="what to move: the robot's base, the track's rail line (offset_mm x yaw_deg, "
+        "each target from its own track position), or a turntable (x_mm x y_mm of its axis, "
+        "each target on it at its own table angle); auto: rail for a cell with a track, else "
+        "table for a cell whose targets ride a turntable, else base",
+    )
+    own.add_argument(
+        "--table",
+        default=None,
+        help="with --search table: the turntable to move (default: the first carrying a target)",
     )
     as_json = options()
     as_json.add_argument("--json", action="store_true", help="print JSON with the whole score grid")

@@ -16,6 +16,7 @@ from posebridge.api.schemas.checks import MAX_PLACEMENT_CANDIDATES, PlacementReq
 from posebridge.api.schemas.errors import error_responses
 from posebridge.api.schemas.jobs import JobStatus
 from posebridge.planning.placement import PlacementGrid, search_base_placement
+from posebridge.planning.placement_table import search_mode, search_table_placement, table_grid
 from posebridge.results.placement import PlacementReport, placement_result
 from posebridge.units import m_from_mm
 
@@ -36,21 +37,29 @@ def start_placement(
     """Score candidate base poses around the current one and rank them.
 
     Candidates vary positions, yaws and pedestal heights; for a cell with a track (or
-    ``search: "rail"``) the rail line's offset and direction instead. Answers at once with
-    the job; poll ``GET /api/jobs/{id}``.
+    ``search: "rail"``) the rail line's offset and direction instead; for a cell whose
+    targets ride a turntable (or ``search: "table"``) the table's position. Answers at once
+    with the job; poll ``GET /api/jobs/{id}``.
     """
     scene = cells.read().scene
-    rail = body.search == "rail" or (body.search == "auto" and scene.external.track is not None)
-    heights = 1 if body.heights_mm is None or rail else len(body.heights_mm)
-    candidates = (1 if rail else body.count) * body.count * body.yaw_count * heights
+    mode = search_mode(scene, body.search)
+    rail = mode == "rail"
+    heights = 1 if body.heights_mm is None or mode != "base" else len(body.heights_mm)
+    yaws = 1 if mode == "table" else body.yaw_count
+    candidates = (1 if rail else body.count) * body.count * yaws * heights
     if candidates > MAX_PLACEMENT_CANDIDATES:
         raise HTTPException(
             status_code=413,
-            detail=f"grid: {body.count} x {body.count} positions x {body.yaw_count} yaws x "
+            detail=f"grid: {body.count} x {body.count} positions x {yaws} yaws x "
             f"{heights} heights = {candidates} candidates; this server searches at most "
             f"{MAX_PLACEMENT_CANDIDATES}",
         )
     charge_reviewer(request, "job_cells", candidates)
+    if mode == "table":
+        grid = table_grid(
+            scene, table=body.table, half_width_mm=body.half_width_mm, count=body.count
+        )
+        return start_job(jobs, "placement", request, job_work(request, _placement, grid, body))
     if rail:
         grid = PlacementGrid.rail_around(
             scene, half_width_mm=body.half_width_mm, count=body.count, yaw_count=body.yaw_count
@@ -82,7 +91,8 @@ def _placement(
     progress: Callable[[int, int], None],
     cancel: threading.Event,
 ) -> PlacementReport:
-    result = search_base_placement(
+    search = search_base_placement if grid.table_axis is None else search_table_placement
+    result = search(
         context.cell().scene,
         grid,
         progress=progress,

@@ -81,11 +81,18 @@ class PlacementRequest(BaseModel):
         | None
     ) = Field(default=None, description="Pedestal heights; the current one if omitted.")
     top: WholeNumber = Field(default=10, ge=1, le=50, description="Candidates listed with details.")
-    search: Literal["auto", "base", "rail"] = Field(
+    search: Literal["auto", "base", "rail", "table"] = Field(
         default="auto",
-        description="What to move: the robot's base, or the track's rail line (count offsets "
+        description="What to move: the robot's base, the track's rail line (count offsets "
         "across the travel within half_width_mm x yaw_count directions, each target reached "
-        "from its own track position; heights_mm unused); auto: rail for a cell with a track.",
+        "from its own track position; heights_mm unused), or a turntable (count x count "
+        "positions of its axis within half_width_mm of the current one, each target on it "
+        "reached at its own table angle; yaw_count and heights_mm unused); auto: rail for a "
+        "cell with a track, else table for a cell whose targets ride a turntable, else base.",
+    )
+    table: Annotated[str, Field(min_length=1, max_length=200)] | None = Field(
+        default=None,
+        description="Table search: the turntable to move (default: the first carrying a target).",
     )
     collision_margin_mm: float = Field(default=0.0, ge=0.0, le=500.0, allow_inf_nan=False)
     clearance_goal_mm: float = Field(default=50.0, ge=0.0, le=1000.0, allow_inf_nan=False)
