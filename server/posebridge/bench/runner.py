@@ -24,6 +24,7 @@ from posebridge.bench.mesh_clearance import bench_mesh_clearance
 from posebridge.bench.mesh_load import bench_mesh_load
 from posebridge.bench.page_load import bench_page_load
 from posebridge.bench.placement import bench_placement
+from posebridge.bench.placement_table import bench_placement_table
 from posebridge.bench.review_load import bench_review_load
 from posebridge.bench.sequence import bench_sequence
 
@@ -47,6 +48,7 @@ BENCHMARKS: tuple[Benchmark, ...] = (
     Benchmark("robot mesh loading and capsule fitting", bench_mesh_load),
     Benchmark("joint-space and reach maps", bench_maps),
     Benchmark("base placement", bench_placement),
+    Benchmark("table placement", bench_placement_table),
     Benchmark("target check and log diagnosis", bench_checks),
     Benchmark("solution sequence and blended timing", bench_sequence),
     Benchmark("dashboard page load", bench_page_load),
