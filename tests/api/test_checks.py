@@ -290,6 +290,9 @@ async def test_table_placement_needs_a_turntable(client: httpx.AsyncClient) -> N
     response = await client.post("/api/placement", json={"search": "table", "count": 1})
     assert response.status_code == 422  # the demo cell has no turntable
     assert response.json()["detail"] == "table placement: the cell has no turntable"
+    response = await client.post("/api/placement", json={"table": "table-1", "count": 1})
+    assert response.status_code == 422  # a base search (the demo cell's auto) moves no table
+    assert response.json()["detail"] == "table: only for a table search"
 
 
 async def test_track_cell_places_its_table(make_app: Callable[..., Any], tmp_path: Any) -> None:

@@ -230,12 +230,12 @@ def _optional(value: float) -> float | None:
     return float(value) if math.isfinite(value) else None
 
 
-def _speed_note(best_s: float | None, current_s: float | None) -> str:
-    """Say so when the best candidate's cycle is slower than the current base's."""
+def _speed_note(best_s: float | None, current_s: float | None, what: str = "base") -> str:
+    """Say so when the best candidate's cycle is slower than the current one's (``what``: base, table)."""
     if best_s is None or current_s is None or best_s <= current_s:
         return ""
     return (
-        f"The best-scored base is slower than the current one: cycle {best_s:.2f} s against "
+        f"The best-scored {what} is slower than the current one: cycle {best_s:.2f} s against "
         f"{current_s:.2f} s ({best_s - current_s:.2f} s more per cycle)."
     )
 
@@ -390,7 +390,11 @@ def placement_result(result: PlacementResult) -> PlacementReport:
         current_cycle_time_s=current_cycle,
         score_words=SCORE_WORDS,
         score_noise=result.score_noise,
-        speed_note=_speed_note(best[0].cycle_time_s if best else None, current_cycle),
+        speed_note=_speed_note(
+            best[0].cycle_time_s if best else None,
+            current_cycle,
+            "table position" if search == "table" else "base",
+        ),
     )
 
 

@@ -43,6 +43,8 @@ def start_placement(
     """
     scene = cells.read().scene
     mode = search_mode(scene, body.search)
+    if body.table is not None and mode != "table":
+        raise HTTPException(status_code=422, detail="table: only for a table search")
     rail = mode == "rail"
     heights = 1 if body.heights_mm is None or mode != "base" else len(body.heights_mm)
     yaws = 1 if mode == "table" else body.yaw_count
