@@ -16,6 +16,7 @@ from posebridge.cell.scene import Scene, resolve_scene
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.planning.errors import PlanningInputError
+from posebridge.planning.placement import BRANCHES
 from posebridge.planning.placement_table import (
     search_mode,
     search_table_placement,
@@ -35,7 +36,11 @@ GRID_X_MM = [50.0 + 100.0 * i for i in range(14)]  # 50 .. 1350 mm, no candidate
 
 
 def table_cell_data(
-    *, path: bool = False, table_speed_deg_s: float = 90.0, table_accel_deg_s2: float = 180.0
+    *,
+    path: bool = False,
+    via_mm: list[float] | None = None,
+    table_speed_deg_s: float = 90.0,
+    table_accel_deg_s2: float = 180.0,
 ) -> dict[str, Any]:
     """pb-planar2r at the origin; a turntable on world x carrying a jig with two targets.
 
@@ -70,13 +75,12 @@ def table_cell_data(
         ],
     }
     if path:
+        via = [] if via_mm is None else [{"pose": {"position_mm": via_mm}}]
+        waypoints = [{"target": "near"}, *via, {"target": "far"}]
         data["paths"] = [
             {
                 "name": "swap",
-                "waypoints": [
-                    {"target": "near", "motion": "joint", "speed_percent": 100.0},
-                    {"target": "far", "motion": "joint", "speed_percent": 100.0},
-                ],
+                "waypoints": [{**w, "motion": "joint", "speed_percent": 100.0} for w in waypoints],
             }
         ]
     return data
@@ -220,3 +224,37 @@ def test_demo_track_cell_searches_its_table() -> None:
     on_table = [t for t in best.targets if t.table_angle_deg is not None]
     for t in on_table:
         assert -185.0 <= t.table_angle_deg <= 185.0  # type: ignore[operator]
+
+
+def synchronised_trapezoid_s(delta: np.ndarray, v: np.ndarray, a: np.ndarray) -> float:
+    """Duration of a synchronised joint move, closed form (Lynch & Park, Modern Robotics,
+    sec. 9.2.2.2): D = max |d_i|, c_i = |d_i| / D, V = 1 / max(c_i / v_i), A = 1 / max(c_i / a_i),
+    t = D / V + V / A when D >= V^2 / A, else 2 sqrt(D / A)."""
+    D = float(np.max(np.abs(delta)))
+    c = np.abs(delta) / D
+    V, A = 1.0 / float(np.max(c / v)), 1.0 / float(np.max(c / a))
+    return D / V + V / A if D >= V**2 / A else 2.0 * float(np.sqrt(D / A))
+
+
+def test_a_waypoint_off_the_table_holds_the_table_angle() -> None:
+    # near -> a world pose -> far: the table holds near's angle into the world pose and turns
+    # to far's angle on the move out of it
+    scene = table_cell(path=True, via_mm=[450.0, 250.0, 0.0])
+    grid = table_grid(scene, x_mm=[650.0], y_mm=[0.0])
+    result = search_table_placement(scene, grid, top=1)
+    candidate = result.best[0]
+    assert candidate.table_angle is not None
+    assert result.reached[candidate.index].all()
+    q_near, q_far = result.q[candidate.index]
+    T_base = invert_transform(scene.T_world_base) @ scene.paths[0].T_world_tool[1]
+    ik = solve_ik_all(scene.robot, T_base[None], T_flange_tool=scene.T_flange_tool)
+    elbow = BRANCHES[result.branch[candidate.index]][1]  # the candidate's branch (elbow)
+    slots = np.flatnonzero(ik.valid[0] & ik.within_limits[0] & (ik.elbow[0] == elbow))
+    q_via = ik.q[0, slots[0]]
+    robot = scene.robot
+    v = np.r_[robot.velocity_max, np.radians(90.0)]  # the table's limits of table_cell_data
+    a = np.r_[robot.acceleration_max, np.radians(180.0)]
+    turn = float(candidate.table_angle[1] - candidate.table_angle[0])
+    expected = synchronised_trapezoid_s(np.r_[q_via - q_near, 0.0], v, a)  # table held
+    expected += synchronised_trapezoid_s(np.r_[q_far - q_via, turn], v, a)  # table turns
+    assert float(result.cycle_time[candidate.index]) == pytest.approx(expected, rel=1e-9)
