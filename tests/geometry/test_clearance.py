@@ -232,6 +232,22 @@ def test_rigid_motion_of_whole_cell_keeps_distances(cell) -> None:
     )
 
 
+def test_scene_with_another_base_equals_one_built_there(cell, reference) -> None:
+    """``with_base`` reuses the prepared obstacles; its distances are the brute force's there."""
+    _, scene, q = cell
+    T = pose((0.1, -0.3, 1.2), (0.5, 0.4, 0.1))
+    moved = scene.with_base(T)
+    # reference: all pair distances by the per-pair routine and the reference enumeration
+    # (brute_force) with the scene built afresh at that base
+    fresh = ClearanceScene.build(
+        scene.arm, scene.obstacles, T, self_pairs=scene.self_pairs, pair_mask=scene.pair_mask
+    )
+    values, _ = brute_force(fresh, q[:200], reference)
+    np.testing.assert_allclose(
+        clearance_batch(moved, q[:200]).distance, values.min(axis=1), atol=1e-9
+    )
+
+
 def test_closest_pair_and_distance_match_python_fcl(cell) -> None:
     """Collision-free configurations: the minimum over capsule-obstacle pairs by ``fcl.distance``.
 

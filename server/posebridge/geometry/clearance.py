@@ -666,6 +666,25 @@ class ClearanceScene:
             pair_mask=mask,
         )
 
+    def with_base(self, T_world_base: FloatArray) -> ClearanceScene:
+        """Return this scene with the robot base at ``T_world_base`` (shape (4, 4), not checked).
+
+        The arm's and the obstacles' kernel inputs are shared with this scene, so many
+        base poses against one obstacle set cost one preparation.
+        """
+        pose = np.array(T_world_base, dtype=np.float64)
+        moved = ClearanceScene(self.arm, self.obstacles, pose, self.self_pairs, self.pair_mask)
+        chain, caps, obs = self._kernel_inputs
+        assert isinstance(chain, tuple)
+        placed = (
+            *chain[:2],
+            np.ascontiguousarray(pose[:3, :3]),
+            np.ascontiguousarray(pose[:3, 3]),
+            *chain[4:],
+        )
+        moved.__dict__["_kernel_inputs"] = (placed, caps, obs)  # the cached property, filled
+        return moved
+
     @cached_property
     def _kernel_inputs(self) -> tuple[object, object, object]:
         """``(chain, caps, obs)`` tuples in the layout the kernels read."""

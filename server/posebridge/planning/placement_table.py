@@ -446,13 +446,14 @@ def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, st
         fixed = _fixed_scene(problem, table)
         q_s = q[index]
         free_s, clear_s = _free_and_clear(problem, own, q_s, [(0, S, fixed)])
+        moving = _moving_scene(problem, table)
         group = np.ravel_multi_index(index[:3], (C, P, B))
         starts = np.flatnonzero(np.r_[True, group[1:] != group[:-1]])
         for first, last in zip(starts.tolist(), [*starts[1:].tolist(), S], strict=True):
             rows = np.flatnonzero(free_s[first:last]) + first
             if not rows.size or table.moving.count == 0:
                 continue
-            scene = _moving_scene(problem, table, motion[tuple(i[first] for i in index[:3])])
+            scene = _moved_table(moving, motion[tuple(i[first] for i in index[:3])])
             hit = collision_batch(scene, q_s[rows], threshold_m=problem.margin)
             free_s[rows[hit]] = False
             clear_s[rows[hit]] = False
@@ -476,15 +477,20 @@ def _fixed_scene(problem: _Problem, table: _Table) -> ClearanceScene:
     )
 
 
-def _moving_scene(problem: _Problem, table: _Table, motion: FloatArray) -> ClearanceScene:
-    """Return the arm against the table's moving obstacles after ``motion`` (4, 4), its base moved back."""
+def _moving_scene(problem: _Problem, table: _Table) -> ClearanceScene:
+    """Return the arm, its base where it is, against the table's plate and carried fixtures."""
     return ClearanceScene(
         problem.arm,
         table.moving,
-        invert_transform(motion) @ table.T_world_base,
+        table.T_world_base,
         np.empty((0, 2), dtype=np.int64),
         table.moving_mask,
     )
+
+
+def _moved_table(moving: ClearanceScene, motion: FloatArray) -> ClearanceScene:
+    """Return the arm against the table's obstacles after ``motion`` (4, 4): its base moved back."""
+    return moving.with_base(invert_transform(motion) @ moving.T_world_base)
 
 
 def _table_chunk(
@@ -761,7 +767,7 @@ def _details(
                 float(clearance_batch(fixed, config).distance[0]),
             ]
             if table.moving.count:
-                scene = _moving_scene(problem, table, solved.motion[0, p, branch])
+                scene = _moved_table(_moving_scene(problem, table), solved.motion[0, p, branch])
                 distances.append(float(clearance_batch(scene, config).distance[0]))
             clearance[k] = min(distances)
             reasons.append("")
