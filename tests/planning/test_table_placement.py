@@ -9,10 +9,11 @@ from typing import Any
 import numpy as np
 import pytest
 
+from posebridge.cell.clearance import clearance_to_cell
 from posebridge.cell.external_axes import turntable_motion
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
-from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.cell.scene import Scene, posed_scene, resolve_scene
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.planning.errors import PlanningInputError
@@ -258,3 +259,40 @@ def test_a_waypoint_off_the_table_holds_the_table_angle() -> None:
     expected = synchronised_trapezoid_s(np.r_[q_via - q_near, 0.0], v, a)  # table held
     expected += synchronised_trapezoid_s(np.r_[q_far - q_via, turn], v, a)  # table turns
     assert float(result.cycle_time[candidate.index]) == pytest.approx(expected, rel=1e-9)
+
+
+def test_clearance_is_to_the_moved_and_turned_table() -> None:
+    # a post on the table reaching into the arm's plane, off the axis, so that where the table
+    # stands and how far it turns both change the arm's clearance
+    data = table_cell_data()
+    post = {"name": "post", "shape": "box", "position_mm": [1000.0 * TABLE_X, 120.0, 0.0]}
+    data["fixtures"].append({**post, "size_mm": [60.0, 60.0, 200.0]})
+    data["turntables"][0]["fixtures"].append("post")
+    scene = resolve_scene(validate_cell(data))
+    grid = table_grid(scene, x_mm=[550.0, 650.0], y_mm=[-100.0, 100.0])
+    result = search_table_placement(scene, grid, top=grid.size)
+    checked = 0
+    for candidate in result.best:
+        assert candidate.table_angle is not None
+        iy, ix, _, _ = candidate.index
+        step = 1000.0 * np.array([grid.x[ix] - TABLE_X, grid.y[iy]])
+        # reference: the cell edited as the page applies a candidate (table, jig and post moved
+        # by the step), resolved afresh, posed at the chosen angle, and its clearance computed
+        moved = table_cell_data()
+        moved["fixtures"].append({**post, "size_mm": [60.0, 60.0, 200.0]})
+        moved["turntables"][0]["fixtures"].append("post")
+        for item in [moved["turntables"][0], *moved["fixtures"]]:
+            item["position_mm"] = [
+                *(np.array(item["position_mm"][:2]) + step),
+                item["position_mm"][2],
+            ]
+        edited = resolve_scene(validate_cell(moved))
+        for k in range(len(RADII)):
+            if not result.reached[candidate.index][k]:
+                continue
+            posed = posed_scene(edited, [candidate.table_angle[k]])
+            q = result.q[candidate.index][k][None]
+            reference = clearance_to_cell(posed, q, scope="environment").distance[0]
+            assert candidate.clearance[k] == pytest.approx(reference, abs=1e-9)
+            checked += 1
+    assert checked >= 4
