@@ -107,6 +107,10 @@ Chunks of :data:`CHUNK_CANDIDATES` candidates (fixed by the grid alone, one
 pedestal height per chunk) run through an executor
 (:mod:`posebridge.compute`) with progress and cancellation; results are the
 same whichever executor runs them.
+
+The **table search** (a turntable cell: the table's position, each target on it at
+its own table angle) is :mod:`posebridge.planning.placement_table`; it reuses this
+module's problem, scoring and clearance helpers.
 """
 
 from __future__ import annotations

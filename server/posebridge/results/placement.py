@@ -2,7 +2,8 @@
 
 :func:`placement_result` turns the SI
 :class:`~posebridge.planning.placement.PlacementResult` of
-:func:`~posebridge.planning.placement.search_base_placement` into
+:func:`~posebridge.planning.placement.search_base_placement` (or of the table
+search, :func:`~posebridge.planning.placement_table.search_table_placement`) into
 :class:`PlacementReport` (mm, deg, s): the best candidates with their
 per-target details, the full score grid for a heatmap, and the notes that
 explain the score and the cycle times. :func:`render_placement` is its
