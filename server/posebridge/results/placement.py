@@ -47,9 +47,9 @@ RAIL_NOTE = (
     "travel (a joint move synchronised with it, a linear move at least as long as its own move)"
 )
 TABLE_NOTE = (
-    " Table search: each target on the table from its own table angle; joint moves include "
-    "the table's turn (synchronised with the joints), a linear move lasts at least the "
-    "table's turn between its ends; no blended time is computed."
+    "; table search: each target on the table at its own table angle, the estimate with the "
+    "table's turn (a joint move synchronised with it, a linear move at least as long as the "
+    "turn, a waypoint off the table holding the angle before it); no blended time"
 )
 SCORE_WORDS = (
     "The score is the share of the targets the robot reaches on one arm branch, plus at "
