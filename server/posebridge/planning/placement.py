@@ -469,6 +469,25 @@ class PlacementResult:
 
 
 @dataclass(frozen=True, eq=False)
+class _AxisMoves:
+    """Where the external axes' values at both ends of every move come from (SI).
+
+    joint_source : (J, 2) pose whose solved axis values an end of joint move ``j`` takes
+        (the order of the problem's ``joint_ends``), -1 for ``joint_value``
+    joint_value : (J, 2, m) the end's values where its source is -1, m or rad
+    linear_source, linear_value : the same for the linear moves, (L, 2) and (L, 2, m)
+        (the order of the problem's ``linear_duration``)
+    limits : (2, m) velocity and acceleration limits of the m axes
+    """
+
+    joint_source: npt.NDArray[np.int64]
+    joint_value: FloatArray
+    linear_source: npt.NDArray[np.int64]
+    linear_value: FloatArray
+    limits: FloatArray
+
+
+@dataclass(frozen=True, eq=False)
 class _Rail:
     """The fixed parts of a rail search (SI; module docstring).
 
@@ -514,13 +533,9 @@ class _Problem:
     clearance_goal: float
     joint_ends: npt.NDArray[np.int64]  # (J, 2): pose index, -1 for given joints
     joint_given: FloatArray  # (J, 2, n)
-    joint_external: FloatArray  # (J, 2, m): the path's external values at the ends
     joint_percent: FloatArray  # (J,)
-    joint_path: npt.NDArray[np.int64]  # (J,)
-    linear_ends: npt.NDArray[np.int64]  # (L, 2): pose index, -1 for given joints
     linear_duration: FloatArray  # (L,): trapezoid in TCP path length at the requested speed
-    linear_external: FloatArray  # (L, 2, m): the path's external values at the ends
-    external_limits: FloatArray  # (2, m): the external axes' velocity, acceleration limits
+    axis_moves: _AxisMoves  # each end's external values: its pose's, else the path's
     path_poses: tuple[npt.NDArray[np.int64], ...]
     waypoint_pose: tuple[npt.NDArray[np.int64], ...]  # per path (W,): pose index, -1: joints
     rail: _Rail | None = None
@@ -770,12 +785,12 @@ def _cycle_times(
         Configuration of every pose on the candidate's branch (NaN where not reached).
     pose_reached : array of bool, shape (C, P)
     external : array, shape (C, P, m), optional
-        External axis values (m, rad) every pose is reached at. With them a joint move
-        runs the robot joints and the external axes on one synchronised trapezoid over
-        the ``n + m`` values and a linear move lasts at least the external axes' own
-        synchronised move, as :func:`posebridge.planning.cycle_time.path_cycle_time`
-        times a path with ``external=``; joint-value waypoints keep the path's values.
-        Without them the robot joints alone are timed.
+        External axis values (m, rad) every pose is reached at, the axes of
+        ``problem.axis_moves``, which says which pose's values each move end takes. With
+        them a joint move runs the robot joints and the external axes on one synchronised
+        trapezoid over the ``n + m`` values and a linear move lasts at least the external
+        axes' own synchronised move, as :func:`posebridge.planning.cycle_time.path_cycle_time`
+        times a path with ``external=``. Without them the robot joints alone are timed.
 
     Returns
     -------
@@ -787,34 +802,35 @@ def _cycle_times(
         if poses.size:
             total[~np.all(pose_reached[:, poses], axis=1)] = np.nan
     robot = problem.arm.robot
+    moves = problem.axis_moves
     velocity, acceleration = robot.velocity_max, robot.acceleration_max
     if external is not None:
-        velocity = np.concatenate([velocity, problem.external_limits[0]])
-        acceleration = np.concatenate([acceleration, problem.external_limits[1]])
+        velocity = np.concatenate([velocity, moves.limits[0]])
+        acceleration = np.concatenate([acceleration, moves.limits[1]])
     for j in range(problem.joint_ends.shape[0]):
         ends = []
         for side in range(2):
-            p = int(problem.joint_ends[j, side])
-            end = _end_values(p, problem.joint_given[j, side], q_pose)
+            end = _end_values(
+                int(problem.joint_ends[j, side]), problem.joint_given[j, side], q_pose
+            )
             if external is not None:
-                end = np.concatenate(
-                    [end, _end_values(p, problem.joint_external[j, side], external)], axis=1
-                )
+                source = int(moves.joint_source[j, side])
+                axes = _end_values(source, moves.joint_value[j, side], external)
+                end = np.concatenate([end, axes], axis=1)
             ends.append(end)
         total += _move_durations(
             ends[0], ends[1], velocity, acceleration, float(problem.joint_percent[j])
         )
-    for i in range(problem.linear_ends.shape[0]):
+    for i in range(problem.linear_duration.shape[0]):
         duration = np.full(C, problem.linear_duration[i])
         if external is not None and external.shape[2] > 0:
             start, end = (
                 _end_values(
-                    int(problem.linear_ends[i, side]), problem.linear_external[i, side], external
+                    int(moves.linear_source[i, side]), moves.linear_value[i, side], external
                 )
                 for side in range(2)
             )
-            limits = problem.external_limits
-            own = _move_durations(start, end, limits[0], limits[1], 100.0)
+            own = _move_durations(start, end, moves.limits[0], moves.limits[1], 100.0)
             duration = np.maximum(duration, own)
         total += duration
     return total
@@ -1114,13 +1130,12 @@ def _problem(
     joint_given: list[FloatArray] = []
     joint_external: list[FloatArray] = []
     joint_percent: list[float] = []
-    joint_path: list[int] = []
     linear_ends: list[tuple[int, int]] = []
     linear_duration: list[float] = []
     linear_external: list[FloatArray] = []
     path_poses: list[npt.NDArray[np.int64]] = []
     waypoint_pose: list[npt.NDArray[np.int64]] = []
-    for index, path in enumerate(scene.paths):
+    for path in scene.paths:
         pose_of: list[int] = []
         used: list[int] = []
         for w, source in enumerate(path.sources):
@@ -1156,7 +1171,6 @@ def _problem(
                 joint_given.append(np.stack([path.q[w - 1], path.q[w]]))
                 joint_external.append(external[w - 1 : w + 1])
                 joint_percent.append(float(path.speed_percent[w]))
-                joint_path.append(index)
     full = clearance_scene(scene)
     environment_count = fixture_count(scene) + len(scene.keep_outs.names)
     kept = np.arange(environment_count)
@@ -1192,13 +1206,15 @@ def _problem(
         clearance_goal=clearance_goal_m,
         joint_ends=np.array(joint_ends, dtype=np.int64).reshape(-1, 2),
         joint_given=np.array(joint_given).reshape(-1, 2, n),
-        joint_external=np.array(joint_external).reshape(len(joint_external), 2, m),
         joint_percent=np.array(joint_percent),
-        joint_path=np.array(joint_path, dtype=np.int64),
-        linear_ends=np.array(linear_ends, dtype=np.int64).reshape(-1, 2),
         linear_duration=np.array(linear_duration),
-        linear_external=np.array(linear_external).reshape(len(linear_external), 2, m),
-        external_limits=np.stack([scene.external.velocity_max, scene.external.acceleration_max]),
+        axis_moves=_AxisMoves(
+            joint_source=np.array(joint_ends, dtype=np.int64).reshape(-1, 2),
+            joint_value=np.array(joint_external).reshape(len(joint_external), 2, m),
+            linear_source=np.array(linear_ends, dtype=np.int64).reshape(-1, 2),
+            linear_value=np.array(linear_external).reshape(len(linear_external), 2, m),
+            limits=np.stack([scene.external.velocity_max, scene.external.acceleration_max]),
+        ),
         path_poses=tuple(path_poses),
         waypoint_pose=tuple(waypoint_pose),
     )
@@ -1254,14 +1270,7 @@ def search_base_placement(
     posebridge.compute.ComputationCancelled
         ``cancel`` was set.
     """
-    if isinstance(top, bool) or not isinstance(top, int) or not 1 <= top <= 1000:
-        raise PlanningInputError(f"top: expected an integer from 1 to 1000, got {top!r}")
-    check_non_negative("collision_margin_m", collision_margin_m)
-    if not math.isfinite(clearance_goal_m) or clearance_goal_m < collision_margin_m:
-        raise PlanningInputError(
-            "clearance_goal_m: expected a finite number not below collision_margin_m, "
-            f"got {clearance_goal_m!r}"
-        )
+    _check_search_arguments(top, collision_margin_m, clearance_goal_m)
     if grid is None:
         has_track = scene.external.track is not None
         grid = PlacementGrid.rail_around(scene) if has_track else PlacementGrid.around(scene)
@@ -1295,15 +1304,7 @@ def search_base_placement(
     margin, condition, manip, share, cycle = (gather(i) for i in range(2, 7))
     reached = gather(7, (K,)).astype(bool)
     q = gather(8, (K, n))
-    fraction = count / K
-    terms = np.stack([2.0 * margin, condition, share], axis=-1)
-    quality = np.where(
-        count > 0, np.nanmean(np.where(count[..., None] > 0, terms, 0.0), axis=-1), 0.0
-    )
-    score = fraction + np.clip(quality, 0.0, 1.0) / (2.0 * K)
-    flat_score = score.reshape(-1)
-    order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
-    noise = score_noise(score, fraction)
+    fraction, score, order, noise = _scores(count, margin, condition, share, K)
     position = gather(9, (K,)) if grid.rail else None
     track = scene.external.track
     rail_travel = None
@@ -1331,6 +1332,39 @@ def search_base_placement(
         rail_travel=rail_travel,
         carriage_length=0.0 if track is None else float(track.carriage_size[0]),
     )
+
+
+def _check_search_arguments(top: int, collision_margin_m: float, clearance_goal_m: float) -> None:
+    """Raise :class:`PlanningInputError` for a bad ``top``, margin or clearance goal of a search."""
+    if isinstance(top, bool) or not isinstance(top, int) or not 1 <= top <= 1000:
+        raise PlanningInputError(f"top: expected an integer from 1 to 1000, got {top!r}")
+    check_non_negative("collision_margin_m", collision_margin_m)
+    if not math.isfinite(clearance_goal_m) or clearance_goal_m < collision_margin_m:
+        raise PlanningInputError(
+            "clearance_goal_m: expected a finite number not below collision_margin_m, "
+            f"got {clearance_goal_m!r}"
+        )
+
+
+def _scores(
+    count: FloatArray, margin: FloatArray, condition: FloatArray, share: FloatArray, K: int
+) -> tuple[FloatArray, FloatArray, npt.NDArray[np.int64], float]:
+    """Reach fraction, score, rank order and score noise of a grid (module docstring).
+
+    ``score = reach_fraction + quality / (2 K)``, ``quality`` the mean of the terms
+    ``2 margin``, ``condition`` and ``share`` (each in [0, 1]) where a target is reached;
+    ``order`` the flat indices best first (ties by index). Inputs and the first two
+    outputs have the grid's shape.
+    """
+    fraction = count / K
+    terms = np.stack([2.0 * margin, condition, share], axis=-1)
+    quality = np.where(
+        count > 0, np.nanmean(np.where(count[..., None] > 0, terms, 0.0), axis=-1), 0.0
+    )
+    score = fraction + np.clip(quality, 0.0, 1.0) / (2.0 * K)
+    flat_score = score.reshape(-1)
+    order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
+    return fraction, score, order, score_noise(score, fraction)
 
 
 def _ranked(

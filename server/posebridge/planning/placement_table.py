@@ -65,18 +65,16 @@ from posebridge.geometry.shapes import ObstacleSet, default_pair_mask
 from posebridge.kinematics.branches import branch_geometry, labels_match
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import jacobian_rows, limit_margins, manipulability_yoshikawa
-from posebridge.planning.cycle_time import (
-    DEFAULT_LINEAR_ACCELERATION_M_S2,
-    joint_move_durations,
-)
-from posebridge.planning.errors import PlanningInputError, check_non_negative
+from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.placement import (
     BRANCHES,
     PlacementGrid,
     PlacementResult,
     RankedCandidate,
+    _AxisMoves,
     _branch_rows,
     _branch_words,
+    _check_search_arguments,
     _chunk_scores,
     _free_and_clear,
     _intersection,
@@ -84,9 +82,8 @@ from posebridge.planning.placement import (
     _own_scenes,
     _Problem,
     _problem,
-    score_noise,
+    _scores,
 )
-from posebridge.planning.time_scaling import trapezoidal_profile
 from posebridge.transforms import invert_transform
 from posebridge.units import BoolArray, FloatArray, mm_from_m, rad_from_deg
 
@@ -184,18 +181,6 @@ def table_grid(
 
 
 @dataclass(frozen=True, eq=False)
-class _Segments:
-    """Table-angle ends of a set of path segments (module docstring, cycle time).
-
-    source : (S, 2) pose index whose chosen angle an end takes, -1 for ``value``
-    value : (S, 2) the end's table angle where ``source`` is -1, rad
-    """
-
-    source: npt.NDArray[np.int64]
-    value: FloatArray
-
-
-@dataclass(frozen=True, eq=False)
 class _Table:
     """The fixed parts of a table search (SI; module docstring).
 
@@ -203,16 +188,12 @@ class _Table:
     axis : external index of the table
     point, direction : its current axis point (3,) and unit axis (3,)
     angle0 : its current angle, rad
-    velocity, acceleration : its limits, rad/s and rad/s²
     carried : (P,) the pose rides the table
     T_world_base : (4, 4) the robot's base
     fixed, fixed_mask : obstacles that stay and the arm's pairs with them
     moving, moving_mask : the plate and the carried fixtures
     triple : (8,) row of the intervals' branch list for each row of BRANCHES
     samples : table angles of the interval sweep
-    joint : ends of the joint moves (in the order of the problem's ``joint_ends``)
-    linear : ends of the linear moves
-    linear_time : (L,) TCP trapezoid of each linear move, s
     """
 
     scene: Scene
@@ -220,8 +201,6 @@ class _Table:
     point: FloatArray
     direction: FloatArray
     angle0: float
-    velocity: float
-    acceleration: float
     carried: BoolArray
     T_world_base: FloatArray
     fixed: ObstacleSet
@@ -230,24 +209,20 @@ class _Table:
     moving_mask: BoolArray
     triple: npt.NDArray[np.int64]
     samples: int
-    joint: _Segments
-    linear: _Segments
-    linear_time: FloatArray
 
 
-def _segments(
-    scene: Scene, problem: _Problem, axis: int, carried: BoolArray
-) -> tuple[_Segments, _Segments, FloatArray]:
-    """Table-angle ends of every joint and linear move of the cell's paths, and the linear moves' times.
+def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray) -> _AxisMoves:
+    """Where the table angle at both ends of every move of the cell's paths comes from (module docstring).
 
-    Pose indices of target waypoints follow :func:`posebridge.planning.placement._problem`.
+    A waypoint on the table takes its pose's angle, a joint waypoint its given table value,
+    any other waypoint holds the angle of the waypoint before it in its path. Pose indices
+    of target waypoints follow :func:`posebridge.planning.placement._problem`.
     """
     angle0 = float(scene.external.values[axis])
     ends: dict[bool, tuple[list[tuple[int, int]], list[tuple[float, float]]]] = {
         False: ([], []),
         True: ([], []),
     }
-    linear_time: list[float] = []
     for path in scene.paths:
         specs: list[tuple[int, float] | None] = []  # (pose, value) of each waypoint
         for w, source in enumerate(path.sources):
@@ -268,27 +243,24 @@ def _segments(
             held = held if spec is None else spec
             filled.append(held)
         for w in range(1, len(path.sources)):
-            moves_linearly = bool(path.linear[w])
-            sources, values = ends[moves_linearly]
+            sources, values = ends[bool(path.linear[w])]
             sources.append((filled[w - 1][0], filled[w][0]))
             values.append((filled[w - 1][1], filled[w][1]))
-            if moves_linearly:
-                length = float(
-                    np.linalg.norm(path.T_world_tool[w, :3, 3] - path.T_world_tool[w - 1, :3, 3])
-                )
-                linear_time.append(
-                    trapezoidal_profile(
-                        length, float(path.linear_speed[w]), DEFAULT_LINEAR_ACCELERATION_M_S2
-                    ).duration
-                )
     joint, linear = (
-        _Segments(
+        (
             np.array(ends[kind][0], dtype=np.int64).reshape(-1, 2),
-            np.array(ends[kind][1], dtype=np.float64).reshape(-1, 2),
+            np.array(ends[kind][1], dtype=np.float64).reshape(-1, 2, 1),
         )
         for kind in (False, True)
     )
-    return joint, linear, np.array(linear_time, dtype=np.float64)
+    external = scene.external
+    return _AxisMoves(
+        joint_source=joint[0],
+        joint_value=joint[1],
+        linear_source=linear[0],
+        linear_value=linear[1],
+        limits=np.array([[external.velocity_max[axis]], [external.acceleration_max[axis]]]),
+    )
 
 
 def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
@@ -309,7 +281,6 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
     moves = np.array([name in names for name in environment.names], dtype=bool)
     fixed = environment.subset(np.flatnonzero(~moves))
     moving = environment.subset(np.flatnonzero(moves))
-    joint, linear, linear_time = _segments(scene, problem, axis, carried)
     span = float(external.upper[axis] - external.lower[axis])
     return _Table(
         scene=scene,
@@ -317,8 +288,6 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
         point=turntable.point,
         direction=turntable.axis,
         angle0=float(external.values[axis]),
-        velocity=float(external.velocity_max[axis]),
-        acceleration=float(external.acceleration_max[axis]),
         carried=carried,
         T_world_base=scene.T_world_base,
         fixed=fixed,
@@ -327,9 +296,6 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
         moving_mask=default_pair_mask(problem.arm, moving),
         triple=_branch_rows(scene),
         samples=max(2, int(np.ceil(span / TABLE_SWEEP_SPACING_RAD)) + 1),
-        joint=joint,
-        linear=linear,
-        linear_time=linear_time,
     )
 
 
@@ -498,9 +464,9 @@ def _table_chunk(
 ) -> tuple[FloatArray, ...]:
     """Score the table candidates ``start..stop`` (one executor chunk; module docstring).
 
-    Returns the arrays of :func:`posebridge.planning.placement._chunk_scores` with the
-    cycle time replaced by the one with the table's turns, and the table angle of each
-    reached carried target (C, K), rad (NaN elsewhere).
+    Returns the arrays of :func:`posebridge.planning.placement._chunk_scores` (the cycle
+    time with the table's turns: ``problem.axis_moves`` is the table's) and the table angle
+    of each reached carried target (C, K), rad (NaN elsewhere).
     """
     solved = _solve(problem, table, grid, start, stop)
     C, P, B, M, n = solved.q.shape
@@ -509,83 +475,16 @@ def _table_chunk(
         diagonal[:, :, b, :, b] = solved.free[:, :, b]
     counting = diagonal.reshape(C, P, B * M, B)
     q = solved.q.reshape(C, P, B * M, n)
-    scores = list(_chunk_scores(problem, counting, q, solved.clear.reshape(C, P, B * M)))
+    theta = np.broadcast_to(solved.theta[..., None, None], (C, P, B, M, 1))
+    scores = _chunk_scores(
+        problem, counting, q, solved.clear.reshape(C, P, B * M), theta.reshape(C, P, B * M, 1)
+    )
     branch = scores[1].astype(np.int64)
-    rows = np.arange(C)
-    on_branch = counting[rows, :, :, branch]  # (C, P, B * M)
-    pose_reached = np.any(on_branch, axis=2)
-    slot = np.argmax(on_branch, axis=2)
-    q_pose = np.where(pose_reached[..., None], q[rows[:, None], np.arange(P), slot], np.nan)
-    theta_pose = np.where(pose_reached, solved.theta[rows, :, branch], np.nan)  # (C, P)
-    scores[6] = _table_cycle_times(problem, table, q_pose, theta_pose, pose_reached)
     reached = scores[7].astype(bool)
     carried = table.carried[problem.target_pose]
-    angle = np.where(reached & carried, theta_pose[:, problem.target_pose], np.nan)
+    theta_target = solved.theta[np.arange(C)[:, None], problem.target_pose, branch[:, None]]
+    angle = np.where(reached & carried, theta_target, np.nan)
     return (*scores, angle)
-
-
-def _segment_angles(segments: _Segments, theta_pose: FloatArray) -> tuple[FloatArray, FloatArray]:
-    """Table angle at both ends of each segment per candidate, shapes (C, S)."""
-    out = []
-    for side in range(2):
-        source = segments.source[:, side]
-        value = np.broadcast_to(segments.value[:, side], (theta_pose.shape[0], source.size))
-        out.append(np.where(source >= 0, theta_pose[:, np.maximum(source, 0)], value))
-    return out[0], out[1]
-
-
-def _table_cycle_times(
-    problem: _Problem,
-    table: _Table,
-    q_pose: FloatArray,
-    theta_pose: FloatArray,
-    pose_reached: BoolArray,
-) -> FloatArray:
-    """Cycle time estimate with the table's turns (module docstring), s, shape (C,).
-
-    ``q_pose`` (C, P, n) and ``theta_pose`` (C, P) of the poses on the candidate's branch;
-    NaN where a path pose is not reached.
-    """
-    C = q_pose.shape[0]
-    robot = problem.arm.robot
-    total = np.zeros(C)
-    for poses in problem.path_poses:
-        if poses.size:
-            total[~np.all(pose_reached[:, poses], axis=1)] = np.nan
-    velocity = np.r_[robot.velocity_max, table.velocity]
-    acceleration = np.r_[robot.acceleration_max, table.acceleration]
-    start_angle, end_angle = _segment_angles(table.joint, theta_pose)
-    for j in range(problem.joint_ends.shape[0]):
-        ends = []
-        for side, angle in ((0, start_angle[:, j]), (1, end_angle[:, j])):
-            p = problem.joint_ends[j, side]
-            q_end = (
-                np.broadcast_to(problem.joint_given[j, side], (C, robot.dof))
-                if p < 0
-                else q_pose[:, p]
-            )
-            ends.append(np.concatenate([q_end, angle[:, None]], axis=1))
-        finite = np.all(np.isfinite(ends[0]) & np.isfinite(ends[1]), axis=1)
-        duration = np.full(C, np.nan)
-        if np.any(finite):
-            duration[finite] = joint_move_durations(
-                ends[0][finite], ends[1][finite], velocity, acceleration, problem.joint_percent[j]
-            )
-        total += duration
-    start_angle, end_angle = _segment_angles(table.linear, theta_pose)
-    for s in range(table.linear_time.size):
-        turn = np.full(C, np.nan)
-        finite = np.isfinite(start_angle[:, s]) & np.isfinite(end_angle[:, s])
-        if np.any(finite):
-            turn[finite] = joint_move_durations(
-                start_angle[finite, s, None],
-                end_angle[finite, s, None],
-                [table.velocity],
-                [table.acceleration],
-                100.0,
-            )
-        total += np.fmax(turn, table.linear_time[s])
-    return total
 
 
 def search_table_placement(
@@ -604,18 +503,12 @@ def search_table_placement(
     Parameters and result as :func:`posebridge.planning.placement.search_base_placement`;
     ``grid`` is a table grid (:func:`table_grid`; by default its default one).
     """
-    if isinstance(top, bool) or not isinstance(top, int) or not 1 <= top <= 1000:
-        raise PlanningInputError(f"top: expected an integer from 1 to 1000, got {top!r}")
-    check_non_negative("collision_margin_m", collision_margin_m)
-    if not math.isfinite(clearance_goal_m) or clearance_goal_m < collision_margin_m:
-        raise PlanningInputError(
-            "clearance_goal_m: expected a finite number not below collision_margin_m, "
-            f"got {clearance_goal_m!r}"
-        )
+    _check_search_arguments(top, collision_margin_m, clearance_goal_m)
     grid = table_grid(scene) if grid is None else grid
     # rail=True: on a track the foot stands on the carriage, which rides with the robot
     problem = _problem(scene, float(collision_margin_m), float(clearance_goal_m), rail=True)
     table = _table(scene, grid, problem)
+    problem = replace(problem, axis_moves=_table_moves(scene, problem, table.axis, table.carried))
     size = grid.size
     chunks = [
         (problem, table, grid, start, min(start + TABLE_CHUNK_CANDIDATES, size))
@@ -637,15 +530,7 @@ def search_table_placement(
     reached = gather(7, (K,)).astype(bool)
     q = gather(8, (K, n))
     angle = gather(9, (K,))
-    fraction = count / K
-    terms = np.stack([2.0 * margin, condition, share], axis=-1)
-    quality = np.where(
-        count > 0, np.nanmean(np.where(count[..., None] > 0, terms, 0.0), axis=-1), 0.0
-    )
-    score = fraction + np.clip(quality, 0.0, 1.0) / (2.0 * K)
-    flat_score = score.reshape(-1)
-    order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
-    noise = score_noise(score, fraction)
+    fraction, score, order, noise = _scores(count, margin, condition, share, K)
     external = scene.external
     return PlacementResult(
         robot=scene.robot,
