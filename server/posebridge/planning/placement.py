@@ -117,7 +117,7 @@ from __future__ import annotations
 
 import math
 import threading
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Iterator, Sequence
 from dataclasses import dataclass, replace
 from typing import Any
 
@@ -1299,12 +1299,7 @@ def search_base_placement(
         layers = [np.concatenate([r[field] for r in rows]) for rows in by_height]
         return np.stack(layers, axis=1).reshape((ny, nx, nyaw, nh, *tail))
 
-    count = gather(0)
-    branch = gather(1).astype(np.int8)
-    margin, condition, manip, share, cycle = (gather(i) for i in range(2, 7))
-    reached = gather(7, (K,)).astype(bool)
-    q = gather(8, (K, n))
-    fraction, score, order, noise = _scores(count, margin, condition, share, K)
+    scores = _grid_scores(gather, K, n)
     position = gather(9, (K,)) if grid.rail else None
     track = scene.external.track
     rail_travel = None
@@ -1314,20 +1309,9 @@ def search_base_placement(
         robot=scene.robot,
         grid=grid,
         target_names=scene.targets.names,
-        score=score,
-        reach_fraction=fraction,
-        branch=branch,
-        min_margin_fraction=margin,
-        inverse_condition=condition,
-        manipulability=manip,
-        clearance_share=share,
-        cycle_time=cycle,
-        reached=reached,
-        q=q,
-        order=order,
-        best=_ranked(scene, grid, problem, score, branch, reached, q, position, order[:top], noise),
+        **scores.result_fields(),
+        best=_ranked(scene, grid, problem, scores, position, top),
         current=_current_index(scene, grid),
-        score_noise=noise,
         track_position=position,
         rail_travel=rail_travel,
         carriage_length=0.0 if track is None else float(track.carriage_size[0]),
@@ -1346,16 +1330,57 @@ def _check_search_arguments(top: int, collision_margin_m: float, clearance_goal_
         )
 
 
-def _scores(
-    count: FloatArray, margin: FloatArray, condition: FloatArray, share: FloatArray, K: int
-) -> tuple[FloatArray, FloatArray, npt.NDArray[np.int64], float]:
-    """Reach fraction, score, rank order and score noise of a grid (module docstring).
+@dataclass(frozen=True, eq=False)
+class _GridScores:
+    """A search's per-candidate arrays over its grid (the grid's shape, then (K,) or (K, n)).
 
-    ``score = reach_fraction + quality / (2 K)``, ``quality`` the mean of the terms
-    ``2 margin``, ``condition`` and ``share`` (each in [0, 1]) where a target is reached;
-    ``order`` the flat indices best first (ties by index). Inputs and the first two
-    outputs have the grid's shape.
+    The fields of :class:`PlacementResult` of the same meaning; ``fraction`` is its
+    ``reach_fraction``, ``noise`` its ``score_noise``.
     """
+
+    score: FloatArray
+    fraction: FloatArray
+    branch: npt.NDArray[np.int8]
+    margin: FloatArray
+    condition: FloatArray
+    manipulability: FloatArray
+    share: FloatArray
+    cycle: FloatArray
+    reached: BoolArray
+    q: FloatArray
+    order: npt.NDArray[np.int64]
+    noise: float
+
+    def result_fields(self) -> dict[str, Any]:
+        """Keyword arguments of :class:`PlacementResult` that these arrays fill."""
+        return {
+            "score": self.score,
+            "reach_fraction": self.fraction,
+            "branch": self.branch,
+            "min_margin_fraction": self.margin,
+            "inverse_condition": self.condition,
+            "manipulability": self.manipulability,
+            "clearance_share": self.share,
+            "cycle_time": self.cycle,
+            "reached": self.reached,
+            "q": self.q,
+            "order": self.order,
+            "score_noise": self.noise,
+        }
+
+
+def _grid_scores(
+    gather: Callable[[int, tuple[int, ...]], npt.NDArray[Any]], K: int, n: int
+) -> _GridScores:
+    """Gather the chunks' fields 0..8 (:func:`_chunk_scores`) over the grid and score it.
+
+    ``gather(field, tail)`` returns one field over the grid, shape (*grid, *tail).
+    ``score = reach_fraction + quality / (2 K)``, ``quality`` the mean of the terms
+    ``2 margin``, ``condition`` and ``share`` (each in [0, 1]) where a target is reached
+    (module docstring); ``order`` the flat indices best first (ties by index).
+    """
+    count = gather(0, ())
+    margin, condition, manipulability, share, cycle = (gather(i, ()) for i in range(2, 7))
     fraction = count / K
     terms = np.stack([2.0 * margin, condition, share], axis=-1)
     quality = np.where(
@@ -1364,51 +1389,86 @@ def _scores(
     score = fraction + np.clip(quality, 0.0, 1.0) / (2.0 * K)
     flat_score = score.reshape(-1)
     order = np.lexsort((np.arange(flat_score.size), -flat_score)).astype(np.int64)
-    return fraction, score, order, score_noise(score, fraction)
+    return _GridScores(
+        score=score,
+        fraction=fraction,
+        branch=gather(1, ()).astype(np.int8),
+        margin=margin,
+        condition=condition,
+        manipulability=manipulability,
+        share=share,
+        cycle=cycle,
+        reached=gather(7, (K,)).astype(bool),
+        q=gather(8, (K, n)),
+        order=order,
+        noise=score_noise(score, fraction),
+    )
+
+
+def _ranked_rows(
+    robot: Robot,
+    T_flange_tool: FloatArray,
+    grid: PlacementGrid,
+    scores: _GridScores,
+    top: int,
+) -> Iterator[tuple[int, tuple[int, ...], dict[str, Any]]]:
+    """Yield the ``top`` best candidates, best first, with the fields every search reports.
+
+    Yields the flat index, the grid index and the :class:`RankedCandidate` fields
+    ``rank``, ``tie_rank`` (module docstring, score noise), ``index``, ``branch`` (words;
+    ``""`` where no target is reached), ``limit_margin`` and ``manipulability`` per target.
+    """
+    scheme = branch_geometry(robot).scheme
+    tie_score = math.nan
+    tie_rank = 1
+    for rank, flat in enumerate(scores.order[:top].tolist(), start=1):
+        idx = tuple(int(i) for i in np.unravel_index(flat, grid.shape))
+        if rank == 1 or tie_score - scores.score[idx] > scores.noise:
+            tie_rank, tie_score = rank, float(scores.score[idx])
+        q_c = np.nan_to_num(scores.q[idx])
+        jac = jacobian_rows(jacobian_base(robot, q_c, T_flange_tool), "position")
+        branch = int(scores.branch[idx])
+        yield (
+            flat,
+            idx,
+            {
+                "rank": rank,
+                "tie_rank": tie_rank,
+                "index": (idx[0], idx[1], idx[2], idx[3]),
+                "branch": _branch_words(branch, scheme) if scores.reached[idx].any() else "",
+                "limit_margin": limit_margins(robot, q_c).margin.min(axis=1),
+                "manipulability": manipulability_yoshikawa(jac),
+            },
+        )
 
 
 def _ranked(
     scene: Scene,
     grid: PlacementGrid,
     problem: _Problem,
-    score: FloatArray,
-    branch: npt.NDArray[np.int8],
-    reached: BoolArray,
-    q: FloatArray,
+    scores: _GridScores,
     position: FloatArray | None,
-    top: npt.NDArray[np.int64],
-    noise: float,
+    top: int,
 ) -> tuple[RankedCandidate, ...]:
-    """Return the best candidates ``top`` (flat indices, best first) with exact per-target details."""
-    robot = scene.robot
-    scheme = branch_geometry(robot).scheme
+    """Return the ``top`` best candidates, best first, with exact per-target details."""
     best: list[RankedCandidate] = []
-    tie_rank = 1
-    for rank, flat in enumerate(top.tolist(), start=1):
-        idx = tuple(int(i) for i in np.unravel_index(flat, grid.shape))
-        q_c = np.nan_to_num(q[idx])
-        jac = jacobian_rows(jacobian_base(robot, q_c, problem.T_flange_tool), "position")
-        if rank > 1 and score[best[tie_rank - 1].index] - score[idx] > noise:
-            tie_rank = rank
+    for flat, idx, shared in _ranked_rows(scene.robot, problem.T_flange_tool, grid, scores, top):
+        branch, q = int(scores.branch[idx]), scores.q[idx]
+        blended = shared["rank"] <= BLENDED_TOP
         if problem.rail is not None and position is not None:
             at = position[idx]
             frame, reasons, clearance, pose_track = _rail_details(
-                problem, problem.rail, grid, flat, int(branch[idx]), q[idx], at
+                problem, problem.rail, grid, flat, branch, q, at
             )
             placed = at[np.isfinite(at)]
             best.append(
                 RankedCandidate(
-                    rank=rank,
-                    tie_rank=tie_rank,
-                    index=(idx[0], idx[1], idx[2], idx[3]),
-                    branch=_branch_words(int(branch[idx]), scheme) if reached[idx].any() else "",
+                    **shared,
                     reasons=tuple(reasons),
-                    limit_margin=limit_margins(robot, q_c).margin.min(axis=1),
-                    manipulability=manipulability_yoshikawa(jac),
                     clearance=clearance,
                     blended_cycle_time=(
                         _rail_blended_cycle_time(problem, problem.rail, frame, pose_track)
-                        if rank <= BLENDED_TOP
+                        if blended
                         else None
                     ),
                     rail_frame=frame,
@@ -1427,16 +1487,11 @@ def _ranked(
         scenes = _candidate_scenes(problem, grid, flat)
         best.append(
             RankedCandidate(
-                rank=rank,
-                tie_rank=tie_rank,
-                index=(idx[0], idx[1], idx[2], idx[3]),
-                branch=_branch_words(int(branch[idx]), scheme) if reached[idx].any() else "",
-                reasons=tuple(_target_reasons(problem, scenes, int(branch[idx]))),
-                limit_margin=limit_margins(robot, q_c).margin.min(axis=1),
-                manipulability=manipulability_yoshikawa(jac),
-                clearance=_candidate_clearance(scenes, q[idx]),
+                **shared,
+                reasons=tuple(_target_reasons(problem, scenes, branch)),
+                clearance=_candidate_clearance(scenes, q),
                 blended_cycle_time=(
-                    _blended_cycle_time(scene, scenes.T_world_base) if rank <= BLENDED_TOP else None
+                    _blended_cycle_time(scene, scenes.T_world_base) if blended else None
                 ),
             )
         )

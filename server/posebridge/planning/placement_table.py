@@ -62,9 +62,7 @@ from posebridge.cell.scene import Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.shapes import ObstacleSet, default_pair_mask
-from posebridge.kinematics.branches import branch_geometry, labels_match
-from posebridge.kinematics.jacobian import jacobian_base
-from posebridge.kinematics.metrics import jacobian_rows, limit_margins, manipulability_yoshikawa
+from posebridge.kinematics.branches import labels_match
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.placement import (
     BRANCHES,
@@ -73,16 +71,17 @@ from posebridge.planning.placement import (
     RankedCandidate,
     _AxisMoves,
     _branch_rows,
-    _branch_words,
     _check_search_arguments,
     _chunk_scores,
     _free_and_clear,
+    _grid_scores,
+    _GridScores,
     _intersection,
     _longest_middle,
     _own_scenes,
     _Problem,
     _problem,
-    _scores,
+    _ranked_rows,
 )
 from posebridge.transforms import invert_transform
 from posebridge.units import BoolArray, FloatArray, mm_from_m, rad_from_deg
@@ -524,32 +523,16 @@ def search_table_placement(
     def gather(field: int, tail: tuple[int, ...] = ()) -> npt.NDArray[Any]:
         return np.concatenate([r[field] for r in results]).reshape((*grid.shape, *tail))
 
-    count = gather(0)
-    branch = gather(1).astype(np.int8)
-    margin, condition, manip, share, cycle = (gather(i) for i in range(2, 7))
-    reached = gather(7, (K,)).astype(bool)
-    q = gather(8, (K, n))
+    scores = _grid_scores(gather, K, n)
     angle = gather(9, (K,))
-    fraction, score, order, noise = _scores(count, margin, condition, share, K)
     external = scene.external
     return PlacementResult(
         robot=scene.robot,
         grid=grid,
         target_names=scene.targets.names,
-        score=score,
-        reach_fraction=fraction,
-        branch=branch,
-        min_margin_fraction=margin,
-        inverse_condition=condition,
-        manipulability=manip,
-        clearance_share=share,
-        cycle_time=cycle,
-        reached=reached,
-        q=q,
-        order=order,
-        best=_ranked(problem, table, grid, score, branch, reached, q, angle, order[:top], noise),
+        **scores.result_fields(),
+        best=_ranked(problem, table, grid, scores, angle, top),
         current=_current_index(table, grid),
-        score_noise=noise,
         table_angle=angle,
         table_range=(float(external.lower[table.axis]), float(external.upper[table.axis])),
         table_name=external.names[table.axis],
@@ -570,37 +553,24 @@ def _ranked(
     problem: _Problem,
     table: _Table,
     grid: PlacementGrid,
-    score: FloatArray,
-    branch: npt.NDArray[np.int8],
-    reached: BoolArray,
-    q: FloatArray,
+    scores: _GridScores,
     angle: FloatArray,
-    top: npt.NDArray[np.int64],
-    noise: float,
+    top: int,
 ) -> tuple[RankedCandidate, ...]:
-    """Return the best candidates ``top`` (flat indices, best first) with exact per-target details."""
-    robot = problem.arm.robot
-    scheme = branch_geometry(robot).scheme
+    """Return the ``top`` best candidates, best first, with exact per-target details."""
     best: list[RankedCandidate] = []
-    tie_rank = 1
-    for rank, flat in enumerate(top.tolist(), start=1):
-        idx = tuple(int(i) for i in np.unravel_index(flat, grid.shape))
-        q_c = np.nan_to_num(q[idx])
-        jac = jacobian_rows(jacobian_base(robot, q_c, problem.T_flange_tool), "position")
-        if rank > 1 and score[best[tie_rank - 1].index] - score[idx] > noise:
-            tie_rank = rank
-        reasons, clearance = _details(problem, table, grid, flat, int(branch[idx]), q[idx])
+    for flat, idx, shared in _ranked_rows(
+        problem.arm.robot, problem.T_flange_tool, grid, scores, top
+    ):
+        reasons, clearance = _details(
+            problem, table, grid, flat, int(scores.branch[idx]), scores.q[idx]
+        )
         at = angle[idx]
         used = at[np.isfinite(at)]
         best.append(
             RankedCandidate(
-                rank=rank,
-                tie_rank=tie_rank,
-                index=(idx[0], idx[1], idx[2], idx[3]),
-                branch=_branch_words(int(branch[idx]), scheme) if reached[idx].any() else "",
+                **shared,
                 reasons=tuple(reasons),
-                limit_margin=limit_margins(robot, q_c).margin.min(axis=1),
-                manipulability=manipulability_yoshikawa(jac),
                 clearance=clearance,
                 blended_cycle_time=None,
                 table_angle=at,
