@@ -408,10 +408,10 @@ def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, st
     S = index[0].size
     if S:
         own = _own_scenes(problem, float(grid.height[0]))
-        fixed = _fixed_scene(problem, table)
+        fixed = _arm_scene(problem, table, moving=False)
         q_s = q[index]
         free_s, clear_s = _free_and_clear(problem, own, q_s, [(0, S, fixed)])
-        moving = _moving_scene(problem, table)
+        moving = _arm_scene(problem, table, moving=True)
         group = np.ravel_multi_index(index[:3], (C, P, B))
         starts = np.flatnonzero(np.r_[True, group[1:] != group[:-1]])
         for first, last in zip(starts.tolist(), [*starts[1:].tolist(), S], strict=True):
@@ -431,25 +431,17 @@ def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, st
     return _Solved(theta, placed, motion, valid, within, allowed, free, clear, q)
 
 
-def _fixed_scene(problem: _Problem, table: _Table) -> ClearanceScene:
-    """Return the arm, its base where it is, against the obstacles that stay (no self pairs)."""
-    return ClearanceScene(
-        problem.arm,
-        table.fixed,
-        table.T_world_base,
-        np.empty((0, 2), dtype=np.int64),
-        table.fixed_mask,
+def _arm_scene(problem: _Problem, table: _Table, moving: bool) -> ClearanceScene:
+    """Return the arm, its base where it is, against some of the table search's obstacles.
+
+    Those that stay (``moving`` false) or the table's plate and carried fixtures (``moving``
+    true); no self pairs.
+    """
+    obstacles, mask = (
+        (table.moving, table.moving_mask) if moving else (table.fixed, table.fixed_mask)
     )
-
-
-def _moving_scene(problem: _Problem, table: _Table) -> ClearanceScene:
-    """Return the arm, its base where it is, against the table's plate and carried fixtures."""
     return ClearanceScene(
-        problem.arm,
-        table.moving,
-        table.T_world_base,
-        np.empty((0, 2), dtype=np.int64),
-        table.moving_mask,
+        problem.arm, obstacles, table.T_world_base, np.empty((0, 2), dtype=np.int64), mask
     )
 
 
@@ -611,7 +603,7 @@ def _details(
     """
     solved = _solve(problem, table, grid, flat, flat + 1)
     support, _ = _own_scenes(problem, float(grid.height[0]))
-    fixed = _fixed_scene(problem, table)
+    fixed = _arm_scene(problem, table, moving=False)
     clearance = np.full(problem.target_pose.shape[0], np.nan)
     reasons = []
     for k, p in enumerate(problem.target_pose.tolist()):
@@ -622,7 +614,9 @@ def _details(
                 float(clearance_batch(fixed, config).distance[0]),
             ]
             if table.moving.count:
-                scene = _moved_table(_moving_scene(problem, table), solved.motion[0, p, branch])
+                scene = _moved_table(
+                    _arm_scene(problem, table, moving=True), solved.motion[0, p, branch]
+                )
                 distances.append(float(clearance_batch(scene, config).distance[0]))
             clearance[k] = min(distances)
             reasons.append("")
