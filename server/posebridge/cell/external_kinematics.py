@@ -13,11 +13,14 @@ pose within the robot's joint limits is a union of intervals. It is found by
 1. a sweep of ``samples`` evenly spaced axis values over the axis range, the
    analytic IK of every target at every value solved in one batch
    (:func:`posebridge.kinematics.ik.solve_ik_all`, all branches at once);
-2. bisection of every sample gap where a branch changes from feasible to
+2. a search in every sample gap where a branch changes from feasible to
    infeasible, until the bracket is at most ``tolerance`` wide (0.1 mm for the
-   track, 0.01 deg for a table); brackets of all targets and branches are
-   solved together, one IK batch per bisection step, a value shared by several
-   brackets solved once. The reported end is the feasible side of the bracket.
+   track, 0.01 deg for a table): the ITP method (:func:`_refine_ends`), which
+   interpolates the branch's joint-limit margin where a joint limit decides
+   and bisects where the branch leaves its reach, never taking more steps than
+   bisection; brackets of all targets and branches are solved together, one IK
+   batch per step, a value shared by several brackets solved once. The
+   reported end is the feasible side of the bracket.
 
 The sweep cannot see an interval or a gap narrower than the sample spacing
 (range / (samples - 1); by default at most 500 mm on a track, 20 deg on a table); the tests compare with a dense brute-force sweep.
@@ -42,9 +45,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 from itertools import product
 
+import numba as nb
 import numpy as np
 import numpy.typing as npt
 
+from posebridge.arrays import BoolArray, FloatArray, Int8Array, UInt8Array
 from posebridge.cell.model import Branch
 from posebridge.cell.quality import branch_score, evaluate_configurations
 from posebridge.cell.scene import Scene, posed_scene
@@ -53,7 +58,7 @@ from posebridge.kinematics.branches import branch_geometry
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolutions, solve_ik_all
 from posebridge.transforms import invert_transform
-from posebridge.units import BoolArray, FloatArray, m_from_mm, rad_from_deg
+from posebridge.units import m_from_mm, rad_from_deg
 
 __all__ = [
     "SCORE_TIE",
@@ -79,6 +84,8 @@ TRACK_SWEEP_SPACING_M = 0.5
 """Largest sweep spacing on a track (default sample count: range / spacing + 1, at least 9)."""
 TABLE_SWEEP_SPACING_RAD = float(rad_from_deg(20.0))
 """Largest sweep spacing on a turntable."""
+REFINE_EXTRA_STEPS = 0
+"""IK batches the interval-end search may spend beyond plain bisection's (the ITP method's n0)."""
 
 Triple = tuple[int, int, int]
 
@@ -161,43 +168,116 @@ def _translated(T_base: FloatArray, along: FloatArray, values: FloatArray) -> Fl
     return out
 
 
-def _base_poses(
+def _turned_poses(
     scene: Scene, T_world_target: FloatArray, axis: int, values: FloatArray
 ) -> FloatArray:
-    """Target poses in the base frame with ``axis`` at ``values``, shape (K, S, 4, 4).
+    """Target poses in the base frame with turntable ``axis`` at ``values``, shape (K, S, 4, 4).
 
-    ``T_world_target`` (K, 4, 4) at the scene's values; ``values`` (K, S). The track
-    translates (:func:`_track_origin`), a table turns the target
-    (:func:`~posebridge.cell.external_axes.turntable_motion`).
+    ``T_world_target`` (K, 4, 4) at the scene's values; ``values`` (K, S). The table
+    turns the target (:func:`~posebridge.cell.external_axes.turntable_motion`).
     """
     external = scene.external
-    if external.track is not None and axis == 0:
-        return _translated(*_track_origin(scene, T_world_target), values)
     table = external.turntables[axis - external.table_offset]
     D = table.motion((values - external.values[axis]).ravel()).reshape((*values.shape, 4, 4))
     return invert_transform(scene.T_world_base) @ (D @ T_world_target[:, None])
 
 
-def _branch_matches(solutions: IkSolutions, triples: list[Triple]) -> list[BoolArray]:
-    """Per branch, the slots that are on it and within limits, shapes (N, M)."""
-    ok = solutions.valid & solutions.within_limits
-    matches = []
-    for s, e, w in triples:
-        match = ok.copy()
-        for labels, want in ((solutions.shoulder, s), (solutions.elbow, e), (solutions.wrist, w)):
-            if want != 0:
-                match &= (labels == want) | (labels == 0)
-        matches.append(match)
-    return matches
+def _label_codes(solutions: IkSolutions) -> Int8Array:
+    """``9 (shoulder + 1) + 3 (elbow + 1) + (wrist + 1)`` of every slot, shape (N, M)."""
+    return 9 * solutions.shoulder + 3 * solutions.elbow + solutions.wrist + 13
 
 
-def _feasible(scene: Scene, T_base: FloatArray, triples: list[Triple]) -> BoolArray:
-    """Whether each branch reaches each pose within limits, shape (N, B) for (N, 4, 4)."""
-    solutions = solve_ik_all(scene.robot, T_base, T_flange_tool=scene.T_flange_tool)
-    out = np.empty((len(T_base), len(triples)), dtype=bool)
-    for b, match in enumerate(_branch_matches(solutions, triples)):
-        out[:, b] = np.any(match, axis=1)
-    return out
+def _branch_bits(triples: list[Triple]) -> UInt8Array:
+    """Branches each combination of labels belongs to, as bits, shape (27,).
+
+    Entry ``9 (shoulder + 1) + 3 (elbow + 1) + (wrist + 1)`` has bit ``b`` set when
+    the labels match branch ``b`` of ``triples`` (at most 8): every label equals the
+    branch's word, or is 0 (undefined, matches either side), or the branch has no
+    such word (0).
+    """
+    code = np.arange(27)
+    labels = np.stack([code // 9, code // 3 % 3, code % 3], axis=1) - 1
+    want = np.asarray(triples).reshape(-1, 3)
+    match = np.all(
+        (want == 0) | (labels[:, None] == 0) | (labels[:, None] == want), axis=2
+    )  # (27, B)
+    weights = np.left_shift(1, np.arange(len(triples)))
+    return (match @ weights).astype(np.uint8)
+
+
+def _slot_branches(solutions: IkSolutions, table: UInt8Array) -> UInt8Array:
+    """Branches each slot reaches within limits, as bits of ``table``, shape (N, M).
+
+    Empty slots and slots outside the limits have no bit set.
+    """
+    return table[_label_codes(solutions)] * (solutions.valid & solutions.within_limits)
+
+
+def _reached(solutions: IkSolutions, table: UInt8Array, count: int) -> BoolArray:
+    """Whether branch ``b < count`` (bit ``b`` of ``table``) reaches each pose in limits, (N, B)."""
+    slots = _slot_branches(solutions, table)
+    reached = slots[:, 0].copy()
+    for m in range(1, slots.shape[1]):  # slot by slot: a reduction over a short axis is slow
+        reached |= slots[:, m]
+    return (reached[:, None] >> np.arange(count, dtype=np.uint8)) & 1 == 1
+
+
+@nb.njit(cache=True)
+def _branch_state_rows(q, valid, within, code, rows, branches, table, lower, upper, out):
+    """Kernel of :func:`_branch_state`: ``out[i] = (feasible, margin)`` of pair ``i``.
+
+    Slot by slot of pose ``rows[i]``: a slot on branch ``branches[i]`` (bit of
+    ``table[code]``) that reaches the pose counts with its smallest joint margin;
+    one inside the limits makes the pair feasible. ``out`` has shape (D, 2).
+    """
+    for i in range(rows.shape[0]):
+        r = rows[i]
+        bit = branches[i]
+        feasible = 0.0
+        best = -np.inf
+        for m in range(q.shape[1]):
+            if not valid[r, m] or (table[code[r, m]] >> bit) & 1 == 0:
+                continue
+            if within[r, m]:
+                feasible = 1.0
+            smallest = np.inf
+            for j in range(q.shape[2]):
+                smallest = min(smallest, q[r, m, j] - lower[j], upper[j] - q[r, m, j])
+            best = max(best, smallest)
+        out[i, 0] = feasible
+        out[i, 1] = best if best > -np.inf else np.nan
+
+
+def _branch_state(
+    solutions: IkSolutions,
+    rows: npt.NDArray[np.intp],
+    branches: npt.NDArray[np.intp],
+    table: UInt8Array,
+    limits: tuple[FloatArray, FloatArray],
+) -> tuple[BoolArray, FloatArray]:
+    """Feasibility and limit margin of branch ``branches[i]`` at pose ``rows[i]``, shapes (D,).
+
+    The margin is the largest, over the branch's solutions that reach the pose, of
+    the smallest signed distance of a joint to its limits (m or rad, negative
+    outside); NaN when the branch does not reach the pose at all. It is continuous
+    in the external value while the branch's solution exists, and at least zero
+    exactly where the branch is feasible (the joint limits decide), which is what
+    :func:`_refine_ends` interpolates.
+    """
+    out = np.empty((len(rows), 2))
+    _branch_state_rows(
+        solutions.q,
+        solutions.valid,
+        solutions.within_limits,
+        _label_codes(solutions),
+        rows,
+        branches,
+        table,
+        limits[0],
+        limits[1],
+        out,
+    )
+    return out[:, 0] == 1.0, out[:, 1]
 
 
 def solutions_along_axis(
@@ -236,13 +316,15 @@ def solutions_along_axis(
         T_base = np.broadcast_to(fixed[:, None], (K, R, 4, 4)).copy()
         carried = [k for k in range(K) if carrier_axis(scene, k) == axis]
         if carried:
-            T_base[carried] = _base_poses(scene, T_world_target[carried], axis, along[carried])
+            T_base[carried] = _turned_poses(scene, T_world_target[carried], axis, along[carried])
     solutions = solve_ik_all(
         scene.robot, T_base.reshape(-1, 4, 4), T_flange_tool=scene.T_flange_tool
     )
     triples = branch_triples(scene)
     q = np.full((K * R, len(triples), scene.robot.dof), np.nan)
-    for b, match in enumerate(_branch_matches(solutions, triples)):
+    slots = _slot_branches(solutions, _branch_bits(triples))
+    for b in range(len(triples)):
+        match = (slots >> b) & 1 == 1
         rows = np.flatnonzero(np.any(match, axis=1))
         q[rows, b] = solutions.q[rows, np.argmax(match[rows], axis=1)]
     return triples, q.reshape(K, R, len(triples), scene.robot.dof)
@@ -254,6 +336,134 @@ def _sorted_ends(
     """Interval ends sorted by group (target * B + branch), then value."""
     order = np.lexsort((value, group))
     return group[order], value[order]
+
+
+class _AxisPoses:
+    """Base-frame poses of K world targets with one external axis moved, the others kept."""
+
+    def __init__(self, scene: Scene, T_world_target: FloatArray, axis: int) -> None:
+        self.scene, self.T_world_target, self.axis = scene, T_world_target, axis
+        external = scene.external
+        self.track = (
+            _track_origin(scene, T_world_target)
+            if external.track is not None and axis == 0
+            else None
+        )
+
+    def at(self, targets: npt.NDArray[np.intp], values: FloatArray) -> FloatArray:
+        """Pose of target ``targets[i]`` with the axis at ``values[i]``, shape (D, 4, 4)."""
+        if self.track is not None:
+            T_origin, along = self.track
+            T = T_origin[targets]
+            T[:, :3, 3] -= values[:, None] * along
+            return T
+        turned = _turned_poses(self.scene, self.T_world_target[targets], self.axis, values[:, None])
+        return turned[:, 0]
+
+
+def _joint_limits(scene: Scene) -> tuple[FloatArray, FloatArray]:
+    """Robot joint limits for the margin of :func:`_branch_state`; none for continuous joints."""
+    robot = scene.robot
+    return (
+        np.where(robot.continuous, -np.inf, robot.lower),
+        np.where(robot.continuous, np.inf, robot.upper),
+    )
+
+
+def _refine_ends(
+    poses: _AxisPoses,
+    table: UInt8Array,
+    limits: tuple[FloatArray, FloatArray],
+    brackets: tuple[npt.NDArray[np.intp], npt.NDArray[np.intp], BoolArray],
+    ends: tuple[FloatArray, FloatArray],
+    margins: tuple[FloatArray, FloatArray],
+    *,
+    tolerance: float,
+    extra_steps: int,
+) -> tuple[FloatArray, FloatArray, int]:
+    """Shrink every bracket of a branch change to at most ``tolerance``.
+
+    The ITP method (interpolate, truncate, project; Oliveira & Takahashi, ACM TOMS
+    47(1), 2020, algorithm 1 with kappa1 = 0.2 / start width, kappa2 = 2) on the
+    branch's limit margin (:func:`_branch_state`). Where both ends of a bracket have
+    a margin of opposite sign (the branch reaches the pose on both sides and a joint
+    limit decides) the step starts at the regula falsi value; elsewhere (one side
+    out of reach or on another branch) at the middle. The projection keeps every
+    bracket within ``ceil(log2(start width / tolerance)) + extra_steps``
+    evaluations, so with ``extra_steps = 0`` no bracket needs more IK batches than
+    bisection, and one whose margin is smooth needs far fewer. The bracket is always
+    updated from the branch's feasibility (the margin only chooses where to look).
+    Brackets of all targets and branches are solved together, one IK batch per
+    step, a (target, value) shared by several brackets solved once.
+
+    Parameters
+    ----------
+    poses : _AxisPoses
+    table, limits
+        :func:`_branch_bits`, :func:`_joint_limits`.
+    brackets : (targets, branches, low_feasible), arrays of shape (D,)
+    ends : (low, high), arrays of shape (D,)
+        Axis values, m or rad; ``low < high``, the branch's feasibility differs.
+    margins : (low, high), arrays of shape (D,)
+        Margins at the ends, NaN where the branch does not reach the pose.
+    tolerance : float
+        Largest final bracket, m or rad.
+    extra_steps : int
+        IK batches allowed beyond bisection's (the method's n0).
+
+    Returns
+    -------
+    low, high : arrays, shape (D,)
+        The final brackets (``high - low <= tolerance``).
+    solved : int
+        Poses solved.
+    """
+    scene = poses.scene
+    targets, branches, low_feasible = brackets
+    low, high = ends[0].copy(), ends[1].copy()
+    margin_low, margin_high = margins[0].copy(), margins[1].copy()
+    start_width = high - low
+    half = 0.5 * tolerance
+    most = np.ceil(np.log2(np.maximum(start_width / tolerance, 1.0))) + extra_steps
+    span = 4.0 * (np.max(np.abs(high), initial=0.0) + np.max(np.abs(low), initial=0.0) + 1.0)
+    solved = 0
+    step = 0
+    while True:
+        open_ = np.flatnonzero(high - low > tolerance)
+        if not len(open_):
+            break
+        lo, hi, m_lo, m_hi = low[open_], high[open_], margin_low[open_], margin_high[open_]
+        width = hi - lo
+        middle = 0.5 * (lo + hi)
+        # interpolate: regula falsi where both ends have a margin of opposite sign
+        secant = np.isfinite(m_lo) & np.isfinite(m_hi) & (m_lo * m_hi <= 0.0) & (m_lo != m_hi)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            falsi = np.where(secant, (hi * m_lo - lo * m_hi) / (m_lo - m_hi), middle)
+        # truncate: step towards the middle by 0.2 width^2 / start width
+        toward = np.sign(middle - falsi)
+        shift = 0.2 * width**2 / start_width[open_]
+        truncated = np.where(shift <= np.abs(middle - falsi), falsi + toward * shift, middle)
+        # project: stay close enough to the middle to finish within ``most`` steps
+        radius = half * 2.0 ** (most[open_] - step) - 0.5 * width
+        value = np.where(np.abs(truncated - middle) <= radius, truncated, middle - toward * radius)
+        # one IK pose per distinct (target, value)
+        keys, first, inverse = np.unique(
+            targets[open_] * span + value, return_index=True, return_inverse=True
+        )
+        solutions = solve_ik_all(
+            scene.robot,
+            poses.at(targets[open_][first], value[first]),
+            T_flange_tool=scene.T_flange_tool,
+        )
+        solved += len(keys)
+        feasible, margin = _branch_state(solutions, inverse.ravel(), branches[open_], table, limits)
+        moves_low = feasible == low_feasible[open_]
+        low[open_] = np.where(moves_low, value, lo)
+        high[open_] = np.where(moves_low, hi, value)
+        margin_low[open_] = np.where(moves_low, margin, m_lo)
+        margin_high[open_] = np.where(moves_low, m_hi, margin)
+        step += 1
+    return low, high, solved
 
 
 @dataclass(frozen=True, eq=False)
@@ -328,45 +538,36 @@ def feasible_intervals(
     spacing = float(grid[1] - grid[0])
     triples = branch_triples(scene)
     B = len(triples)
-    values = np.broadcast_to(grid, (K, len(grid)))
-    track = _track_origin(scene, T_target) if external.track is not None and axis == 0 else None
-    feasible = _feasible(
-        scene,
-        (
-            _base_poses(scene, T_target, axis, values)
-            if track is None
-            else _translated(*track, values)
-        ).reshape(-1, 4, 4),
-        triples,
+    poses = _AxisPoses(scene, T_target, axis)
+    swept = solve_ik_all(
+        scene.robot,
+        poses.at(np.repeat(np.arange(K), len(grid)), np.tile(grid, K)),
+        T_flange_tool=scene.T_flange_tool,
     )
-    feasible = feasible.reshape(K, len(grid), B)
+    table = _branch_bits(triples)
+    feasible = _reached(swept, table, B).reshape(K, len(grid), B)
     ik_poses = K * len(grid)
     # brackets: (target, gap, branch) where a branch changes between neighbouring samples
     k_idx, gap, b_idx = np.nonzero(feasible[:, :-1] != feasible[:, 1:])
-    low = grid[gap].copy()
-    high = grid[gap + 1].copy()
     low_feasible = feasible[k_idx, gap, b_idx]
     steps = int(np.ceil(np.log2(max(spacing / tol, 1.0)))) if len(gap) else 0
-    for _ in range(steps):
-        mid = 0.5 * (low + high)
-        # one IK pose per distinct (target, value): brackets sharing an end share their mids
-        keys, first, inverse = np.unique(
-            k_idx * 4.0 * (abs(lower) + abs(upper) + 1.0) + mid,
-            return_index=True,
-            return_inverse=True,
+    if steps:
+        limits = _joint_limits(scene)
+        margin_low = _branch_state(swept, k_idx * len(grid) + gap, b_idx, table, limits)[1]
+        margin_high = _branch_state(swept, k_idx * len(grid) + gap + 1, b_idx, table, limits)[1]
+        low, high, solved = _refine_ends(
+            poses,
+            table,
+            limits,
+            (k_idx, b_idx, low_feasible),
+            (grid[gap], grid[gap + 1]),
+            (margin_low, margin_high),
+            tolerance=tol,
+            extra_steps=REFINE_EXTRA_STEPS,
         )
-        ks = k_idx[first]
-        at = mid[first][:, None]
-        T_base = (
-            _base_poses(scene, T_target[ks], axis, at)
-            if track is None
-            else _translated(track[0][ks], track[1], at)
-        )[:, 0]
-        at_mid = _feasible(scene, T_base, triples)[inverse.ravel(), b_idx]
-        ik_poses += len(keys)
-        same = at_mid == low_feasible
-        low = np.where(same, mid, low)
-        high = np.where(same, high, mid)
+        ik_poses += solved
+    else:
+        low, high = grid[gap], grid[gap + 1]
     ends = np.where(low_feasible, low, high)  # the feasible side of each bracket
     # interval starts: a bracket feasible on its high side, or the range's start; stops alike
     first_k, first_b = np.nonzero(feasible[:, 0])
