@@ -49,7 +49,7 @@ import numba as nb
 import numpy as np
 import numpy.typing as npt
 
-from posebridge.arrays import BoolArray, FloatArray, Int8Array, UInt8Array
+from posebridge.arrays import BoolArray, FloatArray, UInt8Array
 from posebridge.cell.model import Branch
 from posebridge.cell.quality import branch_score, evaluate_configurations
 from posebridge.cell.scene import Scene, posed_scene
@@ -182,11 +182,6 @@ def _turned_poses(
     return invert_transform(scene.T_world_base) @ (D @ T_world_target[:, None])
 
 
-def _label_codes(solutions: IkSolutions) -> Int8Array:
-    """``9 (shoulder + 1) + 3 (elbow + 1) + (wrist + 1)`` of every slot, shape (N, M)."""
-    return 9 * solutions.shoulder + 3 * solutions.elbow + solutions.wrist + 13
-
-
 def _branch_bits(triples: list[Triple]) -> UInt8Array:
     """Branches each combination of labels belongs to, as bits, shape (27,).
 
@@ -210,7 +205,8 @@ def _slot_branches(solutions: IkSolutions, table: UInt8Array) -> UInt8Array:
 
     Empty slots and slots outside the limits have no bit set.
     """
-    return table[_label_codes(solutions)] * (solutions.valid & solutions.within_limits)
+    code = 9 * solutions.shoulder + 3 * solutions.elbow + solutions.wrist + 13
+    return table[code] * (solutions.valid & solutions.within_limits)
 
 
 def _reached(solutions: IkSolutions, table: UInt8Array, count: int) -> BoolArray:
@@ -223,20 +219,25 @@ def _reached(solutions: IkSolutions, table: UInt8Array, count: int) -> BoolArray
 
 
 @nb.njit(cache=True)
-def _branch_state_rows(q, valid, within, code, rows, branches, table, lower, upper, out):
+def _branch_state_rows(q, valid, within, labels, rows, branches, table, lower, upper, out):
     """Kernel of :func:`_branch_state`: ``out[i] = (feasible, margin)`` of pair ``i``.
 
-    Slot by slot of pose ``rows[i]``: a slot on branch ``branches[i]`` (bit of
-    ``table[code]``) that reaches the pose counts with its smallest joint margin;
-    one inside the limits makes the pair feasible. ``out`` has shape (D, 2).
+    Slot by slot of pose ``rows[i]``: a slot on branch ``branches[i]`` (its bit in
+    ``table`` at the slot's label code, :func:`_branch_bits`; ``labels`` is
+    (shoulder, elbow, wrist)) that reaches the pose counts with its smallest joint
+    margin; one inside the limits makes the pair feasible. ``out`` has shape (D, 2).
     """
+    shoulder, elbow, wrist = labels
     for i in range(rows.shape[0]):
         r = rows[i]
         bit = branches[i]
         feasible = 0.0
         best = -np.inf
         for m in range(q.shape[1]):
-            if not valid[r, m] or (table[code[r, m]] >> bit) & 1 == 0:
+            if not valid[r, m]:
+                continue
+            code = 9 * shoulder[r, m] + 3 * elbow[r, m] + wrist[r, m] + 13
+            if (table[code] >> bit) & 1 == 0:
                 continue
             if within[r, m]:
                 feasible = 1.0
@@ -269,7 +270,7 @@ def _branch_state(
         solutions.q,
         solutions.valid,
         solutions.within_limits,
-        _label_codes(solutions),
+        (solutions.shoulder, solutions.elbow, solutions.wrist),
         rows,
         branches,
         table,
@@ -370,6 +371,52 @@ def _joint_limits(scene: Scene) -> tuple[FloatArray, FloatArray]:
     )
 
 
+@nb.njit(cache=True)
+def _itp_points(brackets, start_width, most, step, tolerance, out):
+    """Next value of every bracket by the ITP method (Oliveira & Takahashi 2020, algorithm 1).
+
+    ``brackets`` is (low, high, margin_low, margin_high), shapes (D,): interpolate
+    (regula falsi where both margins are finite and of opposite sign, else the
+    middle), truncate towards the middle by ``0.2 width^2 / start_width``, project
+    into the radius ``tolerance / 2 * 2^(most - step) - width / 2`` around the middle,
+    which keeps every bracket within ``most`` steps. Written to ``out`` (D,).
+    """
+    low, high, margin_low, margin_high = brackets
+    for i in range(low.shape[0]):
+        lo = low[i]
+        hi = high[i]
+        width = hi - lo
+        middle = 0.5 * (lo + hi)
+        m_lo = margin_low[i]
+        m_hi = margin_high[i]
+        falsi = middle
+        if np.isfinite(m_lo) and np.isfinite(m_hi) and m_lo * m_hi <= 0.0 and m_lo != m_hi:
+            falsi = (hi * m_lo - lo * m_hi) / (m_lo - m_hi)
+        toward = np.sign(middle - falsi)
+        shift = 0.2 * width * width / start_width[i]
+        truncated = falsi + toward * shift if shift <= abs(middle - falsi) else middle
+        radius = 0.5 * tolerance * 2.0 ** (most[i] - step) - 0.5 * width
+        out[i] = truncated if abs(truncated - middle) <= radius else middle - toward * radius
+
+
+@nb.njit(cache=True)
+def _itp_update(open_, value, feasible, margin, low_feasible, brackets):
+    """Move bracket ``open_[i]``'s end on the side of ``value[open_[i]]``'s feasibility there.
+
+    ``brackets`` is (low, high, margin_low, margin_high), updated in place;
+    ``feasible`` and ``margin`` (D',) are at the values of the open brackets.
+    """
+    low, high, margin_low, margin_high = brackets
+    for n in range(open_.shape[0]):
+        i = open_[n]
+        if feasible[n] == low_feasible[i]:
+            low[i] = value[i]
+            margin_low[i] = margin[n]
+        else:
+            high[i] = value[i]
+            margin_high[i] = margin[n]
+
+
 def _refine_ends(
     poses: _AxisPoses,
     table: UInt8Array,
@@ -423,45 +470,30 @@ def _refine_ends(
     low, high = ends[0].copy(), ends[1].copy()
     margin_low, margin_high = margins[0].copy(), margins[1].copy()
     start_width = high - low
-    half = 0.5 * tolerance
     most = np.ceil(np.log2(np.maximum(start_width / tolerance, 1.0))) + extra_steps
     span = 4.0 * (np.max(np.abs(high), initial=0.0) + np.max(np.abs(low), initial=0.0) + 1.0)
+    value = np.empty(len(low))
     solved = 0
     step = 0
     while True:
         open_ = np.flatnonzero(high - low > tolerance)
         if not len(open_):
             break
-        lo, hi, m_lo, m_hi = low[open_], high[open_], margin_low[open_], margin_high[open_]
-        width = hi - lo
-        middle = 0.5 * (lo + hi)
-        # interpolate: regula falsi where both ends have a margin of opposite sign
-        secant = np.isfinite(m_lo) & np.isfinite(m_hi) & (m_lo * m_hi <= 0.0) & (m_lo != m_hi)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            falsi = np.where(secant, (hi * m_lo - lo * m_hi) / (m_lo - m_hi), middle)
-        # truncate: step towards the middle by 0.2 width^2 / start width
-        toward = np.sign(middle - falsi)
-        shift = 0.2 * width**2 / start_width[open_]
-        truncated = np.where(shift <= np.abs(middle - falsi), falsi + toward * shift, middle)
-        # project: stay close enough to the middle to finish within ``most`` steps
-        radius = half * 2.0 ** (most[open_] - step) - 0.5 * width
-        value = np.where(np.abs(truncated - middle) <= radius, truncated, middle - toward * radius)
+        _itp_points((low, high, margin_low, margin_high), start_width, most, step, tolerance, value)
         # one IK pose per distinct (target, value)
         keys, first, inverse = np.unique(
-            targets[open_] * span + value, return_index=True, return_inverse=True
+            targets[open_] * span + value[open_], return_index=True, return_inverse=True
         )
         solutions = solve_ik_all(
             scene.robot,
-            poses.at(targets[open_][first], value[first]),
+            poses.at(targets[open_][first], value[open_][first]),
             T_flange_tool=scene.T_flange_tool,
         )
         solved += len(keys)
         feasible, margin = _branch_state(solutions, inverse.ravel(), branches[open_], table, limits)
-        moves_low = feasible == low_feasible[open_]
-        low[open_] = np.where(moves_low, value, lo)
-        high[open_] = np.where(moves_low, hi, value)
-        margin_low[open_] = np.where(moves_low, margin, m_lo)
-        margin_high[open_] = np.where(moves_low, m_hi, margin)
+        _itp_update(
+            open_, value, feasible, margin, low_feasible, (low, high, margin_low, margin_high)
+        )
         step += 1
     return low, high, solved
 
@@ -583,7 +615,7 @@ def feasible_intervals(
         np.concatenate([ends[low_feasible], np.full(len(last_k), upper)]),
     )
     pairs = np.stack([starts[1], stops[1]], axis=1)
-    bounds = np.searchsorted(starts[0], np.arange(K * B + 1))
+    bounds = np.searchsorted(starts[0], np.arange(K * B + 1)).tolist()
     intervals = [
         [pairs[bounds[k * B + b] : bounds[k * B + b + 1]] for b in range(B)] for k in range(K)
     ]
