@@ -304,6 +304,71 @@ def test_intervals_match_a_dense_sweep(demo: Scene, target: int, axis: int) -> N
         assert np.array_equal(inside[~near_end], dense[~near_end, b])
 
 
+def _dense_track(
+    scene: Scene, T_world_target: np.ndarray, values: np.ndarray, *, limits: bool = True
+) -> np.ndarray:
+    """Brute force on the track: every value solved, feasibility per branch, shape (P, S, B).
+
+    The base at track value ``v`` is the scene's base moved by ``(v - v0)`` along the
+    travel direction (a translation, the track's definition), each pose solved there.
+    Without ``limits``, whether the branch reaches the pose at all.
+    """
+    track = scene.external.track
+    assert track is not None
+    moves = np.broadcast_to(np.eye(4), (len(values), 4, 4)).copy()
+    moves[:, :3, 3] = np.outer(values - scene.external.values[0], track.direction)
+    T_base_world = invert_transform(moves @ scene.T_world_base)
+    poses = T_base_world[None] @ T_world_target[:, None]
+    sol = solve_ik_all(scene.robot, poses.reshape(-1, 4, 4), T_flange_tool=scene.T_flange_tool)
+    ok = sol.valid & sol.within_limits if limits else sol.valid
+    out = []
+    for s, e, w in branch_triples(scene):
+        match = ok.copy()
+        for labels, want in ((sol.shoulder, s), (sol.elbow, e), (sol.wrist, w)):
+            match &= (labels == want) | (labels == 0)
+        out.append(np.any(match, axis=1))
+    return np.stack(out, axis=1).reshape(len(T_world_target), len(values), -1)
+
+
+def test_interval_ends_where_a_joint_limit_or_the_reach_decides(demo: Scene) -> None:
+    # poses around the demo's track targets (seeded jitter of 100 mm and 10 deg), so that some
+    # interval ends are set by a joint limit (searched by interpolation) and some by the reach
+    rng = np.random.default_rng(7)
+    rows = [k for k, fixture in enumerate(demo.targets.fixtures) if fixture != "weld-jig"]
+    T = np.repeat(demo.targets.T_world_target[rows], 4, axis=0)
+    T[:, :3, 3] += rng.uniform(-0.1, 0.1, (len(T), 3))
+    turn = Rotation.from_euler("xyz", rng.uniform(-10.0, 10.0, (len(T), 3)), degrees=True)
+    T[:, :3, :3] = T[:, :3, :3] @ turn.as_matrix()
+    found = feasible_intervals(demo, T, 0)
+    values = np.linspace(demo.external.lower[0], demo.external.upper[0], 8001)
+    dense = _dense_track(demo, T, values)
+    slack = 2.0 * found.tolerance
+    limit_ends = reach_ends = 0
+    for k in range(len(T)):
+        for b in range(len(found.branches)):
+            spans = found.intervals[k][b]
+            inside = np.zeros(len(values), dtype=bool)
+            near_end = np.zeros(len(values), dtype=bool)
+            for start, stop in spans:
+                inside |= (values >= start) & (values <= stop)
+                near_end |= (np.abs(values - start) < slack) | (np.abs(values - stop) < slack)
+            # brute force: every dense value agrees except within the stated accuracy of an end
+            assert np.array_equal(inside[~near_end], dense[k, ~near_end, b])
+            # the reported ends are the feasible side: each is within limits on its branch
+            ends = spans.ravel()
+            if ends.size:
+                assert _dense_track(demo, T[k : k + 1], ends)[0, :, b].all()
+                outside = np.clip(ends + np.tile([-1.0, 1.0], len(spans)) * slack, *values[[0, -1]])
+                beyond = _dense_track(demo, T[k : k + 1], outside)[0, :, b]
+                reached = _dense_track(demo, T[k : k + 1], outside, limits=False)[0, :, b]
+                limit_ends += int(np.sum(~beyond & reached))
+                reach_ends += int(np.sum(~beyond & ~reached))
+    # the case has both kinds of end: a joint limit (the branch still reaches the pose just
+    # beyond it, searched by interpolation) and the reach (it does not, searched by bisection)
+    assert limit_ends > 0
+    assert reach_ends > 0
+
+
 def test_pinned_value_is_kept_and_the_unreachable_targets_need_the_axes(demo: Scene) -> None:
     # demo notes: mill-vise only with the track moved, seam-back only with the table turned
     at_home = {
