@@ -17,10 +17,11 @@ pose within the robot's joint limits is a union of intervals. It is found by
    infeasible, until the bracket is at most ``tolerance`` wide (0.1 mm for the
    track, 0.01 deg for a table): the ITP method (:func:`_refine_ends`), which
    interpolates the branch's joint-limit margin where a joint limit decides
-   and bisects where the branch leaves its reach, never taking more steps than
-   bisection; brackets of all targets and branches are solved together, one IK
-   batch per step, a value shared by several brackets solved once. The
-   reported end is the feasible side of the bracket.
+   and extrapolates the closing of its two elbow solutions where the reach
+   decides, never taking more steps than bisection; brackets of all targets
+   and branches are solved together, one IK batch per step, a value shared by
+   several brackets solved once. The reported end is the feasible side of the
+   bracket.
 
 The sweep cannot see an interval or a gap narrower than the sample spacing
 (range / (samples - 1); by default at most 500 mm on a track, 20 deg on a table); the tests compare with a dense brute-force sweep.
@@ -219,20 +220,27 @@ def _reached(solutions: IkSolutions, table: UInt8Array, count: int) -> BoolArray
 
 
 @nb.njit(cache=True)
-def _branch_state_rows(q, valid, within, labels, rows, branches, table, lower, upper, out):
-    """Kernel of :func:`_branch_state`: ``out[i] = (feasible, margin)`` of pair ``i``.
+def _branch_state_rows(q, valid, within, labels, rows, branches, table, limits, pairing, out):
+    """Kernel of :func:`_branch_state`: ``out[i] = (feasible, margin, fold)`` of pair ``i``.
 
     Slot by slot of pose ``rows[i]``: a slot on branch ``branches[i]`` (its bit in
     ``table`` at the slot's label code, :func:`_branch_bits`; ``labels`` is
     (shoulder, elbow, wrist)) that reaches the pose counts with its smallest joint
-    margin; one inside the limits makes the pair feasible. ``out`` has shape (D, 2).
+    margin; one inside the limits makes the pair feasible. The fold is the smallest
+    ``((q_e - q'_e) / 2)^2`` (difference wrapped to one turn) between such a slot and
+    a slot of the elbow partner branch (``pairing`` is (elbow joint e, partner branch
+    per branch, -1 for none)). ``out`` has shape (D, 3); NaN where undefined.
     """
     shoulder, elbow, wrist = labels
+    lower, upper = limits
+    joint, partner = pairing
     for i in range(rows.shape[0]):
         r = rows[i]
         bit = branches[i]
+        other = partner[bit]
         feasible = 0.0
         best = -np.inf
+        fold = np.inf
         for m in range(q.shape[1]):
             if not valid[r, m]:
                 continue
@@ -245,8 +253,19 @@ def _branch_state_rows(q, valid, within, labels, rows, branches, table, lower, u
             for j in range(q.shape[2]):
                 smallest = min(smallest, q[r, m, j] - lower[j], upper[j] - q[r, m, j])
             best = max(best, smallest)
+            if other < 0:
+                continue
+            for n in range(q.shape[1]):
+                if n == m or not valid[r, n]:
+                    continue
+                code = 9 * shoulder[r, n] + 3 * elbow[r, n] + wrist[r, n] + 13
+                if (table[code] >> other) & 1 == 1:
+                    turn = q[r, m, joint] - q[r, n, joint]
+                    turn -= 2.0 * np.pi * np.round(turn / (2.0 * np.pi))
+                    fold = min(fold, 0.25 * turn * turn)
         out[i, 0] = feasible
         out[i, 1] = best if best > -np.inf else np.nan
+        out[i, 2] = fold if fold < np.inf else np.nan
 
 
 def _branch_state(
@@ -255,17 +274,22 @@ def _branch_state(
     branches: npt.NDArray[np.intp],
     table: UInt8Array,
     limits: tuple[FloatArray, FloatArray],
-) -> tuple[BoolArray, FloatArray]:
-    """Feasibility and limit margin of branch ``branches[i]`` at pose ``rows[i]``, shapes (D,).
+    pairing: tuple[int, npt.NDArray[np.intp]],
+) -> tuple[BoolArray, FloatArray, FloatArray]:
+    """Feasibility, limit margin and fold of branch ``branches[i]`` at pose ``rows[i]``, (D,).
 
     The margin is the largest, over the branch's solutions that reach the pose, of
     the smallest signed distance of a joint to its limits (m or rad, negative
     outside); NaN when the branch does not reach the pose at all. It is continuous
     in the external value while the branch's solution exists, and at least zero
-    exactly where the branch is feasible (the joint limits decide), which is what
+    exactly where the branch is feasible (the joint limits decide). The fold is
+    ``(half the elbow angle between the branch's solution and its elbow partner's)^2``:
+    at the edge of the reach the two elbow solutions meet (stretched or folded
+    elbow), so it falls to zero there, about linearly in the distance to the edge
+    (the half angle goes as its square root). NaN without a partner. Both are what
     :func:`_refine_ends` interpolates.
     """
-    out = np.empty((len(rows), 2))
+    out = np.empty((len(rows), 3))
     _branch_state_rows(
         solutions.q,
         solutions.valid,
@@ -274,11 +298,11 @@ def _branch_state(
         rows,
         branches,
         table,
-        limits[0],
-        limits[1],
+        limits,
+        pairing,
         out,
     )
-    return out[:, 0] == 1.0, out[:, 1]
+    return out[:, 0] == 1.0, out[:, 1], out[:, 2]
 
 
 def solutions_along_axis(
@@ -372,14 +396,20 @@ def _joint_limits(scene: Scene) -> tuple[FloatArray, FloatArray]:
 
 
 @nb.njit(cache=True)
-def _itp_points(brackets, start_width, most, step, tolerance, out):
+def _itp_points(brackets, folds, low_feasible, start_width, most, step, tolerance, out):
     """Next value of every bracket by the ITP method (Oliveira & Takahashi 2020, algorithm 1).
 
-    ``brackets`` is (low, high, margin_low, margin_high), shapes (D,): interpolate
-    (regula falsi where both margins are finite and of opposite sign, else the
-    middle), truncate towards the middle by ``0.2 width^2 / start_width``, project
-    into the radius ``tolerance / 2 * 2^(most - step) - width / 2`` around the middle,
-    which keeps every bracket within ``most`` steps. Written to ``out`` (D,).
+    ``brackets`` is (low, high, margin_low, margin_high), ``folds`` (fold at the
+    feasible end, the previous feasible end and its fold), shapes (D,). Interpolate:
+    regula falsi on the margins where both are finite and of opposite sign (a joint
+    limit ends the interval); where only the feasible end has a margin (the reach
+    ends it), the secant of the fold through the feasible end and the one before it,
+    extended to zero, if that root lies inside; else the middle. Truncate towards the
+    middle by ``0.5 width^2 / start_width`` (the method's kappa1 = 0.5 / start width,
+    kappa2 = 2; on the bench poses 0.5 solved fewest poses of 0.05, 0.2, 0.5, 1, 2),
+    and project into the radius ``tolerance / 2 * 2^(most - step) - width / 2`` around
+    the middle, which keeps every bracket within ``most`` steps (the radius is taken a
+    hair smaller so that rounding cannot cost one more step). Written to ``out`` (D,).
     """
     low, high, margin_low, margin_high = brackets
     for i in range(low.shape[0]):
@@ -392,29 +422,49 @@ def _itp_points(brackets, start_width, most, step, tolerance, out):
         falsi = middle
         if np.isfinite(m_lo) and np.isfinite(m_hi) and m_lo * m_hi <= 0.0 and m_lo != m_hi:
             falsi = (hi * m_lo - lo * m_hi) / (m_lo - m_hi)
+        elif np.isnan(m_lo) != np.isnan(m_hi):
+            fold_end, before_x, before_fold = folds[0][i], folds[1][i], folds[2][i]
+            end = lo if low_feasible[i] else hi
+            if np.isfinite(fold_end) and np.isfinite(before_fold) and fold_end != before_fold:
+                root = end - fold_end * (end - before_x) / (fold_end - before_fold)
+                if lo < root < hi:
+                    falsi = root
         toward = np.sign(middle - falsi)
-        shift = 0.2 * width * width / start_width[i]
+        shift = 0.5 * width * width / start_width[i]
         truncated = falsi + toward * shift if shift <= abs(middle - falsi) else middle
-        radius = 0.5 * tolerance * 2.0 ** (most[i] - step) - 0.5 * width
+        radius = 0.5 * tolerance * (1.0 - 1e-9) * 2.0 ** (most[i] - step) - 0.5 * width
         out[i] = truncated if abs(truncated - middle) <= radius else middle - toward * radius
 
 
 @nb.njit(cache=True)
-def _itp_update(open_, value, feasible, margin, low_feasible, brackets):
+def _itp_update(open_, value, feasible, margin, fold, low_feasible, brackets, folds):
     """Move bracket ``open_[i]``'s end on the side of ``value[open_[i]]``'s feasibility there.
 
-    ``brackets`` is (low, high, margin_low, margin_high), updated in place;
-    ``feasible`` and ``margin`` (D',) are at the values of the open brackets.
+    ``brackets`` and ``folds`` (:func:`_itp_points`) are updated in place;
+    ``feasible``, ``margin`` and ``fold`` (D',) are at the values of the open brackets.
     """
     low, high, margin_low, margin_high = brackets
+    fold_end, before_x, before_fold = folds
     for n in range(open_.shape[0]):
         i = open_[n]
+        if feasible[n]:
+            before_x[i] = low[i] if low_feasible[i] else high[i]
+            before_fold[i] = fold_end[i]
+            fold_end[i] = fold[n]
         if feasible[n] == low_feasible[i]:
             low[i] = value[i]
             margin_low[i] = margin[n]
         else:
             high[i] = value[i]
             margin_high[i] = margin[n]
+
+
+def _elbow_pairing(scene: Scene, triples: list[Triple]) -> tuple[int, npt.NDArray[np.intp]]:
+    """Elbow joint and, per branch, the branch with the other elbow, shape (B,) (-1 for none)."""
+    joint = branch_geometry(scene.robot).elbow_joint
+    index = {t: b for b, t in enumerate(triples)}
+    partner = [index.get((s, -e, w), -1) if e != 0 and joint >= 0 else -1 for s, e, w in triples]
+    return max(joint, 0), np.array(partner, dtype=np.intp)
 
 
 def _refine_ends(
@@ -424,6 +474,8 @@ def _refine_ends(
     brackets: tuple[npt.NDArray[np.intp], npt.NDArray[np.intp], BoolArray],
     ends: tuple[FloatArray, FloatArray],
     margins: tuple[FloatArray, FloatArray],
+    pairing: tuple[int, npt.NDArray[np.intp]],
+    fold_start: FloatArray,
     *,
     tolerance: float,
     extra_steps: int,
@@ -431,17 +483,15 @@ def _refine_ends(
     """Shrink every bracket of a branch change to at most ``tolerance``.
 
     The ITP method (interpolate, truncate, project; Oliveira & Takahashi, ACM TOMS
-    47(1), 2020, algorithm 1 with kappa1 = 0.2 / start width, kappa2 = 2) on the
-    branch's limit margin (:func:`_branch_state`). Where both ends of a bracket have
-    a margin of opposite sign (the branch reaches the pose on both sides and a joint
-    limit decides) the step starts at the regula falsi value; elsewhere (one side
-    out of reach or on another branch) at the middle. The projection keeps every
-    bracket within ``ceil(log2(start width / tolerance)) + extra_steps``
-    evaluations, so with ``extra_steps = 0`` no bracket needs more IK batches than
-    bisection, and one whose margin is smooth needs far fewer. The bracket is always
-    updated from the branch's feasibility (the margin only chooses where to look).
-    Brackets of all targets and branches are solved together, one IK batch per
-    step, a (target, value) shared by several brackets solved once.
+    47(1), 2020, algorithm 1; :func:`_itp_points`) on the branch's limit margin where
+    a joint limit ends the interval, and on its fold (:func:`_branch_state`) where the
+    reach ends it. The projection keeps every bracket within ``ceil(log2(start width
+    / tolerance)) + extra_steps`` evaluations, so with ``extra_steps = 0`` no bracket
+    needs more IK batches than bisection, and one whose margin or fold is smooth needs
+    fewer. The bracket is always updated from the branch's feasibility (margin and
+    fold only choose where to look), so the ends are exact to the tolerance whatever
+    they do. Brackets of all targets and branches are solved together, one IK batch
+    per step, a (target, value) shared by several brackets solved once.
 
     Parameters
     ----------
@@ -453,6 +503,10 @@ def _refine_ends(
         Axis values, m or rad; ``low < high``, the branch's feasibility differs.
     margins : (low, high), arrays of shape (D,)
         Margins at the ends, NaN where the branch does not reach the pose.
+    pairing : (int, array of shape (B,))
+        :func:`_elbow_pairing`.
+    fold_start : array, shape (D,)
+        Folds at the feasible ends.
     tolerance : float
         Largest final bracket, m or rad.
     extra_steps : int
@@ -473,13 +527,23 @@ def _refine_ends(
     most = np.ceil(np.log2(np.maximum(start_width / tolerance, 1.0))) + extra_steps
     span = 4.0 * (np.max(np.abs(high), initial=0.0) + np.max(np.abs(low), initial=0.0) + 1.0)
     value = np.empty(len(low))
+    folds = (fold_start.copy(), np.full(len(low), np.nan), np.full(len(low), np.nan))
     solved = 0
     step = 0
     while True:
         open_ = np.flatnonzero(high - low > tolerance)
         if not len(open_):
             break
-        _itp_points((low, high, margin_low, margin_high), start_width, most, step, tolerance, value)
+        _itp_points(
+            (low, high, margin_low, margin_high),
+            folds,
+            low_feasible,
+            start_width,
+            most,
+            step,
+            tolerance,
+            value,
+        )
         # one IK pose per distinct (target, value)
         keys, first, inverse = np.unique(
             targets[open_] * span + value[open_], return_index=True, return_inverse=True
@@ -490,9 +554,18 @@ def _refine_ends(
             T_flange_tool=scene.T_flange_tool,
         )
         solved += len(keys)
-        feasible, margin = _branch_state(solutions, inverse.ravel(), branches[open_], table, limits)
+        feasible, margin, fold = _branch_state(
+            solutions, inverse.ravel(), branches[open_], table, limits, pairing
+        )
         _itp_update(
-            open_, value, feasible, margin, low_feasible, (low, high, margin_low, margin_high)
+            open_,
+            value,
+            feasible,
+            margin,
+            fold,
+            low_feasible,
+            (low, high, margin_low, margin_high),
+            folds,
         )
         step += 1
     return low, high, solved
@@ -585,8 +658,10 @@ def feasible_intervals(
     steps = int(np.ceil(np.log2(max(spacing / tol, 1.0)))) if len(gap) else 0
     if steps:
         limits = _joint_limits(scene)
-        margin_low = _branch_state(swept, k_idx * len(grid) + gap, b_idx, table, limits)[1]
-        margin_high = _branch_state(swept, k_idx * len(grid) + gap + 1, b_idx, table, limits)[1]
+        pairing = _elbow_pairing(scene, triples)
+        rows = k_idx * len(grid) + gap
+        _, margin_low, fold_low = _branch_state(swept, rows, b_idx, table, limits, pairing)
+        _, margin_high, fold_high = _branch_state(swept, rows + 1, b_idx, table, limits, pairing)
         low, high, solved = _refine_ends(
             poses,
             table,
@@ -594,6 +669,8 @@ def feasible_intervals(
             (k_idx, b_idx, low_feasible),
             (grid[gap], grid[gap + 1]),
             (margin_low, margin_high),
+            pairing,
+            np.where(low_feasible, fold_low, fold_high),
             tolerance=tol,
             extra_steps=REFINE_EXTRA_STEPS,
         )
