@@ -55,7 +55,7 @@ from posebridge.cell.model import Branch
 from posebridge.cell.quality import branch_score, evaluate_configurations
 from posebridge.cell.scene import Scene, posed_scene
 from posebridge.cell.thresholds import QualityThresholds
-from posebridge.kinematics.branches import branch_geometry
+from posebridge.kinematics.branches import BranchGeometry, branch_geometry
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolutions, solve_ik_all
 from posebridge.transforms import invert_transform
@@ -93,7 +93,11 @@ Triple = tuple[int, int, int]
 
 def branch_triples(scene: Scene) -> list[Triple]:
     """Every branch of the robot's label scheme, front/up/positive first."""
-    scheme = branch_geometry(scene.robot).scheme
+    return _scheme_triples(branch_geometry(scene.robot).scheme)
+
+
+def _scheme_triples(scheme: str) -> list[Triple]:
+    """:func:`branch_triples` of a label scheme."""
     if scheme == "arm":
         return [(s, e, w) for s, e, w in product((1, -1), repeat=3)]
     if scheme == "planar":
@@ -346,9 +350,11 @@ def _joint_limits(scene: Scene) -> tuple[FloatArray, FloatArray]:
     )
 
 
-def _elbow_pairing(scene: Scene, triples: list[Triple]) -> tuple[int, npt.NDArray[np.intp]]:
+def _elbow_pairing(
+    geometry: BranchGeometry, triples: list[Triple]
+) -> tuple[int, npt.NDArray[np.intp]]:
     """Elbow joint and, per branch, the branch with the other elbow, shape (B,) (-1 for none)."""
-    joint = branch_geometry(scene.robot).elbow_joint
+    joint = geometry.elbow_joint
     index = {t: b for b, t in enumerate(triples)}
     partner = [index.get((s, -e, w), -1) if e != 0 and joint >= 0 else -1 for s, e, w in triples]
     return max(joint, 0), np.array(partner, dtype=np.intp)
@@ -528,7 +534,8 @@ def feasible_intervals(
         samples = max(9, int(np.ceil((upper - lower) / step)) + 1)
     grid = np.linspace(lower, upper, max(int(samples), 2))
     spacing = float(grid[1] - grid[0])
-    triples = branch_triples(scene)
+    geometry = branch_geometry(scene.robot)
+    triples = _scheme_triples(geometry.scheme)
     B = len(triples)
     poses = _AxisPoses(scene, T_target, axis)
     swept = solve_ik_all(
@@ -545,7 +552,7 @@ def feasible_intervals(
     steps = int(np.ceil(np.log2(max(spacing / tol, 1.0)))) if len(gap) else 0
     if steps:
         limits = _joint_limits(scene)
-        pairing = _elbow_pairing(scene, triples)
+        pairing = _elbow_pairing(geometry, triples)
         rows = k_idx * len(grid) + gap
         _, margin_low, fold_low = _branch_state(swept, rows, b_idx, table, limits, pairing)
         _, margin_high, fold_high = _branch_state(swept, rows + 1, b_idx, table, limits, pairing)
