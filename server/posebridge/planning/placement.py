@@ -890,11 +890,16 @@ def _rail_frames(rail: _Rail, grid: PlacementGrid, start: int, stop: int) -> Flo
     return T
 
 
-def _longest_middle(intervals: FloatArray) -> float:
-    """Middle of the longest interval (the first of equal ones), NaN for none; (I, 2)."""
+def _longest_middle(intervals: FloatArray, tolerance: float) -> float:
+    """Middle of the longest interval (the first of equal ones), NaN for none; (I, 2).
+
+    Lengths within ``2 * tolerance`` (each end is known to ``tolerance``) are equal,
+    so mirror-image intervals keep the first whatever their ends' rounding.
+    """
     if intervals.shape[0] == 0:
         return math.nan
-    longest = int(np.argmax(intervals[:, 1] - intervals[:, 0]))
+    lengths = intervals[:, 1] - intervals[:, 0]
+    longest = int(np.argmax(lengths >= np.max(lengths) - 2.0 * tolerance))
     return float(0.5 * (intervals[longest, 0] + intervals[longest, 1]))
 
 
@@ -930,7 +935,7 @@ def _track_positions(problem: _Problem, rail: _Rail, T_rail: FloatArray) -> Floa
             other = found.intervals[c * P + partner[p]] if partner[p] >= 0 else None
             for b, t in enumerate(rail.triple.tolist()):
                 spans = per_branch[t] if other is None else _intersection(per_branch[t], other[t])
-                s[c, p, b] = _longest_middle(spans)
+                s[c, p, b] = _longest_middle(spans, found.tolerance)
                 if other is not None:
                     s[c, partner[p], b] = s[c, p, b]
     return s

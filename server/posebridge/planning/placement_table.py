@@ -338,7 +338,7 @@ def _table_angles(problem: _Problem, table: _Table, shift: FloatArray) -> FloatA
             other = found.intervals[local[partner[p]]] if partner[p] >= 0 else None
             for b, t in enumerate(table.triple.tolist()):
                 spans = per_branch[t] if other is None else _intersection(per_branch[t], other[t])
-                theta[c, p, b] = _longest_middle(spans)
+                theta[c, p, b] = _longest_middle(spans, found.tolerance)
                 if other is not None:
                     theta[c, partner[p], b] = theta[c, p, b]
     return theta
