@@ -33,7 +33,7 @@ function samePose(a, b) {
 
 /**
  * @param {{store: object, actions: object, api: object, linking: object}} options
- * @returns {{loadCell: () => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>, moveRail: (rail: object) => Promise<void>,
+ * @returns {{loadCell: (answer?: Promise<object>) => Promise<void>, reloadCell: () => Promise<void>, moveBase: (edit: object) => Promise<void>, moveRail: (rail: object) => Promise<void>,
  *            moveTable: (table: {name: string, position_mm: number[]}) => Promise<void>,
  *            retrySave: () => void, chooseChain: (links: object) => Promise<void>,
  *            chooseChainEnd: (toLink: string) => Promise<void>}}
@@ -238,10 +238,11 @@ export function createCellSync({ store, actions, api, linking }) {
     applySelection();
   }
 
-  async function loadCell() {
+  /** Load the cell (`answer`: its GET /api/cell answer when already asked for) and its robot. */
+  async function loadCell(answer = api.readCell()) {
     let document;
     try {
-      document = await api.readCell();
+      document = await answer;
     } catch (error) {
       await offerChainChoice(error);
       throw error;

@@ -99,15 +99,21 @@ async function start() {
   // charting script are made when it has loaded (async: it never holds up the
   // page shell) and draw what has arrived meanwhile
   const loading = (async () => {
-    await startReview({ store, api, banner: byId("review-banner"), commentsContainer: byId("comments-panel") });
-    const library = await api.listRobots();
-    store.update({ robots: library.robots });
-    await cellSync.loadCell();
+    // the first three questions go out together (not one after the other); their answers
+    // are used in this order: who is looking, the robot library, the cell
+    const review = startReview({ store, api, banner: byId("review-banner"), commentsContainer: byId("comments-panel") });
+    const library = api.listRobots();
+    const cellAnswer = api.readCell();
+    cellAnswer.catch(() => {}); // its failure is loadCell's to report, after the two before it
+    await review;
+    store.update({ robots: (await library).robots });
+    await cellSync.loadCell(cellAnswer);
   })().catch((error) => actions.setStatus("error", error.message));
   try {
     await plotlyLoaded();
     const drawn = [];
-    drawn.push(createSceneView({ element: byId("scene3d"), store, palette }));
+    const sceneView = createSceneView({ element: byId("scene3d"), store, palette });
+    drawn.push(sceneView);
     drawn.push(createProjectionView({
       element: byId("plan"),
       base: byId("plan-base"),
