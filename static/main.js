@@ -155,6 +155,7 @@ async function start() {
     }));
     drawn.push(createJointSpaceView({
       element: byId("joint-space-3d"),
+      after: sceneView.armDrawn,
       header: byId("map3-joints"),
       note: byId("map3-note"),
       legend: byId("map3-legend"),

@@ -65,10 +65,14 @@ export function voxelGroups(map) {
 
 /**
  * @param {{element: HTMLElement, header: HTMLElement, note: HTMLElement, store: object,
- *          actions: object, palette: object}} options
+ *          actions: object, palette: object, after?: Promise<void>}} options
+ *   after: this view is first drawn one display frame after it resolves (the Cartesian 3D
+ *   view's first arm: both are WebGL figures, the costliest drawings of a page load, and the
+ *   arm is what the user waits for)
  */
-export function createJointSpaceView({ element, header, note, legend, store, actions, palette }) {
+export function createJointSpaceView({ element, header, note, legend, store, actions, palette, after = Promise.resolve() }) {
   let baseKey = null;
+  let waiting = true;
   let dynamicStart = 0;
   const selectors = [0, 1, 2].map((slot) => {
     const label = document.createElement("label");
@@ -143,6 +147,9 @@ export function createJointSpaceView({ element, header, note, legend, store, act
   }
 
   function render() {
+    if (waiting) {
+      return; // drawn when `after` has resolved
+    }
     const state = store.get();
     const { robot, joints, map3Joints } = state;
     if (!robot || !map3Joints || joints.length !== robot.dof) {
@@ -261,6 +268,13 @@ export function createJointSpaceView({ element, header, note, legend, store, act
     render,
     hold: () => store.get().dragging || !kinematicsSettled(store.get()),
   });
+  // a frame later: the drawing that `after` waited for is on the screen before this one starts
+  after.then(() =>
+    requestAnimationFrame(() => {
+      waiting = false;
+      requestRender();
+    }),
+  );
   store.subscribe(requestRender, {
     keys: ["robot", "joints", "fk", "ik", "map3Joints", "jointMap3", "pathCurve", "cellActive", "dragging", "sequence", "cell", "carriage"],
   });

@@ -205,10 +205,16 @@ function cellTraces(scene, palette, meshes) {
 
 /**
  * @param {{element: HTMLElement, store: object, palette: object}} options
+ * @returns {{render: Function, armDrawn: Promise<void>}} armDrawn: resolved once the view has
+ *   drawn the arm for the first time (the page's first answer; other 3D drawing waits for it)
  */
 export function createSceneView({ element, store, palette }) {
   let staticKey = null;
   let dynamicStart = 0;
+  let markArmDrawn = null;
+  const armDrawn = new Promise((resolve) => {
+    markArmDrawn = resolve;
+  });
 
   function staticTraces(state) {
     const { robot, cell, cellActive } = state;
@@ -341,7 +347,7 @@ export function createSceneView({ element, store, palette }) {
       const { data, range } = staticTraces(state);
       dynamicStart = data.length;
       staticKey = key;
-      draw(element, [...data, ...dynamic], layoutFor(state, range));
+      shown(state, draw(element, [...data, ...dynamic], layoutFor(state, range)));
       return;
     }
     // only the moving traces: one restyle, the cell's meshes are left alone
@@ -350,7 +356,14 @@ export function createSceneView({ element, store, palette }) {
     for (const name of ["x", "y", "z", "i", "j", "k", "color", "meta"]) {
       update[name] = dynamic.map((trace) => trace[name]);
     }
-    Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k));
+    shown(state, Plotly.restyle(element, update, dynamic.map((_, k) => dynamicStart + k)));
+  }
+
+  /** A drawing with the arm (forward kinematics in) resolves `armDrawn` once it is done. */
+  function shown(state, drawing) {
+    if (state.fk) {
+      drawing.then(() => markArmDrawn());
+    }
   }
 
   const requestRender = frameScheduler({
@@ -358,5 +371,5 @@ export function createSceneView({ element, store, palette }) {
     hold: () => store.get().dragging || !kinematicsSettled(store.get()),
   });
   store.subscribe(requestRender, { keys: ["robot", "fk", "target", "dragging", "cell", "cellActive", "armState", "meshes", "robotMeshes", "showCapsules"] });
-  return { render };
+  return { render, armDrawn };
 }
