@@ -31,7 +31,8 @@ async def test_plotly_script_is_the_vendored_file_after_the_compile_hint(
     # the npm package's file, unchanged: its SHA-256 as static/vendor/README.md records it
     readme = (STATIC / "vendor" / "README.md").read_text(encoding="utf-8")
     assert hashlib.sha256(rest).hexdigest() in readme
-    assert response.headers["etag"] and response.headers["last-modified"]
+    assert response.headers["etag"]
+    assert response.headers["last-modified"]
 
 
 def _write(folder: Path, name: str, text: str) -> None:
@@ -41,7 +42,9 @@ def _write(folder: Path, name: str, text: str) -> None:
 
 
 def test_page_modules_follows_static_imports_breadth_first(tmp_path: Path) -> None:
-    _write(tmp_path, "main.js", 'import { a } from "./a.js";\nimport {\n  b,\n} from "./views/b.js";\n')
+    _write(
+        tmp_path, "main.js", 'import { a } from "./a.js";\nimport {\n  b,\n} from "./views/b.js";\n'
+    )
     _write(tmp_path, "a.js", 'export { c } from "./c.js";\n// import("./not-a-static-import.js")\n')
     _write(tmp_path, "views/b.js", 'import "../c.js";\nimport { a } from "../a.js";\n')
     _write(tmp_path, "c.js", "export const c = 1;\n")

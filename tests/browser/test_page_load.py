@@ -7,7 +7,6 @@ init script, numbered by the display frame they happen in.
 
 from __future__ import annotations
 
-from collections.abc import Iterator
 from typing import Any
 
 import pytest
@@ -54,7 +53,7 @@ _LOADED = """() => {
 
 
 @pytest.fixture
-def loaded(browser: Any, server_url: str) -> Iterator[dict[str, Any]]:
+def loaded(browser: Any, server_url: str) -> dict[str, Any]:
     """The load log of one page load on the demo cell, once everything is drawn."""
     page = browser.new_page(viewport=VIEWPORT)
     errors: list[str] = []
@@ -65,7 +64,7 @@ def loaded(browser: Any, server_url: str) -> Iterator[dict[str, Any]]:
     log: dict[str, Any] = page.evaluate("() => window.__loadLog")
     page.close()
     assert errors == []
-    yield log
+    return log
 
 
 def test_first_questions_go_out_together(loaded: dict[str, Any]) -> None:
@@ -82,7 +81,8 @@ def test_joint_space_view_is_drawn_after_the_arm(loaded: dict[str, Any]) -> None
     draws = loaded["draws"]
     scene = [d for d in draws if d["figure"] == "scene3d"]
     space = [d for d in draws if d["figure"] == "joint-space-3d"]
-    assert scene and space
+    assert scene
+    assert space
     # our own contract (views/jointspace3d.js): the 3D joint view's first drawing comes in a
     # later display frame than the Cartesian view's first drawing of the arm (the page draws
     # the cell view once the forward kinematics is in, so its first drawing has the arm)
