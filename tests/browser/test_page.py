@@ -272,6 +272,69 @@ def test_nudge_target_with_keyboard(open_page: Any) -> None:
     )
 
 
+# the page's kinematics answers belong to what it shows, and no move is waiting to be saved
+_QUIET = """() => {
+  const s = window.posebridge.getState();
+  return !s.dragging && s.cellSave.state === "saved" && Boolean(s.ik) && s.fkJoints === s.joints &&
+    s.ik.target.position_mm.every((v, k) => v === s.target.position_mm[k]);
+}"""
+
+# the markers for the page's current target are drawn
+_IK_FOR_TARGET = """() => {
+  const s = window.posebridge.getState();
+  return Boolean(s.ik) && s.ik.target.position_mm.every((v, k) => v === s.target.position_mm[k]);
+}"""
+
+_KINEMATICS = ("/api/ik", "/api/fk", "/api/cell/fk")
+
+
+def _requests_of(page: Any, act: Any) -> list[tuple[str, dict[str, Any]]]:
+    """The kinematics requests (path, body) the page sends from ``act()`` until its markers are
+    drawn for the moved target."""
+    sent: list[tuple[str, dict[str, Any]]] = []
+
+    def record(request: Any) -> None:
+        path = request.url.split("?")[0].removeprefix(page.url.rstrip("/"))
+        if request.method == "POST" and path in _KINEMATICS:
+            sent.append((path, request.post_data_json))
+
+    page.on("request", record)
+    act()
+    page.wait_for_function(_IK_FOR_TARGET)
+    page.remove_listener("request", record)
+    return sent
+
+
+def test_nudge_sends_what_a_drag_sends(open_page: Any) -> None:
+    page = open_page.page
+    page.wait_for_function(_QUIET, timeout=120_000)
+    x0, y0 = plan_marker_position(page)
+    page.mouse.move(x0, y0)
+    page.mouse.down()
+    dragged = _requests_of(page, lambda: page.mouse.move(x0 + 6, y0))
+    page.mouse.up()
+    page.wait_for_function(_QUIET, timeout=120_000)
+    before = page.evaluate(STATE)
+    page.focus("#plan")
+    nudged = _requests_of(page, lambda: page.keyboard.press("ArrowRight"))
+    # our own contract (static/actions.js, views/projection.js): a key nudge is one more target
+    # move of a drag: one inverse kinematics request for the moved target, with the same fields
+    # (robot, pose, seed, the cell's base and tool)
+    ik_dragged = [body for path, body in dragged if path == "/api/ik"]
+    ik_nudged = [body for path, body in nudged if path == "/api/ik"]
+    assert len(ik_dragged) == 1
+    assert len(ik_nudged) == 1
+    assert sorted(ik_nudged[0]) == sorted(ik_dragged[0])
+    # one step right along x from where it stood, the rest of the pose kept (the page's key bindings)
+    moved = np.array(ik_nudged[0]["pose"]["position_mm"]) - np.array(
+        before["target"]["position_mm"]
+    )
+    np.testing.assert_allclose(moved, [before["stepMm"], 0.0, 0.0], atol=1e-9)
+    assert ik_nudged[0]["pose"]["rpy_deg"] == before["target"]["rpy_deg"]
+    assert ik_nudged[0]["seed_deg"] == before["joints"]
+    assert open_page.problems.page_errors == []
+
+
 def test_switch_robot(open_page: Any, artifacts: Path) -> None:
     page = open_page.page
     page.select_option("#robot-select", "pb-planar2r")
