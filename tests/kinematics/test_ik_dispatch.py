@@ -70,6 +70,37 @@ def test_solutions_reach_the_targets_with_a_tool(name: str) -> None:
     )
 
 
+@pytest.mark.parametrize("name", ["pb-arm6", "offset", "pb-planar3r"])
+def test_prepared_solve_matches_solve_ik_all(name: str, offset_wrist_arm) -> None:
+    robot = (
+        offset_wrist_arm(np.random.default_rng(3), mounted=True).robot
+        if name == "offset"
+        else load_robot(name)
+    )
+    tool = np.eye(4)
+    tool[:3, 3] = [0.02, -0.01, 0.06]
+    solve = ik_solver(robot).prepare(T_flange_tool=tool)
+    rng = np.random.default_rng(5)
+    for size in (3, 40):  # several batches through one preparation
+        q = rng.uniform(robot.lower, robot.upper, size=(size, robot.dof))
+        targets = fk_tool(robot, q, tool)
+        targets[0, :3, 3] += 10.0  # out of reach: a reason text
+        prepared = solve(targets)
+        # reference: the unprepared solve_ik_all of the same poses, run here
+        plain = solve_ik_all(robot, targets, T_flange_tool=tool)
+        np.testing.assert_array_equal(prepared.q, plain.q)
+        np.testing.assert_array_equal(prepared.valid, plain.valid)
+        np.testing.assert_array_equal(prepared.within_limits, plain.within_limits)
+        assert prepared.reason == plain.reason
+        assert prepared.reason[0] != ""
+        rows, slots = np.nonzero(prepared.valid)
+        assert set(rows.tolist()) == set(range(1, size))
+        # reference: forward kinematics with the same tool
+        np.testing.assert_allclose(
+            fk_tool(robot, prepared.q[rows, slots], tool), targets[rows], atol=1e-8
+        )
+
+
 def test_numeric_fallback_for_the_offset_wrist() -> None:
     robot = load_robot("pb-arm6-offset")
     q = np.array([[0.1, 0.2, -0.3, 0.4, 0.5, 0.6]])

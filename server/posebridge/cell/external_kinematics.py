@@ -43,6 +43,7 @@ none) win (common practice, no source).
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass
 from itertools import product
 
@@ -57,7 +58,8 @@ from posebridge.cell.scene import Scene, posed_scene
 from posebridge.cell.thresholds import QualityThresholds
 from posebridge.kinematics.branches import BranchGeometry, branch_geometry
 from posebridge.kinematics.fk import fk_tool
-from posebridge.kinematics.ik import IkSolutions, solve_ik_all
+from posebridge.kinematics.ik import IkSolutions, ik_solver, solve_ik_all
+from posebridge.kinematics.ik.inputs import check_target_poses
 from posebridge.transforms import invert_transform
 from posebridge.units import m_from_mm, rad_from_deg
 
@@ -361,6 +363,7 @@ def _elbow_pairing(
 
 
 def _refine_ends(
+    solve: Callable[[FloatArray], IkSolutions],
     poses: _AxisPoses,
     table: UInt8Array,
     limits: tuple[FloatArray, FloatArray],
@@ -388,6 +391,8 @@ def _refine_ends(
 
     Parameters
     ----------
+    solve : callable
+        The robot's prepared IK (:meth:`~posebridge.kinematics.ik.IkSolver.prepare`).
     poses : _AxisPoses
     table, limits
         :func:`_branch_bits`, :func:`_joint_limits`.
@@ -412,7 +417,6 @@ def _refine_ends(
     solved : int
         Poses solved.
     """
-    scene = poses.scene
     targets, branches, low_feasible = brackets
     low, high = ends[0].copy(), ends[1].copy()
     margin_low, margin_high = margins[0].copy(), margins[1].copy()
@@ -441,11 +445,7 @@ def _refine_ends(
         keys, first, inverse = np.unique(
             targets[open_] * span + value[open_], return_index=True, return_inverse=True
         )
-        solutions = solve_ik_all(
-            scene.robot,
-            poses.at(targets[open_][first], value[open_][first]),
-            T_flange_tool=scene.T_flange_tool,
-        )
+        solutions = solve(poses.at(targets[open_][first], value[open_][first]))
         solved += len(keys)
         feasible, margin, fold = _branch_state(
             solutions, inverse.ravel(), branches[open_], table, limits, pairing
@@ -526,7 +526,7 @@ def feasible_intervals(
         if tolerance is None
         else tolerance
     )
-    T_target = np.asarray(T_world_target, dtype=np.float64).reshape(-1, 4, 4)
+    T_target = check_target_poses(np.reshape(T_world_target, (-1, 4, 4)))
     K = len(T_target)
     lower, upper = float(external.lower[axis]), float(external.upper[axis])
     if samples is None:
@@ -538,11 +538,9 @@ def feasible_intervals(
     triples = _scheme_triples(geometry.scheme)
     B = len(triples)
     poses = _AxisPoses(scene, T_target, axis)
-    swept = solve_ik_all(
-        scene.robot,
-        poses.at(np.repeat(np.arange(K), len(grid)), np.tile(grid, K)),
-        T_flange_tool=scene.T_flange_tool,
-    )
+    # the targets are checked once; the axis only moves them rigidly
+    solve = ik_solver(scene.robot).prepare(T_flange_tool=scene.T_flange_tool)
+    swept = solve(poses.at(np.repeat(np.arange(K), len(grid)), np.tile(grid, K)))
     table = _branch_bits(triples)
     feasible = _reached(swept, table, B).reshape(K, len(grid), B)
     ik_poses = K * len(grid)
@@ -557,6 +555,7 @@ def feasible_intervals(
         _, margin_low, fold_low = _branch_state(swept, rows, b_idx, table, limits, pairing)
         _, margin_high, fold_high = _branch_state(swept, rows + 1, b_idx, table, limits, pairing)
         low, high, solved = _refine_ends(
+            solve,
             poses,
             table,
             limits,

@@ -29,6 +29,7 @@ from __future__ import annotations
 import weakref
 from collections.abc import Callable
 from dataclasses import dataclass
+from functools import partial
 from typing import TypedDict
 
 import numpy.typing as npt
@@ -36,9 +37,13 @@ import numpy.typing as npt
 from posebridge.kinematics.ik.analytic.gantry import GantryGeometry, solve_gantry
 from posebridge.kinematics.ik.analytic.offset_wrist import (
     OffsetWristGeometry,
+    offset_wrist_solver,
     solve_offset_wrist,
 )
-from posebridge.kinematics.ik.analytic.ortho_parallel import solve_ortho_parallel
+from posebridge.kinematics.ik.analytic.ortho_parallel import (
+    ortho_parallel_solver,
+    solve_ortho_parallel,
+)
 from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.analytic.planar import PlanarGeometry, solve_planar
 from posebridge.kinematics.ik.analytic.scara import ScaraGeometry
@@ -46,6 +51,7 @@ from posebridge.kinematics.ik.inputs import check_positive
 from posebridge.kinematics.ik.numeric import solve_ik_numeric
 from posebridge.kinematics.ik.solutions import IkSolutions
 from posebridge.robot.model import Robot
+from posebridge.units import FloatArray
 
 __all__ = ["IkSolver", "ik_solver", "solve_ik_all"]
 
@@ -122,6 +128,43 @@ class IkSolver:
             position_tolerance_m=tolerance,
             orientation_tolerance_rad=orientation,
             **common,
+        )
+
+    def prepare(
+        self,
+        *,
+        T_flange_tool: npt.ArrayLike | None = None,
+        position_tolerance_m: float = 1e-6,
+        orientation_tolerance_rad: float = 1e-6,
+    ) -> Callable[[FloatArray], IkSolutions]:
+        """Return a solve of many batches with one tool, without seed or revolution variants.
+
+        The tool, tolerances, kernel parameters and joint table are checked and
+        prepared once (:class:`~posebridge.kinematics.ik.finishing.BlockSolver` for the
+        six-axis closed forms); the returned function takes poses already checked by
+        :func:`~posebridge.kinematics.ik.inputs.check_target_poses`, shape (N, 4, 4),
+        and returns what :meth:`solve` returns for them.
+        """
+        tolerance = check_positive(position_tolerance_m, "position_tolerance_m")
+        orientation = check_positive(orientation_tolerance_rad, "orientation_tolerance_rad")
+        robot, geometry = self.robot, self.geometry
+        if isinstance(geometry, OrthoParallelGeometry):
+            return ortho_parallel_solver(
+                robot, geometry, T_flange_tool=T_flange_tool, position_tolerance_m=tolerance
+            ).solve
+        if isinstance(geometry, OffsetWristGeometry):
+            return offset_wrist_solver(
+                robot,
+                geometry,
+                T_flange_tool=T_flange_tool,
+                position_tolerance_m=tolerance,
+                orientation_tolerance_rad=orientation,
+            ).solve
+        return partial(
+            self.solve,
+            T_flange_tool=T_flange_tool,
+            position_tolerance_m=tolerance,
+            orientation_tolerance_rad=orientation,
         )
 
 

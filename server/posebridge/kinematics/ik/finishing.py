@@ -32,6 +32,7 @@ comparable (a time-like measure; common practice, no source).
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
+from dataclasses import dataclass
 
 import numba as nb
 import numpy as np
@@ -61,6 +62,7 @@ __all__ = [
     "JOINT_PRISMATIC",
     "JOINT_REVOLUTE",
     "JOINT_REVOLUTE_ONE_REVOLUTION",
+    "BlockSolver",
     "FinishInputs",
     "KernelOutputs",
     "block_count",
@@ -77,7 +79,6 @@ __all__ = [
     "run_blocks",
     "slots_per_candidate",
     "solutions_from_outputs",
-    "solve_in_blocks",
 ]
 
 FinishInputs = tuple[FloatArray, bool, FloatArray, bool]
@@ -403,30 +404,61 @@ def run_blocks(
         block_kernel(start, min(N, start + BLOCK_SIZE), *args)
 
 
-def solve_in_blocks(
-    robot: Robot,
-    block_kernel: Callable[..., None],
-    parallel_kernel: Callable[..., None],
-    problem: tuple[object, ...],
-    *,
-    candidates: int,
-    seed: npt.ArrayLike | None,
-    all_revolutions: bool,
-    method: str,
-) -> IkSolutions:
-    """Solve ``problem``'s poses with a family's block kernels and collect the result.
+@dataclass(frozen=True, eq=False)
+class BlockSolver:
+    """A family's block kernels with the inputs that do not depend on the poses.
 
-    ``problem[0]`` holds the N target poses; each pose has ``candidates``
-    raw candidates (M0). The kernels (:func:`run_blocks`) get ``problem``,
-    :func:`finish_inputs` and :func:`empty_outputs` with ``M = M0 *``
-    :func:`slots_per_candidate` slots; their reason codes become the texts of
-    :func:`~posebridge.kinematics.ik.solutions.reasons_from_codes`.
+    Prepared once per robot and tool (tool transform, kernel parameters, joint
+    table), it solves any number of pose batches (:meth:`solve`).
+
+    Attributes
+    ----------
+    robot : Robot
+    block_kernel, parallel_kernel : callable
+        :func:`run_blocks`'s kernels.
+    constants : tuple
+        The family's problem after the poses (``problem[1:]`` of its kernels).
+    candidates : int
+        Raw candidates per pose (M0).
+    method : str
+    joints : array, shape (n, 4)
+        :func:`joint_table`.
     """
-    N = len(problem[0])  # type: ignore[arg-type]
-    out = empty_outputs(N, candidates * slots_per_candidate(robot, all_revolutions), robot.dof)
-    finish = finish_inputs(robot, seed, N, all_revolutions)
-    run_blocks(block_kernel, parallel_kernel, N, problem, finish, out)
-    return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=method)
+
+    robot: Robot
+    block_kernel: Callable[..., None]
+    parallel_kernel: Callable[..., None]
+    constants: tuple[object, ...]
+    candidates: int
+    method: str
+    joints: FloatArray
+
+    def solve(
+        self, T: FloatArray, *, seed: npt.ArrayLike | None = None, all_revolutions: bool = False
+    ) -> IkSolutions:
+        """Solve poses ``T`` (N, 4, 4), already checked by :func:`~posebridge.kinematics.ik.inputs.check_target_poses`.
+
+        The kernels (:func:`run_blocks`) get ``(T, *constants)``, the
+        :func:`finish_inputs` and :func:`empty_outputs` with ``M = M0 *``
+        :func:`slots_per_candidate` slots; their reason codes become the texts of
+        :func:`~posebridge.kinematics.ik.solutions.reasons_from_codes`.
+        """
+        robot = self.robot
+        N = len(T)
+        out = empty_outputs(
+            N, self.candidates * slots_per_candidate(robot, all_revolutions), robot.dof
+        )
+        seed_array, has_seed = check_seed(robot, seed, N)
+        finish = (seed_array, has_seed, self.joints, bool(all_revolutions))
+        run_blocks(
+            self.block_kernel,
+            self.parallel_kernel,
+            N,
+            (np.ascontiguousarray(T), *self.constants),
+            finish,
+            out,
+        )
+        return solutions_from_outputs(robot, out, reasons_from_codes(out[7]), method=self.method)
 
 
 def finish_inputs(

@@ -110,11 +110,12 @@ from posebridge.kinematics.ik.analytic.extraction import (
 )
 from posebridge.kinematics.ik.analytic.ortho_parallel import atan2_many
 from posebridge.kinematics.ik.finishing import (
+    BlockSolver,
     block_count,
     block_rows,
     empty_candidates,
     finish_rows,
-    solve_in_blocks,
+    joint_table,
 )
 from posebridge.kinematics.ik.inputs import check_target_poses
 from posebridge.kinematics.ik.solutions import IkSolutions
@@ -126,7 +127,7 @@ from posebridge.transforms import (
 )
 from posebridge.units import FloatArray
 
-__all__ = ["METHOD", "OffsetWristGeometry", "solve_offset_wrist"]
+__all__ = ["METHOD", "OffsetWristGeometry", "offset_wrist_solver", "solve_offset_wrist"]
 
 METHOD = "analytic: offset wrist, joints 2-4 parallel"
 
@@ -650,6 +651,33 @@ def _kernel_parameters(geometry: OffsetWristGeometry, G: FloatArray) -> FloatArr
     )
 
 
+def offset_wrist_solver(
+    robot: Robot,
+    geometry: OffsetWristGeometry,
+    *,
+    T_flange_tool: npt.ArrayLike | None = None,
+    position_tolerance_m: float = 1e-6,
+    orientation_tolerance_rad: float = 1e-6,
+) -> BlockSolver:
+    """Prepare the kernels of :func:`solve_offset_wrist` for one tool: parameters computed once."""
+    G = np.ascontiguousarray(
+        invert_transform(geometry.T_end_link @ tool_tail(robot, T_flange_tool))
+    )
+    Hi = np.ascontiguousarray(invert_transform(geometry.T_base_canonical)[:3])
+    constants = (
+        Hi,
+        G,
+        _kernel_parameters(geometry, G),
+        geometry.signs,
+        geometry.offsets,
+        float(position_tolerance_m),
+        float(orientation_tolerance_rad),
+    )
+    return BlockSolver(
+        robot, _solve_block, _solve_parallel, constants, 8, METHOD, joint_table(robot)
+    )
+
+
 def solve_offset_wrist(
     robot: Robot,
     geometry: OffsetWristGeometry,
@@ -690,27 +718,11 @@ def solve_offset_wrist(
         ``M = 8`` slots per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
-    G = np.ascontiguousarray(
-        invert_transform(geometry.T_end_link @ tool_tail(robot, T_flange_tool))
-    )
-    Hi = np.ascontiguousarray(invert_transform(geometry.T_base_canonical)[:3])
-    problem = (
-        T,
-        Hi,
-        G,
-        _kernel_parameters(geometry, G),
-        geometry.signs,
-        geometry.offsets,
-        float(position_tolerance_m),
-        float(orientation_tolerance_rad),
-    )
-    return solve_in_blocks(
+    solver = offset_wrist_solver(
         robot,
-        _solve_block,
-        _solve_parallel,
-        problem,
-        candidates=8,
-        seed=seed,
-        all_revolutions=all_revolutions,
-        method=METHOD,
+        geometry,
+        T_flange_tool=T_flange_tool,
+        position_tolerance_m=position_tolerance_m,
+        orientation_tolerance_rad=orientation_tolerance_rad,
     )
+    return solver.solve(T, seed=seed, all_revolutions=all_revolutions)

@@ -58,11 +58,12 @@ from posebridge.kinematics.branches import (
 from posebridge.kinematics.fk import tool_tail
 from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.finishing import (
+    BlockSolver,
     block_count,
     block_rows,
     empty_candidates,
     finish_rows,
-    solve_in_blocks,
+    joint_table,
 )
 from posebridge.kinematics.ik.inputs import check_target_poses
 from posebridge.kinematics.ik.solutions import IkSolutions
@@ -70,7 +71,7 @@ from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform
 from posebridge.units import FloatArray
 
-__all__ = ["METHOD", "atan2_many", "solve_ortho_parallel"]
+__all__ = ["METHOD", "atan2_many", "ortho_parallel_solver", "solve_ortho_parallel"]
 
 METHOD = "analytic: ortho-parallel, Brandstötter et al. 2014"
 
@@ -416,6 +417,30 @@ def _kernel_parameters(geometry: OrthoParallelGeometry, G: FloatArray) -> FloatA
     )
 
 
+def ortho_parallel_solver(
+    robot: Robot,
+    geometry: OrthoParallelGeometry,
+    *,
+    T_flange_tool: npt.ArrayLike | None = None,
+    position_tolerance_m: float = 1e-6,
+) -> BlockSolver:
+    """Prepare the kernels of :func:`solve_ortho_parallel` for one tool: parameters computed once."""
+    T_flange = invert_transform(robot.T_link_flange) @ tool_tail(robot, T_flange_tool)
+    F = np.eye(4)
+    F[:3, :3] = geometry.R_end_flange
+    G = np.ascontiguousarray(invert_transform(F @ T_flange))
+    constants = (
+        G,
+        _kernel_parameters(geometry, G),
+        geometry.signs,
+        geometry.offsets,
+        float(position_tolerance_m),
+    )
+    return BlockSolver(
+        robot, _solve_block, _solve_parallel, constants, 8, METHOD, joint_table(robot)
+    )
+
+
 def solve_ortho_parallel(
     robot: Robot,
     geometry: OrthoParallelGeometry,
@@ -453,25 +478,7 @@ def solve_ortho_parallel(
         ``M = 8`` slots per pose (times the revolution variants with ``all_revolutions``).
     """
     T = check_target_poses(T_base_tool)
-    T_flange = invert_transform(robot.T_link_flange) @ tool_tail(robot, T_flange_tool)
-    F = np.eye(4)
-    F[:3, :3] = geometry.R_end_flange
-    G = np.ascontiguousarray(invert_transform(F @ T_flange))
-    problem = (
-        T,
-        G,
-        _kernel_parameters(geometry, G),
-        geometry.signs,
-        geometry.offsets,
-        float(position_tolerance_m),
+    solver = ortho_parallel_solver(
+        robot, geometry, T_flange_tool=T_flange_tool, position_tolerance_m=position_tolerance_m
     )
-    return solve_in_blocks(
-        robot,
-        _solve_block,
-        _solve_parallel,
-        problem,
-        candidates=8,
-        seed=seed,
-        all_revolutions=all_revolutions,
-        method=METHOD,
-    )
+    return solver.solve(T, seed=seed, all_revolutions=all_revolutions)
