@@ -7,10 +7,17 @@ Poses: the target and approach poses of ``robots/demo-track-cell.json`` that are
 turntable, each jittered (seeded) by up to 100 mm and 10 deg into 50 poses (20 quick). The
 baseline is :func:`~posebridge.cell.external_kinematics.feasible_intervals` with 1000 samples
 and no bisection (tolerance = spacing), the same IK batch path.
+
+``ik_external_axis_ratio_vs_sweep`` is the ratio as the functions run: the dense sweep's
+200,000 poses take the parallel IK driver on every numba thread, ours (batches under
+2048 poses) the serial one. ``ik_external_axis_ratio_vs_sweep_one_thread`` is the same
+ratio with both runs on one numba thread (``numba.set_num_threads(1)`` around both, the
+thread count restored after): the work ratio per core.
 """
 
 from __future__ import annotations
 
+import numba
 import numpy as np
 
 from posebridge.bench.timing import best_seconds
@@ -26,7 +33,7 @@ DENSE_SAMPLES = 1000
 
 
 def bench_external_axis(quick: bool) -> dict[str, float]:
-    """``ik_external_axis_intervals_per_s`` and ``ik_external_axis_ratio_vs_sweep``."""
+    """Intervals per second and the ratios to the dense sweep (module docstring)."""
     path = data_folder("robots") / "demo-track-cell.json"
     scene = resolve_scene(load_cell(path), path)
     rows = [k for k in range(len(scene.targets.names)) if moving_axes(scene, k) == [0]]
@@ -41,12 +48,24 @@ def bench_external_axis(quick: bool) -> dict[str, float]:
     poses[:, :3, :3] = poses[:, :3, :3] @ jitter
     spacing = (scene.external.upper[0] - scene.external.lower[0]) / (DENSE_SAMPLES - 1)
     repeats = 1 if quick else 3
-    ours = best_seconds(lambda: feasible_intervals(scene, poses, 0), repeats=repeats)
-    sweep = best_seconds(
-        lambda: feasible_intervals(scene, poses, 0, samples=DENSE_SAMPLES, tolerance=spacing),
-        repeats=repeats,
-    )
+
+    def ours() -> object:
+        return feasible_intervals(scene, poses, 0)
+
+    def sweep() -> object:
+        return feasible_intervals(scene, poses, 0, samples=DENSE_SAMPLES, tolerance=spacing)
+
+    ours_s = best_seconds(ours, repeats=repeats)
+    sweep_s = best_seconds(sweep, repeats=repeats)
+    threads = numba.get_num_threads()
+    numba.set_num_threads(1)
+    try:
+        ours_one_s = best_seconds(ours, repeats=repeats)
+        sweep_one_s = best_seconds(sweep, repeats=repeats)
+    finally:
+        numba.set_num_threads(threads)
     return {
-        "ik_external_axis_intervals_per_s": len(poses) / ours,
-        "ik_external_axis_ratio_vs_sweep": sweep / ours,
+        "ik_external_axis_intervals_per_s": len(poses) / ours_s,
+        "ik_external_axis_ratio_vs_sweep": sweep_s / ours_s,
+        "ik_external_axis_ratio_vs_sweep_one_thread": sweep_one_s / ours_one_s,
     }
