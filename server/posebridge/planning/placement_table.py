@@ -84,7 +84,7 @@ from posebridge.planning.placement import (
     _ranked_rows,
 )
 from posebridge.transforms import invert_transform
-from posebridge.units import BoolArray, FloatArray, mm_from_m, rad_from_deg
+from posebridge.units import BoolArray, FloatArray, rad_from_deg
 
 __all__ = [
     "TABLE_CHUNK_CANDIDATES",
@@ -168,11 +168,11 @@ def table_grid(
     if count < 1:
         raise PlanningInputError("count: expected an integer >= 1")
     axis = table_axis(scene, table)
-    point = scene.external.turntables[axis - scene.external.table_offset].point
+    position_mm = scene.cell.turntables[axis - scene.external.table_offset].position_mm
     offsets = np.linspace(-half_width_mm, half_width_mm, count) if count > 1 else np.zeros(1)
     grid = PlacementGrid.from_user(
-        float(mm_from_m(point[0])) + offsets if x_mm is None else x_mm,
-        float(mm_from_m(point[1])) + offsets if y_mm is None else y_mm,
+        position_mm[0] + offsets if x_mm is None else x_mm,
+        position_mm[1] + offsets if y_mm is None else y_mm,
         [scene.cell.base.rpy_deg[2]],
         [scene.cell.base.pedestal_height_mm],
     )
