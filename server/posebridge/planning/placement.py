@@ -923,22 +923,51 @@ def _track_positions(problem: _Problem, rail: _Rail, T_rail: FloatArray) -> Floa
     C, P = T_rail.shape[0], problem.T_world_pose.shape[0]
     moved = rail.T_world_rail @ invert_transform(T_rail)[:, None] @ problem.T_world_pose[None]
     found = feasible_intervals(rail.scene, moved.reshape(-1, 4, 4), 0, samples=rail.samples)
-    partner = np.full(P, -1, dtype=np.int64)
+    poses = np.arange(P)
+    return np.stack(
+        [
+            _chosen_axis_values(
+                problem, poses, found.intervals[c * P : (c + 1) * P], rail.triple, found.tolerance
+            )
+            for c in range(C)
+        ]
+    ).reshape(C, P, BRANCHES.shape[0])
+
+
+def _chosen_axis_values(
+    problem: _Problem,
+    poses: npt.NDArray[np.int64],
+    intervals: Sequence[Sequence[FloatArray]],
+    triple: npt.NDArray[np.int64],
+    tolerance: float,
+) -> FloatArray:
+    """External axis value of each pose of ``poses`` on every branch, shape (Q, 8).
+
+    The middle of the longest feasible interval (:func:`_longest_middle`); a target and
+    its approach pose share one value, in the intersection of their intervals (module
+    docstring). ``intervals[i]`` are the per-branch intervals of ``poses[i]`` (the
+    branch list of :func:`posebridge.cell.external_kinematics.feasible_intervals`),
+    ``triple`` maps each row of :data:`BRANCHES` to it. NaN where the branch reaches
+    the pose at no value.
+    """
+    local = {p: i for i, p in enumerate(poses.tolist())}
+    partner = np.full(problem.T_world_pose.shape[0], -1, dtype=np.int64)
     has = problem.approach_pose >= 0
     partner[problem.target_pose[has]] = problem.approach_pose[has]
-    follower = np.zeros(P, dtype=bool)
-    follower[problem.approach_pose[has]] = True
-    s = np.full((C, P, BRANCHES.shape[0]), np.nan)
-    for c in range(C):
-        for p in np.flatnonzero(~follower).tolist():
-            per_branch = found.intervals[c * P + p]
-            other = found.intervals[c * P + partner[p]] if partner[p] >= 0 else None
-            for b, t in enumerate(rail.triple.tolist()):
-                spans = per_branch[t] if other is None else _intersection(per_branch[t], other[t])
-                s[c, p, b] = _longest_middle(spans, found.tolerance)
-                if other is not None:
-                    s[c, partner[p], b] = s[c, p, b]
-    return s
+    followers = set(problem.approach_pose[has].tolist())
+    out = np.full((len(poses), BRANCHES.shape[0]), np.nan)
+    for i, p in enumerate(poses.tolist()):
+        if p in followers:
+            continue
+        j = local.get(int(partner[p]))
+        for b, t in enumerate(triple.tolist()):
+            spans = (
+                intervals[i][t] if j is None else _intersection(intervals[i][t], intervals[j][t])
+            )
+            out[i, b] = _longest_middle(spans, tolerance)
+            if j is not None:
+                out[j, b] = out[i, b]
+    return out
 
 
 def _rail_chunk(

@@ -72,12 +72,11 @@ from posebridge.planning.placement import (
     _AxisMoves,
     _branch_rows,
     _check_search_arguments,
+    _chosen_axis_values,
     _chunk_scores,
     _free_and_clear,
     _grid_scores,
     _GridScores,
-    _intersection,
-    _longest_middle,
     _own_scenes,
     _Problem,
     _problem,
@@ -319,13 +318,6 @@ def _table_angles(problem: _Problem, table: _Table, shift: FloatArray) -> FloatA
     rows = np.flatnonzero(table.carried)
     if rows.size == 0:
         return theta
-    local = np.full(P, -1, dtype=np.int64)
-    local[rows] = np.arange(rows.size)
-    has = problem.approach_pose >= 0
-    partner = np.full(P, -1, dtype=np.int64)
-    partner[problem.target_pose[has]] = problem.approach_pose[has]
-    follower = np.zeros(P, dtype=bool)
-    follower[problem.approach_pose[has]] = True
     for c in range(C):
         T_move = np.eye(4)
         T_move[:3, 3] = -shift[c]
@@ -333,14 +325,9 @@ def _table_angles(problem: _Problem, table: _Table, shift: FloatArray) -> FloatA
         found = feasible_intervals(
             moved, problem.T_world_pose[rows], table.axis, samples=table.samples
         )
-        for p in rows[~follower[rows]].tolist():
-            per_branch = found.intervals[local[p]]
-            other = found.intervals[local[partner[p]]] if partner[p] >= 0 else None
-            for b, t in enumerate(table.triple.tolist()):
-                spans = per_branch[t] if other is None else _intersection(per_branch[t], other[t])
-                theta[c, p, b] = _longest_middle(spans, found.tolerance)
-                if other is not None:
-                    theta[c, partner[p], b] = theta[c, p, b]
+        theta[c, rows] = _chosen_axis_values(
+            problem, rows, found.intervals, table.triple, found.tolerance
+        )
     return theta
 
 
