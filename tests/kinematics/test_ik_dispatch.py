@@ -101,6 +101,25 @@ def test_prepared_solve_matches_solve_ik_all(name: str, offset_wrist_arm) -> Non
         )
 
 
+def test_preparation_is_kept_per_tool() -> None:
+    robot = load_robot("pb-arm6")
+    tool = np.eye(4)
+    tool[:3, 3] = [0.02, -0.01, 0.06]
+    solve = ik_solver(robot).prepare(T_flange_tool=tool)
+    assert ik_solver(robot).prepare(T_flange_tool=tool.copy()) is solve
+    assert ik_solver(robot).prepare(T_flange_tool=tool.tolist()) is solve
+    other = tool.copy()
+    other[2, 3] = 0.1
+    moved = ik_solver(robot).prepare(T_flange_tool=other)
+    assert moved is not solve
+    q = np.random.default_rng(8).uniform(robot.lower, robot.upper, size=(20, robot.dof))
+    targets = fk_tool(robot, q, other)
+    # reference: the unprepared solve_ik_all with the second tool, run here
+    np.testing.assert_array_equal(
+        moved(targets).q, solve_ik_all(robot, targets, T_flange_tool=other).q
+    )
+
+
 def test_numeric_fallback_for_the_offset_wrist() -> None:
     robot = load_robot("pb-arm6-offset")
     q = np.array([[0.1, 0.2, -0.3, 0.4, 0.5, 0.6]])

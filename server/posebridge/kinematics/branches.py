@@ -53,6 +53,7 @@ line) and :data:`LABEL_TOLERANCE_RAD` (wrist bend from straight).
 
 from __future__ import annotations
 
+import weakref
 from dataclasses import dataclass
 
 import numba as nb
@@ -369,6 +370,11 @@ def arm_plane_points(
     return ArmPlanePoints(plane(s), plane(e), plane(w), plane(wp))
 
 
+_GEOMETRIES: weakref.WeakKeyDictionary[Robot, BranchGeometry] = weakref.WeakKeyDictionary()
+"""Branch geometry per robot object. Robots are immutable, so it is worked out (one
+forward kinematics at the zero configuration) once and kept while the robot lives."""
+
+
 def branch_geometry(robot: Robot) -> BranchGeometry:
     """Label scheme, joints and direction signs of a robot's branch labels.
 
@@ -376,7 +382,17 @@ def branch_geometry(robot: Robot) -> BranchGeometry:
     the first use the ``"arm"`` scheme; arms whose first two joints are
     revolute with parallel axes the ``"planar"`` scheme; all others ``"none"``.
     The signs are fixed at the all-zero configuration (module docstring).
+    Worked out once per robot object.
     """
+    geometry = _GEOMETRIES.get(robot)
+    if geometry is None:
+        geometry = _branch_geometry(robot)
+        _GEOMETRIES[robot] = geometry
+    return geometry
+
+
+def _branch_geometry(robot: Robot) -> BranchGeometry:
+    """:func:`branch_geometry`, worked out."""
     n = robot.dof
     if n < 2 or robot.prismatic[0] or robot.prismatic[1]:
         return BranchGeometry("none")

@@ -28,10 +28,11 @@ from __future__ import annotations
 
 import weakref
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import partial
 from typing import TypedDict
 
+import numpy as np
 import numpy.typing as npt
 
 from posebridge.kinematics.ik.analytic.gantry import GantryGeometry, solve_gantry
@@ -85,6 +86,10 @@ class IkSolver:
     robot: Robot
     family: str
     geometry: Geometry | None
+    _prepared: dict[tuple[object, ...], Callable[[FloatArray], IkSolutions]] = field(
+        default_factory=dict, repr=False
+    )
+    """:meth:`prepare`'s answers by tool and tolerances."""
 
     def solve(
         self,
@@ -143,10 +148,27 @@ class IkSolver:
         prepared once (:class:`~posebridge.kinematics.ik.finishing.BlockSolver` for the
         six-axis closed forms); the returned function takes poses already checked by
         :func:`~posebridge.kinematics.ik.inputs.check_target_poses`, shape (N, 4, 4),
-        and returns what :meth:`solve` returns for them.
+        and returns what :meth:`solve` returns for them. Kept per tool and
+        tolerances, so a second call with the same ones costs nothing.
         """
         tolerance = check_positive(position_tolerance_m, "position_tolerance_m")
         orientation = check_positive(orientation_tolerance_rad, "orientation_tolerance_rad")
+        tool = None if T_flange_tool is None else np.asarray(T_flange_tool)
+        key = (
+            None if tool is None else (tool.dtype.str, tool.shape, tool.tobytes()),
+            tolerance,
+            orientation,
+        )
+        prepared = self._prepared.get(key)
+        if prepared is None:
+            prepared = self._prepare(T_flange_tool, tolerance, orientation)
+            self._prepared[key] = prepared
+        return prepared
+
+    def _prepare(
+        self, T_flange_tool: npt.ArrayLike | None, tolerance: float, orientation: float
+    ) -> Callable[[FloatArray], IkSolutions]:
+        """:meth:`prepare`, worked out."""
         robot, geometry = self.robot, self.geometry
         if isinstance(geometry, OrthoParallelGeometry):
             return ortho_parallel_solver(
