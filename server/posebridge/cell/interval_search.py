@@ -1,11 +1,19 @@
 """Numba kernels of the interval-end search of :mod:`posebridge.cell.external_kinematics`.
 
 Per (pose, branch) pair the branch's feasibility, joint-limit margin and elbow fold
-(:func:`branch_state_rows`), and per bracket the next value of the ITP method
-(interpolate, truncate, project; Oliveira & Takahashi, ACM TOMS 47(1), 2020,
-algorithm 1; :func:`itp_points`) and the bracket update (:func:`itp_update`). Kept
+(:func:`branch_state_rows`), and per step of the search the next value of every open
+bracket by the ITP method (interpolate, truncate, project; Oliveira & Takahashi, ACM
+TOMS 47(1), 2020, algorithm 1) with the distinct (target, value) pairs to solve
+(:func:`itp_values`), then the bracket update from the solved poses
+(:func:`itp_settle`). One search step is these two calls around one IK batch. Kept
 apart from the cell layer's other modules so that the kernel cache key
 (:mod:`posebridge.kernel_cache`) depends on numpy and numba only.
+
+The brackets' state is one array ``state`` of shape (7, D), rows :data:`LOW`,
+:data:`HIGH` (the bracket, axis values), :data:`MARGIN_LOW`, :data:`MARGIN_HIGH`
+(the branch's limit margin at its ends, NaN where the branch does not reach the
+pose), :data:`FOLD_END` (the fold at the feasible end), :data:`BEFORE_X` and
+:data:`BEFORE_FOLD` (the feasible end before it and its fold, NaN for none).
 """
 
 from __future__ import annotations
@@ -13,7 +21,62 @@ from __future__ import annotations
 import numba as nb
 import numpy as np
 
-__all__ = ["branch_state_rows", "itp_points", "itp_update"]
+__all__ = [
+    "BEFORE_FOLD",
+    "BEFORE_X",
+    "FOLD_END",
+    "HIGH",
+    "LOW",
+    "MARGIN_HIGH",
+    "MARGIN_LOW",
+    "branch_state_rows",
+    "itp_settle",
+    "itp_values",
+]
+
+LOW, HIGH, MARGIN_LOW, MARGIN_HIGH, FOLD_END, BEFORE_X, BEFORE_FOLD = range(7)
+
+
+@nb.njit(cache=True)
+def _branch_state(q, valid, within, labels, r, bit, table, limits, pairing, with_fold):
+    """``(feasible, margin, fold)`` of branch ``bit`` at pose ``r`` (:func:`branch_state_rows`).
+
+    The fold is NaN unless ``with_fold``.
+    """
+    shoulder, elbow, wrist = labels
+    lower, upper = limits
+    joint, partner = pairing
+    other = partner[bit]
+    feasible = 0.0
+    best = -np.inf
+    fold = np.inf
+    for m in range(q.shape[1]):
+        if not valid[r, m]:
+            continue
+        code = 9 * shoulder[r, m] + 3 * elbow[r, m] + wrist[r, m] + 13
+        if (table[code] >> bit) & 1 == 0:
+            continue
+        if within[r, m]:
+            feasible = 1.0
+        smallest = np.inf
+        for j in range(q.shape[2]):
+            smallest = min(smallest, q[r, m, j] - lower[j], upper[j] - q[r, m, j])
+        best = max(best, smallest)
+        if other < 0 or not with_fold:
+            continue
+        for n in range(q.shape[1]):
+            if n == m or not valid[r, n]:
+                continue
+            code = 9 * shoulder[r, n] + 3 * elbow[r, n] + wrist[r, n] + 13
+            if (table[code] >> other) & 1 == 1:
+                turn = q[r, m, joint] - q[r, n, joint]
+                turn -= 2.0 * np.pi * np.round(turn / (2.0 * np.pi))
+                fold = min(fold, 0.25 * turn * turn)
+    return (
+        feasible,
+        best if best > -np.inf else np.nan,
+        fold if fold < np.inf else np.nan,
+    )
 
 
 @nb.njit(cache=True)
@@ -30,102 +93,150 @@ def branch_state_rows(q, valid, within, labels, rows, branches, table, limits, p
     a slot of the elbow partner branch (``pairing`` is (elbow joint e, partner branch
     per branch, -1 for none)). ``out`` has shape (D, 3); NaN where undefined.
     """
-    shoulder, elbow, wrist = labels
-    lower, upper = limits
-    joint, partner = pairing
     for i in range(rows.shape[0]):
-        r = rows[i]
-        bit = branches[i]
-        other = partner[bit]
-        feasible = 0.0
-        best = -np.inf
-        fold = np.inf
-        for m in range(q.shape[1]):
-            if not valid[r, m]:
-                continue
-            code = 9 * shoulder[r, m] + 3 * elbow[r, m] + wrist[r, m] + 13
-            if (table[code] >> bit) & 1 == 0:
-                continue
-            if within[r, m]:
-                feasible = 1.0
-            smallest = np.inf
-            for j in range(q.shape[2]):
-                smallest = min(smallest, q[r, m, j] - lower[j], upper[j] - q[r, m, j])
-            best = max(best, smallest)
-            if other < 0:
-                continue
-            for n in range(q.shape[1]):
-                if n == m or not valid[r, n]:
-                    continue
-                code = 9 * shoulder[r, n] + 3 * elbow[r, n] + wrist[r, n] + 13
-                if (table[code] >> other) & 1 == 1:
-                    turn = q[r, m, joint] - q[r, n, joint]
-                    turn -= 2.0 * np.pi * np.round(turn / (2.0 * np.pi))
-                    fold = min(fold, 0.25 * turn * turn)
+        feasible, margin, fold = _branch_state(
+            q, valid, within, labels, rows[i], branches[i], table, limits, pairing, True
+        )
         out[i, 0] = feasible
-        out[i, 1] = best if best > -np.inf else np.nan
-        out[i, 2] = fold if fold < np.inf else np.nan
+        out[i, 1] = margin
+        out[i, 2] = fold
 
 
 @nb.njit(cache=True)
-def itp_points(brackets, folds, low_feasible, start_width, most, step, tolerance, out):
-    """Next value of every bracket by the ITP method (Oliveira & Takahashi 2020, algorithm 1).
+def _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa):
+    """Next value of bracket ``i`` by the ITP method (Oliveira & Takahashi 2020, algorithm 1).
 
-    ``brackets`` is (low, high, margin_low, margin_high), ``folds`` (fold at the
-    feasible end, the previous feasible end and its fold), shapes (D,). Interpolate:
-    regula falsi on the margins where both are finite and of opposite sign (a joint
-    limit ends the interval); where only the feasible end has a margin (the reach
-    ends it), the secant of the fold through the feasible end and the one before it,
-    extended to zero, if that root lies inside; else the middle. Truncate towards the
-    middle by ``0.5 width^2 / start_width`` (the method's kappa1 = 0.5 / start width,
-    kappa2 = 2; on the bench poses 0.5 solved fewest poses of 0.05, 0.2, 0.5, 1, 2),
-    and project into the radius ``tolerance / 2 * 2^(most - step) - width / 2`` around
-    the middle, which keeps every bracket within ``most`` steps (the radius is taken a
-    hair smaller so that rounding cannot cost one more step). Written to ``out`` (D,).
+    Interpolate: regula falsi on the margins where both are finite and of opposite
+    sign (a joint limit ends the interval); where only the feasible end has a margin
+    (the reach ends it), the secant of the fold through the feasible end and the one
+    before it, extended to zero, if that root lies inside; else the middle. Truncate
+    towards the middle by ``kappa width^2 / start_width`` (the method's kappa1 = kappa /
+    start width, kappa2 = 2), but by at least half the tolerance, so that a value at an
+    accurate estimate of the end and the bracket's end on its far side are at most
+    one tolerance apart (the smallest step of Brent's zero finder, Brent 1973,
+    *Algorithms for Minimization without Derivatives*, ch. 4). Project into the radius
+    ``tolerance / 2 * 2^(most - step) - width / 2`` around the middle, which keeps
+    every bracket within ``most`` steps (the radius is taken a hair smaller so that
+    rounding cannot cost one more step).
     """
-    low, high, margin_low, margin_high = brackets
-    for i in range(low.shape[0]):
-        lo = low[i]
-        hi = high[i]
-        width = hi - lo
-        middle = 0.5 * (lo + hi)
-        m_lo = margin_low[i]
-        m_hi = margin_high[i]
-        falsi = middle
-        if np.isfinite(m_lo) and np.isfinite(m_hi) and m_lo * m_hi <= 0.0 and m_lo != m_hi:
-            falsi = (hi * m_lo - lo * m_hi) / (m_lo - m_hi)
-        elif np.isnan(m_lo) != np.isnan(m_hi):
-            fold_end, before_x, before_fold = folds[0][i], folds[1][i], folds[2][i]
-            end = lo if low_feasible[i] else hi
-            if np.isfinite(fold_end) and np.isfinite(before_fold) and fold_end != before_fold:
-                root = end - fold_end * (end - before_x) / (fold_end - before_fold)
-                if lo < root < hi:
-                    falsi = root
-        toward = np.sign(middle - falsi)
-        shift = 0.5 * width * width / start_width[i]
-        truncated = falsi + toward * shift if shift <= abs(middle - falsi) else middle
-        radius = 0.5 * tolerance * (1.0 - 1e-9) * 2.0 ** (most[i] - step) - 0.5 * width
-        out[i] = truncated if abs(truncated - middle) <= radius else middle - toward * radius
+    lo = state[LOW, i]
+    hi = state[HIGH, i]
+    width = hi - lo
+    middle = 0.5 * (lo + hi)
+    m_lo = state[MARGIN_LOW, i]
+    m_hi = state[MARGIN_HIGH, i]
+    falsi = middle
+    if np.isfinite(m_lo) and np.isfinite(m_hi) and m_lo * m_hi <= 0.0 and m_lo != m_hi:
+        falsi = (hi * m_lo - lo * m_hi) / (m_lo - m_hi)
+    elif np.isnan(m_lo) != np.isnan(m_hi):
+        fold_end, before_x, before_fold = (
+            state[FOLD_END, i],
+            state[BEFORE_X, i],
+            state[BEFORE_FOLD, i],
+        )
+        end = lo if low_feasible[i] else hi
+        if np.isfinite(fold_end) and np.isfinite(before_fold) and fold_end != before_fold:
+            root = end - fold_end * (end - before_x) / (fold_end - before_fold)
+            if lo < root < hi:
+                falsi = root
+    toward = np.sign(middle - falsi)
+    shift = max(kappa * width * width / start_width[i], 0.5 * tolerance * (1.0 - 1e-9))
+    truncated = falsi + toward * shift if shift <= abs(middle - falsi) else middle
+    radius = 0.5 * tolerance * (1.0 - 1e-9) * 2.0 ** (most[i] - step) - 0.5 * width
+    return truncated if abs(truncated - middle) <= radius else middle - toward * radius
 
 
 @nb.njit(cache=True)
-def itp_update(open_, value, feasible, margin, fold, low_feasible, brackets, folds):
-    """Move bracket ``open_[i]``'s end on the side of ``value[open_[i]]``'s feasibility there.
+def itp_values(
+    open_,
+    targets,
+    state,
+    low_feasible,
+    start_width,
+    most,
+    step,
+    tolerance,
+    kappa,
+    value,
+    pairs,
+    slot,
+):
+    """Next value of every open bracket, and the distinct (target, value) pairs to solve.
 
-    ``brackets`` and ``folds`` (:func:`itp_points`) are updated in place;
-    ``feasible``, ``margin`` and ``fold`` (D',) are at the values of the open brackets.
+    ``value[i]`` (D,) becomes the ITP value (:func:`_itp_value`, truncation ``kappa``) of bracket
+    ``i = open_[n]``; ``pairs`` (pair targets (D,) int, pair values (D,)) gets the
+    distinct pairs (target, value) in its first entries, ``slot[n]`` the entry of
+    bracket ``open_[n]``'s pair. A pair
+    is compared with the earlier pairs of the same target while ``targets[open_]``
+    stays equal, so brackets sorted by target share every equal value (unsorted
+    ones may solve a value twice). Returns the number of distinct pairs.
     """
-    low, high, margin_low, margin_high = brackets
-    fold_end, before_x, before_fold = folds
+    pair_targets, pair_values = pairs
+    count = 0
     for n in range(open_.shape[0]):
         i = open_[n]
-        if feasible[n]:
-            before_x[i] = low[i] if low_feasible[i] else high[i]
-            before_fold[i] = fold_end[i]
-            fold_end[i] = fold[n]
-        if feasible[n] == low_feasible[i]:
-            low[i] = value[i]
-            margin_low[i] = margin[n]
+        v = _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa)
+        value[i] = v
+        t = targets[i]
+        found = -1
+        u = count - 1
+        while u >= 0 and pair_targets[u] == t:
+            if pair_values[u] == v:
+                found = u
+                break
+            u -= 1
+        if found < 0:
+            pair_targets[count] = t
+            pair_values[count] = v
+            found = count
+            count += 1
+        slot[n] = found
+    return count
+
+
+@nb.njit(cache=True)
+def itp_settle(
+    open_, slot, solutions, branches, table, limits, pairing, low_feasible, value, state, tolerance
+):
+    """Move each open bracket's end on the side of its value's feasibility; return the brackets still open.
+
+    ``solutions`` is (q, valid, within, labels) of the solved pairs (:func:`itp_values`);
+    bracket ``open_[n]``'s branch state (:func:`branch_state_rows`) is read at pose
+    ``slot[n]``. A feasible value becomes the feasible end (the old one and its fold
+    move to :data:`BEFORE_X`, :data:`BEFORE_FOLD`). Returns the brackets of ``open_``
+    wider than ``tolerance`` after the update.
+    """
+    q, valid, within, labels = solutions
+    still = np.empty(open_.shape[0], dtype=open_.dtype)
+    count = 0
+    for n in range(open_.shape[0]):
+        i = open_[n]
+        # the fold is kept at a new feasible end, and used while the other end has no margin
+        infeasible_margin = state[MARGIN_HIGH, i] if low_feasible[i] else state[MARGIN_LOW, i]
+        feasible, margin, fold = _branch_state(
+            q,
+            valid,
+            within,
+            labels,
+            slot[n],
+            branches[i],
+            table,
+            limits,
+            pairing,
+            np.isnan(infeasible_margin),
+        )
+        is_feasible = feasible == 1.0
+        if is_feasible:
+            state[BEFORE_X, i] = state[LOW, i] if low_feasible[i] else state[HIGH, i]
+            state[BEFORE_FOLD, i] = state[FOLD_END, i]
+            state[FOLD_END, i] = fold
+        if is_feasible == low_feasible[i]:
+            state[LOW, i] = value[i]
+            state[MARGIN_LOW, i] = margin
         else:
-            high[i] = value[i]
-            margin_high[i] = margin[n]
+            state[HIGH, i] = value[i]
+            state[MARGIN_HIGH, i] = margin
+        if state[HIGH, i] - state[LOW, i] > tolerance:
+            still[count] = i
+            count += 1
+    return still[:count]
