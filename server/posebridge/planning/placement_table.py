@@ -5,8 +5,9 @@ moves one turntable (:func:`table_axis`: the one the user names, else the first
 that carries a target) so that its axis point is at world ``(x, y)``, its height
 and axis direction kept. The fixtures it carries, their children, their targets
 and the table's plate move with it; every other fixture (a stand under the table
-included) stays. With ``delta`` the move, a carried pose at table angle
-``theta`` is
+included) stays (the cell file edit that applies a candidate:
+:func:`posebridge.cell.turntable_move.cell_with_turntable_at`). With ``delta``
+the move, a carried pose at table angle ``theta`` is
 
     T_world_pose(theta) = Trans(delta) D_p0(theta - theta_0) T_world_pose
 
