@@ -1,4 +1,4 @@
-"""The server's cell: read it, replace it, move a target, fixture, pose waypoint or the base.
+"""The server's cell: read it, replace it, move a target, fixture, pose waypoint, turntable or the base.
 
 Draw a mesh fixture, upload a mesh file as a new fixture.
 
@@ -37,6 +37,7 @@ from posebridge.api.schemas.cells import (
     ChainEndEdit,
     FixtureEdit,
     TargetEdit,
+    TurntableEdit,
     WaypointEdit,
     WaypointJointsEdit,
     cell_document,
@@ -46,6 +47,7 @@ from posebridge.api.schemas.meshes import MAX_UPLOAD_BYTES, MeshDrawing, MeshUpl
 from posebridge.cell.files import CellConflictError, CellSaveError, SaveFailure
 from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, MeshFixture, Pose, Target
 from posebridge.cell.scene import Scene
+from posebridge.cell.turntable_move import cell_with_turntable_at
 from posebridge.geometry.mesh_display import decimate_for_display, split_triangle_budget
 from posebridge.planning.sequence_report import with_waypoint_joints
 from posebridge.results.sequence import WaypointJoints
@@ -304,6 +306,29 @@ def move_fixture(
         return cell.model_copy(update={"fixtures": fixtures})
 
     return _saved(lambda: cells.edit(change, expected), robots, response)
+
+
+@router.patch("/turntables/{name}", summary="Move a turntable", responses=_CHANGE_ERRORS)
+def move_turntable(
+    name: Name,
+    edit: TurntableEdit,
+    cells: CellsDep,
+    robots: RobotsDep,
+    response: Response,
+    if_match: IfMatch,
+) -> CellDocument:
+    """Set a new axis point of one turntable; what it carries moves by the same step.
+
+    Its fixtures (the listed ones and their children) and their targets move rigidly with it,
+    a fixture whose parent stays behind by the step in that parent's frame: the edit a table
+    placement candidate (``table.position_mm``) was scored at.
+    """
+    expected = _expected_etag(if_match)
+    current = cells.read()
+    index_of_named("turntable", [table.name for table in current.cell.turntables], name)
+    # made from the version read; another version than If-Match's is 412 before it is kept
+    edited = cell_with_turntable_at(current.scene, name, edit.position_mm)
+    return _saved(lambda: cells.edit(lambda _: edited, expected), robots, response)
 
 
 def _pose_waypoint_index(cell: Cell, name: str, index: int) -> tuple[int, int]:

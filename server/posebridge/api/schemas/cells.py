@@ -35,6 +35,7 @@ __all__ = [
     "TargetDrawing",
     "TargetEdit",
     "ToolDrawing",
+    "TurntableEdit",
     "WaypointDrawing",
     "WaypointEdit",
     "WaypointJointsEdit",
@@ -286,6 +287,17 @@ class FixtureEdit(BaseModel):
         default="parent",
         description="Frame of the given pose: the fixture's parent (the world without one) "
         "or the world.",
+    )
+
+
+class TurntableEdit(BaseModel):
+    """Move a turntable: its new axis point in the world; what it carries moves by the same step."""
+
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    position_mm: Position = Field(
+        description="Top centre of the plate (on the axis) in the world, e.g. a table placement "
+        "candidate's table.position_mm."
     )
 
 
