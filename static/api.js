@@ -115,6 +115,8 @@ export function createApiClient({ baseUrl = "" } = {}) {
     moveWaypoint: (path, index, body, etag) =>
       request(`/api/cell/paths/${encodeURIComponent(path)}/waypoints/${index}`, { method: "PATCH", body, ifMatch: etag }),
     moveBase: (body, etag) => request("/api/cell/base", { method: "PATCH", body, ifMatch: etag }),
+    moveTurntable: (name, body, etag) =>
+      request(`/api/cell/turntables/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
     meshDrawing: (name, maxTriangles = null) =>
       request(`/api/cell/meshes/${encodeURIComponent(name)}${maxTriangles ? `?max_triangles=${maxTriangles}` : ""}`),
     uploadMesh: (body, etag) => request("/api/cell/meshes", { method: "POST", body, ifMatch: etag }),

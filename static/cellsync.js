@@ -303,8 +303,9 @@ export function createCellSync({ store, actions, api, linking }) {
 
   /**
    * Move the turntable called `table.name` to `table.position_mm` (a table placement
-   * candidate): its fixtures that hang from the world move by the same step (their children
-   * and targets follow them); saved at once, nothing is sent on a reviewer's page.
+   * candidate): the server moves what it carries by the same step, as the search did (its
+   * fixtures, their children and targets; a fixture whose parent stays by the step in that
+   * parent's frame); saved at once, nothing is sent on a reviewer's page.
    */
   async function moveTable(table) {
     const { cell, readOnly } = store.get();
@@ -313,18 +314,11 @@ export function createCellSync({ store, actions, api, linking }) {
       return;
     }
     const tables = cell && cell.cell.turntables ? cell.cell.turntables : [];
-    const current = tables.find((t) => t.name === table.name);
-    if (!current) {
+    if (!tables.some((t) => t.name === table.name)) {
       return;
     }
-    const step = table.position_mm.map((value, i) => value - current.position_mm[i]);
-    const carried = new Set(current.fixtures);
-    const fixtures = cell.cell.fixtures.map((fixture) =>
-      carried.has(fixture.name) && !fixture.parent ? { ...fixture, position_mm: fixture.position_mm.map((value, i) => value + step[i]) } : fixture,
-    );
-    const turntables = tables.map((t) => (t === current ? { ...t, position_mm: [...table.position_mm] } : t));
     try {
-      const document = await api.replaceCell({ ...cell.cell, turntables, fixtures }, cell.etag);
+      const document = await api.moveTurntable(table.name, { position_mm: [...table.position_mm] }, cell.etag);
       store.update({ cell: document, cellSave: { state: "saved", message: `Saved the position of ${table.name}` } });
     } catch (error) {
       actions.setStatus("error", `Moving the table: ${error.message}`);

@@ -22,10 +22,10 @@ TRACK_DEMO = data_folder("robots") / "demo-track-cell.json"
 STATE = "() => window.posebridge.getState()"
 
 
-def _show_track_cell(open_page: Any) -> None:
+def _show_track_cell(open_page: Any, demo: dict[str, Any] | None = None) -> None:
     api = open_page.base_url.rstrip("/")
     etag = httpx.get(api + "/api/cell", timeout=120).json()["etag"]
-    demo = json.loads(TRACK_DEMO.read_text())
+    demo = json.loads(TRACK_DEMO.read_text()) if demo is None else demo
     response = httpx.put(api + "/api/cell", json=demo, headers={"If-Match": etag}, timeout=60)
     assert response.status_code == 200, response.text
     open_page.page.reload()
@@ -280,9 +280,38 @@ def test_rail_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
     assert open_page.problems.console_errors == []
 
 
+def _with_parented_table_frames(demo: dict[str, Any]) -> dict[str, Any]:
+    """The demo with frames (no geometry, so the search is unchanged) that table-1 carries:
+    one hanging from a rotated stand frame beside the table that stays, and a child of the
+    weld jig listed on the table as well."""
+    fixtures = [
+        *demo["fixtures"],
+        {
+            "name": "stand",
+            "shape": "frame",
+            "position_mm": [2600.0, -1300.0, 300.0],
+            "rpy_deg": [0.0, 10.0, 40.0],
+        },
+        {
+            "name": "clip-holder",
+            "shape": "frame",
+            "parent": "stand",
+            "position_mm": [-400.0, 150.0, 500.0],
+        },
+        {
+            "name": "seam-clip",
+            "shape": "frame",
+            "parent": "weld-jig",
+            "position_mm": [100.0, 0.0, 150.0],
+        },
+    ]
+    tables = [{**demo["turntables"][0], "fixtures": ["weld-jig", "clip-holder", "seam-clip"]}]
+    return {**demo, "fixtures": fixtures, "turntables": tables}
+
+
 def test_table_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
     page = open_page.page
-    _show_track_cell(open_page)
+    _show_track_cell(open_page, _with_parented_table_frames(json.loads(TRACK_DEMO.read_text())))
     page.select_option("#place-search", "table")
     page.fill("#place-width", "300")
     page.fill("#place-count", "3")
@@ -320,17 +349,35 @@ def test_table_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
     assert "table angles" in page.inner_text("#place-candidates li:nth-child(1)") or (
         placement["best"][0]["table"]["angle_span_deg"] is None
     )
-    # applying the best candidate moves the table and the jig it carries by the same step
+    # applying the best candidate moves the table and everything it carries by the same step
     best = placement["best"][0]
-    step = best["table"]["move_mm"]
+    step = np.array(best["table"]["move_mm"])
+    assert np.linalg.norm(step) > 0.0
+    world = {f["name"]: f["position_mm"] for f in page.evaluate(STATE)["cell"]["scene"]["fixtures"]}
+    etag = page.evaluate(STATE)["cell"]["etag"]
     with page.expect_response(
-        lambda r: r.request.method == "PUT" and r.url.endswith("/api/cell"), timeout=120_000
+        lambda r: r.request.method == "PATCH" and r.url.endswith("/api/cell/turntables/table-1"),
+        timeout=120_000,
     ) as moved:
         page.click("#place-candidates li:nth-child(1)")
     assert moved.value.status == 200
-    saved = moved.value.json()["cell"]
+    page.wait_for_function(  # the page shows the saved cell
+        "(etag) => { const s = window.posebridge.getState();"
+        " return s.cell.etag !== etag && s.cellSave && s.cellSave.state === 'saved'; }",
+        arg=etag,
+        timeout=120_000,
+    )
+    shown = page.evaluate(STATE)["cell"]
+    assert shown["etag"] == moved.value.json()["etag"]
+    saved = shown["cell"]
     assert saved["turntables"][0]["position_mm"] == pytest.approx(best["table"]["position_mm"])
     jig = next(f for f in saved["fixtures"] if f["name"] == "weld-jig")
     # demo-track-cell.json: the weld jig at (2000, -1300, 850) mm
     assert jig["position_mm"] == pytest.approx([2000.0 + step[0], -1300.0 + step[1], 850.0])
+    # closed form: a rigid translation of what the table carries by the step (the rotated
+    # stand's child and the jig's child included, each once); the stand stays
+    after = {f["name"]: f["position_mm"] for f in shown["scene"]["fixtures"]}
+    for name in ("weld-jig", "clip-holder", "seam-clip"):
+        assert after[name] == pytest.approx(np.array(world[name]) + step, abs=1e-3), name
+    assert after["stand"] == pytest.approx(world["stand"])
     assert open_page.problems.console_errors == []
