@@ -251,6 +251,23 @@ async def test_move_target_reviewer_forbidden(
     assert _digest(cell_file) == before
 
 
+async def test_move_turntable_reviewer_forbidden(
+    shared_app: FastAPI, token: str, cell_file: Path, clients: ClientFactory
+) -> None:
+    before = _digest(cell_file)
+    reviewer = clients(shared_app, headers=_bearer(token))
+    etag = (await reviewer.get("/api/cell")).json()["etag"]
+    # refused before the route runs, whether or not the cell has that table
+    response = await reviewer.patch(
+        "/api/cell/turntables/table-1",
+        json={"position_mm": [0.0, 0.0, 0.0]},
+        headers={"If-Match": etag},
+    )
+    assert response.status_code == 403
+    assert response.json() == {"detail": _read_only("PATCH", "/api/cell/turntables/table-1")}
+    assert _digest(cell_file) == before
+
+
 async def test_move_pose_waypoint_reviewer_forbidden(
     shared_app: FastAPI, token: str, cell_file: Path, clients: ClientFactory
 ) -> None:
