@@ -12,7 +12,9 @@ and no bisection (tolerance = spacing), the same IK batch path.
 200,000 poses take the parallel IK driver on every numba thread, ours (batches under
 2048 poses) the serial one. ``ik_external_axis_ratio_vs_sweep_one_thread`` is the same
 ratio with both runs on one numba thread (``numba.set_num_threads(1)`` around both, the
-thread count restored after): the work ratio per core.
+thread count restored after): the work ratio per core. The two runs are timed in turn,
+best of 7 each (:func:`~posebridge.bench.timing.best_seconds_alternating`), so that other load
+on the machine falls on both alike.
 """
 
 from __future__ import annotations
@@ -20,7 +22,7 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-from posebridge.bench.timing import best_seconds
+from posebridge.bench.timing import best_seconds_alternating
 from posebridge.cell.external_kinematics import feasible_intervals, moving_axes
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import resolve_scene
@@ -47,7 +49,7 @@ def bench_external_axis(quick: bool) -> dict[str, float]:
     jitter = rotation_matrix_from_rpy(rng.uniform(-10.0, 10.0, (len(poses), 3)), degrees=True)
     poses[:, :3, :3] = poses[:, :3, :3] @ jitter
     spacing = (scene.external.upper[0] - scene.external.lower[0]) / (DENSE_SAMPLES - 1)
-    repeats = 1 if quick else 3
+    repeats = 2 if quick else 7
 
     def ours() -> object:
         return feasible_intervals(scene, poses, 0)
@@ -55,13 +57,11 @@ def bench_external_axis(quick: bool) -> dict[str, float]:
     def sweep() -> object:
         return feasible_intervals(scene, poses, 0, samples=DENSE_SAMPLES, tolerance=spacing)
 
-    ours_s = best_seconds(ours, repeats=repeats)
-    sweep_s = best_seconds(sweep, repeats=repeats)
+    ours_s, sweep_s = best_seconds_alternating([ours, sweep], repeats=repeats)
     threads = numba.get_num_threads()
     numba.set_num_threads(1)
     try:
-        ours_one_s = best_seconds(ours, repeats=repeats)
-        sweep_one_s = best_seconds(sweep, repeats=repeats)
+        ours_one_s, sweep_one_s = best_seconds_alternating([ours, sweep], repeats=repeats)
     finally:
         numba.set_num_threads(threads)
     return {
