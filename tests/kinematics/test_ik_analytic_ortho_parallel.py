@@ -21,7 +21,8 @@ from scipy.optimize import brentq
 from scipy.spatial.transform import Rotation
 
 from posebridge.kinematics.branches import label_branches
-from posebridge.kinematics.fk import fk_flange, fk_tool
+from posebridge.kinematics.fk import fk_flange, fk_frames, fk_tool
+from posebridge.kinematics.ik import ik_solver
 from posebridge.kinematics.ik.analytic.ortho_parallel import atan2_many, solve_ortho_parallel
 from posebridge.kinematics.ik.analytic.ortho_parallel_geometry import OrthoParallelGeometry
 from posebridge.kinematics.ik.solutions import (
@@ -417,6 +418,68 @@ def test_stretched_or_folded_elbow_gives_one_elbow_branch(
     # one elbow solution per wrist on the front side (the two elbow branches coincide)
     assert len(front) == 2
     assert np.all(result.elbow[0, front] == 0)
+
+
+def _distance_to_line(point: np.ndarray, origin: np.ndarray, axis: np.ndarray) -> np.ndarray:
+    """Distance of points (N, 3) from lines through ``origin`` along unit ``axis`` (N, 3)."""
+    w = point - origin
+    return np.linalg.norm(w - np.einsum("ki,ki->k", w, axis)[:, None] * axis, axis=1)
+
+
+def test_reach_margins_follow_the_law_of_cosines(arm6: Robot) -> None:
+    q = random_configurations(arm6, 40, seed=12)
+    frames = fk_frames(arm6, q)
+    axes = np.einsum("knij,nj->kni", frames[:, 1:7, :3, :3], arm6.axes)
+    origins = frames[:, 1:7, :3, 3]
+    # wrist centre: where axes 4 and 5 meet (spherical wrist); the point of axis 5 at the
+    # foot of the common perpendicular (closed form of the nearest points of two lines)
+    a4, a5, w = axes[:, 3], axes[:, 4], origins[:, 4] - origins[:, 3]
+    b45 = np.einsum("ki,ki->k", a4, a5)
+    t5 = (b45 * np.einsum("ki,ki->k", a4, w) - np.einsum("ki,ki->k", a5, w)) / (1.0 - b45**2)
+    centre = origins[:, 4] + t5[:, None] * a5
+    # law of cosines in the arm plane: the wrist centre's distance s from axis 2, the upper
+    # arm c2 (axis 2 to the parallel axis 3) and the forearm k (axis 3 to the centre):
+    # s^2 = c2^2 + k^2 + 2 c2 k cos(beta)
+    s = _distance_to_line(centre, origins[:, 1], axes[:, 1])
+    c2 = _distance_to_line(origins[:, 2], origins[:, 1], axes[:, 1])
+    k = _distance_to_line(centre, origins[:, 2], axes[:, 2])
+    expected = 1.0 - np.abs((s**2 - c2**2 - k**2) / (2.0 * c2 * k))
+    margins = ik_solver(arm6).reach_margins()
+    assert margins is not None
+    got = margins(fk_tool(arm6, q))
+    shoulder, _, _ = label_branches(arm6, q)
+    column = np.where(shoulder == 1, 0, 1)
+    assert np.all(shoulder != 0)
+    # reference: forward kinematics (checked against pinocchio in test_fk.py) and the
+    # law of cosines above
+    np.testing.assert_allclose(got[np.arange(len(q)), column], expected, atol=1e-9)
+    assert np.all(got[np.arange(len(q)), column] >= -1e-12)  # every FK pose is reached
+
+
+@pytest.mark.parametrize("folded", [False, True])
+def test_reach_margin_is_zero_at_the_stretched_or_folded_elbow(arm6: Robot, folded: bool) -> None:
+    # closed form as in test_stretched_or_folded_elbow_gives_one_elbow_branch
+    q3 = np.arctan2(-0.627, 0.097) + (np.pi if folded else 0.0)
+    q = np.array([[0.2, 0.4, q3, 0.3, 0.6, 0.2]])
+    margins = ik_solver(arm6).reach_margins()
+    assert margins is not None
+    target = fk_tool(arm6, q)
+    shoulder, _, _ = label_branches(arm6, q)
+    column = 0 if shoulder[0] == 1 else 1
+    assert abs(margins(target)[0, column]) < 1e-9
+    # 1 cm further out along the shoulder-to-wrist direction the stretched elbow cannot reach
+    # (common practice, no source); folded, 1 cm further in
+    frames = fk_frames(arm6, q)
+    out = frames[0, 5, :3, 3] - frames[0, 2, :3, 3]
+    shifted = target.copy()
+    shifted[0, :3, 3] += (-0.01 if folded else 0.01) * out / np.linalg.norm(out)
+    assert margins(shifted)[0, column] < 0.0
+    result = ik_solver(arm6).solve(shifted)
+    assert not np.any(result.valid[0] & (result.shoulder[0] == shoulder[0]))
+
+
+def test_reach_margins_only_for_ortho_parallel_arms() -> None:
+    assert ik_solver(load_robot("pb-planar3r")).reach_margins() is None
 
 
 # ---------------------------------------------------------------- reasons and limits

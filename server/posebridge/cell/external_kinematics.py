@@ -17,8 +17,9 @@ pose within the robot's joint limits is a union of intervals. It is found by
    infeasible, until the bracket is at most ``tolerance`` wide (0.1 mm for the
    track, 0.01 deg for a table): the ITP method (:func:`_refine_ends`), which
    interpolates the branch's joint-limit margin where a joint limit decides
-   and extrapolates the closing of its two elbow solutions where the reach
-   decides, taking at most one step more than bisection; brackets of all targets
+   and the IK family's reach margin (or else extrapolates the closing of its
+   two elbow solutions) where the reach decides, taking at most two steps more
+   than bisection; brackets of all targets
    and branches are solved together, one IK batch per step, a value shared by
    several brackets solved once. The reported end is the feasible side of the
    bracket.
@@ -60,6 +61,9 @@ from posebridge.cell.interval_search import (
     LOW,
     MARGIN_HIGH,
     MARGIN_LOW,
+    MOVED,
+    REACH_HIGH,
+    REACH_LOW,
     branch_state_rows,
     itp_settle,
     itp_values,
@@ -99,12 +103,13 @@ TRACK_SWEEP_SPACING_M = 0.5
 """Largest sweep spacing on a track (default sample count: range / spacing + 1, at least 9)."""
 TABLE_SWEEP_SPACING_RAD = float(rad_from_deg(20.0))
 """Largest sweep spacing on a turntable."""
-ITP_KAPPA = 0.5
-"""The ITP truncation: kappa1 = ITP_KAPPA / start width, kappa2 = 2 (on the bench poses 0.5
-solved fewest poses of 0.01, 0.02, 0.05, 0.1, 0.2, 0.5, 1, 2)."""
-REFINE_EXTRA_STEPS = 1
+ITP_KAPPA = 0.05
+"""The ITP truncation: kappa1 = ITP_KAPPA / start width, kappa2 = 2. With the Illinois halving
+the interpolation needs little truncation: on the bench poses 0.05 solved fewest poses of 0.02,
+0.05, 0.1, 0.2, 0.5 (6,087 against 6,634 for 0.2 and 7,080 for 0.5, with two extra steps)."""
+REFINE_EXTRA_STEPS = 2
 """IK batches the interval-end search may spend beyond plain bisection's (the ITP method's n0;
-on the bench poses 1 solved 3 % fewer poses than 0, 2 only 0.4 % fewer than 1)."""
+on the bench poses 2 solved 3 % fewer poses than 1, 3 only 0.3 % fewer than 2)."""
 
 Triple = tuple[int, int, int]
 
@@ -378,14 +383,30 @@ def _elbow_pairing(
     return max(joint, 0), np.array(partner, dtype=np.intp)
 
 
+def _reach_measure(
+    margins: Callable[[FloatArray], FloatArray] | None,
+) -> Callable[[FloatArray], FloatArray]:
+    """Return the IK family's reach margins (:meth:`~posebridge.kinematics.ik.IkSolver.reach_margins`), NaN without."""
+    if margins is not None:
+        return margins
+    return lambda T: np.full((len(T), 2), np.nan)
+
+
+def _shoulder_columns(triples: list[Triple]) -> npt.NDArray[np.intp]:
+    """Column of the reach margins of each branch's shoulder: 0 front, 1 back, -1 undefined, (B,)."""
+    return np.array([{1: 0, -1: 1}.get(s, -1) for s, _, _ in triples], dtype=np.intp)
+
+
 def _refine_ends(
     solve: Callable[[FloatArray], IkSolutions],
+    reach: tuple[Callable[[FloatArray], FloatArray], npt.NDArray[np.intp]],
     poses: _AxisPoses,
     table: UInt8Array,
     limits: tuple[FloatArray, FloatArray],
     brackets: tuple[npt.NDArray[np.intp], npt.NDArray[np.intp], BoolArray],
     ends: tuple[FloatArray, FloatArray],
     margins: tuple[FloatArray, FloatArray],
+    reaches: tuple[FloatArray, FloatArray],
     pairing: tuple[int, npt.NDArray[np.intp]],
     fold_start: FloatArray,
     *,
@@ -396,8 +417,10 @@ def _refine_ends(
 
     The ITP method (interpolate, truncate, project; Oliveira & Takahashi, ACM TOMS
     47(1), 2020, algorithm 1; :func:`~posebridge.cell.interval_search.itp_values`) on
-    the branch's limit margin where a joint limit ends the interval, and on its fold
-    (:func:`_branch_state`) where the reach ends it. The projection keeps every
+    the branch's limit margin where a joint limit ends the interval, and on the reach
+    margin of its shoulder (``reach``) or else its fold (:func:`_branch_state`) where
+    the reach ends it, with the Illinois halving of a bracket end's values kept twice
+    (Dowell & Jarratt, BIT 11, 1971). The projection keeps every
     bracket within ``ceil(log2(start width / tolerance)) + extra_steps`` evaluations,
     so with ``extra_steps = 0`` no bracket needs more IK batches than bisection; a
     larger one gives the interpolation more room. The bracket is always updated from the branch's feasibility (margin and
@@ -411,6 +434,10 @@ def _refine_ends(
     ----------
     solve : callable
         The robot's prepared IK (:meth:`~posebridge.kinematics.ik.IkSolver.prepare`).
+    reach : (callable, array of int, shape (B,))
+        The IK family's reach margins of poses, (P, 2), NaN without
+        (:func:`_reach_measure`), and the column of each branch's shoulder
+        (:func:`_shoulder_columns`).
     poses : _AxisPoses
     table, limits
         :func:`_branch_bits`, :func:`_joint_limits`.
@@ -419,6 +446,8 @@ def _refine_ends(
         Axis values, m or rad; ``low < high``, the branch's feasibility differs.
     margins : (low, high), arrays of shape (D,)
         Margins at the ends, NaN where the branch does not reach the pose.
+    reaches : (low, high), arrays of shape (D,)
+        Reach margins of the branch's shoulder at the ends, NaN without.
     pairing : (int, array of shape (B,))
         :func:`_elbow_pairing`.
     fold_start : array, shape (D,)
@@ -436,10 +465,13 @@ def _refine_ends(
         Poses solved.
     """
     targets, branches, low_feasible = brackets
+    measure, columns = reach
     D = len(targets)
-    state = np.empty((7, D))
+    state = np.empty((10, D))
+    state[MOVED] = 0.0
     state[LOW], state[HIGH] = ends
     state[MARGIN_LOW], state[MARGIN_HIGH] = margins
+    state[REACH_LOW], state[REACH_HIGH] = reaches
     state[FOLD_END] = fold_start
     state[BEFORE_X] = state[BEFORE_FOLD] = np.nan
     start_width = state[HIGH] - state[LOW]
@@ -465,7 +497,8 @@ def _refine_ends(
             pairs,
             slot,
         )
-        solutions = solve(poses.at(pairs[0][:count], pairs[1][:count]))
+        T = poses.at(pairs[0][:count], pairs[1][:count])
+        solutions = solve(T)
         solved += count
         open_ = itp_settle(
             open_,
@@ -476,6 +509,7 @@ def _refine_ends(
                 solutions.within_limits,
                 (solutions.shoulder, solutions.elbow, solutions.wrist),
             ),
+            (measure(T), columns),
             branches,
             table,
             limits,
@@ -577,8 +611,11 @@ def feasible_intervals(
     B = len(triples)
     poses = _AxisPoses(scene, T_target, axis)
     # the targets are checked once; the axis only moves them rigidly
-    solve = ik_solver(scene.robot).prepare(T_flange_tool=scene.T_flange_tool)
-    swept = solve(poses.at(np.repeat(np.arange(K), len(grid)), np.tile(grid, K)))
+    ik = ik_solver(scene.robot)
+    solve = ik.prepare(T_flange_tool=scene.T_flange_tool)
+    measure = _reach_measure(ik.reach_margins(T_flange_tool=scene.T_flange_tool))
+    T_swept = poses.at(np.repeat(np.arange(K), len(grid)), np.tile(grid, K))
+    swept = solve(T_swept)
     table = _branch_bits(triples)
     feasible = _reached(swept, table, B).reshape(K, len(grid), B)
     ik_poses = K * len(grid)
@@ -592,14 +629,18 @@ def feasible_intervals(
         rows = k_idx * len(grid) + gap
         _, margin_low, fold_low = _branch_state(swept, rows, b_idx, table, limits, pairing)
         _, margin_high, fold_high = _branch_state(swept, rows + 1, b_idx, table, limits, pairing)
+        columns = _shoulder_columns(triples)
+        reach_swept = measure(T_swept)
         low, high, solved = _refine_ends(
             solve,
+            (measure, columns),
             poses,
             table,
             limits,
             (k_idx, b_idx, low_feasible),
             (grid[gap], grid[gap + 1]),
             (margin_low, margin_high),
+            (reach_swept[rows, columns[b_idx]], reach_swept[rows + 1, columns[b_idx]]),
             pairing,
             np.where(low_feasible, fold_low, fold_high),
             tolerance=tol,

@@ -5,15 +5,20 @@ Per (pose, branch) pair the branch's feasibility, joint-limit margin and elbow f
 bracket by the ITP method (interpolate, truncate, project; Oliveira & Takahashi, ACM
 TOMS 47(1), 2020, algorithm 1) with the distinct (target, value) pairs to solve
 (:func:`itp_values`), then the bracket update from the solved poses
-(:func:`itp_settle`). One search step is these two calls around one IK batch. Kept
+(:func:`itp_settle`, with the Illinois halving: an end kept twice in a row has its
+interpolated values halved, Dowell & Jarratt, BIT 11, 1971). One search step is these two calls around one IK batch. Kept
 apart from the cell layer's other modules so that the kernel cache key
 (:mod:`posebridge.kernel_cache`) depends on numpy and numba only.
 
-The brackets' state is one array ``state`` of shape (7, D), rows :data:`LOW`,
+The brackets' state is one array ``state`` of shape (9, D), rows :data:`LOW`,
 :data:`HIGH` (the bracket, axis values), :data:`MARGIN_LOW`, :data:`MARGIN_HIGH`
 (the branch's limit margin at its ends, NaN where the branch does not reach the
 pose), :data:`FOLD_END` (the fold at the feasible end), :data:`BEFORE_X` and
-:data:`BEFORE_FOLD` (the feasible end before it and its fold, NaN for none).
+:data:`BEFORE_FOLD` (the feasible end before it and its fold, NaN for none),
+:data:`REACH_LOW` and :data:`REACH_HIGH` (the IK family's reach margin of the
+branch's shoulder at the ends,
+:meth:`~posebridge.kinematics.ik.IkSolver.reach_margins`; NaN without one) and
+:data:`MOVED` (the end the last update moved: -1 low, 1 high, 0 none yet).
 """
 
 from __future__ import annotations
@@ -29,12 +34,26 @@ __all__ = [
     "LOW",
     "MARGIN_HIGH",
     "MARGIN_LOW",
+    "MOVED",
+    "REACH_HIGH",
+    "REACH_LOW",
     "branch_state_rows",
     "itp_settle",
     "itp_values",
 ]
 
-LOW, HIGH, MARGIN_LOW, MARGIN_HIGH, FOLD_END, BEFORE_X, BEFORE_FOLD = range(7)
+(
+    LOW,
+    HIGH,
+    MARGIN_LOW,
+    MARGIN_HIGH,
+    FOLD_END,
+    BEFORE_X,
+    BEFORE_FOLD,
+    REACH_LOW,
+    REACH_HIGH,
+    MOVED,
+) = range(10)
 
 
 @nb.njit(cache=True)
@@ -108,8 +127,9 @@ def _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa
 
     Interpolate: regula falsi on the margins where both are finite and of opposite
     sign (a joint limit ends the interval); where only the feasible end has a margin
-    (the reach ends it), the secant of the fold through the feasible end and the one
-    before it, extended to zero, if that root lies inside; else the middle. Truncate
+    (the reach ends it), regula falsi on the reach margins if they are of opposite
+    sign, else the secant of the fold through the feasible end and the one before
+    it, extended to zero, if that root lies inside; else the middle. Truncate
     towards the middle by ``kappa width^2 / start_width`` (the method's kappa1 = kappa /
     start width, kappa2 = 2), but by at least half the tolerance, so that a value at an
     accurate estimate of the end and the bracket's end on its far side are at most
@@ -125,9 +145,13 @@ def _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa
     middle = 0.5 * (lo + hi)
     m_lo = state[MARGIN_LOW, i]
     m_hi = state[MARGIN_HIGH, i]
+    r_lo = state[REACH_LOW, i]
+    r_hi = state[REACH_HIGH, i]
     falsi = middle
     if np.isfinite(m_lo) and np.isfinite(m_hi) and m_lo * m_hi <= 0.0 and m_lo != m_hi:
         falsi = (hi * m_lo - lo * m_hi) / (m_lo - m_hi)
+    elif np.isnan(m_lo) != np.isnan(m_hi) and r_lo * r_hi <= 0.0 and r_lo != r_hi:
+        falsi = (hi * r_lo - lo * r_hi) / (r_lo - r_hi)  # the comparisons are False with a NaN
     elif np.isnan(m_lo) != np.isnan(m_hi):
         fold_end, before_x, before_fold = (
             state[FOLD_END, i],
@@ -196,17 +220,30 @@ def itp_values(
 
 @nb.njit(cache=True)
 def itp_settle(
-    open_, slot, solutions, branches, table, limits, pairing, low_feasible, value, state, tolerance
+    open_,
+    slot,
+    solutions,
+    reach,
+    branches,
+    table,
+    limits,
+    pairing,
+    low_feasible,
+    value,
+    state,
+    tolerance,
 ):
     """Move each open bracket's end on the side of its value's feasibility; return the brackets still open.
 
     ``solutions`` is (q, valid, within, labels) of the solved pairs (:func:`itp_values`);
     bracket ``open_[n]``'s branch state (:func:`branch_state_rows`) is read at pose
-    ``slot[n]``. A feasible value becomes the feasible end (the old one and its fold
+    ``slot[n]``, its reach margin in ``reach`` = (margins (P, 2), column of each
+    branch's shoulder (B,), -1 for none). A feasible value becomes the feasible end (the old one and its fold
     move to :data:`BEFORE_X`, :data:`BEFORE_FOLD`). Returns the brackets of ``open_``
     wider than ``tolerance`` after the update.
     """
     q, valid, within, labels = solutions
+    margins, column = reach
     still = np.empty(open_.shape[0], dtype=open_.dtype)
     count = 0
     for n in range(open_.shape[0]):
@@ -230,12 +267,22 @@ def itp_settle(
             state[BEFORE_X, i] = state[LOW, i] if low_feasible[i] else state[HIGH, i]
             state[BEFORE_FOLD, i] = state[FOLD_END, i]
             state[FOLD_END, i] = fold
-        if is_feasible == low_feasible[i]:
+        shoulder = column[branches[i]]
+        reached = margins[slot[n], shoulder] if shoulder >= 0 else np.nan
+        moved = -1.0 if is_feasible == low_feasible[i] else 1.0
+        if moved == state[MOVED, i]:  # Illinois: the end kept twice has its values halved
+            kept = MARGIN_HIGH if moved < 0 else MARGIN_LOW
+            state[kept, i] *= 0.5
+            state[kept + REACH_LOW - MARGIN_LOW, i] *= 0.5
+        state[MOVED, i] = moved
+        if moved < 0:
             state[LOW, i] = value[i]
             state[MARGIN_LOW, i] = margin
+            state[REACH_LOW, i] = reached
         else:
             state[HIGH, i] = value[i]
             state[MARGIN_HIGH, i] = margin
+            state[REACH_HIGH, i] = reached
         if state[HIGH, i] - state[LOW, i] > tolerance:
             still[count] = i
             count += 1

@@ -42,6 +42,7 @@ from posebridge.kinematics.ik.analytic.offset_wrist import (
     solve_offset_wrist,
 )
 from posebridge.kinematics.ik.analytic.ortho_parallel import (
+    ortho_parallel_reach_margins,
     ortho_parallel_solver,
     solve_ortho_parallel,
 )
@@ -164,6 +165,23 @@ class IkSolver:
             prepared = self._prepare(T_flange_tool, tolerance, orientation)
             self._prepared[key] = prepared
         return prepared
+
+    def reach_margins(
+        self, *, T_flange_tool: npt.ArrayLike | None = None
+    ) -> Callable[[FloatArray], FloatArray] | None:
+        """Return a signed, smooth measure of the reach of tool poses, or None for this family.
+
+        Ortho-parallel arms only
+        (:func:`~posebridge.kinematics.ik.analytic.ortho_parallel.ortho_parallel_reach_margins`):
+        the returned function takes checked poses (N, 4, 4) and returns ``1 - |cos β|`` of the
+        elbow's law of cosines for the front and back shoulder, shape (N, 2), positive where
+        the elbow solutions exist and negative beyond the reach.
+        """
+        if isinstance(self.geometry, OrthoParallelGeometry):
+            return ortho_parallel_reach_margins(
+                self.robot, self.geometry, T_flange_tool=T_flange_tool
+            )
+        return None
 
     def _prepare(
         self, T_flange_tool: npt.ArrayLike | None, tolerance: float, orientation: float

@@ -44,6 +44,7 @@ slot finishing of :func:`posebridge.kinematics.ik.finishing.finish_rows`.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numba as nb
 import numpy as np
@@ -71,7 +72,13 @@ from posebridge.robot.model import Robot
 from posebridge.transforms import invert_transform
 from posebridge.units import FloatArray
 
-__all__ = ["METHOD", "atan2_many", "ortho_parallel_solver", "solve_ortho_parallel"]
+__all__ = [
+    "METHOD",
+    "atan2_many",
+    "ortho_parallel_reach_margins",
+    "ortho_parallel_solver",
+    "solve_ortho_parallel",
+]
 
 METHOD = "analytic: ortho-parallel, Brandstötter et al. 2014"
 
@@ -383,6 +390,46 @@ def _solve_parallel(problem, finish, out):
         _solve_block(start, stop, problem, finish, out)
 
 
+@nb.njit(cache=True)
+def _reach_margins(T, G, prm, out):
+    """``out[i] = 1 - |cos β|`` of pose ``i``'s front and back arm, shape (N, 2).
+
+    cos β is the law of cosines in the arm plane of :func:`_arm_candidates`
+    (module docstring) before it is clipped to [-1, 1], for the θ1 whose
+    shoulder label is front (column 0) and back (column 1). It is smooth in the
+    pose, positive where the two elbow solutions exist, zero where they meet
+    (stretched or folded elbow) and negative beyond the reach. NaN where the
+    wrist centre is within the lateral offset ``b`` of axis 1 (or on it),
+    where the label is undefined.
+    """
+    a1, b, c1, c2, c4 = prm[0], prm[2], prm[3], prm[4], prm[6]
+    k, K_sh = prm[7], prm[9]
+    for i in range(T.shape[0]):
+        R02 = T[i, 0, 0] * G[0, 2] + T[i, 0, 1] * G[1, 2] + T[i, 0, 2] * G[2, 2]
+        R12 = T[i, 1, 0] * G[0, 2] + T[i, 1, 1] * G[1, 2] + T[i, 1, 2] * G[2, 2]
+        R22 = T[i, 2, 0] * G[0, 2] + T[i, 2, 1] * G[1, 2] + T[i, 2, 2] * G[2, 2]
+        px = T[i, 0, 0] * G[0, 3] + T[i, 0, 1] * G[1, 3] + T[i, 0, 2] * G[2, 3] + T[i, 0, 3]
+        py = T[i, 1, 0] * G[0, 3] + T[i, 1, 1] * G[1, 3] + T[i, 1, 2] * G[2, 3] + T[i, 1, 3]
+        pz = T[i, 2, 0] * G[0, 3] + T[i, 2, 1] * G[1, 3] + T[i, 2, 2] * G[2, 3] + T[i, 2, 3]
+        cx = px - c4 * R02
+        cy = py - c4 * R12
+        cz = pz - c4 * R22
+        lateral = cx * cx + cy * cy - b * b
+        if lateral <= LABEL_TOLERANCE_M * LABEL_TOLERANCE_M:
+            out[i, 0] = np.nan
+            out[i, 1] = np.nan
+            continue
+        X = np.sqrt(lateral)
+        v = cz - c1
+        for branch1 in range(2):
+            sigma = 1.0 if branch1 == 0 else -1.0
+            u = sigma * X - a1  # the arm-plane x of the wrist centre is sigma X
+            cos_beta = (u * u + v * v - c2 * c2 - k * k) / (2.0 * c2 * k)
+            # shoulder label of this θ1: the sign of K_sh sigma X (_arm_candidates)
+            column = 0 if K_sh * sigma > 0.0 else 1
+            out[i, column] = 1.0 - abs(cos_beta)
+
+
 def _kernel_parameters(geometry: OrthoParallelGeometry, G: FloatArray) -> FloatArray:
     """Packed parameters of the kernel, shape (16,).
 
@@ -417,6 +464,38 @@ def _kernel_parameters(geometry: OrthoParallelGeometry, G: FloatArray) -> FloatA
     )
 
 
+def _end_from_tool(
+    robot: Robot, geometry: OrthoParallelGeometry, T_flange_tool: npt.ArrayLike | None
+) -> FloatArray:
+    """``G`` with ``T_end = T_tool @ G`` (the canonical end frame), shape (4, 4)."""
+    T_flange = invert_transform(robot.T_link_flange) @ tool_tail(robot, T_flange_tool)
+    F = np.eye(4)
+    F[:3, :3] = geometry.R_end_flange
+    return np.ascontiguousarray(invert_transform(F @ T_flange))
+
+
+def ortho_parallel_reach_margins(
+    robot: Robot, geometry: OrthoParallelGeometry, *, T_flange_tool: npt.ArrayLike | None = None
+) -> Callable[[FloatArray], FloatArray]:
+    """Return the reach margins of tool poses for one tool (:func:`_reach_margins`).
+
+    The returned function takes poses already checked by
+    :func:`~posebridge.kinematics.ik.inputs.check_target_poses`, shape (N, 4, 4), and
+    returns ``1 - |cos β|`` of the front and back arm, shape (N, 2): a signed
+    measure of the reach that is smooth across its edge, where the IK's solutions
+    end.
+    """
+    G = _end_from_tool(robot, geometry, T_flange_tool)
+    prm = _kernel_parameters(geometry, G)
+
+    def margins(T: FloatArray) -> FloatArray:
+        out = np.empty((len(T), 2))
+        _reach_margins(np.ascontiguousarray(T), G, prm, out)
+        return out
+
+    return margins
+
+
 def ortho_parallel_solver(
     robot: Robot,
     geometry: OrthoParallelGeometry,
@@ -425,10 +504,7 @@ def ortho_parallel_solver(
     position_tolerance_m: float = 1e-6,
 ) -> BlockSolver:
     """Prepare the kernels of :func:`solve_ortho_parallel` for one tool: parameters computed once."""
-    T_flange = invert_transform(robot.T_link_flange) @ tool_tail(robot, T_flange_tool)
-    F = np.eye(4)
-    F[:3, :3] = geometry.R_end_flange
-    G = np.ascontiguousarray(invert_transform(F @ T_flange))
+    G = _end_from_tool(robot, geometry, T_flange_tool)
     constants = (
         G,
         _kernel_parameters(geometry, G),
