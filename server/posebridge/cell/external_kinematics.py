@@ -19,9 +19,8 @@ pose within the robot's joint limits is a union of intervals. It is found by
    interpolates the branch's joint-limit margin where a joint limit decides
    and the IK family's reach margin (or else extrapolates the closing of its
    two elbow solutions) where the reach decides, taking at most two steps more
-   than bisection; brackets of all targets
-   and branches are solved together, one IK batch per step, a value shared by
-   several brackets solved once. The reported end is the feasible side of the
+   than bisection; brackets of all targets and branches are solved together,
+   one IK batch per step, a value shared by several brackets solved once. The reported end is the feasible side of the
    bracket.
 
 The sweep cannot see an interval or a gap narrower than the sample spacing
@@ -420,12 +419,12 @@ def _refine_ends(
     the branch's limit margin where a joint limit ends the interval, and on the reach
     margin of its shoulder (``reach``) or else its fold (:func:`_branch_state`) where
     the reach ends it, with the Illinois halving of a bracket end's values kept twice
-    (Dowell & Jarratt, BIT 11, 1971). The projection keeps every
-    bracket within ``ceil(log2(start width / tolerance)) + extra_steps`` evaluations,
-    so with ``extra_steps = 0`` no bracket needs more IK batches than bisection; a
-    larger one gives the interpolation more room. The bracket is always updated from the branch's feasibility (margin and
-    fold only choose where to look), so the ends are exact to the tolerance whatever
-    they do. Brackets of all targets and branches are solved together, one IK batch
+    (Dowell & Jarratt, BIT 11, 1971). The projection keeps every bracket within
+    ``ceil(log2(start width / tolerance)) + extra_steps`` evaluations, so with
+    ``extra_steps = 0`` no bracket needs more IK batches than bisection; a larger one
+    gives the interpolation more room. The bracket is always updated from the
+    branch's feasibility (the margins and the fold only choose where to look), so the
+    ends are exact to the tolerance whatever they do. Brackets of all targets and branches are solved together, one IK batch
     per step (:func:`~posebridge.cell.interval_search.itp_values`, the batch,
     :func:`~posebridge.cell.interval_search.itp_settle`), a (target, value) shared by
     several brackets solved once.
@@ -631,6 +630,10 @@ def feasible_intervals(
         _, margin_high, fold_high = _branch_state(swept, rows + 1, b_idx, table, limits, pairing)
         columns = _shoulder_columns(triples)
         reach_swept = measure(T_swept)
+        shoulder = columns[b_idx]
+        reach_low, reach_high = (
+            np.where(shoulder >= 0, reach_swept[r, shoulder], np.nan) for r in (rows, rows + 1)
+        )
         low, high, solved = _refine_ends(
             solve,
             (measure, columns),
@@ -640,7 +643,7 @@ def feasible_intervals(
             (k_idx, b_idx, low_feasible),
             (grid[gap], grid[gap + 1]),
             (margin_low, margin_high),
-            (reach_swept[rows, columns[b_idx]], reach_swept[rows + 1, columns[b_idx]]),
+            (reach_low, reach_high),
             pairing,
             np.where(low_feasible, fold_low, fold_high),
             tolerance=tol,

@@ -187,13 +187,13 @@ def itp_values(
 ):
     """Next value of every open bracket, and the distinct (target, value) pairs to solve.
 
-    ``value[i]`` (D,) becomes the ITP value (:func:`_itp_value`, truncation ``kappa``) of bracket
-    ``i = open_[n]``; ``pairs`` (pair targets (D,) int, pair values (D,)) gets the
-    distinct pairs (target, value) in its first entries, ``slot[n]`` the entry of
-    bracket ``open_[n]``'s pair. A pair
-    is compared with the earlier pairs of the same target while ``targets[open_]``
-    stays equal, so brackets sorted by target share every equal value (unsorted
-    ones may solve a value twice). Returns the number of distinct pairs.
+    ``value[i]`` (D,) becomes the ITP value (:func:`_itp_value`, truncation ``kappa``)
+    of bracket ``i = open_[n]``; ``pairs`` (pair targets (D,) int, pair values (D,))
+    gets the distinct pairs (target, value) in its first entries, ``slot[n]`` the
+    entry of bracket ``open_[n]``'s pair. A pair is compared with the earlier pairs
+    of the same target while ``targets[open_]`` stays equal, so brackets sorted by
+    target share every equal value (unsorted ones may solve a value twice). Returns
+    the number of distinct pairs.
     """
     pair_targets, pair_values = pairs
     count = 0
@@ -238,9 +238,10 @@ def itp_settle(
     ``solutions`` is (q, valid, within, labels) of the solved pairs (:func:`itp_values`);
     bracket ``open_[n]``'s branch state (:func:`branch_state_rows`) is read at pose
     ``slot[n]``, its reach margin in ``reach`` = (margins (P, 2), column of each
-    branch's shoulder (B,), -1 for none). A feasible value becomes the feasible end (the old one and its fold
-    move to :data:`BEFORE_X`, :data:`BEFORE_FOLD`). Returns the brackets of ``open_``
-    wider than ``tolerance`` after the update.
+    branch's shoulder (B,), -1 for none). A feasible value becomes the feasible end
+    (the old one and its fold move to :data:`BEFORE_X`, :data:`BEFORE_FOLD`); an end
+    kept for the second time in a row has its margins halved (Illinois). Returns the
+    brackets of ``open_`` wider than ``tolerance`` after the update.
     """
     q, valid, within, labels = solutions
     margins, column = reach
@@ -271,9 +272,8 @@ def itp_settle(
         reached = margins[slot[n], shoulder] if shoulder >= 0 else np.nan
         moved = -1.0 if is_feasible == low_feasible[i] else 1.0
         if moved == state[MOVED, i]:  # Illinois: the end kept twice has its values halved
-            kept = MARGIN_HIGH if moved < 0 else MARGIN_LOW
-            state[kept, i] *= 0.5
-            state[kept + REACH_LOW - MARGIN_LOW, i] *= 0.5
+            state[MARGIN_HIGH if moved < 0 else MARGIN_LOW, i] *= 0.5
+            state[REACH_HIGH if moved < 0 else REACH_LOW, i] *= 0.5
         state[MOVED, i] = moved
         if moved < 0:
             state[LOW, i] = value[i]
