@@ -332,7 +332,7 @@ def _dense_track(
 
 def test_interval_ends_where_a_joint_limit_or_the_reach_decides(demo: Scene) -> None:
     # poses around the demo's track targets (seeded jitter of 100 mm and 10 deg), so that some
-    # interval ends are set by a joint limit (searched by interpolation) and some by the reach
+    # interval ends are set by a joint limit and some by the reach
     rng = np.random.default_rng(7)
     rows = [k for k, fixture in enumerate(demo.targets.fixtures) if fixture != "weld-jig"]
     T = np.repeat(demo.targets.T_world_target[rows], 4, axis=0)
@@ -364,7 +364,8 @@ def test_interval_ends_where_a_joint_limit_or_the_reach_decides(demo: Scene) -> 
                 limit_ends += int(np.sum(~beyond & reached))
                 reach_ends += int(np.sum(~beyond & ~reached))
     # the case has both kinds of end: a joint limit (the branch still reaches the pose just
-    # beyond it, searched by interpolation) and the reach (it does not, searched by bisection)
+    # beyond it, searched on the limit margin) and the reach (it does not, searched on the
+    # reach margin)
     assert limit_ends > 0
     assert reach_ends > 0
 
