@@ -3,10 +3,11 @@
 // resolved; reviewers of a shared dashboard can only add. Comment texts are
 // always shown with textContent, never as markup.
 //
-// The pin choices come from the cell document in the store (`cell`, from
-// GET /api/cell; read here when the store has none). The store's
-// `selection` — {kind: "target", name} or {kind: "waypoint", path, index} —
-// is preselected, so a new comment is pinned to what is selected.
+// The pin choices come from the cell document in the store (`cell`: the page
+// reads GET /api/cell once, static/main.js); until it is there the only pin is
+// the whole cell, and the comments are listed without waiting for it. The
+// store's `selection` — {kind: "target", name} or {kind: "waypoint", path,
+// index} — is preselected, so a new comment is pinned to what is selected.
 
 import { element } from "./fields.js";
 
@@ -162,14 +163,8 @@ export function createCommentsPanel({ container, store, api, access }) {
 
   async function refresh() {
     try {
-      const { cell } = store.get();
-      const [answer, cellDocument] = await Promise.all([
-        api.listComments(),
-        cell ? Promise.resolve(cell) : api.readCell(),
-      ]);
+      const answer = await api.listComments();
       comments = answer.comments;
-      pins = pinsOf(cellDocument);
-      renderPins();
       renderList();
     } catch (error) {
       say(error.message, "error");
@@ -207,6 +202,8 @@ export function createCommentsPanel({ container, store, api, access }) {
   showResolved.addEventListener("change", renderList);
   store.subscribe(renderPins, { keys: ["selection"] });
   store.subscribe(followCell, { keys: ["cell"] });
+  renderPins();
+  followCell();
 
   if (!access.comments_enabled) {
     form.hidden = true;

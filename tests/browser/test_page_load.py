@@ -7,9 +7,19 @@ init script, numbered by the display frame they happen in.
 
 from __future__ import annotations
 
+import json
+import shutil
+from collections.abc import Iterator
+from pathlib import Path
 from typing import Any
 
 import pytest
+
+from posebridge.api.server import background_server
+from posebridge.api.settings import Settings
+from posebridge.resources import data_folder
+from posebridge.review.access import new_review_token
+from posebridge.review.comments import CommentStore, Pin, comments_path_for
 
 VIEWPORT = {"width": 1600, "height": 1000}
 
@@ -22,7 +32,12 @@ _RECORD = """(() => {
   requestAnimationFrame(tick);
   const fetchBefore = window.fetch;
   window.fetch = function (input, init) {
-    const entry = { path: new URL(String(input), location.href).pathname, called: log.events++, answered: null };
+    const entry = {
+      path: new URL(String(input), location.href).pathname,
+      method: ((init && init.method) || "GET").toUpperCase(),
+      called: log.events++,
+      answered: null,
+    };
     log.fetches.push(entry);
     const answer = fetchBefore.call(this, input, init);
     answer.then(() => { entry.answered = log.events++; }, () => { entry.answered = log.events++; });
@@ -88,3 +103,59 @@ def test_joint_space_view_is_drawn_after_the_arm(loaded: dict[str, Any]) -> None
     # the cell view once the forward kinematics is in, so its first drawing has the arm)
     assert space[0]["frame"] > scene[0]["frame"]
     assert space[0]["at"] > scene[0]["at"]
+
+
+_COMMENT = "Fence gap near the press"
+
+# the cell is shown (robot loaded, arm answered) and the comments panel lists its comment
+# with a pin for every target of the cell (from the store's cell)
+_CELL_AND_COMMENTS_SHOWN = """({ comment, targets }) => {
+  const s = window.posebridge && window.posebridge.getState();
+  const items = [...document.querySelectorAll("#comments-list li")].map((li) => li.textContent);
+  const pins = [...document.querySelectorAll("#comment-pin option")].map((o) => o.textContent);
+  return Boolean(s && s.cellActive && s.fk && s.cell) &&
+    items.some((text) => text.includes(comment)) &&
+    targets.every((name) => pins.includes(`target ${name}`));
+}"""
+
+
+@pytest.fixture(scope="module")
+def shared_with_comment(
+    tmp_path_factory: pytest.TempPathFactory,
+) -> Iterator[tuple[str, str, Path]]:
+    """(base URL, review token, cell file) of a dashboard shared for review, serving a copy
+    of the demo cell that has one reviewer comment."""
+    cell = tmp_path_factory.mktemp("comments") / "demo-cell.json"
+    shutil.copy(data_folder("robots") / "demo-cell.json", cell)
+    CommentStore(comments_path_for(cell)).add(Pin("cell"), "Ana", _COMMENT)
+    token = new_review_token()
+    with background_server(Settings(cell_path=cell), review_token=token) as url:
+        yield url, token, cell
+
+
+@pytest.mark.parametrize("role", ["owner", "reviewer"])
+def test_page_reads_the_cell_once(
+    browser: Any, shared_with_comment: tuple[str, str, Path], role: str
+) -> None:
+    url, token, cell = shared_with_comment
+    targets = [target["name"] for target in json.loads(cell.read_text())["targets"]]
+    assert targets
+    context = browser.new_context(viewport=VIEWPORT)  # its own cookies: the reviewer's stay here
+    page = context.new_page()
+    errors: list[str] = []
+    page.on("pageerror", lambda error: errors.append(str(error)))
+    page.add_init_script(_RECORD)
+    try:
+        page.goto(url if role == "owner" else f"{url}?token={token}")
+        page.wait_for_function(
+            _CELL_AND_COMMENTS_SHOWN, arg={"comment": _COMMENT, "targets": targets}, timeout=180_000
+        )
+        assert page.evaluate("document.body.dataset.review") == role
+        log: dict[str, Any] = page.evaluate("() => window.__loadLog")
+    finally:
+        context.close()
+    assert errors == []
+    reads = [e for e in log["fetches"] if e["path"] == "/api/cell" and e["method"] == "GET"]
+    # our own contract (static/main.js, panels/comments.js): the page asks for the cell once
+    # and the comments panel takes its pins from the store's cell instead of asking again
+    assert len(reads) == 1
