@@ -9,8 +9,9 @@ from pathlib import Path
 import httpx
 import pytest
 
-from posebridge.api.app import COMPILE_HINT, plotly_script_path
+from posebridge.api.app import plotly_script_path
 from posebridge.api.page_modules import page_modules
+from posebridge.compile_hint import COMPILE_HINT
 from posebridge.resources import data_folder
 
 pytestmark = pytest.mark.anyio

@@ -45,12 +45,13 @@ from posebridge.api.settings import Settings, get_settings
 from posebridge.api.warmup import KernelWarmUp, WarmStep
 from posebridge.cell.checks import check_targets
 from posebridge.cell.model import CellFileError
+from posebridge.compile_hint import COMPILE_HINT
 from posebridge.errors import InputError
 from posebridge.kinematics.warm import warm_kinematics
 from posebridge.resources import data_folder
 from posebridge.spaces.joint_map import joint_map
 
-__all__ = ["COMPILE_HINT", "PAGE_PLOTLY_BUNDLE", "create_app", "plotly_script_path"]
+__all__ = ["PAGE_PLOTLY_BUNDLE", "create_app", "plotly_script_path"]
 
 _JOB_INPUT_ERRORS = (InputError,)
 """Errors of a job that are the request's fault (:mod:`posebridge.errors`): their message
@@ -62,16 +63,6 @@ PAGE_PLOTLY_BUNDLE = "plotly-gl3d.min.js"
 scatter and 3D traces (npm ``plotly.js-gl3d-dist-min``, the plotly.js version the plotly
 package ships; static/vendor/README.md). The page draws grids as server pictures, so it needs
 no heatmap trace; the review report keeps the full bundle of the plotly package."""
-
-
-COMPILE_HINT = b"//# allFunctionsCalledOnLoad\n"
-"""V8's explicit compile hint, put before the page's plotly.js when it is served: a magic comment
-on a script's first line asking the engine to compile every function of the script eagerly, on
-its streaming thread while the script arrives, instead of on the page's main thread at each
-function's first call (V8 blog "Giving V8 a heads-up: faster JavaScript startup with explicit
-compile hints", Chromium 136 and later; any other engine reads a comment). The page calls most of
-plotly.js while drawing its first figures: measured here the main thread's parse and compile
-time of a page load fell from about 730 ms to 290 ms (busy 2-core machine)."""
 
 
 def plotly_script_path() -> Path:
@@ -257,7 +248,7 @@ def create_app(settings: Settings | None = None) -> FastAPI:
     app.mount("/static", StaticFiles(directory=data_folder("static")), name="static")
 
     # the vendored file unchanged after the compile hint, with a file's validators
-    plotly_page_script = COMPILE_HINT + plotly_script.read_bytes()
+    plotly_page_script = COMPILE_HINT.encode("ascii") + plotly_script.read_bytes()
     plotly_script_headers = {
         "last-modified": formatdate(plotly_script.stat().st_mtime, usegmt=True),
         "etag": f'"{hashlib.sha256(plotly_page_script).hexdigest()[:32]}"',

@@ -6,9 +6,9 @@ computes a joint-space map over a chosen pair of joints, reads the reviewer
 comments (:mod:`posebridge.review.comments`) and renders
 ``templates/report.html`` with jinja2 autoescaping, so every name and text
 from the cell or a reviewer is shown as text, never run as markup.
-plotly.js is inlined from the installed plotly package and the figures are
-embedded as JSON; the page's Content-Security-Policy allows no network
-connection at all.
+plotly.js is inlined from the installed plotly package (after V8's compile
+hint, :mod:`posebridge.compile_hint`) and the figures are embedded as JSON;
+the page's Content-Security-Policy allows no network connection at all.
 """
 
 from __future__ import annotations
@@ -32,6 +32,7 @@ from posebridge.cell.checks import check_targets
 from posebridge.cell.clearance import clearance_scene
 from posebridge.cell.files import load_cell
 from posebridge.cell.scene import Scene, resolve_scene
+from posebridge.compile_hint import COMPILE_HINT
 from posebridge.errors import InputError
 from posebridge.palette import PALETTE
 from posebridge.planning.path_check import check_path
@@ -78,12 +79,14 @@ class ReportError(InputError):
 def plotly_script() -> str:
     r"""Return plotly.min.js of the installed plotly package, safe inside a ``<script>`` element.
 
-    A ``</script`` inside the library (none in current releases) is written
-    ``<\/script``, which JavaScript reads the same inside strings and regular
-    expressions, the only places it can occur.
+    The text starts with V8's compile hint (:data:`posebridge.compile_hint.COMPILE_HINT`, the
+    first line the dashboard gives its plotly.js too), to be the inline script's first line;
+    the package's bundle follows unchanged, except that a ``</script`` inside the library
+    (none in current releases) is written ``<\/script``, which JavaScript reads the same inside
+    strings and regular expressions, the only places it can occur.
     """
     text = (files("plotly") / "package_data" / "plotly.min.js").read_text(encoding="utf-8")
-    return _SCRIPT_END.sub(r"<\\/\1", text)
+    return COMPILE_HINT + _SCRIPT_END.sub(r"<\\/\1", text)
 
 
 def default_map_joints(scene: Scene) -> tuple[int, int]:
