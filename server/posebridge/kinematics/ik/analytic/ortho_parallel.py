@@ -145,6 +145,18 @@ def atan2_many(y, x, out):
         out[k] = math.copysign(r, yv)
 
 
+@nb.njit(cache=True, inline="always")
+def _wrist_centre(T, G, c4, i):
+    """Wrist centre of pose ``i``: ``c4`` back along the z axis of the end frame ``T[i] @ G``."""
+    R02 = T[i, 0, 0] * G[0, 2] + T[i, 0, 1] * G[1, 2] + T[i, 0, 2] * G[2, 2]
+    R12 = T[i, 1, 0] * G[0, 2] + T[i, 1, 1] * G[1, 2] + T[i, 1, 2] * G[2, 2]
+    R22 = T[i, 2, 0] * G[0, 2] + T[i, 2, 1] * G[1, 2] + T[i, 2, 2] * G[2, 2]
+    px = T[i, 0, 0] * G[0, 3] + T[i, 0, 1] * G[1, 3] + T[i, 0, 2] * G[2, 3] + T[i, 0, 3]
+    py = T[i, 1, 0] * G[0, 3] + T[i, 1, 1] * G[1, 3] + T[i, 1, 2] * G[2, 3] + T[i, 1, 3]
+    pz = T[i, 2, 0] * G[0, 3] + T[i, 2, 1] * G[1, 3] + T[i, 2, 2] * G[2, 3] + T[i, 2, 3]
+    return px - c4 * R02, py - c4 * R12, pz - c4 * R22
+
+
 @nb.njit(cache=True)
 def _arm_candidates(
     start, stop, problem, seed, pair_y, pair_x, arm_ok, arm_mode, arm_labels, raw_reason
@@ -179,12 +191,7 @@ def _arm_candidates(
         R20 = T[i, 2, 0] * G[0, 0] + T[i, 2, 1] * G[1, 0] + T[i, 2, 2] * G[2, 0]
         R21 = T[i, 2, 0] * G[0, 1] + T[i, 2, 1] * G[1, 1] + T[i, 2, 2] * G[2, 1]
         R22 = T[i, 2, 0] * G[0, 2] + T[i, 2, 1] * G[1, 2] + T[i, 2, 2] * G[2, 2]
-        px = T[i, 0, 0] * G[0, 3] + T[i, 0, 1] * G[1, 3] + T[i, 0, 2] * G[2, 3] + T[i, 0, 3]
-        py = T[i, 1, 0] * G[0, 3] + T[i, 1, 1] * G[1, 3] + T[i, 1, 2] * G[2, 3] + T[i, 1, 3]
-        pz = T[i, 2, 0] * G[0, 3] + T[i, 2, 1] * G[1, 3] + T[i, 2, 2] * G[2, 3] + T[i, 2, 3]
-        cx = px - c4 * R02
-        cy = py - c4 * R12
-        cz = pz - c4 * R22
+        cx, cy, cz = _wrist_centre(T, G, c4, i)
         r = np.sqrt(cx * cx + cy * cy)
         X = np.sqrt(max(r * r - b * b, 0.0))
         h = np.sqrt(X * X + b * b)
@@ -405,15 +412,7 @@ def _reach_margins(T, G, prm, out):
     a1, b, c1, c2, c4 = prm[0], prm[2], prm[3], prm[4], prm[6]
     k, K_sh = prm[7], prm[9]
     for i in range(T.shape[0]):
-        R02 = T[i, 0, 0] * G[0, 2] + T[i, 0, 1] * G[1, 2] + T[i, 0, 2] * G[2, 2]
-        R12 = T[i, 1, 0] * G[0, 2] + T[i, 1, 1] * G[1, 2] + T[i, 1, 2] * G[2, 2]
-        R22 = T[i, 2, 0] * G[0, 2] + T[i, 2, 1] * G[1, 2] + T[i, 2, 2] * G[2, 2]
-        px = T[i, 0, 0] * G[0, 3] + T[i, 0, 1] * G[1, 3] + T[i, 0, 2] * G[2, 3] + T[i, 0, 3]
-        py = T[i, 1, 0] * G[0, 3] + T[i, 1, 1] * G[1, 3] + T[i, 1, 2] * G[2, 3] + T[i, 1, 3]
-        pz = T[i, 2, 0] * G[0, 3] + T[i, 2, 1] * G[1, 3] + T[i, 2, 2] * G[2, 3] + T[i, 2, 3]
-        cx = px - c4 * R02
-        cy = py - c4 * R12
-        cz = pz - c4 * R22
+        cx, cy, cz = _wrist_centre(T, G, c4, i)
         lateral = cx * cx + cy * cy - b * b
         if lateral <= LABEL_TOLERANCE_M * LABEL_TOLERANCE_M:
             out[i, 0] = np.nan
