@@ -1004,11 +1004,13 @@ def _rail_chunk(
     if index[0].size:
         group = np.ravel_multi_index(index[:3], (C, P, B))
         starts = np.flatnonzero(np.r_[True, group[1:] != group[:-1]])
+        # one prepared scene moved per base pose: the obstacles stay, only the base rides the rail
+        environment = _environment_scene(problem, T_world_base[0, 0, 0])
         spans = (
             (
                 int(first),
                 int(last),
-                _environment_scene(problem, T_world_base[tuple(i[first] for i in index[:3])]),
+                environment.with_base(T_world_base[tuple(i[first] for i in index[:3])]),
             )
             for first, last in zip(starts, [*starts[1:], group.size], strict=True)
         )
@@ -1105,6 +1107,7 @@ def _rail_details(
     T_rail = _rail_frames(rail, grid, flat, flat + 1)
     s = _track_positions(problem, rail, T_rail)[0]  # (P, 8)
     support, _ = _own_scenes(problem, float(grid.height[0]))
+    environment = _environment_scene(problem, T_rail[0] @ rail.T_rail_base)
     clearance = np.full(problem.target_pose.shape[0], np.nan)
     reasons = []
     for k, p in enumerate(problem.target_pose.tolist()):
@@ -1113,7 +1116,7 @@ def _rail_details(
         if np.isfinite(position[k]):
             T_world_base = T_rail[0].copy()
             T_world_base[:3, 3] += position[k] * T_world_base[:3, 0]
-            scene = _environment_scene(problem, T_world_base @ rail.T_rail_base)
+            scene = environment.with_base(T_world_base @ rail.T_rail_base)
             clearance[k] = min(
                 float(clearance_batch(scene, q[k][None]).distance[0]),
                 float(clearance_batch(support, q[k][None]).distance[0]),
