@@ -171,8 +171,12 @@ def rail_cell(
     pins_mm: list[float] | None = None,
     origin_mm: tuple[float, float, float] = (0.0, 0.0, 0.0),
     direction: tuple[float, float, float] = (1.0, 0.0, 0.0),
+    base: dict[str, object] | None = None,
 ) -> Scene:
-    """pb-planar2r on a track (1000 mm/s, 2000 mm/s^2), targets at world (x, y) m, one path."""
+    """pb-planar2r on a track (1000 mm/s, 2000 mm/s^2), targets at world (x, y) m, one path.
+
+    ``base``: the robot's foot on the carriage (the cell's ``base``), default at its origin.
+    """
     targets: list[dict[str, object]] = [
         {"name": f"t{k}", "position_mm": [1000.0 * x, 1000.0 * y, 0.0]}
         for k, (x, y) in enumerate(targets_xy)
@@ -181,6 +185,7 @@ def rail_cell(
         target["external_axes"] = {"track": pin}
     data = {
         "robot": {"name": "pb-planar2r"},
+        **({} if base is None else {"base": base}),
         "floor_height_mm": -500.0,
         "track": {
             "origin_mm": list(origin_mm),
@@ -304,3 +309,108 @@ def test_blended_cycle_time_of_a_rail_candidate_matches_the_path_check() -> None
         )
         checked += 1
     assert checked >= 1
+
+
+def test_base_candidate_at_the_current_placement_times_as_the_rail_search() -> None:
+    # the track runs 1.4 m between the targets and a joint-value waypoint states a track value
+    waypoints = [
+        joint_to("t0"),
+        joint_to("t1", blend_mm=100.0),
+        {"joints_deg": [30.0, -60.0, 1200.0], "motion": "joint", "speed_percent": 100.0},
+        {"target": "t0", "motion": "linear", "speed_mm_s": 500.0},
+    ]
+    scene = rail_cell([(0.5, 0.45), (1.9, 0.35)], waypoints)
+    # reference: the rail search run here, its candidate the current line
+    rail = search_base_placement(
+        scene, PlacementGrid.rail_around(scene, offset_mm=[0.0], yaw_deg=[0.0]), top=1
+    )
+    base = search_base_placement(scene, PlacementGrid.from_user([0.0], [0.0], [0.0], [0.0]), top=1)
+    assert base.current == (0, 0, 0, 0)  # the grid's one candidate is the cell's placement
+    assert rail.reach_fraction[0, 0, 0, 0] == 1.0
+    on_rail, on_base = rail.best[0], base.best[0]
+    assert on_rail.track_position is not None
+    assert on_base.track_position is not None
+    np.testing.assert_allclose(on_base.track_position, on_rail.track_position, rtol=0, atol=1e-12)
+    assert abs(on_rail.track_position[1] - on_rail.track_position[0]) > 1.0  # the track moves
+    estimate = rail.cycle_time[0, 0, 0, 0]
+    assert np.isfinite(estimate)
+    assert base.cycle_time[0, 0, 0, 0] == pytest.approx(estimate, rel=1e-12)
+    assert on_rail.blended_cycle_time is not None
+    assert on_base.blended_cycle_time == pytest.approx(on_rail.blended_cycle_time, rel=1e-12)
+    assert base.score[0, 0, 0, 0] == pytest.approx(rail.score[0, 0, 0, 0], rel=1e-12)
+    report = placement_result(base)
+    assert report.search == "base"
+    assert report.best[0].rail is None  # the rail stays: no rail line to report
+    assert [t.track_position_mm for t in report.best[0].targets] == pytest.approx(
+        [1000.0 * s for s in on_rail.track_position], abs=1e-9
+    )
+    assert "base search on a track cell" in report.cycle_time_note
+
+
+def test_base_candidate_off_the_carriage_origin_times_as_the_cell_mounted_there() -> None:
+    waypoints = [joint_to("t0"), joint_to("t1"), joint_to("t2")]
+    targets_xy = [(0.5, 0.45), (1.9, 0.35), (1.2, -0.2)]
+    x_mm, y_mm, yaw_deg = 200.0, -100.0, 30.0
+    scene = rail_cell(targets_xy, waypoints)
+    base = search_base_placement(
+        scene, PlacementGrid.from_user([x_mm], [y_mm], [yaw_deg], [0.0]), top=1
+    )
+    # reference: the rail search of the cell with its foot put there on the carriage (what
+    # applying the candidate writes), its current line
+    mounted = rail_cell(
+        targets_xy, waypoints, base={"position_mm": [x_mm, y_mm, 0.0], "rpy_deg": [0, 0, yaw_deg]}
+    )
+    rail = search_base_placement(
+        mounted, PlacementGrid.rail_around(mounted, offset_mm=[0.0], yaw_deg=[0.0]), top=1
+    )
+    assert rail.reach_fraction[0, 0, 0, 0] == 1.0
+    assert base.reach_fraction[0, 0, 0, 0] == 1.0
+    on_rail, on_base = rail.best[0], base.best[0]
+    assert on_rail.track_position is not None
+    assert on_base.track_position is not None
+    # both searches find each interval end to 0.1 mm (TRACK_TOLERANCE_M) but from sweeps over
+    # differently widened travels, so each chosen middle agrees to the two ends' tolerance
+    np.testing.assert_allclose(on_base.track_position, on_rail.track_position, atol=2e-4)
+    np.testing.assert_allclose(base.q[0, 0, 0, 0], rail.q[0, 0, 0, 0], atol=1e-3)
+    # a 0.2 mm shift of a track end changes the track's trapezoid time by at most
+    # 0.2 mm / 1000 mm/s = 0.2 ms per move (Lynch & Park, sec. 9.2.2.2: dT/dD <= 1 / v)
+    assert base.cycle_time[0, 0, 0, 0] == pytest.approx(rail.cycle_time[0, 0, 0, 0], abs=1e-3)
+
+
+def test_base_search_track_only_move_is_the_track_trapezoid() -> None:
+    # the foot 300 mm across the carriage puts the base on the line 0.45 m from the row, as
+    # the rail search's -300 mm line (test_track_only_move_estimate_is_the_track_trapezoid)
+    scene = rail_cell([(0.5, 0.15), (1.5, 0.15)], [joint_to("t0"), joint_to("t1")])
+    grid = PlacementGrid.from_user([0.0], [-300.0], [0.0], [0.0])
+    result = search_base_placement(scene, grid, top=1)
+    candidate = result.best[0]
+    assert candidate.track_position is not None
+    s0, s1 = candidate.track_position
+    q = result.q[candidate.index]
+    # closed form: each target's feasible positions are centred on its x (the base is 0.45 m
+    # from the row, more than INNER), so the track moves 1 m and the arm's joints are the
+    # same at both ends
+    assert s1 - s0 == pytest.approx(1.0, abs=1e-3)
+    np.testing.assert_allclose(q[0], q[1], atol=1e-3)
+    # closed form: the track's own rest-to-rest trapezoid (Lynch & Park, sec. 9.2.2.2)
+    expected = trapezoid_s(abs(s1 - s0), TRACK_SPEED_M_S, TRACK_ACCEL_M_S2)
+    assert result.cycle_time[candidate.index] == pytest.approx(expected, rel=1e-9)
+    # a joints-only estimate would be 0 s here: the arm does not move
+    assert expected > 1.0
+
+
+def test_demo_track_cell_base_search_at_the_current_placement_scores_as_its_rail() -> None:
+    path = data_folder("robots") / "demo-track-cell.json"
+    scene = resolve_scene(load_cell(path), path)
+    base = scene.cell.base
+    grid = PlacementGrid.from_user(
+        [base.position_mm[0]], [base.position_mm[1]], [base.rpy_deg[2]], [base.pedestal_height_mm]
+    )
+    on_base = placement_result(search_base_placement(scene, grid, top=1))
+    # reference: the rail search of the same cell, its current line
+    line = PlacementGrid.rail_around(scene, offset_mm=[0.0], yaw_deg=[0.0])
+    on_rail = placement_result(search_base_placement(scene, line, top=1))
+    assert on_base.current_score is not None
+    assert on_base.current_score == pytest.approx(on_rail.current_score, rel=1e-12)
+    assert on_base.current_cycle_time_s == pytest.approx(on_rail.current_cycle_time_s, rel=1e-12)
+    assert on_base.current_score > 0.75  # three of the four demo targets (its notes)

@@ -54,9 +54,9 @@ linear moves as trapezoids in TCP path length at the requested speed and
 :data:`~posebridge.planning.cycle_time.DEFAULT_LINEAR_ACCELERATION_M_S2`
 (no joint-limit cap and no continuity check along the line, unlike
 :func:`posebridge.planning.path_check.check_path`), blends ignored: the
-rest-to-rest upper bound, cheap enough for every candidate. A base candidate's
-estimate times the robot's joints only; a rail candidate's includes the track
-(below).
+rest-to-rest upper bound, cheap enough for every candidate. On a cell without
+a track a base candidate's estimate times the robot's joints; on a cell with a
+track every candidate's includes the track (below).
 
 **Blended cycle time** (for the :data:`BLENDED_TOP` best-ranked candidates
 only, after ranking): with the base moved to the candidate's pose (TCP poses
@@ -103,6 +103,19 @@ chunk. Its **blended cycle time** (the :data:`BLENDED_TOP` best) is the path
 check's on the cell with the rail moved to the candidate's line and each
 Cartesian waypoint's track position the chosen one (:func:`scene_on_rail`).
 
+**Base search on a track cell** (a base grid, ``--search base``). The cell's
+``base`` is then the robot's foot on the carriage (its position, roll, pitch and
+yaw in the carriage-top frame, and its pedestal), so a candidate ``(x, y, yaw,
+h)`` is that foot pose, as applying it writes it; the rail stays where it is and
+the robot still rides the track. Every pose is reached from its own track
+position and scored exactly as in the rail search (the same intervals, travel
+widening, clearance with the carriage left out, and track-inclusive cycle
+estimate and blended time, the blended one on :func:`scene_on_carriage`), so a
+base candidate equal to the cell's placement gets the rail search's answer for
+the current line. Candidates of one yaw share a mount of the robot on the
+carriage (one interval call per yaw in a chunk; their ``x, y`` shift the rail
+frame, since translations commute), in chunks of :data:`RAIL_CHUNK_CANDIDATES`.
+
 Chunks of :data:`CHUNK_CANDIDATES` candidates (fixed by the grid alone, one
 pedestal height per chunk) run through an executor
 (:mod:`posebridge.compute`) with progress and cancellation; results are the
@@ -126,7 +139,7 @@ import numpy.typing as npt
 
 from posebridge.cell.clearance import cell_arm, clearance_scene, fixture_count
 from posebridge.cell.external_kinematics import branch_triples, feasible_intervals
-from posebridge.cell.scene import Scene
+from posebridge.cell.scene import CylinderSet, Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.shapes import (
@@ -170,6 +183,7 @@ __all__ = [
     "PlacementGrid",
     "PlacementResult",
     "RankedCandidate",
+    "scene_on_carriage",
     "scene_on_rail",
     "scene_with_base",
     "search_base_placement",
@@ -367,7 +381,8 @@ class RankedCandidate:
     rail_frame : array, shape (4, 4), or None
         A rail candidate's rail frame (track position 0, x along the travel).
     track_position : array, shape (K,), or None
-        A rail candidate's track position of each reached target, m (NaN elsewhere).
+        A track cell's candidate (rail or base search): the track position of each
+        reached target, m (NaN elsewhere).
     travel_needed : tuple of float or None
         ``(lower, upper)`` track positions covering every reached target's position with
         :data:`RAIL_TRAVEL_MARGIN_M` at both ends, m; None without a reached target.
@@ -412,7 +427,7 @@ class PlacementResult:
     min_margin_fraction, inverse_condition, manipulability, clearance_share : array, grid shape
         Quality terms over the reached targets (NaN where none is reached).
     cycle_time : array, grid shape
-        s; NaN where a path is not reached on the candidate's branch (rail grids: the
+        s; NaN where a path is not reached on the candidate's branch (track cells: the
         track's travel included, module docstring).
     reached : array of bool, grid shape + (K,)
     q : array, grid shape + (K, n)
@@ -426,11 +441,12 @@ class PlacementResult:
     score_noise : float
         :func:`score_noise` of the grid.
     track_position : array, grid shape + (K,), or None
-        Rail grids: the track position of each reached target, m (NaN elsewhere).
+        Track cells (rail or base grid): the track position of each reached target, m
+        (NaN elsewhere).
     rail_travel : tuple of float or None
-        Rail grids: the track's configured travel ``(lower, upper)``, m.
+        Track cells: the track's configured travel ``(lower, upper)``, m.
     carriage_length : float
-        Rail grids: the carriage's length along the rail, m (0 otherwise).
+        Track cells: the carriage's length along the rail, m (0 otherwise).
     table_angle : array, grid shape + (K,), or None
         Table grids: the table angle of each reached target the table carries, rad (NaN
         elsewhere).
@@ -499,6 +515,7 @@ class _Rail:
     T_rail_base : (4, 4) robot base frame at track position 0 in the rail frame
     triple : (8,) row of the intervals' branch list for each row of BRANCHES
     samples : track positions of the interval sweep over the widened travel
+    foot_z : height of the robot's foot above the carriage top (a base grid's mounts)
     """
 
     scene: Scene
@@ -509,6 +526,7 @@ class _Rail:
     T_rail_base: FloatArray
     triple: npt.NDArray[np.int64]
     samples: int
+    foot_z: float = 0.0
 
 
 @dataclass(frozen=True, eq=False)
@@ -665,11 +683,11 @@ def _placement_chunk(
     tuple of arrays
         reached count (C,), branch (C,), margin fraction, inverse condition,
         manipulability, clearance share, cycle time (C,), reached (C, K),
-        q (C, K, n); for a rail grid also the track position of each reached
+        q (C, K, n); on a track cell also the track position of each reached
         target (C, K), m (:func:`_rail_chunk`).
     """
     if problem.rail is not None:
-        return _rail_chunk(problem, problem.rail, grid, start, stop)
+        return _rail_chunk(problem, problem.rail, grid, h, start, stop)
     T_world_base = _base_poses(problem, grid, h, start, stop)
     C = T_world_base.shape[0]
     P = problem.T_world_pose.shape[0]
@@ -890,6 +908,52 @@ def _rail_frames(rail: _Rail, grid: PlacementGrid, start: int, stop: int) -> Flo
     return T
 
 
+def _mounted(rail: _Rail, T_carriage_base: FloatArray) -> _Rail:
+    """Return the rail search's fixed parts with the robot mounted at ``T_carriage_base`` (4, 4)."""
+    external = rail.scene.external
+    track = external.track
+    assert track is not None  # a rail search's scene has a track
+    T_rail_base = np.eye(4)
+    T_rail_base[2, 3] = track.carriage_height
+    mounted = replace(external, track=replace(track, T_carriage_base=T_carriage_base))
+    return replace(
+        rail, scene=replace(rail.scene, external=mounted), T_rail_base=T_rail_base @ T_carriage_base
+    )
+
+
+def _candidate_rails(
+    problem: _Problem, rail: _Rail, grid: PlacementGrid, h: int, start: int, stop: int
+) -> tuple[FloatArray, list[tuple[_Rail, npt.NDArray[np.int64]]]]:
+    """Rail frames of flat candidates ``start..stop`` at height ``h``, and their robot mounts.
+
+    Returns the frames, shape (C, 4, 4), and the mounts: each the rail search's fixed parts
+    with the robot mounted on the carriage as some of the candidates have it
+    (:attr:`_Rail.T_rail_base`, the interval scene's carriage) and the rows it serves.
+
+    A rail grid's frames are :func:`_rail_frames` and its one mount the cell's. On a base
+    grid of a cell with a track the rail stays and a candidate is the robot's foot on the
+    carriage (module docstring): the foot at carriage-frame ``p = (x, y, z)`` turned by
+    ``R = Rz(yaw) Ry(pitch) Rx(roll)`` on a pedestal of height ``h`` gives ``T_world_base(s)
+    = T_world_rail Trans(s e_x + c e_z) Trans(p) R Trans(0, 0, h)``, and translations commute,
+    so the frame is ``T_world_rail Trans(p)`` and the mount ``R Trans(0, 0, h)``, one per yaw.
+    """
+    if grid.rail:
+        T_rail = _rail_frames(rail, grid, start, stop)
+        return T_rail, [(rail, np.arange(T_rail.shape[0]))]
+    iy, ix, iyaw = np.unravel_index(np.arange(start, stop), grid.shape[:3])
+    p = np.stack([grid.x[ix], grid.y[iy], np.full(ix.shape[0], rail.foot_z)], axis=1)
+    T_rail = np.tile(rail.T_world_rail, (ix.shape[0], 1, 1))
+    T_rail[:, :3, 3] += p @ rail.T_world_rail[:3, :3].T
+    lift = np.eye(4)
+    lift[2, 3] = grid.height[h]
+    mounts = []
+    for yaw in np.unique(iyaw).tolist():
+        T_carriage_base = np.eye(4)
+        T_carriage_base[:3, :3] = rotation_matrix_about_z(grid.yaw[yaw]) @ problem.R_foot
+        mounts.append((_mounted(rail, T_carriage_base @ lift), np.flatnonzero(iyaw == yaw)))
+    return T_rail, mounts
+
+
 def _longest_middle(intervals: FloatArray, tolerance: float) -> float:
     """Middle of the longest interval (the first of equal ones), NaN for none; (I, 2).
 
@@ -971,22 +1035,27 @@ def _chosen_axis_values(
 
 
 def _rail_chunk(
-    problem: _Problem, rail: _Rail, grid: PlacementGrid, start: int, stop: int
+    problem: _Problem, rail: _Rail, grid: PlacementGrid, h: int, start: int, stop: int
 ) -> tuple[FloatArray, ...]:
-    """Score the rail candidates ``start..stop`` (one executor chunk; module docstring).
+    """Score the candidates ``start..stop`` at height ``h`` of a track cell (one executor chunk).
 
-    Every pose is solved on every branch with the base where the track puts it for that
-    branch (:func:`_track_positions`); the scores follow as for a fixed base, the
-    slots of the eight branches side by side.
+    Rail lines of a rail grid, or the robot's foot on the carriage of a base grid
+    (:func:`_candidate_rails`; module docstring). Every pose is solved on every branch with
+    the base where the track puts it for that branch (:func:`_track_positions`); the scores
+    follow as for a fixed base, the slots of the eight branches side by side.
     """
-    T_rail = _rail_frames(rail, grid, start, stop)
+    T_rail, mounts = _candidate_rails(problem, rail, grid, h, start, stop)
     C, P, B = T_rail.shape[0], problem.T_world_pose.shape[0], BRANCHES.shape[0]
     n = problem.arm.robot.dof
-    s = _track_positions(problem, rail, T_rail)
+    s = np.empty((C, P, B))
+    T_rail_base = np.empty((C, 1, 1, 4, 4))
+    for mount, rows in mounts:
+        s[rows] = _track_positions(problem, mount, T_rail[rows])
+        T_rail_base[rows] = mount.T_rail_base
     placed = np.isfinite(s)
     T_world_base = np.broadcast_to(T_rail[:, None, None], (C, P, B, 4, 4)).copy()
     T_world_base[..., :3, 3] += np.where(placed, s, 0.0)[..., None] * T_world_base[..., :3, 0]
-    T_world_base = T_world_base @ rail.T_rail_base
+    T_world_base = T_world_base @ T_rail_base
     T_base_pose = invert_transform(T_world_base) @ problem.T_world_pose[None, :, None]
     ik = problem.solver.solve(T_base_pose.reshape(-1, 4, 4), T_flange_tool=problem.T_flange_tool)
     M = ik.n_slots
@@ -1015,7 +1084,7 @@ def _rail_chunk(
             for first, last in zip(starts, [*starts[1:], group.size], strict=True)
         )
         free[index], clear[index] = _free_and_clear(
-            problem, _own_scenes(problem, float(grid.height[0])), q[index], spans
+            problem, _own_scenes(problem, float(grid.height[h])), q[index], spans
         )
     counting = np.zeros((C, P, B, M, B), dtype=bool)
     for b in range(B):
@@ -1038,7 +1107,10 @@ def _rail_chunk(
 
 
 def _rail(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Rail:
-    """Return the rail search's fixed parts, its track travel widened to every candidate's needs."""
+    """Return the rail search's fixed parts, its track travel widened to every candidate's needs.
+
+    Also the fixed parts of a base grid's search on a track cell (:func:`_candidate_rails`).
+    """
     external = scene.external
     track = external.track
     if track is None:
@@ -1058,15 +1130,21 @@ def _rail(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Rail:
         T_rail_base=T_rail_base,
         triple=_branch_rows(scene),
         samples=2,
+        foot_z=float(m_from_mm(scene.cell.base.position_mm[2])),
     )
     # every pose's track coordinate on every candidate line, then the base's reach around it
-    T_rail = _rail_frames(rail, grid, 0, grid.size)
+    if grid.rail:
+        T_rail = _rail_frames(rail, grid, 0, grid.size)
+        lift = float(np.linalg.norm(T_rail_base[:3, 3]))
+    else:  # the frames hold the foot's place on the carriage (_candidate_rails)
+        T_rail = _candidate_rails(problem, rail, grid, 0, 0, grid.size // grid.shape[3])[0]
+        lift = track.carriage_height + float(grid.height.max())
     along = np.einsum(
         "ci,cpi->cp",
         T_rail[:, :3, 0],
         problem.T_world_pose[None, :, :3, 3] - T_rail[:, None, :3, 3],
     )
-    reach = _reach_bound(scene) + float(np.linalg.norm(T_rail_base[:3, 3]))
+    reach = _reach_bound(scene) + lift
     low = min(lower, float(along.min()) - reach)
     high = max(upper, float(along.max()) + reach)
     widened = replace(
@@ -1097,6 +1175,7 @@ def _rail_details(
 ) -> tuple[FloatArray, list[str], FloatArray, FloatArray]:
     """Rail frame, reasons, exact clearance per target and track positions of one rail candidate.
 
+    A base candidate on a track cell alike, its frame and mount from :func:`_candidate_rails`.
     Returns the candidate's rail frame (4, 4), why each target is not reached (``""``
     where it is; the first failing test: a track position at all, the required branch,
     the candidate's branch, collision there), the clearance of each reached target's
@@ -1104,9 +1183,11 @@ def _rail_details(
     position, m (NaN elsewhere), and every pose's track position on the candidate's
     branch, m, shape (P,) (NaN where the branch reaches it from no position).
     """
-    T_rail = _rail_frames(rail, grid, flat, flat + 1)
+    iy, ix, iyaw, ih = np.unravel_index(flat, grid.shape)
+    local = int(np.ravel_multi_index((iy, ix, iyaw), grid.shape[:3]))
+    T_rail, ((rail, _),) = _candidate_rails(problem, rail, grid, int(ih), local, local + 1)
     s = _track_positions(problem, rail, T_rail)[0]  # (P, 8)
-    support, _ = _own_scenes(problem, float(grid.height[0]))
+    support, _ = _own_scenes(problem, float(grid.height[ih]))
     environment = _environment_scene(problem, T_rail[0] @ rail.T_rail_base)
     clearance = np.full(problem.target_pose.shape[0], np.nan)
     reasons = []
@@ -1138,8 +1219,9 @@ def _problem(
 ) -> _Problem:
     """Poses, requirements, path structure and obstacles of the search (module docstring).
 
-    For a rail search (``rail``) the track's carriage, which rides with the robot, is left
-    out of the obstacles and the foot stands on the carriage at the track's height.
+    On a cell with a track (``rail``: every search there, :func:`search_base_placement`)
+    the track's carriage, which rides with the robot, is left out of the obstacles and
+    the foot stands on the carriage at the track's height.
     """
     targets = scene.targets
     if len(targets.names) == 0:
@@ -1311,12 +1393,16 @@ def search_base_placement(
     if grid is None:
         has_track = scene.external.track is not None
         grid = PlacementGrid.rail_around(scene) if has_track else PlacementGrid.around(scene)
-    problem = _problem(scene, float(collision_margin_m), float(clearance_goal_m), rail=grid.rail)
-    if grid.rail:
+    track = scene.external.track
+    # on a track the robot rides the carriage whichever search: each pose from its own position
+    problem = _problem(
+        scene, float(collision_margin_m), float(clearance_goal_m), rail=track is not None
+    )
+    if track is not None:
         problem = replace(problem, rail=_rail(scene, grid, problem))
     ny, nx, nyaw, nh = grid.shape
     per_height = ny * nx * nyaw
-    size = RAIL_CHUNK_CANDIDATES if grid.rail else CHUNK_CANDIDATES
+    size = RAIL_CHUNK_CANDIDATES if track is not None else CHUNK_CANDIDATES
     chunks = [
         (problem, grid, h, start, min(start + size, per_height))
         for h in range(nh)
@@ -1337,10 +1423,9 @@ def search_base_placement(
         return np.stack(layers, axis=1).reshape((ny, nx, nyaw, nh, *tail))
 
     scores = _grid_scores(gather, K, n)
-    position = gather(9, (K,)) if grid.rail else None
-    track = scene.external.track
+    position = gather(9, (K,)) if track is not None else None
     rail_travel = None
-    if grid.rail and track is not None:
+    if track is not None:
         rail_travel = (float(scene.external.lower[0]), float(scene.external.upper[0]))
     return PlacementResult(
         robot=scene.robot,
@@ -1504,11 +1589,11 @@ def _ranked(
                     reasons=tuple(reasons),
                     clearance=clearance,
                     blended_cycle_time=(
-                        _rail_blended_cycle_time(problem, problem.rail, frame, pose_track)
+                        _rail_blended_cycle_time(problem, grid, idx, frame, pose_track)
                         if blended
                         else None
                     ),
-                    rail_frame=frame,
+                    rail_frame=frame if grid.rail else None,
                     track_position=at,
                     travel_needed=(
                         (
@@ -1635,22 +1720,72 @@ def scene_on_rail(
 
 
 def _rail_blended_cycle_time(
-    problem: _Problem, rail: _Rail, T_world_rail: FloatArray, pose_track: FloatArray
+    problem: _Problem,
+    grid: PlacementGrid,
+    index: tuple[int, ...],
+    T_world_rail: FloatArray,
+    pose_track: FloatArray,
 ) -> float | None:
-    """Return the blended cycle time, s, of every path of one rail candidate.
+    """Return the blended cycle time, s, of every path of one candidate of a track cell.
 
-    The rail at ``T_world_rail`` and every Cartesian waypoint at its pose's track
-    position ``pose_track`` ((P,), m) on the candidate's branch
-    (:func:`scene_on_rail`); None where a waypoint has no position or a path cannot be
-    sampled or timed there (module docstring).
+    A rail candidate: the rail at ``T_world_rail``; a base candidate (grid index ``index``):
+    the rail where it is and the robot's foot on the carriage where the candidate puts it
+    (:func:`scene_on_carriage`). Every Cartesian waypoint at its pose's track position
+    ``pose_track`` ((P,), m) on the candidate's branch (:func:`scene_on_rail`); None where
+    a waypoint has no position or a path cannot be sampled or timed there (module docstring).
     """
+    rail = problem.rail
+    assert rail is not None  # a track cell's search
     positions = []
     for poses in problem.waypoint_pose:
         track = np.where(poses >= 0, pose_track[poses], np.nan)
         if np.any(np.isnan(track[poses >= 0])):
             return None
         positions.append(track)
-    return _paths_blended_cycle_time(scene_on_rail(rail.scene, T_world_rail, positions))
+    if grid.rail:
+        return _paths_blended_cycle_time(scene_on_rail(rail.scene, T_world_rail, positions))
+    iy, ix, iyaw, ih = index
+    T_carriage_foot = np.eye(4)
+    T_carriage_foot[:3, :3] = rotation_matrix_about_z(grid.yaw[iyaw]) @ problem.R_foot
+    T_carriage_foot[:3, 3] = (grid.x[ix], grid.y[iy], rail.foot_z)
+    mounted = scene_on_carriage(rail.scene, T_carriage_foot, float(grid.height[ih]))
+    return _paths_blended_cycle_time(scene_on_rail(mounted, rail.T_world_rail, positions))
+
+
+def scene_on_carriage(scene: Scene, T_carriage_foot: FloatArray, pedestal_height: float) -> Scene:
+    """Return a track cell's scene with the robot's foot moved on the carriage.
+
+    The foot (the pedestal's floor point) at ``T_carriage_foot`` (shape (4, 4)) in the
+    carriage-top frame, the robot on a pedestal of ``pedestal_height`` (m, >= 0; the
+    cell's pedestal radius) as the cell's ``base`` puts it on a track cell; the rail,
+    the carriage and the paths stay (joint-value waypoints' TCP poses move with the base).
+
+    Raises
+    ------
+    PlanningInputError
+        The scene has no track.
+    """
+    external = scene.external
+    track = external.track
+    if track is None:
+        raise PlanningInputError("placement on the carriage: the cell has no track")
+    lift = np.eye(4)
+    lift[2, 3] = pedestal_height
+    mounted = replace(external, track=replace(track, T_carriage_base=T_carriage_foot @ lift))
+    T_world_foot = track.T_world_carriage(external.values[0])[0] @ T_carriage_foot
+    radius_mm = scene.cell.base.pedestal_radius_mm
+    if pedestal_height > 0.0 and radius_mm is not None:  # as resolve_scene builds it
+        half = np.eye(4)
+        half[2, 3] = 0.5 * pedestal_height
+        pedestal = CylinderSet(
+            names=("pedestal",),
+            T_world=(T_world_foot @ half)[None],
+            radius=m_from_mm([radius_mm]),
+            half_length=np.array([0.5 * pedestal_height]),
+        )
+    else:
+        pedestal = CylinderSet((), np.zeros((0, 4, 4)), np.zeros(0), np.zeros(0))
+    return scene_with_base(replace(scene, external=mounted, pedestal=pedestal), T_world_foot @ lift)
 
 
 def _blended_cycle_time(scene: Scene, T_world_base: FloatArray) -> float | None:

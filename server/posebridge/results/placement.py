@@ -46,6 +46,11 @@ RAIL_NOTE = (
     "; rail search: each target from its own track position, both times with the track's "
     "travel (a joint move synchronised with it, a linear move at least as long as its own move)"
 )
+TRACK_BASE_NOTE = (
+    "; base search on a track cell: the robot's foot on the carriage, each target from its "
+    "own track position, both times with the track's travel (a joint move synchronised with "
+    "it, a linear move at least as long as its own move)"
+)
 TABLE_NOTE = (
     "; table search: each target on the table at its own table angle, the estimate with the "
     "table's turn (a joint move synchronised with it, a linear move at least as long as the "
@@ -115,8 +120,9 @@ class TargetPlacementReport(_Report):
     clearance_mm: float | None
     track_position_mm: float | None = Field(
         default=None,
-        description="Rail search: the track position the target is reached from (null for a "
-        "base search or where not reached).",
+        description="Cell with a track (rail search, or base search on a track cell): the "
+        "track position the target is reached from (null without a track or where not "
+        "reached).",
     )
     table_angle_deg: float | None = Field(
         default=None,
@@ -141,8 +147,8 @@ class PlacementCandidateReport(_Report):
     manipulability: float | None
     min_clearance_mm: float | None
     cycle_time_s: float | None = Field(
-        description="Rest-to-rest estimate over the cell's paths (upper bound; rail search: "
-        "the track's travel included); null if a path waypoint is not reached."
+        description="Rest-to-rest estimate over the cell's paths (upper bound; on a cell with "
+        "a track, the track's travel included); null if a path waypoint is not reached."
     )
     blended_cycle_time_s: float | None = Field(
         default=None,
@@ -369,6 +375,8 @@ def placement_result(result: PlacementResult) -> PlacementReport:
         "table" if grid.table_axis is not None else "rail" if grid.rail else "base"
     )
     note = {"base": "", "rail": RAIL_NOTE, "table": TABLE_NOTE}[search]
+    if search == "base" and result.track_position is not None:
+        note = TRACK_BASE_NOTE
     return PlacementReport(
         search=search,
         robot=robot.name,
