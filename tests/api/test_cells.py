@@ -192,6 +192,62 @@ async def test_replace_cell_invalid(client: httpx.AsyncClient) -> None:
     assert (await client.get("/api/cell")).json()["etag"] == seen["etag"]
 
 
+@pytest.mark.parametrize(
+    ("tables", "detail"),
+    [
+        # the demo's first fixture listed on two tables
+        (
+            [["FIRST"], ["FIRST"]],
+            "turntables[1].fixtures[0]: fixture 'FIRST' is already on turntable 0",
+        ),
+        # a child of it listed on the second table while the first turns it
+        (
+            [["FIRST"], ["clip"]],
+            "turntables[1].fixtures[0]: fixture 'clip' is already on turntable 0: its "
+            "parent chain reaches 'FIRST', listed there (a fixture turns with one table only)",
+        ),
+    ],
+)
+async def test_replace_cell_fixture_on_two_turntables(
+    tables: list[list[str]], detail: str, file_app: FastAPI, cell_file: Path
+) -> None:
+    before = cell_file.read_bytes()
+    async with _client(file_app) as client:
+        seen = (await client.get("/api/cell")).json()
+        cell = seen["cell"]
+        first = cell["fixtures"][0]["name"]
+        clip = {
+            "name": "clip",
+            "shape": "frame",
+            "parent": first,
+            "position_mm": [0, 0, 50],
+        }
+        turntable = {
+            "position_mm": [0.0, 0.0, 0.0],
+            "range_deg": [-90.0, 90.0],
+            "speed_deg_s": 60.0,
+            "accel_deg_s2": 120.0,
+            "plate_radius_mm": 200.0,
+        }
+        edited = {
+            **cell,
+            "fixtures": [*cell["fixtures"], clip],
+            "turntables": [
+                {
+                    **turntable,
+                    "name": f"table-{k}",
+                    "fixtures": [first if n == "FIRST" else n for n in listed],
+                }
+                for k, listed in enumerate(tables)
+            ],
+        }
+        response = await client.put("/api/cell", json=edited, headers={"If-Match": seen["etag"]})
+    assert response.status_code == 422
+    # a cell-level finding: the request body, then the field's JSON path
+    assert response.json() == {"detail": "request body: " + detail.replace("FIRST", first)}
+    assert cell_file.read_bytes() == before
+
+
 async def test_move_target_unknown(client: httpx.AsyncClient) -> None:
     etag = (await client.get("/api/cell")).json()["etag"]
     response = await client.patch(

@@ -12,6 +12,7 @@ from __future__ import annotations
 import json
 import math
 import xml.etree.ElementTree as ET
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -177,6 +178,50 @@ def test_external_axis_fields_are_validated(change: dict[str, Any], message: str
             data[key].update(value)
     with pytest.raises(CellFileError, match=message):
         validate_cell(data)
+
+
+def two_table_cell(second_lists: list[str]) -> dict[str, Any]:
+    """The tilted cell with a clamp on its jig and a second table listing ``second_lists``."""
+    data = tilted_cell()
+    data["fixtures"].append(
+        {"name": "clamp", "shape": "frame", "parent": "jig", "position_mm": [0.0, 0.0, 200.0]}
+    )
+    second = {**data["turntables"][0], "name": "second", "fixtures": second_lists}
+    data["turntables"].append(second)
+    return data
+
+
+@pytest.mark.parametrize(
+    ("second_lists", "message"),
+    [
+        # the jig listed on both tables
+        (["jig"], "turntables[1].fixtures[0]: fixture 'jig' is already on turntable 0"),
+        # the clamp hangs from the jig, which the first table turns: it would turn with both
+        (
+            ["clamp"],
+            "turntables[1].fixtures[0]: fixture 'clamp' is already on turntable 0: its parent "
+            "chain reaches 'jig', listed there (a fixture turns with one table only)",
+        ),
+    ],
+)
+def test_fixture_on_two_turntables_is_refused_at_load(
+    second_lists: list[str], message: str, tmp_path: Path
+) -> None:
+    path = tmp_path / "two-tables.json"
+    path.write_text(json.dumps({"schema_version": 1, **two_table_cell(second_lists)}))
+    with pytest.raises(CellFileError) as raised:
+        load_cell(path)
+    assert raised.value.problems == [message]
+
+
+def test_fixture_on_one_turntable_twice_over_its_parent_is_accepted() -> None:
+    # the first table lists the jig and its clamp: one table, the clamp turns once
+    data = two_table_cell([])
+    data["turntables"][0]["fixtures"] = ["jig", "clamp"]
+    scene = resolve_scene(validate_cell(data))
+    # the clamp is fixture 1 in file order, the jig 0: each carried by the first table only
+    assert scene.external.turntables[0].fixtures == (0, 1)
+    assert scene.external.turntables[1].fixtures == ()
 
 
 def test_fk_matches_pinocchio_on_composed_urdf(tilted: Scene) -> None:

@@ -685,13 +685,46 @@ def _parent_cycles(cell: Cell) -> list[tuple[str, str]]:
     return found
 
 
+def _tables_crossed(cell: Cell, listed: dict[str, int]) -> list[tuple[str, str]]:
+    """Fixtures listed on a turntable whose parent chain reaches one listed on another.
+
+    A table turns its listed fixtures and their children, so such a fixture would turn with
+    both tables; ``listed`` maps each listed fixture to the first table listing it. Reported
+    at the lower fixture's listing.
+    """
+    parent_of = {fixture.name: fixture.parent for fixture in cell.fixtures}
+    found = []
+    for t, table in enumerate(cell.turntables):
+        for f, name in enumerate(table.fixtures):
+            if listed.get(name) != t:
+                continue  # unknown, or listed twice (reported as such)
+            seen = {name}
+            above = parent_of.get(name)
+            while above is not None and above not in seen:  # a cycle is reported elsewhere
+                other = listed.get(above)
+                if other is not None and other != t:
+                    found.append(
+                        (
+                            f"turntables[{t}].fixtures[{f}]",
+                            f"fixture {name!r} is already on turntable {other}: its parent "
+                            f"chain reaches {above!r}, listed there (a fixture turns with one "
+                            "table only)",
+                        )
+                    )
+                    break
+                seen.add(above)
+                above = parent_of.get(above)
+    return found
+
+
 def reference_problems(cell: Cell) -> list[tuple[str, str]]:
     """Name and reference findings of a field-valid cell, as ``(json path, message)``.
 
     Names are unique within their kind; ``"world"`` is reserved; fixture
     parents, target fixtures and waypoint targets must exist; parent chains
-    must not form cycles; an ``approach`` waypoint needs a target with an
-    approach offset.
+    must not form cycles; a fixture rides one turntable at most (listed once,
+    and no parent chain from one table's fixture to another's); an
+    ``approach`` waypoint needs a target with an approach offset.
     """
     problems: list[tuple[str, str]] = []
     fixture_names = [fixture.name for fixture in cell.fixtures]
@@ -721,6 +754,7 @@ def reference_problems(cell: Cell) -> list[tuple[str, str]]:
                 )
             else:
                 carried[name] = t
+    problems += _tables_crossed(cell, carried)
     for i, fixture in enumerate(cell.fixtures):
         if fixture.name == WORLD:
             problems.append((f"fixtures[{i}].name", f"{WORLD!r} is reserved for the world frame"))

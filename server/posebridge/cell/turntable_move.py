@@ -20,8 +20,9 @@ A fixture's position is stored in its parent's frame (the world without one):
   parent's world rotation: ``T_parent T_parent_fixture' = Trans(d) T_parent
   T_parent_fixture`` (Lynch & Park, *Modern Robotics*, sec. 3.3.1).
 
-Orientations, other fixtures, world targets and pose waypoints do not change;
-a fixture listed on two turntables is not handled specially.
+Orientations, other fixtures, world targets and pose waypoints do not change.
+A fixture rides one table at most (the cell model refuses one listed on two
+tables, or hanging from another table's fixture).
 """
 
 from __future__ import annotations
