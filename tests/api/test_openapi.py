@@ -97,6 +97,7 @@ async def test_read_openapi_lists_every_route(client: httpx.AsyncClient) -> None
         "/api/cell/targets/{name}",
         "/api/cell/fixtures/{name}",
         "/api/cell/turntables/{name}",
+        "/api/cell/track",
         "/api/cell/base",
         "/api/cell/meshes",
         "/api/cell/meshes/{name}",
@@ -153,6 +154,7 @@ async def test_if_match_documented_as_required(client: httpx.AsyncClient) -> Non
         ("/api/cell/targets/{name}", "patch"),
         ("/api/cell/fixtures/{name}", "patch"),
         ("/api/cell/turntables/{name}", "patch"),
+        ("/api/cell/track", "patch"),
         ("/api/cell/paths/{name}/waypoints/{index}", "patch"),
         ("/api/cell/base", "patch"),
     ):

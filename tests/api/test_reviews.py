@@ -268,6 +268,27 @@ async def test_move_turntable_reviewer_forbidden(
     assert _digest(cell_file) == before
 
 
+async def test_move_track_reviewer_forbidden(
+    shared_app: FastAPI, token: str, cell_file: Path, clients: ClientFactory
+) -> None:
+    before = _digest(cell_file)
+    reviewer = clients(shared_app, headers=_bearer(token))
+    etag = (await reviewer.get("/api/cell")).json()["etag"]
+    for body in ({"home_mm": 100.0}, {"origin_mm": [0.0, 500.0, 0.0], "direction": [0, 1, 0]}):
+        response = await reviewer.patch("/api/cell/track", json=body, headers={"If-Match": etag})
+        assert response.status_code == 403
+        assert response.json() == {"detail": _read_only("PATCH", "/api/cell/track")}
+    assert _digest(cell_file) == before
+    # the owner reaches the route (the demo cell has no track)
+    owner = clients(shared_app, client=("127.0.0.1", 5000), base_url=OWNER_URL)
+    refused = await owner.patch(
+        "/api/cell/track", json={"home_mm": 100.0}, headers={"If-Match": etag}
+    )
+    assert refused.status_code == 404
+    assert refused.json() == {"detail": "track: the cell has no track"}
+    assert _digest(cell_file) == before
+
+
 async def test_move_pose_waypoint_reviewer_forbidden(
     shared_app: FastAPI, token: str, cell_file: Path, clients: ClientFactory
 ) -> None:

@@ -1,4 +1,4 @@
-"""The server's cell: read it, replace it, move a target, fixture, pose waypoint, turntable or the base.
+"""The server's cell: read it, replace it, move a target, fixture, pose waypoint, turntable, track or the base.
 
 Draw a mesh fixture, upload a mesh file as a new fixture.
 
@@ -37,6 +37,7 @@ from posebridge.api.schemas.cells import (
     ChainEndEdit,
     FixtureEdit,
     TargetEdit,
+    TrackEdit,
     TurntableEdit,
     WaypointEdit,
     WaypointJointsEdit,
@@ -47,6 +48,7 @@ from posebridge.api.schemas.meshes import MAX_UPLOAD_BYTES, MeshDrawing, MeshUpl
 from posebridge.cell.files import CellConflictError, CellSaveError, SaveFailure
 from posebridge.cell.model import MAX_WAYPOINTS, Cell, Fixture, MeshFixture, Pose, Target
 from posebridge.cell.scene import Scene
+from posebridge.cell.track_move import cell_with_track_moved
 from posebridge.cell.turntable_move import cell_with_turntable_at
 from posebridge.geometry.mesh_display import decimate_for_display, split_triangle_budget
 from posebridge.planning.sequence_report import with_waypoint_joints
@@ -329,6 +331,34 @@ def move_turntable(
     # made from the version read; another version than If-Match's is 412 before it is kept
     edited = cell_with_turntable_at(current.scene, name, edit.position_mm)
     return _saved(lambda: cells.edit(lambda _: edited, expected), robots, response)
+
+
+@router.patch("/track", summary="Move the track's rail or carriage", responses=_CHANGE_ERRORS)
+def move_track(
+    edit: TrackEdit, cells: CellsDep, robots: RobotsDep, response: Response, if_match: IfMatch
+) -> CellDocument:
+    """Set the rail frame, widen the travel or set the home position of the cell's track.
+
+    A rail placement candidate sends ``origin_mm``, ``direction`` and ``travel_needed_mm`` (the
+    server widens ``range_mm`` to hold the configured travel and the needed one, in whole
+    millimetres); a carriage drag sends ``home_mm``. The robot on the carriage rides with the
+    rail. 404 when the cell has no track.
+    """
+    expected = _expected_etag(if_match)
+
+    def change(cell: Cell) -> Cell:
+        # looked up in the version the edit was made from (a stale version is 412 first)
+        if cell.track is None:
+            raise HTTPException(status_code=404, detail="track: the cell has no track")
+        return cell_with_track_moved(
+            cell,
+            origin_mm=edit.origin_mm,
+            direction=edit.direction,
+            travel_needed_mm=edit.travel_needed_mm,
+            home_mm=edit.home_mm,
+        )
+
+    return _saved(lambda: cells.edit(change, expected), robots, response)
 
 
 def _pose_waypoint_index(cell: Cell, name: str, index: int) -> tuple[int, int]:

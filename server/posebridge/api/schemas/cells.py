@@ -35,6 +35,7 @@ __all__ = [
     "TargetDrawing",
     "TargetEdit",
     "ToolDrawing",
+    "TrackEdit",
     "TurntableEdit",
     "WaypointDrawing",
     "WaypointEdit",
@@ -50,6 +51,7 @@ Coordinate = Annotated[
 Angle = Annotated[float, Field(allow_inf_nan=False, ge=-360.0, le=360.0)]
 Position = Annotated[list[Coordinate], Field(min_length=3, max_length=3)]
 Rpy = Annotated[list[Angle], Field(min_length=3, max_length=3, description=_RPY)]
+Travel = Annotated[list[Coordinate], Field(min_length=2, max_length=2)]
 
 
 class ShapeDrawing(BaseModel):
@@ -287,6 +289,42 @@ class FixtureEdit(BaseModel):
         default="parent",
         description="Frame of the given pose: the fixture's parent (the world without one) "
         "or the world.",
+    )
+
+
+class TrackEdit(BaseModel):
+    """Move the track's rail, widen its travel or move its carriage; a field left out keeps its value.
+
+    Applying a rail placement candidate sends its rail's ``origin_mm``, ``direction`` and
+    ``travel_needed_mm``; dragging the carriage sends ``home_mm``. The server widens the travel:
+    ``range_mm`` becomes the smallest range of whole millimetres holding both the configured
+    travel and ``travel_needed_mm`` (never shorter than before). The robot on the carriage moves
+    with the rail; fixtures and targets stay. Refused (422): a zero or vertical direction, a
+    home outside the travel after widening, a needed travel with its ends swapped; a cell
+    without a track is 404.
+    """
+
+    model_config = ConfigDict(extra="forbid", strict=True)
+
+    origin_mm: Position | None = Field(
+        default=None,
+        description="Rail frame at track position 0 (rail top) in the world, e.g. a rail "
+        "placement candidate's rail.origin_mm.",
+    )
+    direction: Position | None = Field(
+        default=None,
+        description="Direction of travel in the world (any length but zero, not vertical), "
+        "e.g. a rail placement candidate's rail.direction.",
+    )
+    travel_needed_mm: Travel | None = Field(
+        default=None,
+        description="[lower, upper] track positions the targets need, e.g. a rail placement "
+        "candidate's rail.travel_needed_mm; the travel is widened to hold them.",
+    )
+    home_mm: Coordinate | None = Field(
+        default=None,
+        description="The track position the cell is shown at (the carriage's place); it must "
+        "lie in the travel.",
     )
 
 
