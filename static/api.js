@@ -117,6 +117,7 @@ export function createApiClient({ baseUrl = "" } = {}) {
     moveBase: (body, etag) => request("/api/cell/base", { method: "PATCH", body, ifMatch: etag }),
     moveTurntable: (name, body, etag) =>
       request(`/api/cell/turntables/${encodeURIComponent(name)}`, { method: "PATCH", body, ifMatch: etag }),
+    moveTrack: (body, etag) => request("/api/cell/track", { method: "PATCH", body, ifMatch: etag }),
     meshDrawing: (name, maxTriangles = null) =>
       request(`/api/cell/meshes/${encodeURIComponent(name)}${maxTriangles ? `?max_triangles=${maxTriangles}` : ""}`),
     uploadMesh: (body, etag) => request("/api/cell/meshes", { method: "POST", body, ifMatch: etag }),

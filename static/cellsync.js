@@ -275,9 +275,10 @@ export function createCellSync({ store, actions, api, linking }) {
   }
 
   /**
-   * Put the track's rail where a rail placement candidate has it (origin, direction) with a
-   * travel covering both the configured one and the one its targets need; saved at once,
-   * nothing is sent on a reviewer's page.
+   * Put the track's rail where a rail placement candidate has it (origin, direction); the
+   * server widens the travel to cover both the configured one and the one its targets need
+   * (`travel_needed_mm`, left out when the candidate reaches none). Saved at once, nothing is
+   * sent on a reviewer's page.
    */
   async function moveRail(rail) {
     const { cell, readOnly } = store.get();
@@ -288,12 +289,12 @@ export function createCellSync({ store, actions, api, linking }) {
     if (!cell || !cell.cell.track) {
       return;
     }
-    const track = cell.cell.track;
-    const needed = rail.travel_needed_mm || track.range_mm;
-    const range = [Math.min(track.range_mm[0], Math.floor(needed[0])), Math.max(track.range_mm[1], Math.ceil(needed[1]))];
-    const moved = { ...track, origin_mm: rail.origin_mm, direction: rail.direction, range_mm: range };
+    const edit = { origin_mm: [...rail.origin_mm], direction: [...rail.direction] };
+    if (rail.travel_needed_mm) {
+      edit.travel_needed_mm = [...rail.travel_needed_mm];
+    }
     try {
-      const document = await api.replaceCell({ ...cell.cell, track: moved }, cell.etag);
+      const document = await api.moveTrack(edit, cell.etag);
       store.update({ cell: document, cellSave: { state: "saved", message: "Saved the rail" } });
     } catch (error) {
       actions.setStatus("error", `Moving the rail: ${error.message}`);
@@ -338,7 +339,7 @@ export function createCellSync({ store, actions, api, linking }) {
       return;
     }
     try {
-      const document = await api.replaceCell({ ...cell.cell, track: { ...cell.cell.track, home_mm: valueMm } }, cell.etag);
+      const document = await api.moveTrack({ home_mm: valueMm }, cell.etag);
       store.update({ cell: document, carriage: null, cellSave: { state: "saved", message: "Saved the track position" } });
     } catch (error) {
       actions.setStatus("error", `Moving the track: ${error.message}`);

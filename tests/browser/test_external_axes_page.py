@@ -8,8 +8,10 @@ range, carriage length and turntable plate radius.
 from __future__ import annotations
 
 import json
+import math
 from pathlib import Path
 from typing import Any
+from urllib.parse import urlsplit
 
 import httpx
 import numpy as np
@@ -35,6 +37,19 @@ def _show_track_cell(open_page: Any, demo: dict[str, Any] | None = None) -> None
         " return Boolean(s.cell && s.cell.scene && s.cell.scene.external_axes.length === 2); }",
         timeout=180_000,
     )
+
+
+def _record_cell_writes(page: Any) -> list[tuple[str, str]]:
+    """Start recording the page's cell edits (method and path of every PUT/PATCH of /api/cell...)."""
+    writes: list[tuple[str, str]] = []
+
+    def seen(request: Any) -> None:
+        path = urlsplit(request.url).path
+        if request.method in ("PUT", "PATCH") and path.startswith("/api/cell"):
+            writes.append((request.method, path))
+
+    page.on("request", seen)
+    return writes
 
 
 def _plan_points(page: Any, name: str) -> np.ndarray:
@@ -125,12 +140,22 @@ def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_
     np.testing.assert_allclose(
         np.subtract(riding["tcp"], tcp_before), [riding["carriage"], 0.0, 0.0], atol=1e-6
     )
-    page.mouse.up()
+    writes = _record_cell_writes(page)
+    with page.expect_response(
+        lambda r: r.request.method == "PATCH" and r.url.endswith("/api/cell/track"),
+        timeout=120_000,
+    ) as moved:
+        page.mouse.up()
+    assert moved.value.status == 200
+    # the drop is saved through the track edit with the carriage's position only
+    sent = moved.value.request.post_data_json
+    assert list(sent) == ["home_mm"]
     page.wait_for_function(
         "() => { const s = window.posebridge.getState();"
         " return s.carriage === null && s.cell.scene.external_axes[0].value > 500; }",
         timeout=180_000,
     )
+    assert writes == [("PATCH", "/api/cell/track")]
     state = page.evaluate(
         "() => { const s = window.posebridge.getState();"
         " return {value: s.cell.scene.external_axes[0].value, base: s.cell.scene.base.position_mm,"
@@ -146,6 +171,7 @@ def test_dragging_the_carriage_moves_the_track_and_the_arm(open_page: Any, cell_
     saved = json.loads(cell_path.read_text())
     # the file keeps micrometres (rounded on save)
     assert saved["track"]["home_mm"] == pytest.approx(value, abs=1e-3) == state["file"]
+    assert sent["home_mm"] == pytest.approx(value, abs=1e-3)
     page.wait_for_function(
         "(x) => { const s = window.posebridge.getState();"
         " return Boolean(s.fk && s.fkJoints === s.joints"
@@ -263,20 +289,36 @@ def test_rail_placement_heatmap_on_the_track_cell(open_page: Any) -> None:
         ".find((d) => d.meta && d.meta.role === 'current-base'); return [t.x[0], t.y[0]]; }"
     )
     assert current == pytest.approx([0.0, 0.0])  # the demo's rail: offset 0, along +x
-    # applying the best candidate writes its rail into the cell
+    # applying the best candidate writes its rail into the cell, through the track edit
     best = placement["best"][0]
+    writes = _record_cell_writes(page)
     with page.expect_response(
-        lambda r: r.request.method == "PUT" and r.url.endswith("/api/cell"), timeout=120_000
+        lambda r: r.request.method == "PATCH" and r.url.endswith("/api/cell/track"),
+        timeout=120_000,
     ) as moved:
         page.click("#place-candidates li:nth-child(1)")
     assert moved.value.status == 200
+    sent = moved.value.request.post_data_json
+    rail = best["rail"]
+    assert sent["origin_mm"] == rail["origin_mm"]
+    assert sent["direction"] == rail["direction"]
+    assert sent.get("travel_needed_mm") == rail["travel_needed_mm"]  # left out when null
     track = moved.value.json()["cell"]["track"]
-    assert track["origin_mm"] == pytest.approx(best["rail"]["origin_mm"])
-    assert track["direction"] == pytest.approx(best["rail"]["direction"])
-    needed = best["rail"]["travel_needed_mm"] or [0.0, 4000.0]
-    # the travel covers the configured 0..4000 mm and the travel needed
-    assert track["range_mm"][0] <= min(0.0, needed[0])
-    assert track["range_mm"][1] >= max(4000.0, needed[1])
+    assert track["origin_mm"] == pytest.approx(rail["origin_mm"])
+    assert track["direction"] == pytest.approx(rail["direction"])
+    needed = rail["travel_needed_mm"] or [0.0, 4000.0]
+    # closed form (cell/track_move.py): [min(0, floor(n0)), max(4000, ceil(n1))] over the
+    # configured 0..4000 mm and the travel needed
+    assert track["range_mm"] == [
+        min(0.0, math.floor(needed[0])),
+        max(4000.0, math.ceil(needed[1])),
+    ]
+    page.wait_for_function(  # the page shows the saved cell
+        "(etag) => window.posebridge.getState().cell.etag === etag",
+        arg=moved.value.json()["etag"],
+        timeout=120_000,
+    )
+    assert writes == [("PATCH", "/api/cell/track")]
     assert open_page.problems.console_errors == []
 
 
