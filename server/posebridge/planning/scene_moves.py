@@ -1,4 +1,4 @@
-"""The scene with one thing of the cell moved: the robot's base, the track's rail, the foot on the carriage.
+"""The scene with one thing of the cell moved: the robot's base, the track's rail, the foot on the carriage, a turntable.
 
 Each returns a new :class:`~posebridge.cell.scene.Scene` (SI) as the cell so edited would
 resolve, with the paths' Cartesian poses that ride the moved thing moved along; the
@@ -19,7 +19,7 @@ from posebridge.planning.errors import PlanningInputError
 from posebridge.transforms import invert_transform
 from posebridge.units import FloatArray, m_from_mm
 
-__all__ = ["scene_on_carriage", "scene_on_rail", "scene_with_base"]
+__all__ = ["scene_on_carriage", "scene_on_rail", "scene_with_base", "scene_with_table_at"]
 
 
 def scene_with_base(scene: Scene, T_world_base: FloatArray) -> Scene:
@@ -131,3 +131,95 @@ def scene_on_carriage(scene: Scene, T_carriage_foot: FloatArray, pedestal_height
     else:
         pedestal = CylinderSet((), np.zeros((0, 4, 4)), np.zeros(0), np.zeros(0))
     return scene_with_base(replace(scene, external=mounted, pedestal=pedestal), T_world_foot @ lift)
+
+
+def scene_with_table_at(
+    scene: Scene, axis: int, xy: FloatArray, table_angle: Sequence[FloatArray]
+) -> Scene:
+    """Return the scene with one turntable's axis point at world ``(x, y)`` and the paths' table angles.
+
+    The table moves by ``Trans(d)``, ``d = (x - p_x, y - p_y, 0)`` (its height and axis
+    direction kept), carrying its plate, the fixtures it turns (children included), their
+    targets and the paths' target waypoints on them, as the cell file edit
+    :func:`posebridge.cell.turntable_move.cell_with_turntable_at` moves them; turning about
+    the moved line is ``D_(p+d) = Trans(d) D_p Trans(-d)``, so a carried pose at any table
+    angle is ``Trans(d)`` times its pose before the move. World poses, other fixtures and
+    joint-value waypoints (the robot does not move) stay.
+
+    Parameters
+    ----------
+    scene : Scene
+        A cell with a turntable.
+    axis : int
+        External-vector index of the turntable.
+    xy : array, shape (2,)
+        The axis point's new world x and y, m.
+    table_angle : sequence of arrays, shape (W_i,) each
+        Per path, the table angle of each waypoint, rad; NaN keeps the path's value.
+
+    Returns
+    -------
+    Scene
+
+    Raises
+    ------
+    PlanningInputError
+        ``axis`` is not a turntable of the scene.
+    """
+    external = scene.external
+    k = axis - external.table_offset
+    if not 0 <= k < len(external.turntables):
+        raise PlanningInputError(f"table placement: external axis {axis} is not a turntable")
+    table = external.turntables[k]
+    D = np.eye(4)
+    D[:2, 3] = np.asarray(xy, dtype=np.float64) - table.point[:2]
+    turntables = list(external.turntables)
+    turntables[k] = replace(table, point=table.point + D[:3, 3])
+    carried = {scene.fixture_names[i] for i in table.fixtures}
+    moving = carried | {f"{external.names[axis]} plate"}
+    T_world_fixture = scene.T_world_fixture.copy()
+    T_world_fixture[list(table.fixtures)] = D @ T_world_fixture[list(table.fixtures)]
+    targets = scene.targets
+    rows = [i for i, fixture in enumerate(targets.fixtures) if fixture in carried]
+    if rows:
+        T_target = targets.T_world_target.copy()
+        T_approach = targets.T_world_approach.copy()
+        T_target[rows] = D @ T_target[rows]
+        T_approach[rows] = D @ T_approach[rows]
+        targets = replace(targets, T_world_target=T_target, T_world_approach=T_approach)
+    on_table = set(rows)
+    paths = []
+    for path, angles in zip(scene.paths, table_angle, strict=True):
+        values = path.external.copy()
+        values[:, axis] = np.where(np.isnan(angles), values[:, axis], angles)
+        T_world_tool = path.T_world_tool.copy()
+        on = [w for w, t in enumerate(path.target_index.tolist()) if t in on_table]
+        T_world_tool[on] = D @ T_world_tool[on]
+        paths.append(replace(path, T_world_tool=T_world_tool, external=values))
+    return replace(
+        scene,
+        T_world_fixture=T_world_fixture,
+        boxes=replace(
+            scene.boxes, T_world=_moved(scene.boxes.names, scene.boxes.T_world, moving, D)
+        ),
+        cylinders=replace(
+            scene.cylinders,
+            T_world=_moved(scene.cylinders.names, scene.cylinders.T_world, moving, D),
+        ),
+        meshes=replace(
+            scene.meshes, T_world=_moved(scene.meshes.names, scene.meshes.T_world, moving, D)
+        ),
+        targets=targets,
+        paths=tuple(paths),
+        external=replace(external, turntables=tuple(turntables)),
+    )
+
+
+def _moved(
+    names: tuple[str, ...], T_world: FloatArray, moving: set[str], D: FloatArray
+) -> FloatArray:
+    """Return ``T_world`` (N, 4, 4) with the rows named in ``moving`` moved by ``D`` (4, 4)."""
+    T = T_world.copy()
+    rows = [i for i, name in enumerate(names) if name in moving]
+    T[rows] = D @ T[rows]
+    return T
