@@ -14,16 +14,19 @@ from posebridge.cell.external_axes import turntable_motion
 from posebridge.cell.files import load_cell
 from posebridge.cell.model import validate_cell
 from posebridge.cell.scene import Scene, posed_scene, resolve_scene
+from posebridge.cell.turntable_move import cell_with_turntable_at
 from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.planning.errors import PlanningInputError
-from posebridge.planning.placement import BRANCHES
+from posebridge.planning.path_check import check_path
+from posebridge.planning.placement import BLENDED_TOP, BRANCHES
 from posebridge.planning.placement_table import (
     search_mode,
     search_table_placement,
     table_axis,
     table_grid,
 )
+from posebridge.planning.scene_moves import scene_with_table_at
 from posebridge.planning.time_scaling import trapezoidal_profile
 from posebridge.resources import data_folder
 from posebridge.results.placement import placement_result, render_placement
@@ -296,3 +299,70 @@ def test_clearance_is_to_the_moved_and_turned_table() -> None:
             assert candidate.clearance[k] == pytest.approx(reference, abs=1e-9)
             checked += 1
     assert checked >= 4
+
+
+def test_scene_with_table_at_matches_the_cell_file_edit() -> None:
+    # a child fixture on the jig and a pose waypoint in the path: the child moves with the
+    # jig, the world pose stays
+    data = table_cell_data(path=True, via_mm=[450.0, 250.0, 0.0])
+    child = {"name": "clamp", "shape": "box", "parent": "jig", "position_mm": [0.0, 0.0, 80.0]}
+    data["fixtures"].append({**child, "size_mm": [20.0, 20.0, 20.0]})
+    data["targets"].append(
+        {"name": "on-clamp", "fixture": "clamp", "position_mm": [0.0, 0.0, 50.0]}
+    )
+    scene = resolve_scene(validate_cell(data))
+    xy = np.array([0.65, 0.2])
+    angles = [np.array([0.3, np.nan, -1.2])]
+    moved = scene_with_table_at(scene, 0, xy, angles)
+    # reference: the cell-file edit (cell_with_turntable_at), resolved afresh
+    edited = resolve_scene(cell_with_turntable_at(scene, "table-1", [650.0, 200.0, -100.0]))
+    np.testing.assert_allclose(moved.T_world_fixture, edited.T_world_fixture, atol=1e-12)
+    assert moved.boxes.names == edited.boxes.names
+    np.testing.assert_allclose(moved.boxes.T_world, edited.boxes.T_world, atol=1e-12)
+    np.testing.assert_allclose(moved.cylinders.T_world, edited.cylinders.T_world, atol=1e-12)
+    np.testing.assert_allclose(
+        moved.targets.T_world_target, edited.targets.T_world_target, atol=1e-12
+    )
+    np.testing.assert_allclose(
+        moved.targets.T_world_approach, edited.targets.T_world_approach, atol=1e-12
+    )
+    np.testing.assert_allclose(
+        moved.paths[0].T_world_tool, edited.paths[0].T_world_tool, atol=1e-12
+    )
+    np.testing.assert_allclose(  # the cell-file edit's table, at its new axis point
+        moved.external.turntables[0].point, edited.external.turntables[0].point, atol=1e-12
+    )
+    # the path's table angles: the given ones, NaN keeps the path's value (the cell's home)
+    np.testing.assert_allclose(moved.paths[0].external[:, 0], [0.3, 0.0, -1.2])  # the input above
+
+
+def test_blended_cycle_time_of_a_table_candidate_matches_the_path_check() -> None:
+    data = table_cell_data(path=True)
+    data["paths"][0]["waypoints"][0]["blend_mm"] = 50.0
+    scene = resolve_scene(validate_cell(data))
+    grid = table_grid(scene, x_mm=[550.0, 650.0, 750.0], y_mm=[-100.0, 100.0])
+    result = search_table_placement(scene, grid, top=grid.size)
+    checked = 0
+    for candidate in result.best:
+        if candidate.rank > BLENDED_TOP:
+            # our own contract: the blended time of the BLENDED_TOP best only
+            assert candidate.blended_cycle_time is None
+            continue
+        if not result.reached[candidate.index].all():
+            continue
+        assert candidate.table_angle is not None
+        assert candidate.blended_cycle_time is not None
+        iy, ix, _, _ = candidate.index
+        # reference: the path check (path_check / blended_timing) run on the applied candidate:
+        # the cell edited by cell_with_turntable_at, each target pinned at its chosen angle
+        edited = cell_with_turntable_at(
+            scene, "table-1", [1000.0 * grid.x[ix], 1000.0 * grid.y[iy], -100.0]
+        )
+        pinned = edited.model_dump(mode="json", exclude_none=True)
+        for target, angle in zip(pinned["targets"], candidate.table_angle, strict=True):
+            target["external_axes"] = {"table-1": float(np.degrees(angle))}
+        check = check_path(resolve_scene(validate_cell(pinned)), 0)
+        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)
+        checked += 1
+    assert checked >= 2
+    assert len(result.best) > BLENDED_TOP

@@ -101,7 +101,7 @@ between its ends, as :func:`posebridge.planning.cycle_time.path_cycle_time`
 times a path with ``external=``; one vectorised call per move for a whole
 chunk. Its **blended cycle time** (the :data:`BLENDED_TOP` best) is the path
 check's on the cell with the rail moved to the candidate's line and each
-Cartesian waypoint's track position the chosen one (:func:`scene_on_rail`).
+Cartesian waypoint's track position the chosen one (:func:`posebridge.planning.scene_moves.scene_on_rail`).
 
 **Base search on a track cell** (a base grid, ``--search base``). The cell's
 ``base`` is then the robot's foot on the carriage (its position, roll, pitch and
@@ -110,7 +110,8 @@ h)`` is that foot pose, as applying it writes it; the rail stays where it is and
 the robot still rides the track. Every pose is reached from its own track
 position and scored exactly as in the rail search (the same intervals, travel
 widening, clearance with the carriage left out, and track-inclusive cycle
-estimate and blended time, the blended one on :func:`scene_on_carriage`), so a
+estimate and blended time, the blended one on
+:func:`posebridge.planning.scene_moves.scene_on_carriage`), so a
 base candidate equal to the cell's placement gets the rail search's answer for
 the current line. Candidates of one yaw share a mount of the robot on the
 carriage (one interval call per yaw in a chunk; their ``x, y`` shift the rail
@@ -139,7 +140,7 @@ import numpy.typing as npt
 
 from posebridge.cell.clearance import cell_arm, clearance_scene, fixture_count
 from posebridge.cell.external_kinematics import branch_triples, feasible_intervals
-from posebridge.cell.scene import CylinderSet, Scene
+from posebridge.cell.scene import Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.shapes import (
@@ -151,7 +152,6 @@ from posebridge.geometry.shapes import (
     default_pair_mask,
 )
 from posebridge.kinematics.branches import branch_geometry, branch_words, labels_match
-from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import IkSolver, ik_solver
 from posebridge.kinematics.jacobian import jacobian_base
 from posebridge.kinematics.metrics import (
@@ -166,6 +166,7 @@ from posebridge.planning.cycle_time import (
 )
 from posebridge.planning.errors import PlanningInputError, check_non_negative
 from posebridge.planning.path_sampling import branch_requirement
+from posebridge.planning.scene_moves import scene_on_carriage, scene_on_rail, scene_with_base
 from posebridge.planning.time_scaling import trapezoidal_profile
 from posebridge.robot.model import Robot
 from posebridge.transforms import (
@@ -183,9 +184,6 @@ __all__ = [
     "PlacementGrid",
     "PlacementResult",
     "RankedCandidate",
-    "scene_on_carriage",
-    "scene_on_rail",
-    "scene_with_base",
     "search_base_placement",
 ]
 
@@ -1644,81 +1642,6 @@ def score_noise(score: FloatArray, fraction: FloatArray) -> float:
     return float(np.median(values)) if values.size else 0.0
 
 
-def scene_with_base(scene: Scene, T_world_base: FloatArray) -> Scene:
-    """Return the scene with the robot base at ``T_world_base`` (shape (4, 4)).
-
-    The TCP poses of joint-value waypoints move with the base; every other pose stays.
-    """
-    paths = []
-    for path in scene.paths:
-        given = path.joints_given
-        if not np.any(given):
-            paths.append(path)
-            continue
-        T_world_tool = path.T_world_tool.copy()
-        T_bases = scene.external.T_world_base(path.external[given], T_world_base)
-        T_world_tool[given] = T_bases @ fk_tool(scene.robot, path.q[given], scene.T_flange_tool)
-        paths.append(replace(path, T_world_tool=T_world_tool))
-    return replace(scene, T_world_base=T_world_base, paths=tuple(paths))
-
-
-def scene_on_rail(
-    scene: Scene, T_world_rail: FloatArray, track_position: Sequence[FloatArray]
-) -> Scene:
-    """Return the scene with its track's rail at ``T_world_rail`` and the paths' track positions.
-
-    Everything the carriage carries (robot base, pedestal, carriage) moves with the
-    rail, at the scene's own track value; the TCP poses of joint-value waypoints move
-    with the base at their own external values; every other pose stays.
-
-    Parameters
-    ----------
-    scene : Scene
-        A cell with a track.
-    T_world_rail : array, shape (4, 4)
-        The new rail frame (track position 0, x along the travel).
-    track_position : sequence of arrays, shape (W_i,) each
-        Per path, the track position of each waypoint, m; NaN keeps the path's value.
-
-    Returns
-    -------
-    Scene
-    """
-    external = scene.external
-    track = external.track
-    if track is None:
-        raise PlanningInputError("rail placement: the cell has no track")
-    moved = replace(external, track=replace(track, T_world_rail=T_world_rail))
-    at = external.values[None]
-    T_world_base = moved.T_world_base(at, scene.T_world_base)[0]
-    D = T_world_base @ invert_transform(external.T_world_base(at, scene.T_world_base)[0])
-    carriage = f"{external.names[0]} carriage"
-    boxes = scene.boxes
-    rows = [i for i, name in enumerate(boxes.names) if name == carriage]
-    if rows:
-        T_box = boxes.T_world.copy()
-        T_box[rows] = D @ T_box[rows]
-        boxes = replace(boxes, T_world=T_box)
-    paths = []
-    for path, positions in zip(scene.paths, track_position, strict=True):
-        values = path.external.copy()
-        values[:, 0] = np.where(np.isnan(positions), values[:, 0], positions)
-        T_world_tool = path.T_world_tool.copy()
-        given = path.joints_given
-        if np.any(given):
-            T_bases = moved.T_world_base(values[given], T_world_base)
-            T_world_tool[given] = T_bases @ fk_tool(scene.robot, path.q[given], scene.T_flange_tool)
-        paths.append(replace(path, T_world_tool=T_world_tool, external=values))
-    return replace(
-        scene,
-        T_world_base=T_world_base,
-        pedestal=replace(scene.pedestal, T_world=D @ scene.pedestal.T_world),
-        boxes=boxes,
-        paths=tuple(paths),
-        external=moved,
-    )
-
-
 def _rail_blended_cycle_time(
     problem: _Problem,
     grid: PlacementGrid,
@@ -1730,8 +1653,8 @@ def _rail_blended_cycle_time(
 
     A rail candidate: the rail at ``T_world_rail``; a base candidate (grid index ``index``):
     the rail where it is and the robot's foot on the carriage where the candidate puts it
-    (:func:`scene_on_carriage`). Every Cartesian waypoint at its pose's track position
-    ``pose_track`` ((P,), m) on the candidate's branch (:func:`scene_on_rail`); None where
+    (:func:`~posebridge.planning.scene_moves.scene_on_carriage`). Every Cartesian waypoint at its pose's track position
+    ``pose_track`` ((P,), m) on the candidate's branch (:func:`posebridge.planning.scene_moves.scene_on_rail`); None where
     a waypoint has no position or a path cannot be sampled or timed there (module docstring).
     """
     rail = problem.rail
@@ -1750,42 +1673,6 @@ def _rail_blended_cycle_time(
     T_carriage_foot[:3, 3] = (grid.x[ix], grid.y[iy], rail.foot_z)
     mounted = scene_on_carriage(rail.scene, T_carriage_foot, float(grid.height[ih]))
     return _paths_blended_cycle_time(scene_on_rail(mounted, rail.T_world_rail, positions))
-
-
-def scene_on_carriage(scene: Scene, T_carriage_foot: FloatArray, pedestal_height: float) -> Scene:
-    """Return a track cell's scene with the robot's foot moved on the carriage.
-
-    The foot (the pedestal's floor point) at ``T_carriage_foot`` (shape (4, 4)) in the
-    carriage-top frame, the robot on a pedestal of ``pedestal_height`` (m, >= 0; the
-    cell's pedestal radius) as the cell's ``base`` puts it on a track cell; the rail,
-    the carriage and the paths stay (joint-value waypoints' TCP poses move with the base).
-
-    Raises
-    ------
-    PlanningInputError
-        The scene has no track.
-    """
-    external = scene.external
-    track = external.track
-    if track is None:
-        raise PlanningInputError("placement on the carriage: the cell has no track")
-    lift = np.eye(4)
-    lift[2, 3] = pedestal_height
-    mounted = replace(external, track=replace(track, T_carriage_base=T_carriage_foot @ lift))
-    T_world_foot = track.T_world_carriage(external.values[0])[0] @ T_carriage_foot
-    radius_mm = scene.cell.base.pedestal_radius_mm
-    if pedestal_height > 0.0 and radius_mm is not None:  # as resolve_scene builds it
-        half = np.eye(4)
-        half[2, 3] = 0.5 * pedestal_height
-        pedestal = CylinderSet(
-            names=("pedestal",),
-            T_world=(T_world_foot @ half)[None],
-            radius=m_from_mm([radius_mm]),
-            half_length=np.array([0.5 * pedestal_height]),
-        )
-    else:
-        pedestal = CylinderSet((), np.zeros((0, 4, 4)), np.zeros(0), np.zeros(0))
-    return scene_with_base(replace(scene, external=mounted, pedestal=pedestal), T_world_foot @ lift)
 
 
 def _blended_cycle_time(scene: Scene, T_world_base: FloatArray) -> float | None:

@@ -39,7 +39,16 @@ of its TCP trapezoid and the table's own turn between its ends. A waypoint on
 the table takes its pose's chosen angle, a joint waypoint its given table value,
 any other waypoint holds the angle of the waypoint before it in its path (the
 first ones that of the first waypoint with an angle; the current angle when no
-waypoint has one). No blended cycle time is computed for table candidates.
+waypoint has one).
+
+**Blended cycle time** (the :data:`~posebridge.planning.placement.BLENDED_TOP`
+best, as the other searches): the path check's blended timing of every path on
+the scene with the table moved to the candidate's position and each waypoint at
+the table angle the estimate gives it
+(:func:`posebridge.planning.scene_moves.scene_with_table_at`; a waypoint on the
+table at its pose's chosen angle on the candidate's branch, other columns of the
+external vector as the path states them); None where a waypoint on the table
+has no angle there or a path cannot be sampled or timed.
 
 :func:`search_mode` names the search a front door runs for ``auto``: a cell
 with a track searches its rail (a cell with a track and a turntable too), a cell
@@ -59,13 +68,14 @@ import numpy.typing as npt
 
 from posebridge.cell.external_axes import turntable_motion
 from posebridge.cell.external_kinematics import carrier_axis, feasible_intervals
-from posebridge.cell.scene import Scene
+from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.shapes import ObstacleSet, default_pair_mask
 from posebridge.kinematics.branches import labels_match
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.placement import (
+    BLENDED_TOP,
     BRANCHES,
     PlacementGrid,
     PlacementResult,
@@ -79,10 +89,12 @@ from posebridge.planning.placement import (
     _grid_scores,
     _GridScores,
     _own_scenes,
+    _paths_blended_cycle_time,
     _Problem,
     _problem,
     _ranked_rows,
 )
+from posebridge.planning.scene_moves import scene_with_table_at
 from posebridge.transforms import invert_transform
 from posebridge.units import BoolArray, FloatArray, rad_from_deg
 
@@ -210,6 +222,38 @@ class _Table:
     samples: int
 
 
+def _waypoint_angle_sources(
+    scene: Scene, problem: _Problem, axis: int, carried: BoolArray, path: ResolvedPath
+) -> list[tuple[int, float]]:
+    """Where each waypoint's table angle comes from: (pose, NaN) or (-1, angle), rad (module docstring).
+
+    A waypoint on the table takes its pose's angle, a joint waypoint its given table value,
+    any other waypoint holds the angle of the waypoint before it in its path (the first
+    ones that of the first waypoint with an angle, the current angle when none has one).
+    Pose indices of target waypoints follow :func:`posebridge.planning.placement._problem`.
+    """
+    angle0 = float(scene.external.values[axis])
+    specs: list[tuple[int, float] | None] = []
+    for w, source in enumerate(path.sources):
+        if source == "joints":
+            given = path.external[w, axis] if path.external.shape[1] > axis else angle0
+            specs.append((-1, float(given)))
+        elif source == "pose":
+            specs.append(None)  # a world pose: the table holds its angle
+        else:
+            k = int(path.target_index[w])
+            approach = bool(path.approach[w]) and problem.approach_pose[k] >= 0
+            p = int(problem.approach_pose[k] if approach else problem.target_pose[k])
+            specs.append((p, math.nan) if carried[p] else None)
+    known = [spec for spec in specs if spec is not None]
+    held = known[0] if known else (-1, angle0)
+    filled = []
+    for spec in specs:
+        held = held if spec is None else spec
+        filled.append(held)
+    return filled
+
+
 def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray) -> _AxisMoves:
     """Where the table angle at both ends of every move of the cell's paths comes from (module docstring).
 
@@ -217,30 +261,12 @@ def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray)
     any other waypoint holds the angle of the waypoint before it in its path. Pose indices
     of target waypoints follow :func:`posebridge.planning.placement._problem`.
     """
-    angle0 = float(scene.external.values[axis])
     ends: dict[bool, tuple[list[tuple[int, int]], list[tuple[float, float]]]] = {
         False: ([], []),
         True: ([], []),
     }
     for path in scene.paths:
-        specs: list[tuple[int, float] | None] = []  # (pose, value) of each waypoint
-        for w, source in enumerate(path.sources):
-            if source == "joints":
-                given = path.external[w, axis] if path.external.shape[1] > axis else angle0
-                specs.append((-1, float(given)))
-            elif source == "pose":
-                specs.append(None)  # a world pose: the table holds its angle
-            else:
-                k = int(path.target_index[w])
-                approach = bool(path.approach[w]) and problem.approach_pose[k] >= 0
-                p = int(problem.approach_pose[k] if approach else problem.target_pose[k])
-                specs.append((p, math.nan) if carried[p] else None)
-        known = [spec for spec in specs if spec is not None]
-        held = known[0] if known else (-1, angle0)
-        filled = []
-        for spec in specs:
-            held = held if spec is None else spec
-            filled.append(held)
+        filled = _waypoint_angle_sources(scene, problem, axis, carried, path)
         for w in range(1, len(path.sources)):
             sources, values = ends[bool(path.linear[w])]
             sources.append((filled[w - 1][0], filled[w][0]))
@@ -542,22 +568,50 @@ def _ranked(
     for flat, idx, shared in _ranked_rows(
         problem.arm.robot, problem.T_flange_tool, grid, scores, top
     ):
-        reasons, clearance = _details(
+        reasons, clearance, pose_angle = _details(
             problem, table, grid, flat, int(scores.branch[idx]), scores.q[idx]
         )
         at = angle[idx]
+        iy, ix = idx[0], idx[1]
         used = at[np.isfinite(at)]
         best.append(
             RankedCandidate(
                 **shared,
                 reasons=tuple(reasons),
                 clearance=clearance,
-                blended_cycle_time=None,
+                blended_cycle_time=(
+                    _table_blended_cycle_time(
+                        problem, table, np.array([grid.x[ix], grid.y[iy]]), pose_angle
+                    )
+                    if shared["rank"] <= BLENDED_TOP
+                    else None
+                ),
                 table_angle=at,
                 table_span=(float(used.min()), float(used.max())) if used.size else None,
             )
         )
     return tuple(best)
+
+
+def _table_blended_cycle_time(
+    problem: _Problem, table: _Table, xy: FloatArray, pose_angle: FloatArray
+) -> float | None:
+    """Return the blended cycle time, s, of every path of one table candidate (module docstring).
+
+    The table's axis point at ``xy`` ((2,), m; :func:`scene_with_table_at`), every waypoint's
+    table angle from :func:`_waypoint_angle_sources` with each pose at ``pose_angle``
+    ((P,), rad, the candidate's branch); None where a waypoint on the table has no angle or
+    a path cannot be sampled or timed there.
+    """
+    scene = table.scene
+    angles = []
+    for path in scene.paths:
+        sources = _waypoint_angle_sources(scene, problem, table.axis, table.carried, path)
+        values = np.array([pose_angle[p] if p >= 0 else v for p, v in sources])
+        if np.any(np.isnan(values)):
+            return None
+        angles.append(values)
+    return _paths_blended_cycle_time(scene_with_table_at(scene, table.axis, xy, angles))
 
 
 def _pose_reason(solved: _Solved, carried: bool, p: int, branch: int) -> str:
@@ -580,14 +634,15 @@ def _pose_reason(solved: _Solved, carried: bool, p: int, branch: int) -> str:
 
 def _details(
     problem: _Problem, table: _Table, grid: PlacementGrid, flat: int, branch: int, q: FloatArray
-) -> tuple[list[str], FloatArray]:
-    """Reasons and exact clearance per target of one table candidate.
+) -> tuple[list[str], FloatArray, FloatArray]:
+    """Reasons, exact clearance per target and table angles per pose of one table candidate.
 
     Why each target is not reached (``""`` where it is; its pose, then its approach pose,
     the first failing test: reach at some table angle, joint limits, the required branch,
     the candidate's branch, collision there) and the clearance of each reached target's
     configuration to fixtures, keep-outs, pedestal and floor, the table where it puts it, m
-    (NaN elsewhere).
+    (NaN elsewhere), and every pose's table angle on ``branch``, rad, shape (P,) (NaN where
+    the branch reaches a carried pose at no angle).
     """
     solved = _solve(problem, table, grid, flat, flat + 1)
     support, _ = _own_scenes(problem, float(grid.height[0]))
@@ -615,4 +670,4 @@ def _details(
             reason = _pose_reason(solved, bool(table.carried[a]), a, branch)
             reason = f"approach pose {reason}" if reason else ""
         reasons.append(reason or "reachable only on another branch than the candidate's")
-    return reasons, clearance
+    return reasons, clearance, solved.theta[0, :, branch]

@@ -54,7 +54,8 @@ TRACK_BASE_NOTE = (
 TABLE_NOTE = (
     "; table search: each target on the table at its own table angle, the estimate with the "
     "table's turn (a joint move synchronised with it, a linear move at least as long as the "
-    "turn, a waypoint off the table holding the angle before it); no blended time"
+    "turn, a waypoint off the table holding the angle before it), the blended time with the "
+    "table moved and each waypoint at that angle"
 )
 SCORE_WORDS = (
     "The score is the share of the targets the robot reaches on one arm branch, plus at "
