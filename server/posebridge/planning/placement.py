@@ -139,7 +139,7 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.cell.clearance import cell_arm, clearance_scene, fixture_count
-from posebridge.cell.external_kinematics import branch_triples, feasible_intervals
+from posebridge.cell.external_kinematics import AxisIntervals, branch_triples, feasible_intervals
 from posebridge.cell.scene import Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
@@ -952,25 +952,51 @@ def _candidate_rails(
     return T_rail, mounts
 
 
-def _longest_middle(intervals: FloatArray, tolerance: float) -> float:
-    """Middle of the longest interval (the first of equal ones), NaN for none; (I, 2).
+def _longest_middles(
+    ends: FloatArray,
+    offsets: npt.NDArray[np.intp],
+    first: npt.NDArray[np.int64],
+    second: npt.NDArray[np.int64],
+    tolerance: float,
+) -> FloatArray:
+    """Middle of the longest interval of each group, NaN for none, shape (G,).
 
-    Lengths within ``2 * tolerance`` (each end is known to ``tolerance``) are equal,
-    so mirror-image intervals keep the first whatever their ends' rounding.
+    Group ``g`` holds the intervals ``ends[offsets[f] : offsets[f + 1]]`` of list
+    ``f = first[g]`` (``ends`` (I, 2), ``offsets`` as in
+    :class:`~posebridge.cell.external_kinematics.AxisIntervals`); where ``second[g] >= 0``
+    they are intersected with those of list ``second[g]``: every pair
+    ``[max(lo_a, lo_b), min(hi_a, hi_b)]`` with ``max <= min``, the first list's intervals
+    outer. Lengths within ``2 * tolerance`` of the longest (each end is known to
+    ``tolerance``) are equal and the first of them wins, so mirror-image intervals keep the
+    first whatever their ends' rounding. All groups at once: the pairs are laid out group
+    by group (``np.repeat``), the longest per group is ``np.maximum.at``.
     """
-    if intervals.shape[0] == 0:
-        return math.nan
-    lengths = intervals[:, 1] - intervals[:, 0]
-    longest = int(np.argmax(lengths >= np.max(lengths) - 2.0 * tolerance))
-    return float(0.5 * (intervals[longest, 0] + intervals[longest, 1]))
-
-
-def _intersection(a: FloatArray, b: FloatArray) -> FloatArray:
-    """Intersection of two unions of closed intervals (I, 2) and (J, 2), shape (L, 2)."""
-    lo = np.maximum(a[:, None, 0], b[None, :, 0])
-    hi = np.minimum(a[:, None, 1], b[None, :, 1])
-    keep = hi >= lo
-    return np.stack([lo[keep], hi[keep]], axis=1)
+    G = first.shape[0]
+    paired = second >= 0
+    count_a = offsets[first + 1] - offsets[first]
+    other = np.where(paired, second, 0)
+    count_b = np.where(paired, offsets[other + 1] - offsets[other], 1)
+    sizes = count_a * count_b
+    group = np.repeat(np.arange(G), sizes)
+    within = np.arange(group.shape[0]) - np.repeat(np.cumsum(sizes) - sizes, sizes)
+    width = count_b[group]
+    a = ends[offsets[first[group]] + within // width]
+    lo, hi = a[:, 0].copy(), a[:, 1].copy()
+    both = paired[group]
+    b = ends[offsets[other[group[both]]] + within[both] % width[both]]
+    lo[both] = np.maximum(lo[both], b[:, 0])
+    hi[both] = np.minimum(hi[both], b[:, 1])
+    keep = ~both | (hi >= lo)
+    group, lo, hi = group[keep], lo[keep], hi[keep]
+    length = hi - lo
+    longest = np.full(G, -np.inf)
+    np.maximum.at(longest, group, length)
+    near = np.flatnonzero(length >= longest[group] - 2.0 * tolerance)
+    chosen, at = np.unique(group[near], return_index=True)
+    out = np.full(G, np.nan)
+    pick = near[at]
+    out[chosen] = 0.5 * (lo[pick] + hi[pick])
+    return out
 
 
 def _track_positions(problem: _Problem, rail: _Rail, T_rail: FloatArray) -> FloatArray:
@@ -985,50 +1011,49 @@ def _track_positions(problem: _Problem, rail: _Rail, T_rail: FloatArray) -> Floa
     C, P = T_rail.shape[0], problem.T_world_pose.shape[0]
     moved = rail.T_world_rail @ invert_transform(T_rail)[:, None] @ problem.T_world_pose[None]
     found = feasible_intervals(rail.scene, moved.reshape(-1, 4, 4), 0, samples=rail.samples)
-    poses = np.arange(P)
-    return np.stack(
-        [
-            _chosen_axis_values(
-                problem, poses, found.intervals[c * P : (c + 1) * P], rail.triple, found.tolerance
-            )
-            for c in range(C)
-        ]
-    ).reshape(C, P, BRANCHES.shape[0])
+    return _chosen_axis_values(problem, np.arange(P), found, rail.triple).reshape(
+        C, P, BRANCHES.shape[0]
+    )
 
 
 def _chosen_axis_values(
     problem: _Problem,
     poses: npt.NDArray[np.int64],
-    intervals: Sequence[Sequence[FloatArray]],
+    found: AxisIntervals,
     triple: npt.NDArray[np.int64],
-    tolerance: float,
 ) -> FloatArray:
-    """External axis value of each pose of ``poses`` on every branch, shape (Q, 8).
+    """External axis value of each pose of ``poses`` on every branch, shape (K, 8).
 
-    The middle of the longest feasible interval (:func:`_longest_middle`); a target and
+    The middle of the longest feasible interval (:func:`_longest_middles`); a target and
     its approach pose share one value, in the intersection of their intervals (module
-    docstring). ``intervals[i]`` are the per-branch intervals of ``poses[i]`` (the
-    branch list of :func:`posebridge.cell.external_kinematics.feasible_intervals`),
-    ``triple`` maps each row of :data:`BRANCHES` to it. NaN where the branch reaches
-    the pose at no value.
+    docstring). ``found`` holds K = R * Q targets: R blocks of the Q poses of ``poses``
+    (its target ``r * Q + i`` is ``poses[i]``), its branch list that of
+    :func:`posebridge.cell.external_kinematics.feasible_intervals`; ``triple`` maps each
+    row of :data:`BRANCHES` to it. NaN where the branch reaches the pose at no value.
     """
-    local = {p: i for i, p in enumerate(poses.tolist())}
-    partner = np.full(problem.T_world_pose.shape[0], -1, dtype=np.int64)
+    Q, B = poses.shape[0], len(found.branches)
+    R = (found.offsets.shape[0] - 1) // (B * Q) if Q else 0
+    P = problem.T_world_pose.shape[0]
+    local = np.full(P, -1, dtype=np.int64)
+    local[poses] = np.arange(Q)
     has = problem.approach_pose >= 0
+    partner = np.full(P, -1, dtype=np.int64)
     partner[problem.target_pose[has]] = problem.approach_pose[has]
-    followers = set(problem.approach_pose[has].tolist())
-    out = np.full((len(poses), BRANCHES.shape[0]), np.nan)
-    for i, p in enumerate(poses.tolist()):
-        if p in followers:
-            continue
-        j = local.get(int(partner[p]))
-        for b, t in enumerate(triple.tolist()):
-            spans = (
-                intervals[i][t] if j is None else _intersection(intervals[i][t], intervals[j][t])
-            )
-            out[i, b] = _longest_middle(spans, tolerance)
-            if j is not None:
-                out[j, b] = out[i, b]
+    follower = np.zeros(P, dtype=bool)
+    follower[problem.approach_pose[has]] = True
+    leads = np.flatnonzero(~follower[poses])
+    mate = np.where(partner[poses[leads]] >= 0, local[partner[poses[leads]]], -1)
+    block = np.arange(R)[:, None] * Q
+    lead_rows = (block + leads).ravel()
+    mate_rows = np.where(mate >= 0, block + mate, -1).ravel()
+    first = (lead_rows[:, None] * B + triple).ravel()
+    second = np.where(mate_rows[:, None] >= 0, mate_rows[:, None] * B + triple, -1).ravel()
+    chosen = _longest_middles(found.ends, found.offsets, first, second, found.tolerance)
+    chosen = chosen.reshape(lead_rows.shape[0], BRANCHES.shape[0])
+    out = np.full((R * Q, BRANCHES.shape[0]), np.nan)
+    out[lead_rows] = chosen
+    shared = mate_rows >= 0
+    out[mate_rows[shared]] = chosen[shared]
     return out
 
 

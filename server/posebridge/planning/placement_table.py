@@ -352,9 +352,7 @@ def _table_angles(problem: _Problem, table: _Table, shift: FloatArray) -> FloatA
         found = feasible_intervals(
             moved, problem.T_world_pose[rows], table.axis, samples=table.samples
         )
-        theta[c, rows] = _chosen_axis_values(
-            problem, rows, found.intervals, table.triple, found.tolerance
-        )
+        theta[c, rows] = _chosen_axis_values(problem, rows, found, table.triple)
     return theta
 
 
