@@ -23,6 +23,7 @@ and :mod:`posebridge.transforms`. Every array of a scene is read-only
 
 from __future__ import annotations
 
+from collections.abc import Collection
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Literal
@@ -215,6 +216,22 @@ class TargetSet:
             return self.names.index(name)
         except ValueError:
             raise KeyError(name) from None
+
+    def moved_on(self, fixtures: Collection[str], D: FloatArray) -> TargetSet:
+        """Return the targets with those on ``fixtures`` moved by the rigid motion ``D``.
+
+        A target on one of the named fixtures gets ``D @ T_world_target`` and
+        ``D @ T_world_approach`` (``D``: (4, 4), world frame); the others stay.
+        Returns ``self`` when no target is on them.
+        """
+        rows = [i for i, fixture in enumerate(self.fixtures) if fixture in fixtures]
+        if not rows:
+            return self
+        T_target = self.T_world_target.copy()
+        T_approach = self.T_world_approach.copy()
+        T_target[rows] = D @ T_target[rows]
+        T_approach[rows] = D @ T_approach[rows]
+        return replace(self, T_world_target=T_target, T_world_approach=T_approach)
 
 
 @dataclass(frozen=True, eq=False)
@@ -871,13 +888,7 @@ def posed_scene(scene: Scene, values: npt.ArrayLike) -> Scene:
             cylinders, T_world=_moved(cylinders.names, cylinders.T_world, carried, D)
         )
         meshes = replace(meshes, T_world=_moved(meshes.names, meshes.T_world, carried, D))
-        rows = [i for i, f in enumerate(targets.fixtures) if f in carried]
-        if rows:
-            T_target = targets.T_world_target.copy()
-            T_approach = targets.T_world_approach.copy()
-            T_target[rows] = D @ T_target[rows]
-            T_approach[rows] = D @ T_approach[rows]
-            targets = replace(targets, T_world_target=T_target, T_world_approach=T_approach)
+        targets = targets.moved_on(carried, D)
     return replace(
         scene,
         T_world_base=T_world_base,
