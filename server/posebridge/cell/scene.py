@@ -23,7 +23,7 @@ and :mod:`posebridge.transforms`. Every array of a scene is read-only
 
 from __future__ import annotations
 
-from collections.abc import Collection
+from collections.abc import Collection, Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Literal
@@ -75,6 +75,7 @@ __all__ = [
     "Scene",
     "TargetSet",
     "WaypointSource",
+    "pinned_values",
     "posed_scene",
     "resolve_scene",
 ]
@@ -622,6 +623,19 @@ def _plate_cylinders(external: ExternalAxes, names: tuple[str, ...]) -> Cylinder
     )
 
 
+def pinned_values(external: ExternalAxes, pins: Mapping[str, float]) -> FloatArray:
+    """External values of a target waypoint: the cell's values with the target's pins, shape (m,).
+
+    ``pins`` maps axis names to user values (mm for the track, deg for a turntable, the
+    target's ``external_axes``); every other axis stays at the cell's value, m or rad.
+    """
+    values = external.values.copy()
+    for axis, value in pins.items():
+        i = external.index(axis)
+        values[i] = external.si_from_user(np.where(np.arange(external.count) == i, value, 0.0))[i]
+    return values
+
+
 def _resolve_path(
     path: MotionPath,
     robot: Robot,
@@ -648,11 +662,7 @@ def _resolve_path(
             target_index[w] = k
             table = targets.T_world_approach if waypoint.approach else targets.T_world_target
             T_world_tool[w] = table[k]
-            for axis, value in pins[k].items():  # a target's pinned external values
-                i = external.index(axis)
-                values[w, i] = external.si_from_user(
-                    np.where(np.arange(external.count) == i, value, 0.0)
-                )[i]
+            values[w] = pinned_values(external, pins[k])
         elif waypoint.pose is not None:
             sources.append("pose")
             T_world_tool[w] = _pose_si(waypoint.pose.position_mm, waypoint.pose.rpy_deg)
