@@ -1,6 +1,6 @@
 """Table placement for a turntable cell: closed-form reach of a planar arm to targets turning on
-a table, a brute-force sweep of the table angle, the cycle time with the table's turn, and the
-demo track cell."""
+a table, a brute-force sweep of the table angle, the cycle time with the table's turn, the
+demo track cell, and a track cell whose targets are solved at their pinned track positions."""
 
 from __future__ import annotations
 
@@ -366,3 +366,119 @@ def test_blended_cycle_time_of_a_table_candidate_matches_the_path_check() -> Non
         checked += 1
     assert checked >= 2
     assert len(result.best) > BLENDED_TOP
+
+
+TRACK_PIN_MM = 2000.0  # the table target's pinned track position (the track's current: 0)
+TRACK_GRID_X_MM = [1450.0 + 200.0 * i for i in range(9)]  # 1450 .. 3050 mm, y = 0
+
+
+def track_table_cell_data(*, path: bool = False) -> dict[str, Any]:
+    """pb-planar2r on a track along world x (at 0, its base at the origin) and a turntable
+    2 m along it carrying a jig with one target, pinned at track TRACK_PIN_MM; one world target
+    near the robot, unpinned, and one 3.5 m along, pinned at 3000 mm, all in the arm's plane."""
+    data = table_cell_data()  # the table, its plate and jig, moved 2 m along x
+    data["turntables"][0]["position_mm"][0] = 2000.0
+    data["fixtures"][0]["position_mm"][0] = 2000.0
+    data["track"] = {
+        "origin_mm": [0.0, 0.0, -200.0],
+        "direction": [1.0, 0.0, 0.0],
+        "range_mm": [0.0, 3000.0],
+        "speed_mm_s": 1000.0,
+        "accel_mm_s2": 2000.0,
+        "carriage_height_mm": 200.0,
+    }
+    data["targets"] = [
+        {"name": "by-home", "position_mm": [500.0, 0.0, 0.0]},
+        {
+            "name": "on-table",
+            "fixture": "jig",
+            "position_mm": [1000.0 * RADII[0], 0.0, 200.0],
+            "external_axes": {"track": TRACK_PIN_MM},
+        },
+        {"name": "far-side", "position_mm": [3500.0, 0.0, 0.0], "external_axes": {"track": 3000.0}},
+    ]
+    if path:
+        waypoints = [{"target": "by-home"}, {"target": "on-table"}]
+        data["paths"] = [
+            {
+                "name": "fetch",
+                "waypoints": [{**w, "motion": "joint", "speed_percent": 100.0} for w in waypoints],
+            }
+        ]
+    return data
+
+
+def test_table_targets_are_solved_at_their_pinned_track_position() -> None:
+    scene = resolve_scene(validate_cell(track_table_cell_data()))
+    assert scene.external.values[0] == 0.0  # the track stands at 0, away from every pin
+    grid = table_grid(scene, x_mm=TRACK_GRID_X_MM, y_mm=[0.0])
+    result = search_table_placement(scene, grid, top=grid.size)
+    table = scene.external.turntables[0]
+    pinned = {0: 0.0, 1: TRACK_PIN_MM / 1000.0, 2: 3.0}  # m, the cell's track value per target
+    sweep = np.radians(np.linspace(-180.0, 180.0, 3601))  # 0.1 deg steps
+    D = np.array(TRACK_GRID_X_MM) / 1000.0 - pinned[1]  # table axis from the robot's, on x
+    # closed form (as test_table_position_follows_the_reach_of_the_arm): from the pinned track
+    # position the carried target turns on a circle whose distance from the robot's first
+    # axis runs over [||D| - r|, |D| + r]; the arm reaches [INNER, l1 + l2]
+    r = RADII[0]
+    expected = (np.abs(np.abs(D) - r) <= L1 + L2) & (np.abs(D) + r >= INNER)
+    assert expected.any()  # the grid holds both verdicts
+    assert not expected.all()
+    np.testing.assert_array_equal(result.reached[0, :, 0, 0, 1], expected)
+    assert result.reached[0, :, 0, 0, 0].all()  # by-home: |0.5| in [INNER, 0.7] at track 0
+    assert result.reached[0, :, 0, 0, 2].all()  # far-side: 0.5 m from the base at 3000 mm
+    for ix in range(len(TRACK_GRID_X_MM)):
+        shift = np.array([grid.x[ix] - table.point[0], 0.0, 0.0])
+        turn = turntable_motion(table.point, table.axis, sweep)  # the table's turn, current 0
+        turn[:, :3, 3] += shift
+        for k, s in pinned.items():
+            # reference: the IK solved directly with the base at the target's pinned track
+            # position (ExternalAxes.T_world_base), the carried target over a dense sweep of
+            # the table angle; nothing collides, so reach within limits decides
+            T_world_base = scene.external.T_world_base([[s, 0.0]], scene.T_world_base)[0]
+            T_world = scene.targets.T_world_target[k]
+            poses = turn @ T_world if k == 1 else T_world[None]
+            ik = solve_ik_all(
+                scene.robot,
+                invert_transform(T_world_base) @ poses,
+                T_flange_tool=scene.T_flange_tool,
+            )
+            feasible = bool(np.any(ik.valid & ik.within_limits))
+            assert result.reached[0, ix, 0, 0, k] == feasible
+            if not feasible:
+                continue
+            # the reported configuration, from the pinned base, puts the TCP on the target
+            # (forward kinematics of the chain; on the table at the reported angle)
+            q = result.q[0, ix, 0, 0, k]
+            tcp = T_world_base @ fk_tool(scene.robot, q[None], scene.T_flange_tool)[0]
+            if k == 1:
+                angle = result.table_angle[0, ix, 0, 0, k]  # type: ignore[index]
+                T_world = turntable_motion(table.point, table.axis, [angle])[0] @ T_world
+                T_world[:3, 3] += shift
+            np.testing.assert_allclose(tcp[:2, 3], T_world[:2, 3], atol=1e-6)
+
+
+def test_cycle_time_of_a_track_and_table_cell_includes_the_track_move() -> None:
+    # by-home (track 0) -> on-table (pinned at TRACK_PIN_MM): one joint move of the arm, the
+    # track and the table; the table holds on-table's angle from the start (module docstring)
+    scene = resolve_scene(validate_cell(track_table_cell_data(path=True)))
+    grid = table_grid(scene, x_mm=[2250.0], y_mm=[0.0])
+    result = search_table_placement(scene, grid, top=1)
+    candidate = result.best[0]
+    assert result.reached[candidate.index][:2].all()
+    q = result.q[candidate.index]
+    robot = scene.robot
+    v = np.r_[robot.velocity_max, 1.0, np.radians(90.0)]  # the track's and table's limits above
+    a = np.r_[robot.acceleration_max, 2.0, np.radians(180.0)]
+    delta = np.r_[q[1] - q[0], TRACK_PIN_MM / 1000.0, 0.0]
+    expected = synchronised_trapezoid_s(delta, v, a)  # closed form, Lynch & Park (above)
+    assert float(result.cycle_time[candidate.index]) == pytest.approx(expected, rel=1e-9)
+    # the blended time of the same candidate: the path check on the applied candidate (the
+    # cell edited by cell_with_turntable_at, on-table pinned at its chosen angle as well)
+    assert candidate.blended_cycle_time is not None
+    assert candidate.table_angle is not None
+    edited = cell_with_turntable_at(scene, "table-1", [2250.0, 0.0, -100.0])
+    data = edited.model_dump(mode="json", exclude_none=True)
+    data["targets"][1]["external_axes"]["table-1"] = float(np.degrees(candidate.table_angle[1]))
+    check = check_path(resolve_scene(validate_cell(data)), 0)
+    assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)

@@ -23,6 +23,7 @@ and :mod:`posebridge.transforms`. Every array of a scene is read-only
 
 from __future__ import annotations
 
+from collections.abc import Collection, Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Literal
@@ -74,6 +75,7 @@ __all__ = [
     "Scene",
     "TargetSet",
     "WaypointSource",
+    "pinned_values",
     "posed_scene",
     "resolve_scene",
 ]
@@ -215,6 +217,22 @@ class TargetSet:
             return self.names.index(name)
         except ValueError:
             raise KeyError(name) from None
+
+    def moved_on(self, fixtures: Collection[str], D: FloatArray) -> TargetSet:
+        """Return the targets with those on ``fixtures`` moved by the rigid motion ``D``.
+
+        A target on one of the named fixtures gets ``D @ T_world_target`` and
+        ``D @ T_world_approach`` (``D``: (4, 4), world frame); the others stay.
+        Returns ``self`` when no target is on them.
+        """
+        rows = [i for i, fixture in enumerate(self.fixtures) if fixture in fixtures]
+        if not rows:
+            return self
+        T_target = self.T_world_target.copy()
+        T_approach = self.T_world_approach.copy()
+        T_target[rows] = D @ T_target[rows]
+        T_approach[rows] = D @ T_approach[rows]
+        return replace(self, T_world_target=T_target, T_world_approach=T_approach)
 
 
 @dataclass(frozen=True, eq=False)
@@ -605,6 +623,19 @@ def _plate_cylinders(external: ExternalAxes, names: tuple[str, ...]) -> Cylinder
     )
 
 
+def pinned_values(external: ExternalAxes, pins: Mapping[str, float]) -> FloatArray:
+    """External values of a target waypoint: the cell's values with the target's pins, shape (m,).
+
+    ``pins`` maps axis names to user values (mm for the track, deg for a turntable, the
+    target's ``external_axes``); every other axis stays at the cell's value, m or rad.
+    """
+    values = external.values.copy()
+    for axis, value in pins.items():
+        i = external.index(axis)
+        values[i] = external.si_from_user(np.where(np.arange(external.count) == i, value, 0.0))[i]
+    return values
+
+
 def _resolve_path(
     path: MotionPath,
     robot: Robot,
@@ -631,11 +662,7 @@ def _resolve_path(
             target_index[w] = k
             table = targets.T_world_approach if waypoint.approach else targets.T_world_target
             T_world_tool[w] = table[k]
-            for axis, value in pins[k].items():  # a target's pinned external values
-                i = external.index(axis)
-                values[w, i] = external.si_from_user(
-                    np.where(np.arange(external.count) == i, value, 0.0)
-                )[i]
+            values[w] = pinned_values(external, pins[k])
         elif waypoint.pose is not None:
             sources.append("pose")
             T_world_tool[w] = _pose_si(waypoint.pose.position_mm, waypoint.pose.rpy_deg)
@@ -871,13 +898,7 @@ def posed_scene(scene: Scene, values: npt.ArrayLike) -> Scene:
             cylinders, T_world=_moved(cylinders.names, cylinders.T_world, carried, D)
         )
         meshes = replace(meshes, T_world=_moved(meshes.names, meshes.T_world, carried, D))
-        rows = [i for i, f in enumerate(targets.fixtures) if f in carried]
-        if rows:
-            T_target = targets.T_world_target.copy()
-            T_approach = targets.T_world_approach.copy()
-            T_target[rows] = D @ T_target[rows]
-            T_approach[rows] = D @ T_approach[rows]
-            targets = replace(targets, T_world_target=T_target, T_world_approach=T_approach)
+        targets = targets.moved_on(carried, D)
     return replace(
         scene,
         T_world_base=T_world_base,

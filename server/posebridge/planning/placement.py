@@ -487,10 +487,11 @@ class _AxisMoves:
     """Where the external axes' values at both ends of every move come from (SI).
 
     joint_source : (J, 2) pose whose solved axis values an end of joint move ``j`` takes
-        (the order of the problem's ``joint_ends``), -1 for ``joint_value``
+        (the order of the problem's ``joint_ends``), -1 for ``joint_value``; or (J, 2, m),
+        one source per axis
     joint_value : (J, 2, m) the end's values where its source is -1, m or rad
-    linear_source, linear_value : the same for the linear moves, (L, 2) and (L, 2, m)
-        (the order of the problem's ``linear_duration``)
+    linear_source, linear_value : the same for the linear moves, (L, 2) or (L, 2, m) and
+        (L, 2, m) (the order of the problem's ``linear_duration``)
     limits : (2, m) velocity and acceleration limits of the m axes
     """
 
@@ -830,8 +831,9 @@ def _cycle_times(
                 int(problem.joint_ends[j, side]), problem.joint_given[j, side], q_pose
             )
             if external is not None:
-                source = int(moves.joint_source[j, side])
-                axes = _end_values(source, moves.joint_value[j, side], external)
+                axes = _axis_end_values(
+                    moves.joint_source[j, side], moves.joint_value[j, side], external
+                )
                 end = np.concatenate([end, axes], axis=1)
             ends.append(end)
         total += _move_durations(
@@ -841,8 +843,8 @@ def _cycle_times(
         duration = np.full(C, problem.linear_duration[i])
         if external is not None and external.shape[2] > 0:
             start, end = (
-                _end_values(
-                    int(moves.linear_source[i, side]), moves.linear_value[i, side], external
+                _axis_end_values(
+                    moves.linear_source[i, side], moves.linear_value[i, side], external
                 )
                 for side in range(2)
             )
@@ -860,6 +862,25 @@ def _end_values(pose: int, given: FloatArray, per_pose: FloatArray) -> FloatArra
     if pose < 0:
         return np.broadcast_to(given, (per_pose.shape[0], given.shape[0]))
     return per_pose[:, pose]
+
+
+def _axis_end_values(
+    source: npt.NDArray[np.int64], given: FloatArray, per_pose: FloatArray
+) -> FloatArray:
+    """External values at one end of a move for every candidate, shape (C, m).
+
+    ``source`` is one pose index for all m axes (shape ()) or one per axis (shape (m,));
+    each as :func:`_end_values` (``given`` (m,), ``per_pose`` (C, P, m)).
+    """
+    if source.ndim == 0:
+        return _end_values(int(source), given, per_pose)
+    return np.concatenate(
+        [
+            _end_values(int(pose), given[a : a + 1], per_pose[..., a : a + 1])
+            for a, pose in enumerate(source.tolist())
+        ],
+        axis=1,
+    )
 
 
 def _move_durations(

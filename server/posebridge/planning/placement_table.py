@@ -1,7 +1,6 @@
 """Base placement for a turntable cell: search where the table stands.
 
-The robot stays where it is (on a track, at its current position); a candidate
-moves one turntable (:func:`table_axis`: the one the user names, else the first
+The robot stays where it is; a candidate moves one turntable (:func:`table_axis`: the one the user names, else the first
 that carries a target) so that its axis point is at world ``(x, y)``, its height
 and axis direction kept. The fixtures it carries, their children, their targets
 and the table's plate move with it; every other fixture (a stand under the table
@@ -15,15 +14,26 @@ with ``D_p0`` the table's turn about its current axis line
 (:func:`posebridge.cell.external_axes.turntable_motion`; a turn about the moved
 line is ``Trans(delta) D_p0 Trans(-delta)``) and ``theta_0`` its current angle.
 
+**Where the robot stands** (a cell with a track too): every pose is solved with the
+robot's base where the track puts it for that pose as the path check does, so the
+estimate and the blended time below agree: a target and its approach pose at the
+target's pinned track value, else at the track's current value, and a path's world
+pose at the current value (a target waypoint's external values,
+:func:`posebridge.cell.scene.pinned_values`; the track is not searched here, so the
+choice rule of :func:`posebridge.cell.external_kinematics.choose_external_value`,
+which keeps pinned values too, is not run). The poses that share a base share one
+interval call and one clearance span; a cell without a track has one base.
+
 Each carried pose is reached from its own table angle: per pose and branch, the
 middle of the longest feasible interval of the table angle
 (:func:`posebridge.cell.external_kinematics.feasible_intervals` over the
 configured range, swept every :data:`TABLE_SWEEP_SPACING_RAD` and refined to
-0.01 deg; reach and joint limits), with the robot's base moved by ``-delta``
-(the same relative placement as the table moved by ``+delta``); a target and its
-approach pose share one angle in the intersection of their intervals, as the
-rail search does (:mod:`posebridge.planning.placement`). Poses the table does
-not carry are solved where they are, the table at its current angle.
+0.01 deg; reach and joint limits), with the robot's base (the pose's) moved by
+``-delta`` (the same relative placement as the table moved by ``+delta``); a
+target and its approach pose share one angle in the intersection of their
+intervals, as the rail search does (:mod:`posebridge.planning.placement`).
+Poses the table does not carry are solved where they are, the table at its
+current angle.
 The poses are then solved there and counted and scored exactly as the base and
 rail searches do (:func:`posebridge.planning.placement._chunk_scores`: score,
 ties, score noise). Clearance: the arm against the fixed obstacles with the base
@@ -32,10 +42,13 @@ turned poses, checked as the arm moved by the inverse of the table's motion
 against them unmoved (distances do not change under a rigid motion of both).
 
 **Cycle time estimate** (rest to rest, as the other searches): a joint move
-runs the robot joints and the table angle on one synchronised trapezoid over
-``n + 1`` values (:func:`posebridge.planning.cycle_time.joint_move_durations`
-with the table's speed and acceleration limits); a linear move lasts the longer
-of its TCP trapezoid and the table's own turn between its ends. A waypoint on
+runs the robot joints, the track (a cell with one) and the table angle on one
+synchronised trapezoid over ``n + 1`` (``n + 2``) values
+(:func:`posebridge.planning.cycle_time.joint_move_durations` with the axes'
+speed and acceleration limits); a linear move lasts the longer of its TCP
+trapezoid and the axes' own move between its ends. The track's value at a
+waypoint is the path's (a target's pin, a joint waypoint's given value, else
+the current value: where the pose is solved). A waypoint on
 the table takes its pose's chosen angle, a joint waypoint its given table value,
 any other waypoint holds the angle of the waypoint before it in its path (the
 first ones that of the first waypoint with an angle; the current angle when no
@@ -61,6 +74,7 @@ from __future__ import annotations
 import math
 import threading
 from dataclasses import dataclass, replace
+from itertools import pairwise
 from typing import Any, Literal
 
 import numpy as np
@@ -68,7 +82,7 @@ import numpy.typing as npt
 
 from posebridge.cell.external_axes import turntable_motion
 from posebridge.cell.external_kinematics import carrier_axis, feasible_intervals
-from posebridge.cell.scene import ResolvedPath, Scene
+from posebridge.cell.scene import ResolvedPath, Scene, pinned_values
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.shapes import ObstacleSet, default_pair_mask
@@ -200,7 +214,10 @@ class _Table:
     point, direction : its current axis point (3,) and unit axis (3,)
     angle0 : its current angle, rad
     carried : (P,) the pose rides the table
-    T_world_base : (4, 4) the robot's base
+    pose_values : (P, m) the cell's external values at each pose as the path check takes a
+        target waypoint's (:func:`posebridge.cell.scene.pinned_values`), m or rad
+    T_world_base : (P, 4, 4) the robot's base at each pose (where the track puts it there)
+    base_group : (P,) index of each pose's base among the distinct ones
     fixed, fixed_mask : obstacles that stay and the arm's pairs with them
     moving, moving_mask : the plate and the carried fixtures
     triple : (8,) row of the intervals' branch list for each row of BRANCHES
@@ -213,7 +230,9 @@ class _Table:
     direction: FloatArray
     angle0: float
     carried: BoolArray
+    pose_values: FloatArray
     T_world_base: FloatArray
+    base_group: npt.NDArray[np.int64]
     fixed: ObstacleSet
     fixed_mask: BoolArray
     moving: ObstacleSet
@@ -254,14 +273,22 @@ def _waypoint_angle_sources(
     return filled
 
 
-def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray) -> _AxisMoves:
-    """Where the table angle at both ends of every move of the cell's paths comes from (module docstring).
+def _estimate_axes(scene: Scene, axis: int) -> list[int]:
+    """External axes the cycle estimate times: the track (when the cell has one), then the table."""
+    return [axis] if scene.external.track is None else [0, axis]
 
-    A waypoint on the table takes its pose's angle, a joint waypoint its given table value,
-    any other waypoint holds the angle of the waypoint before it in its path. Pose indices
-    of target waypoints follow :func:`posebridge.planning.placement._problem`.
+
+def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray) -> _AxisMoves:
+    """Where the axes' values at both ends of every move of the cell's paths come from (module docstring).
+
+    Per axis of :func:`_estimate_axes`: the track's value is the path's (a target's pin, a
+    joint waypoint's given value, else the cell's); for the table a waypoint on it takes
+    its pose's angle, a joint waypoint its given table value, any other waypoint holds
+    the angle of the waypoint before it in its path. Pose indices of target waypoints
+    follow :func:`posebridge.planning.placement._problem`.
     """
-    ends: dict[bool, tuple[list[tuple[int, int]], list[tuple[float, float]]]] = {
+    axes = _estimate_axes(scene, axis)
+    ends: dict[bool, tuple[list[list[list[int]]], list[list[list[float]]]]] = {
         False: ([], []),
         True: ([], []),
     }
@@ -269,12 +296,19 @@ def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray)
         filled = _waypoint_angle_sources(scene, problem, axis, carried, path)
         for w in range(1, len(path.sources)):
             sources, values = ends[bool(path.linear[w])]
-            sources.append((filled[w - 1][0], filled[w][0]))
-            values.append((filled[w - 1][1], filled[w][1]))
+            end_sources, end_values = [], []
+            for v in (w - 1, w):
+                pose, angle = filled[v]
+                track = [float(path.external[v, 0])] if len(axes) > 1 else []
+                end_sources.append([-1] * len(track) + [pose])
+                end_values.append([*track, angle])
+            sources.append(end_sources)
+            values.append(end_values)
+    m = len(axes)
     joint, linear = (
         (
-            np.array(ends[kind][0], dtype=np.int64).reshape(-1, 2),
-            np.array(ends[kind][1], dtype=np.float64).reshape(-1, 2, 1),
+            np.array(ends[kind][0], dtype=np.int64).reshape(-1, 2, m),
+            np.array(ends[kind][1], dtype=np.float64).reshape(-1, 2, m),
         )
         for kind in (False, True)
     )
@@ -284,7 +318,7 @@ def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray)
         joint_value=joint[1],
         linear_source=linear[0],
         linear_value=linear[1],
-        limits=np.array([[external.velocity_max[axis]], [external.acceleration_max[axis]]]),
+        limits=np.stack([external.velocity_max[axes], external.acceleration_max[axes]]),
     )
 
 
@@ -307,6 +341,9 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
     fixed = environment.subset(np.flatnonzero(~moves))
     moving = environment.subset(np.flatnonzero(moves))
     span = float(external.upper[axis] - external.lower[axis])
+    pose_values = _pose_values(scene, problem)
+    T_world_base = external.T_world_base(pose_values, scene.T_world_base)
+    _, base_group = np.unique(T_world_base.reshape(-1, 16), axis=0, return_inverse=True)
     return _Table(
         scene=scene,
         axis=axis,
@@ -314,7 +351,9 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
         direction=turntable.axis,
         angle0=float(external.values[axis]),
         carried=carried,
-        T_world_base=scene.T_world_base,
+        pose_values=pose_values,
+        T_world_base=T_world_base,
+        base_group=base_group.reshape(-1).astype(np.int64),
         fixed=fixed,
         fixed_mask=default_pair_mask(problem.arm, fixed),
         moving=moving,
@@ -322,6 +361,25 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
         triple=_branch_rows(scene),
         samples=max(2, int(np.ceil(span / TABLE_SWEEP_SPACING_RAD)) + 1),
     )
+
+
+def _pose_values(scene: Scene, problem: _Problem) -> FloatArray:
+    """External values the path check puts each pose at, m or rad, shape (P, m) (module docstring).
+
+    A target's pose and its approach pose: the cell's values with the target's pins
+    (:func:`posebridge.cell.scene.pinned_values`, as a target waypoint resolves); a path's
+    world pose: the cell's values.
+    """
+    external = scene.external
+    values = np.broadcast_to(
+        external.values, (problem.T_world_pose.shape[0], external.count)
+    ).copy()
+    for k, target in enumerate(scene.cell.targets):
+        pinned = pinned_values(external, target.external_axes)
+        values[problem.target_pose[k]] = pinned
+        if problem.approach_pose[k] >= 0:
+            values[problem.approach_pose[k]] = pinned
+    return values
 
 
 def _shifts(table: _Table, grid: PlacementGrid, start: int, stop: int) -> FloatArray:
@@ -342,17 +400,17 @@ def _table_angles(problem: _Problem, table: _Table, shift: FloatArray) -> FloatA
     C, P = shift.shape[0], problem.T_world_pose.shape[0]
     theta = np.full((C, P, BRANCHES.shape[0]), np.nan)
     theta[:, ~table.carried] = table.angle0
-    rows = np.flatnonzero(table.carried)
-    if rows.size == 0:
-        return theta
+    carried = np.flatnonzero(table.carried)
+    groups = [carried[table.base_group[carried] == g] for g in np.unique(table.base_group[carried])]
     for c in range(C):
         T_move = np.eye(4)
         T_move[:3, 3] = -shift[c]
-        moved = replace(table.scene, T_world_base=T_move @ table.T_world_base)
-        found = feasible_intervals(
-            moved, problem.T_world_pose[rows], table.axis, samples=table.samples
-        )
-        theta[c, rows] = _chosen_axis_values(problem, rows, found, table.triple)
+        for rows in groups:  # one interval call per base the carried poses are solved from
+            moved = replace(table.scene, T_world_base=T_move @ table.T_world_base[rows[0]])
+            found = feasible_intervals(
+                moved, problem.T_world_pose[rows], table.axis, samples=table.samples
+            )
+            theta[c, rows] = _chosen_axis_values(problem, rows, found, table.triple)
     return theta
 
 
@@ -401,7 +459,7 @@ def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, st
         motion @ problem.T_world_pose[None, :, None],
         problem.T_world_pose[None, :, None],
     )
-    T_base_pose = invert_transform(table.T_world_base) @ T_world_pose
+    T_base_pose = invert_transform(table.T_world_base)[None, :, None] @ T_world_pose
     ik = problem.solver.solve(T_base_pose.reshape(-1, 4, 4), T_flange_tool=problem.T_flange_tool)
     M = ik.n_slots
     labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2).reshape(C, P, B, M, 3)
@@ -422,7 +480,16 @@ def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, st
         own = _own_scenes(problem, float(grid.height[0]))
         fixed = _arm_scene(problem, table, moving=False)
         q_s = q[index]
-        free_s, clear_s = _free_and_clear(problem, own, q_s, [(0, S, fixed)])
+        # the fixed obstacles once per base: solutions ordered by their pose's base
+        base = table.base_group[index[1]]
+        order = np.argsort(base, kind="stable")
+        bounds = np.flatnonzero(np.r_[True, base[order][1:] != base[order][:-1], True])
+        spans = [
+            (int(a), int(b), fixed.with_base(table.T_world_base[index[1][order[a]]]))
+            for a, b in pairwise(bounds.tolist())
+        ]
+        free_s, clear_s = np.empty(S, dtype=bool), np.empty(S, dtype=bool)
+        free_s[order], clear_s[order] = _free_and_clear(problem, own, q_s[order], spans)
         moving = _arm_scene(problem, table, moving=True)
         group = np.ravel_multi_index(index[:3], (C, P, B))
         starts = np.flatnonzero(np.r_[True, group[1:] != group[:-1]])
@@ -430,7 +497,8 @@ def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, st
             rows = np.flatnonzero(free_s[first:last]) + first
             if not rows.size or table.moving.count == 0:
                 continue
-            scene = _moved_table(moving, motion[tuple(i[first] for i in index[:3])])
+            c, p, b = (int(i[first]) for i in index[:3])
+            scene = _moved_table(moving, motion[c, p, b], table.T_world_base[p])
             hit = collision_batch(scene, q_s[rows], threshold_m=problem.margin)
             free_s[rows[hit]] = False
             clear_s[rows[hit]] = False
@@ -444,7 +512,7 @@ def _solve(problem: _Problem, table: _Table, grid: PlacementGrid, start: int, st
 
 
 def _arm_scene(problem: _Problem, table: _Table, moving: bool) -> ClearanceScene:
-    """Return the arm, its base where it is, against some of the table search's obstacles.
+    """Return the arm against some of the table search's obstacles (its base: moved with ``with_base``).
 
     Those that stay (``moving`` false) or the table's plate and carried fixtures (``moving``
     true); no self pairs.
@@ -453,13 +521,18 @@ def _arm_scene(problem: _Problem, table: _Table, moving: bool) -> ClearanceScene
         (table.moving, table.moving_mask) if moving else (table.fixed, table.fixed_mask)
     )
     return ClearanceScene(
-        problem.arm, obstacles, table.T_world_base, np.empty((0, 2), dtype=np.int64), mask
+        problem.arm, obstacles, table.scene.T_world_base, np.empty((0, 2), dtype=np.int64), mask
     )
 
 
-def _moved_table(moving: ClearanceScene, motion: FloatArray) -> ClearanceScene:
-    """Return the arm against the table's obstacles after ``motion`` (4, 4): its base moved back."""
-    return moving.with_base(invert_transform(motion) @ moving.T_world_base)
+def _moved_table(
+    moving: ClearanceScene, motion: FloatArray, T_world_base: FloatArray
+) -> ClearanceScene:
+    """Return the arm, base at ``T_world_base`` (4, 4), against the table's obstacles after ``motion`` (4, 4).
+
+    Checked as the arm with its base moved back by the inverse motion.
+    """
+    return moving.with_base(invert_transform(motion) @ T_world_base)
 
 
 def _table_chunk(
@@ -479,8 +552,15 @@ def _table_chunk(
     counting = diagonal.reshape(C, P, B * M, B)
     q = solved.q.reshape(C, P, B * M, n)
     theta = np.broadcast_to(solved.theta[..., None, None], (C, P, B, M, 1))
+    if table.scene.external.track is not None:  # the track where each pose is solved
+        track = np.broadcast_to(table.pose_values[:, 0, None, None, None], (C, P, B, M, 1))
+        theta = np.concatenate([track, theta], axis=4)
     scores = _chunk_scores(
-        problem, counting, q, solved.clear.reshape(C, P, B * M), theta.reshape(C, P, B * M, 1)
+        problem,
+        counting,
+        q,
+        solved.clear.reshape(C, P, B * M),
+        theta.reshape(C, P, B * M, theta.shape[4]),
     )
     branch = scores[1].astype(np.int64)
     reached = scores[7].astype(bool)
@@ -652,11 +732,13 @@ def _details(
             config = q[k][None]
             distances = [
                 float(clearance_batch(support, config).distance[0]),
-                float(clearance_batch(fixed, config).distance[0]),
+                float(clearance_batch(fixed.with_base(table.T_world_base[p]), config).distance[0]),
             ]
             if table.moving.count:
                 scene = _moved_table(
-                    _arm_scene(problem, table, moving=True), solved.motion[0, p, branch]
+                    _arm_scene(problem, table, moving=True),
+                    solved.motion[0, p, branch],
+                    table.T_world_base[p],
                 )
                 distances.append(float(clearance_batch(scene, config).distance[0]))
             clearance[k] = min(distances)

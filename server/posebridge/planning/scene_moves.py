@@ -179,15 +179,8 @@ def scene_with_table_at(
     moving = carried | {f"{external.names[axis]} plate"}
     T_world_fixture = scene.T_world_fixture.copy()
     T_world_fixture[list(table.fixtures)] = D @ T_world_fixture[list(table.fixtures)]
-    targets = scene.targets
-    rows = [i for i, fixture in enumerate(targets.fixtures) if fixture in carried]
-    if rows:
-        T_target = targets.T_world_target.copy()
-        T_approach = targets.T_world_approach.copy()
-        T_target[rows] = D @ T_target[rows]
-        T_approach[rows] = D @ T_approach[rows]
-        targets = replace(targets, T_world_target=T_target, T_world_approach=T_approach)
-    on_table = set(rows)
+    targets = scene.targets.moved_on(carried, D)
+    on_table = {i for i, fixture in enumerate(targets.fixtures) if fixture in carried}
     paths = []
     for path, angles in zip(scene.paths, table_angle, strict=True):
         values = path.external.copy()
