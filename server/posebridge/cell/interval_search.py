@@ -48,6 +48,7 @@ __all__ = [
     "branch_state_rows",
     "itp_settle",
     "itp_values",
+    "translated_poses",
 ]
 
 (
@@ -64,6 +65,25 @@ __all__ = [
 ) = range(10)
 PARALLEL_BRACKETS = 256
 """Open brackets from which a search step's kernels run on numba's threads."""
+
+
+@nb.njit(cache=True, nogil=True)
+def translated_poses(T_origin, along, targets, values):
+    """Pose ``T_origin[targets[i]]`` moved by ``-values[i] * along``, shape (D, 4, 4).
+
+    The track's base-frame target at track value ``s`` is its pose at 0 translated by
+    ``-s`` times the travel direction in the base frame (``along``, (3,)); ``T_origin``
+    is (K, 4, 4).
+    """
+    out = np.empty((targets.shape[0], 4, 4))
+    for i in range(targets.shape[0]):
+        k = targets[i]
+        for r in range(4):
+            for c in range(4):
+                out[i, r, c] = T_origin[k, r, c]
+        for r in range(3):
+            out[i, r, 3] -= values[i] * along[r]
+    return out
 
 
 @nb.njit(cache=True)
@@ -374,4 +394,17 @@ def itp_settle(
     kernel(
         open_, slot, solutions, reach, branches, table, limits, pairing, low_feasible, value, state
     )
-    return open_[state[HIGH, open_] - state[LOW, open_] > tolerance]
+    return _still_open(open_, state, tolerance)
+
+
+@nb.njit(cache=True, nogil=True)
+def _still_open(open_, state, tolerance):
+    """Return the brackets of ``open_`` wider than ``tolerance``, in order."""
+    still = np.empty(open_.shape[0], dtype=open_.dtype)
+    count = 0
+    for n in range(open_.shape[0]):
+        i = open_[n]
+        if state[HIGH, i] - state[LOW, i] > tolerance:
+            still[count] = i
+            count += 1
+    return still[:count]
