@@ -1,7 +1,8 @@
 """Tests of posebridge.kinematics.ik (solver choice and the public solve_ik_all).
 
 References: forward kinematics (posebridge.kinematics.fk) of the returned
-solutions, and the robot files for which family each bundled arm belongs to.
+solutions, the robot files for which family each bundled arm belongs to, and the
+serial IK driver for the parallel one.
 """
 
 from __future__ import annotations
@@ -11,6 +12,7 @@ import pytest
 
 from posebridge.kinematics.fk import KinematicsInputError, fk_tool
 from posebridge.kinematics.ik import ik_solver, solve_ik_all
+from posebridge.kinematics.ik.finishing import BLOCK_SIZE, PARALLEL_POSES
 from posebridge.resources import data_folder
 from posebridge.robot.library import load_robot
 from posebridge.transforms import rotation_matrix_from_rpy
@@ -180,3 +182,21 @@ def test_bad_arguments_are_refused(kwargs: dict, message: str) -> None:
 def test_bad_targets_are_refused(targets: np.ndarray, message: str) -> None:
     with pytest.raises(KinematicsInputError, match=message):
         solve_ik_all(load_robot("pb-arm6"), targets)
+
+
+@pytest.mark.parametrize("name", ["pb-arm6", "pb-scara4"])
+def test_parallel_driver_equals_serial_blocks(name: str) -> None:
+    robot = load_robot(name)
+    q = np.random.default_rng(8).uniform(robot.lower, robot.upper, (3 * BLOCK_SIZE + 5, robot.dof))
+    targets = fk_tool(robot, q)
+    together = solve_ik_all(robot, targets)  # at least PARALLEL_POSES: the parallel driver
+    assert len(targets) >= PARALLEL_POSES
+    pieces = [
+        solve_ik_all(robot, targets[i : i + BLOCK_SIZE]) for i in range(0, len(q), BLOCK_SIZE)
+    ]
+    # reference: the same poses one block at a time (the serial driver); each pose is solved
+    # alone, so bit for bit the same
+    for field in ("q", "valid", "within_limits", "shoulder", "elbow", "wrist", "revolutions"):
+        joined = np.concatenate([getattr(p, field) for p in pieces])
+        assert np.array_equal(getattr(together, field), joined, equal_nan=field == "q")
+    assert together.reason == tuple(r for p in pieces for r in p.reason)

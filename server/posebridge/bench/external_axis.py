@@ -8,9 +8,11 @@ turntable, each jittered (seeded) by up to 100 mm and 10 deg into 50 poses (20 q
 baseline is :func:`~posebridge.cell.external_kinematics.feasible_intervals` with 1000 samples
 and no bisection (tolerance = spacing), the same IK batch path.
 
-``ik_external_axis_ratio_vs_sweep`` is the ratio as the functions run: the dense sweep's
-200,000 poses take the parallel IK driver on every numba thread, ours (batches under
-2048 poses) the serial one. ``ik_external_axis_ratio_vs_sweep_one_thread`` is the same
+``ik_external_axis_ratio_vs_sweep`` is the ratio as the functions run on every numba
+thread: the dense sweep's 200,000 poses in one IK batch, ours in its sweep and search-step
+batches (the IK's parallel driver from two blocks, 256 poses, and the step kernels from 256
+open brackets; :mod:`posebridge.kernel_threads` for how the threads wait between them).
+``ik_external_axis_ratio_vs_sweep_one_thread`` is the same
 ratio with both runs on one numba thread (``numba.set_num_threads(1)`` around both, the
 thread count restored after): the work ratio per core. The two runs are timed in turn,
 best of 7 each (:func:`~posebridge.bench.timing.best_seconds_alternating`), so that other load

@@ -66,6 +66,7 @@ from posebridge.cell.interval_search import (
     branch_state_rows,
     itp_settle,
     itp_values,
+    translated_poses,
 )
 from posebridge.cell.model import Branch
 from posebridge.cell.quality import branch_score, evaluate_configurations
@@ -355,10 +356,7 @@ class _AxisPoses:
     def at(self, targets: npt.NDArray[np.intp], values: FloatArray) -> FloatArray:
         """Pose of target ``targets[i]`` with the axis at ``values[i]``, shape (D, 4, 4)."""
         if self.track is not None:
-            T_origin, along = self.track
-            T = T_origin[targets]
-            T[:, :3, 3] -= values[:, None] * along
-            return T
+            return translated_poses(*self.track, targets, values)
         turned = _turned_poses(self.scene, self.T_world_target[targets], self.axis, values[:, None])
         return turned[:, 0]
 

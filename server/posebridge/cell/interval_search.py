@@ -6,11 +6,14 @@ bracket by the ITP method (interpolate, truncate, project; Oliveira & Takahashi,
 TOMS 47(1), 2020, algorithm 1) with the distinct (target, value) pairs to solve
 (:func:`itp_values`), then the bracket update from the solved poses
 (:func:`itp_settle`, with the Illinois halving: an end kept twice in a row has its
-interpolated values halved, Dowell & Jarratt, BIT 11, 1971). One search step is these two calls around one IK batch. Kept
+interpolated values halved, Dowell & Jarratt, BIT 11, 1971). One search step is these
+two calls around one IK batch; from :data:`PARALLEL_BRACKETS` open brackets their
+per-bracket work runs on numba's threads (each bracket is its own column of
+``state``, so the result does not depend on the thread count). Kept
 apart from the cell layer's other modules so that the kernel cache key
 (:mod:`posebridge.kernel_cache`) depends on numpy and numba only.
 
-The brackets' state is one array ``state`` of shape (9, D), rows :data:`LOW`,
+The brackets' state is one array ``state`` of shape (10, D), rows :data:`LOW`,
 :data:`HIGH` (the bracket, axis values), :data:`MARGIN_LOW`, :data:`MARGIN_HIGH`
 (the branch's limit margin at its ends, NaN where the branch does not reach the
 pose), :data:`FOLD_END` (the fold at the feasible end), :data:`BEFORE_X` and
@@ -25,6 +28,10 @@ from __future__ import annotations
 
 import numba as nb
 import numpy as np
+import numpy.typing as npt
+
+FloatArray = npt.NDArray[np.float64]
+BoolArray = npt.NDArray[np.bool_]
 
 __all__ = [
     "BEFORE_FOLD",
@@ -35,11 +42,13 @@ __all__ = [
     "MARGIN_HIGH",
     "MARGIN_LOW",
     "MOVED",
+    "PARALLEL_BRACKETS",
     "REACH_HIGH",
     "REACH_LOW",
     "branch_state_rows",
     "itp_settle",
     "itp_values",
+    "translated_poses",
 ]
 
 (
@@ -54,6 +63,27 @@ __all__ = [
     REACH_HIGH,
     MOVED,
 ) = range(10)
+PARALLEL_BRACKETS = 256
+"""Open brackets from which a search step's kernels run on numba's threads."""
+
+
+@nb.njit(cache=True, nogil=True)
+def translated_poses(T_origin, along, targets, values):
+    """Pose ``T_origin[targets[i]]`` moved by ``-values[i] * along``, shape (D, 4, 4).
+
+    The track's base-frame target at track value ``s`` is its pose at 0 translated by
+    ``-s`` times the travel direction in the base frame (``along``, (3,)); ``T_origin``
+    is (K, 4, 4).
+    """
+    out = np.empty((targets.shape[0], 4, 4))
+    for i in range(targets.shape[0]):
+        k = targets[i]
+        for r in range(4):
+            for c in range(4):
+                out[i, r, c] = T_origin[k, r, c]
+        for r in range(3):
+            out[i, r, 3] -= values[i] * along[r]
+    return out
 
 
 @nb.njit(cache=True)
@@ -171,36 +201,31 @@ def _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa
 
 
 @nb.njit(cache=True)
-def itp_values(
-    open_,
-    targets,
-    state,
-    low_feasible,
-    start_width,
-    most,
-    step,
-    tolerance,
-    kappa,
-    value,
-    pairs,
-    slot,
+def _itp_values_serial(
+    open_, state, low_feasible, start_width, most, step, tolerance, kappa, value
 ):
-    """Next value of every open bracket, and the distinct (target, value) pairs to solve.
+    for n in range(open_.shape[0]):
+        i = open_[n]
+        value[i] = _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa)
 
-    ``value[i]`` (D,) becomes the ITP value (:func:`_itp_value`, truncation ``kappa``)
-    of bracket ``i = open_[n]``; ``pairs`` (pair targets (D,) int, pair values (D,))
-    gets the distinct pairs (target, value) in its first entries, ``slot[n]`` the
-    entry of bracket ``open_[n]``'s pair. A pair is compared with the earlier pairs
-    of the same target while ``targets[open_]`` stays equal, so brackets sorted by
-    target share every equal value (unsorted ones may solve a value twice). Returns
-    the number of distinct pairs.
-    """
+
+@nb.njit(cache=True, parallel=True)
+def _itp_values_parallel(
+    open_, state, low_feasible, start_width, most, step, tolerance, kappa, value
+):
+    for n in nb.prange(open_.shape[0]):
+        i = open_[n]
+        value[i] = _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa)
+
+
+@nb.njit(cache=True)
+def _distinct_pairs(open_, targets, value, pairs, slot):
+    """Distinct (target, value) pairs of the open brackets (:func:`itp_values`); their count."""
     pair_targets, pair_values = pairs
     count = 0
     for n in range(open_.shape[0]):
         i = open_[n]
-        v = _itp_value(state, i, low_feasible, start_width, most, step, tolerance, kappa)
-        value[i] = v
+        v = value[i]
         t = targets[i]
         found = -1
         u = count - 1
@@ -218,21 +243,141 @@ def itp_values(
     return count
 
 
+def itp_values(
+    open_: npt.NDArray[np.intp],
+    targets: npt.NDArray[np.intp],
+    state: FloatArray,
+    low_feasible: BoolArray,
+    start_width: FloatArray,
+    most: FloatArray,
+    step: int,
+    tolerance: float,
+    kappa: float,
+    value: FloatArray,
+    pairs: tuple[npt.NDArray[np.intp], FloatArray],
+    slot: npt.NDArray[np.intp],
+) -> int:
+    """Next value of every open bracket, and the distinct (target, value) pairs to solve.
+
+    ``value[i]`` (D,) becomes the ITP value (:func:`_itp_value`, truncation ``kappa``)
+    of bracket ``i = open_[n]``; ``pairs`` (pair targets (D,) int, pair values (D,))
+    gets the distinct pairs (target, value) in its first entries, ``slot[n]`` the
+    entry of bracket ``open_[n]``'s pair. A pair is compared with the earlier pairs
+    of the same target while ``targets[open_]`` stays equal, so brackets sorted by
+    target share every equal value (unsorted ones may solve a value twice). Returns
+    the number of distinct pairs. From :data:`PARALLEL_BRACKETS` open brackets the
+    values are computed on numba's threads.
+    """
+    kernel = _itp_values_parallel if len(open_) >= PARALLEL_BRACKETS else _itp_values_serial
+    kernel(open_, state, low_feasible, start_width, most, step, tolerance, kappa, value)
+    return int(_distinct_pairs(open_, targets, value, pairs, slot))
+
+
 @nb.njit(cache=True)
-def itp_settle(
-    open_,
-    slot,
-    solutions,
-    reach,
-    branches,
-    table,
-    limits,
-    pairing,
-    low_feasible,
-    value,
-    state,
-    tolerance,
+def _settle_one(
+    n, open_, slot, solutions, reach, branches, table, limits, pairing, low_feasible, value, state
 ):
+    """Move bracket ``open_[n]``'s end on the side of its value's feasibility (:func:`itp_settle`)."""
+    q, valid, within, labels = solutions
+    margins, column = reach
+    i = open_[n]
+    # the fold is kept at a new feasible end, and used while the other end has no margin
+    infeasible_margin = state[MARGIN_HIGH, i] if low_feasible[i] else state[MARGIN_LOW, i]
+    feasible, margin, fold = _branch_state(
+        q,
+        valid,
+        within,
+        labels,
+        slot[n],
+        branches[i],
+        table,
+        limits,
+        pairing,
+        np.isnan(infeasible_margin),
+    )
+    is_feasible = feasible == 1.0
+    if is_feasible:
+        state[BEFORE_X, i] = state[LOW, i] if low_feasible[i] else state[HIGH, i]
+        state[BEFORE_FOLD, i] = state[FOLD_END, i]
+        state[FOLD_END, i] = fold
+    shoulder = column[branches[i]]
+    reached = margins[slot[n], shoulder] if shoulder >= 0 else np.nan
+    moved = -1.0 if is_feasible == low_feasible[i] else 1.0
+    if moved == state[MOVED, i]:  # Illinois: the end kept twice has its values halved
+        state[MARGIN_HIGH if moved < 0 else MARGIN_LOW, i] *= 0.5
+        state[REACH_HIGH if moved < 0 else REACH_LOW, i] *= 0.5
+    state[MOVED, i] = moved
+    if moved < 0:
+        state[LOW, i] = value[i]
+        state[MARGIN_LOW, i] = margin
+        state[REACH_LOW, i] = reached
+    else:
+        state[HIGH, i] = value[i]
+        state[MARGIN_HIGH, i] = margin
+        state[REACH_HIGH, i] = reached
+
+
+@nb.njit(cache=True)
+def _settle_serial(
+    open_, slot, solutions, reach, branches, table, limits, pairing, low_feasible, value, state
+):
+    for n in range(open_.shape[0]):
+        _settle_one(
+            n,
+            open_,
+            slot,
+            solutions,
+            reach,
+            branches,
+            table,
+            limits,
+            pairing,
+            low_feasible,
+            value,
+            state,
+        )
+
+
+@nb.njit(cache=True, parallel=True)
+def _settle_parallel(
+    open_, slot, solutions, reach, branches, table, limits, pairing, low_feasible, value, state
+):
+    # a parallel loop takes arrays, not tuples of them: unpacked here, packed again per bracket
+    q, valid, within, (shoulder, elbow, wrist) = solutions
+    margins, column = reach
+    lower, upper = limits
+    joint, partner = pairing
+    for n in nb.prange(open_.shape[0]):
+        _settle_one(
+            n,
+            open_,
+            slot,
+            (q, valid, within, (shoulder, elbow, wrist)),
+            (margins, column),
+            branches,
+            table,
+            (lower, upper),
+            (joint, partner),
+            low_feasible,
+            value,
+            state,
+        )
+
+
+def itp_settle(
+    open_: npt.NDArray[np.intp],
+    slot: npt.NDArray[np.intp],
+    solutions: tuple[object, ...],
+    reach: tuple[FloatArray, npt.NDArray[np.intp]],
+    branches: npt.NDArray[np.intp],
+    table: npt.NDArray[np.uint8],
+    limits: tuple[FloatArray, FloatArray],
+    pairing: tuple[int, npt.NDArray[np.intp]],
+    low_feasible: BoolArray,
+    value: FloatArray,
+    state: FloatArray,
+    tolerance: float,
+) -> npt.NDArray[np.intp]:
     """Move each open bracket's end on the side of its value's feasibility; return the brackets still open.
 
     ``solutions`` is (q, valid, within, labels) of the solved pairs (:func:`itp_values`);
@@ -241,48 +386,24 @@ def itp_settle(
     branch's shoulder (B,), -1 for none). A feasible value becomes the feasible end
     (the old one and its fold move to :data:`BEFORE_X`, :data:`BEFORE_FOLD`); an end
     kept for the second time in a row has its margins halved (Illinois). Returns the
-    brackets of ``open_`` wider than ``tolerance`` after the update.
+    brackets of ``open_`` wider than ``tolerance`` after the update. From
+    :data:`PARALLEL_BRACKETS` open brackets the brackets are updated on numba's threads
+    (each writes only its own column of ``state``).
     """
-    q, valid, within, labels = solutions
-    margins, column = reach
+    kernel = _settle_parallel if len(open_) >= PARALLEL_BRACKETS else _settle_serial
+    kernel(
+        open_, slot, solutions, reach, branches, table, limits, pairing, low_feasible, value, state
+    )
+    return _still_open(open_, state, tolerance)
+
+
+@nb.njit(cache=True, nogil=True)
+def _still_open(open_, state, tolerance):
+    """Return the brackets of ``open_`` wider than ``tolerance``, in order."""
     still = np.empty(open_.shape[0], dtype=open_.dtype)
     count = 0
     for n in range(open_.shape[0]):
         i = open_[n]
-        # the fold is kept at a new feasible end, and used while the other end has no margin
-        infeasible_margin = state[MARGIN_HIGH, i] if low_feasible[i] else state[MARGIN_LOW, i]
-        feasible, margin, fold = _branch_state(
-            q,
-            valid,
-            within,
-            labels,
-            slot[n],
-            branches[i],
-            table,
-            limits,
-            pairing,
-            np.isnan(infeasible_margin),
-        )
-        is_feasible = feasible == 1.0
-        if is_feasible:
-            state[BEFORE_X, i] = state[LOW, i] if low_feasible[i] else state[HIGH, i]
-            state[BEFORE_FOLD, i] = state[FOLD_END, i]
-            state[FOLD_END, i] = fold
-        shoulder = column[branches[i]]
-        reached = margins[slot[n], shoulder] if shoulder >= 0 else np.nan
-        moved = -1.0 if is_feasible == low_feasible[i] else 1.0
-        if moved == state[MOVED, i]:  # Illinois: the end kept twice has its values halved
-            state[MARGIN_HIGH if moved < 0 else MARGIN_LOW, i] *= 0.5
-            state[REACH_HIGH if moved < 0 else REACH_LOW, i] *= 0.5
-        state[MOVED, i] = moved
-        if moved < 0:
-            state[LOW, i] = value[i]
-            state[MARGIN_LOW, i] = margin
-            state[REACH_LOW, i] = reached
-        else:
-            state[HIGH, i] = value[i]
-            state[MARGIN_HIGH, i] = margin
-            state[REACH_HIGH, i] = reached
         if state[HIGH, i] - state[LOW, i] > tolerance:
             still[count] = i
             count += 1

@@ -70,6 +70,14 @@ class _CommonOptions(TypedDict):
     all_revolutions: bool
 
 
+def _tool_key(T_flange_tool: npt.ArrayLike | None) -> tuple[object, ...] | None:
+    """Return a dictionary key of a tool transform: its dtype, shape and bytes (None for none)."""
+    if T_flange_tool is None:
+        return None
+    tool = np.asarray(T_flange_tool)
+    return (tool.dtype.str, tool.shape, tool.tobytes())
+
+
 @dataclass(frozen=True, eq=False)
 class IkSolver:
     """The IK solver chosen for one robot.
@@ -91,6 +99,10 @@ class IkSolver:
         default_factory=dict, repr=False
     )
     """:meth:`prepare`'s answers by tool and tolerances."""
+    _reach: dict[tuple[object, ...] | None, Callable[[FloatArray], FloatArray]] = field(
+        default_factory=dict, repr=False
+    )
+    """:meth:`reach_margins`' answers by tool."""
 
     def solve(
         self,
@@ -154,12 +166,7 @@ class IkSolver:
         """
         tolerance = check_positive(position_tolerance_m, "position_tolerance_m")
         orientation = check_positive(orientation_tolerance_rad, "orientation_tolerance_rad")
-        tool = None if T_flange_tool is None else np.asarray(T_flange_tool)
-        key = (
-            None if tool is None else (tool.dtype.str, tool.shape, tool.tobytes()),
-            tolerance,
-            orientation,
-        )
+        key = (_tool_key(T_flange_tool), tolerance, orientation)
         prepared = self._prepared.get(key)
         if prepared is None:
             prepared = self._prepare(T_flange_tool, tolerance, orientation)
@@ -175,13 +182,19 @@ class IkSolver:
         (:func:`~posebridge.kinematics.ik.analytic.ortho_parallel.ortho_parallel_reach_margins`):
         the returned function takes checked poses (N, 4, 4) and returns ``1 - |cos β|`` of the
         elbow's law of cosines for the front and back shoulder, shape (N, 2), positive where
-        the elbow solutions exist and negative beyond the reach.
+        the elbow solutions exist and negative beyond the reach. Kept per tool, as
+        :meth:`prepare`'s answers are.
         """
-        if isinstance(self.geometry, OrthoParallelGeometry):
-            return ortho_parallel_reach_margins(
+        if not isinstance(self.geometry, OrthoParallelGeometry):
+            return None
+        key = _tool_key(T_flange_tool)
+        margins = self._reach.get(key)
+        if margins is None:
+            margins = ortho_parallel_reach_margins(
                 self.robot, self.geometry, T_flange_tool=T_flange_tool
             )
-        return None
+            self._reach[key] = margins
+        return margins
 
     def _prepare(
         self, T_flange_tool: npt.ArrayLike | None, tolerance: float, orientation: float

@@ -41,6 +41,8 @@ REASON_CODES = ("", REASON_OUT_OF_REACH, REASON_ORIENTATION, REASON_NO_WITHIN_LI
 """Reason text by code: 0 solved, 1 out of reach, 2 orientation not reachable,
 3 valid only outside the joint limits. Kernels write codes, :func:`reasons_from_codes`
 turns them into text."""
+_REASON_TEXTS = np.array(REASON_CODES, dtype=object)
+_REASON_TEXTS.flags.writeable = False
 
 
 LABEL_SCHEMES = ("arm", "planar", "none")
@@ -164,4 +166,4 @@ def reasons_from_codes(codes: npt.NDArray[np.int8]) -> tuple[str, ...]:
     """Reason texts of :data:`REASON_CODES` for an array of codes, shape (N,)."""
     if not np.any(codes):
         return ("",) * codes.shape[0]
-    return tuple(np.asarray(REASON_CODES, dtype=object)[codes].tolist())
+    return tuple(_REASON_TEXTS[codes].tolist())
