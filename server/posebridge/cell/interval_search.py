@@ -67,7 +67,7 @@ PARALLEL_BRACKETS = 256
 """Open brackets from which a search step's kernels run on numba's threads."""
 
 
-@nb.njit(cache=True, nogil=True)
+@nb.njit(cache=True)
 def translated_poses(T_origin, along, targets, values):
     """Pose ``T_origin[targets[i]]`` moved by ``-values[i] * along``, shape (D, 4, 4).
 
@@ -397,7 +397,7 @@ def itp_settle(
     return _still_open(open_, state, tolerance)
 
 
-@nb.njit(cache=True, nogil=True)
+@nb.njit(cache=True)
 def _still_open(open_, state, tolerance):
     """Return the brackets of ``open_`` wider than ``tolerance``, in order."""
     still = np.empty(open_.shape[0], dtype=open_.dtype)
