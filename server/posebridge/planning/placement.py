@@ -1305,10 +1305,9 @@ def _pose_pins(scene: Scene, problem: _Problem | None = None) -> BoolArray:
     """
     external = scene.external
     names = list(external.names)
-    pins = np.array(
-        [[name in target.external_axes for name in names] for target in scene.cell.targets],
-        dtype=bool,
-    ).reshape(-1, external.count)
+    pins = np.zeros((len(scene.cell.targets), external.count), dtype=bool)
+    for k, target in enumerate(scene.cell.targets):
+        pins[k] = [name in target.external_axes for name in names]
     if problem is None:
         return pins
     out = np.zeros((problem.T_world_pose.shape[0], external.count), dtype=bool)
