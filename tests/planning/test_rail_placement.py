@@ -414,3 +414,59 @@ def test_demo_track_cell_base_search_at_the_current_placement_scores_as_its_rail
     assert on_base.current_score == pytest.approx(on_rail.current_score, rel=1e-12)
     assert on_base.current_cycle_time_s == pytest.approx(on_rail.current_cycle_time_s, rel=1e-12)
     assert on_base.current_score > 0.75  # three of the four demo targets (its notes)
+
+
+RAIL_PIN_MM = 500.0  # t0's pinned track value (along the track from the rail's origin)
+
+
+def test_a_target_pinned_on_the_track_is_solved_at_its_pin() -> None:
+    waypoints = [joint_to("t0"), joint_to("t1"), joint_to("t2")]
+    targets_xy = [(1.0, 0.15), (0.5, 0.15), (1.8, 0.25)]
+    scene = rail_cell(targets_xy, waypoints, pins_mm=[RAIL_PIN_MM])
+    track = scene.external.track
+    assert track is not None
+    grid = PlacementGrid.rail_around(scene, offset_mm=OFFSETS_MM, yaw_deg=[0.0, 90.0])
+    result = search_base_placement(scene, grid, top=grid.size)
+    pin = RAIL_PIN_MM / 1000.0
+    verdicts = []
+    for candidate in result.best:
+        assert candidate.rail_frame is not None
+        # reference: the IK solved directly with the base at the pinned value on the
+        # candidate's line (origin + value * direction, the carriage height 0); nothing
+        # collides, so reach within limits decides
+        T_base = candidate.rail_frame.copy()
+        T_base[:3, 3] += pin * T_base[:3, 0]
+        T_base = T_base @ track.T_carriage_base
+        T_base_target = invert_transform(T_base) @ scene.targets.T_world_target[0]
+        ik = solve_ik_all(scene.robot, T_base_target[None], T_flange_tool=scene.T_flange_tool)
+        feasible = bool(np.any(ik.valid & ik.within_limits))
+        assert result.reached[candidate.index][0] == feasible
+        verdicts.append(feasible)
+        if feasible:
+            assert candidate.track_position is not None
+            # the estimate's track value is the pin (module docstring: used as given)
+            assert candidate.track_position[0] == pytest.approx(pin, abs=1e-12)
+    assert any(verdicts)
+    # closed form: the line x = 0.7 m (yaw 90 deg, offset 300 mm) passes 0.3 m from t0, a
+    # track position of its own would reach it; from the pin the base is 0.716 m away
+    assert not all(verdicts)
+    checked = 0
+    for candidate in result.best:
+        if candidate.blended_cycle_time is None:
+            continue
+        assert candidate.rail_frame is not None
+        assert candidate.track_position is not None
+        # reference: the path check of the same cell with the rail moved to the candidate's
+        # line, t0 keeping its pin and the others pinned at their chosen track positions
+        pins = [RAIL_PIN_MM] + [1000.0 * float(s) for s in candidate.track_position[1:]]
+        moved = rail_cell(
+            targets_xy,
+            waypoints,
+            pins_mm=pins,
+            origin_mm=tuple(1000.0 * candidate.rail_frame[:3, 3]),  # type: ignore[arg-type]
+            direction=tuple(candidate.rail_frame[:3, 0]),  # type: ignore[arg-type]
+        )
+        check = check_path(moved, 0)
+        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-9)
+        checked += 1
+    assert checked >= 1

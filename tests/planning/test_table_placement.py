@@ -482,3 +482,144 @@ def test_cycle_time_of_a_track_and_table_cell_includes_the_track_move() -> None:
     data["targets"][1]["external_axes"]["table-1"] = float(np.degrees(candidate.table_angle[1]))
     check = check_path(resolve_scene(validate_cell(data)), 0)
     assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)
+
+
+TABLE_PIN_DEG = 90.0  # near's pinned table angle: near then sits RADII[0] across world x
+
+
+def test_a_target_pinned_on_the_searched_table_is_solved_at_its_pin() -> None:
+    data = table_cell_data(path=True)
+    data["targets"][0]["external_axes"] = {"table-1": TABLE_PIN_DEG}
+    scene = resolve_scene(validate_cell(data))
+    grid = table_grid(scene, x_mm=GRID_X_MM, y_mm=[0.0])
+    result = search_table_placement(scene, grid, top=grid.size)
+    table = scene.external.turntables[0]
+    pin = np.radians(TABLE_PIN_DEG)
+    verdicts = []
+    for ix in range(len(GRID_X_MM)):
+        # reference: the IK solved directly with near turned to its pinned angle about the
+        # moved table's axis (turntable_motion, then the move); nothing collides, so reach
+        # within limits decides (closed form: |(x, r)| in [INNER, l1 + l2])
+        turn = turntable_motion(table.point, table.axis, [pin])[0]
+        turn[0, 3] += grid.x[ix] - table.point[0]
+        T_world = turn @ scene.targets.T_world_target[0]
+        ik = solve_ik_all(
+            scene.robot,
+            invert_transform(scene.T_world_base) @ T_world[None],
+            T_flange_tool=scene.T_flange_tool,
+        )
+        feasible = bool(np.any(ik.valid & ik.within_limits))
+        assert result.reached[0, ix, 0, 0, 0] == feasible
+        verdicts.append(feasible)
+        if feasible:
+            # the estimate's table angle is the pin (module docstring: used as given)
+            angle = result.table_angle[0, ix, 0, 0, 0]  # type: ignore[index]
+            assert angle == pytest.approx(pin, abs=1e-12)
+    assert any(verdicts)  # the grid holds both verdicts; an angle of its own would reach
+    assert not all(verdicts)  # near up to x = RADII[0] + l1 + l2, beyond the pin's reach
+    checked = 0
+    for candidate in result.best[:BLENDED_TOP]:
+        if not result.reached[candidate.index].all():
+            continue
+        assert candidate.table_angle is not None
+        assert candidate.blended_cycle_time is not None
+        # reference: the path check on the applied candidate (cell_with_turntable_at), near
+        # keeping its pin and far pinned at its chosen angle
+        iy, ix, _, _ = candidate.index
+        edited = cell_with_turntable_at(
+            scene, "table-1", [1000.0 * grid.x[ix], 1000.0 * grid.y[iy], -100.0]
+        )
+        applied = edited.model_dump(mode="json", exclude_none=True)
+        assert applied["targets"][0]["external_axes"] == {"table-1": TABLE_PIN_DEG}
+        far = float(np.degrees(candidate.table_angle[1]))
+        applied["targets"][1]["external_axes"] = {"table-1": far}
+        check = check_path(resolve_scene(validate_cell(applied)), 0)
+        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)
+        checked += 1
+    assert checked >= 1
+
+
+OTHER_PIN_DEG = 180.0  # the second table's pin: its target turns from (0.8, 0.5) to (0.2, 0.5) m
+
+
+def two_table_cell_data() -> dict[str, Any]:
+    """table_cell_data with a second turntable at world (0.5, 0.5) m carrying jig-2, whose
+    target 'other' lies 0.3 m from that axis and pins table-2 at OTHER_PIN_DEG; the path
+    visits near, far, then other."""
+    data = table_cell_data(path=True)
+    data["turntables"].append(
+        {
+            "name": "table-2",
+            "position_mm": [500.0, 500.0, -100.0],
+            "range_deg": [-180.0, 180.0],
+            "speed_deg_s": 90.0,
+            "accel_deg_s2": 180.0,
+            "plate_radius_mm": 100.0,
+            "fixtures": ["jig-2"],
+        }
+    )
+    data["fixtures"].append(
+        {
+            "name": "jig-2",
+            "shape": "box",
+            "position_mm": [500.0, 500.0, -200.0],
+            "size_mm": [100.0, 100.0, 100.0],
+        }
+    )
+    data["targets"].append(
+        {
+            "name": "other",
+            "fixture": "jig-2",
+            "position_mm": [300.0, 0.0, 200.0],
+            "external_axes": {"table-2": OTHER_PIN_DEG},
+        }
+    )
+    data["paths"][0]["waypoints"].append(
+        {"target": "other", "motion": "joint", "speed_percent": 100.0}
+    )
+    return data
+
+
+def test_a_target_pinned_on_another_table_is_solved_with_that_table_turned() -> None:
+    scene = resolve_scene(validate_cell(two_table_cell_data()))
+    grid = table_grid(scene, x_mm=[450.0, 650.0, 850.0], y_mm=[0.0])
+    assert table_axis(scene) == scene.external.table_offset  # the search moves table-1
+    result = search_table_placement(scene, grid, top=grid.size)
+    other = scene.external.turntables[1]
+    # reference: the IK solved directly at the pose the path check gives 'other' (the
+    # second table turned to its pin: turntable_motion about its axis); closed form: the
+    # target turns from 0.943 m from the robot (beyond l1 + l2) to 0.539 m (inside)
+    turn = turntable_motion(other.point, other.axis, [np.radians(OTHER_PIN_DEG)])[0]
+    T_world = turn @ scene.targets.T_world_target[2]
+    ik = solve_ik_all(
+        scene.robot,
+        invert_transform(scene.T_world_base) @ T_world[None],
+        T_flange_tool=scene.T_flange_tool,
+    )
+    assert np.any(ik.valid & ik.within_limits)
+    assert result.reached[..., 2].all()
+    for candidate in result.best:
+        # the reported configuration puts the TCP on the turned target (forward kinematics)
+        q = result.q[candidate.index][2]
+        tcp = scene.T_world_base @ fk_tool(scene.robot, q[None], scene.T_flange_tool)[0]
+        np.testing.assert_allclose(tcp[:2, 3], T_world[:2, 3], atol=1e-6)
+    checked = 0
+    for candidate in result.best[:BLENDED_TOP]:
+        if not result.reached[candidate.index].all():
+            continue
+        assert candidate.table_angle is not None
+        assert candidate.blended_cycle_time is not None
+        # reference: the path check on the applied candidate (cell_with_turntable_at), near
+        # and far pinned at their chosen angles, other keeping its pin on table-2
+        iy, ix, _, _ = candidate.index
+        edited = cell_with_turntable_at(
+            scene, "table-1", [1000.0 * grid.x[ix], 1000.0 * grid.y[iy], -100.0]
+        )
+        applied = edited.model_dump(mode="json", exclude_none=True)
+        for k in range(2):
+            angle = float(np.degrees(candidate.table_angle[k]))
+            applied["targets"][k]["external_axes"] = {"table-1": angle}
+        check = check_path(resolve_scene(validate_cell(applied)), 0)
+        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)
+        checked += 1
+    assert checked >= 1

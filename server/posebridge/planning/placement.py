@@ -89,11 +89,23 @@ clearance to fixtures and keep-outs with the base at that position; the
 carriage, which rides with the robot, is left out), and the candidate scored
 with the same score. The answer also gives the travel the reached targets
 need: their positions' span with :data:`RAIL_TRAVEL_MARGIN_M` at both ends,
-beside the configured travel. A turntable stays at its current angle.
+beside the configured travel.
+
+**Pinned axes** (one rule, as the path check resolves a target waypoint:
+:func:`posebridge.cell.scene.pinned_values`): a value a target pins (its
+``external_axes``) is used as given, never chosen. A pose whose target pins the
+track is solved at the pinned value alone, on every branch (reachable there or
+not); the value is along the track, so on a candidate line the base stands at the
+line's origin plus the value times its direction. A target on a turntable that
+pins its angle is solved with the table turned to the pin
+(:func:`posebridge.cell.external_kinematics.target_poses_at`), in every search;
+every other turntable stays at its current angle. The estimate and the blended
+time below take the same values.
 
 The rail candidate's **cycle time estimate** includes the track: each
 Cartesian waypoint is reached at its pose's track position on the candidate's
-branch and a joint-value waypoint at the track value its path states (the
+branch (a pinned one at the pin) and its turntables where the path check puts
+them, a joint-value waypoint at the track value its path states (the
 cell's current value where it gives none), a joint move runs the robot joints
 and the track (and any turntable) on one synchronised trapezoid over the
 ``n + m`` values, and a linear move lasts at least the track's own trapezoid
@@ -139,8 +151,14 @@ import numpy as np
 import numpy.typing as npt
 
 from posebridge.cell.clearance import cell_arm, clearance_scene, fixture_count
-from posebridge.cell.external_kinematics import AxisIntervals, branch_triples, feasible_intervals
-from posebridge.cell.scene import Scene
+from posebridge.cell.external_kinematics import (
+    AxisIntervals,
+    branch_triples,
+    carrier_axis,
+    feasible_intervals,
+    target_poses_at,
+)
+from posebridge.cell.scene import Scene, pinned_values
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.shapes import (
@@ -514,6 +532,9 @@ class _Rail:
     T_rail_base : (4, 4) robot base frame at track position 0 in the rail frame
     triple : (8,) row of the intervals' branch list for each row of BRANCHES
     samples : track positions of the interval sweep over the widened travel
+    pose_values : (P, m) the external values the path check puts each pose at
+        (:func:`_pose_values`), m or rad
+    pinned : (P,) the track value a pose's target pins, m, NaN where it pins none
     foot_z : height of the robot's foot above the carriage top (a base grid's mounts)
     """
 
@@ -525,6 +546,8 @@ class _Rail:
     T_rail_base: FloatArray
     triple: npt.NDArray[np.int64]
     samples: int
+    pose_values: FloatArray
+    pinned: FloatArray
     foot_z: float = 0.0
 
 
@@ -1027,14 +1050,23 @@ def _track_positions(problem: _Problem, rail: _Rail, T_rail: FloatArray) -> Floa
     :func:`posebridge.cell.external_kinematics.feasible_intervals`, computed in the
     current rail's coordinates with the poses moved by the rail's change); a target and
     its approach pose share one position, in the intersection of their intervals. NaN
-    where the branch reaches the pose from no position.
+    where the branch reaches the pose from no position. A pose whose target pins the
+    track is at the pinned value on every branch (reachable there or not), as the path
+    check puts it.
     """
     C, P = T_rail.shape[0], problem.T_world_pose.shape[0]
-    moved = rail.T_world_rail @ invert_transform(T_rail)[:, None] @ problem.T_world_pose[None]
-    found = feasible_intervals(rail.scene, moved.reshape(-1, 4, 4), 0, samples=rail.samples)
-    return _chosen_axis_values(problem, np.arange(P), found, rail.triple).reshape(
-        C, P, BRANCHES.shape[0]
-    )
+    chosen = np.full((C, P, BRANCHES.shape[0]), np.nan)
+    free = np.flatnonzero(np.isnan(rail.pinned))
+    if free.size:
+        T_world_pose = problem.T_world_pose[free]
+        moved = rail.T_world_rail @ invert_transform(T_rail)[:, None] @ T_world_pose[None]
+        found = feasible_intervals(rail.scene, moved.reshape(-1, 4, 4), 0, samples=rail.samples)
+        chosen[:, free] = _chosen_axis_values(problem, free, found, rail.triple).reshape(
+            C, free.size, BRANCHES.shape[0]
+        )
+    pinned = np.flatnonzero(np.isfinite(rail.pinned))
+    chosen[:, pinned] = rail.pinned[pinned, None]
+    return chosen
 
 
 def _chosen_axis_values(
@@ -1134,8 +1166,10 @@ def _rail_chunk(
     for b in range(B):
         counting[:, :, b, :, b] = free[:, :, b]
     external = rail.scene.external
-    values = np.broadcast_to(external.values, (C, P, B, M, external.count)).copy()
-    values[..., 0] = s[..., None]  # the track; turntables stay at their current angles
+    values = np.broadcast_to(
+        rail.pose_values[None, :, None, None], (C, P, B, M, external.count)
+    ).copy()
+    values[..., 0] = s[..., None]  # the track; turntables where the path check puts them
     scores = _chunk_scores(
         problem,
         counting.reshape(C, P, B * M, B),
@@ -1165,6 +1199,7 @@ def _rail(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Rail:
     T_rail_base[2, 3] = track.carriage_height
     T_rail_base = T_rail_base @ track.T_carriage_base
     direction = track.direction
+    pose_values = _pose_values(scene, problem)
     rail = _Rail(
         scene=scene,
         T_world_rail=track.T_world_rail,
@@ -1174,6 +1209,8 @@ def _rail(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Rail:
         T_rail_base=T_rail_base,
         triple=_branch_rows(scene),
         samples=2,
+        pose_values=pose_values,
+        pinned=np.where(_pose_pins(scene, problem)[:, 0], pose_values[:, 0], np.nan),
         foot_z=float(m_from_mm(scene.cell.base.position_mm[2])),
     )
     # every pose's track coordinate on every candidate line, then the base's reach around it
@@ -1247,6 +1284,8 @@ def _rail_details(
                 float(clearance_batch(support, q[k][None]).distance[0]),
             )
             reasons.append("")
+        elif np.isfinite(rail.pinned[p]):
+            reasons.append(_pinned_track_reason(problem, rail, T_rail[0], k, branch))
         elif not np.any(placed):
             reasons.append("out of reach within the joint limits from every track position")
         elif not np.any(placed & required):
@@ -1258,14 +1297,94 @@ def _rail_details(
     return T_rail[0], reasons, clearance, s[:, branch]
 
 
+def _pose_pins(scene: Scene, problem: _Problem | None = None) -> BoolArray:
+    """Whether each pose's target pins each external axis, shape (P, m) (False for a path's world pose).
+
+    The rows follow ``problem``'s poses (a target's pose, then its approach pose); without
+    ``problem`` one row per target, shape (K, m).
+    """
+    external = scene.external
+    names = list(external.names)
+    pins = np.zeros((len(scene.cell.targets), external.count), dtype=bool)
+    for k, target in enumerate(scene.cell.targets):
+        pins[k] = [name in target.external_axes for name in names]
+    if problem is None:
+        return pins
+    out = np.zeros((problem.T_world_pose.shape[0], external.count), dtype=bool)
+    out[problem.target_pose] = pins
+    has = problem.approach_pose >= 0
+    out[problem.approach_pose[has]] = pins[has]
+    return out
+
+
+def _pose_values(scene: Scene, problem: _Problem) -> FloatArray:
+    """External values the path check puts each pose at, m or rad, shape (P, m).
+
+    A target's pose and its approach pose: the cell's values with the target's pins
+    (:func:`posebridge.cell.scene.pinned_values`, as a target waypoint resolves); a path's
+    world pose: the cell's values.
+    """
+    external = scene.external
+    values = np.broadcast_to(
+        external.values, (problem.T_world_pose.shape[0], external.count)
+    ).copy()
+    for k, target in enumerate(scene.cell.targets):
+        pinned = pinned_values(external, target.external_axes)
+        values[problem.target_pose[k]] = pinned
+        if problem.approach_pose[k] >= 0:
+            values[problem.approach_pose[k]] = pinned
+    return values
+
+
+def _pinned_track_reason(
+    problem: _Problem, rail: _Rail, T_world_rail: FloatArray, k: int, branch: int
+) -> str:
+    """Why target ``k``, pinned on the track, is not reached on ``branch`` from its pinned value.
+
+    Its pose, then its approach pose, solved with the base at the pinned track value on the
+    rail ``T_world_rail`` (4, 4); the first failing test: reach, joint limits, the required
+    branch, the candidate's branch, else collision there.
+    """
+    for p, prefix in (
+        (int(problem.target_pose[k]), ""),
+        (int(problem.approach_pose[k]), "approach pose "),
+    ):
+        if p < 0:
+            continue
+        T_world_base = T_world_rail.copy()
+        T_world_base[:3, 3] += rail.pinned[p] * T_world_base[:3, 0]
+        T_base_pose = invert_transform(T_world_base @ rail.T_rail_base) @ problem.T_world_pose[p]
+        ik = problem.solver.solve(T_base_pose[None], T_flange_tool=problem.T_flange_tool)
+        labels = np.stack([ik.shoulder, ik.elbow, ik.wrist], axis=2)[0]
+        within = (ik.valid & ik.within_limits)[0]
+        required = within & labels_match(labels, problem.requirement[p])
+        if not np.any(ik.valid):
+            return f"{prefix}out of reach at the pinned track position"
+        if not np.any(within):
+            return f"{prefix}outside the joint limits at the pinned track position"
+        if not np.any(required):
+            return f"{prefix}not reachable on the required branch at the pinned track position"
+        if not np.any(required & labels_match(labels, BRANCHES[branch])):
+            return "reachable only on another branch than the candidate's"
+    return "in collision at the pinned track position on the candidate's branch"
+
+
 def _problem(
-    scene: Scene, margin_m: float, clearance_goal_m: float, *, rail: bool = False
+    scene: Scene,
+    margin_m: float,
+    clearance_goal_m: float,
+    *,
+    rail: bool = False,
+    searched_table: int = -1,
 ) -> _Problem:
     """Poses, requirements, path structure and obstacles of the search (module docstring).
 
     On a cell with a track (``rail``: every search there, :func:`search_base_placement`)
     the track's carriage, which rides with the robot, is left out of the obstacles and
-    the foot stands on the carriage at the track's height.
+    the foot stands on the carriage at the track's height. A target on a turntable whose
+    angle it pins is posed where the path check puts it, the table turned to the pin
+    (:func:`posebridge.cell.external_kinematics.target_poses_at`), except on the table a
+    table search moves (``searched_table``, external index), which poses it itself.
     """
     targets = scene.targets
     if len(targets.names) == 0:
@@ -1274,16 +1393,23 @@ def _problem(
     requirement: list[npt.NDArray[np.int8]] = []
     target_pose, approach_pose = [], []
     key: dict[tuple[int, bool], int] = {}
+    pins = _pose_pins(scene)
     for k in range(len(targets.names)):
         required = branch_requirement(targets.branches[k])
+        carrier = carrier_axis(scene, k)
+        T_target, T_approach = targets.T_world_target[k], targets.T_world_approach[k]
+        if carrier >= 0 and carrier != searched_table and pins[k, carrier]:
+            at = pinned_values(scene.external, scene.cell.targets[k].external_axes)[None]
+            T_target = target_poses_at(scene, k, at)[0]
+            T_approach = target_poses_at(scene, k, at, approach=True)[0]
         key[(k, False)] = len(poses)
         target_pose.append(len(poses))
-        poses.append(targets.T_world_target[k])
+        poses.append(T_target)
         requirement.append(required)
         if targets.approach_offset[k] > 0.0:
             key[(k, True)] = len(poses)
             approach_pose.append(len(poses))
-            poses.append(targets.T_world_approach[k])
+            poses.append(T_approach)
             requirement.append(required)
         else:
             key[(k, True)] = len(poses) - 1

@@ -14,6 +14,14 @@ with ``D_p0`` the table's turn about its current axis line
 (:func:`posebridge.cell.external_axes.turntable_motion`; a turn about the moved
 line is ``Trans(delta) D_p0 Trans(-delta)``) and ``theta_0`` its current angle.
 
+**Pinned axes** (one rule, as the path check resolves a target waypoint:
+:func:`posebridge.cell.scene.pinned_values`): a value a target pins (its
+``external_axes``) is used as given, never chosen. A carried pose whose target pins
+the searched table is solved at the pinned angle alone (reachable there or not); a
+target on another turntable that pins it is solved with that table turned to the pin
+(:func:`posebridge.cell.external_kinematics.target_poses_at`, in
+:func:`posebridge.planning.placement._problem`); the track is below.
+
 **Where the robot stands** (a cell with a track too): every pose is solved with the
 robot's base where the track puts it for that pose as the path check does, so the
 estimate and the blended time below agree: a target and its approach pose at the
@@ -24,16 +32,16 @@ choice rule of :func:`posebridge.cell.external_kinematics.choose_external_value`
 which keeps pinned values too, is not run). The poses that share a base share one
 interval call and one clearance span; a cell without a track has one base.
 
-Each carried pose is reached from its own table angle: per pose and branch, the
-middle of the longest feasible interval of the table angle
+Each carried pose whose target pins no table angle is reached from its own table
+angle: per pose and branch, the middle of the longest feasible interval of the table angle
 (:func:`posebridge.cell.external_kinematics.feasible_intervals` over the
 configured range, swept every :data:`TABLE_SWEEP_SPACING_RAD` and refined to
 0.01 deg; reach and joint limits), with the robot's base (the pose's) moved by
 ``-delta`` (the same relative placement as the table moved by ``+delta``); a
 target and its approach pose share one angle in the intersection of their
 intervals, as the rail search does (:mod:`posebridge.planning.placement`).
-Poses the table does not carry are solved where they are, the table at its
-current angle.
+Poses the table does not carry are solved where they are (another table at
+its pin), the table at its current angle.
 The poses are then solved there and counted and scored exactly as the base and
 rail searches do (:func:`posebridge.planning.placement._chunk_scores`: score,
 ties, score noise). Clearance: the arm against the fixed obstacles with the base
@@ -42,14 +50,14 @@ turned poses, checked as the arm moved by the inverse of the table's motion
 against them unmoved (distances do not change under a rigid motion of both).
 
 **Cycle time estimate** (rest to rest, as the other searches): a joint move
-runs the robot joints, the track (a cell with one) and the table angle on one
-synchronised trapezoid over ``n + 1`` (``n + 2``) values
+runs the robot joints, the other external axes (a track, other tables) and the
+table angle on one synchronised trapezoid over ``n + m`` values
 (:func:`posebridge.planning.cycle_time.joint_move_durations` with the axes'
 speed and acceleration limits); a linear move lasts the longer of its TCP
-trapezoid and the axes' own move between its ends. The track's value at a
-waypoint is the path's (a target's pin, a joint waypoint's given value, else
-the current value: where the pose is solved). A waypoint on
-the table takes its pose's chosen angle, a joint waypoint its given table value,
+trapezoid and the axes' own move between its ends. The other axes' values at a
+waypoint are the path's (a target's pin, a joint waypoint's given value, else
+the current value: where the pose is solved). A target waypoint pinning the
+table takes the pin, a waypoint on the table its pose's chosen angle, a joint waypoint its given table value,
 any other waypoint holds the angle of the waypoint before it in its path (the
 first ones that of the first waypoint with an angle; the current angle when no
 waypoint has one).
@@ -82,7 +90,7 @@ import numpy.typing as npt
 
 from posebridge.cell.external_axes import turntable_motion
 from posebridge.cell.external_kinematics import carrier_axis, feasible_intervals
-from posebridge.cell.scene import ResolvedPath, Scene, pinned_values
+from posebridge.cell.scene import ResolvedPath, Scene
 from posebridge.compute import Executor, ProgressCallback, run_chunks
 from posebridge.geometry.clearance import ClearanceScene, clearance_batch, collision_batch
 from posebridge.geometry.shapes import ObstacleSet, default_pair_mask
@@ -104,6 +112,8 @@ from posebridge.planning.placement import (
     _GridScores,
     _own_scenes,
     _paths_blended_cycle_time,
+    _pose_pins,
+    _pose_values,
     _Problem,
     _problem,
     _ranked_rows,
@@ -216,6 +226,7 @@ class _Table:
     carried : (P,) the pose rides the table
     pose_values : (P, m) the cell's external values at each pose as the path check takes a
         target waypoint's (:func:`posebridge.cell.scene.pinned_values`), m or rad
+    pinned : (P,) the table angle a pose's target pins, rad, NaN where it pins none
     T_world_base : (P, 4, 4) the robot's base at each pose (where the track puts it there)
     base_group : (P,) index of each pose's base among the distinct ones
     fixed, fixed_mask : obstacles that stay and the arm's pairs with them
@@ -231,6 +242,7 @@ class _Table:
     angle0: float
     carried: BoolArray
     pose_values: FloatArray
+    pinned: FloatArray
     T_world_base: FloatArray
     base_group: npt.NDArray[np.int64]
     fixed: ObstacleSet
@@ -246,12 +258,13 @@ def _waypoint_angle_sources(
 ) -> list[tuple[int, float]]:
     """Where each waypoint's table angle comes from: (pose, NaN) or (-1, angle), rad (module docstring).
 
-    A waypoint on the table takes its pose's angle, a joint waypoint its given table value,
-    any other waypoint holds the angle of the waypoint before it in its path (the first
+    A target waypoint whose target pins the table takes the pin, a waypoint on the table
+    its pose's angle, a joint waypoint its given table value, any other waypoint holds the angle of the waypoint before it in its path (the first
     ones that of the first waypoint with an angle, the current angle when none has one).
     Pose indices of target waypoints follow :func:`posebridge.planning.placement._problem`.
     """
     angle0 = float(scene.external.values[axis])
+    axis_name = scene.external.names[axis]
     specs: list[tuple[int, float] | None] = []
     for w, source in enumerate(path.sources):
         if source == "joints":
@@ -263,7 +276,10 @@ def _waypoint_angle_sources(
             k = int(path.target_index[w])
             approach = bool(path.approach[w]) and problem.approach_pose[k] >= 0
             p = int(problem.approach_pose[k] if approach else problem.target_pose[k])
-            specs.append((p, math.nan) if carried[p] else None)
+            if axis_name in scene.cell.targets[k].external_axes:  # pinned: as the path check
+                specs.append((-1, float(path.external[w, axis])))
+            else:
+                specs.append((p, math.nan) if carried[p] else None)
     known = [spec for spec in specs if spec is not None]
     held = known[0] if known else (-1, angle0)
     filled = []
@@ -274,17 +290,18 @@ def _waypoint_angle_sources(
 
 
 def _estimate_axes(scene: Scene, axis: int) -> list[int]:
-    """External axes the cycle estimate times: the track (when the cell has one), then the table."""
-    return [axis] if scene.external.track is None else [0, axis]
+    """External axes the cycle estimate times: every other axis (a track, other tables), then the table."""
+    return [a for a in range(scene.external.count) if a != axis] + [axis]
 
 
 def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray) -> _AxisMoves:
     """Where the axes' values at both ends of every move of the cell's paths come from (module docstring).
 
-    Per axis of :func:`_estimate_axes`: the track's value is the path's (a target's pin, a
-    joint waypoint's given value, else the cell's); for the table a waypoint on it takes
-    its pose's angle, a joint waypoint its given table value, any other waypoint holds
-    the angle of the waypoint before it in its path. Pose indices of target waypoints
+    Per axis of :func:`_estimate_axes`: another axis's value (a track, another table) is
+    the path's (a target's pin, a joint waypoint's given value, else the cell's); for the
+    table a target waypoint pinning it takes the pin, a waypoint on it its pose's angle, a
+    joint waypoint its given table value, any other waypoint holds the angle of the
+    waypoint before it in its path. Pose indices of target waypoints
     follow :func:`posebridge.planning.placement._problem`.
     """
     axes = _estimate_axes(scene, axis)
@@ -299,7 +316,7 @@ def _table_moves(scene: Scene, problem: _Problem, axis: int, carried: BoolArray)
             end_sources, end_values = [], []
             for v in (w - 1, w):
                 pose, angle = filled[v]
-                track = [float(path.external[v, 0])] if len(axes) > 1 else []
+                track = [float(path.external[v, a]) for a in axes[:-1]]
                 end_sources.append([-1] * len(track) + [pose])
                 end_values.append([*track, angle])
             sources.append(end_sources)
@@ -352,6 +369,7 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
         angle0=float(external.values[axis]),
         carried=carried,
         pose_values=pose_values,
+        pinned=np.where(_pose_pins(scene, problem)[:, axis], pose_values[:, axis], np.nan),
         T_world_base=T_world_base,
         base_group=base_group.reshape(-1).astype(np.int64),
         fixed=fixed,
@@ -361,25 +379,6 @@ def _table(scene: Scene, grid: PlacementGrid, problem: _Problem) -> _Table:
         triple=_branch_rows(scene),
         samples=max(2, int(np.ceil(span / TABLE_SWEEP_SPACING_RAD)) + 1),
     )
-
-
-def _pose_values(scene: Scene, problem: _Problem) -> FloatArray:
-    """External values the path check puts each pose at, m or rad, shape (P, m) (module docstring).
-
-    A target's pose and its approach pose: the cell's values with the target's pins
-    (:func:`posebridge.cell.scene.pinned_values`, as a target waypoint resolves); a path's
-    world pose: the cell's values.
-    """
-    external = scene.external
-    values = np.broadcast_to(
-        external.values, (problem.T_world_pose.shape[0], external.count)
-    ).copy()
-    for k, target in enumerate(scene.cell.targets):
-        pinned = pinned_values(external, target.external_axes)
-        values[problem.target_pose[k]] = pinned
-        if problem.approach_pose[k] >= 0:
-            values[problem.approach_pose[k]] = pinned
-    return values
 
 
 def _shifts(table: _Table, grid: PlacementGrid, start: int, stop: int) -> FloatArray:
@@ -394,13 +393,16 @@ def _shifts(table: _Table, grid: PlacementGrid, start: int, stop: int) -> FloatA
 def _table_angles(problem: _Problem, table: _Table, shift: FloatArray) -> FloatArray:
     """Table angle of every pose on every branch at each candidate position, rad, shape (C, P, 8).
 
-    Carried poses: the middle of the longest feasible interval (module docstring), NaN
-    where the branch reaches the pose at no angle; other poses: the current angle.
+    Carried poses: the angle their target pins (on every branch, reachable there or not),
+    else the middle of the longest feasible interval (module docstring), NaN where the
+    branch reaches the pose at no angle; other poses: the current angle.
     """
     C, P = shift.shape[0], problem.T_world_pose.shape[0]
     theta = np.full((C, P, BRANCHES.shape[0]), np.nan)
     theta[:, ~table.carried] = table.angle0
-    carried = np.flatnonzero(table.carried)
+    pinned = table.carried & np.isfinite(table.pinned)
+    theta[:, pinned] = table.pinned[pinned, None]
+    carried = np.flatnonzero(table.carried & ~pinned)
     groups = [carried[table.base_group[carried] == g] for g in np.unique(table.base_group[carried])]
     for c in range(C):
         T_move = np.eye(4)
@@ -552,9 +554,11 @@ def _table_chunk(
     counting = diagonal.reshape(C, P, B * M, B)
     q = solved.q.reshape(C, P, B * M, n)
     theta = np.broadcast_to(solved.theta[..., None, None], (C, P, B, M, 1))
-    if table.scene.external.track is not None:  # the track where each pose is solved
-        track = np.broadcast_to(table.pose_values[:, 0, None, None, None], (C, P, B, M, 1))
-        theta = np.concatenate([track, theta], axis=4)
+    others = _estimate_axes(table.scene, table.axis)[:-1]
+    if others:  # the other axes where the path check puts each pose (a track, other tables)
+        values = table.pose_values[:, others][:, None, None]
+        values = np.broadcast_to(values, (C, P, B, M, len(others)))
+        theta = np.concatenate([values, theta], axis=4)
     scores = _chunk_scores(
         problem,
         counting,
@@ -588,8 +592,15 @@ def search_table_placement(
     """
     _check_search_arguments(top, collision_margin_m, clearance_goal_m)
     grid = table_grid(scene) if grid is None else grid
-    # rail=True: on a track the foot stands on the carriage, which rides with the robot
-    problem = _problem(scene, float(collision_margin_m), float(clearance_goal_m), rail=True)
+    # rail=True: on a track the foot stands on the carriage, which rides with the robot; the
+    # searched table's carried poses are posed by the search, other tables' at their pins
+    problem = _problem(
+        scene,
+        float(collision_margin_m),
+        float(clearance_goal_m),
+        rail=True,
+        searched_table=-1 if grid.table_axis is None else grid.table_axis,
+    )
     table = _table(scene, grid, problem)
     problem = replace(problem, axis_moves=_table_moves(scene, problem, table.axis, table.carried))
     size = grid.size
@@ -692,20 +703,25 @@ def _table_blended_cycle_time(
     return _paths_blended_cycle_time(scene_with_table_at(scene, table.axis, xy, angles))
 
 
-def _pose_reason(solved: _Solved, carried: bool, p: int, branch: int) -> str:
-    """Why pose ``p`` of a one-candidate solve is not reached on ``branch`` (``""`` if it is)."""
-    if carried and not np.any(solved.placed[0, p]):
+def _pose_reason(solved: _Solved, carried: bool, pinned: bool, p: int, branch: int) -> str:
+    """Why pose ``p`` of a one-candidate solve is not reached on ``branch`` (``""`` if it is).
+
+    A carried pose whose target pins the table is tested at the pinned angle alone.
+    """
+    chosen = carried and not pinned
+    at = " at the pinned table angle" if carried and pinned else ""
+    if chosen and not np.any(solved.placed[0, p]):
         return "out of reach within the joint limits at every table angle"
-    if not carried and not np.any(solved.valid[0, p]):
-        return "out of reach"
-    if not carried and not np.any(solved.within[0, p]):
-        return "outside the joint limits on every branch"
+    if not chosen and not np.any(solved.valid[0, p]):
+        return f"out of reach{at}"
+    if not chosen and not np.any(solved.within[0, p]):
+        return f"outside the joint limits on every branch{at}"
     if not np.any(solved.allowed[0, p]):
-        return "not reachable on the required branch" + (" at any table angle" if carried else "")
+        return "not reachable on the required branch" + (" at any table angle" if chosen else at)
     if not np.any(solved.allowed[0, p, branch]):
         return "reachable only on another branch than the candidate's"
     if not np.any(solved.free[0, p, branch]):
-        where = " at the chosen table angle" if carried else ""
+        where = " at the chosen table angle" if chosen else at
         return f"in collision{where} on the candidate's branch"
     return ""
 
@@ -744,10 +760,11 @@ def _details(
             clearance[k] = min(distances)
             reasons.append("")
             continue
-        reason = _pose_reason(solved, bool(table.carried[p]), p, branch)
+        pinned = bool(np.isfinite(table.pinned[p]))
+        reason = _pose_reason(solved, bool(table.carried[p]), pinned, p, branch)
         a = int(problem.approach_pose[k])
         if not reason and a >= 0:
-            reason = _pose_reason(solved, bool(table.carried[a]), a, branch)
+            reason = _pose_reason(solved, bool(table.carried[a]), pinned, a, branch)
             reason = f"approach pose {reason}" if reason else ""
         reasons.append(reason or "reachable only on another branch than the candidate's")
     return reasons, clearance, solved.theta[0, :, branch]
