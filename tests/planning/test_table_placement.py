@@ -19,7 +19,12 @@ from posebridge.kinematics.fk import fk_tool
 from posebridge.kinematics.ik import solve_ik_all
 from posebridge.planning.errors import PlanningInputError
 from posebridge.planning.path_check import check_path
-from posebridge.planning.placement import BLENDED_TOP, BRANCHES
+from posebridge.planning.placement import (
+    BLENDED_TOP,
+    BRANCHES,
+    PlacementGrid,
+    RankedCandidate,
+)
 from posebridge.planning.placement_table import (
     search_mode,
     search_table_placement,
@@ -336,6 +341,30 @@ def test_scene_with_table_at_matches_the_cell_file_edit() -> None:
     np.testing.assert_allclose(moved.paths[0].external[:, 0], [0.3, 0.0, -1.2])  # the input above
 
 
+def _applied_cell(
+    scene: Scene, grid: PlacementGrid, candidate: RankedCandidate, angles: dict[int, float]
+) -> dict[str, Any]:
+    """Return the cell with a table candidate applied, as JSON data.
+
+    The edit of cell_with_turntable_at (table-1 at the candidate's grid point, its height
+    -100 mm as in these cells), target ``k`` pinned at ``angles[k]`` rad on table-1, every
+    other target as the edit leaves it.
+    """
+    iy, ix, _, _ = candidate.index
+    edited = cell_with_turntable_at(
+        scene, "table-1", [1000.0 * grid.x[ix], 1000.0 * grid.y[iy], -100.0]
+    )
+    applied = edited.model_dump(mode="json", exclude_none=True)
+    for k, angle in angles.items():
+        applied["targets"][k]["external_axes"] = {"table-1": float(np.degrees(angle))}
+    return applied
+
+
+def _blended_total(applied: dict[str, Any]) -> float:
+    """Return the path check's blended cycle time of the cell's first path (path_check)."""
+    return check_path(resolve_scene(validate_cell(applied)), 0).blended.total
+
+
 def test_blended_cycle_time_of_a_table_candidate_matches_the_path_check() -> None:
     data = table_cell_data(path=True)
     data["paths"][0]["waypoints"][0]["blend_mm"] = 50.0
@@ -352,17 +381,12 @@ def test_blended_cycle_time_of_a_table_candidate_matches_the_path_check() -> Non
             continue
         assert candidate.table_angle is not None
         assert candidate.blended_cycle_time is not None
-        iy, ix, _, _ = candidate.index
         # reference: the path check (path_check / blended_timing) run on the applied candidate:
         # the cell edited by cell_with_turntable_at, each target pinned at its chosen angle
-        edited = cell_with_turntable_at(
-            scene, "table-1", [1000.0 * grid.x[ix], 1000.0 * grid.y[iy], -100.0]
-        )
-        pinned = edited.model_dump(mode="json", exclude_none=True)
-        for target, angle in zip(pinned["targets"], candidate.table_angle, strict=True):
-            target["external_axes"] = {"table-1": float(np.degrees(angle))}
-        check = check_path(resolve_scene(validate_cell(pinned)), 0)
-        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)
+        angles = dict(enumerate(candidate.table_angle))
+        assert len(angles) == len(scene.cell.targets)
+        total = _blended_total(_applied_cell(scene, grid, candidate, angles))
+        assert candidate.blended_cycle_time == pytest.approx(total, rel=1e-6)
         checked += 1
     assert checked >= 2
     assert len(result.best) > BLENDED_TOP
@@ -525,16 +549,10 @@ def test_a_target_pinned_on_the_searched_table_is_solved_at_its_pin() -> None:
         assert candidate.blended_cycle_time is not None
         # reference: the path check on the applied candidate (cell_with_turntable_at), near
         # keeping its pin and far pinned at its chosen angle
-        iy, ix, _, _ = candidate.index
-        edited = cell_with_turntable_at(
-            scene, "table-1", [1000.0 * grid.x[ix], 1000.0 * grid.y[iy], -100.0]
-        )
-        applied = edited.model_dump(mode="json", exclude_none=True)
+        applied = _applied_cell(scene, grid, candidate, {1: candidate.table_angle[1]})
         assert applied["targets"][0]["external_axes"] == {"table-1": TABLE_PIN_DEG}
-        far = float(np.degrees(candidate.table_angle[1]))
-        applied["targets"][1]["external_axes"] = {"table-1": far}
-        check = check_path(resolve_scene(validate_cell(applied)), 0)
-        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)
+        total = _blended_total(applied)
+        assert candidate.blended_cycle_time == pytest.approx(total, rel=1e-6)
         checked += 1
     assert checked >= 1
 
@@ -611,15 +629,8 @@ def test_a_target_pinned_on_another_table_is_solved_with_that_table_turned() -> 
         assert candidate.blended_cycle_time is not None
         # reference: the path check on the applied candidate (cell_with_turntable_at), near
         # and far pinned at their chosen angles, other keeping its pin on table-2
-        iy, ix, _, _ = candidate.index
-        edited = cell_with_turntable_at(
-            scene, "table-1", [1000.0 * grid.x[ix], 1000.0 * grid.y[iy], -100.0]
-        )
-        applied = edited.model_dump(mode="json", exclude_none=True)
-        for k in range(2):
-            angle = float(np.degrees(candidate.table_angle[k]))
-            applied["targets"][k]["external_axes"] = {"table-1": angle}
-        check = check_path(resolve_scene(validate_cell(applied)), 0)
-        assert candidate.blended_cycle_time == pytest.approx(check.blended.total, rel=1e-6)
+        angles = {k: candidate.table_angle[k] for k in range(2)}
+        total = _blended_total(_applied_cell(scene, grid, candidate, angles))
+        assert candidate.blended_cycle_time == pytest.approx(total, rel=1e-6)
         checked += 1
     assert checked >= 1
